@@ -1,0 +1,99 @@
+"""The ``faciesseq`` command line: a thin layer over the Python API.
+
+Only this package prints, exits or reads ``sys.argv``. Each subcommand lives in
+its own module here, exposing ``register(subparsers)``; heavy libraries are
+imported inside the command functions so that ``faciesseq --help`` and short
+commands start fast.
+
+Exit codes: 0 success; 1 the data has errors; 2 usage or configuration error;
+130 interrupted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from faciesseq._version import __version__
+
+#: Subcommand modules, in the order ``--help`` lists them.
+COMMANDS = (
+    "check",
+    "scheme",
+    "markov",
+    "simulate",
+    "fit",
+    "decode",
+    "validate",
+    "appendix",
+    "demo",
+)
+
+EPILOG = """\
+examples:
+  faciesseq demo                                   run the whole job on the bundled demo cores
+  faciesseq check cores.csv --scheme configs/scheme-shoreface.yaml
+  faciesseq check logs.csv --layout samples --column core="Well Name" \\
+      --column depth=Depth --column facies=Facies --units ft
+  faciesseq scheme draft cores.xlsx -o my-scheme.yaml
+  faciesseq markov cores.csv --scheme my-scheme.yaml --format json
+
+Depth is positive downward; successions are analysed base to top (older to younger).
+Interpretations are an aid to a geologist's judgement, not a substitute for it.
+"""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with exit code 2 and a one-line error for usage mistakes."""
+
+    def error(self, message: str) -> None:  # pragma: no cover - argparse path
+        self.print_usage(sys.stderr)
+        sys.stderr.write(f"faciesseq: error: {message}\n")
+        raise SystemExit(2)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="faciesseq",
+        description=(
+            "Facies successions of described cores: transition statistics, Markov-order and "
+            "cyclicity tests, a systems-tract hidden Markov model, surface probabilities and a "
+            "reproducible statistical appendix."
+        ),
+        epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"faciesseq {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMANDS:
+        try:
+            module = importlib.import_module(f"faciesseq.cli.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"faciesseq.cli.{name}":
+                continue  # command not built yet
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit code."""
+    from faciesseq.errors import FaciesseqError
+
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 2
+    try:
+        return int(args.func(args) or 0)
+    except FaciesseqError as exc:
+        sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
+        return exc.exit_code
+    except KeyboardInterrupt:
+        sys.stderr.write("faciesseq: interrupted\n")
+        return 130
+    except BrokenPipeError:
+        return 0

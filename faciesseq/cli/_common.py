@@ -1,0 +1,81 @@
+"""Options shared by every command that reads a core database."""
+
+from __future__ import annotations
+
+import argparse
+
+from faciesseq.errors import ConfigError
+
+
+def add_source_arguments(parser: argparse.ArgumentParser, scheme: bool = True) -> None:
+    """Add SOURCE and the reading options (layout, columns, units, sheet, table, query...)."""
+    parser.add_argument(
+        "source",
+        metavar="SOURCE",
+        help="CSV/TSV, XLSX, Parquet or LAS file, a folder of them, a SQLite file, "
+        "a SQLAlchemy URL (postgresql://...), or a YAML source file",
+    )
+    if scheme:
+        parser.add_argument("--scheme", metavar="FILE", help="facies scheme YAML")
+    group = parser.add_argument_group("reading the source")
+    group.add_argument(
+        "--layout",
+        choices=("intervals", "samples"),
+        help="intervals (top, base) or samples (depth); detected when omitted",
+    )
+    group.add_argument(
+        "--column",
+        action="append",
+        default=[],
+        metavar="ROLE=NAME",
+        help="map a column to a role (core, top, base, depth, facies, grain_size, "
+        "contact, tract, lithology); repeatable",
+    )
+    group.add_argument("--units", choices=("m", "ft"), help="depth units (when not in the source)")
+    group.add_argument("--sheet", help="Excel sheet name (default: the first)")
+    group.add_argument("--table", help="database table to read")
+    group.add_argument("--query", help="read-only SQL query to run instead of --table")
+    group.add_argument("--curve", help="LAS curve holding the facies codes")
+    group.add_argument(
+        "--keep-first",
+        action="store_true",
+        help="sample layout: keep the first of repeated depths (reported) instead of failing",
+    )
+
+
+def column_mapping(pairs: list[str]) -> dict[str, str]:
+    """Parse repeated ``ROLE=NAME`` options."""
+    mapping: dict[str, str] = {}
+    for pair in pairs:
+        role, sep, name = pair.partition("=")
+        if not sep or not role.strip() or not name:
+            raise ConfigError(f"--column expects ROLE=NAME, got {pair!r}")
+        mapping[role.strip().lower()] = name
+    return mapping
+
+
+def load_scheme_option(path: str | None):
+    """The facies scheme named by ``--scheme``, or ``None``."""
+    if not path:
+        return None
+    from faciesseq.scheme import load_scheme
+
+    return load_scheme(path)
+
+
+def read_source(args: argparse.Namespace, scheme=None):
+    """Read the core database named on the command line (see :func:`faciesseq.io.read_cores`)."""
+    from faciesseq.io import read_cores
+
+    return read_cores(
+        args.source,
+        layout=args.layout,
+        columns=column_mapping(args.column),
+        units=args.units,
+        sheet=args.sheet,
+        table=args.table,
+        query=args.query,
+        curve=args.curve,
+        scheme=scheme,
+        repeated_depths="keep-first" if args.keep_first else "error",
+    )

@@ -1,0 +1,375 @@
+"""Cores, core sets, beds and depth-grid successions.
+
+Conventions (used everywhere in the project):
+
+- Depth is positive downward, in the core set's ``units`` (``"m"`` or ``"ft"``).
+  An interval's ``top`` is shallower than its ``base``.
+- Interval and bed tables are kept in **depth order** (shallowest first), as a
+  core log is drawn.
+- A :class:`Succession` is the input of every statistic and model: it is in
+  **stratigraphic order, base to top** (oldest first), so "upward" transitions
+  are ``facies[i] -> facies[i + 1]``.
+- A gap (missing core, a sampling gap) splits a core into *segments*; no
+  transition is ever counted across a gap or across a core boundary.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Iterator, Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import InputError, Problem
+
+__all__ = ["FT_TO_M", "Core", "CoreSet", "Succession", "to_metres"]
+
+#: International foot, exactly (by definition, 1959).
+FT_TO_M = 0.3048
+
+#: Columns every interval table has; anything else is an attribute.
+REQUIRED = ("top", "base", "facies")
+#: Provenance columns kept for messages (1-based data row; source file).
+PROVENANCE = ("_file", "_row")
+#: Default tolerance (in depth units) below which two depths are "the same".
+DEPTH_TOL = 1e-6
+
+
+def to_metres(values: np.ndarray | float, units: str) -> np.ndarray | float:
+    """Convert depths or thicknesses from ``units`` (``"m"`` or ``"ft"``) to metres."""
+    if units == "m":
+        return values
+    if units == "ft":
+        return values * FT_TO_M
+    raise InputError(f"unknown depth units {units!r}; expected 'm' or 'ft'")
+
+
+@dataclass(frozen=True)
+class Succession:
+    """One unbroken succession of beds (or grid cells), base to top.
+
+    Attributes
+    ----------
+    core
+        Core identifier.
+    segment
+        Segment number within the core, counted from the top of the core
+        (0 = the shallowest unbroken stretch).
+    beds
+        Bed table in stratigraphic order (row 0 = the lowest, oldest bed):
+        ``top``, ``base``, ``thickness``, ``facies`` and any aggregated attributes.
+    units
+        Depth units of ``top``/``base``/``thickness``.
+    """
+
+    core: str
+    segment: int
+    beds: pd.DataFrame
+    units: str = "m"
+
+    @property
+    def facies(self) -> np.ndarray:
+        """Facies codes, base to top."""
+        return self.beds["facies"].to_numpy(dtype=object)
+
+    def __len__(self) -> int:
+        return len(self.beds)
+
+
+def _aggregate(group: pd.DataFrame, attributes: list[str]) -> dict:
+    """Attributes of a bed made of several intervals of one facies.
+
+    Numbers: thickness-weighted mean of the known values. Text: the value at
+    the base of the bed for ``contact`` (a bed's contact is its lower contact),
+    otherwise the value covering most thickness.
+    """
+    out: dict = {}
+    thick = (group["base"] - group["top"]).to_numpy(dtype=float)
+    for col in attributes:
+        values = group[col]
+        known = values.notna().to_numpy()
+        if not known.any():
+            out[col] = values.iloc[0]
+            continue
+        if col == "contact":
+            out[col] = values[known].iloc[-1]
+        elif pd.api.types.is_numeric_dtype(values):
+            w = thick[known]
+            v = values.to_numpy(dtype=float)[known]
+            out[col] = float(np.average(v, weights=w)) if w.sum() > 0 else float(v.mean())
+        else:
+            weights = pd.Series(thick[known], index=values[known].to_numpy())
+            out[col] = weights.groupby(level=0, sort=False).sum().idxmax()
+    return out
+
+
+@dataclass(frozen=True)
+class Core:
+    """One described core: its intervals in depth order.
+
+    Parameters
+    ----------
+    name
+        Core (well) identifier, as in the database.
+    intervals
+        Table with at least ``top``, ``base`` (depth, positive downward) and
+        ``facies`` (scheme code, text); other columns are attributes (e.g.
+        ``grain_size``, ``contact``, ``tract``). Optional ``_file`` and
+        ``_row`` columns record where each interval came from.
+    units
+        ``"m"`` or ``"ft"``.
+    """
+
+    name: str
+    intervals: pd.DataFrame
+    units: str = "m"
+
+    def __post_init__(self) -> None:
+        missing = [c for c in REQUIRED if c not in self.intervals.columns]
+        if missing:
+            raise InputError(f"interval table lacks column(s) {missing}", core=self.name)
+        table = self.intervals.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+        table["facies"] = table["facies"].astype(str)
+        object.__setattr__(self, "intervals", table)
+
+    @property
+    def attributes(self) -> list[str]:
+        """Attribute columns (everything but top, base, facies and provenance)."""
+        return [c for c in self.intervals.columns if c not in REQUIRED + PROVENANCE]
+
+    @property
+    def top(self) -> float:
+        return float(self.intervals["top"].iloc[0]) if len(self.intervals) else float("nan")
+
+    @property
+    def base(self) -> float:
+        return float(self.intervals["base"].max()) if len(self.intervals) else float("nan")
+
+    @property
+    def thickness(self) -> float:
+        """Cored (described) thickness, gaps excluded."""
+        return float((self.intervals["base"] - self.intervals["top"]).sum())
+
+    def __len__(self) -> int:
+        return len(self.intervals)
+
+    def segment_ids(self, tolerance: float = DEPTH_TOL) -> np.ndarray:
+        """Segment number of each interval: a new segment starts after each gap."""
+        top = self.intervals["top"].to_numpy(dtype=float)
+        base = self.intervals["base"].to_numpy(dtype=float)
+        if len(top) == 0:
+            return np.zeros(0, dtype=int)
+        gap = np.r_[False, top[1:] - base[:-1] > tolerance]
+        return np.cumsum(gap)
+
+    def gaps(self, tolerance: float = DEPTH_TOL) -> list[tuple[float, float]]:
+        """``(top, base)`` of every gap between described intervals."""
+        top = self.intervals["top"].to_numpy(dtype=float)
+        base = self.intervals["base"].to_numpy(dtype=float)
+        idx = np.nonzero(top[1:] - base[:-1] > tolerance)[0]
+        return [(float(base[i]), float(top[i + 1])) for i in idx]
+
+    def beds(self, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
+        """Beds: adjacent intervals of one facies amalgamated, in depth order.
+
+        Returns a table with ``segment``, ``top``, ``base``, ``thickness``,
+        ``facies``, ``n_intervals`` and the aggregated attributes (see
+        :func:`_aggregate`). A gap always ends a bed.
+        """
+        table = self.intervals
+        attrs = self.attributes
+        columns = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+        if len(table) == 0:
+            return pd.DataFrame(columns=columns)
+        segment = self.segment_ids(tolerance)
+        facies = table["facies"].to_numpy(dtype=object)
+        new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])]
+        bed_id = np.cumsum(new_bed) - 1
+        rows = []
+        for b, group in table.groupby(bed_id, sort=True):
+            first = int(np.searchsorted(bed_id, b))
+            row = {
+                "segment": int(segment[first]),
+                "top": float(group["top"].iloc[0]),
+                "base": float(group["base"].iloc[-1]),
+                "facies": str(group["facies"].iloc[0]),
+                "n_intervals": len(group),
+            }
+            row["thickness"] = row["base"] - row["top"]
+            row.update(_aggregate(group, attrs))
+            rows.append(row)
+        return pd.DataFrame(rows, columns=columns)
+
+    def grid(self, step: float, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
+        """Facies sampled on a regular depth grid of spacing ``step`` (depth units).
+
+        Cell ``k`` of a segment spans ``[top + k*step, top + (k+1)*step)`` from the
+        segment's top; each cell takes the facies (and attributes) of the interval
+        at its centre. Cells whose centre falls in a gap are not made, and the
+        grid restarts at the top of each segment. Depth order, with ``segment``,
+        ``top``, ``base``, ``thickness``, ``depth`` (cell centre), ``facies``.
+        """
+        if not step > 0:
+            raise InputError(f"grid step must be positive, got {step!r}", core=self.name)
+        table = self.intervals
+        attrs = self.attributes
+        segment = self.segment_ids(tolerance)
+        top = table["top"].to_numpy(dtype=float)
+        base = table["base"].to_numpy(dtype=float)
+        frames = []
+        for s in np.unique(segment):
+            sel = np.nonzero(segment == s)[0]
+            seg_top, seg_base = top[sel[0]], base[sel[-1]]
+            n = int(np.floor((seg_base - seg_top) / step + 1e-9))
+            if n == 0:
+                continue
+            centre = seg_top + (np.arange(n) + 0.5) * step
+            # intervals are sorted and contiguous within a segment
+            which = sel[np.clip(np.searchsorted(base[sel], centre, side="right"), 0, len(sel) - 1)]
+            cells = table.iloc[which][["facies", *attrs]].reset_index(drop=True)
+            cells.insert(0, "depth", centre)
+            cells.insert(0, "thickness", step)
+            cells.insert(0, "base", centre + step / 2)
+            cells.insert(0, "top", centre - step / 2)
+            cells.insert(0, "segment", int(s))
+            frames.append(cells)
+        if not frames:
+            return pd.DataFrame(
+                columns=["segment", "top", "base", "thickness", "depth", "facies", *attrs]
+            )
+        return pd.concat(frames, ignore_index=True)
+
+    def successions(
+        self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
+    ) -> list[Succession]:
+        """The core's unbroken successions, each base to top.
+
+        ``unit="beds"`` gives amalgamated beds (an embedded chain: no two
+        successive beds share a facies); ``unit="grid"`` gives depth-grid cells
+        of spacing ``step`` (self-transitions present).
+        """
+        if unit == "beds":
+            table = self.beds(tolerance)
+        elif unit == "grid":
+            if step is None:
+                raise InputError("unit 'grid' needs a step", core=self.name)
+            table = self.grid(step, tolerance)
+        else:
+            raise InputError(f"unknown unit {unit!r}; expected 'beds' or 'grid'")
+        out = []
+        for s, part in table.groupby("segment", sort=True):
+            beds = part.iloc[::-1].reset_index(drop=True)
+            out.append(Succession(self.name, int(s), beds, self.units))
+        return out
+
+
+@dataclass(frozen=True)
+class CoreSet:
+    """A core database held in memory: named cores with one depth unit.
+
+    ``problems`` lists what reading and validation found (errors, warnings and
+    repairs); a core set with errors may still be summarised (``faciesseq
+    check``) but :meth:`require_valid` refuses it for analysis.
+    """
+
+    cores: Mapping[str, Core]
+    units: str = "m"
+    problems: tuple[Problem, ...] = ()
+    sources: tuple[str, ...] = ()
+    meta: Mapping[str, object] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        for name, core in self.cores.items():
+            if core.units != self.units:
+                raise InputError(
+                    f"core is in {core.units!r} but the core set is in {self.units!r}", core=name
+                )
+        object.__setattr__(self, "cores", dict(self.cores))
+
+    @classmethod
+    def from_frame(
+        cls,
+        table: pd.DataFrame,
+        units: str = "m",
+        problems: Iterable[Problem] = (),
+        sources: Iterable[str] = (),
+    ) -> CoreSet:
+        """Build from one interval table with a ``core`` column (order kept by first appearance)."""
+        if "core" not in table.columns:
+            raise InputError("interval table lacks a 'core' column")
+        cores = {
+            str(name): Core(str(name), part.drop(columns="core").reset_index(drop=True), units)
+            for name, part in table.groupby(table["core"].astype(str), sort=False)
+        }
+        return cls(cores, units, tuple(problems), tuple(sources))
+
+    def to_frame(self, provenance: bool = False) -> pd.DataFrame:
+        """All intervals in one table (``core`` first), cores in order, depth order within."""
+        frames = []
+        for name, core in self.cores.items():
+            part = core.intervals.copy()
+            if not provenance:
+                part = part.drop(columns=[c for c in PROVENANCE if c in part.columns])
+            part.insert(0, "core", name)
+            frames.append(part)
+        if not frames:
+            return pd.DataFrame(columns=["core", *REQUIRED])
+        return pd.concat(frames, ignore_index=True)
+
+    def __len__(self) -> int:
+        return len(self.cores)
+
+    def __iter__(self) -> Iterator[Core]:
+        return iter(self.cores.values())
+
+    def __getitem__(self, name: str) -> Core:
+        return self.cores[name]
+
+    @property
+    def names(self) -> list[str]:
+        return list(self.cores)
+
+    @property
+    def errors(self) -> list[Problem]:
+        return [p for p in self.problems if p.severity == "error"]
+
+    def require_valid(self) -> CoreSet:
+        """Return ``self``, or raise :class:`InputError` naming the first error."""
+        errors = self.errors
+        if errors:
+            first = errors[0]
+            more = (
+                f" (and {len(errors) - 1} more; run `faciesseq check`)" if len(errors) > 1 else ""
+            )
+            raise InputError(
+                first.message + more,
+                file=first.file,
+                row=first.row,
+                core=first.core,
+                depth=first.depth,
+                units=first.units,
+            )
+        return self
+
+    def facies_codes(self) -> list[str]:
+        """Facies codes present, sorted (as text, numbers in numeric order)."""
+        codes = {c for core in self for c in core.intervals["facies"].unique()}
+        return sorted(codes, key=lambda c: (len(c), c))
+
+    def successions(
+        self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
+    ) -> list[Succession]:
+        """Every core's successions (see :meth:`Core.successions`), cores in order."""
+        return [s for core in self for s in core.successions(unit, step, tolerance)]
+
+    def subset(self, names: Iterable[str]) -> CoreSet:
+        """A core set with only the named cores (problems of those cores kept)."""
+        keep = [n for n in names]
+        missing = [n for n in keep if n not in self.cores]
+        if missing:
+            raise InputError(f"unknown core(s) {missing}")
+        problems = tuple(p for p in self.problems if p.core is None or p.core in keep)
+        return CoreSet(
+            {n: self.cores[n] for n in keep}, self.units, problems, self.sources, self.meta
+        )

@@ -1,0 +1,128 @@
+"""One exception family, and located problems found while reading data.
+
+Every message says *where* (file, row, core, depth), *what*, and, when it
+helps, *how to fix it*. The command line turns a :class:`FaciesseqError` into
+one line on standard error and the exception's ``exit_code``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal
+
+Severity = Literal["error", "warning", "repair"]
+
+
+def where(
+    file: str | None = None,
+    row: int | None = None,
+    core: str | None = None,
+    depth: float | None = None,
+    units: str | None = None,
+) -> str:
+    """Format a location as ``file, row 12, core W-3, depth 123.40 m``.
+
+    Parts that are ``None`` are left out; an empty string means "nowhere in
+    particular". ``row`` is the 1-based data row of the source file (the header
+    is row 0), as a spreadsheet user counts them after the header.
+    """
+    parts: list[str] = []
+    if file:
+        parts.append(str(file))
+    if row is not None:
+        parts.append(f"row {row}")
+    if core is not None:
+        parts.append(f"core {core}")
+    if depth is not None:
+        parts.append(f"depth {depth:.2f}{' ' + units if units else ''}")
+    return ", ".join(parts)
+
+
+class FaciesseqError(Exception):
+    """Base of every error the project raises on purpose.
+
+    Parameters
+    ----------
+    message
+        What went wrong and, where it helps, how to fix it.
+    file, row, core, depth, units
+        Where it went wrong; put in front of the message.
+    """
+
+    exit_code = 1
+
+    def __init__(
+        self,
+        message: str,
+        *,
+        file: str | None = None,
+        row: int | None = None,
+        core: str | None = None,
+        depth: float | None = None,
+        units: str | None = None,
+    ) -> None:
+        self.message = message
+        self.file = file
+        self.row = row
+        self.core = core
+        self.depth = depth
+        self.units = units
+        loc = where(file, row, core, depth, units)
+        super().__init__(f"{loc}: {message}" if loc else message)
+
+
+class InputError(FaciesseqError):
+    """The data cannot be used as it is (exit code 1)."""
+
+    exit_code = 1
+
+
+class ConfigError(FaciesseqError):
+    """A usage, option or configuration-file mistake (exit code 2)."""
+
+    exit_code = 2
+
+
+class ModelFileError(ConfigError):
+    """A model file that is not a valid faciesseq model (exit code 2)."""
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One thing found while reading or validating a core database.
+
+    ``severity`` is ``"error"`` (the data cannot be used until it is fixed),
+    ``"warning"`` (usable, but worth a look) or ``"repair"`` (something was
+    changed on reading, e.g. a small overlap snapped; never silent).
+    ``kind`` is a short stable key (e.g. ``"overlap"``, ``"gap"``) that tests
+    and JSON output can rely on.
+    """
+
+    severity: Severity
+    kind: str
+    message: str
+    file: str | None = None
+    row: int | None = None
+    core: str | None = None
+    depth: float | None = None
+    units: str | None = None
+
+    def __str__(self) -> str:
+        loc = where(self.file, self.row, self.core, self.depth, self.units)
+        return (
+            f"{self.severity}: {loc}: {self.message}"
+            if loc
+            else (f"{self.severity}: {self.message}")
+        )
+
+    def to_dict(self) -> dict:
+        return {
+            "severity": self.severity,
+            "kind": self.kind,
+            "message": self.message,
+            "file": self.file,
+            "row": self.row,
+            "core": self.core,
+            "depth": self.depth,
+            "units": self.units,
+        }

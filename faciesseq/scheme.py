@@ -1,0 +1,560 @@
+"""Facies schemes and tract models: the YAML configuration a geologist edits.
+
+A *facies scheme* lists the facies codes used in a core database, each with a
+name and a proximality ``rank`` (0 = most landward / shallow; larger = more
+basinward / deep), and optionally an environment ``group``, a display
+``colour``, a representative ``grain_size`` (a class number, larger is
+coarser: 1 clay, 2 silt, 3 very fine sand, 4 fine, 5 medium, 6 coarse sand,
+7 gravel) and ``aliases`` (raw database codes that mean this facies).
+
+A *tract model* lists the systems tracts, their cyclic order upward
+(older to younger), the tracts that may be absent (skips), the upward stacking
+trend expected in each tract, and the surface named on each boundary.
+
+Both are validated on load; every error names the file, the entry and the
+problem.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from faciesseq.errors import ConfigError
+
+__all__ = [
+    "Facies",
+    "FaciesScheme",
+    "Surface",
+    "Tract",
+    "TractModel",
+    "default_tract_model",
+    "draft_scheme",
+    "load_scheme",
+    "load_tract_model",
+]
+
+_FACIES_KEYS = {"code", "name", "rank", "group", "colour", "grain_size", "aliases", "description"}
+_SCHEME_KEYS = {"name", "description", "facies", "version"}
+_TRACT_KEYS = {"code", "name", "trend", "description"}
+_SURFACE_KEYS = {"lower", "upper", "code", "name"}
+_MODEL_KEYS = {
+    "name",
+    "description",
+    "tracts",
+    "order",
+    "skips",
+    "surfaces",
+    "substates",
+    "version",
+}
+TRENDS = ("deepening", "shallowing", "aggrading")
+
+
+def _read_yaml(path: str | Path) -> Any:
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError("file not found", file=str(path)) from None
+    except UnicodeDecodeError as exc:
+        raise ConfigError(f"not UTF-8 text ({exc.reason})", file=str(path)) from None
+    try:
+        return yaml.safe_load(text)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        line = f"line {mark.line + 1}: " if mark is not None else ""
+        raise ConfigError(f"{line}not valid YAML", file=str(path)) from None
+
+
+def _code(value: Any) -> str:
+    """Codes are compared as text: ``3``, ``3.0`` and ``"3"`` are the same code."""
+    if isinstance(value, float) and value.is_integer():
+        value = int(value)
+    return str(value).strip()
+
+
+@dataclass(frozen=True)
+class Facies:
+    """One facies of a scheme."""
+
+    code: str
+    name: str
+    rank: float
+    group: str | None = None
+    colour: str | None = None
+    grain_size: float | None = None
+    aliases: tuple[str, ...] = ()
+    description: str | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"code": self.code, "name": self.name, "rank": self.rank}
+        for key in ("group", "colour", "grain_size", "description"):
+            if getattr(self, key) is not None:
+                out[key] = getattr(self, key)
+        if self.aliases:
+            out["aliases"] = list(self.aliases)
+        return out
+
+
+# An own palette for facies without a colour: from warm (landward) to cool (basinward).
+_FALLBACK_COLOURS = (
+    "#c9a227",
+    "#e0c068",
+    "#b5651d",
+    "#9c8b5e",
+    "#7a9e7e",
+    "#4f8a8b",
+    "#3b6e8f",
+    "#2c4a6e",
+    "#5b4b8a",
+    "#8a4b6e",
+)
+
+
+@dataclass(frozen=True)
+class FaciesScheme:
+    """An ordered set of facies with ranks, colours and aliases.
+
+    Use :func:`load_scheme` to read one from YAML, or :meth:`from_dict`.
+    """
+
+    facies: tuple[Facies, ...]
+    name: str = "unnamed scheme"
+    description: str | None = None
+    source: str | None = field(default=None, compare=False)
+    _lookup: dict[str, str] = field(default_factory=dict, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        lookup: dict[str, str] = {}
+        for f in self.facies:
+            lookup[f.code] = f.code
+        for f in self.facies:
+            for alias in f.aliases:
+                lookup.setdefault(alias, f.code)
+        object.__setattr__(self, "_lookup", lookup)
+
+    # -- construction -----------------------------------------------------
+    @classmethod
+    def from_dict(cls, data: Any, source: str | None = None) -> FaciesScheme:
+        """Build and validate a scheme from parsed YAML (``source`` names the file)."""
+        if not isinstance(data, Mapping):
+            raise ConfigError("a facies scheme must be a mapping with a 'facies' list", file=source)
+        unknown = set(data) - _SCHEME_KEYS
+        if unknown:
+            raise ConfigError(
+                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_SCHEME_KEYS)}",
+                file=source,
+            )
+        entries = data.get("facies")
+        if not isinstance(entries, list) or not entries:
+            raise ConfigError("'facies' must be a non-empty list of facies entries", file=source)
+        facies: list[Facies] = []
+        seen: dict[str, int] = {}
+        owner: dict[str, str] = {}
+        for i, entry in enumerate(entries, start=1):
+            here = f"facies entry {i}"
+            if not isinstance(entry, Mapping):
+                raise ConfigError(
+                    f"{here}: must be a mapping with code, name and rank", file=source
+                )
+            bad = set(entry) - _FACIES_KEYS
+            if bad:
+                raise ConfigError(
+                    f"{here}: unknown key(s) {sorted(bad)}; expected some of "
+                    f"{sorted(_FACIES_KEYS)}",
+                    file=source,
+                )
+            if entry.get("code") is None:
+                raise ConfigError(f"{here}: missing 'code'", file=source)
+            if isinstance(entry["code"], bool):
+                raise ConfigError(
+                    f"{here}: code {entry['code']!r} was read as a yes/no value; put the code "
+                    'in quotes (e.g. code: "OFF")',
+                    file=source,
+                )
+            code = _code(entry["code"])
+            here = f"facies entry {i} (code {code!r})"
+            if code in seen:
+                raise ConfigError(
+                    f"{here}: duplicate code, already used by facies entry {seen[code]}",
+                    file=source,
+                )
+            seen[code] = i
+            name = entry.get("name")
+            if not name:
+                raise ConfigError(f"{here}: missing 'name'", file=source)
+            rank = entry.get("rank")
+            if rank is None:
+                raise ConfigError(
+                    f"{here}: missing 'rank' (proximality: 0 = most landward/shallow, "
+                    "larger = more basinward/deep)",
+                    file=source,
+                )
+            if isinstance(rank, bool) or not isinstance(rank, int | float):
+                raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
+            grain = entry.get("grain_size")
+            if grain is not None and (
+                isinstance(grain, bool) or not isinstance(grain, int | float)
+            ):
+                raise ConfigError(
+                    f"{here}: 'grain_size' must be a number, got {grain!r}", file=source
+                )
+            colour = entry.get("colour")
+            if colour is not None:
+                colour = str(colour)
+                if not (colour.startswith("#") and len(colour) in (4, 7)):
+                    raise ConfigError(
+                        f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
+                        file=source,
+                    )
+            raw_aliases = entry.get("aliases") or []
+            if not isinstance(raw_aliases, list):
+                raw_aliases = [raw_aliases]
+            aliases = tuple(_code(a) for a in raw_aliases)
+            facies.append(
+                Facies(
+                    code=code,
+                    name=str(name),
+                    rank=float(rank),
+                    group=None if entry.get("group") is None else str(entry["group"]),
+                    colour=colour,
+                    grain_size=None if grain is None else float(grain),
+                    aliases=aliases,
+                    description=entry.get("description"),
+                )
+            )
+        for f in facies:
+            for alias in f.aliases:
+                if alias in seen and alias != f.code:
+                    raise ConfigError(
+                        f"facies {f.code!r}: alias {alias!r} clashes with the code of "
+                        f"facies entry {seen[alias]}",
+                        file=source,
+                    )
+                if alias in owner and owner[alias] != f.code:
+                    raise ConfigError(
+                        f"facies {f.code!r}: alias {alias!r} is already an alias of "
+                        f"facies {owner[alias]!r}",
+                        file=source,
+                    )
+                owner[alias] = f.code
+        return cls(
+            facies=tuple(facies),
+            name=str(data.get("name", "unnamed scheme")),
+            description=data.get("description"),
+            source=source,
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"name": self.name}
+        if self.description:
+            out["description"] = self.description
+        out["facies"] = [f.to_dict() for f in self.facies]
+        return out
+
+    # -- queries ------------------------------------------------------------
+    @property
+    def codes(self) -> tuple[str, ...]:
+        """Codes in scheme order."""
+        return tuple(f.code for f in self.facies)
+
+    @property
+    def codes_by_rank(self) -> tuple[str, ...]:
+        """Codes from most landward/shallow to most basinward/deep (stable on ties)."""
+        return tuple(f.code for f in sorted(self.facies, key=lambda f: f.rank))
+
+    def __contains__(self, code: object) -> bool:
+        return code in self._lookup
+
+    def __len__(self) -> int:
+        return len(self.facies)
+
+    def __getitem__(self, code: str) -> Facies:
+        code = self._lookup[code]
+        return next(f for f in self.facies if f.code == code)
+
+    def resolve(self, raw: Any) -> str | None:
+        """The scheme code for a raw database code (via aliases), or ``None``."""
+        return self._lookup.get(_code(raw))
+
+    def rank(self, code: str) -> float:
+        return self[code].rank
+
+    def ranks(self, codes: Iterable[str] | None = None) -> dict[str, float]:
+        codes = self.codes if codes is None else codes
+        return {c: self[c].rank for c in codes}
+
+    def colour(self, code: str) -> str:
+        """The scheme's colour for ``code``, or one of the project's fallback colours."""
+        f = self[code]
+        if f.colour:
+            return f.colour
+        return _FALLBACK_COLOURS[self.codes.index(f.code) % len(_FALLBACK_COLOURS)]
+
+
+@dataclass(frozen=True)
+class Tract:
+    """A systems tract (trade term) and its expected upward stacking trend."""
+
+    code: str
+    name: str
+    trend: str
+    description: str | None = None
+
+
+@dataclass(frozen=True)
+class Surface:
+    """The surface named on the boundary from ``lower`` (older) to ``upper`` tract."""
+
+    lower: str
+    upper: str
+    code: str
+    name: str
+
+
+@dataclass(frozen=True)
+class TractModel:
+    """Systems tracts, their cyclic order upward, allowed skips and surfaces.
+
+    ``order`` is the cyclic succession upward (older to younger), e.g.
+    HST -> FSST -> LST -> TST -> HST. ``skips`` are tracts that may be absent:
+    skipping tract X allows the boundary from the tract before X straight to
+    the tract after X. ``substates`` is the number of left-to-right sub-states
+    per tract used by the hidden Markov model (1 = a plain state).
+    """
+
+    tracts: tuple[Tract, ...]
+    order: tuple[str, ...]
+    skips: tuple[str, ...] = ()
+    surfaces: tuple[Surface, ...] = ()
+    substates: Mapping[str, int] = field(default_factory=dict)
+    name: str = "tract model"
+    source: str | None = field(default=None, compare=False)
+
+    @property
+    def codes(self) -> tuple[str, ...]:
+        return self.order
+
+    def tract(self, code: str) -> Tract:
+        return next(t for t in self.tracts if t.code == code)
+
+    def successors(self, code: str) -> tuple[str, ...]:
+        """Tracts that may follow ``code`` upward (not counting itself)."""
+        order = self.order
+        n = len(order)
+        i = order.index(code)
+        out = [order[(i + 1) % n]]
+        step = 1
+        # Each skipped tract in a row lets the boundary jump one further.
+        while order[(i + step) % n] in self.skips and step < n - 1:
+            step += 1
+            nxt = order[(i + step) % n]
+            if nxt != code:
+                out.append(nxt)
+        return tuple(out)
+
+    def allowed(self) -> list[list[bool]]:
+        """Boolean matrix (rows = lower tract, columns = upper) in ``order``."""
+        idx = {c: k for k, c in enumerate(self.order)}
+        n = len(self.order)
+        out = [[False] * n for _ in range(n)]
+        for c in self.order:
+            out[idx[c]][idx[c]] = True
+            for s in self.successors(c):
+                out[idx[c]][idx[s]] = True
+        return out
+
+    def surface(self, lower: str, upper: str) -> Surface | None:
+        for s in self.surfaces:
+            if s.lower == lower and s.upper == upper:
+                return s
+        return None
+
+    def n_substates(self, code: str) -> int:
+        return int(self.substates.get(code, 1))
+
+    @classmethod
+    def from_dict(cls, data: Any, source: str | None = None) -> TractModel:
+        """Build and validate a tract model from parsed YAML."""
+        if not isinstance(data, Mapping):
+            raise ConfigError(
+                "a tract model must be a mapping with 'tracts' and 'order'", file=source
+            )
+        unknown = set(data) - _MODEL_KEYS
+        if unknown:
+            raise ConfigError(
+                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_MODEL_KEYS)}",
+                file=source,
+            )
+        entries = data.get("tracts")
+        if not isinstance(entries, list) or len(entries) < 2:
+            raise ConfigError("'tracts' must list at least two tracts", file=source)
+        tracts: list[Tract] = []
+        for i, entry in enumerate(entries, start=1):
+            here = f"tract entry {i}"
+            if not isinstance(entry, Mapping):
+                raise ConfigError(f"{here}: must be a mapping with code, name, trend", file=source)
+            bad = set(entry) - _TRACT_KEYS
+            if bad:
+                raise ConfigError(
+                    f"{here}: unknown key(s) {sorted(bad)}; expected some of {sorted(_TRACT_KEYS)}",
+                    file=source,
+                )
+            for key in ("code", "name", "trend"):
+                if not entry.get(key):
+                    raise ConfigError(f"{here}: missing {key!r}", file=source)
+            if entry["trend"] not in TRENDS:
+                raise ConfigError(
+                    f"{here} ({entry['code']}): trend must be one of {list(TRENDS)}, "
+                    f"got {entry['trend']!r}",
+                    file=source,
+                )
+            code = str(entry["code"])
+            if any(t.code == code for t in tracts):
+                raise ConfigError(f"{here}: duplicate tract code {code!r}", file=source)
+            tracts.append(
+                Tract(code, str(entry["name"]), str(entry["trend"]), entry.get("description"))
+            )
+        codes = [t.code for t in tracts]
+        order = data.get("order", codes)
+        if not isinstance(order, list) or sorted(map(str, order)) != sorted(codes):
+            raise ConfigError(
+                f"'order' must list every tract exactly once (tracts: {codes}), got {order!r}",
+                file=source,
+            )
+        order = [str(o) for o in order]
+        skips = [str(s) for s in (data.get("skips") or [])]
+        for s in skips:
+            if s not in codes:
+                raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
+        if len(skips) >= len(codes) - 1:
+            raise ConfigError("skips: at least two tracts must remain", file=source)
+        raw_sub = data.get("substates") or {}
+        if isinstance(raw_sub, int) and not isinstance(raw_sub, bool):
+            raw_sub = {c: raw_sub for c in codes}
+        if not isinstance(raw_sub, Mapping):
+            raise ConfigError(
+                "'substates' must be a whole number or a mapping tract -> number", file=source
+            )
+        substates: dict[str, int] = {}
+        for c, n in raw_sub.items():
+            if c not in codes:
+                raise ConfigError(f"substates: unknown tract {c!r}", file=source)
+            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+                raise ConfigError(
+                    f"substates: {c}: must be a whole number >= 1, got {n!r}", file=source
+                )
+            substates[str(c)] = n
+        model = cls(
+            tuple(tracts),
+            tuple(order),
+            tuple(skips),
+            (),
+            substates,
+            str(data.get("name", "tract model")),
+            source,
+        )
+        allowed = model.allowed()
+        idx = {c: k for k, c in enumerate(order)}
+        surfaces: list[Surface] = []
+        for i, entry in enumerate(data.get("surfaces") or [], start=1):
+            here = f"surface entry {i}"
+            if not isinstance(entry, Mapping):
+                raise ConfigError(
+                    f"{here}: must be a mapping with lower, upper, code, name", file=source
+                )
+            bad = set(entry) - _SURFACE_KEYS
+            if bad:
+                raise ConfigError(
+                    f"{here}: unknown key(s) {sorted(bad)}; expected {sorted(_SURFACE_KEYS)}",
+                    file=source,
+                )
+            for key in ("lower", "upper", "code", "name"):
+                if not entry.get(key):
+                    raise ConfigError(f"{here}: missing {key!r}", file=source)
+            lo, up = str(entry["lower"]), str(entry["upper"])
+            for t in (lo, up):
+                if t not in codes:
+                    raise ConfigError(f"{here}: unknown tract {t!r} (tracts: {codes})", file=source)
+            if lo == up or not allowed[idx[lo]][idx[up]]:
+                raise ConfigError(
+                    f"{here}: {lo} -> {up} is not a boundary the tract order and skips allow",
+                    file=source,
+                )
+            if any(s.lower == lo and s.upper == up for s in surfaces):
+                raise ConfigError(
+                    f"{here}: a surface for {lo} -> {up} is already named", file=source
+                )
+            surfaces.append(Surface(lo, up, str(entry["code"]), str(entry["name"])))
+        return cls(
+            tuple(tracts),
+            tuple(order),
+            tuple(skips),
+            tuple(surfaces),
+            substates,
+            model.name,
+            source,
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name,
+            "tracts": [
+                {"code": t.code, "name": t.name, "trend": t.trend}
+                | ({"description": t.description} if t.description else {})
+                for t in self.tracts
+            ],
+            "order": list(self.order),
+            "skips": list(self.skips),
+            "surfaces": [
+                {"lower": s.lower, "upper": s.upper, "code": s.code, "name": s.name}
+                for s in self.surfaces
+            ],
+            "substates": dict(self.substates),
+        }
+
+
+def load_scheme(path: str | Path) -> FaciesScheme:
+    """Read and validate a facies scheme YAML file."""
+    return FaciesScheme.from_dict(_read_yaml(path), source=str(path))
+
+
+def load_tract_model(path: str | Path) -> TractModel:
+    """Read and validate a tract-model YAML file."""
+    return TractModel.from_dict(_read_yaml(path), source=str(path))
+
+
+def default_tract_model() -> TractModel:
+    """The default four-tract model shipped with the package (``data/tracts.yaml``)."""
+    text = resources.files("faciesseq").joinpath("data/tracts.yaml").read_text(encoding="utf-8")
+    return TractModel.from_dict(yaml.safe_load(text), source="faciesseq:data/tracts.yaml")
+
+
+def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
+    """A starting facies scheme (YAML text) listing ``codes``, ranks left to fill in.
+
+    The ranks are written as ``null`` with a ``TODO`` comment so that loading
+    the draft fails until a geologist has given every facies its rank.
+    """
+    unique = sorted({_code(c) for c in codes}, key=lambda c: (len(c), c))
+    lines = [
+        f"# {name}: written by `faciesseq scheme draft` from the codes found in the data.",
+        "# Fill in every 'rank' (proximality / relative water depth: 0 = most landward",
+        "# or shallow, larger = more basinward or deep) and a 'name' a reader understands.",
+        "# The scheme does not load until every rank is filled in.",
+        f"name: {yaml.safe_dump(name).strip().removesuffix('...').strip()}",
+        "facies:",
+    ]
+    for code in unique:
+        lines += [
+            f"  - code: {yaml.safe_dump(code).strip().removesuffix('...').strip()}",
+            f"    name: facies {code}",
+            "    rank: null  # TODO: proximality rank",
+        ]
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,78 @@
+"""Facies schemes and tract models: loading and validation."""
+
+import pytest
+import yaml
+
+from faciesseq.errors import ConfigError
+from faciesseq.scheme import (
+    FaciesScheme,
+    TractModel,
+    default_tract_model,
+    draft_scheme,
+    load_scheme,
+)
+
+
+def test_shipped_schemes_load_with_ranks_in_order():
+    for path in ("configs/scheme-shoreface.yaml", "configs/scheme-mixed-shelf.yaml"):
+        scheme = load_scheme(path)
+        assert len(scheme) == 7
+        ranks = [scheme.rank(c) for c in scheme.codes_by_rank]
+        assert ranks == sorted(ranks)
+    assert load_scheme("configs/scheme-shoreface.yaml").resolve("foreshore") == "FS"
+
+
+@pytest.mark.parametrize(
+    ("facies", "needle"),
+    [
+        (
+            [{"code": "A", "name": "a", "rank": 0}, {"code": "A", "name": "b", "rank": 1}],
+            "duplicate",
+        ),
+        ([{"code": "A", "name": "a"}], "missing 'rank'"),
+        ([{"code": "A", "name": "a", "rank": 0, "colour": "red"}], "hex colour"),
+        ([{"code": "A", "name": "a", "rank": 0, "depth": 3}], "unknown key"),
+        (
+            [
+                {"code": "A", "name": "a", "rank": 0, "aliases": ["B"]},
+                {"code": "B", "name": "b", "rank": 1},
+            ],
+            "clashes",
+        ),
+        ([{"code": False, "name": "a", "rank": 0}], "in quotes"),
+    ],
+)
+def test_bad_schemes_name_the_entry_and_problem(facies, needle):
+    with pytest.raises(ConfigError) as err:
+        FaciesScheme.from_dict({"facies": facies}, source="bad.yaml")
+    assert "bad.yaml" in str(err.value)
+    assert needle in str(err.value)
+
+
+def test_draft_scheme_does_not_load_until_ranks_are_filled(tmp_path):
+    path = tmp_path / "draft.yaml"
+    path.write_text(draft_scheme(["2", "10", "1"]))
+    with pytest.raises(ConfigError, match="missing 'rank'"):
+        load_scheme(path)
+    data = yaml.safe_load(path.read_text())
+    assert [f["code"] for f in data["facies"]] == ["1", "2", "10"]
+
+
+def test_default_tract_model_order_skips_and_surfaces():
+    # Cyclic order upward HST -> FSST -> LST -> TST -> HST (Catuneanu et al. 2009,
+    # Earth-Science Reviews 92:1-33); FSST and TST may be absent.
+    model = default_tract_model()
+    assert model.order == ("HST", "FSST", "LST", "TST")
+    assert model.successors("HST") == ("FSST", "LST")
+    assert model.successors("LST") == ("TST", "HST")
+    assert model.successors("TST") == ("HST",)
+    assert model.surface("TST", "HST").code == "MFS"
+    assert model.surface("LST", "TST").code == "MRS"
+    assert model.surface("HST", "TST") is None
+
+
+def test_tract_model_rejects_a_surface_on_a_forbidden_boundary():
+    data = default_tract_model().to_dict()
+    data["surfaces"].append({"lower": "TST", "upper": "FSST", "code": "X", "name": "x"})
+    with pytest.raises(ConfigError, match="not a boundary"):
+        TractModel.from_dict(data, source="t.yaml")
