@@ -1,0 +1,161 @@
+"""Decoded sequence-stratigraphic interpretations: results of the tract model.
+
+An :class:`Interpretation` holds, per core, the most likely tract of every bed
+(Viterbi), the posterior probability of each tract per bed, the probability of
+each named surface at every boundary between beds, and the picked surfaces.
+Tables here are in **depth order** (shallowest first), as a core log is drawn.
+
+These are plain results objects: the model fills them, ``report`` formats them.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["CoreInterpretation", "Interpretation"]
+
+
+@dataclass(frozen=True)
+class CoreInterpretation:
+    """The interpretation of one core.
+
+    Attributes
+    ----------
+    core, units
+        Core identifier and depth units.
+    tracts
+        Tract codes in the tract model's order; ``beds`` has a ``p_<TRACT>``
+        column for each.
+    surfaces
+        Surface codes (e.g. ``"MFS"``); ``boundaries`` has a ``p_<SURFACE>``
+        column for each.
+    beds
+        Depth order: ``segment``, ``top``, ``base``, ``thickness``, ``facies``,
+        any bed attributes, ``tract`` (most likely tract column, Viterbi) and the
+        ``p_<TRACT>`` posteriors (each row sums to 1).
+    boundaries
+        One row per boundary between two successive beds of one segment, depth
+        order: ``segment``, ``depth`` (the contact), ``lower_tract`` and
+        ``upper_tract`` (Viterbi on either side) and ``p_<SURFACE>``: the
+        posterior probability that the named surface lies at this contact (sum
+        of two-slice posteriors over the tract pairs mapped to it).
+    picks
+        Picked surfaces: ``surface`` (code), ``name``, ``depth``,
+        ``probability`` (at the pick), ``depth_top`` and ``depth_base`` (an
+        uncertainty interval around the pick), ``segment``.
+    log_likelihood
+        Log-likelihood of the core under the model (sum over its segments).
+    """
+
+    core: str
+    units: str
+    tracts: tuple[str, ...]
+    surfaces: tuple[str, ...]
+    beds: pd.DataFrame
+    boundaries: pd.DataFrame
+    picks: pd.DataFrame
+    log_likelihood: float
+
+    def curves(self, step: float) -> pd.DataFrame:
+        """Per-depth probability curves on a regular grid, for plotting.
+
+        Tract curves take the posterior of the bed at each depth. Surface
+        curves give, per cell of height ``step``, the probability that the
+        surface lies within the cell (boundary probabilities summed per cell).
+        Cells in gaps are NaN.
+        """
+        beds = self.beds
+        if len(beds) == 0:
+            return pd.DataFrame(columns=["depth", *[f"p_{t}" for t in self.tracts]])
+        top, base = float(beds["top"].min()), float(beds["base"].max())
+        n = max(1, int(np.ceil((base - top) / step)))
+        edges = top + np.arange(n + 1) * step
+        centre = (edges[:-1] + edges[1:]) / 2
+        out = pd.DataFrame({"depth": centre})
+        b_top = beds["top"].to_numpy(float)
+        b_base = beds["base"].to_numpy(float)
+        order = np.argsort(b_top)
+        idx = order[np.clip(np.searchsorted(b_top[order], centre, side="right") - 1, 0, None)]
+        inside = (centre >= b_top[idx]) & (centre < b_base[idx])
+        for t in self.tracts:
+            values = beds[f"p_{t}"].to_numpy(float)[idx]
+            out[f"p_{t}"] = np.where(inside, values, np.nan)
+        depth = self.boundaries["depth"].to_numpy(float) if len(self.boundaries) else np.zeros(0)
+        cell = np.clip(np.searchsorted(edges, depth, side="right") - 1, 0, n - 1)
+        for s in self.surfaces:
+            acc = np.zeros(n)
+            if len(depth):
+                np.add.at(acc, cell, self.boundaries[f"p_{s}"].to_numpy(float))
+            out[f"p_{s}"] = np.where(inside, np.minimum(acc, 1.0), np.nan)
+        return out
+
+
+@dataclass(frozen=True)
+class Interpretation:
+    """Interpretations of several cores, and the tables ``decode`` writes."""
+
+    cores: Mapping[str, CoreInterpretation]
+    tracts: tuple[str, ...]
+    surfaces: tuple[str, ...]
+    meta: Mapping[str, object] = field(default_factory=dict)
+
+    def __getitem__(self, core: str) -> CoreInterpretation:
+        return self.cores[core]
+
+    def __iter__(self):
+        return iter(self.cores.values())
+
+    def __len__(self) -> int:
+        return len(self.cores)
+
+    def tracts_table(self) -> pd.DataFrame:
+        """``core, top, base, facies, tract, p_<TRACT>...``, depth order within cores."""
+        columns = ["core", "top", "base", "facies", "tract", *[f"p_{t}" for t in self.tracts]]
+        frames = [c.beds.assign(core=c.core)[columns] for c in self if len(c.beds)]
+        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=columns)
+
+    def surfaces_table(self) -> pd.DataFrame:
+        """``core, depth, surface, probability, picked``: every contact and surface.
+
+        One row per (contact, surface code); ``picked`` is true where the
+        surface was picked at that contact.
+        """
+        rows = []
+        for c in self:
+            picked = {(p.surface, round(float(p.depth), 9)) for p in c.picks.itertuples()}
+            for b in c.boundaries.itertuples(index=False):
+                for s in c.surfaces:
+                    prob = float(getattr(b, f"p_{s}"))
+                    rows.append(
+                        {
+                            "core": c.core,
+                            "depth": float(b.depth),
+                            "surface": s,
+                            "probability": prob,
+                            "picked": (s, round(float(b.depth), 9)) in picked,
+                        }
+                    )
+        return pd.DataFrame(rows, columns=["core", "depth", "surface", "probability", "picked"])
+
+    def picks_table(self) -> pd.DataFrame:
+        """All picks, with a ``core`` column first."""
+        frames = [c.picks.assign(core=c.core) for c in self if len(c.picks)]
+        if not frames:
+            return pd.DataFrame(
+                columns=[
+                    "core",
+                    "surface",
+                    "name",
+                    "depth",
+                    "probability",
+                    "depth_top",
+                    "depth_base",
+                    "segment",
+                ]
+            )
+        out = pd.concat(frames, ignore_index=True)
+        return out[["core", *[c for c in out.columns if c != "core"]]]
