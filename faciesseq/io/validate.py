@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -805,6 +805,9 @@ def build_coreset(
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
     }
+    problems = [
+        replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
+    ]
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
     return CoreSet(cores, target, tuple(problems), sources, meta)
