@@ -64,19 +64,41 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
         first_bad = exc.start
     from charset_normalizer import from_bytes
 
-    best = from_bytes(data).best()
-    if best is None or best.encoding is None:
+    matches = list(from_bytes(data))
+    if not matches:
         raise InputError(
             f"not UTF-8 (byte {first_bad}) and its encoding could not be detected; "
             "save it as UTF-8 or give 'encoding' in a YAML source file",
             file=file,
         )
-    text = str(best)
+    best = matches[0]
+    tied = [m for m in matches if (m.chaos, m.coherence) == (best.chaos, best.coherence)]
+    readings: dict[str, list[str]] = {}
+    for m in tied:
+        readings.setdefault(str(m), []).append(m.encoding)
+    chosen = best
+    others: list[str] = []
+    if len(readings) > 1:
+        # Equally likely code pages that read the bytes differently: take the
+        # commonest Western one when it is among them, and say so; else refuse.
+        western = [m for m in tied if "cp1252" in m.could_be_from_charset]
+        if not western:
+            raise InputError(
+                "not UTF-8, and the encoding is ambiguous ("
+                + ", ".join(m.encoding for m in tied)
+                + " read it differently); save it as UTF-8 or give 'encoding' in a YAML "
+                "source file",
+                file=file,
+            )
+        chosen = western[0]
+        others = [e for text, encs in readings.items() if text != str(chosen) for e in encs]
+    text = str(chosen)
+    also = f"; it could also be {', '.join(others)}, which reads it differently" if others else ""
     note = Problem(
         "warning",
         "encoding",
-        f"file is not UTF-8; read as {best.encoding} (detected); check accented names, or "
-        "save it as UTF-8, or give 'encoding' in a YAML source file",
+        f"file is not UTF-8; read as {chosen.encoding} (detected){also}; check accented "
+        "names, or save it as UTF-8, or give 'encoding' in a YAML source file",
         file=file,
     )
     return text, [note]
