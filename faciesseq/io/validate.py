@@ -10,7 +10,7 @@ errors
     ``missing-depth``, ``bad-depth``, ``missing-core``, ``missing-facies``
     (interval layout), ``unknown-facies``, ``top-below-base``,
     ``zero-thickness``, ``overlap`` (larger than the tolerance),
-    ``repeated-depth``, ``duplicate-core``
+    ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
     facies), ``null`` (LAS null values), ``encoding``, ``units``,
@@ -814,6 +814,15 @@ def build_coreset(
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
     }
+    if not cores and not any(p.severity == "error" for p in problems):
+        problems.append(
+            Problem(
+                "error",
+                "no-cores",
+                "no usable cores in the source (no data rows?)",
+                file=", ".join(sources) or None,
+            )
+        )
     problems = [
         replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
     ]
