@@ -156,6 +156,16 @@ def test_units_from_a_column_header_and_conversion_with_the_international_foot(t
     assert [p.kind for p in metres.problems] == ["units-converted"]
 
 
+def test_semicolon_files_with_decimal_commas(tmp_path):
+    path = tmp_path / "c.csv"
+    path.write_text("Bohrung;Teufe von;Teufe bis;Fazies\nB1;0;1,25;A\nB1;1,25;2,5;B\n")
+    roles = {"core": "Bohrung", "top": "Teufe von", "base": "Teufe bis", "facies": "Fazies"}
+    cores = read_cores(path, columns=roles, units="m")
+    assert cores["B1"].intervals["base"].tolist() == [1.25, 2.5]
+    (repair,) = [p for p in cores.problems if p.kind == "decimal-comma"]
+    assert repair.severity == "repair" and "Teufe von" in repair.message
+
+
 def test_nothing_said_about_units_means_metres_with_a_warning(tmp_path):
     path = tmp_path / "c.csv"
     path.write_text("core,top,base,facies\nW1,0,1,A\nW1,1,2,B\n")

@@ -18,6 +18,7 @@ warnings
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
     ``repeated-depth`` (``repeated_depths="keep-first"``), ``units-converted``,
+    ``decimal-comma``,
     ``grain-size``
 """
 
