@@ -24,6 +24,7 @@ repairs
 
 from __future__ import annotations
 
+import contextlib
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
@@ -101,6 +102,21 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
+def _codes(values: pd.Series) -> list[str | None]:
+    """:func:`facies_code` of each value, each distinct value converted once."""
+    cache: dict[object, str | None] = {}
+    out = []
+    for value in values:
+        try:
+            out.append(cache[value])
+        except (KeyError, TypeError):
+            code = facies_code(value)
+            with contextlib.suppress(TypeError):  # unhashable values are not cached
+                cache[value] = code
+            out.append(code)
+    return out
+
+
 def _is_blank(value: object) -> bool:
     if value is None:
         return True
@@ -176,7 +192,7 @@ def _prepare(
 
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
-        cores = [facies_code(v) for v in src[match.roles["core"]]]
+        cores = _codes(src[match.roles["core"]])
         for i, c in enumerate(cores):
             if c is None:
                 bad[i] = True
@@ -235,7 +251,7 @@ def _prepare(
     first_depth = out[roles[0]].to_numpy()
 
     # -- facies ----------------------------------------------------------------
-    codes = [facies_code(v) for v in src[match.roles["facies"]]]
+    codes = _codes(src[match.roles["facies"]])
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
     for i, code in enumerate(codes):
