@@ -471,7 +471,8 @@ def _order(part: pd.DataFrame, key: str, file: str, core: str, units: str) -> li
         i = int(np.nonzero(np.diff(depth) < 0)[0][0]) + 1
         count = int((np.diff(depth) < 0).sum())
         message = (
-            f"{count} row(s) listed above a shallower row (out of depth order); sorted by depth"
+            f"{count} row(s) shallower than the row before them (out of depth order); "
+            "sorted by depth"
         )
     return [
         Problem(
