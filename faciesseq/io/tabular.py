@@ -226,4 +226,4 @@ def read_parquet(path: Path) -> RawTable:
     except Exception as exc:  # pyarrow raises several types for a bad file
         raise InputError(f"not a readable Parquet file ({type(exc).__name__})", file=file) from None
     frame.columns = [str(c) for c in frame.columns]
-    return RawTable(frame.reset_index(drop=True), file)
+    return RawTable(frame.reset_index(drop=True).astype(object), file)
