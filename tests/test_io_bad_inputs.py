@@ -174,6 +174,15 @@ CASES = [
         "row 2, core W1, depth 1.00 m: no facies code",
     ),
     ("no-data-rows", {"c.csv": HEAD}, [], 1, "no-cores", "error", "no usable cores"),
+    (
+        "missing-core",
+        {"c.csv": HEAD + "W1,0,1,A\n,1,2,B\nW1,2,3,B\n"},
+        [],
+        1,
+        "missing-core",
+        "error",
+        "c.csv, row 2: no core identifier",
+    ),
 ]
 
 
@@ -229,7 +238,7 @@ def test_scheme_draft_refuses_data_with_errors_and_writes_nothing(tmp_path, caps
     assert code == 1
     assert len(err.strip().splitlines()) == 1
     assert err.startswith("faciesseq scheme: ")
-    assert "core W1" in err or f"{source}: no usable cores" in err
+    assert "core W1" in err or f"{source}: no usable cores" in err or f"{source}, row 2" in err
     assert not out.exists()
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").iterdir())
 

@@ -585,7 +585,6 @@ def _modal_step(depth: np.ndarray) -> float | None:
 
 def _check_samples(
     part: pd.DataFrame,
-    attributes: list[str],
     file: str,
     core: str,
     units: str,
@@ -767,9 +766,7 @@ def build_coreset(
                 problems += found
                 pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
             else:
-                part, found = _check_samples(
-                    part, p.attributes, file, name, target, repeated_depths
-                )
+                part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
                 pending.append((name, part, p))
                 step = _modal_step(part["depth"].to_numpy(dtype=float))
