@@ -194,7 +194,7 @@ def _write(tmp_path: Path, files: dict[str, str | bytes]) -> Path:
         else:
             path.write_text(content, encoding="utf-8")
     (tmp_path / "scheme.yaml").write_text(SCHEME)
-    data = [n for n in files if not n.endswith(".yaml")]
+    data = list(files)
     return tmp_path / data[0] if len(data) == 1 else tmp_path
 
 
@@ -306,6 +306,11 @@ FAILURES = [
         2,
         "nope.yaml: file not found",
     ),
+    ("not-las", {"c.las": "not a las file\n"}, [], 1, "c.las: not a readable LAS file"),
+    ("not-parquet", {"c.parquet": b"PAR1garbage"}, [], 1, "c.parquet: not a readable Parquet"),
+    ("not-xlsx", {"c.xlsx": b"PK\x03\x04garbage"}, [], 1, "c.xlsx: not a readable .xlsx"),
+    ("bad-bom", {"c.csv": b"\xff\xfe\x00\x00\x01\x02\x03"}, [], 1, "c.csv: starts with a UTF-32"),
+    ("bad-source-file", {"s.yaml": "path: [1, 2]\n"}, [], 2, "s.yaml: 'path' must be text"),
 ]
 
 
