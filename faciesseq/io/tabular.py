@@ -46,7 +46,14 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
         (codecs.BOM_UTF16_BE, "utf-16"),
     ):
         if data.startswith(bom):
-            text = data.decode(name)
+            try:
+                text = data.decode(name)
+            except UnicodeDecodeError as exc:
+                raise InputError(
+                    f"starts with a {name.upper()} byte-order mark but is not valid {name} "
+                    f"(byte {exc.start}); save it as UTF-8",
+                    file=file,
+                ) from None
             problems = []
             if name not in ("utf-8-sig",):
                 problems.append(
@@ -141,10 +148,39 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     frame.columns = [str(c).strip() for c in frame.columns]
     frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
     frame = frame.replace("", np.nan)
+    if delimiter != ",":
+        frame, converted = _decimal_commas(frame)
+        if converted:
+            problems.append(
+                Problem(
+                    "repair",
+                    "decimal-comma",
+                    f"decimal commas read as decimal points in column(s) {', '.join(converted)}",
+                    file=file,
+                )
+            )
     rows = np.arange(1, len(frame) + 1)
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
     return RawTable(frame.astype(object), file, rows[keep].tolist(), problems=problems)
+
+
+_DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"
+
+
+def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
+    """Columns written with decimal commas (``2793,5``), as European exports are."""
+    converted = []
+    for col in frame.columns:
+        values = frame[col].dropna().astype(str)
+        if (
+            len(values)
+            and values.str.contains(",").any()
+            and values.str.match(_DECIMAL_COMMA).all()
+        ):
+            frame[col] = frame[col].str.replace(",", ".", regex=False)
+            converted.append(str(col))
+    return frame, converted
 
 
 def read_excel(path: Path, sheet: str | None = None) -> RawTable:
@@ -197,4 +233,4 @@ def read_parquet(path: Path) -> RawTable:
     except Exception as exc:  # pyarrow raises several types for a bad file
         raise InputError(f"not a readable Parquet file ({type(exc).__name__})", file=file) from None
     frame.columns = [str(c) for c in frame.columns]
-    return RawTable(frame.reset_index(drop=True), file)
+    return RawTable(frame.reset_index(drop=True).astype(object), file)

@@ -10,7 +10,7 @@ errors
     ``missing-depth``, ``bad-depth``, ``missing-core``, ``missing-facies``
     (interval layout), ``unknown-facies``, ``top-below-base``,
     ``zero-thickness``, ``overlap`` (larger than the tolerance),
-    ``repeated-depth``, ``duplicate-core``
+    ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
     facies), ``null`` (LAS null values), ``encoding``, ``units``,
@@ -18,11 +18,13 @@ warnings
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
     ``repeated-depth`` (``repeated_depths="keep-first"``), ``units-converted``,
+    ``decimal-comma``,
     ``grain-size``
 """
 
 from __future__ import annotations
 
+import contextlib
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
@@ -100,6 +102,21 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
+def _codes(values: pd.Series) -> list[str | None]:
+    """:func:`facies_code` of each value, each distinct value converted once."""
+    cache: dict[object, str | None] = {}
+    out = []
+    for value in values:
+        try:
+            out.append(cache[value])
+        except (KeyError, TypeError):
+            code = facies_code(value)
+            with contextlib.suppress(TypeError):  # unhashable values are not cached
+                cache[value] = code
+            out.append(code)
+    return out
+
+
 def _is_blank(value: object) -> bool:
     if value is None:
         return True
@@ -175,7 +192,7 @@ def _prepare(
 
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
-        cores = [facies_code(v) for v in src[match.roles["core"]]]
+        cores = _codes(src[match.roles["core"]])
         for i, c in enumerate(cores):
             if c is None:
                 bad[i] = True
@@ -234,7 +251,7 @@ def _prepare(
     first_depth = out[roles[0]].to_numpy()
 
     # -- facies ----------------------------------------------------------------
-    codes = [facies_code(v) for v in src[match.roles["facies"]]]
+    codes = _codes(src[match.roles["facies"]])
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
     for i, code in enumerate(codes):
@@ -454,7 +471,8 @@ def _order(part: pd.DataFrame, key: str, file: str, core: str, units: str) -> li
         i = int(np.nonzero(np.diff(depth) < 0)[0][0]) + 1
         count = int((np.diff(depth) < 0).sum())
         message = (
-            f"{count} row(s) listed above a shallower row (out of depth order); sorted by depth"
+            f"{count} row(s) shallower than the row before them (out of depth order); "
+            "sorted by depth"
         )
     return [
         Problem(
@@ -567,7 +585,6 @@ def _modal_step(depth: np.ndarray) -> float | None:
 
 def _check_samples(
     part: pd.DataFrame,
-    attributes: list[str],
     file: str,
     core: str,
     units: str,
@@ -689,6 +706,15 @@ def _samples_to_intervals(
     return table, problems
 
 
+def _count_beds(core: Core) -> int:
+    """Beds of a core (as :meth:`Core.beds` amalgamates them) without building the table."""
+    facies = core.intervals["facies"].to_numpy(dtype=object)
+    segment = core.segment_ids()
+    if len(facies) == 0:
+        return 0
+    return 1 + int(((facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])).sum())
+
+
 def build_coreset(
     tables: list[RawTable],
     *,
@@ -740,9 +766,7 @@ def build_coreset(
                 problems += found
                 pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
             else:
-                part, found = _check_samples(
-                    part, p.attributes, file, name, target, repeated_depths
-                )
+                part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
                 pending.append((name, part, p))
                 step = _modal_step(part["depth"].to_numpy(dtype=float))
@@ -788,7 +812,7 @@ def build_coreset(
             )
             continue
         core = Core(name, part.reset_index(drop=True), target)
-        n_beds = len(core.beds())
+        n_beds = _count_beds(core)
         if n_beds < 2:
             problems.append(
                 Problem(
@@ -805,6 +829,15 @@ def build_coreset(
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
     }
+    if not cores and not any(p.severity == "error" for p in problems):
+        problems.append(
+            Problem(
+                "error",
+                "no-cores",
+                "no usable cores in the source (no data rows?)",
+                file=", ".join(sources) or None,
+            )
+        )
     problems = [
         replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
     ]
