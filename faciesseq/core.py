@@ -77,30 +77,51 @@ class Succession:
         return len(self.beds)
 
 
-def _aggregate(group: pd.DataFrame, attributes: list[str]) -> dict:
-    """Attributes of a bed made of several intervals of one facies.
+def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -> dict:
+    """Attributes of beds made of one or several intervals of one facies (vectorised).
 
-    Numbers: thickness-weighted mean of the known values. Text: the value at
-    the base of the bed for ``contact`` (a bed's contact is its lower contact),
-    otherwise the value covering most thickness.
+    Numbers: thickness-weighted mean of the known values. Text: for
+    ``contact``, the value at the base of the bed (a bed's contact is its lower
+    contact); otherwise the value covering most thickness (first on ties).
+    Missing values are skipped; a bed with none known gets a missing value.
     """
     out: dict = {}
-    thick = (group["base"] - group["top"]).to_numpy(dtype=float)
+    n_beds = int(bed_id[-1]) + 1 if len(bed_id) else 0
+    thick = (table["base"] - table["top"]).to_numpy(dtype=float)
     for col in attributes:
-        values = group[col]
+        values = table[col]
         known = values.notna().to_numpy()
-        if not known.any():
-            out[col] = values.iloc[0]
-            continue
-        if col == "contact":
-            out[col] = values[known].iloc[-1]
-        elif pd.api.types.is_numeric_dtype(values):
-            w = thick[known]
-            v = values.to_numpy(dtype=float)[known]
-            out[col] = float(np.average(v, weights=w)) if w.sum() > 0 else float(v.mean())
+        numeric = pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values)
+        if not numeric or col == "contact":
+            frame = pd.DataFrame(
+                {"bed": bed_id[known], "value": values[known].to_numpy(), "w": thick[known]}
+            )
+            if col == "contact":
+                picked = frame.groupby("bed", sort=True)["value"].last()
+            else:
+                sums = frame.groupby(["bed", "value"], sort=False)["w"].sum().reset_index()
+                order = np.lexsort((-sums["w"].to_numpy(), sums["bed"].to_numpy()))
+                sums = sums.iloc[order]
+                picked = sums.drop_duplicates("bed").set_index("bed")["value"]
+            result = np.full(n_beds, np.nan, dtype=object)
+            result[picked.index.to_numpy(dtype=int)] = picked.to_numpy(dtype=object)
+            out[col] = result
         else:
-            weights = pd.Series(thick[known], index=values[known].to_numpy())
-            out[col] = weights.groupby(level=0, sort=False).sum().idxmax()
+            v = values.to_numpy(dtype=float)
+            w = np.where(known, thick, 0.0)
+            vw = np.where(known, v, 0.0) * w
+            wsum = np.bincount(bed_id, weights=w, minlength=n_beds)
+            vsum = np.bincount(bed_id, weights=vw, minlength=n_beds)
+            # zero-thickness known values: plain mean
+            cnt = np.bincount(bed_id, weights=known.astype(float), minlength=n_beds)
+            plain = np.bincount(bed_id, weights=np.where(known, v, 0.0), minlength=n_beds)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                mean = np.where(
+                    wsum > 0,
+                    vsum / np.where(wsum > 0, wsum, 1.0),
+                    np.where(cnt > 0, plain / np.where(cnt > 0, cnt, 1.0), np.nan),
+                )
+            out[col] = mean
     return out
 
 
@@ -186,20 +207,20 @@ class Core:
         facies = table["facies"].to_numpy(dtype=object)
         new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])]
         bed_id = np.cumsum(new_bed) - 1
-        rows = []
-        for b, group in table.groupby(bed_id, sort=True):
-            first = int(np.searchsorted(bed_id, b))
-            row = {
-                "segment": int(segment[first]),
-                "top": float(group["top"].iloc[0]),
-                "base": float(group["base"].iloc[-1]),
-                "facies": str(group["facies"].iloc[0]),
-                "n_intervals": len(group),
-            }
-            row["thickness"] = row["base"] - row["top"]
-            row.update(_aggregate(group, attrs))
-            rows.append(row)
-        return pd.DataFrame(rows, columns=columns)
+        first = np.nonzero(new_bed)[0]
+        last = np.r_[first[1:] - 1, len(table) - 1]
+        top = table["top"].to_numpy(dtype=float)[first]
+        base = table["base"].to_numpy(dtype=float)[last]
+        data = {
+            "segment": segment[first].astype(int),
+            "top": top,
+            "base": base,
+            "thickness": base - top,
+            "facies": facies[first].astype(str).astype(object),
+            "n_intervals": (last - first + 1).astype(int),
+        }
+        data.update(_aggregate(table, bed_id, attrs))
+        return pd.DataFrame(data, columns=columns)
 
     def grid(self, step: float, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
         """Facies sampled on a regular depth grid of spacing ``step`` (depth units).

@@ -3,6 +3,8 @@
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.errors import InputError
@@ -60,3 +62,70 @@ def test_coreset_round_trips_its_frame():
     assert len(cs.successions()) == 2
     with pytest.raises(InputError):
         CoreSet.from_frame(table.drop(columns="core"))
+
+
+def _beds_by_loop(core):
+    """Plain per-bed reference for the vectorised amalgamation."""
+    table = core.intervals
+    seg = core.segment_ids()
+    rows, start = [], 0
+    for i in range(1, len(table) + 1):
+        if i == len(table) or table["facies"][i] != table["facies"][start] or seg[i] != seg[start]:
+            part = table.iloc[start:i]
+            w = (part["base"] - part["top"]).to_numpy()
+            g = part["grain_size"].to_numpy(float)
+            ok = ~np.isnan(g)
+            contacts = part["contact"].dropna()
+            rows.append(
+                (
+                    part["facies"].iloc[0],
+                    part["top"].iloc[0],
+                    part["base"].iloc[-1],
+                    float(np.average(g[ok], weights=w[ok])) if ok.any() else np.nan,
+                    contacts.iloc[-1] if len(contacts) else None,
+                )
+            )
+            start = i
+    return rows
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.sampled_from("ABC"),
+            st.integers(1, 3),
+            st.booleans(),
+            st.sampled_from(["sharp", "erosional", None]),
+            st.one_of(st.none(), st.floats(1, 6)),
+        ),
+        min_size=1,
+        max_size=30,
+    )
+)
+def test_vectorised_beds_equal_a_plain_loop(rows):
+    top, tops, bases = 0.0, [], []
+    for _, thick, gap_before, _, _ in rows:
+        top += 0.5 if gap_before else 0.0
+        tops.append(top)
+        bases.append(top + thick)
+        top += thick
+    table = pd.DataFrame(
+        {
+            "top": tops,
+            "base": bases,
+            "facies": [r[0] for r in rows],
+            "contact": [r[3] for r in rows],
+            "grain_size": [np.nan if r[4] is None else r[4] for r in rows],
+        }
+    )
+    core = Core("X", table)
+    beds = core.beds()
+    expected = _beds_by_loop(core)
+    assert len(beds) == len(expected)
+    for bed, (facies, btop, bbase, grain, contact) in zip(beds.itertuples(), expected):
+        assert (bed.facies, bed.top, bed.base) == (facies, btop, bbase)
+        assert (np.isnan(grain) and np.isnan(bed.grain_size)) or bed.grain_size == pytest.approx(
+            grain
+        )
+        assert bed.contact == contact or (contact is None and pd.isna(bed.contact))
