@@ -265,8 +265,9 @@ def describe_well(
                     "upper_tract": b,
                 }
             )
+    # depth order; at one depth the younger surface first, as read down the core
     surfaces_table = pd.DataFrame(
-        surfaces, columns=["depth", "surface", "name", "lower_tract", "upper_tract"]
+        surfaces[::-1], columns=["depth", "surface", "name", "lower_tract", "upper_tract"]
     ).sort_values("depth", kind="stable", ignore_index=True)
 
     # the interpreter's labels (labelled wells only)
