@@ -47,13 +47,19 @@ def main() -> None:
     t_base = _median(baseline)
     t_sections = _median(lambda: [run_section(scenario, s) for s in scenario.sections])
     t_total = _median(lambda: simulate(scenario))
-    print(f"machine: {platform.machine()} {platform.processor() or ''} python "
-          f"{platform.python_version()} numpy {np.__version__}")
+    print(
+        f"machine: {platform.machine()} {platform.processor() or ''} python "
+        f"{platform.python_version()} numpy {np.__version__}"
+    )
     print(f"baseline, one profile per step and cell: {t_base:.3f} s")
-    print(f"forward model, 3 sections:               {t_sections:.3f} s "
-          f"({t_sections / t_base:.1f} x baseline)")
-    print(f"simulate() incl. 17 described cores:      {t_total:.3f} s "
-          f"({t_total / t_base:.1f} x baseline)")
+    print(
+        f"forward model, 3 sections:               {t_sections:.3f} s "
+        f"({t_sections / t_base:.1f} x baseline)"
+    )
+    print(
+        f"simulate() incl. 17 described cores:      {t_total:.3f} s "
+        f"({t_total / t_base:.1f} x baseline)"
+    )
 
 
 if __name__ == "__main__":
