@@ -20,7 +20,7 @@ steps of ``dt`` kyr. At each step ``k``:
    cells above the profile are eroded towards it (at most ``e_max * dt`` and
    never below the basement) and the eroded sediment joins the supply. ``T``
    rises with ``s`` everywhere, so the volume balance ``deposited(s) -
-   eroded(s) = Q_k dt (1 - f_mud)`` has one root, found by bisection: the
+   eroded(s) = Q_k dt (1 - f_mud)`` has one root (found with Brent's method): the
    shoreline moves basinward when supply exceeds the accommodation made near
    the shore and landward otherwise (the shoreline-trajectory view of
    Helland-Hansen & Martinsen 1996, J. Sed. Research 66). If even the most
@@ -58,6 +58,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.optimize import brentq
 
 from faciesseq.simulate.scenario import Scenario, Section
 
@@ -65,7 +66,8 @@ __all__ = ["SectionHistory", "run_section"]
 
 #: m km per m^2 (internal volumes are thickness in m times length in km).
 _M2_PER_MKM = 1000.0
-_BISECTION_STEPS = 36
+#: Precision of the shoreline position (km).
+_SHORELINE_TOL_KM = 1e-8
 
 
 @dataclass(frozen=True)
@@ -202,7 +204,11 @@ def _place_shoreline(
     e_max: float,
     scenario: Scenario,
 ) -> tuple[np.ndarray, np.ndarray, float, float]:
-    """Solve ``deposited(s) - eroded(s) = budget`` for the shoreline ``s`` by bisection.
+    """Solve ``deposited(s) - eroded(s) = budget`` for the shoreline ``s``.
+
+    The balance rises monotonically with ``s``; its root is bracketed by the two
+    ends of the section and found with Brent's method (``scipy.optimize.brentq``;
+    Brent 1973, Algorithms for Minimization without Derivatives).
 
     Returns deposition, erosion (m per cell), the shoreline (km) and the sand
     that bypassed the section (m km).
@@ -223,15 +229,9 @@ def _place_shoreline(
     if balance(hi) <= 0.0:
         dep, ero = _change(x, hi, z, h, level, falling, e_max, scenario)
         return dep, ero, hi, budget - float((dep.sum() - ero.sum()) * dx)
-    for _ in range(_BISECTION_STEPS):
-        mid = 0.5 * (lo + hi)
-        if balance(mid) > 0.0:
-            hi = mid
-        else:
-            lo = mid
-    s = 0.5 * (lo + hi)
+    s = float(brentq(balance, lo, hi, xtol=_SHORELINE_TOL_KM, rtol=4 * np.finfo(float).eps))
     dep, ero = _change(x, s, z, h, level, falling, e_max, scenario)
-    # close the budget exactly: the small bisection residual is spread over the cells
+    # close the budget exactly: the small residual of the root is spread over the cells
     # that receive sand
     residual = budget - float((dep.sum() - ero.sum()) * dx)
     touched = dep > 0
