@@ -318,3 +318,38 @@ def test_shipped_scenarios_run_with_tracts_in_the_model_order(path):
     for lower, upper in itertools.pairwise(runs):
         assert allowed[idx[lower]][idx[upper]], (path, lower, upper)
     assert set(result.surfaces["surface"]) >= {"BSFR", "SB", "MRS", "MFS"}
+
+
+def test_conformable_facies_successions_obey_walthers_law(quiet):
+    # Walther's law (common practice): facies that follow each other upward without a
+    # break in deposition were neighbours on the profile, one rank apart at most
+    from faciesseq.simulate.wells import well_layers
+
+    scheme = quiet.scenario.scheme
+    hist = quiet.sections["dip"]
+    checked = 0
+    for well in quiet.scenario.wells:
+        layers = well_layers(hist, well, quiet.scenario)
+        ranks = layers["facies"].map(scheme.rank).to_numpy()
+        unbroken = (layers["hiatus_kyr"].to_numpy()[1:] == 0) & (
+            layers["eroded_below"].to_numpy()[1:] == 0
+        )
+        change = ranks[1:] != ranks[:-1]
+        assert (np.abs(np.diff(ranks))[unbroken] <= 1).all(), well.name
+        checked += int((unbroken & change).sum())
+    assert checked > 20
+
+
+def test_erosion_only_where_exposed_during_fall(quiet):
+    # the rule: the top of the section is eroded where it is exposed while
+    # base level falls (subaerial unconformity; Catuneanu et al. 2009)
+    hist = quiet.sections["dip"]
+    eroded = hist.eroded_m > 0
+    falling = hist.relative_rate_m_per_kyr < 0
+    assert eroded.any()
+    assert not eroded[~falling].any()
+    for k in np.nonzero(eroded.any(axis=1))[0]:
+        before = hist.elevation(k) - hist.subsidence_m_per_kyr * (
+            hist.time_kyr[k + 1] - hist.time_kyr[k]
+        )
+        assert (before[eroded[k]] > hist.base_level_m[k + 1]).all()
