@@ -654,10 +654,13 @@ class TractHMM:
         successions: CoreSet | Sequence[Succession],
         threshold: float = 0.5,
         mass: float = 0.9,
+        labels: str | Sequence[Sequence[str | None]] | None = None,
     ) -> Interpretation:
         """Tract column, posteriors, surface probabilities and picks of every core.
 
-        Any interpreter's ``tract`` column is ignored. ``threshold`` and
+        Any interpreter's ``tract`` column is ignored unless named by
+        ``labels``: then its labelled beds are clamped (they keep their tract,
+        posterior 1) and the rest is decoded around them. ``threshold`` and
         ``mass`` are the surface-pick options of
         :func:`faciesseq.surfaces.pick_surfaces`.
 
@@ -667,6 +670,7 @@ class TractHMM:
         """
         succ, beds = self._prepare(successions)
         self._warn_unseen(succ, beds)
+        clamp, _ = self._labels(succ, labels)
         tm = self.tract_model_
         codes = surface_codes(tm)
         names = surface_names(tm)
@@ -674,6 +678,8 @@ class TractHMM:
         per_core: dict[str, list] = {}
         for a, b, lengths, first in self._batches(beds.lengths):
             le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
+            if clamp is not None:
+                le = engine.constrained_log_emission(le, clamp[a:b][:, self.states_.state_tract])
             post = engine.forward_backward(
                 le, lengths, self.startprob_, self.transmat_, return_xi=True
             )
