@@ -96,14 +96,19 @@ class SurfacePicks:
 def pick_surfaces(
     probability: np.ndarray, threshold: float = 0.5, mass: float = 0.9, floor: float = 0.02
 ) -> SurfacePicks:
-    """Pick a surface where its contact probability peaks above ``threshold``.
+    """Pick a surface where its contact probability peaks, with an uncertainty interval.
 
-    A pick is a contact whose probability is a local maximum (ties: the first)
-    and at least ``threshold``. Its uncertainty interval is the narrowest run
-    of neighbouring contacts, grown from the pick towards the more probable
-    neighbour, holding ``mass`` of the probability of the pick's cluster (the
-    contiguous contacts around it with probability at least ``floor``, up to
-    the next pick) -- a highest-density interval along the core.
+    The contacts of a succession are cut into *clusters*: runs of contacts
+    with probability at least ``floor``, split again at every local minimum
+    inside a run (so two nearby peaks make two clusters). A cluster's
+    probability mass is the expected number of such surfaces in it; where it
+    reaches ``threshold``, the surface is picked at the cluster's most probable
+    contact. The uncertainty interval is the narrowest run of contacts, grown
+    from the pick towards the more probable neighbour, that holds ``mass`` of
+    the cluster's probability (a highest-density interval along the core).
+    Using the cluster mass, not the peak value alone, keeps a surface whose
+    position is uncertain by a bed or two (probability shared between
+    neighbouring contacts) from being missed.
 
     Parameters
     ----------
@@ -115,42 +120,50 @@ def pick_surfaces(
 
     Returns
     -------
-    SurfacePicks with contact indices of picks and of the interval ends.
+    SurfacePicks with contact indices of the picks, their probabilities (at
+    the pick contact) and the contact indices of the interval ends.
     """
     p = np.asarray(probability, dtype=float)
     n = len(p)
-    if n == 0:
-        empty = np.zeros(0, dtype=int)
-        return SurfacePicks(empty, np.zeros(0), empty, empty)
-    left = np.r_[-np.inf, p[:-1]]
-    right = np.r_[p[1:], -np.inf]
-    peaks = np.nonzero((p >= threshold) & (p > left) & (p >= right))[0]
-    lows, highs = [], []
-    for k, i in enumerate(peaks):
-        lo_lim = peaks[k - 1] + 1 if k > 0 else 0
-        hi_lim = peaks[k + 1] - 1 if k + 1 < len(peaks) else n - 1
-        a = i
-        while a - 1 >= lo_lim and p[a - 1] >= floor:
-            a -= 1
-        b = i
-        while b + 1 <= hi_lim and p[b + 1] >= floor:
-            b += 1
-        target = mass * p[a : b + 1].sum()
-        lo, hi, acc = i, i, p[i]
-        while acc < target - 1e-12 and (lo > a or hi < b):
-            below = p[lo - 1] if lo > a else -1.0
-            above = p[hi + 1] if hi < b else -1.0
-            if below >= above:
-                lo -= 1
-                acc += p[lo]
-            else:
-                hi += 1
-                acc += p[hi]
-        lows.append(lo)
-        highs.append(hi)
-    return SurfacePicks(
-        peaks.astype(int), p[peaks], np.asarray(lows, dtype=int), np.asarray(highs, dtype=int)
-    )
+    picks, probs, lows, highs = [], [], [], []
+    i = 0
+    while i < n:
+        if p[i] < floor:
+            i += 1
+            continue
+        j = i
+        while j + 1 < n and p[j + 1] >= floor:
+            j += 1
+        # split the run [i, j] at interior local minima
+        cuts = [i]
+        for k in range(i + 1, j):
+            if p[k] < p[k - 1] and p[k] <= p[k + 1]:
+                cuts.append(k)
+        bounds = [*cuts, j + 1]
+        for c in range(len(bounds) - 1):
+            a, b = bounds[c], bounds[c + 1] - 1  # a valley contact starts the next cluster
+            total = float(p[a : b + 1].sum())
+            if total < threshold:
+                continue
+            peak = a + int(np.argmax(p[a : b + 1]))
+            target = mass * total
+            lo, hi, acc = peak, peak, p[peak]
+            while acc < target - 1e-12 and (lo > a or hi < b):
+                below = p[lo - 1] if lo > a else -1.0
+                above = p[hi + 1] if hi < b else -1.0
+                if below >= above:
+                    lo -= 1
+                    acc += p[lo]
+                else:
+                    hi += 1
+                    acc += p[hi]
+            picks.append(peak)
+            probs.append(p[peak])
+            lows.append(lo)
+            highs.append(hi)
+        i = j + 1
+    as_int = lambda v: np.asarray(v, dtype=int)  # noqa: E731
+    return SurfacePicks(as_int(picks), np.asarray(probs, dtype=float), as_int(lows), as_int(highs))
 
 
 def picks_frame(
