@@ -159,13 +159,18 @@ def test_clamped_beds_keep_their_labels(train):
                 assert beds.loc[i, f"p_{v}"] == pytest.approx(1.0)
 
 
-def test_impossible_labels_name_the_core_and_depth(train):
+def test_impossible_labels_are_freed_with_a_warning_naming_core_and_depth(train):
+    from faciesseq.errors import InputError
+    from faciesseq.hmm.model import LabelWarning
+
     s = train[0]
     lab = [None] * len(s)
-    lab[0], lab[1] = "TST", "LST"  # TST -> LST upward is not in the tract graph
-    from faciesseq.errors import InputError
-
-    with pytest.raises(InputError, match=rf"core {s.core}, depth .*TST -> LST"):
+    lab[0], lab[1], lab[2] = "TST", "LST", "LST"  # TST -> LST upward is not in the graph
+    with pytest.warns(LabelWarning, match=rf"core {s.core}, depth .*TST -> LST"):
+        model = TractHMM(scheme=synth.scheme(), n_restarts=1).fit([s], labels=[lab])
+    assert model.n_labelled_ == 1
+    lab[0] = "ZZ"
+    with pytest.raises(InputError, match=rf"core {s.core}.*'ZZ' is not a tract"):
         TractHMM(scheme=synth.scheme()).fit([s], labels=[lab])
 
 

@@ -49,6 +49,7 @@ __all__ = [
     "FEATURES",
     "ConvergenceError",
     "ConvergenceMonitor",
+    "LabelWarning",
     "TractHMM",
 ]
 
@@ -58,6 +59,10 @@ FEATURES = ("facies", "facies_trend", "thickness", "contact")
 DEFAULT_FEATURES = ("facies_trend", "thickness", "contact")
 
 ProgressCallback = Callable[[int, int, float], None]
+
+
+class LabelWarning(UserWarning):
+    """An interpreter's label that cannot be used as it is (the beds are left free)."""
 
 
 class ConvergenceError(FaciesseqError):
@@ -155,8 +160,8 @@ class TractHMM:
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
         thickness, Gaussian), ``"contact"`` and any numeric bed attribute
-        (Gaussian). ``None``: ``facies_trend``, ``thickness`` and, where the
-        beds have them, ``contact``.
+        (Gaussian). ``None``: ``facies_trend``, ``thickness`` (not on a depth
+        grid) and, where the beds have them, ``contact``.
     substates
         Sub-states per tract (left-to-right chain); an int for every tract, a
         mapping tract -> int, or ``None`` for the tract model's own.
@@ -248,6 +253,8 @@ class TractHMM:
         columns = set().union(*(t.columns for t in tables)) if tables else set()
         if self.features is None:
             feats = [f for f in DEFAULT_FEATURES if f != "contact" or "contact" in columns]
+            if self.unit == "grid":  # every cell has the grid step as its thickness
+                feats.remove("thickness")
         else:
             feats = [str(f) for f in self.features]
         if not feats:
@@ -365,13 +372,24 @@ class TractHMM:
                     )
                 a = tracts.index(v)
                 if prev is not None and not allowed[prev, a]:
-                    raise InputError(
-                        f"labelled boundary {tracts[prev]} -> {v} (upward) is not allowed by "
-                        "the tract model's order and skips",
-                        core=s.core,
-                        depth=float(s.beds["base"].iloc[i]) if "base" in s.beds else None,
-                        units=s.units,
+                    # Tolerant, never silent: an interpreter's column may skip a
+                    # tract too thin to log; free both beds and say so.
+                    where = f"core {s.core}"
+                    if "base" in s.beds:
+                        where += f", depth {float(s.beds['base'].iloc[i]):.2f} {s.units}"
+                    warnings.warn(
+                        LabelWarning(
+                            f"{where}: labelled boundary {tracts[prev]} -> {v} (upward) is not "
+                            "allowed by the tract model's order and skips; the two beds are "
+                            "left unlabelled (add a skip in the tract model to allow it)"
+                        ),
+                        stacklevel=3,
                     )
+                    if not mask[i - 1].all():
+                        n_labelled -= 1
+                    mask[i - 1] = True
+                    prev = None
+                    continue
                 mask[i] = False
                 mask[i, a] = True
                 prev = a
@@ -658,9 +676,10 @@ class TractHMM:
     ) -> Interpretation:
         """Tract column, posteriors, surface probabilities and picks of every core.
 
-        Any interpreter's ``tract`` column is ignored unless named by
-        ``labels``: then its labelled beds are clamped (they keep their tract,
-        posterior 1) and the rest is decoded around them. ``threshold`` and
+        Any interpreter's ``tract`` column is ignored (it is kept in the bed
+        tables as ``interpreted_tract``) unless named by ``labels``: then its
+        labelled beds are clamped (they keep their tract, posterior 1) and the
+        rest is decoded around them. ``threshold`` and
         ``mass`` are the surface-pick options of
         :func:`faciesseq.surfaces.pick_surfaces`.
 
@@ -721,7 +740,8 @@ class TractHMM:
             loglik += ll
             beds = s.beds.copy()
             beds["segment"] = s.segment
-            beds = beds.drop(columns=[c for c in ("tract",) if c in beds.columns])
+            if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+                beds = beds.rename(columns={"tract": "interpreted_tract"})
             beds["tract"] = [tracts[i] for i in vit]
             for j, t in enumerate(tracts):
                 beds[f"p_{t}"] = gamma[:, j]
