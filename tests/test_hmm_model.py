@@ -195,8 +195,12 @@ def test_unseen_facies_decodes_with_a_warning(train):
     beds = s.beds.copy()
     beds.loc[3, "facies"] = "XX"
     beds.loc[4, "contact"] = "burrowed"
-    with pytest.warns(UnseenCategoryWarning, match="XX"):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
         interp = model.decode([Succession(s.core, 0, beds, "m")])
+    messages = [str(w.message) for w in caught if w.category is UnseenCategoryWarning]
+    assert any("facies ['XX']" in m and s.core in m for m in messages)
+    assert any("contact type ['burrowed']" in m for m in messages)
     core = interp[s.core]
     assert np.isfinite(core.log_likelihood)
     p = core.beds[[f"p_{t}" for t in core.tracts]].to_numpy()

@@ -83,7 +83,7 @@ def test_a_transition_outside_the_tract_graph_is_rejected(fitted, tmp_path):
 def test_not_json_and_missing_files(tmp_path):
     path = tmp_path / "m.json"
     path.write_bytes(b"\x80\x04\x95 pickled bytes")
-    with pytest.raises(ModelFileError, match="cannot read|not JSON"):
+    with pytest.raises(ModelFileError, match=r"cannot read|not JSON"):
         load_model(path)
     with pytest.raises(ModelFileError, match="not found"):
         load_model(tmp_path / "absent.json")

@@ -133,13 +133,18 @@ def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession
 
 
 def _text(values: pd.Series) -> list[str | None]:
-    out: list[str | None] = []
-    for v in values.to_numpy(dtype=object):
-        if v is None or v is pd.NA or (isinstance(v, float) and np.isnan(v)):
-            out.append(None)
-            continue
-        text = str(v).strip()
-        out.append(text if text and text.lower() != "nan" else None)
+    """Values as stripped text, ``None`` where blank or missing."""
+    text = values.astype("string").str.strip()
+    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
+    return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
+
+
+def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
+    out: set[str] = set()
+    for t in tables:
+        if column in t.columns:
+            text = t[column].dropna().astype("string").str.strip()
+            out.update(v for v in text.unique().tolist() if v and v.lower() != "nan")
     return out
 
 
@@ -274,10 +279,7 @@ class TractHMM:
         return tuple(feats)
 
     def _vocabularies(self, tables: Sequence[pd.DataFrame]) -> None:
-        seen = sorted(
-            {c for t in tables for c in _text(t["facies"]) if c is not None},
-            key=lambda c: (len(c), c),
-        )
+        seen = sorted(_distinct(tables, "facies"), key=lambda c: (len(c), c))
         if self.scheme is not None:
             facies = list(self.scheme.codes)
             facies += [c for c in seen if c not in facies]
@@ -294,9 +296,7 @@ class TractHMM:
                     stacklevel=3,
                 )
         self.facies_ = tuple(facies)
-        contacts = sorted(
-            {c for t in tables if "contact" in t.columns for c in _text(t["contact"]) if c}
-        )
+        contacts = sorted(_distinct(tables, "contact"))
         self.contacts_ = tuple(contacts)
         if "contact" in self.features_ and not contacts:
             raise ConfigError("feature 'contact' needs contact types in the beds; none found")
