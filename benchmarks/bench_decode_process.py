@@ -60,8 +60,16 @@ def main() -> None:
         py = sys.executable
         baseline = _time([py, "-c", "import numpy, pandas"], args.repeat)
         decode = _time(
-            [py, "-m", "faciesseq", "decode", str(tmp / "model.json"), str(tmp / "core.csv"),
-             "-o", str(tmp / "out")],
+            [
+                py,
+                "-m",
+                "faciesseq",
+                "decode",
+                str(tmp / "model.json"),
+                str(tmp / "core.csv"),
+                "-o",
+                str(tmp / "out"),
+            ],
             args.repeat,
         )
     b, d = statistics.median(baseline), statistics.median(decode)
@@ -74,14 +82,15 @@ def main() -> None:
             "",
             "| process | median s | min s |",
             "|---|---|---|",
-            f"| `python -c \"import numpy, pandas\"` (baseline) | {b:.3f} | {min(baseline):.3f} |",
+            f'| `python -c "import numpy, pandas"` (baseline) | {b:.3f} | {min(baseline):.3f} |',
             f"| `faciesseq decode model.json core.csv -o out` | {d:.3f} | {min(decode):.3f} |",
             "",
             f"Ratio decode / baseline (medians): **{d / b:.2f}** (target <= 2).",
         ]
     )
-    write_section(ROOT / "benchmarks" / "hmm_model.md", "decode-process", text,
-                  "Tract model: measurements")
+    write_section(
+        ROOT / "benchmarks" / "hmm_model.md", "decode-process", text, "Tract model: measurements"
+    )
     print(text)
 
 

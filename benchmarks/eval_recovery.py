@@ -75,7 +75,9 @@ def _mfs_within_one_bed(interp, true_surfaces):
     """Fraction of cores whose every cored true MFS has an MFS pick <= 1 contact away."""
     ok, n = 0, 0
     for core in interp:
-        truth = true_surfaces[(true_surfaces["core"] == core.core) & (true_surfaces["surface"] == "MFS")]
+        truth = true_surfaces[
+            (true_surfaces["core"] == core.core) & (true_surfaces["surface"] == "MFS")
+        ]
         if "cored" in truth:
             truth = truth[truth["cored"].astype(bool)]
         contacts = core.boundaries["depth"].to_numpy(float)
@@ -284,7 +286,9 @@ def main() -> None:
     ]
     parts += ["", f"(whole evaluation: {time.perf_counter() - t0:.0f} s)"]
     text = "\n".join(parts)
-    write_section(ROOT / "benchmarks" / "hmm_model.md", "recovery", text, "Tract model: measurements")
+    write_section(
+        ROOT / "benchmarks" / "hmm_model.md", "recovery", text, "Tract model: measurements"
+    )
     print(text)
 
 

@@ -272,9 +272,11 @@ def test_substates_expand_each_tract_into_a_left_to_right_chain():
     states = StateSpace.build(tm, model.substates)
     assert states.labels() == ["HST.1", "HST.2", "HST.3", "FSST", "LST", "TST.1", "TST.2"]
     A = states.allowed
-    assert A[0, 1] and not A[0, 3] and A[2, 3]  # HST leaves only from its last sub-state
+    assert A[0, 1] and not A[0, 2] and A[2, 3]  # one step along the chain at a time
+    assert A[0, 3] and A[1, 3]  # a tract may end in any sub-state (a one-bed tract is possible)
     assert not A[1, 0]  # never back down the chain
-    assert A[6, 0] and not A[5, 0]  # TST.2 -> HST.1
+    assert A[6, 0] and A[5, 0] and not A[5, 1]  # other tracts are entered at sub-state 1 only
+    assert not A[3, 6]  # FSST -> TST.2: never into the middle of a tract
 
 
 def test_custom_tract_model_without_skips():

@@ -119,6 +119,21 @@ class _Data:
     clamp: np.ndarray | None  # (T, n_tracts) bool, or None
     ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
     rule: np.ndarray  # (T,) trend-rule tract index
+    cores: tuple[str, ...] = ()  # core of each succession
+
+
+def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
+    """The engine's error about "sequence N" of a batch, naming the core instead."""
+    import re
+
+    found = re.search(r"sequence (\d+)", exc.message)
+    core = None
+    if found and cores:
+        k = first + int(found.group(1))
+        core = cores[k] if k < len(cores) else None
+    return InputError(
+        "the beds have probability zero under the tract model (" + exc.message + ")", core=core
+    )
 
 
 def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
@@ -425,14 +440,17 @@ class TractHMM:
         trans = np.zeros((K, K))
         start = np.zeros(K)
         total = 0.0
-        for a, b, lengths, _ in self._batches(data.beds.lengths):
+        for a, b, lengths, first in self._batches(data.beds.lengths):
             part = data.beds.slice(a, b, lengths)
             le = self._log_emission(pieces, part)
             if data.clamp is not None:
                 le = engine.constrained_log_emission(
                     le, data.clamp[a:b][:, self.states_.state_tract]
                 )
-            post = engine.forward_backward(le, lengths, startprob, transmat)
+            try:
+                post = engine.forward_backward(le, lengths, startprob, transmat)
+            except InputError as exc:
+                raise _located(exc, data.cores, first) from None
             weights = self.states_.to_tracts(post.gamma)
             for p, st in zip(pieces, stats):
                 p.accumulate(st, part, weights)
@@ -559,7 +577,7 @@ class TractHMM:
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
         rule = trend_rule(ranks, beds.lengths, self.tract_model_)
-        data = _Data(beds, clamp, ranks, rule)
+        data = _Data(beds, clamp, ranks, rule, tuple(s.core for s in succ))
         rng = (
             self.random_state
             if isinstance(self.random_state, np.random.Generator)
