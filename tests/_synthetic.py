@@ -85,3 +85,11 @@ def synthetic_interpretation(model: TractModel, names=("W-1", "W-2")) -> Interpr
     cores = {n: synthetic_core(model, n, seed=k) for k, n in enumerate(names)}
     first = next(iter(cores.values()))
     return Interpretation(cores, first.tracts, first.surfaces)
+
+
+def synthetic_coreset(interpretation: Interpretation, units: str = "m"):
+    """The core set whose beds are those of ``interpretation`` (one interval per bed)."""
+    from faciesseq.core import CoreSet
+
+    frames = [c.beds[["top", "base", "facies"]].assign(core=c.core) for c in interpretation]
+    return CoreSet.from_frame(pd.concat(frames, ignore_index=True), units=units)
