@@ -24,6 +24,7 @@ from faciesseq.errors import InputError
 
 __all__ = [
     "EncodedSuccessions",
+    "batch_ngram_counts",
     "encode",
     "fixed_vector",
     "n_step",
@@ -196,6 +197,23 @@ def ngram_counts(enc: EncodedSuccessions, order: int, *, skip: int = 0) -> np.nd
     for k in range(width):
         code = code * m + enc.states[starts + k]
     return np.bincount(code, minlength=m**width).reshape((m,) * width)
+
+
+def batch_ngram_counts(enc: EncodedSuccessions, batch: np.ndarray, order: int) -> np.ndarray:
+    """:func:`ngram_counts` for a batch of surrogates ``(B, len(enc.states))`` of ``enc``.
+
+    Returns ``(B,) + (m,) * (order + 1)``.
+    """
+    m = enc.m
+    width = order + 1
+    starts = _window_index(enc, width)
+    b = batch.shape[0]
+    code = np.zeros((b, len(starts)), dtype=np.int64)
+    for k in range(width):
+        code = code * m + batch[:, starts + k]
+    code += (np.arange(b, dtype=np.int64) * m**width)[:, None]
+    flat = np.bincount(code.ravel(), minlength=b * m**width)
+    return flat.reshape((b,) + (m,) * width)
 
 
 def transition_counts(enc: EncodedSuccessions, *, per_succession: bool = False) -> np.ndarray:
