@@ -156,80 +156,75 @@ class Appendix:
 # --------------------------------------------------------------------------- data
 
 
-def _data_tables(cores: CoreSet, scheme: FaciesScheme) -> dict[str, pd.DataFrame]:
-    units = cores.units
-    rows = []
-    beds_all = []
-    for core in cores:
-        beds = core.beds()
-        beds_all.append(beds.assign(core=core.name))
-        rows.append(
-            {
-                "core": core.name,
-                "intervals": len(core),
-                "beds": len(beds),
-                "segments": int(core.segment_ids().max() + 1) if len(core) else 0,
-                f"top ({units})": core.top,
-                f"base ({units})": core.base,
-                f"described ({units})": core.thickness,
-                f"gaps ({units})": float(sum(b - t for t, b in core.gaps())),
-            }
-        )
-    summary = pd.DataFrame(rows).set_index("core")
-    beds = pd.concat(beds_all, ignore_index=True) if beds_all else pd.DataFrame()
-    codes = [c for c in scheme.codes_by_rank if c in set(beds.get("facies", []))]
-    codes += [c for c in cores.facies_codes() if c not in codes]
-    grouped = beds.groupby("facies")["thickness"] if len(beds) else None
-    facies_rows = []
-    thick_rows = []
-    total_beds = len(beds)
-    total_thick = float(beds["thickness"].sum()) if len(beds) else 0.0
-    for code in codes:
-        t = grouped.get_group(code).to_numpy(float) if grouped is not None else np.zeros(0)
-        facies_rows.append(
-            {
-                "facies": code,
-                "name": scheme[code].name if code in scheme else "(not in scheme)",
-                "rank": scheme.rank(code) if code in scheme else np.nan,
-                "beds": len(t),
-                "proportion of beds": len(t) / total_beds if total_beds else np.nan,
-                f"thickness ({units})": float(t.sum()),
-                "proportion of thickness": float(t.sum()) / total_thick if total_thick else np.nan,
-            }
-        )
-        thick_rows.append(
-            {
-                "facies": code,
-                "beds": len(t),
-                f"mean ({units})": float(t.mean()) if len(t) else np.nan,
-                f"sd ({units})": float(t.std(ddof=1)) if len(t) > 1 else np.nan,
-                f"median ({units})": float(np.median(t)) if len(t) else np.nan,
-                f"min ({units})": float(t.min()) if len(t) else np.nan,
-                f"max ({units})": float(t.max()) if len(t) else np.nan,
-            }
-        )
-    problems = pd.DataFrame(
+def _data_tables(cores: CoreSet, scheme: FaciesScheme) -> tuple[dict[str, pd.DataFrame], Any]:
+    """The tables of section 1, from :func:`faciesseq.io.summarise` (renamed for reading)."""
+    from faciesseq.io import summarise
+
+    summary = summarise(cores, scheme)
+    u = cores.units
+    core_frame = summary.to_frame("cores").drop(columns=["units"])
+    if core_frame["sample_step"].isna().all():
+        core_frame = core_frame.drop(columns=["sample_step"])
+    core_frame = core_frame.rename(
+        columns={
+            "top": f"top ({u})",
+            "base": f"base ({u})",
+            "cored_thickness": f"described ({u})",
+            "gap_thickness": f"gap thickness ({u})",
+            "sample_step": f"sample step ({u})",
+        }
+    ).set_index("core")
+    facies = summary.to_frame("facies").set_index("facies")
+    ranks = [scheme.rank(c) if c in scheme else np.nan for c in facies.index]
+    facies.insert(1, "rank", ranks)
+    facies = facies.iloc[np.argsort(np.asarray(ranks, float), kind="stable")]
+    facies["name"] = facies["name"].fillna("(not in scheme)")
+    proportions = facies[
         [
-            {
-                "severity": p.severity,
-                "kind": p.kind,
-                "file": p.file or "",
-                "row": p.row,
-                "core": p.core or "",
-                "depth": p.depth,
-                "message": p.message,
-            }
-            for p in cores.problems
-        ],
-        columns=["severity", "kind", "file", "row", "core", "depth", "message"],
+            "name",
+            "rank",
+            "intervals",
+            "beds",
+            "proportion_beds",
+            "thickness",
+            "proportion_thickness",
+        ]
+    ].rename(
+        columns={
+            "proportion_beds": "proportion of beds",
+            "thickness": f"thickness ({u})",
+            "proportion_thickness": "proportion of thickness",
+        }
     )
+    thickness = facies[
+        [
+            "beds",
+            "bed_thickness_mean",
+            "bed_thickness_std",
+            "bed_thickness_median",
+            "bed_thickness_min",
+            "bed_thickness_max",
+        ]
+    ].rename(
+        columns={
+            "bed_thickness_mean": f"mean ({u})",
+            "bed_thickness_std": f"sd ({u})",
+            "bed_thickness_median": f"median ({u})",
+            "bed_thickness_min": f"min ({u})",
+            "bed_thickness_max": f"max ({u})",
+        }
+    )
+    problems = summary.to_frame("problems")[
+        ["severity", "kind", "file", "row", "core", "depth", "message"]
+    ].copy()
     problems["row"] = problems["row"].astype("Int64")
-    return {
-        "cores": summary,
-        "facies": pd.DataFrame(facies_rows).set_index("facies"),
-        "bed_thickness": pd.DataFrame(thick_rows).set_index("facies"),
+    tables = {
+        "cores": core_frame,
+        "facies": proportions,
+        "bed_thickness": thickness,
         "problems": problems,
     }
+    return tables, summary
 
 
 _HANDLED = {
@@ -243,8 +238,8 @@ _HANDLED = {
 def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Section:
     from faciesseq.report import figures as fig
 
-    tables = _data_tables(cores, scheme)
-    results["data"] = {k: v for k, v in tables.items()}
+    tables, summary = _data_tables(cores, scheme)
+    results["data"] = summary.to_dict()
     units = cores.units
     s = Section("Data")
     n_beds = int(tables["cores"]["beds"].sum()) if len(tables["cores"]) else 0
@@ -306,11 +301,16 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
                         f"{'s' if counts[severity] != 1 else ''}: {_HANDLED[severity]}."
                     )
                 )
+        files = problems["file"].dropna().unique()
+        where = "(file, data row, core, depth)"
+        if len(files) == 1:
+            problems = problems.drop(columns=["file"])
+            where = f"(data row of {files[0]}, core, depth)"
         check.add(
             TableBlock(
                 "data_problems",
-                "Every problem found while reading and validating the data, where it is "
-                "(file, data row, core, depth) and what it is.",
+                f"Every problem found while reading and validating the data, where it is "
+                f"{where} and what it is.",
                 problems,
                 index=False,
             )
