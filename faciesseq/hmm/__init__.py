@@ -1,0 +1,1 @@
+"""The systems-tract hidden Markov model: engine, emissions, estimator, model files."""

@@ -1,0 +1,544 @@
+"""Numerical engine of the tract model: forward-backward, Viterbi, clamping.
+
+The engine works on a *log-emission array*: one row per observation (a bed
+or a grid cell), one column per hidden state, holding ``log p(obs_t | state
+k)``; the rows of all sequences are concatenated and ``lengths`` says where
+each sequence ends. Whatever emission model the caller uses (categorical,
+facies conditioned on the previous facies, thickness, grain size, missing
+values marginalised as ``0.0 = log 1``) reduces to such an array, so the
+engine knows nothing of facies or tracts.
+
+Why not hmmlearn's own recursions: hmmlearn computes the emissions itself
+from its own emission classes (no mixed or previous-facies-conditioned
+emissions, no log-emission input), has no partially labelled sequences
+(clamping), and returns no per-boundary two-slice posteriors, which the
+surface probabilities need. hmmlearn is the reference the tests compare
+against (same log-likelihoods, posteriors, expected transition counts and
+Viterbi paths), and ``benchmarks/bench_em.py`` measures the speed of both.
+
+Batching: sequences are sorted by length (longest first) and grouped into
+batches of at most ``batch_size`` rows. Inside a batch the rows are stored
+*time-major* (all first observations, then all second observations, ...), so
+at every time step the sequences still running are a leading block of the
+previous step's block: one ``(B, K) @ (K, K)`` product advances every
+sequence of the batch by one step, with no padding and no masks. The Python
+loop runs over time steps only, never over sequences or observations.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from faciesseq.errors import ConfigError, InputError
+
+__all__ = [
+    "DEFAULT_BATCH_CELLS",
+    "Posteriors",
+    "constrained_log_emission",
+    "forward_backward",
+    "viterbi",
+]
+
+#: Default work bound: rows per batch times states (``batch_size = this // K``).
+#: About 32 MB per float64 work array.
+DEFAULT_BATCH_CELLS = 1 << 22
+
+# Tolerance on probabilities summing to one.
+_SUM_TOL = 1e-6
+
+
+@dataclass(frozen=True)
+class Posteriors:
+    """Results of :func:`forward_backward`.
+
+    Attributes
+    ----------
+    log_likelihood
+        ``(n_sequences,)`` natural-log likelihood of each sequence.
+    gamma
+        ``(T_total, K)`` posterior probability of each state at each row, rows
+        in the order of the input (all sequences concatenated); rows sum to 1.
+    xi_sum
+        ``(K, K)`` two-slice posteriors ``P(state_t = i, state_t+1 = j | obs)``
+        summed over every boundary of every sequence: the expected transition
+        counts of the EM M-step.
+    xi
+        ``(T_total - n_sequences, K, K)`` two-slice posterior of each boundary
+        if asked for, else ``None``. Boundary ``t`` of a sequence lies between
+        its rows ``t`` and ``t + 1``; boundaries of all sequences are
+        concatenated in input order (sequence ``s`` has ``lengths[s] - 1``).
+    start
+        ``(K,)`` sum over sequences of ``gamma`` at each sequence's first row:
+        the expected initial-state counts of the EM M-step.
+    """
+
+    log_likelihood: np.ndarray
+    gamma: np.ndarray
+    xi_sum: np.ndarray
+    xi: np.ndarray | None
+    start: np.ndarray
+
+    @property
+    def total_log_likelihood(self) -> float:
+        """Sum of the per-sequence log-likelihoods."""
+        return float(np.sum(self.log_likelihood))
+
+
+# --------------------------------------------------------------------------
+# validation
+
+
+def _check_log_emission(log_emission: np.ndarray) -> np.ndarray:
+    le = np.asarray(log_emission, dtype=np.float64)
+    if le.ndim != 2:
+        raise InputError(f"log-emission array must be 2-D (rows, states), got shape {le.shape}")
+    if le.shape[1] == 0:
+        raise InputError("log-emission array has no state columns")
+    bad = np.isnan(le) | (le == np.inf)
+    if bad.any():
+        r, k = np.argwhere(bad)[0]
+        raise InputError(
+            f"log-emission row {r}, state {k} is {le[r, k]}; "
+            "expected a log-probability (finite or -inf)"
+        )
+    return le
+
+
+def _check_lengths(lengths: np.ndarray | Sequence[int] | None, n_rows: int) -> np.ndarray:
+    if lengths is None:
+        if n_rows == 0:
+            raise InputError("log-emission array has no rows")
+        return np.array([n_rows], dtype=np.intp)
+    arr = np.asarray(lengths)
+    if arr.ndim != 1 or arr.size == 0:
+        raise InputError(f"lengths must be a non-empty 1-D array, got shape {arr.shape}")
+    integral = np.issubdtype(arr.dtype, np.integer) or (
+        np.issubdtype(arr.dtype, np.floating) and bool(np.all(arr == np.round(arr)))
+    )
+    if not integral:
+        raise InputError(f"lengths must be integers, got dtype {arr.dtype}")
+    arr = arr.astype(np.intp)
+    short = np.flatnonzero(arr < 1)
+    if short.size:
+        s = int(short[0])
+        raise InputError(f"sequence {s} has length {arr[s]}; every sequence needs >= 1 row")
+    if int(arr.sum()) != n_rows:
+        raise InputError(
+            f"lengths sum to {int(arr.sum())} but the log-emission array has {n_rows} rows"
+        )
+    return arr
+
+
+def _check_params(
+    startprob: np.ndarray, transmat: np.ndarray, n_states: int
+) -> tuple[np.ndarray, np.ndarray]:
+    pi = np.asarray(startprob, dtype=np.float64)
+    A = np.asarray(transmat, dtype=np.float64)
+    if pi.shape != (n_states,):
+        raise ConfigError(
+            f"startprob has shape {pi.shape}; expected ({n_states},) to match the "
+            "log-emission columns"
+        )
+    if A.shape != (n_states, n_states):
+        raise ConfigError(f"transmat has shape {A.shape}; expected ({n_states}, {n_states})")
+    if not (np.all(np.isfinite(pi)) and np.all(pi >= 0)):
+        raise ConfigError("startprob must hold finite probabilities >= 0")
+    if not (np.all(np.isfinite(A)) and np.all(A >= 0)):
+        raise ConfigError("transmat must hold finite probabilities >= 0")
+    if abs(pi.sum() - 1.0) > _SUM_TOL:
+        raise ConfigError(f"startprob sums to {pi.sum():.8g}; expected 1")
+    rows = A.sum(axis=1)
+    off = np.flatnonzero(np.abs(rows - 1.0) > _SUM_TOL)
+    if off.size:
+        i = int(off[0])
+        raise ConfigError(f"transmat row {i} sums to {rows[i]:.8g}; expected 1")
+    return pi, A
+
+
+def _log(p: np.ndarray) -> np.ndarray:
+    """Natural log with exact ``-inf`` for zeros and no warning."""
+    out = np.full(p.shape, -np.inf)
+    np.log(p, out=out, where=p > 0)
+    return out
+
+
+# --------------------------------------------------------------------------
+# batching
+
+
+@dataclass(frozen=True)
+class _Batch:
+    """Sequences of one batch, rows stored time-major.
+
+    ``seq[j]`` is the input index of the batch's ``j``-th sequence (longest
+    first); packed row ``offsets[t] + j`` is row ``t`` of sequence ``j`` and
+    ``rows`` maps every packed row to its input row.
+    """
+
+    seq: np.ndarray
+    lengths: np.ndarray
+    rows: np.ndarray
+    counts: np.ndarray
+    offsets: np.ndarray
+    position: np.ndarray  # batch position j of every packed row
+    step: np.ndarray  # time step t of every packed row
+
+    @property
+    def n_rows(self) -> int:
+        return int(self.rows.size)
+
+
+def _batches(lengths: np.ndarray, batch_size: int) -> Iterator[_Batch]:
+    starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+    order = np.argsort(-lengths, kind="stable")
+    sorted_len = lengths[order]
+    i, n = 0, len(order)
+    while i < n:
+        # Greedy: add sequences while the batch stays within batch_size rows
+        # (a single longer sequence is a batch of its own).
+        csum = np.cumsum(sorted_len[i:])
+        stop = i + max(1, int(np.searchsorted(csum, batch_size, side="right")))
+        seq = order[i:stop]
+        blen = sorted_len[i:stop]
+        n_steps = int(blen[0])
+        # Sequences running at step t: those longer than t (a leading block).
+        counts = np.searchsorted(-blen, -np.arange(n_steps), side="left")
+        offsets = np.concatenate(([0], np.cumsum(counts)))
+        step = np.repeat(np.arange(n_steps), counts)
+        position = np.arange(offsets[-1]) - offsets[step]
+        rows = starts[seq][position] + step
+        yield _Batch(seq, blen, rows, counts, offsets, position, step)
+        i = stop
+
+
+def _resolve_batch_size(batch_size: int | None, n_states: int) -> int:
+    if batch_size is None:
+        return max(1, DEFAULT_BATCH_CELLS // n_states)
+    if int(batch_size) < 1:
+        raise ConfigError(f"batch_size must be >= 1, got {batch_size}")
+    return int(batch_size)
+
+
+def _impossible(batch: _Batch, packed_row: int, what: str) -> InputError:
+    s = int(batch.seq[batch.position[packed_row]])
+    t = int(batch.step[packed_row])
+    return InputError(
+        f"sequence {s} is impossible under the model: {what} at its row {t} "
+        f"(row {int(batch.rows[packed_row])} of the log-emission array); check "
+        "labels/clamps against the allowed tract transitions and the emissions"
+    )
+
+
+# --------------------------------------------------------------------------
+# forward-backward
+
+
+def forward_backward(
+    log_emission: np.ndarray,
+    lengths: np.ndarray | Sequence[int] | None,
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    *,
+    return_xi: bool = False,
+    batch_size: int | None = None,
+) -> Posteriors:
+    """State and two-slice posteriors and log-likelihoods of many sequences.
+
+    Scaled forward-backward recursions (Rabiner 1989, section V.A). Each row of
+    ``log_emission`` is shifted by its maximum and exponentiated, so emissions
+    lie in ``(0, 1]``; the forward variables are normalised at every step
+    (scale factor ``c_t``), the backward variables divided by the same factors,
+    and ``log L = sum_t (log c_t + max_k log_emission[t, k])``. Zeros in
+    ``transmat`` and ``startprob`` stay exact zeros in every posterior
+    (structural zeros of the tract graph), with no log of zero taken.
+
+    Parameters
+    ----------
+    log_emission
+        ``(T_total, K)`` ``log p(obs_t | state k)``, rows of all sequences
+        concatenated. ``-inf`` forbids a state at a row (see
+        :func:`constrained_log_emission`); ``0.0`` marginalises a missing
+        observation.
+    lengths
+        ``(n_sequences,)`` number of rows of each sequence, summing to
+        ``T_total``; ``None`` means one sequence.
+    startprob
+        ``(K,)`` initial-state probabilities.
+    transmat
+        ``(K, K)`` transition probabilities, ``transmat[i, j] = P(j at t+1 | i
+        at t)``; rows sum to 1.
+    return_xi
+        Also return the ``(T_total - n_sequences, K, K)`` two-slice posterior of
+        every boundary (needed for surface probabilities; the EM M-step only
+        needs ``xi_sum``).
+    batch_size
+        Maximum rows per batch of work (memory is a few ``batch_size x K``
+        float64 arrays besides the inputs and outputs; a sequence longer than
+        ``batch_size`` is a batch of its own). Default
+        ``DEFAULT_BATCH_CELLS // K``.
+
+    Returns
+    -------
+    Posteriors
+
+    Raises
+    ------
+    InputError
+        Bad shapes or values, or a sequence that has probability zero under
+        the model (the message names the sequence and the row).
+    ConfigError
+        ``startprob`` / ``transmat`` not probability vectors / matrices.
+
+    References
+    ----------
+    L. R. Rabiner (1989), "A tutorial on hidden Markov models and selected
+    applications in speech recognition", Proc. IEEE 77(2):257-286.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> le = np.log([[0.5, 0.1], [0.4, 0.3], [0.1, 0.6]])
+    >>> post = forward_backward(le, [3], [0.6, 0.4], [[0.7, 0.3], [0.4, 0.6]])
+    >>> post.gamma.shape, round(float(post.gamma.sum()), 6)
+    ((3, 2), 3.0)
+    """
+    le = _check_log_emission(log_emission)
+    T, K = le.shape
+    lens = _check_lengths(lengths, T)
+    pi, A = _check_params(startprob, transmat, K)
+    rows_per_batch = _resolve_batch_size(batch_size, K)
+    AT = np.ascontiguousarray(A.T)
+
+    n_seq = lens.size
+    loglik = np.empty(n_seq)
+    gamma_out = np.empty((T, K))
+    xi_sum = np.zeros((K, K))
+    start = np.zeros(K)
+    xi_out = None
+    if return_xi:
+        xi_out = np.empty((T - n_seq, K, K))
+        boundary_start = np.concatenate(([0], np.cumsum(lens - 1)[:-1]))
+
+    for batch in _batches(lens, rows_per_batch):
+        counts, off = batch.counts, batch.offsets
+        n_steps = counts.size
+        E = le[batch.rows]
+        row_max = E.max(axis=1)
+        # A row where every state is forbidden: shift by 0 so it becomes all
+        # zeros (scale factor 0 -> reported below), not NaN.
+        row_max[row_max == -np.inf] = 0.0
+        E -= row_max[:, None]
+        np.exp(E, out=E)
+
+        alpha = np.empty_like(E)
+        scale = np.empty(batch.n_rows)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            n0 = int(counts[0])
+            np.multiply(E[:n0], pi, out=alpha[:n0])
+            np.sum(alpha[:n0], axis=1, out=scale[:n0])
+            alpha[:n0] /= scale[:n0, None]
+            for t in range(1, n_steps):
+                o, n, op = int(off[t]), int(counts[t]), int(off[t - 1])
+                a = alpha[o : o + n]
+                np.matmul(alpha[op : op + n], A, out=a)
+                a *= E[o : o + n]
+                c = scale[o : o + n]
+                np.sum(a, axis=1, out=c)
+                a /= c[:, None]
+        bad = np.flatnonzero(~(scale > 0))
+        if bad.size:
+            raise _impossible(batch, int(bad[0]), "no allowed state explains the observation")
+
+        # Backward pass; E[t] (t >= 1) is overwritten by E[t] * beta[t] / c[t],
+        # the factor shared by beta[t-1] and by the two-slice posteriors.
+        beta = np.ones_like(E)
+        for t in range(n_steps - 2, -1, -1):
+            o1, n, o = int(off[t + 1]), int(counts[t + 1]), int(off[t])
+            x = E[o1 : o1 + n]
+            x *= beta[o1 : o1 + n]
+            x /= scale[o1 : o1 + n, None]
+            np.matmul(x, AT, out=beta[o : o + n])
+
+        nxt = slice(int(off[1]) if n_steps > 1 else batch.n_rows, batch.n_rows)
+        if n_steps > 1:
+            prev = off[batch.step[nxt] - 1] + batch.position[nxt]
+            alpha_prev = alpha[prev]
+            xi_sum += A * (alpha_prev.T @ E[nxt])
+            if xi_out is not None:
+                xi_b = alpha_prev[:, :, None] * A[None, :, :]
+                xi_b *= E[nxt][:, None, :]
+                seq_of = batch.seq[batch.position[nxt]]
+                xi_out[boundary_start[seq_of] + batch.step[nxt] - 1] = xi_b
+            del alpha_prev
+
+        gamma = alpha
+        gamma *= beta
+        gamma /= gamma.sum(axis=1, keepdims=True)
+        gamma_out[batch.rows] = gamma
+        start += gamma[: int(counts[0])].sum(axis=0)
+        ll_rows = np.log(scale) + row_max
+        loglik[batch.seq] = np.bincount(batch.position, weights=ll_rows, minlength=batch.seq.size)
+
+    return Posteriors(log_likelihood=loglik, gamma=gamma_out, xi_sum=xi_sum, xi=xi_out, start=start)
+
+
+# --------------------------------------------------------------------------
+# Viterbi
+
+
+def viterbi(
+    log_emission: np.ndarray,
+    lengths: np.ndarray | Sequence[int] | None,
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    *,
+    batch_size: int | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Most likely state path of each sequence (Viterbi), in log space.
+
+    Parameters
+    ----------
+    log_emission, lengths, startprob, transmat, batch_size
+        As for :func:`forward_backward`. Zero probabilities become ``-inf``
+        (impossible transitions are never taken).
+
+    Returns
+    -------
+    path
+        ``(T_total,)`` int state of every row, input order.
+    log_prob
+        ``(n_sequences,)`` natural log of the joint probability of each
+        sequence and its path.
+
+    Ties are broken towards the lowest state index (for the last state and
+    for every back-pointer).
+
+    Raises
+    ------
+    InputError
+        Bad input, or a sequence with no path of non-zero probability (the
+        message names the sequence).
+
+    References
+    ----------
+    A. J. Viterbi (1967), "Error bounds for convolutional codes and an
+    asymptotically optimum decoding algorithm", IEEE Trans. Inf. Theory
+    13(2):260-269; G. D. Forney (1973), "The Viterbi algorithm", Proc. IEEE
+    61(3):268-278; Rabiner (1989), section III.B.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> le = np.log([[0.5, 0.1], [0.4, 0.3], [0.1, 0.6]])
+    >>> path, lp = viterbi(le, [3], [0.6, 0.4], [[0.7, 0.3], [0.4, 0.6]])
+    >>> path.tolist(), round(float(np.exp(lp[0])), 5)
+    ([0, 0, 1], 0.01512)
+    """
+    le = _check_log_emission(log_emission)
+    T, K = le.shape
+    lens = _check_lengths(lengths, T)
+    pi, A = _check_params(startprob, transmat, K)
+    rows_per_batch = _resolve_batch_size(batch_size, K)
+    log_pi, log_A = _log(pi), _log(A)
+    pointer_dtype = np.int8 if K <= 127 else np.int16 if K <= 32767 else np.intp
+
+    path_out = np.empty(T, dtype=np.intp)
+    log_prob = np.empty(lens.size)
+    for batch in _batches(lens, rows_per_batch):
+        counts, off = batch.counts, batch.offsets
+        n_steps = counts.size
+        B = batch.seq.size
+        E = le[batch.rows]
+        delta = np.empty_like(E)
+        back = np.empty(E.shape, dtype=pointer_dtype)
+        n0 = int(counts[0])
+        delta[:n0] = log_pi + E[:n0]
+        for t in range(1, n_steps):
+            o, n, op = int(off[t]), int(counts[t]), int(off[t - 1])
+            scores = delta[op : op + n, :, None] + log_A  # (n, from, to)
+            bp = scores.argmax(axis=1)
+            back[o : o + n] = bp
+            best = np.take_along_axis(scores, bp[:, None, :], axis=1)[:, 0, :]
+            np.add(best, E[o : o + n], out=delta[o : o + n])
+
+        last = off[batch.lengths - 1] + np.arange(B)
+        final_delta = delta[last]
+        final_state = final_delta.argmax(axis=1)
+        final_lp = final_delta[np.arange(B), final_state]
+        dead = np.flatnonzero(final_lp == -np.inf)
+        if dead.size:
+            raise _impossible(batch, int(last[dead[0]]), "no path of non-zero probability ends")
+        log_prob[batch.seq] = final_lp
+
+        path = np.empty(batch.n_rows, dtype=np.intp)
+        state = np.empty(B, dtype=np.intp)
+        for t in range(n_steps - 1, -1, -1):
+            o, n = int(off[t]), int(counts[t])
+            ending = int(counts[t + 1]) if t + 1 < n_steps else 0
+            state[ending:n] = final_state[ending:n]
+            path[o : o + n] = state[:n]
+            if t > 0:
+                state[:n] = back[o : o + n][np.arange(n), state[:n]]
+        path_out[batch.rows] = path
+
+    return path_out, log_prob
+
+
+# --------------------------------------------------------------------------
+# clamping
+
+
+def constrained_log_emission(log_emission: np.ndarray, clamp: np.ndarray) -> np.ndarray:
+    """Copy of ``log_emission`` with forbidden states set to ``-inf``.
+
+    Used for partially labelled (semi-supervised) sequences: an interpreted
+    bed keeps its tract in :func:`forward_backward` (posterior 1) and in
+    :func:`viterbi`.
+
+    Parameters
+    ----------
+    log_emission
+        ``(T, K)`` log-emission array.
+    clamp
+        Either ``(T,)`` integers, ``-1`` = free, ``k`` = the row must be in
+        state ``k``; or a ``(T, K)`` boolean mask of allowed states (for a
+        tract made of several sub-states, allow all of them).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``(T, K)`` float64 copy; the input is not changed.
+
+    Raises
+    ------
+    InputError
+        Wrong shape, a state index outside ``-1 .. K-1``, or a mask row that
+        allows no state (names the row).
+    """
+    le = np.array(_check_log_emission(log_emission), dtype=np.float64, copy=True)
+    T, K = le.shape
+    cl = np.asarray(clamp)
+    if cl.dtype == np.bool_:
+        if cl.shape != (T, K):
+            raise InputError(f"clamp mask has shape {cl.shape}; expected ({T}, {K})")
+        empty = np.flatnonzero(~cl.any(axis=1))
+        if empty.size:
+            raise InputError(f"clamp mask row {int(empty[0])} allows no state")
+        le[~cl] = -np.inf
+        return le
+    if cl.shape != (T,):
+        raise InputError(f"clamp has shape {cl.shape}; expected ({T},) or a ({T}, {K}) mask")
+    if not np.issubdtype(cl.dtype, np.integer):
+        raise InputError(f"clamp must hold integer states (-1 = free), got dtype {cl.dtype}")
+    out_of_range = np.flatnonzero((cl < -1) | (cl >= K))
+    if out_of_range.size:
+        r = int(out_of_range[0])
+        raise InputError(f"clamp row {r} is state {int(cl[r])}; expected -1 (free) or 0..{K - 1}")
+    rows = np.flatnonzero(cl >= 0)
+    kept = le[rows, cl[rows]]
+    le[rows] = -np.inf
+    le[rows, cl[rows]] = kept
+    return le

@@ -1,0 +1,172 @@
+"""Figures of a forward-model run: the dip section and the base-level curve.
+
+Functions return a matplotlib :class:`~matplotlib.figure.Figure`; the caller
+saves it. Colours: facies from the scheme, tracts from the project's own
+palette below.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: The project's own tract colours (upward cycle HST -> FSST -> LST -> TST).
+TRACT_COLOURS = {"HST": "#e9c46a", "FSST": "#e76f51", "LST": "#8ab17d", "TST": "#5fa8d3"}
+
+__all__ = ["TRACT_COLOURS", "base_level_figure", "section_figure"]
+
+
+def _tract_spans(time: np.ndarray, tract: np.ndarray) -> list[tuple[float, float, str]]:
+    """``(start, end, tract)`` runs; step ``k`` spans ``time[k]..time[k + 1]``."""
+    spans = []
+    start = 0
+    for k in range(1, len(tract) + 1):
+        if k == len(tract) or tract[k] != tract[start]:
+            spans.append((float(time[start]), float(time[k]), str(tract[start])))
+            start = k
+    return spans
+
+
+def section_figure(history, scenario, wells=(), timeline_kyr: float = 10.0):
+    """The final dip section: facies of every layer, time lines, shoreline trajectory, wells.
+
+    Parameters
+    ----------
+    history
+        A :class:`faciesseq.simulate.SectionHistory`.
+    scenario
+        The scenario (facies scheme and depth bands for the colours).
+    wells
+        The :class:`~faciesseq.simulate.scenario.Well` objects on this section.
+    timeline_kyr
+        Spacing of the thin time lines (kyr).
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import ListedColormap
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    from faciesseq.simulate.wells import facies_of_depth
+
+    scheme = scenario.scheme
+    codes = [c for c in scheme.codes_by_rank if any(c == b[0] for b in scenario.depth_bands)]
+    index = {c: i for i, c in enumerate(codes)}
+    x = history.x_km
+    n = history.n_steps
+    elevation = history.final_elevation()
+    facies_idx = np.empty((n, len(x) - 1), dtype=float)
+    for k in range(1, n + 1):
+        code = facies_of_depth(history.water_depth(k), scenario.depth_bands)
+        left = np.array([index[c] for c in code[:-1]], dtype=float)
+        facies_idx[k - 1] = left
+    thick = np.diff(elevation, axis=0)[:, :-1]
+    facies_idx = np.ma.masked_where(thick <= 1e-6, facies_idx)
+
+    fig, ax = plt.subplots(figsize=(12, 5.5), layout="constrained")
+    cmap = ListedColormap([scheme.colour(c) for c in codes])
+    xx = np.broadcast_to(x, elevation.shape)
+    ax.pcolormesh(
+        xx,
+        elevation,
+        facies_idx,
+        cmap=cmap,
+        vmin=-0.5,
+        vmax=len(codes) - 0.5,
+        shading="flat",
+        rasterized=True,
+    )
+    basement = elevation[0]
+    ax.plot(x, basement, color="0.2", lw=1.0)
+    dt = history.time_kyr[1] - history.time_kyr[0]
+    every = max(1, round(timeline_kyr / dt))
+    for k in range(every, n + 1, every):
+        ax.plot(x, elevation[k], color="0.25", lw=0.3, alpha=0.7)
+    # tract boundaries as heavier time lines
+    tract = history.tract
+    for k in np.nonzero(tract[1:] != tract[:-1])[0] + 1:
+        ax.plot(x, elevation[k], color=TRACT_COLOURS.get(str(tract[k]), "k"), lw=1.2)
+    ax.plot(x, elevation[-1], color="k", lw=1.0)
+
+    # shoreline trajectory: the shoreline of each step, carried down by later subsidence
+    s = history.shoreline_km[1:]
+    sigma_s = np.interp(s, x, history.subsidence_m_per_kyr)
+    z_s = history.base_level_m[1:] - sigma_s * (history.time_kyr[-1] - history.time_kyr[1:])
+    colours = [TRACT_COLOURS.get(str(t), "k") for t in tract]
+    ax.scatter(s, z_s, c=colours, s=4, edgecolors="none", zorder=4)
+    ax.axhline(history.base_level_m[-1], color="#3a7bd5", lw=0.8, ls="--")
+
+    top = elevation[-1]
+    for w in wells:
+        j = int(np.argmin(np.abs(x - w.x_km)))
+        ax.plot([x[j], x[j]], [basement[j], top[j]], color="k", lw=1.4, zorder=5)
+        ax.annotate(
+            w.name,
+            (x[j], top[j]),
+            xytext=(0, 6),
+            textcoords="offset points",
+            ha="center",
+            fontsize=7,
+            rotation=90,
+        )
+    lo = float(np.min(basement[x <= max([w.x_km for w in wells], default=x[-1]) + 10]))
+    ax.set_ylim(lo - 5, float(np.max(top)) + 12)
+    ax.set_xlim(x[0], x[-1])
+    ax.set_xlabel("distance along dip (km)")
+    ax.set_ylabel("elevation (m, base level of the last step dashed)")
+    ax.set_title(
+        f"{scenario.name}: dip section {history.name!r} after "
+        f"{history.time_kyr[-1]:g} kyr (time lines every {timeline_kyr:g} kyr)"
+    )
+    handles = [Patch(color=scheme.colour(c), label=f"{c}") for c in codes]
+    handles += [
+        Line2D([], [], color=TRACT_COLOURS[t], marker="o", lw=0, label=f"shoreline, {t}")
+        for t in TRACT_COLOURS
+    ]
+    ax.legend(handles=handles, loc="lower left", fontsize=7, ncol=2, framealpha=0.85)
+    return fig
+
+
+def base_level_figure(history, scenario):
+    """Base level through time with the tracts shaded; below, the rates at the shoreline."""
+    import matplotlib.pyplot as plt
+    from matplotlib.patches import Patch
+
+    t = history.time_kyr
+    fig, (ax, ax2, ax3) = plt.subplots(
+        3, 1, figsize=(10, 7.5), sharex=True, layout="constrained", height_ratios=(2, 1.4, 1.4)
+    )
+    for start, end, tract in _tract_spans(t, history.tract):
+        for a in (ax, ax2, ax3):
+            a.axvspan(start, end, color=TRACT_COLOURS.get(tract, "0.8"), alpha=0.45, lw=0)
+    ax.plot(t, history.base_level_m, color="k", lw=1.3, label="eustatic base level")
+    ax.set_ylabel("base level (m)")
+    ax.set_title(f"{scenario.name}: base level and systems tracts (section {history.name!r})")
+    handles = [Patch(color=c, alpha=0.6, label=k) for k, c in TRACT_COLOURS.items()]
+    ax.legend(
+        handles=[*ax.get_legend_handles_labels()[0], *handles],
+        fontsize=8,
+        ncol=5,
+        loc="upper right",
+    )
+    mid = 0.5 * (t[1:] + t[:-1])
+    ax2.plot(
+        mid,
+        history.relative_rate_m_per_kyr,
+        color="k",
+        lw=1.0,
+        label="relative base-level rate at shoreline",
+    )
+    ax2.plot(
+        mid,
+        history.sedimentation_rate_m_per_kyr,
+        color="#8c6d3f",
+        lw=1.0,
+        label="sedimentation rate at shoreline",
+    )
+    ax2.axhline(0, color="0.3", lw=0.6)
+    ax2.set_ylabel("rate (m/kyr)")
+    ax2.legend(fontsize=8, loc="upper right")
+    ax3.plot(t, history.shoreline_km, color="#3a7bd5", lw=1.2)
+    ax3.set_ylabel("shoreline (km along dip)")
+    ax3.invert_yaxis()
+    ax3.set_xlabel("time (kyr)")
+    return fig

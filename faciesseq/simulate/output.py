@@ -1,0 +1,130 @@
+"""Writing a simulation to a folder: tables (CSV and SQLite), summary and figures.
+
+This is the simulate command's output writer (its job is writing files). The
+folder is built under a temporary name beside the target and renamed into
+place at the end, so an interrupted run leaves nothing half-written.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+import sqlite3
+import tempfile
+from pathlib import Path
+
+import pandas as pd
+
+from faciesseq.errors import ConfigError, InputError
+from faciesseq.simulate import SimulationResult
+
+__all__ = ["TABLES", "write_simulation"]
+
+#: Table files written (name -> what it holds).
+TABLES = {
+    "cores": "described intervals with their truth (one row per interval)",
+    "surfaces": "true surfaces at each core",
+    "steps": "truth per time step and section",
+    "wells": "wells: section, position along dip, labelled or not, cored thickness",
+    "budget": "sediment budget per section (m^2 of section)",
+}
+
+
+def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
+    cores = result.to_frame()
+    cores["tract"] = cores["tract"].astype(object).where(cores["tract"].notna(), None)
+    return {
+        "cores": cores,
+        "surfaces": result.surfaces,
+        "steps": result.steps,
+        "wells": result.wells,
+        "budget": result.budget,
+    }
+
+
+def _write_tables(tables: dict[str, pd.DataFrame], folder: Path) -> None:
+    """CSV files and one SQLite file holding the same tables."""
+    for name, table in tables.items():
+        table.to_csv(folder / f"{name}.csv", index=False, lineterminator="\n")
+    with sqlite3.connect(folder / "cores.sqlite") as connection:
+        for name, table in tables.items():
+            table.to_sql(name, connection, index=False)
+    connection.close()
+
+
+def write_simulation(
+    result: SimulationResult,
+    directory: str | Path,
+    *,
+    figures: bool = True,
+    force: bool = False,
+    dpi: int = 130,
+) -> list[Path]:
+    """Write a simulation to ``directory`` (atomically) and return the files written.
+
+    Files: ``cores.csv``, ``surfaces.csv``, ``steps.csv``, ``wells.csv``,
+    ``budget.csv``, ``cores.sqlite`` (the same five tables), ``summary.json``,
+    ``scenario.yaml`` (a copy of the scenario file, when it came from one) and,
+    unless ``figures`` is false, ``section-<name>.png`` and
+    ``base-level-<name>.png`` per dip section.
+
+    Raises
+    ------
+    ConfigError
+        When ``directory`` exists and ``force`` is false.
+    """
+    target = Path(directory)
+    if target.exists() and not force:
+        raise ConfigError(
+            "output folder exists; choose another -o or pass --force to replace it",
+            file=str(target),
+        )
+    if target.exists() and not target.is_dir():
+        raise ConfigError("output path exists and is not a folder", file=str(target))
+    parent = target.resolve().parent
+    if not parent.is_dir():
+        raise ConfigError("the parent folder of the output does not exist", file=str(target))
+    temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=parent))
+    try:
+        _write_tables(_tables(result), temp)
+        (temp / "summary.json").write_text(
+            json.dumps(result.to_dict(), indent=2, sort_keys=False) + "\n", encoding="utf-8"
+        )
+        source = result.scenario.source
+        if source and Path(source).is_file():
+            shutil.copyfile(source, temp / "scenario.yaml")
+        if figures:
+            _write_figures(result, temp, dpi)
+        if target.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=parent))
+            target.rename(old / target.name)
+            temp.rename(target)
+            shutil.rmtree(old)
+        else:
+            temp.rename(target)
+    except OSError as exc:
+        shutil.rmtree(temp, ignore_errors=True)
+        raise InputError(f"could not write the output ({exc.strerror})", file=str(target)) from None
+    except BaseException:
+        shutil.rmtree(temp, ignore_errors=True)
+        raise
+    return sorted(p for p in target.iterdir())
+
+
+def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from faciesseq.report.simulation_figures import base_level_figure, section_figure
+
+    scenario = result.scenario
+    for name, history in result.sections.items():
+        wells = [w for w in scenario.wells if w.section == name]
+        for stem, fig in (
+            (f"section-{name}", section_figure(history, scenario, wells)),
+            (f"base-level-{name}", base_level_figure(history, scenario)),
+        ):
+            fig.savefig(folder / f"{stem}.png", dpi=dpi, metadata={"Software": None})
+            plt.close(fig)
