@@ -97,9 +97,11 @@ def _check_log_emission(log_emission: np.ndarray) -> np.ndarray:
         raise InputError(f"log-emission array must be 2-D (rows, states), got shape {le.shape}")
     if le.shape[1] == 0:
         raise InputError("log-emission array has no state columns")
-    bad = np.isnan(le) | (le == np.inf)
-    if bad.any():
-        r, k = np.argwhere(bad)[0]
+    # One fast reduction for the common case: the maximum is NaN if any
+    # entry is NaN, and +inf if any entry is +inf.
+    top = le.max() if le.size else 0.0
+    if np.isnan(top) or top == np.inf:
+        r, k = np.argwhere(np.isnan(le) | (le == np.inf))[0]
         raise InputError(
             f"log-emission row {r}, state {k} is {le[r, k]}; "
             "expected a log-probability (finite or -inf)"
@@ -247,6 +249,36 @@ def _impossible(batch: _Batch, packed_row: int, what: str) -> InputError:
 # --------------------------------------------------------------------------
 # forward-backward
 
+# Rows whose emission sum lies in this range are exponentiated unshifted; the
+# others are shifted by their maximum first.
+_SAFE_LOW, _SAFE_HIGH = 1e-100, 1e100
+
+
+def _exp_rows(
+    le: np.ndarray, rows: np.ndarray, E: np.ndarray, shift: np.ndarray, work: np.ndarray
+) -> None:
+    """``E = exp(le[rows] - shift)`` with ``shift`` chosen per row (``E`` given as ``le[rows]``).
+
+    Rabiner's scaling needs every row's emissions representable: the usual
+    remedy is to subtract each row's maximum before exponentiating. A row
+    maximum over a few columns is one of numpy's slow reductions, so it is
+    taken only for rows whose plain exponentials sum outside
+    ``[1e-100, 1e100]`` (under- or overflow possible); the other rows get
+    ``shift = 0``. Rows where every state is forbidden (all ``-inf``) get
+    shift 0 and stay all zeros, reported later as impossible.
+    """
+    with np.errstate(over="ignore"):
+        np.exp(E, out=E)
+    total = np.dot(E, np.ones(E.shape[1]), out=work)
+    shift[:] = 0.0
+    unsafe = np.flatnonzero(~((total >= _SAFE_LOW) & (total <= _SAFE_HIGH)))
+    if unsafe.size:
+        raw = le[rows[unsafe]]
+        top = raw.max(axis=1)
+        top[top == -np.inf] = 0.0
+        E[unsafe] = np.exp(raw - top[:, None])
+        shift[unsafe] = top
+
 
 def forward_backward(
     log_emission: np.ndarray,
@@ -350,12 +382,7 @@ def forward_backward(
         E, alpha, beta = E_buf[:N], alpha_buf[:N], beta_buf[:N]
         scale, row_max = scale_buf[:N], shift_buf[:N]
         np.take(le, batch.rows, axis=0, out=E)
-        np.max(E, axis=1, out=row_max)
-        # A row where every state is forbidden: shift by 0 so it becomes all
-        # zeros (scale factor 0 -> reported below), not NaN.
-        row_max[row_max == -np.inf] = 0.0
-        np.subtract(E, row_max[:, None], out=E)
-        np.exp(E, out=E)
+        _exp_rows(le, batch.rows, E, row_max, norm_buf[:N])
 
         with np.errstate(divide="ignore", invalid="ignore"):
             n0 = counts[0]
