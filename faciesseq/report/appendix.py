@@ -344,6 +344,8 @@ def _model_section(
     note: str,
     results: dict,
     missing: dict,
+    selection: Any = None,
+    scheme: FaciesScheme | None = None,
 ) -> Section:
     if model is None:
         return _not_available(
@@ -351,8 +353,10 @@ def _model_section(
         )
     from faciesseq.report.model_section import model_section
 
-    section, numbers = model_section(model, tract_model, validation, note)
+    section, numbers = model_section(model, tract_model, validation, note, selection, scheme)
     results["model"] = numbers.get("model")
+    if selection is not None:
+        results["selection"] = numbers.get("selection")
     if validation is not None:
         results["validation"] = numbers.get("validation")
     else:
@@ -463,6 +467,7 @@ def build_appendix(
     model: Any = None,
     interpretation: Interpretation | None = None,
     validation: Any = None,
+    selection: Any = None,
     provenance: Mapping[str, Any] | None = None,
     model_note: str = "",
     unit: str = "beds",
@@ -484,6 +489,8 @@ def build_appendix(
         Decoded cores; section 4.
     validation
         Cross-validation results on interpreted cores; in section 3.
+    selection
+        Candidate models compared by BIC (``ModelSelection``); in section 3.
     provenance
         The provenance record (:func:`faciesseq.report.provenance.provenance`).
     model_note
@@ -510,7 +517,9 @@ def build_appendix(
     document.sections = [
         _data_section(cores, scheme, results),
         _markov_section(markov, scheme, results, missing),
-        _model_section(model, tract_model, validation, model_note, results, missing),
+        _model_section(
+            model, tract_model, validation, model_note, results, missing, selection, scheme
+        ),
         _cores_section(interpretation, scheme, tract_model, results, missing),
         methods_section(unit),
     ]
