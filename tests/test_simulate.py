@@ -270,3 +270,22 @@ def test_scenario_errors_name_the_key(change, needle):
 
 def test_noise_default_is_off():
     assert _scenario().noise == Noise()
+
+
+@pytest.mark.parametrize(
+    "path", ["configs/scenario-ramp.yaml", "configs/scenario-hinge-table.yaml"]
+)
+def test_shipped_scenarios_run_with_tracts_in_the_model_order(path):
+    # Catuneanu et al. 2009: every boundary between successive tracts is one the
+    # four-tract cycle allows (HST -> FSST -> LST -> TST -> HST, FSST and TST skippable)
+    from faciesseq.simulate import load_scenario
+
+    result = simulate(load_scenario(path))
+    model = default_tract_model()
+    allowed = model.allowed()
+    idx = {c: i for i, c in enumerate(model.order)}
+    runs = [t for t, _, _ in _runs(result.steps["tract"].tolist())]
+    assert {"HST", "FSST", "LST", "TST"} <= set(runs)
+    for lower, upper in itertools.pairwise(runs):
+        assert allowed[idx[lower]][idx[upper]], (path, lower, upper)
+    assert set(result.surfaces["surface"]) >= {"BSFR", "SB", "MRS", "MFS"}
