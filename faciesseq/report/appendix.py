@@ -29,7 +29,7 @@ import os
 import re
 import shutil
 import tempfile
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -346,6 +346,7 @@ def _model_section(
     missing: dict,
     selection: Any = None,
     scheme: FaciesScheme | None = None,
+    validation_note: str = "",
 ) -> Section:
     if model is None:
         return _not_available(
@@ -353,14 +354,17 @@ def _model_section(
         )
     from faciesseq.report.model_section import model_section
 
-    section, numbers = model_section(model, tract_model, validation, note, selection, scheme)
+    reason = validation_note or "no interpreted (labelled) cores to validate against"
+    section, numbers = model_section(
+        model, tract_model, validation, note, selection, scheme, validation_reason=reason
+    )
     results["model"] = numbers.get("model")
     if selection is not None:
         results["selection"] = numbers.get("selection")
     if validation is not None:
         results["validation"] = numbers.get("validation")
     else:
-        missing["validation"] = "no interpreted (labelled) cores to validate against"
+        missing["validation"] = reason
     return section
 
 
@@ -373,6 +377,7 @@ def _cores_section(
     tract_model: TractModel,
     results: dict,
     missing: dict,
+    notes: Sequence[str] = (),
 ) -> Section:
     if interpretation is None:
         return _not_available("Cores", "no decoded cores were given", missing, "cores")
@@ -388,6 +393,8 @@ def _cores_section(
             "interval; the per-bed tract probabilities are in the data files."
         )
     )
+    for note in notes:
+        s.add(Paragraph(f"Note from decoding: {note}", kind="note"))
     summary_rows = []
     results["cores"] = {}
     for k, core in enumerate(interpretation, start=1):
@@ -470,6 +477,8 @@ def build_appendix(
     selection: Any = None,
     provenance: Mapping[str, Any] | None = None,
     model_note: str = "",
+    validation_note: str = "",
+    decode_notes: Sequence[str] = (),
     unit: str = "beds",
     title: str = "Statistical appendix: facies successions and systems tracts",
 ) -> Appendix:
@@ -496,6 +505,11 @@ def build_appendix(
     model_note
         A sentence on where the model came from (e.g. fitted with the defaults
         because no model file was given); shown in section 3.
+    validation_note
+        Why there is no validation (when ``validation`` is ``None``).
+    decode_notes
+        Warnings raised while decoding (e.g. facies unseen in training); shown
+        in section 4.
     unit
         ``"beds"`` or ``"grid"``: how successions were formed (methods text).
 
@@ -518,9 +532,17 @@ def build_appendix(
         _data_section(cores, scheme, results),
         _markov_section(markov, scheme, results, missing),
         _model_section(
-            model, tract_model, validation, model_note, results, missing, selection, scheme
+            model,
+            tract_model,
+            validation,
+            model_note,
+            results,
+            missing,
+            selection,
+            scheme,
+            validation_note,
         ),
-        _cores_section(interpretation, scheme, tract_model, results, missing),
+        _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit),
     ]
     document.check_keys()
@@ -556,6 +578,7 @@ def write_appendix(
     force: bool = False,
     dpi: int = 160,
     latex: bool = True,
+    extra: Mapping[str, str | bytes] | None = None,
 ) -> Path:
     """Write the appendix folder atomically (see the module docstring for its files).
 
@@ -572,6 +595,9 @@ def write_appendix(
         ``figures/``).
     latex
         Also write ``appendix.tex`` and the PDF figures.
+    extra
+        More files to put in the folder (relative name -> text or bytes), e.g.
+        the fitted model file; written in the same atomic step.
 
     Returns
     -------
@@ -624,6 +650,18 @@ def write_appendix(
             (tmp / "appendix.tex").write_text(render_latex(document, meta=meta), encoding="utf-8")
         _write_json(tmp / "appendix.json", appendix.to_dict())
         _write_json(tmp / "provenance.json", prov)
+        for name, content in (extra or {}).items():
+            target = tmp / name
+            if (
+                target.resolve().parent != tmp.resolve()
+                and tmp.resolve() not in target.resolve().parents
+            ):
+                raise ConfigError(f"extra file {name!r} would be written outside the folder")
+            target.parent.mkdir(parents=True, exist_ok=True)
+            if isinstance(content, bytes):
+                target.write_bytes(content)
+            else:
+                target.write_text(content, encoding="utf-8")
         if out.exists():
             trash = Path(tempfile.mkdtemp(prefix=f".{out.name}-old-", dir=out.parent))
             os.replace(out, trash / out.name)

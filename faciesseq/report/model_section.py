@@ -178,6 +178,7 @@ def model_section(
     note: str = "",
     selection: Any = None,
     scheme: Any = None,
+    validation_reason: str = "no interpreted (labelled) cores to validate against",
 ) -> tuple[Section, dict[str, Any]]:
     """The tract-model section and the numbers behind it (``model``, ``validation``)."""
     from faciesseq.report import figures
@@ -343,12 +344,7 @@ def model_section(
 
     val = s.sub("Cross-validation")
     if validation is None:
-        val.add(
-            Paragraph(
-                "Not available: no interpreted (labelled) cores to validate against.",
-                kind="missing",
-            )
-        )
+        val.add(Paragraph(f"Not available: {validation_reason}.", kind="missing"))
     else:
         numbers["validation"] = validation.to_dict()
         frames = validation.to_frames()
