@@ -371,3 +371,25 @@ def test_bad_input_is_reported():
         forward_backward(np.zeros((3, 2)), [3], pi, np.array([[0.5, 0.5], [0.2, 0.2]]))
     with pytest.raises(ConfigError, match="startprob has shape"):
         forward_backward(np.zeros((3, 2)), [3], np.ones(3) / 3, A)
+
+
+def test_row_shift_changes_only_the_log_likelihood(case):
+    # log p(obs_t | k) + a_t for all k multiplies the likelihood by exp(a_t) and
+    # leaves every posterior unchanged (follows from the definition; common
+    # practice). Shifts of -2000 and +1000 would under/overflow float64 without
+    # the per-row rescaling.
+    startprob, transmat, _, lengths, _, le = case
+    ref = forward_backward(le, lengths, startprob, transmat, return_xi=True)
+    rng = np.random.default_rng(2)
+    shift = rng.choice([0.0, -2000.0, 1000.0, -300.0], size=le.shape[0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        post = forward_backward(le + shift[:, None], lengths, startprob, transmat, return_xi=True)
+    per_seq = np.array([s.sum() for s in _split(shift, lengths)])
+    np.testing.assert_allclose(post.log_likelihood, ref.log_likelihood + per_seq, rtol=1e-12)
+    np.testing.assert_allclose(post.gamma, ref.gamma, atol=1e-12)
+    np.testing.assert_allclose(post.xi, ref.xi, atol=1e-12)
+    path, lp = viterbi(le + shift[:, None], lengths, startprob, transmat)
+    path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
+    np.testing.assert_array_equal(path, path_ref)
+    np.testing.assert_allclose(lp, lp_ref + per_seq, rtol=1e-12)

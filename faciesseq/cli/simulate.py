@@ -34,6 +34,13 @@ def run(args: argparse.Namespace) -> int:
 
     if args.seed is not None and args.seed < 0:
         raise ConfigError(f"--seed must be a whole number >= 0, got {args.seed}")
+    from pathlib import Path
+
+    if Path(args.output).exists() and not args.force:
+        raise ConfigError(
+            "output folder exists; choose another -o or pass --force to replace it",
+            file=args.output,
+        )
     scenario = load_scenario(args.scenario)
     result = simulate(scenario, seed=args.seed)
     write_simulation(result, args.output, figures=not args.no_figures, force=args.force)

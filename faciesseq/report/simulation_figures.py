@@ -54,10 +54,13 @@ def section_figure(history, scenario, wells=(), timeline_kyr: float = 10.0):
     n = history.n_steps
     elevation = history.final_elevation()
     facies_idx = np.empty((n, len(x) - 1), dtype=float)
+    lookup = np.vectorize(index.__getitem__, otypes=[float])
     for k in range(1, n + 1):
-        code = facies_of_depth(history.water_depth(k), scenario.depth_bands)
-        left = np.array([index[c] for c in code[:-1]], dtype=float)
-        facies_idx[k - 1] = left
+        # facies at the middle of each quad, so thin wedges do not alias
+        depth = history.water_depth(k)
+        facies_idx[k - 1] = lookup(
+            facies_of_depth(0.5 * (depth[1:] + depth[:-1]), scenario.depth_bands)
+        )
     thick = np.diff(elevation, axis=0)[:, :-1]
     facies_idx = np.ma.masked_where(thick <= 1e-6, facies_idx)
 

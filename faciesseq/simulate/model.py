@@ -37,7 +37,9 @@ steps of ``dt`` kyr. At each step ``k``:
    ``s_{k-1}`` per kyr) transgression, TST; otherwise normal regression, LST
    after a fall (or, with no fall, once the eustatic rise starts to
    accelerate again, i.e. after the lowest rate of rise) and HST after a
-   transgression (or once the rise starts to slow down).
+   transgression (or once the rise starts to slow down). A transgressive or
+   regressive excursion shorter than ``min_tract_kyr`` between two runs of one
+   tract is folded back into it (shoreline jitter near a turnaround).
 
 Mass is conserved exactly by construction and reported per section:
 ``supplied + eroded = deposited + bypassed`` and ``preserved = deposited -
@@ -89,7 +91,9 @@ class SectionHistory:
     shoreline_km
         Shoreline of the equilibrium profile after each step, ``(N + 1,)``.
     relative_rate_m_per_kyr, sedimentation_rate_m_per_kyr
-        ``R_k`` and ``A_k`` of each step (see the module docstring), ``(N,)``.
+        ``R_k`` and ``A_k`` of each step (see the module docstring), ``(N,)``;
+        ``A_k`` is infinite while the shoreline is held at the basinward end of the
+        section and sand bypasses it.
     tract
         Systems tract of each step (truth), ``(N,)``.
     budget
@@ -305,7 +309,12 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
         eroded[k - 1] = ero
         shoreline[k] = s_new
         rel_rate[k - 1] = rate
-        sed_rate[k - 1] = float(np.interp(s_prev, x, net)) / dt
+        if s_new >= x[-1]:
+            # the shoreline is held at the basinward end and sand bypasses the section:
+            # sedimentation outpaces any rise
+            sed_rate[k - 1] = np.inf
+        else:
+            sed_rate[k - 1] = float(np.interp(s_prev, x, net)) / dt
         totals["supplied"] += (sand_budget + mud_budget) * _M2_PER_MKM
         totals["eroded"] += float(ero.sum() * dx) * _M2_PER_MKM
         totals["deposited"] += float((dep.sum() + mud.sum()) * dx) * _M2_PER_MKM
@@ -314,6 +323,7 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
     totals["preserved"] = float(h.sum() * dx) * _M2_PER_MKM
     eustatic_rate = np.diff(level) / dt
     tract = _tracts(rel_rate, sed_rate, eustatic_rate, scenario.initial_tract)
+    tract = _remove_flicker(tract, max(1, round(scenario.min_tract_kyr / dt)))
     return SectionHistory(
         name=section.name,
         x_km=x,
@@ -355,4 +365,26 @@ def _tracts(
             tract = "LST" if previous == "HST" and accel > tol else "HST"
         out[k] = tract
         previous = tract
+    return out
+
+
+def _remove_flicker(tract: np.ndarray, steps: int) -> np.ndarray:
+    """Fold short excursions ``A B A`` (``B`` shorter than ``steps``) back into ``A``.
+
+    Near a turnaround the rise and sedimentation rates are almost equal and the
+    shoreline may step landward and basinward for a step or two; such runs are
+    not tracts. Runs of FSST are kept: a relative fall is never relabelled.
+    """
+    out = tract.copy()
+    runs = []
+    start = 0
+    for k in range(1, len(out) + 1):
+        if k == len(out) or out[k] != out[start]:
+            runs.append((out[start], start, k))
+            start = k
+    for i in range(1, len(runs) - 1):
+        code, a, b = runs[i]
+        before, after = runs[i - 1][0], runs[i + 1][0]
+        if b - a < steps and code != "FSST" and before == after and before != "FSST":
+            out[a:b] = before
     return out

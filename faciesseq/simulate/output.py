@@ -8,6 +8,7 @@ place at the end, so an interrupted run leaves nothing half-written.
 from __future__ import annotations
 
 import json
+import os
 import shutil
 import sqlite3
 import tempfile
@@ -85,6 +86,9 @@ def write_simulation(
     if not parent.is_dir():
         raise ConfigError("the parent folder of the output does not exist", file=str(target))
     temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=parent))
+    umask = os.umask(0)
+    os.umask(umask)
+    temp.chmod(0o777 & ~umask)  # an ordinary folder, not mkdtemp's private one
     try:
         _write_tables(_tables(result), temp)
         (temp / "summary.json").write_text(

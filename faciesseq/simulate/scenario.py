@@ -300,6 +300,7 @@ class Scenario:
     mud_min_depth_m: float = 8.0
     erosion_m_per_kyr: float = 1.0
     initial_tract: str = "HST"
+    min_tract_kyr: float = 2.0
     noise: Noise = field(default_factory=Noise)
     description: Description = field(default_factory=Description)
     seed: int = 0
@@ -429,7 +430,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
     top = _Reader(data, "", source, _TOP_KEYS)
     name = top.text("name", Path(source).stem if source else "scenario")
 
-    time = top.child("time", {"duration_kyr", "step_kyr"})
+    time = top.child("time", {"duration_kyr", "step_kyr", "min_tract_kyr"})
     duration = time.number("duration_kyr", positive=True)
     step = time.number("step_kyr", positive=True)
     if step > duration:
@@ -621,6 +622,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         mud_min_depth_m=mud.number("min_depth_m", 8.0, minimum=0.0),
         erosion_m_per_kyr=erosion.number("max_rate_m_per_kyr", 1.0, minimum=0.0),
         initial_tract=initial,
+        min_tract_kyr=time.number("min_tract_kyr", 2.0, minimum=0.0),
         noise=noise,
         description=description,
         seed=seed,
