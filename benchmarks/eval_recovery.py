@@ -4,8 +4,9 @@ Run from the repository root::
 
     MPLBACKEND=Agg python benchmarks/eval_recovery.py
 
-1. Simulated cores with truth (``configs/scenario-ramp.yaml``, the forward model
-   of ``faciesseq.simulate``): fit on seeds 21-25, decode seeds 26-27 (seeds not
+1. Simulated cores with truth (``configs/scenario-ramp.yaml`` and
+   ``configs/scenario-hinge-table.yaml``, the forward model of
+   ``faciesseq.simulate``): fit on seeds 21-25, decode seeds 26-27 (seeds not
    used to tune anything), with the default tract model and with
    ``configs/tracts-skip-highstand-lowstand.yaml``; supervised (``true_tract``),
    semi-supervised (the interpreter's ``tract`` column of the labelled wells)
@@ -46,10 +47,10 @@ TRAIN_SEEDS = (21, 22, 23, 24, 25)
 TEST_SEEDS = (26, 27)
 
 
-def _simulated(seeds):
+def _simulated(seeds, name="scenario-ramp.yaml"):
     from faciesseq.simulate import load_scenario, simulate
 
-    scenario = load_scenario(ROOT / "configs" / "scenario-ramp.yaml")
+    scenario = load_scenario(ROOT / "configs" / name)
     frames, surfaces = [], []
     for seed in seeds:
         result = simulate(scenario, seed=seed)
@@ -115,13 +116,13 @@ def _scores(beds: pd.DataFrame, column: str, tracts) -> dict:
     }
 
 
-def simulated_section() -> str:
+def simulated_section(name: str) -> str:
     scheme = load_scheme(ROOT / "configs" / "scheme-shoreface.yaml")
-    train, _ = _simulated(TRAIN_SEEDS)
-    test, true_surfaces = _simulated(TEST_SEEDS)
+    train, _ = _simulated(TRAIN_SEEDS, name)
+    test, true_surfaces = _simulated(TEST_SEEDS, name)
     tr, te = train.successions("beds"), test.successions("beds")
     lines = [
-        f"Simulated ramp (`configs/scenario-ramp.yaml`): fit on seeds {TRAIN_SEEDS} "
+        f"Simulated cores (`configs/{name}`): fit on seeds {TRAIN_SEEDS} "
         f"({len(train)} cores, {sum(len(s) for s in tr)} beds), decode seeds {TEST_SEEDS} "
         f"({len(test)} cores, {sum(len(s) for s in te)} beds). Beds; default features.",
         "",
@@ -278,7 +279,9 @@ def main() -> None:
         f"Measured {stamp()} on {machine()}, other helpers loading the same 2 cores; "
         "command: `MPLBACKEND=Agg python benchmarks/eval_recovery.py`.",
         "",
-        simulated_section(),
+        simulated_section("scenario-ramp.yaml"),
+        "",
+        simulated_section("scenario-hinge-table.yaml"),
         "",
         synthetic_section(),
         "",
