@@ -351,3 +351,21 @@ def test_supervised_fit_on_simulated_cores_beats_the_trend_rule():
     acc_rule = float(np.mean(np.array(tm.order)[rule] == truth))
     # measured 2026-12-01: 0.703 against 0.443
     assert acc > acc_rule + 0.15
+
+
+def test_one_bed_segments_and_missing_facies_decode(train, tmp_path):
+    from faciesseq.hmm.modelfile import load_model, save_model
+
+    with pytest.warns(UserWarning, match="no facies scheme"):
+        model = TractHMM(n_restarts=1, random_state=0).fit(train[:4])
+    path = save_model(model, tmp_path / "m.json")
+    model = load_model(path)
+    assert model.scheme is None and model.ranks_ is None
+    one = Succession("ONE", 0, train[0].beds.iloc[:1].reset_index(drop=True), "m")
+    blank = train[1].beds.copy()
+    blank["facies"] = None
+    interp = model.decode([one, Succession("BLANK", 0, blank, "m")])
+    assert len(interp["ONE"].beds) == 1 and len(interp["ONE"].boundaries) == 0
+    assert len(interp["ONE"].picks) == 0
+    p = interp["BLANK"].beds[[f"p_{t}" for t in interp.tracts]].to_numpy()
+    np.testing.assert_allclose(p.sum(axis=1), 1.0)
