@@ -110,6 +110,7 @@ def _scores(beds: pd.DataFrame, column: str, tracts) -> dict:
     w = beds["thickness"].to_numpy(float)
     f1 = f1_score(truth, pred, labels=list(tracts), average=None, zero_division=0)
     return {
+        "tst_vs_rest": float(np.mean((truth == "TST") == (pred == "TST"))),
         "accuracy": float(np.mean(truth == pred)),
         "accuracy_thickness": float(np.sum(w * (truth == pred)) / np.sum(w)),
         **{f"F1 {t}": float(v) for t, v in zip(tracts, f1)},
@@ -126,9 +127,9 @@ def simulated_section(name: str) -> str:
         f"({len(train)} cores, {sum(len(s) for s in tr)} beds), decode seeds {TEST_SEEDS} "
         f"({len(test)} cores, {sum(len(s) for s in te)} beds). Beds; default features.",
         "",
-        "| tract model | method | bed accuracy | thickness accuracy | F1 HST | F1 FSST | F1 LST "
-        "| F1 TST | MFS within 1 bed (cores) | fit s |",
-        "|---|---|---|---|---|---|---|---|---|---|",
+        "| tract model | method | bed accuracy | thickness accuracy | TST vs rest | F1 HST "
+        "| F1 FSST | F1 LST | F1 TST | MFS within 1 bed (cores) | fit s |",
+        "|---|---|---|---|---|---|---|---|---|---|---|",
     ]
     truth_counts = pd.concat([s.beds for s in te])["true_tract"].value_counts()
     for tm_name, tm in (
@@ -158,13 +159,14 @@ def simulated_section(name: str) -> str:
             mfs, n_cores = _mfs_within_one_bed(interp, true_surfaces)
             lines.append(
                 f"| {tm_name} | {method} | {sc['accuracy']:.3f} | {sc['accuracy_thickness']:.3f} | "
+                f"{sc['tst_vs_rest']:.3f} | "
                 + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
                 + f" | {mfs:.2f} of {n_cores} | {elapsed:.1f} |"
             )
         sc = _scores(beds, "rule", tm.order)
         lines.append(
             f"| {tm_name} | trend rule (baseline) | {sc['accuracy']:.3f} | "
-            f"{sc['accuracy_thickness']:.3f} | "
+            f"{sc['accuracy_thickness']:.3f} | {sc['tst_vs_rest']:.3f} | "
             + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
             + " | - | - |"
         )
