@@ -543,20 +543,23 @@ class TractHMM:
     def _initial(self, data: _Data, rng: np.random.Generator, restart: int):
         """Parameters from rule-based starting weights, perturbed per restart."""
         S = self.states_.n_tracts
-        T = len(data.beds)
-        weights = np.full((T, S), 1.0 / S)
-        if self.ranks_ is not None:
-            weights = 0.2 / S + 0.8 * np.eye(S)[data.rule]
-        if restart > 0:
-            noise = rng.dirichlet(np.ones(S), size=T)
-            weights = 0.5 * weights + 0.5 * noise
-        if data.clamp is not None:
-            labelled = ~data.clamp.all(axis=1)
-            weights[labelled] = data.clamp[labelled].astype(float)
         pieces = self._new_pieces(data.beds)
         stats = [p.empty_stats(S) for p in pieces]
-        for p, st in zip(pieces, stats):
-            p.accumulate(st, data.beds, weights)
+        for a, b, lengths, _ in self._batches(data.beds.lengths):
+            T = b - a
+            weights = np.full((T, S), 1.0 / S)
+            if self.ranks_ is not None:
+                weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
+            if restart > 0:
+                noise = rng.dirichlet(np.ones(S), size=T)
+                weights = 0.5 * weights + 0.5 * noise
+            if data.clamp is not None:
+                clamp = data.clamp[a:b]
+                labelled = ~clamp.all(axis=1)
+                weights[labelled] = clamp[labelled].astype(float)
+            part = data.beds.slice(a, b, lengths)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
         K = self.states_.n_states
         allowed = self.states_.allowed
         stay = np.where(np.eye(K, dtype=bool), 8.0, 1.0)
