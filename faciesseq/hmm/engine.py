@@ -27,6 +27,7 @@ loop runs over time steps only, never over sequences or observations.
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
@@ -280,6 +281,39 @@ def _exp_rows(
         shift[unsafe] = top
 
 
+def _accumulate_xi(
+    alpha: np.ndarray,
+    ebc: np.ndarray,
+    counts: np.ndarray,
+    off: list[int],
+    acc: np.ndarray,
+    work: np.ndarray,
+) -> None:
+    """``acc += sum_t alpha[t]^T ebc[t+1]`` over every boundary of a batch.
+
+    ``ebc[t+1] = E[t+1] * beta[t+1] / c[t+1]``; times ``A`` this is the sum of
+    two-slice posteriors. Over a run of steps where no sequence ends, the
+    rows of step ``t`` and of step ``t + 1`` are aligned contiguous blocks, so
+    one product covers the whole run.
+    """
+    n_steps = counts.size
+    if n_steps < 2:
+        return
+    # full[t]: no sequence ends at step t, so block t pairs entirely with t+1.
+    full = counts[:-1] == counts[1:]
+    edges = np.flatnonzero(np.diff(full.astype(np.int8))) + 1
+    cuts = [0, *edges.tolist(), n_steps - 1]
+    for a, b in itertools.pairwise(cuts):
+        if full[a]:
+            acc += np.dot(alpha[off[a] : off[b]].T, ebc[off[a + 1] : off[b + 1]], out=work)
+        else:
+            for t in range(a, b):
+                n = int(counts[t + 1])
+                acc += np.dot(
+                    alpha[off[t] : off[t] + n].T, ebc[off[t + 1] : off[t + 1] + n], out=work
+                )
+
+
 def forward_backward(
     log_emission: np.ndarray,
     lengths: np.ndarray | Sequence[int] | None,
@@ -411,8 +445,8 @@ def forward_backward(
             mul(x, beta[o1 : o1 + n], out=x)
             div(x, scale[o1 : o1 + n, None], out=x)
             dot(x, AT, out=beta[o : o + n])
-            if xi_out is None:
-                xi_acc += dot(alpha[o : o + n].T, x, out=xi_step)
+        if xi_out is None:
+            _accumulate_xi(alpha, E, batch.counts, off, xi_acc, xi_step)
 
         if xi_out is not None and n_steps > 1:
             nxt = slice(off[1], N)
