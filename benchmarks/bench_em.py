@@ -179,9 +179,10 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("--memory-obs", type=int, default=10_000_000)
     parser.add_argument("--memory-states", type=int, default=16)
     parser.add_argument(
-        "--memory-batches", type=int, nargs="*", default=[1 << 14, 1 << 16, 1 << 18]
+        "--memory-batches", type=int, nargs="*", default=[1 << 16, 1 << 18, 1 << 20]
     )
     parser.add_argument("--skip-memory", action="store_true")
+    parser.add_argument("--skip-em", action="store_true")
     parser.add_argument("--memory-child", type=int, default=None, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
 
@@ -191,51 +192,57 @@ def main(argv: list[str] | None = None) -> None:
 
     import hmmlearn
 
-    data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
-    symbols, lengths = data[0], data[1]
     print(
         f"# {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}, {platform.node()}, "
         f"{os.cpu_count()} CPUs, numpy {np.__version__}, hmmlearn {hmmlearn.__version__}"
     )
-    print(
-        f"# EM iteration: {len(symbols):,} observations, {len(lengths)} sequences, "
-        f"{args.states} states, {args.symbols} symbols"
-    )
-    (t_ours, t_ref), (ours, ref) = interleaved_times(
-        [lambda: em_step_ours(*data, batch_size=args.batch_size), lambda: em_step_hmmlearn(*data)],
-        args.repeats,
-    )
-    ll_diff = abs(ours[0] - ref[0])
-    par_diff = max(float(np.abs(a - b).max()) for a, b in zip(ours[1:], ref[1:]))
-    for name, t, r in (("faciesseq", t_ours, ours), ("hmmlearn", t_ref, ref)):
-        print(
-            f"EM {name:10s} best {min(t):7.3f} s  median {np.median(t):7.3f} s  loglik {r[0]:.6f}"
-        )
-    print(
-        f"EM ratio faciesseq / hmmlearn: best {min(t_ours) / min(t_ref):.3f}, "
-        f"median {np.median(t_ours) / np.median(t_ref):.3f}"
-    )
-    print(f"EM |loglik difference| {ll_diff:.3e}; max |parameter difference| {par_diff:.3e}")
-    if not (ll_diff <= 1e-6 * abs(ref[0]) and par_diff < 1e-8):
-        raise SystemExit("EM results differ from hmmlearn")
 
-    (v_ours, v_ref), (vo, vr) = interleaved_times(
-        [lambda: viterbi_ours(*data), lambda: viterbi_hmmlearn(*data)], args.repeats
-    )
-    # Paths may differ where two paths have exactly the same probability
-    # (then both are most likely); check that hmmlearn's path scores the same.
-    differ = int(np.count_nonzero(vo[1] != vr[1]))
-    ref_score = path_log_prob(vr[1], *data)
-    ours_score = path_log_prob(vo[1], *data)
-    tie_diff = float(np.abs(ref_score - ours_score).max())
-    print(
-        f"Viterbi faciesseq best {min(v_ours):.3f} s, hmmlearn best {min(v_ref):.3f} s, "
-        f"ratio {min(v_ours) / min(v_ref):.3f}; rows where the paths differ: {differ} "
-        f"(max |log-probability difference| per sequence {tie_diff:.3e}); "
-        f"|total log_prob difference| {abs(vo[0] - vr[0]):.3e}"
-    )
-    if tie_diff > 1e-8 or abs(vo[0] - vr[0]) > 1e-6:
-        raise SystemExit("Viterbi results differ from hmmlearn")
+    if not args.skip_em:
+        data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
+        symbols, lengths = data[0], data[1]
+        print(
+            f"# EM iteration: {len(symbols):,} observations, {len(lengths)} sequences, "
+            f"{args.states} states, {args.symbols} symbols"
+        )
+        (t_ours, t_ref), (ours, ref) = interleaved_times(
+            [
+                lambda: em_step_ours(*data, batch_size=args.batch_size),
+                lambda: em_step_hmmlearn(*data),
+            ],
+            args.repeats,
+        )
+        ll_diff = abs(ours[0] - ref[0])
+        par_diff = max(float(np.abs(a - b).max()) for a, b in zip(ours[1:], ref[1:]))
+        for name, t, r in (("faciesseq", t_ours, ours), ("hmmlearn", t_ref, ref)):
+            print(
+                f"EM {name:10s} best {min(t):7.3f} s  median {np.median(t):7.3f} s  "
+                f"loglik {r[0]:.6f}"
+            )
+        print(
+            f"EM ratio faciesseq / hmmlearn: best {min(t_ours) / min(t_ref):.3f}, "
+            f"median {np.median(t_ours) / np.median(t_ref):.3f}"
+        )
+        print(f"EM |loglik difference| {ll_diff:.3e}; max |parameter difference| {par_diff:.3e}")
+        if not (ll_diff <= 1e-6 * abs(ref[0]) and par_diff < 1e-8):
+            raise SystemExit("EM results differ from hmmlearn")
+
+        (v_ours, v_ref), (vo, vr) = interleaved_times(
+            [lambda: viterbi_ours(*data), lambda: viterbi_hmmlearn(*data)], args.repeats
+        )
+        # Paths may differ where two paths have exactly the same probability
+        # (then both are most likely); check that hmmlearn's path scores the same.
+        differ = int(np.count_nonzero(vo[1] != vr[1]))
+        ref_score = path_log_prob(vr[1], *data)
+        ours_score = path_log_prob(vo[1], *data)
+        tie_diff = float(np.abs(ref_score - ours_score).max())
+        print(
+            f"Viterbi faciesseq best {min(v_ours):.3f} s, hmmlearn best {min(v_ref):.3f} s, "
+            f"ratio {min(v_ours) / min(v_ref):.3f}; rows where the paths differ: {differ} "
+            f"(max |log-probability difference| per sequence {tie_diff:.3e}); "
+            f"|total log_prob difference| {abs(vo[0] - vr[0]):.3e}"
+        )
+        if tie_diff > 1e-8 or abs(vo[0] - vr[0]) > 1e-6:
+            raise SystemExit("Viterbi results differ from hmmlearn")
 
     if args.skip_memory:
         return

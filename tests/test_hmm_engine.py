@@ -397,3 +397,17 @@ def test_row_shift_changes_only_the_log_likelihood(case):
     path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
     np.testing.assert_array_equal(path, path_ref)
     np.testing.assert_allclose(lp, lp_ref + per_seq, rtol=1e-12)
+
+
+def test_posteriors_tables():
+    pi, A = np.array([0.5, 0.5]), np.array([[0.9, 0.1], [0.2, 0.8]])
+    le = np.log(np.array([[0.9, 0.1], [0.5, 0.5], [0.2, 0.8]]))
+    post = forward_backward(le, [2, 1], pi, A)
+    table = post.to_frame([2, 1])
+    assert table["sequence"].tolist() == [0, 0, 1]
+    assert table["row"].tolist() == [0, 1, 0]
+    np.testing.assert_array_equal(table[["p_0", "p_1"]].to_numpy(), post.gamma)
+    d = post.to_dict()
+    assert d["log_likelihood"] == post.log_likelihood.tolist()
+    assert d["total_log_likelihood"] == pytest.approx(post.log_likelihood.sum())
+    assert np.array(d["xi_sum"]).shape == (2, 2)

@@ -89,6 +89,33 @@ class Posteriors:
         """Sum of the per-sequence log-likelihoods."""
         return float(np.sum(self.log_likelihood))
 
+    def to_frame(self, lengths: np.ndarray | Sequence[int] | None = None):
+        """State posteriors as a ``pandas.DataFrame``: ``sequence``, ``row``
+        (within the sequence) and one ``p_<k>`` column per state.
+
+        ``lengths`` as given to :func:`forward_backward` (``None``: one sequence).
+        """
+        import pandas as pd
+
+        lengths = _check_lengths(lengths, self.gamma.shape[0])
+        table = pd.DataFrame(self.gamma, columns=[f"p_{k}" for k in range(self.gamma.shape[1])])
+        table.insert(0, "sequence", np.repeat(np.arange(lengths.size), lengths))
+        starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+        table.insert(1, "row", np.arange(self.gamma.shape[0]) - np.repeat(starts, lengths))
+        return table
+
+    def to_dict(self) -> dict:
+        """Plain lists, for JSON: the summed statistics and per-sequence
+        log-likelihoods (``gamma`` and ``xi`` are left to :meth:`to_frame`)."""
+        return {
+            "log_likelihood": self.log_likelihood.tolist(),
+            "total_log_likelihood": self.total_log_likelihood,
+            "start": self.start.tolist(),
+            "xi_sum": self.xi_sum.tolist(),
+            "n_rows": int(self.gamma.shape[0]),
+            "n_states": int(self.gamma.shape[1]),
+        }
+
 
 # --------------------------------------------------------------------------
 # validation
