@@ -505,16 +505,18 @@ def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, bat
         if xi_out is None:
             _accumulate_xi(alpha, E, batch.counts, off, xi_acc, xi_step)
 
-        if xi_out is not None and n_steps > 1:
-            nxt = slice(off[1], N)
-            step, position = batch.step[nxt], batch.position[nxt]
-            alpha_prev = alpha[batch.offsets[step - 1] + position]
-            xi_b = alpha_prev[:, :, None] * A[None, :, :]
-            del alpha_prev
-            xi_b *= E[nxt][:, None, :]
-            xi_sum += xi_b.sum(axis=0)
-            xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
-            del xi_b
+        if xi_out is not None:
+            # Per-boundary xi in chunks of at most rows_per_batch * K cells,
+            # so that the K x K factor does not multiply the work memory.
+            chunk = max(1, rows_per_batch // K)
+            for lo in range(off[1] if n_steps > 1 else N, N, chunk):
+                nxt = slice(lo, min(N, lo + chunk))
+                step, position = batch.step[nxt], batch.position[nxt]
+                xi_b = alpha[batch.offsets[step - 1] + position][:, :, None] * A
+                xi_b *= E[nxt][:, None, :]
+                xi_sum += xi_b.sum(axis=0)
+                xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
+                del xi_b
 
         gamma = alpha
         mul(gamma, beta, out=gamma)
@@ -599,10 +601,13 @@ def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
     log_prob = np.empty(lens.size)
     cap = _buffer_rows(lens, rows_per_batch)
     delta_buf = np.empty((cap, K))
-    width = int(min(lens.size, cap))  # most sequences running at one step
+    # Scores of one step are (sequences, K, K): taken in chunks of at most
+    # rows_per_batch * K cells, so memory stays bounded by the batch.
+    width = int(min(lens.size, cap, max(1, rows_per_batch // K)))
     scores_buf = np.empty((width, K, K))
     half_buf = np.empty((width, max(1, K // 2), K))
-    pick_buf = np.empty((width, K))
+    best_buf = np.empty((width, K))
+    pick_buf = np.empty((int(min(lens.size, cap)), K))
     for batch in _batches(lens, rows_per_batch):
         N = batch.n_rows
         counts, off = batch.counts.tolist(), batch.offsets.tolist()
@@ -614,11 +619,14 @@ def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
         delta[:n0] += log_pi
         for t in range(1, n_steps):
             o, n, op = off[t], counts[t], off[t - 1]
-            scores = scores_buf[:n]
-            np.add(delta[op : op + n, :, None], log_A, out=scores)  # (n, from, to)
-            best = pick_buf[:n]
-            _max_over_axis1(scores, best, half_buf[:n])
-            delta[o : o + n] += best
+            for lo in range(0, n, width):
+                m = min(width, n - lo)
+                scores = scores_buf[:m]
+                # scores[j, i, k] = delta[t-1, i] + log A[i, k] for sequence j
+                np.add(delta[op + lo : op + lo + m, :, None], log_A, out=scores)
+                best = best_buf[:m]
+                _max_over_axis1(scores, best, half_buf[:m])
+                delta[o + lo : o + lo + m] += best
 
         final_delta = delta[batch.last]
         final_state = final_delta.argmax(axis=1)
