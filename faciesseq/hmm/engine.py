@@ -426,6 +426,18 @@ def forward_backward(
     ConfigError
         ``startprob`` / ``transmat`` not probability vectors / matrices.
 
+    Notes
+    -----
+    A sequence is reported impossible when a scale factor is exactly zero: no
+    state allowed by the transitions has non-zero emission probability. As
+    in every scaled (not log-space) recursion, hmmlearn's ``"scaling"``
+    implementation included, a step whose probability is below about 1e-308
+    of the step's best emission underflows to zero and counts as impossible.
+
+    Matrix products run with one BLAS thread for the duration of the call
+    (``threadpoolctl``), which is faster for these many small products and
+    affects other threads of the process that call BLAS meanwhile.
+
     References
     ----------
     L. R. Rabiner (1989), "A tutorial on hidden Markov models and selected
