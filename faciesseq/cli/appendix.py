@@ -1,0 +1,175 @@
+"""``faciesseq appendix SOURCE -o DIR``: the statistical appendix of a core database."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+
+
+def register(subparsers) -> None:
+    from faciesseq.cli._common import add_source_arguments
+
+    parser = subparsers.add_parser(
+        "appendix",
+        help="write the statistical appendix (HTML, LaTeX, CSV, JSON) of a core database",
+        description=(
+            "Compute the transition statistics, fit the tract model (or read one with "
+            "--model), decode every core, cross-validate against interpreted cores where "
+            "there are any, and write the appendix folder atomically: appendix.html (one "
+            "self-contained file), appendix.tex with figures/*.pdf, tables/*.csv, "
+            "appendix.json and provenance.json."
+        ),
+    )
+    add_source_arguments(parser)
+    add_appendix_arguments(parser)
+    parser.add_argument("-o", "--output", required=True, metavar="DIR", help="folder to write")
+    parser.add_argument("--force", action="store_true", help="replace an existing folder")
+    parser.set_defaults(func=run)
+
+
+def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options shared by ``appendix`` and ``demo``."""
+    group = parser.add_argument_group("what the appendix computes")
+    group.add_argument(
+        "--model",
+        metavar="FILE",
+        help="fitted tract model file (JSON); without it a model is fitted with the defaults "
+        "and the appendix says so",
+    )
+    group.add_argument(
+        "--tract-model", metavar="FILE", help="tract model YAML (default: the packaged one)"
+    )
+    group.add_argument(
+        "--labels",
+        default="tract",
+        metavar="COLUMN",
+        help="column of interpreted tracts for cross-validation (default: tract; skipped when "
+        "absent)",
+    )
+    group.add_argument(
+        "--validate-mode",
+        choices=("supervised", "unsupervised"),
+        default="supervised",
+        help="cross-validation: training labels clamp the states (supervised, default) or "
+        "are ignored",
+    )
+    group.add_argument("--folds", type=int, default=3, metavar="K", help="cross-validation folds")
+    group.add_argument(
+        "--surrogates",
+        type=int,
+        default=199,
+        metavar="N",
+        help="Monte Carlo surrogates for exact p-values (default 199; 0 = none)",
+    )
+    group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
+    group.add_argument("--seed", type=int, default=0, help="seed of every random step")
+    group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
+
+
+def progress_printer(total: int, enabled: bool):
+    """A progress callback printing ``[k/total] step: message (seconds)`` to stderr."""
+    start = time.monotonic()
+    seen: list[str] = []
+
+    def report(step: str, message: str) -> None:
+        if step not in seen:
+            seen.append(step)
+        if enabled:
+            sys.stderr.write(
+                f"[{len(seen)}/{total}] {step}: {message} ({time.monotonic() - start:.1f} s)\n"
+            )
+            sys.stderr.flush()
+
+    return report
+
+
+def check_numbers(args: argparse.Namespace) -> None:
+    from faciesseq.errors import ConfigError
+
+    for name in ("folds", "surrogates", "restarts", "seed"):
+        value = getattr(args, name)
+        low = 2 if name == "folds" else (1 if name == "restarts" else 0)
+        if value < low:
+            raise ConfigError(f"--{name} must be a whole number >= {low}, got {value}")
+
+
+def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_model: bool):
+    """Run the job and write the folder; return the folder (shared by ``demo``)."""
+    import json
+
+    from faciesseq.pipeline import run_appendix
+    from faciesseq.report.appendix import write_appendix
+    from faciesseq.report.provenance import provenance
+    from faciesseq.scheme import default_tract_model, load_tract_model
+
+    tract_model = load_tract_model(args.tract_model) if args.tract_model else default_tract_model()
+    model = None
+    if args.model:
+        from faciesseq.hmm.modelfile import load_model
+
+        model = load_model(args.model)
+    prov = provenance(
+        sources=[args.source],
+        scheme=args.scheme or getattr(scheme, "source", None),
+        tract_model=args.tract_model or tract_model.source,
+        model_file=args.model,
+        seeds={"markov_surrogates": args.seed, "fit": args.seed, "cross_validation": args.seed},
+        command_line=["faciesseq", *sys.argv[1:]],
+    )
+    progress = progress_printer(7, sys.stderr.isatty())
+    result = run_appendix(
+        cores,
+        scheme,
+        tract_model,
+        model=model,
+        model_source=args.model,
+        labels=args.labels,
+        validate_mode=args.validate_mode,
+        folds=args.folds,
+        surrogates=args.surrogates,
+        seed=args.seed,
+        n_restarts=args.restarts,
+        provenance=prov,
+        progress=progress,
+    )
+    extra = {}
+    if extra_model and model is None:
+        from faciesseq.hmm.modelfile import model_to_dict
+
+        doc = model_to_dict(result.model)
+        extra["model.json"] = json.dumps(doc, indent=1, allow_nan=False) + "\n"
+    out = write_appendix(result.appendix, output, force=force, latex=not args.no_latex, extra=extra)
+    progress("write", f"{out}")
+    return out, result
+
+
+def run(args: argparse.Namespace) -> int:
+    from faciesseq.cli._common import load_scheme_option, read_source
+    from faciesseq.errors import ConfigError
+
+    check_numbers(args)
+    from pathlib import Path
+
+    if Path(args.output).exists() and not args.force:
+        raise ConfigError(
+            "output folder exists; choose another -o or pass --force to replace it",
+            file=args.output,
+        )
+    scheme = load_scheme_option(args.scheme)
+    if scheme is None and args.model:
+        from faciesseq.hmm.modelfile import load_model
+
+        scheme = load_model(args.model).scheme
+    if scheme is None:
+        raise ConfigError(
+            "the appendix needs a facies scheme (ranks, names, colours): pass --scheme FILE"
+        )
+    cores = read_source(args, scheme=scheme)
+    out, _ = make(args, cores, scheme, args.output, args.force, extra_model=False)
+    sys.stdout.write(
+        f"appendix: {out / 'appendix.html'}\n"
+        f"figures:  {out / 'figures'}\n"
+        f"tables:   {out / 'tables'}\n"
+    )
+    return 0

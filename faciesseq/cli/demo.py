@@ -1,0 +1,75 @@
+"""``faciesseq demo``: the whole job on the bundled demo cores, ending in an appendix."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+
+
+def register(subparsers) -> None:
+    from faciesseq.cli.appendix import add_appendix_arguments
+
+    parser = subparsers.add_parser(
+        "demo",
+        help="run check, markov, fit, decode, validate and appendix on the bundled demo cores",
+        description=(
+            "Run the whole job on the bundled demo database (17 invented cores of the "
+            "Quillerby Basin, some interpreted): check the data, compute the transition "
+            "statistics, fit the tract model, decode every core, cross-validate against the "
+            "interpreted cores and write the appendix. Progress goes to the terminal; the "
+            "last lines say where the appendix and its figures are."
+        ),
+    )
+    parser.add_argument(
+        "--out",
+        default="faciesseq-demo",
+        metavar="DIR",
+        help="folder to write (default: ./faciesseq-demo; a previous demo folder is replaced)",
+    )
+    add_appendix_arguments(parser)
+    parser.set_defaults(func=run, model=None)
+
+
+def _is_previous_output(path: Path) -> bool:
+    try:
+        data = json.loads((path / "appendix.json").read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return False
+    return isinstance(data, dict) and data.get("format") == "faciesseq-appendix"
+
+
+def run(args: argparse.Namespace) -> int:
+    from faciesseq.cli.appendix import check_numbers, make
+    from faciesseq.errors import ConfigError
+    from faciesseq.io import read_cores
+    from faciesseq.pipeline import demo_source
+    from faciesseq.scheme import load_scheme
+
+    check_numbers(args)
+    out = Path(args.out)
+    force = False
+    if out.exists():
+        if not _is_previous_output(out):
+            raise ConfigError(
+                "exists and is not a previous demo or appendix folder; choose another --out",
+                file=str(out),
+            )
+        force = True
+    folder = demo_source()
+    args.source = str(folder / "cores.csv")
+    args.scheme = str(folder / "scheme-shoreface.yaml")
+    scheme = load_scheme(args.scheme)
+    cores = read_cores(args.source, scheme=scheme)
+    written, result = make(args, cores, scheme, out, force, extra_model=True)
+    html = written / "appendix.html"
+    sys.stdout.write(
+        f"demo done: {len(cores)} cores of {folder / 'cores.csv'}\n"
+        f"appendix: {html}\n"
+        f"figures:  {written / 'figures'} ({len(result.appendix.figures())} PNG, and PDF)\n"
+        f"tables:   {written / 'tables'}\n"
+        f"model:    {written / 'model.json'}\n"
+        f"open {html.resolve().as_uri()} in a browser\n"
+    )
+    return 0

@@ -1,0 +1,693 @@
+"""Emission pieces of the tract model: one small class per kind of bed observation.
+
+The probability of a bed given its tract is the product of the selected pieces
+(conditional independence given the tract, as in any HMM with several emission
+streams; Rabiner 1989, section IV). Each piece
+
+- reads its observation from an :class:`EncodedBeds` table (missing values are
+  marginalised: they contribute ``log 1 = 0``),
+- gives ``log_prob`` of every bed under every tract, shape ``(n_beds, n_tracts)``,
+- collects weighted sufficient statistics (E-step) and re-estimates its
+  parameters from them (M-step) as the *maximum a posteriori* estimate under
+  its prior, so that EM increases log-likelihood + log-prior monotonically
+  (Dempster, Laird & Rubin 1977),
+- and writes / reads its parameters as plain JSON numbers.
+
+Pieces
+------
+``facies``
+    P(facies | tract): a categorical table per tract.
+``facies_trend``
+    P(facies_t | facies_t-1, tract): the stacking trend (a tract is a trend, not
+    a bag of facies); the first bed of a succession uses P(facies | tract).
+    Its Dirichlet pseudo-counts are built from the scheme's proximality ranks:
+    deepening-upward steps favour deepening tracts (TST), shallowing-upward
+    steps favour shallowing tracts (HST, FSST, LST) -- this pins the identity
+    of the states.
+``thickness``
+    log bed thickness, Gaussian per tract.
+``contact``
+    the bed's lower contact type (sharp, erosional, gradational...), categorical.
+any other name
+    a numeric bed attribute of that name (e.g. ``grain_size``), Gaussian per tract.
+
+A facies (or contact type) never seen in training gets the smoothed probability
+of an unseen category (additive smoothing, Lidstone 1920 / Chen & Goodman 1999)
+and a :class:`UnseenCategoryWarning`; it never raises.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import ConfigError, ModelFileError
+
+__all__ = [
+    "CategoricalEmission",
+    "ContactEmission",
+    "EmissionPiece",
+    "EncodedBeds",
+    "FaciesEmission",
+    "FaciesTrendEmission",
+    "GaussianEmission",
+    "UnseenCategoryWarning",
+    "encode_beds",
+    "make_piece",
+    "piece_from_dict",
+]
+
+#: Code for "no value" in integer-coded observations.
+MISSING = -1
+#: Code for "a category not seen in training".
+UNSEEN = -2
+
+
+class UnseenCategoryWarning(UserWarning):
+    """A facies or contact type not seen in training was decoded with a smoothed probability."""
+
+
+@dataclass(frozen=True)
+class EncodedBeds:
+    """Beds of many successions, concatenated base to top, coded for the emissions.
+
+    Attributes
+    ----------
+    lengths
+        Number of beds of each succession, in order.
+    facies
+        Facies index into the model's facies list; ``-1`` missing, ``-2`` unseen.
+    previous
+        Facies index of the bed below in the same succession (``-1`` for the
+        first bed, or when the bed below is missing or unseen).
+    contact
+        Contact-type index; ``-1`` missing, ``-2`` unseen.
+    numeric
+        ``name -> float array`` (``NaN`` = missing); ``"thickness"`` holds the
+        natural log of the bed thickness.
+    """
+
+    lengths: np.ndarray
+    facies: np.ndarray
+    previous: np.ndarray
+    contact: np.ndarray
+    numeric: Mapping[str, np.ndarray]
+
+    def __len__(self) -> int:
+        return len(self.facies)
+
+    def slice(self, start: int, stop: int, lengths: np.ndarray) -> EncodedBeds:
+        """Beds ``start:stop`` (whole successions with the given ``lengths``)."""
+        return EncodedBeds(
+            np.asarray(lengths, dtype=np.int64),
+            self.facies[start:stop],
+            self.previous[start:stop],
+            self.contact[start:stop],
+            {k: v[start:stop] for k, v in self.numeric.items()},
+        )
+
+
+def _codes(values: pd.Series, vocabulary: Sequence[str]) -> np.ndarray:
+    """Index of each value in ``vocabulary``; -1 missing (blank or NaN), -2 not in it."""
+    text = values.astype("string").str.strip()
+    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
+    out = pd.Index(list(vocabulary), dtype=object).get_indexer(
+        text.where(~missing).astype(object).to_numpy()
+    )
+    out = np.asarray(out, dtype=np.int64)
+    out[(out < 0) & ~missing.to_numpy(dtype=bool)] = UNSEEN
+    return out
+
+
+def encode_beds(
+    tables: Sequence[pd.DataFrame],
+    facies: Sequence[str],
+    contacts: Sequence[str] = (),
+    numeric: Sequence[str] = (),
+) -> EncodedBeds:
+    """Code bed tables (each base to top) for the emission pieces.
+
+    Parameters
+    ----------
+    tables
+        One bed table per succession, base to top, with ``facies`` and, where
+        used, ``thickness`` (depth units), ``contact`` and numeric attributes.
+    facies, contacts
+        The model's facies codes and contact types (their order is the index).
+    numeric
+        Numeric attributes to read (``"thickness"`` reads ``log(thickness)``).
+    """
+    lengths = np.array([len(t) for t in tables], dtype=np.int64)
+    # Chunks of whole tables keep the pandas temporaries small on big databases.
+    fac_parts, contact_parts = [], []
+    value_parts: dict[str, list[np.ndarray]] = {name: [] for name in numeric}
+    chunk: list[pd.DataFrame] = []
+    size = 0
+
+    def flush() -> None:
+        table = pd.concat(chunk, ignore_index=True)
+        fac_parts.append(_codes(table["facies"], facies))
+        if "contact" in table.columns:
+            contact_parts.append(_codes(table["contact"], contacts))
+        else:
+            contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
+        for name in numeric:
+            col = "thickness" if name == "thickness" else name
+            if col in table.columns:
+                x = pd.to_numeric(table[col], errors="coerce").to_numpy(dtype=float)
+                if name == "thickness":
+                    with np.errstate(divide="ignore", invalid="ignore"):
+                        x = np.where(x > 0, np.log(np.where(x > 0, x, 1.0)), np.nan)
+            else:
+                x = np.full(len(table), np.nan)
+            value_parts[name].append(x)
+        chunk.clear()
+
+    for t in tables:
+        chunk.append(t.reset_index(drop=True))
+        size += len(t)
+        if size >= 200_000:
+            flush()
+            size = 0
+    if chunk:
+        flush()
+    empty = np.zeros(0, dtype=np.int64)
+    fac = np.concatenate(fac_parts) if fac_parts else empty
+    contact = np.concatenate(contact_parts) if contact_parts else empty
+    values = {
+        name: np.concatenate(parts) if parts else np.zeros(0) for name, parts in value_parts.items()
+    }
+    prev = np.r_[MISSING, fac[:-1]] if len(fac) else fac.copy()
+    starts = np.r_[0, np.cumsum(lengths)[:-1]] if len(lengths) else lengths
+    prev[starts[lengths > 0]] = MISSING
+    prev = np.where(prev < 0, MISSING, prev)
+    return EncodedBeds(lengths, fac, prev, contact, values)
+
+
+def _log(p: np.ndarray) -> np.ndarray:
+    with np.errstate(divide="ignore"):
+        return np.log(p)
+
+
+def _check_table(name: str, value: Any, shape: tuple[int, ...], source: str | None) -> np.ndarray:
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ModelFileError(f"emission {name}: not a table of numbers", file=source) from None
+    if arr.shape != shape:
+        raise ModelFileError(
+            f"emission {name}: shape {arr.shape}, expected {shape}", file=source
+        ) from None
+    if not np.all(np.isfinite(arr)):
+        raise ModelFileError(f"emission {name}: contains NaN or infinity", file=source)
+    return arr
+
+
+def _check_probabilities(name: str, arr: np.ndarray, source: str | None) -> None:
+    if np.any(arr < 0) or np.any(arr > 1):
+        raise ModelFileError(f"emission {name}: probabilities outside [0, 1]", file=source)
+    sums = arr.sum(axis=-1)
+    if not np.allclose(sums, 1.0, atol=1e-6):
+        raise ModelFileError(
+            f"emission {name}: rows must sum to 1 (found sums {np.round(sums, 6).tolist()})",
+            file=source,
+        )
+
+
+class EmissionPiece:
+    """Base of the emission pieces (see the module docstring)."""
+
+    kind: ClassVar[str] = ""
+    name: str
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        raise NotImplementedError
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        raise NotImplementedError
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        raise NotImplementedError
+
+    def m_step(self, stats: dict) -> None:
+        raise NotImplementedError
+
+    def log_prior(self) -> float:
+        return 0.0
+
+    def n_parameters(self) -> int:
+        raise NotImplementedError
+
+    def to_dict(self) -> dict[str, Any]:
+        raise NotImplementedError
+
+
+class CategoricalEmission(EmissionPiece):
+    """P(category | tract), additive Dirichlet pseudo-counts, a smoothed unseen category.
+
+    ``emissionprob_[s, c]`` is the probability of category ``c`` in tract ``s``.
+    The M-step is ``(counts + pseudo) / sum`` (MAP under Dirichlet(pseudo + 1));
+    the unseen-category probability of tract ``s`` is
+    ``unseen_pseudo / (n_s + unseen_pseudo * (V + 1))`` with ``n_s`` the weighted
+    number of beds of the tract (Lidstone smoothing).
+    """
+
+    kind = "categorical"
+    field = "facies"
+
+    def __init__(
+        self,
+        categories: Sequence[str],
+        n_tracts: int,
+        pseudo: np.ndarray | None = None,
+        unseen_pseudo: float = 0.5,
+        name: str = "categorical",
+    ) -> None:
+        self.name = name
+        self.categories = tuple(categories)
+        V = len(self.categories)
+        self.pseudo = np.zeros((n_tracts, V)) if pseudo is None else np.asarray(pseudo, float)
+        self.unseen_pseudo = float(unseen_pseudo)
+        total = self.pseudo.sum(axis=1, keepdims=True)
+        self.emissionprob_ = np.where(total > 0, self.pseudo / np.where(total > 0, total, 1), 1 / V)
+        self.unseen_prob_ = np.full(n_tracts, 1.0 / (V + 1))
+
+    def _observed(self, beds: EncodedBeds) -> np.ndarray:
+        return beds.facies
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        obs = self._observed(beds)
+        S = self.emissionprob_.shape[0]
+        out = np.zeros((len(obs), S))
+        known = obs >= 0
+        out[known] = _log(self.emissionprob_[:, obs[known]].T)
+        unseen = obs == UNSEEN
+        if unseen.any():
+            # the model warns once per core, naming the depths (see TractHMM.decode)
+            out[unseen] = _log(self.unseen_prob_)[None, :]
+        return out
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        return {"counts": np.zeros((n_tracts, len(self.categories)))}
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        obs = self._observed(beds)
+        known = obs >= 0
+        counts = stats["counts"]
+        for s in range(counts.shape[0]):
+            counts[s] += np.bincount(obs[known], weights[known, s], minlength=counts.shape[1])
+
+    def m_step(self, stats: dict) -> None:
+        total = stats["counts"] + self.pseudo
+        rows = total.sum(axis=1, keepdims=True)
+        V = len(self.categories)
+        self.emissionprob_ = np.where(rows > 0, total / np.where(rows > 0, rows, 1), 1.0 / V)
+        n = stats["counts"].sum(axis=1)
+        a = self.unseen_pseudo if self.unseen_pseudo > 0 else 0.5
+        self.unseen_prob_ = a / (n + a * (V + 1))
+
+    def log_prior(self) -> float:
+        mask = self.pseudo > 0
+        return float(np.sum(self.pseudo[mask] * np.log(self.emissionprob_[mask])))
+
+    def n_parameters(self) -> int:
+        return self.emissionprob_.shape[0] * (len(self.categories) - 1)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "name": self.name,
+            "categories": list(self.categories),
+            "emissionprob": self.emissionprob_.tolist(),
+            "unseen_prob": self.unseen_prob_.tolist(),
+            "pseudo": self.pseudo.tolist(),
+            "unseen_pseudo": self.unseen_pseudo,
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
+        cats = [str(c) for c in data["categories"]]
+        piece = cls(cats, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]), name=data["name"])
+        V = len(cats)
+        piece.pseudo = _check_table(f"{piece.name}.pseudo", data["pseudo"], (n_tracts, V), source)
+        piece.emissionprob_ = _check_table(
+            f"{piece.name}.emissionprob", data["emissionprob"], (n_tracts, V), source
+        )
+        _check_probabilities(f"{piece.name}.emissionprob", piece.emissionprob_, source)
+        piece.unseen_prob_ = _check_table(
+            f"{piece.name}.unseen_prob", data["unseen_prob"], (n_tracts,), source
+        )
+        return piece
+
+
+class FaciesEmission(CategoricalEmission):
+    """P(facies | tract)."""
+
+    kind = "facies"
+    field = "facies"
+
+    def __init__(self, categories, n_tracts, pseudo=None, unseen_pseudo=0.5, name="facies"):
+        super().__init__(categories, n_tracts, pseudo, unseen_pseudo, name)
+
+
+class ContactEmission(CategoricalEmission):
+    """P(lower contact type | tract)."""
+
+    kind = "contact"
+    field = "contact"
+
+    def __init__(self, categories, n_tracts, pseudo=None, unseen_pseudo=0.5, name="contact"):
+        super().__init__(categories, n_tracts, pseudo, unseen_pseudo, name)
+
+    def _observed(self, beds: EncodedBeds) -> np.ndarray:
+        return beds.contact
+
+
+class FaciesTrendEmission(EmissionPiece):
+    """P(facies_t | facies_t-1, tract): the stacking trend of a tract.
+
+    Parameters are a first-bed table ``firstprob_[s, f]`` (used when the bed
+    below is absent, missing or unseen) and a transition table
+    ``trendprob_[s, g, f]`` = P(facies f | facies g below, tract s). With
+    ``embedded=True`` (beds: successive beds never share a facies) the diagonal
+    ``g == f`` is a structural zero. Both tables are MAP estimates under
+    additive Dirichlet pseudo-counts (see :func:`trend_pseudo_counts`).
+    """
+
+    kind = "facies_trend"
+
+    def __init__(
+        self,
+        categories: Sequence[str],
+        n_tracts: int,
+        first_pseudo: np.ndarray | None = None,
+        trend_pseudo: np.ndarray | None = None,
+        embedded: bool = True,
+        unseen_pseudo: float = 0.5,
+        name: str = "facies_trend",
+    ) -> None:
+        self.name = name
+        self.categories = tuple(categories)
+        self.embedded = bool(embedded)
+        V = len(self.categories)
+        self.first = FaciesEmission(categories, n_tracts, first_pseudo, unseen_pseudo)
+        self.trend_pseudo = (
+            np.zeros((n_tracts, V, V)) if trend_pseudo is None else np.asarray(trend_pseudo, float)
+        )
+        if self.embedded:
+            self.trend_pseudo[:, np.arange(V), np.arange(V)] = 0.0
+        self.trendprob_ = self._normalise(self.trend_pseudo)
+
+    def _allowed(self) -> np.ndarray:
+        V = len(self.categories)
+        allowed = np.ones((V, V), dtype=bool)
+        if self.embedded:
+            np.fill_diagonal(allowed, False)
+        return allowed
+
+    def _normalise(self, total: np.ndarray) -> np.ndarray:
+        allowed = self._allowed()
+        rows = total.sum(axis=2, keepdims=True)
+        uniform = allowed / np.maximum(allowed.sum(axis=1, keepdims=True), 1)
+        return np.where(rows > 0, total / np.where(rows > 0, rows, 1), uniform[None])
+
+    @property
+    def emissionprob_(self) -> np.ndarray:
+        return self.first.emissionprob_
+
+    @property
+    def unseen_prob_(self) -> np.ndarray:
+        return self.first.unseen_prob_
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        out = self.first.log_prob(beds)
+        has_prev = (beds.previous >= 0) & (beds.facies >= 0)
+        if has_prev.any():
+            g, f = beds.previous[has_prev], beds.facies[has_prev]
+            out[has_prev] = _log(self.trendprob_[:, g, f].T)
+        return out
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        V = len(self.categories)
+        return {"first": self.first.empty_stats(n_tracts), "trend": np.zeros((n_tracts, V, V))}
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        has_prev = (beds.previous >= 0) & (beds.facies >= 0)
+        first = ~has_prev
+        self.first.accumulate(
+            stats["first"],
+            EncodedBeds(
+                beds.lengths,
+                np.where(first, beds.facies, MISSING),
+                beds.previous,
+                beds.contact,
+                {},
+            ),
+            weights,
+        )
+        V = len(self.categories)
+        cell = beds.previous[has_prev] * V + beds.facies[has_prev]
+        trend = stats["trend"]
+        for s in range(trend.shape[0]):
+            trend[s] += np.bincount(cell, weights[has_prev, s], minlength=V * V).reshape(V, V)
+
+    def m_step(self, stats: dict) -> None:
+        self.first.m_step(stats["first"])
+        # Unseen facies: smoothing from all beds of the tract, not only first beds.
+        n = stats["first"]["counts"].sum(axis=1) + stats["trend"].sum(axis=(1, 2))
+        V = len(self.categories)
+        a = self.first.unseen_pseudo if self.first.unseen_pseudo > 0 else 0.5
+        self.first.unseen_prob_ = a / (n + a * (V + 1))
+        self.trendprob_ = self._normalise(stats["trend"] + self.trend_pseudo)
+
+    def log_prior(self) -> float:
+        mask = self.trend_pseudo > 0
+        return self.first.log_prior() + float(
+            np.sum(self.trend_pseudo[mask] * np.log(self.trendprob_[mask]))
+        )
+
+    def n_parameters(self) -> int:
+        S = self.trendprob_.shape[0]
+        allowed = self._allowed().sum(axis=1)
+        return self.first.n_parameters() + int(S * np.sum(np.maximum(allowed - 1, 0)))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "name": self.name,
+            "categories": list(self.categories),
+            "embedded": self.embedded,
+            "first": self.first.to_dict(),
+            "trendprob": self.trendprob_.tolist(),
+            "trend_pseudo": self.trend_pseudo.tolist(),
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
+        cats = [str(c) for c in data["categories"]]
+        V = len(cats)
+        piece = cls(cats, n_tracts, embedded=bool(data["embedded"]), name=data["name"])
+        piece.first = FaciesEmission.from_dict(data["first"], n_tracts, source)
+        if piece.first.categories != piece.categories:
+            raise ModelFileError(f"emission {piece.name}: category lists differ", file=source)
+        piece.trend_pseudo = _check_table(
+            f"{piece.name}.trend_pseudo", data["trend_pseudo"], (n_tracts, V, V), source
+        )
+        piece.trendprob_ = _check_table(
+            f"{piece.name}.trendprob", data["trendprob"], (n_tracts, V, V), source
+        )
+        _check_probabilities(f"{piece.name}.trendprob", piece.trendprob_, source)
+        if piece.embedded and np.any(piece.trendprob_[:, np.arange(V), np.arange(V)] > 0):
+            raise ModelFileError(
+                f"emission {piece.name}: beds are an embedded chain, the diagonal must be zero",
+                file=source,
+            )
+        return piece
+
+
+class GaussianEmission(EmissionPiece):
+    """A numeric bed attribute (or log thickness), Gaussian per tract.
+
+    M-step: the weighted mean, and the variance
+    ``(sum w (x - mean)^2 + nu * s0) / (W + nu)``: the MAP estimate under a
+    scaled inverse-chi-square prior on the variance (``nu`` pseudo-beds of
+    variance ``s0``; Gelman et al. 2013, Bayesian Data Analysis, ch. 3), which
+    keeps a tract with few beds from collapsing onto one value.
+    """
+
+    kind = "gaussian"
+
+    def __init__(
+        self, name: str, n_tracts: int, nu: float = 1.0, s0: float = 1.0, mean0: float = 0.0
+    ) -> None:
+        self.name = name
+        self.nu = float(nu)
+        self.s0 = float(s0)
+        self.mean0 = float(mean0)
+        self.means_ = np.full(n_tracts, self.mean0)
+        self.vars_ = np.full(n_tracts, self.s0)
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        x = beds.numeric[self.name]
+        out = np.zeros((len(x), len(self.means_)))
+        known = np.isfinite(x)
+        d = x[known, None] - self.means_[None, :]
+        out[known] = -0.5 * (np.log(2 * np.pi * self.vars_)[None, :] + d * d / self.vars_[None, :])
+        return out
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        return {"w": np.zeros(n_tracts), "wx": np.zeros(n_tracts), "wxx": np.zeros(n_tracts)}
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        x = beds.numeric[self.name]
+        known = np.isfinite(x)
+        w = weights[known]
+        xk = x[known]
+        stats["w"] += w.sum(axis=0)
+        stats["wx"] += xk @ w
+        stats["wxx"] += (xk * xk) @ w
+
+    def m_step(self, stats: dict) -> None:
+        W = stats["w"]
+        safe = np.where(W > 0, W, 1.0)
+        mean = np.where(W > 1e-12, stats["wx"] / safe, self.mean0)
+        ss = np.maximum(stats["wxx"] - 2 * mean * stats["wx"] + mean * mean * W, 0.0)
+        denom = W + self.nu
+        var = np.where(denom > 0, (ss + self.nu * self.s0) / np.where(denom > 0, denom, 1), 1.0)
+        self.means_ = mean
+        self.vars_ = np.maximum(var, 1e-9)
+
+    def log_prior(self) -> float:
+        if self.nu <= 0:
+            return 0.0
+        v = self.vars_
+        return float(np.sum(-0.5 * self.nu * np.log(v) - 0.5 * self.nu * self.s0 / v))
+
+    def n_parameters(self) -> int:
+        return 2 * len(self.means_)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "name": self.name,
+            "means": self.means_.tolist(),
+            "vars": self.vars_.tolist(),
+            "nu": self.nu,
+            "s0": self.s0,
+            "mean0": self.mean0,
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
+        piece = cls(data["name"], n_tracts, data["nu"], data["s0"], data["mean0"])
+        piece.means_ = _check_table(f"{piece.name}.means", data["means"], (n_tracts,), source)
+        piece.vars_ = _check_table(f"{piece.name}.vars", data["vars"], (n_tracts,), source)
+        if np.any(piece.vars_ <= 0):
+            raise ModelFileError(f"emission {piece.name}: variances must be > 0", file=source)
+        return piece
+
+
+_KINDS = {
+    "facies": FaciesEmission,
+    "contact": ContactEmission,
+    "facies_trend": FaciesTrendEmission,
+    "gaussian": GaussianEmission,
+}
+
+
+def piece_from_dict(data: Any, n_tracts: int, source: str | None = None) -> EmissionPiece:
+    """Rebuild an emission piece from :meth:`EmissionPiece.to_dict` output (validated)."""
+    if not isinstance(data, Mapping) or data.get("kind") not in _KINDS:
+        kind = data.get("kind") if isinstance(data, Mapping) else None
+        raise ModelFileError(
+            f"unknown emission kind {kind!r}; expected one of {sorted(_KINDS)}", file=source
+        )
+    try:
+        return _KINDS[data["kind"]].from_dict(data, n_tracts, source)
+    except KeyError as exc:
+        raise ModelFileError(
+            f"emission {data.get('name')!r}: missing key {exc.args[0]!r}", file=source
+        ) from None
+
+
+def trend_pseudo_counts(
+    ranks: np.ndarray,
+    trends: Sequence[str],
+    strength: float,
+    base: float,
+    embedded: bool,
+) -> np.ndarray:
+    """Dirichlet pseudo-counts for P(facies_t | facies_t-1, tract) built from ranks.
+
+    A step from facies ``g`` (below) to ``f`` (above) is deepening upward when
+    ``rank[f] > rank[g]`` (larger rank = more basinward / deeper), shallowing
+    when smaller. Every allowed cell gets ``base``; a deepening tract adds
+    ``strength`` to each deepening cell, a shallowing tract to each shallowing
+    cell, an aggrading tract to cells within one rank; equal-rank steps get
+    half of ``strength`` in every tract. (Walther's law and the usual reading of
+    stacking patterns: retrogradation in the TST, progradation in the HST, FSST
+    and LST -- common practice; e.g. Catuneanu et al. 2009.)
+
+    Returns an array ``(n_tracts, V, V)``.
+    """
+    ranks = np.asarray(ranks, dtype=float)
+    V = len(ranks)
+    step = ranks[None, :] - ranks[:, None]  # [g, f]: rank(f) - rank(g)
+    out = np.empty((len(trends), V, V))
+    for s, trend in enumerate(trends):
+        if trend == "deepening":
+            favour = (step > 0).astype(float)
+        elif trend == "shallowing":
+            favour = (step < 0).astype(float)
+        elif trend == "aggrading":
+            favour = (np.abs(step) <= 1).astype(float)
+        else:
+            raise ConfigError(f"unknown tract trend {trend!r}")
+        favour = np.where(step == 0, 0.5, favour)
+        out[s] = base + strength * favour
+    if embedded:
+        out[:, np.arange(V), np.arange(V)] = 0.0
+    return out
+
+
+def make_piece(
+    feature: str,
+    *,
+    facies: Sequence[str],
+    contacts: Sequence[str],
+    n_tracts: int,
+    ranks: np.ndarray | None,
+    trends: Sequence[str],
+    prior_strength: float,
+    embedded: bool,
+    numeric_scale: tuple[float, float] = (0.0, 1.0),
+) -> EmissionPiece:
+    """A fresh emission piece for ``feature`` with the project's default priors.
+
+    ``prior_strength`` scales every pseudo-count; 0 turns all priors off (plain
+    maximum likelihood). ``numeric_scale`` is ``(mean, variance)`` of the
+    feature over the training beds, used by Gaussian pieces for their prior.
+    """
+    V = len(facies)
+    base = 0.1 * prior_strength
+    if feature == "facies":
+        return FaciesEmission(facies, n_tracts, np.full((n_tracts, V), base))
+    if feature == "facies_trend":
+        if ranks is None:
+            trend = np.full((n_tracts, V, V), base + 0.5 * prior_strength)
+            if embedded:
+                trend[:, np.arange(V), np.arange(V)] = 0.0
+        else:
+            trend = trend_pseudo_counts(ranks, trends, prior_strength, base, embedded)
+        return FaciesTrendEmission(
+            facies, n_tracts, np.full((n_tracts, V), base), trend, embedded=embedded
+        )
+    if feature == "contact":
+        return ContactEmission(contacts, n_tracts, np.full((n_tracts, len(contacts)), base))
+    mean, var = numeric_scale
+    nu = 1.0 if prior_strength > 0 else 0.0
+    return GaussianEmission(feature, n_tracts, nu=nu, s0=max(var, 1e-6), mean0=mean)

@@ -1,0 +1,756 @@
+"""Numerical engine of the tract model: forward-backward, Viterbi, clamping.
+
+The engine works on a *log-emission array*: one row per observation (a bed
+or a grid cell), one column per hidden state, holding ``log p(obs_t | state
+k)``; the rows of all sequences are concatenated and ``lengths`` says where
+each sequence ends. Whatever emission model the caller uses (categorical,
+facies conditioned on the previous facies, thickness, grain size, missing
+values marginalised as ``0.0 = log 1``) reduces to such an array, so the
+engine knows nothing of facies or tracts.
+
+Why not hmmlearn's own recursions: hmmlearn computes the emissions itself
+from its own emission classes (no mixed or previous-facies-conditioned
+emissions, no log-emission input), has no partially labelled sequences
+(clamping), and returns no per-boundary two-slice posteriors, which the
+surface probabilities need. hmmlearn is the reference the tests compare
+against (same log-likelihoods, posteriors, expected transition counts and
+Viterbi paths), and ``benchmarks/bench_em.py`` measures the speed of both
+(``benchmarks/hmm_engine.md``): one EM iteration on 1,000,000 observations
+with 16 states took 0.40 of hmmlearn's CPU time on a loaded 2-core machine;
+Viterbi, whose maxima numpy cannot hand to BLAS, took about 2.3 times
+hmmlearn's compiled loop.
+
+Batching: sequences are sorted by length (longest first) and grouped into
+batches of at most ``batch_size`` rows. Inside a batch the rows are stored
+*time-major* (all first observations, then all second observations, ...), so
+at every time step the sequences still running are a leading block of the
+previous step's block: one ``(B, K) @ (K, K)`` product advances every
+sequence of the batch by one step, with no padding and no masks. The Python
+loop runs over time steps only, never over sequences or observations.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import functools
+import itertools
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from faciesseq.errors import ConfigError, InputError
+
+__all__ = [
+    "DEFAULT_BATCH_CELLS",
+    "Posteriors",
+    "constrained_log_emission",
+    "forward_backward",
+    "viterbi",
+]
+
+#: Default work bound: rows per batch times states (``batch_size = this // K``).
+#: About 16 MB per float64 work array.
+DEFAULT_BATCH_CELLS = 1 << 21
+
+# Tolerance on probabilities summing to one.
+_SUM_TOL = 1e-6
+
+
+@dataclass(frozen=True)
+class Posteriors:
+    """Results of :func:`forward_backward`.
+
+    Attributes
+    ----------
+    log_likelihood
+        ``(n_sequences,)`` natural-log likelihood of each sequence.
+    gamma
+        ``(T_total, K)`` posterior probability of each state at each row, rows
+        in the order of the input (all sequences concatenated); rows sum to 1.
+    xi_sum
+        ``(K, K)`` two-slice posteriors ``P(state_t = i, state_t+1 = j | obs)``
+        summed over every boundary of every sequence: the expected transition
+        counts of the EM M-step.
+    xi
+        ``(T_total - n_sequences, K, K)`` two-slice posterior of each boundary
+        if asked for, else ``None``. Boundary ``t`` of a sequence lies between
+        its rows ``t`` and ``t + 1``; boundaries of all sequences are
+        concatenated in input order (sequence ``s`` has ``lengths[s] - 1``).
+    start
+        ``(K,)`` sum over sequences of ``gamma`` at each sequence's first row:
+        the expected initial-state counts of the EM M-step.
+    """
+
+    log_likelihood: np.ndarray
+    gamma: np.ndarray
+    xi_sum: np.ndarray
+    xi: np.ndarray | None
+    start: np.ndarray
+
+    @property
+    def total_log_likelihood(self) -> float:
+        """Sum of the per-sequence log-likelihoods."""
+        return float(np.sum(self.log_likelihood))
+
+    def to_frame(self, lengths: np.ndarray | Sequence[int] | None = None):
+        """State posteriors as a ``pandas.DataFrame``: ``sequence``, ``row``
+        (within the sequence) and one ``p_<k>`` column per state.
+
+        ``lengths`` as given to :func:`forward_backward` (``None``: one sequence).
+        """
+        import pandas as pd
+
+        lengths = _check_lengths(lengths, self.gamma.shape[0])
+        table = pd.DataFrame(self.gamma, columns=[f"p_{k}" for k in range(self.gamma.shape[1])])
+        table.insert(0, "sequence", np.repeat(np.arange(lengths.size), lengths))
+        starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+        table.insert(1, "row", np.arange(self.gamma.shape[0]) - np.repeat(starts, lengths))
+        return table
+
+    def to_dict(self) -> dict:
+        """Plain lists, for JSON: the summed statistics and per-sequence
+        log-likelihoods (``gamma`` and ``xi`` are left to :meth:`to_frame`)."""
+        return {
+            "log_likelihood": self.log_likelihood.tolist(),
+            "total_log_likelihood": self.total_log_likelihood,
+            "start": self.start.tolist(),
+            "xi_sum": self.xi_sum.tolist(),
+            "n_rows": int(self.gamma.shape[0]),
+            "n_states": int(self.gamma.shape[1]),
+        }
+
+
+# --------------------------------------------------------------------------
+# validation
+
+
+def _check_log_emission(log_emission: np.ndarray) -> np.ndarray:
+    le = np.asarray(log_emission, dtype=np.float64)
+    if le.ndim != 2:
+        raise InputError(f"log-emission array must be 2-D (rows, states), got shape {le.shape}")
+    if le.shape[1] == 0:
+        raise InputError("log-emission array has no state columns")
+    # One fast reduction for the common case: the maximum is NaN if any
+    # entry is NaN, and +inf if any entry is +inf.
+    top = le.max() if le.size else 0.0
+    if np.isnan(top) or top == np.inf:
+        r, k = np.argwhere(np.isnan(le) | (le == np.inf))[0]
+        raise InputError(
+            f"log-emission row {r}, state {k} is {le[r, k]}; "
+            "expected a log-probability (finite or -inf)"
+        )
+    return le
+
+
+def _check_lengths(lengths: np.ndarray | Sequence[int] | None, n_rows: int) -> np.ndarray:
+    if lengths is None:
+        if n_rows == 0:
+            raise InputError("log-emission array has no rows")
+        return np.array([n_rows], dtype=np.intp)
+    arr = np.asarray(lengths)
+    if arr.ndim != 1 or arr.size == 0:
+        raise InputError(f"lengths must be a non-empty 1-D array, got shape {arr.shape}")
+    integral = np.issubdtype(arr.dtype, np.integer) or (
+        np.issubdtype(arr.dtype, np.floating) and bool(np.all(arr == np.round(arr)))
+    )
+    if not integral:
+        raise InputError(f"lengths must be integers, got dtype {arr.dtype}")
+    arr = arr.astype(np.intp)
+    short = np.flatnonzero(arr < 1)
+    if short.size:
+        s = int(short[0])
+        raise InputError(f"sequence {s} has length {arr[s]}; every sequence needs >= 1 row")
+    if int(arr.sum()) != n_rows:
+        raise InputError(
+            f"lengths sum to {int(arr.sum())} but the log-emission array has {n_rows} rows"
+        )
+    return arr
+
+
+def _check_params(
+    startprob: np.ndarray, transmat: np.ndarray, n_states: int
+) -> tuple[np.ndarray, np.ndarray]:
+    pi = np.asarray(startprob, dtype=np.float64)
+    A = np.asarray(transmat, dtype=np.float64)
+    if pi.shape != (n_states,):
+        raise ConfigError(
+            f"startprob has shape {pi.shape}; expected ({n_states},) to match the "
+            "log-emission columns"
+        )
+    if A.shape != (n_states, n_states):
+        raise ConfigError(f"transmat has shape {A.shape}; expected ({n_states}, {n_states})")
+    if not (np.all(np.isfinite(pi)) and np.all(pi >= 0)):
+        raise ConfigError("startprob must hold finite probabilities >= 0")
+    if not (np.all(np.isfinite(A)) and np.all(A >= 0)):
+        raise ConfigError("transmat must hold finite probabilities >= 0")
+    if abs(pi.sum() - 1.0) > _SUM_TOL:
+        raise ConfigError(f"startprob sums to {pi.sum():.8g}; expected 1")
+    rows = A.sum(axis=1)
+    off = np.flatnonzero(np.abs(rows - 1.0) > _SUM_TOL)
+    if off.size:
+        i = int(off[0])
+        raise ConfigError(f"transmat row {i} sums to {rows[i]:.8g}; expected 1")
+    return pi, A
+
+
+def _log(p: np.ndarray) -> np.ndarray:
+    """Natural log with exact ``-inf`` for zeros and no warning."""
+    out = np.full(p.shape, -np.inf)
+    np.log(p, out=out, where=p > 0)
+    return out
+
+
+@functools.cache
+def _blas_controller():
+    try:
+        from threadpoolctl import ThreadpoolController
+    except ImportError:  # pragma: no cover - threadpoolctl comes with scikit-learn
+        return None
+    return ThreadpoolController()
+
+
+def _single_thread_blas() -> contextlib.AbstractContextManager:
+    """Run the recursions with one BLAS thread.
+
+    The recursions make many small matrix products; a multi-threaded BLAS
+    gains nothing on them and loses much when other processes load the
+    cores (measured: one EM iteration on 1,000,000 observations took 0.30 s
+    instead of 0.71 s, best of 8, on a loaded 2-core machine).
+    """
+    controller = _blas_controller()
+    if controller is None:  # pragma: no cover
+        return contextlib.nullcontext()
+    return controller.limit(limits=1, user_api="blas")
+
+
+# --------------------------------------------------------------------------
+# batching
+
+
+class _Batch:
+    """Sequences of one batch, rows stored time-major.
+
+    ``seq[j]`` is the input index of the batch's ``j``-th sequence (longest
+    first); packed row ``offsets[t] + j`` is row ``t`` of sequence ``j`` and
+    ``rows`` maps every packed row to its input row.
+    """
+
+    def __init__(self, seq: np.ndarray, lengths: np.ndarray, starts: np.ndarray) -> None:
+        self.seq = seq
+        self.lengths = lengths
+        n_steps = int(lengths[0])
+        # Sequences running at step t: those longer than t (a leading block).
+        self.counts = np.searchsorted(-lengths, -np.arange(n_steps), side="left")
+        self.offsets = np.concatenate(([0], np.cumsum(self.counts)))
+        #: time step t of every packed row
+        self.step = np.repeat(np.arange(n_steps), self.counts)
+        #: batch position j of every packed row
+        self.position = np.arange(self.offsets[-1]) - self.offsets[self.step]
+        self.rows = starts[seq][self.position] + self.step
+        #: packed row of the last observation of every sequence
+        self.last = self.offsets[lengths - 1] + np.arange(seq.size)
+
+    @property
+    def n_rows(self) -> int:
+        return int(self.rows.size)
+
+
+def _batches(lengths: np.ndarray, batch_size: int) -> Iterator[_Batch]:
+    starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+    order = np.argsort(-lengths, kind="stable")
+    sorted_len = lengths[order]
+    i, n = 0, len(order)
+    while i < n:
+        # Greedy: add sequences while the batch stays within batch_size rows
+        # (a single longer sequence is a batch of its own).
+        csum = np.cumsum(sorted_len[i:])
+        stop = i + max(1, int(np.searchsorted(csum, batch_size, side="right")))
+        yield _Batch(order[i:stop], sorted_len[i:stop], starts)
+        i = stop
+
+
+def _buffer_rows(lengths: np.ndarray, rows_per_batch: int) -> int:
+    """Rows of the largest batch :func:`_batches` can yield."""
+    return int(min(lengths.sum(), max(rows_per_batch, lengths.max())))
+
+
+def _put_rows(out: np.ndarray, rows: np.ndarray, values: np.ndarray) -> None:
+    """``out[rows] = values`` for C-contiguous 2-D arrays, row by row as one item.
+
+    Scattering whole rows as opaque items is about three times faster than
+    numpy's fancy-index assignment on 16-column float64 arrays (measured).
+    """
+    item = np.dtype((np.void, out.shape[1] * out.itemsize))
+    np.put(out.view(item).ravel(), rows, np.ascontiguousarray(values).view(item).ravel())
+
+
+def _resolve_batch_size(batch_size: int | None, n_states: int) -> int:
+    if batch_size is None:
+        return max(1, DEFAULT_BATCH_CELLS // n_states)
+    if int(batch_size) < 1:
+        raise ConfigError(f"batch_size must be >= 1, got {batch_size}")
+    return int(batch_size)
+
+
+def _impossible(batch: _Batch, packed_row: int, what: str) -> InputError:
+    s = int(batch.seq[batch.position[packed_row]])
+    t = int(batch.step[packed_row])
+    return InputError(
+        f"sequence {s} is impossible under the model: {what} at its row {t} "
+        f"(row {int(batch.rows[packed_row])} of the log-emission array); check "
+        "labels/clamps against the allowed tract transitions and the emissions"
+    )
+
+
+# --------------------------------------------------------------------------
+# forward-backward
+
+# Rows whose emission sum lies in this range are exponentiated unshifted; the
+# others are shifted by their maximum first.
+_SAFE_LOW, _SAFE_HIGH = 1e-100, 1e100
+
+
+def _exp_rows(
+    le: np.ndarray, rows: np.ndarray, E: np.ndarray, shift: np.ndarray, work: np.ndarray
+) -> None:
+    """``E = exp(le[rows] - shift)`` with ``shift`` chosen per row (``E`` given as ``le[rows]``).
+
+    Rabiner's scaling needs every row's emissions representable: the usual
+    remedy is to subtract each row's maximum before exponentiating. A row
+    maximum over a few columns is one of numpy's slow reductions, so it is
+    taken only for rows whose plain exponentials sum outside
+    ``[1e-100, 1e100]`` (under- or overflow possible); the other rows get
+    ``shift = 0``. Rows where every state is forbidden (all ``-inf``) get
+    shift 0 and stay all zeros, reported later as impossible.
+    """
+    with np.errstate(over="ignore"):
+        np.exp(E, out=E)
+    total = np.dot(E, np.ones(E.shape[1]), out=work)
+    shift[:] = 0.0
+    unsafe = np.flatnonzero(~((total >= _SAFE_LOW) & (total <= _SAFE_HIGH)))
+    if unsafe.size:
+        raw = le[rows[unsafe]]
+        top = raw.max(axis=1)
+        top[top == -np.inf] = 0.0
+        E[unsafe] = np.exp(raw - top[:, None])
+        shift[unsafe] = top
+
+
+def _accumulate_xi(
+    alpha: np.ndarray,
+    ebc: np.ndarray,
+    counts: np.ndarray,
+    off: list[int],
+    acc: np.ndarray,
+    work: np.ndarray,
+) -> None:
+    """``acc += sum_t alpha[t]^T ebc[t+1]`` over every boundary of a batch.
+
+    ``ebc[t+1] = E[t+1] * beta[t+1] / c[t+1]``; times ``A`` this is the sum of
+    two-slice posteriors. Over a run of steps where no sequence ends, the
+    rows of step ``t`` and of step ``t + 1`` are aligned contiguous blocks, so
+    one product covers the whole run.
+    """
+    n_steps = counts.size
+    if n_steps < 2:
+        return
+    # full[t]: no sequence ends at step t, so block t pairs entirely with t+1.
+    full = counts[:-1] == counts[1:]
+    edges = np.flatnonzero(np.diff(full.astype(np.int8))) + 1
+    cuts = [0, *edges.tolist(), n_steps - 1]
+    for a, b in itertools.pairwise(cuts):
+        if full[a]:
+            acc += np.dot(alpha[off[a] : off[b]].T, ebc[off[a + 1] : off[b + 1]], out=work)
+        else:
+            for t in range(a, b):
+                n = int(counts[t + 1])
+                acc += np.dot(
+                    alpha[off[t] : off[t] + n].T, ebc[off[t + 1] : off[t + 1] + n], out=work
+                )
+
+
+def forward_backward(
+    log_emission: np.ndarray,
+    lengths: np.ndarray | Sequence[int] | None,
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    *,
+    return_xi: bool = False,
+    batch_size: int | None = None,
+) -> Posteriors:
+    """State and two-slice posteriors and log-likelihoods of many sequences.
+
+    Scaled forward-backward recursions (Rabiner 1989, section V.A). Each row of
+    ``log_emission`` is shifted by its maximum and exponentiated, so emissions
+    lie in ``(0, 1]``; the forward variables are normalised at every step
+    (scale factor ``c_t``), the backward variables divided by the same factors,
+    and ``log L = sum_t (log c_t + max_k log_emission[t, k])``. Zeros in
+    ``transmat`` and ``startprob`` stay exact zeros in every posterior
+    (structural zeros of the tract graph), with no log of zero taken.
+
+    Parameters
+    ----------
+    log_emission
+        ``(T_total, K)`` ``log p(obs_t | state k)``, rows of all sequences
+        concatenated. ``-inf`` forbids a state at a row (see
+        :func:`constrained_log_emission`); ``0.0`` marginalises a missing
+        observation.
+    lengths
+        ``(n_sequences,)`` number of rows of each sequence, summing to
+        ``T_total``; ``None`` means one sequence.
+    startprob
+        ``(K,)`` initial-state probabilities.
+    transmat
+        ``(K, K)`` transition probabilities, ``transmat[i, j] = P(j at t+1 | i
+        at t)``; rows sum to 1.
+    return_xi
+        Also return the ``(T_total - n_sequences, K, K)`` two-slice posterior of
+        every boundary (needed for surface probabilities; the EM M-step only
+        needs ``xi_sum``).
+    batch_size
+        Maximum rows per batch of work (memory is a few ``batch_size x K``
+        float64 arrays besides the inputs and outputs; a sequence longer than
+        ``batch_size`` is a batch of its own). Default
+        ``DEFAULT_BATCH_CELLS // K``.
+
+    Returns
+    -------
+    Posteriors
+
+    Raises
+    ------
+    InputError
+        Bad shapes or values, or a sequence that has probability zero under
+        the model (the message names the sequence and the row).
+    ConfigError
+        ``startprob`` / ``transmat`` not probability vectors / matrices.
+
+    Notes
+    -----
+    A sequence is reported impossible when a scale factor is exactly zero: no
+    state allowed by the transitions has non-zero emission probability. As
+    in every scaled (not log-space) recursion, hmmlearn's ``"scaling"``
+    implementation included, a step whose probability is below about 1e-308
+    of the step's best emission underflows to zero and counts as impossible.
+
+    Matrix products run with one BLAS thread for the duration of the call
+    (``threadpoolctl``), which is faster for these many small products and
+    affects other threads of the process that call BLAS meanwhile.
+
+    References
+    ----------
+    L. R. Rabiner (1989), "A tutorial on hidden Markov models and selected
+    applications in speech recognition", Proc. IEEE 77(2):257-286.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> le = np.log([[0.5, 0.1], [0.4, 0.3], [0.1, 0.6]])
+    >>> post = forward_backward(le, [3], [0.6, 0.4], [[0.7, 0.3], [0.4, 0.6]])
+    >>> post.gamma.shape, round(float(post.gamma.sum()), 6)
+    ((3, 2), 3.0)
+    """
+    with _single_thread_blas():
+        return _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size)
+
+
+def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size):
+    le = _check_log_emission(log_emission)
+    T, K = le.shape
+    lens = _check_lengths(lengths, T)
+    pi, A = _check_params(startprob, transmat, K)
+    rows_per_batch = _resolve_batch_size(batch_size, K)
+    AT = np.ascontiguousarray(A.T)
+    ones = np.ones(K)
+    dot, mul, div = np.dot, np.multiply, np.divide
+
+    n_seq = lens.size
+    loglik = np.empty(n_seq)
+    gamma_out = np.empty((T, K))
+    xi_sum = np.zeros((K, K))
+    xi_acc = np.zeros((K, K))  # sum of alpha[t]^T (E beta / c)[t+1]; times A at the end
+    xi_step = np.empty((K, K))
+    start = np.zeros(K)
+    xi_out = None
+    if return_xi:
+        xi_out = np.empty((T - n_seq, K, K))
+        boundary_start = np.concatenate(([0], np.cumsum(lens - 1)[:-1]))
+
+    # Work buffers, reused by every batch: memory is bounded by the largest batch.
+    cap = _buffer_rows(lens, rows_per_batch)
+    E_buf, alpha_buf, beta_buf = np.empty((cap, K)), np.empty((cap, K)), np.empty((cap, K))
+    scale_buf, shift_buf, norm_buf = np.empty(cap), np.empty(cap), np.empty(cap)
+
+    for batch in _batches(lens, rows_per_batch):
+        N = batch.n_rows
+        counts, off = batch.counts.tolist(), batch.offsets.tolist()
+        n_steps = len(counts)
+        E, alpha, beta = E_buf[:N], alpha_buf[:N], beta_buf[:N]
+        scale, row_max = scale_buf[:N], shift_buf[:N]
+        np.take(le, batch.rows, axis=0, out=E)
+        _exp_rows(le, batch.rows, E, row_max, norm_buf[:N])
+
+        with np.errstate(divide="ignore", invalid="ignore"):
+            n0 = counts[0]
+            mul(E[:n0], pi, out=alpha[:n0])
+            dot(alpha[:n0], ones, out=scale[:n0])
+            div(alpha[:n0], scale[:n0, None], out=alpha[:n0])
+            for t in range(1, n_steps):
+                o, n, op = off[t], counts[t], off[t - 1]
+                a = alpha[o : o + n]
+                dot(alpha[op : op + n], A, out=a)
+                mul(a, E[o : o + n], out=a)
+                c = scale[o : o + n]
+                dot(a, ones, out=c)
+                div(a, c[:, None], out=a)
+        bad = np.flatnonzero(~(scale > 0))
+        if bad.size:
+            raise _impossible(batch, int(bad[0]), "no allowed state explains the observation")
+
+        # Backward pass; E[t] (t >= 1) is overwritten by E[t] * beta[t] / c[t],
+        # the factor shared by beta[t-1] and by the two-slice posteriors
+        # xi[t-1] = alpha[t-1]^T (E[t] * beta[t] / c[t]) * A.
+        beta[batch.last] = 1.0
+        for t in range(n_steps - 2, -1, -1):
+            o1, n, o = off[t + 1], counts[t + 1], off[t]
+            x = E[o1 : o1 + n]
+            mul(x, beta[o1 : o1 + n], out=x)
+            div(x, scale[o1 : o1 + n, None], out=x)
+            dot(x, AT, out=beta[o : o + n])
+        if xi_out is None:
+            _accumulate_xi(alpha, E, batch.counts, off, xi_acc, xi_step)
+
+        if xi_out is not None:
+            # Per-boundary xi in chunks of at most rows_per_batch * K cells,
+            # so that the K x K factor does not multiply the work memory.
+            chunk = max(1, rows_per_batch // K)
+            for lo in range(off[1] if n_steps > 1 else N, N, chunk):
+                nxt = slice(lo, min(N, lo + chunk))
+                step, position = batch.step[nxt], batch.position[nxt]
+                xi_b = alpha[batch.offsets[step - 1] + position][:, :, None] * A
+                xi_b *= E[nxt][:, None, :]
+                xi_sum += xi_b.sum(axis=0)
+                xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
+                del xi_b
+
+        gamma = alpha
+        mul(gamma, beta, out=gamma)
+        norm = dot(gamma, ones, out=norm_buf[:N])
+        div(gamma, norm[:, None], out=gamma)
+        start += gamma[: counts[0]].sum(axis=0)
+        _put_rows(gamma_out, batch.rows, gamma)
+        np.log(scale, out=scale)
+        scale += row_max
+        loglik[batch.seq] = np.bincount(batch.position, weights=scale, minlength=batch.seq.size)
+
+    xi_sum += A * xi_acc
+    return Posteriors(log_likelihood=loglik, gamma=gamma_out, xi_sum=xi_sum, xi=xi_out, start=start)
+
+
+# --------------------------------------------------------------------------
+# Viterbi
+
+
+def viterbi(
+    log_emission: np.ndarray,
+    lengths: np.ndarray | Sequence[int] | None,
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    *,
+    batch_size: int | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Most likely state path of each sequence (Viterbi), in log space.
+
+    Parameters
+    ----------
+    log_emission, lengths, startprob, transmat, batch_size
+        As for :func:`forward_backward`. Zero probabilities become ``-inf``
+        (impossible transitions are never taken).
+
+    Returns
+    -------
+    path
+        ``(T_total,)`` int state of every row, input order.
+    log_prob
+        ``(n_sequences,)`` natural log of the joint probability of each
+        sequence and its path.
+
+    Ties are broken towards the lowest state index (for the last state and
+    for every back-pointer).
+
+    Raises
+    ------
+    InputError
+        Bad input, or a sequence with no path of non-zero probability (the
+        message names the sequence).
+
+    References
+    ----------
+    A. J. Viterbi (1967), "Error bounds for convolutional codes and an
+    asymptotically optimum decoding algorithm", IEEE Trans. Inf. Theory
+    13(2):260-269; G. D. Forney (1973), "The Viterbi algorithm", Proc. IEEE
+    61(3):268-278; Rabiner (1989), section III.B.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> le = np.log([[0.5, 0.1], [0.4, 0.3], [0.1, 0.6]])
+    >>> path, lp = viterbi(le, [3], [0.6, 0.4], [[0.7, 0.3], [0.4, 0.6]])
+    >>> path.tolist(), round(float(np.exp(lp[0])), 5)
+    ([0, 0, 1], 0.01512)
+    """
+    with _single_thread_blas():
+        return _viterbi(log_emission, lengths, startprob, transmat, batch_size)
+
+
+def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
+    le = _check_log_emission(log_emission)
+    T, K = le.shape
+    lens = _check_lengths(lengths, T)
+    pi, A = _check_params(startprob, transmat, K)
+    rows_per_batch = _resolve_batch_size(batch_size, K)
+    log_pi, log_A = _log(pi), _log(A)
+    log_A_3 = log_A[:, :, None]
+
+    path_out = np.empty(T, dtype=np.intp)
+    log_prob = np.empty(lens.size)
+    cap = _buffer_rows(lens, rows_per_batch)
+    # delta is stored transposed, (K, packed rows): in a step's (K, K, n)
+    # scores the sequences are the innermost axis, so numpy's inner loops run
+    # over many sequences rather than over K states (measured about twice as
+    # fast for 16 states).
+    delta_buf = np.empty((K, cap))
+    E_buf = np.empty((cap, K))
+    # Scores of one step, (K, K, sequences), taken in chunks of at most
+    # rows_per_batch * K cells so that memory stays bounded by the batch.
+    width = int(min(lens.size, cap, max(1, rows_per_batch // K)))
+    # (flat, so that every chunk is contiguous and numpy runs one long loop)
+    scores_buf = np.empty(K * K * width)
+    half_buf = np.empty(max(1, K // 2) * K * width)
+    for batch in _batches(lens, rows_per_batch):
+        N = batch.n_rows
+        counts, off = batch.counts.tolist(), batch.offsets.tolist()
+        n_steps = len(counts)
+        B = batch.seq.size
+        E = E_buf[:N]
+        np.take(le, batch.rows, axis=0, out=E)
+        delta = delta_buf[:, :N]
+        n0 = counts[0]
+        np.add(E[:n0].T, log_pi[:, None], out=delta[:, :n0])
+        for t in range(1, n_steps):
+            o, n, op = off[t], counts[t], off[t - 1]
+            for lo in range(0, n, width):
+                m = min(width, n - lo)
+                scores = scores_buf[: K * K * m].reshape(K, K, m)
+                # scores[i, k, j] = delta[t-1](i, sequence j) + log A[i, k]
+                np.add(
+                    delta[None, :, op + lo : op + lo + m].transpose(1, 0, 2), log_A_3, out=scores
+                )
+                work = half_buf[: max(1, K // 2) * K * m].reshape(-1, K, m)
+                best = _max_over_axis0(scores, work)
+                np.add(best, E[o + lo : o + lo + m].T, out=delta[:, o + lo : o + lo + m])
+
+        final_delta = delta[:, batch.last].T
+        final_state = final_delta.argmax(axis=1)
+        final_lp = final_delta[np.arange(B), final_state]
+        dead = np.flatnonzero(final_lp == -np.inf)
+        if dead.size:
+            raise _impossible(
+                batch, int(batch.last[dead[0]]), "no path of non-zero probability ends"
+            )
+        log_prob[batch.seq] = final_lp
+
+        # Backtracking: the predecessor of state k at step t is recomputed as
+        # argmax_i (delta[t-1, i] + log A[i, k]) (same sums as the forward
+        # pass, so the same maximum; argmax takes the lowest index on ties).
+        path = np.empty(N, dtype=np.intp)
+        state = np.empty(B, dtype=np.intp)
+        for t in range(n_steps - 1, -1, -1):
+            o, n = off[t], counts[t]
+            ending = counts[t + 1] if t + 1 < n_steps else 0
+            state[ending:n] = final_state[ending:n]
+            path[o : o + n] = state[:n]
+            if t > 0:
+                op = off[t - 1]
+                cand = delta[:, op : op + n] + log_A[:, state[:n]]
+                state[:n] = cand.argmax(axis=0)
+        path_out[batch.rows] = path
+
+    return path_out, log_prob
+
+
+def _max_over_axis0(scores: np.ndarray, work: np.ndarray) -> np.ndarray:
+    """``scores.max(axis=0)`` by pairwise halving, as a view into ``work``
+    (or ``scores``).
+
+    Each halving is one elementwise maximum over long contiguous rows, which
+    numpy runs several times faster than its own reduction here (measured on
+    16 states); maxima are exact, so the result is identical.
+    """
+    width = scores.shape[0]
+    current = scores
+    while width > 1:
+        half = width // 2
+        np.maximum(current[:half], current[half : 2 * half], out=work[:half])
+        if width % 2:
+            np.maximum(work[0], current[2 * half], out=work[0])
+        current, width = work, half
+    return current[0]
+
+
+# --------------------------------------------------------------------------
+# clamping
+
+
+def constrained_log_emission(log_emission: np.ndarray, clamp: np.ndarray) -> np.ndarray:
+    """Copy of ``log_emission`` with forbidden states set to ``-inf``.
+
+    Used for partially labelled (semi-supervised) sequences: an interpreted
+    bed keeps its tract in :func:`forward_backward` (posterior 1) and in
+    :func:`viterbi`.
+
+    Parameters
+    ----------
+    log_emission
+        ``(T, K)`` log-emission array.
+    clamp
+        Either ``(T,)`` integers, ``-1`` = free, ``k`` = the row must be in
+        state ``k``; or a ``(T, K)`` boolean mask of allowed states (for a
+        tract made of several sub-states, allow all of them).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``(T, K)`` float64 copy; the input is not changed.
+
+    Raises
+    ------
+    InputError
+        Wrong shape, a state index outside ``-1 .. K-1``, or a mask row that
+        allows no state (names the row).
+    """
+    le = np.array(_check_log_emission(log_emission), dtype=np.float64, copy=True)
+    T, K = le.shape
+    cl = np.asarray(clamp)
+    if cl.dtype == np.bool_:
+        if cl.shape != (T, K):
+            raise InputError(f"clamp mask has shape {cl.shape}; expected ({T}, {K})")
+        empty = np.flatnonzero(~cl.any(axis=1))
+        if empty.size:
+            raise InputError(f"clamp mask row {int(empty[0])} allows no state")
+        le[~cl] = -np.inf
+        return le
+    if cl.shape != (T,):
+        raise InputError(f"clamp has shape {cl.shape}; expected ({T},) or a ({T}, {K}) mask")
+    if not np.issubdtype(cl.dtype, np.integer):
+        raise InputError(f"clamp must hold integer states (-1 = free), got dtype {cl.dtype}")
+    out_of_range = np.flatnonzero((cl < -1) | (cl >= K))
+    if out_of_range.size:
+        r = int(out_of_range[0])
+        raise InputError(f"clamp row {r} is state {int(cl[r])}; expected -1 (free) or 0..{K - 1}")
+    rows = np.flatnonzero(cl >= 0)
+    kept = le[rows, cl[rows]]
+    le[rows] = -np.inf
+    le[rows, cl[rows]] = kept
+    return le

@@ -1,0 +1,897 @@
+"""The systems-tract hidden Markov model: :class:`TractHMM`.
+
+Hidden states are the systems tracts of a tract model (each optionally a
+left-to-right chain of sub-states, :mod:`faciesseq.hmm.states`); observations
+are the beds (or depth-grid cells) of described cores, base to top; the
+emission of a bed is the product of the selected pieces of
+:mod:`faciesseq.hmm.emissions`. Fitting is EM (Baum et al. 1970; Dempster,
+Laird & Rubin 1977) for the *maximum a posteriori* parameters under Dirichlet
+pseudo-counts (and a variance prior for Gaussian pieces): beds with an
+interpreter's tract are clamped to it, the others are free, so one algorithm
+covers supervised (all labelled), semi-supervised and unsupervised fitting.
+
+The recursions are :mod:`faciesseq.hmm.engine` (scaled forward-backward and
+Viterbi on a log-emission array), not hmmlearn's: hmmlearn has no mixed or
+previous-facies-conditioned emissions, no clamped (partially labelled)
+sequences, no per-boundary two-slice posteriors and no non-pickle model
+files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import CoreSet, Succession
+from faciesseq.errors import ConfigError, FaciesseqError, InputError
+from faciesseq.hmm import engine
+from faciesseq.hmm.baseline import trend_rule
+from faciesseq.hmm.emissions import (
+    EmissionPiece,
+    EncodedBeds,
+    UnseenCategoryWarning,
+    encode_beds,
+    make_piece,
+)
+from faciesseq.hmm.states import StateSpace
+from faciesseq.interpretation import CoreInterpretation, Interpretation
+from faciesseq.scheme import FaciesScheme, TractModel, default_tract_model
+from faciesseq.surfaces import boundary_probabilities, picks_frame, surface_codes, surface_names
+
+__all__ = [
+    "DEFAULT_FEATURES",
+    "FEATURES",
+    "ConvergenceError",
+    "ConvergenceMonitor",
+    "LabelWarning",
+    "TractHMM",
+]
+
+#: Emission features with a fixed meaning; any other name is a numeric bed attribute.
+FEATURES = ("facies", "facies_trend", "thickness", "contact")
+#: Used when ``features=None`` ("contact" only where the beds have contact types).
+DEFAULT_FEATURES = ("facies_trend", "thickness", "contact")
+
+ProgressCallback = Callable[[int, int, float], None]
+
+
+class LabelWarning(UserWarning):
+    """An interpreter's label that cannot be used as it is (the beds are left free)."""
+
+
+class ConvergenceError(FaciesseqError):
+    """EM's objective went down: a numerical problem, never expected (exit code 1)."""
+
+
+@dataclass
+class ConvergenceMonitor:
+    """Tracks EM's objective (log-likelihood + log-prior) over iterations.
+
+    Converged when an iteration improves the objective by less than ``tol``
+    (natural-log units) or after ``max_iter`` iterations. A decrease by more
+    than rounding (``1e-9`` relative) raises :class:`ConvergenceError`: EM
+    cannot decrease its objective (Dempster et al. 1977, theorem 1), so a
+    decrease is a bug, not a result.
+    """
+
+    tol: float = 1e-3
+    max_iter: int = 200
+    history: list[float] = field(default_factory=list)
+
+    def report(self, objective: float) -> None:
+        if not math.isfinite(objective):
+            raise ConvergenceError(f"EM objective is {objective} at iteration {self.iter + 1}")
+        if self.history:
+            last = self.history[-1]
+            if objective < last - 1e-9 * max(1.0, abs(last)):
+                raise ConvergenceError(
+                    f"EM objective decreased from {last:.10g} to {objective:.10g} at "
+                    f"iteration {self.iter + 1}"
+                )
+        self.history.append(float(objective))
+
+    @property
+    def iter(self) -> int:
+        return len(self.history)
+
+    @property
+    def converged(self) -> bool:
+        if self.iter >= self.max_iter:
+            return True
+        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
+
+    @property
+    def reached_tolerance(self) -> bool:
+        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
+
+
+@dataclass
+class _Data:
+    """What fitting needs, coded once."""
+
+    beds: EncodedBeds
+    clamp: np.ndarray | None  # (T, n_tracts) bool, or None
+    ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
+    rule: np.ndarray  # (T,) trend-rule tract index
+    cores: tuple[str, ...] = ()  # core of each succession
+
+
+def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
+    """The engine's error about "sequence N" of a batch, naming the core instead."""
+    import re
+
+    found = re.search(r"sequence (\d+)", exc.message)
+    core = None
+    if found and cores:
+        k = first + int(found.group(1))
+        core = cores[k] if k < len(cores) else None
+    return InputError(
+        "the beds have probability zero under the tract model (" + exc.message + ")", core=core
+    )
+
+
+def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
+    if isinstance(data, CoreSet):
+        return data.successions(unit, step)
+    if isinstance(data, Succession):
+        return [data]
+    out = list(data)
+    if not all(isinstance(s, Succession) for s in out):
+        raise ConfigError("expected a CoreSet or a list of Succession objects")
+    return out
+
+
+def _text(values: pd.Series) -> list[str | None]:
+    """Values as stripped text, ``None`` where blank or missing."""
+    text = values.astype("string").str.strip()
+    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
+    return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
+
+
+def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
+    out: set[str] = set()
+    for t in tables:
+        if column in t.columns:
+            text = t[column].dropna().astype("string").str.strip()
+            out.update(v for v in text.unique().tolist() if v and v.lower() != "nan")
+    return out
+
+
+class TractHMM:
+    """Hidden Markov model whose hidden states are systems tracts.
+
+    Parameters
+    ----------
+    tract_model
+        Tracts, their cyclic order, skips and surfaces; default
+        :func:`faciesseq.scheme.default_tract_model`.
+    scheme
+        Facies scheme: gives the facies list and the proximality ranks the
+        trend priors are built from. Without one, facies are those of the
+        training beds and the trend prior is flat (tract identity is then
+        anchored only by the starting rule and the tract graph; a warning says so).
+    features
+        Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
+        (facies given the bed below: the stacking trend), ``"thickness"`` (log
+        thickness, Gaussian), ``"contact"`` and any numeric bed attribute
+        (Gaussian). ``None``: ``facies_trend``, ``thickness`` (not on a depth
+        grid) and, where the beds have them, ``contact``.
+    substates
+        Sub-states per tract (left-to-right chain); an int for every tract, a
+        mapping tract -> int, or ``None`` for the tract model's own.
+    prior_strength
+        Scale of the Dirichlet pseudo-counts (trend cells favoured by a
+        tract's trend get this many pseudo-beds; every other cell a tenth of
+        it). 0 turns every prior off, ``cycle_prior`` included (maximum
+        likelihood).
+    cycle_prior
+        Weight of transition pseudo-counts taken from the trend rule's tract
+        column (a fraction of its counts; needs a scheme): keeps EM from
+        turning tracts into absorbing "kinds of core" instead of phases of a
+        cycle. 0 turns it off.
+    n_restarts
+        EM runs from perturbed starts; the best final objective wins.
+    tol, max_iter
+        Convergence monitor (see :class:`ConvergenceMonitor`).
+    unit, step
+        How cores become successions (``"beds"`` or ``"grid"`` with ``step``
+        in depth units) when a :class:`~faciesseq.core.CoreSet` is given; with
+        ``"beds"`` successive beds never share a facies, so the trend table has
+        a structural zero diagonal.
+    batch_size
+        Beds per E-step batch (memory is bounded by the batch, not the database).
+    n_jobs
+        Restarts run in parallel processes when > 1.
+    random_state
+        Seed (int) or ``numpy.random.Generator`` for the restarts.
+
+    Attributes
+    ----------
+    states_ : StateSpace
+    facies_, contacts_ : tuple of str
+    startprob_ : ndarray (K,)
+    transmat_ : ndarray (K, K)
+    emissions_ : list of EmissionPiece
+    monitor_ : ConvergenceMonitor of the best restart
+    restarts_ : list of dict, one per restart (seed, objective, n_iter, converged, history)
+    log_likelihood_ : float, training log-likelihood of the best restart
+    n_train_beds_ : int
+
+    References
+    ----------
+    L. E. Baum, T. Petrie, G. Soules, N. Weiss (1970), Ann. Math. Statist.
+    41(1):164-171. A. P. Dempster, N. M. Laird, D. B. Rubin (1977), J. R.
+    Statist. Soc. B 39(1):1-38. L. R. Rabiner (1989), Proc. IEEE 77(2):257-286.
+    """
+
+    def __init__(
+        self,
+        tract_model: TractModel | None = None,
+        scheme: FaciesScheme | None = None,
+        features: Sequence[str] | None = None,
+        substates: int | Mapping[str, int] | None = None,
+        prior_strength: float = 2.0,
+        cycle_prior: float = 0.2,
+        n_restarts: int = 3,
+        tol: float = 1e-3,
+        max_iter: int = 200,
+        unit: str = "beds",
+        step: float | None = None,
+        batch_size: int = 200_000,
+        n_jobs: int = 1,
+        random_state: int | np.random.Generator | None = None,
+    ) -> None:
+        self.tract_model = tract_model
+        self.scheme = scheme
+        self.features = features
+        self.substates = substates
+        self.prior_strength = prior_strength
+        self.cycle_prior = cycle_prior
+        self.n_restarts = n_restarts
+        self.tol = tol
+        self.max_iter = max_iter
+        self.unit = unit
+        self.step = step
+        self.batch_size = batch_size
+        self.n_jobs = n_jobs
+        self.random_state = random_state
+
+    # ------------------------------------------------------------------ setup
+    @property
+    def tract_model_(self) -> TractModel:
+        return self.tract_model if self.tract_model is not None else default_tract_model()
+
+    def _check_hyper(self) -> None:
+        if self.unit not in ("beds", "grid"):
+            raise ConfigError(f"unit must be 'beds' or 'grid', got {self.unit!r}")
+        if not self.prior_strength >= 0:
+            raise ConfigError(f"prior_strength must be >= 0, got {self.prior_strength!r}")
+        if not self.cycle_prior >= 0:
+            raise ConfigError(f"cycle_prior must be >= 0, got {self.cycle_prior!r}")
+        if int(self.n_restarts) < 1:
+            raise ConfigError(f"n_restarts must be >= 1, got {self.n_restarts!r}")
+        if int(self.max_iter) < 1:
+            raise ConfigError(f"max_iter must be >= 1, got {self.max_iter!r}")
+
+    def _resolve_features(self, tables: Sequence[pd.DataFrame]) -> tuple[str, ...]:
+        columns = set().union(*(t.columns for t in tables)) if tables else set()
+        if self.features is None:
+            feats = [f for f in DEFAULT_FEATURES if f != "contact" or "contact" in columns]
+            if self.unit == "grid":  # every cell has the grid step as its thickness
+                feats.remove("thickness")
+        else:
+            feats = [str(f) for f in self.features]
+        if not feats:
+            raise ConfigError("at least one emission feature is needed")
+        if len(set(feats)) != len(feats):
+            raise ConfigError(f"features listed twice: {feats}")
+        if "facies" in feats and "facies_trend" in feats:
+            raise ConfigError("use 'facies' or 'facies_trend', not both (the trend includes it)")
+        if not ({"facies", "facies_trend"} & set(feats)):
+            raise ConfigError("the features must include 'facies' or 'facies_trend'")
+        for f in feats:
+            if f not in ("facies", "facies_trend") and f not in columns:
+                raise ConfigError(
+                    f"feature {f!r} needs a bed column {f!r}, which the data lacks "
+                    f"(columns: {sorted(map(str, columns))})"
+                )
+        return tuple(feats)
+
+    def _vocabularies(self, tables: Sequence[pd.DataFrame]) -> None:
+        seen = sorted(_distinct(tables, "facies"), key=lambda c: (len(c), c))
+        if self.scheme is not None:
+            facies = list(self.scheme.codes)
+            facies += [c for c in seen if c not in facies]
+            ranks = [self.scheme.rank(c) if c in self.scheme else np.nan for c in facies]
+            self.ranks_ = np.asarray(ranks, dtype=float)
+        else:
+            facies = seen
+            self.ranks_ = None
+            if "facies_trend" in self.features_:
+                warnings.warn(
+                    "no facies scheme: the trend prior is flat, so which state is which tract "
+                    "rests on the starting rule and the tract graph only",
+                    UserWarning,
+                    stacklevel=3,
+                )
+        self.facies_ = tuple(facies)
+        contacts = sorted(_distinct(tables, "contact"))
+        self.contacts_ = tuple(contacts)
+        if "contact" in self.features_ and not contacts:
+            raise ConfigError("feature 'contact' needs contact types in the beds; none found")
+
+    def _encode(self, tables: Sequence[pd.DataFrame]) -> EncodedBeds:
+        numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
+        return encode_beds(tables, self.facies_, self.contacts_, numeric)
+
+    def _new_pieces(self, beds: EncodedBeds) -> list[EmissionPiece]:
+        tm = self.tract_model_
+        trends = [tm.tract(t).trend for t in tm.order]
+        pieces = []
+        for f in self.features_:
+            scale = (0.0, 1.0)
+            if f in beds.numeric:
+                x = beds.numeric[f]
+                x = x[np.isfinite(x)]
+                if len(x):
+                    scale = (float(x.mean()), float(x.var()) if len(x) > 1 else 1.0)
+            pieces.append(
+                make_piece(
+                    f,
+                    facies=self.facies_,
+                    contacts=self.contacts_,
+                    n_tracts=len(tm.order),
+                    ranks=self.ranks_,
+                    trends=trends,
+                    prior_strength=float(self.prior_strength),
+                    embedded=self.unit == "beds",
+                    numeric_scale=scale,
+                )
+            )
+        return pieces
+
+    def _labels(
+        self, successions: Sequence[Succession], labels: Any
+    ) -> tuple[np.ndarray | None, int]:
+        """Clamp mask ``(T, n_tracts)`` from a label column or per-succession arrays."""
+        if labels is None:
+            return None, 0
+        tm = self.tract_model_
+        tracts = list(tm.order)
+        allowed = np.asarray(tm.allowed(), dtype=bool)
+        rows = []
+        n_labelled = 0
+        for k, s in enumerate(successions):
+            if isinstance(labels, str):
+                if labels not in s.beds.columns:
+                    raise ConfigError(
+                        f"label column {labels!r} not found "
+                        f"(columns: {sorted(map(str, s.beds.columns))})",
+                        core=s.core,
+                    )
+                values = _text(s.beds[labels])
+            else:
+                values = [None if v is None else str(v) for v in labels[k]]
+                if len(values) != len(s):
+                    raise InputError(
+                        f"{len(values)} labels for {len(s)} beds", core=s.core
+                    ) from None
+            mask = np.ones((len(s), len(tracts)), dtype=bool)
+            prev = None
+            for i, v in enumerate(values):
+                if v is None:
+                    prev = None
+                    continue
+                if v not in tracts:
+                    raise InputError(
+                        f"tract label {v!r} is not a tract of the tract model {tracts}",
+                        core=s.core,
+                        depth=float(s.beds["top"].iloc[i]) if "top" in s.beds else None,
+                        units=s.units,
+                    )
+                a = tracts.index(v)
+                if prev is not None and not allowed[prev, a]:
+                    # Tolerant, never silent: an interpreter's column may skip a
+                    # tract too thin to log; free both beds and say so.
+                    where = f"core {s.core}"
+                    if "base" in s.beds:
+                        where += f", depth {float(s.beds['base'].iloc[i]):.2f} {s.units}"
+                    warnings.warn(
+                        LabelWarning(
+                            f"{where}: labelled boundary {tracts[prev]} -> {v} (upward) is not "
+                            "allowed by the tract model's order and skips; the two beds are "
+                            "left unlabelled (add a skip in the tract model to allow it)"
+                        ),
+                        stacklevel=3,
+                    )
+                    if not mask[i - 1].all():
+                        n_labelled -= 1
+                    mask[i - 1] = True
+                    prev = None
+                    continue
+                mask[i] = False
+                mask[i, a] = True
+                prev = a
+                n_labelled += 1
+            rows.append(mask)
+        clamp = np.concatenate(rows) if rows else np.ones((0, len(tracts)), dtype=bool)
+        return clamp, n_labelled
+
+    # --------------------------------------------------------------- E and M
+    def _log_emission(self, pieces: Sequence[EmissionPiece], beds: EncodedBeds) -> np.ndarray:
+        tract_lp = np.zeros((len(beds), self.states_.n_tracts))
+        for p in pieces:
+            tract_lp += p.log_prob(beds)
+        return tract_lp[:, self.states_.state_tract]
+
+    def _batches(self, lengths: np.ndarray):
+        """``(start, stop, lengths)`` of batches of whole successions."""
+        limit = max(1, int(self.batch_size))
+        ends = np.cumsum(lengths)
+        i, start = 0, 0
+        while i < len(lengths):
+            j = i
+            while j + 1 < len(lengths) and ends[j + 1] - start <= limit:
+                j += 1
+            stop = int(ends[j])
+            yield start, stop, lengths[i : j + 1], i
+            start, i = stop, j + 1
+
+    def _e_step(self, pieces, startprob, transmat, data: _Data):
+        K = self.states_.n_states
+        S = self.states_.n_tracts
+        stats = [p.empty_stats(S) for p in pieces]
+        trans = np.zeros((K, K))
+        start = np.zeros(K)
+        total = 0.0
+        for a, b, lengths, first in self._batches(data.beds.lengths):
+            part = data.beds.slice(a, b, lengths)
+            le = self._log_emission(pieces, part)
+            if data.clamp is not None:
+                le = engine.constrained_log_emission(
+                    le, data.clamp[a:b][:, self.states_.state_tract]
+                )
+            try:
+                post = engine.forward_backward(le, lengths, startprob, transmat)
+            except InputError as exc:
+                raise _located(exc, data.cores, first) from None
+            weights = self.states_.to_tracts(post.gamma)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
+            trans += post.xi_sum
+            start += post.start
+            total += post.total_log_likelihood
+        return total, stats, trans, start
+
+    def _pseudo(self) -> tuple[np.ndarray, np.ndarray]:
+        base = 0.1 * float(self.prior_strength)
+        allowed = self.states_.allowed
+        trans = np.where(allowed, base, 0.0)
+        cycle = getattr(self, "_cycle_pseudo", None)
+        if cycle is not None:
+            trans = trans + cycle
+        return np.full(self.states_.n_states, base), trans
+
+    def _cycle_counts(
+        self, rule: np.ndarray, lengths: np.ndarray, free: np.ndarray | None = None
+    ) -> np.ndarray:
+        """Transition pseudo-counts from the trend rule's tract column, on the states.
+
+        ``cycle_prior`` times the rule's tract-to-tract counts between
+        unlabelled beds (``free``; labelled beds speak for themselves): a tract's stays
+        are shared between each sub-state's self-transition and its step along
+        the chain, its exits go from every sub-state to the next tract's first
+        sub-state; cells the tract graph forbids get nothing.
+        """
+        S = self.states_.n_tracts
+        counts = np.zeros((S, S))
+        start = 0
+        for n in lengths:
+            r = rule[start : start + n]
+            keep = (
+                np.ones(max(n - 1, 0), dtype=bool)
+                if free is None
+                else free[start : start + n - 1] & free[start + 1 : start + n]
+            )
+            np.add.at(counts, (r[:-1][keep], r[1:][keep]), 1.0)
+            start += n
+        K = self.states_.n_states
+        out = np.zeros((K, K))
+        first = self.states_.first
+        for a in range(S):
+            members = np.nonzero(self.states_.state_tract == a)[0]
+            m = len(members)
+            for k, i in enumerate(members):
+                if k + 1 < m:
+                    out[i, i] += counts[a, a] / (2 * m)
+                    out[i, members[k + 1]] += counts[a, a] / (2 * m)
+                else:
+                    out[i, i] += counts[a, a] / m
+                for b in range(S):
+                    if b != a:
+                        out[i, first[b]] += counts[a, b] / m
+        return float(self.cycle_prior) * np.where(self.states_.allowed, out, 0.0)
+
+    def _m_step(self, pieces, stats, trans, start):
+        start_pseudo, trans_pseudo = self._pseudo()
+        allowed = self.states_.allowed
+        for p, st in zip(pieces, stats):
+            p.m_step(st)
+        total = np.where(allowed, trans + trans_pseudo, 0.0)
+        rows = total.sum(axis=1, keepdims=True)
+        uniform = allowed / allowed.sum(axis=1, keepdims=True)
+        transmat = np.where(rows > 0, total / np.where(rows > 0, rows, 1), uniform)
+        s = start + start_pseudo
+        startprob = s / s.sum() if s.sum() > 0 else np.full(len(s), 1 / len(s))
+        return startprob, transmat
+
+    def _log_prior(self, pieces, startprob, transmat) -> float:
+        start_pseudo, trans_pseudo = self._pseudo()
+        out = sum(p.log_prior() for p in pieces)
+        m = start_pseudo > 0
+        out += float(np.sum(start_pseudo[m] * np.log(startprob[m])))
+        m = trans_pseudo > 0
+        out += float(np.sum(trans_pseudo[m] * np.log(transmat[m])))
+        return float(out)
+
+    def _initial(self, data: _Data, rng: np.random.Generator, restart: int):
+        """Parameters from rule-based starting weights, perturbed per restart."""
+        S = self.states_.n_tracts
+        pieces = self._new_pieces(data.beds)
+        stats = [p.empty_stats(S) for p in pieces]
+        for a, b, lengths, _ in self._batches(data.beds.lengths):
+            T = b - a
+            weights = np.full((T, S), 1.0 / S)
+            if self.ranks_ is not None:
+                weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
+            if restart > 0:
+                noise = rng.dirichlet(np.ones(S), size=T)
+                weights = 0.5 * weights + 0.5 * noise
+            if data.clamp is not None:
+                clamp = data.clamp[a:b]
+                labelled = ~clamp.all(axis=1)
+                weights[labelled] = clamp[labelled].astype(float)
+            part = data.beds.slice(a, b, lengths)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
+        K = self.states_.n_states
+        allowed = self.states_.allowed
+        stay = np.where(np.eye(K, dtype=bool), 8.0, 1.0)
+        if restart > 0:
+            stay = stay * rng.uniform(0.5, 1.5, size=(K, K))
+        trans = np.where(allowed, stay, 0.0)
+        startprob, transmat = self._m_step(pieces, stats, trans, np.ones(K))
+        return pieces, startprob, transmat
+
+    def _run(self, data: _Data, seed: int, restart: int, progress: ProgressCallback | None):
+        rng = np.random.default_rng(seed)
+        pieces, startprob, transmat = self._initial(data, rng, restart)
+        monitor = ConvergenceMonitor(float(self.tol), int(self.max_iter))
+        while True:
+            ll, stats, trans, start = self._e_step(pieces, startprob, transmat, data)
+            objective = ll + self._log_prior(pieces, startprob, transmat)
+            monitor.report(objective)
+            if progress is not None:
+                progress(restart, monitor.iter, objective)
+            if monitor.converged:
+                break
+            startprob, transmat = self._m_step(pieces, stats, trans, start)
+        return {
+            "pieces": pieces,
+            "startprob": startprob,
+            "transmat": transmat,
+            "log_likelihood": ll,
+            "objective": objective,
+            "monitor": monitor,
+            "seed": int(seed),
+        }
+
+    # ------------------------------------------------------------------ API
+    def fit(
+        self,
+        successions: CoreSet | Sequence[Succession],
+        labels: str | Sequence[Sequence[str | None]] | None = None,
+        progress: ProgressCallback | None = None,
+    ) -> TractHMM:
+        """Fit by EM; labelled beds are clamped to their tract.
+
+        Parameters
+        ----------
+        successions
+            A core set (cut into successions by ``unit``/``step``) or
+            successions, each base to top.
+        labels
+            ``None`` (unsupervised), the name of a bed column holding tract
+            codes (empty = unlabelled), or one sequence of codes / ``None`` per
+            succession. All beds labelled = supervised; some = semi-supervised.
+        progress
+            Called as ``progress(restart, iteration, objective)`` after every
+            EM iteration (in parallel runs, once per finished restart).
+
+        Returns
+        -------
+        self
+        """
+        self._check_hyper()
+        succ = [s for s in _as_successions(successions, self.unit, self.step) if len(s)]
+        if not succ:
+            raise InputError("no beds to fit the tract model on")
+        tables = [s.beds for s in succ]
+        self.states_ = StateSpace.build(self.tract_model_, self.substates)
+        self.features_ = self._resolve_features(tables)
+        self._vocabularies(tables)
+        beds = self._encode(tables)
+        clamp, n_labelled = self._labels(succ, labels)
+        ranks = (
+            np.full(len(beds), np.nan)
+            if self.ranks_ is None
+            else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
+        )
+        rule = trend_rule(ranks, beds.lengths, self.tract_model_)
+        free = None if clamp is None else clamp.all(axis=1)
+        self._cycle_pseudo = (
+            self._cycle_counts(rule, beds.lengths, free)
+            if self.cycle_prior and self.prior_strength and self.ranks_ is not None
+            else None
+        )
+        data = _Data(beds, clamp, ranks, rule, tuple(s.core for s in succ))
+        rng = (
+            self.random_state
+            if isinstance(self.random_state, np.random.Generator)
+            else np.random.default_rng(self.random_state)
+        )
+        seeds = [int(x) for x in rng.integers(0, 2**31 - 1, size=int(self.n_restarts))]
+        if int(self.n_jobs) > 1 and len(seeds) > 1:
+            from concurrent.futures import ProcessPoolExecutor
+
+            with ProcessPoolExecutor(max_workers=min(int(self.n_jobs), len(seeds))) as pool:
+                futures = [pool.submit(self._run, data, s, r, None) for r, s in enumerate(seeds)]
+                runs = []
+                for r, f in enumerate(futures):
+                    runs.append(f.result())
+                    if progress is not None:
+                        progress(r, runs[-1]["monitor"].iter, runs[-1]["objective"])
+        else:
+            runs = [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
+        best = max(range(len(runs)), key=lambda r: runs[r]["objective"])
+        run = runs[best]
+        self.emissions_ = run["pieces"]
+        self.startprob_ = run["startprob"]
+        self.transmat_ = run["transmat"]
+        self.monitor_ = run["monitor"]
+        self.log_likelihood_ = float(run["log_likelihood"])
+        self.objective_ = float(run["objective"])
+        self.best_restart_ = best
+        self.restarts_ = [
+            {
+                "restart": r,
+                "seed": x["seed"],
+                "objective": float(x["objective"]),
+                "log_likelihood": float(x["log_likelihood"]),
+                "n_iter": x["monitor"].iter,
+                "converged": x["monitor"].reached_tolerance,
+                "history": list(x["monitor"].history),
+            }
+            for r, x in enumerate(runs)
+        ]
+        self.n_train_beds_ = len(beds)
+        self.n_labelled_ = n_labelled
+        self.cores_ = tuple(dict.fromkeys(s.core for s in succ))
+        # The parameters of the last E-step are the returned ones, so the
+        # recorded log-likelihood belongs to them.
+        return self
+
+    def _check_fitted(self) -> None:
+        if not hasattr(self, "transmat_"):
+            raise ConfigError("the tract model is not fitted yet; call fit() or load a model file")
+
+    def n_parameters(self) -> int:
+        """Free parameters: emissions, transitions (allowed cells minus one per row), start."""
+        self._check_fitted()
+        allowed = self.states_.allowed.sum(axis=1)
+        trans = int(np.sum(np.maximum(allowed - 1, 0)))
+        return sum(p.n_parameters() for p in self.emissions_) + trans + self.states_.n_states - 1
+
+    def _prepare(self, successions) -> tuple[list[Succession], EncodedBeds]:
+        self._check_fitted()
+        succ = [s for s in _as_successions(successions, self.unit, self.step) if len(s)]
+        if not succ:
+            raise InputError("no beds to decode")
+        beds = self._encode([s.beds for s in succ])
+        return succ, beds
+
+    def score_samples(self, successions) -> np.ndarray:
+        """Log-likelihood of each succession (natural log)."""
+        succ, beds = self._prepare(successions)
+        out = np.empty(len(succ))
+        for a, b, lengths, first in self._batches(beds.lengths):
+            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
+            post = engine.forward_backward(le, lengths, self.startprob_, self.transmat_)
+            out[first : first + len(lengths)] = post.log_likelihood
+        return out
+
+    def score(self, successions) -> float:
+        """Total log-likelihood of the successions under the model."""
+        return float(np.sum(self.score_samples(successions)))
+
+    def bic(self, successions) -> float:
+        """Bayesian information criterion ``-2 log L + p log n`` (Schwarz 1978), n = beds."""
+        succ, beds = self._prepare(successions)
+        return -2.0 * self.score(succ) + self.n_parameters() * math.log(len(beds))
+
+    def _warn_unseen(self, succ: Sequence[Succession], beds: EncodedBeds) -> None:
+        start = 0
+        for s in succ:
+            n = len(s)
+            for what, codes in (("facies", beds.facies), ("contact type", beds.contact)):
+                if what == "contact type" and "contact" not in self.features_:
+                    continue
+                if what == "facies" and not ({"facies", "facies_trend"} & set(self.features_)):
+                    continue
+                bad = np.nonzero(codes[start : start + n] == -2)[0]
+                if len(bad):
+                    col = "facies" if what == "facies" else "contact"
+                    values = sorted({str(v) for v in s.beds[col].iloc[bad]})
+                    warnings.warn(
+                        UnseenCategoryWarning(
+                            f"core {s.core}, depth {float(s.beds['top'].iloc[bad[0]]):.2f} "
+                            f"{s.units}: {what} {values} not seen in training "
+                            f"({len(bad)} bed(s)); decoded with a smoothed probability"
+                        ),
+                        stacklevel=3,
+                    )
+            start += n
+
+    def decode(
+        self,
+        successions: CoreSet | Sequence[Succession],
+        threshold: float = 0.5,
+        mass: float = 0.9,
+        labels: str | Sequence[Sequence[str | None]] | None = None,
+    ) -> Interpretation:
+        """Tract column, posteriors, surface probabilities and picks of every core.
+
+        Any interpreter's ``tract`` column is ignored (it is kept in the bed
+        tables as ``interpreted_tract``) unless named by ``labels``: then its
+        labelled beds are clamped (they keep their tract, posterior 1) and the
+        rest is decoded around them. ``threshold`` and
+        ``mass`` are the surface-pick options of
+        :func:`faciesseq.surfaces.pick_surfaces`.
+
+        Returns
+        -------
+        Interpretation, tables in depth order (shallowest first).
+        """
+        succ, beds = self._prepare(successions)
+        self._warn_unseen(succ, beds)
+        clamp, _ = self._labels(succ, labels)
+        tm = self.tract_model_
+        codes = surface_codes(tm)
+        names = surface_names(tm)
+        tracts = self.states_.tracts
+        per_core: dict[str, list] = {}
+        for a, b, lengths, first in self._batches(beds.lengths):
+            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
+            if clamp is not None:
+                le = engine.constrained_log_emission(le, clamp[a:b][:, self.states_.state_tract])
+            post = engine.forward_backward(
+                le, lengths, self.startprob_, self.transmat_, return_xi=True
+            )
+            path, _ = engine.viterbi(le, lengths, self.startprob_, self.transmat_)
+            gamma = self.states_.to_tracts(post.gamma)
+            vit = self.states_.state_tract[path]
+            surf = boundary_probabilities(post.xi, tm, self.states_.state_tract)
+            row, bnd = 0, 0
+            for k, n in enumerate(lengths):
+                s = succ[first + k]
+                per_core.setdefault(s.core, []).append(
+                    (
+                        s,
+                        gamma[row : row + n],
+                        vit[row : row + n],
+                        surf[bnd : bnd + n - 1],
+                        float(post.log_likelihood[k]),
+                    )
+                )
+                row += n
+                bnd += n - 1
+        cores = {}
+        for core, parts in per_core.items():
+            cores[core] = self._core_interpretation(core, parts, codes, names, threshold, mass)
+        return Interpretation(
+            cores,
+            tracts,
+            codes,
+            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)},
+        )
+
+    def _core_interpretation(self, core, parts, codes, names, threshold, mass):
+        tracts = self.states_.tracts
+        bed_frames, bnd_frames, pick_frames = [], [], []
+        loglik = 0.0
+        units = parts[0][0].units
+        # depth order: shallowest segment first, top of each succession first
+        for s, gamma, vit, surf, ll in sorted(parts, key=lambda p: p[0].segment):
+            loglik += ll
+            beds = s.beds.copy()
+            beds["segment"] = s.segment
+            if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+                beds = beds.rename(columns={"tract": "interpreted_tract"})
+            beds["tract"] = [tracts[i] for i in vit]
+            for j, t in enumerate(tracts):
+                beds[f"p_{t}"] = gamma[:, j]
+            bed_frames.append(beds.iloc[::-1])
+            depth = s.beds["top"].to_numpy(float)[:-1]  # contact t: top of the lower bed
+            bnd = pd.DataFrame(
+                {
+                    "segment": s.segment,
+                    "depth": depth,
+                    "lower_tract": [tracts[i] for i in vit[:-1]],
+                    "upper_tract": [tracts[i] for i in vit[1:]],
+                }
+            )
+            for c, code in enumerate(codes):
+                bnd[f"p_{code}"] = surf[:, c]
+            bnd = bnd.iloc[::-1].reset_index(drop=True)
+            bnd_frames.append(bnd)
+            probs = bnd[[f"p_{c}" for c in codes]].to_numpy(float)
+            pick_frames.append(
+                picks_frame(
+                    bnd["depth"].to_numpy(float), probs, codes, names, s.segment, threshold, mass
+                )
+            )
+        beds = pd.concat(bed_frames, ignore_index=True)
+        first = ["segment", "top", "base", "thickness", "facies"]
+        p_cols = [f"p_{t}" for t in tracts]
+        other = [c for c in beds.columns if c not in (*first, "tract", *p_cols)]
+        beds = beds[[c for c in first if c in beds.columns] + other + ["tract", *p_cols]]
+        picks = pd.concat(pick_frames, ignore_index=True).sort_values(
+            ["depth", "surface"], kind="stable"
+        )
+        return CoreInterpretation(
+            core,
+            units,
+            tuple(tracts),
+            tuple(codes),
+            beds,
+            pd.concat(bnd_frames, ignore_index=True),
+            picks.reset_index(drop=True),
+            loglik,
+        )
+
+    # ------------------------------------------------------ parameter access
+    def emission(self, name: str) -> EmissionPiece:
+        """The fitted emission piece called ``name``."""
+        self._check_fitted()
+        for p in self.emissions_:
+            if p.name == name:
+                return p
+        raise KeyError(name)
+
+    def get_params(self, deep: bool = True) -> dict[str, Any]:
+        """Hyper-parameters (scikit-learn convention)."""
+        import inspect
+
+        keys = [k for k in inspect.signature(type(self).__init__).parameters if k != "self"]
+        return {k: getattr(self, k) for k in keys}
+
+    def set_params(self, **params: Any) -> TractHMM:
+        valid = self.get_params()
+        for k, v in params.items():
+            if k not in valid:
+                raise ConfigError(f"unknown hyper-parameter {k!r}")
+            setattr(self, k, v)
+        return self
+
+    def __repr__(self) -> str:
+        return (
+            f"TractHMM(features={self.features!r}, substates={self.substates!r}, "
+            f"prior_strength={self.prior_strength!r}, n_restarts={self.n_restarts!r}, "
+            f"random_state={self.random_state!r})"
+        )

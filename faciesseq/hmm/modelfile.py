@@ -1,0 +1,333 @@
+"""Model files: a fitted :class:`~faciesseq.hmm.model.TractHMM` as versioned JSON.
+
+Never pickle: a model file is plain JSON a reviewer can read, diff and keep,
+and loading one runs no code. Layout (``version: 1``)::
+
+    {
+      "format": "faciesseq-tract-model",
+      "version": 1,
+      "faciesseq_version": "0.1.0",
+      "created": "2026-12-01T19:30:00+00:00",
+      "scheme": {...} | null,            # the facies scheme (scheme YAML as JSON)
+      "tract_model": {...},              # tracts, order, skips, surfaces, substates
+      "hyperparameters": {features, substates, prior_strength, cycle_prior,
+                          n_restarts, tol, max_iter, unit, step},
+      "states": {"labels": [...], "tract": [...], "substates": [...]},
+      "facies": [...], "ranks": [...] | null, "contacts": [...],
+      "parameters": {"startprob": [...], "transmat": [[...]...],
+                     "emissions": [{"kind": ..., "name": ..., ...}, ...]},
+      "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
+                   best_restart, seed, ...provenance given by the caller}
+    }
+
+:func:`load_model` checks every shape and probability, that transitions
+outside the tract graph are zero, and rejects anything else with a
+:class:`~faciesseq.errors.ModelFileError` naming the file and the entry.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import tempfile
+from collections.abc import Mapping
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from faciesseq._version import __version__
+from faciesseq.errors import ConfigError, ModelFileError
+from faciesseq.hmm.emissions import piece_from_dict
+from faciesseq.hmm.model import ConvergenceMonitor, TractHMM
+from faciesseq.hmm.states import StateSpace
+from faciesseq.scheme import FaciesScheme, TractModel
+
+__all__ = ["FORMAT", "VERSION", "coreset_digest", "file_digest", "load_model", "save_model"]
+
+FORMAT = "faciesseq-tract-model"
+VERSION = 1
+
+
+def file_digest(path: str | Path) -> str:
+    """``sha256:<hex>`` of a file's bytes."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return "sha256:" + h.hexdigest()
+
+
+def coreset_digest(coreset) -> str:
+    """``sha256:<hex>`` of a core set's intervals (CSV text of ``CoreSet.to_frame()``).
+
+    Identifies the data a model was fitted on whatever the source format.
+    """
+    text = coreset.to_frame().to_csv(index=False, float_format="%.9g")
+    return "sha256:" + hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _jsonable(value: Any) -> Any:
+    if isinstance(value, Mapping):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return _jsonable(value.tolist())
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating | float):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return value
+
+
+def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) -> dict:
+    """The JSON document of a fitted model (see the module docstring)."""
+    model._check_fitted()
+    states: StateSpace = model.states_
+    training = {
+        "log_likelihood": model.log_likelihood_,
+        "objective": model.objective_,
+        "n_beds": model.n_train_beds_,
+        "n_labelled": model.n_labelled_,
+        "cores": list(model.cores_),
+        "best_restart": model.best_restart_,
+        "restarts": model.restarts_,
+        "random_state": model.random_state
+        if isinstance(model.random_state, int | None)
+        else "generator",
+    }
+    training.update(dict(provenance or {}))
+    return _jsonable(
+        {
+            "format": FORMAT,
+            "version": VERSION,
+            "faciesseq_version": __version__,
+            "created": datetime.now(UTC).isoformat(timespec="seconds"),
+            "scheme": None if model.scheme is None else model.scheme.to_dict(),
+            "tract_model": model.tract_model_.to_dict(),
+            "hyperparameters": {
+                "features": list(model.features_),
+                "substates": list(states.substates),
+                "prior_strength": model.prior_strength,
+                "cycle_prior": model.cycle_prior,
+                "n_restarts": model.n_restarts,
+                "tol": model.tol,
+                "max_iter": model.max_iter,
+                "unit": model.unit,
+                "step": model.step,
+            },
+            "states": {
+                "labels": states.labels(),
+                "tract": [states.tracts[i] for i in states.state_tract],
+                "substates": list(states.substates),
+            },
+            "facies": list(model.facies_),
+            "ranks": None if model.ranks_ is None else model.ranks_.tolist(),
+            "contacts": list(model.contacts_),
+            "parameters": {
+                "startprob": model.startprob_.tolist(),
+                "transmat": model.transmat_.tolist(),
+                "emissions": [p.to_dict() for p in model.emissions_],
+            },
+            "training": training,
+        }
+    )
+
+
+def save_model(
+    model: TractHMM, path: str | Path, provenance: Mapping[str, Any] | None = None
+) -> Path:
+    """Write a fitted model to ``path`` as JSON, atomically (temporary file, then rename).
+
+    ``provenance`` (e.g. input hashes, source names, command line) is added to
+    the ``training`` section.
+    """
+    path = Path(path)
+    doc = model_to_dict(model, provenance)
+    text = json.dumps(doc, indent=1, allow_nan=False)
+    parent = path.parent if str(path.parent) else Path(".")
+    if not parent.is_dir():
+        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text + "\n")
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
+
+
+def _get(doc: Mapping, key: str, kind: type | tuple, source: str) -> Any:
+    if key not in doc:
+        raise ModelFileError(f"missing entry {key!r}", file=source)
+    value = doc[key]
+    if not isinstance(value, kind):
+        raise ModelFileError(f"entry {key!r} has the wrong type", file=source)
+    return value
+
+
+def _probabilities(name: str, value: Any, shape: tuple[int, ...], source: str) -> np.ndarray:
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ModelFileError(f"{name}: not a table of numbers", file=source) from None
+    if arr.shape != shape:
+        raise ModelFileError(f"{name}: shape {arr.shape}, expected {shape}", file=source)
+    if not np.all(np.isfinite(arr)) or np.any(arr < 0) or np.any(arr > 1):
+        raise ModelFileError(f"{name}: values must be probabilities in [0, 1]", file=source)
+    if not np.allclose(arr.sum(axis=-1), 1.0, atol=1e-6):
+        raise ModelFileError(f"{name}: rows must sum to 1", file=source)
+    return arr
+
+
+def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
+    """Rebuild and validate a model from its JSON document."""
+    if not isinstance(doc, Mapping):
+        raise ModelFileError("not a faciesseq model file (expected a JSON object)", file=source)
+    if doc.get("format") != FORMAT:
+        raise ModelFileError(
+            f"not a faciesseq model file (format {doc.get('format')!r}, expected {FORMAT!r})",
+            file=source,
+        )
+    if doc.get("version") != VERSION:
+        raise ModelFileError(
+            f"model file version {doc.get('version')!r} is not supported (this faciesseq "
+            f"reads version {VERSION}); refit the model with this version",
+            file=source,
+        )
+    try:
+        tract_model = TractModel.from_dict(_get(doc, "tract_model", dict, source), source=source)
+        raw_scheme = doc.get("scheme")
+        scheme = None if raw_scheme is None else FaciesScheme.from_dict(raw_scheme, source=source)
+    except ConfigError as exc:
+        if isinstance(exc, ModelFileError):
+            raise
+        raise ModelFileError(f"invalid tract model or scheme: {exc.message}", file=source) from None
+    hyper = _get(doc, "hyperparameters", dict, source)
+    states_doc = _get(doc, "states", dict, source)
+    params = _get(doc, "parameters", dict, source)
+    try:
+        substates = dict(zip(tract_model.order, [int(n) for n in states_doc["substates"]]))
+        states = StateSpace.build(tract_model, substates)
+        features = tuple(str(f) for f in hyper["features"])
+        model = TractHMM(
+            tract_model=tract_model,
+            scheme=scheme,
+            features=features,
+            substates=substates,
+            prior_strength=float(hyper["prior_strength"]),
+            cycle_prior=float(hyper.get("cycle_prior", 0.0)),
+            n_restarts=int(hyper["n_restarts"]),
+            tol=float(hyper["tol"]),
+            max_iter=int(hyper["max_iter"]),
+            unit=str(hyper["unit"]),
+            step=None if hyper["step"] is None else float(hyper["step"]),
+        )
+    except (KeyError, TypeError, ValueError, ConfigError) as exc:
+        raise ModelFileError(f"invalid hyper-parameters or states ({exc})", file=source) from None
+    if model.unit not in ("beds", "grid"):
+        raise ModelFileError(f"unit {model.unit!r} is not 'beds' or 'grid'", file=source)
+    if states_doc.get("labels") != states.labels():
+        raise ModelFileError(
+            f"states {states_doc.get('labels')} do not match the tract model ({states.labels()})",
+            file=source,
+        )
+    K = states.n_states
+    startprob = _probabilities("parameters.startprob", params.get("startprob"), (K,), source)
+    transmat = _probabilities("parameters.transmat", params.get("transmat"), (K, K), source)
+    outside = (~states.allowed) & (transmat > 0)
+    if outside.any():
+        i, j = np.argwhere(outside)[0]
+        labels = states.labels()
+        raise ModelFileError(
+            f"parameters.transmat: transition {labels[i]} -> {labels[j]} is outside the tract "
+            "graph but not zero",
+            file=source,
+        )
+    facies = _get(doc, "facies", list, source)
+    contacts = _get(doc, "contacts", list, source)
+    ranks = doc.get("ranks")
+    emissions_doc = params.get("emissions")
+    if not isinstance(emissions_doc, list) or len(emissions_doc) != len(features):
+        raise ModelFileError(
+            f"parameters.emissions must list one entry per feature {list(features)}",
+            file=source,
+        )
+    pieces = []
+    for feature, entry in zip(features, emissions_doc):
+        piece = piece_from_dict(entry, states.n_tracts, source)
+        if piece.name != feature:
+            raise ModelFileError(
+                f"emission {piece.name!r} found where feature {feature!r} was expected",
+                file=source,
+            )
+        cats = getattr(piece, "categories", None)
+        expected = contacts if feature == "contact" else facies
+        if cats is not None and list(cats) != [str(c) for c in expected]:
+            raise ModelFileError(
+                f"emission {feature!r}: categories differ from the model's list", file=source
+            )
+        pieces.append(piece)
+    training = doc.get("training") or {}
+    model.states_ = states
+    model.features_ = features
+    model.facies_ = tuple(str(c) for c in facies)
+    model.contacts_ = tuple(str(c) for c in contacts)
+    model.ranks_ = None if ranks is None else np.asarray(ranks, dtype=float)
+    if model.ranks_ is not None and model.ranks_.shape != (len(facies),):
+        raise ModelFileError("ranks: one rank per facies expected", file=source)
+    model.emissions_ = pieces
+    model.startprob_ = startprob
+    model.transmat_ = transmat
+    model.log_likelihood_ = float(training.get("log_likelihood", float("nan")) or float("nan"))
+    model.objective_ = float(training.get("objective", float("nan")) or float("nan"))
+    model.n_train_beds_ = int(training.get("n_beds", 0) or 0)
+    model.n_labelled_ = int(training.get("n_labelled", 0) or 0)
+    model.cores_ = tuple(training.get("cores", ()))
+    model.restarts_ = list(training.get("restarts", []))
+    model.best_restart_ = int(training.get("best_restart", 0) or 0)
+    history = []
+    if model.restarts_ and model.best_restart_ < len(model.restarts_):
+        history = list(model.restarts_[model.best_restart_].get("history", []))
+    model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history)
+    model.training_ = dict(training)
+    return model
+
+
+def load_model(path: str | Path) -> TractHMM:
+    """Read and validate a model file written by :func:`save_model`.
+
+    Raises
+    ------
+    ModelFileError
+        The file is missing, not JSON, not a faciesseq model, of another
+        version, or holds shapes or probabilities that do not fit.
+    """
+    source = str(path)
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ModelFileError("model file not found", file=source) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ModelFileError(f"cannot read the model file ({exc})", file=source) from None
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise ModelFileError(
+            f"not JSON (line {exc.lineno}, column {exc.colno}: {exc.msg}); model files are "
+            "written by `faciesseq fit`",
+            file=source,
+        ) from None
+    return model_from_dict(doc, source)

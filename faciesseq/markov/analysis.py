@@ -1,0 +1,485 @@
+"""One call for the whole reviewer's question: :func:`analyse` -> :class:`MarkovReport`."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import ConfigError, InputError
+from faciesseq.markov.contingency import (
+    ContingencyResult,
+    TestResult,
+    independence_test,
+    pearson_batch,
+)
+from faciesseq.markov.counts import (
+    EncodedSuccessions,
+    batch_ngram_counts,
+    encode,
+    fixed_vector,
+    labelled,
+    n_step,
+    transition_counts,
+    transition_probabilities,
+)
+from faciesseq.markov.cyclicity import CyclicityResult, cyclicity
+from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
+from faciesseq.markov.order import OrderResult, conditional_g2, order_analysis
+from faciesseq.markov.screening import screen_cores
+from faciesseq.markov.surrogates import (
+    monte_carlo_p_value,
+    restricted_permutations,
+    surrogate_statistics,
+    transition_surrogates,
+)
+
+__all__ = ["SCHEMA", "MarkovReport", "analyse"]
+
+#: Version of the JSON layout written by :meth:`MarkovReport.to_dict`.
+SCHEMA = "faciesseq.markov/1"
+
+GRID_WARNING = (
+    "depth-grid cells: successive cells of one bed count as self-transitions, so the "
+    "measured dependence grows as the sampling step shrinks; quote the step, and use beds "
+    "(the embedded chain) for the question 'ordered or random?'"
+)
+
+
+def _jsonable(x):
+    if isinstance(x, dict):
+        return {str(k): _jsonable(v) for k, v in x.items()}
+    if isinstance(x, list | tuple):
+        return [_jsonable(v) for v in x]
+    if isinstance(x, np.ndarray):
+        return _jsonable(x.tolist())
+    if isinstance(x, np.bool_ | bool):
+        return bool(x)
+    if isinstance(x, np.integer):
+        return int(x)
+    if isinstance(x, float | np.floating):
+        return None if not math.isfinite(float(x)) else float(x)
+    return x
+
+
+def _matrix(matrix: np.ndarray, codes: Sequence[str]) -> dict:
+    return {"facies": list(codes), "matrix": _jsonable(np.asarray(matrix))}
+
+
+@dataclass(frozen=True)
+class MarkovReport:
+    """Everything :func:`analyse` measured, as numbers.
+
+    Attributes
+    ----------
+    unit, step
+        ``"beds"`` (embedded chain, no self-transitions) or ``"grid"`` with its
+        ``step`` (depth units).
+    codes
+        Facies codes, the order of every matrix axis (rows: the lower facies).
+    n_cores, n_successions, n_transitions
+        What was analysed (after leaving out irregular cores).
+    counts, probabilities
+        Pooled upward transition counts and their row-normalised probabilities.
+    fixed_vector
+        Stationary vector of ``probabilities``.
+    n_step
+        ``{2: P², 3: P³}``.
+    first_order
+        Quasi-independence (beds) or independence (grid) test with expected
+        counts, difference matrix, adjusted residuals, flags and Cramér's V.
+    order
+        Order tests (k vs k+1) and AIC/BIC per order.
+    surrogate_tests
+        Monte Carlo tests (empty unless ``surrogates > 0``).
+    homogeneity
+        Test that all groups share one chain (``None`` unless ``by`` is given
+        and there are at least two groups).
+    cyclicity
+        Entropies, cycle type, preferred upward path.
+    per_core
+        ``{core: counts}`` when asked for.
+    excluded_cores, warnings
+        Cores left out of the pooled statistics, and why; other warnings.
+    """
+
+    unit: str
+    step: float | None
+    codes: tuple[str, ...]
+    n_cores: int
+    n_successions: int
+    n_transitions: int
+    counts: np.ndarray
+    probabilities: np.ndarray
+    fixed_vector: np.ndarray
+    n_step: dict[int, np.ndarray]
+    first_order: ContingencyResult
+    order: OrderResult
+    surrogate_tests: tuple[TestResult, ...]
+    homogeneity: HomogeneityResult | None
+    cyclicity: CyclicityResult
+    per_core: dict[str, np.ndarray] | None = None
+    excluded_cores: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
+    n_surrogates: int = 0
+    seed: int | None = None
+    alpha: float = 0.05
+    max_order: int = 3
+    by: str | None = None
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def embedded(self) -> bool:
+        return self.unit == "beds"
+
+    @property
+    def tests(self) -> list[TestResult]:
+        """Every test, in reading order."""
+        out = [self.first_order.pearson, self.first_order.g2]
+        out += list(self.order.tests[1:])
+        out += list(self.surrogate_tests)
+        if self.homogeneity is not None:
+            out += [self.homogeneity.pearson, self.homogeneity.g2]
+        return out
+
+    def to_dict(self) -> dict:
+        """The JSON document of ``faciesseq markov --format json`` (see docs/markov.md)."""
+        fo = self.first_order
+        codes = list(self.codes)
+        return _jsonable(
+            {
+                "schema": SCHEMA,
+                "unit": self.unit,
+                "step": self.step,
+                "codes": codes,
+                "n_cores": self.n_cores,
+                "n_successions": self.n_successions,
+                "n_transitions": self.n_transitions,
+                "counts": _matrix(self.counts, codes),
+                "probabilities": _matrix(self.probabilities, codes),
+                "expected": _matrix(fo.expected, codes),
+                "difference": _matrix(fo.difference, codes),
+                "adjusted_residuals": _matrix(fo.residuals, codes),
+                "significant": _matrix(fo.significant, codes),
+                "low_expected": _matrix(fo.low_expected, codes),
+                "fixed_vector": dict(zip(codes, self.fixed_vector)),
+                "first_order": {
+                    "model": fo.model,
+                    "dof": fo.dof,
+                    "structural_zeros": fo.n_structural_zeros,
+                    "empty_rows": [codes[i] for i in fo.empty_rows],
+                    "empty_columns": [codes[i] for i in fo.empty_columns],
+                    "low_expected_cells": fo.n_low_expected,
+                    "cramers_v": fo.cramers_v,
+                    "alpha": fo.alpha,
+                    "notes": list(fo.notes),
+                },
+                "tests": [t.to_dict() for t in self.tests],
+                "order": self.order.to_dict(),
+                "entropy": self.cyclicity.to_dict(),
+                "homogeneity": None if self.homogeneity is None else self.homogeneity.to_dict(),
+                "per_core": None
+                if self.per_core is None
+                else {k: _matrix(v, codes) for k, v in self.per_core.items()},
+                "excluded_cores": list(self.excluded_cores),
+                "warnings": list(self.warnings),
+                "n_surrogates": self.n_surrogates,
+                "seed": self.seed,
+                "max_order": self.max_order,
+            }
+        )
+
+    def to_frames(self) -> dict[str, pd.DataFrame]:
+        """Tables for CSV output: name -> DataFrame."""
+        fo = self.first_order
+        codes = list(self.codes)
+        frames = {
+            "counts": labelled(self.counts.astype(int), codes),
+            "probabilities": labelled(self.probabilities, codes),
+            "expected": labelled(fo.expected, codes),
+            "difference": labelled(fo.difference, codes),
+            "adjusted_residuals": labelled(fo.residuals, codes),
+            "tests": pd.DataFrame([t.to_dict() for t in self.tests]),
+            "order": self.order.to_frame(),
+            "entropy": pd.DataFrame(
+                {
+                    "facies": codes,
+                    "e_post": self.cyclicity.e_post,
+                    "e_pre": self.cyclicity.e_pre,
+                    "fixed_vector": self.fixed_vector,
+                }
+            ),
+        }
+        if self.homogeneity is not None:
+            frames["homogeneity_groups"] = self.homogeneity.to_frame()
+        if self.per_core is not None:
+            rows = [
+                {"core": core, "from": codes[i], "to": codes[j], "count": int(c[i, j])}
+                for core, c in self.per_core.items()
+                for i in range(len(codes))
+                for j in range(len(codes))
+                if c[i, j]
+            ]
+            frames["per_core_counts"] = pd.DataFrame(rows, columns=["core", "from", "to", "count"])
+        return frames
+
+
+def _groups(
+    successions: Sequence, enc: EncodedSuccessions, by: str
+) -> tuple[np.ndarray, list[str], int]:
+    """Group index of every transition (-1 = between groups), labels, number left out."""
+    labels: dict[str, int] = {}
+    per: list[np.ndarray] = []
+    for k, succ in enumerate(successions):
+        n = int(enc.lengths[k])
+        if n < 2:
+            continue
+        if by == "core":
+            name = str(enc.cores[k])
+            g = labels.setdefault(name, len(labels))
+            per.append(np.full(n - 1, g, dtype=np.int64))
+            continue
+        beds = getattr(succ, "beds", None)
+        if beds is None or by not in beds.columns:
+            raise ConfigError(
+                f"--by {by}: no such column in the beds (columns: "
+                f"{[] if beds is None else list(beds.columns)})"
+            )
+        values = beds[by].astype(object).where(beds[by].notna(), None).to_numpy()
+        ids = np.array(
+            [-1 if v is None else labels.setdefault(str(v), len(labels)) for v in values]
+        )
+        same = (ids[:-1] == ids[1:]) & (ids[:-1] >= 0)
+        per.append(np.where(same, ids[:-1], -1))
+    group = np.concatenate(per) if per else np.zeros(0, dtype=np.int64)
+    return group, list(labels), int((group < 0).sum())
+
+
+def _grouped_counts(enc: EncodedSuccessions, group: np.ndarray, n_groups: int) -> np.ndarray:
+    m = enc.m
+    pos = enc.position_in_succession()
+    length = np.repeat(enc.lengths, enc.lengths)
+    starts = np.nonzero(pos + 2 <= length)[0]
+    code = enc.states[starts].astype(np.int64) * m + enc.states[starts + 1]
+    keep = group >= 0
+    flat = np.bincount(group[keep] * m * m + code[keep], minlength=n_groups * m * m)
+    return flat.reshape(n_groups, m, m)
+
+
+def _permuted_within(enc: EncodedSuccessions, n: int, rng: np.random.Generator):
+    """Plain permutations of each succession (grid null of independence), in batches."""
+    owner = np.repeat(np.arange(len(enc)), enc.lengths).astype(float)
+    from faciesseq.markov.surrogates import _batches
+
+    for b in _batches(n, len(enc.states) * 3):
+        keys = rng.random((b, len(enc.states))) + owner[None, :]
+        yield enc.states[np.argsort(keys, axis=1)]
+
+
+def _surrogate_tests(
+    enc: EncodedSuccessions, embedded: bool, n: int, seed: int | None, max_order: int
+) -> list[TestResult]:
+    rng = np.random.default_rng(seed)
+    seeds = rng.integers(0, 2**63 - 1, size=2)
+    out: list[TestResult] = []
+    m = enc.m
+
+    def first_order_stat(batch: np.ndarray) -> np.ndarray:
+        return pearson_batch(batch_ngram_counts(enc, batch, 1), embedded=embedded)
+
+    observed = float(first_order_stat(enc.states[None, :])[0])
+    if embedded:
+        sims = surrogate_statistics(
+            restricted_permutations(enc, n, int(seeds[0])), first_order_stat
+        )
+        name, note = (
+            "quasi-independence (Pearson chi2)",
+            "restricted permutations (no facies above itself), Besag & Clifford parallel chain",
+        )
+    else:
+        sims = surrogate_statistics(
+            _permuted_within(enc, n, np.random.default_rng(int(seeds[0]))), first_order_stat
+        )
+        name, note = "independence (Pearson chi2)", "permutations within each succession"
+    res = independence_test(transition_counts(enc), embedded=embedded)
+    out.append(
+        TestResult(
+            name,
+            observed,
+            res.dof,
+            monte_carlo_p_value(observed, sims),
+            res.n,
+            method="monte carlo",
+            n_surrogates=n,
+            null=res.pearson.null,
+            note=note,
+        )
+    )
+    if max_order >= 2:
+
+        def order_stat(batch: np.ndarray) -> np.ndarray:
+            runs = batch_ngram_counts(enc, batch, 2)
+            g2, _, _ = conditional_g2(runs.reshape(batch.shape[0], m, m, m))
+            return g2
+
+        obs_g2 = float(order_stat(enc.states[None, :])[0])
+        sims = surrogate_statistics(transition_surrogates(enc, n, int(seeds[1])), order_stat)
+        t = next(t for t in order_analysis(enc, 2, embedded=embedded).tests if "1 vs 2" in t.name)
+        out.append(
+            TestResult(
+                "order 1 vs 2 (G2)",
+                obs_g2,
+                t.dof,
+                monte_carlo_p_value(obs_g2, sims),
+                t.n,
+                method="monte carlo",
+                n_surrogates=n,
+                null=t.null,
+                note="surrogates with the same first-order transition counts (Pethel & Hahs 2014)",
+            )
+        )
+    return out
+
+
+def analyse(
+    data: CoreSet | Sequence,
+    codes: Sequence[str] | None = None,
+    *,
+    unit: str = "beds",
+    step: float | None = None,
+    max_order: int = 3,
+    surrogates: int = 0,
+    seed: int | None = None,
+    by: str | None = None,
+    per_core: bool = False,
+    alpha: float = 0.05,
+    scheme=None,
+    min_coverage: float = 0.5,
+) -> MarkovReport:
+    """Transition statistics, first-order, order, homogeneity and cyclicity tests.
+
+    Parameters
+    ----------
+    data
+        A :class:`~faciesseq.core.CoreSet` (screened: irregularly sampled cores
+        are left out with a warning, see :mod:`faciesseq.markov.screening`), or
+        successions (:class:`~faciesseq.core.Succession` or code sequences,
+        each base to top) taken as they are.
+    codes
+        Facies order of the matrices; default the scheme's codes by
+        proximality rank, else the codes present.
+    unit, step
+        ``"beds"`` (embedded chain) or ``"grid"`` with ``step`` in depth units
+        (only used when ``data`` is a CoreSet).
+    max_order
+        Highest Markov order fitted (tests k vs k+1 for k < max_order).
+    surrogates, seed
+        Number of Monte Carlo surrogates (0 = none) and their seed.
+    by
+        ``"core"`` or a bed column (e.g. a formation): homogeneity across groups.
+    per_core
+        Keep each core's count matrix.
+    alpha
+        Level for significant cells and the cycle type.
+    scheme
+        :class:`~faciesseq.scheme.FaciesScheme` for the default ``codes``.
+    min_coverage
+        Screening threshold (described fraction of a core's span).
+
+    Returns
+    -------
+    MarkovReport
+    """
+    if unit not in ("beds", "grid"):
+        raise ConfigError(f"--unit must be 'beds' or 'grid', got {unit!r}")
+    if surrogates < 0:
+        raise ConfigError(f"--surrogates must be 0 or more, got {surrogates}")
+    warnings: list[str] = []
+    excluded: list[str] = []
+    if isinstance(data, CoreSet):
+        if unit == "grid" and not (step is not None and step > 0):
+            raise ConfigError("--unit grid needs a positive --step (depth units)")
+        problems = screen_cores(data, min_coverage=min_coverage)
+        for p in problems:
+            if p.core not in excluded:
+                excluded.append(p.core)
+                warnings.append(f"core {p.core} left out: {p.message}")
+        keep = [n for n in data.names if n not in excluded]
+        successions = data.subset(keep).successions(unit, step)
+        if codes is None and scheme is None:
+            codes = data.subset(keep).facies_codes() if keep else []
+    else:
+        successions = list(data)
+    if codes is None:
+        codes = list(scheme.codes_by_rank) if scheme is not None else None
+    enc = encode(successions, codes)
+    embedded = unit == "beds"
+    counts = transition_counts(enc)
+    n_trans = int(counts.sum())
+    if n_trans == 0:
+        raise InputError("no transitions to analyse: every succession has a single bed or cell")
+    if embedded and np.trace(counts) > 0:
+        raise InputError(
+            "successions repeat a facies from one bed to the next; beds should be amalgamated "
+            "(use unit 'grid' for sampled cells)"
+        )
+    if not embedded:
+        warnings.append(GRID_WARNING + (f" (step {step})" if step else ""))
+    probs = transition_probabilities(counts)
+    first = independence_test(counts, embedded=embedded, alpha=alpha)
+    warnings += list(first.notes)
+    order = order_analysis(enc, max_order, embedded=embedded)
+    sur: list[TestResult] = []
+    if surrogates > 0:
+        sur = _surrogate_tests(enc, embedded, surrogates, seed, max_order)
+    homog = None
+    if by is not None:
+        group, labels, left_out = _groups(successions, enc, by)
+        if len(labels) >= 2:
+            homog = homogeneity_test(_grouped_counts(enc, group, len(labels)), labels, by, left_out)
+        else:
+            warnings.append(f"homogeneity by {by}: only {len(labels)} group(s), no test")
+    cyc = cyclicity(
+        counts,
+        first.residuals,
+        first.significant,
+        enc.codes,
+        embedded=embedded,
+        first_order_p=first.pearson.p_value,
+        alpha=alpha,
+    )
+    pc = None
+    if per_core:
+        per = transition_counts(enc, per_succession=True)
+        pc = {}
+        for k, core in enumerate(enc.cores):
+            pc[core] = pc.get(core, 0) + per[k]
+    return MarkovReport(
+        unit=unit,
+        step=step if unit == "grid" else None,
+        codes=enc.codes,
+        n_cores=len(set(enc.cores)),
+        n_successions=len(enc),
+        n_transitions=n_trans,
+        counts=counts,
+        probabilities=probs,
+        fixed_vector=fixed_vector(probs),
+        n_step={2: n_step(probs, 2), 3: n_step(probs, 3)},
+        first_order=first,
+        order=order,
+        surrogate_tests=tuple(sur),
+        homogeneity=homog,
+        cyclicity=cyc,
+        per_core=pc,
+        excluded_cores=tuple(excluded),
+        warnings=tuple(warnings),
+        n_surrogates=surrogates,
+        seed=seed,
+        alpha=alpha,
+        max_order=max_order,
+        by=by,
+    )

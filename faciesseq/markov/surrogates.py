@@ -1,0 +1,386 @@
+"""Surrogate successions for exact (Monte Carlo) tests on small samples.
+
+Two kinds, both drawn for many surrogates at once with numpy:
+
+- :func:`transition_surrogates`: successions drawn **uniformly among all
+  successions with the same first-order transition counts and the same first
+  facies** as each observed one (Pethel & Hahs 2014, Physica D 269:42–47;
+  their count is Whittle's formula, Whittle 1955, J. R. Stat. Soc. B 17).
+  Such a succession is an Eulerian trail of the transition multigraph; a
+  uniform one is drawn by the "last-exit tree" construction (Kandel et al.
+  1996, Discrete Appl. Math. 71:171–185, after the BEST theorem): a random
+  arborescence of last exits towards the final facies, with probability
+  proportional to the product of its edge multiplicities, sampled by cycle
+  popping (Propp & Wilson 1998, J. Algorithms 27:170–217, the array form of
+  Wilson's algorithm); then the other exits of each facies in random order.
+  Under a first-order chain these are exchangeable with the data, so they
+  give an exact test of first order against higher orders.
+- :func:`restricted_permutations`: random orderings of each succession's
+  beds with no facies directly above itself (the permutation null of an
+  embedded chain), by a swap Markov chain run with the "parallel" scheme of
+  Besag & Clifford (1989, Biometrika 76:633–642): the chain runs from the
+  data to a hub and then independently from the hub to each surrogate, so
+  data and surrogates are exchangeable and the Monte Carlo p-value is exact
+  even without full mixing.
+
+Own implementations: no library draws either for many successions at once.
+Surrogates keep each succession's length, so pooled counts never cross a core
+boundary or gap.
+"""
+
+from __future__ import annotations
+
+import itertools
+from collections.abc import Callable, Iterator
+
+import numpy as np
+
+from faciesseq.markov.counts import EncodedSuccessions
+
+__all__ = [
+    "monte_carlo_p_value",
+    "restricted_permutations",
+    "transition_surrogates",
+    "transition_surrogates_loop",
+]
+
+#: Elements (surrogates x states) drawn per batch; bounds memory (about 8 bytes each).
+BATCH_ELEMENTS = 50_000_000
+
+
+def monte_carlo_p_value(observed: float, surrogate: np.ndarray) -> float:
+    """``(1 + #{surrogate >= observed}) / (1 + n)`` (Davison & Hinkley 1997, eq. 4.11).
+
+    A small relative tolerance counts ties that differ only by rounding.
+    """
+    s = np.asarray(surrogate, dtype=float)
+    tol = 1e-9 * max(1.0, abs(observed))
+    return float((1 + np.count_nonzero(s >= observed - tol)) / (1 + len(s)))
+
+
+class _Graphs:
+    """The transition multigraphs of all successions, as flat arrays.
+
+    Global vertex ``g = i * m + v`` is facies ``v`` of succession ``i``; its
+    exits (the facies above each occurrence of ``v`` that has one) occupy
+    ``exits[offset[g] : offset[g] + degree[g]]``, sorted by facies.
+    """
+
+    def __init__(self, enc: EncodedSuccessions) -> None:
+        m = enc.m
+        n_succ = len(enc)
+        self.m, self.n_succ = m, n_succ
+        states = enc.states.astype(np.int64)
+        starts, lengths = enc.starts, enc.lengths
+        owner = np.repeat(np.arange(n_succ), lengths)
+        has_next = enc.position_in_succession() < (lengths[owner] - 1)
+        src = owner[has_next] * m + states[has_next]
+        dst = states[np.nonzero(has_next)[0] + 1]
+        order = np.lexsort((dst, src))
+        self.exits = dst[order]
+        self.exit_vertex = src[order]
+        n_vert = n_succ * m
+        self.degree = np.bincount(src, minlength=n_vert)
+        self.offset = np.r_[0, np.cumsum(self.degree)[:-1]]
+        self.n_edges = len(self.exits)
+        # the fixed label (position) of the first exit of g to facies v
+        first = np.full((n_vert, m), -1, dtype=np.int64)
+        pos = np.arange(self.n_edges)
+        key = self.exit_vertex * m + self.exits
+        uniq, idx = np.unique(key, return_index=True)
+        first.reshape(-1)[uniq] = pos[idx]
+        self.first_label = first
+        nonempty = lengths > 0
+        self.start = np.where(nonempty, states[np.minimum(starts[:-1], len(states) - 1)], 0)
+        last = np.where(nonempty, states[np.maximum(starts[1:] - 1, 0)], 0)
+        self.root = np.arange(n_succ) * m + last
+        self.lengths = lengths
+        self.state_start = starts[:-1]
+        is_root = np.zeros(n_vert, dtype=bool)
+        is_root[self.root[nonempty]] = True
+        self.tree_vertices = np.nonzero((self.degree > 0) & ~is_root)[0]
+        self.root_vertices = self.root[nonempty & (lengths > 1)]
+
+
+def _last_exit_trees(gr: _Graphs, batch: int, rng: np.random.Generator) -> np.ndarray:
+    """Last-exit facies of every non-root vertex, one arborescence per surrogate.
+
+    Cycle popping: each vertex points to a uniformly chosen exit (probability
+    of a facies = its multiplicity / degree); every cycle is "popped" (its
+    vertices choose again) until none is left. The result is a spanning
+    arborescence towards the root with probability proportional to the product
+    of the multiplicities of its edges (Propp & Wilson 1998, sec. 6).
+    Returns ``(batch, len(tree_vertices))`` facies.
+    """
+    tv = gr.tree_vertices
+    if len(tv) == 0:
+        return np.zeros((batch, 0), dtype=np.int64)
+    m = gr.m
+    n_vert = gr.n_succ * m
+    deg = gr.degree[tv]
+    off = gr.offset[tv]
+    # local index of each tree vertex, -1 for vertices outside the tree set
+    local = np.full(n_vert, -1, dtype=np.int64)
+    local[tv] = np.arange(len(tv))
+    succ_base = (tv // m) * m
+
+    def draw(rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        u = rng.random(len(rows))
+        pick = off[cols] + np.minimum((u * deg[cols]).astype(np.int64), deg[cols] - 1)
+        return gr.exits[pick]
+
+    choice = np.empty((batch, len(tv)), dtype=np.int64)
+    rr, cc = np.meshgrid(np.arange(batch), np.arange(len(tv)), indexing="ij")
+    choice[:, :] = draw(rr.ravel(), cc.ravel()).reshape(batch, len(tv))
+    max_cycle = min(m, len(tv))
+    while True:
+        # successor as a tree-vertex index; -1 = reached the root (or outside)
+        nxt = local[succ_base[None, :] + choice]
+        on_cycle = np.zeros_like(nxt, dtype=bool)
+        cur = nxt.copy()
+        here = np.broadcast_to(np.arange(len(tv)), nxt.shape)
+        rows = np.arange(batch)[:, None]
+        for _ in range(max_cycle):
+            on_cycle |= cur == here
+            valid = cur >= 0
+            cur = np.where(valid, nxt[rows, np.where(valid, cur, 0)], -1)
+        if not on_cycle.any():
+            return choice
+        r, c = np.nonzero(on_cycle)
+        choice[r, c] = draw(r, c)
+
+
+def _shuffle_segments(
+    labels: np.ndarray, offset: np.ndarray, length: np.ndarray, rng: np.random.Generator
+) -> None:
+    """Shuffle ``labels[:, offset[s] : offset[s] + length[s]]`` in place, row by row.
+
+    Few long segments: numpy's ``Generator.permuted`` per segment. Many short
+    ones: Fisher–Yates run over all segments at once (Knuth, TAOCP vol. 2,
+    Algorithm P).
+    """
+    keep = length > 1
+    offset, length = offset[keep], length[keep]
+    if len(offset) == 0:
+        return
+    if len(offset) <= 64:
+        for o, n in zip(offset, length):
+            labels[:, o : o + n] = rng.permuted(labels[:, o : o + n], axis=1)
+        return
+    rows = np.arange(labels.shape[0])[:, None]
+    for k in range(int(length.max()) - 1, 0, -1):
+        sel = length > k
+        o = offset[sel]
+        j = (rng.random((labels.shape[0], len(o))) * (k + 1)).astype(np.int64)
+        a = o[None, :] + k
+        b = o[None, :] + j
+        tmp = labels[rows, a].copy()
+        labels[rows, a] = labels[rows, b]
+        labels[rows, b] = tmp
+
+
+def _batches(n: int, per_item: int) -> Iterator[int]:
+    size = max(1, min(n, BATCH_ELEMENTS // max(per_item, 1)))
+    done = 0
+    while done < n:
+        b = min(size, n - done)
+        yield b
+        done += b
+
+
+def transition_surrogates(
+    enc: EncodedSuccessions, n_surrogates: int, random_state: int | np.random.Generator | None
+) -> Iterator[np.ndarray]:
+    """Surrogates with each succession's first-order transition counts and first facies.
+
+    Parameters
+    ----------
+    enc
+        Observed successions (base to top).
+    n_surrogates
+        How many surrogate databases to draw.
+    random_state
+        Seed or generator; the same seed gives the same surrogates.
+
+    Yields
+    ------
+    numpy.ndarray
+        Batches of shape ``(batch, len(enc.states))``: each row is a surrogate
+        of ``enc.states`` (same succession layout). Batches add up to
+        ``n_surrogates`` rows.
+
+    Notes
+    -----
+    Uniform among the successions with the same transition counts and first
+    facies (Pethel & Hahs 2014; module docstring for the construction).
+    """
+    rng = np.random.default_rng(random_state)
+    gr = _Graphs(enc)
+    m = gr.m
+    n_states = len(enc.states)
+    dtype = np.int16 if gr.n_edges < 2**15 else (np.int32 if gr.n_edges < 2**31 else np.int64)
+    base_labels = np.arange(gr.n_edges, dtype=dtype)
+    tv = gr.tree_vertices
+    # shuffle everything but the last exit of tree vertices, all exits of roots
+    seg_off = np.r_[gr.offset[tv], gr.offset[gr.root_vertices]]
+    seg_len = np.r_[gr.degree[tv] - 1, gr.degree[gr.root_vertices]]
+    active = np.nonzero(gr.lengths > 1)[0]
+    max_len = int(gr.lengths.max(initial=0))
+    for batch in _batches(n_surrogates, max(gr.n_edges, n_states)):
+        labels = np.broadcast_to(base_labels, (batch, gr.n_edges)).copy()
+        if len(tv):
+            last = _last_exit_trees(gr, batch, rng)
+            last_label = gr.first_label[tv[None, :], last]
+            end = (gr.offset[tv] + gr.degree[tv] - 1)[None, :]
+            rows = np.arange(batch)[:, None]
+            # swap the chosen last exit to the end of its vertex's exits
+            moved = labels[rows, end].copy()
+            labels[rows, end] = labels[rows, last_label]
+            labels[rows, last_label] = moved
+        _shuffle_segments(labels, seg_off, seg_len, rng)
+        # batch-minor layouts: each step reads and writes contiguous rows
+        exits_t = gr.exits[labels.T].astype(enc.states.dtype)  # (n_edges, batch)
+        del labels
+        out_t = np.empty((n_states, batch), dtype=enc.states.dtype)
+        nonempty = gr.lengths > 0
+        out_t[gr.state_start[nonempty], :] = gr.start[nonempty][:, None]
+        used = np.zeros(gr.n_succ * m * batch, dtype=np.int32)
+        flat_exits = exits_t.reshape(-1)
+        col = np.arange(batch)[None, :]
+        cur = np.broadcast_to((active * m + gr.start[active])[:, None], (len(active), batch))
+        for t in range(max_len - 1):
+            if gr.lengths[active[0]] <= t + 1 or gr.lengths[active[-1]] <= t + 1 or t == 0:
+                keep = gr.lengths[active] > t + 1
+                if not keep.all():
+                    active = active[keep]
+                    cur = cur[keep]
+            if len(active) == 0:
+                break
+            vi = cur * batch + col
+            slot = gr.offset[cur] + used[vi]
+            nxt = flat_exits[slot * batch + col]
+            used[vi] += 1
+            out_t[gr.state_start[active] + t + 1, :] = nxt
+            cur = active[:, None] * m + nxt
+        out = np.ascontiguousarray(out_t.T)
+        active = np.nonzero(gr.lengths > 1)[0]
+        yield out
+
+
+def transition_surrogates_loop(
+    sequence: np.ndarray, m: int, n_surrogates: int, random_state: int | None
+) -> list[np.ndarray]:
+    """Plain-Python version of :func:`transition_surrogates` for one succession.
+
+    The baseline of ``benchmarks/bench_surrogates.py`` and a cross-check in
+    the tests: Wilson's loop-erased random walk for the last-exit tree, then
+    ``random.shuffle`` of the other exits, then the walk.
+    """
+    import random
+
+    rnd = random.Random(random_state)
+    seq = [int(x) for x in sequence]
+    exits: dict[int, list[int]] = {v: [] for v in range(m)}
+    for a, b in itertools.pairwise(seq):
+        exits[a].append(b)
+    root = seq[-1]
+    present = [v for v in range(m) if exits[v] and v != root]
+    out = []
+    for _ in range(n_surrogates):
+        in_tree = {root}
+        nxt: dict[int, int] = {}
+        for v in present:
+            u = v
+            while u not in in_tree:
+                nxt[u] = exits[u][rnd.randrange(len(exits[u]))]
+                u = nxt[u]
+            u = v
+            while u not in in_tree:
+                in_tree.add(u)
+                u = nxt[u]
+        order: dict[int, list[int]] = {}
+        for v in range(m):
+            rest = list(exits[v])
+            if v in nxt:
+                rest.remove(nxt[v])
+                rnd.shuffle(rest)
+                rest.append(nxt[v])
+            else:
+                rnd.shuffle(rest)
+            order[v] = rest
+        walk = [seq[0]]
+        used = dict.fromkeys(range(m), 0)
+        for _ in range(len(seq) - 1):
+            v = walk[-1]
+            walk.append(order[v][used[v]])
+            used[v] += 1
+        out.append(np.array(walk))
+    return out
+
+
+def restricted_permutations(
+    enc: EncodedSuccessions,
+    n_surrogates: int,
+    random_state: int | np.random.Generator | None,
+    *,
+    sweeps: int = 10,
+) -> Iterator[np.ndarray]:
+    """Random orderings of each succession's beds with no facies above itself.
+
+    A swap chain (propose exchanging two beds of one succession; accept when
+    no two successive beds then share a facies) is symmetric, so its
+    stationary law is uniform on the allowed orderings. Besag & Clifford's
+    (1989) parallel scheme: ``sweeps`` x (beds of the longest succession)
+    proposals from the data to a hub, then as many from the hub to each
+    surrogate; every succession proposes one swap per step.
+
+    Yields batches ``(batch, len(enc.states))`` like :func:`transition_surrogates`.
+    """
+    rng = np.random.default_rng(random_state)
+    lengths = enc.lengths
+    n_states = len(enc.states)
+    movable = np.nonzero(lengths > 2)[0]
+    steps = int(sweeps * lengths.max(initial=0))
+
+    def run(x: np.ndarray) -> None:
+        if len(movable) == 0:
+            return
+        b = x.shape[0]
+        rows = np.arange(b)[:, None]
+        base = enc.starts[:-1][movable][None, :]
+        length = lengths[movable][None, :]
+        first = base
+        last = base + length - 1
+        for _ in range(steps):
+            i = base + (rng.random((b, len(movable))) * length).astype(np.int64)
+            j = base + (rng.random((b, len(movable))) * length).astype(np.int64)
+            xi, xj = x[rows, i], x[rows, j]
+            ok = xi != xj
+
+            def value(p, i=i, j=j, xi=xi, xj=xj):
+                v = x[rows, np.clip(p, 0, n_states - 1)]
+                return np.where(p == i, xj, np.where(p == j, xi, v))
+
+            for p in (i, j):
+                left, right = p - 1, p + 1
+                vp = value(p)
+                ok &= (left < first) | (value(left) != vp)
+                ok &= (right > last) | (value(right) != vp)
+            r, c = np.nonzero(ok)
+            ii, jj = i[r, c], j[r, c]
+            a, bb = x[r, ii].copy(), x[r, jj].copy()
+            x[r, ii], x[r, jj] = bb, a
+
+    hub = enc.states[None, :].copy()
+    run(hub)
+    for batch in _batches(n_surrogates, n_states * 4):
+        x = np.broadcast_to(hub, (batch, n_states)).copy()
+        run(x)
+        yield x
+
+
+def surrogate_statistics(
+    batches: Iterator[np.ndarray], statistic: Callable[[np.ndarray], np.ndarray]
+) -> np.ndarray:
+    """Apply a batched statistic to every batch of surrogates and join the results."""
+    return np.concatenate([np.asarray(statistic(b), dtype=float) for b in batches])

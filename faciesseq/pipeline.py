@@ -1,0 +1,206 @@
+"""The whole job on a core database: statistics, tract model, decoding, validation, appendix.
+
+:func:`run_appendix` is what ``faciesseq appendix`` and ``faciesseq demo`` do,
+as one Python call: read nothing, print nothing; every step reports to an
+optional ``progress(step, message)`` callback. A step that cannot be done
+(no labelled cores to validate against, a validation that fails on the data)
+is recorded in the appendix as not available, with the reason.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import FaciesseqError
+from faciesseq.scheme import FaciesScheme, TractModel, default_tract_model
+
+__all__ = ["DEMO_FILES", "RunResult", "demo_source", "has_labels", "run_appendix"]
+
+Progress = Callable[[str, str], None]
+
+#: Files of the bundled demo database (invented Quillerby Basin cores).
+DEMO_FILES = ("cores.csv", "scheme-shoreface.yaml")
+
+
+def demo_source() -> Path:
+    """Folder of the demo database packaged with faciesseq (``faciesseq/data/demo/``).
+
+    It holds the cores table and its facies scheme, copies of
+    ``demo_cores/cores.csv`` and ``configs/scheme-shoreface.yaml`` of the
+    source tree (a test keeps them identical), so a source checkout and an
+    installed package run the same demo.
+    """
+    from importlib import resources
+
+    return Path(str(resources.files("faciesseq").joinpath("data/demo")))
+
+
+def has_labels(cores: CoreSet, column: str) -> bool:
+    """True when some interval carries an interpreter's label in ``column``."""
+    for core in cores:
+        if column in core.intervals.columns:
+            values = core.intervals[column]
+            if values.notna().any() and (values.astype(str).str.strip() != "").any():
+                return True
+    return False
+
+
+@dataclass
+class RunResult:
+    """What :func:`run_appendix` computed (every part may be ``None`` when not done)."""
+
+    appendix: Any
+    markov: Any = None
+    model: Any = None
+    interpretation: Any = None
+    validation: Any = None
+    notes: list[str] = field(default_factory=list)
+
+
+def _say(progress: Progress | None, step: str, message: str) -> None:
+    if progress is not None:
+        progress(step, message)
+
+
+def run_appendix(
+    cores: CoreSet,
+    scheme: FaciesScheme,
+    tract_model: TractModel | None = None,
+    *,
+    model: Any = None,
+    model_source: str | None = None,
+    labels: str | None = "tract",
+    validate_mode: str = "supervised",
+    folds: int = 3,
+    surrogates: int = 199,
+    seed: int = 0,
+    n_restarts: int = 3,
+    unit: str = "beds",
+    step: float | None = None,
+    provenance: Mapping[str, Any] | None = None,
+    progress: Progress | None = None,
+) -> RunResult:
+    """Markov statistics, tract model (fitted if not given), decoding, validation, appendix.
+
+    Parameters
+    ----------
+    cores
+        The core database (already read; its problems are reported, and an
+        error among them stops the run with :class:`~faciesseq.errors.InputError`).
+    scheme, tract_model
+        Facies scheme; tract model (default: the packaged four-tract model).
+    model
+        A fitted ``TractHMM`` (e.g. loaded from a model file). ``None``: one
+        is fitted with the default settings, unsupervised, and the appendix
+        says so.
+    model_source
+        Where ``model`` came from (shown in the appendix).
+    labels
+        Bed column with interpreters' tracts for cross-validation; skipped when
+        absent or empty.
+    validate_mode
+        ``"supervised"`` (training labels clamp the states) or
+        ``"unsupervised"``; see ``faciesseq.validation.cross_validate``.
+    folds, surrogates, seed, n_restarts
+        Cross-validation folds, Monte Carlo surrogates of the Markov tests,
+        the one seed of every random step, EM restarts of a fitted model.
+    unit, step
+        Successions of beds or of a depth grid (``step`` in depth units).
+    provenance
+        Provenance record to attach (see :mod:`faciesseq.report.provenance`).
+    progress
+        ``progress(step, message)`` after each step.
+    """
+    from faciesseq.hmm.model import TractHMM
+    from faciesseq.markov import analyse
+    from faciesseq.report.appendix import build_appendix
+
+    tract_model = tract_model or default_tract_model()
+    cores.require_valid()
+    notes: list[str] = []
+    _say(progress, "check", f"{len(cores)} cores, {len(cores.problems)} problems reported")
+
+    markov = analyse(
+        cores, scheme=scheme, unit=unit, step=step, surrogates=surrogates, seed=seed, by="core"
+    )
+    _say(
+        progress,
+        "markov",
+        f"{markov.n_transitions} transitions; first-order "
+        f"p = {markov.first_order.pearson.p_value:.3g}",
+    )
+
+    if model is None:
+        model = TractHMM(
+            tract_model=tract_model,
+            scheme=scheme,
+            n_restarts=n_restarts,
+            unit=unit,
+            step=step,
+            random_state=seed,
+        ).fit(cores)
+        note = (
+            "No model file was given: the tract model was fitted to these cores with the "
+            f"default settings (unsupervised, {n_restarts} restarts, seed {seed})."
+        )
+        _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
+    else:
+        note = f"Model read from {model_source}." if model_source else "Model given by the caller."
+        _say(progress, "fit", note)
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        interpretation = model.decode(cores)
+    for w in caught:
+        notes.append(str(w.message))
+    _say(progress, "decode", f"{len(interpretation)} cores decoded")
+
+    validation = None
+    validation_reason = None
+    if labels and has_labels(cores, labels):
+        from faciesseq.validation import cross_validate
+
+        try:
+            validation = cross_validate(
+                cores,
+                labels,
+                folds=min(folds, len(cores)),
+                mode=validate_mode,
+                random_state=seed,
+                tract_model=tract_model,
+                scheme=scheme,
+                unit=unit,
+                step=step,
+                n_restarts=n_restarts,
+            )
+            _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
+        except FaciesseqError as exc:
+            validation_reason = f"cross-validation could not be run on these labels: {exc}"
+            _say(progress, "validate", validation_reason)
+    else:
+        validation_reason = f"no interpreted tracts in a column {labels!r}"
+        _say(progress, "validate", validation_reason)
+
+    appendix = build_appendix(
+        cores,
+        scheme,
+        tract_model,
+        markov=markov,
+        model=model,
+        interpretation=interpretation,
+        validation=validation,
+        provenance=provenance,
+        model_note=note,
+        validation_note=validation_reason or "",
+        decode_notes=notes,
+        unit=unit,
+    )
+    _say(
+        progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
+    )
+    return RunResult(appendix, markov, model, interpretation, validation, notes)

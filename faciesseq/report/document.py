@@ -1,0 +1,223 @@
+"""The appendix as a document: numbered sections of text, equations, tables, figures.
+
+A :class:`Document` knows nothing of HTML or LaTeX; :mod:`faciesseq.report.html`
+and :mod:`faciesseq.report.latex` render the same document, and
+:mod:`faciesseq.report.appendix` writes each table's CSV from the very
+:class:`pandas.DataFrame` the renderers show, so the three never disagree.
+
+Numbers are shown with :func:`format_value` (4 significant digits; integers
+in full; p-values below 1e-4 in scientific notation); the CSV files and
+``appendix.json`` keep full precision.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+
+__all__ = [
+    "Document",
+    "Equation",
+    "FigureBlock",
+    "Paragraph",
+    "Section",
+    "TableBlock",
+    "format_value",
+]
+
+_KEY = re.compile(r"^[a-z0-9][a-z0-9_.-]*$")
+
+
+def format_value(value: object, digits: int = 4) -> str:
+    """How a table cell is shown: NaN/None blank, integers in full, floats to ``digits``."""
+    if value is None:
+        return ""
+    if isinstance(value, bool | np.bool_):
+        return "yes" if value else "no"
+    if isinstance(value, int | np.integer):
+        return str(int(value))
+    if isinstance(value, float | np.floating):
+        v = float(value)
+        if math.isnan(v):
+            return ""
+        if math.isinf(v):
+            return "∞" if v > 0 else "−∞"
+        if v == 0:
+            return "0"
+        if v.is_integer() and abs(v) < 1e15:
+            return str(int(v))
+        if abs(v) < 1e-4 or abs(v) >= 1e9:
+            return f"{v:.{digits - 1}e}"
+        if abs(v) >= 10**digits:
+            return f"{v:.1f}"
+        return f"{v:.{digits}g}"
+    if value is pd.NA or value is pd.NaT:
+        return ""
+    return str(value)
+
+
+@dataclass(frozen=True)
+class Paragraph:
+    """Plain text (escaped by every renderer). ``kind`` ``"note"`` draws a framed caution."""
+
+    text: str
+    kind: str = "text"
+
+
+@dataclass(frozen=True)
+class Equation:
+    """A displayed equation: ``text`` for HTML (Unicode), ``latex`` for LaTeX (math mode)."""
+
+    text: str
+    latex: str
+    label: str = ""
+
+
+@dataclass(frozen=True)
+class TableBlock:
+    """A table shown in the appendix and written to ``tables/<key>.csv``.
+
+    ``frame`` is shown as it is; its index is the first column when
+    ``index`` is true (named by ``frame.index.name``). ``marks`` (booleans,
+    same labels) marks cells with a ``*`` (e.g. significant adjusted
+    residuals), explained by ``mark_note``. ``shown=False`` writes the CSV
+    only (long per-bed data), listed in the appendix as a data file.
+    """
+
+    key: str
+    caption: str
+    frame: pd.DataFrame
+    index: bool = True
+    marks: pd.DataFrame | None = None
+    mark_note: str = ""
+    shown: bool = True
+    digits: int = 4
+
+    def __post_init__(self) -> None:
+        if not _KEY.match(self.key):
+            raise ValueError(f"table key {self.key!r} must be lower-case letters, digits, _.-")
+
+    def header(self) -> list[str]:
+        """Column headings as shown (index heading first when the index is shown)."""
+        cols = [str(c) for c in self.frame.columns]
+        if self.index:
+            return [str(self.frame.index.name or ""), *cols]
+        return cols
+
+    def rows(self) -> Iterator[tuple[list[str], list[bool]]]:
+        """Shown cells of each row (as text) and whether each is marked."""
+        marks = None
+        if self.marks is not None:
+            marks = (
+                self.marks.reindex(index=self.frame.index, columns=self.frame.columns)
+                .fillna(False)
+                .to_numpy(bool)
+            )
+        for i, (label, row) in enumerate(self.frame.iterrows()):
+            cells = [format_value(v, self.digits) for v in row.tolist()]
+            flags = [bool(marks[i, j]) if marks is not None else False for j in range(len(cells))]
+            if self.index:
+                cells = [format_value(label, self.digits), *cells]
+                flags = [False, *flags]
+            yield cells, flags
+
+    def to_csv_frame(self) -> pd.DataFrame:
+        """The table as written to CSV (index as a column when shown)."""
+        if self.index:
+            frame = self.frame.reset_index()
+            first = str(self.frame.index.name or "")
+            return frame.rename(columns={frame.columns[0]: first})
+        return self.frame.reset_index(drop=True)
+
+
+@dataclass(frozen=True)
+class FigureBlock:
+    """A figure with its caption; written as ``figures/<key>.png`` and ``.pdf``."""
+
+    key: str
+    caption: str
+    figure: Figure = field(repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        if not _KEY.match(self.key):
+            raise ValueError(f"figure key {self.key!r} must be lower-case letters, digits, _.-")
+
+
+Block = Paragraph | Equation | TableBlock | FigureBlock
+
+
+@dataclass
+class Section:
+    """A numbered section: blocks in order, then sub-sections."""
+
+    title: str
+    blocks: list[Block] = field(default_factory=list)
+    subsections: list[Section] = field(default_factory=list)
+
+    def add(self, *blocks: Block) -> Section:
+        self.blocks.extend(blocks)
+        return self
+
+    def sub(self, title: str) -> Section:
+        child = Section(title)
+        self.subsections.append(child)
+        return child
+
+
+@dataclass
+class Document:
+    """Numbered sections; tables and figures numbered in order of appearance."""
+
+    title: str
+    subtitle: str = ""
+    sections: list[Section] = field(default_factory=list)
+
+    def walk(self) -> Iterator[tuple[str, int, Section]]:
+        """``(number, depth, section)`` in reading order (``"2.3"``, depth 2)."""
+
+        def rec(sections: list[Section], prefix: str, depth: int):
+            for k, section in enumerate(sections, start=1):
+                number = f"{prefix}{k}"
+                yield number, depth, section
+                yield from rec(section.subsections, number + ".", depth + 1)
+
+        yield from rec(self.sections, "", 1)
+
+    def blocks(self) -> Iterator[Block]:
+        for _, _, section in self.walk():
+            yield from section.blocks
+
+    def tables(self, shown: bool | None = None) -> list[TableBlock]:
+        out = [b for b in self.blocks() if isinstance(b, TableBlock)]
+        return out if shown is None else [t for t in out if t.shown == shown]
+
+    def figures(self) -> list[FigureBlock]:
+        return [b for b in self.blocks() if isinstance(b, FigureBlock)]
+
+    def numbering(self) -> dict[str, int]:
+        """Numbers of shown tables (key ``table:<key>``) and figures (``figure:<key>``)."""
+        out: dict[str, int] = {}
+        n_table = n_figure = 0
+        for block in self.blocks():
+            if isinstance(block, TableBlock) and block.shown:
+                n_table += 1
+                out[f"table:{block.key}"] = n_table
+            elif isinstance(block, FigureBlock):
+                n_figure += 1
+                out[f"figure:{block.key}"] = n_figure
+        return out
+
+    def check_keys(self) -> None:
+        """Raise ``ValueError`` if two tables or two figures share a key."""
+        for kind, items in (("table", self.tables()), ("figure", self.figures())):
+            seen: set[str] = set()
+            for item in items:
+                if item.key in seen:
+                    raise ValueError(f"two {kind}s have the key {item.key!r}")
+                seen.add(item.key)

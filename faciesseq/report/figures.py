@@ -1,0 +1,531 @@
+"""Figures of the appendix: heat maps, diagrams and diagnostic plots.
+
+Every function takes plain numbers (pandas tables with labels) and returns a
+:class:`matplotlib.figure.Figure` built without ``pyplot``; nothing here
+reads results objects directly, so the figures do not depend on how a result
+was computed. Colours come from :mod:`faciesseq.report.style`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.patches import Circle, FancyArrowPatch, Patch
+
+from faciesseq.report.striplog import _short, plain
+from faciesseq.report.style import (
+    PAGE_WIDTH,
+    figure_style,
+    new_figure,
+    tract_colour,
+)
+from faciesseq.scheme import FaciesScheme, TractModel
+
+__all__ = [
+    "DIVERGING",
+    "SEQUENTIAL",
+    "bar_chart",
+    "facies_relationship_diagram",
+    "heatmap",
+    "loglik_trace",
+    "reliability_curve",
+    "tract_graph",
+]
+
+#: The project's sequential colour map (paper white to dark teal).
+SEQUENTIAL = LinearSegmentedColormap.from_list(
+    "faciesseq_seq", ["#fbfaf5", "#cfe3d9", "#7fb3a5", "#3a7f77", "#163f45"]
+)
+#: The project's diverging colour map (brick, white, slate blue): fewer / more than expected.
+DIVERGING = LinearSegmentedColormap.from_list(
+    "faciesseq_div", ["#8f2d1f", "#d98a6c", "#f7f5f0", "#8fb1d9", "#1f4e8c"]
+)
+
+
+def _text_colour(rgba) -> str:
+    r, g, b = rgba[:3]
+    return "white" if 0.299 * r + 0.587 * g + 0.114 * b < 0.5 else "black"
+
+
+def heatmap(
+    table: pd.DataFrame,
+    *,
+    title: str = "",
+    value_label: str = "",
+    fmt: str = "{:.2f}",
+    diverging: bool = False,
+    marks: pd.DataFrame | None = None,
+    mark_label: str = "significant",
+    row_title: str = "from (lower bed)",
+    column_title: str = "to (upper bed)",
+    width: float | None = None,
+) -> Figure:
+    """A labelled matrix with its values written in the cells and a colour bar.
+
+    Parameters
+    ----------
+    table
+        Rows and columns labelled (e.g. facies codes); NaN cells are left blank
+        (e.g. the structural zeros of the diagonal of an embedded chain).
+    value_label
+        Label of the colour bar (the figure's legend for the colour scale).
+    fmt
+        Format of the cell values.
+    diverging
+        Centre the colour scale at 0 (for differences and residuals).
+    marks
+        Boolean table of the same shape; marked cells get a ``*`` and a frame.
+    """
+    values = table.to_numpy(dtype=float)
+    n_rows, n_cols = values.shape
+    finite = values[np.isfinite(values)]
+    width = width or min(PAGE_WIDTH, 1.6 + 0.55 * n_cols)
+    height = 1.3 + 0.42 * n_rows
+    with figure_style():
+        fig = new_figure(width, height, layout="constrained")
+        ax = fig.add_subplot()
+        if diverging:
+            bound = float(np.max(np.abs(finite))) if finite.size else 1.0
+            bound = bound or 1.0
+            norm = TwoSlopeNorm(0.0, -bound, bound)
+            cmap = DIVERGING
+        else:
+            lo = float(finite.min()) if finite.size else 0.0
+            hi = float(finite.max()) if finite.size else 1.0
+            norm = None
+            cmap = SEQUENTIAL
+        masked = np.ma.masked_invalid(values)
+        image = ax.imshow(
+            masked,
+            cmap=cmap,
+            norm=norm,
+            vmin=None if diverging else lo,
+            vmax=None if diverging else (hi if hi > lo else lo + 1),
+            aspect="auto",
+        )
+        mark = (
+            marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
+            if marks is not None
+            else np.zeros_like(values, dtype=bool)
+        )
+        for i in range(n_rows):
+            for j in range(n_cols):
+                v = values[i, j]
+                if not np.isfinite(v):
+                    ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
+                    continue
+                colour = _text_colour(image.cmap(image.norm(v)))
+                text = fmt.format(v) + ("*" if mark[i, j] else "")
+                ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
+                if mark[i, j]:
+                    ax.add_patch(
+                        _cell_frame(j, i),
+                    )
+        ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
+        ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
+        ax.set_xlabel(column_title)
+        ax.set_ylabel(row_title)
+        ax.xaxis.set_label_position("top")
+        ax.xaxis.tick_top()
+        for spine in ax.spines.values():
+            spine.set_visible(False)
+        bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
+        bar.set_label(plain(value_label))
+        if mark.any():
+            ax.legend(
+                handles=[Patch(fc="none", ec="black", lw=1.0, label=f"* {mark_label}")],
+                loc="upper left",
+                bbox_to_anchor=(0.0, -0.02),
+                frameon=False,
+            )
+        if title:
+            ax.set_title(title, parse_math=False)
+    return fig
+
+
+def _cell_frame(x: float, y: float):
+    from matplotlib.patches import Rectangle
+
+    return Rectangle((x - 0.5, y - 0.5), 1, 1, fill=False, ec="black", lw=1.0)
+
+
+def bar_chart(
+    table: pd.DataFrame,
+    *,
+    colours: Mapping[str, str] | None = None,
+    title: str = "",
+    xlabel: str = "",
+    ylabel: str = "",
+) -> Figure:
+    """Grouped horizontal bars: one group per row, one bar per column.
+
+    ``colours`` maps row labels to colours (e.g. facies colours of the scheme);
+    the legend names the columns (hatched by column when there are several).
+    """
+    n_rows, n_cols = table.shape
+    with figure_style():
+        fig = new_figure(
+            min(PAGE_WIDTH, 5.5), 1.2 + 0.3 * n_rows * max(1, n_cols) ** 0.5, layout="constrained"
+        )
+        ax = fig.add_subplot()
+        height = 0.8 / max(n_cols, 1)
+        hatches = ["", "///", "...", "xx", "\\\\", "++"]
+        y = np.arange(n_rows)
+        for k, col in enumerate(table.columns):
+            face = [(colours or {}).get(str(r), "#7fb3a5") for r in table.index]
+            ax.barh(
+                y - 0.4 + height * (k + 0.5),
+                table[col].to_numpy(float),
+                height=height,
+                color=face,
+                edgecolor="#333333",
+                linewidth=0.4,
+                hatch=hatches[k % len(hatches)],
+                label=plain(col),
+            )
+        ax.set_yticks(y, [plain(r) for r in table.index])
+        ax.invert_yaxis()
+        ax.set_xlabel(xlabel)
+        ax.set_ylabel(ylabel)
+        handles = [
+            Patch(
+                fc="#dddddd",
+                ec="#333333",
+                lw=0.4,
+                hatch=hatches[k % len(hatches)],
+                label=plain(col),
+            )
+            for k, col in enumerate(table.columns)
+        ]
+        ax.legend(handles=handles, frameon=False, loc="lower right")
+        if title:
+            ax.set_title(title, parse_math=False)
+    return fig
+
+
+def _circle_layout(n: int, start: float = 90.0) -> np.ndarray:
+    """Points on a unit circle, the first at ``start`` degrees, going clockwise."""
+    angle = np.deg2rad(start - 360.0 * np.arange(n) / max(n, 1))
+    return np.column_stack([np.cos(angle), np.sin(angle)])
+
+
+def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **kw):
+    p, q = np.asarray(p, float), np.asarray(q, float)
+    d = q - p
+    unit = d / (np.hypot(*d) or 1.0)
+    gap = node_radius * 1.08
+    arrow = FancyArrowPatch(
+        tuple(p + gap * unit),
+        tuple(q - gap * unit),
+        arrowstyle="-|>",
+        mutation_scale=8 + 4 * width,
+        connectionstyle=f"arc3,rad={rad}",
+        lw=width,
+        color=colour,
+        shrinkA=0,
+        shrinkB=0,
+        **kw,
+    )
+    ax.add_patch(arrow)
+    if label:
+        mid = (np.asarray(p) + np.asarray(q)) / 2
+        d = np.asarray(q) - np.asarray(p)
+        normal = np.array([d[1], -d[0]]) / (np.hypot(*d) or 1)
+        pos = mid + normal * rad * np.hypot(*d) * 0.55
+        ax.text(
+            *pos,
+            label,
+            ha="center",
+            va="center",
+            fontsize=6.5,
+            bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.85},
+        )
+    return arrow
+
+
+def tract_graph(
+    tract_model: TractModel,
+    transitions: pd.DataFrame | None = None,
+    *,
+    title: str = "",
+) -> Figure:
+    """The tract graph: tracts in their cyclic order upward, allowed boundaries as arrows.
+
+    With ``transitions`` (a tract-by-tract matrix of transition probabilities,
+    rows = lower tract), arrows are labelled with the probability of moving
+    up into the next tract and the self-transition is written under each
+    tract; otherwise arrows show the configured graph with the surface codes.
+    Skipped tracts are drawn with a dashed ring.
+    """
+    order = list(tract_model.order)
+    pos = dict(zip(order, _circle_layout(len(order)), strict=True))
+    allowed = tract_model.allowed()
+    with figure_style():
+        fig = new_figure(4.2, 4.4, layout="constrained")
+        ax = fig.add_subplot()
+        ax.set_aspect("equal")
+        ax.set_axis_off()
+        radius = 0.27
+        for i, lower in enumerate(order):
+            for j, upper in enumerate(order):
+                if i == j or not allowed[i][j]:
+                    continue
+                surface = tract_model.surface(lower, upper)
+                label = surface.code if surface else ""
+                width = 1.2
+                if transitions is not None:
+                    p = float(transitions.loc[lower, upper])
+                    label = f"{label} {p:.2f}".strip()
+                    width = 0.6 + 3.0 * min(p / 0.3, 1.0)
+                skip = (j - i) % len(order) > 1
+                _arrow(
+                    ax,
+                    pos[lower],
+                    pos[upper],
+                    width=width,
+                    colour="#555555" if not skip else "#999999",
+                    rad=0.22 if not skip else 0.3,
+                    label=label,
+                    node_radius=radius * 0.9,
+                    linestyle="-" if not skip else (0, (3, 2)),
+                )
+        for code in order:
+            x, y = pos[code]
+            ring = Circle(
+                (x, y),
+                radius,
+                fc=tract_colour(code, order),
+                ec="black",
+                lw=0.8,
+                ls="--" if code in tract_model.skips else "-",
+                zorder=3,
+            )
+            ax.add_patch(ring)
+            label = code
+            if transitions is not None:
+                label += f"\nstay {float(transitions.loc[code, code]):.2f}"
+            ax.text(
+                x,
+                y,
+                label,
+                ha="center",
+                va="center",
+                fontsize=7.5,
+                zorder=4,
+                color=_text_colour(ring.get_facecolor()),
+                parse_math=False,
+            )
+        ax.set_xlim(-1.45, 1.45)
+        ax.set_ylim(-1.5, 1.45)
+        names = {t.code: t.name for t in tract_model.tracts}
+        handles = [
+            Patch(color=tract_colour(c, order), label=plain(f"{c}  {names[c]}")) for c in order
+        ]
+        handles.append(
+            Line2D(
+                [], [], color="#999999", ls=(0, (3, 2)), label="boundary skipping an absent tract"
+            )
+        )
+        ax.legend(
+            handles=handles, loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=1, frameon=False
+        )
+        if title:
+            ax.set_title(title, parse_math=False)
+    return fig
+
+
+def facies_relationship_diagram(
+    difference: pd.DataFrame,
+    scheme: FaciesScheme | None = None,
+    *,
+    significant: pd.DataFrame | None = None,
+    threshold: float = 0.05,
+    title: str = "",
+) -> Figure:
+    """Facies relationship diagram: arrows for upward transitions more frequent than chance.
+
+    Facies are placed on a circle in order of proximality rank (most landward
+    at the top, going clockwise); an arrow ``A -> B`` is drawn where the
+    observed minus expected transition probability (``difference``, rows =
+    lower facies) exceeds ``threshold``; its width grows with the difference.
+    Arrows of cells marked in ``significant`` are solid, others dashed.
+
+    The diagram follows the practice of drawing only the positive cells of
+    the difference matrix (Miall 1973, "Markov chain analysis applied to an
+    ancient alluvial plain succession", Sedimentology 20:347-364).
+    """
+    codes = [str(c) for c in difference.index]
+    if scheme is not None:
+        known = [c for c in scheme.codes_by_rank if c in codes]
+        codes = known + [c for c in codes if c not in known]
+    pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
+    values = difference.reindex(index=codes, columns=codes)
+    sig = (
+        significant.reindex(index=codes, columns=codes).fillna(False)
+        if significant is not None
+        else None
+    )
+    positive = values.to_numpy(float)
+    top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
+    with figure_style():
+        fig = new_figure(4.6, 5.0, layout="constrained")
+        ax = fig.add_subplot()
+        ax.set_aspect("equal")
+        ax.set_axis_off()
+        radius = 0.2
+        n_drawn = 0
+        for a in codes:
+            for b in codes:
+                if a == b:
+                    continue
+                d = values.loc[a, b]
+                if not np.isfinite(d) or d <= threshold:
+                    continue
+                solid = bool(sig.loc[a, b]) if sig is not None else True
+                _arrow(
+                    ax,
+                    pos[a],
+                    pos[b],
+                    width=0.5 + 2.5 * d / (top or 1.0),
+                    colour="#1f4e8c" if solid else "#8fa3bf",
+                    rad=0.15,
+                    label=f"{d:.2f}" if solid else None,
+                    node_radius=radius,
+                    linestyle="-" if solid else (0, (3, 2)),
+                )
+                n_drawn += 1
+        for code in codes:
+            x, y = pos[code]
+            colour = scheme.colour(code) if scheme is not None and code in scheme else "#c8c8c8"
+            circle = Circle((x, y), radius, fc=colour, ec="black", lw=0.8, zorder=3)
+            ax.add_patch(circle)
+            ax.text(
+                x,
+                y,
+                code,
+                ha="center",
+                va="center",
+                fontsize=7,
+                zorder=4,
+                color=_text_colour(circle.get_facecolor()),
+                parse_math=False,
+            )
+        ax.set_xlim(-1.4, 1.4)
+        ax.set_ylim(-1.4, 1.4)
+        handles = [
+            Line2D([], [], color="#1f4e8c", lw=2, label="significant (adjusted residual)"),
+            Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
+        ]
+        if scheme is not None:
+            handles += [
+                Patch(
+                    fc=scheme.colour(c) if c in scheme else "#c8c8c8",
+                    ec="black",
+                    lw=0.4,
+                    label=plain(f"{c}  {_short(scheme[c].name) if c in scheme else ''}"),
+                )
+                for c in codes
+            ]
+        ax.legend(
+            handles=handles,
+            loc="upper center",
+            bbox_to_anchor=(0.5, 0.0),
+            frameon=False,
+            title=f"arrows: upward transitions with observed − expected > {threshold:g}\n"
+            "(label: difference of probabilities)",
+        )
+        if title:
+            ax.set_title(title, parse_math=False)
+        if n_drawn == 0:
+            ax.text(0, 0, "no transition above chance", ha="center", va="center")
+    return fig
+
+
+def loglik_trace(
+    traces: Mapping[str, Sequence[float]],
+    *,
+    best: str | None = None,
+    title: str = "",
+) -> Figure:
+    """Log-likelihood after each EM iteration, one line per restart.
+
+    ``traces`` maps a restart label (e.g. ``"restart 3 (seed 12)"``) to its
+    log-likelihood per iteration; ``best`` is drawn thicker and darker.
+    """
+    with figure_style():
+        fig = new_figure(min(PAGE_WIDTH, 5.5), 3.2, layout="constrained")
+        ax = fig.add_subplot()
+        for k, (label, values) in enumerate(traces.items()):
+            y = np.asarray(values, dtype=float)
+            is_best = label == best
+            ax.plot(
+                np.arange(1, len(y) + 1),
+                y,
+                lw=1.8 if is_best else 0.9,
+                color="#163f45" if is_best else SEQUENTIAL(0.3 + 0.5 * (k % 5) / 4),
+                marker="o" if len(y) < 30 else None,
+                ms=2.5,
+                label=plain(f"{label} (best)" if is_best else label),
+                zorder=3 if is_best else 2,
+            )
+        ax.set_xlabel("EM iteration")
+        ax.set_ylabel("log-likelihood")
+        ax.legend(frameon=False, loc="lower right", ncol=1 if len(traces) < 6 else 2)
+        if title:
+            ax.set_title(title, parse_math=False)
+    return fig
+
+
+def reliability_curve(
+    bins: pd.DataFrame,
+    *,
+    baseline: pd.DataFrame | None = None,
+    title: str = "",
+) -> Figure:
+    """Reliability (calibration) diagram: observed frequency against predicted probability.
+
+    ``bins`` has ``predicted`` (mean predicted probability in the bin),
+    ``observed`` (fraction of cases where the event happened) and ``count``;
+    ``baseline`` (same columns) is drawn for comparison. The diagonal is
+    perfect calibration (Murphy & Winkler 1977, "Reliability of subjective
+    probability forecasts of precipitation and temperature", Applied
+    Statistics 26:41-47).
+    """
+    with figure_style():
+        fig = new_figure(3.6, 3.6, layout="constrained")
+        ax = fig.add_subplot()
+        ax.plot([0, 1], [0, 1], color="#999999", lw=0.8, ls="--", label="perfectly calibrated")
+        for frame, label, colour, marker in (
+            (bins, "tract model", "#1f4e8c", "o"),
+            (baseline, "baseline", "#b84a3a", "s"),
+        ):
+            if frame is None or len(frame) == 0:
+                continue
+            counts = frame["count"].to_numpy(float) if "count" in frame else np.ones(len(frame))
+            sizes = 8 + 40 * counts / max(counts.max(), 1)
+            ax.plot(frame["predicted"], frame["observed"], color=colour, lw=1.0)
+            ax.scatter(
+                frame["predicted"],
+                frame["observed"],
+                s=sizes,
+                color=colour,
+                marker=marker,
+                label=label,
+                zorder=3,
+                edgecolor="white",
+                linewidth=0.4,
+            )
+        ax.set_xlim(0, 1)
+        ax.set_ylim(0, 1)
+        ax.set_aspect("equal")
+        ax.set_xlabel("predicted probability")
+        ax.set_ylabel("observed frequency")
+        ax.legend(frameon=False, loc="upper left", title="marker area: cases in bin")
+        if title:
+            ax.set_title(title, parse_math=False)
+    return fig

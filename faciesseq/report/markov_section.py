@@ -1,0 +1,249 @@
+"""Section 2 of the appendix: transition statistics of a ``faciesseq.markov.MarkovReport``.
+
+Tables are the report's own matrices (``to_frames()``), shown as they are;
+every test is also written out in the form a journal asks for,
+``χ²(dof, N = n) = value, p = …``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
+from faciesseq.scheme import FaciesScheme
+
+__all__ = ["format_p", "format_test", "markov_section"]
+
+
+def format_p(p: float) -> str:
+    """``p = 0.0123`` or ``p < 0.0001`` (p-values are not shown below 1e-4)."""
+    if p is None or not np.isfinite(p):
+        return "p not available"
+    if p < 1e-4:
+        return "p < 0.0001"
+    return f"p = {p:.4f}" if p < 0.01 else f"p = {p:.3f}"
+
+
+def format_test(test) -> str:
+    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.0001`` (G² for likelihood ratios)."""
+    symbol = "G²" if "G2" in test.name or "g2" in test.name.lower() else "χ²"
+    text = (
+        f"{symbol}({test.dof}, N = {test.n}) = {format_value(float(test.statistic))}, "
+        f"{format_p(test.p_value)}"
+    )
+    if test.method == "monte carlo":
+        text += f" (Monte Carlo, {test.n_surrogates} surrogates)"
+    return text
+
+
+def _labelled(matrix: np.ndarray, codes) -> pd.DataFrame:
+    frame = pd.DataFrame(np.asarray(matrix), index=list(codes), columns=list(codes))
+    frame.index.name = "from \\ to"
+    return frame
+
+
+def markov_section(report, scheme: FaciesScheme) -> Section:
+    """The transition-statistics section (section 2 of the appendix)."""
+    from faciesseq.report import figures
+
+    fo = report.first_order
+    codes = list(report.codes)
+    embedded = report.embedded
+    s = Section("Transition statistics")
+    unit = (
+        "beds (embedded chain: no facies above itself)"
+        if embedded
+        else f"depth-grid cells of {format_value(report.step)}"
+    )
+    s.add(
+        Paragraph(
+            f"{report.n_transitions} upward transitions in {report.n_successions} unbroken "
+            f"successions of {report.n_cores} cores, counted between {unit}; rows are the lower "
+            "facies, columns the upper, facies in order of proximality rank."
+        )
+    )
+    for warning in report.warnings:
+        s.add(Paragraph(f"Note: {warning}.", kind="note"))
+
+    # -- matrices
+    mats = s.sub("Transition matrices")
+    counts = _labelled(report.counts.astype(int), codes)
+    mats.add(
+        TableBlock("markov_counts", "Upward transition counts n_ij (row: lower facies).", counts),
+        TableBlock(
+            "markov_probabilities",
+            "Transition probabilities p_ij = n_ij / n_i+.",
+            _labelled(report.probabilities, codes),
+        ),
+        FigureBlock(
+            "markov_probabilities",
+            "Upward transition probabilities (rows sum to 1; blank cells cannot occur).",
+            figures.heatmap(
+                _masked(report.probabilities, fo.structural, codes),
+                value_label="transition probability",
+                fmt="{:.2f}",
+            ),
+        ),
+    )
+    low = _labelled(fo.low_expected, codes).astype(bool)
+    mats.add(
+        TableBlock(
+            "markov_expected",
+            f"Expected counts under {fo.model} (Goodman 1968); * marks cells with an expected "
+            "count below 5.",
+            _masked(fo.expected, fo.structural, codes),
+            marks=low,
+        ),
+        TableBlock(
+            "markov_difference",
+            "Difference matrix: observed minus expected transition probabilities.",
+            _masked(fo.difference, fo.structural, codes),
+        ),
+    )
+    sig = _labelled(fo.significant, codes).astype(bool)
+    mats.add(
+        TableBlock(
+            "markov_residuals",
+            f"Adjusted residuals (Haberman 1973); * marks cells significant at the two-sided "
+            f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}).",
+            _labelled(fo.residuals, codes),
+            marks=sig,
+        ),
+        FigureBlock(
+            "markov_residuals",
+            "Adjusted residuals: more (blue) or fewer (red) transitions than chance; framed "
+            "cells are significant.",
+            figures.heatmap(
+                _labelled(fo.residuals, codes),
+                value_label="adjusted residual",
+                fmt="{:.1f}",
+                diverging=True,
+                marks=sig,
+                mark_label=f"significant (two-sided, {report.alpha:g})",
+            ),
+        ),
+    )
+
+    # -- tests
+    tests = s.sub("Tests of independence, order and homogeneity")
+    low_cells = ", ".join(f"{codes[i]}→{codes[j]}" for i, j in zip(*np.nonzero(fo.low_expected)))
+    tests.add(
+        Paragraph(
+            f"First-order dependence ({fo.model}): {format_test(fo.pearson)}; "
+            f"{format_test(fo.g2)}; Cramér's V = {format_value(fo.cramers_v)}; "
+            f"{fo.n_low_expected} of the tested cells have expected counts below 5"
+            + (f" ({low_cells})." if fo.n_low_expected else ".")
+        )
+    )
+    rows = []
+    for t in report.tests:
+        rows.append(
+            {
+                "test": t.name,
+                "null hypothesis": t.null,
+                "statistic": float(t.statistic),
+                "dof": int(t.dof),
+                "N": int(t.n),
+                "p": float(t.p_value),
+                "method": t.method,
+                "surrogates": int(t.n_surrogates),
+                "reported as": format_test(t),
+            }
+        )
+    tests.add(
+        TableBlock(
+            "markov_tests",
+            "Every test: statistic, degrees of freedom, number of transitions N and p-value "
+            "(asymptotic χ², or Monte Carlo from surrogate successions).",
+            pd.DataFrame(rows).set_index("test"),
+        )
+    )
+    if not report.surrogate_tests:
+        tests.add(Paragraph("No surrogate (Monte Carlo) tests were run.", kind="missing"))
+    order = report.order
+    order_frame = order.to_frame().set_index("order")
+    order_frame.columns = ["log-likelihood", "parameters", "AIC", "BIC"]
+    tests.add(
+        TableBlock(
+            "markov_order",
+            f"Markov order: log-likelihood, free parameters, AIC (Tong 1975) and BIC "
+            f"(Katz 1981) per order on {order.n} common transitions; lowest AIC at order "
+            f"{order.best_aic}, lowest BIC at order {order.best_bic}.",
+            order_frame,
+        )
+    )
+    if report.homogeneity is not None:
+        h = report.homogeneity
+        tests.add(
+            Paragraph(
+                f"Homogeneity across {h.by} groups ({len(h.groups)} groups): "
+                f"{format_test(h.pearson)}; {format_test(h.g2)}; {h.n_left_out} transitions "
+                "between groups left out."
+            ),
+            TableBlock(
+                "markov_homogeneity",
+                f"Transitions per {h.by} in the homogeneity test.",
+                h.to_frame().set_index("group"),
+            ),
+        )
+    else:
+        tests.add(Paragraph("Homogeneity across cores was not tested.", kind="missing"))
+
+    # -- entropy
+    cyc = report.cyclicity
+    ent = s.sub("Entropy and cycle type")
+    entropy = pd.DataFrame(
+        {
+            "E_post (bits)": cyc.e_post,
+            "E_pre (bits)": cyc.e_pre,
+            "fixed vector": report.fixed_vector,
+        },
+        index=pd.Index(codes, name="facies"),
+    )
+    ent.add(
+        TableBlock(
+            "markov_entropy",
+            "Entropy after (E_post) and before (E_pre) each facies (Hattori 1976), and the "
+            "stationary (fixed) probability vector.",
+            entropy,
+        ),
+        Paragraph(
+            f"Whole chain: E_post = {format_value(cyc.e_post_total)} bits, E_pre = "
+            f"{format_value(cyc.e_pre_total)} bits, of at most {format_value(cyc.e_max)} bits "
+            f"(normalised {format_value(cyc.e_post_normalised)} and "
+            f"{format_value(cyc.e_pre_normalised)}). Cycle type: {cyc.cycle_type}. "
+            + (
+                "Preferred upward path of significant transitions: "
+                + " → ".join(cyc.path)
+                + (" (closes a cycle)." if cyc.path_is_cycle else ".")
+                if cyc.path
+                else "No path of significant transitions."
+            )
+        ),
+    )
+    frd = s.sub("Facies relationship diagram")
+    frd.add(
+        FigureBlock(
+            "markov_frd",
+            "Facies relationship diagram: arrows for upward transitions more frequent than "
+            "chance (observed minus expected probability above 0.05); solid where the "
+            "adjusted residual is significant.",
+            figures.facies_relationship_diagram(
+                _masked(fo.difference, fo.structural, codes), scheme, significant=sig
+            ),
+        )
+    )
+    return s
+
+
+def _masked(matrix: np.ndarray, structural: np.ndarray, codes) -> pd.DataFrame:
+    values = np.asarray(matrix, dtype=float).copy()
+    values[np.asarray(structural, dtype=bool)] = np.nan
+    return _labelled(values, codes)
+
+
+def _z(alpha: float) -> float:
+    from scipy.stats import norm
+
+    return float(norm.ppf(1 - alpha / 2))

@@ -1,0 +1,149 @@
+"""Section 5 of the appendix: methods, equations, references and cautions.
+
+The text is the project's own; the equations are the published ones, in the
+notation of the cited papers where they have one.
+"""
+
+from __future__ import annotations
+
+from faciesseq.report.document import Equation, Paragraph, Section
+
+__all__ = ["REFERENCES", "methods_section"]
+
+#: Reference list of the appendix (author year, title, journal, volume, pages).
+REFERENCES = (
+    "Anderson, T. W. & Goodman, L. A. (1957). Statistical inference about Markov chains. "
+    "Annals of Mathematical Statistics 28, 89–110.",
+    "Goodman, L. A. (1968). The analysis of cross-classified data: independence, "
+    "quasi-independence, and interactions in contingency tables with or without missing "
+    "entries. Journal of the American Statistical Association 63, 1091–1131.",
+    "Powers, D. W. & Easterling, R. G. (1982). Improved methodology for using embedded Markov "
+    "chains to describe cyclical sediments. Journal of Sedimentary Petrology 52, 913–923.",
+    "Haberman, S. J. (1973). The analysis of residuals in cross-classified tables. "
+    "Biometrics 29, 205–220.",
+    "Tong, H. (1975). Determination of the order of a Markov chain by Akaike's information "
+    "criterion. Journal of Applied Probability 12, 488–497.",
+    "Katz, R. W. (1981). On some criteria for estimating the order of a Markov chain. "
+    "Technometrics 23, 243–249.",
+    "Hattori, I. (1976). Entropy in Markov chains and discrimination of cyclic patterns in "
+    "lithologic successions. Mathematical Geology 8, 477–497.",
+    "Pethel, S. D. & Hahs, D. W. (2014). Exact test of independence using mutual information. "
+    "Entropy 16, 2839–2849.",
+    "Rabiner, L. R. (1989). A tutorial on hidden Markov models and selected applications in "
+    "speech recognition. Proceedings of the IEEE 77, 257–286.",
+    "Catuneanu, O. et al. (2009). Towards the standardization of sequence stratigraphy. "
+    "Earth-Science Reviews 92, 1–33.",
+)
+
+CAUTION = (
+    "This appendix is an interpretation aid. The systems tracts, surfaces and probabilities "
+    "are the output of a statistical model fitted to facies codes; they are to be judged by a "
+    "geologist against the cores, logs, biostratigraphy and regional framework. Decisions on "
+    "wells, reservoirs and storage sites follow local regulations and licensed professional "
+    "practice, not this document."
+)
+
+
+def methods_section(unit: str = "beds") -> Section:
+    """The methods section: what was computed, with equations and references.
+
+    ``unit`` is ``"beds"`` (embedded chain, no self-transitions) or ``"grid"``.
+    """
+    s = Section("Methods")
+    data = s.sub("Successions")
+    data.add(
+        Paragraph(
+            "Depths are positive downward. Each core is split at gaps into unbroken successions, "
+            "analysed base to top (older to younger), so a transition A → B means that facies B "
+            "lies directly on facies A. No transition is counted across a gap or between cores. "
+            + (
+                "Adjacent intervals of one facies are amalgamated into beds, so no bed follows a "
+                "bed of its own facies (an embedded chain: the diagonal of the count matrix is a "
+                "structural zero)."
+                if unit == "beds"
+                else "Facies are sampled on a regular depth grid, so self-transitions are counted."
+            )
+        )
+    )
+    markov = s.sub("Transition statistics")
+    markov.add(
+        Paragraph(
+            "With n_ij the number of upward transitions from facies i to facies j, n_i+ the row "
+            "sums and N the total, the transition probabilities are p_ij = n_ij / n_i+. For an "
+            "embedded chain the expected counts under independence are fitted to the "
+            "off-diagonal cells only (quasi-independence, Goodman 1968; Powers & Easterling "
+            "1982), by iterative proportional fitting of E_ij = a_i b_j (i ≠ j) to the row and "
+            "column sums, with (m − 1)² − m degrees of freedom for m facies. For a depth grid, "
+            "E_ij = n_i+ n_+j / N with (m − 1)² degrees of freedom."
+        ),
+        Equation(
+            "χ² = Σ (n_ij − E_ij)² / E_ij        G² = 2 Σ n_ij ln(n_ij / E_ij)",
+            r"\chi^2 = \sum_{i,j} \frac{(n_{ij} - E_{ij})^2}{E_{ij}}, \qquad "
+            r"G^2 = 2 \sum_{i,j} n_{ij} \ln \frac{n_{ij}}{E_{ij}}",
+            "1",
+        ),
+        Paragraph(
+            "Tests are reported as χ²(dof, N) = value, p = …, with G² and Cramér's "
+            "V = √(χ² / (N (m − 1))). Cells with expected counts below 5 are listed, because the "
+            "χ² approximation is poor there; exact or surrogate p-values (the statistic's "
+            "distribution under random successions with the same facies counts; Pethel & Hahs "
+            "2014) are given beside the asymptotic ones. Cells that deviate from chance are "
+            "found by adjusted residuals (Haberman 1973), approximately standard normal under "
+            "independence:"
+        ),
+        Equation(
+            "r_ij = (n_ij − E_ij) / √( E_ij (1 − n_i+ / N) (1 − n_+j / N) )",
+            r"r_{ij} = \frac{n_{ij} - E_{ij}}"
+            r"{\sqrt{E_{ij}\,(1 - n_{i+}/N)\,(1 - n_{+j}/N)}}",
+            "2",
+        ),
+        Paragraph(
+            "The Markov order is tested by likelihood-ratio tests of order k against order k + 1 "
+            "(Anderson & Goodman 1957) and chosen by the information criteria AIC (Tong 1975) and "
+            "BIC (Katz 1981). Homogeneity across cores compares each core's transition counts "
+            "with the pooled ones (Anderson & Goodman 1957). The entropies of Hattori (1976) "
+            "measure how ordered the succession is after (E_post) and before (E_pre) each facies; "
+            "their pattern names the cycle type."
+        ),
+        Equation(
+            "E_post(i) = − Σ_j p_ij log₂ p_ij        E_pre(j) = − Σ_i q_ij log₂ q_ij, "
+            "q_ij = n_ij / n_+j",
+            r"E^{\mathrm{post}}_i = -\sum_j p_{ij}\log_2 p_{ij}, \qquad "
+            r"E^{\mathrm{pre}}_j = -\sum_i q_{ij}\log_2 q_{ij},\; q_{ij} = n_{ij}/n_{+j}",
+            "3",
+        ),
+    )
+    model = s.sub("Systems-tract hidden Markov model")
+    model.add(
+        Paragraph(
+            "The hidden states are systems tracts (falling-stage, lowstand, transgressive and "
+            "highstand; Catuneanu et al. 2009) joined only by the boundaries the tract model "
+            "allows. Each bed's facies is emitted given its tract and, optionally, the facies of "
+            "the bed below, so that a tract is a stacking trend rather than a set of facies. "
+            "Parameters are estimated by expectation-maximisation (Baum-Welch) from several "
+            "random starts with Dirichlet priors anchored by the facies' proximality ranks; "
+            "forbidden transitions stay zero. With α and β the scaled forward and backward "
+            "variables (Rabiner 1989), the posterior of tract i at bed t and the two-slice "
+            "posterior of the boundary above bed t are"
+        ),
+        Equation(
+            "γ_t(i) = α_t(i) β_t(i) / Σ_k α_t(k) β_t(k)        "
+            "ξ_t(i, j) ∝ α_t(i) a_ij b_j(o_t+1) β_t+1(j)",
+            r"\gamma_t(i) = \frac{\alpha_t(i)\,\beta_t(i)}{\sum_k \alpha_t(k)\,\beta_t(k)}, \qquad "
+            r"\xi_t(i,j) \propto \alpha_t(i)\, a_{ij}\, b_j(o_{t+1})\, \beta_{t+1}(j)",
+            "4",
+        ),
+        Paragraph(
+            "The probability of a surface at a contact is the sum of ξ over the tract pairs the "
+            "tract model maps to that surface (e.g. TST → HST for the maximum flooding surface). "
+            "The tract column is the most likely path (Viterbi; Rabiner 1989). Where interpreted "
+            "cores exist, the model is validated by leaving cores out: accuracy, per-tract F1, "
+            "confusion matrix, the depth error of picked surfaces and a reliability curve, "
+            "beside a baseline."
+        ),
+    )
+    s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
+    refs = s.sub("References")
+    for ref in REFERENCES:
+        refs.add(Paragraph(ref))
+    return s

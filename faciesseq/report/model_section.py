@@ -1,0 +1,427 @@
+"""Section 3 of the appendix: the fitted tract model, its diagnostics and its validation.
+
+Reads a fitted ``faciesseq.hmm.TractHMM`` (learned attributes ``startprob_``,
+``transmat_``, ``emissions_``, ``restarts_``, ``states_``...), an optional
+``faciesseq.hmm.selection.ModelSelection`` (BIC of candidates) and an
+optional ``faciesseq.validation.ValidationResult``.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
+from faciesseq.scheme import TractModel
+
+__all__ = ["model_section", "tract_transitions"]
+
+
+def _stationary(transmat: np.ndarray) -> np.ndarray:
+    """Stationary distribution of a row-stochastic matrix (uniform if it is not unique)."""
+    values, vectors = np.linalg.eig(transmat.T)
+    k = int(np.argmin(np.abs(values - 1.0)))
+    pi = np.abs(np.real(vectors[:, k]))
+    total = pi.sum()
+    if not np.isfinite(total) or total <= 0:
+        return np.full(len(transmat), 1.0 / len(transmat))
+    return pi / total
+
+
+def tract_transitions(model: Any) -> pd.DataFrame:
+    """Tract-to-tract transition probabilities of a fitted model, per bed.
+
+    With one state per tract this is ``transmat_``; with sub-states, the
+    states of a tract are weighted by their stationary probability:
+    ``T_ab = Σ_{i∈a} π_i Σ_{j∈b} A_ij / Σ_{i∈a} π_i``.
+    """
+    states = model.states_
+    A = np.asarray(model.transmat_, dtype=float)
+    mask = states.tract_mask().astype(float)  # (n_tracts, K)
+    pi = _stationary(A)
+    weights = mask * pi[None, :]
+    row_weight = weights.sum(axis=1, keepdims=True)
+    weights = np.where(
+        row_weight > 0,
+        weights / np.where(row_weight > 0, row_weight, 1),
+        mask / mask.sum(axis=1, keepdims=True),
+    )
+    T = weights @ A @ mask.T
+    frame = pd.DataFrame(T, index=list(states.tracts), columns=list(states.tracts))
+    frame.index.name = "from \\ to"
+    return frame
+
+
+def _state_frame(
+    values: np.ndarray, model: Any, columns, index_name: str = "state"
+) -> pd.DataFrame:
+    frame = pd.DataFrame(
+        np.asarray(values, dtype=float), index=model.states_.labels(), columns=list(columns)
+    )
+    frame.index.name = index_name
+    return frame
+
+
+def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
+    from faciesseq.report import figures
+
+    numbers: dict[str, Any] = {}
+    ranks = getattr(model, "ranks_", None)
+    for piece in model.emissions_:
+        kind = getattr(piece, "kind", "")
+        name = piece.name
+        key = "model_emission_" + "".join(c if c.isalnum() else "_" for c in name.lower())
+        if kind in ("categorical", "facies", "contact") or (
+            hasattr(piece, "emissionprob_") and not hasattr(piece, "trendprob_")
+        ):
+            table = _state_frame(piece.emissionprob_, model, piece.categories)
+            what = "facies" if "facies" in name else name
+            sub.add(
+                TableBlock(
+                    key, f"Emission probabilities P({what} | state) of the {name} piece.", table
+                ),
+                FigureBlock(
+                    key,
+                    f"Emission probabilities of {what} per state ({name} piece).",
+                    figures.heatmap(
+                        table, value_label="probability", row_title="state", column_title=what
+                    ),
+                ),
+            )
+        elif hasattr(piece, "trendprob_"):
+            first = _state_frame(piece.emissionprob_, model, piece.categories)
+            sub.add(
+                TableBlock(
+                    key + "_first",
+                    "Facies of the lowest bed of a succession (no bed below), per state: "
+                    f"P(facies | state) of the {name} piece.",
+                    first,
+                ),
+                FigureBlock(
+                    key + "_first",
+                    "Facies probabilities of a succession's lowest bed, per state.",
+                    figures.heatmap(
+                        first, value_label="probability", row_title="state", column_title="facies"
+                    ),
+                ),
+            )
+            trend = np.asarray(piece.trendprob_, dtype=float)  # (S, below, above)
+            cats = list(piece.categories)
+            rows = []
+            for s, label in enumerate(model.states_.labels()):
+                for g, below in enumerate(cats):
+                    rows.append(
+                        {
+                            "state": label,
+                            "facies below": below,
+                            **dict(zip(cats, trend[s, g], strict=True)),
+                        }
+                    )
+            sub.add(
+                TableBlock(
+                    key + "_trend",
+                    f"P(facies | facies below, state) of the {name} piece (stacking trend), "
+                    "one row per state and facies below.",
+                    pd.DataFrame(rows),
+                    index=False,
+                    shown=False,
+                )
+            )
+            if ranks is not None and len(ranks) == len(cats) and np.isfinite(ranks).all():
+                r = np.asarray(ranks, dtype=float)
+                change = r[None, None, :] - r[None, :, None]  # above minus below
+                expected = (trend * change).sum(axis=2)  # (S, below)
+                first_p = np.asarray(piece.emissionprob_, dtype=float)
+                mean_change = (expected * first_p).sum(axis=1)
+                frame = pd.DataFrame(
+                    {
+                        "mean rank change upward": mean_change,
+                        "P(deeper facies above)": (
+                            (trend * (change > 0)).sum(axis=2) * first_p
+                        ).sum(axis=1),
+                    },
+                    index=pd.Index(model.states_.labels(), name="state"),
+                )
+                sub.add(
+                    TableBlock(
+                        key + "_trend_summary",
+                        "Stacking trend of each state: expected change of proximality rank from a "
+                        "bed to the bed above (positive = deepening upward, negative = "
+                        "shallowing upward), averaged over the facies below weighted by the "
+                        "state's facies probabilities.",
+                        frame,
+                    )
+                )
+        elif hasattr(piece, "means_"):
+            frame = pd.DataFrame(
+                {"mean": piece.means_, "sd": np.sqrt(np.asarray(piece.vars_, dtype=float))},
+                index=pd.Index(model.states_.labels(), name="state"),
+            )
+            sub.add(
+                TableBlock(
+                    key,
+                    f"Gaussian emission of {name} per state: mean and standard deviation"
+                    + (" (natural log of thickness)." if "thick" in name else "."),
+                    frame,
+                )
+            )
+        numbers[name] = piece.to_dict() if hasattr(piece, "to_dict") else None
+    return numbers
+
+
+def model_section(
+    model: Any,
+    tract_model: TractModel,
+    validation: Any = None,
+    note: str = "",
+    selection: Any = None,
+    scheme: Any = None,
+    validation_reason: str = "no interpreted (labelled) cores to validate against",
+) -> tuple[Section, dict[str, Any]]:
+    """The tract-model section and the numbers behind it (``model``, ``validation``)."""
+    from faciesseq.report import figures
+
+    s = Section("The tract model")
+    numbers: dict[str, Any] = {}
+    try:
+        from faciesseq.hmm.modelfile import model_to_dict
+
+        doc = model_to_dict(model)
+        doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
+        numbers["model"] = doc
+    except ImportError:  # pragma: no cover - model files not available
+        numbers["model"] = None
+    if note:
+        s.add(Paragraph(note, kind="note"))
+    states = model.states_
+    labels = states.labels()
+    features = ", ".join(getattr(model, "features_", ()))
+    s.add(
+        Paragraph(
+            f"{len(states.tracts)} systems tracts ({', '.join(states.tracts)}) in "
+            f"{states.n_states} hidden states; emission pieces: {features}; fitted on "
+            f"{model.n_train_beds_} beds of {len(model.cores_)} cores"
+            + (
+                f", {model.n_labelled_} of them labelled by an interpreter"
+                if model.n_labelled_
+                else ", unsupervised"
+            )
+            + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
+            f"strength {format_value(float(model.prior_strength))}; {model.n_parameters()} free "
+            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}."
+        )
+    )
+    graph = s.sub("Tract graph")
+    tracts = pd.DataFrame(
+        [
+            {
+                "tract": t.code,
+                "name": t.name,
+                "expected trend upward": t.trend,
+                "may be absent": t.code in tract_model.skips,
+                "sub-states": states.substates[list(states.tracts).index(t.code)]
+                if t.code in states.tracts
+                else np.nan,
+            }
+            for t in tract_model.tracts
+        ]
+    ).set_index("tract")
+    surfaces = pd.DataFrame(
+        [
+            {"lower tract": x.lower, "upper tract": x.upper, "surface": x.code, "name": x.name}
+            for x in tract_model.surfaces
+        ]
+    )
+    T = tract_transitions(model)
+    graph.add(
+        TableBlock(
+            "model_tracts",
+            f"Tracts of the tract model “{tract_model.name}”, their cyclic order upward and the "
+            "stacking trend each is expected to show (the priors are built from these trends).",
+            tracts,
+        ),
+        TableBlock(
+            "model_surfaces",
+            "Surfaces named on the tract boundaries the graph allows.",
+            surfaces,
+            index=False,
+        ),
+        FigureBlock(
+            "model_tract_graph",
+            "Tract graph with the fitted probabilities of moving from one tract to the next "
+            "between successive beds; 'stay' is the probability that the next bed belongs to "
+            "the same tract.",
+            figures.tract_graph(tract_model, T),
+        ),
+    )
+    params = s.sub("Transition and emission parameters")
+    A = pd.DataFrame(np.asarray(model.transmat_, dtype=float), index=labels, columns=labels)
+    A.index.name = "from \\ to"
+    start = pd.DataFrame(
+        {"start probability": np.asarray(model.startprob_, dtype=float)},
+        index=pd.Index(labels, name="state"),
+    )
+    params.add(
+        TableBlock(
+            "model_transitions",
+            "Transition matrix between hidden states, bed to bed upward (zeros are boundaries "
+            "the tract graph forbids).",
+            A,
+        ),
+        FigureBlock(
+            "model_transitions",
+            "Transition probabilities between hidden states (row: lower bed's state).",
+            figures.heatmap(
+                A, value_label="probability", row_title="state below", column_title="state above"
+            ),
+        ),
+        TableBlock(
+            "model_start", "Probability of each state at the lowest bed of a succession.", start
+        ),
+    )
+    if len(T) != len(A):
+        params.add(
+            TableBlock(
+                "model_tract_transitions",
+                "Tract-to-tract transition probabilities (sub-states weighted by their "
+                "stationary probability).",
+                T,
+            )
+        )
+    numbers_emissions = _emission_blocks(model, params, scheme)
+    del numbers_emissions  # already in the model file document
+
+    diag = s.sub("Fitting diagnostics")
+    restarts = pd.DataFrame(
+        [
+            {
+                "restart": r["restart"],
+                "seed": r["seed"],
+                "iterations": r["n_iter"],
+                "converged": bool(r["converged"]),
+                "objective": r["objective"],
+                "log-likelihood": r["log_likelihood"],
+                "best": r["restart"] == model.best_restart_,
+            }
+            for r in model.restarts_
+        ]
+    ).set_index("restart")
+    traces = {f"restart {r['restart']} (seed {r['seed']})": r["history"] for r in model.restarts_}
+    best = f"restart {model.best_restart_} (seed {model.restarts_[model.best_restart_]['seed']})"
+    n_conv = int(restarts["converged"].sum())
+    diag.add(
+        Paragraph(
+            f"{n_conv} of {len(restarts)} restarts reached the convergence tolerance "
+            f"({format_value(float(model.tol))} in objective per iteration, at most "
+            f"{model.max_iter} iterations); the restart with the highest objective "
+            "(log-likelihood plus log-prior) is kept."
+        ),
+        TableBlock(
+            "model_restarts",
+            "EM restarts: seed, iterations, convergence, final objective and log-likelihood.",
+            restarts,
+        ),
+        FigureBlock(
+            "model_loglik_trace",
+            "EM objective (log-likelihood plus log-prior) after each iteration, one line per "
+            "restart.",
+            figures.loglik_trace(traces, best=best),
+        ),
+    )
+    if selection is not None:
+        diag.add(
+            TableBlock(
+                "model_selection",
+                "Candidate models fitted on the same beds, with their BIC (Schwarz 1978); the "
+                "selected one has the lowest.",
+                selection.to_frame(),
+                index=False,
+            )
+        )
+        numbers["selection"] = selection.to_dict()
+
+    val = s.sub("Cross-validation")
+    if validation is None:
+        val.add(Paragraph(f"Not available: {validation_reason}.", kind="missing"))
+    else:
+        numbers["validation"] = validation.to_dict()
+        frames = validation.to_frames()
+        settings = dict(getattr(validation, "settings", {}) or {})
+        val.add(
+            Paragraph(
+                f"{validation.folds}-fold cross-validation by core: each core is decoded by a "
+                "model fitted without it and compared bed by bed with the interpreter's "
+                f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
+                "by a stacking-trend rule without a model."
+            ),
+            TableBlock(
+                "validation_summary",
+                "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
+                "Brier score of the tract probabilities and the fraction of maximum flooding "
+                "surfaces picked within one bed.",
+                frames["summary"].set_index("method"),
+            ),
+            TableBlock(
+                "validation_per_tract",
+                "Precision, recall, F1 and support (beds) per tract.",
+                frames["per_tract"].set_index(frames["per_tract"].columns[0]),
+            ),
+        )
+        for method in ("model", "baseline"):
+            confusion = frames[f"confusion_{method}"].copy()
+            confusion.index.name = "interpreted \\ decoded"
+            val.add(
+                TableBlock(
+                    f"validation_confusion_{method}",
+                    f"Confusion matrix of the {method} (beds; rows: interpreter's tract, "
+                    "columns: decoded tract).",
+                    confusion,
+                )
+            )
+        val.add(
+            FigureBlock(
+                "validation_confusion",
+                "Confusion matrix of the tract model (beds).",
+                figures.heatmap(
+                    frames["confusion_model"].astype(float),
+                    value_label="beds",
+                    fmt="{:.0f}",
+                    row_title="interpreted tract",
+                    column_title="decoded tract",
+                ),
+            ),
+            TableBlock(
+                "validation_surfaces",
+                f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
+                f"error ({validation.units}).",
+                frames["surfaces"].set_index(frames["surfaces"].columns[0]),
+            ),
+        )
+        rel = {}
+        for method in ("model", "baseline"):
+            r = getattr(validation, method).reliability
+            rel[method] = pd.DataFrame(
+                {
+                    "predicted": r["mean_probability"],
+                    "observed": r["fraction_correct"],
+                    "count": r["count"],
+                }
+            ).dropna()
+        val.add(
+            TableBlock(
+                "validation_reliability",
+                "Reliability of the tract probabilities: per probability bin, the mean predicted "
+                "probability and the fraction of beds where that tract was the interpreter's.",
+                frames["reliability"],
+                index=False,
+            ),
+            FigureBlock(
+                "validation_reliability",
+                "Reliability curve: observed frequency against predicted tract probability, "
+                "tract model beside the baseline.",
+                figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
+            ),
+        )
+    return s, numbers

@@ -1,0 +1,381 @@
+"""Strip log of one decoded core: facies, tract column, posteriors, surfaces.
+
+Depth increases downward on a shared vertical axis. From left to right:
+
+1. the facies column, one box per bed in the scheme's colour; box width is
+   the bed's grain-size class where every bed's grain size is known (from the
+   bed or its facies in the scheme), otherwise the facies' proximality rank
+   (landward facies drawn wider, as coarser shallow facies usually are;
+   common practice in drawn logs);
+2. the decoded (most likely, Viterbi) tract column;
+3. the posterior probability of each tract per bed, stacked to 1;
+4. the probability of each named surface per depth cell (from
+   :meth:`CoreInterpretation.curves`), with the picks marked and labelled with
+   their probability and uncertainty interval.
+
+Picks are also drawn as thin lines across the facies and tract columns.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch
+
+from faciesseq.errors import InputError
+from faciesseq.interpretation import CoreInterpretation
+from faciesseq.report.style import (
+    PAGE_WIDTH,
+    figure_style,
+    new_figure,
+    save_figure,
+    surface_colour,
+    tract_colour,
+)
+from faciesseq.scheme import FaciesScheme, TractModel
+
+__all__ = ["GRAIN_CLASSES", "bed_widths", "plain", "strip_log"]
+
+#: Grain-size classes of the facies scheme (1 clay ... 7 gravel), abbreviated for ticks.
+GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
+_UNKNOWN_FACIES = "#c8c8c8"
+_GAP = "#f0f0f0"
+
+
+def plain(text: object) -> str:
+    """User text made safe for matplotlib (a ``$`` must not start mathematics)."""
+    return str(text).replace("$", r"\$")
+
+
+def _facies_colour(scheme: FaciesScheme, code: str) -> str:
+    return scheme.colour(code) if code in scheme else _UNKNOWN_FACIES
+
+
+def bed_widths(beds: pd.DataFrame, scheme: FaciesScheme) -> tuple[np.ndarray, str]:
+    """Width (0-1) of each bed's box in the facies column, and the measure used.
+
+    Returns ``(widths, "grain_size")`` when every bed's grain-size class is
+    known, from the bed's ``grain_size`` attribute or else its facies' scheme
+    value (class 1 clay ... 7 gravel; width = class / 7); otherwise
+    ``(widths, "rank")`` with width falling linearly from 1 (most landward
+    rank present) to 0.3 (most basinward). Facies missing from the scheme
+    take the narrowest width in rank mode.
+    """
+    codes = beds["facies"].astype(str).tolist()
+    if "grain_size" in beds.columns:
+        grain = pd.to_numeric(beds["grain_size"], errors="coerce").to_numpy(float)
+    else:
+        grain = np.full(len(beds), np.nan)
+    for i, code in enumerate(codes):
+        if not np.isfinite(grain[i]) and code in scheme and scheme[code].grain_size is not None:
+            grain[i] = float(scheme[code].grain_size)
+    if len(grain) and np.isfinite(grain).all():
+        return np.clip(grain, 0.5, len(GRAIN_CLASSES)) / len(GRAIN_CLASSES), "grain_size"
+    ranks = np.array([scheme.rank(c) if c in scheme else np.nan for c in codes], dtype=float)
+    scheme_ranks = [f.rank for f in scheme.facies]
+    lo, hi = min(scheme_ranks), max(scheme_ranks)
+    span = hi - lo if hi > lo else 1.0
+    widths = 1.0 - 0.7 * (ranks - lo) / span
+    return np.where(np.isfinite(widths), widths, 0.3), "rank"
+
+
+def _runs(beds: pd.DataFrame, column: str) -> list[tuple[float, float, str]]:
+    """``(top, base, value)`` of runs of successive beds sharing ``column`` and segment."""
+    out: list[tuple[float, float, str]] = []
+    last_seg = None
+    for row in beds.itertuples(index=False):
+        value = str(getattr(row, column))
+        top, base, seg = float(row.top), float(row.base), int(getattr(row, "segment", 0))
+        if out and out[-1][2] == value and abs(out[-1][1] - top) < 1e-9 and seg == last_seg:
+            out[-1] = (out[-1][0], base, value)
+        else:
+            out.append((top, base, value))
+        last_seg = seg
+    return out
+
+
+def _gaps(beds: pd.DataFrame) -> list[tuple[float, float]]:
+    top = beds["top"].to_numpy(float)
+    base = beds["base"].to_numpy(float)
+    order = np.argsort(top, kind="stable")
+    top, base = top[order], base[order]
+    return [
+        (float(base[i]), float(top[i + 1]))
+        for i in range(len(top) - 1)
+        if top[i + 1] > base[i] + 1e-9
+    ]
+
+
+def _short(text: str, n: int = 44) -> str:
+    return text if len(text) <= n else text[: n - 1] + "…"
+
+
+def strip_log(
+    interp: CoreInterpretation,
+    scheme: FaciesScheme,
+    tract_model: TractModel,
+    path: str | os.PathLike | None = None,
+    *,
+    step: float | None = None,
+    title: str | None = None,
+    height: float = 9.0,
+) -> Figure:
+    """Draw the strip log of one decoded core.
+
+    Parameters
+    ----------
+    interp
+        The core's interpretation (beds, boundaries and picks in depth order).
+    scheme
+        Facies scheme: colours, names, ranks and grain sizes.
+    tract_model
+        Tract model: tract names and the surfaces' names for the legends.
+    path
+        If given, the figure is also written there (PNG, PDF or SVG by suffix).
+    step
+        Depth cell (core depth units) of the surface probability curves;
+        default: the core's depth range / 400.
+    title
+        Figure title; default ``"Core <name>"``.
+    height
+        Figure height in inches (width is the page width).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        A figure built without ``pyplot``; the depth axis is inverted (depth
+        increases downward).
+
+    Notes
+    -----
+    The surface panel shows, per depth cell, the posterior probability that
+    the surface lies in the cell: the sum of the two-slice posteriors of the
+    tract pairs mapped to the surface at the contacts inside the cell
+    (Rabiner 1989, eq. 37, "A tutorial on hidden Markov models", Proc. IEEE
+    77:257-286).
+    """
+    beds = interp.beds
+    if len(beds) == 0:
+        raise InputError("no beds to draw", core=interp.core)
+    top, base = float(beds["top"].min()), float(beds["base"].max())
+    span = max(base - top, 1e-9)
+    step = float(step) if step else span / 400.0
+    tracts = tuple(interp.tracts)
+    surfaces = tuple(interp.surfaces)
+    units = interp.units
+    widths, measure = bed_widths(beds, scheme)
+    picks = interp.picks if interp.picks is not None else pd.DataFrame()
+    gaps = _gaps(beds)
+
+    facies_present = list(dict.fromkeys(beds["facies"].astype(str)))
+    facies_order = [c for c in scheme.codes_by_rank if c in facies_present] + [
+        c for c in facies_present if c not in scheme
+    ]
+    n_legend = max(len(facies_order) + bool(gaps), len(tracts) + 1, len(surfaces) + 2)
+    legend_h = 0.35 + 0.14 * n_legend
+
+    with figure_style():
+        fig = new_figure(PAGE_WIDTH, height + legend_h, layout="constrained")
+        grid = fig.add_gridspec(
+            2, 4, width_ratios=[2.0, 0.7, 1.6, 1.9], height_ratios=[height, legend_h]
+        )
+        ax_f = fig.add_subplot(grid[0, 0])
+        ax_t = fig.add_subplot(grid[0, 1], sharey=ax_f)
+        ax_p = fig.add_subplot(grid[0, 2], sharey=ax_f)
+        ax_s = fig.add_subplot(grid[0, 3], sharey=ax_f)
+        ax_leg = fig.add_subplot(grid[1, :])
+        ax_leg.set_axis_off()
+
+        b_top = beds["top"].to_numpy(float)
+        b_thk = (beds["base"] - beds["top"]).to_numpy(float)
+        b_mid = b_top + b_thk / 2
+        codes = beds["facies"].astype(str).tolist()
+
+        # 1. facies column
+        ax_f.barh(
+            b_mid,
+            widths,
+            height=b_thk,
+            left=0.0,
+            color=[_facies_colour(scheme, c) for c in codes],
+            edgecolor="#333333",
+            linewidth=0.3,
+        )
+        for g_top, g_base in gaps:
+            for ax in (ax_f, ax_t, ax_p, ax_s):
+                ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
+        ax_f.set_xlim(0, 1.02)
+        if measure == "grain_size":
+            k = np.arange(1, len(GRAIN_CLASSES) + 1)
+            ax_f.set_xticks(k / len(GRAIN_CLASSES), GRAIN_CLASSES)
+            ax_f.set_xlabel("grain size")
+        else:
+            ax_f.set_xticks([])
+            ax_f.set_xlabel("width: proximality\n(landward wider)")
+        ax_f.set_ylabel(f"depth ({units})")
+        ax_f.set_title("facies")
+        ax_f.set_ylim(base + 0.005 * span, top - 0.005 * span)  # inverted: depth downward
+
+        # 2. decoded tract column
+        for r_top, r_base, code in _runs(beds, "tract"):
+            ax_t.axhspan(r_base, r_top, xmin=0, xmax=1, color=tract_colour(code, tracts), lw=0)
+            if (r_base - r_top) > 0.025 * span:
+                ax_t.text(
+                    0.5,
+                    (r_top + r_base) / 2,
+                    code,
+                    ha="center",
+                    va="center",
+                    fontsize=6.5,
+                    color="white" if code in ("HST", "FSST") else "black",
+                    parse_math=False,
+                )
+        ax_t.set_xlim(0, 1)
+        ax_t.set_xticks([])
+        ax_t.set_title("tract")
+        ax_t.set_xlabel("most likely")
+
+        # 3. posterior bands
+        left = np.zeros(len(beds))
+        for code in tracts:
+            p = beds[f"p_{code}"].to_numpy(float)
+            ax_p.barh(
+                b_mid, p, height=b_thk, left=left, color=tract_colour(code, tracts), linewidth=0
+            )
+            left = left + p
+        ax_p.set_xlim(0, 1)
+        ax_p.set_xticks([0, 0.5, 1])
+        ax_p.set_title("tract probability")
+        ax_p.set_xlabel("posterior (stacked)")
+
+        # 4. surface probability curves and picks
+        curves = interp.curves(step)
+        edges_top = curves["depth"].to_numpy(float) - step / 2
+        y = np.column_stack([edges_top, edges_top + step]).ravel()
+        for code in surfaces:
+            p = curves[f"p_{code}"].to_numpy(float)
+            colour = surface_colour(code, surfaces)
+            x = np.repeat(p, 2)
+            ax_s.fill_betweenx(y, 0, x, where=np.isfinite(x), color=colour, alpha=0.85, lw=0)
+        for pick in picks.itertuples(index=False) if len(picks) else ():
+            colour = surface_colour(str(pick.surface), surfaces)
+            depth, prob = float(pick.depth), float(pick.probability)
+            lo = float(getattr(pick, "depth_top", depth))
+            hi = float(getattr(pick, "depth_base", depth))
+            ax_s.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
+            ax_s.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
+            ax_s.text(
+                min(prob + 0.04, 1.02),
+                depth,
+                f"{pick.surface} {prob:.2f}",
+                va="center",
+                ha="left",
+                fontsize=6,
+                color=colour,
+                parse_math=False,
+                clip_on=False,
+            )
+            for ax in (ax_f, ax_t):
+                ax.axhline(depth, color=colour, lw=0.7, ls="--")
+        ax_s.set_xlim(0, 1.0)
+        ax_s.set_xticks([0, 0.5, 1])
+        ax_s.set_title("surface probability")
+        ax_s.set_xlabel(f"per {step:.3g} {units} cell")
+
+        for ax in (ax_t, ax_p, ax_s):
+            ax.tick_params(labelleft=False)
+        for ax in (ax_f, ax_t, ax_p, ax_s):
+            ax.spines["top"].set_visible(True)
+            ax.spines["right"].set_visible(True)
+
+        # legends
+        facies_handles = [
+            Patch(
+                facecolor=_facies_colour(scheme, c),
+                edgecolor="#333333",
+                lw=0.3,
+                label=plain(
+                    f"{c}  {_short(scheme[c].name, 40)}" if c in scheme else f"{c}  (not in scheme)"
+                ),
+            )
+            for c in facies_order
+        ]
+        if gaps:
+            facies_handles.append(
+                Patch(facecolor=_GAP, hatch="xx", edgecolor="#9a9a9a", label="gap (not described)")
+            )
+        tract_names = {t.code: t.name for t in tract_model.tracts}
+        tract_handles = [
+            Patch(
+                color=tract_colour(t, tracts),
+                label=plain(
+                    f"{t}  {_short(tract_names.get(t, '').removesuffix(' systems tract'), 24)}"
+                ),
+            )
+            for t in tracts
+        ]
+        surface_names: dict[str, str] = {}
+        for s in tract_model.surfaces:
+            surface_names.setdefault(s.code, s.name)
+        surface_handles = [
+            Line2D(
+                [],
+                [],
+                color=surface_colour(s, surfaces),
+                label=plain(f"{s}  {_short(surface_names.get(s, ''), 26)}"),
+            )
+            for s in surfaces
+        ]
+        surface_handles.append(
+            Line2D(
+                [],
+                [],
+                marker="<",
+                ls="",
+                color="#555555",
+                mec="black",
+                mew=0.4,
+                label="pick: probability, interval",
+            )
+        )
+        kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
+        leg_f = ax_leg.legend(
+            handles=facies_handles,
+            title="facies (landward → basinward)",
+            loc="upper left",
+            bbox_to_anchor=(0.0, 1.0),
+            **kw,
+        )
+        ax_leg.add_artist(leg_f)
+        leg_t = ax_leg.legend(
+            handles=tract_handles,
+            title="systems tract",
+            loc="upper left",
+            bbox_to_anchor=(0.43, 1.0),
+            **kw,
+        )
+        ax_leg.add_artist(leg_t)
+        ax_leg.legend(
+            handles=surface_handles,
+            title="surface",
+            loc="upper left",
+            bbox_to_anchor=(0.71, 1.0),
+            **kw,
+        )
+
+        fig.suptitle(title if title is not None else f"Core {interp.core}", parse_math=False)
+    if path is not None:
+        save_figure(fig, path)
+    return fig
+
+
+def strip_logs(
+    interps: Sequence[CoreInterpretation], scheme: FaciesScheme, tract_model: TractModel
+) -> list[Figure]:
+    """One strip log per core interpretation, in order."""
+    return [strip_log(i, scheme, tract_model) for i in interps]

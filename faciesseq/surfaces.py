@@ -1,0 +1,222 @@
+"""Bounding surfaces: probabilities at every contact, per-depth curves, and picks.
+
+The probability that a named surface lies at the contact between bed ``t``
+(below) and bed ``t + 1`` (above) is the sum of the two-slice posteriors
+``xi_t(i, j) = P(state_t = i, state_t+1 = j | core)`` (Rabiner 1989, eq. 37)
+over the state pairs whose tracts form a boundary mapped to that surface by the
+tract model (e.g. TST -> HST: maximum flooding surface). Transitions between
+sub-states of one tract are not surfaces.
+
+Depths here are in the core's units; contacts are listed in the order given.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.scheme import TractModel
+
+__all__ = [
+    "SurfacePicks",
+    "boundary_probabilities",
+    "pick_surfaces",
+    "picks_frame",
+    "surface_codes",
+    "surface_curves",
+    "surface_names",
+]
+
+
+def surface_codes(tract_model: TractModel) -> tuple[str, ...]:
+    """Distinct surface codes of the tract model, in order of first mention."""
+    out: list[str] = []
+    for s in tract_model.surfaces:
+        if s.code not in out:
+            out.append(s.code)
+    return tuple(out)
+
+
+def surface_names(tract_model: TractModel) -> dict[str, str]:
+    """Surface code -> name (first name given to the code)."""
+    names: dict[str, str] = {}
+    for s in tract_model.surfaces:
+        names.setdefault(s.code, s.name)
+    return names
+
+
+def surface_pair_mask(tract_model: TractModel, state_tract: np.ndarray) -> np.ndarray:
+    """Boolean ``(n_surfaces, K, K)``: state pairs (lower, upper) that make each surface."""
+    codes = surface_codes(tract_model)
+    tracts = list(tract_model.order)
+    K = len(state_tract)
+    mask = np.zeros((len(codes), K, K), dtype=bool)
+    for s in tract_model.surfaces:
+        c = codes.index(s.code)
+        lo = state_tract == tracts.index(s.lower)
+        up = state_tract == tracts.index(s.upper)
+        mask[c] |= lo[:, None] & up[None, :]
+    return mask
+
+
+def boundary_probabilities(
+    xi: np.ndarray, tract_model: TractModel, state_tract: np.ndarray
+) -> np.ndarray:
+    """Probability of each surface at each contact.
+
+    Parameters
+    ----------
+    xi
+        Two-slice posteriors, ``(n_contacts, K, K)``, row = lower state.
+    tract_model
+        Gives the surfaces and the tract pairs they sit on.
+    state_tract
+        Tract index (in ``tract_model.order``) of every hidden state.
+
+    Returns
+    -------
+    ndarray ``(n_contacts, n_surfaces)`` in the order of :func:`surface_codes`.
+    """
+    mask = surface_pair_mask(tract_model, state_tract).astype(float)
+    if len(xi) == 0:
+        return np.zeros((0, mask.shape[0]))
+    return np.einsum("tij,sij->ts", xi, mask)
+
+
+@dataclass(frozen=True)
+class SurfacePicks:
+    """Picks of one surface along one succession of contacts (index into the contacts)."""
+
+    index: np.ndarray
+    probability: np.ndarray
+    low: np.ndarray
+    high: np.ndarray
+
+
+def pick_surfaces(
+    probability: np.ndarray, threshold: float = 0.5, mass: float = 0.9, floor: float = 0.02
+) -> SurfacePicks:
+    """Pick a surface where its contact probability peaks, with an uncertainty interval.
+
+    The contacts of a succession are cut into *clusters*: runs of contacts
+    with probability at least ``floor``, split again at every local minimum
+    inside a run (so two nearby peaks make two clusters). A cluster's
+    probability mass is the expected number of such surfaces in it; where it
+    reaches ``threshold``, the surface is picked at the cluster's most probable
+    contact. The uncertainty interval is the narrowest run of contacts, grown
+    from the pick towards the more probable neighbour, that holds ``mass`` of
+    the cluster's probability (a highest-density interval along the core).
+    Using the cluster mass, not the peak value alone, keeps a surface whose
+    position is uncertain by a bed or two (probability shared between
+    neighbouring contacts) from being missed.
+
+    Parameters
+    ----------
+    probability
+        ``(n_contacts,)`` probability of the surface at each contact, in order
+        along the succession.
+    threshold, mass, floor
+        See above; all between 0 and 1.
+
+    Returns
+    -------
+    SurfacePicks with contact indices of the picks, their probabilities (at
+    the pick contact) and the contact indices of the interval ends.
+    """
+    p = np.asarray(probability, dtype=float)
+    n = len(p)
+    picks, probs, lows, highs = [], [], [], []
+    i = 0
+    while i < n:
+        if p[i] < floor:
+            i += 1
+            continue
+        j = i
+        while j + 1 < n and p[j + 1] >= floor:
+            j += 1
+        # split the run [i, j] at interior local minima
+        cuts = [i]
+        for k in range(i + 1, j):
+            if p[k] < p[k - 1] and p[k] <= p[k + 1]:
+                cuts.append(k)
+        bounds = [*cuts, j + 1]
+        for c in range(len(bounds) - 1):
+            a, b = bounds[c], bounds[c + 1] - 1  # a valley contact starts the next cluster
+            total = float(p[a : b + 1].sum())
+            if total < threshold:
+                continue
+            peak = a + int(np.argmax(p[a : b + 1]))
+            target = mass * total
+            lo, hi, acc = peak, peak, p[peak]
+            while acc < target - 1e-12 and (lo > a or hi < b):
+                below = p[lo - 1] if lo > a else -1.0
+                above = p[hi + 1] if hi < b else -1.0
+                if below >= above:
+                    lo -= 1
+                    acc += p[lo]
+                else:
+                    hi += 1
+                    acc += p[hi]
+            picks.append(peak)
+            probs.append(p[peak])
+            lows.append(lo)
+            highs.append(hi)
+        i = j + 1
+    as_int = lambda v: np.asarray(v, dtype=int)  # noqa: E731
+    return SurfacePicks(as_int(picks), np.asarray(probs, dtype=float), as_int(lows), as_int(highs))
+
+
+def picks_frame(
+    depth: np.ndarray,
+    probabilities: np.ndarray,
+    codes: tuple[str, ...],
+    names: dict[str, str],
+    segment: int,
+    threshold: float = 0.5,
+    mass: float = 0.9,
+) -> pd.DataFrame:
+    """Picks of every surface along one segment as a table (``CoreInterpretation.picks``).
+
+    ``depth`` and ``probabilities`` (``(n_contacts, n_surfaces)``) may be in
+    any consistent order along the segment; ``depth_top <= depth <= depth_base``.
+    """
+    rows = []
+    for c, code in enumerate(codes):
+        picks = pick_surfaces(probabilities[:, c], threshold, mass)
+        for i, pr, lo, hi in zip(picks.index, picks.probability, picks.low, picks.high):
+            ends = (float(depth[lo]), float(depth[hi]))
+            rows.append(
+                {
+                    "surface": code,
+                    "name": names.get(code, code),
+                    "depth": float(depth[i]),
+                    "probability": float(pr),
+                    "depth_top": min(ends),
+                    "depth_base": max(ends),
+                    "segment": int(segment),
+                }
+            )
+    columns = ["surface", "name", "depth", "probability", "depth_top", "depth_base", "segment"]
+    return pd.DataFrame(rows, columns=columns)
+
+
+def surface_curves(interpretation, step: float) -> pd.DataFrame:
+    """Per-depth probability curves of every core on a regular grid, for plotting.
+
+    One table for an :class:`~faciesseq.interpretation.Interpretation`: a
+    ``core`` column and the columns of
+    :meth:`~faciesseq.interpretation.CoreInterpretation.curves` (``depth``,
+    ``p_<TRACT>``: the posterior of the bed at that depth; ``p_<SURFACE>``: the
+    probability that the surface lies within the cell of height ``step``).
+    """
+    if not step > 0:
+        from faciesseq.errors import ConfigError
+
+        raise ConfigError(f"curve step must be positive, got {step!r}")
+    frames = [core.curves(step).assign(core=core.core) for core in interpretation]
+    if not frames:
+        return pd.DataFrame(columns=["core", "depth"])
+    out = pd.concat(frames, ignore_index=True)
+    return out[["core", *[c for c in out.columns if c != "core"]]]

@@ -1,0 +1,480 @@
+"""Cross-validation of the tract model by core, beside a simple trend-rule baseline.
+
+Cores are dealt to ``K`` folds at random (seeded) and never split: each fold's
+cores are decoded by a model fitted on the other folds' cores, so every score
+is out of sample (Stone 1974, J. R. Statist. Soc. B 36:111-147; grouped by
+core as a described core is one correlated unit -- common practice). Only
+beds with an interpreter's label count.
+
+Scores, for the model and for the baseline (:func:`faciesseq.hmm.baseline.trend_rule`):
+
+- bed accuracy; per-tract precision, recall, F1 and support; confusion matrix
+  (rows = interpreter's tract, columns = decoded);
+- Brier score: mean over beds of ``sum_k (p_k - y_k)^2`` (Brier 1950, Monthly
+  Weather Review 78:1-3; 0 is perfect, 2 the worst; the baseline's
+  probabilities are 0/1);
+- reliability curve: beds binned by the probability of their decoded tract;
+  per bin the mean probability, the fraction correct and the count (DeGroot &
+  Fienberg 1983, The Statistician 32:12-22);
+- surface depth error: for each surface where the interpreter's column changes
+  tract (named by the tract model), the nearest pick of the same surface in
+  the same core segment; the error in depth units and in beds (contacts
+  apart); ``within_one_bed`` is the fraction of true surfaces with a pick at
+  most one contact away.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import CoreSet, Succession
+from faciesseq.errors import ConfigError, InputError
+from faciesseq.hmm.baseline import trend_rule
+from faciesseq.interpretation import Interpretation
+from faciesseq.scheme import TractModel, default_tract_model
+from faciesseq.surfaces import picks_frame, surface_codes, surface_names
+
+__all__ = ["ScoreSet", "ValidationResult", "cross_validate", "score_interpretation"]
+
+
+@dataclass(frozen=True)
+class ScoreSet:
+    """Scores of one method (``"model"`` or ``"baseline"``) over all held-out beds.
+
+    Attributes
+    ----------
+    method
+        ``"model"`` or ``"baseline"``.
+    accuracy, brier, macro_f1
+        Bed accuracy, Brier score, unweighted mean F1 over tracts with support.
+    per_tract
+        Index tract; columns ``precision``, ``recall``, ``f1``, ``support``.
+    confusion
+        Rows interpreter's tract, columns decoded tract, counts of beds.
+    reliability
+        ``bin_low``, ``bin_high``, ``mean_probability``, ``fraction_correct``, ``count``.
+    surfaces
+        Index surface code; ``n_true``, ``n_matched`` (a pick of that surface in
+        the segment), ``within_one_bed`` (fraction of ``n_true``),
+        ``median_abs_error`` (depth units), ``mean_abs_error_beds``.
+    """
+
+    method: str
+    accuracy: float
+    brier: float
+    macro_f1: float
+    per_tract: pd.DataFrame
+    confusion: pd.DataFrame
+    reliability: pd.DataFrame
+    surfaces: pd.DataFrame
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "method": self.method,
+            "accuracy": self.accuracy,
+            "brier": self.brier,
+            "macro_f1": self.macro_f1,
+            "per_tract": self.per_tract.reset_index().to_dict(orient="records"),
+            "confusion": {
+                "tracts": [str(c) for c in self.confusion.columns],
+                "counts": self.confusion.to_numpy().tolist(),
+            },
+            "reliability": self.reliability.to_dict(orient="records"),
+            "surfaces": self.surfaces.reset_index().to_dict(orient="records"),
+        }
+
+
+@dataclass(frozen=True)
+class ValidationResult:
+    """Cross-validation by core: scores of the model and of the baseline.
+
+    Attributes
+    ----------
+    folds
+        Number of folds ``K``.
+    units
+        Depth units of the surface errors.
+    fold_of_core
+        Core -> fold number (0-based).
+    model, baseline
+        :class:`ScoreSet` of each.
+    beds
+        Every scored bed: ``core``, ``fold``, ``segment``, ``top``, ``base``,
+        ``facies``, ``label``, ``model``, ``baseline`` and ``p_<TRACT>``.
+    settings
+        What was run (labels column, mode, features, seed...).
+    """
+
+    folds: int
+    units: str
+    fold_of_core: dict[str, int]
+    model: ScoreSet
+    baseline: ScoreSet
+    beds: pd.DataFrame
+    settings: dict[str, Any] = field(default_factory=dict)
+
+    def summary(self) -> pd.DataFrame:
+        """One row per method: accuracy, macro F1, Brier score, MFS within one bed."""
+        rows = []
+        for s in (self.model, self.baseline):
+            mfs = (
+                float(s.surfaces.loc["MFS", "within_one_bed"])
+                if "MFS" in s.surfaces.index
+                else float("nan")
+            )
+            rows.append(
+                {
+                    "method": s.method,
+                    "accuracy": s.accuracy,
+                    "macro_f1": s.macro_f1,
+                    "brier": s.brier,
+                    "mfs_within_one_bed": mfs,
+                }
+            )
+        return pd.DataFrame(rows)
+
+    def to_frames(self) -> dict[str, pd.DataFrame]:
+        """Tables by name: ``summary``, ``per_tract``, ``confusion_model``,
+        ``confusion_baseline``, ``reliability``, ``surfaces``, ``beds``."""
+        per_tract = pd.concat(
+            [s.per_tract.assign(method=s.method) for s in (self.model, self.baseline)]
+        ).reset_index()
+        reliability = pd.concat(
+            [s.reliability.assign(method=s.method) for s in (self.model, self.baseline)],
+            ignore_index=True,
+        )
+        surfaces = pd.concat(
+            [s.surfaces.assign(method=s.method) for s in (self.model, self.baseline)]
+        ).reset_index()
+        return {
+            "summary": self.summary(),
+            "per_tract": per_tract,
+            "confusion_model": self.model.confusion,
+            "confusion_baseline": self.baseline.confusion,
+            "reliability": reliability,
+            "surfaces": surfaces,
+            "beds": self.beds,
+        }
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "folds": self.folds,
+            "units": self.units,
+            "fold_of_core": dict(self.fold_of_core),
+            "settings": dict(self.settings),
+            "summary": self.summary().to_dict(orient="records"),
+            "model": self.model.to_dict(),
+            "baseline": self.baseline.to_dict(),
+        }
+
+
+def _true_surfaces(
+    beds: pd.DataFrame, column: str, tract_model: TractModel
+) -> list[tuple[str, int, int, float]]:
+    """(surface, segment, contact index in depth order, depth) where ``column`` changes."""
+    out = []
+    for seg, part in beds.groupby("segment", sort=False):
+        labels = part[column].to_numpy(dtype=object)
+        tops = part["top"].to_numpy(float)
+        # depth order: bed i above bed i+1; contact i = top of bed i+1
+        for i in range(len(part) - 1):
+            upper, lower = labels[i], labels[i + 1]
+            if upper is None or lower is None or upper == lower:
+                continue
+            s = tract_model.surface(str(lower), str(upper))
+            if s is not None:
+                out.append((s.code, int(seg), i, float(tops[i + 1])))
+    return out
+
+
+def _surface_errors(
+    beds: pd.DataFrame,
+    picks: pd.DataFrame,
+    label: str,
+    tract_model: TractModel,
+) -> list[dict[str, Any]]:
+    rows = []
+    for code, seg, contact, depth in _true_surfaces(beds, label, tract_model):
+        part = beds[beds["segment"] == seg]
+        contacts = part["top"].to_numpy(float)[1:]
+        cand = picks[(picks["surface"] == code) & (picks["segment"] == seg)]
+        if len(cand) == 0:
+            rows.append({"surface": code, "matched": False, "error": np.nan, "beds": np.nan})
+            continue
+        d = cand["depth"].to_numpy(float)
+        k = int(np.argmin(np.abs(d - depth)))
+        j = int(np.argmin(np.abs(contacts - d[k])))
+        rows.append(
+            {
+                "surface": code,
+                "matched": True,
+                "error": float(abs(d[k] - depth)),
+                "beds": abs(j - contact),
+            }
+        )
+    return rows
+
+
+def score_interpretation(
+    method: str,
+    labels: np.ndarray,
+    predicted: np.ndarray,
+    probabilities: np.ndarray,
+    tracts: Sequence[str],
+    surface_rows: Sequence[dict[str, Any]],
+    surfaces: Sequence[str],
+    n_bins: int = 10,
+) -> ScoreSet:
+    """Scores of one method on labelled beds (see the module docstring)."""
+    from sklearn.metrics import confusion_matrix, precision_recall_fscore_support
+
+    tracts = list(tracts)
+    labels = np.asarray(labels, dtype=object)
+    predicted = np.asarray(predicted, dtype=object)
+    if len(labels) == 0:
+        raise InputError("no labelled beds to score")
+    prec, rec, f1, support = precision_recall_fscore_support(
+        labels, predicted, labels=tracts, zero_division=0
+    )
+    per_tract = pd.DataFrame(
+        {"precision": prec, "recall": rec, "f1": f1, "support": support},
+        index=pd.Index(tracts, name="tract"),
+    )
+    confusion = pd.DataFrame(
+        confusion_matrix(labels, predicted, labels=tracts),
+        index=pd.Index(tracts, name="label"),
+        columns=pd.Index(tracts, name="decoded"),
+    )
+    onehot = (labels[:, None] == np.asarray(tracts, dtype=object)[None, :]).astype(float)
+    brier = float(np.mean(np.sum((probabilities - onehot) ** 2, axis=1)))
+    chosen = probabilities[np.arange(len(predicted)), [tracts.index(p) for p in predicted]]
+    correct = predicted == labels
+    edges = np.linspace(0, 1, n_bins + 1)
+    which = np.clip(np.digitize(chosen, edges[1:-1], right=True), 0, n_bins - 1)
+    rel = []
+    for b in range(n_bins):
+        m = which == b
+        rel.append(
+            {
+                "bin_low": edges[b],
+                "bin_high": edges[b + 1],
+                "mean_probability": float(chosen[m].mean()) if m.any() else np.nan,
+                "fraction_correct": float(correct[m].mean()) if m.any() else np.nan,
+                "count": int(m.sum()),
+            }
+        )
+    srows = pd.DataFrame(list(surface_rows), columns=["surface", "matched", "error", "beds"])
+    surf = []
+    for code in surfaces:
+        part = srows[srows["surface"] == code]
+        n = len(part)
+        beds_err = part["beds"].to_numpy(float)
+        surf.append(
+            {
+                "surface": code,
+                "n_true": n,
+                "n_matched": int(part["matched"].sum()) if n else 0,
+                "within_one_bed": float(np.mean(np.nan_to_num(beds_err, nan=np.inf) <= 1))
+                if n
+                else np.nan,
+                "median_abs_error": float(np.nanmedian(part["error"]))
+                if part["matched"].any()
+                else np.nan,
+                "mean_abs_error_beds": float(np.nanmean(beds_err))
+                if part["matched"].any()
+                else np.nan,
+            }
+        )
+    supported = per_tract["support"] > 0
+    return ScoreSet(
+        method,
+        float(np.mean(correct)),
+        brier,
+        float(per_tract.loc[supported, "f1"].mean()) if supported.any() else float("nan"),
+        per_tract,
+        confusion,
+        pd.DataFrame(rel),
+        pd.DataFrame(surf).set_index("surface"),
+    )
+
+
+def _baseline(
+    succ: Sequence[Succession], interp: Interpretation, scheme, tract_model: TractModel
+) -> dict[str, tuple[pd.DataFrame, pd.DataFrame]]:
+    """Trend-rule tract column and its surfaces (picked where the column changes)."""
+    order = list(tract_model.order)
+    codes = surface_codes(tract_model)
+    names = surface_names(tract_model)
+    out: dict[str, list] = {}
+    for s in succ:
+        if scheme is not None:
+            ranks = np.array([scheme.rank(f) if f in scheme else np.nan for f in s.facies])
+        else:
+            ranks = np.full(len(s), np.nan)
+        rule = trend_rule(ranks, np.array([len(s)]), tract_model)[::-1]  # depth order
+        tracts = [order[i] for i in rule]
+        depth = s.beds["top"].to_numpy(float)[:-1][::-1]
+        probs = np.zeros((len(depth), len(codes)))
+        for i in range(len(depth)):
+            upper, lower = tracts[i], tracts[i + 1]
+            sf = tract_model.surface(lower, upper) if upper != lower else None
+            if sf is not None:
+                probs[i, codes.index(sf.code)] = 1.0
+        picks = picks_frame(depth, probs, codes, names, s.segment, threshold=0.5)
+        out.setdefault(s.core, []).append((s.segment, tracts, picks))
+    result = {}
+    for core, parts in out.items():
+        parts.sort(key=lambda p: p[0])
+        tracts = [t for _, ts, _ in parts for t in ts]
+        picks = pd.concat([p for _, _, p in parts], ignore_index=True)
+        result[core] = (tracts, picks)
+    return result
+
+
+def cross_validate(
+    successions: CoreSet | Sequence[Succession],
+    labels: str,
+    folds: int = 5,
+    *,
+    mode: str = "supervised",
+    random_state: int | None = 0,
+    progress: Callable[[int, int], None] | None = None,
+    **params: Any,
+) -> ValidationResult:
+    """K-fold cross-validation by core.
+
+    Parameters
+    ----------
+    successions
+        Core set or successions (base to top) carrying the label column.
+    labels
+        Bed column with the interpreter's tract (blank = unlabelled, not scored).
+    folds
+        Number of folds (at most the number of cores).
+    mode
+        ``"supervised"``: training cores' labels clamp the states;
+        ``"unsupervised"``: training ignores the labels (tests identifiability).
+    random_state
+        Seeds the deal of cores to folds and the model's restarts.
+    progress
+        Called as ``progress(fold, folds)`` after each fold.
+    **params
+        :class:`~faciesseq.hmm.model.TractHMM` hyper-parameters (``scheme``,
+        ``tract_model``, ``features``...).
+    """
+    from faciesseq.hmm.model import TractHMM, _as_successions
+
+    if mode not in ("supervised", "unsupervised"):
+        raise ConfigError(f"mode must be 'supervised' or 'unsupervised', got {mode!r}")
+    unit, step = params.get("unit", "beds"), params.get("step")
+    succ = [s for s in _as_successions(successions, unit, step) if len(s)]
+    if succ and labels not in succ[0].beds.columns:
+        raise ConfigError(
+            f"label column {labels!r} not found (columns: {sorted(map(str, succ[0].beds.columns))})"
+        )
+    cores = list(dict.fromkeys(s.core for s in succ))
+    if folds < 2:
+        raise ConfigError(f"--folds must be at least 2, got {folds}")
+    if len(cores) < folds:
+        raise ConfigError(f"{folds} folds need at least {folds} cores; the data has {len(cores)}")
+    rng = np.random.default_rng(random_state)
+    shuffled = [cores[i] for i in rng.permutation(len(cores))]
+    fold_of = {c: k % folds for k, c in enumerate(shuffled)}
+    tract_model = params.get("tract_model") or default_tract_model()
+    scheme = params.get("scheme")
+    tracts = list(tract_model.order)
+    codes = surface_codes(tract_model)
+    frames = []
+    rows_model: list[dict] = []
+    rows_base: list[dict] = []
+    units = succ[0].units if succ else "m"
+    for k in range(folds):
+        train = [s for s in succ if fold_of[s.core] != k]
+        test = [s for s in succ if fold_of[s.core] == k]
+        model = TractHMM(random_state=random_state, **params)
+        model.fit(train, labels=labels if mode == "supervised" else None)
+        interp = model.decode(test)
+        base = _baseline(test, interp, scheme, tract_model)
+        for core in dict.fromkeys(s.core for s in test):
+            ci = interp[core]
+            beds = ci.beds
+            # labels from the successions themselves, in the interpretation's
+            # depth order (segments in order, each top first): never from the
+            # decoded table, whose ``tract`` column is the model's
+            parts = sorted((s for s in test if s.core == core), key=lambda s: s.segment)
+            raw = np.concatenate([s.beds[labels].to_numpy(dtype=object)[::-1] for s in parts])
+            label = pd.Series(
+                [
+                    None
+                    if (v is None or (isinstance(v, float) and np.isnan(v)) or str(v).strip() == "")
+                    else str(v).strip()
+                    for v in raw
+                ],
+                index=beds.index,
+                dtype=object,
+            )
+            base_tracts, base_picks = base[core]
+            frame = pd.DataFrame(
+                {
+                    "core": core,
+                    "fold": k,
+                    "segment": beds["segment"].to_numpy(),
+                    "top": beds["top"].to_numpy(float),
+                    "base": beds["base"].to_numpy(float),
+                    "facies": beds["facies"].to_numpy(),
+                    "label": label.to_numpy(),
+                    "model": beds["tract"].to_numpy(),
+                    "baseline": base_tracts,
+                }
+            )
+            for t in tracts:
+                frame[f"p_{t}"] = beds[f"p_{t}"].to_numpy(float)
+            frames.append(frame)
+            lab_beds = beds.assign(_label=label.to_numpy())
+            rows_model += _surface_errors(lab_beds, ci.picks, "_label", tract_model)
+            rows_base += _surface_errors(lab_beds, base_picks, "_label", tract_model)
+        if progress is not None:
+            progress(k + 1, folds)
+    beds = pd.concat(frames, ignore_index=True)
+    scored = beds[beds["label"].notna()]
+    unknown = sorted(set(scored["label"]) - set(tracts))
+    if unknown:
+        raise InputError(f"label column {labels!r} holds codes that are not tracts: {unknown}")
+    probs = scored[[f"p_{t}" for t in tracts]].to_numpy(float)
+    base_probs = (
+        scored["baseline"].to_numpy(dtype=object)[:, None]
+        == np.asarray(tracts, dtype=object)[None, :]
+    ).astype(float)
+    label_arr = scored["label"].to_numpy(dtype=object)
+    model_scores = score_interpretation(
+        "model", label_arr, scored["model"].to_numpy(dtype=object), probs, tracts, rows_model, codes
+    )
+    base_scores = score_interpretation(
+        "baseline",
+        label_arr,
+        scored["baseline"].to_numpy(dtype=object),
+        base_probs,
+        tracts,
+        rows_base,
+        codes,
+    )
+    settings = {
+        "labels": labels,
+        "mode": mode,
+        "random_state": random_state,
+        "n_cores": len(cores),
+        "n_beds_scored": len(scored),
+    }
+    settings.update(
+        {
+            k: v
+            for k, v in params.items()
+            if k in ("features", "substates", "prior_strength", "cycle_prior", "unit", "step")
+        }
+    )
+    return ValidationResult(folds, units, fold_of, model_scores, base_scores, beds, settings)

@@ -1,0 +1,101 @@
+"""Appendix figures drawn from invented numbers: legends, labels, values, files."""
+
+import numpy as np
+import pandas as pd
+import pytest
+from matplotlib.colorbar import Colorbar
+from matplotlib.legend import Legend
+
+from faciesseq.report import figures
+from faciesseq.report.style import save_figure
+from faciesseq.scheme import default_tract_model, load_scheme
+
+
+@pytest.fixture(scope="module")
+def scheme():
+    return load_scheme("configs/scheme-shoreface.yaml")
+
+
+def _legends(fig):
+    return [a for ax in fig.axes for a in ax.get_children() if isinstance(a, Legend)]
+
+
+def _difference(scheme):
+    rng = np.random.default_rng(3)
+    values = rng.normal(0, 0.15, (len(scheme), len(scheme)))
+    np.fill_diagonal(values, np.nan)
+    return pd.DataFrame(values, index=list(scheme.codes), columns=list(scheme.codes))
+
+
+def test_heatmap_writes_every_value_and_marks_significant_cells(scheme, tmp_path):
+    table = _difference(scheme)
+    marks = table.abs() > 0.15
+    fig = figures.heatmap(table, value_label="observed − expected", diverging=True, marks=marks)
+    texts = [t.get_text() for t in fig.axes[0].texts]
+    n = len(scheme)
+    assert len(texts) == n * n
+    assert sum(t.endswith("*") for t in texts) == int(marks.to_numpy().sum())
+    assert f"{table.iloc[0, 1]:.2f}" in texts[1]
+    assert texts[0] == "–"  # the blank diagonal
+    # colour bar is the legend of the colour scale
+    assert any(isinstance(getattr(ax, "_colorbar", None), Colorbar) for ax in fig.axes)
+    assert fig.axes[-1].get_ylabel() == "observed − expected"
+    assert _legends(fig)
+    path = save_figure(fig, tmp_path / "hm.svg")
+    assert b"<svg" in path.read_bytes()[:500]
+
+
+def test_heatmap_of_constant_matrix_does_not_fail(scheme):
+    table = pd.DataFrame(np.ones((2, 2)), index=["a", "b"], columns=["a", "b"])
+    fig = figures.heatmap(table)
+    assert [t.get_text() for t in fig.axes[0].texts] == ["1.00"] * 4
+
+
+def test_facies_relationship_diagram_draws_only_positive_cells(scheme):
+    table = _difference(scheme)
+    significant = table.abs() > 0.15
+    fig = figures.facies_relationship_diagram(table, scheme, significant=significant)
+    arrows = [p for p in fig.axes[0].patches if type(p).__name__ == "FancyArrowPatch"]
+    assert len(arrows) == int((table > 0.05).to_numpy().sum())
+    labels = {t.get_text() for t in fig.axes[0].texts}
+    assert set(scheme.codes) <= labels
+    assert _legends(fig)
+
+
+def test_tract_graph_has_an_arrow_per_allowed_boundary():
+    model = default_tract_model()
+    allowed = np.array(model.allowed())
+    n_edges = int(allowed.sum() - np.trace(allowed))
+    fig = figures.tract_graph(model)
+    arrows = [p for p in fig.axes[0].patches if type(p).__name__ == "FancyArrowPatch"]
+    assert len(arrows) == n_edges
+    texts = {t.get_text() for t in fig.axes[0].texts}
+    assert {"MFS", "SB", "MRS", "BSFR"} <= texts
+    transitions = pd.DataFrame(
+        np.full((4, 4), 0.25), index=list(model.order), columns=list(model.order)
+    )
+    fig = figures.tract_graph(model, transitions)
+    assert "HST\nstay 0.25" in {t.get_text() for t in fig.axes[0].texts}
+    assert _legends(fig)
+
+
+def test_loglik_trace_and_reliability_curve_have_legends():
+    fig = figures.loglik_trace(
+        {"restart 1": [-10, -8, -7.5], "restart 2": [-12, -9]}, best="restart 1"
+    )
+    labels = [t.get_text() for t in _legends(fig)[0].get_texts()]
+    assert labels == ["restart 1 (best)", "restart 2"]
+    bins = pd.DataFrame(
+        {"predicted": [0.1, 0.5, 0.9], "observed": [0.2, 0.5, 0.8], "count": [3, 5, 9]}
+    )
+    fig = figures.reliability_curve(bins, baseline=bins.assign(observed=0.5))
+    labels = [t.get_text() for t in _legends(fig)[0].get_texts()]
+    assert labels == ["perfectly calibrated", "tract model", "baseline"]
+    assert fig.axes[0].get_xlim() == (0.0, 1.0)
+
+
+def test_bar_chart_has_one_bar_per_cell(scheme):
+    table = pd.DataFrame({"beds": [0.2, 0.8], "thickness": [0.4, 0.6]}, index=["CP", "FS"])
+    fig = figures.bar_chart(table, colours={"CP": scheme.colour("CP")})
+    assert len(fig.axes[0].patches) == 4
+    assert [t.get_text() for t in _legends(fig)[0].get_texts()] == ["beds", "thickness"]

@@ -1,0 +1,413 @@
+"""HMM engine: forward-backward, Viterbi, two-slice posteriors, clamping.
+
+Outside references: hmmlearn 0.3.3 ``CategoricalHMM`` (same parameters, both
+its ``"scaling"`` and ``"log"`` implementations), brute-force enumeration of
+all state paths, and the published Viterbi worked example (Wikipedia,
+"Viterbi algorithm", the Healthy/Fever example).
+"""
+
+from __future__ import annotations
+
+import itertools
+import warnings
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from faciesseq.errors import ConfigError, InputError
+from faciesseq.hmm.engine import (
+    Posteriors,
+    constrained_log_emission,
+    forward_backward,
+    viterbi,
+)
+
+hmm = pytest.importorskip("hmmlearn.hmm")
+
+
+def _random_model(rng, n_states, n_symbols, zeros=True):
+    startprob = rng.dirichlet(np.ones(n_states))
+    transmat = rng.dirichlet(np.ones(n_states), size=n_states)
+    if zeros:
+        # Structural zeros off the diagonal, as in a tract graph.
+        for i in range(n_states):
+            transmat[i, (i + 2) % n_states] = 0.0
+        transmat /= transmat.sum(axis=1, keepdims=True)
+    emission = rng.dirichlet(np.ones(n_symbols), size=n_states)
+    return startprob, transmat, emission
+
+
+def _hmmlearn(startprob, transmat, emission, implementation):
+    model = hmm.CategoricalHMM(
+        n_components=len(startprob), init_params="", params="", implementation=implementation
+    )
+    model.startprob_ = startprob
+    model.transmat_ = transmat
+    model.emissionprob_ = emission
+    model.n_features = emission.shape[1]
+    return model
+
+
+def _split(x, lengths):
+    ends = np.cumsum(lengths)
+    return [x[e - n : e] for n, e in zip(lengths, ends)]
+
+
+@pytest.fixture(scope="module")
+def case():
+    rng = np.random.default_rng(20261201)
+    startprob, transmat, emission = _random_model(rng, n_states=5, n_symbols=6)
+    # Unequal lengths including length-1 sequences and one long sequence
+    # (2,000 steps: far beyond float64 range without scaling).
+    lengths = np.concatenate([rng.integers(1, 60, size=40), [1, 1, 2000]])
+    rng.shuffle(lengths)
+    symbols = rng.integers(0, emission.shape[1], size=lengths.sum())
+    log_emission = np.log(emission)[:, symbols].T
+    return startprob, transmat, emission, lengths, symbols, log_emission
+
+
+# --------------------------------------------------------------------------
+# reference library: hmmlearn CategoricalHMM, same parameters
+
+
+@pytest.mark.parametrize("implementation", ["scaling", "log"])
+@pytest.mark.parametrize("batch_size", [None, 37])
+def test_forward_backward_matches_hmmlearn(case, implementation, batch_size):
+    startprob, transmat, emission, lengths, symbols, log_emission = case
+    model = _hmmlearn(startprob, transmat, emission, implementation)
+    X = symbols[:, None]
+    total, gamma_ref = model.score_samples(X, lengths)
+    per_seq = np.array([model.score(x) for x in _split(X, lengths)])
+
+    post = forward_backward(log_emission, lengths, startprob, transmat, batch_size=batch_size)
+    assert isinstance(post, Posteriors)
+    np.testing.assert_allclose(post.log_likelihood, per_seq, rtol=0, atol=1e-8)
+    assert abs(post.total_log_likelihood - total) < 1e-8
+    np.testing.assert_allclose(post.gamma, gamma_ref, rtol=0, atol=1e-8)
+
+    # Expected transition and initial-state counts: hmmlearn's E-step
+    # sufficient statistics stats["trans"], stats["start"].
+    model.params = "st"
+    stats, logprob = model._do_estep(X, lengths)
+    assert abs(logprob - total) < 1e-8
+    np.testing.assert_allclose(post.xi_sum, stats["trans"], rtol=0, atol=1e-8)
+    np.testing.assert_allclose(post.start, stats["start"], rtol=0, atol=1e-8)
+
+
+@pytest.mark.parametrize("implementation", ["scaling", "log"])
+def test_viterbi_matches_hmmlearn(case, implementation):
+    startprob, transmat, emission, lengths, symbols, log_emission = case
+    model = _hmmlearn(startprob, transmat, emission, implementation)
+    X = symbols[:, None]
+    total_ref, path_ref = model.decode(X, lengths, algorithm="viterbi")
+    per_seq = np.array([model.decode(x, algorithm="viterbi")[0] for x in _split(X, lengths)])
+
+    path, log_prob = viterbi(log_emission, lengths, startprob, transmat)
+    np.testing.assert_array_equal(path, path_ref)
+    np.testing.assert_allclose(log_prob, per_seq, rtol=0, atol=1e-8)
+    assert abs(log_prob.sum() - total_ref) < 1e-8
+
+
+# --------------------------------------------------------------------------
+# brute force: enumerate every state path of a 3-state, length-5 sequence
+
+
+def _brute_force(log_emission, startprob, transmat):
+    T, K = log_emission.shape
+    emission = np.exp(log_emission)
+    likelihood = 0.0
+    gamma = np.zeros((T, K))
+    xi = np.zeros((T - 1, K, K))
+    best, best_path = -1.0, None
+    for path in itertools.product(range(K), repeat=T):
+        p = startprob[path[0]] * emission[0, path[0]]
+        for t in range(1, T):
+            p *= transmat[path[t - 1], path[t]] * emission[t, path[t]]
+        likelihood += p
+        for t in range(T):
+            gamma[t, path[t]] += p
+        for t in range(T - 1):
+            xi[t, path[t], path[t + 1]] += p
+        if p > best:  # strict: the first (lowest-index) path wins ties
+            best, best_path = p, path
+    return np.log(likelihood), gamma / likelihood, xi / likelihood, np.array(best_path), best
+
+
+def test_brute_force_three_states_length_five():
+    rng = np.random.default_rng(5)
+    startprob, transmat, emission = _random_model(rng, n_states=3, n_symbols=4)
+    symbols = rng.integers(0, 4, size=5)
+    le = np.log(emission)[:, symbols].T
+    ll, gamma, xi, best_path, best = _brute_force(le, startprob, transmat)
+
+    post = forward_backward(le, [5], startprob, transmat, return_xi=True)
+    assert abs(post.log_likelihood[0] - ll) < 1e-12
+    np.testing.assert_allclose(post.gamma, gamma, rtol=0, atol=1e-12)
+    np.testing.assert_allclose(post.xi, xi, rtol=0, atol=1e-12)
+    np.testing.assert_allclose(post.xi_sum, xi.sum(axis=0), rtol=0, atol=1e-12)
+
+    path, log_prob = viterbi(le, [5], startprob, transmat)
+    np.testing.assert_array_equal(path, best_path)
+    assert abs(log_prob[0] - np.log(best)) < 1e-12
+
+
+# --------------------------------------------------------------------------
+# published worked example
+
+
+def test_viterbi_wikipedia_healthy_fever_example():
+    # Wikipedia, "Viterbi algorithm", worked example: states Healthy/Fever,
+    # observations normal, cold, dizzy -> Healthy, Healthy, Fever with
+    # probability 0.01512.
+    startprob = np.array([0.6, 0.4])
+    transmat = np.array([[0.7, 0.3], [0.4, 0.6]])
+    emission = np.array([[0.5, 0.4, 0.1], [0.1, 0.3, 0.6]])  # normal, cold, dizzy
+    le = np.log(emission[:, [0, 1, 2]].T)
+    path, log_prob = viterbi(le, [3], startprob, transmat)
+    assert path.tolist() == [0, 0, 1]
+    assert np.exp(log_prob[0]) == pytest.approx(0.01512, abs=1e-12)
+
+
+# --------------------------------------------------------------------------
+# invariants
+
+
+@st.composite
+def _models(draw):
+    K = draw(st.integers(2, 4))
+    seed = draw(st.integers(0, 2**32 - 1))
+    rng = np.random.default_rng(seed)
+    n_seq = draw(st.integers(1, 6))
+    lengths = rng.integers(1, 12, size=n_seq)
+    startprob = rng.dirichlet(np.ones(K))
+    transmat = rng.dirichlet(np.ones(K), size=K)
+    # Random structural zeros, keeping the diagonal so every row stays valid.
+    zero = (rng.random((K, K)) < 0.3) & ~np.eye(K, dtype=bool)
+    transmat[zero] = 0.0
+    transmat /= transmat.sum(axis=1, keepdims=True)
+    le = rng.normal(scale=3.0, size=(int(lengths.sum()), K))
+    batch = draw(st.sampled_from([None, 1, 5]))
+    return le, lengths, startprob, transmat, batch
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(_models())
+def test_posterior_invariants(model):
+    le, lengths, startprob, transmat, batch = model
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no NaN/inf/divide warnings
+        post = forward_backward(le, lengths, startprob, transmat, return_xi=True, batch_size=batch)
+    T, K = le.shape
+    assert post.gamma.shape == (T, K)
+    assert post.xi.shape == (T - len(lengths), K, K)
+    np.testing.assert_allclose(post.gamma.sum(axis=1), 1.0, atol=1e-12)
+    np.testing.assert_allclose(post.xi.sum(axis=(1, 2)), 1.0, atol=1e-12)
+    # boundary t of each sequence: rows sum to gamma[t], columns to gamma[t+1]
+    lower = np.concatenate([np.arange(s, s + n - 1) for s, n in zip(_starts(lengths), lengths)])
+    np.testing.assert_allclose(post.xi.sum(axis=2), post.gamma[lower], atol=1e-12)
+    np.testing.assert_allclose(post.xi.sum(axis=1), post.gamma[lower + 1], atol=1e-12)
+    # structural zeros get no mass, exactly
+    assert np.all(post.xi[:, transmat == 0] == 0.0)
+    assert np.all(post.xi_sum[transmat == 0] == 0.0)
+    np.testing.assert_allclose(post.xi_sum, post.xi.sum(axis=0), atol=1e-12)
+    np.testing.assert_allclose(post.start, post.gamma[_starts(lengths)].sum(axis=0), atol=1e-12)
+    assert np.all(np.isfinite(post.log_likelihood))
+    # the Viterbi path never takes a forbidden transition
+    path, log_prob = viterbi(le, lengths, startprob, transmat, batch_size=batch)
+    for seq in _split(path, lengths):
+        assert np.all(transmat[seq[:-1], seq[1:]] > 0)
+    # the best path is no more likely than all paths together
+    assert np.all(log_prob <= post.log_likelihood + 1e-9)
+
+
+def _starts(lengths):
+    return np.concatenate(([0], np.cumsum(lengths)[:-1]))
+
+
+def test_batch_size_does_not_change_results(case):
+    startprob, transmat, _, lengths, _, le = case
+    ref = forward_backward(le, lengths, startprob, transmat, return_xi=True)
+    path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
+    for batch in (1, 50, 10_000):
+        post = forward_backward(le, lengths, startprob, transmat, return_xi=True, batch_size=batch)
+        lean = forward_backward(le, lengths, startprob, transmat, batch_size=batch)
+        # xi_sum without per-boundary xi is accumulated by another code path
+        np.testing.assert_allclose(lean.xi_sum, ref.xi_sum, rtol=1e-12)
+        np.testing.assert_allclose(lean.gamma, ref.gamma, atol=1e-12)
+        np.testing.assert_allclose(post.log_likelihood, ref.log_likelihood, rtol=1e-12)
+        np.testing.assert_allclose(post.gamma, ref.gamma, atol=1e-12)
+        np.testing.assert_allclose(post.xi, ref.xi, atol=1e-12)
+        path, lp = viterbi(le, lengths, startprob, transmat, batch_size=batch)
+        np.testing.assert_array_equal(path, path_ref)
+        np.testing.assert_allclose(lp, lp_ref, rtol=1e-12)
+
+
+def test_length_one_sequences():
+    startprob = np.array([0.2, 0.8])
+    transmat = np.array([[0.9, 0.1], [0.0, 1.0]])
+    le = np.log([[0.5, 0.25], [0.1, 0.9], [1.0, 1.0]])
+    post = forward_backward(le, [1, 1, 1], startprob, transmat, return_xi=True)
+    joint = startprob * np.exp(le)
+    np.testing.assert_allclose(post.gamma, joint / joint.sum(axis=1, keepdims=True))
+    np.testing.assert_allclose(post.log_likelihood, np.log(joint.sum(axis=1)))
+    assert post.xi.shape == (0, 2, 2)
+    assert np.all(post.xi_sum == 0)
+    path, log_prob = viterbi(le, [1, 1, 1], startprob, transmat)
+    assert path.tolist() == [1, 1, 1]
+    np.testing.assert_allclose(log_prob, np.log(joint.max(axis=1)))
+
+
+def test_missing_observation_marginalised():
+    # A row of zeros (log 1) contributes nothing: the likelihood equals that
+    # of the sequence with the row's emission summed out.
+    startprob = np.array([0.5, 0.5])
+    transmat = np.array([[0.8, 0.2], [0.3, 0.7]])
+    emission = np.array([[0.6, 0.4], [0.1, 0.9]])
+    le = np.log(emission[:, [0, 1, 0]].T)
+    le[1] = 0.0
+    ll = forward_backward(le, None, startprob, transmat).log_likelihood[0]
+    total = 0.0
+    for middle in (0, 1):
+        le_full = np.log(emission[:, [0, middle, 0]].T)
+        total += np.exp(forward_backward(le_full, None, startprob, transmat).log_likelihood[0])
+    assert ll == pytest.approx(np.log(total), abs=1e-12)
+
+
+# --------------------------------------------------------------------------
+# clamping (semi-supervised labels)
+
+
+def test_clamped_rows_keep_their_state(case):
+    startprob, transmat, _, lengths, _, le = case
+    rng = np.random.default_rng(11)
+    clamp = np.full(le.shape[0], -1)
+    labelled = rng.random(le.shape[0]) < 0.2
+    # Labels from the unconstrained Viterbi path are always feasible.
+    path0, _ = viterbi(le, lengths, startprob, transmat)
+    clamp[labelled] = path0[labelled]
+    cle = constrained_log_emission(le, clamp)
+    assert np.all(le[~labelled] == cle[~labelled])
+    post = forward_backward(cle, lengths, startprob, transmat)
+    rows = np.flatnonzero(labelled)
+    np.testing.assert_array_equal(post.gamma[rows, clamp[rows]], 1.0)
+    path, _ = viterbi(cle, lengths, startprob, transmat)
+    np.testing.assert_array_equal(path[rows], clamp[rows])
+
+
+def test_clamping_changes_free_rows_as_bayes_says():
+    # Two states, sticky chain: clamping row 0 to state 1 must raise the
+    # posterior of state 1 at row 1 (brute force gives the exact value).
+    startprob = np.array([0.5, 0.5])
+    transmat = np.array([[0.9, 0.1], [0.1, 0.9]])
+    le = np.log(np.full((3, 2), 0.5))
+    cle = constrained_log_emission(le, np.array([1, -1, -1]))
+    _, gamma, _, _, _ = _brute_force(cle, startprob, transmat)
+    post = forward_backward(cle, [3], startprob, transmat)
+    np.testing.assert_allclose(post.gamma, gamma, atol=1e-12)
+    assert post.gamma[1, 1] == pytest.approx(0.9)
+
+
+def test_clamp_mask_of_sub_states():
+    # A tract of two sub-states (columns 1 and 2): the row must be in one of them.
+    rng = np.random.default_rng(3)
+    startprob, transmat, _ = _random_model(rng, 4, 2, zeros=False)
+    le = rng.normal(size=(6, 4))
+    mask = np.ones((6, 4), dtype=bool)
+    mask[2] = [False, True, True, False]
+    cle = constrained_log_emission(le, mask)
+    post = forward_backward(cle, [6], startprob, transmat)
+    assert post.gamma[2, [0, 3]].tolist() == [0.0, 0.0]
+    assert post.gamma[2, 1:3].sum() == pytest.approx(1.0)
+    path, _ = viterbi(cle, [6], startprob, transmat)
+    assert path[2] in (1, 2)
+
+
+def test_constrained_log_emission_rejects_bad_clamps():
+    le = np.zeros((3, 2))
+    with pytest.raises(InputError, match="row 1"):
+        constrained_log_emission(le, np.array([0, 2, -1]))
+    with pytest.raises(InputError, match="row 0 allows no state"):
+        constrained_log_emission(le, np.zeros((3, 2), dtype=bool))
+    with pytest.raises(InputError, match="shape"):
+        constrained_log_emission(le, np.array([0, 1]))
+
+
+# --------------------------------------------------------------------------
+# impossible sequences and bad input
+
+
+def test_impossible_sequence_names_the_sequence():
+    startprob = np.array([1.0, 0.0])
+    transmat = np.array([[0.5, 0.5], [0.0, 1.0]])  # no way back from state 1
+    le = np.zeros((9, 2))
+    lengths = [3, 2, 4]
+    clamp = np.full(9, -1)
+    clamp[5:7] = [1, 0]  # sequence 2: state 1 then state 0, forbidden
+    cle = constrained_log_emission(le, clamp)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        with pytest.raises(InputError, match=r"sequence 2 is impossible"):
+            forward_backward(cle, lengths, startprob, transmat)
+        with pytest.raises(InputError, match=r"sequence 2 is impossible"):
+            viterbi(cle, lengths, startprob, transmat)
+    # a row where every state is forbidden
+    le2 = np.zeros((9, 2))
+    le2[3] = -np.inf
+    with pytest.raises(InputError, match=r"sequence 1 is impossible"):
+        forward_backward(le2, lengths, startprob, transmat)
+    with pytest.raises(InputError, match=r"sequence 1 is impossible"):
+        viterbi(le2, lengths, startprob, transmat)
+
+
+def test_bad_input_is_reported():
+    pi, A = np.array([0.5, 0.5]), np.array([[0.5, 0.5], [0.5, 0.5]])
+    with pytest.raises(InputError, match="lengths sum to 4"):
+        forward_backward(np.zeros((5, 2)), [2, 2], pi, A)
+    with pytest.raises(InputError, match="sequence 1 has length 0"):
+        forward_backward(np.zeros((2, 2)), [2, 0], pi, A)
+    le = np.zeros((3, 2))
+    le[1, 0] = np.nan
+    with pytest.raises(InputError, match="row 1, state 0"):
+        viterbi(le, [3], pi, A)
+    with pytest.raises(ConfigError, match="transmat row 1"):
+        forward_backward(np.zeros((3, 2)), [3], pi, np.array([[0.5, 0.5], [0.2, 0.2]]))
+    with pytest.raises(ConfigError, match="startprob has shape"):
+        forward_backward(np.zeros((3, 2)), [3], np.ones(3) / 3, A)
+
+
+def test_row_shift_changes_only_the_log_likelihood(case):
+    # log p(obs_t | k) + a_t for all k multiplies the likelihood by exp(a_t) and
+    # leaves every posterior unchanged (follows from the definition; common
+    # practice). Shifts of -2000 and +1000 would under/overflow float64 without
+    # the per-row rescaling.
+    startprob, transmat, _, lengths, _, le = case
+    ref = forward_backward(le, lengths, startprob, transmat, return_xi=True)
+    rng = np.random.default_rng(2)
+    shift = rng.choice([0.0, -2000.0, 1000.0, -300.0], size=le.shape[0])
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        post = forward_backward(le + shift[:, None], lengths, startprob, transmat, return_xi=True)
+    per_seq = np.array([s.sum() for s in _split(shift, lengths)])
+    np.testing.assert_allclose(post.log_likelihood, ref.log_likelihood + per_seq, rtol=1e-12)
+    np.testing.assert_allclose(post.gamma, ref.gamma, atol=1e-12)
+    np.testing.assert_allclose(post.xi, ref.xi, atol=1e-12)
+    path, lp = viterbi(le + shift[:, None], lengths, startprob, transmat)
+    path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
+    np.testing.assert_array_equal(path, path_ref)
+    np.testing.assert_allclose(lp, lp_ref + per_seq, rtol=1e-12)
+
+
+def test_posteriors_tables():
+    pi, A = np.array([0.5, 0.5]), np.array([[0.9, 0.1], [0.2, 0.8]])
+    le = np.log(np.array([[0.9, 0.1], [0.5, 0.5], [0.2, 0.8]]))
+    post = forward_backward(le, [2, 1], pi, A)
+    table = post.to_frame([2, 1])
+    assert table["sequence"].tolist() == [0, 0, 1]
+    assert table["row"].tolist() == [0, 1, 0]
+    np.testing.assert_array_equal(table[["p_0", "p_1"]].to_numpy(), post.gamma)
+    d = post.to_dict()
+    assert d["log_likelihood"] == post.log_likelihood.tolist()
+    assert d["total_log_likelihood"] == pytest.approx(post.log_likelihood.sum())
+    assert np.array(d["xi_sum"]).shape == (2, 2)

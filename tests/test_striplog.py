@@ -1,0 +1,121 @@
+"""Strip logs drawn from synthetic decoded cores (invented numbers)."""
+
+import numpy as np
+import pytest
+from _synthetic import synthetic_core
+from matplotlib.legend import Legend
+from PIL import Image
+
+from faciesseq.errors import InputError
+from faciesseq.report.striplog import bed_widths, strip_log
+from faciesseq.report.style import TRACT_COLOURS
+from faciesseq.scheme import default_tract_model, load_scheme
+
+SCHEME = "configs/scheme-shoreface.yaml"
+
+
+@pytest.fixture(scope="module")
+def model():
+    return default_tract_model()
+
+
+@pytest.fixture(scope="module")
+def scheme():
+    return load_scheme(SCHEME)
+
+
+def _legends(fig):
+    return [a for ax in fig.axes for a in ax.get_children() if isinstance(a, Legend)]
+
+
+def test_strip_log_writes_a_print_sized_png_with_legends(tmp_path, model, scheme):
+    path = tmp_path / "core.png"
+    fig = strip_log(synthetic_core(model), scheme, model, path)
+    assert path.stat().st_size > 20_000
+    with Image.open(path) as img:
+        width, height = img.size
+    # page width 7 in at 200 dpi, cropped tight: between 5 and 7.5 inches wide
+    assert 1000 < width < 1500
+    assert height > width
+    titles = sorted(leg.get_title().get_text() for leg in _legends(fig))
+    assert titles == ["facies (landward → basinward)", "surface", "systems tract"]
+    tract_labels = [t.get_text() for leg in _legends(fig) for t in leg.get_texts()]
+    assert any(label.startswith("TST") for label in tract_labels)
+
+
+def test_depth_axis_points_down_and_spans_the_core(model, scheme):
+    core = synthetic_core(model)
+    fig = strip_log(core, scheme, model)
+    depth_axis = fig.axes[0]
+    assert depth_axis.yaxis_inverted()
+    low, high = sorted(depth_axis.get_ylim())
+    assert low <= core.beds["top"].min() and high >= core.beds["base"].max()
+    assert "depth (m)" in depth_axis.get_ylabel()
+
+
+def test_tract_column_uses_the_project_palette(model, scheme):
+    core = synthetic_core(model)
+    fig = strip_log(core, scheme, model)
+    tract_axis = fig.axes[1]
+    colours = {tuple(np.round(p.get_facecolor()[:3], 3)) for p in tract_axis.patches}
+    from matplotlib.colors import to_rgb
+
+    expected = {tuple(np.round(to_rgb(TRACT_COLOURS[t]), 3)) for t in set(core.beds["tract"])}
+    assert expected <= colours
+
+
+def test_widths_follow_grain_size_when_known_else_rank(model, scheme):
+    with_grain = synthetic_core(model, grain=True).beds
+    widths, measure = bed_widths(with_grain, scheme)
+    assert measure == "grain_size"
+    assert widths == pytest.approx(np.clip(with_grain["grain_size"], 0.5, 7) / 7)
+    no_grain = load_scheme("configs/scheme-shoreface.yaml")
+    beds = synthetic_core(model).beds.assign(facies="SHM")
+    beds.loc[0, "facies"] = "UNKNOWN"
+    widths, measure = bed_widths(beds, no_grain)
+    # SHM has a scheme grain size but UNKNOWN has none: falls back to rank
+    assert measure == "rank"
+    assert widths[1] == pytest.approx(0.3)  # SHM is the most basinward rank
+
+
+def test_posterior_bands_stack_to_one(model, scheme):
+    core = synthetic_core(model)
+    fig = strip_log(core, scheme, model)
+    bands = fig.axes[2].patches
+    right = {}
+    for bar in bands:
+        key = round(bar.get_y(), 6)
+        right[key] = max(right.get(key, 0.0), bar.get_x() + bar.get_width())
+    assert len(right) == len(core.beds)
+    assert np.allclose(list(right.values()), 1.0)
+
+
+def test_picks_are_labelled_with_their_probability(model, scheme):
+    core = synthetic_core(model)
+    fig = strip_log(core, scheme, model)
+    texts = [t.get_text() for t in fig.axes[3].texts]
+    for pick in core.picks.itertuples():
+        assert f"MFS {pick.probability:.2f}" in texts
+
+
+def test_names_with_markup_are_drawn_as_text(tmp_path, model, scheme):
+    core = synthetic_core(model, name="$<script>$")
+    fig = strip_log(core, scheme, model, tmp_path / "x.pdf")
+    assert fig._suptitle.get_text() == "Core $<script>$"
+    assert (tmp_path / "x.pdf").read_bytes()[:4] == b"%PDF"
+
+
+def test_empty_core_is_refused_with_its_name(model, scheme):
+    core = synthetic_core(model)
+    empty = type(core)(
+        core.core,
+        "m",
+        core.tracts,
+        core.surfaces,
+        core.beds.iloc[:0],
+        core.boundaries.iloc[:0],
+        core.picks.iloc[:0],
+        0.0,
+    )
+    with pytest.raises(InputError, match="W-1"):
+        strip_log(empty, scheme, model)

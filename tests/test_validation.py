@@ -1,0 +1,65 @@
+"""Cross-validation by core, with the trend-rule baseline (synthetic cores, invented).
+
+Brier score after Brier (1950), Monthly Weather Review 78:1-3: for 0/1
+forecasts it is twice the error rate (each wrong bed scores 1 + 1).
+"""
+
+import json
+
+import hmm_synthetic as synth
+import numpy as np
+import pytest
+
+from faciesseq.errors import ConfigError
+from faciesseq.validation import cross_validate
+
+
+@pytest.fixture(scope="module")
+def result():
+    succ = synth.cores(9, 70, seed=51)
+    return cross_validate(succ, "true_tract", folds=3, scheme=synth.scheme(), n_restarts=1)
+
+
+def test_folds_never_split_a_core(result):
+    beds = result.beds
+    assert beds.groupby("core")["fold"].nunique().max() == 1
+    assert sorted(set(result.fold_of_core.values())) == [0, 1, 2]
+
+
+def test_scores_are_consistent_with_the_bed_table(result):
+    beds = result.beds
+    acc = float(np.mean(beds["model"] == beds["label"]))
+    assert result.model.accuracy == pytest.approx(acc)
+    assert int(result.model.confusion.to_numpy().sum()) == len(beds)
+    assert int(result.model.per_tract["support"].sum()) == len(beds)
+    assert 0 <= result.model.brier <= 2
+    # the 0/1 baseline's Brier score is twice its error rate
+    assert result.baseline.brier == pytest.approx(2 * (1 - result.baseline.accuracy))
+    rel = result.model.reliability
+    assert int(rel["count"].sum()) == len(beds)
+
+
+def test_the_model_gains_over_the_trend_rule(result):
+    summary = result.summary().set_index("method")
+    assert summary.loc["model", "accuracy"] > summary.loc["baseline", "accuracy"] + 0.15
+    assert summary.loc["model", "brier"] < summary.loc["baseline", "brier"]
+
+
+def test_frames_and_dict_are_serialisable(result):
+    frames = result.to_frames()
+    assert set(frames) == {
+        "summary",
+        "per_tract",
+        "confusion_model",
+        "confusion_baseline",
+        "reliability",
+        "surfaces",
+        "beds",
+    }
+    json.dumps(result.to_dict(), allow_nan=True, default=float)
+
+
+def test_too_many_folds_is_a_config_error():
+    succ = synth.cores(2, 20, seed=52)
+    with pytest.raises(ConfigError, match="need at least 3 cores"):
+        cross_validate(succ, "true_tract", folds=3, scheme=synth.scheme())
