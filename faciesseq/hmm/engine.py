@@ -16,9 +16,9 @@ surface probabilities need. hmmlearn is the reference the tests compare
 against (same log-likelihoods, posteriors, expected transition counts and
 Viterbi paths), and ``benchmarks/bench_em.py`` measures the speed of both
 (``benchmarks/hmm_engine.md``): one EM iteration on 1,000,000 observations
-with 16 states took 0.40 of hmmlearn's CPU time on a loaded 2-core machine;
-Viterbi, whose maxima numpy cannot hand to BLAS, took about 2.3 times
-hmmlearn's compiled loop.
+with 16 states took 0.39-0.41 of hmmlearn's CPU time (iterations after the
+first, on a loaded 2-core machine); Viterbi, whose maxima numpy cannot hand
+to BLAS, took about 2.2 times the CPU time of hmmlearn's compiled loop.
 
 Batching: sequences are sorted by length (longest first) and grouped into
 batches of at most ``batch_size`` rows. Inside a batch the rows are stored
