@@ -656,9 +656,11 @@ def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
         final_lp = final_delta[np.arange(B), final_state]
         dead = np.flatnonzero(final_lp == -np.inf)
         if dead.size:
-            raise _impossible(
-                batch, int(batch.last[dead[0]]), "no path of non-zero probability ends"
-            )
+            # Name the first row where every path of that sequence has died.
+            j = int(dead[0])
+            packed = batch.offsets[: batch.lengths[j]] + j
+            first = int(np.flatnonzero(delta[:, packed].max(axis=0) == -np.inf)[0])
+            raise _impossible(batch, int(packed[first]), "no path of non-zero probability")
         log_prob[batch.seq] = final_lp
 
         # Backtracking: the predecessor of state k at step t is recomputed as
