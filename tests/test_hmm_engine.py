@@ -132,6 +132,8 @@ def _brute_force(log_emission, startprob, transmat):
             xi[t, path[t], path[t + 1]] += p
         if p > best:  # strict: the first (lowest-index) path wins ties
             best, best_path = p, path
+    if likelihood == 0.0:  # impossible sequence
+        return -np.inf, None, None, None, 0.0
     return np.log(likelihood), gamma / likelihood, xi / likelihood, np.array(best_path), best
 
 
@@ -428,3 +430,32 @@ def test_posteriors_tables():
     assert d["log_likelihood"] == post.log_likelihood.tolist()
     assert d["total_log_likelihood"] == pytest.approx(post.log_likelihood.sum())
     assert np.array(d["xi_sum"]).shape == (2, 2)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(0, 2**32 - 1))
+def test_clamped_posteriors_match_brute_force(seed):
+    # Brute force over all 3^5 paths, with clamped rows and structural zeros:
+    # labels enter only through -inf log-emissions, so enumeration with
+    # exp(-inf) = 0 gives the exact conditional posteriors.
+    rng = np.random.default_rng(seed)
+    K, T = 3, 5
+    startprob = rng.dirichlet(np.ones(K))
+    transmat = rng.dirichlet(np.ones(K), size=K)
+    transmat[0, 2] = transmat[2, 1] = 0.0
+    transmat /= transmat.sum(axis=1, keepdims=True)
+    le = rng.normal(scale=2.0, size=(T, K))
+    clamp = np.where(rng.random(T) < 0.4, rng.integers(0, K, size=T), -1)
+    cle = constrained_log_emission(le, clamp)
+    ll, gamma, xi, best_path, best = _brute_force(cle, startprob, transmat)
+    if not np.isfinite(ll):
+        with pytest.raises(InputError, match="sequence 0 is impossible"):
+            forward_backward(cle, [T], startprob, transmat)
+        return
+    post = forward_backward(cle, [T], startprob, transmat, return_xi=True)
+    assert abs(post.log_likelihood[0] - ll) < 1e-10
+    np.testing.assert_allclose(post.gamma, gamma, atol=1e-12)
+    np.testing.assert_allclose(post.xi, xi, atol=1e-12)
+    path, log_prob = viterbi(cle, [T], startprob, transmat)
+    assert abs(log_prob[0] - np.log(best)) < 1e-10
+    np.testing.assert_array_equal(path, best_path)
