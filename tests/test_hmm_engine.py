@@ -459,3 +459,6 @@ def test_clamped_posteriors_match_brute_force(seed):
     path, log_prob = viterbi(cle, [T], startprob, transmat)
     assert abs(log_prob[0] - np.log(best)) < 1e-10
     np.testing.assert_array_equal(path, best_path)
+    rows = np.flatnonzero(clamp >= 0)
+    np.testing.assert_array_equal(post.gamma[rows, clamp[rows]], 1.0)
+    np.testing.assert_array_equal(path[rows], clamp[rows])
