@@ -382,10 +382,11 @@ def forward_backward(
     """State and two-slice posteriors and log-likelihoods of many sequences.
 
     Scaled forward-backward recursions (Rabiner 1989, section V.A). Each row of
-    ``log_emission`` is shifted by its maximum and exponentiated, so emissions
-    lie in ``(0, 1]``; the forward variables are normalised at every step
-    (scale factor ``c_t``), the backward variables divided by the same factors,
-    and ``log L = sum_t (log c_t + max_k log_emission[t, k])``. Zeros in
+    ``log_emission`` is exponentiated, after subtracting a shift ``m_t`` (its
+    maximum) on rows whose exponentials would under- or overflow; the forward
+    variables are normalised at every step (scale factor ``c_t``), the
+    backward variables divided by the same factors, and
+    ``log L = sum_t (log c_t + m_t)``. Zeros in
     ``transmat`` and ``startprob`` stay exact zeros in every posterior
     (structural zeros of the tract graph), with no log of zero taken.
 
