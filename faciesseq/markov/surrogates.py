@@ -226,6 +226,7 @@ def transition_surrogates(
     seg_len = np.r_[gr.degree[tv] - 1, gr.degree[gr.root_vertices]]
     active = np.nonzero(gr.lengths > 1)[0]
     max_len = int(gr.lengths.max(initial=0))
+    ends = set(gr.lengths.tolist())
     for batch in _batches(n_surrogates, max(gr.n_edges, n_states)):
         labels = np.broadcast_to(base_labels, (batch, gr.n_edges)).copy()
         if len(tv):
@@ -249,11 +250,10 @@ def transition_surrogates(
         col = np.arange(batch)[None, :]
         cur = np.broadcast_to((active * m + gr.start[active])[:, None], (len(active), batch))
         for t in range(max_len - 1):
-            if gr.lengths[active[0]] <= t + 1 or gr.lengths[active[-1]] <= t + 1 or t == 0:
+            if t + 1 in ends:
                 keep = gr.lengths[active] > t + 1
-                if not keep.all():
-                    active = active[keep]
-                    cur = cur[keep]
+                active = active[keep]
+                cur = cur[keep]
             if len(active) == 0:
                 break
             vi = cur * batch + col
