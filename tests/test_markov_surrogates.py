@@ -46,11 +46,11 @@ def test_transition_surrogates_keep_each_successions_counts_and_first_facies():
 
 def _all_with_same_counts(seq):
     """Every sequence with seq's transition counts and first state (brute force)."""
-    target = collections.Counter(zip(seq[:-1], seq[1:]))
+    target = collections.Counter(itertools.pairwise(seq))
     out = set()
     for perm in set(itertools.permutations(seq[1:])):
         cand = (seq[0], *perm)
-        if collections.Counter(zip(cand[:-1], cand[1:])) == target:
+        if collections.Counter(itertools.pairwise(cand)) == target:
             out.add(cand)
     return out
 
