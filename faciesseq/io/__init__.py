@@ -1,0 +1,135 @@
+"""Reading a core database into a validated :class:`~faciesseq.core.CoreSet`, and writing one.
+
+Sources, chosen from the path or URL: CSV/TSV (delimiter sniffed), Excel
+``.xlsx``, Parquet, LAS 2.0, a folder of such files, a SQLite file, any
+SQLAlchemy URL, or a YAML source file naming one of these with its reading
+options. See docs/io.md for layouts, column roles, units and problem kinds.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import replace
+from pathlib import Path
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import ConfigError
+from faciesseq.io.columns import ROLES, match_columns
+from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, load_source_file, read_tables
+from faciesseq.io.summary import DatabaseSummary, summarise
+from faciesseq.io.validate import build_coreset, facies_code
+from faciesseq.io.writer import write_cores
+from faciesseq.scheme import FaciesScheme, load_scheme
+
+__all__ = [
+    "ROLES",
+    "DatabaseSummary",
+    "facies_code",
+    "match_columns",
+    "read_cores",
+    "summarise",
+    "write_cores",
+]
+
+
+def read_cores(
+    source: str | Path,
+    *,
+    layout: str | None = None,
+    columns: Mapping[str, str] | None = None,
+    units: str | None = None,
+    sheet: str | None = None,
+    table: str | None = None,
+    query: str | None = None,
+    curve: str | None = None,
+    scheme: FaciesScheme | str | Path | None = None,
+    repeated_depths: str = "error",
+) -> CoreSet:
+    """Read and validate a core database.
+
+    Parameters
+    ----------
+    source
+        A CSV/TSV, ``.xlsx``, Parquet or LAS file, a folder of them, a SQLite
+        file, a SQLAlchemy URL (``postgresql://user@host/db``) or a YAML source
+        file (``*.yaml``; its options are used where the arguments here are
+        ``None``).
+    layout
+        ``"intervals"`` (core, top, base, facies) or ``"samples"`` (core,
+        depth, facies); detected from the columns when ``None``.
+    columns
+        Role -> column name, e.g. ``{"core": "Well Name", "depth": "Depth"}``;
+        roles are :data:`ROLES`. Unmapped roles are found among common variants,
+        case-insensitively.
+    units
+        ``"m"`` or ``"ft"``: the units of depths the source does not state, and
+        the units every stated depth is converted to (1 ft = 0.3048 m exactly).
+    sheet, table, query, curve
+        Excel sheet; database table, or a read-only ``SELECT`` to run instead;
+        LAS facies curve.
+    scheme
+        A facies scheme (or its YAML path): aliases are resolved to scheme
+        codes and codes not in it are errors.
+    repeated_depths
+        Sample layout: ``"error"`` (default) or ``"keep-first"`` (the first of
+        repeated depths is kept; each left out row is reported as a repair).
+
+    Returns
+    -------
+    CoreSet
+        Cores in order of first appearance, with ``problems`` holding every
+        error, warning and repair (rows with errors are left out of the cores)
+        and ``meta["sample_step"]`` (core -> sample spacing, sample layout).
+
+    Raises
+    ------
+    InputError
+        The source cannot be read at all (not found, unreadable, unknown
+        format, missing required column, mixed depth units).
+    ConfigError
+        A bad option (unknown role, option not applying to the source, ...).
+    """
+    spec = SourceSpec(
+        source=str(source),
+        layout=layout,
+        columns=dict(columns or {}),
+        units=units,
+        sheet=sheet,
+        table=table,
+        query=query,
+        curve=curve,
+    )
+    if Path(str(source)).suffix.lower() in YAML_SUFFIXES:
+        spec = _merge(load_source_file(Path(str(source))), spec)
+        if repeated_depths == "error" and spec.repeated_depths:
+            repeated_depths = spec.repeated_depths
+    if isinstance(scheme, str | Path):
+        scheme = load_scheme(scheme)
+    if spec.units is not None and spec.units not in ("m", "ft"):
+        raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
+    tables, problems, sources = read_tables(spec)
+    cores = build_coreset(
+        tables,
+        layout=spec.layout,
+        columns=spec.columns,
+        units=spec.units,
+        scheme=scheme,
+        repeated_depths=repeated_depths,
+        sources=sources,
+    )
+    if problems:
+        cores = replace(cores, problems=tuple(problems) + cores.problems)
+    return cores
+
+
+def _merge(from_file: SourceSpec, given: SourceSpec) -> SourceSpec:
+    """Options given as arguments win over the YAML source file; column maps are merged."""
+    columns = dict(from_file.columns)
+    columns.update({str(k).strip().lower(): v for k, v in given.columns.items()})
+    out = {"source": from_file.source, "columns": columns}
+    for key in ("layout", "units", "sheet", "table", "query", "curve"):
+        value = getattr(given, key)
+        out[key] = value if value is not None else getattr(from_file, key)
+    out["encoding"] = from_file.encoding
+    out["repeated_depths"] = from_file.repeated_depths
+    return SourceSpec(**out)

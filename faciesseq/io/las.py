@@ -1,0 +1,217 @@
+"""LAS 2.0 files (lasio): one well per file, a discrete facies curve on the depth index.
+
+Reading: the depth units come from the index curve (or ``STRT``) in the
+header; the core is named by the ``WELL`` header item (else the file name);
+the facies curve is ``curve`` or the curve whose mnemonic looks like a facies
+column (``FACIES``, ``LITHOFACIES``, ``FAC``...). Samples holding the header's
+``NULL`` value (e.g. -999.25) are not described: they are left out and the
+count is reported; the validation step then reports the gaps they leave.
+
+Text in LAS 2.0 data is awkward, so this project stores a text-valued curve
+(a facies code such as ``USF``, a contact type) as whole numbers 1, 2, ...
+with the meaning of each number in the ``~Parameter`` section: the mnemonic
+``<CURVE>_<n>`` holds the text of value ``n``. The reader decodes any curve
+that has such entries.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.io.columns import ROLES, _key, normalise_units
+from faciesseq.io.raw import RawTable
+from faciesseq.io.tabular import decode_text
+
+__all__ = ["LAS_NULL", "read_las", "write_las"]
+
+#: Null value written in the header of the LAS files this project writes.
+LAS_NULL = -999.25
+
+
+def _facies_curve(mnemonics: list[str], curve: str | None, file: str) -> str:
+    if curve is not None:
+        hits = [m for m in mnemonics if m.lower() == curve.strip().lower()]
+        if not hits:
+            raise InputError(
+                f"no curve {curve!r}; the curves are {', '.join(mnemonics)}", file=file
+            )
+        return hits[0]
+    hits = [m for m in mnemonics[1:] if _key(m) in ROLES["facies"]]
+    if len(hits) == 1:
+        return hits[0]
+    if not hits:
+        raise InputError(
+            "no facies curve found (looked for FACIES, LITHOFACIES, FAC...); name it with "
+            f"--curve (the curves are {', '.join(mnemonics)})",
+            file=file,
+        )
+    raise InputError(
+        f"curves {', '.join(hits)} all look like facies curves; name one with --curve", file=file
+    )
+
+
+def read_las(path: Path, curve: str | None = None, encoding: str | None = None) -> RawTable:
+    """Read one LAS 2.0 file as a sample-layout table (see the module notes)."""
+    import lasio
+
+    file = str(path)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
+    text, problems = decode_text(data, file, encoding)
+    try:
+        las = lasio.read(io.StringIO(text), null_policy="strict", ignore_header_errors=False)
+    except Exception as exc:  # lasio raises many types for a malformed file
+        raise InputError(
+            f"not a readable LAS file ({type(exc).__name__}: {exc})", file=file
+        ) from None
+    mnemonics = [c.mnemonic for c in las.curves]
+    if len(mnemonics) < 2:
+        raise InputError("LAS file has no curves besides the depth index", file=file)
+    index = mnemonics[0]
+    facies = _facies_curve(mnemonics, curve, file)
+    unit = las.curves[0].unit or (las.well["STRT"].unit if "STRT" in las.well else "")
+    units = normalise_units(unit, where=file) if unit and unit.strip() else None
+    well = str(las.well["WELL"].value).strip() if "WELL" in las.well else ""
+    codes: dict[str, dict[float, str]] = {}
+    for item in las.params:
+        m = re.match(r"^(?P<curve>.+)_(?P<n>\d+)$", item.mnemonic)
+        if m and m.group("curve") in mnemonics:
+            codes.setdefault(m.group("curve"), {})[float(m.group("n"))] = str(item.value)
+    frame = pd.DataFrame({m: np.asarray(las[m]) for m in mnemonics}).astype(object)
+    null = las.well["NULL"].value if "NULL" in las.well else None
+    nulls: dict[str, int] = {}
+    for m in mnemonics:
+        col = pd.to_numeric(frame[m], errors="coerce")
+        missing = col.isna() & pd.Series(frame[m]).notna()  # text stays text
+        is_null = col.isna() & ~missing
+        if null is not None:
+            is_null |= np.isclose(col.astype(float), float(null), equal_nan=False)
+        if is_null.any():
+            nulls[m] = int(is_null.sum())
+            frame.loc[is_null, m] = None
+        if m in codes:
+            table = codes[m]
+            frame[m] = [
+                None if v is None or pd.isna(v) else table.get(float(v), v) for v in frame[m]
+            ]
+    rows = np.arange(1, len(frame) + 1)
+    n_null = nulls.pop(facies, 0)
+    if n_null:
+        problems.append(
+            Problem(
+                "warning",
+                "null",
+                f"{n_null} sample(s) of curve {facies} hold the null value "
+                f"{null if null is not None else '(blank)'}: not described, left out",
+                file=file,
+                core=well or path.stem,
+            )
+        )
+        keep = frame[facies].notna().to_numpy()
+        frame = frame[keep].reset_index(drop=True)
+        rows = rows[keep]
+    if nulls:
+        listed = ", ".join(f"{m} ({n})" for m, n in nulls.items())
+        problems.append(
+            Problem(
+                "warning",
+                "null",
+                f"null values read as missing in curve(s) {listed}",
+                file=file,
+                core=well or path.stem,
+            )
+        )
+    # Rows are LAS data lines (1 = the first line of the ~A section).
+    return RawTable(
+        frame,
+        file,
+        rows.tolist(),
+        units=units,
+        core=well or path.stem,
+        layout="samples",
+        roles={"depth": index, "facies": facies},
+        problems=problems,
+    )
+
+
+def _regular_step(core, step: float | None) -> float:
+    """The sample spacing to write a core on: ``step`` or the coarsest grid its depths fit."""
+    table = core.intervals
+    depths = np.r_[table["top"].to_numpy(float), table["base"].to_numpy(float)]
+    offsets = depths - depths.min()
+    if step is not None:
+        candidates = [float(step)]
+    else:
+        thick = np.diff(np.unique(np.round(depths, 9)))
+        smallest = float(thick.min()) if len(thick) else 1.0
+        candidates = [smallest / k for k in (1, 2, 3, 4, 5, 8, 10, 20, 25, 50, 100)]
+    for cand in candidates:
+        ratio = offsets / cand
+        if cand > 0 and np.allclose(ratio, np.round(ratio), atol=1e-6):
+            return cand
+    raise ConfigError(
+        "interval boundaries do not fall on a regular depth grid; give a sample step "
+        "(write_cores(..., step=...))",
+        core=core.name,
+    )
+
+
+def write_las(core, path: Path, step: float | None = None) -> None:
+    """Write one core as a LAS 2.0 file on a regular depth grid (sample centres).
+
+    Cell ``k`` covers ``[top + k*step, top + (k+1)*step)`` and its sample is at
+    the centre, as the sample layout reads it back; cells in gaps hold the
+    null value. Not atomic by itself: :func:`faciesseq.io.write_cores` writes
+    to a temporary path and renames.
+    """
+    import lasio
+
+    step = _regular_step(core, step)
+    table = core.intervals
+    top = table["top"].to_numpy(float)
+    base = table["base"].to_numpy(float)
+    n = round((base.max() - top.min()) / step)
+    centres = top.min() + (np.arange(n) + 0.5) * step
+    which = np.searchsorted(top, centres, side="right") - 1
+    inside = (which >= 0) & (centres < base[np.clip(which, 0, None)])
+    las = lasio.LASFile()
+    las.well["WELL"].value = core.name
+    las.well["NULL"].value = LAS_NULL
+    unit = core.units.upper()
+    las.append_curve("DEPT", np.round(centres, 9), unit=unit, descr="sample depth")
+    columns = ["facies"] + [c for c in core.attributes]
+    for col in columns:
+        values = table[col].to_numpy(dtype=object)
+        cell = np.where(inside, values[np.clip(which, 0, None)], None)
+        numeric = pd.to_numeric(pd.Series(values), errors="coerce")
+        is_text = col == "facies" or (pd.Series(values).notna() & numeric.isna()).any()
+        mnemonic = col.upper() if col == "facies" else col
+        if is_text:
+            labels = sorted({str(v) for v in values if v is not None and not pd.isna(v)})
+            number = {v: k for k, v in enumerate(labels, start=1)}
+            data = np.array(
+                [LAS_NULL if v is None or pd.isna(v) else number[str(v)] for v in cell], float
+            )
+            for v, k in number.items():
+                las.params.append(
+                    lasio.HeaderItem(f"{mnemonic}_{k}", value=v, descr=f"{col} value {k}")
+                )
+        else:
+            data = np.array([np.nan if v is None else float(v) for v in cell], float)
+            data = np.where(np.isnan(data), LAS_NULL, data)
+        las.append_curve(mnemonic, data, descr=col)
+    las.well["STRT"].value = float(centres[0]) if n else 0.0
+    las.well["STOP"].value = float(centres[-1]) if n else 0.0
+    las.well["STEP"].value = step
+    for key in ("STRT", "STOP", "STEP"):
+        las.well[key].unit = unit
+    with open(path, "w", encoding="utf-8", newline="\n") as handle:
+        las.write(handle, version=2.0, fmt="%.10g")

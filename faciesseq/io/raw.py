@@ -1,0 +1,49 @@
+"""A table as a reader found it, before column roles and validation."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import pandas as pd
+
+from faciesseq.errors import Problem
+
+
+@dataclass
+class RawTable:
+    """One table read from a source, columns and values as they were stored.
+
+    Attributes
+    ----------
+    frame
+        The data, one row per source row, original column names.
+    file
+        How messages name the source (file path, or a database URL with the
+        password hidden and the table or ``query``).
+    rows
+        1-based data row of each row of ``frame`` in the source (header = row 0).
+    units
+        Depth units the source itself states (a LAS header), or ``None``.
+    core
+        Core name to use when the table has no core column (a LAS ``WELL``,
+        else the file name), or ``None``.
+    layout
+        Layout the source implies (LAS: ``"samples"``), or ``None``.
+    roles
+        Column roles the source itself implies (LAS: the index is the depth),
+        used unless the user maps the role explicitly.
+    problems
+        What the reader itself found (encoding detected, null values...).
+    """
+
+    frame: pd.DataFrame
+    file: str
+    rows: list[int] | None = None
+    units: str | None = None
+    core: str | None = None
+    layout: str | None = None
+    roles: dict[str, str] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)
+
+    def row_numbers(self) -> list[int]:
+        return list(self.rows) if self.rows is not None else list(range(1, len(self.frame) + 1))

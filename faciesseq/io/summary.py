@@ -1,0 +1,216 @@
+"""What a core database holds, for a geologist's first look (``faciesseq check``)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import Problem
+from faciesseq.scheme import FaciesScheme
+
+__all__ = ["DatabaseSummary", "summarise"]
+
+_CORE_COLUMNS = [
+    "core",
+    "intervals",
+    "beds",
+    "top",
+    "base",
+    "cored_thickness",
+    "gaps",
+    "gap_thickness",
+    "units",
+    "sample_step",
+]
+_FACIES_COLUMNS = [
+    "facies",
+    "name",
+    "intervals",
+    "beds",
+    "thickness",
+    "proportion_thickness",
+    "proportion_beds",
+    "bed_thickness_mean",
+    "bed_thickness_median",
+    "bed_thickness_min",
+    "bed_thickness_max",
+    "bed_thickness_std",
+]
+
+
+@dataclass(frozen=True)
+class DatabaseSummary:
+    """Counts and thicknesses of a core set, with the problems found on reading.
+
+    Attributes
+    ----------
+    units
+        Depth units of every depth and thickness here.
+    cores
+        One row per core: ``core``, ``intervals``, ``beds`` (adjacent intervals
+        of one facies amalgamated, split at gaps), ``top``, ``base``,
+        ``cored_thickness`` (gaps excluded), ``gaps``, ``gap_thickness``,
+        ``units``, ``sample_step`` (sample layout only).
+    facies
+        One row per facies code present: counts, total thickness, proportions
+        by thickness and by bed count, bed thickness statistics (mean, median,
+        min, max, sample standard deviation).
+    problems
+        Everything reading and validation found.
+    sources
+        The files or tables read.
+    """
+
+    units: str
+    cores: pd.DataFrame
+    facies: pd.DataFrame
+    problems: tuple[Problem, ...]
+    sources: tuple[str, ...] = ()
+
+    @property
+    def counts(self) -> dict[str, int]:
+        out = {"error": 0, "warning": 0, "repair": 0}
+        for p in self.problems:
+            out[p.severity] += 1
+        return out
+
+    @property
+    def usable(self) -> bool:
+        """True when nothing stands in the way of analysis (no errors, at least one core)."""
+        return self.counts["error"] == 0 and len(self.cores) > 0
+
+    def to_frame(self, table: str = "cores") -> pd.DataFrame:
+        """The ``"cores"``, ``"facies"`` or ``"problems"`` table."""
+        if table == "cores":
+            return self.cores.copy()
+        if table == "facies":
+            return self.facies.copy()
+        if table == "problems":
+            return pd.DataFrame(
+                [p.to_dict() for p in self.problems],
+                columns=["severity", "kind", "message", "file", "row", "core", "depth", "units"],
+            )
+        raise ValueError(f"unknown table {table!r}; expected cores, facies or problems")
+
+    def to_dict(self) -> dict:
+        """JSON-ready: ``summary``, ``cores``, ``facies``, ``problems`` (see docs/io.md)."""
+        counts = self.counts
+        summary = {
+            "usable": self.usable,
+            "units": self.units,
+            "sources": list(self.sources),
+            "cores": len(self.cores),
+            "intervals": int(self.cores["intervals"].sum()) if len(self.cores) else 0,
+            "beds": int(self.cores["beds"].sum()) if len(self.cores) else 0,
+            "cored_thickness": float(self.cores["cored_thickness"].sum())
+            if len(self.cores)
+            else 0.0,
+            "gaps": int(self.cores["gaps"].sum()) if len(self.cores) else 0,
+            "facies": len(self.facies),
+            "errors": counts["error"],
+            "warnings": counts["warning"],
+            "repairs": counts["repair"],
+        }
+        return {
+            "summary": summary,
+            "cores": _records(self.cores),
+            "facies": _records(self.facies),
+            "problems": [p.to_dict() for p in self.problems],
+        }
+
+
+def _records(frame: pd.DataFrame) -> list[dict]:
+    out = []
+    for row in frame.to_dict(orient="records"):
+        clean = {}
+        for key, value in row.items():
+            if isinstance(value, np.integer):
+                value = int(value)
+            elif isinstance(value, float | np.floating):
+                value = None if np.isnan(value) else float(value)
+            clean[key] = value
+        out.append(clean)
+    return out
+
+
+def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSummary:
+    """Per-core and per-facies counts and thicknesses of a core set.
+
+    Proportions by thickness use described thickness (gaps excluded); bed
+    statistics use beds (adjacent intervals of one facies amalgamated, split at
+    gaps, see :meth:`faciesseq.core.Core.beds`). Facies are listed in scheme
+    order when a scheme is given, else by code.
+    """
+    steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
+    core_rows = []
+    bed_tables = []
+    for core in cores:
+        beds = core.beds()
+        gaps = core.gaps()
+        core_rows.append(
+            {
+                "core": core.name,
+                "intervals": len(core),
+                "beds": len(beds),
+                "top": core.top,
+                "base": core.base,
+                "cored_thickness": core.thickness,
+                "gaps": len(gaps),
+                "gap_thickness": float(sum(b - t for t, b in gaps)),
+                "units": core.units,
+                "sample_step": steps.get(core.name, np.nan),
+            }
+        )
+        intervals = core.intervals
+        bed_tables.append(
+            (
+                beds[["facies", "thickness"]],
+                intervals["facies"],
+                intervals["base"] - intervals["top"],
+            )
+        )
+    core_frame = pd.DataFrame(core_rows, columns=_CORE_COLUMNS)
+    if bed_tables:
+        beds = pd.concat([b for b, _, _ in bed_tables], ignore_index=True)
+        interval_facies = pd.concat([f for _, f, _ in bed_tables], ignore_index=True)
+        interval_thick = pd.concat([t for _, _, t in bed_tables], ignore_index=True)
+    else:
+        beds = pd.DataFrame(columns=["facies", "thickness"])
+        interval_facies = pd.Series([], dtype=object)
+        interval_thick = pd.Series([], dtype=float)
+    codes = cores.facies_codes()
+    if scheme is not None:
+        order = [c for c in scheme.codes if c in codes]
+        codes = order + [c for c in codes if c not in order]
+    total_thickness = float(interval_thick.sum())
+    total_beds = len(beds)
+    facies_rows = []
+    for code in codes:
+        thick = beds.loc[beds["facies"] == code, "thickness"].to_numpy(dtype=float)
+        described = float(interval_thick[interval_facies == code].sum())
+        facies_rows.append(
+            {
+                "facies": code,
+                "name": scheme[code].name if scheme is not None and code in scheme else None,
+                "intervals": int((interval_facies == code).sum()),
+                "beds": len(thick),
+                "thickness": described,
+                "proportion_thickness": described / total_thickness if total_thickness else np.nan,
+                "proportion_beds": len(thick) / total_beds if total_beds else np.nan,
+                "bed_thickness_mean": float(thick.mean()) if len(thick) else np.nan,
+                "bed_thickness_median": float(np.median(thick)) if len(thick) else np.nan,
+                "bed_thickness_min": float(thick.min()) if len(thick) else np.nan,
+                "bed_thickness_max": float(thick.max()) if len(thick) else np.nan,
+                "bed_thickness_std": float(thick.std(ddof=1)) if len(thick) > 1 else np.nan,
+            }
+        )
+    return DatabaseSummary(
+        cores.units,
+        core_frame,
+        pd.DataFrame(facies_rows, columns=_FACIES_COLUMNS),
+        tuple(cores.problems),
+        tuple(cores.sources),
+    )

@@ -1,0 +1,200 @@
+"""Reading delimited text (CSV/TSV), Excel ``.xlsx`` and Parquet files.
+
+Text files: the encoding is UTF-8 (a byte-order mark is honoured); anything
+else is detected with charset-normalizer and *reported*, or refused when it
+cannot be detected, so that names are never garbled. The delimiter is sniffed
+among comma, semicolon, tab and ``|``. Cells are returned as text; the
+validation step decides per column role what is a number, so a code such as
+``07`` or a stray ``n/a`` in a depth column is seen as written.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.io.raw import RawTable
+
+__all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
+
+TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
+_DELIMITERS = ",;\t|"
+
+
+def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[str, list[Problem]]:
+    """Text of a file: UTF-8, a stated ``encoding``, or a detected one (reported).
+
+    Encoding detection: charset-normalizer (a maintained library) rather than
+    hand-written heuristics.
+    """
+    if encoding:
+        try:
+            return data.decode(encoding), []
+        except (LookupError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot be read as {encoding}: {exc}", file=file) from None
+    for bom, name in (
+        (codecs.BOM_UTF8, "utf-8-sig"),
+        (codecs.BOM_UTF32_LE, "utf-32"),
+        (codecs.BOM_UTF32_BE, "utf-32"),
+        (codecs.BOM_UTF16_LE, "utf-16"),
+        (codecs.BOM_UTF16_BE, "utf-16"),
+    ):
+        if data.startswith(bom):
+            text = data.decode(name)
+            problems = []
+            if name not in ("utf-8-sig",):
+                problems.append(
+                    Problem(
+                        "warning",
+                        "encoding",
+                        f"file is {name.upper()} (byte-order mark), not UTF-8; read as {name}",
+                        file=file,
+                    )
+                )
+            return text, problems
+    try:
+        return data.decode("utf-8"), []
+    except UnicodeDecodeError as exc:
+        first_bad = exc.start
+    from charset_normalizer import from_bytes
+
+    matches = list(from_bytes(data))
+    if not matches:
+        raise InputError(
+            f"not UTF-8 (byte {first_bad}) and its encoding could not be detected; "
+            "save it as UTF-8 or give 'encoding' in a YAML source file",
+            file=file,
+        )
+    best = matches[0]
+    tied = [m for m in matches if (m.chaos, m.coherence) == (best.chaos, best.coherence)]
+    readings: dict[str, list[str]] = {}
+    for m in tied:
+        readings.setdefault(str(m), []).append(m.encoding)
+    chosen = best
+    others: list[str] = []
+    if len(readings) > 1:
+        # Equally likely code pages that read the bytes differently: take the
+        # commonest Western one when it is among them, and say so; else refuse.
+        western = [m for m in tied if "cp1252" in m.could_be_from_charset]
+        if not western:
+            raise InputError(
+                "not UTF-8, and the encoding is ambiguous ("
+                + ", ".join(m.encoding for m in tied)
+                + " read it differently); save it as UTF-8 or give 'encoding' in a YAML "
+                "source file",
+                file=file,
+            )
+        chosen = western[0]
+        others = [e for text, encs in readings.items() if text != str(chosen) for e in encs]
+    text = str(chosen)
+    also = f"; it could also be {', '.join(others)}, which reads it differently" if others else ""
+    note = Problem(
+        "warning",
+        "encoding",
+        f"file is not UTF-8; read as {chosen.encoding} (detected){also}; check accented "
+        "names, or save it as UTF-8, or give 'encoding' in a YAML source file",
+        file=file,
+    )
+    return text, [note]
+
+
+def _sniff(text: str, suffix: str) -> str:
+    if suffix in (".tsv", ".tab"):
+        return "\t"
+    sample = "\n".join(text.splitlines()[:50])
+    try:
+        return csv.Sniffer().sniff(sample, delimiters=_DELIMITERS).delimiter
+    except csv.Error:
+        header = sample.splitlines()[0] if sample else ""
+        counts = {d: header.count(d) for d in _DELIMITERS}
+        best = max(counts, key=counts.get)
+        return best if counts[best] else ","
+
+
+def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
+    """A CSV/TSV file; see the module notes on encoding and delimiter."""
+    file = str(path)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
+    text, problems = decode_text(data, file, encoding)
+    if not text.strip():
+        raise InputError("file is empty", file=file)
+    delimiter = _sniff(text, path.suffix.lower())
+    try:
+        frame = pd.read_csv(
+            io.StringIO(text),
+            sep=delimiter,
+            dtype=str,
+            skip_blank_lines=False,
+            skipinitialspace=True,
+        )
+    except (pd.errors.ParserError, ValueError) as exc:
+        raise InputError(f"not a readable delimited table: {exc}", file=file) from None
+    frame.columns = [str(c).strip() for c in frame.columns]
+    frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
+    frame = frame.replace("", np.nan)
+    rows = np.arange(1, len(frame) + 1)
+    keep = frame.notna().any(axis=1).to_numpy()
+    frame = frame[keep].reset_index(drop=True)
+    return RawTable(frame.astype(object), file, rows[keep].tolist(), problems=problems)
+
+
+def read_excel(path: Path, sheet: str | None = None) -> RawTable:
+    """One sheet of an ``.xlsx`` workbook (the first when ``sheet`` is ``None``)."""
+    file = str(path)
+    from openpyxl import load_workbook
+
+    try:
+        book = load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:  # openpyxl raises many types for a bad workbook
+        raise InputError(
+            f"not a readable .xlsx workbook ({type(exc).__name__})", file=file
+        ) from None
+    try:
+        names = book.sheetnames
+        if sheet is None:
+            ws = book[names[0]]
+        elif sheet in names:
+            ws = book[sheet]
+        else:
+            raise ConfigError(
+                f"no sheet {sheet!r}; the sheets are {', '.join(repr(n) for n in names)}",
+                file=file,
+            )
+        cells = [list(r) for r in ws.iter_rows(values_only=True)]
+    finally:
+        book.close()
+    if not cells:
+        raise InputError("sheet is empty", file=file)
+    header = ["" if h is None else str(h).strip() for h in cells[0]]
+    width = len(header)
+    while width and header[width - 1] == "":
+        width -= 1
+    header = header[:width]
+    body = [(r + [None] * width)[:width] for r in cells[1:]]
+    frame = pd.DataFrame(body, columns=header, dtype=object)
+    frame = frame.map(lambda v: np.nan if (isinstance(v, str) and not v.strip()) else v)
+    rows = np.arange(1, len(frame) + 1)
+    keep = frame.notna().any(axis=1).to_numpy()
+    frame = frame[keep].reset_index(drop=True)
+    label = file if sheet is None else f"{file} [{sheet}]"
+    return RawTable(frame.astype(object), label, rows[keep].tolist())
+
+
+def read_parquet(path: Path) -> RawTable:
+    """A Parquet file (pyarrow)."""
+    file = str(path)
+    try:
+        frame = pd.read_parquet(path)
+    except Exception as exc:  # pyarrow raises several types for a bad file
+        raise InputError(f"not a readable Parquet file ({type(exc).__name__})", file=file) from None
+    frame.columns = [str(c) for c in frame.columns]
+    return RawTable(frame.reset_index(drop=True), file)

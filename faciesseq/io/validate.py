@@ -1,0 +1,813 @@
+"""From raw tables to a validated :class:`~faciesseq.core.CoreSet`: clear errors, nothing lost.
+
+Every problem is recorded as a :class:`~faciesseq.errors.Problem` with file,
+row, core and depth. Rows with an error are left out of the cores (and listed);
+repairs (a small overlap snapped, rows put in depth order, a repeated sample
+left out on request, depths converted between units) are listed too. Problem
+kinds (stable keys, see docs/io.md):
+
+errors
+    ``missing-depth``, ``bad-depth``, ``missing-core``, ``missing-facies``
+    (interval layout), ``unknown-facies``, ``top-below-base``,
+    ``zero-thickness``, ``overlap`` (larger than the tolerance),
+    ``repeated-depth``, ``duplicate-core``
+warnings
+    ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
+    facies), ``null`` (LAS null values), ``encoding``, ``units``,
+    ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``
+repairs
+    ``overlap`` (within the tolerance, snapped), ``depth-order``,
+    ``repeated-depth`` (``repeated_depths="keep-first"``), ``units-converted``,
+    ``grain-size``
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet
+from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
+from faciesseq.io.raw import RawTable
+from faciesseq.scheme import FaciesScheme, _code
+
+__all__ = ["GAP_FACTOR", "OVERLAP_TOLERANCE_M", "build_coreset", "facies_code"]
+
+#: Overlaps up to this thickness (metres; 1 cm) are rounding: snapped and reported.
+OVERLAP_TOLERANCE_M = 0.01
+#: In the sample layout a depth step larger than this many sample spacings is a gap.
+GAP_FACTOR = 1.5
+#: A core's spacing is irregular when more than this share of its steps is not the modal step.
+IRREGULAR_SHARE = 0.05
+#: Numbers that mean "no value" in exported well data.
+NULL_NUMBERS = (-999.25, -999.0, -9999.0)
+
+_STANDARD = ("grain_size", "contact", "tract", "lithology")
+_RESERVED = {"core", "top", "base", "depth", "facies", "_file", "_row", "units", *_STANDARD}
+
+# Grain-size words -> class numbers of the scheme (1 clay ... 7 gravel); common practice.
+_GRAIN_WORDS = {
+    "clay": 1.0,
+    "cl": 1.0,
+    "mud": 1.5,
+    "silt": 2.0,
+    "si": 2.0,
+    "veryfine": 3.0,
+    "vf": 3.0,
+    "vfs": 3.0,
+    "fine": 4.0,
+    "f": 4.0,
+    "fs": 4.0,
+    "medium": 5.0,
+    "m": 5.0,
+    "ms": 5.0,
+    "coarse": 6.0,
+    "c": 6.0,
+    "cs": 6.0,
+    "verycoarse": 6.5,
+    "vc": 6.5,
+    "vcs": 6.5,
+    "granule": 7.0,
+    "pebble": 7.0,
+    "gravel": 7.0,
+    "conglomerate": 7.0,
+}
+
+
+def facies_code(value: object) -> str | None:
+    """A facies code as text: ``3``, ``3.0``, ``"3"``, ``"3.0"`` are ``"3"``; blank is ``None``."""
+    if value is None:
+        return None
+    if isinstance(value, float | np.floating):
+        if np.isnan(value) or float(value) in NULL_NUMBERS:
+            return None
+        value = float(value)
+    elif isinstance(value, int | np.integer) and not isinstance(value, bool):
+        value = int(value)
+    if isinstance(value, str):
+        text = value.strip()
+        if re.fullmatch(r"[+-]?\d+\.0*", text):
+            text = text.split(".")[0].lstrip("+")
+        if text in ("-999.25", "-9999", "-999"):
+            return None
+        return text or None
+    code = _code(value)
+    return code or None
+
+
+def _is_blank(value: object) -> bool:
+    if value is None:
+        return True
+    if isinstance(value, str):
+        return not value.strip()
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _numbers_where_all(values: pd.Series) -> pd.Series:
+    """A column becomes numeric when every filled cell is a number; otherwise text as read."""
+    filled = ~values.map(_is_blank)
+    numbers = pd.to_numeric(values.where(filled, None), errors="coerce")
+    if filled.any() and numbers[filled].notna().all():
+        return numbers.astype(float)
+    return values.astype(object).where(filled, None)
+
+
+@dataclass
+class _Rows:
+    """One table's rows with roles applied, before per-core checks."""
+
+    table: RawTable
+    layout: str
+    frame: pd.DataFrame  # core, top/base or depth, facies, attributes, _file, _row
+    attributes: list[str]
+    units: str | None  # units stated by the source (None when nothing said)
+    row_units: pd.Series | None = None  # per-row units from a units column
+    problems: list[Problem] = field(default_factory=list)
+
+
+def _layout(match: ColumnMatch, table: RawTable, layout: str | None) -> str:
+    if layout is None:
+        layout = table.layout
+    if layout is None:
+        if "top" in match.roles or "base" in match.roles:
+            layout = "intervals"
+        elif "depth" in match.roles:
+            layout = "samples"
+        else:
+            layout = "intervals"
+    if layout not in ("intervals", "samples"):
+        raise ConfigError(f"unknown layout {layout!r}; expected 'intervals' or 'samples'")
+    need = ("top", "base", "facies") if layout == "intervals" else ("depth", "facies")
+    missing = [r for r in need if r not in match.roles]
+    if missing:
+        names = ", ".join(repr(c) for c in table.frame.columns)
+        hint = " ".join(f"--column {r}=NAME" for r in missing)
+        raise InputError(
+            f"missing required column(s) {', '.join(missing)} for the {layout} layout; the "
+            f"columns are {names}; map them with {hint}",
+            file=table.file,
+        )
+    return layout
+
+
+def _prepare(
+    table: RawTable, layout: str | None, columns: Mapping[str, str], scheme: FaciesScheme | None
+) -> _Rows:
+    """Apply column roles and per-row checks (depth numbers, facies codes, attributes)."""
+    explicit = dict(table.roles)
+    explicit.update(columns)
+    match = match_columns(table.frame.columns, explicit, file=table.file)
+    layout = _layout(match, table, layout)
+    src = table.frame
+    rows = np.asarray(table.row_numbers(), dtype=int)
+    problems: list[Problem] = []
+    n = len(src)
+    out = pd.DataFrame(index=range(n))
+    bad = np.zeros(n, dtype=bool)
+
+    # -- core ----------------------------------------------------------------
+    if "core" in match.roles:
+        cores = [facies_code(v) for v in src[match.roles["core"]]]
+        for i, c in enumerate(cores):
+            if c is None:
+                bad[i] = True
+                problems.append(
+                    Problem(
+                        "error",
+                        "missing-core",
+                        "no core identifier",
+                        file=table.file,
+                        row=int(rows[i]),
+                    )
+                )
+        out["core"] = cores
+    else:
+        name = table.core or "core"
+        out["core"] = name
+        if table.layout != "samples" or table.core is None:
+            problems.append(
+                Problem(
+                    "warning",
+                    "no-core-column",
+                    f"no core column; all rows are taken as core {name!r} (map one with "
+                    "--column core=NAME)",
+                    file=table.file,
+                    core=name,
+                )
+            )
+    roles = ("top", "base") if layout == "intervals" else ("depth",)
+
+    # -- depths ----------------------------------------------------------------
+    for role in roles:
+        raw = src[match.roles[role]]
+        numbers = pd.to_numeric(raw.where(~raw.map(_is_blank), None), errors="coerce").astype(float)
+        nulls = numbers.isin(NULL_NUMBERS).to_numpy()
+        numbers[nulls] = np.nan
+        for i in np.nonzero(numbers.isna().to_numpy())[0]:
+            bad[i] = True
+            value = raw.iloc[i]
+            if nulls[i]:
+                kind, message = "missing-depth", f"{role} holds the null value {value}"
+            elif _is_blank(value):
+                kind, message = "missing-depth", f"no {role} depth"
+            else:
+                kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
+            problems.append(
+                Problem(
+                    "error",
+                    kind,
+                    message,
+                    file=table.file,
+                    row=int(rows[i]),
+                    core=out["core"].iloc[i],
+                )
+            )
+        out[role] = numbers.to_numpy()
+    first_depth = out[roles[0]].to_numpy()
+
+    # -- facies ----------------------------------------------------------------
+    codes = [facies_code(v) for v in src[match.roles["facies"]]]
+    unknown: dict[tuple[str, str], list[int]] = {}
+    not_described: dict[str, list[int]] = {}
+    for i, code in enumerate(codes):
+        if code is None:
+            if layout == "samples":
+                not_described.setdefault(out["core"].iloc[i], []).append(i)
+                bad[i] = True
+                continue
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error",
+                    "missing-facies",
+                    "no facies code",
+                    file=table.file,
+                    row=int(rows[i]),
+                    core=out["core"].iloc[i],
+                    depth=_depth(first_depth[i]),
+                )
+            )
+            continue
+        if scheme is not None:
+            resolved = scheme.resolve(code)
+            if resolved is None:
+                unknown.setdefault((out["core"].iloc[i], code), []).append(i)
+                bad[i] = True
+            else:
+                codes[i] = resolved
+    for (core, code), idx in unknown.items():
+        count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
+        problems.append(
+            Problem(
+                "error",
+                "unknown-facies",
+                f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
+                "alias of one of its facies; add it (code or alias) to the scheme",
+                file=table.file,
+                row=int(rows[idx[0]]),
+                core=core,
+                depth=_depth(first_depth[idx[0]]),
+            )
+        )
+    for core, idx in not_described.items():
+        listed = ", ".join(str(rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
+        problems.append(
+            Problem(
+                "warning",
+                "not-described",
+                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
+                "left out",
+                file=table.file,
+                row=int(rows[idx[0]]),
+                core=core,
+                depth=_depth(first_depth[idx[0]]),
+            )
+        )
+    out["facies"] = codes
+
+    # -- attributes --------------------------------------------------------------
+    attributes: list[str] = []
+    if "grain_size" in match.roles:
+        out["grain_size"] = _grain_sizes(src[match.roles["grain_size"]], table, rows, problems)
+        attributes.append("grain_size")
+    for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
+        if role in match.roles:
+            values = [
+                None if _is_blank(v) else (fix(str(v).strip()) if fix else str(v).strip())
+                for v in src[match.roles[role]]
+            ]
+            out[role] = pd.Series(values, dtype=object)
+            attributes.append(role)
+    unused = [
+        match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
+    ]
+    for col in list(match.others) + unused:
+        name = col if col not in _RESERVED else f"source_{col}"
+        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+        attributes.append(name)
+    row_units = None
+    if "units" in match.roles:
+        values = src[match.roles["units"]]
+        row_units = pd.Series(
+            [None if _is_blank(v) else normalise_units(v, where=table.file) for v in values],
+            dtype=object,
+        )
+    out["_file"] = table.file
+    out["_row"] = rows
+    keep = ~bad
+    frame = out[keep].reset_index(drop=True)
+    if row_units is not None:
+        row_units = row_units[keep].reset_index(drop=True)
+    stated = table.units or match.units
+    if table.units and match.units and table.units != match.units:
+        raise InputError(
+            f"the header says {table.units} but a column name says {match.units}", file=table.file
+        )
+    return _Rows(table, layout, frame, attributes, stated, row_units, problems + table.problems)
+
+
+def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
+    out = np.full(len(values), np.nan)
+    words: dict[str, float] = {}
+    unread: list[int] = []
+    for i, v in enumerate(values):
+        if _is_blank(v):
+            continue
+        try:
+            out[i] = float(v)
+            continue
+        except (TypeError, ValueError):
+            pass
+        key = re.sub(r"[^a-z]", "", str(v).lower())
+        if key in _GRAIN_WORDS:
+            out[i] = _GRAIN_WORDS[key]
+            words[str(v).strip()] = _GRAIN_WORDS[key]
+        else:
+            unread.append(i)
+    if words:
+        listed = ", ".join(f"{w!r}={c:g}" for w, c in sorted(words.items()))
+        problems.append(
+            Problem(
+                "repair",
+                "grain-size",
+                f"grain-size words read as class numbers (1 clay ... 7 gravel): {listed}",
+                file=table.file,
+            )
+        )
+    if unread:
+        shown = sorted({str(values.iloc[i]).strip() for i in unread})[:5]
+        problems.append(
+            Problem(
+                "warning",
+                "grain-size",
+                f"{len(unread)} grain-size value(s) not understood (e.g. "
+                f"{', '.join(repr(s) for s in shown)}): left blank",
+                file=table.file,
+                row=int(rows[unread[0]]),
+            )
+        )
+    return out
+
+
+def _depth(value: float) -> float | None:
+    return None if value is None or not np.isfinite(value) else float(value)
+
+
+def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[Problem]]:
+    """Units of the core set; depths stated in other units are converted to ``units``."""
+    problems: list[Problem] = []
+    stated: dict[str, list[str]] = {}
+    for p in prepared:
+        if p.row_units is not None:
+            found = set(p.row_units.dropna())
+            if p.units is not None and any(u != p.units for u in found):
+                raise InputError(
+                    f"the units column says {sorted(found)} but the header says {p.units}",
+                    file=p.table.file,
+                )
+            for u in found:
+                stated.setdefault(u, []).append(p.table.file)
+        elif p.units is not None:
+            stated.setdefault(p.units, []).append(p.table.file)
+    if units is not None:
+        target = normalise_units(units)
+    elif len(stated) > 1:
+        listed = "; ".join(f"{u}: {', '.join(sorted(set(f)))}" for u, f in sorted(stated.items()))
+        raise InputError(
+            f"mixed depth units in one database ({listed}); convert them, or give --units to "
+            "have every depth converted to one unit"
+        )
+    elif stated:
+        target = next(iter(stated))
+    else:
+        target = "m"
+        problems.append(
+            Problem(
+                "warning",
+                "units",
+                "no depth units stated in the source; taken as metres (give --units ft if not)",
+            )
+        )
+    for p in prepared:
+        if p.row_units is not None:
+            per_row = p.row_units.fillna(target).to_numpy()
+        else:
+            per_row = np.full(len(p.frame), p.units or target, dtype=object)
+        convert = per_row != target
+        if convert.any():
+            factor = FT_TO_M if target == "m" else 1.0 / FT_TO_M
+            for col in ("top", "base", "depth"):
+                if col in p.frame.columns:
+                    values = p.frame[col].to_numpy(dtype=float).copy()
+                    values[convert] = values[convert] * factor
+                    p.frame[col] = values
+            source = "ft" if target == "m" else "m"
+            problems.append(
+                Problem(
+                    "repair",
+                    "units-converted",
+                    f"{int(convert.sum())} row(s) of depths in {source} converted to {target} "
+                    f"(1 ft = 0.3048 m exactly)",
+                    file=p.table.file,
+                )
+            )
+    return target, problems
+
+
+def _order(part: pd.DataFrame, key: str, file: str, core: str, units: str) -> list[Problem]:
+    depth = part[key].to_numpy(dtype=float)
+    if len(depth) < 2 or np.all(np.diff(depth) >= 0):
+        return []
+    rows = part["_row"].to_numpy()
+    if np.all(np.diff(depth) < 0):
+        message = "rows are listed from base to top (depth decreasing); put in depth order"
+        i = 0
+    else:
+        i = int(np.nonzero(np.diff(depth) < 0)[0][0]) + 1
+        count = int((np.diff(depth) < 0).sum())
+        message = (
+            f"{count} row(s) listed above a shallower row (out of depth order); sorted by depth"
+        )
+    return [
+        Problem(
+            "repair",
+            "depth-order",
+            message,
+            file=file,
+            row=int(rows[i]),
+            core=core,
+            depth=float(depth[i]),
+            units=units,
+        )
+    ]
+
+
+def _check_intervals(
+    part: pd.DataFrame, file: str, core: str, units: str, tolerance: float
+) -> tuple[pd.DataFrame, list[Problem]]:
+    """Thickness, order, overlaps and gaps of one core's intervals from one table."""
+    problems: list[Problem] = []
+
+    def here(i, kind, severity, message, depth):
+        problems.append(
+            Problem(
+                severity,
+                kind,
+                message,
+                file=file,
+                row=int(part["_row"].iloc[i]),
+                core=core,
+                depth=float(depth),
+                units=units,
+            )
+        )
+
+    top = part["top"].to_numpy(dtype=float)
+    base = part["base"].to_numpy(dtype=float)
+    ok = np.ones(len(part), dtype=bool)
+    for i in range(len(part)):
+        if top[i] > base[i]:
+            ok[i] = False
+            here(
+                i,
+                "top-below-base",
+                "error",
+                f"top {top[i]:g} is below base {base[i]:g} (depth is positive downward)",
+                top[i],
+            )
+        elif base[i] - top[i] <= DEPTH_TOL:
+            ok[i] = False
+            here(i, "zero-thickness", "error", f"zero thickness (top = base = {top[i]:g})", top[i])
+    part = part[ok].reset_index(drop=True)
+    problems += _order(part, "top", file, core, units)
+    part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+    top = part["top"].to_numpy(dtype=float).copy()
+    base = part["base"].to_numpy(dtype=float)
+    rows = part["_row"].to_numpy()
+    keep = np.ones(len(part), dtype=bool)
+    above = -1  # index of the last kept interval
+    for i in range(len(part)):
+        if above < 0:
+            above = i
+            continue
+        overlap = base[above] - top[i]
+        if overlap > DEPTH_TOL:
+            if overlap <= tolerance and base[i] - base[above] > DEPTH_TOL:
+                here(
+                    i,
+                    "overlap",
+                    "repair",
+                    f"overlaps the interval above (row {rows[above]}) by {overlap:.4g} {units}; "
+                    f"top moved down from {top[i]:g} to {base[above]:g}",
+                    top[i],
+                )
+                top[i] = base[above]
+            else:
+                keep[i] = False
+                here(
+                    i,
+                    "overlap",
+                    "error",
+                    f"interval {top[i]:g}-{base[i]:g} overlaps the interval above (row "
+                    f"{rows[above]}, {top[above]:g}-{base[above]:g}) by {overlap:.4g} {units}, "
+                    f"more than the {tolerance:.4g} {units} snapped as rounding",
+                    top[i],
+                )
+                continue
+        elif -overlap > DEPTH_TOL:
+            here(
+                i,
+                "gap",
+                "warning",
+                f"gap from {base[above]:g} to {top[i]:g} ({-overlap:.4g} {units}) above this "
+                "interval: successions are split here",
+                base[above],
+            )
+        above = i
+    part = part.assign(top=top)[keep].reset_index(drop=True)
+    return part, problems
+
+
+def _modal_step(depth: np.ndarray) -> float | None:
+    steps = np.round(np.diff(depth), 6)
+    steps = steps[steps > DEPTH_TOL]
+    if len(steps) == 0:
+        return None
+    values, counts = np.unique(steps, return_counts=True)
+    return float(values[np.argmax(counts)])  # ties: the smallest spacing
+
+
+def _check_samples(
+    part: pd.DataFrame,
+    attributes: list[str],
+    file: str,
+    core: str,
+    units: str,
+    repeated_depths: str,
+) -> tuple[pd.DataFrame, list[Problem]]:
+    """Order and repeated depths of one core's samples (the run-length step comes later)."""
+    problems = _order(part, "depth", file, core, units)
+    part = part.sort_values("depth", kind="stable").reset_index(drop=True)
+    depth = part["depth"].to_numpy(dtype=float)
+    rows = part["_row"].to_numpy()
+    keep = np.ones(len(part), dtype=bool)
+    for i in range(1, len(part)):
+        if depth[i] - depth[i - 1] <= DEPTH_TOL:
+            first = i - 1
+            while not keep[first]:
+                first -= 1
+            if repeated_depths == "keep-first":
+                severity, message = (
+                    "repair",
+                    f"repeated depth {depth[i]:g} (also row {rows[first]}); the first kept, "
+                    "this row left out",
+                )
+            else:
+                severity, message = (
+                    "error",
+                    f"repeated depth {depth[i]:g} (also row {rows[first]}); remove one, or "
+                    "keep the first with --keep-first",
+                )
+            problems.append(
+                Problem(
+                    severity,
+                    "repeated-depth",
+                    message,
+                    file=file,
+                    row=int(rows[i]),
+                    core=core,
+                    depth=float(depth[i]),
+                    units=units,
+                )
+            )
+            keep[i] = False
+    return part[keep].reset_index(drop=True), problems
+
+
+def _same(a: object, b: object) -> bool:
+    if _is_blank(a) and _is_blank(b):
+        return True
+    return a == b
+
+
+def _samples_to_intervals(
+    part: pd.DataFrame, attributes: list[str], step: float, file: str, core: str, units: str
+) -> tuple[pd.DataFrame, list[Problem]]:
+    """Run-length intervals from samples: each sample covers [depth - step/2, depth + step/2).
+
+    Between two samples closer than ``GAP_FACTOR * step`` the boundary is the
+    midpoint (so slightly irregular spacing leaves no slivers); a larger step
+    is a gap. Runs of samples with the same facies *and* the same attribute
+    values become one interval, so nothing is averaged away.
+    """
+    problems: list[Problem] = []
+    depth = part["depth"].to_numpy(dtype=float)
+    n = len(depth)
+    diffs = np.diff(depth)
+    gap = diffs > GAP_FACTOR * step + DEPTH_TOL
+    top = np.empty(n)
+    base = np.empty(n)
+    top[0] = depth[0] - step / 2
+    base[-1] = depth[-1] + step / 2
+    mid = (depth[:-1] + depth[1:]) / 2
+    base[:-1] = np.where(gap, depth[:-1] + step / 2, mid)
+    top[1:] = np.where(gap, depth[1:] - step / 2, mid)
+    rows = part["_row"].to_numpy()
+    for i in np.nonzero(gap)[0]:
+        problems.append(
+            Problem(
+                "warning",
+                "gap",
+                f"no samples from {depth[i]:g} to {depth[i + 1]:g} (step {diffs[i]:g} {units}, "
+                f"spacing {step:g}): gap from {base[i]:g} to {top[i + 1]:g}; successions are "
+                "split here",
+                file=file,
+                row=int(rows[i + 1]),
+                core=core,
+                depth=float(base[i]),
+                units=units,
+            )
+        )
+    if n > 1:
+        off_step = np.abs(diffs - step) > 1e-6 * max(step, 1.0)
+        ratio = diffs / step
+        off_grid = np.abs(ratio - np.round(ratio)) > 1e-3
+        if off_grid.any() or off_step.mean() > IRREGULAR_SHARE:
+            problems.append(
+                Problem(
+                    "warning",
+                    "irregular-spacing",
+                    f"irregular sample spacing: {int(off_step.sum())} of {len(diffs)} depth "
+                    f"steps differ from the usual {step:g} {units}"
+                    + (f" ({int(off_grid.sum())} off that grid)" if off_grid.any() else "")
+                    + "; check that the samples form one real succession",
+                    file=file,
+                    core=core,
+                    units=units,
+                )
+            )
+    cols = ["facies", *attributes]
+    values = part[cols].to_numpy(dtype=object)
+    start = np.ones(n, dtype=bool)
+    for i in range(1, n):
+        start[i] = gap[i - 1] or not all(
+            _same(a, b) for a, b in zip(values[i], values[i - 1], strict=True)
+        )
+    first = np.nonzero(start)[0]
+    last = np.r_[first[1:] - 1, n - 1]
+    table = part.iloc[first][[*cols, "_file", "_row"]].reset_index(drop=True)
+    table.insert(0, "base", base[last])
+    table.insert(0, "top", top[first])
+    return table, problems
+
+
+def build_coreset(
+    tables: list[RawTable],
+    *,
+    layout: str | None = None,
+    columns: Mapping[str, str] | None = None,
+    units: str | None = None,
+    scheme: FaciesScheme | None = None,
+    repeated_depths: str = "error",
+    sources: tuple[str, ...] = (),
+) -> CoreSet:
+    """Validate raw tables and assemble the core set (see the module notes for problem kinds)."""
+    if repeated_depths not in ("error", "keep-first"):
+        raise ConfigError(
+            f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
+        )
+    columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
+    prepared = [_prepare(t, layout, columns, scheme) for t in tables]
+    target, unit_problems = _resolve_units(prepared, units)
+    tolerance = OVERLAP_TOLERANCE_M if target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
+    problems: list[Problem] = list(unit_problems)
+    owner: dict[str, str] = {}
+    pieces: dict[str, pd.DataFrame] = {}
+    steps: dict[str, float] = {}
+    pending: list[tuple[str, pd.DataFrame, _Rows]] = []
+    order: list[str] = []
+    for p in prepared:
+        problems += p.problems
+        file = p.table.file
+        names = list(dict.fromkeys(p.frame["core"]))
+        for name in names:
+            part = p.frame[p.frame["core"] == name].drop(columns="core").reset_index(drop=True)
+            if name in owner and owner[name] != file:
+                problems.append(
+                    Problem(
+                        "error",
+                        "duplicate-core",
+                        f"core {name!r} is also in {owner[name]}; a core must come from one "
+                        f"file or table ({len(part)} row(s) here left out)",
+                        file=file,
+                        row=int(part["_row"].iloc[0]),
+                        core=name,
+                    )
+                )
+                continue
+            owner[name] = file
+            order.append(name)
+            if p.layout == "intervals":
+                part, found = _check_intervals(part, file, name, target, tolerance)
+                problems += found
+                pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+            else:
+                part, found = _check_samples(
+                    part, p.attributes, file, name, target, repeated_depths
+                )
+                problems += found
+                pending.append((name, part, p))
+                step = _modal_step(part["depth"].to_numpy(dtype=float))
+                if step is not None:
+                    steps[name] = step
+        # cores whose every row had an error still exist: report them as empty
+        for prob in p.problems:
+            if prob.core and prob.core not in owner:
+                owner[prob.core] = file
+                order.append(prob.core)
+    fallback = float(np.median(list(steps.values()))) if steps else None
+    for name, part, p in pending:
+        if len(part) == 0:
+            continue
+        step = steps.get(name, fallback)
+        if step is None:
+            problems.append(
+                Problem(
+                    "warning",
+                    "too-short",
+                    "a single sample and no other core to take a sample spacing from; left out",
+                    file=p.table.file,
+                    core=name,
+                )
+            )
+            continue
+        steps[name] = step
+        table, found = _samples_to_intervals(part, p.attributes, step, p.table.file, name, target)
+        problems += found
+        pieces[name] = table
+    cores: dict[str, Core] = {}
+    for name in order:
+        part = pieces.get(name)
+        if part is None or len(part) == 0:
+            problems.append(
+                Problem(
+                    "warning",
+                    "empty-core",
+                    "no usable intervals (see the problems above); left out",
+                    file=owner.get(name),
+                    core=name,
+                )
+            )
+            continue
+        core = Core(name, part.reset_index(drop=True), target)
+        n_beds = len(core.beds())
+        if n_beds < 2:
+            problems.append(
+                Problem(
+                    "warning",
+                    "too-short",
+                    f"only {n_beds} bed ({len(core)} interval(s)): too short for transition "
+                    "statistics",
+                    file=owner.get(name),
+                    core=name,
+                )
+            )
+        cores[name] = core
+    meta = {
+        "sample_step": {n: steps[n] for n in cores if n in steps},
+        "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
+    }
+    problems = [
+        replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
+    ]
+    rank = {name: k for k, name in enumerate(order)}
+    problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
+    return CoreSet(cores, target, tuple(problems), sources, meta)

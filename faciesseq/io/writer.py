@@ -1,0 +1,162 @@
+"""Writing a core set: CSV, XLSX, Parquet, SQLite or LAS, chosen by the suffix, atomically."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from collections.abc import Mapping
+from pathlib import Path
+
+import pandas as pd
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import ConfigError
+
+__all__ = ["write_cores"]
+
+_FORMATS = {
+    ".csv": "csv",
+    ".tsv": "tsv",
+    ".xlsx": "xlsx",
+    ".parquet": "parquet",
+    ".sqlite": "sqlite",
+    ".sqlite3": "sqlite",
+    ".db": "sqlite",
+    ".las": "las",
+}
+
+
+def _frame(cores: CoreSet) -> pd.DataFrame:
+    table = cores.to_frame(provenance=False)
+    table["units"] = cores.units
+    return table
+
+
+def _write_file(cores: CoreSet, fmt: str, tmp: Path, tables: Mapping[str, pd.DataFrame]) -> None:
+    table = _frame(cores)
+    if fmt in ("csv", "tsv"):
+        table.to_csv(tmp, index=False, sep="," if fmt == "csv" else "\t", encoding="utf-8")
+    elif fmt == "parquet":
+        table.to_parquet(tmp, index=False)
+    elif fmt == "xlsx":
+        with pd.ExcelWriter(tmp, engine="openpyxl") as book:
+            table.to_excel(book, sheet_name="intervals", index=False)
+            for name, extra in tables.items():
+                extra.to_excel(book, sheet_name=name[:31], index=False)
+    elif fmt == "sqlite":
+        from sqlalchemy import create_engine
+
+        engine = create_engine(f"sqlite:///{tmp}")
+        try:
+            with engine.begin() as conn:
+                table.to_sql("intervals", conn, index=False)
+                for name, extra in tables.items():
+                    extra.to_sql(name, conn, index=False)
+        finally:
+            engine.dispose()
+
+
+def write_cores(
+    cores: CoreSet,
+    path: str | Path,
+    *,
+    tables: Mapping[str, pd.DataFrame] | None = None,
+    step: float | None = None,
+    format: str | None = None,
+) -> Path:
+    """Write a core set in the interval layout, atomically (temporary file, then rename).
+
+    Parameters
+    ----------
+    cores
+        The core set; every interval is written with ``core``, ``top``,
+        ``base``, ``facies``, its attributes and a ``units`` column (provenance
+        columns are not written).
+    path
+        Output file; the format follows the suffix: ``.csv``, ``.tsv``,
+        ``.xlsx`` (sheet ``intervals``), ``.parquet``, ``.sqlite``/``.db``
+        (table ``intervals``) or ``.las`` (one core). For several cores in
+        LAS, give a folder and ``format="las"``: one ``<core>.las`` per core.
+    tables
+        Extra tables written beside ``intervals`` (SQLite tables or XLSX sheets).
+    step
+        LAS only: the sample spacing (default: the core's sample spacing from
+        ``cores.meta["sample_step"]``, else the coarsest grid its boundaries fit).
+    format
+        Overrides the suffix (``"csv"``, ``"tsv"``, ``"xlsx"``, ``"parquet"``,
+        ``"sqlite"``, ``"las"``).
+
+    Returns
+    -------
+    Path
+        The path written.
+    """
+    path = Path(path)
+    fmt = format or _FORMATS.get(path.suffix.lower())
+    if fmt not in set(_FORMATS.values()):
+        raise ConfigError(
+            f"cannot tell the output format from {path.name!r}; use a suffix "
+            f"({', '.join(sorted(_FORMATS))}) or format=",
+            file=str(path),
+        )
+    tables = dict(tables or {})
+    if tables and fmt not in ("sqlite", "xlsx"):
+        raise ConfigError("extra tables can be written to SQLite or XLSX only", file=str(path))
+    clash = [n for n in tables if n.lower() == "intervals"]
+    if clash:
+        raise ConfigError("an extra table must not be called 'intervals'", file=str(path))
+    parent = path.parent
+    parent.mkdir(parents=True, exist_ok=True)
+    if fmt == "las":
+        from faciesseq.io.las import write_las
+
+        steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
+        as_folder = path.suffix.lower() != ".las"
+        if not as_folder and len(cores) != 1:
+            raise ConfigError(
+                f"a .las file holds one core, this set has {len(cores)}; give a folder and "
+                "format='las'",
+                file=str(path),
+            )
+        tmpdir = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=parent))
+        try:
+            for core in cores:
+                name = path.name if not as_folder else f"{_safe(core.name)}.las"
+                write_las(core, tmpdir / name, step if step is not None else steps.get(core.name))
+            if as_folder:
+                _replace_dir(tmpdir, path)
+            else:
+                os.replace(tmpdir / path.name, path)
+        finally:
+            shutil.rmtree(tmpdir, ignore_errors=True)
+        return path
+    fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=parent)
+    os.close(fd)
+    tmp = Path(name)
+    try:
+        if fmt == "sqlite":
+            tmp.unlink()
+        _write_file(cores, fmt, tmp, tables)
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path
+
+
+def _safe(name: str) -> str:
+    return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "core"
+
+
+def _replace_dir(new: Path, target: Path) -> None:
+    if target.exists():
+        if not target.is_dir():
+            raise ConfigError("exists and is not a folder", file=str(target))
+        old = target.with_name(f".{target.name}.old")
+        shutil.rmtree(old, ignore_errors=True)
+        os.replace(target, old)
+        os.replace(new, target)
+        shutil.rmtree(old, ignore_errors=True)
+    else:
+        os.replace(new, target)

@@ -1,0 +1,363 @@
+"""Every bad input: exit code, a one-line message naming where, no traceback, nothing written.
+
+``faciesseq check`` prints each problem on one line (``severity: file, row N,
+core X, depth D m: message``) and exits 1 when the data has errors, 0 when it
+is usable (warnings and repairs listed). Reading failures are one line on
+standard error. ``faciesseq scheme draft`` refuses data with errors and writes
+nothing.
+"""
+
+import json
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from faciesseq.cli import main
+from faciesseq.errors import InputError
+from faciesseq.io import read_cores
+
+HEAD = "core,top,base,facies\n"
+
+SCHEME = """name: two facies
+facies:
+  - {code: A, name: facies a, rank: 0}
+  - {code: B, name: facies b, rank: 1, aliases: [bee]}
+"""
+
+# name, files, extra options, exit code of `check`, kind, severity, text on the problem's line
+CASES = [
+    (
+        "unknown-facies",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,X\nW1,2,3,bee\n"},
+        ["--scheme", "scheme.yaml"],
+        1,
+        "unknown-facies",
+        "error",
+        "row 2, core W1, depth 1.00 m",
+    ),
+    (
+        "top-below-base",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,3,2,B\nW1,3,4,A\n"},
+        [],
+        1,
+        "top-below-base",
+        "error",
+        "row 2, core W1, depth 3.00 m",
+    ),
+    (
+        "zero-thickness",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,1,B\nW1,1,2,A\n"},
+        [],
+        1,
+        "zero-thickness",
+        "error",
+        "row 2, core W1, depth 1.00 m",
+    ),
+    (
+        "large-overlap",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,0.5,2,B\n"},
+        [],
+        1,
+        "overlap",
+        "error",
+        "row 2, core W1, depth 0.50 m",
+    ),
+    (
+        "small-overlap",
+        {"c.csv": HEAD + "W1,0,1.004,A\nW1,1,2,B\nW1,2,3,A\n"},
+        [],
+        0,
+        "overlap",
+        "repair",
+        "row 2, core W1, depth 1.00 m",
+    ),
+    (
+        "gap",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,B\nW1,3,4,A\nW1,4,5,B\n"},
+        [],
+        0,
+        "gap",
+        "warning",
+        "row 3, core W1, depth 2.00 m",
+    ),
+    (
+        "reversed",
+        {"c.csv": HEAD + "W1,2,3,A\nW1,1,2,B\nW1,0,1,A\n"},
+        [],
+        0,
+        "depth-order",
+        "repair",
+        "row 1, core W1, depth 2.00 m",
+    ),
+    (
+        "repeated-depth",
+        {"s.csv": "core,depth,facies\nW1,0.5,A\nW1,1.0,B\nW1,1.0,B\nW1,1.5,A\n"},
+        ["--units", "m"],
+        1,
+        "repeated-depth",
+        "error",
+        "row 3, core W1, depth 1.00 m",
+    ),
+    (
+        "repeated-depth-kept",
+        {"s.csv": "core,depth,facies\nW1,0.5,A\nW1,1.0,B\nW1,1.0,B\nW1,1.5,A\n"},
+        ["--keep-first"],
+        0,
+        "repeated-depth",
+        "repair",
+        "row 3, core W1",
+    ),
+    (
+        "missing-depth",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,,2,B\nW1,2,3,A\n"},
+        [],
+        1,
+        "missing-depth",
+        "error",
+        "row 2, core W1: no top depth",
+    ),
+    (
+        "non-numeric-depth",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2 m,B\nW1,2,3,A\n"},
+        [],
+        1,
+        "bad-depth",
+        "error",
+        "row 2, core W1: base '2 m' is not a number",
+    ),
+    (
+        "null-depth",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,-999.25,2,B\nW1,2,3,A\n"},
+        [],
+        1,
+        "missing-depth",
+        "error",
+        "row 2, core W1: top holds the null value",
+    ),
+    (
+        "duplicate-core",
+        {"a.csv": HEAD + "W1,0,1,A\nW1,1,2,B\n", "b.csv": HEAD + "W1,5,6,A\nW2,0,1,A\nW2,1,2,B\n"},
+        [],
+        1,
+        "duplicate-core",
+        "error",
+        "b.csv, row 1, core W1",
+    ),
+    (
+        "one-interval-core",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,B\nW2,0,3,A\n"},
+        [],
+        0,
+        "too-short",
+        "warning",
+        "core W2: only 1 bed",
+    ),
+    (
+        "empty-core",
+        {"s.csv": "core,depth,facies\nW1,0.5,A\nW1,1.0,B\nW2,0.5,\nW2,1.0,\n"},
+        [],
+        0,
+        "empty-core",
+        "warning",
+        "core W2: no usable intervals",
+    ),
+    (
+        "missing-facies",
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,\nW1,2,3,B\n"},
+        [],
+        1,
+        "missing-facies",
+        "error",
+        "row 2, core W1, depth 1.00 m: no facies code",
+    ),
+]
+
+
+def _write(tmp_path: Path, files: dict[str, str | bytes]) -> Path:
+    for name, content in files.items():
+        path = tmp_path / name
+        if isinstance(content, bytes):
+            path.write_bytes(content)
+        else:
+            path.write_text(content, encoding="utf-8")
+    (tmp_path / "scheme.yaml").write_text(SCHEME)
+    data = [n for n in files if not n.endswith(".yaml")]
+    return tmp_path / data[0] if len(data) == 1 else tmp_path
+
+
+def _run(capsys, argv):
+    code = main([str(a) for a in argv])
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+@pytest.mark.parametrize(
+    ("files", "options", "code", "kind", "severity", "text"),
+    [c[1:] for c in CASES],
+    ids=[c[0] for c in CASES],
+)
+def test_check_reports_each_bad_input_on_one_line(
+    tmp_path, monkeypatch, capsys, files, options, code, kind, severity, text
+):
+    monkeypatch.chdir(tmp_path)
+    source = _write(tmp_path, files)
+    got, out, err = _run(capsys, ["check", source, *options])
+    assert got == code, out + err
+    assert err == ""
+    lines = [ln for ln in out.splitlines() if ln.startswith(f"{severity}: ") and text in ln]
+    assert len(lines) == 1, out
+    # the same problem is in the JSON output with its stable kind
+    _, out, _ = _run(capsys, ["check", source, *options, "--format", "json"])
+    problems = json.loads(out)["problems"]
+    assert any(p["kind"] == kind and p["severity"] == severity for p in problems)
+    assert json.loads(out)["summary"]["usable"] is (code == 0)
+
+
+@pytest.mark.parametrize(
+    ("files", "options"),
+    [c[1:3] for c in CASES if c[3] == 1 and "--scheme" not in c[2]],
+    ids=[c[0] for c in CASES if c[3] == 1 and "--scheme" not in c[2]],
+)
+def test_scheme_draft_refuses_data_with_errors_and_writes_nothing(tmp_path, capsys, files, options):
+    source = _write(tmp_path, files)
+    out = tmp_path / "out" / "draft.yaml"
+    code, _, err = _run(capsys, ["scheme", "draft", source, "-o", out, *options])
+    assert code == 1
+    assert len(err.strip().splitlines()) == 1
+    assert err.startswith("faciesseq scheme: ") and "core W1" in err
+    assert not out.exists()
+    assert not (tmp_path / "out").exists() or not list((tmp_path / "out").iterdir())
+
+
+# Reading failures: one line on stderr naming the file, exit 1 (data) or 2 (usage).
+FAILURES = [
+    (
+        "missing-column",
+        {"c.csv": "core,top,facies\nW1,0,A\n"},
+        [],
+        1,
+        "c.csv: missing required column(s) base",
+    ),
+    (
+        "mixed-units",
+        {
+            "a.csv": "core,top,base,facies,units\nW1,0,1,A,m\n",
+            "b.csv": "core,top,base,facies,units\nW2,0,1,A,ft\n",
+        },
+        [],
+        1,
+        "mixed depth units",
+    ),
+    ("unknown-format", {"c.foo": "whatever"}, [], 1, "c.foo: unknown format"),
+    (
+        "sheet-for-csv",
+        {"c.csv": HEAD + "W1,0,1,A\n"},
+        ["--sheet", "x"],
+        2,
+        "c.csv: --sheet does not apply",
+    ),
+    (
+        "unknown-role",
+        {"c.csv": HEAD + "W1,0,1,A\n"},
+        ["--column", "colour=x"],
+        2,
+        "unknown column role 'colour'",
+    ),
+    (
+        "bad-column-option",
+        {"c.csv": HEAD + "W1,0,1,A\n"},
+        ["--column", "facies"],
+        2,
+        "--column expects ROLE=NAME",
+    ),
+    (
+        "column-not-there",
+        {"c.csv": HEAD + "W1,0,1,A\n"},
+        ["--column", "facies=Lith"],
+        1,
+        "c.csv: column 'Lith' (given for role facies) not found",
+    ),
+    (
+        "ambiguous-columns",
+        {"c.csv": "well,core,top,base,facies\nW,W1,0,1,A\n"},
+        [],
+        1,
+        "'well', 'core' all look like the core column",
+    ),
+    ("empty-file", {"c.csv": ""}, [], 1, "c.csv: file is empty"),
+    (
+        "bad-scheme",
+        {"c.csv": HEAD + "W1,0,1,A\n"},
+        ["--scheme", "nope.yaml"],
+        2,
+        "nope.yaml: file not found",
+    ),
+]
+
+
+@pytest.mark.parametrize(
+    ("files", "options", "code", "text"),
+    [c[1:] for c in FAILURES],
+    ids=[c[0] for c in FAILURES],
+)
+def test_reading_failures_are_one_line_on_stderr(tmp_path, capsys, files, options, code, text):
+    source = _write(tmp_path, files)
+    options = [str(tmp_path / o) if o.endswith(".yaml") else o for o in options]
+    got, out, err = _run(capsys, ["check", source, *options])
+    assert got == code
+    assert out == ""
+    assert len(err.strip().splitlines()) == 1, err
+    assert text in err
+    if code == 1:
+        draft = tmp_path / "draft.yaml"
+        got, _, err = _run(capsys, ["scheme", "draft", source, "-o", draft, *options])
+        assert got == 1 and len(err.strip().splitlines()) == 1
+        assert not draft.exists()
+
+
+def test_no_traceback_from_the_installed_command(tmp_path):
+    # run as a user would, in a separate process: one line, no traceback
+    source = _write(tmp_path, {"c.csv": "core,top,facies\nW1,0,A\n"})
+    proc = subprocess.run(
+        [sys.executable, "-m", "faciesseq", "check", str(source)],
+        capture_output=True,
+        text=True,
+        cwd=Path(__file__).parents[1],
+    )
+    assert proc.returncode == 1
+    assert "Traceback" not in proc.stderr
+    assert proc.stderr.count("\n") == 1 and "missing required column" in proc.stderr
+
+
+def test_repairs_change_the_cores_as_reported(tmp_path):
+    source = _write(tmp_path, {"c.csv": HEAD + "W1,2,3,A\nW1,1.004,2,B\nW1,0,1.004,A\n"})
+    cores = read_cores(source)
+    table = cores["W1"].intervals
+    # listed base to top: put in depth order (a repair) ...
+    assert table["top"].tolist() == [0.0, 1.004, 2.0]
+    kinds = [(p.kind, p.severity) for p in cores.problems]
+    assert ("depth-order", "repair") in kinds
+    # ... and a gap is kept as a gap: never bridged
+    gapped = read_cores(_write(tmp_path, {"g.csv": HEAD + "W1,0,1,A\nW1,1.5,2,B\n"}))
+    assert gapped["W1"].gaps() == [(1.0, 1.5)]
+    assert len(gapped["W1"].successions()) == 2
+
+
+def test_small_overlap_is_snapped_to_the_interval_above(tmp_path):
+    source = _write(tmp_path, {"c.csv": HEAD + "W1,0,1.004,A\nW1,1,2,B\n"})
+    cores = read_cores(source)
+    assert cores["W1"].intervals["top"].tolist() == [0.0, 1.004]
+    (repair,) = [p for p in cores.problems if p.kind == "overlap"]
+    assert repair.severity == "repair" and "moved down from 1 to 1.004" in repair.message
+    assert not cores.errors
+
+
+def test_rows_with_errors_are_left_out_but_listed(tmp_path):
+    source = _write(tmp_path, {"c.csv": HEAD + "W1,0,1,A\nW1,3,2,B\nW1,1,2,B\n"})
+    cores = read_cores(source)
+    assert cores["W1"].intervals["_row"].tolist() == [1, 3]
+    with pytest.raises(InputError, match=re.escape("row 2, core W1, depth 3.00 m: top 3 is below")):
+        cores.require_valid()
