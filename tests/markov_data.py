@@ -1,6 +1,6 @@
 """Test data for the Markov statistics: the Council Grove wells as a CoreSet.
 
-Real, open data copied into ``tests/data/council-grove/`` (see its README):
+Real, open data copied into ``tests/data/council_grove/`` (see its README):
 Dubois, Bohling & Chakrabarti (2007), Computers & Geosciences 33:599–617;
 CSV published by Hall (2016), The Leading Edge 35:906–909 (Apache 2.0).
 One row per 0.5 ft sample; here each sample becomes the interval
@@ -18,7 +18,7 @@ import pandas as pd
 
 from faciesseq.core import CoreSet
 
-DATA = Path(__file__).parent / "data" / "council-grove" / "facies_vectors_subset.csv"
+DATA = Path(__file__).parent / "data" / "council_grove" / "facies_vectors_subset.csv"
 PSEUDO_WELL = "Recruit F9"
 
 

@@ -2,7 +2,7 @@
 
 Data: Dubois, Bohling & Chakrabarti (2007), Computers & Geosciences 33:599–617;
 CSV of Hall (2016), The Leading Edge 35:906–909 (Apache 2.0); copied into
-tests/data/council-grove/. The numbers asserted below were measured with this
+tests/data/council_grove/. The numbers asserted below were measured with this
 code (``analyse(council_grove_coreset(), ...)``) and are recorded so that a
 change in them is noticed; the reference facts are the data's own
 (five real wells, one pseudo-well of scattered samples, 0.5 ft sampling).
