@@ -57,7 +57,7 @@ def main() -> None:
     x = succession(args.beds)
     m = int(x.max()) + 1
     enc = encode([x])
-    print(f"machine: {platform.machine()} {platform.processor() or ''} python {platform.python_version()}")
+    print(f"machine: {platform.machine()} python {platform.python_version()}")
     print(f"{args.beds} beds, {m} facies; best of {args.repeat} runs")
 
     def vectorised() -> float:
@@ -84,7 +84,9 @@ def main() -> None:
     tv = min(vectorised() for _ in range(args.repeat))
     tl = min(loop() for _ in range(args.repeat))
     print(f"transition surrogates, vectorised, {args.surrogates} (with G2): {tv:.2f} s")
-    print(f"transition surrogates, Python loop, {args.loop} scaled to {args.surrogates}: {tl:.1f} s")
+    print(
+        f"transition surrogates, Python loop, {args.loop} scaled to {args.surrogates}: {tl:.1f} s"
+    )
     print(f"ratio loop / vectorised: {tl / tv:.1f}")
     tp = perm()
     print(f"restricted permutations, {args.perm} scaled to {args.surrogates}: {tp:.1f} s")

@@ -167,6 +167,7 @@ class MarkovReport:
                 "significant": _matrix(fo.significant, codes),
                 "low_expected": _matrix(fo.low_expected, codes),
                 "fixed_vector": dict(zip(codes, self.fixed_vector)),
+                "n_step": {str(k): _matrix(v, codes) for k, v in self.n_step.items()},
                 "first_order": {
                     "model": fo.model,
                     "dof": fo.dof,
