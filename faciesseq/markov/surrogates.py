@@ -239,29 +239,31 @@ def transition_surrogates(
             labels[rows, end] = labels[rows, last_label]
             labels[rows, last_label] = moved
         _shuffle_segments(labels, seg_off, seg_len, rng)
-        # batch-minor layouts: each step reads and writes contiguous rows
-        exits_t = gr.exits[labels.T].astype(enc.states.dtype)  # (n_edges, batch)
+        # each walker reads its own exit lists in order (cache-friendly); the
+        # output is written one position (a contiguous row of walkers) per step
+        flat_exits = gr.exits.astype(enc.states.dtype)[labels].reshape(-1)
         del labels
         out_t = np.empty((n_states, batch), dtype=enc.states.dtype)
         nonempty = gr.lengths > 0
         out_t[gr.state_start[nonempty], :] = gr.start[nonempty][:, None]
-        used = np.zeros(gr.n_succ * m * batch, dtype=np.int32)
-        flat_exits = exits_t.reshape(-1)
-        col = np.arange(batch)[None, :]
-        cur = np.broadcast_to((active * m + gr.start[active])[:, None], (len(active), batch))
+        n_vert = gr.n_succ * m
+        # next exit slot of every (walker, vertex), as a flat index into flat_exits
+        ptr = (gr.offset[None, :] + (np.arange(batch) * gr.n_edges)[:, None]).reshape(-1)
+        row_v = (np.arange(batch, dtype=np.int64) * n_vert)[:, None]
+        cur = np.broadcast_to((active * m + gr.start[active])[None, :], (batch, len(active)))
         for t in range(max_len - 1):
             if t + 1 in ends:
                 keep = gr.lengths[active] > t + 1
                 active = active[keep]
-                cur = cur[keep]
+                cur = cur[:, keep]
             if len(active) == 0:
                 break
-            vi = cur * batch + col
-            slot = gr.offset[cur] + used[vi]
-            nxt = flat_exits[slot * batch + col]
-            used[vi] += 1
-            out_t[gr.state_start[active] + t + 1, :] = nxt
-            cur = active[:, None] * m + nxt
+            vi = row_v + cur
+            slot = ptr[vi]
+            ptr[vi] = slot + 1
+            nxt = flat_exits[slot]
+            out_t[gr.state_start[active] + t + 1, :] = nxt.T
+            cur = active[None, :] * m + nxt
         out = np.ascontiguousarray(out_t.T)
         active = np.nonzero(gr.lengths > 1)[0]
         yield out
