@@ -200,18 +200,29 @@ def ngram_counts(enc: EncodedSuccessions, order: int, *, skip: int = 0) -> np.nd
 def batch_ngram_counts(enc: EncodedSuccessions, batch: np.ndarray, order: int) -> np.ndarray:
     """:func:`ngram_counts` for a batch of surrogates ``(B, len(enc.states))`` of ``enc``.
 
-    Returns ``(B,) + (m,) * (order + 1)``.
+    Returns ``(B,) + (m,) * (order + 1)``. Windows are coded with slices of the
+    whole batch (no gathers); windows that cross a succession boundary go to
+    an overflow bin that is dropped.
     """
     m = enc.m
     width = order + 1
-    starts = _window_index(enc, width)
+    n = batch.shape[1]
+    n_cells = m**width
     b = batch.shape[0]
-    code = np.zeros((b, len(starts)), dtype=np.int64)
+    if n < width:
+        return np.zeros((b,) + (m,) * width, dtype=np.int64)
+    dtype = np.int32 if n_cells < 2**31 else np.int64
+    code = np.zeros((b, n - width + 1), dtype=dtype)
     for k in range(width):
-        code = code * m + batch[:, starts + k]
-    code += (np.arange(b, dtype=np.int64) * m**width)[:, None]
-    flat = np.bincount(code.ravel(), minlength=b * m**width)
-    return flat.reshape((b,) + (m,) * width)
+        code *= m
+        code += batch[:, k : n - width + 1 + k]
+    valid = np.zeros(n - width + 1, dtype=bool)
+    valid[_window_index(enc, width)] = True
+    code[:, ~valid] = n_cells
+    out = np.empty((b, n_cells), dtype=np.int64)
+    for r in range(b):
+        out[r] = np.bincount(code[r], minlength=n_cells + 1)[:n_cells]
+    return out.reshape((b,) + (m,) * width)
 
 
 def transition_counts(enc: EncodedSuccessions, *, per_succession: bool = False) -> np.ndarray:
