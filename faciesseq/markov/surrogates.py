@@ -362,6 +362,8 @@ def swap_chain(
     facies then lies on itself, so the kernel is symmetric and the uniform law
     on the allowed orderings is stationary.
     """
+    if not x.flags.c_contiguous:
+        raise ValueError("swap_chain works in place on a C-contiguous batch")
     lengths = enc.lengths
     starts = enc.starts[:-1]
     n_states = len(enc.states)
@@ -392,29 +394,30 @@ def swap_chain(
         x[:, i] = np.where(ok, xj, xi)
         x[:, j] = np.where(ok, xi, xj)
 
-    rows = np.arange(x.shape[0])[:, None]
     base = starts[movable][None, :]
     length = lengths[movable][None, :]
     last = base + length - 1
 
+    flat = x.reshape(-1)
+    row_off = (np.arange(x.shape[0], dtype=np.int64) * n_states)[:, None]
+
     def single_step() -> None:
-        i = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
-        j = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
-        xi, xj = x[rows, i], x[rows, j]
+        shape = (x.shape[0], len(movable))
+        i = base + (rng.random(shape) * length).astype(np.int64)
+        j = base + (rng.random(shape) * length).astype(np.int64)
+        fi, fj = row_off + i, row_off + j
+        xi, xj = flat[fi], flat[fj]
+        up_i, down_i = flat[np.maximum(fi - 1, 0)], flat[np.minimum(fi + 1, flat.size - 1)]
+        up_j, down_j = flat[np.maximum(fj - 1, 0)], flat[np.minimum(fj + 1, flat.size - 1)]
+        # i and j side by side: the shared neighbour is the other bed of the pair
+        j_above, j_below = j == i + 1, j == i - 1
         ok = xi != xj
-
-        def value(p):
-            v = x[rows, np.clip(p, 0, n_states - 1)]
-            return np.where(p == i, xj, np.where(p == j, xi, v))
-
-        for p in (i, j):
-            vp = value(p)
-            ok &= (p - 1 < base) | (value(p - 1) != vp)
-            ok &= (p + 1 > last) | (value(p + 1) != vp)
-        r, c = np.nonzero(ok)
-        ii, jj = i[r, c], j[r, c]
-        a, bb = x[r, ii].copy(), x[r, jj].copy()
-        x[r, ii], x[r, jj] = bb, a
+        ok &= j_below | (i - 1 < base) | (up_i != xj)
+        ok &= j_above | (i + 1 > last) | (down_i != xj)
+        ok &= j_above | (j - 1 < base) | (up_j != xi)
+        ok &= j_below | (j + 1 > last) | (down_j != xi)
+        flat[fi[ok]] = xj[ok]
+        flat[fj[ok]] = xi[ok]
 
     for _ in range(sweeps):
         for _ in range(4):
