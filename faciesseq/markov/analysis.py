@@ -214,6 +214,7 @@ class MarkovReport:
                 }
             ),
         }
+        frames["cells"] = fo.to_frame(codes)
         if self.homogeneity is not None:
             frames["homogeneity_groups"] = self.homogeneity.to_frame()
         if self.per_core is not None:
