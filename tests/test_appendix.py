@@ -117,6 +117,9 @@ def test_text_from_data_is_escaped(written):
     _, _, out = written
     html = (out / "appendix.html").read_text(encoding="utf-8")
     assert "<script" not in html
+    # self-contained: nothing is fetched (figures are data: URIs, links are relative)
+    assert not re.search(r"""(src|href)=["']?(https?:)?//""", html)
+    assert "<link" not in html
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
     page = read_tables(html)
     assert EVIL in "".join(page.text)  # shown as text

@@ -560,7 +560,9 @@ def _figure_bytes(fig, fmt: str, dpi: int) -> bytes:
     buffer = io.BytesIO()
     metadata = {"CreationDate": None} if fmt == "pdf" else {"Software": None}
     with mpl.rc_context(STYLE):
-        fig.savefig(buffer, format=fmt, dpi=dpi, bbox_inches="tight", metadata=metadata)
+        # constrained layout already fits every figure to its canvas; a tight bounding
+        # box would draw each figure twice
+        fig.savefig(buffer, format=fmt, dpi=dpi, metadata=metadata)
     return buffer.getvalue()
 
 

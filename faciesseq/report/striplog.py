@@ -269,16 +269,18 @@ def strip_log(
             hi = float(getattr(pick, "depth_base", depth))
             ax_s.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
             ax_s.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
+            # the label stays inside the panel: right of the marker, or left of it near 1
+            right = prob <= 0.62
             ax_s.text(
-                min(prob + 0.04, 1.02),
+                prob + 0.05 if right else prob - 0.05,
                 depth,
                 f"{pick.surface} {prob:.2f}",
-                va="center",
-                ha="left",
+                va="bottom",
+                ha="left" if right else "right",
                 fontsize=6,
                 color=colour,
                 parse_math=False,
-                clip_on=False,
+                bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
             )
             for ax in (ax_f, ax_t):
                 ax.axhline(depth, color=colour, lw=0.7, ls="--")
