@@ -173,6 +173,7 @@ CASES = [
         "error",
         "row 2, core W1, depth 1.00 m: no facies code",
     ),
+    ("no-data-rows", {"c.csv": HEAD}, [], 1, "no-cores", "error", "no usable cores"),
 ]
 
 
@@ -227,7 +228,8 @@ def test_scheme_draft_refuses_data_with_errors_and_writes_nothing(tmp_path, caps
     code, _, err = _run(capsys, ["scheme", "draft", source, "-o", out, *options])
     assert code == 1
     assert len(err.strip().splitlines()) == 1
-    assert err.startswith("faciesseq scheme: ") and "core W1" in err
+    assert err.startswith("faciesseq scheme: ")
+    assert "core W1" in err or f"{source}: no usable cores" in err
     assert not out.exists()
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").iterdir())
 

@@ -111,13 +111,19 @@ def _kind(path: Path) -> str | None:
 
 
 def _read_file(path: Path, kind: str, spec: SourceSpec) -> RawTable:
+    table = _read_kind(path, kind, spec)
+    if table.core is None:
+        table.core = path.stem  # the core name when the table has no core column
+    return table
+
+
+def _read_kind(path: Path, kind: str, spec: SourceSpec) -> RawTable:
     if kind == "text":
         return read_delimited(path, spec.encoding)
     if kind == "excel":
         return read_excel(path, spec.sheet)
     if kind == "parquet":
-        table = read_parquet(path)
-        return table
+        return read_parquet(path)
     if kind == "las":
         return read_las(path, spec.curve, spec.encoding)
     return read_sql(str(path), spec.table, spec.query)

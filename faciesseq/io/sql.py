@@ -49,6 +49,16 @@ def _check_query(query: str, where: str) -> str:
     return text
 
 
+def _postgres_driver() -> str:
+    """The installed PostgreSQL driver: psycopg (3) when present, else psycopg2."""
+    import importlib.util
+
+    for name in ("psycopg", "psycopg2"):
+        if importlib.util.find_spec(name) is not None:
+            return name
+    return "psycopg"
+
+
 def _engine(source: str):
     """A read-only engine for ``source`` (URL or SQLite path) and its display label."""
     from sqlalchemy import create_engine
@@ -71,6 +81,8 @@ def _engine(source: str):
             url = make_url(f"sqlite:///file:{path.resolve()}?mode=ro&uri=true")
         elif backend == "postgresql":
             connect_args["options"] = "-c default_transaction_read_only=on"
+            if url.drivername == "postgresql":
+                url = url.set(drivername=f"postgresql+{_postgres_driver()}")
         try:
             engine = create_engine(url, connect_args=connect_args)
         except (NoSuchModuleError, ModuleNotFoundError) as exc:

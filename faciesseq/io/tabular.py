@@ -64,19 +64,41 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
         first_bad = exc.start
     from charset_normalizer import from_bytes
 
-    best = from_bytes(data).best()
-    if best is None or best.encoding is None:
+    matches = list(from_bytes(data))
+    if not matches:
         raise InputError(
             f"not UTF-8 (byte {first_bad}) and its encoding could not be detected; "
             "save it as UTF-8 or give 'encoding' in a YAML source file",
             file=file,
         )
-    text = str(best)
+    best = matches[0]
+    tied = [m for m in matches if (m.chaos, m.coherence) == (best.chaos, best.coherence)]
+    readings: dict[str, list[str]] = {}
+    for m in tied:
+        readings.setdefault(str(m), []).append(m.encoding)
+    chosen = best
+    others: list[str] = []
+    if len(readings) > 1:
+        # Equally likely code pages that read the bytes differently: take the
+        # commonest Western one when it is among them, and say so; else refuse.
+        western = [m for m in tied if "cp1252" in m.could_be_from_charset]
+        if not western:
+            raise InputError(
+                "not UTF-8, and the encoding is ambiguous ("
+                + ", ".join(m.encoding for m in tied)
+                + " read it differently); save it as UTF-8 or give 'encoding' in a YAML "
+                "source file",
+                file=file,
+            )
+        chosen = western[0]
+        others = [e for text, encs in readings.items() if text != str(chosen) for e in encs]
+    text = str(chosen)
+    also = f"; it could also be {', '.join(others)}, which reads it differently" if others else ""
     note = Problem(
         "warning",
         "encoding",
-        f"file is not UTF-8; read as {best.encoding} (detected); check accented names, or "
-        "save it as UTF-8, or give 'encoding' in a YAML source file",
+        f"file is not UTF-8; read as {chosen.encoding} (detected){also}; check accented "
+        "names, or save it as UTF-8, or give 'encoding' in a YAML source file",
         file=file,
     )
     return text, [note]
@@ -119,10 +141,39 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     frame.columns = [str(c).strip() for c in frame.columns]
     frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
     frame = frame.replace("", np.nan)
+    if delimiter != ",":
+        frame, converted = _decimal_commas(frame)
+        if converted:
+            problems.append(
+                Problem(
+                    "repair",
+                    "decimal-comma",
+                    f"decimal commas read as decimal points in column(s) {', '.join(converted)}",
+                    file=file,
+                )
+            )
     rows = np.arange(1, len(frame) + 1)
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
     return RawTable(frame.astype(object), file, rows[keep].tolist(), problems=problems)
+
+
+_DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"
+
+
+def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
+    """Columns written with decimal commas (``2793,5``), as European exports are."""
+    converted = []
+    for col in frame.columns:
+        values = frame[col].dropna().astype(str)
+        if (
+            len(values)
+            and values.str.contains(",").any()
+            and values.str.match(_DECIMAL_COMMA).all()
+        ):
+            frame[col] = frame[col].str.replace(",", ".", regex=False)
+            converted.append(str(col))
+    return frame, converted
 
 
 def read_excel(path: Path, sheet: str | None = None) -> RawTable:

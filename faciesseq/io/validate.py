@@ -10,7 +10,7 @@ errors
     ``missing-depth``, ``bad-depth``, ``missing-core``, ``missing-facies``
     (interval layout), ``unknown-facies``, ``top-below-base``,
     ``zero-thickness``, ``overlap`` (larger than the tolerance),
-    ``repeated-depth``, ``duplicate-core``
+    ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
     facies), ``null`` (LAS null values), ``encoding``, ``units``,
@@ -18,6 +18,7 @@ warnings
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
     ``repeated-depth`` (``repeated_depths="keep-first"``), ``units-converted``,
+    ``decimal-comma``,
     ``grain-size``
 """
 
@@ -689,6 +690,15 @@ def _samples_to_intervals(
     return table, problems
 
 
+def _count_beds(core: Core) -> int:
+    """Beds of a core (as :meth:`Core.beds` amalgamates them) without building the table."""
+    facies = core.intervals["facies"].to_numpy(dtype=object)
+    segment = core.segment_ids()
+    if len(facies) == 0:
+        return 0
+    return 1 + int(((facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])).sum())
+
+
 def build_coreset(
     tables: list[RawTable],
     *,
@@ -788,7 +798,7 @@ def build_coreset(
             )
             continue
         core = Core(name, part.reset_index(drop=True), target)
-        n_beds = len(core.beds())
+        n_beds = _count_beds(core)
         if n_beds < 2:
             problems.append(
                 Problem(
@@ -805,6 +815,15 @@ def build_coreset(
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
     }
+    if not cores and not any(p.severity == "error" for p in problems):
+        problems.append(
+            Problem(
+                "error",
+                "no-cores",
+                "no usable cores in the source (no data rows?)",
+                file=", ".join(sources) or None,
+            )
+        )
     problems = [
         replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
     ]

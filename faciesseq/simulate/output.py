@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 import os
 import shutil
-import sqlite3
 import tempfile
 from pathlib import Path
 
@@ -21,7 +20,8 @@ from faciesseq.simulate import SimulationResult
 
 __all__ = ["TABLES", "write_simulation"]
 
-#: Table files written (name -> what it holds).
+#: Table files written (name -> what it holds); in the SQLite file the cores are
+#: the table ``intervals``, as :func:`faciesseq.io.write_cores` writes them.
 TABLES = {
     "cores": "described intervals with their truth (one row per interval)",
     "surfaces": "true surfaces at each core",
@@ -32,10 +32,8 @@ TABLES = {
 
 
 def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
-    cores = result.to_frame()
-    cores["tract"] = cores["tract"].astype(object).where(cores["tract"].notna(), None)
+    """The tables beside the cores (the cores go through :func:`faciesseq.io.write_cores`)."""
     return {
-        "cores": cores,
         "surfaces": result.surfaces,
         "steps": result.steps,
         "wells": result.wells,
@@ -43,14 +41,15 @@ def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
     }
 
 
-def _write_tables(tables: dict[str, pd.DataFrame], folder: Path) -> None:
-    """CSV files and one SQLite file holding the same tables."""
+def _write_tables(result: SimulationResult, folder: Path) -> None:
+    """CSV files and one SQLite file holding the same tables (cores as ``intervals``)."""
+    from faciesseq.io import write_cores
+
+    tables = _tables(result)
+    write_cores(result.cores, folder / "cores.csv")
     for name, table in tables.items():
         table.to_csv(folder / f"{name}.csv", index=False, lineterminator="\n")
-    with sqlite3.connect(folder / "cores.sqlite") as connection:
-        for name, table in tables.items():
-            table.to_sql(name, connection, index=False)
-    connection.close()
+    write_cores(result.cores, folder / "cores.sqlite", tables=tables)
 
 
 def write_simulation(
@@ -64,10 +63,13 @@ def write_simulation(
     """Write a simulation to ``directory`` (atomically) and return the files written.
 
     Files: ``cores.csv``, ``surfaces.csv``, ``steps.csv``, ``wells.csv``,
-    ``budget.csv``, ``cores.sqlite`` (the same five tables), ``summary.json``,
+    ``budget.csv``, ``cores.sqlite`` (the same tables; the cores as ``intervals``),
+    ``summary.json``,
     ``scenario.yaml`` (a copy of the scenario file, when it came from one) and,
     unless ``figures`` is false, ``section-<name>.png`` and
-    ``base-level-<name>.png`` per dip section.
+    ``base-level-<name>.png`` per dip section. With ``force`` an existing
+    folder is replaced, but files in it that this run does not write (e.g. a
+    README) are carried over.
 
     Raises
     ------
@@ -90,7 +92,7 @@ def write_simulation(
     os.umask(umask)
     temp.chmod(0o777 & ~umask)  # an ordinary folder, not mkdtemp's private one
     try:
-        _write_tables(_tables(result), temp)
+        _write_tables(result, temp)
         (temp / "summary.json").write_text(
             json.dumps(result.to_dict(), indent=2, sort_keys=False) + "\n", encoding="utf-8"
         )
@@ -100,6 +102,10 @@ def write_simulation(
         if figures:
             _write_figures(result, temp, dpi)
         if target.exists():
+            # files of the old folder this run does not write (a README...) are kept
+            for item in target.iterdir():
+                if not (temp / item.name).exists():
+                    shutil.move(str(item), temp / item.name)
             old = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=parent))
             target.rename(old / target.name)
             temp.rename(target)

@@ -53,10 +53,16 @@ def facies_of_depth(water_depth: np.ndarray, bands: tuple[tuple[str, float], ...
 
 
 def well_layers(history: SectionHistory, well: Well, scenario: Scenario) -> pd.DataFrame:
-    """The preserved layers at a well, base to top (one per time step with sediment kept).
+    """The preserved layers at a well, base to top.
+
+    One layer per time step with sediment kept, split where the water depth at
+    deposition (linear through the step, from the depth at the end of the step
+    before to the depth at its end) crosses a facies limit inside it: a step
+    that fills the shoreface holds lower shoreface, upper shoreface and
+    foreshore upward.
 
     Columns: ``step``, ``age_kyr`` (end of the step), ``thickness`` (m),
-    ``facies``, ``true_tract``, ``water_depth`` (m at deposition), ``eroded_below``
+    ``facies``, ``true_tract``, ``water_depth`` (m at deposition, mid-layer), ``eroded_below``
     (m eroded at the well since the previous kept layer), ``hiatus_kyr``
     (time without preserved deposition below the layer).
     """
@@ -65,31 +71,59 @@ def well_layers(history: SectionHistory, well: Well, scenario: Scenario) -> pd.D
     preserved = np.minimum.accumulate(h[::-1])[::-1]
     thickness = np.diff(preserved)
     steps = np.arange(1, history.n_steps + 1)
-    level = history.base_level_m[1:]
     elevation = (
-        history.initial_surface_m[j]
-        - history.subsidence_m_per_kyr[j] * history.time_kyr[1:]
-        + h[1:]
+        history.initial_surface_m[j] - history.subsidence_m_per_kyr[j] * history.time_kyr + h
     )
-    water_depth = level - elevation
+    water_depth = history.base_level_m - elevation  # at the end of each step, (N + 1,)
     keep = np.nonzero(thickness > _THIN)[0]
     eroded = history.eroded_m[:, j]
     cum_eroded = np.r_[0.0, np.cumsum(eroded)]
     prev = np.r_[-1, keep[:-1]]
     eroded_below = cum_eroded[keep + 1] - cum_eroded[prev + 1]
     hiatus = (keep - prev - 1) * (history.time_kyr[1] - history.time_kyr[0])
-    return pd.DataFrame(
-        {
-            "step": steps[keep],
-            "age_kyr": history.time_kyr[1:][keep],
-            "thickness": thickness[keep],
-            "facies": facies_of_depth(water_depth[keep], scenario.depth_bands),
-            "true_tract": history.tract[keep],
-            "water_depth": water_depth[keep],
-            "eroded_below": eroded_below,
-            "hiatus_kyr": hiatus,
-        }
+    # Deposition and the change of water depth go on together through a step: the
+    # base of a kept layer was laid down at the water depth of the end of the step
+    # before, its top (if not cut later) at the depth of the end of the step, linear
+    # between. Where that range crosses a facies limit the layer is split, so a step
+    # that fills a shoreface holds its facies upward.
+    limits = np.array([b[1] for b in scenario.depth_bands[:-1]], dtype=float)
+    rows: dict[str, list] = {c: [] for c in _LAYER_COLUMNS if c != "facies"}
+    for n, i in enumerate(keep):
+        base_depth = water_depth[i]
+        deposited = h[i + 1] - h[i]  # > 0: a kept layer starts on the surface of step i
+        top_depth = base_depth + (water_depth[i + 1] - base_depth) * thickness[i] / deposited
+        lo, hi = sorted((base_depth, top_depth))
+        inside = limits[(limits > lo) & (limits < hi)]
+        if top_depth < base_depth:
+            inside = inside[::-1]
+        edges = np.r_[base_depth, inside, top_depth]
+        span = abs(top_depth - base_depth)
+        for part, (lower, upper) in enumerate(itertools.pairwise(edges)):
+            share = abs(upper - lower) / span if span > 0 else 1.0
+            rows["step"].append(int(steps[i]))
+            rows["age_kyr"].append(float(history.time_kyr[i + 1]))
+            rows["thickness"].append(float(thickness[i] * share))
+            rows["true_tract"].append(history.tract[i])
+            rows["water_depth"].append(float(0.5 * (lower + upper)))
+            rows["eroded_below"].append(float(eroded_below[n]) if part == 0 else 0.0)
+            rows["hiatus_kyr"].append(float(hiatus[n]) if part == 0 else 0.0)
+    table = pd.DataFrame(rows)
+    table["facies"] = facies_of_depth(
+        table["water_depth"].to_numpy(dtype=float), scenario.depth_bands
     )
+    return table[list(_LAYER_COLUMNS)]
+
+
+_LAYER_COLUMNS = (
+    "step",
+    "age_kyr",
+    "thickness",
+    "facies",
+    "true_tract",
+    "water_depth",
+    "eroded_below",
+    "hiatus_kyr",
+)
 
 
 def _units(layers: pd.DataFrame, scenario: Scenario) -> list[dict]:

@@ -1,0 +1,119 @@
+"""``faciesseq check`` summary (text and JSON) and ``faciesseq scheme draft|show``."""
+
+import json
+
+import pandas as pd
+import pytest
+import yaml
+
+from faciesseq.cli import main
+from faciesseq.core import CoreSet
+from faciesseq.errors import ConfigError
+from faciesseq.io import read_cores, summarise, write_cores
+
+CSV = (
+    "core,top,base,facies,contact\n"
+    "W1,0,1,A,sharp\nW1,1,2,A,gradational\nW1,2,2.5,B,sharp\nW1,3,4,A,erosional\n"
+)
+
+
+def _source(tmp_path):
+    path = tmp_path / "c.csv"
+    path.write_text(CSV)
+    return path
+
+
+def test_summary_counts_beds_thickness_and_proportions_worked_by_hand(tmp_path):
+    # beds: A 0-2 (two intervals amalgamated), B 2-2.5, gap 2.5-3, A 3-4
+    result = summarise(read_cores(_source(tmp_path), units="m"))
+    core = result.cores.iloc[0]
+    assert (core["intervals"], core["beds"], core["gaps"]) == (4, 3, 1)
+    assert (core["top"], core["base"], core["cored_thickness"]) == (0.0, 4.0, 3.5)
+    assert core["gap_thickness"] == 0.5
+    a, b = result.facies.to_dict(orient="records")
+    assert (a["facies"], a["intervals"], a["beds"], a["thickness"]) == ("A", 3, 2, 3.0)
+    assert a["proportion_thickness"] == pytest.approx(3.0 / 3.5)
+    assert a["proportion_beds"] == pytest.approx(2 / 3)
+    assert (a["bed_thickness_mean"], a["bed_thickness_median"]) == (1.5, 1.5)
+    assert (a["bed_thickness_min"], a["bed_thickness_max"]) == (1.0, 2.0)
+    assert a["bed_thickness_std"] == pytest.approx(2**0.5 / 2)  # sample sd of 1 and 2
+    assert b["proportion_thickness"] == pytest.approx(0.5 / 3.5)
+    assert result.usable
+
+
+def test_check_json_has_the_documented_keys(tmp_path, capsys):
+    assert main(["check", str(_source(tmp_path)), "--units", "m", "--format", "json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert set(data) == {"summary", "cores", "facies", "problems"}
+    assert set(data["summary"]) == {
+        "usable", "units", "sources", "cores", "intervals", "beds", "cored_thickness",
+        "gaps", "facies", "errors", "warnings", "repairs",
+    }  # fmt: skip
+    assert set(data["cores"][0]) == {
+        "core", "intervals", "beds", "top", "base", "cored_thickness", "gaps",
+        "gap_thickness", "units", "sample_step",
+    }  # fmt: skip
+    assert data["cores"][0]["sample_step"] is None  # interval layout: no sample spacing
+    assert set(data["facies"][0]) >= {"facies", "beds", "thickness", "proportion_thickness"}
+    (gap,) = data["problems"]
+    assert gap == {
+        "severity": "warning",
+        "kind": "gap",
+        "message": gap["message"],
+        "file": str(tmp_path / "c.csv"),
+        "row": 4,
+        "core": "W1",
+        "depth": 2.5,
+        "units": "m",
+    }
+
+
+def test_check_text_output_reads_as_a_summary(tmp_path, capsys):
+    assert main(["check", str(_source(tmp_path)), "--units", "m"]) == 0
+    out = capsys.readouterr().out
+    assert "1 core(s), 4 interval(s), 3 bed(s), 3.50 m cored, 1 gap(s)" in out
+    assert "problems: 0 error(s), 1 warning(s), 0 repair(s)" in out
+    assert f"warning: {tmp_path / 'c.csv'}, row 4, core W1, depth 2.50 m: gap from 2.5 to 3" in out
+    assert out.rstrip().endswith("usable: yes")
+
+
+def test_excel_sheet_option(tmp_path):
+    cores = CoreSet.from_frame(
+        pd.DataFrame({"core": ["X"] * 2, "top": [0, 1], "base": [1, 2], "facies": ["A", "B"]})
+    )
+    path = tmp_path / "book.xlsx"
+    logs = pd.DataFrame({"Well": ["Y", "Y"], "Depth": [5.0, 5.5], "Code": ["C", "D"]})
+    write_cores(cores, path, tables={"logs": logs})
+    assert read_cores(path).names == ["X"]
+    back = read_cores(path, sheet="logs", columns={"facies": "Code"}, units="m")
+    assert back.names == ["Y"] and back.meta["sample_step"] == {"Y": 0.5}
+    with pytest.raises(ConfigError, match="no sheet 'nope'"):
+        read_cores(path, sheet="nope")
+
+
+def test_scheme_draft_writes_codes_with_ranks_to_fill_and_refuses_to_overwrite(tmp_path, capsys):
+    source = _source(tmp_path)
+    out = tmp_path / "draft.yaml"
+    assert main(["scheme", "draft", str(source), "-o", str(out), "--units", "m"]) == 0
+    data = yaml.safe_load(out.read_text())
+    assert [f["code"] for f in data["facies"]] == ["A", "B"]
+    assert all(f["rank"] is None for f in data["facies"])
+    assert "TODO" in out.read_text()
+    capsys.readouterr()
+    before = out.read_text()
+    assert main(["scheme", "draft", str(source), "-o", str(out)]) == 2
+    assert "exists; give --force" in capsys.readouterr().err
+    assert out.read_text() == before
+    assert main(["scheme", "draft", str(source), "-o", str(out), "--force"]) == 0
+    # the draft does not load as a scheme until the ranks are filled in
+    assert main(["scheme", "show", str(out)]) == 2
+    assert "missing 'rank'" in capsys.readouterr().err
+
+
+def test_scheme_show_lists_facies_landward_to_basinward(capsys):
+    assert main(["scheme", "show", "tests/data/council_grove/scheme.yaml"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    facies = [ln.split()[2] for ln in lines[1:]]
+    assert facies == ["1", "2", "3", "7", "8", "6", "5", "9", "4"]
+    assert main(["scheme", "show", "configs/tracts-default.yaml"]) == 0
+    assert "HST -> FSST -> LST -> TST -> HST" in capsys.readouterr().out
