@@ -28,6 +28,10 @@ _API = {
     "InputError": "faciesseq.errors",
     "ConfigError": "faciesseq.errors",
     "read_cores": "faciesseq.io",
+    "TractHMM": "faciesseq.hmm.model",
+    "load_model": "faciesseq.hmm.modelfile",
+    "save_model": "faciesseq.hmm.modelfile",
+    "cross_validate": "faciesseq.validation",
 }
 
 __all__ = ["__version__", *_API]

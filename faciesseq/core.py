@@ -186,20 +186,52 @@ class Core:
         facies = table["facies"].to_numpy(dtype=object)
         new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])]
         bed_id = np.cumsum(new_bed) - 1
-        rows = []
-        for b, group in table.groupby(bed_id, sort=True):
-            first = int(np.searchsorted(bed_id, b))
-            row = {
-                "segment": int(segment[first]),
-                "top": float(group["top"].iloc[0]),
-                "base": float(group["base"].iloc[-1]),
-                "facies": str(group["facies"].iloc[0]),
-                "n_intervals": len(group),
-            }
-            row["thickness"] = row["base"] - row["top"]
-            row.update(_aggregate(group, attrs))
-            rows.append(row)
-        return pd.DataFrame(rows, columns=columns)
+        n_beds = int(bed_id[-1]) + 1
+        size = np.bincount(bed_id, minlength=n_beds)
+        # Beds of one interval (most beds) are copied column-wise; only beds of
+        # several intervals go through _aggregate (same values, much faster).
+        single_rows = np.nonzero(size[bed_id] == 1)[0]
+        parts = []
+        if len(single_rows):
+            one = table.iloc[single_rows]
+            single = pd.DataFrame(
+                {
+                    "segment": segment[single_rows].astype(int),
+                    "top": one["top"].to_numpy(dtype=float),
+                    "base": one["base"].to_numpy(dtype=float),
+                    "facies": one["facies"].astype(str).to_numpy(dtype=object),
+                    "n_intervals": 1,
+                },
+                index=bed_id[single_rows],
+            )
+            single["thickness"] = single["base"] - single["top"]
+            for col in attrs:
+                values = one[col]
+                if col != "contact" and pd.api.types.is_numeric_dtype(values):
+                    single[col] = values.to_numpy(dtype=float)
+                else:
+                    single[col] = values.to_numpy(dtype=object)
+            parts.append(single)
+        rows, ids = [], []
+        multi = size[bed_id] > 1
+        if multi.any():
+            for b, group in table[multi].groupby(bed_id[multi], sort=True):
+                first = int(np.searchsorted(bed_id, b))
+                row = {
+                    "segment": int(segment[first]),
+                    "top": float(group["top"].iloc[0]),
+                    "base": float(group["base"].iloc[-1]),
+                    "facies": str(group["facies"].iloc[0]),
+                    "n_intervals": len(group),
+                }
+                row["thickness"] = row["base"] - row["top"]
+                row.update(_aggregate(group, attrs))
+                rows.append(row)
+                ids.append(b)
+            parts.append(pd.DataFrame(rows, index=ids))
+        out = pd.concat(parts) if len(parts) > 1 else parts[0]
+        out = out.sort_index(kind="stable").reset_index(drop=True)
+        return out[columns].infer_objects()
 
     def grid(self, step: float, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
         """Facies sampled on a regular depth grid of spacing ``step`` (depth units).

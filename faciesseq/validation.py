@@ -403,13 +403,18 @@ def cross_validate(
         for core in dict.fromkeys(s.core for s in test):
             ci = interp[core]
             beds = ci.beds
+            # labels from the successions themselves, in the interpretation's
+            # depth order (segments in order, each top first): never from the
+            # decoded table, whose ``tract`` column is the model's
+            parts = sorted((s for s in test if s.core == core), key=lambda s: s.segment)
+            raw = np.concatenate([s.beds[labels].to_numpy(dtype=object)[::-1] for s in parts])
             label = pd.Series(
                 [
-                    None if (v is None or (isinstance(v, float) and np.isnan(v))) else str(v)
-                    for v in beds[labels].to_numpy(dtype=object)
-                ]
-                if labels in beds.columns
-                else [None] * len(beds),
+                    None
+                    if (v is None or (isinstance(v, float) and np.isnan(v)) or str(v).strip() == "")
+                    else str(v).strip()
+                    for v in raw
+                ],
                 index=beds.index,
                 dtype=object,
             )

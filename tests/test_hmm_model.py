@@ -159,13 +159,18 @@ def test_clamped_beds_keep_their_labels(train):
                 assert beds.loc[i, f"p_{v}"] == pytest.approx(1.0)
 
 
-def test_impossible_labels_name_the_core_and_depth(train):
+def test_impossible_labels_are_freed_with_a_warning_naming_core_and_depth(train):
+    from faciesseq.errors import InputError
+    from faciesseq.hmm.model import LabelWarning
+
     s = train[0]
     lab = [None] * len(s)
-    lab[0], lab[1] = "TST", "LST"  # TST -> LST upward is not in the tract graph
-    from faciesseq.errors import InputError
-
-    with pytest.raises(InputError, match=rf"core {s.core}, depth .*TST -> LST"):
+    lab[0], lab[1], lab[2] = "TST", "LST", "LST"  # TST -> LST upward is not in the graph
+    with pytest.warns(LabelWarning, match=rf"core {s.core}, depth .*TST -> LST"):
+        model = TractHMM(scheme=synth.scheme(), n_restarts=1).fit([s], labels=[lab])
+    assert model.n_labelled_ == 1
+    lab[0] = "ZZ"
+    with pytest.raises(InputError, match=rf"core {s.core}.*'ZZ' is not a tract"):
         TractHMM(scheme=synth.scheme()).fit([s], labels=[lab])
 
 
@@ -190,8 +195,12 @@ def test_unseen_facies_decodes_with_a_warning(train):
     beds = s.beds.copy()
     beds.loc[3, "facies"] = "XX"
     beds.loc[4, "contact"] = "burrowed"
-    with pytest.warns(UnseenCategoryWarning, match="XX"):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
         interp = model.decode([Succession(s.core, 0, beds, "m")])
+    messages = [str(w.message) for w in caught if w.category is UnseenCategoryWarning]
+    assert any("facies ['XX']" in m and s.core in m for m in messages)
+    assert any("contact type ['burrowed']" in m for m in messages)
     core = interp[s.core]
     assert np.isfinite(core.log_likelihood)
     p = core.beds[[f"p_{t}" for t in core.tracts]].to_numpy()
@@ -263,9 +272,11 @@ def test_substates_expand_each_tract_into_a_left_to_right_chain():
     states = StateSpace.build(tm, model.substates)
     assert states.labels() == ["HST.1", "HST.2", "HST.3", "FSST", "LST", "TST.1", "TST.2"]
     A = states.allowed
-    assert A[0, 1] and not A[0, 3] and A[2, 3]  # HST leaves only from its last sub-state
+    assert A[0, 1] and not A[0, 2] and A[2, 3]  # one step along the chain at a time
+    assert A[0, 3] and A[1, 3]  # a tract may end in any sub-state (a one-bed tract is possible)
     assert not A[1, 0]  # never back down the chain
-    assert A[6, 0] and not A[5, 0]  # TST.2 -> HST.1
+    assert A[6, 0] and A[5, 0] and not A[5, 1]  # other tracts are entered at sub-state 1 only
+    assert not A[3, 6]  # FSST -> TST.2: never into the middle of a tract
 
 
 def test_custom_tract_model_without_skips():

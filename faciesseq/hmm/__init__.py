@@ -1,1 +1,35 @@
-"""The systems-tract hidden Markov model: engine, emissions, estimator, model files."""
+"""The systems-tract hidden Markov model: engine, emissions, estimator, model files.
+
+- :mod:`faciesseq.hmm.engine`: forward-backward, Viterbi, two-slice posteriors, clamping;
+- :mod:`faciesseq.hmm.states`: tracts expanded into left-to-right sub-state chains;
+- :mod:`faciesseq.hmm.emissions`: the pluggable emission pieces;
+- :mod:`faciesseq.hmm.model`: the :class:`TractHMM` estimator;
+- :mod:`faciesseq.hmm.selection`: BIC across sub-state counts and emission sets;
+- :mod:`faciesseq.hmm.modelfile`: versioned JSON model files (never pickle);
+- :mod:`faciesseq.hmm.baseline`: the trend rule the model is compared with.
+
+Names are imported lazily, so importing the package is cheap.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+_API = {
+    "TractHMM": "faciesseq.hmm.model",
+    "ConvergenceMonitor": "faciesseq.hmm.model",
+    "select_model": "faciesseq.hmm.selection",
+    "save_model": "faciesseq.hmm.modelfile",
+    "load_model": "faciesseq.hmm.modelfile",
+    "trend_rule": "faciesseq.hmm.baseline",
+}
+
+__all__ = list(_API)
+
+
+def __getattr__(name: str) -> Any:
+    module = _API.get(name)
+    if module is None:
+        raise AttributeError(f"module 'faciesseq.hmm' has no attribute {name!r}")
+    return getattr(importlib.import_module(module), name)

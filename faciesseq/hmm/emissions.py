@@ -112,15 +112,14 @@ class EncodedBeds:
 
 
 def _codes(values: pd.Series, vocabulary: Sequence[str]) -> np.ndarray:
-    index = {c: i for i, c in enumerate(vocabulary)}
-    out = np.full(len(values), MISSING, dtype=np.int64)
-    for k, v in enumerate(values.to_numpy(dtype=object)):
-        if v is None or (isinstance(v, float) and np.isnan(v)) or v is pd.NA:
-            continue
-        text = str(v).strip()
-        if text == "" or text.lower() == "nan":
-            continue
-        out[k] = index.get(text, UNSEEN)
+    """Index of each value in ``vocabulary``; -1 missing (blank or NaN), -2 not in it."""
+    text = values.astype("string").str.strip()
+    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
+    out = pd.Index(list(vocabulary), dtype=object).get_indexer(
+        text.where(~missing).astype(object).to_numpy()
+    )
+    out = np.asarray(out, dtype=np.int64)
+    out[(out < 0) & ~missing.to_numpy(dtype=bool)] = UNSEEN
     return out
 
 

@@ -49,6 +49,7 @@ __all__ = [
     "FEATURES",
     "ConvergenceError",
     "ConvergenceMonitor",
+    "LabelWarning",
     "TractHMM",
 ]
 
@@ -58,6 +59,10 @@ FEATURES = ("facies", "facies_trend", "thickness", "contact")
 DEFAULT_FEATURES = ("facies_trend", "thickness", "contact")
 
 ProgressCallback = Callable[[int, int, float], None]
+
+
+class LabelWarning(UserWarning):
+    """An interpreter's label that cannot be used as it is (the beds are left free)."""
 
 
 class ConvergenceError(FaciesseqError):
@@ -114,6 +119,21 @@ class _Data:
     clamp: np.ndarray | None  # (T, n_tracts) bool, or None
     ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
     rule: np.ndarray  # (T,) trend-rule tract index
+    cores: tuple[str, ...] = ()  # core of each succession
+
+
+def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
+    """The engine's error about "sequence N" of a batch, naming the core instead."""
+    import re
+
+    found = re.search(r"sequence (\d+)", exc.message)
+    core = None
+    if found and cores:
+        k = first + int(found.group(1))
+        core = cores[k] if k < len(cores) else None
+    return InputError(
+        "the beds have probability zero under the tract model (" + exc.message + ")", core=core
+    )
 
 
 def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
@@ -128,13 +148,18 @@ def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession
 
 
 def _text(values: pd.Series) -> list[str | None]:
-    out: list[str | None] = []
-    for v in values.to_numpy(dtype=object):
-        if v is None or v is pd.NA or (isinstance(v, float) and np.isnan(v)):
-            out.append(None)
-            continue
-        text = str(v).strip()
-        out.append(text if text and text.lower() != "nan" else None)
+    """Values as stripped text, ``None`` where blank or missing."""
+    text = values.astype("string").str.strip()
+    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
+    return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
+
+
+def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
+    out: set[str] = set()
+    for t in tables:
+        if column in t.columns:
+            text = t[column].dropna().astype("string").str.strip()
+            out.update(v for v in text.unique().tolist() if v and v.lower() != "nan")
     return out
 
 
@@ -155,8 +180,8 @@ class TractHMM:
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
         thickness, Gaussian), ``"contact"`` and any numeric bed attribute
-        (Gaussian). ``None``: ``facies_trend``, ``thickness`` and, where the
-        beds have them, ``contact``.
+        (Gaussian). ``None``: ``facies_trend``, ``thickness`` (not on a depth
+        grid) and, where the beds have them, ``contact``.
     substates
         Sub-states per tract (left-to-right chain); an int for every tract, a
         mapping tract -> int, or ``None`` for the tract model's own.
@@ -248,6 +273,8 @@ class TractHMM:
         columns = set().union(*(t.columns for t in tables)) if tables else set()
         if self.features is None:
             feats = [f for f in DEFAULT_FEATURES if f != "contact" or "contact" in columns]
+            if self.unit == "grid":  # every cell has the grid step as its thickness
+                feats.remove("thickness")
         else:
             feats = [str(f) for f in self.features]
         if not feats:
@@ -267,10 +294,7 @@ class TractHMM:
         return tuple(feats)
 
     def _vocabularies(self, tables: Sequence[pd.DataFrame]) -> None:
-        seen = sorted(
-            {c for t in tables for c in _text(t["facies"]) if c is not None},
-            key=lambda c: (len(c), c),
-        )
+        seen = sorted(_distinct(tables, "facies"), key=lambda c: (len(c), c))
         if self.scheme is not None:
             facies = list(self.scheme.codes)
             facies += [c for c in seen if c not in facies]
@@ -287,9 +311,7 @@ class TractHMM:
                     stacklevel=3,
                 )
         self.facies_ = tuple(facies)
-        contacts = sorted(
-            {c for t in tables if "contact" in t.columns for c in _text(t["contact"]) if c}
-        )
+        contacts = sorted(_distinct(tables, "contact"))
         self.contacts_ = tuple(contacts)
         if "contact" in self.features_ and not contacts:
             raise ConfigError("feature 'contact' needs contact types in the beds; none found")
@@ -365,13 +387,24 @@ class TractHMM:
                     )
                 a = tracts.index(v)
                 if prev is not None and not allowed[prev, a]:
-                    raise InputError(
-                        f"labelled boundary {tracts[prev]} -> {v} (upward) is not allowed by "
-                        "the tract model's order and skips",
-                        core=s.core,
-                        depth=float(s.beds["base"].iloc[i]) if "base" in s.beds else None,
-                        units=s.units,
+                    # Tolerant, never silent: an interpreter's column may skip a
+                    # tract too thin to log; free both beds and say so.
+                    where = f"core {s.core}"
+                    if "base" in s.beds:
+                        where += f", depth {float(s.beds['base'].iloc[i]):.2f} {s.units}"
+                    warnings.warn(
+                        LabelWarning(
+                            f"{where}: labelled boundary {tracts[prev]} -> {v} (upward) is not "
+                            "allowed by the tract model's order and skips; the two beds are "
+                            "left unlabelled (add a skip in the tract model to allow it)"
+                        ),
+                        stacklevel=3,
                     )
+                    if not mask[i - 1].all():
+                        n_labelled -= 1
+                    mask[i - 1] = True
+                    prev = None
+                    continue
                 mask[i] = False
                 mask[i, a] = True
                 prev = a
@@ -407,14 +440,17 @@ class TractHMM:
         trans = np.zeros((K, K))
         start = np.zeros(K)
         total = 0.0
-        for a, b, lengths, _ in self._batches(data.beds.lengths):
+        for a, b, lengths, first in self._batches(data.beds.lengths):
             part = data.beds.slice(a, b, lengths)
             le = self._log_emission(pieces, part)
             if data.clamp is not None:
                 le = engine.constrained_log_emission(
                     le, data.clamp[a:b][:, self.states_.state_tract]
                 )
-            post = engine.forward_backward(le, lengths, startprob, transmat)
+            try:
+                post = engine.forward_backward(le, lengths, startprob, transmat)
+            except InputError as exc:
+                raise _located(exc, data.cores, first) from None
             weights = self.states_.to_tracts(post.gamma)
             for p, st in zip(pieces, stats):
                 p.accumulate(st, part, weights)
@@ -541,7 +577,7 @@ class TractHMM:
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
         rule = trend_rule(ranks, beds.lengths, self.tract_model_)
-        data = _Data(beds, clamp, ranks, rule)
+        data = _Data(beds, clamp, ranks, rule, tuple(s.core for s in succ))
         rng = (
             self.random_state
             if isinstance(self.random_state, np.random.Generator)
@@ -658,9 +694,10 @@ class TractHMM:
     ) -> Interpretation:
         """Tract column, posteriors, surface probabilities and picks of every core.
 
-        Any interpreter's ``tract`` column is ignored unless named by
-        ``labels``: then its labelled beds are clamped (they keep their tract,
-        posterior 1) and the rest is decoded around them. ``threshold`` and
+        Any interpreter's ``tract`` column is ignored (it is kept in the bed
+        tables as ``interpreted_tract``) unless named by ``labels``: then its
+        labelled beds are clamped (they keep their tract, posterior 1) and the
+        rest is decoded around them. ``threshold`` and
         ``mass`` are the surface-pick options of
         :func:`faciesseq.surfaces.pick_surfaces`.
 
@@ -721,7 +758,8 @@ class TractHMM:
             loglik += ll
             beds = s.beds.copy()
             beds["segment"] = s.segment
-            beds = beds.drop(columns=[c for c in ("tract",) if c in beds.columns])
+            if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+                beds = beds.rename(columns={"tract": "interpreted_tract"})
             beds["tract"] = [tracts[i] for i in vit]
             for j, t in enumerate(tracts):
                 beds[f"p_{t}"] = gamma[:, j]

@@ -1,11 +1,13 @@
 """The hidden states of the tract model: tracts, each a left-to-right chain of sub-states.
 
 A tract with ``n`` sub-states is entered at its first sub-state, may stay in a
-sub-state or move to the next, and is left from its last sub-state to the first
-sub-state of a tract the tract model allows next. The time spent in a tract is
-then a sum of ``n`` geometric durations (a negative-binomial-like duration),
-not forced to be geometric (Rabiner 1989, section IV.D; the left-to-right
-model of Bakis 1976). Every other transition is a structural zero, and stays
+sub-state or move to the next, and may be left from any of its sub-states to
+the first sub-state of a tract the tract model allows next. The number of beds
+in a tract is then a phase-type (Coxian) duration -- with exits from the last
+sub-state only it would be a sum of ``n`` geometric durations -- and is no
+longer forced to be geometric, while a tract of a single bed stays possible
+(Rabiner 1989, section IV.D; the left-to-right model of Bakis 1976; Coxian
+phase-type durations, Cox 1955). Every other transition is a structural zero, and stays
 zero through fitting because EM re-estimates a transition from its expected
 count, which is zero where the transition probability is zero.
 """
@@ -73,7 +75,7 @@ class StateSpace:
                     allowed[j, j + 1] = True
             for b in range(len(tracts)):
                 if b != a and tract_allowed[a, b]:
-                    allowed[last[a], first[b]] = True
+                    allowed[first[a] : last[a] + 1, first[b]] = True
         return cls(tracts, tuple(counts), state_tract, allowed)
 
     @property

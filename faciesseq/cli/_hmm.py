@@ -1,0 +1,150 @@
+"""Pieces shared by ``fit``, ``decode`` and ``validate``: model options, progress, warnings."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import warnings
+from contextlib import contextmanager
+
+from faciesseq.errors import ConfigError
+
+
+def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) -> None:
+    """Options of the tract model (tracts, unit, features, sub-states, restarts, seed...)."""
+    group = parser.add_argument_group("tract model")
+    group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
+    group.add_argument(
+        "--unit",
+        choices=("beds", "grid"),
+        default="beds",
+        help="observations: amalgamated beds (default) or a regular depth grid (needs --step)",
+    )
+    group.add_argument("--step", type=float, metavar="X", help="grid step in depth units")
+    group.add_argument(
+        "--features",
+        action="append",
+        metavar="LIST",
+        help="comma-separated emission features: facies or facies_trend, thickness, contact, "
+        "any numeric bed column (e.g. grain_size); default facies_trend,thickness,contact"
+        + ("; repeat to compare sets by BIC" if select else ""),
+    )
+    group.add_argument(
+        "--substates",
+        metavar="N[,N...]",
+        help="sub-states per tract (left-to-right chain); default: the tract model's"
+        + ("; several values are compared by BIC" if select else ""),
+    )
+    group.add_argument(
+        "--prior-strength",
+        type=float,
+        default=2.0,
+        metavar="X",
+        help="scale of the Dirichlet pseudo-counts from the facies ranks (0 = off; default 2)",
+    )
+    group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts (3)")
+    group.add_argument("--seed", type=int, default=0, metavar="S", help="random seed (0)")
+    group.add_argument("--max-iter", type=int, default=200, metavar="N", help="EM iteration cap")
+    group.add_argument(
+        "--tol", type=float, default=1e-3, metavar="X", help="EM convergence tolerance (log units)"
+    )
+    group.add_argument(
+        "--jobs", type=int, default=1, metavar="N", help="run restarts in N processes (1)"
+    )
+
+
+def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:
+    if not args.features:
+        return [None]
+    out = []
+    for value in args.features:
+        feats = tuple(f.strip() for f in value.split(",") if f.strip())
+        if not feats:
+            raise ConfigError(f"--features {value!r}: no feature named")
+        out.append(feats)
+    return out
+
+
+def substate_counts(args: argparse.Namespace) -> list[int | None]:
+    if not args.substates:
+        return [None]
+    out = []
+    for part in str(args.substates).split(","):
+        try:
+            n = int(part)
+        except ValueError:
+            raise ConfigError(f"--substates expects whole numbers, got {part!r}") from None
+        if n < 1:
+            raise ConfigError(f"--substates must be >= 1, got {n}")
+        out.append(n)
+    return out
+
+
+def check_unit(args: argparse.Namespace) -> None:
+    if args.unit == "grid" and not (args.step and args.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
+    if args.unit == "beds" and args.step is not None:
+        raise ConfigError("--step is only used with --unit grid")
+    if args.restarts < 1:
+        raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
+    if args.jobs < 1:
+        raise ConfigError(f"--jobs must be >= 1, got {args.jobs}")
+
+
+def load_tracts_option(path: str | None):
+    from faciesseq.scheme import default_tract_model, load_tract_model
+
+    return load_tract_model(path) if path else default_tract_model()
+
+
+class Progress:
+    """A one-line progress display on standard error, only when it is a terminal."""
+
+    def __init__(self, label: str, total: int | None = None) -> None:
+        self.label = label
+        self.total = total
+        self.active = sys.stderr.isatty()
+        self.shown = False
+
+    def fit(self, restart: int, iteration: int, objective: float) -> None:
+        if not self.active:
+            return
+        of = f"/{self.total}" if self.total else ""
+        sys.stderr.write(
+            f"\r{self.label}: restart {restart + 1}{of}, iteration {iteration}, "
+            f"log-posterior {objective:.3f}   "
+        )
+        sys.stderr.flush()
+        self.shown = True
+
+    def fold(self, done: int, total: int) -> None:
+        if not self.active:
+            return
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\r{self.label}: [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        sys.stderr.flush()
+        self.shown = True
+
+    def close(self) -> None:
+        if self.shown:
+            sys.stderr.write("\n")
+            sys.stderr.flush()
+            self.shown = False
+
+
+@contextmanager
+def warnings_to_stderr(command: str):
+    """Show each warning raised inside as one line ``faciesseq CMD: warning: ...``."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            yield
+        finally:
+            seen = set()
+            for w in caught:
+                text = str(w.message)
+                if text in seen:
+                    continue
+                seen.add(text)
+                sys.stderr.write(f"faciesseq {command}: warning: {text}\n")

@@ -1,0 +1,141 @@
+"""``faciesseq fit SOURCE -o model.json``: fit the systems-tract model on a core database."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._hmm import (
+    Progress,
+    add_model_arguments,
+    check_unit,
+    feature_sets,
+    load_tracts_option,
+    substate_counts,
+    warnings_to_stderr,
+)
+from faciesseq.errors import ConfigError
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "fit",
+        help="fit the systems-tract hidden Markov model; write a model file (JSON)",
+        description="Fit the hidden Markov model whose hidden states are systems tracts on "
+        "the cores of SOURCE and write it as a JSON model file. With --labels, beds with an "
+        "interpreter's tract keep it (supervised where every bed is labelled, "
+        "semi-supervised where some are); without, the fit is unsupervised and the facies "
+        "ranks of the scheme tell the tracts apart. Several --features or --substates values "
+        "are compared by BIC and the best is written.",
+    )
+    add_source_arguments(parser)
+    parser.add_argument("-o", "--output", required=True, metavar="FILE", help="model file")
+    parser.add_argument(
+        "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
+    )
+    add_model_arguments(parser)
+    parser.set_defaults(func=run)
+
+
+def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dict:
+    from pathlib import Path
+
+    from faciesseq.hmm.modelfile import coreset_digest, file_digest
+
+    source = Path(args.source)
+    digests = {}
+    if source.is_file():
+        digests[str(source)] = file_digest(source)
+    elif source.is_dir():
+        for p in sorted(source.iterdir()):
+            if p.is_file():
+                digests[str(p)] = file_digest(p)
+    for extra in (args.scheme, tracts_file):
+        if extra:
+            digests[str(extra)] = file_digest(extra)
+    return {
+        "source": str(args.source),
+        "input_hashes": digests,
+        "data_hash": coreset_digest(cores),
+        "labels": args.labels,
+        "command": ["faciesseq", *sys.argv[1:]] if sys.argv else None,
+        "seed": args.seed,
+    }
+
+
+def run(args: argparse.Namespace) -> int:
+    check_unit(args)
+    from faciesseq.hmm.modelfile import save_model
+    from faciesseq.hmm.selection import select_model
+
+    scheme = load_scheme_option(args.scheme)
+    tract_model = load_tracts_option(args.tracts)
+    cores = read_source(args, scheme).require_valid()
+    if scheme is None:
+        sys.stderr.write(
+            "faciesseq fit: warning: no --scheme: without facies ranks the tract identities "
+            "are weakly anchored\n"
+        )
+    successions = cores.successions(args.unit, args.step)
+    if not successions:
+        raise ConfigError("the source holds no beds to fit on", file=args.source)
+    progress = Progress("fit", args.restarts)
+    with warnings_to_stderr("fit"):
+        try:
+            selection = select_model(
+                successions,
+                features=feature_sets(args),
+                substates=substate_counts(args),
+                labels=args.labels,
+                progress=progress.fit,
+                tract_model=tract_model,
+                scheme=scheme,
+                prior_strength=args.prior_strength,
+                n_restarts=args.restarts,
+                tol=args.tol,
+                max_iter=args.max_iter,
+                unit=args.unit,
+                step=args.step,
+                n_jobs=args.jobs,
+                random_state=args.seed,
+            )
+        finally:
+            progress.close()
+    model = selection.best
+    provenance = _provenance(args, cores, args.tracts)
+    provenance["selection"] = selection.to_dict()["candidates"]
+    save_model(model, args.output, provenance)
+    table = selection.table
+    if len(table) > 1:
+        print("candidates (lowest BIC written):")
+        for row in table.itertuples(index=False):
+            mark = "*" if row.selected else " "
+            print(
+                f" {mark} features {row.features}; substates {row.substates}: "
+                f"{row.n_parameters} parameters, log-likelihood {row.log_likelihood:.2f}, "
+                f"BIC {row.bic:.2f}"
+            )
+    mode = (
+        "unsupervised"
+        if not model.n_labelled_
+        else "supervised"
+        if model.n_labelled_ == model.n_train_beds_
+        else "semi-supervised"
+    )
+    best = model.restarts_[model.best_restart_]
+    converged = "converged" if best["converged"] else "stopped at the iteration cap"
+    print(
+        f"fitted on {len(model.cores_)} core(s), {model.n_train_beds_} {args.unit} "
+        f"({model.n_labelled_} labelled, {mode}); features {','.join(model.features_)}; "
+        f"states {','.join(model.states_.labels())}"
+    )
+    chosen = table[table["selected"]].iloc[0]
+    clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
+    print(
+        f"log-likelihood {chosen['log_likelihood']:.3f}{clamped}, BIC {chosen['bic']:.2f}; "
+        f"best of {len(model.restarts_)} restart(s) (seed {best['seed']}), "
+        f"{best['n_iter']} iterations, {converged}"
+    )
+    print(f"model written to {args.output}")
+    return 0

@@ -1,0 +1,182 @@
+"""``faciesseq validate SOURCE --labels COLUMN``: cross-validation of the tract model by core."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import shutil
+import tempfile
+from pathlib import Path
+
+from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._hmm import (
+    Progress,
+    add_model_arguments,
+    check_unit,
+    feature_sets,
+    load_tracts_option,
+    substate_counts,
+    warnings_to_stderr,
+)
+from faciesseq.errors import ConfigError
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "validate",
+        help="cross-validate the tract model by core against an interpreter's tract column",
+        description="K-fold cross-validation by core (a core is never split): each fold's "
+        "cores are decoded by a model fitted on the others and compared with the "
+        "interpreter's tracts: bed accuracy, per-tract precision/recall/F1, confusion "
+        "matrix, surface depth error, Brier score and a reliability curve, beside a simple "
+        "rule that reads only the deepening/shallowing trend of the facies ranks.",
+    )
+    add_source_arguments(parser)
+    parser.add_argument(
+        "--labels", required=True, metavar="COLUMN", help="bed column with the interpreter's tracts"
+    )
+    parser.add_argument("--folds", type=int, default=5, metavar="K", help="folds (5)")
+    parser.add_argument(
+        "--mode",
+        choices=("supervised", "unsupervised"),
+        default="supervised",
+        help="fit folds with the labels (default) or without them (tests identifiability)",
+    )
+    parser.add_argument("-o", "--output", metavar="OUT", help="write the tables to this folder")
+    parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")
+    add_model_arguments(parser, select=False)
+    parser.set_defaults(func=run)
+
+
+def _pct(x: float) -> str:
+    return "-" if x is None or (isinstance(x, float) and math.isnan(x)) else f"{100 * x:.1f} %"
+
+
+def format_text(result) -> str:
+    lines = [
+        f"cross-validation by core: {result.folds} folds, {result.settings['n_cores']} cores, "
+        f"{result.settings['n_beds_scored']} labelled beds scored ({result.settings['mode']})",
+        "",
+        "method     accuracy  macro F1   Brier  MFS within 1 bed",
+    ]
+    for row in result.summary().itertuples(index=False):
+        lines.append(
+            f"{row.method:<9}  {_pct(row.accuracy):>8}  {_pct(row.macro_f1):>8}  "
+            f"{row.brier:6.3f}  {_pct(row.mfs_within_one_bed):>16}"
+        )
+    for scores in (result.model, result.baseline):
+        lines += ["", f"{scores.method}: per tract", "tract   precision  recall      F1  beds"]
+        for t, r in scores.per_tract.iterrows():
+            lines.append(
+                f"{t:<6}  {_pct(r['precision']):>9}  {_pct(r['recall']):>6}  {_pct(r['f1']):>6}"
+                f"  {int(r['support']):>4}"
+            )
+        lines += ["", f"{scores.method}: confusion (rows interpreter, columns decoded)"]
+        conf = scores.confusion
+        lines.append("        " + "".join(f"{c:>7}" for c in conf.columns))
+        for t, r in conf.iterrows():
+            lines.append(f"{t:<8}" + "".join(f"{int(v):>7}" for v in r))
+        lines += [
+            "",
+            f"{scores.method}: surfaces (depth error in {result.units})",
+            "surface  true  picked  within 1 bed  median error  mean error (beds)",
+        ]
+        for code, r in scores.surfaces.iterrows():
+            med = "-" if math.isnan(r["median_abs_error"]) else f"{r['median_abs_error']:.2f}"
+            mean = (
+                "-" if math.isnan(r["mean_abs_error_beds"]) else f"{r['mean_abs_error_beds']:.2f}"
+            )
+            lines.append(
+                f"{code:<7}  {int(r['n_true']):>4}  {int(r['n_matched']):>6}  "
+                f"{_pct(r['within_one_bed']):>12}  {med:>12}  {mean:>17}"
+            )
+    lines += ["", "model: reliability (probability of the decoded tract vs fraction correct)"]
+    for r in result.model.reliability.itertuples(index=False):
+        if r.count:
+            lines.append(
+                f"  {r.bin_low:.1f}-{r.bin_high:.1f}: mean {r.mean_probability:.3f}, "
+                f"correct {r.fraction_correct:.3f}, {r.count} beds"
+            )
+    return "\n".join(lines)
+
+
+def _clean(value):
+    """JSON-ready: NaN and infinity become null."""
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_clean(v) for v in value]
+    if hasattr(value, "item") and not isinstance(value, str):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _write(result, out: Path) -> None:
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise ConfigError("output exists and is not a folder", file=str(out))
+    parent = out.parent if str(out.parent) else Path(".")
+    temp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
+    try:
+        for name, frame in result.to_frames().items():
+            index = name.startswith("confusion")
+            frame.to_csv(temp / f"{name}.csv", index=index, float_format="%.6g")
+        (temp / "validation.json").write_text(
+            json.dumps(_clean(result.to_dict()), indent=1, allow_nan=False) + "\n"
+        )
+        if not out.exists():
+            temp.rename(out)
+            return
+        for item in temp.iterdir():
+            item.replace(out / item.name)
+        temp.rmdir()
+    finally:
+        if temp.exists():
+            shutil.rmtree(temp, ignore_errors=True)
+
+
+def run(args: argparse.Namespace) -> int:
+    check_unit(args)
+    feats = feature_sets(args)
+    subs = substate_counts(args)
+    if len(feats) > 1 or len(subs) > 1:
+        raise ConfigError("validate takes one --features set and one --substates value")
+    from faciesseq.validation import cross_validate
+
+    scheme = load_scheme_option(args.scheme)
+    tract_model = load_tracts_option(args.tracts)
+    cores = read_source(args, scheme).require_valid()
+    progress = Progress("validate")
+    with warnings_to_stderr("validate"):
+        try:
+            result = cross_validate(
+                cores.successions(args.unit, args.step),
+                args.labels,
+                args.folds,
+                mode=args.mode,
+                random_state=args.seed,
+                progress=progress.fold,
+                tract_model=tract_model,
+                scheme=scheme,
+                features=feats[0],
+                substates=subs[0],
+                prior_strength=args.prior_strength,
+                n_restarts=args.restarts,
+                tol=args.tol,
+                max_iter=args.max_iter,
+                unit=args.unit,
+                step=args.step,
+                n_jobs=args.jobs,
+            )
+        finally:
+            progress.close()
+    if args.output:
+        _write(result, Path(args.output))
+    if args.format == "json":
+        print(json.dumps(_clean(result.to_dict()), indent=1, allow_nan=False))
+    else:
+        print(format_text(result))
+    return 0

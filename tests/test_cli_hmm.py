@@ -1,0 +1,154 @@
+"""The fit, decode and validate commands end to end (synthetic cores, invented)."""
+
+import json
+
+import hmm_synthetic as synth
+import pandas as pd
+import pytest
+
+from faciesseq.cli import main
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("db")
+    rows = []
+    for k, core in enumerate(synth.cores(8, 60, seed=71)):
+        beds = core.beds.iloc[::-1].copy()  # depth order, as a database holds it
+        beds.insert(0, "core", core.core)
+        beds["tract"] = beds["true_tract"] if k % 2 == 0 else None
+        rows.append(beds.drop(columns=["thickness", "true_tract"]))
+    pd.concat(rows).to_csv(folder / "cores.csv", index=False)
+    scheme = "facies:\n" + "".join(
+        f'  - {{code: "{c}", name: "{c}", rank: {i}}}\n' for i, c in enumerate(synth.CODES)
+    )
+    (folder / "scheme.yaml").write_text(scheme)
+    return folder
+
+
+def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys):
+    model = tmp_path / "model.json"
+    rc = main(
+        [
+            "fit",
+            str(database / "cores.csv"),
+            "--scheme",
+            str(database / "scheme.yaml"),
+            "-o",
+            str(model),
+            "--labels",
+            "tract",
+            "--restarts",
+            "2",
+        ]
+    )
+    assert rc == 0
+    out = capsys.readouterr().out
+    assert "semi-supervised" in out
+    doc = json.loads(model.read_text())
+    assert doc["format"] == "faciesseq-tract-model" and doc["version"] == 1
+    assert doc["training"]["input_hashes"]
+    assert doc["training"]["cores"] == [f"S-71-{k}" for k in range(1, 9)]
+
+    rc = main(["decode", str(model), str(database / "cores.csv"), "-o", str(tmp_path / "out")])
+    assert rc == 0
+    out = capsys.readouterr().out
+    assert "agreement with the interpreter's 'tract' column" in out
+    tracts = pd.read_csv(tmp_path / "out" / "tracts.csv")
+    assert tracts.columns.tolist() == [
+        "core",
+        "top",
+        "base",
+        "facies",
+        "tract",
+        "p_HST",
+        "p_FSST",
+        "p_LST",
+        "p_TST",
+    ]
+    assert len(tracts) == 8 * 60
+    surfaces = pd.read_csv(tmp_path / "out" / "surfaces.csv")
+    assert surfaces.columns.tolist() == ["core", "depth", "surface", "probability", "picked"]
+    assert surfaces["picked"].any()
+    agreement = pd.read_csv(tmp_path / "out" / "agreement.csv")
+    assert len(agreement) == 4  # the labelled cores only
+    assert agreement["agreement_beds"].mean() > 0.7
+
+
+def test_decode_json_and_parquet(database, tmp_path, capsys):
+    model = tmp_path / "model.json"
+    csv = str(database / "cores.csv")
+    assert main(["fit", csv, "--scheme", str(database / "scheme.yaml"), "-o", str(model)]) == 0
+    for fmt in ("json", "parquet"):
+        out = tmp_path / fmt
+        assert main(["decode", str(model), csv, "-o", str(out), "--format", fmt]) == 0
+        frame = (
+            pd.read_json(out / "tracts.json")
+            if fmt == "json"
+            else pd.read_parquet(out / "tracts.parquet")
+        )
+        assert len(frame) == 8 * 60
+    capsys.readouterr()
+
+
+def test_a_bad_model_file_is_one_line_exit_2_and_nothing_written(database, tmp_path, capsys):
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps({"format": "something-else", "version": 1}))
+    out = tmp_path / "out"
+    rc = main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)])
+    assert rc == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "bad.json" in err and "not a faciesseq model file" in err
+    assert not out.exists()
+    assert list(tmp_path.iterdir()) == [bad]
+
+
+def test_grid_without_step_is_a_usage_error(database, tmp_path, capsys):
+    rc = main(
+        ["fit", str(database / "cores.csv"), "-o", str(tmp_path / "m.json"), "--unit", "grid"]
+    )
+    assert rc == 2
+    assert "--step" in capsys.readouterr().err
+    assert not (tmp_path / "m.json").exists()
+
+
+def test_validate_scores_only_labelled_beds_and_writes_json(database, tmp_path, capsys):
+    rc = main(
+        [
+            "validate",
+            str(database / "cores.csv"),
+            "--scheme",
+            str(database / "scheme.yaml"),
+            "--labels",
+            "tract",
+            "--folds",
+            "2",
+            "--restarts",
+            "1",
+            "--format",
+            "json",
+            "-o",
+            str(tmp_path / "val"),
+        ]
+    )
+    assert rc == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["settings"]["n_beds_scored"] == 4 * 60
+    summary = {row["method"]: row for row in doc["summary"]}
+    assert summary["model"]["accuracy"] < 1.0  # held-out cores, never their own labels
+    assert summary["model"]["accuracy"] > summary["baseline"]["accuracy"]
+    assert (tmp_path / "val" / "confusion_model.csv").exists()
+
+
+def test_decode_plot_draws_one_strip_log_per_core(database, tmp_path, capsys):
+    csv = tmp_path / "two.csv"
+    table = pd.read_csv(database / "cores.csv")
+    table[table["core"].isin(["S-71-1", "S-71-2"])].to_csv(csv, index=False)
+    model = tmp_path / "model.json"
+    assert main(["fit", str(csv), "--scheme", str(database / "scheme.yaml"), "-o", str(model)]) == 0
+    out = tmp_path / "out"
+    assert main(["decode", str(model), str(csv), "-o", str(out), "--plot"]) == 0
+    pngs = sorted(p.name for p in (out / "striplogs").iterdir())
+    assert pngs == ["S-71-1.png", "S-71-2.png"]
+    assert all((out / "striplogs" / p).read_bytes()[:4] == b"\x89PNG" for p in pngs)
+    capsys.readouterr()

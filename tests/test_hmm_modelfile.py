@@ -1,0 +1,89 @@
+"""Model files: JSON round trip, and every kind of bad file rejected with a clear error."""
+
+import copy
+import json
+
+import hmm_synthetic as synth
+import numpy as np
+import pandas as pd
+import pytest
+
+from faciesseq.errors import ModelFileError
+from faciesseq.hmm.model import TractHMM
+from faciesseq.hmm.modelfile import load_model, model_to_dict, save_model
+
+
+@pytest.fixture(scope="module")
+def fitted():
+    train = synth.cores(6, 50, seed=81)
+    model = TractHMM(scheme=synth.scheme(), substates={"HST": 2}, n_restarts=2, random_state=4)
+    return model.fit(train, labels="true_tract"), train
+
+
+def test_round_trip_decodes_identically(fitted, tmp_path):
+    model, train = fitted
+    path = save_model(model, tmp_path / "m.json", {"source": "synthetic"})
+    text = path.read_text()
+    assert "pickle" not in text
+    loaded = load_model(path)
+    pd.testing.assert_frame_equal(
+        model.decode(train).tracts_table(), loaded.decode(train).tracts_table()
+    )
+    assert loaded.score(train) == pytest.approx(model.score(train), abs=1e-9)
+    assert loaded.training_["source"] == "synthetic"
+    assert loaded.states_.labels() == model.states_.labels()
+    assert loaded.monitor_.history == model.monitor_.history
+
+
+def _bad(doc, tmp_path, name="bad.json"):
+    path = tmp_path / name
+    path.write_text(json.dumps(doc))
+    return path
+
+
+@pytest.mark.parametrize(
+    ("change", "message"),
+    [
+        (lambda d: d.update(format="other"), "not a faciesseq model file"),
+        (lambda d: d.update(version=2), "version 2 is not supported"),
+        (lambda d: d["parameters"].update(startprob=[0.5, 0.5]), r"startprob: shape \(2,\)"),
+        (
+            lambda d: d["parameters"]["transmat"][0].__setitem__(0, 0.9999),
+            "transmat: rows must sum to 1",
+        ),
+        (lambda d: d["parameters"]["emissions"].pop(), "one entry per feature"),
+        (lambda d: d["parameters"]["emissions"][0].update(kind="neural"), "unknown emission kind"),
+        (lambda d: d["states"].update(labels=["A"]), "do not match the tract model"),
+        (lambda d: d.pop("hyperparameters"), "missing entry 'hyperparameters'"),
+    ],
+)
+def test_bad_files_are_rejected_naming_the_file(fitted, tmp_path, change, message):
+    model, _ = fitted
+    doc = copy.deepcopy(model_to_dict(model))
+    change(doc)
+    path = _bad(doc, tmp_path)
+    with pytest.raises(ModelFileError, match=message) as info:
+        load_model(path)
+    assert str(path) in str(info.value)
+
+
+def test_a_transition_outside_the_tract_graph_is_rejected(fitted, tmp_path):
+    model, _ = fitted
+    doc = model_to_dict(model)
+    labels = doc["states"]["labels"]
+    A = np.array(doc["parameters"]["transmat"])
+    i, j = labels.index("TST"), labels.index("LST")  # TST -> LST is not allowed upward
+    A[i, j] = 0.1
+    A[i] /= A[i].sum()
+    doc["parameters"]["transmat"] = A.tolist()
+    with pytest.raises(ModelFileError, match="TST -> LST is outside the tract graph"):
+        load_model(_bad(doc, tmp_path))
+
+
+def test_not_json_and_missing_files(tmp_path):
+    path = tmp_path / "m.json"
+    path.write_bytes(b"\x80\x04\x95 pickled bytes")
+    with pytest.raises(ModelFileError, match=r"cannot read|not JSON"):
+        load_model(path)
+    with pytest.raises(ModelFileError, match="not found"):
+        load_model(tmp_path / "absent.json")
