@@ -156,28 +156,31 @@ def run_appendix(
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         interpretation = model.decode(cores)
-    for w in caught:
-        notes.append(str(w.message))
+    notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
     validation = None
     validation_reason = None
+    validation_notes: list[str] = []
     if labels and has_labels(cores, labels):
         from faciesseq.validation import cross_validate
 
         try:
-            validation = cross_validate(
-                cores,
-                labels,
-                folds=min(folds, len(cores)),
-                mode=validate_mode,
-                random_state=seed,
-                tract_model=tract_model,
-                scheme=scheme,
-                unit=unit,
-                step=step,
-                n_restarts=n_restarts,
-            )
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                validation = cross_validate(
+                    cores,
+                    labels,
+                    folds=min(folds, len(cores)),
+                    mode=validate_mode,
+                    random_state=seed,
+                    tract_model=tract_model,
+                    scheme=scheme,
+                    unit=unit,
+                    step=step,
+                    n_restarts=n_restarts,
+                )
+            validation_notes = _dedupe(str(w.message) for w in caught)
             _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
         except FaciesseqError as exc:
             validation_reason = f"cross-validation could not be run on these labels: {exc}"
@@ -197,6 +200,7 @@ def run_appendix(
         provenance=provenance,
         model_note=note,
         validation_note=validation_reason or "",
+        validation_notes=validation_notes,
         decode_notes=notes,
         unit=unit,
     )
@@ -204,3 +208,8 @@ def run_appendix(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
     )
     return RunResult(appendix, markov, model, interpretation, validation, notes)
+
+
+def _dedupe(messages) -> list[str]:
+    """Messages in first-seen order, each once."""
+    return list(dict.fromkeys(messages))

@@ -347,6 +347,7 @@ def _model_section(
     selection: Any = None,
     scheme: FaciesScheme | None = None,
     validation_note: str = "",
+    validation_notes: Sequence[str] = (),
 ) -> Section:
     if model is None:
         return _not_available(
@@ -356,7 +357,14 @@ def _model_section(
 
     reason = validation_note or "no interpreted (labelled) cores to validate against"
     section, numbers = model_section(
-        model, tract_model, validation, note, selection, scheme, validation_reason=reason
+        model,
+        tract_model,
+        validation,
+        note,
+        selection,
+        scheme,
+        validation_reason=reason,
+        validation_notes=validation_notes,
     )
     results["model"] = numbers.get("model")
     if selection is not None:
@@ -478,6 +486,7 @@ def build_appendix(
     provenance: Mapping[str, Any] | None = None,
     model_note: str = "",
     validation_note: str = "",
+    validation_notes: Sequence[str] = (),
     decode_notes: Sequence[str] = (),
     unit: str = "beds",
     title: str = "Statistical appendix: facies successions and systems tracts",
@@ -507,6 +516,8 @@ def build_appendix(
         because no model file was given); shown in section 3.
     validation_note
         Why there is no validation (when ``validation`` is ``None``).
+    validation_notes
+        Warnings raised during cross-validation (e.g. labels left out).
     decode_notes
         Warnings raised while decoding (e.g. facies unseen in training); shown
         in section 4.
@@ -541,6 +552,7 @@ def build_appendix(
             selection,
             scheme,
             validation_note,
+            validation_notes,
         ),
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit),

@@ -8,6 +8,7 @@ optional ``faciesseq.validation.ValidationResult``.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -179,6 +180,7 @@ def model_section(
     selection: Any = None,
     scheme: Any = None,
     validation_reason: str = "no interpreted (labelled) cores to validate against",
+    validation_notes: Sequence[str] = (),
 ) -> tuple[Section, dict[str, Any]]:
     """The tract-model section and the numbers behind it (``model``, ``validation``)."""
     from faciesseq.report import figures
@@ -424,4 +426,20 @@ def model_section(
                 figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
             ),
         )
+        if validation_notes:
+            val.add(
+                Paragraph(
+                    f"{len(validation_notes)} warning(s) while fitting and decoding the folds "
+                    "(listed in full in tables/validation_warnings.csv); the first: "
+                    f"{validation_notes[0]}",
+                    kind="note",
+                ),
+                TableBlock(
+                    "validation_warnings",
+                    "warnings raised during cross-validation",
+                    pd.DataFrame({"warning": list(validation_notes)}),
+                    index=False,
+                    shown=False,
+                ),
+            )
     return s, numbers
