@@ -367,6 +367,7 @@ def _model_section(
         validation_notes=validation_notes,
     )
     results["model"] = numbers.get("model")
+    results["model_bic_training"] = numbers.get("bic_training")
     if selection is not None:
         results["selection"] = numbers.get("selection")
     if validation is not None:

@@ -20,6 +20,30 @@ from faciesseq.scheme import TractModel
 __all__ = ["model_section", "tract_transitions"]
 
 
+_READABLE = {
+    "accuracy": "accuracy",
+    "macro_f1": "macro F1",
+    "brier": "Brier score",
+    "mfs_within_one_bed": "MFS within one bed",
+    "support": "beds",
+    "bin_low": "bin from",
+    "bin_high": "bin to",
+    "mean_probability": "mean probability",
+    "fraction_correct": "fraction correct",
+    "count": "beds",
+}
+
+
+def _readable_units(units: str) -> dict[str, str]:
+    return {
+        "n_true": "interpreted",
+        "n_matched": "picked",
+        "within_one_bed": "within one bed",
+        "median_abs_error": f"median |error| ({units})",
+        "mean_abs_error_beds": "mean |error| (beds)",
+    }
+
+
 def _stationary(transmat: np.ndarray) -> np.ndarray:
     """Stationary distribution of a row-stochastic matrix (uniform if it is not unique)."""
     values, vectors = np.linalg.eig(transmat.T)
@@ -133,6 +157,27 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
             if ranks is not None and len(ranks) == len(cats) and np.isfinite(ranks).all():
                 r = np.asarray(ranks, dtype=float)
                 change = r[None, None, :] - r[None, :, None]  # above minus below
+                pseudo = np.asarray(getattr(piece, "trend_pseudo", np.zeros_like(trend)), float)
+                deeper = (pseudo * (change > 0)).sum(axis=(1, 2))
+                shallower = (pseudo * (change < 0)).sum(axis=(1, 2))
+                sub.add(
+                    TableBlock(
+                        key + "_prior",
+                        "Dirichlet prior of the stacking trend: pseudo-counts (pseudo-beds) "
+                        "given to transitions into a deeper (more basinward) and into a "
+                        "shallower facies, per state; this is how the expected trend of each "
+                        "tract anchors which state is which.",
+                        pd.DataFrame(
+                            {
+                                "pseudo-counts, deeper above": deeper,
+                                "pseudo-counts, shallower above": shallower,
+                                "share deeper": deeper
+                                / np.where(deeper + shallower > 0, deeper + shallower, 1),
+                            },
+                            index=pd.Index(model.states_.labels(), name="state"),
+                        ),
+                    )
+                )
                 expected = (trend * change).sum(axis=2)  # (S, below)
                 first_p = np.asarray(piece.emissionprob_, dtype=float)
                 mean_change = (expected * first_p).sum(axis=1)
@@ -199,6 +244,11 @@ def model_section(
         s.add(Paragraph(note, kind="note"))
     states = model.states_
     labels = states.labels()
+    bic = None
+    if model.n_train_beds_ > 0:
+        # BIC = -2 log L + p log n on the training beds (Schwarz 1978)
+        bic = -2.0 * model.log_likelihood_ + model.n_parameters() * np.log(model.n_train_beds_)
+    numbers["bic_training"] = bic
     features = ", ".join(getattr(model, "features_", ()))
     s.add(
         Paragraph(
@@ -212,7 +262,8 @@ def model_section(
             )
             + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
             f"strength {format_value(float(model.prior_strength))}; {model.n_parameters()} free "
-            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}."
+            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}"
+            + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
     graph = s.sub("Tract graph")
@@ -363,12 +414,14 @@ def model_section(
                 "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
                 "Brier score of the tract probabilities and the fraction of maximum flooding "
                 "surfaces picked within one bed.",
-                frames["summary"].set_index("method"),
+                frames["summary"].set_index("method").rename(columns=_READABLE),
             ),
             TableBlock(
                 "validation_per_tract",
                 "Precision, recall, F1 and support (beds) per tract.",
-                frames["per_tract"].set_index(frames["per_tract"].columns[0]),
+                frames["per_tract"]
+                .set_index(frames["per_tract"].columns[0])
+                .rename(columns=_READABLE),
             ),
         )
         for method in ("model", "baseline"):
@@ -398,7 +451,9 @@ def model_section(
                 "validation_surfaces",
                 f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
                 f"error ({validation.units}).",
-                frames["surfaces"].set_index(frames["surfaces"].columns[0]),
+                frames["surfaces"]
+                .set_index(frames["surfaces"].columns[0])
+                .rename(columns=_readable_units(validation.units)),
             ),
         )
         rel = {}
@@ -414,9 +469,10 @@ def model_section(
         val.add(
             TableBlock(
                 "validation_reliability",
-                "Reliability of the tract probabilities: per probability bin, the mean predicted "
-                "probability and the fraction of beds where that tract was the interpreter's.",
-                frames["reliability"],
+                "Reliability of the tract probabilities: per probability bin (bins without "
+                "beds left out), the mean predicted probability and the fraction of beds where "
+                "that tract was the interpreter's.",
+                frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
                 index=False,
             ),
             FigureBlock(
