@@ -96,8 +96,9 @@ def run_appendix(
         Facies scheme; tract model (default: the packaged four-tract model).
     model
         A fitted ``TractHMM`` (e.g. loaded from a model file). ``None``: one
-        is fitted with the default settings, unsupervised, and the appendix
-        says so.
+        is fitted with the default settings (semi-supervised on the ``labels``
+        column where it holds interpreted tracts, else unsupervised), and the
+        appendix says so.
     model_source
         Where ``model`` came from (shown in the appendix).
     labels
@@ -135,19 +136,31 @@ def run_appendix(
         f"p = {markov.first_order.pearson.p_value:.3g}",
     )
 
+    labelled = bool(labels) and has_labels(cores, labels)
+    fit_notes: list[str] = []
     if model is None:
-        model = TractHMM(
-            tract_model=tract_model,
-            scheme=scheme,
-            n_restarts=n_restarts,
-            unit=unit,
-            step=step,
-            random_state=seed,
-        ).fit(cores)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            model = TractHMM(
+                tract_model=tract_model,
+                scheme=scheme,
+                n_restarts=n_restarts,
+                unit=unit,
+                step=step,
+                random_state=seed,
+            ).fit(cores, labels=labels if labelled else None)
+        fit_notes = _dedupe(str(w.message) for w in caught)
+        how = (
+            f"semi-supervised: the interpreted beds of column {labels!r} keep their tract"
+            if labelled
+            else "unsupervised"
+        )
         note = (
             "No model file was given: the tract model was fitted to these cores with the "
-            f"default settings (unsupervised, {n_restarts} restarts, seed {seed})."
+            f"default settings ({how}; {n_restarts} restarts, seed {seed})."
         )
+        if fit_notes:
+            note += f" {len(fit_notes)} warning(s) while fitting; the first: {fit_notes[0]}"
         _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
     else:
         note = f"Model read from {model_source}." if model_source else "Model given by the caller."
@@ -162,7 +175,7 @@ def run_appendix(
     validation = None
     validation_reason = None
     validation_notes: list[str] = []
-    if labels and has_labels(cores, labels):
+    if labelled:
         from faciesseq.validation import cross_validate
 
         try:

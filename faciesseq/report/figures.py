@@ -393,7 +393,7 @@ def facies_relationship_diagram(
                     pos[b],
                     width=0.5 + 2.5 * d / (top or 1.0),
                     colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=0.15,
+                    rad=0.28,
                     label=f"{d:.2f}" if solid else None,
                     node_radius=radius,
                     linestyle="-" if solid else (0, (3, 2)),
