@@ -253,7 +253,7 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
         TableBlock(
             "data_cores",
             f"Cores: described intervals, beds (adjacent intervals of one facies amalgamated), "
-            f"unbroken segments, depth range and described thickness ({units}).",
+            f"depth range, described thickness, and the gaps (number and thickness, {units}).",
             tables["cores"],
         )
     )
@@ -649,7 +649,7 @@ def write_appendix(
         if software:
             meta.append(f"faciesseq {software.get('faciesseq', '')}")
         if prov.get("date"):
-            meta.append(f"made {prov['date']}")
+            meta.append(f"written {prov['date']}")
         data_files = [(f"tables/{t.key}.csv", t.caption) for t in document.tables(shown=False)]
         data_files += [
             ("appendix.json", "every number of this appendix at full precision"),
