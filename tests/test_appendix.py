@@ -9,6 +9,7 @@ import hashlib
 import json
 import math
 import re
+import unicodedata
 
 import pytest
 from _html_tables import read_tables
@@ -136,6 +137,8 @@ def test_latex_is_balanced_and_its_figures_exist(written):
     assert tex.count(r"\begin{longtable}") == tex.count(r"\end{longtable}")
     for name in re.findall(r"\\includegraphics\[[^\]]*\]\{([^}]*)\}", tex):
         assert (out / name).read_bytes()[:4] == b"%PDF"
+    # only letters outside ASCII (inputenc utf8 takes them); symbols became commands
+    assert all(unicodedata.category(ch).startswith("L") for ch in tex if ord(ch) > 127)
     assert latex_escape("50% of W_3 & {x} ~ $5") == (r"50\% of W\_3 \& \{x\} \textasciitilde{} \$5")
 
 
