@@ -174,6 +174,15 @@ CASES = [
         "row 2, core W1, depth 1.00 m: no facies code",
     ),
     ("no-data-rows", {"c.csv": HEAD}, [], 1, "no-cores", "error", "no usable cores"),
+    (
+        "missing-core",
+        {"c.csv": HEAD + "W1,0,1,A\n,1,2,B\nW1,2,3,B\n"},
+        [],
+        1,
+        "missing-core",
+        "error",
+        "c.csv, row 2: no core identifier",
+    ),
 ]
 
 
@@ -185,7 +194,7 @@ def _write(tmp_path: Path, files: dict[str, str | bytes]) -> Path:
         else:
             path.write_text(content, encoding="utf-8")
     (tmp_path / "scheme.yaml").write_text(SCHEME)
-    data = [n for n in files if not n.endswith(".yaml")]
+    data = list(files)
     return tmp_path / data[0] if len(data) == 1 else tmp_path
 
 
@@ -229,7 +238,7 @@ def test_scheme_draft_refuses_data_with_errors_and_writes_nothing(tmp_path, caps
     assert code == 1
     assert len(err.strip().splitlines()) == 1
     assert err.startswith("faciesseq scheme: ")
-    assert "core W1" in err or f"{source}: no usable cores" in err
+    assert "core W1" in err or f"{source}: no usable cores" in err or f"{source}, row 2" in err
     assert not out.exists()
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").iterdir())
 
@@ -297,6 +306,11 @@ FAILURES = [
         2,
         "nope.yaml: file not found",
     ),
+    ("not-las", {"c.las": "not a las file\n"}, [], 1, "c.las: not a readable LAS file"),
+    ("not-parquet", {"c.parquet": b"PAR1garbage"}, [], 1, "c.parquet: not a readable Parquet"),
+    ("not-xlsx", {"c.xlsx": b"PK\x03\x04garbage"}, [], 1, "c.xlsx: not a readable .xlsx"),
+    ("bad-bom", {"c.csv": b"\xff\xfe\x00\x00\x01\x02\x03"}, [], 1, "c.csv: starts with a UTF-32"),
+    ("bad-source-file", {"s.yaml": "path: [1, 2]\n"}, [], 2, "s.yaml: 'path' must be text"),
 ]
 
 

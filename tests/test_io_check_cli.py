@@ -41,6 +41,23 @@ def test_summary_counts_beds_thickness_and_proportions_worked_by_hand(tmp_path):
     assert result.usable
 
 
+def test_summary_beds_agree_with_the_core_model():
+    # the summary counts beds without building bed tables: same as Core.beds()
+    from faciesseq.io.summary import _beds
+
+    table = pd.DataFrame(
+        {
+            "core": ["Z"] * 6,
+            "top": [0, 1, 2, 3, 5, 6],
+            "base": [1, 2, 3, 4, 6, 7.5],
+            "facies": ["A", "A", "B", "A", "A", "B"],
+        }
+    )
+    core = CoreSet.from_frame(table)["Z"]
+    expected = core.beds()[["facies", "thickness"]]
+    pd.testing.assert_frame_equal(_beds(core), expected, check_dtype=False)
+
+
 def test_check_json_has_the_documented_keys(tmp_path, capsys):
     assert main(["check", str(_source(tmp_path)), "--units", "m", "--format", "json"]) == 0
     data = json.loads(capsys.readouterr().out)

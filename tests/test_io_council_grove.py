@@ -13,10 +13,11 @@ plain pandas, independently of faciesseq:
 
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from faciesseq.cli import main
-from faciesseq.io import read_cores
+from faciesseq.io import read_cores, write_cores
 
 DATA = Path(__file__).parent / "data" / "council_grove"
 CSV = DATA / "facies_vectors_subset.csv"
@@ -113,3 +114,20 @@ def test_council_grove_check_command_exit_codes(capsys):
     out = capsys.readouterr().out
     assert "row 303, core SHRIMPLIN, depth 2944.00 ft: repeated depth" in out
     assert main([*args, "--keep-first"]) == 0
+
+
+@pytest.mark.parametrize("target", ["cg.parquet", "cg.sqlite", "cg.xlsx", "las"])
+def test_council_grove_round_trips_through_every_format(tmp_path, target):
+    # real data, wireline attributes included: written then read back, equal
+    cores = read_cores(
+        CSV, layout="samples", columns=MAPPING, units="ft", repeated_depths="keep-first"
+    )
+    path = tmp_path / target
+    write_cores(cores, path, format="las" if target == "las" else None)
+    back = read_cores(path)
+    assert back.units == "ft" and not back.errors
+    expected = cores.to_frame().set_index("core").loc[back.names].reset_index()
+    got = back.to_frame()
+    expected = expected.astype(object).where(expected.notna(), None)
+    got = got.astype(object).where(got.notna(), None)
+    pd.testing.assert_frame_equal(got, expected)

@@ -264,3 +264,15 @@ LITHOFACIES. : facies code
     assert any("GR (1)" in m for m in nulls)
     with pytest.raises(InputError, match="no curve 'FAC'"):
         read_cores(path, curve="FAC")
+
+
+def test_a_database_mixing_units_is_converted_only_on_request(tmp_path):
+    (tmp_path / "a.csv").write_text("core,top,base,facies,units\nW1,0,1,A,m\nW1,1,2,B,m\n")
+    (tmp_path / "b.csv").write_text("core,top,base,facies,units\nW2,0,10,A,ft\nW2,10,20,B,ft\n")
+    with pytest.raises(InputError, match="mixed depth units"):
+        read_cores(tmp_path)
+    cores = read_cores(tmp_path, units="m")
+    assert cores["W1"].intervals["base"].tolist() == [1.0, 2.0]
+    assert cores["W2"].intervals["base"].tolist() == [10 * 0.3048, 20 * 0.3048]
+    (note,) = [p for p in cores.problems if p.kind == "units-converted"]
+    assert note.file.endswith("b.csv") and "2 row(s) of depths in ft converted to m" in note.message

@@ -31,7 +31,12 @@ def add_source_arguments(parser: argparse.ArgumentParser, scheme: bool = True) -
         help="map a column to a role (core, top, base, depth, facies, grain_size, "
         "contact, tract, lithology); repeatable",
     )
-    group.add_argument("--units", choices=("m", "ft"), help="depth units (when not in the source)")
+    group.add_argument(
+        "--units",
+        choices=("m", "ft"),
+        help="depth units of depths the source does not state; depths it states in the "
+        "other unit are converted (1 ft = 0.3048 m)",
+    )
     group.add_argument("--sheet", help="Excel sheet name (default: the first)")
     group.add_argument("--table", help="database table to read")
     group.add_argument("--query", help="read-only SQL query to run instead of --table")

@@ -56,6 +56,14 @@ def _facies_curve(mnemonics: list[str], curve: str | None, file: str) -> str:
     )
 
 
+def _item(section, mnemonic: str):
+    """A header item by mnemonic, whatever its case, or ``None``."""
+    for item in section:
+        if item.mnemonic.upper() == mnemonic:
+            return item
+    return None
+
+
 def read_las(path: Path, curve: str | None = None, encoding: str | None = None) -> RawTable:
     """Read one LAS 2.0 file as a sample-layout table (see the module notes)."""
     import lasio
@@ -67,7 +75,7 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
         raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
     text, problems = decode_text(data, file, encoding)
     try:
-        las = lasio.read(io.StringIO(text), null_policy="strict", ignore_header_errors=False)
+        las = lasio.read(io.StringIO(text), null_policy="strict", mnemonic_case="preserve")
     except Exception as exc:  # lasio raises many types for a malformed file
         raise InputError(
             f"not a readable LAS file ({type(exc).__name__}: {exc})", file=file
@@ -77,16 +85,23 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
         raise InputError("LAS file has no curves besides the depth index", file=file)
     index = mnemonics[0]
     facies = _facies_curve(mnemonics, curve, file)
-    unit = las.curves[0].unit or (las.well["STRT"].unit if "STRT" in las.well else "")
+    strt = _item(las.well, "STRT")
+    unit = las.curves[0].unit or (strt.unit if strt is not None else "")
     units = normalise_units(unit, where=file) if unit and unit.strip() else None
-    well = str(las.well["WELL"].value).strip() if "WELL" in las.well else ""
+    well_item = _item(las.well, "WELL")
+    well = str(well_item.value).strip() if well_item is not None else ""
     codes: dict[str, dict[float, str]] = {}
     for item in las.params:
         m = re.match(r"^(?P<curve>.+)_(?P<n>\d+)$", item.mnemonic)
         if m and m.group("curve") in mnemonics:
             codes.setdefault(m.group("curve"), {})[float(m.group("n"))] = str(item.value)
     frame = pd.DataFrame({m: np.asarray(las[m]) for m in mnemonics}).astype(object)
-    null = las.well["NULL"].value if "NULL" in las.well else None
+    null_item = _item(las.well, "NULL")
+    null = null_item.value if null_item is not None and null_item.value != "" else None
+    try:
+        null = None if null is None else float(null)
+    except (TypeError, ValueError):
+        raise InputError(f"NULL header value {null!r} is not a number", file=file) from None
     nulls: dict[str, int] = {}
     for m in mnemonics:
         col = pd.to_numeric(frame[m], errors="coerce")

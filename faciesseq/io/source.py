@@ -71,6 +71,9 @@ def load_source_file(path: Path) -> SourceSpec:
     columns = data.get("columns") or {}
     if not isinstance(columns, Mapping):
         raise ConfigError("'columns' must be a mapping of role: column name", file=file)
+    for key in ("path", "url", "layout", "units", "sheet", "table", "query", "curve", "encoding"):
+        if key in data and not isinstance(data[key], str | int | float):
+            raise ConfigError(f"{key!r} must be text, got {data[key]!r}", file=file)
     if "path" in data:
         target = Path(str(data["path"]))
         if not target.is_absolute():

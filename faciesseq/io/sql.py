@@ -87,8 +87,8 @@ def _engine(source: str):
             engine = create_engine(url, connect_args=connect_args)
         except (NoSuchModuleError, ModuleNotFoundError) as exc:
             raise ConfigError(
-                f"no database driver for this URL ({exc}); install it, e.g. "
-                "pip install psycopg2-binary",
+                f"no database driver for this URL ({exc}); install the driver for this "
+                "database (PostgreSQL: pip install psycopg2-binary)",
                 file=label,
             ) from None
         return engine, label, secret

@@ -51,7 +51,7 @@ class DatabaseSummary:
         Depth units of every depth and thickness here.
     cores
         One row per core: ``core``, ``intervals``, ``beds`` (adjacent intervals
-        of one facies amalgamated, split at gaps), ``top``, ``base``,
+        of one facies amalgamated, split at gaps, as :meth:`Core.beds`), ``top``, ``base``,
         ``cored_thickness`` (gaps excluded), ``gaps``, ``gap_thickness``,
         ``units``, ``sample_step`` (sample layout only).
     facies
@@ -136,6 +136,21 @@ def _records(frame: pd.DataFrame) -> list[dict]:
     return out
 
 
+def _beds(core) -> pd.DataFrame:
+    """Facies and thickness of each bed, amalgamated as :meth:`Core.beds` does (vectorised)."""
+    table = core.intervals
+    if len(table) == 0:
+        return pd.DataFrame({"facies": [], "thickness": []})
+    facies = table["facies"].to_numpy(dtype=object)
+    segment = core.segment_ids()
+    new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])]
+    first = np.nonzero(new_bed)[0]
+    last = np.r_[first[1:] - 1, len(table) - 1]
+    top = table["top"].to_numpy(dtype=float)[first]
+    base = table["base"].to_numpy(dtype=float)[last]
+    return pd.DataFrame({"facies": facies[first], "thickness": base - top})
+
+
 def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSummary:
     """Per-core and per-facies counts and thicknesses of a core set.
 
@@ -148,7 +163,7 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
     core_rows = []
     bed_tables = []
     for core in cores:
-        beds = core.beds()
+        beds = _beds(core)
         gaps = core.gaps()
         core_rows.append(
             {
@@ -167,7 +182,7 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
         intervals = core.intervals
         bed_tables.append(
             (
-                beds[["facies", "thickness"]],
+                beds,
                 intervals["facies"],
                 intervals["base"] - intervals["top"],
             )

@@ -46,7 +46,14 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
         (codecs.BOM_UTF16_BE, "utf-16"),
     ):
         if data.startswith(bom):
-            text = data.decode(name)
+            try:
+                text = data.decode(name)
+            except UnicodeDecodeError as exc:
+                raise InputError(
+                    f"starts with a {name.upper()} byte-order mark but is not valid {name} "
+                    f"(byte {exc.start}); save it as UTF-8",
+                    file=file,
+                ) from None
             problems = []
             if name not in ("utf-8-sig",):
                 problems.append(
@@ -226,4 +233,4 @@ def read_parquet(path: Path) -> RawTable:
     except Exception as exc:  # pyarrow raises several types for a bad file
         raise InputError(f"not a readable Parquet file ({type(exc).__name__})", file=file) from None
     frame.columns = [str(c) for c in frame.columns]
-    return RawTable(frame.reset_index(drop=True), file)
+    return RawTable(frame.reset_index(drop=True).astype(object), file)

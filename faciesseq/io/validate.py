@@ -24,6 +24,7 @@ repairs
 
 from __future__ import annotations
 
+import contextlib
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
@@ -101,6 +102,21 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
+def _codes(values: pd.Series) -> list[str | None]:
+    """:func:`facies_code` of each value, each distinct value converted once."""
+    cache: dict[object, str | None] = {}
+    out = []
+    for value in values:
+        try:
+            out.append(cache[value])
+        except (KeyError, TypeError):
+            code = facies_code(value)
+            with contextlib.suppress(TypeError):  # unhashable values are not cached
+                cache[value] = code
+            out.append(code)
+    return out
+
+
 def _is_blank(value: object) -> bool:
     if value is None:
         return True
@@ -176,7 +192,7 @@ def _prepare(
 
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
-        cores = [facies_code(v) for v in src[match.roles["core"]]]
+        cores = _codes(src[match.roles["core"]])
         for i, c in enumerate(cores):
             if c is None:
                 bad[i] = True
@@ -235,7 +251,7 @@ def _prepare(
     first_depth = out[roles[0]].to_numpy()
 
     # -- facies ----------------------------------------------------------------
-    codes = [facies_code(v) for v in src[match.roles["facies"]]]
+    codes = _codes(src[match.roles["facies"]])
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
     for i, code in enumerate(codes):
@@ -455,7 +471,8 @@ def _order(part: pd.DataFrame, key: str, file: str, core: str, units: str) -> li
         i = int(np.nonzero(np.diff(depth) < 0)[0][0]) + 1
         count = int((np.diff(depth) < 0).sum())
         message = (
-            f"{count} row(s) listed above a shallower row (out of depth order); sorted by depth"
+            f"{count} row(s) shallower than the row before them (out of depth order); "
+            "sorted by depth"
         )
     return [
         Problem(
@@ -568,7 +585,6 @@ def _modal_step(depth: np.ndarray) -> float | None:
 
 def _check_samples(
     part: pd.DataFrame,
-    attributes: list[str],
     file: str,
     core: str,
     units: str,
@@ -750,9 +766,7 @@ def build_coreset(
                 problems += found
                 pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
             else:
-                part, found = _check_samples(
-                    part, p.attributes, file, name, target, repeated_depths
-                )
+                part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
                 pending.append((name, part, p))
                 step = _modal_step(part["depth"].to_numpy(dtype=float))
