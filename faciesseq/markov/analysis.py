@@ -167,6 +167,7 @@ class MarkovReport:
                 "significant": _matrix(fo.significant, codes),
                 "low_expected": _matrix(fo.low_expected, codes),
                 "fixed_vector": dict(zip(codes, self.fixed_vector)),
+                "n_step": {str(k): _matrix(v, codes) for k, v in self.n_step.items()},
                 "first_order": {
                     "model": fo.model,
                     "dof": fo.dof,
@@ -359,6 +360,7 @@ def analyse(
     alpha: float = 0.05,
     scheme=None,
     min_coverage: float = 0.5,
+    exclude_irregular: bool = True,
 ) -> MarkovReport:
     """Transition statistics, first-order, order, homogeneity and cyclicity tests.
 
@@ -389,6 +391,9 @@ def analyse(
         :class:`~faciesseq.scheme.FaciesScheme` for the default ``codes``.
     min_coverage
         Screening threshold (described fraction of a core's span).
+    exclude_irregular
+        Leave irregularly sampled cores out (default). With ``False`` they are
+        analysed, and a warning names each one.
 
     Returns
     -------
@@ -405,7 +410,9 @@ def analyse(
             raise ConfigError("--unit grid needs a positive --step (depth units)")
         problems = screen_cores(data, min_coverage=min_coverage)
         for p in problems:
-            if p.core not in excluded:
+            if not exclude_irregular:
+                warnings.append(f"core {p.core} analysed although irregular: {p.message}")
+            elif p.core not in excluded:
                 excluded.append(p.core)
                 warnings.append(f"core {p.core} left out: {p.message}")
         keep = [n for n in data.names if n not in excluded]

@@ -120,8 +120,9 @@ def encode(successions: Sequence, codes: Sequence[str] | None = None) -> Encoded
     cores: list[str] = []
     segments: list[int] = []
     for k, succ in enumerate(successions):
-        if hasattr(succ, "facies"):
-            values = np.asarray(succ.facies, dtype=object).astype(str)
+        beds = getattr(succ, "beds", None)
+        if beds is not None:
+            values = beds["facies"].to_numpy(dtype=object)
             cores.append(str(succ.core))
             segments.append(int(succ.segment))
         else:
@@ -130,45 +131,42 @@ def encode(successions: Sequence, codes: Sequence[str] | None = None) -> Encoded
             segments.append(0)
         seqs.append(values)
     integer_input = bool(seqs) and all(np.issubdtype(s.dtype, np.integer) for s in seqs)
-    if codes is None:
-        if integer_input:
-            top = max((int(s.max()) for s in seqs if len(s)), default=-1)
+    lengths = np.array([len(s) for s in seqs], dtype=np.int64)
+    flat = np.concatenate(seqs) if seqs else np.zeros(0, dtype=np.int64)
+    owner = np.repeat(np.arange(len(seqs)), lengths)
+    if integer_input:
+        top = int(flat.max()) if len(flat) else -1
+        if codes is None:
             codes = [str(i) for i in range(top + 1)]
-            lookup = None
-        else:
-            present = {str(v) for s in seqs for v in s}
-            codes = sorted(present, key=lambda c: (len(c), c))
-            lookup = {c: i for i, c in enumerate(codes)}
+        m = len(codes)
+        arr = flat.astype(np.int64)
+        bad = (arr < 0) | (arr >= m)
+        if bad.any():
+            raise InputError(f"integer facies code {int(arr[bad][0])} outside 0..{m - 1}")
     else:
+        text = pd.Index(flat.astype(str)) if len(flat) else pd.Index([], dtype=object)
+        if codes is None:
+            present = set(text.unique())
+            codes = sorted(present, key=lambda c: (len(c), c))
         codes = [str(c) for c in codes]
         if len(set(codes)) != len(codes):
             raise InputError(f"facies codes listed twice in {codes}")
-        lookup = None if integer_input else {c: i for i, c in enumerate(codes)}
+        arr = pd.Index(codes).get_indexer(text) if len(flat) else np.zeros(0, dtype=np.int64)
+        if (arr < 0).any():
+            first_bad = int(np.nonzero(arr < 0)[0][0])
+            unknown = sorted(set(text[arr < 0]))
+            raise InputError(
+                f"facies {unknown} not in the facies list {list(codes)}; add them to the "
+                "scheme or map them with aliases",
+                core=cores[int(owner[first_bad])],
+            )
     m = len(codes)
     dtype = np.int16 if m < 2**15 else np.int32
-    coded: list[np.ndarray] = []
-    for s, core in zip(seqs, cores):
-        if lookup is None:
-            arr = s.astype(np.int64)
-            bad = (arr < 0) | (arr >= m)
-            if bad.any():
-                raise InputError(f"integer facies code {int(arr[bad][0])} outside 0..{m - 1}")
-        else:
-            arr = np.fromiter((lookup.get(str(v), -1) for v in s), dtype=np.int64, count=len(s))
-            if (arr < 0).any():
-                unknown = sorted({str(v) for v, a in zip(s, arr) if a < 0})
-                raise InputError(
-                    f"facies {unknown} not in the facies list {list(codes)}; add them to the "
-                    "scheme or map them with aliases",
-                    core=core,
-                )
-        coded.append(arr.astype(dtype))
-    lengths = np.array([len(c) for c in coded], dtype=np.int64)
-    states = np.concatenate(coded) if coded else np.zeros(0, dtype=dtype)
+    states = np.asarray(arr, dtype=dtype)
     return EncodedSuccessions(
         states,
         np.r_[0, np.cumsum(lengths)].astype(np.int64),
-        tuple(codes),
+        tuple(str(c) for c in codes),
         tuple(cores),
         tuple(segments),
     )
@@ -202,18 +200,29 @@ def ngram_counts(enc: EncodedSuccessions, order: int, *, skip: int = 0) -> np.nd
 def batch_ngram_counts(enc: EncodedSuccessions, batch: np.ndarray, order: int) -> np.ndarray:
     """:func:`ngram_counts` for a batch of surrogates ``(B, len(enc.states))`` of ``enc``.
 
-    Returns ``(B,) + (m,) * (order + 1)``.
+    Returns ``(B,) + (m,) * (order + 1)``. Windows are coded with slices of the
+    whole batch (no gathers); windows that cross a succession boundary go to
+    an overflow bin that is dropped.
     """
     m = enc.m
     width = order + 1
-    starts = _window_index(enc, width)
+    n = batch.shape[1]
+    n_cells = m**width
     b = batch.shape[0]
-    code = np.zeros((b, len(starts)), dtype=np.int64)
+    if n < width:
+        return np.zeros((b,) + (m,) * width, dtype=np.int64)
+    dtype = np.int32 if n_cells < 2**31 else np.int64
+    code = np.zeros((b, n - width + 1), dtype=dtype)
     for k in range(width):
-        code = code * m + batch[:, starts + k]
-    code += (np.arange(b, dtype=np.int64) * m**width)[:, None]
-    flat = np.bincount(code.ravel(), minlength=b * m**width)
-    return flat.reshape((b,) + (m,) * width)
+        code *= m
+        code += batch[:, k : n - width + 1 + k]
+    valid = np.zeros(n - width + 1, dtype=bool)
+    valid[_window_index(enc, width)] = True
+    code[:, ~valid] = n_cells
+    out = np.empty((b, n_cells), dtype=np.int64)
+    for r in range(b):
+        out[r] = np.bincount(code[r], minlength=n_cells + 1)[:n_cells]
+    return out.reshape((b,) + (m,) * width)
 
 
 def transition_counts(enc: EncodedSuccessions, *, per_succession: bool = False) -> np.ndarray:

@@ -19,9 +19,7 @@ from faciesseq.errors import Problem
 __all__ = ["IRREGULAR_KINDS", "core_coverage", "screen_cores"]
 
 #: Problem kinds (from reading or from here) that keep a core out of pooled statistics.
-IRREGULAR_KINDS = frozenset(
-    {"irregular_sampling", "irregular_step", "pseudo_well", "unsorted_depths", "depth_order"}
-)
+IRREGULAR_KINDS = frozenset({"irregular_sampling", "irregular-spacing"})
 
 
 def core_coverage(core) -> tuple[float, int]:

@@ -226,6 +226,7 @@ def transition_surrogates(
     seg_len = np.r_[gr.degree[tv] - 1, gr.degree[gr.root_vertices]]
     active = np.nonzero(gr.lengths > 1)[0]
     max_len = int(gr.lengths.max(initial=0))
+    ends = set(gr.lengths.tolist())
     for batch in _batches(n_surrogates, max(gr.n_edges, n_states)):
         labels = np.broadcast_to(base_labels, (batch, gr.n_edges)).copy()
         if len(tv):
@@ -238,30 +239,31 @@ def transition_surrogates(
             labels[rows, end] = labels[rows, last_label]
             labels[rows, last_label] = moved
         _shuffle_segments(labels, seg_off, seg_len, rng)
-        # batch-minor layouts: each step reads and writes contiguous rows
-        exits_t = gr.exits[labels.T].astype(enc.states.dtype)  # (n_edges, batch)
+        # each walker reads its own exit lists in order (cache-friendly); the
+        # output is written one position (a contiguous row of walkers) per step
+        flat_exits = gr.exits.astype(enc.states.dtype)[labels].reshape(-1)
         del labels
         out_t = np.empty((n_states, batch), dtype=enc.states.dtype)
         nonempty = gr.lengths > 0
         out_t[gr.state_start[nonempty], :] = gr.start[nonempty][:, None]
-        used = np.zeros(gr.n_succ * m * batch, dtype=np.int32)
-        flat_exits = exits_t.reshape(-1)
-        col = np.arange(batch)[None, :]
-        cur = np.broadcast_to((active * m + gr.start[active])[:, None], (len(active), batch))
+        n_vert = gr.n_succ * m
+        # next exit slot of every (walker, vertex), as a flat index into flat_exits
+        ptr = (gr.offset[None, :] + (np.arange(batch) * gr.n_edges)[:, None]).reshape(-1)
+        row_v = (np.arange(batch, dtype=np.int64) * n_vert)[:, None]
+        cur = np.broadcast_to((active * m + gr.start[active])[None, :], (batch, len(active)))
         for t in range(max_len - 1):
-            if gr.lengths[active[0]] <= t + 1 or gr.lengths[active[-1]] <= t + 1 or t == 0:
+            if t + 1 in ends:
                 keep = gr.lengths[active] > t + 1
-                if not keep.all():
-                    active = active[keep]
-                    cur = cur[keep]
+                active = active[keep]
+                cur = cur[:, keep]
             if len(active) == 0:
                 break
-            vi = cur * batch + col
-            slot = gr.offset[cur] + used[vi]
-            nxt = flat_exits[slot * batch + col]
-            used[vi] += 1
-            out_t[gr.state_start[active] + t + 1, :] = nxt
-            cur = active[:, None] * m + nxt
+            vi = row_v + cur
+            slot = ptr[vi]
+            ptr[vi] = slot + 1
+            nxt = flat_exits[slot]
+            out_t[gr.state_start[active] + t + 1, :] = nxt.T
+            cur = active[None, :] * m + nxt
         out = np.ascontiguousarray(out_t.T)
         active = np.nonzero(gr.lengths > 1)[0]
         yield out
@@ -318,6 +320,103 @@ def transition_surrogates_loop(
     return out
 
 
+def _block_pairs(
+    starts: np.ndarray, lengths: np.ndarray, o: int, delta: int, d: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Disjoint position pairs for one block-swap step, for every succession at once.
+
+    Within each succession, positions ``o + 8k`` are paired with positions
+    ``o + delta + 8(k + d)`` (``2 <= delta <= 6``), so no two chosen positions
+    are adjacent and every position is in at most one pair. The pairs depend
+    only on ``(o, delta, d)``, never on the beds.
+    """
+    k_i = np.maximum(0, -(-(lengths - o) // 8))
+    k_j = np.maximum(0, -(-(lengths - o - delta) // 8))
+    lo = max(0, -d)
+    hi = np.minimum(k_i, k_j - d)
+    count = np.maximum(0, hi - lo)
+    owner = np.repeat(np.arange(len(lengths)), count)
+    first = np.r_[0, np.cumsum(count)[:-1]]
+    k = lo + np.arange(int(count.sum())) - np.repeat(first, count)
+    base = starts[owner]
+    return base + o + 8 * k, base + o + delta + 8 * (k + d)
+
+
+def swap_chain(
+    enc: EncodedSuccessions, x: np.ndarray, sweeps: int, rng: np.random.Generator
+) -> None:
+    """Run the no-repeat swap chain on a batch ``x`` (rows = orderings of ``enc``), in place.
+
+    Each sweep is four *block* steps (many disjoint, non-adjacent pairs of beds
+    at once, see :func:`_block_pairs`; each pair accepted on its own, which
+    keeps the kernel symmetric because the pairs' neighbourhoods do not
+    overlap) and up to 16 steps swapping one random pair of beds per succession
+    (about half the typical succession length, so short successions are swept
+    too). Proposals never depend on the beds and a swap is kept only when no
+    facies then lies on itself, so the kernel is symmetric and the uniform law
+    on the allowed orderings is stationary.
+    """
+    lengths = enc.lengths
+    starts = enc.starts[:-1]
+    n_states = len(enc.states)
+    movable = np.nonzero(lengths > 2)[0]
+    if len(movable) == 0:
+        return
+    owner = np.repeat(np.arange(len(lengths)), lengths)
+    first_of = starts[owner]
+    last_of = first_of + lengths[owner] - 1
+    typical = float(np.median(lengths[movable]))
+    max_blocks = max(1, int(np.ceil(typical / 8)))
+    n_single = max(1, min(16, int(np.ceil(typical / 2))))
+
+    def block_step() -> None:
+        o = int(rng.integers(8))
+        delta = int(rng.integers(2, 7))
+        d = int(rng.integers(-max_blocks, max_blocks + 1))
+        i, j = _block_pairs(starts, lengths, o, delta, d)
+        if len(i) == 0:
+            return
+        xi, xj = x[:, i], x[:, j]
+        ok = xi != xj
+        for p, new in ((i, xj), (j, xi)):
+            left, right = p - 1, p + 1
+            has_left, has_right = left >= first_of[p], right <= last_of[p]
+            ok &= ~has_left | (x[:, np.maximum(left, 0)] != new)
+            ok &= ~has_right | (x[:, np.minimum(right, n_states - 1)] != new)
+        x[:, i] = np.where(ok, xj, xi)
+        x[:, j] = np.where(ok, xi, xj)
+
+    rows = np.arange(x.shape[0])[:, None]
+    base = starts[movable][None, :]
+    length = lengths[movable][None, :]
+    last = base + length - 1
+
+    def single_step() -> None:
+        i = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
+        j = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
+        xi, xj = x[rows, i], x[rows, j]
+        ok = xi != xj
+
+        def value(p):
+            v = x[rows, np.clip(p, 0, n_states - 1)]
+            return np.where(p == i, xj, np.where(p == j, xi, v))
+
+        for p in (i, j):
+            vp = value(p)
+            ok &= (p - 1 < base) | (value(p - 1) != vp)
+            ok &= (p + 1 > last) | (value(p + 1) != vp)
+        r, c = np.nonzero(ok)
+        ii, jj = i[r, c], j[r, c]
+        a, bb = x[r, ii].copy(), x[r, jj].copy()
+        x[r, ii], x[r, jj] = bb, a
+
+    for _ in range(sweeps):
+        for _ in range(4):
+            block_step()
+        for _ in range(n_single):
+            single_step()
+
+
 def restricted_permutations(
     enc: EncodedSuccessions,
     n_surrogates: int,
@@ -327,55 +426,21 @@ def restricted_permutations(
 ) -> Iterator[np.ndarray]:
     """Random orderings of each succession's beds with no facies above itself.
 
-    A swap chain (propose exchanging two beds of one succession; accept when
-    no two successive beds then share a facies) is symmetric, so its
-    stationary law is uniform on the allowed orderings. Besag & Clifford's
-    (1989) parallel scheme: ``sweeps`` x (beds of the longest succession)
-    proposals from the data to a hub, then as many from the hub to each
-    surrogate; every succession proposes one swap per step.
+    Besag & Clifford's (1989) parallel scheme on :func:`swap_chain`: ``sweeps``
+    sweeps from the data to a hub, then as many from the hub to each
+    surrogate, so that under the null the data and the surrogates are
+    exchangeable and the Monte Carlo p-value is exact however slowly the chain
+    mixes (slow mixing costs power, not validity).
 
     Yields batches ``(batch, len(enc.states))`` like :func:`transition_surrogates`.
     """
     rng = np.random.default_rng(random_state)
-    lengths = enc.lengths
     n_states = len(enc.states)
-    movable = np.nonzero(lengths > 2)[0]
-    steps = int(sweeps * lengths.max(initial=0))
-
-    def run(x: np.ndarray) -> None:
-        if len(movable) == 0:
-            return
-        b = x.shape[0]
-        rows = np.arange(b)[:, None]
-        base = enc.starts[:-1][movable][None, :]
-        length = lengths[movable][None, :]
-        first = base
-        last = base + length - 1
-        for _ in range(steps):
-            i = base + (rng.random((b, len(movable))) * length).astype(np.int64)
-            j = base + (rng.random((b, len(movable))) * length).astype(np.int64)
-            xi, xj = x[rows, i], x[rows, j]
-            ok = xi != xj
-
-            def value(p, i=i, j=j, xi=xi, xj=xj):
-                v = x[rows, np.clip(p, 0, n_states - 1)]
-                return np.where(p == i, xj, np.where(p == j, xi, v))
-
-            for p in (i, j):
-                left, right = p - 1, p + 1
-                vp = value(p)
-                ok &= (left < first) | (value(left) != vp)
-                ok &= (right > last) | (value(right) != vp)
-            r, c = np.nonzero(ok)
-            ii, jj = i[r, c], j[r, c]
-            a, bb = x[r, ii].copy(), x[r, jj].copy()
-            x[r, ii], x[r, jj] = bb, a
-
     hub = enc.states[None, :].copy()
-    run(hub)
+    swap_chain(enc, hub, sweeps, rng)
     for batch in _batches(n_surrogates, n_states * 4):
         x = np.broadcast_to(hub, (batch, n_states)).copy()
-        run(x)
+        swap_chain(enc, x, sweeps, rng)
         yield x
 
 

@@ -1,0 +1,175 @@
+"""``faciesseq markov``: is the succession ordered, or could it be random?"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.errors import ConfigError
+
+HELP = "transition statistics, Markov-order, homogeneity and cyclicity tests"
+
+DESCRIPTION = """\
+Upward transition statistics of the facies successions (read base to top), pooled
+over cores and never across a core boundary or gap: count and probability matrices,
+the (quasi-)independence test with cell diagnostics, order tests with AIC/BIC,
+Monte Carlo tests with surrogate successions, homogeneity across cores or groups,
+entropies and the preferred upward path. Irregularly sampled cores (e.g. pseudo-wells
+of scattered samples) are left out of the pooled statistics with a warning.
+"""
+
+EXAMPLES = """\
+examples:
+  faciesseq markov cores.csv --scheme my-scheme.yaml
+  faciesseq markov cores.csv --surrogates 999 --seed 1 --format json
+  faciesseq markov logs.csv --layout samples --unit grid --step 0.5 --by formation
+  faciesseq markov cores.csv --scheme my-scheme.yaml --out markov-results
+"""
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "markov",
+        help=HELP,
+        description=DESCRIPTION,
+        epilog=EXAMPLES,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    add_source_arguments(parser)
+    group = parser.add_argument_group("statistics")
+    group.add_argument(
+        "--unit",
+        choices=("beds", "grid"),
+        default="beds",
+        help="beds: bed-to-bed embedded chain (default); grid: cells of --step",
+    )
+    group.add_argument("--step", type=float, help="grid cell size, in depth units (--unit grid)")
+    group.add_argument(
+        "--max-order", type=int, default=3, metavar="K", help="highest Markov order (default 3)"
+    )
+    group.add_argument(
+        "--surrogates",
+        type=int,
+        default=0,
+        metavar="N",
+        help="Monte Carlo tests with N surrogate successions (default 0: none; e.g. 999)",
+    )
+    group.add_argument("--seed", type=int, help="seed of the surrogates (printed when drawn)")
+    group.add_argument(
+        "--by",
+        default="core",
+        metavar="core|COLUMN",
+        help="homogeneity across cores (default) or groups of a bed column; 'none' to skip",
+    )
+    group.add_argument("--alpha", type=float, default=0.05, help="level for cells (0.05)")
+    group.add_argument("--per-core", action="store_true", help="also give each core's count matrix")
+    group.add_argument(
+        "--keep-irregular",
+        action="store_true",
+        help="analyse irregularly sampled cores too (warned) instead of leaving them out",
+    )
+    out = parser.add_argument_group("output")
+    out.add_argument(
+        "--format",
+        choices=("text", "json", "csv"),
+        default="text",
+        help="standard output: text tables (default), JSON, or the tests as CSV",
+    )
+    out.add_argument(
+        "--out",
+        metavar="DIR",
+        help="also write markov.json, markov.txt, CSV tables and the facies relationship "
+        "diagram into DIR",
+    )
+    parser.set_defaults(func=run)
+
+
+def _check(args: argparse.Namespace) -> None:
+    if args.unit == "grid" and not (args.step and args.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
+    if args.unit == "beds" and args.step is not None:
+        raise ConfigError("--step applies to --unit grid only")
+    if args.max_order < 1:
+        raise ConfigError(f"--max-order must be at least 1, got {args.max_order}")
+    if args.surrogates < 0:
+        raise ConfigError(f"--surrogates must be 0 or more, got {args.surrogates}")
+    if args.seed is not None and args.surrogates == 0:
+        raise ConfigError("--seed needs --surrogates N")
+    if not 0 < args.alpha < 1:
+        raise ConfigError(f"--alpha must be between 0 and 1, got {args.alpha}")
+
+
+def _write_out(directory: str, report, scheme, text: str, json_text: str) -> None:
+    """All files into a temporary folder beside DIR, then moved in (nothing half-written)."""
+    import os
+    import shutil
+    import tempfile
+    from pathlib import Path
+
+    from faciesseq.report.markov_figures import facies_relationship_diagram
+
+    target = Path(directory)
+    if target.exists() and not target.is_dir():
+        raise ConfigError(f"--out {directory}: exists and is not a folder")
+    parent = target.parent if str(target.parent) else Path(".")
+    if not parent.is_dir():
+        raise ConfigError(f"--out {directory}: folder {parent} does not exist")
+    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=parent))
+    try:
+        (tmp / "markov.txt").write_text(text, encoding="utf-8")
+        (tmp / "markov.json").write_text(json_text, encoding="utf-8")
+        for name, frame in report.to_frames().items():
+            frame.to_csv(tmp / f"{name}.csv", index=frame.index.name is not None)
+        for suffix in (".png", ".svg"):
+            facies_relationship_diagram(report, scheme, tmp / f"facies_relationship{suffix}")
+        if not target.exists():
+            os.replace(tmp, target)
+            return
+        for f in sorted(tmp.iterdir()):
+            os.replace(f, target / f.name)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+def run(args: argparse.Namespace) -> int:
+    import json
+
+    import numpy as np
+
+    from faciesseq.markov import analyse
+    from faciesseq.report.markov_text import markov_text
+
+    _check(args)
+    scheme = load_scheme_option(args.scheme)
+    cores = read_source(args, scheme=scheme).require_valid()
+    seed = args.seed
+    if args.surrogates and seed is None:
+        seed = int(np.random.SeedSequence().entropy % 2**32)
+    by = None if args.by.lower() == "none" else args.by
+    report = analyse(
+        cores,
+        unit=args.unit,
+        step=args.step,
+        max_order=args.max_order,
+        surrogates=args.surrogates,
+        seed=seed,
+        by=by,
+        per_core=args.per_core,
+        alpha=args.alpha,
+        scheme=scheme,
+        exclude_irregular=not args.keep_irregular,
+    )
+    text = markov_text(report)
+    if args.surrogates:
+        text += f"surrogates drawn with seed {seed} (repeat with --seed {seed})\n"
+    json_text = json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n"
+    if args.out:
+        _write_out(args.out, report, scheme, text, json_text)
+    if args.format == "text":
+        sys.stdout.write(text)
+    elif args.format == "json":
+        sys.stdout.write(json_text)
+    else:
+        report.to_frames()["tests"].to_csv(sys.stdout, index=False)
+    return 0

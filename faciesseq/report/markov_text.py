@@ -1,0 +1,132 @@
+"""Plain-text tables of a :class:`~faciesseq.markov.MarkovReport`, for the terminal.
+
+Every test is written on one line in the form a reviewer expects,
+``χ²(dof, N = n) = value, p = …`` (G² for likelihood-ratio statistics).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["format_p", "format_test", "markov_text"]
+
+
+def format_p(p: float) -> str:
+    """``p = 0.034``, ``p = 2.1e-05``; ``p not available`` for NaN."""
+    if p is None or not math.isfinite(p):
+        return "p not available"
+    if p >= 0.001:
+        return f"p = {p:.3f}"
+    return f"p = {p:.2g}"
+
+
+def format_test(test) -> str:
+    """``χ²(11, N = 396) = 173.61, p = 2.1e-31`` (and the Monte Carlo size when there is one)."""
+    symbol = "G²" if "(G2)" in test.name else "χ²"
+    text = f"{symbol}({test.dof}, N = {test.n}) = {test.statistic:.2f}, {format_p(test.p_value)}"
+    if test.method == "monte carlo":
+        text += f"  [Monte Carlo, {test.n_surrogates} surrogates]"
+    return text
+
+
+def _table(frame: pd.DataFrame, digits: int) -> str:
+    def cell(v) -> str:
+        if isinstance(v, float | np.floating):
+            if not math.isfinite(v):
+                return "."
+            return f"{v:.{digits}f}"
+        return str(v)
+
+    rows = [[str(frame.index.name or "")] + [str(c) for c in frame.columns]]
+    columns = [frame[c].to_numpy() for c in frame.columns]
+    for k, idx in enumerate(frame.index):
+        rows.append([str(idx)] + [cell(col[k]) for col in columns])
+    widths = [max(len(r[k]) for r in rows) for k in range(len(rows[0]))]
+    return "\n".join(
+        "  ".join(s.rjust(w) if k else s.ljust(w) for k, (s, w) in enumerate(zip(r, widths)))
+        for r in rows
+    )
+
+
+def _matrix(matrix: np.ndarray, codes, digits: int) -> str:
+    frame = pd.DataFrame(np.asarray(matrix), index=list(codes), columns=list(codes))
+    frame.index.name = "below\\above"
+    return _table(frame, digits)
+
+
+def markov_text(report) -> str:
+    """The whole report as text: what was analysed, the tests, then the tables."""
+    fo = report.first_order
+    codes = list(report.codes)
+    unit = (
+        "beds (embedded chain, no self-transitions)"
+        if report.embedded
+        else f"depth-grid cells of {report.step} (self-transitions counted)"
+    )
+    lines = [
+        "Transition statistics (successions read base to top, upward transitions)",
+        f"unit: {unit}",
+        f"{report.n_transitions} transitions in {report.n_successions} successions of "
+        f"{report.n_cores} cores; facies (matrix order): {' '.join(codes)}",
+    ]
+    if report.excluded_cores:
+        lines.append(f"left out: {', '.join(report.excluded_cores)}")
+    lines.append("")
+    lines.append("Tests")
+    width = max(len(t.name) for t in report.tests)
+    for t in report.tests:
+        lines.append(f"  {t.name.ljust(width)}  {format_test(t)}")
+    lines.append(
+        f"  Cramér's V = {fo.cramers_v:.3f}; {fo.n_low_expected} of {int(fo.active.sum())} "
+        f"cells expected below 5; {fo.n_structural_zeros} structural zero cell(s)"
+    )
+    order = report.order
+    lines += ["", f"Order (all fitted on the same {order.n} transitions)"]
+    frame = order.to_frame().set_index("order")
+    lines.append(_table(frame, 1))
+    lines.append(f"best order: AIC {order.best_aic}, BIC {order.best_bic}")
+    cyc = report.cyclicity
+    lines += [
+        "",
+        "Cyclicity (Hattori 1976 entropies, bits)",
+        f"  upward E_post = {cyc.e_post_total:.3f}, downward E_pre = {cyc.e_pre_total:.3f}, "
+        f"maximum {cyc.e_max:.3f} (normalised {cyc.e_post_normalised:.3f} / "
+        f"{cyc.e_pre_normalised:.3f}); cycle type: {cyc.cycle_type}",
+        "  preferred upward path: "
+        + (" -> ".join(cyc.path) + (" -> " + cyc.path[0] if cyc.path_is_cycle else ""))
+        if cyc.path
+        else "  preferred upward path: none (no significant positive transition)",
+    ]
+    if report.homogeneity is not None:
+        h = report.homogeneity
+        lines += [
+            "",
+            f"Homogeneity by {h.by}: {len(h.groups)} groups"
+            + (f", {h.n_left_out} transitions between groups left out" if h.n_left_out else ""),
+        ]
+    lines += ["", "Upward transition counts (row: facies below, column: facies above)"]
+    lines.append(_matrix(report.counts.astype(int), codes, 0))
+    lines += ["", "Transition probabilities"]
+    lines.append(_matrix(report.probabilities, codes, 3))
+    lines += ["", f"Expected counts ({fo.model})"]
+    lines.append(_matrix(fo.expected, codes, 1))
+    lines += ["", "Difference matrix (observed - expected probability)"]
+    lines.append(_matrix(fo.difference, codes, 3))
+    lines += ["", f"Adjusted residuals (* significant at {fo.alpha:g}, ! expected below 5)"]
+    marked = np.empty(fo.residuals.shape, dtype=object)
+    for i in range(len(codes)):
+        for j in range(len(codes)):
+            r = fo.residuals[i, j]
+            s = "." if not math.isfinite(r) else f"{r:.2f}"
+            s += "*" if fo.significant[i, j] else ""
+            s += "!" if fo.low_expected[i, j] else ""
+            marked[i, j] = s
+    lines.append(_matrix(marked, codes, 2))
+    lines += ["", "Fixed (stationary) vector"]
+    lines.append("  " + "  ".join(f"{c}: {p:.3f}" for c, p in zip(codes, report.fixed_vector)))
+    if report.warnings:
+        lines += ["", "Warnings"] + [f"  - {w}" for w in report.warnings]
+    return "\n".join(lines) + "\n"

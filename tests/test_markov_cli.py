@@ -1,0 +1,101 @@
+"""``faciesseq markov`` end to end: text, JSON and CSV on the Council Grove wells."""
+
+import io
+import json
+from contextlib import redirect_stderr, redirect_stdout
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from faciesseq.cli import main
+
+DATA = Path(__file__).parent / "data" / "council_grove"
+READ = [
+    str(DATA / "facies_vectors_subset.csv"),
+    "--layout",
+    "samples",
+    "--column",
+    "core=Well Name",
+    "--column",
+    "depth=Depth",
+    "--column",
+    "facies=Facies",
+    "--units",
+    "ft",
+    "--keep-first",
+    "--scheme",
+    str(DATA / "scheme.yaml"),
+]
+
+
+def _run(*args):
+    out, err = io.StringIO(), io.StringIO()
+    with redirect_stdout(out), redirect_stderr(err):
+        code = main(["markov", *args])
+    return code, out.getvalue(), err.getvalue()
+
+
+def test_text_output_has_one_line_per_test_in_reviewer_form():
+    code, out, err = _run(*READ, "--max-order", "2")
+    assert code == 0, err
+    assert "χ²(55, N = 317) = 314.03, p = 5.8e-38" in out
+    assert "homogeneity by core (Pearson chi2)  χ²(140, N = 317) = 150.68" in out
+    assert "left out: Recruit F9" in out
+
+
+def test_json_output_follows_the_documented_contract():
+    code, out, _ = _run(*READ, "--format", "json", "--surrogates", "99", "--seed", "4")
+    assert code == 0
+    doc = json.loads(out)
+    assert doc["schema"] == "faciesseq.markov/1"
+    for key in ("counts", "probabilities", "expected", "tests", "order", "entropy"):
+        assert key in doc
+    # matrices carry their facies labels, in the scheme's rank order
+    assert doc["counts"]["facies"] == ["1", "2", "3", "7", "8", "6", "5", "9", "4"]
+    assert sum(map(sum, doc["counts"]["matrix"])) == doc["n_transitions"] == 317
+    for t in doc["tests"]:
+        assert {"name", "statistic", "dof", "p_value"} <= set(t)
+    assert [t["n_surrogates"] for t in doc["tests"] if t["method"] == "monte carlo"] == [99, 99]
+    assert set(doc["order"]) >= {"aic", "bic", "best_aic", "best_bic"}
+    assert len(doc["order"]["aic"]) == 4
+    assert doc["excluded_cores"] == ["Recruit F9"]
+    assert doc["seed"] == 4
+    # the same seed gives the same Monte Carlo p-values
+    _, again, _ = _run(*READ, "--format", "json", "--surrogates", "99", "--seed", "4")
+    assert json.loads(again)["tests"] == doc["tests"]
+
+
+def test_csv_and_out_folder(tmp_path):
+    code, out, _ = _run(*READ, "--format", "csv", "--out", str(tmp_path / "res"))
+    assert code == 0
+    tests = pd.read_csv(io.StringIO(out))
+    assert list(tests.columns[:4]) == ["name", "statistic", "dof", "p_value"]
+    files = {p.name for p in (tmp_path / "res").iterdir()}
+    assert {"counts.csv", "tests.csv", "markov.json", "facies_relationship.png"} <= files
+    counts = pd.read_csv(tmp_path / "res" / "counts.csv", index_col=0)
+    assert int(counts.to_numpy().sum()) == 317
+    assert not any(p.name.startswith(".") for p in tmp_path.iterdir())
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--unit", "grid"], "--step"),
+        (["--max-order", "0"], "--max-order"),
+        (["--seed", "3"], "--surrogates"),
+        (["--by", "no_such_column"], "no_such_column"),
+    ],
+)
+def test_usage_mistakes_give_one_line_and_exit_2(tmp_path, args, message):
+    code, _out, err = _run(*READ, *args, "--out", str(tmp_path / "never"))
+    assert code == 2
+    assert message in err and err.count("\n") == 1
+    assert not (tmp_path / "never").exists()
+
+
+def test_grid_unit_warns_about_the_sampling_step():
+    code, out, _ = _run(*READ, "--unit", "grid", "--step", "0.5", "--by", "none")
+    assert code == 0
+    assert "χ²(64," in out
+    assert "sampling step" in out

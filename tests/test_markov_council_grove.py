@@ -1,0 +1,83 @@
+"""Markov statistics on real data: the Council Grove wells (Panoma–Hugoton field, Kansas).
+
+Data: Dubois, Bohling & Chakrabarti (2007), Computers & Geosciences 33:599–617;
+CSV of Hall (2016), The Leading Edge 35:906–909 (Apache 2.0); copied into
+tests/data/council_grove/. The numbers asserted below were measured with this
+code (``analyse(council_grove_coreset(), ...)``) and are recorded so that a
+change in them is noticed; the reference facts are the data's own
+(five real wells, one pseudo-well of scattered samples, 0.5 ft sampling).
+"""
+
+import numpy as np
+import pytest
+from markov_data import PSEUDO_WELL, council_grove_coreset
+
+from faciesseq.markov import analyse, screen_cores
+
+
+@pytest.fixture(scope="module")
+def coreset():
+    return council_grove_coreset()
+
+
+@pytest.fixture(scope="module")
+def beds(coreset):
+    return analyse(coreset, unit="beds", by="core", max_order=3)
+
+
+def test_pseudo_well_is_flagged_irregular_and_left_out(coreset, beds):
+    problems = screen_cores(coreset)
+    assert [p.core for p in problems] == [PSEUDO_WELL]
+    assert problems[0].kind == "irregular_sampling"
+    assert "14%" in problems[0].message
+    assert beds.excluded_cores == (PSEUDO_WELL,)
+    assert any(PSEUDO_WELL in w for w in beds.warnings)
+    assert beds.n_cores == 5
+
+
+def test_pseudo_well_would_add_self_transitions_to_the_grid(coreset):
+    kept = analyse(coreset, unit="grid", step=0.5, max_order=1)
+    forced = analyse(coreset.successions("grid", 0.5), kept.codes, unit="grid", max_order=1)
+    i = kept.codes.index("9")
+    # its 80 bafflestone samples make 71 extra 9 -> 9 "transitions" if analysed
+    assert forced.counts[i, i] - kept.counts[i, i] == 71
+
+
+def test_first_order_dependence_of_the_real_wells(beds):
+    fo = beds.first_order
+    assert beds.n_transitions == 317
+    assert fo.dof == 55  # 9 facies: (9-1)^2 - 9 = 55
+    assert fo.pearson.statistic == pytest.approx(314.0, abs=0.1)
+    assert fo.pearson.p_value < 1e-30
+    # the cycle reads through marine facies; nonmarine 2 <-> 3 are strong partners
+    two, three = beds.codes.index("2"), beds.codes.index("3")
+    assert fo.residuals[two, three] > 3 and fo.residuals[three, two] > 3
+    assert fo.cramers_v == pytest.approx(0.352, abs=0.001)
+
+
+def test_order_estimates_of_the_real_wells(beds):
+    # measured: AIC picks order 1; BIC, with 63 nominal parameters for order 1 and
+    # only 278 transitions in the common sample, prefers quasi-independence (order 0),
+    # although the likelihood-ratio test rejects it: BIC's penalty is heavy at this size
+    assert beds.order.best_aic == 1
+    assert beds.order.best_bic == 0
+    assert beds.order.n == 278
+    assert beds.order.n_parameters[:2] == (8, 63)
+    # order 1 is not rejected against order 2 (asymptotically)
+    assert beds.order.tests[1].p_value > 0.05
+
+
+def test_wells_are_homogeneous_at_the_5_percent_level(beds):
+    h = beds.homogeneity
+    assert h.groups == ("SHRIMPLIN", "SHANKLE", "LUKE G U", "CROSS H CATTLE", "NOLAN")
+    assert h.pearson.dof == 140
+    assert h.pearson.statistic == pytest.approx(150.7, abs=0.1)
+    assert h.pearson.p_value > 0.05
+
+
+def test_monte_carlo_first_order_test_agrees_that_the_wells_are_ordered(coreset):
+    report = analyse(coreset, unit="beds", max_order=2, surrogates=199, seed=3)
+    mc = {t.name: t for t in report.surrogate_tests}
+    assert mc["quasi-independence (Pearson chi2)"].p_value == pytest.approx(1 / 200)
+    assert mc["order 1 vs 2 (G2)"].n_surrogates == 199
+    assert np.isfinite(mc["order 1 vs 2 (G2)"].p_value)
