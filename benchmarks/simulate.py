@@ -9,7 +9,7 @@ Reports the median wall time of ``simulate()`` on configs/demo-quillerby.yaml
 ratio to a baseline measured in the same run: evaluating the equilibrium
 profile once per time step and cell on the same grids (the least work any
 step-by-step model of these sections does; the forward model evaluates it
-once per bisection step, about 40 times per time step).
+once per evaluation of the sediment balance, about 19 times per time step).
 """
 
 from __future__ import annotations

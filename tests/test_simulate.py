@@ -132,18 +132,19 @@ def test_slow_rise_progrades_and_fast_rise_transgresses():
         )
     )
     steps = result.steps
-    assert steps["tract"].tolist() == ["HST"] * 100 + ["TST"] * 50
+    # one normal regression (LST: nothing tells a lowest rate of rise inside it), then TST
+    assert steps["tract"].tolist() == ["LST"] * 100 + ["TST"] * 50
     shore = steps["shoreline_km"].to_numpy()
     assert shore[99] - shore[0] > 15 and shore[-1] < shore[99] - 15
     for core in result.cores:
         table = core.intervals.iloc[::-1]  # base to top
         depth = table["true_water_depth"].to_numpy()
         tract = table["true_tract"].to_numpy()
-        hst, tst = depth[tract == "HST"], depth[tract == "TST"]
+        hst, tst = depth[tract == "LST"], depth[tract == "TST"]
         assert hst[-1] < hst[0] - 2, core.name  # shallowing upward
         assert tst[-1] > tst[0] + 2, core.name  # deepening upward
         ranks = table["facies"].map(result.scenario.scheme.rank).to_numpy()
-        assert ranks[tract == "HST"][-1] < ranks[tract == "HST"][0]
+        assert ranks[tract == "LST"][-1] < ranks[tract == "LST"][0]
 
 
 def test_tract_order_upward_follows_the_cycle(quiet):
@@ -317,3 +318,38 @@ def test_shipped_scenarios_run_with_tracts_in_the_model_order(path):
     for lower, upper in itertools.pairwise(runs):
         assert allowed[idx[lower]][idx[upper]], (path, lower, upper)
     assert set(result.surfaces["surface"]) >= {"BSFR", "SB", "MRS", "MFS"}
+
+
+def test_conformable_facies_successions_obey_walthers_law(quiet):
+    # Walther's law (common practice): facies that follow each other upward without a
+    # break in deposition were neighbours on the profile, one rank apart at most
+    from faciesseq.simulate.wells import well_layers
+
+    scheme = quiet.scenario.scheme
+    hist = quiet.sections["dip"]
+    checked = 0
+    for well in quiet.scenario.wells:
+        layers = well_layers(hist, well, quiet.scenario)
+        ranks = layers["facies"].map(scheme.rank).to_numpy()
+        unbroken = (layers["hiatus_kyr"].to_numpy()[1:] == 0) & (
+            layers["eroded_below"].to_numpy()[1:] == 0
+        )
+        change = ranks[1:] != ranks[:-1]
+        assert (np.abs(np.diff(ranks))[unbroken] <= 1).all(), well.name
+        checked += int((unbroken & change).sum())
+    assert checked > 20
+
+
+def test_erosion_only_where_exposed_during_fall(quiet):
+    # the rule: the top of the section is eroded where it is exposed while
+    # base level falls (subaerial unconformity; Catuneanu et al. 2009)
+    hist = quiet.sections["dip"]
+    eroded = hist.eroded_m > 0
+    falling = hist.relative_rate_m_per_kyr < 0
+    assert eroded.any()
+    assert not eroded[~falling].any()
+    for k in np.nonzero(eroded.any(axis=1))[0]:
+        before = hist.elevation(k) - hist.subsidence_m_per_kyr * (
+            hist.time_kyr[k + 1] - hist.time_kyr[k]
+        )
+        assert (before[eroded[k]] > hist.base_level_m[k + 1]).all()

@@ -60,7 +60,8 @@ class SimulationResult:
         ``sedimentation_rate_m_per_kyr`` (at the shoreline), ``supply_m2_per_kyr``,
         ``shoreline_km``, ``shoreline_shift_km``, ``tract``.
     wells
-        ``core``, ``section``, ``x_km``, ``labelled``, ``thickness_m``.
+        ``core``, ``section``, ``x_km``, ``labelled``, ``thickness_m`` (0 where
+        nothing was preserved; such a well has no core in ``cores``).
     budget
         Sediment budget per section (m^2 of section): ``supplied``, ``eroded``,
         ``deposited``, ``bypassed``, ``preserved``.
@@ -160,10 +161,11 @@ def simulate(
     for well, child in zip(scenario.wells, children):
         rng = np.random.default_rng(child)
         intervals, picks = describe_well(sections[well.section], well, scenario, model, rng)
-        intervals.insert(0, "core", well.name)
-        picks.insert(0, "core", well.name)
-        frames.append(intervals)
-        surfaces.append(picks)
+        if len(intervals):  # a well where nothing was preserved has no core
+            intervals.insert(0, "core", well.name)
+            picks.insert(0, "core", well.name)
+            frames.append(intervals)
+            surfaces.append(picks)
         wells.append(
             {
                 "core": well.name,
@@ -173,21 +175,20 @@ def simulate(
                 "thickness_m": float(intervals["base"].max()) if len(intervals) else 0.0,
             }
         )
-    table = pd.concat(frames, ignore_index=True)
     cores = CoreSet(
-        {
-            name: Core(name, part.drop(columns="core").reset_index(drop=True), "m")
-            for name, part in table.groupby("core", sort=False)
-        },
+        {f["core"].iloc[0]: Core(f["core"].iloc[0], f.drop(columns="core"), "m") for f in frames},
         "m",
         sources=(scenario.source or scenario.name,),
     )
+    surface_columns = ["core", "depth", "surface", "name", "lower_tract", "upper_tract", "cored"]
     budget = pd.DataFrame([{"section": name, **hist.budget} for name, hist in sections.items()])
     return SimulationResult(
         scenario=scenario,
         seed=seed,
         cores=cores,
-        surfaces=pd.concat(surfaces, ignore_index=True),
+        surfaces=pd.concat(surfaces, ignore_index=True)
+        if surfaces
+        else pd.DataFrame(columns=surface_columns),
         steps=steps_table,
         wells=pd.DataFrame(wells),
         budget=budget,

@@ -20,7 +20,7 @@ steps of ``dt`` kyr. At each step ``k``:
    cells above the profile are eroded towards it (at most ``e_max * dt`` and
    never below the basement) and the eroded sediment joins the supply. ``T``
    rises with ``s`` everywhere, so the volume balance ``deposited(s) -
-   eroded(s) = Q_k dt (1 - f_mud)`` has one root, found by bisection: the
+   eroded(s) = Q_k dt (1 - f_mud)`` has one root (found with Brent's method): the
    shoreline moves basinward when supply exceeds the accommodation made near
    the shore and landward otherwise (the shoreline-trajectory view of
    Helland-Hansen & Martinsen 1996, J. Sed. Research 66). If even the most
@@ -34,10 +34,11 @@ steps of ``dt`` kyr. At each step ``k``:
    2009, Earth-Science Reviews 92:1-33; Hunt & Tucker 1992, Sed. Geology
    81:1-9): ``R_k < 0`` forced regression, FSST; ``R_k`` above the
    sedimentation rate at the shoreline ``A_k`` (net aggradation at
-   ``s_{k-1}`` per kyr) transgression, TST; otherwise normal regression, LST
-   after a fall (or, with no fall, once the eustatic rise starts to
-   accelerate again, i.e. after the lowest rate of rise) and HST after a
-   transgression (or once the rise starts to slow down). A transgressive or
+   ``s_{k-1}`` per kyr) transgression, TST; otherwise normal regression: LST
+   after a fall, HST before one; between two transgressions (no fall) HST up
+   to the lowest relative rise rate and LST after it; between two falls (no
+   transgression) LST up to the highest rise rate and HST after it. A
+   transgressive or
    regressive excursion shorter than ``min_tract_kyr`` between two runs of one
    tract is folded back into it (shoreline jitter near a turnaround).
 
@@ -57,6 +58,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.optimize import brentq
 
 from faciesseq.simulate.scenario import Scenario, Section
 
@@ -64,7 +66,8 @@ __all__ = ["SectionHistory", "run_section"]
 
 #: m km per m^2 (internal volumes are thickness in m times length in km).
 _M2_PER_MKM = 1000.0
-_BISECTION_STEPS = 36
+#: Precision of the shoreline position (km).
+_SHORELINE_TOL_KM = 1e-8
 
 
 @dataclass(frozen=True)
@@ -201,7 +204,11 @@ def _place_shoreline(
     e_max: float,
     scenario: Scenario,
 ) -> tuple[np.ndarray, np.ndarray, float, float]:
-    """Solve ``deposited(s) - eroded(s) = budget`` for the shoreline ``s`` by bisection.
+    """Solve ``deposited(s) - eroded(s) = budget`` for the shoreline ``s``.
+
+    The balance rises monotonically with ``s``; its root is bracketed by the two
+    ends of the section and found with Brent's method (``scipy.optimize.brentq``;
+    Brent 1973, Algorithms for Minimization without Derivatives).
 
     Returns deposition, erosion (m per cell), the shoreline (km) and the sand
     that bypassed the section (m km).
@@ -222,15 +229,9 @@ def _place_shoreline(
     if balance(hi) <= 0.0:
         dep, ero = _change(x, hi, z, h, level, falling, e_max, scenario)
         return dep, ero, hi, budget - float((dep.sum() - ero.sum()) * dx)
-    for _ in range(_BISECTION_STEPS):
-        mid = 0.5 * (lo + hi)
-        if balance(mid) > 0.0:
-            hi = mid
-        else:
-            lo = mid
-    s = 0.5 * (lo + hi)
+    s = float(brentq(balance, lo, hi, xtol=_SHORELINE_TOL_KM, rtol=4 * np.finfo(float).eps))
     dep, ero = _change(x, s, z, h, level, falling, e_max, scenario)
-    # close the budget exactly: the small bisection residual is spread over the cells
+    # close the budget exactly: the small residual of the root is spread over the cells
     # that receive sand
     residual = budget - float((dep.sum() - ero.sum()) * dx)
     touched = dep > 0
@@ -321,9 +322,9 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
         totals["bypassed"] += bypass * _M2_PER_MKM
 
     totals["preserved"] = float(h.sum() * dx) * _M2_PER_MKM
-    eustatic_rate = np.diff(level) / dt
-    tract = _tracts(rel_rate, sed_rate, eustatic_rate, scenario.initial_tract)
-    tract = _remove_flicker(tract, max(1, round(scenario.min_tract_kyr / dt)))
+    tract = _tracts(
+        rel_rate, sed_rate, scenario.initial_tract, max(1, round(scenario.min_tract_kyr / dt))
+    )
     return SectionHistory(
         name=section.name,
         x_km=x,
@@ -343,45 +344,71 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
 
 
 def _tracts(
-    rel_rate: np.ndarray, sed_rate: np.ndarray, eustatic_rate: np.ndarray, initial: str
+    rel_rate: np.ndarray, sed_rate: np.ndarray, initial: str, min_steps: int = 1
 ) -> np.ndarray:
-    """Systems tract of each step from the rates (see the module docstring)."""
-    out = np.empty(len(rel_rate), dtype=object)
-    previous = initial
-    tol = 1e-12
-    for k, (rise, sedimentation) in enumerate(zip(rel_rate, sed_rate)):
-        accel = eustatic_rate[k] - eustatic_rate[k - 1] if k > 0 else 0.0
-        if rise < 0.0:
-            tract = "FSST"
-        elif rise > sedimentation:
-            tract = "TST"
-        elif previous in ("FSST", "LST"):
-            # normal regression after the lowest point; it turns into a highstand
-            # only when the rise starts to slow down without a transgression between
-            tract = "HST" if previous == "LST" and accel < -tol else "LST"
-        else:
-            # after a transgression (or at the start); with no fall the sequence
-            # boundary is put where the rise starts to accelerate again
-            tract = "LST" if previous == "HST" and accel > tol else "HST"
-        out[k] = tract
-        previous = tract
+    """Systems tract of each step from the rates (see the module docstring).
+
+    Each step is first a forced regression (``R < 0``), a transgression
+    (``R > A``) or a normal regression. A run of normal regression is then
+    named by what lies around it: after a fall it is an LST, before a fall an
+    HST; between two transgressions (no fall), or at the start before a
+    transgression, it is an HST up to the lowest relative rise rate and an LST
+    after it; between two falls (no transgression) an LST up to the highest
+    rise rate and an HST after it; a run with no neighbours takes ``initial``.
+    """
+    phase = np.where(rel_rate < 0.0, "FSST", np.where(rel_rate > sed_rate, "TST", "NR"))
+    phase = _remove_flicker(phase.astype(object), min_steps)
+    runs = _run_list(phase)
+    out = phase.copy()
+    rounded = np.round(rel_rate, 9)  # rates equal to the last bits are equal
+    for i, (code, a, b) in enumerate(runs):
+        if code != "NR":
+            continue
+        before = runs[i - 1][0] if i > 0 else None
+        after = runs[i + 1][0] if i + 1 < len(runs) else None
+        if before == "FSST" and after in ("TST", None):
+            out[a:b] = "LST"
+        elif before in ("TST", None) and after == "FSST":
+            out[a:b] = "HST"
+        elif before == "FSST" and after == "FSST":
+            turn = a + int(np.argmax(rounded[a:b])) + 1
+            out[a:turn], out[turn:b] = "LST", "HST"
+        elif before is None and after is None:
+            out[a:b] = initial
+        elif before is None:  # the run at the start, before a transgression:
+            # HST up to the lowest rise rate (none if the rise speeds up from the start)
+            turn = a + int(np.argmin(rounded[a:b]))
+            out[a:turn], out[turn:b] = "HST", "LST"
+        elif after is None:  # the run at the end, after a transgression
+            out[a:b] = "HST"
+        else:  # between two transgressions: at least one step of each
+            turn = a + int(np.argmin(rounded[a:b]))
+            turn = min(max(turn, a + 1), max(b - 1, a + 1))
+            out[a:turn], out[turn:b] = "HST", "LST"
     return out
 
 
-def _remove_flicker(tract: np.ndarray, steps: int) -> np.ndarray:
+def _run_list(values: np.ndarray) -> list[tuple[str, int, int]]:
+    """``(value, start, stop)`` of each run of equal values."""
+    runs = []
+    start = 0
+    for k in range(1, len(values) + 1):
+        if k == len(values) or values[k] != values[start]:
+            runs.append((values[start], start, k))
+            start = k
+    return runs
+
+
+def _remove_flicker(phase: np.ndarray, steps: int) -> np.ndarray:
     """Fold short excursions ``A B A`` (``B`` shorter than ``steps``) back into ``A``.
 
     Near a turnaround the rise and sedimentation rates are almost equal and the
     shoreline may step landward and basinward for a step or two; such runs are
-    not tracts. Runs of FSST are kept: a relative fall is never relabelled.
+    not tracts. Runs of forced regression are kept: a relative fall is never
+    relabelled, and nothing is folded into one.
     """
-    out = tract.copy()
-    runs = []
-    start = 0
-    for k in range(1, len(out) + 1):
-        if k == len(out) or out[k] != out[start]:
-            runs.append((out[start], start, k))
-            start = k
+    out = phase.copy()
+    runs = _run_list(out)
     for i in range(1, len(runs) - 1):
         code, a, b = runs[i]
         before, after = runs[i - 1][0], runs[i + 1][0]

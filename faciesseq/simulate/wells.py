@@ -114,6 +114,19 @@ def well_layers(history: SectionHistory, well: Well, scenario: Scenario) -> pd.D
     return table[list(_LAYER_COLUMNS)]
 
 
+_INTERVAL_COLUMNS = (
+    "top",
+    "base",
+    "facies",
+    "contact",
+    "grain_size",
+    "tract",
+    "true_tract",
+    "true_facies",
+    "true_water_depth",
+    "true_age_kyr",
+)
+
 _LAYER_COLUMNS = (
     "step",
     "age_kyr",
@@ -256,6 +269,10 @@ def describe_well(
     by_rank = scheme.codes_by_rank
     layers = well_layers(history, well, scenario)
     beds = _beds(_units(layers, scenario), scenario, rng)
+    if not beds:  # nothing preserved at this well
+        return pd.DataFrame(columns=list(_INTERVAL_COLUMNS)), pd.DataFrame(
+            columns=["depth", "surface", "name", "lower_tract", "upper_tract", "cored"]
+        )
 
     # description noise, bed by bed (base to top)
     for bed in beds:
@@ -338,19 +355,7 @@ def describe_well(
     ]
     table["grain_size"] = [scheme[c].grain_size for c in table["facies"]]
     table = table.rename(columns={"water_depth": "true_water_depth"})
-    columns = [
-        "top",
-        "base",
-        "facies",
-        "contact",
-        "grain_size",
-        "tract",
-        "true_tract",
-        "true_facies",
-        "true_water_depth",
-        "true_age_kyr",
-    ]
-    table = table[columns].reset_index(drop=True)
+    table = table[list(_INTERVAL_COLUMNS)].reset_index(drop=True)
     table["true_water_depth"] = table["true_water_depth"].round(3)
     table["true_age_kyr"] = table["true_age_kyr"].round(3)
     return table, surfaces_table
