@@ -40,7 +40,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from faciesseq.hmm.engine import forward_backward
+from faciesseq.hmm.engine import forward_backward, viterbi
 
 
 def make_data(n_obs: int, mean_length: int, n_states: int, n_symbols: int, seed: int):
@@ -67,11 +67,15 @@ def make_data(n_obs: int, mean_length: int, n_states: int, n_symbols: int, seed:
 def em_step_ours(symbols, lengths, startprob, transmat, emission, batch_size=None):
     """One Baum-Welch iteration (Rabiner 1989, eqs. 40a-c) with the engine."""
     n_symbols = emission.shape[1]
-    log_emission = np.log(emission).T[symbols]
+    log_emission = np.take(np.log(emission).T, symbols, axis=0)
     post = forward_backward(log_emission, lengths, startprob, transmat, batch_size=batch_size)
     new_start = post.start / post.start.sum()
     new_trans = post.xi_sum / post.xi_sum.sum(axis=1, keepdims=True)
-    counts = np.stack([np.bincount(symbols, weights=g, minlength=n_symbols) for g in post.gamma.T])
+    # Expected emission counts: posteriors summed per symbol, as one product
+    # with the one-hot coding of the symbols (faster than a bincount per state).
+    one_hot = np.zeros((symbols.size, n_symbols))
+    one_hot[np.arange(symbols.size), symbols] = 1.0
+    counts = post.gamma.T @ one_hot
     new_emission = counts / counts.sum(axis=1, keepdims=True)
     return post.total_log_likelihood, new_start, new_trans, new_emission
 
@@ -94,13 +98,54 @@ def em_step_hmmlearn(symbols, lengths, startprob, transmat, emission):
     return model.monitor_.history[-1], model.startprob_, model.transmat_, model.emissionprob_
 
 
-def best_time(fn, repeats):
-    times, result = [], None
+def interleaved_times(fns, repeats):
+    """Run the candidates in turn, ``repeats`` rounds, so that load from other
+    processes falls on all of them alike; return per-candidate times and the
+    last results."""
+    times = [[] for _ in fns]
+    cpu = [[] for _ in fns]
+    results = [None] * len(fns)
     for _ in range(repeats):
-        t0 = time.perf_counter()
-        result = fn()
-        times.append(time.perf_counter() - t0)
-    return min(times), float(np.median(times)), result
+        for i, fn in enumerate(fns):
+            t0, c0 = time.perf_counter(), time.process_time()
+            results[i] = fn()
+            times[i].append(time.perf_counter() - t0)
+            cpu[i].append(time.process_time() - c0)
+    CPU_TIMES[:] = cpu
+    return times, results
+
+
+# CPU seconds of the last interleaved_times call (less sensitive than wall time
+# to other processes taking turns on the cores).
+CPU_TIMES: list[list[float]] = []
+
+
+def viterbi_ours(symbols, lengths, startprob, transmat, emission):
+    log_emission = np.take(np.log(emission).T, symbols, axis=0)
+    path, log_prob = viterbi(log_emission, lengths, startprob, transmat)
+    return float(log_prob.sum()), path
+
+
+def path_log_prob(path, symbols, lengths, startprob, transmat, emission):
+    """Log-probability of each sequence jointly with the given state path."""
+    with np.errstate(divide="ignore"):
+        log_start, log_trans, log_emit = np.log(startprob), np.log(transmat), np.log(emission)
+    first = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+    step = log_emit[path, symbols]
+    inner = np.ones(len(path), dtype=bool)
+    inner[first] = False
+    step[inner] += log_trans[path[:-1], path[1:]][inner[1:]]
+    step[first] += log_start[path[first]]
+    return np.add.reduceat(step, first)
+
+
+def viterbi_hmmlearn(symbols, lengths, startprob, transmat, emission):
+    from hmmlearn.hmm import CategoricalHMM
+
+    model = CategoricalHMM(n_components=len(startprob), init_params="", params="")
+    model.startprob_, model.transmat_, model.emissionprob_ = startprob, transmat, emission
+    model.n_features = emission.shape[1]
+    return model.decode(symbols[:, None], lengths, algorithm="viterbi")
 
 
 def memory_child(n_obs: int, n_states: int, batch_size: int) -> dict:
@@ -142,9 +187,10 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("--memory-obs", type=int, default=10_000_000)
     parser.add_argument("--memory-states", type=int, default=16)
     parser.add_argument(
-        "--memory-batches", type=int, nargs="*", default=[1 << 14, 1 << 16, 1 << 18]
+        "--memory-batches", type=int, nargs="*", default=[1 << 16, 1 << 18, 1 << 20]
     )
     parser.add_argument("--skip-memory", action="store_true")
+    parser.add_argument("--skip-em", action="store_true")
     parser.add_argument("--memory-child", type=int, default=None, help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
 
@@ -154,28 +200,62 @@ def main(argv: list[str] | None = None) -> None:
 
     import hmmlearn
 
-    data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
-    symbols, lengths = data[0], data[1]
     print(
         f"# {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}, {platform.node()}, "
         f"{os.cpu_count()} CPUs, numpy {np.__version__}, hmmlearn {hmmlearn.__version__}"
     )
-    print(
-        f"# EM iteration: {len(symbols):,} observations, {len(lengths)} sequences, "
-        f"{args.states} states, {args.symbols} symbols"
-    )
-    t_ours, med_ours, ours = best_time(
-        lambda: em_step_ours(*data, batch_size=args.batch_size), args.repeats
-    )
-    t_ref, med_ref, ref = best_time(lambda: em_step_hmmlearn(*data), args.repeats)
-    ll_diff = abs(ours[0] - ref[0])
-    par_diff = max(float(np.abs(a - b).max()) for a, b in zip(ours[1:], ref[1:]))
-    print(f"faciesseq   best {t_ours:7.3f} s  median {med_ours:7.3f} s  loglik {ours[0]:.6f}")
-    print(f"hmmlearn    best {t_ref:7.3f} s  median {med_ref:7.3f} s  loglik {ref[0]:.6f}")
-    print(f"ratio faciesseq / hmmlearn (best): {t_ours / t_ref:.3f}")
-    print(f"|loglik difference| {ll_diff:.3e}; max |parameter difference| {par_diff:.3e}")
-    if not (ll_diff <= 1e-6 * abs(ref[0]) and par_diff < 1e-8):
-        raise SystemExit("results differ from hmmlearn")
+
+    if not args.skip_em:
+        data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
+        symbols, lengths = data[0], data[1]
+        print(
+            f"# EM iteration: {len(symbols):,} observations, {len(lengths)} sequences, "
+            f"{args.states} states, {args.symbols} symbols"
+        )
+        (t_ours, t_ref), (ours, ref) = interleaved_times(
+            [
+                lambda: em_step_ours(*data, batch_size=args.batch_size),
+                lambda: em_step_hmmlearn(*data),
+            ],
+            args.repeats,
+        )
+        ll_diff = abs(ours[0] - ref[0])
+        par_diff = max(float(np.abs(a - b).max()) for a, b in zip(ours[1:], ref[1:]))
+        for name, t, r in (("faciesseq", t_ours, ours), ("hmmlearn", t_ref, ref)):
+            print(
+                f"EM {name:10s} best {min(t):7.3f} s  median {np.median(t):7.3f} s  "
+                f"loglik {r[0]:.6f}"
+            )
+        print(
+            f"EM ratio faciesseq / hmmlearn: best {min(t_ours) / min(t_ref):.3f}, "
+            f"median {np.median(t_ours) / np.median(t_ref):.3f}"
+        )
+        c_ours, c_ref = CPU_TIMES
+        print(
+            f"EM CPU seconds: faciesseq best {min(c_ours):.3f}, hmmlearn best {min(c_ref):.3f}, "
+            f"ratio {min(c_ours) / min(c_ref):.3f}"
+        )
+        print(f"EM |loglik difference| {ll_diff:.3e}; max |parameter difference| {par_diff:.3e}")
+        if not (ll_diff <= 1e-6 * abs(ref[0]) and par_diff < 1e-8):
+            raise SystemExit("EM results differ from hmmlearn")
+
+        (v_ours, v_ref), (vo, vr) = interleaved_times(
+            [lambda: viterbi_ours(*data), lambda: viterbi_hmmlearn(*data)], args.repeats
+        )
+        # Paths may differ where two paths have exactly the same probability
+        # (then both are most likely); check that hmmlearn's path scores the same.
+        differ = int(np.count_nonzero(vo[1] != vr[1]))
+        ref_score = path_log_prob(vr[1], *data)
+        ours_score = path_log_prob(vo[1], *data)
+        tie_diff = float(np.abs(ref_score - ours_score).max())
+        print(
+            f"Viterbi faciesseq best {min(v_ours):.3f} s, hmmlearn best {min(v_ref):.3f} s, "
+            f"ratio {min(v_ours) / min(v_ref):.3f}; rows where the paths differ: {differ} "
+            f"(max |log-probability difference| per sequence {tie_diff:.3e}); "
+            f"|total log_prob difference| {abs(vo[0] - vr[0]):.3e}"
+        )
+        if tie_diff > 1e-8 or abs(vo[0] - vr[0]) > 1e-6:
+            raise SystemExit("Viterbi results differ from hmmlearn")
 
     if args.skip_memory:
         return

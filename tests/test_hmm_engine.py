@@ -232,6 +232,10 @@ def test_batch_size_does_not_change_results(case):
     path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
     for batch in (1, 50, 10_000):
         post = forward_backward(le, lengths, startprob, transmat, return_xi=True, batch_size=batch)
+        lean = forward_backward(le, lengths, startprob, transmat, batch_size=batch)
+        # xi_sum without per-boundary xi is accumulated by another code path
+        np.testing.assert_allclose(lean.xi_sum, ref.xi_sum, rtol=1e-12)
+        np.testing.assert_allclose(lean.gamma, ref.gamma, atol=1e-12)
         np.testing.assert_allclose(post.log_likelihood, ref.log_likelihood, rtol=1e-12)
         np.testing.assert_allclose(post.gamma, ref.gamma, atol=1e-12)
         np.testing.assert_allclose(post.xi, ref.xi, atol=1e-12)
@@ -393,3 +397,17 @@ def test_row_shift_changes_only_the_log_likelihood(case):
     path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
     np.testing.assert_array_equal(path, path_ref)
     np.testing.assert_allclose(lp, lp_ref + per_seq, rtol=1e-12)
+
+
+def test_posteriors_tables():
+    pi, A = np.array([0.5, 0.5]), np.array([[0.9, 0.1], [0.2, 0.8]])
+    le = np.log(np.array([[0.9, 0.1], [0.5, 0.5], [0.2, 0.8]]))
+    post = forward_backward(le, [2, 1], pi, A)
+    table = post.to_frame([2, 1])
+    assert table["sequence"].tolist() == [0, 0, 1]
+    assert table["row"].tolist() == [0, 1, 0]
+    np.testing.assert_array_equal(table[["p_0", "p_1"]].to_numpy(), post.gamma)
+    d = post.to_dict()
+    assert d["log_likelihood"] == post.log_likelihood.tolist()
+    assert d["total_log_likelihood"] == pytest.approx(post.log_likelihood.sum())
+    assert np.array(d["xi_sum"]).shape == (2, 2)
