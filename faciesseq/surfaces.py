@@ -23,7 +23,9 @@ __all__ = [
     "SurfacePicks",
     "boundary_probabilities",
     "pick_surfaces",
+    "picks_frame",
     "surface_codes",
+    "surface_curves",
     "surface_names",
 ]
 
@@ -198,3 +200,23 @@ def picks_frame(
             )
     columns = ["surface", "name", "depth", "probability", "depth_top", "depth_base", "segment"]
     return pd.DataFrame(rows, columns=columns)
+
+
+def surface_curves(interpretation, step: float) -> pd.DataFrame:
+    """Per-depth probability curves of every core on a regular grid, for plotting.
+
+    One table for an :class:`~faciesseq.interpretation.Interpretation`: a
+    ``core`` column and the columns of
+    :meth:`~faciesseq.interpretation.CoreInterpretation.curves` (``depth``,
+    ``p_<TRACT>``: the posterior of the bed at that depth; ``p_<SURFACE>``: the
+    probability that the surface lies within the cell of height ``step``).
+    """
+    if not step > 0:
+        from faciesseq.errors import ConfigError
+
+        raise ConfigError(f"curve step must be positive, got {step!r}")
+    frames = [core.curves(step).assign(core=core.core) for core in interpretation]
+    if not frames:
+        return pd.DataFrame(columns=["core", "depth"])
+    out = pd.concat(frames, ignore_index=True)
+    return out[["core", *[c for c in out.columns if c != "core"]]]

@@ -474,7 +474,7 @@ def cross_validate(
         {
             k: v
             for k, v in params.items()
-            if k in ("features", "substates", "prior_strength", "unit", "step")
+            if k in ("features", "substates", "prior_strength", "cycle_prior", "unit", "step")
         }
     )
     return ValidationResult(folds, units, fold_of, model_scores, base_scores, beds, settings)

@@ -42,7 +42,7 @@ def decoded():
 
 
 def test_decoded_tracts_recover_the_marine_and_nonmarine_half_cycles(decoded):
-    # measured 2026-12-01: 0.79 of the cored thickness (benchmarks/eval_recovery.py)
+    # measured 2026-12-01: 0.81 of the cored thickness (benchmarks/eval_recovery.py)
     marine = decoded["Formation"].astype(str).str.endswith("LM").to_numpy()
     decoded_marine = decoded["tract"].isin(["TST", "HST"]).to_numpy()
     w = decoded["thickness"].to_numpy(float)

@@ -1,6 +1,7 @@
 """Surface picks and boundary probabilities from two-slice posteriors."""
 
 import numpy as np
+import pytest
 
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import default_tract_model
@@ -50,3 +51,21 @@ def test_boundary_probabilities_sum_xi_over_the_tract_pairs_of_each_surface():
         + xi[:, labels.index("HST"), labels.index("LST")]
     )
     np.testing.assert_allclose(probs[:, codes.index("SB")], sb)
+
+
+def test_surface_curves_hold_each_contact_probability_once():
+    import hmm_synthetic as synth
+
+    from faciesseq.hmm.model import TractHMM
+    from faciesseq.surfaces import surface_curves
+
+    succ = synth.cores(3, 40, seed=91)
+    interp = TractHMM(scheme=synth.scheme(), n_restarts=1, random_state=0).fit(succ).decode(succ)
+    curves = surface_curves(interp, 0.1)
+    assert curves["core"].nunique() == 3
+    for core in interp:
+        part = curves[curves["core"] == core.core]
+        # a contact at the very base of the core falls outside every cell
+        inside = core.boundaries["depth"] < core.beds["base"].max()
+        expected = core.boundaries.loc[inside, "p_MFS"].sum()
+        assert np.nansum(part["p_MFS"]) == pytest.approx(expected, abs=1e-9)

@@ -42,6 +42,13 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         metavar="X",
         help="scale of the Dirichlet pseudo-counts from the facies ranks (0 = off; default 2)",
     )
+    group.add_argument(
+        "--cycle-prior",
+        type=float,
+        default=0.2,
+        metavar="X",
+        help="weight of transition pseudo-counts from the trend rule (0 = off; default 0.2)",
+    )
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts (3)")
     group.add_argument("--seed", type=int, default=0, metavar="S", help="random seed (0)")
     group.add_argument("--max-iter", type=int, default=200, metavar="N", help="EM iteration cap")

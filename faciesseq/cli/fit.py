@@ -92,6 +92,7 @@ def run(args: argparse.Namespace) -> int:
                 tract_model=tract_model,
                 scheme=scheme,
                 prior_strength=args.prior_strength,
+                cycle_prior=args.cycle_prior,
                 n_restarts=args.restarts,
                 tol=args.tol,
                 max_iter=args.max_iter,

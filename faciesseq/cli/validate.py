@@ -164,6 +164,7 @@ def run(args: argparse.Namespace) -> int:
                 features=feats[0],
                 substates=subs[0],
                 prior_strength=args.prior_strength,
+                cycle_prior=args.cycle_prior,
                 n_restarts=args.restarts,
                 tol=args.tol,
                 max_iter=args.max_iter,

@@ -142,34 +142,49 @@ def encode_beds(
         Numeric attributes to read (``"thickness"`` reads ``log(thickness)``).
     """
     lengths = np.array([len(t) for t in tables], dtype=np.int64)
-    if len(tables):
-        table = pd.concat([t.reset_index(drop=True) for t in tables], ignore_index=True)
-    else:
-        table = pd.DataFrame({"facies": []})
-    fac = _codes(table["facies"], facies)
+    # Chunks of whole tables keep the pandas temporaries small on big databases.
+    fac_parts, contact_parts = [], []
+    value_parts: dict[str, list[np.ndarray]] = {name: [] for name in numeric}
+    chunk: list[pd.DataFrame] = []
+    size = 0
+
+    def flush() -> None:
+        table = pd.concat(chunk, ignore_index=True)
+        fac_parts.append(_codes(table["facies"], facies))
+        if "contact" in table.columns:
+            contact_parts.append(_codes(table["contact"], contacts))
+        else:
+            contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
+        for name in numeric:
+            col = "thickness" if name == "thickness" else name
+            if col in table.columns:
+                x = pd.to_numeric(table[col], errors="coerce").to_numpy(dtype=float)
+                if name == "thickness":
+                    with np.errstate(divide="ignore", invalid="ignore"):
+                        x = np.where(x > 0, np.log(np.where(x > 0, x, 1.0)), np.nan)
+            else:
+                x = np.full(len(table), np.nan)
+            value_parts[name].append(x)
+        chunk.clear()
+
+    for t in tables:
+        chunk.append(t.reset_index(drop=True))
+        size += len(t)
+        if size >= 200_000:
+            flush()
+            size = 0
+    if chunk:
+        flush()
+    empty = np.zeros(0, dtype=np.int64)
+    fac = np.concatenate(fac_parts) if fac_parts else empty
+    contact = np.concatenate(contact_parts) if contact_parts else empty
+    values = {
+        name: np.concatenate(parts) if parts else np.zeros(0) for name, parts in value_parts.items()
+    }
     prev = np.r_[MISSING, fac[:-1]] if len(fac) else fac.copy()
     starts = np.r_[0, np.cumsum(lengths)[:-1]] if len(lengths) else lengths
     prev[starts[lengths > 0]] = MISSING
     prev = np.where(prev < 0, MISSING, prev)
-    if "contact" in table.columns:
-        contact = _codes(table["contact"], contacts)
-    else:
-        contact = np.full(len(table), MISSING, dtype=np.int64)
-    values: dict[str, np.ndarray] = {}
-    for name in numeric:
-        if name == "thickness":
-            col = table["thickness"] if "thickness" in table.columns else None
-            if col is None:
-                x = np.full(len(table), np.nan)
-            else:
-                x = pd.to_numeric(col, errors="coerce").to_numpy(dtype=float)
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    x = np.where(x > 0, np.log(np.where(x > 0, x, 1.0)), np.nan)
-        elif name in table.columns:
-            x = pd.to_numeric(table[name], errors="coerce").to_numpy(dtype=float)
-        else:
-            x = np.full(len(table), np.nan)
-        values[name] = x
     return EncodedBeds(lengths, fac, prev, contact, values)
 
 

@@ -188,7 +188,13 @@ class TractHMM:
     prior_strength
         Scale of the Dirichlet pseudo-counts (trend cells favoured by a
         tract's trend get this many pseudo-beds; every other cell a tenth of
-        it). 0 turns priors off (maximum likelihood).
+        it). 0 turns every prior off, ``cycle_prior`` included (maximum
+        likelihood).
+    cycle_prior
+        Weight of transition pseudo-counts taken from the trend rule's tract
+        column (a fraction of its counts; needs a scheme): keeps EM from
+        turning tracts into absorbing "kinds of core" instead of phases of a
+        cycle. 0 turns it off.
     n_restarts
         EM runs from perturbed starts; the best final objective wins.
     tol, max_iter
@@ -231,6 +237,7 @@ class TractHMM:
         features: Sequence[str] | None = None,
         substates: int | Mapping[str, int] | None = None,
         prior_strength: float = 2.0,
+        cycle_prior: float = 0.2,
         n_restarts: int = 3,
         tol: float = 1e-3,
         max_iter: int = 200,
@@ -245,6 +252,7 @@ class TractHMM:
         self.features = features
         self.substates = substates
         self.prior_strength = prior_strength
+        self.cycle_prior = cycle_prior
         self.n_restarts = n_restarts
         self.tol = tol
         self.max_iter = max_iter
@@ -264,6 +272,8 @@ class TractHMM:
             raise ConfigError(f"unit must be 'beds' or 'grid', got {self.unit!r}")
         if not self.prior_strength >= 0:
             raise ConfigError(f"prior_strength must be >= 0, got {self.prior_strength!r}")
+        if not self.cycle_prior >= 0:
+            raise ConfigError(f"cycle_prior must be >= 0, got {self.cycle_prior!r}")
         if int(self.n_restarts) < 1:
             raise ConfigError(f"n_restarts must be >= 1, got {self.n_restarts!r}")
         if int(self.max_iter) < 1:
@@ -462,7 +472,51 @@ class TractHMM:
     def _pseudo(self) -> tuple[np.ndarray, np.ndarray]:
         base = 0.1 * float(self.prior_strength)
         allowed = self.states_.allowed
-        return np.full(self.states_.n_states, base), np.where(allowed, base, 0.0)
+        trans = np.where(allowed, base, 0.0)
+        cycle = getattr(self, "_cycle_pseudo", None)
+        if cycle is not None:
+            trans = trans + cycle
+        return np.full(self.states_.n_states, base), trans
+
+    def _cycle_counts(
+        self, rule: np.ndarray, lengths: np.ndarray, free: np.ndarray | None = None
+    ) -> np.ndarray:
+        """Transition pseudo-counts from the trend rule's tract column, on the states.
+
+        ``cycle_prior`` times the rule's tract-to-tract counts between
+        unlabelled beds (``free``; labelled beds speak for themselves): a tract's stays
+        are shared between each sub-state's self-transition and its step along
+        the chain, its exits go from every sub-state to the next tract's first
+        sub-state; cells the tract graph forbids get nothing.
+        """
+        S = self.states_.n_tracts
+        counts = np.zeros((S, S))
+        start = 0
+        for n in lengths:
+            r = rule[start : start + n]
+            keep = (
+                np.ones(max(n - 1, 0), dtype=bool)
+                if free is None
+                else free[start : start + n - 1] & free[start + 1 : start + n]
+            )
+            np.add.at(counts, (r[:-1][keep], r[1:][keep]), 1.0)
+            start += n
+        K = self.states_.n_states
+        out = np.zeros((K, K))
+        first = self.states_.first
+        for a in range(S):
+            members = np.nonzero(self.states_.state_tract == a)[0]
+            m = len(members)
+            for k, i in enumerate(members):
+                if k + 1 < m:
+                    out[i, i] += counts[a, a] / (2 * m)
+                    out[i, members[k + 1]] += counts[a, a] / (2 * m)
+                else:
+                    out[i, i] += counts[a, a] / m
+                for b in range(S):
+                    if b != a:
+                        out[i, first[b]] += counts[a, b] / m
+        return float(self.cycle_prior) * np.where(self.states_.allowed, out, 0.0)
 
     def _m_step(self, pieces, stats, trans, start):
         start_pseudo, trans_pseudo = self._pseudo()
@@ -489,20 +543,23 @@ class TractHMM:
     def _initial(self, data: _Data, rng: np.random.Generator, restart: int):
         """Parameters from rule-based starting weights, perturbed per restart."""
         S = self.states_.n_tracts
-        T = len(data.beds)
-        weights = np.full((T, S), 1.0 / S)
-        if self.ranks_ is not None:
-            weights = 0.2 / S + 0.8 * np.eye(S)[data.rule]
-        if restart > 0:
-            noise = rng.dirichlet(np.ones(S), size=T)
-            weights = 0.5 * weights + 0.5 * noise
-        if data.clamp is not None:
-            labelled = ~data.clamp.all(axis=1)
-            weights[labelled] = data.clamp[labelled].astype(float)
         pieces = self._new_pieces(data.beds)
         stats = [p.empty_stats(S) for p in pieces]
-        for p, st in zip(pieces, stats):
-            p.accumulate(st, data.beds, weights)
+        for a, b, lengths, _ in self._batches(data.beds.lengths):
+            T = b - a
+            weights = np.full((T, S), 1.0 / S)
+            if self.ranks_ is not None:
+                weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
+            if restart > 0:
+                noise = rng.dirichlet(np.ones(S), size=T)
+                weights = 0.5 * weights + 0.5 * noise
+            if data.clamp is not None:
+                clamp = data.clamp[a:b]
+                labelled = ~clamp.all(axis=1)
+                weights[labelled] = clamp[labelled].astype(float)
+            part = data.beds.slice(a, b, lengths)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
         K = self.states_.n_states
         allowed = self.states_.allowed
         stay = np.where(np.eye(K, dtype=bool), 8.0, 1.0)
@@ -577,6 +634,12 @@ class TractHMM:
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
         rule = trend_rule(ranks, beds.lengths, self.tract_model_)
+        free = None if clamp is None else clamp.all(axis=1)
+        self._cycle_pseudo = (
+            self._cycle_counts(rule, beds.lengths, free)
+            if self.cycle_prior and self.prior_strength and self.ranks_ is not None
+            else None
+        )
         data = _Data(beds, clamp, ranks, rule, tuple(s.core for s in succ))
         rng = (
             self.random_state

@@ -10,8 +10,8 @@ and loading one runs no code. Layout (``version: 1``)::
       "created": "2026-12-01T19:30:00+00:00",
       "scheme": {...} | null,            # the facies scheme (scheme YAML as JSON)
       "tract_model": {...},              # tracts, order, skips, surfaces, substates
-      "hyperparameters": {features, substates, prior_strength, n_restarts, tol,
-                          max_iter, unit, step},
+      "hyperparameters": {features, substates, prior_strength, cycle_prior,
+                          n_restarts, tol, max_iter, unit, step},
       "states": {"labels": [...], "tract": [...], "substates": [...]},
       "facies": [...], "ranks": [...] | null, "contacts": [...],
       "parameters": {"startprob": [...], "transmat": [[...]...],
@@ -116,6 +116,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "features": list(model.features_),
                 "substates": list(states.substates),
                 "prior_strength": model.prior_strength,
+                "cycle_prior": model.cycle_prior,
                 "n_restarts": model.n_restarts,
                 "tol": model.tol,
                 "max_iter": model.max_iter,
@@ -227,6 +228,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             features=features,
             substates=substates,
             prior_strength=float(hyper["prior_strength"]),
+            cycle_prior=float(hyper.get("cycle_prior", 0.0)),
             n_restarts=int(hyper["n_restarts"]),
             tol=float(hyper["tol"]),
             max_iter=int(hyper["max_iter"]),
