@@ -53,6 +53,26 @@ def open_page(html: Path, screenshot: Path, size: str = "1200,2000") -> tuple[st
     return dom.stdout, dom.stderr + shot.stderr
 
 
+def print_pdf(html: Path, pdf: Path) -> bytes:
+    """Print the page to PDF as a reader would ("print to PDF"); the PDF's bytes."""
+    with tempfile.TemporaryDirectory() as profile:
+        subprocess.run(
+            [
+                CHROMIUM,
+                *FLAGS,
+                f"--user-data-dir={profile}",
+                "--no-pdf-header-footer",
+                f"--print-to-pdf={pdf}",
+                html.resolve().as_uri(),
+            ],
+            capture_output=True,
+            text=True,
+            timeout=120,
+            check=True,
+        )
+    return pdf.read_bytes()
+
+
 def page_errors(log: str) -> list[str]:
     """Log lines that mean the page itself failed (script errors, resources not loaded)."""
     bad = ("Uncaught", "Failed to load resource", "ERR_", "Refused to", "Not allowed to load")

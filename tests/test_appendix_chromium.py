@@ -3,8 +3,10 @@
 Skipped, with a message, where Chromium is not installed; .ci/run installs it.
 """
 
+import re
+
 import pytest
-from _chromium import CHROMIUM, open_page, page_errors
+from _chromium import CHROMIUM, open_page, page_errors, print_pdf
 from _synthetic import synthetic_coreset, synthetic_interpretation
 from PIL import Image
 
@@ -41,3 +43,12 @@ def test_appendix_opens_in_chromium_without_errors(tmp_path):
         assert img.size == (1200, 2000)
         colours = img.convert("L").getextrema()
     assert colours[0] < 60 < 200 < colours[1]  # text on a light page, not a blank image
+    # printable: the print style sheet gives A4 pages, each section starting a page
+    pdf = print_pdf(out / "appendix.html", tmp_path / "appendix.pdf")
+    assert pdf[:4] == b"%PDF"
+    pages = len(re.findall(rb"/Type\s*/Page[^s]", pdf))
+    assert pages >= 6  # title and contents, then five sections
+    boxes = re.findall(rb"/MediaBox \[0 0 ([\d.]+) ([\d.]+)\]", pdf)
+    assert len(boxes) == pages
+    # A4 is 595 x 842 points (ISO 216)
+    assert all(abs(float(w) - 595) < 1 and abs(float(h) - 842) < 1 for w, h in boxes)
