@@ -184,7 +184,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
             TableBlock(
                 "markov_homogeneity",
                 f"Transitions per {h.by} in the homogeneity test.",
-                h.to_frame().set_index("group"),
+                h.to_frame().set_index("group").rename(columns={"n_transitions": "transitions"}),
             ),
         )
     else:
