@@ -38,7 +38,10 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         "and the appendix says so",
     )
     group.add_argument(
-        "--tract-model", metavar="FILE", help="tract model YAML (default: the packaged one)"
+        "--tracts",
+        dest="tract_model",
+        metavar="FILE",
+        help="tract model YAML (default: the packaged four-tract model)",
     )
     group.add_argument(
         "--labels",
@@ -103,12 +106,17 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     from faciesseq.report.provenance import provenance
     from faciesseq.scheme import default_tract_model, load_tract_model
 
-    tract_model = load_tract_model(args.tract_model) if args.tract_model else default_tract_model()
     model = None
     if args.model:
         from faciesseq.hmm.modelfile import load_model
 
         model = load_model(args.model)
+    if args.tract_model:
+        tract_model = load_tract_model(args.tract_model)
+    elif model is not None:
+        tract_model = model.tract_model_  # the tract model the file was fitted with
+    else:
+        tract_model = default_tract_model()
     prov = provenance(
         sources=[args.source],
         scheme=args.scheme or getattr(scheme, "source", None),
