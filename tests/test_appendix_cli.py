@@ -169,3 +169,27 @@ def test_demo_end_to_end(tmp_path, capsys):
         dom, log = open_page(out / "appendix.html", tmp_path / "demo.png", size="1200,3000")
         assert page_errors(log) == []
         assert dom.count("<img") == len(data["figures"])
+
+
+def test_appendix_with_a_model_file_uses_it_and_hashes_it(tmp_path, capsys, small_source):
+    from faciesseq.hmm.model import TractHMM
+    from faciesseq.hmm.modelfile import save_model
+    from faciesseq.io import read_cores
+    from faciesseq.scheme import load_scheme
+
+    scheme = load_scheme(SCHEME)
+    cores = read_cores(small_source, scheme=scheme)
+    model = TractHMM(scheme=scheme, n_restarts=1, random_state=3).fit(cores)
+    path = save_model(model, tmp_path / "model.json")
+    out = tmp_path / "app"
+    argv = ["appendix", str(small_source), "--model", str(path), "-o", str(out)]
+    code, _, err = _run(capsys, [*argv, "--surrogates", "0", "--labels", "none", "--no-latex"])
+    assert code == 0, err
+    html = (out / "appendix.html").read_text(encoding="utf-8")
+    assert f"Model read from {path}." in html
+    assert "no interpreted tracts in a column &#x27;none&#x27;" in html
+    data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))
+    assert data["results"]["model"]["parameters"]["transmat"] == model.transmat_.tolist()
+    prov = json.loads((out / "provenance.json").read_text(encoding="utf-8"))
+    record = next(r for r in prov["inputs"] if r["role"] == "model")
+    assert record["sha256"] == sha256_file(path)
