@@ -44,6 +44,18 @@ def _readable_units(units: str) -> dict[str, str]:
     }
 
 
+def _tract_colours(tracts) -> dict[str, str]:
+    from faciesseq.report.style import tract_colour
+
+    return {t: tract_colour(t, tracts) for t in tracts}
+
+
+def _facies_colours(scheme, codes) -> dict[str, str]:
+    if scheme is None:
+        return {}
+    return {c: scheme.colour(c) for c in codes if c in scheme}
+
+
 def _stationary(transmat: np.ndarray) -> np.ndarray:
     """Stationary distribution of a row-stochastic matrix (uniform if it is not unique)."""
     values, vectors = np.linalg.eig(transmat.T)
@@ -111,7 +123,12 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     key,
                     f"Emission probabilities of {what} per state ({name} piece).",
                     figures.heatmap(
-                        table, value_label="probability", row_title="state", column_title=what
+                        table,
+                        value_label="probability",
+                        row_title="state",
+                        column_title=what,
+                        label_colours=_tract_colours(model.states_.tracts)
+                        | _facies_colours(scheme, piece.categories),
                     ),
                 ),
             )
@@ -128,7 +145,12 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     key + "_first",
                     "Facies probabilities of a succession's lowest bed, per state.",
                     figures.heatmap(
-                        first, value_label="probability", row_title="state", column_title="facies"
+                        first,
+                        value_label="probability",
+                        row_title="state",
+                        column_title="facies",
+                        label_colours=_tract_colours(model.states_.tracts)
+                        | _facies_colours(scheme, piece.categories),
                     ),
                 ),
             )
@@ -327,7 +349,11 @@ def model_section(
             "model_transitions",
             "Transition probabilities between hidden states (row: lower bed's state).",
             figures.heatmap(
-                A, value_label="probability", row_title="state below", column_title="state above"
+                A,
+                value_label="probability",
+                row_title="state below",
+                column_title="state above",
+                label_colours=_tract_colours(states.tracts),
             ),
         ),
         TableBlock(
@@ -441,6 +467,7 @@ def model_section(
                 "Confusion matrix of the tract model (beds).",
                 figures.heatmap(
                     frames["confusion_model"].astype(float),
+                    label_colours=_tract_colours(validation.model.confusion.columns),
                     value_label="beds",
                     fmt="{:.0f}",
                     row_title="interpreted tract",
