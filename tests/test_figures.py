@@ -99,3 +99,16 @@ def test_bar_chart_has_one_bar_per_cell(scheme):
     fig = figures.bar_chart(table, colours={"CP": scheme.colour("CP")})
     assert len(fig.axes[0].patches) == 4
     assert [t.get_text() for t in _legends(fig)[0].get_texts()] == ["beds", "thickness"]
+
+
+def test_heatmap_labels_take_the_tract_palette():
+    from matplotlib.colors import to_rgba
+
+    from faciesseq.report.style import TRACT_COLOURS
+
+    table = pd.DataFrame(np.eye(2), index=["TST", "HST"], columns=["TST", "HST"])
+    fig = figures.heatmap(table, label_colours=TRACT_COLOURS)
+    fig.canvas.draw()
+    ticks = fig.axes[0].get_yticklabels()
+    faces = [t.get_bbox_patch().get_facecolor() for t in ticks]
+    assert faces == [to_rgba(TRACT_COLOURS["TST"]), to_rgba(TRACT_COLOURS["HST"])]
