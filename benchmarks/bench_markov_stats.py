@@ -68,6 +68,9 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--cores", type=int, default=1000)
     ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument(
+        "--surrogates", type=int, default=0, help="also time the Monte Carlo tests (one run)"
+    )
     args = ap.parse_args()
     successions, codes = database(args.cores)
     n_beds = sum(len(s) for s in successions)
@@ -98,6 +101,11 @@ def main() -> None:
     print(f"baseline, Python Counter of pairs and triples only: {tb:.3f} s")
     print(f"same counts, encode + ngram_counts: {tc:.3f} s")
     print(f"ratio baseline / analyse: {tb / ta:.2f}; counting alone: {tb / tc:.1f}")
+    if args.surrogates:
+        t = time.perf_counter()
+        analyse(successions, codes, max_order=2, surrogates=args.surrogates, seed=1)
+        took = time.perf_counter() - t
+        print(f"analyse with {args.surrogates} surrogates (max_order 2): {took:.1f} s")
 
 
 if __name__ == "__main__":

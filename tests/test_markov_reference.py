@@ -185,3 +185,16 @@ def test_ipf_reaches_tolerance_and_matches_closed_form_without_structural_zeros(
     e, it, ok = fit_quasi_independence(table, np.zeros((4, 4), dtype=bool))
     assert ok and it <= 3
     np.testing.assert_allclose(e, np.outer(table.sum(1), table.sum(0)) / table.sum(), rtol=1e-12)
+
+
+def test_bad_requests_are_refused_with_a_clear_error():
+    from faciesseq.errors import ConfigError, InputError
+
+    x = np.arange(40) % 9
+    with pytest.raises(ConfigError, match="lower order"):
+        analyse([x], max_order=8)
+    # an embedded chain cannot repeat a facies from one bed to the next
+    with pytest.raises(InputError, match="amalgamated"):
+        analyse([np.array([0, 0, 1, 2])], unit="beds")
+    with pytest.raises(InputError, match=r"facies \['X'\]"):
+        analyse([np.array(["A", "X", "A"])], ["A", "B"])

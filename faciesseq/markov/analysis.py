@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -130,7 +130,6 @@ class MarkovReport:
     alpha: float = 0.05
     max_order: int = 3
     by: str | None = None
-    extra: dict = field(default_factory=dict)
 
     @property
     def embedded(self) -> bool:
@@ -424,6 +423,11 @@ def analyse(
     if codes is None:
         codes = list(scheme.codes_by_rank) if scheme is not None else None
     enc = encode(successions, codes)
+    if enc.m ** (max_order + 1) > 20_000_000:
+        raise ConfigError(
+            f"--max-order {max_order} with {enc.m} facies needs {enc.m}^{max_order + 1} "
+            "cells per table; choose a lower order"
+        )
     embedded = unit == "beds"
     counts = transition_counts(enc)
     n_trans = int(counts.sum())

@@ -42,6 +42,7 @@ __all__ = [
     "fit_independence",
     "fit_quasi_independence",
     "independence_test",
+    "pearson_batch",
 ]
 
 

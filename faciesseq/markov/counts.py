@@ -27,6 +27,7 @@ __all__ = [
     "batch_ngram_counts",
     "encode",
     "fixed_vector",
+    "labelled",
     "n_step",
     "ngram_counts",
     "transition_counts",

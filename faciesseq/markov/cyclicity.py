@@ -31,7 +31,7 @@ import numpy as np
 
 from faciesseq.markov.counts import transition_probabilities
 
-__all__ = ["CyclicityResult", "entropies", "preferred_path"]
+__all__ = ["CyclicityResult", "cyclicity", "entropies", "preferred_path"]
 
 
 @dataclass(frozen=True)

@@ -109,45 +109,51 @@ def _last_exit_trees(gr: _Graphs, batch: int, rng: np.random.Generator) -> np.nd
     of a facies = its multiplicity / degree); every cycle is "popped" (its
     vertices choose again) until none is left. The result is a spanning
     arborescence towards the root with probability proportional to the product
-    of the multiplicities of its edges (Propp & Wilson 1998, sec. 6).
+    of the multiplicities of its edges (Propp & Wilson 1998, sec. 6). Each
+    (surrogate, succession) pair is its own small problem of at most ``m``
+    vertices; only the problems that still hold a cycle are worked on.
     Returns ``(batch, len(tree_vertices))`` facies.
     """
     tv = gr.tree_vertices
     if len(tv) == 0:
         return np.zeros((batch, 0), dtype=np.int64)
     m = gr.m
-    n_vert = gr.n_succ * m
-    deg = gr.degree[tv]
-    off = gr.offset[tv]
-    # local index of each tree vertex, -1 for vertices outside the tree set
-    local = np.full(n_vert, -1, dtype=np.int64)
-    local[tv] = np.arange(len(tv))
-    succ_base = (tv // m) * m
+    is_tree = np.zeros((gr.n_succ, m), dtype=bool)
+    is_tree.reshape(-1)[tv] = True
+    needing = np.nonzero(is_tree.any(axis=1))[0]
+    n_need = len(needing)
+    prob_succ = np.tile(needing, batch)
+    tmask = is_tree[prob_succ]
 
-    def draw(rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
-        u = rng.random(len(rows))
-        pick = off[cols] + np.minimum((u * deg[cols]).astype(np.int64), deg[cols] - 1)
+    def draw(vertex: np.ndarray) -> np.ndarray:
+        deg = gr.degree[vertex]
+        u = rng.random(len(vertex))
+        pick = gr.offset[vertex] + np.minimum((u * deg).astype(np.int64), deg - 1)
         return gr.exits[pick]
 
-    choice = np.empty((batch, len(tv)), dtype=np.int64)
-    rr, cc = np.meshgrid(np.arange(batch), np.arange(len(tv)), indexing="ij")
-    choice[:, :] = draw(rr.ravel(), cc.ravel()).reshape(batch, len(tv))
-    max_cycle = min(m, len(tv))
-    while True:
-        # successor as a tree-vertex index; -1 = reached the root (or outside)
-        nxt = local[succ_base[None, :] + choice]
-        on_cycle = np.zeros_like(nxt, dtype=bool)
-        cur = nxt.copy()
-        here = np.broadcast_to(np.arange(len(tv)), nxt.shape)
-        rows = np.arange(batch)[:, None]
-        for _ in range(max_cycle):
+    choice = np.full(tmask.shape, -1, dtype=np.int64)
+    r, v = np.nonzero(tmask)
+    choice[r, v] = draw(prob_succ[r] * m + v)
+    here = np.arange(m)[None, :]
+    active = np.arange(len(prob_succ))
+    while len(active):
+        ch = choice[active]
+        tm = tmask[active]
+        points_to_tree = np.take_along_axis(tm, np.maximum(ch, 0), axis=1) & (ch >= 0)
+        nxt = np.where(points_to_tree, ch, -1)  # -1: the root, which ends the walk
+        on_cycle = np.zeros(tm.shape, dtype=bool)
+        cur = nxt
+        for _ in range(m):
             on_cycle |= cur == here
-            valid = cur >= 0
-            cur = np.where(valid, nxt[rows, np.where(valid, cur, 0)], -1)
-        if not on_cycle.any():
-            return choice
-        r, c = np.nonzero(on_cycle)
-        choice[r, c] = draw(r, c)
+            cur = np.where(cur >= 0, np.take_along_axis(nxt, np.maximum(cur, 0), axis=1), -1)
+        on_cycle &= tm
+        r, v = np.nonzero(on_cycle)
+        rows = active[r]
+        choice[rows, v] = draw(prob_succ[rows] * m + v)
+        active = active[on_cycle.any(axis=1)]
+    pos = np.searchsorted(needing, tv // m)
+    row = np.arange(batch)[:, None] * n_need + pos[None, :]
+    return choice[row, (tv % m)[None, :]]
 
 
 def _shuffle_segments(
@@ -350,12 +356,14 @@ def swap_chain(
     Each sweep is four *block* steps (many disjoint, non-adjacent pairs of beds
     at once, see :func:`_block_pairs`; each pair accepted on its own, which
     keeps the kernel symmetric because the pairs' neighbourhoods do not
-    overlap) and up to 16 steps swapping one random pair of beds per succession
-    (about half the typical succession length, so short successions are swept
-    too). Proposals never depend on the beds and a swap is kept only when no
+    overlap) and up to 8 steps swapping one random pair of beds per succession
+    (half the typical succession length, so short successions are
+    swept too). Proposals never depend on the beds and a swap is kept only when no
     facies then lies on itself, so the kernel is symmetric and the uniform law
     on the allowed orderings is stationary.
     """
+    if not x.flags.c_contiguous:
+        raise ValueError("swap_chain works in place on a C-contiguous batch")
     lengths = enc.lengths
     starts = enc.starts[:-1]
     n_states = len(enc.states)
@@ -367,7 +375,7 @@ def swap_chain(
     last_of = first_of + lengths[owner] - 1
     typical = float(np.median(lengths[movable]))
     max_blocks = max(1, int(np.ceil(typical / 8)))
-    n_single = max(1, min(16, int(np.ceil(typical / 2))))
+    n_single = max(2, min(8, int(np.ceil(typical / 2))))
 
     def block_step() -> None:
         o = int(rng.integers(8))
@@ -386,29 +394,30 @@ def swap_chain(
         x[:, i] = np.where(ok, xj, xi)
         x[:, j] = np.where(ok, xi, xj)
 
-    rows = np.arange(x.shape[0])[:, None]
     base = starts[movable][None, :]
     length = lengths[movable][None, :]
     last = base + length - 1
 
+    flat = x.reshape(-1)
+    row_off = (np.arange(x.shape[0], dtype=np.int64) * n_states)[:, None]
+
     def single_step() -> None:
-        i = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
-        j = base + (rng.random((x.shape[0], len(movable))) * length).astype(np.int64)
-        xi, xj = x[rows, i], x[rows, j]
+        shape = (x.shape[0], len(movable))
+        i = base + (rng.random(shape) * length).astype(np.int64)
+        j = base + (rng.random(shape) * length).astype(np.int64)
+        fi, fj = row_off + i, row_off + j
+        xi, xj = flat[fi], flat[fj]
+        up_i, down_i = flat[np.maximum(fi - 1, 0)], flat[np.minimum(fi + 1, flat.size - 1)]
+        up_j, down_j = flat[np.maximum(fj - 1, 0)], flat[np.minimum(fj + 1, flat.size - 1)]
+        # i and j side by side: the shared neighbour is the other bed of the pair
+        j_above, j_below = j == i + 1, j == i - 1
         ok = xi != xj
-
-        def value(p):
-            v = x[rows, np.clip(p, 0, n_states - 1)]
-            return np.where(p == i, xj, np.where(p == j, xi, v))
-
-        for p in (i, j):
-            vp = value(p)
-            ok &= (p - 1 < base) | (value(p - 1) != vp)
-            ok &= (p + 1 > last) | (value(p + 1) != vp)
-        r, c = np.nonzero(ok)
-        ii, jj = i[r, c], j[r, c]
-        a, bb = x[r, ii].copy(), x[r, jj].copy()
-        x[r, ii], x[r, jj] = bb, a
+        ok &= j_below | (i - 1 < base) | (up_i != xj)
+        ok &= j_above | (i + 1 > last) | (down_i != xj)
+        ok &= j_above | (j - 1 < base) | (up_j != xi)
+        ok &= j_below | (j + 1 > last) | (down_j != xi)
+        flat[fi[ok]] = xj[ok]
+        flat[fj[ok]] = xi[ok]
 
     for _ in range(sweeps):
         for _ in range(4):
@@ -438,7 +447,7 @@ def restricted_permutations(
     n_states = len(enc.states)
     hub = enc.states[None, :].copy()
     swap_chain(enc, hub, sweeps, rng)
-    for batch in _batches(n_surrogates, n_states * 4):
+    for batch in _batches(n_surrogates, n_states * 2):
         x = np.broadcast_to(hub, (batch, n_states)).copy()
         swap_chain(enc, x, sweeps, rng)
         yield x
