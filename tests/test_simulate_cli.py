@@ -101,6 +101,7 @@ def test_simulate_writes_tables_and_figures(tmp_path, capsys):
         "summary.json",
         "section-dip.png",
         "base-level-dip.png",
+        "cores-dip.png",
         "scenario.yaml",
     } <= names
     assert (out / "section-dip.png").read_bytes()[:4] == b"\x89PNG"

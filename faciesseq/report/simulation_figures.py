@@ -12,7 +12,7 @@ import numpy as np
 #: The project's own tract colours (upward cycle HST -> FSST -> LST -> TST).
 TRACT_COLOURS = {"HST": "#e9c46a", "FSST": "#e76f51", "LST": "#8ab17d", "TST": "#5fa8d3"}
 
-__all__ = ["TRACT_COLOURS", "base_level_figure", "section_figure"]
+__all__ = ["TRACT_COLOURS", "base_level_figure", "cores_figure", "section_figure"]
 
 
 def _tract_spans(time: np.ndarray, tract: np.ndarray) -> list[tuple[float, float, str]]:
@@ -45,22 +45,25 @@ def section_figure(history, scenario, wells=(), timeline_kyr: float = 10.0):
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
-    from faciesseq.simulate.wells import facies_of_depth
-
     scheme = scenario.scheme
     codes = [c for c in scheme.codes_by_rank if any(c == b[0] for b in scenario.depth_bands)]
     index = {c: i for i, c in enumerate(codes)}
     x = history.x_km
     n = history.n_steps
     elevation = history.final_elevation()
-    facies_idx = np.empty((n, len(x) - 1), dtype=float)
-    lookup = np.vectorize(index.__getitem__, otypes=[float])
-    for k in range(1, n + 1):
-        # facies at the middle of each quad, so thin wedges do not alias
-        depth = history.water_depth(k)
-        facies_idx[k - 1] = lookup(
-            facies_of_depth(0.5 * (depth[1:] + depth[:-1]), scenario.depth_bands)
-        )
+    # water depth of every step and cell, at the middle of each quad (so thin wedges
+    # do not alias), mapped to the facies bands and then to the colour index
+    time = history.time_kyr[1:, None]
+    depth = history.base_level_m[1:, None] - (
+        history.initial_surface_m[None, :]
+        - history.subsidence_m_per_kyr[None, :] * time
+        + history.sediment_m[1:]
+    )
+    middle = 0.5 * (depth[:, 1:] + depth[:, :-1])
+    limits = np.array([b[1] for b in scenario.depth_bands], dtype=float)
+    band = np.minimum(np.searchsorted(limits, middle, side="left"), len(limits) - 1)
+    colour_of_band = np.array([index[b[0]] for b in scenario.depth_bands], dtype=float)
+    facies_idx = colour_of_band[band]
     thick = np.diff(elevation, axis=0)[:, :-1]
     facies_idx = np.ma.masked_where(thick <= 1e-6, facies_idx)
 
@@ -183,4 +186,120 @@ def base_level_figure(history, scenario):
     ax3.set_ylabel("shoreline (km along dip)")
     ax3.invert_yaxis()
     ax3.set_xlabel("time (kyr)")
+    return fig
+
+
+#: Line styles of the surfaces on the core figure.
+_SURFACE_STYLE = {"BSFR": ":", "SB": "-", "MRS": "--", "MFS": "-.", "LHB": ":"}
+
+
+def _boxes(left: np.ndarray, right: np.ndarray, top: np.ndarray, base: np.ndarray) -> np.ndarray:
+    """Corner coordinates of rectangles, shape ``(n, 4, 2)``."""
+    return np.stack(
+        [
+            np.stack([left, top], axis=1),
+            np.stack([right, top], axis=1),
+            np.stack([right, base], axis=1),
+            np.stack([left, base], axis=1),
+        ],
+        axis=1,
+    )
+
+
+def cores_figure(result, section: str, max_cores: int = 14):
+    """Described cores of one section side by side, with the true tracts and surfaces.
+
+    Each core is drawn as a log: bar width from the grain size of the logged
+    facies, colour from the scheme; beside it a strip of the true tract; the
+    true surfaces as lines across the log. Depth downward, shared scale.
+
+    Parameters
+    ----------
+    result
+        A :class:`faciesseq.simulate.SimulationResult`.
+    section
+        Section name; its wells are drawn in order along dip.
+    max_cores
+        At most this many cores (spread evenly along the section).
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.collections import PolyCollection
+    from matplotlib.patches import Patch, Rectangle
+
+    scheme = result.scenario.scheme
+    wells = result.wells[result.wells["section"] == section].sort_values("x_km")
+    names = [n for n in wells["core"] if n in result.cores.names]
+    if len(names) > max_cores:
+        pick = np.unique(np.round(np.linspace(0, len(names) - 1, max_cores)).astype(int))
+        names = [names[i] for i in pick]
+    depth_max = max((result.cores[n].base for n in names), default=1.0)
+    fig, axes = plt.subplots(
+        1,
+        max(len(names), 1),
+        figsize=(1.0 + 0.95 * max(len(names), 1), 7.5),
+        sharey=True,
+        layout="constrained",
+        squeeze=False,
+    )
+    grains = [f.grain_size for f in scheme.facies if f.grain_size is not None]
+    g_max = max(grains, default=1.0)
+    for ax, name in zip(axes[0], names):
+        core = result.cores[name]
+        table = core.intervals
+        top = table["top"].to_numpy(dtype=float)
+        base = table["base"].to_numpy(dtype=float)
+        grain = table["grain_size"].fillna(0.0).to_numpy(dtype=float)
+        width = 0.15 + 0.6 * grain / g_max
+        ax.add_collection(
+            PolyCollection(
+                _boxes(np.zeros_like(top), width, top, base),
+                facecolors=[scheme.colour(f) for f in table["facies"]],
+                edgecolors="none",
+            )
+        )
+        ax.add_collection(
+            PolyCollection(
+                _boxes(np.full_like(top, 0.8), np.full_like(top, 1.0), top, base),
+                facecolors=[TRACT_COLOURS.get(str(t), "0.8") for t in table["true_tract"]],
+                edgecolors="none",
+            )
+        )
+        for g0, g1 in core.gaps():
+            ax.add_patch(
+                Rectangle(
+                    (0, g0), 1.0, g1 - g0, facecolor="white", hatch="xx", edgecolor="0.6", lw=0
+                )
+            )
+        picks = result.surfaces[result.surfaces["core"] == name]
+        for row in picks.itertuples(index=False):
+            ax.plot(
+                [0, 1],
+                [row.depth, row.depth],
+                color="k",
+                lw=0.8,
+                ls=_SURFACE_STYLE.get(row.surface, "-"),
+            )
+        x_km = float(wells.loc[wells["core"] == name, "x_km"].iloc[0])
+        labelled = bool(wells.loc[wells["core"] == name, "labelled"].iloc[0])
+        ax.set_title(f"{name}\n{x_km:g} km{' (L)' if labelled else ''}", fontsize=8)
+        ax.set_xlim(0, 1)
+        ax.set_xticks([])
+    axes[0][0].set_ylim(depth_max * 1.01, 0)
+    axes[0][0].set_ylabel("depth below top of core (m)")
+    codes = [c for c in scheme.codes_by_rank if any(c == b[0] for b in result.scenario.depth_bands)]
+    handles = [Patch(color=scheme.colour(c), label=c) for c in codes]
+    handles += [Patch(color=c, label=f"true {t}") for t, c in TRACT_COLOURS.items()]
+    from matplotlib.lines import Line2D
+
+    handles += [
+        Line2D([], [], color="k", ls=s, lw=0.8, label=k)
+        for k, s in _SURFACE_STYLE.items()
+        if k != "LHB"
+    ]
+    fig.legend(handles=handles, loc="outside right center", fontsize=7)
+    fig.suptitle(
+        f"{result.scenario.name}: described cores of section {section!r} "
+        "(bar width: grain size; strip: true tract; L: labelled)",
+        fontsize=9,
+    )
     return fig

@@ -66,8 +66,8 @@ def write_simulation(
     ``budget.csv``, ``cores.sqlite`` (the same tables; the cores as ``intervals``),
     ``summary.json``,
     ``scenario.yaml`` (a copy of the scenario file, when it came from one) and,
-    unless ``figures`` is false, ``section-<name>.png`` and
-    ``base-level-<name>.png`` per dip section. With ``force`` an existing
+    unless ``figures`` is false, ``section-<name>.png``,
+    ``base-level-<name>.png`` and ``cores-<name>.png`` per dip section. With ``force`` an existing
     folder is replaced, but files in it that this run does not write (e.g. a
     README) are carried over.
 
@@ -127,7 +127,11 @@ def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from faciesseq.report.simulation_figures import base_level_figure, section_figure
+    from faciesseq.report.simulation_figures import (
+        base_level_figure,
+        cores_figure,
+        section_figure,
+    )
 
     scenario = result.scenario
     for name, history in result.sections.items():
@@ -135,6 +139,7 @@ def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:
         for stem, fig in (
             (f"section-{name}", section_figure(history, scenario, wells)),
             (f"base-level-{name}", base_level_figure(history, scenario)),
+            (f"cores-{name}", cores_figure(result, name)),
         ):
             fig.savefig(folder / f"{stem}.png", dpi=dpi, metadata={"Software": None})
             plt.close(fig)
