@@ -73,8 +73,10 @@ def _rule_column(successions, scheme, tract_model):
 
 
 def _mfs_within_one_bed(interp, true_surfaces):
-    """Fraction of cores whose every cored true MFS has an MFS pick <= 1 contact away."""
+    """Fraction of cores whose every cored true MFS has an MFS pick <= 1 contact away,
+    the number of cores, and the median depth error of the nearest pick (m)."""
     ok, n = 0, 0
+    errors = []
     for core in interp:
         truth = true_surfaces[
             (true_surfaces["core"] == core.core) & (true_surfaces["surface"] == "MFS")
@@ -94,12 +96,14 @@ def _mfs_within_one_bed(interp, true_surfaces):
             if len(picks) == 0:
                 good = False
                 break
+            errors.append(float(np.min(np.abs(picks - d))))
             k = np.abs(picks[:, None] - contacts[None, :]).argmin(axis=1)
             if np.min(np.abs(k - j)) > 1:
                 good = False
                 break
         ok += good
-    return ok / n if n else float("nan"), n
+    median = float(np.median(errors)) if errors else float("nan")
+    return (ok / n if n else float("nan")), n, median
 
 
 def _scores(beds: pd.DataFrame, column: str, tracts) -> dict:
@@ -128,8 +132,8 @@ def simulated_section(name: str) -> str:
         f"({len(test)} cores, {sum(len(s) for s in te)} beds). Beds; default features.",
         "",
         "| tract model | method | bed accuracy | thickness accuracy | TST vs rest | F1 HST "
-        "| F1 FSST | F1 LST | F1 TST | MFS within 1 bed (cores) | fit s |",
-        "|---|---|---|---|---|---|---|---|---|---|---|",
+        "| F1 FSST | F1 LST | F1 TST | MFS within 1 bed (cores) | MFS median error m | fit s |",
+        "|---|---|---|---|---|---|---|---|---|---|---|---|",
     ]
     truth_counts = pd.concat([s.beds for s in te])["true_tract"].value_counts()
     for tm_name, tm in (
@@ -156,19 +160,19 @@ def simulated_section(name: str) -> str:
             beds = pd.concat([c.beds.assign(core=c.core) for c in interp], ignore_index=True)
             beds["rule"] = [t for c in interp for t in rule[c.core]]
             sc = _scores(beds, "tract", tm.order)
-            mfs, n_cores = _mfs_within_one_bed(interp, true_surfaces)
+            mfs, n_cores, mfs_error = _mfs_within_one_bed(interp, true_surfaces)
             lines.append(
                 f"| {tm_name} | {method} | {sc['accuracy']:.3f} | {sc['accuracy_thickness']:.3f} | "
                 f"{sc['tst_vs_rest']:.3f} | "
                 + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
-                + f" | {mfs:.2f} of {n_cores} | {elapsed:.1f} |"
+                + f" | {mfs:.2f} of {n_cores} | {mfs_error:.2f} | {elapsed:.1f} |"
             )
         sc = _scores(beds, "rule", tm.order)
         lines.append(
             f"| {tm_name} | trend rule (baseline) | {sc['accuracy']:.3f} | "
             f"{sc['accuracy_thickness']:.3f} | {sc['tst_vs_rest']:.3f} | "
             + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
-            + " | - | - |"
+            + " | - | - | - |"
         )
     lines += [
         "",

@@ -369,3 +369,10 @@ def test_one_bed_segments_and_missing_facies_decode(train, tmp_path):
     assert len(interp["ONE"].picks) == 0
     p = interp["BLANK"].beds[[f"p_{t}" for t in interp.tracts]].to_numpy()
     np.testing.assert_allclose(p.sum(axis=1), 1.0)
+
+
+def test_bic_refuses_feature_sets_that_observe_different_variables(train):
+    from faciesseq.errors import ConfigError
+
+    with pytest.raises(ConfigError, match="same bed variables"):
+        select_model(train, features=[("facies",), ("facies", "contact")], scheme=synth.scheme())

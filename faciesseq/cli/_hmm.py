@@ -27,7 +27,7 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         metavar="LIST",
         help="comma-separated emission features: facies or facies_trend, thickness, contact, "
         "any numeric bed column (e.g. grain_size); default facies_trend,thickness,contact"
-        + ("; repeat to compare sets by BIC" if select else ""),
+        + ("; repeat to compare sets of the same variables by BIC" if select else ""),
     )
     group.add_argument(
         "--substates",

@@ -127,6 +127,11 @@ def run(args: argparse.Namespace) -> int:
         raise ConfigError(f"--threshold must be in (0, 1], got {args.threshold}")
     from faciesseq.hmm.modelfile import load_model
 
+    out = Path(args.output)
+    if out.exists() and not out.is_dir():
+        raise ConfigError("output exists and is not a folder", file=str(out))
+    if not (out.parent if str(out.parent) else Path(".")).is_dir():
+        raise ConfigError(f"folder {str(out.parent)!r} does not exist", file=str(out))
     model = load_model(args.model)
     scheme = load_scheme_option(args.scheme) or model.scheme
     if args.plot and scheme is None:

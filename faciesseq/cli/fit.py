@@ -66,6 +66,13 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
 def run(args: argparse.Namespace) -> int:
     check_unit(args)
+    from pathlib import Path
+
+    target = Path(args.output)
+    if target.is_dir():
+        raise ConfigError("is a folder; give a model file name (e.g. model.json)", file=str(target))
+    if not (target.parent if str(target.parent) else Path(".")).is_dir():
+        raise ConfigError(f"folder {str(target.parent)!r} does not exist", file=str(target))
     from faciesseq.hmm.modelfile import save_model
     from faciesseq.hmm.selection import select_model
 

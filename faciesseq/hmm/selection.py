@@ -46,11 +46,27 @@ def select_model(
 
     BIC = -2 log L + p log n (Schwarz 1978, Ann. Statist. 6:461-464), with
     ``n`` the number of beds and ``p`` the free parameters; all candidates see
-    the same beds. ``params`` are passed to :class:`TractHMM`.
+    the same beds and must observe the same bed variables (``facies`` and
+    ``facies_trend`` are two models of the facies; adding ``contact`` to one
+    candidate only would make the likelihoods incomparable, so it is refused).
+    ``params`` are passed to :class:`TractHMM`.
     """
     if not features or not substates:
         raise ConfigError("select_model needs at least one feature set and one sub-state count")
     rows, models = [], []
+    observed = []
+    for feats in features:
+        if feats is None:
+            continue
+        observed.append(frozenset("facies" if f == "facies_trend" else f for f in feats))
+    if len(set(observed)) > 1:
+        # BIC compares likelihoods of the same data; a set with more observed
+        # variables has a smaller likelihood for that reason alone.
+        raise ConfigError(
+            "feature sets compared by BIC must observe the same bed variables "
+            "(facies or facies_trend, and the same others); got "
+            + "; ".join(",".join(f) for f in features if f is not None)
+        )
     for feats in features:
         for sub in substates:
             model = TractHMM(features=feats, substates=sub, **params)
