@@ -13,7 +13,7 @@ import unicodedata
 
 import pytest
 from _html_tables import read_tables
-from _synthetic import synthetic_coreset, synthetic_interpretation
+from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
 
 from faciesseq.errors import ConfigError
 from faciesseq.markov import analyse
@@ -22,7 +22,7 @@ from faciesseq.report.latex import latex_escape
 from faciesseq.report.provenance import mask_url, provenance
 from faciesseq.scheme import default_tract_model, load_scheme
 
-SCHEME = "configs/scheme-shoreface.yaml"
+SCHEME = SHOREFACE
 EVIL = "<script>alert(1)</script>"
 
 

@@ -7,7 +7,7 @@ import re
 
 import pytest
 from _chromium import CHROMIUM, open_page, page_errors, print_pdf
-from _synthetic import synthetic_coreset, synthetic_interpretation
+from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
 from PIL import Image
 
 from faciesseq.markov import analyse
@@ -24,7 +24,7 @@ pytestmark = [
 
 def test_appendix_opens_in_chromium_without_errors(tmp_path):
     model = default_tract_model()
-    scheme = load_scheme("configs/scheme-shoreface.yaml")
+    scheme = load_scheme(SHOREFACE)
     interp = synthetic_interpretation(model, names=("W-1", "<b>bold</b>"))
     cores = synthetic_coreset(interp)
     report = analyse(cores, scheme=scheme)

@@ -3,6 +3,7 @@
 import numpy as np
 import pandas as pd
 import pytest
+from _synthetic import SHOREFACE
 from matplotlib.colorbar import Colorbar
 from matplotlib.legend import Legend
 
@@ -13,7 +14,7 @@ from faciesseq.scheme import default_tract_model, load_scheme
 
 @pytest.fixture(scope="module")
 def scheme():
-    return load_scheme("configs/scheme-shoreface.yaml")
+    return load_scheme(SHOREFACE)
 
 
 def _legends(fig):
