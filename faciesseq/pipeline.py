@@ -84,6 +84,7 @@ def run_appendix(
     step: float | None = None,
     provenance: Mapping[str, Any] | None = None,
     progress: Progress | None = None,
+    title: str | None = None,
 ) -> RunResult:
     """Markov statistics, tract model (fitted if not given), decoding, validation, appendix.
 
@@ -116,6 +117,8 @@ def run_appendix(
         Provenance record to attach (see :mod:`faciesseq.report.provenance`).
     progress
         ``progress(step, message)`` after each step.
+    title
+        Title of the appendix (default: the generic one of ``build_appendix``).
     """
     from faciesseq.hmm.model import TractHMM
     from faciesseq.markov import analyse
@@ -216,6 +219,7 @@ def run_appendix(
         validation_notes=validation_notes,
         decode_notes=notes,
         unit=unit,
+        **({"title": title} if title else {}),
     )
     _say(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"

@@ -68,6 +68,7 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
+    group.add_argument("--title", help="title of the appendix (default: a generic one)")
 
 
 def progress_printer(total: int, enabled: bool):
@@ -140,6 +141,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         n_restarts=args.restarts,
         provenance=prov,
         progress=progress,
+        title=args.title,
     )
     extra = {}
     if extra_model and model is None:

@@ -432,7 +432,14 @@ def _cores_section(
         )
         picks = core.picks.copy()
         if len(picks):
-            picks = picks.set_index("surface")
+            u = core.units
+            picks = picks.set_index("surface").rename(
+                columns={
+                    "depth": f"depth ({u})",
+                    "depth_top": f"interval top ({u})",
+                    "depth_base": f"interval base ({u})",
+                }
+            )
             sub.add(
                 TableBlock(
                     f"{key}_picks",
