@@ -80,6 +80,7 @@ def run_appendix(
     surrogates: int = 199,
     seed: int = 0,
     n_restarts: int = 3,
+    substates: tuple[int, ...] = (1, 2),
     unit: str = "beds",
     step: float | None = None,
     provenance: Mapping[str, Any] | None = None,
@@ -111,6 +112,10 @@ def run_appendix(
     folds, surrogates, seed, n_restarts
         Cross-validation folds, Monte Carlo surrogates of the Markov tests,
         the one seed of every random step, EM restarts of a fitted model.
+    substates
+        Sub-states per tract of the candidate models fitted when ``model`` is
+        ``None``; the one with the lowest BIC is kept (Schwarz 1978), and the
+        candidates are shown in the appendix.
     unit, step
         Successions of beds or of a depth grid (``step`` in depth units).
     provenance
@@ -120,7 +125,6 @@ def run_appendix(
     title
         Title of the appendix (default: the generic one of ``build_appendix``).
     """
-    from faciesseq.hmm.model import TractHMM
     from faciesseq.markov import analyse
     from faciesseq.report.appendix import build_appendix
 
@@ -141,17 +145,24 @@ def run_appendix(
 
     labelled = bool(labels) and has_labels(cores, labels)
     fit_notes: list[str] = []
+    selection = None
     if model is None:
+        from faciesseq.hmm.selection import select_model
+
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            model = TractHMM(
+            selection = select_model(
+                cores,
+                substates=tuple(int(k) for k in substates),
+                labels=labels if labelled else None,
                 tract_model=tract_model,
                 scheme=scheme,
                 n_restarts=n_restarts,
                 unit=unit,
                 step=step,
                 random_state=seed,
-            ).fit(cores, labels=labels if labelled else None)
+            )
+            model = selection.best
         fit_notes = _dedupe(str(w.message) for w in caught)
         how = (
             f"semi-supervised: the interpreted beds of column {labels!r} keep their tract"
@@ -160,7 +171,13 @@ def run_appendix(
         )
         note = (
             "No model file was given: the tract model was fitted to these cores with the "
-            f"default settings ({how}; {n_restarts} restarts, seed {seed})."
+            f"default settings ({how}; {n_restarts} restarts, seed {seed})"
+            + (
+                f", with {', '.join(map(str, substates))} sub-states per tract compared by BIC "
+                f"(kept: {', '.join(map(str, model.states_.substates))})."
+                if len(substates) > 1
+                else "."
+            )
         )
         if fit_notes:
             note += f" {len(fit_notes)} warning(s) while fitting; the first: {fit_notes[0]}"
@@ -195,6 +212,9 @@ def run_appendix(
                     unit=unit,
                     step=step,
                     n_restarts=n_restarts,
+                    # the folds refit the kept model's design
+                    substates=dict(zip(model.states_.tracts, model.states_.substates, strict=True)),
+                    features=list(model.features_),
                 )
             validation_notes = _dedupe(str(w.message) for w in caught)
             _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
@@ -213,6 +233,7 @@ def run_appendix(
         model=model,
         interpretation=interpretation,
         validation=validation,
+        selection=selection,
         provenance=provenance,
         model_note=note,
         validation_note=validation_reason or "",

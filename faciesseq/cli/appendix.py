@@ -66,6 +66,13 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         help="Monte Carlo surrogates for exact p-values (default 199; 0 = none)",
     )
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
+    group.add_argument(
+        "--substates",
+        default="1,2",
+        metavar="LIST",
+        help="sub-states per tract of the candidate models compared by BIC when no --model is "
+        "given (default 1,2)",
+    )
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
     group.add_argument("--title", help="title of the appendix (default: a generic one)")
@@ -91,6 +98,14 @@ def progress_printer(total: int, enabled: bool):
 def check_numbers(args: argparse.Namespace) -> None:
     from faciesseq.errors import ConfigError
 
+    try:
+        args.substates_list = tuple(int(x) for x in str(args.substates).split(",") if x.strip())
+    except ValueError:
+        raise ConfigError(
+            f"--substates expects whole numbers separated by commas, got {args.substates!r}"
+        ) from None
+    if not args.substates_list or min(args.substates_list) < 1:
+        raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
     for name in ("folds", "surrogates", "restarts", "seed"):
         value = getattr(args, name)
         low = 2 if name == "folds" else (1 if name == "restarts" else 0)
@@ -139,6 +154,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         surrogates=args.surrogates,
         seed=args.seed,
         n_restarts=args.restarts,
+        substates=args.substates_list,
         provenance=prov,
         progress=progress,
         title=args.title,

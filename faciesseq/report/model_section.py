@@ -415,7 +415,14 @@ def model_section(
                 "model_selection",
                 "Candidate models fitted on the same beds, with their BIC (Schwarz 1978); the "
                 "selected one has the lowest.",
-                selection.to_frame(),
+                selection.to_frame().rename(
+                    columns={
+                        "substates": "sub-states per tract",
+                        "n_parameters": "parameters",
+                        "log_likelihood": "log-likelihood",
+                        "bic": "BIC",
+                    }
+                ),
                 index=False,
             )
         )
