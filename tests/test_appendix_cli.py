@@ -80,26 +80,15 @@ def test_appendix_command_twice_with_one_seed_gives_the_same_numbers(
 def test_appendix_command_usage_errors_are_one_line(tmp_path, capsys, small_source):
     out = tmp_path / "exists"
     out.mkdir()
-    code, _, err = _run(
-        capsys, ["appendix", str(small_source), "--scheme", str(SCHEME), "-o", str(out)]
-    )
+    argv = ["appendix", str(small_source), "--scheme", str(SCHEME)]
+    code, _, err = _run(capsys, [*argv, "-o", str(out)])
     assert code == 2 and err.count("\n") == 1 and "--force" in err
     code, _, err = _run(capsys, ["appendix", str(small_source), "-o", str(tmp_path / "x")])
     assert code == 2 and "--scheme" in err and err.count("\n") == 1
-    code, _, err = _run(
-        capsys,
-        [
-            "appendix",
-            str(small_source),
-            "--scheme",
-            str(SCHEME),
-            "-o",
-            str(tmp_path / "y"),
-            "--folds",
-            "1",
-        ],
-    )
+    code, _, err = _run(capsys, [*argv, "-o", str(tmp_path / "y"), "--folds", "1"])
     assert code == 2 and "--folds" in err
+    code, _, err = _run(capsys, [*argv, "-o", str(tmp_path / "y"), "--substates", "1,x"])
+    assert code == 2 and "--substates" in err and err.count("\n") == 1
     assert not (tmp_path / "x").exists() and not (tmp_path / "y").exists()
 
 
