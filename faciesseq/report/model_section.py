@@ -26,6 +26,7 @@ _READABLE = {
     "brier": "Brier score",
     "mfs_within_one_bed": "MFS within one bed",
     "support": "beds",
+    "f1": "F1",
     "bin_low": "bin from",
     "bin_high": "bin to",
     "mean_probability": "mean probability",
@@ -267,7 +268,9 @@ def model_section(
     states = model.states_
     labels = states.labels()
     bic = None
-    if model.n_train_beds_ > 0:
+    # with interpreted beds held to their tracts the training likelihood is not that of
+    # the beds alone, so no BIC is formed from it (the candidates' table has the BIC)
+    if model.n_train_beds_ > 0 and not model.n_labelled_:
         # BIC = -2 log L + p log n on the training beds (Schwarz 1978)
         bic = -2.0 * model.log_likelihood_ + model.n_parameters() * np.log(model.n_train_beds_)
     numbers["bic_training"] = bic
@@ -285,6 +288,7 @@ def model_section(
             + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
             f"strength {format_value(float(model.prior_strength))}; {model.n_parameters()} free "
             f"parameters; training log-likelihood {format_value(model.log_likelihood_)}"
+            + (" (interpreted beds held to their tracts)" if model.n_labelled_ else "")
             + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
@@ -413,8 +417,9 @@ def model_section(
         diag.add(
             TableBlock(
                 "model_selection",
-                "Candidate models fitted on the same beds, with their BIC (Schwarz 1978); the "
-                "selected one has the lowest.",
+                "Candidate models fitted on the same beds: free parameters, log-likelihood of "
+                "the beds (no tract imposed) and BIC = −2 log L + p log n (Schwarz 1978); the "
+                "selected one has the lowest BIC.",
                 selection.to_frame().rename(
                     columns={
                         "substates": "sub-states per tract",
