@@ -102,10 +102,10 @@ def _state_frame(
     return frame
 
 
-def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
+def _emission_blocks(model: Any, sub: Section, scheme) -> None:
+    """Tables and heat maps of every emission piece, added to ``sub``."""
     from faciesseq.report import figures
 
-    numbers: dict[str, Any] = {}
     ranks = getattr(model, "ranks_", None)
     for piece in model.emissions_:
         kind = getattr(piece, "kind", "")
@@ -236,8 +236,6 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     frame,
                 )
             )
-        numbers[name] = piece.to_dict() if hasattr(piece, "to_dict") else None
-    return numbers
 
 
 def model_section(
@@ -255,14 +253,11 @@ def model_section(
 
     s = Section("The tract model")
     numbers: dict[str, Any] = {}
-    try:
-        from faciesseq.hmm.modelfile import model_to_dict
+    from faciesseq.hmm.modelfile import model_to_dict
 
-        doc = model_to_dict(model)
-        doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
-        numbers["model"] = doc
-    except ImportError:  # pragma: no cover - model files not available
-        numbers["model"] = None
+    doc = model_to_dict(model)
+    doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
+    numbers["model"] = doc
     if note:
         s.add(Paragraph(note, kind="note"))
     states = model.states_
@@ -373,8 +368,7 @@ def model_section(
                 T,
             )
         )
-    numbers_emissions = _emission_blocks(model, params, scheme)
-    del numbers_emissions  # already in the model file document
+    _emission_blocks(model, params, scheme)  # their numbers are in the model-file document
 
     diag = s.sub("Fitting diagnostics")
     restarts = pd.DataFrame(
