@@ -180,7 +180,10 @@ def run_appendix(
             )
         )
         if fit_notes:
-            note += f" {len(fit_notes)} warning(s) while fitting; the first: {fit_notes[0]}"
+            note += (
+                f" {len(fit_notes)} warning(s) while fitting (all in "
+                f"tables/model_fit_warnings.csv); the first: {fit_notes[0]}"
+            )
         _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
     else:
         note = f"Model read from {model_source}." if model_source else "Model given by the caller."
@@ -239,6 +242,7 @@ def run_appendix(
         validation_note=validation_reason or "",
         validation_notes=validation_notes,
         decode_notes=notes,
+        fit_notes=fit_notes,
         unit=unit,
         **({"title": title} if title else {}),
     )

@@ -348,6 +348,7 @@ def _model_section(
     scheme: FaciesScheme | None = None,
     validation_note: str = "",
     validation_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
 ) -> Section:
     if model is None:
         return _not_available(
@@ -365,6 +366,7 @@ def _model_section(
         scheme,
         validation_reason=reason,
         validation_notes=validation_notes,
+        fit_notes=fit_notes,
     )
     results["model"] = numbers.get("model")
     results["model_bic_training"] = numbers.get("bic_training")
@@ -496,6 +498,7 @@ def build_appendix(
     validation_note: str = "",
     validation_notes: Sequence[str] = (),
     decode_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
     unit: str = "beds",
     title: str = "Statistical appendix: facies successions and systems tracts",
 ) -> Appendix:
@@ -529,6 +532,9 @@ def build_appendix(
     decode_notes
         Warnings raised while decoding (e.g. facies unseen in training); shown
         in section 4.
+    fit_notes
+        Warnings raised while fitting (e.g. labels left out); listed in full in
+        a data file of section 3.
     unit
         ``"beds"`` or ``"grid"``: how successions were formed (methods text).
 
@@ -561,6 +567,7 @@ def build_appendix(
             scheme,
             validation_note,
             validation_notes,
+            fit_notes,
         ),
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit),

@@ -247,6 +247,7 @@ def model_section(
     scheme: Any = None,
     validation_reason: str = "no interpreted (labelled) cores to validate against",
     validation_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
 ) -> tuple[Section, dict[str, Any]]:
     """The tract-model section and the numbers behind it (``model``, ``validation``)."""
     from faciesseq.report import figures
@@ -260,6 +261,16 @@ def model_section(
     numbers["model"] = doc
     if note:
         s.add(Paragraph(note, kind="note"))
+    if fit_notes:
+        s.add(
+            TableBlock(
+                "model_fit_warnings",
+                "warnings raised while fitting the tract model",
+                pd.DataFrame({"warning": list(fit_notes)}),
+                index=False,
+                shown=False,
+            )
+        )
     states = model.states_
     labels = states.labels()
     bic = None
