@@ -119,3 +119,23 @@ def test_empty_core_is_refused_with_its_name(model, scheme):
     )
     with pytest.raises(InputError, match="W-1"):
         strip_log(empty, scheme, model)
+
+
+def test_touching_cells_of_one_facies_are_drawn_as_one_box(model, scheme):
+    core = synthetic_core(model, gap_after=None, n_beds=12)
+    beds = core.beds.copy()
+    beds["facies"] = ["CP"] * 5 + ["FS"] * 4 + ["CP"] * 3  # a depth grid: runs of cells
+    grid = type(core)(
+        core.core,
+        "m",
+        core.tracts,
+        core.surfaces,
+        beds,
+        core.boundaries,
+        core.picks,
+        core.log_likelihood,
+    )
+    fig = strip_log(grid, scheme, model)
+    boxes = [p for p in fig.axes[0].patches if p.get_width() > 0]
+    assert len(boxes) == 3
+    assert sum(b.get_height() for b in boxes) == pytest.approx(beds["thickness"].sum())

@@ -65,6 +65,13 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         help="Monte Carlo surrogates for exact p-values (default 199; 0 = none)",
     )
+    group.add_argument(
+        "--unit",
+        choices=("beds", "grid"),
+        default="beds",
+        help="successions of beds (embedded chain, default) or of depth-grid cells",
+    )
+    group.add_argument("--step", type=float, metavar="X", help="grid cell height (depth units)")
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
     group.add_argument(
         "--substates",
@@ -104,6 +111,8 @@ def check_numbers(args: argparse.Namespace) -> None:
         raise ConfigError(
             f"--substates expects whole numbers separated by commas, got {args.substates!r}"
         ) from None
+    if args.unit == "grid" and not (args.step and args.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
     if not args.substates_list or min(args.substates_list) < 1:
         raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
     for name in ("folds", "surrogates", "restarts", "seed"):
@@ -155,6 +164,8 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         seed=args.seed,
         n_restarts=args.restarts,
         substates=args.substates_list,
+        unit=args.unit,
+        step=args.step,
         provenance=prov,
         progress=progress,
         title=args.title,
