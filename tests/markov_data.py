@@ -41,6 +41,7 @@ def council_grove_coreset() -> CoreSet:
                     "base": depth + 0.25,
                     "facies": part["Facies"].astype(str).to_numpy(),
                     "formation": part["Formation"].to_numpy(),
+                    "nm_m": part["NM_M"].to_numpy(dtype=float),
                 }
             )
         )

@@ -99,3 +99,12 @@ def test_grid_unit_warns_about_the_sampling_step():
     assert code == 0
     assert "χ²(64," in out
     assert "sampling step" in out
+
+
+def test_text_output_opens_with_the_answer():
+    code, out, _ = _run(*READ, "--max-order", "2", "--surrogates", "99", "--seed", "1")
+    assert code == 0
+    answer = out.split("Answer\n", 1)[1].split("\n\n", 1)[0]
+    assert answer.startswith("  Ordered, not random: the quasi-independence null is rejected")
+    assert "The Monte Carlo test agrees: p = 0.01 with 99 surrogates." in answer
+    assert "First order is not rejected against second order" in answer

@@ -81,3 +81,13 @@ def test_monte_carlo_first_order_test_agrees_that_the_wells_are_ordered(coreset)
     assert mc["quasi-independence (Pearson chi2)"].p_value == pytest.approx(1 / 200)
     assert mc["order 1 vs 2 (G2)"].n_surrogates == 199
     assert np.isfinite(mc["order 1 vs 2 (G2)"].p_value)
+
+
+def test_homogeneity_by_a_numeric_column_uses_labels_not_bed_means(coreset):
+    # NM_M is 1 (nonmarine) or 2 (marine); a bed spanning both takes the label of
+    # most of its thickness, never an average such as 1.5
+    report = analyse(coreset, unit="beds", by="NM_M", max_order=1)
+    h = report.homogeneity
+    assert sorted(h.groups) == ["1", "2"]
+    assert h.n_left_out == 54  # transitions from a nonmarine bed to a marine one, or back
+    assert h.pearson.p_value < 1e-6  # marine and nonmarine beds follow different chains

@@ -1,5 +1,7 @@
 """Markov statistics against published values and reference libraries."""
 
+import itertools
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -8,7 +10,12 @@ from scipy import stats
 from faciesseq.core import CoreSet
 from faciesseq.markov import analyse, encode, independence_test, transition_counts
 from faciesseq.markov.contingency import fit_quasi_independence
-from faciesseq.markov.counts import fixed_vector, ngram_counts, transition_probabilities
+from faciesseq.markov.counts import (
+    batch_ngram_counts,
+    fixed_vector,
+    ngram_counts,
+    transition_probabilities,
+)
 from faciesseq.markov.homogeneity import homogeneity_test
 from faciesseq.markov.order import order_analysis
 
@@ -198,3 +205,27 @@ def test_bad_requests_are_refused_with_a_clear_error():
         analyse([np.array([0, 0, 1, 2])], unit="beds")
     with pytest.raises(InputError, match=r"facies \['X'\]"):
         analyse([np.array(["A", "X", "A"])], ["A", "B"])
+
+
+def test_counts_match_a_plain_count_for_any_successions():
+    hypothesis = pytest.importorskip("hypothesis")
+    st = hypothesis.strategies
+
+    @hypothesis.given(st.lists(st.lists(st.integers(0, 3), max_size=12), min_size=1, max_size=6))
+    @hypothesis.settings(max_examples=60, deadline=None)
+    def check(seqs):
+        enc = encode([np.array(s, dtype=np.int64) for s in seqs], ["a", "b", "c", "d"])
+        pairs = np.zeros((4, 4), dtype=int)
+        triples = np.zeros((4, 4, 4), dtype=int)
+        for s in seqs:
+            for a, b in itertools.pairwise(s):
+                pairs[a, b] += 1
+            for a, b, c in zip(s[:-2], s[1:-1], s[2:]):
+                triples[a, b, c] += 1
+        np.testing.assert_array_equal(transition_counts(enc), pairs)
+        np.testing.assert_array_equal(ngram_counts(enc, 2), triples)
+        assert transition_counts(enc, per_succession=True).sum() == pairs.sum()
+        batched = batch_ngram_counts(enc, np.stack([enc.states, enc.states]), 2)
+        np.testing.assert_array_equal(batched[1], triples)
+
+    check()

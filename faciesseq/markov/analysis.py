@@ -9,7 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet
+from faciesseq.core import Core, CoreSet
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.markov.contingency import (
     ContingencyResult,
@@ -214,6 +214,7 @@ class MarkovReport:
                 }
             ),
         }
+        frames["cells"] = fo.to_frame(codes)
         if self.homogeneity is not None:
             frames["homogeneity_groups"] = self.homogeneity.to_frame()
         if self.per_core is not None:
@@ -226,6 +227,41 @@ class MarkovReport:
             ]
             frames["per_core_counts"] = pd.DataFrame(rows, columns=["core", "from", "to", "count"])
         return frames
+
+
+def _label(value) -> str | None:
+    """A group label as text (``2.0`` -> ``"2"``); ``None`` for a missing value."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return None
+    if isinstance(value, float | np.floating) and float(value).is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def _as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
+    """The core set with ``column`` turned into text labels, so beds take a label, not a mean.
+
+    A bed made of several intervals takes the label covering most of its
+    thickness (:func:`faciesseq.core._aggregate` for text); numbers would be
+    averaged. The column is matched without regard to case.
+    """
+    names = {c for core in coreset for c in core.attributes}
+    if column not in names:
+        folded = {c.lower(): c for c in names}
+        if column.lower() not in folded:
+            raise ConfigError(f"--by {column}: no such column (columns: {sorted(names)})")
+        column = folded[column.lower()]
+    cores = {}
+    for name, core in coreset.cores.items():
+        table = core.intervals.copy()
+        if column in table.columns:
+            table[column] = pd.Series(
+                [_label(v) for v in table[column].to_numpy(dtype=object)],
+                index=table.index,
+                dtype=object,
+            )
+        cores[name] = Core(name, table, core.units)
+    return CoreSet(cores, coreset.units, coreset.problems, coreset.sources, coreset.meta), column
 
 
 def _groups(
@@ -251,7 +287,7 @@ def _groups(
             )
         values = beds[by].astype(object).where(beds[by].notna(), None).to_numpy()
         ids = np.array(
-            [-1 if v is None else labels.setdefault(str(v), len(labels)) for v in values]
+            [-1 if _label(v) is None else labels.setdefault(_label(v), len(labels)) for v in values]
         )
         same = (ids[:-1] == ids[1:]) & (ids[:-1] >= 0)
         per.append(np.where(same, ids[:-1], -1))
@@ -405,6 +441,8 @@ def analyse(
     warnings: list[str] = []
     excluded: list[str] = []
     if isinstance(data, CoreSet):
+        if by is not None and by != "core":
+            data, by = _as_groups(data, by)
         if unit == "grid" and not (step is not None and step > 0):
             raise ConfigError("--unit grid needs a positive --step (depth units)")
         problems = screen_cores(data, min_coverage=min_coverage)

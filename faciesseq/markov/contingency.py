@@ -31,6 +31,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+import pandas as pd
 from scipy import stats
 
 from faciesseq.errors import InputError
@@ -273,6 +274,41 @@ class ContingencyResult:
     @property
     def n_low_expected(self) -> int:
         return int(self.low_expected.sum())
+
+    def to_frame(self, codes=None) -> pd.DataFrame:
+        """One row per cell (``from`` below, ``to`` above) with every diagnostic."""
+        m = len(self.observed)
+        codes = list(codes) if codes is not None else [str(i) for i in range(m)]
+        i, j = np.meshgrid(np.arange(m), np.arange(m), indexing="ij")
+        return pd.DataFrame(
+            {
+                "from": np.array(codes, dtype=object)[i.ravel()],
+                "to": np.array(codes, dtype=object)[j.ravel()],
+                "observed": self.observed.ravel(),
+                "expected": self.expected.ravel(),
+                "difference": self.difference.ravel(),
+                "adjusted_residual": self.residuals.ravel(),
+                "residual_p": self.residual_p.ravel(),
+                "significant": self.significant.ravel(),
+                "low_expected": self.low_expected.ravel(),
+                "structural": self.structural.ravel(),
+            }
+        )
+
+    def to_dict(self) -> dict:
+        """The tests and counts of degrees of freedom (matrices: see :meth:`to_frame`)."""
+        return {
+            "model": self.model,
+            "tests": [self.pearson.to_dict(), self.g2.to_dict()],
+            "dof": int(self.dof),
+            "n": int(self.n),
+            "structural_zeros": int(self.n_structural_zeros),
+            "empty_rows": list(self.empty_rows),
+            "empty_columns": list(self.empty_columns),
+            "low_expected_cells": self.n_low_expected,
+            "cramers_v": float(self.cramers_v),
+            "notes": list(self.notes),
+        }
 
 
 def _statistics(o: np.ndarray, e: np.ndarray, active: np.ndarray) -> tuple[float, float]:

@@ -28,6 +28,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 from faciesseq.markov.counts import transition_probabilities
 
@@ -55,6 +56,12 @@ class CyclicityResult:
     @property
     def e_pre_normalised(self) -> float:
         return self.e_pre_total / self.e_max if self.e_max > 0 else float("nan")
+
+    def to_frame(self) -> pd.DataFrame:
+        """Entropies per facies (bits)."""
+        return pd.DataFrame(
+            {"facies": list(self.codes), "e_post": self.e_post, "e_pre": self.e_pre}
+        )
 
     def to_dict(self) -> dict:
         return {

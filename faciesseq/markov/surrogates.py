@@ -367,7 +367,7 @@ def swap_chain(
     lengths = enc.lengths
     starts = enc.starts[:-1]
     n_states = len(enc.states)
-    movable = np.nonzero(lengths > 2)[0]
+    movable = np.nonzero(lengths >= 2)[0]
     if len(movable) == 0:
         return
     owner = np.repeat(np.arange(len(lengths)), lengths)

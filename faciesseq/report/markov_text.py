@@ -11,7 +11,7 @@ import math
 import numpy as np
 import pandas as pd
 
-__all__ = ["format_p", "format_test", "markov_text"]
+__all__ = ["format_p", "format_test", "markov_text", "verdict"]
 
 
 def format_p(p: float) -> str:
@@ -57,6 +57,52 @@ def _matrix(matrix: np.ndarray, codes, digits: int) -> str:
     return _table(frame, digits)
 
 
+def verdict(report) -> list[str]:
+    """Plain sentences answering "ordered or random?", each quoting the test it rests on."""
+    fo = report.first_order
+    a = fo.alpha
+    first = fo.pearson
+    mc = {t.name: t for t in report.surrogate_tests}
+    lines = []
+    if first.p_value < a:
+        lines.append(f"Ordered, not random: the {fo.model} null is rejected, {format_test(first)}.")
+    else:
+        lines.append(f"Could be random: the {fo.model} null is not rejected, {format_test(first)}.")
+    mc_first = mc.get(first.name)
+    if mc_first is not None:
+        agree = (mc_first.p_value < a) == (first.p_value < a)
+        lines.append(
+            f"The Monte Carlo test {'agrees' if agree else 'disagrees'}: "
+            f"p = {mc_first.p_value:.3g} with {mc_first.n_surrogates} surrogates."
+        )
+    order = report.order
+    one_two = next((t for t in order.tests if t.name.startswith("order 1 vs 2")), None)
+    if one_two is not None:
+        word = "rejected" if one_two.p_value < a else "not rejected"
+        line = f"First order is {word} against second order, {format_test(one_two)}"
+        mc_order = mc.get("order 1 vs 2 (G2)")
+        if mc_order is not None:
+            line += (
+                f" (Monte Carlo p = {mc_order.p_value:.3g}, {mc_order.n_surrogates} surrogates "
+                "with the same transition counts)"
+            )
+        lines.append(line + ".")
+    lines.append(f"Order chosen by AIC: {order.best_aic}; by BIC: {order.best_bic}.")
+    if report.homogeneity is not None:
+        h = report.homogeneity
+        word = "differ" if h.pearson.p_value < a else "do not differ significantly"
+        lines.append(f"The {len(h.groups)} groups by {h.by} {word}: {format_test(h.pearson)}.")
+    if fo.n_low_expected:
+        lines.append(
+            f"{fo.n_low_expected} of {int(fo.active.sum())} cells expect fewer than 5 "
+            "transitions: prefer the Monte Carlo p-values (--surrogates)."
+            if not report.surrogate_tests
+            else f"{fo.n_low_expected} of {int(fo.active.sum())} cells expect fewer than 5 "
+            "transitions: the Monte Carlo p-values are the ones to quote."
+        )
+    return lines
+
+
 def markov_text(report) -> str:
     """The whole report as text: what was analysed, the tests, then the tables."""
     fo = report.first_order
@@ -74,6 +120,7 @@ def markov_text(report) -> str:
     ]
     if report.excluded_cores:
         lines.append(f"left out: {', '.join(report.excluded_cores)}")
+    lines += ["", "Answer"] + [f"  {v}" for v in verdict(report)]
     lines.append("")
     lines.append("Tests")
     width = max(len(t.name) for t in report.tests)
