@@ -132,6 +132,8 @@ def _brute_force(log_emission, startprob, transmat):
             xi[t, path[t], path[t + 1]] += p
         if p > best:  # strict: the first (lowest-index) path wins ties
             best, best_path = p, path
+    if likelihood == 0.0:  # impossible sequence
+        return -np.inf, None, None, None, 0.0
     return np.log(likelihood), gamma / likelihood, xi / likelihood, np.array(best_path), best
 
 
@@ -182,6 +184,10 @@ def _models(draw):
     n_seq = draw(st.integers(1, 6))
     lengths = rng.integers(1, 12, size=n_seq)
     startprob = rng.dirichlet(np.ones(K))
+    startprob[rng.random(K) < 0.3] = 0.0  # structural zeros at the start too
+    if startprob.sum() == 0:
+        startprob[0] = 1.0
+    startprob /= startprob.sum()
     transmat = rng.dirichlet(np.ones(K), size=K)
     # Random structural zeros, keeping the diagonal so every row stays valid.
     zero = (rng.random((K, K)) < 0.3) & ~np.eye(K, dtype=bool)
@@ -211,6 +217,8 @@ def test_posterior_invariants(model):
     # structural zeros get no mass, exactly
     assert np.all(post.xi[:, transmat == 0] == 0.0)
     assert np.all(post.xi_sum[transmat == 0] == 0.0)
+    assert np.all(post.gamma[_starts(lengths)][:, startprob == 0] == 0.0)
+    assert np.all(post.start[startprob == 0] == 0.0)
     np.testing.assert_allclose(post.xi_sum, post.xi.sum(axis=0), atol=1e-12)
     np.testing.assert_allclose(post.start, post.gamma[_starts(lengths)].sum(axis=0), atol=1e-12)
     assert np.all(np.isfinite(post.log_likelihood))
@@ -339,25 +347,36 @@ def test_constrained_log_emission_rejects_bad_clamps():
 
 
 def test_impossible_sequence_names_the_sequence():
-    startprob = np.array([1.0, 0.0])
+    startprob = np.array([0.5, 0.5])
     transmat = np.array([[0.5, 0.5], [0.0, 1.0]])  # no way back from state 1
     le = np.zeros((9, 2))
     lengths = [3, 2, 4]
     clamp = np.full(9, -1)
-    clamp[5:7] = [1, 0]  # sequence 2: state 1 then state 0, forbidden
+    clamp[6:8] = [1, 0]  # sequence 2, its rows 1 and 2: state 1 then state 0
     cle = constrained_log_emission(le, clamp)
+    where = r"sequence 2 is impossible under the model.* at its row 2 \(row 7 of"
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        with pytest.raises(InputError, match=r"sequence 2 is impossible"):
+        with pytest.raises(InputError, match=where):
             forward_backward(cle, lengths, startprob, transmat)
-        with pytest.raises(InputError, match=r"sequence 2 is impossible"):
+        with pytest.raises(InputError, match=where):
             viterbi(cle, lengths, startprob, transmat)
+    # a first row clamped to a state the start probabilities exclude
+    clamp0 = np.full(9, -1)
+    clamp0[3] = 1  # first row of sequence 1
+    cle0 = constrained_log_emission(le, clamp0)
+    where0 = r"sequence 1 is impossible under the model.* at its row 0 \(row 3 of"
+    with pytest.raises(InputError, match=where0):
+        forward_backward(cle0, lengths, np.array([1.0, 0.0]), transmat)
+    with pytest.raises(InputError, match=where0):
+        viterbi(cle0, lengths, np.array([1.0, 0.0]), transmat)
     # a row where every state is forbidden
     le2 = np.zeros((9, 2))
-    le2[3] = -np.inf
-    with pytest.raises(InputError, match=r"sequence 1 is impossible"):
+    le2[4] = -np.inf
+    where2 = r"sequence 1 is impossible under the model.* at its row 1 \(row 4 of"
+    with pytest.raises(InputError, match=where2):
         forward_backward(le2, lengths, startprob, transmat)
-    with pytest.raises(InputError, match=r"sequence 1 is impossible"):
+    with pytest.raises(InputError, match=where2):
         viterbi(le2, lengths, startprob, transmat)
 
 
@@ -411,3 +430,35 @@ def test_posteriors_tables():
     assert d["log_likelihood"] == post.log_likelihood.tolist()
     assert d["total_log_likelihood"] == pytest.approx(post.log_likelihood.sum())
     assert np.array(d["xi_sum"]).shape == (2, 2)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(0, 2**32 - 1))
+def test_clamped_posteriors_match_brute_force(seed):
+    # Brute force over all 3^5 paths, with clamped rows and structural zeros:
+    # labels enter only through -inf log-emissions, so enumeration with
+    # exp(-inf) = 0 gives the exact conditional posteriors.
+    rng = np.random.default_rng(seed)
+    K, T = 3, 5
+    startprob = rng.dirichlet(np.ones(K))
+    transmat = rng.dirichlet(np.ones(K), size=K)
+    transmat[0, 2] = transmat[2, 1] = 0.0
+    transmat /= transmat.sum(axis=1, keepdims=True)
+    le = rng.normal(scale=2.0, size=(T, K))
+    clamp = np.where(rng.random(T) < 0.4, rng.integers(0, K, size=T), -1)
+    cle = constrained_log_emission(le, clamp)
+    ll, gamma, xi, best_path, best = _brute_force(cle, startprob, transmat)
+    if not np.isfinite(ll):
+        with pytest.raises(InputError, match="sequence 0 is impossible"):
+            forward_backward(cle, [T], startprob, transmat)
+        return
+    post = forward_backward(cle, [T], startprob, transmat, return_xi=True)
+    assert abs(post.log_likelihood[0] - ll) < 1e-10
+    np.testing.assert_allclose(post.gamma, gamma, atol=1e-12)
+    np.testing.assert_allclose(post.xi, xi, atol=1e-12)
+    path, log_prob = viterbi(cle, [T], startprob, transmat)
+    assert abs(log_prob[0] - np.log(best)) < 1e-10
+    np.testing.assert_array_equal(path, best_path)
+    rows = np.flatnonzero(clamp >= 0)
+    np.testing.assert_array_equal(post.gamma[rows, clamp[rows]], 1.0)
+    np.testing.assert_array_equal(path[rows], clamp[rows])

@@ -382,10 +382,11 @@ def forward_backward(
     """State and two-slice posteriors and log-likelihoods of many sequences.
 
     Scaled forward-backward recursions (Rabiner 1989, section V.A). Each row of
-    ``log_emission`` is shifted by its maximum and exponentiated, so emissions
-    lie in ``(0, 1]``; the forward variables are normalised at every step
-    (scale factor ``c_t``), the backward variables divided by the same factors,
-    and ``log L = sum_t (log c_t + max_k log_emission[t, k])``. Zeros in
+    ``log_emission`` is exponentiated, after subtracting a shift ``m_t`` (its
+    maximum) on rows whose exponentials would under- or overflow; the forward
+    variables are normalised at every step (scale factor ``c_t``), the
+    backward variables divided by the same factors, and
+    ``log L = sum_t (log c_t + m_t)``. Zeros in
     ``transmat`` and ``startprob`` stay exact zeros in every posterior
     (structural zeros of the tract graph), with no log of zero taken.
 
@@ -656,9 +657,11 @@ def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
         final_lp = final_delta[np.arange(B), final_state]
         dead = np.flatnonzero(final_lp == -np.inf)
         if dead.size:
-            raise _impossible(
-                batch, int(batch.last[dead[0]]), "no path of non-zero probability ends"
-            )
+            # Name the first row where every path of that sequence has died.
+            j = int(dead[0])
+            packed = batch.offsets[: batch.lengths[j]] + j
+            first = int(np.flatnonzero(delta[:, packed].max(axis=0) == -np.inf)[0])
+            raise _impossible(batch, int(packed[first]), "no path of non-zero probability")
         log_prob[batch.seq] = final_lp
 
         # Backtracking: the predecessor of state k at step t is recomputed as
