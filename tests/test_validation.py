@@ -1,4 +1,8 @@
-"""Cross-validation by core, with the trend-rule baseline (synthetic cores, invented)."""
+"""Cross-validation by core, with the trend-rule baseline (synthetic cores, invented).
+
+Brier score after Brier (1950), Monthly Weather Review 78:1-3: for 0/1
+forecasts it is twice the error rate (each wrong bed scores 1 + 1).
+"""
 
 import json
 
