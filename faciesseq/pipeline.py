@@ -80,10 +80,12 @@ def run_appendix(
     surrogates: int = 199,
     seed: int = 0,
     n_restarts: int = 3,
+    substates: tuple[int, ...] = (1, 2),
     unit: str = "beds",
     step: float | None = None,
     provenance: Mapping[str, Any] | None = None,
     progress: Progress | None = None,
+    title: str | None = None,
 ) -> RunResult:
     """Markov statistics, tract model (fitted if not given), decoding, validation, appendix.
 
@@ -96,8 +98,9 @@ def run_appendix(
         Facies scheme; tract model (default: the packaged four-tract model).
     model
         A fitted ``TractHMM`` (e.g. loaded from a model file). ``None``: one
-        is fitted with the default settings, unsupervised, and the appendix
-        says so.
+        is fitted with the default settings (semi-supervised on the ``labels``
+        column where it holds interpreted tracts, else unsupervised), and the
+        appendix says so.
     model_source
         Where ``model`` came from (shown in the appendix).
     labels
@@ -109,14 +112,19 @@ def run_appendix(
     folds, surrogates, seed, n_restarts
         Cross-validation folds, Monte Carlo surrogates of the Markov tests,
         the one seed of every random step, EM restarts of a fitted model.
+    substates
+        Sub-states per tract of the candidate models fitted when ``model`` is
+        ``None``; the one with the lowest BIC is kept (Schwarz 1978), and the
+        candidates are shown in the appendix.
     unit, step
         Successions of beds or of a depth grid (``step`` in depth units).
     provenance
         Provenance record to attach (see :mod:`faciesseq.report.provenance`).
     progress
         ``progress(step, message)`` after each step.
+    title
+        Title of the appendix (default: the generic one of ``build_appendix``).
     """
-    from faciesseq.hmm.model import TractHMM
     from faciesseq.markov import analyse
     from faciesseq.report.appendix import build_appendix
 
@@ -135,19 +143,47 @@ def run_appendix(
         f"p = {markov.first_order.pearson.p_value:.3g}",
     )
 
+    labelled = bool(labels) and has_labels(cores, labels)
+    fit_notes: list[str] = []
+    selection = None
     if model is None:
-        model = TractHMM(
-            tract_model=tract_model,
-            scheme=scheme,
-            n_restarts=n_restarts,
-            unit=unit,
-            step=step,
-            random_state=seed,
-        ).fit(cores)
+        from faciesseq.hmm.selection import select_model
+
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            selection = select_model(
+                cores,
+                substates=tuple(int(k) for k in substates),
+                labels=labels if labelled else None,
+                tract_model=tract_model,
+                scheme=scheme,
+                n_restarts=n_restarts,
+                unit=unit,
+                step=step,
+                random_state=seed,
+            )
+            model = selection.best
+        fit_notes = _dedupe(str(w.message) for w in caught)
+        how = (
+            f"semi-supervised: the interpreted beds of column {labels!r} keep their tract"
+            if labelled
+            else "unsupervised"
+        )
         note = (
             "No model file was given: the tract model was fitted to these cores with the "
-            f"default settings (unsupervised, {n_restarts} restarts, seed {seed})."
+            f"default settings ({how}; {n_restarts} restarts, seed {seed})"
+            + (
+                f", with {', '.join(map(str, substates))} sub-states per tract compared by BIC "
+                f"(kept: {', '.join(map(str, model.states_.substates))})."
+                if len(substates) > 1
+                else "."
+            )
         )
+        if fit_notes:
+            note += (
+                f" {len(fit_notes)} warning(s) while fitting (all in "
+                f"tables/model_fit_warnings.csv); the first: {fit_notes[0]}"
+            )
         _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
     else:
         note = f"Model read from {model_source}." if model_source else "Model given by the caller."
@@ -156,28 +192,34 @@ def run_appendix(
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         interpretation = model.decode(cores)
-    for w in caught:
-        notes.append(str(w.message))
+    notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
     validation = None
     validation_reason = None
-    if labels and has_labels(cores, labels):
+    validation_notes: list[str] = []
+    if labelled:
         from faciesseq.validation import cross_validate
 
         try:
-            validation = cross_validate(
-                cores,
-                labels,
-                folds=min(folds, len(cores)),
-                mode=validate_mode,
-                random_state=seed,
-                tract_model=tract_model,
-                scheme=scheme,
-                unit=unit,
-                step=step,
-                n_restarts=n_restarts,
-            )
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                validation = cross_validate(
+                    cores,
+                    labels,
+                    folds=min(folds, len(cores)),
+                    mode=validate_mode,
+                    random_state=seed,
+                    tract_model=tract_model,
+                    scheme=scheme,
+                    unit=unit,
+                    step=step,
+                    n_restarts=n_restarts,
+                    # the folds refit the kept model's design
+                    substates=dict(zip(model.states_.tracts, model.states_.substates, strict=True)),
+                    features=list(model.features_),
+                )
+            validation_notes = _dedupe(str(w.message) for w in caught)
             _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
         except FaciesseqError as exc:
             validation_reason = f"cross-validation could not be run on these labels: {exc}"
@@ -194,13 +236,22 @@ def run_appendix(
         model=model,
         interpretation=interpretation,
         validation=validation,
+        selection=selection,
         provenance=provenance,
         model_note=note,
         validation_note=validation_reason or "",
+        validation_notes=validation_notes,
         decode_notes=notes,
+        fit_notes=fit_notes,
         unit=unit,
+        **({"title": title} if title else {}),
     )
     _say(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
     )
     return RunResult(appendix, markov, model, interpretation, validation, notes)
+
+
+def _dedupe(messages) -> list[str]:
+    """Messages in first-seen order, each once."""
+    return list(dict.fromkeys(messages))

@@ -56,3 +56,40 @@ def read_tables(html: str) -> TableReader:
     reader.feed(html)
     reader.close()
     return reader
+
+
+def _number(text: str):
+    text = text.rstrip("*").replace("−", "-").replace("∞", "inf")
+    if text == "":
+        return float("nan")
+    try:
+        return float(text)
+    except ValueError:
+        return None
+
+
+def mismatches(header: list[str], rows: list[list[str]], csv_rows: list[list[str]]) -> list[str]:
+    """Cells where an HTML table differs from its CSV (numbers to the 4 digits shown)."""
+    import math
+
+    out = []
+    if header != csv_rows[0]:
+        out.append(f"header {header} != {csv_rows[0]}")
+    if len(rows) != len(csv_rows) - 1:
+        out.append(f"{len(rows)} rows != {len(csv_rows) - 1}")
+        return out
+    for r, (shown, stored) in enumerate(zip(rows, csv_rows[1:], strict=True)):
+        for c, (cell, value) in enumerate(zip(shown, stored, strict=True)):
+            if value in ("True", "False"):
+                ok = cell == {"True": "yes", "False": "no"}[value]
+            elif value != "" and _number(value) is not None:
+                got, want = _number(cell), _number(value)
+                ok = got is not None and (
+                    (math.isnan(got) and math.isnan(want))
+                    or math.isclose(got, want, rel_tol=5e-4, abs_tol=0.0)
+                )
+            else:
+                ok = cell.rstrip("*") == value
+            if not ok:
+                out.append(f"row {r}, column {c}: shown {cell!r}, CSV {value!r}")
+    return out

@@ -2,11 +2,16 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.scheme import TractModel
+
+#: The shoreface facies scheme of the repository (path independent of the working folder).
+SHOREFACE = str(Path(__file__).resolve().parents[1] / "configs" / "scheme-shoreface.yaml")
 
 
 def synthetic_core(

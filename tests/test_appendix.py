@@ -9,10 +9,11 @@ import hashlib
 import json
 import math
 import re
+import unicodedata
 
 import pytest
 from _html_tables import read_tables
-from _synthetic import synthetic_coreset, synthetic_interpretation
+from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
 
 from faciesseq.errors import ConfigError
 from faciesseq.markov import analyse
@@ -21,7 +22,7 @@ from faciesseq.report.latex import latex_escape
 from faciesseq.report.provenance import mask_url, provenance
 from faciesseq.scheme import default_tract_model, load_scheme
 
-SCHEME = "configs/scheme-shoreface.yaml"
+SCHEME = SHOREFACE
 EVIL = "<script>alert(1)</script>"
 
 
@@ -117,6 +118,9 @@ def test_text_from_data_is_escaped(written):
     _, _, out = written
     html = (out / "appendix.html").read_text(encoding="utf-8")
     assert "<script" not in html
+    # self-contained: nothing is fetched (figures are data: URIs, links are relative)
+    assert not re.search(r"""(src|href)=["']?(https?:)?//""", html)
+    assert "<link" not in html
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
     page = read_tables(html)
     assert EVIL in "".join(page.text)  # shown as text
@@ -133,6 +137,8 @@ def test_latex_is_balanced_and_its_figures_exist(written):
     assert tex.count(r"\begin{longtable}") == tex.count(r"\end{longtable}")
     for name in re.findall(r"\\includegraphics\[[^\]]*\]\{([^}]*)\}", tex):
         assert (out / name).read_bytes()[:4] == b"%PDF"
+    # only letters outside ASCII (inputenc utf8 takes them); symbols became commands
+    assert all(unicodedata.category(ch).startswith("L") for ch in tex if ord(ch) > 127)
     assert latex_escape("50% of W_3 & {x} ~ $5") == (r"50\% of W\_3 \& \{x\} \textasciitilde{} \$5")
 
 

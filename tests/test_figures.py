@@ -3,6 +3,7 @@
 import numpy as np
 import pandas as pd
 import pytest
+from _synthetic import SHOREFACE
 from matplotlib.colorbar import Colorbar
 from matplotlib.legend import Legend
 
@@ -13,7 +14,7 @@ from faciesseq.scheme import default_tract_model, load_scheme
 
 @pytest.fixture(scope="module")
 def scheme():
-    return load_scheme("configs/scheme-shoreface.yaml")
+    return load_scheme(SHOREFACE)
 
 
 def _legends(fig):
@@ -99,3 +100,16 @@ def test_bar_chart_has_one_bar_per_cell(scheme):
     fig = figures.bar_chart(table, colours={"CP": scheme.colour("CP")})
     assert len(fig.axes[0].patches) == 4
     assert [t.get_text() for t in _legends(fig)[0].get_texts()] == ["beds", "thickness"]
+
+
+def test_heatmap_labels_take_the_tract_palette():
+    from matplotlib.colors import to_rgba
+
+    from faciesseq.report.style import TRACT_COLOURS
+
+    table = pd.DataFrame(np.eye(2), index=["TST", "HST"], columns=["TST", "HST"])
+    fig = figures.heatmap(table, label_colours=TRACT_COLOURS)
+    fig.canvas.draw()
+    ticks = fig.axes[0].get_yticklabels()
+    faces = [t.get_bbox_patch().get_facecolor() for t in ticks]
+    assert faces == [to_rgba(TRACT_COLOURS["TST"]), to_rgba(TRACT_COLOURS["HST"])]

@@ -2,7 +2,7 @@
 
 import numpy as np
 import pytest
-from _synthetic import synthetic_core
+from _synthetic import SHOREFACE, synthetic_core
 from matplotlib.legend import Legend
 from PIL import Image
 
@@ -11,7 +11,7 @@ from faciesseq.report.striplog import bed_widths, strip_log
 from faciesseq.report.style import TRACT_COLOURS
 from faciesseq.scheme import default_tract_model, load_scheme
 
-SCHEME = "configs/scheme-shoreface.yaml"
+SCHEME = SHOREFACE
 
 
 @pytest.fixture(scope="module")
@@ -69,7 +69,7 @@ def test_widths_follow_grain_size_when_known_else_rank(model, scheme):
     widths, measure = bed_widths(with_grain, scheme)
     assert measure == "grain_size"
     assert widths == pytest.approx(np.clip(with_grain["grain_size"], 0.5, 7) / 7)
-    no_grain = load_scheme("configs/scheme-shoreface.yaml")
+    no_grain = load_scheme(SHOREFACE)
     beds = synthetic_core(model).beds.assign(facies="SHM")
     beds.loc[0, "facies"] = "UNKNOWN"
     widths, measure = bed_widths(beds, no_grain)
@@ -119,3 +119,23 @@ def test_empty_core_is_refused_with_its_name(model, scheme):
     )
     with pytest.raises(InputError, match="W-1"):
         strip_log(empty, scheme, model)
+
+
+def test_touching_cells_of_one_facies_are_drawn_as_one_box(model, scheme):
+    core = synthetic_core(model, gap_after=None, n_beds=12)
+    beds = core.beds.copy()
+    beds["facies"] = ["CP"] * 5 + ["FS"] * 4 + ["CP"] * 3  # a depth grid: runs of cells
+    grid = type(core)(
+        core.core,
+        "m",
+        core.tracts,
+        core.surfaces,
+        beds,
+        core.boundaries,
+        core.picks,
+        core.log_likelihood,
+    )
+    fig = strip_log(grid, scheme, model)
+    boxes = [p for p in fig.axes[0].patches if p.get_width() > 0]
+    assert len(boxes) == 3
+    assert sum(b.get_height() for b in boxes) == pytest.approx(beds["thickness"].sum())

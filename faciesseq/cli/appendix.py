@@ -38,7 +38,10 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         "and the appendix says so",
     )
     group.add_argument(
-        "--tract-model", metavar="FILE", help="tract model YAML (default: the packaged one)"
+        "--tracts",
+        dest="tract_model",
+        metavar="FILE",
+        help="tract model YAML (default: the packaged four-tract model)",
     )
     group.add_argument(
         "--labels",
@@ -62,9 +65,24 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="N",
         help="Monte Carlo surrogates for exact p-values (default 199; 0 = none)",
     )
+    group.add_argument(
+        "--unit",
+        choices=("beds", "grid"),
+        default="beds",
+        help="successions of beds (embedded chain, default) or of depth-grid cells",
+    )
+    group.add_argument("--step", type=float, metavar="X", help="grid cell height (depth units)")
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
+    group.add_argument(
+        "--substates",
+        default="1,2",
+        metavar="LIST",
+        help="sub-states per tract of the candidate models compared by BIC when no --model is "
+        "given (default 1,2)",
+    )
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
+    group.add_argument("--title", help="title of the appendix (default: a generic one)")
 
 
 def progress_printer(total: int, enabled: bool):
@@ -87,6 +105,16 @@ def progress_printer(total: int, enabled: bool):
 def check_numbers(args: argparse.Namespace) -> None:
     from faciesseq.errors import ConfigError
 
+    try:
+        args.substates_list = tuple(int(x) for x in str(args.substates).split(",") if x.strip())
+    except ValueError:
+        raise ConfigError(
+            f"--substates expects whole numbers separated by commas, got {args.substates!r}"
+        ) from None
+    if args.unit == "grid" and not (args.step and args.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
+    if not args.substates_list or min(args.substates_list) < 1:
+        raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
     for name in ("folds", "surrogates", "restarts", "seed"):
         value = getattr(args, name)
         low = 2 if name == "folds" else (1 if name == "restarts" else 0)
@@ -103,12 +131,17 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     from faciesseq.report.provenance import provenance
     from faciesseq.scheme import default_tract_model, load_tract_model
 
-    tract_model = load_tract_model(args.tract_model) if args.tract_model else default_tract_model()
     model = None
     if args.model:
         from faciesseq.hmm.modelfile import load_model
 
         model = load_model(args.model)
+    if args.tract_model:
+        tract_model = load_tract_model(args.tract_model)
+    elif model is not None:
+        tract_model = model.tract_model_  # the tract model the file was fitted with
+    else:
+        tract_model = default_tract_model()
     prov = provenance(
         sources=[args.source],
         scheme=args.scheme or getattr(scheme, "source", None),
@@ -130,8 +163,12 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         surrogates=args.surrogates,
         seed=args.seed,
         n_restarts=args.restarts,
+        substates=args.substates_list,
+        unit=args.unit,
+        step=args.step,
         provenance=prov,
         progress=progress,
+        title=args.title,
     )
     extra = {}
     if extra_model and model is None:

@@ -64,10 +64,11 @@ def run(args: argparse.Namespace) -> int:
     cores = read_cores(args.source, scheme=scheme)
     written, result = make(args, cores, scheme, out, force, extra_model=True)
     html = written / "appendix.html"
+    pdf = "" if args.no_latex else ", and PDF for appendix.tex"
     sys.stdout.write(
         f"demo done: {len(cores)} cores of {folder / 'cores.csv'}\n"
         f"appendix: {html}\n"
-        f"figures:  {written / 'figures'} ({len(result.appendix.figures())} PNG, and PDF)\n"
+        f"figures:  {written / 'figures'} ({len(result.appendix.figures())} PNG{pdf})\n"
         f"tables:   {written / 'tables'}\n"
         f"model:    {written / 'model.json'}\n"
         f"open {html.resolve().as_uri()} in a browser\n"

@@ -253,7 +253,7 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
         TableBlock(
             "data_cores",
             f"Cores: described intervals, beds (adjacent intervals of one facies amalgamated), "
-            f"unbroken segments, depth range and described thickness ({units}).",
+            f"depth range, described thickness, and the gaps (number and thickness, {units}).",
             tables["cores"],
         )
     )
@@ -347,6 +347,8 @@ def _model_section(
     selection: Any = None,
     scheme: FaciesScheme | None = None,
     validation_note: str = "",
+    validation_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
 ) -> Section:
     if model is None:
         return _not_available(
@@ -356,9 +358,18 @@ def _model_section(
 
     reason = validation_note or "no interpreted (labelled) cores to validate against"
     section, numbers = model_section(
-        model, tract_model, validation, note, selection, scheme, validation_reason=reason
+        model,
+        tract_model,
+        validation,
+        note,
+        selection,
+        scheme,
+        validation_reason=reason,
+        validation_notes=validation_notes,
+        fit_notes=fit_notes,
     )
     results["model"] = numbers.get("model")
+    results["model_bic_training"] = numbers.get("bic_training")
     if selection is not None:
         results["selection"] = numbers.get("selection")
     if validation is not None:
@@ -423,7 +434,14 @@ def _cores_section(
         )
         picks = core.picks.copy()
         if len(picks):
-            picks = picks.set_index("surface")
+            u = core.units
+            picks = picks.set_index("surface").rename(
+                columns={
+                    "depth": f"depth ({u})",
+                    "depth_top": f"interval top ({u})",
+                    "depth_base": f"interval base ({u})",
+                }
+            )
             sub.add(
                 TableBlock(
                     f"{key}_picks",
@@ -478,7 +496,9 @@ def build_appendix(
     provenance: Mapping[str, Any] | None = None,
     model_note: str = "",
     validation_note: str = "",
+    validation_notes: Sequence[str] = (),
     decode_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
     unit: str = "beds",
     title: str = "Statistical appendix: facies successions and systems tracts",
 ) -> Appendix:
@@ -507,9 +527,14 @@ def build_appendix(
         because no model file was given); shown in section 3.
     validation_note
         Why there is no validation (when ``validation`` is ``None``).
+    validation_notes
+        Warnings raised during cross-validation (e.g. labels left out).
     decode_notes
         Warnings raised while decoding (e.g. facies unseen in training); shown
         in section 4.
+    fit_notes
+        Warnings raised while fitting (e.g. labels left out); listed in full in
+        a data file of section 3.
     unit
         ``"beds"`` or ``"grid"``: how successions were formed (methods text).
 
@@ -541,6 +566,8 @@ def build_appendix(
             selection,
             scheme,
             validation_note,
+            validation_notes,
+            fit_notes,
         ),
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit),
@@ -560,7 +587,9 @@ def _figure_bytes(fig, fmt: str, dpi: int) -> bytes:
     buffer = io.BytesIO()
     metadata = {"CreationDate": None} if fmt == "pdf" else {"Software": None}
     with mpl.rc_context(STYLE):
-        fig.savefig(buffer, format=fmt, dpi=dpi, bbox_inches="tight", metadata=metadata)
+        # constrained layout already fits every figure to its canvas; a tight bounding
+        # box would draw each figure twice
+        fig.savefig(buffer, format=fmt, dpi=dpi, metadata=metadata)
     return buffer.getvalue()
 
 
@@ -634,7 +663,7 @@ def write_appendix(
         if software:
             meta.append(f"faciesseq {software.get('faciesseq', '')}")
         if prov.get("date"):
-            meta.append(f"made {prov['date']}")
+            meta.append(f"written {prov['date']}")
         data_files = [(f"tables/{t.key}.csv", t.caption) for t in document.tables(shown=False)]
         data_files += [
             ("appendix.json", "every number of this appendix at full precision"),

@@ -64,6 +64,7 @@ def heatmap(
     row_title: str = "from (lower bed)",
     column_title: str = "to (upper bed)",
     width: float | None = None,
+    label_colours: Mapping[str, str] | None = None,
 ) -> Figure:
     """A labelled matrix with its values written in the cells and a colour bar.
 
@@ -80,6 +81,9 @@ def heatmap(
         Centre the colour scale at 0 (for differences and residuals).
     marks
         Boolean table of the same shape; marked cells get a ``*`` and a frame.
+    label_colours
+        Colours of row and column labels (e.g. tract colours): the label is
+        drawn on a patch of that colour.
     """
     values = table.to_numpy(dtype=float)
     n_rows, n_cols = values.shape
@@ -132,6 +136,22 @@ def heatmap(
         ax.set_ylabel(row_title)
         ax.xaxis.set_label_position("top")
         ax.xaxis.tick_top()
+        if label_colours:
+            for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
+                key = next(
+                    (
+                        k
+                        for k in label_colours
+                        if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
+                    ),
+                    None,
+                )
+                if key is not None:
+                    face = label_colours[key]
+                    from matplotlib.colors import to_rgba
+
+                    tick.set_bbox({"boxstyle": "round,pad=0.2", "fc": face, "ec": "none"})
+                    tick.set_color(_text_colour(to_rgba(face)))
         for spine in ax.spines.values():
             spine.set_visible(False)
         bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
@@ -393,7 +413,7 @@ def facies_relationship_diagram(
                     pos[b],
                     width=0.5 + 2.5 * d / (top or 1.0),
                     colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=0.15,
+                    rad=0.28,
                     label=f"{d:.2f}" if solid else None,
                     node_radius=radius,
                     linestyle="-" if solid else (0, (3, 2)),

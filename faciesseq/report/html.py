@@ -68,7 +68,7 @@ ul.files { font-size: 0.85rem; }
   html { font-size: 10.5pt; }
   body { max-width: none; margin: 0; padding: 0; }
   nav.toc { break-after: page; }
-  h2 { break-before: page; }
+  main h2 { break-before: page; }
   h2, h3, h4 { break-after: avoid; }
   figure, table.data, .eq { break-inside: avoid; }
   .table-wrap { overflow: visible; }

@@ -41,6 +41,11 @@ _UNICODE = {
     "≥": r"\ensuremath{\geq}",
     "≤": r"\ensuremath{\leq}",
     "≈": r"\ensuremath{\approx}",
+    "≠": r"\ensuremath{\neq}",
+    "√": r"\ensuremath{\surd}",
+    "∝": r"\ensuremath{\propto}",
+    "₂": r"\ensuremath{_2}",
+    "₊": r"\ensuremath{_+}",
     "×": r"\ensuremath{\times}",
     "±": r"\ensuremath{\pm}",
     "∞": r"\ensuremath{\infty}",
@@ -94,6 +99,7 @@ PREAMBLE = r"""\documentclass[10pt,a4paper]{article}
 \usepackage[margin=22mm]{geometry}
 \usepackage{amsmath}
 \usepackage{booktabs}
+\usepackage{array}
 \usepackage{longtable}
 \usepackage{graphicx}
 \usepackage[font=small,labelfont=bf]{caption}
@@ -107,7 +113,8 @@ PREAMBLE = r"""\documentclass[10pt,a4paper]{article}
 def table_latex(table: TableBlock) -> str:
     """A ``longtable`` (it may break across pages) with a caption above, booktabs rules."""
     header = table.header()
-    align = "".join("l" if k == 0 else "r" for k in range(len(header)))
+    rows = list(table.rows())
+    align = "".join(_column_spec(k, header, rows) for k in range(len(header)))
     lines = [
         rf"\begin{{longtable}}{{{align}}}",
         rf"\caption{{{latex_escape(table.caption)}"
@@ -127,14 +134,35 @@ def table_latex(table: TableBlock) -> str:
         r"\bottomrule",
         r"\endlastfoot",
     ]
-    for cells, flags in table.rows():
+    for cells, flags in rows:
         shown = [
             (rf"\textbf{{{latex_escape(c)}*}}" if f else latex_escape(c))
             for c, f in zip(cells, flags, strict=True)
         ]
         lines.append(" & ".join(shown) + r" \\")
     lines.append(r"\end{longtable}")
-    return "\n".join(lines)
+    size = r"\footnotesize" if len(header) > 6 else r"\small"
+    return "{" + size + "\n" + "\n".join(lines) + "\n}"
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text.replace("−", "-"))
+    except ValueError:
+        return text == ""
+    return True
+
+
+def _column_spec(k: int, header: list[str], rows) -> str:
+    """``r`` for numbers, ``l`` for short text, a ragged paragraph column for long text."""
+    cells = [r[0][k] for r in rows]
+    if k > 0 and all(_is_number(c) for c in cells):
+        return "r"
+    longest = max([len(header[k]), *map(len, cells)])
+    if longest <= 24:
+        return "l"
+    width = 5.0 if len(header) <= 4 else 3.2
+    return rf">{{\raggedright\arraybackslash}}p{{{width}cm}}"
 
 
 def _figure_latex(block: FigureBlock) -> str:
@@ -168,8 +196,10 @@ def render_latex(document: Document, *, meta: Sequence[str] = ()) -> str:
     out.append(r"\maketitle")
     out.append(r"\tableofcontents")
     n_figures = 0
-    for _number, depth, section in document.walk():
+    for number, depth, section in document.walk():
         command = _COMMANDS[min(depth, len(_COMMANDS)) - 1]
+        if depth == 1 and number != "1":
+            out.append(r"\clearpage")
         out.append(rf"\{command}{{{latex_escape(section.title)}}}")
         for block in section.blocks:
             if isinstance(block, Paragraph):
@@ -193,7 +223,5 @@ def render_latex(document: Document, *, meta: Sequence[str] = ()) -> str:
                 n_figures += 1
                 if n_figures % 6 == 0:
                     out.append(r"\clearpage")  # LaTeX holds at most 18 floats in waiting
-        if depth == 1:
-            out.append(r"\clearpage")
     out.append(r"\end{document}")
     return "\n".join(out) + "\n"

@@ -50,6 +50,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
     fo = report.first_order
     codes = list(report.codes)
     embedded = report.embedded
+    colours = {c: scheme.colour(c) for c in codes if c in scheme}
     s = Section("Transition statistics")
     unit = (
         "beds (embedded chain: no facies above itself)"
@@ -83,6 +84,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
                 _masked(report.probabilities, fo.structural, codes),
                 value_label="transition probability",
                 fmt="{:.2f}",
+                label_colours=colours,
             ),
         ),
     )
@@ -121,6 +123,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
                 diverging=True,
                 marks=sig,
                 mark_label=f"significant (two-sided, {report.alpha:g})",
+                label_colours=colours,
             ),
         ),
     )
@@ -184,7 +187,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
             TableBlock(
                 "markov_homogeneity",
                 f"Transitions per {h.by} in the homogeneity test.",
-                h.to_frame().set_index("group"),
+                h.to_frame().set_index("group").rename(columns={"n_transitions": "transitions"}),
             ),
         )
     else:

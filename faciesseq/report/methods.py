@@ -85,9 +85,12 @@ def methods_section(unit: str = "beds") -> Section:
         Paragraph(
             "Tests are reported as χ²(dof, N) = value, p = …, with G² and Cramér's "
             "V = √(χ² / (N (m − 1))). Cells with expected counts below 5 are listed, because the "
-            "χ² approximation is poor there; exact or surrogate p-values (the statistic's "
-            "distribution under random successions with the same facies counts; Pethel & Hahs "
-            "2014) are given beside the asymptotic ones. Cells that deviate from chance are "
+            "χ² approximation is poor there. Monte Carlo p-values from surrogate successions are "
+            "given beside the asymptotic ones: for the first-order test, random re-orderings of "
+            "each succession's beds that keep no facies above itself; for the order test, "
+            "successions with the same first-order transition counts (Pethel & Hahs 2014); the "
+            "p-value is (1 + the number of surrogates at least as extreme) / (1 + the number of "
+            "surrogates). Cells that deviate from chance are "
             "found by adjusted residuals (Haberman 1973), approximately standard normal under "
             "independence:"
         ),

@@ -8,6 +8,7 @@ optional ``faciesseq.validation.ValidationResult``.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -17,6 +18,43 @@ from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBloc
 from faciesseq.scheme import TractModel
 
 __all__ = ["model_section", "tract_transitions"]
+
+
+_READABLE = {
+    "accuracy": "accuracy",
+    "macro_f1": "macro F1",
+    "brier": "Brier score",
+    "mfs_within_one_bed": "MFS within one bed",
+    "support": "beds",
+    "f1": "F1",
+    "bin_low": "bin from",
+    "bin_high": "bin to",
+    "mean_probability": "mean probability",
+    "fraction_correct": "fraction correct",
+    "count": "beds",
+}
+
+
+def _readable_units(units: str) -> dict[str, str]:
+    return {
+        "n_true": "interpreted",
+        "n_matched": "picked",
+        "within_one_bed": "within one bed",
+        "median_abs_error": f"median |error| ({units})",
+        "mean_abs_error_beds": "mean |error| (beds)",
+    }
+
+
+def _tract_colours(tracts) -> dict[str, str]:
+    from faciesseq.report.style import tract_colour
+
+    return {t: tract_colour(t, tracts) for t in tracts}
+
+
+def _facies_colours(scheme, codes) -> dict[str, str]:
+    if scheme is None:
+        return {}
+    return {c: scheme.colour(c) for c in codes if c in scheme}
 
 
 def _stationary(transmat: np.ndarray) -> np.ndarray:
@@ -64,10 +102,10 @@ def _state_frame(
     return frame
 
 
-def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
+def _emission_blocks(model: Any, sub: Section, scheme) -> None:
+    """Tables and heat maps of every emission piece, added to ``sub``."""
     from faciesseq.report import figures
 
-    numbers: dict[str, Any] = {}
     ranks = getattr(model, "ranks_", None)
     for piece in model.emissions_:
         kind = getattr(piece, "kind", "")
@@ -86,7 +124,12 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     key,
                     f"Emission probabilities of {what} per state ({name} piece).",
                     figures.heatmap(
-                        table, value_label="probability", row_title="state", column_title=what
+                        table,
+                        value_label="probability",
+                        row_title="state",
+                        column_title=what,
+                        label_colours=_tract_colours(model.states_.tracts)
+                        | _facies_colours(scheme, piece.categories),
                     ),
                 ),
             )
@@ -103,7 +146,12 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     key + "_first",
                     "Facies probabilities of a succession's lowest bed, per state.",
                     figures.heatmap(
-                        first, value_label="probability", row_title="state", column_title="facies"
+                        first,
+                        value_label="probability",
+                        row_title="state",
+                        column_title="facies",
+                        label_colours=_tract_colours(model.states_.tracts)
+                        | _facies_colours(scheme, piece.categories),
                     ),
                 ),
             )
@@ -132,6 +180,27 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
             if ranks is not None and len(ranks) == len(cats) and np.isfinite(ranks).all():
                 r = np.asarray(ranks, dtype=float)
                 change = r[None, None, :] - r[None, :, None]  # above minus below
+                pseudo = np.asarray(getattr(piece, "trend_pseudo", np.zeros_like(trend)), float)
+                deeper = (pseudo * (change > 0)).sum(axis=(1, 2))
+                shallower = (pseudo * (change < 0)).sum(axis=(1, 2))
+                sub.add(
+                    TableBlock(
+                        key + "_prior",
+                        "Dirichlet prior of the stacking trend: pseudo-counts (pseudo-beds) "
+                        "given to transitions into a deeper (more basinward) and into a "
+                        "shallower facies, per state; this is how the expected trend of each "
+                        "tract anchors which state is which.",
+                        pd.DataFrame(
+                            {
+                                "pseudo-counts, deeper above": deeper,
+                                "pseudo-counts, shallower above": shallower,
+                                "share deeper": deeper
+                                / np.where(deeper + shallower > 0, deeper + shallower, 1),
+                            },
+                            index=pd.Index(model.states_.labels(), name="state"),
+                        ),
+                    )
+                )
                 expected = (trend * change).sum(axis=2)  # (S, below)
                 first_p = np.asarray(piece.emissionprob_, dtype=float)
                 mean_change = (expected * first_p).sum(axis=1)
@@ -167,8 +236,6 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> dict[str, Any]:
                     frame,
                 )
             )
-        numbers[name] = piece.to_dict() if hasattr(piece, "to_dict") else None
-    return numbers
 
 
 def model_section(
@@ -179,24 +246,40 @@ def model_section(
     selection: Any = None,
     scheme: Any = None,
     validation_reason: str = "no interpreted (labelled) cores to validate against",
+    validation_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
 ) -> tuple[Section, dict[str, Any]]:
     """The tract-model section and the numbers behind it (``model``, ``validation``)."""
     from faciesseq.report import figures
 
     s = Section("The tract model")
     numbers: dict[str, Any] = {}
-    try:
-        from faciesseq.hmm.modelfile import model_to_dict
+    from faciesseq.hmm.modelfile import model_to_dict
 
-        doc = model_to_dict(model)
-        doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
-        numbers["model"] = doc
-    except ImportError:  # pragma: no cover - model files not available
-        numbers["model"] = None
+    doc = model_to_dict(model)
+    doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
+    numbers["model"] = doc
     if note:
         s.add(Paragraph(note, kind="note"))
+    if fit_notes:
+        s.add(
+            TableBlock(
+                "model_fit_warnings",
+                "warnings raised while fitting the tract model",
+                pd.DataFrame({"warning": list(fit_notes)}),
+                index=False,
+                shown=False,
+            )
+        )
     states = model.states_
     labels = states.labels()
+    bic = None
+    # with interpreted beds held to their tracts the training likelihood is not that of
+    # the beds alone, so no BIC is formed from it (the candidates' table has the BIC)
+    if model.n_train_beds_ > 0 and not model.n_labelled_:
+        # BIC = -2 log L + p log n on the training beds (Schwarz 1978)
+        bic = -2.0 * model.log_likelihood_ + model.n_parameters() * np.log(model.n_train_beds_)
+    numbers["bic_training"] = bic
     features = ", ".join(getattr(model, "features_", ()))
     s.add(
         Paragraph(
@@ -210,7 +293,9 @@ def model_section(
             )
             + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
             f"strength {format_value(float(model.prior_strength))}; {model.n_parameters()} free "
-            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}."
+            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}"
+            + (" (interpreted beds held to their tracts)" if model.n_labelled_ else "")
+            + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
     graph = s.sub("Tract graph")
@@ -274,7 +359,11 @@ def model_section(
             "model_transitions",
             "Transition probabilities between hidden states (row: lower bed's state).",
             figures.heatmap(
-                A, value_label="probability", row_title="state below", column_title="state above"
+                A,
+                value_label="probability",
+                row_title="state below",
+                column_title="state above",
+                label_colours=_tract_colours(states.tracts),
             ),
         ),
         TableBlock(
@@ -290,8 +379,7 @@ def model_section(
                 T,
             )
         )
-    numbers_emissions = _emission_blocks(model, params, scheme)
-    del numbers_emissions  # already in the model file document
+    _emission_blocks(model, params, scheme)  # their numbers are in the model-file document
 
     diag = s.sub("Fitting diagnostics")
     restarts = pd.DataFrame(
@@ -334,9 +422,17 @@ def model_section(
         diag.add(
             TableBlock(
                 "model_selection",
-                "Candidate models fitted on the same beds, with their BIC (Schwarz 1978); the "
-                "selected one has the lowest.",
-                selection.to_frame(),
+                "Candidate models fitted on the same beds: free parameters, log-likelihood of "
+                "the beds (no tract imposed) and BIC = −2 log L + p log n (Schwarz 1978); the "
+                "selected one has the lowest BIC.",
+                selection.to_frame().rename(
+                    columns={
+                        "substates": "sub-states per tract",
+                        "n_parameters": "parameters",
+                        "log_likelihood": "log-likelihood",
+                        "bic": "BIC",
+                    }
+                ),
                 index=False,
             )
         )
@@ -361,12 +457,14 @@ def model_section(
                 "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
                 "Brier score of the tract probabilities and the fraction of maximum flooding "
                 "surfaces picked within one bed.",
-                frames["summary"].set_index("method"),
+                frames["summary"].set_index("method").rename(columns=_READABLE),
             ),
             TableBlock(
                 "validation_per_tract",
                 "Precision, recall, F1 and support (beds) per tract.",
-                frames["per_tract"].set_index(frames["per_tract"].columns[0]),
+                frames["per_tract"]
+                .set_index(frames["per_tract"].columns[0])
+                .rename(columns=_READABLE),
             ),
         )
         for method in ("model", "baseline"):
@@ -386,6 +484,7 @@ def model_section(
                 "Confusion matrix of the tract model (beds).",
                 figures.heatmap(
                     frames["confusion_model"].astype(float),
+                    label_colours=_tract_colours(validation.model.confusion.columns),
                     value_label="beds",
                     fmt="{:.0f}",
                     row_title="interpreted tract",
@@ -396,7 +495,9 @@ def model_section(
                 "validation_surfaces",
                 f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
                 f"error ({validation.units}).",
-                frames["surfaces"].set_index(frames["surfaces"].columns[0]),
+                frames["surfaces"]
+                .set_index(frames["surfaces"].columns[0])
+                .rename(columns=_readable_units(validation.units)),
             ),
         )
         rel = {}
@@ -412,9 +513,10 @@ def model_section(
         val.add(
             TableBlock(
                 "validation_reliability",
-                "Reliability of the tract probabilities: per probability bin, the mean predicted "
-                "probability and the fraction of beds where that tract was the interpreter's.",
-                frames["reliability"],
+                "Reliability of the tract probabilities: per probability bin (bins without "
+                "beds left out), the mean predicted probability and the fraction of beds where "
+                "that tract was the interpreter's.",
+                frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
                 index=False,
             ),
             FigureBlock(
@@ -424,4 +526,20 @@ def model_section(
                 figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
             ),
         )
+        if validation_notes:
+            val.add(
+                Paragraph(
+                    f"{len(validation_notes)} warning(s) while fitting and decoding the folds "
+                    "(listed in full in tables/validation_warnings.csv); the first: "
+                    f"{validation_notes[0]}",
+                    kind="note",
+                ),
+                TableBlock(
+                    "validation_warnings",
+                    "warnings raised during cross-validation",
+                    pd.DataFrame({"warning": list(validation_notes)}),
+                    index=False,
+                    shown=False,
+                ),
+            )
     return s, numbers

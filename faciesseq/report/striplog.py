@@ -99,6 +99,20 @@ def _runs(beds: pd.DataFrame, column: str) -> list[tuple[float, float, str]]:
     return out
 
 
+def _facies_boxes(beds: pd.DataFrame, widths: np.ndarray) -> list[tuple[float, float, str, float]]:
+    """``(top, base, facies, width)`` of runs of touching beds with one facies and width."""
+    out: list[tuple[float, float, str, float]] = []
+    for (top, base, code), width in zip(
+        beds[["top", "base", "facies"]].itertuples(index=False, name=None), widths, strict=True
+    ):
+        top, base, code, width = float(top), float(base), str(code), float(width)
+        if out and out[-1][2] == code and out[-1][3] == width and abs(out[-1][1] - top) < 1e-9:
+            out[-1] = (out[-1][0], base, code, width)
+        else:
+            out.append((top, base, code, width))
+    return out
+
+
 def _gaps(beds: pd.DataFrame) -> list[tuple[float, float]]:
     top = beds["top"].to_numpy(float)
     base = beds["base"].to_numpy(float)
@@ -194,15 +208,16 @@ def strip_log(
         b_top = beds["top"].to_numpy(float)
         b_thk = (beds["base"] - beds["top"]).to_numpy(float)
         b_mid = b_top + b_thk / 2
-        codes = beds["facies"].astype(str).tolist()
 
-        # 1. facies column
+        # 1. facies column: touching cells of one facies and width drawn as one box
+        # (depth-grid cells would otherwise be outlined one by one)
+        boxes = _facies_boxes(beds, widths)
         ax_f.barh(
-            b_mid,
-            widths,
-            height=b_thk,
+            [(t + b) / 2 for t, b, _, _ in boxes],
+            [w for _, _, _, w in boxes],
+            height=[b - t for t, b, _, _ in boxes],
             left=0.0,
-            color=[_facies_colour(scheme, c) for c in codes],
+            color=[_facies_colour(scheme, c) for _, _, c, _ in boxes],
             edgecolor="#333333",
             linewidth=0.3,
         )
@@ -269,16 +284,18 @@ def strip_log(
             hi = float(getattr(pick, "depth_base", depth))
             ax_s.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
             ax_s.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
+            # the label stays inside the panel: right of the marker, or left of it near 1
+            right = prob <= 0.62
             ax_s.text(
-                min(prob + 0.04, 1.02),
+                prob + 0.05 if right else prob - 0.05,
                 depth,
                 f"{pick.surface} {prob:.2f}",
-                va="center",
-                ha="left",
+                va="bottom",
+                ha="left" if right else "right",
                 fontsize=6,
                 color=colour,
                 parse_math=False,
-                clip_on=False,
+                bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
             )
             for ax in (ax_f, ax_t):
                 ax.axhline(depth, color=colour, lw=0.7, ls="--")
