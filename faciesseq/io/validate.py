@@ -706,15 +706,6 @@ def _samples_to_intervals(
     return table, problems
 
 
-def _count_beds(core: Core) -> int:
-    """Beds of a core (as :meth:`Core.beds` amalgamates them) without building the table."""
-    facies = core.intervals["facies"].to_numpy(dtype=object)
-    segment = core.segment_ids()
-    if len(facies) == 0:
-        return 0
-    return 1 + int(((facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])).sum())
-
-
 def build_coreset(
     tables: list[RawTable],
     *,
@@ -812,7 +803,7 @@ def build_coreset(
             )
             continue
         core = Core(name, part.reset_index(drop=True), target)
-        n_beds = _count_beds(core)
+        n_beds = len(core.beds())
         if n_beds < 2:
             problems.append(
                 Problem(
