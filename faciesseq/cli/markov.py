@@ -107,7 +107,8 @@ def _write_out(directory: str, report, scheme, text: str, json_text: str) -> Non
     import tempfile
     from pathlib import Path
 
-    from faciesseq.report.markov_figures import facies_relationship_diagram
+    from faciesseq.report.markov_section import relationship_diagram
+    from faciesseq.report.style import save_figure
 
     target = Path(directory)
     if target.exists() and not target.is_dir():
@@ -121,8 +122,9 @@ def _write_out(directory: str, report, scheme, text: str, json_text: str) -> Non
         (tmp / "markov.json").write_text(json_text, encoding="utf-8")
         for name, frame in report.to_frames().items():
             frame.to_csv(tmp / f"{name}.csv", index=frame.index.name is not None)
+        diagram = relationship_diagram(report, scheme)
         for suffix in (".png", ".svg"):
-            facies_relationship_diagram(report, scheme, tmp / f"facies_relationship{suffix}")
+            save_figure(diagram, tmp / f"facies_relationship{suffix}")
         if not target.exists():
             os.replace(tmp, target)
             return

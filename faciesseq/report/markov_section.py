@@ -232,12 +232,28 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
             "Facies relationship diagram: arrows for upward transitions more frequent than "
             "chance (observed minus expected probability above 0.05); solid where the "
             "adjusted residual is significant.",
-            figures.facies_relationship_diagram(
-                _masked(fo.difference, fo.structural, codes), scheme, significant=sig
-            ),
+            relationship_diagram(report, scheme),
         )
     )
     return s
+
+
+def relationship_diagram(report, scheme: FaciesScheme | None = None):
+    """The facies relationship diagram of a :class:`~faciesseq.markov.MarkovReport`.
+
+    Arrows for cells of the first-order difference matrix above chance (structural
+    zeros left out), solid where the adjusted residual is significant; see
+    :func:`faciesseq.report.figures.facies_relationship_diagram`.
+    """
+    from faciesseq.report import figures
+
+    fo = report.first_order
+    codes = list(report.codes)
+    return figures.facies_relationship_diagram(
+        _masked(fo.difference, fo.structural, codes),
+        scheme,
+        significant=_labelled(fo.significant, codes).astype(bool),
+    )
 
 
 def _masked(matrix: np.ndarray, structural: np.ndarray, codes) -> pd.DataFrame:
