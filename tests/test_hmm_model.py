@@ -163,12 +163,17 @@ def test_clamped_beds_keep_their_labels(train):
 def test_impossible_labels_are_freed_with_a_warning_naming_core_and_depth(train):
     from faciesseq.errors import InputError
     from faciesseq.hmm.model import LabelWarning
+    from faciesseq.simulate.wells import history_tract_model
 
+    # the cycle with only FSST and TST skippable (the default lets any tract be absent)
+    cycle = history_tract_model(default_tract_model())
     s = train[0]
     lab = [None] * len(s)
-    lab[0], lab[1], lab[2] = "TST", "LST", "LST"  # TST -> LST upward is not in the graph
+    lab[0], lab[1], lab[2] = "TST", "LST", "LST"  # TST -> LST upward is not in that graph
     with pytest.warns(LabelWarning, match=rf"core {s.core}, depth .*TST -> LST"):
-        model = TractHMM(scheme=synth.scheme(), n_restarts=1).fit([s], labels=[lab])
+        model = TractHMM(tract_model=cycle, scheme=synth.scheme(), n_restarts=1).fit(
+            [s], labels=[lab]
+        )
     assert model.n_labelled_ == 1
     lab[0] = "ZZ"
     with pytest.raises(InputError, match=rf"core {s.core}.*'ZZ' is not a tract"):
