@@ -45,6 +45,7 @@ from faciesseq.scheme import default_tract_model, load_scheme  # noqa: E402
 
 TRAIN_SEEDS = (21, 22, 23, 24, 25)
 TEST_SEEDS = (26, 27)
+GRID_STEPS = (0.5,)
 
 
 def _simulated(seeds, name="scenario-ramp.yaml"):
@@ -207,6 +208,24 @@ def simulated_section(name: str) -> str:
             + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
             + " | - | - | - | - | - |"
         )
+    # a depth grid instead of beds: can the model place a boundary inside a bed?
+    grid = []
+    for step in GRID_STEPS:
+        tr_g, te_g = train.successions("grid", step), test.successions("grid", step)
+        for method, labels in (("supervised", "true_tract"), ("unsupervised", None)):
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                model = TractHMM(scheme=scheme, unit="grid", step=step, random_state=0).fit(
+                    tr_g, labels=labels
+                )
+            cells = pd.concat([c.beds for c in model.decode(te_g)], ignore_index=True)
+            acc = float(np.mean(cells["true_tract"].astype(str) == cells["tract"].astype(str)))
+            grid.append(f"{method} {acc:.3f} (step {step} m)")
+    lines += [
+        "",
+        'Depth grid (`unit="grid"`, default model; share of grid cells decoded right, '
+        "to compare with the thickness accuracy of beds): " + ", ".join(grid) + ".",
+    ]
     lines += [
         "",
         "True tracts of the decoded beds: "
