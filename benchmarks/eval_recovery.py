@@ -4,8 +4,9 @@ Run from the repository root::
 
     MPLBACKEND=Agg python benchmarks/eval_recovery.py
 
-1. Simulated cores with truth (``configs/scenario-ramp.yaml`` and
-   ``configs/scenario-hinge-table.yaml``, the forward model of
+1. Simulated cores with truth (``configs/scenario-ramp.yaml``,
+   ``configs/scenario-hinge-table.yaml`` and
+   ``configs/scenario-asymmetric-shelf.yaml``, the forward model of
    ``faciesseq.simulate``): fit on seeds 21-25, decode seeds 26-27 (seeds not
    used to tune anything), with the default tract model and with
    ``configs/tracts-skip-highstand-lowstand.yaml``; supervised (``true_tract``),
@@ -428,6 +429,8 @@ def main() -> None:
         simulated_section("scenario-ramp.yaml"),
         "",
         simulated_section("scenario-hinge-table.yaml"),
+        "",
+        simulated_section("scenario-asymmetric-shelf.yaml"),
         "",
         synthetic_section(),
         "",
