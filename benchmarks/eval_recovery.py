@@ -41,7 +41,7 @@ from _results import machine, stamp, write_section  # noqa: E402
 
 from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm.baseline import trend_rule  # noqa: E402
-from faciesseq.hmm.model import TractHMM  # noqa: E402
+from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM  # noqa: E402
 from faciesseq.scheme import default_tract_model, load_scheme  # noqa: E402
 
 TRAIN_SEEDS = (21, 22, 23, 24, 25)
@@ -76,6 +76,7 @@ def _configurations():
     default = default_tract_model()
     return (
         ("default", default, None),
+        ("default + rank_trend", default, (*DEFAULT_FEATURES, "rank_trend")),
         ("default graph, previous features", default, PREVIOUS_FEATURES),
         (
             "previous default (cycle graph, previous features)",

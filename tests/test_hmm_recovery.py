@@ -151,3 +151,51 @@ def test_decoded_tracts_stack_as_their_names_say_on_held_out_cores(ramp):
     assert np.mean(np.array(steps["FSST"]) < 0) > 0.6
     beds = pd.concat([c.beds for c in interp])
     assert np.mean(beds["true_tract"] == beds["tract"]) > 0.65
+
+
+def test_rank_trend_is_the_regression_slope_over_five_beds():
+    # delta feature (Furui 1986, IEEE Trans. ASSP 34:52-59):
+    # d_t = sum_n n (r_t+n - r_t-n) / (2 sum_n n^2), n = 1, 2; ends repeat the end rank
+    from faciesseq.hmm.emissions import rank_trends
+
+    ranks = np.arange(7.0)
+    facies = np.array([0, 1, 2, 3, 4, 5, 6, 6, 5, 4])  # two successions: 7 beds, 3 beds
+    d = rank_trends(facies, np.array([7, 3]), ranks)
+    np.testing.assert_allclose(d[2:5], 1.0)  # steady deepening: one rank per bed
+    # first bed: (1 * (1 - 0) + 2 * (2 - 0)) / 10
+    assert d[0] == pytest.approx(0.5)
+    # the second succession does not see the first: (1*(5-6) + 2*(4-6)) / 10 at its base
+    assert d[7] == pytest.approx(-0.5)
+    # an unknown facies takes the rank of the bed below
+    unknown = rank_trends(np.array([0, -2, 2, 3, 4]), np.array([5]), ranks)
+    ref = rank_trends(np.array([0, 0, 2, 3, 4]), np.array([5]), ranks)
+    np.testing.assert_allclose(unknown, ref)
+    assert np.isnan(rank_trends(np.array([0]), np.array([1]), ranks)).all()
+
+
+def test_rank_trend_bins_and_model_file(tmp_path):
+    import json
+
+    from faciesseq.hmm.emissions import EncodedBeds, RankTrendEmission
+
+    piece = RankTrendEmission(2)
+    x = np.array([-1.0, -0.3, -0.1, 0.0, 0.1, 0.3, 1.0, np.nan])
+    beds = EncodedBeds(
+        np.array([8]), np.zeros(8, int), np.zeros(8, int), np.zeros(8, int), {"rank_trend": x}
+    )
+    np.testing.assert_array_equal(piece._observed(beds), [0, 1, 2, 3, 4, 5, 6, MISSING])
+    train = synth.cores(4, 40, seed=7)
+    features = ("facies_trend", "thickness", "rank_step", "rank_trend")
+    model = TractHMM(scheme=synth.scheme(), features=features, n_restarts=1, max_iter=5)
+    model.fit(train, labels="true_tract")
+    # the slope prior follows the stacking pattern: TST favours deepening bins
+    tst = model.emission("rank_trend").emissionprob_[model.states_.tracts.index("TST")]
+    assert tst[4:].sum() > tst[:3].sum()
+    doc = model_to_dict(model)
+    path = tmp_path / "m.json"
+    path.write_text(json.dumps(doc))
+    assert load_model(path).score(train) == pytest.approx(model.score(train), abs=1e-9)
+    doc["ranks"] = None
+    path.write_text(json.dumps(doc))
+    with pytest.raises(ModelFileError, match="needs the facies ranks"):
+        load_model(path)

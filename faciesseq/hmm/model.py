@@ -54,10 +54,14 @@ __all__ = [
 ]
 
 #: Emission features with a fixed meaning; any other name is a numeric bed attribute.
-FEATURES = ("facies", "facies_trend", "thickness", "contact", "rank_step")
+FEATURES = ("facies", "facies_trend", "thickness", "contact", "rank_step", "rank_trend")
 #: Used when ``features=None`` ("contact" only where the beds have contact types,
 #: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
+#: "rank_trend" is opt-in: it helps on simulated cores, hurts on cores whose
+#: lowstand deepens (see docs/hmm.md, measured accuracy).
 DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
+#: Features computed from the facies ranks of the scheme.
+RANK_FEATURES = ("rank_step", "rank_trend")
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -181,10 +185,11 @@ class TractHMM:
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
         thickness, Gaussian), ``"contact"``, ``"rank_step"`` (the rank jump at
-        the bed's base, categorical; needs a scheme) and any numeric bed
-        attribute (Gaussian). ``None``: ``facies_trend``, ``thickness`` (not on
-        a depth grid), ``contact`` where the beds have them and ``rank_step``
-        with a scheme.
+        the bed's base, categorical; needs a scheme), ``"rank_trend"`` (slope
+        of the rank over five beds, binned, categorical; needs a scheme) and any numeric
+        bed attribute (Gaussian). ``None``: ``facies_trend``, ``thickness``
+        (not on a depth grid), ``contact`` where the beds have them and
+        ``rank_step`` with a scheme.
     substates
         Sub-states per tract (left-to-right chain); an int for every tract, a
         mapping tract -> int, or ``None`` for the tract model's own.
@@ -289,7 +294,7 @@ class TractHMM:
                 f
                 for f in DEFAULT_FEATURES
                 if (f != "contact" or "contact" in columns)
-                and (f != "rank_step" or self.scheme is not None)
+                and (f not in RANK_FEATURES or self.scheme is not None)
             ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
                 feats.remove("thickness")
@@ -304,11 +309,9 @@ class TractHMM:
         if not ({"facies", "facies_trend"} & set(feats)):
             raise ConfigError("the features must include 'facies' or 'facies_trend'")
         for f in feats:
-            if f == "rank_step":
+            if f in RANK_FEATURES:
                 if self.scheme is None:
-                    raise ConfigError(
-                        "feature 'rank_step' needs a facies scheme with ranks (--scheme)"
-                    )
+                    raise ConfigError(f"feature {f!r} needs a facies scheme with ranks (--scheme)")
                 continue
             if f not in ("facies", "facies_trend") and f not in columns:
                 raise ConfigError(
