@@ -325,8 +325,10 @@ class TractModel:
     ``order`` is the cyclic succession upward (older to younger), e.g.
     HST -> FSST -> LST -> TST -> HST. ``skips`` are tracts that may be absent:
     skipping tract X allows the boundary from the tract before X straight to
-    the tract after X. ``substates`` is the number of left-to-right sub-states
-    per tract used by the hidden Markov model (1 = a plain state).
+    the tract after X (skips in a row chain: with every tract listed, any tract
+    may follow any other, and only fitted transition priors favour the order).
+    ``substates`` is the number of left-to-right sub-states per tract used by
+    the hidden Markov model (1 = a plain state).
     """
 
     tracts: tuple[Tract, ...]
@@ -433,8 +435,8 @@ class TractModel:
         for s in skips:
             if s not in codes:
                 raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
-        if len(skips) >= len(codes) - 1:
-            raise ConfigError("skips: at least two tracts must remain", file=source)
+        if len(set(skips)) != len(skips):
+            raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
         raw_sub = data.get("substates") or {}
         if isinstance(raw_sub, int) and not isinstance(raw_sub, bool):
             raw_sub = {c: raw_sub for c in codes}

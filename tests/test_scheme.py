@@ -60,19 +60,53 @@ def test_draft_scheme_does_not_load_until_ranks_are_filled(tmp_path):
 
 def test_default_tract_model_order_skips_and_surfaces():
     # Cyclic order upward HST -> FSST -> LST -> TST -> HST (Catuneanu et al. 2009,
-    # Earth-Science Reviews 92:1-33); FSST and TST may be absent.
+    # Earth-Science Reviews 92:1-33); at one well any tract may be missing (common
+    # practice), so every boundary is allowed and each is named by its chief surface.
     model = default_tract_model()
     assert model.order == ("HST", "FSST", "LST", "TST")
-    assert model.successors("HST") == ("FSST", "LST")
-    assert model.successors("LST") == ("TST", "HST")
-    assert model.successors("TST") == ("HST",)
+    assert set(model.skips) == {"HST", "FSST", "LST", "TST"}
+    assert model.successors("HST") == ("FSST", "LST", "TST")
+    assert model.successors("TST") == ("HST", "FSST", "LST")
     assert model.surface("TST", "HST").code == "MFS"
     assert model.surface("LST", "TST").code == "MRS"
+    assert model.surface("HST", "FSST").code == "BSFR"
+    assert model.surface("FSST", "LST").code == "SB"
+    # a highstand thinner than a bed: MFS and BSFR coincide, named MFS
+    assert model.surface("TST", "FSST").code == "MFS"
+    assert model.surface("FSST", "TST").code == "SB"
+    allowed = model.allowed()
+    for i, lower in enumerate(model.order):
+        for j, upper in enumerate(model.order):
+            assert allowed[i][j]
+            if i != j:
+                assert model.surface(lower, upper) is not None, (lower, upper)
+
+
+def test_tract_model_with_only_the_cycle_order():
+    data = default_tract_model().to_dict()
+    data["skips"] = []
+    data["surfaces"] = [s for s in data["surfaces"] if s["code"] in ("BSFR", "SB", "MRS", "MFS")][
+        :4
+    ]
+    model = TractModel.from_dict(data)
+    assert model.successors("HST") == ("FSST",)
+    assert model.successors("TST") == ("HST",)
     assert model.surface("HST", "TST") is None
+
+
+def test_tract_model_rejects_a_skip_listed_twice():
+    data = default_tract_model().to_dict()
+    data["skips"] = ["HST", "HST"]
+    with pytest.raises(ConfigError, match="listed twice"):
+        TractModel.from_dict(data, source="t.yaml")
 
 
 def test_tract_model_rejects_a_surface_on_a_forbidden_boundary():
     data = default_tract_model().to_dict()
+    data["skips"] = ["FSST", "TST"]
+    old = {("HST", "FSST"), ("FSST", "LST"), ("HST", "LST"), ("LST", "TST"), ("TST", "HST")}
+    data["surfaces"] = [s for s in data["surfaces"] if (s["lower"], s["upper"]) in old]
+    TractModel.from_dict(data)  # the cycle with FSST and TST skippable is valid
     data["surfaces"].append({"lower": "TST", "upper": "FSST", "code": "X", "name": "x"})
     with pytest.raises(ConfigError, match="not a boundary"):
         TractModel.from_dict(data, source="t.yaml")

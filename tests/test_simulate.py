@@ -18,6 +18,7 @@ from faciesseq.errors import ConfigError
 from faciesseq.scheme import default_tract_model
 from faciesseq.simulate import scenario_from_dict, simulate
 from faciesseq.simulate.scenario import Noise
+from faciesseq.simulate.wells import history_tract_model, surface_path
 
 SCHEME = "configs/scheme-shoreface.yaml"
 
@@ -149,7 +150,7 @@ def test_slow_rise_progrades_and_fast_rise_transgresses():
 
 def test_tract_order_upward_follows_the_cycle(quiet):
     # Catuneanu et al. 2009: HST -> FSST -> LST -> TST -> HST upward
-    model = default_tract_model()
+    model = history_tract_model(default_tract_model())
     allowed = model.allowed()
     idx = {c: i for i, c in enumerate(model.order)}
     runs = [t for t, _, _ in _runs(quiet.steps["tract"].tolist())]
@@ -310,7 +311,7 @@ def test_shipped_scenarios_run_with_tracts_in_the_model_order(path):
     from faciesseq.simulate import load_scenario
 
     result = simulate(load_scenario(path))
-    model = default_tract_model()
+    model = history_tract_model(default_tract_model())
     allowed = model.allowed()
     idx = {c: i for i, c in enumerate(model.order)}
     runs = [t for t, _, _ in _runs(result.steps["tract"].tolist())]
@@ -353,3 +354,19 @@ def test_erosion_only_where_exposed_during_fall(quiet):
             hist.time_kyr[k + 1] - hist.time_kyr[k]
         )
         assert (before[eroded[k]] > hist.base_level_m[k + 1]).all()
+
+
+def test_true_surfaces_of_a_tract_missing_at_a_well_are_listed_together():
+    # Catuneanu et al. 2009 (Earth-Science Reviews 92:1-33): where the highstand is
+    # missing at a well, the MFS and the basal surface of forced regression coincide;
+    # where the lowstand is missing, the sequence boundary and the MRS. The decoding
+    # model lets any tract be absent (direct TST -> FSST), the truth keeps both surfaces.
+    model = default_tract_model()
+    assert model.allowed()[3][1]  # TST -> FSST is a boundary of the decoding model
+    history = history_tract_model(model)
+    assert surface_path(history, "TST", "FSST") == [("TST", "HST"), ("HST", "FSST")]
+    assert surface_path(history, "FSST", "TST") == [("FSST", "LST"), ("LST", "TST")]
+    # no relative fall: HST straight to LST under one sequence boundary, no BSFR
+    assert surface_path(history, "HST", "LST") == [("HST", "LST")]
+    assert model.surface("HST", "LST").code == "SB"
+    assert surface_path(model, "TST", "FSST") == [("TST", "FSST")]

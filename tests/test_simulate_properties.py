@@ -10,6 +10,7 @@ from hypothesis import strategies as st
 
 from faciesseq.scheme import default_tract_model
 from faciesseq.simulate import scenario_from_dict, simulate
+from faciesseq.simulate.wells import history_tract_model
 
 EXCEPTIONS = {("FSST", "TST"), ("TST", "FSST")}
 BANDS = {"CP": 0, "FS": 1.5, "USF": 5, "LSF": 10, "OTZ": 18, "OFF": 35, "SHM": float("inf")}
@@ -70,7 +71,7 @@ def test_budget_tracts_and_cores_hold_for_any_scenario(scenario):
     # successive tracts are boundaries of the four-tract cycle, with the one exception
     # docs/simulate.md lists: a lowstand or highstand shorter than one step, where
     # FSST and TST meet directly
-    model = default_tract_model()
+    model = history_tract_model(default_tract_model())
     allowed = model.allowed()
     idx = {c: i for i, c in enumerate(model.order)}
     tracts = steps["tract"].tolist()

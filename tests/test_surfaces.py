@@ -45,15 +45,26 @@ def test_boundary_probabilities_sum_xi_over_the_tract_pairs_of_each_surface():
     probs = boundary_probabilities(xi, tm, states.state_tract)
     codes = surface_codes(tm)
     labels = states.labels()
-    mfs = (
-        xi[:, labels.index("TST.2"), labels.index("HST")]
-        + xi[:, labels.index("TST.1"), labels.index("HST")]
+    # MFS: TST -> HST, and TST -> FSST / TST -> LST where the highstand is missing,
+    # from either TST sub-state
+    mfs = sum(
+        xi[:, labels.index(a), labels.index(b)]
+        for a in ("TST.1", "TST.2")
+        for b in ("HST", "FSST", "LST")
     )
     np.testing.assert_allclose(probs[:, codes.index("MFS")], mfs)
-    # the two sequence-boundary pairs (FSST->LST, HST->LST) add into one code
-    sb = (
-        xi[:, labels.index("FSST"), labels.index("LST")]
-        + xi[:, labels.index("HST"), labels.index("LST")]
+    # the sequence-boundary pairs add into one code
+    sb = sum(
+        xi[:, labels.index(a), labels.index(b)]
+        for a, b in [
+            ("FSST", "LST"),
+            ("HST", "LST"),
+            ("HST", "TST.1"),
+            ("HST", "TST.2"),
+            ("FSST", "TST.1"),
+            ("FSST", "TST.2"),
+            ("FSST", "HST"),
+        ]
     )
     np.testing.assert_allclose(probs[:, codes.index("SB")], sb)
 

@@ -54,9 +54,14 @@ __all__ = [
 ]
 
 #: Emission features with a fixed meaning; any other name is a numeric bed attribute.
-FEATURES = ("facies", "facies_trend", "thickness", "contact")
-#: Used when ``features=None`` ("contact" only where the beds have contact types).
-DEFAULT_FEATURES = ("facies_trend", "thickness", "contact")
+FEATURES = ("facies", "facies_trend", "thickness", "contact", "rank_step", "rank_trend")
+#: Used when ``features=None`` ("contact" only where the beds have contact types,
+#: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
+#: "rank_trend" is opt-in: it helps on simulated cores, hurts on cores whose
+#: lowstand deepens (see docs/hmm.md, measured accuracy).
+DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
+#: Features computed from the facies ranks of the scheme.
+RANK_FEATURES = ("rank_step", "rank_trend")
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -179,9 +184,12 @@ class TractHMM:
     features
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
-        thickness, Gaussian), ``"contact"`` and any numeric bed attribute
-        (Gaussian). ``None``: ``facies_trend``, ``thickness`` (not on a depth
-        grid) and, where the beds have them, ``contact``.
+        thickness, Gaussian), ``"contact"``, ``"rank_step"`` (the rank jump at
+        the bed's base, categorical; needs a scheme), ``"rank_trend"`` (slope
+        of the rank over five beds, binned, categorical; needs a scheme) and any numeric
+        bed attribute (Gaussian). ``None``: ``facies_trend``, ``thickness``
+        (not on a depth grid), ``contact`` where the beds have them and
+        ``rank_step`` with a scheme.
     substates
         Sub-states per tract (left-to-right chain); an int for every tract, a
         mapping tract -> int, or ``None`` for the tract model's own.
@@ -282,7 +290,12 @@ class TractHMM:
     def _resolve_features(self, tables: Sequence[pd.DataFrame]) -> tuple[str, ...]:
         columns = set().union(*(t.columns for t in tables)) if tables else set()
         if self.features is None:
-            feats = [f for f in DEFAULT_FEATURES if f != "contact" or "contact" in columns]
+            feats = [
+                f
+                for f in DEFAULT_FEATURES
+                if (f != "contact" or "contact" in columns)
+                and (f not in RANK_FEATURES or self.scheme is not None)
+            ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
                 feats.remove("thickness")
         else:
@@ -296,6 +309,10 @@ class TractHMM:
         if not ({"facies", "facies_trend"} & set(feats)):
             raise ConfigError("the features must include 'facies' or 'facies_trend'")
         for f in feats:
+            if f in RANK_FEATURES:
+                if self.scheme is None:
+                    raise ConfigError(f"feature {f!r} needs a facies scheme with ranks (--scheme)")
+                continue
             if f not in ("facies", "facies_trend") and f not in columns:
                 raise ConfigError(
                     f"feature {f!r} needs a bed column {f!r}, which the data lacks "
@@ -328,7 +345,7 @@ class TractHMM:
 
     def _encode(self, tables: Sequence[pd.DataFrame]) -> EncodedBeds:
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
-        return encode_beds(tables, self.facies_, self.contacts_, numeric)
+        return encode_beds(tables, self.facies_, self.contacts_, numeric, self.ranks_)
 
     def _new_pieces(self, beds: EncodedBeds) -> list[EmissionPiece]:
         tm = self.tract_model_

@@ -22,13 +22,15 @@ units are described as beds:
 Truth kept with every bed: ``true_tract``, the water depth at deposition and
 the age. Surfaces are placed where the true tract changes upward between
 successive beds; where tracts are missing at a well (not deposited or eroded)
-the surfaces of the shortest path through the tract model sit at one depth
+the surfaces of the shortest path through the tract succession in time
+(:func:`history_tract_model`) sit at one depth
 (e.g. a sequence boundary directly on a highstand where no falling-stage
 deposits reached the well).
 """
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 from collections import deque
 
@@ -39,7 +41,7 @@ from faciesseq.scheme import TractModel
 from faciesseq.simulate.model import SectionHistory
 from faciesseq.simulate.scenario import Scenario, Well
 
-__all__ = ["describe_well", "surface_path", "well_layers"]
+__all__ = ["describe_well", "history_tract_model", "surface_path", "well_layers"]
 
 _THIN = 1e-9
 
@@ -210,6 +212,26 @@ def _beds(units: list[dict], scenario: Scenario, rng: np.random.Generator) -> li
     return beds
 
 
+#: Tracts the base-level history itself may lack (the step rule of
+#: :mod:`faciesseq.simulate.model`): no FSST without a relative fall, no TST where
+#: supply outpaces the rise. HST and LST always last at least one step.
+HISTORY_SKIPS = ("FSST", "TST")
+
+
+def history_tract_model(model: TractModel) -> TractModel:
+    """The tract model with only the skips of base-level history (:data:`HISTORY_SKIPS`).
+
+    A tract model for decoding cores may let any tract be absent at a well (a thin
+    highstand inside one described bed, a lowstand confined basinward); the true
+    surfaces of a simulated well are named along the tract succession in time, so
+    where a tract that did exist in time is missing at the well, its bounding
+    surfaces are listed together at one depth (e.g. an MFS and a BSFR where the
+    highstand is missing; Catuneanu et al. 2009, Earth-Science Reviews 92:1-33).
+    """
+    skips = tuple(t for t in HISTORY_SKIPS if t in model.order)
+    return dataclasses.replace(model, skips=skips)
+
+
 def surface_path(model: TractModel, lower: str, upper: str) -> list[tuple[str, str]]:
     """Boundaries of the shortest path from ``lower`` to ``upper`` upward in the tract model."""
     if lower == upper:
@@ -299,11 +321,12 @@ def describe_well(
     # true surfaces, where the true tract changes upward (beds base to top)
     surfaces = []
     tracts = table["true_tract"].to_numpy(dtype=object)
+    history = history_tract_model(model)
     for i in range(len(table) - 1, 0, -1):
         lower, upper = tracts[i], tracts[i - 1]
         if lower == upper:
             continue
-        for a, b in surface_path(model, lower, upper):
+        for a, b in surface_path(history, lower, upper):
             named = model.surface(a, b)
             if named is None:
                 continue
