@@ -40,14 +40,20 @@ def demo_source() -> Path:
     return Path(str(resources.files("faciesseq").joinpath("data/demo")))
 
 
-def has_labels(cores: CoreSet, column: str) -> bool:
-    """True when some interval carries an interpreter's label in ``column``."""
+def labelled_cores(cores: CoreSet, column: str) -> list[str]:
+    """Names of the cores where some interval carries an interpreter's label in ``column``."""
+    names = []
     for core in cores:
         if column in core.intervals.columns:
-            values = core.intervals[column]
-            if values.notna().any() and (values.astype(str).str.strip() != "").any():
-                return True
-    return False
+            values = core.intervals[column].dropna()
+            if (values.astype(str).str.strip() != "").any():
+                names.append(core.name)
+    return names
+
+
+def has_labels(cores: CoreSet, column: str) -> bool:
+    """True when some interval carries an interpreter's label in ``column``."""
+    return bool(labelled_cores(cores, column))
 
 
 @dataclass
@@ -98,17 +104,17 @@ def run_appendix(
         Facies scheme; tract model (default: the packaged four-tract model).
     model
         A fitted ``TractHMM`` (e.g. loaded from a model file). ``None``: one
-        is fitted with the default settings (semi-supervised on the ``labels``
-        column where it holds interpreted tracts, else unsupervised), and the
-        appendix says so.
+        is fitted with the default settings (supervised on the cores whose
+        ``labels`` column holds interpreted tracts, else unsupervised on all
+        cores), and the appendix says so.
     model_source
         Where ``model`` came from (shown in the appendix).
     labels
         Bed column with interpreters' tracts for cross-validation; skipped when
         absent or empty.
     validate_mode
-        ``"supervised"`` (training labels clamp the states) or
-        ``"unsupervised"``; see ``faciesseq.validation.cross_validate``.
+        ``"supervised"``, ``"semi-supervised"`` or ``"unsupervised"``; see
+        ``faciesseq.validation.cross_validate``.
     folds, surrogates, seed, n_restarts
         Cross-validation folds, Monte Carlo surrogates of the Markov tests,
         the one seed of every random step, EM restarts of a fitted model.
@@ -151,8 +157,10 @@ def run_appendix(
 
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
+            # supervised: fitted on the interpreted cores (semi-supervised EM over
+            # the other cores measured worse in cross-validation; docs/hmm.md)
             selection = select_model(
-                cores,
+                cores.subset(labelled_cores(cores, labels)) if labelled else cores,
                 substates=tuple(int(k) for k in substates),
                 labels=labels if labelled else None,
                 tract_model=tract_model,
@@ -165,7 +173,8 @@ def run_appendix(
             model = selection.best
         fit_notes = _dedupe(str(w.message) for w in caught)
         how = (
-            f"semi-supervised: the interpreted beds of column {labels!r} keep their tract"
+            f"supervised: fitted on the {len(labelled_cores(cores, labels))} cores with "
+            f"interpreted beds in column {labels!r}, which keep their tract"
             if labelled
             else "unsupervised"
         )

@@ -336,6 +336,18 @@ def _baseline(
     return result
 
 
+#: How each fold's model is fitted (see :func:`cross_validate`).
+VALIDATION_MODES = ("supervised", "semi-supervised", "unsupervised")
+
+
+def _has_label(succession: Succession, labels: str) -> bool:
+    """Whether any bed of the succession carries a (non-blank) label."""
+    values = succession.beds[labels]
+    return bool(
+        values.notna().to_numpy().any() and (values.dropna().astype(str).str.strip() != "").any()
+    )
+
+
 def cross_validate(
     successions: CoreSet | Sequence[Succession],
     labels: str,
@@ -357,8 +369,11 @@ def cross_validate(
     folds
         Number of folds (at most the number of cores).
     mode
-        ``"supervised"``: training cores' labels clamp the states;
-        ``"unsupervised"``: training ignores the labels (tests identifiability).
+        ``"supervised"`` (default): each fold's model is fitted on the training
+        cores that carry labels, their labelled beds clamping the states;
+        ``"semi-supervised"``: fitted on every training core, labelled beds
+        clamped and the rest by EM; ``"unsupervised"``: fitted on every training
+        core with the labels ignored (tests identifiability).
     random_state
         Seeds the deal of cores to folds and the model's restarts.
     progress
@@ -369,8 +384,8 @@ def cross_validate(
     """
     from faciesseq.hmm.model import TractHMM, _as_successions
 
-    if mode not in ("supervised", "unsupervised"):
-        raise ConfigError(f"mode must be 'supervised' or 'unsupervised', got {mode!r}")
+    if mode not in VALIDATION_MODES:
+        raise ConfigError(f"mode must be one of {list(VALIDATION_MODES)}, got {mode!r}")
     unit, step = params.get("unit", "beds"), params.get("step")
     succ = [s for s in _as_successions(successions, unit, step) if len(s)]
     if succ and labels not in succ[0].beds.columns:
@@ -396,8 +411,16 @@ def cross_validate(
     for k in range(folds):
         train = [s for s in succ if fold_of[s.core] != k]
         test = [s for s in succ if fold_of[s.core] == k]
+        if mode == "supervised":
+            with_labels = {s.core for s in train if _has_label(s, labels)}
+            train = [s for s in train if s.core in with_labels]
+            if not train:
+                raise ConfigError(
+                    f"fold {k + 1}: no training core carries labels in {labels!r}; use fewer "
+                    "folds or --mode semi-supervised"
+                )
         model = TractHMM(random_state=random_state, **params)
-        model.fit(train, labels=labels if mode == "supervised" else None)
+        model.fit(train, labels=None if mode == "unsupervised" else labels)
         interp = model.decode(test)
         base = _baseline(test, interp, scheme, tract_model)
         for core in dict.fromkeys(s.core for s in test):

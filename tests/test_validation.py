@@ -63,3 +63,40 @@ def test_too_many_folds_is_a_config_error():
     succ = synth.cores(2, 20, seed=52)
     with pytest.raises(ConfigError, match="need at least 3 cores"):
         cross_validate(succ, "true_tract", folds=3, scheme=synth.scheme())
+
+
+def _without_labels(succ, keep):
+    """The same successions with the labels of every core not in ``keep`` blanked."""
+    from faciesseq.core import Succession
+
+    out = []
+    for s in succ:
+        beds = s.beds.copy()
+        if s.core not in keep:
+            beds["true_tract"] = None
+        out.append(Succession(s.core, s.segment, beds, s.units))
+    return out
+
+
+def test_supervised_folds_fit_only_the_labelled_cores():
+    succ = synth.cores(6, 60, seed=52)
+    cores = list(dict.fromkeys(s.core for s in succ))
+    partly = _without_labels(succ, set(cores[:4]))
+    kwargs = {"folds": 2, "scheme": synth.scheme(), "n_restarts": 1, "random_state": 3}
+    supervised = cross_validate(partly, "true_tract", mode="supervised", **kwargs)
+    semi = cross_validate(partly, "true_tract", mode="semi-supervised", **kwargs)
+    # the same held-out labelled beds are scored in both modes ...
+    assert len(supervised.beds) == len(semi.beds) > 0
+    assert set(supervised.beds.dropna(subset=["label"])["core"]) <= set(cores[:4])
+    # ... but semi-supervised EM also used the unlabelled training cores
+    assert not np.array_equal(
+        supervised.beds.filter(like="p_").to_numpy(), semi.beds.filter(like="p_").to_numpy()
+    )
+    assert supervised.settings["mode"] == "supervised"
+    with pytest.raises(ConfigError, match="no training core carries labels"):
+        cross_validate(
+            _without_labels(succ, {cores[0]}),
+            "true_tract",
+            mode="supervised",
+            **kwargs | {"random_state": 0, "folds": 6},
+        )

@@ -52,10 +52,10 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
     )
     group.add_argument(
         "--validate-mode",
-        choices=("supervised", "unsupervised"),
+        choices=("supervised", "semi-supervised", "unsupervised"),
         default="supervised",
-        help="cross-validation: training labels clamp the states (supervised, default) or "
-        "are ignored",
+        help="cross-validation: each fold fitted on its labelled cores (supervised, default), "
+        "on all its cores with labelled beds clamped, or without labels",
     )
     group.add_argument("--folds", type=int, default=3, metavar="K", help="cross-validation folds")
     group.add_argument(

@@ -39,9 +39,11 @@ def register(subparsers) -> None:
     parser.add_argument("--folds", type=int, default=5, metavar="K", help="folds (5)")
     parser.add_argument(
         "--mode",
-        choices=("supervised", "unsupervised"),
+        choices=("supervised", "semi-supervised", "unsupervised"),
         default="supervised",
-        help="fit folds with the labels (default) or without them (tests identifiability)",
+        help="fit each fold on its labelled cores (supervised, default), on all its cores "
+        "with labelled beds clamped (semi-supervised), or without labels (unsupervised: "
+        "tests identifiability)",
     )
     parser.add_argument("-o", "--output", metavar="OUT", help="write the tables to this folder")
     parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")

@@ -447,7 +447,8 @@ def model_section(
         settings = dict(getattr(validation, "settings", {}) or {})
         val.add(
             Paragraph(
-                f"{validation.folds}-fold cross-validation by core: each core is decoded by a "
+                f"{validation.folds}-fold cross-validation by core "
+                f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
                 "model fitted without it and compared bed by bed with the interpreter's "
                 f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
                 "by a stacking-trend rule without a model."
