@@ -10,8 +10,10 @@ from pathlib import Path
 
 
 def machine() -> str:
+    """Machine facts and the load average when the run ended (other jobs slow wall time)."""
     cpus = os.cpu_count()
-    return f"{platform.machine()}, {cpus} CPU(s), Python {platform.python_version()}"
+    load = f", load average {os.getloadavg()[0]:.2f}" if hasattr(os, "getloadavg") else ""
+    return f"{platform.machine()}, {cpus} CPU(s), Python {platform.python_version()}{load}"
 
 
 def stamp() -> str:

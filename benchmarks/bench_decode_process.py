@@ -77,7 +77,7 @@ def main() -> None:
         [
             "## `faciesseq decode` of one 1,000-bed core, whole process",
             "",
-            f"Measured {stamp()} on {machine()}, other helpers loading the same cores; "
+            f"Measured {stamp()} on {machine()}, "
             f"command: `python benchmarks/bench_decode_process.py --repeat {args.repeat}`.",
             "",
             "| process | median s | min s |",

@@ -140,7 +140,7 @@ def main() -> None:
     lines = [
         "## Peak memory of a fit on 10 million beds",
         "",
-        f"Measured {stamp()} on {machine()}, other helpers loading the same cores; command: "
+        f"Measured {stamp()} on {machine()}, command: "
         f"`python benchmarks/bench_fit_memory.py --beds {args.beds} --iterations "
         f"{args.iterations}`. {rows[0]['states']} hidden states, feature `facies_trend`, "
         f"{args.beds // 10_000} cores of 10,000 beds, EM iterations per run: "

@@ -424,7 +424,7 @@ def main() -> None:
     parts = [
         "## Recovery of known tracts, and real data",
         "",
-        f"Measured {stamp()} on {machine()}, other helpers loading the same 2 cores; "
+        f"Measured {stamp()} on {machine()}, "
         "command: `MPLBACKEND=Agg python benchmarks/eval_recovery.py`.",
         "",
         simulated_section("scenario-ramp.yaml"),
