@@ -77,6 +77,7 @@ def _configurations():
     return (
         ("default", default, None),
         ("default + rank_trend", default, (*DEFAULT_FEATURES, "rank_trend")),
+        ("default + rank_step_above", default, (*DEFAULT_FEATURES, "rank_step_above")),
         ("default graph, previous features", default, PREVIOUS_FEATURES),
         (
             "previous default (cycle graph, previous features)",

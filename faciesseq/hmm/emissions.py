@@ -178,7 +178,7 @@ def encode_beds(
         else:
             contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
         for name in numeric:
-            if name in (RANK_STEP, RANK_TREND):
+            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND):
                 continue  # computed below, from the coded facies
             col = "thickness" if name == "thickness" else name
             if col in table.columns:
@@ -213,6 +213,8 @@ def encode_beds(
         values[RANK_STEP] = rank_steps(fac, prev, ranks)
     if RANK_TREND in numeric:
         values[RANK_TREND] = rank_trends(fac, lengths, ranks)
+    if RANK_STEP_ABOVE in numeric:
+        values[RANK_STEP_ABOVE] = rank_steps_above(fac, lengths, ranks)
     return EncodedBeds(lengths, fac, prev, contact, values)
 
 
@@ -274,6 +276,30 @@ def rank_trends(
 
 #: Name of the derived feature "rank jump at the bed's base".
 RANK_STEP = "rank_step"
+#: Name of the derived feature "rank jump at the bed's top".
+RANK_STEP_ABOVE = "rank_step_above"
+
+
+def rank_steps_above(
+    facies: np.ndarray, lengths: np.ndarray, ranks: np.ndarray | None
+) -> np.ndarray:
+    """Rank of the bed above minus the rank of each bed (``NaN`` where unknown).
+
+    The jump at the bed's top, within each succession (the top bed has none).
+    With the jump at the base (:func:`rank_steps`) it tells the deepest bed of
+    a deepening-to-shallowing turnaround (base +, top -) from the beds of a
+    steady trend: the turnaround of common practice where the maximum
+    flooding surface lies (Catuneanu et al. 2009, Earth-Science Reviews 92:1-33).
+    """
+    out = np.full(len(facies), np.nan)
+    if ranks is None or len(facies) < 2:
+        return out
+    r = np.asarray(ranks, dtype=float)
+    rank = np.where(facies >= 0, r[np.maximum(facies, 0)], np.nan)
+    out[:-1] = rank[1:] - rank[:-1]
+    ends = np.cumsum(lengths) - 1
+    out[ends[lengths > 0]] = np.nan
+    return out
 
 
 def rank_steps(facies: np.ndarray, previous: np.ndarray, ranks: np.ndarray | None) -> np.ndarray:
@@ -843,8 +869,36 @@ class RankTrendEmission(CategoricalEmission):
         return out
 
 
+class RankStepAboveEmission(RankStepEmission):
+    """P(rank jump at the bed's top | tract): :class:`RankStepEmission` read one bed up.
+
+    Same categories and priors as the jump at the base; the top bed of a
+    succession has none (marginalised). See :func:`rank_steps_above`.
+    """
+
+    kind = "rank_step_above"
+
+    def __init__(
+        self,
+        n_tracts: int,
+        pseudo: np.ndarray | None = None,
+        unseen_pseudo: float = 0.5,
+        name: str = RANK_STEP_ABOVE,
+    ) -> None:
+        super().__init__(n_tracts, pseudo, unseen_pseudo, name)
+
+    def _observed(self, beds: EncodedBeds) -> np.ndarray:
+        x = beds.numeric[RANK_STEP_ABOVE]
+        known = np.isfinite(x)
+        out = np.full(len(x), MISSING, dtype=np.int64)
+        out[known] = np.clip(np.rint(x[known]), -self.LIMIT, self.LIMIT).astype(np.int64)
+        out[known] += self.LIMIT
+        return out
+
+
 _KINDS = {
     "rank_step": RankStepEmission,
+    "rank_step_above": RankStepAboveEmission,
     "rank_trend": RankTrendEmission,
     "facies": FaciesEmission,
     "contact": ContactEmission,
@@ -944,6 +998,10 @@ def make_piece(
         return ContactEmission(contacts, n_tracts, np.full((n_tracts, len(contacts)), base))
     if feature == RANK_STEP:
         return RankStepEmission(n_tracts, rank_step_pseudo_counts(trends, prior_strength, base))
+    if feature == RANK_STEP_ABOVE:
+        return RankStepAboveEmission(
+            n_tracts, rank_step_pseudo_counts(trends, prior_strength, base)
+        )
     if feature == RANK_TREND:
         pseudo = rank_step_pseudo_counts(
             trends, prior_strength, base, RankTrendEmission.CENTRES, aggrading_limit=0.25

@@ -54,14 +54,22 @@ __all__ = [
 ]
 
 #: Emission features with a fixed meaning; any other name is a numeric bed attribute.
-FEATURES = ("facies", "facies_trend", "thickness", "contact", "rank_step", "rank_trend")
+FEATURES = (
+    "facies",
+    "facies_trend",
+    "thickness",
+    "contact",
+    "rank_step",
+    "rank_step_above",
+    "rank_trend",
+)
 #: Used when ``features=None`` ("contact" only where the beds have contact types,
 #: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
 #: "rank_trend" is opt-in: it helps on simulated cores, hurts on cores whose
 #: lowstand deepens (see docs/hmm.md, measured accuracy).
 DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
 #: Features computed from the facies ranks of the scheme.
-RANK_FEATURES = ("rank_step", "rank_trend")
+RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend")
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -185,7 +193,9 @@ class TractHMM:
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
         thickness, Gaussian), ``"contact"``, ``"rank_step"`` (the rank jump at
-        the bed's base, categorical; needs a scheme), ``"rank_trend"`` (slope
+        the bed's base, categorical; needs a scheme), ``"rank_step_above"``
+        (the same jump at the bed's top: the bed above minus this bed; needs a
+        scheme), ``"rank_trend"`` (slope
         of the rank over five beds, binned, categorical; needs a scheme) and any numeric
         bed attribute (Gaussian). ``None``: ``facies_trend``, ``thickness``
         (not on a depth grid), ``contact`` where the beds have them and

@@ -275,11 +275,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             )
         cats = getattr(piece, "categories", None)
         expected = contacts if feature == "contact" else facies
-        if feature in ("rank_step", "rank_trend") and ranks is None:
+        if feature in ("rank_step", "rank_step_above", "rank_trend") and ranks is None:
             raise ModelFileError(
                 f"emission {feature!r} needs the facies ranks ('ranks' is null)", file=source
             )
-        if piece.kind in ("rank_step", "rank_trend"):
+        if piece.kind in ("rank_step", "rank_step_above", "rank_trend"):
             cats = None  # fixed categories, checked by the piece itself
         if cats is not None and list(cats) != [str(c) for c in expected]:
             raise ModelFileError(
