@@ -7,9 +7,10 @@ Run from the repository root::
 Common practice (Catuneanu et al. 2009, Earth-Science Reviews 92:1-33) puts the
 maximum flooding surface at the top of the most distal (deepest-ranked) facies
 of the turnaround from deepening- to shallowing-upward. This script fits the
-default tract model on simulated cores (seeds 21-25 of the three scenarios of
-``eval_recovery.py``), decodes the held-out seeds 26-27, and re-picks the MFS
-from the decoded per-contact MFS probabilities with four rules:
+default tract model (and the default with ``rank_step_above``) on simulated
+cores (seeds 21-25 of the three scenarios of ``eval_recovery.py``), decodes
+the held-out seeds 26-27, and re-picks the MFS from the decoded per-contact
+MFS probabilities with four rules:
 
 - ``peak``: the package's rule (most probable contact of each cluster);
 - ``zone deepest``: the contact at the top of the deepest bed of the cluster
@@ -43,10 +44,15 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 from _results import machine, stamp, write_section  # noqa: E402
 from eval_recovery import TEST_SEEDS, TRAIN_SEEDS, _mfs_within_one_bed, _simulated  # noqa: E402
 
-from faciesseq.hmm.model import TractHMM  # noqa: E402
+from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
 
 SCENARIOS = ("scenario-ramp.yaml", "scenario-hinge-table.yaml", "scenario-asymmetric-shelf.yaml")
+#: (name, emission features): the default and the default with the jump at the bed's top.
+FEATURE_SETS = (
+    ("default", None),
+    ("+ rank_step_above", (*DEFAULT_FEATURES, "rank_step_above")),
+)
 RULES = ("peak", "zone deepest", "interval deepest", "nearest turnaround")
 
 
@@ -150,23 +156,27 @@ def main() -> None:
         "1 bed (share of true MFSs with a pick <= 1 contact away) / MFS picks within 1 bed "
         "of a true MFS / median depth error of the nearest pick (m).",
         "",
-        "| scenario | method | true MFSs | mass >= 0.5 near truth | mass >= 0.2 near truth | "
-        + " | ".join(RULES)
-        + " |",
-        "|---|---|---|---|---|" + "---|" * len(RULES),
+        "| scenario | features | method | true MFSs | mass >= 0.5 near truth "
+        "| mass >= 0.2 near truth | " + " | ".join(RULES) + " |",
+        "|---|---|---|---|---|---|" + "---|" * len(RULES),
     ]
     for name in SCENARIOS:
         train, _ = _simulated(TRAIN_SEEDS, name)
         test, true_surfaces = _simulated(TEST_SEEDS, name)
         tr, te = train.successions("beds"), test.successions("beds")
-        for method, labels in (
-            ("supervised", "true_tract"),
-            ("semi-supervised", "tract"),
-            ("unsupervised", None),
+        for (fname, features), (method, labels) in (
+            (f, m)
+            for f in FEATURE_SETS
+            for m in (
+                ("supervised", "true_tract"),
+                ("semi-supervised", "tract"),
+                ("unsupervised", None),
+            )
         ):
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                model = TractHMM(scheme=scheme, random_state=0).fit(tr, labels=labels)
+                model = TractHMM(scheme=scheme, features=features, random_state=0)
+                model.fit(tr, labels=labels)
             interp = model.decode(te)
             m5, m2, n = _mass_near_truth(interp, true_surfaces)
             cells = []
@@ -176,9 +186,8 @@ def main() -> None:
                 )
                 cells.append(f"{recall:.2f} / {precision:.2f} / {err:.2f}")
             lines.append(
-                f"| {name.removesuffix('.yaml')} | {method} | {n} | {m5:.2f} | {m2:.2f} | "
-                + " | ".join(cells)
-                + " |"
+                f"| {name.removesuffix('.yaml')} | {fname} | {method} | {n} "
+                f"| {m5:.2f} | {m2:.2f} | " + " | ".join(cells) + " |"
             )
     lines += ["", f"(whole evaluation: {time.perf_counter() - t0:.0f} s)"]
     text = "\n".join(lines)
