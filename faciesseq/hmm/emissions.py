@@ -460,16 +460,20 @@ class CategoricalEmission(EmissionPiece):
     def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
         cats = [str(c) for c in data["categories"]]
         piece = cls(cats, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]), name=data["name"])
-        V = len(cats)
-        piece.pseudo = _check_table(f"{piece.name}.pseudo", data["pseudo"], (n_tracts, V), source)
-        piece.emissionprob_ = _check_table(
-            f"{piece.name}.emissionprob", data["emissionprob"], (n_tracts, V), source
+        return piece._load_tables(data, n_tracts, source)
+
+    def _load_tables(self, data: Mapping, n_tracts: int, source: str | None):
+        """Pseudo-counts and probabilities from a model file, shapes and sums checked."""
+        V = len(self.categories)
+        self.pseudo = _check_table(f"{self.name}.pseudo", data["pseudo"], (n_tracts, V), source)
+        self.emissionprob_ = _check_table(
+            f"{self.name}.emissionprob", data["emissionprob"], (n_tracts, V), source
         )
-        _check_probabilities(f"{piece.name}.emissionprob", piece.emissionprob_, source)
-        piece.unseen_prob_ = _check_table(
-            f"{piece.name}.unseen_prob", data["unseen_prob"], (n_tracts,), source
+        _check_probabilities(f"{self.name}.emissionprob", self.emissionprob_, source)
+        self.unseen_prob_ = _check_table(
+            f"{self.name}.unseen_prob", data["unseen_prob"], (n_tracts,), source
         )
-        return piece
+        return self
 
 
 class FaciesEmission(CategoricalEmission):
@@ -754,16 +758,7 @@ class RankStepEmission(CategoricalEmission):
                 file=source,
             )
         piece = cls(n_tracts, unseen_pseudo=float(data["unseen_pseudo"]), name=data["name"])
-        V = len(expected)
-        piece.pseudo = _check_table(f"{piece.name}.pseudo", data["pseudo"], (n_tracts, V), source)
-        piece.emissionprob_ = _check_table(
-            f"{piece.name}.emissionprob", data["emissionprob"], (n_tracts, V), source
-        )
-        _check_probabilities(f"{piece.name}.emissionprob", piece.emissionprob_, source)
-        piece.unseen_prob_ = _check_table(
-            f"{piece.name}.unseen_prob", data["unseen_prob"], (n_tracts,), source
-        )
-        return piece
+        return piece._load_tables(data, n_tracts, source)
 
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
         x = beds.numeric[RANK_STEP]
@@ -850,16 +845,7 @@ class RankTrendEmission(CategoricalEmission):
                 file=source,
             )
         piece = cls(n_tracts, unseen_pseudo=float(data["unseen_pseudo"]), name=data["name"])
-        V = len(cls.CATEGORIES)
-        piece.pseudo = _check_table(f"{piece.name}.pseudo", data["pseudo"], (n_tracts, V), source)
-        piece.emissionprob_ = _check_table(
-            f"{piece.name}.emissionprob", data["emissionprob"], (n_tracts, V), source
-        )
-        _check_probabilities(f"{piece.name}.emissionprob", piece.emissionprob_, source)
-        piece.unseen_prob_ = _check_table(
-            f"{piece.name}.unseen_prob", data["unseen_prob"], (n_tracts,), source
-        )
-        return piece
+        return piece._load_tables(data, n_tracts, source)
 
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
         x = beds.numeric[RANK_TREND]
