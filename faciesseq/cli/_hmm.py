@@ -26,7 +26,9 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         action="append",
         metavar="LIST",
         help="comma-separated emission features: facies or facies_trend, thickness, contact, "
-        "any numeric bed column (e.g. grain_size); default facies_trend,thickness,contact"
+        "rank_step (rank jump at the bed's base), rank_step_above (at its top), rank_trend, "
+        "any numeric bed column (e.g. grain_size); default facies_trend,thickness,contact, "
+        "plus rank_step when a scheme gives ranks"
         + ("; repeat to compare sets of the same variables by BIC" if select else ""),
     )
     group.add_argument(
