@@ -46,6 +46,7 @@ from eval_recovery import TEST_SEEDS, TRAIN_SEEDS, _mfs_within_one_bed, _simulat
 
 from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
+from faciesseq.surfaces import surface_clusters  # noqa: E402
 
 SCENARIOS = ("scenario-ramp.yaml", "scenario-hinge-table.yaml", "scenario-asymmetric-shelf.yaml")
 #: (name, emission features): the default and the default with the jump at the bed's top.
@@ -56,39 +57,6 @@ FEATURE_SETS = (
 RULES = ("peak", "zone deepest", "interval deepest", "nearest turnaround")
 
 
-def _clusters(p, threshold=0.5, mass=0.9, floor=0.02):
-    """(a, b, peak, lo, hi) of every cluster with mass >= threshold (as pick_surfaces)."""
-    out, n, i = [], len(p), 0
-    while i < n:
-        if p[i] < floor:
-            i += 1
-            continue
-        j = i
-        while j + 1 < n and p[j + 1] >= floor:
-            j += 1
-        cuts = [i] + [k for k in range(i + 1, j) if p[k] < p[k - 1] and p[k] <= p[k + 1]]
-        bounds = [*cuts, j + 1]
-        for c in range(len(bounds) - 1):
-            a, b = bounds[c], bounds[c + 1] - 1
-            total = p[a : b + 1].sum()
-            if total < threshold:
-                continue
-            peak = a + int(np.argmax(p[a : b + 1]))
-            lo, hi, acc = peak, peak, p[peak]
-            while acc < mass * total - 1e-12 and (lo > a or hi < b):
-                below = p[lo - 1] if lo > a else -1.0
-                above = p[hi + 1] if hi < b else -1.0
-                if below >= above:
-                    lo -= 1
-                    acc += p[lo]
-                else:
-                    hi += 1
-                    acc += p[hi]
-            out.append((a, b, peak, lo, hi))
-        i = j + 1
-    return out
-
-
 def _pick(rule, p, rank):
     """Contact indices (depth order, shallowest first) of the MFS picks under ``rule``."""
     rank = np.where(np.isnan(rank), -np.inf, rank)
@@ -96,7 +64,7 @@ def _pick(rule, p, rank):
     down = np.r_[rank[1:], -np.inf]
     turn = (rank >= up) & (rank >= down) & ((rank > up) | (rank > down))
     picks = []
-    for a, b, peak, lo, hi in _clusters(p):
+    for a, b, peak, lo, hi in surface_clusters(p):
         if rule == "peak":
             picks.append(peak)
         elif rule == "zone deepest":

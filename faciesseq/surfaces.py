@@ -126,8 +126,27 @@ def pick_surfaces(
     the pick contact) and the contact indices of the interval ends.
     """
     p = np.asarray(probability, dtype=float)
+    zones = surface_clusters(p, threshold, mass, floor)
+    picks = [peak for _, _, peak, _, _ in zones]
+    lows = [lo for _, _, _, lo, _ in zones]
+    highs = [hi for _, _, _, _, hi in zones]
+    probs = [p[peak] for peak in picks]
+    as_int = lambda v: np.asarray(v, dtype=int)  # noqa: E731
+    return SurfacePicks(as_int(picks), np.asarray(probs, dtype=float), as_int(lows), as_int(highs))
+
+
+def surface_clusters(
+    probability: np.ndarray, threshold: float = 0.5, mass: float = 0.9, floor: float = 0.02
+) -> list[tuple[int, int, int, int, int]]:
+    """The clusters :func:`pick_surfaces` picks from, as ``(a, b, peak, lo, hi)``.
+
+    Contact indices: the cluster spans ``a..b``, its most probable contact is
+    ``peak`` and its highest-density interval ``lo..hi``; only clusters whose
+    probability mass reaches ``threshold`` are listed.
+    """
+    p = np.asarray(probability, dtype=float)
     n = len(p)
-    picks, probs, lows, highs = [], [], [], []
+    out: list[tuple[int, int, int, int, int]] = []
     i = 0
     while i < n:
         if p[i] < floor:
@@ -159,13 +178,9 @@ def pick_surfaces(
                 else:
                     hi += 1
                     acc += p[hi]
-            picks.append(peak)
-            probs.append(p[peak])
-            lows.append(lo)
-            highs.append(hi)
+            out.append((a, b, peak, lo, hi))
         i = j + 1
-    as_int = lambda v: np.asarray(v, dtype=int)  # noqa: E731
-    return SurfacePicks(as_int(picks), np.asarray(probs, dtype=float), as_int(lows), as_int(highs))
+    return out
 
 
 def picks_frame(
