@@ -48,6 +48,14 @@ def add_source_arguments(parser: argparse.ArgumentParser, scheme: bool = True) -
     )
 
 
+def check_unit_step(args: argparse.Namespace) -> None:
+    """``--unit grid`` needs a positive ``--step``; ``--step`` goes with ``--unit grid`` only."""
+    if args.unit == "grid" and not (args.step and args.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
+    if args.unit == "beds" and args.step is not None:
+        raise ConfigError("--step is only used with --unit grid")
+
+
 def column_mapping(pairs: list[str]) -> dict[str, str]:
     """Parse repeated ``ROLE=NAME`` options."""
     mapping: dict[str, str] = {}

@@ -7,6 +7,7 @@ import sys
 import warnings
 from contextlib import contextmanager
 
+from faciesseq.cli._common import check_unit_step
 from faciesseq.errors import ConfigError
 
 
@@ -90,10 +91,7 @@ def substate_counts(args: argparse.Namespace) -> list[int | None]:
 
 
 def check_unit(args: argparse.Namespace) -> None:
-    if args.unit == "grid" and not (args.step and args.step > 0):
-        raise ConfigError("--unit grid needs a positive --step (depth units)")
-    if args.unit == "beds" and args.step is not None:
-        raise ConfigError("--step is only used with --unit grid")
+    check_unit_step(args)
     if args.restarts < 1:
         raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
     if args.jobs < 1:

@@ -5,7 +5,12 @@ from __future__ import annotations
 import argparse
 import sys
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_source_arguments,
+    check_unit_step,
+    load_scheme_option,
+    read_source,
+)
 from faciesseq.errors import ConfigError
 
 HELP = "transition statistics, Markov-order, homogeneity and cyclicity tests"
@@ -86,10 +91,7 @@ def register(subparsers) -> None:
 
 
 def _check(args: argparse.Namespace) -> None:
-    if args.unit == "grid" and not (args.step and args.step > 0):
-        raise ConfigError("--unit grid needs a positive --step (depth units)")
-    if args.unit == "beds" and args.step is not None:
-        raise ConfigError("--step applies to --unit grid only")
+    check_unit_step(args)
     if args.max_order < 1:
         raise ConfigError(f"--max-order must be at least 1, got {args.max_order}")
     if args.surrogates < 0:
