@@ -33,6 +33,15 @@ Pieces
     each side (ranks per bed, positive = deepening upward; the "delta" feature
     of Furui 1986), in seven bins, categorical per tract: the trend of the set
     of beds around. Pseudo-counts as for ``rank_step``.
+``stacking``
+    the stacking pattern around the bed: a gradient-boosted tree classifier
+    (:mod:`faciesseq.hmm.boosting`) learnt from labelled beds reads a window of
+    beds on each side (rank jumps to the bed, log thicknesses, contact types)
+    and gives P(tract | window); the piece emits the scaled likelihood
+    P(tract | window) / P(tract), the hybrid of a discriminative classifier
+    and an HMM of Bourlard & Morgan (1994, Connectionist Speech Recognition: A
+    Hybrid Approach). It needs labelled beds and a scheme; it is learnt once,
+    before EM, and does not change during EM.
 ``rank_step``
     the rank jump at the bed's base: its facies rank minus the rank of the bed
     below (positive = deepening upward), clipped to -3..+3, categorical per
@@ -71,6 +80,7 @@ __all__ = [
     "GaussianEmission",
     "RankStepEmission",
     "RankTrendEmission",
+    "StackingEmission",
     "UnseenCategoryWarning",
     "encode_beds",
     "make_piece",
@@ -180,6 +190,8 @@ def encode_beds(
         for name in numeric:
             if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND):
                 continue  # computed below, from the coded facies
+            if name == STACKING:
+                continue  # computed below, from the coded beds
             col = "thickness" if name == "thickness" else name
             if col in table.columns:
                 x = pd.to_numeric(table[col], errors="coerce").to_numpy(dtype=float)
@@ -215,7 +227,73 @@ def encode_beds(
         values[RANK_TREND] = rank_trends(fac, lengths, ranks)
     if RANK_STEP_ABOVE in numeric:
         values[RANK_STEP_ABOVE] = rank_steps_above(fac, lengths, ranks)
+    if STACKING in numeric:
+        if "thickness" not in values:
+            raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
+        values[STACKING] = stacking_window(fac, lengths, ranks, values["thickness"], contact)
     return EncodedBeds(lengths, fac, prev, contact, values)
+
+
+#: Name of the stacking-pattern feature (a classifier over a window of beds).
+STACKING = "stacking"
+#: Beds on each side of a bed in the stacking window.
+STACKING_HALF_WIDTH = 4
+
+
+def stacking_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
+    """Names of the columns of :func:`stacking_window`, in order."""
+    out = []
+    for k in range(-half_width, half_width + 1):
+        if k != 0:
+            out.append(f"rank_step[{k:+d}]")
+        out += [f"log_thickness[{k:+d}]", f"contact[{k:+d}]"]
+    return [*out, "rank"]
+
+
+def stacking_window(
+    facies: np.ndarray,
+    lengths: np.ndarray,
+    ranks: np.ndarray | None,
+    log_thickness: np.ndarray,
+    contact: np.ndarray,
+    half_width: int = STACKING_HALF_WIDTH,
+) -> np.ndarray:
+    """Window features of every bed for the ``stacking`` piece, ``(T, F)`` float32.
+
+    For each offset ``k`` in ``-half_width .. half_width`` (beds below are
+    negative), within the bed's own succession: the facies rank of bed
+    ``i + k`` minus that of bed ``i`` (``k != 0``), the log thickness of bed
+    ``i + k`` and its contact code; then the bed's own rank. ``NaN`` where the
+    offset leaves the succession or the value is unknown (the classifier
+    treats it as missing). Rank differences rather than ranks make the
+    window read a trend (deepening or shallowing upward) wherever in the
+    facies scale it sits. Column names: :func:`stacking_columns`.
+    """
+    T = len(facies)
+    W = int(half_width)
+    r = np.full(T, np.nan)
+    if ranks is not None and T:
+        rr = np.asarray(ranks, dtype=float)
+        r = np.where(facies >= 0, rr[np.maximum(facies, 0)], np.nan)
+    c = np.where(contact >= 0, contact, -1).astype(float)
+    c[c < 0] = np.nan
+    lt = np.asarray(log_thickness, dtype=float)
+    starts = np.repeat(np.r_[0, np.cumsum(lengths)[:-1]], lengths) if T else np.zeros(0, int)
+    ends = np.repeat(np.cumsum(lengths), lengths) if T else np.zeros(0, int)
+    idx = np.arange(T)
+    cols = []
+    for k in range(-W, W + 1):
+        j = idx + k
+        inside = (j >= starts) & (j < ends)
+        jc = np.clip(j, 0, max(T - 1, 0))
+        if k != 0:
+            cols.append(np.where(inside, r[jc] - r, np.nan))
+        cols.append(np.where(inside, lt[jc], np.nan))
+        cols.append(np.where(inside, c[jc], np.nan))
+    cols.append(r)
+    if not T:
+        return np.zeros((0, len(cols)), dtype=np.float32)
+    return np.column_stack(cols).astype(np.float32)
 
 
 #: Name of the derived feature "rank trend over the neighbouring beds".
@@ -347,9 +425,14 @@ def _check_probabilities(name: str, arr: np.ndarray, source: str | None) -> None
 
 
 class EmissionPiece:
-    """Base of the emission pieces (see the module docstring)."""
+    """Base of the emission pieces (see the module docstring).
+
+    ``static`` pieces do not change during EM, so their log-probabilities are
+    computed once per fit.
+    """
 
     kind: ClassVar[str] = ""
+    static: ClassVar[bool] = False
     name: str
 
     def log_prob(self, beds: EncodedBeds) -> np.ndarray:
@@ -882,7 +965,126 @@ class RankStepAboveEmission(RankStepEmission):
         return out
 
 
+class StackingEmission(EmissionPiece):
+    """Scaled likelihood P(tract | stacking window) / P(tract) from boosted trees.
+
+    The hybrid classifier-HMM of Bourlard & Morgan (1994): a classifier's
+    posterior divided by the class prior stands for the likelihood of the
+    observation, up to a factor common to all tracts, so Viterbi and
+    forward-backward use it as they would an emission. Why not only the
+    generative pieces: measured on simulated cores, a classifier over a window
+    of beds on each side separates the tracts far better than a product of
+    per-bed pieces (benchmarks/hmm_model.md), because a tract is a pattern of
+    several beds, not one bed. Learnt once from labelled beds (:meth:`train`);
+    EM leaves it alone (``static``). Probabilities below ``floor`` are raised
+    to it, so no tract is ever impossible from this piece alone; a tract with
+    no labelled bed gets ``log(floor)``.
+    """
+
+    kind = "stacking"
+    static = True
+
+    def __init__(
+        self,
+        n_tracts: int,
+        half_width: int = STACKING_HALF_WIDTH,
+        floor: float = 1e-3,
+        name: str = STACKING,
+    ) -> None:
+        self.name = name
+        self.n_tracts = int(n_tracts)
+        self.half_width = int(half_width)
+        self.floor = float(floor)
+        self.trees = None
+        self.class_prior_ = np.full(self.n_tracts, 1.0 / self.n_tracts)
+
+    def train(self, beds: EncodedBeds, labels: np.ndarray, random_state: int = 0) -> None:
+        """Learn the classifier from the beds with a label (``labels`` -1 = none)."""
+        from faciesseq.hmm.boosting import fit_boosted
+
+        labels = np.asarray(labels, dtype=np.int64)
+        known = labels >= 0
+        if not known.any():
+            raise ConfigError(
+                "the stacking feature is learnt from labelled beds; none are labelled "
+                "(give a label column, or leave the feature out)"
+            )
+        X = beds.numeric[STACKING][known]
+        y = labels[known]
+        self.trees = fit_boosted(X, y, self.n_tracts, random_state=int(random_state))
+        counts = np.bincount(y, minlength=self.n_tracts).astype(float)
+        prior = counts / counts.sum()
+        self.class_prior_ = np.where(counts > 0, prior, 1.0)
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        if self.trees is None:
+            raise ConfigError("the stacking piece is not trained")
+        p = self.trees.predict_proba(np.asarray(beds.numeric[STACKING], dtype=float))
+        return np.log(np.maximum(p, self.floor)) - np.log(self.class_prior_)[None, :]
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        return {}
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        return None
+
+    def m_step(self, stats: dict) -> None:
+        return None
+
+    def n_parameters(self) -> int:
+        return 0 if self.trees is None else int(self.trees.n_parameters())
+
+    def to_dict(self) -> dict[str, Any]:
+        if self.trees is None:
+            raise ConfigError("the stacking piece is not trained")
+        return {
+            "kind": self.kind,
+            "name": self.name,
+            "half_width": self.half_width,
+            "floor": self.floor,
+            "class_prior": self.class_prior_.tolist(),
+            "trees": self.trees.to_dict(),
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
+        from faciesseq.hmm.boosting import BoostedTrees
+
+        if int(data["half_width"]) != STACKING_HALF_WIDTH:
+            raise ModelFileError(
+                f"emission {data.get('name')!r}: half_width must be {STACKING_HALF_WIDTH}",
+                file=source,
+            )
+        floor = float(data["floor"])
+        if not 0 < floor < 1:
+            raise ModelFileError(
+                f"emission {data.get('name')!r}: floor must lie in (0, 1)", file=source
+            )
+        piece = cls(n_tracts, floor=floor, name=str(data["name"]))
+        prior = _check_table(f"{piece.name}.class_prior", data["class_prior"], (n_tracts,), source)
+        if np.any(prior <= 0) or np.any(prior > 1):
+            raise ModelFileError(
+                f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
+            )
+        piece.class_prior_ = prior
+        trees = BoostedTrees.from_dict(data["trees"], source)
+        if trees.n_classes != n_tracts:
+            raise ModelFileError(
+                f"emission {piece.name}: {trees.n_classes} classes for {n_tracts} tracts",
+                file=source,
+            )
+        width = 6 * STACKING_HALF_WIDTH + 3
+        if trees.n_features != width:
+            raise ModelFileError(
+                f"emission {piece.name}: {trees.n_features} window features, expected {width}",
+                file=source,
+            )
+        piece.trees = trees
+        return piece
+
+
 _KINDS = {
+    "stacking": StackingEmission,
     "rank_step": RankStepEmission,
     "rank_step_above": RankStepAboveEmission,
     "rank_trend": RankTrendEmission,
@@ -988,6 +1190,8 @@ def make_piece(
         return RankStepAboveEmission(
             n_tracts, rank_step_pseudo_counts(trends, prior_strength, base)
         )
+    if feature == STACKING:
+        return StackingEmission(n_tracts)
     if feature == RANK_TREND:
         pseudo = rank_step_pseudo_counts(
             trends, prior_strength, base, RankTrendEmission.CENTRES, aggrading_limit=0.25

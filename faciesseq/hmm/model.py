@@ -62,14 +62,19 @@ FEATURES = (
     "rank_step",
     "rank_step_above",
     "rank_trend",
+    "stacking",
 )
 #: Used when ``features=None`` ("contact" only where the beds have contact types,
 #: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
 #: "rank_trend" is opt-in: it helps on simulated cores, hurts on cores whose
 #: lowstand deepens (see docs/hmm.md, measured accuracy).
 DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
+#: Used when ``features=None`` and beds are labelled (supervised or semi-supervised
+#: fits): the stacking-pattern classifier learnt from the labelled beds. Measured
+#: on simulated cores in benchmarks/hmm_model.md.
+DEFAULT_LABELLED_FEATURES = (*DEFAULT_FEATURES, "stacking")
 #: Features computed from the facies ranks of the scheme.
-RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend")
+RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking")
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -133,6 +138,7 @@ class _Data:
     ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
     rule: np.ndarray  # (T,) trend-rule tract index
     cores: tuple[str, ...] = ()  # core of each succession
+    static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
 
 
 def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
@@ -297,12 +303,14 @@ class TractHMM:
         if int(self.max_iter) < 1:
             raise ConfigError(f"max_iter must be >= 1, got {self.max_iter!r}")
 
-    def _resolve_features(self, tables: Sequence[pd.DataFrame]) -> tuple[str, ...]:
+    def _resolve_features(
+        self, tables: Sequence[pd.DataFrame], labelled: bool = False
+    ) -> tuple[str, ...]:
         columns = set().union(*(t.columns for t in tables)) if tables else set()
         if self.features is None:
             feats = [
                 f
-                for f in DEFAULT_FEATURES
+                for f in (DEFAULT_LABELLED_FEATURES if labelled else DEFAULT_FEATURES)
                 if (f != "contact" or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
             ]
@@ -355,13 +363,43 @@ class TractHMM:
 
     def _encode(self, tables: Sequence[pd.DataFrame]) -> EncodedBeds:
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
+        if "stacking" in numeric and "thickness" not in numeric:
+            numeric.append("thickness")
         return encode_beds(tables, self.facies_, self.contacts_, numeric, self.ranks_)
+
+    def _train_static(self, beds: EncodedBeds, clamp: np.ndarray | None) -> dict:
+        """The static pieces (learnt once from the labelled beds, before EM), by feature."""
+        out = {}
+        if "stacking" not in self.features_:
+            return out
+        piece = make_piece(
+            "stacking",
+            facies=self.facies_,
+            contacts=self.contacts_,
+            n_tracts=self.states_.n_tracts,
+            ranks=self.ranks_,
+            trends=(),
+            prior_strength=float(self.prior_strength),
+            embedded=self.unit == "beds",
+        )
+        labels = np.full(len(beds), -1, dtype=np.int64)
+        if clamp is not None:
+            one = clamp.sum(axis=1) == 1
+            labels[one] = np.argmax(clamp[one], axis=1)
+        seed = self.random_state if isinstance(self.random_state, int) else 0
+        piece.train(beds, labels, random_state=seed)
+        out["stacking"] = piece
+        return out
 
     def _new_pieces(self, beds: EncodedBeds) -> list[EmissionPiece]:
         tm = self.tract_model_
         trends = [tm.tract(t).trend for t in tm.order]
         pieces = []
+        trained = getattr(self, "_trained", {})
         for f in self.features_:
+            if f in trained:
+                pieces.append(trained[f])
+                continue
             scale = (0.0, 1.0)
             if f in beds.numeric:
                 x = beds.numeric[f]
@@ -451,11 +489,33 @@ class TractHMM:
         return clamp, n_labelled
 
     # --------------------------------------------------------------- E and M
-    def _log_emission(self, pieces: Sequence[EmissionPiece], beds: EncodedBeds) -> np.ndarray:
+    def _log_emission(
+        self,
+        pieces: Sequence[EmissionPiece],
+        beds: EncodedBeds,
+        static: np.ndarray | None = None,
+    ) -> np.ndarray:
+        """Log-emission of every bed under every state; ``static``: the summed
+        log-probabilities of the static pieces, computed once (else computed here)."""
         tract_lp = np.zeros((len(beds), self.states_.n_tracts))
         for p in pieces:
-            tract_lp += p.log_prob(beds)
+            if static is None or not p.static:
+                tract_lp += p.log_prob(beds)
+        if static is not None:
+            tract_lp += static
         return tract_lp[:, self.states_.state_tract]
+
+    def _static_log_prob(self, pieces: Sequence[EmissionPiece], beds: EncodedBeds):
+        """Summed log-probabilities of the static pieces, ``(T, n_tracts)``, or None."""
+        fixed = [p for p in pieces if p.static]
+        if not fixed:
+            return None
+        out = np.zeros((len(beds), self.states_.n_tracts))
+        for a, b, lengths, _ in self._batches(beds.lengths):
+            part = beds.slice(a, b, lengths)
+            for p in fixed:
+                out[a:b] += p.log_prob(part)
+        return out
 
     def _batches(self, lengths: np.ndarray):
         """``(start, stop, lengths)`` of batches of whole successions."""
@@ -479,7 +539,8 @@ class TractHMM:
         total = 0.0
         for a, b, lengths, first in self._batches(data.beds.lengths):
             part = data.beds.slice(a, b, lengths)
-            le = self._log_emission(pieces, part)
+            static = None if data.static is None else data.static[a:b]
+            le = self._log_emission(pieces, part, static)
             if data.clamp is not None:
                 le = engine.constrained_log_emission(
                     le, data.clamp[a:b][:, self.states_.state_tract]
@@ -651,10 +712,15 @@ class TractHMM:
             raise InputError("no beds to fit the tract model on")
         tables = [s.beds for s in succ]
         self.states_ = StateSpace.build(self.tract_model_, self.substates)
-        self.features_ = self._resolve_features(tables)
+        clamp, n_labelled = self._labels(succ, labels)
+        self.features_ = self._resolve_features(tables, labelled=n_labelled > 0)
+        if "stacking" in self.features_ and n_labelled == 0:
+            raise ConfigError(
+                "feature 'stacking' is learnt from labelled beds; give a label column "
+                "(--labels) or leave the feature out"
+            )
         self._vocabularies(tables)
         beds = self._encode(tables)
-        clamp, n_labelled = self._labels(succ, labels)
         ranks = (
             np.full(len(beds), np.nan)
             if self.ranks_ is None
@@ -667,7 +733,15 @@ class TractHMM:
             if self.cycle_prior and self.prior_strength and self.ranks_ is not None
             else None
         )
-        data = _Data(beds, clamp, ranks, rule, tuple(s.core for s in succ))
+        self._trained = self._train_static(beds, clamp)
+        data = _Data(
+            beds,
+            clamp,
+            ranks,
+            rule,
+            tuple(s.core for s in succ),
+            self._static_log_prob(list(self._trained.values()), beds),
+        )
         rng = (
             self.random_state
             if isinstance(self.random_state, np.random.Generator)
@@ -710,6 +784,7 @@ class TractHMM:
         self.n_train_beds_ = len(beds)
         self.n_labelled_ = n_labelled
         self.cores_ = tuple(dict.fromkeys(s.core for s in succ))
+        del self._trained
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.
         return self

@@ -275,7 +275,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             )
         cats = getattr(piece, "categories", None)
         expected = contacts if feature == "contact" else facies
-        if feature in ("rank_step", "rank_step_above", "rank_trend") and ranks is None:
+        if feature in ("rank_step", "rank_step_above", "rank_trend", "stacking") and ranks is None:
             raise ModelFileError(
                 f"emission {feature!r} needs the facies ranks ('ranks' is null)", file=source
             )
