@@ -28,8 +28,9 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         metavar="LIST",
         help="comma-separated emission features: facies or facies_trend, thickness, contact, "
         "rank_step (rank jump at the bed's base), rank_step_above (at its top), rank_trend, "
+        "stacking (boosted trees over a window of beds, learnt from labelled beds), "
         "any numeric bed column (e.g. grain_size); default facies_trend,thickness,contact, "
-        "plus rank_step when a scheme gives ranks"
+        "plus rank_step when a scheme gives ranks, plus stacking when beds are labelled"
         + ("; repeat to compare sets of the same variables by BIC" if select else ""),
     )
     group.add_argument(

@@ -65,7 +65,6 @@ from numbers import Integral, Real
 from typing import Any, NamedTuple
 
 import numpy as np
-from scipy.special import expit
 
 from faciesseq.errors import ModelFileError
 
@@ -282,7 +281,7 @@ class BoostedTrees:
         if K == 1:
             proba[:, self.classes[0]] = 1.0
         elif K == 2:
-            p1 = expit(raw[:, 0])
+            p1 = _expit(raw[:, 0])
             proba[:, self.classes[1]] = p1
             proba[:, self.classes[0]] = 1 - p1
         else:
@@ -412,6 +411,13 @@ class BoostedTrees:
 
 
 # ---------------------------------------------------------------------- helpers
+def _expit(x: np.ndarray) -> np.ndarray:
+    """Logistic sigmoid in numpy (scipy.special costs a tenth of a second to import,
+    which a one-core decode would pay in full)."""
+    with np.errstate(over="ignore"):
+        return 1.0 / (1.0 + np.exp(-x))
+
+
 def _is_int(v: Any) -> bool:
     return isinstance(v, Integral) and not isinstance(v, bool)
 
@@ -467,38 +473,52 @@ def _tree_from_dict(tree: Any, n_features: int, where: str, fail) -> _Tree:
     for key, value in lists.items():
         if len(value) != n:
             raise fail(f"{where}.{key} has {len(value)} entries, expected {n} (one per node)")
+    # Checks run on whole lists (types by set, values with numpy): a model file
+    # holds hundreds of trees, and decoding one core must not wait on them.
     for key in ("feature", "left", "right"):
-        if not all(_is_int(v) for v in lists[key]):
+        if not {type(v) for v in lists[key]} <= {int}:
             raise fail(f"{where}.{key} must hold integers")
-    if not all(isinstance(v, bool) for v in lists["missing_left"]):
+    if not {type(v) for v in lists["missing_left"]} <= {bool}:
         raise fail(f"{where}.missing_left must hold true/false")
-    for j, v in enumerate(lists["value"]):
-        if not _is_finite(v):
-            raise fail(f"{where}.value[{j}] = {v!r} is not a finite number")
-    for j, v in enumerate(lists["threshold"]):
-        if v is not None and not _is_finite(v):
+    for key in ("value", "threshold"):
+        kinds = {type(v) for v in lists[key]}
+        allowed = {int, float} | ({type(None)} if key == "threshold" else set())
+        values = lists[key]
+        if not kinds <= allowed:
+            j = next(i for i, v in enumerate(values) if type(v) not in allowed)
+            raise fail(f"{where}.{key}[{j}] = {values[j]!r} is not a finite number")
+        arr = np.array([np.nan if v is None else v for v in values], dtype=np.float64)
+        bad = ~np.isfinite(arr) & np.array([v is not None for v in values])
+        if bad.any():
+            j = int(np.flatnonzero(bad)[0])
             raise fail(
-                f"{where}.threshold[{j}] = {v!r} is not a finite number "
-                "(null stands for +inf, a split on missing values)"
+                f"{where}.{key}[{j}] = {values[j]!r} is not a finite number"
+                + (
+                    " (null stands for +inf, a split on missing values)"
+                    if key == "threshold"
+                    else ""
+                )
             )
     feature = np.array(lists["feature"], dtype=np.intp)
     left = np.array(lists["left"], dtype=np.intp)
     right = np.array(lists["right"], dtype=np.intp)
     nodes = np.arange(n)
     leaf = left == -1
-    for j in nodes:
-        if leaf[j]:
-            if right[j] != -1 or feature[j] != -1:
-                raise fail(f"{where}: leaf {j} must have right = feature = -1")
-            continue
-        for side, child in (("left", left[j]), ("right", right[j])):
-            if not j < child < n:
-                raise fail(
-                    f"{where}.{side}[{j}] = {child} is out of range: a child must come "
-                    f"after its parent, within the tree's {n} nodes"
-                )
-        if not 0 <= feature[j] < n_features:
-            raise fail(f"{where}.feature[{j}] = {feature[j]} is out of range 0..{n_features - 1}")
+    odd = leaf & ((right != -1) | (feature != -1))
+    if odd.any():
+        raise fail(f"{where}: leaf {int(np.flatnonzero(odd)[0])} must have right = feature = -1")
+    for side, child in (("left", left), ("right", right)):
+        out = ~leaf & ~((nodes < child) & (child < n))
+        if out.any():
+            j = int(np.flatnonzero(out)[0])
+            raise fail(
+                f"{where}.{side}[{j}] = {child[j]} is out of range: a child must come "
+                f"after its parent, within the tree's {n} nodes"
+            )
+    out = ~leaf & ~((feature >= 0) & (feature < n_features))
+    if out.any():
+        j = int(np.flatnonzero(out)[0])
+        raise fail(f"{where}.feature[{j}] = {feature[j]} is out of range 0..{n_features - 1}")
     parents = np.bincount(np.r_[left[~leaf], right[~leaf]], minlength=n)
     bad = np.flatnonzero(parents[1:] != 1) + 1
     if bad.size:

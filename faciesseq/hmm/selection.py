@@ -81,6 +81,14 @@ def select_model(
                 }
             )
             models.append(model)
+    resolved = {
+        frozenset("facies" if f == "facies_trend" else f for f in m.features_) for m in models
+    }
+    if len(resolved) > 1:  # a default (None) set resolved to other variables than the rest
+        raise ConfigError(
+            "feature sets compared by BIC must observe the same bed variables; the default set "
+            "resolved to " + "; ".join(sorted(",".join(sorted(r)) for r in resolved))
+        )
     table = pd.DataFrame(rows)
     best = int(table["bic"].idxmin())
     table["selected"] = table.index == best
