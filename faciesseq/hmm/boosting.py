@@ -302,6 +302,16 @@ class BoostedTrees:
         return X
 
     # ------------------------------------------------------------------ summary
+    def split_counts(self) -> np.ndarray:
+        """Number of splits on each feature over all trees, ``(n_features,)``: which
+        columns the classifier reads (a plain count, not a measure of effect)."""
+        counts = np.zeros(self.n_features, dtype=np.int64)
+        for iteration in self._trees:
+            for tree in iteration:
+                f = tree.feature[tree.left >= 0]
+                counts += np.bincount(f, minlength=self.n_features)
+        return counts
+
     def n_parameters(self) -> int:
         """Total number of leaves over all trees (free parameters, for BIC)."""
         return self._n_leaves

@@ -31,6 +31,10 @@ REFERENCES = (
     "Entropy 16, 2839–2849.",
     "Rabiner, L. R. (1989). A tutorial on hidden Markov models and selected applications in "
     "speech recognition. Proceedings of the IEEE 77, 257–286.",
+    "Bourlard, H. & Morgan, N. (1994). Connectionist Speech Recognition: A Hybrid Approach. "
+    "Kluwer Academic Publishers, Boston.",
+    "Ke, G. et al. (2017). LightGBM: a highly efficient gradient boosting decision tree. "
+    "Advances in Neural Information Processing Systems 30, 3146–3154.",
     "Catuneanu, O. et al. (2009). Towards the standardization of sequence stratigraphy. "
     "Earth-Science Reviews 92, 1–33.",
 )
@@ -123,6 +127,10 @@ def methods_section(unit: str = "beds") -> Section:
             "highstand; Catuneanu et al. 2009) joined only by the boundaries the tract model "
             "allows. Each bed's facies is emitted given its tract and, optionally, the facies of "
             "the bed below, so that a tract is a stacking trend rather than a set of facies. "
+            "When interpreted beds are available, a gradient-boosted tree classifier learnt "
+            "from them reads a window of beds below and above each bed (rank jumps, thickness, "
+            "contacts) and its posterior divided by the tract frequency enters as one more "
+            "emission factor (the hybrid classifier-HMM of Bourlard & Morgan 1994). "
             "Parameters are estimated by expectation-maximisation (Baum-Welch) from several "
             "random starts with Dirichlet priors anchored by the facies' proximality ranks; "
             "forbidden transitions stay zero. With α and β the scaled forward and backward "

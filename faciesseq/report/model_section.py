@@ -223,6 +223,27 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
                         frame,
                     )
                 )
+        elif kind == "stacking":
+            from faciesseq.hmm.emissions import stacking_columns
+
+            counts = piece.trees.split_counts()
+            columns = stacking_columns(piece.half_width)
+            total = max(int(counts.sum()), 1)
+            frame = pd.DataFrame(
+                {"splits": counts, "share": counts / total},
+                index=pd.Index(columns, name="window feature"),
+            ).sort_values("splits", ascending=False, kind="stable")
+            sub.add(
+                TableBlock(
+                    key,
+                    f"Stacking piece: boosted trees ({piece.trees.n_iterations} rounds, "
+                    f"{piece.trees.n_parameters()} leaves) over a window of {piece.half_width} "
+                    "beds below and above each bed, learnt from the labelled beds; how often "
+                    "each window feature is split on (offsets: beds below negative, above "
+                    "positive; rank_step = rank of that bed minus the bed's own).",
+                    frame.head(12),
+                )
+            )
         elif hasattr(piece, "means_"):
             frame = pd.DataFrame(
                 {"mean": piece.means_, "sd": np.sqrt(np.asarray(piece.vars_, dtype=float))},
