@@ -78,8 +78,8 @@ def _classifiers():
         (
             "boosted trees",
             lambda: HistGradientBoostingClassifier(
-                max_iter=200,
-                learning_rate=0.05,
+                max_iter=100,
+                learning_rate=0.1,
                 max_leaf_nodes=15,
                 min_samples_leaf=10,
                 l2_regularization=1.0,
