@@ -93,3 +93,17 @@ def core(name: str, n_beds: int, rng: np.random.Generator) -> Succession:
 def cores(n_cores: int, n_beds: int, seed: int) -> list[Succession]:
     rng = np.random.default_rng(seed)
     return [core(f"S-{seed}-{k + 1}", n_beds, rng) for k in range(n_cores)]
+
+
+def simulated_beds(scenario, seeds) -> list[Succession]:
+    """Bed successions of the project's forward model (a loaded scenario) for the given
+    noise seeds, core names suffixed ``/s<seed>`` so seeds never share a core."""
+    from faciesseq.core import CoreSet
+    from faciesseq.simulate import simulate
+
+    frames = []
+    for seed in seeds:
+        t = simulate(scenario, seed=seed).cores.to_frame()
+        t["core"] = t["core"] + f"/s{seed}"
+        frames.append(t)
+    return CoreSet.from_frame(pd.concat(frames), units="m").successions("beds")

@@ -328,24 +328,16 @@ def test_supervised_fit_on_simulated_cores_beats_the_trend_rule():
     # configs/scenario-ramp.yaml; seeds 41-43 fit, 44 decode (not used to tune).
     from pathlib import Path
 
-    from faciesseq.core import CoreSet
     from faciesseq.hmm.baseline import trend_rule
     from faciesseq.scheme import load_scheme
-    from faciesseq.simulate import load_scenario, simulate
+    from faciesseq.simulate import load_scenario
 
     root = Path(__file__).resolve().parents[1]
     scenario = load_scenario(root / "configs" / "scenario-ramp.yaml")
     scheme = load_scheme(root / "configs" / "scheme-shoreface.yaml")
 
-    def cores(seeds):
-        frames = []
-        for seed in seeds:
-            t = simulate(scenario, seed=seed).cores.to_frame()
-            t["core"] = t["core"] + f"/s{seed}"
-            frames.append(t)
-        return CoreSet.from_frame(pd.concat(frames), units="m").successions("beds")
-
-    train, test = cores((41, 42, 43)), cores((44,))
+    train = synth.simulated_beds(scenario, (41, 42, 43))
+    test = synth.simulated_beds(scenario, (44,))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         model = TractHMM(scheme=scheme, random_state=0).fit(train, labels="true_tract")

@@ -10,7 +10,6 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.emissions import encode_beds, stacking_columns
 from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
@@ -115,19 +114,11 @@ def test_stacking_beats_the_per_bed_pieces_on_held_out_simulated_cores():
     """Forward model of the project (configs/scenario-ramp.yaml), noise seeds 61-63 to fit
     and 64 to decode (seeds used by no other test or benchmark): a supervised fit with the
     stacking piece decodes unseen cores better than the per-bed pieces alone."""
-    from faciesseq.simulate import load_scenario, simulate
+    from faciesseq.simulate import load_scenario
 
     scenario = load_scenario(ROOT / "configs" / "scenario-ramp.yaml")
-
-    def cores(seeds):
-        frames = []
-        for seed in seeds:
-            t = simulate(scenario, seed=seed).cores.to_frame()
-            t["core"] = t["core"] + f"/s{seed}"
-            frames.append(t)
-        return CoreSet.from_frame(pd.concat(frames), units="m").successions("beds")
-
-    train, test = cores((61, 62, 63)), cores((64,))
+    train = synth.simulated_beds(scenario, (61, 62, 63))
+    test = synth.simulated_beds(scenario, (64,))
     scores = {}
     for name, features in (("stacking", None), ("per-bed", DEFAULT_FEATURES)):
         model = _fit(scenario.scheme, train, features=features)
