@@ -188,9 +188,7 @@ def encode_beds(
         else:
             contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
         for name in numeric:
-            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND):
-                continue  # computed below, from the coded facies
-            if name == STACKING:
+            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND, STACKING):
                 continue  # computed below, from the coded beds
             col = "thickness" if name == "thickness" else name
             if col in table.columns:

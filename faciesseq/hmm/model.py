@@ -139,6 +139,7 @@ class _Data:
     rule: np.ndarray  # (T,) trend-rule tract index
     cores: tuple[str, ...] = ()  # core of each succession
     static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
+    trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
 
 
 def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
@@ -391,11 +392,13 @@ class TractHMM:
         out["stacking"] = piece
         return out
 
-    def _new_pieces(self, beds: EncodedBeds) -> list[EmissionPiece]:
+    def _new_pieces(
+        self, beds: EncodedBeds, trained: Mapping[str, EmissionPiece] | None = None
+    ) -> list[EmissionPiece]:
         tm = self.tract_model_
         trends = [tm.tract(t).trend for t in tm.order]
         pieces = []
-        trained = getattr(self, "_trained", {})
+        trained = trained or {}
         for f in self.features_:
             if f in trained:
                 pieces.append(trained[f])
@@ -631,7 +634,7 @@ class TractHMM:
     def _initial(self, data: _Data, rng: np.random.Generator, restart: int):
         """Parameters from rule-based starting weights, perturbed per restart."""
         S = self.states_.n_tracts
-        pieces = self._new_pieces(data.beds)
+        pieces = self._new_pieces(data.beds, data.trained)
         stats = [p.empty_stats(S) for p in pieces]
         for a, b, lengths, _ in self._batches(data.beds.lengths):
             T = b - a
@@ -733,14 +736,15 @@ class TractHMM:
             if self.cycle_prior and self.prior_strength and self.ranks_ is not None
             else None
         )
-        self._trained = self._train_static(beds, clamp)
+        trained = self._train_static(beds, clamp)
         data = _Data(
             beds,
             clamp,
             ranks,
             rule,
             tuple(s.core for s in succ),
-            self._static_log_prob(list(self._trained.values()), beds),
+            self._static_log_prob(list(trained.values()), beds),
+            trained,
         )
         rng = (
             self.random_state
@@ -784,7 +788,6 @@ class TractHMM:
         self.n_train_beds_ = len(beds)
         self.n_labelled_ = n_labelled
         self.cores_ = tuple(dict.fromkeys(s.core for s in succ))
-        del self._trained
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.
         return self
