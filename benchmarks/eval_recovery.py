@@ -133,18 +133,23 @@ def _mfs_within_one_bed(interp, true_surfaces):
     return (ok / n if n else float("nan")), n, median, per_surface, precision
 
 
-def _true_label_picks(interp):
-    """Stand-ins for decoded cores whose MFS picks are the contacts where the true bed
-    tract changes upward from TST to another tract (beds top first in each segment)."""
+def _column_picks(interp, columns=None):
+    """Stand-ins for decoded cores whose MFS picks are the contacts where a tract column
+    changes upward from TST to another tract (beds top first in each segment): the true
+    bed tract when ``columns`` is None, else ``columns[core]`` (one tract per bed, in the
+    order of the core's bed table)."""
     from types import SimpleNamespace
 
     out = []
     for core in interp:
+        beds = core.beds.assign(
+            _col=core.beds["true_tract"] if columns is None else columns[core.core]
+        )
         depths = []
-        for _, beds in core.beds.groupby("segment", sort=False):
-            truth = beds["true_tract"].astype(str).to_numpy()  # top first
-            lower_tst = (truth[1:] == "TST") & (truth[:-1] != "TST")
-            depths += list(beds["base"].to_numpy(float)[:-1][lower_tst])
+        for _, part in beds.groupby("segment", sort=False):
+            col = part["_col"].astype(str).to_numpy()  # top first
+            lower_tst = (col[1:] == "TST") & (col[:-1] != "TST")
+            depths += list(part["base"].to_numpy(float)[:-1][lower_tst])
         picks = pd.DataFrame({"surface": "MFS", "depth": np.asarray(depths, dtype=float)})
         out.append(SimpleNamespace(core=core.core, boundaries=core.boundaries, picks=picks))
     return out
@@ -214,16 +219,20 @@ def simulated_section(name: str) -> str:
                 f"| {elapsed:.1f} |"
             )
         sc = _scores(beds, "rule", tm.order)
+        mfs, n_cores, mfs_error, per_surface, precision = _mfs_within_one_bed(
+            _column_picks(interp, rule), true_surfaces
+        )
         lines.append(
             f"| {tm_name} | trend rule (baseline) | {sc['accuracy']:.3f} | "
             f"{sc['accuracy_thickness']:.3f} | {sc['tst_vs_rest']:.3f} | "
             + " | ".join(f"{sc[f'F1 {t}']:.2f}" for t in ("HST", "FSST", "LST", "TST"))
-            + " | - | - | - | - | - |"
+            + f" | {mfs:.2f} of {n_cores} | {per_surface:.2f} | {precision:.2f} "
+            f"| {mfs_error:.2f} | - |"
         )
     # the ceiling of any bed-scale column: an MFS at every upward TST -> other change of
     # the true tract of each bed (its majority tract), scored like the model's picks
     mfs, n_cores, mfs_error, per_surface, precision = _mfs_within_one_bed(
-        _true_label_picks(interp), true_surfaces
+        _column_picks(interp), true_surfaces
     )
     lines.append(
         "| true bed labels (ceiling of bed-scale MFS picks) | - | 1.000 | - | - | - | - | - | - "

@@ -62,6 +62,14 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     group.add_argument(
         "--jobs", type=int, default=1, metavar="N", help="run restarts in N processes (1)"
     )
+    group.add_argument(
+        "--calibration-folds",
+        type=int,
+        default=5,
+        metavar="K",
+        help="with labels on 2 or more cores, calibrate the tract probabilities by a "
+        "temperature chosen by K folds of cross-validation by core (0 = off; default 5)",
+    )
 
 
 def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:
@@ -97,6 +105,8 @@ def check_unit(args: argparse.Namespace) -> None:
         raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
     if args.jobs < 1:
         raise ConfigError(f"--jobs must be >= 1, got {args.jobs}")
+    if args.calibration_folds < 0:
+        raise ConfigError(f"--calibration-folds must be >= 0, got {args.calibration_folds}")
 
 
 def load_tracts_option(path: str | None):

@@ -73,6 +73,7 @@ def run(args: argparse.Namespace) -> int:
         raise ConfigError("is a folder; give a model file name (e.g. model.json)", file=str(target))
     if not (target.parent if str(target.parent) else Path(".")).is_dir():
         raise ConfigError(f"folder {str(target.parent)!r} does not exist", file=str(target))
+    from faciesseq.hmm.calibration import describe_calibration
     from faciesseq.hmm.modelfile import save_model
     from faciesseq.hmm.selection import select_model
 
@@ -106,6 +107,7 @@ def run(args: argparse.Namespace) -> int:
                 unit=args.unit,
                 step=args.step,
                 n_jobs=args.jobs,
+                calibration_folds=args.calibration_folds,
                 random_state=args.seed,
             )
         finally:
@@ -145,5 +147,6 @@ def run(args: argparse.Namespace) -> int:
         f"best of {len(model.restarts_)} restart(s) (seed {best['seed']}), "
         f"{best['n_iter']} iterations, {converged}"
     )
+    print(describe_calibration(model.calibration_))
     print(f"model written to {args.output}")
     return 0

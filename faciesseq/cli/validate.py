@@ -173,6 +173,7 @@ def run(args: argparse.Namespace) -> int:
                 unit=args.unit,
                 step=args.step,
                 n_jobs=args.jobs,
+                calibration_folds=args.calibration_folds,
             )
         finally:
             progress.close()

@@ -655,7 +655,14 @@ def fit_boosted(
         early_stopping=False,
         random_state=random_state,
     )
-    clf.fit(X, y, sample_weight=sample_weight)
+    from threadpoolctl import threadpool_limits
+
+    # One OpenMP thread: on a machine whose cores are busy with other work,
+    # scikit-learn's threads wait for each other, and 200 beds x 27 columns
+    # took 4.1-4.8 s with two threads against 0.5-0.9 s with one (measured
+    # 2026-12-02 on 2 cores under load); on so few rows threads gain nothing.
+    with threadpool_limits(1, user_api="openmp"):
+        clf.fit(X, y, sample_weight=sample_weight)
     per_iter = _trees_per_iteration(len(classes))
     if not np.array_equal(clf.classes_, classes) or clf.n_trees_per_iteration_ != per_iter:
         raise RuntimeError("unexpected class layout in the scikit-learn model")

@@ -32,6 +32,7 @@ from faciesseq.core import CoreSet, Succession
 from faciesseq.errors import ConfigError, FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
+from faciesseq.hmm.calibration import temper
 from faciesseq.hmm.emissions import (
     EmissionPiece,
     EncodedBeds,
@@ -233,6 +234,12 @@ class TractHMM:
         Beds per E-step batch (memory is bounded by the batch, not the database).
     n_jobs
         Restarts run in parallel processes when > 1.
+    calibration_folds
+        After a fit with labels on at least two cores: the tract posteriors
+        are calibrated by one temperature chosen by this many folds of
+        cross-validation by core over the labelled cores
+        (:mod:`faciesseq.hmm.calibration`); 0 or 1 turns calibration off
+        (temperature 1). Only probabilities change, never the tract column.
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 
@@ -247,6 +254,9 @@ class TractHMM:
     restarts_ : list of dict, one per restart (seed, objective, n_iter, converged, history)
     log_likelihood_ : float, training log-likelihood of the best restart
     n_train_beds_ : int
+    temperature_ : float, the posterior temperature (1: not calibrated)
+    calibration_ : dict, how the temperature was chosen (folds, beds, held-out
+        log-loss before and after) or why it was not
 
     References
     ----------
@@ -270,6 +280,7 @@ class TractHMM:
         step: float | None = None,
         batch_size: int = 200_000,
         n_jobs: int = 1,
+        calibration_folds: int = 5,
         random_state: int | np.random.Generator | None = None,
     ) -> None:
         self.tract_model = tract_model
@@ -285,6 +296,7 @@ class TractHMM:
         self.step = step
         self.batch_size = batch_size
         self.n_jobs = n_jobs
+        self.calibration_folds = calibration_folds
         self.random_state = random_state
 
     # ------------------------------------------------------------------ setup
@@ -303,6 +315,8 @@ class TractHMM:
             raise ConfigError(f"n_restarts must be >= 1, got {self.n_restarts!r}")
         if int(self.max_iter) < 1:
             raise ConfigError(f"max_iter must be >= 1, got {self.max_iter!r}")
+        if int(self.calibration_folds) < 0:
+            raise ConfigError(f"calibration_folds must be >= 0, got {self.calibration_folds!r}")
 
     def _resolve_features(
         self, tables: Sequence[pd.DataFrame], labelled: bool = False
@@ -790,7 +804,60 @@ class TractHMM:
         self.cores_ = tuple(dict.fromkeys(s.core for s in succ))
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.
+        self.temperature_ = 1.0
+        self.calibration_ = {"skipped": "no labelled beds"}
+        if clamp is not None and n_labelled:
+            self.calibration_ = self._calibrate(succ, clamp, rng)
+            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         return self
+
+    def _calibrate(
+        self, succ: Sequence[Succession], clamp: np.ndarray, rng: np.random.Generator
+    ) -> dict:
+        """Temperature of the posteriors by K-fold cross-validation over the labelled
+        cores (see :mod:`faciesseq.hmm.calibration`): each fold's model is fitted,
+        with one restart and the same hyper-parameters, on every succession but
+        those of its held-out cores, whose labelled beds are then scored."""
+        from faciesseq.hmm.calibration import HeldOut, fit_temperature
+
+        tracts = list(self.tract_model_.order)
+        codes = [
+            np.where(m.sum(axis=1) == 1, m.argmax(axis=1), -1)
+            for m in np.split(clamp, np.cumsum([len(s) for s in succ])[:-1])
+        ]
+        cores = list(dict.fromkeys(s.core for s, c in zip(succ, codes) if (c >= 0).any()))
+        k = min(int(self.calibration_folds), len(cores))
+        if k < 2:
+            return {
+                "skipped": f"calibration needs labels on 2 cores and 2 folds; {len(cores)} "
+                f"labelled core(s), calibration_folds={self.calibration_folds}"
+            }
+        fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
+        params = {**self.get_params(), "calibration_folds": 0, "n_restarts": 1, "n_jobs": 1}
+        held = []
+        for f in range(k):
+            train = [i for i, s in enumerate(succ) if fold_of.get(s.core) != f]
+            test = [i for i, s in enumerate(succ) if fold_of.get(s.core) == f]
+            sub = TractHMM(**{**params, "random_state": int(rng.integers(0, 2**31 - 1))})
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # the main fit has said it all
+                sub.fit(
+                    [succ[i] for i in train],
+                    labels=[[tracts[j] if j >= 0 else None for j in codes[i]] for i in train],
+                )
+                beds = sub._encode([succ[i].beds for i in test])
+                le = sub._log_emission(sub.emissions_, beds)
+            held.append(
+                HeldOut(
+                    le,
+                    beds.lengths,
+                    sub.startprob_,
+                    sub.transmat_,
+                    np.concatenate([codes[i] for i in test]),
+                    sub.states_.state_tract,
+                )
+            )
+        return {**fit_temperature(held), "folds": k, "cores": len(cores)}
 
     def _check_fitted(self) -> None:
         if not hasattr(self, "transmat_"):
@@ -885,8 +952,16 @@ class TractHMM:
             le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
             if clamp is not None:
                 le = engine.constrained_log_emission(le, clamp[a:b][:, self.states_.state_tract])
-            post = engine.forward_backward(
-                le, lengths, self.startprob_, self.transmat_, return_xi=True
+            # probabilities from the calibrated (tempered) chain; the log-likelihood
+            # and the Viterbi column from the model itself
+            tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
+            post = engine.forward_backward(tle, lengths, tpi, tA, return_xi=True)
+            loglik = (
+                post.log_likelihood
+                if self.temperature_ == 1.0
+                else engine.forward_backward(
+                    le, lengths, self.startprob_, self.transmat_
+                ).log_likelihood
             )
             path, _ = engine.viterbi(le, lengths, self.startprob_, self.transmat_)
             gamma = self.states_.to_tracts(post.gamma)
@@ -901,7 +976,7 @@ class TractHMM:
                         gamma[row : row + n],
                         vit[row : row + n],
                         surf[bnd : bnd + n - 1],
-                        float(post.log_likelihood[k]),
+                        float(loglik[k]),
                     )
                 )
                 row += n

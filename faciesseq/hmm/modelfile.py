@@ -15,9 +15,10 @@ and loading one runs no code. Layout (``version: 1``)::
       "states": {"labels": [...], "tract": [...], "substates": [...]},
       "facies": [...], "ranks": [...] | null, "contacts": [...],
       "parameters": {"startprob": [...], "transmat": [[...]...],
-                     "emissions": [{"kind": ..., "name": ..., ...}, ...]},
+                     "emissions": [{"kind": ..., "name": ..., ...}, ...],
+                     "temperature": 1.0},   # posterior temperature (absent: 1)
       "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
-                   best_restart, seed, ...provenance given by the caller}
+                   best_restart, seed, calibration, ...provenance given by the caller}
     }
 
 :func:`load_model` checks every shape and probability, that transitions
@@ -41,6 +42,7 @@ import numpy as np
 
 from faciesseq._version import __version__
 from faciesseq.errors import ConfigError, ModelFileError
+from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
 from faciesseq.hmm.emissions import piece_from_dict
 from faciesseq.hmm.model import ConvergenceMonitor, TractHMM
 from faciesseq.hmm.states import StateSpace
@@ -99,6 +101,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         "cores": list(model.cores_),
         "best_restart": model.best_restart_,
         "restarts": model.restarts_,
+        "calibration": model.calibration_,
         "random_state": model.random_state
         if isinstance(model.random_state, int | None)
         else "generator",
@@ -122,6 +125,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "max_iter": model.max_iter,
                 "unit": model.unit,
                 "step": model.step,
+                "calibration_folds": model.calibration_folds,
             },
             "states": {
                 "labels": states.labels(),
@@ -135,6 +139,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "startprob": model.startprob_.tolist(),
                 "transmat": model.transmat_.tolist(),
                 "emissions": [p.to_dict() for p in model.emissions_],
+                "temperature": float(model.temperature_),
             },
             "training": training,
         }
@@ -234,6 +239,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             max_iter=int(hyper["max_iter"]),
             unit=str(hyper["unit"]),
             step=None if hyper["step"] is None else float(hyper["step"]),
+            calibration_folds=int(hyper.get("calibration_folds", 0)),
         )
     except (KeyError, TypeError, ValueError, ConfigError) as exc:
         raise ModelFileError(f"invalid hyper-parameters or states ({exc})", file=source) from None
@@ -286,7 +292,20 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
                 f"emission {feature!r}: categories differ from the model's list", file=source
             )
         pieces.append(piece)
+    temperature = params.get("temperature", 1.0)
+    if (
+        isinstance(temperature, bool)
+        or not isinstance(temperature, int | float)
+        or not TEMPERATURE_BOUNDS[0] <= float(temperature) <= TEMPERATURE_BOUNDS[1]
+    ):
+        raise ModelFileError(
+            f"parameters.temperature must be a number in [{TEMPERATURE_BOUNDS[0]}, "
+            f"{TEMPERATURE_BOUNDS[1]}], got {temperature!r}",
+            file=source,
+        )
     training = doc.get("training") or {}
+    model.temperature_ = float(temperature)
+    model.calibration_ = training.get("calibration")
     model.states_ = states
     model.features_ = features
     model.facies_ = tuple(str(c) for c in facies)

@@ -271,6 +271,7 @@ def model_section(
     fit_notes: Sequence[str] = (),
 ) -> tuple[Section, dict[str, Any]]:
     """The tract-model section and the numbers behind it (``model``, ``validation``)."""
+    from faciesseq.hmm.calibration import describe_calibration
     from faciesseq.report import figures
 
     s = Section("The tract model")
@@ -319,6 +320,7 @@ def model_section(
             + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
+    s.add(Paragraph(describe_calibration(model.calibration_)))
     graph = s.sub("Tract graph")
     tracts = pd.DataFrame(
         [
