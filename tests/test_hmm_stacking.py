@@ -46,6 +46,22 @@ def test_window_reads_rank_jumps_thicknesses_and_contacts_inside_each_succession
     assert np.isnan(x.loc[3, "rank_step[+1]"]) and np.isnan(x.loc[4, "rank"])
 
 
+def test_window_marks_the_deepest_and_shallowest_bed_of_a_turnaround():
+    # ranks upward 0 2 5 3 1 (deepening to OFF, then shallowing): the OFF bed is the
+    # deepest of its window on both sides (common practice: the maximum flooding
+    # surface lies at the deepest facies of the turnaround)
+    facies = ["CP", "FS", "USF", "LSF", "OTZ", "OFF", "SHM"]
+    ranks = np.arange(7.0)
+    one = pd.DataFrame({"facies": ["CP", "USF", "OFF", "LSF", "FS"], "thickness": 1.0})
+    beds = encode_beds([one], facies, [], ["stacking", "thickness"], ranks)
+    x = pd.DataFrame(beds.numeric["stacking"], columns=stacking_columns())
+    np.testing.assert_array_equal(x["rank - deepest below"], [np.nan, 2, 3, -2, -4])
+    np.testing.assert_array_equal(x["rank - deepest above"], [-5, -3, 2, 2, np.nan])
+    np.testing.assert_array_equal(x["rank - shallowest below"], [np.nan, 2, 5, 3, 1])
+    np.testing.assert_array_equal(x["rank - shallowest above"], [-1, 1, 4, 2, np.nan])
+    assert x.loc[2, "rank - deepest below"] > 0 and x.loc[2, "rank - deepest above"] > 0
+
+
 @pytest.fixture(scope="module")
 def synthetic():
     return synth.scheme(), synth.cores(12, 80, seed=3101), synth.cores(6, 80, seed=3102)

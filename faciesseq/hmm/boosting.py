@@ -37,7 +37,7 @@ File layout (``kind: "boosted_trees"``, ``version: 1``)::
 
     {
       "kind": "boosted_trees", "version": 1,
-      "n_features": 27, "n_classes": 4,
+      "n_features": 31, "n_classes": 4,
       "classes": [0, 2, 3],             # classes present, increasing
       "baseline": [b0, b2, b3],         # raw prediction before any tree
       "trees": [                        # one list per iteration,

@@ -245,7 +245,14 @@ def stacking_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
         if k != 0:
             out.append(f"rank_step[{k:+d}]")
         out += [f"log_thickness[{k:+d}]", f"contact[{k:+d}]"]
-    return [*out, "rank"]
+    return [
+        *out,
+        "rank",
+        "rank - deepest below",
+        "rank - deepest above",
+        "rank - shallowest below",
+        "rank - shallowest above",
+    ]
 
 
 def stacking_window(
@@ -261,11 +268,21 @@ def stacking_window(
     For each offset ``k`` in ``-half_width .. half_width`` (beds below are
     negative), within the bed's own succession: the facies rank of bed
     ``i + k`` minus that of bed ``i`` (``k != 0``), the log thickness of bed
-    ``i + k`` and its contact code; then the bed's own rank. ``NaN`` where the
-    offset leaves the succession or the value is unknown (the classifier
-    treats it as missing). Rank differences rather than ranks make the
-    window read a trend (deepening or shallowing upward) wherever in the
-    facies scale it sits. Column names: :func:`stacking_columns`.
+    ``i + k`` and its contact code; then the bed's own rank; then the bed's
+    rank minus the highest and the lowest rank among the ``half_width`` beds
+    below and among those above (0 at the deepest or shallowest bed of its
+    window: the turnarounds where, in common practice, the maximum flooding
+    surface and the sequence boundary sit). ``NaN`` where the offset leaves the
+    succession or the value is unknown (the classifier treats it as missing).
+    Rank differences rather than ranks make the window read a trend
+    (deepening or shallowing upward) wherever in the facies scale it sits.
+    Column names: :func:`stacking_columns`.
+
+    The four turnaround columns could be built by the trees from the rank
+    differences, but only with many splits; with them, 3-fold cross-validation
+    on the demo database rose from 0.489 to 0.534 of beds and from 0.42 to 0.68
+    of MFSs within one bed, and held-out simulated cores moved by -0.005 to
+    +0.021 (measured 2026-12-02, docs/hmm.md).
     """
     T = len(facies)
     W = int(half_width)
@@ -280,15 +297,24 @@ def stacking_window(
     ends = np.repeat(np.cumsum(lengths), lengths) if T else np.zeros(0, int)
     idx = np.arange(T)
     cols = []
+    below, above = [], []
     for k in range(-W, W + 1):
         j = idx + k
         inside = (j >= starts) & (j < ends)
         jc = np.clip(j, 0, max(T - 1, 0))
         if k != 0:
-            cols.append(np.where(inside, r[jc] - r, np.nan))
+            step = np.where(inside, r[jc] - r, np.nan)
+            cols.append(step)
+            (below if k < 0 else above).append(step)
         cols.append(np.where(inside, lt[jc], np.nan))
         cols.append(np.where(inside, c[jc], np.nan))
     cols.append(r)
+    for side in (below, above) if T else ():
+        # fmax / fmin skip NaN (NaN only where every bed of that side is unknown);
+        # own rank minus the extreme = -(extreme of the neighbour-minus-own steps)
+        cols.append(-np.fmax.reduce(side))
+    for side in (below, above) if T else ():
+        cols.append(-np.fmin.reduce(side))
     if not T:
         return np.zeros((0, len(cols)), dtype=np.float32)
     return np.column_stack(cols).astype(np.float32)
@@ -1071,7 +1097,7 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: {trees.n_classes} classes for {n_tracts} tracts",
                 file=source,
             )
-        width = 6 * STACKING_HALF_WIDTH + 3
+        width = len(stacking_columns())
         if trees.n_features != width:
             raise ModelFileError(
                 f"emission {piece.name}: {trees.n_features} window features, expected {width}",
