@@ -16,6 +16,7 @@ from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import (
     TEMPERATURE_BOUNDS,
     HeldOut,
+    describe_calibration,
     fit_temperature,
     held_out_scores,
     temper,
@@ -193,7 +194,17 @@ def test_model_file_keeps_the_temperature_and_refuses_a_bad_one(small_fit, tmp_p
             model_from_dict(doc, "m.json")
     # a file written before calibration existed decodes at temperature 1
     del doc["parameters"]["temperature"]
-    assert model_from_dict(doc, "m.json").temperature_ == 1.0
+    old = model_from_dict(doc, "m.json")
+    assert old.temperature_ == 1.0
+    assert "not calibrated" in describe_calibration(old.temperature_, None)
+    # a calibration record that is not one does not break the report
+    doc["parameters"]["temperature"] = 2.0
+    doc["training"]["calibration"] = "junk"
+    odd = model_from_dict(doc, "m.json")
+    assert "does not say how it was chosen" in describe_calibration(
+        odd.temperature_, odd.calibration_
+    )
+    assert "temperature of 2.00" in describe_calibration(2.0, {})
 
 
 def test_fit_command_reports_the_calibration_and_refuses_negative_folds(tmp_path):

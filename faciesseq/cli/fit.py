@@ -147,6 +147,6 @@ def run(args: argparse.Namespace) -> int:
         f"best of {len(model.restarts_)} restart(s) (seed {best['seed']}), "
         f"{best['n_iter']} iterations, {converged}"
     )
-    print(describe_calibration(model.calibration_))
+    print(describe_calibration(model.temperature_, model.calibration_))
     print(f"model written to {args.output}")
     return 0

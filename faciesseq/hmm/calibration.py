@@ -157,19 +157,31 @@ def fit_temperature(folds: Sequence[HeldOut]) -> dict:
     return {"temperature": t, "n_beds": n_beds, "before": before, "after": after}
 
 
-def describe_calibration(calibration: dict | None) -> str:
+def describe_calibration(temperature: float, calibration: dict | None) -> str:
     """One sentence on how a model's tract probabilities were calibrated (for the
-    ``fit`` command's report and the appendix)."""
-    cal = calibration or {}
-    if "temperature" not in cal:
-        why = cal.get("skipped", "no record in the model")
+    ``fit`` command's report and the appendix); ``calibration`` is the record a fit
+    leaves (``TractHMM.calibration_``), read from a model file as it is."""
+    cal = calibration if isinstance(calibration, dict) else {}
+    if temperature == 1.0 and "skipped" not in cal and "after" in cal:
+        return (
+            "Tract probabilities checked on held-out labelled cores: no temperature scored "
+            "better than 1, so they are left as the model gives them."
+        )
+    if temperature == 1.0:
+        why = cal.get("skipped", "no record of a calibration in the model")
         return f"Tract probabilities not calibrated ({why}): temperature 1."
-    b, a = cal["before"], cal["after"]
-    return (
-        f"Tract probabilities calibrated by a temperature of {cal['temperature']:.2f}, chosen "
-        f"by {cal['folds']}-fold cross-validation over {cal['cores']} labelled cores: on their "
-        f"{cal['n_beds']} held-out beds the Brier score fell from {b['brier']:.3f} to "
-        f"{a['brier']:.3f} and the mean probability of the most probable tract from "
-        f"{b['confidence']:.2f} to {a['confidence']:.2f}, for {a['accuracy']:.2f} of the beds "
-        "right; the tract column is not changed by it."
-    )
+    try:
+        b, a = cal["before"], cal["after"]
+        return (
+            f"Tract probabilities calibrated by a temperature of {temperature:.2f}, chosen "
+            f"by {cal['folds']}-fold cross-validation over {cal['cores']} labelled cores: on "
+            f"their {cal['n_beds']} held-out beds the Brier score fell from "
+            f"{b['brier']:.3f} to {a['brier']:.3f} and the mean probability of the most "
+            f"probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
+            f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it."
+        )
+    except (KeyError, TypeError, ValueError):
+        return (
+            f"Tract probabilities at a temperature of {temperature:.2f} (the model file "
+            "does not say how it was chosen); the tract column is not changed by it."
+        )

@@ -255,8 +255,9 @@ class TractHMM:
     log_likelihood_ : float, training log-likelihood of the best restart
     n_train_beds_ : int
     temperature_ : float, the posterior temperature (1: not calibrated)
-    calibration_ : dict, how the temperature was chosen (folds, beds, held-out
-        log-loss before and after) or why it was not
+    calibration_ : dict, how the temperature was chosen (folds, cores, held-out
+        beds, their scores before and after: :func:`faciesseq.hmm.calibration.fit_temperature`)
+        or why it was not (``{"skipped": reason}``)
 
     References
     ----------

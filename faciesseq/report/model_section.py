@@ -320,7 +320,7 @@ def model_section(
             + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
-    s.add(Paragraph(describe_calibration(model.calibration_)))
+    s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
     graph = s.sub("Tract graph")
     tracts = pd.DataFrame(
         [
