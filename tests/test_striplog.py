@@ -139,3 +139,18 @@ def test_touching_cells_of_one_facies_are_drawn_as_one_box(model, scheme):
     boxes = [p for p in fig.axes[0].patches if p.get_width() > 0]
     assert len(boxes) == 3
     assert sum(b.get_height() for b in boxes) == pytest.approx(beds["thickness"].sum())
+
+
+def test_legends_give_whole_facies_and_surface_names(model, scheme):
+    fig = strip_log(synthetic_core(model), scheme, model)
+    texts = [t.get_text() for leg in _legends(fig) for t in leg.get_texts()]
+    joined = [" ".join(t.split()) for t in texts]  # wrapped lines read as one name
+    assert not any("…" in t for t in texts)
+    names = {f"{f.code} {f.name}" for f in scheme.facies}
+    assert any(t in names for t in joined)
+    first_names = {}
+    for sf in model.surfaces:
+        first_names.setdefault(sf.code, sf.name)  # the legend names each code once
+    code, name = max(first_names.items(), key=lambda kv: len(kv[1]))
+    assert len(name) > 40 and f"{code} {name}" in joined
+    assert any("\n" in t for t in texts)  # long names wrap instead of widening the page

@@ -129,6 +129,20 @@ def _short(text: str, n: int = 44) -> str:
     return text if len(text) <= n else text[: n - 1] + "…"
 
 
+def _legend_label(code: str, name: str, width: int) -> str:
+    """``code  name``, the name wrapped onto indented lines of ``width`` characters
+    (whole names: a facies or surface name cut short is a different name)."""
+    import textwrap
+
+    lines = textwrap.wrap(name, width) or [""]
+    indent = " " * (len(code) + 4)
+    return "\n".join([f"{code}  {lines[0]}".rstrip(), *(indent + line for line in lines[1:])])
+
+
+def _rows(labels) -> int:
+    return sum(label.count("\n") + 1 for label in labels)
+
+
 def strip_log(
     interp: CoreInterpretation,
     scheme: FaciesScheme,
@@ -190,7 +204,21 @@ def strip_log(
     facies_order = [c for c in scheme.codes_by_rank if c in facies_present] + [
         c for c in facies_present if c not in scheme
     ]
-    n_legend = max(len(facies_order) + bool(gaps), len(tracts) + 1, len(surfaces) + 2)
+    facies_labels = [
+        _legend_label(c, scheme[c].name, 30) if c in scheme else f"{c}  (not in scheme)"
+        for c in facies_order
+    ]
+    tract_names = {t.code: t.name for t in tract_model.tracts}
+    tract_labels = [
+        _legend_label(t, tract_names.get(t, "").removesuffix(" systems tract"), 18) for t in tracts
+    ]
+    surface_names: dict[str, str] = {}
+    for sf in tract_model.surfaces:
+        surface_names.setdefault(sf.code, sf.name)
+    surface_labels = [_legend_label(sf, surface_names.get(sf, ""), 22) for sf in surfaces]
+    n_legend = max(
+        _rows(facies_labels) + bool(gaps), _rows(tract_labels) + 1, _rows(surface_labels) + 2
+    )
     legend_h = 0.35 + 0.14 * n_legend
 
     with figure_style():
@@ -316,37 +344,21 @@ def strip_log(
                 facecolor=_facies_colour(scheme, c),
                 edgecolor="#333333",
                 lw=0.3,
-                label=plain(
-                    f"{c}  {_short(scheme[c].name, 40)}" if c in scheme else f"{c}  (not in scheme)"
-                ),
+                label=plain(label),
             )
-            for c in facies_order
+            for c, label in zip(facies_order, facies_labels)
         ]
         if gaps:
             facies_handles.append(
                 Patch(facecolor=_GAP, hatch="xx", edgecolor="#9a9a9a", label="gap (not described)")
             )
-        tract_names = {t.code: t.name for t in tract_model.tracts}
         tract_handles = [
-            Patch(
-                color=tract_colour(t, tracts),
-                label=plain(
-                    f"{t}  {_short(tract_names.get(t, '').removesuffix(' systems tract'), 24)}"
-                ),
-            )
-            for t in tracts
+            Patch(color=tract_colour(t, tracts), label=plain(label))
+            for t, label in zip(tracts, tract_labels)
         ]
-        surface_names: dict[str, str] = {}
-        for s in tract_model.surfaces:
-            surface_names.setdefault(s.code, s.name)
         surface_handles = [
-            Line2D(
-                [],
-                [],
-                color=surface_colour(s, surfaces),
-                label=plain(f"{s}  {_short(surface_names.get(s, ''), 26)}"),
-            )
-            for s in surfaces
+            Line2D([], [], color=surface_colour(sf, surfaces), label=plain(label))
+            for sf, label in zip(surfaces, surface_labels)
         ]
         surface_handles.append(
             Line2D(
