@@ -17,7 +17,7 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
 
-from faciesseq.report.striplog import _short, plain
+from faciesseq.report.striplog import _legend_label, plain
 from faciesseq.report.style import (
     PAGE_WIDTH,
     figure_style,
@@ -447,7 +447,7 @@ def facies_relationship_diagram(
                     fc=scheme.colour(c) if c in scheme else "#c8c8c8",
                     ec="black",
                     lw=0.4,
-                    label=plain(f"{c}  {_short(scheme[c].name) if c in scheme else ''}"),
+                    label=plain(_legend_label(c, scheme[c].name if c in scheme else "", 44)),
                 )
                 for c in codes
             ]

@@ -125,10 +125,6 @@ def _gaps(beds: pd.DataFrame) -> list[tuple[float, float]]:
     ]
 
 
-def _short(text: str, n: int = 44) -> str:
-    return text if len(text) <= n else text[: n - 1] + "…"
-
-
 def _legend_label(code: str, name: str, width: int) -> str:
     """``code  name``, the name wrapped onto indented lines of ``width`` characters
     (whole names: a facies or surface name cut short is a different name)."""
