@@ -644,6 +644,13 @@ def fit_boosted(
 
     from sklearn.ensemble import HistGradientBoostingClassifier
 
+    # A column with no known value (e.g. the contact types of a bed table that
+    # has none) has no bin edges, which scikit-learn >= 1.9 refuses; held at a
+    # constant it is never split on, so the trees never read it when predicting.
+    empty = ~np.isfinite(X).any(axis=0)
+    if empty.any():
+        X = X.copy()
+        X[:, empty] = 0.0
     clf = HistGradientBoostingClassifier(
         loss="log_loss",
         learning_rate=learning_rate,
