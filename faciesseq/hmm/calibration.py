@@ -56,6 +56,7 @@ __all__ = [
     "describe_calibration",
     "fit_temperature",
     "held_out_scores",
+    "simulate_beds",
     "temper",
 ]
 
@@ -185,3 +186,48 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
             f"Tract probabilities at a temperature of {temperature:.2f} (the model file "
             "does not say how it was chosen); the tract column is not changed by it."
         )
+
+
+def _chain_path(startprob, transmat, n, rng) -> np.ndarray:
+    path = np.empty(n, dtype=np.int64)
+    path[0] = rng.choice(len(startprob), p=startprob)
+    cum = np.cumsum(transmat, axis=1)
+    for t in range(1, n):
+        path[t] = min(int(np.searchsorted(cum[path[t - 1]], rng.random())), len(startprob) - 1)
+    return path
+
+
+def simulate_beds(
+    lengths: Sequence[int],
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    state_tract: np.ndarray,
+    facies_chain: np.ndarray,
+    thickness: np.ndarray,
+    rng: np.random.Generator,
+) -> tuple[list, np.ndarray]:
+    """Successions of beds drawn from a fitted tract model (a parametric bootstrap).
+
+    The tract path follows the fitted chain; within a tract the facies follow
+    ``facies_chain[tract, below, above]`` (row ``below = V`` for the first bed of
+    a succession) and the log thickness ``thickness[tract] = (mean, sd)``. The
+    stacking context of these beds is then computed as for real cores, so the
+    overlap of neighbouring windows -- the evidence the emission pieces count
+    more than once -- is kept (Efron & Tibshirani 1993, An Introduction to the
+    Bootstrap, ch. 6). Returns ``(tables, tract index of every bed)``, each
+    table base to top with ``facies`` (index), ``thickness``.
+    """
+    tables, tracts = [], []
+    V = facies_chain.shape[2]
+    for n in lengths:
+        tract = state_tract[_chain_path(startprob, transmat, int(n), rng)]
+        fac = np.empty(int(n), dtype=np.int64)
+        below = V
+        for t in range(int(n)):
+            p = facies_chain[tract[t], below]
+            fac[t] = rng.choice(V, p=p)
+            below = fac[t]
+        mean, sd = thickness[tract, 0], thickness[tract, 1]
+        tables.append({"facies": fac, "thickness": np.exp(mean + sd * rng.standard_normal(n))})
+        tracts.append(tract)
+    return tables, np.concatenate(tracts) if tracts else np.zeros(0, dtype=np.int64)

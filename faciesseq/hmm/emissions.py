@@ -68,6 +68,7 @@ from typing import Any, ClassVar
 import numpy as np
 import pandas as pd
 
+from faciesseq.cycles import CONTEXT_FEATURES, bed_context
 from faciesseq.errors import ConfigError, ModelFileError
 
 __all__ = [
@@ -188,7 +189,7 @@ def encode_beds(
         else:
             contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
         for name in numeric:
-            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND, STACKING):
+            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND, STACKING, *CONTEXT_FEATURES):
                 continue  # computed below, from the coded beds
             col = "thickness" if name == "thickness" else name
             if col in table.columns:
@@ -225,11 +226,32 @@ def encode_beds(
         values[RANK_TREND] = rank_trends(fac, lengths, ranks)
     if RANK_STEP_ABOVE in numeric:
         values[RANK_STEP_ABOVE] = rank_steps_above(fac, lengths, ranks)
+    context = [name for name in numeric if name in CONTEXT_FEATURES]
+    if context:
+        values.update(_context_values(tables, fac, lengths, ranks, context))
     if STACKING in numeric:
         if "thickness" not in values:
             raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
         values[STACKING] = stacking_window(fac, lengths, ranks, values["thickness"], contact)
     return EncodedBeds(lengths, fac, prev, contact, values)
+
+
+def _context_values(tables, fac, lengths, ranks, names) -> dict[str, np.ndarray]:
+    """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`)."""
+    if ranks is None:
+        raise ConfigError(f"the features {names} need a facies scheme with ranks (--scheme)")
+    known = fac >= 0
+    bed_ranks = np.full(len(fac), np.nan)
+    bed_ranks[known] = np.asarray(ranks, dtype=float)[fac[known]]
+    thick = [
+        pd.to_numeric(t["thickness"], errors="coerce").to_numpy(float)
+        if "thickness" in t.columns
+        else np.ones(len(t))
+        for t in tables
+    ]
+    thickness = np.concatenate(thick) if thick else np.zeros(0)
+    context = bed_context(bed_ranks, lengths, thickness)
+    return {name: context[name] for name in names}
 
 
 #: Name of the stacking-pattern feature (a classifier over a window of beds).
@@ -1121,13 +1143,16 @@ _KINDS = {
 
 def piece_from_dict(data: Any, n_tracts: int, source: str | None = None) -> EmissionPiece:
     """Rebuild an emission piece from :meth:`EmissionPiece.to_dict` output (validated)."""
-    if not isinstance(data, Mapping) or data.get("kind") not in _KINDS:
+    from faciesseq.hmm.context import ContextEmission
+
+    kinds = {**_KINDS, "context": ContextEmission}
+    if not isinstance(data, Mapping) or data.get("kind") not in kinds:
         kind = data.get("kind") if isinstance(data, Mapping) else None
         raise ModelFileError(
-            f"unknown emission kind {kind!r}; expected one of {sorted(_KINDS)}", file=source
+            f"unknown emission kind {kind!r}; expected one of {sorted(kinds)}", file=source
         )
     try:
-        return _KINDS[data["kind"]].from_dict(data, n_tracts, source)
+        return kinds[data["kind"]].from_dict(data, n_tracts, source)
     except KeyError as exc:
         raise ModelFileError(
             f"emission {data.get('name')!r}: missing key {exc.args[0]!r}", file=source
@@ -1216,6 +1241,12 @@ def make_piece(
         )
     if feature == STACKING:
         return StackingEmission(n_tracts)
+    if feature in CONTEXT_FEATURES:
+        from faciesseq.hmm.context import ContextEmission, context_pseudo_counts, tract_levels
+
+        levels = tract_levels(range(len(trends)), trends)
+        pseudo = context_pseudo_counts(feature, trends, levels, prior_strength)
+        return ContextEmission(feature, n_tracts, pseudo)
     if feature == RANK_TREND:
         pseudo = rank_step_pseudo_counts(
             trends, prior_strength, base, RankTrendEmission.CENTRES, aggrading_limit=0.25

@@ -29,6 +29,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import CoreSet, Succession
+from faciesseq.cycles import CONTEXT_FEATURES
 from faciesseq.errors import ConfigError, FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
@@ -75,7 +76,15 @@ DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
 #: on simulated cores in benchmarks/hmm_model.md.
 DEFAULT_LABELLED_FEATURES = (*DEFAULT_FEATURES, "stacking")
 #: Features computed from the facies ranks of the scheme.
-RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking")
+RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking", *CONTEXT_FEATURES)
+#: Used when ``features=None``, no bed is labelled and a scheme gives ranks: the
+#: stacking context of every bed (its cycle against the cycles below and above,
+#: the trend and position of proximality around it) and the contact type. The
+#: bed-to-bed pieces are left out: without labels they learn the position inside
+#: a parasequence, present in every tract, instead of the tract.
+DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact")
+#: Sub-states per tract of fits on the stacking context (phase-type durations).
+CONTEXT_SUBSTATES = 3
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -173,6 +182,15 @@ def _text(values: pd.Series) -> list[str | None]:
     text = values.astype("string").str.strip()
     missing = text.isna() | (text == "") | (text.str.lower() == "nan")
     return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
+
+
+def _split(drawn: list[dict], tracts: np.ndarray):
+    """Pairs (drawn succession, its tracts) from :func:`simulate_beds` output."""
+    start = 0
+    for d in drawn:
+        n = len(d["facies"])
+        yield d, tracts[start : start + n]
+        start += n
 
 
 def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
@@ -324,9 +342,15 @@ class TractHMM:
     ) -> tuple[str, ...]:
         columns = set().union(*(t.columns for t in tables)) if tables else set()
         if self.features is None:
+            if labelled:
+                defaults = DEFAULT_LABELLED_FEATURES
+            elif self.scheme is not None and self.unit == "beds":
+                defaults = DEFAULT_UNLABELLED_FEATURES
+            else:
+                defaults = DEFAULT_FEATURES
             feats = [
                 f
-                for f in (DEFAULT_LABELLED_FEATURES if labelled else DEFAULT_FEATURES)
+                for f in defaults
                 if (f != "contact" or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
             ]
@@ -340,8 +364,11 @@ class TractHMM:
             raise ConfigError(f"features listed twice: {feats}")
         if "facies" in feats and "facies_trend" in feats:
             raise ConfigError("use 'facies' or 'facies_trend', not both (the trend includes it)")
-        if not ({"facies", "facies_trend"} & set(feats)):
-            raise ConfigError("the features must include 'facies' or 'facies_trend'")
+        if not ({"facies", "facies_trend", *CONTEXT_FEATURES} & set(feats)):
+            raise ConfigError(
+                "the features must include 'facies', 'facies_trend' or a context feature "
+                f"({', '.join(CONTEXT_FEATURES)})"
+            )
         for f in feats:
             if f in RANK_FEATURES:
                 if self.scheme is None:
@@ -353,6 +380,11 @@ class TractHMM:
                     f"(columns: {sorted(map(str, columns))})"
                 )
         return tuple(feats)
+
+    def _reads_context(self) -> bool:
+        """Whether the emissions read the stacking context (their priors pin the
+        tracts, so EM starts from them, not from the trend rule)."""
+        return bool(set(self.features_) & set(CONTEXT_FEATURES))
 
     def _vocabularies(self, tables: Sequence[pd.DataFrame]) -> None:
         seen = sorted(_distinct(tables, "facies"), key=lambda c: (len(c), c))
@@ -654,7 +686,7 @@ class TractHMM:
         for a, b, lengths, _ in self._batches(data.beds.lengths):
             T = b - a
             weights = np.full((T, S), 1.0 / S)
-            if self.ranks_ is not None:
+            if self.ranks_ is not None and not self._reads_context():
                 weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
             if restart > 0:
                 noise = rng.dirichlet(np.ones(S), size=T)
@@ -732,6 +764,8 @@ class TractHMM:
         self.states_ = StateSpace.build(self.tract_model_, self.substates)
         clamp, n_labelled = self._labels(succ, labels)
         self.features_ = self._resolve_features(tables, labelled=n_labelled > 0)
+        if self._reads_context() and self.substates is None:
+            self.states_ = StateSpace.build(self.tract_model_, CONTEXT_SUBSTATES)
         if "stacking" in self.features_ and n_labelled == 0:
             raise ConfigError(
                 "feature 'stacking' is learnt from labelled beds; give a label column "
@@ -748,7 +782,10 @@ class TractHMM:
         free = None if clamp is None else clamp.all(axis=1)
         self._cycle_pseudo = (
             self._cycle_counts(rule, beds.lengths, free)
-            if self.cycle_prior and self.prior_strength and self.ranks_ is not None
+            if self.cycle_prior
+            and self.prior_strength
+            and self.ranks_ is not None
+            and not self._reads_context()
             else None
         )
         trained = self._train_static(beds, clamp)
@@ -809,8 +846,85 @@ class TractHMM:
         self.calibration_ = {"skipped": "no labelled beds"}
         if clamp is not None and n_labelled:
             self.calibration_ = self._calibrate(succ, clamp, rng)
-            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+        elif self._reads_context() and int(self.calibration_folds) > 0:
+            self.calibration_ = self._calibrate_by_simulation(beds, tables, rng)
+        self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         return self
+
+    def _tract_posteriors(self, beds: EncodedBeds) -> np.ndarray:
+        out = np.zeros((len(beds), self.states_.n_tracts))
+        for a, b, lengths, _ in self._batches(beds.lengths):
+            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
+            post = engine.forward_backward(le, lengths, self.startprob_, self.transmat_)
+            out[a:b] = self.states_.to_tracts(post.gamma)
+        return out
+
+    def _bootstrap_generator(self, beds: EncodedBeds, tables) -> tuple[np.ndarray, np.ndarray]:
+        """Per-tract facies chain and log-thickness (mean, sd), weighted by the
+        fitted model's tract posteriors of the training beds."""
+        gamma = self._tract_posteriors(beds)
+        S, V = self.states_.n_tracts, len(self.facies_)
+        chain = np.full((S, V + 1, V), 0.01)
+        if self.unit == "beds":
+            chain[:, np.arange(V), np.arange(V)] = 0.0
+        below = np.where(beds.previous >= 0, beds.previous, V)
+        ok = beds.facies >= 0
+        for s in range(S):
+            np.add.at(chain[s], (below[ok], beds.facies[ok]), gamma[ok, s])
+        chain /= chain.sum(axis=2, keepdims=True)
+        th = np.concatenate([t["thickness"].to_numpy(float) for t in tables])
+        log_th = np.log(np.where(th > 0, th, 1.0))
+        w = gamma / np.maximum(gamma.sum(axis=0), 1e-12)
+        mean = w.T @ log_th
+        sd = np.sqrt(np.maximum(w.T @ log_th**2 - mean**2, 1e-6))
+        return chain, np.column_stack([mean, sd])
+
+    def _calibrate_by_simulation(self, beds: EncodedBeds, tables, rng) -> dict:
+        """Temperature from a parametric bootstrap: cores simulated from the fitted
+        model (:func:`faciesseq.hmm.calibration.simulate_beds`) are decoded, and
+        the temperature that best matches their known tracts is kept."""
+        from faciesseq.hmm.calibration import HeldOut, fit_temperature, simulate_beds
+
+        chain, thickness = self._bootstrap_generator(beds, tables)
+        lengths = [int(n) for n in beds.lengths if n > 0]
+        budget, chosen = 20_000, []
+        for i in rng.permutation(len(lengths)):
+            if sum(chosen) >= budget:
+                break
+            chosen.append(lengths[i])
+        drawn, tracts = simulate_beds(
+            chosen,
+            self.startprob_,
+            self.transmat_,
+            self.states_.state_tract,
+            chain,
+            thickness,
+            rng,
+        )
+        frames = [self._simulated_table(d, tracts_of) for d, tracts_of in _split(drawn, tracts)]
+        sim = self._encode(frames)
+        le = self._log_emission(self.emissions_, sim)
+        held = HeldOut(le, sim.lengths, self.startprob_, self.transmat_, tracts, self.states_.state_tract)
+        result = fit_temperature([held])
+        return {**result, "method": "parametric bootstrap", "simulated_successions": len(chosen)}
+
+    def _simulated_table(self, drawn: dict, tracts: np.ndarray) -> pd.DataFrame:
+        table = pd.DataFrame(
+            {
+                "facies": np.asarray(self.facies_, dtype=object)[drawn["facies"]],
+                "thickness": drawn["thickness"],
+            }
+        )
+        contact = next((p for p in self.emissions_ if p.name == "contact"), None)
+        if contact is not None and len(self.contacts_):
+            rng = np.random.default_rng(len(table))
+            probs = contact.emissionprob_[tracts]
+            cum = probs.cumsum(axis=1)
+            pick = (rng.random(len(table))[:, None] > cum).sum(axis=1)
+            table["contact"] = np.asarray(self.contacts_, dtype=object)[
+                np.minimum(pick, len(self.contacts_) - 1)
+            ]
+        return table
 
     def _calibrate(
         self, succ: Sequence[Succession], clamp: np.ndarray, rng: np.random.Generator
