@@ -45,7 +45,7 @@ import pandas as pd
 from faciesseq.core import Core, CoreSet
 from faciesseq.errors import ConfigError
 from faciesseq.scheme import FaciesScheme, TractModel, _read_yaml, default_tract_model, load_scheme
-from faciesseq.simulate.scenario import _Reader
+from faciesseq.simulate.scenario import _probability, _Reader
 from faciesseq.simulate.wells import history_tract_model, surface_path
 
 __all__ = [
@@ -254,15 +254,6 @@ def _whole(r: _Reader, name: str, default: int) -> int:
     return value
 
 
-def _chance(r: _Reader, name: str, default: float) -> float:
-    value = r.number(name, default, minimum=0.0)
-    if value > 1:
-        raise ConfigError(
-            f"{r.key(name)}: a probability must lie between 0 and 1, got {value}", file=r.source
-        )
-    return value
-
-
 def _flag(r: _Reader, name: str, default: bool) -> bool:
     value = r.data.get(name, default)
     if not isinstance(value, bool):
@@ -334,16 +325,16 @@ def stacking_scenario_from_dict(data: Any, source: str | None = None) -> Stackin
         sequences=_count_range(top, "sequences", (2, 3)),
         parasequences={t: _count_range(stacks, t, _DEFAULT_PARASEQUENCES[t]) for t in TRACTS},
         thickness_scale=top.number("thickness_scale", 1.0, positive=True),
-        fsst_missing=_chance(top, "fsst_missing", 0.2),
-        tst_missing=_chance(top, "tst_missing", 0.05),
-        facies_swap=_chance(noise, "facies_swap", 0.03),
+        fsst_missing=_probability(top, "fsst_missing", 0.2),
+        tst_missing=_probability(top, "tst_missing", 0.05),
+        facies_swap=_probability(noise, "facies_swap", 0.03),
         thickness_jitter=noise.number("thickness_jitter", 0.1, minimum=0.0),
         equal_beds=equal,
         bed_mean=mean,
         bed_sigma=sigma,
         contacts=_flag(top, "contacts", True),
         grain_size=_flag(top, "grain_size", True),
-        labelled_fraction=_chance(top, "labelled_fraction", 0.5),
+        labelled_fraction=_probability(top, "labelled_fraction", 0.5),
         units=units,
         rounding=top.number("rounding", 0.01, positive=True),
         seed=seed,
