@@ -7,6 +7,11 @@ records the layers at wells and describes them as cores with noise
 (:mod:`faciesseq.simulate.scenario`). The truth travels with the cores:
 ``true_tract`` per bed, the surfaces table and the time-step table.
 
+A second generator, different in kind, builds tracts as stacks of parasequences
+with no physics at all (:mod:`faciesseq.simulate.stacking`; scenario files with
+``generator: stacking``), so a tract model tuned on one can be checked on the
+other. :func:`load_any_scenario` reads a scenario file of either kind.
+
 Example
 -------
 >>> from faciesseq.simulate import load_scenario, simulate
@@ -18,23 +23,38 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from faciesseq.core import Core, CoreSet
-from faciesseq.scheme import TractModel, default_tract_model
+from faciesseq.errors import ConfigError
+from faciesseq.scheme import TractModel, _read_yaml, default_tract_model
 from faciesseq.simulate.model import SectionHistory, run_section
 from faciesseq.simulate.scenario import Scenario, load_scenario, scenario_from_dict
+from faciesseq.simulate.stacking import (
+    StackingResult,
+    StackingScenario,
+    load_stacking_scenario,
+    simulate_stacking,
+    stacking_scenario_from_dict,
+)
 from faciesseq.simulate.wells import describe_well
 
 __all__ = [
     "Scenario",
     "SectionHistory",
     "SimulationResult",
+    "StackingResult",
+    "StackingScenario",
+    "load_any_scenario",
     "load_scenario",
+    "load_stacking_scenario",
     "scenario_from_dict",
     "simulate",
+    "simulate_stacking",
+    "stacking_scenario_from_dict",
 ]
 
 
@@ -194,3 +214,27 @@ def simulate(
         budget=budget,
         sections=sections,
     )
+
+
+def load_any_scenario(path: str | Path) -> Scenario | StackingScenario:
+    """Read a scenario file of either generator.
+
+    ``generator: stacking`` at the top level gives a
+    :class:`~faciesseq.simulate.stacking.StackingScenario`; a file without a
+    ``generator`` key is a forward-model :class:`Scenario`.
+
+    Raises
+    ------
+    ConfigError
+        Naming the file and the key, for any problem in the scenario.
+    """
+    data = _read_yaml(path)
+    generator = data.get("generator") if isinstance(data, Mapping) else None
+    if generator is None:
+        return scenario_from_dict(data, source=str(path))
+    if generator != "stacking":
+        raise ConfigError(
+            f"generator: must be 'stacking' (or left out for the forward model), got {generator!r}",
+            file=str(path),
+        )
+    return stacking_scenario_from_dict(data, source=str(path))

@@ -16,7 +16,7 @@ from pathlib import Path
 import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError
-from faciesseq.simulate import SimulationResult
+from faciesseq.simulate import SimulationResult, StackingResult
 
 __all__ = ["TABLES", "write_simulation"]
 
@@ -28,11 +28,14 @@ TABLES = {
     "steps": "truth per time step and section",
     "wells": "wells: section, position along dip, labelled or not, cored thickness",
     "budget": "sediment budget per section (m^2 of section)",
+    "parasequences": "stacking generator only: true parasequences (tract, depths, facies)",
 }
 
 
-def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
+def _tables(result: SimulationResult | StackingResult) -> dict[str, pd.DataFrame]:
     """The tables beside the cores (the cores go through :func:`faciesseq.io.write_cores`)."""
+    if isinstance(result, StackingResult):
+        return result.tables()
     return {
         "surfaces": result.surfaces,
         "steps": result.steps,
@@ -41,7 +44,7 @@ def _tables(result: SimulationResult) -> dict[str, pd.DataFrame]:
     }
 
 
-def _write_tables(result: SimulationResult, folder: Path) -> None:
+def _write_tables(result: SimulationResult | StackingResult, folder: Path) -> None:
     """CSV files and one SQLite file holding the same tables (cores as ``intervals``)."""
     from faciesseq.io import write_cores
 
@@ -53,7 +56,7 @@ def _write_tables(result: SimulationResult, folder: Path) -> None:
 
 
 def write_simulation(
-    result: SimulationResult,
+    result: SimulationResult | StackingResult,
     directory: str | Path,
     *,
     figures: bool = True,
@@ -67,7 +70,10 @@ def write_simulation(
     ``summary.json``,
     ``scenario.yaml`` (a copy of the scenario file, when it came from one) and,
     unless ``figures`` is false, ``section-<name>.png``,
-    ``base-level-<name>.png`` and ``cores-<name>.png`` per dip section. With ``force`` an existing
+    ``base-level-<name>.png`` and ``cores-<name>.png`` per dip section. A
+    :class:`~faciesseq.simulate.StackingResult` writes ``surfaces.csv``,
+    ``parasequences.csv`` and ``wells.csv`` beside the cores and no figures (they
+    draw the section history it does not have). With ``force`` an existing
     folder is replaced, but files in it that this run does not write (e.g. a
     README) are carried over.
 
@@ -99,7 +105,7 @@ def write_simulation(
         source = result.scenario.source
         if source and Path(source).is_file():
             shutil.copyfile(source, temp / "scenario.yaml")
-        if figures:
+        if figures and isinstance(result, SimulationResult):
             _write_figures(result, temp, dpi)
         if target.exists():
             # files of the old folder this run does not write (a README...) are kept

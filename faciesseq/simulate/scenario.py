@@ -631,8 +631,8 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
     )
 
 
-def _probability(r: _Reader, name: str) -> float:
-    value = r.number(name, 0.0, minimum=0.0)
+def _probability(r: _Reader, name: str, default: float = 0.0) -> float:
+    value = r.number(name, default, minimum=0.0)
     if value > 1:
         raise ConfigError(
             f"{r.key(name)}: a probability must lie between 0 and 1, got {value}", file=r.source
