@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Cycles", "find_cycles", "bed_context", "CONTEXT_FEATURES"]
+__all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "find_cycles"]
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
 CONTEXT_FEATURES = ("cycle_stacking", "base_shift", "trend", "position")
@@ -202,7 +202,10 @@ def bed_context(
     top, base = cycles.top_rank, cycles.base_rank
     below = top - _neighbour(top, cycles.lengths, -1)
     above = _neighbour(top, cycles.lengths, 1) - top
-    stacking = np.nanmean(np.vstack([below, above]), axis=0) if len(top) else top
+    both = np.vstack([below, above])
+    counted = np.isfinite(both).sum(axis=0)
+    with np.errstate(invalid="ignore"):
+        stacking = np.where(counted > 0, np.nansum(both, axis=0) / np.maximum(counted, 1), np.nan)
     shift = base - _neighbour(base, cycles.lengths, -1)
     smooth = _running_mean(r, lengths, 2)
     low = _window(smooth, lengths, position_half_width, "min")

@@ -538,6 +538,15 @@ def default_tract_model() -> TractModel:
     return TractModel.from_dict(yaml.safe_load(text), source="faciesseq:data/tracts.yaml")
 
 
+def permissive_tract_model() -> TractModel:
+    """The four tracts with every boundary allowed (``data/tracts-permissive.yaml``):
+    any tract may be missing at a well. The simulators name their true surfaces
+    with it; a fit uses it only when asked (``--tracts``)."""
+    path = "data/tracts-permissive.yaml"
+    text = resources.files("faciesseq").joinpath(path).read_text(encoding="utf-8")
+    return TractModel.from_dict(yaml.safe_load(text), source=f"faciesseq:{path}")
+
+
 def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
     """A starting facies scheme (YAML text) listing ``codes``, ranks left to fill in.
 

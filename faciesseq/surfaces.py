@@ -235,3 +235,81 @@ def surface_curves(interpretation, step: float) -> pd.DataFrame:
         return pd.DataFrame(columns=["core", "depth"])
     out = pd.concat(frames, ignore_index=True)
     return out[["core", *[c for c in out.columns if c != "core"]]]
+
+
+def column_picks(
+    boundaries: pd.DataFrame,
+    codes: tuple[str, ...],
+    tract_model: TractModel,
+    segment: int,
+    mass: float = 0.9,
+    floor: float = 0.02,
+) -> pd.DataFrame:
+    """Surfaces picked where the decoded tract column changes (``CoreInterpretation.picks``).
+
+    Every change of tract between two beds is a pick of the surface the tract
+    model puts on that boundary, so the picks form a sequence the tract graph
+    allows and never contradict the column (e.g. no sequence boundary below a
+    basal surface of forced regression of the same sequence). Its
+    ``probability`` is the probability mass of that surface in its
+    uncertainty interval: the contacts around the pick, out to the nearest
+    local minimum or a contact below ``floor``, trimmed to the narrowest run
+    that holds ``mass`` of it (the number that decided the pick; a
+    highest-density interval along the core). ``p_contact`` is the
+    probability at the pick contact alone.
+
+    ``boundaries`` is one segment's boundary table in depth order with
+    ``depth``, ``lower_tract``, ``upper_tract`` and one ``p_<CODE>`` column
+    per surface code.
+    """
+    rows = []
+    change = boundaries["lower_tract"].to_numpy() != boundaries["upper_tract"].to_numpy()
+    depth = boundaries["depth"].to_numpy(float)
+    for i in np.flatnonzero(change):
+        surface = tract_model.surface(
+            boundaries["lower_tract"].iat[i], boundaries["upper_tract"].iat[i]
+        )
+        if surface is None or f"p_{surface.code}" not in boundaries:
+            continue
+        p = boundaries[f"p_{surface.code}"].to_numpy(float)
+        lo, hi = _around(p, int(i), floor)
+        lo, hi = _narrowest(p, int(i), lo, hi, mass)
+        rows.append(
+            {
+                "surface": surface.code,
+                "name": surface.name,
+                "depth": float(depth[i]),
+                "probability": float(min(1.0, p[lo : hi + 1].sum())),
+                "p_contact": float(p[i]),
+                "depth_top": float(min(depth[lo], depth[hi])),
+                "depth_base": float(max(depth[lo], depth[hi])),
+                "segment": int(segment),
+            }
+        )
+    columns = ["surface", "name", "depth", "probability", "p_contact", "depth_top"]
+    return pd.DataFrame(rows, columns=[*columns, "depth_base", "segment"])
+
+
+def _around(p: np.ndarray, i: int, floor: float) -> tuple[int, int]:
+    """The run of contacts around ``i`` that falls away from it down to ``floor``."""
+    lo = i
+    while lo > 0 and floor <= p[lo - 1] <= p[lo]:
+        lo -= 1
+    hi = i
+    while hi + 1 < len(p) and floor <= p[hi + 1] <= p[hi]:
+        hi += 1
+    return lo, hi
+
+
+def _narrowest(p: np.ndarray, i: int, lo: int, hi: int, mass: float) -> tuple[int, int]:
+    """Grow from ``i`` towards the more probable neighbour until ``mass`` of ``lo..hi``."""
+    target = mass * p[lo : hi + 1].sum()
+    a = b = i
+    while p[a : b + 1].sum() < target and (a > lo or b < hi):
+        left = p[a - 1] if a > lo else -1.0
+        right = p[b + 1] if b < hi else -1.0
+        if left >= right:
+            a -= 1
+        else:
+            b += 1
+    return a, b

@@ -17,9 +17,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from faciesseq.hmm.model import TractHMM
+from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
 from faciesseq.io import read_cores
-from faciesseq.scheme import load_scheme
+from faciesseq.scheme import load_scheme, permissive_tract_model
 
 DATA = Path(__file__).parent / "data" / "council_grove"
 
@@ -35,7 +35,13 @@ def decoded():
         scheme=DATA / "scheme.yaml",
     )
     cores = cores.subset([n for n in cores.names if n != "Recruit F9"])
-    model = TractHMM(scheme=load_scheme(DATA / "scheme.yaml"), random_state=0)
+    # the bed-level pieces on the permissive graph (the context default: see docs/hmm.md)
+    model = TractHMM(
+        scheme=load_scheme(DATA / "scheme.yaml"),
+        features=tuple(f for f in DEFAULT_FEATURES if f != "contact"),
+        tract_model=permissive_tract_model(),
+        random_state=0,
+    )
     successions = cores.successions("beds")
     interp = model.fit(successions).decode(successions)
     return pd.concat([c.beds.assign(core=c.core) for c in interp], ignore_index=True)

@@ -18,9 +18,9 @@ import pytest
 
 from faciesseq.core import Succession
 from faciesseq.hmm.emissions import UnseenCategoryWarning
-from faciesseq.hmm.model import ConvergenceError, ConvergenceMonitor, TractHMM
+from faciesseq.hmm.model import DEFAULT_FEATURES, ConvergenceError, ConvergenceMonitor, TractHMM
 from faciesseq.hmm.selection import select_model
-from faciesseq.scheme import TractModel, default_tract_model
+from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model
 
 hmm = pytest.importorskip("hmmlearn.hmm")
 
@@ -196,7 +196,9 @@ def test_missing_values_are_marginalised(train):
 
 
 def test_unseen_facies_decodes_with_a_warning(train):
-    model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1).fit(train[:6])
+    model = TractHMM(
+        scheme=synth.scheme(), features=DEFAULT_FEATURES, random_state=0, n_restarts=1
+    ).fit(train[:6])
     s = train[7]
     beds = s.beds.copy()
     beds.loc[3, "facies"] = "XX"
@@ -222,7 +224,14 @@ def test_rank_priors_pin_tract_identity_across_seeds():
     columns = []
     for seed, order in ((0, None), (1, None), (2, "reversed")):
         data = train[::-1] if order else train
-        model = TractHMM(scheme=synth.scheme(), n_restarts=2, random_state=seed).fit(data)
+        model = TractHMM(
+            scheme=synth.scheme(),
+            features=DEFAULT_FEATURES,
+            tract_model=permissive_tract_model(),
+            n_restarts=2,
+            random_state=seed,
+        )
+        model = model.fit(data)
         interp = model.decode(test)
         assert _bed_accuracy(interp, test) >= 0.75
         tst = model.emission("facies_trend").trendprob_[model.states_.tracts.index("TST")]
@@ -242,7 +251,14 @@ def test_recovery_on_synthetic_cores_beats_the_trend_rule():
     test = synth.cores(8, 100, seed=32)
     sup = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1)
     sup.fit(train, labels="true_tract")
-    uns = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=2).fit(train)
+    uns = TractHMM(
+        scheme=synth.scheme(),
+        features=DEFAULT_FEATURES,
+        tract_model=permissive_tract_model(),
+        random_state=0,
+        n_restarts=2,
+    )
+    uns = uns.fit(train)
     acc_sup = _bed_accuracy(sup.decode(test), test)
     acc_uns = _bed_accuracy(uns.decode(test), test)
     ranks = np.concatenate(

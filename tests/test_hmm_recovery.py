@@ -88,8 +88,13 @@ def test_rank_step_needs_a_scheme_and_is_a_default_only_with_one():
     assert "rank_step" not in plain.features_
     with pytest.raises(ConfigError, match=r"rank_step.*scheme"):
         TractHMM(features=("facies_trend", "rank_step")).fit(train)
-    model = TractHMM(scheme=synth.scheme(), n_restarts=1, max_iter=3).fit(train)
-    assert "rank_step" in model.features_
+    model = TractHMM(scheme=synth.scheme(), n_restarts=1, max_iter=3).fit(train, labels=None)
+    # without labels, a scheme makes the stacking context the default; rank_step is a
+    # default of labelled fits
+    assert "cycle_stacking" in model.features_
+    labels = [list(s.beds["true_tract"]) for s in train]
+    model = TractHMM(scheme=synth.scheme(), n_restarts=1, max_iter=3, calibration_folds=0)
+    assert "rank_step" in model.fit(train, labels=labels).features_
 
 
 def test_model_file_keeps_the_rank_step_and_refuses_other_jumps(tmp_path):

@@ -10,6 +10,7 @@ from faciesseq.scheme import (
     default_tract_model,
     draft_scheme,
     load_scheme,
+    permissive_tract_model,
 )
 
 
@@ -60,18 +61,29 @@ def test_draft_scheme_does_not_load_until_ranks_are_filled(tmp_path):
 
 def test_default_tract_model_order_skips_and_surfaces():
     # Cyclic order upward HST -> FSST -> LST -> TST -> HST (Catuneanu et al. 2009,
-    # Earth-Science Reviews 92:1-33); at one well any tract may be missing (common
-    # practice), so every boundary is allowed and each is named by its chief surface.
+    # Earth-Science Reviews 92:1-33), strict by default: only the FSST (subsidence
+    # outpaces the fall) and the TST (supply outpaces the rise) may be missing
+    # (common practice); every other boundary is a structural zero.
     model = default_tract_model()
     assert model.order == ("HST", "FSST", "LST", "TST")
-    assert set(model.skips) == {"HST", "FSST", "LST", "TST"}
-    assert model.successors("HST") == ("FSST", "LST", "TST")
-    assert model.successors("TST") == ("HST", "FSST", "LST")
+    assert set(model.skips) == {"FSST", "TST"}
+    assert model.successors("HST") == ("FSST", "LST")
+    assert model.successors("LST") == ("TST", "HST")
+    assert model.successors("TST") == ("HST",)
+    assert model.successors("FSST") == ("LST",)
     assert model.surface("TST", "HST").code == "MFS"
     assert model.surface("LST", "TST").code == "MRS"
     assert model.surface("HST", "FSST").code == "BSFR"
     assert model.surface("FSST", "LST").code == "SB"
-    # a highstand thinner than a bed: MFS and BSFR coincide, named MFS
+    assert model.surface("HST", "LST").code == "SB"
+    allowed = model.allowed()
+    assert sum(map(sum, allowed)) == 4 + 6
+
+
+def test_permissive_tract_model_allows_every_boundary_and_names_it():
+    # at one well any tract may be missing: each boundary named by its chief surface
+    model = permissive_tract_model()
+    assert set(model.skips) == {"HST", "FSST", "LST", "TST"}
     assert model.surface("TST", "FSST").code == "MFS"
     assert model.surface("FSST", "TST").code == "SB"
     allowed = model.allowed()

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from faciesseq.hmm.states import StateSpace
-from faciesseq.scheme import default_tract_model
+from faciesseq.scheme import permissive_tract_model
 from faciesseq.surfaces import boundary_probabilities, pick_surfaces, surface_codes
 
 
@@ -37,7 +37,7 @@ def test_two_peaks_with_a_valley_are_two_picks_and_weak_ones_none():
 
 
 def test_boundary_probabilities_sum_xi_over_the_tract_pairs_of_each_surface():
-    tm = default_tract_model()
+    tm = permissive_tract_model()
     states = StateSpace.build(tm, {"TST": 2})
     K = states.n_states
     rng = np.random.default_rng(0)

@@ -132,8 +132,7 @@ class ContextEmission(CategoricalEmission):
         feature = str(data["name"])
         if feature not in CONTEXT_BINS or list(data["edges"]) != list(CONTEXT_BINS[feature]):
             raise ModelFileError(
-                f"emission {feature!r}: not a context feature with the bins "
-                f"{dict(CONTEXT_BINS)}",
+                f"emission {feature!r}: not a context feature with the bins {dict(CONTEXT_BINS)}",
                 file=source,
             )
         piece = cls(feature, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]))

@@ -43,8 +43,18 @@ from faciesseq.hmm.emissions import (
 )
 from faciesseq.hmm.states import StateSpace
 from faciesseq.interpretation import CoreInterpretation, Interpretation
-from faciesseq.scheme import FaciesScheme, TractModel, default_tract_model
-from faciesseq.surfaces import boundary_probabilities, picks_frame, surface_codes, surface_names
+from faciesseq.scheme import (
+    FaciesScheme,
+    TractModel,
+    default_tract_model,
+    permissive_tract_model,
+)
+from faciesseq.surfaces import (
+    boundary_probabilities,
+    column_picks,
+    surface_codes,
+    surface_names,
+)
 
 __all__ = [
     "DEFAULT_FEATURES",
@@ -321,7 +331,9 @@ class TractHMM:
     # ------------------------------------------------------------------ setup
     @property
     def tract_model_(self) -> TractModel:
-        return self.tract_model if self.tract_model is not None else default_tract_model()
+        if self.tract_model is not None:
+            return self.tract_model
+        return getattr(self, "_default_graph", None) or default_tract_model()
 
     def _check_hyper(self) -> None:
         if self.unit not in ("beds", "grid"):
@@ -761,6 +773,11 @@ class TractHMM:
         if not succ:
             raise InputError("no beds to fit the tract model on")
         tables = [s.beds for s in succ]
+        # Labelled bed-level fits keep the permissive graph: a described bed is often
+        # thicker than a highstand or lowstand, so labelled columns jump over tracts
+        # (measured: the strict graph frees those labels and supervised accuracy
+        # falls, tests/test_hmm_stacking.py); fits without labels read the strict one.
+        self._default_graph = permissive_tract_model() if labels is not None else None
         self.states_ = StateSpace.build(self.tract_model_, self.substates)
         clamp, n_labelled = self._labels(succ, labels)
         self.features_ = self._resolve_features(tables, labelled=n_labelled > 0)
@@ -904,7 +921,9 @@ class TractHMM:
         frames = [self._simulated_table(d, tracts_of) for d, tracts_of in _split(drawn, tracts)]
         sim = self._encode(frames)
         le = self._log_emission(self.emissions_, sim)
-        held = HeldOut(le, sim.lengths, self.startprob_, self.transmat_, tracts, self.states_.state_tract)
+        held = HeldOut(
+            le, sim.lengths, self.startprob_, self.transmat_, tracts, self.states_.state_tract
+        )
         result = fit_temperature([held])
         return {**result, "method": "parametric bootstrap", "simulated_successions": len(chosen)}
 
@@ -1135,12 +1154,7 @@ class TractHMM:
                 bnd[f"p_{code}"] = surf[:, c]
             bnd = bnd.iloc[::-1].reset_index(drop=True)
             bnd_frames.append(bnd)
-            probs = bnd[[f"p_{c}" for c in codes]].to_numpy(float)
-            pick_frames.append(
-                picks_frame(
-                    bnd["depth"].to_numpy(float), probs, codes, names, s.segment, threshold, mass
-                )
-            )
+            pick_frames.append(column_picks(bnd, codes, self.tract_model_, s.segment, mass))
         beds = pd.concat(bed_frames, ignore_index=True)
         first = ["segment", "top", "base", "thickness", "facies"]
         p_cols = [f"p_{t}" for t in tracts]

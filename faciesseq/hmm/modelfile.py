@@ -44,7 +44,7 @@ from faciesseq._version import __version__
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
 from faciesseq.hmm.emissions import piece_from_dict
-from faciesseq.hmm.model import ConvergenceMonitor, TractHMM
+from faciesseq.hmm.model import RANK_FEATURES, ConvergenceMonitor, TractHMM
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import FaciesScheme, TractModel
 
@@ -281,11 +281,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             )
         cats = getattr(piece, "categories", None)
         expected = contacts if feature == "contact" else facies
-        if feature in ("rank_step", "rank_step_above", "rank_trend", "stacking") and ranks is None:
+        if feature in RANK_FEATURES and ranks is None:
             raise ModelFileError(
                 f"emission {feature!r} needs the facies ranks ('ranks' is null)", file=source
             )
-        if piece.kind in ("rank_step", "rank_step_above", "rank_trend"):
+        if piece.kind in ("rank_step", "rank_step_above", "rank_trend", "context"):
             cats = None  # fixed categories, checked by the piece itself
         if cats is not None and list(cats) != [str(c) for c in expected]:
             raise ModelFileError(

@@ -95,9 +95,12 @@ def tract_transitions(model: Any) -> pd.DataFrame:
 def _state_frame(
     values: np.ndarray, model: Any, columns, index_name: str = "state"
 ) -> pd.DataFrame:
-    frame = pd.DataFrame(
-        np.asarray(values, dtype=float), index=model.states_.labels(), columns=list(columns)
-    )
+    values = np.asarray(values, dtype=float)
+    # emissions are per tract (sub-states share their tract's); chains are per state
+    labels = model.states_.labels()
+    if len(values) == model.states_.n_tracts and len(labels) != len(values):
+        labels, index_name = list(model.states_.tracts), "tract"
+    frame = pd.DataFrame(values, index=labels, columns=list(columns))
     frame.index.name = index_name
     return frame
 

@@ -30,7 +30,7 @@ import pandas as pd
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.errors import ConfigError
-from faciesseq.scheme import TractModel, _read_yaml, default_tract_model
+from faciesseq.scheme import TractModel, _read_yaml, permissive_tract_model
 from faciesseq.simulate.model import SectionHistory, run_section
 from faciesseq.simulate.scenario import Scenario, load_scenario, scenario_from_dict
 from faciesseq.simulate.stacking import (
@@ -151,7 +151,7 @@ def simulate(
     :mod:`faciesseq.simulate.model` for the equations.
     """
     seed = scenario.seed if seed is None else int(seed)
-    model = default_tract_model() if tract_model is None else tract_model
+    model = permissive_tract_model() if tract_model is None else tract_model
     sections = {s.name: run_section(scenario, s) for s in scenario.sections}
 
     steps = []

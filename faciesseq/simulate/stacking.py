@@ -44,7 +44,13 @@ import pandas as pd
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.errors import ConfigError
-from faciesseq.scheme import FaciesScheme, TractModel, _read_yaml, default_tract_model, load_scheme
+from faciesseq.scheme import (
+    FaciesScheme,
+    TractModel,
+    _read_yaml,
+    load_scheme,
+    permissive_tract_model,
+)
 from faciesseq.simulate.scenario import _probability, _Reader
 from faciesseq.simulate.wells import history_tract_model, surface_path
 
@@ -608,7 +614,7 @@ def simulate_stacking(
     et al. 2009, Earth-Science Reviews 92:1-33.
     """
     seed = scenario.seed if seed is None else int(seed)
-    model = default_tract_model() if tract_model is None else tract_model
+    model = permissive_tract_model() if tract_model is None else tract_model
     label_seed, *core_seeds = np.random.SeedSequence(seed).spawn(scenario.cores + 1)
     n_labelled = int(np.floor(scenario.labelled_fraction * scenario.cores + 0.5))
     labelled = set(np.random.default_rng(label_seed).permutation(scenario.cores)[:n_labelled])
