@@ -92,12 +92,12 @@ def test_appendix_command_usage_errors_are_one_line(tmp_path, capsys, small_sour
     assert not (tmp_path / "x").exists() and not (tmp_path / "y").exists()
 
 
-def test_demo_refuses_to_replace_a_folder_it_did_not_write(tmp_path, capsys):
+def test_demo_refuses_to_replace_a_folder_without_force(tmp_path, capsys):
     out = tmp_path / "mine"
     out.mkdir()
     (out / "notes.txt").write_text("keep")
-    code, _, err = _run(capsys, ["demo", "--out", str(out)])
-    assert code == 2 and "not a previous demo" in err
+    code, _, err = _run(capsys, ["demo", "-o", str(out)])
+    assert code == 2 and "exists; pass --force" in err and err.count("\n") == 1
     assert [p.name for p in out.iterdir()] == ["notes.txt"]
 
 
@@ -121,7 +121,7 @@ def test_demo_end_to_end(tmp_path, capsys):
     from faciesseq.scheme import load_scheme
 
     out = tmp_path / "demo"
-    code, stdout, err = _run(capsys, ["demo", "--out", str(out), "--no-latex"])
+    code, stdout, err = _run(capsys, ["demo", "-o", str(out), "--no-latex"])
     assert code == 0, err
     assert f"appendix: {out / 'appendix.html'}" in stdout
     assert f"figures:  {out / 'figures'}" in stdout

@@ -102,7 +102,7 @@ def test_scheme_draft_writes_codes_with_ranks_to_fill_and_refuses_to_overwrite(t
     capsys.readouterr()
     before = out.read_text()
     assert main(["scheme", "draft", str(source), "-o", str(out)]) == 2
-    assert "exists; give --force" in capsys.readouterr().err
+    assert "exists; pass --force to replace it" in capsys.readouterr().err
     assert out.read_text() == before
     assert main(["scheme", "draft", str(source), "-o", str(out), "--force"]) == 0
     # the draft does not load as a scheme until the ranks are filled in

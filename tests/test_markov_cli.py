@@ -67,7 +67,7 @@ def test_json_output_follows_the_documented_contract():
 
 
 def test_csv_and_out_folder(tmp_path):
-    code, out, _ = _run(*READ, "--format", "csv", "--out", str(tmp_path / "res"))
+    code, out, _ = _run(*READ, "--format", "csv", "-o", str(tmp_path / "res"))
     assert code == 0
     tests = pd.read_csv(io.StringIO(out))
     assert list(tests.columns[:4]) == ["name", "statistic", "dof", "p_value"]
@@ -88,7 +88,7 @@ def test_csv_and_out_folder(tmp_path):
     ],
 )
 def test_usage_mistakes_give_one_line_and_exit_2(tmp_path, args, message):
-    code, _out, err = _run(*READ, *args, "--out", str(tmp_path / "never"))
+    code, _out, err = _run(*READ, *args, "-o", str(tmp_path / "never"))
     assert code == 2
     assert message in err and err.count("\n") == 1
     assert not (tmp_path / "never").exists()

@@ -45,8 +45,43 @@ Interpretations are an aid to a geologist's judgement, not a substitute for it.
 """
 
 
+class HelpFormatter(argparse.HelpFormatter):
+    """Examples kept as written, one-paragraph descriptions wrapped; every default shown.
+
+    A description or epilog written over several lines (the examples) is kept
+    as it is, as :class:`argparse.RawDescriptionHelpFormatter` does; a
+    one-line description is wrapped to the terminal. Like
+    :class:`argparse.ArgumentDefaultsHelpFormatter`, each option's default is
+    added to its help, but only where there is one worth stating (not
+    ``None``, ``False`` or an empty list) and the help does not mention it.
+    """
+
+    def _fill_text(self, text: str, width: int, indent: str) -> str:
+        if "\n" in text.strip():
+            return "".join(indent + line for line in text.splitlines(keepends=True))
+        return super()._fill_text(text, width, indent)
+
+    def _get_help_string(self, action: argparse.Action) -> str:
+        text = action.help or ""
+        default = action.default
+        empty = default is None or default is False or default == [] or default == argparse.SUPPRESS
+        if empty or "default" in text:
+            return text
+        if not action.option_strings and action.nargs not in ("?", "*"):
+            return text
+        return f"{text} (default: %(default)s)"
+
+
 class _Parser(argparse.ArgumentParser):
-    """argparse with exit code 2 and a one-line error for usage mistakes."""
+    """argparse with exit code 2 and a one-line error for usage mistakes.
+
+    Every parser shows its options' defaults and keeps its description and
+    examples as written (:class:`HelpFormatter`).
+    """
+
+    def __init__(self, *args, **kwargs) -> None:
+        kwargs.setdefault("formatter_class", HelpFormatter)
+        super().__init__(*args, **kwargs)
 
     def error(self, message: str) -> None:  # pragma: no cover - argparse path
         self.print_usage(sys.stderr)
@@ -63,7 +98,6 @@ def build_parser() -> argparse.ArgumentParser:
             "reproducible statistical appendix."
         ),
         epilog=EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("--version", action="version", version=f"faciesseq {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from faciesseq.errors import ConfigError
+from faciesseq.errors import ConfigError, InputError
 
 
 def add_source_arguments(parser: argparse.ArgumentParser, scheme: bool = True) -> None:
@@ -73,7 +73,7 @@ def load_scheme_option(path: str | None):
         return None
     from faciesseq.scheme import load_scheme
 
-    return load_scheme(path)
+    return load_scheme(require_file(path))
 
 
 def read_source(args: argparse.Namespace, scheme=None):
@@ -92,3 +92,79 @@ def read_source(args: argparse.Namespace, scheme=None):
         scheme=scheme,
         repeated_depths="keep-first" if args.keep_first else "error",
     )
+
+
+class _DeprecatedAlias(argparse.Action):
+    """A hidden old spelling of an option: stores the value and warns on standard error."""
+
+    def __call__(self, parser, namespace, values, option_string=None) -> None:
+        import sys
+
+        sys.stderr.write(
+            f"{parser.prog}: warning: {option_string} is deprecated; use -o/--output\n"
+        )
+        setattr(namespace, self.dest, values)
+
+
+def add_output_arguments(
+    parser: argparse.ArgumentParser,
+    metavar: str,
+    help: str,
+    *,
+    required: bool = False,
+    default: str | None = None,
+    old_out: bool = False,
+) -> None:
+    """Add ``-o/--output`` and ``--force`` (and, with ``old_out``, a hidden deprecated ``--out``).
+
+    Parameters
+    ----------
+    parser
+        The command's parser (or an argument group of it).
+    metavar
+        ``FILE``, ``DIR`` or ``OUT``, as the help names the output.
+    help
+        Help of ``-o/--output``.
+    required
+        Whether ``-o`` must be given.
+    default
+        The output when ``-o`` is not given.
+    old_out
+        Also accept ``--out``, the former name, with a deprecation warning.
+        Where ``--out`` was never an option of its own, argparse still reads it
+        as the abbreviation of ``--output``.
+    """
+    parser.add_argument(
+        "-o", "--output", required=required, default=default, metavar=metavar, help=help
+    )
+    if old_out:
+        parser.add_argument(
+            "--out",
+            dest="output",
+            action=_DeprecatedAlias,
+            default=argparse.SUPPRESS,
+            help=argparse.SUPPRESS,
+        )
+    parser.add_argument(
+        "--force", action="store_true", help=f"replace {metavar} if it exists (atomically)"
+    )
+
+
+def require_file(path: str | None) -> str | None:
+    """``path`` when it names an existing file; otherwise the error a missing SOURCE gives.
+
+    Raises
+    ------
+    InputError
+        ``path`` does not exist (``file not found``) or is a folder (exit code 1,
+        as for a missing SOURCE).
+    """
+    from pathlib import Path
+
+    if path is None:
+        return None
+    if not Path(path).exists():
+        raise InputError("file not found", file=str(path))
+    if Path(path).is_dir():
+        raise InputError("is a folder, not a file", file=str(path))
+    return path

@@ -7,7 +7,7 @@ import sys
 import warnings
 from contextlib import contextmanager
 
-from faciesseq.cli._common import check_unit_step
+from faciesseq.cli._common import check_unit_step, require_file
 from faciesseq.errors import ConfigError
 
 
@@ -53,14 +53,14 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         metavar="X",
         help="weight of transition pseudo-counts from the trend rule (0 = off; default 0.2)",
     )
-    group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts (3)")
-    group.add_argument("--seed", type=int, default=0, metavar="S", help="random seed (0)")
+    group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
+    group.add_argument("--seed", type=int, default=0, metavar="S", help="random seed")
     group.add_argument("--max-iter", type=int, default=200, metavar="N", help="EM iteration cap")
     group.add_argument(
         "--tol", type=float, default=1e-3, metavar="X", help="EM convergence tolerance (log units)"
     )
     group.add_argument(
-        "--jobs", type=int, default=1, metavar="N", help="run restarts in N processes (1)"
+        "--jobs", type=int, default=1, metavar="N", help="run restarts in N processes"
     )
     group.add_argument(
         "--calibration-folds",
@@ -112,7 +112,7 @@ def check_unit(args: argparse.Namespace) -> None:
 def load_tracts_option(path: str | None):
     from faciesseq.scheme import default_tract_model, load_tract_model
 
-    return load_tract_model(path) if path else default_tract_model()
+    return load_tract_model(require_file(path)) if path else default_tract_model()
 
 
 class Progress:

@@ -6,9 +6,16 @@ import argparse
 import sys
 import time
 
+EXAMPLES = """\
+examples:
+  faciesseq appendix cores.csv --scheme my-scheme.yaml -o appendix
+  faciesseq appendix cores.csv --model model.json --no-latex -o appendix --force
+  faciesseq appendix cores.csv --scheme my-scheme.yaml --surrogates 999 --folds 5 -o appendix
+"""
+
 
 def register(subparsers) -> None:
-    from faciesseq.cli._common import add_source_arguments
+    from faciesseq.cli._common import add_output_arguments, add_source_arguments
 
     parser = subparsers.add_parser(
         "appendix",
@@ -20,11 +27,11 @@ def register(subparsers) -> None:
             "self-contained file), appendix.tex with figures/*.pdf, tables/*.csv, "
             "appendix.json and provenance.json."
         ),
+        epilog=EXAMPLES,
     )
     add_source_arguments(parser)
     add_appendix_arguments(parser)
-    parser.add_argument("-o", "--output", required=True, metavar="DIR", help="folder to write")
-    parser.add_argument("--force", action="store_true", help="replace an existing folder")
+    add_output_arguments(parser, "DIR", "folder to write", required=True)
     parser.set_defaults(func=run)
 
 
@@ -126,6 +133,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     """Run the job and write the folder; return the folder (shared by ``demo``)."""
     import json
 
+    from faciesseq.cli._common import require_file
     from faciesseq.pipeline import run_appendix
     from faciesseq.report.appendix import write_appendix
     from faciesseq.report.provenance import provenance
@@ -135,9 +143,9 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     if args.model:
         from faciesseq.hmm.modelfile import load_model
 
-        model = load_model(args.model)
+        model = load_model(require_file(args.model))
     if args.tract_model:
-        tract_model = load_tract_model(args.tract_model)
+        tract_model = load_tract_model(require_file(args.tract_model))
     elif model is not None:
         tract_model = model.tract_model_  # the tract model the file was fitted with
     else:
@@ -182,17 +190,14 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
 
 
 def run(args: argparse.Namespace) -> int:
-    from faciesseq.cli._common import load_scheme_option, read_source
+    from faciesseq._output import check_target
+    from faciesseq.cli._common import load_scheme_option, read_source, require_file
     from faciesseq.errors import ConfigError
 
     check_numbers(args)
-    from pathlib import Path
-
-    if Path(args.output).exists() and not args.force:
-        raise ConfigError(
-            "output folder exists; choose another -o or pass --force to replace it",
-            file=args.output,
-        )
+    check_target(args.output, force=args.force, folder=True)
+    require_file(args.model)
+    require_file(args.tract_model)
     scheme = load_scheme_option(args.scheme)
     if scheme is None and args.model:
         from faciesseq.hmm.modelfile import load_model

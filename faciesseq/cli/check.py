@@ -8,6 +8,14 @@ import math
 
 from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
 
+EXAMPLES = """\
+examples:
+  faciesseq check cores.csv --scheme configs/scheme-shoreface.yaml
+  faciesseq check logs.csv --layout samples --column core="Well Name" --column depth=Depth \\
+      --column facies=Facies --units ft
+  faciesseq check postgresql://geo@dbhost/cores --table intervals --format json
+"""
+
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(
@@ -17,13 +25,14 @@ def register(subparsers) -> None:
         "facies proportions, bed thickness statistics) and every problem found, each with "
         "file, row, core and depth. Exit code 0 when the data is usable, 1 when it has "
         "errors, 2 for usage or configuration errors.",
+        epilog=EXAMPLES,
     )
     add_source_arguments(parser)
     parser.add_argument(
         "--format",
         choices=("text", "json"),
         default="text",
-        help="text for reading (default) or json (summary, cores, facies, problems)",
+        help="text for reading or json (summary, cores, facies, problems)",
     )
     parser.set_defaults(func=run)
 

@@ -3,16 +3,26 @@
 from __future__ import annotations
 
 import argparse
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    load_scheme_option,
+    read_source,
+    require_file,
+)
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.errors import ConfigError
 
 FORMATS = ("csv", "json", "parquet")
+
+EXAMPLES = """\
+examples:
+  faciesseq decode model.json cores.csv -o decoded
+  faciesseq decode model.json new-cores.csv --scheme my-scheme.yaml --plot -o decoded --force
+  faciesseq decode model.json cores.csv --format parquet --threshold 0.6 -o decoded
+"""
 
 
 def register(subparsers) -> None:
@@ -24,21 +34,21 @@ def register(subparsers) -> None:
         "tract per bed, the probability of each named surface at every contact and the "
         "picked surfaces. Writes OUT/tracts.*, OUT/surfaces.* and OUT/picks.*; with --plot "
         "one strip-log figure per core. An interpreter's tract column in SOURCE is not used "
-        "to decode; where present, the agreement with it is reported.",
+        "to decode; where present, the agreement with it is reported. An existing OUT is "
+        "replaced as a whole with --force.",
+        epilog=EXAMPLES,
     )
     parser.add_argument("model", metavar="MODEL", help="model file written by `faciesseq fit`")
     add_source_arguments(parser)
-    parser.add_argument("-o", "--output", required=True, metavar="OUT", help="output folder")
-    parser.add_argument(
-        "--format", choices=FORMATS, default="csv", help="table format (csv, the default)"
-    )
+    add_output_arguments(parser, "OUT", "output folder", required=True)
+    parser.add_argument("--format", choices=FORMATS, default="csv", help="table format")
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
     parser.add_argument(
         "--threshold",
         type=float,
         default=0.5,
         metavar="P",
-        help="pick a surface where its probability mass around a peak reaches P (0.5)",
+        help="pick a surface where its probability mass around a peak reaches P",
     )
     parser.add_argument(
         "--labels",
@@ -86,15 +96,10 @@ def _agreement(interp, column: str):
 
 
 def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
-    """Write the tables (and figures) into a temporary folder, then move it into place."""
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise ConfigError("output exists and is not a folder", file=str(out))
-    parent = out.parent if str(out.parent) else Path(".")
-    if not parent.is_dir():
-        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(out))
-    temp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    try:
+    """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
+    from faciesseq._output import new_folder
+
+    with new_folder(out) as temp:
         _write_table(interp.tracts_table(), temp / f"tracts.{fmt}", fmt)
         _write_table(interp.surfaces_table(), temp / f"surfaces.{fmt}", fmt)
         _write_table(interp.picks_table(), temp / f"picks.{fmt}", fmt)
@@ -108,31 +113,16 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
             for core in interp:
                 safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in core.core)
                 strip_log(core, scheme, tract_model, figures / f"{safe}.png")
-        if not out.exists():
-            temp.rename(out)
-            return
-        for item in temp.iterdir():
-            target = out / item.name
-            if target.is_dir() and not target.is_symlink():
-                shutil.rmtree(target)
-            os.replace(item, target)
-        temp.rmdir()
-    finally:
-        if temp.exists():
-            shutil.rmtree(temp, ignore_errors=True)
 
 
 def run(args: argparse.Namespace) -> int:
     if not 0 < args.threshold <= 1:
         raise ConfigError(f"--threshold must be in (0, 1], got {args.threshold}")
+    from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError("output exists and is not a folder", file=str(out))
-    if not (out.parent if str(out.parent) else Path(".")).is_dir():
-        raise ConfigError(f"folder {str(out.parent)!r} does not exist", file=str(out))
-    model = load_model(args.model)
+    check_target(args.output, force=args.force, folder=True)
+    model = load_model(require_file(args.model))
     scheme = load_scheme_option(args.scheme) or model.scheme
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")

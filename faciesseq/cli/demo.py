@@ -3,12 +3,18 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
-from pathlib import Path
+
+EXAMPLES = """\
+examples:
+  faciesseq demo
+  faciesseq demo -o my-demo --no-latex
+  faciesseq demo --force --surrogates 999
+"""
 
 
 def register(subparsers) -> None:
+    from faciesseq.cli._common import add_output_arguments
     from faciesseq.cli.appendix import add_appendix_arguments
 
     parser = subparsers.add_parser(
@@ -21,48 +27,28 @@ def register(subparsers) -> None:
             "interpreted cores and write the appendix. Progress goes to the terminal; the "
             "last lines say where the appendix and its figures are."
         ),
+        epilog=EXAMPLES,
     )
-    parser.add_argument(
-        "--out",
-        default="faciesseq-demo",
-        metavar="DIR",
-        help="folder to write (default: ./faciesseq-demo; a previous demo folder is replaced)",
-    )
+    add_output_arguments(parser, "DIR", "folder to write", default="faciesseq-demo", old_out=True)
     add_appendix_arguments(parser)
     parser.set_defaults(func=run, model=None)
 
 
-def _is_previous_output(path: Path) -> bool:
-    try:
-        data = json.loads((path / "appendix.json").read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return False
-    return isinstance(data, dict) and data.get("format") == "faciesseq-appendix"
-
-
 def run(args: argparse.Namespace) -> int:
+    from faciesseq._output import check_target
     from faciesseq.cli.appendix import check_numbers, make
-    from faciesseq.errors import ConfigError
     from faciesseq.io import read_cores
     from faciesseq.pipeline import demo_source
     from faciesseq.scheme import load_scheme
 
     check_numbers(args)
-    out = Path(args.out)
-    force = False
-    if out.exists():
-        if not _is_previous_output(out):
-            raise ConfigError(
-                "exists and is not a previous demo or appendix folder; choose another --out",
-                file=str(out),
-            )
-        force = True
+    out = check_target(args.output, force=args.force, folder=True)
     folder = demo_source()
     args.source = str(folder / "cores.csv")
     args.scheme = str(folder / "scheme-shoreface.yaml")
     scheme = load_scheme(args.scheme)
     cores = read_cores(args.source, scheme=scheme)
-    written, result = make(args, cores, scheme, out, force, extra_model=True)
+    written, result = make(args, cores, scheme, out, args.force, extra_model=True)
     html = written / "appendix.html"
     pdf = "" if args.no_latex else ", and PDF for appendix.tex"
     sys.stdout.write(

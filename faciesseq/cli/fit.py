@@ -5,7 +5,12 @@ from __future__ import annotations
 import argparse
 import sys
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    load_scheme_option,
+    read_source,
+)
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
@@ -16,6 +21,13 @@ from faciesseq.cli._hmm import (
     warnings_to_stderr,
 )
 from faciesseq.errors import ConfigError
+
+EXAMPLES = """\
+examples:
+  faciesseq fit cores.csv --scheme my-scheme.yaml --labels tract -o model.json
+  faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
+  faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
+"""
 
 
 def register(subparsers) -> None:
@@ -28,9 +40,10 @@ def register(subparsers) -> None:
         "semi-supervised where some are); without, the fit is unsupervised and the facies "
         "ranks of the scheme tell the tracts apart. Several --features or --substates values "
         "are compared by BIC and the best is written.",
+        epilog=EXAMPLES,
     )
     add_source_arguments(parser)
-    parser.add_argument("-o", "--output", required=True, metavar="FILE", help="model file")
+    add_output_arguments(parser, "FILE", "model file (JSON) to write", required=True)
     parser.add_argument(
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
@@ -66,13 +79,9 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
 def run(args: argparse.Namespace) -> int:
     check_unit(args)
-    from pathlib import Path
+    from faciesseq._output import check_target
 
-    target = Path(args.output)
-    if target.is_dir():
-        raise ConfigError("is a folder; give a model file name (e.g. model.json)", file=str(target))
-    if not (target.parent if str(target.parent) else Path(".")).is_dir():
-        raise ConfigError(f"folder {str(target.parent)!r} does not exist", file=str(target))
+    check_target(args.output, force=args.force, folder=False)
     from faciesseq.hmm.calibration import describe_calibration
     from faciesseq.hmm.modelfile import save_model
     from faciesseq.hmm.selection import select_model

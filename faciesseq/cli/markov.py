@@ -6,6 +6,7 @@ import argparse
 import sys
 
 from faciesseq.cli._common import (
+    add_output_arguments,
     add_source_arguments,
     check_unit_step,
     load_scheme_option,
@@ -29,7 +30,7 @@ examples:
   faciesseq markov cores.csv --scheme my-scheme.yaml
   faciesseq markov cores.csv --surrogates 999 --seed 1 --format json
   faciesseq markov logs.csv --layout samples --unit grid --step 0.5 --by formation
-  faciesseq markov cores.csv --scheme my-scheme.yaml --out markov-results
+  faciesseq markov cores.csv --scheme my-scheme.yaml -o markov-results
 """
 
 
@@ -39,7 +40,6 @@ def register(subparsers) -> None:
         help=HELP,
         description=DESCRIPTION,
         epilog=EXAMPLES,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     add_source_arguments(parser)
     group = parser.add_argument_group("statistics")
@@ -67,7 +67,9 @@ def register(subparsers) -> None:
         metavar="core|COLUMN",
         help="homogeneity across cores (default) or groups of a bed column; 'none' to skip",
     )
-    group.add_argument("--alpha", type=float, default=0.05, help="level for cells (0.05)")
+    group.add_argument(
+        "--alpha", type=float, default=0.05, help="significance level of the cell tests"
+    )
     group.add_argument("--per-core", action="store_true", help="also give each core's count matrix")
     group.add_argument(
         "--keep-irregular",
@@ -81,11 +83,12 @@ def register(subparsers) -> None:
         default="text",
         help="standard output: text tables (default), JSON, or the tests as CSV",
     )
-    out.add_argument(
-        "--out",
-        metavar="DIR",
-        help="also write markov.json, markov.txt, CSV tables and the facies relationship "
-        "diagram into DIR",
+    add_output_arguments(
+        out,
+        "DIR",
+        "also write markov.json, markov.txt, CSV tables and the facies relationship "
+        "diagram into the folder DIR",
+        old_out=True,
     )
     parser.set_defaults(func=run)
 
@@ -103,23 +106,12 @@ def _check(args: argparse.Namespace) -> None:
 
 
 def _write_out(directory: str, report, scheme, text: str, json_text: str) -> None:
-    """All files into a temporary folder beside DIR, then moved in (nothing half-written)."""
-    import os
-    import shutil
-    import tempfile
-    from pathlib import Path
-
+    """All files into a new folder beside DIR, then swapped in (nothing half-written)."""
+    from faciesseq._output import new_folder
     from faciesseq.report.markov_section import relationship_diagram
     from faciesseq.report.style import save_figure
 
-    target = Path(directory)
-    if target.exists() and not target.is_dir():
-        raise ConfigError(f"--out {directory}: exists and is not a folder")
-    parent = target.parent if str(target.parent) else Path(".")
-    if not parent.is_dir():
-        raise ConfigError(f"--out {directory}: folder {parent} does not exist")
-    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=parent))
-    try:
+    with new_folder(directory) as tmp:
         (tmp / "markov.txt").write_text(text, encoding="utf-8")
         (tmp / "markov.json").write_text(json_text, encoding="utf-8")
         for name, frame in report.to_frames().items():
@@ -127,13 +119,6 @@ def _write_out(directory: str, report, scheme, text: str, json_text: str) -> Non
         diagram = relationship_diagram(report, scheme)
         for suffix in (".png", ".svg"):
             save_figure(diagram, tmp / f"facies_relationship{suffix}")
-        if not target.exists():
-            os.replace(tmp, target)
-            return
-        for f in sorted(tmp.iterdir()):
-            os.replace(f, target / f.name)
-    finally:
-        shutil.rmtree(tmp, ignore_errors=True)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -145,6 +130,10 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.report.markov_text import markov_text
 
     _check(args)
+    if args.output:
+        from faciesseq._output import check_target
+
+        check_target(args.output, force=args.force, folder=True)
     scheme = load_scheme_option(args.scheme)
     cores = read_source(args, scheme=scheme).require_valid()
     seed = args.seed
@@ -168,8 +157,8 @@ def run(args: argparse.Namespace) -> int:
     if args.surrogates:
         text += f"surrogates drawn with seed {seed} (repeat with --seed {seed})\n"
     json_text = json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n"
-    if args.out:
-        _write_out(args.out, report, scheme, text, json_text)
+    if args.output:
+        _write_out(args.output, report, scheme, text, json_text)
     if args.format == "text":
         sys.stdout.write(text)
     elif args.format == "json":

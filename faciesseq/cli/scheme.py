@@ -3,12 +3,34 @@
 from __future__ import annotations
 
 import argparse
-import os
-import tempfile
-from pathlib import Path
 
-from faciesseq.cli._common import add_source_arguments, read_source
-from faciesseq.errors import ConfigError
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    read_source,
+    require_file,
+)
+
+EXAMPLES = """\
+examples:
+  faciesseq scheme draft cores.csv -o my-scheme.yaml
+  faciesseq scheme show my-scheme.yaml
+  faciesseq scheme show configs/tracts-default.yaml
+"""
+
+DRAFT_EXAMPLES = """\
+examples:
+  faciesseq scheme draft cores.csv -o my-scheme.yaml
+  faciesseq scheme draft cores.xlsx --sheet Facies --name "Quillerby shoreface" -o scheme.yaml
+  faciesseq scheme draft core-db.sqlite --table intervals -o my-scheme.yaml --force
+"""
+
+SHOW_EXAMPLES = """\
+examples:
+  faciesseq scheme show my-scheme.yaml
+  faciesseq scheme show configs/scheme-shoreface.yaml
+  faciesseq scheme show configs/tracts-default.yaml
+"""
 
 
 def register(subparsers) -> None:
@@ -18,6 +40,7 @@ def register(subparsers) -> None:
         description="Facies schemes: 'draft' writes a starting scheme from the codes in a "
         "core database (ranks left for the geologist to fill in); 'show' validates a facies "
         "scheme or tract model and prints it.",
+        epilog=EXAMPLES,
     )
     sub = parser.add_subparsers(dest="scheme_command", metavar="ACTION")
     draft = sub.add_parser(
@@ -26,17 +49,18 @@ def register(subparsers) -> None:
         description="Write a starting facies scheme listing every code found in SOURCE. "
         "Ranks are left empty and marked TODO; the scheme does not load until they are "
         "filled in.",
+        epilog=DRAFT_EXAMPLES,
     )
     add_source_arguments(draft, scheme=False)
-    draft.add_argument("-o", "--output", required=True, metavar="FILE", help="scheme YAML to write")
-    draft.add_argument("--name", default="draft scheme", help="scheme name (default: %(default)s)")
-    draft.add_argument("--force", action="store_true", help="overwrite FILE if it exists")
+    add_output_arguments(draft, "FILE", "scheme YAML to write", required=True)
+    draft.add_argument("--name", default="draft scheme", help="scheme name")
     draft.set_defaults(func=run_draft)
     show = sub.add_parser(
         "show",
         help="validate a facies scheme or tract model and print it",
         description="Validate a facies scheme (or a tract model) and print it, facies from "
         "landward/shallow to basinward/deep.",
+        epilog=SHOW_EXAMPLES,
     )
     show.add_argument("file", metavar="FILE", help="facies scheme or tract model YAML")
     show.set_defaults(func=run_show)
@@ -44,22 +68,13 @@ def register(subparsers) -> None:
 
 
 def run_draft(args: argparse.Namespace) -> int:
+    from faciesseq._output import check_target, write_file
     from faciesseq.scheme import draft_scheme
 
-    out = Path(args.output)
-    if out.exists() and not args.force:
-        raise ConfigError("exists; give --force to overwrite it", file=str(out))
+    out = check_target(args.output, force=args.force, folder=False, make_parents=True)
     cores = read_source(args).require_valid()
-    text = draft_scheme(cores.facies_codes(), name=args.name)
     out.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.name}.", dir=out.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as handle:
-            handle.write(text)
-        os.replace(tmp, out)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+    write_file(out, draft_scheme(cores.facies_codes(), name=args.name))
     n = len(cores.facies_codes())
     print(f"wrote {out}: {n} facies code(s) from {len(cores)} core(s); fill in every rank")
     return 0
@@ -68,7 +83,7 @@ def run_draft(args: argparse.Namespace) -> int:
 def run_show(args: argparse.Namespace) -> int:
     from faciesseq.scheme import FaciesScheme, TractModel, _read_yaml
 
-    data = _read_yaml(args.file)
+    data = _read_yaml(require_file(args.file))
     if isinstance(data, dict) and "tracts" in data:
         model = TractModel.from_dict(data, source=args.file)
         print(f"tract model: {model.name} ({args.file})")

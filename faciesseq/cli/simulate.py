@@ -5,6 +5,15 @@ from __future__ import annotations
 import argparse
 import sys
 
+from faciesseq.cli._common import add_output_arguments
+
+EXAMPLES = """\
+examples:
+  faciesseq simulate configs/demo-quillerby.yaml -o quillerby
+  faciesseq simulate my-scenario.yaml --seed 7 --no-figures -o runs/seed-7
+  faciesseq simulate configs/demo-quillerby.yaml -o demo_cores --force
+"""
+
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(
@@ -15,20 +24,24 @@ def register(subparsers) -> None:
             "sediment supply, shelf profile, wells, noise) and write the described cores "
             "with their true tracts, the true surfaces, the time-step truth, figures and "
             "a SQLite file holding the same tables. A scenario with 'generator: stacking' "
-            "runs the parasequence-stacking generator instead (tables only)."
+            "runs the parasequence-stacking generator instead (tables only). With --force "
+            "an existing output folder is replaced; files in it that no simulation writes "
+            "(a README) are kept."
         ),
+        epilog=EXAMPLES,
     )
     parser.add_argument("scenario", metavar="SCENARIO.yaml", help="scenario file")
-    parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
+    add_output_arguments(parser, "DIR", "output folder", required=True)
     parser.add_argument(
         "--seed", type=int, metavar="S", help="noise seed (default: the scenario's)"
     )
     parser.add_argument("--no-figures", action="store_true", help="write the tables only")
-    parser.add_argument("--force", action="store_true", help="replace an existing output folder")
     parser.set_defaults(func=run)
 
 
 def run(args: argparse.Namespace) -> int:
+    from faciesseq._output import check_target
+    from faciesseq.cli._common import require_file
     from faciesseq.errors import ConfigError
     from faciesseq.simulate import (
         StackingScenario,
@@ -40,14 +53,8 @@ def run(args: argparse.Namespace) -> int:
 
     if args.seed is not None and args.seed < 0:
         raise ConfigError(f"--seed must be a whole number >= 0, got {args.seed}")
-    from pathlib import Path
-
-    if Path(args.output).exists() and not args.force:
-        raise ConfigError(
-            "output folder exists; choose another -o or pass --force to replace it",
-            file=args.output,
-        )
-    scenario = load_any_scenario(args.scenario)
+    check_target(args.output, force=args.force, folder=True)
+    scenario = load_any_scenario(require_file(args.scenario))
     if isinstance(scenario, StackingScenario):
         result = simulate_stacking(scenario, seed=args.seed)
     else:

@@ -5,11 +5,14 @@ from __future__ import annotations
 import argparse
 import json
 import math
-import shutil
-import tempfile
 from pathlib import Path
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    load_scheme_option,
+    read_source,
+)
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
@@ -21,6 +24,13 @@ from faciesseq.cli._hmm import (
 )
 from faciesseq.errors import ConfigError
 
+EXAMPLES = """\
+examples:
+  faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract
+  faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract --folds 3 --seed 0 -o cv
+  faciesseq validate cores.csv --labels tract --mode unsupervised --format json
+"""
+
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(
@@ -31,12 +41,13 @@ def register(subparsers) -> None:
         "interpreter's tracts: bed accuracy, per-tract precision/recall/F1, confusion "
         "matrix, surface depth error, Brier score and a reliability curve, beside a simple "
         "rule that reads only the deepening/shallowing trend of the facies ranks.",
+        epilog=EXAMPLES,
     )
     add_source_arguments(parser)
     parser.add_argument(
         "--labels", required=True, metavar="COLUMN", help="bed column with the interpreter's tracts"
     )
-    parser.add_argument("--folds", type=int, default=5, metavar="K", help="folds (5)")
+    parser.add_argument("--folds", type=int, default=5, metavar="K", help="folds")
     parser.add_argument(
         "--mode",
         choices=("supervised", "semi-supervised", "unsupervised"),
@@ -45,7 +56,7 @@ def register(subparsers) -> None:
         "with labelled beds clamped (semi-supervised), or without labels (unsupervised: "
         "tests identifiability)",
     )
-    parser.add_argument("-o", "--output", metavar="OUT", help="write the tables to this folder")
+    add_output_arguments(parser, "OUT", "also write the tables to this folder")
     parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")
     add_model_arguments(parser, select=False)
     parser.set_defaults(func=run)
@@ -117,27 +128,16 @@ def _clean(value):
 
 
 def _write(result, out: Path) -> None:
-    out = Path(out)
-    if out.exists() and not out.is_dir():
-        raise ConfigError("output exists and is not a folder", file=str(out))
-    parent = out.parent if str(out.parent) else Path(".")
-    temp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    try:
+    """The tables and ``validation.json`` into a new folder, swapped in for ``out``."""
+    from faciesseq._output import new_folder
+
+    with new_folder(out) as temp:
         for name, frame in result.to_frames().items():
             index = name.startswith("confusion")
             frame.to_csv(temp / f"{name}.csv", index=index, float_format="%.6g")
         (temp / "validation.json").write_text(
             json.dumps(_clean(result.to_dict()), indent=1, allow_nan=False) + "\n"
         )
-        if not out.exists():
-            temp.rename(out)
-            return
-        for item in temp.iterdir():
-            item.replace(out / item.name)
-        temp.rmdir()
-    finally:
-        if temp.exists():
-            shutil.rmtree(temp, ignore_errors=True)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -146,6 +146,10 @@ def run(args: argparse.Namespace) -> int:
     subs = substate_counts(args)
     if len(feats) > 1 or len(subs) > 1:
         raise ConfigError("validate takes one --features set and one --substates value")
+    if args.output:
+        from faciesseq._output import check_target
+
+        check_target(args.output, force=args.force, folder=True)
     from faciesseq.validation import cross_validate
 
     scheme = load_scheme_option(args.scheme)

@@ -66,7 +66,9 @@ def _item(section, mnemonic: str):
 
 def read_las(path: Path, curve: str | None = None, encoding: str | None = None) -> RawTable:
     """Read one LAS 2.0 file as a sample-layout table (see the module notes)."""
-    import lasio
+    from faciesseq._optional import import_optional
+
+    lasio = import_optional("lasio", "reading LAS files")
 
     file = str(path)
     try:
@@ -187,7 +189,9 @@ def write_las(core, path: Path, step: float | None = None) -> None:
     null value. Not atomic by itself: :func:`faciesseq.io.write_cores` writes
     to a temporary path and renames.
     """
-    import lasio
+    from faciesseq._optional import import_optional
+
+    lasio = import_optional("lasio", "writing LAS files")
 
     step = _regular_step(core, step)
     table = core.intervals

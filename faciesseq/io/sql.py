@@ -65,6 +65,8 @@ def _engine(source: str):
     from sqlalchemy.engine import make_url
     from sqlalchemy.exc import ArgumentError, NoSuchModuleError
 
+    from faciesseq._optional import install_hint
+
     if is_url(source):
         try:
             url = make_url(source)
@@ -88,7 +90,7 @@ def _engine(source: str):
         except (NoSuchModuleError, ModuleNotFoundError) as exc:
             raise ConfigError(
                 f"no database driver for this URL ({exc}); install the driver for this "
-                "database (PostgreSQL: pip install psycopg2-binary)",
+                f"database (PostgreSQL: {install_hint('sql')})",
                 file=label,
             ) from None
         return engine, label, secret
@@ -113,6 +115,9 @@ def read_sql(source: str, table: str | None = None, query: str | None = None) ->
     Without ``table`` or ``query``, the only table of the database is read,
     or a table named ``intervals``, ``samples``, ``cores`` or ``facies``.
     """
+    from faciesseq._optional import import_optional
+
+    import_optional("sqlalchemy", "reading databases (SQLite files and URLs)")
     from sqlalchemy import inspect, text
     from sqlalchemy.exc import SQLAlchemyError
 

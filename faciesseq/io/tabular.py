@@ -185,8 +185,10 @@ def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
 
 def read_excel(path: Path, sheet: str | None = None) -> RawTable:
     """One sheet of an ``.xlsx`` workbook (the first when ``sheet`` is ``None``)."""
+    from faciesseq._optional import import_optional
+
     file = str(path)
-    from openpyxl import load_workbook
+    load_workbook = import_optional("openpyxl", "reading .xlsx workbooks").load_workbook
 
     try:
         book = load_workbook(path, read_only=True, data_only=True)

@@ -40,21 +40,33 @@ def _write_file(cores: CoreSet, fmt: str, tmp: Path, tables: Mapping[str, pd.Dat
     elif fmt == "parquet":
         table.to_parquet(tmp, index=False)
     elif fmt == "xlsx":
+        from faciesseq._optional import import_optional
+
+        import_optional("openpyxl", "writing .xlsx workbooks")
         with pd.ExcelWriter(tmp, engine="openpyxl") as book:
             table.to_excel(book, sheet_name="intervals", index=False)
             for name, extra in tables.items():
                 extra.to_excel(book, sheet_name=name[:31], index=False)
     elif fmt == "sqlite":
-        from sqlalchemy import create_engine
+        _write_sqlite(tmp, table, tables)
 
-        engine = create_engine(f"sqlite:///{tmp}")
-        try:
-            with engine.begin() as conn:
-                table.to_sql("intervals", conn, index=False)
-                for name, extra in tables.items():
-                    extra.to_sql(name, conn, index=False)
-        finally:
-            engine.dispose()
+
+def _write_sqlite(path: Path, table: pd.DataFrame, tables: Mapping[str, pd.DataFrame]) -> None:
+    """The cores as table ``intervals`` and the extra tables, with the standard library's sqlite3.
+
+    No SQLAlchemy needed: a plain install writes SQLite (reading databases
+    needs ``faciesseq[sql]``).
+    """
+    import sqlite3
+
+    conn = sqlite3.connect(path)
+    try:
+        with conn:
+            table.to_sql("intervals", conn, index=False)
+            for name, extra in tables.items():
+                extra.to_sql(name, conn, index=False)
+    finally:
+        conn.close()
 
 
 def write_cores(

@@ -21,14 +21,11 @@ else.
 
 from __future__ import annotations
 
-import contextlib
 import io
 import json
 import math
 import os
 import re
-import shutil
-import tempfile
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -633,8 +630,7 @@ def write_appendix(
     pathlib.Path
         The folder written.
     """
-    from faciesseq.report.html import render_html
-    from faciesseq.report.latex import render_latex
+    from faciesseq._output import new_folder
 
     out = Path(out_dir)
     if out.exists() and not force:
@@ -642,64 +638,66 @@ def write_appendix(
     if out.exists() and not out.is_dir():
         raise ConfigError(f"{out} exists and is not a folder")
     out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
-    try:
-        tmp.chmod(0o755)  # mkdtemp makes it private; the appendix is meant to be shared
-        (tmp / "tables").mkdir()
-        (tmp / "figures").mkdir()
-        document = appendix.document
-        for table in document.tables():
-            table.to_csv_frame().to_csv(tmp / "tables" / f"{table.key}.csv", index=False)
-        pngs: dict[str, bytes] = {}
-        for block in document.figures():
-            pngs[block.key] = _figure_bytes(block.figure, "png", dpi)
-            (tmp / "figures" / f"{block.key}.png").write_bytes(pngs[block.key])
-            if latex:
-                pdf = _figure_bytes(block.figure, "pdf", dpi)
-                (tmp / "figures" / f"{block.key}.pdf").write_bytes(pdf)
-        prov = appendix.provenance
-        meta = []
-        software = prov.get("software", {}) if isinstance(prov, Mapping) else {}
-        if software:
-            meta.append(f"faciesseq {software.get('faciesseq', '')}")
-        if prov.get("date"):
-            meta.append(f"written {prov['date']}")
-        data_files = [(f"tables/{t.key}.csv", t.caption) for t in document.tables(shown=False)]
-        data_files += [
-            ("appendix.json", "every number of this appendix at full precision"),
-            ("provenance.json", "input file hashes, software versions, seeds, command line"),
-        ]
-        if latex:
-            data_files.append(("appendix.tex", "LaTeX version (figures in figures/*.pdf)"))
-        (tmp / "appendix.html").write_text(
-            render_html(document, pngs, meta=meta, data_files=data_files, dpi=dpi),
-            encoding="utf-8",
-        )
-        if latex:
-            (tmp / "appendix.tex").write_text(render_latex(document, meta=meta), encoding="utf-8")
-        _write_json(tmp / "appendix.json", appendix.to_dict())
-        _write_json(tmp / "provenance.json", prov)
-        for name, content in (extra or {}).items():
-            target = tmp / name
-            if (
-                target.resolve().parent != tmp.resolve()
-                and tmp.resolve() not in target.resolve().parents
-            ):
-                raise ConfigError(f"extra file {name!r} would be written outside the folder")
-            target.parent.mkdir(parents=True, exist_ok=True)
-            if isinstance(content, bytes):
-                target.write_bytes(content)
-            else:
-                target.write_text(content, encoding="utf-8")
-        if out.exists():
-            trash = Path(tempfile.mkdtemp(prefix=f".{out.name}-old-", dir=out.parent))
-            os.replace(out, trash / out.name)
-            os.replace(tmp, out)
-            shutil.rmtree(trash, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            shutil.rmtree(tmp)
-        raise
+    with new_folder(out) as tmp:
+        _fill_folder(appendix, tmp, dpi=dpi, latex=latex, extra=extra)
     return out
+
+
+def _fill_folder(
+    appendix: Appendix,
+    tmp: Path,
+    *,
+    dpi: int,
+    latex: bool,
+    extra: Mapping[str, str | bytes] | None,
+) -> None:
+    """Write every file of the appendix into the (new, empty) folder ``tmp``."""
+    from faciesseq.report.html import render_html
+    from faciesseq.report.latex import render_latex
+
+    (tmp / "tables").mkdir()
+    (tmp / "figures").mkdir()
+    document = appendix.document
+    for table in document.tables():
+        table.to_csv_frame().to_csv(tmp / "tables" / f"{table.key}.csv", index=False)
+    pngs: dict[str, bytes] = {}
+    for block in document.figures():
+        pngs[block.key] = _figure_bytes(block.figure, "png", dpi)
+        (tmp / "figures" / f"{block.key}.png").write_bytes(pngs[block.key])
+        if latex:
+            pdf = _figure_bytes(block.figure, "pdf", dpi)
+            (tmp / "figures" / f"{block.key}.pdf").write_bytes(pdf)
+    prov = appendix.provenance
+    meta = []
+    software = prov.get("software", {}) if isinstance(prov, Mapping) else {}
+    if software:
+        meta.append(f"faciesseq {software.get('faciesseq', '')}")
+    if prov.get("date"):
+        meta.append(f"written {prov['date']}")
+    data_files = [(f"tables/{t.key}.csv", t.caption) for t in document.tables(shown=False)]
+    data_files += [
+        ("appendix.json", "every number of this appendix at full precision"),
+        ("provenance.json", "input file hashes, software versions, seeds, command line"),
+    ]
+    if latex:
+        data_files.append(("appendix.tex", "LaTeX version (figures in figures/*.pdf)"))
+    (tmp / "appendix.html").write_text(
+        render_html(document, pngs, meta=meta, data_files=data_files, dpi=dpi),
+        encoding="utf-8",
+    )
+    if latex:
+        (tmp / "appendix.tex").write_text(render_latex(document, meta=meta), encoding="utf-8")
+    _write_json(tmp / "appendix.json", appendix.to_dict())
+    _write_json(tmp / "provenance.json", prov)
+    for name, content in (extra or {}).items():
+        target = tmp / name
+        if (
+            target.resolve().parent != tmp.resolve()
+            and tmp.resolve() not in target.resolve().parents
+        ):
+            raise ConfigError(f"extra file {name!r} would be written outside the folder")
+        target.parent.mkdir(parents=True, exist_ok=True)
+        if isinstance(content, bytes):
+            target.write_bytes(content)
+        else:
+            target.write_text(content, encoding="utf-8")

@@ -1,16 +1,15 @@
 """Writing a simulation to a folder: tables (CSV and SQLite), summary and figures.
 
 This is the simulate command's output writer (its job is writing files). The
-folder is built under a temporary name beside the target and renamed into
+folder is built under a temporary name beside the target and swapped into
 place at the end, so an interrupted run leaves nothing half-written.
 """
 
 from __future__ import annotations
 
 import json
-import os
+import re
 import shutil
-import tempfile
 from pathlib import Path
 
 import pandas as pd
@@ -30,6 +29,12 @@ TABLES = {
     "budget": "sediment budget per section (m^2 of section)",
     "parasequences": "stacking generator only: true parasequences (tract, depths, facies)",
 }
+
+#: Names of the files a simulation writes; older ones are never carried over.
+_OUTPUT_NAME = re.compile(
+    r"^(?:(?:cores|surfaces|steps|wells|budget|parasequences)\.csv|cores\.sqlite|summary\.json|scenario\.yaml"
+    r"|(?:section|base-level|cores)-.+\.png)$"
+)
 
 
 def _tables(result: SimulationResult | StackingResult) -> dict[str, pd.DataFrame]:
@@ -74,8 +79,8 @@ def write_simulation(
     :class:`~faciesseq.simulate.StackingResult` writes ``surfaces.csv``,
     ``parasequences.csv`` and ``wells.csv`` beside the cores and no figures (they
     draw the section history it does not have). With ``force`` an existing
-    folder is replaced, but files in it that this run does not write (e.g. a
-    README) are carried over.
+    folder is replaced as a whole: files of an earlier simulation in it are gone,
+    but files no simulation writes (e.g. a README) are carried over.
 
     Raises
     ------
@@ -93,38 +98,42 @@ def write_simulation(
     parent = target.resolve().parent
     if not parent.is_dir():
         raise ConfigError("the parent folder of the output does not exist", file=str(target))
-    temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    temp.chmod(0o777 & ~umask)  # an ordinary folder, not mkdtemp's private one
+    from faciesseq._output import new_folder
+
     try:
-        _write_tables(result, temp)
-        (temp / "summary.json").write_text(
-            json.dumps(result.to_dict(), indent=2, sort_keys=False) + "\n", encoding="utf-8"
-        )
-        source = result.scenario.source
-        if source and Path(source).is_file():
-            shutil.copyfile(source, temp / "scenario.yaml")
-        if figures and isinstance(result, SimulationResult):
-            _write_figures(result, temp, dpi)
-        if target.exists():
-            # files of the old folder this run does not write (a README...) are kept
-            for item in target.iterdir():
-                if not (temp / item.name).exists():
-                    shutil.move(str(item), temp / item.name)
-            old = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=parent))
-            target.rename(old / target.name)
-            temp.rename(target)
-            shutil.rmtree(old)
-        else:
-            temp.rename(target)
+        with new_folder(target) as temp:
+            _fill_folder(result, temp, figures=figures, dpi=dpi)
+            if target.exists():
+                _carry_over(target, temp)
     except OSError as exc:
-        shutil.rmtree(temp, ignore_errors=True)
         raise InputError(f"could not write the output ({exc.strerror})", file=str(target)) from None
-    except BaseException:
-        shutil.rmtree(temp, ignore_errors=True)
-        raise
     return sorted(p for p in target.iterdir())
+
+
+def _fill_folder(
+    result: SimulationResult | StackingResult, temp: Path, *, figures: bool, dpi: int
+) -> None:
+    """Every file of the simulation into the (new, empty) folder ``temp``."""
+    _write_tables(result, temp)
+    (temp / "summary.json").write_text(
+        json.dumps(result.to_dict(), indent=2, sort_keys=False) + "\n", encoding="utf-8"
+    )
+    source = result.scenario.source
+    if source and Path(source).is_file():
+        shutil.copyfile(source, temp / "scenario.yaml")
+    if figures and isinstance(result, SimulationResult):
+        _write_figures(result, temp, dpi)
+
+
+def _carry_over(old: Path, new: Path) -> None:
+    """Copy the files of ``old`` that no simulation writes (a README...) into ``new``."""
+    for item in old.iterdir():
+        if _OUTPUT_NAME.match(item.name) or (new / item.name).exists():
+            continue
+        if item.is_dir():
+            shutil.copytree(item, new / item.name, symlinks=True)
+        else:
+            shutil.copy2(item, new / item.name)
 
 
 def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:

@@ -1,0 +1,160 @@
+"""Writing outputs atomically, and never over something that exists without ``force``.
+
+Every command that writes follows the same habits:
+
+- an output that exists is replaced only with ``force`` (the command line's
+  ``--force``); without it :func:`check_target` refuses before anything is
+  computed or written;
+- a file is written to a temporary sibling and renamed into place
+  (:func:`write_file`);
+- a folder is built beside the target and swapped in as a whole
+  (:func:`new_folder`), so no file of a previous run survives in it;
+- what is written gets the user's ordinary permissions (``0o666`` or
+  ``0o777`` less the umask), not the private ones of :mod:`tempfile`.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+from faciesseq.errors import ConfigError
+
+__all__ = ["check_target", "new_folder", "write_file"]
+
+
+def current_umask() -> int:
+    """The process umask (read by setting it and putting it back)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+def _parent(path: Path) -> Path:
+    return path.parent if str(path.parent) else Path(".")
+
+
+def check_target(
+    path: str | os.PathLike,
+    *,
+    force: bool,
+    folder: bool,
+    option: str = "-o",
+    make_parents: bool = False,
+) -> Path:
+    """Check that an output may be written to ``path``; return it as a :class:`~pathlib.Path`.
+
+    Parameters
+    ----------
+    path
+        The file or folder to write.
+    force
+        Whether an existing ``path`` may be replaced.
+    folder
+        ``True`` when the output is a folder, ``False`` for a file.
+    option
+        The option that named ``path``, for the message.
+    make_parents
+        The caller creates missing parent folders; do not require them.
+
+    Raises
+    ------
+    ConfigError
+        ``path`` exists and ``force`` is false; it exists as the other kind
+        (a folder where a file is written, or the reverse); or its parent
+        folder does not exist (unless ``make_parents``). Exit code 2.
+    """
+    target = Path(path)
+    kind = "folder" if folder else "file"
+    if target.exists() and target.is_dir() != folder:
+        other = "a folder" if target.is_dir() else "a file"
+        raise ConfigError(f"is {other}; give a {kind} name to {option}", file=str(target))
+    if target.exists() and not force:
+        raise ConfigError(
+            f"exists; pass --force to replace it, or choose another {option}", file=str(target)
+        )
+    parent = _parent(target)
+    if not make_parents and not parent.is_dir():
+        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(target))
+    return target
+
+
+def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
+    """Write ``data`` to a temporary sibling of ``path``, then rename it into place.
+
+    Parameters
+    ----------
+    path
+        The file to write; an existing file is replaced (check first with
+        :func:`check_target`).
+    data
+        Text (written as UTF-8) or bytes.
+
+    Returns
+    -------
+    pathlib.Path
+        ``path``.
+    """
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=_parent(target))
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data.encode("utf-8") if isinstance(data, str) else data)
+        os.replace(tmp, target)
+        os.chmod(target, 0o666 & ~current_umask())
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return target
+
+
+def _swap(temp: Path, target: Path) -> None:
+    """Put ``temp`` where ``target`` is; the old ``target`` (if any) is deleted afterwards."""
+    if not target.exists():
+        os.replace(temp, target)
+        return
+    trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=_parent(target)))
+    try:
+        os.replace(target, trash / target.name)
+        try:
+            os.replace(temp, target)
+        except BaseException:
+            os.replace(trash / target.name, target)  # put the old folder back
+            raise
+    finally:
+        shutil.rmtree(trash, ignore_errors=True)
+
+
+@contextmanager
+def new_folder(path: str | os.PathLike) -> Iterator[Path]:
+    """Build a folder beside ``path``, then swap it in as a whole.
+
+    Yields a new, empty temporary folder in the same parent folder as
+    ``path``. When the block ends without an exception the temporary folder
+    replaces ``path`` (an existing folder is removed, so no file of a previous
+    run remains) and gets the user's ordinary permissions; on an exception it
+    is deleted and ``path`` is left as it was.
+
+    Parameters
+    ----------
+    path
+        The folder to write (check first with :func:`check_target`).
+
+    Yields
+    ------
+    pathlib.Path
+        The temporary folder to fill.
+    """
+    target = Path(path)
+    temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.new.", dir=_parent(target)))
+    try:
+        yield temp
+        _swap(temp, target)
+    finally:
+        if temp.exists():
+            shutil.rmtree(temp, ignore_errors=True)
+    target.chmod(0o777 & ~current_umask())
