@@ -403,6 +403,18 @@ def expected_calibration_error(
 
 
 # --------------------------------------------------------- half-cycle boundaries
+def _is_in(values: pd.Series, members: Iterable[object]) -> np.ndarray:
+    """Membership by number for a numeric column and numeric members (so 2 matches
+    2.0), else by text."""
+    members = list(members)
+    numeric = all(
+        isinstance(m, int | float | np.number) and not isinstance(m, bool) for m in members
+    )
+    if numeric and pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values):
+        return values.isin([float(m) for m in members]).to_numpy()
+    return values.astype(str).isin({str(m) for m in members}).to_numpy()
+
+
 def half_cycle_boundaries(
     beds: pd.DataFrame,
     column: str = "tract",
@@ -427,7 +439,8 @@ def half_cycle_boundaries(
     column
         Column read; rows whose value is in ``marine`` are marine.
     marine
-        The marine values (compared as text).
+        The marine values (compared as numbers when the column and the values
+        are numeric, so ``2`` matches ``2.0``; else as text).
     core_col, top_col, base_col
         Core identifier and depths.
 
@@ -438,7 +451,7 @@ def half_cycle_boundaries(
     """
     _need(beds, (column, core_col, top_col, base_col), "half_cycle_boundaries")
     t, contact = _in_depth_order(beds, core_col, top_col, base_col)
-    is_marine = t[column].astype(str).isin({str(v) for v in marine}).to_numpy()
+    is_marine = _is_in(t[column], marine)
     change = np.zeros(len(t), dtype=bool)
     if len(t) > 1:
         change[1:] = contact[1:] & (is_marine[1:] != is_marine[:-1])

@@ -160,6 +160,12 @@ def test_half_cycle_boundaries_of_a_tract_column_and_of_a_marine_indicator():
     # NM_M (2 marine): W 2|2, 2|1 at 2.0, 1|1, gap, 2|1 at 7.0 -> [2.0, 7.0]; V 1|2 at 1.0
     nm = half_cycle_boundaries(beds, column="NM_M", marine=(2,))
     assert list(zip(nm["core"], nm["depth"])) == [("W", 2.0), ("W", 7.0), ("V", 1.0)]
+    # the same column read as floats (as a CSV with missing values gives it): 2 is 2.0
+    as_float = half_cycle_boundaries(beds.astype({"NM_M": float}), column="NM_M", marine=(2,))
+    assert as_float["depth"].tolist() == [2.0, 7.0, 1.0]
+    # text values compare as text
+    as_text = half_cycle_boundaries(beds.astype({"NM_M": str}), column="NM_M", marine=("2",))
+    assert as_text["depth"].tolist() == [2.0, 7.0, 1.0]
 
 
 def test_boundary_f1_matches_one_to_one_closest_pair_first():
