@@ -147,9 +147,10 @@ def _decoded_on_intervals(tracts: pd.DataFrame, intervals: pd.DataFrame) -> pd.D
     pcols = [c for c in tracts.columns if c.startswith("p_")]
     col = pd.Index([c[2:] for c in pcols]).get_indexer(tracts["tract"].astype(str))
     probs = tracts[pcols].to_numpy(float)
-    tracts = tracts.assign(
-        p_tract=np.where(col >= 0, probs[np.arange(len(tracts)), np.maximum(col, 0)], np.nan)
-    )
+    p_tract = np.full(len(tracts), np.nan)
+    if pcols:
+        p_tract = np.where(col >= 0, probs[np.arange(len(tracts)), np.maximum(col, 0)], np.nan)
+    tracts = tracts.assign(p_tract=p_tract)
     out = []
     for core, iv in intervals.groupby("core", sort=False):
         beds = tracts[tracts["core"] == core].sort_values("top")
