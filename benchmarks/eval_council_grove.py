@@ -46,11 +46,14 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
-from eval_unsupervised import _decoded_on_intervals, make_model  # noqa: E402
+from eval_unsupervised import (  # noqa: E402
+    _decoded_on_intervals,
+    make_model,
+    trend_rule_table,
+)
 
-from faciesseq.hmm.baseline import trend_rule  # noqa: E402
 from faciesseq.io import read_cores  # noqa: E402
-from faciesseq.scheme import default_tract_model, load_scheme  # noqa: E402
+from faciesseq.scheme import load_scheme  # noqa: E402
 from faciesseq.scores import boundary_f1, half_cycle_boundaries  # noqa: E402
 
 SHARED = ROOT.parent / "shared" / "data" / "council-grove" / "facies_vectors_subset.csv"
@@ -74,17 +77,6 @@ def read_wells(csv: Path, scheme: Path, pseudo_well: bool):
     if not pseudo_well:
         cores = cores.subset([n for n in cores.names if n != PSEUDO_WELL])
     return cores
-
-
-def _trend_rule_table(cores, scheme) -> pd.DataFrame:
-    """The trend rule's tract for every bed (``core, top, base, tract``)."""
-    tm = default_tract_model()
-    rows = []
-    for s in cores.successions("beds"):  # each base to top
-        ranks = np.array([scheme.rank(f) if f in scheme else np.nan for f in s.facies])
-        rule = trend_rule(ranks, np.array([len(s)]), tm)
-        rows.append(s.beds[["top", "base"]].assign(core=s.core, tract=[tm.order[i] for i in rule]))
-    return pd.concat(rows, ignore_index=True)
 
 
 def _score(pred: pd.DataFrame, truth: pd.DataFrame, wells) -> dict:
@@ -134,7 +126,7 @@ def evaluate(csv: Path, scheme_path: Path, pseudo_well: bool) -> dict:
         interp = model.decode(cores)
         decode_s = time.perf_counter() - t0
     decoded = interp.tracts_table()
-    rule = _trend_rule_table(cores, scheme)
+    rule = trend_rule_table(cores, scheme)
     facies_rule = samples.assign(marine=samples["facies"].astype(int) >= 4)
     methods = {
         "tract model (unsupervised)": (decoded, "tract", MARINE_TRACTS),

@@ -3,7 +3,7 @@
 Run from the repository root::
 
     python benchmarks/eval_unsupervised.py            # report seeds, three scenarios
-    python benchmarks/eval_unsupervised.py --quick    # one scenario, fewer cores (~1 min)
+    python benchmarks/eval_unsupervised.py --quick    # one scenario, fewer cores (seconds)
     python benchmarks/eval_unsupervised.py --tune     # tuning seeds (never the report's)
     python benchmarks/eval_unsupervised.py --scenario my-stacking.yaml --json out.json
 
@@ -23,7 +23,9 @@ tract; a decoded bed spans one or more of them): balanced accuracy
 boundaries, MFS pick recall and precision within 2 m (cored true MFSs only),
 expected calibration error of the probability of the decoded tract (10 bins,
 thickness-weighted; Guo et al. 2017, ICML), its thickness-weighted mean, and the
-fit and decode wall time.
+fit and decode wall time. Baseline in the same run: the trend rule
+(:func:`faciesseq.hmm.baseline.trend_rule`; its MFS picks are the contacts with
+TST below and another tract above; no probabilities, so no ECE).
 
 Scenarios: the physical forward model (``configs/scenario-*.yaml``,
 :func:`faciesseq.simulate.simulate`), and any ``--scenario`` file; files with
@@ -140,6 +142,49 @@ def _training_set(train: pd.DataFrame, mode: str, semi: list[str]) -> tuple[Core
     return CoreSet.from_frame(t, units="m"), "tract"
 
 
+# ------------------------------------------------------------------ baseline
+def trend_rule_table(cores: CoreSet, scheme) -> pd.DataFrame:
+    """The trend rule's tract for every bed (``core, top, base, tract``): the baseline
+    (:func:`faciesseq.hmm.baseline.trend_rule`, no fitted parameter)."""
+    from faciesseq.hmm.baseline import trend_rule
+    from faciesseq.scheme import default_tract_model
+
+    tm = default_tract_model()
+    rows = []
+    for s in cores.successions("beds"):  # each base to top
+        ranks = np.array([scheme.rank(f) if f in scheme else np.nan for f in s.facies])
+        rule = trend_rule(ranks, np.array([len(s)]), tm)
+        rows.append(s.beds[["top", "base"]].assign(core=s.core, tract=[tm.order[i] for i in rule]))
+    return pd.concat(rows, ignore_index=True)
+
+
+def _column_mfs_picks(tracts: pd.DataFrame) -> pd.DataFrame:
+    """MFS picks of a tract column: the contacts with TST below and another tract above."""
+    t = tracts.sort_values(["core", "top"], kind="stable")
+    core, top = t["core"].to_numpy(), t["top"].to_numpy(float)
+    base, tract = t["base"].to_numpy(float), t["tract"].astype(str).to_numpy()
+    at = (
+        (core[1:] == core[:-1])
+        & (np.abs(top[1:] - base[:-1]) <= 1e-6)
+        & (tract[1:] == "TST")
+        & (tract[:-1] != "TST")
+    )
+    return pd.DataFrame({"core": core[1:][at], "surface": "MFS", "depth": top[1:][at]})
+
+
+class _RuleDecode:
+    """The trend rule seen as a decode result (no probabilities)."""
+
+    def __init__(self, cores: CoreSet, scheme) -> None:
+        self._tracts = trend_rule_table(cores, scheme)
+
+    def tracts_table(self) -> pd.DataFrame:
+        return self._tracts
+
+    def picks_table(self) -> pd.DataFrame:
+        return _column_mfs_picks(self._tracts)
+
+
 # ------------------------------------------------------------------ scoring
 def _decoded_on_intervals(tracts: pd.DataFrame, intervals: pd.DataFrame) -> pd.DataFrame:
     """Each described interval with the decoded bed that holds its mid-depth: ``tract``
@@ -191,7 +236,9 @@ def score(interp, intervals: pd.DataFrame, true_surfaces: pd.DataFrame) -> dict:
         "mfs_recall": mfs.recall,
         "mfs_precision": mfs.precision,
         "mfs": mfs.to_dict(),
-        "ece": expected_calibration_error(p, right, weights=w, bins=10),
+        "ece": expected_calibration_error(p, right, weights=w, bins=10)
+        if np.isfinite(p).all()
+        else float("nan"),
         "mean_probability": float(np.sum(w * p) / np.sum(w)),
         "undecoded_intervals": int(undecoded.sum()),
     }
@@ -231,6 +278,17 @@ def evaluate(path: Path, fit_seeds, decode_seeds, modes=MODES) -> dict:
                 "warnings": sorted({str(w.message).split("\n")[0] for w in caught}),
             }
         )
+    t0 = time.perf_counter()
+    rule = _RuleDecode(test_set, scheme)
+    rows.append(
+        {
+            "mode": "trend rule (baseline)",
+            **score(rule, test, true_surfaces),
+            "fit_s": float("nan"),
+            "decode_s": time.perf_counter() - t0,
+            "warnings": [],
+        }
+    )
     return {
         "scenario": str(path.relative_to(ROOT) if path.is_relative_to(ROOT) else path),
         "fit_seeds": list(fit_seeds),
@@ -282,7 +340,7 @@ def markdown(result: dict) -> str:
             f"| {_f(r['mfs_recall'], 2)} ({mfs['n_true_found']}/{mfs['n_true']}) "
             f"| {_f(r['mfs_precision'], 2)} ({mfs['n_picks_right']}/{mfs['n_picks']}) "
             f"| {_f(r['ece'])} | {_f(r['mean_probability'])} "
-            f"| {r['fit_s']:.1f} | {r['decode_s']:.2f} |"
+            f"| {_f(r['fit_s'], 1)} | {r['decode_s']:.2f} |"
         )
     recall = [
         f"{r['mode']}: " + ", ".join(f"{k} {v:.2f}" for k, v in r["recall"].items())
