@@ -27,7 +27,22 @@ import numpy as np
 __all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "find_cycles"]
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
-CONTEXT_FEATURES = ("cycle_stacking", "base_shift", "trend", "position")
+CONTEXT_FEATURES = ("cycle_stacking", "base_shift", "trend", "position", "cycle_sharpness")
+
+#: Words of a contact type that mark it as sharp (abrupt or erosional; common
+#: practice of core description).
+SHARP_WORDS = ("sharp", "erosion", "erosive", "scour", "abrupt", "truncat")
+
+
+def sharp_contacts(contacts) -> np.ndarray:
+    """``(n,)`` 1.0 where a contact type reads as sharp or erosional, 0.0 where it
+    is another known type, ``NaN`` where it is missing."""
+    out = np.full(len(contacts), np.nan)
+    for i, c in enumerate(contacts):
+        if isinstance(c, str) and c.strip():
+            text = c.strip().lower()
+            out[i] = float(any(w in text for w in SHARP_WORDS))
+    return out
 
 
 def _starts(lengths: np.ndarray) -> np.ndarray:
@@ -180,6 +195,7 @@ def bed_context(
     cycle_base: np.ndarray | None = None,
     trend_half_width: int = 3,
     position_half_width: int = 8,
+    sharp: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """Stacking context of every bed, ``name -> (n_beds,)`` floats (``NaN`` unknown).
 
@@ -194,7 +210,10 @@ def bed_context(
     - ``position``: where the bed's smoothed rank lies between the shallowest
       and the deepest smoothed rank within ``position_half_width`` beds on each
       side (0 = shallowest, 1 = deepest): the turnarounds where common practice
-      puts the maximum flooding surface and the sequence boundary.
+      puts the maximum flooding surface and the sequence boundary;
+    - ``cycle_sharpness``: the fraction of sharp or erosional contacts among the
+      beds of the cycle (``sharp``: 1/0/NaN per bed, :func:`sharp_contacts`;
+      forced-regressive cycles are sharp-based and skip facies).
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     r = _fill_unknown(ranks, lengths)
@@ -214,7 +233,15 @@ def bed_context(
     with np.errstate(invalid="ignore", divide="ignore"):
         position = np.where(span > 0, (smooth - low) / span, np.nan)
     c = cycles.bed_cycle
+    sharpness = np.full(len(c), np.nan)
+    if sharp is not None and len(c):
+        known = np.isfinite(sharp)
+        hits = np.bincount(c[known], sharp[known], minlength=cycles.n_cycles)
+        seen = np.bincount(c[known], minlength=cycles.n_cycles)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sharpness = np.where(seen > 0, hits / np.maximum(seen, 1), np.nan)[c]
     return {
+        "cycle_sharpness": sharpness,
         "cycle_stacking": stacking[c] if len(c) else np.zeros(0),
         "base_shift": shift[c] if len(c) else np.zeros(0),
         "trend": _slope(r, lengths, trend_half_width),

@@ -38,6 +38,7 @@ CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
     "base_shift": (-1.5, -0.5, 0.5, 1.5),
     "trend": (-0.3, -0.08, 0.08, 0.3),
     "position": (0.25, 0.5, 0.75),
+    "cycle_sharpness": (0.2, 0.5),
 }
 
 
@@ -78,23 +79,20 @@ def context_pseudo_counts(
     """
     centres = _centres(CONTEXT_BINS[feature])
     out = np.full((len(trends), len(centres)), 0.1 * strength)
+    scale = max(abs(centres).max(), 1e-9)
     for s, (trend, level) in enumerate(zip(trends, levels, strict=True)):
-        if feature == "position":
+        if feature == "cycle_sharpness":
+            out[s] += 0.5 * strength  # no reading of the trade to pin: learnt from the data
+        elif feature == "position":
             if level is None:
                 out[s] += 0.5 * strength
             else:
                 out[s] += strength * np.exp(-0.5 * ((centres - level) / 0.25) ** 2)
-            continue
-        scale = max(abs(centres).max(), 1e-9)
-        if trend == "deepening":
-            target = 0.6 * scale
-        elif level is None or trend == "aggrading":
-            target = 0.0
         else:
-            # regressive: shallowing fastest in the middle (falling stage), slower
-            # near the turnarounds (highstand, lowstand)
-            target = -scale * (0.25 + 0.6 * (1 - abs(2 * level - 1)))
-        out[s] += strength * np.exp(-0.5 * ((centres - target) / (0.45 * scale)) ** 2)
+            target = 0.6 * scale if trend == "deepening" else 0.0
+            if trend == "shallowing":
+                target = -0.3 * scale
+            out[s] += strength * np.exp(-0.5 * ((centres - target) / (0.5 * scale)) ** 2)
     return out
 
 

@@ -68,7 +68,7 @@ from typing import Any, ClassVar
 import numpy as np
 import pandas as pd
 
-from faciesseq.cycles import CONTEXT_FEATURES, bed_context
+from faciesseq.cycles import CONTEXT_FEATURES, bed_context, sharp_contacts
 from faciesseq.errors import ConfigError, ModelFileError
 
 __all__ = [
@@ -250,7 +250,17 @@ def _context_values(tables, fac, lengths, ranks, names) -> dict[str, np.ndarray]
         for t in tables
     ]
     thickness = np.concatenate(thick) if thick else np.zeros(0)
-    context = bed_context(bed_ranks, lengths, thickness)
+    sharp = None
+    if any("contact" in t.columns for t in tables):
+        sharp = np.concatenate(
+            [
+                sharp_contacts(t["contact"].to_numpy(object))
+                if "contact" in t.columns
+                else np.full(len(t), np.nan)
+                for t in tables
+            ]
+        )
+    context = bed_context(bed_ranks, lengths, thickness, sharp=sharp)
     return {name: context[name] for name in names}
 
 

@@ -363,7 +363,7 @@ class TractHMM:
             feats = [
                 f
                 for f in defaults
-                if (f != "contact" or "contact" in columns)
+                if (f not in ("contact", "cycle_sharpness") or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
             ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
