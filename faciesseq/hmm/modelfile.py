@@ -223,6 +223,20 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     hyper = _get(doc, "hyperparameters", dict, source)
     states_doc = _get(doc, "states", dict, source)
     params = _get(doc, "parameters", dict, source)
+    declared = states_doc.get("substates")
+    rows = params.get("transmat")
+    if (
+        not isinstance(declared, list)
+        or not all(isinstance(n, int) and not isinstance(n, bool) for n in declared)
+        or not isinstance(rows, list)
+        or sum(declared) > len(rows)
+    ):
+        # sizes are checked against the table actually present before anything is built
+        raise ModelFileError(
+            "states.substates: whole numbers expected, adding up to the number of rows of "
+            f"parameters.transmat ({len(rows) if isinstance(rows, list) else 'missing'})",
+            file=source,
+        )
     try:
         substates = dict(zip(tract_model.order, [int(n) for n in states_doc["substates"]]))
         states = StateSpace.build(tract_model, substates)
@@ -355,4 +369,13 @@ def load_model(path: str | Path) -> TractHMM:
             "written by `faciesseq fit`",
             file=source,
         ) from None
-    return model_from_dict(doc, source)
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        raise ModelFileError(f"not a valid model file ({exc})", file=source) from None
+    except RecursionError:
+        raise ModelFileError(
+            "not a valid model file (JSON nested too deeply)", file=source
+        ) from None
+    try:
+        return model_from_dict(doc, source)
+    except RecursionError:
+        raise ModelFileError("not a valid model file (nested too deeply)", file=source) from None
