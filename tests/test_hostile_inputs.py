@@ -164,3 +164,141 @@ def test_boosted_trees_declaring_a_billion_features_are_refused_before_allocatin
     piece["half_width"] = STACKING_HALF_WIDTH
     with pytest.raises(ModelFileError, match="window features"):
         piece_from_dict(piece, 4, "m.json")
+
+
+# ------------------------------------------------------------------ sizes and numbers
+def _fit(database, out, *extra: str) -> list[str]:
+    return [
+        "fit",
+        str(database / "cores.csv"),
+        "--scheme",
+        str(database / "scheme.yaml"),
+        "-o",
+        str(out / "m.json"),
+        *extra,
+    ]
+
+
+@pytest.mark.parametrize(
+    ("extra", "needles"),
+    [
+        (["--substates", "100000"], ["--substates 100,000", "GiB"]),
+        (["--substates", "2,101"], ["at most 100 per tract"]),
+        (["--seed", "-1"], ["--seed"]),
+        (["--tol", "nan"], ["--tol must be a positive number"]),
+        (["--tol", "-0.1"], ["--tol must be a positive number"]),
+        (["--tol", "0"], ["--tol must be a positive number"]),
+        (["--prior-strength", "inf"], ["--prior-strength"]),
+        (["--max-iter", "0"], ["--max-iter"]),
+        (["--restarts", "100000000"], ["--restarts"]),
+        (["--unit", "grid", "--step", "1e-9"], ["--step 1e-09", "grid cells", "(at most"]),
+        (["--unit", "grid", "--step", "nan"], ["positive --step"]),
+    ],
+)
+def test_fit_refuses_sizes_and_numbers_out_of_range(database, tmp_path, capsys, extra, needles):
+    assert main(_fit(database, tmp_path, *extra)) == 2
+    one_line(capsys, *needles)
+    assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize(
+    ("extra", "needles"),
+    [
+        (["--unit", "grid", "--step", "1e-9"], ["--step 1e-09", "grid cells"]),
+        (["--surrogates", "100001"], ["--surrogates must be from 0 to 100,000"]),
+        (["--surrogates", "10", "--seed", "-1"], ["--seed"]),
+    ],
+)
+def test_markov_refuses_sizes_out_of_range(database, tmp_path, capsys, extra, needles):
+    out = tmp_path / "out"
+    assert main(["markov", str(database / "cores.csv"), "--out", str(out), *extra]) == 2
+    one_line(capsys, *needles)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_the_grid_limit_counts_cells_from_the_cored_thickness(database, capsys):
+    """Three cores of 40 beds: a step of a millionth of the thickness is 1e6 cells per core."""
+    from faciesseq.cli._common import MAX_GRID_CELLS, grid_cells
+    from faciesseq.io import read_cores
+
+    cores = read_cores(str(database / "cores.csv"))
+    total = sum(float((c.intervals["base"] - c.intervals["top"]).sum()) for c in cores)
+    assert grid_cells(cores, total / 1000) == pytest.approx(1000, abs=1)
+    assert grid_cells(cores, total / (2 * MAX_GRID_CELLS)) > MAX_GRID_CELLS
+
+
+def test_appendix_refuses_unbounded_surrogates_and_grids(database, tmp_path, capsys):
+    base = ["appendix", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+    out = ["-o", str(tmp_path / "a"), "--no-latex"]
+    assert main([*base, *out, "--surrogates", "10000000"]) == 2
+    one_line(capsys, "--surrogates must be from 0 to 100,000")
+    assert main([*base, *out, "--substates", "100000"]) == 2
+    one_line(capsys, "--substates 100,000")
+    assert main([*base, *out, "--unit", "grid", "--step", "1e-9"]) == 2
+    one_line(capsys, "grid cells")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_fit_on_a_single_bed_is_a_data_error(database, tmp_path, capsys):
+    one = tmp_path / "one.csv"
+    one.write_text("core,top,base,facies\nW1,0,1,CP\n")
+    args = ["fit", str(one), "--scheme", str(database / "scheme.yaml"), "-o", str(tmp_path / "m")]
+    assert main(args) == 1
+    one_line(capsys, "one.csv", "too few beds")
+    assert list(tmp_path.iterdir()) == [one]
+
+
+def test_decode_plot_of_a_320_character_core_name(database, tmp_path, capsys):
+    name = "W" * 320
+    table = pd.read_csv(database / "cores.csv")
+    first = table[table["core"] == table["core"].iloc[0]].copy()
+    first["core"] = name
+    csv = tmp_path / "long.csv"
+    first.to_csv(csv, index=False)
+    out = tmp_path / "out"
+    assert main(["decode", str(database / "model.json"), str(csv), "-o", str(out), "--plot"]) == 0
+    capsys.readouterr()
+    (png,) = (out / "striplogs").iterdir()
+    assert len(png.name) <= 104 and png.name.startswith("W" * 80) and png.suffix == ".png"
+
+
+def test_figure_names_are_safe_short_and_distinct():
+    from faciesseq.cli.decode import MAX_NAME, figure_name
+
+    assert figure_name("S-71-1") == "S-71-1"
+    assert figure_name("A/B") == "A_B"
+    assert figure_name("A/B", {"A_B"}) != "A_B"
+    assert len(figure_name("é" * 320).encode("utf-8")) <= MAX_NAME
+    assert figure_name("x" * 320) != figure_name("x" * 321)
+    assert not figure_name("../etc").startswith(".")
+
+
+# ------------------------------------------------------------------ schemes and tract models
+@pytest.mark.parametrize("rank", [".nan", ".inf", "-.inf"])
+def test_a_scheme_rank_that_is_not_finite_is_a_config_error(tmp_path, capsys, rank):
+    from faciesseq.errors import ConfigError
+    from faciesseq.scheme import load_scheme
+
+    path = tmp_path / "scheme.yaml"
+    path.write_text(
+        f"facies:\n  - {{code: A, name: a, rank: 0}}\n  - {{code: B, name: b, rank: {rank}}}\n"
+    )
+    with pytest.raises(ConfigError, match="finite"):
+        load_scheme(path)
+    assert main(["scheme", "show", str(path)]) == 2
+    one_line(capsys, "scheme.yaml", "'rank' must be a finite number")
+
+
+@pytest.mark.parametrize("substates", ["0", "{HST: 0}", "1000000"])
+def test_tract_model_substates_out_of_range_are_a_config_error(tmp_path, substates):
+    import yaml
+
+    from faciesseq.errors import ConfigError
+    from faciesseq.scheme import default_tract_model, load_tract_model
+
+    doc = default_tract_model().to_dict()
+    doc["substates"] = yaml.safe_load(substates)
+    path = tmp_path / "tracts.yaml"
+    path.write_text(yaml.safe_dump(doc))
+    with pytest.raises(ConfigError, match="substates"):
+        load_tract_model(path)

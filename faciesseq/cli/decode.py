@@ -8,7 +8,12 @@ import shutil
 import tempfile
 from pathlib import Path
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_source_arguments,
+    check_grid_size,
+    load_scheme_option,
+    read_source,
+)
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.errors import ConfigError
 
@@ -85,6 +90,30 @@ def _agreement(interp, column: str):
     return pd.DataFrame(rows) if rows else None
 
 
+#: Longest figure file name kept whole, in UTF-8 bytes (file systems allow 255).
+MAX_NAME = 100
+
+
+def figure_name(core: str, used: set[str] = frozenset()) -> str:
+    """A safe file name (without suffix) for a core's figure.
+
+    Letters, digits, ``-``, ``_`` and ``.`` are kept, anything else becomes
+    ``_``; a name that is too long, or that would clash with one already used,
+    is shortened and given a hash of the full core name.
+    """
+    import hashlib
+
+    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in core)
+    safe = safe.lstrip(".") or "_"
+    if len(safe.encode("utf-8")) > MAX_NAME or safe in used:
+        digest = hashlib.sha256(core.encode("utf-8", "surrogatepass")).hexdigest()[:12]
+        head = safe
+        while len(head.encode("utf-8")) > MAX_NAME - 13:
+            head = head[:-1]
+        safe = f"{head}-{digest}"
+    return safe
+
+
 def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
     """Write the tables (and figures) into a temporary folder, then move it into place."""
     out = Path(out)
@@ -105,9 +134,11 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
 
             figures = temp / "striplogs"
             figures.mkdir()
+            used: set[str] = set()
             for core in interp:
-                safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in core.core)
-                strip_log(core, scheme, tract_model, figures / f"{safe}.png")
+                name = figure_name(core.core, used)
+                used.add(name)
+                strip_log(core, scheme, tract_model, figures / f"{name}.png")
         if not out.exists():
             temp.rename(out)
             return
@@ -137,6 +168,7 @@ def run(args: argparse.Namespace) -> int:
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
     cores = read_source(args, scheme).require_valid()
+    check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     successions = cores.successions(model.unit, model.step)
     if not successions:
         raise ConfigError("the source holds no beds to decode", file=args.source)
