@@ -302,3 +302,80 @@ def test_tract_model_substates_out_of_range_are_a_config_error(tmp_path, substat
     path.write_text(yaml.safe_dump(doc))
     with pytest.raises(ConfigError, match="substates"):
         load_tract_model(path)
+
+
+# ------------------------------------------------------------------ data read wrongly
+def test_a_depth_of_1e309_is_a_data_error_naming_row_and_core(tmp_path, capsys):
+    path = tmp_path / "c.csv"
+    path.write_text("core,top,base,facies\nW1,0,1,A\nW1,1,1e309,B\nW1,2,3,A\n")
+    assert main(["check", str(path)]) == 1
+    out = capsys.readouterr().out
+    (line,) = [x for x in out.splitlines() if "not a finite" in x]
+    assert line.startswith("error: ") and "row 2, core W1: base '1e309'" in line
+    assert main(["markov", str(path)]) == 1
+    one_line(capsys, "c.csv, row 2, core W1", "not a finite number")
+
+
+def test_a_nul_byte_inside_a_facies_code_is_a_data_error(tmp_path, capsys):
+    path = tmp_path / "c.csv"
+    path.write_bytes(b"core,top,base,facies\nW1,0,1,A\nW1,1,2,B\x00B\nW1,2,3,A\n")
+    assert main(["check", str(path)]) == 1
+    out = capsys.readouterr().out
+    (line,) = [x for x in out.splitlines() if "control character" in x]
+    assert line.startswith("error: ") and "row 2, core W1, depth 1.00 m" in line
+
+
+def test_a_short_latin1_file_is_read_as_western_and_reported(tmp_path):
+    from faciesseq.io import read_cores
+
+    path = tmp_path / "c.csv"
+    text = "core,top,base,facies\nGöta Älv,0,1,sand\nGöta Älv,1,2,lera\n"
+    path.write_bytes(text.encode("latin-1"))
+    cores = read_cores(path, units="m")
+    assert cores.names == ["Göta Älv"]
+    (note,) = [p for p in cores.problems if p.kind == "encoding"]
+    assert note.severity == "warning" and "read as cp1252" in note.message
+
+
+def test_check_on_20000_distinct_facies_codes_gives_one_row_each(tmp_path, capsys):
+    """Linear in the number of codes (it was quadratic: one full scan per code)."""
+    n = 20_000
+    path = tmp_path / "c.csv"
+    path.write_text(
+        "core,top,base,facies\n" + "".join(f"W1,{i},{i + 2},F{i}\n" for i in range(0, 2 * n, 2))
+    )
+    assert main(["check", str(path), "--format", "json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert len(doc["facies"]) == n
+    row = doc["facies"][123]
+    assert row["beds"] == 1 and row["thickness"] == 2.0 and row["bed_thickness_mean"] == 2.0
+    assert row["proportion_beds"] == pytest.approx(1 / n)
+
+
+def test_a_table_of_20000_columns_is_refused_at_once(tmp_path, capsys):
+    path = tmp_path / "wide.csv"
+    extra = [f"c{i}" for i in range(20_000)]
+    path.write_text(
+        ",".join(["core", "top", "base", "facies", *extra])
+        + "\n"
+        + ",".join(["W1", "0", "1", "A", *("1" for _ in extra)])
+        + "\n"
+    )
+    assert main(["check", str(path)]) == 1
+    one_line(capsys, "wide.csv", "20,004 columns (at most 2,000)")
+
+
+def test_wide_tables_below_the_limit_keep_every_column(tmp_path):
+    from faciesseq.io import read_cores
+
+    path = tmp_path / "c.csv"
+    extra = [f"c{i}" for i in range(300)]
+    rows = [
+        ",".join(["W1", str(k), str(k + 1), "AB"[k % 2], *(str(k) for _ in extra)])
+        for k in range(3)
+    ]
+    path.write_text(
+        ",".join(["core", "top", "base", "facies", *extra]) + "\n" + "\n".join(rows) + "\n"
+    )
+    cores = read_cores(path, units="m")
+    assert cores["W1"].intervals["c299"].tolist() == [0, 1, 2]
