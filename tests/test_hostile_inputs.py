@@ -7,6 +7,7 @@ before the work starts.
 """
 
 import json
+import time
 
 import hmm_synthetic as synth
 import pandas as pd
@@ -379,3 +380,34 @@ def test_wide_tables_below_the_limit_keep_every_column(tmp_path):
     )
     cores = read_cores(path, units="m")
     assert cores["W1"].intervals["c299"].tolist() == [0, 1, 2]
+
+
+# ------------------------------------------------------------------ outputs
+def test_sigterm_during_appendix_leaves_no_temporary_folder(database, tmp_path):
+    """SIGTERM unwinds like Ctrl-C: the hidden folder being written is removed, exit 143."""
+    import os
+    import signal
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    out = tmp_path / "appendix"
+    env = dict(os.environ, MPLBACKEND="Agg")
+    env["PYTHONPATH"] = os.pathsep.join(
+        [str(Path(__file__).resolve().parents[1]), env.get("PYTHONPATH", "")]
+    )
+    cmd = [sys.executable, "-m", "faciesseq", "appendix", str(database / "cores.csv")]
+    cmd += ["--scheme", str(database / "scheme.yaml"), "-o", str(out), "--no-latex"]
+    cmd += ["--surrogates", "0", "--restarts", "1", "--folds", "2"]
+    proc = subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    deadline = time.monotonic() + 300
+    while time.monotonic() < deadline and proc.poll() is None:
+        if any(p.name.startswith(".appendix") for p in tmp_path.iterdir()):
+            break
+        time.sleep(0.005)
+    assert proc.poll() is None, "the appendix finished before its folder was seen"
+    proc.send_signal(signal.SIGTERM)
+    _, err = proc.communicate(timeout=300)
+    assert proc.returncode == 143, err
+    assert err.decode().strip().splitlines()[-1] == "faciesseq: terminated"
+    assert list(tmp_path.iterdir()) == []
