@@ -411,3 +411,23 @@ def test_sigterm_during_appendix_leaves_no_temporary_folder(database, tmp_path):
     assert proc.returncode == 143, err
     assert err.decode().strip().splitlines()[-1] == "faciesseq: terminated"
     assert list(tmp_path.iterdir()) == []
+
+
+def test_two_fits_with_the_same_seed_differ_only_in_provenance(database, tmp_path, capsys):
+    """Reproducible bit for bit: only the last key (date, command line) may change."""
+    docs, texts = [], []
+    for name in ("a.json", "b.json"):
+        args = ["fit", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+        args += ["-o", str(tmp_path / name), "--restarts", "2", "--seed", "7"]
+        args += ["--labels", "tract", "--max-iter", "20"]
+        assert main(args) == 0
+        text = (tmp_path / name).read_text()
+        doc = json.loads(text)
+        assert list(doc)[-1] == "provenance" and "created" in doc["provenance"]
+        assert "created" not in doc and "command" not in doc["training"]
+        docs.append(doc)
+        texts.append(text[: text.index('"provenance"')])
+    capsys.readouterr()
+    assert docs[0]["parameters"] == docs[1]["parameters"]
+    assert texts[0] == texts[1]  # byte-identical up to the provenance
+    assert load_model(tmp_path / "a.json").training_["seed"] == 7

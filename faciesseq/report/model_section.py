@@ -279,7 +279,7 @@ def model_section(
     from faciesseq.hmm.modelfile import model_to_dict
 
     doc = model_to_dict(model)
-    doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
+    doc.pop("provenance", None)  # the date belongs in provenance.json, not with the numbers
     numbers["model"] = doc
     if note:
         s.add(Paragraph(note, kind="note"))
