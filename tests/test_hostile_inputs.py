@@ -192,6 +192,7 @@ def _fit(database, out, *extra: str) -> list[str]:
         (["--prior-strength", "inf"], ["--prior-strength"]),
         (["--max-iter", "0"], ["--max-iter"]),
         (["--restarts", "100000000"], ["--restarts"]),
+        (["--jobs", "100000"], ["--jobs must be from 1 to"]),
         (["--unit", "grid", "--step", "1e-9"], ["--step 1e-09", "grid cells", "(at most"]),
         (["--unit", "grid", "--step", "nan"], ["positive --step"]),
     ],
@@ -264,7 +265,8 @@ def test_decode_plot_of_a_320_character_core_name(database, tmp_path, capsys):
 
 
 def test_figure_names_are_safe_short_and_distinct():
-    from faciesseq.cli.decode import MAX_NAME, figure_name
+    from faciesseq.cli.decode import figure_name
+    from faciesseq.io.writer import MAX_STEM as MAX_NAME
 
     assert figure_name("S-71-1") == "S-71-1"
     assert figure_name("A/B") == "A_B"
@@ -431,3 +433,21 @@ def test_two_fits_with_the_same_seed_differ_only_in_provenance(database, tmp_pat
     assert docs[0]["parameters"] == docs[1]["parameters"]
     assert texts[0] == texts[1]  # byte-identical up to the provenance
     assert load_model(tmp_path / "a.json").training_["seed"] == 7
+
+
+def test_las_folders_of_long_or_clashing_core_names(tmp_path):
+    from faciesseq.io import read_cores, write_cores
+
+    long = "K" * 320
+    path = tmp_path / "c.csv"
+    path.write_text(
+        "core,top,base,facies\n"
+        + "".join(
+            f"{name},{k},{k + 1},{'AB'[k % 2]}\n" for name in (long, "A/B", "A_B") for k in range(3)
+        )
+    )
+    out = tmp_path / "las"
+    write_cores(read_cores(path, units="m"), out, format="las")
+    names = sorted(p.name for p in out.iterdir())
+    assert len(names) == 3 and all(len(n) <= 104 for n in names)
+    assert sorted(read_cores(out).names) == sorted(["A/B", "A_B", long])  # none overwritten

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 import warnings
 from contextlib import contextmanager
@@ -137,8 +138,9 @@ def check_unit(args: argparse.Namespace) -> None:
     substate_counts(args)
     if args.restarts < 1:
         raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
-    if args.jobs < 1:
-        raise ConfigError(f"--jobs must be >= 1, got {args.jobs}")
+    max_jobs = max(64, os.cpu_count() or 1)
+    if not 1 <= args.jobs <= max_jobs:
+        raise ConfigError(f"--jobs must be from 1 to {max_jobs} (processes), got {args.jobs}")
     if args.calibration_folds < 0:
         raise ConfigError(f"--calibration-folds must be >= 0, got {args.calibration_folds}")
 

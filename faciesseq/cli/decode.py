@@ -6,6 +6,7 @@ import argparse
 import os
 import shutil
 import tempfile
+from collections.abc import Collection
 from pathlib import Path
 
 from faciesseq.cli._common import (
@@ -90,28 +91,12 @@ def _agreement(interp, column: str):
     return pd.DataFrame(rows) if rows else None
 
 
-#: Longest figure file name kept whole, in UTF-8 bytes (file systems allow 255).
-MAX_NAME = 100
+def figure_name(core: str, used: Collection[str] = ()) -> str:
+    """A safe, short file name (without suffix) for a core's figure; see
+    :func:`faciesseq.io.writer.safe_stem` (long or clashing names get a hash)."""
+    from faciesseq.io.writer import safe_stem
 
-
-def figure_name(core: str, used: set[str] = frozenset()) -> str:
-    """A safe file name (without suffix) for a core's figure.
-
-    Letters, digits, ``-``, ``_`` and ``.`` are kept, anything else becomes
-    ``_``; a name that is too long, or that would clash with one already used,
-    is shortened and given a hash of the full core name.
-    """
-    import hashlib
-
-    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in core)
-    safe = safe.lstrip(".") or "_"
-    if len(safe.encode("utf-8")) > MAX_NAME or safe in used:
-        digest = hashlib.sha256(core.encode("utf-8", "surrogatepass")).hexdigest()[:12]
-        head = safe
-        while len(head.encode("utf-8")) > MAX_NAME - 13:
-            head = head[:-1]
-        safe = f"{head}-{digest}"
-    return safe
+    return safe_stem(core, used)
 
 
 def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
