@@ -22,17 +22,7 @@ from faciesseq.hmm.modelfile import load_model
 def database(tmp_path_factory):
     """Three invented cores (hmm_synthetic), half labelled, a scheme, and a fitted model."""
     folder = tmp_path_factory.mktemp("db")
-    rows = []
-    for k, core in enumerate(synth.cores(3, 40, seed=5)):
-        beds = core.beds.iloc[::-1].copy()
-        beds.insert(0, "core", core.core)
-        beds["tract"] = beds["true_tract"] if k % 2 == 0 else None
-        rows.append(beds.drop(columns=["thickness", "true_tract"]))
-    pd.concat(rows).to_csv(folder / "cores.csv", index=False)
-    scheme = "facies:\n" + "".join(
-        f'  - {{code: "{c}", name: "{c}", rank: {i}}}\n' for i, c in enumerate(synth.CODES)
-    )
-    (folder / "scheme.yaml").write_text(scheme)
+    synth.write_database(folder, 3, 40, seed=5)
     model = folder / "model.json"
     args = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
     assert main([*args, "-o", str(model), "--restarts", "1", "--max-iter", "20"]) == 0
