@@ -17,6 +17,7 @@ problem.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from importlib import resources
@@ -54,6 +55,9 @@ _MODEL_KEYS = {
     "version",
 }
 TRENDS = ("deepening", "shallowing", "aggrading")
+#: Most sub-states a tract may have (the transition matrix grows with the square of the
+#: number of states; a handful is the useful range).
+MAX_SUBSTATES = 100
 
 
 def _read_yaml(path: str | Path) -> Any:
@@ -198,6 +202,10 @@ class FaciesScheme:
                 )
             if isinstance(rank, bool) or not isinstance(rank, int | float):
                 raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
+            if not math.isfinite(rank):
+                raise ConfigError(
+                    f"{here}: 'rank' must be a finite number, got {rank!r}", file=source
+                )
             grain = entry.get("grain_size")
             if grain is not None and (
                 isinstance(grain, bool) or not isinstance(grain, int | float)
@@ -437,7 +445,9 @@ class TractModel:
                 raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
         if len(set(skips)) != len(skips):
             raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
-        raw_sub = data.get("substates") or {}
+        raw_sub = data.get("substates")
+        if raw_sub is None:
+            raw_sub = {}
         if isinstance(raw_sub, int) and not isinstance(raw_sub, bool):
             raw_sub = {c: raw_sub for c in codes}
         if not isinstance(raw_sub, Mapping):
@@ -448,9 +458,10 @@ class TractModel:
         for c, n in raw_sub.items():
             if c not in codes:
                 raise ConfigError(f"substates: unknown tract {c!r}", file=source)
-            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+            if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_SUBSTATES:
                 raise ConfigError(
-                    f"substates: {c}: must be a whole number >= 1, got {n!r}", file=source
+                    f"substates: {c}: must be a whole number from 1 to {MAX_SUBSTATES}, got {n!r}",
+                    file=source,
                 )
             substates[str(c)] = n
         model = cls(

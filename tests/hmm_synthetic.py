@@ -95,6 +95,22 @@ def cores(n_cores: int, n_beds: int, seed: int) -> list[Succession]:
     return [core(f"S-{seed}-{k + 1}", n_beds, rng) for k in range(n_cores)]
 
 
+def write_database(folder, n_cores: int, n_beds: int, seed: int) -> None:
+    """``folder/cores.csv`` (depth order; the even cores' tract column filled in, the odd
+    cores' left blank) and ``folder/scheme.yaml`` (CODES ranked in order)."""
+    rows = []
+    for k, succ in enumerate(cores(n_cores, n_beds, seed=seed)):
+        beds = succ.beds.iloc[::-1].copy()  # depth order, as a database holds it
+        beds.insert(0, "core", succ.core)
+        beds["tract"] = beds["true_tract"] if k % 2 == 0 else None
+        rows.append(beds.drop(columns=["thickness", "true_tract"]))
+    pd.concat(rows).to_csv(folder / "cores.csv", index=False)
+    scheme = "facies:\n" + "".join(
+        f'  - {{code: "{c}", name: "{c}", rank: {i}}}\n' for i, c in enumerate(CODES)
+    )
+    (folder / "scheme.yaml").write_text(scheme)
+
+
 def simulated_beds(scenario, seeds) -> list[Succession]:
     """Bed successions of the project's forward model (a loaded scenario) for the given
     noise seeds, core names suffixed ``/s<seed>`` so seeds never share a core."""

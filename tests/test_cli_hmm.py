@@ -12,17 +12,7 @@ from faciesseq.cli import main
 @pytest.fixture(scope="module")
 def database(tmp_path_factory):
     folder = tmp_path_factory.mktemp("db")
-    rows = []
-    for k, core in enumerate(synth.cores(8, 60, seed=71)):
-        beds = core.beds.iloc[::-1].copy()  # depth order, as a database holds it
-        beds.insert(0, "core", core.core)
-        beds["tract"] = beds["true_tract"] if k % 2 == 0 else None
-        rows.append(beds.drop(columns=["thickness", "true_tract"]))
-    pd.concat(rows).to_csv(folder / "cores.csv", index=False)
-    scheme = "facies:\n" + "".join(
-        f'  - {{code: "{c}", name: "{c}", rank: {i}}}\n' for i, c in enumerate(synth.CODES)
-    )
-    (folder / "scheme.yaml").write_text(scheme)
+    synth.write_database(folder, 8, 60, seed=71)
     return folder
 
 

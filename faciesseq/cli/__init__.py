@@ -6,15 +6,17 @@ imported inside the command functions so that ``faciesseq --help`` and short
 commands start fast.
 
 Exit codes: 0 success; 1 the data has errors; 2 usage or configuration error;
-130 interrupted.
+130 interrupted (Ctrl-C); 143 terminated (SIGTERM, cleaned up as after Ctrl-C).
 """
 
 from __future__ import annotations
 
 import argparse
 import importlib
+import signal
 import sys
 from collections.abc import Sequence
+from contextlib import contextmanager
 
 from faciesseq._version import __version__
 
@@ -112,6 +114,28 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised like Ctrl-C so that every temporary file and folder is cleaned up."""
+
+
+def _terminate(signum, frame) -> None:
+    raise Terminated
+
+
+@contextmanager
+def _sigterm_as_interrupt():
+    """While a command runs, SIGTERM unwinds like Ctrl-C (only in the main thread)."""
+    try:
+        previous = signal.signal(signal.SIGTERM, _terminate)
+    except (ValueError, OSError):  # not the main thread, or no SIGTERM here
+        yield
+        return
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code."""
     from faciesseq.errors import FaciesseqError
@@ -122,10 +146,14 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return int(args.func(args) or 0)
+        with _sigterm_as_interrupt():
+            return int(args.func(args) or 0)
     except FaciesseqError as exc:
         sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
         return exc.exit_code
+    except Terminated:
+        sys.stderr.write("faciesseq: terminated\n")
+        return 143
     except KeyboardInterrupt:
         sys.stderr.write("faciesseq: interrupted\n")
         return 130

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 
 from faciesseq.errors import ConfigError, InputError
 
@@ -48,9 +49,16 @@ def add_source_arguments(parser: argparse.ArgumentParser, scheme: bool = True) -
     )
 
 
+#: Most grid cells ``--unit grid --step X`` may make over all cores (10 million cells
+#: take about a GiB in the tables built from them).
+MAX_GRID_CELLS = 10_000_000
+#: Most Monte Carlo surrogates (each is a full reshuffle and recount of every succession).
+MAX_SURROGATES = 100_000
+
+
 def check_unit_step(args: argparse.Namespace) -> None:
     """``--unit grid`` needs a positive ``--step``; ``--step`` goes with ``--unit grid`` only."""
-    if args.unit == "grid" and not (args.step and args.step > 0):
+    if args.unit == "grid" and not (args.step and math.isfinite(args.step) and args.step > 0):
         raise ConfigError("--unit grid needs a positive --step (depth units)")
     if args.unit == "beds" and args.step is not None:
         raise ConfigError("--step is only used with --unit grid")
@@ -168,3 +176,42 @@ def require_file(path: str | None) -> str | None:
     if Path(path).is_dir():
         raise InputError("is a folder, not a file", file=str(path))
     return path
+
+
+def check_seed(seed: int | None, option: str = "--seed") -> None:
+    """Seeds are whole numbers from 0 to 2**32 - 1 (numpy's seed sequences refuse negatives)."""
+    if seed is not None and not 0 <= seed < 2**32:
+        raise ConfigError(f"{option} must be a whole number from 0 to {2**32 - 1}, got {seed}")
+
+
+def check_surrogates(n: int) -> None:
+    """``--surrogates N``: 0 to :data:`MAX_SURROGATES`."""
+    if not 0 <= n <= MAX_SURROGATES:
+        raise ConfigError(
+            f"--surrogates must be from 0 to {MAX_SURROGATES:,} (each surrogate reshuffles and "
+            f"recounts every succession; 999 gives p-values to 0.001), got {n:,}"
+        )
+
+
+def grid_cells(cores, step: float) -> int:
+    """Upper estimate of the cells a depth grid of ``step`` makes: cored thickness / step."""
+    total = 0.0
+    for core in cores:
+        table = core.intervals
+        if len(table):
+            thickness = (table["base"].to_numpy(float) - table["top"].to_numpy(float)).clip(0)
+            total += float(thickness.sum())
+    return int(min(total / step, 1e300)) if step > 0 else 0
+
+
+def check_grid_size(cores, unit: str, step: float | None, option: str = "--step") -> None:
+    """Refuse a grid step that would make more than :data:`MAX_GRID_CELLS` cells, before
+    any cell is built."""
+    if unit != "grid" or not step:
+        return
+    n = grid_cells(cores, step)
+    if n > MAX_GRID_CELLS:
+        raise ConfigError(
+            f"{option} {step:g} would make about {n:,} grid cells (at most "
+            f"{MAX_GRID_CELLS:,}); choose a larger step"
+        )

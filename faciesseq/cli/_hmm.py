@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import math
+import os
 import sys
 import warnings
 from contextlib import contextmanager
 
-from faciesseq.cli._common import check_unit_step, require_file
+from faciesseq.cli._common import check_seed, check_unit_step, require_file
 from faciesseq.errors import ConfigError
 
 
@@ -84,7 +86,22 @@ def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:
     return out
 
 
-def substate_counts(args: argparse.Namespace) -> list[int | None]:
+def check_substates(n: int, n_tracts: int = 4) -> None:
+    """One ``--substates`` value: 1 to ``MAX_SUBSTATES``, with what a larger one would cost."""
+    from faciesseq.scheme import MAX_SUBSTATES
+
+    if n < 1:
+        raise ConfigError(f"--substates must be >= 1, got {n}")
+    if n > MAX_SUBSTATES:
+        states = n * n_tracts
+        gib = states * states * 8 / 2**30
+        raise ConfigError(
+            f"--substates {n:,} is too many (at most {MAX_SUBSTATES} per tract): {states:,} "
+            f"states need a {gib:,.1f} GiB transition matrix per restart"
+        )
+
+
+def substate_counts(args: argparse.Namespace, n_tracts: int = 4) -> list[int | None]:
     if not args.substates:
         return [None]
     out = []
@@ -93,18 +110,37 @@ def substate_counts(args: argparse.Namespace) -> list[int | None]:
             n = int(part)
         except ValueError:
             raise ConfigError(f"--substates expects whole numbers, got {part!r}") from None
-        if n < 1:
-            raise ConfigError(f"--substates must be >= 1, got {n}")
+        check_substates(n, n_tracts)
         out.append(n)
     return out
 
 
+#: Upper limits of the fitting options (far above any useful value; they stop a typo
+#: from running for days).
+MAX_RESTARTS = 1_000
+MAX_ITER = 100_000
+
+
 def check_unit(args: argparse.Namespace) -> None:
     check_unit_step(args)
+    check_seed(args.seed)
+    if not (math.isfinite(args.tol) and args.tol > 0):
+        raise ConfigError(f"--tol must be a positive number, got {args.tol}")
+    for name in ("prior_strength", "cycle_prior"):
+        value = getattr(args, name)
+        if not (math.isfinite(value) and value >= 0):
+            option = "--" + name.replace("_", "-")
+            raise ConfigError(f"{option} must be a number >= 0, got {value}")
+    if not 1 <= args.max_iter <= MAX_ITER:
+        raise ConfigError(f"--max-iter must be from 1 to {MAX_ITER:,}, got {args.max_iter}")
+    if args.restarts > MAX_RESTARTS:
+        raise ConfigError(f"--restarts must be at most {MAX_RESTARTS:,}, got {args.restarts}")
+    substate_counts(args)
     if args.restarts < 1:
         raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
-    if args.jobs < 1:
-        raise ConfigError(f"--jobs must be >= 1, got {args.jobs}")
+    max_jobs = max(64, os.cpu_count() or 1)
+    if not 1 <= args.jobs <= max_jobs:
+        raise ConfigError(f"--jobs must be from 1 to {max_jobs} (processes), got {args.jobs}")
     if args.calibration_folds < 0:
         raise ConfigError(f"--calibration-folds must be >= 0, got {args.calibration_folds}")
 

@@ -110,6 +110,10 @@ def progress_printer(total: int, enabled: bool):
 
 
 def check_numbers(args: argparse.Namespace) -> None:
+    import math
+
+    from faciesseq.cli._common import check_seed, check_surrogates
+    from faciesseq.cli._hmm import MAX_RESTARTS, check_substates
     from faciesseq.errors import ConfigError
 
     try:
@@ -118,15 +122,21 @@ def check_numbers(args: argparse.Namespace) -> None:
         raise ConfigError(
             f"--substates expects whole numbers separated by commas, got {args.substates!r}"
         ) from None
-    if args.unit == "grid" and not (args.step and args.step > 0):
+    if args.unit == "grid" and not (args.step and math.isfinite(args.step) and args.step > 0):
         raise ConfigError("--unit grid needs a positive --step (depth units)")
     if not args.substates_list or min(args.substates_list) < 1:
         raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
+    for n in args.substates_list:
+        check_substates(n)
     for name in ("folds", "surrogates", "restarts", "seed"):
         value = getattr(args, name)
         low = 2 if name == "folds" else (1 if name == "restarts" else 0)
         if value < low:
             raise ConfigError(f"--{name} must be a whole number >= {low}, got {value}")
+    check_surrogates(args.surrogates)
+    check_seed(args.seed)
+    if args.restarts > MAX_RESTARTS:
+        raise ConfigError(f"--restarts must be at most {MAX_RESTARTS:,}, got {args.restarts}")
 
 
 def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_model: bool):
@@ -191,7 +201,12 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
 
 def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target
-    from faciesseq.cli._common import load_scheme_option, read_source, require_file
+    from faciesseq.cli._common import (
+        check_grid_size,
+        load_scheme_option,
+        read_source,
+        require_file,
+    )
     from faciesseq.errors import ConfigError
 
     check_numbers(args)
@@ -208,6 +223,7 @@ def run(args: argparse.Namespace) -> int:
             "the appendix needs a facies scheme (ranks, names, colours): pass --scheme FILE"
         )
     cores = read_source(args, scheme=scheme)
+    check_grid_size(cores, args.unit, args.step)
     out, _ = make(args, cores, scheme, args.output, args.force, extra_model=False)
     sys.stdout.write(
         f"appendix: {out / 'appendix.html'}\n"

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import argparse
+from collections.abc import Collection
 from pathlib import Path
 
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    check_grid_size,
     load_scheme_option,
     read_source,
     require_file,
@@ -95,6 +97,14 @@ def _agreement(interp, column: str):
     return pd.DataFrame(rows) if rows else None
 
 
+def figure_name(core: str, used: Collection[str] = ()) -> str:
+    """A safe, short file name (without suffix) for a core's figure; see
+    :func:`faciesseq.io.writer.safe_stem` (long or clashing names get a hash)."""
+    from faciesseq.io.writer import safe_stem
+
+    return safe_stem(core, used)
+
+
 def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
     """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
     from faciesseq._output import new_folder
@@ -110,9 +120,11 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
 
             figures = temp / "striplogs"
             figures.mkdir()
+            used: set[str] = set()
             for core in interp:
-                safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in core.core)
-                strip_log(core, scheme, tract_model, figures / f"{safe}.png")
+                name = figure_name(core.core, used)
+                used.add(name)
+                strip_log(core, scheme, tract_model, figures / f"{name}.png")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -127,6 +139,7 @@ def run(args: argparse.Namespace) -> int:
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
     cores = read_source(args, scheme).require_valid()
+    check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     successions = cores.successions(model.unit, model.step)
     if not successions:
         raise ConfigError("the source holds no beds to decode", file=args.source)

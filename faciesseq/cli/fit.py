@@ -8,6 +8,7 @@ import sys
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    check_grid_size,
     load_scheme_option,
     read_source,
 )
@@ -20,7 +21,7 @@ from faciesseq.cli._hmm import (
     substate_counts,
     warnings_to_stderr,
 )
-from faciesseq.errors import ConfigError
+from faciesseq.errors import ConfigError, InputError
 
 EXAMPLES = """\
 examples:
@@ -88,7 +89,9 @@ def run(args: argparse.Namespace) -> int:
 
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
+    substates = substate_counts(args, len(tract_model.order))
     cores = read_source(args, scheme).require_valid()
+    check_grid_size(cores, args.unit, args.step)
     if scheme is None:
         sys.stderr.write(
             "faciesseq fit: warning: no --scheme: without facies ranks the tract identities "
@@ -97,13 +100,21 @@ def run(args: argparse.Namespace) -> int:
     successions = cores.successions(args.unit, args.step)
     if not successions:
         raise ConfigError("the source holds no beds to fit on", file=args.source)
+    if max(len(s) for s in successions) < 2:
+        n = sum(len(s) for s in successions)
+        raise InputError(
+            f"too few beds to fit on: {n} {args.unit} in {len(successions)} succession(s) and "
+            "no upward transition; the fit needs at least one core (or part between gaps) "
+            "of 2 or more beds",
+            file=args.source,
+        )
     progress = Progress("fit", args.restarts)
     with warnings_to_stderr("fit"):
         try:
             selection = select_model(
                 successions,
                 features=feature_sets(args),
-                substates=substate_counts(args),
+                substates=substates,
                 labels=args.labels,
                 progress=progress.fit,
                 tract_model=tract_model,

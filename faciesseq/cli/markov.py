@@ -8,6 +8,9 @@ import sys
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    check_grid_size,
+    check_seed,
+    check_surrogates,
     check_unit_step,
     load_scheme_option,
     read_source,
@@ -97,8 +100,8 @@ def _check(args: argparse.Namespace) -> None:
     check_unit_step(args)
     if args.max_order < 1:
         raise ConfigError(f"--max-order must be at least 1, got {args.max_order}")
-    if args.surrogates < 0:
-        raise ConfigError(f"--surrogates must be 0 or more, got {args.surrogates}")
+    check_surrogates(args.surrogates)
+    check_seed(args.seed)
     if args.seed is not None and args.surrogates == 0:
         raise ConfigError("--seed needs --surrogates N")
     if not 0 < args.alpha < 1:
@@ -136,6 +139,7 @@ def run(args: argparse.Namespace) -> int:
         check_target(args.output, force=args.force, folder=True)
     scheme = load_scheme_option(args.scheme)
     cores = read_source(args, scheme=scheme).require_valid()
+    check_grid_size(cores, args.unit, args.step)
     seed = args.seed
     if args.surrogates and seed is None:
         seed = int(np.random.SeedSequence().entropy % 2**32)

@@ -10,6 +10,7 @@ from pathlib import Path
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    check_grid_size,
     load_scheme_option,
     read_source,
 )
@@ -155,6 +156,7 @@ def run(args: argparse.Namespace) -> int:
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
+    check_grid_size(cores, args.unit, args.step)
     progress = Progress("validate")
     with warnings_to_stderr("validate"):
         try:

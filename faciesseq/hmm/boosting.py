@@ -73,6 +73,10 @@ __all__ = ["KIND", "VERSION", "BoostedTrees", "fit_boosted"]
 KIND = "boosted_trees"
 VERSION = 1
 
+#: Sanity limits on the sizes a model file declares, checked before anything is allocated
+#: (the stacking window has a few dozen features; a tract model a handful of classes).
+MAX_FEATURES = 10_000
+MAX_CLASSES = 1_000
 _TOP_KEYS = ("kind", "version", "n_features", "n_classes", "classes", "baseline", "trees")
 _TREE_KEYS = ("feature", "threshold", "missing_left", "left", "right", "value")
 #: Number of (tree, row) pairs walked at once (measured fastest: the arrays stay in cache).
@@ -383,10 +387,15 @@ class BoostedTrees:
             raise fail(f"unknown entries {extra}")
         n_features = data["n_features"]
         n_classes = data["n_classes"]
-        if not _is_int(n_features) or n_features < 1:
-            raise fail(f"n_features must be a positive integer, got {n_features!r}")
-        if not _is_int(n_classes) or n_classes < 1:
-            raise fail(f"n_classes must be a positive integer, got {n_classes!r}")
+        if not _is_int(n_features) or not 1 <= n_features <= MAX_FEATURES:
+            raise fail(
+                f"n_features must be a positive integer (at most {MAX_FEATURES}), "
+                f"got {n_features!r}"
+            )
+        if not _is_int(n_classes) or not 1 <= n_classes <= MAX_CLASSES:
+            raise fail(
+                f"n_classes must be a positive integer (at most {MAX_CLASSES}), got {n_classes!r}"
+            )
         classes = data["classes"]
         if (
             not isinstance(classes, list)

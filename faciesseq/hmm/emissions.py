@@ -1123,6 +1123,13 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
             )
         piece.class_prior_ = prior
+        width = len(stacking_columns())
+        declared = data["trees"].get("n_features") if isinstance(data["trees"], Mapping) else None
+        if declared != width:  # checked before the trees are packed into arrays
+            raise ModelFileError(
+                f"emission {piece.name}: {declared!r} window features, expected {width}",
+                file=source,
+            )
         trees = BoostedTrees.from_dict(data["trees"], source)
         if trees.n_classes != n_tracts:
             raise ModelFileError(

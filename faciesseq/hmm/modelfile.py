@@ -7,7 +7,6 @@ and loading one runs no code. Layout (``version: 1``)::
       "format": "faciesseq-tract-model",
       "version": 1,
       "faciesseq_version": "0.1.0",
-      "created": "2026-12-01T19:30:00+00:00",
       "scheme": {...} | null,            # the facies scheme (scheme YAML as JSON)
       "tract_model": {...},              # tracts, order, skips, surfaces, substates
       "hyperparameters": {features, substates, prior_strength, cycle_prior,
@@ -18,8 +17,12 @@ and loading one runs no code. Layout (``version: 1``)::
                      "emissions": [{"kind": ..., "name": ..., ...}, ...],
                      "temperature": 1.0},   # posterior temperature (absent: 1)
       "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
-                   best_restart, seed, calibration, ...provenance given by the caller}
+                   best_restart, seed, calibration, ...provenance given by the caller},
+      "provenance": {"created": "2026-12-01T19:30:00+00:00", "command": [...]}
     }
+
+Only ``provenance`` (the entries of :data:`RUN_KEYS`) changes when a fit is
+repeated with the same data, options and seed; the rest is byte-identical.
 
 :func:`load_model` checks every shape and probability, that transitions
 outside the tract graph are zero, and rejects anything else with a
@@ -52,6 +55,10 @@ __all__ = ["FORMAT", "VERSION", "coreset_digest", "file_digest", "load_model", "
 
 FORMAT = "faciesseq-tract-model"
 VERSION = 1
+#: Provenance entries that differ from run to run (when, how it was called); they go
+#: under the last key, ``provenance``, so that everything else is byte-identical when a
+#: fit is repeated with the same data, options and seed.
+RUN_KEYS = ("created", "command", "output", "host", "user")
 
 
 def file_digest(path: str | Path) -> str:
@@ -106,13 +113,14 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         if isinstance(model.random_state, int | None)
         else "generator",
     }
-    training.update(dict(provenance or {}))
+    run = {"created": datetime.now(UTC).isoformat(timespec="seconds")}
+    for key, value in dict(provenance or {}).items():
+        (run if key in RUN_KEYS else training)[key] = value
     return _jsonable(
         {
             "format": FORMAT,
             "version": VERSION,
             "faciesseq_version": __version__,
-            "created": datetime.now(UTC).isoformat(timespec="seconds"),
             "scheme": None if model.scheme is None else model.scheme.to_dict(),
             "tract_model": model.tract_model_.to_dict(),
             "hyperparameters": {
@@ -142,6 +150,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "temperature": float(model.temperature_),
             },
             "training": training,
+            "provenance": run,
         }
     )
 
@@ -152,7 +161,8 @@ def save_model(
     """Write a fitted model to ``path`` as JSON, atomically (temporary file, then rename).
 
     ``provenance`` (e.g. input hashes, source names, command line) is added to
-    the ``training`` section.
+    the ``training`` section, except the run-specific entries of :data:`RUN_KEYS`
+    (``command``...), which go with the date under ``provenance``.
     """
     path = Path(path)
     doc = model_to_dict(model, provenance)
@@ -223,6 +233,20 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     hyper = _get(doc, "hyperparameters", dict, source)
     states_doc = _get(doc, "states", dict, source)
     params = _get(doc, "parameters", dict, source)
+    declared = states_doc.get("substates")
+    rows = params.get("transmat")
+    if (
+        not isinstance(declared, list)
+        or not all(isinstance(n, int) and not isinstance(n, bool) for n in declared)
+        or not isinstance(rows, list)
+        or sum(declared) > len(rows)
+    ):
+        # sizes are checked against the table actually present before anything is built
+        raise ModelFileError(
+            "states.substates: whole numbers expected, adding up to the number of rows of "
+            f"parameters.transmat ({len(rows) if isinstance(rows, list) else 'missing'})",
+            file=source,
+        )
     try:
         substates = dict(zip(tract_model.order, [int(n) for n in states_doc["substates"]]))
         states = StateSpace.build(tract_model, substates)
@@ -355,4 +379,13 @@ def load_model(path: str | Path) -> TractHMM:
             "written by `faciesseq fit`",
             file=source,
         ) from None
-    return model_from_dict(doc, source)
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        raise ModelFileError(f"not a valid model file ({exc})", file=source) from None
+    except RecursionError:
+        raise ModelFileError(
+            "not a valid model file (JSON nested too deeply)", file=source
+        ) from None
+    try:
+        return model_from_dict(doc, source)
+    except RecursionError:
+        raise ModelFileError("not a valid model file (nested too deeply)", file=source) from None

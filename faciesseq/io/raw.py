@@ -6,7 +6,21 @@ from dataclasses import dataclass, field
 
 import pandas as pd
 
-from faciesseq.errors import Problem
+from faciesseq.errors import InputError, Problem
+
+#: Most columns a table may have: every column is carried along as a bed attribute,
+#: and tables from a core description have tens, not thousands.
+MAX_COLUMNS = 2_000
+
+
+def check_width(n_columns: int, file: str) -> None:
+    """Refuse a table of more than :data:`MAX_COLUMNS` columns before working on it."""
+    if n_columns > MAX_COLUMNS:
+        raise InputError(
+            f"{n_columns:,} columns (at most {MAX_COLUMNS:,}); keep the columns of the cores "
+            "(core, depths, facies and the attributes you need) and read that copy",
+            file=file,
+        )
 
 
 @dataclass

@@ -70,9 +70,16 @@ def _engine(source: str):
     if is_url(source):
         try:
             url = make_url(source)
-        except ArgumentError:
-            raise ConfigError("not a valid database URL") from None
-        label = url.render_as_string(hide_password=True)
+            label = url.render_as_string(hide_password=True)
+            url.get_backend_name()
+            _ = url.port  # parsed lazily by some SQLAlchemy versions
+        except (ArgumentError, ValueError, TypeError) as exc:
+            detail = _scrub(str(exc), None) if not isinstance(exc, ArgumentError) else ""
+            raise ConfigError(
+                "not a valid database URL (expected e.g. postgresql://user@host:5432/name"
+                + (f"; {detail}" if detail else "")
+                + ")"
+            ) from None
         secret = url.password
         connect_args: dict = {}
         backend = url.get_backend_name()
@@ -152,9 +159,15 @@ def read_sql(source: str, table: str | None = None, query: str | None = None) ->
                 name = table
                 quoted = conn.dialect.identifier_preparer.quote(table)
                 frame = pd.read_sql_query(text(f"SELECT * FROM {quoted}"), conn)
-    except SQLAlchemyError as exc:
-        detail = getattr(exc, "orig", None) or exc
-        raise InputError(f"database error: {_scrub(str(detail), secret)}", file=label) from None
+    except (SQLAlchemyError, pd.errors.DatabaseError) as exc:
+        detail: BaseException = exc
+        for _ in range(5):  # pandas wraps SQLAlchemy, which wraps the driver's error
+            inner = getattr(detail, "orig", None) or detail.__cause__
+            if inner is None:
+                break
+            detail = inner
+        what = "--query failed" if query else "database error"
+        raise InputError(f"{what}: {_scrub(str(detail), secret)}", file=label) from None
     finally:
         engine.dispose()
     frame.columns = [str(c) for c in frame.columns]

@@ -181,30 +181,48 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
         beds = pd.DataFrame(columns=["facies", "thickness"])
         interval_facies = pd.Series([], dtype=object)
         interval_thick = pd.Series([], dtype=float)
-    codes = cores.facies_codes()
+    codes = list(cores.facies_codes())
     if scheme is not None:
-        order = [c for c in scheme.codes if c in codes]
-        codes = order + [c for c in codes if c not in order]
+        present = set(codes)
+        order = [c for c in scheme.codes if c in present]
+        listed = set(order)
+        codes = order + [c for c in codes if c not in listed]
     total_thickness = float(interval_thick.sum())
     total_beds = len(beds)
+    # one pass per table, grouped by facies (linear in the number of facies codes)
+    bed_stats = (
+        pd.to_numeric(beds["thickness"], errors="coerce")
+        .astype(float)
+        .groupby(beds["facies"].to_numpy(), sort=False)
+        .agg(["count", "mean", "median", "min", "max", "std"])
+    )
+    interval_stats = (
+        interval_thick.astype(float)
+        .groupby(interval_facies.to_numpy(), sort=False)
+        .agg(["count", "sum"])
+    )
+    bed_rows = bed_stats.to_dict(orient="index")
+    interval_rows = interval_stats.to_dict(orient="index")
     facies_rows = []
     for code in codes:
-        thick = beds.loc[beds["facies"] == code, "thickness"].to_numpy(dtype=float)
-        described = float(interval_thick[interval_facies == code].sum())
+        b = bed_rows.get(code, {})
+        n_beds = int(b.get("count", 0))
+        iv = interval_rows.get(code, {})
+        described = float(iv.get("sum", 0.0))
         facies_rows.append(
             {
                 "facies": code,
                 "name": scheme[code].name if scheme is not None and code in scheme else None,
-                "intervals": int((interval_facies == code).sum()),
-                "beds": len(thick),
+                "intervals": int(iv.get("count", 0)),
+                "beds": n_beds,
                 "thickness": described,
                 "proportion_thickness": described / total_thickness if total_thickness else np.nan,
-                "proportion_beds": len(thick) / total_beds if total_beds else np.nan,
-                "bed_thickness_mean": float(thick.mean()) if len(thick) else np.nan,
-                "bed_thickness_median": float(np.median(thick)) if len(thick) else np.nan,
-                "bed_thickness_min": float(thick.min()) if len(thick) else np.nan,
-                "bed_thickness_max": float(thick.max()) if len(thick) else np.nan,
-                "bed_thickness_std": float(thick.std(ddof=1)) if len(thick) > 1 else np.nan,
+                "proportion_beds": n_beds / total_beds if total_beds else np.nan,
+                "bed_thickness_mean": float(b["mean"]) if n_beds else np.nan,
+                "bed_thickness_median": float(b["median"]) if n_beds else np.nan,
+                "bed_thickness_min": float(b["min"]) if n_beds else np.nan,
+                "bed_thickness_max": float(b["max"]) if n_beds else np.nan,
+                "bed_thickness_std": float(b["std"]) if n_beds > 1 else np.nan,
             }
         )
     return DatabaseSummary(

@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem
-from faciesseq.io.raw import RawTable
+from faciesseq.io.raw import RawTable, check_width
 
 __all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
 
@@ -72,6 +72,27 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
     from charset_normalizer import from_bytes
 
     matches = list(from_bytes(data))
+    western = _western(data)
+    if western is not None:
+        # Detection guesses from the non-ASCII bytes; on a short file it is unsure, and
+        # a Western reading where every such character is a letter is the likely one.
+        detected = str(matches[0]) if matches else None
+        n_bytes = sum(b >= 0x80 for b in data)
+        if detected == western or detected is None or n_bytes < _SURE_BYTES:
+            also = (
+                f"; detection suggested {matches[0].encoding}, which reads it differently"
+                if detected is not None and detected != western
+                else ""
+            )
+            note = Problem(
+                "warning",
+                "encoding",
+                f"file is not UTF-8 (byte {first_bad}); read as cp1252 (Western European, "
+                f"latin-1){also}; check accented names, or save it as UTF-8, or give "
+                "'encoding' in a YAML source file",
+                file=file,
+            )
+            return western, [note]
     if not matches:
         raise InputError(
             f"not UTF-8 (byte {first_bad}) and its encoding could not be detected; "
@@ -111,6 +132,23 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
     return text, [note]
 
 
+#: Fewer non-ASCII bytes than this and encoding detection is unsure: cp1252 is
+#: preferred when it reads every one of them as a letter or a common sign.
+_SURE_BYTES = 200
+_WESTERN_SIGNS = set("°±µ²³·½¼¾§€–—‘’“”«»¿¡×÷©®™• ")
+
+
+def _western(data: bytes) -> str | None:
+    """The cp1252 reading of ``data`` when it is plausible (non-ASCII: letters, common signs)."""
+    try:
+        text = data.decode("cp1252")
+    except UnicodeDecodeError:
+        return None
+    if all(c.isalpha() or c in _WESTERN_SIGNS for c in text if ord(c) >= 0x80):
+        return text
+    return None
+
+
 def _sniff(text: str, suffix: str) -> str:
     if suffix in (".tsv", ".tab"):
         return "\t"
@@ -145,6 +183,7 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
         )
     except (pd.errors.ParserError, ValueError) as exc:
         raise InputError(f"not a readable delimited table: {exc}", file=file) from None
+    check_width(frame.shape[1], file)
     frame.columns = [str(c).strip() for c in frame.columns]
     frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
     frame = frame.replace("", np.nan)
@@ -217,6 +256,7 @@ def read_excel(path: Path, sheet: str | None = None) -> RawTable:
     while width and header[width - 1] == "":
         width -= 1
     header = header[:width]
+    check_width(width, file)
     body = [(r + [None] * width)[:width] for r in cells[1:]]
     frame = pd.DataFrame(body, columns=header, dtype=object)
     frame = frame.map(lambda v: np.nan if (isinstance(v, str) and not v.strip()) else v)
@@ -234,5 +274,6 @@ def read_parquet(path: Path) -> RawTable:
         frame = pd.read_parquet(path)
     except Exception as exc:  # pyarrow raises several types for a bad file
         raise InputError(f"not a readable Parquet file ({type(exc).__name__})", file=file) from None
+    check_width(frame.shape[1], file)
     frame.columns = [str(c) for c in frame.columns]
     return RawTable(frame.reset_index(drop=True).astype(object), file)

@@ -35,7 +35,7 @@ import pandas as pd
 from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
-from faciesseq.io.raw import RawTable
+from faciesseq.io.raw import RawTable, check_width
 from faciesseq.scheme import FaciesScheme, _code
 
 __all__ = ["GAP_FACTOR", "OVERLAP_TOLERANCE_M", "build_coreset", "facies_code"]
@@ -117,6 +117,16 @@ def _codes(values: pd.Series) -> list[str | None]:
     return out
 
 
+#: Control characters (NUL and the like) that have no place in a code or a name.
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+
+
+def _shown(value: object) -> str:
+    """A cell value as a message shows it: stripped, quoted, at most 40 characters."""
+    text = str(value).strip()
+    return repr(text if len(text) <= 40 else text[:37] + "...")
+
+
 def _is_blank(value: object) -> bool:
     if value is None:
         return True
@@ -179,6 +189,7 @@ def _prepare(
     table: RawTable, layout: str | None, columns: Mapping[str, str], scheme: FaciesScheme | None
 ) -> _Rows:
     """Apply column roles and per-row checks (depth numbers, facies codes, attributes)."""
+    check_width(table.frame.shape[1], table.file)
     explicit = dict(table.roles)
     explicit.update(columns)
     match = match_columns(table.frame.columns, explicit, file=table.file)
@@ -227,7 +238,8 @@ def _prepare(
         raw = src[match.roles[role]]
         numbers = pd.to_numeric(raw.where(~raw.map(_is_blank), None), errors="coerce").astype(float)
         nulls = numbers.isin(NULL_NUMBERS).to_numpy()
-        numbers[nulls] = np.nan
+        infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
+        numbers[nulls | infinite] = np.nan
         for i in np.nonzero(numbers.isna().to_numpy())[0]:
             bad[i] = True
             value = raw.iloc[i]
@@ -235,6 +247,9 @@ def _prepare(
                 kind, message = "missing-depth", f"{role} holds the null value {value}"
             elif _is_blank(value):
                 kind, message = "missing-depth", f"no {role} depth"
+            elif infinite[i]:
+                kind = "bad-depth"
+                message = f"{role} {_shown(value)} is not a finite number (too large)"
             else:
                 kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
             problems.append(
@@ -255,6 +270,21 @@ def _prepare(
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
     for i, code in enumerate(codes):
+        if code is not None and _CONTROL.search(code):
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error",
+                    "bad-facies",
+                    f"facies code {code!r} holds a control character (e.g. a NUL byte); "
+                    "the file may be damaged or of another encoding",
+                    file=table.file,
+                    row=int(rows[i]),
+                    core=out["core"].iloc[i],
+                    depth=_depth(first_depth[i]),
+                )
+            )
+            continue
         if code is None:
             if layout == "samples":
                 not_described.setdefault(out["core"].iloc[i], []).append(i)
@@ -326,10 +356,17 @@ def _prepare(
     unused = [
         match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
     ]
+    extra: dict[str, pd.Series] = {}
     for col in list(match.others) + unused:
         name = col if col not in _RESERVED else f"source_{col}"
-        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+        values = _numbers_where_all(src[col].reset_index(drop=True))
+        if name in out.columns:
+            out[name] = values
+        else:
+            extra[name] = values
         attributes.append(name)
+    if extra:  # joined at once: a column at a time is quadratic in wide tables
+        out = pd.concat([out, pd.DataFrame(extra, index=out.index)], axis=1)
     row_units = None
     if "units" in match.roles:
         values = src[match.roles["units"]]

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+import hashlib
 import os
 import shutil
 import tempfile
-from collections.abc import Mapping
+from collections.abc import Collection, Mapping
 from pathlib import Path
 
 import pandas as pd
@@ -133,8 +134,11 @@ def write_cores(
             )
         tmpdir = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=parent))
         try:
+            used: set[str] = set()
             for core in cores:
-                name = path.name if not as_folder else f"{_safe(core.name)}.las"
+                stem = _safe(core.name, used)
+                used.add(stem)
+                name = path.name if not as_folder else f"{stem}.las"
                 write_las(core, tmpdir / name, step if step is not None else steps.get(core.name))
             if as_folder:
                 _replace_dir(tmpdir, path)
@@ -157,8 +161,29 @@ def write_cores(
     return path
 
 
-def _safe(name: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "core"
+#: Longest file name stem kept whole, in UTF-8 bytes (file systems allow 255 per name).
+MAX_STEM = 100
+
+
+def safe_stem(name: str, used: Collection[str] = ()) -> str:
+    """A safe file name stem for ``name`` (a core name, say).
+
+    Letters, digits, ``-``, ``_`` and ``.`` are kept, anything else becomes
+    ``_``, leading dots are dropped; a stem longer than :data:`MAX_STEM` bytes,
+    or one already in ``used``, is shortened and given a hash of the full name.
+    """
+    safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in name).lstrip(".") or "_"
+    if len(safe.encode("utf-8")) > MAX_STEM or safe in used:
+        digest = hashlib.sha256(name.encode("utf-8", "surrogatepass")).hexdigest()[:12]
+        head = safe
+        while len(head.encode("utf-8")) > MAX_STEM - 13:
+            head = head[:-1]
+        safe = f"{head}-{digest}"
+    return safe
+
+
+def _safe(name: str, used: Collection[str] = ()) -> str:
+    return safe_stem(name, used) if name else "core"
 
 
 def _replace_dir(new: Path, target: Path) -> None:

@@ -114,6 +114,10 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
         kind = getattr(piece, "kind", "")
         name = piece.name
         key = "model_emission_" + "".join(c if c.isalnum() else "_" for c in name.lower())
+        if len(key.encode("utf-8")) > 100:  # a long column name; keys name files
+            from faciesseq.io.writer import safe_stem
+
+            key = safe_stem(key, {key})
         if kind in ("categorical", "facies", "contact") or (
             hasattr(piece, "emissionprob_") and not hasattr(piece, "trendprob_")
         ):
@@ -282,7 +286,7 @@ def model_section(
     from faciesseq.hmm.modelfile import model_to_dict
 
     doc = model_to_dict(model)
-    doc.pop("created", None)  # the date belongs in provenance.json, not with the numbers
+    doc.pop("provenance", None)  # the date belongs in provenance.json, not with the numbers
     numbers["model"] = doc
     if note:
         s.add(Paragraph(note, kind="note"))
