@@ -203,7 +203,7 @@ def test_fit_refuses_sizes_and_numbers_out_of_range(database, tmp_path, capsys, 
 )
 def test_markov_refuses_sizes_out_of_range(database, tmp_path, capsys, extra, needles):
     out = tmp_path / "out"
-    assert main(["markov", str(database / "cores.csv"), "--out", str(out), *extra]) == 2
+    assert main(["markov", str(database / "cores.csv"), "-o", str(out), *extra]) == 2
     one_line(capsys, *needles)
     assert list(tmp_path.iterdir()) == []
 

@@ -109,6 +109,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         "best_restart": model.best_restart_,
         "restarts": model.restarts_,
         "calibration": model.calibration_,
+        "graph_selection": getattr(model, "graph_selection_", []),
         "random_state": model.random_state
         if isinstance(model.random_state, int | None)
         else "generator",
@@ -346,6 +347,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.n_labelled_ = int(training.get("n_labelled", 0) or 0)
     model.cores_ = tuple(training.get("cores", ()))
     model.restarts_ = list(training.get("restarts", []))
+    model.graph_selection_ = list(training.get("graph_selection", []))
     model.best_restart_ = int(training.get("best_restart", 0) or 0)
     history = []
     if model.restarts_ and model.best_restart_ < len(model.restarts_):
