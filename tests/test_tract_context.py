@@ -9,6 +9,7 @@ designed on other seeds (tuning seeds 11-15; here 31-34).
 
 from __future__ import annotations
 
+import itertools
 import warnings
 from pathlib import Path
 
@@ -119,7 +120,7 @@ def test_decoded_columns_follow_the_graph_and_picks_follow_the_column(fitted):
     idx = {c: i for i, c in enumerate(tm.order)}
     for core in interp:
         up = core.beds["tract"].to_numpy()[::-1]  # base to top
-        changes = [(a, b) for a, b in zip(up[:-1], up[1:]) if a != b]
+        changes = [(a, b) for a, b in itertools.pairwise(up) if a != b]
         assert all(allowed[idx[a], idx[b]] for a, b in changes)
         # one pick per tract boundary, named by the surface on it
         assert len(core.picks) == len(changes)
@@ -134,7 +135,7 @@ def test_unlabelled_recovery_beats_the_bed_level_model_on_held_out_cores(fitted)
     # measured on these seeds (2026-12-02): balanced accuracy 0.56 (context) against
     # 0.21 (bed-level pieces, permissive graph); 153 decoded tract boundaries against
     # 602, for 72 true ones
-    model, interp, train, test = fitted
+    _, interp, train, test = fitted
     beds = _beds(interp)
     context = balanced_tract_accuracy(beds).balanced_accuracy
     with warnings.catch_warnings():
