@@ -27,7 +27,14 @@ import numpy as np
 __all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "find_cycles"]
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
-CONTEXT_FEATURES = ("cycle_stacking", "base_shift", "trend", "position", "cycle_sharpness")
+CONTEXT_FEATURES = (
+    "cycle_stacking",
+    "base_shift",
+    "trend",
+    "position",
+    "cycle_sharpness",
+    "local_position",
+)
 
 #: Words of a contact type that mark it as sharp (abrupt or erosional; common
 #: practice of core description).
@@ -233,6 +240,7 @@ def bed_context(
     with np.errstate(invalid="ignore", divide="ignore"):
         position = np.where(span > 0, (smooth - low) / span, np.nan)
     c = cycles.bed_cycle
+    local_position = _cycle_window_position(r, c, cycles)
     sharpness = np.full(len(c), np.nan)
     if sharp is not None and len(c):
         known = np.isfinite(sharp)
@@ -242,11 +250,23 @@ def bed_context(
             sharpness = np.where(seen > 0, hits / np.maximum(seen, 1), np.nan)[c]
     return {
         "cycle_sharpness": sharpness,
+        "local_position": local_position,
         "cycle_stacking": stacking[c] if len(c) else np.zeros(0),
         "base_shift": shift[c] if len(c) else np.zeros(0),
         "trend": _slope(r, lengths, trend_half_width),
         "position": position,
     }
+
+
+def _cycle_window_position(ranks: np.ndarray, bed_cycle: np.ndarray, cycles: Cycles) -> np.ndarray:
+    """Where each bed's rank lies between the shallowest and deepest rank of its own
+    cycle and the cycles next to it (0 = shallowest, 1 = deepest)."""
+    if len(ranks) == 0:
+        return np.zeros(0)
+    lo = _window(cycles.top_rank, cycles.lengths, 1, "min")[bed_cycle]
+    hi = _window(cycles.base_rank, cycles.lengths, 1, "max")[bed_cycle]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(hi > lo, (ranks - lo) / (hi - lo), np.nan)
 
 
 def _running_mean(values: np.ndarray, lengths: np.ndarray, half: int) -> np.ndarray:

@@ -32,6 +32,9 @@ from faciesseq.hmm.emissions import MISSING, CategoricalEmission, EncodedBeds
 
 __all__ = ["CONTEXT_BINS", "ContextEmission", "context_pseudo_counts", "tract_levels"]
 
+#: Smallest pseudo-count of a context bin (also with ``prior_strength=0``).
+MIN_PSEUDO = 1e-6
+
 #: Bin edges of every context feature (values: ranks per bed, ranks, 0..1).
 CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
     "cycle_stacking": (-1.25, -0.25, 0.25, 1.25),
@@ -39,6 +42,7 @@ CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
     "trend": (-0.3, -0.08, 0.08, 0.3),
     "position": (0.25, 0.5, 0.75),
     "cycle_sharpness": (0.2, 0.5),
+    "local_position": (0.25, 0.5, 0.75),
 }
 
 
@@ -83,7 +87,7 @@ def context_pseudo_counts(
     for s, (trend, level) in enumerate(zip(trends, levels, strict=True)):
         if feature == "cycle_sharpness":
             out[s] += 0.5 * strength  # no reading of the trade to pin: learnt from the data
-        elif feature == "position":
+        elif feature in ("position", "local_position"):
             if level is None:
                 out[s] += 0.5 * strength
             else:
@@ -93,7 +97,9 @@ def context_pseudo_counts(
             if trend == "shallowing":
                 target = -0.3 * scale
             out[s] += strength * np.exp(-0.5 * ((centres - target) / (0.5 * scale)) ** 2)
-    return out
+    # never an exact zero, even without a prior: under the strict tract graph a
+    # zero emission can leave a core with no allowed path at all
+    return np.maximum(out, MIN_PSEUDO)
 
 
 class ContextEmission(CategoricalEmission):

@@ -939,7 +939,9 @@ def rank_step_pseudo_counts(
         else:
             raise ConfigError(f"unknown tract trend {trend!r}")
         out[s] = base + strength * np.where(jumps == 0, 0.5, favour)
-    return out
+    # never an exact zero: under a strict tract graph a zero emission can leave a
+    # core with no allowed path (also with prior_strength=0)
+    return np.maximum(out, 1e-6)
 
 
 class RankTrendEmission(CategoricalEmission):
