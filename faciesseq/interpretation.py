@@ -106,6 +106,21 @@ class Interpretation:
     def __getitem__(self, core: str) -> CoreInterpretation:
         return self.cores[core]
 
+    @property
+    def probabilities_checked(self) -> bool:
+        """Whether the model's probabilities were checked against known tracts
+        (``meta["probabilities_checked"]``, set by ``TractHMM.decode``; false
+        where no model said so)."""
+        return bool(self.meta.get("probabilities_checked", False))
+
+    @property
+    def probabilities_note(self) -> str:
+        """One line on whether and how the probabilities were checked."""
+        note = self.meta.get("probabilities_note") or (
+            "Tract and surface probabilities were not checked against known tracts."
+        )
+        return " ".join(str(note).split())  # one line, whatever the model file held
+
     def __iter__(self):
         return iter(self.cores.values())
 
