@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-__all__ = ["CoreInterpretation", "Interpretation"]
+__all__ = ["CoreInterpretation", "Interpretation", "core_summary"]
 
 
 @dataclass(frozen=True)
@@ -94,6 +94,76 @@ class CoreInterpretation:
         return out
 
 
+def _base_to_top(beds: pd.DataFrame) -> tuple[pd.DataFrame, np.ndarray]:
+    """Beds of one core base to top, and the number of beds of each segment in that order."""
+    upward = beds.iloc[::-1]
+    if "segment" not in upward.columns or not len(upward):
+        return upward, np.array([len(upward)], dtype=np.int64)
+    seg = upward["segment"].to_numpy()
+    starts = np.flatnonzero(np.r_[True, seg[1:] != seg[:-1]])
+    return upward, np.diff(np.r_[starts, len(seg)]).astype(np.int64)
+
+
+def _thickness(beds: pd.DataFrame) -> np.ndarray:
+    if "thickness" in beds.columns:
+        return pd.to_numeric(beds["thickness"], errors="coerce").to_numpy(float)
+    return (beds["base"] - beds["top"]).to_numpy(float)
+
+
+def _cycle_count(beds: pd.DataFrame, ranks: Mapping[str, float]) -> int:
+    """Parasequence-scale cycles of one core (:func:`faciesseq.cycles.find_cycles`)."""
+    from faciesseq.cycles import find_cycles
+
+    upward, lengths = _base_to_top(beds)
+    r = np.array([ranks.get(str(f), np.nan) for f in upward["facies"]], dtype=float)
+    return find_cycles(r, lengths, _thickness(upward)).n_cycles
+
+
+def _mean_decoded_probability(beds: pd.DataFrame, tracts: tuple[str, ...]) -> float:
+    """Mean over beds of the posterior probability of each bed's decoded tract."""
+    if not len(beds):
+        return float("nan")
+    p = beds[[f"p_{t}" for t in tracts]].to_numpy(float)
+    which = pd.Index(tracts).get_indexer(beds["tract"].astype(str))
+    return float(np.mean(p[np.arange(len(beds)), which]))
+
+
+def core_summary(
+    core: CoreInterpretation, ranks: Mapping[str, float] | None = None
+) -> dict[str, object]:
+    """One well in a line: thickness per tract, cycles, picks, mean probability.
+
+    Parameters
+    ----------
+    core
+        A decoded core.
+    ranks
+        Proximality rank of each facies code (the scheme's); without it the
+        number of cycles is left out.
+
+    Returns
+    -------
+    dict
+        ``core``, ``units``, ``thickness`` (tract -> summed thickness of its
+        beds, in the core's units), ``cycles`` (parasequence-scale cycles cut
+        at flooding surfaces, Van Wagoner et al. 1990; only with ``ranks``),
+        ``picks`` (surface picks) and ``mean_probability`` (mean over beds of
+        the probability of the decoded tract).
+    """
+    beds = core.beds
+    totals = pd.Series(_thickness(beds), index=beds["tract"].astype(str)).groupby(level=0).sum()
+    out: dict[str, object] = {
+        "core": core.core,
+        "units": core.units,
+        "thickness": {t: float(totals.get(t, 0.0)) for t in core.tracts},
+    }
+    if ranks is not None:
+        out["cycles"] = _cycle_count(beds, ranks)
+    out["picks"] = len(core.picks)
+    out["mean_probability"] = _mean_decoded_probability(beds, core.tracts)
+    return out
+
+
 @dataclass(frozen=True)
 class Interpretation:
     """Interpretations of several cores, and the tables ``decode`` writes."""
@@ -105,6 +175,21 @@ class Interpretation:
 
     def __getitem__(self, core: str) -> CoreInterpretation:
         return self.cores[core]
+
+    @property
+    def probabilities_checked(self) -> bool:
+        """Whether the model's probabilities were checked against known tracts
+        (``meta["probabilities_checked"]``, set by ``TractHMM.decode``; false
+        where no model said so)."""
+        return bool(self.meta.get("probabilities_checked", False))
+
+    @property
+    def probabilities_note(self) -> str:
+        """One line on whether and how the probabilities were checked."""
+        note = self.meta.get("probabilities_note") or (
+            "Tract and surface probabilities were not checked against known tracts."
+        )
+        return " ".join(str(note).split())  # one line, whatever the model file held
 
     def __iter__(self):
         return iter(self.cores.values())

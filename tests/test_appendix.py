@@ -18,6 +18,7 @@ from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
 from faciesseq.errors import ConfigError
 from faciesseq.markov import analyse
 from faciesseq.report.appendix import build_appendix, jsonable, write_appendix
+from faciesseq.report.document import format_probability
 from faciesseq.report.latex import latex_escape
 from faciesseq.report.provenance import mask_url, provenance
 from faciesseq.scheme import default_tract_model, load_scheme
@@ -91,9 +92,11 @@ def test_every_table_in_the_html_equals_its_csv(written):
         assert html["header"] == rows[0], table.key
         assert len(html["rows"]) == len(rows) - 1, table.key
         for shown_row, csv_row in zip(html["rows"], rows[1:], strict=True):
-            for cell, value in zip(shown_row, csv_row, strict=True):
+            for name, cell, value in zip(rows[0], shown_row, csv_row, strict=True):
                 number = _number(value)
-                if value in ("True", "False"):
+                if name in table.probabilities:  # decoded probabilities: 2 decimals, bounded
+                    assert cell == format_probability(float(value)), (table.key, cell, value)
+                elif value in ("True", "False"):
                     assert cell == {"True": "yes", "False": "no"}[value]
                 elif number is not None and value != "":
                     got = _number(cell)

@@ -44,7 +44,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     assert rc == 0
     out = capsys.readouterr().out
     assert "agreement with the interpreter's 'tract' column" in out
-    tracts = pd.read_csv(tmp_path / "out" / "tracts.csv")
+    tracts = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)  # the '# ' line
     assert tracts.columns.tolist() == [
         "core",
         "top",
@@ -57,7 +57,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
         "p_TST",
     ]
     assert len(tracts) == 8 * 60
-    surfaces = pd.read_csv(tmp_path / "out" / "surfaces.csv")
+    surfaces = pd.read_csv(tmp_path / "out" / "surfaces.csv", skiprows=1)
     assert surfaces.columns.tolist() == ["core", "depth", "surface", "probability", "picked"]
     assert surfaces["picked"].any()
     agreement = pd.read_csv(tmp_path / "out" / "agreement.csv")
@@ -73,7 +73,7 @@ def test_decode_json_and_parquet(database, tmp_path, capsys):
         out = tmp_path / fmt
         assert main(["decode", str(model), csv, "-o", str(out), "--format", fmt]) == 0
         frame = (
-            pd.read_json(out / "tracts.json")
+            pd.DataFrame(json.loads((out / "tracts.json").read_text())["records"])
             if fmt == "json"
             else pd.read_parquet(out / "tracts.parquet")
         )

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import json
 from collections.abc import Collection
 from pathlib import Path
 
@@ -18,12 +19,15 @@ from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.errors import ConfigError
 
 FORMATS = ("csv", "json", "parquet")
+SUMMARIES = ("text", "json")
+#: Schema metadata key of a Parquet table holding the ``probabilities`` record.
+PARQUET_KEY = b"faciesseq.probabilities"
 
 EXAMPLES = """\
 examples:
   faciesseq decode model.json cores.csv -o decoded
   faciesseq decode model.json new-cores.csv --scheme my-scheme.yaml --plot -o decoded --force
-  faciesseq decode model.json cores.csv --format parquet --threshold 0.6 -o decoded
+  faciesseq decode model.json cores.csv --format parquet --summary json -o decoded
 """
 
 
@@ -35,9 +39,14 @@ def register(subparsers) -> None:
         "the most likely tract of every bed (Viterbi), the posterior probability of each "
         "tract per bed, the probability of each named surface at every contact and the "
         "picked surfaces. Writes OUT/tracts.*, OUT/surfaces.* and OUT/picks.*; with --plot "
-        "one strip-log figure per core. An interpreter's tract column in SOURCE is not used "
-        "to decode; where present, the agreement with it is reported. An existing OUT is "
-        "replaced as a whole with --force.",
+        "one strip-log figure per core. Each of the three tables says whether its "
+        "probabilities were checked against known tracts (a first '# ' line in CSV, a "
+        "'probabilities' key in JSON, file metadata in Parquet). Prints one line per well "
+        "(at most 30): thickness per tract, cycles, surface picks and the mean probability "
+        "of the decoded tract; --summary json prints every well as one JSON document "
+        "instead (--format chooses the files' format, not the printed summary's). An "
+        "interpreter's tract column in SOURCE is not used to decode; where present, the "
+        "agreement with it is reported. An existing OUT is replaced as a whole with --force.",
         epilog=EXAMPLES,
     )
     parser.add_argument("model", metavar="MODEL", help="model file written by `faciesseq fit`")
@@ -46,11 +55,10 @@ def register(subparsers) -> None:
     parser.add_argument("--format", choices=FORMATS, default="csv", help="table format")
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
     parser.add_argument(
-        "--threshold",
-        type=float,
-        default=0.5,
-        metavar="P",
-        help="pick a surface where its probability mass around a peak reaches P",
+        "--summary",
+        choices=SUMMARIES,
+        default="text",
+        help="printed summary of the wells: text lines, or one JSON document on stdout",
     )
     parser.add_argument(
         "--labels",
@@ -61,13 +69,44 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _write_table(frame, path: Path, fmt: str) -> None:
-    if fmt == "csv":
-        frame.to_csv(path, index=False, float_format="%.6g")
-    elif fmt == "json":
-        path.write_text(frame.to_json(orient="records", indent=1, double_precision=8) + "\n")
-    else:
-        frame.to_parquet(path, index=False)
+def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
+    with path.open("w", encoding="utf-8", newline="") as handle:
+        if probabilities is not None:
+            handle.write(f"# {probabilities['note']}\n")
+        frame.to_csv(handle, index=False, float_format="%.6g")
+
+
+def _write_json(frame, path: Path, probabilities: dict | None) -> None:
+    records = frame.to_json(orient="records", indent=1, double_precision=8)
+    if probabilities is None:
+        path.write_text(records + "\n")
+        return
+    doc = {"probabilities": probabilities, "records": json.loads(records)}
+    path.write_text(json.dumps(doc, indent=1) + "\n")
+
+
+def _write_parquet(frame, path: Path, probabilities: dict | None) -> None:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    if probabilities is not None:
+        meta = dict(table.schema.metadata or {})
+        meta[PARQUET_KEY] = json.dumps(probabilities).encode("utf-8")
+        table = table.replace_schema_metadata(meta)
+    pq.write_table(table, path)
+
+
+def _write_table(frame, path: Path, fmt: str, probabilities: dict | None = None) -> None:
+    """Write one table; ``probabilities`` (``checked``, ``note``) goes in a first ``# ``
+    line (CSV), a top-level key beside ``records`` (JSON) or file metadata (Parquet)."""
+    writer = {"csv": _write_csv, "json": _write_json}.get(fmt, _write_parquet)
+    writer(frame, path, probabilities)
+
+
+def probability_record(interp) -> dict:
+    """``{"checked": bool, "note": str}`` of an interpretation, as the tables carry it."""
+    return {"checked": interp.probabilities_checked, "note": interp.probabilities_note}
 
 
 def _agreement(interp, column: str):
@@ -109,27 +148,36 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
     """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
     from faciesseq._output import new_folder
 
+    record = probability_record(interp)
     with new_folder(out) as temp:
-        _write_table(interp.tracts_table(), temp / f"tracts.{fmt}", fmt)
-        _write_table(interp.surfaces_table(), temp / f"surfaces.{fmt}", fmt)
-        _write_table(interp.picks_table(), temp / f"picks.{fmt}", fmt)
+        _write_table(interp.tracts_table(), temp / f"tracts.{fmt}", fmt, record)
+        _write_table(interp.surfaces_table(), temp / f"surfaces.{fmt}", fmt, record)
+        _write_table(interp.picks_table(), temp / f"picks.{fmt}", fmt, record)
         if agreement is not None:
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
         if plot:
-            from faciesseq.report.striplog import strip_log
-
-            figures = temp / "striplogs"
-            figures.mkdir()
-            used: set[str] = set()
-            for core in interp:
-                name = figure_name(core.core, used)
-                used.add(name)
-                strip_log(core, scheme, tract_model, figures / f"{name}.png")
+            _write_strip_logs(interp, temp / "striplogs", scheme, tract_model)
 
 
-def run(args: argparse.Namespace) -> int:
-    if not 0 < args.threshold <= 1:
-        raise ConfigError(f"--threshold must be in (0, 1], got {args.threshold}")
+def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
+    from faciesseq.report.striplog import strip_log
+
+    figures.mkdir()
+    used: set[str] = set()
+    for core in interp:
+        name = figure_name(core.core, used)
+        used.add(name)
+        strip_log(
+            core,
+            scheme,
+            tract_model,
+            figures / f"{name}.png",
+            checked=interp.probabilities_checked,
+        )
+
+
+def _decode(args: argparse.Namespace):
+    """Read the model and the cores, decode them; ``(model, scheme, interpretation)``."""
     from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
@@ -144,23 +192,58 @@ def run(args: argparse.Namespace) -> int:
     if not successions:
         raise ConfigError("the source holds no beds to decode", file=args.source)
     with warnings_to_stderr("decode"):
-        interp = model.decode(successions, threshold=args.threshold)
-    agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
-    write_output(
-        interp, Path(args.output), args.format, agreement, args.plot, scheme, model.tract_model_
-    )
+        interp = model.decode(successions)
+    return model, scheme, interp
+
+
+def _overall_agreement(agreement) -> float | None:
+    if agreement is None:
+        return None
+    w = agreement["beds"]
+    return float((agreement["agreement_beds"] * w).sum() / w.sum())
+
+
+def _print_text(args, model, scheme, interp, agreement) -> None:
+    from faciesseq.cli._summary import print_summary
+
     n_beds = sum(len(c.beds) for c in interp)
     n_picks = sum(len(c.picks) for c in interp)
     print(
         f"decoded {len(interp)} core(s), {n_beds} {model.unit}; {n_picks} surface pick(s); "
         f"log-likelihood {sum(c.log_likelihood for c in interp):.3f}"
     )
+    print_summary(interp, scheme, "see the output files")
     if agreement is not None:
-        w = agreement["beds"]
-        overall = float((agreement["agreement_beds"] * w).sum() / w.sum())
         print(
-            f"agreement with the interpreter's {args.labels!r} column: {100 * overall:.1f} % of "
-            f"{int(w.sum())} labelled beds in {len(agreement)} core(s)"
+            f"agreement with the interpreter's {args.labels!r} column: "
+            f"{100 * _overall_agreement(agreement):.1f} % of {int(agreement['beds'].sum())} "
+            f"labelled beds in {len(agreement)} core(s)"
         )
     print(f"written to {args.output}/ (tracts, surfaces, picks as {args.format})")
+
+
+def _print_json(args, scheme, interp, agreement) -> None:
+    from faciesseq.cli._summary import print_json, summary_document
+
+    doc = summary_document(
+        interp,
+        scheme,
+        "decode",
+        output=str(args.output),
+        format=args.format,
+        agreement=_overall_agreement(agreement),
+    )
+    print_json(doc)
+
+
+def run(args: argparse.Namespace) -> int:
+    model, scheme, interp = _decode(args)
+    agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
+    write_output(
+        interp, Path(args.output), args.format, agreement, args.plot, scheme, model.tract_model_
+    )
+    if args.summary == "json":
+        _print_json(args, scheme, interp, agreement)
+    else:
+        _print_text(args, model, scheme, interp, agreement)
     return 0

@@ -28,6 +28,7 @@ examples:
   faciesseq fit cores.csv --scheme my-scheme.yaml --labels tract -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
+  faciesseq fit cores.csv --scheme my-scheme.yaml -o model.json --format json > wells.json
 """
 
 
@@ -40,7 +41,10 @@ def register(subparsers) -> None:
         "interpreter's tract keep it (supervised where every bed is labelled, "
         "semi-supervised where some are); without, the fit is unsupervised and the facies "
         "ranks of the scheme tell the tracts apart. Several --features or --substates values "
-        "are compared by BIC and the best is written.",
+        "are compared by BIC and the best is written. The training cores are then decoded by "
+        "the fitted model and summarised one line per well (at most 30): thickness per "
+        "tract, cycles, surface picks and the mean probability of the decoded tract; "
+        "--format json prints every well as one JSON document instead.",
         epilog=EXAMPLES,
     )
     add_source_arguments(parser)
@@ -49,6 +53,12 @@ def register(subparsers) -> None:
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
     add_model_arguments(parser)
+    parser.add_argument(
+        "--format",
+        choices=("text", "json"),
+        default="text",
+        help="printed report: text lines, or one JSON document with every well",
+    )
     parser.set_defaults(func=run)
 
 
@@ -78,18 +88,8 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
     }
 
 
-def run(args: argparse.Namespace) -> int:
-    check_unit(args)
-    from faciesseq._output import check_target
-
-    check_target(args.output, force=args.force, folder=False)
-    from faciesseq.hmm.calibration import describe_calibration
-    from faciesseq.hmm.modelfile import save_model
-    from faciesseq.hmm.selection import select_model
-
-    scheme = load_scheme_option(args.scheme)
-    tract_model = load_tracts_option(args.tracts)
-    substates = substate_counts(args, len(tract_model.order))
+def _successions(args: argparse.Namespace, scheme):
+    """The training successions of SOURCE, refused where there is nothing to fit on."""
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
     if scheme is None:
@@ -108,10 +108,16 @@ def run(args: argparse.Namespace) -> int:
             "of 2 or more beds",
             file=args.source,
         )
+    return cores, successions
+
+
+def _select(args: argparse.Namespace, successions, scheme, tract_model, substates):
+    from faciesseq.hmm.selection import select_model
+
     progress = Progress("fit", args.restarts)
     with warnings_to_stderr("fit"):
         try:
-            selection = select_model(
+            return select_model(
                 successions,
                 features=feature_sets(args),
                 substates=substates,
@@ -132,11 +138,12 @@ def run(args: argparse.Namespace) -> int:
             )
         finally:
             progress.close()
-    model = selection.best
-    provenance = _provenance(args, cores, args.tracts)
-    provenance["selection"] = selection.to_dict()["candidates"]
-    save_model(model, args.output, provenance)
-    table = selection.table
+
+
+def _print_fit(args: argparse.Namespace, selection) -> None:
+    from faciesseq.hmm.calibration import describe_calibration
+
+    model, table = selection.best, selection.table
     if len(table) > 1:
         print("candidates (lowest BIC written):")
         for row in table.itertuples(index=False):
@@ -168,5 +175,38 @@ def run(args: argparse.Namespace) -> int:
         f"{best['n_iter']} iterations, {converged}"
     )
     print(describe_calibration(model.temperature_, model.calibration_))
+
+
+def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
+    """The fit's report and the per-well summary of the training cores, decoded by
+    the fitted model (:mod:`faciesseq.cli._summary`), as text or one JSON document."""
+    from faciesseq.cli._summary import print_json, print_summary, summary_document
+
+    model = selection.best
+    with warnings_to_stderr("fit"):
+        interp = model.decode(successions)
+    if args.format == "json":
+        print_json(summary_document(interp, scheme, "fit", output=str(args.output)))
+        return
+    _print_fit(args, selection)
+    print_summary(interp, scheme, "all in --format json", note=False)
     print(f"model written to {args.output}")
+
+
+def run(args: argparse.Namespace) -> int:
+    check_unit(args)
+    from faciesseq._output import check_target
+
+    check_target(args.output, force=args.force, folder=False)
+    from faciesseq.hmm.modelfile import save_model
+
+    scheme = load_scheme_option(args.scheme)
+    tract_model = load_tracts_option(args.tracts)
+    substates = substate_counts(args, len(tract_model.order))
+    cores, successions = _successions(args, scheme)
+    selection = _select(args, successions, scheme, tract_model, substates)
+    provenance = _provenance(args, cores, args.tracts)
+    provenance["selection"] = selection.to_dict()["candidates"]
+    save_model(selection.best, args.output, provenance)
+    _report(args, selection, successions, scheme)
     return 0

@@ -53,9 +53,12 @@ from faciesseq.hmm import engine
 __all__ = [
     "TEMPERATURE_BOUNDS",
     "HeldOut",
+    "calibration_checked",
     "describe_calibration",
     "fit_temperature",
     "held_out_scores",
+    "probability_meta",
+    "probability_note",
     "simulate_beds",
     "temper",
 ]
@@ -158,25 +161,82 @@ def fit_temperature(folds: Sequence[HeldOut]) -> dict:
     return {"temperature": t, "n_beds": n_beds, "before": before, "after": after}
 
 
+def calibration_checked(calibration: object) -> bool:
+    """Whether a model's tract probabilities were checked against known tracts.
+
+    Parameters
+    ----------
+    calibration
+        The calibration record of a fit (``TractHMM.calibration_``), as read
+        from a model file (``None`` or anything else for old or odd files).
+
+    Returns
+    -------
+    bool
+        True where the record holds the scores ``after`` calibration: held-out
+        labelled cores, or cores simulated from the fitted model (parametric
+        bootstrap).
+    """
+    return isinstance(calibration, dict) and isinstance(calibration.get("after"), dict)
+
+
+def _bootstrap(cal: dict) -> bool:
+    return cal.get("method") == "parametric bootstrap"
+
+
+def _checked_at_one(cal: dict) -> str:
+    where = (
+        "cores simulated from the fitted model (parametric bootstrap)"
+        if _bootstrap(cal)
+        else "held-out labelled cores"
+    )
+    return (
+        f"Tract probabilities checked on {where}: no temperature scored "
+        "better than 1, so they are left as the model gives them."
+    )
+
+
+def _chosen_by(cal: dict) -> str:
+    if _bootstrap(cal):
+        return (
+            f"chosen on {cal['simulated_successions']} successions simulated from the fitted "
+            "model (parametric bootstrap): on their"
+        )
+    return (
+        f"chosen by {cal['folds']}-fold cross-validation over {cal['cores']} labelled cores: "
+        "on their"
+    )
+
+
 def describe_calibration(temperature: float, calibration: dict | None) -> str:
-    """One sentence on how a model's tract probabilities were calibrated (for the
-    ``fit`` command's report and the appendix); ``calibration`` is the record a fit
-    leaves (``TractHMM.calibration_``), read from a model file as it is."""
+    """One sentence on how a model's tract probabilities were calibrated.
+
+    Parameters
+    ----------
+    temperature
+        The model's temperature (``TractHMM.temperature_``).
+    calibration
+        The record a fit leaves (``TractHMM.calibration_``), read from a model
+        file as it is: cross-validation folds, a parametric bootstrap, a
+        ``skipped`` reason, or anything else.
+
+    Returns
+    -------
+    str
+        One line (no newline), for the ``fit`` command's report, the decode
+        outputs and the appendix.
+    """
     cal = calibration if isinstance(calibration, dict) else {}
     if temperature == 1.0 and "skipped" not in cal and "after" in cal:
-        return (
-            "Tract probabilities checked on held-out labelled cores: no temperature scored "
-            "better than 1, so they are left as the model gives them."
-        )
+        return _checked_at_one(cal)
     if temperature == 1.0:
         why = cal.get("skipped", "no record of a calibration in the model")
         return f"Tract probabilities not calibrated ({why}): temperature 1."
     try:
         b, a = cal["before"], cal["after"]
         return (
-            f"Tract probabilities calibrated by a temperature of {temperature:.2f}, chosen "
-            f"by {cal['folds']}-fold cross-validation over {cal['cores']} labelled cores: on "
-            f"their {cal['n_beds']} held-out beds the Brier score fell from "
+            f"Tract probabilities calibrated by a temperature of {temperature:.2f}, "
+            f"{_chosen_by(cal)} {cal['n_beds']} held-out beds the Brier score fell from "
             f"{b['brier']:.3f} to {a['brier']:.3f} and the mean probability of the most "
             f"probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
             f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it."
@@ -186,6 +246,51 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
             f"Tract probabilities at a temperature of {temperature:.2f} (the model file "
             "does not say how it was chosen); the tract column is not changed by it."
         )
+
+
+def probability_note(temperature: float, calibration: object) -> str:
+    """One line saying whether and how a model's probabilities were checked.
+
+    Parameters
+    ----------
+    temperature, calibration
+        As for :func:`describe_calibration`.
+
+    Returns
+    -------
+    str
+        For a checked model (:func:`calibration_checked`) the sentence of
+        :func:`describe_calibration`; otherwise that the probabilities are the
+        model's own and were not checked against known tracts, with the reason.
+    """
+    if calibration_checked(calibration):
+        return describe_calibration(temperature, calibration)
+    cal = calibration if isinstance(calibration, dict) else {}
+    why = cal.get("skipped", "no record of a calibration in the model")
+    return (
+        "Tract and surface probabilities are the model's own and were not checked against "
+        f"known tracts ({why})."
+    )
+
+
+def probability_meta(temperature: float, calibration: object) -> dict[str, object]:
+    """The entries ``TractHMM.decode`` adds to ``Interpretation.meta``.
+
+    Parameters
+    ----------
+    temperature, calibration
+        As for :func:`describe_calibration`.
+
+    Returns
+    -------
+    dict
+        ``probabilities_checked`` (:func:`calibration_checked`) and
+        ``probabilities_note`` (:func:`probability_note`).
+    """
+    return {
+        "probabilities_checked": calibration_checked(calibration),
+        "probabilities_note": probability_note(temperature, calibration),
+    }
 
 
 def _chain_path(startprob, transmat, n, rng) -> np.ndarray:

@@ -33,7 +33,7 @@ from faciesseq.cycles import CONTEXT_FEATURES
 from faciesseq.errors import ConfigError, FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
-from faciesseq.hmm.calibration import temper
+from faciesseq.hmm.calibration import probability_meta, temper
 from faciesseq.hmm.emissions import (
     EmissionPiece,
     EncodedBeds,
@@ -1191,7 +1191,8 @@ class TractHMM:
             cores,
             tracts,
             codes,
-            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)},
+            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)}
+            | probability_meta(self.temperature_, self.calibration_),
         )
 
     def _core_interpretation(self, core, parts, codes, names, threshold, mass):

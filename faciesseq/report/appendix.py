@@ -401,6 +401,8 @@ def _cores_section(
             "interval; the per-bed tract probabilities are in the data files."
         )
     )
+    if not interpretation.probabilities_checked:
+        s.add(Paragraph(interpretation.probabilities_note, kind="note"))
     for note in notes:
         s.add(Paragraph(f"Note from decoding: {note}", kind="note"))
     summary_rows = []
@@ -426,7 +428,7 @@ def _cores_section(
                 f"{key}_striplog",
                 f"Strip log of core {core.core}: facies, most likely systems tract, tract "
                 f"posteriors and surface probabilities (depth in {core.units}, downward).",
-                strip_log(core, scheme, tract_model),
+                strip_log(core, scheme, tract_model, checked=interpretation.probabilities_checked),
             )
         )
         picks = core.picks.copy()
@@ -445,6 +447,7 @@ def _cores_section(
                     f"Surfaces picked in core {core.core}: depth ({core.units}), probability at "
                     "the pick and the uncertainty interval.",
                     picks,
+                    probabilities=("probability", "p_contact"),
                 )
             )
         else:

@@ -6,8 +6,10 @@ and :mod:`faciesseq.report.latex` render the same document, and
 :class:`pandas.DataFrame` the renderers show, so the three never disagree.
 
 Numbers are shown with :func:`format_value` (4 significant digits; integers
-in full; p-values below 1e-4 in scientific notation); the CSV files and
-``appendix.json`` keep full precision.
+in full; p-values below 1e-4 in scientific notation), and the decoded
+probabilities a table names with :func:`format_probability` (2 decimals,
+``> 0.99`` and ``< 0.01`` at the ends); the CSV files and ``appendix.json``
+keep full precision.
 """
 
 from __future__ import annotations
@@ -28,6 +30,7 @@ __all__ = [
     "Paragraph",
     "Section",
     "TableBlock",
+    "format_probability",
     "format_value",
 ]
 
@@ -62,6 +65,33 @@ def format_value(value: object, digits: int = 4) -> str:
     return str(value)
 
 
+def format_probability(value: object) -> str:
+    """How a decoded probability is shown: 2 decimals, ``> 0.99`` and ``< 0.01`` at the ends.
+
+    Parameters
+    ----------
+    value
+        A probability (or ``None``/NaN, shown blank).
+
+    Returns
+    -------
+    str
+        No more digits than a model's tract or surface probabilities can
+        bear (a 0.9998 claims a certainty no check of a model supports).
+    """
+    numeric = isinstance(value, int | float | np.integer | np.floating)
+    if not numeric or isinstance(value, bool | np.bool_):
+        return format_value(value)
+    v = float(value)
+    if math.isnan(v):
+        return ""
+    if v > 0.99:
+        return "> 0.99"
+    if v < 0.01:
+        return "< 0.01"
+    return f"{v:.2f}"
+
+
 @dataclass(frozen=True)
 class Paragraph:
     """Plain text (escaped by every renderer). ``kind`` ``"note"`` draws a framed caution."""
@@ -88,6 +118,8 @@ class TableBlock:
     same labels) marks cells with a ``*`` (e.g. significant adjusted
     residuals), explained by ``mark_note``. ``shown=False`` writes the CSV
     only (long per-bed data), listed in the appendix as a data file.
+    ``probabilities`` names the columns of decoded probabilities, shown with
+    :func:`format_probability` (the CSV keeps them exact).
     """
 
     key: str
@@ -98,6 +130,7 @@ class TableBlock:
     mark_note: str = ""
     shown: bool = True
     digits: int = 4
+    probabilities: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if not _KEY.match(self.key):
@@ -119,13 +152,20 @@ class TableBlock:
                 .fillna(False)
                 .to_numpy(bool)
             )
+        shows = [
+            format_probability if str(c) in self.probabilities else self._format
+            for c in self.frame.columns
+        ]
         for i, (label, row) in enumerate(self.frame.iterrows()):
-            cells = [format_value(v, self.digits) for v in row.tolist()]
+            cells = [show(v) for show, v in zip(shows, row.tolist(), strict=True)]
             flags = [bool(marks[i, j]) if marks is not None else False for j in range(len(cells))]
             if self.index:
                 cells = [format_value(label, self.digits), *cells]
                 flags = [False, *flags]
             yield cells, flags
+
+    def _format(self, value: object) -> str:
+        return format_value(value, self.digits)
 
     def to_csv_frame(self) -> pd.DataFrame:
         """The table as written to CSV (index as a column when shown)."""

@@ -76,7 +76,7 @@ ul.files { font-size: 0.85rem; }
 }
 """
 
-_NUMBER = re.compile(r"^[−\-+]?(\d[\d,]*\.?\d*|\.\d+)(e[+\-]?\d+)?\*?$|^[−\-]?∞$")
+_NUMBER = re.compile(r"^(?:[<>] )?[−\-+]?(\d[\d,]*\.?\d*|\.\d+)(e[+\-]?\d+)?\*?$|^[−\-]?∞$")
 
 
 def _is_number(text: str) -> bool:

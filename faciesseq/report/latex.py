@@ -147,7 +147,7 @@ def table_latex(table: TableBlock) -> str:
 
 def _is_number(text: str) -> bool:
     try:
-        float(text.replace("−", "-"))
+        float(text.removeprefix("< ").removeprefix("> ").replace("−", "-"))
     except ValueError:
         return text == ""
     return True

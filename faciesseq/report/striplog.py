@@ -39,10 +39,12 @@ from faciesseq.report.style import (
 )
 from faciesseq.scheme import FaciesScheme, TractModel
 
-__all__ = ["GRAIN_CLASSES", "bed_widths", "plain", "strip_log"]
+__all__ = ["GRAIN_CLASSES", "UNCHECKED_NOTE", "bed_widths", "plain", "strip_log"]
 
 #: Grain-size classes of the facies scheme (1 clay ... 7 gravel), abbreviated for ticks.
 GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
+#: Printed under the probability track when the probabilities were not checked.
+UNCHECKED_NOTE = "probabilities not checked"
 _UNKNOWN_FACIES = "#c8c8c8"
 _GAP = "#f0f0f0"
 
@@ -148,6 +150,7 @@ def strip_log(
     step: float | None = None,
     title: str | None = None,
     height: float = 9.0,
+    checked: bool = True,
 ) -> Figure:
     """Draw the strip log of one decoded core.
 
@@ -168,6 +171,10 @@ def strip_log(
         Figure title; default ``"Core <name>"``.
     height
         Figure height in inches (width is the page width).
+    checked
+        Whether the model's probabilities were checked against known tracts
+        (``Interpretation.probabilities_checked``); if not, the note
+        :data:`UNCHECKED_NOTE` is printed under the tract probability track.
 
     Returns
     -------
@@ -290,7 +297,7 @@ def strip_log(
         ax_p.set_xlim(0, 1)
         ax_p.set_xticks([0, 0.5, 1])
         ax_p.set_title("tract probability")
-        ax_p.set_xlabel("posterior (stacked)")
+        ax_p.set_xlabel("posterior (stacked)" + ("" if checked else f"\n{UNCHECKED_NOTE}"))
 
         # 4. surface probability curves and picks
         curves = interp.curves(step)
@@ -400,7 +407,10 @@ def strip_log(
 
 
 def strip_logs(
-    interps: Sequence[CoreInterpretation], scheme: FaciesScheme, tract_model: TractModel
+    interps: Sequence[CoreInterpretation],
+    scheme: FaciesScheme,
+    tract_model: TractModel,
+    checked: bool = True,
 ) -> list[Figure]:
     """One strip log per core interpretation, in order."""
-    return [strip_log(i, scheme, tract_model) for i in interps]
+    return [strip_log(i, scheme, tract_model, checked=checked) for i in interps]

@@ -1,0 +1,127 @@
+"""The per-well summary that ``fit`` and ``decode`` print: one line per core, or JSON.
+
+Each line gives the core, the thickness of each tract (in the core's depth
+units), the number of parasequence-scale cycles (with a facies scheme), the
+number of surface picks and the mean probability of the decoded tract. A
+report on thousands of wells stays short: at most :data:`WELL_LIMIT` lines, then
+how many more there are. The JSON document lists every well.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+__all__ = [
+    "SUMMARY_SCHEMA",
+    "WELL_LIMIT",
+    "print_json",
+    "print_summary",
+    "summary_document",
+    "summary_lines",
+]
+
+#: Most wells listed in the text summary.
+WELL_LIMIT = 30
+#: Schema name of the JSON summary (keys may be added, none removed or renamed).
+SUMMARY_SCHEMA = "faciesseq.wells/1"
+
+
+def _wells(interp, scheme) -> list[dict]:
+    from faciesseq.interpretation import core_summary
+
+    ranks = scheme.ranks() if scheme is not None else None
+    return [core_summary(core, ranks) for core in interp]
+
+
+def _number(value: float) -> str:
+    return f"{value:.4g}"
+
+
+def _line(well: dict) -> str:
+    units = well["units"]
+    parts = [", ".join(f"{t} {_number(v)} {units}" for t, v in well["thickness"].items())]
+    if "cycles" in well:
+        parts.append(f"{well['cycles']} cycle(s)")
+    parts.append(f"{well['picks']} pick(s)")
+    p = well["mean_probability"]
+    parts.append("mean p(tract) " + ("-" if math.isnan(p) else f"{p:.2f}"))
+    return f"  {well['core']}: " + "; ".join(parts)
+
+
+def summary_lines(wells: list[dict], more: str, limit: int = WELL_LIMIT) -> list[str]:
+    """The text summary: a heading, at most ``limit`` wells, then how many are left out.
+
+    Parameters
+    ----------
+    wells
+        One :func:`faciesseq.interpretation.core_summary` per core.
+    more
+        Where the wells left out can be seen (e.g. ``"see the output files"``).
+    limit
+        Most wells listed.
+
+    Returns
+    -------
+    list of str
+        Lines without newlines.
+    """
+    cycles = ", cycles" if wells and "cycles" in wells[0] else ""
+    head = f"per well (thickness per tract{cycles}, surface picks, mean probability of the tract):"
+    lines = [head, *(_line(w) for w in wells[:limit])]
+    if len(wells) > limit:
+        lines.append(f"  ... and {len(wells) - limit} more ({more})")
+    return lines
+
+
+def _json_well(well: dict) -> dict:
+    p = well["mean_probability"]
+    return {**well, "mean_probability": None if math.isnan(p) else p}
+
+
+def summary_document(interp, scheme, command: str, **extra) -> dict:
+    """The JSON summary: schema, command, probabilities checked or not, every well.
+
+    Parameters
+    ----------
+    interp
+        The decoded cores (:class:`faciesseq.interpretation.Interpretation`).
+    scheme
+        Facies scheme whose ranks cut the cycles, or ``None`` (no ``cycles``).
+    command
+        ``"fit"`` or ``"decode"``.
+    **extra
+        More top-level keys (e.g. ``output``).
+
+    Returns
+    -------
+    dict
+        ``schema``, ``command``, the ``extra`` keys, ``probabilities``
+        (``checked``, ``note``), ``n_wells`` and ``wells``.
+    """
+    wells = _wells(interp, scheme)
+    return {
+        "schema": SUMMARY_SCHEMA,
+        "command": command,
+        **extra,
+        "probabilities": {
+            "checked": interp.probabilities_checked,
+            "note": interp.probabilities_note,
+        },
+        "n_wells": len(wells),
+        "wells": [_json_well(w) for w in wells],
+    }
+
+
+def print_summary(interp, scheme, more: str, note: bool = True) -> None:
+    """Print the text summary of the wells and, with ``note``, a line saying that the
+    probabilities were not checked where they were not."""
+    for line in summary_lines(_wells(interp, scheme), more):
+        print(line)
+    if note and not interp.probabilities_checked:
+        print(f"note: {interp.probabilities_note}")
+
+
+def print_json(document: dict) -> None:
+    """Print one JSON document (NaN written as null by :func:`summary_document`)."""
+    print(json.dumps(document, indent=1, allow_nan=False))

@@ -1,0 +1,315 @@
+"""What decode and fit write and print: whether the probabilities were checked, and the
+per-well summary (synthetic cores from tests/hmm_synthetic.py, invented)."""
+
+import json
+import math
+
+import hmm_synthetic as synth
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+from matplotlib.figure import Figure
+
+from faciesseq.cli import build_parser, main
+from faciesseq.cli._summary import WELL_LIMIT, summary_lines
+from faciesseq.hmm.calibration import (
+    calibration_checked,
+    describe_calibration,
+    probability_note,
+)
+from faciesseq.hmm.modelfile import load_model
+from faciesseq.interpretation import Interpretation, core_summary
+from faciesseq.report.document import TableBlock, format_probability
+from faciesseq.report.html import table_html
+from faciesseq.report.latex import table_latex
+from faciesseq.report.striplog import UNCHECKED_NOTE, strip_log
+from faciesseq.scheme import load_scheme
+
+UNCHECKED = "the model's own and were not checked against known tracts"
+TABLES = ("tracts", "surfaces", "picks")
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("db")
+    synth.write_database(folder, 8, 60, seed=71)
+    return folder
+
+
+def _fit(database, model, *extra):
+    argv = ["fit", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+    assert main([*argv, "-o", str(model), "--restarts", "1", *extra]) == 0
+
+
+@pytest.fixture(scope="module")
+def models(database, tmp_path_factory):
+    """``checked``: labelled, calibrated on held-out cores; ``unchecked``: unsupervised with
+    calibration turned off; ``bootstrap``: unsupervised, checked on simulated cores."""
+    folder = tmp_path_factory.mktemp("models")
+    paths = {k: folder / f"{k}.json" for k in ("checked", "unchecked", "bootstrap")}
+    _fit(database, paths["checked"], "--labels", "tract")
+    _fit(database, paths["unchecked"], "--calibration-folds", "0")
+    _fit(database, paths["bootstrap"])
+    return paths
+
+
+def _decode(database, model, out, *extra):
+    return main(["decode", str(model), str(database / "cores.csv"), "-o", str(out), *extra])
+
+
+def _first_line(path) -> str:
+    with open(path, encoding="utf-8") as f:
+        return f.readline().rstrip("\n")
+
+
+# ---------------------------------------------------------------- checked or not
+
+
+def test_checked_means_an_after_record_of_either_method(models):
+    checked = load_model(models["checked"])
+    unchecked = load_model(models["unchecked"])
+    boot = load_model(models["bootstrap"])
+    assert "folds" in checked.calibration_ and calibration_checked(checked.calibration_)
+    assert boot.calibration_["method"] == "parametric bootstrap"
+    assert calibration_checked(boot.calibration_)
+    assert "skipped" in unchecked.calibration_ and not calibration_checked(unchecked.calibration_)
+    for odd in (None, "junk", {}, {"after": "x"}):
+        assert not calibration_checked(odd)
+
+
+def test_the_bootstrap_is_named_in_the_calibration_sentence(models):
+    boot = load_model(models["bootstrap"])
+    text = describe_calibration(boot.temperature_, boot.calibration_)
+    assert "parametric bootstrap" in text and "does not say" not in text
+    at_one = describe_calibration(1.0, {**boot.calibration_, "temperature": 1.0})
+    assert "parametric bootstrap" in at_one and "held-out labelled" not in at_one
+
+
+def test_decode_puts_the_flag_and_the_note_in_the_interpretation_meta(database, models):
+    cores = synth.cores(2, 20, seed=5)
+    for key, expected in (("checked", True), ("unchecked", False), ("bootstrap", True)):
+        model = load_model(models[key])
+        interp = model.decode(cores)
+        assert interp.meta["probabilities_checked"] is expected
+        assert interp.probabilities_checked is expected
+        note = probability_note(model.temperature_, model.calibration_)
+        assert interp.meta["probabilities_note"] == interp.probabilities_note == note
+        assert "\n" not in note
+        assert (UNCHECKED in note) is (not expected)
+    bare = Interpretation({}, ("HST",), ("MFS",))  # built without a model: not checked
+    assert not bare.probabilities_checked and "not checked" in bare.probabilities_note
+
+
+# ---------------------------------------------------------------- decode files
+
+
+def test_unchecked_csv_tables_open_with_one_comment_line(database, models, tmp_path):
+    out = tmp_path / "out"
+    assert _decode(database, models["unchecked"], out) == 0
+    for name in TABLES:
+        lines = (out / f"{name}.csv").read_text(encoding="utf-8").splitlines()
+        assert lines[0].startswith("# ") and UNCHECKED in lines[0], name
+        assert "no labelled beds" in lines[0]
+        assert not lines[1].startswith("#"), name  # exactly one comment line
+        with_comment = pd.read_csv(out / f"{name}.csv", comment="#")
+        skipped = pd.read_csv(out / f"{name}.csv", skiprows=1)
+        pd.testing.assert_frame_equal(with_comment, skipped)
+    assert len(pd.read_csv(out / "tracts.csv", skiprows=1)) == 8 * 60
+    assert not _first_line(out / "agreement.csv").startswith("#")  # no probabilities in it
+
+
+def test_checked_csv_tables_say_how_they_were_checked(database, models, tmp_path):
+    out = tmp_path / "out"
+    assert _decode(database, models["checked"], out) == 0
+    model = load_model(models["checked"])
+    expected = "# " + describe_calibration(model.temperature_, model.calibration_)
+    for name in TABLES:
+        assert _first_line(out / f"{name}.csv") == expected
+    assert "cross-validation" in expected and UNCHECKED not in expected
+
+
+def test_json_tables_carry_a_probabilities_key(database, models, tmp_path):
+    out = tmp_path / "out"
+    assert _decode(database, models["unchecked"], out, "--format", "json") == 0
+    for name in TABLES:
+        doc = json.loads((out / f"{name}.json").read_text())
+        assert set(doc) == {"probabilities", "records"}
+        assert doc["probabilities"]["checked"] is False
+        assert UNCHECKED in doc["probabilities"]["note"]
+    tracts = pd.DataFrame(json.loads((out / "tracts.json").read_text())["records"])
+    assert len(tracts) == 8 * 60 and "p_HST" in tracts
+    assert isinstance(json.loads((out / "agreement.json").read_text()), list)
+
+
+def test_parquet_tables_carry_the_record_as_file_metadata(database, models, tmp_path):
+    out = tmp_path / "out"
+    assert _decode(database, models["checked"], out, "--format", "parquet") == 0
+    for name in TABLES:
+        meta = pq.read_schema(out / f"{name}.parquet").metadata
+        record = json.loads(meta[b"faciesseq.probabilities"])
+        assert record["checked"] is True and "cross-validation" in record["note"]
+    assert len(pd.read_parquet(out / "tracts.parquet")) == 8 * 60
+
+
+# ---------------------------------------------------------------- strip logs
+
+
+def _xlabels(fig: Figure) -> str:
+    return "\n".join(ax.get_xlabel() for ax in fig.axes)
+
+
+def test_strip_log_says_when_the_probabilities_were_not_checked(database, models):
+    model = load_model(models["unchecked"])
+    core = next(iter(model.decode(synth.cores(1, 30, seed=9))))
+    scheme = load_scheme(database / "scheme.yaml")
+    tm = model.tract_model_
+    assert UNCHECKED_NOTE in _xlabels(strip_log(core, scheme, tm, checked=False))
+    assert UNCHECKED_NOTE not in _xlabels(strip_log(core, scheme, tm))
+
+
+# ---------------------------------------------------------------- appendix tables
+
+
+@pytest.mark.parametrize(
+    ("value", "shown"),
+    [
+        (0.9998, "> 0.99"),
+        (1.0, "> 0.99"),
+        (0.991, "> 0.99"),
+        (0.99, "0.99"),
+        (0.5, "0.50"),
+        (0.123456, "0.12"),
+        (0.01, "0.01"),
+        (0.004, "< 0.01"),
+        (0.0, "< 0.01"),
+        (math.nan, ""),
+        (None, ""),
+    ],
+)
+def test_probabilities_shown_with_two_decimals_and_bounds(value, shown):
+    assert format_probability(value) == shown
+
+
+def test_probability_columns_are_coarse_in_html_and_latex_and_exact_in_csv():
+    frame = pd.DataFrame({"depth (m)": [12.3456, 20.5], "probability": [0.99984, 0.00213]})
+    table = TableBlock("t_picks", "picks", frame, index=False, probabilities=("probability",))
+    html, latex = table_html(table, 1), table_latex(table)
+    for text in (html, latex):
+        assert "0.9998" not in text and "0.00213" not in text
+        assert "12.35" in text  # other columns keep 4 significant digits
+    assert "&gt; 0.99" in html and "&lt; 0.01" in html
+    assert '<td class="num">&gt; 0.99</td>' in html  # still aligned as a number
+    assert r"\begin{longtable}{lr}" in latex  # the bounded column right-aligned too
+    np.testing.assert_array_equal(table.to_csv_frame()["probability"], [0.99984, 0.00213])
+
+
+# ---------------------------------------------------------------- --threshold is gone
+
+
+def test_decode_has_no_threshold_option(database, models, tmp_path, capsys):
+    with pytest.raises(SystemExit) as exc:
+        _decode(database, models["checked"], tmp_path / "out", "--threshold", "0.6")
+    assert exc.value.code == 2 and "--threshold" in capsys.readouterr().err
+    assert not (tmp_path / "out").exists()
+    sub = build_parser()._subparsers._group_actions[0].choices["decode"]
+    assert "--threshold" not in sub.format_help()
+
+
+# ---------------------------------------------------------------- per-well summary
+
+
+def _expected_wells(out, scheme) -> dict:
+    """The summary recomputed from the written tables (an independent path)."""
+    tracts = pd.read_csv(out / "tracts.csv", skiprows=1)
+    picks = pd.read_csv(out / "picks.csv", skiprows=1)
+    ranks = scheme.ranks()
+    wells = {}
+    for core, beds in tracts.groupby("core", sort=False):
+        upward = beds.sort_values("top", ascending=False)  # base to top, one segment
+        r = upward["facies"].map(ranks).to_numpy(float)
+        p = beds.apply(lambda b: b[f"p_{b['tract']}"], axis=1)
+        wells[core] = {
+            "thickness": (beds["base"] - beds["top"]).groupby(beds["tract"]).sum().to_dict(),
+            "cycles": 1 + int(np.sum(np.diff(r) >= 1)),  # a rise of a rank or more
+            "picks": int(np.sum(picks["core"] == core)),
+            "mean_probability": float(p.mean()),
+        }
+    return wells
+
+
+def test_decode_summary_json_lists_every_well_with_the_tables_numbers(
+    database, models, tmp_path, capsys
+):
+    out = tmp_path / "out"
+    capsys.readouterr()
+    assert _decode(database, models["unchecked"], out, "--summary", "json") == 0
+    doc = json.loads(capsys.readouterr().out)  # stdout is one JSON document
+    assert doc["schema"] == "faciesseq.wells/1" and doc["command"] == "decode"
+    assert doc["probabilities"]["checked"] is False and doc["n_wells"] == 8
+    expected = _expected_wells(out, load_scheme(database / "scheme.yaml"))
+    for well in doc["wells"]:
+        want = expected[well["core"]]
+        assert well["units"] == "m"
+        for tract in ("HST", "FSST", "LST", "TST"):
+            got = well["thickness"][tract]
+            assert got == pytest.approx(want["thickness"].get(tract, 0.0), abs=1e-4)
+        assert well["cycles"] == want["cycles"]
+        assert well["picks"] == want["picks"]
+        assert well["mean_probability"] == pytest.approx(want["mean_probability"], abs=1e-5)
+
+
+def test_decode_text_summary_is_one_line_per_well_and_notes_unchecked(
+    database, models, tmp_path, capsys
+):
+    capsys.readouterr()
+    assert _decode(database, models["unchecked"], tmp_path / "a") == 0
+    out = capsys.readouterr().out
+    lines = [line for line in out.splitlines() if line.startswith("  S-71-")]
+    assert len(lines) == 8
+    assert all("cycle(s)" in line and "pick(s)" in line and " m," in line for line in lines)
+    assert f"note: Tract and surface probabilities are {UNCHECKED}" in out
+    assert _decode(database, models["checked"], tmp_path / "b") == 0
+    assert "note:" not in capsys.readouterr().out
+
+
+def test_summary_of_thousands_of_wells_stops_at_thirty(database, models, tmp_path, capsys):
+    many = tmp_path / "many"
+    many.mkdir()
+    synth.write_database(many, WELL_LIMIT + 7, 8, seed=3)
+    argv = ["decode", str(models["unchecked"]), str(many / "cores.csv"), "-o", str(tmp_path / "o")]
+    capsys.readouterr()
+    assert main(argv) == 0
+    out = capsys.readouterr().out
+    wells = [line for line in out.splitlines() if line.startswith("  S-3-")]
+    assert len(wells) == WELL_LIMIT
+    assert "  ... and 7 more (see the output files)" in out
+    assert main([*argv[:-2], "-o", str(tmp_path / "j"), "--summary", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)["n_wells"] == WELL_LIMIT + 7
+
+
+def test_without_a_scheme_the_cycles_are_left_out(models):
+    model = load_model(models["unchecked"])
+    core = next(iter(model.decode(synth.cores(1, 20, seed=4))))
+    well = core_summary(core)
+    assert "cycles" not in well
+    lines = summary_lines([well], "more")
+    assert "cycle" not in "\n".join(lines) and well["core"] in lines[1]
+    assert sum(well["thickness"].values()) == pytest.approx(float(core.beds["thickness"].sum()))
+
+
+def test_fit_prints_the_training_wells_and_takes_format_json(database, tmp_path, capsys):
+    capsys.readouterr()
+    _fit(database, tmp_path / "m.json", "--calibration-folds", "0")
+    text = capsys.readouterr().out
+    assert sum(line.startswith("  S-71-") for line in text.splitlines()) == 8
+    assert "model written to" in text
+    _fit(database, tmp_path / "j.json", "--calibration-folds", "0", "--format", "json")
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["command"] == "fit" and doc["output"] == str(tmp_path / "j.json")
+    assert doc["n_wells"] == 8 and doc["probabilities"]["checked"] is False
+    assert [w["core"] for w in doc["wells"]] == [f"S-71-{k}" for k in range(1, 9)]
+    # the training cores decoded by the fitted model: the same numbers decode prints
+    out = tmp_path / "dec"
+    assert _decode(database, tmp_path / "j.json", out, "--summary", "json") == 0
+    assert json.loads(capsys.readouterr().out)["wells"] == doc["wells"]
