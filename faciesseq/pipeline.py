@@ -134,7 +134,6 @@ def run_appendix(
     from faciesseq.markov import analyse
     from faciesseq.report.appendix import build_appendix
 
-    tract_model = tract_model or default_tract_model()
     cores.require_valid()
     notes: list[str] = []
     _say(progress, "check", f"{len(cores)} cores, {len(cores.problems)} problems reported")
@@ -240,7 +239,7 @@ def run_appendix(
     appendix = build_appendix(
         cores,
         scheme,
-        tract_model,
+        model.tract_model_ if model is not None else tract_model or default_tract_model(),
         markov=markov,
         model=model,
         interpretation=interpretation,

@@ -36,7 +36,7 @@ from faciesseq.core import CoreSet, Succession
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm.baseline import trend_rule
 from faciesseq.interpretation import Interpretation
-from faciesseq.scheme import TractModel, default_tract_model
+from faciesseq.scheme import TractModel, permissive_tract_model
 from faciesseq.surfaces import picks_frame, surface_codes, surface_names
 
 __all__ = ["ScoreSet", "ValidationResult", "cross_validate", "score_interpretation"]
@@ -400,7 +400,8 @@ def cross_validate(
     rng = np.random.default_rng(random_state)
     shuffled = [cores[i] for i in rng.permutation(len(cores))]
     fold_of = {c: k % folds for k, c in enumerate(shuffled)}
-    tract_model = params.get("tract_model") or default_tract_model()
+    # labelled fits use the permissive graph unless told otherwise (TractHMM.fit)
+    tract_model = params.get("tract_model") or permissive_tract_model()
     scheme = params.get("scheme")
     tracts = list(tract_model.order)
     codes = surface_codes(tract_model)

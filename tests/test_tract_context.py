@@ -189,3 +189,26 @@ def test_tract_names_do_not_depend_on_the_seed_or_the_order_of_the_cores():
             columns.append(_beds(model.decode(test))["tract"].to_numpy())
     agreement = [np.mean(c == columns[0]) for c in columns[1:]]
     assert min(agreement) >= 0.9, agreement
+
+
+def test_turning_the_names_round_the_cycle_moves_the_deepening_state(fitted):
+    # the strict cycle is the same graph after turning every name one step; the
+    # deepening (retrogradational) state names the TST (common practice)
+    from copy import deepcopy
+
+    from faciesseq.hmm.identity import deepening_scores, turn
+
+    model, _, _, _ = fitted
+    S = model.states_.n_tracts
+    scores = deepening_scores(model.emissions_, S)
+    assert int(np.argmax(scores)) == model.tract_model_.order.index("TST")
+    pieces = deepcopy(model.emissions_)
+    turned = turn(pieces, model.startprob_, model.transmat_, model.states_, 1)
+    assert turned is not None
+    new_pieces, pi, A = turned
+    new = deepening_scores(new_pieces, S)
+    np.testing.assert_allclose(new, np.roll(scores, -1))
+    np.testing.assert_allclose(A.sum(axis=1), 1.0)
+    assert not A[~model.states_.allowed].any()
+    assert pi.sum() == pytest.approx(1.0)
+    assert all(r["named"] for r in model.restarts_ if r["restart"] == model.best_restart_)

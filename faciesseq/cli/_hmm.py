@@ -146,9 +146,11 @@ def check_unit(args: argparse.Namespace) -> None:
 
 
 def load_tracts_option(path: str | None):
-    from faciesseq.scheme import default_tract_model, load_tract_model
+    """The tract model of ``--tracts``, or ``None``: the model's own default (the
+    strict cyclic graph chosen by BIC without labels, the permissive one with labels)."""
+    from faciesseq.scheme import load_tract_model
 
-    return load_tract_model(require_file(path)) if path else default_tract_model()
+    return load_tract_model(require_file(path)) if path else None
 
 
 class Progress:

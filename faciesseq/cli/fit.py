@@ -140,6 +140,25 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
             progress.close()
 
 
+def _print_graph(model) -> None:
+    """Which tract graph the fit used, and why (the BIC of every candidate)."""
+    skips = ", ".join(model.tract_model_.skips) or "none"
+    rows = getattr(model, "graph_selection_", [])
+    if not rows:
+        print(f"tract graph: {' -> '.join(model.tract_model_.order)}, cyclic; skips: {skips}")
+        return
+    best = min(r["bic"] for r in rows)
+    others = "; ".join(
+        f"{', '.join(r['skips']) or 'none'} +{r['bic'] - best:.1f}"
+        for r in rows
+        if not r["selected"]
+    )
+    print(
+        f"tract graph: strict cyclic order, skips {skips}, the lowest BIC of the trade's "
+        f"{len(rows)} graphs (BIC above it: {others})"
+    )
+
+
 def _print_fit(args: argparse.Namespace, selection) -> None:
     from faciesseq.hmm.calibration import describe_calibration
 
@@ -167,6 +186,7 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"({model.n_labelled_} labelled, {mode}); features {','.join(model.features_)}; "
         f"states {','.join(model.states_.labels())}"
     )
+    _print_graph(model)
     chosen = table[table["selected"]].iloc[0]
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(
@@ -202,7 +222,9 @@ def run(args: argparse.Namespace) -> int:
 
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
-    substates = substate_counts(args, len(tract_model.order))
+    from faciesseq.scheme import default_tract_model
+
+    substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
     selection = _select(args, successions, scheme, tract_model, substates)
     provenance = _provenance(args, cores, args.tracts)

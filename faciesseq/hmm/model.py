@@ -752,9 +752,16 @@ class TractHMM:
         startprob, transmat = self._m_step(pieces, stats, trans, np.ones(K))
         return pieces, startprob, transmat
 
-    def _run(self, data: _Data, seed: int, restart: int, progress: ProgressCallback | None):
+    def _run(
+        self,
+        data: _Data,
+        seed: int,
+        restart: int,
+        progress: ProgressCallback | None,
+        start: tuple | None = None,
+    ):
         rng = np.random.default_rng(seed)
-        pieces, startprob, transmat = self._initial(data, rng, restart)
+        pieces, startprob, transmat = start or self._initial(data, rng, restart)
         monitor = ConvergenceMonitor(float(self.tol), int(self.max_iter))
         while True:
             ll, stats, trans, start = self._e_step(pieces, startprob, transmat, data)
@@ -774,6 +781,32 @@ class TractHMM:
             "monitor": monitor,
             "seed": int(seed),
         }
+
+    def _named_runs(self, runs: list[dict], data: _Data, progress) -> list[dict]:
+        """Mark (``named``) the restarts whose most deepening state carries the
+        deepening tract's name (:mod:`faciesseq.hmm.identity`); when none does, turn
+        the best one round the cycle and run EM again from there (an extra run, the
+        only one marked). Fits without context pieces, or with other than one
+        deepening tract, are left as they are."""
+        from faciesseq.hmm.identity import deepening_scores, turn
+
+        tm = self.tract_model_
+        deep = [i for i, t in enumerate(tm.order) if tm.tract(t).trend == "deepening"]
+        scores = [deepening_scores(r["pieces"], self.states_.n_tracts) for r in runs]
+        if len(deep) != 1 or any(s is None for s in scores) or data.clamp is not None:
+            return runs
+        for r, s in zip(runs, scores):
+            r["named"] = int(np.argmax(s)) == deep[0]
+        if any(r["named"] for r in runs):
+            return runs
+        best = max(runs, key=lambda r: r["objective"])
+        shift = int(np.argmax(scores[runs.index(best)])) - deep[0]
+        start = turn(best["pieces"], best["startprob"], best["transmat"], self.states_, shift)
+        if start is None:
+            return runs
+        again = self._run(data, best["seed"], len(runs), progress, start)
+        again.update(named=True, turned=shift)
+        return [*runs, again]
 
     # ------------------------------------------------------------------ API
     def fit(
@@ -868,7 +901,9 @@ class TractHMM:
                         progress(r, runs[-1]["monitor"].iter, runs[-1]["objective"])
         else:
             runs = [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
-        best = max(range(len(runs)), key=lambda r: runs[r]["objective"])
+        runs = self._named_runs(runs, data, progress)
+        kept = [r for r in range(len(runs)) if runs[r].get("named", True)]
+        best = max(kept, key=lambda r: runs[r]["objective"])
         run = runs[best]
         self.emissions_ = run["pieces"]
         self.startprob_ = run["startprob"]
@@ -886,6 +921,8 @@ class TractHMM:
                 "n_iter": x["monitor"].iter,
                 "converged": x["monitor"].reached_tolerance,
                 "history": list(x["monitor"].history),
+                "named": bool(x.get("named", True)),
+                **({"turned": x["turned"]} if "turned" in x else {}),
             }
             for r, x in enumerate(runs)
         ]
