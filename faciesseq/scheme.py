@@ -40,7 +40,17 @@ __all__ = [
     "load_tract_model",
 ]
 
-_FACIES_KEYS = {"code", "name", "rank", "group", "colour", "grain_size", "aliases", "description"}
+_FACIES_KEYS = {
+    "code",
+    "name",
+    "rank",
+    "group",
+    "colour",
+    "grain_size",
+    "aliases",
+    "description",
+    "cycle_base",
+}
 _SCHEME_KEYS = {"name", "description", "facies", "version"}
 _TRACT_KEYS = {"code", "name", "trend", "description"}
 _SURFACE_KEYS = {"lower", "upper", "code", "name"}
@@ -95,6 +105,7 @@ class Facies:
     grain_size: float | None = None
     aliases: tuple[str, ...] = ()
     description: str | None = None
+    cycle_base: bool = False
 
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {"code": self.code, "name": self.name, "rank": self.rank}
@@ -103,6 +114,8 @@ class Facies:
                 out[key] = getattr(self, key)
         if self.aliases:
             out["aliases"] = list(self.aliases)
+        if self.cycle_base:
+            out["cycle_base"] = True
         return out
 
 
@@ -221,6 +234,11 @@ class FaciesScheme:
                         f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
                         file=source,
                     )
+            cycle_base = entry.get("cycle_base", False)
+            if not isinstance(cycle_base, bool):
+                raise ConfigError(
+                    f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
+                )
             raw_aliases = entry.get("aliases") or []
             if not isinstance(raw_aliases, list):
                 raw_aliases = [raw_aliases]
@@ -235,6 +253,7 @@ class FaciesScheme:
                     grain_size=None if grain is None else float(grain),
                     aliases=aliases,
                     description=entry.get("description"),
+                    cycle_base=cycle_base,
                 )
             )
         for f in facies:

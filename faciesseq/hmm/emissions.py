@@ -157,6 +157,7 @@ def encode_beds(
     contacts: Sequence[str] = (),
     numeric: Sequence[str] = (),
     ranks: np.ndarray | None = None,
+    cycle_base: np.ndarray | None = None,
 ) -> EncodedBeds:
     """Code bed tables (each base to top) for the emission pieces.
 
@@ -172,7 +173,10 @@ def encode_beds(
         ``"rank_step"`` is computed from the facies and ``ranks``).
     ranks
         Proximality rank of each of ``facies`` (``NaN`` unknown); needed for
-        ``"rank_step"``.
+        ``"rank_step"`` and the context features.
+    cycle_base
+        Whether each of ``facies`` always starts a cycle (the scheme's
+        ``cycle_base`` mark), for the context features.
     """
     lengths = np.array([len(t) for t in tables], dtype=np.int64)
     # Chunks of whole tables keep the pandas temporaries small on big databases.
@@ -228,7 +232,7 @@ def encode_beds(
         values[RANK_STEP_ABOVE] = rank_steps_above(fac, lengths, ranks)
     context = [name for name in numeric if name in CONTEXT_FEATURES]
     if context:
-        values.update(_context_values(tables, fac, lengths, ranks, context))
+        values.update(_context_values(tables, fac, lengths, ranks, context, cycle_base))
     if STACKING in numeric:
         if "thickness" not in values:
             raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
@@ -236,7 +240,7 @@ def encode_beds(
     return EncodedBeds(lengths, fac, prev, contact, values)
 
 
-def _context_values(tables, fac, lengths, ranks, names) -> dict[str, np.ndarray]:
+def _context_values(tables, fac, lengths, ranks, names, cycle_base=None) -> dict[str, np.ndarray]:
     """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`)."""
     if ranks is None:
         raise ConfigError(f"the features {names} need a facies scheme with ranks (--scheme)")
@@ -260,7 +264,11 @@ def _context_values(tables, fac, lengths, ranks, names) -> dict[str, np.ndarray]
                 for t in tables
             ]
         )
-    context = bed_context(bed_ranks, lengths, thickness, sharp=sharp)
+    starts = None
+    if cycle_base is not None:
+        starts = np.zeros(len(fac), dtype=bool)
+        starts[known] = np.asarray(cycle_base, dtype=bool)[fac[known]]
+    context = bed_context(bed_ranks, lengths, thickness, cycle_base=starts, sharp=sharp)
     return {name: context[name] for name in names}
 
 

@@ -57,8 +57,9 @@ def turn(
 ) -> tuple[list[EmissionPiece], np.ndarray, np.ndarray] | None:
     """Parameters with tract ``t`` taking those of tract ``(t + shift) % n``.
 
-    Transitions the graph forbids after the turn are set to zero and each row
-    renormalised (EM starts again from these). ``None`` when the turn is not
+    Transitions the graph forbids after the turn are set to zero, and every
+    table is mixed with a tenth of a uniform one over what the graph allows, so
+    that no allowed cell starts at zero (EM starts again from these). ``None`` when the turn is not
     defined: tracts with different numbers of sub-states, or a piece other than a
     categorical table.
     """
@@ -73,9 +74,11 @@ def turn(
     for p in pieces:
         p.emissionprob_ = p.emissionprob_[old_tract].copy()
         p.unseen_prob_ = np.asarray(p.unseen_prob_)[old_tract].copy()
+    for p in pieces:
+        p.emissionprob_ = 0.9 * p.emissionprob_ + 0.1 / p.emissionprob_.shape[1]
     A = np.where(states.allowed, transmat[np.ix_(perm, perm)], 0.0)
     rows = A.sum(axis=1, keepdims=True)
     uniform = states.allowed / states.allowed.sum(axis=1, keepdims=True)
-    A = np.where(rows > 0, A / np.where(rows > 0, rows, 1.0), uniform)
-    pi = startprob[perm]
-    return list(pieces), pi / pi.sum(), A
+    A = 0.9 * np.where(rows > 0, A / np.where(rows > 0, rows, 1.0), uniform) + 0.1 * uniform
+    pi = 0.9 * startprob[perm] / startprob.sum() + 0.1 / len(startprob)
+    return list(pieces), pi, A

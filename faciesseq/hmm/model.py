@@ -458,7 +458,12 @@ class TractHMM:
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
         if "stacking" in numeric and "thickness" not in numeric:
             numeric.append("thickness")
-        return encode_beds(tables, self.facies_, self.contacts_, numeric, self.ranks_)
+        marks = None
+        if self.scheme is not None:
+            marks = np.array(
+                [c in self.scheme and self.scheme[c].cycle_base for c in self.facies_], dtype=bool
+            )
+        return encode_beds(tables, self.facies_, self.contacts_, numeric, self.ranks_, marks)
 
     def _train_static(self, beds: EncodedBeds, clamp: np.ndarray | None) -> dict:
         """The static pieces (learnt once from the labelled beds, before EM), by feature."""
