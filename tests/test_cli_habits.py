@@ -454,7 +454,7 @@ assert not [m for m in sys.modules if m.split(".")[0] in BLOCKED]
     )
     env = {**os.environ, "PYTHONPATH": str(ROOT), "MPLBACKEND": "Agg"}
     done = subprocess.run(
-        [sys.executable, "-c", script], env=env, capture_output=True, text=True, timeout=300
+        [sys.executable, "-c", script], env=env, capture_output=True, text=True, timeout=1200
     )
     assert done.returncode == 0, done.stderr[-2000:]
     import sqlite3
