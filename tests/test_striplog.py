@@ -154,3 +154,11 @@ def test_legends_give_whole_facies_and_surface_names(model, scheme):
     code, name = max(first_names.items(), key=lambda kv: len(kv[1]))
     assert len(name) > 40 and f"{code} {name}" in joined
     assert any("\n" in t for t in texts)  # long names wrap instead of widening the page
+
+
+def test_pick_labels_never_overprint():
+    from faciesseq.report.striplog import label_depths
+
+    out = label_depths(np.array([7.5, 7.6, 7.62, 20.0]), 0.5)
+    np.testing.assert_allclose(out, [7.5, 8.0, 8.5, 20.0])
+    assert (np.diff(out) >= 0.5 - 1e-12).all()

@@ -141,6 +141,15 @@ def _rows(labels) -> int:
     return sum(label.count("\n") + 1 for label in labels)
 
 
+def label_depths(depths: np.ndarray, gap: float) -> np.ndarray:
+    """Depths at which to write pick labels (depth order) so that no two are closer
+    than ``gap``: each label moves down just enough to clear the one above it."""
+    out = np.asarray(depths, dtype=float).copy()
+    for i in range(1, len(out)):
+        out[i] = max(out[i], out[i - 1] + gap)
+    return out
+
+
 def strip_log(
     interp: CoreInterpretation,
     scheme: FaciesScheme,
@@ -308,7 +317,10 @@ def strip_log(
             colour = surface_colour(code, surfaces)
             x = np.repeat(p, 2)
             ax_s.fill_betweenx(y, 0, x, where=np.isfinite(x), color=colour, alpha=0.85, lw=0)
-        for pick in picks.itertuples(index=False) if len(picks) else ():
+        ordered = picks.sort_values("depth", kind="stable") if len(picks) else picks
+        span = abs(ax_s.get_ylim()[0] - ax_s.get_ylim()[1]) or 1.0
+        label_at = label_depths(ordered["depth"].to_numpy(float), 0.02 * span) if len(picks) else []
+        for pick, at in zip(ordered.itertuples(index=False), label_at):
             colour = surface_colour(str(pick.surface), surfaces)
             depth, prob = float(pick.depth), float(pick.probability)
             lo = float(getattr(pick, "depth_top", depth))
@@ -319,7 +331,7 @@ def strip_log(
             right = prob <= 0.62
             ax_s.text(
                 prob + 0.05 if right else prob - 0.05,
-                depth,
+                at,
                 f"{pick.surface} {prob:.2f}",
                 va="bottom",
                 ha="left" if right else "right",
