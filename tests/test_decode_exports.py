@@ -155,7 +155,7 @@ def test_las_code_tables_and_values_equal_the_decoded_tracts(decoded):
 
 
 def test_las_gap_in_the_core_is_null(decoded):
-    """lasio reads the NULL value as NaN (lasio 0.31 documentation, "null policy")."""
+    """lasio reads the NULL value as NaN (lasio 0.32, its default "null policy")."""
     las = lasio.read(decoded / "las" / "S-71-1.las")
     depth = las["DEPT"]
     in_gap = (depth > GAP[0] + STEP) & (depth < GAP[1] - STEP)
