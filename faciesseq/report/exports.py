@@ -147,11 +147,12 @@ def samples_table(interp, samples: pd.DataFrame) -> pd.DataFrame:
     out = samples[original].rename(columns=renamed).reset_index(drop=True)
     tract = np.full(len(out), None, dtype=object)
     probs = np.full((len(out), len(interp.tracts)), np.nan)
-    cores = samples[CORE_KEY].astype(object).to_numpy()
     depths = pd.to_numeric(samples[DEPTH_KEY], errors="coerce").to_numpy(float)
+    groups = pd.Series(np.arange(len(out))).groupby(samples[CORE_KEY].to_numpy(), sort=False)
+    rows_of = {name: part.to_numpy() for name, part in groups}
     for core in interp:
-        rows = np.flatnonzero(cores == core.core)
-        if not len(rows):
+        rows = rows_of.get(core.core)
+        if rows is None:
             continue
         beds = core.beds.reset_index(drop=True)
         which = _bed_index(beds, depths[rows])
