@@ -157,7 +157,8 @@ def test_decode_force_replaces_the_folder_without_stale_files(source, model, tmp
     code, _, _ = _run(capsys, [*argv, "--format", "json", "--force"])
     assert code == 0
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["agreement.json", "picks.json", "surfaces.json", "tracts.json"]
+    expected = ["agreement.json", "picks.json", "surfaces.json", "tops.csv", "tops.json"]
+    assert names == [*expected, "tracts.json"]
     assert _siblings(tmp_path) == []
 
 

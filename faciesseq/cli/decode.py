@@ -11,6 +11,7 @@ from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
+    column_mapping,
     load_scheme_option,
     read_source,
     require_file,
@@ -18,7 +19,7 @@ from faciesseq.cli._common import (
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.errors import ConfigError
 
-FORMATS = ("csv", "json", "parquet")
+FORMATS = ("csv", "json", "parquet", "las")
 SUMMARIES = ("text", "json")
 #: Schema metadata key of a Parquet table holding the ``probabilities`` record.
 PARQUET_KEY = b"faciesseq.probabilities"
@@ -28,6 +29,7 @@ examples:
   faciesseq decode model.json cores.csv -o decoded
   faciesseq decode model.json new-cores.csv --scheme my-scheme.yaml --plot -o decoded --force
   faciesseq decode model.json cores.csv --format parquet --summary json -o decoded
+  faciesseq decode model.json cores.csv --format las --las-step 0.1 -o decoded
 """
 
 
@@ -38,8 +40,10 @@ def register(subparsers) -> None:
         description="Decode every core of SOURCE with a model written by `faciesseq fit`: "
         "the most likely tract of every bed (Viterbi), the posterior probability of each "
         "tract per bed, the probability of each named surface at every contact and the "
-        "picked surfaces. Writes OUT/tracts.*, OUT/surfaces.* and OUT/picks.*; with --plot "
-        "one strip-log figure per core. Each of the three tables says whether its "
+        "picked surfaces. Writes OUT/tracts.*, OUT/surfaces.*, OUT/picks.* and a tops table "
+        "OUT/tops.csv; for a samples-layout SOURCE, OUT/samples.* (its rows with the decoded "
+        "tract); with --format las one LAS 2.0 file per well in OUT/las/; with --plot "
+        "one strip-log figure per core. Each table says whether its "
         "probabilities were checked against known tracts (a first '# ' line in CSV, a "
         "'probabilities' key in JSON, file metadata in Parquet). Prints one line per well "
         "(at most 30): thickness per tract, cycles, surface picks and the mean probability "
@@ -52,7 +56,19 @@ def register(subparsers) -> None:
     parser.add_argument("model", metavar="MODEL", help="model file written by `faciesseq fit`")
     add_source_arguments(parser)
     add_output_arguments(parser, "OUT", "output folder", required=True)
-    parser.add_argument("--format", choices=FORMATS, default="csv", help="table format")
+    parser.add_argument(
+        "--format",
+        choices=FORMATS,
+        default="csv",
+        help="table format; las: CSV tables plus one LAS 2.0 file per well in OUT/las/",
+    )
+    parser.add_argument(
+        "--las-step",
+        type=float,
+        metavar="X",
+        help="depth step of the LAS curves, in the cores' units (default: half the median "
+        "bed thickness, rounded down to 1, 2 or 5 times a power of ten)",
+    )
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
     parser.add_argument(
         "--summary",
@@ -144,12 +160,27 @@ def figure_name(core: str, used: Collection[str] = ()) -> str:
     return safe_stem(core, used)
 
 
-def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
-    """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
+def write_output(
+    interp, out: Path, fmt: str, agreement, plot, scheme, tract_model, samples=None, las_step=None
+) -> None:
+    """Write the tables (and figures) into a new folder, then swap it in for ``out``;
+    ``samples`` (:func:`faciesseq.io.samples.read_samples`) adds ``samples.<fmt>``."""
     from faciesseq._output import new_folder
+    from faciesseq.report import exports
 
     record = probability_record(interp)
+    las, fmt = fmt == "las", "csv" if fmt == "las" else fmt
     with new_folder(out) as temp:
+        tops = exports.tops_table(interp)
+        for tops_fmt in dict.fromkeys(("csv", fmt)):  # tops.csv always
+            _write_table(tops, temp / f"tops.{tops_fmt}", tops_fmt, record)
+        if samples is not None:
+            table = exports.samples_table(interp, samples)
+            _write_table(table, temp / f"samples.{fmt}", fmt, record)
+        if las:
+            exports.write_las_files(
+                interp, temp / "las", step=las_step, scheme=scheme, tract_model=tract_model
+            )
         _write_table(interp.tracts_table(), temp / f"tracts.{fmt}", fmt, record)
         _write_table(interp.surfaces_table(), temp / f"surfaces.{fmt}", fmt, record)
         _write_table(interp.picks_table(), temp / f"picks.{fmt}", fmt, record)
@@ -219,7 +250,8 @@ def _print_text(args, model, scheme, interp, agreement) -> None:
             f"{100 * _overall_agreement(agreement):.1f} % of {int(agreement['beds'].sum())} "
             f"labelled beds in {len(agreement)} core(s)"
         )
-    print(f"written to {args.output}/ (tracts, surfaces, picks as {args.format})")
+    shown = "csv, and LAS files in las/" if args.format == "las" else args.format
+    print(f"written to {args.output}/ (tracts, surfaces, picks, tops as {shown})")
 
 
 def _print_json(args, scheme, interp, agreement) -> None:
@@ -236,11 +268,30 @@ def _print_json(args, scheme, interp, agreement) -> None:
     print_json(doc)
 
 
+def _samples(args: argparse.Namespace):
+    """The source's sample rows for ``samples.<fmt>`` (None for the interval layout)."""
+    from faciesseq.io.samples import read_samples
+
+    names = ("layout", "units", "sheet", "table", "query", "curve")
+    options = {k: getattr(args, k) for k in names}
+    return read_samples(args.source, columns=column_mapping(args.column), **options)
+
+
 def run(args: argparse.Namespace) -> int:
+    if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
+        raise ConfigError("--las-step takes a positive depth step, with --format las")
     model, scheme, interp = _decode(args)
     agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
     write_output(
-        interp, Path(args.output), args.format, agreement, args.plot, scheme, model.tract_model_
+        interp,
+        Path(args.output),
+        args.format,
+        agreement,
+        args.plot,
+        scheme,
+        model.tract_model_,
+        samples=_samples(args),
+        las_step=args.las_step,
     )
     if args.summary == "json":
         _print_json(args, scheme, interp, agreement)

@@ -1,0 +1,361 @@
+"""Exports of a decoded interpretation that other geoscience software reads.
+
+- :func:`tops_table`: the picked surfaces as a tops (markers) table, one row per
+  pick: ``well, surface, name, depth, depth_top, depth_base, probability, units``.
+- :func:`samples_table`: the user's own sample rows (sample layout), each with
+  the decoded ``tract`` and ``p_<TRACT>`` of the bed that holds it.
+- :func:`write_las_files`: one LAS 2.0 file per well (Canadian Well Logging
+  Society, LAS Version 2.0, 1992), written with lasio: ``DEPT``, ``FACIES``,
+  ``TRACT`` and one ``P_<TRACT>`` probability curve per tract on a regular
+  depth grid, text codes as whole numbers with their table in ``~Parameter``
+  (``FACIES_<n>``, ``TRACT_<n>``, as :mod:`faciesseq.io.las` writes and reads
+  them).
+
+A depth belongs to the bed with ``top <= depth < base``; the base of the last
+bed above a gap (or of the core) belongs to that bed. Depths in no bed (gaps,
+above or below the core) have no tract: blank in tables, the null value in LAS.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import DEPTH_TOL
+from faciesseq.errors import ConfigError
+
+__all__ = [
+    "LAS_NULL",
+    "MAX_LAS_SAMPLES",
+    "TOPS_COLUMNS",
+    "default_las_step",
+    "samples_table",
+    "tidy_step",
+    "tops_table",
+    "write_las_files",
+]
+
+#: Columns of the tops table, in order.
+TOPS_COLUMNS = (
+    "well",
+    "surface",
+    "name",
+    "depth",
+    "depth_top",
+    "depth_base",
+    "probability",
+    "units",
+)
+#: Null value of the LAS files (the value of common practice; :data:`faciesseq.io.las.LAS_NULL`).
+LAS_NULL = -999.25
+#: Most depth samples in one LAS file; a smaller ``step`` is refused before writing.
+MAX_LAS_SAMPLES = 2_000_000
+
+
+def tops_table(interp) -> pd.DataFrame:
+    """The picked surfaces of every well, one row per pick, depth order within wells.
+
+    Columns :data:`TOPS_COLUMNS`: ``well`` (the core), ``surface`` (code),
+    ``name``, ``depth`` (the pick), ``depth_top`` and ``depth_base`` (its
+    uncertainty interval), ``probability`` (of the surface at the pick) and
+    ``units`` (``m`` or ``ft``).
+    """
+    frames = []
+    for core in interp:
+        picks = core.picks
+        if not len(picks):
+            continue
+        part = pd.DataFrame(
+            {
+                "well": core.core,
+                "surface": picks["surface"].to_numpy(),
+                "name": picks["name"].to_numpy(),
+                "depth": picks["depth"].to_numpy(float),
+                "depth_top": picks["depth_top"].to_numpy(float),
+                "depth_base": picks["depth_base"].to_numpy(float),
+                "probability": picks["probability"].to_numpy(float),
+                "units": core.units,
+            }
+        )
+        frames.append(part.sort_values("depth", kind="stable"))
+    if not frames:
+        return pd.DataFrame(columns=list(TOPS_COLUMNS))
+    return pd.concat(frames, ignore_index=True)[list(TOPS_COLUMNS)]
+
+
+def _bed_index(beds: pd.DataFrame, depth: np.ndarray) -> np.ndarray:
+    """Row of ``beds`` (depth order) holding each depth, -1 where none does.
+
+    ``top <= depth < base``; a depth at the base of a bed that no bed
+    continues below (above a gap, at the base of the core) is in that bed.
+    """
+    out = np.full(len(depth), -1, dtype=np.int64)
+    if not len(beds) or not len(depth):
+        return out
+    top = beds["top"].to_numpy(float)
+    base = beds["base"].to_numpy(float)
+    order = np.argsort(top, kind="stable")
+    known = np.isfinite(depth)
+    pos = np.searchsorted(top[order] - DEPTH_TOL, np.where(known, depth, -np.inf), side="right")
+    idx = order[np.clip(pos - 1, 0, None)]
+    inside = known & (pos > 0) & (depth <= base[idx] + DEPTH_TOL)
+    out[inside] = idx[inside]
+    return out
+
+
+def _clear_name(name: str, taken: Iterable[str]) -> str:
+    """``name``, or ``source_<name>`` (then ``source_source_<name>``...) if taken."""
+    taken = set(taken)
+    while name in taken:
+        name = f"source_{name}"
+    return name
+
+
+def samples_table(interp, samples: pd.DataFrame) -> pd.DataFrame:
+    """The user's sample rows with the decoded tract of the bed holding each sample.
+
+    Parameters
+    ----------
+    interp
+        The :class:`~faciesseq.interpretation.Interpretation`.
+    samples
+        From :func:`faciesseq.io.samples.read_samples`: the original columns
+        and the reader's core name and depth of each row
+        (:data:`~faciesseq.io.samples.CORE_KEY`, :data:`~faciesseq.io.samples.DEPTH_KEY`).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Every row and original column of ``samples`` in their order, plus
+        ``tract`` and ``p_<TRACT>`` (one per tract, in the model's order) of
+        the bed that holds the sample; blank where no decoded bed holds it (a
+        gap, a sample without a facies code, a core left out). An original
+        column named like one of these is kept as ``source_<name>``.
+    """
+    from faciesseq.io.samples import CORE_KEY, DEPTH_KEY
+
+    added = ["tract", *[f"p_{t}" for t in interp.tracts]]
+    original = [c for c in samples.columns if c not in (CORE_KEY, DEPTH_KEY)]
+    renamed = {}
+    for col in original:
+        if col in added:
+            renamed[col] = _clear_name(f"source_{col}", [*original, *added])
+    out = samples[original].rename(columns=renamed).reset_index(drop=True)
+    tract = np.full(len(out), None, dtype=object)
+    probs = np.full((len(out), len(interp.tracts)), np.nan)
+    depths = pd.to_numeric(samples[DEPTH_KEY], errors="coerce").to_numpy(float)
+    groups = pd.Series(np.arange(len(out))).groupby(samples[CORE_KEY].to_numpy(), sort=False)
+    rows_of = {name: part.to_numpy() for name, part in groups}
+    for core in interp:
+        rows = rows_of.get(core.core)
+        if rows is None:
+            continue
+        beds = core.beds.reset_index(drop=True)
+        which = _bed_index(beds, depths[rows])
+        hit = which >= 0
+        tract[rows[hit]] = beds["tract"].astype(str).to_numpy(object)[which[hit]]
+        p = beds[[f"p_{t}" for t in interp.tracts]].to_numpy(float)
+        probs[rows[hit]] = p[which[hit]]
+    out["tract"] = tract
+    for j, t in enumerate(interp.tracts):
+        out[f"p_{t}"] = probs[:, j]
+    return out
+
+
+def tidy_step(value: float) -> float:
+    """The largest of 1, 2 or 5 times a power of ten not above ``value`` (> 0)."""
+    if not (value > 0 and math.isfinite(value)):
+        raise ConfigError(f"a depth step must be a positive number, got {value!r}")
+    power = 10.0 ** math.floor(math.log10(value))
+    for mult in (5, 2, 1):
+        if mult * power <= value * (1 + 1e-9):
+            return float(f"{mult * power:.12g}")
+    return float(f"{power:.12g}")  # pragma: no cover - mult 1 always fits
+
+
+def default_las_step(interp) -> tuple[float, float]:
+    """``(step, median)``: half the median bed thickness over every well, made tidy
+    (:func:`tidy_step`), in the wells' units; and the median itself."""
+    thick = np.concatenate(
+        [(c.beds["base"] - c.beds["top"]).to_numpy(float) for c in interp if len(c.beds)]
+        or [np.zeros(0)]
+    )
+    thick = thick[np.isfinite(thick) & (thick > 0)]
+    if not len(thick):
+        raise ConfigError("no beds with a thickness to choose a LAS depth step from")
+    median = float(np.median(thick))
+    return tidy_step(median / 2), median
+
+
+def _natural(code: str) -> tuple:
+    try:
+        return (0, float(code), code)
+    except ValueError:
+        return (1, 0.0, code)
+
+
+def _facies_table(interp, scheme) -> list[tuple[str, str]]:
+    """``(code, name)`` per integer 1, 2, ...: the scheme's order, then other codes."""
+    found = {str(f) for c in interp for f in c.beds["facies"]}
+    table: list[tuple[str, str]] = []
+    if scheme is not None:
+        table = [(f.code, f.name) for f in scheme.facies]
+    known = {code for code, _ in table}
+    table += [(code, code) for code in sorted(found - known, key=_natural)]
+    return table
+
+
+def _tract_table(interp, tract_model) -> list[tuple[str, str]]:
+    names = {}
+    if tract_model is not None:
+        names = {t.code: t.name for t in tract_model.tracts}
+    return [(t, names.get(t, t)) for t in interp.tracts]
+
+
+def _grid(top: float, base: float, step: float) -> np.ndarray:
+    """Multiples of ``step`` from the first at or below ``top`` to the last at or above ``base``."""
+    first = math.ceil(top / step - 1e-6)
+    last = math.floor(base / step + 1e-6)
+    if last < first:
+        return np.zeros(0)
+    return np.round(np.arange(first, last + 1) * step, 10)
+
+
+def write_las_files(
+    interp,
+    folder: Path,
+    *,
+    step: float | None = None,
+    scheme=None,
+    tract_model=None,
+) -> list[Path]:
+    """Write one LAS 2.0 file per well into ``folder`` (created; it must not exist).
+
+    Parameters
+    ----------
+    interp
+        The :class:`~faciesseq.interpretation.Interpretation`.
+    folder
+        The folder to create; files are named after the wells
+        (:func:`faciesseq.io.writer.safe_stem`, ``.las``).
+    step
+        Depth step in the wells' units; default :func:`default_las_step`.
+    scheme, tract_model
+        For the names of the facies and tracts in the code tables (codes
+        stand for names without them).
+
+    Returns
+    -------
+    list of Path
+        The files written, in the order of the wells.
+
+    Notes
+    -----
+    Depths are the multiples of ``step`` from the top of the well's first bed
+    to the base of its last; each sample takes the bed holding its depth
+    (module notes), gaps hold ``NULL`` (-999.25). ``FACIES`` and ``TRACT`` are
+    whole numbers; ``~Parameter`` holds their tables (``FACIES_1 . USF :
+    upper shoreface``), the same for every well of the run. ``~Other`` states
+    how the step was chosen, the code tables in words and whether the
+    probabilities were checked.
+    """
+    from faciesseq._optional import import_optional
+    from faciesseq.io.writer import safe_stem
+
+    lasio = import_optional("lasio", "writing LAS files (decode --format las)")
+    if step is None:
+        step, median = default_las_step(interp)
+        units = next(iter(interp)).units
+        how = f"half the median bed thickness ({median:.4g} {units}) rounded down to {step:g}"
+    else:
+        step = float(step)
+        if not (step > 0 and math.isfinite(step)):
+            raise ConfigError(f"--las-step must be a positive number, got {step!r}")
+        how = "given (--las-step)"
+    for core in interp:
+        if len(core.beds):
+            span = float(core.beds["base"].max() - core.beds["top"].min())
+            if span / step > MAX_LAS_SAMPLES:
+                raise ConfigError(
+                    f"LAS step {step:g} would make about {int(span / step):,} samples "
+                    f"(at most {MAX_LAS_SAMPLES:,}); choose a larger --las-step",
+                    core=core.core,
+                )
+    facies = _facies_table(interp, scheme)
+    tracts = _tract_table(interp, tract_model)
+    facies_number = {code: k for k, (code, _) in enumerate(facies, start=1)}
+    tract_number = {code: k for k, (code, _) in enumerate(tracts, start=1)}
+    folder.mkdir()
+    written: list[Path] = []
+    used: set[str] = set()
+    for core in interp:
+        stem = safe_stem(core.core, used) if core.core else "core"
+        used.add(stem)
+        path = folder / f"{stem}.las"
+        las = _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number)
+        las.other = _other_text(interp, core.units, step, how, facies, tracts)
+        with open(path, "w", encoding="utf-8", newline="\n") as handle:
+            las.write(handle, version=2.0, fmt="%.10g")
+        written.append(path)
+    return written
+
+
+def _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number):
+    beds = core.beds.reset_index(drop=True)
+    unit = core.units.upper()
+    if len(beds):
+        depth = _grid(float(beds["top"].min()), float(beds["base"].max()), step)
+    else:
+        depth = np.zeros(0)
+    which = _bed_index(beds, depth)
+    hit = which >= 0
+    at = np.clip(which, 0, None)
+
+    def curve(values: np.ndarray) -> np.ndarray:
+        return np.where(hit, values[at] if len(values) else LAS_NULL, LAS_NULL).astype(float)
+
+    las = lasio.LASFile()
+    las.well["WELL"].value = core.core
+    las.well["NULL"].value = LAS_NULL
+    las.well["STRT"].value = float(depth[0]) if len(depth) else 0.0
+    las.well["STOP"].value = float(depth[-1]) if len(depth) else 0.0
+    las.well["STEP"].value = step
+    for key in ("STRT", "STOP", "STEP"):
+        las.well[key].unit = unit
+    las.well["STEP"].descr = _descr(f"STEP DEPTH ({how})")
+    las.append_curve("DEPT", depth, unit=unit, descr="depth")
+    codes = np.array([facies_number[str(f)] for f in beds["facies"]], dtype=float)
+    las.append_curve("FACIES", curve(codes), descr="facies code number (FACIES_n in ~Parameter)")
+    numbers = np.array([tract_number[str(t)] for t in beds["tract"]], dtype=float)
+    las.append_curve("TRACT", curve(numbers), descr="decoded systems tract (TRACT_n in ~Parameter)")
+    for code, name in tracts:
+        values = beds[f"p_{code}"].to_numpy(float)
+        las.append_curve(f"P_{code}", curve(values), descr=_descr(f"probability of the {name}"))
+    for code, name in facies:
+        k = facies_number[code]
+        las.params.append(lasio.HeaderItem(f"FACIES_{k}", value=code, descr=_descr(name)))
+    for code, name in tracts:
+        k = tract_number[code]
+        las.params.append(lasio.HeaderItem(f"TRACT_{k}", value=code, descr=_descr(name)))
+    return las
+
+
+def _descr(text: str) -> str:
+    """A LAS description: one line, no colon (the value ends at the last colon of a line)."""
+    return " ".join(str(text).replace(":", " -").split())
+
+
+def _other_text(interp, units, step, how, facies, tracts) -> str:
+    lines = [
+        f"Depth step {step:g} {units}: {how}.",
+        "FACIES codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(facies, 1)),
+        "TRACT codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(tracts, 1)),
+        "P_<TRACT>: posterior probability of each tract in the bed holding the depth.",
+        f"Gaps in the core hold the null value {LAS_NULL}.",
+        interp.probabilities_note,
+    ]
+    return "\n".join(lines)

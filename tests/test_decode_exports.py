@@ -1,0 +1,327 @@
+"""Exports of decode that other geoscience software reads: LAS 2.0 files, a tops table and
+the user's sample rows with their decoded tract (synthetic cores from tests/hmm_synthetic.py,
+invented)."""
+
+import hmm_synthetic as synth
+import lasio
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+
+from faciesseq.cli import main
+from faciesseq.report.exports import (
+    LAS_NULL,
+    TOPS_COLUMNS,
+    default_las_step,
+    samples_table,
+    tidy_step,
+    tops_table,
+)
+
+STEP = 0.05  # sample spacing of the sample-layout source
+GAP = (3.0, 3.6)  # no samples of the first core between these depths
+TRACTS = ("HST", "FSST", "LST", "TST")
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    """Interval cores (to fit on) and the same cores as a facies log sampled every 5 cm,
+    with columns named as a user's (Well, Depth, Facies), a gamma-ray column, the
+    interpreter's tract and a gap in the first core."""
+    folder = tmp_path_factory.mktemp("db")
+    synth.write_database(folder, 6, 50, seed=71)
+    beds = pd.read_csv(folder / "cores.csv")
+    rows = []
+    for core, part in beds.groupby("core", sort=False):
+        depth = np.round(np.arange(STEP / 2, part["base"].max(), STEP), 6)
+        for x in depth:
+            if core == "S-71-1" and GAP[0] < x < GAP[1]:
+                continue
+            bed = part[(part["top"] <= x) & (part["base"] > x)].iloc[0]
+            rows.append(
+                {
+                    "Well": core,
+                    "Depth": x,
+                    "Facies": bed["facies"],
+                    "GR": round(60 + 20 * np.sin(3 * x), 3),
+                    "tract": bed["tract"],
+                }
+            )
+    pd.DataFrame(rows).to_csv(folder / "samples.csv", index=False)
+    model = folder / "model.json"
+    argv = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
+    assert main([*argv, "-o", str(model), "--restarts", "1", "--calibration-folds", "0"]) == 0
+    return folder
+
+
+@pytest.fixture(scope="module")
+def decoded(database, tmp_path_factory):
+    """``decode --format las`` of the sample-layout source."""
+    out = tmp_path_factory.mktemp("decoded") / "out"
+    source = database / "samples.csv"
+    argv = ["decode", str(database / "model.json"), str(source), "--units", "m"]
+    assert main([*argv, "--format", "las", "-o", str(out)]) == 0
+    return out
+
+
+def _read(path) -> pd.DataFrame:
+    return pd.read_csv(path, skiprows=1)  # the first line is the probability note
+
+
+def _tract_at(tracts: pd.DataFrame, core: str, depth: float) -> str:
+    """The decoded tract at ``depth``: the bed with top <= depth < base (tracts.csv)."""
+    beds = tracts[tracts["core"] == core]
+    hit = beds[(beds["top"] <= depth) & (depth < beds["base"])]
+    assert len(hit) == 1, (core, depth)
+    return hit["tract"].iloc[0]
+
+
+# ---------------------------------------------------------------- LAS
+
+
+def test_las_format_writes_the_csv_tables_and_one_las_file_per_well(decoded):
+    names = {p.name for p in decoded.iterdir()}
+    assert {"tracts.csv", "surfaces.csv", "picks.csv", "tops.csv", "samples.csv"} <= names
+    wells = sorted(p.name for p in (decoded / "las").iterdir())
+    assert wells == [f"S-71-{k}.las" for k in range(1, 7)]
+
+
+def test_las_file_reads_back_with_lasio_curves_units_null_and_well(decoded):
+    """LAS 2.0 (Canadian Well Logging Society 1992: ~Version, ~Well with STRT, STOP,
+    STEP, NULL, WELL; ~Curve; ~Parameter; ~Other; ~ASCII), read back by lasio."""
+    las = lasio.read(decoded / "las" / "S-71-2.las")
+    assert las.version["VERS"].value == 2.0
+    assert las.well["WELL"].value == "S-71-2"
+    assert las.well["NULL"].value == LAS_NULL
+    mnemonics = [c.mnemonic for c in las.curves]
+    assert mnemonics == ["DEPT", "FACIES", "TRACT", *[f"P_{t}" for t in TRACTS]]
+    assert las.curves["DEPT"].unit == "M"
+    for key in ("STRT", "STOP", "STEP"):
+        assert las.well[key].unit == "M"
+    depth = las["DEPT"]
+    step = float(las.well["STEP"].value)
+    assert np.allclose(np.diff(depth), step)
+    assert float(las.well["STRT"].value) == pytest.approx(depth[0])
+    assert float(las.well["STOP"].value) == pytest.approx(depth[-1])
+    tracts = _read(decoded / "tracts.csv")
+    beds = tracts[tracts["core"] == "S-71-2"]
+    assert depth[0] == pytest.approx(beds["top"].min())
+    assert depth[-1] <= beds["base"].max() < depth[-1] + step
+    p = np.column_stack([las[f"P_{t}"] for t in TRACTS])
+    assert np.allclose(p.sum(axis=1), 1.0, atol=1e-6)  # no gap in this well
+
+
+def test_las_step_default_is_half_the_median_bed_thickness_made_tidy(decoded):
+    tracts = _read(decoded / "tracts.csv")
+    median = float(np.median(tracts["base"] - tracts["top"]))
+    las = lasio.read(decoded / "las" / "S-71-3.las")
+    expected = tidy_step(median / 2)
+    assert float(las.well["STEP"].value) == pytest.approx(expected)
+    assert expected <= median / 2 < 2.5 * expected
+    assert "half the median bed thickness" in las.well["STEP"].descr
+    assert f"Depth step {expected:g} m" in las.other
+
+
+@pytest.mark.parametrize(
+    "value, tidy", [(0.52, 0.5), (0.5, 0.5), (0.19, 0.1), (0.2, 0.2), (3.7, 2.0), (12.0, 10.0)]
+)
+def test_tidy_step_is_one_two_or_five_times_a_power_of_ten(value, tidy):
+    assert tidy_step(value) == pytest.approx(tidy)
+
+
+def test_las_code_tables_and_values_equal_the_decoded_tracts(decoded):
+    las = lasio.read(decoded / "las" / "S-71-4.las")
+    tract_of = {
+        int(p.mnemonic.split("_")[1]): p.value for p in las.params if "TRACT_" in p.mnemonic
+    }
+    assert tract_of == {1: "HST", 2: "FSST", 3: "LST", 4: "TST"}
+    assert las.params["TRACT_1"].descr == "highstand systems tract"
+    facies_of = {
+        int(p.mnemonic.split("_")[1]): str(p.value) for p in las.params if "FACIES_" in p.mnemonic
+    }
+    assert facies_of == dict(enumerate(synth.CODES, start=1))  # the scheme's order
+    assert "TRACT codes: 1 = HST" in las.other
+    tracts = _read(decoded / "tracts.csv")
+    beds = tracts[tracts["core"] == "S-71-4"]
+    depth = las["DEPT"]
+    for i in np.linspace(0, len(depth) - 2, 7).astype(int):
+        d = float(depth[i])
+        assert tract_of[int(las["TRACT"][i])] == _tract_at(tracts, "S-71-4", d)
+        bed = beds[(beds["top"] <= d) & (d < beds["base"])].iloc[0]
+        assert facies_of[int(las["FACIES"][i])] == bed["facies"]
+        for t in TRACTS:
+            assert las[f"P_{t}"][i] == pytest.approx(bed[f"p_{t}"], abs=1e-6)
+
+
+def test_las_gap_in_the_core_is_null(decoded):
+    """lasio reads the NULL value as NaN (lasio 0.32, its default "null policy")."""
+    las = lasio.read(decoded / "las" / "S-71-1.las")
+    depth = las["DEPT"]
+    in_gap = (depth > GAP[0] + STEP) & (depth < GAP[1] - STEP)
+    assert in_gap.any()
+    for name in ("FACIES", "TRACT", *[f"P_{t}" for t in TRACTS]):
+        assert np.isnan(las[name][in_gap]).all()
+        assert not np.isnan(las[name][~in_gap]).any()
+    with open(decoded / "las" / "S-71-1.las", encoding="utf-8") as f:
+        assert "-999.25" in f.read().split("~A")[1]  # written as the stated NULL
+
+
+def test_las_step_option_and_feet(database, tmp_path):
+    out = tmp_path / "out"
+    argv = ["decode", str(database / "model.json"), str(database / "samples.csv")]
+    argv += ["--units", "ft", "--format", "las", "--las-step", "0.25", "-o", str(out)]
+    assert main(argv) == 0
+    las = lasio.read(out / "las" / "S-71-5.las")
+    assert float(las.well["STEP"].value) == 0.25
+    assert las.curves["DEPT"].unit == "FT" and las.well["STOP"].unit == "FT"
+    assert np.allclose(np.diff(las["DEPT"]), 0.25)
+    assert np.allclose(las["DEPT"] / 0.25, np.round(las["DEPT"] / 0.25))  # on the grid
+    assert "given (--las-step)" in las.well["STEP"].descr
+
+
+def test_las_step_without_las_format_is_refused_before_any_work(database, tmp_path, capsys):
+    out = tmp_path / "out"
+    argv = ["decode", str(database / "model.json"), str(database / "samples.csv")]
+    assert main([*argv, "--las-step", "0.5", "-o", str(out)]) == 2
+    assert "--las-step" in capsys.readouterr().err
+    assert not out.exists()
+    assert main([*argv, "--format", "las", "--las-step", "0", "-o", str(out)]) == 2
+    assert not out.exists()
+
+
+def test_missing_lasio_is_one_line_naming_the_extra(database, tmp_path, capsys, monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "lasio", None)  # import lasio now fails
+    out = tmp_path / "out"
+    argv = ["decode", str(database / "model.json"), str(database / "samples.csv")]
+    assert main([*argv, "--format", "las", "-o", str(out)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "faciesseq[las]" in err
+    assert not out.exists()
+
+
+# ---------------------------------------------------------------- tops
+
+
+def test_tops_table_has_one_row_per_pick_and_the_note_line(decoded):
+    with open(decoded / "tops.csv", encoding="utf-8") as f:
+        assert f.readline().startswith("# Tract and surface probabilities")
+    tops = _read(decoded / "tops.csv")
+    picks = _read(decoded / "picks.csv")
+    assert list(tops.columns) == list(TOPS_COLUMNS)
+    assert len(tops) == len(picks) > 0
+    assert (tops["units"] == "m").all()
+    key = ["well", "surface", "depth"]
+    mine = tops.sort_values(key).reset_index(drop=True)
+    theirs = picks.rename(columns={"core": "well"}).sort_values(key).reset_index(drop=True)
+    for col in ("well", "surface", "name"):
+        assert (mine[col] == theirs[col]).all()
+    for col in ("depth", "depth_top", "depth_base", "probability"):
+        assert np.allclose(mine[col], theirs[col])
+    for _, part in tops.groupby("well"):
+        assert part["depth"].is_monotonic_increasing
+
+
+def test_tops_are_also_written_as_parquet_and_csv_with_format_parquet(database, tmp_path):
+    out = tmp_path / "out"
+    argv = ["decode", str(database / "model.json"), str(database / "cores.csv")]
+    assert main([*argv, "--format", "parquet", "-o", str(out)]) == 0
+    table = pq.read_table(out / "tops.parquet")
+    assert table.column_names == list(TOPS_COLUMNS)
+    assert b"faciesseq.probabilities" in table.schema.metadata
+    assert len(_read(out / "tops.csv")) == table.num_rows
+    assert not (out / "samples.parquet").exists()  # an interval-layout source
+
+
+def test_tops_table_of_no_picks_has_the_columns():
+    from faciesseq.interpretation import Interpretation
+
+    empty = Interpretation({}, TRACTS, ("MFS",))
+    assert list(tops_table(empty).columns) == list(TOPS_COLUMNS)
+
+
+# ---------------------------------------------------------------- samples
+
+
+def test_samples_table_keeps_every_source_row_and_column(database, decoded):
+    source = pd.read_csv(database / "samples.csv")
+    samples = _read(decoded / "samples.csv")
+    assert len(samples) == len(source)
+    assert list(samples.columns) == [
+        "Well",
+        "Depth",
+        "Facies",
+        "GR",
+        "source_tract",  # the interpreter's column, kept under another name
+        "tract",
+        *[f"p_{t}" for t in TRACTS],
+    ]
+    assert (samples["Well"] == source["Well"]).all()
+    assert np.allclose(samples["Depth"], source["Depth"])
+    assert np.allclose(samples["GR"], source["GR"])
+    labelled = source["tract"].notna()
+    assert (samples.loc[labelled, "source_tract"] == source.loc[labelled, "tract"]).all()
+
+
+def test_each_sample_takes_the_tract_of_the_bed_that_holds_it(decoded):
+    samples = _read(decoded / "samples.csv")
+    tracts = _read(decoded / "tracts.csv")
+    assert samples["tract"].notna().all()
+    for i in np.linspace(0, len(samples) - 1, 25).astype(int):
+        row = samples.iloc[i]
+        assert row["tract"] == _tract_at(tracts, row["Well"], row["Depth"])
+    p = samples[[f"p_{t}" for t in TRACTS]].to_numpy()
+    assert np.allclose(p.sum(axis=1), 1.0, atol=1e-6)
+    best = np.array(TRACTS)[p.argmax(axis=1)]
+    assert (best == samples["tract"]).mean() > 0.9  # Viterbi mostly agrees with the posterior
+
+
+def test_samples_join_boundaries_gaps_and_unknown_cores():
+    """top <= depth < base; the base of the last bed above a gap is in that bed; a depth
+    in a gap, outside the core or in a core not decoded has no tract."""
+    from faciesseq.interpretation import CoreInterpretation, Interpretation
+    from faciesseq.io.samples import CORE_KEY, DEPTH_KEY
+
+    beds = pd.DataFrame(
+        {
+            "segment": [0, 0, 1],
+            "top": [0.0, 1.0, 3.0],
+            "base": [1.0, 2.0, 4.0],
+            "facies": ["A", "B", "A"],
+            "tract": ["HST", "TST", "LST"],
+            "p_HST": [0.9, 0.1, 0.0],
+            "p_TST": [0.1, 0.9, 0.2],
+            "p_LST": [0.0, 0.0, 0.8],
+        }
+    )
+    empty = pd.DataFrame()
+    core = CoreInterpretation("W", "m", ("HST", "TST", "LST"), (), beds, empty, empty, 0.0)
+    interp = Interpretation({"W": core}, ("HST", "TST", "LST"), ())
+    depth = [0.0, 0.99, 1.0, 2.0, 2.5, 3.0, 4.0, 4.5, -0.1, 1.5, np.nan]
+    samples = pd.DataFrame({"d": depth, CORE_KEY: ["W"] * 9 + ["X", "W"], DEPTH_KEY: depth})
+    out = samples_table(interp, samples)
+    assert list(out.columns) == ["d", "tract", "p_HST", "p_TST", "p_LST"]
+    expected = ["HST", "HST", "TST", "TST", None, "LST", "LST", None, None, None, None]
+    assert [None if pd.isna(t) else t for t in out["tract"]] == expected
+    assert out["p_LST"].iloc[6] == 0.8 and np.isnan(out["p_HST"].iloc[4])
+
+
+def test_samples_from_a_las_source_get_a_core_column(decoded, tmp_path):
+    """A LAS source (no core column: the well is the WELL item) read back as samples."""
+    from faciesseq.io.samples import CORE_KEY, DEPTH_KEY, read_samples
+
+    rows = read_samples(decoded / "las")
+    assert rows.columns[0] == "core"
+    assert set(rows["core"]) == {f"S-71-{k}" for k in range(1, 7)}
+    assert (rows["core"] == rows[CORE_KEY]).all()
+    assert rows[DEPTH_KEY].notna().all()
+
+
+def test_default_las_step_of_no_beds_is_refused():
+    from faciesseq.errors import ConfigError
+    from faciesseq.interpretation import Interpretation
+
+    with pytest.raises(ConfigError):
+        default_las_step(Interpretation({}, TRACTS, ()))
