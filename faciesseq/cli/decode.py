@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 from collections.abc import Collection
 from pathlib import Path
 
@@ -54,6 +55,12 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "OUT", "output folder", required=True)
     parser.add_argument("--format", choices=FORMATS, default="csv", help="table format")
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
+    parser.add_argument(
+        "--review-sheet",
+        action="store_true",
+        help="also write OUT/sheet.csv and OUT/sheet.xlsx for a geologist to correct the "
+        "tracts (then `faciesseq relabel`)",
+    )
     parser.add_argument(
         "--summary",
         choices=SUMMARIES,
@@ -144,7 +151,9 @@ def figure_name(core: str, used: Collection[str] = ()) -> str:
     return safe_stem(core, used)
 
 
-def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
+def write_output(
+    interp, out: Path, fmt: str, agreement, plot, scheme, tract_model, sheet=None
+) -> None:
     """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
     from faciesseq._output import new_folder
 
@@ -157,6 +166,10 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
         if plot:
             _write_strip_logs(interp, temp / "striplogs", scheme, tract_model)
+        if sheet is not None:  # the review sheet, for `faciesseq relabel`
+            from faciesseq.review import write_sheet
+
+            write_sheet(interp, temp, sheet)
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
@@ -239,11 +252,15 @@ def _print_json(args, scheme, interp, agreement) -> None:
 def run(args: argparse.Namespace) -> int:
     model, scheme, interp = _decode(args)
     agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
-    write_output(
-        interp, Path(args.output), args.format, agreement, args.plot, scheme, model.tract_model_
-    )
+    sheet = args.labels if args.review_sheet else None
+    out, tm = Path(args.output), model.tract_model_
+    write_output(interp, out, args.format, agreement, args.plot, scheme, tm, sheet)
     if args.summary == "json":
         _print_json(args, scheme, interp, agreement)
     else:
         _print_text(args, model, scheme, interp, agreement)
+    if args.review_sheet:
+        from faciesseq.review import sheet_note
+
+        print(sheet_note(out), file=sys.stderr if args.summary == "json" else sys.stdout)
     return 0
