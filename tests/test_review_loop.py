@@ -327,3 +327,11 @@ def test_relabel_has_the_house_help():
     assert "examples:" in help_text and "faciesseq relabel" in help_text
     assert "-o FILE, --output FILE" in help_text and "--force" in help_text
     assert "(default: tract)" in help_text
+
+
+def test_with_a_json_summary_the_sheet_line_goes_to_stderr(work, tmp_path, capsys):
+    out = tmp_path / "d"
+    argv = ["decode", work / "model.json", work / "cores.csv", "--review-sheet", "-o", out]
+    code, stdout, err = _run(capsys, [*argv, "--summary", "json"])
+    assert code == 0 and json.loads(stdout)["n_wells"] == 4
+    assert err.count("\n") == 1 and "sheet.csv" in err
