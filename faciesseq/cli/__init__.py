@@ -28,6 +28,7 @@ COMMANDS = (
     "simulate",
     "fit",
     "decode",
+    "relabel",
     "validate",
     "appendix",
     "demo",

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 from collections.abc import Collection
 from pathlib import Path
 
@@ -70,6 +71,12 @@ def register(subparsers) -> None:
         "bed thickness, rounded down to 1, 2 or 5 times a power of ten)",
     )
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
+    parser.add_argument(
+        "--review-sheet",
+        action="store_true",
+        help="also write OUT/sheet.csv and OUT/sheet.xlsx for a geologist to correct the "
+        "tracts (then `faciesseq relabel`)",
+    )
     parser.add_argument(
         "--summary",
         choices=SUMMARIES,
@@ -161,10 +168,20 @@ def figure_name(core: str, used: Collection[str] = ()) -> str:
 
 
 def write_output(
-    interp, out: Path, fmt: str, agreement, plot, scheme, tract_model, samples=None, las_step=None
+    interp,
+    out: Path,
+    fmt: str,
+    agreement,
+    plot,
+    scheme,
+    tract_model,
+    samples=None,
+    las_step=None,
+    sheet=None,
 ) -> None:
     """Write the tables (and figures) into a new folder, then swap it in for ``out``;
-    ``samples`` (:func:`faciesseq.io.samples.read_samples`) adds ``samples.<fmt>``."""
+    ``samples`` (:func:`faciesseq.io.samples.read_samples`) adds ``samples.<fmt>``,
+    ``sheet`` (the label column, or ``None``) the review sheet."""
     from faciesseq._output import new_folder
     from faciesseq.report import exports
 
@@ -188,6 +205,10 @@ def write_output(
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
         if plot:
             _write_strip_logs(interp, temp / "striplogs", scheme, tract_model)
+        if sheet is not None:  # the review sheet, for `faciesseq relabel`
+            from faciesseq.review import write_sheet
+
+            write_sheet(interp, temp, sheet)
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
@@ -292,9 +313,15 @@ def run(args: argparse.Namespace) -> int:
         model.tract_model_,
         samples=_samples(args),
         las_step=args.las_step,
+        sheet=args.labels if args.review_sheet else None,
     )
     if args.summary == "json":
         _print_json(args, scheme, interp, agreement)
     else:
         _print_text(args, model, scheme, interp, agreement)
+    if args.review_sheet:
+        from faciesseq.review import sheet_note
+
+        stream = sys.stderr if args.summary == "json" else sys.stdout
+        print(sheet_note(Path(args.output)), file=stream)
     return 0

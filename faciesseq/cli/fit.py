@@ -78,7 +78,10 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
     for extra in (args.scheme, tracts_file):
         if extra:
             digests[str(extra)] = file_digest(extra)
-    return {
+    from faciesseq.review import label_source_counts
+
+    sources = label_source_counts(cores)  # labels per review sheet, after `relabel`
+    return ({"label_sources": sources} if sources else {}) | {
         "source": str(args.source),
         "input_hashes": digests,
         "data_hash": coreset_digest(cores),

@@ -1,0 +1,108 @@
+"""``faciesseq relabel SHEET SOURCE -o labelled.csv``: a geologist's corrections as labels."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    load_scheme_option,
+    read_source,
+    require_file,
+)
+
+EXAMPLES = """\
+examples:
+  faciesseq decode model.json cores.csv --review-sheet -o decoded
+  faciesseq relabel decoded/sheet.xlsx cores.csv -o labelled.csv
+  faciesseq fit labelled.csv --scheme my-scheme.yaml --labels tract -o model-2.json
+  faciesseq relabel sheet.csv cores.csv --labels interpreted -o labelled.csv --force
+"""
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "relabel",
+        help="put a geologist's tracts from a filled review sheet on the source; "
+        "write a labelled table to fit on",
+        description="Read an interpretation sheet written by `faciesseq decode --review-sheet` "
+        "and filled in by a geologist (CSV or XLSX) and the SOURCE it was decoded from. Every "
+        "source interval of a sheet bed takes the bed's geologist_tract where that cell is "
+        "filled; elsewhere the source's label is kept. Writes the source table with the label "
+        "column filled and a label_source column (the sheet's file name, or 'source' for a "
+        "kept label), which `faciesseq fit --labels` records in the model file. Prints the "
+        "beds relabelled per core, the cores now labelled and the model's agreement with the "
+        "geologist before refitting. A sheet bed that matches no source interval or a tract "
+        "code not in the tract model is an error (exit 1).",
+        epilog=EXAMPLES,
+    )
+    parser.add_argument(
+        "review_sheet", metavar="SHEET", help="the filled sheet (sheet.csv or sheet.xlsx of decode)"
+    )
+    add_source_arguments(parser)
+    add_output_arguments(
+        parser, "FILE", "labelled table to write (.csv, .tsv, .xlsx, .parquet)", required=True
+    )
+    parser.add_argument(
+        "--labels",
+        default="tract",
+        metavar="COLUMN",
+        help="label column of the source to fill (created where absent)",
+    )
+    parser.add_argument(
+        "--tracts", metavar="FILE", help="tract-model YAML (default: the four tracts)"
+    )
+    parser.set_defaults(func=run)
+
+
+def _report(result, output: str) -> list[str]:
+    n_filled, n_changed = sum(result.filled.values()), sum(result.changed.values())
+    lines = [
+        f"{result.sheet}: {n_filled} bed(s) given a tract by the geologist in "
+        f"{len(result.filled)} core(s); {n_changed} relabelled (a new label or another "
+        f"tract), {result.intervals_changed} source interval(s) changed"
+    ]
+    for core, n in result.filled.items():
+        lines.append(f"  {core}: {result.changed[core]} relabelled of {n}")
+    n_cores = len(result.cores)
+    new = result.newly_labelled
+    lines.append(
+        f"cores labelled: {len(result.labelled_after)} of {n_cores}"
+        + (f" ({len(new)} new: {', '.join(new)})" if new else "")
+    )
+    if result.agreement is None:
+        lines.append("model's agreement with the geologist: - (no filled bed with a decoded tract)")
+    else:
+        u = result.cores.units
+        lines.append(
+            f"model's agreement with the geologist before refitting: "
+            f"{100 * result.agreement:.1f} % of {result.agreement_thickness:.2f} {u} "
+            f"({100 * result.agreement_beds:.1f} % of {n_filled} bed(s))"
+        )
+    lines.append(
+        f"written to {output} (labels in {result.labels!r}, origin in 'label_source'); "
+        f"next: faciesseq fit {output} --labels {result.labels} -o model.json"
+    )
+    return lines
+
+
+def run(args: argparse.Namespace) -> int:
+    from faciesseq._output import check_target
+    from faciesseq.cli._hmm import load_tracts_option
+    from faciesseq.io import write_cores
+    from faciesseq.review import read_sheet, relabel
+    from faciesseq.scheme import default_tract_model
+
+    check_target(args.output, force=args.force, folder=False)
+    tract_model = load_tracts_option(args.tracts) or default_tract_model()
+    sheet = read_sheet(require_file(args.review_sheet))
+    scheme = load_scheme_option(args.scheme)
+    cores = read_source(args, scheme).require_valid()
+    result = relabel(
+        sheet, cores, tract_model.codes, file=Path(args.review_sheet).name, labels=args.labels
+    )
+    write_cores(result.cores, args.output)
+    print("\n".join(_report(result, args.output)))
+    return 0

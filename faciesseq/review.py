@@ -1,0 +1,529 @@
+"""The review loop: a geologist corrects the decoded tracts, and the model learns from it.
+
+1. ``decode --review-sheet`` writes an *interpretation sheet* (:func:`sheet_table`,
+   :func:`write_sheet`): one row per decoded bed with the model's tract and its
+   probability, the interpreter's tract where the source had one, and two empty
+   columns for the geologist, ``geologist_tract`` and ``note``.
+2. The geologist fills ``geologist_tract`` where the model is wrong (or right and
+   worth keeping) in a spreadsheet program.
+3. ``relabel`` (:func:`read_sheet`, :func:`relabel`) puts the geologist's tracts on
+   the source intervals and records where each label came from in a
+   ``label_source`` column (the sheet's file name, or ``source`` for a label kept
+   from the source table).
+4. ``fit --labels`` learns from the relabelled table; the model file's provenance
+   counts the labels per origin (:func:`label_source_counts`).
+
+Depths in the sheet are those of the decoded core set (its units, positive
+downward); rows are in depth order within each core.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import InputError
+
+__all__ = [
+    "GEOLOGIST",
+    "LABEL_SOURCE",
+    "RelabelResult",
+    "label_source_counts",
+    "read_sheet",
+    "relabel",
+    "sheet_table",
+    "write_sheet",
+]
+
+#: The geologist's columns of the sheet, left empty by ``decode``.
+GEOLOGIST = ("geologist_tract", "note")
+#: Column of a relabelled table naming where each interval's label came from.
+LABEL_SOURCE = "label_source"
+#: ``label_source`` of a label kept from the source table.
+FROM_SOURCE = "source"
+#: Name of the sheet files in the decode folder (``.csv`` and ``.xlsx``).
+SHEET_NAME = "sheet"
+#: Worksheet names of the XLSX sheet.
+DATA_SHEET, README_SHEET = "interpretation", "read me"
+#: Columns the sheet must keep for ``relabel`` to read it.
+REQUIRED = ("core", "top", "base", "geologist_tract")
+#: Depths closer than this (depth units) are the same.
+TOLERANCE = 1e-6
+
+README = (
+    "One row per decoded bed, in depth order (depth positive downward) within each core. "
+    "'decoded_tract' is the model's most likely tract and 'probability' its posterior "
+    "probability; 'interpreter_tract' is the tract the source already had, if any. Where "
+    "you disagree with the decoded tract, or want a bed's tract kept as it is, choose the "
+    "tract in 'geologist_tract' (the list holds the tract codes of the model: {codes}) and, "
+    "if you like, say why in 'note'. Leave a cell empty to keep the source's label. Do not "
+    "change core, top or base, and do not add rows. Then run `faciesseq relabel SHEET "
+    "SOURCE -o labelled.csv` and `faciesseq fit labelled.csv --labels tract -o model.json`."
+)
+
+
+# --------------------------------------------------------------------- the sheet
+
+
+def _interpreter_column(beds: pd.DataFrame, labels: str | None) -> str | None:
+    """The bed column holding the interpreter's tract (``decode`` renames ``tract``)."""
+    name = "interpreted_tract" if labels in (None, "tract") else labels
+    return name if name in beds.columns else None
+
+
+def sheet_table(interp, labels: str | None = "tract") -> pd.DataFrame:
+    """The interpretation sheet of a decoded core set.
+
+    Parameters
+    ----------
+    interp
+        An :class:`~faciesseq.interpretation.Interpretation`.
+    labels
+        The interpreter's tract column of the source (``decode --labels``); an
+        ``interpreter_tract`` column is added where the beds have it.
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``core, top, base, thickness, facies, decoded_tract, probability``
+        (posterior of the decoded tract), ``interpreter_tract`` (only where the
+        source had one), ``geologist_tract`` and ``note`` (empty); one row per
+        decoded bed, depth order within each core.
+    """
+    frames, with_interpreter = [], False
+    for core in interp:
+        beds = core.beds
+        if not len(beds):
+            continue
+        p = beds[[f"p_{t}" for t in core.tracts]].to_numpy(float)
+        which = pd.Index(core.tracts).get_indexer(beds["tract"].astype(str))
+        part = pd.DataFrame(
+            {
+                "core": core.core,
+                "top": beds["top"].to_numpy(float),
+                "base": beds["base"].to_numpy(float),
+                "thickness": (beds["base"] - beds["top"]).to_numpy(float),
+                "facies": beds["facies"].astype(str).to_numpy(),
+                "decoded_tract": beds["tract"].astype(str).to_numpy(),
+                "probability": p[np.arange(len(beds)), which],
+            }
+        )
+        column = _interpreter_column(beds, labels)
+        if column is not None:
+            with_interpreter = True
+            part["interpreter_tract"] = beds[column].to_numpy(dtype=object)
+        frames.append(part.sort_values(["top", "base"], kind="stable"))
+    columns = ["core", "top", "base", "thickness", "facies", "decoded_tract", "probability"]
+    columns += ["interpreter_tract"] * with_interpreter + list(GEOLOGIST)
+    table = pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
+    for name in columns:
+        if name not in table.columns:
+            table[name] = pd.Series([None] * len(table), dtype=object)
+    return table[columns]
+
+
+def xlsx_available() -> bool:
+    """Whether openpyxl (the ``excel`` extra) can be imported."""
+    from faciesseq._optional import MissingExtraError, import_optional
+
+    try:
+        import_optional("openpyxl", "writing the review sheet as .xlsx")
+    except MissingExtraError:
+        return False
+    return True
+
+
+def write_sheet(interp, folder: Path, labels: str | None = "tract") -> list[Path]:
+    """Write ``folder/sheet.csv`` and, where openpyxl is installed, ``folder/sheet.xlsx``.
+
+    ``folder`` is a new folder being filled (``decode`` builds its output
+    beside the target and swaps it in whole), so the files are written in
+    place. Probabilities are exact in the CSV and shown with 2 decimals in
+    the XLSX (the cell keeps the exact value).
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written.
+    """
+    table = sheet_table(interp, labels)
+    folder = Path(folder)
+    written = [folder / f"{SHEET_NAME}.csv"]
+    table.to_csv(written[0], index=False)
+    if xlsx_available():
+        written.append(folder / f"{SHEET_NAME}.xlsx")
+        _write_xlsx(table, written[1], tuple(interp.tracts))
+    return written
+
+
+def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str]) -> None:
+    from faciesseq._optional import import_optional
+
+    openpyxl = import_optional("openpyxl", "writing the review sheet as .xlsx")
+    from openpyxl.styles import Alignment, Font, PatternFill
+    from openpyxl.utils import get_column_letter
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    book = openpyxl.Workbook()
+    ws = book.active
+    ws.title = DATA_SHEET
+    columns = list(table.columns)
+    ws.append(columns)
+    for row in table.itertuples(index=False):
+        ws.append([_cell(v) for v in row])
+    ws.freeze_panes = "A2"
+    bold = Font(bold=True)
+    fill = PatternFill("solid", start_color="FFF2CC", end_color="FFF2CC")
+    widths = {"core": 14, "facies": 10, "decoded_tract": 14, "interpreter_tract": 16}
+    widths |= {"geologist_tract": 16, "note": 40}
+    last = max(len(table) + 1, 2)
+    for j, name in enumerate(columns, start=1):
+        letter = get_column_letter(j)
+        ws.column_dimensions[letter].width = widths.get(name, 11)
+        ws.cell(1, j).font = bold
+        if name in ("top", "base", "thickness"):
+            for (cell,) in ws[f"{letter}2:{letter}{last}"]:
+                cell.number_format = "0.00"
+        if name == "probability":
+            for (cell,) in ws[f"{letter}2:{letter}{last}"]:
+                cell.number_format = "0.00"
+        if name in GEOLOGIST:
+            for (cell,) in ws[f"{letter}1:{letter}{last}"]:
+                cell.fill = fill
+    tract_col = get_column_letter(columns.index("geologist_tract") + 1)
+    choice = DataValidation(
+        type="list",
+        formula1='"' + ",".join(tracts) + '"',
+        allow_blank=True,
+        showErrorMessage=True,
+        errorTitle="tract code",
+        error="Choose one of the tract codes of the model: " + ", ".join(tracts),
+    )
+    choice.add(f"{tract_col}2:{tract_col}{last}")
+    ws.add_data_validation(choice)
+    notes = book.create_sheet(README_SHEET)
+    notes["A1"] = "How to fill the interpretation sheet"
+    notes["A1"].font = bold
+    notes["A2"] = README.format(codes=", ".join(tracts))
+    notes["A2"].alignment = Alignment(wrap_text=True, vertical="top")
+    notes.column_dimensions["A"].width = 100
+    notes.row_dimensions[2].height = 150
+    book.save(path)
+
+
+def _cell(value):
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return None
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+# --------------------------------------------------------------- reading it back
+
+
+def _text(value) -> str:
+    """A cell as text: empty for missing, ``3`` for a whole number read as ``3.0``."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value).strip()
+
+
+def read_sheet(path: str | Path) -> pd.DataFrame:
+    """Read a filled interpretation sheet (``.csv`` or ``.xlsx``, its first worksheet).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The sheet's columns as text, ``top`` and ``base`` as numbers, and ``row``
+        (1-based data row, as a spreadsheet user counts them after the header).
+
+    Raises
+    ------
+    InputError
+        The sheet lacks a required column (``core``, ``top``, ``base``,
+        ``geologist_tract``) or a depth is not a number (exit code 1).
+    """
+    path = Path(path)
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        raw = _read_xlsx(path)
+    else:
+        try:
+            raw = pd.read_csv(path, dtype=str, keep_default_na=False, comment=None)
+        except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
+            msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            raise InputError(f"cannot read the sheet as CSV: {msg}", file=path.name) from None
+    raw.columns = [str(c).strip() for c in raw.columns]
+    missing = [c for c in REQUIRED if c not in raw.columns]
+    if missing:
+        raise InputError(
+            f"the sheet lacks column(s) {', '.join(missing)}; give the sheet written by "
+            "`faciesseq decode --review-sheet`",
+            file=path.name,
+        )
+    table = pd.DataFrame({c: [_text(v) for v in raw[c]] for c in raw.columns})
+    table["row"] = np.arange(1, len(table) + 1)
+    for name in ("top", "base"):
+        values = pd.to_numeric(table[name], errors="coerce")
+        bad = np.flatnonzero(values.isna().to_numpy() | ~np.isfinite(values.to_numpy(float)))
+        if len(bad):
+            i = int(bad[0])
+            raise InputError(
+                f"{name} {table[name].iat[i]!r} is not a depth; keep the sheet's core, top "
+                "and base as decode wrote them",
+                file=path.name,
+                row=i + 1,
+                core=table["core"].iat[i] or None,
+            )
+        table[name] = values.to_numpy(float)
+    return table
+
+
+def _read_xlsx(path: Path) -> pd.DataFrame:
+    from faciesseq._optional import import_optional
+
+    openpyxl = import_optional("openpyxl", "reading .xlsx workbooks")
+    try:
+        book = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:  # a corrupt or foreign file: one line, not a traceback
+        raise InputError(f"cannot read the sheet as XLSX: {exc}", file=path.name) from None
+    try:
+        ws = book[DATA_SHEET] if DATA_SHEET in book.sheetnames else book.worksheets[0]
+        rows = [list(r) for r in ws.iter_rows(values_only=True)]
+    finally:
+        book.close()
+    rows = [r for r in rows if any(v is not None and str(v).strip() for v in r)]
+    if not rows:
+        return pd.DataFrame()
+    header = [_text(v) for v in rows[0]]
+    body = [r + [None] * (len(header) - len(r)) for r in rows[1:]]
+    return pd.DataFrame([r[: len(header)] for r in body], columns=header, dtype=object)
+
+
+# ---------------------------------------------------------------------- relabel
+
+
+@dataclass(frozen=True)
+class RelabelResult:
+    """What :func:`relabel` did.
+
+    Attributes
+    ----------
+    cores
+        The relabelled :class:`~faciesseq.core.CoreSet` (label column filled,
+        ``label_source`` added).
+    sheet
+        The sheet's file name (the ``label_source`` of its labels).
+    labels
+        The label column.
+    filled
+        Sheet beds the geologist gave a tract, per core.
+    changed
+        Of those, beds whose label changed (a new label, or another tract than
+        the source's), per core.
+    intervals_changed
+        Source intervals whose label changed.
+    labelled_before, labelled_after
+        Cores with at least one labelled interval, before and after.
+    agreement
+        Thickness-weighted share of the filled beds where the decoded tract is
+        the geologist's (``None`` when the sheet has no decoded tract or no
+        filled bed); ``agreement_beds`` the same per bed, ``agreement_thickness``
+        the thickness compared.
+    """
+
+    cores: object
+    sheet: str
+    labels: str
+    filled: dict[str, int] = field(default_factory=dict)
+    changed: dict[str, int] = field(default_factory=dict)
+    intervals_changed: int = 0
+    labelled_before: tuple[str, ...] = ()
+    labelled_after: tuple[str, ...] = ()
+    agreement: float | None = None
+    agreement_beds: float | None = None
+    agreement_thickness: float = 0.0
+
+    @property
+    def newly_labelled(self) -> tuple[str, ...]:
+        before = set(self.labelled_before)
+        return tuple(c for c in self.labelled_after if c not in before)
+
+
+def _canonical_tracts(tracts: Sequence[str]) -> dict[str, str]:
+    return {t.upper(): t for t in tracts}
+
+
+def _present(values: pd.Series) -> np.ndarray:
+    text = values.astype(object).where(values.notna(), "").astype(str).str.strip()
+    return (text != "").to_numpy() & values.notna().to_numpy()
+
+
+def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, labels: str = "tract"):
+    """Put the geologist's tracts of a filled sheet on the source intervals.
+
+    Every interval of a sheet bed (same core; top and base within the bed)
+    takes the bed's ``geologist_tract`` where that cell is filled; elsewhere
+    the source's label is kept. A ``label_source`` column records the origin of
+    each label: ``file`` (the sheet's name) or ``source`` (an existing
+    ``label_source`` value is kept with its label).
+
+    Parameters
+    ----------
+    sheet
+        A sheet read by :func:`read_sheet`.
+    cores
+        The source :class:`~faciesseq.core.CoreSet` the sheet was decoded from.
+    tracts
+        Tract codes of the tract model (case is not significant in the sheet).
+    file
+        The sheet's name, for messages and ``label_source``.
+    labels
+        The label column of the source (created where absent).
+
+    Raises
+    ------
+    InputError
+        A sheet bed whose core, top and base match no run of source intervals,
+        a tract code not in the tract model, or two sheet beds giving one
+        interval different tracts; the message names the sheet, row, core and
+        depth.
+    """
+    from faciesseq.core import Core, CoreSet
+
+    known = _canonical_tracts(tracts)
+    units = cores.units
+    matched: dict[str, list[tuple[np.ndarray, str, int]]] = {}
+    for rec in sheet.itertuples(index=False):
+        core, top, base, row = rec.core, float(rec.top), float(rec.base), int(rec.row)
+        where = {"file": file, "row": row, "core": core or None, "depth": top, "units": units}
+        if core not in cores.cores:
+            raise InputError("core is not in SOURCE; was the sheet decoded from it?", **where)
+        table = cores[core].intervals
+        t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
+        tol = TOLERANCE * max(1.0, abs(top), abs(base))
+        inside = np.flatnonzero((t >= top - tol) & (b <= base + tol))
+        if not len(inside) or abs(t[inside].min() - top) > tol or abs(b[inside].max() - base) > tol:
+            raise InputError(
+                f"the bed {top:g}-{base:g} {units} matches no interval of SOURCE (its top and "
+                "base must be an interval's top and base); was the sheet decoded from it?",
+                **where,
+            )
+        code = rec.geologist_tract
+        if not code:
+            continue
+        if code.upper() not in known:
+            raise InputError(
+                f"geologist_tract {code!r} is not a tract of the tract model ({', '.join(tracts)})",
+                **where,
+            )
+        matched.setdefault(core, []).append((inside, known[code.upper()], row))
+    agreement = _agreement(sheet, known)
+    new_cores, filled, changed, n_changed = {}, {}, {}, 0
+    before, after = [], []
+    for name, core in cores.cores.items():
+        table = core.intervals.copy()
+        old = table[labels] if labels in table.columns else pd.Series([None] * len(table))
+        old = old.astype(object).reset_index(drop=True)
+        had = _present(old)
+        origin = np.full(len(table), None, dtype=object)
+        if LABEL_SOURCE in table.columns:
+            prev = table[LABEL_SOURCE].astype(object)
+            origin[had] = np.where(_present(prev)[had], prev.to_numpy(object)[had], FROM_SOURCE)
+        else:
+            origin[had] = FROM_SOURCE
+        new = old.to_numpy(object).copy()
+        given: dict[int, tuple[str, int]] = {}
+        n_filled = n_bed_changed = 0
+        for idx, code, row in matched.get(name, []):
+            n_filled += 1
+            bed_changed = False
+            for i in idx:
+                if i in given and given[i][0] != code:
+                    raise InputError(
+                        f"this bed gives {code} to an interval that sheet row {given[i][1]} "
+                        f"gives {given[i][0]}",
+                        file=file,
+                        row=row,
+                        core=name,
+                        depth=float(table["top"].iat[i]),
+                        units=units,
+                    )
+                given[i] = (code, row)
+                if not had[i] or str(old.iat[i]).strip() != code:
+                    bed_changed = True
+                    n_changed += 1
+                new[i] = code
+                origin[i] = file
+            n_bed_changed += bed_changed
+        if n_filled:
+            filled[name], changed[name] = n_filled, n_bed_changed
+        if had.any():
+            before.append(name)
+        if _present(pd.Series(new)).any():
+            after.append(name)
+        table[labels] = new
+        table[LABEL_SOURCE] = origin
+        new_cores[name] = Core(name, table, core.units)
+    relabelled = CoreSet(new_cores, units, cores.problems, cores.sources, cores.meta)
+    return RelabelResult(
+        cores=relabelled,
+        sheet=file,
+        labels=labels,
+        filled=filled,
+        changed=changed,
+        intervals_changed=n_changed,
+        labelled_before=tuple(before),
+        labelled_after=tuple(after),
+        **agreement,
+    )
+
+
+def _agreement(sheet: pd.DataFrame, known: dict[str, str]) -> dict:
+    """Decoded tract against the geologist's, over the filled beds (thickness-weighted)."""
+    out = {"agreement": None, "agreement_beds": None, "agreement_thickness": 0.0}
+    if "decoded_tract" not in sheet.columns:
+        return out
+    filled = sheet[sheet["geologist_tract"] != ""]
+    if not len(filled):
+        return out
+    geologist = filled["geologist_tract"].str.upper().map(known)
+    same = (filled["decoded_tract"].to_numpy(object) == geologist.to_numpy(object)).astype(float)
+    w = (filled["base"] - filled["top"]).to_numpy(float)
+    out["agreement_beds"] = float(same.mean())
+    out["agreement_thickness"] = float(w.sum())
+    out["agreement"] = float((w * same).sum() / w.sum()) if w.sum() > 0 else float(same.mean())
+    return out
+
+
+def label_source_counts(cores) -> dict[str, int]:
+    """Labelled intervals per origin (``label_source``: a sheet's name or ``source``),
+    for a model file's provenance; empty where the table has no ``label_source``."""
+    counts: dict[str, int] = {}
+    for core in cores:
+        if LABEL_SOURCE not in core.intervals.columns:
+            continue
+        values = core.intervals[LABEL_SOURCE]
+        for value in values[_present(values)].astype(str).str.strip():
+            counts[value] = counts.get(value, 0) + 1
+    return dict(sorted(counts.items()))
+
+
+def sheet_note(folder: Path) -> str:
+    """One line on the review sheet ``decode`` wrote into ``folder``."""
+    from faciesseq._optional import install_hint
+
+    csv = Path(folder) / f"{SHEET_NAME}.csv"
+    if xlsx_available():
+        return f"review sheet: {csv} and {csv.with_suffix('.xlsx')} (fill geologist_tract)"
+    return (
+        f"review sheet: {csv} (fill geologist_tract); the .xlsx sheet, with a tract list, "
+        f"needs openpyxl: {install_hint('excel')}"
+    )

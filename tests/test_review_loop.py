@@ -1,0 +1,337 @@
+"""Review, edit, refit: the interpretation sheet of ``decode --review-sheet``, ``relabel``
+and the label sources a refitted model records (synthetic cores of tests/hmm_synthetic.py,
+invented)."""
+
+import json
+import sys
+
+import hmm_synthetic as synth
+import numpy as np
+import pandas as pd
+import pytest
+
+from faciesseq.cli import build_parser, main
+
+QUICK = ["--restarts", "1", "--max-iter", "5", "--calibration-folds", "0"]
+TRACTS = ["HST", "FSST", "LST", "TST"]
+
+
+@pytest.fixture(scope="module")
+def work(tmp_path_factory):
+    """Cores (the even cores interpreted), a quick model and its decode with the sheet."""
+    folder = tmp_path_factory.mktemp("review")
+    synth.write_database(folder, 4, 30, seed=3)
+    argv = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
+    assert main([*argv, *QUICK, "-o", str(folder / "model.json")]) == 0
+    out = folder / "decoded"
+    model, cores = str(folder / "model.json"), str(folder / "cores.csv")
+    code = main(["decode", model, cores, "--review-sheet", "-o", str(out)])
+    assert code == 0
+    return folder
+
+
+def _sheet(work) -> pd.DataFrame:
+    return pd.read_csv(
+        work / "decoded" / "sheet.csv",
+        dtype={"core": object, "geologist_tract": object, "note": object},
+    )
+
+
+def _run(capsys, argv):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _relabel(capsys, work, sheet, out, *extra):
+    argv = ["relabel", sheet, work / "cores.csv", "-o", out, *extra]
+    return _run(capsys, argv)
+
+
+# ----------------------------------------------------------------------- the sheet
+
+
+def test_the_sheet_has_one_row_per_decoded_bed_with_the_decoded_tract_and_probability(work):
+    sheet = _sheet(work)
+    tracts = pd.read_csv(work / "decoded" / "tracts.csv", skiprows=1)
+    assert list(sheet.columns) == [
+        "core",
+        "top",
+        "base",
+        "thickness",
+        "facies",
+        "decoded_tract",
+        "probability",
+        "interpreter_tract",
+        "geologist_tract",
+        "note",
+    ]
+    assert len(sheet) == len(tracts) == 120
+    assert (sheet["decoded_tract"] == tracts["tract"]).all()
+    p = tracts[[f"p_{t}" for t in TRACTS]].to_numpy()
+    chosen = p[np.arange(len(tracts)), [TRACTS.index(t) for t in tracts["tract"]]]
+    # exact in CSV: the same float as the tracts table's (which keeps 6 digits)
+    np.testing.assert_allclose(sheet["probability"], chosen, rtol=1e-5)
+    assert sheet["probability"].astype(str).str.len().max() > 8  # not rounded to 2 decimals
+    np.testing.assert_allclose(sheet["thickness"], sheet["base"] - sheet["top"], atol=1e-12)
+    for _, part in sheet.groupby("core", sort=False):
+        assert part["top"].is_monotonic_increasing
+    assert sheet["geologist_tract"].isna().all() and sheet["note"].isna().all()
+
+
+def test_the_interpreter_tract_is_the_source_label_where_there_was_one(work):
+    sheet = _sheet(work)
+    source = pd.read_csv(work / "cores.csv")
+    # even cores interpreted (every bed), odd cores blank (hmm_synthetic.write_database)
+    for k, (core, part) in enumerate(sheet.groupby("core", sort=False)):
+        if k % 2 == 0:
+            want = source.loc[source["core"] == core, "tract"].tolist()
+            assert part["interpreter_tract"].tolist() == want
+        else:
+            assert part["interpreter_tract"].isna().all()
+
+
+def test_the_xlsx_sheet_is_ready_to_fill(work):
+    openpyxl = pytest.importorskip("openpyxl")
+    book = openpyxl.load_workbook(work / "decoded" / "sheet.xlsx")
+    assert book.sheetnames == ["interpretation", "read me"]
+    ws = book["interpretation"]
+    header = [c.value for c in ws[1]]
+    assert header == list(_sheet(work).columns)
+    assert ws.freeze_panes == "A2"
+    col = {name: openpyxl.utils.get_column_letter(i + 1) for i, name in enumerate(header)}
+    assert ws.column_dimensions[col["note"]].width == 40
+    assert ws.column_dimensions[col["core"]].width == 14
+    # two decimals shown, the exact value kept
+    cell = ws[f"{col['probability']}2"]
+    assert cell.number_format == "0.00"
+    assert cell.value == pytest.approx(_sheet(work)["probability"].iat[0], rel=1e-12)
+    # the geologist's columns highlighted, and only them
+    for name in header:
+        rgb = ws[f"{col[name]}2"].fill.fgColor.rgb
+        assert (rgb == "00FFF2CC") == (name in ("geologist_tract", "note")), name
+    (dv,) = ws.data_validations.dataValidation
+    assert dv.type == "list" and dv.formula1 == '"HST,FSST,LST,TST"'
+    assert str(dv.sqref) == f"{col['geologist_tract']}2:{col['geologist_tract']}121"
+    text = book["read me"]["A2"].value
+    assert "geologist_tract" in text and "faciesseq relabel" in text and "HST, FSST" in text
+
+
+def test_without_openpyxl_the_csv_is_written_and_one_line_names_the_extra(
+    work, tmp_path, capsys, monkeypatch
+):
+    monkeypatch.setitem(sys.modules, "openpyxl", None)  # import fails as if not installed
+    out = tmp_path / "d"
+    argv = ["decode", work / "model.json", work / "cores.csv", "--review-sheet", "-o", out]
+    code, stdout, err = _run(capsys, argv)
+    assert code == 0 and err == ""
+    assert (out / "sheet.csv").is_file() and not (out / "sheet.xlsx").exists()
+    (line,) = [s for s in stdout.splitlines() if "sheet" in s]
+    assert 'pip install "faciesseq[excel]"' in line and "sheet.csv" in line
+
+
+def test_decode_without_the_option_writes_no_sheet(work, tmp_path):
+    out = tmp_path / "d"
+    assert main(["decode", str(work / "model.json"), str(work / "cores.csv"), "-o", str(out)]) == 0
+    assert not list(out.glob("sheet.*"))
+
+
+# ---------------------------------------------------------------------- relabel
+
+
+def _filled(work, tmp_path) -> tuple[pd.DataFrame, object]:
+    """The sheet with core 2 (uninterpreted) filled with the decoded tracts and two beds of
+    core 1 corrected (one to another tract, one confirming the interpreter's, in lower case)."""
+    sheet = _sheet(work)
+    cores = sheet["core"].unique()
+    second = sheet["core"] == cores[1]
+    sheet.loc[second, "geologist_tract"] = sheet.loc[second, "decoded_tract"].astype(object)
+    first = np.flatnonzero(sheet["core"] == cores[0])
+    other = next(t for t in TRACTS if t != sheet["interpreter_tract"].iat[first[3]])
+    sheet.loc[first[3], ["geologist_tract", "note"]] = [other, "flooding surface above"]
+    sheet.loc[first[5], "geologist_tract"] = sheet["interpreter_tract"].iat[first[5]].lower()
+    path = tmp_path / "filled.csv"
+    sheet.to_csv(path, index=False)
+    return sheet, path
+
+
+def test_relabel_puts_the_geologists_tracts_on_the_source(work, tmp_path, capsys):
+    sheet, path = _filled(work, tmp_path)
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, path, out)
+    assert code == 0 and err == "", err
+    source = pd.read_csv(work / "cores.csv")
+    got = pd.read_csv(out, dtype={"tract": object, "label_source": object})
+    assert len(got) == len(source)
+    cores = sheet["core"].unique()
+    filled = sheet["geologist_tract"].notna()
+    want = source["tract"].astype(object).copy()
+    want[filled.to_numpy()] = sheet.loc[filled, "geologist_tract"].str.upper().to_numpy()
+    assert got["tract"].fillna("-").tolist() == want.fillna("-").tolist()
+    origin = np.where(filled, "filled.csv", np.where(source["tract"].notna(), "source", "-"))
+    assert got["label_source"].fillna("-").tolist() == origin.tolist()
+    # the report: filled beds per core, relabelled (new or another tract), cores labelled
+    assert "32 bed(s) given a tract by the geologist in 2 core(s); 31 relabelled" in stdout
+    assert f"  {cores[0]}: 1 relabelled of 2" in stdout
+    assert f"  {cores[1]}: 30 relabelled of 30" in stdout
+    assert f"cores labelled: 3 of 4 (1 new: {cores[1]})" in stdout
+    # thickness-weighted agreement of the decoded column with the geologist's
+    f = sheet[filled]
+    same = f["decoded_tract"].to_numpy() == f["geologist_tract"].str.upper().to_numpy()
+    w = (f["base"] - f["top"]).to_numpy()
+    share = 100 * (w * same).sum() / w.sum()
+    assert f"before refitting: {share:.1f} % of {w.sum():.2f} m" in stdout
+
+
+def test_a_refitted_model_records_which_labels_came_from_which_sheet(work, tmp_path, capsys):
+    _, path = _filled(work, tmp_path)
+    labelled = tmp_path / "labelled.csv"
+    assert _relabel(capsys, work, path, labelled)[0] == 0
+    model = tmp_path / "m.json"
+    argv = ["fit", labelled, "--scheme", work / "scheme.yaml", "--labels", "tract", *QUICK]
+    code, _, err = _run(capsys, [*argv, "-o", model])
+    assert code == 0, err
+    training = json.loads(model.read_text())["training"]
+    # 32 intervals from the sheet; the source kept 60 interpreted less the 2 on the sheet
+    assert training["label_sources"] == {"filled.csv": 32, "source": 58}
+    assert training["n_labelled"] == 90
+    # a second round keeps the first sheet's name on the labels it gave
+    sheet2 = _sheet(work)
+    sheet2.loc[len(sheet2) - 1, "geologist_tract"] = "HST"
+    sheet2.to_csv(tmp_path / "round2.csv", index=False)
+    argv = ["relabel", tmp_path / "round2.csv", labelled, "-o", tmp_path / "l2.csv"]
+    assert _run(capsys, argv)[0] == 0
+    counts = pd.read_csv(tmp_path / "l2.csv")["label_source"].value_counts().to_dict()
+    assert counts == {"source": 58, "filled.csv": 32, "round2.csv": 1}
+
+
+def test_a_model_fitted_without_a_sheet_has_no_label_sources(work):
+    assert "label_sources" not in json.loads((work / "model.json").read_text())["training"]
+
+
+def test_relabel_reads_the_xlsx_sheet(work, tmp_path, capsys):
+    openpyxl = pytest.importorskip("openpyxl")
+    book = openpyxl.load_workbook(work / "decoded" / "sheet.xlsx")
+    ws = book["interpretation"]
+    header = [c.value for c in ws[1]]
+    ws.cell(row=2, column=header.index("geologist_tract") + 1).value = "FSST"
+    book.save(tmp_path / "filled.xlsx")
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, tmp_path / "filled.xlsx", out)
+    assert code == 0, err
+    got = pd.read_csv(out)
+    assert got.loc[0, "tract"] == "FSST" and got.loc[0, "label_source"] == "filled.xlsx"
+    assert "1 bed(s) given a tract by the geologist in 1 core(s)" in stdout
+
+
+def test_an_amalgamated_bed_labels_every_interval_in_it(tmp_path, capsys):
+    """Two intervals of one facies are one bed in the sheet; both take its tract."""
+    (tmp_path / "cores.csv").write_text(
+        "core,top,base,facies,tract\nW,0,1,A,\nW,1,2,A,TST\nW,2,3,B,HST\n"
+    )
+    (tmp_path / "sheet.csv").write_text(
+        "core,top,base,decoded_tract,geologist_tract,note\nW,0,2,LST,LST,\nW,2,3,HST,,\n"
+    )
+    argv = ["relabel", tmp_path / "sheet.csv", tmp_path / "cores.csv", "-o", tmp_path / "o.csv"]
+    code, stdout, err = _run(capsys, argv)
+    assert code == 0, err
+    got = pd.read_csv(tmp_path / "o.csv")
+    assert got["tract"].tolist() == ["LST", "LST", "HST"]
+    assert got["label_source"].tolist() == ["sheet.csv", "sheet.csv", "source"]
+    assert "W: 1 relabelled of 1" in stdout and "2 source interval(s) changed" in stdout
+    assert "0.0 % of 2.00 m" in stdout
+
+
+# ------------------------------------------------------------------- bad input
+
+
+def _bad(capsys, work, tmp_path, edit, *extra):
+    sheet = _sheet(work)
+    edit(sheet)
+    path = tmp_path / "bad.csv"
+    sheet.to_csv(path, index=False)
+    out = tmp_path / "labelled.csv"
+    code, _, err = _relabel(capsys, work, path, out, *extra)
+    assert not out.exists() and not list(tmp_path.glob(".labelled*"))
+    assert err.count("\n") == 1 and "Traceback" not in err
+    return code, err
+
+
+def test_a_tract_not_in_the_tract_model_names_sheet_row_core_and_depth(work, tmp_path, capsys):
+    sheet = _sheet(work)
+
+    def edit(s):
+        s.loc[6, "geologist_tract"] = "RST"
+
+    code, err = _bad(capsys, work, tmp_path, edit)
+    assert code == 1
+    where = f"bad.csv, row 7, core {sheet['core'].iat[6]}, depth {sheet['top'].iat[6]:.2f} m"
+    assert where in err and "'RST'" in err and "HST, FSST, LST, TST" in err
+
+
+def test_a_bed_that_matches_no_interval_is_an_error(work, tmp_path, capsys):
+    sheet = _sheet(work)
+
+    def edit(s):
+        s.loc[10, "base"] = s.loc[10, "base"] - 0.05  # inside a bed: no interval ends there
+
+    code, err = _bad(capsys, work, tmp_path, edit)
+    assert code == 1
+    assert f"bad.csv, row 11, core {sheet['core'].iat[10]}" in err and "matches no interval" in err
+
+
+def test_a_core_not_in_the_source_is_an_error(work, tmp_path, capsys):
+    def edit(s):
+        s.loc[0, "core"] = "NOWHERE"
+
+    code, err = _bad(capsys, work, tmp_path, edit)
+    assert code == 1 and "bad.csv, row 1, core NOWHERE, depth 0.00 m" in err
+
+
+def test_a_depth_that_is_not_a_number_is_an_error(work, tmp_path, capsys):
+    def edit(s):
+        s["top"] = s["top"].astype(object)
+        s.loc[2, "top"] = "deep"
+
+    code, err = _bad(capsys, work, tmp_path, edit)
+    assert code == 1 and "bad.csv, row 3" in err and "'deep'" in err
+
+
+def test_a_sheet_without_the_geologist_column_is_an_error(work, tmp_path, capsys):
+    def edit(s):
+        del s["geologist_tract"]
+
+    code, err = _bad(capsys, work, tmp_path, edit)
+    assert code == 1 and "bad.csv: the sheet lacks column(s) geologist_tract" in err
+
+
+def test_a_missing_tract_model_file_is_file_not_found(work, tmp_path, capsys):
+    code, err = _bad(capsys, work, tmp_path, lambda s: None, "--tracts", tmp_path / "no.yaml")
+    assert code == 1 and "no.yaml: file not found" in err
+
+
+def test_a_missing_sheet_and_an_existing_output(work, tmp_path, capsys):
+    code, _, err = _relabel(capsys, work, tmp_path / "nope.csv", tmp_path / "o.csv")
+    assert code == 1 and "nope.csv: file not found" in err
+    (tmp_path / "o.csv").write_text("keep")
+    code, _, err = _relabel(capsys, work, work / "decoded" / "sheet.csv", tmp_path / "o.csv")
+    assert code == 2 and "--force" in err and (tmp_path / "o.csv").read_text() == "keep"
+    argv = [work / "decoded" / "sheet.csv", tmp_path / "o.csv", "--force"]
+    assert _relabel(capsys, work, *argv)[0] == 0
+
+
+def test_relabel_has_the_house_help():
+    parser = build_parser()
+    sub = next(a for a in parser._actions if a.dest == "command")
+    help_text = sub.choices["relabel"].format_help()
+    assert "examples:" in help_text and "faciesseq relabel" in help_text
+    assert "-o FILE, --output FILE" in help_text and "--force" in help_text
+    assert "(default: tract)" in help_text
+
+
+def test_with_a_json_summary_the_sheet_line_goes_to_stderr(work, tmp_path, capsys):
+    out = tmp_path / "d"
+    argv = ["decode", work / "model.json", work / "cores.csv", "--review-sheet", "-o", out]
+    code, stdout, err = _run(capsys, [*argv, "--summary", "json"])
+    assert code == 0 and json.loads(stdout)["n_wells"] == 4
+    assert err.count("\n") == 1 and "sheet.csv" in err
