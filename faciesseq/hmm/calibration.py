@@ -239,7 +239,12 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
             f"{_chosen_by(cal)} {cal['n_beds']} held-out beds the Brier score fell from "
             f"{b['brier']:.3f} to {a['brier']:.3f} and the mean probability of the most "
             f"probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
-            f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it."
+            f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it"
+            + (
+                " (checked against the model's own simulations, not against a geologist's reading)."
+                if _bootstrap(cal)
+                else "."
+            )
         )
     except (KeyError, TypeError, ValueError):
         return (
