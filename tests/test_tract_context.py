@@ -20,7 +20,8 @@ import yaml
 
 from faciesseq.core import CoreSet
 from faciesseq.cycles import bed_context, find_cycles, sharp_contacts
-from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM, trade_graphs
+from faciesseq.hmm.graphs import trade_graphs
+from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
 from faciesseq.scheme import default_tract_model, load_scheme, permissive_tract_model
 from faciesseq.scores import balanced_tract_accuracy
 from faciesseq.simulate import simulate_stacking, stacking_scenario_from_dict

@@ -2,7 +2,11 @@
 
 - :mod:`faciesseq.hmm.engine`: forward-backward, Viterbi, two-slice posteriors, clamping;
 - :mod:`faciesseq.hmm.states`: tracts expanded into left-to-right sub-state chains;
+- :mod:`faciesseq.hmm.graphs`: the trade's strict tract graphs, chosen by BIC;
 - :mod:`faciesseq.hmm.emissions`: the pluggable emission pieces;
+- :mod:`faciesseq.hmm.context`: pieces reading the stacking context of cycles;
+- :mod:`faciesseq.hmm.identity`: tract names from the one deepening tract;
+- :mod:`faciesseq.hmm.calibration`, :mod:`faciesseq.hmm.bootstrap`: checked probabilities;
 - :mod:`faciesseq.hmm.model`: the :class:`TractHMM` estimator;
 - :mod:`faciesseq.hmm.selection`: BIC across sub-state counts and emission sets;
 - :mod:`faciesseq.hmm.modelfile`: versioned JSON model files (never pickle);

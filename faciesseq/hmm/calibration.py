@@ -47,19 +47,20 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from faciesseq.core import Succession
 from faciesseq.errors import InputError
 from faciesseq.hmm import engine
 
 __all__ = [
     "TEMPERATURE_BOUNDS",
     "HeldOut",
+    "calibrate_by_folds",
     "calibration_checked",
     "describe_calibration",
     "fit_temperature",
     "held_out_scores",
     "probability_meta",
     "probability_note",
-    "simulate_beds",
     "temper",
 ]
 
@@ -298,46 +299,50 @@ def probability_meta(temperature: float, calibration: object) -> dict[str, objec
     }
 
 
-def _chain_path(startprob, transmat, n, rng) -> np.ndarray:
-    path = np.empty(n, dtype=np.int64)
-    path[0] = rng.choice(len(startprob), p=startprob)
-    cum = np.cumsum(transmat, axis=1)
-    for t in range(1, n):
-        path[t] = min(int(np.searchsorted(cum[path[t - 1]], rng.random())), len(startprob) - 1)
-    return path
+def calibrate_by_folds(
+    model, succ: Sequence[Succession], clamp: np.ndarray, rng: np.random.Generator
+) -> dict:
+    """Temperature of ``model``'s posteriors by K-fold cross-validation over the
+    labelled cores (the module docstring): each fold's model is fitted,
+    with one restart and the same hyper-parameters, on every succession but
+    those of its held-out cores, whose labelled beds are then scored."""
+    from faciesseq.hmm.model import TractHMM
 
-
-def simulate_beds(
-    lengths: Sequence[int],
-    startprob: np.ndarray,
-    transmat: np.ndarray,
-    state_tract: np.ndarray,
-    facies_chain: np.ndarray,
-    thickness: np.ndarray,
-    rng: np.random.Generator,
-) -> tuple[list, np.ndarray]:
-    """Successions of beds drawn from a fitted tract model (a parametric bootstrap).
-
-    The tract path follows the fitted chain; within a tract the facies follow
-    ``facies_chain[tract, below, above]`` (row ``below = V`` for the first bed of
-    a succession) and the log thickness ``thickness[tract] = (mean, sd)``. The
-    stacking context of these beds is then computed as for real cores, so the
-    overlap of neighbouring windows -- the evidence the emission pieces count
-    more than once -- is kept (Efron & Tibshirani 1993, An Introduction to the
-    Bootstrap, ch. 6). Returns ``(tables, tract index of every bed)``, each
-    table base to top with ``facies`` (index), ``thickness``.
-    """
-    tables, tracts = [], []
-    V = facies_chain.shape[2]
-    for n in lengths:
-        tract = state_tract[_chain_path(startprob, transmat, int(n), rng)]
-        fac = np.empty(int(n), dtype=np.int64)
-        below = V
-        for t in range(int(n)):
-            p = facies_chain[tract[t], below]
-            fac[t] = rng.choice(V, p=p)
-            below = fac[t]
-        mean, sd = thickness[tract, 0], thickness[tract, 1]
-        tables.append({"facies": fac, "thickness": np.exp(mean + sd * rng.standard_normal(n))})
-        tracts.append(tract)
-    return tables, np.concatenate(tracts) if tracts else np.zeros(0, dtype=np.int64)
+    tracts = list(model.tract_model_.order)
+    codes = [
+        np.where(m.sum(axis=1) == 1, m.argmax(axis=1), -1)
+        for m in np.split(clamp, np.cumsum([len(s) for s in succ])[:-1])
+    ]
+    cores = list(dict.fromkeys(s.core for s, c in zip(succ, codes) if (c >= 0).any()))
+    k = min(int(model.calibration_folds), len(cores))
+    if k < 2:
+        return {
+            "skipped": f"calibration needs labels on 2 cores and 2 folds; {len(cores)} "
+            f"labelled core(s), calibration_folds={model.calibration_folds}"
+        }
+    fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
+    params = {**model.get_params(), "calibration_folds": 0, "n_restarts": 1, "n_jobs": 1}
+    held = []
+    for f in range(k):
+        train = [i for i, s in enumerate(succ) if fold_of.get(s.core) != f]
+        test = [i for i, s in enumerate(succ) if fold_of.get(s.core) == f]
+        sub = TractHMM(**{**params, "random_state": int(rng.integers(0, 2**31 - 1))})
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # the main fit has said it all
+            sub.fit(
+                [succ[i] for i in train],
+                labels=[[tracts[j] if j >= 0 else None for j in codes[i]] for i in train],
+            )
+            beds = sub._encode([succ[i].beds for i in test])
+            le = sub._log_emission(sub.emissions_, beds)
+        held.append(
+            HeldOut(
+                le,
+                beds.lengths,
+                sub.startprob_,
+                sub.transmat_,
+                np.concatenate([codes[i] for i in test]),
+                sub.states_.state_tract,
+            )
+        )
+    return {**fit_temperature(held), "folds": k, "cores": len(cores)}

@@ -196,36 +196,6 @@ def _text(values: pd.Series) -> list[str | None]:
     return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
 
 
-def trade_graphs(tract_model: TractModel) -> list[TractModel]:
-    """The strict cyclic order of ``tract_model`` with each set of the skips the
-    trade allows: none, the FSST (absent where subsidence outpaces the base-level
-    fall), the TST (absent where supply outpaces the rise), both (common practice;
-    Catuneanu et al. 2009). Surfaces on boundaries a graph forbids are dropped."""
-    from dataclasses import replace
-
-    out = []
-    for skips in ((), ("FSST",), ("TST",), ("FSST", "TST")):
-        if not set(skips) <= set(tract_model.order):
-            continue
-        graph = replace(tract_model, skips=skips)
-        allowed = graph.allowed()
-        index = {c: i for i, c in enumerate(graph.order)}
-        surfaces = tuple(
-            sf for sf in tract_model.surfaces if allowed[index[sf.lower]][index[sf.upper]]
-        )
-        out.append(replace(graph, surfaces=surfaces))
-    return out
-
-
-def _split(drawn: list[dict], tracts: np.ndarray):
-    """Pairs (drawn succession, its tracts) from :func:`simulate_beds` output."""
-    start = 0
-    for d in drawn:
-        n = len(d["facies"])
-        yield d, tracts[start : start + n]
-        start += n
-
-
 def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
     out: set[str] = set()
     for t in tables:
@@ -939,170 +909,35 @@ class TractHMM:
         # recorded log-likelihood belongs to them.
         self.temperature_ = 1.0
         self.calibration_ = {"skipped": "no labelled beds"}
+        from faciesseq.hmm.bootstrap import calibrate_by_simulation
+        from faciesseq.hmm.calibration import calibrate_by_folds
+
         if clamp is not None and n_labelled:
-            self.calibration_ = self._calibrate(succ, clamp, rng)
+            self.calibration_ = calibrate_by_folds(self, succ, clamp, rng)
         elif self._reads_context() and int(self.calibration_folds) > 0:
-            self.calibration_ = self._calibrate_by_simulation(beds, tables, rng)
+            self.calibration_ = calibrate_by_simulation(self, beds, tables, rng)
         self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         return self
 
     def _fit_choosing_graph(self, succ: Sequence[Succession], progress) -> TractHMM:
-        """Fit every candidate tract graph (:func:`trade_graphs`) and keep the lowest
-        BIC (Schwarz 1978, Ann. Statist. 6:461-464), calibrated afterwards."""
-        params = {**self.get_params(), "graph": "fixed", "calibration_folds": 0}
-        rows, fits = [], []
-        for graph in trade_graphs(default_tract_model()):
-            fitted = TractHMM(**{**params, "tract_model": graph}).fit(succ, progress=progress)
-            rows.append(
-                {
-                    "skips": list(graph.skips),
-                    "log_likelihood": fitted.log_likelihood_,
-                    "n_parameters": fitted.n_parameters(),
-                    "bic": fitted.bic(succ),
-                }
-            )
-            fits.append(fitted)
-        best = int(np.argmin([r["bic"] for r in rows]))
-        for k, row in enumerate(rows):
-            row["selected"] = k == best
+        """The fit of the lowest-BIC tract graph (:mod:`faciesseq.hmm.graphs`),
+        calibrated afterwards."""
+        from faciesseq.hmm.bootstrap import calibrate_by_simulation
+        from faciesseq.hmm.graphs import choose_graph
+
+        best, rows = choose_graph(self, succ, progress)
         hyper = self.get_params()
-        self.__dict__.update(fits[best].__dict__)
+        self.__dict__.update(best.__dict__)
         self.set_params(**hyper)
-        self._default_graph = fits[best].tract_model
+        self._default_graph = best.tract_model
         self.graph_selection_ = rows
         if self._reads_context() and int(self.calibration_folds) > 0:
-            beds = self._encode([s.beds for s in succ])
-            rng = np.random.default_rng(
-                self.random_state if isinstance(self.random_state, int) else None
-            )
-            self.calibration_ = self._calibrate_by_simulation(beds, [s.beds for s in succ], rng)
+            tables = [s.beds for s in succ]
+            seed = self.random_state if isinstance(self.random_state, int) else None
+            rng = np.random.default_rng(seed)
+            self.calibration_ = calibrate_by_simulation(self, self._encode(tables), tables, rng)
             self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         return self
-
-    def _tract_posteriors(self, beds: EncodedBeds) -> np.ndarray:
-        out = np.zeros((len(beds), self.states_.n_tracts))
-        for a, b, lengths, _ in self._batches(beds.lengths):
-            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
-            post = engine.forward_backward(le, lengths, self.startprob_, self.transmat_)
-            out[a:b] = self.states_.to_tracts(post.gamma)
-        return out
-
-    def _bootstrap_generator(self, beds: EncodedBeds, tables) -> tuple[np.ndarray, np.ndarray]:
-        """Per-tract facies chain and log-thickness (mean, sd), weighted by the
-        fitted model's tract posteriors of the training beds."""
-        gamma = self._tract_posteriors(beds)
-        S, V = self.states_.n_tracts, len(self.facies_)
-        chain = np.full((S, V + 1, V), 0.01)
-        if self.unit == "beds":
-            chain[:, np.arange(V), np.arange(V)] = 0.0
-        below = np.where(beds.previous >= 0, beds.previous, V)
-        ok = beds.facies >= 0
-        for s in range(S):
-            np.add.at(chain[s], (below[ok], beds.facies[ok]), gamma[ok, s])
-        chain /= chain.sum(axis=2, keepdims=True)
-        th = np.concatenate([t["thickness"].to_numpy(float) for t in tables])
-        log_th = np.log(np.where(th > 0, th, 1.0))
-        w = gamma / np.maximum(gamma.sum(axis=0), 1e-12)
-        mean = w.T @ log_th
-        sd = np.sqrt(np.maximum(w.T @ log_th**2 - mean**2, 1e-6))
-        return chain, np.column_stack([mean, sd])
-
-    def _calibrate_by_simulation(self, beds: EncodedBeds, tables, rng) -> dict:
-        """Temperature from a parametric bootstrap: cores simulated from the fitted
-        model (:func:`faciesseq.hmm.calibration.simulate_beds`) are decoded, and
-        the temperature that best matches their known tracts is kept."""
-        from faciesseq.hmm.calibration import HeldOut, fit_temperature, simulate_beds
-
-        chain, thickness = self._bootstrap_generator(beds, tables)
-        lengths = [int(n) for n in beds.lengths if n > 0]
-        budget, chosen = 20_000, []
-        for i in rng.permutation(len(lengths)):
-            if sum(chosen) >= budget:
-                break
-            chosen.append(lengths[i])
-        drawn, tracts = simulate_beds(
-            chosen,
-            self.startprob_,
-            self.transmat_,
-            self.states_.state_tract,
-            chain,
-            thickness,
-            rng,
-        )
-        frames = [self._simulated_table(d, tracts_of) for d, tracts_of in _split(drawn, tracts)]
-        sim = self._encode(frames)
-        le = self._log_emission(self.emissions_, sim)
-        held = HeldOut(
-            le, sim.lengths, self.startprob_, self.transmat_, tracts, self.states_.state_tract
-        )
-        result = fit_temperature([held])
-        return {**result, "method": "parametric bootstrap", "simulated_successions": len(chosen)}
-
-    def _simulated_table(self, drawn: dict, tracts: np.ndarray) -> pd.DataFrame:
-        table = pd.DataFrame(
-            {
-                "facies": np.asarray(self.facies_, dtype=object)[drawn["facies"]],
-                "thickness": drawn["thickness"],
-            }
-        )
-        contact = next((p for p in self.emissions_ if p.name == "contact"), None)
-        if contact is not None and len(self.contacts_):
-            rng = np.random.default_rng(len(table))
-            probs = contact.emissionprob_[tracts]
-            cum = probs.cumsum(axis=1)
-            pick = (rng.random(len(table))[:, None] > cum).sum(axis=1)
-            table["contact"] = np.asarray(self.contacts_, dtype=object)[
-                np.minimum(pick, len(self.contacts_) - 1)
-            ]
-        return table
-
-    def _calibrate(
-        self, succ: Sequence[Succession], clamp: np.ndarray, rng: np.random.Generator
-    ) -> dict:
-        """Temperature of the posteriors by K-fold cross-validation over the labelled
-        cores (see :mod:`faciesseq.hmm.calibration`): each fold's model is fitted,
-        with one restart and the same hyper-parameters, on every succession but
-        those of its held-out cores, whose labelled beds are then scored."""
-        from faciesseq.hmm.calibration import HeldOut, fit_temperature
-
-        tracts = list(self.tract_model_.order)
-        codes = [
-            np.where(m.sum(axis=1) == 1, m.argmax(axis=1), -1)
-            for m in np.split(clamp, np.cumsum([len(s) for s in succ])[:-1])
-        ]
-        cores = list(dict.fromkeys(s.core for s, c in zip(succ, codes) if (c >= 0).any()))
-        k = min(int(self.calibration_folds), len(cores))
-        if k < 2:
-            return {
-                "skipped": f"calibration needs labels on 2 cores and 2 folds; {len(cores)} "
-                f"labelled core(s), calibration_folds={self.calibration_folds}"
-            }
-        fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
-        params = {**self.get_params(), "calibration_folds": 0, "n_restarts": 1, "n_jobs": 1}
-        held = []
-        for f in range(k):
-            train = [i for i, s in enumerate(succ) if fold_of.get(s.core) != f]
-            test = [i for i, s in enumerate(succ) if fold_of.get(s.core) == f]
-            sub = TractHMM(**{**params, "random_state": int(rng.integers(0, 2**31 - 1))})
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")  # the main fit has said it all
-                sub.fit(
-                    [succ[i] for i in train],
-                    labels=[[tracts[j] if j >= 0 else None for j in codes[i]] for i in train],
-                )
-                beds = sub._encode([succ[i].beds for i in test])
-                le = sub._log_emission(sub.emissions_, beds)
-            held.append(
-                HeldOut(
-                    le,
-                    beds.lengths,
-                    sub.startprob_,
-                    sub.transmat_,
-                    np.concatenate([codes[i] for i in test]),
-                    sub.states_.state_tract,
-                )
-            )
-        return {**fit_temperature(held), "folds": k, "cores": len(cores)}
 
     def _check_fitted(self) -> None:
         if not hasattr(self, "transmat_"):
