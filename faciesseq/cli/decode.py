@@ -55,6 +55,11 @@ def register(subparsers) -> None:
     parser.add_argument("--format", choices=FORMATS, default="csv", help="table format")
     parser.add_argument("--plot", action="store_true", help="also draw a strip log per core")
     parser.add_argument(
+        "--view",
+        action="store_true",
+        help="also write view.html: every core in one interactive page",
+    )
+    parser.add_argument(
         "--summary",
         choices=SUMMARIES,
         default="text",
@@ -144,7 +149,9 @@ def figure_name(core: str, used: Collection[str] = ()) -> str:
     return safe_stem(core, used)
 
 
-def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_model) -> None:
+def write_output(
+    interp, out: Path, fmt: str, agreement, plot, scheme, tract_model, view: bool = False
+) -> None:
     """Write the tables (and figures) into a new folder, then swap it in for ``out``."""
     from faciesseq._output import new_folder
 
@@ -157,6 +164,11 @@ def write_output(interp, out: Path, fmt: str, agreement, plot, scheme, tract_mod
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
         if plot:
             _write_strip_logs(interp, temp / "striplogs", scheme, tract_model)
+        if view:
+            from faciesseq.report.view import view_html
+
+            html = view_html(interp, scheme, tract_model)
+            (temp / "view.html").write_text(html, encoding="utf-8")
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
@@ -240,7 +252,14 @@ def run(args: argparse.Namespace) -> int:
     model, scheme, interp = _decode(args)
     agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
     write_output(
-        interp, Path(args.output), args.format, agreement, args.plot, scheme, model.tract_model_
+        interp,
+        Path(args.output),
+        args.format,
+        agreement,
+        args.plot,
+        scheme,
+        model.tract_model_,
+        view=args.view,
     )
     if args.summary == "json":
         _print_json(args, scheme, interp, agreement)

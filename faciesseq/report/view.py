@@ -35,13 +35,13 @@ __all__ = ["view_data", "view_html"]
 _UNKNOWN_FACIES = "#c8c8c8"
 
 
-def _number(value: object, digits: int = 6) -> float | None:
+def _number(value: object, digits: int = 10) -> float | None:
     """A float with ``digits`` significant digits, or None (JSON null) when not finite."""
     x = float(value)
     return float(f"{x:.{digits}g}") if math.isfinite(x) else None
 
 
-def _numbers(values, digits: int = 6) -> list[float | None]:
+def _numbers(values, digits: int = 10) -> list[float | None]:
     return [_number(v, digits) for v in np.asarray(values, dtype=float)]
 
 
