@@ -78,6 +78,11 @@ def register(subparsers) -> None:
         "tracts (then `faciesseq relabel`)",
     )
     parser.add_argument(
+        "--view",
+        action="store_true",
+        help="also write view.html: every core in one interactive page",
+    )
+    parser.add_argument(
         "--summary",
         choices=SUMMARIES,
         default="text",
@@ -178,10 +183,11 @@ def write_output(
     samples=None,
     las_step=None,
     sheet=None,
+    view: bool = False,
 ) -> None:
     """Write the tables (and figures) into a new folder, then swap it in for ``out``;
     ``samples`` (:func:`faciesseq.io.samples.read_samples`) adds ``samples.<fmt>``,
-    ``sheet`` (the label column, or ``None``) the review sheet."""
+    ``sheet`` (the label column, or ``None``) the review sheet, ``view`` view.html."""
     from faciesseq._output import new_folder
     from faciesseq.report import exports
 
@@ -209,6 +215,11 @@ def write_output(
             from faciesseq.review import write_sheet
 
             write_sheet(interp, temp, sheet)
+        if view:
+            from faciesseq.report.view import view_html
+
+            html = view_html(interp, scheme, tract_model)
+            (temp / "view.html").write_text(html, encoding="utf-8")
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
@@ -314,6 +325,7 @@ def run(args: argparse.Namespace) -> int:
         samples=_samples(args),
         las_step=args.las_step,
         sheet=args.labels if args.review_sheet else None,
+        view=args.view,
     )
     if args.summary == "json":
         _print_json(args, scheme, interp, agreement)

@@ -1,0 +1,308 @@
+"""The interactive strip-log view (``decode --view``, ``faciesseq.report.view``): a
+self-contained page, the data it embeds, hostile names, and the page in headless
+Chromium (skipped, with a message, where Chromium is absent). Synthetic cores from
+tests/_synthetic.py and tests/hmm_synthetic.py (invented numbers)."""
+
+import json
+import re
+from html.parser import HTMLParser
+
+import hmm_synthetic as synth
+import numpy as np
+import pytest
+from _chromium import CHROMIUM, open_page, page_errors
+from _synthetic import SHOREFACE, synthetic_core
+from PIL import Image
+
+from faciesseq.cli import main
+from faciesseq.interpretation import Interpretation
+from faciesseq.report.view import script_json, view_data, view_html
+from faciesseq.scheme import default_tract_model, load_scheme
+
+HOSTILE = "</script><img src=x onerror=alert(1)>"
+NEEDS_CHROMIUM = pytest.mark.skipif(
+    CHROMIUM is None, reason="chromium not installed (apt-get install chromium)"
+)
+
+
+def _interpretation(names=("W-1", "W-2"), meta=None) -> Interpretation:
+    model = default_tract_model()
+    cores = {n: synthetic_core(model, n, seed=k, grain=k == 1) for k, n in enumerate(names)}
+    first = next(iter(cores.values()))
+    return Interpretation(cores, first.tracts, first.surfaces, meta or {})
+
+
+def _page(names=("W-1", "W-2"), meta=None, title=None) -> tuple[Interpretation, str]:
+    interp = _interpretation(names, meta)
+    return interp, view_html(interp, load_scheme(SHOREFACE), default_tract_model(), title)
+
+
+def _embedded(html: str) -> dict:
+    """The JSON data block of the page, parsed as the page's script parses it."""
+    found = re.findall(r'<script type="application/json" id="view-data">(.*?)</script>', html, re.S)
+    assert len(found) == 1
+    return json.loads(found[0])
+
+
+class _Tags(HTMLParser):
+    """Every start tag with its attributes, as a browser's parser reads them."""
+
+    def __init__(self):
+        super().__init__()
+        self.tags: list[tuple[str, dict]] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+
+
+def _tags(html: str) -> list[tuple[str, dict]]:
+    parser = _Tags()
+    parser.feed(html)
+    return parser.tags
+
+
+# ---------------------------------------------------------------- the page itself
+
+
+def test_page_is_self_contained_and_fetches_nothing():
+    _, html = _page()
+    tags = _tags(html)
+    assert not re.search(r"""(?:src|href)\s*=\s*["']?\s*(?:https?:)?//""", html, re.I)
+    assert all("src" not in attrs and "href" not in attrs for _, attrs in tags)
+    assert [t for t, _ in tags if t in ("link", "img", "iframe", "object", "embed")] == []
+    for call in ("fetch(", "XMLHttpRequest", "import(", "WebSocket", "sendBeacon"):
+        assert call not in html
+    # the browser itself is told to load nothing from anywhere
+    csp = [a["content"] for t, a in tags if t == "meta" and "http-equiv" in a]
+    assert csp and csp[0].startswith("default-src 'none'")
+    scripts = [a for t, a in tags if t == "script"]
+    assert scripts == [{"type": "application/json", "id": "view-data"}, {}]  # data, code
+
+
+def test_page_embeds_every_bed_contact_and_pick():
+    interp, html = _page()
+    data = _embedded(html)
+    assert [c["name"] for c in data["cores"]] == ["W-1", "W-2"]
+    assert [t["code"] for t in data["tracts"]] == list(interp.tracts)
+    assert [s["code"] for s in data["surfaces"]] == list(interp.surfaces)
+    for shown, core in zip(data["cores"], interp, strict=True):
+        beds = core.beds
+        np.testing.assert_allclose(shown["beds"]["top"], beds["top"], rtol=1e-6)
+        np.testing.assert_allclose(shown["beds"]["base"], beds["base"], rtol=1e-6)
+        assert shown["beds"]["facies"] == beds["facies"].tolist()
+        assert shown["beds"]["tract"] == beds["tract"].tolist()
+        for k, t in enumerate(interp.tracts):
+            np.testing.assert_allclose(shown["beds"]["p"][k], beds[f"p_{t}"], atol=5e-4)
+        np.testing.assert_allclose(shown["contacts"]["depth"], core.boundaries["depth"], 1e-6)
+        for k, s in enumerate(interp.surfaces):
+            np.testing.assert_allclose(
+                shown["contacts"]["p"][k], core.boundaries[f"p_{s}"], 0, 5e-4
+            )
+        assert len(shown["picks"]) == len(core.picks) == 2
+        assert shown["gaps"] and shown["gaps"][0][1] - shown["gaps"][0][0] == pytest.approx(3.0)
+    # boxes as wide as the grain size class (1 clay ... 7 gravel): the first core's from
+    # the scheme's facies, the second core's from its beds' own grain_size
+    scheme = load_scheme(SHOREFACE)
+    assert [c["measure"] for c in data["cores"]] == ["grain_size", "grain_size"]
+    grain = [scheme[f].grain_size for f in interp["W-1"].beds["facies"]]
+    np.testing.assert_allclose(data["cores"][0]["beds"]["width"], np.array(grain) / 7, 0, 1e-4)
+    grain = interp["W-2"].beds["grain_size"].to_numpy(float)
+    np.testing.assert_allclose(data["cores"][1]["beds"]["width"], grain / 7, atol=1e-4)
+
+
+def test_each_bed_knows_the_contacts_at_its_top_and_base():
+    interp = _interpretation()
+    core = interp["W-1"]
+    data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())["cores"][0]
+    depth = core.boundaries["depth"].to_numpy(float)
+    top, base = data["beds"]["top_contact"], data["beds"]["base_contact"]
+    # the synthetic core: 40 beds, a gap after bed 25 (index 24), so 38 contacts
+    assert len(depth) == 38
+    assert top[0] == -1 and base[-1] == -1  # ends of the core
+    assert base[24] == -1 and top[25] == -1  # either side of the gap
+    for i in range(40):
+        if top[i] >= 0:
+            assert depth[top[i]] == pytest.approx(core.beds["top"].iloc[i])
+            assert base[i - 1] == top[i]  # one contact, shared by the beds either side
+        if base[i] >= 0:
+            assert depth[base[i]] == pytest.approx(core.beds["base"].iloc[i])
+
+
+def test_hostile_core_name_and_title_are_escaped():
+    _, html = _page(names=("W-1", HOSTILE), title="<b>Quillerby</b> & co")
+    assert HOSTILE not in html
+    assert "<img" not in html.lower() and "</script><" not in html
+    assert html.count("</script>") == 2  # the data block and the code, nothing else closes
+    assert "&lt;b&gt;Quillerby&lt;/b&gt; &amp; co" in html
+    data = _embedded(html)
+    assert data["cores"][1]["name"] == HOSTILE  # the page still shows the name as written
+    assert data["title"] == "<b>Quillerby</b> & co"
+    assert "<b>" not in html
+
+
+def test_script_json_cannot_end_its_element_or_break_a_line():
+    text = script_json({"a": "</script><!-- \u2028 \u2029 & >"})
+    assert "<" not in text and ">" not in text and "&" not in text
+    assert "\u2028" not in text and "\u2029" not in text
+    assert json.loads(text) == {"a": "</script><!-- \u2028 \u2029 & >"}
+
+
+def test_not_finite_numbers_become_null():
+    interp = _interpretation()
+    interp["W-1"].beds.loc[3, "p_HST"] = np.nan
+    data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())
+    assert data["cores"][0]["beds"]["p"][0][3] is None
+    json.dumps(data, allow_nan=False)  # valid JSON for JSON.parse
+
+
+def test_page_says_whether_the_probabilities_were_checked():
+    _, html = _page()
+    data = _embedded(html)
+    assert data["checked"] is False  # no model said so: not checked
+    assert "not checked" in data["note"]
+    note = "Probabilities checked on 3 held-out labelled cores."
+    _, html = _page(meta={"probabilities_checked": True, "probabilities_note": note})
+    data = _embedded(html)
+    assert data["checked"] is True and data["note"] == note
+
+
+def test_without_a_scheme_the_facies_are_grey_and_full_width():
+    interp = _interpretation()
+    data = view_data(interp, None, default_tract_model())
+    assert {c["measure"] for c in data["cores"]} == {"none"}
+    assert set(data["cores"][0]["beds"]["width"]) == {1.0}
+    assert {f["colour"] for f in data["facies"]} == {"#c8c8c8"}
+
+
+# ---------------------------------------------------------------- the command line
+
+
+@pytest.fixture(scope="module")
+def model_and_database(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("db")
+    synth.write_database(folder, 4, 40, seed=5)
+    model = folder / "model.json"
+    argv = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
+    assert main([*argv, "-o", str(model), "--restarts", "1"]) == 0
+    return model, folder
+
+
+def test_decode_view_writes_one_page_beside_the_tables(model_and_database, tmp_path, capsys):
+    model, folder = model_and_database
+    argv = ["decode", str(model), str(folder / "cores.csv"), "--summary", "json"]
+    assert main([*argv, "-o", str(tmp_path / "plain")]) == 0
+    assert not (tmp_path / "plain" / "view.html").exists()
+    assert main([*argv, "--view", "-o", str(tmp_path / "out")]) == 0
+    capsys.readouterr()
+    page = (tmp_path / "out" / "view.html").read_text(encoding="utf-8")
+    data = _embedded(page)
+    tracts = (tmp_path / "out" / "tracts.csv").read_text().splitlines()
+    assert len(data["cores"]) == 4
+    assert sum(len(c["beds"]["top"]) for c in data["cores"]) == len(tracts) - 2  # note, header
+    assert data["note"] in tracts[0]
+
+
+# ---------------------------------------------------------------- in a browser
+
+#: Written into <head> before the page's script: every error and console.error lands
+#: in the DOM, where --dump-dom shows it.
+_HOOK = """<script>
+window.__errors = [];
+window.addEventListener("error", e => window.__errors.push(String(e.message)));
+console.error = (...a) => window.__errors.push(a.join(" "));
+</script>"""
+
+#: Run after the page's script: hover a bed, toggle a track, zoom in; results into the DOM.
+_PROBE = """<script>
+(function () {
+  const out = {};
+  const well = document.querySelectorAll(".well svg")[1];
+  const bed = well.querySelector('[data-track="facies"] [data-bed="7"]');
+  const r = bed.getBoundingClientRect();
+  bed.dispatchEvent(new MouseEvent("mousemove",
+    {bubbles: true, clientX: r.left + r.width / 2, clientY: r.top + r.height / 2}));
+  out.tooltip = document.getElementById("tooltip").hidden ? null
+    : document.getElementById("tooltip").innerText;
+  out.tracks = [...well.querySelectorAll("[data-track]")].map(g => g.dataset.track);
+  out.wells = document.querySelectorAll(".well").length;
+  out.note = document.getElementById("note").innerText;
+  const box = document.getElementById("show-prob");
+  box.click();
+  out.tracksAfter = [...document.querySelectorAll(".well svg")[1]
+    .querySelectorAll("[data-track]")].map(g => g.dataset.track);
+  box.click();
+  const before = [+document.getElementById("top").value, +document.getElementById("base").value];
+  document.getElementById("zoom-in").click();
+  out.range = [before, [+document.getElementById("top").value,
+    +document.getElementById("base").value]];
+  document.getElementById("all").click();
+  out.errors = window.__errors;
+  const pre = document.createElement("pre");
+  pre.id = "probe"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+def _probe(tmp_path, html: str) -> tuple[dict, str]:
+    page = tmp_path / "probe.html"
+    page.write_text(
+        html.replace("<head>", "<head>" + _HOOK, 1).replace("</body>", _PROBE + "</body>", 1),
+        encoding="utf-8",
+    )
+    dom, log = open_page(page, tmp_path / "probe.png", size="1400,1000")
+    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
+    assert found, "the probe script did not run"
+    return json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&")), log
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_view_opens_in_chromium_without_errors_and_draws_every_well(tmp_path):
+    _, html = _page(names=("W-1", HOSTILE, "W-3"))
+    page = tmp_path / "view.html"
+    page.write_text(html, encoding="utf-8")
+    shot = tmp_path / "view.png"
+    dom, log = open_page(page, shot, size="1400,1000")
+    assert page_errors(log) == []
+    assert dom.count('class="well"') == 3
+    assert "onerror" not in re.sub(r"<script.*?</script>", "", dom, flags=re.S).replace(
+        "&lt;img src=x onerror=alert(1)&gt;", ""
+    )
+    assert "<img" not in dom
+    with Image.open(shot) as img:
+        assert img.size == (1400, 1000)
+        grey = img.convert("L")
+        # drawn tracks fill the middle of the page, not a blank or an error page
+        middle = np.asarray(grey.crop((100, 300, 1000, 800)), dtype=float)
+    assert middle.std() > 40
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_hover_toggle_and_zoom_in_chromium(tmp_path):
+    interp, html = _page(names=("W-1", "W-2"))
+    out, log = _probe(tmp_path, html)
+    assert out["errors"] == [] and page_errors(log) == []
+    assert out["wells"] == 2
+    assert "not checked" in out["note"].lower()
+    bed = interp["W-2"].beds.iloc[7]
+    tip = out["tooltip"]
+    assert tip is not None, "no tooltip after a mousemove on a bed"
+    assert tip.startswith("W-2")
+    assert f"{bed['top']:.3f}".rstrip("0").rstrip(".") in tip
+    assert f"{bed['base']:.3f}".rstrip("0").rstrip(".") in tip
+    assert f"{bed['thickness']:.3f}".rstrip("0").rstrip(".") in tip
+    assert bed["facies"] in tip and bed["tract"] in tip
+    for t in interp.tracts:
+        assert f"{t}\t{bed[f'p_{t}']:.3f}" in tip
+    # the surfaces at both contacts of the bed (bed 7 lies inside a segment)
+    bounds = interp["W-2"].boundaries
+    for depth in (bed["top"], bed["base"]):
+        row = bounds[np.isclose(bounds["depth"], depth)].iloc[0]
+        for s in interp.surfaces:
+            assert f"{s}\t{row[f'p_{s}']:.3f}" in tip or f"{s} (picked)\t{row[f'p_{s}']:.3f}" in tip
+    assert out["tracks"] == ["facies", "tract", "prob", "surf"]
+    assert out["tracksAfter"] == ["facies", "tract", "surf"]
+    (top0, base0), (top1, base1) = out["range"]
+    assert base1 - top1 == pytest.approx((base0 - top0) / 2, rel=1e-3)
