@@ -28,6 +28,7 @@ COMMANDS = (
     "simulate",
     "fit",
     "decode",
+    "correlate",
     "validate",
     "appendix",
     "demo",
