@@ -34,6 +34,7 @@ import pandas as pd
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.correlation import AlignmentOptions, correlate
+from faciesseq.correlation.picks import correlation_picks
 from faciesseq.hmm.model import TractHMM
 from faciesseq.simulate import load_scenario, simulate
 
@@ -149,7 +150,7 @@ def correlate_result(result, picks: pd.DataFrame, options: AlignmentOptions):
 
 
 def run(
-    seeds, kinds=("MFS", "SB"), options=None, tolerance=1.5, model=None, cache=None, threshold=0.5
+    seeds, kinds=("MFS", "SB"), options=None, tolerance=1.5, model=None, cache=None, threshold=1.0
 ):
     scenario = load_scenario(SCENARIO)
     options = options or AlignmentOptions()
@@ -160,7 +161,7 @@ def run(
             result, decoded = cache[(seed, threshold)]
         else:
             result = simulate(scenario, seed=seed)
-            decoded = model.decode(result.cores, threshold=threshold).picks_table()
+            decoded = correlation_picks(model.decode(result.cores), threshold)
             if cache is not None:
                 cache[(seed, threshold)] = (result, decoded)
         truth = true_surface_events(result)

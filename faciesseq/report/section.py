@@ -70,7 +70,7 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
         )
         best = rank.sort_values(["wells", "confidence"], ascending=False, kind="stable").index[0]
         chosen = picks[picks["surface_id"] == best]
-    label = f"depth below {chosen['surface_id'].iloc[0]}"
+    label = f"depth below {str(chosen['surface_id'].iloc[0]).split(':', 1)[-1]}"
     at = dict(zip(chosen["core"], chosen["depth"]))
     pos = wells.set_index("core")["position"]
     known = [c for c in names if c in at]
@@ -88,6 +88,28 @@ def _column_tract(tracts: pd.DataFrame, top: float, base: float) -> str | None:
     return str(
         pd.Series(t.to_numpy(), index=inside["tract"].to_numpy()).groupby(level=0).sum().idxmax()
     )
+
+
+def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
+    """Ids of the correlated surfaces right of the last well they reach, spread apart."""
+    picks = correlation.picks[correlation.picks["section"] == section]
+    labels: dict[float, list[tuple[float, str, str]]] = {}
+    for sid, part in picks.groupby("surface_id"):
+        if len(part) < 2:
+            continue
+        last = part.sort_values("position").iloc[-1]
+        y = float(last["depth"] - shift[last["core"]])
+        text = str(sid).split(":", 1)[-1]
+        labels.setdefault(float(last["position"]), []).append((y, text, str(last["surface"])))
+    for x, items in labels.items():
+        items.sort()
+        placed: list[float] = []
+        for y, text, kind in items:
+            y = max(y, placed[-1] + spacing) if placed else y
+            placed.append(y)
+            ax.text(
+                x + width * 0.55, y, text, fontsize=5.5, va="center", color=surface_colour(kind)
+            )
 
 
 def section_figure(
@@ -204,21 +226,7 @@ def section_figure(
                 fontsize=7,
                 rotation=0 if len(names) <= 10 else 90,
             )
-        # the ids of the correlated surfaces, at the right of the last well they reach
-        for sid, part in correlation.picks[correlation.picks["section"] == section].groupby(
-            "surface_id"
-        ):
-            last = part.sort_values("position").iloc[-1]
-            if len(part) < 2:
-                continue
-            ax.text(
-                last["position"] + width * 0.55,
-                last["depth"] - shift[last["core"]],
-                str(sid).split(":", 1)[-1],
-                fontsize=5.5,
-                va="center",
-                color=surface_colour(str(last["surface"])),
-            )
+        _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
         ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
         ax.set_xlabel(position_label)
         ax.set_ylabel(f"{ylabel} ({units})")
