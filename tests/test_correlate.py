@@ -153,3 +153,49 @@ def test_one_well_only_is_an_error():
     wells = wells_from_frame(pd.DataFrame({"core": ["A"], "x_km": [1]}), "w.csv")
     with pytest.raises(InputError, match="two wells"):
         check_wells(wells, ["A"])
+
+
+# simulated section ---------------------------------------------------------------------
+
+
+def test_true_surfaces_of_a_simulated_section_are_tied_to_their_own_age():
+    """Perfect picks (the forward model's true surfaces): MFS ties between neighbouring
+    wells are the same time step of the base-level history (see benchmarks/correlation.md)."""
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    sys.path.insert(0, str(root / "benchmarks"))
+    try:
+        import eval_correlation as ev
+    finally:
+        sys.path.pop(0)
+    from faciesseq.simulate import load_scenario, simulate
+
+    result = simulate(load_scenario(root / "configs" / "scenario-ramp.yaml"), seed=11)
+    truth = ev.true_surface_events(result)
+    picks = truth[truth["cored"]].assign(probability=1.0)
+    corr, wells = ev.correlate_result(result, picks, AlignmentOptions())
+    n_true, _, recovered, reported, correct, _, _ = ev.score(corr, picks, truth, wells, "MFS", 1.5)
+    assert correct == reported > 0
+    assert recovered / n_true >= 0.85
+
+
+def test_datum_choices_shift_the_wells():
+    from faciesseq.report.section import datum_shifts
+
+    picks, extents, wells = _picks_section(seed=2, drop=0.0)
+    wells = wells.assign(elevation=[5.0, 4.0, 3.0, 2.0, 1.0])
+    corr = correlate(picks.drop(columns="truth"), extents, wells)
+    shifts, _ = datum_shifts(corr, "dip", "depth")
+    assert set(shifts.values()) == {0.0}
+    shifts, _ = datum_shifts(corr, "dip", "elevation")
+    assert shifts["W0"] == -5.0
+    shifts, label = datum_shifts(corr, "dip", "MFS")
+    mfs = corr.picks[corr.picks["surface"] == "MFS"]
+    best = mfs.groupby("surface_id")["core"].size().max()
+    assert best == 5 and label.startswith("depth below MFS-")
+    sid = mfs["surface_id"].iloc[0]
+    shifts, _ = datum_shifts(corr, "dip", sid)
+    at = mfs[mfs["surface_id"] == sid].set_index("core")["depth"]
+    assert all(shifts[c] == at[c] for c in at.index)
