@@ -199,3 +199,20 @@ def test_datum_choices_shift_the_wells():
     shifts, _ = datum_shifts(corr, "dip", sid)
     at = mfs[mfs["surface_id"] == sid].set_index("core")["depth"]
     assert all(shifts[c] == at[c] for c in at.index)
+
+
+def test_order_column_disagreeing_with_positions_warns(tmp_path):
+    from faciesseq.correlation.wells import read_wells
+
+    path = tmp_path / "wells.csv"
+    path.write_text("Name,Distance,Order,Section\nA,0,2,s\nB,5,1,s\nC,9,3,s\n")
+    wells = read_wells(str(path))
+    assert list(wells.frame["core"]) == ["A", "B", "C"]
+    assert [p.kind for p in wells.problems] == ["wells-out-of-order"]
+    assert str(path) in str(wells.problems[0])
+
+
+def test_bad_position_value_names_the_row():
+    frame = pd.DataFrame({"core": ["A", "B"], "x_km": ["1", "two"]})
+    with pytest.raises(InputError, match=r"w\.csv, row 2: position 'two'"):
+        wells_from_frame(frame, "w.csv")

@@ -95,3 +95,11 @@ def test_well_without_core_and_core_without_well_warn(database, tmp_path, capsys
     err = capsys.readouterr().err
     assert "row 5" in err and "'XX-1' has no core" in err
     assert "core 'QB-09' has no row in the wells table" in err
+
+
+def test_missing_wells_file_one_line(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    assert _run(database, out, wells=tmp_path / "nope.csv") == 1
+    err = capsys.readouterr().err.strip()
+    assert "nope.csv" in err and len(err.splitlines()) == 1
+    assert not out.exists()
