@@ -29,6 +29,7 @@ COMMANDS = (
     "fit",
     "decode",
     "relabel",
+    "correlate",
     "validate",
     "appendix",
     "demo",

@@ -1,0 +1,137 @@
+"""``faciesseq correlate SOURCE --wells WELLS --model model.json -o OUT``: tie decoded surfaces."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from faciesseq.cli._common import (
+    add_output_arguments,
+    add_source_arguments,
+    check_grid_size,
+    load_scheme_option,
+    read_source,
+    require_file,
+)
+from faciesseq.cli._hmm import warnings_to_stderr
+from faciesseq.errors import ConfigError
+
+FIGURE_FORMATS = ("png", "svg", "pdf")
+
+EXAMPLES = """\
+examples:
+  faciesseq fit demo_cores/cores.csv -o model.json
+  faciesseq correlate demo_cores/cores.csv --wells demo_cores/wells.csv --model model.json -o corr
+  faciesseq correlate cores.csv --wells wells.xlsx --model model.json --datum depth \\
+      --figure-format pdf -o corr --force
+"""
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "correlate",
+        help="tie decoded surfaces from well to well along sections; section figures",
+        description="Decode every core of SOURCE with a model written by `faciesseq fit`, "
+        "then tie each well's surface picks to its neighbours' along each section of the "
+        "wells table (order-preserving alignment: same kinds only, no crossing ties, a "
+        "surface may be absent where its tract pinches out). Writes OUT/correlation.csv "
+        "(one row per pick of a correlated surface, with the tie's confidence), "
+        "OUT/ties.csv, and one section figure per section. A correlation from cores alone "
+        "is a hypothesis to test against seismic, biostratigraphy and well logs. An "
+        "existing OUT is replaced as a whole with --force.",
+        epilog=EXAMPLES,
+    )
+    add_source_arguments(parser)
+    parser.add_argument(
+        "--wells",
+        required=True,
+        metavar="WELLS",
+        help="wells table: core (or name), distance (or x_km) or x and y; optional section, "
+        "order, elevation, datum_depth",
+    )
+    parser.add_argument("--model", required=True, metavar="MODEL", help="model file from `fit`")
+    add_output_arguments(parser, "OUT", "output folder", required=True)
+    parser.add_argument(
+        "--datum",
+        default="MFS",
+        help="hang the section on: a surface kind (its correlated surface in most wells), a "
+        "surface id (e.g. dip:MFS-2), depth, elevation or datum_depth",
+    )
+    parser.add_argument(
+        "--figure-format", choices=FIGURE_FORMATS, default="png", help="section figure format"
+    )
+    parser.add_argument(
+        "--doubtful",
+        type=float,
+        default=0.5,
+        metavar="C",
+        help="ties with a confidence below C are flagged doubtful",
+    )
+    parser.set_defaults(func=run)
+
+
+def _decode(args):
+    """Read the wells, the model and the cores; decode the cores on the wells table."""
+    from faciesseq.correlation.wells import check_wells, read_wells
+    from faciesseq.hmm.modelfile import load_model
+
+    wells = read_wells(require_file(args.wells))
+    model = load_model(require_file(args.model))
+    scheme = load_scheme_option(args.scheme) or model.scheme
+    cores = read_source(args, scheme).require_valid()
+    check_grid_size(cores, model.unit, model.step, option="the model's grid step")
+    wells, problems = check_wells(wells, cores.names)
+    for p in (*wells.problems, *problems):
+        sys.stderr.write(f"faciesseq correlate: {p}\n")
+    cores = cores.subset(list(wells.frame["core"]))
+    with warnings_to_stderr("correlate"):
+        interp = model.decode(cores.successions(model.unit, model.step))
+    return wells, cores, interp
+
+
+def run(args: argparse.Namespace) -> int:
+    from faciesseq._output import check_target, new_folder
+    from faciesseq.correlation import AlignmentOptions, correlate
+    from faciesseq.io.writer import safe_stem
+    from faciesseq.report.section import section_figure
+
+    check_target(args.output, force=args.force, folder=True)
+    if not 0 <= args.doubtful <= 1:
+        raise ConfigError(f"--doubtful must lie between 0 and 1, got {args.doubtful}")
+    wells, scheme_cores, interp = _decode(args)
+    extents = {c.name: (c.top, c.base) for c in scheme_cores}
+    corr = correlate(
+        interp.picks_table(), extents, wells.frame, AlignmentOptions(doubtful=args.doubtful)
+    )
+    tracts = interp.tracts_table()
+    out = Path(args.output)
+    with new_folder(out) as temp:
+        corr.to_frame().to_csv(temp / "correlation.csv", index=False, float_format="%.6g")
+        corr.ties.to_csv(temp / "ties.csv", index=False, float_format="%.6g")
+        used: set[str] = set()
+        for section in sorted(corr.wells["section"].unique()):
+            stem = safe_stem(f"section-{section}", used)
+            used.add(stem)
+            section_figure(
+                corr,
+                section,
+                tracts,
+                temp / f"{stem}.{args.figure_format}",
+                datum=args.datum,
+                units=scheme_cores.units,
+                position_label=wells.position_label,
+                tract_order=tuple(interp.tracts),
+            )
+    ties = corr.ties
+    print(
+        f"correlated {len(corr.wells)} well(s) in {corr.wells['section'].nunique()} section(s): "
+        f"{corr.picks['surface_id'].nunique()} surface(s), {len(ties)} tie(s), "
+        f"{int(ties['doubtful'].sum())} doubtful"
+    )
+    print(f"written to {out}/ (correlation.csv, ties.csv, section figures)")
+    print(
+        "A correlation from cores alone is a hypothesis to test against seismic, "
+        "biostratigraphy and well logs."
+    )
+    return 0

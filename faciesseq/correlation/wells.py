@@ -1,0 +1,261 @@
+"""The wells table: where each core stands, on which section, hung on which datum.
+
+Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite; see
+:mod:`faciesseq.io.source`). Columns, matched case-insensitively:
+
+- ``core`` (or ``name``, ``well``): the core's name as in the cores source;
+- a position: ``distance`` (or ``x_km``, ``distance_km``, ``position``) along
+  the section, or map coordinates ``x`` and ``y`` (any one length unit); with
+  coordinates the wells of a section are ordered along the straight line that
+  fits them best (first principal axis; ``order`` overrides it) and the
+  position is the distance along that path;
+- optional ``section`` (one section named ``section`` when absent), ``order``
+  (order of the wells along their section), ``elevation`` (of the core's top,
+  positive up, in the cores' depth units) and ``datum_depth`` (depth of a datum
+  in the core, for ``--datum datum_depth``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.errors import InputError, Problem
+
+__all__ = ["WellTable", "check_wells", "read_wells", "wells_from_frame"]
+
+_NAMES = ("core", "name", "well")
+_DISTANCE = ("distance", "distance_km", "x_km", "position")
+_OPTIONAL = ("section", "order", "elevation", "datum_depth")
+
+
+@dataclass(frozen=True)
+class WellTable:
+    """A checked wells table.
+
+    Attributes
+    ----------
+    frame
+        ``core``, ``section``, ``position`` (distance along the section),
+        ``elevation`` and ``datum_depth`` (NaN where not given), ``row`` (data
+        row in the file); sorted by section, position and name.
+    file
+        Where the table came from, for messages.
+    position_label
+        Axis label of the position (e.g. ``"x_km"``).
+    problems
+        Warnings found while reading.
+    """
+
+    frame: pd.DataFrame
+    file: str = "wells table"
+    position_label: str = "distance"
+    problems: tuple[Problem, ...] = field(default=())
+
+
+def _column(frame: pd.DataFrame, names: Iterable[str]) -> str | None:
+    lower = {str(c).strip().lower(): c for c in frame.columns}
+    for name in names:
+        if name in lower:
+            return lower[name]
+    return None
+
+
+def _numbers(frame, column, rows, file, what) -> np.ndarray:
+    values = pd.to_numeric(frame[column], errors="coerce")
+    bad = values.isna() & frame[column].notna() & (frame[column].astype(str).str.strip() != "")
+    if bad.any():
+        k = int(np.flatnonzero(bad.to_numpy())[0])
+        raise InputError(
+            f"{what} {frame[column].iloc[k]!r} in column {column!r} is not a number",
+            file=file,
+            row=rows[k],
+        )
+    return values.to_numpy(float)
+
+
+def _along_line(x: np.ndarray, y: np.ndarray, order: np.ndarray | None) -> np.ndarray:
+    """Distance along the path through the wells, ordered by ``order`` or the principal axis."""
+    xy = np.c_[x, y]
+    if order is None or np.isnan(order).any():
+        centred = xy - xy.mean(axis=0)
+        _, _, vt = np.linalg.svd(centred, full_matrices=False)
+        axis = vt[0] if vt[0][np.argmax(np.abs(vt[0]))] > 0 else -vt[0]
+        order = centred @ axis
+    ranked = np.lexsort((y, x, order))
+    steps = np.r_[0.0, np.hypot(*np.diff(xy[ranked], axis=0).T)]
+    out = np.empty(len(x))
+    out[ranked] = np.cumsum(steps)
+    return out
+
+
+def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) -> WellTable:
+    """Check a wells table read into a data frame (see the module's columns)."""
+    rows = list(rows) if rows is not None else list(range(1, len(frame) + 1))
+    name = _column(frame, _NAMES)
+    if name is None:
+        raise InputError(
+            f"no well name column (one of {', '.join(_NAMES)}); columns are "
+            f"{', '.join(map(str, frame.columns))}",
+            file=file,
+        )
+    names = frame[name].astype(str).str.strip()
+    blank = frame[name].isna() | (names == "")
+    if blank.any():
+        raise InputError("a well without a name", file=file, row=rows[int(np.argmax(blank))])
+    dup = names.duplicated(keep="first")
+    if dup.any():
+        k = int(np.argmax(dup))
+        first = rows[int(np.flatnonzero((names == names.iloc[k]).to_numpy())[0])]
+        raise InputError(
+            f"well {names.iloc[k]!r} is listed twice (also row {first}); give each well one row",
+            file=file,
+            row=rows[k],
+        )
+    section_col = _column(frame, ("section",))
+    sections = (
+        frame[section_col].fillna("section").astype(str).str.strip()
+        if section_col
+        else pd.Series("section", index=frame.index)
+    )
+    order_col = _column(frame, ("order",))
+    order = _numbers(frame, order_col, rows, file, "order") if order_col else None
+    distance = _column(frame, _DISTANCE)
+    x_col, y_col = _column(frame, ("x",)), _column(frame, ("y",))
+    if distance is not None:
+        position = _numbers(frame, distance, rows, file, "position")
+        label = str(distance)
+    elif x_col is not None and y_col is not None:
+        x = _numbers(frame, x_col, rows, file, "x")
+        y = _numbers(frame, y_col, rows, file, "y")
+        position = np.full(len(frame), np.nan)
+        for s in sections.unique():
+            here = (sections == s).to_numpy() & np.isfinite(x) & np.isfinite(y)
+            if here.any():
+                position[here] = _along_line(
+                    x[here], y[here], order[here] if order is not None else None
+                )
+        label = f"distance along the section ({x_col}, {y_col} units)"
+    else:
+        raise InputError(
+            "no position column: give a distance along the section "
+            f"({', '.join(_DISTANCE)}) or map coordinates x and y",
+            file=file,
+        )
+    missing = np.isnan(position)
+    if missing.any():
+        k = int(np.argmax(missing))
+        raise InputError(f"well {names.iloc[k]!r} has no position", file=file, row=rows[k])
+    out = pd.DataFrame(
+        {
+            "core": names.to_numpy(),
+            "section": sections.to_numpy(),
+            "position": position,
+            "order": order if order is not None else np.nan,
+            "row": rows,
+        }
+    )
+    for role in ("elevation", "datum_depth"):
+        col = _column(frame, (role,))
+        out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
+    problems = []
+    if order is not None and distance is not None:
+        for s, part in out.groupby("section", sort=False):
+            by_pos = part.sort_values(["position", "core"], kind="stable")["core"].tolist()
+            by_order = part.sort_values(["order", "core"], kind="stable")["core"].tolist()
+            if by_pos != by_order:
+                problems.append(
+                    Problem(
+                        "warning",
+                        "wells-out-of-order",
+                        f"section {s!r}: the order column disagrees with the positions; "
+                        "wells are ordered by position",
+                        file=file,
+                    )
+                )
+    out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
+    return WellTable(out, file, label, tuple(problems))
+
+
+def read_wells(path: str) -> WellTable:
+    """Read and check a wells table with the project's readers.
+
+    Raises
+    ------
+    InputError
+        The file is missing or unreadable, a name column or a position is
+        missing, a well is listed twice, or a value is not a number. The
+        message names the file and the row.
+    """
+    from faciesseq.io.source import SourceSpec, read_tables
+
+    tables, problems, _ = read_tables(SourceSpec(str(path)))
+    if len(tables) != 1:
+        raise InputError("give the wells table as one file", file=str(path))
+    table = tables[0]
+    wells = wells_from_frame(table.frame, str(path), table.row_numbers())
+    extra = tuple(problems) + tuple(p for p in table.problems if p.severity == "warning")
+    return WellTable(wells.frame, wells.file, wells.position_label, extra + wells.problems)
+
+
+def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list[Problem]]:
+    """Match the wells table with the cores; keep the wells that have a core.
+
+    A well without a core and a core without a well row are warnings (the
+    well or core is left out); a section left with one well is a warning (it
+    cannot be correlated). No section with two wells is an error.
+
+    Returns
+    -------
+    (WellTable, list of Problem)
+        The wells with a core, and the warnings.
+    """
+    cores = list(cores)
+    frame = wells.frame
+    problems: list[Problem] = []
+    have = set(cores)
+    for row in frame.itertuples(index=False):
+        if row.core not in have:
+            problems.append(
+                Problem(
+                    "warning",
+                    "well-without-core",
+                    f"well {row.core!r} has no core in the source; left out",
+                    file=wells.file,
+                    row=int(row.row),
+                )
+            )
+    listed = set(frame["core"])
+    for core in cores:
+        if core not in listed:
+            problems.append(
+                Problem(
+                    "warning",
+                    "core-without-well",
+                    f"core {core!r} has no row in the wells table; left out of the correlation",
+                    file=wells.file,
+                )
+            )
+    kept = frame[frame["core"].isin(have)].reset_index(drop=True)
+    sizes = kept.groupby("section", sort=True).size()
+    for section, n in sizes.items():
+        if n < 2:
+            problems.append(
+                Problem(
+                    "warning",
+                    "one-well-section",
+                    f"section {section!r} has one well with a core; nothing to correlate",
+                    file=wells.file,
+                )
+            )
+    if not (sizes >= 2).any():
+        raise InputError(
+            "no section has two wells with cores; a correlation needs at least two wells "
+            "on one section",
+            file=wells.file,
+        )
+    kept = kept[kept["section"].map(sizes) >= 2].reset_index(drop=True)
+    return WellTable(kept, wells.file, wells.position_label, wells.problems), problems

@@ -1,0 +1,240 @@
+"""Correlation section: wells side by side at their distance, hung on a datum.
+
+Each well is a tract column (colours of :mod:`faciesseq.report.style`) at its
+position along the section; correlated surfaces are lines from well to well
+(solid, dashed where the tie is doubtful), and the tracts are shaded between
+neighbouring wells between successive ties.
+"""
+
+from __future__ import annotations
+
+import itertools
+import os
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.report.style import (
+    PAGE_WIDTH,
+    figure_style,
+    new_figure,
+    save_figure,
+    surface_colour,
+    tract_colour,
+)
+
+__all__ = ["CAPTION", "datum_shifts", "section_figure"]
+
+CAPTION = (
+    "A correlation from cores alone is a hypothesis to test against seismic, "
+    "biostratigraphy and well logs; it informs a geologist's interpretation and does not "
+    "replace it."
+)
+
+
+def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float], str]:
+    """Depth of the datum in each well of ``section`` (subtracted from depths), and its label.
+
+    ``datum`` is ``"depth"`` (core tops at 0), ``"elevation"`` (depth below the
+    elevation of the wells' tops; needs ``elevation``), ``"datum_depth"`` (the
+    wells table's column), a correlated surface id, or a surface kind (``MFS``:
+    the kind's correlated surface found in the most wells, the most confident
+    among equals). Wells the surface misses take the datum depth interpolated
+    from their neighbours by position.
+    """
+    from faciesseq.errors import ConfigError
+
+    wells = correlation.wells[correlation.wells["section"] == section]
+    names = list(wells["core"])
+    if datum == "depth":
+        return dict.fromkeys(names, 0.0), "depth below core top"
+    if datum in ("elevation", "datum_depth"):
+        values = wells[datum].to_numpy(float)
+        if np.isnan(values).any():
+            raise ConfigError(f"--datum {datum} needs a {datum!r} value for every well")
+        if datum == "elevation":
+            return dict(zip(names, -values)), "depth below datum (elevation 0)"
+        return dict(zip(names, values)), "depth below the datum"
+    picks = correlation.picks[correlation.picks["section"] == section]
+    chosen = picks[picks["surface_id"] == datum]
+    if not len(chosen):
+        kind = picks[picks["surface"] == datum]
+        if not len(kind):
+            raise ConfigError(
+                f"--datum {datum!r} is neither depth, elevation, datum_depth, a correlated "
+                f"surface id nor a correlated surface kind of section {section!r}"
+            )
+        rank = kind.groupby("surface_id").agg(
+            wells=("core", "size"), confidence=("confidence", "mean")
+        )
+        best = rank.sort_values(["wells", "confidence"], ascending=False, kind="stable").index[0]
+        chosen = picks[picks["surface_id"] == best]
+    label = f"depth below {str(chosen['surface_id'].iloc[0]).split(':', 1)[-1]}"
+    at = dict(zip(chosen["core"], chosen["depth"]))
+    pos = wells.set_index("core")["position"]
+    known = [c for c in names if c in at]
+    xs = np.array([pos[c] for c in known])
+    ys = np.array([at[c] for c in known])
+    return {c: float(at[c]) if c in at else float(np.interp(pos[c], xs, ys)) for c in names}, label
+
+
+def _column_tract(tracts: pd.DataFrame, top: float, base: float) -> str | None:
+    """The tract holding most thickness between ``top`` and ``base`` in one well."""
+    inside = tracts[(tracts["base"] > top) & (tracts["top"] < base)]
+    if not len(inside):
+        return None
+    t = np.minimum(inside["base"], base) - np.maximum(inside["top"], top)
+    return str(
+        pd.Series(t.to_numpy(), index=inside["tract"].to_numpy()).groupby(level=0).sum().idxmax()
+    )
+
+
+def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
+    """Ids of the correlated surfaces right of the last well they reach, spread apart."""
+    picks = correlation.picks[correlation.picks["section"] == section]
+    labels: dict[float, list[tuple[float, str, str]]] = {}
+    for sid, part in picks.groupby("surface_id"):
+        if len(part) < 2:
+            continue
+        last = part.sort_values("position").iloc[-1]
+        y = float(last["depth"] - shift[last["core"]])
+        text = str(sid).split(":", 1)[-1]
+        labels.setdefault(float(last["position"]), []).append((y, text, str(last["surface"])))
+    for x, items in labels.items():
+        items.sort()
+        placed: list[float] = []
+        for y, text, kind in items:
+            y = max(y, placed[-1] + spacing) if placed else y
+            placed.append(y)
+            ax.text(
+                x + width * 0.55, y, text, fontsize=5.5, va="center", color=surface_colour(kind)
+            )
+
+
+def section_figure(
+    correlation,
+    section: str,
+    tracts: pd.DataFrame,
+    path: str | os.PathLike,
+    datum: str = "MFS",
+    units: str = "m",
+    position_label: str = "distance",
+    tract_order: tuple[str, ...] = (),
+) -> Path:
+    """Draw one section and save it (the suffix of ``path`` chooses PNG, SVG or PDF).
+
+    Parameters
+    ----------
+    correlation
+        A :class:`faciesseq.correlation.Correlation`.
+    section
+        The section to draw.
+    tracts
+        Decoded tract column of every core: ``core``, ``top``, ``base``, ``tract``.
+    path
+        Output file.
+    datum
+        See :func:`datum_shifts`.
+    units, position_label
+        Depth units and the label of the position axis.
+    tract_order
+        Tract codes in the tract model's order (legend, extra colours).
+    """
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch, Polygon, Rectangle
+
+    wells = correlation.wells[correlation.wells["section"] == section]
+    ties = correlation.ties[correlation.ties["section"] == section]
+    shift, ylabel = datum_shifts(correlation, section, datum)
+    pos = dict(zip(wells["core"], wells["position"]))
+    names = list(wells["core"])
+    span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
+    width = span / max(len(names), 1) * 0.22
+    order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
+    with figure_style():
+        fig = new_figure(PAGE_WIDTH, 5.2)
+        ax = fig.add_axes((0.09, 0.2, 0.78, 0.72))
+        columns = {c: tracts[tracts["core"] == c] for c in names}
+        for left, right in itertools.pairwise(names):
+            pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
+            a, b = columns[left], columns[right]
+            levels = [(a["top"].min(), b["top"].min())]
+            levels += list(zip(pair["depth_left"], pair["depth_right"]))
+            levels += [(a["base"].max(), b["base"].max())]
+            x0, x1 = pos[left] + width / 2, pos[right] - width / 2
+            for (ta, tb), (ba, bb) in itertools.pairwise(levels):
+                code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
+                if code is None or ba <= ta or bb <= tb:
+                    continue
+                ax.add_patch(
+                    Polygon(
+                        [
+                            (x0, ta - shift[left]),
+                            (x1, tb - shift[right]),
+                            (x1, bb - shift[right]),
+                            (x0, ba - shift[left]),
+                        ],
+                        closed=True,
+                        facecolor=tract_colour(code, order),
+                        alpha=0.28,
+                        linewidth=0,
+                    )
+                )
+            for t in pair.itertuples(index=False):
+                ax.plot(
+                    [x0, x1],
+                    [t.depth_left - shift[left], t.depth_right - shift[right]],
+                    color=surface_colour(t.surface),
+                    linestyle="--" if t.doubtful else "-",
+                    linewidth=0.7 if t.doubtful else 1.3,
+                )
+        for c in names:
+            for bed in columns[c].itertuples(index=False):
+                ax.add_patch(
+                    Rectangle(
+                        (pos[c] - width / 2, bed.top - shift[c]),
+                        width,
+                        bed.base - bed.top,
+                        facecolor=tract_colour(str(bed.tract), order),
+                        edgecolor="none",
+                    )
+                )
+            col = columns[c]
+            ax.add_patch(
+                Rectangle(
+                    (pos[c] - width / 2, col["top"].min() - shift[c]),
+                    width,
+                    col["base"].max() - col["top"].min(),
+                    fill=False,
+                    edgecolor="black",
+                    linewidth=0.5,
+                )
+            )
+        top = min(columns[c]["top"].min() - shift[c] for c in names)
+        base = max(columns[c]["base"].max() - shift[c] for c in names)
+        pad = 0.03 * (base - top)
+        ax.set_ylim(base + pad, top - 3 * pad)
+        ax.set_xlim(min(pos.values()) - width, max(pos.values()) + width)
+        for c in names:
+            ax.text(
+                pos[c],
+                columns[c]["top"].min() - shift[c] - pad,
+                c,
+                ha="center",
+                va="bottom",
+                fontsize=7,
+                rotation=0 if len(names) <= 10 else 90,
+            )
+        _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
+        ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
+        ax.set_xlabel(position_label)
+        ax.set_ylabel(f"{ylabel} ({units})")
+        ax.set_title(f"Section {section}: correlated surfaces, hung on {datum}")
+        kinds = list(dict.fromkeys(ties["surface"]))
+        handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
+        handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
+        handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
+        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False)
+        fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
+        return save_figure(fig, path)

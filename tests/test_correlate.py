@@ -1,0 +1,218 @@
+"""Correlation of surface picks across wells: alignment, chaining, wells table, command line."""
+
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from faciesseq.correlation import AlignmentOptions, PickColumn, align_columns, correlate
+from faciesseq.correlation.wells import check_wells, wells_from_frame
+from faciesseq.errors import InputError
+
+KINDS = ("MRS", "SB", "MFS")
+
+
+def _column(kinds, fractions, probs=None, thickness=50.0):
+    probs = np.ones(len(kinds)) if probs is None else probs
+    return PickColumn.from_picks(kinds, np.asarray(fractions) * thickness, probs, 0.0, thickness)
+
+
+def _picks_section(n_wells=5, n_cycles=4, seed=0, drop=0.1):
+    """Invented wells: the same cycles, thickening basinward, some picks missing."""
+    rng = np.random.default_rng(seed)
+    rows, extents = [], {}
+    for w in range(n_wells):
+        thickness = 40.0 + 8.0 * w
+        extents[f"W{w}"] = (0.0, thickness)
+        for c in range(n_cycles):
+            for k, kind in enumerate(KINDS):
+                f = (c + 0.25 + 0.25 * k) / n_cycles + rng.normal(0, 0.01)
+                if rng.random() < drop:
+                    continue
+                rows.append(
+                    {
+                        "core": f"W{w}",
+                        "surface": kind,
+                        "depth": f * thickness,
+                        "probability": rng.uniform(0.5, 1.0),
+                        "truth": (c, kind),
+                    }
+                )
+    wells = pd.DataFrame(
+        {"core": list(extents), "section": "dip", "position": 10.0 * np.arange(n_wells)}
+    )
+    return pd.DataFrame(rows), extents, wells
+
+
+def test_alignment_ties_same_kinds_in_order():
+    a = _column(["MFS", "SB", "MFS", "SB"], [0.1, 0.3, 0.6, 0.8])
+    b = _column(["MFS", "MFS", "SB"], [0.12, 0.62, 0.79])
+    ties = align_columns(a, b)
+    assert [(i, j) for i, j, _ in ties] == [(0, 0), (2, 1), (3, 2)]
+
+
+def test_alignment_leaves_a_far_pick_untied():
+    """A pick a whole cycle away costs more than two gaps: no tie."""
+    a = _column(["MFS"], [0.1])
+    b = _column(["MFS"], [0.7])
+    assert align_columns(a, b) == []
+
+
+def test_alignment_drops_the_less_probable_of_two_candidates():
+    a = _column(["MFS"], [0.5])
+    b = _column(["MFS", "MFS"], [0.47, 0.53], probs=[0.2, 0.9])
+    assert [(i, j) for i, j, _ in align_columns(a, b)] == [(0, 1)]
+
+
+def test_options_are_checked():
+    with pytest.raises(ValueError, match="sigma"):
+        AlignmentOptions(sigma=0)
+
+
+def test_chained_surfaces_match_the_invented_truth():
+    picks, extents, wells = _picks_section()
+    corr = correlate(picks.drop(columns="truth"), extents, wells)
+    truth = {(r.core, round(r.depth, 9)): r.truth for r in picks.itertuples()}
+    for t in corr.ties.itertuples():
+        assert (
+            truth[(t.core_left, round(t.depth_left, 9))]
+            == truth[(t.core_right, round(t.depth_right, 9))]
+        )
+    assert len(corr.ties) >= 0.8 * 4 * 3 * 4 * 0.9 * 0.9
+
+
+def test_no_crossing_and_once_per_well():
+    picks, extents, wells = _picks_section(seed=3, drop=0.25)
+    corr = correlate(picks.drop(columns="truth"), extents, wells)
+    assert not corr.picks.duplicated(["surface_id", "core"]).any()
+    for _, pair in corr.ties.groupby(["core_left", "core_right"]):
+        pair = pair.sort_values("depth_left")
+        assert pair["depth_right"].is_monotonic_increasing
+    # every tie joins neighbours only
+    order = list(wells.sort_values("position")["core"])
+    neighbours = set(itertools.pairwise(order))
+    assert set(zip(corr.ties["core_left"], corr.ties["core_right"])) <= neighbours
+
+
+def test_result_independent_of_listing_order():
+    picks, extents, wells = _picks_section(seed=5)
+    picks = picks.drop(columns="truth")
+    one = correlate(picks, extents, wells).to_frame()
+    shuffled = wells.sample(frac=1.0, random_state=1)
+    other = correlate(
+        picks.sample(frac=1.0, random_state=2), dict(reversed(extents.items())), shuffled
+    ).to_frame()
+    pd.testing.assert_frame_equal(one.reset_index(drop=True), other.reset_index(drop=True))
+
+
+def test_confidence_formula_and_doubtful_flag():
+    picks, extents, wells = _picks_section(seed=7)
+    corr = correlate(picks.drop(columns="truth"), extents, wells, AlignmentOptions(doubtful=0.6))
+    t = corr.ties
+    assert ((t["confidence"] >= 0) & (t["confidence"] <= 1)).all()
+    assert (t["doubtful"] == (t["confidence"] < 0.6)).all()
+    assert set(corr.to_dict()["sections"]) == {"dip"}
+
+
+# wells table ---------------------------------------------------------------------------
+
+
+def test_wells_from_xy_are_ordered_along_the_line():
+    frame = pd.DataFrame({"name": ["C", "A", "B"], "x": [6.0, 0.0, 3.0], "y": [8.0, 0.0, 4.0]})
+    wells = wells_from_frame(frame)
+    assert list(wells.frame["core"]) == ["A", "B", "C"]
+    assert np.allclose(wells.frame["position"], [0.0, 5.0, 10.0])
+
+
+def test_duplicated_well_names_the_rows():
+    frame = pd.DataFrame({"core": ["A", "B", "A"], "x_km": [1, 2, 3]})
+    with pytest.raises(
+        InputError, match=r"wells.csv, row 3: well 'A' is listed twice \(also row 1\)"
+    ):
+        wells_from_frame(frame, "wells.csv")
+
+
+def test_missing_position_column_is_an_error():
+    with pytest.raises(InputError, match="no position column"):
+        wells_from_frame(pd.DataFrame({"core": ["A", "B"]}), "wells.csv")
+
+
+def test_well_without_core_and_core_without_well_are_warnings():
+    wells = wells_from_frame(pd.DataFrame({"core": ["A", "B", "Z"], "x_km": [1, 2, 3]}), "w.csv")
+    kept, problems = check_wells(wells, ["A", "B", "Q"])
+    kinds = sorted(p.kind for p in problems)
+    assert kinds == ["core-without-well", "well-without-core"]
+    assert list(kept.frame["core"]) == ["A", "B"]
+    assert any("row 3" in str(p) and "'Z'" in str(p) for p in problems)
+
+
+def test_one_well_only_is_an_error():
+    wells = wells_from_frame(pd.DataFrame({"core": ["A"], "x_km": [1]}), "w.csv")
+    with pytest.raises(InputError, match="two wells"):
+        check_wells(wells, ["A"])
+
+
+# simulated section ---------------------------------------------------------------------
+
+
+def test_true_surfaces_of_a_simulated_section_are_tied_to_their_own_age():
+    """Perfect picks (the forward model's true surfaces): MFS ties between neighbouring
+    wells are the same time step of the base-level history (see benchmarks/correlation.md)."""
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[1]
+    sys.path.insert(0, str(root / "benchmarks"))
+    try:
+        import eval_correlation as ev
+    finally:
+        sys.path.pop(0)
+    from faciesseq.simulate import load_scenario, simulate
+
+    result = simulate(load_scenario(root / "configs" / "scenario-ramp.yaml"), seed=11)
+    truth = ev.true_surface_events(result)
+    picks = truth[truth["cored"]].assign(probability=1.0)
+    corr, wells = ev.correlate_result(result, picks, AlignmentOptions())
+    n_true, _, recovered, reported, correct, _, _ = ev.score(corr, picks, truth, wells, "MFS", 1.5)
+    assert correct == reported > 0
+    assert recovered / n_true >= 0.85
+
+
+def test_datum_choices_shift_the_wells():
+    from faciesseq.report.section import datum_shifts
+
+    picks, extents, wells = _picks_section(seed=2, drop=0.0)
+    wells = wells.assign(elevation=[5.0, 4.0, 3.0, 2.0, 1.0])
+    corr = correlate(picks.drop(columns="truth"), extents, wells)
+    shifts, _ = datum_shifts(corr, "dip", "depth")
+    assert set(shifts.values()) == {0.0}
+    shifts, _ = datum_shifts(corr, "dip", "elevation")
+    assert shifts["W0"] == -5.0
+    shifts, label = datum_shifts(corr, "dip", "MFS")
+    mfs = corr.picks[corr.picks["surface"] == "MFS"]
+    best = mfs.groupby("surface_id")["core"].size().max()
+    assert best == 5 and label.startswith("depth below MFS-")
+    sid = mfs["surface_id"].iloc[0]
+    shifts, _ = datum_shifts(corr, "dip", sid)
+    at = mfs[mfs["surface_id"] == sid].set_index("core")["depth"]
+    assert all(shifts[c] == at[c] for c in at.index)
+
+
+def test_order_column_disagreeing_with_positions_warns(tmp_path):
+    from faciesseq.correlation.wells import read_wells
+
+    path = tmp_path / "wells.csv"
+    path.write_text("Name,Distance,Order,Section\nA,0,2,s\nB,5,1,s\nC,9,3,s\n")
+    wells = read_wells(str(path))
+    assert list(wells.frame["core"]) == ["A", "B", "C"]
+    assert [p.kind for p in wells.problems] == ["wells-out-of-order"]
+    assert str(path) in str(wells.problems[0])
+
+
+def test_bad_position_value_names_the_row():
+    frame = pd.DataFrame({"core": ["A", "B"], "x_km": ["1", "two"]})
+    with pytest.raises(InputError, match=r"w\.csv, row 2: position 'two'"):
+        wells_from_frame(frame, "w.csv")

@@ -1,0 +1,105 @@
+"""``faciesseq correlate``: outputs, section figures and one-line errors on bad input."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from faciesseq.cli import main
+from faciesseq.core import CoreSet
+from faciesseq.hmm.model import TractHMM
+from faciesseq.hmm.modelfile import save_model
+from faciesseq.scheme import load_scheme
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_cores"
+WELLS = ("QB-01", "QB-03", "QB-05", "QB-07", "QB-09")
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    """Five demo cores of the central section, their wells rows and a supervised model."""
+    folder = tmp_path_factory.mktemp("corr")
+    cores = pd.read_csv(DEMO / "cores.csv")
+    cores = cores[cores["core"].isin(WELLS)]
+    cores.to_csv(folder / "cores.csv", index=False)
+    wells = pd.read_csv(DEMO / "wells.csv")
+    wells[wells["core"].isin(WELLS)].to_csv(folder / "wells.csv", index=False)
+    scheme = load_scheme(DEMO.parent / "configs" / "scheme-shoreface.yaml")
+    frame = cores.drop(columns=[c for c in cores.columns if c.startswith("true_")])
+    coreset = CoreSet.from_frame(frame.drop(columns="units"), "m")
+    model = TractHMM(scheme=scheme, n_restarts=1, calibration_folds=0, random_state=0)
+    save_model(model.fit(coreset, labels="tract"), folder / "model.json")
+    return folder
+
+
+def _run(db, out, *extra, wells=None):
+    return main(
+        [
+            "correlate",
+            str(db / "cores.csv"),
+            "--wells",
+            str(wells or db / "wells.csv"),
+            "--model",
+            str(db / "model.json"),
+            "-o",
+            str(out),
+            *extra,
+        ]
+    )
+
+
+def test_writes_correlation_and_a_figure(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    assert _run(database, out, "--figure-format", "svg") == 0
+    table = pd.read_csv(out / "correlation.csv")
+    need = {"surface_id", "surface", "core", "depth", "probability", "confidence", "section"}
+    assert need <= set(table.columns)
+    assert len(table) > 0
+    assert not table.duplicated(["surface_id", "core"]).any()
+    assert (out / "section-central.svg").stat().st_size > 0
+    assert "hypothesis" in capsys.readouterr().out
+
+
+def test_existing_output_needs_force(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    out.mkdir()
+    assert _run(database, out) == 2
+    assert "pass --force" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize(
+    ("rows", "code", "message"),
+    [
+        ([("QB-01", 1.0), ("QB-01", 2.0)], 1, "row 2: well 'QB-01' is listed twice"),
+        ([("QB-01", 1.0)], 1, "two wells"),
+    ],
+)
+def test_bad_wells_table_one_line(database, tmp_path, capsys, rows, code, message):
+    wells = tmp_path / "wells.csv"
+    pd.DataFrame(rows, columns=["core", "x_km"]).to_csv(wells, index=False)
+    out = tmp_path / "corr"
+    assert _run(database, out, wells=wells) == code
+    err = capsys.readouterr().err
+    assert message in err and len(err.strip().splitlines()) == 1
+    assert "Traceback" not in err
+    assert not out.exists()
+
+
+def test_well_without_core_and_core_without_well_warn(database, tmp_path, capsys):
+    wells = tmp_path / "wells.csv"
+    rows = [("QB-01", 38.0), ("QB-03", 48.0), ("QB-05", 58.0), ("QB-07", 68.0), ("XX-1", 99.0)]
+    pd.DataFrame(rows, columns=["core", "x_km"]).to_csv(wells, index=False)
+    assert _run(database, tmp_path / "corr", "--datum", "depth", wells=wells) == 0
+    err = capsys.readouterr().err
+    assert "row 5" in err and "'XX-1' has no core" in err
+    assert "core 'QB-09' has no row in the wells table" in err
+
+
+def test_missing_wells_file_one_line(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    assert _run(database, out, wells=tmp_path / "nope.csv") == 1
+    err = capsys.readouterr().err.strip()
+    assert "nope.csv" in err and len(err.splitlines()) == 1
+    assert not out.exists()
