@@ -68,6 +68,22 @@ def _number(text: str):
         return None
 
 
+def _decimals(cell: str) -> int:
+    """Digits after the decimal point of a shown number (fixed-decimal columns)."""
+    text = cell.strip().rstrip("*")
+    return len(text.split(".", 1)[1]) if "." in text and "e" not in text.lower() else 0
+
+
+def _bound_holds(cell: str, want: float) -> bool:
+    """A probability shown as ``> 0.99`` or ``< 0.01`` (or ``< 0.001``) against its value."""
+    text = cell.strip()
+    for sign in ("> ", "< "):
+        if text.startswith(sign) and _number(text[2:]) is not None:
+            bound = _number(text[2:])
+            return want > bound if sign == "> " else want < bound
+    return False
+
+
 def mismatches(header: list[str], rows: list[list[str]], csv_rows: list[list[str]]) -> list[str]:
     """Cells where an HTML table differs from its CSV (numbers to the 4 digits shown)."""
     import math
@@ -84,9 +100,13 @@ def mismatches(header: list[str], rows: list[list[str]], csv_rows: list[list[str
                 ok = cell == {"True": "yes", "False": "no"}[value]
             elif value != "" and _number(value) is not None:
                 got, want = _number(cell), _number(value)
-                ok = got is not None and (
-                    (math.isnan(got) and math.isnan(want))
-                    or math.isclose(got, want, rel_tol=5e-4, abs_tol=0.0)
+                ok = _bound_holds(cell, want) or (
+                    got is not None
+                    and (
+                        (math.isnan(got) and math.isnan(want))
+                        or math.isclose(got, want, rel_tol=5e-4, abs_tol=0.0)
+                        or abs(got - want) <= 0.5 * 10.0 ** -_decimals(cell) + 1e-12
+                    )
                 )
             else:
                 ok = cell.rstrip("*") == value

@@ -46,6 +46,31 @@ CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
 }
 
 
+_QUARTERS = ("shallowest quarter", "second quarter", "third quarter", "deepest quarter")
+
+#: What each bin of a context feature means, in the words of core description.
+CONTEXT_CATEGORIES: Mapping[str, tuple[str, ...]] = {
+    "cycle_stacking": (
+        "prograding strongly",
+        "prograding",
+        "aggrading",
+        "retrograding",
+        "retrograding strongly",
+    ),
+    "base_shift": (
+        "base 2+ ranks shallower",
+        "base 1 rank shallower",
+        "base level with the cycle below",
+        "base 1 rank deeper",
+        "base 2+ ranks deeper",
+    ),
+    "trend": ("shallowing fast", "shallowing", "steady", "deepening", "deepening fast"),
+    "position": _QUARTERS,
+    "local_position": _QUARTERS,
+    "cycle_sharpness": ("mostly gradational", "mixed", "mostly sharp"),
+}
+
+
 def _centres(edges: Sequence[float]) -> np.ndarray:
     e = np.asarray(edges, dtype=float)
     width = e[1] - e[0] if len(e) > 1 else 1.0
@@ -116,7 +141,7 @@ class ContextEmission(CategoricalEmission):
     ) -> None:
         self.feature = feature
         self.edges = tuple(CONTEXT_BINS[feature])
-        cats = [f"bin{k}" for k in range(len(self.edges) + 1)]
+        cats = list(CONTEXT_CATEGORIES[feature])
         super().__init__(cats, n_tracts, pseudo, unseen_pseudo, name=feature)
 
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
