@@ -148,6 +148,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     try:
         with _sigterm_as_interrupt():
+            from faciesseq.cli._common import apply_source_file
+
+            apply_source_file(args)  # a YAML SOURCE's scheme: when --scheme is not given
             return int(args.func(args) or 0)
     except FaciesseqError as exc:
         sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
