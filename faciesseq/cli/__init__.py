@@ -151,7 +151,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             from faciesseq.cli._common import apply_source_file
 
             apply_source_file(args)  # a YAML SOURCE's scheme: when --scheme is not given
-            return int(args.func(args) or 0)
+            code = int(args.func(args) or 0)
+            if getattr(args, "settings_line", None):  # units and scheme in force
+                sys.stderr.write(args.settings_line + "\n")
+            return code
     except FaciesseqError as exc:
         sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
         return exc.exit_code

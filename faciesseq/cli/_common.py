@@ -148,7 +148,10 @@ def units_alarm(cores) -> str | None:
 
 
 def announce(args: argparse.Namespace, cores, scheme=None) -> None:
-    """On standard error: the units warning, loudly, and (usable data) the units and scheme."""
+    """On standard error: the units warning, loudly, at once; and, for usable data, the
+    units and scheme in force, kept in ``args.settings_line`` for
+    :func:`faciesseq.cli.main` to write when the command has succeeded (so that a
+    failure stays one line)."""
     import sys
 
     command = f"faciesseq {getattr(args, 'command', None) or ''}".rstrip()
@@ -156,7 +159,8 @@ def announce(args: argparse.Namespace, cores, scheme=None) -> None:
     if alarm:
         sys.stderr.write(f"{command}: WARNING: {alarm}\n")
     if not any(p.severity == "error" for p in cores.problems):
-        sys.stderr.write(f"{command}: {settings_line(args, cores, scheme)}\n")
+        # written by faciesseq.cli.main when the command succeeds (see settings_after)
+        args.settings_line = f"{command}: {settings_line(args, cores, scheme)}"
 
 
 def read_source(args: argparse.Namespace, scheme=None, announce_settings: bool = True):
