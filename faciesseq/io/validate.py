@@ -13,7 +13,8 @@ errors
     ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
-    facies), ``null`` (LAS null values), ``encoding``, ``units``,
+    facies), ``null`` (LAS null values), ``encoding``, ``units``, ``units-suspect``
+    (no units stated and depths that look like feet),
     ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
