@@ -592,10 +592,21 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
         f"name: {yaml.safe_dump(name).strip().removesuffix('...').strip()}",
         "facies:",
     ]
+    lines[4:4] = [
+        "# Every field a facies can hold is listed; the optional ones (group, colour,",
+        "# grain_size, aliases, description, cycle_base) may be filled in or left as they are.",
+    ]
     for code in unique:
         lines += [
-            f"  - code: {yaml.safe_dump(code).strip().removesuffix('...').strip()}",
-            f"    name: facies {code}",
-            "    rank: null  # TODO: proximality rank",
+            f"  - code: {yaml.safe_dump(code).strip().removesuffix('...').strip()}"
+            "  # the code as written in the data",
+            f"    name: facies {code}  # a name a reader understands",
+            "    rank: null  # TODO: proximality rank (0 = most landward/shallow)",
+            "    group: null  # optional: facies association, e.g. shoreface",
+            "    colour: null  # optional: hex colour of strip logs, e.g. '#c9a227'",
+            "    grain_size: null  # optional: class number (1 clay, 2 silt, 3-6.5 sand, 7 gravel)",
+            "    aliases: []  # optional: other spellings of this code in the data",
+            "    description: null  # optional: what the geologist sees",
+            "    cycle_base: false  # optional: true if a cycle starts at its base (e.g. a lag)",
         ]
     return "\n".join(lines) + "\n"

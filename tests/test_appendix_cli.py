@@ -47,7 +47,9 @@ def test_appendix_command_writes_the_folder_and_says_where(tmp_path, capsys, sma
     )
     assert code == 0, err
     assert f"appendix: {out / 'appendix.html'}" in stdout
-    assert err == ""  # quiet when stderr is not a terminal
+    # quiet when stderr is not a terminal, but for the units and scheme in force
+    assert err.startswith("faciesseq appendix: units: m (stated in the data); scheme: ")
+    assert err.count("\n") == 1
     data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))
     assert data["sections"][0] == "1 Data"
     assert "fitted to these cores with the default settings" in (

@@ -3,8 +3,9 @@
 ``faciesseq check`` prints each problem on one line (``severity: file, row N,
 core X, depth D m: message``) and exits 1 when the data has errors, 0 when it
 is usable (warnings and repairs listed). Reading failures are one line on
-standard error. ``faciesseq scheme draft`` refuses data with errors and writes
-nothing.
+standard error. ``faciesseq scheme draft`` needs only the facies codes: it
+writes a draft despite data errors, and refuses (writing nothing) only when no
+code can be read.
 """
 
 import json
@@ -216,7 +217,7 @@ def test_check_reports_each_bad_input_on_one_line(
     source = _write(tmp_path, files)
     got, out, err = _run(capsys, ["check", source, *options])
     assert got == code, out + err
-    assert err == ""
+    assert err == "" or (err.startswith("faciesseq check: units: ") and err.count("\n") == 1)
     lines = [ln for ln in out.splitlines() if ln.startswith(f"{severity}: ") and text in ln]
     assert len(lines) == 1, out
     # the same problem is in the JSON output with its stable kind
@@ -231,10 +232,16 @@ def test_check_reports_each_bad_input_on_one_line(
     [c[1:3] for c in CASES if c[3] == 1 and "--scheme" not in c[2]],
     ids=[c[0] for c in CASES if c[3] == 1 and "--scheme" not in c[2]],
 )
-def test_scheme_draft_refuses_data_with_errors_and_writes_nothing(tmp_path, capsys, files, options):
+def test_scheme_draft_reads_codes_despite_errors_or_writes_nothing(
+    tmp_path, capsys, files, options
+):
     source = _write(tmp_path, files)
     out = tmp_path / "out" / "draft.yaml"
-    code, _, err = _run(capsys, ["scheme", "draft", source, "-o", out, *options])
+    code, stdout, err = _run(capsys, ["scheme", "draft", source, "-o", out, *options])
+    if code == 0:  # the codes of the rows without errors; the errors are counted
+        assert "error(s)" in stdout and out.exists()
+        assert "rank: null  # TODO" in out.read_text()
+        return
     assert code == 1
     assert len(err.strip().splitlines()) == 1
     assert err.startswith("faciesseq scheme: ")

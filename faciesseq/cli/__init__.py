@@ -149,7 +149,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     try:
         with _sigterm_as_interrupt():
-            return int(args.func(args) or 0)
+            from faciesseq.cli._common import apply_source_file
+
+            apply_source_file(args)  # a YAML SOURCE's scheme: when --scheme is not given
+            code = int(args.func(args) or 0)
+            if getattr(args, "settings_line", None):  # units and scheme in force
+                sys.stderr.write(args.settings_line + "\n")
+            return code
     except FaciesseqError as exc:
         sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
         return exc.exit_code

@@ -84,8 +84,99 @@ def load_scheme_option(path: str | None):
     return load_scheme(require_file(path))
 
 
-def read_source(args: argparse.Namespace, scheme=None):
-    """Read the core database named on the command line (see :func:`faciesseq.io.read_cores`)."""
+def source_file(args: argparse.Namespace):
+    """The :class:`~faciesseq.io.source.SourceSpec` of a YAML SOURCE, or ``None``."""
+    from pathlib import Path
+
+    from faciesseq.io.source import YAML_SUFFIXES, load_source_file
+
+    source = getattr(args, "source", None)
+    if not source or Path(str(source)).suffix.lower() not in YAML_SUFFIXES:
+        return None
+    if not Path(str(source)).is_file():
+        return None  # reading reports the missing file
+    return load_source_file(Path(str(source)))
+
+
+def apply_source_file(args: argparse.Namespace) -> None:
+    """Take ``--scheme`` from a YAML SOURCE's ``scheme:`` when it is not given.
+
+    An explicit ``--scheme`` wins. Records where the scheme comes from in
+    ``args.scheme_from`` (shown by :func:`settings_line`).
+    """
+    if not hasattr(args, "scheme") or not hasattr(args, "source"):
+        return
+    args.scheme_from = "--scheme" if args.scheme else None
+    spec = source_file(args)
+    if args.scheme is None and spec is not None and spec.scheme is not None:
+        args.scheme = spec.scheme
+        args.scheme_from = "from the source file"
+
+
+def units_from(args: argparse.Namespace, cores) -> str:
+    """Where the units in force come from: ``--units``, the source file, the data, or assumed."""
+    spec = source_file(args)
+    if getattr(args, "units", None):
+        return "--units"
+    if spec is not None and spec.units:
+        return "from the source file"
+    if any(p.kind == "units" for p in cores.problems):
+        return "assumed: the source states none"
+    return "stated in the data"
+
+
+def settings_line(args: argparse.Namespace, cores, scheme=None) -> str:
+    """``units: ft (from the source file); scheme: my-scheme.yaml (--scheme)``: what is in force."""
+    from pathlib import Path
+
+    text = f"units: {cores.units} ({units_from(args, cores)}); scheme: "
+    given = getattr(args, "scheme", None)
+    if scheme is None and not given:
+        return text + "none"
+    if given:
+        return text + f"{given} ({getattr(args, 'scheme_from', None) or '--scheme'})"
+    name = getattr(scheme, "source", None)
+    return text + f"{Path(name).name if name else scheme.name} (from the model file)"
+
+
+def units_alarm(cores) -> str | None:
+    """The ``units-suspect`` warning of a core set (depths read as metres look like feet)."""
+    for p in cores.problems:
+        if p.kind == "units-suspect":
+            return p.message
+    return None
+
+
+def announce(args: argparse.Namespace, cores, scheme=None) -> None:
+    """On standard error: the units warning, loudly, at once; and, for usable data, the
+    units and scheme in force, kept in ``args.settings_line`` for
+    :func:`faciesseq.cli.main` to write when the command has succeeded (so that a
+    failure stays one line)."""
+    import sys
+
+    command = f"faciesseq {getattr(args, 'command', None) or ''}".rstrip()
+    alarm = units_alarm(cores)
+    if alarm:
+        sys.stderr.write(f"{command}: WARNING: {alarm}\n")
+    if not any(p.severity == "error" for p in cores.problems):
+        # written by faciesseq.cli.main when the command succeeds (see settings_after)
+        args.settings_line = f"{command}: {settings_line(args, cores, scheme)}"
+
+
+def read_source(args: argparse.Namespace, scheme=None, announce_settings: bool = True):
+    """Read the core database named on the command line (see :func:`faciesseq.io.read_cores`).
+
+    Unless ``announce_settings`` is false, one line on standard error says which
+    units and scheme are in force (usable data only), after a warning line of
+    its own when depths read as metres look like feet.
+    """
+    cores = _read(args, scheme)
+    if announce_settings:
+        announce(args, cores, scheme)
+    return cores
+
+
+def _read(args: argparse.Namespace, scheme=None):
     from faciesseq.io import read_cores
 
     return read_cores(

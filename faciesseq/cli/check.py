@@ -6,7 +6,14 @@ import argparse
 import json
 import math
 
-from faciesseq.cli._common import add_source_arguments, load_scheme_option, read_source
+from faciesseq.cli._common import (
+    add_source_arguments,
+    load_scheme_option,
+    read_source,
+    source_file,
+    units_alarm,
+    units_from,
+)
 
 EXAMPLES = """\
 examples:
@@ -14,6 +21,8 @@ examples:
   faciesseq check logs.csv --layout samples --column core="Well Name" --column depth=Depth \\
       --column facies=Facies --units ft
   faciesseq check postgresql://geo@dbhost/cores --table intervals --format json
+  faciesseq check logs.csv --units ft --keep-first --scheme scheme.yaml --write-source cores.yaml
+  faciesseq markov cores.yaml        # every command then reads the options from cores.yaml
 """
 
 
@@ -33,6 +42,16 @@ def register(subparsers) -> None:
         choices=("text", "json"),
         default="text",
         help="text for reading or json (summary, cores, facies, problems)",
+    )
+    parser.add_argument(
+        "--write-source",
+        metavar="FILE",
+        help="also write a YAML source file (FILE.yaml) holding what was read and detected: "
+        "the data's path, layout, columns, units, --keep-first and --scheme; give it as "
+        "SOURCE to every later command",
+    )
+    parser.add_argument(
+        "--force", action="store_true", help="replace the --write-source FILE if it exists"
     )
     parser.set_defaults(func=run)
 
@@ -68,7 +87,9 @@ def format_text(result) -> str:
     data = result.to_dict()
     head = data["summary"]
     u = head["units"]
-    lines = [
+    alarm = units_alarm(result)
+    lines = [f"WARNING: {alarm}", ""] if alarm else []
+    lines += [
         f"source: {', '.join(head['sources'])}",
         f"{head['cores']} core(s), {head['intervals']} interval(s), {head['beds']} bed(s), "
         f"{_num(head['cored_thickness'])} {u} cored, {head['gaps']} gap(s); depths in {u}, "
@@ -140,11 +161,88 @@ def format_text(result) -> str:
     return "\n".join(lines)
 
 
+def _source_target(args: argparse.Namespace):
+    """The ``--write-source`` path, refused before reading when it cannot be written."""
+    from pathlib import Path
+
+    from faciesseq._output import check_target
+    from faciesseq.errors import ConfigError
+    from faciesseq.io.source import YAML_SUFFIXES
+
+    if not args.write_source:
+        return None
+    if Path(args.write_source).suffix.lower() not in YAML_SUFFIXES:
+        raise ConfigError(
+            "--write-source writes a YAML source file: give a name ending in .yaml or .yml",
+            file=args.write_source,
+        )
+    if Path(args.write_source).resolve() == Path(args.source).resolve():
+        raise ConfigError("--write-source would replace SOURCE itself", file=args.write_source)
+    return check_target(
+        args.write_source,
+        force=args.force,
+        folder=False,
+        option="--write-source",
+        make_parents=True,
+    )
+
+
+def _columns(cores, explicit: dict[str, str]) -> dict[str, str]:
+    """Role -> column as matched in the data (the first file's where files differ)."""
+    columns: dict[str, str] = {}
+    for roles in cores.meta.get("columns", {}).values():
+        for role, name in roles.items():
+            columns.setdefault(role, name)
+    columns.update(explicit)
+    order = ("core", "top", "base", "depth", "facies", "grain_size", "contact", "tract")
+    return dict(sorted(columns.items(), key=lambda kv: (*order, kv[0]).index(kv[0])))
+
+
+def write_source(args: argparse.Namespace, out, cores) -> None:
+    """Write the YAML source file of ``--write-source`` (atomically)."""
+    from faciesseq._output import write_file
+    from faciesseq.cli._common import column_mapping
+    from faciesseq.io.sourcefile import source_file_text
+
+    spec = source_file(args)
+    layouts = set(cores.meta.get("layout", {}).values())
+    explicit = dict(spec.columns) if spec is not None else {}
+    explicit.update(column_mapping(args.column))
+    keep_first = args.keep_first or (spec is not None and spec.repeated_depths == "keep-first")
+    note = units_from(args, cores)
+    note = "given with --units" if note == "--units" else note
+    if any(p.kind == "units-suspect" for p in cores.problems):
+        note += "; CHECK: the depths look like feet"
+    text = source_file_text(
+        output=out,
+        data=spec.source if spec is not None else args.source,
+        layout=args.layout or (next(iter(layouts)) if len(layouts) == 1 else None),
+        columns=_columns(cores, explicit),
+        units=cores.units,
+        units_note=note,
+        repeated_depths="keep-first" if keep_first else None,
+        sheet=args.sheet or (spec.sheet if spec else None),
+        table=args.table or (spec.table if spec else None),
+        query=args.query or (spec.query if spec else None),
+        curve=args.curve or (spec.curve if spec else None),
+        encoding=spec.encoding if spec else None,
+        scheme=args.scheme,
+    )
+    out.parent.mkdir(parents=True, exist_ok=True)
+    write_file(out, text)
+
+
 def run(args: argparse.Namespace) -> int:
+    import sys
+
     from faciesseq.io import summarise
 
+    out = _source_target(args)
     scheme = load_scheme_option(args.scheme)
     cores = read_source(args, scheme)
+    if out is not None:
+        write_source(args, out, cores)
+        sys.stderr.write(f"faciesseq check: wrote {out} (give it as SOURCE to every command)\n")
     result = summarise(cores, scheme)
     if args.format == "json":
         print(json.dumps(result.to_dict(), indent=2, allow_nan=False))

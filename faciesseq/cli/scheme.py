@@ -10,6 +10,7 @@ from faciesseq.cli._common import (
     read_source,
     require_file,
 )
+from faciesseq.errors import InputError
 
 EXAMPLES = """\
 examples:
@@ -46,9 +47,11 @@ def register(subparsers) -> None:
     draft = sub.add_parser(
         "draft",
         help="write a starting scheme from the facies codes found in SOURCE",
-        description="Write a starting facies scheme listing every code found in SOURCE. "
-        "Ranks are left empty and marked TODO; the scheme does not load until they are "
-        "filled in.",
+        description="Write a starting facies scheme listing every code found in SOURCE, with "
+        "every field a facies can hold (name, rank, group, colour, grain_size, aliases, "
+        "description, cycle_base), commented. Ranks are left empty and marked TODO; the "
+        "scheme does not load until they are filled in. Errors in the data (bad depths, "
+        "repeated depths, ...) do not stop it: only the facies codes are needed.",
         epilog=DRAFT_EXAMPLES,
     )
     add_source_arguments(draft, scheme=False)
@@ -72,11 +75,20 @@ def run_draft(args: argparse.Namespace) -> int:
     from faciesseq.scheme import draft_scheme
 
     out = check_target(args.output, force=args.force, folder=False, make_parents=True)
-    cores = read_source(args).require_valid()
+    cores = read_source(args)  # only the codes are needed: errors elsewhere do not stop it
+    codes = cores.facies_codes()
+    errors = sum(p.severity == "error" for p in cores.problems)
+    if not codes:
+        cores.require_valid()  # names the first error, if any
+        raise InputError("no facies codes found in the source", file=args.source)
     out.parent.mkdir(parents=True, exist_ok=True)
-    write_file(out, draft_scheme(cores.facies_codes(), name=args.name))
-    n = len(cores.facies_codes())
-    print(f"wrote {out}: {n} facies code(s) from {len(cores)} core(s); fill in every rank")
+    write_file(out, draft_scheme(codes, name=args.name))
+    print(f"wrote {out}: {len(codes)} facies code(s) from {len(cores)} core(s); fill in every rank")
+    if errors:
+        print(
+            f"note: the data has {errors} error(s) (rows left out; codes only in those rows "
+            "are missing); run faciesseq check on it"
+        )
     return 0
 
 

@@ -69,7 +69,8 @@ def read_cores(
         LAS facies curve.
     scheme
         A facies scheme (or its YAML path): aliases are resolved to scheme
-        codes and codes not in it are errors.
+        codes and codes not in it are errors. When ``None``, a YAML source
+        file's ``scheme:`` is used.
     repeated_depths
         Sample layout: ``"error"`` (default) or ``"keep-first"`` (the first of
         repeated depths is kept; each left out row is reported as a repair).
@@ -103,6 +104,8 @@ def read_cores(
         spec = _merge(load_source_file(Path(str(source))), spec)
         if repeated_depths == "error" and spec.repeated_depths:
             repeated_depths = spec.repeated_depths
+    if scheme is None and spec.scheme is not None:
+        scheme = spec.scheme  # the source file's ``scheme:``; an explicit scheme wins
     if isinstance(scheme, str | Path):
         scheme = load_scheme(scheme)
     if spec.units is not None and spec.units not in ("m", "ft"):
@@ -132,4 +135,5 @@ def _merge(from_file: SourceSpec, given: SourceSpec) -> SourceSpec:
         out[key] = value if value is not None else getattr(from_file, key)
     out["encoding"] = from_file.encoding
     out["repeated_depths"] = from_file.repeated_depths
+    out["scheme"] = from_file.scheme
     return SourceSpec(**out)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -33,6 +34,7 @@ SOURCE_KEYS = (
     "curve",
     "encoding",
     "repeated_depths",
+    "scheme",
     "description",
 )
 
@@ -51,6 +53,8 @@ class SourceSpec:
     curve: str | None = None
     encoding: str | None = None
     repeated_depths: str | None = None
+    #: Facies scheme named by a YAML source file (``scheme:``, resolved against the YAML file).
+    scheme: str | None = None
 
 
 def load_source_file(path: Path) -> SourceSpec:
@@ -71,7 +75,18 @@ def load_source_file(path: Path) -> SourceSpec:
     columns = data.get("columns") or {}
     if not isinstance(columns, Mapping):
         raise ConfigError("'columns' must be a mapping of role: column name", file=file)
-    for key in ("path", "url", "layout", "units", "sheet", "table", "query", "curve", "encoding"):
+    for key in (
+        "path",
+        "url",
+        "layout",
+        "units",
+        "sheet",
+        "table",
+        "query",
+        "curve",
+        "encoding",
+        "scheme",
+    ):
         if key in data and not isinstance(data[key], str | int | float):
             raise ConfigError(f"{key!r} must be text, got {data[key]!r}", file=file)
     if "path" in data:
@@ -84,6 +99,11 @@ def load_source_file(path: Path) -> SourceSpec:
     else:
         source = str(data["url"])
     text = {k: (None if data.get(k) is None else str(data[k])) for k in SOURCE_KEYS}
+    scheme = None
+    if text["scheme"] is not None:
+        scheme_path = Path(text["scheme"])
+        scheme_path = scheme_path if scheme_path.is_absolute() else path.parent / scheme_path
+        scheme = os.path.normpath(scheme_path)
     return SourceSpec(
         source=source,
         layout=text["layout"],
@@ -95,6 +115,7 @@ def load_source_file(path: Path) -> SourceSpec:
         curve=text["curve"],
         encoding=text["encoding"],
         repeated_depths=text["repeated_depths"],
+        scheme=scheme,
     )
 
 

@@ -13,7 +13,8 @@ errors
     ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
-    facies), ``null`` (LAS null values), ``encoding``, ``units``,
+    facies), ``null`` (LAS null values), ``encoding``, ``units``, ``units-suspect``
+    (no units stated and depths that look like feet),
     ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
@@ -38,7 +39,13 @@ from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
 from faciesseq.scheme import FaciesScheme, _code
 
-__all__ = ["GAP_FACTOR", "OVERLAP_TOLERANCE_M", "build_coreset", "facies_code"]
+__all__ = [
+    "GAP_FACTOR",
+    "OVERLAP_TOLERANCE_M",
+    "build_coreset",
+    "facies_code",
+    "feet_suspected",
+]
 
 #: Overlaps up to this thickness (metres; 1 cm) are rounding: snapped and reported.
 OVERLAP_TOLERANCE_M = 0.01
@@ -158,6 +165,7 @@ class _Rows:
     units: str | None  # units stated by the source (None when nothing said)
     row_units: pd.Series | None = None  # per-row units from a units column
     problems: list[Problem] = field(default_factory=list)
+    roles: dict[str, str] = field(default_factory=dict)  # role -> column name, as matched
 
 
 def _layout(match: ColumnMatch, table: RawTable, layout: str | None) -> str:
@@ -385,7 +393,9 @@ def _prepare(
         raise InputError(
             f"the header says {table.units} but a column name says {match.units}", file=table.file
         )
-    return _Rows(table, layout, frame, attributes, stated, row_units, problems + table.problems)
+    rows = _Rows(table, layout, frame, attributes, stated, row_units, problems + table.problems)
+    rows.roles = dict(match.roles)
+    return rows
 
 
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
@@ -856,7 +866,12 @@ def build_coreset(
     meta = {
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
+        "columns": {p.table.file: p.roles for p in prepared},
     }
+    if any(p.kind == "units" for p in unit_problems):
+        suspect = feet_suspected(cores.values(), meta["sample_step"])
+        if suspect is not None:
+            problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
         problems.append(
             Problem(
@@ -872,3 +887,44 @@ def build_coreset(
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
     return CoreSet(cores, target, tuple(problems), sources, meta)
+
+
+#: Depths (read as metres) from which typical feet sample spacings look suspicious.
+FEET_DEPTH_M = 1000.0
+#: Sample spacings that are common in feet (0.5 ft = 0.1524 m) but rare in metres.
+FEET_STEPS = (0.25, 0.5)
+#: Depths (read as metres) deeper than almost every cored well.
+TOO_DEEP_M = 6000.0
+
+
+def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
+    """A ``units-suspect`` warning when depths assumed to be metres look like feet.
+
+    Logs exported in feet are commonly sampled every 0.5 ft (or 0.25 ft) at
+    depths of thousands of feet, while a facies log in metres near 1000 m or
+    deeper is rarely sampled every 0.5 m or 0.25 m; and a cored depth below
+    6000 m is rare (common practice of the trade; e.g. the Council Grove logs,
+    Dubois et al. 2007, Computers & Geosciences 33:599-617, are 0.5 ft samples
+    near 2,700-3,100 ft). Only called when the source states no units.
+    """
+    cores = list(cores)
+    tops = [core.intervals["top"].to_numpy(dtype=float) for core in cores if len(core)]
+    if not tops:
+        return None
+    depths = np.concatenate(tops)
+    median = float(np.median(depths))
+    deepest = float(max(core.intervals["base"].max() for core in cores if len(core)))
+    steps = [s for s in sample_step.values() if any(abs(s - f) < 1e-6 for f in FEET_STEPS)]
+    if median >= FEET_DEPTH_M and steps:
+        why = f"{steps[0]:g} steps near {median:,.0f}"
+    elif deepest > TOO_DEEP_M:
+        why = f"depths down to {deepest:,.0f}, deeper than almost any cored well in metres"
+    else:
+        return None
+    return Problem(
+        "warning",
+        "units-suspect",
+        f"depths look like feet ({why}) but no units are stated, so they are read as "
+        "metres; give --units ft, or units: ft in the source file (units: m if they "
+        "really are metres)",
+    )
