@@ -32,6 +32,15 @@ __all__ = [
 ]
 
 
+def source_spec(source: str | Path, *, columns: Mapping[str, str] | None = None, **options):
+    """The reading options of ``source``: those given here, completed by the YAML
+    source file's own where ``source`` is one (the arguments given win)."""
+    spec = SourceSpec(source=str(source), columns=dict(columns or {}), **options)
+    if Path(str(source)).suffix.lower() in YAML_SUFFIXES:
+        spec = _merge(load_source_file(Path(str(source))), spec)
+    return spec
+
+
 def read_cores(
     source: str | Path,
     *,
@@ -90,20 +99,18 @@ def read_cores(
     ConfigError
         A bad option (unknown role, option not applying to the source, ...).
     """
-    spec = SourceSpec(
-        source=str(source),
+    spec = source_spec(
+        source,
         layout=layout,
-        columns=dict(columns or {}),
+        columns=columns,
         units=units,
         sheet=sheet,
         table=table,
         query=query,
         curve=curve,
     )
-    if Path(str(source)).suffix.lower() in YAML_SUFFIXES:
-        spec = _merge(load_source_file(Path(str(source))), spec)
-        if repeated_depths == "error" and spec.repeated_depths:
-            repeated_depths = spec.repeated_depths
+    if repeated_depths == "error" and spec.repeated_depths:  # from a YAML source file
+        repeated_depths = spec.repeated_depths
     if scheme is None and spec.scheme is not None:
         scheme = spec.scheme  # the source file's ``scheme:``; an explicit scheme wins
     if isinstance(scheme, str | Path):

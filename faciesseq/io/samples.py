@@ -53,22 +53,20 @@ def read_samples(
         units) the reader gave the row, missing where it left the row out (no
         depth, no core). ``None`` when no table is in the sample layout.
     """
-    from faciesseq.io import YAML_SUFFIXES, SourceSpec, _merge, load_source_file, read_tables
+    from faciesseq.io import read_tables, source_spec
     from faciesseq.io.columns import match_columns
     from faciesseq.io.validate import _prepare, _resolve_units
 
-    spec = SourceSpec(
-        source=str(source),
+    spec = source_spec(
+        source,
         layout=layout,
-        columns=dict(columns or {}),
+        columns=columns,
         units=units,
         sheet=sheet,
         table=table,
         query=query,
         curve=curve,
     )
-    if Path(str(source)).suffix.lower() in YAML_SUFFIXES:
-        spec = _merge(load_source_file(Path(str(source))), spec)
     if spec.units is not None and spec.units not in ("m", "ft"):
         raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
     tables, _, _ = read_tables(spec)
