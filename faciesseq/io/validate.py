@@ -772,8 +772,10 @@ def build_coreset(
         problems += p.problems
         file = p.table.file
         names = list(dict.fromkeys(p.frame["core"]))
+        # one split of the file's rows by core (not one scan of the table per core)
+        groups = p.frame.groupby("core", sort=False, dropna=False).indices
         for name in names:
-            part = p.frame[p.frame["core"] == name].drop(columns="core").reset_index(drop=True)
+            part = p.frame.take(groups[name]).drop(columns="core").reset_index(drop=True)
             if name in owner and owner[name] != file:
                 problems.append(
                     Problem(
@@ -839,20 +841,21 @@ def build_coreset(
                 )
             )
             continue
-        core = Core(name, part.reset_index(drop=True), target)
-        n_beds = len(core.beds())
+        cores[name] = Core(name, part.reset_index(drop=True), target)
+    # beds of every core at once (one vectorised pass, kept for the analyses)
+    derived = CoreSet(cores, target)
+    for name, n_beds in derived.bed_counts().items():
         if n_beds < 2:
             problems.append(
                 Problem(
                     "warning",
                     "too-short",
-                    f"only {n_beds} bed ({len(core)} interval(s)): too short for transition "
-                    "statistics",
+                    f"only {n_beds} bed ({len(cores[name])} interval(s)): too short for "
+                    "transition statistics",
                     file=owner.get(name),
                     core=name,
                 )
             )
-        cores[name] = core
     meta = {
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
@@ -871,4 +874,6 @@ def build_coreset(
     ]
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
-    return CoreSet(cores, target, tuple(problems), sources, meta)
+    coreset = CoreSet(cores, target, tuple(problems), sources, meta)
+    coreset._derived.update(derived._derived)
+    return coreset
