@@ -411,26 +411,24 @@ class CoreSet:
         key = ("beds", float(tolerance))
         if key in self._derived:
             return self._derived[key]
-        cores = [c for c in self.cores.values()]
         result = None
-        first = next((c for c in cores if len(c.intervals)), None)
-        if first is not None:
-            attrs = first.attributes
-            names = ["top", "base", "facies", *attrs]
-            dtypes = [first.intervals[c].dtype for c in names]
+        numbers = [k for k, c in enumerate(self.cores.values()) if len(c.intervals)]
+        used = [c for c in self.cores.values() if len(c.intervals)]
+        if used:
+            attrs = used[0].attributes
+            columns = list(used[0].intervals.columns)
+            dtypes = used[0].intervals.dtypes.tolist()
             same = all(
-                len(c.intervals) == 0
-                or (c.attributes == attrs and [c.intervals[n].dtype for n in names] == dtypes)
-                for c in cores
+                list(c.intervals.columns) == columns and c.intervals.dtypes.tolist() == dtypes
+                for c in used
             )
             if same:
-                used = [k for k, c in enumerate(cores) if len(c.intervals)]
-                lengths = np.array([len(cores[k].intervals) for k in used], dtype=np.int64)
-                table = pd.concat([cores[k].intervals[names] for k in used], ignore_index=True)
-                core_id = np.repeat(np.asarray(used, dtype=np.int64), lengths)
+                lengths = np.array([len(c.intervals) for c in used], dtype=np.int64)
+                table = pd.concat([c.intervals for c in used], ignore_index=True)
+                core_id = np.repeat(np.array(numbers, dtype=np.int64), lengths)
                 data, bed_core = _bed_columns(table, core_id, attrs, tolerance)
-                columns = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
-                result = (pd.DataFrame(data, columns=columns), bed_core)
+                names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+                result = (pd.DataFrame(data, columns=names), bed_core)
         self._derived[key] = result
         return result
 
