@@ -561,9 +561,14 @@ def _check_intervals(
         elif base[i] - top[i] <= DEPTH_TOL:
             ok[i] = False
             here(i, "zero-thickness", "error", f"zero thickness (top = base = {top[i]:g})", top[i])
-    part = part[ok].reset_index(drop=True)
+    if not ok.all():
+        part = part[ok].reset_index(drop=True)
     problems += _order(part, "top", file, core, units)
-    part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+    top = part["top"].to_numpy(dtype=float)
+    base = part["base"].to_numpy(dtype=float)
+    ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
+    if not ordered.all():  # already in (top, base) order: nothing to sort
+        part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
     top = part["top"].to_numpy(dtype=float).copy()
     base = part["base"].to_numpy(dtype=float)
     rows = part["_row"].to_numpy()
@@ -607,6 +612,8 @@ def _check_intervals(
                 base[above],
             )
         above = i
+    if keep.all() and np.array_equal(top, part["top"].to_numpy(dtype=float)):
+        return part, problems
     part = part.assign(top=top)[keep].reset_index(drop=True)
     return part, problems
 
@@ -774,8 +781,11 @@ def build_coreset(
         names = list(dict.fromkeys(p.frame["core"]))
         # one split of the file's rows by core (not one scan of the table per core)
         groups = p.frame.groupby("core", sort=False, dropna=False).indices
+        frame = p.frame.drop(columns="core")
+        if p.layout == "intervals":  # the columns a core keeps, chosen once
+            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
         for name in names:
-            part = p.frame.take(groups[name]).drop(columns="core").reset_index(drop=True)
+            part = frame.take(groups[name]).reset_index(drop=True)
             if name in owner and owner[name] != file:
                 problems.append(
                     Problem(
@@ -794,7 +804,7 @@ def build_coreset(
             if p.layout == "intervals":
                 part, found = _check_intervals(part, file, name, target, tolerance)
                 problems += found
-                pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+                pieces[name] = part
             else:
                 part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
