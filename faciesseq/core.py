@@ -164,6 +164,18 @@ def _bed_columns(
     return data, core_id[first]
 
 
+def _in_order(table: pd.DataFrame) -> bool:
+    """Whether a stable sort by ``top`` then ``base`` would leave ``table`` as it is."""
+    kinds = [table[c].dtype.kind for c in ("top", "base")]
+    if not all(k in "iuf" for k in kinds):
+        return False
+    top = table["top"].to_numpy()
+    base = table["base"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
+    return bool(ordered.all())
+
+
 @dataclass(frozen=True)
 class Core:
     """One described core: its intervals in depth order.
@@ -189,7 +201,11 @@ class Core:
         missing = [c for c in REQUIRED if c not in self.intervals.columns]
         if missing:
             raise InputError(f"interval table lacks column(s) {missing}", core=self.name)
-        table = self.intervals.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+        table = self.intervals
+        if _in_order(table):  # already in (top, base) order, as the readers leave it
+            table = table.reset_index(drop=True)
+        else:
+            table = table.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
         table["facies"] = table["facies"].astype(str)
         object.__setattr__(self, "intervals", table)
 
