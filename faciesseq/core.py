@@ -125,6 +125,57 @@ def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -
     return out
 
 
+def _bed_columns(
+    table: pd.DataFrame, core_id: np.ndarray, attributes: list[str], tolerance: float
+) -> tuple[dict, np.ndarray]:
+    """Bed columns of one or many cores' intervals at once (vectorised over all of them).
+
+    ``table`` holds the intervals of every core, each core's in depth order and
+    the cores one after another; ``core_id`` (non-decreasing integers) says which
+    core each interval belongs to. Segments restart at each core and no bed,
+    segment or gap spans two cores. Returns the columns of :meth:`Core.beds`
+    (``segment`` counted within each core) and the core of each bed.
+    """
+    top_i = table["top"].to_numpy(dtype=float)
+    base_i = table["base"].to_numpy(dtype=float)
+    n = len(top_i)
+    new_core = np.r_[True, core_id[1:] != core_id[:-1]]
+    gap = np.r_[False, top_i[1:] - base_i[:-1] > tolerance] & ~new_core
+    seg_global = np.cumsum(gap)
+    core_start = np.flatnonzero(new_core)
+    segment = seg_global - np.repeat(seg_global[core_start], np.diff(np.r_[core_start, n]))
+    facies = table["facies"].to_numpy(dtype=object)
+    new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (seg_global[1:] != seg_global[:-1])]
+    new_bed |= new_core
+    bed_id = np.cumsum(new_bed) - 1
+    first = np.flatnonzero(new_bed)
+    last = np.r_[first[1:] - 1, n - 1]
+    top = top_i[first]
+    base = base_i[last]
+    data = {
+        "segment": segment[first].astype(int),
+        "top": top,
+        "base": base,
+        "thickness": base - top,
+        "facies": facies[first].astype(str).astype(object),
+        "n_intervals": (last - first + 1).astype(int),
+    }
+    data.update(_aggregate(table, bed_id, attributes))
+    return data, core_id[first]
+
+
+def _in_order(table: pd.DataFrame) -> bool:
+    """Whether a stable sort by ``top`` then ``base`` would leave ``table`` as it is."""
+    kinds = [table[c].dtype.kind for c in ("top", "base")]
+    if not all(k in "iuf" for k in kinds):
+        return False
+    top = table["top"].to_numpy()
+    base = table["base"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
+    return bool(ordered.all())
+
+
 @dataclass(frozen=True)
 class Core:
     """One described core: its intervals in depth order.
@@ -150,7 +201,11 @@ class Core:
         missing = [c for c in REQUIRED if c not in self.intervals.columns]
         if missing:
             raise InputError(f"interval table lacks column(s) {missing}", core=self.name)
-        table = self.intervals.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+        table = self.intervals
+        if _in_order(table):  # already in (top, base) order, as the readers leave it
+            table = table.reset_index(drop=True)
+        else:
+            table = table.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
         table["facies"] = table["facies"].astype(str)
         object.__setattr__(self, "intervals", table)
 
@@ -203,23 +258,7 @@ class Core:
         columns = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
         if len(table) == 0:
             return pd.DataFrame(columns=columns)
-        segment = self.segment_ids(tolerance)
-        facies = table["facies"].to_numpy(dtype=object)
-        new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (segment[1:] != segment[:-1])]
-        bed_id = np.cumsum(new_bed) - 1
-        first = np.nonzero(new_bed)[0]
-        last = np.r_[first[1:] - 1, len(table) - 1]
-        top = table["top"].to_numpy(dtype=float)[first]
-        base = table["base"].to_numpy(dtype=float)[last]
-        data = {
-            "segment": segment[first].astype(int),
-            "top": top,
-            "base": base,
-            "thickness": base - top,
-            "facies": facies[first].astype(str).astype(object),
-            "n_intervals": (last - first + 1).astype(int),
-        }
-        data.update(_aggregate(table, bed_id, attrs))
+        data, _ = _bed_columns(table, np.zeros(len(table), dtype=np.int64), attrs, tolerance)
         return pd.DataFrame(data, columns=columns)
 
     def grid(self, step: float, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
@@ -299,6 +338,8 @@ class CoreSet:
     problems: tuple[Problem, ...] = ()
     sources: tuple[str, ...] = ()
     meta: Mapping[str, object] = field(default_factory=dict)
+    #: Derived tables (beds of every core at once), by tolerance; never shown or compared.
+    _derived: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         for name, core in self.cores.items():
@@ -378,11 +419,70 @@ class CoreSet:
         codes = {c for core in self for c in core.intervals["facies"].unique()}
         return sorted(codes, key=lambda c: (len(c), c))
 
+    def _bed_table(self, tolerance: float = DEPTH_TOL) -> tuple[pd.DataFrame, np.ndarray] | None:
+        """Beds of every core in one table (cores in order, depth order within) and the
+        core number of each bed; computed once per tolerance with one vectorised pass
+        over all intervals. ``None`` where the cores' attribute columns differ (then
+        each core is done on its own)."""
+        key = ("beds", float(tolerance))
+        if key in self._derived:
+            return self._derived[key]
+        result = None
+        numbers = [k for k, c in enumerate(self.cores.values()) if len(c.intervals)]
+        used = [c for c in self.cores.values() if len(c.intervals)]
+        if used:
+            attrs = used[0].attributes
+            columns = list(used[0].intervals.columns)
+            dtypes = used[0].intervals.dtypes.tolist()
+            same = all(
+                list(c.intervals.columns) == columns and c.intervals.dtypes.tolist() == dtypes
+                for c in used
+            )
+            if same:
+                lengths = np.array([len(c.intervals) for c in used], dtype=np.int64)
+                table = pd.concat([c.intervals for c in used], ignore_index=True)
+                core_id = np.repeat(np.array(numbers, dtype=np.int64), lengths)
+                data, bed_core = _bed_columns(table, core_id, attrs, tolerance)
+                names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+                result = (pd.DataFrame(data, columns=names), bed_core)
+        self._derived[key] = result
+        return result
+
+    def bed_counts(self, tolerance: float = DEPTH_TOL) -> dict[str, int]:
+        """Number of beds of every core (``len(core.beds())``), cores in order."""
+        found = self._bed_table(tolerance)
+        if found is None:
+            return {name: len(core.beds(tolerance)) for name, core in self.cores.items()}
+        counts = np.bincount(found[1], minlength=len(self.cores))
+        return {name: int(k) for name, k in zip(self.cores, counts)}
+
     def successions(
         self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
     ) -> list[Succession]:
         """Every core's successions (see :meth:`Core.successions`), cores in order."""
-        return [s for core in self for s in core.successions(unit, step, tolerance)]
+        found = self._bed_table(tolerance) if unit == "beds" else None
+        if found is None:
+            return [s for core in self for s in core.successions(unit, step, tolerance)]
+        table, bed_core = found
+        n = len(table)
+        if n == 0:
+            return []
+        segment = table["segment"].to_numpy()
+        start = np.flatnonzero(
+            np.r_[True, (bed_core[1:] != bed_core[:-1]) | (segment[1:] != segment[:-1])]
+        )
+        stop = np.r_[start[1:], n]
+        # each succession base to top: reverse the rows within every run
+        owner = np.repeat(np.arange(len(start)), stop - start)
+        order = (start + stop - 1)[owner] - np.arange(n)
+        flipped = table.take(order)
+        names = list(self.cores)
+        out = []
+        for a, b in zip(start.tolist(), stop.tolist()):
+            beds = flipped.iloc[a:b]
+            beds.index = pd.RangeIndex(b - a)
+            out.append(Succession(names[bed_core[a]], int(segment[a]), beds, self.units))
+        return out
 
     def subset(self, names: Iterable[str]) -> CoreSet:
         """A core set with only the named cores (problems of those cores kept)."""
@@ -391,6 +491,21 @@ class CoreSet:
         if missing:
             raise InputError(f"unknown core(s) {missing}")
         problems = tuple(p for p in self.problems if p.core is None or p.core in keep)
-        return CoreSet(
+        out = CoreSet(
             {n: self.cores[n] for n in keep}, self.units, problems, self.sources, self.meta
         )
+        # the derived bed tables of the kept cores, in the new order
+        position = {n: k for k, n in enumerate(self.cores)}
+        new_id = np.full(len(self.cores), -1, dtype=np.int64)
+        new_id[[position[n] for n in out.cores]] = np.arange(len(out.cores))
+        for key, found in self._derived.items():
+            if found is None:
+                out._derived[key] = None
+                continue
+            table, bed_core = found
+            ids = new_id[bed_core]
+            rows = np.flatnonzero(ids >= 0)
+            rows = rows[np.argsort(ids[rows], kind="stable")]
+            part = table.take(rows).reset_index(drop=True)
+            out._derived[key] = (part, ids[rows])
+        return out

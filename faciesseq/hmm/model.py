@@ -198,10 +198,12 @@ def _text(values: pd.Series) -> list[str | None]:
 
 def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
     out: set[str] = set()
-    for t in tables:
-        if column in t.columns:
-            text = t[column].dropna().astype("string").str.strip()
-            out.update(v for v in text.unique().tolist() if v and v.lower() != "nan")
+    parts = [t[column] for t in tables if column in t.columns]
+    if len(parts) > 1 and all(p.dtype == parts[0].dtype for p in parts):
+        parts = [pd.concat(parts, ignore_index=True)]  # one pass over every table's column
+    for values in parts:
+        text = values.dropna().astype("string").str.strip()
+        out.update(v for v in text.unique().tolist() if v and v.lower() != "nan")
     return out
 
 

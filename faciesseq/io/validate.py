@@ -571,9 +571,14 @@ def _check_intervals(
         elif base[i] - top[i] <= DEPTH_TOL:
             ok[i] = False
             here(i, "zero-thickness", "error", f"zero thickness (top = base = {top[i]:g})", top[i])
-    part = part[ok].reset_index(drop=True)
+    if not ok.all():
+        part = part[ok].reset_index(drop=True)
     problems += _order(part, "top", file, core, units)
-    part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+    top = part["top"].to_numpy(dtype=float)
+    base = part["base"].to_numpy(dtype=float)
+    ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
+    if not ordered.all():  # already in (top, base) order: nothing to sort
+        part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
     top = part["top"].to_numpy(dtype=float).copy()
     base = part["base"].to_numpy(dtype=float)
     rows = part["_row"].to_numpy()
@@ -617,6 +622,8 @@ def _check_intervals(
                 base[above],
             )
         above = i
+    if keep.all() and np.array_equal(top, part["top"].to_numpy(dtype=float)):
+        return part, problems
     part = part.assign(top=top)[keep].reset_index(drop=True)
     return part, problems
 
@@ -782,8 +789,13 @@ def build_coreset(
         problems += p.problems
         file = p.table.file
         names = list(dict.fromkeys(p.frame["core"]))
+        # one split of the file's rows by core (not one scan of the table per core)
+        groups = p.frame.groupby("core", sort=False, dropna=False).indices
+        frame = p.frame.drop(columns="core")
+        if p.layout == "intervals":  # the columns a core keeps, chosen once
+            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
         for name in names:
-            part = p.frame[p.frame["core"] == name].drop(columns="core").reset_index(drop=True)
+            part = frame.take(groups[name]).reset_index(drop=True)
             if name in owner and owner[name] != file:
                 problems.append(
                     Problem(
@@ -802,7 +814,7 @@ def build_coreset(
             if p.layout == "intervals":
                 part, found = _check_intervals(part, file, name, target, tolerance)
                 problems += found
-                pieces[name] = part[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+                pieces[name] = part
             else:
                 part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
@@ -849,20 +861,21 @@ def build_coreset(
                 )
             )
             continue
-        core = Core(name, part.reset_index(drop=True), target)
-        n_beds = len(core.beds())
+        cores[name] = Core(name, part.reset_index(drop=True), target)
+    # beds of every core at once (one vectorised pass, kept for the analyses)
+    derived = CoreSet(cores, target)
+    for name, n_beds in derived.bed_counts().items():
         if n_beds < 2:
             problems.append(
                 Problem(
                     "warning",
                     "too-short",
-                    f"only {n_beds} bed ({len(core)} interval(s)): too short for transition "
-                    "statistics",
+                    f"only {n_beds} bed ({len(cores[name])} interval(s)): too short for "
+                    "transition statistics",
                     file=owner.get(name),
                     core=name,
                 )
             )
-        cores[name] = core
     meta = {
         "sample_step": {n: steps[n] for n in cores if n in steps},
         "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
@@ -886,7 +899,9 @@ def build_coreset(
     ]
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
-    return CoreSet(cores, target, tuple(problems), sources, meta)
+    coreset = CoreSet(cores, target, tuple(problems), sources, meta)
+    coreset._derived.update(derived._derived)
+    return coreset
 
 
 #: Depths (read as metres) from which typical feet sample spacings look suspicious.
