@@ -6,10 +6,14 @@ and :mod:`faciesseq.report.latex` render the same document, and
 :class:`pandas.DataFrame` the renderers show, so the three never disagree.
 
 Numbers are shown with :func:`format_value` (4 significant digits; integers
-in full; p-values below 1e-4 in scientific notation), and the decoded
-probabilities a table names with :func:`format_probability` (2 decimals,
-``> 0.99`` and ``< 0.01`` at the ends); the CSV files and ``appendix.json``
-keep full precision.
+in full), and in a table every number of a column with the same number of
+decimals (:func:`column_decimals`: 4 significant digits of the column's
+largest value), as a copy editor expects. p-values in tables (columns named
+``p``, ``p-value`` or listed in ``p_values``) are shown with 3 decimals and
+``< 0.001`` below 0.001 (:func:`format_p_cell`); the decoded probabilities a
+table names with :func:`format_probability` (2 decimals, ``> 0.99`` and
+``< 0.01`` at the ends). The CSV files and ``appendix.json`` keep full
+precision.
 """
 
 from __future__ import annotations
@@ -30,6 +34,8 @@ __all__ = [
     "Paragraph",
     "Section",
     "TableBlock",
+    "column_decimals",
+    "format_p_cell",
     "format_probability",
     "format_value",
 ]
@@ -92,6 +98,63 @@ def format_probability(value: object) -> str:
     return f"{v:.2f}"
 
 
+def format_p_cell(value: object) -> str:
+    """How a p-value is shown in a table: 3 decimals, ``< 0.001`` below 0.001 (common practice)."""
+    numeric = isinstance(value, int | float | np.integer | np.floating)
+    if not numeric or isinstance(value, bool | np.bool_):
+        return format_value(value)
+    v = float(value)
+    if math.isnan(v):
+        return ""
+    if v < 0.001:
+        return "< 0.001"
+    return f"{v:.3f}"
+
+
+_P_NAMES = {"p", "p-value", "p value", "p_value"}
+
+
+def _numeric(value: object) -> bool:
+    return isinstance(value, int | float | np.integer | np.floating) and not isinstance(
+        value, bool | np.bool_
+    )
+
+
+def column_decimals(values: list, digits: int = 4) -> int | None:
+    """Decimals shared by every number of a column, or ``None`` to show cells one by one.
+
+    ``digits`` significant digits of the largest absolute value, at least 1 and
+    at most ``digits + 2`` decimals. ``None`` when the column is not all
+    numbers (blanks aside), holds only whole numbers, or spans values a fixed
+    notation cannot show (below 1e-4 or above 1e9: scientific notation).
+    """
+    finite = []
+    for v in values:
+        if v is None or v is pd.NA:
+            continue
+        if not _numeric(v):
+            return None
+        f = float(v)
+        if math.isfinite(f):
+            finite.append(f)
+    if not finite or all(f.is_integer() for f in finite):
+        return None
+    largest = max(abs(f) for f in finite)
+    if largest < 1e-4 or largest >= 1e9:
+        return None
+    return min(max(digits - 1 - math.floor(math.log10(largest)), 1), digits + 2)
+
+
+def _fixed(value: object, decimals: int) -> str:
+    if value is None or value is pd.NA or not _numeric(value):
+        return format_value(value)
+    v = float(value)
+    if not math.isfinite(v):
+        return format_value(v)
+    text = f"{v:.{decimals}f}"
+    return text[1:] if text.startswith("-") and float(text) == 0 else text
+
+
 @dataclass(frozen=True)
 class Paragraph:
     """Plain text (escaped by every renderer). ``kind`` ``"note"`` draws a framed caution."""
@@ -119,7 +182,10 @@ class TableBlock:
     residuals), explained by ``mark_note``. ``shown=False`` writes the CSV
     only (long per-bed data), listed in the appendix as a data file.
     ``probabilities`` names the columns of decoded probabilities, shown with
-    :func:`format_probability` (the CSV keeps them exact).
+    :func:`format_probability`; ``p_values`` (and columns named ``p`` or
+    ``p-value``) are shown with :func:`format_p_cell`; other columns of
+    numbers with fixed decimals (:func:`column_decimals`). The CSV keeps every
+    number exact.
     """
 
     key: str
@@ -131,6 +197,7 @@ class TableBlock:
     shown: bool = True
     digits: int = 4
     probabilities: tuple[str, ...] = ()
+    p_values: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if not _KEY.match(self.key):
@@ -153,8 +220,8 @@ class TableBlock:
                 .to_numpy(bool)
             )
         shows = [
-            format_probability if str(c) in self.probabilities else self._format
-            for c in self.frame.columns
+            self._shower(str(c), self.frame.iloc[:, j].tolist())
+            for j, c in enumerate(self.frame.columns)
         ]
         for i, (label, row) in enumerate(self.frame.iterrows()):
             cells = [show(v) for show, v in zip(shows, row.tolist(), strict=True)]
@@ -166,6 +233,17 @@ class TableBlock:
 
     def _format(self, value: object) -> str:
         return format_value(value, self.digits)
+
+    def _shower(self, name: str, values: list):
+        """The formatter of one column (see the class docstring)."""
+        if name in self.probabilities:
+            return format_probability
+        if name in self.p_values or name.lower() in _P_NAMES:
+            return format_p_cell
+        decimals = column_decimals(values, self.digits)
+        if decimals is None:
+            return self._format
+        return lambda v: _fixed(v, decimals)
 
     def to_csv_frame(self) -> pd.DataFrame:
         """The table as written to CSV (index as a column when shown)."""

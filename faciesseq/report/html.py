@@ -49,7 +49,8 @@ table.data th, table.data td { padding: 0.18rem 0.55rem; border-bottom: 1px soli
 table.data thead th { border-bottom: 1.5px solid var(--ink); border-top: 1.5px solid var(--ink);
   text-align: left; }
 table.data tbody tr:nth-child(even) { background: var(--band); }
-table.data td.num, table.data th.num { text-align: right; font-variant-numeric: tabular-nums; }
+table.data td.num, table.data th.num { text-align: right; font-variant-numeric: tabular-nums;
+  white-space: nowrap; }
 table.data td.mark { font-weight: bold; }
 table.data tbody th { text-align: left; font-weight: 600; }
 .table-wrap { overflow-x: auto; }

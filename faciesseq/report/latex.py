@@ -135,14 +135,19 @@ def table_latex(table: TableBlock) -> str:
         r"\endlastfoot",
     ]
     for cells, flags in rows:
-        shown = [
-            (rf"\textbf{{{latex_escape(c)}*}}" if f else latex_escape(c))
-            for c, f in zip(cells, flags, strict=True)
-        ]
+        shown = [_cell_latex(c, f) for c, f in zip(cells, flags, strict=True)]
         lines.append(" & ".join(shown) + r" \\")
     lines.append(r"\end{longtable}")
     size = r"\footnotesize" if len(header) > 6 else r"\small"
     return "{" + size + "\n" + "\n".join(lines) + "\n}"
+
+
+def _cell_latex(text: str, marked: bool) -> str:
+    """A cell; a number in an ``\\mbox`` so that no column type breaks it over lines."""
+    shown = latex_escape(text) + ("*" if marked else "")
+    if text and _is_number(text):
+        shown = rf"\mbox{{{shown}}}"
+    return rf"\textbf{{{shown}}}" if marked else shown
 
 
 def _is_number(text: str) -> bool:
