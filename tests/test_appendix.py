@@ -13,6 +13,7 @@ import unicodedata
 
 import pytest
 from _html_tables import mismatches, read_tables
+from _latex_log import compile_latex, page_count, table_overfulls
 from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
 
 from faciesseq.errors import ConfigError
@@ -140,7 +141,6 @@ def test_latex_compiles_with_pdflatex_where_installed(written, tmp_path):
     # The journal-supplement form must typeset as written (a core named <script>
     # included). Runs where TeX Live's pdflatex is installed (.ci/run installs it).
     import shutil
-    import subprocess
 
     pdflatex = shutil.which("pdflatex")
     if pdflatex is None:
@@ -148,19 +148,11 @@ def test_latex_compiles_with_pdflatex_where_installed(written, tmp_path):
     _, _, out = written
     work = tmp_path / "tex"
     shutil.copytree(out, work)
-    for _ in range(2):  # second pass resolves the table of contents
-        run = subprocess.run(
-            [pdflatex, "-interaction=nonstopmode", "-halt-on-error", "appendix.tex"],
-            cwd=work,
-            capture_output=True,
-            text=True,
-            timeout=240,
-        )
-        assert run.returncode == 0, run.stdout[-2000:]
+    log = compile_latex(work)
     assert (work / "appendix.pdf").read_bytes()[:4] == b"%PDF"
-    log = (work / "appendix.log").read_text(encoding="latin-1")
-    pages = re.search(r"Output written on appendix\.pdf \((\d+) pages?", log)
-    assert pages is not None and int(pages.group(1)) >= 3
+    assert page_count(log) >= 3
+    tex = (work / "appendix.tex").read_text(encoding="utf-8")
+    assert table_overfulls(tex, log) == []  # every table within the text width
     assert "Undefined control sequence" not in log
     assert "There were undefined references" not in log
 
@@ -247,3 +239,22 @@ def test_table_numbers_as_a_copy_editor_wants_them():
     assert r"\mbox{a long" not in tex
     # the CSV keeps the exact values
     assert table.to_csv_frame()["p"].tolist() == [1.2e-7, 0.04567, 0.5]
+
+
+def test_wide_and_long_tables_in_latex():
+    """A short table is boxed and shrunk when wider than the line; a long one breaks pages."""
+    import pandas as pd
+
+    from faciesseq.report.document import TableBlock
+    from faciesseq.report.latex import LONG_TABLE_ROWS, table_latex
+
+    wide = pd.DataFrame({f"column {k}": [1.5, 2.25] for k in range(12)})
+    wide["features"] = "facies_trend,thickness,contact,rank_step,stacking and more words"
+    tex = table_latex(TableBlock("wide", "A wide table.", wide))
+    assert r"\resizebox{\linewidth}{!}{\usebox{\fstable}}" in tex
+    assert r"\begin{tabular}" in tex and "longtable" not in tex
+    # a name or list without spaces may break after an underscore or a comma
+    assert r"facies\_\allowbreak{}trend,\allowbreak{}thickness" in tex
+    long = pd.DataFrame({"x": [0.5] * (LONG_TABLE_ROWS + 1)})
+    tex = table_latex(TableBlock("long", "A long table.", long))
+    assert r"\begin{longtable}" in tex and r"\resizebox" not in tex

@@ -8,6 +8,7 @@ import pandas as pd
 import pytest
 from _chromium import CHROMIUM, open_page, page_errors
 from _html_tables import mismatches, read_tables
+from _latex_log import compile_latex, page_count, table_overfulls
 
 from faciesseq.cli import main
 from faciesseq.pipeline import demo_source
@@ -184,3 +185,20 @@ def test_appendix_with_a_model_file_uses_it_and_hashes_it(tmp_path, capsys, smal
     prov = json.loads((out / "provenance.json").read_text(encoding="utf-8"))
     record = next(r for r in prov["inputs"] if r["role"] == "model")
     assert record["sha256"] == sha256_file(path)
+
+
+@pytest.mark.slow
+def test_demo_latex_tables_fit_the_page(tmp_path, capsys):
+    """The demo's appendix.tex typesets with no table wider than the text (3 pt allowed)."""
+    import shutil
+
+    if shutil.which("pdflatex") is None:
+        pytest.skip("pdflatex not installed: LaTeX compile check skipped")
+    out = tmp_path / "demo"
+    code, _, err = _run(capsys, ["demo", "-o", str(out), "--surrogates", "19", "--restarts", "1"])
+    assert code == 0, err
+    log = compile_latex(out)
+    tex = (out / "appendix.tex").read_text(encoding="utf-8")
+    assert r"\begin{tabular}" in tex
+    assert table_overfulls(tex, log) == []
+    assert page_count(log) > 20

@@ -105,48 +105,87 @@ PREAMBLE = r"""\documentclass[10pt,a4paper]{article}
 \usepackage[font=small,labelfont=bf]{caption}
 \usepackage[hidelinks]{hyperref}
 \setlength{\LTcapwidth}{\textwidth}
+\newsavebox{\fstable}
 \renewcommand{\thetable}{S\arabic{table}}
 \renewcommand{\thefigure}{S\arabic{figure}}
 """
 
 
+LONG_TABLE_ROWS = 40
+"""Tables with more rows are typeset as a ``longtable`` (it breaks across pages)."""
+
+
 def table_latex(table: TableBlock) -> str:
-    """A ``longtable`` (it may break across pages) with a caption above, booktabs rules."""
+    r"""A table with its caption above and booktabs rules, never wider than the text.
+
+    Up to :data:`LONG_TABLE_ROWS` rows: a ``tabular`` set in a box and shrunk to
+    the line width when wider (``\resizebox``), captioned with ``\captionof``.
+    Longer tables: a ``longtable`` (it may break across pages) with narrower
+    column gaps.
+    """
     header = table.header()
     rows = list(table.rows())
-    align = "".join(_column_spec(k, header, rows) for k in range(len(header)))
+    specs = [_column_spec(k, header, rows) for k in range(len(header))]
+    align = "".join(specs)
+    caption = latex_escape(table.caption) + (
+        f" {latex_escape(table.mark_note)}" if table.marks is not None and table.mark_note else ""
+    )
+    head = " & ".join(rf"\textbf{{{latex_escape(h)}}}" for h in header) + r" \\"
+    body = []
+    for cells, flags in rows:
+        shown = [
+            _cell_latex(c, f, wrap=spec.startswith(">"))
+            for c, f, spec in zip(cells, flags, specs, strict=True)
+        ]
+        body.append(" & ".join(shown) + r" \\")
+    size = r"\footnotesize" if len(header) > 6 else r"\small"
+    if len(rows) <= LONG_TABLE_ROWS:
+        lines = [
+            r"\begin{center}",
+            rf"\captionof{{table}}{{{caption}}}\label{{tab:{table.key}}}",
+            rf"\sbox{{\fstable}}{{\begin{{tabular}}{{{align}}}",
+            r"\toprule",
+            head,
+            r"\midrule",
+            *body,
+            r"\bottomrule",
+            r"\end{tabular}}%",
+            r"\ifdim\wd\fstable>\linewidth\resizebox{\linewidth}{!}{\usebox{\fstable}}%",
+            r"\else\usebox{\fstable}\fi",
+            r"\end{center}",
+        ]
+        return "{" + size + "\n" + "\n".join(lines) + "\n}"
     lines = [
         rf"\begin{{longtable}}{{{align}}}",
-        rf"\caption{{{latex_escape(table.caption)}"
-        + (
-            f" {latex_escape(table.mark_note)}"
-            if table.marks is not None and table.mark_note
-            else ""
-        )
-        + rf"}}\label{{tab:{table.key}}}\\",
+        rf"\caption{{{caption}}}\label{{tab:{table.key}}}\\",
         r"\toprule",
-        " & ".join(rf"\textbf{{{latex_escape(h)}}}" for h in header) + r" \\",
+        head,
         r"\midrule",
         r"\endfirsthead",
-        " & ".join(rf"\textbf{{{latex_escape(h)}}}" for h in header) + r" \\",
+        head,
         r"\midrule",
         r"\endhead",
         r"\bottomrule",
         r"\endlastfoot",
+        *body,
+        r"\end{longtable}",
     ]
-    for cells, flags in rows:
-        shown = [_cell_latex(c, f) for c, f in zip(cells, flags, strict=True)]
-        lines.append(" & ".join(shown) + r" \\")
-    lines.append(r"\end{longtable}")
-    size = r"\footnotesize" if len(header) > 6 else r"\small"
-    return "{" + size + "\n" + "\n".join(lines) + "\n}"
+    return "{" + size + r"\setlength{\tabcolsep}{3pt}" + "\n" + "\n".join(lines) + "\n}"
 
 
-def _cell_latex(text: str, marked: bool) -> str:
-    """A cell; a number in an ``\\mbox`` so that no column type breaks it over lines."""
+def _cell_latex(text: str, marked: bool, wrap: bool = False) -> str:
+    """A cell; a number in an ``\\mbox`` so that no column type breaks it over lines.
+
+    In a paragraph column (``wrap``) text may break after a comma, a slash or
+    an underscore, so that a list or a name without spaces (``a,b_c``) does not
+    run out of its column.
+    """
     shown = latex_escape(text) + ("*" if marked else "")
     if text and _is_number(text):
         shown = rf"\mbox{{{shown}}}"
+    elif wrap:
+        for mark in (",", "/", r"\_"):
+            shown = shown.replace(mark, mark + r"\allowbreak{}")
     return rf"\textbf{{{shown}}}" if marked else shown
 
 
