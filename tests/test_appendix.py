@@ -258,3 +258,41 @@ def test_wide_and_long_tables_in_latex():
     long = pd.DataFrame({"x": [0.5] * (LONG_TABLE_ROWS + 1)})
     tex = table_latex(TableBlock("long", "A long table.", long))
     assert r"\begin{longtable}" in tex and r"\resizebox" not in tex
+
+
+def _order_report(p_one_two: float, best_aic: int, best_bic: int):
+    from types import SimpleNamespace
+
+    test = SimpleNamespace(
+        name="order 1 vs 2 (G2)", p_value=p_one_two, n=456, dof=175, statistic=300.0
+    )
+    order = SimpleNamespace(
+        tests=(test,),
+        orders=(0, 1, 2),
+        n_parameters=(6, 35, 210),
+        best_aic=best_aic,
+        best_bic=best_bic,
+    )
+    return SimpleNamespace(order=order, first_order=SimpleNamespace(alpha=0.05))
+
+
+def test_order_test_against_aic_bic_is_explained():
+    """G² rejects first order while AIC/BIC choose it: a sentence says why both hold."""
+    from faciesseq.report.markov_text import order_explanation
+
+    text = order_explanation(_order_report(1.9e-5, 1, 1))
+    assert text is not None
+    assert "AIC and BIC choose first order" in text and "N = 456" in text
+    assert "175 more free parameters" in text
+    assert "BIC chooses" in order_explanation(_order_report(1.9e-5, 2, 1))
+    assert order_explanation(_order_report(0.2, 1, 1)) is None  # no conflict
+    assert order_explanation(_order_report(1e-5, 2, 2)) is None  # all say second order
+
+
+def test_parameters_against_beds_are_explained():
+    from faciesseq.report.model_section import parameters_note
+
+    assert parameters_note(40, 524) == ""  # fewer than one per ten beds
+    note = parameters_note(4203, 221)
+    assert "4203 free parameters for 221 beds" in note and "cross-validation" in note
+    assert parameters_note(53, 524) != ""  # just above a tenth

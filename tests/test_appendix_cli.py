@@ -2,6 +2,7 @@
 
 import csv
 import json
+import re
 from pathlib import Path
 
 import pandas as pd
@@ -53,9 +54,10 @@ def test_appendix_command_writes_the_folder_and_says_where(tmp_path, capsys, sma
     assert err.count("\n") == 1
     data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))
     assert data["sections"][0] == "1 Data"
-    assert "fitted to these cores with the default settings" in (
-        (out / "appendix.html").read_text(encoding="utf-8")
-    )
+    html = (out / "appendix.html").read_text(encoding="utf-8")
+    assert "fitted to these cores with the default settings" in html
+    # the free parameters beside the beds they are fitted on
+    assert re.search(r"fitted on \d+ beds of \d+ cores with \d+ free parameters", html)
     prov = json.loads((out / "provenance.json").read_text(encoding="utf-8"))
     source = next(r for r in prov["inputs"] if r["role"] == "source")
     assert source["sha256"] == sha256_file(small_source)

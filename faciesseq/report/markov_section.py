@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
+from faciesseq.report.markov_text import order_explanation
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["format_p", "format_test", "markov_section"]
@@ -176,6 +177,9 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
             order_frame,
         )
     )
+    explanation = order_explanation(report)
+    if explanation is not None:
+        tests.add(Paragraph(explanation))
     if report.homogeneity is not None:
         h = report.homogeneity
         tests.add(

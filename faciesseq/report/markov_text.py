@@ -11,7 +11,7 @@ import math
 import numpy as np
 import pandas as pd
 
-__all__ = ["format_p", "format_test", "markov_text", "verdict"]
+__all__ = ["format_p", "format_test", "markov_text", "order_explanation", "verdict"]
 
 
 def format_p(p: float) -> str:
@@ -57,6 +57,37 @@ def _matrix(matrix: np.ndarray, codes, digits: int) -> str:
     return _table(frame, digits)
 
 
+def order_explanation(report) -> str | None:
+    """Why an order test can reject first order while AIC or BIC choose it, or ``None``.
+
+    With many transitions the likelihood-ratio (G²) test detects departures from
+    first order too small to matter, whereas AIC (Tong 1975) and BIC (Katz 1981)
+    weigh the gain in fit against the parameters a second-order chain adds.
+    """
+    order = report.order
+    a = report.first_order.alpha
+    one_two = next((t for t in order.tests if t.name.startswith("order 1 vs 2")), None)
+    if one_two is None or not one_two.p_value < a:
+        return None
+    criteria = (("AIC", order.best_aic), ("BIC", order.best_bic))
+    chosen = [name for name, best in criteria if best == 1]
+    if not chosen:
+        return None
+    orders = list(order.orders)
+    added = ""
+    if 1 in orders and 2 in orders:
+        k1, k2 = (order.n_parameters[orders.index(k)] for k in (1, 2))
+        added = f" (here {k2 - k1} more free parameters than first order)"
+    return (
+        f"The order test rejects first order against second while {' and '.join(chosen)} "
+        f"{'choose' if len(chosen) > 1 else 'chooses'} first order; both can hold. With "
+        f"N = {one_two.n} transitions the G² test detects even small departures from first "
+        f"order, whereas {' and '.join(chosen)} weigh{'' if len(chosen) > 1 else 's'} the gain in "
+        f"fit against the parameters a second-order chain adds{added}: the second-order "
+        "effect is detectable but does not pay for its parameters."
+    )
+
+
 def verdict(report) -> list[str]:
     """Plain sentences answering "ordered or random?", each quoting the test it rests on."""
     fo = report.first_order
@@ -88,6 +119,9 @@ def verdict(report) -> list[str]:
             )
         lines.append(line + ".")
     lines.append(f"Order chosen by AIC: {order.best_aic}; by BIC: {order.best_bic}.")
+    explanation = order_explanation(report)
+    if explanation is not None:
+        lines.append(explanation)
     if report.homogeneity is not None:
         h = report.homogeneity
         word = "differ" if h.pearson.p_value < a else "do not differ significantly"

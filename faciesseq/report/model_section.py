@@ -17,7 +17,7 @@ import pandas as pd
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
 from faciesseq.scheme import TractModel
 
-__all__ = ["model_section", "tract_transitions"]
+__all__ = ["model_section", "parameters_note", "tract_transitions"]
 
 
 _READABLE = {
@@ -266,6 +266,23 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
             )
 
 
+def parameters_note(n_parameters: int, n_beds: int) -> str:
+    """A caution when free parameters exceed a tenth of the beds they are fitted on, else ``""``.
+
+    Ten observations per parameter is a common rule of thumb (common practice);
+    below it the training fit says little about the model's worth.
+    """
+    if n_beds <= 0 or n_parameters * 10 <= n_beds:
+        return ""
+    return (
+        f"The model has {n_parameters} free parameters for {n_beds} beds, more than one "
+        "for every ten beds: the training log-likelihood and BIC flatter it, and single "
+        "parameters (the emissions of rare facies above all) are held mostly by the "
+        "Dirichlet prior, not by the data. Judge the model by its cross-validation on "
+        "cores it was not fitted to."
+    )
+
+
 def model_section(
     model: Any,
     tract_model: TractModel,
@@ -314,19 +331,23 @@ def model_section(
         Paragraph(
             f"{len(states.tracts)} systems tracts ({', '.join(states.tracts)}) in "
             f"{states.n_states} hidden states; emission pieces: {features}; fitted on "
-            f"{model.n_train_beds_} beds of {len(model.cores_)} cores"
+            f"{model.n_train_beds_} beds of {len(model.cores_)} cores with "
+            f"{model.n_parameters()} free parameters"
             + (
                 f", {model.n_labelled_} of them labelled by an interpreter"
                 if model.n_labelled_
                 else ", unsupervised"
             )
             + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
-            f"strength {format_value(float(model.prior_strength))}; {model.n_parameters()} free "
-            f"parameters; training log-likelihood {format_value(model.log_likelihood_)}"
+            f"strength {format_value(float(model.prior_strength))}; "
+            f"training log-likelihood {format_value(model.log_likelihood_)}"
             + (" (interpreted beds held to their tracts)" if model.n_labelled_ else "")
             + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
+    crowded = parameters_note(model.n_parameters(), model.n_train_beds_)
+    if crowded:
+        s.add(Paragraph(crowded, kind="note"))
     s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
     graph = s.sub("Tract graph")
     tracts = pd.DataFrame(
