@@ -194,7 +194,13 @@ def run_appendix(
             )
         _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
     else:
-        note = f"Model read from {model_source}." if model_source else "Model given by the caller."
+        from faciesseq.report.provenance import display_path
+
+        note = (
+            f"Model read from {display_path(model_source)}."
+            if model_source
+            else "Model given by the caller."
+        )
         _say(progress, "fit", note)
 
     with warnings.catch_warnings(record=True) as caught:

@@ -296,3 +296,36 @@ def test_parameters_against_beds_are_explained():
     note = parameters_note(4203, 221)
     assert "4203 free parameters for 221 beds" in note and "cross-validation" in note
     assert parameters_note(53, 524) != ""  # just above a tenth
+
+
+def test_paths_in_the_document_are_never_installation_or_home_paths(tmp_path):
+    from faciesseq.report.provenance import display_path
+
+    inside = tmp_path / "data" / "cores.csv"
+    assert display_path(inside, base=tmp_path) == "data/cores.csv"
+    assert display_path("/usr/lib/python3/site-packages/faciesseq/data/demo/cores.csv") == (
+        "cores.csv"
+    )
+    assert display_path("cores.csv") == "cores.csv"
+    assert display_path("postgresql://geo:secret@db/cores") == "postgresql://geo:***@db/cores"
+
+
+def test_seed_of_a_loaded_model_is_reported():
+    from types import SimpleNamespace
+
+    from faciesseq.report.model_section import model_seed
+
+    loaded = SimpleNamespace(random_state=None, training_={"random_state": 5}, restarts_=[])
+    assert model_seed(loaded) == "seed 5"
+    restarts = [{"seed": 11}, {"seed": 12}]
+    loaded = SimpleNamespace(random_state=None, training_={}, restarts_=restarts)
+    assert model_seed(loaded) == "restart seeds 11, 12"
+    assert model_seed(SimpleNamespace(random_state=0, restarts_=[])) == "seed 0"
+
+
+def test_em_trace_has_whole_iterations():
+    from faciesseq.report.figures import loglik_trace
+
+    fig = loglik_trace({"restart 0 (seed 0)": [-10.0, -8.0, -7.5]}, best="restart 0 (seed 0)")
+    ticks = fig.axes[0].get_xticks()
+    assert len(ticks) >= 2 and all(float(t).is_integer() for t in ticks)

@@ -56,6 +56,7 @@ def test_appendix_command_writes_the_folder_and_says_where(tmp_path, capsys, sma
     assert data["sections"][0] == "1 Data"
     html = (out / "appendix.html").read_text(encoding="utf-8")
     assert "fitted to these cores with the default settings" in html
+    assert str(small_source.parent) not in html  # no folder of the user's in the document
     # the free parameters beside the beds they are fitted on
     assert re.search(r"fitted on \d+ beds of \d+ cores with \d+ free parameters", html)
     prov = json.loads((out / "provenance.json").read_text(encoding="utf-8"))
@@ -138,6 +139,8 @@ def test_demo_end_to_end(tmp_path, capsys):
     for sub in ("Tract graph", "Fitting diagnostics", "Cross-validation", "Facies relationship"):
         assert any(sub in s for s in data["sections"])
     assert len(list((out / "figures").glob("*_striplog.png"))) == 17
+    # no installation path (the packaged demo's folder) in the document
+    assert str(demo_source()) not in html and "site-packages" not in html
     # every shown table equals its CSV (cell by cell, to the digits shown)
     page = read_tables(html)
     n_shown = 0
@@ -180,7 +183,9 @@ def test_appendix_with_a_model_file_uses_it_and_hashes_it(tmp_path, capsys, smal
     code, _, err = _run(capsys, [*argv, "--surrogates", "0", "--labels", "none", "--no-latex"])
     assert code == 0, err
     html = (out / "appendix.html").read_text(encoding="utf-8")
-    assert f"Model read from {path}." in html
+    # the file by name, no folder of the user's; the seed of the loaded model
+    assert "Model read from model.json." in html and str(tmp_path) not in html
+    assert "(seed 3)" in html and "seed None" not in html
     assert "no interpreted tracts in a column &#x27;none&#x27;" in html
     data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))
     assert data["results"]["model"]["parameters"]["transmat"] == model.transmat_.tolist()

@@ -298,6 +298,14 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
                         f"{'s' if counts[severity] != 1 else ''}: {_HANDLED[severity]}."
                     )
                 )
+        from faciesseq.report.provenance import display_path
+
+        # file names as the reader knows them, never an installation or home path
+        for name in problems["file"].dropna().unique():
+            problems["message"] = problems["message"].str.replace(
+                str(name), display_path(name), regex=False
+            )
+        problems["file"] = problems["file"].map(lambda f: f if pd.isna(f) else display_path(f))
         files = problems["file"].dropna().unique()
         where = "(file, data row, core, depth)"
         if len(files) == 1:

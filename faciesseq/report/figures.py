@@ -16,6 +16,7 @@ from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
+from matplotlib.ticker import MaxNLocator
 
 from faciesseq.report.striplog import _legend_label, plain
 from faciesseq.report.style import (
@@ -494,6 +495,7 @@ def loglik_trace(
                 zorder=3 if is_best else 2,
             )
         ax.set_xlabel("EM iteration")
+        ax.xaxis.set_major_locator(MaxNLocator(integer=True, min_n_ticks=1))
         ax.set_ylabel("log-likelihood")
         ax.legend(frameon=False, loc="lower right", ncol=1 if len(traces) < 6 else 2)
         if title:

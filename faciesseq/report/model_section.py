@@ -17,7 +17,7 @@ import pandas as pd
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
 from faciesseq.scheme import TractModel
 
-__all__ = ["model_section", "parameters_note", "tract_transitions"]
+__all__ = ["model_section", "model_seed", "parameters_note", "tract_transitions"]
 
 
 _READABLE = {
@@ -266,6 +266,24 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
             )
 
 
+def model_seed(model: Any) -> str:
+    """``seed 3``, or for a model read from a file without one, the seeds of its restarts.
+
+    A loaded model's ``random_state`` may be unset; its file keeps the seed in
+    ``training.random_state`` and each restart's seed in ``training.restarts``.
+    """
+    seed = model.random_state
+    if not isinstance(seed, int | np.integer):
+        seed = (getattr(model, "training_", None) or {}).get("random_state")
+    if isinstance(seed, int | np.integer) and not isinstance(seed, bool):
+        return f"seed {int(seed)}"
+    seeds = [r.get("seed") for r in getattr(model, "restarts_", None) or []]
+    seeds = [int(x) for x in seeds if isinstance(x, int | np.integer)]
+    if seeds:
+        return f"restart seed{'s' if len(seeds) > 1 else ''} {', '.join(map(str, seeds))}"
+    return "seed not recorded"
+
+
 def parameters_note(n_parameters: int, n_beds: int) -> str:
     """A caution when free parameters exceed a tenth of the beds they are fitted on, else ``""``.
 
@@ -338,7 +356,7 @@ def model_section(
                 if model.n_labelled_
                 else ", unsupervised"
             )
-            + f"; {model.n_restarts} random restarts (seed {model.random_state}); Dirichlet prior "
+            + f"; {model.n_restarts} random restarts ({model_seed(model)}); Dirichlet prior "
             f"strength {format_value(float(model.prior_strength))}; "
             f"training log-likelihood {format_value(model.log_likelihood_)}"
             + (" (interpreted beds held to their tracts)" if model.n_labelled_ else "")

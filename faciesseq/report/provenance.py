@@ -18,7 +18,14 @@ from typing import Any
 
 from faciesseq._version import __version__
 
-__all__ = ["file_record", "mask_url", "provenance", "sha256_file", "software_versions"]
+__all__ = [
+    "display_path",
+    "file_record",
+    "mask_url",
+    "provenance",
+    "sha256_file",
+    "software_versions",
+]
 
 #: Libraries whose versions change numbers or figures.
 LIBRARIES = (
@@ -43,6 +50,25 @@ def sha256_file(path: str | Path, chunk: int = 1 << 20) -> str:
         while block := handle.read(chunk):
             digest.update(block)
     return digest.hexdigest()
+
+
+def display_path(path: str | Path, base: str | Path | None = None) -> str:
+    """How a file is named in the appendix text: never an installation or home path.
+
+    Relative to ``base`` (the working folder by default) when the file is
+    inside it, otherwise its name alone; a database URL is masked. The full
+    path and the file's SHA-256 stay in ``provenance.json``.
+    """
+    text = str(path)
+    if "://" in text:
+        return mask_url(text)
+    p = Path(text)
+    if not p.is_absolute():
+        return p.as_posix()
+    try:
+        return p.resolve().relative_to(Path(base or Path.cwd()).resolve()).as_posix()
+    except ValueError:
+        return p.name
 
 
 def mask_url(url: str) -> str:
