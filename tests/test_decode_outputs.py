@@ -200,7 +200,7 @@ def test_probability_columns_are_coarse_in_html_and_latex_and_exact_in_csv():
         assert "12.35" in text  # other columns keep 4 significant digits
     assert "&gt; 0.99" in html and "&lt; 0.01" in html
     assert '<td class="num">&gt; 0.99</td>' in html  # still aligned as a number
-    assert r"\begin{longtable}{lr}" in latex  # the bounded column right-aligned too
+    assert r"\begin{tabular}{lr}" in latex  # the bounded column right-aligned too
     np.testing.assert_array_equal(table.to_csv_frame()["probability"], [0.99984, 0.00213])
 
 
