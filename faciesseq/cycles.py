@@ -218,6 +218,9 @@ def bed_context(
       and the deepest smoothed rank within ``position_half_width`` beds on each
       side (0 = shallowest, 1 = deepest): the turnarounds where common practice
       puts the maximum flooding surface and the sequence boundary;
+    - ``local_position``: the same between the shallowest and the deepest rank
+      of the bed's own cycle and the cycles next to it (bed-level detail that
+      places a boundary inside a cycle);
     - ``cycle_sharpness``: the fraction of sharp or erosional contacts among the
       beds of the cycle (``sharp``: 1/0/NaN per bed, :func:`sharp_contacts`;
       forced-regressive cycles are sharp-based and skip facies).
@@ -270,9 +273,9 @@ def _cycle_window_position(ranks: np.ndarray, bed_cycle: np.ndarray, cycles: Cyc
 
 
 def _running_mean(values: np.ndarray, lengths: np.ndarray, half: int) -> np.ndarray:
-    total = values.copy()
+    """Mean of the known values over ``half`` neighbours on each side, within a succession."""
+    total = np.nan_to_num(values)
     count = np.isfinite(values).astype(float)
-    total = np.nan_to_num(total)
     for k in range(1, half + 1):
         for shift in (-k, k):
             other = _neighbour(values, lengths, shift)

@@ -71,7 +71,8 @@ CONTEXT_CATEGORIES: Mapping[str, tuple[str, ...]] = {
 }
 
 
-def _centres(edges: Sequence[float]) -> np.ndarray:
+def bin_centres(edges: Sequence[float]) -> np.ndarray:
+    """Centres of the bins cut at ``edges``, the two open ends one bin width out."""
     e = np.asarray(edges, dtype=float)
     width = e[1] - e[0] if len(e) > 1 else 1.0
     return np.r_[e[0] - width / 2, (e[:-1] + e[1:]) / 2, e[-1] + width / 2]
@@ -106,7 +107,7 @@ def context_pseudo_counts(
     the more the lower they sit (the falling stage shifts down, the lowstand
     aggrades), and the position bins near each regressive tract's level.
     """
-    centres = _centres(CONTEXT_BINS[feature])
+    centres = bin_centres(CONTEXT_BINS[feature])
     out = np.full((len(trends), len(centres)), 0.1 * strength)
     scale = max(abs(centres).max(), 1e-9)
     for s, (trend, level) in enumerate(zip(trends, levels, strict=True)):

@@ -20,7 +20,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from faciesseq.hmm.context import CONTEXT_BINS, ContextEmission
+from faciesseq.hmm.context import CONTEXT_BINS, ContextEmission, bin_centres
 from faciesseq.hmm.emissions import CategoricalEmission, EmissionPiece
 from faciesseq.hmm.states import StateSpace
 
@@ -38,11 +38,7 @@ def deepening_scores(pieces: Sequence[EmissionPiece], n_tracts: int) -> np.ndarr
     found = False
     for p in pieces:
         if isinstance(p, ContextEmission) and p.feature in DEEPENING_FEATURES:
-            edges = np.asarray(CONTEXT_BINS[p.feature], dtype=float)
-            width = edges[1] - edges[0]
-            centres = np.r_[
-                edges[0] - width / 2, (edges[:-1] + edges[1:]) / 2, edges[-1] + width / 2
-            ]
+            centres = bin_centres(CONTEXT_BINS[p.feature])
             score += p.emissionprob_ @ (centres / np.abs(centres).max())
             found = True
     return score if found else None

@@ -911,20 +911,30 @@ class TractHMM:
         # recorded log-likelihood belongs to them.
         self.temperature_ = 1.0
         self.calibration_ = {"skipped": "no labelled beds"}
-        from faciesseq.hmm.bootstrap import calibrate_by_simulation
-        from faciesseq.hmm.calibration import calibrate_by_folds
-
         if clamp is not None and n_labelled:
+            from faciesseq.hmm.calibration import calibrate_by_folds
+
             self.calibration_ = calibrate_by_folds(self, succ, clamp, rng)
-        elif self._reads_context() and int(self.calibration_folds) > 0:
-            self.calibration_ = calibrate_by_simulation(self, beds, tables, rng)
-        self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+        else:
+            self._calibrate_without_labels(tables, rng, beds)
         return self
+
+    def _calibrate_without_labels(self, tables, rng, beds: EncodedBeds | None = None) -> None:
+        """Temperature from cores simulated from the fitted model
+        (:mod:`faciesseq.hmm.bootstrap`), for fits on the stacking context; other
+        fits keep their record of why they were not calibrated."""
+        if not (self._reads_context() and int(self.calibration_folds) > 0):
+            return
+        from faciesseq.hmm.bootstrap import calibrate_by_simulation
+
+        beds = self._encode(tables) if beds is None else beds
+        self.calibration_ = calibrate_by_simulation(self, beds, tables, rng)
+        self.temperature_ = float(self.calibration_.get("temperature", 1.0))
 
     def _fit_choosing_graph(self, succ: Sequence[Succession], progress) -> TractHMM:
         """The fit of the lowest-BIC tract graph (:mod:`faciesseq.hmm.graphs`),
         calibrated afterwards."""
-        from faciesseq.hmm.bootstrap import calibrate_by_simulation
         from faciesseq.hmm.graphs import choose_graph
 
         best, rows = choose_graph(self, succ, progress)
@@ -933,12 +943,8 @@ class TractHMM:
         self.set_params(**hyper)
         self._default_graph = best.tract_model
         self.graph_selection_ = rows
-        if self._reads_context() and int(self.calibration_folds) > 0:
-            tables = [s.beds for s in succ]
-            seed = self.random_state if isinstance(self.random_state, int) else None
-            rng = np.random.default_rng(seed)
-            self.calibration_ = calibrate_by_simulation(self, self._encode(tables), tables, rng)
-            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+        seed = self.random_state if isinstance(self.random_state, int) else None
+        self._calibrate_without_labels([s.beds for s in succ], np.random.default_rng(seed))
         return self
 
     def _check_fitted(self) -> None:
