@@ -35,3 +35,12 @@ def write_section(path: Path, name: str, text: str, title: str) -> None:
         fh.write(new)
     os.chmod(tmp, 0o644)
     os.replace(tmp, path)
+
+
+def write_json(path: Path, results) -> None:
+    """``results`` as indented JSON at ``path``, through a temporary file beside it."""
+    import json
+
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text(json.dumps(results, indent=2, default=str) + "\n", encoding="utf-8")
+    tmp.replace(path)

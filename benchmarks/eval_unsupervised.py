@@ -39,7 +39,6 @@ The model is made by :func:`make_model` alone, so another model with the same
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 import time
 import warnings
@@ -51,6 +50,9 @@ import yaml
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from _results import write_json  # noqa: E402
 
 from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.scores import (  # noqa: E402
@@ -410,9 +412,7 @@ def main(argv: list[str] | None = None) -> int:
         print(markdown(results[-1]) + "\n", flush=True)
     print(f"(whole evaluation: {time.perf_counter() - t0:.0f} s)")
     if args.json:
-        tmp = args.json.with_name(f".{args.json.name}.tmp")
-        tmp.write_text(json.dumps(results, indent=2, default=str) + "\n", encoding="utf-8")
-        tmp.replace(args.json)
+        write_json(args.json, results)
     return 0
 
 
