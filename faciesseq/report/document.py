@@ -85,30 +85,28 @@ def format_probability(value: object) -> str:
         No more digits than a model's tract or surface probabilities can
         bear (a 0.9998 claims a certainty no check of a model supports).
     """
-    numeric = isinstance(value, int | float | np.integer | np.floating)
-    if not numeric or isinstance(value, bool | np.bool_):
-        return format_value(value)
-    v = float(value)
-    if math.isnan(v):
-        return ""
-    if v > 0.99:
-        return "> 0.99"
-    if v < 0.01:
-        return "< 0.01"
-    return f"{v:.2f}"
+    return _bounded(value, 2, low=0.01, high=0.99)
 
 
 def format_p_cell(value: object) -> str:
     """How a p-value is shown in a table: 3 decimals, ``< 0.001`` below 0.001 (common practice)."""
+    return _bounded(value, 3, low=0.001)
+
+
+def _bounded(value: object, decimals: int, low: float, high: float | None = None) -> str:
+    """A number with ``decimals`` decimals, ``< low`` below ``low`` and ``> high`` above
+    ``high``; NaN blank; anything else as :func:`format_value` shows it."""
     numeric = isinstance(value, int | float | np.integer | np.floating)
     if not numeric or isinstance(value, bool | np.bool_):
         return format_value(value)
     v = float(value)
     if math.isnan(v):
         return ""
-    if v < 0.001:
-        return "< 0.001"
-    return f"{v:.3f}"
+    if high is not None and v > high:
+        return f"> {high:g}"
+    if v < low:
+        return f"< {low:g}"
+    return f"{v:.{decimals}f}"
 
 
 _P_NAMES = {"p", "p-value", "p value", "p_value"}
