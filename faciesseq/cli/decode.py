@@ -240,7 +240,8 @@ def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
 
 
 def _decode(args: argparse.Namespace):
-    """Read the model and the cores, decode them; ``(model, scheme, interpretation)``."""
+    """Read the model and the cores, decode them; ``(model, scheme, interpretation,
+    sampled)``, ``sampled`` whether any core was read in the samples layout."""
     from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
@@ -256,7 +257,8 @@ def _decode(args: argparse.Namespace):
         raise ConfigError("the source holds no beds to decode", file=args.source)
     with warnings_to_stderr("decode"):
         interp = model.decode(successions)
-    return model, scheme, interp
+    sampled = "samples" in dict(cores.meta.get("layout", {})).values()
+    return model, scheme, interp, sampled
 
 
 def _overall_agreement(agreement) -> float | None:
@@ -312,7 +314,7 @@ def _samples(args: argparse.Namespace):
 def run(args: argparse.Namespace) -> int:
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
-    model, scheme, interp = _decode(args)
+    model, scheme, interp, sampled = _decode(args)
     agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
     write_output(
         interp,
@@ -322,7 +324,7 @@ def run(args: argparse.Namespace) -> int:
         args.plot,
         scheme,
         model.tract_model_,
-        samples=_samples(args),
+        samples=_samples(args) if sampled else None,  # no second read for intervals
         las_step=args.las_step,
         sheet=args.labels if args.review_sheet else None,
         view=args.view,
