@@ -7,7 +7,7 @@ Run from the repository root::
 
 On the tuning seeds of the simulated scenarios (fit 11-15, decode 16-17; the
 held-out seeds 21-27 of ``eval_recovery.py`` are not touched), the stacking
-window of ``faciesseq.hmm.emissions.stacking_window`` with 2, 4 or 6 beds on
+window of ``faciesseq.hmm.encoding.stacking_window`` with 2, 4 or 6 beds on
 each side is given to three scikit-learn classifiers: gradient-boosted trees
 (the settings of ``faciesseq.hmm.boosting.fit_boosted``), a small neural network
 and logistic regression (missing values set to 0 for the last two, after
@@ -33,7 +33,7 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 from _results import machine, stamp, write_section  # noqa: E402
 from eval_recovery import _simulated  # noqa: E402
 
-from faciesseq.hmm.emissions import encode_beds  # noqa: E402
+from faciesseq.hmm.encoding import encode_beds  # noqa: E402
 from faciesseq.hmm.engine import viterbi  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
 
@@ -42,7 +42,7 @@ SCENARIOS = ("scenario-ramp.yaml", "scenario-hinge-table.yaml", "scenario-asymme
 
 
 def _window(successions, scheme, half_width):
-    from faciesseq.hmm.emissions import stacking_window
+    from faciesseq.hmm.encoding import stacking_window
 
     tables = [s.beds for s in successions]
     facies = list(scheme.codes)

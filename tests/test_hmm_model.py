@@ -17,7 +17,7 @@ import pandas as pd
 import pytest
 
 from faciesseq.core import Succession
-from faciesseq.hmm.emissions import UnseenCategoryWarning
+from faciesseq.hmm.encoding import UnseenCategoryWarning
 from faciesseq.hmm.model import DEFAULT_FEATURES, ConvergenceError, ConvergenceMonitor, TractHMM
 from faciesseq.hmm.selection import select_model
 from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model

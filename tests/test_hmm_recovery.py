@@ -13,14 +13,10 @@ import pytest
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, ModelFileError
-from faciesseq.hmm.emissions import (
-    MISSING,
-    RankStepEmission,
-    encode_beds,
-    rank_step_pseudo_counts,
-)
+from faciesseq.hmm.encoding import MISSING, encode_beds
 from faciesseq.hmm.model import LabelWarning, TractHMM
 from faciesseq.hmm.modelfile import load_model, model_to_dict
+from faciesseq.hmm.rank_pieces import RankStepEmission, rank_step_pseudo_counts
 from faciesseq.scheme import default_tract_model
 from faciesseq.simulate.wells import history_tract_model
 
@@ -68,7 +64,7 @@ def test_rank_jumps_are_clipped_and_their_prior_follows_the_stacking_pattern():
     assert pseudo[1, jumps > 0].min() > pseudo[1, jumps < 0].max()
     assert pseudo[2, 2] > pseudo[2, 0] and pseudo[2, 4] > pseudo[2, 6]
     piece = RankStepEmission(3, pseudo)
-    from faciesseq.hmm.emissions import EncodedBeds
+    from faciesseq.hmm.encoding import EncodedBeds
 
     x = np.array([np.nan, -5.0, -1.0, 0.0, 2.0, 7.0])
     beds = EncodedBeds(
@@ -163,7 +159,7 @@ def test_decoded_tracts_stack_as_their_names_say_on_held_out_cores(ramp):
 def test_rank_trend_is_the_regression_slope_over_five_beds():
     # delta feature (Furui 1986, IEEE Trans. ASSP 34:52-59):
     # d_t = sum_n n (r_t+n - r_t-n) / (2 sum_n n^2), n = 1, 2; ends repeat the end rank
-    from faciesseq.hmm.emissions import rank_trends
+    from faciesseq.hmm.encoding import rank_trends
 
     ranks = np.arange(7.0)
     facies = np.array([0, 1, 2, 3, 4, 5, 6, 6, 5, 4])  # two successions: 7 beds, 3 beds
@@ -183,7 +179,8 @@ def test_rank_trend_is_the_regression_slope_over_five_beds():
 def test_rank_trend_bins_and_model_file(tmp_path):
     import json
 
-    from faciesseq.hmm.emissions import EncodedBeds, RankTrendEmission
+    from faciesseq.hmm.encoding import EncodedBeds
+    from faciesseq.hmm.rank_pieces import RankTrendEmission
 
     piece = RankTrendEmission(2)
     x = np.array([-1.0, -0.3, -0.1, 0.0, 0.1, 0.3, 1.0, np.nan])

@@ -11,7 +11,7 @@ import pandas as pd
 import pytest
 
 from faciesseq.errors import ConfigError, ModelFileError
-from faciesseq.hmm.emissions import encode_beds, stacking_columns
+from faciesseq.hmm.encoding import encode_beds, stacking_columns
 from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
 from faciesseq.hmm.modelfile import load_model, model_to_dict, save_model
 

@@ -129,7 +129,7 @@ def test_a_model_file_declaring_a_billion_states_is_refused_at_once(database, tm
 def test_boosted_trees_declaring_a_billion_features_are_refused_before_allocating():
     """A stacking piece (or bare trees) whose n_features is not what the JSON can hold."""
     from faciesseq.hmm.boosting import BoostedTrees
-    from faciesseq.hmm.emissions import piece_from_dict
+    from faciesseq.hmm.pieces import piece_from_dict
 
     trees = {
         "kind": "boosted_trees",
@@ -150,7 +150,7 @@ def test_boosted_trees_declaring_a_billion_features_are_refused_before_allocatin
         "class_prior": [0.25] * 4,
         "trees": trees,
     }
-    from faciesseq.hmm.emissions import STACKING_HALF_WIDTH
+    from faciesseq.hmm.encoding import STACKING_HALF_WIDTH
 
     piece["half_width"] = STACKING_HALF_WIDTH
     with pytest.raises(ModelFileError, match="window features"):

@@ -10,7 +10,7 @@ import hmm_synthetic as synth
 import numpy as np
 import pytest
 
-from faciesseq.hmm.emissions import rank_steps_above
+from faciesseq.hmm.encoding import rank_steps_above
 from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
 from faciesseq.hmm.modelfile import load_model, save_model
 

@@ -3,7 +3,11 @@
 - :mod:`faciesseq.hmm.engine`: forward-backward, Viterbi, two-slice posteriors, clamping;
 - :mod:`faciesseq.hmm.states`: tracts expanded into left-to-right sub-state chains;
 - :mod:`faciesseq.hmm.graphs`: the trade's strict tract graphs, chosen by BIC;
-- :mod:`faciesseq.hmm.emissions`: the pluggable emission pieces;
+- :mod:`faciesseq.hmm.encoding`: beds as arrays, with the features derived from ranks;
+- :mod:`faciesseq.hmm.emissions`: the emission pieces' contract and the plain pieces;
+- :mod:`faciesseq.hmm.rank_pieces`, :mod:`faciesseq.hmm.stacking_piece`: pieces reading
+  the ranks and the stacking classifier;
+- :mod:`faciesseq.hmm.pieces`: a piece by feature name, or rebuilt from a model file;
 - :mod:`faciesseq.hmm.context`: pieces reading the stacking context of cycles;
 - :mod:`faciesseq.hmm.identity`: tract names from the one deepening tract;
 - :mod:`faciesseq.hmm.calibration`, :mod:`faciesseq.hmm.bootstrap`: checked probabilities;

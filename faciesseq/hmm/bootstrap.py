@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.hmm import engine
-from faciesseq.hmm.emissions import EncodedBeds
+from faciesseq.hmm.encoding import EncodedBeds
 
 __all__ = ["calibrate_by_simulation", "simulate_beds"]
 

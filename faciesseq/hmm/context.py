@@ -28,7 +28,8 @@ from typing import Any
 import numpy as np
 
 from faciesseq.errors import ModelFileError
-from faciesseq.hmm.emissions import MISSING, CategoricalEmission, EncodedBeds
+from faciesseq.hmm.emissions import CategoricalEmission
+from faciesseq.hmm.encoding import MISSING, EncodedBeds
 
 __all__ = ["CONTEXT_BINS", "ContextEmission", "context_pseudo_counts", "tract_levels"]
 

@@ -34,13 +34,9 @@ from faciesseq.errors import ConfigError, FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
 from faciesseq.hmm.calibration import probability_meta, temper
-from faciesseq.hmm.emissions import (
-    EmissionPiece,
-    EncodedBeds,
-    UnseenCategoryWarning,
-    encode_beds,
-    make_piece,
-)
+from faciesseq.hmm.emissions import EmissionPiece
+from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning, encode_beds
+from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.states import StateSpace
 from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.scheme import (

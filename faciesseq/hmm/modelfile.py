@@ -46,8 +46,8 @@ import numpy as np
 from faciesseq._version import __version__
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
-from faciesseq.hmm.emissions import piece_from_dict
 from faciesseq.hmm.model import RANK_FEATURES, ConvergenceMonitor, TractHMM
+from faciesseq.hmm.pieces import piece_from_dict
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import FaciesScheme, TractModel
 

@@ -231,7 +231,7 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
                     )
                 )
         elif kind == "stacking":
-            from faciesseq.hmm.emissions import stacking_columns
+            from faciesseq.hmm.encoding import stacking_columns
 
             counts = piece.trees.split_counts()
             columns = stacking_columns(piece.half_width)

@@ -1,0 +1,139 @@
+"""The stacking piece: boosted trees over a window of beds, read as an emission."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+
+from faciesseq.errors import ConfigError, ModelFileError
+from faciesseq.hmm.emissions import EmissionPiece, check_table
+from faciesseq.hmm.encoding import STACKING, STACKING_HALF_WIDTH, EncodedBeds, stacking_columns
+
+__all__ = ["StackingEmission"]
+
+
+class StackingEmission(EmissionPiece):
+    """Scaled likelihood P(tract | stacking window) / P(tract) from boosted trees.
+
+    The hybrid classifier-HMM of Bourlard & Morgan (1994): a classifier's
+    posterior divided by the class prior stands for the likelihood of the
+    observation, up to a factor common to all tracts, so Viterbi and
+    forward-backward use it as they would an emission. Why not only the
+    generative pieces: measured on simulated cores, a classifier over a window
+    of beds on each side separates the tracts far better than a product of
+    per-bed pieces (benchmarks/hmm_model.md), because a tract is a pattern of
+    several beds, not one bed. Learnt once from labelled beds (:meth:`train`);
+    EM leaves it alone (``static``). Probabilities below ``floor`` are raised
+    to it, so no tract is ever impossible from this piece alone; a tract with
+    no labelled bed gets ``log(floor)``.
+    """
+
+    kind = "stacking"
+    static = True
+
+    def __init__(
+        self,
+        n_tracts: int,
+        half_width: int = STACKING_HALF_WIDTH,
+        floor: float = 1e-3,
+        name: str = STACKING,
+    ) -> None:
+        self.name = name
+        self.n_tracts = int(n_tracts)
+        self.half_width = int(half_width)
+        self.floor = float(floor)
+        self.trees = None
+        self.class_prior_ = np.full(self.n_tracts, 1.0 / self.n_tracts)
+
+    def train(self, beds: EncodedBeds, labels: np.ndarray, random_state: int = 0) -> None:
+        """Learn the classifier from the beds with a label (``labels`` -1 = none)."""
+        from faciesseq.hmm.boosting import fit_boosted
+
+        labels = np.asarray(labels, dtype=np.int64)
+        known = labels >= 0
+        if not known.any():
+            raise ConfigError(
+                "the stacking feature is learnt from labelled beds; none are labelled "
+                "(give a label column, or leave the feature out)"
+            )
+        X = beds.numeric[STACKING][known]
+        y = labels[known]
+        self.trees = fit_boosted(X, y, self.n_tracts, random_state=int(random_state))
+        counts = np.bincount(y, minlength=self.n_tracts).astype(float)
+        prior = counts / counts.sum()
+        self.class_prior_ = np.where(counts > 0, prior, 1.0)
+
+    def log_prob(self, beds: EncodedBeds) -> np.ndarray:
+        if self.trees is None:
+            raise ConfigError("the stacking piece is not trained")
+        p = self.trees.predict_proba(np.asarray(beds.numeric[STACKING], dtype=float))
+        return np.log(np.maximum(p, self.floor)) - np.log(self.class_prior_)[None, :]
+
+    def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
+        return {}
+
+    def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
+        return None
+
+    def m_step(self, stats: dict) -> None:
+        return None
+
+    def n_parameters(self) -> int:
+        return 0 if self.trees is None else int(self.trees.n_parameters())
+
+    def to_dict(self) -> dict[str, Any]:
+        if self.trees is None:
+            raise ConfigError("the stacking piece is not trained")
+        return {
+            "kind": self.kind,
+            "name": self.name,
+            "half_width": self.half_width,
+            "floor": self.floor,
+            "class_prior": self.class_prior_.tolist(),
+            "trees": self.trees.to_dict(),
+        }
+
+    @classmethod
+    def from_dict(cls, data: Mapping, n_tracts: int, source: str | None = None):
+        from faciesseq.hmm.boosting import BoostedTrees
+
+        if int(data["half_width"]) != STACKING_HALF_WIDTH:
+            raise ModelFileError(
+                f"emission {data.get('name')!r}: half_width must be {STACKING_HALF_WIDTH}",
+                file=source,
+            )
+        floor = float(data["floor"])
+        if not 0 < floor < 1:
+            raise ModelFileError(
+                f"emission {data.get('name')!r}: floor must lie in (0, 1)", file=source
+            )
+        piece = cls(n_tracts, floor=floor, name=str(data["name"]))
+        prior = check_table(f"{piece.name}.class_prior", data["class_prior"], (n_tracts,), source)
+        if np.any(prior <= 0) or np.any(prior > 1):
+            raise ModelFileError(
+                f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
+            )
+        piece.class_prior_ = prior
+        width = len(stacking_columns())
+        declared = data["trees"].get("n_features") if isinstance(data["trees"], Mapping) else None
+        if declared != width:  # checked before the trees are packed into arrays
+            raise ModelFileError(
+                f"emission {piece.name}: {declared!r} window features, expected {width}",
+                file=source,
+            )
+        trees = BoostedTrees.from_dict(data["trees"], source)
+        if trees.n_classes != n_tracts:
+            raise ModelFileError(
+                f"emission {piece.name}: {trees.n_classes} classes for {n_tracts} tracts",
+                file=source,
+            )
+        width = len(stacking_columns())
+        if trees.n_features != width:
+            raise ModelFileError(
+                f"emission {piece.name}: {trees.n_features} window features, expected {width}",
+                file=source,
+            )
+        piece.trees = trees
+        return piece
