@@ -62,6 +62,16 @@ def test_writes_correlation_and_a_figure(database, tmp_path, capsys):
     assert "hypothesis" in capsys.readouterr().out
 
 
+def test_view_writes_one_page_with_every_tie(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    assert _run(database, out, "--view") == 0
+    html = (out / "section.html").read_text(encoding="utf-8")
+    ties = pd.read_csv(out / "ties.csv")
+    data = html.split('id="section-data">', 1)[1].split("</script>", 1)[0]
+    assert data.count('"confidence":') == len(ties) > 0
+    assert "section.html" in capsys.readouterr().out
+
+
 def test_existing_output_needs_force(database, tmp_path, capsys):
     out = tmp_path / "corr"
     out.mkdir()

@@ -25,6 +25,7 @@ examples:
   faciesseq correlate demo_cores/cores.csv --wells demo_cores/wells.csv --model model.json -o corr
   faciesseq correlate cores.csv --wells wells.xlsx --model model.json --datum depth \\
       --figure-format pdf -o corr --force
+  faciesseq correlate cores.csv --wells wells.csv --model model.json --view -o corr
 """
 
 
@@ -62,6 +63,12 @@ def register(subparsers) -> None:
         "--figure-format", choices=FIGURE_FORMATS, default="png", help="section figure format"
     )
     parser.add_argument(
+        "--view",
+        action="store_true",
+        help="also write OUT/section.html: the sections as one interactive page (hover a "
+        "correlation line for its surface, depths, probabilities and confidence)",
+    )
+    parser.add_argument(
         "--doubtful",
         type=float,
         default=0.5,
@@ -88,6 +95,23 @@ def _decode(args):
     with warnings_to_stderr("correlate"):
         interp = model.decode(cores.successions(model.unit, model.step))
     return wells, cores, interp
+
+
+def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
+    from faciesseq._output import write_file
+    from faciesseq.report.section_view import section_view_html
+
+    html = section_view_html(
+        corr,
+        tracts,
+        tuple(interp.tracts),
+        title="Correlation",
+        datum=args.datum,
+        units=cores.units,
+        position_label=wells.position_label,
+        note=interp.probabilities_note,
+    )
+    write_file(path, html)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -123,13 +147,16 @@ def run(args: argparse.Namespace) -> int:
                 position_label=wells.position_label,
                 tract_order=tuple(interp.tracts),
             )
+        if args.view:
+            _write_view(temp / "section.html", corr, tracts, interp, args, wells, scheme_cores)
     ties = corr.ties
     print(
         f"correlated {len(corr.wells)} well(s) in {corr.wells['section'].nunique()} section(s): "
         f"{corr.picks['surface_id'].nunique()} surface(s), {len(ties)} tie(s), "
         f"{int(ties['doubtful'].sum())} doubtful"
     )
-    print(f"written to {out}/ (correlation.csv, ties.csv, section figures)")
+    extra = ", section.html" if args.view else ""
+    print(f"written to {out}/ (correlation.csv, ties.csv, section figures{extra})")
     print(
         "A correlation from cores alone is a hypothesis to test against seismic, "
         "biostratigraphy and well logs."

@@ -24,7 +24,7 @@ from faciesseq.report.style import (
     tract_colour,
 )
 
-__all__ = ["CAPTION", "datum_shifts", "section_figure"]
+__all__ = ["CAPTION", "datum_shifts", "section_figure", "tract_bands"]
 
 CAPTION = (
     "A correlation from cores alone is a hypothesis to test against seismic, "
@@ -88,6 +88,27 @@ def _column_tract(tracts: pd.DataFrame, top: float, base: float) -> str | None:
     return str(
         pd.Series(t.to_numpy(), index=inside["tract"].to_numpy()).groupby(level=0).sum().idxmax()
     )
+
+
+def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tuple]:
+    """Tract shading between neighbouring wells, between successive ties.
+
+    ``(left, right, (top_left, base_left, top_right, base_right), tract)`` for
+    every band, depths unshifted; the tract is the one holding most thickness
+    in the left well's interval (else the right well's).
+    """
+    out = []
+    for left, right in itertools.pairwise(names):
+        pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
+        a, b = columns[left], columns[right]
+        levels = [(a["top"].min(), b["top"].min())]
+        levels += list(zip(pair["depth_left"], pair["depth_right"]))
+        levels += [(a["base"].max(), b["base"].max())]
+        for (ta, tb), (ba, bb) in itertools.pairwise(levels):
+            code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
+            if code is not None and ba > ta and bb > tb:
+                out.append((left, right, (ta, ba, tb, bb), code))
+    return out
 
 
 def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
@@ -154,41 +175,26 @@ def section_figure(
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
     with figure_style():
         fig = new_figure(PAGE_WIDTH, 5.2)
-        ax = fig.add_axes((0.09, 0.2, 0.78, 0.72))
+        ax = fig.add_axes((0.09, 0.2, 0.74, 0.72))
         columns = {c: tracts[tracts["core"] == c] for c in names}
-        for left, right in itertools.pairwise(names):
-            pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
-            a, b = columns[left], columns[right]
-            levels = [(a["top"].min(), b["top"].min())]
-            levels += list(zip(pair["depth_left"], pair["depth_right"]))
-            levels += [(a["base"].max(), b["base"].max())]
+        for left, right, (ta, ba, tb, bb), code in tract_bands(ties, columns, names):
             x0, x1 = pos[left] + width / 2, pos[right] - width / 2
-            for (ta, tb), (ba, bb) in itertools.pairwise(levels):
-                code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
-                if code is None or ba <= ta or bb <= tb:
-                    continue
-                ax.add_patch(
-                    Polygon(
-                        [
-                            (x0, ta - shift[left]),
-                            (x1, tb - shift[right]),
-                            (x1, bb - shift[right]),
-                            (x0, ba - shift[left]),
-                        ],
-                        closed=True,
-                        facecolor=tract_colour(code, order),
-                        alpha=0.28,
-                        linewidth=0,
-                    )
-                )
-            for t in pair.itertuples(index=False):
-                ax.plot(
-                    [x0, x1],
-                    [t.depth_left - shift[left], t.depth_right - shift[right]],
-                    color=surface_colour(t.surface),
-                    linestyle="--" if t.doubtful else "-",
-                    linewidth=0.7 if t.doubtful else 1.3,
-                )
+            corners = [
+                (x0, ta - shift[left]),
+                (x1, tb - shift[right]),
+                (x1, bb - shift[right]),
+                (x0, ba - shift[left]),
+            ]
+            colour = tract_colour(code, order)
+            ax.add_patch(Polygon(corners, closed=True, facecolor=colour, alpha=0.28, linewidth=0))
+        for t in ties.itertuples(index=False):
+            ax.plot(
+                [pos[t.core_left] + width / 2, pos[t.core_right] - width / 2],
+                [t.depth_left - shift[t.core_left], t.depth_right - shift[t.core_right]],
+                color=surface_colour(t.surface),
+                linestyle="--" if t.doubtful else "-",
+                linewidth=0.7 if t.doubtful else 1.3,
+            )
         for c in names:
             for bed in columns[c].itertuples(index=False):
                 ax.add_patch(
@@ -235,6 +241,6 @@ def section_figure(
         handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
         handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
         handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
-        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False)
+        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.08, 1.0), frameon=False)
         fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
         return save_figure(fig, path)

@@ -30,7 +30,7 @@ from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths
 from faciesseq.report.style import surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
-__all__ = ["view_data", "view_html"]
+__all__ = ["page_html", "view_data", "view_html"]
 
 _UNKNOWN_FACIES = "#c8c8c8"
 
@@ -226,15 +226,23 @@ def view_html(
     contact are disjoint events.
     """
     data = view_data(interpretation, scheme, tract_model, title)
+    return page_html(_BODY, str(data["title"]), _CSS, data, _JS)
+
+
+def page_html(body: str, title: str, css: str, data: object, script: str) -> str:
+    """A self-contained page: a head forbidding every fetch, ``css`` inline, ``body``
+    (where ``@TITLE@`` is the escaped title and ``@DATA@`` the JSON of ``data``),
+    then ``script`` inline."""
+    page = _HEAD + body
     return (
-        _PAGE.replace("@TITLE@", escape(str(data["title"])))
-        .replace("@CSS@", _CSS)
+        page.replace("@TITLE@", escape(title))
+        .replace("@CSS@", css)
         .replace("@DATA@", script_json(data))
-        .replace("@JS@", _JS)
+        .replace("@JS@", script)
     )
 
 
-_PAGE = """<!DOCTYPE html>
+_HEAD = """<!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8">
@@ -244,7 +252,9 @@ style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:">
 <title>@TITLE@</title>
 <style>@CSS@</style>
 </head>
-<body>
+"""
+
+_BODY = """<body>
 <header>
 <h1>@TITLE@</h1>
 <p id="note" class="note"></p>
