@@ -101,9 +101,10 @@ def section_run(source: str, seed: int):
     return result, result.surfaces.rename(columns={"step": "event"})
 
 
-def fit_model(source: str = "ramp", supervised: bool = True):
+def fit_model(source: str = "ramp", supervised: bool = True, step: float | None = None):
     """A tract model from the training seeds: supervised on the labelled cores, or
-    unsupervised on every core (``TractHMM(random_state=0)``, defaults otherwise)."""
+    unsupervised on every core (``TractHMM(random_state=0)``, defaults otherwise);
+    on beds, or on a depth grid of ``step`` m."""
     cores = {}
     for seed in TRAIN_SEEDS:
         result, _ = section_run(source, seed)
@@ -112,7 +113,8 @@ def fit_model(source: str = "ramp", supervised: bool = True):
             if name in result.cores.names:
                 c = result.cores[name]
                 cores[f"{name}-s{seed}"] = Core(f"{name}-s{seed}", c.intervals, c.units)
-    model = TractHMM(scheme=result.scenario.scheme, random_state=0)
+    grid = {"unit": "grid", "step": step} if step else {}
+    model = TractHMM(scheme=result.scenario.scheme, random_state=0, **grid)
     return model.fit(CoreSet(cores, "m"), labels="tract" if supervised else None)
 
 
@@ -247,6 +249,26 @@ def contact_ties(result, truth, wells, model, kind, tolerance) -> int:
     )
 
 
+def shared_misses(picks, truth, wells, kind, tolerance) -> tuple[int, int]:
+    """True cored surfaces of ``kind`` with no pick within ``tolerance``, and how many
+    of them every cored neighbour misses too (or that have no cored neighbour)."""
+    true = truth[(truth["surface"] == kind) & truth["cored"]]
+    hit = {}
+    for t in true.itertuples(index=False):
+        own = picks[(picks["core"] == t.core) & (picks["surface"] == kind)]
+        hit[(t.core, t.event)] = bool((np.abs(own["depth"] - t.depth) <= tolerance).any())
+    names = list(wells.sort_values("position")["core"])
+    missed = shared = 0
+    for (core, event), found in hit.items():
+        if found:
+            continue
+        k = names.index(core)
+        around = [hit.get((n, event)) for n in names[max(k - 1, 0) : k + 2] if n != core]
+        missed += 1
+        shared += not any(h for h in around if h is not None)
+    return missed, shared
+
+
 def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=None, source="ramp"):
     """Per-well against joint decoding, for each named model: ties and tract accuracy."""
     options = AlignmentOptions()
@@ -276,6 +298,12 @@ def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=N
                             "at_contacts": contact_ties(
                                 result, truth, wells, model, kind, tolerance
                             ),
+                            **dict(
+                                zip(
+                                    ("missed", "missed_around"),
+                                    shared_misses(picks, truth, wells, kind, tolerance),
+                                )
+                            ),
                             "picked_both": reach,
                             "recovered": rec,
                             "reported": rep,
@@ -290,7 +318,16 @@ def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=N
 def joint_summary(frame: pd.DataFrame) -> pd.DataFrame:
     keys = ["model", "decoding", "surface"]
     total = frame.groupby(keys, sort=False)[
-        ["true_ties", "at_contacts", "picked_both", "recovered", "reported", "correct"]
+        [
+            "true_ties",
+            "at_contacts",
+            "picked_both",
+            "recovered",
+            "reported",
+            "correct",
+            "missed",
+            "missed_around",
+        ]
     ].sum()
     total["ceiling"] = total["at_contacts"] / total["true_ties"]
     total["recall"] = total["recovered"] / total["true_ties"]
@@ -328,6 +365,11 @@ def main() -> None:
         help="compare per-well and joint decoding, supervised and unsupervised models",
     )
     parser.add_argument(
+        "--step",
+        type=float,
+        help="with --joint: models on a depth grid of this step (m) instead of beds",
+    )
+    parser.add_argument(
         "--section",
         choices=("ramp", "stacking"),
         default="ramp",
@@ -338,8 +380,8 @@ def main() -> None:
     pd.set_option("display.width", 160)
     if args.joint:
         models = {
-            "supervised": fit_model(args.section, supervised=True),
-            "unsupervised": fit_model(args.section, supervised=False),
+            "supervised": fit_model(args.section, True, args.step),
+            "unsupervised": fit_model(args.section, False, args.step),
         }
         frame = run_joint(args.seeds, models, tolerance=args.tolerance, source=args.section)
         print(frame.to_string(index=False))
