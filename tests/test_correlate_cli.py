@@ -107,6 +107,21 @@ def test_well_without_core_and_core_without_well_warn(database, tmp_path, capsys
     assert "core 'QB-09' has no row in the wells table" in err
 
 
+def test_section_without_the_datum_kind_is_hung_on_the_core_tops(database, tmp_path, capsys):
+    # no correlated "XYZ" surface anywhere: a warning naming the section, exit 0
+    assert _run(database, tmp_path / "corr", "--datum", "XYZ") == 0
+    err = capsys.readouterr().err
+    assert "section 'central' has no correlated XYZ surface; hung on the core tops" in err
+    assert (tmp_path / "corr" / "section-central.png").exists()
+
+
+def test_unknown_surface_id_is_a_usage_error(database, tmp_path, capsys):
+    assert _run(database, tmp_path / "corr", "--datum", "central:MFS-99") == 2
+    err = capsys.readouterr().err.strip()
+    assert "central:MFS-99" in err and len(err.splitlines()) == 1
+    assert not (tmp_path / "corr").exists()
+
+
 def test_missing_wells_file_one_line(database, tmp_path, capsys):
     out = tmp_path / "corr"
     assert _run(database, out, wells=tmp_path / "nope.csv") == 1

@@ -56,8 +56,9 @@ def register(subparsers) -> None:
     parser.add_argument(
         "--datum",
         default="MFS",
-        help="hang the section on: a surface kind (its correlated surface in most wells), a "
-        "surface id (e.g. dip:MFS-2), depth, elevation or datum_depth",
+        help="hang the section on: a surface kind (its correlated surface in most wells; the "
+        "core tops, with a warning, in a section without one), a surface id (e.g. dip:MFS-2), "
+        "depth, elevation or datum_depth",
     )
     parser.add_argument(
         "--figure-format", choices=FIGURE_FORMATS, default="png", help="section figure format"
@@ -118,7 +119,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
     from faciesseq.io.writer import safe_stem
-    from faciesseq.report.section import section_figure
+    from faciesseq.report.section import hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True)
     if not 0 <= args.doubtful <= 1:
@@ -137,12 +138,15 @@ def run(args: argparse.Namespace) -> int:
         for section in sorted(corr.wells["section"].unique()):
             stem = safe_stem(f"section-{section}", used)
             used.add(stem)
+            datum, note = hanging_datum(corr, section, args.datum)
+            if note:
+                sys.stderr.write(f"faciesseq correlate: {note}\n")
             section_figure(
                 corr,
                 section,
                 tracts,
                 temp / f"{stem}.{args.figure_format}",
-                datum=args.datum,
+                datum=datum,
                 units=scheme_cores.units,
                 position_label=wells.position_label,
                 tract_order=tuple(interp.tracts),

@@ -13,7 +13,7 @@ import re
 import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock
-from faciesseq.report.section import CAPTION, section_plot
+from faciesseq.report.section import CAPTION, hanging_datum, section_plot
 from faciesseq.report.style import figure_style
 
 __all__ = ["correlation_section"]
@@ -27,14 +27,6 @@ METHOD = (
     "misfit of fractional position and cycle thickness; ties below {doubtful} are doubtful "
     "(dashed in the figures). Ties chained along a section form one correlated surface."
 )
-
-
-def _datum(correlation, section: str, datum: str) -> str:
-    """``datum``, or ``depth`` where the section has no correlated surface of that kind or id."""
-    picks = correlation.picks[correlation.picks["section"] == section]
-    known = datum in ("depth", "elevation", "datum_depth")
-    found = (picks["surface"] == datum).any() or (picks["surface_id"] == datum).any()
-    return datum if known or found else "depth"
 
 
 def _ties_table(ties: pd.DataFrame, units: str) -> pd.DataFrame:
@@ -79,7 +71,7 @@ def correlation_section(
         slug = re.sub(r"[^a-z0-9]+", "-", str(name).lower()).strip("-")[:40]
         key = f"section{k:02d}" + (f"-{slug}" if slug else "")
         sub = s.sub(f"Section {name}")
-        hung = _datum(correlation, name, datum)
+        hung, _ = hanging_datum(correlation, name, datum)
         hanger = "the core tops" if hung == "depth" else hung
         with figure_style():
             fig = section_plot(correlation, name, tracts, hung, units, position_label, tract_order)

@@ -24,13 +24,37 @@ from faciesseq.report.style import (
     tract_colour,
 )
 
-__all__ = ["CAPTION", "datum_shifts", "section_figure", "section_plot", "tract_bands"]
+__all__ = [
+    "CAPTION",
+    "datum_shifts",
+    "hanging_datum",
+    "section_figure",
+    "section_plot",
+    "tract_bands",
+]
 
 CAPTION = (
     "A correlation from cores alone is a hypothesis to test against seismic, "
     "biostratigraphy and well logs; it informs a geologist's interpretation and does not "
     "replace it."
 )
+
+
+def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | None]:
+    """The datum to hang ``section`` on, and a warning when it is not ``datum``.
+
+    A surface kind (e.g. ``MFS``) that no correlated surface of the section
+    has falls back to the core tops (``depth``); depth, elevation,
+    datum_depth and surface ids (``section:KIND-n``) are kept as given.
+    """
+    if datum in ("depth", "elevation", "datum_depth") or ":" in datum:
+        return datum, None
+    picks = correlation.picks[correlation.picks["section"] == section]
+    if (picks["surface"] == datum).any():
+        return datum, None
+    return "depth", (
+        f"section {section!r} has no correlated {datum} surface; hung on the core tops"
+    )
 
 
 def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float], str]:

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-from faciesseq.report.section import CAPTION, datum_shifts, tract_bands
+from faciesseq.report.section import CAPTION, datum_shifts, hanging_datum, tract_bands
 from faciesseq.report.style import surface_colour, tract_colour
 from faciesseq.report.view import _number, _numbers, page_html
 
@@ -41,7 +41,7 @@ def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -
     wells = correlation.wells[correlation.wells["section"] == section]
     ties = correlation.ties[correlation.ties["section"] == section]
     picks = correlation.picks[correlation.picks["section"] == section]
-    shift, label = datum_shifts(correlation, section, datum)
+    shift, label = datum_shifts(correlation, section, hanging_datum(correlation, section, datum)[0])
     names = list(wells["core"])
     columns = {c: tracts[tracts["core"] == c].sort_values("top") for c in names}
     boxes = {c: _runs(columns[c]) for c in names}
