@@ -254,7 +254,7 @@ _JS = r"""
   function drawSection(sec, si) {
     const box = document.createElement("section");
     const h = document.createElement("h2");
-    h.textContent = "Section " + sec.name + " \u2013 hung on " + sec.datum;
+    h.textContent = "Section " + sec.name + " \u2013 " + sec.datum;
     box.appendChild(h);
     const wells = {}; sec.wells.forEach(w => { wells[w.core] = w; });
     let lo = Infinity, hi = -Infinity, xmin = Infinity, xmax = -Infinity;
@@ -262,7 +262,8 @@ _JS = r"""
       lo = Math.min(lo, w.top[0] - w.shift); hi = Math.max(hi, w.base[w.base.length - 1] - w.shift);
       xmin = Math.min(xmin, w.position); xmax = Math.max(xmax, w.position);
     });
-    const width = Math.max(640, Math.min(1800, 120 * sec.wells.length));
+    // the section fits the window (distances to scale); wider only past 1800 px
+    const width = Math.max(480, Math.min(window.innerWidth - LEFT - RIGHT - 48, 1800));
     const span = Math.max(xmax - xmin, 1e-9);
     const X = p => LEFT + COL / 2 + (p - xmin) / span * (width - COL);
     const Y = d => HEAD + (d - lo) / (hi - lo) * HEIGHT;
@@ -339,6 +340,12 @@ _JS = r"""
     });
     document.getElementById("sections").appendChild(box);
   }
-  DATA.sections.forEach(drawSection);
+  function render() {
+    hideTip();
+    document.getElementById("sections").textContent = "";
+    DATA.sections.forEach(drawSection);
+  }
+  window.addEventListener("resize", render);
+  render();
 })();
 """
