@@ -35,7 +35,7 @@ import time
 
 import numpy as np
 import pandas as pd
-from joint_correlation import joint_decode
+from joint_correlation import JointOptions, joint_decode
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.correlation import AlignmentOptions, correlate
@@ -355,14 +355,27 @@ def summary(frame: pd.DataFrame) -> pd.DataFrame:
     return total
 
 
+def _key_values(text: str) -> dict:
+    """``"a=1,b=0.5"`` -> ``{"a": 1, "b": 0.5}`` (numbers only)."""
+    pairs = (item.split("=", 1) for item in text.split(",") if item.strip())
+    return {k.strip(): (int(v) if v.strip().isdigit() else float(v)) for k, v in pairs}
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--seeds", type=int, nargs="+", default=[21, 22, 23, 24, 25])
     parser.add_argument("--tolerance", type=float, default=1.5, help="pick-to-truth match (m)")
+    parser.add_argument("--kinds", nargs="+", default=["MFS", "SB"], help="surface kinds scored")
     parser.add_argument(
         "--joint",
         action="store_true",
         help="compare per-well and joint decoding, supervised and unsupervised models",
+    )
+    parser.add_argument(
+        "--joint-options",
+        default="",
+        metavar="K=V,...",
+        help="with --joint: JointOptions of joint_correlation.py, e.g. agreement=0.7,margin=0",
     )
     parser.add_argument(
         "--step",
@@ -383,12 +396,13 @@ def main() -> None:
             "supervised": fit_model(args.section, True, args.step),
             "unsupervised": fit_model(args.section, False, args.step),
         }
-        frame = run_joint(args.seeds, models, tolerance=args.tolerance, source=args.section)
+        options = JointOptions(**_key_values(args.joint_options))
+        frame = run_joint(args.seeds, models, args.kinds, args.tolerance, options, args.section)
         print(frame.to_string(index=False))
         print()
         print(joint_summary(frame).round(3).to_string())
     else:
-        frame = run(args.seeds, tolerance=args.tolerance)
+        frame = run(args.seeds, kinds=tuple(args.kinds), tolerance=args.tolerance)
         print(frame.to_string(index=False))
         print()
         print(summary(frame).round(3).to_string())
