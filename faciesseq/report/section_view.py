@@ -19,7 +19,7 @@ import pandas as pd
 
 from faciesseq.report.section import CAPTION, datum_shifts, hanging_datum, tract_bands
 from faciesseq.report.style import surface_colour, tract_colour
-from faciesseq.report.view import _number, _numbers, page_html
+from faciesseq.report.view import SVG_HELPERS, _number, _numbers, page_html
 
 __all__ = ["section_view_data", "section_view_html"]
 
@@ -144,7 +144,7 @@ def section_view_data(
 def section_view_html(correlation, tracts, tract_order, title="Correlation", **options) -> str:
     """The sections as one HTML page (see :func:`section_view_data` for ``options``)."""
     data = section_view_data(correlation, tracts, tract_order, **options)
-    return page_html(_BODY, str(title), _CSS, data, _JS)
+    return page_html(_BODY, str(title), _CSS, data, _JS.replace("@SVG@", SVG_HELPERS))
 
 
 _BODY = """<body>
@@ -196,24 +196,8 @@ _JS = r"""
   DATA.tracts.forEach(t => { tractColour[t.code] = t.colour; });
   DATA.surfaces.forEach(s => { surfaceColour[s.code] = s.colour; });
 
-  function el(name, attrs, parent) {
-    const node = document.createElementNS(NS, name);
-    for (const k in attrs) node.setAttribute(k, attrs[k]);
-    if (parent) parent.appendChild(node);
-    return node;
-  }
-  function text(parent, x, y, str, cls, anchor) {
-    const t = el("text", {x: x, y: y, "text-anchor": anchor || "start"}, parent);
-    if (cls) t.setAttribute("class", cls);
-    t.textContent = str;
-    return t;
-  }
+@SVG@
   function fmt(x, digits) { return x === null ? "n/a" : x.toFixed(digits); }
-  function niceStep(span, target) {
-    const raw = span / target, mag = Math.pow(10, Math.floor(Math.log10(raw)));
-    for (const m of [1, 2, 2.5, 5, 10]) if (m * mag >= raw) return m * mag;
-    return 10 * mag;
-  }
 
   document.getElementById("caption").textContent = DATA.caption;
   document.getElementById("note").textContent = DATA.note;
