@@ -134,7 +134,9 @@ def _assign(picks: pd.DataFrame, truth: pd.DataFrame, tolerance: float) -> dict:
 
 
 def score(correlation, picks, truth: pd.DataFrame, wells: pd.DataFrame, kind: str, tolerance):
-    """Counts of true, picked, recovered, reported and correct ties of one surface kind."""
+    """Counts of true, picked, recovered, reported and correct ties of one surface kind:
+    ``true_ties``, ``picked_both``, ``recovered``, ``reported``, ``correct``,
+    ``reported_sure`` and ``correct_sure`` (the ties not flagged doubtful)."""
     assign = _assign(picks, truth, tolerance)
     names = list(wells.sort_values("position")["core"])
     true_ties = set()
@@ -162,7 +164,15 @@ def score(correlation, picks, truth: pd.DataFrame, wells: pd.DataFrame, kind: st
         and ((right, e) in {(c, v) for (c, _, _), v in picked})
         for left, right, e in true_ties
     )
-    return len(true_ties), reachable, recovered, reported, correct, sure, correct_sure
+    return {
+        "true_ties": len(true_ties),
+        "picked_both": reachable,
+        "recovered": recovered,
+        "reported": reported,
+        "correct": correct,
+        "reported_sure": sure,
+        "correct_sure": correct_sure,
+    }
 
 
 def correlate_result(result, picks: pd.DataFrame, options: AlignmentOptions):
@@ -191,23 +201,8 @@ def run(
         for label, picks in (("decoded", decoded), ("true tracts", ceiling)):
             corr, wells = correlate_result(result, picks, options)
             for kind in kinds:
-                n_true, reach, rec, rep, cor, sure, cor_sure = score(
-                    corr, picks, truth, wells, kind, tolerance
-                )
-                rows.append(
-                    {
-                        "seed": seed,
-                        "picks": label,
-                        "surface": kind,
-                        "true_ties": n_true,
-                        "picked_both": reach,
-                        "recovered": rec,
-                        "reported": rep,
-                        "correct": cor,
-                        "reported_sure": sure,
-                        "correct_sure": cor_sure,
-                    }
-                )
+                counts = score(corr, picks, truth, wells, kind, tolerance)
+                rows.append({"seed": seed, "picks": label, "surface": kind, **counts})
     return pd.DataFrame(rows)
 
 
@@ -284,9 +279,7 @@ def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=N
                 corr, _ = correlate_result(result, picks, options)
                 accuracy = tract_accuracy(interp, result)
                 for kind in kinds:
-                    n_true, reach, rec, rep, cor, sure, cor_sure = score(
-                        corr, picks, truth, wells, kind, tolerance
-                    )
+                    missed, around = shared_misses(picks, truth, wells, kind, tolerance)
                     rows.append(
                         {
                             "seed": seed,
@@ -294,22 +287,12 @@ def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=N
                             "decoding": mode,
                             "surface": kind,
                             "tract_accuracy": accuracy,
-                            "true_ties": n_true,
                             "at_contacts": contact_ties(
                                 result, truth, wells, model, kind, tolerance
                             ),
-                            **dict(
-                                zip(
-                                    ("missed", "missed_around"),
-                                    shared_misses(picks, truth, wells, kind, tolerance),
-                                )
-                            ),
-                            "picked_both": reach,
-                            "recovered": rec,
-                            "reported": rep,
-                            "correct": cor,
-                            "reported_sure": sure,
-                            "correct_sure": cor_sure,
+                            "missed": missed,
+                            "missed_around": around,
+                            **score(corr, picks, truth, wells, kind, tolerance),
                         }
                     )
     return pd.DataFrame(rows)
