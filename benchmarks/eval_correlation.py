@@ -1,5 +1,9 @@
 """Correlation of decoded surfaces across simulated wells, scored against same-age truth.
 
+With ``--joint``: per-well against joint decoding (``joint_correlation.py``), with a
+supervised and an unsupervised model, on the ramp or (``--section stacking``) the
+stacking generator's section mode, whose surfaces carry their shared time step.
+
 The forward model (``configs/scenario-ramp.yaml``, one dip section of 8 wells)
 knows, for every well, its true surfaces and the age of every bed. A true
 surface is given the time step of the base-level history at which the tract
@@ -31,14 +35,17 @@ import time
 
 import numpy as np
 import pandas as pd
+from joint_correlation import JointOptions, joint_decode
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.correlation import AlignmentOptions, correlate
 from faciesseq.correlation.picks import correlation_picks
 from faciesseq.hmm.model import TractHMM
-from faciesseq.simulate import load_scenario, simulate
+from faciesseq.scores import balanced_tract_accuracy
+from faciesseq.simulate import load_scenario, load_stacking_scenario, simulate, simulate_stacking
 
 SCENARIO = "configs/scenario-ramp.yaml"
+STACKING = "configs/stacking-section.yaml"
 TRAIN_SEEDS = (1, 2, 3, 4)
 
 
@@ -84,16 +91,31 @@ def true_surface_events(result) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
-def fit_model(scenario):
-    """A supervised tract model from the labelled cores of the training seeds."""
+def section_run(source: str, seed: int):
+    """``(result, truth)`` of one simulated section: the forward model's ramp, or the
+    stacking generator's section (whose surfaces carry their shared ``step``)."""
+    if source == "ramp":
+        result = simulate(load_scenario(SCENARIO), seed=seed)
+        return result, true_surface_events(result)
+    result = simulate_stacking(load_stacking_scenario(STACKING), seed=seed)
+    return result, result.surfaces.rename(columns={"step": "event"})
+
+
+def fit_model(source: str = "ramp", supervised: bool = True, step: float | None = None):
+    """A tract model from the training seeds: supervised on the labelled cores, or
+    unsupervised on every core (``TractHMM(random_state=0)``, defaults otherwise);
+    on beds, or on a depth grid of ``step`` m."""
     cores = {}
     for seed in TRAIN_SEEDS:
-        result = simulate(scenario, seed=seed)
-        for name in result.wells.loc[result.wells["labelled"], "core"]:
+        result, _ = section_run(source, seed)
+        names = result.wells.loc[result.wells["labelled"] | (not supervised), "core"]
+        for name in names:
             if name in result.cores.names:
                 c = result.cores[name]
                 cores[f"{name}-s{seed}"] = Core(f"{name}-s{seed}", c.intervals, c.units)
-    return TractHMM(scheme=scenario.scheme, random_state=0).fit(CoreSet(cores, "m"), labels="tract")
+    grid = {"unit": "grid", "step": step} if step else {}
+    model = TractHMM(scheme=result.scenario.scheme, random_state=0, **grid)
+    return model.fit(CoreSet(cores, "m"), labels="tract" if supervised else None)
 
 
 def _assign(picks: pd.DataFrame, truth: pd.DataFrame, tolerance: float) -> dict:
@@ -112,7 +134,9 @@ def _assign(picks: pd.DataFrame, truth: pd.DataFrame, tolerance: float) -> dict:
 
 
 def score(correlation, picks, truth: pd.DataFrame, wells: pd.DataFrame, kind: str, tolerance):
-    """Counts of true, picked, recovered, reported and correct ties of one surface kind."""
+    """Counts of true, picked, recovered, reported and correct ties of one surface kind:
+    ``true_ties``, ``picked_both``, ``recovered``, ``reported``, ``correct``,
+    ``reported_sure`` and ``correct_sure`` (the ties not flagged doubtful)."""
     assign = _assign(picks, truth, tolerance)
     names = list(wells.sort_values("position")["core"])
     true_ties = set()
@@ -140,7 +164,15 @@ def score(correlation, picks, truth: pd.DataFrame, wells: pd.DataFrame, kind: st
         and ((right, e) in {(c, v) for (c, _, _), v in picked})
         for left, right, e in true_ties
     )
-    return len(true_ties), reachable, recovered, reported, correct, sure, correct_sure
+    return {
+        "true_ties": len(true_ties),
+        "picked_both": reachable,
+        "recovered": recovered,
+        "reported": reported,
+        "correct": correct,
+        "reported_sure": sure,
+        "correct_sure": correct_sure,
+    }
 
 
 def correlate_result(result, picks: pd.DataFrame, options: AlignmentOptions):
@@ -154,7 +186,7 @@ def run(
 ):
     scenario = load_scenario(SCENARIO)
     options = options or AlignmentOptions()
-    model = model if model is not None else fit_model(scenario)
+    model = model if model is not None else fit_model("ramp")
     rows = []
     for seed in seeds:
         if cache is not None and (seed, threshold) in cache:
@@ -169,24 +201,122 @@ def run(
         for label, picks in (("decoded", decoded), ("true tracts", ceiling)):
             corr, wells = correlate_result(result, picks, options)
             for kind in kinds:
-                n_true, reach, rec, rep, cor, sure, cor_sure = score(
-                    corr, picks, truth, wells, kind, tolerance
-                )
-                rows.append(
-                    {
-                        "seed": seed,
-                        "picks": label,
-                        "surface": kind,
-                        "true_ties": n_true,
-                        "picked_both": reach,
-                        "recovered": rec,
-                        "reported": rep,
-                        "correct": cor,
-                        "reported_sure": sure,
-                        "correct_sure": cor_sure,
-                    }
-                )
+                counts = score(corr, picks, truth, wells, kind, tolerance)
+                rows.append({"seed": seed, "picks": label, "surface": kind, **counts})
     return pd.DataFrame(rows)
+
+
+def tract_accuracy(interp, result) -> float:
+    """Balanced accuracy (thickness-weighted) of the decoded tracts against the true ones.
+
+    Every described interval takes the decoded tract of the bed holding its
+    middle; scored by :func:`faciesseq.scores.balanced_tract_accuracy`.
+    """
+    rows = []
+    table = interp.tracts_table()
+    for core, own in result.cores.to_frame().groupby("core", sort=False):
+        beds = table[table["core"] == core].sort_values("top")
+        if not len(beds):
+            continue
+        mid = 0.5 * (own["top"].to_numpy(float) + own["base"].to_numpy(float))
+        k = np.clip(np.searchsorted(beds["top"].to_numpy(float), mid, side="right") - 1, 0, None)
+        rows.append(
+            own.assign(tract=beds["tract"].to_numpy()[k], thickness=own["base"] - own["top"])
+        )
+    return balanced_tract_accuracy(pd.concat(rows)).balanced_accuracy
+
+
+def contact_ties(result, truth, wells, model, kind, tolerance) -> int:
+    """True same-age ties whose two surfaces both lie within ``tolerance`` of a bed
+    contact of the model's successions: the most a decoder of beds can recover."""
+    contacts: dict[str, list[float]] = {}
+    for s in result.cores.successions(model.unit, model.step):
+        contacts.setdefault(s.core, []).extend(s.beds["top"].tolist()[:-1])
+    near = {}
+    for t in truth[(truth["surface"] == kind) & truth["cored"]].itertuples(index=False):
+        gap = np.abs(np.asarray(contacts.get(t.core, [np.inf])) - t.depth)
+        near[(t.core, t.event)] = bool(gap.size and gap.min() <= tolerance)
+    names = list(wells.sort_values("position")["core"])
+    return sum(
+        near.get((left, e), False) and near.get((right, e), False)
+        for left, right in itertools.pairwise(names)
+        for e in set(truth["event"])
+    )
+
+
+def shared_misses(picks, truth, wells, kind, tolerance) -> tuple[int, int]:
+    """True cored surfaces of ``kind`` with no pick within ``tolerance``, and how many
+    of them every cored neighbour misses too (or that have no cored neighbour)."""
+    true = truth[(truth["surface"] == kind) & truth["cored"]]
+    hit = {}
+    for t in true.itertuples(index=False):
+        own = picks[(picks["core"] == t.core) & (picks["surface"] == kind)]
+        hit[(t.core, t.event)] = bool((np.abs(own["depth"] - t.depth) <= tolerance).any())
+    names = list(wells.sort_values("position")["core"])
+    missed = shared = 0
+    for (core, event), found in hit.items():
+        if found:
+            continue
+        k = names.index(core)
+        around = [hit.get((n, event)) for n in names[max(k - 1, 0) : k + 2] if n != core]
+        missed += 1
+        shared += not any(h for h in around if h is not None)
+    return missed, shared
+
+
+def run_joint(seeds, models, kinds=("MFS", "SB"), tolerance=1.5, joint_options=None, source="ramp"):
+    """Per-well against joint decoding, for each named model: ties and tract accuracy."""
+    options = AlignmentOptions()
+    rows = []
+    for seed in seeds:
+        result, truth = section_run(source, seed)
+        wells = result.wells.rename(columns={"x_km": "position"})
+        for label, model in models.items():
+            plain = model.decode(result.cores)
+            joint = joint_decode(model, result.cores, wells, joint_options, options)
+            for mode, interp in (("per well", plain), ("joint", joint.interpretation)):
+                picks = correlation_picks(interp)
+                corr, _ = correlate_result(result, picks, options)
+                accuracy = tract_accuracy(interp, result)
+                for kind in kinds:
+                    missed, around = shared_misses(picks, truth, wells, kind, tolerance)
+                    rows.append(
+                        {
+                            "seed": seed,
+                            "model": label,
+                            "decoding": mode,
+                            "surface": kind,
+                            "tract_accuracy": accuracy,
+                            "at_contacts": contact_ties(
+                                result, truth, wells, model, kind, tolerance
+                            ),
+                            "missed": missed,
+                            "missed_around": around,
+                            **score(corr, picks, truth, wells, kind, tolerance),
+                        }
+                    )
+    return pd.DataFrame(rows)
+
+
+def joint_summary(frame: pd.DataFrame) -> pd.DataFrame:
+    keys = ["model", "decoding", "surface"]
+    total = frame.groupby(keys, sort=False)[
+        [
+            "true_ties",
+            "at_contacts",
+            "picked_both",
+            "recovered",
+            "reported",
+            "correct",
+            "missed",
+            "missed_around",
+        ]
+    ].sum()
+    total["ceiling"] = total["at_contacts"] / total["true_ties"]
+    total["recall"] = total["recovered"] / total["true_ties"]
+    total["precision"] = total["correct"] / total["reported"]
+    total["tract_accuracy"] = frame.groupby(keys, sort=False)["tract_accuracy"].mean()
+    return total
 
 
 def summary(frame: pd.DataFrame) -> pd.DataFrame:
@@ -208,17 +338,57 @@ def summary(frame: pd.DataFrame) -> pd.DataFrame:
     return total
 
 
+def _key_values(text: str) -> dict:
+    """``"a=1,b=0.5"`` -> ``{"a": 1, "b": 0.5}`` (numbers only)."""
+    pairs = (item.split("=", 1) for item in text.split(",") if item.strip())
+    return {k.strip(): (int(v) if v.strip().isdigit() else float(v)) for k, v in pairs}
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--seeds", type=int, nargs="+", default=[21, 22, 23, 24, 25])
     parser.add_argument("--tolerance", type=float, default=1.5, help="pick-to-truth match (m)")
+    parser.add_argument("--kinds", nargs="+", default=["MFS", "SB"], help="surface kinds scored")
+    parser.add_argument(
+        "--joint",
+        action="store_true",
+        help="compare per-well and joint decoding, supervised and unsupervised models",
+    )
+    parser.add_argument(
+        "--joint-options",
+        default="",
+        metavar="K=V,...",
+        help="with --joint: JointOptions of joint_correlation.py, e.g. agreement=0.7,margin=0",
+    )
+    parser.add_argument(
+        "--step",
+        type=float,
+        help="with --joint: models on a depth grid of this step (m) instead of beds",
+    )
+    parser.add_argument(
+        "--section",
+        choices=("ramp", "stacking"),
+        default="ramp",
+        help="with --joint: the forward model's ramp or the stacking generator's section",
+    )
     args = parser.parse_args()
     start = time.perf_counter()
-    frame = run(args.seeds, tolerance=args.tolerance)
     pd.set_option("display.width", 160)
-    print(frame.to_string(index=False))
-    print()
-    print(summary(frame).round(3).to_string())
+    if args.joint:
+        models = {
+            "supervised": fit_model(args.section, True, args.step),
+            "unsupervised": fit_model(args.section, False, args.step),
+        }
+        options = JointOptions(**_key_values(args.joint_options))
+        frame = run_joint(args.seeds, models, args.kinds, args.tolerance, options, args.section)
+        print(frame.to_string(index=False))
+        print()
+        print(joint_summary(frame).round(3).to_string())
+    else:
+        frame = run(args.seeds, kinds=tuple(args.kinds), tolerance=args.tolerance)
+        print(frame.to_string(index=False))
+        print()
+        print(summary(frame).round(3).to_string())
     print(f"\n{time.perf_counter() - start:.1f} s")
 
 

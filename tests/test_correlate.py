@@ -176,9 +176,9 @@ def test_true_surfaces_of_a_simulated_section_are_tied_to_their_own_age():
     truth = ev.true_surface_events(result)
     picks = truth[truth["cored"]].assign(probability=1.0)
     corr, wells = ev.correlate_result(result, picks, AlignmentOptions())
-    n_true, _, recovered, reported, correct, _, _ = ev.score(corr, picks, truth, wells, "MFS", 1.5)
-    assert correct == reported > 0
-    assert recovered / n_true >= 0.85
+    counts = ev.score(corr, picks, truth, wells, "MFS", 1.5)
+    assert counts["correct"] == counts["reported"] > 0
+    assert counts["recovered"] / counts["true_ties"] >= 0.85
 
 
 def test_datum_choices_shift_the_wells():

@@ -62,6 +62,16 @@ def test_writes_correlation_and_a_figure(database, tmp_path, capsys):
     assert "hypothesis" in capsys.readouterr().out
 
 
+def test_view_writes_one_page_with_every_tie(database, tmp_path, capsys):
+    out = tmp_path / "corr"
+    assert _run(database, out, "--view") == 0
+    html = (out / "section.html").read_text(encoding="utf-8")
+    ties = pd.read_csv(out / "ties.csv")
+    data = html.split('id="section-data">', 1)[1].split("</script>", 1)[0]
+    assert data.count('"confidence":') == len(ties) > 0
+    assert "section.html" in capsys.readouterr().out
+
+
 def test_existing_output_needs_force(database, tmp_path, capsys):
     out = tmp_path / "corr"
     out.mkdir()
@@ -95,6 +105,21 @@ def test_well_without_core_and_core_without_well_warn(database, tmp_path, capsys
     err = capsys.readouterr().err
     assert "row 5" in err and "'XX-1' has no core" in err
     assert "core 'QB-09' has no row in the wells table" in err
+
+
+def test_section_without_the_datum_kind_is_hung_on_the_core_tops(database, tmp_path, capsys):
+    # no correlated "XYZ" surface anywhere: a warning naming the section, exit 0
+    assert _run(database, tmp_path / "corr", "--datum", "XYZ") == 0
+    err = capsys.readouterr().err
+    assert "section 'central' has no correlated XYZ surface; hung on the core tops" in err
+    assert (tmp_path / "corr" / "section-central.png").exists()
+
+
+def test_unknown_surface_id_is_a_usage_error(database, tmp_path, capsys):
+    assert _run(database, tmp_path / "corr", "--datum", "central:MFS-99") == 2
+    err = capsys.readouterr().err.strip()
+    assert "central:MFS-99" in err and len(err.splitlines()) == 1
+    assert not (tmp_path / "corr").exists()
 
 
 def test_missing_wells_file_one_line(database, tmp_path, capsys):

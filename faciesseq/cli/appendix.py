@@ -11,6 +11,7 @@ examples:
   faciesseq appendix cores.csv --scheme my-scheme.yaml -o appendix
   faciesseq appendix cores.csv --model model.json --no-latex -o appendix --force
   faciesseq appendix cores.csv --scheme my-scheme.yaml --surrogates 999 --folds 5 -o appendix
+  faciesseq appendix cores.csv --model model.json --wells wells.csv -o appendix
 """
 
 
@@ -31,8 +32,46 @@ def register(subparsers) -> None:
     )
     add_source_arguments(parser)
     add_appendix_arguments(parser)
+    parser.add_argument(
+        "--wells",
+        metavar="WELLS",
+        help="wells table (as for `faciesseq correlate`): adds a Correlation section, one "
+        "sub-section per section name with its figure and ties (hung on the MFS)",
+    )
     add_output_arguments(parser, "DIR", "folder to write", required=True)
     parser.set_defaults(func=run)
+
+
+def _read_wells(args):
+    """The wells table of ``--wells`` (read before the long job, so a bad file fails fast)."""
+    if not getattr(args, "wells", None):
+        return None
+    from faciesseq.cli._common import require_file
+    from faciesseq.correlation.wells import read_wells
+
+    return read_wells(require_file(args.wells))
+
+
+def _add_correlation(appendix, wells, cores, interpretation) -> None:
+    """Correlate the decoded cores on the wells table; the section goes before Methods."""
+    from faciesseq.correlation import correlate
+    from faciesseq.correlation.wells import check_wells
+    from faciesseq.report.appendix import add_section
+    from faciesseq.report.correlation_section import correlation_section
+
+    wells, problems = check_wells(wells, cores.names)
+    for p in (*wells.problems, *problems):
+        sys.stderr.write(f"faciesseq appendix: {p}\n")
+    extents = {c.name: (c.top, c.base) for c in cores}
+    corr = correlate(interpretation.picks_table(), extents, wells.frame)
+    section = correlation_section(
+        corr,
+        interpretation.tracts_table(),
+        tuple(interpretation.tracts),
+        units=cores.units,
+        position_label=wells.position_label,
+    )
+    add_section(appendix, section, "correlation", corr.to_dict())
 
 
 def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
@@ -168,6 +207,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         seeds={"markov_surrogates": args.seed, "fit": args.seed, "cross_validation": args.seed},
         command_line=["faciesseq", *sys.argv[1:]],
     )
+    wells = _read_wells(args)
     progress = progress_printer(7, sys.stderr.isatty())
     result = run_appendix(
         cores,
@@ -188,6 +228,8 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         progress=progress,
         title=args.title,
     )
+    if wells is not None:
+        _add_correlation(result.appendix, wells, cores, result.interpretation)
     extra = {}
     if extra_model and model is None:
         from faciesseq.hmm.modelfile import model_to_dict

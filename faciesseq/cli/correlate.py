@@ -25,6 +25,7 @@ examples:
   faciesseq correlate demo_cores/cores.csv --wells demo_cores/wells.csv --model model.json -o corr
   faciesseq correlate cores.csv --wells wells.xlsx --model model.json --datum depth \\
       --figure-format pdf -o corr --force
+  faciesseq correlate cores.csv --wells wells.csv --model model.json --view -o corr
 """
 
 
@@ -55,11 +56,18 @@ def register(subparsers) -> None:
     parser.add_argument(
         "--datum",
         default="MFS",
-        help="hang the section on: a surface kind (its correlated surface in most wells), a "
-        "surface id (e.g. dip:MFS-2), depth, elevation or datum_depth",
+        help="hang the section on: a surface kind (its correlated surface in most wells; the "
+        "core tops, with a warning, in a section without one), a surface id (e.g. dip:MFS-2), "
+        "depth, elevation or datum_depth",
     )
     parser.add_argument(
         "--figure-format", choices=FIGURE_FORMATS, default="png", help="section figure format"
+    )
+    parser.add_argument(
+        "--view",
+        action="store_true",
+        help="also write OUT/section.html: the sections as one interactive page (hover a "
+        "correlation line for its surface, depths, probabilities and confidence)",
     )
     parser.add_argument(
         "--doubtful",
@@ -90,11 +98,28 @@ def _decode(args):
     return wells, cores, interp
 
 
+def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
+    from faciesseq._output import write_file
+    from faciesseq.report.section_view import section_view_html
+
+    html = section_view_html(
+        corr,
+        tracts,
+        tuple(interp.tracts),
+        title="Correlation",
+        datum=args.datum,
+        units=cores.units,
+        position_label=wells.position_label,
+        note=interp.probabilities_note,
+    )
+    write_file(path, html)
+
+
 def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
     from faciesseq.io.writer import safe_stem
-    from faciesseq.report.section import section_figure
+    from faciesseq.report.section import hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True)
     if not 0 <= args.doubtful <= 1:
@@ -113,23 +138,29 @@ def run(args: argparse.Namespace) -> int:
         for section in sorted(corr.wells["section"].unique()):
             stem = safe_stem(f"section-{section}", used)
             used.add(stem)
+            datum, note = hanging_datum(corr, section, args.datum)
+            if note:
+                sys.stderr.write(f"faciesseq correlate: {note}\n")
             section_figure(
                 corr,
                 section,
                 tracts,
                 temp / f"{stem}.{args.figure_format}",
-                datum=args.datum,
+                datum=datum,
                 units=scheme_cores.units,
                 position_label=wells.position_label,
                 tract_order=tuple(interp.tracts),
             )
+        if args.view:
+            _write_view(temp / "section.html", corr, tracts, interp, args, wells, scheme_cores)
     ties = corr.ties
     print(
         f"correlated {len(corr.wells)} well(s) in {corr.wells['section'].nunique()} section(s): "
         f"{corr.picks['surface_id'].nunique()} surface(s), {len(ties)} tie(s), "
         f"{int(ties['doubtful'].sum())} doubtful"
     )
-    print(f"written to {out}/ (correlation.csv, ties.csv, section figures)")
+    extra = ", section.html" if args.view else ""
+    print(f"written to {out}/ (correlation.csv, ties.csv, section figures{extra})")
     print(
         "A correlation from cores alone is a hypothesis to test against seismic, "
         "biostratigraphy and well logs."

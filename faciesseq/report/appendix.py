@@ -584,6 +584,14 @@ def build_appendix(
     return Appendix(document, results, dict(provenance or {}), missing)
 
 
+def add_section(appendix: Appendix, section: Section, key: str, results: Any) -> None:
+    """Add ``section`` to a built appendix before its Methods section (the last);
+    ``results`` (JSON-ready) under ``key`` in ``appendix.json``."""
+    appendix.document.sections.insert(len(appendix.document.sections) - 1, section)
+    appendix.document.check_keys()
+    appendix.results[key] = results
+
+
 # -------------------------------------------------------------------------- writing
 
 

@@ -24,13 +24,37 @@ from faciesseq.report.style import (
     tract_colour,
 )
 
-__all__ = ["CAPTION", "datum_shifts", "section_figure"]
+__all__ = [
+    "CAPTION",
+    "datum_shifts",
+    "hanging_datum",
+    "section_figure",
+    "section_plot",
+    "tract_bands",
+]
 
 CAPTION = (
     "A correlation from cores alone is a hypothesis to test against seismic, "
     "biostratigraphy and well logs; it informs a geologist's interpretation and does not "
     "replace it."
 )
+
+
+def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | None]:
+    """The datum to hang ``section`` on, and a warning when it is not ``datum``.
+
+    A surface kind (e.g. ``MFS``) that no correlated surface of the section
+    has falls back to the core tops (``depth``); depth, elevation,
+    datum_depth and surface ids (``section:KIND-n``) are kept as given.
+    """
+    if datum in ("depth", "elevation", "datum_depth") or ":" in datum:
+        return datum, None
+    picks = correlation.picks[correlation.picks["section"] == section]
+    if (picks["surface"] == datum).any():
+        return datum, None
+    return "depth", (
+        f"section {section!r} has no correlated {datum} surface; hung on the core tops"
+    )
 
 
 def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float], str]:
@@ -90,6 +114,27 @@ def _column_tract(tracts: pd.DataFrame, top: float, base: float) -> str | None:
     )
 
 
+def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tuple]:
+    """Tract shading between neighbouring wells, between successive ties.
+
+    ``(left, right, (top_left, base_left, top_right, base_right), tract)`` for
+    every band, depths unshifted; the tract is the one holding most thickness
+    in the left well's interval (else the right well's).
+    """
+    out = []
+    for left, right in itertools.pairwise(names):
+        pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
+        a, b = columns[left], columns[right]
+        levels = [(a["top"].min(), b["top"].min())]
+        levels += list(zip(pair["depth_left"], pair["depth_right"]))
+        levels += [(a["base"].max(), b["base"].max())]
+        for (ta, tb), (ba, bb) in itertools.pairwise(levels):
+            code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
+            if code is not None and ba > ta and bb > tb:
+                out.append((left, right, (ta, ba, tb, bb), code))
+    return out
+
+
 def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
     """Ids of the correlated surfaces right of the last well they reach, spread apart."""
     picks = correlation.picks[correlation.picks["section"] == section]
@@ -117,12 +162,24 @@ def section_figure(
     section: str,
     tracts: pd.DataFrame,
     path: str | os.PathLike,
+    **options,
+) -> Path:
+    """Draw one section (:func:`section_plot`) and save it; the suffix of ``path``
+    chooses PNG, SVG or PDF."""
+    with figure_style():
+        return save_figure(section_plot(correlation, section, tracts, **options), path)
+
+
+def section_plot(
+    correlation,
+    section: str,
+    tracts: pd.DataFrame,
     datum: str = "MFS",
     units: str = "m",
     position_label: str = "distance",
     tract_order: tuple[str, ...] = (),
-) -> Path:
-    """Draw one section and save it (the suffix of ``path`` chooses PNG, SVG or PDF).
+):
+    """One section as a matplotlib figure (call inside :func:`figure_style`).
 
     Parameters
     ----------
@@ -132,8 +189,6 @@ def section_figure(
         The section to draw.
     tracts
         Decoded tract column of every core: ``core``, ``top``, ``base``, ``tract``.
-    path
-        Output file.
     datum
         See :func:`datum_shifts`.
     units, position_label
@@ -152,89 +207,73 @@ def section_figure(
     span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
     width = span / max(len(names), 1) * 0.22
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
-    with figure_style():
-        fig = new_figure(PAGE_WIDTH, 5.2)
-        ax = fig.add_axes((0.09, 0.2, 0.78, 0.72))
-        columns = {c: tracts[tracts["core"] == c] for c in names}
-        for left, right in itertools.pairwise(names):
-            pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
-            a, b = columns[left], columns[right]
-            levels = [(a["top"].min(), b["top"].min())]
-            levels += list(zip(pair["depth_left"], pair["depth_right"]))
-            levels += [(a["base"].max(), b["base"].max())]
-            x0, x1 = pos[left] + width / 2, pos[right] - width / 2
-            for (ta, tb), (ba, bb) in itertools.pairwise(levels):
-                code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
-                if code is None or ba <= ta or bb <= tb:
-                    continue
-                ax.add_patch(
-                    Polygon(
-                        [
-                            (x0, ta - shift[left]),
-                            (x1, tb - shift[right]),
-                            (x1, bb - shift[right]),
-                            (x0, ba - shift[left]),
-                        ],
-                        closed=True,
-                        facecolor=tract_colour(code, order),
-                        alpha=0.28,
-                        linewidth=0,
-                    )
-                )
-            for t in pair.itertuples(index=False):
-                ax.plot(
-                    [x0, x1],
-                    [t.depth_left - shift[left], t.depth_right - shift[right]],
-                    color=surface_colour(t.surface),
-                    linestyle="--" if t.doubtful else "-",
-                    linewidth=0.7 if t.doubtful else 1.3,
-                )
-        for c in names:
-            for bed in columns[c].itertuples(index=False):
-                ax.add_patch(
-                    Rectangle(
-                        (pos[c] - width / 2, bed.top - shift[c]),
-                        width,
-                        bed.base - bed.top,
-                        facecolor=tract_colour(str(bed.tract), order),
-                        edgecolor="none",
-                    )
-                )
-            col = columns[c]
+    fig = new_figure(PAGE_WIDTH, 5.2)
+    ax = fig.add_axes((0.09, 0.2, 0.7, 0.72))
+    columns = {c: tracts[tracts["core"] == c] for c in names}
+    for left, right, (ta, ba, tb, bb), code in tract_bands(ties, columns, names):
+        x0, x1 = pos[left] + width / 2, pos[right] - width / 2
+        corners = [
+            (x0, ta - shift[left]),
+            (x1, tb - shift[right]),
+            (x1, bb - shift[right]),
+            (x0, ba - shift[left]),
+        ]
+        colour = tract_colour(code, order)
+        ax.add_patch(Polygon(corners, closed=True, facecolor=colour, alpha=0.28, linewidth=0))
+    for t in ties.itertuples(index=False):
+        ax.plot(
+            [pos[t.core_left] + width / 2, pos[t.core_right] - width / 2],
+            [t.depth_left - shift[t.core_left], t.depth_right - shift[t.core_right]],
+            color=surface_colour(t.surface),
+            linestyle="--" if t.doubtful else "-",
+            linewidth=0.7 if t.doubtful else 1.3,
+        )
+    for c in names:
+        for bed in columns[c].itertuples(index=False):
             ax.add_patch(
                 Rectangle(
-                    (pos[c] - width / 2, col["top"].min() - shift[c]),
+                    (pos[c] - width / 2, bed.top - shift[c]),
                     width,
-                    col["base"].max() - col["top"].min(),
-                    fill=False,
-                    edgecolor="black",
-                    linewidth=0.5,
+                    bed.base - bed.top,
+                    facecolor=tract_colour(str(bed.tract), order),
+                    edgecolor="none",
                 )
             )
-        top = min(columns[c]["top"].min() - shift[c] for c in names)
-        base = max(columns[c]["base"].max() - shift[c] for c in names)
-        pad = 0.03 * (base - top)
-        ax.set_ylim(base + pad, top - 3 * pad)
-        ax.set_xlim(min(pos.values()) - width, max(pos.values()) + width)
-        for c in names:
-            ax.text(
-                pos[c],
-                columns[c]["top"].min() - shift[c] - pad,
-                c,
-                ha="center",
-                va="bottom",
-                fontsize=7,
-                rotation=0 if len(names) <= 10 else 90,
+        col = columns[c]
+        ax.add_patch(
+            Rectangle(
+                (pos[c] - width / 2, col["top"].min() - shift[c]),
+                width,
+                col["base"].max() - col["top"].min(),
+                fill=False,
+                edgecolor="black",
+                linewidth=0.5,
             )
-        _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
-        ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
-        ax.set_xlabel(position_label)
-        ax.set_ylabel(f"{ylabel} ({units})")
-        ax.set_title(f"Section {section}: correlated surfaces, hung on {datum}")
-        kinds = list(dict.fromkeys(ties["surface"]))
-        handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
-        handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
-        handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
-        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False)
-        fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
-        return save_figure(fig, path)
+        )
+    top = min(columns[c]["top"].min() - shift[c] for c in names)
+    base = max(columns[c]["base"].max() - shift[c] for c in names)
+    pad = 0.03 * (base - top)
+    ax.set_ylim(base + pad, top - 3 * pad)
+    ax.set_xlim(min(pos.values()) - width, max(pos.values()) + width)
+    for c in names:
+        ax.text(
+            pos[c],
+            columns[c]["top"].min() - shift[c] - pad,
+            c,
+            ha="center",
+            va="bottom",
+            fontsize=7,
+            rotation=0 if len(names) <= 10 else 90,
+        )
+    _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
+    ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
+    ax.set_xlabel(position_label)
+    ax.set_ylabel(f"{ylabel} ({units})")
+    ax.set_title(f"Section {section}: correlated surfaces, hung on {datum}")
+    kinds = list(dict.fromkeys(ties["surface"]))
+    handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
+    handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
+    handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
+    ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.07, 1.0), frameon=False)
+    fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
+    return fig

@@ -30,7 +30,7 @@ from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths
 from faciesseq.report.style import surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
-__all__ = ["view_data", "view_html"]
+__all__ = ["SVG_HELPERS", "page_html", "view_data", "view_html"]
 
 _UNKNOWN_FACIES = "#c8c8c8"
 
@@ -226,15 +226,43 @@ def view_html(
     contact are disjoint events.
     """
     data = view_data(interpretation, scheme, tract_model, title)
+    return page_html(_BODY, str(data["title"]), _CSS, data, _JS.replace("@SVG@", SVG_HELPERS))
+
+
+def page_html(body: str, title: str, css: str, data: object, script: str) -> str:
+    """A self-contained page: a head forbidding every fetch, ``css`` inline, ``body``
+    (where ``@TITLE@`` is the escaped title and ``@DATA@`` the JSON of ``data``),
+    then ``script`` inline."""
+    page = _HEAD + body
     return (
-        _PAGE.replace("@TITLE@", escape(str(data["title"])))
-        .replace("@CSS@", _CSS)
+        page.replace("@TITLE@", escape(title))
+        .replace("@CSS@", css)
         .replace("@DATA@", script_json(data))
-        .replace("@JS@", _JS)
+        .replace("@JS@", script)
     )
 
 
-_PAGE = """<!DOCTYPE html>
+#: Script helpers of both pages: SVG elements and text, and round tick steps.
+SVG_HELPERS = r"""  function el(name, attrs, parent) {
+    const node = document.createElementNS(NS, name);
+    for (const k in attrs) node.setAttribute(k, attrs[k]);
+    if (parent) parent.appendChild(node);
+    return node;
+  }
+  function text(parent, x, y, str, cls, anchor) {
+    const t = el("text", {x: x, y: y, "text-anchor": anchor || "start"}, parent);
+    if (cls) t.setAttribute("class", cls);
+    t.textContent = str;
+    return t;
+  }
+  function niceStep(span, target) {
+    const raw = span / target, mag = Math.pow(10, Math.floor(Math.log10(raw)));
+    for (const m of [1, 2, 2.5, 5, 10]) if (m * mag >= raw) return m * mag;
+    return 10 * mag;
+  }
+"""
+
+_HEAD = """<!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8">
@@ -244,7 +272,9 @@ style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:">
 <title>@TITLE@</title>
 <style>@CSS@</style>
 </head>
-<body>
+"""
+
+_BODY = """<body>
 <header>
 <h1>@TITLE@</h1>
 <p id="note" class="note"></p>
@@ -350,18 +380,7 @@ _JS = r"""
   let plotH = 500;
   let dragState = null;  // {y, top, base} while the depth is dragged
 
-  function el(name, attrs, parent) {
-    const node = document.createElementNS(NS, name);
-    for (const k in attrs) node.setAttribute(k, attrs[k]);
-    if (parent) parent.appendChild(node);
-    return node;
-  }
-  function text(parent, x, y, str, cls, anchor) {
-    const t = el("text", {x: x, y: y, "text-anchor": anchor || "start"}, parent);
-    if (cls) t.setAttribute("class", cls);
-    t.textContent = str;
-    return t;
-  }
+@SVG@
   function fmt(x, digits) {
     if (x === null || x === undefined) return "n/a";
     return String(+x.toFixed(digits));
@@ -370,11 +389,6 @@ _JS = r"""
   function y(depth) { return HEAD + (depth - view.top) / (view.base - view.top) * plotH; }
   function depthAt(py) { return view.top + (py - HEAD) / plotH * (view.base - view.top); }
 
-  function niceStep(span, target) {
-    const raw = span / target, mag = Math.pow(10, Math.floor(Math.log10(raw)));
-    for (const m of [1, 2, 2.5, 5, 10]) if (m * mag >= raw) return m * mag;
-    return 10 * mag;
-  }
 
   // ---------------------------------------------------------------- note and controls
   const note = document.getElementById("note");

@@ -112,6 +112,32 @@ _PARASEQUENCE_COLUMNS = [
 
 
 @dataclass(frozen=True)
+class SectionPlan:
+    """Wells along one dip section sharing one sequence of base-level cycles.
+
+    Every well has the same sequences, the same tracts in the same order and the
+    same number of parasequences per tract (one parasequence, one time step);
+    along the section, from the landward well (position 0) to the basinward one
+    (position 1), a well changes as the trade expects (Van Wagoner et al. 1990;
+    Catuneanu et al. 2009):
+
+    - ``fsst_landward``: the FSST is absent from the wells within this fraction
+      of the section from its landward end (the falling stage leaves a
+      subaerial unconformity there, no deposit);
+    - ``tst_thinning``: TST beds thin basinward by this fraction at the
+      basinward end (transgressive deposits starved away from the shoreline);
+    - ``facies_shift``: facies ranks deepen basinward by up to this many ranks.
+
+    ``spacing_km`` is the distance between neighbouring wells.
+    """
+
+    spacing_km: float = 5.0
+    fsst_landward: float = 0.3
+    tst_thinning: float = 0.5
+    facies_shift: int = 1
+
+
+@dataclass(frozen=True)
 class StackingScenario:
     """A parasequence-stacking scenario (see :func:`load_stacking_scenario`).
 
@@ -143,6 +169,7 @@ class StackingScenario:
     rounding: float = 0.01
     seed: int = 0
     description_text: str | None = None
+    section: SectionPlan | None = None
     source: str | None = field(default=None, compare=False)
 
 
@@ -230,7 +257,27 @@ _TOP_KEYS = {
     "grain_size",
     "labelled_fraction",
     "rounding",
+    "section",
 }
+
+
+def _section(r: _Reader) -> SectionPlan | None:
+    """The ``section`` block (wells along one section), or None."""
+    if not r.has("section"):
+        return None
+    block = r.child("section", {"spacing_km", "fsst_landward", "tst_thinning", "facies_shift"})
+    shift = block.data.get("facies_shift", 1)
+    if isinstance(shift, bool) or not isinstance(shift, int) or shift < 0:
+        raise ConfigError(
+            f"{block.key('facies_shift')}: must be a whole number >= 0, got {shift!r}",
+            file=r.source,
+        )
+    return SectionPlan(
+        spacing_km=block.number("spacing_km", 5.0, positive=True),
+        fsst_landward=_probability(block, "fsst_landward", 0.3),
+        tst_thinning=_probability(block, "tst_thinning", 0.5),
+        facies_shift=shift,
+    )
 
 
 def _count_range(r: _Reader, name: str, default: tuple[int, int]) -> tuple[int, int]:
@@ -345,6 +392,7 @@ def stacking_scenario_from_dict(data: Any, source: str | None = None) -> Stackin
         rounding=top.number("rounding", 0.01, positive=True),
         seed=seed,
         description_text=top.data.get("description"),
+        section=_section(top),
         source=source,
     )
 
@@ -388,21 +436,27 @@ def _core_tracts(scenario: StackingScenario, rng: np.random.Generator) -> list[t
 
 
 def _plan_tract(
-    tract: str, count: int, deepest: int, previous_top: int, rng: np.random.Generator
+    tract: str,
+    count: int,
+    deepest: int,
+    previous_top: int,
+    rng: np.random.Generator,
+    shift: int = 0,
 ) -> list[tuple[int, int, float]]:
     """``(base rank, top rank, position 0..1)`` of each parasequence of a tract, upward.
 
     Ranks follow the tract's stacking (:data:`STACKING`) with a spread of
     :data:`RANK_SPREAD`; a top never reaches the deepest facies and each base
     lies deeper than the top below it, so every parasequence starts on a
-    flooding surface (Van Wagoner et al. 1990).
+    flooding surface (Van Wagoner et al. 1990). ``shift`` deepens both ranks (a
+    basinward well of a section).
     """
     rule = STACKING[tract]
     plans = []
     for i in range(count):
         u = i / (count - 1) if count > 1 else 0.5
-        base = round(_lerp(rule.base, u) * deepest + RANK_SPREAD * rng.standard_normal())
-        top = round(_lerp(rule.top, u) * deepest + RANK_SPREAD * rng.standard_normal())
+        base = round(_lerp(rule.base, u) * deepest + RANK_SPREAD * rng.standard_normal()) + shift
+        top = round(_lerp(rule.top, u) * deepest + RANK_SPREAD * rng.standard_normal()) + shift
         top = int(np.clip(top, 0, deepest - 1))
         base = int(np.clip(max(base, top, previous_top + 1), 0, deepest))
         plans.append((base, top, u))
@@ -466,16 +520,29 @@ def _contact(
 
 
 def _core_beds(
-    scenario: StackingScenario, rng: np.random.Generator
+    scenario: StackingScenario, rng: np.random.Generator, well: dict | None = None
 ) -> tuple[list[dict], list[dict]]:
-    """Beds of one core base to top, and its parasequences (bed index ranges, planned ranks)."""
+    """Beds of one core base to top, and its parasequences (bed index ranges, planned ranks).
+
+    ``well`` (section mode, see :func:`_well_plan`): the shared ``steps``
+    (sequence, tract, parasequence count) this well has, its TST thickness
+    ``factor`` and rank ``shift``; None draws the core's own sequences.
+    """
     deepest = len(scenario.scheme) - 1
     beds: list[dict] = []
     parasequences: list[dict] = []
     previous_top = -1
-    for sequence, tract in _core_tracts(scenario, rng):
-        low, high = scenario.parasequences[tract]
-        plans = _plan_tract(tract, int(rng.integers(low, high + 1)), deepest, previous_top, rng)
+    if well is None:
+        steps = [
+            (k, seq, tract, None) for k, (seq, tract) in enumerate(_core_tracts(scenario, rng))
+        ]
+        well = {"steps": steps, "tst_factor": 1.0, "shift": 0}
+    for step, sequence, tract, count in well["steps"]:
+        if count is None:
+            low, high = scenario.parasequences[tract]
+            count = int(rng.integers(low, high + 1))
+        plans = _plan_tract(tract, count, deepest, previous_top, rng, well["shift"])
+        factor = well["tst_factor"] if tract == "TST" else 1.0
         for position, (base, top, u) in enumerate(plans, start=1):
             first = len(beds)
             ranks = _parasequence_ranks(
@@ -488,8 +555,9 @@ def _core_beds(
                     {
                         "rank": rank,
                         "tract": tract,
+                        "step": step,
                         "contact": _contact(below, tract, rank, start, rng),
-                        "thickness": _bed_thickness_draw(scenario, tract, u, rng),
+                        "thickness": factor * _bed_thickness_draw(scenario, tract, u, rng),
                     }
                 )
             parasequences.append(
@@ -533,11 +601,24 @@ def _core_table(
     return table
 
 
-def _surfaces(table: pd.DataFrame, model: TractModel) -> list[dict]:
+def _step_of(tract: str, lower: int, upper: int, plan: list[tuple] | None) -> int:
+    """Shared time step of ``tract`` crossed between the steps ``lower`` and ``upper``."""
+    for k in range(lower + 1, upper):
+        if plan is not None and plan[k][2] == tract:
+            return k
+    return upper
+
+
+def _surfaces(
+    table: pd.DataFrame, model: TractModel, steps=None, plan: list[tuple] | None = None
+) -> list[dict]:
     """True surfaces where the true tract changes, in depth order (younger first at one depth).
 
     Missing tracts are crossed along the tract succession in time, as the
     forward model names them (:func:`faciesseq.simulate.wells.surface_path`).
+    With ``steps`` (the shared step of each row) and the section's ``plan``,
+    each surface carries the ``step`` of the tract above it: the same step in
+    two wells is the same surface in time.
     """
     history = history_tract_model(model)
     tracts = table["true_tract"].to_numpy(dtype=object)
@@ -549,16 +630,19 @@ def _surfaces(table: pd.DataFrame, model: TractModel) -> list[dict]:
         for a, b in reversed(surface_path(history, lower, upper)):
             named = model.surface(a, b)
             if named is not None:
-                rows.append(
-                    {
-                        "depth": float(table["base"].iloc[j]),
-                        "surface": named.code,
-                        "name": named.name,
-                        "lower_tract": a,
-                        "upper_tract": b,
-                        "cored": True,
-                    }
-                )
+                row = {
+                    "depth": float(table["base"].iloc[j]),
+                    "surface": named.code,
+                    "name": named.name,
+                    "lower_tract": a,
+                    "upper_tract": b,
+                    "cored": True,
+                }
+                if steps is not None:
+                    row["step"] = (
+                        steps[j] if b == upper else _step_of(b, steps[j + 1], steps[j], plan)
+                    )
+                rows.append(row)
     return rows
 
 
@@ -581,6 +665,25 @@ def _parasequence_rows(
         for p in parasequences
     ]
     return rows[::-1]
+
+
+def _section_plan(scenario: StackingScenario, rng: np.random.Generator) -> list[tuple]:
+    """The shared ``(step, sequence, tract, parasequence count)`` of a section, upward."""
+    plan = []
+    for k, (sequence, tract) in enumerate(_core_tracts(scenario, rng)):
+        low, high = scenario.parasequences[tract]
+        plan.append((k, sequence, tract, int(rng.integers(low, high + 1))))
+    return plan
+
+
+def _well_plan(section: SectionPlan, plan: list[tuple], x: float) -> dict:
+    """One well's share of the section plan at position ``x`` (0 landward, 1 basinward)."""
+    landward = x < section.fsst_landward
+    return {
+        "steps": [p for p in plan if not (landward and p[2] == "FSST")],
+        "tst_factor": 1.0 - section.tst_thinning * x,
+        "shift": round(section.facies_shift * x),
+    }
 
 
 def simulate_stacking(
@@ -615,26 +718,35 @@ def simulate_stacking(
     """
     seed = scenario.seed if seed is None else int(seed)
     model = permissive_tract_model() if tract_model is None else tract_model
-    label_seed, *core_seeds = np.random.SeedSequence(seed).spawn(scenario.cores + 1)
+    section = scenario.section
+    spawned = np.random.SeedSequence(seed).spawn(scenario.cores + 1 + (section is not None))
+    label_seed, *core_seeds = spawned[: scenario.cores + 1]
+    plan = _section_plan(scenario, np.random.default_rng(spawned[-1])) if section else None
     n_labelled = int(np.floor(scenario.labelled_fraction * scenario.cores + 0.5))
     labelled = set(np.random.default_rng(label_seed).permutation(scenario.cores)[:n_labelled])
     cores, surfaces, parasequences, wells = {}, [], [], []
     for i, child in enumerate(core_seeds):
         name = f"{scenario.core_prefix}{i + 1:02d}"
-        beds, stacks = _core_beds(scenario, np.random.default_rng(child))
+        x = i / max(scenario.cores - 1, 1)
+        well = _well_plan(section, plan, x) if section else None
+        beds, stacks = _core_beds(scenario, np.random.default_rng(child), well)
         edges = _depth_edges(beds, scenario.rounding)
         table = _core_table(beds, edges, scenario, i in labelled)
         cores[name] = Core(name, table, scenario.units)
-        surfaces += [{"core": name, **row} for row in _surfaces(table, model)]
+        steps = [b["step"] for b in beds[::-1]] if section else None
+        surfaces += [{"core": name, **row} for row in _surfaces(table, model, steps, plan)]
         parasequences += [
             {"core": name, **row} for row in _parasequence_rows(stacks, edges, scenario.scheme)
         ]
         wells.append({"core": name, "labelled": i in labelled, "thickness": float(edges[-1])})
+        if section:
+            wells[-1] |= {"section": scenario.name, "x_km": i * section.spacing_km}
+    extra = ["section", "x_km"] if section else []
     return StackingResult(
         scenario=scenario,
         seed=seed,
         cores=CoreSet(cores, scenario.units, sources=(scenario.source or scenario.name,)),
-        surfaces=pd.DataFrame(surfaces, columns=_SURFACE_COLUMNS),
+        surfaces=pd.DataFrame(surfaces, columns=_SURFACE_COLUMNS + (["step"] if section else [])),
         parasequences=pd.DataFrame(parasequences, columns=_PARASEQUENCE_COLUMNS),
-        wells=pd.DataFrame(wells, columns=["core", "labelled", "thickness"]),
+        wells=pd.DataFrame(wells, columns=["core", "labelled", "thickness", *extra]),
     )

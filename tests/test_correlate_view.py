@@ -1,0 +1,139 @@
+"""The correlation sections as an interactive page (``correlate --view``,
+``faciesseq.report.section_view``): embedded numbers, escaping, Chromium."""
+
+from __future__ import annotations
+
+import itertools
+import json
+import re
+import sys
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parent))
+from _chromium import CHROMIUM, open_page, page_errors
+
+from faciesseq.correlation import correlate
+from faciesseq.report.section_view import section_view_data, section_view_html
+
+NEEDS_CHROMIUM = pytest.mark.skipif(
+    CHROMIUM is None, reason="chromium not installed (apt-get install chromium)"
+)
+HOSTILE = "W<img src=x onerror=alert(1)>"
+TRACTS = ("HST", "FSST", "LST", "TST")
+
+
+def _section(names=("W-1", "W-2", "W-3")):
+    """Invented wells: two cycles each, thickening basinward; picks at the tract changes."""
+    beds, picks, extents = [], [], {}
+    for w, name in enumerate(names):
+        thickness = 30.0 + 6.0 * w
+        extents[name] = (0.0, thickness)
+        edges = np.linspace(0.0, thickness, 9)
+        order = ["TST", "LST", "FSST", "HST", "TST", "LST", "FSST", "HST"]  # depth order
+        for k, (top, base) in enumerate(itertools.pairwise(edges)):
+            beds.append({"core": name, "top": top, "base": base, "tract": order[k]})
+        for k in range(1, 8):
+            upper, lower = order[k - 1], order[k]
+            kind = {("HST", "TST"): "MFS", ("LST", "FSST"): "SB"}.get((upper, lower))
+            if kind:
+                picks.append(
+                    {
+                        "core": name,
+                        "surface": kind,
+                        "depth": edges[k],
+                        "probability": 0.8 + 0.05 * w,
+                    }
+                )
+    wells = pd.DataFrame({"core": list(names), "section": "dip", "position": [0.0, 7.5, 15.0]})
+    return correlate(pd.DataFrame(picks), extents, wells), pd.DataFrame(beds)
+
+
+def _embedded(html: str) -> dict:
+    found = re.search(r'<script type="application/json" id="section-data">(.*?)</script>', html)
+    return json.loads(found.group(1))
+
+
+def test_page_embeds_every_tie_with_depths_probabilities_and_confidence():
+    corr, beds = _section()
+    data = section_view_data(corr, beds, TRACTS, datum="MFS", units="m")
+    (section,) = data["sections"]
+    assert [w["core"] for w in section["wells"]] == ["W-1", "W-2", "W-3"]
+    assert len(section["ties"]) == len(corr.ties) > 0
+    for tie, row in zip(section["ties"], corr.ties.itertuples(index=False)):
+        assert tie["depth"] == pytest.approx([row.depth_left, row.depth_right])
+        assert tie["confidence"] == pytest.approx(row.confidence)
+        # the pick probabilities of the two wells, from the correlated picks
+        assert tie["p"][0] == pytest.approx(0.8 + 0.05 * ["W-1", "W-2"].index(row.core_left))
+    # touching beds of one tract are one box; every well keeps its full depth range
+    for w in section["wells"]:
+        assert w["top"][0] == 0.0 and all(a != b for a, b in itertools.pairwise(w["tract"]))
+    assert section["datum"].startswith("depth below MFS-")
+    assert "hypothesis" in data["caption"]
+
+
+def test_page_is_self_contained_and_escapes_names():
+    corr, beds = _section(names=("W-1", HOSTILE, "W-3"))
+    html = section_view_html(corr, beds, TRACTS, title="<b>Section</b>")
+    assert "Content-Security-Policy" in html and "default-src 'none'" in html
+    assert not re.search(r"(src|href)\s*=\s*[\"']?(https?:|//)", html)
+    assert "<img" not in html and "<b>Section</b>" not in html
+    assert [w["core"] for w in _embedded(html)["sections"][0]["wells"]][1] == HOSTILE
+
+
+#: Run after the page's script: hover the first tie and a bed; results into the DOM.
+_PROBE = """<script>
+(function () {
+  const out = {errors: window.__errors};
+  const tie = document.querySelector('[data-tie="0"]');
+  const r = tie.getBoundingClientRect();
+  tie.dispatchEvent(new MouseEvent("mousemove",
+    {bubbles: true, clientX: r.left + r.width / 2, clientY: r.top + r.height / 2}));
+  out.tie = document.getElementById("tooltip").innerText;
+  const bed = document.querySelector('[data-core="W-2"] [data-bed="1"]');
+  bed.dispatchEvent(new MouseEvent("mousemove", {bubbles: true, clientX: 50, clientY: 50}));
+  out.bed = document.getElementById("tooltip").innerText;
+  out.wells = document.querySelectorAll("[data-core]").length;
+  out.lines = document.querySelectorAll("[data-tie]").length;
+  const pre = document.createElement("pre");
+  pre.id = "probe"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+_HOOK = """<script>
+window.__errors = [];
+window.addEventListener("error", e => window.__errors.push(String(e.message)));
+console.error = (...a) => window.__errors.push(a.join(" "));
+</script>"""
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_section_page_opens_in_chromium_and_hover_shows_the_tie(tmp_path):
+    corr, beds = _section()
+    html = section_view_html(corr, beds, TRACTS)
+    page = tmp_path / "section.html"
+    page.write_text(
+        html.replace("<head>", "<head>" + _HOOK, 1).replace("</body>", _PROBE + "</body>", 1),
+        encoding="utf-8",
+    )
+    dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
+    assert page_errors(log) == []
+    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
+    assert found, "the probe script did not run"
+    out = json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    assert out["errors"] == []
+    assert out["wells"] == 3 and out["lines"] == len(corr.ties)
+    tie = corr.ties.iloc[0]
+    assert tie["surface_id"] in out["tie"] and tie["surface"] in out["tie"]
+    assert (
+        f"{tie['depth_left']:.2f} m" in out["tie"] and f"{tie['depth_right']:.2f} m" in out["tie"]
+    )
+    assert f"{tie['confidence']:.3f}" in out["tie"]
+    assert "p 0.800" in out["tie"]  # the pick probability in W-1
+    w2 = beds[beds["core"] == "W-2"].sort_values("top").iloc[1]
+    assert out["bed"].startswith("W-2") and w2["tract"] in out["bed"]
+    assert f"{w2['top']:.2f} m" in out["bed"]
