@@ -268,6 +268,17 @@ def test_write_file_is_atomic_and_ordinary(tmp_path, umask_022):
     assert _siblings(tmp_path) == []
 
 
+def test_figures_get_the_users_ordinary_permissions(tmp_path, umask_022):
+    """A figure written through a temporary file (mkstemp: 0o600) ends as 0o666 less the umask."""
+    from faciesseq.report.style import new_figure, save_figure
+
+    fig = new_figure(2, 2)
+    fig.add_subplot().plot([0, 1])
+    path = save_figure(fig, tmp_path / "f.png")
+    assert stat.S_IMODE(path.stat().st_mode) == 0o644
+    assert _siblings(tmp_path) == []
+
+
 def test_appendix_folder_permissions_follow_the_umask(tmp_path):
     """write_appendix used to give 0o755 whatever the umask."""
     from faciesseq._output import new_folder

@@ -20,6 +20,8 @@ from pathlib import Path
 import matplotlib as mpl
 from matplotlib.figure import Figure
 
+from faciesseq._output import current_umask
+
 __all__ = [
     "PAGE_WIDTH",
     "SURFACE_COLOURS",
@@ -121,6 +123,7 @@ def save_figure(fig: Figure, path: str | os.PathLike, **kwargs) -> Path:
         with mpl.rc_context(STYLE):
             fig.savefig(tmp, format=fmt, **({"bbox_inches": "tight"} | kwargs))
         os.replace(tmp, path)
+        os.chmod(path, 0o666 & ~current_umask())  # mkstemp makes 0o600
     except BaseException:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
