@@ -57,7 +57,9 @@ def test_tract_column_uses_the_project_palette(model, scheme):
     core = synthetic_core(model)
     fig = strip_log(core, scheme, model)
     tract_axis = fig.axes[1]
-    colours = {tuple(np.round(p.get_facecolor()[:3], 3)) for p in tract_axis.patches}
+    colours = {
+        tuple(np.round(c[:3], 3)) for coll in tract_axis.collections for c in coll.get_facecolor()
+    }
     from matplotlib.colors import to_rgb
 
     expected = {tuple(np.round(to_rgb(TRACT_COLOURS[t]), 3)) for t in set(core.beds["tract"])}

@@ -329,8 +329,17 @@ def strip_log(
         ax_f.set_ylim(base + 0.005 * span, top - 0.005 * span)  # inverted: depth downward
 
         # 2. decoded tract column
-        for r_top, r_base, code in _runs(beds, "tract"):
-            ax_t.axhspan(r_base, r_top, xmin=0, xmax=1, color=tract_colour(code, tracts), lw=0)
+        runs = _runs(beds, "tract")
+        _add_boxes(
+            ax_t,
+            [r[0] for r in runs],
+            [r[1] for r in runs],
+            0.0,
+            1.0,
+            [tract_colour(r[2], tracts) for r in runs],
+            linewidths=0,
+        )
+        for r_top, r_base, code in runs:
             if (r_base - r_top) > 0.025 * span:
                 ax_t.text(
                     0.5,
@@ -370,6 +379,7 @@ def strip_log(
         ordered = picks.sort_values("depth", kind="stable") if len(picks) else picks
         span = abs(ax_s.get_ylim()[0] - ax_s.get_ylim()[1]) or 1.0
         label_at = label_depths(ordered["depth"].to_numpy(float), 0.02 * span) if len(picks) else []
+        pick_lines: list[tuple[float, str]] = []
         for pick, at in zip(ordered.itertuples(index=False), label_at):
             colour = surface_colour(str(pick.surface), surfaces)
             depth, prob = float(pick.depth), float(pick.probability)
@@ -390,8 +400,17 @@ def strip_log(
                 parse_math=False,
                 bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
             )
-            for ax in (ax_f, ax_t):
-                ax.axhline(depth, color=colour, lw=0.7, ls="--")
+            pick_lines.append((depth, colour))
+        for ax in (ax_f, ax_t):  # one collection of dashed lines across each column
+            ax.hlines(
+                [d for d, _ in pick_lines],
+                0,
+                1,
+                transform=ax.get_yaxis_transform(),
+                colors=[c for _, c in pick_lines],
+                linewidths=0.7,
+                linestyles="--",
+            )
         ax_s.set_xlim(0, 1.0)
         ax_s.set_xticks([0, 0.5, 1])
         ax_s.set_title("surface probability")
