@@ -27,9 +27,13 @@ Memory: in a fresh subprocess per batch size, run one forward-backward on
 numpy allocations during the call (``tracemalloc``) beyond the input and the
 required outputs, and the process's maximum resident set size.
 
+With ``--one faciesseq|hmmlearn|none`` the script only makes the data and
+runs one EM iteration of that candidate (or none) in this fresh process, for
+timing whole processes from outside (``/usr/bin/time``): the coldest first call.
+
 Run from the repository root::
 
-    /work/venv/bin/python benchmarks/bench_em.py
+    PYTHONPATH=. python benchmarks/bench_em.py
 """
 
 from __future__ import annotations
@@ -252,7 +256,17 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("--skip-memory", action="store_true")
     parser.add_argument("--skip-em", action="store_true")
     parser.add_argument("--memory-child", type=int, default=None, help=argparse.SUPPRESS)
+    parser.add_argument("--one", choices=("faciesseq", "hmmlearn", "none"))
     args = parser.parse_args(argv)
+
+    if args.one is not None:
+        import hmmlearn.hmm  # every choice imports both libraries
+
+        data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
+        step = {"faciesseq": em_step_table, "hmmlearn": em_step_hmmlearn}.get(args.one)
+        if step is not None:
+            step(*data)
+        return
 
     if args.memory_child is not None:
         print(json.dumps(memory_child(args.memory_obs, args.memory_states, args.memory_child)))
