@@ -209,3 +209,13 @@ def test_demo_latex_tables_fit_the_page(tmp_path, capsys):
     assert r"\begin{tabular}" in tex
     assert table_overfulls(tex, log) == []
     assert page_count(log) > 20
+
+
+def test_demo_writes_latex_only_when_asked_and_appendix_by_default():
+    from faciesseq.cli import build_parser
+
+    parser = build_parser()
+    assert parser.parse_args(["demo"]).no_latex is True
+    assert parser.parse_args(["demo", "--latex"]).no_latex is False
+    assert parser.parse_args(["demo", "--no-latex"]).no_latex is True
+    assert parser.parse_args(["appendix", "cores.csv", "-o", "a"]).no_latex is False

@@ -462,3 +462,75 @@ def test_clamped_posteriors_match_brute_force(seed):
     rows = np.flatnonzero(clamp >= 0)
     np.testing.assert_array_equal(post.gamma[rows, clamp[rows]], 1.0)
     np.testing.assert_array_equal(path[rows], clamp[rows])
+
+
+# --------------------------------------------------------------------------
+# emissions as a table indexed by codes (categorical emissions)
+
+
+@pytest.mark.parametrize("batch_size", [None, 1, 37])
+def test_code_table_matches_hmmlearn_em_statistics(case, batch_size):
+    # hmmlearn 0.3.3 CategoricalHMM E-step (implementation "scaling"): the
+    # sufficient statistics "obs" are the posteriors summed per symbol.
+    startprob, transmat, emission, lengths, symbols, _ = case
+    model = _hmmlearn(startprob, transmat, emission, "scaling")
+    model.params = "ste"
+    X = symbols[:, None]
+    stats, logprob = model._do_estep(X, lengths)
+    _, gamma_ref = model.score_samples(X, lengths)
+
+    post = forward_backward(
+        np.log(emission).T, lengths, startprob, transmat, codes=symbols, batch_size=batch_size
+    )
+    assert abs(post.total_log_likelihood - logprob) < 1e-8
+    np.testing.assert_allclose(post.gamma, gamma_ref, rtol=0, atol=1e-8)
+    np.testing.assert_allclose(post.code_gamma.T, stats["obs"], rtol=0, atol=1e-8)
+    np.testing.assert_allclose(post.xi_sum, stats["trans"], rtol=0, atol=1e-8)
+    np.testing.assert_allclose(post.start, stats["start"], rtol=0, atol=1e-8)
+
+
+def test_code_table_viterbi_matches_hmmlearn(case):
+    startprob, transmat, emission, lengths, symbols, _ = case
+    model = _hmmlearn(startprob, transmat, emission, "scaling")
+    total_ref, path_ref = model.decode(symbols[:, None], lengths, algorithm="viterbi")
+    for batch in (None, 1, 50):
+        path, log_prob = viterbi(
+            np.log(emission).T, lengths, startprob, transmat, codes=symbols, batch_size=batch
+        )
+        np.testing.assert_array_equal(path, path_ref)
+        assert abs(log_prob.sum() - total_ref) < 1e-8
+
+
+def test_code_table_equals_the_full_array_across_calls(case):
+    # The same numbers from the table form and the (T, K) array, bit for bit,
+    # on repeated calls (work buffers and the exponentiated table are rebuilt
+    # for every call) and with rows far outside float64 range (shifted rows).
+    startprob, transmat, emission, lengths, symbols, _ = case
+    table = np.log(emission).T.copy()
+    table[2] -= 2000.0
+    full = table[symbols]
+    ref = forward_backward(full, lengths, startprob, transmat, return_xi=True)
+    for _ in range(2):
+        post = forward_backward(table, lengths, startprob, transmat, codes=symbols, return_xi=True)
+        np.testing.assert_array_equal(post.log_likelihood, ref.log_likelihood)
+        np.testing.assert_array_equal(post.gamma, ref.gamma)
+        np.testing.assert_array_equal(post.xi, ref.xi)
+    lean = forward_backward(table, lengths, startprob, transmat, codes=symbols, return_gamma=False)
+    assert lean.gamma is None
+    np.testing.assert_array_equal(lean.log_likelihood, ref.log_likelihood)
+    sums = np.stack([np.bincount(symbols, weights=g, minlength=len(table)) for g in ref.gamma.T])
+    np.testing.assert_allclose(lean.code_gamma, sums.T, rtol=1e-12)
+    assert "n_rows" not in lean.to_dict()
+    with pytest.raises(InputError, match="without gamma"):
+        lean.to_frame(lengths)
+
+
+def test_bad_codes_are_reported():
+    pi, A = np.array([0.5, 0.5]), np.array([[0.5, 0.5], [0.5, 0.5]])
+    table = np.log([[0.5, 0.5], [0.9, 0.1]])
+    with pytest.raises(InputError, match=r"codes row 2 is 2; expected 0\.\.1"):
+        forward_backward(table, [3], pi, A, codes=[0, 1, 2])
+    with pytest.raises(InputError, match="integer"):
+        viterbi(table, [2], pi, A, codes=[0.0, 1.0])
+    with pytest.raises(InputError, match="lengths sum to 3"):
+        forward_backward(table, [3], pi, A, codes=[0, 1])

@@ -57,7 +57,9 @@ def test_tract_column_uses_the_project_palette(model, scheme):
     core = synthetic_core(model)
     fig = strip_log(core, scheme, model)
     tract_axis = fig.axes[1]
-    colours = {tuple(np.round(p.get_facecolor()[:3], 3)) for p in tract_axis.patches}
+    colours = {
+        tuple(np.round(c[:3], 3)) for coll in tract_axis.collections for c in coll.get_facecolor()
+    }
     from matplotlib.colors import to_rgb
 
     expected = {tuple(np.round(to_rgb(TRACT_COLOURS[t]), 3)) for t in set(core.beds["tract"])}
@@ -78,14 +80,25 @@ def test_widths_follow_grain_size_when_known_else_rank(model, scheme):
     assert widths[1] == pytest.approx(0.3)  # SHM is the most basinward rank
 
 
+def _boxes(ax):
+    """``(top, base, left, right)`` of every box drawn as a polygon collection."""
+    out = []
+    for collection in ax.collections:
+        if type(collection).__name__ != "PolyCollection":
+            continue
+        for path in collection.get_paths():
+            x, y = path.vertices[:, 0], path.vertices[:, 1]
+            out.append((y.min(), y.max(), x.min(), x.max()))
+    return out
+
+
 def test_posterior_bands_stack_to_one(model, scheme):
     core = synthetic_core(model)
     fig = strip_log(core, scheme, model)
-    bands = fig.axes[2].patches
     right = {}
-    for bar in bands:
-        key = round(bar.get_y(), 6)
-        right[key] = max(right.get(key, 0.0), bar.get_x() + bar.get_width())
+    for top, _, _, x_right in _boxes(fig.axes[2]):
+        key = round(top, 6)
+        right[key] = max(right.get(key, 0.0), x_right)
     assert len(right) == len(core.beds)
     assert np.allclose(list(right.values()), 1.0)
 
@@ -136,9 +149,9 @@ def test_touching_cells_of_one_facies_are_drawn_as_one_box(model, scheme):
         core.log_likelihood,
     )
     fig = strip_log(grid, scheme, model)
-    boxes = [p for p in fig.axes[0].patches if p.get_width() > 0]
+    boxes = [b for b in _boxes(fig.axes[0]) if b[3] > b[2]]
     assert len(boxes) == 3
-    assert sum(b.get_height() for b in boxes) == pytest.approx(beds["thickness"].sum())
+    assert sum(base - top for top, base, _, _ in boxes) == pytest.approx(beds["thickness"].sum())
 
 
 def test_legends_give_whole_facies_and_surface_names(model, scheme):
@@ -162,3 +175,32 @@ def test_pick_labels_never_overprint():
     out = label_depths(np.array([7.5, 7.6, 7.62, 20.0]), 0.5)
     np.testing.assert_allclose(out, [7.5, 8.0, 8.5, 20.0])
     assert (np.diff(out) >= 0.5 - 1e-12).all()
+
+
+@pytest.mark.parametrize("offset", [0.0, 4000.0])
+def test_fixed_layout_keeps_every_label_on_the_page_and_apart(model, scheme, offset):
+    # The strip log is laid out in inches without a layout engine: titles, axis
+    # labels and tick labels (four-digit depths too) must stay inside the figure,
+    # and the figure title, panel titles and legends must not overlap.
+    core = synthetic_core(model)
+    beds = core.beds.assign(top=core.beds["top"] + offset, base=core.beds["base"] + offset)
+    core = type(core)(core.core, "ft", core.tracts, core.surfaces, beds, core.boundaries, None, 0.0)
+    fig = strip_log(core, scheme, model, checked=False)
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    page = fig.bbox
+    panels = fig.axes[:4]
+    fig.draw_without_rendering()
+    # everything drawn for a panel: ticks, tick labels, axis labels, title
+    for ax in panels:
+        box = ax.get_tightbbox(renderer)
+        assert page.x0 <= box.x0 and box.x1 <= page.x1, ax.get_title()
+        assert page.y0 <= box.y0 and box.y1 <= page.y1, ax.get_title()
+    assert fig._suptitle.get_window_extent(renderer).y1 <= page.y1
+    title = fig._suptitle.get_window_extent(renderer)
+    legends = [leg.get_window_extent(renderer) for leg in _legends(fig)]
+    for ax in panels:
+        assert not title.overlaps(ax.title.get_window_extent(renderer))
+        label = ax.xaxis.label.get_window_extent(renderer)
+        assert not any(label.overlaps(leg) for leg in legends), ax.xaxis.label.get_text()

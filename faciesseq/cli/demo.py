@@ -8,7 +8,7 @@ import sys
 EXAMPLES = """\
 examples:
   faciesseq demo
-  faciesseq demo -o my-demo --no-latex
+  faciesseq demo -o my-demo --latex
   faciesseq demo --force --surrogates 999
 """
 
@@ -31,7 +31,16 @@ def register(subparsers) -> None:
     )
     add_output_arguments(parser, "DIR", "folder to write", default="faciesseq-demo", old_out=True)
     add_appendix_arguments(parser)
-    parser.set_defaults(func=run, model=None)
+    # The demo is read in a browser: the LaTeX version and its PDF figures
+    # (embedding TrueType fonts, about as much CPU as the rest of the demo)
+    # are written only on request.
+    parser.add_argument(
+        "--latex",
+        dest="no_latex",
+        action="store_false",
+        help="also write appendix.tex and the PDF figures (skipped by default in the demo)",
+    )
+    parser.set_defaults(func=run, model=None, no_latex=True)
 
 
 def run(args: argparse.Namespace) -> int:

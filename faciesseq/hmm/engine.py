@@ -16,9 +16,20 @@ surface probabilities need. hmmlearn is the reference the tests compare
 against (same log-likelihoods, posteriors, expected transition counts and
 Viterbi paths), and ``benchmarks/bench_em.py`` measures the speed of both
 (``benchmarks/hmm_engine.md``): one EM iteration on 1,000,000 observations
-with 16 states took 0.39-0.41 of hmmlearn's CPU time (iterations after the
-first, on a loaded 2-core machine); Viterbi, whose maxima numpy cannot hand
-to BLAS, took about 2.2 times the CPU time of hmmlearn's compiled loop.
+with 16 states and 10 symbols, the emissions given as a table and the symbols
+as ``codes``, took 0.30 of hmmlearn's CPU time on repeated iterations and 0.37
+on the first call after hmmlearn ran (2026-12-02, loaded 2-core machine); from
+the full log-emission array, 0.40 and 0.89 (the first call pays for fresh
+memory pages of the 128 MB array and of ``gamma``). Viterbi, whose maxima
+numpy cannot hand to BLAS, took about 2.1 times the CPU time of hmmlearn's
+compiled loop.
+
+Emissions: either the ``(T, K)`` log-emission array, or for a categorical
+emission a ``(n_codes, K)`` table and the code of every row (``codes``): the
+table form exponentiates each code's row once and never builds the array, and
+:func:`forward_backward` can then return the posteriors summed per code (the
+M-step's expected emission counts) instead of ``gamma``, so an EM iteration
+allocates only the batch work arrays.
 
 Batching: sequences are sorted by length (longest first) and grouped into
 batches of at most ``batch_size`` rows. Inside a batch the rows are stored
@@ -80,13 +91,20 @@ class Posteriors:
     start
         ``(K,)`` sum over sequences of ``gamma`` at each sequence's first row:
         the expected initial-state counts of the EM M-step.
+    code_gamma
+        ``(n_codes, K)`` sum of ``gamma`` over the rows of each code when the
+        emissions were given as a table and ``codes``: the expected emission
+        counts of a categorical M-step; else ``None``.
+
+    ``gamma`` is ``None`` when it was not asked for (``return_gamma=False``).
     """
 
     log_likelihood: np.ndarray
-    gamma: np.ndarray
+    gamma: np.ndarray | None
     xi_sum: np.ndarray
     xi: np.ndarray | None
     start: np.ndarray
+    code_gamma: np.ndarray | None = None
 
     @property
     def total_log_likelihood(self) -> float:
@@ -101,6 +119,8 @@ class Posteriors:
         """
         import pandas as pd
 
+        if self.gamma is None:
+            raise InputError("these posteriors were computed without gamma (return_gamma=False)")
         lengths = _check_lengths(lengths, self.gamma.shape[0])
         table = pd.DataFrame(self.gamma, columns=[f"p_{k}" for k in range(self.gamma.shape[1])])
         table.insert(0, "sequence", np.repeat(np.arange(lengths.size), lengths))
@@ -116,8 +136,8 @@ class Posteriors:
             "total_log_likelihood": self.total_log_likelihood,
             "start": self.start.tolist(),
             "xi_sum": self.xi_sum.tolist(),
-            "n_rows": int(self.gamma.shape[0]),
-            "n_states": int(self.gamma.shape[1]),
+            **({} if self.gamma is None else {"n_rows": int(self.gamma.shape[0])}),
+            "n_states": int(self.xi_sum.shape[0]),
         }
 
 
@@ -141,6 +161,22 @@ def _check_log_emission(log_emission: np.ndarray) -> np.ndarray:
             "expected a log-probability (finite or -inf)"
         )
     return le
+
+
+def _check_codes(codes: np.ndarray | Sequence[int], n_codes: int) -> np.ndarray:
+    arr = np.asarray(codes)
+    if arr.ndim != 1 or not np.issubdtype(arr.dtype, np.integer):
+        raise InputError(
+            f"codes must be a 1-D integer array, got shape {arr.shape}, dtype {arr.dtype}"
+        )
+    bad = np.flatnonzero((arr < 0) | (arr >= n_codes))
+    if bad.size:
+        r = int(bad[0])
+        raise InputError(
+            f"codes row {r} is {int(arr[r])}; expected 0..{n_codes - 1} "
+            "(a row of the log-emission table)"
+        )
+    return arr.astype(np.intp, copy=False)
 
 
 def _check_lengths(lengths: np.ndarray | Sequence[int] | None, n_rows: int) -> np.ndarray:
@@ -275,14 +311,69 @@ def _buffer_rows(lengths: np.ndarray, rows_per_batch: int) -> int:
     return int(min(lengths.sum(), max(rows_per_batch, lengths.max())))
 
 
+def _as_items(array: np.ndarray) -> np.ndarray:
+    """1-D view of a C-contiguous 2-D array with each row as one opaque item."""
+    return array.view(np.dtype((np.void, array.shape[1] * array.itemsize))).ravel()
+
+
 def _put_rows(out: np.ndarray, rows: np.ndarray, values: np.ndarray) -> None:
     """``out[rows] = values`` for C-contiguous 2-D arrays, row by row as one item.
 
     Scattering whole rows as opaque items is about three times faster than
     numpy's fancy-index assignment on 16-column float64 arrays (measured).
     """
-    item = np.dtype((np.void, out.shape[1] * out.itemsize))
-    np.put(out.view(item).ravel(), rows, np.ascontiguousarray(values).view(item).ravel())
+    np.put(_as_items(out), rows, _as_items(np.ascontiguousarray(values)))
+
+
+def _take_rows(source: np.ndarray, rows: np.ndarray, out: np.ndarray) -> None:
+    """``out[:] = source[rows]`` for C-contiguous 2-D arrays, rows as opaque items
+    (``rows`` already checked: no bounds check, no buffering)."""
+    np.take(_as_items(source), rows, out=_as_items(out), mode="wrap")
+
+
+class _Emissions:
+    """Where the log-emissions of a batch's rows come from.
+
+    Either a ``(T, K)`` array, one row per observation, or, with ``codes``, a
+    ``(n_codes, K)`` table and the code of every observation (a categorical
+    emission: row ``t`` is ``table[codes[t]]``). The table form never builds
+    the ``(T, K)`` array and exponentiates each code's row once.
+    """
+
+    def __init__(self, log_emission: np.ndarray, codes: np.ndarray | None) -> None:
+        self.table = np.ascontiguousarray(_check_log_emission(log_emission))
+        self.codes = None if codes is None else _check_codes(codes, self.table.shape[0])
+        self.n_rows = self.table.shape[0] if self.codes is None else self.codes.size
+        self.n_states = self.table.shape[1]
+        self._exp = None
+
+    def log_rows(self, rows: np.ndarray, out: np.ndarray) -> None:
+        """``out = log p(obs | state)`` of the given input rows."""
+        _take_rows(self.table, rows if self.codes is None else self.codes[rows], out)
+
+    def exp_rows(self, rows: np.ndarray, out: np.ndarray, shift: np.ndarray, work) -> None:
+        """``out = exp(log-emission - shift)`` of the given rows, ``shift`` per row
+        as in :func:`_exp_rows`."""
+        if self.codes is None:
+            _take_rows(self.table, rows, out)
+            _exp_rows(self.table, rows, out, shift, work)
+            return
+        if self._exp is None:
+            n = self.table.shape[0]
+            table_exp, table_shift = self.table.copy(), np.empty(n)
+            _exp_rows(self.table, np.arange(n), table_exp, table_shift, np.empty(n))
+            self._exp = (table_exp, table_shift)
+        codes = self.codes[rows]
+        _take_rows(self._exp[0], codes, out)
+        np.take(self._exp[1], codes, out=shift)
+
+    def code_sums(self, rows: np.ndarray, gamma: np.ndarray, acc: np.ndarray) -> None:
+        """``acc[c] += sum of gamma over the rows with code c`` (table form only)."""
+        k = gamma.shape[1]
+        cells = (self.codes[rows] * k)[:, None] + np.arange(k)
+        acc += np.bincount(cells.ravel(), weights=gamma.ravel(), minlength=acc.size).reshape(
+            acc.shape
+        )
 
 
 def _resolve_batch_size(batch_size: int | None, n_states: int) -> int:
@@ -378,6 +469,8 @@ def forward_backward(
     *,
     return_xi: bool = False,
     batch_size: int | None = None,
+    codes: np.ndarray | Sequence[int] | None = None,
+    return_gamma: bool = True,
 ) -> Posteriors:
     """State and two-slice posteriors and log-likelihoods of many sequences.
 
@@ -414,6 +507,16 @@ def forward_backward(
         float64 arrays besides the inputs and outputs; a sequence longer than
         ``batch_size`` is a batch of its own). Default
         ``DEFAULT_BATCH_CELLS // K``.
+    codes
+        ``(T_total,)`` integer code of every observation, for a categorical
+        emission: ``log_emission`` is then a ``(n_codes, K)`` table and row
+        ``t`` of the log-emission array is ``log_emission[codes[t]]`` (the
+        array is never built), and :attr:`Posteriors.code_gamma` holds the
+        posteriors summed per code.
+    return_gamma
+        Keep the ``(T_total, K)`` state posteriors (``False``: ``gamma`` is
+        ``None``, sparing its memory when only the summed statistics are
+        needed, as in an EM iteration with ``codes``).
 
     Returns
     -------
@@ -453,12 +556,14 @@ def forward_backward(
     ((3, 2), 3.0)
     """
     with _single_thread_blas():
-        return _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size)
+        source = _Emissions(log_emission, codes)
+        return _forward_backward(
+            source, lengths, startprob, transmat, return_xi, batch_size, return_gamma
+        )
 
 
-def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, batch_size):
-    le = _check_log_emission(log_emission)
-    T, K = le.shape
+def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_size, return_gamma):
+    T, K = source.n_rows, source.n_states
     lens = _check_lengths(lengths, T)
     pi, A = _check_params(startprob, transmat, K)
     rows_per_batch = _resolve_batch_size(batch_size, K)
@@ -468,7 +573,8 @@ def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, bat
 
     n_seq = lens.size
     loglik = np.empty(n_seq)
-    gamma_out = np.empty((T, K))
+    gamma_out = np.empty((T, K)) if return_gamma else None
+    code_gamma = None if source.codes is None else np.zeros(source.table.shape)
     xi_sum = np.zeros((K, K))
     xi_acc = np.zeros((K, K))  # sum of alpha[t]^T (E beta / c)[t+1]; times A at the end
     xi_step = np.empty((K, K))
@@ -489,8 +595,7 @@ def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, bat
         n_steps = len(counts)
         E, alpha, beta = E_buf[:N], alpha_buf[:N], beta_buf[:N]
         scale, row_max = scale_buf[:N], shift_buf[:N]
-        np.take(le, batch.rows, axis=0, out=E)
-        _exp_rows(le, batch.rows, E, row_max, norm_buf[:N])
+        source.exp_rows(batch.rows, E, row_max, norm_buf[:N])
 
         with np.errstate(divide="ignore", invalid="ignore"):
             n0 = counts[0]
@@ -540,13 +645,23 @@ def _forward_backward(log_emission, lengths, startprob, transmat, return_xi, bat
         norm = dot(gamma, ones, out=norm_buf[:N])
         div(gamma, norm[:, None], out=gamma)
         start += gamma[: counts[0]].sum(axis=0)
-        _put_rows(gamma_out, batch.rows, gamma)
+        if gamma_out is not None:
+            _put_rows(gamma_out, batch.rows, gamma)
+        if code_gamma is not None:
+            source.code_sums(batch.rows, gamma, code_gamma)
         np.log(scale, out=scale)
         scale += row_max
         loglik[batch.seq] = np.bincount(batch.position, weights=scale, minlength=batch.seq.size)
 
     xi_sum += A * xi_acc
-    return Posteriors(log_likelihood=loglik, gamma=gamma_out, xi_sum=xi_sum, xi=xi_out, start=start)
+    return Posteriors(
+        log_likelihood=loglik,
+        gamma=gamma_out,
+        xi_sum=xi_sum,
+        xi=xi_out,
+        start=start,
+        code_gamma=code_gamma,
+    )
 
 
 # --------------------------------------------------------------------------
@@ -560,12 +675,13 @@ def viterbi(
     transmat: np.ndarray,
     *,
     batch_size: int | None = None,
+    codes: np.ndarray | Sequence[int] | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Most likely state path of each sequence (Viterbi), in log space.
 
     Parameters
     ----------
-    log_emission, lengths, startprob, transmat, batch_size
+    log_emission, lengths, startprob, transmat, batch_size, codes
         As for :func:`forward_backward`. Zero probabilities become ``-inf``
         (impossible transitions are never taken).
 
@@ -602,12 +718,11 @@ def viterbi(
     ([0, 0, 1], 0.01512)
     """
     with _single_thread_blas():
-        return _viterbi(log_emission, lengths, startprob, transmat, batch_size)
+        return _viterbi(_Emissions(log_emission, codes), lengths, startprob, transmat, batch_size)
 
 
-def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
-    le = _check_log_emission(log_emission)
-    T, K = le.shape
+def _viterbi(source, lengths, startprob, transmat, batch_size):
+    T, K = source.n_rows, source.n_states
     lens = _check_lengths(lengths, T)
     pi, A = _check_params(startprob, transmat, K)
     rows_per_batch = _resolve_batch_size(batch_size, K)
@@ -635,7 +750,7 @@ def _viterbi(log_emission, lengths, startprob, transmat, batch_size):
         n_steps = len(counts)
         B = batch.seq.size
         E = E_buf[:N]
-        np.take(le, batch.rows, axis=0, out=E)
+        source.log_rows(batch.rows, E)
         delta = delta_buf[:, :N]
         n0 = counts[0]
         np.add(E[:n0].T, log_pi[:, None], out=delta[:, :n0])
