@@ -1077,52 +1077,58 @@ class TractHMM:
         )
 
     def _core_interpretation(self, core, parts, codes, names, threshold, mass):
-        tracts = self.states_.tracts
+        """One core's tables from its decoded successions, each column built whole."""
+        tracts = np.asarray(self.states_.tracts, dtype=object)
         bed_frames, bnd_frames, pick_frames = [], [], []
-        loglik = 0.0
         units = parts[0][0].units
         # depth order: shallowest segment first, top of each succession first
-        for s, gamma, vit, surf, ll in sorted(parts, key=lambda p: p[0].segment):
-            loglik += ll
-            beds = s.beds.copy()
-            beds["segment"] = s.segment
-            if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
-                beds = beds.rename(columns={"tract": "interpreted_tract"})
-            beds["tract"] = [tracts[i] for i in vit]
-            for j, t in enumerate(tracts):
-                beds[f"p_{t}"] = gamma[:, j]
-            bed_frames.append(beds.iloc[::-1])
-            depth = s.beds["top"].to_numpy(float)[:-1]  # contact t: top of the lower bed
-            bnd = pd.DataFrame(
-                {
-                    "segment": s.segment,
-                    "depth": depth,
-                    "lower_tract": [tracts[i] for i in vit[:-1]],
-                    "upper_tract": [tracts[i] for i in vit[1:]],
-                }
-            )
-            for c, code in enumerate(codes):
-                bnd[f"p_{code}"] = surf[:, c]
-            bnd = bnd.iloc[::-1].reset_index(drop=True)
+        parts = sorted(parts, key=lambda p: p[0].segment)
+        for s, _, vit, surf, _ in parts:
+            bed_frames.append(s.beds.iloc[::-1])
+            top = s.beds["top"].to_numpy(float)[:-1][::-1]  # contact t: top of the lower bed
+            bnd = {
+                "segment": np.full(len(top), s.segment),
+                "depth": top,
+                "lower_tract": tracts[vit[:-1]][::-1],
+                "upper_tract": tracts[vit[1:]][::-1],
+            }
+            bnd |= {f"p_{code}": surf[::-1, c] for c, code in enumerate(codes)}
+            bnd = pd.DataFrame(bnd)
             bnd_frames.append(bnd)
             pick_frames.append(column_picks(bnd, codes, self.tract_model_, s.segment, mass))
         beds = pd.concat(bed_frames, ignore_index=True)
+        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+            beds = beds.rename(columns={"tract": "interpreted_tract"})
+        gamma = np.concatenate([p[1][::-1] for p in parts])
+        added = {
+            "segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts]),
+            "tract": tracts[np.concatenate([p[2][::-1] for p in parts])],
+        } | {f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)}
         first = ["segment", "top", "base", "thickness", "facies"]
-        p_cols = [f"p_{t}" for t in tracts]
+        p_cols = [f"p_{t}" for t in self.states_.tracts]
         other = [c for c in beds.columns if c not in (*first, "tract", *p_cols)]
-        beds = beds[[c for c in first if c in beds.columns] + other + ["tract", *p_cols]]
+        columns = {c: beds[c] for c in first if c in beds.columns and c != "segment"}
+        beds = pd.concat(
+            [
+                pd.DataFrame({"segment": added["segment"]}),
+                pd.DataFrame(columns),
+                beds[other],
+                pd.DataFrame({k: v for k, v in added.items() if k != "segment"}),
+            ],
+            axis=1,
+        )
         picks = pd.concat(pick_frames, ignore_index=True).sort_values(
             ["depth", "surface"], kind="stable"
         )
         return CoreInterpretation(
             core,
             units,
-            tuple(tracts),
+            tuple(self.states_.tracts),
             tuple(codes),
             beds,
             pd.concat(bnd_frames, ignore_index=True),
             picks.reset_index(drop=True),
-            loglik,
+            float(sum(p[4] for p in parts)),
         )
 
     # ------------------------------------------------------ parameter access
