@@ -74,7 +74,7 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
                 "skips": list(graph.skips),
                 "log_likelihood": fitted.log_likelihood_,
                 "n_parameters": fitted.n_parameters(),
-                "bic": fitted.bic(succ),
+                "bic": fitted.bic(),
             }
         )
         fits.append(fitted)

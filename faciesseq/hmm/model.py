@@ -976,10 +976,23 @@ class TractHMM:
         """Total log-likelihood of the successions under the model."""
         return float(np.sum(self.score_samples(successions)))
 
-    def bic(self, successions) -> float:
-        """Bayesian information criterion ``-2 log L + p log n`` (Schwarz 1978), n = beds."""
-        succ, beds = self._prepare(successions)
-        return -2.0 * self.score(succ) + self.n_parameters() * math.log(len(beds))
+    def bic(self, successions=None) -> float:
+        """Bayesian information criterion ``-2 log L + p log n`` (Schwarz 1978), n = beds.
+
+        Without ``successions``, of the training beds of a fit without labels,
+        from the log-likelihood its last E-step recorded (the same number as
+        scoring them again, without encoding them again); a labelled fit's E-step
+        saw clamped beds, so it needs the successions.
+        """
+        self._check_fitted()
+        if successions is None:
+            if self.n_labelled_:
+                raise ConfigError("the BIC of a labelled fit needs the successions to score")
+            n, loglik = self.n_train_beds_, self.log_likelihood_
+        else:
+            succ = [s for s in _as_successions(successions, self.unit, self.step) if len(s)]
+            n, loglik = sum(len(s) for s in succ), self.score(succ)
+        return -2.0 * loglik + self.n_parameters() * math.log(n)
 
     def _warn_unseen(self, succ: Sequence[Succession], beds: EncodedBeds) -> None:
         start = 0

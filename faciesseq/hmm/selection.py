@@ -76,8 +76,11 @@ def select_model(
                     "features": ",".join(model.features_),
                     "substates": ",".join(map(str, model.states_.substates)),
                     "n_parameters": model.n_parameters(),
-                    "log_likelihood": model.score(successions),
-                    "bic": model.bic(successions),
+                    # a fit without labels recorded both on its own beds
+                    "log_likelihood": model.score(successions)
+                    if labels is not None
+                    else model.log_likelihood_,
+                    "bic": model.bic(successions if labels is not None else None),
                 }
             )
             models.append(model)
