@@ -25,10 +25,10 @@ repairs
 
 from __future__ import annotations
 
-import contextlib
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
+from functools import partial
 
 import numpy as np
 import pandas as pd
@@ -109,19 +109,44 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
-def _codes(values: pd.Series) -> list[str | None]:
-    """:func:`facies_code` of each value, each distinct value converted once."""
-    cache: dict[object, str | None] = {}
-    out = []
-    for value in values:
-        try:
-            out.append(cache[value])
-        except (KeyError, TypeError):
-            code = facies_code(value)
-            with contextlib.suppress(TypeError):  # unhashable values are not cached
-                cache[value] = code
-            out.append(code)
+def _per_distinct(values: pd.Series, convert) -> np.ndarray:
+    """``convert`` of each value (an object array), each distinct value converted once.
+
+    The column is split into its distinct values in one pass (``pandas.factorize``),
+    so a database of millions of rows costs one call per distinct code, not per row.
+    Missing values (NaN, None) are converted on their own, once per kind of missing value.
+    """
+    try:
+        raw = values if values.dtype != object else values.to_numpy(dtype=object)
+        ids, uniques = pd.factorize(raw, use_na_sentinel=True)
+    except TypeError:  # unhashable values: one at a time
+        out = np.empty(len(values), dtype=object)
+        out[:] = [convert(v) for v in values]
+        return out
+    done = np.empty(len(uniques) + 1, dtype=object)
+    done[:-1] = [convert(u) for u in uniques]
+    missing = np.flatnonzero(ids < 0)
+    out = done[ids]
+    if len(missing):
+        kinds: dict[type, object] = {}
+        for i in missing if values.dtype == object else missing[:1]:
+            value = values.iloc[i]
+            if type(value) not in kinds:
+                kinds[type(value)] = convert(value)
+            out[i] = kinds[type(value)]
+        if values.dtype != object:
+            out[missing] = out[missing[0]]
     return out
+
+
+def _codes(values: pd.Series) -> np.ndarray:
+    """:func:`facies_code` of each value, each distinct value converted once."""
+    return _per_distinct(values, facies_code)
+
+
+def _blank(values: pd.Series) -> np.ndarray:
+    """Whether each cell is blank (missing, or text of spaces only)."""
+    return _per_distinct(values, _is_blank).astype(bool)
 
 
 #: Control characters (NUL and the like) that have no place in a code or a name.
@@ -147,7 +172,7 @@ def _is_blank(value: object) -> bool:
 
 def _numbers_where_all(values: pd.Series) -> pd.Series:
     """A column becomes numeric when every filled cell is a number; otherwise text as read."""
-    filled = ~values.map(_is_blank)
+    filled = pd.Series(~_blank(values), index=values.index)
     numbers = pd.to_numeric(values.where(filled, None), errors="coerce")
     if filled.any() and numbers[filled].notna().all():
         return numbers.astype(float)
@@ -212,18 +237,13 @@ def _prepare(
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
         cores = _codes(src[match.roles["core"]])
-        for i, c in enumerate(cores):
-            if c is None:
-                bad[i] = True
-                problems.append(
-                    Problem(
-                        "error",
-                        "missing-core",
-                        "no core identifier",
-                        file=table.file,
-                        row=int(rows[i]),
-                    )
+        for i in np.flatnonzero(pd.isna(cores)):
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
                 )
+            )
         out["core"] = cores
     else:
         name = table.core or "core"
@@ -244,7 +264,8 @@ def _prepare(
     # -- depths ----------------------------------------------------------------
     for role in roles:
         raw = src[match.roles[role]]
-        numbers = pd.to_numeric(raw.where(~raw.map(_is_blank), None), errors="coerce").astype(float)
+        blank = _blank(raw)
+        numbers = pd.to_numeric(raw.where(~blank, None), errors="coerce").astype(float)
         nulls = numbers.isin(NULL_NUMBERS).to_numpy()
         infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
         numbers[nulls | infinite] = np.nan
@@ -253,7 +274,7 @@ def _prepare(
             value = raw.iloc[i]
             if nulls[i]:
                 kind, message = "missing-depth", f"{role} holds the null value {value}"
-            elif _is_blank(value):
+            elif blank[i]:
                 kind, message = "missing-depth", f"no {role} depth"
             elif infinite[i]:
                 kind = "bad-depth"
@@ -275,11 +296,14 @@ def _prepare(
 
     # -- facies ----------------------------------------------------------------
     codes = _codes(src[match.roles["facies"]])
+    control, resolved = _facies_flags(codes, scheme)
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
-    for i, code in enumerate(codes):
-        if code is not None and _CONTROL.search(code):
-            bad[i] = True
+    flagged = control | pd.isna(codes)
+    for i in np.flatnonzero(flagged):
+        code = codes[i]
+        bad[i] = True
+        if control[i]:
             problems.append(
                 Problem(
                     "error",
@@ -292,13 +316,9 @@ def _prepare(
                     depth=_depth(first_depth[i]),
                 )
             )
-            continue
-        if code is None:
-            if layout == "samples":
-                not_described.setdefault(out["core"].iloc[i], []).append(i)
-                bad[i] = True
-                continue
-            bad[i] = True
+        elif layout == "samples":
+            not_described.setdefault(out["core"].iloc[i], []).append(i)
+        else:
             problems.append(
                 Problem(
                     "error",
@@ -310,14 +330,12 @@ def _prepare(
                     depth=_depth(first_depth[i]),
                 )
             )
-            continue
-        if scheme is not None:
-            resolved = scheme.resolve(code)
-            if resolved is None:
-                unknown.setdefault((out["core"].iloc[i], code), []).append(i)
-                bad[i] = True
-            else:
-                codes[i] = resolved
+    if scheme is not None:
+        known = ~flagged & ~pd.isna(resolved)
+        for i in np.flatnonzero(~flagged & ~known):
+            unknown.setdefault((out["core"].iloc[i], codes[i]), []).append(i)
+            bad[i] = True
+        codes = np.where(known, resolved, codes)
     for (core, code), idx in unknown.items():
         count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
         problems.append(
@@ -355,10 +373,7 @@ def _prepare(
         attributes.append("grain_size")
     for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
         if role in match.roles:
-            values = [
-                None if _is_blank(v) else (fix(str(v).strip()) if fix else str(v).strip())
-                for v in src[match.roles[role]]
-            ]
+            values = _per_distinct(src[match.roles[role]], partial(_text, fix=fix))
             out[role] = pd.Series(values, dtype=object)
             attributes.append(role)
     unused = [
@@ -379,7 +394,9 @@ def _prepare(
     if "units" in match.roles:
         values = src[match.roles["units"]]
         row_units = pd.Series(
-            [None if _is_blank(v) else normalise_units(v, where=table.file) for v in values],
+            _per_distinct(
+                values, lambda v: None if _is_blank(v) else normalise_units(v, where=table.file)
+            ),
             dtype=object,
         )
     out["_file"] = table.file
@@ -398,24 +415,44 @@ def _prepare(
     return rows
 
 
+def _text(value: object, fix=None) -> str | None:
+    """A text attribute: stripped (and put in one case by ``fix``); blank is ``None``."""
+    if _is_blank(value):
+        return None
+    text = str(value).strip()
+    return fix(text) if fix else text
+
+
+def _facies_flags(codes: np.ndarray, scheme: FaciesScheme | None) -> tuple[np.ndarray, np.ndarray]:
+    """Per row: whether the code holds a control character, and its scheme code (or None)."""
+    ids, uniques = pd.factorize(codes, use_na_sentinel=True)
+    ctl = np.array([bool(_CONTROL.search(c)) for c in uniques] + [False], dtype=bool)
+    res = np.empty(len(uniques) + 1, dtype=object)
+    if scheme is not None:
+        res[:-1] = [scheme.resolve(c) for c in uniques]
+    return ctl[ids], res[ids]
+
+
+def _grain_size(value: object) -> tuple[float, str | None]:
+    """A grain-size cell as a class number (NaN when blank or not understood) and the
+    word it was read from (``""`` when the cell is neither blank, a number nor a word)."""
+    if _is_blank(value):
+        return np.nan, None
+    try:
+        return float(value), None
+    except (TypeError, ValueError):
+        pass
+    key = re.sub(r"[^a-z]", "", str(value).lower())
+    if key in _GRAIN_WORDS:
+        return _GRAIN_WORDS[key], str(value).strip()
+    return np.nan, ""
+
+
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
-    out = np.full(len(values), np.nan)
-    words: dict[str, float] = {}
-    unread: list[int] = []
-    for i, v in enumerate(values):
-        if _is_blank(v):
-            continue
-        try:
-            out[i] = float(v)
-            continue
-        except (TypeError, ValueError):
-            pass
-        key = re.sub(r"[^a-z]", "", str(v).lower())
-        if key in _GRAIN_WORDS:
-            out[i] = _GRAIN_WORDS[key]
-            words[str(v).strip()] = _GRAIN_WORDS[key]
-        else:
-            unread.append(i)
+    out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
+    word = _per_distinct(values, lambda v: _grain_size(v)[1])
+    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in set(word) if w}
+    unread = np.flatnonzero(word == "")
     if words:
         listed = ", ".join(f"{w!r}={c:g}" for w, c in sorted(words.items()))
         problems.append(
@@ -426,7 +463,7 @@ def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems:
                 file=table.file,
             )
         )
-    if unread:
+    if len(unread):
         shown = sorted({str(values.iloc[i]).strip() for i in unread})[:5]
         problems.append(
             Problem(
