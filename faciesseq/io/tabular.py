@@ -201,7 +201,8 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     rows = np.arange(1, len(frame) + 1)
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
-    return RawTable(frame.astype(object), file, rows[keep].tolist(), problems=problems)
+    # text columns stay pandas text (not one Python object per cell): a tenth of the memory
+    return RawTable(frame, file, rows[keep].tolist(), problems=problems)
 
 
 _DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"

@@ -29,11 +29,12 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from functools import partial
+from itertools import pairwise
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet
+from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
@@ -109,33 +110,45 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
+def _distinct(values: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
+    """The distinct values of a column (an object array, in order of first appearance) and
+    the index of each cell's value among them (-1: missing); ``None`` for unhashable values.
+
+    One pass (``pandas.factorize``), so a column of millions of cells costs one
+    conversion per distinct value afterwards, not one per cell.
+    """
+    raw = values.to_numpy(dtype=object) if values.dtype == object else values
+    try:
+        ids, uniques = pd.factorize(raw, use_na_sentinel=True)
+    except TypeError:
+        return None
+    return ids, np.asarray(uniques, dtype=object)
+
+
 def _per_distinct(values: pd.Series, convert) -> np.ndarray:
     """``convert`` of each value (an object array), each distinct value converted once.
 
-    The column is split into its distinct values in one pass (``pandas.factorize``),
-    so a database of millions of rows costs one call per distinct code, not per row.
     Missing values (NaN, None) are converted on their own, once per kind of missing value.
     """
-    try:
-        raw = values if values.dtype != object else values.to_numpy(dtype=object)
-        ids, uniques = pd.factorize(raw, use_na_sentinel=True)
-    except TypeError:  # unhashable values: one at a time
+    found = _distinct(values)
+    if found is None:  # unhashable values: one at a time
         out = np.empty(len(values), dtype=object)
         out[:] = [convert(v) for v in values]
         return out
+    ids, uniques = found
     done = np.empty(len(uniques) + 1, dtype=object)
     done[:-1] = [convert(u) for u in uniques]
-    missing = np.flatnonzero(ids < 0)
     out = done[ids]
-    if len(missing):
+    missing = np.flatnonzero(ids < 0)
+    if len(missing) and values.dtype != object:  # one kind of missing value
+        out[missing] = convert(values.iloc[missing[0]])
+    elif len(missing):
         kinds: dict[type, object] = {}
-        for i in missing if values.dtype == object else missing[:1]:
-            value = values.iloc[i]
+        raw = values.to_numpy(dtype=object)
+        for i, value in zip(missing, raw[missing], strict=True):
             if type(value) not in kinds:
                 kinds[type(value)] = convert(value)
             out[i] = kinds[type(value)]
-        if values.dtype != object:
-            out[missing] = out[missing[0]]
     return out
 
 
@@ -170,13 +183,33 @@ def _is_blank(value: object) -> bool:
         return False
 
 
+def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Each cell as a number (NaN when blank or not a number) and whether it is blank;
+    each distinct value read once."""
+    found = _distinct(values)
+    if found is None:
+        blank = _blank(values)
+        numbers = pd.to_numeric(values.where(~blank, None), errors="coerce")
+        return numbers.to_numpy(dtype=float), blank
+    ids, uniques = found
+    blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
+    read = pd.to_numeric(pd.Series(uniques, dtype=object).where(~blank[:-1], None), errors="coerce")
+    numbers = np.r_[read.to_numpy(dtype=float), np.nan]
+    return numbers[ids], blank[ids]
+
+
 def _numbers_where_all(values: pd.Series) -> pd.Series:
     """A column becomes numeric when every filled cell is a number; otherwise text as read."""
-    filled = pd.Series(~_blank(values), index=values.index)
-    numbers = pd.to_numeric(values.where(filled, None), errors="coerce")
-    if filled.any() and numbers[filled].notna().all():
-        return numbers.astype(float)
-    return values.astype(object).where(filled, None)
+    numbers, blank = _numbers(values)
+    filled = ~blank
+    if filled.any() and not np.isnan(numbers[filled]).any():
+        return pd.Series(numbers, index=values.index)
+    if values.dtype == object:
+        text = values.to_numpy(dtype=object).copy()
+    else:  # the text of each distinct value made once, shared by its cells
+        text = _per_distinct(values, lambda v: v)
+    text[blank] = None
+    return pd.Series(text, index=values.index, dtype=object)
 
 
 @dataclass
@@ -264,8 +297,8 @@ def _prepare(
     # -- depths ----------------------------------------------------------------
     for role in roles:
         raw = src[match.roles[role]]
-        blank = _blank(raw)
-        numbers = pd.to_numeric(raw.where(~blank, None), errors="coerce").astype(float)
+        numbers, blank = _numbers(raw)
+        numbers = pd.Series(numbers)
         nulls = numbers.isin(NULL_NUMBERS).to_numpy()
         infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
         numbers[nulls | infinite] = np.nan
@@ -818,47 +851,58 @@ def build_coreset(
     tolerance = OVERLAP_TOLERANCE_M if target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
     problems: list[Problem] = list(unit_problems)
     owner: dict[str, str] = {}
-    pieces: dict[str, pd.DataFrame] = {}
+    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]] = []  # rows, names, name of row
     steps: dict[str, float] = {}
     pending: list[tuple[str, pd.DataFrame, _Rows]] = []
     order: list[str] = []
     for p in prepared:
         problems += p.problems
         file = p.table.file
-        names = list(dict.fromkeys(p.frame["core"]))
         # one split of the file's rows by core (not one scan of the table per core)
-        groups = p.frame.groupby("core", sort=False, dropna=False).indices
-        frame = p.frame.drop(columns="core")
-        if p.layout == "intervals":  # the columns a core keeps, chosen once
-            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
-        for name in names:
-            part = frame.take(groups[name]).reset_index(drop=True)
+        local, found_names = pd.factorize(p.frame["core"])
+        names = [str(n) for n in found_names]
+        counts = np.bincount(local, minlength=len(names))
+        first_row = p.frame["_row"].to_numpy()[np.unique(local, return_index=True)[1]]
+        owned = np.zeros(len(names), dtype=bool)
+        for k, name in enumerate(names):
             if name in owner and owner[name] != file:
                 problems.append(
                     Problem(
                         "error",
                         "duplicate-core",
                         f"core {name!r} is also in {owner[name]}; a core must come from one "
-                        f"file or table ({len(part)} row(s) here left out)",
+                        f"file or table ({counts[k]} row(s) here left out)",
                         file=file,
-                        row=int(part["_row"].iloc[0]),
+                        row=int(first_row[k]),
                         core=name,
                     )
                 )
                 continue
             owner[name] = file
             order.append(name)
-            if p.layout == "intervals":
-                part, found = _check_intervals(part, file, name, target, tolerance)
-                problems += found
-                pieces[name] = part
-            else:
+            owned[k] = True
+        rows = np.flatnonzero(owned[local])
+        rows = rows[np.argsort(local[rows], kind="stable")]
+        frame = p.frame.drop(columns="core")
+        if p.layout == "intervals" and len(rows):  # the columns a core keeps, chosen once
+            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+            part, core_of_row, found = _check_all_intervals(
+                frame.take(rows).reset_index(drop=True), local[rows], names, file, target, tolerance
+            )
+            problems += found
+            blocks.append((part, names, core_of_row))
+        elif len(rows):
+            bounds = np.flatnonzero(np.r_[True, np.diff(local[rows]) != 0, True])
+            for a, b in pairwise(bounds):
+                name = names[local[rows[a]]]
+                part = frame.take(rows[a:b]).reset_index(drop=True)
                 part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
                 pending.append((name, part, p))
                 step = _modal_step(part["depth"].to_numpy(dtype=float))
                 if step is not None:
                     steps[name] = step
+        p.frame = None  # the rows live on in the blocks; nothing keeps a second copy
         # cores whose every row had an error still exist: report them as empty
         for prob in p.problems:
             if prob.core and prob.core not in owner:
@@ -883,11 +927,10 @@ def build_coreset(
         steps[name] = step
         table, found = _samples_to_intervals(part, p.attributes, step, p.table.file, name, target)
         problems += found
-        pieces[name] = table
-    cores: dict[str, Core] = {}
+        blocks.append((table, [name], np.zeros(len(table), dtype=np.int64)))
+    cores = _assemble(blocks, order, target)
     for name in order:
-        part = pieces.get(name)
-        if part is None or len(part) == 0:
+        if name not in cores:
             problems.append(
                 Problem(
                     "warning",
@@ -897,17 +940,20 @@ def build_coreset(
                     core=name,
                 )
             )
-            continue
-        cores[name] = Core(name, part.reset_index(drop=True), target)
     # beds of every core at once (one vectorised pass, kept for the analyses)
     derived = CoreSet(cores, target)
+    n_intervals = (
+        dict(zip(derived.names, np.diff(cores.starts)))
+        if isinstance(cores, CoreTable)
+        else {n: len(c) for n, c in cores.items()}
+    )
     for name, n_beds in derived.bed_counts().items():
         if n_beds < 2:
             problems.append(
                 Problem(
                     "warning",
                     "too-short",
-                    f"only {n_beds} bed ({len(cores[name])} interval(s)): too short for "
+                    f"only {n_beds} bed ({n_intervals[name]} interval(s)): too short for "
                     "transition statistics",
                     file=owner.get(name),
                     core=name,
@@ -919,7 +965,7 @@ def build_coreset(
         "columns": {p.table.file: p.roles for p in prepared},
     }
     if any(p.kind == "units" for p in unit_problems):
-        suspect = feet_suspected(cores.values(), meta["sample_step"])
+        suspect = feet_suspected(derived, meta["sample_step"])
         if suspect is not None:
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
@@ -937,8 +983,105 @@ def build_coreset(
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
     coreset = CoreSet(cores, target, tuple(problems), sources, meta)
-    coreset._derived.update(derived._derived)
+    if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
+        coreset._derived.update(derived._derived)
     return coreset
+
+
+def _assemble(
+    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]], order: list[str], units: str
+) -> CoreTable | dict[str, Core]:
+    """The checked intervals of every core as one :class:`CoreTable` (cores in ``order``),
+    or one table per core when the files' columns differ."""
+    rank = {name: k for k, name in enumerate(order)}
+    frames = [frame for frame, _, _ in blocks]
+    ids = [np.array([rank[n] for n in names], dtype=np.int64)[which] for _, names, which in blocks]
+    if frames and all(
+        list(f.columns) == list(frames[0].columns)
+        and f.dtypes.tolist() == frames[0].dtypes.tolist()
+        for f in frames
+    ):
+        table = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
+        core_id = np.concatenate(ids)
+        perm = np.argsort(core_id, kind="stable")
+        table = table.take(perm).reset_index(drop=True)
+        core_id = core_id[perm]
+        table["facies"] = table["facies"].astype(str)
+        present, first = np.unique(core_id, return_index=True)
+        starts = np.r_[first, len(core_id)]
+        return CoreTable([order[k] for k in present], table, starts, units)
+    cores: dict[str, Core] = {}
+    for frame, names, which in blocks:
+        for k, rows in pd.Series(np.arange(len(which))).groupby(which, sort=False).indices.items():
+            cores[names[k]] = Core(names[k], frame.take(rows).reset_index(drop=True), units)
+    return {name: cores[name] for name in order if name in cores}
+
+
+def _check_all_intervals(
+    frame: pd.DataFrame,
+    core_of_row: np.ndarray,
+    names: list[str],
+    file: str,
+    units: str,
+    tolerance: float,
+) -> tuple[pd.DataFrame, np.ndarray, list[Problem]]:
+    """:func:`_check_intervals` of every core of one table at once.
+
+    ``frame`` holds the cores' rows one core after another (``core_of_row``, an
+    index into ``names``). Cores whose only findings can be gaps (every interval
+    thicker than zero, in depth order, none overlapping the one above) are checked
+    in one vectorised pass; the others one by one. Returns the kept rows (cores in
+    the same order), the core of each and the problems.
+    """
+    top = frame["top"].to_numpy(dtype=float)
+    base = frame["base"].to_numpy(dtype=float)
+    new_core = np.r_[True, core_of_row[1:] != core_of_row[:-1]]
+    thin = (top > base) | (base - top <= DEPTH_TOL)
+    overlap = base[:-1] - top[1:]  # with the interval above, as _check_intervals measures it
+    step_top, step_base = np.diff(top), np.diff(base)
+    in_order = (step_top > 0) | ((step_top == 0) & (step_base >= 0))
+    odd = thin | (np.r_[False, ~in_order | (overlap > DEPTH_TOL)] & ~new_core)
+    dirty = np.zeros(len(names), dtype=bool)
+    dirty[core_of_row[odd]] = True
+    problems: list[Problem] = []
+    rows = frame["_row"].to_numpy()
+    gap = np.r_[False, -overlap > DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
+    for i in np.flatnonzero(gap):
+        problems.append(
+            Problem(
+                "warning",
+                "gap",
+                f"gap from {base[i - 1]:g} to {top[i]:g} ({-overlap[i - 1]:.4g} {units}) above "
+                "this interval: successions are split here",
+                file=file,
+                row=int(rows[i]),
+                core=names[core_of_row[i]],
+                depth=float(base[i - 1]),
+                units=units,
+            )
+        )
+    if not dirty.any():
+        return frame, core_of_row, problems
+    parts = [frame[~dirty[core_of_row]]]
+    which = [core_of_row[~dirty[core_of_row]]]
+    starts = np.flatnonzero(new_core)
+    ends = np.r_[starts[1:], len(top)]
+    for a, b in zip(starts, ends):
+        k = core_of_row[a]
+        if dirty[k]:
+            part, found = _check_intervals(
+                frame.iloc[a:b].reset_index(drop=True), file, names[k], units, tolerance
+            )
+            problems += found
+            parts.append(part)
+            which.append(np.full(len(part), k, dtype=np.int64))
+    core_ids = np.concatenate(which)
+    perm = np.argsort(core_ids, kind="stable")
+    return (
+        pd.concat(parts, ignore_index=True).take(perm).reset_index(drop=True),
+        core_ids[perm],
+        problems,
+    )
 
 
 #: Depths (read as metres) from which typical feet sample spacings look suspicious.
@@ -959,13 +1102,16 @@ def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
     Dubois et al. 2007, Computers & Geosciences 33:599-617, are 0.5 ft samples
     near 2,700-3,100 ft). Only called when the source states no units.
     """
-    cores = list(cores)
-    tops = [core.intervals["top"].to_numpy(dtype=float) for core in cores if len(core)]
-    if not tops:
+    if isinstance(cores, CoreSet):
+        depths, bases = cores.column("top").astype(float), cores.column("base").astype(float)
+    else:
+        cores = [core for core in cores if len(core)]
+        depths = np.concatenate([c.intervals["top"].to_numpy(dtype=float) for c in cores] or [[]])
+        bases = np.concatenate([c.intervals["base"].to_numpy(dtype=float) for c in cores] or [[]])
+    if not len(depths):
         return None
-    depths = np.concatenate(tops)
     median = float(np.median(depths))
-    deepest = float(max(core.intervals["base"].max() for core in cores if len(core)))
+    deepest = float(bases.max())
     steps = [s for s in sample_step.values() if any(abs(s - f) < 1e-6 for f in FEET_STEPS)]
     if median >= FEET_DEPTH_M and steps:
         why = f"{steps[0]:g} steps near {median:,.0f}"
