@@ -31,7 +31,7 @@ from faciesseq.markov.counts import (
 from faciesseq.markov.cyclicity import CyclicityResult, cyclicity
 from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
 from faciesseq.markov.order import OrderResult, conditional_g2, order_analysis
-from faciesseq.markov.screening import screen_cores
+from faciesseq.markov.screening import leave_out_irregular
 from faciesseq.markov.surrogates import (
     monte_carlo_p_value,
     restricted_permutations,
@@ -461,15 +461,14 @@ def analyse(
             data, by = _as_groups(data, by)
         if unit == "grid" and not (step is not None and step > 0):
             raise ConfigError("--unit grid needs a positive --step (depth units)")
-        problems = screen_cores(data, min_coverage=min_coverage)
-        for p in problems:
+        screening = leave_out_irregular(data, min_coverage=min_coverage)
+        for p in screening.problems:
             if not exclude_irregular:
                 warnings.append(f"core {p.core} analysed although irregular: {p.message}")
             elif p.core not in excluded:
                 excluded.append(p.core)
                 warnings.append(f"core {p.core} left out: {p.message}")
-        left_out = set(excluded)
-        kept = data.subset([n for n in data.names if n not in left_out])
+        kept = screening.kept if exclude_irregular else data
         found = kept.succession_beds() if unit == "beds" else None
         if found is None:
             successions = kept.successions(unit, step)
