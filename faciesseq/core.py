@@ -93,19 +93,7 @@ def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -
         known = values.notna().to_numpy()
         numeric = pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values)
         if not numeric or col == "contact":
-            frame = pd.DataFrame(
-                {"bed": bed_id[known], "value": values[known].to_numpy(), "w": thick[known]}
-            )
-            if col == "contact":
-                picked = frame.groupby("bed", sort=True)["value"].last()
-            else:
-                sums = frame.groupby(["bed", "value"], sort=False)["w"].sum().reset_index()
-                order = np.lexsort((-sums["w"].to_numpy(), sums["bed"].to_numpy()))
-                sums = sums.iloc[order]
-                picked = sums.drop_duplicates("bed").set_index("bed")["value"]
-            result = np.full(n_beds, np.nan, dtype=object)
-            result[picked.index.to_numpy(dtype=int)] = picked.to_numpy(dtype=object)
-            out[col] = result
+            out[col] = _aggregate_text(values, known, bed_id, thick, n_beds, col == "contact")
         else:
             v = values.to_numpy(dtype=float)
             w = np.where(known, thick, 0.0)
@@ -123,6 +111,41 @@ def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -
                 )
             out[col] = mean
     return out
+
+
+def _aggregate_text(
+    values: pd.Series,
+    known: np.ndarray,
+    bed_id: np.ndarray,
+    thick: np.ndarray,
+    n_beds: int,
+    lowest: bool,
+) -> np.ndarray:
+    """One text attribute per bed (see :func:`_aggregate`), on integer codes of the values.
+
+    ``lowest``: the value of the bed's lowest known interval; otherwise the value covering
+    most thickness, the first in depth order on ties (thickness summed per bed and value
+    by one grouped sum over integer keys, in order of first appearance).
+    """
+    result = np.full(n_beds, np.nan, dtype=object)
+    rows = np.flatnonzero(known)
+    if len(rows) == 0:
+        return result
+    codes, uniques = pd.factorize(values.to_numpy(dtype=object)[rows])
+    uniques = np.asarray(uniques, dtype=object)
+    beds = bed_id[rows]
+    if lowest:  # the last known interval of each bed in depth order
+        last = np.r_[beds[1:] != beds[:-1], True]
+        result[beds[last]] = uniques[codes[last]]
+        return result
+    key = beds.astype(np.int64) * len(uniques) + codes
+    sums = pd.Series(thick[rows]).groupby(key, sort=False).sum()
+    key_bed = sums.index.to_numpy() // len(uniques)
+    order = np.lexsort((-sums.to_numpy(), key_bed))  # stable: first appearance wins ties
+    first = order[np.r_[True, key_bed[order][1:] != key_bed[order][:-1]]]
+    chosen = sums.index.to_numpy()[first]
+    result[chosen // len(uniques)] = uniques[chosen % len(uniques)]
+    return result
 
 
 def _bed_columns(
@@ -144,8 +167,9 @@ def _bed_columns(
     seg_global = np.cumsum(gap)
     core_start = np.flatnonzero(new_core)
     segment = seg_global - np.repeat(seg_global[core_start], np.diff(np.r_[core_start, n]))
-    facies = table["facies"].to_numpy(dtype=object)
-    new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (seg_global[1:] != seg_global[:-1])]
+    # facies as integer codes: compared without one text object per interval
+    facies_id, facies_names = pd.factorize(table["facies"], use_na_sentinel=False)
+    new_bed = np.r_[True, (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])]
     new_bed |= new_core
     bed_id = np.cumsum(new_bed) - 1
     first = np.flatnonzero(new_bed)
@@ -157,7 +181,9 @@ def _bed_columns(
         "top": top,
         "base": base,
         "thickness": base - top,
-        "facies": facies[first].astype(str).astype(object),
+        "facies": np.asarray(facies_names, dtype=object)[facies_id[first]]
+        .astype(str)
+        .astype(object),
         "n_intervals": (last - first + 1).astype(int),
     }
     data.update(_aggregate(table, bed_id, attributes))

@@ -152,7 +152,13 @@ def _western(data: bytes) -> str | None:
 def _sniff(text: str, suffix: str) -> str:
     if suffix in (".tsv", ".tab"):
         return "\t"
-    sample = "\n".join(text.splitlines()[:50])
+    size = 1 << 16  # the first 50 lines, without splitting the whole text
+    while True:
+        lines = text[:size].splitlines()
+        if len(lines) > 50 or size >= len(text):
+            break
+        size *= 4
+    sample = "\n".join(lines[:50])
     try:
         return csv.Sniffer().sniff(sample, delimiters=_DELIMITERS).delimiter
     except csv.Error:
@@ -160,6 +166,10 @@ def _sniff(text: str, suffix: str) -> str:
         counts = {d: header.count(d) for d in _DELIMITERS}
         best = max(counts, key=counts.get)
         return best if counts[best] else ","
+
+
+#: Rows parsed at a time (bounds the memory of the parser's intermediate Python strings).
+CHUNK_ROWS = 200_000
 
 
 def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
@@ -173,20 +183,30 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     if not text.strip():
         raise InputError("file is empty", file=file)
     delimiter = _sniff(text, path.suffix.lower())
+    # plain ASCII: the parser reads the bytes as they are (no second, wider copy of the text)
+    stream = io.BytesIO(data) if len(text) == len(data) and text.isascii() else io.StringIO(text)
+    del text
     try:
-        frame = pd.read_csv(
-            io.StringIO(text),
+        # in chunks: the parser's Python strings of one chunk at a time, then pandas text
+        chunks = pd.read_csv(
+            stream,
             sep=delimiter,
             dtype=str,
             skip_blank_lines=False,
             skipinitialspace=True,
+            chunksize=CHUNK_ROWS,
         )
+        with chunks:
+            frame = pd.concat(list(chunks), ignore_index=True)
     except (pd.errors.ParserError, ValueError) as exc:
         raise InputError(f"not a readable delimited table: {exc}", file=file) from None
     check_width(frame.shape[1], file)
     frame.columns = [str(c).strip() for c in frame.columns]
-    frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
-    frame = frame.replace("", np.nan)
+    for i in range(frame.shape[1]):  # a column at a time: one column's copy alive at once
+        column = frame.iloc[:, i]
+        column = column.str.strip() if column.dtype != float else column
+        frame.isetitem(i, column.replace("", np.nan))
+    del stream, data
     if delimiter != ",":
         frame, converted = _decimal_commas(frame)
         if converted:

@@ -840,13 +840,20 @@ def build_coreset(
     repeated_depths: str = "error",
     sources: tuple[str, ...] = (),
 ) -> CoreSet:
-    """Validate raw tables and assemble the core set (see the module notes for problem kinds)."""
+    """Validate raw tables and assemble the core set (see the module notes for problem kinds).
+
+    The tables are read once: their rows are released as they are taken in (each
+    ``frame`` is left with its columns and no rows).
+    """
     if repeated_depths not in ("error", "keep-first"):
         raise ConfigError(
             f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
         )
     columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
-    prepared = [_prepare(t, layout, columns, scheme) for t in tables]
+    prepared = []
+    for t in tables:
+        prepared.append(_prepare(t, layout, columns, scheme))
+        t.frame = t.frame.iloc[:0]  # the rows now live in the prepared table: one copy kept
     target, unit_problems = _resolve_units(prepared, units)
     tolerance = OVERLAP_TOLERANCE_M if target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
     problems: list[Problem] = list(unit_problems)
@@ -886,8 +893,10 @@ def build_coreset(
         frame = p.frame.drop(columns="core")
         if p.layout == "intervals" and len(rows):  # the columns a core keeps, chosen once
             frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+            if not np.array_equal(rows, np.arange(len(frame))):  # else in core order already
+                frame = frame.take(rows).reset_index(drop=True)
             part, core_of_row, found = _check_all_intervals(
-                frame.take(rows).reset_index(drop=True), local[rows], names, file, target, tolerance
+                frame, local[rows], names, file, target, tolerance
             )
             problems += found
             blocks.append((part, names, core_of_row))
@@ -1003,9 +1012,10 @@ def _assemble(
     ):
         table = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
         core_id = np.concatenate(ids)
-        perm = np.argsort(core_id, kind="stable")
-        table = table.take(perm).reset_index(drop=True)
-        core_id = core_id[perm]
+        if np.any(np.diff(core_id) < 0):  # cores of several files or pieces: in order
+            perm = np.argsort(core_id, kind="stable")
+            table = table.take(perm).reset_index(drop=True)
+            core_id = core_id[perm]
         table["facies"] = table["facies"].astype(str)
         present, first = np.unique(core_id, return_index=True)
         starts = np.r_[first, len(core_id)]
