@@ -183,9 +183,9 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     if not text.strip():
         raise InputError("file is empty", file=file)
     delimiter = _sniff(text, path.suffix.lower())
-    # plain ASCII: the parser reads the bytes as they are (no second, wider copy of the text)
-    stream = io.BytesIO(data) if len(text) == len(data) and text.isascii() else io.StringIO(text)
-    del text
+    # plain ASCII: the parser reads the file itself (no copy of its text held meanwhile)
+    stream = path if len(text) == len(data) and text.isascii() else io.StringIO(text)
+    del text, data
     try:
         # in chunks: the parser's Python strings of one chunk at a time, then pandas text
         chunks = pd.read_csv(
@@ -206,7 +206,7 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
         column = frame.iloc[:, i]
         column = column.str.strip() if column.dtype != float else column
         frame.isetitem(i, column.replace("", np.nan))
-    del stream, data
+    del stream
     if delimiter != ",":
         frame, converted = _decimal_commas(frame)
         if converted:

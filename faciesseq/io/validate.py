@@ -432,12 +432,14 @@ def _prepare(
             ),
             dtype=object,
         )
-    out["_file"] = table.file
+    # one file name per table: categorical codes, not the name repeated on every row
+    out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
     out["_row"] = rows
     keep = ~bad
-    frame = out[keep].reset_index(drop=True)
-    if row_units is not None:
+    frame = out if keep.all() else out[keep].reset_index(drop=True)  # no copy when all kept
+    if row_units is not None and not keep.all():
         row_units = row_units[keep].reset_index(drop=True)
+    del out
     stated = table.units or match.units
     if table.units and match.units and table.units != match.units:
         raise InputError(
@@ -1003,7 +1005,10 @@ def _assemble(
     """The checked intervals of every core as one :class:`CoreTable` (cores in ``order``),
     or one table per core when the files' columns differ."""
     rank = {name: k for k, name in enumerate(order)}
-    frames = [frame for frame, _, _ in blocks]
+    files = sorted({f for frame, _, _ in blocks for f in frame["_file"].cat.categories})
+    frames = [
+        frame.assign(_file=frame["_file"].cat.set_categories(files)) for frame, _, _ in blocks
+    ]
     ids = [np.array([rank[n] for n in names], dtype=np.int64)[which] for _, names, which in blocks]
     if frames and all(
         list(f.columns) == list(frames[0].columns)
