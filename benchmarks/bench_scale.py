@@ -6,6 +6,7 @@ The demo cores (``faciesseq/data/demo/cores.csv``, 17 cores, 2,714 intervals,
 For each size the script runs, as whole processes:
 
 - ``faciesseq markov F --scheme S``
+- ``faciesseq check F --scheme S``
 - ``faciesseq fit F --scheme S --restarts 1 -o model.json`` (unsupervised)
 - ``faciesseq fit F --scheme S -o model.json`` (unsupervised, default settings)
 - ``faciesseq decode model.json F --scheme S -o out``
@@ -19,7 +20,7 @@ repository root::
 
     MPLBACKEND=Agg python benchmarks/bench_scale.py --sizes 10000,100000 --repeat 3
 
-``--commands markov,fit1`` chooses the commands (``markov``, ``fit1``, ``fit``,
+``--commands markov,fit1`` chooses the commands (``markov``, ``check``, ``fit1``, ``fit``,
 ``decode``; ``decode`` decodes with the model of ``fit1``, fitted once per size
 and not timed when ``fit1`` is not chosen); ``--max-seconds`` skips a command at
 the larger sizes once one run of it took longer than that.
@@ -105,6 +106,7 @@ def main() -> None:
             commands = {
                 "read_csv": [py, "-c", f"import pandas; pandas.read_csv({str(data)!r})"],
                 "markov": [*fs, "markov", str(data), "--scheme", str(SCHEME)],
+                "check": [*fs, "check", str(data), "--scheme", str(SCHEME)],
                 "fit1": [
                     *fs,
                     "fit",

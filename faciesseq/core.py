@@ -23,7 +23,7 @@ import pandas as pd
 
 from faciesseq.errors import InputError, Problem
 
-__all__ = ["FT_TO_M", "Core", "CoreSet", "Succession", "to_metres"]
+__all__ = ["FT_TO_M", "Core", "CoreSet", "CoreTable", "Succession", "to_metres"]
 
 #: International foot, exactly (by definition, 1959).
 FT_TO_M = 0.3048
@@ -93,19 +93,7 @@ def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -
         known = values.notna().to_numpy()
         numeric = pd.api.types.is_numeric_dtype(values) and not pd.api.types.is_bool_dtype(values)
         if not numeric or col == "contact":
-            frame = pd.DataFrame(
-                {"bed": bed_id[known], "value": values[known].to_numpy(), "w": thick[known]}
-            )
-            if col == "contact":
-                picked = frame.groupby("bed", sort=True)["value"].last()
-            else:
-                sums = frame.groupby(["bed", "value"], sort=False)["w"].sum().reset_index()
-                order = np.lexsort((-sums["w"].to_numpy(), sums["bed"].to_numpy()))
-                sums = sums.iloc[order]
-                picked = sums.drop_duplicates("bed").set_index("bed")["value"]
-            result = np.full(n_beds, np.nan, dtype=object)
-            result[picked.index.to_numpy(dtype=int)] = picked.to_numpy(dtype=object)
-            out[col] = result
+            out[col] = _aggregate_text(values, known, bed_id, thick, n_beds, col == "contact")
         else:
             v = values.to_numpy(dtype=float)
             w = np.where(known, thick, 0.0)
@@ -123,6 +111,41 @@ def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -
                 )
             out[col] = mean
     return out
+
+
+def _aggregate_text(
+    values: pd.Series,
+    known: np.ndarray,
+    bed_id: np.ndarray,
+    thick: np.ndarray,
+    n_beds: int,
+    lowest: bool,
+) -> np.ndarray:
+    """One text attribute per bed (see :func:`_aggregate`), on integer codes of the values.
+
+    ``lowest``: the value of the bed's lowest known interval; otherwise the value covering
+    most thickness, the first in depth order on ties (thickness summed per bed and value
+    by one grouped sum over integer keys, in order of first appearance).
+    """
+    result = np.full(n_beds, np.nan, dtype=object)
+    rows = np.flatnonzero(known)
+    if len(rows) == 0:
+        return result
+    codes, uniques = pd.factorize(values.to_numpy(dtype=object)[rows])
+    uniques = np.asarray(uniques, dtype=object)
+    beds = bed_id[rows]
+    if lowest:  # the last known interval of each bed in depth order
+        last = np.r_[beds[1:] != beds[:-1], True]
+        result[beds[last]] = uniques[codes[last]]
+        return result
+    key = beds.astype(np.int64) * len(uniques) + codes
+    sums = pd.Series(thick[rows]).groupby(key, sort=False).sum()
+    key_bed = sums.index.to_numpy() // len(uniques)
+    order = np.lexsort((-sums.to_numpy(), key_bed))  # stable: first appearance wins ties
+    first = order[np.r_[True, key_bed[order][1:] != key_bed[order][:-1]]]
+    chosen = sums.index.to_numpy()[first]
+    result[chosen // len(uniques)] = uniques[chosen % len(uniques)]
+    return result
 
 
 def _bed_columns(
@@ -144,8 +167,9 @@ def _bed_columns(
     seg_global = np.cumsum(gap)
     core_start = np.flatnonzero(new_core)
     segment = seg_global - np.repeat(seg_global[core_start], np.diff(np.r_[core_start, n]))
-    facies = table["facies"].to_numpy(dtype=object)
-    new_bed = np.r_[True, (facies[1:] != facies[:-1]) | (seg_global[1:] != seg_global[:-1])]
+    # facies as integer codes: compared without one text object per interval
+    facies_id, facies_names = pd.factorize(table["facies"], use_na_sentinel=False)
+    new_bed = np.r_[True, (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])]
     new_bed |= new_core
     bed_id = np.cumsum(new_bed) - 1
     first = np.flatnonzero(new_bed)
@@ -157,7 +181,9 @@ def _bed_columns(
         "top": top,
         "base": base,
         "thickness": base - top,
-        "facies": facies[first].astype(str).astype(object),
+        "facies": np.asarray(facies_names, dtype=object)[facies_id[first]]
+        .astype(str)
+        .astype(object),
         "n_intervals": (last - first + 1).astype(int),
     }
     data.update(_aggregate(table, bed_id, attributes))
@@ -324,6 +350,58 @@ class Core:
         return out
 
 
+class CoreTable(Mapping):
+    """Cores held as one table of all their intervals; a :class:`Core` is made on first use.
+
+    ``table`` holds the intervals of every core, the cores one after another in
+    ``names`` order and each core's in depth order; ``starts[k]:starts[k + 1]``
+    are the rows of core ``k``. Whole-database work (beds, screening, facies
+    codes) reads the table directly, so a database of many cores costs a few
+    vectorised passes instead of one table per core. ``derived`` keeps what is
+    computed from the table (bed tables by tolerance).
+    """
+
+    def __init__(self, names: list[str], table: pd.DataFrame, starts: np.ndarray, units: str):
+        self.names = list(names)
+        self.table = table
+        self.starts = np.asarray(starts, dtype=np.int64)
+        self.units = units
+        self.derived: dict = {}
+        self._position = {name: k for k, name in enumerate(self.names)}
+        self._made: dict[str, Core] = {}
+
+    def __getitem__(self, name: str) -> Core:
+        core = self._made.get(name)
+        if core is None:
+            k = self._position[name]
+            rows = self.table.iloc[self.starts[k] : self.starts[k + 1]]
+            core = self._made[name] = Core(name, rows, self.units)
+        return core
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.names)
+
+    def __len__(self) -> int:
+        return len(self.names)
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._position
+
+    def core_ids(self) -> np.ndarray:
+        """Core number (position in ``names``) of every row of ``table``."""
+        return np.repeat(np.arange(len(self.names), dtype=np.int64), np.diff(self.starts))
+
+    def subset(self, names: list[str]) -> CoreTable:
+        """The named cores only, in the order given (one take of their rows)."""
+        ks = np.array([self._position[n] for n in names], dtype=np.int64)
+        lengths = np.diff(self.starts)[ks]
+        new_starts = np.r_[0, np.cumsum(lengths)].astype(np.int64)
+        rows = np.repeat(self.starts[ks] - new_starts[:-1], lengths) + np.arange(new_starts[-1])
+        return CoreTable(
+            names, self.table.take(rows).reset_index(drop=True), new_starts, self.units
+        )
+
+
 @dataclass(frozen=True)
 class CoreSet:
     """A core database held in memory: named cores with one depth unit.
@@ -342,6 +420,12 @@ class CoreSet:
     _derived: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
+        if isinstance(self.cores, CoreTable):
+            if self.cores.units != self.units:
+                raise InputError(
+                    f"cores are in {self.cores.units!r} but the core set is in {self.units!r}"
+                )
+            return
         for name, core in self.cores.items():
             if core.units != self.units:
                 raise InputError(
@@ -368,6 +452,13 @@ class CoreSet:
 
     def to_frame(self, provenance: bool = False) -> pd.DataFrame:
         """All intervals in one table (``core`` first), cores in order, depth order within."""
+        if isinstance(self.cores, CoreTable):
+            table = self.cores.table.copy()
+            if not provenance:
+                table = table.drop(columns=[c for c in PROVENANCE if c in table.columns])
+            names = np.array(self.cores.names, dtype=object)
+            table.insert(0, "core", names[self.cores.core_ids()])
+            return table
         frames = []
         for name, core in self.cores.items():
             part = core.intervals.copy()
@@ -416,7 +507,10 @@ class CoreSet:
 
     def facies_codes(self) -> list[str]:
         """Facies codes present, sorted (as text, numbers in numeric order)."""
-        codes = {c for core in self for c in core.intervals["facies"].unique()}
+        if isinstance(self.cores, CoreTable):
+            codes = set(self.cores.table["facies"].unique())
+        else:
+            codes = {c for core in self for c in core.intervals["facies"].unique()}
         return sorted(codes, key=lambda c: (len(c), c))
 
     def _bed_table(self, tolerance: float = DEPTH_TOL) -> tuple[pd.DataFrame, np.ndarray] | None:
@@ -425,8 +519,15 @@ class CoreSet:
         over all intervals. ``None`` where the cores' attribute columns differ (then
         each core is done on its own)."""
         key = ("beds", float(tolerance))
-        if key in self._derived:
-            return self._derived[key]
+        derived = self._cache
+        if key in derived:
+            return derived[key]
+        if isinstance(self.cores, CoreTable):
+            attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
+            data, bed_core = _bed_columns(self.cores.table, self.cores.core_ids(), attrs, tolerance)
+            names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+            derived[key] = (pd.DataFrame(data, columns=names), bed_core)
+            return derived[key]
         result = None
         numbers = [k for k, c in enumerate(self.cores.values()) if len(c.intervals)]
         used = [c for c in self.cores.values() if len(c.intervals)]
@@ -445,8 +546,45 @@ class CoreSet:
                 data, bed_core = _bed_columns(table, core_id, attrs, tolerance)
                 names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
                 result = (pd.DataFrame(data, columns=names), bed_core)
-        self._derived[key] = result
+        derived[key] = result
         return result
+
+    @property
+    def _cache(self) -> dict:
+        """Where derived tables are kept: with the one table of intervals when there is one
+        (so copies of the core set made by ``dataclasses.replace`` share them)."""
+        return self.cores.derived if isinstance(self.cores, CoreTable) else self._derived
+
+    def column(self, name: str) -> np.ndarray:
+        """One interval column over every core (cores in order, depth order within)."""
+        if isinstance(self.cores, CoreTable):
+            return self.cores.table[name].to_numpy()
+        parts = [core.intervals[name].to_numpy() for core in self]
+        return np.concatenate(parts) if parts else np.zeros(0)
+
+    def extents(self, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
+        """Per core (index: name; empty cores left out): ``top``, ``base`` (the deepest
+        base), ``thickness`` (described, gaps excluded) and ``gaps`` (their number)."""
+        if isinstance(self.cores, CoreTable):
+            lengths = np.diff(self.cores.starts)
+        else:
+            lengths = np.array([len(core) for core in self], dtype=np.int64)
+        top = self.column("top").astype(float)
+        base = self.column("base").astype(float)
+        used = lengths > 0
+        first = np.r_[0, np.cumsum(lengths)[:-1]][used]
+        owner = np.repeat(np.arange(len(first)), lengths[used])
+        gap = np.r_[False, top[1:] - base[:-1] > tolerance]
+        gap[first] = False
+        return pd.DataFrame(
+            {
+                "top": top[first],
+                "base": np.maximum.reduceat(base, first) if len(first) else base[:0],
+                "thickness": np.bincount(owner, weights=base - top, minlength=len(first)),
+                "gaps": np.bincount(owner, weights=gap, minlength=len(first)).astype(int),
+            },
+            index=pd.Index([n for n, k in zip(self.cores, used) if k], dtype=object),
+        )
 
     def bed_counts(self, tolerance: float = DEPTH_TOL) -> dict[str, int]:
         """Number of beds of every core (``len(core.beds())``), cores in order."""
@@ -460,13 +598,34 @@ class CoreSet:
         self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
     ) -> list[Succession]:
         """Every core's successions (see :meth:`Core.successions`), cores in order."""
-        found = self._bed_table(tolerance) if unit == "beds" else None
+        found = self.succession_beds(tolerance) if unit == "beds" else None
         if found is None:
             return [s for core in self for s in core.successions(unit, step, tolerance)]
+        beds, starts, cores, segments = found
+        out = []
+        for k, (a, b) in enumerate(zip(starts[:-1].tolist(), starts[1:].tolist())):
+            part = beds.iloc[a:b]
+            part.index = pd.RangeIndex(b - a)
+            out.append(Succession(cores[k], segments[k], part, self.units))
+        return out
+
+    def succession_beds(
+        self, tolerance: float = DEPTH_TOL
+    ) -> tuple[pd.DataFrame, np.ndarray, list[str], list[int]] | None:
+        """The beds of every succession in one table, without making the successions.
+
+        Returns the bed table with the successions one after another (cores in
+        order, then segments from the top of the core), each **base to top**; the
+        first row of each succession and, last, the number of rows; and the core
+        and segment of each succession. ``None`` where the cores' columns differ.
+        """
+        found = self._bed_table(tolerance)
+        if found is None:
+            return None
         table, bed_core = found
         n = len(table)
         if n == 0:
-            return []
+            return table, np.zeros(1, dtype=np.int64), [], []
         segment = table["segment"].to_numpy()
         start = np.flatnonzero(
             np.r_[True, (bed_core[1:] != bed_core[:-1]) | (segment[1:] != segment[:-1])]
@@ -476,13 +635,13 @@ class CoreSet:
         owner = np.repeat(np.arange(len(start)), stop - start)
         order = (start + stop - 1)[owner] - np.arange(n)
         flipped = table.take(order)
-        names = list(self.cores)
-        out = []
-        for a, b in zip(start.tolist(), stop.tolist()):
-            beds = flipped.iloc[a:b]
-            beds.index = pd.RangeIndex(b - a)
-            out.append(Succession(names[bed_core[a]], int(segment[a]), beds, self.units))
-        return out
+        names = np.array(list(self.cores), dtype=object)
+        return (
+            flipped,
+            np.r_[start, n].astype(np.int64),
+            names[bed_core[start]].tolist(),
+            segment[start].astype(int).tolist(),
+        )
 
     def subset(self, names: Iterable[str]) -> CoreSet:
         """A core set with only the named cores (problems of those cores kept)."""
@@ -490,22 +649,27 @@ class CoreSet:
         missing = [n for n in keep if n not in self.cores]
         if missing:
             raise InputError(f"unknown core(s) {missing}")
-        problems = tuple(p for p in self.problems if p.core is None or p.core in keep)
-        out = CoreSet(
-            {n: self.cores[n] for n in keep}, self.units, problems, self.sources, self.meta
-        )
+        kept = set(keep)
+        problems = tuple(p for p in self.problems if p.core is None or p.core in kept)
+        if isinstance(self.cores, CoreTable):
+            if keep == self.cores.names:
+                return CoreSet(self.cores, self.units, problems, self.sources, self.meta)
+            cores = self.cores.subset(keep)
+        else:
+            cores = {n: self.cores[n] for n in keep}
+        out = CoreSet(cores, self.units, problems, self.sources, self.meta)
         # the derived bed tables of the kept cores, in the new order
         position = {n: k for k, n in enumerate(self.cores)}
         new_id = np.full(len(self.cores), -1, dtype=np.int64)
         new_id[[position[n] for n in out.cores]] = np.arange(len(out.cores))
-        for key, found in self._derived.items():
+        for key, found in self._cache.items():
             if found is None:
-                out._derived[key] = None
+                out._cache[key] = None
                 continue
             table, bed_core = found
             ids = new_id[bed_core]
             rows = np.flatnonzero(ids >= 0)
             rows = rows[np.argsort(ids[rows], kind="stable")]
             part = table.take(rows).reset_index(drop=True)
-            out._derived[key] = (part, ids[rows])
+            out._cache[key] = (part, ids[rows])
         return out

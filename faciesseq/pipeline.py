@@ -131,12 +131,17 @@ def run_appendix(
     title
         Title of the appendix (default: the generic one of ``build_appendix``).
     """
-    from faciesseq.markov import analyse
+    from faciesseq.markov import analyse, leave_out_irregular
     from faciesseq.report.appendix import build_appendix
 
     cores.require_valid()
     notes: list[str] = []
     _say(progress, "check", f"{len(cores)} cores, {len(cores.problems)} problems reported")
+    # the cores markov leaves out are left out of the fit, decoding and validation too
+    screening = leave_out_irregular(cores)
+    usable = screening.kept
+    if screening.left_out:
+        notes.append(screening.warning())
 
     markov = analyse(
         cores, scheme=scheme, unit=unit, step=step, surrogates=surrogates, seed=seed, by="core"
@@ -148,7 +153,7 @@ def run_appendix(
         f"p = {markov.first_order.pearson.p_value:.3g}",
     )
 
-    labelled = bool(labels) and has_labels(cores, labels)
+    labelled = bool(labels) and has_labels(usable, labels)
     fit_notes: list[str] = []
     selection = None
     if model is None:
@@ -159,7 +164,7 @@ def run_appendix(
             # supervised: fitted on the interpreted cores (semi-supervised EM over
             # the other cores measured worse in cross-validation; docs/hmm.md)
             selection = select_model(
-                cores.subset(labelled_cores(cores, labels)) if labelled else cores,
+                usable.subset(labelled_cores(usable, labels)) if labelled else usable,
                 substates=tuple(int(k) for k in substates),
                 labels=labels if labelled else None,
                 tract_model=tract_model,
@@ -172,7 +177,7 @@ def run_appendix(
             model = selection.best
         fit_notes = _dedupe(str(w.message) for w in caught)
         how = (
-            f"supervised: fitted on the {len(labelled_cores(cores, labels))} cores with "
+            f"supervised: fitted on the {len(labelled_cores(usable, labels))} cores with "
             f"interpreted beds in column {labels!r}, which keep their tract"
             if labelled
             else "unsupervised"
@@ -205,7 +210,7 @@ def run_appendix(
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        interpretation = model.decode(cores)
+        interpretation = model.decode(usable)
     notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
@@ -219,9 +224,9 @@ def run_appendix(
             with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
                 validation = cross_validate(
-                    cores,
+                    usable,
                     labels,
-                    folds=min(folds, len(cores)),
+                    folds=min(folds, len(usable)),
                     mode=validate_mode,
                     random_state=seed,
                     tract_model=tract_model,

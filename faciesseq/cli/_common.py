@@ -306,3 +306,16 @@ def check_grid_size(cores, unit: str, step: float | None, option: str = "--step"
             f"{option} {step:g} would make about {n:,} grid cells (at most "
             f"{MAX_GRID_CELLS:,}); choose a larger step"
         )
+
+
+def regular_cores(cores, command: str):
+    """The cores without the irregularly sampled ones, which ``markov`` leaves out too
+    (:func:`faciesseq.markov.leave_out_irregular`); one warning line names them."""
+    import sys
+
+    from faciesseq.markov.screening import leave_out_irregular
+
+    screening = leave_out_irregular(cores)
+    if screening.left_out:
+        sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
+    return screening.kept

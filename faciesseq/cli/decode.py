@@ -15,6 +15,7 @@ from faciesseq.cli._common import (
     column_mapping,
     load_scheme_option,
     read_source,
+    regular_cores,
     require_file,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
@@ -250,7 +251,7 @@ def _decode(args: argparse.Namespace):
     scheme = load_scheme_option(args.scheme) or model.scheme
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
-    cores = read_source(args, scheme).require_valid()
+    cores = regular_cores(read_source(args, scheme).require_valid(), "decode")
     check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     successions = cores.successions(model.unit, model.step)
     if not successions:

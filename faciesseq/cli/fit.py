@@ -11,6 +11,7 @@ from faciesseq.cli._common import (
     check_grid_size,
     load_scheme_option,
     read_source,
+    regular_cores,
 )
 from faciesseq.cli._hmm import (
     Progress,
@@ -93,7 +94,7 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
 def _successions(args: argparse.Namespace, scheme):
     """The training successions of SOURCE, refused where there is nothing to fit on."""
-    cores = read_source(args, scheme).require_valid()
+    cores = regular_cores(read_source(args, scheme).require_valid(), "fit")
     check_grid_size(cores, args.unit, args.step)
     if scheme is None:
         sys.stderr.write(

@@ -77,7 +77,7 @@ def read_samples(
     for p in prepared:
         if p.layout != "samples":
             continue
-        raw = p.table.frame.reset_index(drop=True).copy()
+        raw = p.table.frame.reset_index(drop=True).astype(object)
         explicit = {**p.table.roles, **roles}
         matched = match_columns(raw.columns, explicit, file=p.table.file).roles
         if "core" not in matched and "core" not in raw.columns:

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from itertools import pairwise
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet
+from faciesseq.core import DEPTH_TOL, CoreSet, CoreTable
 from faciesseq.errors import Problem
 from faciesseq.scheme import FaciesScheme
 
@@ -136,15 +137,41 @@ def _records(frame: pd.DataFrame) -> list[dict]:
     return out
 
 
-def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSummary:
-    """Per-core and per-facies counts and thicknesses of a core set.
+def _whole_table(cores: CoreSet, steps: dict) -> tuple:
+    """The per-core rows, beds, and interval facies and thicknesses of a core set kept as
+    one table of intervals, by whole-table operations (the same numbers as core by core)."""
+    table = cores.cores.table
+    starts = cores.cores.starts
+    top = table["top"].to_numpy(dtype=float)
+    base = table["base"].to_numpy(dtype=float)
+    thick = base - top
+    extents = cores.extents()
+    gap = np.r_[False, top[1:] - base[:-1] > DEPTH_TOL]
+    gap[starts[:-1]] = False
+    width = np.r_[0.0, top[1:] - base[:-1]]
+    owner = cores.cores.core_ids()
+    bed_table, bed_core = cores._bed_table()
+    core_frame = pd.DataFrame(
+        {
+            "core": cores.names,
+            "intervals": np.diff(starts),
+            "beds": np.bincount(bed_core, minlength=len(cores)),
+            "top": extents["top"].to_numpy(),
+            "base": extents["base"].to_numpy(),
+            # numpy's sum of each core's slice, as Core.thickness sums it
+            "cored_thickness": [float(thick[a:b].sum()) for a, b in pairwise(starts)],
+            "gaps": extents["gaps"].to_numpy(),
+            "gap_thickness": np.bincount(owner[gap], weights=width[gap], minlength=len(cores)),
+            "units": cores.units,
+            "sample_step": [steps.get(name, np.nan) for name in cores.names],
+        },
+        columns=_CORE_COLUMNS,
+    )
+    return core_frame, bed_table, table["facies"], pd.Series(thick)
 
-    Proportions by thickness use described thickness (gaps excluded); bed
-    statistics use beds (adjacent intervals of one facies amalgamated, split at
-    gaps, see :meth:`faciesseq.core.Core.beds`). Facies are listed in scheme
-    order when a scheme is given, else by code.
-    """
-    steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
+
+def _core_by_core(cores: CoreSet, steps: dict) -> tuple:
+    """The per-core rows, beds, and interval facies and thicknesses, core by core."""
     core_rows = []
     bed_tables = []
     for core in cores:
@@ -181,6 +208,22 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
         beds = pd.DataFrame(columns=["facies", "thickness"])
         interval_facies = pd.Series([], dtype=object)
         interval_thick = pd.Series([], dtype=float)
+    return core_frame, beds, interval_facies, interval_thick
+
+
+def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSummary:
+    """Per-core and per-facies counts and thicknesses of a core set.
+
+    Proportions by thickness use described thickness (gaps excluded); bed
+    statistics use beds (adjacent intervals of one facies amalgamated, split at
+    gaps, see :meth:`faciesseq.core.Core.beds`). Facies are listed in scheme
+    order when a scheme is given, else by code.
+    """
+    steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
+    if isinstance(cores.cores, CoreTable):
+        core_frame, beds, interval_facies, interval_thick = _whole_table(cores, steps)
+    else:
+        core_frame, beds, interval_facies, interval_thick = _core_by_core(cores, steps)
     codes = list(cores.facies_codes())
     if scheme is not None:
         present = set(codes)

@@ -152,7 +152,13 @@ def _western(data: bytes) -> str | None:
 def _sniff(text: str, suffix: str) -> str:
     if suffix in (".tsv", ".tab"):
         return "\t"
-    sample = "\n".join(text.splitlines()[:50])
+    size = 1 << 16  # the first 50 lines, without splitting the whole text
+    while True:
+        lines = text[:size].splitlines()
+        if len(lines) > 50 or size >= len(text):
+            break
+        size *= 4
+    sample = "\n".join(lines[:50])
     try:
         return csv.Sniffer().sniff(sample, delimiters=_DELIMITERS).delimiter
     except csv.Error:
@@ -160,6 +166,10 @@ def _sniff(text: str, suffix: str) -> str:
         counts = {d: header.count(d) for d in _DELIMITERS}
         best = max(counts, key=counts.get)
         return best if counts[best] else ","
+
+
+#: Rows parsed at a time (bounds the memory of the parser's intermediate Python strings).
+CHUNK_ROWS = 200_000
 
 
 def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
@@ -173,20 +183,30 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     if not text.strip():
         raise InputError("file is empty", file=file)
     delimiter = _sniff(text, path.suffix.lower())
+    # plain ASCII: the parser reads the file itself (no copy of its text held meanwhile)
+    stream = path if len(text) == len(data) and text.isascii() else io.StringIO(text)
+    del text, data
     try:
-        frame = pd.read_csv(
-            io.StringIO(text),
+        # in chunks: the parser's Python strings of one chunk at a time, then pandas text
+        chunks = pd.read_csv(
+            stream,
             sep=delimiter,
             dtype=str,
             skip_blank_lines=False,
             skipinitialspace=True,
+            chunksize=CHUNK_ROWS,
         )
+        with chunks:
+            frame = pd.concat(list(chunks), ignore_index=True)
     except (pd.errors.ParserError, ValueError) as exc:
         raise InputError(f"not a readable delimited table: {exc}", file=file) from None
     check_width(frame.shape[1], file)
     frame.columns = [str(c).strip() for c in frame.columns]
-    frame = frame.apply(lambda s: s.str.strip() if s.dtype != float else s)
-    frame = frame.replace("", np.nan)
+    for i in range(frame.shape[1]):  # a column at a time: one column's copy alive at once
+        column = frame.iloc[:, i]
+        column = column.str.strip() if column.dtype != float else column
+        frame.isetitem(i, column.replace("", np.nan))
+    del stream
     if delimiter != ",":
         frame, converted = _decimal_commas(frame)
         if converted:
@@ -201,7 +221,8 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     rows = np.arange(1, len(frame) + 1)
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
-    return RawTable(frame.astype(object), file, rows[keep].tolist(), problems=problems)
+    # text columns stay pandas text (not one Python object per cell): a tenth of the memory
+    return RawTable(frame, file, rows[keep].tolist(), problems=problems)
 
 
 _DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"

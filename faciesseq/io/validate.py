@@ -25,15 +25,16 @@ repairs
 
 from __future__ import annotations
 
-import contextlib
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
+from functools import partial
+from itertools import pairwise
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet
+from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
@@ -109,19 +110,56 @@ def facies_code(value: object) -> str | None:
     return code or None
 
 
-def _codes(values: pd.Series) -> list[str | None]:
-    """:func:`facies_code` of each value, each distinct value converted once."""
-    cache: dict[object, str | None] = {}
-    out = []
-    for value in values:
-        try:
-            out.append(cache[value])
-        except (KeyError, TypeError):
-            code = facies_code(value)
-            with contextlib.suppress(TypeError):  # unhashable values are not cached
-                cache[value] = code
-            out.append(code)
+def _distinct(values: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
+    """The distinct values of a column (an object array, in order of first appearance) and
+    the index of each cell's value among them (-1: missing); ``None`` for unhashable values.
+
+    One pass (``pandas.factorize``), so a column of millions of cells costs one
+    conversion per distinct value afterwards, not one per cell.
+    """
+    raw = values.to_numpy(dtype=object) if values.dtype == object else values
+    try:
+        ids, uniques = pd.factorize(raw, use_na_sentinel=True)
+    except TypeError:
+        return None
+    return ids, np.asarray(uniques, dtype=object)
+
+
+def _per_distinct(values: pd.Series, convert) -> np.ndarray:
+    """``convert`` of each value (an object array), each distinct value converted once.
+
+    Missing values (NaN, None) are converted on their own, once per kind of missing value.
+    """
+    found = _distinct(values)
+    if found is None:  # unhashable values: one at a time
+        out = np.empty(len(values), dtype=object)
+        out[:] = [convert(v) for v in values]
+        return out
+    ids, uniques = found
+    done = np.empty(len(uniques) + 1, dtype=object)
+    done[:-1] = [convert(u) for u in uniques]
+    out = done[ids]
+    missing = np.flatnonzero(ids < 0)
+    if len(missing) and values.dtype != object:  # one kind of missing value
+        out[missing] = convert(values.iloc[missing[0]])
+    elif len(missing):
+        kinds: dict[type, object] = {}
+        raw = values.to_numpy(dtype=object)
+        for i, value in zip(missing, raw[missing], strict=True):
+            if type(value) not in kinds:
+                kinds[type(value)] = convert(value)
+            out[i] = kinds[type(value)]
     return out
+
+
+def _codes(values: pd.Series) -> np.ndarray:
+    """:func:`facies_code` of each value, each distinct value converted once."""
+    return _per_distinct(values, facies_code)
+
+
+def _blank(values: pd.Series) -> np.ndarray:
+    """Whether each cell is blank (missing, or text of spaces only)."""
+    return _per_distinct(values, _is_blank).astype(bool)
 
 
 #: Control characters (NUL and the like) that have no place in a code or a name.
@@ -145,13 +183,33 @@ def _is_blank(value: object) -> bool:
         return False
 
 
+def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
+    """Each cell as a number (NaN when blank or not a number) and whether it is blank;
+    each distinct value read once."""
+    found = _distinct(values)
+    if found is None:
+        blank = _blank(values)
+        numbers = pd.to_numeric(values.where(~blank, None), errors="coerce")
+        return numbers.to_numpy(dtype=float), blank
+    ids, uniques = found
+    blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
+    read = pd.to_numeric(pd.Series(uniques, dtype=object).where(~blank[:-1], None), errors="coerce")
+    numbers = np.r_[read.to_numpy(dtype=float), np.nan]
+    return numbers[ids], blank[ids]
+
+
 def _numbers_where_all(values: pd.Series) -> pd.Series:
     """A column becomes numeric when every filled cell is a number; otherwise text as read."""
-    filled = ~values.map(_is_blank)
-    numbers = pd.to_numeric(values.where(filled, None), errors="coerce")
-    if filled.any() and numbers[filled].notna().all():
-        return numbers.astype(float)
-    return values.astype(object).where(filled, None)
+    numbers, blank = _numbers(values)
+    filled = ~blank
+    if filled.any() and not np.isnan(numbers[filled]).any():
+        return pd.Series(numbers, index=values.index)
+    if values.dtype == object:
+        text = values.to_numpy(dtype=object).copy()
+    else:  # the text of each distinct value made once, shared by its cells
+        text = _per_distinct(values, lambda v: v)
+    text[blank] = None
+    return pd.Series(text, index=values.index, dtype=object)
 
 
 @dataclass
@@ -212,18 +270,13 @@ def _prepare(
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
         cores = _codes(src[match.roles["core"]])
-        for i, c in enumerate(cores):
-            if c is None:
-                bad[i] = True
-                problems.append(
-                    Problem(
-                        "error",
-                        "missing-core",
-                        "no core identifier",
-                        file=table.file,
-                        row=int(rows[i]),
-                    )
+        for i in np.flatnonzero(pd.isna(cores)):
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
                 )
+            )
         out["core"] = cores
     else:
         name = table.core or "core"
@@ -244,7 +297,8 @@ def _prepare(
     # -- depths ----------------------------------------------------------------
     for role in roles:
         raw = src[match.roles[role]]
-        numbers = pd.to_numeric(raw.where(~raw.map(_is_blank), None), errors="coerce").astype(float)
+        numbers, blank = _numbers(raw)
+        numbers = pd.Series(numbers)
         nulls = numbers.isin(NULL_NUMBERS).to_numpy()
         infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
         numbers[nulls | infinite] = np.nan
@@ -253,7 +307,7 @@ def _prepare(
             value = raw.iloc[i]
             if nulls[i]:
                 kind, message = "missing-depth", f"{role} holds the null value {value}"
-            elif _is_blank(value):
+            elif blank[i]:
                 kind, message = "missing-depth", f"no {role} depth"
             elif infinite[i]:
                 kind = "bad-depth"
@@ -275,11 +329,14 @@ def _prepare(
 
     # -- facies ----------------------------------------------------------------
     codes = _codes(src[match.roles["facies"]])
+    control, resolved = _facies_flags(codes, scheme)
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
-    for i, code in enumerate(codes):
-        if code is not None and _CONTROL.search(code):
-            bad[i] = True
+    flagged = control | pd.isna(codes)
+    for i in np.flatnonzero(flagged):
+        code = codes[i]
+        bad[i] = True
+        if control[i]:
             problems.append(
                 Problem(
                     "error",
@@ -292,13 +349,9 @@ def _prepare(
                     depth=_depth(first_depth[i]),
                 )
             )
-            continue
-        if code is None:
-            if layout == "samples":
-                not_described.setdefault(out["core"].iloc[i], []).append(i)
-                bad[i] = True
-                continue
-            bad[i] = True
+        elif layout == "samples":
+            not_described.setdefault(out["core"].iloc[i], []).append(i)
+        else:
             problems.append(
                 Problem(
                     "error",
@@ -310,14 +363,12 @@ def _prepare(
                     depth=_depth(first_depth[i]),
                 )
             )
-            continue
-        if scheme is not None:
-            resolved = scheme.resolve(code)
-            if resolved is None:
-                unknown.setdefault((out["core"].iloc[i], code), []).append(i)
-                bad[i] = True
-            else:
-                codes[i] = resolved
+    if scheme is not None:
+        known = ~flagged & ~pd.isna(resolved)
+        for i in np.flatnonzero(~flagged & ~known):
+            unknown.setdefault((out["core"].iloc[i], codes[i]), []).append(i)
+            bad[i] = True
+        codes = np.where(known, resolved, codes)
     for (core, code), idx in unknown.items():
         count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
         problems.append(
@@ -355,10 +406,7 @@ def _prepare(
         attributes.append("grain_size")
     for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
         if role in match.roles:
-            values = [
-                None if _is_blank(v) else (fix(str(v).strip()) if fix else str(v).strip())
-                for v in src[match.roles[role]]
-            ]
+            values = _per_distinct(src[match.roles[role]], partial(_text, fix=fix))
             out[role] = pd.Series(values, dtype=object)
             attributes.append(role)
     unused = [
@@ -379,15 +427,19 @@ def _prepare(
     if "units" in match.roles:
         values = src[match.roles["units"]]
         row_units = pd.Series(
-            [None if _is_blank(v) else normalise_units(v, where=table.file) for v in values],
+            _per_distinct(
+                values, lambda v: None if _is_blank(v) else normalise_units(v, where=table.file)
+            ),
             dtype=object,
         )
-    out["_file"] = table.file
+    # one file name per table: categorical codes, not the name repeated on every row
+    out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
     out["_row"] = rows
     keep = ~bad
-    frame = out[keep].reset_index(drop=True)
-    if row_units is not None:
+    frame = out if keep.all() else out[keep].reset_index(drop=True)  # no copy when all kept
+    if row_units is not None and not keep.all():
         row_units = row_units[keep].reset_index(drop=True)
+    del out
     stated = table.units or match.units
     if table.units and match.units and table.units != match.units:
         raise InputError(
@@ -398,24 +450,44 @@ def _prepare(
     return rows
 
 
+def _text(value: object, fix=None) -> str | None:
+    """A text attribute: stripped (and put in one case by ``fix``); blank is ``None``."""
+    if _is_blank(value):
+        return None
+    text = str(value).strip()
+    return fix(text) if fix else text
+
+
+def _facies_flags(codes: np.ndarray, scheme: FaciesScheme | None) -> tuple[np.ndarray, np.ndarray]:
+    """Per row: whether the code holds a control character, and its scheme code (or None)."""
+    ids, uniques = pd.factorize(codes, use_na_sentinel=True)
+    ctl = np.array([bool(_CONTROL.search(c)) for c in uniques] + [False], dtype=bool)
+    res = np.empty(len(uniques) + 1, dtype=object)
+    if scheme is not None:
+        res[:-1] = [scheme.resolve(c) for c in uniques]
+    return ctl[ids], res[ids]
+
+
+def _grain_size(value: object) -> tuple[float, str | None]:
+    """A grain-size cell as a class number (NaN when blank or not understood) and the
+    word it was read from (``""`` when the cell is neither blank, a number nor a word)."""
+    if _is_blank(value):
+        return np.nan, None
+    try:
+        return float(value), None
+    except (TypeError, ValueError):
+        pass
+    key = re.sub(r"[^a-z]", "", str(value).lower())
+    if key in _GRAIN_WORDS:
+        return _GRAIN_WORDS[key], str(value).strip()
+    return np.nan, ""
+
+
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
-    out = np.full(len(values), np.nan)
-    words: dict[str, float] = {}
-    unread: list[int] = []
-    for i, v in enumerate(values):
-        if _is_blank(v):
-            continue
-        try:
-            out[i] = float(v)
-            continue
-        except (TypeError, ValueError):
-            pass
-        key = re.sub(r"[^a-z]", "", str(v).lower())
-        if key in _GRAIN_WORDS:
-            out[i] = _GRAIN_WORDS[key]
-            words[str(v).strip()] = _GRAIN_WORDS[key]
-        else:
-            unread.append(i)
+    out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
+    word = _per_distinct(values, lambda v: _grain_size(v)[1])
+    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in set(word) if w}
+    unread = np.flatnonzero(word == "")
     if words:
         listed = ", ".join(f"{w!r}={c:g}" for w, c in sorted(words.items()))
         problems.append(
@@ -426,7 +498,7 @@ def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems:
                 file=table.file,
             )
         )
-    if unread:
+    if len(unread):
         shown = sorted({str(values.iloc[i]).strip() for i in unread})[:5]
         problems.append(
             Problem(
@@ -770,58 +842,78 @@ def build_coreset(
     repeated_depths: str = "error",
     sources: tuple[str, ...] = (),
 ) -> CoreSet:
-    """Validate raw tables and assemble the core set (see the module notes for problem kinds)."""
+    """Validate raw tables and assemble the core set (see the module notes for problem kinds).
+
+    The tables are read once: their rows are released as they are taken in (each
+    ``frame`` is left with its columns and no rows).
+    """
     if repeated_depths not in ("error", "keep-first"):
         raise ConfigError(
             f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
         )
     columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
-    prepared = [_prepare(t, layout, columns, scheme) for t in tables]
+    prepared = []
+    for t in tables:
+        prepared.append(_prepare(t, layout, columns, scheme))
+        t.frame = t.frame.iloc[:0]  # the rows now live in the prepared table: one copy kept
     target, unit_problems = _resolve_units(prepared, units)
     tolerance = OVERLAP_TOLERANCE_M if target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
     problems: list[Problem] = list(unit_problems)
     owner: dict[str, str] = {}
-    pieces: dict[str, pd.DataFrame] = {}
+    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]] = []  # rows, names, name of row
     steps: dict[str, float] = {}
     pending: list[tuple[str, pd.DataFrame, _Rows]] = []
     order: list[str] = []
     for p in prepared:
         problems += p.problems
         file = p.table.file
-        names = list(dict.fromkeys(p.frame["core"]))
         # one split of the file's rows by core (not one scan of the table per core)
-        groups = p.frame.groupby("core", sort=False, dropna=False).indices
-        frame = p.frame.drop(columns="core")
-        if p.layout == "intervals":  # the columns a core keeps, chosen once
-            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
-        for name in names:
-            part = frame.take(groups[name]).reset_index(drop=True)
+        local, found_names = pd.factorize(p.frame["core"])
+        names = [str(n) for n in found_names]
+        counts = np.bincount(local, minlength=len(names))
+        first_row = p.frame["_row"].to_numpy()[np.unique(local, return_index=True)[1]]
+        owned = np.zeros(len(names), dtype=bool)
+        for k, name in enumerate(names):
             if name in owner and owner[name] != file:
                 problems.append(
                     Problem(
                         "error",
                         "duplicate-core",
                         f"core {name!r} is also in {owner[name]}; a core must come from one "
-                        f"file or table ({len(part)} row(s) here left out)",
+                        f"file or table ({counts[k]} row(s) here left out)",
                         file=file,
-                        row=int(part["_row"].iloc[0]),
+                        row=int(first_row[k]),
                         core=name,
                     )
                 )
                 continue
             owner[name] = file
             order.append(name)
-            if p.layout == "intervals":
-                part, found = _check_intervals(part, file, name, target, tolerance)
-                problems += found
-                pieces[name] = part
-            else:
+            owned[k] = True
+        rows = np.flatnonzero(owned[local])
+        rows = rows[np.argsort(local[rows], kind="stable")]
+        frame = p.frame.drop(columns="core")
+        if p.layout == "intervals" and len(rows):  # the columns a core keeps, chosen once
+            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+            if not np.array_equal(rows, np.arange(len(frame))):  # else in core order already
+                frame = frame.take(rows).reset_index(drop=True)
+            part, core_of_row, found = _check_all_intervals(
+                frame, local[rows], names, file, target, tolerance
+            )
+            problems += found
+            blocks.append((part, names, core_of_row))
+        elif len(rows):
+            bounds = np.flatnonzero(np.r_[True, np.diff(local[rows]) != 0, True])
+            for a, b in pairwise(bounds):
+                name = names[local[rows[a]]]
+                part = frame.take(rows[a:b]).reset_index(drop=True)
                 part, found = _check_samples(part, file, name, target, repeated_depths)
                 problems += found
                 pending.append((name, part, p))
                 step = _modal_step(part["depth"].to_numpy(dtype=float))
                 if step is not None:
                     steps[name] = step
+        p.frame = None  # the rows live on in the blocks; nothing keeps a second copy
         # cores whose every row had an error still exist: report them as empty
         for prob in p.problems:
             if prob.core and prob.core not in owner:
@@ -846,11 +938,10 @@ def build_coreset(
         steps[name] = step
         table, found = _samples_to_intervals(part, p.attributes, step, p.table.file, name, target)
         problems += found
-        pieces[name] = table
-    cores: dict[str, Core] = {}
+        blocks.append((table, [name], np.zeros(len(table), dtype=np.int64)))
+    cores = _assemble(blocks, order, target)
     for name in order:
-        part = pieces.get(name)
-        if part is None or len(part) == 0:
+        if name not in cores:
             problems.append(
                 Problem(
                     "warning",
@@ -860,17 +951,20 @@ def build_coreset(
                     core=name,
                 )
             )
-            continue
-        cores[name] = Core(name, part.reset_index(drop=True), target)
     # beds of every core at once (one vectorised pass, kept for the analyses)
     derived = CoreSet(cores, target)
+    n_intervals = (
+        dict(zip(derived.names, np.diff(cores.starts)))
+        if isinstance(cores, CoreTable)
+        else {n: len(c) for n, c in cores.items()}
+    )
     for name, n_beds in derived.bed_counts().items():
         if n_beds < 2:
             problems.append(
                 Problem(
                     "warning",
                     "too-short",
-                    f"only {n_beds} bed ({len(cores[name])} interval(s)): too short for "
+                    f"only {n_beds} bed ({n_intervals[name]} interval(s)): too short for "
                     "transition statistics",
                     file=owner.get(name),
                     core=name,
@@ -882,7 +976,7 @@ def build_coreset(
         "columns": {p.table.file: p.roles for p in prepared},
     }
     if any(p.kind == "units" for p in unit_problems):
-        suspect = feet_suspected(cores.values(), meta["sample_step"])
+        suspect = feet_suspected(derived, meta["sample_step"])
         if suspect is not None:
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
@@ -900,8 +994,109 @@ def build_coreset(
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
     coreset = CoreSet(cores, target, tuple(problems), sources, meta)
-    coreset._derived.update(derived._derived)
+    if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
+        coreset._derived.update(derived._derived)
     return coreset
+
+
+def _assemble(
+    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]], order: list[str], units: str
+) -> CoreTable | dict[str, Core]:
+    """The checked intervals of every core as one :class:`CoreTable` (cores in ``order``),
+    or one table per core when the files' columns differ."""
+    rank = {name: k for k, name in enumerate(order)}
+    files = sorted({f for frame, _, _ in blocks for f in frame["_file"].cat.categories})
+    frames = [
+        frame.assign(_file=frame["_file"].cat.set_categories(files)) for frame, _, _ in blocks
+    ]
+    ids = [np.array([rank[n] for n in names], dtype=np.int64)[which] for _, names, which in blocks]
+    if frames and all(
+        list(f.columns) == list(frames[0].columns)
+        and f.dtypes.tolist() == frames[0].dtypes.tolist()
+        for f in frames
+    ):
+        table = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
+        core_id = np.concatenate(ids)
+        if np.any(np.diff(core_id) < 0):  # cores of several files or pieces: in order
+            perm = np.argsort(core_id, kind="stable")
+            table = table.take(perm).reset_index(drop=True)
+            core_id = core_id[perm]
+        table["facies"] = table["facies"].astype(str)
+        present, first = np.unique(core_id, return_index=True)
+        starts = np.r_[first, len(core_id)]
+        return CoreTable([order[k] for k in present], table, starts, units)
+    cores: dict[str, Core] = {}
+    for frame, names, which in blocks:
+        for k, rows in pd.Series(np.arange(len(which))).groupby(which, sort=False).indices.items():
+            cores[names[k]] = Core(names[k], frame.take(rows).reset_index(drop=True), units)
+    return {name: cores[name] for name in order if name in cores}
+
+
+def _check_all_intervals(
+    frame: pd.DataFrame,
+    core_of_row: np.ndarray,
+    names: list[str],
+    file: str,
+    units: str,
+    tolerance: float,
+) -> tuple[pd.DataFrame, np.ndarray, list[Problem]]:
+    """:func:`_check_intervals` of every core of one table at once.
+
+    ``frame`` holds the cores' rows one core after another (``core_of_row``, an
+    index into ``names``). Cores whose only findings can be gaps (every interval
+    thicker than zero, in depth order, none overlapping the one above) are checked
+    in one vectorised pass; the others one by one. Returns the kept rows (cores in
+    the same order), the core of each and the problems.
+    """
+    top = frame["top"].to_numpy(dtype=float)
+    base = frame["base"].to_numpy(dtype=float)
+    new_core = np.r_[True, core_of_row[1:] != core_of_row[:-1]]
+    thin = (top > base) | (base - top <= DEPTH_TOL)
+    overlap = base[:-1] - top[1:]  # with the interval above, as _check_intervals measures it
+    step_top, step_base = np.diff(top), np.diff(base)
+    in_order = (step_top > 0) | ((step_top == 0) & (step_base >= 0))
+    odd = thin | (np.r_[False, ~in_order | (overlap > DEPTH_TOL)] & ~new_core)
+    dirty = np.zeros(len(names), dtype=bool)
+    dirty[core_of_row[odd]] = True
+    problems: list[Problem] = []
+    rows = frame["_row"].to_numpy()
+    gap = np.r_[False, -overlap > DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
+    for i in np.flatnonzero(gap):
+        problems.append(
+            Problem(
+                "warning",
+                "gap",
+                f"gap from {base[i - 1]:g} to {top[i]:g} ({-overlap[i - 1]:.4g} {units}) above "
+                "this interval: successions are split here",
+                file=file,
+                row=int(rows[i]),
+                core=names[core_of_row[i]],
+                depth=float(base[i - 1]),
+                units=units,
+            )
+        )
+    if not dirty.any():
+        return frame, core_of_row, problems
+    parts = [frame[~dirty[core_of_row]]]
+    which = [core_of_row[~dirty[core_of_row]]]
+    starts = np.flatnonzero(new_core)
+    ends = np.r_[starts[1:], len(top)]
+    for a, b in zip(starts, ends):
+        k = core_of_row[a]
+        if dirty[k]:
+            part, found = _check_intervals(
+                frame.iloc[a:b].reset_index(drop=True), file, names[k], units, tolerance
+            )
+            problems += found
+            parts.append(part)
+            which.append(np.full(len(part), k, dtype=np.int64))
+    core_ids = np.concatenate(which)
+    perm = np.argsort(core_ids, kind="stable")
+    return (
+        pd.concat(parts, ignore_index=True).take(perm).reset_index(drop=True),
+        core_ids[perm],
+        problems,
+    )
 
 
 #: Depths (read as metres) from which typical feet sample spacings look suspicious.
@@ -922,13 +1117,16 @@ def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
     Dubois et al. 2007, Computers & Geosciences 33:599-617, are 0.5 ft samples
     near 2,700-3,100 ft). Only called when the source states no units.
     """
-    cores = list(cores)
-    tops = [core.intervals["top"].to_numpy(dtype=float) for core in cores if len(core)]
-    if not tops:
+    if isinstance(cores, CoreSet):
+        depths, bases = cores.column("top").astype(float), cores.column("base").astype(float)
+    else:
+        cores = [core for core in cores if len(core)]
+        depths = np.concatenate([c.intervals["top"].to_numpy(dtype=float) for c in cores] or [[]])
+        bases = np.concatenate([c.intervals["base"].to_numpy(dtype=float) for c in cores] or [[]])
+    if not len(depths):
         return None
-    depths = np.concatenate(tops)
     median = float(np.median(depths))
-    deepest = float(max(core.intervals["base"].max() for core in cores if len(core)))
+    deepest = float(bases.max())
     steps = [s for s in sample_step.values() if any(abs(s - f) < 1e-6 for f in FEET_STEPS)]
     if median >= FEET_DEPTH_M and steps:
         why = f"{steps[0]:g} steps near {median:,.0f}"

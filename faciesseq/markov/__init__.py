@@ -25,7 +25,7 @@ from faciesseq.markov.counts import (
 )
 from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
 from faciesseq.markov.order import OrderResult, order_analysis
-from faciesseq.markov.screening import screen_cores
+from faciesseq.markov.screening import Screening, leave_out_irregular, screen_cores
 
 __all__ = [
     "SCHEMA",
@@ -33,12 +33,14 @@ __all__ = [
     "HomogeneityResult",
     "MarkovReport",
     "OrderResult",
+    "Screening",
     "TestResult",
     "analyse",
     "encode",
     "fixed_vector",
     "homogeneity_test",
     "independence_test",
+    "leave_out_irregular",
     "n_step",
     "ngram_counts",
     "order_analysis",

@@ -21,6 +21,7 @@ from faciesseq.markov.counts import (
     EncodedSuccessions,
     batch_ngram_counts,
     encode,
+    encode_flat,
     fixed_vector,
     labelled,
     n_step,
@@ -30,7 +31,7 @@ from faciesseq.markov.counts import (
 from faciesseq.markov.cyclicity import CyclicityResult, cyclicity
 from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
 from faciesseq.markov.order import OrderResult, conditional_g2, order_analysis
-from faciesseq.markov.screening import screen_cores
+from faciesseq.markov.screening import leave_out_irregular
 from faciesseq.markov.surrogates import (
     monte_carlo_p_value,
     restricted_permutations,
@@ -265,34 +266,48 @@ def _as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
 
 
 def _groups(
-    successions: Sequence, enc: EncodedSuccessions, by: str
+    successions: Sequence | None, beds: pd.DataFrame | None, enc: EncodedSuccessions, by: str
 ) -> tuple[np.ndarray, list[str], int]:
-    """Group index of every transition (-1 = between groups), labels, number left out."""
-    labels: dict[str, int] = {}
-    per: list[np.ndarray] = []
-    for k, succ in enumerate(successions):
-        n = int(enc.lengths[k])
-        if n < 2:
-            continue
-        if by == "core":
-            name = str(enc.cores[k])
-            g = labels.setdefault(name, len(labels))
-            per.append(np.full(n - 1, g, dtype=np.int64))
-            continue
-        beds = getattr(succ, "beds", None)
-        if beds is None or by not in beds.columns:
+    """Group index of every transition (-1 = between groups), labels, number left out.
+
+    The bed column ``by`` is read from ``beds`` (every succession's beds one after
+    another, as :meth:`~faciesseq.core.CoreSet.succession_beds` gives them) or else
+    from each of ``successions``. Labels are numbered in order of first appearance.
+    """
+    used = enc.lengths >= 2
+    if by == "core":
+        ids, labels = pd.factorize(np.array(enc.cores, dtype=object)[used])
+        group = np.repeat(ids.astype(np.int64), enc.lengths[used] - 1)
+        return group, [str(label) for label in labels], 0
+    if beds is None:
+        parts = []
+        for k, succ in enumerate(successions):
+            table = getattr(succ, "beds", None)
+            if used[k] and (table is None or by not in table.columns):
+                raise ConfigError(
+                    f"--by {by}: no such column in the beds (columns: "
+                    f"{[] if table is None else list(table.columns)})"
+                )
+            parts.append(table[by].to_numpy(dtype=object) if used[k] else np.zeros(0, object))
+        values = np.concatenate(parts) if parts else np.zeros(0, dtype=object)
+        keep = np.ones(len(values), dtype=bool)
+    else:
+        if by not in beds.columns and used.any():
             raise ConfigError(
-                f"--by {by}: no such column in the beds (columns: "
-                f"{[] if beds is None else list(beds.columns)})"
+                f"--by {by}: no such column in the beds (columns: {list(beds.columns)})"
             )
-        values = beds[by].astype(object).where(beds[by].notna(), None).to_numpy()
-        ids = np.array(
-            [-1 if _label(v) is None else labels.setdefault(_label(v), len(labels)) for v in values]
-        )
-        same = (ids[:-1] == ids[1:]) & (ids[:-1] >= 0)
-        per.append(np.where(same, ids[:-1], -1))
-    group = np.concatenate(per) if per else np.zeros(0, dtype=np.int64)
-    return group, list(labels), int((group < 0).sum())
+        values = beds[by].to_numpy(dtype=object) if by in beds.columns else np.zeros(0, object)
+        keep = np.repeat(used, enc.lengths)
+    values = values[keep]
+    labels = np.array([_label(v) for v in pd.Series(values).where(pd.notna(values), None)])
+    ids, names = pd.factorize(labels.astype(object), use_na_sentinel=True)
+    lengths = enc.lengths[used]
+    last = np.cumsum(lengths) - 1  # the top bed of each succession: no transition from it
+    pair = np.ones(len(ids), dtype=bool)
+    pair[last] = False
+    same = np.r_[(ids[:-1] == ids[1:]) & (ids[:-1] >= 0), False]
+    group = np.where(same, ids, -1)[pair].astype(np.int64)
+    return group, [str(name) for name in names], int((group < 0).sum())
 
 
 def _grouped_counts(enc: EncodedSuccessions, group: np.ndarray, n_groups: int) -> np.ndarray:
@@ -440,27 +455,36 @@ def analyse(
         raise ConfigError(f"--surrogates must be 0 or more, got {surrogates}")
     warnings: list[str] = []
     excluded: list[str] = []
+    found = beds = successions = None
     if isinstance(data, CoreSet):
         if by is not None and by != "core":
             data, by = _as_groups(data, by)
         if unit == "grid" and not (step is not None and step > 0):
             raise ConfigError("--unit grid needs a positive --step (depth units)")
-        problems = screen_cores(data, min_coverage=min_coverage)
-        for p in problems:
+        screening = leave_out_irregular(data, min_coverage=min_coverage)
+        for p in screening.problems:
             if not exclude_irregular:
                 warnings.append(f"core {p.core} analysed although irregular: {p.message}")
             elif p.core not in excluded:
                 excluded.append(p.core)
                 warnings.append(f"core {p.core} left out: {p.message}")
-        keep = [n for n in data.names if n not in excluded]
-        successions = data.subset(keep).successions(unit, step)
+        kept = screening.kept if exclude_irregular else data
+        found = kept.succession_beds() if unit == "beds" else None
+        if found is None:
+            successions = kept.successions(unit, step)
+        else:
+            beds, starts, succession_cores, segments = found
         if codes is None and scheme is None:
-            codes = data.subset(keep).facies_codes() if keep else []
+            codes = kept.facies_codes() if len(kept) else []
     else:
         successions = list(data)
     if codes is None:
         codes = list(scheme.codes_by_rank) if scheme is not None else None
-    enc = encode(successions, codes)
+    if found is None:
+        enc = encode(successions, codes)
+    else:
+        lengths = np.diff(starts)
+        enc = encode_flat(beds["facies"].to_numpy(), lengths, succession_cores, segments, codes)
     if enc.m ** (max_order + 1) > 20_000_000:
         raise ConfigError(
             f"--max-order {max_order} with {enc.m} facies needs {enc.m}^{max_order + 1} "
@@ -487,7 +511,7 @@ def analyse(
         sur = _surrogate_tests(enc, embedded, surrogates, seed, max_order)
     homog = None
     if by is not None:
-        group, labels, left_out = _groups(successions, enc, by)
+        group, labels, left_out = _groups(successions, beds, enc, by)
         if len(labels) >= 2:
             homog = homogeneity_test(_grouped_counts(enc, group, len(labels)), labels, by, left_out)
         else:

@@ -26,6 +26,7 @@ __all__ = [
     "EncodedSuccessions",
     "batch_ngram_counts",
     "encode",
+    "encode_flat",
     "fixed_vector",
     "labelled",
     "n_step",
@@ -134,7 +135,36 @@ def encode(successions: Sequence, codes: Sequence[str] | None = None) -> Encoded
     integer_input = bool(seqs) and all(np.issubdtype(s.dtype, np.integer) for s in seqs)
     lengths = np.array([len(s) for s in seqs], dtype=np.int64)
     flat = np.concatenate(seqs) if seqs else np.zeros(0, dtype=np.int64)
-    owner = np.repeat(np.arange(len(seqs)), lengths)
+    return _encode_flat(flat, lengths, cores, segments, codes, integer_input)
+
+
+def encode_flat(
+    facies: np.ndarray,
+    lengths: np.ndarray,
+    cores: Sequence[str],
+    segments: Sequence[int],
+    codes: Sequence[str] | None = None,
+) -> EncodedSuccessions:
+    """:func:`encode` of successions given as one array of facies codes.
+
+    ``facies`` holds every succession one after another, each base to top;
+    ``lengths``, ``cores`` and ``segments`` describe the successions in that order.
+    The same as :func:`encode` of the successions cut from it, without making them.
+    """
+    flat = np.asarray(facies, dtype=object)
+    lengths = np.asarray(lengths, dtype=np.int64)
+    return _encode_flat(flat, lengths, list(cores), list(segments), codes, False)
+
+
+def _encode_flat(
+    flat: np.ndarray,
+    lengths: np.ndarray,
+    cores: list[str],
+    segments: list[int],
+    codes: Sequence[str] | None,
+    integer_input: bool,
+) -> EncodedSuccessions:
+    owner = np.repeat(np.arange(len(lengths)), lengths)
     if integer_input:
         top = int(flat.max()) if len(flat) else -1
         if codes is None:
