@@ -71,6 +71,22 @@ def test_files_are_all_there(written):
     assert [p.name for p in out.parent.iterdir()] == ["appendix"]
 
 
+def test_html_embeds_the_interactive_view_written_beside_it(written):
+    """The strip-log view is embedded whole (an inline frame's srcdoc), so the appendix
+    stays one self-contained file; the same page is written beside it and named in LaTeX."""
+    import html
+
+    _, _, out = written
+    page = (out / "appendix.html").read_text(encoding="utf-8")
+    frames = re.findall(r'<iframe [^>]*srcdoc="([^"]*)"', page)
+    assert len(frames) == 1
+    view = (out / "view.html").read_text(encoding="utf-8")
+    assert html.unescape(frames[0]) == view
+    assert view.startswith("<!DOCTYPE html>") and "W-1" in view
+    assert EVIL not in view  # the hostile core name reaches the view as escaped JSON only
+    assert r"\texttt{view.html}" in (out / "appendix.tex").read_text(encoding="utf-8")
+
+
 def test_sections_in_order(written):
     appendix, _, out = written
     top = [t for t in appendix.section_titles() if re.match(r"^\d+ ", t)]

@@ -38,6 +38,7 @@ def test_appendix_opens_in_chromium_without_errors(tmp_path):
         assert f'id="sec-{k}"' in dom
     assert dom.count("<table") == len([t for t in appendix.tables() if t.shown])
     assert dom.count("<img") == len(appendix.figures())
+    assert dom.count("<iframe") == 1  # the interactive view, its script errors in the log
     assert "&lt;b&gt;bold&lt;/b&gt;" in dom and "<b>bold</b>" not in dom
     with Image.open(shot) as img:
         assert img.size == (1200, 2000)

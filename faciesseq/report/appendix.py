@@ -43,6 +43,7 @@ from faciesseq.report.document import (
     Paragraph,
     Section,
     TableBlock,
+    ViewBlock,
 )
 from faciesseq.report.methods import methods_section
 from faciesseq.scheme import FaciesScheme, TractModel
@@ -413,6 +414,17 @@ def _cores_section(
         s.add(Paragraph(interpretation.probabilities_note, kind="note"))
     for note in notes:
         s.add(Paragraph(f"Note from decoding: {note}", kind="note"))
+    from faciesseq.report.view import view_html
+
+    s.add(
+        ViewBlock(
+            "view",
+            "Every decoded core side by side: zoom and scroll in depth, hover a bed for its "
+            "facies, thickness, tract probabilities and the surface probabilities at its "
+            "contacts, switch tracks on and off.",
+            view_html(interpretation, scheme, tract_model),
+        )
+    )
     summary_rows = []
     results["cores"] = {}
     for k, core in enumerate(interpretation, start=1):
@@ -686,6 +698,8 @@ def _fill_folder(
         if latex:
             pdf = _figure_bytes(block.figure, "pdf", dpi)
             (tmp / "figures" / f"{block.key}.pdf").write_bytes(pdf)
+    for view in document.views():
+        (tmp / f"{view.key}.html").write_text(view.html, encoding="utf-8")
     prov = appendix.provenance
     meta = []
     software = prov.get("software", {}) if isinstance(prov, Mapping) else {}
@@ -694,6 +708,7 @@ def _fill_folder(
     if prov.get("date"):
         meta.append(f"written {prov['date']}")
     data_files = [(f"tables/{t.key}.csv", t.caption) for t in document.tables(shown=False)]
+    data_files += [(f"{v.key}.html", v.caption) for v in document.views()]
     data_files += [
         ("appendix.json", "every number of this appendix at full precision"),
         ("provenance.json", "input file hashes, software versions, seeds, command line"),

@@ -265,7 +265,25 @@ class FigureBlock:
             raise ValueError(f"figure key {self.key!r} must be lower-case letters, digits, _.-")
 
 
-Block = Paragraph | Equation | TableBlock | FigureBlock
+@dataclass(frozen=True)
+class ViewBlock:
+    """An interactive page (one self-contained HTML document) with its caption.
+
+    The HTML appendix embeds it (an inline frame holding the whole page, so its
+    script and style stay apart from the appendix's); it is also written beside
+    the appendix as ``<key>.html``, which the LaTeX version names.
+    """
+
+    key: str
+    caption: str
+    html: str = field(repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        if not _KEY.match(self.key):
+            raise ValueError(f"view key {self.key!r} must be lower-case letters, digits, _.-")
+
+
+Block = Paragraph | Equation | TableBlock | FigureBlock | ViewBlock
 
 
 @dataclass
@@ -315,6 +333,9 @@ class Document:
 
     def figures(self) -> list[FigureBlock]:
         return [b for b in self.blocks() if isinstance(b, FigureBlock)]
+
+    def views(self) -> list[ViewBlock]:
+        return [b for b in self.blocks() if isinstance(b, ViewBlock)]
 
     def numbering(self) -> dict[str, int]:
         """Numbers of shown tables (key ``table:<key>``) and figures (``figure:<key>``)."""

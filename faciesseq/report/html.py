@@ -20,6 +20,7 @@ from faciesseq.report.document import (
     FigureBlock,
     Paragraph,
     TableBlock,
+    ViewBlock,
 )
 
 __all__ = ["CSS", "render_html", "table_html"]
@@ -57,6 +58,8 @@ table.data tbody th { text-align: left; font-weight: 600; }
 p.source { font-size: 0.75rem; color: var(--muted); margin: 0 0 1.2rem; }
 figure { margin: 1.2rem 0; text-align: center; }
 figure img { max-width: 100%; height: auto; }
+figure.view iframe { width: 100%; height: 80vh; border: 1px solid var(--rule); }
+@media print { figure.view iframe { display: none; } }
 figcaption { text-align: left; font-size: 0.9rem; margin-top: 0.4rem; }
 .eq { font-family: "DejaVu Serif", Georgia, serif; text-align: center; margin: 0.6rem 0;
   white-space: pre-wrap; }
@@ -136,6 +139,17 @@ def _figure_html(block: FigureBlock, number: int, png: bytes | None, dpi: int = 
     )
 
 
+def _view_html(block: ViewBlock) -> str:
+    """An interactive page in an inline frame (``srcdoc``: nothing fetched), with a
+    link to the same page written beside the appendix."""
+    return (
+        f'<figure class="view"><iframe title="{escape(block.caption)}" '
+        f'srcdoc="{escape(block.html, quote=True)}" sandbox="allow-scripts"></iframe>'
+        f"<figcaption>{escape(block.caption)} The same page on its own: "
+        f'<a href="{escape(block.key)}.html">{escape(block.key)}.html</a>.</figcaption></figure>'
+    )
+
+
 def render_html(
     document: Document,
     pngs: Mapping[str, bytes],
@@ -194,6 +208,8 @@ def render_html(
                 body.append(
                     _figure_html(block, numbers[f"figure:{block.key}"], pngs.get(block.key), dpi)
                 )
+            elif isinstance(block, ViewBlock):
+                body.append(_view_html(block))
     while depth_open > 0:
         toc.append("</ol>")
         depth_open -= 1

@@ -13,7 +13,14 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from faciesseq.report.document import Document, Equation, FigureBlock, Paragraph, TableBlock
+from faciesseq.report.document import (
+    Document,
+    Equation,
+    FigureBlock,
+    Paragraph,
+    TableBlock,
+    ViewBlock,
+)
 
 __all__ = ["latex_escape", "render_latex", "table_latex"]
 
@@ -267,5 +274,10 @@ def render_latex(document: Document, *, meta: Sequence[str] = ()) -> str:
                 n_figures += 1
                 if n_figures % 6 == 0:
                     out.append(r"\clearpage")  # LaTeX holds at most 18 floats in waiting
+            elif isinstance(block, ViewBlock):
+                out.append(
+                    f"{latex_escape(block.caption)} Interactive page (a web browser): "
+                    rf"\texttt{{{latex_escape(block.key)}.html}}" + "\n"
+                )
     out.append(r"\end{document}")
     return "\n".join(out) + "\n"
