@@ -98,6 +98,16 @@ def test_missing_dask_extra_is_named(monkeypatch):
 
 
 # ---------------------------------------------------------- the command line
+COMMANDS = {
+    "fit": ["fit", "{cores}", "-o", "{out}"],
+    "validate": ["validate", "{cores}", "--labels", "tract", "-o", "{out}"],
+    "decode": ["decode", "model.json", "{cores}", "-o", "{out}"],
+    "markov": ["markov", "{cores}", "-o", "{out}"],
+    "appendix": ["appendix", "{cores}", "--scheme", "{scheme}", "-o", "{out}"],
+}
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
 @pytest.mark.parametrize(
     ("args", "message"),
     [
@@ -106,9 +116,10 @@ def test_missing_dask_extra_is_named(monkeypatch):
         (["--scheduler", "my-cluster"], "--scheduler must be a Dask scheduler address"),
     ],
 )
-def test_bad_parallel_options_exit_2_with_one_line(database, tmp_path, args, message):
-    out = tmp_path / "model.json"
-    code, _, err = _run("fit", str(database / "cores.csv"), *args, "-o", str(out))
+def test_bad_parallel_options_exit_2_with_one_line(database, tmp_path, command, args, message):
+    out = tmp_path / "out"
+    names = {"cores": database / "cores.csv", "scheme": database / "scheme.yaml", "out": out}
+    code, _, err = _run(*[a.format(**names) for a in COMMANDS[command]], *args)
     assert code == 2
     assert err.count("\n") == 1 and message in err
     assert not out.exists()

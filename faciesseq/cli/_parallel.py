@@ -34,7 +34,7 @@ def add_parallel_arguments(parser: argparse.ArgumentParser, what: str) -> None:
 
 def parallel_options(args: argparse.Namespace) -> tuple[int, str | None]:
     """``(n_jobs, scheduler)`` of checked options; a given scheduler is contacted once
-    here, so that a wrong address fails before any data is read.
+    here, so that a wrong address fails before any job is started.
 
     Raises
     ------
