@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import os
 import re
+import sys
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -36,6 +37,7 @@ __all__ = [
     "job_seeds",
     "run_jobs",
     "scheduler_address",
+    "stop_local_workers",
 ]
 
 #: Environment variable holding a Dask scheduler address used when ``--scheduler`` is not given.
@@ -164,3 +166,15 @@ def run_jobs(
 
     workers = min(int(n_jobs), len(jobs))
     return Parallel(n_jobs=workers, backend="loky")(delayed(function)(*a) for a in jobs)
+
+
+def stop_local_workers() -> None:
+    """End the local worker processes of :func:`run_jobs` and wait for them.
+
+    joblib keeps its workers between calls (a fit dispatches several loops); a
+    command stops them when it is done, so that none outlives it.
+    """
+    loky = sys.modules.get("joblib.externals.loky.reusable_executor")
+    executor = getattr(loky, "_executor", None)
+    if executor is not None:
+        executor.shutdown(wait=True)

@@ -193,6 +193,17 @@ def test_surrogate_p_values_do_not_depend_on_where_the_blocks_ran(database, clus
     assert _p_values(database, "--scheduler", cluster) == serial
 
 
+def test_no_local_worker_outlives_the_command(database):
+    psutil = pytest.importorskip("psutil")
+
+    def workers():
+        children = psutil.Process().children(recursive=True)
+        return [p for p in children if "LokyProcess" in " ".join(p.cmdline())]
+
+    _p_values(database, "--jobs", "2")
+    assert workers() == []
+
+
 def test_decoded_columns_identical_serial_local_and_on_dask(
     database, tmp_path, cluster, monkeypatch
 ):
