@@ -3,7 +3,8 @@
 ``pip install faciesseq`` reads and writes CSV, TSV and Parquet. Excel
 workbooks need ``faciesseq[excel]`` (openpyxl), LAS files ``faciesseq[las]``
 (lasio) and databases ``faciesseq[sql]`` (SQLAlchemy, and psycopg2 for
-PostgreSQL). A missing one is reported as one line naming the extra.
+PostgreSQL); runs on a Dask cluster need ``faciesseq[dask]`` (distributed).
+A missing one is reported as one line naming the extra.
 """
 
 from __future__ import annotations
@@ -16,7 +17,13 @@ from faciesseq.errors import ConfigError
 __all__ = ["EXTRAS", "MissingExtraError", "import_optional"]
 
 #: Optional module -> the extra that installs it.
-EXTRAS = {"openpyxl": "excel", "lasio": "las", "sqlalchemy": "sql", "psycopg2": "sql"}
+EXTRAS = {
+    "openpyxl": "excel",
+    "lasio": "las",
+    "sqlalchemy": "sql",
+    "psycopg2": "sql",
+    "distributed": "dask",
+}
 
 
 class MissingExtraError(ConfigError):

@@ -92,6 +92,8 @@ def run_appendix(
     provenance: Mapping[str, Any] | None = None,
     progress: Progress | None = None,
     title: str | None = None,
+    n_jobs: int = 1,
+    scheduler: str | None = None,
 ) -> RunResult:
     """Markov statistics, tract model (fitted if not given), decoding, validation, appendix.
 
@@ -130,6 +132,10 @@ def run_appendix(
         ``progress(step, message)`` after each step.
     title
         Title of the appendix (default: the generic one of ``build_appendix``).
+    n_jobs, scheduler
+        Where the independent jobs of every step run: ``n_jobs`` local processes
+        or the Dask cluster at ``scheduler`` (:mod:`faciesseq.parallel`); the
+        results do not depend on either.
     """
     from faciesseq.markov import analyse, leave_out_irregular
     from faciesseq.report.appendix import build_appendix
@@ -143,8 +149,16 @@ def run_appendix(
     if screening.left_out:
         notes.append(screening.warning())
 
+    parallel = {"n_jobs": n_jobs, "scheduler": scheduler}
     markov = analyse(
-        cores, scheme=scheme, unit=unit, step=step, surrogates=surrogates, seed=seed, by="core"
+        cores,
+        scheme=scheme,
+        unit=unit,
+        step=step,
+        surrogates=surrogates,
+        seed=seed,
+        by="core",
+        **parallel,
     )
     _say(
         progress,
@@ -173,6 +187,7 @@ def run_appendix(
                 unit=unit,
                 step=step,
                 random_state=seed,
+                **parallel,
             )
             model = selection.best
         fit_notes = _dedupe(str(w.message) for w in caught)
@@ -210,7 +225,7 @@ def run_appendix(
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        interpretation = model.decode(usable)
+        interpretation = model.set_params(**parallel).decode(usable)
     notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
@@ -237,6 +252,7 @@ def run_appendix(
                     # the folds refit the kept model's design
                     substates=dict(zip(model.states_.tracts, model.states_.substates, strict=True)),
                     features=list(model.features_),
+                    **parallel,
                 )
             validation_notes = _dedupe(str(w.message) for w in caught)
             _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")

@@ -391,6 +391,7 @@ def test_heavy_readers_are_extras_and_the_test_extra_has_them_all():
     assert _names(extras["las"]) == {"lasio"}
     assert "hmmlearn" in _names(extras["test"])
     assert "faciesseq[sql,excel,las]" in extras["test"]
+    assert not core & {"dask", "distributed"} and "faciesseq[dask]" in extras["test"]
 
 
 def test_the_package_never_imports_hmmlearn():

@@ -167,3 +167,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    finally:
+        from faciesseq.parallel import stop_local_workers
+
+        stop_local_workers()  # no worker process outlives the command

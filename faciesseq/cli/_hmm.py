@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import math
-import os
 import sys
 import warnings
 from contextlib import contextmanager
@@ -60,9 +59,6 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     group.add_argument("--max-iter", type=int, default=200, metavar="N", help="EM iteration cap")
     group.add_argument(
         "--tol", type=float, default=1e-3, metavar="X", help="EM convergence tolerance (log units)"
-    )
-    group.add_argument(
-        "--jobs", type=int, default=1, metavar="N", help="run restarts in N processes"
     )
     group.add_argument(
         "--calibration-folds",
@@ -138,9 +134,6 @@ def check_unit(args: argparse.Namespace) -> None:
     substate_counts(args)
     if args.restarts < 1:
         raise ConfigError(f"--restarts must be >= 1, got {args.restarts}")
-    max_jobs = max(64, os.cpu_count() or 1)
-    if not 1 <= args.jobs <= max_jobs:
-        raise ConfigError(f"--jobs must be from 1 to {max_jobs} (processes), got {args.jobs}")
     if args.calibration_folds < 0:
         raise ConfigError(f"--calibration-folds must be >= 0, got {args.calibration_folds}")
 

@@ -12,6 +12,7 @@ examples:
   faciesseq appendix cores.csv --model model.json --no-latex -o appendix --force
   faciesseq appendix cores.csv --scheme my-scheme.yaml --surrogates 999 --folds 5 -o appendix
   faciesseq appendix cores.csv --model model.json --wells wells.csv -o appendix
+  faciesseq appendix cores.csv --scheme my-scheme.yaml --jobs 2 -o appendix
 """
 
 
@@ -129,6 +130,11 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
     group.add_argument("--title", help="title of the appendix (default: a generic one)")
+    from faciesseq.cli._parallel import add_parallel_arguments
+
+    add_parallel_arguments(
+        parser, "surrogate blocks, EM restarts, candidate graphs, folds, decoding batches"
+    )
 
 
 def progress_printer(total: int, enabled: bool):
@@ -208,6 +214,9 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         command_line=["faciesseq", *sys.argv[1:]],
     )
     wells = _read_wells(args)
+    from faciesseq.cli._parallel import parallel_options
+
+    n_jobs, scheduler = parallel_options(args)
     progress = progress_printer(7, sys.stderr.isatty())
     result = run_appendix(
         cores,
@@ -227,6 +236,8 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         provenance=prov,
         progress=progress,
         title=args.title,
+        n_jobs=n_jobs,
+        scheduler=scheduler,
     )
     if wells is not None:
         _add_correlation(result.appendix, wells, cores, result.interpretation)

@@ -19,6 +19,7 @@ from faciesseq.cli._common import (
     require_file,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
+from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
 
 FORMATS = ("csv", "json", "parquet", "las")
@@ -32,6 +33,7 @@ examples:
   faciesseq decode model.json new-cores.csv --scheme my-scheme.yaml --plot -o decoded --force
   faciesseq decode model.json cores.csv --format parquet --summary json -o decoded
   faciesseq decode model.json cores.csv --format las --las-step 0.1 -o decoded
+  faciesseq decode model.json big-database.parquet --jobs 4 -o decoded
 """
 
 
@@ -95,6 +97,7 @@ def register(subparsers) -> None:
         metavar="COLUMN",
         help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
     )
+    add_parallel_arguments(parser, "batches of 20,000 beds")
     parser.set_defaults(func=run)
 
 
@@ -247,7 +250,8 @@ def _decode(args: argparse.Namespace):
     from faciesseq.hmm.modelfile import load_model
 
     check_target(args.output, force=args.force, folder=True)
-    model = load_model(require_file(args.model))
+    n_jobs, scheduler = parallel_options(args)
+    model = load_model(require_file(args.model)).set_params(n_jobs=n_jobs, scheduler=scheduler)
     scheme = load_scheme_option(args.scheme) or model.scheme
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")

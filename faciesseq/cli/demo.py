@@ -10,6 +10,7 @@ examples:
   faciesseq demo
   faciesseq demo -o my-demo --latex
   faciesseq demo --force --surrogates 999
+  faciesseq demo --force --jobs 2
 """
 
 

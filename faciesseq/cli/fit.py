@@ -22,6 +22,7 @@ from faciesseq.cli._hmm import (
     substate_counts,
     warnings_to_stderr,
 )
+from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError, InputError
 
 EXAMPLES = """\
@@ -30,6 +31,8 @@ examples:
   faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
   faciesseq fit cores.csv --scheme my-scheme.yaml -o model.json --format json > wells.json
+  faciesseq fit cores.csv --scheme my-scheme.yaml --jobs 4 -o model.json
+  faciesseq fit cores.csv --scheme my-scheme.yaml --scheduler tcp://10.0.0.5:8786 -o model.json
 """
 
 
@@ -54,6 +57,9 @@ def register(subparsers) -> None:
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
     add_model_arguments(parser)
+    add_parallel_arguments(
+        parser, "EM restarts, candidate tract graphs, calibration folds, decoding batches"
+    )
     parser.add_argument(
         "--format",
         choices=("text", "json"),
@@ -115,7 +121,7 @@ def _successions(args: argparse.Namespace, scheme):
     return cores, successions
 
 
-def _select(args: argparse.Namespace, successions, scheme, tract_model, substates):
+def _select(args: argparse.Namespace, successions, scheme, tract_model, substates, parallel):
     from faciesseq.hmm.selection import select_model
 
     progress = Progress("fit", args.restarts)
@@ -136,7 +142,8 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
                 max_iter=args.max_iter,
                 unit=args.unit,
                 step=args.step,
-                n_jobs=args.jobs,
+                n_jobs=parallel[0],
+                scheduler=parallel[1],
                 calibration_folds=args.calibration_folds,
                 random_state=args.seed,
             )
@@ -219,6 +226,7 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
 
 def run(args: argparse.Namespace) -> int:
     check_unit(args)
+    parallel = parallel_options(args)
     from faciesseq._output import check_target
 
     check_target(args.output, force=args.force, folder=False)
@@ -230,7 +238,7 @@ def run(args: argparse.Namespace) -> int:
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
-    selection = _select(args, successions, scheme, tract_model, substates)
+    selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
     save_model(selection.best, args.output, provenance)

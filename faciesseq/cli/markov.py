@@ -15,6 +15,7 @@ from faciesseq.cli._common import (
     load_scheme_option,
     read_source,
 )
+from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
 
 HELP = "transition statistics, Markov-order, homogeneity and cyclicity tests"
@@ -34,6 +35,7 @@ examples:
   faciesseq markov cores.csv --surrogates 999 --seed 1 --format json
   faciesseq markov logs.csv --layout samples --unit grid --step 0.5 --by formation
   faciesseq markov cores.csv --scheme my-scheme.yaml -o markov-results
+  faciesseq markov cores.csv --surrogates 9999 --seed 1 --jobs 2
 """
 
 
@@ -79,6 +81,7 @@ def register(subparsers) -> None:
         action="store_true",
         help="analyse irregularly sampled cores too (warned) instead of leaving them out",
     )
+    add_parallel_arguments(parser, "blocks of 500 Monte Carlo surrogates")
     out = parser.add_argument_group("output")
     out.add_argument(
         "--format",
@@ -133,6 +136,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.report.markov_text import markov_text
 
     _check(args)
+    n_jobs, scheduler = parallel_options(args)
     if args.output:
         from faciesseq._output import check_target
 
@@ -156,6 +160,8 @@ def run(args: argparse.Namespace) -> int:
         alpha=args.alpha,
         scheme=scheme,
         exclude_irregular=not args.keep_irregular,
+        n_jobs=n_jobs,
+        scheduler=scheduler,
     )
     text = markov_text(report)
     if args.surrogates:

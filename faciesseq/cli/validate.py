@@ -23,6 +23,7 @@ from faciesseq.cli._hmm import (
     substate_counts,
     warnings_to_stderr,
 )
+from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
 
 EXAMPLES = """\
@@ -30,6 +31,7 @@ examples:
   faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract
   faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract --folds 3 --seed 0 -o cv
   faciesseq validate cores.csv --labels tract --mode unsupervised --format json
+  faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract --jobs 2
 """
 
 
@@ -60,6 +62,7 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "OUT", "also write the tables to this folder")
     parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")
     add_model_arguments(parser, select=False)
+    add_parallel_arguments(parser, "EM restarts, candidate tract graphs, calibration folds")
     parser.set_defaults(func=run)
 
 
@@ -143,6 +146,7 @@ def _write(result, out: Path) -> None:
 
 def run(args: argparse.Namespace) -> int:
     check_unit(args)
+    n_jobs, scheduler = parallel_options(args)
     feats = feature_sets(args)
     subs = substate_counts(args)
     if len(feats) > 1 or len(subs) > 1:
@@ -178,7 +182,8 @@ def run(args: argparse.Namespace) -> int:
                 max_iter=args.max_iter,
                 unit=args.unit,
                 step=args.step,
-                n_jobs=args.jobs,
+                n_jobs=n_jobs,
+                scheduler=scheduler,
                 calibration_folds=args.calibration_folds,
             )
         finally:

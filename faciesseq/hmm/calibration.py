@@ -50,6 +50,7 @@ import numpy as np
 from faciesseq.core import Succession
 from faciesseq.errors import InputError
 from faciesseq.hmm import engine
+from faciesseq.parallel import run_jobs
 
 __all__ = [
     "TEMPERATURE_BOUNDS",
@@ -305,9 +306,8 @@ def calibrate_by_folds(
     """Temperature of ``model``'s posteriors by K-fold cross-validation over the
     labelled cores (the module docstring): each fold's model is fitted,
     with one restart and the same hyper-parameters, on every succession but
-    those of its held-out cores, whose labelled beds are then scored."""
-    from faciesseq.hmm.model import TractHMM
-
+    those of its held-out cores, whose labelled beds are then scored. The folds
+    are independent jobs (:func:`faciesseq.parallel.run_jobs`)."""
     tracts = list(model.tract_model_.order)
     codes = [
         np.where(m.sum(axis=1) == 1, m.argmax(axis=1), -1)
@@ -321,28 +321,33 @@ def calibrate_by_folds(
             f"labelled core(s), calibration_folds={model.calibration_folds}"
         }
     fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
-    params = {**model.get_params(), "calibration_folds": 0, "n_restarts": 1, "n_jobs": 1}
-    held = []
+    params = {**model.get_params(), "calibration_folds": 0, "n_restarts": 1}
+    params.update(n_jobs=1, scheduler=None)  # the folds are the jobs
+    jobs = []
     for f in range(k):
         train = [i for i, s in enumerate(succ) if fold_of.get(s.core) != f]
         test = [i for i, s in enumerate(succ) if fold_of.get(s.core) == f]
-        sub = TractHMM(**{**params, "random_state": int(rng.integers(0, 2**31 - 1))})
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")  # the main fit has said it all
-            sub.fit(
-                [succ[i] for i in train],
-                labels=[[tracts[j] if j >= 0 else None for j in codes[i]] for i in train],
-            )
-            beds = sub._encode([succ[i].beds for i in test])
-            le = sub._log_emission(sub.emissions_, beds)
-        held.append(
-            HeldOut(
-                le,
-                beds.lengths,
-                sub.startprob_,
-                sub.transmat_,
-                np.concatenate([codes[i] for i in test]),
-                sub.states_.state_tract,
-            )
-        )
+        seed = int(rng.integers(0, 2**31 - 1))  # drawn in fold order, as before any job runs
+        labels = [[tracts[j] if j >= 0 else None for j in codes[i]] for i in train]
+        held_out = ([succ[i] for i in test], np.concatenate([codes[i] for i in test]))
+        jobs.append((params | {"random_state": seed}, [succ[i] for i in train], labels, *held_out))
+    held = run_jobs(_held_out_fold, jobs, model.n_jobs, model.scheduler)
     return {**fit_temperature(held), "folds": k, "cores": len(cores)}
+
+
+def _held_out_fold(
+    params: dict, train: list, labels: list, test: list, test_codes: np.ndarray
+) -> HeldOut:
+    """One fold of :func:`calibrate_by_folds`: a model fitted on ``train`` (one job of
+    :func:`faciesseq.parallel.run_jobs`), and its chain and log-emissions of ``test``."""
+    from faciesseq.hmm.model import TractHMM
+
+    sub = TractHMM(**params)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the main fit has said it all
+        sub.fit(train, labels=labels)
+        beds = sub._encode([s.beds for s in test])
+        le = sub._log_emission(sub.emissions_, beds)
+    return HeldOut(
+        le, beds.lengths, sub.startprob_, sub.transmat_, test_codes, sub.states_.state_tract
+    )

@@ -27,6 +27,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from faciesseq.core import Succession
+from faciesseq.parallel import run_jobs
 from faciesseq.scheme import TractModel, default_tract_model
 
 __all__ = ["CHOSEN_AMONG", "choose_graph", "trade_graphs"]
@@ -60,15 +61,18 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     """Fit ``model``'s settings on the graphs of :func:`trade_graphs` with the
     skips of :data:`CHOSEN_AMONG` (no calibration) and return the fitted model of
     the lowest BIC with the table of candidates (``skips``, ``log_likelihood``,
-    ``n_parameters``, ``bic``, ``selected``)."""
-    from faciesseq.hmm.model import TractHMM
-
+    ``n_parameters``, ``bic``, ``selected``). The candidates are independent jobs
+    (:mod:`faciesseq.parallel`)."""
     params = {**model.get_params(), "graph": "fixed", "calibration_folds": 0}
+    graphs = [g for g in trade_graphs(default_tract_model()) if tuple(g.skips) in CHOSEN_AMONG]
+    jobs = [({**params, "tract_model": g}, succ) for g in graphs]
+    if model._parallel():  # one job per graph; each fit's restarts run in turn
+        jobs = [({**p, "n_jobs": 1, "scheduler": None}, s) for p, s in jobs]
+        fitted_models = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
+    else:
+        fitted_models = [_fit_graph(*job, progress) for job in jobs]
     rows, fits = [], []
-    for graph in trade_graphs(default_tract_model()):
-        if tuple(graph.skips) not in CHOSEN_AMONG:
-            continue
-        fitted = TractHMM(**{**params, "tract_model": graph}).fit(succ, progress=progress)
+    for graph, fitted in zip(graphs, fitted_models):
         rows.append(
             {
                 "skips": list(graph.skips),
@@ -82,3 +86,10 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     for k, row in enumerate(rows):
         row["selected"] = k == best
     return fits[best], rows
+
+
+def _fit_graph(params: dict, succ: Sequence[Succession], progress=None):
+    """One candidate of :func:`choose_graph`, fitted."""
+    from faciesseq.hmm.model import TractHMM
+
+    return TractHMM(**params).fit(succ, progress=progress)

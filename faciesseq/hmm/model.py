@@ -39,6 +39,7 @@ from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning, encode_be
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.states import StateSpace
 from faciesseq.interpretation import CoreInterpretation, Interpretation
+from faciesseq.parallel import run_jobs
 from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
@@ -93,6 +94,10 @@ RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking", *CONT
 DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact", "rank_step")
 #: Sub-states per tract of fits on the stacking context (phase-type durations).
 CONTEXT_SUBSTATES = 3
+#: Beds per batch decoded as one job (at most ``batch_size``). Fixed, so that the
+#: batches -- whose make-up moves the posteriors in the last bit -- and hence
+#: the decoded columns do not depend on the number of workers.
+DECODE_BATCH = 20_000
 
 ProgressCallback = Callable[[int, int, float], None]
 
@@ -251,8 +256,11 @@ class TractHMM:
         a structural zero diagonal.
     batch_size
         Beds per E-step batch (memory is bounded by the batch, not the database).
-    n_jobs
-        Restarts run in parallel processes when > 1.
+    n_jobs, scheduler
+        Independent jobs (restarts, calibration folds, candidate graphs) run in
+        ``n_jobs`` local processes, or on the Dask cluster at ``scheduler``
+        (``tcp://host:port``) when given (:mod:`faciesseq.parallel`); the
+        fitted parameters do not depend on either.
     graph
         ``"auto"``: a fit without labels and without an explicit
         ``tract_model`` fits the cyclic order with each set of the skips the
@@ -306,6 +314,7 @@ class TractHMM:
         step: float | None = None,
         batch_size: int = 200_000,
         n_jobs: int = 1,
+        scheduler: str | None = None,
         calibration_folds: int = 5,
         graph: str = "auto",
         random_state: int | np.random.Generator | None = None,
@@ -323,6 +332,7 @@ class TractHMM:
         self.step = step
         self.batch_size = batch_size
         self.n_jobs = n_jobs
+        self.scheduler = scheduler
         self.calibration_folds = calibration_folds
         self.graph = graph
         self.random_state = random_state
@@ -333,6 +343,10 @@ class TractHMM:
         if self.tract_model is not None:
             return self.tract_model
         return getattr(self, "_default_graph", None) or default_tract_model()
+
+    def _parallel(self) -> bool:
+        """Whether independent jobs leave this process (:mod:`faciesseq.parallel`)."""
+        return int(self.n_jobs) > 1 or bool(self.scheduler)
 
     def _check_hyper(self) -> None:
         if self.unit not in ("beds", "grid"):
@@ -585,9 +599,10 @@ class TractHMM:
                 out[a:b] += p.log_prob(part)
         return out
 
-    def _batches(self, lengths: np.ndarray):
-        """``(start, stop, lengths)`` of batches of whole successions."""
-        limit = max(1, int(self.batch_size))
+    def _batches(self, lengths: np.ndarray, most: int | None = None):
+        """``(start, stop, lengths, first)`` of batches of whole successions, of at most
+        ``batch_size`` beds (and at most ``most``) unless one succession is longer."""
+        limit = max(1, min(int(self.batch_size), most or int(self.batch_size)))
         ends = np.cumsum(lengths)
         i, start = 0, 0
         while i < len(lengths):
@@ -862,16 +877,12 @@ class TractHMM:
             else np.random.default_rng(self.random_state)
         )
         seeds = [int(x) for x in rng.integers(0, 2**31 - 1, size=int(self.n_restarts))]
-        if int(self.n_jobs) > 1 and len(seeds) > 1:
-            from concurrent.futures import ProcessPoolExecutor
-
-            with ProcessPoolExecutor(max_workers=min(int(self.n_jobs), len(seeds))) as pool:
-                futures = [pool.submit(self._run, data, s, r, None) for r, s in enumerate(seeds)]
-                runs = []
-                for r, f in enumerate(futures):
-                    runs.append(f.result())
-                    if progress is not None:
-                        progress(r, runs[-1]["monitor"].iter, runs[-1]["objective"])
+        if self._parallel() and len(seeds) > 1:
+            jobs = [(data, s, r, None) for r, s in enumerate(seeds)]
+            runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
+            if progress is not None:  # once per finished restart
+                for r, run in enumerate(runs):
+                    progress(r, run["monitor"].iter, run["objective"])
         else:
             runs = [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
         runs = self._named_runs(runs, data, progress)
@@ -1045,25 +1056,13 @@ class TractHMM:
         names = surface_names(tm)
         tracts = self.states_.tracts
         per_core: dict[str, list] = {}
-        for a, b, lengths, first in self._batches(beds.lengths):
-            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
-            if clamp is not None:
-                le = engine.constrained_log_emission(le, clamp[a:b][:, self.states_.state_tract])
-            # probabilities from the calibrated (tempered) chain; the log-likelihood
-            # and the Viterbi column from the model itself
-            tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
-            post = engine.forward_backward(tle, lengths, tpi, tA, return_xi=True)
-            loglik = (
-                post.log_likelihood
-                if self.temperature_ == 1.0
-                else engine.forward_backward(
-                    le, lengths, self.startprob_, self.transmat_
-                ).log_likelihood
-            )
-            path, _ = engine.viterbi(le, lengths, self.startprob_, self.transmat_)
-            gamma = self.states_.to_tracts(post.gamma)
-            vit = self.states_.state_tract[path]
-            surf = boundary_probabilities(post.xi, tm, self.states_.state_tract)
+        batches = list(self._batches(beds.lengths, DECODE_BATCH))
+        jobs = [
+            (beds.slice(a, b, lengths), None if clamp is None else clamp[a:b])
+            for a, b, lengths, _ in batches
+        ]
+        decoded = run_jobs(self._decode_batch, jobs, self.n_jobs, self.scheduler)
+        for (_, _, lengths, first), (gamma, vit, surf, loglik) in zip(batches, decoded):
             row, bnd = 0, 0
             for k, n in enumerate(lengths):
                 s = succ[first + k]
@@ -1088,6 +1087,27 @@ class TractHMM:
             meta={"unit": self.unit, "step": self.step, "features": list(self.features_)}
             | probability_meta(self.temperature_, self.calibration_),
         )
+
+    def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
+        """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
+        of one batch of whole successions (one job of :mod:`faciesseq.parallel`)."""
+        le = self._log_emission(self.emissions_, beds)
+        if clamp is not None:
+            le = engine.constrained_log_emission(le, clamp[:, self.states_.state_tract])
+        # probabilities from the calibrated (tempered) chain; the log-likelihood
+        # and the Viterbi column from the model itself
+        tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
+        post = engine.forward_backward(tle, beds.lengths, tpi, tA, return_xi=True)
+        loglik = (
+            post.log_likelihood
+            if self.temperature_ == 1.0
+            else engine.forward_backward(
+                le, beds.lengths, self.startprob_, self.transmat_
+            ).log_likelihood
+        )
+        path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
+        surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
+        return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
 
     def _core_interpretation(self, core, parts, codes, names, threshold, mass):
         """One core's tables from its decoded successions, each column built whole."""

@@ -33,11 +33,14 @@ from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
 from faciesseq.markov.order import OrderResult, conditional_g2, order_analysis
 from faciesseq.markov.screening import leave_out_irregular
 from faciesseq.markov.surrogates import (
+    PERMUTATION_SWEEPS,
     monte_carlo_p_value,
+    permutation_hub,
     restricted_permutations,
     surrogate_statistics,
     transition_surrogates,
 )
+from faciesseq.parallel import job_seeds, run_jobs
 
 __all__ = ["SCHEMA", "MarkovReport", "analyse"]
 
@@ -331,30 +334,70 @@ def _permuted_within(enc: EncodedSuccessions, n: int, rng: np.random.Generator):
         yield enc.states[np.argsort(keys, axis=1)]
 
 
-def _surrogate_tests(
-    enc: EncodedSuccessions, embedded: bool, n: int, seed: int | None, max_order: int
-) -> list[TestResult]:
+#: Surrogates per Monte Carlo job: the blocks, and the seed of each, do not depend
+#: on the number of workers, so neither do the p-values.
+SURROGATE_BLOCK = 500
+
+
+def _first_order_stat(enc: EncodedSuccessions, embedded: bool, batch: np.ndarray) -> np.ndarray:
+    return pearson_batch(batch_ngram_counts(enc, batch, 1), embedded=embedded)
+
+
+def _order_stat(enc: EncodedSuccessions, batch: np.ndarray) -> np.ndarray:
+    runs = batch_ngram_counts(enc, batch, 2)
+    g2, _, _ = conditional_g2(runs.reshape(batch.shape[0], enc.m, enc.m, enc.m))
+    return g2
+
+
+def _surrogate_block(
+    kind: str, enc: EncodedSuccessions, embedded: bool, n: int, seed, hub: np.ndarray | None
+) -> np.ndarray:
+    """The statistic of ``n`` surrogates of one kind drawn from ``seed`` (one job):
+    ``"restricted"`` permutations from ``hub``, ``"permuted"`` within successions
+    (first-order statistic), or ``"transition"`` surrogates (order 1 vs 2 G2)."""
     rng = np.random.default_rng(seed)
-    seeds = rng.integers(0, 2**63 - 1, size=2)
-    out: list[TestResult] = []
-    m = enc.m
-
-    def first_order_stat(batch: np.ndarray) -> np.ndarray:
-        return pearson_batch(batch_ngram_counts(enc, batch, 1), embedded=embedded)
-
-    observed = float(first_order_stat(enc.states[None, :])[0])
-    if embedded:
-        sims = surrogate_statistics(
-            restricted_permutations(enc, n, int(seeds[0])), first_order_stat
+    if kind == "transition":
+        return surrogate_statistics(
+            transition_surrogates(enc, n, rng), lambda b: _order_stat(enc, b)
         )
+    draws = (
+        restricted_permutations(enc, n, rng, hub=hub)
+        if kind == "restricted"
+        else _permuted_within(enc, n, rng)
+    )
+    return surrogate_statistics(draws, lambda b: _first_order_stat(enc, embedded, b))
+
+
+def _surrogates(kind, enc, embedded, n, seed, hub, n_jobs, scheduler) -> np.ndarray:
+    """Statistics of ``n`` surrogates, drawn in blocks of :data:`SURROGATE_BLOCK`, each
+    block a job of :func:`faciesseq.parallel.run_jobs` with its own spawned seed."""
+    sizes = [min(SURROGATE_BLOCK, n - a) for a in range(0, n, SURROGATE_BLOCK)]
+    seeds = seed.spawn(len(sizes))
+    jobs = [(kind, enc, embedded, size, s, hub) for size, s in zip(sizes, seeds)]
+    return np.concatenate(run_jobs(_surrogate_block, jobs, n_jobs, scheduler))
+
+
+def _surrogate_tests(
+    enc: EncodedSuccessions,
+    embedded: bool,
+    n: int,
+    seed: int | None,
+    max_order: int,
+    n_jobs: int = 1,
+    scheduler: str | None = None,
+) -> list[TestResult]:
+    hub_seed, first_seed, order_seed = job_seeds(seed, 3)
+    out: list[TestResult] = []
+    observed = float(_first_order_stat(enc, embedded, enc.states[None, :])[0])
+    if embedded:
+        hub = permutation_hub(enc, PERMUTATION_SWEEPS, hub_seed)
+        sims = _surrogates("restricted", enc, embedded, n, first_seed, hub, n_jobs, scheduler)
         name, note = (
             "quasi-independence (Pearson chi2)",
             "restricted permutations (no facies above itself), Besag & Clifford parallel chain",
         )
     else:
-        sims = surrogate_statistics(
-            _permuted_within(enc, n, np.random.default_rng(int(seeds[0]))), first_order_stat
-        )
+        sims = _surrogates("permuted", enc, embedded, n, first_seed, None, n_jobs, scheduler)
         name, note = "independence (Pearson chi2)", "permutations within each succession"
     res = independence_test(transition_counts(enc), embedded=embedded)
     out.append(
@@ -371,14 +414,8 @@ def _surrogate_tests(
         )
     )
     if max_order >= 2:
-
-        def order_stat(batch: np.ndarray) -> np.ndarray:
-            runs = batch_ngram_counts(enc, batch, 2)
-            g2, _, _ = conditional_g2(runs.reshape(batch.shape[0], m, m, m))
-            return g2
-
-        obs_g2 = float(order_stat(enc.states[None, :])[0])
-        sims = surrogate_statistics(transition_surrogates(enc, n, int(seeds[1])), order_stat)
+        obs_g2 = float(_order_stat(enc, enc.states[None, :])[0])
+        sims = _surrogates("transition", enc, embedded, n, order_seed, None, n_jobs, scheduler)
         t = next(t for t in order_analysis(enc, 2, embedded=embedded).tests if "1 vs 2" in t.name)
         out.append(
             TestResult(
@@ -411,6 +448,8 @@ def analyse(
     scheme=None,
     min_coverage: float = 0.5,
     exclude_irregular: bool = True,
+    n_jobs: int = 1,
+    scheduler: str | None = None,
 ) -> MarkovReport:
     """Transition statistics, first-order, order, homogeneity and cyclicity tests.
 
@@ -431,6 +470,10 @@ def analyse(
         Highest Markov order fitted (tests k vs k+1 for k < max_order).
     surrogates, seed
         Number of Monte Carlo surrogates (0 = none) and their seed.
+    n_jobs, scheduler
+        The surrogates are drawn in blocks, each an independent job run in
+        ``n_jobs`` local processes or on the Dask cluster at ``scheduler``
+        (:mod:`faciesseq.parallel`); the p-values do not depend on either.
     by
         ``"core"`` or a bed column (e.g. a formation): homogeneity across groups.
     per_core
@@ -508,7 +551,7 @@ def analyse(
     order = order_analysis(enc, max_order, embedded=embedded)
     sur: list[TestResult] = []
     if surrogates > 0:
-        sur = _surrogate_tests(enc, embedded, surrogates, seed, max_order)
+        sur = _surrogate_tests(enc, embedded, surrogates, seed, max_order, n_jobs, scheduler)
     homog = None
     if by is not None:
         group, labels, left_out = _groups(successions, beds, enc, by)

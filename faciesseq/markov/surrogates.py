@@ -39,11 +39,14 @@ from faciesseq.markov.counts import EncodedSuccessions
 
 __all__ = [
     "monte_carlo_p_value",
+    "permutation_hub",
     "restricted_permutations",
     "transition_surrogates",
     "transition_surrogates_loop",
 ]
 
+#: Sweeps of the swap chain from the data to the hub, and from the hub to each surrogate.
+PERMUTATION_SWEEPS = 10
 #: Elements (surrogates x states) drawn per batch; bounds memory (about 8 bytes each).
 BATCH_ELEMENTS = 50_000_000
 
@@ -426,12 +429,23 @@ def swap_chain(
             single_step()
 
 
+def permutation_hub(
+    enc: EncodedSuccessions, sweeps: int, random_state: int | np.random.Generator | None
+) -> np.ndarray:
+    """The hub of Besag & Clifford's (1989) parallel scheme: ``sweeps`` sweeps of
+    :func:`swap_chain` from the data; shape ``(1, len(enc.states))``."""
+    hub = enc.states[None, :].copy()
+    swap_chain(enc, hub, sweeps, np.random.default_rng(random_state))
+    return hub
+
+
 def restricted_permutations(
     enc: EncodedSuccessions,
     n_surrogates: int,
     random_state: int | np.random.Generator | None,
     *,
-    sweeps: int = 10,
+    sweeps: int = PERMUTATION_SWEEPS,
+    hub: np.ndarray | None = None,
 ) -> Iterator[np.ndarray]:
     """Random orderings of each succession's beds with no facies above itself.
 
@@ -439,14 +453,15 @@ def restricted_permutations(
     sweeps from the data to a hub, then as many from the hub to each
     surrogate, so that under the null the data and the surrogates are
     exchangeable and the Monte Carlo p-value is exact however slowly the chain
-    mixes (slow mixing costs power, not validity).
+    mixes (slow mixing costs power, not validity). Blocks of surrogates drawn
+    apart (:mod:`faciesseq.parallel`) must share one ``hub``
+    (:func:`permutation_hub`); without one it is drawn here first.
 
     Yields batches ``(batch, len(enc.states))`` like :func:`transition_surrogates`.
     """
     rng = np.random.default_rng(random_state)
     n_states = len(enc.states)
-    hub = enc.states[None, :].copy()
-    swap_chain(enc, hub, sweeps, rng)
+    hub = permutation_hub(enc, sweeps, rng) if hub is None else hub
     for batch in _batches(n_surrogates, n_states * 2):
         x = np.broadcast_to(hub, (batch, n_states)).copy()
         swap_chain(enc, x, sweeps, rng)

@@ -1,0 +1,180 @@
+"""Independent jobs run in this process, in local processes or on a Dask cluster.
+
+Every loop of the project whose turns do not depend on each other -- EM
+restarts, calibration folds, the fits of the candidate tract graphs, blocks of
+Monte Carlo surrogates, batches of cores to decode -- hands its turns to
+:func:`run_jobs` as a function and one tuple of arguments per job:
+
+- ``n_jobs=1`` (the default): one after the other, in this process;
+- ``n_jobs=N``: ``N`` local worker processes (joblib, loky backend);
+- ``scheduler="tcp://host:port"``: the workers of that Dask cluster
+  (``distributed.Client``; needs the ``dask`` extra).
+
+Results come back in the order of the jobs, whoever ran them. A job that draws
+random numbers takes its own seed, made before any job runs
+(:func:`job_seeds`), so the results never depend on how many workers there
+are or which of them ran what.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import sys
+from collections.abc import Callable, Sequence
+from typing import Any
+
+import numpy as np
+
+from faciesseq._optional import import_optional
+from faciesseq.errors import ConfigError
+
+__all__ = [
+    "CONNECT_TIMEOUT",
+    "SCHEDULER_ENV",
+    "SchedulerError",
+    "check_scheduler",
+    "job_seeds",
+    "run_jobs",
+    "scheduler_address",
+    "stop_local_workers",
+]
+
+#: Environment variable holding a Dask scheduler address used when ``--scheduler`` is not given.
+SCHEDULER_ENV = "FACIESSEQ_SCHEDULER"
+#: Seconds to wait for a Dask scheduler to answer before giving up.
+CONNECT_TIMEOUT = 5.0
+#: A scheduler address: protocol, host and port (``tcp://10.0.0.5:8786``).
+_ADDRESS = re.compile(r"^(tcp|tls|ws|wss)://[^\s/:]+:\d{1,5}$")
+
+
+class SchedulerError(ConfigError):
+    """A Dask scheduler that cannot be reached (exit code 2)."""
+
+
+def scheduler_address(option: str | None, environ: dict[str, str] | None = None) -> str | None:
+    """The scheduler to use: ``option``, else :data:`SCHEDULER_ENV`, else ``None``.
+
+    Raises
+    ------
+    ConfigError
+        The address is not of the form ``tcp://host:port``.
+    """
+    env = os.environ if environ is None else environ
+    address = option if option is not None else (env.get(SCHEDULER_ENV) or None)
+    if address is None:
+        return None
+    where = "--scheduler" if option is not None else SCHEDULER_ENV
+    if not _ADDRESS.match(address) or not 0 < int(address.rsplit(":", 1)[1]) < 65536:
+        raise ConfigError(
+            f"{where} must be a Dask scheduler address such as tcp://host:8786, got {address!r}"
+        )
+    return address
+
+
+def job_seeds(seed: int | None, n: int) -> list[np.random.SeedSequence]:
+    """One independent seed per job: ``numpy.random.SeedSequence(seed).spawn(n)``.
+
+    Each job makes its generator with ``numpy.random.default_rng(seeds[k])``; the
+    streams do not overlap (O'Neill 2015, PCG, as used by numpy's ``SeedSequence``)
+    and do not depend on the number of workers.
+    """
+    return np.random.SeedSequence(seed).spawn(int(n))
+
+
+def _distributed():
+    return import_optional("distributed", "running jobs on a Dask cluster (--scheduler)")
+
+
+def _unreachable(address: str, exc: BaseException) -> SchedulerError:
+    return SchedulerError(
+        f"cannot reach a Dask scheduler at {address} ({type(exc).__name__}, waited at most "
+        f"{CONNECT_TIMEOUT:g} s); start one (dask scheduler) or check the address"
+    )
+
+
+def check_scheduler(address: str) -> int:
+    """Ask the scheduler at ``address`` who it is; return its number of workers.
+
+    Nothing but one request is made (no client is started), and it is given up
+    after :data:`CONNECT_TIMEOUT` seconds.
+
+    Raises
+    ------
+    SchedulerError
+        Nothing, or something else than a Dask scheduler, answered in time.
+    MissingExtraError
+        The ``dask`` extra is not installed.
+    """
+    import asyncio
+
+    rpc = _distributed().rpc
+
+    async def identity() -> dict:
+        async with rpc(address, timeout=CONNECT_TIMEOUT) as scheduler:
+            return await scheduler.identity(n_workers=0)
+
+    try:
+        info = asyncio.run(asyncio.wait_for(identity(), CONNECT_TIMEOUT))
+        return int(info["n_workers"])
+    except Exception as exc:  # whatever answered was no scheduler we can use
+        raise _unreachable(address, exc) from None
+
+
+def _client(address: str):
+    try:
+        return _distributed().Client(address, timeout=CONNECT_TIMEOUT, set_as_default=False)
+    except (OSError, TimeoutError) as exc:
+        raise _unreachable(address, exc) from None
+
+
+def run_jobs(
+    function: Callable[..., Any],
+    arguments: Sequence[tuple],
+    n_jobs: int = 1,
+    scheduler: str | None = None,
+) -> list[Any]:
+    """``[function(*a) for a in arguments]``, run serially, in processes or on a cluster.
+
+    Parameters
+    ----------
+    function
+        A module-level function or a method of a picklable object (it is sent to
+        other processes); it must not print, and a job must not start jobs of
+        its own (pass ``n_jobs=1, scheduler=None`` down).
+    arguments
+        One tuple of arguments per job.
+    n_jobs
+        Local worker processes (1: in this process, one job after the other).
+    scheduler
+        Address of a Dask scheduler (``tcp://host:port``); when given, the jobs
+        run on its workers and ``n_jobs`` is not used.
+
+    Returns
+    -------
+    list
+        The results, in the order of ``arguments``.
+    """
+    jobs = [tuple(a) for a in arguments]
+    if scheduler:
+        with _client(scheduler) as client:
+            futures = [client.submit(function, *a, pure=False) for a in jobs]
+            return client.gather(futures)
+    if int(n_jobs) <= 1 or len(jobs) <= 1:
+        return [function(*a) for a in jobs]
+    from joblib import Parallel, delayed
+
+    workers = min(int(n_jobs), len(jobs))
+    return Parallel(n_jobs=workers, backend="loky")(delayed(function)(*a) for a in jobs)
+
+
+def stop_local_workers() -> None:
+    """End the local worker processes of :func:`run_jobs` and wait for them.
+
+    joblib keeps its workers between calls (a fit dispatches several loops); a
+    command stops them when it is done, so that none outlives it.
+    """
+    loky = sys.modules.get("joblib.externals.loky.reusable_executor")
+    executor = getattr(loky, "_executor", None)
+    if executor is not None:
+        executor.shutdown(wait=True)

@@ -1,0 +1,227 @@
+"""Parallel and distributed runs: the same results in this process, in local worker
+processes (``--jobs 2``) and on a Dask cluster (``--scheduler``), and one-line errors.
+
+The byte-for-byte comparisons hold the project to its own contract (a model file's
+``parameters`` are byte-identical between reruns, :mod:`faciesseq.hmm.modelfile`);
+the seeds of the jobs follow numpy's documented ``SeedSequence.spawn`` (numpy
+"Parallel random number generation" guide), checked against numpy itself.
+"""
+
+import io
+import json
+import os
+from contextlib import redirect_stderr, redirect_stdout
+
+import hmm_synthetic as synth
+import numpy as np
+import pandas as pd
+import pytest
+
+from faciesseq import parallel
+from faciesseq.cli import main
+from faciesseq.errors import ConfigError
+
+
+def _run(*args):
+    out, err = io.StringIO(), io.StringIO()
+    with redirect_stdout(out), redirect_stderr(err):
+        code = main(list(args))
+    return code, out.getvalue(), err.getvalue()
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("parallel")
+    synth.write_database(folder, n_cores=12, n_beds=40, seed=5)  # even cores labelled
+    return folder
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    distributed = pytest.importorskip("distributed")
+    with distributed.LocalCluster(
+        n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
+    ) as local:
+        yield local.scheduler_address
+
+
+# ----------------------------------------------------------------- the module
+def _pid(_):
+    return os.getpid()
+
+
+def _square(x):
+    return x * x
+
+
+def test_jobs_come_back_in_order_from_other_processes():
+    assert parallel.run_jobs(_square, [(k,) for k in range(7)], n_jobs=2) == [
+        k * k for k in range(7)
+    ]
+    pids = parallel.run_jobs(_pid, [(k,) for k in range(4)], n_jobs=2)
+    assert os.getpid() not in pids  # loky workers, not this process
+    assert parallel.run_jobs(_pid, [(0,), (1,)], n_jobs=1) == [os.getpid()] * 2
+
+
+def test_job_seeds_are_numpys_spawned_seed_sequences():
+    # numpy documentation, "Parallel random number generation": SeedSequence.spawn
+    ours = [np.random.default_rng(s).random(3) for s in parallel.job_seeds(11, 4)]
+    theirs = [np.random.default_rng(s).random(3) for s in np.random.SeedSequence(11).spawn(4)]
+    np.testing.assert_array_equal(ours, theirs)
+    assert len({tuple(x) for x in ours}) == 4
+
+
+def test_scheduler_from_option_then_environment_and_checked():
+    env = {parallel.SCHEDULER_ENV: "tcp://cluster.example:8786"}
+    assert parallel.scheduler_address(None, env) == "tcp://cluster.example:8786"
+    assert parallel.scheduler_address("tcp://10.0.0.5:9000", env) == "tcp://10.0.0.5:9000"
+    assert parallel.scheduler_address(None, {}) is None
+    for bad in ("localhost:8786", "tcp://host", "tcp://host:99999", "http://host:8786"):
+        with pytest.raises(ConfigError, match="tcp://host:8786"):
+            parallel.scheduler_address(bad, {})
+
+
+def test_missing_dask_extra_is_named(monkeypatch):
+    import builtins
+
+    real = builtins.__import__
+
+    def no_distributed(name, *args, **kwargs):
+        if name == "distributed":
+            raise ModuleNotFoundError("No module named 'distributed'", name="distributed")
+        return real(name, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "__import__", no_distributed)
+    code, _, err = _run("markov", "x.csv", "--scheduler", "tcp://127.0.0.1:8786")
+    assert code == 2
+    assert err.count("\n") == 1 and 'pip install "faciesseq[dask]"' in err
+
+
+# ---------------------------------------------------------- the command line
+COMMANDS = {
+    "fit": ["fit", "{cores}", "-o", "{out}"],
+    "validate": ["validate", "{cores}", "--labels", "tract", "-o", "{out}"],
+    "decode": ["decode", "model.json", "{cores}", "-o", "{out}"],
+    "markov": ["markov", "{cores}", "-o", "{out}"],
+    "appendix": ["appendix", "{cores}", "--scheme", "{scheme}", "-o", "{out}"],
+}
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--jobs", "0"], "--jobs must be from 1"),
+        (["--jobs", "100000"], "--jobs must be from 1"),
+        (["--scheduler", "my-cluster"], "--scheduler must be a Dask scheduler address"),
+    ],
+)
+def test_bad_parallel_options_exit_2_with_one_line(database, tmp_path, command, args, message):
+    out = tmp_path / "out"
+    names = {"cores": database / "cores.csv", "scheme": database / "scheme.yaml", "out": out}
+    code, _, err = _run(*[a.format(**names) for a in COMMANDS[command]], *args)
+    assert code == 2
+    assert err.count("\n") == 1 and message in err
+    assert not out.exists()
+
+
+def test_unreachable_scheduler_exits_2_with_one_line(database, tmp_path, monkeypatch):
+    monkeypatch.setattr(parallel, "CONNECT_TIMEOUT", 1.0)
+    out = tmp_path / "markov"
+    monkeypatch.setenv(parallel.SCHEDULER_ENV, "tcp://127.0.0.1:1")  # nothing listens
+    code, _, err = _run("markov", str(database / "cores.csv"), "--surrogates", "9", "-o", str(out))
+    assert code == 2
+    assert err.count("\n") == 1
+    assert "cannot reach a Dask scheduler at tcp://127.0.0.1:1" in err
+    assert "Traceback" not in err and not out.exists()
+
+
+def _fit(database, folder, *extra):
+    path = folder / "model.json"
+    args = ["fit", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+    code, _, err = _run(*args, "--restarts", "2", *extra, "-o", str(path), "--force")
+    assert code == 0, err
+    doc = json.loads(path.read_text())
+    return {k: json.dumps(doc[k]) for k in ("parameters", "training")}
+
+
+@pytest.mark.parametrize(
+    "labels",
+    [
+        pytest.param([], id="unlabelled"),
+        pytest.param(["--labels", "tract"], id="labelled", marks=pytest.mark.slow),  # 45 s
+    ],
+)
+def test_fit_gives_byte_identical_parameters_serial_local_and_on_dask(
+    database, tmp_path, cluster, labels
+):
+    # unlabelled: the four candidate graphs are the jobs; labelled (6 of 12 cores):
+    # the restarts and the 5 calibration folds
+    serial = _fit(database, tmp_path, *labels)
+    local = _fit(database, tmp_path, *labels, "--jobs", "2")
+    dask = _fit(database, tmp_path, *labels, "--scheduler", cluster)
+    assert local["parameters"] == serial["parameters"]
+    assert dask["parameters"] == serial["parameters"]
+    assert local["training"] == serial["training"] == dask["training"]
+    if labels:
+        assert json.loads(serial["training"])["calibration"]["folds"] == 5
+
+
+def _p_values(database, *extra):
+    code, out, err = _run(
+        "markov",
+        str(database / "cores.csv"),
+        "--scheme",
+        str(database / "scheme.yaml"),
+        "--surrogates",
+        "1200",  # three blocks of surrogates
+        "--seed",
+        "4",
+        "--format",
+        "json",
+        *extra,
+    )
+    assert code == 0, err
+    tests = json.loads(out)["tests"]
+    return [(t["name"], t["p_value"]) for t in tests if t.get("method") == "monte carlo"]
+
+
+def test_surrogate_p_values_do_not_depend_on_where_the_blocks_ran(database, cluster):
+    serial = _p_values(database)
+    assert len(serial) == 2
+    assert _p_values(database, "--jobs", "2") == serial
+    assert _p_values(database, "--scheduler", cluster) == serial
+
+
+def test_no_local_worker_outlives_the_command(database):
+    psutil = pytest.importorskip("psutil")
+
+    def workers():
+        children = psutil.Process().children(recursive=True)
+        return [p for p in children if "LokyProcess" in " ".join(p.cmdline())]
+
+    _p_values(database, "--jobs", "2")
+    assert workers() == []
+
+
+def test_decoded_columns_identical_serial_local_and_on_dask(
+    database, tmp_path, cluster, monkeypatch
+):
+    from faciesseq.hmm import model as model_module
+
+    _fit(database, tmp_path, "--restarts", "1")
+    model = tmp_path / "model.json"
+    monkeypatch.setattr(model_module, "DECODE_BATCH", 100)  # 480 beds: several jobs
+    tables = {}
+    for name, extra in (("serial", []), ("local", ["--jobs", "2"]), ("dask", ["--scheduler"])):
+        extra = [*extra, cluster] if name == "dask" else extra
+        out = tmp_path / name
+        code, _, err = _run(
+            "decode", str(model), str(database / "cores.csv"), *extra, "-o", str(out)
+        )
+        assert code == 0, err
+        tables[name] = [(out / f).read_bytes() for f in ("tracts.csv", "surfaces.csv", "picks.csv")]
+    assert tables["local"] == tables["serial"]
+    assert tables["dask"] == tables["serial"]
+    tracts = pd.read_csv(tmp_path / "serial" / "tracts.csv", comment="#")
+    assert tracts["core"].nunique() == 12
