@@ -202,7 +202,9 @@ def test_demo_latex_tables_fit_the_page(tmp_path, capsys):
     if shutil.which("pdflatex") is None:
         pytest.skip("pdflatex not installed: LaTeX compile check skipped")
     out = tmp_path / "demo"
-    code, _, err = _run(capsys, ["demo", "-o", str(out), "--surrogates", "19", "--restarts", "1"])
+    code, _, err = _run(
+        capsys, ["demo", "-o", str(out), "--surrogates", "19", "--restarts", "1", "--latex"]
+    )
     assert code == 0, err
     log = compile_latex(out)
     tex = (out / "appendix.tex").read_text(encoding="utf-8")
