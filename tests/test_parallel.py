@@ -207,11 +207,11 @@ def test_no_local_worker_outlives_the_command(database):
 def test_decoded_columns_identical_serial_local_and_on_dask(
     database, tmp_path, cluster, monkeypatch
 ):
-    from faciesseq.hmm import model as model_module
+    from faciesseq.hmm import decoding as decoding_module
 
     _fit(database, tmp_path, "--restarts", "1")
     model = tmp_path / "model.json"
-    monkeypatch.setattr(model_module, "DECODE_BATCH", 100)  # 480 beds: several jobs
+    monkeypatch.setattr(decoding_module, "DECODE_BATCH", 100)  # 480 beds: several jobs
     tables = {}
     for name, extra in (("serial", []), ("local", ["--jobs", "2"]), ("dask", ["--scheduler"])):
         extra = [*extra, cluster] if name == "dask" else extra

@@ -11,7 +11,8 @@
 - :mod:`faciesseq.hmm.context`: pieces reading the stacking context of cycles;
 - :mod:`faciesseq.hmm.identity`: tract names from the one deepening tract;
 - :mod:`faciesseq.hmm.calibration`, :mod:`faciesseq.hmm.bootstrap`: checked probabilities;
-- :mod:`faciesseq.hmm.model`: the :class:`TractHMM` estimator;
+- :mod:`faciesseq.hmm.model`: the :class:`TractHMM` estimator, fitted by
+  :mod:`faciesseq.hmm.em`, decoding with :mod:`faciesseq.hmm.decoding`;
 - :mod:`faciesseq.hmm.selection`: BIC across sub-state counts and emission sets;
 - :mod:`faciesseq.hmm.modelfile`: versioned JSON model files (never pickle);
 - :mod:`faciesseq.hmm.baseline`: the trend rule the model is compared with.

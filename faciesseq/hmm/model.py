@@ -21,8 +21,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, field
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -30,27 +29,27 @@ import pandas as pd
 
 from faciesseq.core import CoreSet, Succession
 from faciesseq.cycles import CONTEXT_FEATURES
-from faciesseq.errors import ConfigError, FaciesseqError, InputError
+from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
-from faciesseq.hmm.calibration import probability_meta, temper
+from faciesseq.hmm.decoding import Decoding
+from faciesseq.hmm.em import (
+    ConvergenceError,
+    ConvergenceMonitor,
+    ExpectationMaximisation,
+    ProgressCallback,
+    TrainingData,
+)
 from faciesseq.hmm.emissions import EmissionPiece
-from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning, encode_beds
+from faciesseq.hmm.encoding import EncodedBeds, encode_beds
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.states import StateSpace
-from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.parallel import run_jobs
 from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
     default_tract_model,
     permissive_tract_model,
-)
-from faciesseq.surfaces import (
-    boundary_probabilities,
-    column_picks,
-    surface_codes,
-    surface_names,
 )
 
 __all__ = [
@@ -94,89 +93,10 @@ RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking", *CONT
 DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact", "rank_step")
 #: Sub-states per tract of fits on the stacking context (phase-type durations).
 CONTEXT_SUBSTATES = 3
-#: Beds per batch decoded as one job (at most ``batch_size``). Fixed, so that the
-#: batches -- whose make-up moves the posteriors in the last bit -- and hence
-#: the decoded columns do not depend on the number of workers.
-DECODE_BATCH = 20_000
-
-ProgressCallback = Callable[[int, int, float], None]
 
 
 class LabelWarning(UserWarning):
     """An interpreter's label that cannot be used as it is (the beds are left free)."""
-
-
-class ConvergenceError(FaciesseqError):
-    """EM's objective went down: a numerical problem, never expected (exit code 1)."""
-
-
-@dataclass
-class ConvergenceMonitor:
-    """Tracks EM's objective (log-likelihood + log-prior) over iterations.
-
-    Converged when an iteration improves the objective by less than ``tol``
-    (natural-log units) or after ``max_iter`` iterations. A decrease by more
-    than rounding (``1e-9`` relative) raises :class:`ConvergenceError`: EM
-    cannot decrease its objective (Dempster et al. 1977, theorem 1), so a
-    decrease is a bug, not a result.
-    """
-
-    tol: float = 1e-3
-    max_iter: int = 200
-    history: list[float] = field(default_factory=list)
-
-    def report(self, objective: float) -> None:
-        if not math.isfinite(objective):
-            raise ConvergenceError(f"EM objective is {objective} at iteration {self.iter + 1}")
-        if self.history:
-            last = self.history[-1]
-            if objective < last - 1e-9 * max(1.0, abs(last)):
-                raise ConvergenceError(
-                    f"EM objective decreased from {last:.10g} to {objective:.10g} at "
-                    f"iteration {self.iter + 1}"
-                )
-        self.history.append(float(objective))
-
-    @property
-    def iter(self) -> int:
-        return len(self.history)
-
-    @property
-    def converged(self) -> bool:
-        if self.iter >= self.max_iter:
-            return True
-        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
-
-    @property
-    def reached_tolerance(self) -> bool:
-        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
-
-
-@dataclass
-class _Data:
-    """What fitting needs, coded once."""
-
-    beds: EncodedBeds
-    clamp: np.ndarray | None  # (T, n_tracts) bool, or None
-    ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
-    rule: np.ndarray  # (T,) trend-rule tract index
-    cores: tuple[str, ...] = ()  # core of each succession
-    static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
-    trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
-
-
-def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
-    """The engine's error about "sequence N" of a batch, naming the core instead."""
-    import re
-
-    found = re.search(r"sequence (\d+)", exc.message)
-    core = None
-    if found and cores:
-        k = first + int(found.group(1))
-        core = cores[k] if k < len(cores) else None
-    return InputError(
-        "the beds have probability zero under the tract model (" + exc.message + ")", core=core
-    )
 
 
 def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
@@ -208,7 +128,7 @@ def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
     return out
 
 
-class TractHMM:
+class TractHMM(ExpectationMaximisation, Decoding):
     """Hidden Markov model whose hidden states are systems tracts.
 
     Parameters
@@ -613,164 +533,7 @@ class TractHMM:
             yield start, stop, lengths[i : j + 1], i
             start, i = stop, j + 1
 
-    def _e_step(self, pieces, startprob, transmat, data: _Data):
-        K = self.states_.n_states
-        S = self.states_.n_tracts
-        stats = [p.empty_stats(S) for p in pieces]
-        trans = np.zeros((K, K))
-        start = np.zeros(K)
-        total = 0.0
-        for a, b, lengths, first in self._batches(data.beds.lengths):
-            part = data.beds.slice(a, b, lengths)
-            static = None if data.static is None else data.static[a:b]
-            le = self._log_emission(pieces, part, static)
-            if data.clamp is not None:
-                le = engine.constrained_log_emission(
-                    le, data.clamp[a:b][:, self.states_.state_tract]
-                )
-            try:
-                post = engine.forward_backward(le, lengths, startprob, transmat)
-            except InputError as exc:
-                raise _located(exc, data.cores, first) from None
-            weights = self.states_.to_tracts(post.gamma)
-            for p, st in zip(pieces, stats):
-                p.accumulate(st, part, weights)
-            trans += post.xi_sum
-            start += post.start
-            total += post.total_log_likelihood
-        return total, stats, trans, start
-
-    def _pseudo(self) -> tuple[np.ndarray, np.ndarray]:
-        base = 0.1 * float(self.prior_strength)
-        allowed = self.states_.allowed
-        trans = np.where(allowed, base, 0.0)
-        cycle = getattr(self, "_cycle_pseudo", None)
-        if cycle is not None:
-            trans = trans + cycle
-        return np.full(self.states_.n_states, base), trans
-
-    def _cycle_counts(
-        self, rule: np.ndarray, lengths: np.ndarray, free: np.ndarray | None = None
-    ) -> np.ndarray:
-        """Transition pseudo-counts from the trend rule's tract column, on the states.
-
-        ``cycle_prior`` times the rule's tract-to-tract counts between
-        unlabelled beds (``free``; labelled beds speak for themselves): a tract's stays
-        are shared between each sub-state's self-transition and its step along
-        the chain, its exits go from every sub-state to the next tract's first
-        sub-state; cells the tract graph forbids get nothing.
-        """
-        S = self.states_.n_tracts
-        counts = np.zeros((S, S))
-        start = 0
-        for n in lengths:
-            r = rule[start : start + n]
-            keep = (
-                np.ones(max(n - 1, 0), dtype=bool)
-                if free is None
-                else free[start : start + n - 1] & free[start + 1 : start + n]
-            )
-            np.add.at(counts, (r[:-1][keep], r[1:][keep]), 1.0)
-            start += n
-        K = self.states_.n_states
-        out = np.zeros((K, K))
-        first = self.states_.first
-        for a in range(S):
-            members = np.nonzero(self.states_.state_tract == a)[0]
-            m = len(members)
-            for k, i in enumerate(members):
-                if k + 1 < m:
-                    out[i, i] += counts[a, a] / (2 * m)
-                    out[i, members[k + 1]] += counts[a, a] / (2 * m)
-                else:
-                    out[i, i] += counts[a, a] / m
-                for b in range(S):
-                    if b != a:
-                        out[i, first[b]] += counts[a, b] / m
-        return float(self.cycle_prior) * np.where(self.states_.allowed, out, 0.0)
-
-    def _m_step(self, pieces, stats, trans, start):
-        start_pseudo, trans_pseudo = self._pseudo()
-        allowed = self.states_.allowed
-        for p, st in zip(pieces, stats):
-            p.m_step(st)
-        total = np.where(allowed, trans + trans_pseudo, 0.0)
-        rows = total.sum(axis=1, keepdims=True)
-        uniform = allowed / allowed.sum(axis=1, keepdims=True)
-        transmat = np.where(rows > 0, total / np.where(rows > 0, rows, 1), uniform)
-        s = start + start_pseudo
-        startprob = s / s.sum() if s.sum() > 0 else np.full(len(s), 1 / len(s))
-        return startprob, transmat
-
-    def _log_prior(self, pieces, startprob, transmat) -> float:
-        start_pseudo, trans_pseudo = self._pseudo()
-        out = sum(p.log_prior() for p in pieces)
-        m = start_pseudo > 0
-        out += float(np.sum(start_pseudo[m] * np.log(startprob[m])))
-        m = trans_pseudo > 0
-        out += float(np.sum(trans_pseudo[m] * np.log(transmat[m])))
-        return float(out)
-
-    def _initial(self, data: _Data, rng: np.random.Generator, restart: int):
-        """Parameters from rule-based starting weights, perturbed per restart."""
-        S = self.states_.n_tracts
-        pieces = self._new_pieces(data.beds, data.trained)
-        stats = [p.empty_stats(S) for p in pieces]
-        for a, b, lengths, _ in self._batches(data.beds.lengths):
-            T = b - a
-            weights = np.full((T, S), 1.0 / S)
-            if self.ranks_ is not None and not self._reads_context():
-                weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
-            if restart > 0:
-                noise = rng.dirichlet(np.ones(S), size=T)
-                weights = 0.5 * weights + 0.5 * noise
-            if data.clamp is not None:
-                clamp = data.clamp[a:b]
-                labelled = ~clamp.all(axis=1)
-                weights[labelled] = clamp[labelled].astype(float)
-            part = data.beds.slice(a, b, lengths)
-            for p, st in zip(pieces, stats):
-                p.accumulate(st, part, weights)
-        K = self.states_.n_states
-        allowed = self.states_.allowed
-        stay = np.where(np.eye(K, dtype=bool), 8.0, 1.0)
-        if restart > 0:
-            stay = stay * rng.uniform(0.5, 1.5, size=(K, K))
-        trans = np.where(allowed, stay, 0.0)
-        startprob, transmat = self._m_step(pieces, stats, trans, np.ones(K))
-        return pieces, startprob, transmat
-
-    def _run(
-        self,
-        data: _Data,
-        seed: int,
-        restart: int,
-        progress: ProgressCallback | None,
-        start: tuple | None = None,
-    ):
-        rng = np.random.default_rng(seed)
-        pieces, startprob, transmat = start or self._initial(data, rng, restart)
-        monitor = ConvergenceMonitor(float(self.tol), int(self.max_iter))
-        while True:
-            ll, stats, trans, start = self._e_step(pieces, startprob, transmat, data)
-            objective = ll + self._log_prior(pieces, startprob, transmat)
-            monitor.report(objective)
-            if progress is not None:
-                progress(restart, monitor.iter, objective)
-            if monitor.converged:
-                break
-            startprob, transmat = self._m_step(pieces, stats, trans, start)
-        return {
-            "pieces": pieces,
-            "startprob": startprob,
-            "transmat": transmat,
-            "log_likelihood": ll,
-            "objective": objective,
-            "monitor": monitor,
-            "seed": int(seed),
-        }
-
-    def _named_runs(self, runs: list[dict], data: _Data, progress) -> list[dict]:
+    def _named_runs(self, runs: list[dict], data: TrainingData, progress) -> list[dict]:
         """Mark (``named``) the restarts whose most deepening state carries the
         deepening tract's name (:mod:`faciesseq.hmm.identity`); when none does, turn
         the best one round the cycle and run EM again from there (an extra run, the
@@ -862,7 +625,7 @@ class TractHMM:
             else None
         )
         trained = self._train_static(beds, clamp)
-        data = _Data(
+        data = TrainingData(
             beds,
             clamp,
             ranks,
@@ -1004,165 +767,6 @@ class TractHMM:
             succ = [s for s in _as_successions(successions, self.unit, self.step) if len(s)]
             n, loglik = sum(len(s) for s in succ), self.score(succ)
         return -2.0 * loglik + self.n_parameters() * math.log(n)
-
-    def _warn_unseen(self, succ: Sequence[Succession], beds: EncodedBeds) -> None:
-        start = 0
-        for s in succ:
-            n = len(s)
-            for what, codes in (("facies", beds.facies), ("contact type", beds.contact)):
-                if what == "contact type" and "contact" not in self.features_:
-                    continue
-                if what == "facies" and not ({"facies", "facies_trend"} & set(self.features_)):
-                    continue
-                bad = np.nonzero(codes[start : start + n] == -2)[0]
-                if len(bad):
-                    col = "facies" if what == "facies" else "contact"
-                    values = sorted({str(v) for v in s.beds[col].iloc[bad]})
-                    warnings.warn(
-                        UnseenCategoryWarning(
-                            f"core {s.core}, depth {float(s.beds['top'].iloc[bad[0]]):.2f} "
-                            f"{s.units}: {what} {values} not seen in training "
-                            f"({len(bad)} bed(s)); decoded with a smoothed probability"
-                        ),
-                        stacklevel=3,
-                    )
-            start += n
-
-    def decode(
-        self,
-        successions: CoreSet | Sequence[Succession],
-        threshold: float = 0.5,
-        mass: float = 0.9,
-        labels: str | Sequence[Sequence[str | None]] | None = None,
-    ) -> Interpretation:
-        """Tract column, posteriors, surface probabilities and picks of every core.
-
-        Any interpreter's ``tract`` column is ignored (it is kept in the bed
-        tables as ``interpreted_tract``) unless named by ``labels``: then its
-        labelled beds are clamped (they keep their tract, posterior 1) and the
-        rest is decoded around them. ``threshold`` and
-        ``mass`` are the surface-pick options of
-        :func:`faciesseq.surfaces.pick_surfaces`.
-
-        Returns
-        -------
-        Interpretation, tables in depth order (shallowest first).
-        """
-        succ, beds = self._prepare(successions)
-        self._warn_unseen(succ, beds)
-        clamp, _ = self._labels(succ, labels)
-        tm = self.tract_model_
-        codes = surface_codes(tm)
-        names = surface_names(tm)
-        tracts = self.states_.tracts
-        per_core: dict[str, list] = {}
-        batches = list(self._batches(beds.lengths, DECODE_BATCH))
-        jobs = [
-            (beds.slice(a, b, lengths), None if clamp is None else clamp[a:b])
-            for a, b, lengths, _ in batches
-        ]
-        decoded = run_jobs(self._decode_batch, jobs, self.n_jobs, self.scheduler)
-        for (_, _, lengths, first), (gamma, vit, surf, loglik) in zip(batches, decoded):
-            row, bnd = 0, 0
-            for k, n in enumerate(lengths):
-                s = succ[first + k]
-                per_core.setdefault(s.core, []).append(
-                    (
-                        s,
-                        gamma[row : row + n],
-                        vit[row : row + n],
-                        surf[bnd : bnd + n - 1],
-                        float(loglik[k]),
-                    )
-                )
-                row += n
-                bnd += n - 1
-        cores = {}
-        for core, parts in per_core.items():
-            cores[core] = self._core_interpretation(core, parts, codes, names, threshold, mass)
-        return Interpretation(
-            cores,
-            tracts,
-            codes,
-            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)}
-            | probability_meta(self.temperature_, self.calibration_),
-        )
-
-    def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
-        """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
-        of one batch of whole successions (one job of :mod:`faciesseq.parallel`)."""
-        le = self._log_emission(self.emissions_, beds)
-        if clamp is not None:
-            le = engine.constrained_log_emission(le, clamp[:, self.states_.state_tract])
-        # probabilities from the calibrated (tempered) chain; the log-likelihood
-        # and the Viterbi column from the model itself
-        tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
-        post = engine.forward_backward(tle, beds.lengths, tpi, tA, return_xi=True)
-        loglik = (
-            post.log_likelihood
-            if self.temperature_ == 1.0
-            else engine.forward_backward(
-                le, beds.lengths, self.startprob_, self.transmat_
-            ).log_likelihood
-        )
-        path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
-        surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
-        return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
-
-    def _core_interpretation(self, core, parts, codes, names, threshold, mass):
-        """One core's tables from its decoded successions, each column built whole."""
-        tracts = np.asarray(self.states_.tracts, dtype=object)
-        bed_frames, bnd_frames, pick_frames = [], [], []
-        units = parts[0][0].units
-        # depth order: shallowest segment first, top of each succession first
-        parts = sorted(parts, key=lambda p: p[0].segment)
-        for s, _, vit, surf, _ in parts:
-            bed_frames.append(s.beds.iloc[::-1])
-            top = s.beds["top"].to_numpy(float)[:-1][::-1]  # contact t: top of the lower bed
-            bnd = {
-                "segment": np.full(len(top), s.segment),
-                "depth": top,
-                "lower_tract": tracts[vit[:-1]][::-1],
-                "upper_tract": tracts[vit[1:]][::-1],
-            }
-            bnd |= {f"p_{code}": surf[::-1, c] for c, code in enumerate(codes)}
-            bnd = pd.DataFrame(bnd)
-            bnd_frames.append(bnd)
-            pick_frames.append(column_picks(bnd, codes, self.tract_model_, s.segment, mass))
-        beds = pd.concat(bed_frames, ignore_index=True)
-        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
-            beds = beds.rename(columns={"tract": "interpreted_tract"})
-        gamma = np.concatenate([p[1][::-1] for p in parts])
-        added = {
-            "segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts]),
-            "tract": tracts[np.concatenate([p[2][::-1] for p in parts])],
-        } | {f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)}
-        first = ["segment", "top", "base", "thickness", "facies"]
-        p_cols = [f"p_{t}" for t in self.states_.tracts]
-        other = [c for c in beds.columns if c not in (*first, "tract", *p_cols)]
-        columns = {c: beds[c] for c in first if c in beds.columns and c != "segment"}
-        beds = pd.concat(
-            [
-                pd.DataFrame({"segment": added["segment"]}),
-                pd.DataFrame(columns),
-                beds[other],
-                pd.DataFrame({k: v for k, v in added.items() if k != "segment"}),
-            ],
-            axis=1,
-        )
-        picks = pd.concat(pick_frames, ignore_index=True).sort_values(
-            ["depth", "surface"], kind="stable"
-        )
-        return CoreInterpretation(
-            core,
-            units,
-            tuple(self.states_.tracts),
-            tuple(codes),
-            beds,
-            pd.concat(bnd_frames, ignore_index=True),
-            picks.reset_index(drop=True),
-            float(sum(p[4] for p in parts)),
-        )
 
     # ------------------------------------------------------ parameter access
     def emission(self, name: str) -> EmissionPiece:

@@ -1,0 +1,199 @@
+"""Decoding with a fitted tract model: tract columns, posteriors, surfaces and picks.
+
+Batches of whole successions (each one job of :mod:`faciesseq.parallel`) get
+the tempered forward-backward posteriors, the Viterbi column of the model
+itself and the two-slice surface probabilities; each core's beds, boundaries
+and picks are then assembled in depth order (shallowest first).
+:class:`~faciesseq.hmm.model.TractHMM` takes these methods from :class:`Decoding`.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import CoreSet, Succession
+from faciesseq.hmm import engine
+from faciesseq.hmm.calibration import probability_meta, temper
+from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
+from faciesseq.interpretation import CoreInterpretation, Interpretation
+from faciesseq.parallel import run_jobs
+from faciesseq.surfaces import (
+    boundary_probabilities,
+    column_picks,
+    surface_codes,
+    surface_names,
+)
+
+__all__ = ["DECODE_BATCH", "Decoding"]
+
+#: Beds per batch decoded as one job (at most ``batch_size``). Fixed, so that the
+#: batches -- whose make-up moves the posteriors in the last bit -- and hence
+#: the decoded columns do not depend on the number of workers.
+DECODE_BATCH = 20_000
+
+
+class Decoding:
+    """Decoding of :class:`~faciesseq.hmm.model.TractHMM` (a fitted model)."""
+
+    def _warn_unseen(self, succ: Sequence[Succession], beds: EncodedBeds) -> None:
+        start = 0
+        for s in succ:
+            n = len(s)
+            for what, codes in (("facies", beds.facies), ("contact type", beds.contact)):
+                if what == "contact type" and "contact" not in self.features_:
+                    continue
+                if what == "facies" and not ({"facies", "facies_trend"} & set(self.features_)):
+                    continue
+                bad = np.nonzero(codes[start : start + n] == -2)[0]
+                if len(bad):
+                    col = "facies" if what == "facies" else "contact"
+                    values = sorted({str(v) for v in s.beds[col].iloc[bad]})
+                    warnings.warn(
+                        UnseenCategoryWarning(
+                            f"core {s.core}, depth {float(s.beds['top'].iloc[bad[0]]):.2f} "
+                            f"{s.units}: {what} {values} not seen in training "
+                            f"({len(bad)} bed(s)); decoded with a smoothed probability"
+                        ),
+                        stacklevel=3,
+                    )
+            start += n
+
+    def decode(
+        self,
+        successions: CoreSet | Sequence[Succession],
+        threshold: float = 0.5,
+        mass: float = 0.9,
+        labels: str | Sequence[Sequence[str | None]] | None = None,
+    ) -> Interpretation:
+        """Tract column, posteriors, surface probabilities and picks of every core.
+
+        Any interpreter's ``tract`` column is ignored (it is kept in the bed
+        tables as ``interpreted_tract``) unless named by ``labels``: then its
+        labelled beds are clamped (they keep their tract, posterior 1) and the
+        rest is decoded around them. ``threshold`` and
+        ``mass`` are the surface-pick options of
+        :func:`faciesseq.surfaces.pick_surfaces`.
+
+        Returns
+        -------
+        Interpretation, tables in depth order (shallowest first).
+        """
+        succ, beds = self._prepare(successions)
+        self._warn_unseen(succ, beds)
+        clamp, _ = self._labels(succ, labels)
+        tm = self.tract_model_
+        codes = surface_codes(tm)
+        names = surface_names(tm)
+        tracts = self.states_.tracts
+        per_core: dict[str, list] = {}
+        batches = list(self._batches(beds.lengths, DECODE_BATCH))
+        jobs = [
+            (beds.slice(a, b, lengths), None if clamp is None else clamp[a:b])
+            for a, b, lengths, _ in batches
+        ]
+        decoded = run_jobs(self._decode_batch, jobs, self.n_jobs, self.scheduler)
+        for (_, _, lengths, first), (gamma, vit, surf, loglik) in zip(batches, decoded):
+            row, bnd = 0, 0
+            for k, n in enumerate(lengths):
+                s = succ[first + k]
+                per_core.setdefault(s.core, []).append(
+                    (
+                        s,
+                        gamma[row : row + n],
+                        vit[row : row + n],
+                        surf[bnd : bnd + n - 1],
+                        float(loglik[k]),
+                    )
+                )
+                row += n
+                bnd += n - 1
+        cores = {}
+        for core, parts in per_core.items():
+            cores[core] = self._core_interpretation(core, parts, codes, names, threshold, mass)
+        return Interpretation(
+            cores,
+            tracts,
+            codes,
+            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)}
+            | probability_meta(self.temperature_, self.calibration_),
+        )
+
+    def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
+        """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
+        of one batch of whole successions (one job of :mod:`faciesseq.parallel`)."""
+        le = self._log_emission(self.emissions_, beds)
+        if clamp is not None:
+            le = engine.constrained_log_emission(le, clamp[:, self.states_.state_tract])
+        # probabilities from the calibrated (tempered) chain; the log-likelihood
+        # and the Viterbi column from the model itself
+        tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
+        post = engine.forward_backward(tle, beds.lengths, tpi, tA, return_xi=True)
+        loglik = (
+            post.log_likelihood
+            if self.temperature_ == 1.0
+            else engine.forward_backward(
+                le, beds.lengths, self.startprob_, self.transmat_
+            ).log_likelihood
+        )
+        path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
+        surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
+        return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
+
+    def _core_interpretation(self, core, parts, codes, names, threshold, mass):
+        """One core's tables from its decoded successions, each column built whole."""
+        tracts = np.asarray(self.states_.tracts, dtype=object)
+        bed_frames, bnd_frames, pick_frames = [], [], []
+        units = parts[0][0].units
+        # depth order: shallowest segment first, top of each succession first
+        parts = sorted(parts, key=lambda p: p[0].segment)
+        for s, _, vit, surf, _ in parts:
+            bed_frames.append(s.beds.iloc[::-1])
+            top = s.beds["top"].to_numpy(float)[:-1][::-1]  # contact t: top of the lower bed
+            bnd = {
+                "segment": np.full(len(top), s.segment),
+                "depth": top,
+                "lower_tract": tracts[vit[:-1]][::-1],
+                "upper_tract": tracts[vit[1:]][::-1],
+            }
+            bnd |= {f"p_{code}": surf[::-1, c] for c, code in enumerate(codes)}
+            bnd = pd.DataFrame(bnd)
+            bnd_frames.append(bnd)
+            pick_frames.append(column_picks(bnd, codes, self.tract_model_, s.segment, mass))
+        beds = pd.concat(bed_frames, ignore_index=True)
+        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+            beds = beds.rename(columns={"tract": "interpreted_tract"})
+        gamma = np.concatenate([p[1][::-1] for p in parts])
+        added = {
+            "segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts]),
+            "tract": tracts[np.concatenate([p[2][::-1] for p in parts])],
+        } | {f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)}
+        first = ["segment", "top", "base", "thickness", "facies"]
+        p_cols = [f"p_{t}" for t in self.states_.tracts]
+        other = [c for c in beds.columns if c not in (*first, "tract", *p_cols)]
+        columns = {c: beds[c] for c in first if c in beds.columns and c != "segment"}
+        beds = pd.concat(
+            [
+                pd.DataFrame({"segment": added["segment"]}),
+                pd.DataFrame(columns),
+                beds[other],
+                pd.DataFrame({k: v for k, v in added.items() if k != "segment"}),
+            ],
+            axis=1,
+        )
+        picks = pd.concat(pick_frames, ignore_index=True).sort_values(
+            ["depth", "surface"], kind="stable"
+        )
+        return CoreInterpretation(
+            core,
+            units,
+            tuple(self.states_.tracts),
+            tuple(codes),
+            beds,
+            pd.concat(bnd_frames, ignore_index=True),
+            picks.reset_index(drop=True),
+            float(sum(p[4] for p in parts)),
+        )

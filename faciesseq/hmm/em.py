@@ -1,0 +1,269 @@
+"""Fitting the tract model: EM for the *maximum a posteriori* parameters.
+
+The E-step runs the engine's forward-backward over batches of whole
+successions (clamped beds keep their tract) and sums the pieces' sufficient
+statistics; the M-step re-estimates pieces, start and transition probabilities
+under their Dirichlet pseudo-counts; each restart starts from the rule-based
+or perturbed weights of :meth:`ExpectationMaximisation._initial` (Baum et al.
+1970; Dempster, Laird & Rubin 1977). :class:`ConvergenceMonitor` stops it and
+refuses a decreasing objective. :class:`~faciesseq.hmm.model.TractHMM` takes
+these methods from :class:`ExpectationMaximisation`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from faciesseq.errors import FaciesseqError, InputError
+from faciesseq.hmm import engine
+from faciesseq.hmm.emissions import EmissionPiece
+from faciesseq.hmm.encoding import EncodedBeds
+
+__all__ = [
+    "ConvergenceError",
+    "ConvergenceMonitor",
+    "ExpectationMaximisation",
+    "ProgressCallback",
+    "TrainingData",
+]
+
+#: ``progress(restart, iteration, objective)``, called after every EM iteration.
+ProgressCallback = Callable[[int, int, float], None]
+
+
+class ConvergenceError(FaciesseqError):
+    """EM's objective went down: a numerical problem, never expected (exit code 1)."""
+
+
+@dataclass
+class ConvergenceMonitor:
+    """Tracks EM's objective (log-likelihood + log-prior) over iterations.
+
+    Converged when an iteration improves the objective by less than ``tol``
+    (natural-log units) or after ``max_iter`` iterations. A decrease by more
+    than rounding (``1e-9`` relative) raises :class:`ConvergenceError`: EM
+    cannot decrease its objective (Dempster et al. 1977, theorem 1), so a
+    decrease is a bug, not a result.
+    """
+
+    tol: float = 1e-3
+    max_iter: int = 200
+    history: list[float] = field(default_factory=list)
+
+    def report(self, objective: float) -> None:
+        if not math.isfinite(objective):
+            raise ConvergenceError(f"EM objective is {objective} at iteration {self.iter + 1}")
+        if self.history:
+            last = self.history[-1]
+            if objective < last - 1e-9 * max(1.0, abs(last)):
+                raise ConvergenceError(
+                    f"EM objective decreased from {last:.10g} to {objective:.10g} at "
+                    f"iteration {self.iter + 1}"
+                )
+        self.history.append(float(objective))
+
+    @property
+    def iter(self) -> int:
+        return len(self.history)
+
+    @property
+    def converged(self) -> bool:
+        if self.iter >= self.max_iter:
+            return True
+        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
+
+    @property
+    def reached_tolerance(self) -> bool:
+        return self.iter >= 2 and self.history[-1] - self.history[-2] < self.tol
+
+
+@dataclass
+class TrainingData:
+    """What fitting needs, coded once."""
+
+    beds: EncodedBeds
+    clamp: np.ndarray | None  # (T, n_tracts) bool, or None
+    ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
+    rule: np.ndarray  # (T,) trend-rule tract index
+    cores: tuple[str, ...] = ()  # core of each succession
+    static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
+    trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
+
+
+def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
+    """The engine's error about "sequence N" of a batch, naming the core instead."""
+    import re
+
+    found = re.search(r"sequence (\d+)", exc.message)
+    core = None
+    if found and cores:
+        k = first + int(found.group(1))
+        core = cores[k] if k < len(cores) else None
+    return InputError(
+        "the beds have probability zero under the tract model (" + exc.message + ")", core=core
+    )
+
+
+class ExpectationMaximisation:
+    """EM of :class:`~faciesseq.hmm.model.TractHMM` (its states, pieces and priors)."""
+
+    def _e_step(self, pieces, startprob, transmat, data: TrainingData):
+        K = self.states_.n_states
+        S = self.states_.n_tracts
+        stats = [p.empty_stats(S) for p in pieces]
+        trans = np.zeros((K, K))
+        start = np.zeros(K)
+        total = 0.0
+        for a, b, lengths, first in self._batches(data.beds.lengths):
+            part = data.beds.slice(a, b, lengths)
+            static = None if data.static is None else data.static[a:b]
+            le = self._log_emission(pieces, part, static)
+            if data.clamp is not None:
+                le = engine.constrained_log_emission(
+                    le, data.clamp[a:b][:, self.states_.state_tract]
+                )
+            try:
+                post = engine.forward_backward(le, lengths, startprob, transmat)
+            except InputError as exc:
+                raise _located(exc, data.cores, first) from None
+            weights = self.states_.to_tracts(post.gamma)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
+            trans += post.xi_sum
+            start += post.start
+            total += post.total_log_likelihood
+        return total, stats, trans, start
+
+    def _pseudo(self) -> tuple[np.ndarray, np.ndarray]:
+        base = 0.1 * float(self.prior_strength)
+        allowed = self.states_.allowed
+        trans = np.where(allowed, base, 0.0)
+        cycle = getattr(self, "_cycle_pseudo", None)
+        if cycle is not None:
+            trans = trans + cycle
+        return np.full(self.states_.n_states, base), trans
+
+    def _cycle_counts(
+        self, rule: np.ndarray, lengths: np.ndarray, free: np.ndarray | None = None
+    ) -> np.ndarray:
+        """Transition pseudo-counts from the trend rule's tract column, on the states.
+
+        ``cycle_prior`` times the rule's tract-to-tract counts between
+        unlabelled beds (``free``; labelled beds speak for themselves): a tract's stays
+        are shared between each sub-state's self-transition and its step along
+        the chain, its exits go from every sub-state to the next tract's first
+        sub-state; cells the tract graph forbids get nothing.
+        """
+        S = self.states_.n_tracts
+        counts = np.zeros((S, S))
+        start = 0
+        for n in lengths:
+            r = rule[start : start + n]
+            keep = (
+                np.ones(max(n - 1, 0), dtype=bool)
+                if free is None
+                else free[start : start + n - 1] & free[start + 1 : start + n]
+            )
+            np.add.at(counts, (r[:-1][keep], r[1:][keep]), 1.0)
+            start += n
+        K = self.states_.n_states
+        out = np.zeros((K, K))
+        first = self.states_.first
+        for a in range(S):
+            members = np.nonzero(self.states_.state_tract == a)[0]
+            m = len(members)
+            for k, i in enumerate(members):
+                if k + 1 < m:
+                    out[i, i] += counts[a, a] / (2 * m)
+                    out[i, members[k + 1]] += counts[a, a] / (2 * m)
+                else:
+                    out[i, i] += counts[a, a] / m
+                for b in range(S):
+                    if b != a:
+                        out[i, first[b]] += counts[a, b] / m
+        return float(self.cycle_prior) * np.where(self.states_.allowed, out, 0.0)
+
+    def _m_step(self, pieces, stats, trans, start):
+        start_pseudo, trans_pseudo = self._pseudo()
+        allowed = self.states_.allowed
+        for p, st in zip(pieces, stats):
+            p.m_step(st)
+        total = np.where(allowed, trans + trans_pseudo, 0.0)
+        rows = total.sum(axis=1, keepdims=True)
+        uniform = allowed / allowed.sum(axis=1, keepdims=True)
+        transmat = np.where(rows > 0, total / np.where(rows > 0, rows, 1), uniform)
+        s = start + start_pseudo
+        startprob = s / s.sum() if s.sum() > 0 else np.full(len(s), 1 / len(s))
+        return startprob, transmat
+
+    def _log_prior(self, pieces, startprob, transmat) -> float:
+        start_pseudo, trans_pseudo = self._pseudo()
+        out = sum(p.log_prior() for p in pieces)
+        m = start_pseudo > 0
+        out += float(np.sum(start_pseudo[m] * np.log(startprob[m])))
+        m = trans_pseudo > 0
+        out += float(np.sum(trans_pseudo[m] * np.log(transmat[m])))
+        return float(out)
+
+    def _initial(self, data: TrainingData, rng: np.random.Generator, restart: int):
+        """Parameters from rule-based starting weights, perturbed per restart."""
+        S = self.states_.n_tracts
+        pieces = self._new_pieces(data.beds, data.trained)
+        stats = [p.empty_stats(S) for p in pieces]
+        for a, b, lengths, _ in self._batches(data.beds.lengths):
+            T = b - a
+            weights = np.full((T, S), 1.0 / S)
+            if self.ranks_ is not None and not self._reads_context():
+                weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
+            if restart > 0:
+                noise = rng.dirichlet(np.ones(S), size=T)
+                weights = 0.5 * weights + 0.5 * noise
+            if data.clamp is not None:
+                clamp = data.clamp[a:b]
+                labelled = ~clamp.all(axis=1)
+                weights[labelled] = clamp[labelled].astype(float)
+            part = data.beds.slice(a, b, lengths)
+            for p, st in zip(pieces, stats):
+                p.accumulate(st, part, weights)
+        K = self.states_.n_states
+        allowed = self.states_.allowed
+        stay = np.where(np.eye(K, dtype=bool), 8.0, 1.0)
+        if restart > 0:
+            stay = stay * rng.uniform(0.5, 1.5, size=(K, K))
+        trans = np.where(allowed, stay, 0.0)
+        startprob, transmat = self._m_step(pieces, stats, trans, np.ones(K))
+        return pieces, startprob, transmat
+
+    def _run(
+        self,
+        data: TrainingData,
+        seed: int,
+        restart: int,
+        progress: ProgressCallback | None,
+        start: tuple | None = None,
+    ):
+        rng = np.random.default_rng(seed)
+        pieces, startprob, transmat = start or self._initial(data, rng, restart)
+        monitor = ConvergenceMonitor(float(self.tol), int(self.max_iter))
+        while True:
+            ll, stats, trans, start = self._e_step(pieces, startprob, transmat, data)
+            objective = ll + self._log_prior(pieces, startprob, transmat)
+            monitor.report(objective)
+            if progress is not None:
+                progress(restart, monitor.iter, objective)
+            if monitor.converged:
+                break
+            startprob, transmat = self._m_step(pieces, stats, trans, start)
+        return {
+            "pieces": pieces,
+            "startprob": startprob,
+            "transmat": transmat,
+            "log_likelihood": ll,
+            "objective": objective,
+            "monitor": monitor,
+            "seed": int(seed),
+        }
