@@ -330,19 +330,19 @@ def calibrate_by_folds(
         seed = int(rng.integers(0, 2**31 - 1))  # drawn in fold order, as before any job runs
         labels = [[tracts[j] if j >= 0 else None for j in codes[i]] for i in train]
         held_out = ([succ[i] for i in test], np.concatenate([codes[i] for i in test]))
-        jobs.append((params | {"random_state": seed}, [succ[i] for i in train], labels, *held_out))
+        fold = params | {"random_state": seed}
+        jobs.append((type(model), fold, [succ[i] for i in train], labels, *held_out))
     held = run_jobs(_held_out_fold, jobs, model.n_jobs, model.scheduler)
     return {**fit_temperature(held), "folds": k, "cores": len(cores)}
 
 
 def _held_out_fold(
-    params: dict, train: list, labels: list, test: list, test_codes: np.ndarray
+    estimator: type, params: dict, train: list, labels: list, test: list, test_codes: np.ndarray
 ) -> HeldOut:
-    """One fold of :func:`calibrate_by_folds`: a model fitted on ``train`` (one job of
-    :func:`faciesseq.parallel.run_jobs`), and its chain and log-emissions of ``test``."""
-    from faciesseq.hmm.model import TractHMM
-
-    sub = TractHMM(**params)
+    """One fold of :func:`calibrate_by_folds`: an ``estimator`` (the tract model's class)
+    fitted on ``train`` (one job of :func:`faciesseq.parallel.run_jobs`), and its chain
+    and log-emissions of ``test``."""
+    sub = estimator(**params)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # the main fit has said it all
         sub.fit(train, labels=labels)

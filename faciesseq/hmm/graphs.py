@@ -65,9 +65,9 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     (:mod:`faciesseq.parallel`)."""
     params = {**model.get_params(), "graph": "fixed", "calibration_folds": 0}
     graphs = [g for g in trade_graphs(default_tract_model()) if tuple(g.skips) in CHOSEN_AMONG]
-    jobs = [({**params, "tract_model": g}, succ) for g in graphs]
+    jobs = [(type(model), {**params, "tract_model": g}, succ) for g in graphs]
     if model._parallel():  # one job per graph; each fit's restarts run in turn
-        jobs = [({**p, "n_jobs": 1, "scheduler": None}, s) for p, s in jobs]
+        jobs = [(m, {**p, "n_jobs": 1, "scheduler": None}, s) for m, p, s in jobs]
         fitted_models = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
     else:
         fitted_models = [_fit_graph(*job, progress) for job in jobs]
@@ -88,8 +88,7 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     return fits[best], rows
 
 
-def _fit_graph(params: dict, succ: Sequence[Succession], progress=None):
-    """One candidate of :func:`choose_graph`, fitted."""
-    from faciesseq.hmm.model import TractHMM
-
-    return TractHMM(**params).fit(succ, progress=progress)
+def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None):
+    """One candidate of :func:`choose_graph`: an ``estimator`` (the tract model's class)
+    with ``params``, fitted."""
+    return estimator(**params).fit(succ, progress=progress)
