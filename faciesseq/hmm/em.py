@@ -92,6 +92,7 @@ class TrainingData:
     cores: tuple[str, ...] = ()  # core of each succession
     static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
     trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
+    combos: tuple[np.ndarray, np.ndarray] | None = None  # see ExpectationMaximisation._combos
 
 
 def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
@@ -112,6 +113,8 @@ class ExpectationMaximisation:
     """EM of :class:`~faciesseq.hmm.model.TractHMM` (its states, pieces and priors)."""
 
     def _e_step(self, pieces, startprob, transmat, data: TrainingData):
+        if data.clamp is None and data.static is None and all(p.coded for p in pieces):
+            return self._e_step_on_combinations(pieces, startprob, transmat, data)
         K = self.states_.n_states
         S = self.states_.n_tracts
         stats = [p.empty_stats(S) for p in pieces]
@@ -137,6 +140,45 @@ class ExpectationMaximisation:
             start += post.start
             total += post.total_log_likelihood
         return total, stats, trans, start
+
+    def _combos(self, pieces, data: TrainingData) -> tuple[np.ndarray, np.ndarray]:
+        """The distinct combinations of the pieces' codes ``(U, n_pieces)`` and the
+        combination of every bed ``(T,)``, found once per fit (the codes do not change
+        during EM)."""
+        if data.combos is None:
+            codes = np.column_stack([p.observed(data.beds) for p in pieces])
+            combos, inverse = np.unique(codes, axis=0, return_inverse=True)
+            data.combos = (combos, inverse.reshape(-1))
+        return data.combos
+
+    def _e_step_on_combinations(self, pieces, startprob, transmat, data: TrainingData):
+        """The E-step of pieces that all observe codes, none clamped: the log-emission
+        is a table over the distinct combinations of codes, and the posteriors are
+        summed per combination by the engine (``codes=``), so emissions and
+        statistics cost one row per combination, not per bed. The same numbers as
+        :meth:`_e_step`, summed in another order. Why: measured, the per-bed
+        emissions and statistics were half of every EM iteration."""
+        combos, inverse = self._combos(pieces, data)
+        S = self.states_.n_tracts
+        table = np.zeros((len(combos), S))
+        for j, p in enumerate(pieces):
+            table += p.log_prob_of(combos[:, j])
+        try:
+            post = engine.forward_backward(
+                table[:, self.states_.state_tract],
+                data.beds.lengths,
+                startprob,
+                transmat,
+                codes=inverse,
+                return_gamma=False,
+            )
+        except InputError as exc:
+            raise _located(exc, data.cores, 0) from None
+        weights = self.states_.to_tracts(post.code_gamma)
+        stats = [p.empty_stats(S) for p in pieces]
+        for j, (p, st) in enumerate(zip(pieces, stats)):
+            p.accumulate_of(st, combos[:, j], weights)
+        return post.total_log_likelihood, stats, post.xi_sum, post.start
 
     def _pseudo(self) -> tuple[np.ndarray, np.ndarray]:
         base = 0.1 * float(self.prior_strength)

@@ -123,11 +123,14 @@ class EmissionPiece:
     """Base of the emission pieces (see the module docstring).
 
     ``static`` pieces do not change during EM, so their log-probabilities are
-    computed once per fit.
+    computed once per fit. ``coded`` pieces observe one integer code per bed
+    (``observed``, ``log_prob_of``, ``accumulate_of``), so EM can work on the
+    distinct combinations of codes instead of on every bed.
     """
 
     kind: ClassVar[str] = ""
     static: ClassVar[bool] = False
+    coded: ClassVar[bool] = False
     name: str
 
     def log_prob(self, beds: EncodedBeds) -> np.ndarray:
@@ -182,11 +185,20 @@ class CategoricalEmission(EmissionPiece):
         self.emissionprob_ = np.where(total > 0, self.pseudo / np.where(total > 0, total, 1), 1 / V)
         self.unseen_prob_ = np.full(n_tracts, 1.0 / (V + 1))
 
+    coded = True
+
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
         return beds.facies
 
+    def observed(self, beds: EncodedBeds) -> np.ndarray:
+        """``(T,)`` the category code of every bed (``MISSING``, ``UNSEEN`` below 0)."""
+        return self._observed(beds)
+
     def log_prob(self, beds: EncodedBeds) -> np.ndarray:
-        obs = self._observed(beds)
+        return self.log_prob_of(self._observed(beds))
+
+    def log_prob_of(self, obs: np.ndarray) -> np.ndarray:
+        """``log_prob`` of observations given as codes (:meth:`observed`)."""
         S = self.emissionprob_.shape[0]
         out = np.zeros((len(obs), S))
         known = obs >= 0
@@ -201,7 +213,10 @@ class CategoricalEmission(EmissionPiece):
         return {"counts": np.zeros((n_tracts, len(self.categories)))}
 
     def accumulate(self, stats: dict, beds: EncodedBeds, weights: np.ndarray) -> None:
-        obs = self._observed(beds)
+        self.accumulate_of(stats, self._observed(beds), weights)
+
+    def accumulate_of(self, stats: dict, obs: np.ndarray, weights: np.ndarray) -> None:
+        """``accumulate`` of observations given as codes (:meth:`observed`)."""
         known = obs >= 0
         counts = stats["counts"]
         for s in range(counts.shape[0]):

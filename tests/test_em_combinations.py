@@ -1,0 +1,50 @@
+"""EM on the distinct combinations of codes gives the fit of EM on every bed."""
+
+from __future__ import annotations
+
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import yaml
+
+from faciesseq.core import CoreSet
+from faciesseq.hmm import TractHMM
+from faciesseq.hmm.emissions import CategoricalEmission
+from faciesseq.scheme import load_scheme
+from faciesseq.simulate.stacking import simulate_stacking, stacking_scenario_from_dict
+
+ROOT = Path(__file__).resolve().parents[1]
+SCHEME = load_scheme(ROOT / "faciesseq" / "data" / "demo" / "scheme-shoreface.yaml")
+
+
+def _cores() -> CoreSet:
+    data = yaml.safe_load((ROOT / "configs" / "stacking-shoreface.yaml").read_text())
+    data.update({"cores": 4, "labelled_fraction": 0.0})
+    scenario = stacking_scenario_from_dict(data, source=str(ROOT / "configs" / "x.yaml"))
+    table = simulate_stacking(scenario, seed=41).cores.to_frame().drop(columns=["tract"])
+    return CoreSet.from_frame(table, units="m")
+
+
+def _fit(cores: CoreSet) -> TractHMM:
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return TractHMM(
+            scheme=SCHEME, random_state=3, graph="fixed", calibration_folds=0, n_restarts=2
+        ).fit(cores)
+
+
+def test_fit_on_combinations_equals_fit_on_every_bed(monkeypatch):
+    cores = _cores()
+    on_combinations = _fit(cores)
+    assert all(p.coded for p in on_combinations.emissions_)  # the default pieces observe codes
+    monkeypatch.setattr(CategoricalEmission, "coded", False)  # the per-bed E-step
+    on_beds = _fit(cores)
+    assert on_combinations.monitor_.iter == on_beds.monitor_.iter
+    np.testing.assert_allclose(on_combinations.log_likelihood_, on_beds.log_likelihood_, rtol=1e-10)
+    np.testing.assert_allclose(on_combinations.transmat_, on_beds.transmat_, atol=1e-9)
+    for a, b in zip(on_combinations.emissions_, on_beds.emissions_, strict=True):
+        np.testing.assert_allclose(a.emissionprob_, b.emissionprob_, atol=1e-9)
+    decoded = [pd.concat([c.beds for c in m.decode(cores)]) for m in (on_combinations, on_beds)]
+    assert (decoded[0]["tract"].to_numpy() == decoded[1]["tract"].to_numpy()).all()
