@@ -12,6 +12,7 @@ Depths here are in the core's units; contacts are listed in the order given.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -20,8 +21,11 @@ import pandas as pd
 from faciesseq.scheme import TractModel
 
 __all__ = [
+    "PICK_COLUMNS",
     "SurfacePicks",
     "boundary_probabilities",
+    "column_picks",
+    "pick_rows",
     "pick_surfaces",
     "picks_frame",
     "surface_codes",
@@ -237,6 +241,19 @@ def surface_curves(interpretation, step: float) -> pd.DataFrame:
     return out[["core", *[c for c in out.columns if c != "core"]]]
 
 
+#: Columns of a picks table (``CoreInterpretation.picks``).
+PICK_COLUMNS = [
+    "surface",
+    "name",
+    "depth",
+    "probability",
+    "p_contact",
+    "depth_top",
+    "depth_base",
+    "segment",
+]
+
+
 def column_picks(
     boundaries: pd.DataFrame,
     codes: tuple[str, ...],
@@ -262,16 +279,38 @@ def column_picks(
     ``depth``, ``lower_tract``, ``upper_tract`` and one ``p_<CODE>`` column
     per surface code.
     """
+    surf = {c: boundaries[f"p_{c}"].to_numpy(float) for c in codes if f"p_{c}" in boundaries}
+    rows = pick_rows(
+        boundaries["depth"].to_numpy(float),
+        boundaries["lower_tract"].to_numpy(),
+        boundaries["upper_tract"].to_numpy(),
+        surf,
+        tract_model,
+        segment,
+        mass,
+        floor,
+    )
+    return pd.DataFrame(rows, columns=PICK_COLUMNS)
+
+
+def pick_rows(
+    depth: np.ndarray,
+    lower: np.ndarray,
+    upper: np.ndarray,
+    surf: Mapping[str, np.ndarray],
+    tract_model: TractModel,
+    segment: int,
+    mass: float = 0.9,
+    floor: float = 0.02,
+) -> list[dict]:
+    """The picks of :func:`column_picks` from one segment's arrays (contacts in depth
+    order; ``surf``: the probability of each surface code at every contact), as rows."""
     rows = []
-    change = boundaries["lower_tract"].to_numpy() != boundaries["upper_tract"].to_numpy()
-    depth = boundaries["depth"].to_numpy(float)
-    for i in np.flatnonzero(change):
-        surface = tract_model.surface(
-            boundaries["lower_tract"].iat[i], boundaries["upper_tract"].iat[i]
-        )
-        if surface is None or f"p_{surface.code}" not in boundaries:
+    for i in np.flatnonzero(lower != upper):
+        surface = tract_model.surface(lower[i], upper[i])
+        if surface is None or surface.code not in surf:
             continue
-        p = boundaries[f"p_{surface.code}"].to_numpy(float)
+        p = surf[surface.code]
         lo, hi = _around(p, int(i), floor)
         lo, hi = _narrowest(p, int(i), lo, hi, mass)
         rows.append(
@@ -286,8 +325,7 @@ def column_picks(
                 "segment": int(segment),
             }
         )
-    columns = ["surface", "name", "depth", "probability", "p_contact", "depth_top"]
-    return pd.DataFrame(rows, columns=[*columns, "depth_base", "segment"])
+    return rows
 
 
 def _around(p: np.ndarray, i: int, floor: float) -> tuple[int, int]:

@@ -22,8 +22,9 @@ from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
 from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.parallel import run_jobs
 from faciesseq.surfaces import (
+    PICK_COLUMNS,
     boundary_probabilities,
-    column_picks,
+    pick_rows,
     surface_codes,
     surface_names,
 )
@@ -146,45 +147,27 @@ class Decoding:
     def _core_interpretation(self, core, parts, codes, names, threshold, mass):
         """One core's tables from its decoded successions, each column built whole."""
         tracts = np.asarray(self.states_.tracts, dtype=object)
-        bed_frames, bnd_frames, pick_frames = [], [], []
         units = parts[0][0].units
         # depth order: shallowest segment first, top of each succession first
         parts = sorted(parts, key=lambda p: p[0].segment)
-        for s, _, vit, surf, _ in parts:
-            bed_frames.append(s.beds.iloc[::-1])
-            top = s.beds["top"].to_numpy(float)[:-1][::-1]  # contact t: top of the lower bed
-            bnd = {
-                "segment": np.full(len(top), s.segment),
-                "depth": top,
-                "lower_tract": tracts[vit[:-1]][::-1],
-                "upper_tract": tracts[vit[1:]][::-1],
+        contacts = [_contacts(s, vit, surf, tracts) for s, _, vit, surf, _ in parts]
+        found = []
+        for (s, *_), (depth, lower, upper, surf) in zip(parts, contacts, strict=True):
+            by_code = {code: surf[:, c] for c, code in enumerate(codes)}
+            found += pick_rows(depth, lower, upper, by_code, self.tract_model_, s.segment, mass)
+        surf = np.concatenate([c[3] for c in contacts])
+        boundaries = pd.DataFrame(
+            {
+                "segment": np.concatenate(
+                    [np.full(len(c[0]), p[0].segment) for p, c in zip(parts, contacts)]
+                ),
+                "depth": np.concatenate([c[0] for c in contacts]),
+                "lower_tract": np.concatenate([c[1] for c in contacts]),
+                "upper_tract": np.concatenate([c[2] for c in contacts]),
             }
-            bnd |= {f"p_{code}": surf[::-1, c] for c, code in enumerate(codes)}
-            bnd = pd.DataFrame(bnd)
-            bnd_frames.append(bnd)
-            pick_frames.append(column_picks(bnd, codes, self.tract_model_, s.segment, mass))
-        beds = pd.concat(bed_frames, ignore_index=True)
-        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
-            beds = beds.rename(columns={"tract": "interpreted_tract"})
-        gamma = np.concatenate([p[1][::-1] for p in parts])
-        added = {
-            "segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts]),
-            "tract": tracts[np.concatenate([p[2][::-1] for p in parts])],
-        } | {f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)}
-        first = ["segment", "top", "base", "thickness", "facies"]
-        p_cols = [f"p_{t}" for t in self.states_.tracts]
-        other = [c for c in beds.columns if c not in (*first, "tract", *p_cols)]
-        columns = {c: beds[c] for c in first if c in beds.columns and c != "segment"}
-        beds = pd.concat(
-            [
-                pd.DataFrame({"segment": added["segment"]}),
-                pd.DataFrame(columns),
-                beds[other],
-                pd.DataFrame({k: v for k, v in added.items() if k != "segment"}),
-            ],
-            axis=1,
+            | {f"p_{code}": surf[:, c] for c, code in enumerate(codes)}
         )
-        picks = pd.concat(pick_frames, ignore_index=True).sort_values(
+        picks = pd.DataFrame(found, columns=PICK_COLUMNS).sort_values(
             ["depth", "surface"], kind="stable"
         )
         return CoreInterpretation(
@@ -192,8 +175,38 @@ class Decoding:
             units,
             tuple(self.states_.tracts),
             tuple(codes),
-            beds,
-            pd.concat(bnd_frames, ignore_index=True),
+            self._bed_table(parts, tracts),
+            boundaries,
             picks.reset_index(drop=True),
             float(sum(p[4] for p in parts)),
         )
+
+    def _bed_table(self, parts, tracts: np.ndarray) -> pd.DataFrame:
+        """The decoded beds of one core in depth order: the described columns, then the
+        tract and its posteriors (an interpreter's ``tract`` kept as ``interpreted_tract``)."""
+        beds = pd.concat([p[0].beds.iloc[::-1] for p in parts], ignore_index=True)
+        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
+            beds = beds.rename(columns={"tract": "interpreted_tract"})
+        gamma = np.concatenate([p[1][::-1] for p in parts])
+        added = {"tract": tracts[np.concatenate([p[2][::-1] for p in parts])]} | {
+            f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)
+        }
+        first = ["top", "base", "thickness", "facies"]
+        other = [c for c in beds.columns if c not in (*first, "segment", *added)]
+        segment = np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts])
+        return pd.concat(
+            [
+                pd.DataFrame({"segment": segment}),
+                pd.DataFrame({c: beds[c] for c in first if c in beds.columns}),
+                beds[other],
+                pd.DataFrame(added),
+            ],
+            axis=1,
+        )
+
+
+def _contacts(s: Succession, vit: np.ndarray, surf: np.ndarray, tracts: np.ndarray):
+    """Depth, lower and upper tract and surface probabilities of the contacts of one
+    decoded succession, top first (contact ``t``: the top of the lower bed)."""
+    depth = s.beds["top"].to_numpy(float)[:-1][::-1]
+    return depth, tracts[vit[:-1]][::-1], tracts[vit[1:]][::-1], surf[::-1]
