@@ -115,7 +115,7 @@ def _cycle_count(beds: pd.DataFrame, ranks: Mapping[str, float]) -> int:
     from faciesseq.cycles import find_cycles
 
     upward, lengths = _base_to_top(beds)
-    r = np.array([ranks.get(str(f), np.nan) for f in upward["facies"]], dtype=float)
+    r = upward["facies"].astype(str).map(ranks).to_numpy(dtype=float, na_value=np.nan)
     return find_cycles(r, lengths, _thickness(upward)).n_cycles
 
 
@@ -151,11 +151,14 @@ def core_summary(
         the probability of the decoded tract).
     """
     beds = core.beds
-    totals = pd.Series(_thickness(beds), index=beds["tract"].astype(str)).groupby(level=0).sum()
+    which = pd.Index(core.tracts).get_indexer(beds["tract"].astype(str))
+    th = _thickness(beds)
+    ok = (which >= 0) & ~np.isnan(th)
+    totals = np.bincount(which[ok], th[ok], minlength=len(core.tracts))
     out: dict[str, object] = {
         "core": core.core,
         "units": core.units,
-        "thickness": {t: float(totals.get(t, 0.0)) for t in core.tracts},
+        "thickness": {t: float(totals[k]) for k, t in enumerate(core.tracts)},
     }
     if ranks is not None:
         out["cycles"] = _cycle_count(beds, ranks)
@@ -209,22 +212,24 @@ class Interpretation:
         One row per (contact, surface code); ``picked`` is true where the
         surface was picked at that contact.
         """
-        rows = []
-        for c in self:
-            picked = {(p.surface, round(float(p.depth), 9)) for p in c.picks.itertuples()}
-            for b in c.boundaries.itertuples(index=False):
-                for s in c.surfaces:
-                    prob = float(getattr(b, f"p_{s}"))
-                    rows.append(
-                        {
-                            "core": c.core,
-                            "depth": float(b.depth),
-                            "surface": s,
-                            "probability": prob,
-                            "picked": (s, round(float(b.depth), 9)) in picked,
-                        }
-                    )
-        return pd.DataFrame(rows, columns=["core", "depth", "surface", "probability", "picked"])
+        columns = ["core", "depth", "surface", "probability", "picked"]
+        cores = [c for c in self if len(c.boundaries)]
+        if not cores:
+            return pd.DataFrame(columns=columns)
+        parts: dict[str, list[np.ndarray]] = {c: [] for c in columns[:4]}
+        for c in cores:
+            n, codes = len(c.boundaries), np.array(c.surfaces, dtype=object)
+            parts["core"].append(np.full(n * len(codes), c.core, dtype=object))
+            parts["depth"].append(np.repeat(c.boundaries["depth"].to_numpy(float), len(codes)))
+            parts["surface"].append(np.tile(codes, n))
+            p = c.boundaries[[f"p_{s}" for s in c.surfaces]].to_numpy(float)
+            parts["probability"].append(p.reshape(-1))
+        table = pd.DataFrame({k: np.concatenate(v) for k, v in parts.items()})
+        picks = self.picks_table()
+        key = [table["core"], table["surface"], table["depth"].round(9)]
+        picked = [picks["core"], picks["surface"], picks["depth"].astype(float).round(9)]
+        table["picked"] = pd.MultiIndex.from_arrays(key).isin(pd.MultiIndex.from_arrays(picked))
+        return table
 
     def picks_table(self) -> pd.DataFrame:
         """All picks, with a ``core`` column first."""
