@@ -183,26 +183,31 @@ class Decoding:
 
     def _bed_table(self, parts, tracts: np.ndarray) -> pd.DataFrame:
         """The decoded beds of one core in depth order: the described columns, then the
-        tract and its posteriors (an interpreter's ``tract`` kept as ``interpreted_tract``)."""
-        beds = pd.concat([p[0].beds.iloc[::-1] for p in parts], ignore_index=True)
-        if "tract" in beds.columns:  # an interpreter's column: kept, never used to decode
-            beds = beds.rename(columns={"tract": "interpreted_tract"})
+        tract and its posteriors (an interpreter's ``tract`` kept as ``interpreted_tract``);
+        built from whole columns, one frame per core."""
+        tables = [p[0].beds for p in parts]
+        names = list(dict.fromkeys(c for t in tables for c in t.columns))
         gamma = np.concatenate([p[1][::-1] for p in parts])
         added = {"tract": tracts[np.concatenate([p[2][::-1] for p in parts])]} | {
             f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)
         }
+        renamed = {"tract": "interpreted_tract"}  # an interpreter's column: kept, never used
         first = ["top", "base", "thickness", "facies"]
-        other = [c for c in beds.columns if c not in (*first, "segment", *added)]
-        segment = np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts])
-        return pd.concat(
-            [
-                pd.DataFrame({"segment": segment}),
-                pd.DataFrame({c: beds[c] for c in first if c in beds.columns}),
-                beds[other],
-                pd.DataFrame(added),
-            ],
-            axis=1,
-        )
+        order = [c for c in first if c in names] + [
+            c for c in names if c not in (*first, "segment", *added) or c == "tract"
+        ]
+        columns = {"segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts])}
+        for c in order:
+            pieces = [t[c].iloc[::-1] if c in t.columns else _absent(t) for t in tables]
+            columns[renamed.get(c, c)] = (
+                pieces[0].to_numpy() if len(pieces) == 1 else pd.concat(pieces).to_numpy()
+            )
+        return pd.DataFrame(columns | added)
+
+
+def _absent(table: pd.DataFrame) -> pd.Series:
+    """A column a succession lacks: missing values, one per bed."""
+    return pd.Series(np.full(len(table), np.nan))
 
 
 def _contacts(s: Succession, vit: np.ndarray, surf: np.ndarray, tracts: np.ndarray):
