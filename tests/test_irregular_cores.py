@@ -68,6 +68,26 @@ def test_fit_and_decode_leave_out_the_pseudo_well_with_one_warning(database, tmp
     assert PSEUDO not in set(tracts["core"]) and tracts["core"].nunique() == 6
 
 
+def test_keep_irregular_keeps_the_pseudo_well_in_fit_and_decode_and_says_so(
+    database, tmp_path, capsys
+):
+    """The option markov has, with the same name and meaning on fit and decode."""
+    csv, scheme = str(database / "cores.csv"), str(database / "scheme.yaml")
+    model = tmp_path / "model.json"
+    fit = ["fit", csv, "--scheme", scheme, "-o", str(model), "--restarts", "1"]
+    assert main([*fit, "--keep-irregular"]) == 0
+    err = capsys.readouterr().err
+    assert [
+        line for line in err.splitlines() if "kept (--keep-irregular)" in line and PSEUDO in line
+    ]
+    assert PSEUDO in json.loads(model.read_text())["training"]["cores"]
+    out = tmp_path / "out"
+    assert main(["decode", str(model), csv, "-o", str(out), "--keep-irregular"]) == 0
+    capsys.readouterr()
+    tracts = pd.read_csv(out / "tracts.csv", skiprows=1, dtype={"core": str})
+    assert PSEUDO in set(tracts["core"])
+
+
 def test_the_appendix_fits_decodes_and_validates_without_the_pseudo_well(database):
     from faciesseq.pipeline import run_appendix
     from faciesseq.scheme import load_scheme

@@ -308,14 +308,33 @@ def check_grid_size(cores, unit: str, step: float | None, option: str = "--step"
         )
 
 
-def regular_cores(cores, command: str):
+def add_irregular_argument(parser, what: str) -> None:
+    """``--keep-irregular``: the same option on every command that screens cores."""
+    parser.add_argument(
+        "--keep-irregular",
+        action="store_true",
+        help=f"{what} irregularly sampled cores too (pseudo-wells, scattered samples; "
+        "warned) instead of leaving them out",
+    )
+
+
+def regular_cores(cores, command: str, keep: bool = False):
     """The cores without the irregularly sampled ones, which ``markov`` leaves out too
-    (:func:`faciesseq.markov.leave_out_irregular`); one warning line names them."""
+    (:func:`faciesseq.markov.leave_out_irregular`); one warning line names them. With
+    ``keep`` (``--keep-irregular``) every core is kept and the line says so."""
     import sys
 
     from faciesseq.markov.screening import leave_out_irregular
 
     screening = leave_out_irregular(cores)
-    if screening.left_out:
-        sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
+    if not screening.left_out:
+        return screening.kept
+    if keep:
+        names = ", ".join(screening.left_out)
+        sys.stderr.write(
+            f"faciesseq {command}: warning: {len(screening.left_out)} irregularly sampled "
+            f"core(s) kept (--keep-irregular): {names}\n"
+        )
+        return cores
+    sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
     return screening.kept

@@ -9,6 +9,7 @@ from collections.abc import Collection
 from pathlib import Path
 
 from faciesseq.cli._common import (
+    add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
@@ -97,6 +98,7 @@ def register(subparsers) -> None:
         metavar="COLUMN",
         help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
     )
+    add_irregular_argument(parser, "decode")
     add_parallel_arguments(parser, "batches of 20,000 beds")
     parser.set_defaults(func=run)
 
@@ -255,7 +257,7 @@ def _decode(args: argparse.Namespace):
     scheme = load_scheme_option(args.scheme) or model.scheme
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
-    cores = regular_cores(read_source(args, scheme).require_valid(), "decode")
+    cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
     check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     successions = cores.successions(model.unit, model.step)
     if not successions:

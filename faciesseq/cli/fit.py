@@ -6,6 +6,7 @@ import argparse
 import sys
 
 from faciesseq.cli._common import (
+    add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
@@ -57,6 +58,7 @@ def register(subparsers) -> None:
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
     add_model_arguments(parser)
+    add_irregular_argument(parser, "train on")
     add_parallel_arguments(
         parser, "EM restarts, candidate tract graphs, calibration folds, decoding batches"
     )
@@ -100,7 +102,7 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
 def _successions(args: argparse.Namespace, scheme):
     """The training successions of SOURCE, refused where there is nothing to fit on."""
-    cores = regular_cores(read_source(args, scheme).require_valid(), "fit")
+    cores = regular_cores(read_source(args, scheme).require_valid(), "fit", args.keep_irregular)
     check_grid_size(cores, args.unit, args.step)
     if scheme is None:
         sys.stderr.write(

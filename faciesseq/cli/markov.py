@@ -6,6 +6,7 @@ import argparse
 import sys
 
 from faciesseq.cli._common import (
+    add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
@@ -76,11 +77,7 @@ def register(subparsers) -> None:
         "--alpha", type=float, default=0.05, help="significance level of the cell tests"
     )
     group.add_argument("--per-core", action="store_true", help="also give each core's count matrix")
-    group.add_argument(
-        "--keep-irregular",
-        action="store_true",
-        help="analyse irregularly sampled cores too (warned) instead of leaving them out",
-    )
+    add_irregular_argument(group, "analyse")
     add_parallel_arguments(parser, "blocks of 500 Monte Carlo surrogates")
     out = parser.add_argument_group("output")
     out.add_argument(
