@@ -27,11 +27,14 @@ WELL_LIMIT = 30
 SUMMARY_SCHEMA = "faciesseq.wells/1"
 
 
-def _wells(interp, scheme) -> list[dict]:
+def _wells(interp, scheme, limit: int | None = None) -> list[dict]:
+    """The summary of every core, or of the first ``limit`` (the text lists no more)."""
+    from itertools import islice
+
     from faciesseq.interpretation import core_summary
 
     ranks = scheme.ranks() if scheme is not None else None
-    return [core_summary(core, ranks) for core in interp]
+    return [core_summary(core, ranks) for core in islice(interp, limit)]
 
 
 def _number(value: float) -> str:
@@ -49,17 +52,22 @@ def _line(well: dict) -> str:
     return f"  {well['core']}: " + "; ".join(parts)
 
 
-def summary_lines(wells: list[dict], more: str, limit: int = WELL_LIMIT) -> list[str]:
+def summary_lines(
+    wells: list[dict], more: str, limit: int = WELL_LIMIT, total: int | None = None
+) -> list[str]:
     """The text summary: a heading, at most ``limit`` wells, then how many are left out.
 
     Parameters
     ----------
     wells
-        One :func:`faciesseq.interpretation.core_summary` per core.
+        One :func:`faciesseq.interpretation.core_summary` per core (at least the
+        first ``limit``).
     more
         Where the wells left out can be seen (e.g. ``"see the output files"``).
     limit
         Most wells listed.
+    total
+        Number of wells in all (default: ``len(wells)``).
 
     Returns
     -------
@@ -69,8 +77,9 @@ def summary_lines(wells: list[dict], more: str, limit: int = WELL_LIMIT) -> list
     cycles = ", cycles" if wells and "cycles" in wells[0] else ""
     head = f"per well (thickness per tract{cycles}, surface picks, mean probability of the tract):"
     lines = [head, *(_line(w) for w in wells[:limit])]
-    if len(wells) > limit:
-        lines.append(f"  ... and {len(wells) - limit} more ({more})")
+    total = len(wells) if total is None else total
+    if total > limit:
+        lines.append(f"  ... and {total - limit} more ({more})")
     return lines
 
 
@@ -116,7 +125,8 @@ def summary_document(interp, scheme, command: str, **extra) -> dict:
 def print_summary(interp, scheme, more: str, note: bool = True) -> None:
     """Print the text summary of the wells and, with ``note``, a line saying that the
     probabilities were not checked where they were not."""
-    for line in summary_lines(_wells(interp, scheme), more):
+    wells = _wells(interp, scheme, WELL_LIMIT)
+    for line in summary_lines(wells, more, total=len(interp)):
         print(line)
     if note and not interp.probabilities_checked:
         print(f"note: {interp.probabilities_note}")
