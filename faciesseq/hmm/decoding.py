@@ -185,8 +185,9 @@ class Decoding:
         """The decoded beds of one core in depth order: the described columns, then the
         tract and its posteriors (an interpreter's ``tract`` kept as ``interpreted_tract``);
         built from whole columns, one frame per core."""
-        tables = [p[0].beds for p in parts]
-        names = list(dict.fromkeys(c for t in tables for c in t.columns))
+        tables = [p[0].beds.iloc[::-1] for p in parts]
+        beds = tables[0] if len(tables) == 1 else pd.concat(tables, ignore_index=True)
+        names = list(beds.columns)
         gamma = np.concatenate([p[1][::-1] for p in parts])
         added = {"tract": tracts[np.concatenate([p[2][::-1] for p in parts])]} | {
             f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)
@@ -198,16 +199,8 @@ class Decoding:
         ]
         columns = {"segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts])}
         for c in order:
-            pieces = [t[c].iloc[::-1] if c in t.columns else _absent(t) for t in tables]
-            columns[renamed.get(c, c)] = (
-                pieces[0].to_numpy() if len(pieces) == 1 else pd.concat(pieces).to_numpy()
-            )
+            columns[renamed.get(c, c)] = beds[c].to_numpy()
         return pd.DataFrame(columns | added)
-
-
-def _absent(table: pd.DataFrame) -> pd.Series:
-    """A column a succession lacks: missing values, one per bed."""
-    return pd.Series(np.full(len(table), np.nan))
 
 
 def _contacts(s: Succession, vit: np.ndarray, surf: np.ndarray, tracts: np.ndarray):
