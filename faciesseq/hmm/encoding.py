@@ -129,47 +129,20 @@ def encode_beds(
         ``cycle_base`` mark), for the context features.
     """
     lengths = np.array([len(t) for t in tables], dtype=np.int64)
-    # Chunks of whole tables keep the pandas temporaries small on big databases.
-    fac_parts, contact_parts = [], []
-    value_parts: dict[str, list[np.ndarray]] = {name: [] for name in numeric}
-    chunk: list[pd.DataFrame] = []
-    size = 0
-
-    def flush() -> None:
-        table = pd.concat(chunk, ignore_index=True)
-        fac_parts.append(_codes(table["facies"], facies))
-        if "contact" in table.columns:
-            contact_parts.append(_codes(table["contact"], contacts))
-        else:
-            contact_parts.append(np.full(len(table), MISSING, dtype=np.int64))
-        for name in numeric:
-            if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND, STACKING, *CONTEXT_FEATURES):
-                continue  # computed below, from the coded beds
-            col = "thickness" if name == "thickness" else name
-            if col in table.columns:
-                x = pd.to_numeric(table[col], errors="coerce").to_numpy(dtype=float)
-                if name == "thickness":
-                    with np.errstate(divide="ignore", invalid="ignore"):
-                        x = np.where(x > 0, np.log(np.where(x > 0, x, 1.0)), np.nan)
-            else:
-                x = np.full(len(table), np.nan)
-            value_parts[name].append(x)
-        chunk.clear()
-
-    for t in tables:
-        chunk.append(t.reset_index(drop=True))
-        size += len(t)
-        if size >= 200_000:
-            flush()
-            size = 0
-    if chunk:
-        flush()
-    empty = np.zeros(0, dtype=np.int64)
-    fac = np.concatenate(fac_parts) if fac_parts else empty
-    contact = np.concatenate(contact_parts) if contact_parts else empty
-    values = {
-        name: np.concatenate(parts) if parts else np.zeros(0) for name, parts in value_parts.items()
-    }
+    fac = _codes(_column(tables, "facies"), facies)
+    if any("contact" in t.columns for t in tables):
+        contact = _codes(_column(tables, "contact"), contacts)
+    else:
+        contact = np.full(len(fac), MISSING, dtype=np.int64)
+    values: dict[str, np.ndarray] = {}
+    for name in numeric:
+        if name in (RANK_STEP, RANK_STEP_ABOVE, RANK_TREND, STACKING, *CONTEXT_FEATURES):
+            continue  # computed below, from the coded beds
+        x = pd.to_numeric(_column(tables, name), errors="coerce").to_numpy(dtype=float)
+        if name == "thickness":
+            with np.errstate(divide="ignore", invalid="ignore"):
+                x = np.where(x > 0, np.log(np.where(x > 0, x, 1.0)), np.nan)
+        values[name] = x
     prev = np.r_[MISSING, fac[:-1]] if len(fac) else fac.copy()
     starts = np.r_[0, np.cumsum(lengths)[:-1]] if len(lengths) else lengths
     prev[starts[lengths > 0]] = MISSING
@@ -190,6 +163,18 @@ def encode_beds(
     return EncodedBeds(lengths, fac, prev, contact, values)
 
 
+def _column(tables: Sequence[pd.DataFrame], name: str, fill: object = np.nan) -> pd.Series:
+    """Column ``name`` of every table, joined (``fill`` where a table lacks it): one
+    array per table and column, never a frame per table."""
+    parts = [
+        t[name].to_numpy() if name in t.columns else np.full(len(t), fill, dtype=object)
+        for t in tables
+    ]
+    if not parts:
+        return pd.Series([], dtype=object)
+    return pd.Series(np.concatenate(parts) if len(parts) > 1 else parts[0])
+
+
 def _context_values(tables, fac, lengths, ranks, names, cycle_base=None) -> dict[str, np.ndarray]:
     """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`)."""
     if ranks is None:
@@ -197,23 +182,10 @@ def _context_values(tables, fac, lengths, ranks, names, cycle_base=None) -> dict
     known = fac >= 0
     bed_ranks = np.full(len(fac), np.nan)
     bed_ranks[known] = np.asarray(ranks, dtype=float)[fac[known]]
-    thick = [
-        pd.to_numeric(t["thickness"], errors="coerce").to_numpy(float)
-        if "thickness" in t.columns
-        else np.ones(len(t))
-        for t in tables
-    ]
-    thickness = np.concatenate(thick) if thick else np.zeros(0)
+    thickness = pd.to_numeric(_column(tables, "thickness", 1.0), errors="coerce").to_numpy(float)
     sharp = None
     if any("contact" in t.columns for t in tables):
-        sharp = np.concatenate(
-            [
-                sharp_contacts(t["contact"].to_numpy(object))
-                if "contact" in t.columns
-                else np.full(len(t), np.nan)
-                for t in tables
-            ]
-        )
+        sharp = sharp_contacts(_column(tables, "contact").to_numpy(object))
     starts = None
     if cycle_base is not None:
         starts = np.zeros(len(fac), dtype=bool)
