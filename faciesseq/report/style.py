@@ -12,15 +12,15 @@ Sizes are in inches for print: a full page-width figure is
 from __future__ import annotations
 
 import contextlib
+import io
 import os
-import tempfile
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 import matplotlib as mpl
 from matplotlib.figure import Figure
 
-from faciesseq._output import current_umask
+from faciesseq._output import write_file
 
 __all__ = [
     "PAGE_WIDTH",
@@ -111,21 +111,14 @@ def new_figure(width: float = PAGE_WIDTH, height: float = 4.0, **kwargs) -> Figu
 def save_figure(fig: Figure, path: str | os.PathLike, **kwargs) -> Path:
     """Write ``fig`` to ``path`` atomically (format from the suffix: png, pdf, svg).
 
-    The figure is written to a temporary file in the same folder and renamed,
-    so a reader never sees half a file.
+    The figure is rendered in memory and written by
+    :func:`faciesseq._output.write_file` (a temporary sibling renamed into place,
+    with the user's ordinary permissions), so a reader never sees half a file.
     """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fmt = path.suffix.lstrip(".").lower() or "png"
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=path.suffix, dir=path.parent)
-    os.close(fd)
-    try:
-        with mpl.rc_context(STYLE):
-            fig.savefig(tmp, format=fmt, **({"bbox_inches": "tight"} | kwargs))
-        os.replace(tmp, path)
-        os.chmod(path, 0o666 & ~current_umask())  # mkstemp makes 0o600
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
-    return path
+    buffer = io.BytesIO()
+    with mpl.rc_context(STYLE):
+        fig.savefig(buffer, format=fmt, **({"bbox_inches": "tight"} | kwargs))
+    return write_file(path, buffer.getvalue())
