@@ -24,7 +24,6 @@ __all__ = [
     "PICK_COLUMNS",
     "SurfacePicks",
     "boundary_probabilities",
-    "column_picks",
     "pick_rows",
     "pick_surfaces",
     "picks_frame",
@@ -254,14 +253,16 @@ PICK_COLUMNS = [
 ]
 
 
-def column_picks(
-    boundaries: pd.DataFrame,
-    codes: tuple[str, ...],
+def pick_rows(
+    depth: np.ndarray,
+    lower: np.ndarray,
+    upper: np.ndarray,
+    surf: Mapping[str, np.ndarray],
     tract_model: TractModel,
     segment: int,
     mass: float = 0.9,
     floor: float = 0.02,
-) -> pd.DataFrame:
+) -> list[dict]:
     """Surfaces picked where the decoded tract column changes (``CoreInterpretation.picks``).
 
     Every change of tract between two beds is a pick of the surface the tract
@@ -275,36 +276,11 @@ def column_picks(
     highest-density interval along the core). ``p_contact`` is the
     probability at the pick contact alone.
 
-    ``boundaries`` is one segment's boundary table in depth order with
-    ``depth``, ``lower_tract``, ``upper_tract`` and one ``p_<CODE>`` column
-    per surface code.
+    One segment's contacts in depth order: ``depth``, the ``lower`` and
+    ``upper`` decoded tract, and ``surf``, the probability of each surface code
+    at every contact. Returns one dict per pick, with the keys of
+    :data:`PICK_COLUMNS`.
     """
-    surf = {c: boundaries[f"p_{c}"].to_numpy(float) for c in codes if f"p_{c}" in boundaries}
-    rows = pick_rows(
-        boundaries["depth"].to_numpy(float),
-        boundaries["lower_tract"].to_numpy(),
-        boundaries["upper_tract"].to_numpy(),
-        surf,
-        tract_model,
-        segment,
-        mass,
-        floor,
-    )
-    return pd.DataFrame(rows, columns=PICK_COLUMNS)
-
-
-def pick_rows(
-    depth: np.ndarray,
-    lower: np.ndarray,
-    upper: np.ndarray,
-    surf: Mapping[str, np.ndarray],
-    tract_model: TractModel,
-    segment: int,
-    mass: float = 0.9,
-    floor: float = 0.02,
-) -> list[dict]:
-    """The picks of :func:`column_picks` from one segment's arrays (contacts in depth
-    order; ``surf``: the probability of each surface code at every contact), as rows."""
     rows = []
     for i in np.flatnonzero(lower != upper):
         surface = tract_model.surface(lower[i], upper[i])

@@ -26,7 +26,6 @@ from faciesseq.surfaces import (
     boundary_probabilities,
     pick_rows,
     surface_codes,
-    surface_names,
 )
 
 __all__ = ["DECODE_BATCH", "Decoding"]
@@ -88,7 +87,6 @@ class Decoding:
         clamp, _ = self._labels(succ, labels)
         tm = self.tract_model_
         codes = surface_codes(tm)
-        names = surface_names(tm)
         tracts = self.states_.tracts
         per_core: dict[str, list] = {}
         batches = list(self._batches(beds.lengths, DECODE_BATCH))
@@ -114,7 +112,7 @@ class Decoding:
                 bnd += n - 1
         cores = {}
         for core, parts in per_core.items():
-            cores[core] = self._core_interpretation(core, parts, codes, names, threshold, mass)
+            cores[core] = self._core_interpretation(core, parts, codes, mass)
         return Interpretation(
             cores,
             tracts,
@@ -144,7 +142,7 @@ class Decoding:
         surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
         return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
 
-    def _core_interpretation(self, core, parts, codes, names, threshold, mass):
+    def _core_interpretation(self, core, parts, codes, mass):
         """One core's tables from its decoded successions, each column built whole."""
         tracts = np.asarray(self.states_.tracts, dtype=object)
         units = parts[0][0].units
