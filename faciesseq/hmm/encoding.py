@@ -130,8 +130,11 @@ def encode_beds(
     """
     lengths = np.array([len(t) for t in tables], dtype=np.int64)
     fac = _codes(_column(tables, "facies"), facies)
-    if any("contact" in t.columns for t in tables):
-        contact = _codes(_column(tables, "contact"), contacts)
+    contact_text = (
+        _column(tables, "contact") if any("contact" in t.columns for t in tables) else None
+    )
+    if contact_text is not None:
+        contact = _codes(contact_text, contacts)
     else:
         contact = np.full(len(fac), MISSING, dtype=np.int64)
     values: dict[str, np.ndarray] = {}
@@ -155,7 +158,9 @@ def encode_beds(
         values[RANK_STEP_ABOVE] = rank_steps_above(fac, lengths, ranks)
     context = [name for name in numeric if name in CONTEXT_FEATURES]
     if context:
-        values.update(_context_values(tables, fac, lengths, ranks, context, cycle_base))
+        values.update(
+            _context_values(tables, fac, lengths, ranks, context, cycle_base, contact_text)
+        )
     if STACKING in numeric:
         if "thickness" not in values:
             raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
@@ -175,17 +180,18 @@ def _column(tables: Sequence[pd.DataFrame], name: str, fill: object = np.nan) ->
     return pd.Series(np.concatenate(parts) if len(parts) > 1 else parts[0])
 
 
-def _context_values(tables, fac, lengths, ranks, names, cycle_base=None) -> dict[str, np.ndarray]:
-    """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`)."""
+def _context_values(
+    tables, fac, lengths, ranks, names, cycle_base=None, contact_text: pd.Series | None = None
+) -> dict[str, np.ndarray]:
+    """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`);
+    ``contact_text``: the contact types as described, joined (sharp or not)."""
     if ranks is None:
         raise ConfigError(f"the features {names} need a facies scheme with ranks (--scheme)")
     known = fac >= 0
     bed_ranks = np.full(len(fac), np.nan)
     bed_ranks[known] = np.asarray(ranks, dtype=float)[fac[known]]
     thickness = pd.to_numeric(_column(tables, "thickness", 1.0), errors="coerce").to_numpy(float)
-    sharp = None
-    if any("contact" in t.columns for t in tables):
-        sharp = sharp_contacts(_column(tables, "contact").to_numpy(object))
+    sharp = None if contact_text is None else sharp_contacts(contact_text.to_numpy(object))
     starts = None
     if cycle_base is not None:
         starts = np.zeros(len(fac), dtype=bool)
