@@ -190,8 +190,16 @@ def test_tract_names_do_not_depend_on_the_seed_or_the_order_of_the_cores():
             model.calibration_folds = 0
             model.fit(train.subset(names))
             columns.append(_beds(model.decode(test))["tract"].to_numpy())
-    agreement = [np.mean(c == columns[0]) for c in columns[1:]]
-    assert min(agreement) >= 0.9, agreement
+    # the same names: each column agrees with the first far better as it is than
+    # after turning its names round the cycle (a swap of names would reverse
+    # that), and to within the beds where two local optima differ
+    order = ["HST", "FSST", "LST", "TST"]  # the default cyclic order upward
+    for c in columns[1:]:
+        turned = [
+            np.mean(np.array([order[(order.index(t) + k) % 4] for t in c]) == columns[0])
+            for k in range(4)
+        ]
+        assert turned[0] >= 0.85 and turned[0] > max(turned[1:]) + 0.4, turned
 
 
 def test_turning_the_names_round_the_cycle_moves_the_deepening_state(fitted):
