@@ -14,10 +14,10 @@ from faciesseq.cli._common import (
     add_source_arguments,
     check_grid_size,
     column_mapping,
-    load_scheme_option,
     read_source,
     regular_cores,
     require_file,
+    scheme_for_model,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
@@ -254,7 +254,7 @@ def _decode(args: argparse.Namespace):
     check_target(args.output, force=args.force, folder=True)
     n_jobs, scheduler = parallel_options(args)
     model = load_model(require_file(args.model)).set_params(n_jobs=n_jobs, scheduler=scheduler)
-    scheme = load_scheme_option(args.scheme) or model.scheme
+    scheme = scheme_for_model(args.scheme, model)
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
     cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)

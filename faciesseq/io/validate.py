@@ -163,7 +163,7 @@ def _blank(values: pd.Series) -> np.ndarray:
 
 
 #: Control characters (NUL and the like) that have no place in a code or a name.
-_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\ufeff]")  # and a stray byte-order mark
 
 
 def _shown(value: object) -> str:
@@ -326,6 +326,22 @@ def _prepare(
             )
         out[role] = numbers.to_numpy()
     first_depth = out[roles[0]].to_numpy()
+
+    # a NUL byte or a stray byte-order mark in a core name makes an unseen core of its own
+    core_ids, core_names = pd.factorize(out["core"])
+    for k in np.flatnonzero([bool(_CONTROL.search(str(c))) for c in core_names]):
+        held = np.flatnonzero(core_ids == k)
+        bad[held] = True
+        problems.append(
+            Problem(
+                "error",
+                "bad-core",
+                f"core identifier {core_names[k]!r} holds a control character (e.g. a NUL "
+                "byte); the file may be damaged or of another encoding",
+                file=table.file,
+                row=int(rows[held[0]]),
+            )
+        )
 
     # -- facies ----------------------------------------------------------------
     codes = _codes(src[match.roles["facies"]])
