@@ -104,10 +104,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
+    from faciesseq.report.csvtext import csv_text
+
     with path.open("w", encoding="utf-8", newline="") as handle:
         if probabilities is not None:
             handle.write(f"# {probabilities['note']}\n")
-        frame.to_csv(handle, index=False, float_format="%.6g")
+        handle.write(csv_text(frame))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
