@@ -141,3 +141,24 @@ def test_files_written_a_part_at_a_time_are_those_written_at_once(
     assert {"tracts", "surfaces", "picks", "tops"} <= {n.split(".")[0] for n in names}
     for name in names:
         assert (tmp_path / "parts" / name).read_bytes() == (tmp_path / "once" / name).read_bytes()
+
+
+def test_a_contact_type_the_model_never_saw_is_named_once_per_succession(database):
+    from dataclasses import replace
+
+    from faciesseq.hmm.encoding import UnseenCategoryWarning
+    from faciesseq.hmm.modelfile import load_model
+
+    model = load_model(database / "model.json")
+    first, second = synth.cores(2, 20, seed=8)
+    beds = second.beds.copy()
+    assert "contact" in model.features_
+    beds.loc[[2, 5], "contact"] = "zigzag"  # base to top: row 2 is the lower of the two
+    with pytest.warns(UnseenCategoryWarning) as caught:
+        model.decode([first, replace(second, beds=beds)])
+    messages = [str(w.message) for w in caught]
+    depth = float(beds["top"].iloc[2])
+    assert messages == [
+        f"core {second.core}, depth {depth:.2f} m: contact type ['zigzag'] not seen in training "
+        "(2 bed(s)); decoded with a smoothed probability"
+    ]
