@@ -34,7 +34,7 @@ from itertools import pairwise
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable
+from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable, plain_frame
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
@@ -138,11 +138,12 @@ def _per_distinct(values: pd.Series, convert) -> np.ndarray:
     ids, uniques = found
     done = np.empty(len(uniques) + 1, dtype=object)
     done[:-1] = [convert(u) for u in uniques]
+    if values.dtype != object:  # one kind of missing value: converted once
+        done[-1] = _missing_converted(values, ids, convert)
+        return done[ids]
     out = done[ids]
     missing = np.flatnonzero(ids < 0)
-    if len(missing) and values.dtype != object:  # one kind of missing value
-        out[missing] = convert(values.iloc[missing[0]])
-    elif len(missing):
+    if len(missing):
         kinds: dict[type, object] = {}
         raw = values.to_numpy(dtype=object)
         for i, value in zip(missing, raw[missing], strict=True):
@@ -152,9 +153,27 @@ def _per_distinct(values: pd.Series, convert) -> np.ndarray:
     return out
 
 
-def _codes(values: pd.Series) -> np.ndarray:
-    """:func:`facies_code` of each value, each distinct value converted once."""
-    return _per_distinct(values, facies_code)
+def _missing_converted(values: pd.Series, ids: np.ndarray, convert) -> object:
+    """``convert`` of the missing value of a column of one kind of missing value."""
+    missing = np.flatnonzero(ids < 0)
+    return convert(values.iloc[missing[0]]) if len(missing) else None
+
+
+def _categorical(values: pd.Series, convert) -> pd.Categorical:
+    """``convert`` of each value (text, or ``None`` for missing) as a categorical column,
+    each distinct value converted once: a column of millions of cells holds one small
+    integer per cell and each distinct text once."""
+    if values.dtype == object:  # several kinds of missing value possible: cell by cell
+        converted = _per_distinct(values, convert)
+        ids, categories = pd.factorize(converted, use_na_sentinel=True)
+        return pd.Categorical.from_codes(ids, pd.Index(categories, dtype=object), validate=False)
+    ids, uniques = _distinct(values)
+    done = np.empty(len(uniques) + 1, dtype=object)
+    done[:-1] = [convert(u) for u in uniques]
+    done[-1] = _missing_converted(values, ids, convert)
+    codes, categories = pd.factorize(done, use_na_sentinel=True)
+    categories = pd.Index(np.asarray(categories, dtype=object), dtype=object)
+    return pd.Categorical.from_codes(codes[ids], categories, validate=False)
 
 
 def _blank(values: pd.Series) -> np.ndarray:
@@ -206,10 +225,14 @@ def _numbers_where_all(values: pd.Series) -> pd.Series:
         return pd.Series(numbers, index=values.index)
     if values.dtype == object:
         text = values.to_numpy(dtype=object).copy()
-    else:  # the text of each distinct value made once, shared by its cells
-        text = _per_distinct(values, lambda v: v)
-    text[blank] = None
-    return pd.Series(text, index=values.index, dtype=object)
+        text[blank] = None
+        return pd.Series(text, index=values.index, dtype=object)
+    return pd.Series(_categorical(values, _kept_text), index=values.index)
+
+
+def _kept_text(value: object) -> object:
+    """A text cell as read; blank is ``None``."""
+    return None if _is_blank(value) else value
 
 
 @dataclass
@@ -269,8 +292,8 @@ def _prepare(
 
     # -- core ----------------------------------------------------------------
     if "core" in match.roles:
-        cores = _codes(src[match.roles["core"]])
-        for i in np.flatnonzero(pd.isna(cores)):
+        cores = _categorical(src[match.roles["core"]], facies_code)
+        for i in np.flatnonzero(cores.codes < 0):
             bad[i] = True
             problems.append(
                 Problem(
@@ -328,15 +351,17 @@ def _prepare(
     first_depth = out[roles[0]].to_numpy()
 
     # -- facies ----------------------------------------------------------------
-    codes = _codes(src[match.roles["facies"]])
+    facies = _categorical(src[match.roles["facies"]], facies_code)
+    codes = facies.categories.to_numpy()
     control, resolved = _facies_flags(codes, scheme)
+    ids = np.asarray(facies.codes)
     unknown: dict[tuple[str, str], list[int]] = {}
     not_described: dict[str, list[int]] = {}
-    flagged = control | pd.isna(codes)
+    flagged = (ids < 0) | control[ids]
     for i in np.flatnonzero(flagged):
-        code = codes[i]
+        code = None if ids[i] < 0 else codes[ids[i]]
         bad[i] = True
-        if control[i]:
+        if ids[i] >= 0:
             problems.append(
                 Problem(
                     "error",
@@ -364,11 +389,15 @@ def _prepare(
                 )
             )
     if scheme is not None:
-        known = ~flagged & ~pd.isna(resolved)
-        for i in np.flatnonzero(~flagged & ~known):
-            unknown.setdefault((out["core"].iloc[i], codes[i]), []).append(i)
+        known = ~control & ~pd.isna(resolved)
+        for i in np.flatnonzero(~flagged & ~known[ids]):
+            unknown.setdefault((out["core"].iloc[i], codes[ids[i]]), []).append(i)
             bad[i] = True
-        codes = np.where(known, resolved, codes)
+        # each distinct code resolved once (aliases and their codes merge)
+        merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
+        facies = pd.Categorical.from_codes(
+            np.where(ids < 0, -1, merged[ids]), pd.Index(categories, dtype=object), validate=False
+        )
     for (core, code), idx in unknown.items():
         count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
         problems.append(
@@ -397,7 +426,7 @@ def _prepare(
                 depth=_depth(first_depth[idx[0]]),
             )
         )
-    out["facies"] = codes
+    out["facies"] = facies
 
     # -- attributes --------------------------------------------------------------
     attributes: list[str] = []
@@ -406,8 +435,7 @@ def _prepare(
         attributes.append("grain_size")
     for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
         if role in match.roles:
-            values = _per_distinct(src[match.roles[role]], partial(_text, fix=fix))
-            out[role] = pd.Series(values, dtype=object)
+            out[role] = _categorical(src[match.roles[role]], partial(_text, fix=fix))
             attributes.append(role)
     unused = [
         match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
@@ -427,10 +455,9 @@ def _prepare(
     if "units" in match.roles:
         values = src[match.roles["units"]]
         row_units = pd.Series(
-            _per_distinct(
+            _categorical(
                 values, lambda v: None if _is_blank(v) else normalise_units(v, where=table.file)
-            ),
-            dtype=object,
+            )
         )
     # one file name per table: categorical codes, not the name repeated on every row
     out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
@@ -459,13 +486,13 @@ def _text(value: object, fix=None) -> str | None:
 
 
 def _facies_flags(codes: np.ndarray, scheme: FaciesScheme | None) -> tuple[np.ndarray, np.ndarray]:
-    """Per row: whether the code holds a control character, and its scheme code (or None)."""
-    ids, uniques = pd.factorize(codes, use_na_sentinel=True)
-    ctl = np.array([bool(_CONTROL.search(c)) for c in uniques] + [False], dtype=bool)
-    res = np.empty(len(uniques) + 1, dtype=object)
+    """Per distinct code: whether it holds a control character, and its scheme code (or
+    None); each with one more entry (``False``, ``None``) for a missing code."""
+    ctl = np.array([bool(_CONTROL.search(c)) for c in codes] + [False], dtype=bool)
+    res = np.empty(len(codes) + 1, dtype=object)
     if scheme is not None:
-        res[:-1] = [scheme.resolve(c) for c in uniques]
-    return ctl[ids], res[ids]
+        res[:-1] = [scheme.resolve(c) for c in codes]
+    return ctl, res
 
 
 def _grain_size(value: object) -> tuple[float, str | None]:
@@ -485,9 +512,10 @@ def _grain_size(value: object) -> tuple[float, str | None]:
 
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
     out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
-    word = _per_distinct(values, lambda v: _grain_size(v)[1])
-    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in set(word) if w}
-    unread = np.flatnonzero(word == "")
+    word = _categorical(values, lambda v: _grain_size(v)[1])
+    found = list(word.categories)
+    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in found if w}
+    unread = np.flatnonzero(word.codes == found.index("")) if "" in found else []
     if words:
         listed = ", ".join(f"{w!r}={c:g}" for w, c in sorted(words.items()))
         problems.append(
@@ -523,7 +551,8 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
     stated: dict[str, list[str]] = {}
     for p in prepared:
         if p.row_units is not None:
-            found = set(p.row_units.dropna())
+            codes = p.row_units.cat.codes.to_numpy()
+            found = set(p.row_units.cat.categories[np.unique(codes[codes >= 0])])
             if p.units is not None and any(u != p.units for u in found):
                 raise InputError(
                     f"the units column says {sorted(found)} but the header says {p.units}",
@@ -554,10 +583,10 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
         )
     for p in prepared:
         if p.row_units is not None:
-            per_row = p.row_units.fillna(target).to_numpy()
+            units_of = np.append(p.row_units.cat.categories.to_numpy(dtype=object), target)
+            convert = (units_of != target)[p.row_units.cat.codes.to_numpy()]
         else:
-            per_row = np.full(len(p.frame), p.units or target, dtype=object)
-        convert = per_row != target
+            convert = np.full(len(p.frame), (p.units or target) != target)
         if convert.any():
             factor = FT_TO_M if target == "m" else 1.0 / FT_TO_M
             for col in ("top", "base", "depth"):
@@ -1010,6 +1039,8 @@ def _assemble(
         frame.assign(_file=frame["_file"].cat.set_categories(files)) for frame, _, _ in blocks
     ]
     ids = [np.array([rank[n] for n in names], dtype=np.int64)[which] for _, names, which in blocks]
+    if len(frames) > 1:  # categorical text of each block's own categories: compared as text
+        frames = [plain_frame(frame) for frame in frames]
     if frames and all(
         list(f.columns) == list(frames[0].columns)
         and f.dtypes.tolist() == frames[0].dtypes.tolist()
@@ -1021,14 +1052,16 @@ def _assemble(
             perm = np.argsort(core_id, kind="stable")
             table = table.take(perm).reset_index(drop=True)
             core_id = core_id[perm]
-        table["facies"] = table["facies"].astype(str)
+        if not isinstance(table["facies"].dtype, pd.CategoricalDtype):  # one table's codes
+            table["facies"] = table["facies"].astype(str)
         present, first = np.unique(core_id, return_index=True)
         starts = np.r_[first, len(core_id)]
         return CoreTable([order[k] for k in present], table, starts, units)
     cores: dict[str, Core] = {}
     for frame, names, which in blocks:
         for k, rows in pd.Series(np.arange(len(which))).groupby(which, sort=False).indices.items():
-            cores[names[k]] = Core(names[k], frame.take(rows).reset_index(drop=True), units)
+            part = plain_frame(frame.take(rows).reset_index(drop=True))
+            cores[names[k]] = Core(names[k], part, units)
     return {name: cores[name] for name in order if name in cores}
 
 
