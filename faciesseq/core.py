@@ -559,17 +559,26 @@ class CoreSet:
             codes = {c for core in self for c in core.intervals["facies"].unique()}
         return sorted(codes, key=lambda c: (len(c), c))
 
-    def _bed_table(self, tolerance: float = DEPTH_TOL) -> tuple[pd.DataFrame, np.ndarray] | None:
+    def _bed_table(
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True
+    ) -> tuple[pd.DataFrame, np.ndarray] | None:
         """Beds of every core in one table (cores in order, depth order within) and the
         core number of each bed; computed once per tolerance with one vectorised pass
         over all intervals. ``None`` where the cores' attribute columns differ (then
-        each core is done on its own)."""
+        each core is done on its own). ``attributes=False``: the beds without their
+        aggregated attributes (unless already made with them), for what needs only
+        the beds' facies, depths and number."""
         key = ("beds", float(tolerance))
         derived = self._cache
         if key in derived:
             return derived[key]
+        if not attributes:
+            key = ("beds without attributes", float(tolerance))
+            if key in derived:
+                return derived[key]
         if isinstance(self.cores, CoreTable):
             attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
+            attrs = attrs if attributes else []
             data, bed_core = _bed_columns(self.cores.table, self.cores.core_ids(), attrs, tolerance)
             names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
             derived[key] = (pd.DataFrame(data, columns=names), bed_core)
@@ -578,7 +587,7 @@ class CoreSet:
         numbers = [k for k, c in enumerate(self.cores.values()) if len(c.intervals)]
         used = [c for c in self.cores.values() if len(c.intervals)]
         if used:
-            attrs = used[0].attributes
+            attrs = used[0].attributes if attributes else []
             columns = list(used[0].intervals.columns)
             dtypes = used[0].intervals.dtypes.tolist()
             same = all(
@@ -635,7 +644,7 @@ class CoreSet:
 
     def bed_counts(self, tolerance: float = DEPTH_TOL) -> dict[str, int]:
         """Number of beds of every core (``len(core.beds())``), cores in order."""
-        found = self._bed_table(tolerance)
+        found = self._bed_table(tolerance, attributes=False)
         if found is None:
             return {name: len(core.beds(tolerance)) for name, core in self.cores.items()}
         counts = np.bincount(found[1], minlength=len(self.cores))
@@ -657,7 +666,7 @@ class CoreSet:
         return out
 
     def succession_beds(
-        self, tolerance: float = DEPTH_TOL
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True
     ) -> tuple[pd.DataFrame, np.ndarray, list[str], list[int]] | None:
         """The beds of every succession in one table, without making the successions.
 
@@ -665,8 +674,9 @@ class CoreSet:
         order, then segments from the top of the core), each **base to top**; the
         first row of each succession and, last, the number of rows; and the core
         and segment of each succession. ``None`` where the cores' columns differ.
+        ``attributes=False``: the beds' aggregated attributes may be left out.
         """
-        found = self._bed_table(tolerance)
+        found = self._bed_table(tolerance, attributes)
         if found is None:
             return None
         table, bed_core = found

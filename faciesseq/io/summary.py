@@ -150,7 +150,7 @@ def _whole_table(cores: CoreSet, steps: dict) -> tuple:
     gap[starts[:-1]] = False
     width = np.r_[0.0, top[1:] - base[:-1]]
     owner = cores.cores.core_ids()
-    bed_table, bed_core = cores._bed_table()
+    bed_table, bed_core = cores._bed_table(attributes=False)
     core_frame = pd.DataFrame(
         {
             "core": cores.names,
