@@ -7,7 +7,8 @@ reader (:func:`faciesseq.io.tabular.read_delimited`, pandas' parser with
 blank cells missing), but in blocks and column by column: each block's column is
 dictionary-encoded while parsed, so the text of a repeated value (a core name, a
 facies code, a units word) is held once, not once per row. Anything else (quotes,
-ragged rows, duplicate header names) is left to the general reader.
+ragged rows, empty lines, bytes that are not UTF-8) is found while reading and left
+to the general reader.
 """
 
 from __future__ import annotations
@@ -18,53 +19,38 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-__all__ = ["plain_lines", "read_plain"]
+__all__ = ["read_plain"]
 
-#: Bytes read at a time, when checking a file and when parsing it.
+#: Bytes parsed at a time.
 BLOCK_BYTES = 1 << 22
 #: Cells pandas' parser reads as missing (its default ``na_values``).
 NA_WORDS = sorted(pd._libs.parsers.STR_NA_VALUES)
 
 
-def plain_lines(path: Path) -> int | None:
-    """The number of lines of ``path`` when it is plain apart from empty lines (see the
-    module notes; :func:`read_plain` finds those), else ``None``; checked a block at a time."""
-    decoder = codecs.getincrementaldecoder("utf-8")()
-    lines, last = 0, b"\n"
-    with path.open("rb") as stream:
-        while block := stream.read(BLOCK_BYTES):
-            if b'"' in block or b"\x00" in block or (lines == 0 and block[:3] == codecs.BOM_UTF8):
-                return None
-            if not block.isascii():
-                try:
-                    decoder.decode(block)
-                except UnicodeDecodeError:
-                    return None
-            lines += block.count(b"\n")
-            last = block[-1:]
-    try:
-        decoder.decode(b"", final=True)
-    except UnicodeDecodeError:
-        return None
-    return lines + (last != b"\n")
-
-
-def read_plain(path: Path, delimiter: str, names: list[str], lines: int) -> pd.DataFrame | None:
-    """The cells of a plain file of ``lines`` lines (header ``names``, already stripped)
-    as a frame of categorical text columns, missing cells NaN; ``None`` when pyarrow
-    cannot read it as a table of ``len(names)`` columns (ragged rows and the like) or
-    skipped an empty line (a row the general reader counts)."""
+def read_plain(path: Path, delimiter: str, names: list[str]) -> pd.DataFrame | None:
+    """The cells of a plain file (header ``names``, already stripped) as a frame of
+    categorical text columns, missing cells NaN; ``None`` when the file is not plain or
+    pyarrow cannot read it as a table of ``len(names)`` columns (ragged rows)."""
     import pyarrow as pa
     from pyarrow import csv
 
+    with path.open("rb") as stream:
+        if stream.read(3) == codecs.BOM_UTF8:
+            return None
+    header = reader_names(path, delimiter)
+    if len(header) != len(names):
+        return None
     text = pa.dictionary(pa.int32(), pa.string())
     try:
         reader = csv.open_csv(
             path,
             read_options=csv.ReadOptions(use_threads=False, block_size=BLOCK_BYTES),
-            parse_options=csv.ParseOptions(delimiter=delimiter, quote_char=False),
+            # an empty line is a row of one cell: refused, as a ragged row is
+            parse_options=csv.ParseOptions(
+                delimiter=delimiter, quote_char=False, ignore_empty_lines=False
+            ),
             convert_options=csv.ConvertOptions(
-                column_types=dict.fromkeys(reader_names(path, delimiter), text),
+                column_types=dict.fromkeys(header, text),
                 strings_can_be_null=False,
                 null_values=[],
             ),
@@ -77,11 +63,12 @@ def read_plain(path: Path, delimiter: str, names: list[str], lines: int) -> pd.D
         return None
     if not blocks or not blocks[0] or len(blocks) != len(names):
         return None
-    if sum(len(codes) for codes, _ in blocks[0]) != lines - 1:  # an empty line skipped
-        return None
     frame = {}
     for j, name in enumerate(names):
-        frame[name] = _categorical(blocks[j])
+        column = _categorical(blocks[j])
+        if column is None:
+            return None
+        frame[name] = column
         blocks[j] = None  # each block's codes released once its column is made
     return pd.DataFrame(frame, copy=False)
 
@@ -99,12 +86,15 @@ def _narrow(column) -> np.ndarray:
     return column.indices.to_numpy(zero_copy_only=False).astype(dtype)
 
 
-def _categorical(blocks: list[tuple[np.ndarray, object]]) -> pd.Categorical:
-    """One column from its blocks: each distinct text read as pandas reads it, once."""
+def _categorical(blocks: list[tuple[np.ndarray, object]]) -> pd.Categorical | None:
+    """One column from its blocks: each distinct text read as pandas reads it, once;
+    ``None`` when a cell holds a quote character or a NUL byte."""
     import pyarrow as pa
     import pyarrow.compute as pc
 
     texts = pa.concat_arrays([d for _, d in blocks])
+    if pc.any(pc.match_substring_regex(texts, '["\\x00]')).as_py():
+        return None  # a quote or a NUL byte: the general reader's
     # pandas skips spaces after the delimiter, then tests its missing-value words
     missing = pc.is_in(pc.utf8_ltrim(texts, characters=" "), value_set=pa.array(NA_WORDS))
     stripped = pc.utf8_trim_whitespace(texts)

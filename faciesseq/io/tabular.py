@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem
-from faciesseq.io.plaincsv import plain_lines, read_plain
+from faciesseq.io.plaincsv import read_plain
 from faciesseq.io.raw import RawTable, check_width
 
 __all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
@@ -177,10 +177,9 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     """A CSV/TSV file; see the module notes on encoding and delimiter."""
     file = str(path)
     try:
-        lines = plain_lines(path) if encoding is None else None
+        frame = _read_plain(path) if encoding is None else None
     except OSError as exc:
         raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
-    frame = _read_plain(path, lines) if lines else None
     problems: list[Problem] = []
     if frame is None:
         frame, problems, delimiter = _read_text(path, encoding)
@@ -204,18 +203,22 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     return RawTable(frame, file, rows[keep], problems=problems)
 
 
-def _read_plain(path: Path, lines: int) -> tuple[pd.DataFrame, str] | None:
+def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
     """A plain file (:mod:`faciesseq.io.plaincsv`) and its delimiter; ``None`` when the
-    general reader must read it (a header name blank or repeated, ragged rows)."""
-    head = _head(path)
+    general reader must read it (not UTF-8, a header name blank, repeated or quoted,
+    ragged rows)."""
+    try:
+        head = _head(path)
+    except UnicodeDecodeError:
+        return None
     if not head.strip():
         return None
     delimiter = _sniff(head, path.suffix.lower())
     names = [n.strip() for n in head.splitlines()[0].split(delimiter)]
     check_width(len(names), str(path))
-    if "" in names or len(set(names)) < len(names):
+    if "" in names or len(set(names)) < len(names) or any('"' in n for n in names):
         return None
-    frame = read_plain(path, delimiter, names, lines)
+    frame = read_plain(path, delimiter, names)
     return None if frame is None else (frame, delimiter)
 
 

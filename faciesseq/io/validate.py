@@ -235,6 +235,40 @@ def _kept_text(value: object) -> object:
     return None if _is_blank(value) else value
 
 
+def _depths(
+    raw: pd.Series, role: str, file: str, rows: np.ndarray, cores: pd.Series
+) -> tuple[np.ndarray, list[tuple[int, Problem]]]:
+    """A depth column as numbers (NaN where unusable: blank, not a number, a null value
+    such as -999.25, infinite) and an error for each unusable cell, with its row index;
+    each distinct value read and checked once."""
+    found = _distinct(raw)
+    if found is None:  # unhashable values: one at a time
+        ids = np.arange(len(raw))
+        numbers, blank = _numbers(raw)
+    else:
+        ids = found[0]
+        numbers, blank = _numbers(pd.Series(found[1], dtype=object))
+        numbers, blank = np.r_[numbers, np.nan], np.r_[blank, True]  # -1: missing
+    nulls = np.isin(numbers, NULL_NUMBERS)
+    infinite = np.isinf(numbers)  # e.g. 1e309, read as infinity
+    numbers = np.where(nulls | infinite, np.nan, numbers)
+    errors = []
+    for i in np.flatnonzero(np.isnan(numbers)[ids]):
+        k, value = ids[i], raw.iloc[i]
+        if nulls[k]:
+            kind, message = "missing-depth", f"{role} holds the null value {value}"
+        elif blank[k]:
+            kind, message = "missing-depth", f"no {role} depth"
+        elif infinite[k]:
+            kind = "bad-depth"
+            message = f"{role} {_shown(value)} is not a finite number (too large)"
+        else:
+            kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
+        where = {"file": file, "row": int(rows[i]), "core": cores.iloc[i]}
+        errors.append((i, Problem("error", kind, message, **where)))
+    return numbers[ids], errors
+
+
 @dataclass
 class _Rows:
     """One table's rows with roles applied, before per-core checks."""
@@ -287,7 +321,7 @@ def _prepare(
     rows = np.asarray(table.row_numbers(), dtype=int)
     problems: list[Problem] = []
     n = len(src)
-    out = pd.DataFrame(index=range(n))
+    out: dict[str, object] = {}  # the columns, made into a frame once (no copies)
     bad = np.zeros(n, dtype=bool)
 
     # -- core ----------------------------------------------------------------
@@ -303,7 +337,7 @@ def _prepare(
         out["core"] = cores
     else:
         name = table.core or "core"
-        out["core"] = name
+        out["core"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [name])
         if table.layout != "samples" or table.core is None:
             problems.append(
                 Problem(
@@ -315,40 +349,16 @@ def _prepare(
                     core=name,
                 )
             )
+    core_of_row = pd.Series(out["core"])
     roles = ("top", "base") if layout == "intervals" else ("depth",)
 
     # -- depths ----------------------------------------------------------------
     for role in roles:
-        raw = src[match.roles[role]]
-        numbers, blank = _numbers(raw)
-        numbers = pd.Series(numbers)
-        nulls = numbers.isin(NULL_NUMBERS).to_numpy()
-        infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
-        numbers[nulls | infinite] = np.nan
-        for i in np.nonzero(numbers.isna().to_numpy())[0]:
-            bad[i] = True
-            value = raw.iloc[i]
-            if nulls[i]:
-                kind, message = "missing-depth", f"{role} holds the null value {value}"
-            elif blank[i]:
-                kind, message = "missing-depth", f"no {role} depth"
-            elif infinite[i]:
-                kind = "bad-depth"
-                message = f"{role} {_shown(value)} is not a finite number (too large)"
-            else:
-                kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
-            problems.append(
-                Problem(
-                    "error",
-                    kind,
-                    message,
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=out["core"].iloc[i],
-                )
-            )
-        out[role] = numbers.to_numpy()
-    first_depth = out[roles[0]].to_numpy()
+        numbers, found = _depths(src[match.roles[role]], role, table.file, rows, core_of_row)
+        bad[[row for row, _ in found]] = True
+        problems += [problem for _, problem in found]
+        out[role] = numbers
+    first_depth = out[roles[0]]
 
     # -- facies ----------------------------------------------------------------
     facies = _categorical(src[match.roles["facies"]], facies_code)
@@ -370,12 +380,12 @@ def _prepare(
                     "the file may be damaged or of another encoding",
                     file=table.file,
                     row=int(rows[i]),
-                    core=out["core"].iloc[i],
+                    core=core_of_row.iloc[i],
                     depth=_depth(first_depth[i]),
                 )
             )
         elif layout == "samples":
-            not_described.setdefault(out["core"].iloc[i], []).append(i)
+            not_described.setdefault(core_of_row.iloc[i], []).append(i)
         else:
             problems.append(
                 Problem(
@@ -384,14 +394,14 @@ def _prepare(
                     "no facies code",
                     file=table.file,
                     row=int(rows[i]),
-                    core=out["core"].iloc[i],
+                    core=core_of_row.iloc[i],
                     depth=_depth(first_depth[i]),
                 )
             )
     if scheme is not None:
         known = ~control & ~pd.isna(resolved)
         for i in np.flatnonzero(~flagged & ~known[ids]):
-            unknown.setdefault((out["core"].iloc[i], codes[ids[i]]), []).append(i)
+            unknown.setdefault((core_of_row.iloc[i], codes[ids[i]]), []).append(i)
             bad[i] = True
         # each distinct code resolved once (aliases and their codes merge)
         merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
@@ -440,17 +450,10 @@ def _prepare(
     unused = [
         match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
     ]
-    extra: dict[str, pd.Series] = {}
     for col in list(match.others) + unused:
         name = col if col not in _RESERVED else f"source_{col}"
-        values = _numbers_where_all(src[col].reset_index(drop=True))
-        if name in out.columns:
-            out[name] = values
-        else:
-            extra[name] = values
+        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
         attributes.append(name)
-    if extra:  # joined at once: a column at a time is quadratic in wide tables
-        out = pd.concat([out, pd.DataFrame(extra, index=out.index)], axis=1)
     row_units = None
     if "units" in match.roles:
         values = src[match.roles["units"]]
@@ -463,7 +466,8 @@ def _prepare(
     out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
     out["_row"] = rows
     keep = ~bad
-    frame = out if keep.all() else out[keep].reset_index(drop=True)  # no copy when all kept
+    frame = pd.DataFrame(out, copy=False)
+    frame = frame if keep.all() else frame[keep].reset_index(drop=True)  # no copy: all kept
     if row_units is not None and not keep.all():
         row_units = row_units[keep].reset_index(drop=True)
     del out
