@@ -320,150 +320,29 @@ def _prepare(
     src = table.frame
     rows = np.asarray(table.row_numbers(), dtype=int)
     problems: list[Problem] = []
-    n = len(src)
+    bad = np.zeros(len(src), dtype=bool)
     out: dict[str, object] = {}  # the columns, made into a frame once (no copies)
-    bad = np.zeros(n, dtype=bool)
-
-    # -- core ----------------------------------------------------------------
-    if "core" in match.roles:
-        cores = _categorical(src[match.roles["core"]], facies_code)
-        for i in np.flatnonzero(cores.codes < 0):
-            bad[i] = True
-            problems.append(
-                Problem(
-                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
-                )
-            )
-        out["core"] = cores
-    else:
-        name = table.core or "core"
-        out["core"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [name])
-        if table.layout != "samples" or table.core is None:
-            problems.append(
-                Problem(
-                    "warning",
-                    "no-core-column",
-                    f"no core column; all rows are taken as core {name!r} (map one with "
-                    "--column core=NAME)",
-                    file=table.file,
-                    core=name,
-                )
-            )
-    core_of_row = pd.Series(out["core"])
+    out["core"] = _core_column(src, match, table, rows, bad, problems)
     roles = ("top", "base") if layout == "intervals" else ("depth",)
-
-    # -- depths ----------------------------------------------------------------
     for role in roles:
-        numbers, found = _depths(src[match.roles[role]], role, table.file, rows, core_of_row)
+        numbers, found = _depths(src[match.roles[role]], role, table.file, rows, out["core"])
         bad[[row for row, _ in found]] = True
         problems += [problem for _, problem in found]
         out[role] = numbers
-    first_depth = out[roles[0]]
-
-    # -- facies ----------------------------------------------------------------
-    facies = _categorical(src[match.roles["facies"]], facies_code)
-    codes = facies.categories.to_numpy()
-    control, resolved = _facies_flags(codes, scheme)
-    ids = np.asarray(facies.codes)
-    unknown: dict[tuple[str, str], list[int]] = {}
-    not_described: dict[str, list[int]] = {}
-    flagged = (ids < 0) | control[ids]
-    for i in np.flatnonzero(flagged):
-        code = None if ids[i] < 0 else codes[ids[i]]
-        bad[i] = True
-        if ids[i] >= 0:
-            problems.append(
-                Problem(
-                    "error",
-                    "bad-facies",
-                    f"facies code {code!r} holds a control character (e.g. a NUL byte); "
-                    "the file may be damaged or of another encoding",
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=core_of_row.iloc[i],
-                    depth=_depth(first_depth[i]),
-                )
-            )
-        elif layout == "samples":
-            not_described.setdefault(core_of_row.iloc[i], []).append(i)
-        else:
-            problems.append(
-                Problem(
-                    "error",
-                    "missing-facies",
-                    "no facies code",
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=core_of_row.iloc[i],
-                    depth=_depth(first_depth[i]),
-                )
-            )
-    if scheme is not None:
-        known = ~control & ~pd.isna(resolved)
-        for i in np.flatnonzero(~flagged & ~known[ids]):
-            unknown.setdefault((core_of_row.iloc[i], codes[ids[i]]), []).append(i)
-            bad[i] = True
-        # each distinct code resolved once (aliases and their codes merge)
-        merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
-        facies = pd.Categorical.from_codes(
-            np.where(ids < 0, -1, merged[ids]), pd.Index(categories, dtype=object), validate=False
-        )
-    for (core, code), idx in unknown.items():
-        count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
-        problems.append(
-            Problem(
-                "error",
-                "unknown-facies",
-                f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
-                "alias of one of its facies; add it (code or alias) to the scheme",
-                file=table.file,
-                row=int(rows[idx[0]]),
-                core=core,
-                depth=_depth(first_depth[idx[0]]),
-            )
-        )
-    for core, idx in not_described.items():
-        listed = ", ".join(str(rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
-        problems.append(
-            Problem(
-                "warning",
-                "not-described",
-                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
-                "left out",
-                file=table.file,
-                row=int(rows[idx[0]]),
-                core=core,
-                depth=_depth(first_depth[idx[0]]),
-            )
-        )
-    out["facies"] = facies
-
-    # -- attributes --------------------------------------------------------------
-    attributes: list[str] = []
-    if "grain_size" in match.roles:
-        out["grain_size"] = _grain_sizes(src[match.roles["grain_size"]], table, rows, problems)
-        attributes.append("grain_size")
-    for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
-        if role in match.roles:
-            out[role] = _categorical(src[match.roles[role]], partial(_text, fix=fix))
-            attributes.append(role)
-    unused = [
-        match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
-    ]
-    for col in list(match.others) + unused:
-        name = col if col not in _RESERVED else f"source_{col}"
-        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
-        attributes.append(name)
+    where = _Where(table.file, rows, out["core"], out[roles[0]])
+    out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
+    attributes = _attribute_columns(src, match, roles, table, rows, problems)
+    out.update(attributes)
     row_units = None
     if "units" in match.roles:
-        values = src[match.roles["units"]]
         row_units = pd.Series(
             _categorical(
-                values, lambda v: None if _is_blank(v) else normalise_units(v, where=table.file)
+                src[match.roles["units"]],
+                lambda v: None if _is_blank(v) else normalise_units(v, where=table.file),
             )
         )
     # one file name per table: categorical codes, not the name repeated on every row
-    out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
+    out["_file"] = pd.Categorical.from_codes(np.zeros(len(src), dtype=np.int8), [table.file])
     out["_row"] = rows
     keep = ~bad
     frame = pd.DataFrame(out, copy=False)
@@ -476,9 +355,167 @@ def _prepare(
         raise InputError(
             f"the header says {table.units} but a column name says {match.units}", file=table.file
         )
-    rows = _Rows(table, layout, frame, attributes, stated, row_units, problems + table.problems)
-    rows.roles = dict(match.roles)
-    return rows
+    problems += table.problems
+    prepared = _Rows(table, layout, frame, list(attributes), stated, row_units, problems)
+    prepared.roles = dict(match.roles)
+    return prepared
+
+
+@dataclass(frozen=True)
+class _Where:
+    """Where each row of a table is: file, source row, core, first depth (for messages)."""
+
+    file: str
+    rows: np.ndarray
+    cores: pd.Series
+    depths: np.ndarray
+
+    def at(self, i: int) -> dict:
+        return {
+            "file": self.file,
+            "row": int(self.rows[i]),
+            "core": self.cores.iloc[i],
+            "depth": _depth(self.depths[i]),
+        }
+
+
+def _core_column(
+    src: pd.DataFrame,
+    match: ColumnMatch,
+    table: RawTable,
+    rows: np.ndarray,
+    bad: np.ndarray,
+    problems: list[Problem],
+) -> pd.Series:
+    """The core of each row (rows without one marked ``bad``, with an error each)."""
+    n = len(src)
+    if "core" in match.roles:
+        cores = _categorical(src[match.roles["core"]], facies_code)
+        for i in np.flatnonzero(cores.codes < 0):
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
+                )
+            )
+        return pd.Series(cores)
+    name = table.core or "core"
+    if table.layout != "samples" or table.core is None:
+        problems.append(
+            Problem(
+                "warning",
+                "no-core-column",
+                f"no core column; all rows are taken as core {name!r} (map one with "
+                "--column core=NAME)",
+                file=table.file,
+                core=name,
+            )
+        )
+    return pd.Series(pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [name]))
+
+
+def _facies_column(
+    raw: pd.Series,
+    scheme: FaciesScheme | None,
+    layout: str,
+    where: _Where,
+    bad: np.ndarray,
+    problems: list[Problem],
+) -> pd.Categorical:
+    """The facies code of each row, aliases resolved by ``scheme``; rows without a usable
+    code (missing, a control character, not in the scheme) marked ``bad``, with an error
+    (a warning for an undescribed sample)."""
+    facies = _categorical(raw, facies_code)
+    codes = facies.categories.to_numpy()
+    control, resolved = _facies_flags(codes, scheme)
+    ids = np.asarray(facies.codes)
+    not_described: dict[str, list[int]] = {}
+    flagged = (ids < 0) | control[ids]
+    for i in np.flatnonzero(flagged):
+        bad[i] = True
+        if ids[i] >= 0:
+            problems.append(
+                Problem(
+                    "error",
+                    "bad-facies",
+                    f"facies code {codes[ids[i]]!r} holds a control character (e.g. a NUL "
+                    "byte); the file may be damaged or of another encoding",
+                    **where.at(i),
+                )
+            )
+        elif layout == "samples":
+            not_described.setdefault(where.cores.iloc[i], []).append(i)
+        else:
+            problems.append(Problem("error", "missing-facies", "no facies code", **where.at(i)))
+    if scheme is not None:
+        known = ~control & ~pd.isna(resolved)
+        unknown = np.flatnonzero(~flagged & ~known[ids])
+        bad[unknown] = True
+        problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
+        # each distinct code resolved once (aliases and their codes merge)
+        merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
+        facies = pd.Categorical.from_codes(
+            np.where(ids < 0, -1, merged[ids]), pd.Index(categories, dtype=object), validate=False
+        )
+    for idx in not_described.values():
+        listed = ", ".join(str(where.rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
+        problems.append(
+            Problem(
+                "warning",
+                "not-described",
+                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
+                "left out",
+                **where.at(idx[0]),
+            )
+        )
+    return facies
+
+
+def _unknown_facies(
+    rows: np.ndarray, codes: np.ndarray, scheme: FaciesScheme, where: _Where
+) -> list[Problem]:
+    """One error per core and code not in ``scheme`` (at its first row)."""
+    found: dict[tuple[str, str], list[int]] = {}
+    for i, code in zip(rows, codes, strict=True):
+        found.setdefault((where.cores.iloc[i], code), []).append(i)
+    problems = []
+    for (_, code), idx in found.items():
+        count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
+        problems.append(
+            Problem(
+                "error",
+                "unknown-facies",
+                f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
+                "alias of one of its facies; add it (code or alias) to the scheme",
+                **where.at(idx[0]),
+            )
+        )
+    return problems
+
+
+def _attribute_columns(
+    src: pd.DataFrame,
+    match: ColumnMatch,
+    roles: tuple[str, ...],
+    table: RawTable,
+    rows: np.ndarray,
+    problems: list[Problem],
+) -> dict[str, object]:
+    """The attribute columns: grain size, contact, tract, lithology, then every other
+    column (numbers where every filled cell is one, else text)."""
+    out: dict[str, object] = {}
+    if "grain_size" in match.roles:
+        out["grain_size"] = _grain_sizes(src[match.roles["grain_size"]], table, rows, problems)
+    for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
+        if role in match.roles:
+            out[role] = _categorical(src[match.roles[role]], partial(_text, fix=fix))
+    unused = [
+        match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
+    ]
+    for col in list(match.others) + unused:
+        name = col if col not in _RESERVED else f"source_{col}"
+        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+    return out
 
 
 def _text(value: object, fix=None) -> str | None:
