@@ -115,8 +115,11 @@ def _distinct(values: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
     the index of each cell's value among them (-1: missing); ``None`` for unhashable values.
 
     One pass (``pandas.factorize``), so a column of millions of cells costs one
-    conversion per distinct value afterwards, not one per cell.
+    conversion per distinct value afterwards, not one per cell; none for a categorical
+    column (its codes and categories, which may be in another order).
     """
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        return values.cat.codes.to_numpy(), np.asarray(values.cat.categories, dtype=object)
     raw = values.to_numpy(dtype=object) if values.dtype == object else values
     try:
         ids, uniques = pd.factorize(raw, use_na_sentinel=True)
@@ -173,6 +176,7 @@ def _categorical(values: pd.Series, convert) -> pd.Categorical:
     done[-1] = _missing_converted(values, ids, convert)
     codes, categories = pd.factorize(done, use_na_sentinel=True)
     categories = pd.Index(np.asarray(categories, dtype=object), dtype=object)
+    codes = codes.astype(np.int8 if len(categories) < 127 else np.int32)  # one per row next
     return pd.Categorical.from_codes(codes[ids], categories, validate=False)
 
 
@@ -211,18 +215,39 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
         numbers = pd.to_numeric(values.where(~blank, None), errors="coerce")
         return numbers.to_numpy(dtype=float), blank
     ids, uniques = found
+    numbers, blank = _distinct_numbers(uniques)
+    return numbers[ids], blank[ids]
+
+
+def _distinct_numbers(uniques: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each distinct value as a number and whether it is blank, with one more entry (NaN,
+    blank) for a missing value (index -1)."""
     blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
     read = pd.to_numeric(pd.Series(uniques, dtype=object).where(~blank[:-1], None), errors="coerce")
-    numbers = np.r_[read.to_numpy(dtype=float), np.nan]
-    return numbers[ids], blank[ids]
+    return np.r_[read.to_numpy(dtype=float), np.nan], blank
 
 
 def _numbers_where_all(values: pd.Series) -> pd.Series:
     """A column becomes numeric when every filled cell is a number; otherwise text as read."""
+    found = _distinct(values)
+    if found is not None:  # decided on the distinct values
+        ids, uniques = found
+        numbers, blank = _distinct_numbers(uniques)
+        cells = np.bincount(np.asarray(ids, dtype=np.intp) + 1, minlength=len(numbers))
+        filled = np.r_[cells[1:], cells[0]] > 0  # distinct values present (missing: last)
+        filled &= ~blank
+        if filled.any() and not np.isnan(numbers[filled]).any():
+            return pd.Series(numbers[ids], index=values.index)
+        return _text_where_not_numbers(values, blank[ids])
     numbers, blank = _numbers(values)
     filled = ~blank
     if filled.any() and not np.isnan(numbers[filled]).any():
         return pd.Series(numbers, index=values.index)
+    return _text_where_not_numbers(values, blank)
+
+
+def _text_where_not_numbers(values: pd.Series, blank: np.ndarray) -> pd.Series:
+    """A column kept as text, blank cells ``None``."""
     if values.dtype == object:
         text = values.to_numpy(dtype=object).copy()
         text[blank] = None
@@ -552,7 +577,11 @@ def _grain_size(value: object) -> tuple[float, str | None]:
 
 
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
-    out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
+    found = _distinct(values)
+    if found is None:
+        out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
+    else:  # a missing cell (-1) is blank: NaN
+        out = np.r_[[_grain_size(v)[0] for v in found[1]], np.nan][found[0]]
     word = _categorical(values, lambda v: _grain_size(v)[1])
     found = list(word.categories)
     words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in found if w}
@@ -1095,7 +1124,8 @@ def _assemble(
             core_id = core_id[perm]
         if not isinstance(table["facies"].dtype, pd.CategoricalDtype):  # one table's codes
             table["facies"] = table["facies"].astype(str)
-        present, first = np.unique(core_id, return_index=True)
+        first = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])  # in core order
+        present = core_id[first]
         starts = np.r_[first, len(core_id)]
         return CoreTable([order[k] for k in present], table, starts, units)
     cores: dict[str, Core] = {}
@@ -1127,14 +1157,17 @@ def _check_all_intervals(
     new_core = np.r_[True, core_of_row[1:] != core_of_row[:-1]]
     thin = (top > base) | (base - top <= DEPTH_TOL)
     overlap = base[:-1] - top[1:]  # with the interval above, as _check_intervals measures it
-    step_top, step_base = np.diff(top), np.diff(base)
-    in_order = (step_top > 0) | ((step_top == 0) & (step_base >= 0))
+    step = np.diff(top)
+    in_order, same_top = step > 0, step == 0
+    np.subtract(base[1:], base[:-1], out=step)  # the step of the bases, in the same memory
+    in_order |= same_top & (step >= 0)
+    del step, same_top
     odd = thin | (np.r_[False, ~in_order | (overlap > DEPTH_TOL)] & ~new_core)
     dirty = np.zeros(len(names), dtype=bool)
     dirty[core_of_row[odd]] = True
     problems: list[Problem] = []
     rows = frame["_row"].to_numpy()
-    gap = np.r_[False, -overlap > DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
+    gap = np.r_[False, overlap < -DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
     for i in np.flatnonzero(gap):
         problems.append(
             Problem(
