@@ -479,8 +479,9 @@ def _facies_column(
         problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
         # each distinct code resolved once (aliases and their codes merge)
         merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
+        merged = np.append(merged, -1).astype(ids.dtype)  # -1: missing stays missing
         facies = pd.Categorical.from_codes(
-            np.where(ids < 0, -1, merged[ids]), pd.Index(categories, dtype=object), validate=False
+            merged[ids], pd.Index(categories, dtype=object), validate=False
         )
     for idx in not_described.values():
         listed = ", ".join(str(where.rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
@@ -970,7 +971,11 @@ def build_coreset(
         local, found_names = pd.factorize(p.frame["core"])
         names = [str(n) for n in found_names]
         counts = np.bincount(local, minlength=len(names))
-        first_row = p.frame["_row"].to_numpy()[np.unique(local, return_index=True)[1]]
+        # numbered in order of first appearance: a core's first row is where the number
+        # first exceeds every number before it
+        first = np.flatnonzero(np.r_[True, local[1:] > np.maximum.accumulate(local)[:-1]])
+        first = first[: len(names)]  # none for a table without rows
+        first_row = p.frame["_row"].to_numpy()[first]
         owned = np.zeros(len(names), dtype=bool)
         for k, name in enumerate(names):
             if name in owner and owner[name] != file:
