@@ -19,8 +19,13 @@ in the same run, and check that both give the same log-likelihood and the
 same updated parameters. Each candidate runs in blocks of ``--repeats``
 consecutive calls, taking turns for ``--rounds`` rounds; the first call of a
 block is reported apart ("cold": fresh memory pages after the other
-candidate ran), the others are "warm", as the iterations of a fit are. The
-same for Viterbi against hmmlearn's ``decode``.
+candidate ran), the others are "warm", as the iterations of a fit are; the
+"paired" ratio is the median over calls of a candidate's CPU time over the
+baseline's call at the same place of the same round. The same for Viterbi
+against hmmlearn's ``decode`` (``--viterbi-only``: Viterbi alone). With
+``--graph tract`` the transition matrix is shaped like a tract graph (each
+state stays, moves on or jumps four ahead: three predecessors per state)
+instead of allowing all transitions but one per state.
 
 Memory: in a fresh subprocess per batch size, run one forward-backward on
 ``--memory-obs`` observations (default 10,000,000) and record the peak of
@@ -28,8 +33,9 @@ numpy allocations during the call (``tracemalloc``) beyond the input and the
 required outputs, and the process's maximum resident set size.
 
 With ``--one faciesseq|hmmlearn|none`` the script only makes the data and
-runs one EM iteration of that candidate (or none) in this fresh process, for
-timing whole processes from outside (``/usr/bin/time``): the coldest first call.
+runs one EM iteration (with ``--viterbi-only``: one Viterbi) of that
+candidate (or none) in this fresh process, for timing whole processes from
+outside (``/usr/bin/time``): the coldest first call.
 
 Run from the repository root::
 
@@ -55,7 +61,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from faciesseq.hmm.engine import forward_backward, viterbi
 
 
-def make_data(n_obs: int, mean_length: int, n_states: int, n_symbols: int, seed: int):
+def make_data(
+    n_obs: int, mean_length: int, n_states: int, n_symbols: int, seed: int, graph: str = "dense"
+):
+    """Symbols, lengths and random parameters. ``graph="dense"``: every transition
+    allowed but one per state; ``"tract"``: shaped like a tract graph, each
+    state stays, moves to the next or jumps four ahead (three predecessors)."""
     rng = np.random.default_rng(seed)
     lengths = []
     total = 0
@@ -67,9 +78,15 @@ def make_data(n_obs: int, mean_length: int, n_states: int, n_symbols: int, seed:
     lengths = np.array(lengths)
     startprob = rng.dirichlet(np.ones(n_states))
     transmat = rng.dirichlet(np.ones(n_states), size=n_states)
-    # Structural zeros as in a tract graph: each state cannot jump two ahead.
-    for i in range(n_states):
-        transmat[i, (i + 2) % n_states] = 0.0
+    if graph == "tract":
+        allowed = np.zeros((n_states, n_states), dtype=bool)
+        for i in range(n_states):
+            allowed[i, [i, (i + 1) % n_states, (i + 4) % n_states]] = True
+        transmat = np.where(allowed, transmat + 0.05, 0.0)
+    else:
+        # Structural zeros as in a tract graph: each state cannot jump two ahead.
+        for i in range(n_states):
+            transmat[i, (i + 2) % n_states] = 0.0
     transmat /= transmat.sum(axis=1, keepdims=True)
     emission = rng.dirichlet(np.ones(n_symbols), size=n_states)
     symbols = rng.integers(0, n_symbols, size=n_obs)
@@ -175,12 +192,18 @@ def summarise(label, names, times):
             f"median CPU {row['cold_cpu']:.3f} s"
         )
     b = stats[-1]
-    for name, a in zip(names[:-1], stats[:-1]):
+    base = np.array(times[-1]["cold"] + times[-1]["warm"])
+    for name, a, t in zip(names[:-1], stats[:-1], times[:-1]):
+        # call i of one candidate against call i of the baseline (same place in
+        # the same round), then the median of those ratios
+        paired = np.array(t["cold"] + t["warm"])[:, 1] / base[:, 1]
         print(
             f"{label} ratio {name} / {names[-1]}: warm best {a['best'] / b['best']:.3f}, "
             f"warm median {a['median'] / b['median']:.3f}, "
             f"warm best CPU {a['cpu'] / b['cpu']:.3f}, cold median {a['cold'] / b['cold']:.3f}, "
-            f"cold median CPU {a['cold_cpu'] / b['cold_cpu']:.3f}"
+            f"cold median CPU {a['cold_cpu'] / b['cold_cpu']:.3f}; paired CPU ratios: median "
+            f"{np.median(paired):.3f} (min {paired.min():.3f}, max {paired.max():.3f}, "
+            f"{paired.size} pairs)"
         )
 
 
@@ -254,7 +277,9 @@ def main(argv: list[str] | None = None) -> None:
         "--memory-batches", type=int, nargs="*", default=[1 << 16, 1 << 17, 1 << 20]
     )
     parser.add_argument("--skip-memory", action="store_true")
-    parser.add_argument("--skip-em", action="store_true")
+    parser.add_argument("--skip-em", action="store_true", help="skip EM and Viterbi")
+    parser.add_argument("--viterbi-only", action="store_true", help="time Viterbi, not EM")
+    parser.add_argument("--graph", choices=("dense", "tract"), default="dense")
     parser.add_argument("--memory-child", type=int, default=None, help=argparse.SUPPRESS)
     parser.add_argument("--one", choices=("faciesseq", "hmmlearn", "none"))
     args = parser.parse_args(argv)
@@ -262,8 +287,13 @@ def main(argv: list[str] | None = None) -> None:
     if args.one is not None:
         import hmmlearn.hmm  # every choice imports both libraries
 
-        data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
-        step = {"faciesseq": em_step_table, "hmmlearn": em_step_hmmlearn}.get(args.one)
+        data = make_data(
+            args.n_obs, args.mean_length, args.states, args.symbols, seed=1, graph=args.graph
+        )
+        if args.viterbi_only:
+            step = {"faciesseq": viterbi_ours, "hmmlearn": viterbi_hmmlearn}.get(args.one)
+        else:
+            step = {"faciesseq": em_step_table, "hmmlearn": em_step_hmmlearn}.get(args.one)
         if step is not None:
             step(*data)
         return
@@ -281,13 +311,16 @@ def main(argv: list[str] | None = None) -> None:
     )
 
     if not args.skip_em:
-        data = make_data(args.n_obs, args.mean_length, args.states, args.symbols, seed=1)
+        data = make_data(
+            args.n_obs, args.mean_length, args.states, args.symbols, seed=1, graph=args.graph
+        )
         symbols, lengths = data[0], data[1]
         print(
-            f"# EM iteration: {len(symbols):,} observations, {len(lengths)} sequences, "
-            f"{args.states} states, {args.symbols} symbols"
+            f"# {len(symbols):,} observations, {len(lengths)} sequences, "
+            f"{args.states} states ({args.graph} graph), {args.symbols} symbols"
         )
         names = ("faciesseq", "faciesseq-array", "hmmlearn")
+    if not (args.skip_em or args.viterbi_only):
         em_times, (ours, dense, ref) = timed_blocks(
             [
                 lambda: em_step_table(*data, batch_size=args.batch_size),
@@ -309,6 +342,7 @@ def main(argv: list[str] | None = None) -> None:
             if not (ll_diff <= 1e-6 * abs(ref[0]) and par_diff < 1e-8):
                 raise SystemExit(f"EM results of {name} differ from hmmlearn")
 
+    if not args.skip_em:
         v_times, (vo, vr) = timed_blocks(
             [lambda: viterbi_ours(*data), lambda: viterbi_hmmlearn(*data)],
             args.repeats,

@@ -15,7 +15,7 @@ Conventions (used everywhere in the project):
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -23,7 +23,15 @@ import pandas as pd
 
 from faciesseq.errors import InputError, Problem
 
-__all__ = ["FT_TO_M", "Core", "CoreSet", "CoreTable", "Succession", "to_metres"]
+__all__ = [
+    "FT_TO_M",
+    "Core",
+    "CoreSet",
+    "CoreTable",
+    "Succession",
+    "SuccessionTable",
+    "to_metres",
+]
 
 #: International foot, exactly (by definition, 1959).
 FT_TO_M = 0.3048
@@ -102,6 +110,61 @@ def plain_frame(table: pd.DataFrame) -> pd.DataFrame:
     return table.assign(
         **{c: pd.Series(plain_column(table[c]), index=table.index, dtype=object) for c in text}
     )
+
+
+@dataclass(frozen=True)
+class SuccessionTable(Sequence):
+    """Successions held as one bed table, one after another, each base to top.
+
+    ``starts[k]:starts[k + 1]`` are the rows of succession ``k`` of core
+    ``cores[k]``, segment ``segments[k]``; a :class:`Succession` is made only
+    when one is asked for, so a database of many successions is decoded a part
+    (:meth:`part`) at a time from whole columns.
+    """
+
+    beds: pd.DataFrame
+    starts: np.ndarray
+    cores: np.ndarray
+    segments: np.ndarray
+    units: str = "m"
+
+    @classmethod
+    def from_successions(cls, successions: Iterable[Succession]) -> SuccessionTable:
+        """The non-empty successions given, grouped by core (cores in order of first
+        appearance, segments from the top of each core)."""
+        found = [s for s in successions if len(s)]
+        core_ids, _ = pd.factorize(pd.Index([s.core for s in found], dtype=object))
+        found = [found[k] for k in np.lexsort(([s.segment for s in found], core_ids))]
+        lengths = np.array([len(s) for s in found], dtype=np.int64)
+        beds = pd.concat([s.beds for s in found], ignore_index=True) if found else pd.DataFrame()
+        return cls(
+            beds,
+            np.r_[0, np.cumsum(lengths)].astype(np.int64),
+            np.array([s.core for s in found], dtype=object),
+            np.array([s.segment for s in found], dtype=np.int64),
+            found[0].units if found else "m",
+        )
+
+    @property
+    def lengths(self) -> np.ndarray:
+        """Beds of every succession."""
+        return np.diff(self.starts)
+
+    def __len__(self) -> int:
+        return len(self.cores)
+
+    def __getitem__(self, k):  # Sequence protocol: one Succession
+        if isinstance(k, slice):
+            return [self[i] for i in range(*k.indices(len(self)))]
+        beds = self.beds.iloc[self.starts[k] : self.starts[k + 1]].reset_index(drop=True)
+        return Succession(str(self.cores[k]), int(self.segments[k]), beds, self.units)
+
+    def part(self, first: int, stop: int) -> SuccessionTable:
+        """Successions ``first:stop`` (their rows are one slice of the table)."""
+        a, b = self.starts[first], self.starts[stop]
+        beds = self.beds.iloc[a:b].reset_index(drop=True)
+        cores, segments = self.cores[first:stop], self.segments[first:stop]
+        return SuccessionTable(beds, self.starts[first : stop + 1] - a, cores, segments, self.units)
 
 
 def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -> dict:
@@ -664,6 +727,24 @@ class CoreSet:
             part.index = pd.RangeIndex(b - a)
             out.append(Succession(cores[k], segments[k], part, self.units))
         return out
+
+    def succession_table(
+        self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
+    ) -> SuccessionTable:
+        """Every core's non-empty successions as one :class:`SuccessionTable`, cores in
+        order (the rows of :meth:`succession_beds` where there is one table)."""
+        found = self.succession_beds(tolerance) if unit == "beds" else None
+        if found is None:
+            return SuccessionTable.from_successions(self.successions(unit, step, tolerance))
+        beds, starts, cores, segments = found
+        keep = np.flatnonzero(np.diff(starts) > 0)
+        return SuccessionTable(
+            beds.reset_index(drop=True),
+            np.r_[starts[keep], starts[-1]].astype(np.int64),
+            np.array(cores, dtype=object)[keep],
+            np.array(segments, dtype=np.int64)[keep],
+            self.units,
+        )
 
     def succession_beds(
         self, tolerance: float = DEPTH_TOL, attributes: bool = True

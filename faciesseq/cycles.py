@@ -34,6 +34,7 @@ CONTEXT_FEATURES = (
     "position",
     "cycle_sharpness",
     "local_position",
+    "cycle_amplitude",
 )
 
 #: Words of a contact type that mark it as sharp (abrupt or erosional; common
@@ -223,7 +224,9 @@ def bed_context(
       places a boundary inside a cycle);
     - ``cycle_sharpness``: the fraction of sharp or erosional contacts among the
       beds of the cycle (``sharp``: 1/0/NaN per bed, :func:`sharp_contacts`;
-      forced-regressive cycles are sharp-based and skip facies).
+      forced-regressive cycles are sharp-based and skip facies);
+    - ``cycle_amplitude``: the cycle's deepest rank minus its shallowest (how far
+      it shallows: a full parasequence against a thin, shallow one).
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     r = _fill_unknown(ranks, lengths)
@@ -256,6 +259,7 @@ def bed_context(
         "local_position": local_position,
         "cycle_stacking": stacking[c] if len(c) else np.zeros(0),
         "base_shift": shift[c] if len(c) else np.zeros(0),
+        "cycle_amplitude": (base - top)[c] if len(c) else np.zeros(0),
         "trend": _slope(r, lengths, trend_half_width),
         "position": position,
     }

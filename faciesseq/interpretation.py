@@ -10,13 +10,14 @@ These are plain results objects: the model fills them, ``report`` formats them.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from dataclasses import dataclass, field
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field, replace
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["CoreInterpretation", "Interpretation", "core_summary"]
+__all__ = ["PICK_COLUMNS", "CoreInterpretation", "Interpretation", "core_summary"]
 
 
 @dataclass(frozen=True)
@@ -167,17 +168,113 @@ def core_summary(
     return out
 
 
+#: Columns of a picks table, after ``core`` (``CoreInterpretation.picks``).
+PICK_COLUMNS = (
+    "surface",
+    "name",
+    "depth",
+    "probability",
+    "p_contact",
+    "depth_top",
+    "depth_base",
+    "segment",
+)
+
+
 @dataclass(frozen=True)
 class Interpretation:
-    """Interpretations of several cores, and the tables ``decode`` writes."""
+    """Interpretations of several cores held as whole-database tables, and the tables
+    ``decode`` writes.
 
-    cores: Mapping[str, CoreInterpretation]
+    ``beds``, ``boundaries`` and ``picks`` have the columns of
+    :class:`CoreInterpretation`'s tables with ``core`` first, the cores one after
+    another in the order of ``wells`` (index: core; columns ``units``,
+    ``log_likelihood`` and the number of ``beds``, ``boundaries`` and ``picks`` of
+    each). Iterating, or ``interp[core]``, gives one :class:`CoreInterpretation`,
+    made from slices of the tables when asked for.
+    """
+
     tracts: tuple[str, ...]
     surfaces: tuple[str, ...]
+    beds: pd.DataFrame
+    boundaries: pd.DataFrame
+    picks: pd.DataFrame
+    wells: pd.DataFrame
     meta: Mapping[str, object] = field(default_factory=dict)
 
+    @classmethod
+    def from_cores(
+        cls,
+        cores: Mapping[str, CoreInterpretation],
+        tracts: tuple[str, ...],
+        surfaces: tuple[str, ...],
+        meta: Mapping[str, object] | None = None,
+    ) -> Interpretation:
+        """One interpretation from the interpretations of single cores."""
+        parts = list(cores.values())
+        tables = {}
+        for name, empty in _empty_tables(tracts, surfaces).items():
+            frames = [getattr(c, name).assign(core=c.core) for c in parts]
+            frames = [f for f in frames if len(f)]
+            tables[name] = _core_first(pd.concat(frames, ignore_index=True)) if frames else empty
+        wells = pd.DataFrame(
+            {
+                "units": [c.units for c in parts],
+                "log_likelihood": [float(c.log_likelihood) for c in parts],
+                "beds": [len(c.beds) for c in parts],
+                "boundaries": [len(c.boundaries) for c in parts],
+                "picks": [len(c.picks) for c in parts],
+            },
+            index=pd.Index([c.core for c in parts], dtype=object, name="core"),
+        )
+        return cls(tuple(tracts), tuple(surfaces), wells=wells, meta=dict(meta or {}), **tables)
+
+    @classmethod
+    def concat(cls, parts: list[Interpretation]) -> Interpretation:
+        """The parts (of other cores each, as a streamed decode yields them) as one."""
+        first = parts[0]
+        tables = {
+            name: pd.concat([getattr(p, name) for p in parts], ignore_index=True)
+            for name in ("beds", "boundaries", "picks")
+        }
+        wells = pd.concat([p.wells for p in parts])
+        return cls(first.tracts, first.surfaces, wells=wells, meta=first.meta, **tables)
+
+    @cached_property
+    def _starts(self) -> dict[str, np.ndarray]:
+        """First row of each core in each table, then the number of rows."""
+        return {
+            name: np.r_[0, np.cumsum(self.wells[name].to_numpy(np.int64))]
+            for name in ("beds", "boundaries", "picks")
+        }
+
     def __getitem__(self, core: str) -> CoreInterpretation:
-        return self.cores[core]
+        k = self.wells.index.get_loc(core)
+        spans = {}
+        for name, starts in self._starts.items():
+            table = getattr(self, name).iloc[starts[k] : starts[k + 1]]
+            spans[name] = table.drop(columns="core").reset_index(drop=True)
+        well = self.wells.iloc[k]
+        return CoreInterpretation(
+            core,
+            str(well["units"]),
+            self.tracts,
+            self.surfaces,
+            log_likelihood=float(well["log_likelihood"]),
+            **spans,
+        )
+
+    def head(self, n: int) -> Interpretation:
+        """The first ``n`` cores (copied: they keep no reference to the whole tables)."""
+        n = max(0, min(n, len(self)))
+        ends = {name: int(starts[n]) for name, starts in self._starts.items()}
+        tables = {name: getattr(self, name).iloc[:end].copy() for name, end in ends.items()}
+        return replace(self, wells=self.wells.iloc[:n], **tables)
+
+    @property
+    def cores(self) -> Mapping[str, CoreInterpretation]:
+        """Core name -> :class:`CoreInterpretation`, each made when asked for."""
+        return _CoreViews(self)
 
     @property
     def probabilities_checked(self) -> bool:
@@ -194,17 +291,16 @@ class Interpretation:
         )
         return " ".join(str(note).split())  # one line, whatever the model file held
 
-    def __iter__(self):
-        return iter(self.cores.values())
+    def __iter__(self) -> Iterator[CoreInterpretation]:
+        return (self[core] for core in self.wells.index)
 
     def __len__(self) -> int:
-        return len(self.cores)
+        return len(self.wells)
 
     def tracts_table(self) -> pd.DataFrame:
         """``core, top, base, facies, tract, p_<TRACT>...``, depth order within cores."""
         columns = ["core", "top", "base", "facies", "tract", *[f"p_{t}" for t in self.tracts]]
-        frames = [c.beds.assign(core=c.core)[columns] for c in self if len(c.beds)]
-        return pd.concat(frames, ignore_index=True) if frames else pd.DataFrame(columns=columns)
+        return self.beds[columns].reset_index(drop=True)
 
     def surfaces_table(self) -> pd.DataFrame:
         """``core, depth, surface, probability, picked``: every contact and surface.
@@ -213,39 +309,59 @@ class Interpretation:
         surface was picked at that contact.
         """
         columns = ["core", "depth", "surface", "probability", "picked"]
-        cores = [c for c in self if len(c.boundaries)]
-        if not cores:
+        if not len(self.boundaries):
             return pd.DataFrame(columns=columns)
-        parts: dict[str, list[np.ndarray]] = {c: [] for c in columns[:4]}
-        for c in cores:
-            n, codes = len(c.boundaries), np.array(c.surfaces, dtype=object)
-            parts["core"].append(np.full(n * len(codes), c.core, dtype=object))
-            parts["depth"].append(np.repeat(c.boundaries["depth"].to_numpy(float), len(codes)))
-            parts["surface"].append(np.tile(codes, n))
-            p = c.boundaries[[f"p_{s}" for s in c.surfaces]].to_numpy(float)
-            parts["probability"].append(p.reshape(-1))
-        table = pd.DataFrame({k: np.concatenate(v) for k, v in parts.items()})
-        picks = self.picks_table()
+        b, codes = self.boundaries, np.array(self.surfaces, dtype=object)
+        k = len(codes)
+        table = pd.DataFrame(
+            {
+                "core": np.repeat(b["core"].to_numpy(object), k),
+                "depth": np.repeat(b["depth"].to_numpy(float), k),
+                "surface": np.tile(codes, len(b)),
+                "probability": b[[f"p_{s}" for s in self.surfaces]].to_numpy(float).reshape(-1),
+            }
+        )
+        p = self.picks
         key = [table["core"], table["surface"], table["depth"].round(9)]
-        picked = [picks["core"], picks["surface"], picks["depth"].astype(float).round(9)]
+        picked = [p["core"], p["surface"], p["depth"].astype(float).round(9)]
         table["picked"] = pd.MultiIndex.from_arrays(key).isin(pd.MultiIndex.from_arrays(picked))
         return table
 
     def picks_table(self) -> pd.DataFrame:
         """All picks, with a ``core`` column first."""
-        frames = [c.picks.assign(core=c.core) for c in self if len(c.picks)]
-        if not frames:
-            return pd.DataFrame(
-                columns=[
-                    "core",
-                    "surface",
-                    "name",
-                    "depth",
-                    "probability",
-                    "depth_top",
-                    "depth_base",
-                    "segment",
-                ]
-            )
-        out = pd.concat(frames, ignore_index=True)
-        return out[["core", *[c for c in out.columns if c != "core"]]]
+        return self.picks.reset_index(drop=True)
+
+
+def _core_first(table: pd.DataFrame) -> pd.DataFrame:
+    return table[["core", *[c for c in table.columns if c != "core"]]]
+
+
+def _empty_tables(tracts, surfaces) -> dict[str, pd.DataFrame]:
+    """The three tables of an interpretation of no core, with their columns."""
+    first = ["core", "segment", "top", "base", "thickness", "facies", "tract"]
+    return {
+        "beds": pd.DataFrame(columns=[*first, *[f"p_{t}" for t in tracts]]),
+        "boundaries": pd.DataFrame(
+            columns=["core", "segment", "depth", "lower_tract", "upper_tract"]
+            + [f"p_{s}" for s in surfaces]
+        ),
+        "picks": pd.DataFrame(columns=["core", *PICK_COLUMNS]),
+    }
+
+
+class _CoreViews(Mapping):
+    """The cores of an :class:`Interpretation` by name, each made when asked for."""
+
+    def __init__(self, interp: Interpretation):
+        self._interp = interp
+
+    def __getitem__(self, core: str) -> CoreInterpretation:
+        if core not in self._interp.wells.index:
+            raise KeyError(core)
+        return self._interp[core]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._interp.wells.index)
+
+    def __len__(self) -> int:
+        return len(self._interp)

@@ -229,7 +229,12 @@ class FaciesScheme:
             colour = entry.get("colour")
             if colour is not None:
                 colour = str(colour)
-                if not (colour.startswith("#") and len(colour) in (4, 7)):
+                digits = set(colour[1:].lower())  # '#zzzzzz' would break every figure
+                if not (
+                    colour.startswith("#")
+                    and len(colour) in (4, 7)
+                    and digits <= set("0123456789abcdef")
+                ):
                     raise ConfigError(
                         f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
                         file=source,

@@ -12,7 +12,6 @@ Depths here are in the core's units; contacts are listed in the order given.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,12 +20,12 @@ import pandas as pd
 from faciesseq.scheme import TractModel
 
 __all__ = [
-    "PICK_COLUMNS",
     "SurfacePicks",
     "boundary_probabilities",
-    "pick_rows",
     "pick_surfaces",
+    "pick_table",
     "picks_frame",
+    "slice_sums",
     "surface_codes",
     "surface_curves",
     "surface_names",
@@ -240,30 +239,17 @@ def surface_curves(interpretation, step: float) -> pd.DataFrame:
     return out[["core", *[c for c in out.columns if c != "core"]]]
 
 
-#: Columns of a picks table (``CoreInterpretation.picks``).
-PICK_COLUMNS = [
-    "surface",
-    "name",
-    "depth",
-    "probability",
-    "p_contact",
-    "depth_top",
-    "depth_base",
-    "segment",
-]
-
-
-def pick_rows(
+def pick_table(
     depth: np.ndarray,
     lower: np.ndarray,
     upper: np.ndarray,
-    surf: Mapping[str, np.ndarray],
+    surf: np.ndarray,
+    first: np.ndarray,
     tract_model: TractModel,
-    segment: int,
     mass: float = 0.9,
     floor: float = 0.02,
-) -> list[dict]:
-    """Surfaces picked where the decoded tract column changes (``CoreInterpretation.picks``).
+) -> dict[str, np.ndarray]:
+    """Surfaces picked where the decoded tract column changes, for many successions at once.
 
     Every change of tract between two beds is a pick of the surface the tract
     model puts on that boundary, so the picks form a sequence the tract graph
@@ -276,54 +262,113 @@ def pick_rows(
     highest-density interval along the core). ``p_contact`` is the
     probability at the pick contact alone.
 
-    One segment's contacts in depth order: ``depth``, the ``lower`` and
-    ``upper`` decoded tract, and ``surf``, the probability of each surface code
-    at every contact. Returns one dict per pick, with the keys of
-    :data:`PICK_COLUMNS`.
+    Parameters
+    ----------
+    depth, lower, upper
+        The contacts, in depth order within each succession: their depth and
+        the tract index (in ``tract_model.order``) decoded below and above.
+    surf
+        ``(n_contacts, n_surfaces)``: probability of each surface (order of
+        :func:`surface_codes`) at every contact.
+    first
+        True at the first contact of each succession.
+
+    Returns
+    -------
+    dict of arrays, one entry per pick in contact order: ``contact`` (row),
+    ``surface`` (column of ``surf``), ``probability``, ``p_contact``,
+    ``depth``, ``depth_top`` and ``depth_base``.
     """
-    rows = []
-    for i in np.flatnonzero(lower != upper):
-        surface = tract_model.surface(lower[i], upper[i])
-        if surface is None or surface.code not in surf:
-            continue
-        p = surf[surface.code]
-        lo, hi = _around(p, int(i), floor)
-        lo, hi = _narrowest(p, int(i), lo, hi, mass)
-        rows.append(
-            {
-                "surface": surface.code,
-                "name": surface.name,
-                "depth": float(depth[i]),
-                "probability": float(min(1.0, p[lo : hi + 1].sum())),
-                "p_contact": float(p[i]),
-                "depth_top": float(min(depth[lo], depth[hi])),
-                "depth_base": float(max(depth[lo], depth[hi])),
-                "segment": int(segment),
-            }
-        )
-    return rows
+    at = np.flatnonzero(lower != upper)
+    surface = _surface_of_pairs(tract_model)[lower[at], upper[at]]
+    at, surface = at[surface >= 0], surface[surface >= 0]
+    codes = surface_codes(tract_model)
+    code = np.array([codes.index(s.code) for s in tract_model.surfaces], dtype=np.int64)[surface]
+    names = np.array([s.name for s in tract_model.surfaces], dtype=object)[surface]
+    n = len(surf)
+    column = np.ascontiguousarray(surf.T).reshape(-1)  # each surface's contacts in a row
+    lo, hi = _falling_runs(surf, first, floor)
+    offset = code * n
+    a, b = _narrowest(column, offset + at, offset + lo[at, code], offset + hi[at, code], mass)
+    ends = np.stack([depth[a - offset], depth[b - offset]])
+    return {
+        "contact": at,
+        "surface": code,
+        "name": names,
+        "probability": np.minimum(1.0, slice_sums(column, a, b - a + 1)),
+        "p_contact": surf[at, code],
+        "depth": depth[at],
+        "depth_top": ends.min(axis=0),
+        "depth_base": ends.max(axis=0),
+    }
 
 
-def _around(p: np.ndarray, i: int, floor: float) -> tuple[int, int]:
-    """The run of contacts around ``i`` that falls away from it down to ``floor``."""
-    lo = i
-    while lo > 0 and floor <= p[lo - 1] <= p[lo]:
-        lo -= 1
-    hi = i
-    while hi + 1 < len(p) and floor <= p[hi + 1] <= p[hi]:
-        hi += 1
+def _surface_of_pairs(tract_model: TractModel) -> np.ndarray:
+    """``(n_tracts, n_tracts)``: the surface (index in ``tract_model.surfaces``) of each
+    (lower, upper) pair of tracts, -1 where the pair is no surface."""
+    tracts = list(tract_model.order)
+    out = np.full((len(tracts), len(tracts)), -1, dtype=np.int64)
+    for k, surface in reversed(list(enumerate(tract_model.surfaces))):  # the first one given
+        out[tracts.index(surface.lower), tracts.index(surface.upper)] = k
+    return out
+
+
+def _falling_runs(p: np.ndarray, first: np.ndarray, floor: float) -> tuple[np.ndarray, np.ndarray]:
+    """``(lo, hi)``, each ``(n_contacts, n_surfaces)``: the run of contacts around each
+    contact that falls away from it down to ``floor``, within its succession."""
+    n = len(p)
+    rows = np.arange(n)[:, None]
+    last = np.r_[first[1:], True] if n else first
+    above = np.vstack([p[:1], p[:-1]])  # the contact before, in depth order
+    below = np.vstack([p[1:], p[-1:]])
+    left = ~first[:, None] & (floor <= above) & (above <= p)
+    right = ~last[:, None] & (floor <= below) & (below <= p)
+    lo = np.maximum.accumulate(np.where(left, 0, rows), axis=0)
+    hi = np.minimum.accumulate(np.where(right, n, rows)[::-1], axis=0)[::-1]
     return lo, hi
 
 
-def _narrowest(p: np.ndarray, i: int, lo: int, hi: int, mass: float) -> tuple[int, int]:
-    """Grow from ``i`` towards the more probable neighbour until ``mass`` of ``lo..hi``."""
-    target = mass * p[lo : hi + 1].sum()
-    a = b = i
-    while p[a : b + 1].sum() < target and (a > lo or b < hi):
-        left = p[a - 1] if a > lo else -1.0
-        right = p[b + 1] if b < hi else -1.0
-        if left >= right:
-            a -= 1
-        else:
-            b += 1
-    return a, b
+def _narrowest(
+    p: np.ndarray, at: np.ndarray, lo: np.ndarray, hi: np.ndarray, mass: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Grow each run from ``at`` towards the more probable neighbour, within ``lo..hi``,
+    until it holds ``mass`` of ``lo..hi``; all runs one step at a time."""
+    target = mass * slice_sums(p, lo, hi - lo + 1)
+    a, b = at.copy(), at.copy()
+    while True:
+        grow = (slice_sums(p, a, b - a + 1) < target) & ((a > lo) | (b < hi))
+        if not grow.any():
+            return a, b
+        left = np.where(a > lo, p[np.maximum(a - 1, 0)], -1.0)
+        right = np.where(b < hi, p[np.minimum(b + 1, len(p) - 1)], -1.0)
+        a = a - (grow & (left >= right))
+        b = b + (grow & (left < right))
+
+
+def slice_sums(values: np.ndarray, start: np.ndarray, length: np.ndarray) -> np.ndarray:
+    """``values[start[k] : start[k] + length[k]].sum()`` for every k, to the last bit.
+
+    numpy sums a contiguous run of fewer than 8 numbers one by one, and up to
+    128 numbers in 8 running sums joined pairwise; this repeats those steps for
+    all runs at once (longer runs are summed by numpy itself).
+    """
+    start, length = np.asarray(start, dtype=np.int64), np.asarray(length, dtype=np.int64)
+    out = np.zeros(len(start))
+    last = len(values) - 1
+    pick = lambda k, use: np.where(use, values[np.minimum(start + k, last)], 0.0)  # noqa: E731
+    short, mid = length < 8, (length >= 8) & (length <= 128)
+    for k in range(7):
+        out += pick(k, short & (k < length))
+    whole = length - length % 8
+    lanes = [pick(j, mid) for j in range(8)]
+    for i in range(8, int(whole[mid].max(initial=0)), 8):
+        lanes = [r + pick(i + j, mid & (i < whole)) for j, r in enumerate(lanes)]
+    joined = ((lanes[0] + lanes[1]) + (lanes[2] + lanes[3])) + (
+        (lanes[4] + lanes[5]) + (lanes[6] + lanes[7])
+    )
+    for k in range(7):
+        joined += pick(whole + k, mid & (k < length - whole))
+    out = np.where(short, out, joined)
+    for k in np.flatnonzero(length > 128):
+        out[k] = values[start[k] : start[k] + length[k]].sum()
+    return out

@@ -89,7 +89,7 @@ def synthetic_core(
 def synthetic_interpretation(model: TractModel, names=("W-1", "W-2")) -> Interpretation:
     cores = {n: synthetic_core(model, n, seed=k) for k, n in enumerate(names)}
     first = next(iter(cores.values()))
-    return Interpretation(cores, first.tracts, first.surfaces)
+    return Interpretation.from_cores(cores, first.tracts, first.surfaces)
 
 
 def synthetic_coreset(interpretation: Interpretation, units: str = "m"):

@@ -238,7 +238,7 @@ def test_tops_are_also_written_as_parquet_and_csv_with_format_parquet(database, 
 def test_tops_table_of_no_picks_has_the_columns():
     from faciesseq.interpretation import Interpretation
 
-    empty = Interpretation({}, TRACTS, ("MFS",))
+    empty = Interpretation.from_cores({}, TRACTS, ("MFS",))
     assert list(tops_table(empty).columns) == list(TOPS_COLUMNS)
 
 
@@ -298,7 +298,7 @@ def test_samples_join_boundaries_gaps_and_unknown_cores():
     )
     empty = pd.DataFrame()
     core = CoreInterpretation("W", "m", ("HST", "TST", "LST"), (), beds, empty, empty, 0.0)
-    interp = Interpretation({"W": core}, ("HST", "TST", "LST"), ())
+    interp = Interpretation.from_cores({"W": core}, ("HST", "TST", "LST"), ())
     depth = [0.0, 0.99, 1.0, 2.0, 2.5, 3.0, 4.0, 4.5, -0.1, 1.5, np.nan]
     samples = pd.DataFrame({"d": depth, CORE_KEY: ["W"] * 9 + ["X", "W"], DEPTH_KEY: depth})
     out = samples_table(interp, samples)
@@ -324,4 +324,4 @@ def test_default_las_step_of_no_beds_is_refused():
     from faciesseq.interpretation import Interpretation
 
     with pytest.raises(ConfigError):
-        default_las_step(Interpretation({}, TRACTS, ()))
+        default_las_step(Interpretation.from_cores({}, TRACTS, ()))

@@ -97,7 +97,7 @@ def test_decode_puts_the_flag_and_the_note_in_the_interpretation_meta(database, 
         assert interp.meta["probabilities_note"] == interp.probabilities_note == note
         assert "\n" not in note
         assert (UNCHECKED in note) is (not expected)
-    bare = Interpretation({}, ("HST",), ("MFS",))  # built without a model: not checked
+    bare = Interpretation.from_cores({}, ("HST",), ("MFS",))  # built without a model: not checked
     assert not bare.probabilities_checked and "not checked" in bare.probabilities_note
 
 

@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from faciesseq.errors import ConfigError, InputError
+from faciesseq.hmm import engine
 from faciesseq.hmm.engine import (
     Posteriors,
     constrained_log_emission,
@@ -534,3 +535,75 @@ def test_bad_codes_are_reported():
         viterbi(table, [2], pi, A, codes=[0.0, 1.0])
     with pytest.raises(InputError, match="lengths sum to 3"):
         forward_backward(table, [3], pi, A, codes=[0, 1])
+
+
+# --------------------------------------------------------------------------
+# Viterbi on sparse tract graphs, and the work split into chunks
+
+
+def _tract_graph(rng, n_states):
+    """A transition matrix shaped like a tract graph: each state stays, moves to
+    the next state, or jumps four ahead (three predecessors per state)."""
+    allowed = np.zeros((n_states, n_states), dtype=bool)
+    for i in range(n_states):
+        allowed[i, [i, (i + 1) % n_states, (i + 4) % n_states]] = True
+    transmat = np.where(allowed, rng.dirichlet(np.ones(n_states), size=n_states) + 0.05, 0.0)
+    return transmat / transmat.sum(axis=1, keepdims=True)
+
+
+@pytest.mark.parametrize("batch_size", [None, 37])
+def test_viterbi_on_a_sparse_graph_matches_hmmlearn(case, batch_size):
+    # hmmlearn 0.3.3 CategoricalHMM decode: the engine then takes only the
+    # allowed predecessors of each state (3 of 12 here).
+    rng = np.random.default_rng(12)
+    _, _, _, lengths, _, _ = case
+    K, n_symbols = 12, 7
+    startprob = rng.dirichlet(np.ones(K))
+    transmat = _tract_graph(rng, K)
+    emission = rng.dirichlet(np.ones(n_symbols), size=K)
+    symbols = rng.integers(0, n_symbols, size=lengths.sum())
+    model = _hmmlearn(startprob, transmat, emission, "scaling")
+    total_ref, path_ref = model.decode(symbols[:, None], lengths, algorithm="viterbi")
+    table = np.log(emission).T
+    for kwargs in ({}, {"codes": symbols}):
+        le = table if kwargs else table[symbols]
+        path, log_prob = viterbi(le, lengths, startprob, transmat, batch_size=batch_size, **kwargs)
+        np.testing.assert_array_equal(path, path_ref)
+        assert abs(log_prob.sum() - total_ref) < 1e-8
+
+
+@pytest.mark.parametrize("sparse", [False, True])
+def test_max_plus_step_is_exact(sparse, monkeypatch):
+    # One step of the recursion against its definition, max_i (delta_i + log A_ik),
+    # bit for bit: with -inf in delta (dead states), a state no other state
+    # reaches (sparse graph) and work split into chunks of 3 sequences.
+    rng = np.random.default_rng(8)
+    K, n = 9, 20
+    transmat = _tract_graph(rng, K) if sparse else rng.dirichlet(np.ones(K), size=K)
+    transmat[:, 4] = 0.0
+    transmat[4, 4] = 1.0  # state 4: only itself leads to it
+    with np.errstate(divide="ignore"):
+        log_A = np.log(transmat)
+    delta = rng.normal(scale=5.0, size=(K, n))
+    delta[rng.random((K, n)) < 0.2] = -np.inf
+    delta[:, 0] = -np.inf
+    expected = (delta[:, None, :] + log_A[:, :, None]).max(axis=0)
+    cells_per_sequence = (3 if sparse else K) * K
+    for width in (n, 3):
+        monkeypatch.setattr(engine, "_STEP_CELLS", width * cells_per_sequence)
+        step = engine._MaxPlus(log_A, n)
+        assert (step.sparse, step.width) == (sparse, width)
+        out = np.empty((K, n))
+        step(delta, out)
+        np.testing.assert_array_equal(out, expected)
+
+
+def test_viterbi_with_steps_in_chunks(case, monkeypatch):
+    # Each step's work split into chunks of sequences (as with very many
+    # sequences per batch) gives the same numbers as one chunk.
+    startprob, transmat, _, lengths, _, le = case
+    path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
+    monkeypatch.setattr(engine, "_STEP_CELLS", 3 * 5 * 5)  # 3 sequences per chunk
+    path, lp = viterbi(le, lengths, startprob, transmat)
+    np.testing.assert_array_equal(path, path_ref)
+    np.testing.assert_array_equal(lp, lp_ref)

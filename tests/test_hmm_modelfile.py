@@ -89,3 +89,26 @@ def test_not_json_and_missing_files(tmp_path):
         load_model(path)
     with pytest.raises(ModelFileError, match="not found"):
         load_model(tmp_path / "absent.json")
+
+
+def test_the_data_digest_ignores_the_source_format_and_sees_one_changed_depth(tmp_path):
+    """The training data's digest (provenance ``data_hash``) is the same read from CSV
+    and from Parquet, and changes when one interval's base moves by a centimetre."""
+    from faciesseq.hmm.modelfile import coreset_digest
+    from faciesseq.io import read_cores
+
+    frame = pd.DataFrame(
+        {
+            "core": ["A", "A", "B"],
+            "top": [0.0, 1.5, 10.0],
+            "base": [1.5, 3.0, 12.0],
+            "facies": ["SH", "SS", "SH"],
+        }
+    )
+    frame.to_csv(tmp_path / "a.csv", index=False)
+    frame.to_parquet(tmp_path / "a.parquet")
+    moved = frame.assign(base=[1.5, 3.01, 12.0], top=[0.0, 1.5, 10.0])
+    moved.to_csv(tmp_path / "b.csv", index=False)
+    digests = [coreset_digest(read_cores(tmp_path / n)) for n in ("a.csv", "a.parquet")]
+    assert digests[0] == digests[1]
+    assert coreset_digest(read_cores(tmp_path / "b.csv")) != digests[0]

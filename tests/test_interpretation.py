@@ -41,7 +41,7 @@ def _interp():
         }
     )
     core = CoreInterpretation("W1", "m", ("TST", "HST"), ("MFS",), beds, boundaries, picks, -3.2)
-    return Interpretation({"W1": core}, ("TST", "HST"), ("MFS",))
+    return Interpretation.from_cores({"W1": core}, ("TST", "HST"), ("MFS",))
 
 
 def test_tables_have_the_documented_columns():

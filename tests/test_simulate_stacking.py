@@ -149,17 +149,26 @@ def test_tst_tops_deepen_upward_and_hst_tops_shallow_upward():
     assert hst.mean() < -0.6 and (hst < 0).mean() > 0.9
 
 
-def test_parasequence_bases_lie_on_flooding_surfaces():
-    """Each planned parasequence base is deeper than the planned top below it."""
+def test_parasequence_bases_lie_on_flooding_surfaces_but_the_fsst_shifts_down():
+    """Each planned parasequence base is deeper than the planned top below it (a
+    flooding surface; Van Wagoner et al. 1990), except at the base of the FSST,
+    where forced regression puts shallower facies on the highstand with facies
+    missing: a downward shift (Plint & Nummedal 2000, Geol. Soc. London Spec.
+    Publ. 172:1-17)."""
     result = simulate_stacking(_scenario(cores=20), seed=7)
     rank = result.scenario.scheme.rank
+    shifts = []
     for _, part in result.parasequences.groupby("core", sort=False):
         up = part.iloc[::-1]
         base = up["base_facies"].map(rank).to_numpy()
         top = up["top_facies"].map(rank).to_numpy()
-        assert (base[1:] > top[:-1]).all()
+        fall = ((up["tract"] == "FSST") & (up["position"] == 1)).to_numpy()[1:]
+        assert (base[1:][~fall] > top[:-1][~fall]).all()
+        shifts += list(top[:-1][fall] - base[1:][fall])
         assert (base >= top).all()
         np.testing.assert_allclose(part["top"].to_numpy()[1:], part["base"].to_numpy()[:-1])
+    shifts = np.array(shifts)
+    assert len(shifts) > 10 and (shifts >= 1).all() and np.mean(shifts >= 2) > 0.8
 
 
 def test_equal_beds_give_no_thickness_cue_and_default_beds_do():

@@ -116,6 +116,29 @@ def test_unlabelled_fit_reads_the_context_with_a_strict_graph(fitted):
     assert chosen["selected"] and chosen["skips"] == list(model.tract_model_.skips)
 
 
+def test_a_large_database_chooses_its_graph_on_a_sample_of_whole_cores(monkeypatch):
+    """Above ``SAMPLE_BEDS`` the candidates are fitted on whole successions drawn with
+    the seed, and only the chosen graph on every bed; below it, nothing changes."""
+    from faciesseq.hmm import graphs
+
+    cores, _ = _cores([43])
+    n_beds = sum(len(s) for s in cores.successions("beds"))
+    args = {"scheme": SCHEME, "random_state": 3, "n_restarts": 1, "calibration_folds": 0}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        whole = TractHMM(**args).fit(cores)
+        monkeypatch.setattr(graphs, "SAMPLE_BEDS", n_beds // 3)
+        sampled = TractHMM(**args).fit(cores)
+        again = TractHMM(**args).fit(cores)
+    assert {r["n_beds"] for r in whole.graph_selection_} == {n_beds}
+    n_sample = {r["n_beds"] for r in sampled.graph_selection_}
+    assert len(n_sample) == 1 and n_beds // 3 <= n_sample.pop() < n_beds
+    assert sampled.n_train_beds_ == n_beds  # the chosen graph saw every bed
+    chosen = next(r for r in sampled.graph_selection_ if r["selected"])
+    assert chosen["skips"] == list(sampled.tract_model_.skips)
+    np.testing.assert_array_equal(sampled.transmat_, again.transmat_)  # the seed decides
+
+
 def test_decoded_columns_follow_the_graph_and_picks_follow_the_column(fitted):
     model, interp, _, _ = fitted
     tm = model.tract_model_
@@ -190,8 +213,16 @@ def test_tract_names_do_not_depend_on_the_seed_or_the_order_of_the_cores():
             model.calibration_folds = 0
             model.fit(train.subset(names))
             columns.append(_beds(model.decode(test))["tract"].to_numpy())
-    agreement = [np.mean(c == columns[0]) for c in columns[1:]]
-    assert min(agreement) >= 0.9, agreement
+    # the same names: each column agrees with the first far better as it is than
+    # after turning its names round the cycle (a swap of names would reverse
+    # that), and to within the beds where two local optima differ
+    order = ["HST", "FSST", "LST", "TST"]  # the default cyclic order upward
+    for c in columns[1:]:
+        turned = [
+            np.mean(np.array([order[(order.index(t) + k) % 4] for t in c]) == columns[0])
+            for k in range(4)
+        ]
+        assert turned[0] >= 0.85 and turned[0] > max(turned[1:]) + 0.4, turned
 
 
 def test_turning_the_names_round_the_cycle_moves_the_deepening_state(fitted):

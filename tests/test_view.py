@@ -29,7 +29,7 @@ def _interpretation(names=("W-1", "W-2"), meta=None) -> Interpretation:
     model = default_tract_model()
     cores = {n: synthetic_core(model, n, seed=k, grain=k == 1) for k, n in enumerate(names)}
     first = next(iter(cores.values()))
-    return Interpretation(cores, first.tracts, first.surfaces, meta or {})
+    return Interpretation.from_cores(cores, first.tracts, first.surfaces, meta or {})
 
 
 def _page(names=("W-1", "W-2"), meta=None, title=None) -> tuple[Interpretation, str]:
@@ -148,8 +148,10 @@ def test_script_json_cannot_end_its_element_or_break_a_line():
 
 
 def test_not_finite_numbers_become_null():
-    interp = _interpretation()
-    interp["W-1"].beds.loc[3, "p_HST"] = np.nan
+    cores = dict(_interpretation().cores)
+    cores["W-1"].beds.loc[3, "p_HST"] = np.nan
+    first = cores["W-1"]
+    interp = Interpretation.from_cores(cores, first.tracts, first.surfaces)
     data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())
     assert data["cores"][0]["beds"]["p"][0][3] is None
     json.dumps(data, allow_nan=False)  # valid JSON for JSON.parse

@@ -157,7 +157,9 @@ def main(argv: Sequence[str] | None = None) -> int:
                 sys.stderr.write(args.settings_line + "\n")
             return code
     except FaciesseqError as exc:
-        sys.stderr.write(f"faciesseq {args.command}: {exc}\n")
+        # one line, whatever the message holds (a parser's trailing newline, a name's)
+        message = " ".join(line.strip() for line in str(exc).splitlines() if line.strip())
+        sys.stderr.write(f"faciesseq {args.command}: {message}\n")
         return exc.exit_code
     except Terminated:
         sys.stderr.write("faciesseq: terminated\n")

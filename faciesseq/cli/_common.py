@@ -84,6 +84,23 @@ def load_scheme_option(path: str | None):
     return load_scheme(require_file(path))
 
 
+def scheme_for_model(path: str | None, model):
+    """The facies scheme of ``--scheme``, which must be the model's own (same codes and
+    ranks; names, colours and aliases may differ), or else the model's scheme."""
+    scheme = load_scheme_option(path)
+    own = model.scheme
+    if scheme is None or own is None:
+        return scheme or own
+    if scheme.ranks() != own.ranks():
+        raise ConfigError(
+            f"facies scheme {scheme.name!r} is not the one the model was fitted with "
+            f"({own.name!r}): their codes or ranks differ; leave out --scheme to use the "
+            "model's own, or refit the model with this scheme",
+            file=str(path),
+        )
+    return scheme
+
+
 def source_file(args: argparse.Namespace):
     """The :class:`~faciesseq.io.source.SourceSpec` of a YAML SOURCE, or ``None``."""
     from pathlib import Path

@@ -122,11 +122,12 @@ def summary_document(interp, scheme, command: str, **extra) -> dict:
     }
 
 
-def print_summary(interp, scheme, more: str, note: bool = True) -> None:
+def print_summary(interp, scheme, more: str, note: bool = True, total: int | None = None) -> None:
     """Print the text summary of the wells and, with ``note``, a line saying that the
-    probabilities were not checked where they were not."""
+    probabilities were not checked where they were not; ``total``: the number of wells
+    where ``interp`` holds only the first of them."""
     wells = _wells(interp, scheme, WELL_LIMIT)
-    for line in summary_lines(wells, more, total=len(interp)):
+    for line in summary_lines(wells, more, total=len(interp) if total is None else total):
         print(line)
     if note and not interp.probabilities_checked:
         print(f"note: {interp.probabilities_note}")

@@ -10,9 +10,9 @@ from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
-    load_scheme_option,
     read_source,
     require_file,
+    scheme_for_model,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.errors import ConfigError
@@ -86,7 +86,7 @@ def _decode(args):
 
     wells = read_wells(require_file(args.wells))
     model = load_model(require_file(args.model))
-    scheme = load_scheme_option(args.scheme) or model.scheme
+    scheme = scheme_for_model(args.scheme, model)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     wells, problems = check_wells(wells, cores.names)

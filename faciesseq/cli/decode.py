@@ -14,10 +14,10 @@ from faciesseq.cli._common import (
     add_source_arguments,
     check_grid_size,
     column_mapping,
-    load_scheme_option,
     read_source,
     regular_cores,
     require_file,
+    scheme_for_model,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
@@ -104,10 +104,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
+    from faciesseq.report.csvtext import csv_text
+
     with path.open("w", encoding="utf-8", newline="") as handle:
         if probabilities is not None:
             handle.write(f"# {probabilities['note']}\n")
-        frame.to_csv(handle, index=False, float_format="%.6g")
+        handle.write(csv_text(frame))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
@@ -138,36 +140,66 @@ def _write_table(frame, path: Path, fmt: str, probabilities: dict | None = None)
     writer(frame, path, probabilities)
 
 
+class _Table:
+    """One output table written a part at a time: CSV rows are appended as they come,
+    JSON and Parquet (one document, one schema) are joined and written at the end."""
+
+    def __init__(self, path: Path, fmt: str, probabilities: dict | None):
+        self.path, self.fmt, self.probabilities = path, fmt, probabilities
+        self.frames: list = []
+        self.started = False
+
+    def add(self, frame) -> None:
+        if self.fmt != "csv":
+            self.frames.append(frame)
+        elif not self.started:
+            _write_csv(frame, self.path, self.probabilities)
+            self.started = True
+        elif len(frame):
+            from faciesseq.report.csvtext import csv_text
+
+            with self.path.open("a", encoding="utf-8", newline="") as handle:
+                handle.write(csv_text(frame, header=False))
+
+    def close(self) -> None:
+        if self.frames:
+            import pandas as pd
+
+            kept = [f for f in self.frames if len(f)] or self.frames[:1]
+            frame = kept[0] if len(kept) == 1 else pd.concat(kept, ignore_index=True)
+            _write_table(frame, self.path, self.fmt, self.probabilities)
+
+
 def probability_record(interp) -> dict:
     """``{"checked": bool, "note": str}`` of an interpretation, as the tables carry it."""
     return {"checked": interp.probabilities_checked, "note": interp.probabilities_note}
 
 
 def _agreement(interp, column: str):
-    """Bed agreement (thickness-weighted too) with an interpreter's column, or None."""
+    """Bed agreement (thickness-weighted too) with an interpreter's column per core, or None."""
     import numpy as np
     import pandas as pd
 
+    beds = interp.beds
+    if column not in beds.columns:
+        return None
+    text = beds[column].astype(str).str.strip()
+    labelled = (beds[column].notna() & (text != "")).to_numpy()
+    if not labelled.any():
+        return None
+    core = beds["core"].to_numpy(object)[labelled]
+    same = text.to_numpy()[labelled] == beds["tract"].to_numpy()[labelled]
+    w = beds["thickness"].to_numpy(float)[labelled]
+    starts = np.flatnonzero(np.r_[True, core[1:] != core[:-1]])
+    ends = np.r_[starts[1:], len(core)]
     rows = []
-    for core in interp:
-        beds = core.beds
-        if column not in beds.columns:
-            continue
-        labelled = beds[column].notna() & (beds[column].astype(str).str.strip() != "")
-        if not labelled.any():
-            continue
-        b = beds[labelled]
-        same = b[column].astype(str).str.strip().to_numpy() == b["tract"].to_numpy()
-        w = b["thickness"].to_numpy(float)
-        rows.append(
-            {
-                "core": core.core,
-                "beds": len(b),
-                "agreement_beds": float(np.mean(same)),
-                "agreement_thickness": float(np.sum(w * same) / np.sum(w)) if w.sum() else np.nan,
-            }
-        )
-    return pd.DataFrame(rows) if rows else None
+    for a, b in zip(starts.tolist(), ends.tolist()):
+        weight = w[a:b]
+        hit = np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan
+        agree = float(np.mean(same[a:b]))
+        rows.append({"core": core[a], "beds": b - a, "agreement_beds": agree})
+        rows[-1]["agreement_thickness"] = float(hit)
+    return pd.DataFrame(rows)
 
 
 def figure_name(core: str, used: Collection[str] = ()) -> str:
@@ -178,54 +210,110 @@ def figure_name(core: str, used: Collection[str] = ()) -> str:
     return safe_stem(core, used)
 
 
-def write_output(
-    interp,
-    out: Path,
-    fmt: str,
-    agreement,
-    plot,
-    scheme,
-    tract_model,
-    samples=None,
-    las_step=None,
-    sheet=None,
-    view: bool = False,
-) -> None:
-    """Write the tables (and figures) into a new folder, then swap it in for ``out``;
-    ``samples`` (:func:`faciesseq.io.samples.read_samples`) adds ``samples.<fmt>``,
-    ``sheet`` (the label column, or ``None``) the review sheet, ``view`` view.html."""
+class _Written:
+    """What the summary needs of the parts written: the first cores (those the text
+    lists), every core's counts, the agreement with the interpreter's column and,
+    where an output needs every core at once, the parts themselves."""
+
+    def __init__(self, labels: str, keep: bool):
+        self.labels, self.keep = labels, keep
+        self.heads, self.wells, self.agreements, self.parts = [], [], [], []
+
+    def add(self, part) -> None:
+        from faciesseq.cli._summary import WELL_LIMIT
+
+        self.heads.append(part.head(WELL_LIMIT - sum(len(h) for h in self.heads)))
+        self.wells.append(part.wells)
+        self.agreements.append(_agreement(part, self.labels))
+        self.parts += [part] if self.keep else []
+
+    def summary(self):
+        """``(head, wells, agreement)``: the first cores as one interpretation, every
+        core's row of ``Interpretation.wells``, the agreement table (or None)."""
+        import pandas as pd
+
+        from faciesseq.interpretation import Interpretation
+
+        found = [a for a in self.agreements if a is not None]
+        agreement = pd.concat(found, ignore_index=True) if found else None
+        return Interpretation.concat(self.heads), pd.concat(self.wells), agreement
+
+
+def write_output(parts, out: Path, fmt: str, labels: str, extra=None) -> _Written:
+    """Write the tables of each decoded part as it comes into a new folder, swapped in
+    for ``out`` once every part is written (nothing is left half-written or replaced
+    on failure). ``extra(interp, folder)``, where given, writes what needs every core
+    at once (then the parts are kept and joined)."""
     from faciesseq._output import new_folder
     from faciesseq.report import exports
 
-    record = probability_record(interp)
-    las, fmt = fmt == "las", "csv" if fmt == "las" else fmt
+    fmt = "csv" if fmt == "las" else fmt
+    written = _Written(labels, keep=extra is not None)
     with new_folder(out) as temp:
-        tops = exports.tops_table(interp)
-        for tops_fmt in dict.fromkeys(("csv", fmt)):  # tops.csv always
-            _write_table(tops, temp / f"tops.{tops_fmt}", tops_fmt, record)
-        if samples is not None:
-            table = exports.samples_table(interp, samples)
-            _write_table(table, temp / f"samples.{fmt}", fmt, record)
-        if las:
-            exports.write_las_files(
-                interp, temp / "las", step=las_step, scheme=scheme, tract_model=tract_model
-            )
-        _write_table(interp.tracts_table(), temp / f"tracts.{fmt}", fmt, record)
-        _write_table(interp.surfaces_table(), temp / f"surfaces.{fmt}", fmt, record)
-        _write_table(interp.picks_table(), temp / f"picks.{fmt}", fmt, record)
+        tables: dict[str, _Table] = {}
+        for part in parts:
+            record = probability_record(part)
+            names = ["tops.csv", *(f"{name}.{fmt}" for name in ("tops", *_TABLES))]
+            for name in names:
+                tables.setdefault(name, _Table(temp / name, name.split(".")[1], record))
+            tops = exports.tops_table(part)
+            for name in dict.fromkeys(names[:2]):
+                tables[name].add(tops)
+            for name, make in _TABLES.items():
+                tables[f"{name}.{fmt}"].add(make(part))
+            written.add(part)
+        for table in tables.values():
+            table.close()
+        agreement = written.summary()[2]
         if agreement is not None:
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
-        if plot:
-            _write_strip_logs(interp, temp / "striplogs", scheme, tract_model)
-        if sheet is not None:  # the review sheet, for `faciesseq relabel`
+        if extra is not None:
+            from faciesseq.interpretation import Interpretation
+
+            extra(Interpretation.concat(written.parts), temp)
+    return written
+
+
+#: The tables written from each decoded part, by name.
+_TABLES = {
+    "tracts": lambda part: part.tracts_table(),
+    "surfaces": lambda part: part.surfaces_table(),
+    "picks": lambda part: part.picks_table(),
+}
+
+
+def _extra_outputs(args, scheme, tract_model, samples):
+    """The writer of the outputs that need every core at once (samples, LAS files,
+    strip logs, the review sheet, the view), or None where none is asked for."""
+    wanted = (samples is not None, args.format == "las", args.plot, args.review_sheet, args.view)
+    if not any(wanted):
+        return None
+
+    def write(interp, folder: Path) -> None:
+        from faciesseq.report import exports
+
+        record = probability_record(interp)
+        fmt = "csv" if args.format == "las" else args.format
+        if samples is not None:
+            table = exports.samples_table(interp, samples)
+            _write_table(table, folder / f"samples.{fmt}", fmt, record)
+        if args.format == "las":
+            exports.write_las_files(
+                interp, folder / "las", step=args.las_step, scheme=scheme, tract_model=tract_model
+            )
+        if args.plot:
+            _write_strip_logs(interp, folder / "striplogs", scheme, tract_model)
+        if args.review_sheet:  # the review sheet, for `faciesseq relabel`
             from faciesseq.review import write_sheet
 
-            write_sheet(interp, temp, sheet)
-        if view:
+            write_sheet(interp, folder, args.labels)
+        if args.view:
             from faciesseq.report.view import view_html
 
             html = view_html(interp, scheme, tract_model)
-            (temp / "view.html").write_text(html, encoding="utf-8")
+            (folder / "view.html").write_text(html, encoding="utf-8")
+
+    return write
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
@@ -245,27 +333,25 @@ def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
         )
 
 
-def _decode(args: argparse.Namespace):
-    """Read the model and the cores, decode them; ``(model, scheme, interpretation,
-    sampled)``, ``sampled`` whether any core was read in the samples layout."""
+def _read(args: argparse.Namespace):
+    """Read the model and the cores; ``(model, scheme, successions, sampled)``,
+    ``sampled`` whether any core was read in the samples layout."""
     from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
     check_target(args.output, force=args.force, folder=True)
     n_jobs, scheduler = parallel_options(args)
     model = load_model(require_file(args.model)).set_params(n_jobs=n_jobs, scheduler=scheduler)
-    scheme = load_scheme_option(args.scheme) or model.scheme
+    scheme = scheme_for_model(args.scheme, model)
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
     cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
     check_grid_size(cores, model.unit, model.step, option="the model's grid step")
-    successions = cores.successions(model.unit, model.step)
-    if not successions:
+    successions = cores.succession_table(model.unit, model.step)
+    if not len(successions):
         raise ConfigError("the source holds no beds to decode", file=args.source)
-    with warnings_to_stderr("decode"):
-        interp = model.decode(successions)
     sampled = "samples" in dict(cores.meta.get("layout", {})).values()
-    return model, scheme, interp, sampled
+    return model, scheme, successions, sampled
 
 
 def _overall_agreement(agreement) -> float | None:
@@ -275,16 +361,16 @@ def _overall_agreement(agreement) -> float | None:
     return float((agreement["agreement_beds"] * w).sum() / w.sum())
 
 
-def _print_text(args, model, scheme, interp, agreement) -> None:
+def _print_text(args, model, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_summary
 
-    n_beds = sum(len(c.beds) for c in interp)
-    n_picks = sum(len(c.picks) for c in interp)
+    head, wells, agreement = written.summary()
     print(
-        f"decoded {len(interp)} core(s), {n_beds} {model.unit}; {n_picks} surface pick(s); "
-        f"log-likelihood {sum(c.log_likelihood for c in interp):.3f}"
+        f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} {model.unit}; "
+        f"{int(wells['picks'].sum())} surface pick(s); "
+        f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )
-    print_summary(interp, scheme, "see the output files")
+    print_summary(head, scheme, "see the output files", total=len(wells))
     if agreement is not None:
         print(
             f"agreement with the interpreter's {args.labels!r} column: "
@@ -295,16 +381,17 @@ def _print_text(args, model, scheme, interp, agreement) -> None:
     print(f"written to {args.output}/ (tracts, surfaces, picks, tops as {shown})")
 
 
-def _print_json(args, scheme, interp, agreement) -> None:
+def _print_json(args, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_json, summary_document
+    from faciesseq.interpretation import Interpretation
 
     doc = summary_document(
-        interp,
+        Interpretation.concat(written.parts),
         scheme,
         "decode",
         output=str(args.output),
         format=args.format,
-        agreement=_overall_agreement(agreement),
+        agreement=_overall_agreement(written.summary()[2]),
     )
     print_json(doc)
 
@@ -321,25 +408,20 @@ def _samples(args: argparse.Namespace):
 def run(args: argparse.Namespace) -> int:
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
-    model, scheme, interp, sampled = _decode(args)
-    agreement = _agreement(interp, "interpreted_tract" if args.labels == "tract" else args.labels)
-    write_output(
-        interp,
-        Path(args.output),
-        args.format,
-        agreement,
-        args.plot,
-        scheme,
-        model.tract_model_,
-        samples=_samples(args) if sampled else None,  # no second read for intervals
-        las_step=args.las_step,
-        sheet=args.labels if args.review_sheet else None,
-        view=args.view,
-    )
+    model, scheme, successions, sampled = _read(args)
+    samples = _samples(args) if sampled else None  # no second read for intervals
+    extra = _extra_outputs(args, scheme, model.tract_model_, samples)
+    if extra is None and args.summary == "json":
+        extra = lambda interp, folder: None  # noqa: E731  (keep the parts for the summary)
+    labels = "interpreted_tract" if args.labels == "tract" else args.labels
+    with warnings_to_stderr("decode"):
+        written = write_output(
+            model.decode_parts(successions), Path(args.output), args.format, labels, extra
+        )
     if args.summary == "json":
-        _print_json(args, scheme, interp, agreement)
+        _print_json(args, scheme, written)
     else:
-        _print_text(args, model, scheme, interp, agreement)
+        _print_text(args, model, scheme, written)
     if args.review_sheet:
         from faciesseq.review import sheet_note
 

@@ -166,9 +166,11 @@ def _print_graph(model) -> None:
         for r in rows
         if not r["selected"]
     )
+    sample = rows[0].get("n_beds", model.n_train_beds_)
+    on = f", fitted on a sample of {sample} beds" if sample < model.n_train_beds_ else ""
     print(
         f"tract graph: strict cyclic order, skips {skips}, the lowest BIC of the trade's "
-        f"{len(rows)} graphs (BIC above it: {others})"
+        f"{len(rows)} graphs{on} (BIC above it: {others})"
     )
 
 

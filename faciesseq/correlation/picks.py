@@ -1,7 +1,7 @@
 """The picks a correlation reads: the decoded column's, and, optionally, weaker peaks.
 
 ``decode`` picks a surface wherever the most likely tract column changes
-(:func:`faciesseq.surfaces.pick_rows`). A surface the column skips may still
+(:func:`faciesseq.surfaces.pick_table`). A surface the column skips may still
 carry some probability; with ``threshold`` below 1, every cluster of contacts
 whose probability mass of a surface reaches ``threshold``
 (:func:`faciesseq.surfaces.surface_clusters`) and holds no column pick of that

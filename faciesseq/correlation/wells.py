@@ -67,10 +67,12 @@ def _column(frame: pd.DataFrame, names: Iterable[str]) -> str | None:
 def _numbers(frame, column, rows, file, what) -> np.ndarray:
     values = pd.to_numeric(frame[column], errors="coerce")
     bad = values.isna() & frame[column].notna() & (frame[column].astype(str).str.strip() != "")
-    if bad.any():
-        k = int(np.flatnonzero(bad.to_numpy())[0])
+    infinite = np.isinf(values.to_numpy(float))  # inf, 1e309: no place on a section
+    if bad.any() or infinite.any():
+        k = int(np.flatnonzero(bad.to_numpy() | infinite)[0])
         raise InputError(
-            f"{what} {frame[column].iloc[k]!r} in column {column!r} is not a number",
+            f"{what} {frame[column].iloc[k]!r} in column {column!r} is not a "
+            f"{'finite ' if infinite[k] else ''}number",
             file=file,
             row=rows[k],
         )

@@ -2,70 +2,95 @@
 
 Batches of whole successions (each one job of :mod:`faciesseq.parallel`) get
 the tempered forward-backward posteriors, the Viterbi column of the model
-itself and the two-slice surface probabilities; each core's beds, boundaries
-and picks are then assembled in depth order (shallowest first).
+itself and the two-slice surface probabilities. Batches are grouped into parts
+of whole cores (:meth:`Decoding.decode_parts`, a streamed decode); the beds,
+boundaries and picks of a part's cores are assembled in depth order (shallowest
+first) as whole columns, one table each for all the part's cores.
 :class:`~faciesseq.hmm.model.TractHMM` takes these methods from :class:`Decoding`.
 """
 
 from __future__ import annotations
 
 import warnings
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet, Succession
+from faciesseq.core import CoreSet, Succession, SuccessionTable
+from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
-from faciesseq.interpretation import CoreInterpretation, Interpretation
+from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs
-from faciesseq.surfaces import (
-    PICK_COLUMNS,
-    boundary_probabilities,
-    pick_rows,
-    surface_codes,
-)
+from faciesseq.surfaces import boundary_probabilities, pick_table, surface_codes
 
-__all__ = ["DECODE_BATCH", "Decoding"]
+__all__ = ["DECODE_BATCH", "DECODE_PART", "Decoding"]
 
 #: Beds per batch decoded as one job (at most ``batch_size``). Fixed, so that the
 #: batches -- whose make-up moves the posteriors in the last bit -- and hence
 #: the decoded columns do not depend on the number of workers.
 DECODE_BATCH = 20_000
+#: Beds (at least) per part of a streamed decode: whole batches and whole cores.
+DECODE_PART = 10 * DECODE_BATCH
+
+
+def _succession_table(data, unit: str, step: float | None) -> SuccessionTable:
+    if isinstance(data, SuccessionTable):
+        return data
+    if isinstance(data, CoreSet):
+        return data.succession_table(unit, step)
+    if isinstance(data, Succession):
+        data = [data]
+    data = list(data)
+    if not all(isinstance(s, Succession) for s in data):
+        raise ConfigError("expected a CoreSet or a list of Succession objects")
+    return SuccessionTable.from_successions(data)
+
+
+def _parts(batches: list, cores: np.ndarray, size: int) -> list[list]:
+    """Consecutive batches grouped into parts of at least ``size`` beds that end
+    where a core ends (a part holds whole cores)."""
+    parts, current, beds = [], [], 0
+    for batch in batches:
+        current.append(batch)
+        beds += batch[1] - batch[0]
+        stop = batch[3] + len(batch[2])  # the next batch's first succession
+        if beds >= size and (stop == len(cores) or cores[stop] != cores[stop - 1]):
+            parts.append(current)
+            current, beds = [], 0
+    return [*parts, current] if current else parts
 
 
 class Decoding:
     """Decoding of :class:`~faciesseq.hmm.model.TractHMM` (a fitted model)."""
 
-    def _warn_unseen(self, succ: Sequence[Succession], beds: EncodedBeds) -> None:
-        start = 0
-        for s in succ:
-            n = len(s)
-            for what, codes in (("facies", beds.facies), ("contact type", beds.contact)):
-                if what == "contact type" and "contact" not in self.features_:
-                    continue
-                if what == "facies" and not ({"facies", "facies_trend"} & set(self.features_)):
-                    continue
-                bad = np.nonzero(codes[start : start + n] == -2)[0]
-                if len(bad):
-                    col = "facies" if what == "facies" else "contact"
-                    values = sorted({str(v) for v in s.beds[col].iloc[bad]})
-                    warnings.warn(
-                        UnseenCategoryWarning(
-                            f"core {s.core}, depth {float(s.beds['top'].iloc[bad[0]]):.2f} "
-                            f"{s.units}: {what} {values} not seen in training "
-                            f"({len(bad)} bed(s)); decoded with a smoothed probability"
-                        ),
-                        stacklevel=3,
-                    )
-            start += n
+    def _warn_unseen(self, table: SuccessionTable, beds: EncodedBeds) -> None:
+        """One warning per succession and column holding codes the model never saw."""
+        owner = np.repeat(np.arange(len(table)), table.lengths)
+        found = []
+        for what, col, codes, features in (
+            ("facies", "facies", beds.facies, {"facies", "facies_trend"}),
+            ("contact type", "contact", beds.contact, {"contact"}),
+        ):
+            bad = np.flatnonzero(codes == -2) if features & set(self.features_) else []
+            found += [(k, what, col, bad[owner[bad] == k]) for k in np.unique(owner[bad])]
+        for k, what, col, rows in sorted(found, key=lambda f: f[0]):
+            values = sorted({str(v) for v in table.beds[col].to_numpy()[rows]})
+            top = float(table.beds["top"].to_numpy()[rows[0]])
+            warnings.warn(
+                UnseenCategoryWarning(
+                    f"core {table.cores[k]}, depth {top:.2f} {table.units}: {what} {values} "
+                    f"not seen in training ({len(rows)} bed(s)); decoded with a smoothed "
+                    "probability"
+                ),
+                stacklevel=4,
+            )
 
     def decode(
         self,
-        successions: CoreSet | Sequence[Succession],
-        threshold: float = 0.5,
+        successions: CoreSet | Sequence[Succession] | SuccessionTable,
         mass: float = 0.9,
         labels: str | Sequence[Sequence[str | None]] | None = None,
     ) -> Interpretation:
@@ -74,52 +99,53 @@ class Decoding:
         Any interpreter's ``tract`` column is ignored (it is kept in the bed
         tables as ``interpreted_tract``) unless named by ``labels``: then its
         labelled beds are clamped (they keep their tract, posterior 1) and the
-        rest is decoded around them. ``threshold`` and
-        ``mass`` are the surface-pick options of
-        :func:`faciesseq.surfaces.pick_surfaces`.
+        rest is decoded around them. ``mass`` is the share of a surface's
+        probability its pick's uncertainty interval holds
+        (:func:`faciesseq.surfaces.pick_table`).
 
         Returns
         -------
         Interpretation, tables in depth order (shallowest first).
         """
-        succ, beds = self._prepare(successions)
-        self._warn_unseen(succ, beds)
-        clamp, _ = self._labels(succ, labels)
-        tm = self.tract_model_
-        codes = surface_codes(tm)
-        tracts = self.states_.tracts
-        per_core: dict[str, list] = {}
-        batches = list(self._batches(beds.lengths, DECODE_BATCH))
+        return Interpretation.concat(list(self.decode_parts(successions, mass, labels)))
+
+    def decode_parts(
+        self,
+        successions: CoreSet | Sequence[Succession] | SuccessionTable,
+        mass: float = 0.9,
+        labels: str | Sequence[Sequence[str | None]] | None = None,
+        size: int | None = None,
+    ) -> Iterator[Interpretation]:
+        """:meth:`decode`, a part of whole cores (at least ``size`` beds, default
+        :data:`DECODE_PART`) at a time: what a part needs is made, decoded and handed
+        on before the next is begun."""
+        self._check_fitted()
+        table = _succession_table(successions, self.unit, self.step)
+        if not len(table):
+            raise InputError("no beds to decode")
+        batches = list(self._batches(table.lengths, DECODE_BATCH))
+        for group in _parts(batches, table.cores, size or DECODE_PART):
+            first, stop = group[0][3], group[-1][3] + len(group[-1][2])
+            yield self._decode_part(table.part(first, stop), group, mass, labels, first)
+
+    def _decode_part(self, part: SuccessionTable, group, mass, labels, first: int):
+        beds = self._encode([part.beds], part.lengths)
+        self._warn_unseen(part, beds)
+        clamp = None
+        if labels is not None:
+            named = labels if isinstance(labels, str) else labels[first : first + len(part)]
+            clamp, _ = self._labels(list(part), named)
+        a0 = group[0][0]
         jobs = [
-            (beds.slice(a, b, lengths), None if clamp is None else clamp[a:b])
-            for a, b, lengths, _ in batches
+            (
+                beds.slice(a - a0, b - a0, lengths),
+                None if clamp is None else clamp[a - a0 : b - a0],
+            )
+            for a, b, lengths, _ in group
         ]
         decoded = run_jobs(self._decode_batch, jobs, self.n_jobs, self.scheduler)
-        for (_, _, lengths, first), (gamma, vit, surf, loglik) in zip(batches, decoded):
-            row, bnd = 0, 0
-            for k, n in enumerate(lengths):
-                s = succ[first + k]
-                per_core.setdefault(s.core, []).append(
-                    (
-                        s,
-                        gamma[row : row + n],
-                        vit[row : row + n],
-                        surf[bnd : bnd + n - 1],
-                        float(loglik[k]),
-                    )
-                )
-                row += n
-                bnd += n - 1
-        cores = {}
-        for core, parts in per_core.items():
-            cores[core] = self._core_interpretation(core, parts, codes, mass)
-        return Interpretation(
-            cores,
-            tracts,
-            codes,
-            meta={"unit": self.unit, "step": self.step, "features": list(self.features_)}
-            | probability_meta(self.temperature_, self.calibration_),
-        )
+        gamma, vit, surf, loglik = (np.concatenate(x) for x in zip(*decoded))
+        return self._interpretation(part, gamma, vit, surf, loglik, mass)
 
     def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
         """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
@@ -142,67 +168,110 @@ class Decoding:
         surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
         return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
 
-    def _core_interpretation(self, core, parts, codes, mass):
-        """One core's tables from its decoded successions, each column built whole."""
-        tracts = np.asarray(self.states_.tracts, dtype=object)
-        units = parts[0][0].units
-        # depth order: shallowest segment first, top of each succession first
-        parts = sorted(parts, key=lambda p: p[0].segment)
-        contacts = [_contacts(s, vit, surf, tracts) for s, _, vit, surf, _ in parts]
-        found = []
-        for (s, *_), (depth, lower, upper, surf) in zip(parts, contacts, strict=True):
-            by_code = {code: surf[:, c] for c, code in enumerate(codes)}
-            found += pick_rows(depth, lower, upper, by_code, self.tract_model_, s.segment, mass)
-        surf = np.concatenate([c[3] for c in contacts])
-        boundaries = pd.DataFrame(
+    def _interpretation(self, part: SuccessionTable, gamma, vit, surf, loglik, mass):
+        """The decoded successions of whole cores as one :class:`Interpretation`, in
+        depth order: ``vit``/``gamma`` per bed and ``surf`` per contact, base to top."""
+        flow = _DepthOrder(part)
+        codes = surface_codes(self.tract_model_)
+        beds = self._bed_table(part, flow, gamma, vit)
+        contacts = flow.contacts
+        upper_row = contacts - 1  # the bed above a contact, in depth order
+        bounds = pd.DataFrame(
             {
-                "segment": np.concatenate(
-                    [np.full(len(c[0]), p[0].segment) for p, c in zip(parts, contacts)]
-                ),
-                "depth": np.concatenate([c[0] for c in contacts]),
-                "lower_tract": np.concatenate([c[1] for c in contacts]),
-                "upper_tract": np.concatenate([c[2] for c in contacts]),
+                "core": beds["core"].to_numpy()[contacts],
+                "segment": beds["segment"].to_numpy()[contacts],
+                "depth": beds["top"].to_numpy(float)[contacts],
+                "lower_tract": beds["tract"].to_numpy()[contacts],
+                "upper_tract": beds["tract"].to_numpy()[upper_row],
             }
-            | {f"p_{code}": surf[:, c] for c, code in enumerate(codes)}
+            | {f"p_{c}": surf[flow.contact_xi, j] for j, c in enumerate(codes)}
         )
-        picks = pd.DataFrame(found, columns=PICK_COLUMNS).sort_values(
-            ["depth", "surface"], kind="stable"
+        state = flow.rows_in_depth_order(vit)
+        picks = self._pick_frame(bounds, state, surf[flow.contact_xi], flow, mass)
+        core_ids, names = pd.factorize(pd.Index(part.cores, dtype=object))
+        wells = pd.DataFrame(
+            {
+                "units": part.units,
+                "log_likelihood": np.bincount(core_ids, weights=loglik, minlength=len(names)),
+                "beds": np.bincount(core_ids, weights=part.lengths).astype(np.int64),
+                "boundaries": np.bincount(core_ids, weights=part.lengths - 1).astype(np.int64),
+                "picks": picks["core"].value_counts().reindex(names, fill_value=0).to_numpy(),
+            },
+            index=pd.Index(names, dtype=object, name="core"),
         )
-        return CoreInterpretation(
-            core,
-            units,
-            tuple(self.states_.tracts),
-            tuple(codes),
-            self._bed_table(parts, tracts),
-            boundaries,
-            picks.reset_index(drop=True),
-            float(sum(p[4] for p in parts)),
-        )
+        tables = {"beds": beds, "boundaries": bounds, "picks": picks}
+        meta = {"unit": self.unit, "step": self.step, "features": list(self.features_)}
+        meta |= probability_meta(self.temperature_, self.calibration_)
+        return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 
-    def _bed_table(self, parts, tracts: np.ndarray) -> pd.DataFrame:
-        """The decoded beds of one core in depth order: the described columns, then the
-        tract and its posteriors (an interpreter's ``tract`` kept as ``interpreted_tract``);
-        built from whole columns, one frame per core."""
-        tables = [p[0].beds.iloc[::-1] for p in parts]
-        beds = tables[0] if len(tables) == 1 else pd.concat(tables, ignore_index=True)
-        names = list(beds.columns)
-        gamma = np.concatenate([p[1][::-1] for p in parts])
-        added = {"tract": tracts[np.concatenate([p[2][::-1] for p in parts])]} | {
-            f"p_{t}": gamma[:, j] for j, t in enumerate(self.states_.tracts)
+    def _pick_frame(self, bounds, state, surf, flow, mass) -> pd.DataFrame:
+        """The picks of every core, depth order (then surface) within each core."""
+        tm = self.tract_model_
+        codes = surface_codes(tm)
+        found = pick_table(
+            bounds["depth"].to_numpy(float),
+            state[flow.contacts],
+            state[flow.contacts - 1],
+            surf,
+            flow.first_contact,
+            tm,
+            mass,
+        )
+        at, code = found.pop("contact"), found.pop("surface")
+        code_names = np.array(codes, dtype=object)
+        picks = pd.DataFrame(
+            {"core": bounds["core"].to_numpy()[at], "surface": code_names[code]}
+            | found
+            | {"segment": bounds["segment"].to_numpy()[at].astype(int)}
+        )
+        rank = np.argsort(np.argsort(code_names.astype(str), kind="stable"))
+        order = np.lexsort((rank[code], found["depth"], flow.core_of_contact[at]))
+        return picks.take(order).reset_index(drop=True)[["core", *PICK_COLUMNS]]
+
+    def _bed_table(self, part: SuccessionTable, flow, gamma, vit) -> pd.DataFrame:
+        """The decoded beds of whole cores in depth order: ``core``, ``segment``, the
+        described columns, then the tract and its posteriors (an interpreter's ``tract``
+        kept as ``interpreted_tract``)."""
+        tracts = np.asarray(self.states_.tracts, dtype=object)
+        rows = flow.order
+        names = list(part.beds.columns)
+        added = {"tract": tracts[vit[rows]]} | {
+            f"p_{t}": gamma[rows, j] for j, t in enumerate(self.states_.tracts)
         }
         renamed = {"tract": "interpreted_tract"}  # an interpreter's column: kept, never used
         first = ["top", "base", "thickness", "facies"]
         order = [c for c in first if c in names] + [
             c for c in names if c not in (*first, "segment", *added) or c == "tract"
         ]
-        columns = {"segment": np.concatenate([np.full(len(p[2]), p[0].segment) for p in parts])}
+        columns = {
+            "core": np.repeat(part.cores, part.lengths)[rows],
+            "segment": np.repeat(part.segments, part.lengths)[rows],
+        }
         for c in order:
-            columns[renamed.get(c, c)] = beds[c].to_numpy()
+            columns[renamed.get(c, c)] = part.beds[c].to_numpy()[rows]
         return pd.DataFrame(columns | added)
 
 
-def _contacts(s: Succession, vit: np.ndarray, surf: np.ndarray, tracts: np.ndarray):
-    """Depth, lower and upper tract and surface probabilities of the contacts of one
-    decoded succession, top first (contact ``t``: the top of the lower bed)."""
-    depth = s.beds["top"].to_numpy(float)[:-1][::-1]
-    return depth, tracts[vit[:-1]][::-1], tracts[vit[1:]][::-1], surf[::-1]
+class _DepthOrder:
+    """Where the rows of successions stored base to top go in depth order (each
+    succession turned over; the successions of a core already shallowest first)."""
+
+    def __init__(self, part: SuccessionTable):
+        lengths = part.lengths
+        starts = part.starts[:-1]
+        owner = np.repeat(np.arange(len(lengths)), lengths)
+        #: base-to-top row of each depth-ordered row
+        self.order = (starts + lengths - 1)[owner] - (np.arange(len(owner)) - starts[owner])
+        is_first = np.zeros(len(owner), dtype=bool)
+        is_first[starts[lengths > 0]] = True
+        #: depth-ordered rows of the lower bed of every contact (all but each
+        #: succession's shallowest bed); the bed above is the row before
+        self.contacts = np.flatnonzero(~is_first)
+        #: the contact's row in the two-slice posteriors (base to top, one fewer per succession)
+        self.contact_xi = self.order[self.contacts] - owner[self.contacts]
+        self.first_contact = np.r_[True, owner[self.contacts][1:] != owner[self.contacts][:-1]]
+        core_ids, _ = pd.factorize(pd.Index(part.cores, dtype=object))
+        self.core_of_contact = core_ids[owner[self.contacts]]
+
+    def rows_in_depth_order(self, values: np.ndarray) -> np.ndarray:
+        return values[self.order]

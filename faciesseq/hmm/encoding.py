@@ -108,6 +108,7 @@ def encode_beds(
     numeric: Sequence[str] = (),
     ranks: np.ndarray | None = None,
     cycle_base: np.ndarray | None = None,
+    lengths: np.ndarray | None = None,
 ) -> EncodedBeds:
     """Code bed tables (each base to top) for the emission pieces.
 
@@ -127,8 +128,12 @@ def encode_beds(
     cycle_base
         Whether each of ``facies`` always starts a cycle (the scheme's
         ``cycle_base`` mark), for the context features.
+    lengths
+        Beds of each succession, where ``tables`` holds several successions one
+        after another (default: one succession per table).
     """
-    lengths = np.array([len(t) for t in tables], dtype=np.int64)
+    if lengths is None:
+        lengths = np.array([len(t) for t in tables], dtype=np.int64)
     fac = _codes(_column(tables, "facies"), facies)
     contact_text = (
         _column(tables, "contact") if any("contact" in t.columns for t in tables) else None

@@ -21,8 +21,9 @@ as ``codes``, took 0.30 of hmmlearn's CPU time on repeated iterations and 0.37
 on the first call after hmmlearn ran (2026-12-02, loaded 2-core machine); from
 the full log-emission array, 0.40 and 0.89 (the first call pays for fresh
 memory pages of the 128 MB array and of ``gamma``). Viterbi, whose maxima
-numpy cannot hand to BLAS, took about 2.1 times the CPU time of hmmlearn's
-compiled loop.
+numpy cannot hand to BLAS, took 1.66 times the CPU time of hmmlearn's
+compiled loop with 16 states and a dense transition matrix, and 0.85 of it
+on a tract-shaped graph (repeated calls; see :func:`viterbi`).
 
 Emissions: either the ``(T, K)`` log-emission array, or for a categorical
 emission a ``(n_codes, K)`` table and the code of every row (``codes``): the
@@ -54,6 +55,7 @@ from faciesseq.errors import ConfigError, InputError
 
 __all__ = [
     "DEFAULT_BATCH_CELLS",
+    "DEFAULT_VITERBI_BATCH_CELLS",
     "Posteriors",
     "constrained_log_emission",
     "forward_backward",
@@ -63,6 +65,13 @@ __all__ = [
 #: Default work bound: rows per batch times states (``batch_size = this // K``).
 #: About 16 MB per float64 work array.
 DEFAULT_BATCH_CELLS = 1 << 21
+
+#: Default work bound of :func:`viterbi` (rows per batch times states): its
+#: one large work array is ``delta`` of the batch (64 MB at this bound). A
+#: larger batch means fewer time steps, each paying numpy's per-call cost
+#: twice (forward and backtracking), but more fresh memory pages on a first
+#: call; measured in ``benchmarks/hmm_engine.md``.
+DEFAULT_VITERBI_BATCH_CELLS = 1 << 23
 
 # Tolerance on probabilities summing to one.
 _SUM_TOL = 1e-6
@@ -346,10 +355,36 @@ class _Emissions:
         self.n_rows = self.table.shape[0] if self.codes is None else self.codes.size
         self.n_states = self.table.shape[1]
         self._exp = None
+        self._table_T = None
 
     def log_rows(self, rows: np.ndarray, out: np.ndarray) -> None:
         """``out = log p(obs | state)`` of the given input rows."""
         _take_rows(self.table, rows if self.codes is None else self.codes[rows], out)
+
+    def batch_index(self, rows: np.ndarray) -> np.ndarray:
+        """What :meth:`add_log_columns` takes for these input rows (their codes,
+        or the rows themselves), gathered once per batch."""
+        return rows if self.codes is None else self.codes[rows]
+
+    def add_log_columns(self, index: np.ndarray, out: np.ndarray, work: np.ndarray) -> None:
+        """``out += log p(obs | state)`` of the rows of ``index`` (from
+        :meth:`batch_index`), ``out`` as ``(K, rows)`` (one column per row);
+        ``work`` has room for ``K * len(index)`` values.
+
+        With codes, the columns are gathered from the transposed table, so
+        that the sum runs over contiguous rows of both operands.
+        """
+        n, k = index.size, self.n_states
+        if self.codes is None:
+            rows_first = work[: n * k].reshape(n, k)
+            _take_rows(self.table, index, rows_first)
+            np.add(out, rows_first.T, out=out)
+            return
+        if self._table_T is None:
+            self._table_T = np.ascontiguousarray(self.table.T)
+        columns = work[: n * k].reshape(k, n)
+        np.take(self._table_T, index, axis=1, out=columns, mode="clip")
+        np.add(out, columns, out=out)
 
     def exp_rows(self, rows: np.ndarray, out: np.ndarray, shift: np.ndarray, work) -> None:
         """``out = exp(log-emission - shift)`` of the given rows, ``shift`` per row
@@ -376,9 +411,11 @@ class _Emissions:
         )
 
 
-def _resolve_batch_size(batch_size: int | None, n_states: int) -> int:
+def _resolve_batch_size(
+    batch_size: int | None, n_states: int, cells: int = DEFAULT_BATCH_CELLS
+) -> int:
     if batch_size is None:
-        return max(1, DEFAULT_BATCH_CELLS // n_states)
+        return max(1, cells // n_states)
     if int(batch_size) < 1:
         raise ConfigError(f"batch_size must be >= 1, got {batch_size}")
     return int(batch_size)
@@ -681,9 +718,14 @@ def viterbi(
 
     Parameters
     ----------
-    log_emission, lengths, startprob, transmat, batch_size, codes
+    log_emission, lengths, startprob, transmat, codes
         As for :func:`forward_backward`. Zero probabilities become ``-inf``
         (impossible transitions are never taken).
+    batch_size
+        Maximum rows per batch; the work memory is about ``batch_size x K``
+        float64 values (``delta`` of the batch, kept for the backtracking).
+        Default ``DEFAULT_VITERBI_BATCH_CELLS // K`` (524,288 rows, 64 MB, for
+        16 states).
 
     Returns
     -------
@@ -695,6 +737,32 @@ def viterbi(
 
     Ties are broken towards the lowest state index (for the last state and
     for every back-pointer).
+
+    Notes
+    -----
+    The sequences of a batch advance in lockstep, one time step per
+    iteration of the Python loop. At each step ``delta`` of the running
+    sequences is a ``(K, n)`` block, sequences innermost, and
+    ``max_i (delta_i + log A_ik)`` takes one sum and one reduction over the
+    predecessors ``i``; on a sparse graph (every state has at most ``3K/4``
+    predecessors, as tract graphs with 2-3 predecessors per state) only the
+    allowed predecessors are summed, which gives the same numbers. The
+    forward pass keeps only maxima; the back-pointers are recomputed along
+    the decoded path alone (``K`` sums per row instead of ``K^2``). Every
+    ``delta`` is the same floating-point number as in hmmlearn's loop (the
+    same sums in the same order), so the paths are hmmlearn's except
+    between paths of exactly equal probability.
+
+    Why numpy and not compiled code: hmmlearn's compiled decode is the
+    reference, but it takes no log-emission array and no clamped rows (see
+    the module notes). On ``benchmarks/bench_em.py`` (1,000,000 observations,
+    16 states) this function took 1.66 times hmmlearn's CPU time with a dense
+    transition matrix and 0.85 of it with a tract-shaped one (3 predecessors
+    per state; repeated calls, ``benchmarks/hmm_engine.md``): the ``K^2`` sums
+    and maxima per row run at numpy's memory speed, which a compiled loop
+    over one row in registers beats. Two steps at once from per-code tables,
+    pairwise halving in other layouts, pruning by sorted weights and float32
+    were measured there and not kept (slower, or not the same numbers).
 
     Raises
     ------
@@ -717,104 +785,156 @@ def viterbi(
     >>> path.tolist(), round(float(np.exp(lp[0])), 5)
     ([0, 0, 1], 0.01512)
     """
-    with _single_thread_blas():
-        return _viterbi(_Emissions(log_emission, codes), lengths, startprob, transmat, batch_size)
+    return _viterbi(_Emissions(log_emission, codes), lengths, startprob, transmat, batch_size)
 
 
 def _viterbi(source, lengths, startprob, transmat, batch_size):
     T, K = source.n_rows, source.n_states
     lens = _check_lengths(lengths, T)
     pi, A = _check_params(startprob, transmat, K)
-    rows_per_batch = _resolve_batch_size(batch_size, K)
+    rows_per_batch = _resolve_batch_size(batch_size, K, DEFAULT_VITERBI_BATCH_CELLS)
     log_pi, log_A = _log(pi), _log(A)
-    log_A_3 = log_A[:, :, None]
+    log_AT = np.ascontiguousarray(log_A.T)
 
     path_out = np.empty(T, dtype=np.intp)
     log_prob = np.empty(lens.size)
     cap = _buffer_rows(lens, rows_per_batch)
-    # delta is stored transposed, (K, packed rows): in a step's (K, K, n)
-    # scores the sequences are the innermost axis, so numpy's inner loops run
-    # over many sequences rather than over K states (measured about twice as
-    # fast for 16 states).
-    delta_buf = np.empty((K, cap))
-    E_buf = np.empty((cap, K))
-    # Scores of one step, (K, K, sequences), taken in chunks of at most
-    # rows_per_batch * K cells so that memory stays bounded by the batch.
-    width = int(min(lens.size, cap, max(1, rows_per_batch // K)))
-    # (flat, so that every chunk is contiguous and numpy runs one long loop)
-    scores_buf = np.empty(K * K * width)
-    half_buf = np.empty(max(1, K // 2) * K * width)
-    for batch in _batches(lens, rows_per_batch):
+    # delta of every packed row, stored step by step: step t is a (K, n_t)
+    # block (states by the sequences running at t) from K * offsets[t], so that
+    # the sequences are the innermost, contiguous axis of every operation.
+    delta_buf = np.empty(cap * K)
+    batches = list(_batches(lens, rows_per_batch))
+    most = max(int(b.counts[0]) for b in batches)
+    step = _MaxPlus(log_A, most)
+    work = np.empty(most * K)  # emissions, then backtracking candidates, of one step
+    for batch in batches:
         N = batch.n_rows
         counts, off = batch.counts.tolist(), batch.offsets.tolist()
         n_steps = len(counts)
         B = batch.seq.size
-        E = E_buf[:N]
-        source.log_rows(batch.rows, E)
-        delta = delta_buf[:, :N]
-        n0 = counts[0]
-        np.add(E[:n0].T, log_pi[:, None], out=delta[:, :n0])
-        for t in range(1, n_steps):
-            o, n, op = off[t], counts[t], off[t - 1]
-            for lo in range(0, n, width):
-                m = min(width, n - lo)
-                scores = scores_buf[: K * K * m].reshape(K, K, m)
-                # scores[i, k, j] = delta[t-1](i, sequence j) + log A[i, k]
-                np.add(
-                    delta[None, :, op + lo : op + lo + m].transpose(1, 0, 2), log_A_3, out=scores
-                )
-                work = half_buf[: max(1, K // 2) * K * m].reshape(-1, K, m)
-                best = _max_over_axis0(scores, work)
-                np.add(best, E[o + lo : o + lo + m].T, out=delta[:, o + lo : o + lo + m])
+        delta = delta_buf[: K * N]
 
-        final_delta = delta[:, batch.last].T
-        final_state = final_delta.argmax(axis=1)
-        final_lp = final_delta[np.arange(B), final_state]
+        def block(t: int, delta=delta, counts=counts, off=off) -> np.ndarray:
+            return delta[K * off[t] : K * off[t + 1]].reshape(K, counts[t])
+
+        index = source.batch_index(batch.rows)
+        current = block(0)
+        current[:] = log_pi[:, None]
+        source.add_log_columns(index[: counts[0]], current, work)
+        for t in range(1, n_steps):
+            n, o = counts[t], off[t]
+            previous, current = current, block(t)
+            step(previous[:, :n], current)
+            source.add_log_columns(index[o : o + n], current, work)
+
+        # delta at the last row of every sequence: column j of step lengths[j] - 1
+        final_delta = delta[_cells(batch, batch.lengths - 1, np.arange(B), K)]
+        final_state = final_delta.argmax(axis=0)
+        final_lp = final_delta[final_state, np.arange(B)]
         dead = np.flatnonzero(final_lp == -np.inf)
         if dead.size:
             # Name the first row where every path of that sequence has died.
             j = int(dead[0])
-            packed = batch.offsets[: batch.lengths[j]] + j
-            first = int(np.flatnonzero(delta[:, packed].max(axis=0) == -np.inf)[0])
-            raise _impossible(batch, int(packed[first]), "no path of non-zero probability")
+            column = delta[_cells(batch, np.arange(batch.lengths[j]), j, K)]
+            first = int(np.flatnonzero(column.max(axis=0) == -np.inf)[0])
+            raise _impossible(batch, off[first] + j, "no path of non-zero probability")
         log_prob[batch.seq] = final_lp
 
         # Backtracking: the predecessor of state k at step t is recomputed as
-        # argmax_i (delta[t-1, i] + log A[i, k]) (same sums as the forward
-        # pass, so the same maximum; argmax takes the lowest index on ties).
+        # argmax_i (delta[t-1, i] + log A[i, k]) for the one state on the path
+        # (the same sums as the forward pass, so the same maximum; argmax takes
+        # the lowest index on ties): K operations per row, where keeping
+        # back-pointers would cost an argmax over K^2 sums in the forward pass.
         path = np.empty(N, dtype=np.intp)
-        state = np.empty(B, dtype=np.intp)
-        for t in range(n_steps - 1, -1, -1):
-            o, n = off[t], counts[t]
-            ending = counts[t + 1] if t + 1 < n_steps else 0
-            state[ending:n] = final_state[ending:n]
-            path[o : o + n] = state[:n]
-            if t > 0:
-                op = off[t - 1]
-                cand = delta[:, op : op + n] + log_A[:, state[:n]]
-                state[:n] = cand.argmax(axis=0)
+        path[batch.last] = final_state
+        for t in range(n_steps - 1, 0, -1):
+            n, o, op = counts[t], off[t], off[t - 1]
+            # (sequences, candidates): rows of log A^T gathered whole, and the
+            # argmax runs along the contiguous last axis (measured about twice
+            # as fast as over the states of a (K, n) array); the sequences
+            # ending at step t - 1 already hold their final state
+            cand = work[: n * K].reshape(n, K)
+            np.take(log_AT, path[o : o + n], axis=0, out=cand, mode="clip")
+            np.add(cand, block(t - 1)[:, :n].T, out=cand)
+            np.argmax(cand, axis=1, out=path[op : op + n])
         path_out[batch.rows] = path
 
     return path_out, log_prob
 
 
-def _max_over_axis0(scores: np.ndarray, work: np.ndarray) -> np.ndarray:
-    """``scores.max(axis=0)`` by pairwise halving, as a view into ``work``
-    (or ``scores``).
+def _cells(batch: _Batch, steps: np.ndarray, position, n_states: int) -> np.ndarray:
+    """Indices into a batch's step-blocked ``delta`` of the ``(K, len(steps))``
+    values of the sequence(s) at ``position`` at those steps."""
+    return (
+        (n_states * batch.offsets[steps])[None, :]
+        + np.arange(n_states)[:, None] * batch.counts[steps][None, :]
+        + np.asarray(position)[None, ...]
+    )
 
-    Each halving is one elementwise maximum over long contiguous rows, which
-    numpy runs several times faster than its own reduction here (measured on
-    16 states); maxima are exact, so the result is identical.
+
+#: Bound on the cells of each work array of one Viterbi step (8 MB of float64).
+_STEP_CELLS = 1 << 20
+
+
+class _MaxPlus:
+    """One Viterbi step: ``out[k, j] = max_i (delta[i, j] + log A[i, k])`` for
+    the sequences ``j`` of a block (sequences on the innermost axis).
+
+    Dense graphs: the ``(K, K, n)`` sums ``delta[i, j] + log A[i, k]`` then
+    one reduction over ``i`` (the outermost axis, which numpy reduces as
+    whole contiguous ``(K, n)`` rows). Sparse graphs (every state has at
+    most ``p <= 3K/4`` predecessors; measured faster up to there): only the
+    allowed predecessors, gathered as ``(p, K, n)`` rows of ``delta``;
+    missing ones are padded with weight ``-inf``, which never wins a maximum,
+    so both forms give the same numbers.
     """
-    width = scores.shape[0]
-    current = scores
-    while width > 1:
-        half = width // 2
-        np.maximum(current[:half], current[half : 2 * half], out=work[:half])
-        if width % 2:
-            np.maximum(work[0], current[2 * half], out=work[0])
-        current, width = work, half
-    return current[0]
+
+    def __init__(self, log_A: np.ndarray, n_max: int) -> None:
+        K = log_A.shape[0]
+        allowed = log_A > -np.inf
+        p = max(1, int(allowed.sum(axis=0).max()))
+        self.sparse = 4 * p <= 3 * K
+        # sequences per call: bounds the work arrays to _STEP_CELLS cells
+        rows = p if self.sparse else K
+        self.width = int(max(1, min(n_max, _STEP_CELLS // (rows * K))))
+        if self.sparse:
+            order = np.argsort(~allowed, axis=0, kind="stable")[:p]  # (p, K)
+            weight = np.take_along_axis(log_A, order, axis=0)
+            self.pred = order.ravel()
+        else:
+            weight = log_A
+            self.pred = None
+        # weights repeated along the sequences: a contiguous operand makes
+        # numpy's inner loops longer than a broadcast one (measured faster)
+        self.weight = np.ascontiguousarray(
+            np.broadcast_to(weight[:, :, None], (*weight.shape, self.width))
+        )
+        self.rows = rows
+        self.K = K
+        self.scores = np.empty(rows * K * self.width)
+        self.gathered = np.empty(rows * K * self.width) if self.sparse else None
+
+    def __call__(self, delta: np.ndarray, out: np.ndarray) -> None:
+        K, rows, width = self.K, self.rows, self.width
+        n = delta.shape[1]
+        if n <= width and self.pred is None:
+            # the common case, without the slicing of the general loop below
+            scores = self.scores[: rows * K * n].reshape(rows, K, n)
+            np.add(delta[:, None, :], self.weight[:, :, :n], out=scores)
+            np.maximum.reduce(scores, axis=0, out=out)
+            return
+        for lo in range(0, n, width):
+            m = min(width, n - lo)
+            d = delta[:, lo : lo + m]
+            scores = self.scores[: rows * K * m].reshape(rows, K, m)
+            weight = self.weight[:, :, :m]
+            if self.pred is None:
+                np.add(d[:, None, :], weight, out=scores)
+            else:
+                g = self.gathered[: rows * K * m].reshape(rows * K, m)
+                np.take(d, self.pred, axis=0, out=g, mode="clip")
+                np.add(g.reshape(rows, K, m), weight, out=scores)
+            np.maximum.reduce(scores, axis=0, out=out[:, lo : lo + m])
 
 
 # --------------------------------------------------------------------------

@@ -30,10 +30,16 @@ from faciesseq.core import Succession
 from faciesseq.parallel import run_jobs
 from faciesseq.scheme import TractModel, default_tract_model
 
-__all__ = ["CHOSEN_AMONG", "choose_graph", "trade_graphs"]
+__all__ = ["CHOSEN_AMONG", "SAMPLE_BEDS", "choose_graph", "sample_successions", "trade_graphs"]
 
 #: The skips of the graphs an unlabelled fit chooses among (see the module docstring).
 CHOSEN_AMONG = ((), ("FSST",), ("TST",))
+
+#: Above this many beds the graph is chosen on a sample of whole successions of
+#: about this many beds, and only the chosen graph is fitted on every bed: BIC
+#: tells the candidates apart long before (its differences grow with the beds),
+#: and fitting three graphs on a whole company database would triple the EM.
+SAMPLE_BEDS = 50_000
 
 
 def trade_graphs(tract_model: TractModel) -> list[TractModel]:
@@ -65,7 +71,8 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     (:mod:`faciesseq.parallel`)."""
     params = {**model.get_params(), "graph": "fixed", "calibration_folds": 0}
     graphs = [g for g in trade_graphs(default_tract_model()) if tuple(g.skips) in CHOSEN_AMONG]
-    jobs = [(type(model), {**params, "tract_model": g}, succ) for g in graphs]
+    sample = sample_successions(succ, SAMPLE_BEDS, model.random_state)
+    jobs = [(type(model), {**params, "tract_model": g}, sample) for g in graphs]
     if model._parallel():  # one job per graph; each fit's restarts run in turn
         jobs = [(m, {**p, "n_jobs": 1, "scheduler": None}, s) for m, p, s in jobs]
         fitted_models = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
@@ -83,9 +90,26 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
         )
         fits.append(fitted)
     best = int(np.argmin([r["bic"] for r in rows]))
+    n_sample = sum(len(s) for s in sample)
     for k, row in enumerate(rows):
         row["selected"] = k == best
+        row["n_beds"] = n_sample
+    if len(sample) < len(succ):  # the chosen graph, on every bed
+        chosen = {**params, "tract_model": graphs[best]}
+        fits[best] = _fit_graph(type(model), chosen, succ, progress)
     return fits[best], rows
+
+
+def sample_successions(succ: Sequence[Succession], n_beds: int, seed) -> Sequence[Succession]:
+    """All of ``succ`` when they hold at most ``n_beds`` beds; else whole successions
+    drawn at random (``seed``) until they hold at least ``n_beds``, in their order."""
+    sizes = np.array([len(s) for s in succ])
+    if sizes.sum() <= n_beds:
+        return succ
+    rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
+    order = rng.permutation(len(succ))
+    keep = order[: int(np.searchsorted(np.cumsum(sizes[order]), n_beds)) + 1]
+    return [succ[i] for i in np.sort(keep)]
 
 
 def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None):

@@ -356,7 +356,9 @@ class TractHMM(ExpectationMaximisation, Decoding):
         if "contact" in self.features_ and not contacts:
             raise ConfigError("feature 'contact' needs contact types in the beds; none found")
 
-    def _encode(self, tables: Sequence[pd.DataFrame]) -> EncodedBeds:
+    def _encode(
+        self, tables: Sequence[pd.DataFrame], lengths: np.ndarray | None = None
+    ) -> EncodedBeds:
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
         if "stacking" in numeric and "thickness" not in numeric:
             numeric.append("thickness")
@@ -365,7 +367,9 @@ class TractHMM(ExpectationMaximisation, Decoding):
             marks = np.array(
                 [c in self.scheme and self.scheme[c].cycle_base for c in self.facies_], dtype=bool
             )
-        return encode_beds(tables, self.facies_, self.contacts_, numeric, self.ranks_, marks)
+        return encode_beds(
+            tables, self.facies_, self.contacts_, numeric, self.ranks_, marks, lengths
+        )
 
     def _train_static(self, beds: EncodedBeds, clamp: np.ndarray | None) -> dict:
         """The static pieces (learnt once from the labelled beds, before EM), by feature."""

@@ -42,6 +42,7 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import pandas as pd
 
 from faciesseq._version import __version__
 from faciesseq.errors import ConfigError, ModelFileError
@@ -71,12 +72,26 @@ def file_digest(path: str | Path) -> str:
 
 
 def coreset_digest(coreset) -> str:
-    """``sha256:<hex>`` of a core set's intervals (CSV text of ``CoreSet.to_frame()``).
+    """``sha256:<hex>`` of a core set's intervals (the columns of ``CoreSet.to_frame()``).
 
-    Identifies the data a model was fitted on whatever the source format.
+    Identifies the data a model was fitted on whatever the source format: each
+    column is hashed by name, then as float64 numbers (integers and floats
+    alike) or as text, a missing value marked apart from every text. Hashed
+    from the arrays, not from CSV text, which cost seconds per 10^5 beds.
     """
-    text = coreset.to_frame().to_csv(index=False, float_format="%.9g")
-    return "sha256:" + hashlib.sha256(text.encode("utf-8")).hexdigest()
+    frame = coreset.to_frame()
+    h = hashlib.sha256()
+    for name in frame.columns:
+        column = frame[name]
+        h.update(b"\x1e" + str(name).encode("utf-8") + b"\x1d")
+        if pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column):
+            h.update(b"f" + np.ascontiguousarray(column.to_numpy(dtype=float)).tobytes())
+            continue
+        missing = column.isna().to_numpy()
+        text = column.astype(str).to_numpy(dtype=object)
+        text[missing] = "\x00"
+        h.update(b"t" + "\x1f".join(text).encode("utf-8", "surrogatepass"))
+    return "sha256:" + h.hexdigest()
 
 
 def _jsonable(value: Any) -> Any:

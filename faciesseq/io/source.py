@@ -99,6 +99,11 @@ def load_source_file(path: Path) -> SourceSpec:
     else:
         source = str(data["url"])
     text = {k: (None if data.get(k) is None else str(data[k])) for k in SOURCE_KEYS}
+    for key, allowed in (("units", ("m", "ft")), ("layout", ("intervals", "samples"))):
+        if text[key] is not None and text[key] not in allowed:
+            raise ConfigError(
+                f"{key!r} must be one of {list(allowed)}, got {text[key]!r}", file=file
+            )
     scheme = None
     if text["scheme"] is not None:
         scheme_path = Path(text["scheme"])

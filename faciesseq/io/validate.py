@@ -186,7 +186,7 @@ def _blank(values: pd.Series) -> np.ndarray:
 
 
 #: Control characters (NUL and the like) that have no place in a code or a name.
-_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\ufeff]")  # and a stray byte-order mark
 
 
 def _shown(value: object) -> str:
@@ -354,6 +354,7 @@ def _prepare(
         bad[[row for row, _ in found]] = True
         problems += [problem for _, problem in found]
         out[role] = numbers
+    problems += _bad_cores(out["core"], table.file, rows, bad)
     where = _Where(table.file, rows, out["core"], out[roles[0]])
     out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
     attributes = _attribute_columns(src, match, roles, table, rows, problems)
@@ -384,6 +385,30 @@ def _prepare(
     prepared = _Rows(table, layout, frame, list(attributes), stated, row_units, problems)
     prepared.roles = dict(match.roles)
     return prepared
+
+
+def _bad_cores(cores: pd.Series, file: str, rows: np.ndarray, bad: np.ndarray) -> list[Problem]:
+    """An error for each core name holding a control character (a NUL byte, a stray
+    byte-order mark), which would make an unseen core of its own; its rows marked ``bad``."""
+    names = cores.cat.categories
+    codes = cores.cat.codes.to_numpy()
+    found = []
+    for k in np.flatnonzero([bool(_CONTROL.search(str(c))) for c in names]):
+        held = np.flatnonzero(codes == k)
+        if len(held):
+            bad[held] = True
+            found.append((held[0], names[k]))
+    return [
+        Problem(
+            "error",
+            "bad-core",
+            f"core identifier {name!r} holds a control character (e.g. a NUL "
+            "byte); the file may be damaged or of another encoding",
+            file=file,
+            row=int(rows[first]),
+        )
+        for first, name in sorted(found)  # in order of first appearance
+    ]
 
 
 @dataclass(frozen=True)

@@ -513,7 +513,9 @@ def analyse(
                 warnings.append(f"core {p.core} left out: {p.message}")
         kept = screening.kept if exclude_irregular else data
         # the beds' attributes only for grouping by one of them
-        found = kept.succession_beds(attributes=by != "core") if unit == "beds" else None
+        found = (
+            kept.succession_beds(attributes=by not in (None, "core")) if unit == "beds" else None
+        )
         if found is None:
             successions = kept.successions(unit, step)
         else:

@@ -64,27 +64,25 @@ def tops_table(interp) -> pd.DataFrame:
     uncertainty interval), ``probability`` (of the surface at the pick) and
     ``units`` (``m`` or ``ft``).
     """
-    frames = []
-    for core in interp:
-        picks = core.picks
-        if not len(picks):
-            continue
-        part = pd.DataFrame(
-            {
-                "well": core.core,
-                "surface": picks["surface"].to_numpy(),
-                "name": picks["name"].to_numpy(),
-                "depth": picks["depth"].to_numpy(float),
-                "depth_top": picks["depth_top"].to_numpy(float),
-                "depth_base": picks["depth_base"].to_numpy(float),
-                "probability": picks["probability"].to_numpy(float),
-                "units": core.units,
-            }
-        )
-        frames.append(part.sort_values("depth", kind="stable"))
-    if not frames:
+    picks = interp.picks
+    if not len(picks):
         return pd.DataFrame(columns=list(TOPS_COLUMNS))
-    return pd.concat(frames, ignore_index=True)[list(TOPS_COLUMNS)]
+    well = picks["core"].to_numpy(object)
+    position = interp.wells.index.get_indexer(well)
+    depth = picks["depth"].to_numpy(float)
+    table = pd.DataFrame(
+        {
+            "well": well,
+            "surface": picks["surface"].to_numpy(),
+            "name": picks["name"].to_numpy(),
+            "depth": depth,
+            "depth_top": picks["depth_top"].to_numpy(float),
+            "depth_base": picks["depth_base"].to_numpy(float),
+            "probability": picks["probability"].to_numpy(float),
+            "units": interp.wells["units"].to_numpy(object)[position],
+        }
+    )
+    return table.take(np.lexsort((depth, position))).reset_index(drop=True)
 
 
 def _bed_index(beds: pd.DataFrame, depth: np.ndarray) -> np.ndarray:

@@ -71,7 +71,7 @@ def bed_widths(beds: pd.DataFrame, scheme: FaciesScheme) -> tuple[np.ndarray, st
     """
     codes = beds["facies"].astype(str).tolist()
     if "grain_size" in beds.columns:
-        grain = pd.to_numeric(beds["grain_size"], errors="coerce").to_numpy(float)
+        grain = pd.to_numeric(beds["grain_size"], errors="coerce").to_numpy(float, copy=True)
     else:
         grain = np.full(len(beds), np.nan)
     for i, code in enumerate(codes):

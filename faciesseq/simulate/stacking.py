@@ -11,10 +11,13 @@ parasequence's base (deepest facies, on its flooding surface) and top
 (shallowest facies) moving through the tract:
 
 - HST: aggradational then progradational; tops shallow upward, the early
-  parasequences thick;
-- FSST: progradational with a downward shift; bases shallower, tops at the
-  shoreline, thin parasequences that shallow fast (facies skipped); a sharp or
-  erosional contact (regressive surface of marine erosion) at its base, the BSFR;
+  parasequences thick; where a falling stage follows, the well lies basinward
+  of the highstand shoreline and the tops stop below the shoreface;
+- FSST: progradational with a downward shift; its first parasequence has no
+  flooding surface at its base but lies shallower than the highstand top below
+  it (facies missing across a sharp or erosional contact, the regressive
+  surface of marine erosion: the BSFR of this generator); then thin, shallow
+  parasequences that shallow fast (facies skipped), tops down to the shoreline;
 - LST: the shallowest position, aggradational to slightly progradational; the
   sequence boundary (erosional contact) at its base, the MRS at its top;
 - TST: retrogradational; each parasequence's base and top deeper than the one
@@ -86,12 +89,25 @@ class TractStacking:
 
 
 #: The stacking of each tract (Van Wagoner et al. 1990; Catuneanu et al. 2009).
+#: The FSST's first parasequence has no flooding surface at its base: it lies a
+#: downward shift shallower than the top below (see :func:`_plan_tract`).
 STACKING = {
     "HST": TractStacking(base=(1.0, 0.5), top=(0.6, 0.05), skip=0.1, thickness=(1.3, 0.8)),
-    "FSST": TractStacking(base=(0.65, 0.4), top=(0.3, 0.1), skip=0.6, thickness=(0.8, 0.6)),
+    "FSST": TractStacking(base=(0.3, 0.25), top=(0.15, 0.0), skip=0.6, thickness=(0.8, 0.6)),
     "LST": TractStacking(base=(0.45, 0.35), top=(0.1, 0.0), skip=0.15, thickness=(1.0, 1.0)),
     "TST": TractStacking(base=(0.5, 1.0), top=(0.2, 0.85), skip=0.15, thickness=(1.2, 0.6)),
 }
+
+#: The highstand of a well where a falling stage follows: the well lies basinward of
+#: the highstand shoreline, so the highstand's tops stop below the shoreface and
+#: the forced-regressive shoreface can shift down onto them (Plint & Nummedal 2000,
+#: Geol. Soc. London Spec. Publ. 172:1-17; Posamentier & Morris 2000, same volume).
+HST_BEFORE_FALL = TractStacking(base=(1.0, 0.6), top=(0.6, 0.35), skip=0.1, thickness=(1.3, 0.8))
+
+#: Smallest downward shift (ranks) at the base of the FSST: its first bed lies at
+#: least this much shallower than the highstand top below (facies missing across
+#: the regressive surface of marine erosion), where the scheme has room.
+DOWNWARD_SHIFT = 2
 
 #: Spread (in ranks) of a parasequence's base and top about the tract's trend.
 RANK_SPREAD = 0.35
@@ -442,23 +458,31 @@ def _plan_tract(
     previous_top: int,
     rng: np.random.Generator,
     shift: int = 0,
+    before_fall: bool = False,
 ) -> list[tuple[int, int, float]]:
     """``(base rank, top rank, position 0..1)`` of each parasequence of a tract, upward.
 
-    Ranks follow the tract's stacking (:data:`STACKING`) with a spread of
-    :data:`RANK_SPREAD`; a top never reaches the deepest facies and each base
-    lies deeper than the top below it, so every parasequence starts on a
-    flooding surface (Van Wagoner et al. 1990). ``shift`` deepens both ranks (a
-    basinward well of a section).
+    Ranks follow the tract's stacking (:data:`STACKING`; :data:`HST_BEFORE_FALL`
+    for a highstand with ``before_fall``, a falling stage above it) with a
+    spread of :data:`RANK_SPREAD`; a top never reaches the deepest facies and
+    each base lies deeper than the top below it, so every parasequence starts on
+    a flooding surface (Van Wagoner et al. 1990), except the first of the FSST:
+    forced regression shifts the facies down at its base, so that parasequence
+    lies :data:`DOWNWARD_SHIFT` ranks shallower than the top below where the
+    scheme has room. ``shift`` deepens both ranks (a basinward well of a section).
     """
-    rule = STACKING[tract]
+    rule = HST_BEFORE_FALL if tract == "HST" and before_fall else STACKING[tract]
     plans = []
     for i in range(count):
         u = i / (count - 1) if count > 1 else 0.5
         base = round(_lerp(rule.base, u) * deepest + RANK_SPREAD * rng.standard_normal()) + shift
         top = round(_lerp(rule.top, u) * deepest + RANK_SPREAD * rng.standard_normal()) + shift
         top = int(np.clip(top, 0, deepest - 1))
-        base = int(np.clip(max(base, top, previous_top + 1), 0, deepest))
+        if tract == "FSST" and i == 0 and previous_top >= 0:
+            top = min(top, max(previous_top - DOWNWARD_SHIFT, 0))
+            base = int(np.clip(min(base, previous_top - DOWNWARD_SHIFT), top, deepest))
+        else:
+            base = int(np.clip(max(base, top, previous_top + 1), 0, deepest))
         plans.append((base, top, u))
         previous_top = top
     return plans
@@ -537,11 +561,14 @@ def _core_beds(
             (k, seq, tract, None) for k, (seq, tract) in enumerate(_core_tracts(scenario, rng))
         ]
         well = {"steps": steps, "tst_factor": 1.0, "shift": 0}
-    for step, sequence, tract, count in well["steps"]:
+    above = [s[2] for s in well["steps"][1:]] + [None]
+    for (step, sequence, tract, count), next_tract in zip(well["steps"], above, strict=True):
         if count is None:
             low, high = scenario.parasequences[tract]
             count = int(rng.integers(low, high + 1))
-        plans = _plan_tract(tract, count, deepest, previous_top, rng, well["shift"])
+        plans = _plan_tract(
+            tract, count, deepest, previous_top, rng, well["shift"], next_tract == "FSST"
+        )
         factor = well["tst_factor"] if tract == "TST" else 1.0
         for position, (base, top, u) in enumerate(plans, start=1):
             first = len(beds)

@@ -1,0 +1,18 @@
+~Version
+ VERS.   2.0 : CWLS LOG ASCII STANDARD - VERSION 2.0
+ WRAP.   NO  : One line per depth step
+~Well
+ STRT.M   100.0 :
+ STOP.M   102.0 :
+ STEP.M   0.5 :
+ NULL.    -999.25 :
+ WELL.    W9 : WELL
+~Curve
+ DEPT.M      : depth
+ FACIES.    : facies
+~A
+100.0 1
+100.5 2
+100.5 3
+101.0 2
+101.5 1
