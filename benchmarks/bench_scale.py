@@ -47,15 +47,19 @@ DEMO_BEDS = 524  # beds of the demo database (amalgamated intervals), checked be
 
 
 def make_database(n_beds: int, path: Path) -> int:
-    """Write the demo cores replicated to at least ``n_beds`` beds; return the copies made."""
+    """Write the demo cores replicated to at least ``n_beds`` beds; return the copies made.
+
+    Written a copy at a time (the rows of the demo as text once, each copy's core names
+    put in front), so that 10^7 beds need no table of them in memory."""
     demo = pd.read_csv(DEMO, dtype={"core": str})
+    assert demo.columns[0] == "core"
     copies = max(1, math.ceil(n_beds / DEMO_BEDS))
-    parts = []
-    for k in range(copies):
-        part = demo.copy()
-        part["core"] = part["core"] + f"~{k:05d}"
-        parts.append(part)
-    pd.concat(parts, ignore_index=True).to_csv(path, index=False)
+    cores = demo["core"].tolist()
+    rest = demo.iloc[:, 1:].to_csv(index=False, header=False).splitlines(keepends=True)
+    with path.open("w", encoding="utf-8", newline="") as out:
+        out.write(demo.iloc[:0].to_csv(index=False))
+        for k in range(copies):
+            out.write("".join(f"{c}~{k:05d},{r}" for c, r in zip(cores, rest, strict=True)))
     return copies
 
 

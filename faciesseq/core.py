@@ -85,6 +85,33 @@ class Succession:
         return len(self.beds)
 
 
+def plain_column(values: pd.Series) -> np.ndarray | pd.Series:
+    """A categorical text column as an object array, ``None`` where missing (as the
+    readers give text); any other column as it is."""
+    if not isinstance(values.dtype, pd.CategoricalDtype):
+        return values
+    categories = np.append(np.asarray(values.cat.categories, dtype=object), None)
+    return categories[values.cat.codes.to_numpy()]
+
+
+def plain_frame(table: pd.DataFrame) -> pd.DataFrame:
+    """``table`` with its categorical text columns as object columns (``_file`` kept):
+    what a :class:`Core` and :meth:`CoreSet.to_frame` show. A :class:`CoreTable` keeps
+    text as categoricals (one small integer per interval), which only whole-table
+    operations see."""
+    text = [
+        c for c in table.columns if c != "_file" and isinstance(table[c].dtype, pd.CategoricalDtype)
+    ]
+    if not text:
+        return table
+    if "facies" in text:  # facies codes: text without missing values
+        table = table.assign(facies=table["facies"].astype(str))
+        text.remove("facies")
+    return table.assign(
+        **{c: pd.Series(plain_column(table[c]), index=table.index, dtype=object) for c in text}
+    )
+
+
 @dataclass(frozen=True)
 class SuccessionTable(Sequence):
     """Successions held as one bed table, one after another, each base to top.
@@ -194,13 +221,23 @@ def _aggregate_text(
     rows = np.flatnonzero(known)
     if len(rows) == 0:
         return result
-    codes, uniques = pd.factorize(values.to_numpy(dtype=object)[rows])
-    uniques = np.asarray(uniques, dtype=object)
+    if isinstance(values.dtype, pd.CategoricalDtype):  # integer codes already
+        codes = values.cat.codes.to_numpy()[rows].astype(np.int64)
+        uniques = np.asarray(values.cat.categories, dtype=object)
+    else:
+        codes, uniques = pd.factorize(values.to_numpy(dtype=object)[rows])
+        uniques = np.asarray(uniques, dtype=object)
     beds = bed_id[rows]
     if lowest:  # the last known interval of each bed in depth order
         last = np.r_[beds[1:] != beds[:-1], True]
         result[beds[last]] = uniques[codes[last]]
         return result
+    mixed = _mixed_beds(beds, codes, n_beds)
+    result[beds] = uniques[codes]  # beds of one value: that value
+    if not mixed.any():
+        return result
+    keep = mixed[beds]  # beds of several values: the one covering most thickness
+    beds, codes, rows = beds[keep], codes[keep], rows[keep]
     key = beds.astype(np.int64) * len(uniques) + codes
     sums = pd.Series(thick[rows]).groupby(key, sort=False).sum()
     key_bed = sums.index.to_numpy() // len(uniques)
@@ -209,6 +246,15 @@ def _aggregate_text(
     chosen = sums.index.to_numpy()[first]
     result[chosen // len(uniques)] = uniques[chosen % len(uniques)]
     return result
+
+
+def _mixed_beds(beds: np.ndarray, codes: np.ndarray, n_beds: int) -> np.ndarray:
+    """Per bed, whether its known values (``codes`` of rows of ``beds``, in depth order)
+    differ."""
+    differs = (beds[1:] == beds[:-1]) & (codes[1:] != codes[:-1])
+    mixed = np.zeros(n_beds, dtype=bool)
+    mixed[beds[1:][differs]] = True
+    return mixed
 
 
 def _bed_columns(
@@ -437,7 +483,7 @@ class CoreTable(Mapping):
         core = self._made.get(name)
         if core is None:
             k = self._position[name]
-            rows = self.table.iloc[self.starts[k] : self.starts[k + 1]]
+            rows = plain_frame(self.table.iloc[self.starts[k] : self.starts[k + 1]])
             core = self._made[name] = Core(name, rows, self.units)
         return core
 
@@ -516,7 +562,7 @@ class CoreSet:
     def to_frame(self, provenance: bool = False) -> pd.DataFrame:
         """All intervals in one table (``core`` first), cores in order, depth order within."""
         if isinstance(self.cores, CoreTable):
-            table = self.cores.table.copy()
+            table = plain_frame(self.cores.table).copy()
             if not provenance:
                 table = table.drop(columns=[c for c in PROVENANCE if c in table.columns])
             names = np.array(self.cores.names, dtype=object)
@@ -576,17 +622,26 @@ class CoreSet:
             codes = {c for core in self for c in core.intervals["facies"].unique()}
         return sorted(codes, key=lambda c: (len(c), c))
 
-    def _bed_table(self, tolerance: float = DEPTH_TOL) -> tuple[pd.DataFrame, np.ndarray] | None:
+    def _bed_table(
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True
+    ) -> tuple[pd.DataFrame, np.ndarray] | None:
         """Beds of every core in one table (cores in order, depth order within) and the
         core number of each bed; computed once per tolerance with one vectorised pass
         over all intervals. ``None`` where the cores' attribute columns differ (then
-        each core is done on its own)."""
+        each core is done on its own). ``attributes=False``: the beds without their
+        aggregated attributes (unless already made with them), for what needs only
+        the beds' facies, depths and number."""
         key = ("beds", float(tolerance))
         derived = self._cache
         if key in derived:
             return derived[key]
+        if not attributes:
+            key = ("beds without attributes", float(tolerance))
+            if key in derived:
+                return derived[key]
         if isinstance(self.cores, CoreTable):
             attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
+            attrs = attrs if attributes else []
             data, bed_core = _bed_columns(self.cores.table, self.cores.core_ids(), attrs, tolerance)
             names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
             derived[key] = (pd.DataFrame(data, columns=names), bed_core)
@@ -595,7 +650,7 @@ class CoreSet:
         numbers = [k for k, c in enumerate(self.cores.values()) if len(c.intervals)]
         used = [c for c in self.cores.values() if len(c.intervals)]
         if used:
-            attrs = used[0].attributes
+            attrs = used[0].attributes if attributes else []
             columns = list(used[0].intervals.columns)
             dtypes = used[0].intervals.dtypes.tolist()
             same = all(
@@ -621,7 +676,8 @@ class CoreSet:
     def column(self, name: str) -> np.ndarray:
         """One interval column over every core (cores in order, depth order within)."""
         if isinstance(self.cores, CoreTable):
-            return self.cores.table[name].to_numpy()
+            values = plain_column(self.cores.table[name])
+            return values if isinstance(values, np.ndarray) else values.to_numpy()
         parts = [core.intervals[name].to_numpy() for core in self]
         return np.concatenate(parts) if parts else np.zeros(0)
 
@@ -651,7 +707,7 @@ class CoreSet:
 
     def bed_counts(self, tolerance: float = DEPTH_TOL) -> dict[str, int]:
         """Number of beds of every core (``len(core.beds())``), cores in order."""
-        found = self._bed_table(tolerance)
+        found = self._bed_table(tolerance, attributes=False)
         if found is None:
             return {name: len(core.beds(tolerance)) for name, core in self.cores.items()}
         counts = np.bincount(found[1], minlength=len(self.cores))
@@ -691,7 +747,7 @@ class CoreSet:
         )
 
     def succession_beds(
-        self, tolerance: float = DEPTH_TOL
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True
     ) -> tuple[pd.DataFrame, np.ndarray, list[str], list[int]] | None:
         """The beds of every succession in one table, without making the successions.
 
@@ -699,8 +755,9 @@ class CoreSet:
         order, then segments from the top of the core), each **base to top**; the
         first row of each succession and, last, the number of rows; and the core
         and segment of each succession. ``None`` where the cores' columns differ.
+        ``attributes=False``: the beds' aggregated attributes may be left out.
         """
-        found = self._bed_table(tolerance)
+        found = self._bed_table(tolerance, attributes)
         if found is None:
             return None
         table, bed_core = found

@@ -198,7 +198,7 @@ def read_wells(path: str) -> WellTable:
     if len(tables) != 1:
         raise InputError("give the wells table as one file", file=str(path))
     table = tables[0]
-    wells = wells_from_frame(table.frame, str(path), table.row_numbers())
+    wells = wells_from_frame(table.frame, str(path), table.row_numbers().tolist())
     extra = tuple(problems) + tuple(p for p in table.problems if p.severity == "warning")
     return WellTable(wells.frame, wells.file, wells.position_label, extra + wells.problems)
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from faciesseq.errors import InputError, Problem
@@ -52,12 +53,15 @@ class RawTable:
 
     frame: pd.DataFrame
     file: str
-    rows: list[int] | None = None
+    rows: np.ndarray | list[int] | None = None
     units: str | None = None
     core: str | None = None
     layout: str | None = None
     roles: dict[str, str] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
 
-    def row_numbers(self) -> list[int]:
-        return list(self.rows) if self.rows is not None else list(range(1, len(self.frame) + 1))
+    def row_numbers(self) -> np.ndarray:
+        """The source row of each row of ``frame`` (an integer array)."""
+        if self.rows is None:
+            return np.arange(1, len(self.frame) + 1)
+        return np.asarray(self.rows, dtype=np.int64)

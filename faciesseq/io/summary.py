@@ -124,17 +124,26 @@ class DatabaseSummary:
 
 
 def _records(frame: pd.DataFrame) -> list[dict]:
-    out = []
-    for row in frame.to_dict(orient="records"):
-        clean = {}
-        for key, value in row.items():
-            if isinstance(value, np.integer):
-                value = int(value)
-            elif isinstance(value, float | np.floating):
-                value = None if np.isnan(value) else float(value)
-            clean[key] = value
-        out.append(clean)
-    return out
+    """Rows as JSON-ready dicts: Python numbers, ``None`` for NaN (a column at a time)."""
+    columns = [_plain_values(frame[name]) for name in frame.columns]
+    names = list(frame.columns)
+    return [dict(zip(names, row, strict=True)) for row in zip(*columns, strict=True)]
+
+
+def _plain_values(column: pd.Series) -> list:
+    if column.dtype.kind == "f":
+        return [None if v != v else v for v in column.tolist()]  # NaN is not equal to itself
+    if column.dtype.kind in "iu":
+        return column.tolist()
+    return [_plain(v) for v in column.tolist()]
+
+
+def _plain(value):
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, float | np.floating):
+        return None if np.isnan(value) else float(value)
+    return value
 
 
 def _whole_table(cores: CoreSet, steps: dict) -> tuple:
@@ -150,7 +159,7 @@ def _whole_table(cores: CoreSet, steps: dict) -> tuple:
     gap[starts[:-1]] = False
     width = np.r_[0.0, top[1:] - base[:-1]]
     owner = cores.cores.core_ids()
-    bed_table, bed_core = cores._bed_table()
+    bed_table, bed_core = cores._bed_table(attributes=False)
     core_frame = pd.DataFrame(
         {
             "core": cores.names,
@@ -211,6 +220,16 @@ def _core_by_core(cores: CoreSet, steps: dict) -> tuple:
     return core_frame, beds, interval_facies, interval_thick
 
 
+def _by_facies(thickness: pd.Series, facies: pd.Series) -> pd.DataFrame:
+    """Count and sum of the intervals' thickness per facies code (index)."""
+    if not isinstance(facies.dtype, pd.CategoricalDtype):
+        return thickness.groupby(facies.to_numpy(), sort=False).agg(["count", "sum"])
+    # grouped on the integer codes (the same rows in the same order), named after
+    stats = thickness.groupby(facies.cat.codes.to_numpy(), sort=False).agg(["count", "sum"])
+    stats.index = facies.cat.categories[stats.index]
+    return stats
+
+
 def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSummary:
     """Per-core and per-facies counts and thicknesses of a core set.
 
@@ -239,11 +258,7 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
         .groupby(beds["facies"].to_numpy(), sort=False)
         .agg(["count", "mean", "median", "min", "max", "std"])
     )
-    interval_stats = (
-        interval_thick.astype(float)
-        .groupby(interval_facies.to_numpy(), sort=False)
-        .agg(["count", "sum"])
-    )
+    interval_stats = _by_facies(interval_thick.astype(float), interval_facies)
     bed_rows = bed_stats.to_dict(orient="index")
     interval_rows = interval_stats.to_dict(orient="index")
     facies_rows = []

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.io.plaincsv import read_plain
 from faciesseq.io.raw import RawTable, check_width
 
 __all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
@@ -176,6 +177,66 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     """A CSV/TSV file; see the module notes on encoding and delimiter."""
     file = str(path)
     try:
+        frame = _read_plain(path) if encoding is None else None
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
+    problems: list[Problem] = []
+    if frame is None:
+        frame, problems, delimiter = _read_text(path, encoding)
+    else:
+        frame, delimiter = frame
+    if delimiter != ",":
+        frame, converted = _decimal_commas(frame)
+        if converted:
+            problems.append(
+                Problem(
+                    "repair",
+                    "decimal-comma",
+                    f"decimal commas read as decimal points in column(s) {', '.join(converted)}",
+                    file=file,
+                )
+            )
+    rows = np.arange(1, len(frame) + 1)
+    keep = frame.notna().any(axis=1).to_numpy()
+    if not keep.all():
+        frame = frame[keep].reset_index(drop=True)
+    return RawTable(frame, file, rows[keep], problems=problems)
+
+
+def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
+    """A plain file (:mod:`faciesseq.io.plaincsv`) and its delimiter; ``None`` when the
+    general reader must read it (not UTF-8, a header name blank, repeated or quoted,
+    ragged rows)."""
+    try:
+        head = _head(path)
+    except UnicodeDecodeError:
+        return None
+    if not head.strip():
+        return None
+    delimiter = _sniff(head, path.suffix.lower())
+    names = [n.strip() for n in head.splitlines()[0].split(delimiter)]
+    check_width(len(names), str(path))
+    if "" in names or len(set(names)) < len(names) or any('"' in n for n in names):
+        return None
+    frame = read_plain(path, delimiter, names)
+    return None if frame is None else (frame, delimiter)
+
+
+def _head(path: Path) -> str:
+    """The start of a text file, enough for :func:`_sniff` (more than 50 lines, or all)."""
+    head = ""
+    with path.open("r", encoding="utf-8", newline="") as stream:
+        while part := stream.read(1 << 16):
+            head += part
+            if len(head.splitlines()) > 50:
+                break
+    return head
+
+
+def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Problem], str]:
+    """Any delimited file, by pandas' parser: cells as text, stripped, blank cells missing."""
+    file = str(path)
+    try:
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
@@ -206,23 +267,7 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
         column = frame.iloc[:, i]
         column = column.str.strip() if column.dtype != float else column
         frame.isetitem(i, column.replace("", np.nan))
-    del stream
-    if delimiter != ",":
-        frame, converted = _decimal_commas(frame)
-        if converted:
-            problems.append(
-                Problem(
-                    "repair",
-                    "decimal-comma",
-                    f"decimal commas read as decimal points in column(s) {', '.join(converted)}",
-                    file=file,
-                )
-            )
-    rows = np.arange(1, len(frame) + 1)
-    keep = frame.notna().any(axis=1).to_numpy()
-    frame = frame[keep].reset_index(drop=True)
-    # text columns stay pandas text (not one Python object per cell): a tenth of the memory
-    return RawTable(frame, file, rows[keep].tolist(), problems=problems)
+    return frame, problems, delimiter
 
 
 _DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"

@@ -34,7 +34,7 @@ from itertools import pairwise
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable
+from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable, plain_frame
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
@@ -115,8 +115,11 @@ def _distinct(values: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
     the index of each cell's value among them (-1: missing); ``None`` for unhashable values.
 
     One pass (``pandas.factorize``), so a column of millions of cells costs one
-    conversion per distinct value afterwards, not one per cell.
+    conversion per distinct value afterwards, not one per cell; none for a categorical
+    column (its codes and categories, which may be in another order).
     """
+    if isinstance(values.dtype, pd.CategoricalDtype):
+        return values.cat.codes.to_numpy(), np.asarray(values.cat.categories, dtype=object)
     raw = values.to_numpy(dtype=object) if values.dtype == object else values
     try:
         ids, uniques = pd.factorize(raw, use_na_sentinel=True)
@@ -138,11 +141,12 @@ def _per_distinct(values: pd.Series, convert) -> np.ndarray:
     ids, uniques = found
     done = np.empty(len(uniques) + 1, dtype=object)
     done[:-1] = [convert(u) for u in uniques]
+    if values.dtype != object:  # one kind of missing value: converted once
+        done[-1] = _missing_converted(values, ids, convert)
+        return done[ids]
     out = done[ids]
     missing = np.flatnonzero(ids < 0)
-    if len(missing) and values.dtype != object:  # one kind of missing value
-        out[missing] = convert(values.iloc[missing[0]])
-    elif len(missing):
+    if len(missing):
         kinds: dict[type, object] = {}
         raw = values.to_numpy(dtype=object)
         for i, value in zip(missing, raw[missing], strict=True):
@@ -152,9 +156,28 @@ def _per_distinct(values: pd.Series, convert) -> np.ndarray:
     return out
 
 
-def _codes(values: pd.Series) -> np.ndarray:
-    """:func:`facies_code` of each value, each distinct value converted once."""
-    return _per_distinct(values, facies_code)
+def _missing_converted(values: pd.Series, ids: np.ndarray, convert) -> object:
+    """``convert`` of the missing value of a column of one kind of missing value."""
+    missing = np.flatnonzero(ids < 0)
+    return convert(values.iloc[missing[0]]) if len(missing) else None
+
+
+def _categorical(values: pd.Series, convert) -> pd.Categorical:
+    """``convert`` of each value (text, or ``None`` for missing) as a categorical column,
+    each distinct value converted once: a column of millions of cells holds one small
+    integer per cell and each distinct text once."""
+    if values.dtype == object:  # several kinds of missing value possible: cell by cell
+        converted = _per_distinct(values, convert)
+        ids, categories = pd.factorize(converted, use_na_sentinel=True)
+        return pd.Categorical.from_codes(ids, pd.Index(categories, dtype=object), validate=False)
+    ids, uniques = _distinct(values)
+    done = np.empty(len(uniques) + 1, dtype=object)
+    done[:-1] = [convert(u) for u in uniques]
+    done[-1] = _missing_converted(values, ids, convert)
+    codes, categories = pd.factorize(done, use_na_sentinel=True)
+    categories = pd.Index(np.asarray(categories, dtype=object), dtype=object)
+    codes = codes.astype(np.int8 if len(categories) < 127 else np.int32)  # one per row next
+    return pd.Categorical.from_codes(codes[ids], categories, validate=False)
 
 
 def _blank(values: pd.Series) -> np.ndarray:
@@ -192,24 +215,83 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
         numbers = pd.to_numeric(values.where(~blank, None), errors="coerce")
         return numbers.to_numpy(dtype=float), blank
     ids, uniques = found
+    numbers, blank = _distinct_numbers(uniques)
+    return numbers[ids], blank[ids]
+
+
+def _distinct_numbers(uniques: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each distinct value as a number and whether it is blank, with one more entry (NaN,
+    blank) for a missing value (index -1)."""
     blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
     read = pd.to_numeric(pd.Series(uniques, dtype=object).where(~blank[:-1], None), errors="coerce")
-    numbers = np.r_[read.to_numpy(dtype=float), np.nan]
-    return numbers[ids], blank[ids]
+    return np.r_[read.to_numpy(dtype=float), np.nan], blank
 
 
 def _numbers_where_all(values: pd.Series) -> pd.Series:
     """A column becomes numeric when every filled cell is a number; otherwise text as read."""
+    found = _distinct(values)
+    if found is not None:  # decided on the distinct values
+        ids, uniques = found
+        numbers, blank = _distinct_numbers(uniques)
+        cells = np.bincount(np.asarray(ids, dtype=np.intp) + 1, minlength=len(numbers))
+        filled = np.r_[cells[1:], cells[0]] > 0  # distinct values present (missing: last)
+        filled &= ~blank
+        if filled.any() and not np.isnan(numbers[filled]).any():
+            return pd.Series(numbers[ids], index=values.index)
+        return _text_where_not_numbers(values, blank[ids])
     numbers, blank = _numbers(values)
     filled = ~blank
     if filled.any() and not np.isnan(numbers[filled]).any():
         return pd.Series(numbers, index=values.index)
+    return _text_where_not_numbers(values, blank)
+
+
+def _text_where_not_numbers(values: pd.Series, blank: np.ndarray) -> pd.Series:
+    """A column kept as text, blank cells ``None``."""
     if values.dtype == object:
         text = values.to_numpy(dtype=object).copy()
-    else:  # the text of each distinct value made once, shared by its cells
-        text = _per_distinct(values, lambda v: v)
-    text[blank] = None
-    return pd.Series(text, index=values.index, dtype=object)
+        text[blank] = None
+        return pd.Series(text, index=values.index, dtype=object)
+    return pd.Series(_categorical(values, _kept_text), index=values.index)
+
+
+def _kept_text(value: object) -> object:
+    """A text cell as read; blank is ``None``."""
+    return None if _is_blank(value) else value
+
+
+def _depths(
+    raw: pd.Series, role: str, file: str, rows: np.ndarray, cores: pd.Series
+) -> tuple[np.ndarray, list[tuple[int, Problem]]]:
+    """A depth column as numbers (NaN where unusable: blank, not a number, a null value
+    such as -999.25, infinite) and an error for each unusable cell, with its row index;
+    each distinct value read and checked once."""
+    found = _distinct(raw)
+    if found is None:  # unhashable values: one at a time
+        ids = np.arange(len(raw))
+        numbers, blank = _numbers(raw)
+    else:
+        ids = found[0]
+        numbers, blank = _numbers(pd.Series(found[1], dtype=object))
+        numbers, blank = np.r_[numbers, np.nan], np.r_[blank, True]  # -1: missing
+    nulls = np.isin(numbers, NULL_NUMBERS)
+    infinite = np.isinf(numbers)  # e.g. 1e309, read as infinity
+    numbers = np.where(nulls | infinite, np.nan, numbers)
+    errors = []
+    for i in np.flatnonzero(np.isnan(numbers)[ids]):
+        k, value = ids[i], raw.iloc[i]
+        if nulls[k]:
+            kind, message = "missing-depth", f"{role} holds the null value {value}"
+        elif blank[k]:
+            kind, message = "missing-depth", f"no {role} depth"
+        elif infinite[k]:
+            kind = "bad-depth"
+            message = f"{role} {_shown(value)} is not a finite number (too large)"
+        else:
+            kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
+        where = {"file": file, "row": int(rows[i]), "core": cores.iloc[i]}
+        errors.append((i, Problem("error", kind, message, **where)))
+    return numbers[ids], errors
 
 
 @dataclass
@@ -263,196 +345,34 @@ def _prepare(
     src = table.frame
     rows = np.asarray(table.row_numbers(), dtype=int)
     problems: list[Problem] = []
-    n = len(src)
-    out = pd.DataFrame(index=range(n))
-    bad = np.zeros(n, dtype=bool)
-
-    # -- core ----------------------------------------------------------------
-    if "core" in match.roles:
-        cores = _codes(src[match.roles["core"]])
-        for i in np.flatnonzero(pd.isna(cores)):
-            bad[i] = True
-            problems.append(
-                Problem(
-                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
-                )
-            )
-        out["core"] = cores
-    else:
-        name = table.core or "core"
-        out["core"] = name
-        if table.layout != "samples" or table.core is None:
-            problems.append(
-                Problem(
-                    "warning",
-                    "no-core-column",
-                    f"no core column; all rows are taken as core {name!r} (map one with "
-                    "--column core=NAME)",
-                    file=table.file,
-                    core=name,
-                )
-            )
+    bad = np.zeros(len(src), dtype=bool)
+    out: dict[str, object] = {}  # the columns, made into a frame once (no copies)
+    out["core"] = _core_column(src, match, table, rows, bad, problems)
     roles = ("top", "base") if layout == "intervals" else ("depth",)
-
-    # -- depths ----------------------------------------------------------------
     for role in roles:
-        raw = src[match.roles[role]]
-        numbers, blank = _numbers(raw)
-        numbers = pd.Series(numbers)
-        nulls = numbers.isin(NULL_NUMBERS).to_numpy()
-        infinite = np.isinf(numbers.to_numpy())  # e.g. 1e309, read as infinity
-        numbers[nulls | infinite] = np.nan
-        for i in np.nonzero(numbers.isna().to_numpy())[0]:
-            bad[i] = True
-            value = raw.iloc[i]
-            if nulls[i]:
-                kind, message = "missing-depth", f"{role} holds the null value {value}"
-            elif blank[i]:
-                kind, message = "missing-depth", f"no {role} depth"
-            elif infinite[i]:
-                kind = "bad-depth"
-                message = f"{role} {_shown(value)} is not a finite number (too large)"
-            else:
-                kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
-            problems.append(
-                Problem(
-                    "error",
-                    kind,
-                    message,
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=out["core"].iloc[i],
-                )
-            )
-        out[role] = numbers.to_numpy()
-    first_depth = out[roles[0]].to_numpy()
-
-    # a NUL byte or a stray byte-order mark in a core name makes an unseen core of its own
-    core_ids, core_names = pd.factorize(out["core"])
-    for k in np.flatnonzero([bool(_CONTROL.search(str(c))) for c in core_names]):
-        held = np.flatnonzero(core_ids == k)
-        bad[held] = True
-        problems.append(
-            Problem(
-                "error",
-                "bad-core",
-                f"core identifier {core_names[k]!r} holds a control character (e.g. a NUL "
-                "byte); the file may be damaged or of another encoding",
-                file=table.file,
-                row=int(rows[held[0]]),
-            )
-        )
-
-    # -- facies ----------------------------------------------------------------
-    codes = _codes(src[match.roles["facies"]])
-    control, resolved = _facies_flags(codes, scheme)
-    unknown: dict[tuple[str, str], list[int]] = {}
-    not_described: dict[str, list[int]] = {}
-    flagged = control | pd.isna(codes)
-    for i in np.flatnonzero(flagged):
-        code = codes[i]
-        bad[i] = True
-        if control[i]:
-            problems.append(
-                Problem(
-                    "error",
-                    "bad-facies",
-                    f"facies code {code!r} holds a control character (e.g. a NUL byte); "
-                    "the file may be damaged or of another encoding",
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=out["core"].iloc[i],
-                    depth=_depth(first_depth[i]),
-                )
-            )
-        elif layout == "samples":
-            not_described.setdefault(out["core"].iloc[i], []).append(i)
-        else:
-            problems.append(
-                Problem(
-                    "error",
-                    "missing-facies",
-                    "no facies code",
-                    file=table.file,
-                    row=int(rows[i]),
-                    core=out["core"].iloc[i],
-                    depth=_depth(first_depth[i]),
-                )
-            )
-    if scheme is not None:
-        known = ~flagged & ~pd.isna(resolved)
-        for i in np.flatnonzero(~flagged & ~known):
-            unknown.setdefault((out["core"].iloc[i], codes[i]), []).append(i)
-            bad[i] = True
-        codes = np.where(known, resolved, codes)
-    for (core, code), idx in unknown.items():
-        count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
-        problems.append(
-            Problem(
-                "error",
-                "unknown-facies",
-                f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
-                "alias of one of its facies; add it (code or alias) to the scheme",
-                file=table.file,
-                row=int(rows[idx[0]]),
-                core=core,
-                depth=_depth(first_depth[idx[0]]),
-            )
-        )
-    for core, idx in not_described.items():
-        listed = ", ".join(str(rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
-        problems.append(
-            Problem(
-                "warning",
-                "not-described",
-                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
-                "left out",
-                file=table.file,
-                row=int(rows[idx[0]]),
-                core=core,
-                depth=_depth(first_depth[idx[0]]),
-            )
-        )
-    out["facies"] = codes
-
-    # -- attributes --------------------------------------------------------------
-    attributes: list[str] = []
-    if "grain_size" in match.roles:
-        out["grain_size"] = _grain_sizes(src[match.roles["grain_size"]], table, rows, problems)
-        attributes.append("grain_size")
-    for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
-        if role in match.roles:
-            values = _per_distinct(src[match.roles[role]], partial(_text, fix=fix))
-            out[role] = pd.Series(values, dtype=object)
-            attributes.append(role)
-    unused = [
-        match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
-    ]
-    extra: dict[str, pd.Series] = {}
-    for col in list(match.others) + unused:
-        name = col if col not in _RESERVED else f"source_{col}"
-        values = _numbers_where_all(src[col].reset_index(drop=True))
-        if name in out.columns:
-            out[name] = values
-        else:
-            extra[name] = values
-        attributes.append(name)
-    if extra:  # joined at once: a column at a time is quadratic in wide tables
-        out = pd.concat([out, pd.DataFrame(extra, index=out.index)], axis=1)
+        numbers, found = _depths(src[match.roles[role]], role, table.file, rows, out["core"])
+        bad[[row for row, _ in found]] = True
+        problems += [problem for _, problem in found]
+        out[role] = numbers
+    problems += _bad_cores(out["core"], table.file, rows, bad)
+    where = _Where(table.file, rows, out["core"], out[roles[0]])
+    out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
+    attributes = _attribute_columns(src, match, roles, table, rows, problems)
+    out.update(attributes)
     row_units = None
     if "units" in match.roles:
-        values = src[match.roles["units"]]
         row_units = pd.Series(
-            _per_distinct(
-                values, lambda v: None if _is_blank(v) else normalise_units(v, where=table.file)
-            ),
-            dtype=object,
+            _categorical(
+                src[match.roles["units"]],
+                lambda v: None if _is_blank(v) else normalise_units(v, where=table.file),
+            )
         )
     # one file name per table: categorical codes, not the name repeated on every row
-    out["_file"] = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [table.file])
+    out["_file"] = pd.Categorical.from_codes(np.zeros(len(src), dtype=np.int8), [table.file])
     out["_row"] = rows
     keep = ~bad
-    frame = out if keep.all() else out[keep].reset_index(drop=True)  # no copy when all kept
+    frame = pd.DataFrame(out, copy=False)
+    frame = frame if keep.all() else frame[keep].reset_index(drop=True)  # no copy: all kept
     if row_units is not None and not keep.all():
         row_units = row_units[keep].reset_index(drop=True)
     del out
@@ -461,9 +381,192 @@ def _prepare(
         raise InputError(
             f"the header says {table.units} but a column name says {match.units}", file=table.file
         )
-    rows = _Rows(table, layout, frame, attributes, stated, row_units, problems + table.problems)
-    rows.roles = dict(match.roles)
-    return rows
+    problems += table.problems
+    prepared = _Rows(table, layout, frame, list(attributes), stated, row_units, problems)
+    prepared.roles = dict(match.roles)
+    return prepared
+
+
+def _bad_cores(cores: pd.Series, file: str, rows: np.ndarray, bad: np.ndarray) -> list[Problem]:
+    """An error for each core name holding a control character (a NUL byte, a stray
+    byte-order mark), which would make an unseen core of its own; its rows marked ``bad``."""
+    names = cores.cat.categories
+    codes = cores.cat.codes.to_numpy()
+    found = []
+    for k in np.flatnonzero([bool(_CONTROL.search(str(c))) for c in names]):
+        held = np.flatnonzero(codes == k)
+        if len(held):
+            bad[held] = True
+            found.append((held[0], names[k]))
+    return [
+        Problem(
+            "error",
+            "bad-core",
+            f"core identifier {name!r} holds a control character (e.g. a NUL "
+            "byte); the file may be damaged or of another encoding",
+            file=file,
+            row=int(rows[first]),
+        )
+        for first, name in sorted(found)  # in order of first appearance
+    ]
+
+
+@dataclass(frozen=True)
+class _Where:
+    """Where each row of a table is: file, source row, core, first depth (for messages)."""
+
+    file: str
+    rows: np.ndarray
+    cores: pd.Series
+    depths: np.ndarray
+
+    def at(self, i: int) -> dict:
+        return {
+            "file": self.file,
+            "row": int(self.rows[i]),
+            "core": self.cores.iloc[i],
+            "depth": _depth(self.depths[i]),
+        }
+
+
+def _core_column(
+    src: pd.DataFrame,
+    match: ColumnMatch,
+    table: RawTable,
+    rows: np.ndarray,
+    bad: np.ndarray,
+    problems: list[Problem],
+) -> pd.Series:
+    """The core of each row (rows without one marked ``bad``, with an error each)."""
+    n = len(src)
+    if "core" in match.roles:
+        cores = _categorical(src[match.roles["core"]], facies_code)
+        for i in np.flatnonzero(cores.codes < 0):
+            bad[i] = True
+            problems.append(
+                Problem(
+                    "error", "missing-core", "no core identifier", file=table.file, row=int(rows[i])
+                )
+            )
+        return pd.Series(cores)
+    name = table.core or "core"
+    if table.layout != "samples" or table.core is None:
+        problems.append(
+            Problem(
+                "warning",
+                "no-core-column",
+                f"no core column; all rows are taken as core {name!r} (map one with "
+                "--column core=NAME)",
+                file=table.file,
+                core=name,
+            )
+        )
+    return pd.Series(pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [name]))
+
+
+def _facies_column(
+    raw: pd.Series,
+    scheme: FaciesScheme | None,
+    layout: str,
+    where: _Where,
+    bad: np.ndarray,
+    problems: list[Problem],
+) -> pd.Categorical:
+    """The facies code of each row, aliases resolved by ``scheme``; rows without a usable
+    code (missing, a control character, not in the scheme) marked ``bad``, with an error
+    (a warning for an undescribed sample)."""
+    facies = _categorical(raw, facies_code)
+    codes = facies.categories.to_numpy()
+    control, resolved = _facies_flags(codes, scheme)
+    ids = np.asarray(facies.codes)
+    not_described: dict[str, list[int]] = {}
+    flagged = (ids < 0) | control[ids]
+    for i in np.flatnonzero(flagged):
+        bad[i] = True
+        if ids[i] >= 0:
+            problems.append(
+                Problem(
+                    "error",
+                    "bad-facies",
+                    f"facies code {codes[ids[i]]!r} holds a control character (e.g. a NUL "
+                    "byte); the file may be damaged or of another encoding",
+                    **where.at(i),
+                )
+            )
+        elif layout == "samples":
+            not_described.setdefault(where.cores.iloc[i], []).append(i)
+        else:
+            problems.append(Problem("error", "missing-facies", "no facies code", **where.at(i)))
+    if scheme is not None:
+        known = ~control & ~pd.isna(resolved)
+        unknown = np.flatnonzero(~flagged & ~known[ids])
+        bad[unknown] = True
+        problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
+        # each distinct code resolved once (aliases and their codes merge)
+        merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
+        merged = np.append(merged, -1).astype(ids.dtype)  # -1: missing stays missing
+        facies = pd.Categorical.from_codes(
+            merged[ids], pd.Index(categories, dtype=object), validate=False
+        )
+    for idx in not_described.values():
+        listed = ", ".join(str(where.rows[i]) for i in idx[:5]) + (" ..." if len(idx) > 5 else "")
+        problems.append(
+            Problem(
+                "warning",
+                "not-described",
+                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
+                "left out",
+                **where.at(idx[0]),
+            )
+        )
+    return facies
+
+
+def _unknown_facies(
+    rows: np.ndarray, codes: np.ndarray, scheme: FaciesScheme, where: _Where
+) -> list[Problem]:
+    """One error per core and code not in ``scheme`` (at its first row)."""
+    found: dict[tuple[str, str], list[int]] = {}
+    for i, code in zip(rows, codes, strict=True):
+        found.setdefault((where.cores.iloc[i], code), []).append(i)
+    problems = []
+    for (_, code), idx in found.items():
+        count = f" ({len(idx)} rows)" if len(idx) > 1 else ""
+        problems.append(
+            Problem(
+                "error",
+                "unknown-facies",
+                f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
+                "alias of one of its facies; add it (code or alias) to the scheme",
+                **where.at(idx[0]),
+            )
+        )
+    return problems
+
+
+def _attribute_columns(
+    src: pd.DataFrame,
+    match: ColumnMatch,
+    roles: tuple[str, ...],
+    table: RawTable,
+    rows: np.ndarray,
+    problems: list[Problem],
+) -> dict[str, object]:
+    """The attribute columns: grain size, contact, tract, lithology, then every other
+    column (numbers where every filled cell is one, else text)."""
+    out: dict[str, object] = {}
+    if "grain_size" in match.roles:
+        out["grain_size"] = _grain_sizes(src[match.roles["grain_size"]], table, rows, problems)
+    for role, fix in (("contact", str.lower), ("tract", str.upper), ("lithology", None)):
+        if role in match.roles:
+            out[role] = _categorical(src[match.roles[role]], partial(_text, fix=fix))
+    unused = [
+        match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
+    ]
+    for col in list(match.others) + unused:
+        name = col if col not in _RESERVED else f"source_{col}"
+        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+    return out
 
 
 def _text(value: object, fix=None) -> str | None:
@@ -475,13 +578,13 @@ def _text(value: object, fix=None) -> str | None:
 
 
 def _facies_flags(codes: np.ndarray, scheme: FaciesScheme | None) -> tuple[np.ndarray, np.ndarray]:
-    """Per row: whether the code holds a control character, and its scheme code (or None)."""
-    ids, uniques = pd.factorize(codes, use_na_sentinel=True)
-    ctl = np.array([bool(_CONTROL.search(c)) for c in uniques] + [False], dtype=bool)
-    res = np.empty(len(uniques) + 1, dtype=object)
+    """Per distinct code: whether it holds a control character, and its scheme code (or
+    None); each with one more entry (``False``, ``None``) for a missing code."""
+    ctl = np.array([bool(_CONTROL.search(c)) for c in codes] + [False], dtype=bool)
+    res = np.empty(len(codes) + 1, dtype=object)
     if scheme is not None:
-        res[:-1] = [scheme.resolve(c) for c in uniques]
-    return ctl[ids], res[ids]
+        res[:-1] = [scheme.resolve(c) for c in codes]
+    return ctl, res
 
 
 def _grain_size(value: object) -> tuple[float, str | None]:
@@ -500,10 +603,15 @@ def _grain_size(value: object) -> tuple[float, str | None]:
 
 
 def _grain_sizes(values: pd.Series, table: RawTable, rows: np.ndarray, problems: list[Problem]):
-    out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
-    word = _per_distinct(values, lambda v: _grain_size(v)[1])
-    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in set(word) if w}
-    unread = np.flatnonzero(word == "")
+    found = _distinct(values)
+    if found is None:
+        out = _per_distinct(values, lambda v: _grain_size(v)[0]).astype(float)
+    else:  # a missing cell (-1) is blank: NaN
+        out = np.r_[[_grain_size(v)[0] for v in found[1]], np.nan][found[0]]
+    word = _categorical(values, lambda v: _grain_size(v)[1])
+    found = list(word.categories)
+    words = {w: _GRAIN_WORDS[re.sub(r"[^a-z]", "", w.lower())] for w in found if w}
+    unread = np.flatnonzero(word.codes == found.index("")) if "" in found else []
     if words:
         listed = ", ".join(f"{w!r}={c:g}" for w, c in sorted(words.items()))
         problems.append(
@@ -539,7 +647,8 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
     stated: dict[str, list[str]] = {}
     for p in prepared:
         if p.row_units is not None:
-            found = set(p.row_units.dropna())
+            codes = p.row_units.cat.codes.to_numpy()
+            found = set(p.row_units.cat.categories[np.unique(codes[codes >= 0])])
             if p.units is not None and any(u != p.units for u in found):
                 raise InputError(
                     f"the units column says {sorted(found)} but the header says {p.units}",
@@ -570,10 +679,10 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
         )
     for p in prepared:
         if p.row_units is not None:
-            per_row = p.row_units.fillna(target).to_numpy()
+            units_of = np.append(p.row_units.cat.categories.to_numpy(dtype=object), target)
+            convert = (units_of != target)[p.row_units.cat.codes.to_numpy()]
         else:
-            per_row = np.full(len(p.frame), p.units or target, dtype=object)
-        convert = per_row != target
+            convert = np.full(len(p.frame), (p.units or target) != target)
         if convert.any():
             factor = FT_TO_M if target == "m" else 1.0 / FT_TO_M
             for col in ("top", "base", "depth"):
@@ -887,7 +996,11 @@ def build_coreset(
         local, found_names = pd.factorize(p.frame["core"])
         names = [str(n) for n in found_names]
         counts = np.bincount(local, minlength=len(names))
-        first_row = p.frame["_row"].to_numpy()[np.unique(local, return_index=True)[1]]
+        # numbered in order of first appearance: a core's first row is where the number
+        # first exceeds every number before it
+        first = np.flatnonzero(np.r_[True, local[1:] > np.maximum.accumulate(local)[:-1]])
+        first = first[: len(names)]  # none for a table without rows
+        first_row = p.frame["_row"].to_numpy()[first]
         owned = np.zeros(len(names), dtype=bool)
         for k, name in enumerate(names):
             if name in owner and owner[name] != file:
@@ -1026,6 +1139,8 @@ def _assemble(
         frame.assign(_file=frame["_file"].cat.set_categories(files)) for frame, _, _ in blocks
     ]
     ids = [np.array([rank[n] for n in names], dtype=np.int64)[which] for _, names, which in blocks]
+    if len(frames) > 1:  # categorical text of each block's own categories: compared as text
+        frames = [plain_frame(frame) for frame in frames]
     if frames and all(
         list(f.columns) == list(frames[0].columns)
         and f.dtypes.tolist() == frames[0].dtypes.tolist()
@@ -1037,14 +1152,17 @@ def _assemble(
             perm = np.argsort(core_id, kind="stable")
             table = table.take(perm).reset_index(drop=True)
             core_id = core_id[perm]
-        table["facies"] = table["facies"].astype(str)
-        present, first = np.unique(core_id, return_index=True)
+        if not isinstance(table["facies"].dtype, pd.CategoricalDtype):  # one table's codes
+            table["facies"] = table["facies"].astype(str)
+        first = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])  # in core order
+        present = core_id[first]
         starts = np.r_[first, len(core_id)]
         return CoreTable([order[k] for k in present], table, starts, units)
     cores: dict[str, Core] = {}
     for frame, names, which in blocks:
         for k, rows in pd.Series(np.arange(len(which))).groupby(which, sort=False).indices.items():
-            cores[names[k]] = Core(names[k], frame.take(rows).reset_index(drop=True), units)
+            part = plain_frame(frame.take(rows).reset_index(drop=True))
+            cores[names[k]] = Core(names[k], part, units)
     return {name: cores[name] for name in order if name in cores}
 
 
@@ -1069,14 +1187,17 @@ def _check_all_intervals(
     new_core = np.r_[True, core_of_row[1:] != core_of_row[:-1]]
     thin = (top > base) | (base - top <= DEPTH_TOL)
     overlap = base[:-1] - top[1:]  # with the interval above, as _check_intervals measures it
-    step_top, step_base = np.diff(top), np.diff(base)
-    in_order = (step_top > 0) | ((step_top == 0) & (step_base >= 0))
+    step = np.diff(top)
+    in_order, same_top = step > 0, step == 0
+    np.subtract(base[1:], base[:-1], out=step)  # the step of the bases, in the same memory
+    in_order |= same_top & (step >= 0)
+    del step, same_top
     odd = thin | (np.r_[False, ~in_order | (overlap > DEPTH_TOL)] & ~new_core)
     dirty = np.zeros(len(names), dtype=bool)
     dirty[core_of_row[odd]] = True
     problems: list[Problem] = []
     rows = frame["_row"].to_numpy()
-    gap = np.r_[False, -overlap > DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
+    gap = np.r_[False, overlap < -DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
     for i in np.flatnonzero(gap):
         problems.append(
             Problem(

@@ -512,7 +512,10 @@ def analyse(
                 excluded.append(p.core)
                 warnings.append(f"core {p.core} left out: {p.message}")
         kept = screening.kept if exclude_irregular else data
-        found = kept.succession_beds() if unit == "beds" else None
+        # the beds' attributes only for grouping by one of them
+        found = (
+            kept.succession_beds(attributes=by not in (None, "core")) if unit == "beds" else None
+        )
         if found is None:
             successions = kept.successions(unit, step)
         else:

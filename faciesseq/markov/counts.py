@@ -175,17 +175,20 @@ def _encode_flat(
         if bad.any():
             raise InputError(f"integer facies code {int(arr[bad][0])} outside 0..{m - 1}")
     else:
-        text = pd.Index(flat.astype(str)) if len(flat) else pd.Index([], dtype=object)
+        # each distinct value as text once (missing values too: "nan", "None")
+        values = flat if flat.dtype == object else flat.astype(str)
+        ids, distinct = pd.factorize(values, use_na_sentinel=False)
+        text = pd.Index(np.asarray(distinct, dtype=object).astype(str), dtype=object)
         if codes is None:
-            present = set(text.unique())
-            codes = sorted(present, key=lambda c: (len(c), c))
+            codes = sorted(set(text), key=lambda c: (len(c), c))
         codes = [str(c) for c in codes]
         if len(set(codes)) != len(codes):
             raise InputError(f"facies codes listed twice in {codes}")
-        arr = pd.Index(codes).get_indexer(text) if len(flat) else np.zeros(0, dtype=np.int64)
+        found = pd.Index(codes).get_indexer(text)
+        arr = found[ids] if len(flat) else np.zeros(0, dtype=np.int64)
         if (arr < 0).any():
             first_bad = int(np.nonzero(arr < 0)[0][0])
-            unknown = sorted(set(text[arr < 0]))
+            unknown = sorted(set(text[found < 0]))
             raise InputError(
                 f"facies {unknown} not in the facies list {list(codes)}; add them to the "
                 "scheme or map them with aliases",

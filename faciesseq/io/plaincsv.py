@@ -1,0 +1,114 @@
+"""Plain delimited text read in blocks by pyarrow, one categorical column per source column.
+
+A *plain* file is UTF-8 without a byte-order mark, with no quote character, no NUL
+byte and no empty line. Such a file reads here to the same cells as the general
+reader (:func:`faciesseq.io.tabular.read_delimited`, pandas' parser with
+``skipinitialspace``, its default missing-value words, then each cell stripped and
+blank cells missing), but in blocks and column by column: each block's column is
+dictionary-encoded while parsed, so the text of a repeated value (a core name, a
+facies code, a units word) is held once, not once per row. Anything else (quotes,
+ragged rows, empty lines, bytes that are not UTF-8) is found while reading and left
+to the general reader.
+"""
+
+from __future__ import annotations
+
+import codecs
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["read_plain"]
+
+#: Bytes parsed at a time.
+BLOCK_BYTES = 1 << 22
+#: Cells pandas' parser reads as missing (its default ``na_values``).
+NA_WORDS = sorted(pd._libs.parsers.STR_NA_VALUES)
+
+
+def read_plain(path: Path, delimiter: str, names: list[str]) -> pd.DataFrame | None:
+    """The cells of a plain file (header ``names``, already stripped) as a frame of
+    categorical text columns, missing cells NaN; ``None`` when the file is not plain or
+    pyarrow cannot read it as a table of ``len(names)`` columns (ragged rows)."""
+    import pyarrow as pa
+    from pyarrow import csv
+
+    with path.open("rb") as stream:
+        if stream.read(3) == codecs.BOM_UTF8:
+            return None
+    header = reader_names(path, delimiter)
+    if len(header) != len(names):
+        return None
+    text = pa.dictionary(pa.int32(), pa.string())
+    try:
+        reader = csv.open_csv(
+            path,
+            read_options=csv.ReadOptions(use_threads=False, block_size=BLOCK_BYTES),
+            # an empty line is a row of one cell: refused, as a ragged row is
+            parse_options=csv.ParseOptions(
+                delimiter=delimiter, quote_char=False, ignore_empty_lines=False
+            ),
+            convert_options=csv.ConvertOptions(
+                column_types=dict.fromkeys(header, text),
+                strings_can_be_null=False,
+                null_values=[],
+            ),
+        )
+        blocks = [[] for _ in names]
+        for batch in reader:
+            for j, column in enumerate(batch.columns):
+                blocks[j].append((_narrow(column), column.dictionary))
+    except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError):
+        return None
+    if not blocks or not blocks[0] or len(blocks) != len(names):
+        return None
+    frame = {}
+    for j, name in enumerate(names):
+        column = _categorical(blocks[j])
+        if column is None:
+            return None
+        frame[name] = column
+        blocks[j] = None  # each block's codes released once its column is made
+    return pd.DataFrame(frame, copy=False)
+
+
+def reader_names(path: Path, delimiter: str) -> list[str]:
+    """The header's names as pyarrow reads them (not stripped)."""
+    with path.open("r", encoding="utf-8", newline="") as stream:
+        return stream.readline().rstrip("\r\n").split(delimiter)
+
+
+def _narrow(column) -> np.ndarray:
+    """A block's dictionary indices in the smallest integer type that holds them."""
+    size = len(column.dictionary)
+    dtype = np.int8 if size < 127 else np.int16 if size < 32767 else np.int32
+    return column.indices.to_numpy(zero_copy_only=False).astype(dtype)
+
+
+def _categorical(blocks: list[tuple[np.ndarray, object]]) -> pd.Categorical | None:
+    """One column from its blocks: each distinct text read as pandas reads it, once;
+    ``None`` when a cell holds a quote character or a NUL byte."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    texts = pa.concat_arrays([d for _, d in blocks])
+    if pc.any(pc.match_substring_regex(texts, '["\\x00]')).as_py():
+        return None  # a quote or a NUL byte: the general reader's
+    # pandas skips spaces after the delimiter, then tests its missing-value words
+    missing = pc.is_in(pc.utf8_ltrim(texts, characters=" "), value_set=pa.array(NA_WORDS))
+    stripped = pc.utf8_trim_whitespace(texts)
+    missing = pc.or_(missing, pc.equal(stripped, ""))
+    values = pd.Series(pd.arrays.ArrowStringArray(pc.if_else(missing, None, stripped)))
+    ids, uniques = pd.factorize(values, use_na_sentinel=True)
+    n = sum(len(codes) for codes, _ in blocks)
+    dtype = np.int8 if len(uniques) < 127 else np.int16 if len(uniques) < 32767 else np.int32
+    codes = np.empty(n, dtype=dtype)
+    ids = ids.astype(dtype)
+    start = offset = 0
+    for block_codes, dictionary in blocks:
+        codes[start : start + len(block_codes)] = ids[offset + block_codes.astype(np.intp)]
+        start += len(block_codes)
+        offset += len(dictionary)
+    categories = pd.Index(np.asarray(uniques, dtype=object), dtype=object)
+    return pd.Categorical.from_codes(codes, categories=categories, validate=False)
