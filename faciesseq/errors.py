@@ -107,6 +107,15 @@ class Problem:
     depth: float | None = None
     units: str | None = None
 
+    def __post_init__(self) -> None:
+        # a missing core name read from a table arrives as NaN: keep it None, so
+        # that the JSON of `check` stays valid and messages name no "nan" core
+        if self.core is not None and not isinstance(self.core, str):
+            if self.core != self.core:  # NaN
+                object.__setattr__(self, "core", None)
+        if self.depth is not None and self.depth != self.depth:
+            object.__setattr__(self, "depth", None)
+
     def __str__(self) -> str:
         loc = where(self.file, self.row, self.core, self.depth, self.units)
         return (

@@ -1,6 +1,7 @@
 """``faciesseq check`` summary (text and JSON) and ``faciesseq scheme draft|show``."""
 
 import json
+from pathlib import Path
 
 import pandas as pd
 import pytest
@@ -117,3 +118,15 @@ def test_scheme_show_lists_facies_landward_to_basinward(capsys):
     assert facies == ["1", "2", "3", "7", "8", "6", "5", "9", "4"]
     assert main(["scheme", "show", "configs/tracts-default.yaml"]) == 0
     assert "HST -> FSST -> LST -> TST -> HST" in capsys.readouterr().out
+
+
+def test_check_json_stays_valid_json_when_a_row_has_no_core_name(tmp_path, capsys):
+    """A row without a core name is reported with ``"core": null`` (it was NaN, which
+    is not JSON, and the command ended in a traceback)."""
+    f = tmp_path / "samples.csv"
+    f.write_text("well,depth,facies\nA,1.0,3\nA,1.5,4\nB,2,4\nB,3,9\n,5,1\n")
+    scheme = Path(__file__).resolve().parents[1] / "configs" / "scheme-shoreface.yaml"
+    assert main(["check", str(f), "--scheme", str(scheme), "--format", "json"]) == 1
+    doc = json.loads(capsys.readouterr().out)
+    missing = [p for p in doc["problems"] if p["kind"] == "missing-core"]
+    assert missing and all(p["core"] is None and p["row"] for p in missing)
