@@ -110,9 +110,8 @@ class Problem:
     def __post_init__(self) -> None:
         # a missing core name read from a table arrives as NaN: keep it None, so
         # that the JSON of `check` stays valid and messages name no "nan" core
-        if self.core is not None and not isinstance(self.core, str):
-            if self.core != self.core:  # NaN
-                object.__setattr__(self, "core", None)
+        if self.core is not None and not isinstance(self.core, str) and self.core != self.core:
+            object.__setattr__(self, "core", None)
         if self.depth is not None and self.depth != self.depth:
             object.__setattr__(self, "depth", None)
 

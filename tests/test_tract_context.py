@@ -137,6 +137,9 @@ def test_a_large_database_chooses_its_graph_on_a_sample_of_whole_cores(monkeypat
     chosen = next(r for r in sampled.graph_selection_ if r["selected"])
     assert chosen["skips"] == list(sampled.tract_model_.skips)
     np.testing.assert_array_equal(sampled.transmat_, again.transmat_)  # the seed decides
+    # one EM run on every bed, started from the sample's fit of the chosen graph
+    assert [r.get("from_sample") for r in sampled.restarts_] == [True]
+    assert all("from_sample" not in r for r in whole.restarts_)
 
 
 def test_decoded_columns_follow_the_graph_and_picks_follow_the_column(fitted):

@@ -94,9 +94,9 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     for k, row in enumerate(rows):
         row["selected"] = k == best
         row["n_beds"] = n_sample
-    if len(sample) < len(succ):  # the chosen graph, on every bed
+    if len(sample) < len(succ):  # the chosen graph on every bed, from the sample's fit
         chosen = {**params, "tract_model": graphs[best]}
-        fits[best] = _fit_graph(type(model), chosen, succ, progress)
+        fits[best] = _fit_graph(type(model), chosen, succ, progress, warm=fits[best])
     return fits[best], rows
 
 
@@ -108,11 +108,36 @@ def sample_successions(succ: Sequence[Succession], n_beds: int, seed) -> Sequenc
         return succ
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
     order = rng.permutation(len(succ))
-    keep = order[: int(np.searchsorted(np.cumsum(sizes[order]), n_beds)) + 1]
-    return [succ[i] for i in np.sort(keep)]
+    keep = list(order[: int(np.searchsorted(np.cumsum(sizes[order]), n_beds)) + 1])
+    return [succ[i] for i in sorted(keep + _covering(succ, keep))]
 
 
-def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None):
+def _covering(succ: Sequence[Succession], keep: list[int]) -> list[int]:
+    """Successions to add to ``keep`` so that every facies and contact type of
+    ``succ`` is in the sample (the fit on every bed then starts from its parameters)."""
+
+    def values(s: Succession) -> set:
+        out = set(map(str, s.facies))
+        if "contact" in s.beds:
+            out |= {"contact:" + str(c) for c in s.beds["contact"].dropna()}
+        return out
+
+    seen = set().union(*(values(succ[i]) for i in keep))
+    added = []
+    for i in range(len(succ)):
+        new = values(succ[i]) - seen
+        if new:
+            added.append(i)
+            seen |= new
+    return [i for i in added if i not in keep]
+
+
+def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None, warm=None):
     """One candidate of :func:`choose_graph`: an ``estimator`` (the tract model's class)
-    with ``params``, fitted."""
-    return estimator(**params).fit(succ, progress=progress)
+    with ``params``, fitted; with ``warm`` (the same graph fitted on a sample), one EM
+    run from its parameters instead of the restarts, where the vocabularies agree."""
+    model = estimator(**params)
+    model.warm_start_ = warm
+    model.fit(succ, progress=progress)
+    del model.warm_start_
+    return model

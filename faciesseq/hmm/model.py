@@ -19,6 +19,7 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 
 from __future__ import annotations
 
+import copy
 import math
 import warnings
 from collections.abc import Mapping, Sequence
@@ -644,7 +645,10 @@ class TractHMM(ExpectationMaximisation, Decoding):
             else np.random.default_rng(self.random_state)
         )
         seeds = [int(x) for x in rng.integers(0, 2**31 - 1, size=int(self.n_restarts))]
-        if self._parallel() and len(seeds) > 1:
+        warm = self._warm_start_from(getattr(self, "warm_start_", None))
+        if warm is not None:  # one run from a fit on a sample (graphs.choose_graph)
+            runs = [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
+        elif self._parallel() and len(seeds) > 1:
             jobs = [(data, s, r, None) for r, s in enumerate(seeds)]
             runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
             if progress is not None:  # once per finished restart
@@ -673,6 +677,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 "converged": x["monitor"].reached_tolerance,
                 "history": list(x["monitor"].history),
                 "named": bool(x.get("named", True)),
+                **({"from_sample": True} if x.get("from_sample") else {}),
                 **({"turned": x["turned"]} if "turned" in x else {}),
             }
             for r, x in enumerate(runs)
@@ -693,6 +698,22 @@ class TractHMM(ExpectationMaximisation, Decoding):
         else:
             self._calibrate_without_labels(tables, rng, beds)
         return self
+
+    def _warm_start_from(self, other: TractHMM | None) -> tuple | None:
+        """``(pieces, startprob, transmat)`` copied from ``other``, a fit of the same
+        settings on a sample, when its vocabularies, features and states are this
+        fit's; else None (the fit runs its restarts)."""
+        if other is None:
+            return None
+        same = (
+            other.facies_ == self.facies_
+            and other.contacts_ == self.contacts_
+            and other.features_ == self.features_
+            and other.states_.labels() == self.states_.labels()
+        )
+        if not same:
+            return None
+        return copy.deepcopy((other.emissions_, other.startprob_, other.transmat_))
 
     def _calibrate_without_labels(self, tables, rng, beds: EncodedBeds | None = None) -> None:
         """Temperature from cores simulated from the fitted model
