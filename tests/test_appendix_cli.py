@@ -221,3 +221,27 @@ def test_demo_writes_latex_only_when_asked_and_appendix_by_default():
     assert parser.parse_args(["demo", "--latex"]).no_latex is False
     assert parser.parse_args(["demo", "--no-latex"]).no_latex is True
     assert parser.parse_args(["appendix", "cores.csv", "-o", "a"]).no_latex is False
+
+
+def test_appendix_refuses_a_model_fitted_with_another_scheme(small_source, tmp_path, capsys):
+    """``--model`` with a ``--scheme`` of other ranks is a usage error before any work
+    (as in ``decode``); nothing is written."""
+    import yaml
+
+    scheme = ROOT / "configs" / "scheme-shoreface.yaml"
+    model = tmp_path / "model.json"
+    fit = ["fit", str(small_source), "--scheme", str(scheme), "-o", str(model)]
+    assert main([*fit, "--restarts", "1", "--max-iter", "5"]) == 0
+    other = yaml.safe_load(scheme.read_text())
+    ranks = [f["rank"] for f in other["facies"]]
+    for f, r in zip(other["facies"], reversed(ranks), strict=True):
+        f["rank"] = r
+    reranked = tmp_path / "reranked.yaml"
+    reranked.write_text(yaml.safe_dump(other))
+    capsys.readouterr()
+    out = tmp_path / "appendix"
+    argv = ["appendix", str(small_source), "--model", str(model), "--scheme", str(reranked)]
+    code, _, err = _run(capsys, [*argv, "-o", str(out), "--no-latex", "--surrogates", "0"])
+    assert code == 2 and err.count("\n") == 1 and "Traceback" not in err
+    assert "reranked.yaml" in err and "not the one the model was fitted with" in err
+    assert not out.exists() and not any(p.name.startswith(".appendix") for p in tmp_path.iterdir())

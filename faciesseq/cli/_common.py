@@ -87,7 +87,12 @@ def load_scheme_option(path: str | None):
 def scheme_for_model(path: str | None, model):
     """The facies scheme of ``--scheme``, which must be the model's own (same codes and
     ranks; names, colours and aliases may differ), or else the model's scheme."""
-    scheme = load_scheme_option(path)
+    return model_scheme(load_scheme_option(path), model, path)
+
+
+def model_scheme(scheme, model, path: str | None):
+    """``scheme`` (given by ``--scheme`` at ``path``) if it is ``model``'s own, the
+    model's if none is given; a :class:`ConfigError` if their codes or ranks differ."""
     own = model.scheme
     if scheme is None or own is None:
         return scheme or own

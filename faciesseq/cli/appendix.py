@@ -196,9 +196,11 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
 
     model = None
     if args.model:
+        from faciesseq.cli._common import model_scheme
         from faciesseq.hmm.modelfile import load_model
 
         model = load_model(require_file(args.model))
+        model_scheme(scheme, model, args.scheme)  # the model's own scheme, or a usage error
     if args.tract_model:
         tract_model = load_tract_model(require_file(args.tract_model))
     elif model is not None:
