@@ -25,6 +25,7 @@ repairs
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
@@ -206,6 +207,14 @@ def _is_blank(value: object) -> bool:
         return False
 
 
+def _overflows(value) -> bool:
+    """Whether a cell reads as a number too large for a float (e.g. ``1e309``)."""
+    try:
+        return math.isinf(float(str(value).strip()))
+    except ValueError:
+        return False
+
+
 def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     """Each cell as a number (NaN when blank or not a number) and whether it is blank;
     each distinct value read once."""
@@ -284,7 +293,7 @@ def _depths(
             kind, message = "missing-depth", f"{role} holds the null value {value}"
         elif blank[k]:
             kind, message = "missing-depth", f"no {role} depth"
-        elif infinite[k]:
+        elif infinite[k] or _overflows(value):  # older pandas read 1e309 as no number
             kind = "bad-depth"
             message = f"{role} {_shown(value)} is not a finite number (too large)"
         else:
