@@ -119,7 +119,7 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
         )
     section_col = _column(frame, ("section",))
     sections = (
-        frame[section_col].fillna("section").astype(str).str.strip()
+        frame[section_col].astype(object).fillna("section").astype(str).str.strip()
         if section_col
         else pd.Series("section", index=frame.index)
     )

@@ -244,8 +244,12 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
     if not text.strip():
         raise InputError("file is empty", file=file)
     delimiter = _sniff(text, path.suffix.lower())
+    # NUL bytes: pandas' C parser before 3.0 cut a cell at one, silently; the Python
+    # parser keeps it, for validation to name (rare files, refused anyway)
+    nul = "\x00" in text
     # plain ASCII: the parser reads the file itself (no copy of its text held meanwhile)
-    stream = path if len(text) == len(data) and text.isascii() else io.StringIO(text)
+    plain = len(text) == len(data) and text.isascii() and not nul
+    stream = path if plain else io.StringIO(text)
     del text, data
     try:
         # in chunks: the parser's Python strings of one chunk at a time, then pandas text
@@ -256,6 +260,7 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
             skip_blank_lines=False,
             skipinitialspace=True,
             chunksize=CHUNK_ROWS,
+            engine="python" if nul else "c",
         )
         with chunks:
             frame = pd.concat(list(chunks), ignore_index=True)
