@@ -25,6 +25,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
+import pandas as pd
 
 from faciesseq.core import Succession
 from faciesseq.parallel import run_jobs
@@ -114,22 +115,22 @@ def sample_successions(succ: Sequence[Succession], n_beds: int, seed) -> Sequenc
 
 def _covering(succ: Sequence[Succession], keep: list[int]) -> list[int]:
     """Successions to add to ``keep`` so that every facies and contact type of
-    ``succ`` is in the sample (the fit on every bed then starts from its parameters)."""
-
-    def values(s: Succession) -> set:
-        out = set(map(str, s.facies))
-        if "contact" in s.beds:
-            out |= {"contact:" + str(c) for c in s.beds["contact"].dropna()}
-        return out
-
-    seen = set().union(*(values(succ[i]) for i in keep))
-    added = []
-    for i in range(len(succ)):
-        new = values(succ[i]) - seen
-        if new:
-            added.append(i)
-            seen |= new
-    return [i for i in added if i not in keep]
+    ``succ`` is in the sample (the fit on every bed then starts from its parameters):
+    for each value the sample lacks, the first succession that holds it."""
+    owner = np.repeat(np.arange(len(succ)), [len(s) for s in succ])
+    kept = np.isin(owner, keep)
+    columns = [np.concatenate([np.asarray(s.facies, dtype=object) for s in succ])]
+    if all("contact" in s.beds for s in succ):
+        columns.append(np.concatenate([s.beds["contact"].to_numpy(dtype=object) for s in succ]))
+    added: set[int] = set()
+    for values in columns:
+        codes, uniques = pd.factorize(pd.Series(values).astype("string"))
+        known = codes >= 0  # a missing contact is no type
+        covered = np.zeros(len(uniques), dtype=bool)
+        covered[codes[known & kept]] = True
+        held, first = np.unique(codes[known], return_index=True)
+        added.update(owner[known][first[~covered[held]]].tolist())
+    return sorted(added - set(keep))
 
 
 def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None, warm=None):
