@@ -25,6 +25,7 @@ repairs
 
 from __future__ import annotations
 
+import contextlib
 import math
 import re
 from collections.abc import Mapping
@@ -207,12 +208,17 @@ def _is_blank(value: object) -> bool:
         return False
 
 
-def _overflows(value) -> bool:
-    """Whether a cell reads as a number too large for a float (e.g. ``1e309``)."""
-    try:
-        return math.isinf(float(str(value).strip()))
-    except ValueError:
-        return False
+def _to_floats(values: pd.Series) -> np.ndarray:
+    """Each cell as a float (NaN when missing or not a number). A number too large for a
+    float (``1e309``) is infinity, as Python reads it, whatever the pandas release: before
+    3.0 pandas read it as no number."""
+    read = pd.to_numeric(values, errors="coerce").to_numpy(dtype=float)
+    for i in np.flatnonzero(np.isnan(read) & values.notna().to_numpy()):
+        with contextlib.suppress(ValueError):
+            number = float(str(values.iloc[i]).strip())
+            if math.isinf(number):  # only the overflow: no other spelling pandas refuses
+                read[i] = number
+    return read
 
 
 def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
@@ -221,8 +227,7 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     found = _distinct(values)
     if found is None:
         blank = _blank(values)
-        numbers = pd.to_numeric(values.where(~blank, None), errors="coerce")
-        return numbers.to_numpy(dtype=float), blank
+        return _to_floats(values.where(~blank, None)), blank
     ids, uniques = found
     numbers, blank = _distinct_numbers(uniques)
     return numbers[ids], blank[ids]
@@ -232,8 +237,8 @@ def _distinct_numbers(uniques: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Each distinct value as a number and whether it is blank, with one more entry (NaN,
     blank) for a missing value (index -1)."""
     blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
-    read = pd.to_numeric(pd.Series(uniques, dtype=object).where(~blank[:-1], None), errors="coerce")
-    return np.r_[read.to_numpy(dtype=float), np.nan], blank
+    read = _to_floats(pd.Series(uniques, dtype=object).where(~blank[:-1], None))
+    return np.r_[read, np.nan], blank
 
 
 def _numbers_where_all(values: pd.Series) -> pd.Series:
@@ -293,7 +298,7 @@ def _depths(
             kind, message = "missing-depth", f"{role} holds the null value {value}"
         elif blank[k]:
             kind, message = "missing-depth", f"no {role} depth"
-        elif infinite[k] or _overflows(value):  # older pandas read 1e309 as no number
+        elif infinite[k]:
             kind = "bad-depth"
             message = f"{role} {_shown(value)} is not a finite number (too large)"
         else:
