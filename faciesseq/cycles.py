@@ -35,6 +35,7 @@ CONTEXT_FEATURES = (
     "cycle_sharpness",
     "local_position",
     "cycle_amplitude",
+    "setting",
 )
 
 #: Words of a contact type that mark it as sharp (abrupt or erosional; common
@@ -116,6 +117,7 @@ def find_cycles(
     thickness: np.ndarray | None = None,
     flooding_step: float = 1.0,
     cycle_base: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
 ) -> Cycles:
     """Cut successions into cycles at flooding surfaces.
 
@@ -132,6 +134,9 @@ def find_cycles(
         Smallest upward rise of rank that counts as a flooding surface.
     cycle_base
         ``(n_beds,)`` bool, beds whose facies always start a cycle.
+    nonmarine
+        ``(n_beds,)`` 1 / 0 / ``NaN``: a marine bed on a nonmarine one starts a
+        cycle (a transgressive surface is a flooding surface whatever the ranks).
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     r = np.asarray(ranks, dtype=float)
@@ -142,6 +147,9 @@ def find_cycles(
         new = first | (step >= flooding_step)
     if cycle_base is not None:
         new |= np.asarray(cycle_base, dtype=bool)
+    if nonmarine is not None and n:
+        setting = np.asarray(nonmarine, dtype=float)
+        new[1:] |= (setting[1:] == 0) & (setting[:-1] == 1)
     bed_cycle = np.cumsum(new) - 1
     n_cycles = int(bed_cycle[-1] + 1) if n else 0
     seq = np.repeat(np.arange(len(lengths)), lengths)
@@ -204,6 +212,7 @@ def bed_context(
     trend_half_width: int = 3,
     position_half_width: int = 8,
     sharp: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """Stacking context of every bed, ``name -> (n_beds,)`` floats (``NaN`` unknown).
 
@@ -226,11 +235,13 @@ def bed_context(
       beds of the cycle (``sharp``: 1/0/NaN per bed, :func:`sharp_contacts`;
       forced-regressive cycles are sharp-based and skip facies);
     - ``cycle_amplitude``: the cycle's deepest rank minus its shallowest (how far
-      it shallows: a full parasequence against a thin, shallow one).
+      it shallows: a full parasequence against a thin, shallow one);
+    - ``setting``: 1 where the bed's facies was laid down above the shoreline
+      (``nonmarine``: 1/0/NaN per bed, from the scheme), 0 where below it.
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     r = _fill_unknown(ranks, lengths)
-    cycles = find_cycles(r, lengths, thickness, flooding_step, cycle_base)
+    cycles = find_cycles(r, lengths, thickness, flooding_step, cycle_base, nonmarine)
     top, base = cycles.top_rank, cycles.base_rank
     below = top - _neighbour(top, cycles.lengths, -1)
     above = _neighbour(top, cycles.lengths, 1) - top
@@ -262,6 +273,7 @@ def bed_context(
         "cycle_amplitude": (base - top)[c] if len(c) else np.zeros(0),
         "trend": _slope(r, lengths, trend_half_width),
         "position": position,
+        "setting": np.full(len(r), np.nan) if nonmarine is None else np.asarray(nonmarine, float),
     }
 
 

@@ -50,6 +50,7 @@ _FACIES_KEYS = {
     "aliases",
     "description",
     "cycle_base",
+    "setting",
 }
 _SCHEME_KEYS = {"name", "description", "facies", "version"}
 _TRACT_KEYS = {"code", "name", "trend", "description"}
@@ -93,6 +94,20 @@ def _code(value: Any) -> str:
     return str(value).strip()
 
 
+#: Facies groups read as laid down above the shoreline when a facies has no
+#: ``setting`` (common practice of facies description).
+NONMARINE_GROUPS = (
+    "nonmarine",
+    "non-marine",
+    "continental",
+    "terrestrial",
+    "coastal plain",
+    "alluvial",
+    "fluvial",
+)
+SETTINGS = ("marine", "nonmarine")
+
+
 @dataclass(frozen=True)
 class Facies:
     """One facies of a scheme."""
@@ -106,6 +121,20 @@ class Facies:
     aliases: tuple[str, ...] = ()
     description: str | None = None
     cycle_base: bool = False
+    setting: str | None = None
+
+    @property
+    def nonmarine(self) -> bool | None:
+        """Whether the facies was laid down above the shoreline (``None``: not said).
+
+        From ``setting`` (``marine`` / ``nonmarine``) or, where that is not
+        given, from a ``group`` named by one of :data:`NONMARINE_GROUPS`.
+        """
+        if self.setting is not None:
+            return self.setting == "nonmarine"
+        if self.group is not None and self.group.strip().lower() in NONMARINE_GROUPS:
+            return True
+        return None
 
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {"code": self.code, "name": self.name, "rank": self.rank}
@@ -116,6 +145,8 @@ class Facies:
             out["aliases"] = list(self.aliases)
         if self.cycle_base:
             out["cycle_base"] = True
+        if self.setting is not None:
+            out["setting"] = self.setting
         return out
 
 
@@ -244,6 +275,12 @@ class FaciesScheme:
                 raise ConfigError(
                     f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
                 )
+            setting = entry.get("setting")
+            if setting is not None and setting not in SETTINGS:
+                raise ConfigError(
+                    f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
+                    file=source,
+                )
             raw_aliases = entry.get("aliases") or []
             if not isinstance(raw_aliases, list):
                 raw_aliases = [raw_aliases]
@@ -259,6 +296,7 @@ class FaciesScheme:
                     aliases=aliases,
                     description=entry.get("description"),
                     cycle_base=cycle_base,
+                    setting=setting,
                 )
             )
         for f in facies:
@@ -599,7 +637,8 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
     ]
     lines[4:4] = [
         "# Every field a facies can hold is listed; the optional ones (group, colour,",
-        "# grain_size, aliases, description, cycle_base) may be filled in or left as they are.",
+        "# grain_size, aliases, description, cycle_base, setting) may be filled in or left",
+        "# as they are.",
     ]
     for code in unique:
         lines += [
@@ -613,5 +652,6 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
             "    aliases: []  # optional: other spellings of this code in the data",
             "    description: null  # optional: what the geologist sees",
             "    cycle_base: false  # optional: true if a cycle starts at its base (e.g. a lag)",
+            "    setting: null  # optional: marine or nonmarine (laid down above the shoreline)",
         ]
     return "\n".join(lines) + "\n"

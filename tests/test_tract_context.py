@@ -158,6 +158,9 @@ def test_decoded_columns_follow_the_graph_and_picks_follow_the_column(fitted):
         p = core.picks
         assert ((p["depth_top"] <= p["depth"]) & (p["depth"] <= p["depth_base"])).all()
         assert ((p["probability"] >= p["p_contact"] - 1e-12) & (p["probability"] <= 1)).all()
+        # tract probabilities are probabilities, even after summing sub-states
+        tract_p = core.beds[[f"p_{t}" for t in tm.order]].to_numpy()
+        assert ((tract_p >= 0) & (tract_p <= 1)).all()
 
 
 def test_unlabelled_recovery_beats_the_bed_level_model_on_held_out_cores(fitted):
@@ -265,3 +268,52 @@ def test_a_scheme_can_mark_facies_that_start_a_cycle():
     assert FaciesScheme.from_dict(scheme.to_dict())["lag"].cycle_base
     with pytest.raises(ConfigError, match="cycle_base"):
         FaciesScheme.from_dict({"facies": [{**entries[0], "cycle_base": "yes"}]})
+
+
+def test_a_scheme_says_which_facies_are_nonmarine():
+    # explicit `setting`, or a group the trade reads as above the shoreline
+    # (coastal plain, fluvial, ...: common practice of facies description)
+    from faciesseq.errors import ConfigError
+    from faciesseq.scheme import FaciesScheme
+
+    entries = [
+        {"code": "cp", "name": "coastal plain", "rank": 0, "group": "coastal plain"},
+        {"code": "ss", "name": "channel sandstone", "rank": 0, "setting": "nonmarine"},
+        {"code": "sf", "name": "shoreface", "rank": 1, "group": "shoreface"},
+        {"code": "ls", "name": "lagoon", "rank": 1, "group": "fluvial", "setting": "marine"},
+    ]
+    scheme = FaciesScheme.from_dict({"facies": entries})
+    assert [scheme[c].nonmarine for c in ("cp", "ss", "sf", "ls")] == [True, True, None, False]
+    assert FaciesScheme.from_dict(scheme.to_dict())["ss"].setting == "nonmarine"
+    with pytest.raises(ConfigError, match="setting"):
+        FaciesScheme.from_dict({"facies": [{**entries[1], "setting": "lacustrine"}]})
+
+
+def test_a_marine_bed_on_a_nonmarine_one_starts_a_cycle_and_is_read_as_setting():
+    # ranks 1 1 | 1 0 : the third bed is marine on nonmarine at an equal rank
+    ranks = np.array([1, 1, 1, 0.0])
+    nonmarine = np.array([0, 1, 0, 0.0])
+    assert find_cycles(ranks, np.array([4])).bed_cycle.tolist() == [0, 0, 0, 0]
+    cycles = find_cycles(ranks, np.array([4]), nonmarine=nonmarine)
+    assert cycles.bed_cycle.tolist() == [0, 0, 1, 1]
+    ctx = bed_context(ranks, np.array([4]), nonmarine=nonmarine)
+    np.testing.assert_array_equal(ctx["setting"], nonmarine)
+    assert np.isnan(bed_context(ranks, np.array([4]))["setting"]).all()
+
+
+def test_the_setting_is_read_only_where_the_scheme_tells_nonmarine_from_marine():
+    from faciesseq.scheme import FaciesScheme
+
+    cores, _ = _cores([31])
+    opts = {"n_restarts": 1, "max_iter": 5, "random_state": 0}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=SCHEME, **opts).fit(cores)
+        assert "setting" in model.features_  # coastal plain is nonmarine
+        plain = SCHEME.to_dict()
+        for f in plain["facies"]:
+            f.pop("group", None)
+        unsaid = TractHMM(scheme=FaciesScheme.from_dict(plain), **opts).fit(cores)
+    assert "setting" not in unsaid.features_  # a constant column is dropped
+    piece = model.emissions_[model.features_.index("setting")]
+    assert piece.categories == ("marine", "nonmarine")

@@ -45,6 +45,7 @@ CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
     "cycle_sharpness": (0.2, 0.5),
     "local_position": (0.25, 0.5, 0.75),
     "cycle_amplitude": (0.5, 1.5, 2.5),
+    "setting": (0.5,),
 }
 
 
@@ -71,6 +72,7 @@ CONTEXT_CATEGORIES: Mapping[str, tuple[str, ...]] = {
     "local_position": _QUARTERS,
     "cycle_sharpness": ("mostly gradational", "mixed", "mostly sharp"),
     "cycle_amplitude": ("one rank", "shallows 1 rank", "shallows 2 ranks", "shallows 3+ ranks"),
+    "setting": ("marine", "nonmarine"),
 }
 
 
@@ -114,7 +116,7 @@ def context_pseudo_counts(
     out = np.full((len(trends), len(centres)), 0.1 * strength)
     scale = max(abs(centres).max(), 1e-9)
     for s, (trend, level) in enumerate(zip(trends, levels, strict=True)):
-        if feature in ("cycle_sharpness", "cycle_amplitude"):
+        if feature in ("cycle_sharpness", "cycle_amplitude", "setting"):
             out[s] += 0.5 * strength  # no reading of the trade to pin: learnt from the data
         elif feature in ("position", "local_position"):
             if level is None:

@@ -166,7 +166,9 @@ class Decoding:
         )
         path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
         surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
-        return self.states_.to_tracts(post.gamma), self.states_.state_tract[path], surf, loglik
+        # a sum of sub-state posteriors can round a hair above 1
+        gamma = np.clip(self.states_.to_tracts(post.gamma), 0.0, 1.0)
+        return gamma, self.states_.state_tract[path], surf, loglik
 
     def _interpretation(self, part: SuccessionTable, gamma, vit, surf, loglik, mass):
         """The decoded successions of whole cores as one :class:`Interpretation`, in

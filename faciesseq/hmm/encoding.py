@@ -109,6 +109,7 @@ def encode_beds(
     ranks: np.ndarray | None = None,
     cycle_base: np.ndarray | None = None,
     lengths: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
 ) -> EncodedBeds:
     """Code bed tables (each base to top) for the emission pieces.
 
@@ -128,6 +129,9 @@ def encode_beds(
     cycle_base
         Whether each of ``facies`` always starts a cycle (the scheme's
         ``cycle_base`` mark), for the context features.
+    nonmarine
+        1 / 0 / ``NaN`` for each of ``facies``: laid down above the shoreline or
+        not (the scheme's ``setting``), for the context feature ``setting``.
     lengths
         Beds of each succession, where ``tables`` holds several successions one
         after another (default: one succession per table).
@@ -164,7 +168,9 @@ def encode_beds(
     context = [name for name in numeric if name in CONTEXT_FEATURES]
     if context:
         values.update(
-            _context_values(tables, fac, lengths, ranks, context, cycle_base, contact_text)
+            _context_values(
+                tables, fac, lengths, ranks, context, cycle_base, contact_text, nonmarine
+            )
         )
     if STACKING in numeric:
         if "thickness" not in values:
@@ -186,7 +192,14 @@ def _column(tables: Sequence[pd.DataFrame], name: str, fill: object = np.nan) ->
 
 
 def _context_values(
-    tables, fac, lengths, ranks, names, cycle_base=None, contact_text: pd.Series | None = None
+    tables,
+    fac,
+    lengths,
+    ranks,
+    names,
+    cycle_base=None,
+    contact_text: pd.Series | None = None,
+    nonmarine: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`);
     ``contact_text``: the contact types as described, joined (sharp or not)."""
@@ -201,7 +214,13 @@ def _context_values(
     if cycle_base is not None:
         starts = np.zeros(len(fac), dtype=bool)
         starts[known] = np.asarray(cycle_base, dtype=bool)[fac[known]]
-    context = bed_context(bed_ranks, lengths, thickness, cycle_base=starts, sharp=sharp)
+    setting = None
+    if nonmarine is not None:
+        setting = np.full(len(fac), np.nan)
+        setting[known] = np.asarray(nonmarine, dtype=float)[fac[known]]
+    context = bed_context(
+        bed_ranks, lengths, thickness, cycle_base=starts, sharp=sharp, nonmarine=setting
+    )
     return {name: context[name] for name in names}
 
 
