@@ -360,3 +360,39 @@ def regular_cores(cores, command: str, keep: bool = False):
         return cores
     sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
     return screening.kept
+
+
+def check_labels(cores, column: str | None, tract_model, source) -> None:
+    """Refuse a ``--labels`` column that the source lacks (exit 2) or that holds a
+    code which is not a tract of ``tract_model`` (exit 1, naming file, row, core and
+    depth of the first such interval), before any fit. Blank cells are beds not
+    interpreted."""
+    if column is None:
+        return
+    import pandas as pd
+
+    from faciesseq.core import PROVENANCE
+
+    table = cores.to_frame(provenance=True)
+    if column not in table.columns:
+        shown = ", ".join(str(c) for c in table.columns if c not in PROVENANCE)
+        raise ConfigError(f"no column {column!r} for --labels (columns: {shown})", file=source)
+    tracts = list(tract_model.order)
+    text = table[column].astype("string").str.strip()
+    blank = text.isna() | (text == "") | (text.str.lower() == "nan")
+    bad = (~blank & ~text.isin(tracts)).to_numpy(dtype=bool)
+    if not bad.any():
+        return
+    i = int(bad.argmax())
+    more = int(bad.sum()) - 1
+    row = table["_row"].iloc[i] if "_row" in table.columns else None
+    raise InputError(
+        f"tract label {text.iloc[i]!r} in column {column!r} is not a tract of the tract "
+        f"model ({', '.join(tracts)}); leave the cell empty where a bed is not interpreted"
+        + (f" ({more} more such row(s))" if more else ""),
+        file=table["_file"].iloc[i] if "_file" in table.columns else source,
+        row=None if row is None or pd.isna(row) else int(row),
+        core=str(table["core"].iloc[i]),
+        depth=float(table["top"].iloc[i]) if "top" in table.columns else None,
+        units=cores.units,
+    )

@@ -10,6 +10,7 @@ from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
+    check_labels,
     load_scheme_option,
     read_source,
     regular_cores,
@@ -242,6 +243,7 @@ def run(args: argparse.Namespace) -> int:
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
+    check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]

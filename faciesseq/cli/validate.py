@@ -11,6 +11,7 @@ from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
+    check_labels,
     load_scheme_option,
     read_source,
 )
@@ -155,12 +156,14 @@ def run(args: argparse.Namespace) -> int:
         from faciesseq._output import check_target
 
         check_target(args.output, force=args.force, folder=True)
+    from faciesseq.scheme import default_tract_model
     from faciesseq.validation import cross_validate
 
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
+    check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     progress = Progress("validate")
     with warnings_to_stderr("validate"):
         try:
