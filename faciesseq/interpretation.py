@@ -17,6 +17,8 @@ from functools import cached_property
 import numpy as np
 import pandas as pd
 
+from faciesseq.scheme import FaciesScheme
+
 __all__ = ["PICK_COLUMNS", "CoreInterpretation", "Interpretation", "core_summary"]
 
 
@@ -111,13 +113,16 @@ def _thickness(beds: pd.DataFrame) -> np.ndarray:
     return (beds["base"] - beds["top"]).to_numpy(float)
 
 
-def _cycle_count(beds: pd.DataFrame, ranks: Mapping[str, float]) -> int:
-    """Parasequence-scale cycles of one core (:func:`faciesseq.cycles.find_cycles`)."""
+def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
+    """Parasequence-scale cycles of one core, cut as the tract model cuts them
+    (:func:`faciesseq.cycles.find_cycles`)."""
     from faciesseq.cycles import find_cycles
 
     upward, lengths = _base_to_top(beds)
-    r = upward["facies"].astype(str).map(ranks).to_numpy(dtype=float, na_value=np.nan)
-    return find_cycles(r, lengths, _thickness(upward)).n_cycles
+    codes = upward["facies"].astype(str).tolist()
+    r = np.array([scheme.rank(c) if c in scheme else np.nan for c in codes], dtype=float)
+    marks, setting = scheme.cycle_bases(codes), scheme.settings(codes)
+    return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting).n_cycles
 
 
 def _mean_decoded_probability(beds: pd.DataFrame, tracts: tuple[str, ...]) -> float:
@@ -129,17 +134,15 @@ def _mean_decoded_probability(beds: pd.DataFrame, tracts: tuple[str, ...]) -> fl
     return float(np.mean(p[np.arange(len(beds)), which]))
 
 
-def core_summary(
-    core: CoreInterpretation, ranks: Mapping[str, float] | None = None
-) -> dict[str, object]:
+def core_summary(core: CoreInterpretation, scheme: FaciesScheme | None = None) -> dict[str, object]:
     """One well in a line: thickness per tract, cycles, picks, mean probability.
 
     Parameters
     ----------
     core
         A decoded core.
-    ranks
-        Proximality rank of each facies code (the scheme's); without it the
+    scheme
+        The facies scheme (ranks, cycle marks, settings); without it the
         number of cycles is left out.
 
     Returns
@@ -147,7 +150,7 @@ def core_summary(
     dict
         ``core``, ``units``, ``thickness`` (tract -> summed thickness of its
         beds, in the core's units), ``cycles`` (parasequence-scale cycles cut
-        at flooding surfaces, Van Wagoner et al. 1990; only with ``ranks``),
+        at flooding surfaces, Van Wagoner et al. 1990; only with ``scheme``),
         ``picks`` (surface picks) and ``mean_probability`` (mean over beds of
         the probability of the decoded tract).
     """
@@ -161,8 +164,8 @@ def core_summary(
         "units": core.units,
         "thickness": {t: float(totals[k]) for k, t in enumerate(core.tracts)},
     }
-    if ranks is not None:
-        out["cycles"] = _cycle_count(beds, ranks)
+    if scheme is not None:
+        out["cycles"] = _cycle_count(beds, scheme)
     out["picks"] = len(core.picks)
     out["mean_probability"] = _mean_decoded_probability(beds, core.tracts)
     return out

@@ -356,6 +356,27 @@ class FaciesScheme:
     def rank(self, code: str) -> float:
         return self[code].rank
 
+    def settings(self, codes: Iterable[str]) -> Any:
+        """``(n,)`` 1.0 where a code's facies was laid down above the shoreline, 0.0
+        below it, ``NaN`` for a code not in the scheme; ``None`` where the scheme
+        does not tell nonmarine facies from marine ones (none or all nonmarine).
+        Once some facies are nonmarine (:attr:`Facies.nonmarine`), the others are
+        marine."""
+        import numpy as np
+
+        flags = {bool(f.nonmarine) for f in self.facies}
+        if flags != {True, False}:
+            return None
+        return np.array(
+            [float(bool(self[c].nonmarine)) if c in self else np.nan for c in codes], dtype=float
+        )
+
+    def cycle_bases(self, codes: Iterable[str]) -> Any:
+        """``(n,)`` True where a code's facies is marked to start a cycle."""
+        import numpy as np
+
+        return np.array([c in self and self[c].cycle_base for c in codes], dtype=bool)
+
     def ranks(self, codes: Iterable[str] | None = None) -> dict[str, float]:
         codes = self.codes if codes is None else codes
         return {c: self[c].rank for c in codes}

@@ -284,6 +284,10 @@ def test_a_scheme_says_which_facies_are_nonmarine():
     ]
     scheme = FaciesScheme.from_dict({"facies": entries})
     assert [scheme[c].nonmarine for c in ("cp", "ss", "sf", "ls")] == [True, True, None, False]
+    # once some facies are nonmarine the others count as marine; unknown codes are NaN
+    np.testing.assert_array_equal(scheme.settings(["cp", "sf", "ls", "zz"]), [1, 0, 0, np.nan])
+    marine_only = FaciesScheme.from_dict({"facies": entries[2:3]})
+    assert marine_only.settings(["sf"]) is None
     assert FaciesScheme.from_dict(scheme.to_dict())["ss"].setting == "nonmarine"
     with pytest.raises(ConfigError, match="setting"):
         FaciesScheme.from_dict({"facies": [{**entries[1], "setting": "lacustrine"}]})

@@ -33,8 +33,7 @@ def _wells(interp, scheme, limit: int | None = None) -> list[dict]:
 
     from faciesseq.interpretation import core_summary
 
-    ranks = scheme.ranks() if scheme is not None else None
-    return [core_summary(core, ranks) for core in islice(interp, limit)]
+    return [core_summary(core, scheme) for core in islice(interp, limit)]
 
 
 def _number(value: float) -> str:

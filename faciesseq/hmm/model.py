@@ -96,14 +96,6 @@ DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact", "rank_step")
 CONTEXT_SUBSTATES = 3
 
 
-def _nonmarine(scheme: FaciesScheme, code: str) -> float:
-    """1 / 0 / ``NaN``: the facies ``code`` laid down above the shoreline, below it, not
-    in the scheme. Where the scheme names some facies nonmarine, the others are marine."""
-    if code not in scheme:
-        return np.nan
-    return float(bool(scheme[code].nonmarine))
-
-
 class LabelWarning(UserWarning):
     """An interpreter's label that cannot be used as it is (the beds are left free)."""
 
@@ -293,12 +285,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
         if int(self.calibration_folds) < 0:
             raise ConfigError(f"calibration_folds must be >= 0, got {self.calibration_folds!r}")
 
-    def _settings_differ(self) -> bool:
-        """Whether the scheme tells nonmarine facies from marine ones (else the
-        ``setting`` feature would be constant)."""
-        flags = {bool(f.nonmarine) for f in self.scheme.facies} if self.scheme else set()
-        return flags == {True, False}
-
     def _resolve_features(
         self, tables: Sequence[pd.DataFrame], labelled: bool = False
     ) -> tuple[str, ...]:
@@ -315,7 +301,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 for f in defaults
                 if (f not in ("contact", "cycle_sharpness") or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
-                and (f != "setting" or self._settings_differ())
+                and (f != "setting" or self.scheme.settings(()) is not None)
             ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
                 feats.remove("thickness")
@@ -380,10 +366,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
             numeric.append("thickness")
         marks = nonmarine = None
         if self.scheme is not None:
-            marks = np.array(
-                [c in self.scheme and self.scheme[c].cycle_base for c in self.facies_], dtype=bool
-            )
-            nonmarine = np.array([_nonmarine(self.scheme, c) for c in self.facies_], dtype=float)
+            marks = self.scheme.cycle_bases(self.facies_)
+            nonmarine = self.scheme.settings(self.facies_)
         return encode_beds(
             tables, self.facies_, self.contacts_, numeric, self.ranks_, marks, lengths, nonmarine
         )
