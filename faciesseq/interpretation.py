@@ -125,6 +125,32 @@ def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
     return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting).n_cycles
 
 
+def tract_runs(table: pd.DataFrame) -> pd.DataFrame:
+    """Runs of one decoded tract in a tract column: ``core, tract, top, base,
+    thickness, beds`` (a run ends where the tract or the core changes, or at a gap).
+
+    ``table`` is :meth:`Interpretation.tracts_table` (depth order within cores).
+    """
+    core = table["core"].to_numpy(object)
+    tract = table["tract"].astype(str).to_numpy(object)
+    top, base = table["top"].to_numpy(float), table["base"].to_numpy(float)
+    new = np.ones(len(table), dtype=bool)
+    new[1:] = (core[1:] != core[:-1]) | (tract[1:] != tract[:-1]) | (top[1:] != base[:-1])
+    run = np.cumsum(new) - 1
+    first = np.flatnonzero(new)
+    last = np.r_[first[1:], len(table)] - 1
+    return pd.DataFrame(
+        {
+            "core": core[first],
+            "tract": tract[first],
+            "top": top[first],
+            "base": base[last],
+            "thickness": np.bincount(run, weights=base - top) if len(table) else [],
+            "beds": np.bincount(run) if len(table) else [],
+        }
+    )
+
+
 def _mean_decoded_probability(beds: pd.DataFrame, tracts: tuple[str, ...]) -> float:
     """Mean over beds of the posterior probability of each bed's decoded tract."""
     if not len(beds):

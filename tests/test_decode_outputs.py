@@ -313,3 +313,56 @@ def test_fit_prints_the_training_wells_and_takes_format_json(database, tmp_path,
     out = tmp_path / "dec"
     assert _decode(database, tmp_path / "j.json", out, "--summary", "json") == 0
     assert json.loads(capsys.readouterr().out)["wells"] == doc["wells"]
+
+
+def test_a_tract_lasts_as_long_as_its_phase_type_chain_says():
+    # one sub-state: a geometric number of beds, whose mean scipy knows; two in a
+    # Coxian chain entered at the first: (1 + b m2) / (1 - a) with m2 = 1 / (1 - c)
+    from scipy.stats import geom
+
+    from faciesseq.hmm.states import StateSpace
+    from faciesseq.scheme import default_tract_model
+
+    space = StateSpace.build(default_tract_model(), {"HST": 1, "FSST": 2, "LST": 1, "TST": 1})
+    K = space.n_states
+    A = np.zeros((K, K))
+    A[0, 0], A[0, 1] = 0.8, 0.2  # HST
+    A[1, 1], A[1, 2], A[1, 3] = 0.5, 0.3, 0.2  # FSST.1: stay, to FSST.2, leave
+    A[2, 2], A[2, 3] = 0.75, 0.25  # FSST.2
+    A[3, 3], A[3, 4] = 0.6, 0.4  # LST
+    A[4, 4], A[4, 0] = 0.9, 0.1  # TST
+    beds = space.mean_beds(A)
+    assert beds[0] == pytest.approx(geom(0.2).mean())
+    assert beds[1] == pytest.approx((1 + 0.3 * 4.0) / 0.5)
+    assert beds[2] == pytest.approx(geom(0.4).mean()) and beds[3] == pytest.approx(10.0)
+    A[4, 4], A[4, 0] = 1.0, 0.0  # a tract never left
+    assert np.isinf(space.mean_beds(A)[3])
+
+
+def test_tract_runs_end_where_the_tract_the_core_or_the_depth_changes():
+    from faciesseq.interpretation import tract_runs
+
+    table = pd.DataFrame(
+        {
+            "core": ["A", "A", "A", "A", "B"],
+            "top": [0.0, 1.0, 2.0, 5.0, 0.0],
+            "base": [1.0, 2.0, 3.0, 6.0, 2.0],
+            "tract": ["HST", "HST", "TST", "TST", "TST"],
+        }
+    )
+    runs = tract_runs(table)
+    assert runs["tract"].tolist() == ["HST", "TST", "TST", "TST"]  # a gap at 3-5 m
+    assert runs["thickness"].tolist() == [2.0, 1.0, 1.0, 2.0]
+    assert runs["beds"].tolist() == [2, 1, 1, 1]
+
+
+def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
+    capsys.readouterr()
+    _fit(database, tmp_path / "m.json", "--format", "json")
+    doc = json.loads(capsys.readouterr().out)
+    durations = doc["tract_durations"]
+    assert set(durations) == {"HST", "FSST", "LST", "TST"}
+    used = [d for d in durations.values() if d["runs"]]
+    assert used and all(d["beds_per_visit"] >= 1 and d["median_thickness"] > 0 for d in used)
+    _fit(database, tmp_path / "t.json")
+    assert "tract lengths, beds per visit of the fitted chain" in capsys.readouterr().out

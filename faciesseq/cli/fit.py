@@ -213,6 +213,46 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
     print(describe_calibration(model.temperature_, model.calibration_))
 
 
+def tract_durations(model, interp) -> dict[str, dict]:
+    """How long each tract lasts: the fitted chain's expected beds per visit
+    (:meth:`faciesseq.hmm.states.StateSpace.mean_beds`) beside the median
+    thickness and beds of the runs of that tract in the decoded training cores."""
+    import numpy as np
+
+    from faciesseq.interpretation import tract_runs
+
+    runs = tract_runs(interp.tracts_table())
+    expected = model.states_.mean_beds(model.transmat_)
+    out = {}
+    for t, beds in zip(model.states_.tracts, expected, strict=True):
+        mine = runs[runs["tract"] == t]
+        out[t] = {
+            "beds_per_visit": float(beds) if np.isfinite(beds) else None,
+            "runs": len(mine),
+            "median_thickness": float(mine["thickness"].median()) if len(mine) else None,
+            "median_beds": float(mine["beds"].median()) if len(mine) else None,
+        }
+    return out
+
+
+def _durations_line(durations: dict[str, dict], units: str) -> str:
+    """One line: beds per visit of the fitted chain, median run of the decoded cores."""
+    parts = []
+    for t, d in durations.items():
+        chain = "-" if d["beds_per_visit"] is None else f"{d['beds_per_visit']:.1f}"
+        run = (
+            "no run"
+            if not d["runs"]
+            else f"median {d['median_thickness']:.3g} {units} and {d['median_beds']:g} beds "
+            f"over {d['runs']} run(s)"
+        )
+        parts.append(f"{t} {chain} ({run})")
+    return (
+        "tract lengths, beds per visit of the fitted chain (decoded training cores): "
+        + "; ".join(parts)
+    )
+
+
 def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     """The fit's report and the per-well summary of the training cores, decoded by
     the fitted model (:mod:`faciesseq.cli._summary`), as text or one JSON document."""
@@ -221,10 +261,13 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     model = selection.best
     with warnings_to_stderr("fit"):
         interp = model.decode(successions)
+    durations = tract_durations(model, interp)
     if args.format == "json":
-        print_json(summary_document(interp, scheme, "fit", output=str(args.output)))
+        document = summary_document(interp, scheme, "fit", output=str(args.output))
+        print_json({**document, "tract_durations": durations})
         return
     _print_fit(args, selection)
+    print(_durations_line(durations, next(iter(interp)).units if len(interp) else ""))
     print_summary(interp, scheme, "all in --format json", note=False)
     print(f"model written to {args.output}")
 

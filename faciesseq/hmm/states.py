@@ -105,3 +105,18 @@ class StateSpace:
     def to_tracts(self, state_values: np.ndarray) -> np.ndarray:
         """Sum a ``(..., K)`` array of state probabilities into ``(..., n_tracts)``."""
         return state_values @ self.tract_mask().T.astype(float)
+
+    def mean_beds(self, transmat: np.ndarray) -> np.ndarray:
+        """Expected beds per visit of each tract under ``transmat``, entered at its
+        first sub-state: the mean of its phase-type duration, ``(I - Q)^-1 1`` of
+        the within-tract block ``Q`` (Neuts 1981, Matrix-geometric solutions in
+        stochastic models, ch. 2); ``inf`` for a tract that is never left."""
+        out = np.empty(self.n_tracts)
+        for t, a in enumerate(self.first):
+            idx = np.arange(a, a + self.substates[t])
+            q = np.asarray(transmat, dtype=float)[np.ix_(idx, idx)]
+            try:
+                out[t] = np.linalg.solve(np.eye(len(idx)) - q, np.ones(len(idx)))[0]
+            except np.linalg.LinAlgError:
+                out[t] = np.inf
+        return np.where(np.isfinite(out) & (out > 0), out, np.inf)
