@@ -1,19 +1,24 @@
 """Probabilities checked without labels: a parametric bootstrap of a fitted tract model.
 
-Cores are simulated from the fitted model (tract paths from its chain, facies
-from a per-tract facies chain, thicknesses from a per-tract log-normal, contact
-types from its contact piece, all weighted by the tract posteriors of the
-training beds), decoded by the model, and the temperature that best matches
-their known tracts is kept (Efron & Tibshirani 1993, An Introduction to the
-Bootstrap, ch. 6; temperature scaling, :mod:`faciesseq.hmm.calibration`). The
-stacking context of the simulated beds is computed as for real cores, so the
-evidence that overlapping windows count more than once is kept and corrected;
-a model whose idea of a tract is not the geologist's is not.
+Cores are simulated from the fitted model and decoded by it, and the temperature
+that best matches their known tracts is kept (Efron & Tibshirani 1993, An
+Introduction to the Bootstrap, ch. 6; temperature scaling,
+:mod:`faciesseq.hmm.calibration`). Tract paths come from the fitted chain; each
+run of one tract is filled with real parasequence-scale cycles of the training
+cores, drawn by the fitted model's posterior probability of that tract
+(:func:`resample_cycles`): the simulated cores keep the stacking inside each
+cycle, and are as ambiguous as the model finds the real ones. The stacking
+context of the simulated beds is computed as for real cores, so the evidence
+that overlapping windows count more than once is kept and corrected; a model
+whose idea of a tract is not the geologist's is not.
+
+Measured against simpler simulations (benchmarks/tract_model.md, section "The
+setting of a bed"): facies drawn from a per-tract facies chain lose the
+parasequences and left the model too unsure of itself; runs of real beds that
+the model reads as one tract (argmax, not posterior draws) left it too sure.
 """
 
 from __future__ import annotations
-
-from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
@@ -21,7 +26,7 @@ import pandas as pd
 from faciesseq.hmm import engine
 from faciesseq.hmm.encoding import EncodedBeds
 
-__all__ = ["calibrate_by_simulation", "simulate_beds"]
+__all__ = ["calibrate_by_simulation", "resample_cycles"]
 
 
 def _tract_posteriors(model, beds: EncodedBeds) -> np.ndarray:
@@ -33,85 +38,119 @@ def _tract_posteriors(model, beds: EncodedBeds) -> np.ndarray:
     return out
 
 
-def _generator(model, beds: EncodedBeds, tables) -> tuple[np.ndarray, np.ndarray]:
-    """Per-tract facies chain and log-thickness (mean, sd), weighted by the
-    fitted model's tract posteriors of the training beds."""
-    gamma = _tract_posteriors(model, beds)
-    S, V = model.states_.n_tracts, len(model.facies_)
-    chain = np.full((S, V + 1, V), 0.01)
-    if model.unit == "beds":
-        chain[:, np.arange(V), np.arange(V)] = 0.0
-    below = np.where(beds.previous >= 0, beds.previous, V)
-    ok = beds.facies >= 0
-    for s in range(S):
-        np.add.at(chain[s], (below[ok], beds.facies[ok]), gamma[ok, s])
-    chain /= chain.sum(axis=2, keepdims=True)
-    th = np.concatenate([t["thickness"].to_numpy(float) for t in tables])
-    log_th = np.log(np.where(th > 0, th, 1.0))
-    w = gamma / np.maximum(gamma.sum(axis=0), 1e-12)
-    mean = w.T @ log_th
-    sd = np.sqrt(np.maximum(w.T @ log_th**2 - mean**2, 1e-6))
-    return chain, np.column_stack([mean, sd])
-
-
 def calibrate_by_simulation(model, beds: EncodedBeds, tables, rng) -> dict:
     """Temperature from a parametric bootstrap: cores simulated from the fitted
-    model (:func:`faciesseq.hmm.calibration.simulate_beds`) are decoded, and
-    the temperature that best matches their known tracts is kept."""
+    model are decoded, and the temperature that best matches their known tracts
+    is kept. Tract paths come from the fitted chain; each run of one tract is
+    filled with real parasequence-scale cycles drawn by their posterior
+    probability of that tract (:func:`resample_cycles`)."""
     from faciesseq.hmm.calibration import HeldOut, fit_temperature
 
-    chain, thickness = _generator(model, beds, tables)
-    lengths = [int(n) for n in beds.lengths if n > 0]
-    budget, chosen = 20_000, []
-    for i in rng.permutation(len(lengths)):
-        if sum(chosen) >= budget:
-            break
-        chosen.append(lengths[i])
-    drawn, tracts = simulate_beds(
-        chosen,
-        model.startprob_,
-        model.transmat_,
-        model.states_.state_tract,
-        chain,
-        thickness,
-        rng,
-    )
-    frames = [_simulated_table(model, d, tracts_of) for d, tracts_of in _split(drawn, tracts)]
+    gamma = _tract_posteriors(model, beds)
+    cycle = _cycles(model, beds)
+    chosen = _simulated_lengths(beds.lengths, rng)
+    pool = _pool(tables)
+    frames, truth = [], []
+    for n in chosen:
+        path = model.states_.state_tract[_chain_path(model.startprob_, model.transmat_, n, rng)]
+        rows, kept = resample_cycles(path, cycle, gamma, rng)
+        frame = pool.iloc[rows].reset_index(drop=True)
+        if model.unit == "beds":
+            keep = _new_facies(frame["facies"].to_numpy(object))
+            frame, kept = frame[keep].reset_index(drop=True), kept[keep]
+        frames.append(frame)
+        truth.append(kept)
     sim = model._encode(frames)
     le = model._log_emission(model.emissions_, sim)
     held = HeldOut(
-        le, sim.lengths, model.startprob_, model.transmat_, tracts, model.states_.state_tract
+        le,
+        sim.lengths,
+        model.startprob_,
+        model.transmat_,
+        np.concatenate(truth),
+        model.states_.state_tract,
     )
     result = fit_temperature([held])
     return {**result, "method": "parametric bootstrap", "simulated_successions": len(chosen)}
 
 
-def _simulated_table(model, drawn: dict, tracts: np.ndarray) -> pd.DataFrame:
-    table = pd.DataFrame(
-        {
-            "facies": np.asarray(model.facies_, dtype=object)[drawn["facies"]],
-            "thickness": drawn["thickness"],
-        }
-    )
-    contact = next((p for p in model.emissions_ if p.name == "contact"), None)
-    if contact is not None and len(model.contacts_):
-        rng = np.random.default_rng(len(table))
-        probs = contact.emissionprob_[tracts]
-        cum = probs.cumsum(axis=1)
-        pick = (rng.random(len(table))[:, None] > cum).sum(axis=1)
-        table["contact"] = np.asarray(model.contacts_, dtype=object)[
-            np.minimum(pick, len(model.contacts_) - 1)
-        ]
-    return table
+#: Beds simulated for the temperature: enough that the draw hardly moves it.
+SIMULATED_BEDS = 20_000
 
 
-def _split(drawn: list[dict], tracts: np.ndarray):
-    """Pairs (drawn succession, its tracts) from :func:`simulate_beds` output."""
-    start = 0
-    for d in drawn:
-        n = len(d["facies"])
-        yield d, tracts[start : start + n]
-        start += n
+def _simulated_lengths(lengths, rng) -> list[int]:
+    """Lengths of the simulated successions: those of the training successions,
+    drawn at random (again and again on a small database) up to
+    :data:`SIMULATED_BEDS` beds."""
+    lengths = np.asarray([int(n) for n in lengths if n > 0])
+    chosen: list[int] = []
+    total = 0
+    while len(lengths) and total < SIMULATED_BEDS:
+        for n in lengths[rng.permutation(len(lengths))]:
+            chosen.append(int(n))
+            total += int(n)
+            if total >= SIMULATED_BEDS:
+                break
+    return chosen
+
+
+def _cycles(model, beds: EncodedBeds) -> np.ndarray:
+    """Cycle index of every training bed, cut as the model's context cuts them."""
+    from faciesseq.cycles import find_cycles
+
+    ranks = np.full(len(beds), np.nan)
+    known = beds.facies >= 0
+    if model.ranks_ is not None:
+        ranks[known] = model.ranks_[beds.facies[known]]
+    marks = setting = None
+    if model.scheme is not None:
+        marks = model.scheme.cycle_bases(model.facies_)[np.maximum(beds.facies, 0)] & known
+        flags = model.scheme.settings(model.facies_)
+        if flags is not None:
+            setting = np.where(known, flags[np.maximum(beds.facies, 0)], np.nan)
+    return find_cycles(ranks, beds.lengths, None, 1.0, marks, setting).bed_cycle
+
+
+def _pool(tables) -> pd.DataFrame:
+    columns = ["facies", "thickness", "contact"]
+    return pd.concat([t[[c for c in columns if c in t.columns]] for t in tables], ignore_index=True)
+
+
+def _new_facies(facies: np.ndarray) -> np.ndarray:
+    """True where a bed's facies differs from the bed below (beds amalgamate otherwise)."""
+    return np.r_[True, facies[1:] != facies[:-1]] if len(facies) else np.zeros(0, bool)
+
+
+def resample_cycles(path: np.ndarray, cycle: np.ndarray, gamma: np.ndarray, rng) -> tuple:
+    """Rows of real beds filling a simulated tract path, and the path's tract per row.
+
+    Every run of one tract in ``path`` is filled with whole real cycles (the
+    last one cut to fit), each drawn with probability proportional to the mean
+    posterior probability of that tract over its beds (``gamma``): cycles the
+    model is unsure of are drawn for several tracts, so the simulated cores are
+    as ambiguous as the model finds the real ones, and the parasequences keep
+    their inner order (a block bootstrap whose blocks are cycles; Kunsch 1989,
+    Ann. Statist. 17:1217-1241).
+    """
+    n_cycles = int(cycle[-1]) + 1 if len(cycle) else 0
+    size = np.bincount(cycle, minlength=n_cycles)
+    start = np.r_[0, np.cumsum(size)[:-1]]
+    weight = np.vstack([np.bincount(cycle, gamma[:, s], n_cycles) for s in range(gamma.shape[1])])
+    cdf = np.cumsum(weight / np.maximum(size, 1) + 1e-12, axis=1)
+    rows, kept = [], []
+    bounds = np.flatnonzero(np.r_[True, path[1:] != path[:-1]])
+    for a, b in zip(bounds, np.r_[bounds[1:], len(path)], strict=True):
+        s, need = int(path[a]), int(b - a)
+        # at most `need` cycles fill the run (each holds a bed or more)
+        drawn = np.searchsorted(cdf[s], rng.random(need) * cdf[s, -1], side="right")
+        drawn = np.minimum(drawn, n_cycles - 1)
+        ends = np.cumsum(size[drawn])
+        used = int(np.searchsorted(ends, need)) + 1
+        for c, before in zip(drawn[:used], np.r_[0, ends[: used - 1]], strict=True):
+            take = min(int(size[c]), need - int(before))
+            rows.append(np.arange(take) + start[c])
+        kept.append(np.full(need, s))
+    return np.concatenate(rows), np.concatenate(kept)
 
 
 def _chain_path(startprob, transmat, n, rng) -> np.ndarray:
@@ -121,39 +160,3 @@ def _chain_path(startprob, transmat, n, rng) -> np.ndarray:
     for t in range(1, n):
         path[t] = min(int(np.searchsorted(cum[path[t - 1]], rng.random())), len(startprob) - 1)
     return path
-
-
-def simulate_beds(
-    lengths: Sequence[int],
-    startprob: np.ndarray,
-    transmat: np.ndarray,
-    state_tract: np.ndarray,
-    facies_chain: np.ndarray,
-    thickness: np.ndarray,
-    rng: np.random.Generator,
-) -> tuple[list, np.ndarray]:
-    """Successions of beds drawn from a fitted tract model (a parametric bootstrap).
-
-    The tract path follows the fitted chain; within a tract the facies follow
-    ``facies_chain[tract, below, above]`` (row ``below = V`` for the first bed of
-    a succession) and the log thickness ``thickness[tract] = (mean, sd)``. The
-    stacking context of these beds is then computed as for real cores, so the
-    overlap of neighbouring windows -- the evidence the emission pieces count
-    more than once -- is kept (Efron & Tibshirani 1993, An Introduction to the
-    Bootstrap, ch. 6). Returns ``(tables, tract index of every bed)``, each
-    table base to top with ``facies`` (index), ``thickness``.
-    """
-    tables, tracts = [], []
-    V = facies_chain.shape[2]
-    for n in lengths:
-        tract = state_tract[_chain_path(startprob, transmat, int(n), rng)]
-        fac = np.empty(int(n), dtype=np.int64)
-        below = V
-        for t in range(int(n)):
-            p = facies_chain[tract[t], below]
-            fac[t] = rng.choice(V, p=p)
-            below = fac[t]
-        mean, sd = thickness[tract, 0], thickness[tract, 1]
-        tables.append({"facies": fac, "thickness": np.exp(mean + sd * rng.standard_normal(n))})
-        tracts.append(tract)
-    return tables, np.concatenate(tracts) if tracts else np.zeros(0, dtype=np.int64)
