@@ -198,6 +198,28 @@ def read_source(args: argparse.Namespace, scheme=None, announce_settings: bool =
     return cores
 
 
+def stream_source(args: argparse.Namespace, scheme=None):
+    """The core database named on the command line a batch of whole cores at a time
+    (:func:`faciesseq.io.stream_cores`), or ``None`` where it is read whole. Once the
+    batches are read, :func:`announce` of the stream's ``summary()`` says which units
+    and scheme are in force, as :func:`read_source` does."""
+    from faciesseq.io import stream_cores
+
+    if args.keep_first:
+        return None  # an option of the samples layout, which is read whole
+    return stream_cores(
+        args.source,
+        layout=args.layout,
+        columns=column_mapping(args.column),
+        units=args.units,
+        sheet=args.sheet,
+        table=args.table,
+        query=args.query,
+        curve=args.curve,
+        scheme=scheme,
+    )
+
+
 def _read(args: argparse.Namespace, scheme=None):
     from faciesseq.io import read_cores
 
