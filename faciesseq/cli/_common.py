@@ -366,19 +366,25 @@ def regular_cores(cores, command: str, keep: bool = False):
     """The cores without the irregularly sampled ones, which ``markov`` leaves out too
     (:func:`faciesseq.markov.leave_out_irregular`); one warning line names them. With
     ``keep`` (``--keep-irregular``) every core is kept and the line says so."""
-    import sys
-
     from faciesseq.markov.screening import leave_out_irregular
 
     screening = leave_out_irregular(cores)
+    say_irregular(screening, command, keep)
+    return cores if keep else screening.kept
+
+
+def say_irregular(screening, command: str, keep: bool = False) -> None:
+    """The one warning line of :func:`regular_cores` naming the irregular cores of
+    ``screening`` (a :class:`~faciesseq.markov.screening.Screening`), if any."""
+    import sys
+
     if not screening.left_out:
-        return screening.kept
+        return
     if keep:
         names = ", ".join(screening.left_out)
         sys.stderr.write(
             f"faciesseq {command}: warning: {len(screening.left_out)} irregularly sampled "
             f"core(s) kept (--keep-irregular): {names}\n"
         )
-        return cores
+        return
     sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
-    return screening.kept
