@@ -14,7 +14,7 @@ import faciesseq.io.plaincsv as plaincsv
 import faciesseq.io.stream as stream_module
 from faciesseq.cli import main
 from faciesseq.hmm import decoding
-from faciesseq.io import NotStreamable, read_cores, stream_cores
+from faciesseq.io import NotStreamable, read_cores, stream_cores, summarise
 from faciesseq.markov import analyse, analyse_batches
 from faciesseq.scheme import load_scheme
 
@@ -188,3 +188,23 @@ def test_an_error_in_a_late_batch_leaves_no_output_half_written(
     assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.csv", "old"]
     assert [p.name for p in old.iterdir()] == ["tracts.csv"]
     assert (old / "tracts.csv").read_text() == "kept\n"
+
+
+@pytest.mark.parametrize("damage", [None, "facies", "depth"])
+def test_check_of_batches_is_the_check_of_the_whole_file(tmp_path, monkeypatch, capsys, damage):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    if damage is not None:  # an error in a late batch: summarised with the rest
+        table.loc[len(table) - 40, {"facies": "facies", "depth": "base"}[damage]] = "??"
+    source = tmp_path / "cores.csv"
+    table.to_csv(source, index=False)
+    argv = ["check", str(source), "--scheme", str(SCHEME), "--format", "json"]
+    out = []
+    for rows, block in ((10**9, 10**9), (300, 20_000)):
+        monkeypatch.setattr(plaincsv, "BLOCK_BYTES", block)
+        monkeypatch.setattr(stream_module, "BATCH_ROWS", rows)
+        code = main(argv)
+        out.append((code, capsys.readouterr()))
+    assert out[0] == out[1]
+    assert out[0][0] == (0 if damage is None else 1)
+    whole = summarise(read_cores(source, scheme=SCHEME), load_scheme(SCHEME))
+    assert json.loads(out[0][1].out) == json.loads(json.dumps(whole.to_dict()))

@@ -114,9 +114,17 @@ class CoreStream:
         return str(self.path)
 
     def __iter__(self) -> Iterator[CoreSet]:
+        return self.batches()
+
+    def batches(self, valid: bool = True) -> Iterator[CoreSet]:
+        """The batches in file order: the valid ones (``valid``, see the class notes),
+        or every batch, errors and all, for a summary of the file (then :attr:`problems`
+        holds every problem of the file, in the whole file's order, once read; a problem
+        of the file rather than of a core, other than the units warning, stops the read:
+        :class:`NotStreamable`)."""
         self.units, self.problems = None, []
         seen: set[str] = set()
-        form = None  # how the first batch reads its columns and units
+        form = None  # how the first batch with cores reads its columns and units
         errors: list[list[Problem]] = []
         deepest = -np.inf
         for raw in self._raw_tables():
@@ -124,18 +132,20 @@ class CoreStream:
             if self.units is None:
                 self.units = batch.units
                 self.problems = [p for p in batch.problems if p.kind == "units"]
-            if len(batch.names) and form is None:
-                form = _form(batch)
-            if len(batch.names) and _form(batch) != form:
-                raise NotStreamable("the batches read their columns or units differently")
-            if seen.intersection(batch.names):
+            if len(batch.names):
+                form = form or _form(batch)
+                if _form(batch) != form:
+                    raise NotStreamable("the batches read their columns or units differently")
+                deepest = max(deepest, float(batch.column("base").astype(float).max()))
+            names = _named(batch)
+            if seen.intersection(names):
                 raise NotStreamable("a core's rows are apart in the file")
-            seen.update(batch.names)
-            if batch.errors or errors:
+            seen.update(names)
+            if not valid:
+                self.problems += _of_cores(batch.problems)
+            elif batch.errors or errors:
                 errors.append(batch.errors)
                 continue
-            if len(batch.names):
-                deepest = max(deepest, float(batch.column("base").astype(float).max()))
             yield batch
         self._finish(errors, seen, deepest)
 
@@ -205,6 +215,23 @@ class CoreStream:
         raw = raw_rows(frame, self.file, [], first=first)
         raw.core = self.path.stem  # as the whole file's reader names a core-less table
         return raw
+
+
+def _named(batch: CoreSet) -> list[str]:
+    """The cores of a batch, those whose every row has an error too."""
+    return [*batch.names, *(p.core for p in batch.problems if p.kind == "empty-core")]
+
+
+def _of_cores(problems: tuple[Problem, ...]) -> list[Problem]:
+    """The problems of a batch's cores; a problem of the file other than the units
+    warning and the ones made again for the whole file stops the read."""
+    if any(p.core is None and p.kind not in _OF_FILE for p in problems):
+        raise NotStreamable("a problem of the file, not of a core")
+    return [p for p in problems if p.core is not None]
+
+
+#: Problems of the file a batch reports, that the whole file's read makes once.
+_OF_FILE = ("units", "units-suspect", "no-cores")
 
 
 def _last_core_start(codes: np.ndarray) -> int | None:

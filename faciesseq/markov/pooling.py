@@ -18,7 +18,7 @@ import pandas as pd
 
 from faciesseq.core import Core, CoreSet
 from faciesseq.errors import ConfigError
-from faciesseq.markov.counts import EncodedSuccessions, encode_flat
+from faciesseq.markov.counts import EncodedSuccessions, encode_flat, encode_states
 from faciesseq.markov.screening import leave_out_irregular
 
 __all__ = ["Pool"]
@@ -125,7 +125,7 @@ class Pool:
             self._add(succ.beds, np.array([len(succ)]), [str(succ.core)], [int(succ.segment)])
 
     def _add(self, beds: pd.DataFrame, lengths: np.ndarray, cores: list, segments: list) -> None:
-        self._facies.append(beds["facies"].to_numpy(dtype=object))
+        self._facies.append(pd.Categorical(beds["facies"]))  # a small integer per bed
         self._lengths.append(np.asarray(lengths, dtype=np.int64))
         self._cores += cores
         self._segments += segments
@@ -136,15 +136,21 @@ class Pool:
         elif len(beds) and self._missing_group is None:
             self._missing_group = list(beds.columns)
 
-    def encoded(self, codes) -> EncodedSuccessions:
-        """Every pooled succession coded by ``codes`` (``None``: the codes present)."""
-        return encode_flat(
-            _joined(self._facies, object),
-            _joined(self._lengths, np.int64),
-            self._cores,
-            self._segments,
-            codes,
-        )
+    def encoded(self, codes: list[str]) -> EncodedSuccessions:
+        """Every pooled succession coded by ``codes``."""
+        lengths = _joined(self._lengths, np.int64)
+        codes = [str(c) for c in codes]
+        listed = pd.Index(codes)
+        states = []
+        for facies in self._facies:
+            found = listed.get_indexer(facies.categories.astype(str)) if listed.is_unique else [-1]
+            if np.any(found < 0) or np.any(facies.codes < 0):  # encode_flat names the code
+                every = [np.asarray(f, dtype=object) for f in self._facies]
+                return encode_flat(
+                    _joined(every, object), lengths, self._cores, self._segments, codes
+                )
+            states.append(np.asarray(found)[facies.codes])
+        return encode_states(_joined(states, np.int64), lengths, self._cores, self._segments, codes)
 
     def group_values(self) -> np.ndarray:
         """The ``by`` column of every pooled bed, successions one after another."""
