@@ -225,7 +225,9 @@ class _Written:
     def add(self, part) -> None:
         from faciesseq.cli._summary import WELL_LIMIT
 
-        self.heads.append(part.head(WELL_LIMIT - sum(len(h) for h in self.heads)))
+        wanted = WELL_LIMIT - sum(len(h) for h in self.heads)
+        if wanted > 0 or not self.heads:  # a head of none would keep the part's text alive
+            self.heads.append(part.head(wanted))
         self.wells.append(part.wells)
         self.agreements.append(_agreement(part, self.labels))
         self.parts += [part] if self.keep else []

@@ -274,7 +274,8 @@ class _Found:
         else:
             core_frame, beds, interval_facies, interval_thick = _core_by_core(cores, steps)
         self.rows.append(core_frame)
-        self.beds.append((_codes(beds["facies"]), beds["thickness"]))
+        # a copy: the bed table's column would keep every float column of the table
+        self.beds.append((_codes(beds["facies"]), beds["thickness"].copy()))
         self.intervals.append((_codes(interval_facies), interval_thick))
         self.codes.update(cores.facies_codes())
 
