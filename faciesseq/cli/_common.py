@@ -207,34 +207,23 @@ def stream_source(args: argparse.Namespace, scheme=None):
 
     if args.keep_first:
         return None  # an option of the samples layout, which is read whole
-    return stream_cores(
-        args.source,
-        layout=args.layout,
-        columns=column_mapping(args.column),
-        units=args.units,
-        sheet=args.sheet,
-        table=args.table,
-        query=args.query,
-        curve=args.curve,
-        scheme=scheme,
-    )
+    return stream_cores(args.source, scheme=scheme, **_reading_options(args))
 
 
 def _read(args: argparse.Namespace, scheme=None):
     from faciesseq.io import read_cores
 
+    repeated = "keep-first" if args.keep_first else "error"
     return read_cores(
-        args.source,
-        layout=args.layout,
-        columns=column_mapping(args.column),
-        units=args.units,
-        sheet=args.sheet,
-        table=args.table,
-        query=args.query,
-        curve=args.curve,
-        scheme=scheme,
-        repeated_depths="keep-first" if args.keep_first else "error",
+        args.source, scheme=scheme, repeated_depths=repeated, **_reading_options(args)
     )
+
+
+def _reading_options(args: argparse.Namespace) -> dict:
+    """The options of :func:`add_source_arguments` as :func:`faciesseq.io.read_cores`
+    takes them (but ``repeated_depths``)."""
+    names = ("layout", "units", "sheet", "table", "query", "curve")
+    return {"columns": column_mapping(args.column)} | {k: getattr(args, k) for k in names}
 
 
 class _DeprecatedAlias(argparse.Action):

@@ -46,9 +46,6 @@ __all__ = ["BATCH_ROWS", "CoreStream", "NotStreamable", "open_stream"]
 #: Rows of the file (at least) per batch: about 200,000 beds of the demo's kind.
 BATCH_ROWS = 1 << 20
 
-#: Kinds of problem a stream keeps besides errors: those about the depth units.
-KEPT_KINDS = ("units", "units-suspect")
-
 
 class NotStreamable(Exception):
     """The file must be read whole (see the module notes); found while reading."""
@@ -83,8 +80,9 @@ class CoreStream:
 
     Iterating gives one valid :class:`~faciesseq.core.CoreSet` per batch, in file
     order; :meth:`summary` then holds what the whole file's core set says of itself
-    (units, sources, the problems of :data:`KEPT_KINDS`). Each iteration reads the
-    file again.
+    (units, sources, and the problems about its depth units: the ``units`` and
+    ``units-suspect`` warnings; every problem when read with ``valid=False``). Each
+    iteration reads the file again.
 
     Raises (while iterating)
     ------------------------
@@ -168,7 +166,7 @@ class CoreStream:
         return batch
 
     def _finish(self, errors: list[list[Problem]], seen: set[str], deepest: float) -> None:
-        """The whole file's problems of :data:`KEPT_KINDS`; its first error raised."""
+        """The whole file's ``units-suspect`` warning; its first error raised."""
         if errors:
             if sum(any(p.core is None for p in found) for found in errors) > 1:
                 raise NotStreamable("errors without a core in several batches")
