@@ -145,6 +145,21 @@ class SuccessionTable(Sequence):
             found[0].units if found else "m",
         )
 
+    @classmethod
+    def concat(cls, tables: Sequence[SuccessionTable]) -> SuccessionTable:
+        """The successions of ``tables`` (of one depth unit) one table after another."""
+        if len(tables) == 1:
+            return tables[0]
+        ends = np.cumsum([t.starts[-1] for t in tables])
+        starts = [t.starts[:-1] + end - t.starts[-1] for t, end in zip(tables, ends)]
+        return cls(
+            pd.concat([t.beds for t in tables], ignore_index=True),
+            np.r_[np.concatenate(starts), ends[-1]].astype(np.int64),
+            np.concatenate([t.cores for t in tables]),
+            np.concatenate([t.segments for t in tables]),
+            tables[0].units,
+        )
+
     @property
     def lengths(self) -> np.ndarray:
         """Beds of every succession."""

@@ -198,21 +198,32 @@ def read_source(args: argparse.Namespace, scheme=None, announce_settings: bool =
     return cores
 
 
+def stream_source(args: argparse.Namespace, scheme=None):
+    """The core database named on the command line a batch of whole cores at a time
+    (:func:`faciesseq.io.stream_cores`), or ``None`` where it is read whole. Once the
+    batches are read, :func:`announce` of the stream's ``summary()`` says which units
+    and scheme are in force, as :func:`read_source` does."""
+    from faciesseq.io import stream_cores
+
+    if args.keep_first:
+        return None  # an option of the samples layout, which is read whole
+    return stream_cores(args.source, scheme=scheme, **_reading_options(args))
+
+
 def _read(args: argparse.Namespace, scheme=None):
     from faciesseq.io import read_cores
 
+    repeated = "keep-first" if args.keep_first else "error"
     return read_cores(
-        args.source,
-        layout=args.layout,
-        columns=column_mapping(args.column),
-        units=args.units,
-        sheet=args.sheet,
-        table=args.table,
-        query=args.query,
-        curve=args.curve,
-        scheme=scheme,
-        repeated_depths="keep-first" if args.keep_first else "error",
+        args.source, scheme=scheme, repeated_depths=repeated, **_reading_options(args)
     )
+
+
+def _reading_options(args: argparse.Namespace) -> dict:
+    """The options of :func:`add_source_arguments` as :func:`faciesseq.io.read_cores`
+    takes them (but ``repeated_depths``)."""
+    names = ("layout", "units", "sheet", "table", "query", "curve")
+    return {"columns": column_mapping(args.column)} | {k: getattr(args, k) for k in names}
 
 
 class _DeprecatedAlias(argparse.Action):
@@ -344,22 +355,28 @@ def regular_cores(cores, command: str, keep: bool = False):
     """The cores without the irregularly sampled ones, which ``markov`` leaves out too
     (:func:`faciesseq.markov.leave_out_irregular`); one warning line names them. With
     ``keep`` (``--keep-irregular``) every core is kept and the line says so."""
-    import sys
-
     from faciesseq.markov.screening import leave_out_irregular
 
     screening = leave_out_irregular(cores)
+    say_irregular(screening, command, keep)
+    return cores if keep else screening.kept
+
+
+def say_irregular(screening, command: str, keep: bool = False) -> None:
+    """The one warning line of :func:`regular_cores` naming the irregular cores of
+    ``screening`` (a :class:`~faciesseq.markov.screening.Screening`), if any."""
+    import sys
+
     if not screening.left_out:
-        return screening.kept
+        return
     if keep:
         names = ", ".join(screening.left_out)
         sys.stderr.write(
             f"faciesseq {command}: warning: {len(screening.left_out)} irregularly sampled "
             f"core(s) kept (--keep-irregular): {names}\n"
         )
-        return cores
+        return
     sys.stderr.write(f"faciesseq {command}: warning: {screening.warning()}\n")
-    return screening.kept
 
 
 def check_labels(cores, column: str | None, tract_model, source) -> None:

@@ -8,9 +8,11 @@ import math
 
 from faciesseq.cli._common import (
     add_source_arguments,
+    announce,
     load_scheme_option,
     read_source,
     source_file,
+    stream_source,
     units_alarm,
     units_from,
 )
@@ -239,13 +241,32 @@ def run(args: argparse.Namespace) -> int:
 
     out = _source_target(args)
     scheme = load_scheme_option(args.scheme)
-    cores = read_source(args, scheme)
-    if out is not None:
-        write_source(args, out, cores)
-        sys.stderr.write(f"faciesseq check: wrote {out} (give it as SOURCE to every command)\n")
-    result = summarise(cores, scheme)
+    result = _streamed(args, scheme) if out is None else None
+    if result is None:
+        cores = read_source(args, scheme)
+        if out is not None:
+            write_source(args, out, cores)
+            sys.stderr.write(f"faciesseq check: wrote {out} (give it as SOURCE to every command)\n")
+        result = summarise(cores, scheme)
     if args.format == "json":
         print(json.dumps(result.to_dict(), indent=2, allow_nan=False))
     else:
         print(format_text(result))
     return 0 if result.usable else 1
+
+
+def _streamed(args: argparse.Namespace, scheme):
+    """The summary of SOURCE read a batch of whole cores at a time, or ``None`` where it
+    is read whole (see :func:`faciesseq.io.stream_cores`)."""
+    from faciesseq.io import NotStreamable
+    from faciesseq.io.summary import summarise_batches
+
+    stream = stream_source(args, scheme)
+    if stream is None:
+        return None
+    try:
+        result = summarise_batches(stream, scheme)
+    except NotStreamable:
+        return None
+    announce(args, stream.summary(), scheme)
+    return result

@@ -12,12 +12,15 @@ from faciesseq.cli._common import (
     add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
+    announce,
     check_grid_size,
     column_mapping,
     read_source,
     regular_cores,
     require_file,
+    say_irregular,
     scheme_for_model,
+    stream_source,
 )
 from faciesseq.cli._hmm import warnings_to_stderr
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
@@ -222,7 +225,9 @@ class _Written:
     def add(self, part) -> None:
         from faciesseq.cli._summary import WELL_LIMIT
 
-        self.heads.append(part.head(WELL_LIMIT - sum(len(h) for h in self.heads)))
+        wanted = WELL_LIMIT - sum(len(h) for h in self.heads)
+        if wanted > 0 or not self.heads:  # a head of none would keep the part's text alive
+            self.heads.append(part.head(wanted))
         self.wells.append(part.wells)
         self.agreements.append(_agreement(part, self.labels))
         self.parts += [part] if self.keep else []
@@ -333,9 +338,8 @@ def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
         )
 
 
-def _read(args: argparse.Namespace):
-    """Read the model and the cores; ``(model, scheme, successions, sampled)``,
-    ``sampled`` whether any core was read in the samples layout."""
+def _model(args: argparse.Namespace):
+    """The model and the facies scheme in force (``--scheme`` or the model's)."""
     from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
@@ -345,13 +349,49 @@ def _read(args: argparse.Namespace):
     scheme = scheme_for_model(args.scheme, model)
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
+    return model, scheme
+
+
+def _read(args: argparse.Namespace, model, scheme):
+    """The successions of the cores read whole, and whether any core was read in the
+    samples layout."""
     cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
     check_grid_size(cores, model.unit, model.step, option="the model's grid step")
     successions = cores.succession_table(model.unit, model.step)
     if not len(successions):
         raise ConfigError("the source holds no beds to decode", file=args.source)
     sampled = "samples" in dict(cores.meta.get("layout", {})).values()
-    return model, scheme, successions, sampled
+    return successions, sampled
+
+
+class _Streamed:
+    """The successions of SOURCE a batch of whole cores at a time (beds only: a grid's
+    size is checked on every core first); the irregular cores are named at the end."""
+
+    def __init__(self, args: argparse.Namespace, stream):
+        self.args, self.stream = args, stream
+        self.left_out: list[str] = []
+
+    def tables(self, model):
+        from faciesseq.markov.screening import leave_out_irregular
+
+        beds = 0
+        for batch in self.stream:
+            screening = leave_out_irregular(batch)
+            self.left_out += screening.left_out
+            cores = batch if self.args.keep_irregular else screening.kept
+            table = cores.succession_table(model.unit, model.step)
+            beds += len(table.beds)
+            yield table
+        if not beds:
+            raise ConfigError("the source holds no beds to decode", file=self.args.source)
+
+    def announce(self, scheme) -> None:
+        from faciesseq.markov.screening import Screening
+
+        screening = Screening(self.stream.summary(), tuple(self.left_out), ())
+        say_irregular(screening, "decode", self.args.keep_irregular)
+        announce(self.args, self.stream.summary(), scheme)
 
 
 def _overall_agreement(agreement) -> float | None:
@@ -406,18 +446,28 @@ def _samples(args: argparse.Namespace):
 
 
 def run(args: argparse.Namespace) -> int:
+    from faciesseq.io import NotStreamable
+
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
-    model, scheme, successions, sampled = _read(args)
-    samples = _samples(args) if sampled else None  # no second read for intervals
-    extra = _extra_outputs(args, scheme, model.tract_model_, samples)
-    if extra is None and args.summary == "json":
-        extra = lambda interp, folder: None  # noqa: E731  (keep the parts for the summary)
+    model, scheme = _model(args)
+    stream = stream_source(args, scheme) if model.unit == "beds" else None
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     with warnings_to_stderr("decode"):
-        written = write_output(
-            model.decode_parts(successions), Path(args.output), args.format, labels, extra
-        )
+        written = None
+        if stream is not None:
+            streamed = _Streamed(args, stream)
+            parts = model.decode_stream(streamed.tables(model))
+            try:
+                written = _write(args, model, scheme, parts, labels, sampled=False)
+            except NotStreamable:
+                pass  # read whole below
+            else:
+                streamed.announce(scheme)
+        if written is None:
+            successions, sampled = _read(args, model, scheme)
+            parts = model.decode_parts(successions)
+            written = _write(args, model, scheme, parts, labels, sampled)
     if args.summary == "json":
         _print_json(args, scheme, written)
     else:
@@ -428,3 +478,12 @@ def run(args: argparse.Namespace) -> int:
         stream = sys.stderr if args.summary == "json" else sys.stdout
         print(sheet_note(Path(args.output)), file=stream)
     return 0
+
+
+def _write(args, model, scheme, parts, labels: str, sampled: bool) -> _Written:
+    """The decoded ``parts`` written into OUT (see :func:`write_output`)."""
+    samples = _samples(args) if sampled else None  # no second read for intervals
+    extra = _extra_outputs(args, scheme, model.tract_model_, samples)
+    if extra is None and args.summary == "json":
+        extra = lambda interp, folder: None  # noqa: E731  (keep the parts for the summary)
+    return write_output(parts, Path(args.output), args.format, labels, extra)

@@ -9,12 +9,14 @@ from faciesseq.cli._common import (
     add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
+    announce,
     check_grid_size,
     check_seed,
     check_surrogates,
     check_unit_step,
     load_scheme_option,
     read_source,
+    stream_source,
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
@@ -129,7 +131,6 @@ def run(args: argparse.Namespace) -> int:
 
     import numpy as np
 
-    from faciesseq.markov import analyse
     from faciesseq.report.markov_text import markov_text
 
     _check(args)
@@ -139,27 +140,10 @@ def run(args: argparse.Namespace) -> int:
 
         check_target(args.output, force=args.force, folder=True)
     scheme = load_scheme_option(args.scheme)
-    cores = read_source(args, scheme=scheme).require_valid()
-    check_grid_size(cores, args.unit, args.step)
     seed = args.seed
     if args.surrogates and seed is None:
         seed = int(np.random.SeedSequence().entropy % 2**32)
-    by = None if args.by.lower() == "none" else args.by
-    report = analyse(
-        cores,
-        unit=args.unit,
-        step=args.step,
-        max_order=args.max_order,
-        surrogates=args.surrogates,
-        seed=seed,
-        by=by,
-        per_core=args.per_core,
-        alpha=args.alpha,
-        scheme=scheme,
-        exclude_irregular=not args.keep_irregular,
-        n_jobs=n_jobs,
-        scheduler=scheduler,
-    )
+    report = _analyse(args, scheme, seed, n_jobs, scheduler)
     text = markov_text(report)
     if args.surrogates:
         text += f"surrogates drawn with seed {seed} (repeat with --seed {seed})\n"
@@ -173,3 +157,38 @@ def run(args: argparse.Namespace) -> int:
     else:
         report.to_frames()["tests"].to_csv(sys.stdout, index=False)
     return 0
+
+
+def _analyse(args: argparse.Namespace, scheme, seed, n_jobs, scheduler):
+    """The report of SOURCE: a batch of whole cores at a time where it can be streamed
+    (beds only: a grid's size is checked on every core first), else read whole."""
+    from faciesseq.io import NotStreamable
+    from faciesseq.markov import analyse, analyse_batches
+
+    by = None if args.by.lower() == "none" else args.by
+    options = dict(
+        unit=args.unit,
+        step=args.step,
+        max_order=args.max_order,
+        surrogates=args.surrogates,
+        seed=seed,
+        by=by,
+        per_core=args.per_core,
+        alpha=args.alpha,
+        scheme=scheme,
+        exclude_irregular=not args.keep_irregular,
+        n_jobs=n_jobs,
+        scheduler=scheduler,
+    )
+    stream = stream_source(args, scheme) if args.unit == "beds" else None
+    if stream is not None:
+        try:
+            report = analyse_batches(stream, **options)
+        except NotStreamable:
+            pass  # read whole below
+        else:
+            announce(args, stream.summary(), scheme)
+            return report
+    cores = read_source(args, scheme=scheme).require_valid()
+    check_grid_size(cores, args.unit, args.step)
+    return analyse(cores, **options)

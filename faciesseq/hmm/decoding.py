@@ -12,7 +12,7 @@ first) as whole columns, one table each for all the part's cores.
 from __future__ import annotations
 
 import warnings
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 
 import numpy as np
 import pandas as pd
@@ -121,12 +121,46 @@ class Decoding:
         on before the next is begun."""
         self._check_fitted()
         table = _succession_table(successions, self.unit, self.step)
+        yield from self._decoded(table, mass, labels, size)
+
+    def decode_stream(
+        self, tables: Iterable[SuccessionTable], mass: float = 0.9, size: int | None = None
+    ) -> Iterator[Interpretation]:
+        """:meth:`decode_parts` of successions given as tables of whole cores one after
+        another (the batches of a streamed read, :func:`faciesseq.io.stream_cores`).
+
+        The batches and parts are those of the whole table, hence so is every decoded
+        column, bit for bit: a part is decoded once the successions after it are known
+        (its last batch can take no more, and its last core has ended); only the
+        successions not yet decoded are held."""
+        self._check_fitted()
+        held = None
+        for table in tables:
+            held = table if held is None else SuccessionTable.concat([held, table])
+            done = 0
+            for group in self._groups(held, size):
+                stop = group[-1][3] + len(group[-1][2])
+                if stop == len(held):  # the next table may add to its last batch or core
+                    break
+                yield self._decode_part(held.part(done, stop), group, mass, None, done)
+                done = stop
+            held = held.part(done, len(held)) if done else held
+        if held is None:
+            raise InputError("no beds to decode")
+        yield from self._decoded(held, mass, None, size)
+
+    def _decoded(self, table: SuccessionTable, mass, labels, size) -> Iterator[Interpretation]:
+        """Every part of ``table``, decoded in turn."""
         if not len(table):
             raise InputError("no beds to decode")
-        batches = list(self._batches(table.lengths, DECODE_BATCH))
-        for group in _parts(batches, table.cores, size or DECODE_PART):
+        for group in self._groups(table, size):
             first, stop = group[0][3], group[-1][3] + len(group[-1][2])
             yield self._decode_part(table.part(first, stop), group, mass, labels, first)
+
+    def _groups(self, table: SuccessionTable, size: int | None) -> list[list]:
+        """The batches of ``table`` grouped into parts (see :func:`_parts`)."""
+        batches = list(self._batches(table.lengths, DECODE_BATCH))
+        return _parts(batches, table.cores, size or DECODE_PART)
 
     def _decode_part(self, part: SuccessionTable, group, mass, labels, first: int):
         beds = self._encode([part.beds], part.lengths)

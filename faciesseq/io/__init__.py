@@ -16,6 +16,7 @@ from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 from faciesseq.io.columns import ROLES, match_columns
 from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, load_source_file, read_tables
+from faciesseq.io.stream import CoreStream, NotStreamable, open_stream
 from faciesseq.io.summary import DatabaseSummary, summarise
 from faciesseq.io.validate import build_coreset, facies_code
 from faciesseq.io.writer import write_cores
@@ -23,10 +24,13 @@ from faciesseq.scheme import FaciesScheme, load_scheme
 
 __all__ = [
     "ROLES",
+    "CoreStream",
     "DatabaseSummary",
+    "NotStreamable",
     "facies_code",
     "match_columns",
     "read_cores",
+    "stream_cores",
     "summarise",
     "write_cores",
 ]
@@ -99,8 +103,9 @@ def read_cores(
     ConfigError
         A bad option (unknown role, option not applying to the source, ...).
     """
-    spec = source_spec(
+    spec, scheme = _spec_and_scheme(
         source,
+        scheme,
         layout=layout,
         columns=columns,
         units=units,
@@ -111,12 +116,6 @@ def read_cores(
     )
     if repeated_depths == "error" and spec.repeated_depths:  # from a YAML source file
         repeated_depths = spec.repeated_depths
-    if scheme is None and spec.scheme is not None:
-        scheme = spec.scheme  # the source file's ``scheme:``; an explicit scheme wins
-    if isinstance(scheme, str | Path):
-        scheme = load_scheme(scheme)
-    if spec.units is not None and spec.units not in ("m", "ft"):
-        raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
     tables, problems, sources = read_tables(spec)
     cores = build_coreset(
         tables,
@@ -130,6 +129,61 @@ def read_cores(
     if problems:
         cores = replace(cores, problems=tuple(problems) + cores.problems)
     return cores
+
+
+def stream_cores(
+    source: str | Path,
+    *,
+    layout: str | None = None,
+    columns: Mapping[str, str] | None = None,
+    units: str | None = None,
+    sheet: str | None = None,
+    table: str | None = None,
+    query: str | None = None,
+    curve: str | None = None,
+    scheme: FaciesScheme | str | Path | None = None,
+    rows: int | None = None,
+) -> CoreStream | None:
+    """:func:`read_cores` a batch of whole cores at a time, for what needs each core
+    alone (:mod:`faciesseq.io.stream`).
+
+    Parameters are those of :func:`read_cores`; ``rows`` is the least number of the
+    file's rows per batch (default :data:`faciesseq.io.stream.BATCH_ROWS`).
+
+    Returns
+    -------
+    CoreStream or None
+        The valid batches, one :class:`~faciesseq.core.CoreSet` each, in file order;
+        ``None`` where the source must be read whole (not one plain CSV file with a
+        core column). While iterating, :class:`~faciesseq.io.stream.NotStreamable`
+        says that the file must be read whole after all (its cores apart, or its
+        columns read differently from one batch to the next).
+    """
+    spec, scheme = _spec_and_scheme(
+        source,
+        scheme,
+        layout=layout,
+        columns=columns,
+        units=units,
+        sheet=sheet,
+        table=table,
+        query=query,
+        curve=curve,
+    )
+    return open_stream(spec, scheme, rows)
+
+
+def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesScheme | None]:
+    """The reading options of ``source`` and the facies scheme, loaded (an explicit
+    scheme wins over a YAML source file's ``scheme:``)."""
+    spec = source_spec(source, **options)
+    if scheme is None and spec.scheme is not None:
+        scheme = spec.scheme
+    if isinstance(scheme, str | Path):
+        scheme = load_scheme(scheme)
+    if spec.units is not None and spec.units not in ("m", "ft"):
+        raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
+    return spec, scheme
 
 
 def _merge(from_file: SourceSpec, given: SourceSpec) -> SourceSpec:

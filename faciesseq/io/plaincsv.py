@@ -14,12 +14,13 @@ to the general reader.
 from __future__ import annotations
 
 import codecs
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["read_plain"]
+__all__ = ["NotPlain", "plain_blocks", "plain_frame", "read_plain"]
 
 #: Bytes parsed at a time.
 BLOCK_BYTES = 1 << 22
@@ -27,19 +28,48 @@ BLOCK_BYTES = 1 << 22
 NA_WORDS = sorted(pd._libs.parsers.STR_NA_VALUES)
 
 
+class NotPlain(Exception):
+    """Found while reading: the file is not plain (ragged rows, bytes that are not UTF-8);
+    the general reader must read it."""
+
+
 def read_plain(path: Path, delimiter: str, names: list[str]) -> pd.DataFrame | None:
     """The cells of a plain file (header ``names``, already stripped) as a frame of
     categorical text columns, missing cells NaN; ``None`` when the file is not plain or
     pyarrow cannot read it as a table of ``len(names)`` columns (ragged rows)."""
-    import pyarrow as pa
-    from pyarrow import csv
+    blocks = plain_blocks(path, delimiter, names)
+    if blocks is None:
+        return None
+    columns: list[list] = [[] for _ in names]
+    try:
+        for block in blocks:
+            for j, column in enumerate(block):
+                columns[j].append(column)
+    except NotPlain:
+        return None
+    if not columns[0]:
+        return None
+    return plain_frame(columns, names)
 
+
+def plain_blocks(path: Path, delimiter: str, names: list[str]) -> Iterator[list] | None:
+    """The blocks of a plain file, each a list of ``(codes, dictionary)`` per column
+    (a block's dictionary indices, narrowed, and its distinct texts); ``None`` when the
+    file starts with a byte-order mark or its header is not ``len(names)`` wide. The
+    blocks raise :class:`NotPlain` where the file turns out not to be plain."""
     with path.open("rb") as stream:
         if stream.read(3) == codecs.BOM_UTF8:
             return None
     header = reader_names(path, delimiter)
     if len(header) != len(names):
         return None
+    return _blocks(path, delimiter, header)
+
+
+def _blocks(path: Path, delimiter: str, header: list[str]) -> Iterator[list]:
+    import pyarrow as pa
+    from pyarrow import csv
+
     text = pa.dictionary(pa.int32(), pa.string())
     try:
         reader = csv.open_csv(
@@ -55,21 +85,23 @@ def read_plain(path: Path, delimiter: str, names: list[str]) -> pd.DataFrame | N
                 null_values=[],
             ),
         )
-        blocks = [[] for _ in names]
         for batch in reader:
-            for j, column in enumerate(batch.columns):
-                blocks[j].append((_narrow(column), column.dictionary))
+            yield [(_narrow(column), column.dictionary) for column in batch.columns]
     except (pa.ArrowInvalid, pa.ArrowTypeError, UnicodeDecodeError):
-        return None
-    if not blocks or not blocks[0] or len(blocks) != len(names):
-        return None
+        raise NotPlain from None
+
+
+def plain_frame(columns: list[list], names: list[str]) -> pd.DataFrame | None:
+    """The frame of the blocks of each column (``columns[j]``: column ``j``'s
+    ``(codes, dictionary)`` of every block); ``None`` when a cell holds a quote character
+    or a NUL byte. Each column's blocks are released once its column is made."""
     frame = {}
     for j, name in enumerate(names):
-        column = _categorical(blocks[j])
+        column = _categorical(columns[j])
         if column is None:
             return None
         frame[name] = column
-        blocks[j] = None  # each block's codes released once its column is made
+        columns[j] = None
     return pd.DataFrame(frame, copy=False)
 
 

@@ -10,9 +10,10 @@ import pandas as pd
 
 from faciesseq.core import DEPTH_TOL, CoreSet, CoreTable
 from faciesseq.errors import Problem
+from faciesseq.io.stream import CoreStream
 from faciesseq.scheme import FaciesScheme
 
-__all__ = ["DatabaseSummary", "summarise"]
+__all__ = ["DatabaseSummary", "summarise", "summarise_batches"]
 
 _CORE_COLUMNS = [
     "core",
@@ -238,24 +239,88 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
     gaps, see :meth:`faciesseq.core.Core.beds`). Facies are listed in scheme
     order when a scheme is given, else by code.
     """
-    steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
-    if isinstance(cores.cores, CoreTable):
-        core_frame, beds, interval_facies, interval_thick = _whole_table(cores, steps)
-    else:
-        core_frame, beds, interval_facies, interval_thick = _core_by_core(cores, steps)
-    codes = list(cores.facies_codes())
-    if scheme is not None:
-        present = set(codes)
-        order = [c for c in scheme.codes if c in present]
-        listed = set(order)
-        codes = order + [c for c in codes if c not in listed]
+    found = _Found()
+    found.add(cores)
+    return found.summary(cores.units, cores.problems, cores.sources, scheme)
+
+
+def summarise_batches(stream: CoreStream, scheme: FaciesScheme | None = None) -> DatabaseSummary:
+    """:func:`summarise` of a file read a batch of whole cores at a time
+    (:meth:`faciesseq.io.stream.CoreStream.batches`, errors and all): the same
+    summary, only the cores' rows and every interval's and bed's facies and thickness
+    held. Raises :class:`~faciesseq.io.stream.NotStreamable` where the file must be
+    read whole."""
+    found = _Found()
+    for batch in stream.batches(valid=False):
+        found.add(batch)
+    whole = stream.summary()
+    return found.summary(whole.units, whole.problems, whole.sources, scheme)
+
+
+class _Found:
+    """What a summary is made from, one core set (or batch of whole cores) at a time:
+    the per-core rows, and the facies and thickness of every bed and interval."""
+
+    def __init__(self):
+        self.rows: list[pd.DataFrame] = []
+        self.beds: list[tuple[pd.Categorical, pd.Series]] = []
+        self.intervals: list[tuple[pd.Categorical, pd.Series]] = []
+        self.codes: set[str] = set()
+
+    def add(self, cores: CoreSet) -> None:
+        steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
+        if isinstance(cores.cores, CoreTable):
+            core_frame, beds, interval_facies, interval_thick = _whole_table(cores, steps)
+        else:
+            core_frame, beds, interval_facies, interval_thick = _core_by_core(cores, steps)
+        self.rows.append(core_frame)
+        # a copy: the bed table's column would keep every float column of the table
+        self.beds.append((_codes(beds["facies"]), beds["thickness"].copy()))
+        self.intervals.append((_codes(interval_facies), interval_thick))
+        self.codes.update(cores.facies_codes())
+
+    def summary(self, units: str, problems, sources, scheme) -> DatabaseSummary:
+        codes = sorted(self.codes, key=lambda c: (len(c), c))
+        if scheme is not None:
+            present = set(codes)
+            order = [c for c in scheme.codes if c in present]
+            listed = set(order)
+            codes = order + [c for c in codes if c not in listed]
+        # batches without cores (every row an error) add nothing, and no column types
+        used = [k for k, rows in enumerate(self.rows) if len(rows)] or [0]
+        bed_facies, bed_thick = _joined([self.beds[k] for k in used])
+        interval_facies, interval_thick = _joined([self.intervals[k] for k in used])
+        core_frame = pd.concat([self.rows[k] for k in used]) if len(used) > 1 else self.rows[0]
+        return DatabaseSummary(
+            units,
+            core_frame.reset_index(drop=True),
+            _facies_table(codes, bed_facies, bed_thick, interval_facies, interval_thick, scheme),
+            tuple(problems),
+            tuple(sources),
+        )
+
+
+def _codes(facies: pd.Series) -> pd.Categorical:
+    """Facies codes as a categorical column (a small integer each)."""
+    return facies.array if isinstance(facies.dtype, pd.CategoricalDtype) else pd.Categorical(facies)
+
+
+def _joined(parts: list[tuple[pd.Categorical, pd.Series]]) -> tuple[pd.Series, pd.Series]:
+    if len(parts) == 1:
+        return pd.Series(parts[0][0]), parts[0][1].reset_index(drop=True)
+    facies = pd.api.types.union_categoricals([f for f, _ in parts])
+    return pd.Series(facies), pd.concat([t for _, t in parts], ignore_index=True)
+
+
+def _facies_table(codes, bed_facies, bed_thick, interval_facies, interval_thick, scheme):
+    """One row per facies code: counts, thickness, proportions, bed thickness statistics."""
     total_thickness = float(interval_thick.sum())
-    total_beds = len(beds)
+    total_beds = len(bed_facies)
     # one pass per table, grouped by facies (linear in the number of facies codes)
     bed_stats = (
-        pd.to_numeric(beds["thickness"], errors="coerce")
+        pd.to_numeric(bed_thick, errors="coerce")
         .astype(float)
-        .groupby(beds["facies"].to_numpy(), sort=False)
+        .groupby(bed_facies.to_numpy(), sort=False)
         .agg(["count", "mean", "median", "min", "max", "std"])
     )
     interval_stats = _by_facies(interval_thick.astype(float), interval_facies)
@@ -283,10 +348,4 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
                 "bed_thickness_std": float(b["std"]) if n_beds > 1 else np.nan,
             }
         )
-    return DatabaseSummary(
-        cores.units,
-        core_frame,
-        pd.DataFrame(facies_rows, columns=_FACIES_COLUMNS),
-        tuple(cores.problems),
-        tuple(cores.sources),
-    )
+    return pd.DataFrame(facies_rows, columns=_FACIES_COLUMNS)

@@ -196,17 +196,23 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
                     file=file,
                 )
             )
-    rows = np.arange(1, len(frame) + 1)
+    return raw_rows(frame, file, problems)
+
+
+def raw_rows(frame: pd.DataFrame, file: str, problems: list[Problem], first: int = 1) -> RawTable:
+    """The raw table of a file's rows (the first one numbered ``first``), rows whose every
+    cell is missing left out (their numbers too)."""
+    rows = np.arange(first, first + len(frame))
     keep = frame.notna().any(axis=1).to_numpy()
     if not keep.all():
         frame = frame[keep].reset_index(drop=True)
     return RawTable(frame, file, rows[keep], problems=problems)
 
 
-def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
-    """A plain file (:mod:`faciesseq.io.plaincsv`) and its delimiter; ``None`` when the
-    general reader must read it (not UTF-8, a header name blank, repeated or quoted,
-    ragged rows)."""
+def plain_header(path: Path) -> tuple[str, list[str]] | None:
+    """The delimiter and stripped header names of a file the plain reader may read
+    (:mod:`faciesseq.io.plaincsv`); ``None`` when the general reader must read it (not
+    UTF-8, a header name blank, repeated or quoted)."""
     try:
         head = _head(path)
     except UnicodeDecodeError:
@@ -218,6 +224,16 @@ def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
     check_width(len(names), str(path))
     if "" in names or len(set(names)) < len(names) or any('"' in n for n in names):
         return None
+    return delimiter, names
+
+
+def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
+    """A plain file (:mod:`faciesseq.io.plaincsv`) and its delimiter; ``None`` when the
+    general reader must read it (see :func:`plain_header`; ragged rows)."""
+    header = plain_header(path)
+    if header is None:
+        return None
+    delimiter, names = header
     frame = read_plain(path, delimiter, names)
     return None if frame is None else (frame, delimiter)
 

@@ -1276,9 +1276,17 @@ def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
         bases = np.concatenate([c.intervals["base"].to_numpy(dtype=float) for c in cores] or [[]])
     if not len(depths):
         return None
-    median = float(np.median(depths))
-    deepest = float(bases.max())
+    return feet_suspected_in(depths, float(bases.max()), sample_step)
+
+
+def feet_suspected_in(
+    depths: np.ndarray, deepest: float, sample_step: Mapping[str, float]
+) -> Problem | None:
+    """:func:`feet_suspected` of the tops ``depths`` of every interval and the ``deepest``
+    base; ``depths`` are only read where ``sample_step`` holds a step (the median of
+    the tops matters only beside the steps of a samples layout)."""
     steps = [s for s in sample_step.values() if any(abs(s - f) < 1e-6 for f in FEET_STEPS)]
+    median = float(np.median(depths)) if steps else 0.0
     if median >= FEET_DEPTH_M and steps:
         why = f"{steps[0]:g} steps near {median:,.0f}"
     elif deepest > TOO_DEEP_M:

@@ -13,7 +13,7 @@ from a bed to the bed above it. One module per concept:
 - :mod:`~faciesseq.markov.analysis` — :func:`analyse` bundles it all in a :class:`MarkovReport`.
 """
 
-from faciesseq.markov.analysis import SCHEMA, MarkovReport, analyse
+from faciesseq.markov.analysis import SCHEMA, MarkovReport, analyse, analyse_batches
 from faciesseq.markov.contingency import ContingencyResult, TestResult, independence_test
 from faciesseq.markov.counts import (
     encode,
@@ -36,6 +36,7 @@ __all__ = [
     "Screening",
     "TestResult",
     "analyse",
+    "analyse_batches",
     "encode",
     "fixed_vector",
     "homogeneity_test",

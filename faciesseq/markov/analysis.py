@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import Core, CoreSet
+from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.markov.contingency import (
     ContingencyResult,
@@ -21,7 +21,6 @@ from faciesseq.markov.counts import (
     EncodedSuccessions,
     batch_ngram_counts,
     encode,
-    encode_flat,
     fixed_vector,
     labelled,
     n_step,
@@ -31,7 +30,7 @@ from faciesseq.markov.counts import (
 from faciesseq.markov.cyclicity import CyclicityResult, cyclicity
 from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
 from faciesseq.markov.order import OrderResult, conditional_g2, order_analysis
-from faciesseq.markov.screening import leave_out_irregular
+from faciesseq.markov.pooling import Pool, label
 from faciesseq.markov.surrogates import (
     PERMUTATION_SWEEPS,
     monte_carlo_p_value,
@@ -42,7 +41,7 @@ from faciesseq.markov.surrogates import (
 )
 from faciesseq.parallel import job_seeds, run_jobs
 
-__all__ = ["SCHEMA", "MarkovReport", "analyse"]
+__all__ = ["SCHEMA", "MarkovReport", "analyse", "analyse_batches"]
 
 #: Version of the JSON layout written by :meth:`MarkovReport.to_dict`.
 SCHEMA = "faciesseq.markov/1"
@@ -233,76 +232,39 @@ class MarkovReport:
         return frames
 
 
-def _label(value) -> str | None:
-    """A group label as text (``2.0`` -> ``"2"``); ``None`` for a missing value."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return None
-    if isinstance(value, float | np.floating) and float(value).is_integer():
-        return str(int(value))
-    return str(value)
-
-
-def _as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
-    """The core set with ``column`` turned into text labels, so beds take a label, not a mean.
-
-    A bed made of several intervals takes the label covering most of its
-    thickness (:func:`faciesseq.core._aggregate` for text); numbers would be
-    averaged. The column is matched without regard to case.
-    """
-    names = {c for core in coreset for c in core.attributes}
-    if column not in names:
-        folded = {c.lower(): c for c in names}
-        if column.lower() not in folded:
-            raise ConfigError(f"--by {column}: no such column (columns: {sorted(names)})")
-        column = folded[column.lower()]
-    cores = {}
-    for name, core in coreset.cores.items():
-        table = core.intervals.copy()
-        if column in table.columns:
-            table[column] = pd.Series(
-                [_label(v) for v in table[column].to_numpy(dtype=object)],
-                index=table.index,
-                dtype=object,
+def _succession_groups(successions: Sequence, enc: EncodedSuccessions, by: str) -> np.ndarray:
+    """The bed column ``by`` of every succession given (those of one bed: none of it)."""
+    used = enc.lengths >= 2
+    parts = []
+    for k, succ in enumerate(successions):
+        table = getattr(succ, "beds", None)
+        if used[k] and (table is None or by not in table.columns):
+            raise ConfigError(
+                f"--by {by}: no such column in the beds (columns: "
+                f"{[] if table is None else list(table.columns)})"
             )
-        cores[name] = Core(name, table, core.units)
-    return CoreSet(cores, coreset.units, coreset.problems, coreset.sources, coreset.meta), column
+        parts.append(table[by].to_numpy(dtype=object) if used[k] else np.zeros(0, object))
+    values = np.concatenate(parts) if parts else np.zeros(0, dtype=object)
+    return values
 
 
 def _groups(
-    successions: Sequence | None, beds: pd.DataFrame | None, enc: EncodedSuccessions, by: str
+    values: np.ndarray | None, enc: EncodedSuccessions, by: str, every_bed: bool = True
 ) -> tuple[np.ndarray, list[str], int]:
     """Group index of every transition (-1 = between groups), labels, number left out.
 
-    The bed column ``by`` is read from ``beds`` (every succession's beds one after
-    another, as :meth:`~faciesseq.core.CoreSet.succession_beds` gives them) or else
-    from each of ``successions``. Labels are numbered in order of first appearance.
+    ``values`` holds the bed column ``by`` of every succession's beds one after
+    another (``every_bed``) or of the successions of two beds or more only. Labels
+    are numbered in order of first appearance.
     """
     used = enc.lengths >= 2
     if by == "core":
         ids, labels = pd.factorize(np.array(enc.cores, dtype=object)[used])
         group = np.repeat(ids.astype(np.int64), enc.lengths[used] - 1)
         return group, [str(label) for label in labels], 0
-    if beds is None:
-        parts = []
-        for k, succ in enumerate(successions):
-            table = getattr(succ, "beds", None)
-            if used[k] and (table is None or by not in table.columns):
-                raise ConfigError(
-                    f"--by {by}: no such column in the beds (columns: "
-                    f"{[] if table is None else list(table.columns)})"
-                )
-            parts.append(table[by].to_numpy(dtype=object) if used[k] else np.zeros(0, object))
-        values = np.concatenate(parts) if parts else np.zeros(0, dtype=object)
-        keep = np.ones(len(values), dtype=bool)
-    else:
-        if by not in beds.columns and used.any():
-            raise ConfigError(
-                f"--by {by}: no such column in the beds (columns: {list(beds.columns)})"
-            )
-        values = beds[by].to_numpy(dtype=object) if by in beds.columns else np.zeros(0, object)
-        keep = np.repeat(used, enc.lengths)
-    values = values[keep]
-    labels = np.array([_label(v) for v in pd.Series(values).where(pd.notna(values), None)])
+    if every_bed:
+        values = values[np.repeat(used, enc.lengths)]
+    labels = np.array([label(v) for v in pd.Series(values).where(pd.notna(values), None)])
     ids, names = pd.factorize(labels.astype(object), use_na_sentinel=True)
     lengths = enc.lengths[used]
     last = np.cumsum(lengths) - 1  # the top bed of each succession: no transition from it
@@ -492,45 +454,102 @@ def analyse(
     -------
     MarkovReport
     """
-    if unit not in ("beds", "grid"):
-        raise ConfigError(f"--unit must be 'beds' or 'grid', got {unit!r}")
-    if surrogates < 0:
-        raise ConfigError(f"--surrogates must be 0 or more, got {surrogates}")
-    warnings: list[str] = []
-    excluded: list[str] = []
-    found = beds = successions = None
+    settings = _Settings(
+        unit, step, max_order, surrogates, seed, by, per_core, alpha, n_jobs, scheduler
+    )
     if isinstance(data, CoreSet):
-        if by is not None and by != "core":
-            data, by = _as_groups(data, by)
-        if unit == "grid" and not (step is not None and step > 0):
-            raise ConfigError("--unit grid needs a positive --step (depth units)")
-        screening = leave_out_irregular(data, min_coverage=min_coverage)
-        for p in screening.problems:
-            if not exclude_irregular:
-                warnings.append(f"core {p.core} analysed although irregular: {p.message}")
-            elif p.core not in excluded:
-                excluded.append(p.core)
-                warnings.append(f"core {p.core} left out: {p.message}")
-        kept = screening.kept if exclude_irregular else data
-        # the beds' attributes only for grouping by one of them
-        found = (
-            kept.succession_beds(attributes=by not in (None, "core")) if unit == "beds" else None
+        return analyse_batches(
+            [data],
+            codes,
+            settings=settings,
+            scheme=scheme,
+            min_coverage=min_coverage,
+            exclude_irregular=exclude_irregular,
         )
-        if found is None:
-            successions = kept.successions(unit, step)
-        else:
-            beds, starts, succession_cores, segments = found
-        if codes is None and scheme is None:
-            codes = kept.facies_codes() if len(kept) else []
-    else:
-        successions = list(data)
+    settings.check()
+    successions = list(data)
     if codes is None:
         codes = list(scheme.codes_by_rank) if scheme is not None else None
-    if found is None:
-        enc = encode(successions, codes)
-    else:
-        lengths = np.diff(starts)
-        enc = encode_flat(beds["facies"].to_numpy(), lengths, succession_cores, segments, codes)
+    enc = encode(successions, codes)
+    values = None if by in (None, "core") else _succession_groups(successions, enc, by)
+    return _report(enc, values, False, settings, [], [])
+
+
+@dataclass(frozen=True)
+class _Settings:
+    """The statistics asked for (the keyword arguments of :func:`analyse`)."""
+
+    unit: str = "beds"
+    step: float | None = None
+    max_order: int = 3
+    surrogates: int = 0
+    seed: int | None = None
+    by: str | None = None
+    per_core: bool = False
+    alpha: float = 0.05
+    n_jobs: int = 1
+    scheduler: str | None = None
+
+    def check(self) -> None:
+        if self.unit not in ("beds", "grid"):
+            raise ConfigError(f"--unit must be 'beds' or 'grid', got {self.unit!r}")
+        if self.surrogates < 0:
+            raise ConfigError(f"--surrogates must be 0 or more, got {self.surrogates}")
+
+
+def analyse_batches(
+    batches: Iterable[CoreSet],
+    codes: Sequence[str] | None = None,
+    *,
+    scheme=None,
+    min_coverage: float = 0.5,
+    exclude_irregular: bool = True,
+    settings: _Settings | None = None,
+    **options,
+) -> MarkovReport:
+    """:func:`analyse` of a database given as core sets of whole cores, one after
+    another (the batches of :func:`faciesseq.io.stream_cores`): the same report as
+    for the whole core set, each batch screened and pooled in turn
+    (:class:`~faciesseq.markov.pooling.Pool`), only the pooled successions held.
+    ``options`` are the other keyword arguments of :func:`analyse`."""
+    settings = settings or _Settings(**options)
+    settings.check()
+    if settings.unit == "grid" and not (settings.step is not None and settings.step > 0):
+        raise ConfigError("--unit grid needs a positive --step (depth units)")
+    pool = Pool(
+        settings.unit,
+        settings.step,
+        settings.by,
+        min_coverage=min_coverage,
+        exclude_irregular=exclude_irregular,
+    )
+    for batch in batches:
+        pool.add(batch)
+    if codes is None:
+        codes = scheme.codes_by_rank if scheme is not None else sorted(pool.present, key=_by_text)
+    values = pool.group_values() if pool.grouping else None
+    settings = replace(settings, by=pool.by)
+    return _report(pool.encoded(list(codes)), values, True, settings, pool.excluded, pool.warnings)
+
+
+def _by_text(code: str) -> tuple[int, str]:
+    """Facies codes as text, numbers in numeric order (as ``CoreSet.facies_codes``)."""
+    return len(code), code
+
+
+def _report(
+    enc: EncodedSuccessions,
+    values: np.ndarray | None,
+    every_bed: bool,
+    settings: _Settings,
+    excluded: list[str],
+    warnings: list[str],
+) -> MarkovReport:
+    """The statistics of the coded successions ``enc`` (``values``: the ``by`` column of
+    every bed, ``every_bed``, or of the successions of two beds or more)."""
+    unit, step, by, alpha = settings.unit, settings.step, settings.by, settings.alpha
+    max_order, surrogates, seed = settings.max_order, settings.surrogates, settings.seed
+    warnings = list(warnings)
     if enc.m ** (max_order + 1) > 20_000_000:
         raise ConfigError(
             f"--max-order {max_order} with {enc.m} facies needs {enc.m}^{max_order + 1} "
@@ -554,10 +573,12 @@ def analyse(
     order = order_analysis(enc, max_order, embedded=embedded)
     sur: list[TestResult] = []
     if surrogates > 0:
-        sur = _surrogate_tests(enc, embedded, surrogates, seed, max_order, n_jobs, scheduler)
+        sur = _surrogate_tests(
+            enc, embedded, surrogates, seed, max_order, settings.n_jobs, settings.scheduler
+        )
     homog = None
     if by is not None:
-        group, labels, left_out = _groups(successions, beds, enc, by)
+        group, labels, left_out = _groups(values, enc, by, every_bed)
         if len(labels) >= 2:
             homog = homogeneity_test(_grouped_counts(enc, group, len(labels)), labels, by, left_out)
         else:
@@ -572,7 +593,7 @@ def analyse(
         alpha=alpha,
     )
     pc = None
-    if per_core:
+    if settings.per_core:
         per = transition_counts(enc, per_succession=True)
         pc = {}
         for k, core in enumerate(enc.cores):

@@ -194,11 +194,22 @@ def _encode_flat(
                 "scheme or map them with aliases",
                 core=cores[int(owner[first_bad])],
             )
-    m = len(codes)
-    dtype = np.int16 if m < 2**15 else np.int32
-    states = np.asarray(arr, dtype=dtype)
+    return encode_states(arr, lengths, cores, segments, codes)
+
+
+def encode_states(
+    states: np.ndarray,
+    lengths: np.ndarray,
+    cores: Sequence[str],
+    segments: Sequence[int],
+    codes: Sequence[str],
+) -> EncodedSuccessions:
+    """Successions already coded: ``states`` (every succession one after another, each
+    base to top) holds indices into ``codes``; ``lengths``, ``cores`` and ``segments``
+    describe the successions in that order."""
+    dtype = np.int16 if len(codes) < 2**15 else np.int32
     return EncodedSuccessions(
-        states,
+        np.asarray(states, dtype=dtype),
         np.r_[0, np.cumsum(lengths)].astype(np.int64),
         tuple(str(c) for c in codes),
         tuple(cores),

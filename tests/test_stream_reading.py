@@ -1,0 +1,210 @@
+"""Reading a plain CSV file a batch of whole cores at a time: the same cores, Markov
+report and decoded files as reading it whole; a file that cannot be streamed read
+whole; an error in a late batch leaves nothing written (the invented demo database,
+and synthetic cores from tests/hmm_synthetic.py)."""
+
+import json
+from pathlib import Path
+
+import hmm_synthetic as synth
+import pandas as pd
+import pytest
+
+import faciesseq.io.plaincsv as plaincsv
+import faciesseq.io.stream as stream_module
+from faciesseq.cli import main
+from faciesseq.hmm import decoding
+from faciesseq.io import NotStreamable, read_cores, stream_cores, summarise
+from faciesseq.markov import analyse, analyse_batches
+from faciesseq.scheme import load_scheme
+
+DEMO = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
+CORES, SCHEME = DEMO / "cores.csv", DEMO / "scheme-shoreface.yaml"
+
+
+@pytest.fixture
+def small_batches(monkeypatch):
+    """Blocks of about 20 kB and batches of at least 300 rows: the demo in several."""
+    monkeypatch.setattr(plaincsv, "BLOCK_BYTES", 20_000)
+    monkeypatch.setattr(stream_module, "BATCH_ROWS", 300)
+
+
+def _batches(source, **options):
+    return list(stream_cores(source, scheme=SCHEME, **options))
+
+
+def test_batches_of_whole_cores_hold_the_cores_read_whole(small_batches):
+    batches = _batches(CORES)
+    assert len(batches) > 3
+    names = [n for b in batches for n in b.names]
+    whole = read_cores(CORES, scheme=SCHEME)
+    assert names == whole.names  # each core in one batch, in file order
+    joined = pd.concat([b.to_frame() for b in batches], ignore_index=True)
+    pd.testing.assert_frame_equal(joined, whole.to_frame())
+    rows = pd.concat([b.to_frame(provenance=True) for b in batches])["_row"]
+    assert rows.tolist() == whole.to_frame(provenance=True)["_row"].tolist()
+
+
+@pytest.mark.parametrize("by", ["core", "tract"])
+def test_counts_summed_over_batches_are_those_of_the_whole_file(small_batches, by):
+    stream = stream_cores(CORES, scheme=SCHEME)
+    scheme = load_scheme(SCHEME)
+    streamed = analyse_batches(stream, scheme=scheme, by=by, per_core=True)
+    whole = analyse(read_cores(CORES, scheme=scheme), scheme=scheme, by=by, per_core=True)
+    assert json.dumps(streamed.to_dict()) == json.dumps(whole.to_dict())
+    assert streamed.n_transitions == int(whole.counts.sum()) > 0
+
+
+def test_a_core_found_again_in_a_later_batch_is_read_whole(small_batches, tmp_path, capsys):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    first = table["core"] == table["core"].iloc[0]
+    apart = pd.concat([table[first].iloc[:20], table[~first], table[first].iloc[20:]])
+    source = tmp_path / "apart.csv"
+    apart.to_csv(source, index=False)
+    with pytest.raises(NotStreamable):
+        _batches(source)
+    capsys.readouterr()
+    assert main(["markov", str(source), "--scheme", str(SCHEME), "--format", "json"]) == 0
+    scheme = load_scheme(SCHEME)
+    whole = analyse(read_cores(source, scheme=scheme), scheme=scheme, by="core")
+    assert json.loads(capsys.readouterr().out) == json.loads(json.dumps(whole.to_dict()))
+
+
+def test_a_column_of_numbers_that_turns_to_text_is_not_streamed(small_batches, tmp_path):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    table.loc[len(table) - 1, "true_age_kyr"] = "young"  # in the last batch only
+    source = tmp_path / "text.csv"
+    table.to_csv(source, index=False)
+    with pytest.raises(NotStreamable):
+        _batches(source)
+
+
+def test_sources_other_than_one_plain_csv_file_are_read_whole(tmp_path):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    table.to_csv(tmp_path / "cores.tsv", sep="\t", index=False)
+    table.drop(columns="core").to_csv(tmp_path / "one.csv", index=False)
+    assert stream_cores(tmp_path / "cores.tsv") is None
+    assert stream_cores(tmp_path / "one.csv") is None  # no core column
+    assert stream_cores(tmp_path) is None  # a folder
+    assert stream_cores(CORES, sheet="Sheet1") is None  # whole reading names the mistake
+
+
+def test_an_error_in_a_late_batch_is_the_whole_files_error(small_batches, tmp_path, capsys):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    last = len(table) - 3
+    table.loc[last, "top"] = "abc"
+    source = tmp_path / "bad.csv"
+    table.to_csv(source, index=False)
+    core = table.loc[last, "core"]
+    capsys.readouterr()
+    assert main(["markov", str(source), "--scheme", str(SCHEME)]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1
+    assert f"row {last + 1}" in err[0] and core in err[0] and "'abc' is not a number" in err[0]
+
+
+@pytest.fixture(scope="module")
+def database(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("db")
+    synth.write_database(folder, 12, 40, seed=23)
+    model = folder / "model.json"
+    argv = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
+    assert main([*argv, "-o", str(model), "--restarts", "1"]) == 0
+    return folder
+
+
+def _decode_argv(database, source, out):
+    model, scheme = database / "model.json", database / "scheme.yaml"
+    return ["decode", str(model), str(source), "--scheme", str(scheme), "-o", str(out)]
+
+
+@pytest.mark.parametrize("fmt", ["csv", "parquet"])
+def test_decoded_batch_by_batch_the_files_are_those_of_the_whole_file(
+    database, tmp_path, monkeypatch, fmt
+):
+    monkeypatch.setattr(decoding, "DECODE_BATCH", 45)  # batches and parts across cores
+    monkeypatch.setattr(decoding, "DECODE_PART", 100)
+    monkeypatch.setattr(plaincsv, "BLOCK_BYTES", 2_000)
+    for name, rows in (("whole", 10**9), ("batches", 30)):
+        monkeypatch.setattr(stream_module, "BATCH_ROWS", rows)
+        argv = _decode_argv(database, database / "cores.csv", tmp_path / name)
+        assert main([*argv, "--format", fmt]) == 0
+    names = sorted(p.name for p in (tmp_path / "whole").iterdir())
+    assert names == sorted(p.name for p in (tmp_path / "batches").iterdir())
+    for name in names:
+        whole = (tmp_path / "whole" / name).read_bytes()
+        assert (tmp_path / "batches" / name).read_bytes() == whole
+
+
+def test_decoding_a_stream_gives_the_parts_of_the_whole_table(database, monkeypatch):
+    from faciesseq.hmm.modelfile import load_model
+    from faciesseq.interpretation import Interpretation
+
+    monkeypatch.setattr(decoding, "DECODE_BATCH", 45)
+    monkeypatch.setattr(plaincsv, "BLOCK_BYTES", 2_000)
+    model = load_model(database / "model.json")
+    source = database / "cores.csv"
+    whole = list(model.decode_parts(read_cores(source), size=100))
+    tables = [b.succession_table() for b in stream_cores(source, rows=30)]
+    assert len(tables) > 3
+    streamed = list(model.decode_stream(tables, size=100))
+    assert len(streamed) == len(whole) > 2
+    for name in ("beds", "boundaries", "picks", "wells"):
+        pd.testing.assert_frame_equal(
+            getattr(Interpretation.concat(streamed), name),
+            getattr(Interpretation.concat(whole), name),
+        )
+
+
+def test_an_error_in_a_late_batch_leaves_no_output_half_written(
+    database, tmp_path, monkeypatch, capsys
+):
+    monkeypatch.setattr(decoding, "DECODE_BATCH", 45)
+    monkeypatch.setattr(decoding, "DECODE_PART", 50)
+    monkeypatch.setattr(plaincsv, "BLOCK_BYTES", 2_000)
+    monkeypatch.setattr(stream_module, "BATCH_ROWS", 30)
+    written = []
+    original = decoding.Decoding._decode_part
+
+    def counted(self, *args):
+        written.append(1)
+        return original(self, *args)
+
+    monkeypatch.setattr(decoding.Decoding, "_decode_part", counted)
+    table = pd.read_csv(database / "cores.csv", dtype=str, keep_default_na=False)
+    table.loc[len(table) - 5, "facies"] = ""  # in the last core
+    source = tmp_path / "bad.csv"
+    table.to_csv(source, index=False)
+    old = tmp_path / "old"
+    old.mkdir()
+    (old / "tracts.csv").write_text("kept\n")
+    capsys.readouterr()
+    for out, force in ((tmp_path / "new", []), (old, ["--force"])):
+        assert main([*_decode_argv(database, source, out), *force]) == 1
+    assert written  # parts were decoded and written before the error was read
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 2 and err[0] == err[1]
+    assert f"row {len(table) - 4}" in err[0] and "no facies code" in err[0]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.csv", "old"]
+    assert [p.name for p in old.iterdir()] == ["tracts.csv"]
+    assert (old / "tracts.csv").read_text() == "kept\n"
+
+
+@pytest.mark.parametrize("damage", [None, "facies", "depth"])
+def test_check_of_batches_is_the_check_of_the_whole_file(tmp_path, monkeypatch, capsys, damage):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    if damage is not None:  # an error in a late batch: summarised with the rest
+        table.loc[len(table) - 40, {"facies": "facies", "depth": "base"}[damage]] = "??"
+    source = tmp_path / "cores.csv"
+    table.to_csv(source, index=False)
+    argv = ["check", str(source), "--scheme", str(SCHEME), "--format", "json"]
+    out = []
+    for rows, block in ((10**9, 10**9), (300, 20_000)):
+        monkeypatch.setattr(plaincsv, "BLOCK_BYTES", block)
+        monkeypatch.setattr(stream_module, "BATCH_ROWS", rows)
+        code = main(argv)
+        out.append((code, capsys.readouterr()))
+    assert out[0] == out[1]
+    assert out[0][0] == (0 if damage is None else 1)
+    whole = summarise(read_cores(source, scheme=SCHEME), load_scheme(SCHEME))
+    assert json.loads(out[0][1].out) == json.loads(json.dumps(whole.to_dict()))
