@@ -109,11 +109,11 @@ def _successions(args: argparse.Namespace, scheme):
             "faciesseq fit: warning: no --scheme: without facies ranks the tract identities "
             "are weakly anchored\n"
         )
-    successions = cores.successions(args.unit, args.step)
-    if not successions:
+    successions = cores.succession_table(args.unit, args.step)
+    if not len(successions):
         raise ConfigError("the source holds no beds to fit on", file=args.source)
-    if max(len(s) for s in successions) < 2:
-        n = sum(len(s) for s in successions)
+    if successions.lengths.max() < 2:
+        n = int(successions.lengths.sum())
         raise InputError(
             f"too few beds to fit on: {n} {args.unit} in {len(successions)} succession(s) and "
             "no upward transition; the fit needs at least one core (or part between gaps) "
