@@ -367,7 +367,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     history = []
     if model.restarts_ and model.best_restart_ < len(model.restarts_):
         history = list(model.restarts_[model.best_restart_].get("history", []))
-    model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history)
+    model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history, model.n_train_beds_)
     model.training_ = dict(training)
     return model
 
