@@ -30,6 +30,7 @@ __all__ = [
     "ExpectationMaximisation",
     "ProgressCallback",
     "TrainingData",
+    "distinct_rows",
 ]
 
 #: ``progress(restart, iteration, objective)``, called after every EM iteration.
@@ -110,7 +111,7 @@ class TrainingData:
     beds: EncodedBeds
     clamp: np.ndarray | None  # (T, n_tracts) bool, or None
     ranks: np.ndarray  # (T,) rank of each bed's facies (NaN unknown)
-    rule: np.ndarray  # (T,) trend-rule tract index
+    rule: np.ndarray | None  # (T,) trend-rule tract index, where EM starts from it
     cores: tuple[str, ...] = ()  # core of each succession
     static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
     trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
@@ -129,6 +130,26 @@ def _located(exc: InputError, cores: Sequence[str], first: int) -> InputError:
     return InputError(
         "the beds have probability zero under the tract model (" + exc.message + ")", core=core
     )
+
+
+def distinct_rows(codes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The distinct rows of integer ``codes`` ``(T, n)`` in lexicographic order and the
+    row of each of the ``T`` (``np.unique(codes, axis=0, return_inverse=True)``).
+
+    Each row is folded into one integer, column by column, and the integers are made
+    unique; where the next fold would overflow, the integers so far are replaced by
+    their rank (which keeps the order). Why: ``np.unique`` along an axis sorts rows as
+    records, 10 of the 75 s of CPU of a fit on 10^6 beds; one integer per row sorts in
+    a fraction of a second."""
+    key = np.zeros(len(codes), dtype=np.int64)
+    for column in codes.T:
+        shifted = column.astype(np.int64) - (column.min() if len(column) else 0)
+        span = int(shifted.max()) + 1 if len(column) else 1
+        if (int(key.max()) + 1 if len(key) else 1) * span >= 2**62:
+            key = np.unique(key, return_inverse=True)[1].reshape(-1).astype(np.int64)
+        key = key * span + shifted
+    _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+    return codes[first], inverse.reshape(-1)
 
 
 class ExpectationMaximisation:
@@ -168,9 +189,7 @@ class ExpectationMaximisation:
         combination of every bed ``(T,)``, found once per fit (the codes do not change
         during EM)."""
         if data.combos is None:
-            codes = np.column_stack([p.observed(data.beds) for p in pieces])
-            combos, inverse = np.unique(codes, axis=0, return_inverse=True)
-            data.combos = (combos, inverse.reshape(-1))
+            data.combos = distinct_rows(np.column_stack([p.observed(data.beds) for p in pieces]))
         return data.combos
 
     def _e_step_on_combinations(self, pieces, startprob, transmat, data: TrainingData):

@@ -641,7 +641,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
             if self.ranks_ is None
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
-        rule = trend_rule(ranks, beds.lengths, self.tract_model_)
+        # fits on the stacking context start from its priors, not from the trend rule
+        rule = None if self._reads_context() else trend_rule(ranks, beds.lengths, self.tract_model_)
         free = None if clamp is None else clamp.all(axis=1)
         self._cycle_pseudo = (
             self._cycle_counts(rule, beds.lengths, free)
