@@ -181,6 +181,17 @@ class SuccessionTable(Sequence):
         cores, segments = self.cores[first:stop], self.segments[first:stop]
         return SuccessionTable(beds, self.starts[first : stop + 1] - a, cores, segments, self.units)
 
+    def take(self, indices: Sequence[int]) -> SuccessionTable:
+        """Successions ``indices`` (in increasing order), their rows gathered at once."""
+        indices = np.asarray(indices, dtype=np.int64)
+        lengths = self.lengths[indices]
+        starts = np.r_[0, np.cumsum(lengths)].astype(np.int64)
+        rows = np.arange(starts[-1]) + np.repeat(self.starts[indices] - starts[:-1], lengths)
+        beds = self.beds.take(rows).reset_index(drop=True)
+        return SuccessionTable(
+            beds, starts, self.cores[indices], self.segments[indices], self.units
+        )
+
 
 def _aggregate(table: pd.DataFrame, bed_id: np.ndarray, attributes: list[str]) -> dict:
     """Attributes of beds made of one or several intervals of one facies (vectorised).

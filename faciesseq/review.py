@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from faciesseq.core import CoreTable
 from faciesseq.errors import InputError
 
 __all__ = [
@@ -506,13 +507,15 @@ def _agreement(sheet: pd.DataFrame, known: dict[str, str]) -> dict:
 def label_source_counts(cores) -> dict[str, int]:
     """Labelled intervals per origin (``label_source``: a sheet's name or ``source``),
     for a model file's provenance; empty where the table has no ``label_source``."""
+    if isinstance(cores.cores, CoreTable):  # one column of the whole table, no core made
+        held = LABEL_SOURCE in cores.cores.table.columns
+        parts = [pd.Series(cores.column(LABEL_SOURCE), dtype=object)] if held else []
+    else:
+        parts = [c.intervals[LABEL_SOURCE] for c in cores if LABEL_SOURCE in c.intervals.columns]
     counts: dict[str, int] = {}
-    for core in cores:
-        if LABEL_SOURCE not in core.intervals.columns:
-            continue
-        values = core.intervals[LABEL_SOURCE]
-        for value in values[_present(values)].astype(str).str.strip():
-            counts[value] = counts.get(value, 0) + 1
+    for values in parts:
+        for value, n in values[_present(values)].astype(str).str.strip().value_counts().items():
+            counts[value] = counts.get(value, 0) + int(n)
     return dict(sorted(counts.items()))
 
 

@@ -67,3 +67,15 @@ def test_a_subset_keeps_the_named_cores_in_the_order_given(both):
     pd.testing.assert_frame_equal(ours.to_frame(), theirs.to_frame())
     assert [len(s) for s in ours.successions()] == [len(s) for s in theirs.successions()]
     assert ours.problems == theirs.problems
+
+
+def test_taking_successions_of_a_succession_table_gives_those_successions(both):
+    table, _ = both
+    successions = table.succession_table()
+    picked = [0, 2, len(successions) - 1]
+    taken = successions.take(picked)
+    assert taken.lengths.tolist() == [len(successions[k]) for k in picked]
+    for got, k in zip(taken, picked, strict=True):
+        want = successions[k]
+        assert (got.core, got.segment) == (want.core, want.segment)
+        pd.testing.assert_frame_equal(got.beds, want.beds)

@@ -288,6 +288,29 @@ def test_summary_of_thousands_of_wells_stops_at_thirty(database, models, tmp_pat
     assert json.loads(capsys.readouterr().out)["n_wells"] == WELL_LIMIT + 7
 
 
+def test_fit_report_of_many_wells_decodes_and_lists_thirty(tmp_path, capsys, monkeypatch):
+    """The text report of ``fit`` lists the first thirty wells, decoded alone, and
+    counts the rest; ``--format json`` still has every well."""
+    from faciesseq.hmm.model import TractHMM
+
+    synth.write_database(tmp_path, WELL_LIMIT + 7, 8, seed=3)
+    decoded = []
+    decode = TractHMM.decode
+    monkeypatch.setattr(
+        TractHMM, "decode", lambda self, s, *a, **k: decoded.append(len(s)) or decode(self, s)
+    )
+    argv = ["fit", str(tmp_path / "cores.csv"), "--scheme", str(tmp_path / "scheme.yaml")]
+    argv += ["--restarts", "1", "--max-iter", "5", "-o", str(tmp_path / "m.json")]
+    capsys.readouterr()
+    assert main(argv) == 0
+    out = capsys.readouterr().out
+    assert len([line for line in out.splitlines() if line.startswith("  S-3-")]) == WELL_LIMIT
+    assert "  ... and 7 more (all in --format json)" in out
+    assert decoded == [WELL_LIMIT]  # one succession per synthetic core
+    assert main([*argv, "--force", "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)["n_wells"] == WELL_LIMIT + 7
+
+
 def test_without_a_scheme_the_cycles_are_left_out(models):
     model = load_model(models["unchecked"])
     core = next(iter(model.decode(synth.cores(1, 20, seed=4))))

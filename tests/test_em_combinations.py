@@ -48,3 +48,20 @@ def test_fit_on_combinations_equals_fit_on_every_bed(monkeypatch):
         np.testing.assert_allclose(a.emissionprob_, b.emissionprob_, atol=1e-9)
     decoded = [pd.concat([c.beds for c in m.decode(cores)]) for m in (on_combinations, on_beds)]
     assert (decoded[0]["tract"].to_numpy() == decoded[1]["tract"].to_numpy()).all()
+
+
+def test_distinct_rows_are_numpys_unique_rows_in_the_same_order():
+    from faciesseq.hmm.em import distinct_rows
+
+    rng = np.random.default_rng(5)
+    # codes from -2 (unseen) up, and columns wide enough to force the folding to rank
+    codes = np.column_stack(
+        [rng.integers(-2, 4, 5_000), rng.integers(0, 2**40, 5_000) // 2**38]
+        + [rng.integers(-2, 2**21, 5_000) % 7 for _ in range(4)]
+        + [rng.integers(0, 2**50, 5_000)]
+    )
+    rows, inverse = distinct_rows(codes)
+    want, want_inverse = np.unique(codes, axis=0, return_inverse=True)
+    np.testing.assert_array_equal(rows, want)
+    np.testing.assert_array_equal(inverse, want_inverse.reshape(-1))
+    np.testing.assert_array_equal(rows[inverse], codes)

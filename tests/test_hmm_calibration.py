@@ -236,3 +236,33 @@ def test_fit_command_reports_the_calibration_and_refuses_negative_folds(tmp_path
     )
     assert bad.returncode == 2 and "--calibration-folds must be >= 0" in bad.stderr
     assert not (tmp_path / "n.json").exists()
+
+
+def test_a_graph_chosen_on_a_sample_is_calibrated_on_every_bed(monkeypatch):
+    """Above ``SAMPLE_BEDS`` the bootstrap calibration reads the beds the refit on every
+    bed encoded: the same temperature as from the beds encoded again (demo cores,
+    invented)."""
+    from pathlib import Path
+
+    from faciesseq.hmm import graphs
+    from faciesseq.io import read_cores
+
+    root = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
+    cores = read_cores(root / "cores.csv", scheme=root / "scheme-shoreface.yaml")
+    succ = cores.succession_table()
+    monkeypatch.setattr(graphs, "SAMPLE_BEDS", int(succ.lengths.sum()) // 3)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=_demo_scheme(root), n_restarts=1, random_state=0).fit(succ)
+        assert [r.get("from_sample") for r in model.restarts_] == [True]
+        assert "_refit_beds" not in vars(model)
+        assert model.calibration_["method"] == "parametric bootstrap"
+        again = dict(model.calibration_)
+        model._calibrate_without_labels(succ, np.random.default_rng(0))
+    assert model.calibration_ == again
+
+
+def _demo_scheme(root):
+    from faciesseq.scheme import load_scheme
+
+    return load_scheme(root / "scheme-shoreface.yaml")

@@ -111,6 +111,31 @@ def test_monitor_treats_a_decrease_as_an_error():
         monitor.report(-99.5)
 
 
+@pytest.mark.parametrize(
+    ("n_beds", "gain", "stops"),
+    [
+        (0, 9e-4, True),  # no bed count: the tolerance as it is
+        (500, 9e-4, True),  # up to TOL_BEDS beds: as it is
+        (1_000, 1.1e-3, False),
+        (10**6, 0.9, True),  # 1e-3 per 1,000 beds: 1.0 on 10^6 beds
+        (10**6, 1.1, False),
+    ],
+)
+def test_monitor_tolerance_counts_per_thousand_beds_above_a_thousand(n_beds, gain, stops):
+    monitor = ConvergenceMonitor(tol=1e-3, max_iter=10, n_beds=n_beds)
+    monitor.report(-1e6)
+    monitor.report(-1e6 + gain)
+    assert monitor.reached_tolerance is stops
+    assert monitor.converged is stops
+
+
+def test_a_fit_records_its_beds_in_its_monitor(train):
+    model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1).fit(train)
+    assert model.monitor_.n_beds == model.n_train_beds_ == sum(len(s) for s in train)
+    history = model.monitor_.history
+    assert history[-1] - history[-2] < model.monitor_.threshold or len(history) == 200
+
+
 def test_structural_zeros_stay_zero_and_posteriors_sum_to_one(train):
     model = TractHMM(scheme=synth.scheme(), substates=2, random_state=1, n_restarts=1).fit(train)
     assert np.all(model.transmat_[~model.states_.allowed] == 0)

@@ -112,3 +112,21 @@ def test_the_data_digest_ignores_the_source_format_and_sees_one_changed_depth(tm
     digests = [coreset_digest(read_cores(tmp_path / n)) for n in ("a.csv", "a.parquet")]
     assert digests[0] == digests[1]
     assert coreset_digest(read_cores(tmp_path / "b.csv")) != digests[0]
+
+
+def test_the_data_digest_of_one_table_is_that_of_the_same_cores_one_by_one():
+    """The digest read from the categorical columns of the one table of a database
+    (its fast path) equals the digest of ``to_frame()`` of the same cores held core by
+    core (the demo database; invented)."""
+    from pathlib import Path
+
+    from faciesseq.core import CoreSet, CoreTable
+    from faciesseq.hmm.modelfile import coreset_digest
+    from faciesseq.io import read_cores
+
+    root = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
+    table = read_cores(root / "cores.csv", scheme=root / "scheme-shoreface.yaml")
+    assert isinstance(table.cores, CoreTable)
+    per_core = CoreSet.from_frame(table.to_frame(), units=table.units)
+    assert not isinstance(per_core.cores, CoreTable)
+    assert coreset_digest(table) == coreset_digest(per_core)

@@ -58,7 +58,11 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     group.add_argument("--seed", type=int, default=0, metavar="S", help="random seed")
     group.add_argument("--max-iter", type=int, default=200, metavar="N", help="EM iteration cap")
     group.add_argument(
-        "--tol", type=float, default=1e-3, metavar="X", help="EM convergence tolerance (log units)"
+        "--tol",
+        type=float,
+        default=1e-3,
+        metavar="X",
+        help="EM convergence tolerance (log units; per 1,000 beds on fits of more beds)",
     )
     group.add_argument(
         "--calibration-folds",

@@ -22,12 +22,10 @@ for the best graph with one skip; ``python benchmarks/eval_unsupervised.py
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import Succession
+from faciesseq.core import SuccessionTable
 from faciesseq.parallel import run_jobs
 from faciesseq.scheme import TractModel, default_tract_model
 
@@ -64,7 +62,7 @@ def trade_graphs(tract_model: TractModel) -> list[TractModel]:
     return out
 
 
-def choose_graph(model, succ: Sequence[Succession], progress=None):
+def choose_graph(model, succ: SuccessionTable, progress=None):
     """Fit ``model``'s settings on the graphs of :func:`trade_graphs` with the
     skips of :data:`CHOSEN_AMONG` (no calibration) and return the fitted model of
     the lowest BIC with the table of candidates (``skips``, ``log_likelihood``,
@@ -91,7 +89,7 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
         )
         fits.append(fitted)
     best = int(np.argmin([r["bic"] for r in rows]))
-    n_sample = sum(len(s) for s in sample)
+    n_sample = int(sample.lengths.sum())
     for k, row in enumerate(rows):
         row["selected"] = k == best
         row["n_beds"] = n_sample
@@ -101,30 +99,28 @@ def choose_graph(model, succ: Sequence[Succession], progress=None):
     return fits[best], rows
 
 
-def sample_successions(succ: Sequence[Succession], n_beds: int, seed) -> Sequence[Succession]:
+def sample_successions(succ: SuccessionTable, n_beds: int, seed) -> SuccessionTable:
     """All of ``succ`` when they hold at most ``n_beds`` beds; else whole successions
     drawn at random (``seed``) until they hold at least ``n_beds``, in their order."""
-    sizes = np.array([len(s) for s in succ])
+    sizes = succ.lengths
     if sizes.sum() <= n_beds:
         return succ
     rng = seed if isinstance(seed, np.random.Generator) else np.random.default_rng(seed)
     order = rng.permutation(len(succ))
     keep = list(order[: int(np.searchsorted(np.cumsum(sizes[order]), n_beds)) + 1])
-    return [succ[i] for i in sorted(keep + _covering(succ, keep))]
+    return succ.take(sorted(keep + _covering(succ, keep)))
 
 
-def _covering(succ: Sequence[Succession], keep: list[int]) -> list[int]:
+def _covering(succ: SuccessionTable, keep: list[int]) -> list[int]:
     """Successions to add to ``keep`` so that every facies and contact type of
     ``succ`` is in the sample (the fit on every bed then starts from its parameters):
     for each value the sample lacks, the first succession that holds it."""
-    owner = np.repeat(np.arange(len(succ)), [len(s) for s in succ])
+    owner = np.repeat(np.arange(len(succ)), succ.lengths)
     kept = np.isin(owner, keep)
-    columns = [np.concatenate([np.asarray(s.facies, dtype=object) for s in succ])]
-    if all("contact" in s.beds for s in succ):
-        columns.append(np.concatenate([s.beds["contact"].to_numpy(dtype=object) for s in succ]))
+    columns = [name for name in ("facies", "contact") if name in succ.beds.columns]
     added: set[int] = set()
-    for values in columns:
-        codes, uniques = pd.factorize(pd.Series(values).astype("string"))
+    for name in columns:
+        codes, uniques = pd.factorize(succ.beds[name].astype("string"))
         known = codes >= 0  # a missing contact is no type
         covered = np.zeros(len(uniques), dtype=bool)
         covered[codes[known & kept]] = True
@@ -133,7 +129,7 @@ def _covering(succ: Sequence[Succession], keep: list[int]) -> list[int]:
     return sorted(added - set(keep))
 
 
-def _fit_graph(estimator: type, params: dict, succ: Sequence[Succession], progress=None, warm=None):
+def _fit_graph(estimator: type, params: dict, succ: SuccessionTable, progress=None, warm=None):
     """One candidate of :func:`choose_graph`: an ``estimator`` (the tract model's class)
     with ``params``, fitted; with ``warm`` (the same graph fitted on a sample), one EM
     run from its parameters instead of the restarts, where the vocabularies agree."""

@@ -28,12 +28,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet, Succession
+from faciesseq.core import CoreSet, Succession, SuccessionTable
 from faciesseq.cycles import CONTEXT_FEATURES
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.baseline import trend_rule
-from faciesseq.hmm.decoding import Decoding
+from faciesseq.hmm.decoding import Decoding, _succession_table
 from faciesseq.hmm.em import (
     ConvergenceError,
     ConvergenceMonitor,
@@ -109,6 +109,27 @@ def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession
     if not all(isinstance(s, Succession) for s in out):
         raise ConfigError("expected a CoreSet or a list of Succession objects")
     return out
+
+
+def _training_successions(
+    data: Any, unit: str, step: float | None, labels: Any
+) -> Sequence[Succession]:
+    """The non-empty successions to fit on. Without labels, one :class:`SuccessionTable`
+    (a list of successions grouped by core, as decode does): whole columns, no frame
+    per succession; measured, making 32,453 of them, joining them again to encode
+    and to decode took about 60 of the 263 s of a profiled fit at 10^6 beds. With
+    labels a list, which labels and calibration folds read a succession at a time."""
+    if labels is None:
+        return _succession_table(data, unit, step)
+    return [s for s in _as_successions(data, unit, step) if len(s)]
+
+
+def _bed_tables(succ: Sequence[Succession]) -> tuple[list[pd.DataFrame], np.ndarray | None]:
+    """The bed tables of ``succ`` for :meth:`TractHMM._encode`, with the beds of each
+    succession where they are one table."""
+    if isinstance(succ, SuccessionTable):
+        return [succ.beds], succ.lengths
+    return [s.beds for s in succ], None
 
 
 def _text(values: pd.Series) -> list[str | None]:
@@ -591,12 +612,13 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self
         """
         self._check_hyper()
-        succ = [s for s in _as_successions(successions, self.unit, self.step) if len(s)]
-        if not succ:
+        succ = _training_successions(successions, self.unit, self.step, labels)
+        if not len(succ):
             raise InputError("no beds to fit the tract model on")
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
-        tables = [s.beds for s in succ]
+        tables, lengths = _bed_tables(succ)
+        cores = tuple(succ.cores) if lengths is not None else tuple(s.core for s in succ)
         # Labelled bed-level fits keep the permissive graph: a described bed is often
         # thicker than a highstand or lowstand, so labelled columns jump over tracts
         # (measured: the strict graph frees those labels and supervised accuracy
@@ -613,13 +635,14 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 "(--labels) or leave the feature out"
             )
         self._vocabularies(tables)
-        beds = self._encode(tables)
+        beds = self._encode(tables, lengths)
         ranks = (
             np.full(len(beds), np.nan)
             if self.ranks_ is None
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
-        rule = trend_rule(ranks, beds.lengths, self.tract_model_)
+        # fits on the stacking context start from its priors, not from the trend rule
+        rule = None if self._reads_context() else trend_rule(ranks, beds.lengths, self.tract_model_)
         free = None if clamp is None else clamp.all(axis=1)
         self._cycle_pseudo = (
             self._cycle_counts(rule, beds.lengths, free)
@@ -635,7 +658,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
             clamp,
             ranks,
             rule,
-            tuple(s.core for s in succ),
+            cores,
             self._static_log_prob(list(trained.values()), beds),
             trained,
         )
@@ -648,6 +671,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         warm = self._warm_start_from(getattr(self, "warm_start_", None))
         if warm is not None:  # one run from a fit on a sample (graphs.choose_graph)
             runs = [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
+            self._refit_beds = beds  # for the calibration of _fit_choosing_graph
         elif self._parallel() and len(seeds) > 1:
             jobs = [(data, s, r, None) for r, s in enumerate(seeds)]
             runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
@@ -684,7 +708,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         ]
         self.n_train_beds_ = len(beds)
         self.n_labelled_ = n_labelled
-        self.cores_ = tuple(dict.fromkeys(s.core for s in succ))
+        self.cores_ = tuple(dict.fromkeys(cores))
         self.graph_selection_ = []
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.
@@ -696,7 +720,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
             self.calibration_ = calibrate_by_folds(self, succ, clamp, rng)
             self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         else:
-            self._calibrate_without_labels(tables, rng, beds)
+            self._calibrate_without_labels(succ, rng, beds)
         return self
 
     def _warm_start_from(self, other: TractHMM | None) -> tuple | None:
@@ -715,7 +739,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
             return None
         return copy.deepcopy((other.emissions_, other.startprob_, other.transmat_))
 
-    def _calibrate_without_labels(self, tables, rng, beds: EncodedBeds | None = None) -> None:
+    def _calibrate_without_labels(self, succ, rng, beds: EncodedBeds | None = None) -> None:
         """Temperature from cores simulated from the fitted model
         (:mod:`faciesseq.hmm.bootstrap`), for fits on the stacking context; other
         fits keep their record of why they were not calibrated."""
@@ -723,23 +747,26 @@ class TractHMM(ExpectationMaximisation, Decoding):
             return
         from faciesseq.hmm.bootstrap import calibrate_by_simulation
 
-        beds = self._encode(tables) if beds is None else beds
+        tables, lengths = _bed_tables(succ)
+        beds = self._encode(tables, lengths) if beds is None else beds
         self.calibration_ = calibrate_by_simulation(self, beds, tables, rng)
         self.temperature_ = float(self.calibration_.get("temperature", 1.0))
 
-    def _fit_choosing_graph(self, succ: Sequence[Succession], progress) -> TractHMM:
+    def _fit_choosing_graph(self, succ: SuccessionTable, progress) -> TractHMM:
         """The fit of the lowest-BIC tract graph (:mod:`faciesseq.hmm.graphs`),
-        calibrated afterwards."""
+        calibrated afterwards (from the beds the refit on every bed encoded, where the
+        graph was chosen on a sample: encoding 10^6 beds again took about 1 s)."""
         from faciesseq.hmm.graphs import choose_graph
 
         best, rows = choose_graph(self, succ, progress)
         hyper = self.get_params()
         self.__dict__.update(best.__dict__)
+        beds = self.__dict__.pop("_refit_beds", None)  # every bed, encoded by the refit
         self.set_params(**hyper)
         self._default_graph = best.tract_model
         self.graph_selection_ = rows
         seed = self.random_state if isinstance(self.random_state, int) else None
-        self._calibrate_without_labels([s.beds for s in succ], np.random.default_rng(seed))
+        self._calibrate_without_labels(succ, np.random.default_rng(seed), beds)
         return self
 
     def _check_fitted(self) -> None:
