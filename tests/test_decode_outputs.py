@@ -84,6 +84,10 @@ def test_the_bootstrap_is_named_in_the_calibration_sentence(models):
     assert "parametric bootstrap" in text and "does not say" not in text
     at_one = describe_calibration(1.0, {**boot.calibration_, "temperature": 1.0})
     assert "parametric bootstrap" in at_one and "held-out labelled" not in at_one
+    # a temperature at the top of the search says so: the probabilities are as flat
+    # as the search allows, not a measured degree of doubt
+    assert "largest the search allows" not in describe_calibration(2.0, boot.calibration_)
+    assert "largest the search allows" in describe_calibration(20.0, boot.calibration_)
 
 
 def test_decode_puts_the_flag_and_the_note_in_the_interpretation_meta(database, models):

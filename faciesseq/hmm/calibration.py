@@ -237,8 +237,14 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
     try:
         b, a = cal["before"], cal["after"]
         return (
-            f"Tract probabilities calibrated by a temperature of {temperature:.2f}, "
-            f"{_chosen_by(cal)} {cal['n_beds']} held-out beds the Brier score fell from "
+            f"Tract probabilities calibrated by a temperature of {temperature:.2f}"
+            + (
+                " (the largest the search allows: the model reads its own cores no better "
+                "than this)"
+                if temperature >= 0.99 * TEMPERATURE_BOUNDS[1]
+                else ""
+            )
+            + f", {_chosen_by(cal)} {cal['n_beds']} held-out beds the Brier score fell from "
             f"{b['brier']:.3f} to {a['brier']:.3f} and the mean probability of the most "
             f"probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
             f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it"
