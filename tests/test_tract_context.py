@@ -321,3 +321,21 @@ def test_the_setting_is_read_only_where_the_scheme_tells_nonmarine_from_marine()
     assert "setting" not in unsaid.features_  # a constant column is dropped
     piece = model.emissions_[model.features_.index("setting")]
     assert piece.categories == ("marine", "nonmarine")
+
+
+def test_the_appendix_methods_describe_the_fit_on_cycles_and_its_bootstrap():
+    from faciesseq.report.methods import BOOTSTRAP_TEXT, CONTEXT_TEXT, methods_section
+
+    def text(section) -> str:
+        out = [getattr(b, "text", "") for b in section.blocks]
+        return " ".join(out + [text(sub) for sub in section.subsections])
+
+    cores, _ = _cores([31])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=SCHEME, n_restarts=1, max_iter=5, random_state=0).fit(cores)
+    assert model.calibration_["method"] == "parametric bootstrap"
+    described = text(methods_section("beds", model))
+    assert CONTEXT_TEXT in described and BOOTSTRAP_TEXT in described and "Künsch" in described
+    plain = text(methods_section("beds"))
+    assert CONTEXT_TEXT not in plain and BOOTSTRAP_TEXT not in plain

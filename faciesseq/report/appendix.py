@@ -590,7 +590,7 @@ def build_appendix(
             fit_notes,
         ),
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
-        methods_section(unit),
+        methods_section(unit, model),
     ]
     document.check_keys()
     return Appendix(document, results, dict(provenance or {}), missing)

@@ -6,6 +6,8 @@ notation of the cited papers where they have one.
 
 from __future__ import annotations
 
+from typing import Any
+
 from faciesseq.report.document import Equation, Paragraph, Section
 
 __all__ = ["REFERENCES", "methods_section"]
@@ -53,11 +55,56 @@ CAUTION = (
 )
 
 
-def methods_section(unit: str = "beds") -> Section:
+#: Read where the tract model was fitted on the stacking context of cycles.
+CONTEXT_REFERENCES = (
+    "Van Wagoner, J. C., Mitchum, R. M., Campion, K. M. & Rahmanian, V. D. (1990). "
+    "Siliciclastic sequence stratigraphy in well logs, cores, and outcrops. AAPG Methods in "
+    "Exploration Series 7.",
+    "Cox, D. R. (1955). A use of complex probabilities in the theory of stochastic processes. "
+    "Proceedings of the Cambridge Philosophical Society 51, 313–319.",
+    "Efron, B. & Tibshirani, R. J. (1993). An Introduction to the Bootstrap. Chapman & Hall, "
+    "New York.",
+    "Künsch, H. R. (1989). The jackknife and the bootstrap for general stationary "
+    "observations. Annals of Statistics 17, 1217–1241.",
+)
+
+#: How a fit on the stacking context reads the cores (replaces the bed-level sentence).
+CONTEXT_TEXT = (
+    "The model was fitted on the stacking of parasequence-scale cycles (Van Wagoner et al. "
+    "1990; Catuneanu et al. 2009) rather than on bed-to-bed steps: each succession is cut into "
+    "cycles at flooding surfaces (an upward rise of the proximality rank, a facies marked to "
+    "start a cycle, or a marine bed on a nonmarine one), and every bed is described by the "
+    "stacking of its cycle against the cycles below and above (progradational, aggradational "
+    "or retrogradational), the shift of the cycle's base, the trend and position of "
+    "proximality around it, the cycle's amplitude and, where known, its share of sharp "
+    "contacts and whether the bed is nonmarine; each is binned and emitted given the tract. "
+    "Tracts follow the strict cyclic order HST → FSST → LST → TST, with at most one of the "
+    "skips the trade allows, chosen by BIC; each tract is a chain of sub-states, so its "
+    "length in beds is a Coxian phase-type duration (Cox 1955). The tracts are named by "
+    "the one deepening tract and the cyclic order."
+)
+
+BOOTSTRAP_TEXT = (
+    "Without interpreted cores nothing is held out, so the temperature is chosen on cores "
+    "simulated from the fitted model (a parametric bootstrap; Efron & Tibshirani 1993): tract "
+    "paths are drawn from the fitted chain and each run of one tract is filled with real "
+    "cycles of the training cores, drawn by the model's posterior probability of that tract "
+    "(a block bootstrap whose blocks are cycles; Künsch 1989). These probabilities say how "
+    "sure the model is of its own reading, not how often it agrees with a geologist."
+)
+
+
+def methods_section(unit: str = "beds", model: Any = None) -> Section:
     """The methods section: what was computed, with equations and references.
 
-    ``unit`` is ``"beds"`` (embedded chain, no self-transitions) or ``"grid"``.
+    ``unit`` is ``"beds"`` (embedded chain, no self-transitions) or ``"grid"``;
+    ``model``, the fitted tract model, when known: a fit on the stacking context of
+    cycles and a temperature from simulated cores are described as such.
     """
+    context = bool(model is not None and getattr(model, "_reads_context", lambda: False)())
+    boot = isinstance(getattr(model, "calibration_", None), dict) and (
+        model.calibration_.get("method") == "parametric bootstrap"
+    )
     s = Section("Methods")
     data = s.sub("Successions")
     data.add(
@@ -125,8 +172,8 @@ def methods_section(unit: str = "beds") -> Section:
             "3",
         ),
     )
-    model = s.sub("Systems-tract hidden Markov model")
-    model.add(
+    hmm = s.sub("Systems-tract hidden Markov model")
+    hmm.add(
         Paragraph(
             "The hidden states are systems tracts (falling-stage, lowstand, transgressive and "
             "highstand; Catuneanu et al. 2009) joined only by the boundaries the tract model "
@@ -161,8 +208,12 @@ def methods_section(unit: str = "beds") -> Section:
             "picked surfaces and a reliability curve, beside a baseline."
         ),
     )
+    if context:
+        hmm.add(Paragraph(CONTEXT_TEXT))
+    if boot:
+        hmm.add(Paragraph(BOOTSTRAP_TEXT))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
-    for ref in REFERENCES:
+    for ref in REFERENCES + (CONTEXT_REFERENCES if context or boot else ()):
         refs.add(Paragraph(ref))
     return s
