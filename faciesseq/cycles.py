@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "find_cycles"]
+__all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "cycle_inputs", "find_cycles"]
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
 CONTEXT_FEATURES = (
@@ -300,3 +300,27 @@ def _running_mean(values: np.ndarray, lengths: np.ndarray, half: int) -> np.ndar
             count += ok
     with np.errstate(invalid="ignore"):
         return np.where(count > 0, total / count, np.nan)
+
+
+def cycle_inputs(
+    fac: np.ndarray,
+    ranks: np.ndarray | None,
+    cycle_base: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
+    """Per-facies ranks, cycle marks and settings spread to beds (``fac``: facies
+    index of every bed, negative unknown): ``(ranks, cycle_base, nonmarine)`` per bed
+    for :func:`faciesseq.cycles.find_cycles` and :func:`~faciesseq.cycles.bed_context`
+    (``NaN`` / ``False`` where a bed's facies is unknown; ``None`` stays ``None``)."""
+    known = fac >= 0
+    bed_ranks = _per_bed(ranks, fac, known, np.nan)
+    starts = None if cycle_base is None else _per_bed(cycle_base, fac, known, False)
+    setting = None if nonmarine is None else _per_bed(nonmarine, fac, known, np.nan)
+    return bed_ranks, starts, setting
+
+
+def _per_bed(values, fac: np.ndarray, known: np.ndarray, fill) -> np.ndarray:
+    out = np.full(len(fac), fill, dtype=type(fill) if isinstance(fill, bool) else float)
+    if values is not None:
+        out[known] = np.asarray(values, dtype=out.dtype)[fac[known]]
+    return out

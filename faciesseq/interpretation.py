@@ -116,12 +116,13 @@ def _thickness(beds: pd.DataFrame) -> np.ndarray:
 def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
     """Parasequence-scale cycles of one core, cut as the tract model cuts them
     (:func:`faciesseq.cycles.find_cycles`)."""
-    from faciesseq.cycles import find_cycles
+    from faciesseq.cycles import cycle_inputs, find_cycles
 
     upward, lengths = _base_to_top(beds)
-    codes = upward["facies"].astype(str).tolist()
-    r = np.array([scheme.rank(c) if c in scheme else np.nan for c in codes], dtype=float)
-    marks, setting = scheme.cycle_bases(codes), scheme.settings(codes)
+    fac, codes = pd.factorize(upward["facies"].astype(str))  # the scheme read per code
+    codes = list(codes)
+    ranks = [scheme.rank(c) if c in scheme else np.nan for c in codes]
+    r, marks, setting = cycle_inputs(fac, ranks, scheme.cycle_bases(codes), scheme.settings(codes))
     return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting).n_cycles
 
 

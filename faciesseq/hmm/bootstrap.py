@@ -96,18 +96,9 @@ def _simulated_lengths(lengths, rng) -> list[int]:
 
 def _cycles(model, beds: EncodedBeds) -> np.ndarray:
     """Cycle index of every training bed, cut as the model's context cuts them."""
-    from faciesseq.cycles import find_cycles
+    from faciesseq.cycles import cycle_inputs, find_cycles
 
-    ranks = np.full(len(beds), np.nan)
-    known = beds.facies >= 0
-    if model.ranks_ is not None:
-        ranks[known] = model.ranks_[beds.facies[known]]
-    marks = setting = None
-    if model.scheme is not None:
-        marks = model.scheme.cycle_bases(model.facies_)[np.maximum(beds.facies, 0)] & known
-        flags = model.scheme.settings(model.facies_)
-        if flags is not None:
-            setting = np.where(known, flags[np.maximum(beds.facies, 0)], np.nan)
+    ranks, marks, setting = cycle_inputs(beds.facies, model.ranks_, *model._facies_marks())
     return find_cycles(ranks, beds.lengths, None, 1.0, marks, setting).bed_cycle
 
 

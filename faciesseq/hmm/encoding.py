@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.cycles import CONTEXT_FEATURES, bed_context, sharp_contacts
+from faciesseq.cycles import CONTEXT_FEATURES, bed_context, cycle_inputs, sharp_contacts
 from faciesseq.errors import ConfigError
 
 __all__ = [
@@ -205,19 +205,9 @@ def _context_values(
     ``contact_text``: the contact types as described, joined (sharp or not)."""
     if ranks is None:
         raise ConfigError(f"the features {names} need a facies scheme with ranks (--scheme)")
-    known = fac >= 0
-    bed_ranks = np.full(len(fac), np.nan)
-    bed_ranks[known] = np.asarray(ranks, dtype=float)[fac[known]]
     thickness = pd.to_numeric(_column(tables, "thickness", 1.0), errors="coerce").to_numpy(float)
     sharp = None if contact_text is None else _sharp(contact_text)
-    starts = None
-    if cycle_base is not None:
-        starts = np.zeros(len(fac), dtype=bool)
-        starts[known] = np.asarray(cycle_base, dtype=bool)[fac[known]]
-    setting = None
-    if nonmarine is not None:
-        setting = np.full(len(fac), np.nan)
-        setting[known] = np.asarray(nonmarine, dtype=float)[fac[known]]
+    bed_ranks, starts, setting = cycle_inputs(fac, ranks, cycle_base, nonmarine)
     context = bed_context(
         bed_ranks, lengths, thickness, cycle_base=starts, sharp=sharp, nonmarine=setting
     )

@@ -385,13 +385,17 @@ class TractHMM(ExpectationMaximisation, Decoding):
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
         if "stacking" in numeric and "thickness" not in numeric:
             numeric.append("thickness")
-        marks = nonmarine = None
-        if self.scheme is not None:
-            marks = self.scheme.cycle_bases(self.facies_)
-            nonmarine = self.scheme.settings(self.facies_)
+        marks, nonmarine = self._facies_marks()
         return encode_beds(
             tables, self.facies_, self.contacts_, numeric, self.ranks_, marks, lengths, nonmarine
         )
+
+    def _facies_marks(self) -> tuple[np.ndarray | None, np.ndarray | None]:
+        """The scheme's ``cycle_base`` marks and settings of each of ``facies_``
+        (``None`` without a scheme, or where it names no facies nonmarine)."""
+        if self.scheme is None:
+            return None, None
+        return self.scheme.cycle_bases(self.facies_), self.scheme.settings(self.facies_)
 
     def _train_static(self, beds: EncodedBeds, clamp: np.ndarray | None) -> dict:
         """The static pieces (learnt once from the labelled beds, before EM), by feature."""
