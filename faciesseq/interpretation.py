@@ -10,7 +10,7 @@ These are plain results objects: the model fills them, ``report`` formats them.
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from functools import cached_property
 
@@ -150,6 +150,26 @@ def tract_runs(table: pd.DataFrame) -> pd.DataFrame:
             "beds": np.bincount(run) if len(table) else [],
         }
     )
+
+
+def tract_durations(
+    table: pd.DataFrame, tracts: Sequence[str], beds_per_visit: Sequence[float]
+) -> dict[str, dict]:
+    """How long each tract lasts: ``beds_per_visit`` (a fitted chain's expected
+    beds per visit, :meth:`faciesseq.hmm.states.StateSpace.mean_beds`) beside the
+    number, median thickness and median beds of the runs of that tract in a decoded
+    tract column (``table``, as for :func:`tract_runs`)."""
+    runs = tract_runs(table)
+    out = {}
+    for t, beds in zip(tracts, beds_per_visit, strict=True):
+        mine = runs[runs["tract"] == t]
+        out[t] = {
+            "beds_per_visit": float(beds) if np.isfinite(beds) else None,
+            "runs": len(mine),
+            "median_thickness": float(mine["thickness"].median()) if len(mine) else None,
+            "median_beds": float(mine["beds"].median()) if len(mine) else None,
+        }
+    return out
 
 
 def _mean_decoded_probability(beds: pd.DataFrame, tracts: tuple[str, ...]) -> float:

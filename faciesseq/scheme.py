@@ -356,16 +356,20 @@ class FaciesScheme:
     def rank(self, code: str) -> float:
         return self[code].rank
 
+    @property
+    def tells_settings(self) -> bool:
+        """Whether the scheme tells nonmarine facies from marine ones: some facies
+        are nonmarine (:attr:`Facies.nonmarine`), and not all."""
+        return {bool(f.nonmarine) for f in self.facies} == {True, False}
+
     def settings(self, codes: Iterable[str]) -> Any:
         """``(n,)`` 1.0 where a code's facies was laid down above the shoreline, 0.0
         below it, ``NaN`` for a code not in the scheme; ``None`` where the scheme
-        does not tell nonmarine facies from marine ones (none or all nonmarine).
-        Once some facies are nonmarine (:attr:`Facies.nonmarine`), the others are
-        marine."""
+        does not tell nonmarine facies from marine ones (:attr:`tells_settings`).
+        Once some facies are nonmarine, the others are marine."""
         import numpy as np
 
-        flags = {bool(f.nonmarine) for f in self.facies}
-        if flags != {True, False}:
+        if not self.tells_settings:
             return None
         return np.array(
             [float(bool(self[c].nonmarine)) if c in self else np.nan for c in codes], dtype=float

@@ -213,26 +213,13 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
     print(describe_calibration(model.temperature_, model.calibration_))
 
 
-def tract_durations(model, interp) -> dict[str, dict]:
-    """How long each tract lasts: the fitted chain's expected beds per visit
-    (:meth:`faciesseq.hmm.states.StateSpace.mean_beds`) beside the median
-    thickness and beds of the runs of that tract in the decoded training cores."""
-    import numpy as np
+def _durations(model, interp) -> dict[str, dict]:
+    """:func:`faciesseq.interpretation.tract_durations` of the decoded training cores
+    beside the fitted chain's expected beds per visit."""
+    from faciesseq.interpretation import tract_durations
 
-    from faciesseq.interpretation import tract_runs
-
-    runs = tract_runs(interp.tracts_table())
     expected = model.states_.mean_beds(model.transmat_)
-    out = {}
-    for t, beds in zip(model.states_.tracts, expected, strict=True):
-        mine = runs[runs["tract"] == t]
-        out[t] = {
-            "beds_per_visit": float(beds) if np.isfinite(beds) else None,
-            "runs": len(mine),
-            "median_thickness": float(mine["thickness"].median()) if len(mine) else None,
-            "median_beds": float(mine["beds"].median()) if len(mine) else None,
-        }
-    return out
+    return tract_durations(interp.tracts_table(), model.states_.tracts, expected)
 
 
 def _durations_line(durations: dict[str, dict], units: str, listed_only: bool = False) -> str:
@@ -264,14 +251,14 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         with warnings_to_stderr("fit"):
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
-        print_json({**document, "tract_durations": tract_durations(model, interp)})
+        print_json({**document, "tract_durations": _durations(model, interp)})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
     with warnings_to_stderr("fit"):
         interp = model.decode(listed)
     _print_fit(args, selection)
     units = next(iter(interp)).units if len(interp) else ""
-    print(_durations_line(tract_durations(model, interp), units, len(interp) < n_cores))
+    print(_durations_line(_durations(model, interp), units, len(interp) < n_cores))
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
 

@@ -322,7 +322,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 for f in defaults
                 if (f not in ("contact", "cycle_sharpness") or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
-                and (f != "setting" or self.scheme.settings(()) is not None)
+                and (f != "setting" or self.scheme.tells_settings)
             ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
                 feats.remove("thickness")
