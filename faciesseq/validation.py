@@ -400,7 +400,9 @@ def cross_validate(
     rng = np.random.default_rng(random_state)
     shuffled = [cores[i] for i in rng.permutation(len(cores))]
     fold_of = {c: k % folds for k, c in enumerate(shuffled)}
-    # labelled fits use the permissive graph unless told otherwise (TractHMM.fit)
+    # the labels' surfaces are named on the permissive graph, which names every boundary
+    # a label column can hold (the strict graph a labelled fit may take gives the same
+    # names to the boundaries it allows)
     tract_model = params.get("tract_model") or permissive_tract_model()
     scheme = params.get("scheme")
     tracts = list(tract_model.order)

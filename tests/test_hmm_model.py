@@ -9,6 +9,7 @@ tune the model (tuning used seeds 101 and 202).
 
 from __future__ import annotations
 
+import itertools
 import warnings
 
 import hmm_synthetic as synth
@@ -18,7 +19,13 @@ import pytest
 
 from faciesseq.core import Succession
 from faciesseq.hmm.encoding import UnseenCategoryWarning
-from faciesseq.hmm.model import DEFAULT_FEATURES, ConvergenceError, ConvergenceMonitor, TractHMM
+from faciesseq.hmm.model import (
+    DEFAULT_FEATURES,
+    ConvergenceError,
+    ConvergenceMonitor,
+    LabelWarning,
+    TractHMM,
+)
 from faciesseq.hmm.selection import select_model
 from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model
 
@@ -183,6 +190,47 @@ def test_clamped_beds_keep_their_labels(train):
             if v is not None:
                 assert beds.loc[i, "tract"] == v
                 assert beds.loc[i, f"p_{v}"] == pytest.approx(1.0)
+
+
+def test_labels_that_keep_the_cyclic_order_give_the_strict_graph(train):
+    # The synthetic cores walk the default graph (FSST and TST skippable), so their
+    # labels never jump over a tract the strict order requires: the fit takes that
+    # graph, and neither the fit nor the decoded column may join LST to FSST.
+    labels = [list(s.beds["true_tract"].astype(object)) for s in train[:6]]
+    for lab in labels:
+        lab[1::3] = [None] * len(lab[1::3])  # semi-supervised: a third of the beds free
+    model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1)
+    model.fit(train[:6] + train[6:8], labels=labels + [[None] * len(s) for s in train[6:8]])
+    assert model.label_graph_["graph"] == "strict"
+    assert model.label_graph_["n_forbidden"] == 0 and model.label_graph_["n_boundaries"] > 10
+    assert model.tract_model_.skips == default_tract_model().skips
+    order = list(model.tract_model_.order)
+    lst, fsst = model.states_.first[order.index("LST")], model.states_.first[order.index("FSST")]
+    assert model.transmat_[lst, fsst] == 0.0
+    for core in model.decode(train[8:]):
+        upward = core.beds["tract"].to_numpy()[::-1]
+        pairs = set(itertools.pairwise(upward))
+        assert not pairs & {("LST", "FSST"), ("TST", "LST"), ("TST", "FSST"), ("FSST", "HST")}
+
+
+def test_labels_that_jump_over_a_tract_keep_the_permissive_graph(train):
+    # One labelled TST directly under an LST (a tract thinner than a bed between them)
+    # is a boundary the strict order forbids: the fit keeps the permissive graph, so
+    # the label is used as given (no warning), and says how many boundaries jumped.
+    s = train[0]
+    lab = list(s.beds["true_tract"].astype(object))
+    lab[0], lab[1] = "TST", "LST"
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", LabelWarning)
+        model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1).fit([s], labels=[lab])
+    assert model.label_graph_["graph"] == "permissive"
+    assert model.label_graph_["n_forbidden"] >= 1
+    assert model.tract_model_.skips == permissive_tract_model().skips
+    assert model.n_labelled_ == len(s)
+    # graph="fixed" keeps the permissive graph whatever the labels show
+    ordered = [list(t.beds["true_tract"].astype(object)) for t in train[1:3]]
+    fixed = TractHMM(scheme=synth.scheme(), graph="fixed", n_restarts=1, max_iter=3)
+    assert fixed.fit(train[1:3], labels=ordered).label_graph_["graph"] == "permissive"
 
 
 def test_impossible_labels_are_freed_with_a_warning_naming_core_and_depth(train):

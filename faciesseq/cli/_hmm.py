@@ -144,7 +144,8 @@ def check_unit(args: argparse.Namespace) -> None:
 
 def load_tracts_option(path: str | None):
     """The tract model of ``--tracts``, or ``None``: the model's own default (the
-    strict cyclic graph chosen by BIC without labels, the permissive one with labels)."""
+    strict cyclic graph chosen by BIC without labels; with labels the strict one where
+    every labelled boundary follows it, else the permissive one)."""
     from faciesseq.scheme import load_tract_model
 
     return load_tract_model(require_file(path)) if path else None

@@ -159,7 +159,19 @@ def _print_graph(model) -> None:
     skips = ", ".join(model.tract_model_.skips) or "none"
     rows = getattr(model, "graph_selection_", [])
     if not rows:
-        print(f"tract graph: {' -> '.join(model.tract_model_.order)}, cyclic; skips: {skips}")
+        why = ""
+        chosen = getattr(model, "label_graph_", None)
+        if chosen and chosen["graph"] == "strict":
+            n = chosen["n_boundaries"]
+            why = f" (strict cyclic order: all {n} labelled boundaries follow it)"
+        elif chosen:
+            why = (
+                f" (permissive: {chosen['n_forbidden']} of {chosen['n_boundaries']} labelled "
+                "boundaries jump over a tract the strict cyclic order requires)"
+                if chosen["n_forbidden"]
+                else " (permissive)"
+            )
+        print(f"tract graph: {' -> '.join(model.tract_model_.order)}, cyclic; skips: {skips}{why}")
         return
     best = min(r["bic"] for r in rows)
     others = "; ".join(

@@ -328,6 +328,7 @@ def calibrate_by_folds(
         }
     fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
     params = {**model.get_params(), "calibration_folds": 0, "n_restarts": 1}
+    params["tract_model"] = model.tract_model_  # the fit's graph, whatever a fold's labels show
     params.update(n_jobs=1, scheduler=None)  # the folds are the jobs
     jobs = []
     for f in range(k):
