@@ -24,7 +24,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CONTEXT_FEATURES", "Cycles", "bed_context", "cycle_inputs", "find_cycles"]
+__all__ = [
+    "CONTEXT_FEATURES",
+    "Cycles",
+    "bed_context",
+    "cycle_inputs",
+    "exposure_context",
+    "facies_to_beds",
+    "find_cycles",
+]
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
 CONTEXT_FEATURES = (
@@ -36,6 +44,7 @@ CONTEXT_FEATURES = (
     "local_position",
     "cycle_amplitude",
     "setting",
+    "exposure",
 )
 
 #: Words of a contact type that mark it as sharp (abrupt or erosional; common
@@ -213,6 +222,7 @@ def bed_context(
     position_half_width: int = 8,
     sharp: np.ndarray | None = None,
     nonmarine: np.ndarray | None = None,
+    exposed: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """Stacking context of every bed, ``name -> (n_beds,)`` floats (``NaN`` unknown).
 
@@ -237,7 +247,12 @@ def bed_context(
     - ``cycle_amplitude``: the cycle's deepest rank minus its shallowest (how far
       it shallows: a full parasequence against a thin, shallow one);
     - ``setting``: 1 where the bed's facies was laid down above the shoreline
-      (``nonmarine``: 1/0/NaN per bed, from the scheme), 0 where below it.
+      (``nonmarine``: 1/0/NaN per bed, from the scheme), 0 where below it;
+    - ``exposure``: 2 where the bed's facies records the site's subaerial exposure
+      (``exposed``: 1 exposure / 0 marine / NaN other, per bed, from the scheme), 1
+      where a marine bed lies on such a bed (a transgressive surface at its base), 0
+      for another marine bed, NaN for other nonmarine or unknown beds
+      (:func:`exposure_context`).
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     r = _fill_unknown(ranks, lengths)
@@ -274,7 +289,21 @@ def bed_context(
         "trend": _slope(r, lengths, trend_half_width),
         "position": position,
         "setting": np.full(len(r), np.nan) if nonmarine is None else np.asarray(nonmarine, float),
+        "exposure": exposure_context(exposed, lengths, len(r)),
     }
+
+
+def exposure_context(exposed: np.ndarray | None, lengths: np.ndarray, n: int) -> np.ndarray:
+    """``(n,)`` the ``exposure`` context of every bed (see :func:`bed_context`): 2 an
+    exposure bed, 1 a marine bed on one (the bed below, in the same succession), 0
+    another marine bed, ``NaN`` otherwise or where ``exposed`` is ``None``."""
+    if exposed is None:
+        return np.full(n, np.nan)
+    x = np.asarray(exposed, dtype=float)
+    below = np.r_[np.nan, x[:-1]] if n else x.copy()
+    below[_starts(lengths)] = np.nan
+    marine = np.where(below == 1, 1.0, 0.0)
+    return np.where(x == 1, 2.0, np.where(x == 0, marine, np.nan))
 
 
 def _cycle_window_position(ranks: np.ndarray, bed_cycle: np.ndarray, cycles: Cycles) -> np.ndarray:
@@ -317,6 +346,12 @@ def cycle_inputs(
     starts = None if cycle_base is None else _per_bed(cycle_base, fac, known, False)
     setting = None if nonmarine is None else _per_bed(nonmarine, fac, known, np.nan)
     return bed_ranks, starts, setting
+
+
+def facies_to_beds(values: np.ndarray, fac: np.ndarray) -> np.ndarray:
+    """A per-facies number spread to beds (``fac``: facies index of every bed,
+    negative unknown), ``NaN`` where a bed's facies is unknown."""
+    return _per_bed(values, fac, fac >= 0, np.nan)
 
 
 def _per_bed(values, fac: np.ndarray, known: np.ndarray, fill) -> np.ndarray:

@@ -51,6 +51,7 @@ _FACIES_KEYS = {
     "description",
     "cycle_base",
     "setting",
+    "exposure",
 }
 _SCHEME_KEYS = {"name", "description", "facies", "version"}
 _TRACT_KEYS = {"code", "name", "trend", "description"}
@@ -122,14 +123,18 @@ class Facies:
     description: str | None = None
     cycle_base: bool = False
     setting: str | None = None
+    exposure: bool = False
 
     @property
     def nonmarine(self) -> bool | None:
         """Whether the facies was laid down above the shoreline (``None``: not said).
 
         From ``setting`` (``marine`` / ``nonmarine``) or, where that is not
-        given, from a ``group`` named by one of :data:`NONMARINE_GROUPS`.
+        given, from ``exposure`` or a ``group`` named by one of
+        :data:`NONMARINE_GROUPS`.
         """
+        if self.exposure:
+            return True
         if self.setting is not None:
             return self.setting == "nonmarine"
         if self.group is not None and self.group.strip().lower() in NONMARINE_GROUPS:
@@ -147,6 +152,8 @@ class Facies:
             out["cycle_base"] = True
         if self.setting is not None:
             out["setting"] = self.setting
+        if self.exposure:
+            out["exposure"] = True
         return out
 
 
@@ -281,6 +288,17 @@ class FaciesScheme:
                     f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
                     file=source,
                 )
+            exposure = entry.get("exposure", False)
+            if not isinstance(exposure, bool):
+                raise ConfigError(
+                    f"{here}: 'exposure' must be true or false, got {exposure!r}", file=source
+                )
+            if exposure and setting == "marine":
+                raise ConfigError(
+                    f"{here}: 'exposure: true' records the site above base level, so the "
+                    "facies cannot have 'setting: marine'; give 'setting: nonmarine' or none",
+                    file=source,
+                )
             raw_aliases = entry.get("aliases") or []
             if not isinstance(raw_aliases, list):
                 raw_aliases = [raw_aliases]
@@ -297,6 +315,7 @@ class FaciesScheme:
                     description=entry.get("description"),
                     cycle_base=cycle_base,
                     setting=setting,
+                    exposure=exposure,
                 )
             )
         for f in facies:
@@ -374,6 +393,29 @@ class FaciesScheme:
         return np.array(
             [float(bool(self[c].nonmarine)) if c in self else np.nan for c in codes], dtype=float
         )
+
+    @property
+    def marks_exposure(self) -> bool:
+        """Whether some facies are marked as the record of subaerial exposure
+        (:attr:`Facies.exposure`) in a scheme that tells settings."""
+        return self.tells_settings and any(f.exposure for f in self.facies)
+
+    def exposures(self, codes: Iterable[str]) -> Any:
+        """``(n,)`` 1.0 where a code's facies records subaerial exposure, 0.0 where it
+        is marine, ``NaN`` for another nonmarine facies or a code not in the scheme;
+        ``None`` where the scheme marks no exposure facies (:attr:`marks_exposure`)."""
+        import numpy as np
+
+        if not self.marks_exposure:
+            return None
+
+        def value(code: str) -> float:
+            if code not in self:
+                return np.nan
+            f = self[code]
+            return 1.0 if f.exposure else np.nan if f.nonmarine else 0.0
+
+        return np.array([value(c) for c in codes], dtype=float)
 
     def cycle_bases(self, codes: Iterable[str]) -> Any:
         """``(n,)`` True where a code's facies is marked to start a cycle."""
@@ -662,8 +704,8 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
     ]
     lines[4:4] = [
         "# Every field a facies can hold is listed; the optional ones (group, colour,",
-        "# grain_size, aliases, description, cycle_base, setting) may be filled in or left",
-        "# as they are.",
+        "# grain_size, aliases, description, cycle_base, setting, exposure) may be filled in",
+        "# or left as they are.",
     ]
     for code in unique:
         lines += [
@@ -678,5 +720,6 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
             "    description: null  # optional: what the geologist sees",
             "    cycle_base: false  # optional: true if a cycle starts at its base (e.g. a lag)",
             "    setting: null  # optional: marine or nonmarine (laid down above the shoreline)",
+            "    exposure: false  # optional: true if it records the site's subaerial exposure",
         ]
     return "\n".join(lines) + "\n"

@@ -199,7 +199,7 @@ def test_scheme_draft_reads_the_codes_despite_data_errors_and_lists_every_field(
     data = yaml.safe_load(out.read_text())
     assert [f["code"] for f in data["facies"]] == [str(i) for i in range(1, 10)]
     fields = {"code", "name", "rank", "group", "colour", "grain_size", "aliases"}
-    fields |= {"description", "cycle_base", "setting"}
+    fields |= {"description", "cycle_base", "setting", "exposure"}
     assert all(set(f) == fields for f in data["facies"])
     assert all(f["rank"] is None for f in data["facies"])
     assert out.read_text().count("rank: null  # TODO") == 9

@@ -10,6 +10,7 @@ designed on other seeds (tuning seeds 11-15; here 31-34).
 from __future__ import annotations
 
 import itertools
+import json
 import warnings
 from pathlib import Path
 
@@ -20,6 +21,7 @@ import yaml
 
 from faciesseq.core import CoreSet
 from faciesseq.cycles import bed_context, find_cycles, sharp_contacts
+from faciesseq.errors import ModelFileError
 from faciesseq.hmm.graphs import trade_graphs
 from faciesseq.hmm.model import DEFAULT_FEATURES, TractHMM
 from faciesseq.scheme import default_tract_model, load_scheme, permissive_tract_model
@@ -337,5 +339,141 @@ def test_the_appendix_methods_describe_the_fit_on_cycles_and_its_bootstrap():
     assert model.calibration_["method"] == "parametric bootstrap"
     described = text(methods_section("beds", model))
     assert CONTEXT_TEXT in described and BOOTSTRAP_TEXT in described and "Künsch" in described
+    assert "subaerial exposure" not in described  # the scheme marks no exposure facies
     plain = text(methods_section("beds"))
     assert CONTEXT_TEXT not in plain and BOOTSTRAP_TEXT not in plain
+
+
+# -- exposure facies: the reading of sequences in wells and cores -------------------
+# Source of the rule tested here: Van Wagoner et al. 1990 (AAPG Methods in Exploration
+# 7) and Catuneanu et al. 2009 (Earth-Science Reviews 92:1-33): the transgressive
+# systems tract rests on the transgressive surface, the first marine flooding above
+# the sequence boundary; beds that record the site's subaerial exposure lie in the
+# falling stage and lowstand below it.
+
+EXPOSURE_SCHEME = {
+    "facies": [
+        {"code": "rb", "name": "redbed siltstone", "rank": 0, "exposure": True},
+        {"code": "cp", "name": "coastal plain", "rank": 0, "group": "coastal plain"},
+        {"code": "do", "name": "peritidal dolomite", "rank": 1},
+        {"code": "gs", "name": "grainstone", "rank": 2},
+        {"code": "ws", "name": "wackestone", "rank": 3},
+        {"code": "sh", "name": "marine shale", "rank": 4},
+    ]
+}
+
+
+def test_a_scheme_marks_exposure_facies_which_are_nonmarine():
+    from faciesseq.errors import ConfigError
+    from faciesseq.scheme import FaciesScheme
+
+    scheme = FaciesScheme.from_dict(EXPOSURE_SCHEME)
+    assert scheme["rb"].nonmarine and scheme.marks_exposure
+    # exposure 1, marine 0, another nonmarine facies or an unknown code NaN
+    np.testing.assert_array_equal(
+        scheme.exposures(["rb", "cp", "gs", "zz"]), [1, np.nan, 0, np.nan]
+    )
+    assert FaciesScheme.from_dict(scheme.to_dict())["rb"].exposure
+    assert (
+        FaciesScheme.from_dict({"facies": EXPOSURE_SCHEME["facies"][1:]}).exposures(["cp"]) is None
+    )
+    with pytest.raises(ConfigError, match="setting: marine"):
+        FaciesScheme.from_dict({"facies": [{**EXPOSURE_SCHEME["facies"][0], "setting": "marine"}]})
+    with pytest.raises(ConfigError, match="'exposure' must be true or false"):
+        FaciesScheme.from_dict({"facies": [{**EXPOSURE_SCHEME["facies"][0], "exposure": "yes"}]})
+
+
+def test_the_exposure_context_marks_the_marine_bed_on_an_exposure_bed():
+    from faciesseq.cycles import exposure_context
+
+    # two successions, base to top: rb do rb cp gs | do rb  (cp: nonmarine, not exposure)
+    exposed = np.array([1, 0, 1, np.nan, 0, 0, 1.0])
+    out = exposure_context(exposed, np.array([5, 2]), 7)
+    # the first bed of the second succession has no bed below: an ordinary marine bed
+    np.testing.assert_array_equal(out, [2, 1, 2, np.nan, 0, 0, 2])
+    assert np.isnan(exposure_context(None, np.array([3]), 3)).all()
+
+
+def test_exposure_exclusions_follow_the_two_halves_of_the_cycle():
+    from faciesseq.hmm.context import exposure_exclusions, tract_levels
+
+    tm = default_tract_model()  # HST, FSST, LST, TST
+    levels = tract_levels(tm.order, [tm.tract(t).trend for t in tm.order])
+    held = exposure_exclusions(levels)
+    # columns: marine, marine on an exposure surface, exposed
+    np.testing.assert_array_equal(held, [[0, 0, 1], [0, 1, 0], [0, 1, 0], [0, 0, 1]])
+    # two tracts (one deepening, one regressive): no half left for the exposed beds
+    assert not exposure_exclusions([None, 0.5]).any()
+
+
+def _cyclothems(n_cores: int, seed: int) -> CoreSet:
+    """Hand-made carbonate-redbed cycles: flooding onto redbeds, a deepening marine
+    half to shale, a shallowing one to dolomite, then one to three redbed beds."""
+    rng = np.random.default_rng(seed)
+    rows = []
+    for k in range(n_cores):
+        beds = []
+        for _ in range(8):
+            beds += ["gs", "ws", "sh"][: rng.integers(2, 4)]
+            beds += ["ws", "gs", "do"][rng.integers(0, 2) :]
+            beds += ["rb"] * rng.integers(1, 3)
+        depth = 0.0
+        for facies in beds[::-1]:  # depth order: shallowest first
+            thick = float(rng.uniform(0.5, 2.0))
+            rows.append({"core": f"C{k}", "top": depth, "base": depth + thick, "facies": facies})
+            depth += thick
+    return CoreSet.from_frame(pd.DataFrame(rows), units="m")
+
+
+def test_exposure_beds_are_read_in_the_falling_stage_and_lowstand(tmp_path):
+    from faciesseq.hmm import load_model, save_model
+    from faciesseq.scheme import FaciesScheme
+
+    cores = _cyclothems(6, 5)
+    scheme = FaciesScheme.from_dict(EXPOSURE_SCHEME)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=scheme, random_state=0, n_restarts=2).fit(cores)
+    assert "exposure" in model.features_
+    from faciesseq.report.methods import EXPOSURE_TEXT, methods_section
+
+    def text(section) -> str:
+        out = [getattr(b, "text", "") for b in section.blocks]
+        return " ".join(out + [text(sub) for sub in section.subsections])
+
+    assert EXPOSURE_TEXT in text(methods_section("beds", model))
+    piece = model.emission("exposure")
+    order = list(model.tract_model_.order)
+    exposed = piece.categories.index("exposed")
+    assert piece.emissionprob_[order.index("TST"), exposed] == pytest.approx(1e-4)
+    assert piece.emissionprob_[order.index("HST"), exposed] == pytest.approx(1e-4)
+    beds = pd.concat([c.beds.assign(core=c.core) for c in model.decode(cores)])
+    beds = beds.sort_values(["core", "top"], ascending=[True, False])  # base to top
+    tract = beds["tract"].astype(str)
+    is_exposed = beds["facies"].astype(str) == "rb"
+    on_exposed = ~is_exposed & (is_exposed.groupby(beds["core"]).shift(1) == True)  # noqa: E712
+    assert is_exposed.sum() >= 40 and on_exposed.sum() >= 35  # 6 cores of 8 cycles
+    assert tract[is_exposed].isin(["FSST", "LST"]).mean() >= 0.95
+    assert tract[on_exposed].isin(["TST", "HST"]).mean() >= 0.95
+    # the model file keeps the held cells; a file that breaks them is refused
+    path = tmp_path / "model.json"
+    save_model(model, path)
+    again = load_model(path)
+    np.testing.assert_array_equal(again.emission("exposure").excluded, piece.excluded)
+    doc = json.loads(path.read_text())
+    for p in doc["parameters"]["emissions"]:
+        if p["name"] == "exposure":
+            p["emissionprob"][order.index("TST")] = [0.5, 0.3, 0.2]
+    path.write_text(json.dumps(doc))
+    with pytest.raises(ModelFileError, match="excluded cell"):
+        load_model(path)
+
+
+def test_without_exposure_facies_nonmarine_beds_stay_free():
+    # an aggrading coastal plain records the transgression landward of the shoreline,
+    # so a scheme that marks no exposure facies adds no exposure piece
+    cores, _ = _cores([31])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=SCHEME, n_restarts=1, max_iter=5, random_state=0).fit(cores)
+    assert "setting" in model.features_ and "exposure" not in model.features_

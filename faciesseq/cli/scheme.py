@@ -49,9 +49,9 @@ def register(subparsers) -> None:
         help="write a starting scheme from the facies codes found in SOURCE",
         description="Write a starting facies scheme listing every code found in SOURCE, with "
         "every field a facies can hold (name, rank, group, colour, grain_size, aliases, "
-        "description, cycle_base, setting), commented. Ranks are left empty and marked TODO; the "
-        "scheme does not load until they are filled in. Errors in the data (bad depths, "
-        "repeated depths, ...) do not stop it: only the facies codes are needed.",
+        "description, cycle_base, setting, exposure), commented. Ranks are left empty and "
+        "marked TODO; the scheme does not load until they are filled in. Errors in the data "
+        "(bad depths, repeated depths, ...) do not stop it: only the facies codes are needed.",
         epilog=DRAFT_EXAMPLES,
     )
     add_source_arguments(draft, scheme=False)

@@ -28,13 +28,25 @@ from typing import Any
 import numpy as np
 
 from faciesseq.errors import ModelFileError
-from faciesseq.hmm.emissions import CategoricalEmission
+from faciesseq.hmm.emissions import CategoricalEmission, check_table
 from faciesseq.hmm.encoding import MISSING, EncodedBeds
 
-__all__ = ["CONTEXT_BINS", "ContextEmission", "context_pseudo_counts", "tract_levels"]
+__all__ = [
+    "CONTEXT_BINS",
+    "ContextEmission",
+    "context_pseudo_counts",
+    "exposure_exclusions",
+    "marine_half",
+    "tract_levels",
+]
 
 #: Smallest pseudo-count of a context bin (also with ``prior_strength=0``).
 MIN_PSEUDO = 1e-6
+#: Probability held in an excluded cell of a context table (:func:`exposure_exclusions`):
+#: small, never zero, so that a core whose marine-nonmarine cycles are shorter than
+#: the strict tract graph's shortest cycle (a one-bed marine interval cannot be a
+#: TST and an HST) still has a path; a bed pays about 9 nats for breaking it.
+EXCLUDED_PROB = 1e-4
 
 #: Bin edges of every context feature (values: ranks per bed, ranks, 0..1).
 CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
@@ -46,6 +58,7 @@ CONTEXT_BINS: Mapping[str, tuple[float, ...]] = {
     "local_position": (0.25, 0.5, 0.75),
     "cycle_amplitude": (0.5, 1.5, 2.5),
     "setting": (0.5,),
+    "exposure": (0.5, 1.5),
 }
 
 
@@ -73,6 +86,7 @@ CONTEXT_CATEGORIES: Mapping[str, tuple[str, ...]] = {
     "cycle_sharpness": ("mostly gradational", "mixed", "mostly sharp"),
     "cycle_amplitude": ("one rank", "shallows 1 rank", "shallows 2 ranks", "shallows 3+ ranks"),
     "setting": ("marine", "nonmarine"),
+    "exposure": ("marine", "marine on an exposure surface", "exposed"),
 }
 
 
@@ -101,6 +115,46 @@ def tract_levels(order: Sequence[str], trends: Sequence[str]) -> list[float | No
     return levels
 
 
+def marine_half(levels: Sequence[float | None]) -> list[bool]:
+    """Which tracts make the transgressive-highstand half of the base-level cycle:
+    the deepening tract(s) (``level`` ``None``) and the regressive tract next above
+    them, the one at the deep turnaround (the highest ``level``;
+    :func:`tract_levels`). All ``False`` unless at least one regressive tract is
+    left for the other half."""
+    regressive = [lv for lv in levels if lv is not None]
+    if len(regressive) < 2 or len(regressive) == len(levels):
+        return [False] * len(levels)
+    highest = max(regressive)
+    return [lv is None or lv == highest for lv in levels]
+
+
+def exposure_exclusions(levels: Sequence[float | None]) -> np.ndarray:
+    """``(n_tracts, 3)`` cells of the ``exposure`` table held at
+    :data:`EXCLUDED_PROB`: an exposed bed in the transgressive-highstand half, and a
+    marine bed on an exposed one in the falling-stage-lowstand half.
+
+    A facies that records subaerial exposure of the site (a paleosol, calcrete,
+    redbed or loess on a shelf) says that base level had fallen below the site:
+    the sequence boundary lies at or below it and the transgressive surface, the
+    first marine flooding above it, is the base of the transgressive systems
+    tract, so exposed beds belong to the falling stage and the lowstand and the
+    marine bed on them to the transgression (or, where no transgression is
+    recorded, the highstand). This is the reading of sequences in wells and cores
+    (Van Wagoner et al. 1990, AAPG Methods in Exploration 7; Catuneanu et al.
+    2009, Earth-Science Reviews 92:1-33, the transgressive surface as the base of
+    the TST in practice). It is not held for other nonmarine facies: an aggrading
+    coastal plain records the transgression landward of the shoreline.
+    """
+    cats = CONTEXT_CATEGORIES["exposure"]
+    out = np.zeros((len(levels), len(cats)), dtype=bool)
+    half = marine_half(levels)
+    if not any(half):
+        return out
+    for s, marine in enumerate(half):
+        out[s, cats.index("exposed" if marine else "marine on an exposure surface")] = True
+    return out
+
+
 def context_pseudo_counts(
     feature: str, trends: Sequence[str], levels: Sequence[float | None], strength: float
 ) -> np.ndarray:
@@ -116,7 +170,7 @@ def context_pseudo_counts(
     out = np.full((len(trends), len(centres)), 0.1 * strength)
     scale = max(abs(centres).max(), 1e-9)
     for s, (trend, level) in enumerate(zip(trends, levels, strict=True)):
-        if feature in ("cycle_sharpness", "cycle_amplitude", "setting"):
+        if feature in ("cycle_sharpness", "cycle_amplitude", "setting", "exposure"):
             out[s] += 0.5 * strength  # no reading of the trade to pin: learnt from the data
         elif feature in ("position", "local_position"):
             if level is None:
@@ -144,11 +198,35 @@ class ContextEmission(CategoricalEmission):
         n_tracts: int,
         pseudo: np.ndarray | None = None,
         unseen_pseudo: float = 0.5,
+        excluded: np.ndarray | None = None,
     ) -> None:
         self.feature = feature
         self.edges = tuple(CONTEXT_BINS[feature])
         cats = list(CONTEXT_CATEGORIES[feature])
         super().__init__(cats, n_tracts, pseudo, unseen_pseudo, name=feature)
+        shape = (n_tracts, len(cats))
+        self.excluded = (
+            np.zeros(shape, dtype=bool) if excluded is None else np.asarray(excluded, dtype=bool)
+        )
+        self.pseudo = np.where(self.excluded, 0.0, self.pseudo)
+        self.hold_exclusions()
+
+    def hold_exclusions(self) -> None:
+        """Hold the excluded cells at :data:`EXCLUDED_PROB` and share the rest of each
+        row in proportion (the M-step of a table with cells fixed in advance)."""
+        if not self.excluded.any():
+            return
+        free = np.where(self.excluded, 0.0, self.emissionprob_)
+        rest = 1.0 - EXCLUDED_PROB * self.excluded.sum(axis=1, keepdims=True)
+        free = free / free.sum(axis=1, keepdims=True) * rest
+        self.emissionprob_ = np.where(self.excluded, EXCLUDED_PROB, free)
+
+    def m_step(self, stats: dict) -> None:
+        super().m_step(stats)
+        self.hold_exclusions()
+
+    def n_parameters(self) -> int:
+        return super().n_parameters() - int(self.excluded.sum())
 
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
         x = beds.numeric[self.feature]
@@ -160,6 +238,8 @@ class ContextEmission(CategoricalEmission):
     def to_dict(self) -> dict[str, Any]:
         out = super().to_dict()
         out["edges"] = list(self.edges)
+        if self.excluded.any():
+            out["excluded"] = self.excluded.astype(int).tolist()
         return out
 
     @classmethod
@@ -171,4 +251,14 @@ class ContextEmission(CategoricalEmission):
                 file=source,
             )
         piece = cls(feature, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]))
-        return piece._load_tables(data, n_tracts, source)
+        piece._load_tables(data, n_tracts, source)
+        if "excluded" in data:
+            shape = piece.emissionprob_.shape
+            excluded = check_table(f"{feature}.excluded", data["excluded"], shape, source)
+            if not np.allclose(piece.emissionprob_[excluded > 0], EXCLUDED_PROB):
+                raise ModelFileError(
+                    f"emission {feature!r}: an excluded cell's probability is not {EXCLUDED_PROB}",
+                    file=source,
+                )
+            piece.excluded = excluded > 0
+        return piece

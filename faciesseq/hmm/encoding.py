@@ -17,7 +17,13 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.cycles import CONTEXT_FEATURES, bed_context, cycle_inputs, sharp_contacts
+from faciesseq.cycles import (
+    CONTEXT_FEATURES,
+    bed_context,
+    cycle_inputs,
+    facies_to_beds,
+    sharp_contacts,
+)
 from faciesseq.errors import ConfigError
 
 __all__ = [
@@ -110,6 +116,7 @@ def encode_beds(
     cycle_base: np.ndarray | None = None,
     lengths: np.ndarray | None = None,
     nonmarine: np.ndarray | None = None,
+    exposed: np.ndarray | None = None,
 ) -> EncodedBeds:
     """Code bed tables (each base to top) for the emission pieces.
 
@@ -132,6 +139,9 @@ def encode_beds(
     nonmarine
         1 / 0 / ``NaN`` for each of ``facies``: laid down above the shoreline or
         not (the scheme's ``setting``), for the context feature ``setting``.
+    exposed
+        1 / 0 / ``NaN`` for each of ``facies``: records subaerial exposure, marine,
+        or neither (the scheme's ``exposure``), for the context feature ``exposure``.
     lengths
         Beds of each succession, where ``tables`` holds several successions one
         after another (default: one succession per table).
@@ -169,7 +179,7 @@ def encode_beds(
     if context:
         values.update(
             _context_values(
-                tables, fac, lengths, ranks, context, cycle_base, contact_text, nonmarine
+                tables, fac, lengths, ranks, context, cycle_base, contact_text, nonmarine, exposed
             )
         )
     if STACKING in numeric:
@@ -200,6 +210,7 @@ def _context_values(
     cycle_base=None,
     contact_text: pd.Series | None = None,
     nonmarine: np.ndarray | None = None,
+    exposed: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     """The stacking context of every bed (:func:`faciesseq.cycles.bed_context`);
     ``contact_text``: the contact types as described, joined (sharp or not)."""
@@ -208,8 +219,15 @@ def _context_values(
     thickness = pd.to_numeric(_column(tables, "thickness", 1.0), errors="coerce").to_numpy(float)
     sharp = None if contact_text is None else _sharp(contact_text)
     bed_ranks, starts, setting = cycle_inputs(fac, ranks, cycle_base, nonmarine)
+    bed_exposed = None if exposed is None else facies_to_beds(exposed, fac)
     context = bed_context(
-        bed_ranks, lengths, thickness, cycle_base=starts, sharp=sharp, nonmarine=setting
+        bed_ranks,
+        lengths,
+        thickness,
+        cycle_base=starts,
+        sharp=sharp,
+        nonmarine=setting,
+        exposed=bed_exposed,
     )
     return {name: context[name] for name in names}
 

@@ -72,6 +72,8 @@ def turn(
         p.unseen_prob_ = np.asarray(p.unseen_prob_)[old_tract].copy()
     for p in pieces:
         p.emissionprob_ = 0.9 * p.emissionprob_ + 0.1 / p.emissionprob_.shape[1]
+        if isinstance(p, ContextEmission):
+            p.hold_exclusions()  # the exclusions belong to the names, not to the tables
     A = np.where(states.allowed, transmat[np.ix_(perm, perm)], 0.0)
     rows = A.sum(axis=1, keepdims=True)
     uniform = states.allowed / states.allowed.sum(axis=1, keepdims=True)

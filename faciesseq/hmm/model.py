@@ -331,6 +331,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 if (f not in ("contact", "cycle_sharpness") or "contact" in columns)
                 and (f not in RANK_FEATURES or self.scheme is not None)
                 and (f != "setting" or self.scheme.tells_settings)
+                and (f != "exposure" or self.scheme.marks_exposure)
             ]
             if self.unit == "grid":  # every cell has the grid step as its thickness
                 feats.remove("thickness")
@@ -394,8 +395,17 @@ class TractHMM(ExpectationMaximisation, Decoding):
         if "stacking" in numeric and "thickness" not in numeric:
             numeric.append("thickness")
         marks, nonmarine = self._facies_marks()
+        exposed = None if self.scheme is None else self.scheme.exposures(self.facies_)
         return encode_beds(
-            tables, self.facies_, self.contacts_, numeric, self.ranks_, marks, lengths, nonmarine
+            tables,
+            self.facies_,
+            self.contacts_,
+            numeric,
+            self.ranks_,
+            marks,
+            lengths,
+            nonmarine,
+            exposed,
         )
 
     def _facies_marks(self) -> tuple[np.ndarray | None, np.ndarray | None]:

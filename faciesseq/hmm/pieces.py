@@ -9,7 +9,12 @@ import numpy as np
 
 from faciesseq.cycles import CONTEXT_FEATURES
 from faciesseq.errors import ModelFileError
-from faciesseq.hmm.context import ContextEmission, context_pseudo_counts, tract_levels
+from faciesseq.hmm.context import (
+    ContextEmission,
+    context_pseudo_counts,
+    exposure_exclusions,
+    tract_levels,
+)
 from faciesseq.hmm.emissions import (
     ContactEmission,
     EmissionPiece,
@@ -103,7 +108,9 @@ def make_piece(
     if feature in CONTEXT_FEATURES:
         levels = tract_levels(range(len(trends)), trends)
         pseudo = context_pseudo_counts(feature, trends, levels, prior_strength)
-        return ContextEmission(feature, n_tracts, pseudo)
+        # the reading of exposure is a prior of the trade: off with the other priors
+        excluded = exposure_exclusions(levels) if feature == "exposure" and prior_strength else None
+        return ContextEmission(feature, n_tracts, pseudo, excluded=excluded)
     if feature == RANK_TREND:
         pseudo = rank_step_pseudo_counts(
             trends, prior_strength, base, RankTrendEmission.CENTRES, aggrading_limit=0.25

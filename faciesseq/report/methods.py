@@ -84,6 +84,17 @@ CONTEXT_TEXT = (
     "the one deepening tract and the cyclic order."
 )
 
+#: How a fit reads facies that a scheme marks as the record of subaerial exposure.
+EXPOSURE_TEXT = (
+    "The facies scheme marks facies that record the subaerial exposure of the site after a "
+    "base-level fall; beds of these facies were held out of the transgressive and highstand "
+    "tracts, and a marine bed on one of them out of the falling-stage and lowstand tracts, "
+    "as a transgressive surface at its base (each at a probability of 10^-4, so that a "
+    "marine-nonmarine cycle too thin for the tract order still has a reading): the "
+    "transgressive tract begins at the first marine flooding above the sequence boundary "
+    "(Van Wagoner et al. 1990; Catuneanu et al. 2009)."
+)
+
 BOOTSTRAP_TEXT = (
     "Without interpreted cores nothing is held out, so the temperature is chosen on cores "
     "simulated from the fitted model (a parametric bootstrap; Efron & Tibshirani 1993): tract "
@@ -210,6 +221,8 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     )
     if context:
         hmm.add(Paragraph(CONTEXT_TEXT))
+    if context and "exposure" in getattr(model, "features_", ()):
+        hmm.add(Paragraph(EXPOSURE_TEXT))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
