@@ -107,12 +107,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
-    from faciesseq.report.csvtext import csv_text
+    from faciesseq.report.csvtext import csv_bytes
 
-    with path.open("w", encoding="utf-8", newline="") as handle:
+    with path.open("wb") as handle:
         if probabilities is not None:
-            handle.write(f"# {probabilities['note']}\n")
-        handle.write(csv_text(frame))
+            handle.write(f"# {probabilities['note']}\n".encode())
+        handle.write(csv_bytes(frame))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
@@ -159,10 +159,10 @@ class _Table:
             _write_csv(frame, self.path, self.probabilities)
             self.started = True
         elif len(frame):
-            from faciesseq.report.csvtext import csv_text
+            from faciesseq.report.csvtext import csv_bytes
 
-            with self.path.open("a", encoding="utf-8", newline="") as handle:
-                handle.write(csv_text(frame, header=False))
+            with self.path.open("ab") as handle:
+                handle.write(csv_bytes(frame, header=False))
 
     def close(self) -> None:
         if self.frames:
