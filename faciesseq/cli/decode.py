@@ -190,19 +190,26 @@ def _agreement(interp, column: str):
     labelled = (beds[column].notna() & (text != "")).to_numpy()
     if not labelled.any():
         return None
-    core = beds["core"].to_numpy(object)[labelled]
-    same = text.to_numpy()[labelled] == beds["tract"].to_numpy()[labelled]
-    w = beds["thickness"].to_numpy(float)[labelled]
-    starts = np.flatnonzero(np.r_[True, core[1:] != core[:-1]])
-    ends = np.r_[starts[1:], len(core)]
-    rows = []
+    rows = np.flatnonzero(labelled)
+    core_id, cores = pd.factorize(beds["core"].iloc[rows])
+    same = (text.iloc[rows].to_numpy() == beds["tract"].iloc[rows].to_numpy()).astype(bool)
+    w = beds["thickness"].to_numpy(float)[rows]
+    starts = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])
+    ends = np.r_[starts[1:], len(rows)]
+    counts = ends - starts
+    agree = np.add.reduceat(same.astype(np.int64), starts) / counts
+    hit = []
     for a, b in zip(starts.tolist(), ends.tolist()):
         weight = w[a:b]
-        hit = np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan
-        agree = float(np.mean(same[a:b]))
-        rows.append({"core": core[a], "beds": b - a, "agreement_beds": agree})
-        rows[-1]["agreement_thickness"] = float(hit)
-    return pd.DataFrame(rows)
+        hit.append(np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan)
+    return pd.DataFrame(
+        {
+            "core": np.asarray(cores, dtype=object)[core_id[starts]],
+            "beds": counts,
+            "agreement_beds": agree.astype(float),
+            "agreement_thickness": np.array(hit, dtype=float),
+        }
+    )
 
 
 def figure_name(core: str, used: Collection[str] = ()) -> str:
