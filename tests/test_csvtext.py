@@ -56,3 +56,12 @@ def test_numbers_are_written_as_percent_6g_writes_them():
     )
     expected = frame.to_csv(index=False, float_format="%.6g")
     assert csv_text(frame) == expected
+
+
+def test_text_laid_out_from_arrow_buffers_is_the_text_pandas_writes():
+    """Arrow-backed text needing no quotes is laid out from Arrow's buffers (a sliced
+    column, an empty text, a missing cell, multi-byte characters); pandas is the
+    reference."""
+    names = pd.array(["QB-01~00000", "", None, "Ørsted sand", "QB-01~00000", "x"], dtype="str")
+    frame = pd.DataFrame({"core": names, "n": np.arange(6)}).iloc[1:]
+    assert csv_text(frame) == frame.to_csv(index=False)

@@ -87,9 +87,10 @@ class _Field:
         if isinstance(dtype, np.dtype) and dtype.kind == "b":
             return _TextField.of_codes(column.to_numpy().astype(np.intp), ["False", "True"])
         if isinstance(dtype, pd.CategoricalDtype):
-            return _TextField.of_codes(
-                np.asarray(column.cat.codes, dtype=np.intp), list(dtype.categories)
-            )
+            codes = np.asarray(column.cat.codes, dtype=np.intp)
+            return _TextField.of_codes(codes, list(dtype.categories))
+        if isinstance(dtype, pd.StringDtype) and dtype.storage == "pyarrow":
+            return _TextField.of_arrow(column)
         if dtype == np.dtype(object) or isinstance(dtype, pd.StringDtype):
             codes, distinct = pd.factorize(column, use_na_sentinel=True)
             return _TextField.of_codes(np.asarray(codes, dtype=np.intp), list(distinct))
@@ -118,6 +119,33 @@ class _TextField(_Field):
         table = np.zeros((len(encoded), width), dtype=np.uint8)
         for k, e in enumerate(encoded):
             table[k, : len(e)] = np.frombuffer(e, dtype=np.uint8)
+        return cls(codes, table)
+
+    @classmethod
+    def of_arrow(cls, column: pd.Series) -> _TextField | None:
+        """The field of an Arrow-backed text column: its distinct texts laid out from
+        Arrow's buffers at once where none needs quoting (nor holds a NUL byte)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        values = pa.array(column.array)
+        if isinstance(values, pa.ChunkedArray):
+            values = values.combine_chunks()
+        encoded = pc.dictionary_encode(values)
+        codes = encoded.indices.fill_null(-1).to_numpy().astype(np.intp)
+        distinct = encoded.dictionary.cast(pa.large_string())
+        if (
+            len(distinct) == 0
+            or pc.any(pc.match_substring_regex(distinct, '[,"\\r\\n\\x00]')).as_py()
+        ):
+            return cls.of_codes(codes, distinct.to_pylist())
+        _, offsets, data = distinct.buffers()
+        offsets = np.frombuffer(offsets, dtype=np.int64)[distinct.offset :][: len(distinct) + 1]
+        data = np.frombuffer(data, dtype=np.uint8)[offsets[0] : offsets[-1]]
+        lengths = np.diff(offsets)
+        table = np.zeros((len(distinct) + 1, _words(int(lengths.max()) + 1)), dtype=np.uint8)
+        rows = np.repeat(np.arange(len(distinct)), lengths)
+        table[rows, np.arange(len(data)) - (offsets[:-1] - offsets[0])[rows]] = data
         return cls(codes, table)
 
     def fill(self, block: np.ndarray, start: int, stop: int) -> None:
