@@ -200,37 +200,43 @@ class _FloatField(_Field):
         size = np.abs(values)
         with np.errstate(invalid="ignore"):
             scaled = (size >= _SCALED_RANGE[0]) & (size <= _SCALED_RANGE[1])
-        size = np.where(scaled, size, 1.0)  # the others are formatted by hand, below
-        exponent = np.floor(np.log10(size)).astype(np.int64)
+        size[~scaled] = 1.0  # the others are formatted by hand, below
+        exponent = np.floor(np.log10(size))
         mantissa = _scale(size, exponent)
-        # log10 may be a hair off at a power of ten: one step either way
-        exponent += mantissa >= 10.0**DIGITS
-        exponent -= mantissa < 10.0 ** (DIGITS - 1)
-        mantissa = _scale(size, exponent)
+        off = (mantissa >= 10.0**DIGITS) | (mantissa < 10.0 ** (DIGITS - 1))
+        if off.any():  # log10 a hair off at a power of ten: one step either way
+            exponent[off] += np.where(mantissa[off] >= 10.0**DIGITS, 1.0, -1.0)
+            mantissa[off] = _scale(size[off], exponent[off])
         rounded = np.floor(mantissa + 0.5)
-        near_half = np.abs(mantissa - np.floor(mantissa) - 0.5) < _TIE_MARGIN
+        above = mantissa + 0.5 - rounded  # where the mantissa lies past the half below
+        near_half = (above < _TIE_MARGIN) | (above > 1.0 - _TIE_MARGIN)
         spilled = rounded >= 10.0**DIGITS  # 999999.5 rounds to 1e6: one more place
-        exponent += spilled
-        digits = np.where(spilled, 10.0 ** (DIGITS - 1), rounded).astype(np.int64)
-        # trailing zeros of the six digits, and the place of the last one kept
-        zeros = np.zeros(len(values), dtype=np.int64)
-        for t in range(1, DIGITS):
-            zeros += digits % 10**t == 0
-        last = exponent - (DIGITS - 1) + zeros
+        if spilled.any():
+            exponent[spilled] += 1.0
+            rounded[spilled] = 10.0 ** (DIGITS - 1)
+        exponent = exponent.astype(np.int64)
+        # the place of the last significant digit once trailing zeros go
+        last = exponent - (DIGITS - 1) + _TRAILING_ZEROS[_remainder(rounded, 1e5)]
 
+        # fixed notation, from the digits of value * 1e9 (exact in floating point);
+        # the rows in exponent notation are written over below
         fixed = (exponent >= -4) & (exponent < DIGITS)
-        whole = np.where(fixed, digits * _POW10_INT[np.clip(exponent + 4, 0, 9)], 0)
+        whole = rounded * _POW10[:10].take(exponent + 4, mode="clip")
+        high = np.floor(whole / 1e10)
+        whole -= high * 1e10
+        middle = np.floor(whole / 1e5)
+        whole -= middle * 1e5
         sign = np.where(np.signbit(values) & ~np.isnan(values), _MINUS, _NUL).astype(np.uint64)
         words = block.view(_WORD)
-        integer = _FIVE_DIGITS[whole // 10**10] << np.uint64(8)
-        words[:, 0] = (integer & _BLANK_FROM_1[5 - np.clip(exponent, 0, 5)]) | sign
-        middle = _FIVE_DIGITS[whole // 10**5 % 100_000]
-        units = middle & np.uint64(0xFF)
-        point = np.where(last < 0, _DOT, _NUL).astype(np.uint64) << np.uint64(8)
+        integer = _FIVE_DIGITS[high.astype(np.intp)] << np.uint64(8)
+        words[:, 0] = integer & _BLANK_FROM_1.take(5 - exponent, mode="clip") | sign
+        middle = _FIVE_DIGITS[middle.astype(np.intp)]
+        point = np.where(last < 0, _DOT << 8, _NUL).astype(np.uint64)
         decimals = (middle & ~np.uint64(0xFF)) << np.uint64(8)
-        decimals &= _KEEP_TO[2 + np.clip(-last, 0, 4)]
-        words[:, 1] = units | point | decimals
-        words[:, 2] = _FIVE_DIGITS[whole % 100_000] & _KEEP_TO[np.clip(-last - 4, 0, 5)]
+        decimals &= _KEEP_TO[2:].take(-last, mode="clip")
+        words[:, 1] = (middle & np.uint64(0xFF)) | point | decimals
+        words[:, 2] = _FIVE_DIGITS[whole.astype(np.intp)] & _KEEP_TO.take(-last - 4, mode="clip")
+        digits = rounded.astype(np.int64)
 
         sci = ~fixed & scaled
         if sci.any():
@@ -280,10 +286,19 @@ _FIVE_DIGITS = (
 _KEEP_TO = np.array([(1 << (8 * k)) - 1 for k in range(9)], dtype=np.uint64)
 #: ``_BLANK_FROM_0[k]``: a word's bytes 0 to k - 1 blanked.
 _BLANK_FROM_0 = ~_KEEP_TO
-#: ``_BLANK_FROM_1[k]``: a word's bytes 1 to k blanked (byte 0, the sign, kept).
-_BLANK_FROM_1 = ~(_KEEP_TO << np.uint64(8)) | np.uint64(0xFF)
+#: ``_BLANK_FROM_1[k]``: a word's bytes 1 to k blanked (byte 0, the sign, kept), k <= 5.
+_BLANK_FROM_1 = ~(_KEEP_TO[:6] << np.uint64(8)) | np.uint64(0xFF)
 _POW10_INT = 10 ** np.arange(10, dtype=np.int64)
 _POW10 = 10.0 ** np.arange(309)  # exact up to 1e22
+
+
+#: Trailing zeros of 0 to 99,999 written in five places (five for 0).
+_TRAILING_ZEROS = sum(np.arange(100_000) % 10**place == 0 for place in range(1, 6))
+
+
+def _remainder(whole: np.ndarray, divisor: float) -> np.ndarray:
+    """``whole % divisor`` of whole numbers held as floats, as array indices."""
+    return (whole - np.floor(whole / divisor) * divisor).astype(np.intp)
 
 
 def _digit_count(size: np.ndarray) -> np.ndarray:
@@ -296,8 +311,8 @@ def _digit_count(size: np.ndarray) -> np.ndarray:
 
 def _scale(size: np.ndarray, exponent: np.ndarray) -> np.ndarray:
     """``size * 10 ** (DIGITS - 1 - exponent)``, by a power of ten (exact up to 1e22)."""
-    shift = DIGITS - 1 - exponent
-    return size * _POW10[np.clip(shift, 0, 308)] / _POW10[np.clip(-shift, 0, 308)]
+    shift = (DIGITS - 1 - exponent).astype(np.intp)
+    return size * _POW10.take(shift, mode="clip") / _POW10.take(-shift, mode="clip")
 
 
 def _put_text(block: np.ndarray, rows: np.ndarray, texts: list[str]) -> None:
