@@ -708,8 +708,16 @@ class CoreSet:
         if isinstance(self.cores, CoreTable):
             attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
             attrs = attrs if attributes else []
-            data, bed_core = _bed_columns(self.cores.table, self.cores.core_ids(), attrs, tolerance)
             names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+            plain = derived.get(("beds without attributes", float(tolerance)))
+            if plain is not None:  # the beds are made: only their attributes are to add
+                beds, bed_core = plain
+                bed_id = np.repeat(np.arange(len(beds)), beds["n_intervals"].to_numpy())
+                data = dict(beds.items()) | _aggregate(self.cores.table, bed_id, attrs)
+            else:
+                data, bed_core = _bed_columns(
+                    self.cores.table, self.cores.core_ids(), attrs, tolerance
+                )
             derived[key] = (pd.DataFrame(data, columns=names), bed_core)
             return derived[key]
         result = None
