@@ -213,6 +213,7 @@ class Decoding:
         contacts = flow.contacts
         upper_row = contacts - 1  # the bed above a contact, in depth order
         tracts = list(self.states_.tracts)
+        surf = surf[flow.contact_xi]  # in depth order
         bounds = pd.DataFrame(
             {
                 "core": take_text(beds["core"], contacts),
@@ -221,10 +222,10 @@ class Decoding:
                 "lower_tract": text_column(tracts, vit[flow.order[contacts]]),
                 "upper_tract": text_column(tracts, vit[flow.order[upper_row]]),
             }
-            | {f"p_{c}": surf[flow.contact_xi, j] for j, c in enumerate(codes)}
+            | {f"p_{c}": surf[:, j] for j, c in enumerate(codes)}
         )
         state = flow.rows_in_depth_order(vit)
-        picks = self._pick_frame(bounds, state, surf[flow.contact_xi], flow, mass)
+        picks = self._pick_frame(bounds, state, surf, flow, mass)
         core_ids, names = pd.factorize(pd.Index(part.cores, dtype=object))
         wells = pd.DataFrame(
             {
@@ -273,8 +274,9 @@ class Decoding:
         kept as ``interpreted_tract``)."""
         rows = flow.order
         names = list(part.beds.columns)
+        posterior = gamma[rows]
         added = {"tract": text_column(list(self.states_.tracts), vit[rows])} | {
-            f"p_{t}": gamma[rows, j] for j, t in enumerate(self.states_.tracts)
+            f"p_{t}": posterior[:, j] for j, t in enumerate(self.states_.tracts)
         }
         renamed = {"tract": "interpreted_tract"}  # an interpreter's column: kept, never used
         first = ["top", "base", "thickness", "facies"]
