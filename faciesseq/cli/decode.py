@@ -107,12 +107,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
-    from faciesseq.report.csvtext import csv_bytes
+    from faciesseq.report.csvtext import csv_blocks
 
     with path.open("wb") as handle:
         if probabilities is not None:
             handle.write(f"# {probabilities['note']}\n".encode())
-        handle.write(csv_bytes(frame))
+        handle.writelines(csv_blocks(frame))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
@@ -159,10 +159,10 @@ class _Table:
             _write_csv(frame, self.path, self.probabilities)
             self.started = True
         elif len(frame):
-            from faciesseq.report.csvtext import csv_bytes
+            from faciesseq.report.csvtext import csv_blocks
 
             with self.path.open("ab") as handle:
-                handle.write(csv_bytes(frame, header=False))
+                handle.writelines(csv_blocks(frame, header=False))
 
     def close(self) -> None:
         if self.frames:

@@ -18,11 +18,12 @@ from __future__ import annotations
 
 import csv
 import io
+from collections.abc import Iterator
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["FLOAT_FORMAT", "csv_bytes", "csv_text"]
+__all__ = ["FLOAT_FORMAT", "csv_blocks", "csv_bytes", "csv_text"]
 
 #: Format of floating-point cells (6 significant digits).
 FLOAT_FORMAT = "%.6g"
@@ -47,13 +48,18 @@ def csv_text(frame: pd.DataFrame, header: bool = True) -> str:
 
 def csv_bytes(frame: pd.DataFrame, header: bool = True) -> bytes:
     """:func:`csv_text` encoded as UTF-8."""
+    return b"".join(csv_blocks(frame, header))
+
+
+def csv_blocks(frame: pd.DataFrame, header: bool = True) -> Iterator[bytes]:
+    """:func:`csv_bytes` a block of rows (about :data:`BLOCK_BYTES` laid out) at a time,
+    to be written as they come."""
     fields = [_Field.of(frame[c]) for c in frame.columns] if frame.columns.is_unique else [None]
     if len(fields) < 2 or any(f is None for f in fields):  # one column: "" for a blank row
-        text = frame.to_csv(index=False, header=header, float_format=FLOAT_FORMAT)
-        return text.encode("utf-8")
-    out = []
+        yield frame.to_csv(index=False, header=header, float_format=FLOAT_FORMAT).encode("utf-8")
+        return
     if header:
-        out.append((",".join(_quote(str(c)) for c in frame.columns) + "\n").encode("utf-8"))
+        yield (",".join(_quote(str(c)) for c in frame.columns) + "\n").encode("utf-8")
     width = sum(f.width for f in fields)
     step = max(1, BLOCK_BYTES // width)
     buffer = np.empty((min(step, len(frame)), width), dtype=np.uint8)
@@ -66,8 +72,7 @@ def csv_bytes(frame: pd.DataFrame, header: bool = True) -> bytes:
             at += field.width
             block[:, at - 1] = ord(",")
         block[:, -1] = ord("\n")
-        out.append(block.tobytes().translate(None, b"\x00"))
-    return b"".join(out)
+        yield block.tobytes().translate(None, b"\x00")
 
 
 class _Field:
