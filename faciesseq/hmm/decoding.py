@@ -17,7 +17,7 @@ from collections.abc import Iterable, Iterator, Sequence
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet, Succession, SuccessionTable
+from faciesseq.core import CoreSet, Succession, SuccessionTable, take_text, text_column
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
@@ -212,18 +212,20 @@ class Decoding:
         beds = self._bed_table(part, flow, gamma, vit)
         contacts = flow.contacts
         upper_row = contacts - 1  # the bed above a contact, in depth order
+        tracts = list(self.states_.tracts)
+        surf = surf[flow.contact_xi]  # in depth order
         bounds = pd.DataFrame(
             {
-                "core": beds["core"].to_numpy()[contacts],
+                "core": take_text(beds["core"], contacts),
                 "segment": beds["segment"].to_numpy()[contacts],
                 "depth": beds["top"].to_numpy(float)[contacts],
-                "lower_tract": beds["tract"].to_numpy()[contacts],
-                "upper_tract": beds["tract"].to_numpy()[upper_row],
+                "lower_tract": text_column(tracts, vit[flow.order[contacts]]),
+                "upper_tract": text_column(tracts, vit[flow.order[upper_row]]),
             }
-            | {f"p_{c}": surf[flow.contact_xi, j] for j, c in enumerate(codes)}
+            | {f"p_{c}": surf[:, j] for j, c in enumerate(codes)}
         )
         state = flow.rows_in_depth_order(vit)
-        picks = self._pick_frame(bounds, state, surf[flow.contact_xi], flow, mass)
+        picks = self._pick_frame(bounds, state, surf, flow, mass)
         core_ids, names = pd.factorize(pd.Index(part.cores, dtype=object))
         wells = pd.DataFrame(
             {
@@ -255,9 +257,11 @@ class Decoding:
         )
         at, code = found.pop("contact"), found.pop("surface")
         code_names = np.array(codes, dtype=object)
+        name_codes, names = pd.factorize(found["name"])
         picks = pd.DataFrame(
-            {"core": bounds["core"].to_numpy()[at], "surface": code_names[code]}
+            {"core": take_text(bounds["core"], at), "surface": text_column(codes, code)}
             | found
+            | {"name": text_column(list(names), name_codes)}
             | {"segment": bounds["segment"].to_numpy()[at].astype(int)}
         )
         rank = np.argsort(np.argsort(code_names.astype(str), kind="stable"))
@@ -268,23 +272,24 @@ class Decoding:
         """The decoded beds of whole cores in depth order: ``core``, ``segment``, the
         described columns, then the tract and its posteriors (an interpreter's ``tract``
         kept as ``interpreted_tract``)."""
-        tracts = np.asarray(self.states_.tracts, dtype=object)
         rows = flow.order
         names = list(part.beds.columns)
-        added = {"tract": tracts[vit[rows]]} | {
-            f"p_{t}": gamma[rows, j] for j, t in enumerate(self.states_.tracts)
+        posterior = gamma[rows]
+        added = {"tract": text_column(list(self.states_.tracts), vit[rows])} | {
+            f"p_{t}": posterior[:, j] for j, t in enumerate(self.states_.tracts)
         }
         renamed = {"tract": "interpreted_tract"}  # an interpreter's column: kept, never used
         first = ["top", "base", "thickness", "facies"]
         order = [c for c in first if c in names] + [
             c for c in names if c not in (*first, "segment", *added) or c == "tract"
         ]
+        succession = np.repeat(np.arange(len(part.lengths)), part.lengths)[rows]
         columns = {
-            "core": np.repeat(part.cores, part.lengths)[rows],
-            "segment": np.repeat(part.segments, part.lengths)[rows],
+            "core": text_column(list(part.cores), succession),
+            "segment": part.segments[succession],
         }
         for c in order:
-            columns[renamed.get(c, c)] = part.beds[c].to_numpy()[rows]
+            columns[renamed.get(c, c)] = take_text(part.beds[c], rows)
         return pd.DataFrame(columns | added)
 
 

@@ -96,15 +96,18 @@ class EncodedBeds:
 
 
 def _codes(values: pd.Series, vocabulary: Sequence[str]) -> np.ndarray:
-    """Index of each value in ``vocabulary``; -1 missing (blank or NaN), -2 not in it."""
-    text = values.astype("string").str.strip()
-    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
-    out = pd.Index(list(vocabulary), dtype=object).get_indexer(
+    """Index of each value in ``vocabulary``; -1 missing (blank or NaN), -2 not in it.
+    Each distinct value is read once (a bed's facies or contact is one of a few)."""
+    ids, distinct = pd.factorize(values, use_na_sentinel=True)  # NaN and None: -1
+    text = pd.Series(np.asarray(distinct, dtype=object), dtype=object)
+    text = text.astype("string").str.strip()
+    missing = (text.isna() | (text == "") | (text.str.lower() == "nan")).to_numpy(dtype=bool)
+    found = pd.Index(list(vocabulary), dtype=object).get_indexer(
         text.where(~missing).astype(object).to_numpy()
     )
-    out = np.asarray(out, dtype=np.int64)
-    out[(out < 0) & ~missing.to_numpy(dtype=bool)] = UNSEEN
-    return out
+    found = np.asarray(found, dtype=np.int64)
+    found[(found < 0) & ~missing] = UNSEEN
+    return np.append(found, MISSING)[ids]
 
 
 def encode_beds(
@@ -192,6 +195,10 @@ def encode_beds(
 def _column(tables: Sequence[pd.DataFrame], name: str, fill: object = np.nan) -> pd.Series:
     """Column ``name`` of every table, joined (``fill`` where a table lacks it): one
     array per table and column, never a frame per table."""
+    if len(tables) == 1 and name in tables[0].columns:
+        column = tables[0][name]
+        if isinstance(column.dtype, pd.StringDtype) or column.dtype.kind in "fiu":
+            return column.reset_index(drop=True)  # as the joined arrays would read
     parts = [
         t[name].to_numpy() if name in t.columns else np.full(len(t), fill, dtype=object)
         for t in tables

@@ -13,19 +13,39 @@ from a bed to the bed above it. One module per concept:
 - :mod:`~faciesseq.markov.analysis` — :func:`analyse` bundles it all in a :class:`MarkovReport`.
 """
 
-from faciesseq.markov.analysis import SCHEMA, MarkovReport, analyse, analyse_batches
-from faciesseq.markov.contingency import ContingencyResult, TestResult, independence_test
-from faciesseq.markov.counts import (
-    encode,
-    fixed_vector,
-    n_step,
-    ngram_counts,
-    transition_counts,
-    transition_probabilities,
-)
-from faciesseq.markov.homogeneity import HomogeneityResult, homogeneity_test
-from faciesseq.markov.order import OrderResult, order_analysis
-from faciesseq.markov.screening import Screening, leave_out_irregular, screen_cores
+from importlib import import_module
+
+#: Where each name lives: a submodule is imported when one of its names is first used,
+#: so that reading the screening of irregular cores does not import the statistics.
+_HOMES = {
+    "analysis": ("SCHEMA", "MarkovReport", "analyse", "analyse_batches"),
+    "contingency": ("ContingencyResult", "TestResult", "independence_test"),
+    "counts": (
+        "encode",
+        "fixed_vector",
+        "n_step",
+        "ngram_counts",
+        "transition_counts",
+        "transition_probabilities",
+    ),
+    "homogeneity": ("HomogeneityResult", "homogeneity_test"),
+    "order": ("OrderResult", "order_analysis"),
+    "screening": ("Screening", "leave_out_irregular", "screen_cores"),
+}
+_HOME_OF = {name: module for module, names in _HOMES.items() for name in names}
+
+
+def __getattr__(name: str):
+    if name not in _HOME_OF:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(import_module(f"{__name__}.{_HOME_OF[name]}"), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted([*globals(), *_HOME_OF])
+
 
 __all__ = [
     "SCHEMA",

@@ -1,60 +1,330 @@
 """CSV text of result tables, as ``DataFrame.to_csv(index=False, float_format="%.6g")``.
 
 The tables ``decode`` writes hold millions of rows of numbers and a few text
-columns. pandas formats them one cell at a time through several layers; here each
-column is formatted once (numbers with ``%`` in one pass, each distinct text
-once, quoted as the :mod:`csv` module quotes it) and the rows joined, byte for
-byte the text pandas writes. Columns of other kinds (dates, mixed objects) are
-left to pandas.
+columns. pandas formats them one cell at a time through several layers; here a
+block of rows is laid out as a matrix of bytes, one fixed-width field per column
+(eight-byte words, the cells padded with NUL bytes, the separator in the field's
+last byte), filled a column at a time by array arithmetic on the words, and the
+padding dropped: byte for byte the text pandas writes. Numbers are written
+as ``%.6g`` writes them (the six significant digits found by scaling and rounding;
+the rare cell whose scaled value lies too near a half to round safely in floating
+point, and cells out of the scaled range, are formatted by ``%`` itself); each
+distinct text is quoted once, as the :mod:`csv` module quotes it. Columns of other
+kinds (dates, nullable numbers, mixed objects) and text holding a NUL byte are left
+to pandas.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+from collections.abc import Iterator
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["FLOAT_FORMAT", "csv_text"]
+__all__ = ["FLOAT_FORMAT", "csv_blocks", "csv_bytes", "csv_text"]
 
 #: Format of floating-point cells (6 significant digits).
 FLOAT_FORMAT = "%.6g"
+#: Significant digits of :data:`FLOAT_FORMAT`.
+DIGITS = 6
+#: Bytes of the matrix of one block of rows, at most (about).
+BLOCK_BYTES = 1 << 24
+
+_NUL, _MINUS, _DOT, _ZERO = 0, ord("-"), ord("."), ord("0")
+#: Little-endian eight-byte words: byte ``i`` of a word is bits ``8i`` to ``8i + 7``.
+_WORD = np.dtype("<u8")
+#: Scaled by 10**k outside this range, a value is left to ``%`` (no overflow of 10**k).
+_SCALED_RANGE = (1e-290, 1e290)
+#: A scaled value this near a half is rounded by ``%``, not by floating point.
+_TIE_MARGIN = 1e-6
 
 
 def csv_text(frame: pd.DataFrame, header: bool = True) -> str:
     """The rows of ``frame`` (and its header line) as CSV text, without the index."""
-    cells = [_cells(frame[c]) for c in frame.columns] if frame.columns.is_unique else [None]
-    if any(c is None for c in cells):
-        return frame.to_csv(index=False, header=header, float_format=FLOAT_FORMAT)
-    lines = [",".join(_quote(str(c)) for c in frame.columns)] if header else []
-    if len(frame):
-        lines.append("\n".join(map(",".join, zip(*cells))))
-    return "\n".join(lines) + "\n" if lines else ""
+    return csv_bytes(frame, header).decode("utf-8")
 
 
-def _cells(column: pd.Series) -> list[str] | None:
-    """The cells of one column as text, or None for a kind left to pandas."""
-    kind = column.dtype.kind if isinstance(column.dtype, np.dtype) else None
-    values = column.to_numpy()
-    if kind == "f":
-        text = [FLOAT_FORMAT % v for v in values.tolist()]
-        for k in np.flatnonzero(np.isnan(values)):
-            text[k] = ""
-        return text
-    if kind in ("i", "u", "b"):
-        return list(map(str, values.tolist()))
-    if kind == "O" or isinstance(column.dtype, pd.StringDtype):
-        return _text_cells(column)
-    return None
+def csv_bytes(frame: pd.DataFrame, header: bool = True) -> bytes:
+    """:func:`csv_text` encoded as UTF-8."""
+    return b"".join(csv_blocks(frame, header))
 
 
-def _text_cells(column: pd.Series) -> list[str] | None:
-    codes, distinct = pd.factorize(column.astype(object), use_na_sentinel=True)
-    if not all(isinstance(v, str) for v in distinct):
+def csv_blocks(frame: pd.DataFrame, header: bool = True) -> Iterator[bytes]:
+    """:func:`csv_bytes` a block of rows (about :data:`BLOCK_BYTES` laid out) at a time,
+    to be written as they come."""
+    fields = [_Field.of(frame[c]) for c in frame.columns] if frame.columns.is_unique else [None]
+    if len(fields) < 2 or any(f is None for f in fields):  # one column: "" for a blank row
+        yield frame.to_csv(index=False, header=header, float_format=FLOAT_FORMAT).encode("utf-8")
+        return
+    if header:
+        yield (",".join(_quote(str(c)) for c in frame.columns) + "\n").encode("utf-8")
+    width = sum(f.width for f in fields)
+    step = max(1, BLOCK_BYTES // width)
+    buffer = np.empty((min(step, len(frame)), width), dtype=np.uint8)
+    for start in range(0, len(frame), step):
+        stop = min(start + step, len(frame))
+        block = buffer[: stop - start]
+        at = 0
+        for field in fields:
+            field.fill(block[:, at : at + field.width], start, stop)
+            at += field.width
+            block[:, at - 1] = ord(",")
+        block[:, -1] = ord("\n")
+        yield block.tobytes().translate(None, b"\x00")
+
+
+class _Field:
+    """One column's cells, written into the first ``width - 1`` bytes of a block of
+    rows (``width`` a whole number of words; the last byte is the separator's)."""
+
+    width: int
+
+    @staticmethod
+    def of(column: pd.Series) -> _Field | None:
+        """The field of ``column``, or None for a kind left to pandas."""
+        dtype = column.dtype
+        if isinstance(dtype, np.dtype) and dtype.kind == "f":
+            return _FloatField(column.to_numpy(np.float64))
+        if isinstance(dtype, np.dtype) and dtype.kind in "iu":
+            return _IntField(column.to_numpy())
+        if isinstance(dtype, np.dtype) and dtype.kind == "b":
+            return _TextField.of_codes(column.to_numpy().astype(np.intp), ["False", "True"])
+        if isinstance(dtype, pd.CategoricalDtype):
+            codes = np.asarray(column.cat.codes, dtype=np.intp)
+            return _TextField.of_codes(codes, list(dtype.categories))
+        if isinstance(dtype, pd.StringDtype) and dtype.storage == "pyarrow":
+            return _TextField.of_arrow(column)
+        if dtype == np.dtype(object) or isinstance(dtype, pd.StringDtype):
+            codes, distinct = pd.factorize(column, use_na_sentinel=True)
+            return _TextField.of_codes(np.asarray(codes, dtype=np.intp), list(distinct))
         return None
-    quoted = np.array([*map(_quote, distinct), ""], dtype=object)
-    return quoted[codes].tolist()  # code -1 (missing) is the last: blank
+
+    def fill(self, block: np.ndarray, start: int, stop: int) -> None:
+        raise NotImplementedError
+
+
+class _TextField(_Field):
+    """Each distinct text quoted and encoded once, taken by code (-1: blank)."""
+
+    def __init__(self, codes: np.ndarray, table: np.ndarray):
+        self.codes = codes
+        self.width = table.shape[1]
+        self.table = table.view(f"V{self.width}").ravel()  # a row as one item
+
+    @classmethod
+    def of_codes(cls, codes: np.ndarray, distinct: list) -> _TextField | None:
+        if not all(isinstance(v, str) for v in distinct):
+            return None
+        encoded = [_quote(v).encode("utf-8") for v in distinct] + [b""]
+        if any(b"\x00" in e for e in encoded):
+            return None
+        width = _words(max(map(len, encoded)) + 1)
+        table = np.zeros((len(encoded), width), dtype=np.uint8)
+        for k, e in enumerate(encoded):
+            table[k, : len(e)] = np.frombuffer(e, dtype=np.uint8)
+        return cls(codes, table)
+
+    @classmethod
+    def of_arrow(cls, column: pd.Series) -> _TextField | None:
+        """The field of an Arrow-backed text column: its distinct texts laid out from
+        Arrow's buffers at once where none needs quoting (nor holds a NUL byte)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        values = pa.array(column.array)
+        if isinstance(values, pa.ChunkedArray):
+            values = values.combine_chunks()
+        encoded = pc.dictionary_encode(values)
+        codes = encoded.indices.fill_null(-1).to_numpy().astype(np.intp)
+        distinct = encoded.dictionary.cast(pa.large_string())
+        if (
+            len(distinct) == 0
+            or pc.any(pc.match_substring_regex(distinct, '[,"\\r\\n\\x00]')).as_py()
+        ):
+            return cls.of_codes(codes, distinct.to_pylist())
+        _, offsets, data = distinct.buffers()
+        offsets = np.frombuffer(offsets, dtype=np.int64)[distinct.offset :][: len(distinct) + 1]
+        data = np.frombuffer(data, dtype=np.uint8)[offsets[0] : offsets[-1]]
+        lengths = np.diff(offsets)
+        table = np.zeros((len(distinct) + 1, _words(int(lengths.max()) + 1)), dtype=np.uint8)
+        rows = np.repeat(np.arange(len(distinct)), lengths)
+        table[rows, np.arange(len(data)) - (offsets[:-1] - offsets[0])[rows]] = data
+        return cls(codes, table)
+
+    def fill(self, block: np.ndarray, start: int, stop: int) -> None:
+        # code -1 (missing) takes the last row: blank
+        block.view(f"V{self.width}")[:, 0] = self.table[self.codes[start:stop]]
+
+
+class _IntField(_Field):
+    """Integers as ``str`` writes them: the sign and places 19..15 in the first word,
+    five places in each of the next three, the places before the first digit blanked."""
+
+    width = 32
+
+    def __init__(self, values: np.ndarray):
+        if values.dtype.kind == "u" and values.size and values.max() > np.iinfo(np.int64).max:
+            values = values.astype(object)  # beyond int64: by str, below
+        self.values = values
+
+    def fill(self, block: np.ndarray, start: int, stop: int) -> None:
+        values = self.values[start:stop]
+        if values.dtype == object or (values.size and values.min() == np.iinfo(np.int64).min):
+            _put_text(block, np.arange(len(values)), list(map(str, values.tolist())))
+            return
+        values = values.astype(np.int64)
+        size = np.abs(values)
+        blank = 20 - np.maximum(_digit_count(size), 1)  # places before the first digit
+        words = block.view(_WORD)
+        sign = np.where(values < 0, _MINUS, _NUL).astype(np.uint64)
+        first = _FIVE_DIGITS[size // 10**15] << np.uint64(8)
+        words[:, 0] = (first & _BLANK_FROM_1[np.minimum(blank, 5)]) | sign
+        for k in range(1, 4):
+            group = _FIVE_DIGITS[size // 10 ** (15 - 5 * k) % 100_000]
+            words[:, k] = group & _BLANK_FROM_0[np.clip(blank - 5 * k, 0, 5)]
+
+
+class _FloatField(_Field):
+    """Floating-point numbers as ``%.6g`` writes them; NaN blank.
+
+    Fixed notation (exponent -4 to 5) is the integer ``value * 1e9`` (at most 15
+    digits) in three words: the sign and places 5..1; place 0, the point and places
+    -1..-4; places -5..-9; the places before the first significant digit (but the
+    units) and after the last (but the integer part) blanked. Exponent notation is
+    ``d[.ddddd]e+XX`` in the same three words."""
+
+    width = 24
+
+    def __init__(self, values: np.ndarray):
+        self.values = values
+
+    def fill(self, block: np.ndarray, start: int, stop: int) -> None:
+        values = self.values[start:stop]
+        size = np.abs(values)
+        with np.errstate(invalid="ignore"):
+            scaled = (size >= _SCALED_RANGE[0]) & (size <= _SCALED_RANGE[1])
+        size[~scaled] = 1.0  # the others are formatted by hand, below
+        exponent = np.floor(np.log10(size))
+        mantissa = _scale(size, exponent)
+        off = (mantissa >= 10.0**DIGITS) | (mantissa < 10.0 ** (DIGITS - 1))
+        if off.any():  # log10 a hair off at a power of ten: one step either way
+            exponent[off] += np.where(mantissa[off] >= 10.0**DIGITS, 1.0, -1.0)
+            mantissa[off] = _scale(size[off], exponent[off])
+        rounded = np.floor(mantissa + 0.5)
+        above = mantissa + 0.5 - rounded  # where the mantissa lies past the half below
+        near_half = (above < _TIE_MARGIN) | (above > 1.0 - _TIE_MARGIN)
+        spilled = rounded >= 10.0**DIGITS  # 999999.5 rounds to 1e6: one more place
+        if spilled.any():
+            exponent[spilled] += 1.0
+            rounded[spilled] = 10.0 ** (DIGITS - 1)
+        exponent = exponent.astype(np.int64)
+        # the place of the last significant digit once trailing zeros go
+        last = exponent - (DIGITS - 1) + _TRAILING_ZEROS[_remainder(rounded, 1e5)]
+
+        # fixed notation, from the digits of value * 1e9 (exact in floating point);
+        # the rows in exponent notation are written over below
+        fixed = (exponent >= -4) & (exponent < DIGITS)
+        whole = rounded * _POW10[:10].take(exponent + 4, mode="clip")
+        high = np.floor(whole / 1e10)
+        whole -= high * 1e10
+        middle = np.floor(whole / 1e5)
+        whole -= middle * 1e5
+        sign = np.where(np.signbit(values) & ~np.isnan(values), _MINUS, _NUL).astype(np.uint64)
+        words = block.view(_WORD)
+        integer = _FIVE_DIGITS[high.astype(np.intp)] << np.uint64(8)
+        words[:, 0] = integer & _BLANK_FROM_1.take(5 - exponent, mode="clip") | sign
+        middle = _FIVE_DIGITS[middle.astype(np.intp)]
+        point = np.where(last < 0, _DOT << 8, _NUL).astype(np.uint64)
+        decimals = (middle & ~np.uint64(0xFF)) << np.uint64(8)
+        decimals &= _KEEP_TO[2:].take(-last, mode="clip")
+        words[:, 1] = (middle & np.uint64(0xFF)) | point | decimals
+        words[:, 2] = _FIVE_DIGITS[whole.astype(np.intp)] & _KEEP_TO.take(-last - 4, mode="clip")
+        digits = rounded.astype(np.int64)
+
+        sci = ~fixed & scaled
+        if sci.any():
+            at = np.flatnonzero(sci)
+            power = exponent[at]
+            shown = np.clip(power - last[at], 0, 5)  # digits after the point
+            head = np.uint64(_ZERO) + (digits[at] // 10**5).astype(np.uint64)
+            point = np.where(shown > 0, _DOT, _NUL).astype(np.uint64)
+            words[at, 0] = sign[at] | head << np.uint64(8) | point << np.uint64(16)
+            words[at, 1] = _FIVE_DIGITS[digits[at] % 10**5] & _KEEP_TO[shown]
+            tail = np.where(power < 0, _MINUS, ord("+")) << 8
+            power = np.abs(power)
+            tail |= np.where(power >= 100, _ZERO + power // 100 % 10, _NUL) << 16
+            tens = (_ZERO + power // 10 % 10) << np.where(power >= 100, 24, 16)
+            ones = (_ZERO + power % 10) << np.where(power >= 100, 32, 24)
+            words[at, 2] = (ord("e") | tail | tens | ones).astype(np.uint64)
+
+        zero = values == 0
+        if zero.any():
+            words[zero, 0] = sign[zero]
+            words[zero, 1] = _ZERO
+            words[zero, 2] = 0
+        missing = np.isnan(values)
+        if missing.any():
+            words[missing] = 0
+        by_hand = (~scaled | near_half) & ~missing & ~zero
+        if by_hand.any():
+            at = np.flatnonzero(by_hand)
+            _put_text(block, at, [FLOAT_FORMAT % v for v in values[at].tolist()])
+
+
+def _words(size: int) -> int:
+    """``size`` bytes rounded up to whole words."""
+    return -(-size // 8) * 8
+
+
+#: ASCII digits of 0 to 99,999, five places, in the first five bytes of a word.
+_FIVE_DIGITS = (
+    (
+        (_ZERO + np.arange(100_000)[:, None] // 10 ** np.arange(4, -1, -1)[None, :] % 10)
+        << (8 * np.arange(5))[None, :]
+    )
+    .sum(axis=1)
+    .astype(np.uint64)
+)
+#: ``_KEEP_TO[k]``: a word's bytes 0 to k - 1 kept, the rest blanked.
+_KEEP_TO = np.array([(1 << (8 * k)) - 1 for k in range(9)], dtype=np.uint64)
+#: ``_BLANK_FROM_0[k]``: a word's bytes 0 to k - 1 blanked.
+_BLANK_FROM_0 = ~_KEEP_TO
+#: ``_BLANK_FROM_1[k]``: a word's bytes 1 to k blanked (byte 0, the sign, kept), k <= 5.
+_BLANK_FROM_1 = ~(_KEEP_TO[:6] << np.uint64(8)) | np.uint64(0xFF)
+_POW10_INT = 10 ** np.arange(10, dtype=np.int64)
+_POW10 = 10.0 ** np.arange(309)  # exact up to 1e22
+
+
+#: Trailing zeros of 0 to 99,999 written in five places (five for 0).
+_TRAILING_ZEROS = sum(np.arange(100_000) % 10**place == 0 for place in range(1, 6))
+
+
+def _remainder(whole: np.ndarray, divisor: float) -> np.ndarray:
+    """``whole % divisor`` of whole numbers held as floats, as array indices."""
+    return (whole - np.floor(whole / divisor) * divisor).astype(np.intp)
+
+
+def _digit_count(size: np.ndarray) -> np.ndarray:
+    """Decimal digits of each non-negative integer (0 for 0)."""
+    count = np.zeros(len(size), dtype=np.int64)
+    for place in range(19):
+        count += size >= 10**place
+    return count
+
+
+def _scale(size: np.ndarray, exponent: np.ndarray) -> np.ndarray:
+    """``size * 10 ** (DIGITS - 1 - exponent)``, by a power of ten (exact up to 1e22)."""
+    shift = (DIGITS - 1 - exponent).astype(np.intp)
+    return size * _POW10.take(shift, mode="clip") / _POW10.take(-shift, mode="clip")
+
+
+def _put_text(block: np.ndarray, rows: np.ndarray, texts: list[str]) -> None:
+    """Write ``texts`` (ASCII, shorter than the field) into ``rows`` of a field."""
+    block[rows] = 0
+    for row, text in zip(rows.tolist(), texts):
+        block[row, : len(text)] = np.frombuffer(text.encode("ascii"), dtype=np.uint8)
 
 
 def _quote(value: str) -> str:

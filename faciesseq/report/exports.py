@@ -25,7 +25,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL
+from faciesseq.core import DEPTH_TOL, take_text
 from faciesseq.errors import ConfigError
 
 __all__ = [
@@ -67,22 +67,20 @@ def tops_table(interp) -> pd.DataFrame:
     picks = interp.picks
     if not len(picks):
         return pd.DataFrame(columns=list(TOPS_COLUMNS))
-    well = picks["core"].to_numpy(object)
-    position = interp.wells.index.get_indexer(well)
-    depth = picks["depth"].to_numpy(float)
-    table = pd.DataFrame(
+    position = interp.wells.index.get_indexer(picks["core"])
+    order = np.lexsort((picks["depth"].to_numpy(float), position))
+    return pd.DataFrame(
         {
-            "well": well,
-            "surface": picks["surface"].to_numpy(),
-            "name": picks["name"].to_numpy(),
-            "depth": depth,
-            "depth_top": picks["depth_top"].to_numpy(float),
-            "depth_base": picks["depth_base"].to_numpy(float),
-            "probability": picks["probability"].to_numpy(float),
-            "units": interp.wells["units"].to_numpy(object)[position],
+            "well": take_text(picks["core"], order),
+            "surface": take_text(picks["surface"], order),
+            "name": take_text(picks["name"], order),
+            "depth": picks["depth"].to_numpy(float)[order],
+            "depth_top": picks["depth_top"].to_numpy(float)[order],
+            "depth_base": picks["depth_base"].to_numpy(float)[order],
+            "probability": picks["probability"].to_numpy(float)[order],
+            "units": take_text(interp.wells["units"], position[order]),
         }
     )
-    return table.take(np.lexsort((depth, position))).reset_index(drop=True)
 
 
 def _bed_index(beds: pd.DataFrame, depth: np.ndarray) -> np.ndarray:
