@@ -25,7 +25,8 @@ DATA = Path(__file__).parent / "data" / "council_grove"
 
 
 @pytest.fixture(scope="module")
-def decoded():
+def wells():
+    """The Council Grove wells as sample logs, without the pseudo-well Recruit F9."""
     cores = read_cores(
         DATA / "facies_vectors_subset.csv",
         layout="samples",
@@ -34,7 +35,12 @@ def decoded():
         repeated_depths="keep-first",
         scheme=DATA / "scheme.yaml",
     )
-    cores = cores.subset([n for n in cores.names if n != "Recruit F9"])
+    return cores.subset([n for n in cores.names if n != "Recruit F9"])
+
+
+@pytest.fixture(scope="module")
+def decoded(wells):
+    cores = wells
     # the bed-level pieces on the permissive graph (the context default: see docs/hmm.md)
     model = TractHMM(
         scheme=load_scheme(DATA / "scheme.yaml"),
@@ -64,7 +70,7 @@ def test_the_transgressive_tract_lies_in_marine_half_cycles(decoded):
     assert np.sum(w * marine) / np.sum(w) >= 0.9
 
 
-def test_without_labels_the_half_cycle_boundaries_follow_the_exposure_surfaces():
+def test_without_labels_the_half_cycle_boundaries_follow_the_exposure_surfaces(wells):
     # The scheme marks the redbeds (facies 1-3) as the record of the shelf's subaerial
     # exposure, so the fit without labels reads them in the falling stage and lowstand
     # and the marine bed on them as the transgressive surface (Van Wagoner et al. 1990;
@@ -73,15 +79,7 @@ def test_without_labels_the_half_cycle_boundaries_follow_the_exposure_surfaces()
     # 0.93 (0.70 / 0.64 before the exposure reading; benchmarks/tract_model.md).
     from faciesseq.scores import boundary_f1, half_cycle_boundaries
 
-    cores = read_cores(
-        DATA / "facies_vectors_subset.csv",
-        layout="samples",
-        columns={"core": "Well Name", "depth": "Depth", "facies": "Facies"},
-        units="ft",
-        repeated_depths="keep-first",
-        scheme=DATA / "scheme.yaml",
-    )
-    cores = cores.subset([n for n in cores.names if n != "Recruit F9"])
+    cores = wells
     model = TractHMM(scheme=load_scheme(DATA / "scheme.yaml"), random_state=0).fit(cores)
     assert "exposure" in model.features_
     truth = half_cycle_boundaries(cores.to_frame(), column="NM_M", marine=(2,))
