@@ -257,6 +257,23 @@ def test_turning_the_names_round_the_cycle_moves_the_deepening_state(fitted):
     assert all(r["named"] for r in model.restarts_ if r["restart"] == model.best_restart_)
 
 
+def test_a_fit_whose_restarts_cannot_be_named_or_turned_keeps_the_best(monkeypatch):
+    # no restart puts the deepening state on the TST and none can be turned round
+    # the cycle (a graph with skips): the best restart is kept, not a crash
+    import faciesseq.hmm.identity as identity
+
+    train, _ = _cores([41])
+    monkeypatch.setattr(identity, "deepening_scores", lambda pieces, n: np.arange(n)[::-1] * 1.0)
+    monkeypatch.setattr(identity, "turn", lambda *args: None)
+    model = TractHMM(scheme=SCHEME, random_state=1, n_restarts=2, graph="fixed")
+    model.calibration_folds = 0
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model.fit(train)
+    best = max(model.restarts_, key=lambda r: r["objective"])
+    assert model.best_restart_ == best["restart"] and len(model.restarts_) == 2
+
+
 def test_a_scheme_can_mark_facies_that_start_a_cycle():
     from faciesseq.errors import ConfigError
     from faciesseq.scheme import FaciesScheme

@@ -645,8 +645,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
         best = max(runs, key=lambda r: r["objective"])
         shift = int(np.argmax(scores[runs.index(best)])) - deep[0]
         start = turn(best["pieces"], best["startprob"], best["transmat"], self.states_, shift)
-        if start is None:
-            return runs
+        if start is None:  # no turned start to run from: every restart stays a candidate
+            return [{**r, "named": True} for r in runs]
         again = self._run(data, best["seed"], len(runs), progress, start)
         again.update(named=True, turned=shift)
         return [*runs, again]
