@@ -683,6 +683,34 @@ class TractHMM(ExpectationMaximisation, Decoding):
             raise InputError("no beds to fit the tract model on")
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
+        data, n_labelled = self._training_data(succ, labels)
+        rng = (
+            self.random_state
+            if isinstance(self.random_state, np.random.Generator)
+            else np.random.default_rng(self.random_state)
+        )
+        runs = self._restarts(data, rng, progress)
+        self._keep_best(self._named_runs(runs, data, progress))
+        self.n_train_beds_ = len(data.beds)
+        self.n_labelled_ = n_labelled
+        self.cores_ = tuple(dict.fromkeys(data.cores))
+        self.graph_selection_ = []
+        # The parameters of the last E-step are the returned ones, so the
+        # recorded log-likelihood belongs to them.
+        self.temperature_ = 1.0
+        self.calibration_ = {"skipped": "no labelled beds"}
+        if data.clamp is not None and n_labelled:
+            from faciesseq.hmm.calibration import calibrate_by_folds
+
+            self.calibration_ = calibrate_by_folds(self, succ, data.clamp, rng)
+            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+        else:
+            self._calibrate_without_labels(succ, rng, data.beds)
+        return self
+
+    def _training_data(self, succ: SuccessionTable, labels) -> tuple[TrainingData, int]:
+        """States, features, vocabularies and encoded beds of a fit; the number of
+        labelled beds."""
         tables, lengths = _bed_tables(succ)
         cores = tuple(succ.cores) if lengths is not None else tuple(s.core for s in succ)
         self._default_graph = None
@@ -718,34 +746,27 @@ class TractHMM(ExpectationMaximisation, Decoding):
             else None
         )
         trained = self._train_static(beds, clamp)
-        data = TrainingData(
-            beds,
-            clamp,
-            ranks,
-            rule,
-            cores,
-            self._static_log_prob(list(trained.values()), beds),
-            trained,
-        )
-        rng = (
-            self.random_state
-            if isinstance(self.random_state, np.random.Generator)
-            else np.random.default_rng(self.random_state)
-        )
+        static = self._static_log_prob(list(trained.values()), beds)
+        return TrainingData(beds, clamp, ranks, rule, cores, static, trained), n_labelled
+
+    def _restarts(self, data: TrainingData, rng: np.random.Generator, progress) -> list[dict]:
+        """The EM runs of a fit: one per restart seed, or one from a fit on a sample."""
         seeds = [int(x) for x in rng.integers(0, 2**31 - 1, size=int(self.n_restarts))]
         warm = self._warm_start_from(getattr(self, "warm_start_", None))
         if warm is not None:  # one run from a fit on a sample (graphs.choose_graph)
-            runs = [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
-            self._refit_beds = beds  # for the calibration of _fit_choosing_graph
-        elif self._parallel() and len(seeds) > 1:
+            self._refit_beds = data.beds  # for the calibration of _fit_choosing_graph
+            return [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
+        if self._parallel() and len(seeds) > 1:
             jobs = [(data, s, r, None) for r, s in enumerate(seeds)]
             runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
             if progress is not None:  # once per finished restart
                 for r, run in enumerate(runs):
                     progress(r, run["monitor"].iter, run["objective"])
-        else:
-            runs = [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
-        runs = self._named_runs(runs, data, progress)
+            return runs
+        return [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
+
+    def _keep_best(self, runs: list[dict]) -> None:
+        """The parameters of the best named run, and a record of every run."""
         kept = [r for r in range(len(runs)) if runs[r].get("named", True)]
         best = max(kept, key=lambda r: runs[r]["objective"])
         run = runs[best]
@@ -771,22 +792,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
             }
             for r, x in enumerate(runs)
         ]
-        self.n_train_beds_ = len(beds)
-        self.n_labelled_ = n_labelled
-        self.cores_ = tuple(dict.fromkeys(cores))
-        self.graph_selection_ = []
-        # The parameters of the last E-step are the returned ones, so the
-        # recorded log-likelihood belongs to them.
-        self.temperature_ = 1.0
-        self.calibration_ = {"skipped": "no labelled beds"}
-        if clamp is not None and n_labelled:
-            from faciesseq.hmm.calibration import calibrate_by_folds
-
-            self.calibration_ = calibrate_by_folds(self, succ, clamp, rng)
-            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
-        else:
-            self._calibrate_without_labels(succ, rng, beds)
-        return self
 
     def _warm_start_from(self, other: TractHMM | None) -> tuple | None:
         """``(pieces, startprob, transmat)`` copied from ``other``, a fit of the same
