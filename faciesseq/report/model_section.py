@@ -301,23 +301,9 @@ def parameters_note(n_parameters: int, n_beds: int) -> str:
     )
 
 
-def model_section(
-    model: Any,
-    tract_model: TractModel,
-    validation: Any = None,
-    note: str = "",
-    selection: Any = None,
-    scheme: Any = None,
-    validation_reason: str = "no interpreted (labelled) cores to validate against",
-    validation_notes: Sequence[str] = (),
-    fit_notes: Sequence[str] = (),
-) -> tuple[Section, dict[str, Any]]:
-    """The tract-model section and the numbers behind it (``model``, ``validation``)."""
+def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict) -> None:
+    """What was fitted, on what, and how its probabilities were checked."""
     from faciesseq.hmm.calibration import describe_calibration
-    from faciesseq.report import figures
-
-    s = Section("The tract model")
-    numbers: dict[str, Any] = {}
     from faciesseq.hmm.modelfile import model_to_dict
 
     doc = model_to_dict(model)
@@ -336,7 +322,6 @@ def model_section(
             )
         )
     states = model.states_
-    labels = states.labels()
     bic = None
     # with interpreted beds held to their tracts the training likelihood is not that of
     # the beds alone, so no BIC is formed from it (the candidates' table has the BIC)
@@ -367,7 +352,13 @@ def model_section(
     if crowded:
         s.add(Paragraph(crowded, kind="note"))
     s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
-    graph = s.sub("Tract graph")
+
+
+def _graph_blocks(graph: Section, model: Any, tract_model: TractModel) -> None:
+    """The tracts, their surfaces and the fitted tract graph."""
+    from faciesseq.report import figures
+
+    states = model.states_
     tracts = pd.DataFrame(
         [
             {
@@ -410,7 +401,15 @@ def model_section(
             figures.tract_graph(tract_model, T),
         ),
     )
-    params = s.sub("Transition and emission parameters")
+
+
+def _parameter_blocks(params: Section, model: Any, scheme) -> None:
+    """Start and transition probabilities of the states, and the emission tables."""
+    from faciesseq.report import figures
+
+    states = model.states_
+    labels = states.labels()
+    T = tract_transitions(model)
     A = pd.DataFrame(np.asarray(model.transmat_, dtype=float), index=labels, columns=labels)
     A.index.name = "from \\ to"
     start = pd.DataFrame(
@@ -450,7 +449,11 @@ def model_section(
         )
     _emission_blocks(model, params, scheme)  # their numbers are in the model-file document
 
-    diag = s.sub("Fitting diagnostics")
+
+def _diagnostic_blocks(diag: Section, model: Any, selection: Any, numbers: dict) -> None:
+    """The EM restarts, their traces and the candidate models."""
+    from faciesseq.report import figures
+
     restarts = pd.DataFrame(
         [
             {
@@ -507,9 +510,15 @@ def model_section(
         )
         numbers["selection"] = selection.to_dict()
 
-    val = s.sub("Cross-validation")
+
+def _validation_blocks(
+    val: Section, validation: Any, reason: str, notes: Sequence[str], numbers: dict
+) -> None:
+    """Cross-validation by core against the interpreters' tracts, where there is one."""
+    from faciesseq.report import figures
+
     if validation is None:
-        val.add(Paragraph(f"Not available: {validation_reason}.", kind="missing"))
+        val.add(Paragraph(f"Not available: {reason}.", kind="missing"))
     else:
         numbers["validation"] = validation.to_dict()
         frames = validation.to_frames()
@@ -596,20 +605,43 @@ def model_section(
                 figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
             ),
         )
-        if validation_notes:
+        if notes:
             val.add(
                 Paragraph(
-                    f"{len(validation_notes)} warning(s) while fitting and decoding the folds "
+                    f"{len(notes)} warning(s) while fitting and decoding the folds "
                     "(listed in full in tables/validation_warnings.csv); the first: "
-                    f"{validation_notes[0]}",
+                    f"{notes[0]}",
                     kind="note",
                 ),
                 TableBlock(
                     "validation_warnings",
                     "warnings raised during cross-validation",
-                    pd.DataFrame({"warning": list(validation_notes)}),
+                    pd.DataFrame({"warning": list(notes)}),
                     index=False,
                     shown=False,
                 ),
             )
+
+
+def model_section(
+    model: Any,
+    tract_model: TractModel,
+    validation: Any = None,
+    note: str = "",
+    selection: Any = None,
+    scheme: Any = None,
+    validation_reason: str = "no interpreted (labelled) cores to validate against",
+    validation_notes: Sequence[str] = (),
+    fit_notes: Sequence[str] = (),
+) -> tuple[Section, dict[str, Any]]:
+    """The tract-model section and the numbers behind it (``model``, ``validation``)."""
+    s = Section("The tract model")
+    numbers: dict[str, Any] = {}
+    _summary_blocks(s, model, note, fit_notes, numbers)
+    _graph_blocks(s.sub("Tract graph"), model, tract_model)
+    _parameter_blocks(s.sub("Transition and emission parameters"), model, scheme)
+    _diagnostic_blocks(s.sub("Fitting diagnostics"), model, selection, numbers)
+    _validation_blocks(
+        s.sub("Cross-validation"), validation, validation_reason, validation_notes, numbers
+    )
     return s, numbers
