@@ -183,7 +183,12 @@ class Decoding:
 
     def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
         """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
-        of one batch of whole successions (one job of :mod:`faciesseq.parallel`)."""
+        of one batch of whole successions (one job of :mod:`faciesseq.parallel`), with
+        one BLAS thread throughout (see :func:`~faciesseq.hmm.engine.single_thread_blas`)."""
+        with engine.single_thread_blas():
+            return self._decode_batch_alone(beds, clamp)
+
+    def _decode_batch_alone(self, beds: EncodedBeds, clamp: np.ndarray | None):
         le = self._log_emission(self.emissions_, beds)
         if clamp is not None:
             le = engine.constrained_log_emission(le, clamp[:, self.states_.state_tract])

@@ -59,6 +59,7 @@ __all__ = [
     "Posteriors",
     "constrained_log_emission",
     "forward_backward",
+    "single_thread_blas",
     "viterbi",
 ]
 
@@ -255,13 +256,18 @@ def _blas_controller():
     return ThreadpoolController()
 
 
-def _single_thread_blas() -> contextlib.AbstractContextManager:
+def single_thread_blas() -> contextlib.AbstractContextManager:
     """Run the recursions with one BLAS thread.
 
     The recursions make many small matrix products; a multi-threaded BLAS
     gains nothing on them and loses much when other processes load the
     cores (measured: one EM iteration on 1,000,000 observations took 0.30 s
-    instead of 0.71 s, best of 8, on a loaded 2-core machine).
+    instead of 0.71 s, best of 8, on a loaded 2-core machine). Between calls
+    OpenBLAS's idle threads wait by spinning, which is CPU time too: a caller
+    making many small products around the recursions (a decode's emissions,
+    posteriors summed per tract, surface probabilities) holds this for all of
+    them (the decoded outputs at 10^6 beds were the same byte for byte with
+    one thread and with two).
     """
     controller = _blas_controller()
     if controller is None:  # pragma: no cover
@@ -599,7 +605,7 @@ def forward_backward(
     >>> post.gamma.shape, round(float(post.gamma.sum()), 6)
     ((3, 2), 3.0)
     """
-    with _single_thread_blas():
+    with single_thread_blas():
         source = _Emissions(log_emission, codes)
         return _forward_backward(
             source, lengths, startprob, transmat, return_xi, batch_size, return_gamma
