@@ -199,9 +199,7 @@ class Decoding:
         loglik = (
             post.log_likelihood
             if self.temperature_ == 1.0
-            else engine.forward_backward(
-                le, beds.lengths, self.startprob_, self.transmat_
-            ).log_likelihood
+            else engine.log_likelihood(le, beds.lengths, self.startprob_, self.transmat_)
         )
         path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
         surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
