@@ -532,8 +532,9 @@ def _run(args: argparse.Namespace) -> int:
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
     model, scheme = _model(args)
-    stream = stream_source(args, scheme) if model.unit == "beds" else None
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
+    others = _attributes_used(args, model, labels)
+    stream = stream_source(args, scheme, others) if model.unit == "beds" else None
     with warnings_to_stderr("decode"):
         written = None
         if stream is not None:
@@ -559,6 +560,18 @@ def _run(args: argparse.Namespace) -> int:
         stream = sys.stderr if args.summary == "json" else sys.stdout
         print(sheet_note(Path(args.output)), file=stream)
     return 0
+
+
+def _attributes_used(args: argparse.Namespace, model, labels: str) -> set[str] | None:
+    """The bed attributes a decode with these options reads (the model's features, the
+    interpreter's column), or None (every column) where an output shows the beds'
+    attributes (LAS files, strip logs, the review sheet, the view, the JSON summary).
+    The other columns of a streamed file are never read: nothing written comes of them."""
+    if args.format == "las" or args.plot or args.review_sheet or args.view:
+        return None
+    if args.summary != "text":
+        return None
+    return {*model.features_, labels}
 
 
 def _write(args, model, scheme, parts, labels: str, sampled: bool) -> _Written:

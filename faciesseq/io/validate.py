@@ -578,9 +578,14 @@ def _attribute_columns(
         match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
     ]
     for col in list(match.others) + unused:
-        name = col if col not in _RESERVED else f"source_{col}"
-        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+        out[attribute_name(col)] = _numbers_where_all(src[col].reset_index(drop=True))
     return out
+
+
+def attribute_name(column: str) -> str:
+    """The name of a source column with no role in the interval table: its own, or
+    ``source_<name>`` where that name is the project's (``top``, ``facies``, ...)."""
+    return column if column not in _RESERVED else f"source_{column}"
 
 
 def _text(value: object, fix=None) -> str | None:
