@@ -208,3 +208,29 @@ def test_freed_memory_is_kept_unless_the_user_set_glibcs_thresholds(monkeypatch)
     monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", "131072")
     decode_cli._keep_freed_memory()
     assert calls == []
+
+
+def test_agreement_per_core_is_the_core_by_core_sum_to_the_last_bit():
+    """The thickness-weighted agreement of every core, taken for all cores at once, is
+    numpy's sum over each core's beds bit for bit (cores of 1 to 300 beds, a core of
+    zero thickness, unlabelled beds)."""
+    from types import SimpleNamespace
+
+    rng = np.random.default_rng(4)
+    sizes = [1, 3, 7, 8, 9, 16, 130, 300, 5]
+    core = np.repeat([f"C{k}" for k in range(len(sizes))], sizes)
+    thickness = rng.random(len(core)) * rng.choice([1e-3, 1.0, 1e3], len(core))
+    thickness[core == "C8"] = 0.0
+    tract = rng.choice(["HST", "LST"], len(core))
+    labels = rng.choice(["HST", "LST", ""], len(core))
+    beds = pd.DataFrame(
+        {"core": core, "thickness": thickness, "tract": tract, "interpreted_tract": labels}
+    )
+    table = decode_cli._agreement(SimpleNamespace(beds=beds), "interpreted_tract")
+    for row in table.itertuples():
+        mine = beds[(beds["core"] == row.core) & (beds["interpreted_tract"] != "")]
+        weight = mine["thickness"].to_numpy()
+        same = (mine["interpreted_tract"] == mine["tract"]).to_numpy()
+        expected = np.sum(weight * same) / np.sum(weight) if weight.sum() else np.nan
+        assert row.beds == len(mine)
+        assert np.array_equal(row.agreement_thickness, expected, equal_nan=True), row.core

@@ -183,6 +183,8 @@ def _agreement(interp, column: str):
     import numpy as np
     import pandas as pd
 
+    from faciesseq.surfaces import slice_sums
+
     beds = interp.beds
     if column not in beds.columns:
         return None
@@ -198,16 +200,17 @@ def _agreement(interp, column: str):
     ends = np.r_[starts[1:], len(rows)]
     counts = ends - starts
     agree = np.add.reduceat(same.astype(np.int64), starts) / counts
-    hit = []
-    for a, b in zip(starts.tolist(), ends.tolist()):
-        weight = w[a:b]
-        hit.append(np.sum(weight * same[a:b]) / np.sum(weight) if weight.sum() else np.nan)
+    # each core's sums as numpy sums its slice, to the last bit, all cores at once
+    weight = slice_sums(w, starts, counts)
+    agreeing = slice_sums(w * same, starts, counts)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        hit = np.where(weight != 0, agreeing / weight, np.nan)
     return pd.DataFrame(
         {
             "core": np.asarray(cores, dtype=object)[core_id[starts]],
             "beds": counts,
             "agreement_beds": agree.astype(float),
-            "agreement_thickness": np.array(hit, dtype=float),
+            "agreement_thickness": hit,
         }
     )
 
