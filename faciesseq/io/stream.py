@@ -95,7 +95,8 @@ class CoreStream:
     order; :meth:`summary` then holds what the whole file's core set says of itself
     (units, sources, and the problems about its depth units: the ``units`` and
     ``units-suspect`` warnings; every problem when read with ``valid=False``). Each
-    iteration reads the file again.
+    iteration reads the file again. ``names``: the header's; ``read``: the columns
+    converted (default all; see :func:`open_stream`), ``core_column`` indexing them.
 
     Raises (while iterating)
     ------------------------
