@@ -175,24 +175,44 @@ def find_cycles(
     return Cycles(bed_cycle, cyc_lengths, base, top, total)
 
 
-def _neighbour(values: np.ndarray, lengths: np.ndarray, shift: int) -> np.ndarray:
-    """``values`` of the cycle ``shift`` places up (+) or down (-) in the same succession."""
+def _neighbour(
+    values: np.ndarray, lengths: np.ndarray, shift: int, position: np.ndarray | None = None
+) -> np.ndarray:
+    """``values`` of the cycle ``shift`` places up (+) or down (-) in the same succession
+    (``NaN`` past either end of it), by slices: the rows of a succession are consecutive.
+    ``position``: :func:`_positions` of ``lengths``, where already made."""
     n = len(values)
-    seq = np.repeat(np.arange(len(lengths)), lengths)
-    idx = np.arange(n) + shift
-    ok = (idx >= 0) & (idx < n)
     out = np.full(n, np.nan)
-    ok[ok] &= seq[idx[ok]] == seq[ok]
-    out[ok] = values[idx[ok]]
+    k = abs(int(shift))
+    if k == 0:
+        out[:] = values
+        return out
+    if k >= n:
+        return out
+    position = _positions(lengths) if position is None else position
+    # rows i and i + k lie in one succession where row i + k is k or more rows into it
+    same = position[k:] >= k
+    if shift > 0:
+        out[: n - k] = np.where(same, values[k:], np.nan)
+    else:
+        out[k:] = np.where(same, values[: n - k], np.nan)
     return out
+
+
+def _positions(lengths: np.ndarray) -> np.ndarray:
+    """Each row's place in its succession (0 at its first row)."""
+    lengths = np.asarray(lengths, dtype=np.int64)
+    starts = np.cumsum(lengths) - lengths
+    return np.arange(int(lengths.sum())) - np.repeat(starts, lengths)
 
 
 def _window(values: np.ndarray, lengths: np.ndarray, half: int, how: str) -> np.ndarray:
     """Running min or max over ``half`` neighbours on each side, within a succession."""
     out = values.copy()
+    position = _positions(lengths)
     for k in range(1, half + 1):
         for shift in (-k, k):
-            other = _neighbour(values, lengths, shift)
+            other = _neighbour(values, lengths, shift, position)
             out = np.fmin(out, other) if how == "min" else np.fmax(out, other)
     return out
 
@@ -202,9 +222,10 @@ def _slope(values: np.ndarray, lengths: np.ndarray, half: int) -> np.ndarray:
     edges padded with the nearest value of the succession."""
     num = np.zeros(len(values))
     den = 0.0
+    position = _positions(lengths)
     for k in range(1, half + 1):
-        up = _neighbour(values, lengths, k)
-        down = _neighbour(values, lengths, -k)
+        up = _neighbour(values, lengths, k, position)
+        down = _neighbour(values, lengths, -k, position)
         up = np.where(np.isfinite(up), up, values)
         down = np.where(np.isfinite(down), down, values)
         num += k * (up - down)
@@ -321,9 +342,10 @@ def _running_mean(values: np.ndarray, lengths: np.ndarray, half: int) -> np.ndar
     """Mean of the known values over ``half`` neighbours on each side, within a succession."""
     total = np.nan_to_num(values)
     count = np.isfinite(values).astype(float)
+    position = _positions(lengths)
     for k in range(1, half + 1):
         for shift in (-k, k):
-            other = _neighbour(values, lengths, shift)
+            other = _neighbour(values, lengths, shift, position)
             ok = np.isfinite(other)
             total += np.where(ok, other, 0.0)
             count += ok

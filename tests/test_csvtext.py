@@ -65,3 +65,24 @@ def test_text_laid_out_from_arrow_buffers_is_the_text_pandas_writes():
     names = pd.array(["QB-01~00000", "", None, "Ørsted sand", "QB-01~00000", "x"], dtype="str")
     frame = pd.DataFrame({"core": names, "n": np.arange(6)}).iloc[1:]
     assert csv_text(frame) == frame.to_csv(index=False)
+
+
+def test_numbers_repeated_on_following_rows_are_the_text_pandas_writes():
+    """A value repeated on the next rows is written once and copied (as a contact's
+    depth on each surface's row): 0.0 beside -0.0, runs of NaN, runs across the
+    blocks of rows; pandas is the reference."""
+    import faciesseq.report.csvtext as csvtext
+
+    rng = np.random.default_rng(3)
+    values = np.repeat(rng.random(3000) * 10.0 ** rng.integers(-6, 8, 3000), 4)
+    values[:8] = [0.0, -0.0, -0.0, 0.0, np.nan, np.nan, 1e-5, 1e-5]
+    values[100:140] = 123456.5  # written by % itself, then copied
+    frame = pd.DataFrame({"depth": values, "p": np.tile([0.1, 0.2, 0.3, 0.4], 3000)})
+    expected = frame.to_csv(index=False, float_format="%.6g")
+    assert csv_text(frame) == expected
+    original = csvtext.BLOCK_BYTES
+    try:
+        csvtext.BLOCK_BYTES = 48 * 37  # 37 rows a block: runs cut at block ends
+        assert csv_text(frame) == expected
+    finally:
+        csvtext.BLOCK_BYTES = original

@@ -162,3 +162,75 @@ def test_a_contact_type_the_model_never_saw_is_named_once_per_succession(databas
         f"core {second.core}, depth {depth:.2f} m: contact type ['zigzag'] not seen in training "
         "(2 bed(s)); decoded with a smoothed probability"
     ]
+
+
+def test_the_decode_processs_habits_change_no_byte(database, tmp_path, monkeypatch):
+    """One BLAS thread (for the command and each batch) against the BLAS's own threads,
+    and the allocators' habits left out: the same files, byte for byte."""
+    import contextlib
+
+    from faciesseq.hmm import engine
+
+    argv = ["decode", str(database / "model.json"), str(database / "cores.csv")]
+    assert main([*argv, "-o", str(tmp_path / "habits")]) == 0
+    monkeypatch.setattr(engine, "single_thread_blas", contextlib.nullcontext)
+    monkeypatch.setattr(decode_cli, "_memory_habits", lambda: None)
+    assert main([*argv, "-o", str(tmp_path / "plain")]) == 0
+    names = sorted(p.name for p in (tmp_path / "plain").iterdir())
+    assert names == sorted(p.name for p in (tmp_path / "habits").iterdir())
+    for name in names:
+        assert (tmp_path / "habits" / name).read_bytes() == (tmp_path / "plain" / name).read_bytes()
+
+
+def test_freed_memory_is_kept_unless_the_user_set_glibcs_thresholds(monkeypatch):
+    import ctypes
+    import sys
+
+    calls = []
+
+    class _Libc:
+        def __init__(self, name):
+            self.mallopt = _Mallopt()
+
+    class _Mallopt:
+        def __call__(self, param, value):
+            calls.append((param, value))
+            return 1
+
+    monkeypatch.setattr(ctypes, "CDLL", _Libc)
+    monkeypatch.setattr(sys, "platform", "linux")
+    for name in ("MALLOC_MMAP_THRESHOLD_", "MALLOC_TRIM_THRESHOLD_"):
+        monkeypatch.delenv(name, raising=False)
+    decode_cli._keep_freed_memory()
+    # M_MMAP_THRESHOLD (-3) 256 MiB, M_TRIM_THRESHOLD (-1) 512 MiB
+    assert calls == [(-3, 1 << 28), (-1, 1 << 29)]
+    calls.clear()
+    monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", "131072")
+    decode_cli._keep_freed_memory()
+    assert calls == []
+
+
+def test_agreement_per_core_is_the_core_by_core_sum_to_the_last_bit():
+    """The thickness-weighted agreement of every core, taken for all cores at once, is
+    numpy's sum over each core's beds bit for bit (cores of 1 to 300 beds, a core of
+    zero thickness, unlabelled beds)."""
+    from types import SimpleNamespace
+
+    rng = np.random.default_rng(4)
+    sizes = [1, 3, 7, 8, 9, 16, 130, 300, 5]
+    core = np.repeat([f"C{k}" for k in range(len(sizes))], sizes)
+    thickness = rng.random(len(core)) * rng.choice([1e-3, 1.0, 1e3], len(core))
+    thickness[core == "C8"] = 0.0
+    tract = rng.choice(["HST", "LST"], len(core))
+    labels = rng.choice(["HST", "LST", ""], len(core))
+    beds = pd.DataFrame(
+        {"core": core, "thickness": thickness, "tract": tract, "interpreted_tract": labels}
+    )
+    table = decode_cli._agreement(SimpleNamespace(beds=beds), "interpreted_tract")
+    for row in table.itertuples():
+        mine = beds[(beds["core"] == row.core) & (beds["interpreted_tract"] != "")]
+        weight = mine["thickness"].to_numpy()
+        same = (mine["interpreted_tract"] == mine["tract"]).to_numpy()
+        expected = np.sum(weight * same) / np.sum(weight) if weight.sum() else np.nan
+        assert row.beds == len(mine)
+        assert np.array_equal(row.agreement_thickness, expected, equal_nan=True), row.core

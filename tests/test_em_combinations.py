@@ -65,3 +65,25 @@ def test_distinct_rows_are_numpys_unique_rows_in_the_same_order():
     np.testing.assert_array_equal(rows, want)
     np.testing.assert_array_equal(inverse, want_inverse.reshape(-1))
     np.testing.assert_array_equal(rows[inverse], codes)
+
+
+def test_log_probabilities_by_code_are_the_logs_of_each_beds_probability():
+    """A code's row of log-probabilities, taken from the logs of the table, is bit for
+    bit the log of that bed's probabilities; a missing code reads 0 (marginalised), an
+    unseen one the smoothed probability of the unseen category."""
+    rng = np.random.default_rng(8)
+    piece = CategoricalEmission(["a", "b", "c", "d", "e"], 4)
+    piece.emissionprob_ = rng.dirichlet(np.ones(5), size=4) * rng.choice([1.0, 1e-200], (4, 5))
+    piece.emissionprob_[1, 3] = 0.0  # a structural zero: -inf, no warning
+    piece.unseen_prob_ = rng.random(4) / 10
+    obs = rng.integers(-2, 5, 10_001)
+    got = piece.log_prob_of(obs)
+    with np.errstate(divide="ignore"):
+        known = np.log(piece.emissionprob_[:, obs[obs >= 0]].T)
+        unseen = np.log(piece.unseen_prob_)
+    assert got.shape == (len(obs), 4)
+    assert np.array_equal(got[obs >= 0].view(np.int64), known.view(np.int64))
+    assert np.array_equal(got[obs == -2], np.broadcast_to(unseen, ((obs == -2).sum(), 4)))
+    assert not got[obs == -1].any()
+    assert np.isneginf(got[obs == 3, 1]).all()
+    assert piece.log_prob_of(obs[:0]).shape == (0, 4)

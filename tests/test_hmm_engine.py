@@ -22,6 +22,7 @@ from faciesseq.hmm.engine import (
     Posteriors,
     constrained_log_emission,
     forward_backward,
+    log_likelihood,
     viterbi,
 )
 
@@ -251,6 +252,44 @@ def test_batch_size_does_not_change_results(case):
         path, lp = viterbi(le, lengths, startprob, transmat, batch_size=batch)
         np.testing.assert_array_equal(path, path_ref)
         np.testing.assert_allclose(lp, lp_ref, rtol=1e-12)
+
+
+@pytest.mark.parametrize("batch_size", [None, 1, 37])
+def test_forward_only_log_likelihood_is_forward_backwards_bit_for_bit(case, batch_size):
+    """The forward pass alone gives the very numbers of the full recursions (the
+    decode's untempered log-likelihood is taken this way), from the full array and
+    from a code table, the 2,000-step sequence included."""
+    startprob, transmat, emission, lengths, symbols, le = case
+    full = forward_backward(le, lengths, startprob, transmat, batch_size=batch_size)
+    ll = log_likelihood(le, lengths, startprob, transmat, batch_size=batch_size)
+    np.testing.assert_array_equal(ll, full.log_likelihood)
+    table = np.log(emission).T
+    coded = log_likelihood(
+        table, lengths, startprob, transmat, codes=symbols, batch_size=batch_size
+    )
+    ref = forward_backward(
+        table, lengths, startprob, transmat, codes=symbols, batch_size=batch_size
+    )
+    np.testing.assert_array_equal(coded, ref.log_likelihood)
+    # rows far out of range take the shifted exponentials: still the same numbers
+    shifted = le - 800.0 * (np.arange(len(le)) % 3 == 0)[:, None]
+    np.testing.assert_array_equal(
+        log_likelihood(shifted, lengths, startprob, transmat, batch_size=batch_size),
+        forward_backward(
+            shifted, lengths, startprob, transmat, batch_size=batch_size
+        ).log_likelihood,
+    )
+
+
+def test_forward_only_log_likelihood_names_an_impossible_sequence():
+    startprob = np.array([0.5, 0.5])
+    transmat = np.array([[0.5, 0.5], [0.0, 1.0]])  # no way back from state 1
+    clamp = np.full(9, -1)
+    clamp[6:8] = [1, 0]  # sequence 2, its rows 1 and 2: state 1 then state 0
+    cle = constrained_log_emission(np.zeros((9, 2)), clamp)
+    where = r"sequence 2 is impossible under the model.* at its row 2 \(row 7 of"
+    with pytest.raises(InputError, match=where):
+        log_likelihood(cle, [3, 2, 4], startprob, transmat)
 
 
 def test_length_one_sequences():

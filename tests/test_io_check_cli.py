@@ -130,3 +130,27 @@ def test_check_json_stays_valid_json_when_a_row_has_no_core_name(tmp_path, capsy
     doc = json.loads(capsys.readouterr().out)
     missing = [p for p in doc["problems"] if p["kind"] == "missing-core"]
     assert missing and all(p["core"] is None and p["row"] for p in missing)
+
+
+def test_gap_warnings_of_many_cores_name_each_gap_as_written(tmp_path):
+    """Every gap of a table checked at once is named with its depths (``%g``) and width
+    (four significant digits), row and core."""
+    from faciesseq.io import read_cores
+
+    (tmp_path / "g.csv").write_text(
+        "core,top,base,facies\n"
+        "A,0,1.5,SH\nA,1.8123456,2,SH\nA,2,3,SS\n"
+        "B,10,10.25,SH\nB,12.0000001,13,SS\nB,1e6,1000001.5,SS\n"
+    )
+    cores = read_cores(tmp_path / "g.csv", units="m")
+    gaps = [p for p in cores.problems if p.kind == "gap"]
+    assert [(p.row, p.core, p.depth) for p in gaps] == [
+        (2, "A", 1.5),
+        (5, "B", 10.25),
+        (6, "B", 13.0),
+    ]
+    assert [p.message.split(" above")[0] for p in gaps] == [
+        "gap from 1.5 to 1.81235 (0.3123 m)",
+        "gap from 10.25 to 12 (1.75 m)",
+        "gap from 13 to 1e+06 (1e+06 m)",
+    ]

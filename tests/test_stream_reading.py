@@ -79,6 +79,37 @@ def test_a_column_of_numbers_that_turns_to_text_is_not_streamed(small_batches, t
         _batches(source)
 
 
+def test_columns_with_no_role_left_unread_change_nothing_else(small_batches):
+    """``others``: the attribute columns with no role that are wanted; the rest are not
+    read, and every other column of every batch is the one read with them all."""
+    every = _batches(CORES)
+    some = _batches(CORES, others={"true_facies", "source_units"})
+    assert [b.names for b in some] == [b.names for b in every]
+    for few, full in zip(some, every):
+        frame, whole = few.to_frame(provenance=True), full.to_frame(provenance=True)
+        assert {"true_facies", "grain_size", "contact", "tract"} <= set(frame.columns)
+        assert not {"true_tract", "true_water_depth", "true_age_kyr"} & set(frame.columns)
+        pd.testing.assert_frame_equal(frame, whole[list(frame.columns)])
+
+
+def test_a_ragged_row_in_a_column_left_unread_is_still_found(small_batches, tmp_path):
+    lines = CORES.read_text().splitlines()
+    lines[-5] = lines[-5].rsplit(",", 2)[0]  # two cells short, at the end of the row
+    source = tmp_path / "ragged.csv"
+    source.write_text("\n".join(lines) + "\n")
+    with pytest.raises(NotStreamable):
+        _batches(source, others=set())
+
+
+def test_an_unread_column_of_numbers_that_turns_to_text_streams(small_batches, tmp_path):
+    table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
+    table.loc[len(table) - 1, "true_age_kyr"] = "young"  # in the last batch only
+    source = tmp_path / "text.csv"
+    table.to_csv(source, index=False)
+    batches = _batches(source, others=set())
+    assert [n for b in batches for n in b.names] == read_cores(CORES, scheme=SCHEME).names
+
+
 def test_sources_other_than_one_plain_csv_file_are_read_whole(tmp_path):
     table = pd.read_csv(CORES, dtype=str, keep_default_na=False)
     table.to_csv(tmp_path / "cores.tsv", sep="\t", index=False)
@@ -134,6 +165,40 @@ def test_decoded_batch_by_batch_the_files_are_those_of_the_whole_file(
     for name in names:
         whole = (tmp_path / "whole" / name).read_bytes()
         assert (tmp_path / "batches" / name).read_bytes() == whole
+
+
+def test_a_decode_that_reads_only_the_columns_it_uses_writes_the_same_files(
+    database, tmp_path, monkeypatch, capsys
+):
+    """The columns with no role that no output shows and the model does not use are not
+    read: the files and the printed summary are those of a decode reading them all."""
+    import faciesseq.cli.decode as decode_cli
+
+    table = pd.read_csv(database / "cores.csv", dtype=str, keep_default_na=False)
+    table["depth_note"] = [f"note {k}" if k % 3 else str(k / 7) for k in range(len(table))]
+    table["gamma"] = [str(k % 17 * 1.5) for k in range(len(table))]
+    source = tmp_path / "more.csv"
+    table.to_csv(source, index=False)
+    monkeypatch.setattr(decoding, "DECODE_BATCH", 45)
+    monkeypatch.setattr(stream_module, "BATCH_ROWS", 30)
+    read = []
+    real = stream_module.CoreStream._raw
+    monkeypatch.setattr(
+        stream_module.CoreStream, "_raw", lambda self, *a: read.append(self.read) or real(self, *a)
+    )
+    printed = {}
+    for name, used in (("some", decode_cli._attributes_used), ("all", lambda *a: None)):
+        monkeypatch.setattr(decode_cli, "_attributes_used", used)
+        capsys.readouterr()
+        assert main(_decode_argv(database, source, tmp_path / name)) == 0
+        printed[name] = capsys.readouterr().out.replace(str(tmp_path / name), "OUT")
+    assert printed["some"] == printed["all"]
+    assert "gamma" not in read[0] and "depth_note" not in read[0] and "tract" in read[0]
+    assert "gamma" in read[-1] and "depth_note" in read[-1]
+    names = sorted(p.name for p in (tmp_path / "all").iterdir())
+    assert names == sorted(p.name for p in (tmp_path / "some").iterdir())
+    for name in names:
+        assert (tmp_path / "some" / name).read_bytes() == (tmp_path / "all" / name).read_bytes()
 
 
 def test_decoding_a_stream_gives_the_parts_of_the_whole_table(database, monkeypatch):

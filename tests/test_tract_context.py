@@ -516,3 +516,26 @@ def test_without_exposure_facies_nonmarine_beds_stay_free():
         warnings.simplefilter("ignore")
         model = TractHMM(scheme=SCHEME, n_restarts=1, max_iter=5, random_state=0).fit(cores)
     assert "setting" in model.features_ and "exposure" not in model.features_
+
+
+def test_neighbours_within_a_succession_are_those_of_a_row_by_row_walk():
+    """The value ``shift`` rows up or down in the same succession, NaN past its ends
+    (and a row's own value for no shift), as a walk over the rows finds it, for
+    successions of every length (none included) and shifts past their ends."""
+    from faciesseq.cycles import _neighbour
+
+    rng = np.random.default_rng(12)
+    for _ in range(60):
+        lengths = rng.integers(0, 9, rng.integers(0, 12))
+        n = int(lengths.sum())
+        values = rng.normal(size=n)
+        values[rng.random(n) < 0.2] = np.nan
+        succession = np.repeat(np.arange(len(lengths)), lengths)
+        for shift in range(-10, 11):
+            walked = np.full(n, np.nan)
+            for row in range(n):
+                other = row + shift
+                if 0 <= other < n and succession[other] == succession[row]:
+                    walked[row] = values[other]
+            got = _neighbour(values, lengths, shift)
+            assert np.array_equal(got, walked, equal_nan=True), (lengths.tolist(), shift)

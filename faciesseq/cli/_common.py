@@ -198,16 +198,17 @@ def read_source(args: argparse.Namespace, scheme=None, announce_settings: bool =
     return cores
 
 
-def stream_source(args: argparse.Namespace, scheme=None):
+def stream_source(args: argparse.Namespace, scheme=None, others=None):
     """The core database named on the command line a batch of whole cores at a time
-    (:func:`faciesseq.io.stream_cores`), or ``None`` where it is read whole. Once the
+    (:func:`faciesseq.io.stream_cores`; ``others``: the attribute columns with no role
+    that are wanted, default all), or ``None`` where it is read whole. Once the
     batches are read, :func:`announce` of the stream's ``summary()`` says which units
     and scheme are in force, as :func:`read_source` does."""
     from faciesseq.io import stream_cores
 
     if args.keep_first:
         return None  # an option of the samples layout, which is read whole
-    return stream_cores(args.source, scheme=scheme, **_reading_options(args))
+    return stream_cores(args.source, scheme=scheme, others=others, **_reading_options(args))
 
 
 def _read(args: argparse.Namespace, scheme=None):

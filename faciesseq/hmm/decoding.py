@@ -183,7 +183,12 @@ class Decoding:
 
     def _decode_batch(self, beds: EncodedBeds, clamp: np.ndarray | None):
         """Tract posteriors, Viterbi tracts, surface probabilities and log-likelihoods
-        of one batch of whole successions (one job of :mod:`faciesseq.parallel`)."""
+        of one batch of whole successions (one job of :mod:`faciesseq.parallel`), with
+        one BLAS thread throughout (see :func:`~faciesseq.hmm.engine.single_thread_blas`)."""
+        with engine.single_thread_blas():
+            return self._decode_batch_alone(beds, clamp)
+
+    def _decode_batch_alone(self, beds: EncodedBeds, clamp: np.ndarray | None):
         le = self._log_emission(self.emissions_, beds)
         if clamp is not None:
             le = engine.constrained_log_emission(le, clamp[:, self.states_.state_tract])
@@ -194,9 +199,7 @@ class Decoding:
         loglik = (
             post.log_likelihood
             if self.temperature_ == 1.0
-            else engine.forward_backward(
-                le, beds.lengths, self.startprob_, self.transmat_
-            ).log_likelihood
+            else engine.log_likelihood(le, beds.lengths, self.startprob_, self.transmat_)
         )
         path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
         surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)

@@ -198,16 +198,16 @@ class CategoricalEmission(EmissionPiece):
         return self.log_prob_of(self._observed(beds))
 
     def log_prob_of(self, obs: np.ndarray) -> np.ndarray:
-        """``log_prob`` of observations given as codes (:meth:`observed`)."""
-        S = self.emissionprob_.shape[0]
-        out = np.zeros((len(obs), S))
-        known = obs >= 0
-        out[known] = _log(self.emissionprob_[:, obs[known]].T)
-        unseen = obs == UNSEEN
-        if unseen.any():
-            # the model warns once per core, naming the depths (see TractHMM.decode)
-            out[unseen] = _log(self.unseen_prob_)[None, :]
-        return out
+        """``log_prob`` of observations given as codes (:meth:`observed`): each code's
+        row of log-probabilities taken whole (the logs of the table, taken once, are the
+        logs of its entries wherever they are taken; a missing code's row is zeros)."""
+        S, V = self.emissionprob_.shape
+        rows = np.zeros((V + 2, S))  # by code, then a missing code's and an unseen one's
+        rows[:V] = _log(self.emissionprob_).T
+        # the model warns once per core of unseen codes, naming the depths (TractHMM.decode)
+        rows[V + 1] = _log(self.unseen_prob_)
+        index = np.where(obs >= 0, obs, np.where(obs == UNSEEN, V + 1, V))
+        return np.take(rows, index, axis=0)
 
     def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
         return {"counts": np.zeros((n_tracts, len(self.categories)))}

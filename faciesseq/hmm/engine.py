@@ -59,6 +59,8 @@ __all__ = [
     "Posteriors",
     "constrained_log_emission",
     "forward_backward",
+    "log_likelihood",
+    "single_thread_blas",
     "viterbi",
 ]
 
@@ -255,13 +257,18 @@ def _blas_controller():
     return ThreadpoolController()
 
 
-def _single_thread_blas() -> contextlib.AbstractContextManager:
+def single_thread_blas() -> contextlib.AbstractContextManager:
     """Run the recursions with one BLAS thread.
 
     The recursions make many small matrix products; a multi-threaded BLAS
     gains nothing on them and loses much when other processes load the
     cores (measured: one EM iteration on 1,000,000 observations took 0.30 s
-    instead of 0.71 s, best of 8, on a loaded 2-core machine).
+    instead of 0.71 s, best of 8, on a loaded 2-core machine). Between calls
+    OpenBLAS's idle threads wait by spinning, which is CPU time too: a caller
+    making many small products around the recursions (a decode's emissions,
+    posteriors summed per tract, surface probabilities) holds this for all of
+    them (the decoded outputs at 10^6 beds were the same byte for byte with
+    one thread and with two).
     """
     controller = _blas_controller()
     if controller is None:  # pragma: no cover
@@ -599,7 +606,7 @@ def forward_backward(
     >>> post.gamma.shape, round(float(post.gamma.sum()), 6)
     ((3, 2), 3.0)
     """
-    with _single_thread_blas():
+    with single_thread_blas():
         source = _Emissions(log_emission, codes)
         return _forward_backward(
             source, lengths, startprob, transmat, return_xi, batch_size, return_gamma
@@ -639,24 +646,7 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
         n_steps = len(counts)
         E, alpha, beta = E_buf[:N], alpha_buf[:N], beta_buf[:N]
         scale, row_max = scale_buf[:N], shift_buf[:N]
-        source.exp_rows(batch.rows, E, row_max, norm_buf[:N])
-
-        with np.errstate(divide="ignore", invalid="ignore"):
-            n0 = counts[0]
-            mul(E[:n0], pi, out=alpha[:n0])
-            dot(alpha[:n0], ones, out=scale[:n0])
-            div(alpha[:n0], scale[:n0, None], out=alpha[:n0])
-            for t in range(1, n_steps):
-                o, n, op = off[t], counts[t], off[t - 1]
-                a = alpha[o : o + n]
-                dot(alpha[op : op + n], A, out=a)
-                mul(a, E[o : o + n], out=a)
-                c = scale[o : o + n]
-                dot(a, ones, out=c)
-                div(a, c[:, None], out=a)
-        bad = np.flatnonzero(~(scale > 0))
-        if bad.size:
-            raise _impossible(batch, int(bad[0]), "no allowed state explains the observation")
+        _forward(source, batch, pi, A, E, alpha, scale, row_max, norm_buf[:N])
 
         # Backward pass; E[t] (t >= 1) is overwritten by E[t] * beta[t] / c[t],
         # the factor shared by beta[t-1] and by the two-slice posteriors
@@ -693,9 +683,7 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
             _put_rows(gamma_out, batch.rows, gamma)
         if code_gamma is not None:
             source.code_sums(batch.rows, gamma, code_gamma)
-        np.log(scale, out=scale)
-        scale += row_max
-        loglik[batch.seq] = np.bincount(batch.position, weights=scale, minlength=batch.seq.size)
+        loglik[batch.seq] = _batch_log_likelihood(batch, scale, row_max)
 
     xi_sum += A * xi_acc
     return Posteriors(
@@ -706,6 +694,101 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
         start=start,
         code_gamma=code_gamma,
     )
+
+
+def _forward(source, batch: _Batch, pi, A, E, alpha, scale, row_max, work) -> None:
+    """The scaled forward pass of one batch: ``E`` the shifted emissions (shifts in
+    ``row_max``), ``alpha`` the normalised forward variables and ``scale`` the
+    scale factors ``c_t`` of its packed rows (Rabiner 1989, eq. 91-92)."""
+    counts, off = batch.counts.tolist(), batch.offsets.tolist()
+    ones = np.ones(A.shape[0])
+    dot, mul, div = np.dot, np.multiply, np.divide
+    source.exp_rows(batch.rows, E, row_max, work)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        n0 = counts[0]
+        mul(E[:n0], pi, out=alpha[:n0])
+        dot(alpha[:n0], ones, out=scale[:n0])
+        div(alpha[:n0], scale[:n0, None], out=alpha[:n0])
+        for t in range(1, len(counts)):
+            o, n, op = off[t], counts[t], off[t - 1]
+            a = alpha[o : o + n]
+            dot(alpha[op : op + n], A, out=a)
+            mul(a, E[o : o + n], out=a)
+            c = scale[o : o + n]
+            dot(a, ones, out=c)
+            div(a, c[:, None], out=a)
+    bad = np.flatnonzero(~(scale > 0))
+    if bad.size:
+        raise _impossible(batch, int(bad[0]), "no allowed state explains the observation")
+
+
+def _batch_log_likelihood(batch: _Batch, scale: np.ndarray, row_max: np.ndarray) -> np.ndarray:
+    """``log L = sum_t (log c_t + m_t)`` of each sequence of a batch, in batch order
+    (``scale`` is overwritten)."""
+    np.log(scale, out=scale)
+    scale += row_max
+    return np.bincount(batch.position, weights=scale, minlength=batch.seq.size)
+
+
+def log_likelihood(
+    log_emission: np.ndarray,
+    lengths: np.ndarray | Sequence[int] | None,
+    startprob: np.ndarray,
+    transmat: np.ndarray,
+    *,
+    batch_size: int | None = None,
+    codes: np.ndarray | Sequence[int] | None = None,
+) -> np.ndarray:
+    """Log-likelihood of each sequence, from the forward pass alone.
+
+    The same numbers, bit for bit, as ``forward_backward(...).log_likelihood``
+    with the same arguments (the same scaled forward pass, batches and sums),
+    without the backward pass and the posteriors.
+
+    Parameters
+    ----------
+    log_emission, lengths, startprob, transmat, batch_size, codes
+        As for :func:`forward_backward`.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``(n_sequences,)`` natural log of the probability of each sequence.
+
+    Raises
+    ------
+    InputError, ConfigError
+        As :func:`forward_backward`.
+
+    References
+    ----------
+    Rabiner (1989), section V.A (the forward variables and their scale factors).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> le = np.log([[0.5, 0.1], [0.4, 0.3], [0.1, 0.6]])
+    >>> pi, A = [0.6, 0.4], [[0.7, 0.3], [0.4, 0.6]]
+    >>> ll = log_likelihood(le, [3], pi, A)
+    >>> bool(ll[0] == forward_backward(le, [3], pi, A).log_likelihood[0])
+    True
+    """
+    with single_thread_blas():
+        source = _Emissions(log_emission, codes)
+        T, K = source.n_rows, source.n_states
+        lens = _check_lengths(lengths, T)
+        pi, A = _check_params(startprob, transmat, K)
+        rows_per_batch = _resolve_batch_size(batch_size, K)
+        loglik = np.empty(lens.size)
+        cap = _buffer_rows(lens, rows_per_batch)
+        E_buf, alpha_buf = np.empty((cap, K)), np.empty((cap, K))
+        scale_buf, shift_buf, work_buf = np.empty(cap), np.empty(cap), np.empty(cap)
+        for batch in _batches(lens, rows_per_batch):
+            N = batch.n_rows
+            scale, row_max = scale_buf[:N], shift_buf[:N]
+            _forward(source, batch, pi, A, E_buf[:N], alpha_buf[:N], scale, row_max, work_buf[:N])
+            loglik[batch.seq] = _batch_log_likelihood(batch, scale, row_max)
+        return loglik
 
 
 # --------------------------------------------------------------------------

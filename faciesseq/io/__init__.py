@@ -8,7 +8,7 @@ options. See docs/io.md for layouts, column roles, units and problem kinds.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Collection, Mapping
 from dataclasses import replace
 from pathlib import Path
 
@@ -143,12 +143,16 @@ def stream_cores(
     curve: str | None = None,
     scheme: FaciesScheme | str | Path | None = None,
     rows: int | None = None,
+    others: Collection[str] | None = None,
 ) -> CoreStream | None:
     """:func:`read_cores` a batch of whole cores at a time, for what needs each core
     alone (:mod:`faciesseq.io.stream`).
 
     Parameters are those of :func:`read_cores`; ``rows`` is the least number of the
-    file's rows per batch (default :data:`faciesseq.io.stream.BATCH_ROWS`).
+    file's rows per batch (default :data:`faciesseq.io.stream.BATCH_ROWS`); ``others``
+    the attribute columns matched to no role that are wanted, by their names in the
+    bed tables (default: all; the rest are not read, see
+    :func:`faciesseq.io.stream.open_stream`).
 
     Returns
     -------
@@ -170,7 +174,7 @@ def stream_cores(
         query=query,
         curve=curve,
     )
-    return open_stream(spec, scheme, rows)
+    return open_stream(spec, scheme, rows, others)
 
 
 def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesScheme | None]:

@@ -14,7 +14,7 @@ to the general reader.
 from __future__ import annotations
 
 import codecs
-from collections.abc import Iterator
+from collections.abc import Collection, Iterator
 from pathlib import Path
 
 import numpy as np
@@ -52,21 +52,30 @@ def read_plain(path: Path, delimiter: str, names: list[str]) -> pd.DataFrame | N
     return plain_frame(columns, names)
 
 
-def plain_blocks(path: Path, delimiter: str, names: list[str]) -> Iterator[list] | None:
+def plain_blocks(
+    path: Path, delimiter: str, names: list[str], read: Collection[str] | None = None
+) -> Iterator[list] | None:
     """The blocks of a plain file, each a list of ``(codes, dictionary)`` per column
     (a block's dictionary indices, narrowed, and its distinct texts); ``None`` when the
     file starts with a byte-order mark or its header is not ``len(names)`` wide. The
-    blocks raise :class:`NotPlain` where the file turns out not to be plain."""
+    blocks raise :class:`NotPlain` where the file turns out not to be plain.
+
+    ``read``: the columns (of ``names``) to give, in the file's order; the others are
+    split into cells, so that a ragged row is still found, but never converted.
+    Default: every column."""
     with path.open("rb") as stream:
         if stream.read(3) == codecs.BOM_UTF8:
             return None
     header = reader_names(path, delimiter)
     if len(header) != len(names):
         return None
-    return _blocks(path, delimiter, header)
+    wanted = None if read is None else set(read)
+    kept = [h for h, n in zip(header, names) if wanted is None or n in wanted]
+    return _blocks(path, delimiter, kept)
 
 
 def _blocks(path: Path, delimiter: str, header: list[str]) -> Iterator[list]:
+    """The blocks of the file's columns ``header`` (as pyarrow names them)."""
     import pyarrow as pa
     from pyarrow import csv
 
@@ -83,6 +92,7 @@ def _blocks(path: Path, delimiter: str, header: list[str]) -> Iterator[list]:
                 column_types=dict.fromkeys(header, text),
                 strings_can_be_null=False,
                 null_values=[],
+                include_columns=header,
             ),
         )
         for batch in reader:

@@ -25,7 +25,7 @@ is checked and the first error is raised, with the count of them all.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Collection, Iterator
 from pathlib import Path
 
 import numpy as np
@@ -38,7 +38,7 @@ from faciesseq.io.raw import RawTable
 from faciesseq.io.source import SourceSpec
 from faciesseq.io.sql import is_url
 from faciesseq.io.tabular import TEXT_SUFFIXES, plain_header, raw_rows
-from faciesseq.io.validate import build_coreset, feet_suspected_in
+from faciesseq.io.validate import attribute_name, build_coreset, feet_suspected_in
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["BATCH_ROWS", "CoreStream", "NotStreamable", "open_stream"]
@@ -52,11 +52,19 @@ class NotStreamable(Exception):
 
 
 def open_stream(
-    spec: SourceSpec, scheme: FaciesScheme | None, rows: int | None = None
+    spec: SourceSpec,
+    scheme: FaciesScheme | None,
+    rows: int | None = None,
+    others: Collection[str] | None = None,
 ) -> CoreStream | None:
     """A stream of the cores of ``spec``, or ``None`` when its source is not one plain
     CSV file with a core column, read with the options of a CSV file (then it is read
-    whole, which names any mistake in the options)."""
+    whole, which names any mistake in the options).
+
+    ``others``: of the columns matched to no role (attributes kept under their own
+    names, see :class:`~faciesseq.io.columns.ColumnMatch`), those to read, by the
+    name a bed table gives them; the rest are left unread, as if the file had not held
+    them (no problem is ever reported of such a column). Default: every column."""
     path = Path(spec.source)
     other = (spec.sheet, spec.table, spec.query, spec.curve, spec.encoding)
     if is_url(spec.source) or any(o is not None for o in other) or spec.layout == "samples":
@@ -72,7 +80,12 @@ def open_stream(
         return None
     if "core" not in match.roles:
         return None
-    return CoreStream(path, header[1], header[1].index(match.roles["core"]), spec, scheme, rows)
+    names = header[1]
+    if others is not None:
+        wanted = set(others)
+        unread = {c for c in match.others if attribute_name(c) not in wanted}
+        names = [n for n in names if n not in unread]
+    return CoreStream(path, header[1], names.index(match.roles["core"]), spec, scheme, rows, names)
 
 
 class CoreStream:
@@ -82,7 +95,8 @@ class CoreStream:
     order; :meth:`summary` then holds what the whole file's core set says of itself
     (units, sources, and the problems about its depth units: the ``units`` and
     ``units-suspect`` warnings; every problem when read with ``valid=False``). Each
-    iteration reads the file again.
+    iteration reads the file again. ``names``: the header's; ``read``: the columns
+    converted (default all; see :func:`open_stream`), ``core_column`` indexing them.
 
     Raises (while iterating)
     ------------------------
@@ -100,8 +114,11 @@ class CoreStream:
         spec: SourceSpec,
         scheme: FaciesScheme | None,
         rows: int | None = None,
+        read: list[str] | None = None,
     ):
         self.path, self.names, self.core_column = path, names, core_column
+        #: the columns read (of ``names``, in their order); ``core_column`` indexes them
+        self.read = list(names) if read is None else list(read)
         self.spec, self.scheme = spec, scheme
         self.rows = max(1, int(rows or BATCH_ROWS))
         self.units: str | None = None
@@ -183,7 +200,7 @@ class CoreStream:
     def _raw_tables(self) -> Iterator[RawTable]:
         """The file's rows, a batch of at least :attr:`rows` rows (and whole cores, cut
         where the core column's text changes) at a time."""
-        blocks = plain_blocks(self.path, ",", self.names)
+        blocks = plain_blocks(self.path, ",", self.names, self.read)
         if blocks is None:
             raise NotStreamable("not a plain file")
         pending: list[list] = []
@@ -206,8 +223,8 @@ class CoreStream:
             yield self._raw(pending, first)
 
     def _raw(self, blocks: list[list], first: int) -> RawTable:
-        columns = [[block[j] for block in blocks] for j in range(len(self.names))]
-        frame = plain_frame(columns, self.names)
+        columns = [[block[j] for block in blocks] for j in range(len(self.read))]
+        frame = plain_frame(columns, self.read)
         if frame is None:
             raise NotStreamable("a cell holds a quote character or a NUL byte")
         raw = raw_rows(frame, self.file, [], first=first)

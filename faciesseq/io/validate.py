@@ -578,9 +578,14 @@ def _attribute_columns(
         match.roles[r] for r in ("top", "base", "depth") if r in match.roles and r not in roles
     ]
     for col in list(match.others) + unused:
-        name = col if col not in _RESERVED else f"source_{col}"
-        out[name] = _numbers_where_all(src[col].reset_index(drop=True))
+        out[attribute_name(col)] = _numbers_where_all(src[col].reset_index(drop=True))
     return out
+
+
+def attribute_name(column: str) -> str:
+    """The name of a source column with no role in the interval table: its own, or
+    ``source_<name>`` where that name is the project's (``top``, ``facies``, ...)."""
+    return column if column not in _RESERVED else f"source_{column}"
 
 
 def _text(value: object, fix=None) -> str | None:
@@ -1211,18 +1216,25 @@ def _check_all_intervals(
     dirty[core_of_row[odd]] = True
     problems: list[Problem] = []
     rows = frame["_row"].to_numpy()
-    gap = np.r_[False, overlap < -DEPTH_TOL] & ~new_core & ~dirty[core_of_row]
-    for i in np.flatnonzero(gap):
+    gap = np.flatnonzero(np.r_[False, overlap < -DEPTH_TOL] & ~new_core & ~dirty[core_of_row])
+    # Python numbers, gathered at once: formatted as numpy's would be, faster one by one
+    for above, this, width, row, k in zip(
+        base[gap - 1].tolist(),
+        top[gap].tolist(),
+        (-overlap[gap - 1]).tolist(),
+        rows[gap].tolist(),
+        core_of_row[gap].tolist(),
+    ):
         problems.append(
             Problem(
                 "warning",
                 "gap",
-                f"gap from {base[i - 1]:g} to {top[i]:g} ({-overlap[i - 1]:.4g} {units}) above "
+                f"gap from {above:g} to {this:g} ({width:.4g} {units}) above "
                 "this interval: successions are split here",
                 file=file,
-                row=int(rows[i]),
-                core=names[core_of_row[i]],
-                depth=float(base[i - 1]),
+                row=int(row),
+                core=names[k],
+                depth=above,
                 units=units,
             )
         )

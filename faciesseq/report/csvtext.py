@@ -202,6 +202,21 @@ class _FloatField(_Field):
 
     def fill(self, block: np.ndarray, start: int, stop: int) -> None:
         values = self.values[start:stop]
+        # a value repeated on the next rows (a contact's depth on each surface's row) is
+        # written once and its cells copied: the same bits, the same text
+        bits = values.view(np.int64)
+        first = np.r_[True, bits[1:] != bits[:-1]] if len(bits) else bits.astype(bool)
+        runs = int(np.count_nonzero(first))
+        if 2 * runs > len(values):
+            self._write(values, block)
+            return
+        once = np.empty((runs, self.width), dtype=np.uint8)
+        self._write(values[first], once)
+        item = f"V{self.width}"
+        block.view(item)[:, 0] = once.view(item)[:, 0][np.cumsum(first) - 1]
+
+    def _write(self, values: np.ndarray, block: np.ndarray) -> None:
+        """The cells of ``values``, one per row of ``block``."""
         size = np.abs(values)
         with np.errstate(invalid="ignore"):
             scaled = (size >= _SCALED_RANGE[0]) & (size <= _SCALED_RANGE[1])
