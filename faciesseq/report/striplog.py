@@ -202,6 +202,185 @@ def label_depths(depths: np.ndarray, gap: float) -> np.ndarray:
     return out
 
 
+def _facies_track(ax, beds, widths, measure, scheme, units, top, base) -> None:
+    """The facies column: touching cells of one facies and width drawn as one box
+    (depth-grid cells would otherwise be outlined one by one)."""
+    span = max(base - top, 1e-9)
+    boxes = _facies_boxes(beds, widths)
+    _add_boxes(
+        ax,
+        [t for t, _, _, _ in boxes],
+        [b for _, b, _, _ in boxes],
+        0.0,
+        [w for _, _, _, w in boxes],
+        [_facies_colour(scheme, c) for _, _, c, _ in boxes],
+        edgecolors="#333333",
+        linewidths=0.3,
+    )
+    ax.set_xlim(0, 1.02)
+    if measure == "grain_size":
+        k = np.arange(1, len(GRAIN_CLASSES) + 1)
+        ax.set_xticks(k / len(GRAIN_CLASSES), GRAIN_CLASSES)
+        ax.set_xlabel("grain size")
+    else:
+        ax.set_xticks([])
+        ax.set_xlabel("width: proximality\n(landward wider)")
+    ax.set_ylabel(f"depth ({units})")
+    ax.set_title("facies")
+    ax.set_ylim(base + 0.005 * span, top - 0.005 * span)  # inverted: depth downward
+
+
+def _tract_track(ax, beds, tracts, span) -> None:
+    """The decoded tract column, each run named where it is tall enough."""
+    runs = _runs(beds, "tract")
+    _add_boxes(
+        ax,
+        [r[0] for r in runs],
+        [r[1] for r in runs],
+        0.0,
+        1.0,
+        [tract_colour(r[2], tracts) for r in runs],
+        linewidths=0,
+    )
+    for r_top, r_base, code in runs:
+        if (r_base - r_top) > 0.025 * span:
+            ax.text(
+                0.5,
+                (r_top + r_base) / 2,
+                code,
+                ha="center",
+                va="center",
+                fontsize=6.5,
+                color="white" if code in ("HST", "FSST") else "black",
+                parse_math=False,
+            )
+    ax.set_xlim(0, 1)
+    ax.set_xticks([])
+    ax.set_title("tract")
+    ax.set_xlabel("most likely")
+
+
+def _probability_track(ax, beds, tracts, checked) -> None:
+    """The tract posteriors, stacked."""
+    b_top = beds["top"].to_numpy(float)
+    b_base = beds["base"].to_numpy(float)
+    left = np.zeros(len(beds))
+    for code in tracts:
+        right = left + beds[f"p_{code}"].to_numpy(float)
+        _add_boxes(ax, b_top, b_base, left, right, tract_colour(code, tracts), linewidths=0)
+        left = right
+    ax.set_xlim(0, 1)
+    ax.set_xticks([0, 0.5, 1])
+    ax.set_title("tract probability")
+    ax.set_xlabel("posterior (stacked)" + ("" if checked else f"\n{UNCHECKED_NOTE}"))
+
+
+def _surface_track(ax, interp, picks, surfaces, step, units) -> list[tuple[float, str]]:
+    """Surface probability curves per depth cell and the picks, each with its
+    probability and interval; returns the picks' depths and colours."""
+    curves = interp.curves(step)
+    edges_top = curves["depth"].to_numpy(float) - step / 2
+    y = np.column_stack([edges_top, edges_top + step]).ravel()
+    for code in surfaces:
+        p = curves[f"p_{code}"].to_numpy(float)
+        colour = surface_colour(code, surfaces)
+        x = np.repeat(p, 2)
+        ax.fill_betweenx(y, 0, x, where=np.isfinite(x), color=colour, alpha=0.85, lw=0)
+    ordered = picks.sort_values("depth", kind="stable") if len(picks) else picks
+    span = abs(ax.get_ylim()[0] - ax.get_ylim()[1]) or 1.0
+    label_at = label_depths(ordered["depth"].to_numpy(float), 0.02 * span) if len(picks) else []
+    pick_lines: list[tuple[float, str]] = []
+    for pick, at in zip(ordered.itertuples(index=False), label_at):
+        colour = surface_colour(str(pick.surface), surfaces)
+        depth, prob = float(pick.depth), float(pick.probability)
+        lo = float(getattr(pick, "depth_top", depth))
+        hi = float(getattr(pick, "depth_base", depth))
+        ax.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
+        ax.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
+        # the label stays inside the panel: right of the marker, or left of it near 1
+        right = prob <= 0.62
+        ax.text(
+            prob + 0.05 if right else prob - 0.05,
+            at,
+            f"{pick.surface} {prob:.2f}",
+            va="bottom",
+            ha="left" if right else "right",
+            fontsize=6,
+            color=colour,
+            parse_math=False,
+            bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
+        )
+        pick_lines.append((depth, colour))
+    ax.set_xlim(0, 1.0)
+    ax.set_xticks([0, 0.5, 1])
+    ax.set_title("surface probability")
+    ax.set_xlabel(f"per {step:.3g} {units} cell")
+    return pick_lines
+
+
+def _legends(
+    ax, scheme, facies_order, facies_labels, gaps, tracts, tract_labels, surfaces, surface_labels
+) -> None:
+    """The three legends under the tracks: facies, systems tracts and surfaces."""
+    facies_handles = [
+        Patch(
+            facecolor=_facies_colour(scheme, c),
+            edgecolor="#333333",
+            lw=0.3,
+            label=plain(label),
+        )
+        for c, label in zip(facies_order, facies_labels)
+    ]
+    if gaps:
+        facies_handles.append(
+            Patch(facecolor=_GAP, hatch="xx", edgecolor="#9a9a9a", label="gap (not described)")
+        )
+    tract_handles = [
+        Patch(color=tract_colour(t, tracts), label=plain(label))
+        for t, label in zip(tracts, tract_labels)
+    ]
+    surface_handles = [
+        Line2D([], [], color=surface_colour(sf, surfaces), label=plain(label))
+        for sf, label in zip(surfaces, surface_labels)
+    ]
+    surface_handles.append(
+        Line2D(
+            [],
+            [],
+            marker="<",
+            ls="",
+            color="#555555",
+            mec="black",
+            mew=0.4,
+            label="pick: probability, interval",
+        )
+    )
+    kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
+    leg_f = ax.legend(
+        handles=facies_handles,
+        title="facies (landward → basinward)",
+        loc="upper left",
+        bbox_to_anchor=(0.0, 1.0),
+        **kw,
+    )
+    ax.add_artist(leg_f)
+    leg_t = ax.legend(
+        handles=tract_handles,
+        title="systems tract",
+        loc="upper left",
+        bbox_to_anchor=(0.43, 1.0),
+        **kw,
+    )
+    ax.add_artist(leg_t)
+    ax.legend(
+        handles=surface_handles,
+        title="surface",
+        loc="upper left",
+        bbox_to_anchor=(0.71, 1.0),
+        **kw,
+    )
+
+
 def strip_log(
     interp: CoreInterpretation,
     scheme: FaciesScheme,
@@ -297,110 +476,13 @@ def strip_log(
         ax_leg = fig.add_axes(rects[4])
         ax_leg.set_axis_off()
 
-        b_top = beds["top"].to_numpy(float)
-        b_base = beds["base"].to_numpy(float)
-
-        # 1. facies column: touching cells of one facies and width drawn as one box
-        # (depth-grid cells would otherwise be outlined one by one)
-        boxes = _facies_boxes(beds, widths)
-        _add_boxes(
-            ax_f,
-            [t for t, _, _, _ in boxes],
-            [b for _, b, _, _ in boxes],
-            0.0,
-            [w for _, _, _, w in boxes],
-            [_facies_colour(scheme, c) for _, _, c, _ in boxes],
-            edgecolors="#333333",
-            linewidths=0.3,
-        )
         for g_top, g_base in gaps:
             for ax in (ax_f, ax_t, ax_p, ax_s):
                 ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
-        ax_f.set_xlim(0, 1.02)
-        if measure == "grain_size":
-            k = np.arange(1, len(GRAIN_CLASSES) + 1)
-            ax_f.set_xticks(k / len(GRAIN_CLASSES), GRAIN_CLASSES)
-            ax_f.set_xlabel("grain size")
-        else:
-            ax_f.set_xticks([])
-            ax_f.set_xlabel("width: proximality\n(landward wider)")
-        ax_f.set_ylabel(f"depth ({units})")
-        ax_f.set_title("facies")
-        ax_f.set_ylim(base + 0.005 * span, top - 0.005 * span)  # inverted: depth downward
-
-        # 2. decoded tract column
-        runs = _runs(beds, "tract")
-        _add_boxes(
-            ax_t,
-            [r[0] for r in runs],
-            [r[1] for r in runs],
-            0.0,
-            1.0,
-            [tract_colour(r[2], tracts) for r in runs],
-            linewidths=0,
-        )
-        for r_top, r_base, code in runs:
-            if (r_base - r_top) > 0.025 * span:
-                ax_t.text(
-                    0.5,
-                    (r_top + r_base) / 2,
-                    code,
-                    ha="center",
-                    va="center",
-                    fontsize=6.5,
-                    color="white" if code in ("HST", "FSST") else "black",
-                    parse_math=False,
-                )
-        ax_t.set_xlim(0, 1)
-        ax_t.set_xticks([])
-        ax_t.set_title("tract")
-        ax_t.set_xlabel("most likely")
-
-        # 3. posterior bands
-        left = np.zeros(len(beds))
-        for code in tracts:
-            right = left + beds[f"p_{code}"].to_numpy(float)
-            _add_boxes(ax_p, b_top, b_base, left, right, tract_colour(code, tracts), linewidths=0)
-            left = right
-        ax_p.set_xlim(0, 1)
-        ax_p.set_xticks([0, 0.5, 1])
-        ax_p.set_title("tract probability")
-        ax_p.set_xlabel("posterior (stacked)" + ("" if checked else f"\n{UNCHECKED_NOTE}"))
-
-        # 4. surface probability curves and picks
-        curves = interp.curves(step)
-        edges_top = curves["depth"].to_numpy(float) - step / 2
-        y = np.column_stack([edges_top, edges_top + step]).ravel()
-        for code in surfaces:
-            p = curves[f"p_{code}"].to_numpy(float)
-            colour = surface_colour(code, surfaces)
-            x = np.repeat(p, 2)
-            ax_s.fill_betweenx(y, 0, x, where=np.isfinite(x), color=colour, alpha=0.85, lw=0)
-        ordered = picks.sort_values("depth", kind="stable") if len(picks) else picks
-        span = abs(ax_s.get_ylim()[0] - ax_s.get_ylim()[1]) or 1.0
-        label_at = label_depths(ordered["depth"].to_numpy(float), 0.02 * span) if len(picks) else []
-        pick_lines: list[tuple[float, str]] = []
-        for pick, at in zip(ordered.itertuples(index=False), label_at):
-            colour = surface_colour(str(pick.surface), surfaces)
-            depth, prob = float(pick.depth), float(pick.probability)
-            lo = float(getattr(pick, "depth_top", depth))
-            hi = float(getattr(pick, "depth_base", depth))
-            ax_s.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
-            ax_s.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
-            # the label stays inside the panel: right of the marker, or left of it near 1
-            right = prob <= 0.62
-            ax_s.text(
-                prob + 0.05 if right else prob - 0.05,
-                at,
-                f"{pick.surface} {prob:.2f}",
-                va="bottom",
-                ha="left" if right else "right",
-                fontsize=6,
-                color=colour,
-                parse_math=False,
-                bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
-            )
-            pick_lines.append((depth, colour))
+        _facies_track(ax_f, beds, widths, measure, scheme, units, top, base)
+        _tract_track(ax_t, beds, tracts, span)
+        _probability_track(ax_p, beds, tracts, checked)
+        pick_lines = _surface_track(ax_s, interp, picks, surfaces, step, units)
         for ax in (ax_f, ax_t):  # one collection of dashed lines across each column
             ax.hlines(
                 [d for d, _ in pick_lines],
@@ -411,74 +493,22 @@ def strip_log(
                 linewidths=0.7,
                 linestyles="--",
             )
-        ax_s.set_xlim(0, 1.0)
-        ax_s.set_xticks([0, 0.5, 1])
-        ax_s.set_title("surface probability")
-        ax_s.set_xlabel(f"per {step:.3g} {units} cell")
-
         for ax in (ax_t, ax_p, ax_s):
             ax.tick_params(labelleft=False)
         for ax in (ax_f, ax_t, ax_p, ax_s):
             ax.spines["top"].set_visible(True)
             ax.spines["right"].set_visible(True)
 
-        # legends
-        facies_handles = [
-            Patch(
-                facecolor=_facies_colour(scheme, c),
-                edgecolor="#333333",
-                lw=0.3,
-                label=plain(label),
-            )
-            for c, label in zip(facies_order, facies_labels)
-        ]
-        if gaps:
-            facies_handles.append(
-                Patch(facecolor=_GAP, hatch="xx", edgecolor="#9a9a9a", label="gap (not described)")
-            )
-        tract_handles = [
-            Patch(color=tract_colour(t, tracts), label=plain(label))
-            for t, label in zip(tracts, tract_labels)
-        ]
-        surface_handles = [
-            Line2D([], [], color=surface_colour(sf, surfaces), label=plain(label))
-            for sf, label in zip(surfaces, surface_labels)
-        ]
-        surface_handles.append(
-            Line2D(
-                [],
-                [],
-                marker="<",
-                ls="",
-                color="#555555",
-                mec="black",
-                mew=0.4,
-                label="pick: probability, interval",
-            )
-        )
-        kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
-        leg_f = ax_leg.legend(
-            handles=facies_handles,
-            title="facies (landward → basinward)",
-            loc="upper left",
-            bbox_to_anchor=(0.0, 1.0),
-            **kw,
-        )
-        ax_leg.add_artist(leg_f)
-        leg_t = ax_leg.legend(
-            handles=tract_handles,
-            title="systems tract",
-            loc="upper left",
-            bbox_to_anchor=(0.43, 1.0),
-            **kw,
-        )
-        ax_leg.add_artist(leg_t)
-        ax_leg.legend(
-            handles=surface_handles,
-            title="surface",
-            loc="upper left",
-            bbox_to_anchor=(0.71, 1.0),
-            **kw,
+        _legends(
+            ax_leg,
+            scheme,
+            facies_order,
+            facies_labels,
+            gaps,
+            tracts,
+            tract_labels,
+            surfaces,
+            surface_labels,
         )
 
         fig.suptitle(
