@@ -44,32 +44,11 @@ def _labelled(matrix: np.ndarray, codes) -> pd.DataFrame:
     return frame
 
 
-def markov_section(report, scheme: FaciesScheme) -> Section:
-    """The transition-statistics section (section 2 of the appendix)."""
+def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> None:
+    """Counts, probabilities, expected counts, differences and adjusted residuals."""
     from faciesseq.report import figures
 
     fo = report.first_order
-    codes = list(report.codes)
-    embedded = report.embedded
-    colours = {c: scheme.colour(c) for c in codes if c in scheme}
-    s = Section("Transition statistics")
-    unit = (
-        "beds (embedded chain: no facies above itself)"
-        if embedded
-        else f"depth-grid cells of {format_value(report.step)}"
-    )
-    s.add(
-        Paragraph(
-            f"{report.n_transitions} upward transitions in {report.n_successions} unbroken "
-            f"successions of {report.n_cores} cores, counted between {unit}; rows are the lower "
-            "facies, columns the upper, facies in order of proximality rank."
-        )
-    )
-    for warning in report.warnings:
-        s.add(Paragraph(f"Note: {warning}.", kind="note"))
-
-    # -- matrices
-    mats = s.sub("Transition matrices")
     counts = _labelled(report.counts.astype(int), codes)
     mats.add(
         TableBlock("markov_counts", "Upward transition counts n_ij (row: lower facies).", counts),
@@ -129,8 +108,10 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
         ),
     )
 
-    # -- tests
-    tests = s.sub("Tests of independence, order and homogeneity")
+
+def _test_blocks(tests: Section, report, codes: list[str]) -> None:
+    """Every test of independence, the Markov order and the homogeneity across cores."""
+    fo = report.first_order
     low_cells = ", ".join(f"{codes[i]}→{codes[j]}" for i, j in zip(*np.nonzero(fo.low_expected)))
     tests.add(
         Paragraph(
@@ -197,9 +178,10 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
     else:
         tests.add(Paragraph("Homogeneity across cores was not tested.", kind="missing"))
 
-    # -- entropy
+
+def _entropy_blocks(ent: Section, report, codes: list[str]) -> None:
+    """Entropies before and after each facies and the cycle type."""
     cyc = report.cyclicity
-    ent = s.sub("Entropy and cycle type")
     entropy = pd.DataFrame(
         {
             "E_post (bits)": cyc.e_post,
@@ -229,6 +211,32 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
             )
         ),
     )
+
+
+def markov_section(report, scheme: FaciesScheme) -> Section:
+    """The transition-statistics section (section 2 of the appendix)."""
+    codes = list(report.codes)
+    embedded = report.embedded
+    colours = {c: scheme.colour(c) for c in codes if c in scheme}
+    s = Section("Transition statistics")
+    unit = (
+        "beds (embedded chain: no facies above itself)"
+        if embedded
+        else f"depth-grid cells of {format_value(report.step)}"
+    )
+    s.add(
+        Paragraph(
+            f"{report.n_transitions} upward transitions in {report.n_successions} unbroken "
+            f"successions of {report.n_cores} cores, counted between {unit}; rows are the lower "
+            "facies, columns the upper, facies in order of proximality rank."
+        )
+    )
+    for warning in report.warnings:
+        s.add(Paragraph(f"Note: {warning}.", kind="note"))
+
+    _matrix_blocks(s.sub("Transition matrices"), report, codes, colours)
+    _test_blocks(s.sub("Tests of independence, order and homogeneity"), report, codes)
+    _entropy_blocks(s.sub("Entropy and cycle type"), report, codes)
     frd = s.sub("Facies relationship diagram")
     frd.add(
         FigureBlock(
