@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import os
 import shutil
+import signal
 import tempfile
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -24,7 +25,7 @@ from pathlib import Path
 
 from faciesseq.errors import ConfigError
 
-__all__ = ["check_target", "new_folder", "write_file"]
+__all__ = ["check_target", "new_folder", "signals_held", "write_file"]
 
 
 def current_umask() -> int:
@@ -83,6 +84,25 @@ def check_target(
     return target
 
 
+@contextmanager
+def signals_held() -> Iterator[None]:
+    """Ctrl-C and SIGTERM held back while a temporary file or folder is made and its
+    name kept, so that an interruption never leaves one that nobody deletes; a signal
+    that came meanwhile is delivered as the block ends. Make the temporary inside the
+    ``try`` that deletes it, with the name set to ``None`` before it. Where signals
+    cannot be held (not the main thread's platform), the block simply runs."""
+    held = {signal.SIGINT, signal.SIGTERM}
+    try:
+        previous = signal.pthread_sigmask(signal.SIG_BLOCK, held)
+    except (AttributeError, ValueError, OSError):
+        yield
+        return
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
+
+
 def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
     """Write ``data`` to a temporary sibling of ``path``, then rename it into place.
 
@@ -100,14 +120,18 @@ def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
         ``path``.
     """
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=_parent(target))
+    parent = _parent(target)
+    tmp = None
     try:
+        with signals_held():
+            fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=parent)
         with os.fdopen(fd, "wb") as handle:
             handle.write(data.encode("utf-8") if isinstance(data, str) else data)
         os.replace(tmp, target)
         os.chmod(target, 0o666 & ~current_umask())
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        if tmp is not None:
+            Path(tmp).unlink(missing_ok=True)
         raise
     return target
 
@@ -117,8 +141,10 @@ def _swap(temp: Path, target: Path) -> None:
     if not target.exists():
         os.replace(temp, target)
         return
-    trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=_parent(target)))
+    trash = None
     try:
+        with signals_held():
+            trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=_parent(target)))
         os.replace(target, trash / target.name)
         try:
             os.replace(temp, target)
@@ -126,7 +152,8 @@ def _swap(temp: Path, target: Path) -> None:
             os.replace(trash / target.name, target)  # put the old folder back
             raise
     finally:
-        shutil.rmtree(trash, ignore_errors=True)
+        if trash is not None:
+            shutil.rmtree(trash, ignore_errors=True)
 
 
 @contextmanager
@@ -150,11 +177,13 @@ def new_folder(path: str | os.PathLike) -> Iterator[Path]:
         The temporary folder to fill.
     """
     target = Path(path)
-    temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.new.", dir=_parent(target)))
+    temp = None
     try:
+        with signals_held():
+            temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.new.", dir=_parent(target)))
         yield temp
         _swap(temp, target)
     finally:
-        if temp.exists():
+        if temp is not None and temp.exists():
             shutil.rmtree(temp, ignore_errors=True)
     target.chmod(0o777 & ~current_umask())

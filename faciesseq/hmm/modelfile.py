@@ -34,8 +34,6 @@ from __future__ import annotations
 import hashlib
 import json
 import math
-import os
-import tempfile
 from collections.abc import Mapping
 from datetime import UTC, datetime
 from pathlib import Path
@@ -44,6 +42,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from faciesseq._output import write_file
 from faciesseq._version import __version__
 from faciesseq.core import PROVENANCE, CoreTable
 from faciesseq.errors import ConfigError, ModelFileError
@@ -204,18 +203,7 @@ def save_model(
     parent = path.parent if str(path.parent) else Path(".")
     if not parent.is_dir():
         raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text + "\n")
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    return write_file(path, text + "\n")
 
 
 def _get(doc: Mapping, key: str, kind: type | tuple, source: str) -> Any:

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from faciesseq._output import signals_held
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 
@@ -132,8 +133,10 @@ def write_cores(
                 "format='las'",
                 file=str(path),
             )
-        tmpdir = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=parent))
+        tmpdir = None
         try:
+            with signals_held():
+                tmpdir = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=parent))
             used: set[str] = set()
             for core in cores:
                 stem = _safe(core.name, used)
@@ -145,18 +148,21 @@ def write_cores(
             else:
                 os.replace(tmpdir / path.name, path)
         finally:
-            shutil.rmtree(tmpdir, ignore_errors=True)
+            if tmpdir is not None:
+                shutil.rmtree(tmpdir, ignore_errors=True)
         return path
-    fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=parent)
-    os.close(fd)
-    tmp = Path(name)
+    tmp = None
     try:
+        with signals_held():
+            fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=parent)
+            tmp = Path(name)
+        os.close(fd)
         if fmt == "sqlite":
             tmp.unlink()
         _write_file(cores, fmt, tmp, tables)
         os.replace(tmp, path)
     finally:
-        if tmp.exists():
+        if tmp is not None and tmp.exists():
             tmp.unlink()
     return path
 

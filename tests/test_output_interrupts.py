@@ -1,0 +1,58 @@
+"""Temporary files and folders of atomic outputs are never left behind by Ctrl-C or
+SIGTERM, even when the signal lands just as the temporary is made (common practice of
+safe file replacement: write beside the target, rename, delete on any failure)."""
+
+from __future__ import annotations
+
+import os
+import signal
+import sys
+import tempfile
+
+import pytest
+
+from faciesseq._output import new_folder, signals_held, write_file
+
+pytestmark = pytest.mark.skipif(
+    sys.platform == "win32" or not hasattr(signal, "pthread_sigmask"),
+    reason="signals are held with pthread_sigmask",
+)
+
+
+def test_a_signal_inside_the_held_block_is_delivered_when_it_ends():
+    seen = []
+    previous = signal.signal(signal.SIGTERM, lambda *_: seen.append("term"))
+    try:
+        with signals_held():
+            os.kill(os.getpid(), signal.SIGTERM)
+            inside = list(seen)
+        assert inside == [] and seen == ["term"]
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
+def _interrupting(make):
+    """``make`` (mkdtemp or mkstemp) that sends this process Ctrl-C as it returns."""
+
+    def made(*args, **kwargs):
+        out = make(*args, **kwargs)
+        os.kill(os.getpid(), signal.SIGINT)
+        return out
+
+    return made
+
+
+def test_ctrl_c_as_the_temporary_folder_is_made_leaves_nothing(tmp_path, monkeypatch):
+    monkeypatch.setattr(tempfile, "mkdtemp", _interrupting(tempfile.mkdtemp))
+    with pytest.raises(KeyboardInterrupt), new_folder(tmp_path / "out") as folder:
+        (folder / "a.csv").write_text("x\n")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_ctrl_c_as_the_temporary_file_is_made_leaves_nothing(tmp_path, monkeypatch):
+    (tmp_path / "model.json").write_text("old\n")
+    monkeypatch.setattr(tempfile, "mkstemp", _interrupting(tempfile.mkstemp))
+    with pytest.raises(KeyboardInterrupt):
+        write_file(tmp_path / "model.json", "new\n")
+    assert [p.name for p in tmp_path.iterdir()] == ["model.json"]
+    assert (tmp_path / "model.json").read_text() == "old\n"
