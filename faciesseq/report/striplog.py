@@ -356,29 +356,17 @@ def _legends(
         )
     )
     kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
-    leg_f = ax.legend(
-        handles=facies_handles,
-        title="facies (landward → basinward)",
-        loc="upper left",
-        bbox_to_anchor=(0.0, 1.0),
-        **kw,
+    columns = (
+        (facies_handles, "facies (landward → basinward)", 0.0),
+        (tract_handles, "systems tract", 0.43),
+        (surface_handles, "surface", 0.71),
     )
-    ax.add_artist(leg_f)
-    leg_t = ax.legend(
-        handles=tract_handles,
-        title="systems tract",
-        loc="upper left",
-        bbox_to_anchor=(0.43, 1.0),
-        **kw,
-    )
-    ax.add_artist(leg_t)
-    ax.legend(
-        handles=surface_handles,
-        title="surface",
-        loc="upper left",
-        bbox_to_anchor=(0.71, 1.0),
-        **kw,
-    )
+    for k, (handles, title, x) in enumerate(columns):
+        legend = ax.legend(
+            handles=handles, title=title, loc="upper left", bbox_to_anchor=(x, 1.0), **kw
+        )
+        if k < len(columns) - 1:  # each new legend replaces the axes' own: keep the others
+            ax.add_artist(legend)
 
 
 def strip_log(
