@@ -345,3 +345,36 @@ def test_em_trace_has_whole_iterations():
     fig = loglik_trace({"restart 0 (seed 0)": [-10.0, -8.0, -7.5]}, best="restart 0 (seed 0)")
     ticks = fig.axes[0].get_xticks()
     assert len(ticks) >= 2 and all(float(t).is_integer() for t in ticks)
+
+
+def test_emission_tables_of_a_fit_with_sub_states_have_one_row_per_tract():
+    # emissions are per tract, chains per state: with two sub-states per tract a
+    # labelled fit's trend piece has 4 rows for 8 states, and its tables say so
+    import warnings
+
+    import pandas as pd
+
+    from faciesseq.core import CoreSet
+    from faciesseq.hmm import TractHMM
+    from faciesseq.report.model_section import model_section
+
+    root = __import__("pathlib").Path(__file__).resolve().parents[1]
+    scheme = load_scheme(root / "faciesseq" / "data" / "demo" / "scheme-shoreface.yaml")
+    table = pd.read_csv(root / "faciesseq" / "data" / "demo" / "cores.csv")
+    cores = CoreSet.from_frame(table[table["core"].isin(["QS-1", "QS-2"])], units="m")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(
+            scheme=scheme, substates=2, n_restarts=1, max_iter=5, calibration_folds=0
+        ).fit(cores, labels="tract")
+    assert model.states_.n_states == 2 * model.states_.n_tracts
+    section, _ = model_section(model, model.tract_model_, scheme=scheme)
+    tables = {
+        b.key: b.frame
+        for sub in section.subsections
+        for b in sub.blocks
+        if getattr(b, "frame", None) is not None
+    }
+    summary = tables["model_emission_facies_trend_trend_summary"]
+    assert list(summary.index) == list(model.states_.tracts) and summary.index.name == "tract"
+    assert len(tables["model_transitions"]) == model.states_.n_states

@@ -92,17 +92,18 @@ def tract_transitions(model: Any) -> pd.DataFrame:
     return frame
 
 
-def _state_frame(
-    values: np.ndarray, model: Any, columns, index_name: str = "state"
-) -> pd.DataFrame:
-    values = np.asarray(values, dtype=float)
-    # emissions are per tract (sub-states share their tract's); chains are per state
+def _rows(model: Any, n: int) -> pd.Index:
+    """Row labels of a table of ``n`` rows: per tract where emissions are (sub-states
+    share their tract's), per state where chains are."""
     labels = model.states_.labels()
-    if len(values) == model.states_.n_tracts and len(labels) != len(values):
-        labels, index_name = list(model.states_.tracts), "tract"
-    frame = pd.DataFrame(values, index=labels, columns=list(columns))
-    frame.index.name = index_name
-    return frame
+    if n == model.states_.n_tracts and len(labels) != n:
+        return pd.Index(list(model.states_.tracts), name="tract")
+    return pd.Index(labels, name="state")
+
+
+def _state_frame(values: np.ndarray, model: Any, columns) -> pd.DataFrame:
+    values = np.asarray(values, dtype=float)
+    return pd.DataFrame(values, index=_rows(model, len(values)), columns=list(columns))
 
 
 def _emission_blocks(model: Any, sub: Section, scheme) -> None:
@@ -165,11 +166,12 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
             trend = np.asarray(piece.trendprob_, dtype=float)  # (S, below, above)
             cats = list(piece.categories)
             rows = []
-            for s, label in enumerate(model.states_.labels()):
+            index = _rows(model, len(trend))
+            for s, label in enumerate(index):
                 for g, below in enumerate(cats):
                     rows.append(
                         {
-                            "state": label,
+                            index.name: label,
                             "facies below": below,
                             **dict(zip(cats, trend[s, g], strict=True)),
                         }
@@ -204,7 +206,7 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
                                 "share deeper": deeper
                                 / np.where(deeper + shallower > 0, deeper + shallower, 1),
                             },
-                            index=pd.Index(model.states_.labels(), name="state"),
+                            index=index,
                         ),
                     )
                 )
@@ -218,7 +220,7 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
                             (trend * (change > 0)).sum(axis=2) * first_p
                         ).sum(axis=1),
                     },
-                    index=pd.Index(model.states_.labels(), name="state"),
+                    index=index,
                 )
                 sub.add(
                     TableBlock(
@@ -254,7 +256,7 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
         elif hasattr(piece, "means_"):
             frame = pd.DataFrame(
                 {"mean": piece.means_, "sd": np.sqrt(np.asarray(piece.vars_, dtype=float))},
-                index=pd.Index(model.states_.labels(), name="state"),
+                index=_rows(model, len(piece.means_)),
             )
             sub.add(
                 TableBlock(
