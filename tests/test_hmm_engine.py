@@ -572,12 +572,15 @@ def test_viterbi_on_a_sparse_graph_matches_hmmlearn(case, batch_size):
         assert abs(log_prob.sum() - total_ref) < 1e-8
 
 
+@pytest.mark.parametrize("wide", [False, True])
 @pytest.mark.parametrize("sparse", [False, True])
-def test_max_plus_step_is_exact(sparse, monkeypatch):
+def test_max_plus_step_is_exact(sparse, wide, monkeypatch):
     # One step of the recursion against its definition, max_i (delta_i + log A_ik),
-    # bit for bit: with -inf in delta (dead states), a state no other state
-    # reaches (sparse graph), work split into chunks of 3 sequences, fewer
-    # sequences than the previous step held, and widths changing between calls.
+    # bit for bit, in the layouts of narrow and of wide steps: with -inf in
+    # delta (dead states), a state no other state reaches (sparse graph), work
+    # split into chunks of 3 sequences, fewer sequences than the previous step
+    # held, and widths changing between calls.
+    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
     rng = np.random.default_rng(8)
     K, n = 9, 20
     transmat = _tract_graph(rng, K) if sparse else rng.dirichlet(np.ones(K), size=K)
@@ -600,11 +603,14 @@ def test_max_plus_step_is_exact(sparse, monkeypatch):
             np.testing.assert_array_equal(out, expected[:, :m])
 
 
-def test_back_step_takes_the_lowest_of_tied_predecessors():
+@pytest.mark.parametrize("wide", [False, True])
+def test_back_step_takes_the_lowest_of_tied_predecessors(wide, monkeypatch):
     # Backtracking's argmax_i (delta_i + log A_ik) against numpy's argmax (lowest
     # index on ties, as hmmlearn), with exact ties of two and three
     # predecessors, a forbidden predecessor holding the largest delta, a column
-    # of -inf (all candidates tied), and fewer results asked than columns given.
+    # of -inf (all candidates tied), and fewer results asked than columns given;
+    # in the layouts of narrow and of wide steps.
+    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
     K = 4
     with np.errstate(divide="ignore"):
         log_A = np.log(
@@ -653,15 +659,19 @@ def _viterbi_one_by_one(log_emission, lengths, startprob, transmat):
     return np.concatenate(paths), np.array(log_probs)
 
 
+@pytest.mark.parametrize("wide_step", [1, 32, 10**6])
 @pytest.mark.parametrize("batch_size", [None, 1, 37])
-def test_viterbi_padding_columns_change_no_path(batch_size):
+def test_viterbi_padding_columns_change_no_path(batch_size, wide_step, monkeypatch):
     # Each step of a batch is padded to a multiple of 16 sequences with the rows
     # that follow. Here the symbols are impossible in most states (zero
     # emissions: -inf in the padding columns), the sequences end at steps on
     # both sides of multiples of 16 (70 of 1 to 40 rows, one-bed ones
     # included) and one is 16 times longer than most: the same paths and
     # log-probabilities, bit for bit, as the definition run one sequence at a
-    # time, and the same total as hmmlearn 0.3.3 CategoricalHMM decode.
+    # time, and the same total as hmmlearn 0.3.3 CategoricalHMM decode. Every
+    # step laid out as a wide one (padded), the steps of 32 sequences or more
+    # (then the narrower ones as narrow steps), or every step as a narrow one.
+    monkeypatch.setattr(engine, "_WIDE_STEP", wide_step)
     rng = np.random.default_rng(16)
     K, n_symbols = 6, 9
     startprob, transmat, emission = _random_model(rng, K, n_symbols)
