@@ -611,11 +611,15 @@ def test_viterbi_on_a_sparse_graph_matches_hmmlearn(case, batch_size):
         assert abs(log_prob.sum() - total_ref) < 1e-8
 
 
+@pytest.mark.parametrize("wide", [False, True])
 @pytest.mark.parametrize("sparse", [False, True])
-def test_max_plus_step_is_exact(sparse, monkeypatch):
+def test_max_plus_step_is_exact(sparse, wide, monkeypatch):
     # One step of the recursion against its definition, max_i (delta_i + log A_ik),
-    # bit for bit: with -inf in delta (dead states), a state no other state
-    # reaches (sparse graph) and work split into chunks of 3 sequences.
+    # bit for bit, in the layouts of narrow and of wide steps: with -inf in
+    # delta (dead states), a state no other state reaches (sparse graph), work
+    # split into chunks of 3 sequences, fewer sequences than the previous step
+    # held, and widths changing between calls.
+    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
     rng = np.random.default_rng(8)
     K, n = 9, 20
     transmat = _tract_graph(rng, K) if sparse else rng.dirichlet(np.ones(K), size=K)
@@ -628,13 +632,108 @@ def test_max_plus_step_is_exact(sparse, monkeypatch):
     delta[:, 0] = -np.inf
     expected = (delta[:, None, :] + log_A[:, :, None]).max(axis=0)
     cells_per_sequence = (3 if sparse else K) * K
-    for width in (n, 3):
-        monkeypatch.setattr(engine, "_STEP_CELLS", width * cells_per_sequence)
+    for span in (n, 3):
+        monkeypatch.setattr(engine, "_STEP_CELLS", span * cells_per_sequence)
         step = engine._MaxPlus(log_A, n)
-        assert (step.sparse, step.width) == (sparse, width)
-        out = np.empty((K, n))
-        step(delta, out)
-        np.testing.assert_array_equal(out, expected)
+        assert (step.sparse, step.span) == (sparse, span)
+        for m in (n, 7, 16, n):
+            out = np.full((K, m), np.nan)
+            step(delta, out)
+            np.testing.assert_array_equal(out, expected[:, :m])
+
+
+@pytest.mark.parametrize("wide", [False, True])
+def test_back_step_takes_the_lowest_of_tied_predecessors(wide, monkeypatch):
+    # Backtracking's argmax_i (delta_i + log A_ik) against numpy's argmax (lowest
+    # index on ties, as hmmlearn), with exact ties of two and three
+    # predecessors, a forbidden predecessor holding the largest delta, a column
+    # of -inf (all candidates tied), and fewer results asked than columns given;
+    # in the layouts of narrow and of wide steps.
+    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
+    K = 4
+    with np.errstate(divide="ignore"):
+        log_A = np.log(
+            [
+                [0.25, 0.5, 0.0, 0.25],
+                [0.25, 0.25, 0.5, 0.0],
+                [0.25, 0.25, 0.25, 0.25],
+                [0.25, 0.5, 0.25, 0.0],
+            ]
+        )
+    delta = np.array(
+        [
+            [-5.0, -2.0, 0.0, -np.inf, -1.0],
+            [-1.0, -3.0, -3.0, -np.inf, -1.0],
+            [-1.0, -3.0, -1.0, -np.inf, -1.0],
+            [-1.0, -2.0, -1.0, -np.inf, 0.0],
+        ]
+    )
+    state = np.array([0, 1, 2, 1, 0])
+    expected = (delta + log_A[:, state]).argmax(axis=0)
+    assert expected.tolist() == [1, 0, 2, 0, 3]
+    back = engine._BackStep(log_A, 8)
+    wider = np.hstack([delta, np.zeros((K, 3))])  # the previous step held more columns
+    for n in (5, 3):
+        out = np.full(n, -1)
+        back(wider, state, out)
+        assert out.tolist() == expected[:n].tolist()
+
+
+def _viterbi_one_by_one(log_emission, lengths, startprob, transmat):
+    """Viterbi by its definition (Rabiner 1989, eqs. 32-35), one sequence and one
+    step at a time, in the same floating-point operations as hmmlearn's loop;
+    ties to the lowest state."""
+    with np.errstate(divide="ignore"):
+        log_pi, log_A = np.log(startprob), np.log(transmat)
+    paths, log_probs = [], []
+    for le in _split(log_emission, lengths):
+        deltas = [log_pi + le[0]]
+        for row in le[1:]:
+            deltas.append((deltas[-1][:, None] + log_A).max(axis=0) + row)
+        path = [int(np.argmax(deltas[-1]))]
+        log_probs.append(deltas[-1][path[0]])
+        for delta in deltas[-2::-1]:
+            path.append(int(np.argmax(delta + log_A[:, path[-1]])))
+        paths.append(path[::-1])
+    return np.concatenate(paths), np.array(log_probs)
+
+
+@pytest.mark.parametrize("wide_step", [1, 32, 10**6])
+@pytest.mark.parametrize("batch_size", [None, 1, 37])
+def test_viterbi_padding_columns_change_no_path(batch_size, wide_step, monkeypatch):
+    # Each step of a batch is padded to a multiple of 16 sequences with the rows
+    # that follow. Here the symbols are impossible in most states (zero
+    # emissions: -inf in the padding columns), the sequences end at steps on
+    # both sides of multiples of 16 (70 of 1 to 40 rows, one-bed ones
+    # included) and one is 16 times longer than most: the same paths and
+    # log-probabilities, bit for bit, as the definition run one sequence at a
+    # time, and the same total as hmmlearn 0.3.3 CategoricalHMM decode. Every
+    # step laid out as a wide one (padded), the steps of 32 sequences or more
+    # (then the narrower ones as narrow steps), or every step as a narrow one.
+    monkeypatch.setattr(engine, "_WIDE_STEP", wide_step)
+    rng = np.random.default_rng(16)
+    K, n_symbols = 6, 9
+    startprob, transmat, emission = _random_model(rng, K, n_symbols)
+    emission[rng.random(emission.shape) < 0.6] = 0.0
+    somewhere = rng.integers(0, K, size=n_symbols)  # a state that emits each symbol
+    emission[somewhere, np.arange(n_symbols)] = rng.uniform(0.3, 0.7, n_symbols)
+    emission /= emission.sum(axis=1, keepdims=True)
+    transmat = 0.9 * transmat + 0.1 / K  # every symbol string stays possible
+    lengths = np.concatenate([rng.integers(1, 40, size=70), [1, 640]])
+    symbols = rng.integers(0, n_symbols, size=lengths.sum())
+    with np.errstate(divide="ignore"):
+        table = np.log(emission).T
+    path_ref, log_prob_ref = _viterbi_one_by_one(table[symbols], lengths, startprob, transmat)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no invalid or overflow warnings from padding
+        path, log_prob = viterbi(
+            table, lengths, startprob, transmat, batch_size=batch_size, codes=symbols
+        )
+    np.testing.assert_array_equal(path, path_ref)
+    np.testing.assert_array_equal(log_prob, log_prob_ref)
+    model = _hmmlearn(startprob, transmat, emission, "log")
+    total_ref, _ = model.decode(symbols[:, None], lengths, algorithm="viterbi")
+    assert abs(log_prob.sum() - total_ref) < 1e-8
 
 
 def test_viterbi_with_steps_in_chunks(case, monkeypatch):
