@@ -168,54 +168,23 @@ def run_appendix(
     )
 
     labelled = bool(labels) and has_labels(usable, labels)
-    fit_notes: list[str] = []
-    selection = None
+    settings = {
+        "tract_model": tract_model,
+        "scheme": scheme,
+        "n_restarts": n_restarts,
+        "unit": unit,
+        "step": step,
+        **parallel,
+    }
     if model is None:
-        from faciesseq.hmm.selection import select_model
-
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            # supervised: fitted on the interpreted cores (semi-supervised EM over
-            # the other cores measured worse in cross-validation; docs/hmm.md)
-            selection = select_model(
-                usable.subset(labelled_cores(usable, labels)) if labelled else usable,
-                substates=tuple(int(k) for k in substates),
-                labels=labels if labelled else None,
-                tract_model=tract_model,
-                scheme=scheme,
-                n_restarts=n_restarts,
-                unit=unit,
-                step=step,
-                random_state=seed,
-                **parallel,
-            )
-            model = selection.best
-        fit_notes = _dedupe(str(w.message) for w in caught)
-        how = (
-            f"supervised: fitted on the {len(labelled_cores(usable, labels))} cores with "
-            f"interpreted beds in column {labels!r}, which keep their tract"
-            if labelled
-            else "unsupervised"
+        model, selection, note, fit_notes = _fit_default(
+            usable, labels if labelled else None, substates, seed, settings
         )
-        note = (
-            "No model file was given: the tract model was fitted to these cores with the "
-            f"default settings ({how}; {n_restarts} restarts, seed {seed})"
-            + (
-                f", with {', '.join(map(str, substates))} sub-states per tract compared by BIC "
-                f"(kept: {', '.join(map(str, model.states_.substates))})."
-                if len(substates) > 1
-                else "."
-            )
-        )
-        if fit_notes:
-            note += (
-                f" {len(fit_notes)} warning(s) while fitting (all in "
-                f"tables/model_fit_warnings.csv); the first: {fit_notes[0]}"
-            )
         _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
     else:
         from faciesseq.report.provenance import display_path
 
+        selection, fit_notes = None, []
         note = (
             f"Model read from {display_path(model_source)}."
             if model_source
@@ -229,32 +198,12 @@ def run_appendix(
     notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
-    validation = None
-    validation_reason = None
-    validation_notes: list[str] = []
+    validation, validation_reason, validation_notes = None, None, []
     if labelled:
-        from faciesseq.validation import cross_validate
-
         try:
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always")
-                validation = cross_validate(
-                    usable,
-                    labels,
-                    folds=min(folds, len(usable)),
-                    mode=validate_mode,
-                    random_state=seed,
-                    tract_model=tract_model,
-                    scheme=scheme,
-                    unit=unit,
-                    step=step,
-                    n_restarts=n_restarts,
-                    # the folds refit the kept model's design
-                    substates=dict(zip(model.states_.tracts, model.states_.substates, strict=True)),
-                    features=list(model.features_),
-                    **parallel,
-                )
-            validation_notes = _dedupe(str(w.message) for w in caught)
+            validation, validation_notes = _cross_validate(
+                usable, labels, model, folds, validate_mode, seed, settings
+            )
             _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
         except FaciesseqError as exc:
             validation_reason = f"cross-validation could not be run on these labels: {exc}"
@@ -285,6 +234,75 @@ def run_appendix(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
     )
     return RunResult(appendix, markov, model, interpretation, validation, notes)
+
+
+def _fit_default(cores: CoreSet, labels: str | None, substates, seed: int, settings: dict):
+    """The tract model the appendix fits when no model is given: supervised on the
+    interpreted cores (``labels``), else unsupervised on every core, the sub-state
+    counts compared by BIC; ``(model, selection, note, warnings)``."""
+    from faciesseq.hmm.selection import select_model
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        # supervised: fitted on the interpreted cores (semi-supervised EM over
+        # the other cores measured worse in cross-validation; docs/hmm.md)
+        selection = select_model(
+            cores.subset(labelled_cores(cores, labels)) if labels else cores,
+            substates=tuple(int(k) for k in substates),
+            labels=labels,
+            random_state=seed,
+            **settings,
+        )
+        model = selection.best
+    fit_notes = _dedupe(str(w.message) for w in caught)
+    how = (
+        f"supervised: fitted on the {len(labelled_cores(cores, labels))} cores with "
+        f"interpreted beds in column {labels!r}, which keep their tract"
+        if labels
+        else "unsupervised"
+    )
+    note = (
+        "No model file was given: the tract model was fitted to these cores with the "
+        f"default settings ({how}; {settings['n_restarts']} restarts, seed {seed})"
+        + (
+            f", with {', '.join(map(str, substates))} sub-states per tract compared by BIC "
+            f"(kept: {', '.join(map(str, model.states_.substates))})."
+            if len(substates) > 1
+            else "."
+        )
+    )
+    if fit_notes:
+        note += (
+            f" {len(fit_notes)} warning(s) while fitting (all in "
+            f"tables/model_fit_warnings.csv); the first: {fit_notes[0]}"
+        )
+    return model, selection, note, fit_notes
+
+
+def _cross_validate(cores: CoreSet, labels: str, model, folds, mode, seed, settings: dict):
+    """Cross-validation by core of the kept model's design; ``(validation, warnings)``."""
+    from faciesseq.validation import cross_validate
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        validation = cross_validate(
+            cores,
+            labels,
+            folds=min(folds, len(cores)),
+            mode=mode,
+            random_state=seed,
+            tract_model=settings["tract_model"],
+            scheme=settings["scheme"],
+            unit=settings["unit"],
+            step=settings["step"],
+            n_restarts=settings["n_restarts"],
+            # the folds refit the kept model's design
+            substates=dict(zip(model.states_.tracts, model.states_.substates, strict=True)),
+            features=list(model.features_),
+            n_jobs=settings["n_jobs"],
+            scheduler=settings["scheduler"],
+        )
+    return validation, _dedupe(str(w.message) for w in caught)
 
 
 def _dedupe(messages) -> list[str]:
