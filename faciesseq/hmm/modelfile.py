@@ -231,6 +231,47 @@ def _probabilities(name: str, value: Any, shape: tuple[int, ...], source: str) -
 
 def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     """Rebuild and validate a model from its JSON document."""
+    _check_format(doc, source)
+    model, states = _model_of(doc, source)
+    params = doc["parameters"]
+    startprob, transmat = _chain(params, states, source)
+    facies = _get(doc, "facies", list, source)
+    contacts = _get(doc, "contacts", list, source)
+    ranks = doc.get("ranks")
+    pieces = _pieces(params, model.features, facies, contacts, ranks, states, source)
+    temperature = _temperature(params, source)
+    features = model.features
+    training = doc.get("training") or {}
+    model.temperature_ = float(temperature)
+    model.calibration_ = training.get("calibration")
+    model.states_ = states
+    model.features_ = features
+    model.facies_ = tuple(str(c) for c in facies)
+    model.contacts_ = tuple(str(c) for c in contacts)
+    model.ranks_ = None if ranks is None else np.asarray(ranks, dtype=float)
+    if model.ranks_ is not None and model.ranks_.shape != (len(facies),):
+        raise ModelFileError("ranks: one rank per facies expected", file=source)
+    model.emissions_ = pieces
+    model.startprob_ = startprob
+    model.transmat_ = transmat
+    model.log_likelihood_ = float(training.get("log_likelihood", float("nan")) or float("nan"))
+    model.objective_ = float(training.get("objective", float("nan")) or float("nan"))
+    model.n_train_beds_ = int(training.get("n_beds", 0) or 0)
+    model.n_labelled_ = int(training.get("n_labelled", 0) or 0)
+    model.cores_ = tuple(training.get("cores", ()))
+    model.restarts_ = list(training.get("restarts", []))
+    model.graph_selection_ = list(training.get("graph_selection", []))
+    model.best_restart_ = int(training.get("best_restart", 0) or 0)
+    history = []
+    if model.restarts_ and model.best_restart_ < len(model.restarts_):
+        history = list(model.restarts_[model.best_restart_].get("history", []))
+    model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history, model.n_train_beds_)
+    model.training_ = dict(training)
+    return model
+
+
+def _check_format(doc: Any, source: str) -> None:
+    """A faciesseq model document of the version this release reads."""
     if not isinstance(doc, Mapping):
         raise ModelFileError("not a faciesseq model file (expected a JSON object)", file=source)
     if doc.get("format") != FORMAT:
@@ -244,6 +285,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             f"reads version {VERSION}); refit the model with this version",
             file=source,
         )
+
+
+def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
+    """The unfitted model the document's tract model, scheme, hyper-parameters and
+    states describe, with its state space (checked against the transition table)."""
     try:
         tract_model = TractModel.from_dict(_get(doc, "tract_model", dict, source), source=source)
         raw_scheme = doc.get("scheme")
@@ -296,6 +342,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             f"states {states_doc.get('labels')} do not match the tract model ({states.labels()})",
             file=source,
         )
+    return model, states
+
+
+def _chain(params: Mapping, states: StateSpace, source: str) -> tuple[np.ndarray, np.ndarray]:
+    """Start and transition probabilities, every transition inside the tract graph."""
     K = states.n_states
     startprob = _probabilities("parameters.startprob", params.get("startprob"), (K,), source)
     transmat = _probabilities("parameters.transmat", params.get("transmat"), (K, K), source)
@@ -308,9 +359,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             "graph but not zero",
             file=source,
         )
-    facies = _get(doc, "facies", list, source)
-    contacts = _get(doc, "contacts", list, source)
-    ranks = doc.get("ranks")
+    return startprob, transmat
+
+
+def _pieces(params, features, facies, contacts, ranks, states, source) -> list:
+    """The emission pieces, one per feature, with the model's categories."""
     emissions_doc = params.get("emissions")
     if not isinstance(emissions_doc, list) or len(emissions_doc) != len(features):
         raise ModelFileError(
@@ -338,6 +391,11 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
                 f"emission {feature!r}: categories differ from the model's list", file=source
             )
         pieces.append(piece)
+    return pieces
+
+
+def _temperature(params: Mapping, source: str) -> float:
+    """The posterior temperature, inside the bounds calibration may choose."""
     temperature = params.get("temperature", 1.0)
     if (
         isinstance(temperature, bool)
@@ -349,33 +407,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
             f"{TEMPERATURE_BOUNDS[1]}], got {temperature!r}",
             file=source,
         )
-    training = doc.get("training") or {}
-    model.temperature_ = float(temperature)
-    model.calibration_ = training.get("calibration")
-    model.states_ = states
-    model.features_ = features
-    model.facies_ = tuple(str(c) for c in facies)
-    model.contacts_ = tuple(str(c) for c in contacts)
-    model.ranks_ = None if ranks is None else np.asarray(ranks, dtype=float)
-    if model.ranks_ is not None and model.ranks_.shape != (len(facies),):
-        raise ModelFileError("ranks: one rank per facies expected", file=source)
-    model.emissions_ = pieces
-    model.startprob_ = startprob
-    model.transmat_ = transmat
-    model.log_likelihood_ = float(training.get("log_likelihood", float("nan")) or float("nan"))
-    model.objective_ = float(training.get("objective", float("nan")) or float("nan"))
-    model.n_train_beds_ = int(training.get("n_beds", 0) or 0)
-    model.n_labelled_ = int(training.get("n_labelled", 0) or 0)
-    model.cores_ = tuple(training.get("cores", ()))
-    model.restarts_ = list(training.get("restarts", []))
-    model.graph_selection_ = list(training.get("graph_selection", []))
-    model.best_restart_ = int(training.get("best_restart", 0) or 0)
-    history = []
-    if model.restarts_ and model.best_restart_ < len(model.restarts_):
-        history = list(model.restarts_[model.best_restart_].get("history", []))
-    model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history, model.n_train_beds_)
-    model.training_ = dict(training)
-    return model
+    return float(temperature)
 
 
 def load_model(path: str | Path) -> TractHMM:
