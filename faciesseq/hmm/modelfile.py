@@ -241,29 +241,27 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     pieces = _pieces(params, model.features, facies, contacts, ranks, states, source)
     temperature = _temperature(params, source)
     features = model.features
-    training = doc.get("training") or {}
+    training = _training(doc, source)
     model.temperature_ = float(temperature)
     model.calibration_ = training.get("calibration")
     model.states_ = states
     model.features_ = features
     model.facies_ = tuple(str(c) for c in facies)
     model.contacts_ = tuple(str(c) for c in contacts)
-    model.ranks_ = None if ranks is None else np.asarray(ranks, dtype=float)
-    if model.ranks_ is not None and model.ranks_.shape != (len(facies),):
-        raise ModelFileError("ranks: one rank per facies expected", file=source)
+    model.ranks_ = _ranks(ranks, len(facies), source)
     model.emissions_ = pieces
     model.startprob_ = startprob
     model.transmat_ = transmat
-    model.log_likelihood_ = float(training.get("log_likelihood", float("nan")) or float("nan"))
-    model.objective_ = float(training.get("objective", float("nan")) or float("nan"))
-    model.n_train_beds_ = int(training.get("n_beds", 0) or 0)
-    model.n_labelled_ = int(training.get("n_labelled", 0) or 0)
-    model.cores_ = tuple(training.get("cores", ()))
+    model.log_likelihood_ = float(training.get("log_likelihood") or float("nan"))
+    model.objective_ = float(training.get("objective") or float("nan"))
+    model.n_train_beds_ = int(training.get("n_beds") or 0)
+    model.n_labelled_ = int(training.get("n_labelled") or 0)
+    model.cores_ = tuple(str(c) for c in training.get("cores", ()))
     model.restarts_ = list(training.get("restarts", []))
     model.graph_selection_ = list(training.get("graph_selection", []))
-    model.best_restart_ = int(training.get("best_restart", 0) or 0)
+    model.best_restart_ = int(training.get("best_restart") or 0)
     history = []
-    if model.restarts_ and model.best_restart_ < len(model.restarts_):
+    if model.best_restart_ < len(model.restarts_):
         history = list(model.restarts_[model.best_restart_].get("history", []))
     model.monitor_ = ConvergenceMonitor(model.tol, model.max_iter, history, model.n_train_beds_)
     model.training_ = dict(training)
@@ -392,6 +390,63 @@ def _pieces(params, features, facies, contacts, ranks, states, source) -> list:
             )
         pieces.append(piece)
     return pieces
+
+
+#: Entries of a model file's ``training`` section and the JSON types each may take
+#: (``None`` allowed for all: older files leave some out).
+_TRAINING_TYPES = {
+    "log_likelihood": (int, float),
+    "objective": (int, float),
+    "n_beds": int,
+    "n_labelled": int,
+    "best_restart": int,
+    "cores": list,
+    "restarts": list,
+    "graph_selection": list,
+}  # "calibration" may be anything: the report says when it is not a record
+
+
+def _training(doc: Mapping, source: str) -> Mapping:
+    """The ``training`` section (a record of the fit), its entries of the right types:
+    numbers finite and counts not negative, each restart an object whose history is a
+    list of numbers."""
+    training = doc.get("training") or {}
+    if not isinstance(training, Mapping):
+        raise ModelFileError("training: an object expected", file=source)
+    for key, kind in _TRAINING_TYPES.items():
+        value = training.get(key)
+        if value is None:
+            continue
+        ok = isinstance(value, kind) and not isinstance(value, bool)
+        if ok and isinstance(value, int | float):
+            ok = math.isfinite(value) and (kind is not int or 0 <= value < 2**31)
+        if not ok:
+            raise ModelFileError(f"training.{key}: {value!r} is not valid here", file=source)
+    for r in training.get("restarts") or []:
+        history = r.get("history", []) if isinstance(r, Mapping) else None
+        if not isinstance(history, list) or not all(
+            isinstance(x, int | float) and not isinstance(x, bool) for x in history
+        ):
+            raise ModelFileError(
+                "training.restarts: each an object with a history of numbers", file=source
+            )
+    return training
+
+
+def _ranks(ranks: Any, n_facies: int, source: str) -> np.ndarray | None:
+    """The facies ranks: ``None``, or one finite number per facies."""
+    if ranks is None:
+        return None
+    if (
+        not isinstance(ranks, list)
+        or len(ranks) != n_facies
+        or not all(
+            isinstance(r, int | float) and not isinstance(r, bool) and math.isfinite(r)
+            for r in ranks
+        )
+    ):
+        raise ModelFileError("ranks: one finite number per facies expected", file=source)
+    return np.asarray(ranks, dtype=float)
 
 
 def _temperature(params: Mapping, source: str) -> float:

@@ -50,16 +50,22 @@ _KINDS = {
 def piece_from_dict(data: Any, n_tracts: int, source: str | None = None) -> EmissionPiece:
     """Rebuild an emission piece from :meth:`EmissionPiece.to_dict` output (validated)."""
     kinds = {**_KINDS, "context": ContextEmission}
-    if not isinstance(data, Mapping) or data.get("kind") not in kinds:
-        kind = data.get("kind") if isinstance(data, Mapping) else None
+    kind = data.get("kind") if isinstance(data, Mapping) else None
+    if not isinstance(kind, str) or kind not in kinds:
         raise ModelFileError(
             f"unknown emission kind {kind!r}; expected one of {sorted(kinds)}", file=source
         )
     try:
-        return kinds[data["kind"]].from_dict(data, n_tracts, source)
+        return kinds[kind].from_dict(data, n_tracts, source)
     except KeyError as exc:
         raise ModelFileError(
             f"emission {data.get('name')!r}: missing key {exc.args[0]!r}", file=source
+        ) from None
+    except (TypeError, ValueError, OverflowError, IndexError) as exc:
+        # a value of the wrong type or size anywhere in the entry (the tables and the
+        # trees check what they can; this names the rest)
+        raise ModelFileError(
+            f"emission {data.get('name')!r}: invalid entry ({exc})", file=source
         ) from None
 
 

@@ -280,8 +280,11 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
         )
         with chunks:
             frame = pd.concat(list(chunks), ignore_index=True)
-    except (pd.errors.ParserError, ValueError) as exc:
-        raise InputError(f"not a readable delimited table: {exc}", file=file) from None
+    except (pd.errors.ParserError, ValueError, csv.Error) as exc:  # csv: the Python parser
+        why = str(exc)
+        if isinstance(exc, csv.Error) and "new-line character" in why:
+            why = "a line break (carriage return) inside a field; save with ordinary line ends"
+        raise InputError(f"not a readable delimited table: {why}", file=file) from None
     check_width(frame.shape[1], file)
     frame.columns = [str(c).strip() for c in frame.columns]
     for i in range(frame.shape[1]):  # a column at a time: one column's copy alive at once
