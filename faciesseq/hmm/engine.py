@@ -21,8 +21,8 @@ as ``codes``, took 0.30 of hmmlearn's CPU time on repeated iterations and 0.37
 on the first call after hmmlearn ran (2026-12-02, loaded 2-core machine); from
 the full log-emission array, 0.40 and 0.89 (the first call pays for fresh
 memory pages of the 128 MB array and of ``gamma``). Viterbi, whose maxima
-numpy cannot hand to BLAS, took 1.13 times the CPU time of hmmlearn's
-compiled loop with 16 states and a dense transition matrix, and 0.65 of it
+numpy cannot hand to BLAS, took 1.10 times the CPU time of hmmlearn's
+compiled loop with 16 states and a dense transition matrix, and 0.60 of it
 on a tract-shaped graph (2026-12-03; see :func:`viterbi`).
 
 Emissions: either the ``(T, K)`` log-emission array, or for a categorical
@@ -852,12 +852,13 @@ def viterbi(
     Why numpy and not compiled code: hmmlearn's compiled decode is the
     reference, but it takes no log-emission array and no clamped rows (see
     the module notes). On ``benchmarks/bench_em.py`` (1,000,000 observations,
-    16 states) this function took 1.13 times hmmlearn's CPU time with a
-    dense transition matrix and 0.65 of it with a tract-shaped one (3
+    16 states) this function took 1.10 times hmmlearn's CPU time with a
+    dense transition matrix and 0.60 of it with a tract-shaped one (3
     predecessors per state; repeated calls, ``benchmarks/hmm_engine.md``):
-    the ``K^2`` sums and maxima per row run at numpy's speed over memory,
-    about 0.45 ns per predecessor and target, which a compiled loop over one
-    row in registers beats. Two steps at once from per-code tables, pairwise halving in other
+    the ``K^2`` sums and maxima per row run at numpy's speed, about 0.4 ns
+    per predecessor and target, which a compiled loop over one row in
+    registers beats, and the 130 MB of ``delta`` are fresh memory pages at
+    every call. Two steps at once from per-code tables, pairwise halving in other
     layouts, pruning by sorted weights, a loop over the predecessors on
     cache-sized arrays and float32 were measured there and not kept (slower,
     or not the same numbers).
