@@ -745,3 +745,25 @@ def test_viterbi_with_steps_in_chunks(case, monkeypatch):
     path, lp = viterbi(le, lengths, startprob, transmat)
     np.testing.assert_array_equal(path, path_ref)
     np.testing.assert_array_equal(lp, lp_ref)
+
+
+@pytest.mark.parametrize(
+    "lengths, batch_size",
+    [
+        ([3, 2, 4], 100),  # one batch, rows from the (steps, sequences) grid
+        ([5, 1, 5, 2, 7, 7, 3], 9),  # several batches, ties in length
+        ([1, 640] + [1] * 40, 10**6),  # one long sequence: the grid would be mostly empty
+        ([1], 1),
+    ],
+)
+def test_lockstep_batches_are_the_batches_of_the_engine(lengths, batch_size):
+    # Viterbi's batches (rows from a grid, step and position on demand) hold the
+    # same sequences, steps and rows as the batches forward-backward uses.
+    lengths = np.array(lengths)
+    ours = list(engine._lockstep_batches(lengths, batch_size))
+    theirs = list(engine._batches(lengths, batch_size))
+    assert len(ours) == len(theirs)
+    for a, b in zip(ours, theirs):
+        for name in ("seq", "lengths", "counts", "offsets", "rows", "last", "step", "position"):
+            np.testing.assert_array_equal(getattr(a, name), getattr(b, name), err_msg=name)
+        assert a.n_rows == b.n_rows

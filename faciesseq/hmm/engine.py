@@ -21,8 +21,8 @@ as ``codes``, took 0.30 of hmmlearn's CPU time on repeated iterations and 0.37
 on the first call after hmmlearn ran (2026-12-02, loaded 2-core machine); from
 the full log-emission array, 0.40 and 0.89 (the first call pays for fresh
 memory pages of the 128 MB array and of ``gamma``). Viterbi, whose maxima
-numpy cannot hand to BLAS, took 1.13 times the CPU time of hmmlearn's
-compiled loop with 16 states and a dense transition matrix, and 0.65 of it
+numpy cannot hand to BLAS, took 1.10 times the CPU time of hmmlearn's
+compiled loop with 16 states and a dense transition matrix, and 0.60 of it
 on a tract-shaped graph (2026-12-03; see :func:`viterbi`).
 
 Emissions: either the ``(T, K)`` log-emission array, or for a categorical
@@ -368,10 +368,13 @@ class _Emissions:
         """``out = log p(obs | state)`` of the given input rows."""
         _take_rows(self.table, rows if self.codes is None else self.codes[rows], out)
 
-    def batch_index(self, rows: np.ndarray) -> np.ndarray:
-        """What :meth:`add_log_columns` takes for these input rows (their codes,
-        or the rows themselves), gathered once per batch."""
-        return rows if self.codes is None else self.codes[rows]
+    def batch_index(self, rows: np.ndarray, out: np.ndarray) -> None:
+        """``out`` = what :meth:`add_log_columns` takes for these input rows
+        (their codes, or the rows themselves), gathered once per batch."""
+        if self.codes is None:
+            np.copyto(out, rows)
+        else:
+            np.take(self.codes, rows, out=out, mode="wrap")
 
     def add_log_columns(self, index: np.ndarray, out: np.ndarray, work: np.ndarray) -> None:
         """``out += log p(obs | state)`` of the rows of ``index`` (from
@@ -849,12 +852,13 @@ def viterbi(
     Why numpy and not compiled code: hmmlearn's compiled decode is the
     reference, but it takes no log-emission array and no clamped rows (see
     the module notes). On ``benchmarks/bench_em.py`` (1,000,000 observations,
-    16 states) this function took 1.13 times hmmlearn's CPU time with a
-    dense transition matrix and 0.65 of it with a tract-shaped one (3
+    16 states) this function took 1.10 times hmmlearn's CPU time with a
+    dense transition matrix and 0.60 of it with a tract-shaped one (3
     predecessors per state; repeated calls, ``benchmarks/hmm_engine.md``):
-    the ``K^2`` sums and maxima per row run at numpy's speed over memory,
-    about 0.45 ns per predecessor and target, which a compiled loop over one
-    row in registers beats. Two steps at once from per-code tables, pairwise halving in other
+    the ``K^2`` sums and maxima per row run at numpy's speed, about 0.4 ns
+    per predecessor and target, which a compiled loop over one row in
+    registers beats, and the 130 MB of ``delta`` are fresh memory pages at
+    every call. Two steps at once from per-code tables, pairwise halving in other
     layouts, pruning by sorted weights, a loop over the predecessors on
     cache-sized arrays and float32 were measured there and not kept (slower,
     or not the same numbers).
@@ -892,7 +896,7 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
 
     path_out = np.empty(T, dtype=np.intp)
     log_prob = np.empty(lens.size)
-    batches = [_Steps(batch) for batch in _batches(lens, rows_per_batch)]
+    batches = [_Steps(batch) for batch in _lockstep_batches(lens, rows_per_batch)]
     widest = max(steps.widest for steps in batches)
     # delta of every step of a batch, each step a (K, width) block: the
     # sequences are the innermost, contiguous axis of every operation
@@ -900,7 +904,10 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
     step = _MaxPlus(log_A, widest, max(int(steps.batch.counts[0]) for steps in batches))
     back = _BackStep(log_A, widest)
     work = np.empty(widest * K)  # emissions of one step
-    tail = np.zeros(_STEP_PAD, dtype=np.intp)
+    # What the emissions of a batch's packed rows are looked up by, then
+    # (backtracking) the state of each packed row, the same memory for both,
+    # and _STEP_PAD entries more for the padding columns of the last steps.
+    index_path = np.empty(max(steps.batch.n_rows for steps in batches) + _STEP_PAD, dtype=np.intp)
     for steps in batches:
         batch = steps.batch
         N, B = batch.n_rows, batch.seq.size
@@ -911,7 +918,9 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
         # Column j of step t is packed row off[t] + j; the padding columns
         # (j >= counts[t]) take the rows that follow, or the tail: any valid
         # row will do, as no result is ever read from a padding column.
-        index = np.concatenate((source.batch_index(batch.rows), tail))
+        index = index_path[: N + _STEP_PAD]
+        source.batch_index(batch.rows, index[:N])
+        index[N:] = 0
         current = blocks[0]
         current[:] = log_pi[:, None]
         source.add_log_columns(index[: width[0]], current, work)
@@ -935,10 +944,11 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
             raise _impossible(batch, off[first] + j, "no path of non-zero probability")
         log_prob[batch.seq] = final_lp
 
-        # Backtracking over the packed rows; the states read for padding
-        # columns are those of the rows that follow, or the zeros of the tail.
-        # The sequences ending at step t - 1 already hold their final state.
-        path = np.zeros(N + _STEP_PAD, dtype=np.intp)
+        # Backtracking over the packed rows, in place of the index: the
+        # states read for padding columns are those of the rows that follow
+        # (steps already backtracked), or the zeros of the tail. The sequences
+        # ending at step t - 1 already hold their final state.
+        path = index
         path[batch.last] = final_state
         for t in range(len(counts) - 1, 0, -1):
             o, op = off[t], off[t - 1]
@@ -947,6 +957,53 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
         path_out[batch.rows] = path[:N]
 
     return path_out, log_prob
+
+
+class _LockstepBatch(_Batch):
+    """A :class:`_Batch` built in fewer passes over its rows, for :func:`_viterbi`.
+
+    ``rows`` is taken from the ``(steps, sequences)`` grid of every
+    sequence's input rows, where the batch fills at least half of the grid
+    (else as in :class:`_Batch`); ``step`` and ``position``, which only an
+    error message reads, are computed when asked for. Measured on the
+    benchmark's batch of 10^6 rows: 2.0 ms instead of 5.6 ms.
+    """
+
+    def __init__(self, seq: np.ndarray, lengths: np.ndarray, starts: np.ndarray) -> None:
+        self.seq = seq
+        self.lengths = lengths
+        n_steps, n_seq = int(lengths[0]), seq.size
+        self.counts = np.searchsorted(-lengths, -np.arange(n_steps), side="left")
+        self.offsets = np.concatenate(([0], np.cumsum(self.counts)))
+        n_rows = int(self.offsets[-1])
+        if n_steps * n_seq <= 2 * n_rows:
+            running = np.arange(n_seq) < self.counts[:, None]
+            self.rows = np.add.outer(np.arange(n_steps), starts[seq])[running]
+        else:
+            step = self.step
+            self.rows = starts[seq][np.arange(n_rows) - self.offsets[step]] + step
+        self.last = self.offsets[lengths - 1] + np.arange(n_seq)
+
+    @property
+    def step(self) -> np.ndarray:
+        return np.repeat(np.arange(self.counts.size), self.counts)
+
+    @property
+    def position(self) -> np.ndarray:
+        return np.arange(self.offsets[-1]) - self.offsets[self.step]
+
+
+def _lockstep_batches(lengths: np.ndarray, batch_size: int) -> Iterator[_LockstepBatch]:
+    """The batches of :func:`_batches`, the same split, as :class:`_LockstepBatch`."""
+    starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
+    order = np.argsort(-lengths, kind="stable")
+    sorted_len = lengths[order]
+    i, n = 0, len(order)
+    while i < n:
+        csum = np.cumsum(sorted_len[i:])
+        stop = i + max(1, int(np.searchsorted(csum, batch_size, side="right")))
+        yield _LockstepBatch(order[i:stop], sorted_len[i:stop], starts)
+        i = stop
 
 
 #: Sequences per Viterbi step are padded to a multiple of this (columns whose
