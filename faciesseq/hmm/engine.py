@@ -308,7 +308,9 @@ class _Batch:
         return int(self.rows.size)
 
 
-def _batches(lengths: np.ndarray, batch_size: int) -> Iterator[_Batch]:
+def _batches(lengths: np.ndarray, batch_size: int, make: type = _Batch) -> Iterator[_Batch]:
+    """Sequences grouped into batches of at most ``batch_size`` rows, longest first,
+    each made by ``make`` (:class:`_Batch`, or :class:`_LockstepBatch` for Viterbi)."""
     starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
     order = np.argsort(-lengths, kind="stable")
     sorted_len = lengths[order]
@@ -318,7 +320,7 @@ def _batches(lengths: np.ndarray, batch_size: int) -> Iterator[_Batch]:
         # (a single longer sequence is a batch of its own).
         csum = np.cumsum(sorted_len[i:])
         stop = i + max(1, int(np.searchsorted(csum, batch_size, side="right")))
-        yield _Batch(order[i:stop], sorted_len[i:stop], starts)
+        yield make(order[i:stop], sorted_len[i:stop], starts)
         i = stop
 
 
@@ -995,15 +997,7 @@ class _LockstepBatch(_Batch):
 
 def _lockstep_batches(lengths: np.ndarray, batch_size: int) -> Iterator[_LockstepBatch]:
     """The batches of :func:`_batches`, the same split, as :class:`_LockstepBatch`."""
-    starts = np.concatenate(([0], np.cumsum(lengths)[:-1]))
-    order = np.argsort(-lengths, kind="stable")
-    sorted_len = lengths[order]
-    i, n = 0, len(order)
-    while i < n:
-        csum = np.cumsum(sorted_len[i:])
-        stop = i + max(1, int(np.searchsorted(csum, batch_size, side="right")))
-        yield _LockstepBatch(order[i:stop], sorted_len[i:stop], starts)
-        i = stop
+    return _batches(lengths, batch_size, _LockstepBatch)
 
 
 #: Sequences per Viterbi step are padded to a multiple of this (columns whose
