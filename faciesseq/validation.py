@@ -348,6 +348,43 @@ def _has_label(succession: Succession, labels: str) -> bool:
     )
 
 
+def _core_frame(core: str, k: int, test, ci, base_tracts, labels: str, tracts):
+    """One decoded test core of fold ``k`` as rows of the scored-bed table, and its
+    beds with the interpreter's label (``_label``) for the surface errors."""
+    beds = ci.beds
+    # labels from the successions themselves, in the interpretation's depth order
+    # (segments in order, each top first): never from the decoded table, whose
+    # ``tract`` column is the model's
+    parts = sorted((s for s in test if s.core == core), key=lambda s: s.segment)
+    raw = np.concatenate([s.beds[labels].to_numpy(dtype=object)[::-1] for s in parts])
+    label = pd.Series(
+        [
+            None
+            if (v is None or (isinstance(v, float) and np.isnan(v)) or str(v).strip() == "")
+            else str(v).strip()
+            for v in raw
+        ],
+        index=beds.index,
+        dtype=object,
+    )
+    frame = pd.DataFrame(
+        {
+            "core": core,
+            "fold": k,
+            "segment": beds["segment"].to_numpy(),
+            "top": beds["top"].to_numpy(float),
+            "base": beds["base"].to_numpy(float),
+            "facies": beds["facies"].to_numpy(),
+            "label": label.to_numpy(),
+            "model": beds["tract"].to_numpy(),
+            "baseline": base_tracts,
+        }
+    )
+    for t in tracts:
+        frame[f"p_{t}"] = beds[f"p_{t}"].to_numpy(float)
+    return frame, beds.assign(_label=label.to_numpy())
+
+
 def cross_validate(
     successions: CoreSet | Sequence[Succession],
     labels: str,
@@ -427,43 +464,12 @@ def cross_validate(
         interp = model.decode(test)
         base = _baseline(test, interp, scheme, tract_model)
         for core in dict.fromkeys(s.core for s in test):
-            ci = interp[core]
-            beds = ci.beds
-            # labels from the successions themselves, in the interpretation's
-            # depth order (segments in order, each top first): never from the
-            # decoded table, whose ``tract`` column is the model's
-            parts = sorted((s for s in test if s.core == core), key=lambda s: s.segment)
-            raw = np.concatenate([s.beds[labels].to_numpy(dtype=object)[::-1] for s in parts])
-            label = pd.Series(
-                [
-                    None
-                    if (v is None or (isinstance(v, float) and np.isnan(v)) or str(v).strip() == "")
-                    else str(v).strip()
-                    for v in raw
-                ],
-                index=beds.index,
-                dtype=object,
+            frame, lab_beds = _core_frame(
+                core, k, test, interp[core], base[core][0], labels, tracts
             )
-            base_tracts, base_picks = base[core]
-            frame = pd.DataFrame(
-                {
-                    "core": core,
-                    "fold": k,
-                    "segment": beds["segment"].to_numpy(),
-                    "top": beds["top"].to_numpy(float),
-                    "base": beds["base"].to_numpy(float),
-                    "facies": beds["facies"].to_numpy(),
-                    "label": label.to_numpy(),
-                    "model": beds["tract"].to_numpy(),
-                    "baseline": base_tracts,
-                }
-            )
-            for t in tracts:
-                frame[f"p_{t}"] = beds[f"p_{t}"].to_numpy(float)
             frames.append(frame)
-            lab_beds = beds.assign(_label=label.to_numpy())
-            rows_model += _surface_errors(lab_beds, ci.picks, "_label", tract_model)
-            rows_base += _surface_errors(lab_beds, base_picks, "_label", tract_model)
+            rows_model += _surface_errors(lab_beds, interp[core].picks, "_label", tract_model)
+            rows_base += _surface_errors(lab_beds, base[core][1], "_label", tract_model)
         if progress is not None:
             progress(k + 1, folds)
     beds = pd.concat(frames, ignore_index=True)
