@@ -88,19 +88,31 @@ def check_target(
 def signals_held() -> Iterator[None]:
     """Ctrl-C and SIGTERM held back while a temporary file or folder is made and its
     name kept, so that an interruption never leaves one that nobody deletes; a signal
-    that came meanwhile is delivered as the block ends. Make the temporary inside the
-    ``try`` that deletes it, with the name set to ``None`` before it. Where signals
-    cannot be held (not the main thread's platform), the block simply runs."""
-    held = {signal.SIGINT, signal.SIGTERM}
+    that came meanwhile is raised again, to its own handler, as the block ends. Make
+    the temporary inside the ``try`` that deletes it, with the name set to ``None``
+    before it.
+
+    The signals are caught by a Python handler for the block (Python runs signal
+    handlers in the main thread, whichever thread the kernel hands a signal to; a
+    blocking mask would hold them in one thread only). Outside the main thread no
+    handler can be set, and the block simply runs."""
+    caught: list[int] = []
+    previous = {}
     try:
-        previous = signal.pthread_sigmask(signal.SIG_BLOCK, held)
-    except (AttributeError, ValueError, OSError):
+        for sig in (signal.SIGINT, signal.SIGTERM):
+            previous[sig] = signal.signal(sig, lambda signum, frame: caught.append(signum))
+    except (ValueError, OSError):  # not the main thread
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)
         yield
         return
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
+        for sig, handler in previous.items():
+            signal.signal(sig, signal.SIG_DFL if handler is None else handler)
+        for sig in dict.fromkeys(caught):
+            signal.raise_signal(sig)
 
 
 def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
