@@ -20,13 +20,15 @@ the model reads as one tract (argmax, not posterior draws) left it too sure.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 
 from faciesseq.hmm import engine
 from faciesseq.hmm.encoding import EncodedBeds
 
-__all__ = ["calibrate_by_simulation", "resample_cycles"]
+__all__ = ["CyclePool", "calibrate_by_simulation", "resample_cycles"]
 
 
 def _tract_posteriors(model, beds: EncodedBeds) -> np.ndarray:
@@ -47,13 +49,13 @@ def calibrate_by_simulation(model, beds: EncodedBeds, tables, rng) -> dict:
     from faciesseq.hmm.calibration import HeldOut, fit_temperature
 
     gamma = _tract_posteriors(model, beds)
-    cycle = _cycles(model, beds)
+    cycles = CyclePool.of(_cycles(model, beds), gamma)
     chosen = _simulated_lengths(beds.lengths, rng)
     pool = _pool(tables)
     frames, truth = [], []
     for n in chosen:
         path = model.states_.state_tract[_chain_path(model.startprob_, model.transmat_, n, rng)]
-        rows, kept = resample_cycles(path, cycle, gamma, rng)
+        rows, kept = resample_cycles(path, cycles, rng)
         frame = pool.iloc[rows].reset_index(drop=True)
         if model.unit == "beds":
             keep = _new_facies(frame["facies"].to_numpy(object))
@@ -112,22 +114,44 @@ def _new_facies(facies: np.ndarray) -> np.ndarray:
     return np.r_[True, facies[1:] != facies[:-1]] if len(facies) else np.zeros(0, bool)
 
 
-def resample_cycles(path: np.ndarray, cycle: np.ndarray, gamma: np.ndarray, rng) -> tuple:
+@dataclass(frozen=True)
+class CyclePool:
+    """The training cycles to draw from: beds per cycle, first bed of each, and per
+    tract the cumulative drawing weight of each cycle (its mean posterior probability
+    of that tract). Made once per calibration (a draw is then a search, not a pass
+    over every bed: the passes cost half a fit at 10^6 beds)."""
+
+    size: np.ndarray
+    start: np.ndarray
+    cdf: np.ndarray  # (n_tracts, n_cycles)
+
+    @classmethod
+    def of(cls, cycle: np.ndarray, gamma: np.ndarray) -> CyclePool:
+        """``cycle``: cycle index of every bed (in order); ``gamma``: ``(n_beds,
+        n_tracts)`` posterior tract probabilities."""
+        n_cycles = int(cycle[-1]) + 1 if len(cycle) else 0
+        size = np.bincount(cycle, minlength=n_cycles)
+        start = np.r_[0, np.cumsum(size)[:-1]]
+        weight = np.vstack(
+            [np.bincount(cycle, gamma[:, s], n_cycles) for s in range(gamma.shape[1])]
+        )
+        cdf = np.cumsum(weight / np.maximum(size, 1) + 1e-12, axis=1)
+        return cls(size, start, cdf)
+
+
+def resample_cycles(path: np.ndarray, cycles: CyclePool, rng) -> tuple:
     """Rows of real beds filling a simulated tract path, and the path's tract per row.
 
     Every run of one tract in ``path`` is filled with whole real cycles (the
     last one cut to fit), each drawn with probability proportional to the mean
-    posterior probability of that tract over its beds (``gamma``): cycles the
-    model is unsure of are drawn for several tracts, so the simulated cores are
-    as ambiguous as the model finds the real ones, and the parasequences keep
-    their inner order (a block bootstrap whose blocks are cycles; Kunsch 1989,
-    Ann. Statist. 17:1217-1241).
+    posterior probability of that tract over its beds (:class:`CyclePool`):
+    cycles the model is unsure of are drawn for several tracts, so the simulated
+    cores are as ambiguous as the model finds the real ones, and the
+    parasequences keep their inner order (a block bootstrap whose blocks are
+    cycles; Kunsch 1989, Ann. Statist. 17:1217-1241).
     """
-    n_cycles = int(cycle[-1]) + 1 if len(cycle) else 0
-    size = np.bincount(cycle, minlength=n_cycles)
-    start = np.r_[0, np.cumsum(size)[:-1]]
-    weight = np.vstack([np.bincount(cycle, gamma[:, s], n_cycles) for s in range(gamma.shape[1])])
-    cdf = np.cumsum(weight / np.maximum(size, 1) + 1e-12, axis=1)
+    size, start, cdf = cycles.size, cycles.start, cycles.cdf
+    n_cycles = len(size)
     rows, kept = [], []
     bounds = np.flatnonzero(np.r_[True, path[1:] != path[:-1]])
     for a, b in zip(bounds, np.r_[bounds[1:], len(path)], strict=True):
