@@ -25,7 +25,7 @@ from pathlib import Path
 
 from faciesseq.errors import ConfigError
 
-__all__ = ["check_target", "new_folder", "signals_held", "write_file"]
+__all__ = ["check_target", "new_folder", "signals_held", "temporary_folder", "write_file"]
 
 
 def current_umask() -> int:
@@ -115,6 +115,20 @@ def signals_held() -> Iterator[None]:
             signal.raise_signal(sig)
 
 
+@contextmanager
+def temporary_folder(prefix: str, parent: Path) -> Iterator[Path]:
+    """A new hidden folder in ``parent``, deleted with what is left in it when the block
+    ends, however it ends (made under :func:`signals_held`)."""
+    temp = None
+    try:
+        with signals_held():
+            temp = Path(tempfile.mkdtemp(prefix=prefix, dir=parent))
+        yield temp
+    finally:
+        if temp is not None:
+            shutil.rmtree(temp, ignore_errors=True)
+
+
 def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
     """Write ``data`` to a temporary sibling of ``path``, then rename it into place.
 
@@ -153,19 +167,13 @@ def _swap(temp: Path, target: Path) -> None:
     if not target.exists():
         os.replace(temp, target)
         return
-    trash = None
-    try:
-        with signals_held():
-            trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=_parent(target)))
+    with temporary_folder(f".{target.name}.old.", _parent(target)) as trash:
         os.replace(target, trash / target.name)
         try:
             os.replace(temp, target)
         except BaseException:
             os.replace(trash / target.name, target)  # put the old folder back
             raise
-    finally:
-        if trash is not None:
-            shutil.rmtree(trash, ignore_errors=True)
 
 
 @contextmanager
@@ -189,13 +197,7 @@ def new_folder(path: str | os.PathLike) -> Iterator[Path]:
         The temporary folder to fill.
     """
     target = Path(path)
-    temp = None
-    try:
-        with signals_held():
-            temp = Path(tempfile.mkdtemp(prefix=f".{target.name}.new.", dir=_parent(target)))
+    with temporary_folder(f".{target.name}.new.", _parent(target)) as temp:
         yield temp
         _swap(temp, target)
-    finally:
-        if temp is not None and temp.exists():
-            shutil.rmtree(temp, ignore_errors=True)
     target.chmod(0o777 & ~current_umask())

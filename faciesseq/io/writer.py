@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from faciesseq._output import signals_held
+from faciesseq._output import signals_held, temporary_folder
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 
@@ -133,10 +133,7 @@ def write_cores(
                 "format='las'",
                 file=str(path),
             )
-        tmpdir = None
-        try:
-            with signals_held():
-                tmpdir = Path(tempfile.mkdtemp(prefix=f".{path.name}.", dir=parent))
+        with temporary_folder(f".{path.name}.", parent) as tmpdir:
             used: set[str] = set()
             for core in cores:
                 stem = _safe(core.name, used)
@@ -147,9 +144,6 @@ def write_cores(
                 _replace_dir(tmpdir, path)
             else:
                 os.replace(tmpdir / path.name, path)
-        finally:
-            if tmpdir is not None:
-                shutil.rmtree(tmpdir, ignore_errors=True)
         return path
     tmp = None
     try:
