@@ -351,6 +351,7 @@ def test_emission_tables_of_a_fit_with_sub_states_have_one_row_per_tract():
     # emissions are per tract, chains per state: with two sub-states per tract a
     # labelled fit's trend piece has 4 rows for 8 states, and its tables say so
     import warnings
+    from pathlib import Path
 
     import pandas as pd
 
@@ -358,7 +359,7 @@ def test_emission_tables_of_a_fit_with_sub_states_have_one_row_per_tract():
     from faciesseq.hmm import TractHMM
     from faciesseq.report.model_section import model_section
 
-    root = __import__("pathlib").Path(__file__).resolve().parents[1]
+    root = Path(__file__).resolve().parents[1]
     scheme = load_scheme(root / "faciesseq" / "data" / "demo" / "scheme-shoreface.yaml")
     table = pd.read_csv(root / "faciesseq" / "data" / "demo" / "cores.csv")
     cores = CoreSet.from_frame(table[table["core"].isin(["QS-1", "QS-2"])], units="m")
