@@ -285,6 +285,8 @@ def _cross_validate(cores: CoreSet, labels: str, model, folds, mode, seed, setti
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
+        # named one by one, in this order: the validation records its settings in the
+        # order given, and the appendix's JSON shows them
         validation = cross_validate(
             cores,
             labels,
