@@ -213,7 +213,14 @@ def main(argv: list[str] | None = None) -> int:
         "--with-pseudo-well", action="store_true", help=f"keep {PSEUDO_WELL} (not a succession)"
     )
     parser.add_argument("--json", type=Path, help="also write the results as JSON here")
+    parser.add_argument(
+        "--weigh-evidence", action="store_true", help="fit with weigh_evidence=True"
+    )
     args = parser.parse_args(argv)
+    if args.weigh_evidence:
+        import eval_unsupervised
+
+        eval_unsupervised.MODEL = "weighted"
     t0 = time.perf_counter()
     print(f"## Council Grove half-cycles (`{args.data}`)\n")
     results = []

@@ -36,6 +36,10 @@ from faciesseq.hmm import TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
 
 
+#: ``--weigh-evidence``: fit with ``weigh_evidence=True``.
+WEIGH = "--weigh-evidence" in sys.argv[1:]
+
+
 def main() -> int:
     scheme = load_scheme(ROOT / "configs" / "scheme-shoreface.yaml")
     table = pd.read_csv(ROOT / "demo_cores" / "cores.csv")
@@ -49,7 +53,9 @@ def main() -> int:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         for name, labels in (("without labels", None), ("with the interpreters' labels", "tract")):
-            model = TractHMM(scheme=scheme, random_state=0).fit(cores, labels=labels)
+            model = TractHMM(scheme=scheme, random_state=0, weigh_evidence=WEIGH).fit(
+                cores, labels=labels
+            )
             rows[name] = score(model.decode(test), intervals, truth)
         rule = _RuleDecode(test, scheme)
         beds = pd.concat([s.beds.assign(core=s.core) for s in test.successions("beds")])

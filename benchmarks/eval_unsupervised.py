@@ -65,7 +65,8 @@ from faciesseq.scores import (  # noqa: E402
 )
 
 #: ``--model bed-level``: the tract model before the stacking context (bed-level
-#: pieces, permissive graph), kept as the named baseline of the comparison.
+#: pieces, permissive graph), kept as the named baseline of the comparison;
+#: ``--model weighted``: the default with ``weigh_evidence=True``.
 MODEL = "default"
 
 
@@ -82,7 +83,7 @@ def make_model(scheme, mode: str, seed: int):
         from faciesseq.scheme import permissive_tract_model
 
         return _BedLevel(scheme, seed, DEFAULT_FEATURES, permissive_tract_model())
-    return TractHMM(scheme=scheme, random_state=seed)
+    return TractHMM(scheme=scheme, random_state=seed, weigh_evidence=MODEL == "weighted")
 
 
 class _BedLevel:
@@ -411,9 +412,15 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--json", type=Path, help="also write the results as JSON here")
     parser.add_argument(
         "--model",
-        choices=("default", "bed-level"),
+        choices=("default", "weighted", "bed-level"),
         default="default",
-        help="the model measured: today's default, or the bed-level baseline",
+        help="the model measured: today's default, the default with evidence weights "
+        "(weigh_evidence=True), or the bed-level baseline",
+    )
+    parser.add_argument(
+        "--seeds",
+        metavar="FIT/DECODE",
+        help="other seeds than --tune's or the report's, e.g. 31,32,33/34,35",
     )
     parser.add_argument("--modes", default=",".join(MODES), help="comma-separated label modes")
     args = parser.parse_args(argv)
@@ -421,6 +428,11 @@ def main(argv: list[str] | None = None) -> int:
     MODEL = args.model
     kind = "tune" if args.tune else "report"
     fit_seeds, decode_seeds = (QUICK if args.quick else SEEDS)[kind]
+    if args.seeds:
+        kind = f"seeds {args.seeds}"
+        fit_seeds, decode_seeds = (
+            tuple(int(x) for x in part.split(",")) for part in args.seeds.split("/")
+        )
     assert not set(fit_seeds) & set(decode_seeds)
     paths = [ROOT / "configs" / n for n in (SCENARIOS[:1] if args.quick else SCENARIOS)]
     paths += [p.resolve() for p in args.scenario]

@@ -27,12 +27,20 @@ import numpy as np
 __all__ = [
     "CONTEXT_FEATURES",
     "Cycles",
+    "POSITION_HALF_WIDTH",
+    "TREND_HALF_WIDTH",
     "bed_context",
+    "beds_per_cycle",
     "cycle_inputs",
     "exposure_context",
     "facies_to_beds",
     "find_cycles",
 ]
+
+#: Beds on each side of a bed read by the ``trend`` and ``position`` context
+#: features (:func:`bed_context`).
+TREND_HALF_WIDTH = 3
+POSITION_HALF_WIDTH = 8
 
 #: Context features of a bed read by the tract model (see :func:`bed_context`).
 CONTEXT_FEATURES = (
@@ -175,6 +183,22 @@ def find_cycles(
     return Cycles(bed_cycle, cyc_lengths, base, top, total)
 
 
+def beds_per_cycle(
+    ranks: np.ndarray,
+    lengths: np.ndarray,
+    cycle_base: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
+) -> float:
+    """Mean number of beds in a cycle, the cycles cut as :func:`bed_context` cuts
+    them (arguments as there); 1 for no beds."""
+    lengths = np.asarray(lengths, dtype=np.int64)
+    n = int(lengths.sum())
+    if n == 0:
+        return 1.0
+    cycles = find_cycles(_fill_unknown(ranks, lengths), lengths, None, 1.0, cycle_base, nonmarine)
+    return n / max(cycles.n_cycles, 1)
+
+
 def _neighbour(
     values: np.ndarray, lengths: np.ndarray, shift: int, position: np.ndarray | None = None
 ) -> np.ndarray:
@@ -239,8 +263,8 @@ def bed_context(
     thickness: np.ndarray | None = None,
     flooding_step: float = 1.0,
     cycle_base: np.ndarray | None = None,
-    trend_half_width: int = 3,
-    position_half_width: int = 8,
+    trend_half_width: int = TREND_HALF_WIDTH,
+    position_half_width: int = POSITION_HALF_WIDTH,
     sharp: np.ndarray | None = None,
     nonmarine: np.ndarray | None = None,
     exposed: np.ndarray | None = None,

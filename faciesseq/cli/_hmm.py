@@ -72,6 +72,12 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         help="with labels on 2 or more cores, calibrate the tract probabilities by a "
         "temperature chosen by K folds of cross-validation by core (0 = off; default 5)",
     )
+    group.add_argument(
+        "--weigh-evidence",
+        action="store_true",
+        help="without labels: count the stacking context shared by the beds of a cycle "
+        "or window once, not once per bed (see docs/hmm.md before using it)",
+    )
 
 
 def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:

@@ -148,6 +148,7 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
                 n_jobs=parallel[0],
                 scheduler=parallel[1],
                 calibration_folds=args.calibration_folds,
+                weigh_evidence=args.weigh_evidence,
                 random_state=args.seed,
             )
         finally:

@@ -188,6 +188,7 @@ def run(args: argparse.Namespace) -> int:
                 n_jobs=n_jobs,
                 scheduler=scheduler,
                 calibration_folds=args.calibration_folds,
+                weigh_evidence=args.weigh_evidence,
             )
         finally:
             progress.close()

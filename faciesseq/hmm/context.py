@@ -27,6 +27,7 @@ from typing import Any
 
 import numpy as np
 
+from faciesseq.cycles import POSITION_HALF_WIDTH, TREND_HALF_WIDTH
 from faciesseq.errors import ModelFileError
 from faciesseq.hmm.emissions import CategoricalEmission, check_table
 from faciesseq.hmm.encoding import MISSING, EncodedBeds
@@ -35,6 +36,7 @@ __all__ = [
     "CONTEXT_BINS",
     "ContextEmission",
     "context_pseudo_counts",
+    "evidence_weights",
     "exposure_exclusions",
     "marine_half",
     "tract_levels",
@@ -187,8 +189,49 @@ def context_pseudo_counts(
     return np.maximum(out, MIN_PSEUDO)
 
 
+def evidence_weights(beds_per_cycle: float) -> dict[str, float]:
+    """The share of each context feature's evidence that is a bed's own.
+
+    A context feature is read from a window of beds, and the beds of one window
+    share it: every bed of a cycle has the same ``cycle_amplitude``, and the
+    ``trend`` of neighbouring beds is fitted to nearly the same ranks. Summed over
+    the beds as if each were new, such evidence would count once per bed that
+    shares it, and outweigh what each bed shows alone (its contact, its rank
+    step, its setting). Each feature's log-probability is therefore multiplied by
+    one over the number of beds its window spans: a composite likelihood with
+    weights (Lindsay 1988, Contemporary Mathematics 80:221-239; Varin, Reid &
+    Firth 2011, Statistica Sinica 21:5-42), here chosen from the windows'
+    definitions and the mean cycle length of the training beds, not fitted:
+
+    - ``trend`` and ``position``: the beds of their windows,
+      ``2 * half width + 1`` (:data:`faciesseq.cycles.TREND_HALF_WIDTH`,
+      :data:`~faciesseq.cycles.POSITION_HALF_WIDTH`);
+    - ``cycle_amplitude`` and ``cycle_sharpness``: the beds of one cycle;
+      ``base_shift``: of two (the cycle and the one below);
+      ``cycle_stacking`` and ``local_position``: of three (below, own, above);
+    - ``setting`` and ``exposure``: the bed alone (weight 1).
+
+    ``beds_per_cycle``: mean beds per cycle (:func:`faciesseq.cycles.beds_per_cycle`).
+    """
+    m = max(float(beds_per_cycle), 1.0)
+    return {
+        "trend": 1.0 / (2 * TREND_HALF_WIDTH + 1),
+        "position": 1.0 / (2 * POSITION_HALF_WIDTH + 1),
+        "cycle_amplitude": 1.0 / m,
+        "cycle_sharpness": 1.0 / m,
+        "base_shift": 1.0 / (2 * m),
+        "cycle_stacking": 1.0 / (3 * m),
+        "local_position": 1.0 / (3 * m),
+        "setting": 1.0,
+        "exposure": 1.0,
+    }
+
+
 class ContextEmission(CategoricalEmission):
-    """P(binned context feature | tract), one of :data:`CONTEXT_BINS`."""
+    """P(binned context feature | tract), one of :data:`CONTEXT_BINS`, its
+    log-probability multiplied by ``weight`` (:func:`evidence_weights`; 1 counts
+    every bed in full). The M-step of a weighted table is that of its weighted
+    counts, so EM still never lowers the weighted objective."""
 
     kind = "context"
 
@@ -199,8 +242,10 @@ class ContextEmission(CategoricalEmission):
         pseudo: np.ndarray | None = None,
         unseen_pseudo: float = 0.5,
         excluded: np.ndarray | None = None,
+        weight: float = 1.0,
     ) -> None:
         self.feature = feature
+        self.weight = float(weight)
         self.edges = tuple(CONTEXT_BINS[feature])
         cats = list(CONTEXT_CATEGORIES[feature])
         super().__init__(cats, n_tracts, pseudo, unseen_pseudo, name=feature)
@@ -228,6 +273,13 @@ class ContextEmission(CategoricalEmission):
     def n_parameters(self) -> int:
         return super().n_parameters() - int(self.excluded.sum())
 
+    def log_prob_of(self, obs: np.ndarray) -> np.ndarray:
+        out = super().log_prob_of(obs)
+        return out if self.weight == 1.0 else out * self.weight
+
+    def accumulate_of(self, stats: dict, obs: np.ndarray, weights: np.ndarray) -> None:
+        super().accumulate_of(stats, obs, weights if self.weight == 1.0 else weights * self.weight)
+
     def _observed(self, beds: EncodedBeds) -> np.ndarray:
         x = beds.numeric[self.feature]
         out = np.full(len(x), MISSING, dtype=np.int64)
@@ -238,6 +290,8 @@ class ContextEmission(CategoricalEmission):
     def to_dict(self) -> dict[str, Any]:
         out = super().to_dict()
         out["edges"] = list(self.edges)
+        if self.weight != 1.0:
+            out["weight"] = self.weight
         if self.excluded.any():
             out["excluded"] = self.excluded.astype(int).tolist()
         return out
@@ -250,7 +304,14 @@ class ContextEmission(CategoricalEmission):
                 f"emission {feature!r}: not a context feature with the bins {dict(CONTEXT_BINS)}",
                 file=source,
             )
-        piece = cls(feature, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]))
+        weight = data.get("weight", 1.0)
+        if isinstance(weight, bool) or not isinstance(weight, int | float) or not 0 < weight <= 1:
+            raise ModelFileError(
+                f"emission {feature!r}: weight {weight!r} is not a number in (0, 1]", file=source
+            )
+        piece = cls(
+            feature, n_tracts, unseen_pseudo=float(data["unseen_pseudo"]), weight=float(weight)
+        )
         piece._load_tables(data, n_tracts, source)
         if "excluded" in data:
             shape = piece.emissionprob_.shape

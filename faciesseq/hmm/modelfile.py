@@ -10,7 +10,8 @@ and loading one runs no code. Layout (``version: 1``)::
       "scheme": {...} | null,            # the facies scheme (scheme YAML as JSON)
       "tract_model": {...},              # tracts, order, skips, surfaces, substates
       "hyperparameters": {features, substates, prior_strength, cycle_prior,
-                          n_restarts, tol, max_iter, unit, step},
+                          n_restarts, tol, max_iter, unit, step,
+                          calibration_folds, weigh_evidence},
       "states": {"labels": [...], "tract": [...], "substates": [...]},
       "facies": [...], "ranks": [...] | null, "contacts": [...],
       "parameters": {"startprob": [...], "transmat": [[...]...],
@@ -167,6 +168,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "unit": model.unit,
                 "step": model.step,
                 "calibration_folds": model.calibration_folds,
+                "weigh_evidence": bool(model.weigh_evidence),
             },
             "states": {
                 "labels": states.labels(),
@@ -316,6 +318,9 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
         substates = dict(zip(tract_model.order, [int(n) for n in states_doc["substates"]]))
         states = StateSpace.build(tract_model, substates)
         features = tuple(str(f) for f in hyper["features"])
+        weigh = hyper.get("weigh_evidence", False)  # files made before it: unweighted
+        if not isinstance(weigh, bool):
+            raise ValueError(f"weigh_evidence {weigh!r} is not true or false")
         model = TractHMM(
             tract_model=tract_model,
             scheme=scheme,
@@ -329,6 +334,7 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
             unit=str(hyper["unit"]),
             step=None if hyper["step"] is None else float(hyper["step"]),
             calibration_folds=int(hyper.get("calibration_folds", 0)),
+            weigh_evidence=weigh,
         )
     except (KeyError, TypeError, ValueError, ConfigError) as exc:
         raise ModelFileError(f"invalid hyper-parameters or states ({exc})", file=source) from None

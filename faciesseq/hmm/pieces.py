@@ -80,12 +80,14 @@ def make_piece(
     prior_strength: float,
     embedded: bool,
     numeric_scale: tuple[float, float] = (0.0, 1.0),
+    weight: float = 1.0,
 ) -> EmissionPiece:
     """A fresh emission piece for ``feature`` with the project's default priors.
 
     ``prior_strength`` scales every pseudo-count; 0 turns all priors off (plain
     maximum likelihood). ``numeric_scale`` is ``(mean, variance)`` of the
-    feature over the training beds, used by Gaussian pieces for their prior.
+    feature over the training beds, used by Gaussian pieces for their prior;
+    ``weight`` that of a context piece (:func:`~faciesseq.hmm.context.evidence_weights`).
     """
     V = len(facies)
     base = 0.1 * prior_strength
@@ -116,7 +118,7 @@ def make_piece(
         pseudo = context_pseudo_counts(feature, trends, levels, prior_strength)
         # the reading of exposure is a prior of the trade: off with the other priors
         excluded = exposure_exclusions(levels) if feature == "exposure" and prior_strength else None
-        return ContextEmission(feature, n_tracts, pseudo, excluded=excluded)
+        return ContextEmission(feature, n_tracts, pseudo, excluded=excluded, weight=weight)
     if feature == RANK_TREND:
         pseudo = rank_step_pseudo_counts(
             trends, prior_strength, base, RankTrendEmission.CENTRES, aggrading_limit=0.25
