@@ -6,7 +6,7 @@ Every command that writes follows the same habits:
   ``--force``); without it :func:`check_target` refuses before anything is
   computed or written;
 - a file is written to a temporary sibling and renamed into place
-  (:func:`write_file`);
+  (:func:`new_file`, :func:`write_file`);
 - a folder is built beside the target and swapped in as a whole
   (:func:`new_folder`), so no file of a previous run survives in it;
 - what is written gets the user's ordinary permissions (``0o666`` or
@@ -25,7 +25,14 @@ from pathlib import Path
 
 from faciesseq.errors import ConfigError
 
-__all__ = ["check_target", "new_folder", "signals_held", "temporary_folder", "write_file"]
+__all__ = [
+    "check_target",
+    "new_file",
+    "new_folder",
+    "signals_held",
+    "temporary_folder",
+    "write_file",
+]
 
 
 def current_umask() -> int:
@@ -129,6 +136,33 @@ def temporary_folder(prefix: str, parent: Path) -> Iterator[Path]:
             shutil.rmtree(temp, ignore_errors=True)
 
 
+@contextmanager
+def new_file(path: str | os.PathLike, suffix: str = ".tmp") -> Iterator[Path]:
+    """Write a file beside ``path``, then rename it into place.
+
+    Yields the path of a new, empty temporary file in the same folder as
+    ``path`` (ending in ``suffix``, for writers that read the format from it).
+    When the block ends without an exception it replaces ``path`` and gets the
+    user's ordinary permissions; however the block ends, no temporary file is
+    left (made under :func:`signals_held`).
+    """
+    target = Path(path)
+    tmp = None
+    try:
+        with signals_held():
+            fd, name = tempfile.mkstemp(
+                prefix=f".{target.name}.", suffix=suffix, dir=_parent(target)
+            )
+            tmp = Path(name)
+        os.close(fd)
+        yield tmp
+        os.replace(tmp, target)
+        os.chmod(target, 0o666 & ~current_umask())
+    finally:
+        if tmp is not None:
+            tmp.unlink(missing_ok=True)
+
+
 def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
     """Write ``data`` to a temporary sibling of ``path``, then rename it into place.
 
@@ -145,21 +179,9 @@ def write_file(path: str | os.PathLike, data: str | bytes) -> Path:
     pathlib.Path
         ``path``.
     """
-    target = Path(path)
-    parent = _parent(target)
-    tmp = None
-    try:
-        with signals_held():
-            fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=parent)
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data.encode("utf-8") if isinstance(data, str) else data)
-        os.replace(tmp, target)
-        os.chmod(target, 0o666 & ~current_umask())
-    except BaseException:
-        if tmp is not None:
-            Path(tmp).unlink(missing_ok=True)
-        raise
-    return target
+    with new_file(path) as tmp:
+        tmp.write_bytes(data.encode("utf-8") if isinstance(data, str) else data)
+    return Path(path)
 
 
 def _swap(temp: Path, target: Path) -> None:

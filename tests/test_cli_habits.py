@@ -259,6 +259,29 @@ def test_decode_folder_and_model_file_permissions(source, model, tmp_path, capsy
     assert stat.S_IMODE(model.stat().st_mode) == 0o644
 
 
+@pytest.mark.parametrize("name", ["t.csv", "t.tsv", "t.parquet", "t.xlsx", "t.sqlite"])
+def test_written_core_tables_get_ordinary_permissions(source, tmp_path, umask_022, name):
+    """The table writer's files were left with tempfile's private 0o600 (found 2026-12-03)."""
+    from faciesseq.io import read_cores
+    from faciesseq.io.writer import write_cores
+
+    path = write_cores(read_cores(source), tmp_path / name)
+    assert stat.S_IMODE(path.stat().st_mode) == 0o644
+    assert _siblings(tmp_path) == []
+
+
+def test_a_las_folder_is_not_written_over_a_file(source, tmp_path):
+    from faciesseq.errors import ConfigError
+    from faciesseq.io import read_cores
+    from faciesseq.io.writer import write_cores
+
+    target = tmp_path / "logs"
+    target.write_text("keep")
+    with pytest.raises(ConfigError, match="not a folder"):
+        write_cores(read_cores(source), target, format="las", step=0.5)
+    assert target.read_text() == "keep" and _siblings(tmp_path) == []
+
+
 def test_write_file_is_atomic_and_ordinary(tmp_path, umask_022):
     from faciesseq._output import write_file
 

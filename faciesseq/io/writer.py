@@ -3,15 +3,12 @@
 from __future__ import annotations
 
 import hashlib
-import os
-import shutil
-import tempfile
 from collections.abc import Collection, Mapping
 from pathlib import Path
 
 import pandas as pd
 
-from faciesseq._output import signals_held, temporary_folder
+from faciesseq._output import new_file, new_folder
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 
@@ -133,31 +130,26 @@ def write_cores(
                 "format='las'",
                 file=str(path),
             )
-        with temporary_folder(f".{path.name}.", parent) as tmpdir:
+        if not as_folder:
+            (core,) = cores
+            with new_file(path, suffix=path.suffix) as tmp:
+                write_las(core, tmp, step if step is not None else steps.get(core.name))
+            return path
+        if path.exists() and not path.is_dir():
+            raise ConfigError("exists and is not a folder", file=str(path))
+        with new_folder(path) as tmpdir:
             used: set[str] = set()
             for core in cores:
                 stem = _safe(core.name, used)
                 used.add(stem)
-                name = path.name if not as_folder else f"{stem}.las"
-                write_las(core, tmpdir / name, step if step is not None else steps.get(core.name))
-            if as_folder:
-                _replace_dir(tmpdir, path)
-            else:
-                os.replace(tmpdir / path.name, path)
+                write_las(
+                    core, tmpdir / f"{stem}.las", step if step is not None else steps.get(core.name)
+                )
         return path
-    tmp = None
-    try:
-        with signals_held():
-            fd, name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=parent)
-            tmp = Path(name)
-        os.close(fd)
+    with new_file(path, suffix=path.suffix) as tmp:
         if fmt == "sqlite":
-            tmp.unlink()
+            tmp.unlink()  # SQLite makes its own file
         _write_file(cores, fmt, tmp, tables)
-        os.replace(tmp, path)
-    finally:
-        if tmp is not None and tmp.exists():
-            tmp.unlink()
     return path
 
 
@@ -184,16 +176,3 @@ def safe_stem(name: str, used: Collection[str] = ()) -> str:
 
 def _safe(name: str, used: Collection[str] = ()) -> str:
     return safe_stem(name, used) if name else "core"
-
-
-def _replace_dir(new: Path, target: Path) -> None:
-    if target.exists():
-        if not target.is_dir():
-            raise ConfigError("exists and is not a folder", file=str(target))
-        old = target.with_name(f".{target.name}.old")
-        shutil.rmtree(old, ignore_errors=True)
-        os.replace(target, old)
-        os.replace(new, target)
-        shutil.rmtree(old, ignore_errors=True)
-    else:
-        os.replace(new, target)
