@@ -35,7 +35,6 @@ from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm import TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
 
-
 #: ``--weigh-evidence``: fit with ``weigh_evidence=True``.
 WEIGH = "--weigh-evidence" in sys.argv[1:]
 

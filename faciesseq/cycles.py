@@ -26,9 +26,9 @@ import numpy as np
 
 __all__ = [
     "CONTEXT_FEATURES",
-    "Cycles",
     "POSITION_HALF_WIDTH",
     "TREND_HALF_WIDTH",
+    "Cycles",
     "bed_context",
     "beds_per_cycle",
     "cycle_inputs",

@@ -19,11 +19,11 @@ import pytest
 
 from faciesseq.core import Succession
 from faciesseq.hmm.encoding import UnseenCategoryWarning
+from faciesseq.hmm.labels import LabelWarning
 from faciesseq.hmm.model import (
     DEFAULT_FEATURES,
     ConvergenceError,
     ConvergenceMonitor,
-    LabelWarning,
     TractHMM,
 )
 from faciesseq.hmm.selection import select_model
@@ -235,7 +235,7 @@ def test_labels_that_jump_over_a_tract_keep_the_permissive_graph(train):
 
 def test_impossible_labels_are_freed_with_a_warning_naming_core_and_depth(train):
     from faciesseq.errors import InputError
-    from faciesseq.hmm.model import LabelWarning
+    from faciesseq.hmm.labels import LabelWarning
     from faciesseq.simulate.wells import history_tract_model
 
     # the cycle with only FSST and TST skippable (the default lets any tract be absent)

@@ -14,7 +14,8 @@ import pytest
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.encoding import MISSING, encode_beds
-from faciesseq.hmm.model import LabelWarning, TractHMM
+from faciesseq.hmm.labels import LabelWarning
+from faciesseq.hmm.model import TractHMM
 from faciesseq.hmm.modelfile import load_model, model_to_dict
 from faciesseq.hmm.rank_pieces import RankStepEmission, rank_step_pseudo_counts
 from faciesseq.scheme import default_tract_model

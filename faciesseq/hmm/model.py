@@ -20,7 +20,6 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 from __future__ import annotations
 
 import copy
-import itertools
 import math
 import warnings
 from collections.abc import Mapping, Sequence
@@ -45,6 +44,7 @@ from faciesseq.hmm.em import (
 )
 from faciesseq.hmm.emissions import EmissionPiece
 from faciesseq.hmm.encoding import EncodedBeds, encode_beds
+from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.states import StateSpace
 from faciesseq.parallel import run_jobs
@@ -52,7 +52,6 @@ from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
     default_tract_model,
-    permissive_tract_model,
 )
 
 __all__ = [
@@ -60,7 +59,6 @@ __all__ = [
     "FEATURES",
     "ConvergenceError",
     "ConvergenceMonitor",
-    "LabelWarning",
     "TractHMM",
 ]
 
@@ -98,10 +96,6 @@ DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact", "rank_step")
 CONTEXT_SUBSTATES = 3
 
 
-class LabelWarning(UserWarning):
-    """An interpreter's label that cannot be used as it is (the beds are left free)."""
-
-
 def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
     if isinstance(data, CoreSet):
         return data.successions(unit, step)
@@ -132,13 +126,6 @@ def _bed_tables(succ: Sequence[Succession]) -> tuple[list[pd.DataFrame], np.ndar
     if isinstance(succ, SuccessionTable):
         return [succ.beds], succ.lengths
     return [s.beds for s in succ], None
-
-
-def _text(values: pd.Series) -> list[str | None]:
-    """Values as stripped text, ``None`` where blank or missing."""
-    text = values.astype("string").str.strip()
-    missing = text.isna() | (text == "") | (text.str.lower() == "nan")
-    return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
 
 
 def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
@@ -497,116 +484,20 @@ class TractHMM(ExpectationMaximisation, Decoding):
         ranks, starts, setting = cycle_inputs(beds.facies, self.ranks_, marks, nonmarine)
         return evidence_weights(beds_per_cycle(ranks, beds.lengths, starts, setting))
 
-    @staticmethod
-    def _label_values(successions: Sequence[Succession], labels: Any):
-        """``(succession, labels)`` of every succession, each label text or ``None``,
-        from a label column or per-succession sequences."""
-        for k, s in enumerate(successions):
-            if isinstance(labels, str):
-                if labels not in s.beds.columns:
-                    raise ConfigError(
-                        f"label column {labels!r} not found "
-                        f"(columns: {sorted(map(str, s.beds.columns))})",
-                        core=s.core,
-                    )
-                values = _text(s.beds[labels])
-            else:
-                values = [None if v is None else str(v) for v in labels[k]]
-                if len(values) != len(s):
-                    raise InputError(
-                        f"{len(values)} labels for {len(s)} beds", core=s.core
-                    ) from None
-            yield s, values
-
     def _graph_from_labels(self, successions: Sequence[Succession], labels: Any) -> TractModel:
-        """The tract graph of a fit with labels and no tract model of its own.
-
-        The strict cyclic order of :func:`~faciesseq.scheme.default_tract_model`
-        where every labelled boundary (a change of tract between two successive
-        labelled beds) is one it allows; else the permissive graph, in which any
-        tract may follow any other. Why the labels decide: a described bed is
-        often thicker than a highstand or lowstand, so an interpreter's bed-scale
-        column may jump over tracts (on the forward model's cores 20 to 47 % of
-        the changes between beds do, docs/hmm.md), and the strict graph would
-        free those labels; where the labels keep the order, the strict graph keeps
-        the decoded column from going back and forth between tracts the cycle
-        never joins (measured with three labelled cores of the stacking
-        scenarios, tuning seeds: balanced accuracy 0.952 / 0.881 / 0.850 on the
-        permissive graph, 0.957 / 0.889 / 0.884 on the strict one;
-        benchmarks/tract_model.md). ``label_graph_`` records the choice. With
-        ``graph="fixed"``, the permissive graph.
-        """
-        strict = default_tract_model()
-        tracts = list(strict.order)
-        allowed = np.asarray(strict.allowed(), dtype=bool)
-        n_labelled = n_boundaries = n_forbidden = 0
-        for _, values in self._label_values(successions, labels):
-            codes = [tracts.index(v) if v in tracts else None for v in values]
-            n_labelled += sum(c is not None for c in codes)
-            for a, b in itertools.pairwise(codes):
-                if a is not None and b is not None and a != b:
-                    n_boundaries += 1
-                    n_forbidden += int(not allowed[a, b])
-        use_strict = self.graph == "auto" and n_labelled > 0 and n_forbidden == 0
-        self.label_graph_ = {
-            "graph": "strict" if use_strict else "permissive",
-            "n_boundaries": n_boundaries,
-            "n_forbidden": n_forbidden,
-        }
-        return strict if use_strict else permissive_tract_model()
+        """The tract graph of a fit with labels and no tract model of its own
+        (:func:`~faciesseq.hmm.labels.graph_from_labels`); ``label_graph_`` records it."""
+        graph, self.label_graph_ = graph_from_labels(successions, labels, self.graph == "auto")
+        return graph
 
     def _labels(
         self, successions: Sequence[Succession], labels: Any
     ) -> tuple[np.ndarray | None, int]:
-        """Clamp mask ``(T, n_tracts)`` from a label column or per-succession arrays."""
+        """Clamp mask ``(T, n_tracts)`` from a label column or per-succession arrays
+        (:func:`~faciesseq.hmm.labels.clamp_from_labels`)."""
         if labels is None:
             return None, 0
-        tm = self.tract_model_
-        tracts = list(tm.order)
-        allowed = np.asarray(tm.allowed(), dtype=bool)
-        rows = []
-        n_labelled = 0
-        for s, values in self._label_values(successions, labels):
-            mask = np.ones((len(s), len(tracts)), dtype=bool)
-            prev = None
-            for i, v in enumerate(values):
-                if v is None:
-                    prev = None
-                    continue
-                if v not in tracts:
-                    raise InputError(
-                        f"tract label {v!r} is not a tract of the tract model {tracts}",
-                        core=s.core,
-                        depth=float(s.beds["top"].iloc[i]) if "top" in s.beds else None,
-                        units=s.units,
-                    )
-                a = tracts.index(v)
-                if prev is not None and not allowed[prev, a]:
-                    # Tolerant, never silent: an interpreter's column may skip a
-                    # tract too thin to log; free both beds and say so.
-                    where = f"core {s.core}"
-                    if "base" in s.beds:
-                        where += f", depth {float(s.beds['base'].iloc[i]):.2f} {s.units}"
-                    warnings.warn(
-                        LabelWarning(
-                            f"{where}: labelled boundary {tracts[prev]} -> {v} (upward) is not "
-                            "allowed by the tract model's order and skips; the two beds are "
-                            "left unlabelled (add a skip in the tract model to allow it)"
-                        ),
-                        stacklevel=3,
-                    )
-                    if not mask[i - 1].all():
-                        n_labelled -= 1
-                    mask[i - 1] = True
-                    prev = None
-                    continue
-                mask[i] = False
-                mask[i, a] = True
-                prev = a
-                n_labelled += 1
-            rows.append(mask)
-        clamp = np.concatenate(rows) if rows else np.ones((0, len(tracts)), dtype=bool)
-        return clamp, n_labelled
+        return clamp_from_labels(successions, labels, self.tract_model_)
 
     # --------------------------------------------------------------- E and M
     def _log_emission(
