@@ -142,3 +142,49 @@ def test_unweighted_fits_are_the_default_and_count_every_bed():
         model.fit(_stacking_cores([31]))
     assert model.evidence_weights_ == {}
     assert all(getattr(p, "weight", 1.0) == 1.0 for p in model.emissions_)
+
+
+def test_a_weighted_fit_with_more_tract_changes_than_cycles_is_done_again_without_weights(
+    monkeypatch, tmp_path
+):
+    # Tracts shorter than a parasequence are not a reading the trade allows (a
+    # systems tract is made of parasequences; Van Wagoner et al. 1990): forced here by
+    # counting one cycle in the whole database.
+    import faciesseq.hmm.model as model_module
+
+    cores = _stacking_cores([31])
+    monkeypatch.setattr(model_module, "beds_per_cycle", lambda ranks, lengths, *a: len(ranks))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=SCHEME, weigh_evidence=True, random_state=0).fit(cores)
+        plain = TractHMM(scheme=SCHEME, random_state=0).fit(cores)
+    assert model.weigh_evidence is True and model.evidence_weights_ == {}
+    assert model.weights_rejected_["cycles"] == pytest.approx(1.0)
+    assert model.weights_rejected_["expected_tract_changes"] > 1.0
+    np.testing.assert_array_equal(model.transmat_, plain.transmat_)
+    assert model.graph_selection_ == plain.graph_selection_
+    path = tmp_path / "m.json"
+    save_model(model, path)
+    doc = json.loads(path.read_text())
+    assert doc["training"]["evidence_weights_rejected"] == model.weights_rejected_
+    assert load_model(path).weights_rejected_ == model.weights_rejected_
+
+
+def test_a_weighted_fit_that_keeps_its_tracts_longer_than_cycles_keeps_its_weights(weighted):
+    model, _ = weighted
+    assert model.weights_rejected_ is None
+    assert 0 < model.tract_changes_ < model.n_cycles_
+
+
+def test_fit_says_which_evidence_weights_it_used(tmp_path, capsys):
+    from faciesseq.cli import main
+
+    source = tmp_path / "cores.csv"
+    _stacking_cores([31]).to_frame().to_csv(source, index=False)
+    scheme = ROOT / "configs" / "scheme-shoreface.yaml"
+    argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(tmp_path / "m.json")]
+    assert main([*argv, "--weigh-evidence"]) == 0
+    out = capsys.readouterr().out
+    assert "evidence weights of the context: " in out and "position 0.06" in out
+    assert main([*argv, "--force"]) == 0
+    assert "evidence weights" not in capsys.readouterr().out

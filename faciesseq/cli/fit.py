@@ -155,6 +155,21 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
             progress.close()
 
 
+def _print_weights(model) -> None:
+    """Whether the context evidence was weighed (``--weigh-evidence``), and if it was
+    asked for but not kept, why."""
+    rejected = getattr(model, "weights_rejected_", None)
+    if rejected:
+        print(
+            f"evidence weights not kept: the weighted fit changed tract about "
+            f"{rejected['expected_tract_changes']:.0f} times in {rejected['cycles']:.0f} "
+            "cycles (tracts shorter than a parasequence); fitted without them"
+        )
+    elif getattr(model, "evidence_weights_", None):
+        w = ", ".join(f"{k} {v:.2f}" for k, v in model.evidence_weights_.items() if v < 1)
+        print(f"evidence weights of the context: {w}")
+
+
 def _print_graph(model) -> None:
     """Which tract graph the fit used, and why (the BIC of every candidate)."""
     skips = ", ".join(model.tract_model_.skips) or "none"
@@ -216,6 +231,7 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"states {','.join(model.states_.labels())}"
     )
     _print_graph(model)
+    _print_weights(model)
     chosen = table[table["selected"]].iloc[0]
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(

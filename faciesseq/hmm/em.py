@@ -341,8 +341,11 @@ class ExpectationMaximisation:
             if monitor.converged:
                 break
             startprob, transmat = self._m_step(pieces, stats, trans, start)
+        tract = self.states_.state_tract
         return {
             "pieces": pieces,
+            # expected changes of tract between successive beds, at these parameters
+            "tract_changes": float(trans[tract[:, None] != tract[None, :]].sum()),
             "startprob": startprob,
             "transmat": transmat,
             "log_likelihood": ll,

@@ -135,6 +135,7 @@ def _fit_graph(estimator: type, params: dict, succ: SuccessionTable, progress=No
     run from its parameters instead of the restarts, where the vocabularies agree."""
     model = estimator(**params)
     model.warm_start_ = warm
-    model.fit(succ, progress=progress)
+    model._check_hyper()
+    model._fit_once(succ, None, progress)  # the whole fit checks its evidence weights
     del model.warm_start_
     return model

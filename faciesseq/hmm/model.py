@@ -214,9 +214,10 @@ class TractHMM(ExpectationMaximisation, Decoding):
         (:func:`~faciesseq.hmm.context.evidence_weights`), so that evidence shared
         by the beds of a cycle or a window counts once, not once per bed. Off by
         default: measured, it raises the balanced accuracy on the stacking
-        generator and calibrates its probabilities, but on one set of seeds in
-        two the fit fell into tracts one parasequence long, and real wells and
-        the physical forward model scored lower (``docs/hmm.md``).
+        generator and calibrates its probabilities, but in one run of six the
+        fit fell into tracts one parasequence long (then the fit is done
+        again without weights: ``weights_rejected_``), and real wells and the
+        physical forward model scored lower (``docs/hmm.md``).
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 
@@ -238,6 +239,10 @@ class TractHMM(ExpectationMaximisation, Decoding):
     temperature_ : float, the posterior temperature (1: not calibrated)
     evidence_weights_ : dict, the weight of each context piece (empty: every bed
         counted in full)
+    weights_rejected_ : dict or None, where ``weigh_evidence`` was asked for but the
+        weighted fit changed tract more often than the training cores change cycle,
+        so the model is the fit without weights: the expected tract changes and the
+        cycles (``training.evidence_weights_rejected`` in the model file)
     calibration_ : dict, how the temperature was chosen (folds, cores, held-out
         beds, their scores before and after: :func:`faciesseq.hmm.calibration.fit_temperature`)
         or why it was not (``{"skipped": reason}``)
@@ -478,11 +483,14 @@ class TractHMM(ExpectationMaximisation, Decoding):
         """The weights of the context pieces, from the mean cycle length of the
         training beds (:func:`~faciesseq.hmm.context.evidence_weights`); none
         unless ``weigh_evidence`` and the fit reads the stacking context."""
+        self.n_cycles_ = None
         if not (self.weigh_evidence and self._reads_context()):
             return {}
         marks, nonmarine = self._facies_marks()
         ranks, starts, setting = cycle_inputs(beds.facies, self.ranks_, marks, nonmarine)
-        return evidence_weights(beds_per_cycle(ranks, beds.lengths, starts, setting))
+        per_cycle = beds_per_cycle(ranks, beds.lengths, starts, setting)
+        self.n_cycles_ = len(beds) / per_cycle
+        return evidence_weights(per_cycle)
 
     def _graph_from_labels(self, successions: Sequence[Succession], labels: Any) -> TractModel:
         """The tract graph of a fit with labels and no tract model of its own
@@ -598,6 +606,34 @@ class TractHMM(ExpectationMaximisation, Decoding):
         succ = _training_successions(successions, self.unit, self.step, labels)
         if not len(succ):
             raise InputError("no beds to fit the tract model on")
+        self._fit_once(succ, labels, progress)
+        if self.evidence_weights_ and self.tract_changes_ > self.n_cycles_:
+            self._fit_without_weights(succ, labels, progress)
+        return self
+
+    def _fit_without_weights(self, succ, labels, progress) -> None:
+        """The fit again without evidence weights, where the weighted one changes
+        tract more often than the training cores change cycle: tracts shorter than
+        a parasequence, which the trade's definition excludes (a systems tract is
+        made of parasequences and parasequence sets; Van Wagoner et al. 1990). Seen
+        once in six runs of the stacking generator (benchmarks/tract_model.md)."""
+        rejected = {
+            "expected_tract_changes": round(self.tract_changes_, 3),
+            "cycles": round(self.n_cycles_, 3),
+        }
+        plain = type(self)(**{**self.get_params(), "weigh_evidence": False})
+        plain.fit(succ, labels, progress)
+        hyper = self.get_params()
+        self.__dict__.update(plain.__dict__)
+        self.set_params(**hyper)
+        self.weights_rejected_ = rejected
+
+    def _fit_once(self, succ, labels, progress) -> TractHMM:
+        """One fit of checked settings on ``succ`` (:func:`_training_successions`):
+        :meth:`fit` without its check of the evidence weights (the candidate graphs of
+        :mod:`faciesseq.hmm.graphs` are fitted by this, so that their BICs compare fits
+        of one kind)."""
+        self.weights_rejected_ = None
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
         data, n_labelled = self._training_data(succ, labels)
@@ -693,6 +729,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.transmat_ = run["transmat"]
         self.monitor_ = run["monitor"]
         self.log_likelihood_ = float(run["log_likelihood"])
+        self.tract_changes_ = float(run["tract_changes"])
         self.objective_ = float(run["objective"])
         self.best_restart_ = best
         self.restarts_ = [

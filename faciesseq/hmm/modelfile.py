@@ -147,6 +147,8 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         if isinstance(model.random_state, int | None)
         else "generator",
     }
+    if getattr(model, "weights_rejected_", None):
+        training["evidence_weights_rejected"] = model.weights_rejected_
     run = {"created": datetime.now(UTC).isoformat(timespec="seconds")}
     for key, value in dict(provenance or {}).items():
         (run if key in RUN_KEYS else training)[key] = value
@@ -260,6 +262,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.cores_ = tuple(str(c) for c in training.get("cores", ()))
     model.restarts_ = list(training.get("restarts", []))
     model.graph_selection_ = list(training.get("graph_selection", []))
+    model.weights_rejected_ = training.get("evidence_weights_rejected")
     model.best_restart_ = int(training.get("best_restart") or 0)
     history = []
     if model.best_restart_ < len(model.restarts_):
@@ -408,6 +411,7 @@ _TRAINING_TYPES = {
     "cores": list,
     "restarts": list,
     "graph_selection": list,
+    "evidence_weights_rejected": dict,
 }  # "calibration" may be anything: the report says when it is not a record
 
 
