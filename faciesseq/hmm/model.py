@@ -490,7 +490,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         ranks, starts, setting = cycle_inputs(beds.facies, self.ranks_, marks, nonmarine)
         per_cycle = beds_per_cycle(ranks, beds.lengths, starts, setting)
         self.n_cycles_ = len(beds) / per_cycle
-        return evidence_weights(per_cycle)
+        return {f: w for f, w in evidence_weights(per_cycle).items() if f in self.features_}
 
     def _graph_from_labels(self, successions: Sequence[Succession], labels: Any) -> TractModel:
         """The tract graph of a fit with labels and no tract model of its own
