@@ -167,7 +167,9 @@ def test_a_weighted_fit_with_more_tract_changes_than_cycles_is_done_again_withou
     save_model(model, path)
     doc = json.loads(path.read_text())
     assert doc["training"]["evidence_weights_rejected"] == model.weights_rejected_
-    assert load_model(path).weights_rejected_ == model.weights_rejected_
+    loaded = load_model(path)
+    assert loaded.weights_rejected_ == model.weights_rejected_
+    assert "the fit without them" in _methods_text(loaded)
 
 
 def test_a_weighted_fit_that_keeps_its_tracts_longer_than_cycles_keeps_its_weights(weighted):
@@ -188,3 +190,29 @@ def test_fit_says_which_evidence_weights_it_used(tmp_path, capsys):
     assert "evidence weights of the context: " in out and "position 0.06" in out
     assert main([*argv, "--force"]) == 0
     assert "evidence weights" not in capsys.readouterr().out
+
+
+def _methods_text(model) -> str:
+    from faciesseq.report.methods import methods_section
+
+    def text(section) -> str:
+        out = [getattr(b, "text", "") for b in section.blocks]
+        return " ".join(out + [text(sub) for sub in section.subsections])
+
+    return text(methods_section("beds", model))
+
+
+def test_the_appendix_methods_give_the_weights_and_their_sources(weighted, tmp_path):
+    model, _ = weighted
+    path = tmp_path / "m.json"
+    save_model(model, path)
+    for m in (model, load_model(path)):
+        described = _methods_text(m)
+        assert "composite likelihood" in described and "position 0.06" in described
+        assert "Lindsay, B. G. (1988)" in described and "Varin, C." in described
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        plain = TractHMM(scheme=SCHEME, n_restarts=1, max_iter=5, random_state=0)
+        plain.fit(_stacking_cores([31]))
+    assert "composite likelihood" not in _methods_text(plain)
+    assert "Lindsay" not in _methods_text(plain)

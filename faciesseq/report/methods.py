@@ -68,6 +68,42 @@ CONTEXT_REFERENCES = (
     "observations. Annals of Statistics 17, 1217–1241.",
 )
 
+#: References of the evidence weights (``fit --weigh-evidence``).
+WEIGHT_REFERENCES = (
+    "Lindsay, B. G. (1988). Composite likelihood methods. Contemporary Mathematics 80, 221–239.",
+    "Varin, C., Reid, N. & Firth, D. (2011). An overview of composite likelihood methods. "
+    "Statistica Sinica 21, 5–42.",
+)
+
+
+def _weights_text(model: Any) -> str | None:
+    """What the fit did with ``weigh_evidence``: the weights of its context pieces, or
+    why it was fitted without them; ``None`` where it was not asked for."""
+    weighed = {
+        p.name: p.weight
+        for p in getattr(model, "emissions_", ())
+        if getattr(p, "weight", 1.0) != 1.0
+    }
+    rejected = getattr(model, "weights_rejected_", None)
+    if weighed:
+        listed = ", ".join(f"{name} {w:.2f}" for name, w in weighed.items())
+        return (
+            "The context evidence was weighed so that what the beds of a window or a cycle "
+            "share counts once: each context feature's log-probability was multiplied by one "
+            "over the beds its window spans, from the mean cycle length of the training cores "
+            f"(a composite likelihood with weights; Lindsay 1988; Varin et al. 2011): {listed}."
+        )
+    if isinstance(rejected, dict):
+        return (
+            "Weights of the context evidence were asked for, but the weighted fit expected "
+            f"more changes of tract ({rejected.get('expected_tract_changes')}) than the "
+            f"training cores have cycles ({rejected.get('cycles')}): tracts shorter than a "
+            "parasequence, which the definition of a systems tract excludes (Van Wagoner et "
+            "al. 1990). The model is the fit without them."
+        )
+    return None
+
+
 #: How a fit on the stacking context reads the cores (replaces the bed-level sentence).
 CONTEXT_TEXT = (
     "The model was fitted on the stacking of parasequence-scale cycles (Van Wagoner et al. "
@@ -223,10 +259,16 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         hmm.add(Paragraph(CONTEXT_TEXT))
     if context and "exposure" in getattr(model, "features_", ()):
         hmm.add(Paragraph(EXPOSURE_TEXT))
+    weights = _weights_text(model)
+    if context and weights:
+        hmm.add(Paragraph(weights))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
-    for ref in REFERENCES + (CONTEXT_REFERENCES if context or boot else ()):
+    extra = (CONTEXT_REFERENCES if context or boot else ()) + (
+        WEIGHT_REFERENCES if context and weights else ()
+    )
+    for ref in REFERENCES + extra:
         refs.add(Paragraph(ref))
     return s
