@@ -190,6 +190,13 @@ def test_fit_says_which_evidence_weights_it_used(tmp_path, capsys):
     assert "evidence weights of the context: " in out and "position 0.06" in out
     assert main([*argv, "--force"]) == 0
     assert "evidence weights" not in capsys.readouterr().out
+    labelled = tmp_path / "labelled.csv"
+    pd.read_csv(source).assign(tract="HST").to_csv(labelled, index=False)
+    argv[1] = str(labelled)
+    assert main([*argv, "--labels", "tract", "--weigh-evidence", "--force"]) == 0
+    assert "evidence weights not used: this fit reads no stacking context" in (
+        capsys.readouterr().out
+    )
 
 
 def _methods_text(model) -> str:

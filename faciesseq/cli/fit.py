@@ -168,6 +168,11 @@ def _print_weights(model) -> None:
     elif getattr(model, "evidence_weights_", None):
         w = ", ".join(f"{k} {v:.2f}" for k, v in model.evidence_weights_.items() if v < 1)
         print(f"evidence weights of the context: {w}")
+    elif model.weigh_evidence:
+        print(
+            "evidence weights not used: this fit reads no stacking context (that needs a "
+            "scheme with ranks, --unit beds and no labels)"
+        )
 
 
 def _print_graph(model) -> None:
