@@ -282,6 +282,15 @@ def score(interp, intervals: pd.DataFrame, true_surfaces: pd.DataFrame) -> dict:
     }
 
 
+def _self_decoded(model) -> float:
+    """Share of the beds of cores simulated from the fitted model that it decodes
+    right, where its probabilities were checked by simulation (else NaN)."""
+    cal = getattr(model, "calibration_", None)
+    if isinstance(cal, dict) and cal.get("method") == "parametric bootstrap":
+        return float(cal["after"]["accuracy"])
+    return float("nan")
+
+
 # ------------------------------------------------------------------ run
 def evaluate(path: Path, fit_seeds, decode_seeds, modes=MODES) -> dict:
     runner, skip = _runner(path)
@@ -313,6 +322,9 @@ def evaluate(path: Path, fit_seeds, decode_seeds, modes=MODES) -> dict:
                 **score(interp, test, true_surfaces),
                 "fit_s": fit_s,
                 "decode_s": decode_s,
+                "temperature": getattr(model, "temperature_", float("nan")),
+                # the model decoding its own simulated cores (the bootstrap's record)
+                "self_decoded": _self_decoded(model),
                 "warnings": sorted({str(w.message).split("\n")[0] for w in caught}),
             }
         )
@@ -394,6 +406,18 @@ def markdown(result: dict) -> str:
         for r in result["rows"]
     ]
     lines += ["", "Recall per true tract (thickness-weighted): " + "; ".join(recall) + "."]
+    checked = [r for r in result["rows"] if np.isfinite(r.get("self_decoded", float("nan")))]
+    if checked:
+        lines += [
+            "",
+            "Checked by simulation: "
+            + "; ".join(
+                f"{r['mode']}: temperature {r['temperature']:.2f}, its own simulated beds "
+                f"decoded right {r['self_decoded']:.3f}"
+                for r in checked
+            )
+            + ".",
+        ]
     warned = sorted({w for r in result["rows"] for w in r["warnings"]})
     if warned:
         lines += ["", "Warnings during fit / decode: " + "; ".join(warned)]
