@@ -69,7 +69,10 @@ _json = st.recursive(
 def test_a_model_file_with_any_value_changed_is_read_or_refused_with_a_clear_error(
     document, data, value
 ):
-    doc, train = document
+    _changed_value_is_read_or_refused(*document, data, value)
+
+
+def _changed_value_is_read_or_refused(doc, train, data, value) -> None:
     paths = list(_leaves(doc))
     path = data.draw(st.sampled_from(paths))
     changed = copy.deepcopy(doc)
@@ -84,6 +87,32 @@ def test_a_model_file_with_any_value_changed_is_read_or_refused_with_a_clear_err
     with warnings.catch_warnings(), contextlib.suppress(FaciesseqError):
         warnings.simplefilter("ignore")
         model.decode(train)
+
+
+@pytest.fixture(scope="module")
+def weighted_document():
+    """A fit without labels on the stacking context, its pieces weighed, and the record
+    of weights not kept (set by hand: a real fit keeps one or the other)."""
+    train = synth.cores(4, 30, seed=5)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(
+            scheme=synth.scheme(), weigh_evidence=True, n_restarts=1, max_iter=5, random_state=2
+        )
+        model.fit(train)
+    assert model.evidence_weights_
+    model.weights_rejected_ = {"expected_tract_changes": 9.5, "cycles": 8.0}
+    return json.loads(json.dumps(model_to_dict(model))), train
+
+
+@settings(
+    max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data(), value=_json)
+def test_a_weighted_model_file_with_any_value_changed_is_read_or_refused_with_a_clear_error(
+    weighted_document, data, value
+):
+    _changed_value_is_read_or_refused(*weighted_document, data, value)
 
 
 _HEAD = (DEMO / "cores.csv").read_bytes().splitlines(keepends=True)[:40]
