@@ -557,113 +557,141 @@ def _diagnostic_blocks(diag: Section, model: Any, selection: Any, numbers: dict)
 def _validation_blocks(
     val: Section, validation: Any, reason: str, notes: Sequence[str], numbers: dict
 ) -> None:
-    """Cross-validation by core against the interpreters' tracts, where there is one."""
-    from faciesseq.report import figures
+    """Cross-validation by core against the interpreters' tracts, where there is one.
 
+    Adds to ``val`` the scores, the confusion matrices, the surface picks, the
+    reliability of the probabilities and the warnings of the folds, in that order;
+    without a validation, one paragraph saying why (``reason``).
+    """
     if validation is None:
         val.add(Paragraph(f"Not available: {reason}.", kind="missing"))
-    else:
-        numbers["validation"] = validation.to_dict()
-        frames = validation.to_frames()
-        settings = dict(getattr(validation, "settings", {}) or {})
+        return
+    numbers["validation"] = validation.to_dict()
+    frames = validation.to_frames()
+    _validation_score_blocks(val, validation, frames)
+    _confusion_blocks(val, validation, frames)
+    val.add(
+        TableBlock(
+            "validation_surfaces",
+            f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
+            f"error ({validation.units}).",
+            frames["surfaces"]
+            .set_index(frames["surfaces"].columns[0])
+            .rename(columns=_readable_units(validation.units)),
+        ),
+    )
+    _reliability_blocks(val, validation, frames)
+    if notes:
+        _validation_warning_blocks(val, notes)
+
+
+def _validation_score_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """What was cross-validated (folds, mode, labels), then the scores overall and per tract."""
+    settings = dict(getattr(validation, "settings", {}) or {})
+    val.add(
+        Paragraph(
+            f"{validation.folds}-fold cross-validation by core "
+            f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
+            "model fitted without it and compared bed by bed with the interpreter's "
+            f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
+            "by a stacking-trend rule without a model."
+        ),
+        TableBlock(
+            "validation_summary",
+            "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
+            "Brier score of the tract probabilities and the fraction of maximum flooding "
+            "surfaces picked within one bed.",
+            frames["summary"].set_index("method").rename(columns=_READABLE),
+        ),
+        TableBlock(
+            "validation_per_tract",
+            "Precision, recall, F1 and support (beds) per tract.",
+            frames["per_tract"].set_index(frames["per_tract"].columns[0]).rename(columns=_READABLE),
+        ),
+    )
+
+
+def _confusion_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """Confusion matrices of the model and of the baseline, and the model's as a heat map."""
+    from faciesseq.report import figures
+
+    for method in ("model", "baseline"):
+        confusion = frames[f"confusion_{method}"].copy()
+        confusion.index.name = "interpreted \\ decoded"
         val.add(
-            Paragraph(
-                f"{validation.folds}-fold cross-validation by core "
-                f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
-                "model fitted without it and compared bed by bed with the interpreter's "
-                f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
-                "by a stacking-trend rule without a model."
-            ),
             TableBlock(
-                "validation_summary",
-                "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
-                "Brier score of the tract probabilities and the fraction of maximum flooding "
-                "surfaces picked within one bed.",
-                frames["summary"].set_index("method").rename(columns=_READABLE),
-            ),
-            TableBlock(
-                "validation_per_tract",
-                "Precision, recall, F1 and support (beds) per tract.",
-                frames["per_tract"]
-                .set_index(frames["per_tract"].columns[0])
-                .rename(columns=_READABLE),
-            ),
-        )
-        for method in ("model", "baseline"):
-            confusion = frames[f"confusion_{method}"].copy()
-            confusion.index.name = "interpreted \\ decoded"
-            val.add(
-                TableBlock(
-                    f"validation_confusion_{method}",
-                    f"Confusion matrix of the {method} (beds; rows: interpreter's tract, "
-                    "columns: decoded tract).",
-                    confusion,
-                )
+                f"validation_confusion_{method}",
+                f"Confusion matrix of the {method} (beds; rows: interpreter's tract, "
+                "columns: decoded tract).",
+                confusion,
             )
-        val.add(
-            FigureBlock(
-                "validation_confusion",
-                "Confusion matrix of the tract model (beds).",
-                figures.heatmap(
-                    frames["confusion_model"].astype(float),
-                    label_colours=_tract_colours(validation.model.confusion.columns),
-                    value_label="beds",
-                    fmt="{:.0f}",
-                    row_title="interpreted tract",
-                    column_title="decoded tract",
-                ),
-            ),
-            TableBlock(
-                "validation_surfaces",
-                f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
-                f"error ({validation.units}).",
-                frames["surfaces"]
-                .set_index(frames["surfaces"].columns[0])
-                .rename(columns=_readable_units(validation.units)),
-            ),
         )
-        rel = {}
-        for method in ("model", "baseline"):
-            r = getattr(validation, method).reliability
-            rel[method] = pd.DataFrame(
-                {
-                    "predicted": r["mean_probability"],
-                    "observed": r["fraction_correct"],
-                    "count": r["count"],
-                }
-            ).dropna()
-        val.add(
-            TableBlock(
-                "validation_reliability",
-                "Reliability of the tract probabilities: per probability bin (bins without "
-                "beds left out), the mean predicted probability and the fraction of beds where "
-                "that tract was the interpreter's.",
-                frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
-                index=False,
+    val.add(
+        FigureBlock(
+            "validation_confusion",
+            "Confusion matrix of the tract model (beds).",
+            figures.heatmap(
+                frames["confusion_model"].astype(float),
+                label_colours=_tract_colours(validation.model.confusion.columns),
+                value_label="beds",
+                fmt="{:.0f}",
+                row_title="interpreted tract",
+                column_title="decoded tract",
             ),
-            FigureBlock(
-                "validation_reliability",
-                "Reliability curve: observed frequency against predicted tract probability, "
-                "tract model beside the baseline.",
-                figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
-            ),
-        )
-        if notes:
-            val.add(
-                Paragraph(
-                    f"{len(notes)} warning(s) while fitting and decoding the folds "
-                    "(listed in full in tables/validation_warnings.csv); the first: "
-                    f"{notes[0]}",
-                    kind="note",
-                ),
-                TableBlock(
-                    "validation_warnings",
-                    "warnings raised during cross-validation",
-                    pd.DataFrame({"warning": list(notes)}),
-                    index=False,
-                    shown=False,
-                ),
-            )
+        ),
+    )
+
+
+def _reliability_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """Reliability of the tract probabilities per bin: a table, and the curves of the model
+    and of the baseline."""
+    from faciesseq.report import figures
+
+    rel = {}
+    for method in ("model", "baseline"):
+        r = getattr(validation, method).reliability
+        rel[method] = pd.DataFrame(
+            {
+                "predicted": r["mean_probability"],
+                "observed": r["fraction_correct"],
+                "count": r["count"],
+            }
+        ).dropna()
+    val.add(
+        TableBlock(
+            "validation_reliability",
+            "Reliability of the tract probabilities: per probability bin (bins without "
+            "beds left out), the mean predicted probability and the fraction of beds where "
+            "that tract was the interpreter's.",
+            frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
+            index=False,
+        ),
+        FigureBlock(
+            "validation_reliability",
+            "Reliability curve: observed frequency against predicted tract probability, "
+            "tract model beside the baseline.",
+            figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
+        ),
+    )
+
+
+def _validation_warning_blocks(val: Section, notes: Sequence[str]) -> None:
+    """The warnings raised while fitting and decoding the folds: the first, and all in a table."""
+    val.add(
+        Paragraph(
+            f"{len(notes)} warning(s) while fitting and decoding the folds "
+            "(listed in full in tables/validation_warnings.csv); the first: "
+            f"{notes[0]}",
+            kind="note",
+        ),
+        TableBlock(
+            "validation_warnings",
+            "warnings raised during cross-validation",
+            pd.DataFrame({"warning": list(notes)}),
+            index=False,
+            shown=False,
+        ),
+    )
 
 
 def model_section(
