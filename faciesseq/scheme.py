@@ -200,139 +200,13 @@ class FaciesScheme:
         """Build and validate a scheme from parsed YAML (``source`` names the file)."""
         if not isinstance(data, Mapping):
             raise ConfigError("a facies scheme must be a mapping with a 'facies' list", file=source)
-        unknown = set(data) - _SCHEME_KEYS
-        if unknown:
-            raise ConfigError(
-                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_SCHEME_KEYS)}",
-                file=source,
-            )
+        _check_keys(data, _SCHEME_KEYS, "", source)
         entries = data.get("facies")
         if not isinstance(entries, list) or not entries:
             raise ConfigError("'facies' must be a non-empty list of facies entries", file=source)
-        facies: list[Facies] = []
-        seen: dict[str, int] = {}
-        owner: dict[str, str] = {}
-        for i, entry in enumerate(entries, start=1):
-            here = f"facies entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(
-                    f"{here}: must be a mapping with code, name and rank", file=source
-                )
-            bad = set(entry) - _FACIES_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected some of "
-                    f"{sorted(_FACIES_KEYS)}",
-                    file=source,
-                )
-            if entry.get("code") is None:
-                raise ConfigError(f"{here}: missing 'code'", file=source)
-            if isinstance(entry["code"], bool):
-                raise ConfigError(
-                    f"{here}: code {entry['code']!r} was read as a yes/no value; put the code "
-                    'in quotes (e.g. code: "OFF")',
-                    file=source,
-                )
-            code = _code(entry["code"])
-            here = f"facies entry {i} (code {code!r})"
-            if code in seen:
-                raise ConfigError(
-                    f"{here}: duplicate code, already used by facies entry {seen[code]}",
-                    file=source,
-                )
-            seen[code] = i
-            name = entry.get("name")
-            if not name:
-                raise ConfigError(f"{here}: missing 'name'", file=source)
-            rank = entry.get("rank")
-            if rank is None:
-                raise ConfigError(
-                    f"{here}: missing 'rank' (proximality: 0 = most landward/shallow, "
-                    "larger = more basinward/deep)",
-                    file=source,
-                )
-            if isinstance(rank, bool) or not isinstance(rank, int | float):
-                raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
-            if not math.isfinite(rank):
-                raise ConfigError(
-                    f"{here}: 'rank' must be a finite number, got {rank!r}", file=source
-                )
-            grain = entry.get("grain_size")
-            if grain is not None and (
-                isinstance(grain, bool) or not isinstance(grain, int | float)
-            ):
-                raise ConfigError(
-                    f"{here}: 'grain_size' must be a number, got {grain!r}", file=source
-                )
-            colour = entry.get("colour")
-            if colour is not None:
-                colour = str(colour)
-                digits = set(colour[1:].lower())  # '#zzzzzz' would break every figure
-                if not (
-                    colour.startswith("#")
-                    and len(colour) in (4, 7)
-                    and digits <= set("0123456789abcdef")
-                ):
-                    raise ConfigError(
-                        f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
-                        file=source,
-                    )
-            cycle_base = entry.get("cycle_base", False)
-            if not isinstance(cycle_base, bool):
-                raise ConfigError(
-                    f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
-                )
-            setting = entry.get("setting")
-            if setting is not None and setting not in SETTINGS:
-                raise ConfigError(
-                    f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
-                    file=source,
-                )
-            exposure = entry.get("exposure", False)
-            if not isinstance(exposure, bool):
-                raise ConfigError(
-                    f"{here}: 'exposure' must be true or false, got {exposure!r}", file=source
-                )
-            if exposure and setting == "marine":
-                raise ConfigError(
-                    f"{here}: 'exposure: true' records the site above base level, so the "
-                    "facies cannot have 'setting: marine'; give 'setting: nonmarine' or none",
-                    file=source,
-                )
-            raw_aliases = entry.get("aliases") or []
-            if not isinstance(raw_aliases, list):
-                raw_aliases = [raw_aliases]
-            aliases = tuple(_code(a) for a in raw_aliases)
-            facies.append(
-                Facies(
-                    code=code,
-                    name=str(name),
-                    rank=float(rank),
-                    group=None if entry.get("group") is None else str(entry["group"]),
-                    colour=colour,
-                    grain_size=None if grain is None else float(grain),
-                    aliases=aliases,
-                    description=entry.get("description"),
-                    cycle_base=cycle_base,
-                    setting=setting,
-                    exposure=exposure,
-                )
-            )
-        for f in facies:
-            for alias in f.aliases:
-                if alias in seen and alias != f.code:
-                    raise ConfigError(
-                        f"facies {f.code!r}: alias {alias!r} clashes with the code of "
-                        f"facies entry {seen[alias]}",
-                        file=source,
-                    )
-                if alias in owner and owner[alias] != f.code:
-                    raise ConfigError(
-                        f"facies {f.code!r}: alias {alias!r} is already an alias of "
-                        f"facies {owner[alias]!r}",
-                        file=source,
-                    )
-                owner[alias] = f.code
+        seen: dict[str, int] = {}  # code -> its entry number
+        facies = [_facies_entry(entry, i, seen, source) for i, entry in enumerate(entries, 1)]
+        _check_aliases(facies, seen, source)
         return cls(
             facies=tuple(facies),
             name=str(data.get("name", "unnamed scheme")),
@@ -433,6 +307,156 @@ class FaciesScheme:
         if f.colour:
             return f.colour
         return _FALLBACK_COLOURS[self.codes.index(f.code) % len(_FALLBACK_COLOURS)]
+
+
+def _check_keys(
+    data: Mapping, allowed: set[str], here: str, source: str | None, expected: str = "some of "
+) -> None:
+    """Refuse keys of a mapping that are not in ``allowed`` (``here`` names the mapping)."""
+    unknown = set(data) - allowed
+    if unknown:
+        raise ConfigError(
+            f"{here + ': ' if here else ''}unknown key(s) {sorted(unknown)}; "
+            f"expected {expected}{sorted(allowed)}",
+            file=source,
+        )
+
+
+def _facies_entry(entry: Any, i: int, seen: dict[str, int], source: str | None) -> Facies:
+    """Read facies entry ``i``: its keys, then code, name, rank, grain size, colour, the
+    cycle base, setting and exposure flags and the aliases, in that order. ``seen``
+    (code -> entry number) gets the code."""
+    here = f"facies entry {i}"
+    if not isinstance(entry, Mapping):
+        raise ConfigError(f"{here}: must be a mapping with code, name and rank", file=source)
+    _check_keys(entry, _FACIES_KEYS, here, source)
+    code = _facies_code(entry, i, seen, source)
+    here = f"facies entry {i} (code {code!r})"
+    name = entry.get("name")
+    if not name:
+        raise ConfigError(f"{here}: missing 'name'", file=source)
+    rank = _facies_rank(entry.get("rank"), here, source)
+    grain = entry.get("grain_size")
+    if grain is not None and (isinstance(grain, bool) or not isinstance(grain, int | float)):
+        raise ConfigError(f"{here}: 'grain_size' must be a number, got {grain!r}", file=source)
+    colour = _facies_colour(entry.get("colour"), here, source)
+    cycle_base, setting, exposure = _facies_setting(entry, here, source)
+    raw_aliases = entry.get("aliases") or []
+    if not isinstance(raw_aliases, list):
+        raw_aliases = [raw_aliases]
+    aliases = tuple(_code(a) for a in raw_aliases)
+    return Facies(
+        code=code,
+        name=str(name),
+        rank=float(rank),
+        group=None if entry.get("group") is None else str(entry["group"]),
+        colour=colour,
+        grain_size=None if grain is None else float(grain),
+        aliases=aliases,
+        description=entry.get("description"),
+        cycle_base=cycle_base,
+        setting=setting,
+        exposure=exposure,
+    )
+
+
+def _facies_code(entry: Mapping, i: int, seen: dict[str, int], source: str | None) -> str:
+    """The code of facies entry ``i``: present, not a YAML yes/no, not the code of an
+    earlier entry; recorded in ``seen``."""
+    if entry.get("code") is None:
+        raise ConfigError(f"facies entry {i}: missing 'code'", file=source)
+    if isinstance(entry["code"], bool):
+        raise ConfigError(
+            f"facies entry {i}: code {entry['code']!r} was read as a yes/no value; put the code "
+            'in quotes (e.g. code: "OFF")',
+            file=source,
+        )
+    code = _code(entry["code"])
+    if code in seen:
+        raise ConfigError(
+            f"facies entry {i} (code {code!r}): duplicate code, already used by facies entry "
+            f"{seen[code]}",
+            file=source,
+        )
+    seen[code] = i
+    return code
+
+
+def _facies_rank(rank: Any, here: str, source: str | None) -> float:
+    """The rank (proximality) of a facies entry: present, a finite number."""
+    if rank is None:
+        raise ConfigError(
+            f"{here}: missing 'rank' (proximality: 0 = most landward/shallow, "
+            "larger = more basinward/deep)",
+            file=source,
+        )
+    if isinstance(rank, bool) or not isinstance(rank, int | float):
+        raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
+    if not math.isfinite(rank):
+        raise ConfigError(f"{here}: 'rank' must be a finite number, got {rank!r}", file=source)
+    return rank
+
+
+def _facies_colour(colour: Any, here: str, source: str | None) -> str | None:
+    """The colour of a facies entry as text: ``#rgb`` or ``#rrggbb`` hex, or ``None``."""
+    if colour is None:
+        return None
+    colour = str(colour)
+    digits = set(colour[1:].lower())  # '#zzzzzz' would break every figure
+    if not (colour.startswith("#") and len(colour) in (4, 7) and digits <= set("0123456789abcdef")):
+        raise ConfigError(
+            f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
+            file=source,
+        )
+    return colour
+
+
+def _facies_setting(entry: Mapping, here: str, source: str | None) -> tuple[bool, Any, bool]:
+    """``cycle_base``, ``setting`` and ``exposure`` of a facies entry: true/false, one of
+    :data:`SETTINGS`, true/false; an exposure facies cannot be marine."""
+    cycle_base = entry.get("cycle_base", False)
+    if not isinstance(cycle_base, bool):
+        raise ConfigError(
+            f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
+        )
+    setting = entry.get("setting")
+    if setting is not None and setting not in SETTINGS:
+        raise ConfigError(
+            f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
+            file=source,
+        )
+    exposure = entry.get("exposure", False)
+    if not isinstance(exposure, bool):
+        raise ConfigError(
+            f"{here}: 'exposure' must be true or false, got {exposure!r}", file=source
+        )
+    if exposure and setting == "marine":
+        raise ConfigError(
+            f"{here}: 'exposure: true' records the site above base level, so the "
+            "facies cannot have 'setting: marine'; give 'setting: nonmarine' or none",
+            file=source,
+        )
+    return cycle_base, setting, exposure
+
+
+def _check_aliases(facies: list[Facies], seen: dict[str, int], source: str | None) -> None:
+    """Refuse an alias that is another facies' code or an alias of another facies."""
+    owner: dict[str, str] = {}
+    for f in facies:
+        for alias in f.aliases:
+            if alias in seen and alias != f.code:
+                raise ConfigError(
+                    f"facies {f.code!r}: alias {alias!r} clashes with the code of "
+                    f"facies entry {seen[alias]}",
+                    file=source,
+                )
+            if alias in owner and owner[alias] != f.code:
+                raise ConfigError(
+                    f"facies {f.code!r}: alias {alias!r} is already an alias of "
+                    f"facies {owner[alias]!r}",
+                    file=source,
+                )
+            owner[alias] = f.code
 
 
 @dataclass(frozen=True)
