@@ -322,6 +322,13 @@ def _check_keys(
         )
 
 
+def _check_present(entry: Mapping, keys: tuple[str, ...], here: str, source: str | None) -> None:
+    """Refuse an entry where one of ``keys`` is missing or empty (the first such is named)."""
+    for key in keys:
+        if not entry.get(key):
+            raise ConfigError(f"{here}: missing {key!r}", file=source)
+
+
 def _facies_entry(entry: Any, i: int, seen: dict[str, int], source: str | None) -> Facies:
     """Read facies entry ``i``: its keys, then code, name, rank, grain size, colour, the
     cycle base, setting and exposure flags and the aliases, in that order. ``seen``
@@ -549,74 +556,12 @@ class TractModel:
             raise ConfigError(
                 "a tract model must be a mapping with 'tracts' and 'order'", file=source
             )
-        unknown = set(data) - _MODEL_KEYS
-        if unknown:
-            raise ConfigError(
-                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_MODEL_KEYS)}",
-                file=source,
-            )
-        entries = data.get("tracts")
-        if not isinstance(entries, list) or len(entries) < 2:
-            raise ConfigError("'tracts' must list at least two tracts", file=source)
-        tracts: list[Tract] = []
-        for i, entry in enumerate(entries, start=1):
-            here = f"tract entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(f"{here}: must be a mapping with code, name, trend", file=source)
-            bad = set(entry) - _TRACT_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected some of {sorted(_TRACT_KEYS)}",
-                    file=source,
-                )
-            for key in ("code", "name", "trend"):
-                if not entry.get(key):
-                    raise ConfigError(f"{here}: missing {key!r}", file=source)
-            if entry["trend"] not in TRENDS:
-                raise ConfigError(
-                    f"{here} ({entry['code']}): trend must be one of {list(TRENDS)}, "
-                    f"got {entry['trend']!r}",
-                    file=source,
-                )
-            code = str(entry["code"])
-            if any(t.code == code for t in tracts):
-                raise ConfigError(f"{here}: duplicate tract code {code!r}", file=source)
-            tracts.append(
-                Tract(code, str(entry["name"]), str(entry["trend"]), entry.get("description"))
-            )
+        _check_keys(data, _MODEL_KEYS, "", source)
+        tracts = _tracts(data.get("tracts"), source)
         codes = [t.code for t in tracts]
-        order = data.get("order", codes)
-        if not isinstance(order, list) or sorted(map(str, order)) != sorted(codes):
-            raise ConfigError(
-                f"'order' must list every tract exactly once (tracts: {codes}), got {order!r}",
-                file=source,
-            )
-        order = [str(o) for o in order]
-        skips = [str(s) for s in (data.get("skips") or [])]
-        for s in skips:
-            if s not in codes:
-                raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
-        if len(set(skips)) != len(skips):
-            raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
-        raw_sub = data.get("substates")
-        if raw_sub is None:
-            raw_sub = {}
-        if isinstance(raw_sub, int) and not isinstance(raw_sub, bool):
-            raw_sub = {c: raw_sub for c in codes}
-        if not isinstance(raw_sub, Mapping):
-            raise ConfigError(
-                "'substates' must be a whole number or a mapping tract -> number", file=source
-            )
-        substates: dict[str, int] = {}
-        for c, n in raw_sub.items():
-            if c not in codes:
-                raise ConfigError(f"substates: unknown tract {c!r}", file=source)
-            if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_SUBSTATES:
-                raise ConfigError(
-                    f"substates: {c}: must be a whole number from 1 to {MAX_SUBSTATES}, got {n!r}",
-                    file=source,
-                )
-            substates[str(c)] = n
+        order = _tract_order(data.get("order", codes), codes, source)
+        skips = _skips(data.get("skips"), codes, source)
+        substates = _substates(data.get("substates"), codes, source)
         model = cls(
             tuple(tracts),
             tuple(order),
@@ -626,38 +571,7 @@ class TractModel:
             str(data.get("name", "tract model")),
             source,
         )
-        allowed = model.allowed()
-        idx = {c: k for k, c in enumerate(order)}
-        surfaces: list[Surface] = []
-        for i, entry in enumerate(data.get("surfaces") or [], start=1):
-            here = f"surface entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(
-                    f"{here}: must be a mapping with lower, upper, code, name", file=source
-                )
-            bad = set(entry) - _SURFACE_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected {sorted(_SURFACE_KEYS)}",
-                    file=source,
-                )
-            for key in ("lower", "upper", "code", "name"):
-                if not entry.get(key):
-                    raise ConfigError(f"{here}: missing {key!r}", file=source)
-            lo, up = str(entry["lower"]), str(entry["upper"])
-            for t in (lo, up):
-                if t not in codes:
-                    raise ConfigError(f"{here}: unknown tract {t!r} (tracts: {codes})", file=source)
-            if lo == up or not allowed[idx[lo]][idx[up]]:
-                raise ConfigError(
-                    f"{here}: {lo} -> {up} is not a boundary the tract order and skips allow",
-                    file=source,
-                )
-            if any(s.lower == lo and s.upper == up for s in surfaces):
-                raise ConfigError(
-                    f"{here}: a surface for {lo} -> {up} is already named", file=source
-                )
-            surfaces.append(Surface(lo, up, str(entry["code"]), str(entry["name"])))
+        surfaces = _surfaces(data.get("surfaces") or [], model, source)
         return cls(
             tuple(tracts),
             tuple(order),
@@ -684,6 +598,108 @@ class TractModel:
             ],
             "substates": dict(self.substates),
         }
+
+
+def _tracts(entries: Any, source: str | None) -> list[Tract]:
+    """Read the ``tracts`` list: at least two entries, each a mapping of known keys with a
+    code, name and trend (one of :data:`TRENDS`), codes not repeated."""
+    if not isinstance(entries, list) or len(entries) < 2:
+        raise ConfigError("'tracts' must list at least two tracts", file=source)
+    tracts: list[Tract] = []
+    for i, entry in enumerate(entries, start=1):
+        here = f"tract entry {i}"
+        if not isinstance(entry, Mapping):
+            raise ConfigError(f"{here}: must be a mapping with code, name, trend", file=source)
+        _check_keys(entry, _TRACT_KEYS, here, source)
+        _check_present(entry, ("code", "name", "trend"), here, source)
+        if entry["trend"] not in TRENDS:
+            raise ConfigError(
+                f"{here} ({entry['code']}): trend must be one of {list(TRENDS)}, "
+                f"got {entry['trend']!r}",
+                file=source,
+            )
+        code = str(entry["code"])
+        if any(t.code == code for t in tracts):
+            raise ConfigError(f"{here}: duplicate tract code {code!r}", file=source)
+        tracts.append(
+            Tract(code, str(entry["name"]), str(entry["trend"]), entry.get("description"))
+        )
+    return tracts
+
+
+def _tract_order(order: Any, codes: list[str], source: str | None) -> list[str]:
+    """Read ``order``: every tract code exactly once (the tracts' own order by default)."""
+    if not isinstance(order, list) or sorted(map(str, order)) != sorted(codes):
+        raise ConfigError(
+            f"'order' must list every tract exactly once (tracts: {codes}), got {order!r}",
+            file=source,
+        )
+    return [str(o) for o in order]
+
+
+def _skips(raw: Any, codes: list[str], source: str | None) -> list[str]:
+    """Read ``skips``: known tract codes, none listed twice."""
+    skips = [str(s) for s in (raw or [])]
+    for s in skips:
+        if s not in codes:
+            raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
+    if len(set(skips)) != len(skips):
+        raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
+    return skips
+
+
+def _substates(raw: Any, codes: list[str], source: str | None) -> dict[str, int]:
+    """Read ``substates``: one whole number for every tract, or a mapping tract -> number,
+    each from 1 to :data:`MAX_SUBSTATES`."""
+    if raw is None:
+        raw = {}
+    if isinstance(raw, int) and not isinstance(raw, bool):
+        raw = {c: raw for c in codes}
+    if not isinstance(raw, Mapping):
+        raise ConfigError(
+            "'substates' must be a whole number or a mapping tract -> number", file=source
+        )
+    substates: dict[str, int] = {}
+    for c, n in raw.items():
+        if c not in codes:
+            raise ConfigError(f"substates: unknown tract {c!r}", file=source)
+        if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_SUBSTATES:
+            raise ConfigError(
+                f"substates: {c}: must be a whole number from 1 to {MAX_SUBSTATES}, got {n!r}",
+                file=source,
+            )
+        substates[str(c)] = n
+    return substates
+
+
+def _surfaces(entries: Any, model: TractModel, source: str | None) -> list[Surface]:
+    """Read the ``surfaces`` list: each a mapping of known keys with lower, upper, code and
+    name, on a boundary of known tracts that the order and skips allow, named once."""
+    codes = [t.code for t in model.tracts]
+    allowed = model.allowed()
+    idx = {c: k for k, c in enumerate(model.order)}
+    surfaces: list[Surface] = []
+    for i, entry in enumerate(entries, start=1):
+        here = f"surface entry {i}"
+        if not isinstance(entry, Mapping):
+            raise ConfigError(
+                f"{here}: must be a mapping with lower, upper, code, name", file=source
+            )
+        _check_keys(entry, _SURFACE_KEYS, here, source, expected="")
+        _check_present(entry, ("lower", "upper", "code", "name"), here, source)
+        lo, up = str(entry["lower"]), str(entry["upper"])
+        for t in (lo, up):
+            if t not in codes:
+                raise ConfigError(f"{here}: unknown tract {t!r} (tracts: {codes})", file=source)
+        if lo == up or not allowed[idx[lo]][idx[up]]:
+            raise ConfigError(
+                f"{here}: {lo} -> {up} is not a boundary the tract order and skips allow",
+                file=source,
+            )
+        if any(s.lower == lo and s.upper == up for s in surfaces):
+            raise ConfigError(f"{here}: a surface for {lo} -> {up} is already named", file=source)
+        surfaces.append(Surface(lo, up, str(entry["code"]), str(entry["name"])))
+    return surfaces
 
 
 def load_scheme(path: str | Path) -> FaciesScheme:
