@@ -200,139 +200,13 @@ class FaciesScheme:
         """Build and validate a scheme from parsed YAML (``source`` names the file)."""
         if not isinstance(data, Mapping):
             raise ConfigError("a facies scheme must be a mapping with a 'facies' list", file=source)
-        unknown = set(data) - _SCHEME_KEYS
-        if unknown:
-            raise ConfigError(
-                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_SCHEME_KEYS)}",
-                file=source,
-            )
+        _check_keys(data, _SCHEME_KEYS, "", source)
         entries = data.get("facies")
         if not isinstance(entries, list) or not entries:
             raise ConfigError("'facies' must be a non-empty list of facies entries", file=source)
-        facies: list[Facies] = []
-        seen: dict[str, int] = {}
-        owner: dict[str, str] = {}
-        for i, entry in enumerate(entries, start=1):
-            here = f"facies entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(
-                    f"{here}: must be a mapping with code, name and rank", file=source
-                )
-            bad = set(entry) - _FACIES_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected some of "
-                    f"{sorted(_FACIES_KEYS)}",
-                    file=source,
-                )
-            if entry.get("code") is None:
-                raise ConfigError(f"{here}: missing 'code'", file=source)
-            if isinstance(entry["code"], bool):
-                raise ConfigError(
-                    f"{here}: code {entry['code']!r} was read as a yes/no value; put the code "
-                    'in quotes (e.g. code: "OFF")',
-                    file=source,
-                )
-            code = _code(entry["code"])
-            here = f"facies entry {i} (code {code!r})"
-            if code in seen:
-                raise ConfigError(
-                    f"{here}: duplicate code, already used by facies entry {seen[code]}",
-                    file=source,
-                )
-            seen[code] = i
-            name = entry.get("name")
-            if not name:
-                raise ConfigError(f"{here}: missing 'name'", file=source)
-            rank = entry.get("rank")
-            if rank is None:
-                raise ConfigError(
-                    f"{here}: missing 'rank' (proximality: 0 = most landward/shallow, "
-                    "larger = more basinward/deep)",
-                    file=source,
-                )
-            if isinstance(rank, bool) or not isinstance(rank, int | float):
-                raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
-            if not math.isfinite(rank):
-                raise ConfigError(
-                    f"{here}: 'rank' must be a finite number, got {rank!r}", file=source
-                )
-            grain = entry.get("grain_size")
-            if grain is not None and (
-                isinstance(grain, bool) or not isinstance(grain, int | float)
-            ):
-                raise ConfigError(
-                    f"{here}: 'grain_size' must be a number, got {grain!r}", file=source
-                )
-            colour = entry.get("colour")
-            if colour is not None:
-                colour = str(colour)
-                digits = set(colour[1:].lower())  # '#zzzzzz' would break every figure
-                if not (
-                    colour.startswith("#")
-                    and len(colour) in (4, 7)
-                    and digits <= set("0123456789abcdef")
-                ):
-                    raise ConfigError(
-                        f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
-                        file=source,
-                    )
-            cycle_base = entry.get("cycle_base", False)
-            if not isinstance(cycle_base, bool):
-                raise ConfigError(
-                    f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
-                )
-            setting = entry.get("setting")
-            if setting is not None and setting not in SETTINGS:
-                raise ConfigError(
-                    f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
-                    file=source,
-                )
-            exposure = entry.get("exposure", False)
-            if not isinstance(exposure, bool):
-                raise ConfigError(
-                    f"{here}: 'exposure' must be true or false, got {exposure!r}", file=source
-                )
-            if exposure and setting == "marine":
-                raise ConfigError(
-                    f"{here}: 'exposure: true' records the site above base level, so the "
-                    "facies cannot have 'setting: marine'; give 'setting: nonmarine' or none",
-                    file=source,
-                )
-            raw_aliases = entry.get("aliases") or []
-            if not isinstance(raw_aliases, list):
-                raw_aliases = [raw_aliases]
-            aliases = tuple(_code(a) for a in raw_aliases)
-            facies.append(
-                Facies(
-                    code=code,
-                    name=str(name),
-                    rank=float(rank),
-                    group=None if entry.get("group") is None else str(entry["group"]),
-                    colour=colour,
-                    grain_size=None if grain is None else float(grain),
-                    aliases=aliases,
-                    description=entry.get("description"),
-                    cycle_base=cycle_base,
-                    setting=setting,
-                    exposure=exposure,
-                )
-            )
-        for f in facies:
-            for alias in f.aliases:
-                if alias in seen and alias != f.code:
-                    raise ConfigError(
-                        f"facies {f.code!r}: alias {alias!r} clashes with the code of "
-                        f"facies entry {seen[alias]}",
-                        file=source,
-                    )
-                if alias in owner and owner[alias] != f.code:
-                    raise ConfigError(
-                        f"facies {f.code!r}: alias {alias!r} is already an alias of "
-                        f"facies {owner[alias]!r}",
-                        file=source,
-                    )
-                owner[alias] = f.code
+        seen: dict[str, int] = {}  # code -> its entry number
+        facies = [_facies_entry(entry, i, seen, source) for i, entry in enumerate(entries, 1)]
+        _check_aliases(facies, seen, source)
         return cls(
             facies=tuple(facies),
             name=str(data.get("name", "unnamed scheme")),
@@ -435,6 +309,163 @@ class FaciesScheme:
         return _FALLBACK_COLOURS[self.codes.index(f.code) % len(_FALLBACK_COLOURS)]
 
 
+def _check_keys(
+    data: Mapping, allowed: set[str], here: str, source: str | None, expected: str = "some of "
+) -> None:
+    """Refuse keys of a mapping that are not in ``allowed`` (``here`` names the mapping)."""
+    unknown = set(data) - allowed
+    if unknown:
+        raise ConfigError(
+            f"{here + ': ' if here else ''}unknown key(s) {sorted(unknown)}; "
+            f"expected {expected}{sorted(allowed)}",
+            file=source,
+        )
+
+
+def _check_present(entry: Mapping, keys: tuple[str, ...], here: str, source: str | None) -> None:
+    """Refuse an entry where one of ``keys`` is missing or empty (the first such is named)."""
+    for key in keys:
+        if not entry.get(key):
+            raise ConfigError(f"{here}: missing {key!r}", file=source)
+
+
+def _facies_entry(entry: Any, i: int, seen: dict[str, int], source: str | None) -> Facies:
+    """Read facies entry ``i``: its keys, then code, name, rank, grain size, colour, the
+    cycle base, setting and exposure flags and the aliases, in that order. ``seen``
+    (code -> entry number) gets the code."""
+    here = f"facies entry {i}"
+    if not isinstance(entry, Mapping):
+        raise ConfigError(f"{here}: must be a mapping with code, name and rank", file=source)
+    _check_keys(entry, _FACIES_KEYS, here, source)
+    code = _facies_code(entry, i, seen, source)
+    here = f"facies entry {i} (code {code!r})"
+    name = entry.get("name")
+    if not name:
+        raise ConfigError(f"{here}: missing 'name'", file=source)
+    rank = _facies_rank(entry.get("rank"), here, source)
+    grain = entry.get("grain_size")
+    if grain is not None and (isinstance(grain, bool) or not isinstance(grain, int | float)):
+        raise ConfigError(f"{here}: 'grain_size' must be a number, got {grain!r}", file=source)
+    colour = _facies_colour(entry.get("colour"), here, source)
+    cycle_base, setting, exposure = _facies_setting(entry, here, source)
+    raw_aliases = entry.get("aliases") or []
+    if not isinstance(raw_aliases, list):
+        raw_aliases = [raw_aliases]
+    aliases = tuple(_code(a) for a in raw_aliases)
+    return Facies(
+        code=code,
+        name=str(name),
+        rank=float(rank),
+        group=None if entry.get("group") is None else str(entry["group"]),
+        colour=colour,
+        grain_size=None if grain is None else float(grain),
+        aliases=aliases,
+        description=entry.get("description"),
+        cycle_base=cycle_base,
+        setting=setting,
+        exposure=exposure,
+    )
+
+
+def _facies_code(entry: Mapping, i: int, seen: dict[str, int], source: str | None) -> str:
+    """The code of facies entry ``i``: present, not a YAML yes/no, not the code of an
+    earlier entry; recorded in ``seen``."""
+    if entry.get("code") is None:
+        raise ConfigError(f"facies entry {i}: missing 'code'", file=source)
+    if isinstance(entry["code"], bool):
+        raise ConfigError(
+            f"facies entry {i}: code {entry['code']!r} was read as a yes/no value; put the code "
+            'in quotes (e.g. code: "OFF")',
+            file=source,
+        )
+    code = _code(entry["code"])
+    if code in seen:
+        raise ConfigError(
+            f"facies entry {i} (code {code!r}): duplicate code, already used by facies entry "
+            f"{seen[code]}",
+            file=source,
+        )
+    seen[code] = i
+    return code
+
+
+def _facies_rank(rank: Any, here: str, source: str | None) -> float:
+    """The rank (proximality) of a facies entry: present, a finite number."""
+    if rank is None:
+        raise ConfigError(
+            f"{here}: missing 'rank' (proximality: 0 = most landward/shallow, "
+            "larger = more basinward/deep)",
+            file=source,
+        )
+    if isinstance(rank, bool) or not isinstance(rank, int | float):
+        raise ConfigError(f"{here}: 'rank' must be a number, got {rank!r}", file=source)
+    if not math.isfinite(rank):
+        raise ConfigError(f"{here}: 'rank' must be a finite number, got {rank!r}", file=source)
+    return rank
+
+
+def _facies_colour(colour: Any, here: str, source: str | None) -> str | None:
+    """The colour of a facies entry as text: ``#rgb`` or ``#rrggbb`` hex, or ``None``."""
+    if colour is None:
+        return None
+    colour = str(colour)
+    digits = set(colour[1:].lower())  # '#zzzzzz' would break every figure
+    if not (colour.startswith("#") and len(colour) in (4, 7) and digits <= set("0123456789abcdef")):
+        raise ConfigError(
+            f"{here}: 'colour' must be a hex colour such as '#3b6e8f', got {colour!r}",
+            file=source,
+        )
+    return colour
+
+
+def _facies_setting(entry: Mapping, here: str, source: str | None) -> tuple[bool, Any, bool]:
+    """``cycle_base``, ``setting`` and ``exposure`` of a facies entry: true/false, one of
+    :data:`SETTINGS`, true/false; an exposure facies cannot be marine."""
+    cycle_base = entry.get("cycle_base", False)
+    if not isinstance(cycle_base, bool):
+        raise ConfigError(
+            f"{here}: 'cycle_base' must be true or false, got {cycle_base!r}", file=source
+        )
+    setting = entry.get("setting")
+    if setting is not None and setting not in SETTINGS:
+        raise ConfigError(
+            f"{here}: 'setting' must be one of {', '.join(SETTINGS)}, got {setting!r}",
+            file=source,
+        )
+    exposure = entry.get("exposure", False)
+    if not isinstance(exposure, bool):
+        raise ConfigError(
+            f"{here}: 'exposure' must be true or false, got {exposure!r}", file=source
+        )
+    if exposure and setting == "marine":
+        raise ConfigError(
+            f"{here}: 'exposure: true' records the site above base level, so the "
+            "facies cannot have 'setting: marine'; give 'setting: nonmarine' or none",
+            file=source,
+        )
+    return cycle_base, setting, exposure
+
+
+def _check_aliases(facies: list[Facies], seen: dict[str, int], source: str | None) -> None:
+    """Refuse an alias that is another facies' code or an alias of another facies."""
+    owner: dict[str, str] = {}
+    for f in facies:
+        for alias in f.aliases:
+            if alias in seen and alias != f.code:
+                raise ConfigError(
+                    f"facies {f.code!r}: alias {alias!r} clashes with the code of "
+                    f"facies entry {seen[alias]}",
+                    file=source,
+                )
+            if alias in owner and owner[alias] != f.code:
+                raise ConfigError(
+                    f"facies {f.code!r}: alias {alias!r} is already an alias of "
+                    f"facies {owner[alias]!r}",
+                    file=source,
+                )
+            owner[alias] = f.code
+
+
 @dataclass(frozen=True)
 class Tract:
     """A systems tract (trade term) and its expected upward stacking trend."""
@@ -525,74 +556,12 @@ class TractModel:
             raise ConfigError(
                 "a tract model must be a mapping with 'tracts' and 'order'", file=source
             )
-        unknown = set(data) - _MODEL_KEYS
-        if unknown:
-            raise ConfigError(
-                f"unknown key(s) {sorted(unknown)}; expected some of {sorted(_MODEL_KEYS)}",
-                file=source,
-            )
-        entries = data.get("tracts")
-        if not isinstance(entries, list) or len(entries) < 2:
-            raise ConfigError("'tracts' must list at least two tracts", file=source)
-        tracts: list[Tract] = []
-        for i, entry in enumerate(entries, start=1):
-            here = f"tract entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(f"{here}: must be a mapping with code, name, trend", file=source)
-            bad = set(entry) - _TRACT_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected some of {sorted(_TRACT_KEYS)}",
-                    file=source,
-                )
-            for key in ("code", "name", "trend"):
-                if not entry.get(key):
-                    raise ConfigError(f"{here}: missing {key!r}", file=source)
-            if entry["trend"] not in TRENDS:
-                raise ConfigError(
-                    f"{here} ({entry['code']}): trend must be one of {list(TRENDS)}, "
-                    f"got {entry['trend']!r}",
-                    file=source,
-                )
-            code = str(entry["code"])
-            if any(t.code == code for t in tracts):
-                raise ConfigError(f"{here}: duplicate tract code {code!r}", file=source)
-            tracts.append(
-                Tract(code, str(entry["name"]), str(entry["trend"]), entry.get("description"))
-            )
+        _check_keys(data, _MODEL_KEYS, "", source)
+        tracts = _tracts(data.get("tracts"), source)
         codes = [t.code for t in tracts]
-        order = data.get("order", codes)
-        if not isinstance(order, list) or sorted(map(str, order)) != sorted(codes):
-            raise ConfigError(
-                f"'order' must list every tract exactly once (tracts: {codes}), got {order!r}",
-                file=source,
-            )
-        order = [str(o) for o in order]
-        skips = [str(s) for s in (data.get("skips") or [])]
-        for s in skips:
-            if s not in codes:
-                raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
-        if len(set(skips)) != len(skips):
-            raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
-        raw_sub = data.get("substates")
-        if raw_sub is None:
-            raw_sub = {}
-        if isinstance(raw_sub, int) and not isinstance(raw_sub, bool):
-            raw_sub = {c: raw_sub for c in codes}
-        if not isinstance(raw_sub, Mapping):
-            raise ConfigError(
-                "'substates' must be a whole number or a mapping tract -> number", file=source
-            )
-        substates: dict[str, int] = {}
-        for c, n in raw_sub.items():
-            if c not in codes:
-                raise ConfigError(f"substates: unknown tract {c!r}", file=source)
-            if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_SUBSTATES:
-                raise ConfigError(
-                    f"substates: {c}: must be a whole number from 1 to {MAX_SUBSTATES}, got {n!r}",
-                    file=source,
-                )
-            substates[str(c)] = n
+        order = _tract_order(data.get("order", codes), codes, source)
+        skips = _skips(data.get("skips"), codes, source)
+        substates = _substates(data.get("substates"), codes, source)
         model = cls(
             tuple(tracts),
             tuple(order),
@@ -602,38 +571,7 @@ class TractModel:
             str(data.get("name", "tract model")),
             source,
         )
-        allowed = model.allowed()
-        idx = {c: k for k, c in enumerate(order)}
-        surfaces: list[Surface] = []
-        for i, entry in enumerate(data.get("surfaces") or [], start=1):
-            here = f"surface entry {i}"
-            if not isinstance(entry, Mapping):
-                raise ConfigError(
-                    f"{here}: must be a mapping with lower, upper, code, name", file=source
-                )
-            bad = set(entry) - _SURFACE_KEYS
-            if bad:
-                raise ConfigError(
-                    f"{here}: unknown key(s) {sorted(bad)}; expected {sorted(_SURFACE_KEYS)}",
-                    file=source,
-                )
-            for key in ("lower", "upper", "code", "name"):
-                if not entry.get(key):
-                    raise ConfigError(f"{here}: missing {key!r}", file=source)
-            lo, up = str(entry["lower"]), str(entry["upper"])
-            for t in (lo, up):
-                if t not in codes:
-                    raise ConfigError(f"{here}: unknown tract {t!r} (tracts: {codes})", file=source)
-            if lo == up or not allowed[idx[lo]][idx[up]]:
-                raise ConfigError(
-                    f"{here}: {lo} -> {up} is not a boundary the tract order and skips allow",
-                    file=source,
-                )
-            if any(s.lower == lo and s.upper == up for s in surfaces):
-                raise ConfigError(
-                    f"{here}: a surface for {lo} -> {up} is already named", file=source
-                )
-            surfaces.append(Surface(lo, up, str(entry["code"]), str(entry["name"])))
+        surfaces = _surfaces(data.get("surfaces") or [], model, source)
         return cls(
             tuple(tracts),
             tuple(order),
@@ -660,6 +598,108 @@ class TractModel:
             ],
             "substates": dict(self.substates),
         }
+
+
+def _tracts(entries: Any, source: str | None) -> list[Tract]:
+    """Read the ``tracts`` list: at least two entries, each a mapping of known keys with a
+    code, name and trend (one of :data:`TRENDS`), codes not repeated."""
+    if not isinstance(entries, list) or len(entries) < 2:
+        raise ConfigError("'tracts' must list at least two tracts", file=source)
+    tracts: list[Tract] = []
+    for i, entry in enumerate(entries, start=1):
+        here = f"tract entry {i}"
+        if not isinstance(entry, Mapping):
+            raise ConfigError(f"{here}: must be a mapping with code, name, trend", file=source)
+        _check_keys(entry, _TRACT_KEYS, here, source)
+        _check_present(entry, ("code", "name", "trend"), here, source)
+        if entry["trend"] not in TRENDS:
+            raise ConfigError(
+                f"{here} ({entry['code']}): trend must be one of {list(TRENDS)}, "
+                f"got {entry['trend']!r}",
+                file=source,
+            )
+        code = str(entry["code"])
+        if any(t.code == code for t in tracts):
+            raise ConfigError(f"{here}: duplicate tract code {code!r}", file=source)
+        tracts.append(
+            Tract(code, str(entry["name"]), str(entry["trend"]), entry.get("description"))
+        )
+    return tracts
+
+
+def _tract_order(order: Any, codes: list[str], source: str | None) -> list[str]:
+    """Read ``order``: every tract code exactly once (the tracts' own order by default)."""
+    if not isinstance(order, list) or sorted(map(str, order)) != sorted(codes):
+        raise ConfigError(
+            f"'order' must list every tract exactly once (tracts: {codes}), got {order!r}",
+            file=source,
+        )
+    return [str(o) for o in order]
+
+
+def _skips(raw: Any, codes: list[str], source: str | None) -> list[str]:
+    """Read ``skips``: known tract codes, none listed twice."""
+    skips = [str(s) for s in (raw or [])]
+    for s in skips:
+        if s not in codes:
+            raise ConfigError(f"skips: unknown tract {s!r} (tracts: {codes})", file=source)
+    if len(set(skips)) != len(skips):
+        raise ConfigError(f"skips: a tract is listed twice ({skips})", file=source)
+    return skips
+
+
+def _substates(raw: Any, codes: list[str], source: str | None) -> dict[str, int]:
+    """Read ``substates``: one whole number for every tract, or a mapping tract -> number,
+    each from 1 to :data:`MAX_SUBSTATES`."""
+    if raw is None:
+        raw = {}
+    if isinstance(raw, int) and not isinstance(raw, bool):
+        raw = {c: raw for c in codes}
+    if not isinstance(raw, Mapping):
+        raise ConfigError(
+            "'substates' must be a whole number or a mapping tract -> number", file=source
+        )
+    substates: dict[str, int] = {}
+    for c, n in raw.items():
+        if c not in codes:
+            raise ConfigError(f"substates: unknown tract {c!r}", file=source)
+        if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_SUBSTATES:
+            raise ConfigError(
+                f"substates: {c}: must be a whole number from 1 to {MAX_SUBSTATES}, got {n!r}",
+                file=source,
+            )
+        substates[str(c)] = n
+    return substates
+
+
+def _surfaces(entries: Any, model: TractModel, source: str | None) -> list[Surface]:
+    """Read the ``surfaces`` list: each a mapping of known keys with lower, upper, code and
+    name, on a boundary of known tracts that the order and skips allow, named once."""
+    codes = [t.code for t in model.tracts]
+    allowed = model.allowed()
+    idx = {c: k for k, c in enumerate(model.order)}
+    surfaces: list[Surface] = []
+    for i, entry in enumerate(entries, start=1):
+        here = f"surface entry {i}"
+        if not isinstance(entry, Mapping):
+            raise ConfigError(
+                f"{here}: must be a mapping with lower, upper, code, name", file=source
+            )
+        _check_keys(entry, _SURFACE_KEYS, here, source, expected="")
+        _check_present(entry, ("lower", "upper", "code", "name"), here, source)
+        lo, up = str(entry["lower"]), str(entry["upper"])
+        for t in (lo, up):
+            if t not in codes:
+                raise ConfigError(f"{here}: unknown tract {t!r} (tracts: {codes})", file=source)
+        if lo == up or not allowed[idx[lo]][idx[up]]:
+            raise ConfigError(
+                f"{here}: {lo} -> {up} is not a boundary the tract order and skips allow",
+                file=source,
+            )
+        if any(s.lower == lo and s.upper == up for s in surfaces):
+            raise ConfigError(f"{here}: a surface for {lo} -> {up} is already named", file=source)
+        surfaces.append(Surface(lo, up, str(entry["code"]), str(entry["name"])))
+    return surfaces
 
 
 def load_scheme(path: str | Path) -> FaciesScheme:

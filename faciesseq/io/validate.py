@@ -995,85 +995,185 @@ def build_coreset(
         raise ConfigError(
             f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
         )
+    prepared = _prepare_tables(tables, layout, columns, scheme)
+    target, unit_problems = _resolve_units(prepared, units)
+    gathered = _Gathered(target, repeated_depths, list(unit_problems))
+    for p in prepared:
+        _take_file(p, gathered)
+    _take_sampled_cores(gathered)
+    cores = _assemble(gathered.blocks, gathered.order, target)
+    problems = gathered.problems + _empty_cores(cores, gathered)
+    # beds of every core at once (one vectorised pass, kept for the analyses)
+    derived = CoreSet(cores, target)
+    problems += _too_short_cores(derived, cores, gathered.owner)
+    meta = {
+        "sample_step": {n: gathered.steps[n] for n in cores if n in gathered.steps},
+        "layout": {n: ("samples" if n in gathered.steps else "intervals") for n in cores},
+        "columns": {p.table.file: p.roles for p in prepared},
+    }
+    if any(p.kind == "units" for p in unit_problems):
+        suspect = feet_suspected(derived, meta["sample_step"])
+        if suspect is not None:
+            problems.insert(0, suspect)
+    if not cores and not any(p.severity == "error" for p in problems):
+        problems.append(_no_cores(sources))
+    problems = _in_core_order(problems, gathered.order, target)
+    coreset = CoreSet(cores, target, tuple(problems), sources, meta)
+    if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
+        coreset._derived.update(derived._derived)
+    return coreset
+
+
+def _prepare_tables(
+    tables: list[RawTable],
+    layout: str | None,
+    columns: Mapping[str, str] | None,
+    scheme: FaciesScheme | None,
+) -> list[_Rows]:
+    """Apply the column roles to every table (see :func:`_prepare`), releasing its rows."""
     columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
     prepared = []
     for t in tables:
         prepared.append(_prepare(t, layout, columns, scheme))
         t.frame = t.frame.iloc[:0]  # the rows now live in the prepared table: one copy kept
-    target, unit_problems = _resolve_units(prepared, units)
-    tolerance = OVERLAP_TOLERANCE_M if target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
-    problems: list[Problem] = list(unit_problems)
-    owner: dict[str, str] = {}
-    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]] = []  # rows, names, name of row
-    steps: dict[str, float] = {}
-    pending: list[tuple[str, pd.DataFrame, _Rows]] = []
-    order: list[str] = []
-    for p in prepared:
-        problems += p.problems
-        file = p.table.file
-        # one split of the file's rows by core (not one scan of the table per core)
-        local, found_names = pd.factorize(p.frame["core"])
-        names = [str(n) for n in found_names]
-        counts = np.bincount(local, minlength=len(names))
-        # numbered in order of first appearance: a core's first row is where the number
-        # first exceeds every number before it
-        first = np.flatnonzero(np.r_[True, local[1:] > np.maximum.accumulate(local)[:-1]])
-        first = first[: len(names)]  # none for a table without rows
-        first_row = p.frame["_row"].to_numpy()[first]
-        owned = np.zeros(len(names), dtype=bool)
-        for k, name in enumerate(names):
-            if name in owner and owner[name] != file:
-                problems.append(
-                    Problem(
-                        "error",
-                        "duplicate-core",
-                        f"core {name!r} is also in {owner[name]}; a core must come from one "
-                        f"file or table ({counts[k]} row(s) here left out)",
-                        file=file,
-                        row=int(first_row[k]),
-                        core=name,
-                    )
+    return prepared
+
+
+@dataclass
+class _Gathered:
+    """The checked rows of the files taken in so far, and what was found on the way.
+
+    ``owner`` is the file each core comes from and ``order`` the cores in order of
+    first appearance; ``blocks`` hold the checked intervals (rows, core names, the
+    name of each row), ``pending`` the checked samples of each core, turned into
+    intervals once every file's sample spacing is known (``steps``).
+    """
+
+    target: str  # depth units of the core set
+    repeated_depths: str
+    problems: list[Problem]
+    owner: dict[str, str] = field(default_factory=dict)
+    order: list[str] = field(default_factory=list)
+    blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]] = field(default_factory=list)
+    steps: dict[str, float] = field(default_factory=dict)
+    pending: list[tuple[str, pd.DataFrame, _Rows]] = field(default_factory=list)
+
+    @property
+    def tolerance(self) -> float:
+        """The overlap snapped as rounding, in the core set's units."""
+        return OVERLAP_TOLERANCE_M if self.target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
+
+
+def _take_file(p: _Rows, gathered: _Gathered) -> None:
+    """Take in one prepared table: its problems, its cores (refused when another file has
+    them), then the per-core checks of its intervals or samples."""
+    gathered.problems += p.problems
+    file = p.table.file
+    local, names, counts, first_row = _split_by_core(p.frame)
+    owned = _claim_cores(names, counts, first_row, file, gathered)
+    rows = np.flatnonzero(owned[local])
+    rows = rows[np.argsort(local[rows], kind="stable")]
+    frame = p.frame.drop(columns="core")
+    if p.layout == "intervals" and len(rows):  # the columns a core keeps, chosen once
+        frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
+        if not np.array_equal(rows, np.arange(len(frame))):  # else in core order already
+            frame = frame.take(rows).reset_index(drop=True)
+        part, core_of_row, found = _check_all_intervals(
+            frame, local[rows], names, file, gathered.target, gathered.tolerance
+        )
+        gathered.problems += found
+        gathered.blocks.append((part, names, core_of_row))
+    elif len(rows):
+        _take_samples(p, frame, rows, local, names, gathered)
+    p.frame = None  # the rows live on in the blocks; nothing keeps a second copy
+    # cores whose every row had an error still exist: report them as empty
+    for prob in p.problems:
+        if prob.core and prob.core not in gathered.owner:
+            gathered.owner[prob.core] = file
+            gathered.order.append(prob.core)
+
+
+def _split_by_core(frame: pd.DataFrame) -> tuple[np.ndarray, list[str], np.ndarray, np.ndarray]:
+    """One split of a file's rows by core (not one scan of the table per core).
+
+    Returns the core number of each row (numbered in order of first appearance),
+    the core names, their row counts and the source row of each core's first row.
+    """
+    local, found_names = pd.factorize(frame["core"])
+    names = [str(n) for n in found_names]
+    counts = np.bincount(local, minlength=len(names))
+    # a core's first row is where the number first exceeds every number before it
+    first = np.flatnonzero(np.r_[True, local[1:] > np.maximum.accumulate(local)[:-1]])
+    first = first[: len(names)]  # none for a table without rows
+    first_row = frame["_row"].to_numpy()[first]
+    return local, names, counts, first_row
+
+
+def _claim_cores(
+    names: list[str], counts: np.ndarray, first_row: np.ndarray, file: str, gathered: _Gathered
+) -> np.ndarray:
+    """Which of a file's cores it owns: a core already taken from another file is an error
+    (``duplicate-core``) and its rows here are left out."""
+    owner = gathered.owner
+    owned = np.zeros(len(names), dtype=bool)
+    for k, name in enumerate(names):
+        if name in owner and owner[name] != file:
+            gathered.problems.append(
+                Problem(
+                    "error",
+                    "duplicate-core",
+                    f"core {name!r} is also in {owner[name]}; a core must come from one "
+                    f"file or table ({counts[k]} row(s) here left out)",
+                    file=file,
+                    row=int(first_row[k]),
+                    core=name,
                 )
-                continue
-            owner[name] = file
-            order.append(name)
-            owned[k] = True
-        rows = np.flatnonzero(owned[local])
-        rows = rows[np.argsort(local[rows], kind="stable")]
-        frame = p.frame.drop(columns="core")
-        if p.layout == "intervals" and len(rows):  # the columns a core keeps, chosen once
-            frame = frame[["top", "base", "facies", *p.attributes, "_file", "_row"]]
-            if not np.array_equal(rows, np.arange(len(frame))):  # else in core order already
-                frame = frame.take(rows).reset_index(drop=True)
-            part, core_of_row, found = _check_all_intervals(
-                frame, local[rows], names, file, target, tolerance
             )
-            problems += found
-            blocks.append((part, names, core_of_row))
-        elif len(rows):
-            bounds = np.flatnonzero(np.r_[True, np.diff(local[rows]) != 0, True])
-            for a, b in pairwise(bounds):
-                name = names[local[rows[a]]]
-                part = frame.take(rows[a:b]).reset_index(drop=True)
-                part, found = _check_samples(part, file, name, target, repeated_depths)
-                problems += found
-                pending.append((name, part, p))
-                step = _modal_step(part["depth"].to_numpy(dtype=float))
-                if step is not None:
-                    steps[name] = step
-        p.frame = None  # the rows live on in the blocks; nothing keeps a second copy
-        # cores whose every row had an error still exist: report them as empty
-        for prob in p.problems:
-            if prob.core and prob.core not in owner:
-                owner[prob.core] = file
-                order.append(prob.core)
+            continue
+        owner[name] = file
+        gathered.order.append(name)
+        owned[k] = True
+    return owned
+
+
+def _take_samples(
+    p: _Rows,
+    frame: pd.DataFrame,
+    rows: np.ndarray,
+    local: np.ndarray,
+    names: list[str],
+    gathered: _Gathered,
+) -> None:
+    """Check the samples of each core of a file (``rows`` in core order); keep them, and
+    each core's modal sample spacing, for :func:`_take_sampled_cores`."""
+    bounds = np.flatnonzero(np.r_[True, np.diff(local[rows]) != 0, True])
+    for a, b in pairwise(bounds):
+        name = names[local[rows[a]]]
+        part = frame.take(rows[a:b]).reset_index(drop=True)
+        part, found = _check_samples(
+            part, p.table.file, name, gathered.target, gathered.repeated_depths
+        )
+        gathered.problems += found
+        gathered.pending.append((name, part, p))
+        step = _modal_step(part["depth"].to_numpy(dtype=float))
+        if step is not None:
+            gathered.steps[name] = step
+
+
+def _take_sampled_cores(gathered: _Gathered) -> None:
+    """Turn the checked samples of each core into intervals.
+
+    A core of a single sample takes the median spacing of the other cores; with
+    none to take it from, it is left out (``too-short``).
+    """
+    steps = gathered.steps
     fallback = float(np.median(list(steps.values()))) if steps else None
-    for name, part, p in pending:
+    for name, part, p in gathered.pending:
         if len(part) == 0:
             continue
         step = steps.get(name, fallback)
         if step is None:
-            problems.append(
+            gathered.problems.append(
                 Problem(
                     "warning",
                     "too-short",
@@ -1084,67 +1184,70 @@ def build_coreset(
             )
             continue
         steps[name] = step
-        table, found = _samples_to_intervals(part, p.attributes, step, p.table.file, name, target)
-        problems += found
-        blocks.append((table, [name], np.zeros(len(table), dtype=np.int64)))
-    cores = _assemble(blocks, order, target)
-    for name in order:
-        if name not in cores:
-            problems.append(
-                Problem(
-                    "warning",
-                    "empty-core",
-                    "no usable intervals (see the problems above); left out",
-                    file=owner.get(name),
-                    core=name,
-                )
-            )
-    # beds of every core at once (one vectorised pass, kept for the analyses)
-    derived = CoreSet(cores, target)
+        table, found = _samples_to_intervals(
+            part, p.attributes, step, p.table.file, name, gathered.target
+        )
+        gathered.problems += found
+        gathered.blocks.append((table, [name], np.zeros(len(table), dtype=np.int64)))
+
+
+def _empty_cores(cores: CoreTable | dict[str, Core], gathered: _Gathered) -> list[Problem]:
+    """A warning (``empty-core``) for every core seen that kept no usable interval."""
+    return [
+        Problem(
+            "warning",
+            "empty-core",
+            "no usable intervals (see the problems above); left out",
+            file=gathered.owner.get(name),
+            core=name,
+        )
+        for name in gathered.order
+        if name not in cores
+    ]
+
+
+def _too_short_cores(
+    derived: CoreSet, cores: CoreTable | dict[str, Core], owner: dict[str, str]
+) -> list[Problem]:
+    """A warning (``too-short``) for every core of fewer than two beds."""
     n_intervals = (
         dict(zip(derived.names, np.diff(cores.starts)))
         if isinstance(cores, CoreTable)
         else {n: len(c) for n, c in cores.items()}
     )
-    for name, n_beds in derived.bed_counts().items():
-        if n_beds < 2:
-            problems.append(
-                Problem(
-                    "warning",
-                    "too-short",
-                    f"only {n_beds} bed ({n_intervals[name]} interval(s)): too short for "
-                    "transition statistics",
-                    file=owner.get(name),
-                    core=name,
-                )
-            )
-    meta = {
-        "sample_step": {n: steps[n] for n in cores if n in steps},
-        "layout": {n: ("samples" if n in steps else "intervals") for n in cores},
-        "columns": {p.table.file: p.roles for p in prepared},
-    }
-    if any(p.kind == "units" for p in unit_problems):
-        suspect = feet_suspected(derived, meta["sample_step"])
-        if suspect is not None:
-            problems.insert(0, suspect)
-    if not cores and not any(p.severity == "error" for p in problems):
-        problems.append(
-            Problem(
-                "error",
-                "no-cores",
-                "no usable cores in the source (no data rows?)",
-                file=", ".join(sources) or None,
-            )
+    return [
+        Problem(
+            "warning",
+            "too-short",
+            f"only {n_beds} bed ({n_intervals[name]} interval(s)): too short for "
+            "transition statistics",
+            file=owner.get(name),
+            core=name,
         )
+        for name, n_beds in derived.bed_counts().items()
+        if n_beds < 2
+    ]
+
+
+def _no_cores(sources: tuple[str, ...]) -> Problem:
+    """The error of a source that gave no usable core and no other error to say why."""
+    return Problem(
+        "error",
+        "no-cores",
+        "no usable cores in the source (no data rows?)",
+        file=", ".join(sources) or None,
+    )
+
+
+def _in_core_order(problems: list[Problem], order: list[str], target: str) -> list[Problem]:
+    """The problems with their depth units stated, those of no core first, then core by core
+    (stable: the order found within a core is kept)."""
     problems = [
         replace(p, units=target) if p.depth is not None and p.units is None else p for p in problems
     ]
     rank = {name: k for k, name in enumerate(order)}
     problems.sort(key=lambda p: -1 if p.core is None else rank.get(p.core, len(rank)))
-    coreset = CoreSet(cores, target, tuple(problems), sources, meta)
-    if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
-        coreset._derived.update(derived._derived)
-    return coreset
+    return problems
 
 
 def _assemble(

@@ -36,7 +36,7 @@ import pandas as pd
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, InputError
-from faciesseq.interpretation import Interpretation
+from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.report.document import (
     Document,
     FigureBlock,
@@ -396,92 +396,19 @@ def _cores_section(
     missing: dict,
     notes: Sequence[str] = (),
 ) -> Section:
+    """The Cores section: what the strip logs show, the notes of decoding, the view of
+    every core, a summary table (second block) and one sub-section per core; each
+    core's decoded tables go to ``results["cores"]``."""
     if interpretation is None:
         return _not_available("Cores", "no decoded cores were given", missing, "cores")
-    from faciesseq.report.striplog import strip_log
-
     s = Section("Cores")
-    s.add(
-        Paragraph(
-            "One strip log per core, depth downward: the facies column (box width by grain size "
-            "where known, otherwise by proximality), the most likely tract column, the posterior "
-            "probability of each tract, and the probability of each surface per depth cell "
-            "with the picks. Picks are listed with their probability and an uncertainty "
-            "interval; the per-bed tract probabilities are in the data files."
-        )
-    )
-    if not interpretation.probabilities_checked:
-        s.add(Paragraph(interpretation.probabilities_note, kind="note"))
-    for note in notes:
-        s.add(Paragraph(f"Note from decoding: {note}", kind="note"))
-    from faciesseq.report.view import view_html
-
-    s.add(
-        ViewBlock(
-            "view",
-            "Every decoded core side by side: zoom and scroll in depth, hover a bed for its "
-            "facies, thickness, tract probabilities and the surface probabilities at its "
-            "contacts, switch tracks on and off.",
-            view_html(interpretation, scheme, tract_model),
-        )
-    )
+    _cores_intro_blocks(s, interpretation, scheme, tract_model, notes)
     summary_rows = []
     results["cores"] = {}
     for k, core in enumerate(interpretation, start=1):
-        key = core_key(core.core, k)
         sub = s.sub(f"Core {core.core}")
-        tract_thickness = core.beds.groupby("tract")["thickness"].sum()
-        summary_rows.append(
-            {
-                "core": core.core,
-                "beds": len(core.beds),
-                "log-likelihood": core.log_likelihood,
-                "picks": len(core.picks),
-                **{
-                    f"{t} ({core.units})": float(tract_thickness.get(t, 0.0))
-                    for t in interpretation.tracts
-                },
-            }
-        )
-        sub.add(
-            FigureBlock(
-                f"{key}_striplog",
-                f"Strip log of core {core.core}: facies, most likely systems tract, tract "
-                f"posteriors and surface probabilities (depth in {core.units}, downward).",
-                strip_log(core, scheme, tract_model, checked=interpretation.probabilities_checked),
-            )
-        )
-        picks = core.picks.copy()
-        if len(picks):
-            u = core.units
-            picks = picks.set_index("surface").rename(
-                columns={
-                    "depth": f"depth ({u})",
-                    "depth_top": f"interval top ({u})",
-                    "depth_base": f"interval base ({u})",
-                }
-            )
-            sub.add(
-                TableBlock(
-                    f"{key}_picks",
-                    f"Surfaces picked in core {core.core}: depth ({core.units}), probability at "
-                    "the pick and the uncertainty interval.",
-                    picks,
-                    probabilities=("probability", "p_contact"),
-                )
-            )
-        else:
-            sub.add(Paragraph(f"No surface was picked in core {core.core}."))
-        beds = core.beds.drop(columns=[c for c in ("segment",) if c in core.beds])
-        sub.add(
-            TableBlock(
-                f"{key}_beds",
-                f"beds of core {core.core} with the most likely tract and the tract posteriors.",
-                beds,
-                index=False,
-                shown=False,
-            )
-        )
+        summary_rows.append(_core_summary_row(core, interpretation.tracts))
+        _core_blocks(sub, core, core_key(core.core, k), scheme, tract_model, interpretation)
         results["cores"][core.core] = {
             "log_likelihood": core.log_likelihood,
             "beds": core.beds,
@@ -498,6 +425,105 @@ def _cores_section(
         ),
     )
     return s
+
+
+def _cores_intro_blocks(
+    s: Section,
+    interpretation: Interpretation,
+    scheme: FaciesScheme,
+    tract_model: TractModel,
+    notes: Sequence[str],
+) -> None:
+    """What the strip logs show, the notes on the probabilities and from decoding, and the
+    interactive view of every core."""
+    from faciesseq.report.view import view_html
+
+    s.add(
+        Paragraph(
+            "One strip log per core, depth downward: the facies column (box width by grain size "
+            "where known, otherwise by proximality), the most likely tract column, the posterior "
+            "probability of each tract, and the probability of each surface per depth cell "
+            "with the picks. Picks are listed with their probability and an uncertainty "
+            "interval; the per-bed tract probabilities are in the data files."
+        )
+    )
+    if not interpretation.probabilities_checked:
+        s.add(Paragraph(interpretation.probabilities_note, kind="note"))
+    for note in notes:
+        s.add(Paragraph(f"Note from decoding: {note}", kind="note"))
+    s.add(
+        ViewBlock(
+            "view",
+            "Every decoded core side by side: zoom and scroll in depth, hover a bed for its "
+            "facies, thickness, tract probabilities and the surface probabilities at its "
+            "contacts, switch tracks on and off.",
+            view_html(interpretation, scheme, tract_model),
+        )
+    )
+
+
+def _core_summary_row(core: CoreInterpretation, tracts: Sequence[str]) -> dict[str, Any]:
+    """One core's row of the summary: beds, log-likelihood, picks and thickness per tract."""
+    tract_thickness = core.beds.groupby("tract")["thickness"].sum()
+    return {
+        "core": core.core,
+        "beds": len(core.beds),
+        "log-likelihood": core.log_likelihood,
+        "picks": len(core.picks),
+        **{f"{t} ({core.units})": float(tract_thickness.get(t, 0.0)) for t in tracts},
+    }
+
+
+def _core_blocks(
+    sub: Section,
+    core: CoreInterpretation,
+    key: str,
+    scheme: FaciesScheme,
+    tract_model: TractModel,
+    interpretation: Interpretation,
+) -> None:
+    """One core's strip log, its picks (or a line saying there are none) and its beds."""
+    from faciesseq.report.striplog import strip_log
+
+    sub.add(
+        FigureBlock(
+            f"{key}_striplog",
+            f"Strip log of core {core.core}: facies, most likely systems tract, tract "
+            f"posteriors and surface probabilities (depth in {core.units}, downward).",
+            strip_log(core, scheme, tract_model, checked=interpretation.probabilities_checked),
+        )
+    )
+    picks = core.picks.copy()
+    if len(picks):
+        u = core.units
+        picks = picks.set_index("surface").rename(
+            columns={
+                "depth": f"depth ({u})",
+                "depth_top": f"interval top ({u})",
+                "depth_base": f"interval base ({u})",
+            }
+        )
+        sub.add(
+            TableBlock(
+                f"{key}_picks",
+                f"Surfaces picked in core {core.core}: depth ({core.units}), probability at "
+                "the pick and the uncertainty interval.",
+                picks,
+                probabilities=("probability", "p_contact"),
+            )
+        )
+    else:
+        sub.add(Paragraph(f"No surface was picked in core {core.core}."))
+    beds = core.beds.drop(columns=[c for c in ("segment",) if c in core.beds])
+    sub.add(
+        TableBlock(
+            f"{key}_beds",
+            f"beds of core {core.core} with the most likely tract and the tract posteriors.",
+            beds,
+            index=False,
+            shown=False,
+        )
+    )
 
 
 # ------------------------------------------------------------------------- building

@@ -153,23 +153,49 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         model.calibration_.get("method") == "parametric bootstrap"
     )
     s = Section("Methods")
-    data = s.sub("Successions")
-    data.add(
-        Paragraph(
-            "Depths are positive downward. Each core is split at gaps into unbroken successions, "
-            "analysed base to top (older to younger), so a transition A → B means that facies B "
-            "lies directly on facies A. No transition is counted across a gap or between cores. "
-            + (
-                "Adjacent intervals of one facies are amalgamated into beds, so no bed follows a "
-                "bed of its own facies (an embedded chain: the diagonal of the count matrix is a "
-                "structural zero)."
-                if unit == "beds"
-                else "Facies are sampled on a regular depth grid, so self-transitions are counted."
-            )
+    s.sub("Successions").add(_successions_paragraph(unit))
+    s.sub("Transition statistics").add(*_transition_blocks())
+    hmm = s.sub("Systems-tract hidden Markov model")
+    hmm.add(*_hmm_blocks())
+    if context:
+        hmm.add(Paragraph(CONTEXT_TEXT))
+    if context and "exposure" in getattr(model, "features_", ()):
+        hmm.add(Paragraph(EXPOSURE_TEXT))
+    weights = _weights_text(model)
+    if context and weights:
+        hmm.add(Paragraph(weights))
+    if boot:
+        hmm.add(Paragraph(BOOTSTRAP_TEXT))
+    s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
+    refs = s.sub("References")
+    extra = (CONTEXT_REFERENCES if context or boot else ()) + (
+        WEIGHT_REFERENCES if context and weights else ()
+    )
+    for ref in REFERENCES + extra:
+        refs.add(Paragraph(ref))
+    return s
+
+
+def _successions_paragraph(unit: str) -> Paragraph:
+    """How cores become successions: depth convention, gaps, beds or grid cells."""
+    return Paragraph(
+        "Depths are positive downward. Each core is split at gaps into unbroken successions, "
+        "analysed base to top (older to younger), so a transition A → B means that facies B "
+        "lies directly on facies A. No transition is counted across a gap or between cores. "
+        + (
+            "Adjacent intervals of one facies are amalgamated into beds, so no bed follows a "
+            "bed of its own facies (an embedded chain: the diagonal of the count matrix is a "
+            "structural zero)."
+            if unit == "beds"
+            else "Facies are sampled on a regular depth grid, so self-transitions are counted."
         )
     )
-    markov = s.sub("Transition statistics")
-    markov.add(
+
+
+def _transition_blocks() -> tuple[Paragraph | Equation, ...]:
+    """Transition statistics: probabilities, the independence tests and their residuals,
+    the order tests and the entropies, with equations 1 to 3."""
+    return (
         Paragraph(
             "With n_ij the number of upward transitions from facies i to facies j, n_i+ the row "
             "sums and N the total, the transition probabilities are p_ij = n_ij / n_i+. For an "
@@ -219,8 +245,12 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
             "3",
         ),
     )
-    hmm = s.sub("Systems-tract hidden Markov model")
-    hmm.add(
+
+
+def _hmm_blocks() -> tuple[Paragraph | Equation, ...]:
+    """The tract model: states, emissions, fitting, posteriors (equation 4), surfaces,
+    calibration and validation."""
+    return (
         Paragraph(
             "The hidden states are systems tracts (falling-stage, lowstand, transgressive and "
             "highstand; Catuneanu et al. 2009) joined only by the boundaries the tract model "
@@ -255,20 +285,3 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
             "picked surfaces and a reliability curve, beside a baseline."
         ),
     )
-    if context:
-        hmm.add(Paragraph(CONTEXT_TEXT))
-    if context and "exposure" in getattr(model, "features_", ()):
-        hmm.add(Paragraph(EXPOSURE_TEXT))
-    weights = _weights_text(model)
-    if context and weights:
-        hmm.add(Paragraph(weights))
-    if boot:
-        hmm.add(Paragraph(BOOTSTRAP_TEXT))
-    s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
-    refs = s.sub("References")
-    extra = (CONTEXT_REFERENCES if context or boot else ()) + (
-        WEIGHT_REFERENCES if context and weights else ()
-    )
-    for ref in REFERENCES + extra:
-        refs.add(Paragraph(ref))
-    return s

@@ -107,165 +107,206 @@ def _state_frame(values: np.ndarray, model: Any, columns) -> pd.DataFrame:
 
 
 def _emission_blocks(model: Any, sub: Section, scheme) -> None:
-    """Tables and heat maps of every emission piece, added to ``sub``."""
-    from faciesseq.report import figures
+    """Tables and heat maps of every emission piece, added to ``sub``.
 
+    A piece is shown by what it carries: emission probabilities (categorical
+    pieces), a stacking trend (``trendprob_``), boosted trees (``stacking``) or
+    means and variances (Gaussian pieces).
+    """
     ranks = getattr(model, "ranks_", None)
     for piece in model.emissions_:
         kind = getattr(piece, "kind", "")
-        name = piece.name
-        key = "model_emission_" + "".join(c if c.isalnum() else "_" for c in name.lower())
-        if len(key.encode("utf-8")) > 100:  # a long column name; keys name files
-            from faciesseq.io.writer import safe_stem
-
-            key = safe_stem(key, {key})
+        key = _emission_key(piece.name)
         if kind in ("categorical", "facies", "contact") or (
             hasattr(piece, "emissionprob_") and not hasattr(piece, "trendprob_")
         ):
-            table = _state_frame(piece.emissionprob_, model, piece.categories)
-            what = "facies" if "facies" in name else name
-            sub.add(
-                TableBlock(
-                    key, f"Emission probabilities P({what} | state) of the {name} piece.", table
-                ),
-                FigureBlock(
-                    key,
-                    f"Emission probabilities of {what} per state ({name} piece).",
-                    figures.heatmap(
-                        table,
-                        value_label="probability",
-                        row_title="state",
-                        column_title=what,
-                        label_colours=_tract_colours(model.states_.tracts)
-                        | _facies_colours(scheme, piece.categories),
-                    ),
-                ),
-            )
+            _categorical_blocks(sub, piece, key, model, scheme)
         elif hasattr(piece, "trendprob_"):
-            first = _state_frame(piece.emissionprob_, model, piece.categories)
-            sub.add(
-                TableBlock(
-                    key + "_first",
-                    "Facies of the lowest bed of a succession (no bed below), per state: "
-                    f"P(facies | state) of the {name} piece.",
-                    first,
-                ),
-                FigureBlock(
-                    key + "_first",
-                    "Facies probabilities of a succession's lowest bed, per state.",
-                    figures.heatmap(
-                        first,
-                        value_label="probability",
-                        row_title="state",
-                        column_title="facies",
-                        label_colours=_tract_colours(model.states_.tracts)
-                        | _facies_colours(scheme, piece.categories),
-                    ),
-                ),
-            )
-            trend = np.asarray(piece.trendprob_, dtype=float)  # (S, below, above)
-            cats = list(piece.categories)
-            rows = []
-            index = _rows(model, len(trend))
-            for s, label in enumerate(index):
-                for g, below in enumerate(cats):
-                    rows.append(
-                        {
-                            index.name: label,
-                            "facies below": below,
-                            **dict(zip(cats, trend[s, g], strict=True)),
-                        }
-                    )
-            sub.add(
-                TableBlock(
-                    key + "_trend",
-                    f"P(facies | facies below, state) of the {name} piece (stacking trend), "
-                    "one row per state and facies below.",
-                    pd.DataFrame(rows),
-                    index=False,
-                    shown=False,
-                )
-            )
-            if ranks is not None and len(ranks) == len(cats) and np.isfinite(ranks).all():
-                r = np.asarray(ranks, dtype=float)
-                change = r[None, None, :] - r[None, :, None]  # above minus below
-                pseudo = np.asarray(getattr(piece, "trend_pseudo", np.zeros_like(trend)), float)
-                deeper = (pseudo * (change > 0)).sum(axis=(1, 2))
-                shallower = (pseudo * (change < 0)).sum(axis=(1, 2))
-                sub.add(
-                    TableBlock(
-                        key + "_prior",
-                        "Dirichlet prior of the stacking trend: pseudo-counts (pseudo-beds) "
-                        "given to transitions into a deeper (more basinward) and into a "
-                        "shallower facies, per state; this is how the expected trend of each "
-                        "tract anchors which state is which.",
-                        pd.DataFrame(
-                            {
-                                "pseudo-counts, deeper above": deeper,
-                                "pseudo-counts, shallower above": shallower,
-                                "share deeper": deeper
-                                / np.where(deeper + shallower > 0, deeper + shallower, 1),
-                            },
-                            index=index,
-                        ),
-                    )
-                )
-                expected = (trend * change).sum(axis=2)  # (S, below)
-                first_p = np.asarray(piece.emissionprob_, dtype=float)
-                mean_change = (expected * first_p).sum(axis=1)
-                frame = pd.DataFrame(
-                    {
-                        "mean rank change upward": mean_change,
-                        "P(deeper facies above)": (
-                            (trend * (change > 0)).sum(axis=2) * first_p
-                        ).sum(axis=1),
-                    },
-                    index=index,
-                )
-                sub.add(
-                    TableBlock(
-                        key + "_trend_summary",
-                        "Stacking trend of each state: expected change of proximality rank from a "
-                        "bed to the bed above (positive = deepening upward, negative = "
-                        "shallowing upward), averaged over the facies below weighted by the "
-                        "state's facies probabilities.",
-                        frame,
-                    )
-                )
+            _facies_trend_blocks(sub, piece, key, model, scheme, ranks)
         elif kind == "stacking":
-            from faciesseq.hmm.encoding import stacking_columns
-
-            counts = piece.trees.split_counts()
-            columns = stacking_columns(piece.half_width)
-            total = max(int(counts.sum()), 1)
-            frame = pd.DataFrame(
-                {"splits": counts, "share": counts / total},
-                index=pd.Index(columns, name="window feature"),
-            ).sort_values("splits", ascending=False, kind="stable")
-            sub.add(
-                TableBlock(
-                    key,
-                    f"Stacking piece: boosted trees ({piece.trees.n_iterations} rounds, "
-                    f"{piece.trees.n_parameters()} leaves) over a window of {piece.half_width} "
-                    "beds below and above each bed, learnt from the labelled beds; how often "
-                    "each window feature is split on (offsets: beds below negative, above "
-                    "positive; rank_step = rank of that bed minus the bed's own).",
-                    frame.head(12),
-                )
-            )
+            _stacking_blocks(sub, piece, key)
         elif hasattr(piece, "means_"):
-            frame = pd.DataFrame(
-                {"mean": piece.means_, "sd": np.sqrt(np.asarray(piece.vars_, dtype=float))},
-                index=_rows(model, len(piece.means_)),
+            _gaussian_blocks(sub, piece, key, model)
+
+
+def _emission_key(name: str) -> str:
+    """The key (and file stem) of a piece's blocks: ``model_emission_`` and its name."""
+    key = "model_emission_" + "".join(c if c.isalnum() else "_" for c in name.lower())
+    if len(key.encode("utf-8")) > 100:  # a long column name; keys name files
+        from faciesseq.io.writer import safe_stem
+
+        key = safe_stem(key, {key})
+    return key
+
+
+def _probability_heatmap(table: pd.DataFrame, model: Any, scheme, categories, what: str):
+    """Heat map of a table of probabilities per state, labels coloured by tract and facies."""
+    from faciesseq.report import figures
+
+    return figures.heatmap(
+        table,
+        value_label="probability",
+        row_title="state",
+        column_title=what,
+        label_colours=_tract_colours(model.states_.tracts) | _facies_colours(scheme, categories),
+    )
+
+
+def _categorical_blocks(sub: Section, piece: Any, key: str, model: Any, scheme) -> None:
+    """Table and heat map of a categorical piece's ``emissionprob_`` (state by category)."""
+    name = piece.name
+    table = _state_frame(piece.emissionprob_, model, piece.categories)
+    what = "facies" if "facies" in name else name
+    sub.add(
+        TableBlock(key, f"Emission probabilities P({what} | state) of the {name} piece.", table),
+        FigureBlock(
+            key,
+            f"Emission probabilities of {what} per state ({name} piece).",
+            _probability_heatmap(table, model, scheme, piece.categories, what),
+        ),
+    )
+
+
+def _facies_trend_blocks(
+    sub: Section, piece: Any, key: str, model: Any, scheme, ranks: Any
+) -> None:
+    """Blocks of a facies-trend piece: the lowest bed's facies (table and heat map), the
+    trend P(facies | facies below, state), and, where every facies has a finite rank,
+    the trend's prior and its summary as rank changes."""
+    first = _state_frame(piece.emissionprob_, model, piece.categories)
+    sub.add(
+        TableBlock(
+            key + "_first",
+            "Facies of the lowest bed of a succession (no bed below), per state: "
+            f"P(facies | state) of the {piece.name} piece.",
+            first,
+        ),
+        FigureBlock(
+            key + "_first",
+            "Facies probabilities of a succession's lowest bed, per state.",
+            _probability_heatmap(first, model, scheme, piece.categories, "facies"),
+        ),
+    )
+    trend = np.asarray(piece.trendprob_, dtype=float)  # (S, below, above)
+    cats = list(piece.categories)
+    index = _rows(model, len(trend))
+    sub.add(_trend_table(piece.name, key, trend, cats, index))
+    if ranks is not None and len(ranks) == len(cats) and np.isfinite(ranks).all():
+        r = np.asarray(ranks, dtype=float)
+        change = r[None, None, :] - r[None, :, None]  # above minus below
+        pseudo = np.asarray(getattr(piece, "trend_pseudo", np.zeros_like(trend)), float)
+        sub.add(_trend_prior_table(key, pseudo, change, index))
+        first_p = np.asarray(piece.emissionprob_, dtype=float)
+        sub.add(_trend_summary_table(key, trend, first_p, change, index))
+
+
+def _trend_table(name: str, key: str, trend: np.ndarray, cats: list, index: pd.Index) -> TableBlock:
+    """The stacking trend as a long table: one row per state and facies below (not shown)."""
+    rows = []
+    for s, label in enumerate(index):
+        for g, below in enumerate(cats):
+            rows.append(
+                {
+                    index.name: label,
+                    "facies below": below,
+                    **dict(zip(cats, trend[s, g], strict=True)),
+                }
             )
-            sub.add(
-                TableBlock(
-                    key,
-                    f"Gaussian emission of {name} per state: mean and standard deviation"
-                    + (" (natural log of thickness)." if "thick" in name else "."),
-                    frame,
-                )
-            )
+    return TableBlock(
+        key + "_trend",
+        f"P(facies | facies below, state) of the {name} piece (stacking trend), "
+        "one row per state and facies below.",
+        pd.DataFrame(rows),
+        index=False,
+        shown=False,
+    )
+
+
+def _trend_prior_table(
+    key: str, pseudo: np.ndarray, change: np.ndarray, index: pd.Index
+) -> TableBlock:
+    """The trend's Dirichlet prior per state: pseudo-counts into deeper and shallower facies."""
+    deeper = (pseudo * (change > 0)).sum(axis=(1, 2))
+    shallower = (pseudo * (change < 0)).sum(axis=(1, 2))
+    return TableBlock(
+        key + "_prior",
+        "Dirichlet prior of the stacking trend: pseudo-counts (pseudo-beds) "
+        "given to transitions into a deeper (more basinward) and into a "
+        "shallower facies, per state; this is how the expected trend of each "
+        "tract anchors which state is which.",
+        pd.DataFrame(
+            {
+                "pseudo-counts, deeper above": deeper,
+                "pseudo-counts, shallower above": shallower,
+                "share deeper": deeper / np.where(deeper + shallower > 0, deeper + shallower, 1),
+            },
+            index=index,
+        ),
+    )
+
+
+def _trend_summary_table(
+    key: str, trend: np.ndarray, first_p: np.ndarray, change: np.ndarray, index: pd.Index
+) -> TableBlock:
+    """Each state's expected rank change upward, weighted by its facies probabilities."""
+    expected = (trend * change).sum(axis=2)  # (S, below)
+    mean_change = (expected * first_p).sum(axis=1)
+    frame = pd.DataFrame(
+        {
+            "mean rank change upward": mean_change,
+            "P(deeper facies above)": ((trend * (change > 0)).sum(axis=2) * first_p).sum(axis=1),
+        },
+        index=index,
+    )
+    return TableBlock(
+        key + "_trend_summary",
+        "Stacking trend of each state: expected change of proximality rank from a "
+        "bed to the bed above (positive = deepening upward, negative = "
+        "shallowing upward), averaged over the facies below weighted by the "
+        "state's facies probabilities.",
+        frame,
+    )
+
+
+def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
+    """How often the stacking piece's boosted trees split on each window feature."""
+    from faciesseq.hmm.encoding import stacking_columns
+
+    counts = piece.trees.split_counts()
+    columns = stacking_columns(piece.half_width)
+    total = max(int(counts.sum()), 1)
+    frame = pd.DataFrame(
+        {"splits": counts, "share": counts / total},
+        index=pd.Index(columns, name="window feature"),
+    ).sort_values("splits", ascending=False, kind="stable")
+    sub.add(
+        TableBlock(
+            key,
+            f"Stacking piece: boosted trees ({piece.trees.n_iterations} rounds, "
+            f"{piece.trees.n_parameters()} leaves) over a window of {piece.half_width} "
+            "beds below and above each bed, learnt from the labelled beds; how often "
+            "each window feature is split on (offsets: beds below negative, above "
+            "positive; rank_step = rank of that bed minus the bed's own).",
+            frame.head(12),
+        )
+    )
+
+
+def _gaussian_blocks(sub: Section, piece: Any, key: str, model: Any) -> None:
+    """Mean and standard deviation per state of a Gaussian piece."""
+    name = piece.name
+    frame = pd.DataFrame(
+        {"mean": piece.means_, "sd": np.sqrt(np.asarray(piece.vars_, dtype=float))},
+        index=_rows(model, len(piece.means_)),
+    )
+    sub.add(
+        TableBlock(
+            key,
+            f"Gaussian emission of {name} per state: mean and standard deviation"
+            + (" (natural log of thickness)." if "thick" in name else "."),
+            frame,
+        )
+    )
 
 
 def model_seed(model: Any) -> str:
@@ -516,113 +557,141 @@ def _diagnostic_blocks(diag: Section, model: Any, selection: Any, numbers: dict)
 def _validation_blocks(
     val: Section, validation: Any, reason: str, notes: Sequence[str], numbers: dict
 ) -> None:
-    """Cross-validation by core against the interpreters' tracts, where there is one."""
-    from faciesseq.report import figures
+    """Cross-validation by core against the interpreters' tracts, where there is one.
 
+    Adds to ``val`` the scores, the confusion matrices, the surface picks, the
+    reliability of the probabilities and the warnings of the folds, in that order;
+    without a validation, one paragraph saying why (``reason``).
+    """
     if validation is None:
         val.add(Paragraph(f"Not available: {reason}.", kind="missing"))
-    else:
-        numbers["validation"] = validation.to_dict()
-        frames = validation.to_frames()
-        settings = dict(getattr(validation, "settings", {}) or {})
+        return
+    numbers["validation"] = validation.to_dict()
+    frames = validation.to_frames()
+    _validation_score_blocks(val, validation, frames)
+    _confusion_blocks(val, validation, frames)
+    val.add(
+        TableBlock(
+            "validation_surfaces",
+            f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
+            f"error ({validation.units}).",
+            frames["surfaces"]
+            .set_index(frames["surfaces"].columns[0])
+            .rename(columns=_readable_units(validation.units)),
+        ),
+    )
+    _reliability_blocks(val, validation, frames)
+    if notes:
+        _validation_warning_blocks(val, notes)
+
+
+def _validation_score_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """What was cross-validated (folds, mode, labels), then the scores overall and per tract."""
+    settings = dict(getattr(validation, "settings", {}) or {})
+    val.add(
+        Paragraph(
+            f"{validation.folds}-fold cross-validation by core "
+            f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
+            "model fitted without it and compared bed by bed with the interpreter's "
+            f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
+            "by a stacking-trend rule without a model."
+        ),
+        TableBlock(
+            "validation_summary",
+            "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
+            "Brier score of the tract probabilities and the fraction of maximum flooding "
+            "surfaces picked within one bed.",
+            frames["summary"].set_index("method").rename(columns=_READABLE),
+        ),
+        TableBlock(
+            "validation_per_tract",
+            "Precision, recall, F1 and support (beds) per tract.",
+            frames["per_tract"].set_index(frames["per_tract"].columns[0]).rename(columns=_READABLE),
+        ),
+    )
+
+
+def _confusion_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """Confusion matrices of the model and of the baseline, and the model's as a heat map."""
+    from faciesseq.report import figures
+
+    for method in ("model", "baseline"):
+        confusion = frames[f"confusion_{method}"].copy()
+        confusion.index.name = "interpreted \\ decoded"
         val.add(
-            Paragraph(
-                f"{validation.folds}-fold cross-validation by core "
-                f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
-                "model fitted without it and compared bed by bed with the interpreter's "
-                f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
-                "by a stacking-trend rule without a model."
-            ),
             TableBlock(
-                "validation_summary",
-                "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
-                "Brier score of the tract probabilities and the fraction of maximum flooding "
-                "surfaces picked within one bed.",
-                frames["summary"].set_index("method").rename(columns=_READABLE),
-            ),
-            TableBlock(
-                "validation_per_tract",
-                "Precision, recall, F1 and support (beds) per tract.",
-                frames["per_tract"]
-                .set_index(frames["per_tract"].columns[0])
-                .rename(columns=_READABLE),
-            ),
-        )
-        for method in ("model", "baseline"):
-            confusion = frames[f"confusion_{method}"].copy()
-            confusion.index.name = "interpreted \\ decoded"
-            val.add(
-                TableBlock(
-                    f"validation_confusion_{method}",
-                    f"Confusion matrix of the {method} (beds; rows: interpreter's tract, "
-                    "columns: decoded tract).",
-                    confusion,
-                )
+                f"validation_confusion_{method}",
+                f"Confusion matrix of the {method} (beds; rows: interpreter's tract, "
+                "columns: decoded tract).",
+                confusion,
             )
-        val.add(
-            FigureBlock(
-                "validation_confusion",
-                "Confusion matrix of the tract model (beds).",
-                figures.heatmap(
-                    frames["confusion_model"].astype(float),
-                    label_colours=_tract_colours(validation.model.confusion.columns),
-                    value_label="beds",
-                    fmt="{:.0f}",
-                    row_title="interpreted tract",
-                    column_title="decoded tract",
-                ),
-            ),
-            TableBlock(
-                "validation_surfaces",
-                f"Surfaces: interpreted, matched by a pick, fraction within one bed, and depth "
-                f"error ({validation.units}).",
-                frames["surfaces"]
-                .set_index(frames["surfaces"].columns[0])
-                .rename(columns=_readable_units(validation.units)),
-            ),
         )
-        rel = {}
-        for method in ("model", "baseline"):
-            r = getattr(validation, method).reliability
-            rel[method] = pd.DataFrame(
-                {
-                    "predicted": r["mean_probability"],
-                    "observed": r["fraction_correct"],
-                    "count": r["count"],
-                }
-            ).dropna()
-        val.add(
-            TableBlock(
-                "validation_reliability",
-                "Reliability of the tract probabilities: per probability bin (bins without "
-                "beds left out), the mean predicted probability and the fraction of beds where "
-                "that tract was the interpreter's.",
-                frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
-                index=False,
+    val.add(
+        FigureBlock(
+            "validation_confusion",
+            "Confusion matrix of the tract model (beds).",
+            figures.heatmap(
+                frames["confusion_model"].astype(float),
+                label_colours=_tract_colours(validation.model.confusion.columns),
+                value_label="beds",
+                fmt="{:.0f}",
+                row_title="interpreted tract",
+                column_title="decoded tract",
             ),
-            FigureBlock(
-                "validation_reliability",
-                "Reliability curve: observed frequency against predicted tract probability, "
-                "tract model beside the baseline.",
-                figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
-            ),
-        )
-        if notes:
-            val.add(
-                Paragraph(
-                    f"{len(notes)} warning(s) while fitting and decoding the folds "
-                    "(listed in full in tables/validation_warnings.csv); the first: "
-                    f"{notes[0]}",
-                    kind="note",
-                ),
-                TableBlock(
-                    "validation_warnings",
-                    "warnings raised during cross-validation",
-                    pd.DataFrame({"warning": list(notes)}),
-                    index=False,
-                    shown=False,
-                ),
-            )
+        ),
+    )
+
+
+def _reliability_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """Reliability of the tract probabilities per bin: a table, and the curves of the model
+    and of the baseline."""
+    from faciesseq.report import figures
+
+    rel = {}
+    for method in ("model", "baseline"):
+        r = getattr(validation, method).reliability
+        rel[method] = pd.DataFrame(
+            {
+                "predicted": r["mean_probability"],
+                "observed": r["fraction_correct"],
+                "count": r["count"],
+            }
+        ).dropna()
+    val.add(
+        TableBlock(
+            "validation_reliability",
+            "Reliability of the tract probabilities: per probability bin (bins without "
+            "beds left out), the mean predicted probability and the fraction of beds where "
+            "that tract was the interpreter's.",
+            frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
+            index=False,
+        ),
+        FigureBlock(
+            "validation_reliability",
+            "Reliability curve: observed frequency against predicted tract probability, "
+            "tract model beside the baseline.",
+            figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
+        ),
+    )
+
+
+def _validation_warning_blocks(val: Section, notes: Sequence[str]) -> None:
+    """The warnings raised while fitting and decoding the folds: the first, and all in a table."""
+    val.add(
+        Paragraph(
+            f"{len(notes)} warning(s) while fitting and decoding the folds "
+            "(listed in full in tables/validation_warnings.csv); the first: "
+            f"{notes[0]}",
+            kind="note",
+        ),
+        TableBlock(
+            "validation_warnings",
+            "warnings raised during cross-validation",
+            pd.DataFrame({"warning": list(notes)}),
+            index=False,
+            shown=False,
+        ),
+    )
 
 
 def model_section(

@@ -421,56 +421,106 @@ def _rate(r: _Reader, constant_key: str) -> RateCurve:
     return RateCurve(table=tuple(map(tuple, table)))
 
 
+_TIME_KEYS = {"duration_kyr", "step_kyr", "min_tract_kyr"}
+_BASE_LEVEL_KEYS = {
+    "kind",
+    "components",
+    "amplitude_m",
+    "period_kyr",
+    "rise_fraction",
+    "phase_deg",
+    "table",
+    "trend_m_per_kyr",
+}
+_PROFILE_KEYS = {
+    "length_km",
+    "cell_km",
+    "shoreline_km",
+    "coastal_plain_gradient",
+    "shelf_gradient",
+    "shelf_break_km",
+    "slope_gradient",
+    "shoreface_depth_m",
+    "shoreface_width_km",
+    "toe_gradient",
+}
+_NOISE_KEYS = {
+    "facies_swap",
+    "thickness_jitter",
+    "missing_per_100m",
+    "missing_length_m",
+    "label_shift",
+}
+_DESCRIPTION_KEYS = {"bed_thickness_m", "bed_thickness_sigma", "rounding_m", "hiatus_sharp_kyr"}
+
+
 def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
     """Build and validate a :class:`Scenario` from parsed YAML.
 
     ``source`` names the file; a relative facies-scheme path is resolved from
     the scenario file's folder first, then from the working directory.
     """
+    # the blocks are read in the order of the file's documentation; a few keys
+    # (mud decay and depth, erosion, min_tract_kyr) are read last, and the first
+    # problem found is the one reported
     top = _Reader(data, "", source, _TOP_KEYS)
     name = top.text("name", Path(source).stem if source else "scenario")
+    time = top.child("time", _TIME_KEYS)
+    duration, step = _time_steps(time)
+    base_level = _base_level(top.child("base_level", _BASE_LEVEL_KEYS))
+    subsidence = _subsidence(top.child("subsidence", _SUBSIDENCE_KEYS))
+    supply = _rate(top.child("supply", {"rate_m2_per_kyr", "table"}), "rate_m2_per_kyr")
+    profile = _profile(top.child("profile", _PROFILE_KEYS))
+    mud = top.child("mud", {"fraction", "decay_km", "min_depth_m"})
+    mud_fraction = _mud_fraction(mud)
+    erosion = top.child("erosion", {"max_rate_m_per_kyr"})
+    scheme, bands = _facies(top.child("facies", {"scheme", "water_depth_m"}))
+    sections = _sections(top, subsidence)
+    wells = _wells(top, sections, profile)
+    noise = _noise(top.child("noise", _NOISE_KEYS))
+    description = _description(top.child("core_description", _DESCRIPTION_KEYS))
+    seed = _seed(top)
+    initial = _initial_tract(top)
+    return Scenario(
+        name=name,
+        duration_kyr=duration,
+        step_kyr=step,
+        base_level=base_level,
+        supply=supply,
+        profile=profile,
+        sections=sections,
+        wells=wells,
+        scheme=scheme,
+        depth_bands=bands,
+        mud_fraction=mud_fraction,
+        mud_decay_km=mud.number("decay_km", 15.0, positive=True),
+        mud_min_depth_m=mud.number("min_depth_m", 8.0, minimum=0.0),
+        erosion_m_per_kyr=erosion.number("max_rate_m_per_kyr", 1.0, minimum=0.0),
+        initial_tract=initial,
+        min_tract_kyr=time.number("min_tract_kyr", 2.0, minimum=0.0),
+        noise=noise,
+        description=description,
+        seed=seed,
+        description_text=top.data.get("description"),
+        source=source,
+    )
 
-    time = top.child("time", {"duration_kyr", "step_kyr", "min_tract_kyr"})
+
+def _time_steps(time: _Reader) -> tuple[float, float]:
+    """Read ``time.duration_kyr`` and ``time.step_kyr``; check the step count is sane."""
     duration = time.number("duration_kyr", positive=True)
     step = time.number("step_kyr", positive=True)
     if step > duration:
-        raise ConfigError("time.step_kyr: longer than time.duration_kyr", file=source)
+        raise ConfigError("time.step_kyr: longer than time.duration_kyr", file=time.source)
     if duration / step > 200_000:
-        raise ConfigError("time: more than 200000 time steps; use a longer step_kyr", file=source)
-
-    base_level = _base_level(
-        top.child(
-            "base_level",
-            {
-                "kind",
-                "components",
-                "amplitude_m",
-                "period_kyr",
-                "rise_fraction",
-                "phase_deg",
-                "table",
-                "trend_m_per_kyr",
-            },
+        raise ConfigError(
+            "time: more than 200000 time steps; use a longer step_kyr", file=time.source
         )
-    )
-    subsidence = _subsidence(top.child("subsidence", _SUBSIDENCE_KEYS))
-    supply = _rate(top.child("supply", {"rate_m2_per_kyr", "table"}), "rate_m2_per_kyr")
+    return duration, step
 
-    p = top.child(
-        "profile",
-        {
-            "length_km",
-            "cell_km",
-            "shoreline_km",
-            "coastal_plain_gradient",
-            "shelf_gradient",
-            "shelf_break_km",
-            "slope_gradient",
-            "shoreface_depth_m",
-            "shoreface_width_km",
-            "toe_gradient",
-        },
-    )
+
+def _profile(p: _Reader) -> Profile:
+    """Read the ``profile`` block; check the cell count and the order of its positions."""
     profile = Profile(
         length_km=p.number("length_km", positive=True),
         cell_km=p.number("cell_km", 0.1, positive=True),
@@ -484,31 +534,35 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         toe_gradient=p.number("toe_gradient", 2.0, positive=True),
     )
     if profile.length_km / profile.cell_km > 20_000:
-        raise ConfigError("profile: more than 20000 cells; use a larger cell_km", file=source)
+        raise ConfigError("profile: more than 20000 cells; use a larger cell_km", file=p.source)
     if not profile.shoreline_km < profile.shelf_break_km <= profile.length_km:
-        raise ConfigError("profile: need shoreline_km < shelf_break_km <= length_km", file=source)
+        raise ConfigError("profile: need shoreline_km < shelf_break_km <= length_km", file=p.source)
+    return profile
 
-    mud = top.child("mud", {"fraction", "decay_km", "min_depth_m"})
-    mud_fraction = mud.number("fraction", 0.3, minimum=0.0)
-    if mud_fraction > 1:
+
+def _mud_fraction(mud: _Reader) -> float:
+    """Read ``mud.fraction``, a fraction between 0 and 1 (the other mud keys are read last)."""
+    fraction = mud.number("fraction", 0.3, minimum=0.0)
+    if fraction > 1:
         raise ConfigError(
-            f"mud.fraction: must lie between 0 and 1, got {mud_fraction}", file=source
+            f"mud.fraction: must lie between 0 and 1, got {fraction}", file=mud.source
         )
-    erosion = top.child("erosion", {"max_rate_m_per_kyr"})
+    return fraction
 
-    fac = top.child("facies", {"scheme", "water_depth_m"})
-    scheme_path = Path(fac.text("scheme"))
-    if not scheme_path.is_absolute() and source is not None:
-        beside = Path(source).parent / scheme_path
-        if beside.exists():
-            scheme_path = beside
-    scheme = load_scheme(scheme_path)
+
+def _facies(fac: _Reader) -> tuple[FaciesScheme, tuple[tuple[str, float], ...]]:
+    """Read the ``facies`` block: load its scheme, then check the water-depth bands.
+
+    Every band names a code of the scheme and a number; the limits increase,
+    shallowest first. Codes are returned as the scheme's own (aliases resolved).
+    """
+    scheme = load_scheme(_scheme_path(fac.text("scheme"), fac.source))
     bands_raw = fac.data.get("water_depth_m")
     if not isinstance(bands_raw, Mapping) or not bands_raw:
         raise ConfigError(
             "facies.water_depth_m: map each facies code to the greatest water depth (m) it "
             "occupies, shallowest first, e.g. {CP: 0, FS: 1.5, ...}",
-            file=source,
+            file=fac.source,
         )
     bands: list[tuple[str, float]] = []
     for code, limit in bands_raw.items():
@@ -517,63 +571,85 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
             raise ConfigError(
                 f"facies.water_depth_m: {code!r} is not a code of scheme {scheme.name!r} "
                 f"(codes: {list(scheme.codes)})",
-                file=source,
+                file=fac.source,
             )
         if isinstance(limit, bool) or not isinstance(limit, int | float):
             raise ConfigError(
-                f"facies.water_depth_m.{code}: must be a number, got {limit!r}", file=source
+                f"facies.water_depth_m.{code}: must be a number, got {limit!r}", file=fac.source
             )
         bands.append((scheme.resolve(code), float(limit)))
     limits = [b[1] for b in bands]
     if any(b <= a for a, b in itertools.pairwise(limits)):
         raise ConfigError(
-            "facies.water_depth_m: depth limits must increase, shallowest first", file=source
+            "facies.water_depth_m: depth limits must increase, shallowest first", file=fac.source
         )
+    return scheme, tuple(bands)
 
+
+def _scheme_path(text: str, source: str | None) -> Path:
+    """The scheme file: a relative path beside the scenario file when one is there."""
+    scheme_path = Path(text)
+    if not scheme_path.is_absolute() and source is not None:
+        beside = Path(source).parent / scheme_path
+        if beside.exists():
+            return beside
+    return scheme_path
+
+
+def _sections(top: _Reader, subsidence: Subsidence) -> tuple[Section, ...]:
+    """Read ``sections`` (one section ``dip`` when absent): unique names, own subsidence or
+    the scenario's."""
     sections: list[Section] = []
     raw_sections = top.data.get("sections") or [{"name": "dip"}]
     if not isinstance(raw_sections, list):
-        raise ConfigError("sections: must be a list", file=source)
+        raise ConfigError("sections: must be a list", file=top.source)
     for i, entry in enumerate(raw_sections, start=1):
-        s = _Reader(entry, f"sections[{i}]", source, {"name", "supply_factor", "subsidence"})
+        s = _Reader(entry, f"sections[{i}]", top.source, {"name", "supply_factor", "subsidence"})
         sec_name = s.text("name")
         if any(x.name == sec_name for x in sections):
-            raise ConfigError(f"sections[{i}]: duplicate section name {sec_name!r}", file=source)
+            raise ConfigError(
+                f"sections[{i}]: duplicate section name {sec_name!r}", file=top.source
+            )
         sub = (
             _subsidence(s.child("subsidence", _SUBSIDENCE_KEYS))
             if s.has("subsidence")
-            else (subsidence)
+            else subsidence
         )
         sections.append(Section(sec_name, s.number("supply_factor", 1.0, minimum=0.0), sub))
+    return tuple(sections)
 
+
+def _wells(top: _Reader, sections: tuple[Section, ...], profile: Profile) -> tuple[Well, ...]:
+    """Read ``wells`` (at least one): unique names, a known section (the first by default),
+    a position on the profile."""
     wells: list[Well] = []
     raw_wells = top.data.get("wells")
     if not isinstance(raw_wells, list) or not raw_wells:
-        raise ConfigError("wells: list at least one well {name, x_km}", file=source)
+        raise ConfigError("wells: list at least one well {name, x_km}", file=top.source)
     for i, entry in enumerate(raw_wells, start=1):
-        w = _Reader(entry, f"wells[{i}]", source, {"name", "section", "x_km", "labelled"})
+        w = _Reader(entry, f"wells[{i}]", top.source, {"name", "section", "x_km", "labelled"})
         well_name = w.text("name")
         if any(x.name == well_name for x in wells):
-            raise ConfigError(f"wells[{i}]: duplicate well name {well_name!r}", file=source)
+            raise ConfigError(f"wells[{i}]: duplicate well name {well_name!r}", file=top.source)
         section = w.text("section", sections[0].name)
         if not any(x.name == section for x in sections):
             raise ConfigError(
                 f"wells[{i}] ({well_name}): unknown section {section!r} "
                 f"(sections: {[x.name for x in sections]})",
-                file=source,
+                file=top.source,
             )
         x_km = w.number("x_km", minimum=0.0)
         if x_km > profile.length_km:
             raise ConfigError(
                 f"wells[{i}] ({well_name}): x_km {x_km} lies beyond profile.length_km",
-                file=source,
+                file=top.source,
             )
         wells.append(Well(well_name, section, x_km, bool(w.data.get("labelled", False))))
+    return tuple(wells)
 
-    n = top.child(
-        "noise",
-        {"facies_swap", "thickness_jitter", "missing_per_100m", "missing_length_m", "label_shift"},
-    )
+
+def _noise(n: _Reader) -> Noise:
+    """Read the ``noise`` block: the missing-length range first, then probabilities and rates."""
     missing_length = n.data.get("missing_length_m", [0.5, 2.0])
     if (
         not isinstance(missing_length, list)
@@ -581,54 +657,42 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         or not all(isinstance(v, int | float) and v > 0 for v in missing_length)
         or missing_length[1] < missing_length[0]
     ):
-        raise ConfigError("noise.missing_length_m: must be [shortest, longest] in m", file=source)
-    noise = Noise(
+        raise ConfigError("noise.missing_length_m: must be [shortest, longest] in m", file=n.source)
+    return Noise(
         facies_swap=_probability(n, "facies_swap"),
         thickness_jitter=n.number("thickness_jitter", 0.0, minimum=0.0),
         missing_per_100m=n.number("missing_per_100m", 0.0, minimum=0.0),
         missing_length_m=(float(missing_length[0]), float(missing_length[1])),
         label_shift=_probability(n, "label_shift"),
     )
-    d = top.child(
-        "core_description",
-        {"bed_thickness_m", "bed_thickness_sigma", "rounding_m", "hiatus_sharp_kyr"},
-    )
-    description = Description(
+
+
+def _description(d: _Reader) -> Description:
+    """Read the ``core_description`` block (bed thickness, its spread, rounding, hiatus)."""
+    return Description(
         bed_thickness_m=d.number("bed_thickness_m", 0.5, positive=True),
         bed_thickness_sigma=d.number("bed_thickness_sigma", 0.5, minimum=0.0),
         rounding_m=d.number("rounding_m", 0.01, positive=True),
         hiatus_sharp_kyr=d.number("hiatus_sharp_kyr", 2.0, minimum=0.0),
     )
+
+
+def _seed(top: _Reader) -> int:
+    """Read ``seed``: a whole number >= 0 (0 when absent)."""
     seed = top.data.get("seed", 0)
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
-        raise ConfigError(f"seed: must be a whole number >= 0, got {seed!r}", file=source)
+        raise ConfigError(f"seed: must be a whole number >= 0, got {seed!r}", file=top.source)
+    return seed
+
+
+def _initial_tract(top: _Reader) -> str:
+    """Read ``initial_tract``: HST (the default) or LST."""
     initial = top.text("initial_tract", "HST")
     if initial not in ("HST", "LST"):
-        raise ConfigError(f"initial_tract: must be 'HST' or 'LST', got {initial!r}", file=source)
-
-    return Scenario(
-        name=name,
-        duration_kyr=duration,
-        step_kyr=step,
-        base_level=base_level,
-        supply=supply,
-        profile=profile,
-        sections=tuple(sections),
-        wells=tuple(wells),
-        scheme=scheme,
-        depth_bands=tuple(bands),
-        mud_fraction=mud_fraction,
-        mud_decay_km=mud.number("decay_km", 15.0, positive=True),
-        mud_min_depth_m=mud.number("min_depth_m", 8.0, minimum=0.0),
-        erosion_m_per_kyr=erosion.number("max_rate_m_per_kyr", 1.0, minimum=0.0),
-        initial_tract=initial,
-        min_tract_kyr=time.number("min_tract_kyr", 2.0, minimum=0.0),
-        noise=noise,
-        description=description,
-        seed=seed,
-        description_text=top.data.get("description"),
-        source=source,
-    )
+        raise ConfigError(
+            f"initial_tract: must be 'HST' or 'LST', got {initial!r}", file=top.source
+        )
+    return initial
 
 
 def _probability(r: _Reader, name: str, default: float = 0.0) -> float:
