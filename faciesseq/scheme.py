@@ -78,6 +78,10 @@ def _read_yaml(path: str | Path) -> Any:
         text = path.read_text(encoding="utf-8")
     except FileNotFoundError:
         raise ConfigError("file not found", file=str(path)) from None
+    except IsADirectoryError:
+        raise ConfigError("a folder, not a YAML file", file=str(path)) from None
+    except PermissionError:
+        raise ConfigError("not readable (permission denied)", file=str(path)) from None
     except UnicodeDecodeError as exc:
         raise ConfigError(f"not UTF-8 text ({exc.reason})", file=str(path)) from None
     try:
@@ -316,7 +320,7 @@ def _check_keys(
     unknown = set(data) - allowed
     if unknown:
         raise ConfigError(
-            f"{here + ': ' if here else ''}unknown key(s) {sorted(unknown)}; "
+            f"{here + ': ' if here else ''}unknown key(s) {sorted(map(str, unknown))}; "
             f"expected {expected}{sorted(allowed)}",
             file=source,
         )
@@ -638,7 +642,9 @@ def _tract_order(order: Any, codes: list[str], source: str | None) -> list[str]:
 
 
 def _skips(raw: Any, codes: list[str], source: str | None) -> list[str]:
-    """Read ``skips``: known tract codes, none listed twice."""
+    """Read ``skips``: a list of known tract codes, none listed twice."""
+    if raw is not None and not isinstance(raw, list | tuple):
+        raise ConfigError(f"skips: a list of tract codes expected, got {raw!r}", file=source)
     skips = [str(s) for s in (raw or [])]
     for s in skips:
         if s not in codes:
@@ -675,6 +681,8 @@ def _substates(raw: Any, codes: list[str], source: str | None) -> dict[str, int]
 def _surfaces(entries: Any, model: TractModel, source: str | None) -> list[Surface]:
     """Read the ``surfaces`` list: each a mapping of known keys with lower, upper, code and
     name, on a boundary of known tracts that the order and skips allow, named once."""
+    if not isinstance(entries, list | tuple):
+        raise ConfigError(f"surfaces: a list of entries expected, got {entries!r}", file=source)
     codes = [t.code for t in model.tracts]
     allowed = model.allowed()
     idx = {c: k for k, c in enumerate(model.order)}

@@ -8,14 +8,18 @@ before the work starts.
 
 import json
 import time
+from pathlib import Path
 
 import hmm_synthetic as synth
 import pandas as pd
 import pytest
+import yaml
 
 from faciesseq.cli import main
 from faciesseq.errors import ModelFileError
 from faciesseq.hmm.modelfile import load_model
+
+ROOT = Path(__file__).resolve().parents[1]
 
 
 @pytest.fixture(scope="module")
@@ -454,3 +458,51 @@ def test_las_folders_of_long_or_clashing_core_names(tmp_path):
     names = sorted(p.name for p in out.iterdir())
     assert len(names) == 3 and all(len(n) <= 104 for n in names)
     assert sorted(read_cores(out).names) == sorted(["A/B", "A_B", long])  # none overwritten
+
+
+# Found by splitting the scenario and scheme readers (2026-12-03): values of the wrong
+# kind that ended in a traceback or were read as something else.
+_DEMO_SCENARIO = ROOT / "configs" / "demo-quillerby.yaml"
+
+
+@pytest.mark.parametrize(
+    ("edit", "needle"),
+    [
+        (lambda d: d["wells"][0].update(labelled="no"), "wells[1].labelled: must be true or false"),
+        (lambda d: d["noise"].update(missing_length_m=[True, 2]), "noise.missing_length_m"),
+        (lambda d: d.update(name=[1, 2]), "name: must be text"),
+        (lambda d: d.update(description={"a": 1}), "description: must be text"),
+        (lambda d: d.update(time={1: 2, "foo": 3}), "time: unknown key(s) ['1', 'foo']"),
+        (lambda d: d["facies"].update(scheme="/tmp"), "a folder, not a YAML file"),
+    ],
+)
+def test_scenario_values_of_the_wrong_kind_are_a_config_error(tmp_path, capsys, edit, needle):
+    data = yaml.safe_load(_DEMO_SCENARIO.read_text())
+    data["facies"]["scheme"] = str(ROOT / "configs" / "scheme-shoreface.yaml")
+    edit(data)
+    path = tmp_path / "s.yaml"
+    path.write_text(yaml.safe_dump(data, sort_keys=False))
+    assert main(["simulate", str(path), "-o", str(tmp_path / "out")]) == 2
+    one_line(capsys, needle)
+    assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize(
+    ("key", "value", "needle"),
+    [
+        ("skips", True, "skips: a list of tract codes expected"),
+        ("skips", 3, "skips: a list of tract codes expected"),
+        ("surfaces", 5, "surfaces: a list of entries expected"),
+    ],
+)
+def test_tract_model_lists_of_the_wrong_kind_are_a_config_error(
+    database, tmp_path, capsys, key, value, needle
+):
+    data = yaml.safe_load((ROOT / "configs" / "tracts-default.yaml").read_text())
+    data[key] = value
+    path = tmp_path / "t.yaml"
+    path.write_text(yaml.safe_dump(data, sort_keys=False))
+    argv = ["fit", str(database / "cores.csv"), "--tracts", str(path)]
+    assert main([*argv, "-o", str(tmp_path / "m.json")]) == 2
+    one_line(capsys, needle)
+    assert not (tmp_path / "m.json").exists()

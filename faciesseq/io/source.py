@@ -68,7 +68,8 @@ def load_source_file(path: Path) -> SourceSpec:
     unknown = set(data) - set(SOURCE_KEYS)
     if unknown:
         raise ConfigError(
-            f"unknown key(s) {sorted(unknown)}; expected some of {list(SOURCE_KEYS)}", file=file
+            f"unknown key(s) {sorted(map(str, unknown))}; expected some of {list(SOURCE_KEYS)}",
+            file=file,
         )
     if ("path" in data) == ("url" in data):
         raise ConfigError("give exactly one of 'path' (a file or folder) or 'url'", file=file)

@@ -52,7 +52,7 @@ class _Reader:
         bad = set(data) - allowed
         if bad:
             raise ConfigError(
-                f"{path or 'scenario'}: unknown key(s) {sorted(bad)}; expected some of "
+                f"{path or 'scenario'}: unknown key(s) {sorted(map(str, bad))}; expected some of "
                 f"{sorted(allowed)}",
                 file=source,
             )
@@ -98,7 +98,20 @@ class _Reader:
         value = self.data.get(name, default)
         if value is None:
             raise ConfigError(f"{self.key(name)}: missing (text is required)", file=self.source)
+        if isinstance(value, bool) or not isinstance(value, str | int | float):
+            raise ConfigError(f"{self.key(name)}: must be text, got {value!r}", file=self.source)
         return str(value)
+
+    def optional_text(self, name: str) -> str | None:
+        return self.text(name) if self.has(name) else None
+
+    def flag(self, name: str, default: bool = False) -> bool:
+        value = self.data.get(name, default)
+        if not isinstance(value, bool):
+            raise ConfigError(
+                f"{self.key(name)}: must be true or false, got {value!r}", file=self.source
+            )
+        return value
 
     def child(self, name: str, allowed: set[str]) -> _Reader:
         return _Reader(self.data.get(name), self.key(name), self.source, allowed)
@@ -501,7 +514,7 @@ def scenario_from_dict(data: Any, source: str | None = None) -> Scenario:
         noise=noise,
         description=description,
         seed=seed,
-        description_text=top.data.get("description"),
+        description_text=top.optional_text("description"),
         source=source,
     )
 
@@ -644,7 +657,7 @@ def _wells(top: _Reader, sections: tuple[Section, ...], profile: Profile) -> tup
                 f"wells[{i}] ({well_name}): x_km {x_km} lies beyond profile.length_km",
                 file=top.source,
             )
-        wells.append(Well(well_name, section, x_km, bool(w.data.get("labelled", False))))
+        wells.append(Well(well_name, section, x_km, w.flag("labelled")))
     return tuple(wells)
 
 
@@ -654,7 +667,10 @@ def _noise(n: _Reader) -> Noise:
     if (
         not isinstance(missing_length, list)
         or len(missing_length) != 2
-        or not all(isinstance(v, int | float) and v > 0 for v in missing_length)
+        or not all(
+            isinstance(v, int | float) and not isinstance(v, bool) and v > 0
+            for v in missing_length
+        )
         or missing_length[1] < missing_length[0]
     ):
         raise ConfigError("noise.missing_length_m: must be [shortest, longest] in m", file=n.source)
