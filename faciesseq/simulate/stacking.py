@@ -407,7 +407,7 @@ def stacking_scenario_from_dict(data: Any, source: str | None = None) -> Stackin
         units=units,
         rounding=top.number("rounding", 0.01, positive=True),
         seed=seed,
-        description_text=top.data.get("description"),
+        description_text=top.optional_text("description"),
         section=_section(top),
         source=source,
     )
