@@ -18,12 +18,10 @@ are or which of them ran what.
 
 from __future__ import annotations
 
-import contextlib
 import os
 import re
 import sys
-import warnings
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -37,7 +35,6 @@ __all__ = [
     "SchedulerError",
     "check_scheduler",
     "job_seeds",
-    "local_workers_starting",
     "run_jobs",
     "scheduler_address",
     "stop_local_workers",
@@ -165,57 +162,15 @@ def run_jobs(
             return client.gather(futures)
     if int(n_jobs) <= 1 or len(jobs) <= 1:
         return [function(*a) for a in jobs]
-    from joblib import delayed
-
-    local = _local_workers(min(int(n_jobs), len(jobs)))
-    return local(delayed(function)(*a) for a in jobs)
-
-
-def _local_workers(n_jobs: int, return_as: str = "list"):
-    """joblib's ``Parallel`` on ``n_jobs`` local processes; every call asks for the
-    same workers, so joblib keeps them from one call to the next."""
-    from joblib import Parallel
+    from joblib import Parallel, delayed
 
     from faciesseq._memory import keep_freed_memory
 
+    workers = min(int(n_jobs), len(jobs))
     # each new worker takes memory as a command of this project does (an EM run
     # frees and makes arrays of a few MiB every iteration)
-    return Parallel(
-        n_jobs=n_jobs, backend="loky", initializer=keep_freed_memory, return_as=return_as
-    )
-
-
-@contextlib.contextmanager
-def local_workers_starting(n_jobs: int, modules: Sequence[str]) -> Iterator[None]:
-    """Start ``n_jobs`` local workers, each importing ``modules``, while the body of
-    the ``with`` runs in this process (reading the data); wait for them at its end.
-
-    Why: a worker's start and imports (numpy, pandas, scipy, the project: about a
-    second) otherwise begin only at the first job, after the reading. Nothing is
-    started for ``n_jobs`` of 1. The workers are those :func:`run_jobs` uses next."""
-    if int(n_jobs) <= 1:
-        yield
-        return
-    from joblib import delayed
-
-    local = _local_workers(int(n_jobs), return_as="generator_unordered")
-    pending = local(delayed(_import_modules)(tuple(modules)) for _ in range(int(n_jobs)))
-    try:
-        yield
-    except BaseException:
-        with warnings.catch_warnings():  # joblib's note that it cancels the imports
-            warnings.simplefilter("ignore")
-            pending.close()
-        raise
-    for _ in pending:
-        pass
-
-
-def _import_modules(modules: tuple[str, ...]) -> None:
-    import importlib
-
-    for name in modules:
-        importlib.import_module(name)
+    local = Parallel(n_jobs=workers, backend="loky", initializer=keep_freed_memory)
+    return local(delayed(function)(*a) for a in jobs)
 
 
 def stop_local_workers() -> None:

@@ -10,7 +10,6 @@ the seeds of the jobs follow numpy's documented ``SeedSequence.spawn`` (numpy
 import io
 import json
 import os
-import warnings
 from contextlib import redirect_stderr, redirect_stdout
 
 import hmm_synthetic as synth
@@ -62,29 +61,6 @@ def test_jobs_come_back_in_order_from_other_processes():
     pids = parallel.run_jobs(_pid, [(k,) for k in range(4)], n_jobs=2)
     assert os.getpid() not in pids  # loky workers, not this process
     assert parallel.run_jobs(_pid, [(0,), (1,)], n_jobs=1) == [os.getpid()] * 2
-
-
-def test_workers_started_early_run_the_jobs_after():
-    with parallel.local_workers_starting(2, ["json"]):
-        started = parallel.run_jobs(_pid, [(k,) for k in range(4)], n_jobs=2)
-    with parallel.local_workers_starting(2, ["json"]):
-        pass
-    # the same processes: the jobs after the block find the workers it started
-    assert set(parallel.run_jobs(_pid, [(k,) for k in range(8)], n_jobs=2)) <= set(started)
-    with parallel.local_workers_starting(1, ["json"]):  # nothing started for 1 job
-        assert parallel.run_jobs(_pid, [(0,)], n_jobs=1) == [os.getpid()]
-
-
-def test_a_failing_read_while_workers_start_says_only_its_error(database, tmp_path):
-    bad = tmp_path / "bad.csv"
-    bad.write_text("core,top,base,facies\nA,0,1,XX\n")
-    scheme = database / "scheme.yaml"
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        code, _, err = _run("fit", str(bad), "--scheme", str(scheme), "--jobs", "2", "-o", "m.json")
-    assert code == 1
-    assert err.count("\n") == 1 and "XX" in err
-    assert [str(w.message) for w in caught if "cancelled" in str(w.message)] == []
 
 
 def test_job_seeds_are_numpys_spawned_seed_sequences():

@@ -287,10 +287,6 @@ def _first_cores(successions, n: int):
     return successions.part(0, stop), len(first)
 
 
-#: What the fit's jobs run (imported by each local worker while the cores are read).
-_JOB_MODULES = ("faciesseq.hmm.model", "faciesseq.hmm.graphs")
-
-
 def run(args: argparse.Namespace) -> int:
     check_unit(args)
     parallel = parallel_options(args)
@@ -304,12 +300,8 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
-    from faciesseq.parallel import local_workers_starting
-
-    # the local workers start while the cores are read (the first jobs fit on them)
-    with local_workers_starting(0 if parallel[1] else parallel[0], _JOB_MODULES):
-        cores, successions = _successions(args, scheme)
-        check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
+    cores, successions = _successions(args, scheme)
+    check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
