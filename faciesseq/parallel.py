@@ -164,8 +164,13 @@ def run_jobs(
         return [function(*a) for a in jobs]
     from joblib import Parallel, delayed
 
+    from faciesseq._memory import keep_freed_memory
+
     workers = min(int(n_jobs), len(jobs))
-    return Parallel(n_jobs=workers, backend="loky")(delayed(function)(*a) for a in jobs)
+    # each new worker takes memory as a command of this project does (an EM run
+    # frees and makes arrays of a few MiB every iteration)
+    local = Parallel(n_jobs=workers, backend="loky", initializer=keep_freed_memory)
+    return local(delayed(function)(*a) for a in jobs)
 
 
 def stop_local_workers() -> None:

@@ -186,6 +186,8 @@ def test_freed_memory_is_kept_unless_the_user_set_glibcs_thresholds(monkeypatch)
     import ctypes
     import sys
 
+    from faciesseq._memory import keep_freed_memory
+
     calls = []
 
     class _Libc:
@@ -201,12 +203,12 @@ def test_freed_memory_is_kept_unless_the_user_set_glibcs_thresholds(monkeypatch)
     monkeypatch.setattr(sys, "platform", "linux")
     for name in ("MALLOC_MMAP_THRESHOLD_", "MALLOC_TRIM_THRESHOLD_"):
         monkeypatch.delenv(name, raising=False)
-    decode_cli._keep_freed_memory()
+    keep_freed_memory()
     # M_MMAP_THRESHOLD (-3) 256 MiB, M_TRIM_THRESHOLD (-1) 512 MiB
     assert calls == [(-3, 1 << 28), (-1, 1 << 29)]
     calls.clear()
     monkeypatch.setenv("MALLOC_TRIM_THRESHOLD_", "131072")
-    decode_cli._keep_freed_memory()
+    keep_freed_memory()
     assert calls == []
 
 

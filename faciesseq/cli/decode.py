@@ -464,13 +464,15 @@ def _memory_habits() -> None:
     numpy array is 2 MiB zeroed by the kernel. At 10^6 beds (paired runs) the CPU time
     was 0.87 of it with jemalloc, and 0.90 of that on ordinary pages; outputs the same.
     Freed memory is kept for the next part's buffers: by jemalloc for 10 s, by glibc's
-    allocator (:func:`_keep_freed_memory`); at 10^6 beds about 470,000 page faults
-    fell to 260,000 (single runs), each a page zeroed by the kernel."""
+    allocator (:func:`faciesseq._memory.keep_freed_memory`); at 10^6 beds about 470,000
+    page faults fell to 260,000 (single runs), each a page zeroed by the kernel."""
     import contextlib
     import os
 
     import numpy as np
     import pyarrow as pa
+
+    from faciesseq._memory import keep_freed_memory
 
     if not os.environ.get("ARROW_DEFAULT_MEMORY_POOL"):
         with contextlib.suppress(NotImplementedError, pa.ArrowNotImplementedError):
@@ -481,42 +483,11 @@ def _memory_habits() -> None:
         advise = getattr(np._core.multiarray, "_set_madvise_hugepage", None)
         if advise is not None:
             advise(False)
-    _keep_freed_memory()
+    keep_freed_memory()
 
 
 #: How long Arrow's jemalloc pool keeps freed pages before handing them back to the system.
 _ARROW_DECAY_MS = 10_000
-#: glibc's ``mallopt`` parameters (``malloc.h``).
-_M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3
-#: Blocks below this size come from the heap, and the heap's freed top is kept up to
-#: twice it, where the user set neither ``MALLOC_MMAP_THRESHOLD_`` nor ``MALLOC_TRIM_THRESHOLD_``.
-_MALLOC_KEEP = 1 << 28
-
-
-def _keep_freed_memory() -> None:
-    """glibc's allocator keeps freed blocks of up to 256 MiB for the next ones.
-
-    By default glibc maps each block above a few MiB afresh and unmaps it when freed,
-    so every array of every batch is new pages, each zeroed by the kernel on first
-    touch. Kept in the heap, the next batch's arrays reuse them: at 10^6 beds about
-    470,000 page faults fell to 300,000 (single runs), for a few percent more peak
-    memory. Nothing is done on another C library, or where the user set either
-    threshold."""
-    import ctypes
-    import os
-    import sys
-
-    if not sys.platform.startswith("linux") or any(
-        name in os.environ for name in ("MALLOC_MMAP_THRESHOLD_", "MALLOC_TRIM_THRESHOLD_")
-    ):
-        return
-    try:
-        mallopt = ctypes.CDLL(None).mallopt  # the C library the interpreter runs on
-    except (OSError, AttributeError):
-        return  # not glibc
-    mallopt.argtypes, mallopt.restype = [ctypes.c_int, ctypes.c_int], ctypes.c_int
-    mallopt(_M_MMAP_THRESHOLD, _MALLOC_KEEP)
-    mallopt(_M_TRIM_THRESHOLD, 2 * _MALLOC_KEEP)
 
 
 def run(args: argparse.Namespace) -> int:
