@@ -356,12 +356,8 @@ def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict)
         s.add(Paragraph(note, kind="note"))
     if fit_notes:
         s.add(
-            TableBlock(
-                "model_fit_warnings",
-                "warnings raised while fitting the tract model",
-                pd.DataFrame({"warning": list(fit_notes)}),
-                index=False,
-                shown=False,
+            _warnings_table(
+                "model_fit_warnings", "warnings raised while fitting the tract model", fit_notes
             )
         )
     states = model.states_
@@ -684,13 +680,7 @@ def _validation_warning_blocks(val: Section, notes: Sequence[str]) -> None:
             f"{notes[0]}",
             kind="note",
         ),
-        TableBlock(
-            "validation_warnings",
-            "warnings raised during cross-validation",
-            pd.DataFrame({"warning": list(notes)}),
-            index=False,
-            shown=False,
-        ),
+        _warnings_table("validation_warnings", "warnings raised during cross-validation", notes),
     )
 
 
@@ -716,3 +706,8 @@ def model_section(
         s.sub("Cross-validation"), validation, validation_reason, validation_notes, numbers
     )
     return s, numbers
+
+
+def _warnings_table(key: str, title: str, notes) -> TableBlock:
+    """Warnings as a table of the appendix's files, not shown on the page."""
+    return TableBlock(key, title, pd.DataFrame({"warning": list(notes)}), index=False, shown=False)

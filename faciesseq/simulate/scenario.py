@@ -668,8 +668,7 @@ def _noise(n: _Reader) -> Noise:
         not isinstance(missing_length, list)
         or len(missing_length) != 2
         or not all(
-            isinstance(v, int | float) and not isinstance(v, bool) and v > 0
-            for v in missing_length
+            isinstance(v, int | float) and not isinstance(v, bool) and v > 0 for v in missing_length
         )
         or missing_length[1] < missing_length[0]
     ):
