@@ -27,13 +27,19 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "faciesseq" / "data" / "demo"
 
 
-@pytest.fixture(scope="module")
-def document():
+def _fitted(labels=None, **params):
+    """A quick fit on invented cores, and the cores."""
     train = synth.cores(4, 30, seed=5)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        model = TractHMM(scheme=synth.scheme(), n_restarts=1, max_iter=5, random_state=2)
-        model.fit(train, labels="true_tract")
+        model = TractHMM(scheme=synth.scheme(), n_restarts=1, max_iter=5, random_state=2, **params)
+        model.fit(train, labels=labels)
+    return model, train
+
+
+@pytest.fixture(scope="module")
+def document():
+    model, train = _fitted(labels="true_tract")
     return json.loads(json.dumps(model_to_dict(model))), train
 
 
@@ -93,13 +99,7 @@ def _changed_value_is_read_or_refused(doc, train, data, value) -> None:
 def weighted_document():
     """A fit without labels on the stacking context, its pieces weighed, and the record
     of weights not kept (set by hand: a real fit keeps one or the other)."""
-    train = synth.cores(4, 30, seed=5)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        model = TractHMM(
-            scheme=synth.scheme(), weigh_evidence=True, n_restarts=1, max_iter=5, random_state=2
-        )
-        model.fit(train)
+    model, train = _fitted(weigh_evidence=True)
     assert model.evidence_weights_
     model.weights_rejected_ = {"expected_tract_changes": 9.5, "cycles": 8.0}
     return json.loads(json.dumps(model_to_dict(model))), train
