@@ -89,3 +89,15 @@ def test_budget_tracts_and_cores_hold_for_any_scenario(scenario):
         assert (table["top"] < table["base"]).all()
         assert np.allclose(table["top"].to_numpy()[1:], table["base"].to_numpy()[:-1])
         assert abs(core.thickness - hist.sediment_m[-1, j]) <= 0.011
+
+
+def test_flicker_of_one_step_runs_folds_into_the_surrounding_tract():
+    # the phase run list that left a one-step highstand between two transgressions
+    # (found by the property test above): TST x4, then NR, TST, NR, TST of one step, NR x4
+    from faciesseq.simulate.model import _remove_flicker, _run_list
+
+    phase = np.array(["TST"] * 4 + ["NR", "TST", "NR", "TST"] + ["NR"] * 4, dtype=object)
+    assert [(c, b - a) for c, a, b in _run_list(_remove_flicker(phase, 2))] == [
+        ("TST", 8),
+        ("NR", 4),
+    ]

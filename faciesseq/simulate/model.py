@@ -405,13 +405,20 @@ def _remove_flicker(phase: np.ndarray, steps: int) -> np.ndarray:
     Near a turnaround the rise and sedimentation rates are almost equal and the
     shoreline may step landward and basinward for a step or two; such runs are
     not tracts. Runs of forced regression are kept: a relative fall is never
-    relabelled, and nothing is folded into one.
+    relabelled, and nothing is folded into one. Folded one run at a time from the
+    base, each on the runs the last fold left: folding every short run of the first
+    list at once turned ``A B A B A`` (each run one step) into ``A A B A B``, which
+    left a highstand of one step between two transgressions (found by the property
+    test of any scenario).
     """
     out = phase.copy()
-    runs = _run_list(out)
-    for i in range(1, len(runs) - 1):
-        code, a, b = runs[i]
-        before, after = runs[i - 1][0], runs[i + 1][0]
-        if b - a < steps and code != "FSST" and before == after and before != "FSST":
-            out[a:b] = before
-    return out
+    while True:  # one fold at a time, upward: a fold can merge runs (A B A B A -> A)
+        runs = _run_list(out)
+        for i in range(1, len(runs) - 1):
+            code, a, b = runs[i]
+            before, after = runs[i - 1][0], runs[i + 1][0]
+            if b - a < steps and code != "FSST" and before == after and before != "FSST":
+                out[a:b] = before
+                break
+        else:
+            return out
