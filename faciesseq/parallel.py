@@ -33,6 +33,7 @@ __all__ = [
     "CONNECT_TIMEOUT",
     "SCHEDULER_ENV",
     "SchedulerError",
+    "Workers",
     "check_scheduler",
     "job_seeds",
     "run_jobs",
@@ -171,6 +172,49 @@ def run_jobs(
     # frees and makes arrays of a few MiB every iteration)
     local = Parallel(n_jobs=workers, backend="loky", initializer=keep_freed_memory)
     return local(delayed(function)(*a) for a in jobs)
+
+
+class Workers:
+    """Workers kept for many rounds of jobs, with data sent to them once where the
+    backend allows: the rounds are the iterations of one EM run, each a job per chunk
+    of beds (:class:`faciesseq.hmm.em.ChunkedEStep`).
+
+    Used as a context manager. On a Dask cluster one client serves every round and
+    :meth:`share` scatters the data to the workers' memory once; a job given a shared
+    value runs where the value is. Local processes (joblib, loky) keep no data between
+    jobs, so a shared value is sent again with every job that takes it (measured in
+    ``benchmarks/parallel.md``, 2026-12-03 chunked E-step); in this process
+    (``n_jobs=1``) nothing is sent.
+    """
+
+    def __init__(self, n_jobs: int = 1, scheduler: str | None = None) -> None:
+        self.n_jobs = n_jobs
+        self.scheduler = scheduler
+        self._client = None
+
+    def __enter__(self) -> Workers:
+        if self.scheduler:
+            self._client = _client(self.scheduler)
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._client is not None:
+            self._client.close()
+            self._client = None
+
+    def share(self, values: Sequence[Any]) -> list[Any]:
+        """``values`` as the jobs of :meth:`run` should take them: Dask futures of the
+        scattered values on a cluster, the values themselves elsewhere."""
+        if self._client is not None:
+            return self._client.scatter(list(values))
+        return list(values)
+
+    def run(self, function: Callable[..., Any], arguments: Sequence[tuple]) -> list[Any]:
+        """:func:`run_jobs` on these workers: the results in the order of ``arguments``."""
+        if self._client is not None:
+            futures = [self._client.submit(function, *a, pure=False) for a in arguments]
+            return self._client.gather(futures)
+        return run_jobs(function, arguments, self.n_jobs, None)
 
 
 def stop_local_workers() -> None:
