@@ -236,7 +236,7 @@ def _chunked_fit(labels=None, **settings):
         "graph": "fixed",
         "n_restarts": 1,
         "calibration_folds": 0,
-        "chunk_beds": 100,  # 480 beds: four chunks of whole cores (CHUNK_BEDS is 50,000)
+        "chunk_beds": 100,  # 480 beds: four chunks of whole cores (CHUNK_BEDS is 200,000)
         "random_state": 3,
         **settings,
     }

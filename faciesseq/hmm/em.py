@@ -49,7 +49,7 @@ TOL_BEDS = 1_000
 
 #: Beds per chunk of the E-step of a large EM run (``chunk_beds`` of the tract model;
 #: see :func:`chunk_bounds`).
-CHUNK_BEDS = 50_000
+CHUNK_BEDS = 200_000
 
 
 class ConvergenceError(FaciesseqError):
@@ -130,14 +130,24 @@ class TrainingData:
 
     def chunk(self, start: int, stop: int, first: int, last: int) -> TrainingData:
         """Beds ``start:stop``, which are successions ``first:last``, as the data of one
-        chunk of the E-step (what the E-step reads; the distinct combinations of codes,
-        when found, stay those of the whole fit, so the chunks share one table)."""
+        chunk of the E-step: what the E-step reads. Where the distinct combinations of
+        codes are known (:meth:`ExpectationMaximisation._e_step_on_combinations`), they
+        stay those of the whole fit, and the chunk's beds hold their lengths alone:
+        that E-step reads the combination of each bed, not its codes (measured, 0.4
+        instead of 5.7 MB per 50,000 beds to send to a local process every
+        iteration)."""
         lengths = self.beds.lengths[first:last]
         combos = None if self.combos is None else (self.combos[0], self.combos[1][start:stop])
+        nothing = np.empty(0, dtype=np.int64)
+        beds = (
+            self.beds.slice(start, stop, lengths)
+            if combos is None
+            else EncodedBeds(lengths, nothing, nothing, nothing, {})
+        )
         return TrainingData(
-            self.beds.slice(start, stop, lengths),
+            beds,
             None if self.clamp is None else self.clamp[start:stop],
-            self.ranks[start:stop],
+            np.empty(0),  # the ranks and the trend rule start EM; the E-step reads neither
             None,
             self.cores[first:last],
             None if self.static is None else self.static[start:stop],
@@ -158,13 +168,17 @@ def chunk_bounds(lengths: np.ndarray, chunk_beds: int) -> list[tuple[int, int, i
     number of workers: a chunk's statistics, and their sum in chunk order, are then
     the same numbers wherever the chunks run.
 
-    Why two chunks of :data:`CHUNK_BEDS` (50,000) beds: below it there is nothing
-    to share between two workers, and a chunk has to carry enough work to pay for
-    being sent (measured in ``benchmarks/parallel.md``, 2026-12-03 chunked E-step);
-    and the candidate tract graphs are fitted on a sample of about
-    :data:`~faciesseq.hmm.graphs.SAMPLE_BEDS` (50,000) beds, which thus stays one
-    E-step, as does every fit of fewer than 100,000 beds: their model files do not
-    change.
+    Why two chunks of :data:`CHUNK_BEDS` (200,000 beds, the default E-step batch):
+    a round of jobs costs about 0.011 s on two local processes before any work, and
+    an E-step 0.12 (codes only) to 0.33 s (labelled) per 10^6 beds in one process.
+    Measured on the replicated demo database (``benchmarks/parallel.md``,
+    2026-12-03 chunked E-step): on 4 x 10^5 beds in two chunks an E-step took 0.046
+    instead of 0.051 s (codes only) and 0.096 instead of 0.141 s (labelled) on two
+    local processes; on 10^5 beds in two chunks of 50,000, 0.011 instead of 0.014 s
+    (codes only) but 0.046 instead of 0.026 s (labelled). Below the threshold sit every fit of fewer than
+    400,000 beds, the demo and the candidate tract graphs' sample of about
+    :data:`~faciesseq.hmm.graphs.SAMPLE_BEDS` beds among them: they run one E-step as
+    before chunks, and their model files do not change.
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     n_beds = int(lengths.sum())
@@ -188,9 +202,13 @@ def _added(total: dict, more: dict) -> None:
             total[key] = total[key] + value
 
 
-def _chunk_e_step(estimator, pieces, startprob, transmat, chunk: TrainingData):
+def _chunk_e_step(estimator, moving, startprob, transmat, shared: tuple):
     """The E-step of one chunk (one job): ``(log-likelihood, piece statistics,
-    transition counts, start counts)``."""
+    transition counts, start counts)``. ``shared`` is the chunk's data and the static
+    pieces (sent once); ``moving`` the pieces EM changes, ``None`` where a static one
+    goes."""
+    chunk, fixed = shared
+    pieces = [f if m is None else m for m, f in zip(moving, fixed)]
     return estimator._e_step(pieces, startprob, transmat, chunk)
 
 
@@ -202,8 +220,10 @@ class ChunkedEStep:
 
     With one worker the same chunks are summed in the same order in this process, so
     the fitted parameters are the same bit for bit whatever the number of workers.
-    The chunks are sent to the workers once (:meth:`faciesseq.parallel.Workers.share`);
-    every iteration then sends the current parameters only.
+    The chunks, and the static pieces that EM does not change (the boosted trees of
+    ``stacking``, about 1 MB), are sent to the workers once
+    (:meth:`faciesseq.parallel.Workers.share`); every iteration then sends the
+    current parameters only.
     """
 
     def __init__(self, estimator, data: TrainingData, pieces, workers: Workers) -> None:
@@ -213,10 +233,12 @@ class ChunkedEStep:
         self.n_chunks = len(bounds)
         self._estimator = estimator._e_step_estimator()
         self._workers = workers
-        self._chunks = workers.share([data.chunk(*b) for b in bounds])
+        fixed = tuple(p if p.static else None for p in pieces)
+        self._chunks = workers.share([(data.chunk(*b), fixed) for b in bounds])
 
     def __call__(self, pieces, startprob, transmat, data: TrainingData | None = None):
-        jobs = [(self._estimator, pieces, startprob, transmat, c) for c in self._chunks]
+        moving = [None if p.static else p for p in pieces]
+        jobs = [(self._estimator, moving, startprob, transmat, c) for c in self._chunks]
         parts = self._workers.run(_chunk_e_step, jobs)
         S = self._estimator.states_.n_tracts
         stats = [p.empty_stats(S) for p in pieces]
