@@ -175,8 +175,9 @@ def chunk_bounds(lengths: np.ndarray, chunk_beds: int) -> list[tuple[int, int, i
     2026-12-03 chunked E-step): on 4 x 10^5 beds in two chunks an E-step took 0.046
     instead of 0.051 s (codes only) and 0.096 instead of 0.141 s (labelled) on two
     local processes; on 10^5 beds in two chunks of 50,000, 0.011 instead of 0.014 s
-    (codes only) but 0.046 instead of 0.026 s (labelled). Below the threshold sit every fit of fewer than
-    400,000 beds, the demo and the candidate tract graphs' sample of about
+    (codes only) but 0.046 instead of 0.026 s (labelled). Below the threshold sit
+    every fit of fewer than 400,000 beds, the demo and the candidate tract graphs'
+    sample of about
     :data:`~faciesseq.hmm.graphs.SAMPLE_BEDS` beds among them: they run one E-step as
     before chunks, and their model files do not change.
     """
