@@ -183,9 +183,10 @@ class Workers:
     :meth:`share` scatters the data to the workers' memory once; a job given a shared
     value runs where the value is. Local processes (joblib, loky) keep no data between
     jobs, so :meth:`share` writes each value once to a file of a temporary folder
-    (``joblib.dump``), and a job maps it read-only from there
-    (``joblib.load(mmap_mode="r")``; the operating system's page cache holds it
-    between rounds), removed when the context ends. Why not send the values with
+    (``joblib.dump``, removed when the context ends), and each worker process reads
+    it the first time a job takes it (``joblib.load(mmap_mode="r")``: arrays mapped
+    read-only, shared through the operating system's page cache) and keeps it for
+    the later rounds. Why not send the values with
     every job: measured on 10^5 beds, one E-step of a labelled fit took 0.027 s in
     one process and 0.12-0.22 s when its two chunks (10 MB each) went to two local
     processes with every iteration (``benchmarks/parallel.md``, 2026-12-03 chunked
@@ -210,6 +211,8 @@ class Workers:
         if self._folder is not None:
             import shutil
 
+            for path in [p for p in _READ if os.path.dirname(p) == self._folder]:
+                del _READ[path]  # read here when a round had a single job
             shutil.rmtree(self._folder, ignore_errors=True)
             self._folder = None
 

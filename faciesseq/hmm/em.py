@@ -134,8 +134,7 @@ class TrainingData:
         codes are known (:meth:`ExpectationMaximisation._e_step_on_combinations`), they
         stay those of the whole fit, and the chunk's beds hold their lengths alone:
         that E-step reads the combination of each bed, not its codes (measured, 0.4
-        instead of 5.7 MB per 50,000 beds to send to a local process every
-        iteration)."""
+        instead of 5.7 MB per 50,000 beds to hand to a worker)."""
         lengths = self.beds.lengths[first:last]
         combos = None if self.combos is None else (self.combos[0], self.combos[1][start:stop])
         nothing = np.empty(0, dtype=np.int64)
@@ -177,9 +176,8 @@ def chunk_bounds(lengths: np.ndarray, chunk_beds: int) -> list[tuple[int, int, i
     local processes; on 10^5 beds in two chunks of 50,000, 0.011 instead of 0.014 s
     (codes only) but 0.046 instead of 0.026 s (labelled). Below the threshold sit
     every fit of fewer than 400,000 beds, the demo and the candidate tract graphs'
-    sample of about
-    :data:`~faciesseq.hmm.graphs.SAMPLE_BEDS` beds among them: they run one E-step as
-    before chunks, and their model files do not change.
+    sample of about :data:`~faciesseq.hmm.graphs.SAMPLE_BEDS` beds among them: they
+    run one E-step as before chunks, and their model files do not change.
     """
     lengths = np.asarray(lengths, dtype=np.int64)
     n_beds = int(lengths.sum())
