@@ -63,6 +63,23 @@ def test_jobs_come_back_in_order_from_other_processes():
     assert parallel.run_jobs(_pid, [(0,), (1,)], n_jobs=1) == [os.getpid()] * 2
 
 
+def _total(values, k):
+    return int(np.sum(values)) + k
+
+
+def test_shared_values_are_read_by_local_workers_and_removed_after():
+    with parallel.Workers(n_jobs=2) as workers:
+        shared = workers.share([np.arange(5), np.arange(3)])
+        folder = workers._folder
+        assert os.path.isdir(folder)
+        for k in range(3):  # rounds of jobs read the values written once
+            assert workers.run(_total, [(v, k) for v in shared]) == [10 + k, 3 + k]
+    assert not os.path.exists(folder)
+    with parallel.Workers(n_jobs=1) as workers:  # in this process nothing is written
+        assert workers.run(_total, [(v, 0) for v in workers.share([np.arange(4)])]) == [6]
+        assert workers._folder is None
+
+
 def test_job_seeds_are_numpys_spawned_seed_sequences():
     # numpy documentation, "Parallel random number generation": SeedSequence.spawn
     ours = [np.random.default_rng(s).random(3) for s in parallel.job_seeds(11, 4)]
