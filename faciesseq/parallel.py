@@ -33,6 +33,7 @@ __all__ = [
     "CONNECT_TIMEOUT",
     "SCHEDULER_ENV",
     "SchedulerError",
+    "Workers",
     "check_scheduler",
     "job_seeds",
     "run_jobs",
@@ -171,6 +172,108 @@ def run_jobs(
     # frees and makes arrays of a few MiB every iteration)
     local = Parallel(n_jobs=workers, backend="loky", initializer=keep_freed_memory)
     return local(delayed(function)(*a) for a in jobs)
+
+
+class Workers:
+    """Workers kept for many rounds of jobs, with data sent to them once where the
+    backend allows: the rounds are the iterations of one EM run, each a job per chunk
+    of beds (:class:`faciesseq.hmm.em.ChunkedEStep`).
+
+    Used as a context manager. On a Dask cluster one client serves every round and
+    :meth:`share` scatters the data to the workers' memory once; a job given a shared
+    value runs where the value is. Local processes (joblib, loky) keep no data between
+    jobs, so :meth:`share` writes each value once to a file of a temporary folder
+    (``joblib.dump``, removed when the context ends), and each worker process reads
+    it the first time a job takes it (``joblib.load(mmap_mode="r")``: arrays mapped
+    read-only, shared through the operating system's page cache) and keeps it for
+    the later rounds. Why not send the values with
+    every job: measured on 10^5 beds, one E-step of a labelled fit took 0.027 s in
+    one process and 0.12-0.22 s when its two chunks (10 MB each) went to two local
+    processes with every iteration (``benchmarks/parallel.md``, 2026-12-03 chunked
+    E-step). In this process (``n_jobs=1``) nothing is sent.
+    """
+
+    def __init__(self, n_jobs: int = 1, scheduler: str | None = None) -> None:
+        self.n_jobs = n_jobs
+        self.scheduler = scheduler
+        self._client = None
+        self._folder: str | None = None
+
+    def __enter__(self) -> Workers:
+        if self.scheduler:
+            self._client = _client(self.scheduler)
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self._client is not None:
+            self._client.close()
+            self._client = None
+        if self._folder is not None:
+            import shutil
+
+            for path in [p for p in _READ if os.path.dirname(p) == self._folder]:
+                del _READ[path]  # read here when a round had a single job
+            shutil.rmtree(self._folder, ignore_errors=True)
+            self._folder = None
+
+    def share(self, values: Sequence[Any]) -> list[Any]:
+        """``values`` as the jobs of :meth:`run` should take them: Dask futures of the
+        scattered values on a cluster, the values themselves elsewhere."""
+        if self._client is not None:
+            return self._client.scatter(list(values))
+        if int(self.n_jobs) <= 1:
+            return list(values)
+        import tempfile
+
+        from joblib import dump
+
+        self._folder = tempfile.mkdtemp(prefix="faciesseq-shared-")
+        stored = []
+        for k, value in enumerate(values):
+            path = os.path.join(self._folder, f"{k}.joblib")
+            dump(value, path)
+            stored.append(_Stored(path))
+        return stored
+
+    def run(self, function: Callable[..., Any], arguments: Sequence[tuple]) -> list[Any]:
+        """:func:`run_jobs` on these workers: the results in the order of ``arguments``."""
+        if self._client is not None:
+            futures = [self._client.submit(function, *a, pure=False) for a in arguments]
+            return self._client.gather(futures)
+        if self._folder is not None:
+            jobs = [(function, tuple(a)) for a in arguments]
+            return run_jobs(_with_stored, jobs, self.n_jobs, None)
+        return run_jobs(function, arguments, self.n_jobs, None)
+
+
+#: In a local worker process: the values of one :class:`Workers` context read so far,
+#: by path. Why kept: reading the boosted trees of a ``stacking`` piece back (joblib's
+#: unpickler is written in Python) cost more than a chunk's E-step every iteration.
+#: Holds one context's values at a time (a new folder empties it).
+_READ: dict[str, Any] = {}
+
+
+class _Stored:
+    """A value :meth:`Workers.share` wrote to ``path``, read back by the job that takes it
+    (once per worker process)."""
+
+    def __init__(self, path: str) -> None:
+        self.path = path
+
+    def load(self) -> Any:
+        if self.path not in _READ:
+            from joblib import load
+
+            folder = os.path.dirname(self.path)
+            for path in [p for p in _READ if os.path.dirname(p) != folder]:
+                del _READ[path]
+            _READ[self.path] = load(self.path, mmap_mode="r")
+        return _READ[self.path]
+
+
+def _with_stored(function: Callable[..., Any], arguments: tuple) -> Any:
+    """``function(*arguments)`` with every stored value read back first (one job)."""
+    return function(*(a.load() if isinstance(a, _Stored) else a for a in arguments))
 
 
 def stop_local_workers() -> None:

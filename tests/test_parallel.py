@@ -63,6 +63,23 @@ def test_jobs_come_back_in_order_from_other_processes():
     assert parallel.run_jobs(_pid, [(0,), (1,)], n_jobs=1) == [os.getpid()] * 2
 
 
+def _total(values, k):
+    return int(np.sum(values)) + k
+
+
+def test_shared_values_are_read_by_local_workers_and_removed_after():
+    with parallel.Workers(n_jobs=2) as workers:
+        shared = workers.share([np.arange(5), np.arange(3)])
+        folder = workers._folder
+        assert os.path.isdir(folder)
+        for k in range(3):  # rounds of jobs read the values written once
+            assert workers.run(_total, [(v, k) for v in shared]) == [10 + k, 3 + k]
+    assert not os.path.exists(folder)
+    with parallel.Workers(n_jobs=1) as workers:  # in this process nothing is written
+        assert workers.run(_total, [(v, 0) for v in workers.share([np.arange(4)])]) == [6]
+        assert workers._folder is None
+
+
 def test_job_seeds_are_numpys_spawned_seed_sequences():
     # numpy documentation, "Parallel random number generation": SeedSequence.spawn
     ours = [np.random.default_rng(s).random(3) for s in parallel.job_seeds(11, 4)]
@@ -225,3 +242,93 @@ def test_decoded_columns_identical_serial_local_and_on_dask(
     assert tables["dask"] == tables["serial"]
     tracts = pd.read_csv(tmp_path / "serial" / "tracts.csv", comment="#")
     assert tracts["core"].nunique() == 12
+
+
+# ------------------------------------------------- the chunked E-step of one large run
+def _chunked_fit(labels=None, **settings):
+    from faciesseq.hmm.model import TractHMM
+    from faciesseq.hmm.modelfile import model_to_dict
+
+    settings = {
+        "graph": "fixed",
+        "n_restarts": 1,
+        "calibration_folds": 0,
+        "chunk_beds": 100,  # 480 beds: four chunks of whole cores (CHUNK_BEDS is 200,000)
+        "random_state": 3,
+        **settings,
+    }
+    cores = synth.cores(12, 40, 5)
+    tracts = [  # the labels: the known tracts of the even cores
+        list(c.beds["true_tract"]) if k % 2 == 0 else [None] * len(c) for k, c in enumerate(cores)
+    ]
+    model = TractHMM(scheme=synth.scheme(), **settings)
+    model.fit(cores, labels=tracts if labels else None)
+    return model, json.dumps(model_to_dict(model)["parameters"])
+
+
+def test_chunks_are_whole_successions_fixed_by_the_beds_alone():
+    from faciesseq.hmm.em import chunk_bounds
+
+    lengths = np.array([40] * 12)
+    assert chunk_bounds(lengths, 100) == [
+        (0, 120, 0, 3),
+        (120, 240, 3, 6),
+        (240, 360, 6, 9),
+        (360, 480, 9, 12),
+    ]
+    assert chunk_bounds(lengths, 241) == []  # below two chunks: one E-step, as before
+    uneven = np.array([7, 300, 5, 5, 90, 1, 60, 33])
+    bounds = chunk_bounds(uneven, 100)
+    assert [b[0] for b in bounds[1:]] == [b[1] for b in bounds[:-1]]
+    assert bounds[0][:3:2] == (0, 0) and bounds[-1][1:4:2] == (int(uneven.sum()), len(uneven))
+    assert all(b[1] - b[0] == uneven[b[2] : b[3]].sum() for b in bounds)
+
+
+def test_chunked_e_step_byte_identical_serial_local_and_on_dask(cluster, monkeypatch):
+    from faciesseq.hmm import em
+
+    made = []
+
+    class Recorded(em.ChunkedEStep):
+        def __init__(self, estimator, data, pieces, workers):
+            super().__init__(estimator, data, pieces, workers)
+            made.append((self.n_chunks, workers.n_jobs, workers.scheduler))
+
+    monkeypatch.setattr(em, "ChunkedEStep", Recorded)
+    serial, serial_parameters = _chunked_fit()
+    _, local_parameters = _chunked_fit(n_jobs=2)
+    _, dask_parameters = _chunked_fit(scheduler=cluster)
+    assert made == [(4, 1, None), (4, 2, None), (4, 1, cluster)]  # the chunks left here
+    assert local_parameters == serial_parameters
+    assert dask_parameters == serial_parameters
+    # EM never lowers its objective (Dempster et al. 1977, theorem 1); the chunk sums
+    # are checked against it at every iteration, up to rounding
+    history = np.array(serial.monitor_.history)
+    assert len(history) > 5
+    assert np.all(np.diff(history) >= -1e-9 * np.abs(history[:-1]))
+    # the same statistics as one E-step over every bed, summed in another order
+    _, whole = _chunked_fit(chunk_beds=10_000)
+    a, b = json.loads(whole)["transmat"], json.loads(serial_parameters)["transmat"]
+    np.testing.assert_allclose(np.array(a), np.array(b), rtol=1e-6)
+
+
+def test_restarts_as_jobs_run_their_chunks_in_turn_with_the_same_result(monkeypatch):
+    from faciesseq.hmm import em
+    from faciesseq.hmm import model as model_module
+
+    _, serial = _chunked_fit(labels=True, n_restarts=2)  # labelled: the per-bed E-step
+    _, local = _chunked_fit(labels=True, n_restarts=2, n_jobs=2)  # restarts in two processes
+    assert local == serial
+    # the restarts of a parallel fit run in this process here, to see their workers
+    monkeypatch.setattr(model_module, "run_jobs", lambda f, jobs, n, s: [f(*a) for a in jobs])
+    workers = []
+
+    class Recorded(em.Workers):
+        def __init__(self, n_jobs=1, scheduler=None):
+            super().__init__(n_jobs, scheduler)
+            workers.append((n_jobs, scheduler))
+
+    monkeypatch.setattr(em, "Workers", Recorded)
+    _, inside = _chunked_fit(labels=True, n_restarts=2, n_jobs=2)
+    assert workers == [(1, None), (1, None)]  # no jobs started inside a job
+    assert inside == serial

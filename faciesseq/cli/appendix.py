@@ -133,7 +133,9 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
     from faciesseq.cli._parallel import add_parallel_arguments
 
     add_parallel_arguments(
-        parser, "surrogate blocks, EM restarts, candidate graphs, folds, decoding batches"
+        parser,
+        "surrogate blocks, EM restarts, candidate graphs, folds, decoding batches, "
+        "E-step chunks of fits of 400,000 beds or more",
     )
 
 

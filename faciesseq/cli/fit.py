@@ -61,7 +61,9 @@ def register(subparsers) -> None:
     add_model_arguments(parser)
     add_irregular_argument(parser, "train on")
     add_parallel_arguments(
-        parser, "EM restarts, candidate tract graphs, calibration folds, decoding batches"
+        parser,
+        "EM restarts, candidate tract graphs, calibration folds, decoding batches, "
+        "E-step chunks of 200,000 beds in fits of 400,000 beds or more",
     )
     parser.add_argument(
         "--format",

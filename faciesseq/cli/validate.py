@@ -63,7 +63,11 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "OUT", "also write the tables to this folder")
     parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")
     add_model_arguments(parser, select=False)
-    add_parallel_arguments(parser, "EM restarts, candidate tract graphs, calibration folds")
+    add_parallel_arguments(
+        parser,
+        "EM restarts, candidate tract graphs, calibration folds, "
+        "E-step chunks of fits of 400,000 beds or more",
+    )
     parser.set_defaults(func=run)
 
 

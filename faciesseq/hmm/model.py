@@ -36,6 +36,7 @@ from faciesseq.hmm.baseline import trend_rule
 from faciesseq.hmm.context import ContextEmission, evidence_weights
 from faciesseq.hmm.decoding import Decoding, _succession_table
 from faciesseq.hmm.em import (
+    CHUNK_BEDS,
     ConvergenceError,
     ConvergenceMonitor,
     ExpectationMaximisation,
@@ -187,6 +188,13 @@ class TractHMM(ExpectationMaximisation, Decoding):
         a structural zero diagonal.
     batch_size
         Beds per E-step batch (memory is bounded by the batch, not the database).
+    chunk_beds
+        An EM run on at least twice this many beds cuts its E-step into chunks of
+        whole successions of about this many beds (:func:`~faciesseq.hmm.em.chunk_bounds`),
+        computed on the workers of ``n_jobs`` / ``scheduler`` when a fit is
+        parallel and here in turn when not, and sums their statistics in chunk
+        order; the M-step stays here. The fitted parameters do not depend on the
+        workers; fits on fewer beds run one E-step as they always did.
     n_jobs, scheduler
         Independent jobs (restarts, calibration folds, candidate graphs) run in
         ``n_jobs`` local processes, or on the Dask cluster at ``scheduler``
@@ -268,6 +276,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         unit: str = "beds",
         step: float | None = None,
         batch_size: int = 200_000,
+        chunk_beds: int = CHUNK_BEDS,
         n_jobs: int = 1,
         scheduler: str | None = None,
         calibration_folds: int = 5,
@@ -287,6 +296,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.unit = unit
         self.step = step
         self.batch_size = batch_size
+        self.chunk_beds = chunk_beds
         self.n_jobs = n_jobs
         self.scheduler = scheduler
         self.calibration_folds = calibration_folds
@@ -314,6 +324,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
             raise ConfigError(f"cycle_prior must be >= 0, got {self.cycle_prior!r}")
         if int(self.n_restarts) < 1:
             raise ConfigError(f"n_restarts must be >= 1, got {self.n_restarts!r}")
+        if int(self.chunk_beds) < 1:
+            raise ConfigError(f"chunk_beds must be >= 1, got {self.chunk_beds!r}")
         if int(self.max_iter) < 1:
             raise ConfigError(f"max_iter must be >= 1, got {self.max_iter!r}")
         if self.graph not in ("auto", "fixed"):
@@ -536,6 +548,14 @@ class TractHMM(ExpectationMaximisation, Decoding):
                 out[a:b] += p.log_prob(part)
         return out
 
+    def _e_step_estimator(self) -> TractHMM:
+        """A model holding only what the E-step of a chunk reads (the states and the
+        batch size): what is sent to the workers with every iteration, instead of
+        this model and what its fit carries."""
+        estimator = type(self)(batch_size=self.batch_size)
+        estimator.states_ = self.states_
+        return estimator
+
     def _batches(self, lengths: np.ndarray, most: int | None = None):
         """``(start, stop, lengths, first)`` of batches of whole successions, of at most
         ``batch_size`` beds (and at most ``most``) unless one succession is longer."""
@@ -711,7 +731,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
             self._refit_beds = data.beds  # for the calibration of _fit_choosing_graph
             return [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
         if self._parallel() and len(seeds) > 1:
-            jobs = [(data, s, r, None) for r, s in enumerate(seeds)]
+            # inside a restart, the chunks of a large E-step run in turn (no nested jobs)
+            jobs = [(data, s, r, None, None, False) for r, s in enumerate(seeds)]
             runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
             if progress is not None:  # once per finished restart
                 for r, run in enumerate(runs):
