@@ -21,8 +21,8 @@ def keep_freed_memory() -> None:
     percent more peak memory; in a local worker of ``fit --jobs 2`` (EM on a sample
     of 50,000 beds, whose arrays of a few MiB are made and freed every iteration)
     the fit at 10^5 beds went from 2.4 million page faults and 6.9 s of system time
-    to 0.1 million and 1.4 s (one run each). Nothing is done on another C library,
-    or where the user set either threshold."""
+    to 0.1 million and 0.8 s (one run each; benchmarks/parallel.md). Nothing is done
+    on another C library, or where the user set either threshold."""
     import ctypes
     import os
     import sys

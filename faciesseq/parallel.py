@@ -18,6 +18,7 @@ are or which of them ran what.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import re
 import sys
@@ -183,7 +184,8 @@ class Workers:
     :meth:`share` scatters the data to the workers' memory once; a job given a shared
     value runs where the value is. Local processes (joblib, loky) keep no data between
     jobs, so :meth:`share` writes each value once to a file of a temporary folder
-    (``joblib.dump``, removed when the context ends), and each worker process reads
+    (``joblib.dump``; :func:`faciesseq._output.temporary_folder`, made with the
+    signals held and removed when the context ends), and each worker process reads
     it the first time a job takes it (``joblib.load(mmap_mode="r")``: arrays mapped
     read-only, shared through the operating system's page cache) and keeps it for
     the later rounds. Why not send the values with
@@ -198,6 +200,7 @@ class Workers:
         self.scheduler = scheduler
         self._client = None
         self._folder: str | None = None
+        self._stack = contextlib.ExitStack()
 
     def __enter__(self) -> Workers:
         if self.scheduler:
@@ -209,12 +212,10 @@ class Workers:
             self._client.close()
             self._client = None
         if self._folder is not None:
-            import shutil
-
             for path in [p for p in _READ if os.path.dirname(p) == self._folder]:
                 del _READ[path]  # read here when a round had a single job
-            shutil.rmtree(self._folder, ignore_errors=True)
             self._folder = None
+        self._stack.close()  # the shared folder, deleted
 
     def share(self, values: Sequence[Any]) -> list[Any]:
         """``values`` as the jobs of :meth:`run` should take them: Dask futures of the
@@ -224,10 +225,14 @@ class Workers:
         if int(self.n_jobs) <= 1:
             return list(values)
         import tempfile
+        from pathlib import Path
 
         from joblib import dump
 
-        self._folder = tempfile.mkdtemp(prefix="faciesseq-shared-")
+        from faciesseq._output import temporary_folder
+
+        shared = temporary_folder("faciesseq-shared-", Path(tempfile.gettempdir()))
+        self._folder = str(self._stack.enter_context(shared))
         stored = []
         for k, value in enumerate(values):
             path = os.path.join(self._folder, f"{k}.joblib")

@@ -642,11 +642,15 @@ class TractHMM(ExpectationMaximisation, Decoding):
             "cycles": round(self.n_cycles_, 3),
         }
         plain = type(self)(**{**self.get_params(), "weigh_evidence": False})
-        plain.fit(succ, labels, progress)
-        hyper = self.get_params()
-        self.__dict__.update(plain.__dict__)
-        self.set_params(**hyper)
+        self._take_fit(plain.fit(succ, labels, progress))
         self.weights_rejected_ = rejected
+
+    def _take_fit(self, other: TractHMM) -> None:
+        """The fitted state of ``other`` (a fit of other settings), this model keeping
+        its own hyper-parameters."""
+        hyper = self.get_params()
+        self.__dict__.update(other.__dict__)
+        self.set_params(**hyper)
 
     def _fit_once(self, succ, labels, progress) -> TractHMM:
         """One fit of checked settings on ``succ`` (:func:`_training_successions`):
@@ -811,10 +815,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
         from faciesseq.hmm.graphs import choose_graph
 
         best, rows = choose_graph(self, succ, progress)
-        hyper = self.get_params()
-        self.__dict__.update(best.__dict__)
+        self._take_fit(best)
         beds = self.__dict__.pop("_refit_beds", None)  # every bed, encoded by the refit
-        self.set_params(**hyper)
         self._default_graph = best.tract_model
         self.graph_selection_ = rows
         seed = self.random_state if isinstance(self.random_state, int) else None
