@@ -68,17 +68,21 @@ _json = st.recursive(
 )
 
 
+@pytest.fixture(scope="module", params=["labelled", "weighted"])
+def any_document(request, document, weighted_document):
+    """Each model file the property test changes: a labelled fit (boosted trees, bed
+    pieces) and a weighted fit without labels (context pieces and their weights)."""
+    return document if request.param == "labelled" else weighted_document
+
+
 @settings(
     max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
 @given(data=st.data(), value=_json)
 def test_a_model_file_with_any_value_changed_is_read_or_refused_with_a_clear_error(
-    document, data, value
+    any_document, data, value
 ):
-    _changed_value_is_read_or_refused(*document, data, value)
-
-
-def _changed_value_is_read_or_refused(doc, train, data, value) -> None:
+    doc, train = any_document
     paths = list(_leaves(doc))
     path = data.draw(st.sampled_from(paths))
     changed = copy.deepcopy(doc)
@@ -103,16 +107,6 @@ def weighted_document():
     assert model.evidence_weights_
     model.weights_rejected_ = {"expected_tract_changes": 9.5, "cycles": 8.0}
     return json.loads(json.dumps(model_to_dict(model))), train
-
-
-@settings(
-    max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
-)
-@given(data=st.data(), value=_json)
-def test_a_weighted_model_file_with_any_value_changed_is_read_or_refused_with_a_clear_error(
-    weighted_document, data, value
-):
-    _changed_value_is_read_or_refused(*weighted_document, data, value)
 
 
 _HEAD = (DEMO / "cores.csv").read_bytes().splitlines(keepends=True)[:40]
