@@ -35,8 +35,9 @@ from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm import TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
 
-#: ``--weigh-evidence``: fit with ``weigh_evidence=True``.
-WEIGH = "--weigh-evidence" in sys.argv[1:]
+#: ``--per-bed-evidence``: fit with ``weigh_evidence=False`` (the default before
+#: 2026-12-03); the default weighs the evidence.
+WEIGH = "--per-bed-evidence" not in sys.argv[1:]
 
 
 def main() -> int:

@@ -66,7 +66,8 @@ from faciesseq.scores import (  # noqa: E402
 
 #: ``--model bed-level``: the tract model before the stacking context (bed-level
 #: pieces, permissive graph), kept as the named baseline of the comparison;
-#: ``--model weighted``: the default with ``weigh_evidence=True``.
+#: ``--model weighted``: ``weigh_evidence=True`` (the default since 2026-12-03);
+#: ``--model per-bed-evidence``: ``weigh_evidence=False`` (the default before).
 MODEL = "default"
 
 
@@ -83,7 +84,7 @@ def make_model(scheme, mode: str, seed: int):
         from faciesseq.scheme import permissive_tract_model
 
         return _BedLevel(scheme, seed, DEFAULT_FEATURES, permissive_tract_model())
-    return TractHMM(scheme=scheme, random_state=seed, weigh_evidence=MODEL == "weighted")
+    return TractHMM(scheme=scheme, random_state=seed, weigh_evidence=MODEL != "per-bed-evidence")
 
 
 class _BedLevel:
@@ -436,10 +437,11 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--json", type=Path, help="also write the results as JSON here")
     parser.add_argument(
         "--model",
-        choices=("default", "weighted", "bed-level"),
+        choices=("default", "weighted", "per-bed-evidence", "bed-level"),
         default="default",
-        help="the model measured: today's default, the default with evidence weights "
-        "(weigh_evidence=True), or the bed-level baseline",
+        help="the model measured: today's default (evidence weights), the same named "
+        "'weighted', the context counted once per bed (weigh_evidence=False, the default "
+        "before 2026-12-03), or the bed-level baseline",
     )
     parser.add_argument(
         "--seeds",

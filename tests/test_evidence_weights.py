@@ -134,9 +134,9 @@ def test_the_weights_travel_with_the_model_file(weighted, tmp_path):
     assert all(getattr(p, "weight", 1.0) == 1.0 for p in old.emissions_)
 
 
-def test_unweighted_fits_are_the_default_and_count_every_bed():
-    model = TractHMM(scheme=SCHEME)
-    assert model.weigh_evidence is False
+def test_weighted_fits_are_the_default_and_unweighted_ones_count_every_bed():
+    assert TractHMM(scheme=SCHEME).weigh_evidence is True
+    model = TractHMM(scheme=SCHEME, weigh_evidence=False)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         model.fit(_stacking_cores([31]))
@@ -185,14 +185,17 @@ def test_fit_says_which_evidence_weights_it_used(tmp_path, capsys):
     _stacking_cores([31]).to_frame().to_csv(source, index=False)
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(tmp_path / "m.json")]
-    assert main([*argv, "--weigh-evidence"]) == 0
-    out = capsys.readouterr().out
-    assert "evidence weights of the context: " in out and "position 0.06" in out
-    assert main([*argv, "--force"]) == 0
+    for weigh in ([], ["--weigh-evidence"]):  # the default, and said
+        assert main([*argv, *weigh, "--force"]) == 0
+        out = capsys.readouterr().out
+        assert "evidence weights of the context: " in out and "position 0.06" in out
+    assert main([*argv, "--no-weigh-evidence", "--force"]) == 0
     assert "evidence weights" not in capsys.readouterr().out
     labelled = tmp_path / "labelled.csv"
     pd.read_csv(source).assign(tract="HST").to_csv(labelled, index=False)
     argv[1] = str(labelled)
+    assert main([*argv, "--labels", "tract", "--force"]) == 0
+    assert "evidence weights" not in capsys.readouterr().out  # not asked for: not said
     assert main([*argv, "--labels", "tract", "--weigh-evidence", "--force"]) == 0
     assert "evidence weights not used: this fit reads no stacking context" in (
         capsys.readouterr().out
@@ -219,7 +222,9 @@ def test_the_appendix_methods_give_the_weights_and_their_sources(weighted, tmp_p
         assert "Lindsay, B. G. (1988)" in described and "Varin, C." in described
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        plain = TractHMM(scheme=SCHEME, n_restarts=1, max_iter=5, random_state=0)
+        plain = TractHMM(
+            scheme=SCHEME, n_restarts=1, max_iter=5, weigh_evidence=False, random_state=0
+        )
         plain.fit(_stacking_cores([31]))
     assert "composite likelihood" not in _methods_text(plain)
     assert "Lindsay" not in _methods_text(plain)

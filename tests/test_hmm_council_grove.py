@@ -70,28 +70,33 @@ def test_the_transgressive_tract_lies_in_marine_half_cycles(decoded):
     assert np.sum(w * marine) / np.sum(w) >= 0.9
 
 
-def test_without_labels_the_half_cycle_boundaries_follow_the_exposure_surfaces(wells):
+def test_without_labels_the_half_cycle_boundaries_of_wells_left_out_follow_the_exposure_surfaces(
+    wells,
+):
     # The scheme marks the redbeds (facies 1-3) as the record of the shelf's subaerial
     # exposure, so the fit without labels reads them in the falling stage and lowstand
     # and the marine bed on them as the transgressive surface (Van Wagoner et al. 1990;
-    # Catuneanu et al. 2009). Target of the issue: decoded half-cycle boundaries
-    # within 5 ft of the NM_M column, precision and recall >= 0.85; measured 0.93 /
-    # 0.93 (0.70 / 0.64 before the exposure reading; benchmarks/tract_model.md).
+    # Catuneanu et al. 2009). Each well is decoded by a fit on the other four (wells
+    # the model never saw, as in a company database). Target of the issue: decoded
+    # half-cycle boundaries within 5 ft of the NM_M column, precision and recall
+    # >= 0.85; measured 0.90 / 0.95 with the default evidence weights (0.86 / 0.84
+    # with the context counted once per bed; benchmarks/tract_model.md).
     from faciesseq.scores import boundary_f1, half_cycle_boundaries
 
     cores = wells
-    model = TractHMM(scheme=load_scheme(DATA / "scheme.yaml"), random_state=0).fit(cores)
-    assert "exposure" in model.features_
+    scheme = load_scheme(DATA / "scheme.yaml")
     truth = half_cycle_boundaries(cores.to_frame(), column="NM_M", marine=(2,))
-    pred = half_cycle_boundaries(
-        model.decode(cores).tracts_table(), column="tract", marine=("TST", "HST")
-    )
-    scores = [
-        boundary_f1(
-            pred.loc[pred["core"] == w, "depth"], truth.loc[truth["core"] == w, "depth"], 5.0
+    scores = []
+    for well in cores.names:
+        others = cores.subset([n for n in cores.names if n != well])
+        model = TractHMM(scheme=scheme, random_state=0).fit(others)
+        assert "exposure" in model.features_
+        pred = half_cycle_boundaries(
+            model.decode(cores.subset([well])).tracts_table(),
+            column="tract",
+            marine=("TST", "HST"),
         )
-        for w in cores.names
-    ]
+        scores.append(boundary_f1(pred["depth"], truth.loc[truth["core"] == well, "depth"], 5.0))
     matched = sum(s.n_matched for s in scores)
     assert matched / sum(s.n_pred for s in scores) >= 0.85
     assert matched / sum(s.n_true for s in scores) >= 0.85

@@ -74,10 +74,17 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     )
     group.add_argument(
         "--weigh-evidence",
-        action="store_true",
+        action=argparse.BooleanOptionalAction,
+        default=None,
         help="without labels: count the stacking context shared by the beds of a cycle "
-        "or window once, not once per bed (see docs/hmm.md before using it)",
+        "or window once (the default), or with --no-weigh-evidence once per bed "
+        "(docs/hmm.md, 'Evidence counted once')",
     )
+
+
+def weigh_evidence(args: argparse.Namespace) -> bool:
+    """``--weigh-evidence`` / ``--no-weigh-evidence``; weighed unless told not to."""
+    return args.weigh_evidence is not False
 
 
 def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:

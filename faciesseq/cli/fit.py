@@ -23,6 +23,7 @@ from faciesseq.cli._hmm import (
     load_tracts_option,
     substate_counts,
     warnings_to_stderr,
+    weigh_evidence,
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError, InputError
@@ -150,16 +151,16 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
                 n_jobs=parallel[0],
                 scheduler=parallel[1],
                 calibration_folds=args.calibration_folds,
-                weigh_evidence=args.weigh_evidence,
+                weigh_evidence=weigh_evidence(args),
                 random_state=args.seed,
             )
         finally:
             progress.close()
 
 
-def _print_weights(model) -> None:
-    """Whether the context evidence was weighed (``--weigh-evidence``), and if it was
-    asked for but not kept, why."""
+def _print_weights(model, asked: bool | None) -> None:
+    """Whether the context evidence was weighed, and if it was not kept, why; that
+    the weights were not used only where ``--weigh-evidence`` was given (``asked``)."""
     rejected = getattr(model, "weights_rejected_", None)
     if rejected:
         print(
@@ -170,7 +171,7 @@ def _print_weights(model) -> None:
     elif getattr(model, "evidence_weights_", None):
         w = ", ".join(f"{k} {v:.2f}" for k, v in model.evidence_weights_.items() if v < 1)
         print(f"evidence weights of the context: {w}")
-    elif model.weigh_evidence:
+    elif asked:
         print(
             "evidence weights not used: this fit reads no stacking context (that needs a "
             "scheme with ranks, --unit beds and no labels)"
@@ -238,7 +239,7 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"states {','.join(model.states_.labels())}"
     )
     _print_graph(model)
-    _print_weights(model)
+    _print_weights(model, args.weigh_evidence)
     chosen = table[table["selected"]].iloc[0]
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(

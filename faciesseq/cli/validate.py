@@ -23,6 +23,7 @@ from faciesseq.cli._hmm import (
     load_tracts_option,
     substate_counts,
     warnings_to_stderr,
+    weigh_evidence,
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
@@ -192,7 +193,7 @@ def run(args: argparse.Namespace) -> int:
                 n_jobs=n_jobs,
                 scheduler=scheduler,
                 calibration_folds=args.calibration_folds,
-                weigh_evidence=args.weigh_evidence,
+                weigh_evidence=weigh_evidence(args),
             )
         finally:
             progress.close()
