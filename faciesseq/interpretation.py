@@ -127,9 +127,35 @@ def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
     return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting).n_cycles
 
 
-def tract_runs(table: pd.DataFrame) -> pd.DataFrame:
+def bed_cycles(table: pd.DataFrame, scheme: FaciesScheme) -> np.ndarray:
+    """Cycle of every bed of a tract column, cut as the tract model cuts them
+    (:func:`faciesseq.cycles.find_cycles`: at flooding surfaces, Van Wagoner et al.
+    1990), numbered across the table; a cycle ends at a core's end and at a gap.
+
+    ``table`` is :meth:`Interpretation.tracts_table` (``core, top, base, facies``,
+    depth order within cores).
+    """
+    from faciesseq.cycles import cycle_inputs, find_cycles
+
+    if not len(table):
+        return np.zeros(0, dtype=np.int64)
+    up = table.iloc[::-1]  # base to top within each core
+    core = up["core"].to_numpy(object)
+    top, base = up["top"].to_numpy(float), up["base"].to_numpy(float)
+    starts = np.flatnonzero(np.r_[True, (core[1:] != core[:-1]) | (base[1:] != top[:-1])])
+    lengths = np.diff(np.r_[starts, len(up)]).astype(np.int64)
+    fac, codes = pd.factorize(up["facies"].astype(str))
+    codes = list(codes)
+    ranks = [scheme.rank(c) if c in scheme else np.nan for c in codes]
+    r, marks, setting = cycle_inputs(fac, ranks, scheme.cycle_bases(codes), scheme.settings(codes))
+    return find_cycles(r, lengths, base - top, 1.0, marks, setting).bed_cycle[::-1]
+
+
+def tract_runs(table: pd.DataFrame, cycles: np.ndarray | None = None) -> pd.DataFrame:
     """Runs of one decoded tract in a tract column: ``core, tract, top, base,
-    thickness, beds`` (a run ends where the tract or the core changes, or at a gap).
+    thickness, beds`` (a run ends where the tract or the core changes, or at a gap),
+    and ``cycles``, the cycles each run touches, where the cycle of every bed is
+    given (:func:`bed_cycles`).
 
     ``table`` is :meth:`Interpretation.tracts_table` (depth order within cores).
     """
@@ -141,7 +167,7 @@ def tract_runs(table: pd.DataFrame) -> pd.DataFrame:
     run = np.cumsum(new) - 1
     first = np.flatnonzero(new)
     last = np.r_[first[1:], len(table)] - 1
-    return pd.DataFrame(
+    out = pd.DataFrame(
         {
             "core": core[first],
             "tract": tract[first],
@@ -151,16 +177,25 @@ def tract_runs(table: pd.DataFrame) -> pd.DataFrame:
             "beds": np.bincount(run) if len(table) else [],
         }
     )
+    if cycles is not None:  # a run touches a new cycle at its first bed and at each change
+        c = np.asarray(cycles)
+        changed = np.r_[True, c[1:] != c[:-1]] if len(c) else np.zeros(0, dtype=bool)
+        out["cycles"] = np.bincount(run, weights=changed | new).astype(np.int64) if len(c) else []
+    return out
 
 
 def tract_durations(
-    table: pd.DataFrame, tracts: Sequence[str], beds_per_visit: Sequence[float]
+    table: pd.DataFrame,
+    tracts: Sequence[str],
+    beds_per_visit: Sequence[float],
+    cycles: np.ndarray | None = None,
 ) -> dict[str, dict]:
     """How long each tract lasts: ``beds_per_visit`` (a fitted chain's expected
     beds per visit, :meth:`faciesseq.hmm.states.StateSpace.mean_beds`) beside the
     number, median thickness and median beds of the runs of that tract in a decoded
-    tract column (``table``, as for :func:`tract_runs`)."""
-    runs = tract_runs(table)
+    tract column (``table``, as for :func:`tract_runs`), and with ``cycles`` (the
+    cycle of every bed, :func:`bed_cycles`) the median cycles a run touches."""
+    runs = tract_runs(table, cycles)
     out = {}
     for t, beds in zip(tracts, beds_per_visit, strict=True):
         mine = runs[runs["tract"] == t]
@@ -170,6 +205,8 @@ def tract_durations(
             "median_thickness": float(mine["thickness"].median()) if len(mine) else None,
             "median_beds": float(mine["beds"].median()) if len(mine) else None,
         }
+        if cycles is not None:
+            out[t]["median_cycles"] = float(mine["cycles"].median()) if len(mine) else None
     return out
 
 

@@ -3,6 +3,7 @@ per-well summary (synthetic cores from tests/hmm_synthetic.py, invented)."""
 
 import json
 import math
+from pathlib import Path
 
 import hmm_synthetic as synth
 import numpy as np
@@ -383,6 +384,38 @@ def test_tract_runs_end_where_the_tract_the_core_or_the_depth_changes():
     assert runs["beds"].tolist() == [2, 1, 1, 1]
 
 
+def test_bed_cycles_cut_at_flooding_surfaces_and_tract_runs_count_them():
+    # Upward in core A: SHM (rank 6), LSF (3), FS (1) shallow, then OFF (5) lies four
+    # ranks deeper on FS, a flooding surface, and USF (2) shallows again: two cycles
+    # (Van Wagoner et al. 1990); the bed below a gap and core B start cycles of their own.
+    from faciesseq.interpretation import bed_cycles, tract_runs
+    from faciesseq.scheme import load_scheme
+
+    scheme = load_scheme(Path(__file__).resolve().parents[1] / "configs" / "scheme-shoreface.yaml")
+    table = pd.DataFrame(
+        {
+            "core": ["A"] * 6 + ["B"],
+            "top": [0.0, 1.0, 2.0, 3.0, 4.0, 6.0, 0.0],
+            "base": [1.0, 2.0, 3.0, 4.0, 5.0, 7.0, 1.0],
+            # the beds below the gap and of core B are as deep as the bed above the
+            # gap: only the gap and the core's end cut them off
+            "facies": ["USF", "OFF", "FS", "LSF", "SHM", "SHM", "SHM"],
+            "tract": ["HST", "HST", "HST", "TST", "TST", "TST", "TST"],
+        }
+    )
+    cycles = bed_cycles(table, scheme)
+    same = cycles[:, None] == cycles[None, :]
+    groups = [[0, 1], [2, 3, 4], [5], [6]]
+    for g in groups:
+        assert same[np.ix_(g, g)].all()
+    assert len(set(cycles.tolist())) == len(groups)
+    runs = tract_runs(table, cycles)
+    # HST over the two cycles of core A; TST in the lower cycle, below the gap, core B
+    assert runs["tract"].tolist() == ["HST", "TST", "TST", "TST"]
+    assert runs["cycles"].tolist() == [2, 1, 1, 1]
+    assert "cycles" not in tract_runs(table).columns
+
+
 def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     capsys.readouterr()
     _fit(database, tmp_path / "m.json", "--format", "json")
@@ -391,5 +424,7 @@ def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     assert set(durations) == {"HST", "FSST", "LST", "TST"}
     used = [d for d in durations.values() if d["runs"]]
     assert used and all(d["beds_per_visit"] >= 1 and d["median_thickness"] > 0 for d in used)
+    # in cycles too, the scheme giving ranks: every run touches at least one
+    assert all(d["median_cycles"] >= 1 for d in used)
     _fit(database, tmp_path / "t.json")
     assert "tract lengths, beds per visit of the fitted chain" in capsys.readouterr().out

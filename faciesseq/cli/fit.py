@@ -250,13 +250,18 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
     print(describe_calibration(model.temperature_, model.calibration_))
 
 
-def _durations(model, interp) -> dict[str, dict]:
+def _durations(model, interp, scheme) -> dict[str, dict]:
     """:func:`faciesseq.interpretation.tract_durations` of the decoded training cores
-    beside the fitted chain's expected beds per visit."""
-    from faciesseq.interpretation import tract_durations
+    beside the fitted chain's expected beds per visit; in cycles too where the scheme
+    gives ranks (a beds fit)."""
+    from faciesseq.interpretation import bed_cycles, tract_durations
 
     expected = model.states_.mean_beds(model.transmat_)
-    return tract_durations(interp.tracts_table(), model.states_.tracts, expected)
+    table = interp.tracts_table()
+    cycles = None
+    if scheme is not None and model.unit == "beds" and "facies" in table.columns:
+        cycles = bed_cycles(table, scheme)
+    return tract_durations(table, model.states_.tracts, expected, cycles)
 
 
 def _durations_line(durations: dict[str, dict], units: str, listed_only: bool = False) -> str:
@@ -268,8 +273,13 @@ def _durations_line(durations: dict[str, dict], units: str, listed_only: bool = 
         run = (
             "no run"
             if not d["runs"]
-            else f"median {d['median_thickness']:.3g} {units} and {d['median_beds']:g} beds "
-            f"over {d['runs']} run(s)"
+            else f"median {d['median_thickness']:.3g} {units}, {d['median_beds']:g} beds"
+            + (
+                f" and {d['median_cycles']:g} cycle(s)"
+                if d.get("median_cycles") is not None
+                else ""
+            )
+            + f" over {d['runs']} run(s)"
         )
         parts.append(f"{t} {chain} ({run})")
     cores = "the decoded cores listed below" if listed_only else "decoded training cores"
@@ -288,14 +298,14 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         with warnings_to_stderr("fit"):
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
-        print_json({**document, "tract_durations": _durations(model, interp)})
+        print_json({**document, "tract_durations": _durations(model, interp, scheme)})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
     with warnings_to_stderr("fit"):
         interp = model.decode(listed)
     _print_fit(args, selection)
     units = next(iter(interp)).units if len(interp) else ""
-    print(_durations_line(_durations(model, interp), units, len(interp) < n_cores))
+    print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
 
