@@ -166,7 +166,7 @@ def tract_runs(table: pd.DataFrame, cycles: np.ndarray | None = None) -> pd.Data
     new[1:] = (core[1:] != core[:-1]) | (tract[1:] != tract[:-1]) | (top[1:] != base[:-1])
     run = np.cumsum(new) - 1
     first = np.flatnonzero(new)
-    last = np.r_[first[1:], len(table)] - 1
+    last = np.r_[first[1:], len(table)][: len(first)] - 1  # none for an empty column
     out = pd.DataFrame(
         {
             "core": core[first],

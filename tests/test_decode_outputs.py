@@ -382,6 +382,7 @@ def test_tract_runs_end_where_the_tract_the_core_or_the_depth_changes():
     assert runs["tract"].tolist() == ["HST", "TST", "TST", "TST"]  # a gap at 3-5 m
     assert runs["thickness"].tolist() == [2.0, 1.0, 1.0, 2.0]
     assert runs["beds"].tolist() == [2, 1, 1, 1]
+    assert tract_runs(table.iloc[:0]).empty  # an empty column has no runs
 
 
 def test_bed_cycles_cut_at_flooding_surfaces_and_tract_runs_count_them():
