@@ -21,7 +21,7 @@ import yaml
 
 from faciesseq.core import CoreSet
 from faciesseq.cycles import POSITION_HALF_WIDTH, TREND_HALF_WIDTH, beds_per_cycle
-from faciesseq.errors import ModelFileError
+from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm import TractHMM
 from faciesseq.hmm.context import ContextEmission, evidence_weights
 from faciesseq.hmm.modelfile import load_model, save_model
@@ -157,10 +157,12 @@ def test_a_weighted_fit_with_more_tract_changes_than_cycles_is_done_again_withou
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         model = TractHMM(scheme=SCHEME, weigh_evidence=True, random_state=0).fit(cores)
-        plain = TractHMM(scheme=SCHEME, random_state=0).fit(cores)
+        plain = TractHMM(scheme=SCHEME, weigh_evidence=False, random_state=0).fit(cores)
     assert model.weigh_evidence is True and model.evidence_weights_ == {}
     assert model.weights_rejected_["cycles"] == pytest.approx(1.0)
     assert model.weights_rejected_["expected_tract_changes"] > 1.0
+    # the square roots of the weights gave such tracts too (one cycle): no weights
+    assert model.weights_rejected_["refitted_with"] == "no weights"
     np.testing.assert_array_equal(model.transmat_, plain.transmat_)
     assert model.graph_selection_ == plain.graph_selection_
     path = tmp_path / "m.json"
@@ -170,6 +172,46 @@ def test_a_weighted_fit_with_more_tract_changes_than_cycles_is_done_again_withou
     loaded = load_model(path)
     assert loaded.weights_rejected_ == model.weights_rejected_
     assert "the fit without them" in _methods_text(loaded)
+
+
+def test_a_refused_weighting_is_tried_again_with_the_square_roots_of_the_weights(
+    weighted, monkeypatch, tmp_path
+):
+    # The full weights refused, their square roots accepted (forced here: the check
+    # refuses the full weights only), the model keeps the weaker weights and says why.
+    full, cores = weighted
+    monkeypatch.setattr(
+        TractHMM,
+        "_tracts_shorter_than_cycles",
+        lambda self: bool(self.evidence_weights_) and self.weigh_evidence is True,
+    )
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        model = TractHMM(scheme=SCHEME, weigh_evidence=True, random_state=0).fit(cores)
+    assert model.weigh_evidence is True  # the setting asked for is kept
+    assert model.weights_rejected_["refitted_with"] == "square roots of the weights"
+    assert model.evidence_weights_ == pytest.approx(
+        {f: w**0.5 for f, w in full.evidence_weights_.items()}
+    )
+    for p in model.emissions_:
+        if isinstance(p, ContextEmission):
+            assert p.weight == pytest.approx(model.evidence_weights_[p.feature])
+    path = tmp_path / "m.json"
+    save_model(model, path)
+    loaded = load_model(path)
+    assert loaded.weights_rejected_ == model.weights_rejected_
+    pd.testing.assert_frame_equal(
+        model.decode(cores).tracts_table(), loaded.decode(cores).tracts_table()
+    )
+    described = _methods_text(loaded)
+    assert "square roots of those weights" in described and "position 0.24" in described
+
+
+def test_weigh_evidence_is_true_false_or_a_power_up_to_one():
+    cores = _stacking_cores([31])
+    for bad in (0, 1.5, -0.5, "yes", float("nan")):
+        with pytest.raises(ConfigError, match="weigh_evidence"):
+            TractHMM(scheme=SCHEME, weigh_evidence=bad).fit(cores)
 
 
 def test_a_weighted_fit_that_keeps_its_tracts_longer_than_cycles_keeps_its_weights(weighted):

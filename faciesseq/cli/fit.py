@@ -163,15 +163,17 @@ def _print_weights(model, asked: bool | None) -> None:
     the weights were not used only where ``--weigh-evidence`` was given (``asked``)."""
     rejected = getattr(model, "weights_rejected_", None)
     if rejected:
+        weaker = rejected.get("refitted_with") == "square roots of the weights"
         print(
             f"evidence weights not kept: the weighted fit changed tract about "
             f"{rejected['expected_tract_changes']:.0f} times in {rejected['cycles']:.0f} "
-            "cycles (tracts shorter than a parasequence); fitted without them"
+            "cycles (tracts shorter than a parasequence); fitted "
+            + ("again with their square roots" if weaker else "without them")
         )
-    elif getattr(model, "evidence_weights_", None):
+    if getattr(model, "evidence_weights_", None):
         w = ", ".join(f"{k} {v:.2f}" for k, v in model.evidence_weights_.items() if v < 1)
         print(f"evidence weights of the context: {w}")
-    elif asked:
+    elif asked and not rejected:
         print(
             "evidence weights not used: this fit reads no stacking context (that needs a "
             "scheme with ranks, --unit beds and no labels)"

@@ -189,7 +189,7 @@ def context_pseudo_counts(
     return np.maximum(out, MIN_PSEUDO)
 
 
-def evidence_weights(beds_per_cycle: float) -> dict[str, float]:
+def evidence_weights(beds_per_cycle: float, power: float = 1.0) -> dict[str, float]:
     """The share of each context feature's evidence that is a bed's own.
 
     A context feature is read from a window of beds, and the beds of one window
@@ -212,9 +212,12 @@ def evidence_weights(beds_per_cycle: float) -> dict[str, float]:
     - ``setting`` and ``exposure``: the bed alone (weight 1).
 
     ``beds_per_cycle``: mean beds per cycle (:func:`faciesseq.cycles.beds_per_cycle`).
+    ``power``: each weight raised to it; 0.5, the square roots, is the weaker
+    correction a fit falls back on where the full one is refused
+    (:meth:`faciesseq.hmm.model.TractHMM.fit`).
     """
     m = max(float(beds_per_cycle), 1.0)
-    return {
+    weights = {
         "trend": 1.0 / (2 * TREND_HALF_WIDTH + 1),
         "position": 1.0 / (2 * POSITION_HALF_WIDTH + 1),
         "cycle_amplitude": 1.0 / m,
@@ -225,6 +228,7 @@ def evidence_weights(beds_per_cycle: float) -> dict[str, float]:
         "setting": 1.0,
         "exposure": 1.0,
     }
+    return {name: w ** float(power) for name, w in weights.items()}
 
 
 class ContextEmission(CategoricalEmission):

@@ -85,22 +85,31 @@ def _weights_text(model: Any) -> str | None:
         if getattr(p, "weight", 1.0) != 1.0
     }
     rejected = getattr(model, "weights_rejected_", None)
+    refused = (
+        "The context evidence was to be weighed so that what the beds of a window or a "
+        "cycle share counts once, but the fit so weighted expected more changes of tract "
+        f"({rejected.get('expected_tract_changes')}) than the training cores have cycles "
+        f"({rejected.get('cycles')}): tracts shorter than a parasequence, which the "
+        "definition of a systems tract excludes (Van Wagoner et al. 1990). "
+        if isinstance(rejected, dict)
+        else ""
+    )
     if weighed:
         listed = ", ".join(f"{name} {w:.2f}" for name, w in weighed.items())
+        if refused:
+            return (
+                refused + "The model is the fit with the square roots of those weights, a "
+                "weaker correction (a composite likelihood with weights; Lindsay 1988; "
+                f"Varin et al. 2011): {listed}."
+            )
         return (
             "The context evidence was weighed so that what the beds of a window or a cycle "
             "share counts once: each context feature's log-probability was multiplied by one "
             "over the beds its window spans, from the mean cycle length of the training cores "
             f"(a composite likelihood with weights; Lindsay 1988; Varin et al. 2011): {listed}."
         )
-    if isinstance(rejected, dict):
-        return (
-            "Weights of the context evidence were asked for, but the weighted fit expected "
-            f"more changes of tract ({rejected.get('expected_tract_changes')}) than the "
-            f"training cores have cycles ({rejected.get('cycles')}): tracts shorter than a "
-            "parasequence, which the definition of a systems tract excludes (Van Wagoner et "
-            "al. 1990). The model is the fit without them."
-        )
+    if refused:
+        return refused + "The model is the fit without them."
     return None
 
 
