@@ -119,7 +119,8 @@ def _fit_and_decode(cores, scheme, held_out: bool):
     """The decoded tract table of every well: fitted on all wells and decoding them, or
     (``held_out``) each well decoded by a model fitted on the others."""
     if not held_out:
-        return make_model(scheme, "unsupervised", SEED).fit(cores, labels=None).decode(cores)
+        model = make_model(scheme, "unsupervised", SEED).fit(cores, labels=None)
+        return model.decode(cores).tracts_table()
     tables = []
     for well in cores.names:
         others = cores.subset([n for n in cores.names if n != well])
@@ -138,8 +139,6 @@ def evaluate(csv: Path, scheme_path: Path, pseudo_well: bool, held_out: bool = F
         warnings.simplefilter("always")
         t0 = time.perf_counter()
         decoded = _fit_and_decode(cores, scheme, held_out)
-        if not isinstance(decoded, pd.DataFrame):
-            decoded = decoded.tracts_table()
         fit_s = time.perf_counter() - t0
     rule = trend_rule_table(cores, scheme)
     facies_rule = samples.assign(marine=samples["facies"].astype(int) >= 4)

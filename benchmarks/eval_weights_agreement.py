@@ -20,7 +20,6 @@ import sys
 import warnings
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -32,6 +31,7 @@ from eval_unsupervised import _cores, _runner  # noqa: E402
 from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm import TractHMM  # noqa: E402
 from faciesseq.scheme import load_scheme  # noqa: E402
+from faciesseq.scores import balanced_tract_accuracy  # noqa: E402
 
 SCENARIOS = (
     "stacking-shoreface",
@@ -51,10 +51,8 @@ def agreement(train: CoreSet, test: CoreSet, scheme, seed: int) -> float:
         for weigh in (True, False):
             model = TractHMM(scheme=scheme, random_state=seed, weigh_evidence=weigh)
             tables.append(model.fit(train).decode(test).tracts_table())
-    a, b = tables
-    thickness = (a["base"] - a["top"]).to_numpy(float)
-    same = a["tract"].astype(str).to_numpy() == b["tract"].astype(str).to_numpy()
-    return float(np.sum(thickness * same) / np.sum(thickness))
+    a, b = tables  # the share of the thickness where one column "recalls" the other
+    return balanced_tract_accuracy(a.assign(true_tract=b["tract"].to_numpy())).accuracy
 
 
 def main() -> int:

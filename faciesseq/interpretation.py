@@ -114,17 +114,23 @@ def _thickness(beds: pd.DataFrame) -> np.ndarray:
     return (beds["base"] - beds["top"]).to_numpy(float)
 
 
-def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
-    """Parasequence-scale cycles of one core, cut as the tract model cuts them
-    (:func:`faciesseq.cycles.find_cycles`)."""
+def _upward_cycles(upward: pd.DataFrame, lengths: np.ndarray, scheme: FaciesScheme):
+    """:func:`faciesseq.cycles.find_cycles` of beds base to top (successions of
+    ``lengths`` beds), cut as the tract model cuts them, the scheme read per code."""
     from faciesseq.cycles import cycle_inputs, find_cycles
 
-    upward, lengths = _base_to_top(beds)
-    fac, codes = pd.factorize(upward["facies"].astype(str))  # the scheme read per code
+    fac, codes = pd.factorize(upward["facies"].astype(str))
     codes = list(codes)
     ranks = [scheme.rank(c) if c in scheme else np.nan for c in codes]
     r, marks, setting = cycle_inputs(fac, ranks, scheme.cycle_bases(codes), scheme.settings(codes))
-    return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting).n_cycles
+    return find_cycles(r, lengths, _thickness(upward), 1.0, marks, setting)
+
+
+def _cycle_count(beds: pd.DataFrame, scheme: FaciesScheme) -> int:
+    """Parasequence-scale cycles of one core, cut as the tract model cuts them
+    (:func:`faciesseq.cycles.find_cycles`)."""
+    upward, lengths = _base_to_top(beds)
+    return _upward_cycles(upward, lengths, scheme).n_cycles
 
 
 def bed_cycles(table: pd.DataFrame, scheme: FaciesScheme) -> np.ndarray:
@@ -135,8 +141,6 @@ def bed_cycles(table: pd.DataFrame, scheme: FaciesScheme) -> np.ndarray:
     ``table`` is :meth:`Interpretation.tracts_table` (``core, top, base, facies``,
     depth order within cores).
     """
-    from faciesseq.cycles import cycle_inputs, find_cycles
-
     if not len(table):
         return np.zeros(0, dtype=np.int64)
     up = table.iloc[::-1]  # base to top within each core
@@ -144,11 +148,7 @@ def bed_cycles(table: pd.DataFrame, scheme: FaciesScheme) -> np.ndarray:
     top, base = up["top"].to_numpy(float), up["base"].to_numpy(float)
     starts = np.flatnonzero(np.r_[True, (core[1:] != core[:-1]) | (base[1:] != top[:-1])])
     lengths = np.diff(np.r_[starts, len(up)]).astype(np.int64)
-    fac, codes = pd.factorize(up["facies"].astype(str))
-    codes = list(codes)
-    ranks = [scheme.rank(c) if c in scheme else np.nan for c in codes]
-    r, marks, setting = cycle_inputs(fac, ranks, scheme.cycle_bases(codes), scheme.settings(codes))
-    return find_cycles(r, lengths, base - top, 1.0, marks, setting).bed_cycle[::-1]
+    return _upward_cycles(up, lengths, scheme).bed_cycle[::-1]
 
 
 def tract_runs(table: pd.DataFrame, cycles: np.ndarray | None = None) -> pd.DataFrame:

@@ -657,14 +657,12 @@ class TractHMM(ExpectationMaximisation, Decoding):
             "expected_tract_changes": round(self.tract_changes_, 3),
             "cycles": round(self.n_cycles_, 3),
         }
-        weaker = type(self)(**{**self.get_params(), "weigh_evidence": 0.5})
-        weaker._fit_once(succ, labels, progress)
-        if weaker._tracts_shorter_than_cycles():
-            weaker = type(self)(**{**self.get_params(), "weigh_evidence": False})
+        for power, name in ((0.5, "square roots of the weights"), (False, "no weights")):
+            weaker = type(self)(**{**self.get_params(), "weigh_evidence": power})
             weaker._fit_once(succ, labels, progress)
-            rejected["refitted_with"] = "no weights"
-        else:
-            rejected["refitted_with"] = "square roots of the weights"
+            rejected["refitted_with"] = name
+            if not weaker._tracts_shorter_than_cycles():  # never true without weights
+                break
         self._take_fit(weaker)
         self.weights_rejected_ = rejected
 
