@@ -84,7 +84,12 @@ def make_model(scheme, mode: str, seed: int):
         from faciesseq.scheme import permissive_tract_model
 
         return _BedLevel(scheme, seed, DEFAULT_FEATURES, permissive_tract_model())
-    return TractHMM(scheme=scheme, random_state=seed, weigh_evidence=MODEL != "per-bed-evidence")
+    return TractHMM(
+        scheme=scheme,
+        random_state=seed,
+        weigh_evidence=MODEL != "per-bed-evidence",
+        nested_start=MODEL != "priors-start",
+    )
 
 
 class _BedLevel:
@@ -437,11 +442,13 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--json", type=Path, help="also write the results as JSON here")
     parser.add_argument(
         "--model",
-        choices=("default", "weighted", "per-bed-evidence", "bed-level"),
+        choices=("default", "weighted", "per-bed-evidence", "priors-start", "bed-level"),
         default="default",
-        help="the model measured: today's default (evidence weights), the same named "
-        "'weighted', the context counted once per bed (weigh_evidence=False, the default "
-        "before 2026-12-03), or the bed-level baseline",
+        help="the model measured: today's default (evidence weights, nested start), the "
+        "same named 'weighted', the context counted once per bed (weigh_evidence=False, "
+        "the default before 2026-12-03), EM started from the priors alone "
+        "(nested_start=False, the default before 2026-12-03 evening), or the bed-level "
+        "baseline",
     )
     parser.add_argument(
         "--seeds",

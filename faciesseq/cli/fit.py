@@ -242,6 +242,13 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
     )
     _print_graph(model)
     _print_weights(model, args.weigh_evidence)
+    nested = getattr(model, "nested_start_", None)
+    if nested:
+        print(
+            f"EM started from a fit without the {', '.join(nested['left_out'])} "
+            f"({' -> '.join(nested['tracts'])}), so that a thin or rare "
+            f"{' or '.join(nested['left_out'])} leaves the other tract names in place"
+        )
     chosen = table[table["selected"]].iloc[0]
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(

@@ -25,19 +25,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.hmm import engine
 from faciesseq.hmm.encoding import EncodedBeds
 
 __all__ = ["CyclePool", "calibrate_by_simulation", "resample_cycles"]
-
-
-def _tract_posteriors(model, beds: EncodedBeds) -> np.ndarray:
-    out = np.zeros((len(beds), model.states_.n_tracts))
-    for a, b, lengths, _ in model._batches(beds.lengths):
-        le = model._log_emission(model.emissions_, beds.slice(a, b, lengths))
-        post = engine.forward_backward(le, lengths, model.startprob_, model.transmat_)
-        out[a:b] = model.states_.to_tracts(post.gamma)
-    return out
 
 
 def calibrate_by_simulation(model, beds: EncodedBeds, tables, rng) -> dict:
@@ -48,7 +38,7 @@ def calibrate_by_simulation(model, beds: EncodedBeds, tables, rng) -> dict:
     probability of that tract (:func:`resample_cycles`)."""
     from faciesseq.hmm.calibration import HeldOut, fit_temperature
 
-    gamma = _tract_posteriors(model, beds)
+    gamma = model._tract_posteriors(beds)
     cycles = CyclePool.of(_cycles(model, beds), gamma)
     chosen = _simulated_lengths(beds.lengths, rng)
     pool = _pool(tables)

@@ -24,6 +24,7 @@ from faciesseq.errors import FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.emissions import EmissionPiece
 from faciesseq.hmm.encoding import EncodedBeds
+from faciesseq.hmm.nested import START_NOISE
 from faciesseq.parallel import Workers
 
 __all__ = [
@@ -127,6 +128,7 @@ class TrainingData:
     static: np.ndarray | None = None  # (T, n_tracts) log-prob of the static pieces
     trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
     combos: tuple[np.ndarray, np.ndarray] | None = None  # see ExpectationMaximisation._combos
+    start: np.ndarray | None = None  # (T, n_tracts) starting weights (faciesseq.hmm.nested)
 
     def chunk(self, start: int, stop: int, first: int, last: int) -> TrainingData:
         """Beds ``start:stop``, which are successions ``first:last``, as the data of one
@@ -426,18 +428,23 @@ class ExpectationMaximisation:
         return float(out)
 
     def _initial(self, data: TrainingData, rng: np.random.Generator, restart: int):
-        """Parameters from rule-based starting weights, perturbed per restart."""
+        """Parameters from starting weights per bed (a nested fit's posteriors, else the
+        trend rule's tracts in fits that start from it, else uniform: the priors),
+        perturbed per restart after the first."""
         S = self.states_.n_tracts
         pieces = self._new_pieces(data.beds, data.trained)
         stats = [p.empty_stats(S) for p in pieces]
         for a, b, lengths, _ in self._batches(data.beds.lengths):
             T = b - a
             weights = np.full((T, S), 1.0 / S)
-            if self.ranks_ is not None and not self._reads_context():
+            spread = 0.5
+            if data.start is not None:
+                weights, spread = data.start[a:b], START_NOISE
+            elif self.ranks_ is not None and not self._reads_context():
                 weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
             if restart > 0:
                 noise = rng.dirichlet(np.ones(S), size=T)
-                weights = 0.5 * weights + 0.5 * noise
+                weights = (1 - spread) * weights + spread * noise
             if data.clamp is not None:
                 clamp = data.clamp[a:b]
                 labelled = ~clamp.all(axis=1)

@@ -71,12 +71,14 @@ def choose_graph(model, succ: SuccessionTable, progress=None):
     params = {**model.get_params(), "graph": "fixed", "calibration_folds": 0}
     graphs = [g for g in trade_graphs(default_tract_model()) if tuple(g.skips) in CHOSEN_AMONG]
     sample = sample_successions(succ, SAMPLE_BEDS, model.random_state)
+    reduced = _nested_fit(model, sample)
     jobs = [(type(model), {**params, "tract_model": g}, sample) for g in graphs]
     if model._parallel():  # one job per graph; each fit's restarts run in turn
-        jobs = [(m, {**p, "n_jobs": 1, "scheduler": None}, s) for m, p, s in jobs]
+        serial = {"n_jobs": 1, "scheduler": None}
+        jobs = [(m, {**p, **serial}, s, None, None, reduced) for m, p, s in jobs]
         fitted_models = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
     else:
-        fitted_models = [_fit_graph(*job, progress) for job in jobs]
+        fitted_models = [_fit_graph(*job, progress, None, reduced) for job in jobs]
     rows, fits = [], []
     for graph, fitted in zip(graphs, fitted_models):
         rows.append(
@@ -129,13 +131,28 @@ def _covering(succ: SuccessionTable, keep: list[int]) -> list[int]:
     return sorted(added - set(keep))
 
 
-def _fit_graph(estimator: type, params: dict, succ: SuccessionTable, progress=None, warm=None):
+def _nested_fit(model, sample: SuccessionTable):
+    """The fit every candidate starts from (:mod:`faciesseq.hmm.nested`), made once from
+    the default tract model; None where ``model`` asks for none or it reads no stacking
+    context (its priors then name no tract)."""
+    from faciesseq.hmm.nested import fit_reduced
+
+    if not model.nested_start:
+        return None
+    reduced = fit_reduced(model, sample, default_tract_model())
+    return reduced if reduced is not None and reduced._reads_context() else None
+
+
+def _fit_graph(
+    estimator: type, params: dict, succ: SuccessionTable, progress=None, warm=None, nested=None
+):
     """One candidate of :func:`choose_graph`: an ``estimator`` (the tract model's class)
     with ``params``, fitted; with ``warm`` (the same graph fitted on a sample), one EM
-    run from its parameters instead of the restarts, where the vocabularies agree."""
+    run from its parameters instead of the restarts, where the vocabularies agree; with
+    ``nested`` (:func:`_nested_fit`), its restarts start from that fit's reading."""
     model = estimator(**params)
-    model.warm_start_ = warm
+    model.warm_start_, model.nested_from_ = warm, nested
     model._check_hyper()
     model._fit_once(succ, None, progress)  # the whole fit checks its evidence weights
-    del model.warm_start_
+    del model.warm_start_, model.nested_from_
     return model

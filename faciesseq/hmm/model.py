@@ -20,6 +20,7 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 from __future__ import annotations
 
 import copy
+import dataclasses
 import math
 import warnings
 from collections.abc import Mapping, Sequence
@@ -231,6 +232,13 @@ class TractHMM(ExpectationMaximisation, Decoding):
         (``weights_rejected_``). ``False`` counts the context once per bed (the
         default before 2026-12-03); a number in (0, 1] raises every weight to that
         power (``True`` is 1).
+    nested_start
+        In fits without labels on the stacking context: EM of the tract graph
+        starts from a fit without the regressive tracts the tract model allows to
+        be absent (its ``skips``: the FSST by default; :mod:`faciesseq.hmm.nested`),
+        so that a thin or rare falling stage does not move every tract name after
+        the TST by one place (``nested_start_`` records it). ``False`` starts from
+        the priors alone.
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 
@@ -287,6 +295,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         calibration_folds: int = 5,
         graph: str = "auto",
         weigh_evidence: bool | float = True,
+        nested_start: bool = True,
         random_state: int | np.random.Generator | None = None,
     ) -> None:
         self.tract_model = tract_model
@@ -307,6 +316,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.calibration_folds = calibration_folds
         self.graph = graph
         self.weigh_evidence = weigh_evidence
+        self.nested_start = nested_start
         self.random_state = random_state
 
     # ------------------------------------------------------------------ setup
@@ -340,6 +350,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
         w = self.weigh_evidence
         if not isinstance(w, bool) and not (isinstance(w, int | float) and 0 < w <= 1):
             raise ConfigError(f"weigh_evidence must be true, false or in (0, 1], got {w!r}")
+        if not isinstance(self.nested_start, bool):
+            raise ConfigError(f"nested_start must be true or false, got {self.nested_start!r}")
 
     def _resolve_features(
         self, tables: Sequence[pd.DataFrame], labelled: bool = False
@@ -678,10 +690,12 @@ class TractHMM(ExpectationMaximisation, Decoding):
         :meth:`fit` without its check of the evidence weights (the candidate graphs of
         :mod:`faciesseq.hmm.graphs` are fitted by this, so that their BICs compare fits
         of one kind)."""
-        self.weights_rejected_ = None
+        self.weights_rejected_ = self.nested_start_ = None
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
         data, n_labelled = self._training_data(succ, labels)
+        if labels is None:
+            data = self._with_nested_start(succ, data)
         rng = (
             self.random_state
             if isinstance(self.random_state, np.random.Generator)
@@ -705,6 +719,40 @@ class TractHMM(ExpectationMaximisation, Decoding):
         else:
             self._calibrate_without_labels(succ, rng, data.beds)
         return self
+
+    def _with_nested_start(self, succ: SuccessionTable, data: TrainingData) -> TrainingData:
+        """``data`` with the starting weights of :mod:`faciesseq.hmm.nested`: from the
+        fit handed over by :func:`~faciesseq.hmm.graphs.choose_graph` (``nested_from_``)
+        or one made here from this fit's tract model; unchanged where there is none or
+        its vocabularies are not this fit's."""
+        from faciesseq.hmm import nested
+
+        self.nested_start_ = None
+        warm = getattr(self, "warm_start_", None)
+        if warm is not None:  # one EM run from a fit on a sample, which had the start
+            self.nested_start_ = getattr(warm, "nested_start_", None)
+            return data
+        reduced = getattr(self, "nested_from_", None)
+        if reduced is None and self.nested_start and self._reads_context():
+            reduced = nested.fit_reduced(self, succ, self.tract_model_)
+        if reduced is None or not self._same_coding(reduced):
+            return data
+        self.nested_start_ = {
+            "tracts": list(reduced.tract_model_.order),
+            "left_out": [c for c in self.tract_model_.order if c not in reduced.tract_model_.order],
+            "share": nested.SHARE,
+            "log_likelihood": float(reduced.log_likelihood_),
+        }
+        start = nested.start_weights(reduced, data.beds, self.tract_model_.order)
+        return dataclasses.replace(data, start=start)
+
+    def _same_coding(self, other: TractHMM) -> bool:
+        """Whether ``other`` codes beds as this fit does (vocabularies and features)."""
+        return (
+            other.facies_ == self.facies_
+            and other.contacts_ == self.contacts_
+            and other.features_ == self.features_
+        )
 
     def _training_data(self, succ: SuccessionTable, labels) -> tuple[TrainingData, int]:
         """States, features, vocabularies and encoded beds of a fit; the number of
@@ -800,13 +848,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         fit's; else None (the fit runs its restarts)."""
         if other is None:
             return None
-        same = (
-            other.facies_ == self.facies_
-            and other.contacts_ == self.contacts_
-            and other.features_ == self.features_
-            and other.states_.labels() == self.states_.labels()
-        )
-        if not same:
+        if not (self._same_coding(other) and other.states_.labels() == self.states_.labels()):
             return None
         pieces, startprob, transmat = copy.deepcopy(
             (other.emissions_, other.startprob_, other.transmat_)
@@ -871,6 +913,16 @@ class TractHMM(ExpectationMaximisation, Decoding):
             le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
             post = engine.forward_backward(le, lengths, self.startprob_, self.transmat_)
             out[first : first + len(lengths)] = post.log_likelihood
+        return out
+
+    def _tract_posteriors(self, beds: EncodedBeds) -> np.ndarray:
+        """``(beds, n_tracts)`` posterior of each tract at the fitted parameters
+        (untempered), batch by batch."""
+        out = np.empty((len(beds), self.states_.n_tracts))
+        for a, b, lengths, _ in self._batches(beds.lengths):
+            le = self._log_emission(self.emissions_, beds.slice(a, b, lengths))
+            post = engine.forward_backward(le, lengths, self.startprob_, self.transmat_)
+            out[a:b] = self.states_.to_tracts(post.gamma)
         return out
 
     def score(self, successions) -> float:

@@ -11,7 +11,7 @@ and loading one runs no code. Layout (``version: 1``)::
       "tract_model": {...},              # tracts, order, skips, surfaces, substates
       "hyperparameters": {features, substates, prior_strength, cycle_prior,
                           n_restarts, tol, max_iter, unit, step,
-                          calibration_folds, weigh_evidence},
+                          calibration_folds, weigh_evidence, nested_start},
       "states": {"labels": [...], "tract": [...], "substates": [...]},
       "facies": [...], "ranks": [...] | null, "contacts": [...],
       "parameters": {"startprob": [...], "transmat": [[...]...],
@@ -149,6 +149,8 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
     }
     if getattr(model, "weights_rejected_", None):
         training["evidence_weights_rejected"] = model.weights_rejected_
+    if getattr(model, "nested_start_", None):
+        training["nested_start"] = model.nested_start_
     run = {"created": datetime.now(UTC).isoformat(timespec="seconds")}
     for key, value in dict(provenance or {}).items():
         (run if key in RUN_KEYS else training)[key] = value
@@ -171,6 +173,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "step": model.step,
                 "calibration_folds": model.calibration_folds,
                 "weigh_evidence": bool(model.weigh_evidence),
+                "nested_start": bool(model.nested_start),
             },
             "states": {
                 "labels": states.labels(),
@@ -263,6 +266,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.restarts_ = list(training.get("restarts", []))
     model.graph_selection_ = list(training.get("graph_selection", []))
     model.weights_rejected_ = training.get("evidence_weights_rejected")
+    model.nested_start_ = training.get("nested_start")
     model.best_restart_ = int(training.get("best_restart") or 0)
     history = []
     if model.best_restart_ < len(model.restarts_):
@@ -322,8 +326,10 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
         states = StateSpace.build(tract_model, substates)
         features = tuple(str(f) for f in hyper["features"])
         weigh = hyper.get("weigh_evidence", False)  # files made before it: unweighted
-        if not isinstance(weigh, bool):
-            raise ValueError(f"weigh_evidence {weigh!r} is not true or false")
+        nested = hyper.get("nested_start", False)  # files made before it: no nested start
+        for name, value in (("weigh_evidence", weigh), ("nested_start", nested)):
+            if not isinstance(value, bool):
+                raise ValueError(f"{name} {value!r} is not true or false")
         model = TractHMM(
             tract_model=tract_model,
             scheme=scheme,
@@ -338,6 +344,7 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
             step=None if hyper["step"] is None else float(hyper["step"]),
             calibration_folds=int(hyper.get("calibration_folds", 0)),
             weigh_evidence=weigh,
+            nested_start=nested,
         )
     except (KeyError, TypeError, ValueError, ConfigError) as exc:
         raise ModelFileError(f"invalid hyper-parameters or states ({exc})", file=source) from None
@@ -412,6 +419,7 @@ _TRAINING_TYPES = {
     "restarts": list,
     "graph_selection": list,
     "evidence_weights_rejected": dict,
+    "nested_start": dict,
 }  # "calibration" may be anything: the report says when it is not a record
 
 

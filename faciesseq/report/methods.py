@@ -113,6 +113,32 @@ def _weights_text(model: Any) -> str | None:
     return None
 
 
+#: References of the nested start (:mod:`faciesseq.hmm.nested`), given from memory.
+NESTED_REFERENCES = (
+    "Ueda, N., Nakano, R., Ghahramani, Z. & Hinton, G. E. (2000). SMEM algorithm for "
+    "mixture models. Neural Computation 12, 2109–2128.",
+)
+
+
+def _nested_text(model: Any) -> str | None:
+    """How EM started where it started from a fit without some tracts; else ``None``."""
+    nested = getattr(model, "nested_start_", None)
+    if not isinstance(nested, dict):
+        return None
+    left_out = ", ".join(str(c) for c in nested.get("left_out", ()))
+    kept = " → ".join(str(c) for c in nested.get("tracts", ()))
+    return (
+        f"EM did not start from the priors alone: the model was first fitted without the "
+        f"{left_out}, the tract the trade allows to be absent ({kept}), and EM of the full "
+        f"graph started from that fit's tract posteriors, the {left_out} taking "
+        f"{float(nested.get('share', 0)):.0%} of the posteriors of the tracts on either side "
+        "of it. Without this start, a thin or rare falling stage let EM spend its state on "
+        "part of another tract, and the tracts named after it by their order moved by one "
+        "place; the likelihood alone did not tell the two readings apart. Starting a larger "
+        "model from a fitted smaller one is common practice in EM (e.g. Ueda et al. 2000)."
+    )
+
+
 #: How a fit on the stacking context reads the cores (replaces the bed-level sentence).
 CONTEXT_TEXT = (
     "The model was fitted on the stacking of parasequence-scale cycles (Van Wagoner et al. "
@@ -173,12 +199,17 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     weights = _weights_text(model)
     if context and weights:
         hmm.add(Paragraph(weights))
+    nested = _nested_text(model)
+    if context and nested:
+        hmm.add(Paragraph(nested))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
-    extra = (CONTEXT_REFERENCES if context or boot else ()) + (
-        WEIGHT_REFERENCES if context and weights else ()
+    extra = (
+        (CONTEXT_REFERENCES if context or boot else ())
+        + (WEIGHT_REFERENCES if context and weights else ())
+        + (NESTED_REFERENCES if context and nested else ())
     )
     for ref in REFERENCES + extra:
         refs.add(Paragraph(ref))
