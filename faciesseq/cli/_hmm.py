@@ -80,6 +80,14 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         "or window once (the default), or with --no-weigh-evidence once per bed "
         "(docs/hmm.md, 'Evidence counted once')",
     )
+    group.add_argument(
+        "--nested-start",
+        action=argparse.BooleanOptionalAction,
+        default=True,
+        help="without labels: start EM from a fit without the FSST, so that a thin or "
+        "rare falling stage does not move the other tract names (the default), or with "
+        "--no-nested-start from the priors alone (docs/hmm.md, 'The nested start')",
+    )
 
 
 def weigh_evidence(args: argparse.Namespace) -> bool:

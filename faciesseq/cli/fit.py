@@ -152,6 +152,7 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
                 scheduler=parallel[1],
                 calibration_folds=args.calibration_folds,
                 weigh_evidence=weigh_evidence(args),
+                nested_start=args.nested_start,
                 random_state=args.seed,
             )
         finally:

@@ -194,6 +194,7 @@ def run(args: argparse.Namespace) -> int:
                 scheduler=scheduler,
                 calibration_folds=args.calibration_folds,
                 weigh_evidence=weigh_evidence(args),
+                nested_start=args.nested_start,
             )
         finally:
             progress.close()
