@@ -19,6 +19,12 @@ from a fitted smaller one and splitting states is common practice in EM (e.g.
 the mixture splitting of speech recognisers, Young et al., The HTK Book;
 the split moves of Ueda et al. 2000, Neural Computation 12:2109-2128; both from
 memory). Written here because no library fits these models.
+
+It fails the other way where the TST is often missing: the reduced fit must still
+find a transgression in every cycle and spends that state on the lowstands
+(``configs/stacking-missing-transgression.yaml``; ``benchmarks/tract_model.md``,
+"What the nested start costs"). ``TractHMM(nested_start=False)`` and ``faciesseq
+fit --no-nested-start`` start from the priors alone.
 """
 
 from __future__ import annotations
