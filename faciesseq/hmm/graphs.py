@@ -29,7 +29,14 @@ from faciesseq.core import SuccessionTable
 from faciesseq.parallel import run_jobs
 from faciesseq.scheme import TractModel, default_tract_model
 
-__all__ = ["CHOSEN_AMONG", "SAMPLE_BEDS", "choose_graph", "sample_successions", "trade_graphs"]
+__all__ = [
+    "CHOSEN_AMONG",
+    "SAMPLE_BEDS",
+    "choose_graph",
+    "sample_successions",
+    "trade_graphs",
+    "with_allowed_surfaces",
+]
 
 #: The skips of the graphs an unlabelled fit chooses among (see the module docstring).
 CHOSEN_AMONG = ((), ("FSST",), ("TST",))
@@ -52,14 +59,23 @@ def trade_graphs(tract_model: TractModel) -> list[TractModel]:
     for skips in ((), ("FSST",), ("TST",), ("FSST", "TST")):
         if not set(skips) <= set(tract_model.order):
             continue
-        graph = replace(tract_model, skips=skips)
-        allowed = graph.allowed()
-        index = {c: i for i, c in enumerate(graph.order)}
-        surfaces = tuple(
-            sf for sf in tract_model.surfaces if allowed[index[sf.lower]][index[sf.upper]]
-        )
-        out.append(replace(graph, surfaces=surfaces))
+        out.append(with_allowed_surfaces(replace(tract_model, skips=skips)))
     return out
+
+
+def with_allowed_surfaces(graph: TractModel) -> TractModel:
+    """``graph`` keeping only the surfaces of boundaries it allows between its own
+    tracts (a skip or a left-out tract makes others impossible)."""
+    from dataclasses import replace
+
+    allowed = graph.allowed()
+    index = {c: i for i, c in enumerate(graph.order)}
+    surfaces = tuple(
+        sf
+        for sf in graph.surfaces
+        if sf.lower in index and sf.upper in index and allowed[index[sf.lower]][index[sf.upper]]
+    )
+    return replace(graph, surfaces=surfaces)
 
 
 def choose_graph(model, succ: SuccessionTable, progress=None):

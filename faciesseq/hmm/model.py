@@ -727,7 +727,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
         its vocabularies are not this fit's."""
         from faciesseq.hmm import nested
 
-        self.nested_start_ = None
         warm = getattr(self, "warm_start_", None)
         if warm is not None:  # one EM run from a fit on a sample, which had the start
             self.nested_start_ = getattr(warm, "nested_start_", None)

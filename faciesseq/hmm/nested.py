@@ -51,20 +51,20 @@ def reduced_tract_model(tract_model: TractModel) -> TractModel | None:
     where there is no such tract or fewer than two tracts would be left."""
     from dataclasses import replace
 
+    from faciesseq.hmm.graphs import with_allowed_surfaces
+
     left_out = {c for c in tract_model.skips if tract_model.tract(c).trend != "deepening"}
     order = tuple(c for c in tract_model.order if c not in left_out)
     if not left_out or len(order) < 2:
         return None
-    follows = {c: order[(i + 1) % len(order)] for i, c in enumerate(order)}
-    surfaces = tuple(s for s in tract_model.surfaces if follows.get(s.lower) == s.upper)
-    return replace(
+    reduced = replace(
         tract_model,
         tracts=tuple(t for t in tract_model.tracts if t.code in order),
         order=order,
         skips=(),
-        surfaces=surfaces,
         substates={c: n for c, n in tract_model.substates.items() if c in order},
     )
+    return with_allowed_surfaces(reduced)
 
 
 def fit_reduced(model, succ, tract_model: TractModel):
