@@ -111,11 +111,14 @@ def test_unlabelled_fit_reads_the_context_with_a_strict_graph(fitted):
     assert "cycle_stacking" in model.features_ and "facies_trend" not in model.features_
     assert len(model.tract_model_.skips) <= 1
     rows = model.graph_selection_
-    # candidates: no skip, FSST, TST; never both (HST and LST would trade beds freely)
-    assert [r["skips"] for r in rows] == [[], ["FSST"], ["TST"]]
+    # candidates: no skip, FSST, TST; never both (HST and LST would trade beds freely);
+    # each from the nested start and from the priors alone (faciesseq.hmm.nested)
+    assert [r["skips"] for r in rows] == [[], ["FSST"], ["TST"]] * 2
+    assert [r["start"] for r in rows] == ["nested"] * 3 + ["priors"] * 3
     assert sum(r["selected"] for r in rows) == 1
-    chosen = min(rows, key=lambda r: r["bic"])
-    assert chosen["selected"] and chosen["skips"] == list(model.tract_model_.skips)
+    (chosen,) = [r for r in rows if r["selected"]]
+    assert chosen["bic"] == min(r["bic"] for r in rows if r["start"] == chosen["start"])
+    assert chosen["skips"] == list(model.tract_model_.skips)
 
 
 def test_a_large_database_chooses_its_graph_on_a_sample_of_whole_cores(monkeypatch):

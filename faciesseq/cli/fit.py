@@ -200,9 +200,10 @@ def _print_graph(model) -> None:
             )
         print(f"tract graph: {' -> '.join(model.tract_model_.order)}, cyclic; skips: {skips}{why}")
         return
-    best = min(r["bic"] for r in rows)
+    kept = next(r for r in rows if r["selected"])
+    rows = [r for r in rows if r.get("start") == kept.get("start")]  # the kept start's
     others = "; ".join(
-        f"{', '.join(r['skips']) or 'none'} +{r['bic'] - best:.1f}"
+        f"{', '.join(r['skips']) or 'none'} +{r['bic'] - kept['bic']:.1f}"
         for r in rows
         if not r["selected"]
     )
@@ -250,6 +251,8 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
             f"({' -> '.join(nested['tracts'])}), so that a thin or rare "
             f"{' or '.join(nested['left_out'])} leaves the other tract names in place"
         )
+        if "kept" in nested:
+            print(_kept_start(nested))
     chosen = table[table["selected"]].iloc[0]
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(
@@ -258,6 +261,23 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"{best['n_iter']} iterations, {converged}"
     )
     print(describe_calibration(model.temperature_, model.calibration_))
+
+
+def _kept_start(nested: dict) -> str:
+    """Which start the fit kept, and why (:func:`faciesseq.hmm.nested.kept_start`)."""
+    deep = nested.get("tst_deepening") or {}
+    scores = (
+        f"TST deepening score {deep['priors']:.2f} from the priors alone, "
+        f"{deep['nested']:.2f} nested"
+        if None not in (deep.get("nested"), deep.get("priors"))
+        else "TST deepening scores not known"
+    )
+    if nested["kept"] == "priors":
+        return (
+            f"kept the fit from the priors alone, whose TST deepens upward more clearly "
+            f"({scores}), as where the TST is missing from many cycles"
+        )
+    return f"kept the nested fit over the one from the priors alone ({scores})"
 
 
 def _durations(model, interp, scheme) -> dict[str, dict]:

@@ -82,39 +82,73 @@ def choose_graph(model, succ: SuccessionTable, progress=None):
     """Fit ``model``'s settings on the graphs of :func:`trade_graphs` with the
     skips of :data:`CHOSEN_AMONG` (no calibration) and return the fitted model of
     the lowest BIC with the table of candidates (``skips``, ``log_likelihood``,
-    ``n_parameters``, ``bic``, ``selected``). The candidates are independent jobs
-    (:mod:`faciesseq.parallel`)."""
+    ``n_parameters``, ``bic``, ``selected``; ``start`` where there are two). With a
+    nested start (:mod:`faciesseq.hmm.nested`) every graph is fitted from it and
+    from the priors alone, the lowest BIC of each start is taken, and
+    :func:`~faciesseq.hmm.nested.kept_start` chooses between the two. The
+    candidates are independent jobs (:mod:`faciesseq.parallel`)."""
     params = {**model.get_params(), "graph": "fixed", "calibration_folds": 0}
     graphs = [g for g in trade_graphs(default_tract_model()) if tuple(g.skips) in CHOSEN_AMONG]
     sample = sample_successions(succ, SAMPLE_BEDS, model.random_state)
     reduced = _nested_fit(model, sample)
-    jobs = [(type(model), {**params, "tract_model": g}, sample) for g in graphs]
-    if model._parallel():  # one job per graph; each fit's restarts run in turn
+    starts = {None: None} if reduced is None else {"nested": reduced, "priors": None}
+    cases = [(kind, g) for kind in starts for g in graphs]
+    jobs = [
+        (type(model), {**params, "tract_model": g, **_start_params(kind)}, sample)
+        for kind, g in cases
+    ]
+    if model._parallel():  # one job per candidate; each fit's restarts run in turn
         serial = {"n_jobs": 1, "scheduler": None}
-        jobs = [(m, {**p, **serial}, s, None, None, reduced) for m, p, s in jobs]
-        fitted_models = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
+        jobs = [
+            (m, {**p, **serial}, s, None, None, starts[k]) for (m, p, s), (k, _) in zip(jobs, cases)
+        ]
+        fits = run_jobs(_fit_graph, jobs, model.n_jobs, model.scheduler)
     else:
-        fitted_models = [_fit_graph(*job, progress, None, reduced) for job in jobs]
-    rows, fits = [], []
-    for graph, fitted in zip(graphs, fitted_models):
-        rows.append(
-            {
-                "skips": list(graph.skips),
-                "log_likelihood": fitted.log_likelihood_,
-                "n_parameters": fitted.n_parameters(),
-                "bic": fitted.bic(),
-            }
-        )
-        fits.append(fitted)
-    best = int(np.argmin([r["bic"] for r in rows]))
+        fits = [_fit_graph(*job, progress, None, starts[k]) for job, (k, _) in zip(jobs, cases)]
+    rows = [_candidate_row(graph, fitted, kind) for (kind, graph), fitted in zip(cases, fits)]
+    best = _lowest_bic(rows, fits, cases)
     n_sample = int(sample.lengths.sum())
     for k, row in enumerate(rows):
         row["selected"] = k == best
         row["n_beds"] = n_sample
     if len(sample) < len(succ):  # the chosen graph on every bed, from the sample's fit
-        chosen = {**params, "tract_model": graphs[best]}
+        chosen = {**params, "tract_model": cases[best][1]}
         fits[best] = _fit_graph(type(model), chosen, succ, progress, warm=fits[best])
     return fits[best], rows
+
+
+def _start_params(kind: str | None) -> dict:
+    """Settings of a candidate of one start: from the priors alone, or as asked."""
+    return {"nested_start": False} if kind == "priors" else {}
+
+
+def _candidate_row(graph: TractModel, fitted, kind: str | None) -> dict:
+    return {
+        "skips": list(graph.skips),
+        **({"start": kind} if kind else {}),
+        "log_likelihood": fitted.log_likelihood_,
+        "n_parameters": fitted.n_parameters(),
+        "bic": fitted.bic(),
+    }
+
+
+def _lowest_bic(rows: list[dict], fits: list, cases: list) -> int:
+    """Index of the candidate kept: the lowest BIC, of each start where there are two,
+    and between those the fit :func:`~faciesseq.hmm.nested.kept_start` keeps (its
+    record in the kept fit's ``nested_start_``)."""
+    from faciesseq.hmm.nested import kept_start
+
+    best = {}
+    for k, ((kind, _), row) in enumerate(zip(cases, rows)):
+        if kind not in best or row["bic"] < rows[best[kind]]["bic"]:
+            best[kind] = k
+    if set(best) != {"nested", "priors"}:
+        return next(iter(best.values()))
+    nested, priors = fits[best["nested"]], fits[best["priors"]]
+    record = {**(nested.nested_start_ or {}), **kept_start(nested, priors)}
+    kept = fits[best[record["kept"]]]
+    kept.nested_start_ = record
+    return best[record["kept"]]
 
 
 def sample_successions(succ: SuccessionTable, n_beds: int, seed) -> SuccessionTable:

@@ -237,8 +237,10 @@ class TractHMM(ExpectationMaximisation, Decoding):
         starts from a fit without the regressive tracts the tract model allows to
         be absent (its ``skips``: the FSST by default; :mod:`faciesseq.hmm.nested`),
         so that a thin or rare falling stage does not move every tract name after
-        the TST by one place (``nested_start_`` records it). ``False`` starts from
-        the priors alone.
+        the TST by one place (``nested_start_`` records it). Graph choice also fits
+        every candidate from the priors alone and keeps that fit where its TST
+        deepens clearly more (:func:`faciesseq.hmm.nested.kept_start`). ``False``
+        starts from the priors alone.
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 

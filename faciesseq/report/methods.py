@@ -127,7 +127,7 @@ def _nested_text(model: Any) -> str | None:
         return None
     left_out = ", ".join(str(c) for c in nested.get("left_out", ()))
     kept = " → ".join(str(c) for c in nested.get("tracts", ()))
-    return (
+    text = (
         f"EM did not start from the priors alone: the model was first fitted without the "
         f"{left_out}, the tract the trade allows to be absent ({kept}), and EM of the full "
         f"graph started from that fit's tract posteriors, the {left_out} taking "
@@ -136,6 +136,25 @@ def _nested_text(model: Any) -> str | None:
         "part of another tract, and the tracts named after it by their order moved by one "
         "place; the likelihood alone did not tell the two readings apart. Starting a larger "
         "model from a fitted smaller one is common practice in EM (e.g. Ueda et al. 2000)."
+    )
+    return text if "kept" not in nested else f"{text} {_kept_text(nested)}"
+
+
+def _kept_text(nested: dict) -> str:
+    """The comparison with the fit from the priors alone, and which fit was kept."""
+    deep = nested.get("tst_deepening") or {}
+    scores = (
+        f" (TST deepening score {deep['priors']:.2f} from the priors, {deep['nested']:.2f} nested)"
+        if None not in (deep.get("nested"), deep.get("priors"))
+        else ""
+    )
+    which = "the fit from the priors" if nested["kept"] == "priors" else "the nested fit"
+    return (
+        "Every candidate graph was also fitted from the priors alone, and the lowest-BIC fit "
+        "of those was to be kept instead where its TST deepens upward more clearly (a score "
+        f"higher by over {float(nested.get('margin', 0.25)):.2f}): where the TST is missing "
+        "from many cycles the fit without the FSST must still find a transgression in each "
+        f"and reads the lowstands as one. Here {which} was kept{scores}."
     )
 
 
