@@ -1,8 +1,10 @@
-"""Cores of the parasequence-stacking generator without their tracts, and the
-balanced accuracy of a fitted model's tract column on them (shared by the tests of
-the starts of EM)."""
+"""Cores of the parasequence-stacking generator without their tracts, fits on them,
+the balanced accuracy of a fitted model's tract column and its methods text (shared
+by the tests of the starts of EM)."""
 
 from __future__ import annotations
+
+import warnings
 
 import pandas as pd
 
@@ -35,3 +37,26 @@ def balanced_accuracy(model, test: pd.DataFrame) -> float:
         tract.append(inside["tract"].iloc[0] if len(inside) else None)
     scored = test.assign(tract=tract).dropna(subset=["tract"])
     return balanced_tract_accuracy(scored).balanced_accuracy
+
+
+def fit_quietly(scenario, table: pd.DataFrame, seed: int, **settings):
+    """A ``TractHMM`` of ``scenario``'s scheme fitted without labels on ``table``
+    (``random_state=seed``), its warnings silenced."""
+    from faciesseq.hmm import TractHMM
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return TractHMM(scheme=scenario.scheme, random_state=seed, **settings).fit(
+            CoreSet.from_frame(table, units="m")
+        )
+
+
+def methods_text(model) -> str:
+    """The text of the appendix's methods section for ``model`` (a beds fit)."""
+    from faciesseq.report.methods import methods_section
+
+    def text(section) -> str:
+        blocks = [getattr(b, "text", "") for b in section.blocks]
+        return " ".join(blocks + [text(sub) for sub in section.subsections])
+
+    return text(methods_section("beds", model))

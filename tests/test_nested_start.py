@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from _stacking import balanced_accuracy, stacking_table
+from _stacking import balanced_accuracy, fit_quietly, methods_text, stacking_table
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
@@ -40,11 +40,7 @@ def _table(seeds) -> pd.DataFrame:
 
 
 def _fit(table: pd.DataFrame, **settings) -> TractHMM:
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        return TractHMM(scheme=SCENARIO.scheme, random_state=0, **settings).fit(
-            CoreSet.from_frame(table, units="m")
-        )
+    return fit_quietly(SCENARIO, table, 0, **settings)
 
 
 @pytest.fixture(scope="module")
@@ -144,7 +140,6 @@ def test_a_rare_falling_stage_leaves_the_other_tract_names_in_place(rare):
 
 def test_fit_and_the_appendix_methods_say_where_em_started(rare, tmp_path, capsys):
     from faciesseq.cli import main
-    from faciesseq.report.methods import methods_section
 
     train, _, _ = rare
     source = tmp_path / "cores.csv"
@@ -154,15 +149,11 @@ def test_fit_and_the_appendix_methods_say_where_em_started(rare, tmp_path, capsy
     assert main(["fit", str(source), "--scheme", str(scheme), "-o", str(out)]) == 0
     assert "EM started from a fit without the FSST (HST -> LST -> TST)" in (capsys.readouterr().out)
 
-    def text(section) -> str:
-        blocks = [getattr(b, "text", "") for b in section.blocks]
-        return " ".join(blocks + [text(sub) for sub in section.subsections])
-
-    described = text(methods_section("beds", load_model(out)))
+    described = methods_text(load_model(out))
     assert "the model was first fitted without the FSST" in described
     assert "Ueda, N., Nakano, R., Ghahramani, Z. & Hinton, G. E. (2000)" in described
     plain = _fit(train, nested_start=False)
-    assert "first fitted without" not in text(methods_section("beds", plain))
+    assert "first fitted without" not in methods_text(plain)
     argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(out), "--force"]
     assert main([*argv, "--no-nested-start"]) == 0
     assert "EM started from" not in capsys.readouterr().out

@@ -15,15 +15,13 @@ parasequence-stacking generator with the TST missing from half the sequences
 from __future__ import annotations
 
 import json
-import warnings
 from pathlib import Path
 from types import SimpleNamespace
 
 import pandas as pd
 import pytest
-from _stacking import balanced_accuracy, stacking_table
+from _stacking import balanced_accuracy, fit_quietly, methods_text, stacking_table
 
-from faciesseq.core import CoreSet
 from faciesseq.hmm import TractHMM, nested
 from faciesseq.hmm.identity import deepening_scores
 from faciesseq.hmm.modelfile import load_model, save_model
@@ -39,11 +37,7 @@ def _table(seeds) -> pd.DataFrame:
 
 
 def _fit(table: pd.DataFrame, **settings) -> TractHMM:
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        return TractHMM(scheme=SCENARIO.scheme, random_state=121, **settings).fit(
-            CoreSet.from_frame(table, units="m")
-        )
+    return fit_quietly(SCENARIO, table, 121, **settings)
 
 
 @pytest.fixture(scope="module")
@@ -114,7 +108,6 @@ def test_a_missing_transgression_is_read_from_the_priors_run(missing):
 
 def test_fit_reports_the_run_it_kept(missing, tmp_path, capsys):
     from faciesseq.cli import main
-    from faciesseq.report.methods import methods_section
 
     train, _, _ = missing
     source = tmp_path / "cores.csv"
@@ -126,10 +119,6 @@ def test_fit_reports_the_run_it_kept(missing, tmp_path, capsys):
     printed = capsys.readouterr().out
     assert "kept the fit from the priors alone, whose TST deepens upward more" in printed
 
-    def text(section) -> str:
-        blocks = [getattr(b, "text", "") for b in section.blocks]
-        return " ".join(blocks + [text(sub) for sub in section.subsections])
-
-    described = text(methods_section("beds", load_model(out)))
+    described = methods_text(load_model(out))
     assert "Every candidate graph was also fitted from the priors alone" in described
     assert "Here the fit from the priors was kept (TST deepening score" in described
