@@ -106,7 +106,7 @@ def choose_graph(model, succ: SuccessionTable, progress=None):
     else:
         fits = [_fit_graph(*job, progress, None, starts[k]) for job, (k, _) in zip(jobs, cases)]
     rows = [_candidate_row(graph, fitted, kind) for (kind, graph), fitted in zip(cases, fits)]
-    best = _lowest_bic(rows, fits, cases)
+    best = _kept_candidate(rows, fits, cases)
     n_sample = int(sample.lengths.sum())
     for k, row in enumerate(rows):
         row["selected"] = k == best
@@ -132,7 +132,7 @@ def _candidate_row(graph: TractModel, fitted, kind: str | None) -> dict:
     }
 
 
-def _lowest_bic(rows: list[dict], fits: list, cases: list) -> int:
+def _kept_candidate(rows: list[dict], fits: list, cases: list) -> int:
     """Index of the candidate kept: the lowest BIC, of each start where there are two,
     and between those the fit :func:`~faciesseq.hmm.nested.kept_start` keeps (its
     record in the kept fit's ``nested_start_``)."""

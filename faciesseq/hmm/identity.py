@@ -24,10 +24,16 @@ from faciesseq.hmm.context import CONTEXT_BINS, ContextEmission, bin_centres
 from faciesseq.hmm.emissions import CategoricalEmission, EmissionPiece
 from faciesseq.hmm.states import StateSpace
 
-__all__ = ["deepening_scores", "turn"]
+__all__ = ["deepening_scores", "deepening_tracts", "turn"]
 
 #: Context features whose larger values mean deepening upward.
 DEEPENING_FEATURES = ("trend", "cycle_stacking")
+
+
+def deepening_tracts(tract_model) -> list[int]:
+    """Indices, in ``tract_model.order``, of the tracts whose trend is deepening upward
+    (the TST alone in the trade's tract model)."""
+    return [i for i, c in enumerate(tract_model.order) if tract_model.tract(c).trend == "deepening"]
 
 
 def deepening_scores(pieces: Sequence[EmissionPiece], n_tracts: int) -> np.ndarray | None:

@@ -599,10 +599,9 @@ class TractHMM(ExpectationMaximisation, Decoding):
         the best one round the cycle and run EM again from there (an extra run, the
         only one marked). Fits without context pieces, or with other than one
         deepening tract, are left as they are."""
-        from faciesseq.hmm.identity import deepening_scores, turn
+        from faciesseq.hmm.identity import deepening_scores, deepening_tracts, turn
 
-        tm = self.tract_model_
-        deep = [i for i, t in enumerate(tm.order) if tm.tract(t).trend == "deepening"]
+        deep = deepening_tracts(self.tract_model_)
         scores = [deepening_scores(r["pieces"], self.states_.n_tracts) for r in runs]
         if len(deep) != 1 or any(s is None for s in scores) or data.clamp is not None:
             return runs

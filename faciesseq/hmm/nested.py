@@ -26,11 +26,10 @@ find a transgression in every cycle and spends that state on the lowstands
 "What the nested start costs"), and its transgressive tract then deepens less
 upward than the one a fit from the priors finds. So graph choice
 (:func:`faciesseq.hmm.graphs.choose_graph`) fits its candidates from the priors
-alone as well, and :func:`kept_start` keeps the best of those where its TST
-deepens clearly more
-(:data:`PRIORS_MARGIN`): the trade names the TST by its deepening-upward stacking
-(Catuneanu et al. 2009), so a reading whose TST deepens less has found the
-transgression less well. ``TractHMM(nested_start=False)`` and ``faciesseq fit
+alone as well, and :func:`kept_start` keeps the lowest-BIC of those where its
+TST deepens clearly more (:data:`PRIORS_MARGIN`): the trade names the TST by its
+deepening-upward stacking (Catuneanu et al. 2009), so a reading whose TST deepens
+less has found the transgression less well. ``TractHMM(nested_start=False)`` and ``faciesseq fit
 --no-nested-start`` start from the priors alone.
 """
 
@@ -58,9 +57,9 @@ SHARE = 0.25
 #: Weight of the random part of the starting weights of restarts after the first
 #: (a random start would lose the nested reading it is there to keep).
 START_NOISE = 0.2
-#: How much more the TST of the best run from the priors alone must deepen (the
-#: score of :func:`faciesseq.hmm.identity.deepening_scores`) than that of the best
-#: nested run for it to be kept. Set on 18 fits of known tracts, then checked on 42
+#: How much more the TST of the lowest-BIC fit from the priors alone must deepen (the
+#: score of :func:`faciesseq.hmm.identity.deepening_scores`) than that of the
+#: lowest-BIC nested fit for it to be kept. Set on 18 fits of known tracts, then checked on 42
 #: fits of seeds never looked at (``benchmarks/tract_model.md``, "Two starts").
 PRIORS_MARGIN = 0.25
 
@@ -135,10 +134,9 @@ def tst_deepening(model) -> float | None:
     """How much the fitted TST of ``model`` deepens upward: its score of
     :func:`faciesseq.hmm.identity.deepening_scores` (``None`` where the model has
     no deepening pieces or not one deepening tract)."""
-    from faciesseq.hmm.identity import deepening_scores
+    from faciesseq.hmm.identity import deepening_scores, deepening_tracts
 
-    tm = model.tract_model_
-    deep = [i for i, c in enumerate(tm.order) if tm.tract(c).trend == "deepening"]
+    deep = deepening_tracts(model.tract_model_)
     scores = deepening_scores(model.emissions_, model.states_.n_tracts)
     return None if scores is None or len(deep) != 1 else float(scores[deep[0]])
 
