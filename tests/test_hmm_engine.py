@@ -565,6 +565,27 @@ def test_code_table_equals_the_full_array_across_calls(case):
         lean.to_frame(lengths)
 
 
+def test_a_code_index_keeps_the_sums_of_plain_codes(case):
+    # EM calls the recursions on the same beds every iteration; a CodeIndex keeps the
+    # per-code summing matrices between calls. Its sums must be those of plain codes,
+    # bit for bit, on repeated calls, with another batch size and with other lengths.
+    startprob, transmat, emission, lengths, symbols, _ = case
+    table = np.log(emission).T.copy()
+    index = engine.CodeIndex(symbols)
+    for batch in (None, None, 37, None):
+        ref = forward_backward(table, lengths, startprob, transmat, codes=symbols, batch_size=batch)
+        post = forward_backward(table, lengths, startprob, transmat, codes=index, batch_size=batch)
+        np.testing.assert_array_equal(post.code_gamma, ref.code_gamma)
+        np.testing.assert_array_equal(post.log_likelihood, ref.log_likelihood)
+        np.testing.assert_array_equal(post.xi_sum, ref.xi_sum)
+    other = np.asarray(lengths)[::-1]  # the same rows cut into other sequences
+    ref = forward_backward(table, other, startprob, transmat, codes=symbols)
+    post = forward_backward(table, other, startprob, transmat, codes=index)
+    np.testing.assert_array_equal(post.code_gamma, ref.code_gamma)
+    with pytest.raises(InputError, match="expected 0"):
+        forward_backward(table[:1], lengths, startprob, transmat, codes=index)
+
+
 def test_bad_codes_are_reported():
     pi, A = np.array([0.5, 0.5]), np.array([[0.5, 0.5], [0.5, 0.5]])
     table = np.log([[0.5, 0.5], [0.9, 0.1]])

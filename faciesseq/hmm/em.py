@@ -129,6 +129,7 @@ class TrainingData:
     trained: Mapping[str, EmissionPiece] = field(default_factory=dict)  # static, by feature
     combos: tuple[np.ndarray, np.ndarray] | None = None  # see ExpectationMaximisation._combos
     start: np.ndarray | None = None  # (T, n_tracts) starting weights (faciesseq.hmm.nested)
+    code_index: engine.CodeIndex | None = None  # the combinations' codes, made by the E-step
 
     def chunk(self, start: int, stop: int, first: int, last: int) -> TrainingData:
         """Beds ``start:stop``, which are successions ``first:last``, as the data of one
@@ -335,6 +336,8 @@ class ExpectationMaximisation:
         :meth:`_e_step`, summed in another order. Why: measured, the per-bed
         emissions and statistics were half of every EM iteration."""
         combos, inverse = self._combos(pieces, data)
+        if data.code_index is None:
+            data.code_index = engine.CodeIndex(inverse)
         S = self.states_.n_tracts
         table = np.zeros((len(combos), S))
         for j, p in enumerate(pieces):
@@ -345,7 +348,7 @@ class ExpectationMaximisation:
                 data.beds.lengths,
                 startprob,
                 transmat,
-                codes=inverse,
+                codes=data.code_index,
                 return_gamma=False,
             )
         except InputError as exc:
