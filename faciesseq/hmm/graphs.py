@@ -44,8 +44,12 @@ CHOSEN_AMONG = ((), ("FSST",), ("TST",))
 #: Above this many beds the graph is chosen on a sample of whole successions of
 #: about this many beds, and only the chosen graph is fitted on every bed: BIC
 #: tells the candidates apart long before (its differences grow with the beds),
-#: and fitting three graphs on a whole company database would triple the EM.
-SAMPLE_BEDS = 50_000
+#: and fitting three graphs from two starts on a whole company database would
+#: multiply the EM by six. 25,000 rather than 50,000 (before 2026-12-03): on four
+#: databases of 120,000 beds from both generators the same graph, start and decoded
+#: held-out cores, at 0.58-0.79 of the fit's CPU time (benchmarks/tract_model.md,
+#: "The graph-choice sample halved").
+SAMPLE_BEDS = 25_000
 
 
 def trade_graphs(tract_model: TractModel) -> list[TractModel]:
