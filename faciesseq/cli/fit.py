@@ -303,17 +303,22 @@ def _durations_line(durations: dict[str, dict], units: str, listed_only: bool = 
         run = (
             "no run"
             if not d["runs"]
-            else f"median {d['median_thickness']:.3g} {units}, {d['median_beds']:g} beds"
+            else f"median {d['median_thickness']:.3g} {units}, {_count(d['median_beds'], 'bed')}"
             + (
-                f" and {d['median_cycles']:g} cycle(s)"
+                f" and {_count(d['median_cycles'], 'cycle')}"
                 if d.get("median_cycles") is not None
                 else ""
             )
-            + f" over {d['runs']} run(s)"
+            + f" over {_count(d['runs'], 'run')}"
         )
         parts.append(f"{t} {chain} ({run})")
     cores = "the decoded cores listed below" if listed_only else "decoded training cores"
     return f"tract lengths, beds per visit of the fitted chain ({cores}): " + "; ".join(parts)
+
+
+def _count(n: float, noun: str) -> str:
+    """``1 bed``, ``1.5 beds``, ``3 beds``."""
+    return f"{n:g} {noun}" + ("" if n == 1 else "s")
 
 
 def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
@@ -322,13 +327,16 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     The text lists the first wells only, so only they are decoded (at 10^6 beds,
     decoding every core for 30 lines was 6.8 of the fit's 33 s of CPU)."""
     from faciesseq.cli._summary import WELL_LIMIT, print_json, print_summary, summary_document
+    from faciesseq.hmm.identity import single_bed_caution
 
     model = selection.best
     if args.format == "json":
         with warnings_to_stderr("fit"):
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
-        print_json({**document, "tract_durations": _durations(model, interp, scheme)})
+        short = {} if model.n_labelled_ else model.states_.short_tracts(model.transmat_)
+        durations = _durations(model, interp, scheme)
+        print_json({**document, "tract_durations": durations, "single_bed_tracts": short})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
     with warnings_to_stderr("fit"):
@@ -336,6 +344,9 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     _print_fit(args, selection)
     units = next(iter(interp)).units if len(interp) else ""
     print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
+    caution = single_bed_caution(model)
+    if caution:
+        print(caution)
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
 

@@ -22,7 +22,14 @@ import numpy as np
 from faciesseq.errors import ConfigError
 from faciesseq.scheme import TractModel
 
-__all__ = ["StateSpace"]
+__all__ = ["SHORT_VISIT", "StateSpace"]
+
+#: A tract whose fitted chain lasts fewer beds than this per visit, on average, is
+#: spent on single beds (:meth:`StateSpace.short_tracts`). A systems tract is a stack
+#: of parasequences (Van Wagoner et al. 1990); in fits without labels such a tract
+#: was, on simulated cores, the one misread (benchmarks/tract_model.md, "A tract
+#: spent on single beds").
+SHORT_VISIT = 1.5
 
 
 @dataclass(frozen=True)
@@ -120,3 +127,13 @@ class StateSpace:
             except np.linalg.LinAlgError:
                 out[t] = np.inf
         return np.where(np.isfinite(out) & (out > 0), out, np.inf)
+
+    def short_tracts(self, transmat: np.ndarray) -> dict[str, float]:
+        """The tracts of more than one sub-state whose expected beds per visit
+        (:meth:`mean_beds`) are below :data:`SHORT_VISIT`, with that number."""
+        beds = self.mean_beds(transmat)
+        return {
+            t: float(b)
+            for t, n, b in zip(self.tracts, self.substates, beds)
+            if n > 1 and b < SHORT_VISIT
+        }

@@ -223,6 +223,9 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         hmm.add(Paragraph(nested))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
+    short = _single_bed_text(model) if context else None
+    if short:
+        hmm.add(Paragraph(short, kind="note"))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
     extra = (
@@ -233,6 +236,17 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     for ref in REFERENCES + extra:
         refs.add(Paragraph(ref))
     return s
+
+
+def _single_bed_text(model: Any) -> str | None:
+    """The caution of :func:`faciesseq.hmm.identity.single_bed_caution`, as a sentence."""
+    from faciesseq.hmm.identity import single_bed_caution
+
+    caution = single_bed_caution(model)
+    if not caution:
+        return None
+    text = caution.removeprefix("caution: ")
+    return "Caution: " + text.replace(" (fit --labels)", " (faciesseq fit --labels)") + "."
 
 
 def _successions_paragraph(unit: str) -> Paragraph:
