@@ -91,6 +91,8 @@ def test_fit_and_the_methods_say_it_where_the_model_has_such_a_tract(tmp_path, c
     for tract in short:
         assert f"{tract} {short[tract]:.1f}" in text
     assert ("Caution: " in methods_text(model)) == bool(short)
+    assert main(["decode", str(model_path), str(source), "-o", str(tmp_path / "out")]) == 0
+    assert ("caution: " in capsys.readouterr().out) == bool(short)
     assert main([*args, "--force", "--format", "json"]) == 0
     document = json.loads(capsys.readouterr().out)
     assert document["single_bed_tracts"] == pytest.approx(short)
