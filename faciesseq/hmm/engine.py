@@ -472,6 +472,7 @@ class CodeIndex:
             self._layout, self._store = layout, {}
 
     def one_hot(self, key, make):
+        """The matrix of batch ``key`` of the current layout, made by ``make()`` once."""
         if key not in self._store:
             self._store[key] = make()
         return self._store[key]
