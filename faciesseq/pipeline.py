@@ -86,7 +86,7 @@ def run_appendix(
     surrogates: int = 199,
     seed: int = 0,
     n_restarts: int = 3,
-    substates: tuple[int, ...] = (1, 2),
+    substates: tuple[int, ...] | None = None,
     unit: str = "beds",
     step: float | None = None,
     provenance: Mapping[str, Any] | None = None,
@@ -123,7 +123,10 @@ def run_appendix(
     substates
         Sub-states per tract of the candidate models fitted when ``model`` is
         ``None``; the one with the lowest BIC is kept (Schwarz 1978), and the
-        candidates are shown in the appendix.
+        candidates are shown in the appendix. ``None``: 1 and 2 with labels, and
+        without labels the tract model's own default (that of ``faciesseq fit``:
+        three sub-states on the stacking context), the model whose accuracy
+        ``docs/hmm.md`` reports.
     unit, step
         Successions of beds or of a depth grid (``step`` in depth units).
     provenance
@@ -177,6 +180,8 @@ def run_appendix(
         **parallel,
     }
     if model is None:
+        if substates is None:
+            substates = (1, 2) if labelled else (None,)
         model, selection, note, fit_notes = _fit_default(
             usable, labels if labelled else None, substates, seed, settings
         )
@@ -248,7 +253,7 @@ def _fit_default(cores: CoreSet, labels: str | None, substates, seed: int, setti
         # the other cores measured worse in cross-validation; docs/hmm.md)
         selection = select_model(
             cores.subset(labelled_cores(cores, labels)) if labels else cores,
-            substates=tuple(int(k) for k in substates),
+            substates=tuple(None if k is None else int(k) for k in substates),
             labels=labels,
             random_state=seed,
             **settings,

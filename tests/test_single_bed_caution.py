@@ -96,3 +96,29 @@ def test_fit_and_the_methods_say_it_where_the_model_has_such_a_tract(tmp_path, c
     assert main([*args, "--force", "--format", "json"]) == 0
     document = json.loads(capsys.readouterr().out)
     assert document["single_bed_tracts"] == pytest.approx(short)
+
+
+def test_the_appendix_without_labels_fits_the_model_fit_fits_and_cautions(tmp_path):
+    # Without labels the appendix fits the design whose accuracy docs/hmm.md reports
+    # (that of `faciesseq fit`: three sub-states per tract on the stacking context),
+    # not 1 and 2 sub-states compared by BIC as with labels, and its methods carry the
+    # caution where that model spends a tract on single beds.
+    from faciesseq.core import CoreSet
+    from faciesseq.pipeline import run_appendix
+    from faciesseq.scheme import load_scheme
+
+    t = pd.read_csv(ROOT / "demo_cores" / "cores.csv")
+    table = t[t["core"].isin(sorted(t["core"].unique())[:10])][["core", "top", "base", "facies"]]
+    cores = CoreSet.from_frame(table, units="m")
+    result = run_appendix(cores, load_scheme(SCHEME), surrogates=0, n_restarts=1, labels=None)
+    model = result.model
+    assert model.n_labelled_ == 0 and model.states_.substates == (3, 3, 3, 3)
+    short = model.states_.short_tracts(model.transmat_)
+    methods = result.appendix.document.sections[-1]
+    assert methods.title == "Methods"
+
+    def text(section) -> str:
+        blocks = [getattr(b, "text", "") for b in section.blocks]
+        return " ".join(blocks + [text(sub) for sub in section.subsections])
+
+    assert ("Caution: " in text(methods)) == bool(short)

@@ -122,10 +122,11 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--restarts", type=int, default=3, metavar="N", help="EM restarts")
     group.add_argument(
         "--substates",
-        default="1,2",
+        default=None,
         metavar="LIST",
         help="sub-states per tract of the candidate models compared by BIC when no --model is "
-        "given (default 1,2)",
+        "given (default: 1,2 with labels; without labels the fit's own default, as "
+        "faciesseq fit)",
     )
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
@@ -164,17 +165,22 @@ def check_numbers(args: argparse.Namespace) -> None:
     from faciesseq.errors import ConfigError
 
     try:
-        args.substates_list = tuple(int(x) for x in str(args.substates).split(",") if x.strip())
+        args.substates_list = (
+            None
+            if args.substates is None
+            else tuple(int(x) for x in str(args.substates).split(",") if x.strip())
+        )
     except ValueError:
         raise ConfigError(
             f"--substates expects whole numbers separated by commas, got {args.substates!r}"
         ) from None
     if args.unit == "grid" and not (args.step and math.isfinite(args.step) and args.step > 0):
         raise ConfigError("--unit grid needs a positive --step (depth units)")
-    if not args.substates_list or min(args.substates_list) < 1:
-        raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
-    for n in args.substates_list:
-        check_substates(n)
+    if args.substates_list is not None:
+        if not args.substates_list or min(args.substates_list) < 1:
+            raise ConfigError(f"--substates expects numbers >= 1, got {args.substates!r}")
+        for n in args.substates_list:
+            check_substates(n)
     for name in ("folds", "surrogates", "restarts", "seed"):
         value = getattr(args, name)
         low = 2 if name == "folds" else (1 if name == "restarts" else 0)
