@@ -125,8 +125,7 @@ def add_appendix_arguments(parser: argparse.ArgumentParser) -> None:
         default=None,
         metavar="LIST",
         help="sub-states per tract of the candidate models compared by BIC when no --model is "
-        "given (default: 1,2 with labels; without labels the fit's own default, as "
-        "faciesseq fit)",
+        "given (default: 1,2 with labels; without labels those of faciesseq fit)",
     )
     group.add_argument("--seed", type=int, default=0, help="seed of every random step")
     group.add_argument("--no-latex", action="store_true", help="skip appendix.tex and PDFs")
