@@ -327,15 +327,15 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     The text lists the first wells only, so only they are decoded (at 10^6 beds,
     decoding every core for 30 lines was 6.8 of the fit's 33 s of CPU)."""
     from faciesseq.cli._summary import WELL_LIMIT, print_json, print_summary, summary_document
-    from faciesseq.hmm.identity import single_bed_caution
+    from faciesseq.hmm.identity import single_bed_caution, single_bed_tracts
 
     model = selection.best
     if args.format == "json":
         with warnings_to_stderr("fit"):
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
-        short = {} if model.n_labelled_ else model.states_.short_tracts(model.transmat_)
         durations = _durations(model, interp, scheme)
+        short = single_bed_tracts(model)
         print_json({**document, "tract_durations": durations, "single_bed_tracts": short})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)

@@ -24,7 +24,13 @@ from faciesseq.hmm.context import CONTEXT_BINS, ContextEmission, bin_centres
 from faciesseq.hmm.emissions import CategoricalEmission, EmissionPiece
 from faciesseq.hmm.states import SHORT_VISIT, StateSpace
 
-__all__ = ["deepening_scores", "deepening_tracts", "single_bed_caution", "turn"]
+__all__ = [
+    "deepening_scores",
+    "deepening_tracts",
+    "single_bed_caution",
+    "single_bed_tracts",
+    "turn",
+]
 
 #: Context features whose larger values mean deepening upward.
 DEEPENING_FEATURES = ("trend", "cycle_stacking")
@@ -88,6 +94,14 @@ def turn(
     return list(pieces), pi, A
 
 
+def single_bed_tracts(model) -> dict[str, float]:
+    """The tracts a fit without labels spends on single beds, with their beds per visit
+    (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`); none for a fit with labels."""
+    if getattr(model, "n_labelled_", 0):
+        return {}
+    return model.states_.short_tracts(model.transmat_)
+
+
 def single_bed_caution(model) -> str | None:
     """A caution where a fit without labels spends a tract on single beds
     (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`), else None.
@@ -96,9 +110,7 @@ def single_bed_caution(model) -> str | None:
     the tracts worse, and the short tract was the one misread: its beds, or those of
     its neighbour named after it (``benchmarks/tract_model.md``, "A tract spent on
     single beds")."""
-    if getattr(model, "n_labelled_", 0):
-        return None
-    short = model.states_.short_tracts(model.transmat_)
+    short = single_bed_tracts(model)
     if not short:
         return None
     listed = ", ".join(f"{t} {b:.1f}" for t, b in short.items())
