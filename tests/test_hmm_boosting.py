@@ -205,3 +205,28 @@ def test_fit_refuses_infinities_and_labels_out_of_range():
     X[0, 0] = np.inf
     with pytest.raises(ValueError, match="infinite"):
         fit_boosted(X, y, 2)
+
+
+def test_the_same_fit_is_made_once_and_any_change_of_its_inputs_fits_again():
+    X, y = _data((0, 1, 2), 300, seed=11)
+    first = fit_boosted(X, y, 3, random_state=3, **PARAMS)
+    assert fit_boosted(X.copy(), y.copy(), 3, random_state=3, **PARAMS) is first
+    moved = X.copy()
+    moved[np.flatnonzero(np.isfinite(X[:, 0]))[0], 0] += 1e-9
+    weights = np.ones(len(y))
+    weights[0] = 2.0
+    others = [
+        fit_boosted(moved, y, 3, random_state=3, **PARAMS),
+        fit_boosted(
+            X, np.where(np.arange(len(y)) == 0, (y + 1) % 3, y), 3, random_state=3, **PARAMS
+        ),
+        fit_boosted(X, y, 4, random_state=3, **PARAMS),
+        fit_boosted(X, y, 3, random_state=4, **PARAMS),
+        fit_boosted(X, y, 3, random_state=3, sample_weight=weights, **PARAMS),
+        fit_boosted(X, y, 3, random_state=3, **{**PARAMS, "max_iter": PARAMS["max_iter"] + 1}),
+    ]
+    assert all(o is not first for o in others)
+    # what a kept fit returns is what scikit-learn fits (the probabilities equal its own)
+    Xt = _test_rows(seed=1)
+    expected, _ = _reference(X, y, 3, Xt, random_state=3)
+    np.testing.assert_allclose(first.predict_proba(Xt), expected, rtol=0, atol=1e-12)

@@ -183,6 +183,41 @@ def test_calibration_is_reproducible_and_needs_labels_on_two_cores(small_fit):
     assert unsup.temperature_ == unsup.calibration_["temperature"] > 0
 
 
+def test_a_calibration_put_off_uses_the_folds_the_fit_would_have_used(small_fit):
+    _, calibrated, train, _, labels = small_fit
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        later = TractHMM(scheme=synth.scheme(), random_state=0)
+        later.fit(train, labels=labels, calibrate=False)
+        assert later.temperature_ == 1.0  # nothing chosen yet
+        later.calibrate()
+        unsup = TractHMM(scheme=synth.scheme(), random_state=0).fit(train, calibrate=False)
+        assert "method" not in unsup.calibration_
+        unsup.calibrate()
+        direct = TractHMM(scheme=synth.scheme(), random_state=0).fit(train)
+    assert later.temperature_ == calibrated.temperature_
+    assert later.calibration_ == calibrated.calibration_
+    assert unsup.calibration_ == direct.calibration_
+    before = dict(later.calibration_)
+    assert later.calibrate().calibration_ == before  # done once
+
+
+def test_model_choice_calibrates_the_kept_candidate_as_its_own_fit_would(small_fit):
+    from faciesseq.hmm.selection import select_model
+
+    _, _, train, _, labels = small_fit
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        chosen = select_model(
+            train, substates=(None, 2), labels=labels, scheme=synth.scheme(), random_state=0
+        )
+        alone = TractHMM(
+            scheme=synth.scheme(), random_state=0, substates=chosen.best.substates
+        ).fit(train, labels=labels)
+    assert chosen.best.calibration_ == alone.calibration_
+    assert chosen.best.temperature_ == alone.temperature_ > 1.0
+
+
 def test_model_file_keeps_the_temperature_and_refuses_a_bad_one(small_fit, tmp_path):
     _, calibrated, _, test, _ = small_fit
     path = save_model(calibrated, tmp_path / "m.json")

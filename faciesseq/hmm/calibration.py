@@ -307,13 +307,18 @@ def probability_meta(temperature: float, calibration: object) -> dict[str, objec
 
 
 def calibrate_by_folds(
-    model, succ: Sequence[Succession], clamp: np.ndarray, rng: np.random.Generator
+    model,
+    succ: Sequence[Succession],
+    clamp: np.ndarray,
+    rng: np.random.Generator,
+    params: dict | None = None,
 ) -> dict:
     """Temperature of ``model``'s posteriors by K-fold cross-validation over the
     labelled cores (the module docstring): each fold's model is fitted,
-    with one restart and the same hyper-parameters, on every succession but
-    those of its held-out cores, whose labelled beds are then scored. The folds
-    are independent jobs (:func:`faciesseq.parallel.run_jobs`)."""
+    with one restart and the same hyper-parameters (``params``, default
+    ``model``'s), on every succession but those of its held-out cores, whose
+    labelled beds are then scored. The folds are independent jobs
+    (:func:`faciesseq.parallel.run_jobs`)."""
     tracts = list(model.tract_model_.order)
     codes = [
         np.where(m.sum(axis=1) == 1, m.argmax(axis=1), -1)
@@ -327,7 +332,7 @@ def calibrate_by_folds(
             f"labelled core(s), calibration_folds={model.calibration_folds}"
         }
     fold_of = {c: i % k for i, c in enumerate(cores[j] for j in rng.permutation(len(cores)))}
-    params = {**model.get_params(), "calibration_folds": 0, "n_restarts": 1}
+    params = {**(params or model.get_params()), "calibration_folds": 0, "n_restarts": 1}
     params["tract_model"] = model.tract_model_  # the fit's graph, whatever a fold's labels show
     params.update(n_jobs=1, scheduler=None)  # the folds are the jobs
     jobs = []

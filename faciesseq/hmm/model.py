@@ -624,6 +624,8 @@ class TractHMM(ExpectationMaximisation, Decoding):
         successions: CoreSet | Sequence[Succession],
         labels: str | Sequence[Sequence[str | None]] | None = None,
         progress: ProgressCallback | None = None,
+        *,
+        calibrate: bool = True,
     ) -> TractHMM:
         """Fit by EM; labelled beds are clamped to their tract.
 
@@ -639,6 +641,9 @@ class TractHMM(ExpectationMaximisation, Decoding):
         progress
             Called as ``progress(restart, iteration, objective)`` after every
             EM iteration (in parallel runs, once per finished restart).
+        calibrate
+            False leaves the temperature at 1 until :meth:`calibrate` is called
+            (model choice calibrates only the kept candidate).
 
         Returns
         -------
@@ -651,6 +656,34 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self._fit_once(succ, labels, progress)
         if self._tracts_shorter_than_cycles():
             self._fit_with_weaker_weights(succ, labels, progress)
+        if calibrate:
+            self.calibrate()
+        return self
+
+    def calibrate(self) -> TractHMM:
+        """Choose the temperature of the posteriors of a fit made with
+        ``calibrate=False``: by folds of the labelled cores
+        (:func:`~faciesseq.hmm.calibration.calibrate_by_folds`), else by cores
+        simulated from the fit (:func:`~faciesseq.hmm.bootstrap.calibrate_by_simulation`),
+        with the same folds and draws as the fit would have used. Nothing to do
+        where ``calibration_folds`` is 0 or the fit was calibrated already.
+
+        Returns
+        -------
+        self
+        """
+        self._check_fitted()
+        job = self.__dict__.pop("_calibration_job", None)
+        if job is None:
+            return self
+        kind, params, *args = job
+        if kind == "folds":
+            from faciesseq.hmm.calibration import calibrate_by_folds
+
+            self.calibration_ = calibrate_by_folds(self, *args, params=params)
+            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+        else:
+            self._calibrate_without_labels(*args)
         return self
 
     def _tracts_shorter_than_cycles(self) -> bool:
@@ -713,12 +746,11 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.temperature_ = 1.0
         self.calibration_ = {"skipped": "no labelled beds"}
         if data.clamp is not None and n_labelled:
-            from faciesseq.hmm.calibration import calibrate_by_folds
-
-            self.calibration_ = calibrate_by_folds(self, succ, data.clamp, rng)
-            self.temperature_ = float(self.calibration_.get("temperature", 1.0))
+            self._calibration_job = ("folds", self.get_params(), succ, data.clamp, rng)
         else:
-            self._calibrate_without_labels(succ, rng, data.beds)
+            self._calibration_job = ("simulation", None, succ, rng, data.beds)
+        if not int(self.calibration_folds):  # records why the fit is not calibrated
+            self.calibrate()
         return self
 
     def _with_nested_start(self, succ: SuccessionTable, data: TrainingData) -> TrainingData:
@@ -883,7 +915,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self._default_graph = best.tract_model
         self.graph_selection_ = rows
         seed = self.random_state if isinstance(self.random_state, int) else None
-        self._calibrate_without_labels(succ, np.random.default_rng(seed), beds)
+        self._calibration_job = ("simulation", None, succ, np.random.default_rng(seed), beds)
         return self
 
     def _check_fitted(self) -> None:

@@ -70,7 +70,7 @@ def select_model(
     for feats in features:
         for sub in substates:
             model = TractHMM(features=feats, substates=sub, **params)
-            model.fit(successions, labels=labels, progress=progress)
+            model.fit(successions, labels=labels, progress=progress, calibrate=False)
             rows.append(
                 {
                     "features": ",".join(model.features_),
@@ -95,4 +95,5 @@ def select_model(
     table = pd.DataFrame(rows)
     best = int(table["bic"].idxmin())
     table["selected"] = table.index == best
-    return ModelSelection(table, models[best])
+    # only the kept candidate's probabilities are calibrated (the BIC reads none)
+    return ModelSelection(table, models[best].calibrate())

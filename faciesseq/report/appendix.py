@@ -636,14 +636,14 @@ def add_section(appendix: Appendix, section: Section, key: str, results: Any) ->
 def _figure_bytes(fig, fmt: str, dpi: int) -> bytes:
     import matplotlib as mpl
 
-    from faciesseq.report.style import STYLE
+    from faciesseq.report.style import STYLE, savefig_options
 
     buffer = io.BytesIO()
     metadata = {"CreationDate": None} if fmt == "pdf" else {"Software": None}
     with mpl.rc_context(STYLE):
         # constrained layout already fits every figure to its canvas; a tight bounding
         # box would draw each figure twice
-        fig.savefig(buffer, format=fmt, dpi=dpi, metadata=metadata)
+        fig.savefig(buffer, format=fmt, dpi=dpi, metadata=metadata, **savefig_options(fmt))
     return buffer.getvalue()
 
 

@@ -77,6 +77,16 @@ STYLE: dict[str, object] = {
     "axes.spines.right": False,
 }
 
+#: zlib level of every PNG written (matplotlib's default through Pillow is 6): the
+#: demo's strip logs encode in 0.035 s instead of 0.077 s each, files 16 % larger
+#: (measured on a 1120 x 1876 strip log, 2026-12-03).
+PNG_COMPRESSION = {"compress_level": 1}
+
+
+def savefig_options(fmt: str) -> dict[str, object]:
+    """Keyword arguments of ``savefig`` that depend on the format only."""
+    return {"pil_kwargs": PNG_COMPRESSION} if fmt == "png" else {}
+
 
 def tract_colour(code: str, tracts: Sequence[str] = ()) -> str:
     """Colour of tract ``code``; unknown tracts get extras by their place in ``tracts``."""
@@ -120,5 +130,6 @@ def save_figure(fig: Figure, path: str | os.PathLike, **kwargs) -> Path:
     fmt = path.suffix.lstrip(".").lower() or "png"
     buffer = io.BytesIO()
     with mpl.rc_context(STYLE):
-        fig.savefig(buffer, format=fmt, **({"bbox_inches": "tight"} | kwargs))
+        options = {"bbox_inches": "tight"} | savefig_options(fmt) | kwargs
+        fig.savefig(buffer, format=fmt, **options)
     return write_file(path, buffer.getvalue())

@@ -147,6 +147,7 @@ def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:
         cores_figure,
         section_figure,
     )
+    from faciesseq.report.style import savefig_options
 
     scenario = result.scenario
     for name, history in result.sections.items():
@@ -156,5 +157,6 @@ def _write_figures(result: SimulationResult, folder: Path, dpi: int) -> None:
             (f"base-level-{name}", base_level_figure(history, scenario)),
             (f"cores-{name}", cores_figure(result, name)),
         ):
-            fig.savefig(folder / f"{stem}.png", dpi=dpi, metadata={"Software": None})
+            options = savefig_options("png")
+            fig.savefig(folder / f"{stem}.png", dpi=dpi, metadata={"Software": None}, **options)
             plt.close(fig)
