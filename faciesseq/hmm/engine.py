@@ -22,8 +22,9 @@ on the first call after hmmlearn ran (2026-12-02, loaded 2-core machine); from
 the full log-emission array, 0.40 and 0.89 (the first call pays for fresh
 memory pages of the 128 MB array and of ``gamma``). Viterbi, whose maxima
 numpy cannot hand to BLAS, took 1.10 times the CPU time of hmmlearn's
-compiled loop with 16 states and a dense transition matrix, and 0.60 of it
-on a tract-shaped graph (2026-12-03; see :func:`viterbi`).
+compiled loop with 16 states and a dense transition matrix on 2026-12-03 and
+0.97 on 2026-12-04 (the same code), and 0.60 of it on a tract-shaped graph
+(see :func:`viterbi`).
 
 Emissions: either the ``(T, K)`` log-emission array, or for a categorical
 emission a ``(n_codes, K)`` table and the code of every row (``codes``): the
@@ -905,8 +906,8 @@ def viterbi(
     Why numpy and not compiled code: hmmlearn's compiled decode is the
     reference, but it takes no log-emission array and no clamped rows (see
     the module notes). On ``benchmarks/bench_em.py`` (1,000,000 observations,
-    16 states) this function took 1.10 times hmmlearn's CPU time with a
-    dense transition matrix and 0.60 of it with a tract-shaped one (3
+    16 states) this function took 0.97-1.10 times hmmlearn's CPU time with a
+    dense transition matrix (two days, the same code) and 0.60 of it with a tract-shaped one (3
     predecessors per state; repeated calls, ``benchmarks/hmm_engine.md``):
     the ``K^2`` sums and maxima per row run at numpy's speed, about 0.4 ns
     per predecessor and target, which a compiled loop over one row in
