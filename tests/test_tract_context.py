@@ -9,6 +9,7 @@ designed on other seeds (tuning seeds 11-15; here 31-34).
 
 from __future__ import annotations
 
+import copy
 import itertools
 import json
 import warnings
@@ -117,8 +118,40 @@ def test_unlabelled_fit_reads_the_context_with_a_strict_graph(fitted):
     assert [r["start"] for r in rows] == ["nested"] * 3 + ["priors"] * 3
     assert sum(r["selected"] for r in rows) == 1
     (chosen,) = [r for r in rows if r["selected"]]
-    assert chosen["bic"] == min(r["bic"] for r in rows if r["start"] == chosen["start"])
+    assert chosen["icl"] == min(r["icl"] for r in rows if r["start"] == chosen["start"])
     assert chosen["skips"] == list(model.tract_model_.skips)
+    for r in rows:  # ICL = BIC + 2 x the classification entropy (Biernacki et al. 2000)
+        assert r["entropy"] > 0 and r["icl"] == pytest.approx(r["bic"] + 2 * r["entropy"])
+
+
+def test_the_classification_entropy_is_that_of_the_decoded_tract_probabilities(fitted):
+    """Checked against scipy.stats.entropy of the per-bed tract probabilities that
+    ``decode`` writes (the model's own, at temperature 1)."""
+    from scipy.stats import entropy
+
+    from faciesseq.hmm.graphs import classification_entropy
+
+    model, _, _, test = fitted
+    plain = copy.copy(model)
+    plain.temperature_ = 1.0
+    beds = pd.concat([c.beds for c in plain.decode(test)], ignore_index=True)
+    p = beds[[f"p_{t}" for t in model.states_.tracts]].to_numpy(float)
+    expected = float(entropy(p, axis=1).sum())
+    succ = test.successions("beds")
+    assert classification_entropy(model, succ) == pytest.approx(expected, rel=1e-9)
+    assert 0 < expected < len(p) * np.log(len(model.states_.tracts))
+
+
+def test_the_graph_kept_is_the_lowest_icl_not_the_lowest_bic():
+    from faciesseq.hmm.graphs import _kept_candidate
+
+    rows = [
+        {"skips": [], "bic": 1000.0, "entropy": 50.0, "icl": 1100.0},
+        {"skips": ["FSST"], "bic": 990.0, "entropy": 80.0, "icl": 1150.0},
+        {"skips": ["TST"], "bic": 1010.0, "entropy": 60.0, "icl": 1130.0},
+    ]
+    cases = [(None, r["skips"]) for r in rows]
+    assert _kept_candidate(rows, [None] * 3, cases) == 0
 
 
 def test_a_large_database_chooses_its_graph_on_a_sample_of_whole_cores(monkeypatch):

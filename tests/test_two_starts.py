@@ -74,7 +74,7 @@ def test_graph_choice_fits_both_starts_and_records_the_one_kept(missing, tmp_pat
     assert [r["skips"] for r in rows[:3]] == [r["skips"] for r in rows[3:]]
     (kept,) = [r for r in rows if r["selected"]]
     same = [r for r in rows if r["start"] == kept["start"]]
-    assert kept["bic"] == min(r["bic"] for r in same)  # the lowest BIC of its start
+    assert kept["icl"] == min(r["icl"] for r in same)  # the lowest ICL of its start
     record = model.nested_start_
     assert record["kept"] == kept["start"] and record["margin"] == PRIORS_MARGIN
     assert record["left_out"] == ["FSST"]  # the nested start's own record stays

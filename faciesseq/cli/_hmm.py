@@ -165,7 +165,7 @@ def check_unit(args: argparse.Namespace) -> None:
 
 def load_tracts_option(path: str | None):
     """The tract model of ``--tracts``, or ``None``: the model's own default (the
-    strict cyclic graph chosen by BIC without labels; with labels the strict one where
+    strict cyclic graph chosen by ICL without labels; with labels the strict one where
     every labelled boundary follows it, else the permissive one)."""
     from faciesseq.scheme import load_tract_model
 

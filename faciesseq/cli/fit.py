@@ -182,7 +182,7 @@ def _print_weights(model, asked: bool | None) -> None:
 
 
 def _print_graph(model) -> None:
-    """Which tract graph the fit used, and why (the BIC of every candidate)."""
+    """Which tract graph the fit used, and why (the ICL of every candidate)."""
     skips = ", ".join(model.tract_model_.skips) or "none"
     rows = getattr(model, "graph_selection_", [])
     if not rows:
@@ -203,15 +203,16 @@ def _print_graph(model) -> None:
     kept = next(r for r in rows if r["selected"])
     rows = [r for r in rows if r.get("start") == kept.get("start")]  # the kept start's
     others = "; ".join(
-        f"{', '.join(r['skips']) or 'none'} +{r['bic'] - kept['bic']:.1f}"
+        f"{', '.join(r['skips']) or 'none'} +{r['icl'] - kept['icl']:.1f}"
         for r in rows
         if not r["selected"]
     )
     sample = rows[0].get("n_beds", model.n_train_beds_)
     on = f", fitted on a sample of {sample} beds" if sample < model.n_train_beds_ else ""
     print(
-        f"tract graph: strict cyclic order, skips {skips}, the lowest BIC of the trade's "
-        f"{len(rows)} graphs{on} (BIC above it: {others})"
+        f"tract graph: strict cyclic order, skips {skips}, the lowest ICL (BIC + 2 x the "
+        f"entropy of the beds' tracts) of the trade's {len(rows)} graphs{on} (ICL above it: "
+        f"{others})"
     )
 
 

@@ -2,7 +2,7 @@
 
 - :mod:`faciesseq.hmm.engine`: forward-backward, Viterbi, two-slice posteriors, clamping;
 - :mod:`faciesseq.hmm.states`: tracts expanded into left-to-right sub-state chains;
-- :mod:`faciesseq.hmm.graphs`: the trade's strict tract graphs, chosen by BIC;
+- :mod:`faciesseq.hmm.graphs`: the trade's strict tract graphs, chosen by ICL;
 - :mod:`faciesseq.hmm.encoding`: beds as arrays, with the features derived from ranks;
 - :mod:`faciesseq.hmm.emissions`: the emission pieces' contract and the plain pieces;
 - :mod:`faciesseq.hmm.rank_pieces`, :mod:`faciesseq.hmm.stacking_piece`: pieces reading

@@ -204,7 +204,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
     graph
         ``"auto"``: a fit without labels and without an explicit
         ``tract_model`` fits the cyclic order with each set of the skips the
-        trade allows (none, FSST, TST, both) and keeps the lowest BIC
+        trade allows (none, FSST, TST, both) and keeps the lowest ICL
         (``graph_selection_`` records every candidate); a fit with labels
         takes the strict cyclic order of the default tract model where every
         labelled boundary follows it, else the permissive graph
@@ -904,7 +904,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.temperature_ = float(self.calibration_.get("temperature", 1.0))
 
     def _fit_choosing_graph(self, succ: SuccessionTable, progress) -> TractHMM:
-        """The fit of the lowest-BIC tract graph (:mod:`faciesseq.hmm.graphs`),
+        """The fit of the lowest-ICL tract graph (:mod:`faciesseq.hmm.graphs`),
         calibrated afterwards (from the beds the refit on every bed encoded, where the
         graph was chosen on a sample: encoding 10^6 beds again took about 1 s)."""
         from faciesseq.hmm.graphs import choose_graph

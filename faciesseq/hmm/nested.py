@@ -143,7 +143,7 @@ def tst_deepening(model) -> float | None:
 
 def kept_start(nested_fit, priors_fit) -> dict:
     """Which of two fits of one database to keep, the one started nested or the one
-    started from the priors alone (each the lowest BIC of its candidates): the nested
+    started from the priors alone (each the lowest ICL of its candidates): the nested
     fit, unless the other's TST deepens more by over :data:`PRIORS_MARGIN`. The
     record: ``kept`` (``"nested"`` or ``"priors"``), ``tst_deepening`` of each,
     ``margin``."""

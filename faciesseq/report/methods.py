@@ -66,6 +66,9 @@ CONTEXT_REFERENCES = (
     "New York.",
     "Künsch, H. R. (1989). The jackknife and the bootstrap for general stationary "
     "observations. Annals of Statistics 17, 1217–1241.",
+    "Biernacki, C., Celeux, G. & Govaert, G. (2000). Assessing a mixture model for "
+    "clustering with the integrated completed likelihood. IEEE Transactions on Pattern "
+    "Analysis and Machine Intelligence 22, 719–725.",
 )
 
 #: References of the evidence weights (``fit --weigh-evidence``).
@@ -150,7 +153,7 @@ def _kept_text(nested: dict) -> str:
     )
     which = "the fit from the priors" if nested["kept"] == "priors" else "the nested fit"
     return (
-        "Every candidate graph was also fitted from the priors alone, and the lowest-BIC fit "
+        "Every candidate graph was also fitted from the priors alone, and the lowest-ICL fit "
         "of those was to be kept instead where its TST deepens upward more clearly (a score "
         f"higher by over {float(nested.get('margin', 0.25)):.2f}): where the TST is missing "
         "from many cycles the fit without the FSST must still find a transgression in each "
@@ -169,7 +172,10 @@ CONTEXT_TEXT = (
     "proximality around it, the cycle's amplitude and, where known, its share of sharp "
     "contacts and whether the bed is nonmarine; each is binned and emitted given the tract. "
     "Tracts follow the strict cyclic order HST → FSST → LST → TST, with at most one of the "
-    "skips the trade allows, chosen by BIC; each tract is a chain of sub-states, so its "
+    "skips the trade allows, chosen by the integrated completed likelihood (ICL: BIC plus "
+    "twice the entropy of the beds' tract posteriors, which prefers among fits that explain "
+    "the beds about as well the one whose tracts are told apart; Biernacki et al. 2000); "
+    "each tract is a chain of sub-states, so its "
     "length in beds is a Coxian phase-type duration (Cox 1955). The tracts are named by "
     "the one deepening tract and the cyclic order."
 )
