@@ -189,10 +189,11 @@ def test_a_calibration_put_off_uses_the_folds_the_fit_would_have_used(small_fit)
         warnings.simplefilter("ignore")
         later = TractHMM(scheme=synth.scheme(), random_state=0)
         later.fit(train, labels=labels, calibrate=False)
-        assert later.temperature_ == 1.0  # nothing chosen yet
+        assert later.temperature_ == 1.0  # nothing chosen yet, and the record says so
+        assert "not calibrated yet" in later.calibration_["skipped"]
         later.calibrate()
         unsup = TractHMM(scheme=synth.scheme(), random_state=0).fit(train, calibrate=False)
-        assert "method" not in unsup.calibration_
+        assert "not calibrated yet" in unsup.calibration_["skipped"]
         unsup.calibrate()
         direct = TractHMM(scheme=synth.scheme(), random_state=0).fit(train)
     assert later.temperature_ == calibrated.temperature_

@@ -122,6 +122,10 @@ def _training_successions(
     return [s for s in _as_successions(data, unit, step) if len(s)]
 
 
+#: The calibration record of a fit whose calibration was put off (``fit(calibrate=False)``).
+_NOT_YET = "not calibrated yet: fitted with calibrate=False; TractHMM.calibrate() calibrates"
+
+
 def _bed_tables(succ: Sequence[Succession]) -> tuple[list[pd.DataFrame], np.ndarray | None]:
     """The bed tables of ``succ`` for :meth:`TractHMM._encode`, with the beds of each
     succession where they are one table."""
@@ -683,6 +687,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
             self.calibration_ = calibrate_by_folds(self, *args, params=params)
             self.temperature_ = float(self.calibration_.get("temperature", 1.0))
         else:
+            self.calibration_ = {"skipped": "no labelled beds"}
             self._calibrate_without_labels(*args)
         return self
 
@@ -722,8 +727,9 @@ class TractHMM(ExpectationMaximisation, Decoding):
     def _fit_once(self, succ, labels, progress) -> TractHMM:
         """One fit of checked settings on ``succ`` (:func:`_training_successions`):
         :meth:`fit` without its check of the evidence weights (the candidate graphs of
-        :mod:`faciesseq.hmm.graphs` are fitted by this, so that their BICs compare fits
-        of one kind)."""
+        :mod:`faciesseq.hmm.graphs` are fitted by this, so that their ICLs compare fits
+        of one kind) and, where ``calibration_folds`` is above 0, without the
+        calibration, which it leaves to :meth:`calibrate`."""
         self.weights_rejected_ = self.nested_start_ = None
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
@@ -744,7 +750,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.
         self.temperature_ = 1.0
-        self.calibration_ = {"skipped": "no labelled beds"}
+        self.calibration_ = {"skipped": _NOT_YET}
         if data.clamp is not None and n_labelled:
             self._calibration_job = ("folds", self.get_params(), succ, data.clamp, rng)
         else:
@@ -916,6 +922,7 @@ class TractHMM(ExpectationMaximisation, Decoding):
         self.graph_selection_ = rows
         seed = self.random_state if isinstance(self.random_state, int) else None
         self._calibration_job = ("simulation", None, succ, np.random.default_rng(seed), beds)
+        self.temperature_, self.calibration_ = 1.0, {"skipped": _NOT_YET}
         return self
 
     def _check_fitted(self) -> None:
