@@ -185,6 +185,9 @@ def test_equal_beds_give_no_thickness_cue_and_default_beds_do():
 def test_optional_columns_follow_the_scenario():
     frame = simulate_stacking(_scenario(contacts=False, grain_size=False), seed=1).to_frame()
     assert "contact" not in frame.columns and "grain_size" not in frame.columns
+    minimal = load_stacking_scenario(CONFIGS / "stacking-minimal-table.yaml")
+    frame = simulate_stacking(minimal, seed=1).to_frame()
+    assert "contact" not in frame.columns and "grain_size" not in frame.columns
 
 
 def test_surfaces_match_the_true_tract_boundaries():
@@ -231,9 +234,12 @@ def test_bad_key_or_value_is_a_config_error_naming_file_and_key(tmp_path, data, 
 
 
 def test_shipped_scenarios_load():
-    for name in ("stacking-shoreface", "stacking-thin-tracts", "stacking-equal-beds"):
-        scenario = load_stacking_scenario(CONFIGS / f"{name}.yaml")
-        assert scenario.name == name and scenario.scheme.name == "wave-dominated shoreface-shelf"
+    shipped = sorted(CONFIGS.glob("stacking-*.yaml"))
+    assert len(shipped) >= 8
+    for path in shipped:
+        scenario = load_stacking_scenario(path)
+        assert scenario.name == path.stem
+        assert scenario.scheme.name == "wave-dominated shoreface-shelf"
     thin = load_stacking_scenario(CONFIGS / "stacking-thin-tracts.yaml")
     assert thin.fsst_missing > 0.5 and thin.parasequences["HST"] == (1, 3)
 
