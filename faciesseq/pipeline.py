@@ -179,23 +179,11 @@ def run_appendix(
         "step": step,
         **parallel,
     }
-    if model is None:
-        if substates is None:
-            substates = (1, 2) if labelled else (None,)
-        model, selection, note, fit_notes = _fit_default(
-            usable, labels if labelled else None, substates, seed, settings
-        )
-        _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}")
-    else:
-        from faciesseq.report.provenance import display_path
-
-        selection, fit_notes = None, []
-        note = (
-            f"Model read from {display_path(model_source)}."
-            if model_source
-            else "Model given by the caller."
-        )
-        _say(progress, "fit", note)
+    model, selection, note, fit_notes = _appendix_model(
+        usable, model, model_source, labels if labelled else None, substates, seed, settings
+    )
+    fitted = selection is not None
+    _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}" if fitted else note)
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -203,19 +191,14 @@ def run_appendix(
     notes.extend(_dedupe(str(w.message) for w in caught))
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
-    validation, validation_reason, validation_notes = None, None, []
-    if labelled:
-        try:
-            validation, validation_notes = _cross_validate(
-                usable, labels, model, folds, validate_mode, seed, settings
-            )
-            _say(progress, "validate", f"accuracy {validation.model.accuracy:.3f}")
-        except FaciesseqError as exc:
-            validation_reason = f"cross-validation could not be run on these labels: {exc}"
-            _say(progress, "validate", validation_reason)
-    else:
-        validation_reason = f"no interpreted tracts in a column {labels!r}"
-        _say(progress, "validate", validation_reason)
+    validation, validation_reason, validation_notes = _appendix_validation(
+        usable, labels, labelled, model, (folds, validate_mode, seed, settings)
+    )
+    _say(
+        progress,
+        "validate",
+        validation_reason or f"accuracy {validation.model.accuracy:.3f}",
+    )
 
     appendix = build_appendix(
         cores,
@@ -239,6 +222,35 @@ def run_appendix(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
     )
     return RunResult(appendix, markov, model, interpretation, validation, notes)
+
+
+def _appendix_model(cores, model, model_source, labels, substates, seed: int, settings: dict):
+    """The appendix's model, its candidate table (None for a given model), the note
+    saying where it came from, and the notes of its fit: ``model`` as given, else
+    fitted by :func:`_fit_default` (supervised where ``labels`` is a column of
+    interpreted tracts, else unsupervised)."""
+    if model is not None:
+        from faciesseq.report.provenance import display_path
+
+        where = display_path(model_source) if model_source else None
+        note = f"Model read from {where}." if where else "Model given by the caller."
+        return model, None, note, []
+    if substates is None:
+        substates = (1, 2) if labels else (None,)
+    return _fit_default(cores, labels, substates, seed, settings)
+
+
+def _appendix_validation(cores, labels, labelled: bool, model, how: tuple):
+    """Cross-validation of the appendix, ``(result, reason, notes)``: the reason why
+    there is none (no labels, or labels it cannot run on) in place of a result.
+    ``how``: folds, validation mode, seed and fit settings."""
+    if not labelled:
+        return None, f"no interpreted tracts in a column {labels!r}", []
+    try:
+        validation, notes = _cross_validate(cores, labels, model, *how)
+    except FaciesseqError as exc:
+        return None, f"cross-validation could not be run on these labels: {exc}", []
+    return validation, None, notes
 
 
 def _fit_default(cores: CoreSet, labels: str | None, substates, seed: int, settings: dict):
