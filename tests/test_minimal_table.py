@@ -49,6 +49,9 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     if labelled is not None:
         args += ["--labels", "tract"]
     assert main(args) == 0, capsys.readouterr().err
+    # without labels, a source without contact types is told what it misses
+    no_contacts = "no contact types" in capsys.readouterr().out
+    assert no_contacts == (labelled is None and "contact" not in extra)
     out = tmp_path / "decoded"
     assert main(["decode", str(model), str(source), "-o", str(out)]) == 0
     tracts = pd.read_csv(out / "tracts.csv", comment="#")

@@ -96,6 +96,8 @@ def test_fit_and_the_methods_say_it_where_the_model_has_such_a_tract(tmp_path, c
     assert main([*args, "--force", "--format", "json"]) == 0
     document = json.loads(capsys.readouterr().out)
     assert document["single_bed_tracts"] == pytest.approx(short)
+    # the source has no contact column: the JSON carries the note the text prints
+    assert "no contact types" in document["contact_note"]
 
 
 def test_the_appendix_without_labels_fits_the_model_fit_fits_and_cautions(tmp_path):
