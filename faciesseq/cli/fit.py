@@ -354,15 +354,16 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
 
 
 def contact_note(model) -> str | None:
-    """A note where a fit without labels read no contact types: the falling stage's
-    sharp or erosional base (the regressive surface of marine erosion under a
-    sharp-based shoreface; common practice) is its clearest mark without labels.
+    """A note where a fit without labels, on the default features, read no contact
+    types (the source has none): the falling stage's sharp or erosional base (the
+    regressive surface of marine erosion under a sharp-based shoreface; common
+    practice) is its clearest mark without labels.
     Measured on the stacking generator's shoreface cores written without contacts
     (``configs/stacking-minimal-table.yaml``, report seeds): falling-stage recall
     0.51 -> 0.22, balanced accuracy 0.854 -> 0.776; three labelled cores 0.972."""
-    if getattr(model, "n_labelled_", 0) or "contact" in model.features_:
-        return None
-    if not model._reads_context():
+    if getattr(model, "n_labelled_", 0) or model.features is not None:
+        return None  # labelled, or the features chosen by the user
+    if "contact" in model.features_ or not model._reads_context():
         return None
     return (
         "note: the source has no contact types (a contact column: sharp, erosional, "
