@@ -192,7 +192,7 @@ def run_appendix(
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
     validation, validation_reason, validation_notes = _appendix_validation(
-        usable, labels, labelled, model, (folds, validate_mode, seed, settings)
+        usable, labels, labelled, model, folds, validate_mode, seed, settings
     )
     _say(
         progress,
@@ -240,14 +240,15 @@ def _appendix_model(cores, model, model_source, labels, substates, seed: int, se
     return _fit_default(cores, labels, substates, seed, settings)
 
 
-def _appendix_validation(cores, labels, labelled: bool, model, how: tuple):
+def _appendix_validation(
+    cores, labels, labelled: bool, model, folds, mode, seed: int, settings: dict
+):
     """Cross-validation of the appendix, ``(result, reason, notes)``: the reason why
-    there is none (no labels, or labels it cannot run on) in place of a result.
-    ``how``: folds, validation mode, seed and fit settings."""
+    there is none (no labels, or labels it cannot run on) in place of a result."""
     if not labelled:
         return None, f"no interpreted tracts in a column {labels!r}", []
     try:
-        validation, notes = _cross_validate(cores, labels, model, *how)
+        validation, notes = _cross_validate(cores, labels, model, folds, mode, seed, settings)
     except FaciesseqError as exc:
         return None, f"cross-validation could not be run on these labels: {exc}", []
     return validation, None, notes
