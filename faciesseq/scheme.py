@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -543,6 +543,18 @@ class TractModel:
             for s in self.successors(c):
                 out[idx[c]][idx[s]] = True
         return out
+
+    def with_allowed_surfaces(self) -> TractModel:
+        """This graph keeping only the surfaces of boundaries it allows between its
+        own tracts (a skip or a left-out tract makes others impossible)."""
+        allowed = self.allowed()
+        index = {c: i for i, c in enumerate(self.order)}
+        kept = tuple(
+            sf
+            for sf in self.surfaces
+            if sf.lower in index and sf.upper in index and allowed[index[sf.lower]][index[sf.upper]]
+        )
+        return replace(self, surfaces=kept)
 
     def surface(self, lower: str, upper: str) -> Surface | None:
         for s in self.surfaces:

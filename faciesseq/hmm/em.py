@@ -24,7 +24,6 @@ from faciesseq.errors import FaciesseqError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.emissions import EmissionPiece
 from faciesseq.hmm.encoding import EncodedBeds
-from faciesseq.hmm.nested import START_NOISE
 from faciesseq.parallel import Workers
 
 __all__ = [
@@ -47,6 +46,11 @@ ProgressCallback = Callable[[int, int, float], None]
 #: :class:`ConvergenceMonitor`); fits of at most this many beds use it as it is.
 TOL_BEDS = 1_000
 
+
+#: Weight of the random part of the starting weights of restarts after the first
+#: where EM starts from given weights (a nested fit's reading,
+#: :mod:`faciesseq.hmm.nested`; a random start would lose what it is there to keep).
+START_NOISE = 0.2
 
 #: Beds per chunk of the E-step of a large EM run (``chunk_beds`` of the tract model;
 #: see :func:`chunk_bounds`).

@@ -49,7 +49,6 @@ __all__ = [
     "classification_entropy",
     "sample_successions",
     "trade_graphs",
-    "with_allowed_surfaces",
 ]
 
 #: The skips of the graphs an unlabelled fit chooses among (see the module docstring).
@@ -77,23 +76,8 @@ def trade_graphs(tract_model: TractModel) -> list[TractModel]:
     for skips in ((), ("FSST",), ("TST",), ("FSST", "TST")):
         if not set(skips) <= set(tract_model.order):
             continue
-        out.append(with_allowed_surfaces(replace(tract_model, skips=skips)))
+        out.append(replace(tract_model, skips=skips).with_allowed_surfaces())
     return out
-
-
-def with_allowed_surfaces(graph: TractModel) -> TractModel:
-    """``graph`` keeping only the surfaces of boundaries it allows between its own
-    tracts (a skip or a left-out tract makes others impossible)."""
-    from dataclasses import replace
-
-    allowed = graph.allowed()
-    index = {c: i for i, c in enumerate(graph.order)}
-    surfaces = tuple(
-        sf
-        for sf in graph.surfaces
-        if sf.lower in index and sf.upper in index and allowed[index[sf.lower]][index[sf.upper]]
-    )
-    return replace(graph, surfaces=surfaces)
 
 
 def choose_graph(model, succ: SuccessionTable, progress=None):
@@ -160,9 +144,7 @@ def classification_entropy(model, succ: SuccessionTable) -> float:
     """Sum over the beds of ``succ`` of the entropy (nats) of each bed's tract
     posterior under the fitted ``model``: 0 where every bed's tract is certain,
     ``log(n_tracts)`` per bed where nothing tells them apart (the module docstring)."""
-    from faciesseq.hmm.model import _bed_tables
-
-    gamma = model._tract_posteriors(model._encode(*_bed_tables(succ)))
+    gamma = model.tract_posteriors(succ)
     logs = np.log(np.where(gamma > 0, gamma, 1.0))
     return float(-np.sum(gamma * logs))
 

@@ -964,6 +964,13 @@ class TractHMM(ExpectationMaximisation, Decoding):
             out[a:b] = self.states_.to_tracts(post.gamma)
         return out
 
+    def tract_posteriors(self, successions) -> np.ndarray:
+        """``(beds, n_tracts)`` posterior of each tract of the beds of ``successions``
+        (a :class:`~faciesseq.core.SuccessionTable` or successions), in their order, at
+        the fitted parameters (untempered: the model's own, before calibration)."""
+        self._check_fitted()
+        return self._tract_posteriors(self._encode(*_bed_tables(successions)))
+
     def score(self, successions) -> float:
         """Total log-likelihood of the successions under the model."""
         return float(np.sum(self.score_samples(successions)))

@@ -43,7 +43,6 @@ from faciesseq.scheme import TractModel
 __all__ = [
     "PRIORS_MARGIN",
     "SHARE",
-    "START_NOISE",
     "fit_reduced",
     "kept_start",
     "reduced_tract_model",
@@ -54,9 +53,6 @@ __all__ = [
 #: Share of the posterior of each kept neighbour that a left-out tract starts with.
 #: Chosen before measuring; 0.15 and 0.4 gave the same fits on the tuning seeds.
 SHARE = 0.25
-#: Weight of the random part of the starting weights of restarts after the first
-#: (a random start would lose the nested reading it is there to keep).
-START_NOISE = 0.2
 #: How much more the TST of the lowest-BIC fit from the priors alone must deepen (the
 #: score of :func:`faciesseq.hmm.identity.deepening_scores`) than that of the
 #: lowest-BIC nested fit for it to be kept. Set on 18 fits of known tracts, then checked on 42
@@ -71,8 +67,6 @@ def reduced_tract_model(tract_model: TractModel) -> TractModel | None:
     where there is no such tract or fewer than two tracts would be left."""
     from dataclasses import replace
 
-    from faciesseq.hmm.graphs import with_allowed_surfaces
-
     left_out = {c for c in tract_model.skips if tract_model.tract(c).trend != "deepening"}
     order = tuple(c for c in tract_model.order if c not in left_out)
     if not left_out or len(order) < 2:
@@ -84,7 +78,7 @@ def reduced_tract_model(tract_model: TractModel) -> TractModel | None:
         skips=(),
         substates={c: n for c, n in tract_model.substates.items() if c in order},
     )
-    return with_allowed_surfaces(reduced)
+    return reduced.with_allowed_surfaces()
 
 
 def fit_reduced(model, succ, tract_model: TractModel):
