@@ -20,6 +20,8 @@ from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.engine import (
     Posteriors,
+    batches,
+    best_path,
     constrained_log_emission,
     forward_backward,
     log_likelihood,
@@ -640,7 +642,7 @@ def test_max_plus_step_is_exact(sparse, wide, monkeypatch):
     # delta (dead states), a state no other state reaches (sparse graph), work
     # split into chunks of 3 sequences, fewer sequences than the previous step
     # held, and widths changing between calls.
-    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
+    monkeypatch.setattr(best_path, "_WIDE_STEP", 1 if wide else 10**6)
     rng = np.random.default_rng(8)
     K, n = 9, 20
     transmat = _tract_graph(rng, K) if sparse else rng.dirichlet(np.ones(K), size=K)
@@ -654,8 +656,8 @@ def test_max_plus_step_is_exact(sparse, wide, monkeypatch):
     expected = (delta[:, None, :] + log_A[:, :, None]).max(axis=0)
     cells_per_sequence = (3 if sparse else K) * K
     for span in (n, 3):
-        monkeypatch.setattr(engine, "_STEP_CELLS", span * cells_per_sequence)
-        step = engine._MaxPlus(log_A, n)
+        monkeypatch.setattr(best_path, "_STEP_CELLS", span * cells_per_sequence)
+        step = best_path._MaxPlus(log_A, n)
         assert (step.sparse, step.span) == (sparse, span)
         for m in (n, 7, 16, n):
             out = np.full((K, m), np.nan)
@@ -670,7 +672,7 @@ def test_back_step_takes_the_lowest_of_tied_predecessors(wide, monkeypatch):
     # predecessors, a forbidden predecessor holding the largest delta, a column
     # of -inf (all candidates tied), and fewer results asked than columns given;
     # in the layouts of narrow and of wide steps.
-    monkeypatch.setattr(engine, "_WIDE_STEP", 1 if wide else 10**6)
+    monkeypatch.setattr(best_path, "_WIDE_STEP", 1 if wide else 10**6)
     K = 4
     with np.errstate(divide="ignore"):
         log_A = np.log(
@@ -692,7 +694,7 @@ def test_back_step_takes_the_lowest_of_tied_predecessors(wide, monkeypatch):
     state = np.array([0, 1, 2, 1, 0])
     expected = (delta + log_A[:, state]).argmax(axis=0)
     assert expected.tolist() == [1, 0, 2, 0, 3]
-    back = engine._BackStep(log_A, 8)
+    back = best_path._BackStep(log_A, 8)
     wider = np.hstack([delta, np.zeros((K, 3))])  # the previous step held more columns
     for n in (5, 3):
         out = np.full(n, -1)
@@ -731,7 +733,7 @@ def test_viterbi_padding_columns_change_no_path(batch_size, wide_step, monkeypat
     # time, and the same total as hmmlearn 0.3.3 CategoricalHMM decode. Every
     # step laid out as a wide one (padded), the steps of 32 sequences or more
     # (then the narrower ones as narrow steps), or every step as a narrow one.
-    monkeypatch.setattr(engine, "_WIDE_STEP", wide_step)
+    monkeypatch.setattr(best_path, "_WIDE_STEP", wide_step)
     rng = np.random.default_rng(16)
     K, n_symbols = 6, 9
     startprob, transmat, emission = _random_model(rng, K, n_symbols)
@@ -762,7 +764,7 @@ def test_viterbi_with_steps_in_chunks(case, monkeypatch):
     # sequences per batch) gives the same numbers as one chunk.
     startprob, transmat, _, lengths, _, le = case
     path_ref, lp_ref = viterbi(le, lengths, startprob, transmat)
-    monkeypatch.setattr(engine, "_STEP_CELLS", 3 * 5 * 5)  # 3 sequences per chunk
+    monkeypatch.setattr(best_path, "_STEP_CELLS", 3 * 5 * 5)  # 3 sequences per chunk
     path, lp = viterbi(le, lengths, startprob, transmat)
     np.testing.assert_array_equal(path, path_ref)
     np.testing.assert_array_equal(lp, lp_ref)
@@ -781,8 +783,8 @@ def test_lockstep_batches_are_the_batches_of_the_engine(lengths, batch_size):
     # Viterbi's batches (rows from a grid, step and position on demand) hold the
     # same sequences, steps and rows as the batches forward-backward uses.
     lengths = np.array(lengths)
-    ours = list(engine._lockstep_batches(lengths, batch_size))
-    theirs = list(engine._batches(lengths, batch_size))
+    ours = list(best_path._lockstep_batches(lengths, batch_size))
+    theirs = list(batches._batches(lengths, batch_size))
     assert len(ours) == len(theirs)
     for a, b in zip(ours, theirs):
         for name in ("seq", "lengths", "counts", "offsets", "rows", "last", "step", "position"):
