@@ -8,6 +8,7 @@ reached the boosted trees and a labelled fit died with a traceback.
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pandas as pd
@@ -54,6 +55,10 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     assert no_contacts == (labelled is None and "contact" not in extra)
     out = tmp_path / "decoded"
     assert main(["decode", str(model), str(source), "-o", str(out)]) == 0
+    # the model file keeps the fit's cautions, and decode repeats them
+    recorded = json.loads(model.read_text())["training"]["cautions"]
+    assert any("no contact types" in c for c in recorded) == no_contacts
+    assert ("no contact types" in capsys.readouterr().out) == no_contacts
     tracts = pd.read_csv(out / "tracts.csv", comment="#")
     assert len(tracts) > 0
     assert tracts["tract"].isin(["HST", "FSST", "LST", "TST"]).all()

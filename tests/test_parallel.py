@@ -315,14 +315,13 @@ def test_chunked_e_step_byte_identical_serial_local_and_on_dask(cluster, monkeyp
 
 
 def test_restarts_as_jobs_run_their_chunks_in_turn_with_the_same_result(monkeypatch):
-    from faciesseq.hmm import em
-    from faciesseq.hmm import model as model_module
+    from faciesseq.hmm import em, restarts
 
     _, serial = _chunked_fit(labels=True, n_restarts=2)  # labelled: the per-bed E-step
     _, local = _chunked_fit(labels=True, n_restarts=2, n_jobs=2)  # restarts in two processes
     assert local == serial
     # the restarts of a parallel fit run in this process here, to see their workers
-    monkeypatch.setattr(model_module, "run_jobs", lambda f, jobs, n, s: [f(*a) for a in jobs])
+    monkeypatch.setattr(restarts, "run_jobs", lambda f, jobs, n, s: [f(*a) for a in jobs])
     workers = []
 
     class Recorded(em.Workers):

@@ -18,7 +18,7 @@ import pytest
 from _stacking import methods_text
 
 from faciesseq.cli import main
-from faciesseq.hmm.identity import single_bed_caution
+from faciesseq.hmm.cautions import single_bed_caution
 from faciesseq.hmm.modelfile import load_model
 from faciesseq.hmm.states import SHORT_VISIT, StateSpace
 from faciesseq.scheme import default_tract_model
@@ -91,6 +91,7 @@ def test_fit_and_the_methods_say_it_where_the_model_has_such_a_tract(tmp_path, c
     for tract in short:
         assert f"{tract} {short[tract]:.1f}" in text
     assert ("Caution: " in methods_text(model)) == bool(short)
+    assert "Note: the source has no contact types" in methods_text(model)
     assert main(["decode", str(model_path), str(source), "-o", str(tmp_path / "out")]) == 0
     assert ("caution: " in capsys.readouterr().out) == bool(short)
     assert main([*args, "--force", "--format", "json"]) == 0
@@ -124,3 +125,4 @@ def test_the_appendix_without_labels_fits_the_model_fit_fits_and_cautions(tmp_pa
         return " ".join(blocks + [text(sub) for sub in section.subsections])
 
     assert ("Caution: " in text(methods)) == bool(short)
+    assert "Note: the source has no contact types" in text(methods)  # no contact column

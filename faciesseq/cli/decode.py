@@ -413,7 +413,7 @@ def _overall_agreement(agreement) -> float | None:
 
 def _print_text(args, model, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_summary
-    from faciesseq.hmm.identity import single_bed_caution
+    from faciesseq.hmm.cautions import fit_cautions
 
     head, wells, agreement = written.summary()
     print(
@@ -428,8 +428,7 @@ def _print_text(args, model, scheme, written: _Written) -> None:
             f"{100 * _overall_agreement(agreement):.1f} % of {int(agreement['beds'].sum())} "
             f"labelled beds in {len(agreement)} core(s)"
         )
-    caution = single_bed_caution(model)
-    if caution:
+    for caution in fit_cautions(model):
         print(f"{caution} (the model's own fit)")
     shown = "csv, and LAS files in las/" if args.format == "las" else args.format
     print(f"written to {args.output}/ (tracts, surfaces, picks, tops as {shown})")

@@ -328,7 +328,7 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     The text lists the first wells only, so only they are decoded (at 10^6 beds,
     decoding every core for 30 lines was 6.8 of the fit's 33 s of CPU)."""
     from faciesseq.cli._summary import WELL_LIMIT, print_json, print_summary, summary_document
-    from faciesseq.hmm.identity import single_bed_caution, single_bed_tracts
+    from faciesseq.hmm.cautions import contact_caution, fit_cautions, single_bed_tracts
 
     model = selection.best
     if args.format == "json":
@@ -337,7 +337,7 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         document = summary_document(interp, scheme, "fit", output=str(args.output))
         durations = _durations(model, interp, scheme)
         short = single_bed_tracts(model)
-        notes = {"single_bed_tracts": short, "contact_note": contact_note(model)}
+        notes = {"single_bed_tracts": short, "contact_note": contact_caution(model)}
         print_json({**document, "tract_durations": durations, **notes})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
@@ -346,31 +346,10 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     _print_fit(args, selection)
     units = next(iter(interp)).units if len(interp) else ""
     print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
-    for caution in (single_bed_caution(model), contact_note(model)):
-        if caution:
-            print(caution)
+    for caution in fit_cautions(model):
+        print(caution)
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
-
-
-def contact_note(model) -> str | None:
-    """A note where a fit without labels, on the default features, read no contact
-    types (the source has none): the falling stage's sharp or erosional base (the
-    regressive surface of marine erosion under a sharp-based shoreface; common
-    practice) is its clearest mark without labels.
-    Measured on the stacking generator's shoreface cores written without contacts
-    (``configs/stacking-minimal-table.yaml``, report seeds): falling-stage recall
-    0.51 -> 0.22, balanced accuracy 0.854 -> 0.776; three labelled cores 0.972."""
-    if getattr(model, "n_labelled_", 0) or model.features is not None:
-        return None  # labelled, or the features chosen by the user
-    if "contact" in model.features_ or not model._reads_context():
-        return None
-    return (
-        "note: the source has no contact types (a contact column: sharp, erosional, "
-        "gradational), so the falling stage's sharp or erosional base is not seen; on "
-        "simulated shoreface cores without them its recall fell from 0.51 to 0.22 "
-        "(docs/hmm.md); record contacts, or label a few cores (--labels)"
-    )
 
 
 def _first_cores(successions, n: int):

@@ -22,13 +22,11 @@ import numpy as np
 
 from faciesseq.hmm.context import CONTEXT_BINS, ContextEmission, bin_centres
 from faciesseq.hmm.emissions import CategoricalEmission, EmissionPiece
-from faciesseq.hmm.states import SHORT_VISIT, StateSpace
+from faciesseq.hmm.states import StateSpace
 
 __all__ = [
     "deepening_scores",
     "deepening_tracts",
-    "single_bed_caution",
-    "single_bed_tracts",
     "turn",
 ]
 
@@ -92,36 +90,3 @@ def turn(
     A = 0.9 * np.where(rows > 0, A / np.where(rows > 0, rows, 1.0), uniform) + 0.1 * uniform
     pi = 0.9 * startprob[perm] / startprob.sum() + 0.1 / len(startprob)
     return list(pieces), pi, A
-
-
-def single_bed_tracts(model) -> dict[str, float]:
-    """The tracts a fit without labels spends on single beds, with their beds per visit
-    (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`); none for a fit with labels."""
-    if getattr(model, "n_labelled_", 0):
-        return {}
-    return model.states_.short_tracts(model.transmat_)
-
-
-def single_bed_caution(model) -> str | None:
-    """A caution where a fit without labels spends a tract on single beds
-    (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`), else None.
-
-    On simulated cores of known tracts, fits without labels with such a tract read
-    the tracts worse, and the short tract was the one misread: its beds, or those of
-    its neighbour named after it (``benchmarks/tract_model.md``, "A tract spent on
-    single beds")."""
-    short = single_bed_tracts(model)
-    if not short:
-        return None
-    listed = ", ".join(f"{t} {b:.1f}" for t, b in short.items())
-    one = len(short) == 1
-    return (
-        f"caution: {', '.join(short)} {'lasts' if one else 'last'} fewer than "
-        f"{SHORT_VISIT:g} beds per visit of the fitted chain ({listed}): a tract is a stack "
-        "of parasequences, and on simulated cores fits without labels that spent a tract on "
-        "single beds misread it, or named a neighbouring tract after it (mean balanced "
-        "accuracy 0.55-0.60 against 0.73-0.79 for the other fits); read "
-        f"{'that tract and its' if one else 'those tracts and their'} neighbours as unsure, "
-        "or label a few cores (fit --labels); where a cycle is itself one or two beds (thin "
-        "cyclothems), tracts this short are expected"
-    )

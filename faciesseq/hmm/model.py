@@ -19,8 +19,6 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 
 from __future__ import annotations
 
-import copy
-import dataclasses
 import math
 import warnings
 from collections.abc import Mapping, Sequence
@@ -32,9 +30,9 @@ import pandas as pd
 from faciesseq.core import CoreSet, Succession, SuccessionTable
 from faciesseq.cycles import CONTEXT_FEATURES, beds_per_cycle, cycle_inputs
 from faciesseq.errors import ConfigError, InputError
-from faciesseq.hmm import engine
+from faciesseq.hmm import engine, nested
 from faciesseq.hmm.baseline import trend_rule
-from faciesseq.hmm.context import ContextEmission, evidence_weights
+from faciesseq.hmm.context import evidence_weights
 from faciesseq.hmm.decoding import Decoding, _succession_table
 from faciesseq.hmm.em import (
     CHUNK_BEDS,
@@ -48,8 +46,8 @@ from faciesseq.hmm.emissions import EmissionPiece
 from faciesseq.hmm.encoding import EncodedBeds, encode_beds
 from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels
 from faciesseq.hmm.pieces import make_piece
+from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.states import StateSpace
-from faciesseq.parallel import run_jobs
 from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
@@ -145,7 +143,7 @@ def _distinct(tables: Sequence[pd.DataFrame], column: str) -> set[str]:
     return out
 
 
-class TractHMM(ExpectationMaximisation, Decoding):
+class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     """Hidden Markov model whose hidden states are systems tracts.
 
     Parameters
@@ -597,32 +595,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
             yield start, stop, lengths[i : j + 1], i
             start, i = stop, j + 1
 
-    def _named_runs(self, runs: list[dict], data: TrainingData, progress) -> list[dict]:
-        """Mark (``named``) the restarts whose most deepening state carries the
-        deepening tract's name (:mod:`faciesseq.hmm.identity`); when none does, turn
-        the best one round the cycle and run EM again from there (an extra run, the
-        only one marked). Fits without context pieces, or with other than one
-        deepening tract, are left as they are."""
-        from faciesseq.hmm.identity import deepening_scores, deepening_tracts, turn
-
-        deep = deepening_tracts(self.tract_model_)
-        scores = [deepening_scores(r["pieces"], self.states_.n_tracts) for r in runs]
-        if len(deep) != 1 or any(s is None for s in scores) or data.clamp is not None:
-            return runs
-        for r, s in zip(runs, scores):
-            r["named"] = int(np.argmax(s)) == deep[0]
-        if any(r["named"] for r in runs):
-            return runs
-        best = max(runs, key=lambda r: r["objective"])
-        shift = int(np.argmax(scores[runs.index(best)])) - deep[0]
-        start = turn(best["pieces"], best["startprob"], best["transmat"], self.states_, shift)
-        if start is None:  # no turned start to run from: every restart stays a candidate
-            return [{**r, "named": True} for r in runs]
-        again = self._run(data, best["seed"], len(runs), progress, start)
-        again.update(named=True, turned=shift)
-        return [*runs, again]
-
-    # ------------------------------------------------------------------ API
     def fit(
         self,
         successions: CoreSet | Sequence[Succession],
@@ -730,12 +702,12 @@ class TractHMM(ExpectationMaximisation, Decoding):
         :mod:`faciesseq.hmm.graphs` are fitted by this, so that their ICLs compare fits
         of one kind) and, where ``calibration_folds`` is above 0, without the
         calibration, which it leaves to :meth:`calibrate`."""
-        self.weights_rejected_ = self.nested_start_ = None
+        self.weights_rejected_ = self.nested_start_ = self.cautions_ = None
         if self.graph == "auto" and self.tract_model is None and labels is None:
             return self._fit_choosing_graph(succ, progress)
         data, n_labelled = self._training_data(succ, labels)
         if labels is None:
-            data = self._with_nested_start(succ, data)
+            data = nested.with_nested_start(self, succ, data)
         rng = (
             self.random_state
             if isinstance(self.random_state, np.random.Generator)
@@ -758,31 +730,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
         if not int(self.calibration_folds):  # records why the fit is not calibrated
             self.calibrate()
         return self
-
-    def _with_nested_start(self, succ: SuccessionTable, data: TrainingData) -> TrainingData:
-        """``data`` with the starting weights of :mod:`faciesseq.hmm.nested`: from the
-        fit handed over by :func:`~faciesseq.hmm.graphs.choose_graph` (``nested_from_``)
-        or one made here from this fit's tract model; unchanged where there is none or
-        its vocabularies are not this fit's."""
-        from faciesseq.hmm import nested
-
-        warm = getattr(self, "warm_start_", None)
-        if warm is not None:  # one EM run from a fit on a sample, which had the start
-            self.nested_start_ = getattr(warm, "nested_start_", None)
-            return data
-        reduced = getattr(self, "nested_from_", None)
-        if reduced is None and self.nested_start and self._reads_context():
-            reduced = nested.fit_reduced(self, succ, self.tract_model_)
-        if reduced is None or not self._same_coding(reduced):
-            return data
-        self.nested_start_ = {
-            "tracts": list(reduced.tract_model_.order),
-            "left_out": [c for c in self.tract_model_.order if c not in reduced.tract_model_.order],
-            "share": nested.SHARE,
-            "log_likelihood": float(reduced.log_likelihood_),
-        }
-        start = nested.start_weights(reduced, data.beds, self.tract_model_.order)
-        return dataclasses.replace(data, start=start)
 
     def _same_coding(self, other: TractHMM) -> bool:
         """Whether ``other`` codes beds as this fit does (vocabularies and features)."""
@@ -833,68 +780,6 @@ class TractHMM(ExpectationMaximisation, Decoding):
         trained = self._train_static(beds, clamp)
         static = self._static_log_prob(list(trained.values()), beds)
         return TrainingData(beds, clamp, ranks, rule, cores, static, trained), n_labelled
-
-    def _restarts(self, data: TrainingData, rng: np.random.Generator, progress) -> list[dict]:
-        """The EM runs of a fit: one per restart seed, or one from a fit on a sample."""
-        seeds = [int(x) for x in rng.integers(0, 2**31 - 1, size=int(self.n_restarts))]
-        warm = self._warm_start_from(getattr(self, "warm_start_", None))
-        if warm is not None:  # one run from a fit on a sample (graphs.choose_graph)
-            self._refit_beds = data.beds  # for the calibration of _fit_choosing_graph
-            return [{**self._run(data, seeds[0], 0, progress, warm), "from_sample": True}]
-        if self._parallel() and len(seeds) > 1:
-            # inside a restart, the chunks of a large E-step run in turn (no nested jobs)
-            jobs = [(data, s, r, None, None, False) for r, s in enumerate(seeds)]
-            runs = run_jobs(self._run, jobs, self.n_jobs, self.scheduler)
-            if progress is not None:  # once per finished restart
-                for r, run in enumerate(runs):
-                    progress(r, run["monitor"].iter, run["objective"])
-            return runs
-        return [self._run(data, s, r, progress) for r, s in enumerate(seeds)]
-
-    def _keep_best(self, runs: list[dict]) -> None:
-        """The parameters of the best named run, and a record of every run."""
-        kept = [r for r in range(len(runs)) if runs[r].get("named", True)]
-        best = max(kept, key=lambda r: runs[r]["objective"])
-        run = runs[best]
-        self.emissions_ = run["pieces"]
-        self.startprob_ = run["startprob"]
-        self.transmat_ = run["transmat"]
-        self.monitor_ = run["monitor"]
-        self.log_likelihood_ = float(run["log_likelihood"])
-        self.tract_changes_ = float(run["tract_changes"])
-        self.objective_ = float(run["objective"])
-        self.best_restart_ = best
-        self.restarts_ = [
-            {
-                "restart": r,
-                "seed": x["seed"],
-                "objective": float(x["objective"]),
-                "log_likelihood": float(x["log_likelihood"]),
-                "n_iter": x["monitor"].iter,
-                "converged": x["monitor"].reached_tolerance,
-                "history": list(x["monitor"].history),
-                "named": bool(x.get("named", True)),
-                **({"from_sample": True} if x.get("from_sample") else {}),
-                **({"turned": x["turned"]} if "turned" in x else {}),
-            }
-            for r, x in enumerate(runs)
-        ]
-
-    def _warm_start_from(self, other: TractHMM | None) -> tuple | None:
-        """``(pieces, startprob, transmat)`` copied from ``other``, a fit of the same
-        settings on a sample, when its vocabularies, features and states are this
-        fit's; else None (the fit runs its restarts)."""
-        if other is None:
-            return None
-        if not (self._same_coding(other) and other.states_.labels() == self.states_.labels()):
-            return None
-        pieces, startprob, transmat = copy.deepcopy(
-            (other.emissions_, other.startprob_, other.transmat_)
-        )
-        for p in pieces:  # weighed as this fit's beds are (the sample's cycles differ)
-            if isinstance(p, ContextEmission):
-                p.weight = self.evidence_weights_.get(p.feature, 1.0)
-        return pieces, startprob, transmat
 
     def _calibrate_without_labels(self, succ, rng, beds: EncodedBeds | None = None) -> None:
         """Temperature from cores simulated from the fitted model

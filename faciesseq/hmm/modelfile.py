@@ -48,6 +48,7 @@ from faciesseq._version import __version__
 from faciesseq.core import PROVENANCE, CoreTable
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
+from faciesseq.hmm.cautions import fit_cautions
 from faciesseq.hmm.model import RANK_FEATURES, ConvergenceMonitor, TractHMM
 from faciesseq.hmm.pieces import piece_from_dict
 from faciesseq.hmm.states import StateSpace
@@ -151,6 +152,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         training["evidence_weights_rejected"] = model.weights_rejected_
     if getattr(model, "nested_start_", None):
         training["nested_start"] = model.nested_start_
+    training["cautions"] = fit_cautions(model)
     run = {"created": datetime.now(UTC).isoformat(timespec="seconds")}
     for key, value in dict(provenance or {}).items():
         (run if key in RUN_KEYS else training)[key] = value
@@ -267,6 +269,8 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.graph_selection_ = list(training.get("graph_selection", []))
     model.weights_rejected_ = training.get("evidence_weights_rejected")
     model.nested_start_ = training.get("nested_start")
+    if "cautions" in training:  # files made before: computed again from the model
+        model.cautions_ = [str(c) for c in training["cautions"]]
     model.best_restart_ = int(training.get("best_restart") or 0)
     history = []
     if model.best_restart_ < len(model.restarts_):
@@ -420,6 +424,7 @@ _TRAINING_TYPES = {
     "graph_selection": list,
     "evidence_weights_rejected": dict,
     "nested_start": dict,
+    "cautions": list,
 }  # "calibration" may be anything: the report says when it is not a record
 
 

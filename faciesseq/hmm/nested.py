@@ -37,6 +37,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from faciesseq.hmm.em import TrainingData
 from faciesseq.hmm.encoding import EncodedBeds
 from faciesseq.scheme import TractModel
 
@@ -48,6 +49,7 @@ __all__ = [
     "reduced_tract_model",
     "start_weights",
     "tst_deepening",
+    "with_nested_start",
 ]
 
 #: Share of the posterior of each kept neighbour that a left-out tract starts with.
@@ -148,3 +150,30 @@ def kept_start(nested_fit, priors_fit) -> dict:
         "tst_deepening": deep,
         "margin": PRIORS_MARGIN,
     }
+
+
+def with_nested_start(model, succ, data: TrainingData) -> TrainingData:
+    """``data`` of a fit of ``model`` without labels with the starting weights of the
+    nested start: from the fit handed over by
+    :func:`~faciesseq.hmm.graphs.choose_graph` (``model.nested_from_``) or one made
+    here from the model's tract graph; unchanged where there is none or its
+    vocabularies are not the model's. Records ``model.nested_start_``."""
+    from dataclasses import replace
+
+    warm = getattr(model, "warm_start_", None)
+    if warm is not None:  # one EM run from a fit on a sample, which had the start
+        model.nested_start_ = getattr(warm, "nested_start_", None)
+        return data
+    reduced = getattr(model, "nested_from_", None)
+    if reduced is None and model.nested_start and model._reads_context():
+        reduced = fit_reduced(model, succ, model.tract_model_)
+    if reduced is None or not model._same_coding(reduced):
+        return data
+    order = model.tract_model_.order
+    model.nested_start_ = {
+        "tracts": list(reduced.tract_model_.order),
+        "left_out": [c for c in order if c not in reduced.tract_model_.order],
+        "share": SHARE,
+        "log_likelihood": float(reduced.log_likelihood_),
+    }
+    return replace(data, start=start_weights(reduced, data.beds, order))

@@ -229,9 +229,8 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         hmm.add(Paragraph(nested))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
-    short = _single_bed_text(model) if context else None
-    if short:
-        hmm.add(Paragraph(short, kind="note"))
+    for caution in _caution_texts(model) if context else ():
+        hmm.add(Paragraph(caution, kind="note"))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
     extra = (
@@ -244,15 +243,17 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     return s
 
 
-def _single_bed_text(model: Any) -> str | None:
-    """The caution of :func:`faciesseq.hmm.identity.single_bed_caution`, as a sentence."""
-    from faciesseq.hmm.identity import single_bed_caution
+def _caution_texts(model: Any) -> list[str]:
+    """The cautions of :func:`faciesseq.hmm.cautions.fit_cautions`, as sentences."""
+    from faciesseq.hmm.cautions import fit_cautions
 
-    caution = single_bed_caution(model)
-    if not caution:
-        return None
-    text = caution.removeprefix("caution: ")
-    return "Caution: " + text.replace(" (fit --labels)", " (faciesseq fit --labels)") + "."
+    out = []
+    for caution in fit_cautions(model):
+        kind, text = caution.split(": ", 1)
+        text = text.replace("(fit --labels)", "(faciesseq fit --labels)")
+        text = text.replace("(--labels)", "(faciesseq fit --labels)")
+        out.append(f"{kind.capitalize()}: {text}.")
+    return out
 
 
 def _successions_paragraph(unit: str) -> Paragraph:

@@ -1,0 +1,78 @@
+"""What a fit without labels warns of: cautions printed by ``fit`` and ``decode`` and
+written into the appendix's methods.
+
+Each caution reads the fitted model alone, names what it saw and the measured loss
+beside it, and says what the geologist can do (label a few cores, record contacts).
+A fit with labels has none of these; the contact caution also stays silent where
+the user chose the features.
+"""
+
+from __future__ import annotations
+
+from faciesseq.hmm.states import SHORT_VISIT
+
+__all__ = ["contact_caution", "fit_cautions", "single_bed_caution", "single_bed_tracts"]
+
+
+def fit_cautions(model) -> list[str]:
+    """Every caution of a fitted model, in the order the outputs print them: those the
+    model file recorded at the fit (``training.cautions``; what the fit saw of its
+    source, such as its default features, is not in the model), else read from the
+    model."""
+    stored = getattr(model, "cautions_", None)
+    if stored is not None:
+        return list(stored)
+    return [c for c in (single_bed_caution(model), contact_caution(model)) if c]
+
+
+def single_bed_tracts(model) -> dict[str, float]:
+    """The tracts a fit without labels spends on single beds, with their beds per visit
+    (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`); none for a fit with labels."""
+    if getattr(model, "n_labelled_", 0):
+        return {}
+    return model.states_.short_tracts(model.transmat_)
+
+
+def single_bed_caution(model) -> str | None:
+    """A caution where a fit without labels spends a tract on single beds
+    (:meth:`~faciesseq.hmm.states.StateSpace.short_tracts`), else None.
+
+    On simulated cores of known tracts, fits without labels with such a tract read
+    the tracts worse, and the short tract was the one misread: its beds, or those of
+    its neighbour named after it (``benchmarks/tract_model.md``, "A tract spent on
+    single beds")."""
+    short = single_bed_tracts(model)
+    if not short:
+        return None
+    listed = ", ".join(f"{t} {b:.1f}" for t, b in short.items())
+    one = len(short) == 1
+    return (
+        f"caution: {', '.join(short)} {'lasts' if one else 'last'} fewer than "
+        f"{SHORT_VISIT:g} beds per visit of the fitted chain ({listed}): a tract is a stack "
+        "of parasequences, and on simulated cores fits without labels that spent a tract on "
+        "single beds misread it, or named a neighbouring tract after it (mean balanced "
+        "accuracy 0.55-0.60 against 0.73-0.79 for the other fits); read "
+        f"{'that tract and its' if one else 'those tracts and their'} neighbours as unsure, "
+        "or label a few cores (fit --labels); where a cycle is itself one or two beds (thin "
+        "cyclothems), tracts this short are expected"
+    )
+
+
+def contact_caution(model) -> str | None:
+    """A note where a fit without labels, on the default features, read no contact
+    types (the source has none): the falling stage's sharp or erosional base (the
+    regressive surface of marine erosion under a sharp-based shoreface; common
+    practice) is its clearest mark without labels.
+    Measured on the stacking generator's shoreface cores written without contacts
+    (``configs/stacking-minimal-table.yaml``, report seeds): falling-stage recall
+    0.51 -> 0.22, balanced accuracy 0.854 -> 0.776; three labelled cores 0.972."""
+    if getattr(model, "n_labelled_", 0) or model.features is not None:
+        return None  # labelled, or the features chosen by the user
+    if "contact" in model.features_ or not model._reads_context():
+        return None
+    return (
+        "note: the source has no contact types (a contact column: sharp, erosional, "
+        "gradational), so the falling stage's sharp or erosional base is not seen; on "
+        "simulated shoreface cores without them its recall fell from 0.51 to 0.22 "
+        "(docs/hmm.md); record contacts, or label a few cores (--labels)"
+    )
