@@ -26,7 +26,8 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 from faciesseq.core import CoreSet  # noqa: E402
-from faciesseq.hmm.model import DEFAULT_UNLABELLED_FEATURES, TractHMM  # noqa: E402
+from faciesseq.hmm.features import DEFAULT_UNLABELLED_FEATURES  # noqa: E402
+from faciesseq.hmm.model import TractHMM  # noqa: E402
 from faciesseq.scheme import default_tract_model, load_scheme  # noqa: E402
 from faciesseq.simulate import load_stacking_scenario, simulate_stacking  # noqa: E402
 

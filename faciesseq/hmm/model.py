@@ -44,6 +44,11 @@ from faciesseq.hmm.em import (
 )
 from faciesseq.hmm.emissions import EmissionPiece
 from faciesseq.hmm.encoding import EncodedBeds, encode_beds
+from faciesseq.hmm.features import (
+    DEFAULT_FEATURES,
+    FEATURES,
+    resolve_features,
+)
 from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.restarts import Restarts
@@ -62,36 +67,6 @@ __all__ = [
     "TractHMM",
 ]
 
-#: Emission features with a fixed meaning; any other name is a numeric bed attribute.
-FEATURES = (
-    "facies",
-    "facies_trend",
-    "thickness",
-    "contact",
-    "rank_step",
-    "rank_step_above",
-    "rank_trend",
-    "stacking",
-)
-#: Used when ``features=None`` ("contact" only where the beds have contact types,
-#: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
-#: "rank_trend" is opt-in: it helps on simulated cores, hurts on cores whose
-#: lowstand deepens (see docs/hmm.md, measured accuracy).
-DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
-#: Used when ``features=None`` and beds are labelled (supervised or semi-supervised
-#: fits): the stacking-pattern classifier learnt from the labelled beds. Measured
-#: on simulated cores in benchmarks/hmm_model.md.
-DEFAULT_LABELLED_FEATURES = (*DEFAULT_FEATURES, "stacking")
-#: Features computed from the facies ranks of the scheme.
-RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking", *CONTEXT_FEATURES)
-#: Used when ``features=None``, no bed is labelled and a scheme gives ranks: the
-#: stacking context of every bed (its cycle against the cycles below and above,
-#: the trend and position of proximality around it), the contact type and the rank
-#: jump at the bed's base (the downward shift at a forced-regressive contact; +0.02
-#: balanced accuracy on the tuning seeds). The facies-to-facies table is left out:
-#: without labels it learns the position inside a parasequence, present in every
-#: tract, instead of the tract.
-DEFAULT_UNLABELLED_FEATURES = (*CONTEXT_FEATURES, "contact", "rank_step")
 #: Sub-states per tract of fits on the stacking context (phase-type durations).
 CONTEXT_SUBSTATES = 3
 
@@ -356,52 +331,6 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             raise ConfigError(f"weigh_evidence must be true, false or in (0, 1], got {w!r}")
         if not isinstance(self.nested_start, bool):
             raise ConfigError(f"nested_start must be true or false, got {self.nested_start!r}")
-
-    def _resolve_features(
-        self, tables: Sequence[pd.DataFrame], labelled: bool = False
-    ) -> tuple[str, ...]:
-        columns = set().union(*(t.columns for t in tables)) if tables else set()
-        if self.features is None:
-            if labelled:
-                defaults = DEFAULT_LABELLED_FEATURES
-            elif self.scheme is not None and self.unit == "beds":
-                defaults = DEFAULT_UNLABELLED_FEATURES
-            else:
-                defaults = DEFAULT_FEATURES
-            feats = [
-                f
-                for f in defaults
-                if (f not in ("contact", "cycle_sharpness") or "contact" in columns)
-                and (f not in RANK_FEATURES or self.scheme is not None)
-                and (f != "setting" or self.scheme.tells_settings)
-                and (f != "exposure" or self.scheme.marks_exposure)
-            ]
-            if self.unit == "grid":  # every cell has the grid step as its thickness
-                feats.remove("thickness")
-        else:
-            feats = [str(f) for f in self.features]
-        if not feats:
-            raise ConfigError("at least one emission feature is needed")
-        if len(set(feats)) != len(feats):
-            raise ConfigError(f"features listed twice: {feats}")
-        if "facies" in feats and "facies_trend" in feats:
-            raise ConfigError("use 'facies' or 'facies_trend', not both (the trend includes it)")
-        if not ({"facies", "facies_trend", *CONTEXT_FEATURES} & set(feats)):
-            raise ConfigError(
-                "the features must include 'facies', 'facies_trend' or a context feature "
-                f"({', '.join(CONTEXT_FEATURES)})"
-            )
-        for f in feats:
-            if f in RANK_FEATURES:
-                if self.scheme is None:
-                    raise ConfigError(f"feature {f!r} needs a facies scheme with ranks (--scheme)")
-                continue
-            if f not in ("facies", "facies_trend") and f not in columns:
-                raise ConfigError(
-                    f"feature {f!r} needs a bed column {f!r}, which the data lacks "
-                    f"(columns: {sorted(map(str, columns))})"
-                )
-        return tuple(feats)
 
     def _reads_context(self) -> bool:
         """Whether the emissions read the stacking context (their priors pin the
@@ -750,7 +679,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             self._default_graph = self._graph_from_labels(succ, labels)
         self.states_ = StateSpace.build(self.tract_model_, self.substates)
         clamp, n_labelled = self._labels(succ, labels)
-        self.features_ = self._resolve_features(tables, labelled=n_labelled > 0)
+        self.features_ = resolve_features(
+            self.features, tables, self.scheme, self.unit, labelled=n_labelled > 0
+        )
         if self._reads_context() and self.substates is None:
             self.states_ = StateSpace.build(self.tract_model_, CONTEXT_SUBSTATES)
         if "stacking" in self.features_ and n_labelled == 0:

@@ -49,7 +49,8 @@ from faciesseq.core import PROVENANCE, CoreTable
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
 from faciesseq.hmm.cautions import fit_cautions
-from faciesseq.hmm.model import RANK_FEATURES, ConvergenceMonitor, TractHMM
+from faciesseq.hmm.features import RANK_FEATURES
+from faciesseq.hmm.model import ConvergenceMonitor, TractHMM
 from faciesseq.hmm.pieces import piece_from_dict
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import FaciesScheme, TractModel
