@@ -747,13 +747,26 @@ def permissive_tract_model() -> TractModel:
     return TractModel.from_dict(yaml.safe_load(text), source=f"faciesseq:{path}")
 
 
-def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
+def draft_scheme(
+    codes: Iterable[Any],
+    name: str = "draft scheme",
+    suggested: Mapping[str, int] | None = None,
+    fill: bool = False,
+) -> str:
     """A starting facies scheme (YAML text) listing ``codes``, ranks left to fill in.
 
     The ranks are written as ``null`` with a ``TODO`` comment so that loading
-    the draft fails until a geologist has given every facies its rank.
+    the draft fails until a geologist has given every facies its rank. With
+    ``suggested`` ranks (:func:`faciesseq.markov.seriation.suggest_ranks`) the facies
+    are listed in that order and each comment gives its suggestion; with ``fill``
+    the suggestions are written as the ranks, each marked to be checked.
     """
-    unique = sorted({_code(c) for c in codes}, key=lambda c: (len(c), c))
+    suggested = {str(k): int(v) for k, v in (suggested or {}).items()}
+    unique = sorted(
+        {_code(c) for c in codes},
+        key=lambda c: (c not in suggested, suggested.get(c, 0), len(c), c),
+    )
+    filled = fill and bool(suggested)
     lines = [
         f"# {name}: written by `faciesseq scheme draft` from the codes found in the data.",
         "# Fill in every 'rank' (proximality / relative water depth: 0 = most landward",
@@ -762,6 +775,12 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
         f"name: {yaml.safe_dump(name).strip().removesuffix('...').strip()}",
         "facies:",
     ]
+    if filled:
+        lines[1:4] = [
+            "# The ranks were suggested from the upward transitions of the data (Walther's",
+            "# law; faciesseq.markov.seriation): check every one (0 = most landward or",
+            "# shallow, larger = more basinward or deep) and give each a 'name'.",
+        ]
     lines[4:4] = [
         "# Every field a facies can hold is listed; the optional ones (group, colour,",
         "# grain_size, aliases, description, cycle_base, setting, exposure) may be filled in",
@@ -772,7 +791,7 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
             f"  - code: {yaml.safe_dump(code).strip().removesuffix('...').strip()}"
             "  # the code as written in the data",
             f"    name: facies {code}  # a name a reader understands",
-            "    rank: null  # TODO: proximality rank (0 = most landward/shallow)",
+            _draft_rank(suggested.get(code), filled),
             "    group: null  # optional: facies association, e.g. shoreface",
             "    colour: null  # optional: hex colour of strip logs, e.g. '#c9a227'",
             "    grain_size: null  # optional: class number (1 clay, 2 silt, 3-6.5 sand, 7 gravel)",
@@ -783,3 +802,15 @@ def draft_scheme(codes: Iterable[Any], name: str = "draft scheme") -> str:
             "    exposure: false  # optional: true if it records the site's subaerial exposure",
         ]
     return "\n".join(lines) + "\n"
+
+
+def _draft_rank(suggestion: int | None, fill: bool) -> str:
+    """The rank line of one facies of :func:`draft_scheme`."""
+    if suggestion is None:
+        return "    rank: null  # TODO: proximality rank (0 = most landward/shallow)"
+    if fill:
+        return f"    rank: {suggestion}  # suggested from the transitions: check it"
+    return (
+        "    rank: null  # TODO: proximality rank (0 = most landward/shallow); "
+        f"suggested from the transitions: {suggestion}"
+    )

@@ -31,6 +31,7 @@ from faciesseq.errors import ConfigError, InputError
 EXAMPLES = """\
 examples:
   faciesseq fit cores.csv --scheme my-scheme.yaml --labels tract -o model.json
+  faciesseq fit cores.csv --suggest-ranks -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
   faciesseq fit cores.csv --scheme my-scheme.yaml -o model.json --format json > wells.json
@@ -58,6 +59,13 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "FILE", "model file (JSON) to write", required=True)
     parser.add_argument(
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
+    )
+    parser.add_argument(
+        "--suggest-ranks",
+        action="store_true",
+        help="without --scheme: rank the facies by their upward transitions (the order "
+        "'faciesseq scheme draft' suggests) and fit on those ranks; the order is printed "
+        "for a geologist to check",
     )
     add_model_arguments(parser)
     add_irregular_argument(parser, "train on")
@@ -108,11 +116,6 @@ def _successions(args: argparse.Namespace, scheme):
     """The training successions of SOURCE, refused where there is nothing to fit on."""
     cores = regular_cores(read_source(args, scheme).require_valid(), "fit", args.keep_irregular)
     check_grid_size(cores, args.unit, args.step)
-    if scheme is None:
-        sys.stderr.write(
-            "faciesseq fit: warning: no --scheme: without facies ranks the tract identities "
-            "are weakly anchored\n"
-        )
     successions = cores.succession_table(args.unit, args.step)
     if not len(successions):
         raise ConfigError("the source holds no beds to fit on", file=args.source)
@@ -125,6 +128,37 @@ def _successions(args: argparse.Namespace, scheme):
             file=args.source,
         )
     return cores, successions
+
+
+def _scheme_without_file(args: argparse.Namespace, cores):
+    """Where the fit has no --scheme: the ranks suggested by the upward transitions
+    (``--suggest-ranks``; :mod:`faciesseq.markov.seriation`), else None with a warning
+    of what a fit without ranks is worth."""
+    from faciesseq.markov.seriation import suggest_ranks
+
+    if not args.suggest_ranks:
+        sys.stderr.write(
+            "faciesseq fit: warning: no --scheme: without facies ranks the tracts are not "
+            "identified (balanced accuracy without labels on the stacking generator's cores "
+            "0.01-0.35 without ranks, 0.67-0.85 with ranks suggested from the data); give "
+            "--scheme, or --suggest-ranks (docs/hmm.md)\n"
+        )
+        return None
+    suggestion = suggest_ranks(cores.successions("beds"))
+    if suggestion is None:
+        raise InputError(
+            "--suggest-ranks: fewer than three facies follow one another in the source; "
+            "give a scheme (faciesseq scheme draft)",
+            file=args.source,
+        )
+    how = "" if suggestion.clear else "; which end is landward is unclear: check it"
+    sys.stderr.write(
+        "faciesseq fit: ranks suggested from the data, landward to basinward: "
+        f"{', '.join(suggestion.order())} ({suggestion.share:.2f} of {suggestion.n_steps} "
+        f"upward steps between neighbours lead landward{how}); check them with faciesseq "
+        "scheme draft --fill-ranks\n"
+    )
+    return suggestion.scheme()
 
 
 def _select(args: argparse.Namespace, successions, scheme, tract_model, substates, parallel):
@@ -371,12 +405,18 @@ def run(args: argparse.Namespace) -> int:
     check_target(args.output, force=args.force, folder=False)
     from faciesseq.hmm.modelfile import save_model
 
+    if args.suggest_ranks and args.scheme:
+        raise ConfigError(
+            f"--suggest-ranks ranks the facies where there is no scheme; {args.scheme} is "
+            "given: use one or the other"
+        )
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
+    scheme = scheme or _scheme_without_file(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)

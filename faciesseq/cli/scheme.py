@@ -22,6 +22,7 @@ examples:
 DRAFT_EXAMPLES = """\
 examples:
   faciesseq scheme draft cores.csv -o my-scheme.yaml
+  faciesseq scheme draft cores.csv --fill-ranks -o my-scheme.yaml
   faciesseq scheme draft cores.xlsx --sheet Facies --name "Quillerby shoreface" -o scheme.yaml
   faciesseq scheme draft core-db.sqlite --table intervals -o my-scheme.yaml --force
 """
@@ -50,13 +51,22 @@ def register(subparsers) -> None:
         description="Write a starting facies scheme listing every code found in SOURCE, with "
         "every field a facies can hold (name, rank, group, colour, grain_size, aliases, "
         "description, cycle_base, setting, exposure), commented. Ranks are left empty and "
-        "marked TODO; the scheme does not load until they are filled in. Errors in the data "
-        "(bad depths, repeated depths, ...) do not stop it: only the facies codes are needed.",
+        "marked TODO; the scheme does not load until they are filled in. Each comment gives "
+        "the rank suggested by the upward transitions of the data (facies that follow one "
+        "another are neighbours on the profile; steps between neighbours lead landward), and "
+        "the facies are listed in that order. Errors in the data (bad depths, repeated "
+        "depths, ...) do not stop it.",
         epilog=DRAFT_EXAMPLES,
     )
     add_source_arguments(draft, scheme=False)
     add_output_arguments(draft, "FILE", "scheme YAML to write", required=True)
     draft.add_argument("--name", default="draft scheme", help="scheme name")
+    draft.add_argument(
+        "--fill-ranks",
+        action="store_true",
+        help="write the suggested ranks as the ranks (each marked to be checked), so that "
+        "the scheme loads at once",
+    )
     draft.set_defaults(func=run_draft)
     show = sub.add_parser(
         "show",
@@ -72,6 +82,7 @@ def register(subparsers) -> None:
 
 def run_draft(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, write_file
+    from faciesseq.markov.seriation import suggest_ranks
     from faciesseq.scheme import draft_scheme
 
     out = check_target(args.output, force=args.force, folder=False, make_parents=True)
@@ -81,15 +92,31 @@ def run_draft(args: argparse.Namespace) -> int:
     if not codes:
         cores.require_valid()  # names the first error, if any
         raise InputError("no facies codes found in the source", file=args.source)
+    suggestion = suggest_ranks(cores.successions("beds"))
+    ranks = suggestion.ranks if suggestion is not None else None
     out.parent.mkdir(parents=True, exist_ok=True)
-    write_file(out, draft_scheme(codes, name=args.name))
-    print(f"wrote {out}: {len(codes)} facies code(s) from {len(cores)} core(s); fill in every rank")
+    write_file(out, draft_scheme(codes, name=args.name, suggested=ranks, fill=args.fill_ranks))
+    todo = "check every rank" if args.fill_ranks and ranks else "fill in every rank"
+    print(f"wrote {out}: {len(codes)} facies code(s) from {len(cores)} core(s); {todo}")
+    print(_suggestion_line(suggestion))
     if errors:
         print(
             f"note: the data has {errors} error(s) (rows left out; codes only in those rows "
             "are missing); run faciesseq check on it"
         )
     return 0
+
+
+def _suggestion_line(suggestion) -> str:
+    """What the draft suggests, in one line."""
+    if suggestion is None:
+        return "no ranks suggested: fewer than three facies follow one another in the data"
+    how = "clear" if suggestion.clear else "unclear: check which end is landward"
+    return (
+        f"suggested order, landward to basinward: {', '.join(suggestion.order())} "
+        f"({suggestion.share:.2f} of {suggestion.n_steps} upward steps between neighbours "
+        f"lead landward; direction {how})"
+    )
 
 
 def run_show(args: argparse.Namespace) -> int:

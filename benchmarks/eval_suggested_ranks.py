@@ -1,0 +1,115 @@
+"""Facies ranks suggested from the data, against the schemes' ranks, and what a fit
+without labels reads with them.
+
+Run from the repository root::
+
+    python benchmarks/eval_suggested_ranks.py
+
+For each scenario, on cores of fit seeds 201-203 (decode seeds 204-205), written as
+the minimal table ``core, top, base, facies``: the rank order suggested by the
+upward transitions (:mod:`faciesseq.markov.seriation`) against the scenario
+scheme's ranks (Spearman's rho, scipy), the share of one-step transitions that
+lead landward (how clear the direction is), and the balanced accuracy of a fit
+without labels with no scheme, with the suggested ranks and with the scenario's
+scheme (``TractHMM(random_state=201)``, not calibrated: the column is the same).
+Then the real Council Grove wells (``tests/data/council_grove``, Dubois et al.
+2007): rho against the project's ranks, and whether the suggested order puts
+every nonmarine facies landward of every marine one (each facies marine or nonmarine
+by the majority of its samples in the ``NM_M`` column of the data: a fact of the
+wells, not of the project).
+"""
+
+from __future__ import annotations
+
+import sys
+import warnings
+from pathlib import Path
+
+import pandas as pd
+from scipy.stats import spearmanr
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from eval_unsupervised import _cores, _runner, score  # noqa: E402
+
+from faciesseq.core import CoreSet  # noqa: E402
+from faciesseq.hmm import TractHMM  # noqa: E402
+from faciesseq.markov.seriation import suggest_ranks  # noqa: E402
+from faciesseq.scheme import load_scheme  # noqa: E402
+
+SCENARIOS = (
+    "stacking-minimal-table",
+    "stacking-thin-tracts",
+    "stacking-equal-beds",
+    "scenario-ramp",
+    "scenario-hinge-table",
+    "scenario-asymmetric-shelf",
+)
+FIT, DECODE = [201, 202, 203], [204, 205]
+MINIMAL = ["core", "top", "base", "facies"]
+
+
+def _scenario_row(name: str) -> str:
+    (scheme, run), _ = _runner(ROOT / "configs" / f"{name}.yaml")
+    train, _ = _cores(run, FIT)
+    test, truth = _cores(run, DECODE)
+    cores = CoreSet.from_frame(train[MINIMAL], units="m")
+    blind = CoreSet.from_frame(test[MINIMAL], units="m")
+    suggestion = suggest_ranks(cores.successions("beds"))
+    codes = [c for c in suggestion.ranks if c in scheme]
+    rho = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]
+    scores = []
+    for used in (None, suggestion.scheme(), scheme):
+        model = TractHMM(scheme=used, random_state=FIT[0]).fit(cores, calibrate=False)
+        scores.append(score(model.decode(blind), test, truth)["balanced_accuracy"])
+    return (
+        f"| {name} | {rho:.3f} | {suggestion.share:.2f} of {suggestion.n_steps} | "
+        + " | ".join(f"{s:.3f}" for s in scores)
+        + " |"
+    )
+
+
+def _council_grove() -> str:
+    data = ROOT / "tests" / "data" / "council_grove"
+    table = pd.read_csv(data / "facies_vectors_subset.csv")
+    scheme = load_scheme(data / "scheme.yaml")
+    successions = []
+    for _, well in table.groupby("Well Name", sort=False):
+        codes = well.sort_values("Depth", ascending=False)["Facies"].astype(str).tolist()
+        successions.append([c for k, c in enumerate(codes) if k == 0 or c != codes[k - 1]])
+    suggestion = suggest_ranks(successions)
+    codes = list(suggestion.ranks)
+    rho = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]
+    # each facies marine or nonmarine by the majority of its samples' NM_M (1 nonmarine)
+    majority = table.groupby(table["Facies"].astype(str))["NM_M"].median()
+    marine, nonmarine = set(majority.index[majority >= 1.5]), set(majority.index[majority < 1.5])
+    split = max(suggestion.ranks[c] for c in nonmarine) < min(suggestion.ranks[c] for c in marine)
+    return (
+        f"Council Grove ({len(successions)} wells, {suggestion.n_steps} one-step transitions): "
+        f"nonmarine by majority {', '.join(sorted(nonmarine))}; order "
+        f"{', '.join(suggestion.order())}; rho {rho:.3f} against the project's ranks; "
+        f"{suggestion.share:.2f} lead landward; every nonmarine facies landward of every "
+        f"marine one: {'yes' if split else 'no'}"
+    )
+
+
+def main() -> int:
+    print("## Facies ranks suggested from the upward transitions\n")
+    print(
+        "| scenario | rho, suggested vs scheme ranks | one-step transitions leading landward "
+        "| BA without a scheme | BA with the suggested ranks | BA with the scenario's scheme |"
+    )
+    print("|---|---|---|---|---|---|")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for name in SCENARIOS:
+            print(_scenario_row(name), flush=True)
+    print()
+    print(_council_grove())
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
