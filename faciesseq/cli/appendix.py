@@ -282,7 +282,8 @@ def run(args: argparse.Namespace) -> int:
         scheme = load_model(args.model).scheme
     if scheme is None:
         raise ConfigError(
-            "the appendix needs a facies scheme (ranks, names, colours): pass --scheme FILE"
+            "the appendix needs a facies scheme (ranks, names, colours): pass --scheme FILE "
+            "(faciesseq scheme draft SOURCE --fill-ranks -o FILE starts one from the data)"
         )
     cores = read_source(args, scheme=scheme)
     check_grid_size(cores, args.unit, args.step)
