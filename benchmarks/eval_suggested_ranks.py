@@ -11,7 +11,9 @@ upward transitions (:mod:`faciesseq.markov.seriation`) against the scenario
 scheme's ranks (Spearman's rho, scipy), the share of one-step transitions that
 lead landward (how clear the direction is), and the balanced accuracy of a fit
 without labels with no scheme, with the suggested ranks and with the scenario's
-scheme (``TractHMM(random_state=201)``, not calibrated: the column is the same).
+scheme and with that scheme's ranks reversed (0 = deepest, the mistake ``faciesseq
+fit`` warns of) (``TractHMM(random_state=201)``, not calibrated: the column is the
+same).
 Then the demo database's minimal table (all 17 cores fitted, the 9 uninterpreted
 ones decoded against their ``true_tract``, ``random_state=0``, calibrated), and the
 real Council Grove wells (``tests/data/council_grove``, Dubois et al.
@@ -39,7 +41,7 @@ from eval_unsupervised import _cores, _runner, score  # noqa: E402
 from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm import TractHMM  # noqa: E402
 from faciesseq.markov.seriation import suggest_ranks  # noqa: E402
-from faciesseq.scheme import load_scheme  # noqa: E402
+from faciesseq.scheme import FaciesScheme, load_scheme  # noqa: E402
 
 SCENARIOS = (
     "stacking-minimal-table",
@@ -53,6 +55,16 @@ FIT, DECODE = [201, 202, 203], [204, 205]
 MINIMAL = ["core", "top", "base", "facies"]
 
 
+def _reversed(scheme: FaciesScheme) -> FaciesScheme:
+    """``scheme`` with its ranks the wrong way round (0 = deepest): a user's mistake
+    that ``faciesseq fit`` warns of."""
+    data = scheme.to_dict()
+    top = max(f["rank"] for f in data["facies"])
+    for f in data["facies"]:
+        f["rank"] = top - f["rank"]
+    return FaciesScheme.from_dict(data)
+
+
 def _scenario_row(name: str) -> str:
     (scheme, run), _ = _runner(ROOT / "configs" / f"{name}.yaml")
     train, _ = _cores(run, FIT)
@@ -63,13 +75,13 @@ def _scenario_row(name: str) -> str:
     codes = [c for c in suggestion.ranks if c in scheme]
     rho = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]
     scores = []
-    for used in (None, suggestion.scheme(), scheme):
+    for used in (None, suggestion.scheme(), scheme, _reversed(scheme)):
         model = TractHMM(scheme=used, random_state=FIT[0]).fit(cores, calibrate=False)
         scores.append(score(model.decode(blind), test, truth)["balanced_accuracy"])
+    rho_reversed = suggestion.agreement(_reversed(scheme))
     return (
-        f"| {name} | {rho:.3f} | {suggestion.share:.2f} of {suggestion.n_steps} | "
-        + " | ".join(f"{s:.3f}" for s in scores)
-        + " |"
+        f"| {name} | {rho:.3f} ({rho_reversed:.3f} reversed) | {suggestion.share:.2f} of "
+        f"{suggestion.n_steps} | " + " | ".join(f"{s:.3f}" for s in scores) + " |"
     )
 
 
@@ -84,11 +96,13 @@ def _demo_row() -> str:
     rho = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]
     intervals = table[table["core"].isin(blind)]
     scores = []
-    for used in (None, suggestion.scheme(), scheme):
+    for used in (None, suggestion.scheme(), scheme, _reversed(scheme)):
         model = TractHMM(scheme=used, random_state=0).fit(cores)
         scores.append(score(model.decode(cores.subset(blind)), intervals, truth))
+    rho_reversed = suggestion.agreement(_reversed(scheme))
     return (
-        f"| demo, 9 uninterpreted cores | {rho:.3f} | {suggestion.share:.2f} of "
+        f"| demo, 9 uninterpreted cores | {rho:.3f} ({rho_reversed:.3f} reversed) | "
+        f"{suggestion.share:.2f} of "
         f"{suggestion.n_steps} | "
         + " | ".join(f"{s['balanced_accuracy']:.3f}" for s in scores)
         + " |"
@@ -123,9 +137,10 @@ def main() -> int:
     print("## Facies ranks suggested from the upward transitions\n")
     print(
         "| scenario | rho, suggested vs scheme ranks | one-step transitions leading landward "
-        "| BA without a scheme | BA with the suggested ranks | BA with the scenario's scheme |"
+        "| BA without a scheme | BA with the suggested ranks | BA with the scenario's scheme "
+        "| BA with the scheme reversed |"
     )
-    print("|---|---|---|---|---|---|")
+    print("|---|---|---|---|---|---|---|")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         for name in SCENARIOS:

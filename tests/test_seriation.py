@@ -19,6 +19,7 @@ import yaml
 from markov_data import council_grove_coreset, council_grove_samples
 
 from faciesseq.cli import main
+from faciesseq.core import CoreSet
 from faciesseq.markov.seriation import _best_path, _spectral_order, suggest_ranks
 from faciesseq.scheme import FaciesScheme
 
@@ -139,3 +140,26 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     assert "without facies ranks the tracts are not identified" in capsys.readouterr().err
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     assert main([*args, "--force", "--suggest-ranks", "--scheme", str(scheme)]) == 2
+
+
+def test_a_table_of_successions_gives_what_the_successions_give():
+    cores = council_grove_coreset()
+    assert suggest_ranks(cores.succession_table("beds")) == suggest_ranks(cores.successions("beds"))
+
+
+def test_fit_warns_where_the_schemes_ranks_run_against_the_data(tmp_path, capsys):
+    # a scheme written 0 = deepest (the wrong way round) names the tracts wrongly
+    source = _minimal_table(tmp_path)
+    data = yaml.safe_load((ROOT / "configs" / "scheme-shoreface.yaml").read_text())
+    for f in data["facies"]:
+        f["rank"] = 10 - f["rank"]
+    reversed_scheme = tmp_path / "reversed.yaml"
+    reversed_scheme.write_text(yaml.safe_dump(data))
+    args = ["fit", str(source), "-o", str(tmp_path / "m.json"), "--restarts", "1"]
+    assert main([*args, "--scheme", str(reversed_scheme)]) == 0
+    assert "run against the order the data suggest (Spearman's rho -1.00" in capsys.readouterr().err
+    scheme = ROOT / "configs" / "scheme-shoreface.yaml"
+    assert main([*args, "--force", "--scheme", str(scheme)]) == 0
+    assert "run against" not in capsys.readouterr().err
+    suggestion = suggest_ranks(CoreSet.from_frame(pd.read_csv(source), units="m").successions())
+    assert suggestion.agreement(FaciesScheme.from_dict(data)) == pytest.approx(-1.0)

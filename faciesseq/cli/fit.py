@@ -130,6 +130,24 @@ def _successions(args: argparse.Namespace, scheme):
     return cores, successions
 
 
+def _check_direction(scheme, cores, path) -> None:
+    """Warn where the scheme's ranks run against the order the data's upward
+    transitions suggest (:mod:`faciesseq.markov.seriation`; a clear direction and
+    Spearman's rho at most -0.5): ranks written 0 = deepest give the tracts the
+    wrong names."""
+    from faciesseq.markov.seriation import suggest_ranks
+
+    suggestion = suggest_ranks(cores.succession_table("beds"))
+    rho = None if suggestion is None or not suggestion.clear else suggestion.agreement(scheme)
+    if rho is not None and rho <= -0.5:
+        sys.stderr.write(
+            f"faciesseq fit: warning: the ranks of {path} run against the order the data "
+            f"suggest (Spearman's rho {rho:.2f}; landward to basinward "
+            f"{', '.join(suggestion.order())}): rank 0 is the most landward or shallow "
+            "facies; a reversed scheme names the tracts wrongly\n"
+        )
+
+
 def _scheme_without_file(args: argparse.Namespace, cores):
     """Where the fit has no --scheme: the ranks suggested by the upward transitions
     (``--suggest-ranks``; :mod:`faciesseq.markov.seriation`), else None with a warning
@@ -144,7 +162,7 @@ def _scheme_without_file(args: argparse.Namespace, cores):
             "--scheme, or --suggest-ranks (docs/hmm.md)\n"
         )
         return None
-    suggestion = suggest_ranks(cores.successions("beds"))
+    suggestion = suggest_ranks(cores.succession_table("beds"))
     if suggestion is None:
         raise InputError(
             "--suggest-ranks: fewer than three facies follow one another in the source; "
@@ -416,6 +434,8 @@ def run(args: argparse.Namespace) -> int:
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
+    if scheme is not None:
+        _check_direction(scheme, cores, args.scheme)
     scheme = scheme or _scheme_without_file(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)

@@ -39,7 +39,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from faciesseq.markov.counts import encode, transition_counts
+from faciesseq.core import SuccessionTable
+from faciesseq.markov.counts import encode, encode_flat, transition_counts
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["EXACT_FACIES", "UNCLEAR_SHARE", "RankSuggestion", "suggest_ranks"]
@@ -78,6 +79,18 @@ class RankSuggestion:
         """The facies from landward (rank 0) to basinward."""
         return sorted(self.ranks, key=self.ranks.__getitem__)
 
+    def agreement(self, scheme: FaciesScheme) -> float | None:
+        """Spearman's rank correlation of a scheme's ranks with these, over the facies
+        both rank (scipy); ``None`` where fewer than three are shared or either side
+        ties them all. Near -1: the scheme runs the other way (0 = deepest?)."""
+        from scipy.stats import spearmanr
+
+        codes = [c for c in self.ranks if c in scheme]
+        theirs = [scheme.rank(c) for c in codes]
+        if len(codes) < 3 or len(set(theirs)) < 2:
+            return None
+        return float(spearmanr([self.ranks[c] for c in codes], theirs)[0])
+
     def scheme(self) -> FaciesScheme:
         """A facies scheme of these ranks alone (no groups, settings or names), for a
         fit whose source comes with no scheme; its name says where the ranks came from."""
@@ -89,11 +102,15 @@ class RankSuggestion:
         return FaciesScheme.from_dict({"name": "ranks suggested from the data", "facies": facies})
 
 
-def suggest_ranks(successions: Sequence) -> RankSuggestion | None:
-    """Ranks of the facies of ``successions`` (beds base to top: successions of a
-    core set, or sequences of codes) from their upward transitions; ``None`` where
-    fewer than three facies meet in transitions."""
-    enc = encode(successions)
+def suggest_ranks(successions: Sequence | SuccessionTable) -> RankSuggestion | None:
+    """Ranks of the facies of ``successions`` (beds base to top: a succession table,
+    successions of a core set, or sequences of codes) from their upward transitions;
+    ``None`` where fewer than three facies meet in transitions."""
+    if isinstance(successions, SuccessionTable):  # no Succession made per core
+        t = successions
+        enc = encode_flat(t.beds["facies"].to_numpy(), t.lengths, t.cores, t.segments)
+    else:
+        enc = encode(successions)
     counts = transition_counts(enc).astype(float)
     np.fill_diagonal(counts, 0.0)  # amalgamated beds: a facies never follows itself
     met = np.flatnonzero((counts + counts.T).sum(axis=1) > 0)
