@@ -10,6 +10,7 @@ shallowing-upward parasequence, gradual upward and abrupt at its flooding surfac
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import numpy as np
@@ -134,7 +135,12 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     assert "ranks suggested from the data, landward to basinward" in captured.err
     assert "scheme: ranks suggested from the data (--suggest-ranks)" in captured.err
     assert "features cycle_stacking" in captured.out
+    # every output says the ranks were not a geologist's: fit, the model file, decode
+    assert "caution: the facies ranks were suggested from the data" in captured.out
+    recorded = json.loads(model.read_text())["training"]["cautions"]
+    assert any("ranks were suggested" in c for c in recorded)
     assert main(["decode", str(model), str(source), "-o", str(tmp_path / "d")]) == 0
+    assert "ranks were suggested from the data" in capsys.readouterr().out
     # without a scheme and without the option: the fit warns what it is worth
     assert main([*args, "--force"]) == 0
     assert "without facies ranks the tracts are not identified" in capsys.readouterr().err

@@ -10,8 +10,15 @@ the user chose the features.
 from __future__ import annotations
 
 from faciesseq.hmm.states import SHORT_VISIT
+from faciesseq.markov.seriation import SUGGESTED
 
-__all__ = ["contact_caution", "fit_cautions", "single_bed_caution", "single_bed_tracts"]
+__all__ = [
+    "contact_caution",
+    "fit_cautions",
+    "single_bed_caution",
+    "single_bed_tracts",
+    "suggested_ranks_caution",
+]
 
 
 def fit_cautions(model) -> list[str]:
@@ -22,7 +29,23 @@ def fit_cautions(model) -> list[str]:
     stored = getattr(model, "cautions_", None)
     if stored is not None:
         return list(stored)
-    return [c for c in (single_bed_caution(model), contact_caution(model)) if c]
+    found = (suggested_ranks_caution(model), single_bed_caution(model), contact_caution(model))
+    return [c for c in found if c]
+
+
+def suggested_ranks_caution(model) -> str | None:
+    """A caution where the fit's facies ranks were suggested from the data
+    (``faciesseq fit --suggest-ranks``; :mod:`faciesseq.markov.seriation`), not given
+    by a geologist: the tract names rest on their order."""
+    scheme = getattr(model, "scheme", None)
+    if scheme is None or scheme.name != SUGGESTED:
+        return None
+    order = ", ".join(scheme.codes_by_rank)
+    return (
+        f"caution: the facies ranks were suggested from the data's transitions (landward to "
+        f"basinward {order}), not given by a geologist, and the tract names rest on that "
+        "order; check it (faciesseq scheme draft --fill-ranks writes it as a scheme)"
+    )
 
 
 def single_bed_tracts(model) -> dict[str, float]:

@@ -43,13 +43,17 @@ from faciesseq.core import SuccessionTable
 from faciesseq.markov.counts import encode, encode_flat, transition_counts
 from faciesseq.scheme import FaciesScheme
 
-__all__ = ["EXACT_FACIES", "UNCLEAR_SHARE", "RankSuggestion", "suggest_ranks"]
+__all__ = ["EXACT_FACIES", "SUGGESTED", "UNCLEAR_SHARE", "RankSuggestion", "suggest_ranks"]
 
 #: Below this share of one-step transitions going landward the direction of the
 #: suggested order is called unclear (a coin would give 0.5; common practice reads
 #: a clear majority, not a threshold fitted to data).
 UNCLEAR_SHARE = 0.6
 
+
+#: The name of the scheme :meth:`RankSuggestion.scheme` makes (what the cautions of a
+#: fit on it look for).
+SUGGESTED = "ranks suggested from the data"
 
 #: Up to this many facies the path is exact (2^n x n^2 steps: 16 facies take about a
 #: second); more are ordered by the spectral seriation.
@@ -99,7 +103,7 @@ class RankSuggestion:
             {"code": c, "name": f"facies {c}", "rank": r, "description": described}
             for c, r in self.ranks.items()
         ]
-        return FaciesScheme.from_dict({"name": "ranks suggested from the data", "facies": facies})
+        return FaciesScheme.from_dict({"name": SUGGESTED, "facies": facies})
 
 
 def suggest_ranks(successions: Sequence | SuccessionTable) -> RankSuggestion | None:
