@@ -46,10 +46,9 @@ from faciesseq.scheme import FaciesScheme
 __all__ = ["EXACT_FACIES", "SUGGESTED", "UNCLEAR_SHARE", "RankSuggestion", "suggest_ranks"]
 
 #: Below this share of one-step transitions going landward the direction of the
-#: suggested order is called unclear (a coin would give 0.5; common practice reads
-#: a clear majority, not a threshold fitted to data).
+#: suggested order is called unclear (a coin would give 0.5; 0.6, a plain majority
+#: margin, was set before any measurement and fitted to none).
 UNCLEAR_SHARE = 0.6
-
 
 #: The name of the scheme :meth:`RankSuggestion.scheme` makes (what the cautions of a
 #: fit on it look for).
@@ -67,7 +66,8 @@ class RankSuggestion:
     ``ranks``: facies code -> rank (0 = the landward end of the order); facies that
     meet no other facies in an upward transition are left out. ``share``: the share
     of the upward transitions between neighbours of the order that go landward
-    (0.5-1; the larger, the clearer the direction). ``n_steps``: how many such
+    (usually above 0.5: the path follows the most transitions; the larger, the
+    clearer the direction). ``n_steps``: how many such
     transitions there were."""
 
     ranks: dict[str, int]
