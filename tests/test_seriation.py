@@ -133,7 +133,7 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     assert main([*args, "--suggest-ranks"]) == 0
     captured = capsys.readouterr()
     assert "ranks suggested from the data, landward to basinward" in captured.err
-    assert "scheme: ranks suggested from the data (--suggest-ranks)" in captured.err
+    assert "scheme: ranks suggested from the data (no --scheme)" in captured.err
     assert "features cycle_stacking" in captured.out
     # every output says the ranks were not a geologist's: fit, the model file, decode
     assert "caution: the facies ranks were suggested from the data" in captured.out
@@ -141,9 +141,20 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     assert any("ranks were suggested" in c for c in recorded)
     assert main(["decode", str(model), str(source), "-o", str(tmp_path / "d")]) == 0
     assert "ranks were suggested from the data" in capsys.readouterr().out
-    # without a scheme and without the option: the fit warns what it is worth
+    # without labels the ranks are suggested by default; refused, the fit warns
     assert main([*args, "--force"]) == 0
-    assert "without facies ranks the tracts are not identified" in capsys.readouterr().err
+    assert "ranks suggested from the data, landward" in capsys.readouterr().err
+    assert main([*args, "--force", "--no-suggest-ranks"]) == 0
+    captured = capsys.readouterr()
+    assert "without facies ranks the tracts are not identified" in captured.err
+    assert "scheme: none" in captured.err
+    # with labels nothing is suggested unless asked
+    labelled = tmp_path / "labelled.csv"
+    t = pd.read_csv(ROOT / "demo_cores" / "cores.csv").rename(columns={"true_tract": "tract_"})
+    columns = ["core", "top", "base", "facies", "tract"]
+    t.assign(tract=t["tract_"])[columns].to_csv(labelled, index=False)
+    assert main(["fit", str(labelled), "--labels", "tract", "-o", str(tmp_path / "l.json")]) == 0
+    assert "ranks suggested" not in capsys.readouterr().err
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     assert main([*args, "--force", "--suggest-ranks", "--scheme", str(scheme)]) == 2
 

@@ -153,8 +153,8 @@ def settings_line(args: argparse.Namespace, cores, scheme=None) -> str:
 
     text = f"units: {cores.units} ({units_from(args, cores)}); scheme: "
     given = getattr(args, "scheme", None)
-    if getattr(args, "suggest_ranks", False) and not given:
-        return text + "ranks suggested from the data (--suggest-ranks)"
+    if getattr(args, "ranks_suggested", False) and not given:
+        return text + "ranks suggested from the data (no --scheme)"
     if scheme is None and not given:
         return text + "none"
     if given:

@@ -14,6 +14,7 @@ from faciesseq.cli._common import (
     load_scheme_option,
     read_source,
     regular_cores,
+    settings_line,
 )
 from faciesseq.cli._hmm import (
     Progress,
@@ -31,7 +32,7 @@ from faciesseq.errors import ConfigError, InputError
 EXAMPLES = """\
 examples:
   faciesseq fit cores.csv --scheme my-scheme.yaml --labels tract -o model.json
-  faciesseq fit cores.csv --suggest-ranks -o model.json
+  faciesseq fit cores.csv -o model.json   # no scheme: ranks suggested from the data
   faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
   faciesseq fit cores.csv --scheme my-scheme.yaml -o model.json --format json > wells.json
@@ -62,10 +63,12 @@ def register(subparsers) -> None:
     )
     parser.add_argument(
         "--suggest-ranks",
-        action="store_true",
-        help="without --scheme: rank the facies by their upward transitions (the order "
-        "'faciesseq scheme draft' suggests) and fit on those ranks; the order is printed "
-        "for a geologist to check",
+        action=argparse.BooleanOptionalAction,
+        default=None,
+        help="where no --scheme is given, rank the facies by their upward transitions (the "
+        "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
+        "for a geologist to check; the default without --labels, whose tracts are otherwise "
+        "not identified (--no-suggest-ranks fits without ranks)",
     )
     add_model_arguments(parser)
     add_irregular_argument(parser, "train on")
@@ -150,25 +153,28 @@ def _check_direction(scheme, cores, path) -> None:
 
 def _scheme_without_file(args: argparse.Namespace, cores):
     """Where the fit has no --scheme: the ranks suggested by the upward transitions
-    (``--suggest-ranks``; :mod:`faciesseq.markov.seriation`), else None with a warning
-    of what a fit without ranks is worth."""
+    (``--suggest-ranks``, the default without labels; :mod:`faciesseq.markov.seriation`),
+    else None, with a warning of what a fit without labels and ranks is worth."""
     from faciesseq.markov.seriation import suggest_ranks
 
-    if not args.suggest_ranks:
-        sys.stderr.write(
-            "faciesseq fit: warning: no --scheme: without facies ranks the tracts are not "
-            "identified (balanced accuracy without labels on the stacking generator's cores "
-            "0.01-0.35 without ranks, 0.67-0.85 with ranks suggested from the data); give "
-            "--scheme, or --suggest-ranks (docs/hmm.md)\n"
-        )
-        return None
-    suggestion = suggest_ranks(cores.succession_table("beds"))
-    if suggestion is None:
+    suggestion = suggest_ranks(cores.succession_table("beds")) if args.ranks_suggested else None
+    if suggestion is None and args.suggest_ranks:
         raise InputError(
             "--suggest-ranks: fewer than three facies follow one another in the source; "
             "give a scheme (faciesseq scheme draft)",
             file=args.source,
         )
+    if suggestion is None:
+        args.ranks_suggested = False
+        args.settings_line = f"faciesseq fit: {settings_line(args, cores)}"
+        if args.labels is None:
+            sys.stderr.write(
+                "faciesseq fit: warning: no --scheme and no ranks suggested: without facies "
+                "ranks the tracts are not identified (balanced accuracy without labels on the "
+                "stacking generator's cores 0.01-0.35 without ranks, 0.67-0.85 with ranks "
+                "suggested from the data; docs/hmm.md)\n"
+            )
+        return None
     how = "" if suggestion.clear else "; which end is landward is unclear: check it"
     sys.stderr.write(
         "faciesseq fit: ranks suggested from the data, landward to basinward: "
@@ -428,6 +434,9 @@ def run(args: argparse.Namespace) -> int:
             f"--suggest-ranks ranks the facies where there is no scheme; {args.scheme} is "
             "given: use one or the other"
         )
+    # by default where nothing else names the tracts (read by the settings line)
+    asked = args.suggest_ranks
+    args.ranks_suggested = asked if asked is not None else not args.scheme and not args.labels
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     from faciesseq.scheme import default_tract_model

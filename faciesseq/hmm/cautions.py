@@ -41,10 +41,15 @@ def suggested_ranks_caution(model) -> str | None:
     if scheme is None or scheme.name != SUGGESTED:
         return None
     order = ", ".join(scheme.codes_by_rank)
+    leans = (
+        "the stacking features read that order"
+        if getattr(model, "n_labelled_", 0)
+        else "the tract names rest on that order"
+    )
     return (
         f"caution: the facies ranks were suggested from the data's transitions (landward to "
-        f"basinward {order}), not given by a geologist, and the tract names rest on that "
-        "order; check it (faciesseq scheme draft --fill-ranks writes it as a scheme)"
+        f"basinward {order}), not given by a geologist, and {leans}; check it (faciesseq "
+        "scheme draft --fill-ranks writes it as a scheme)"
     )
 
 

@@ -29,7 +29,7 @@ direction is. It is a suggestion for a geologist to check, never a scheme on
 its own: facies of one setting that a geologist would tie (the nonmarine facies
 of a cyclothem), or mixed carbonate and siliciclastic systems, are ordered here
 as the transitions say. ``faciesseq scheme draft`` writes it beside each facies;
-``faciesseq fit --suggest-ranks`` fits on it.
+``faciesseq fit`` fits on it where there is no scheme and no label.
 """
 
 from __future__ import annotations
