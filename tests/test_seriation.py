@@ -155,6 +155,12 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     t.assign(tract=t["tract_"])[columns].to_csv(labelled, index=False)
     assert main(["fit", str(labelled), "--labels", "tract", "-o", str(tmp_path / "l.json")]) == 0
     assert "ranks suggested" not in capsys.readouterr().err
+    # validate's fits without labels read them too; its labelled fits do not
+    check = ["validate", str(labelled), "--labels", "tract", "--folds", "2", "--restarts", "1"]
+    assert main([*check, "--mode", "unsupervised"]) == 0
+    assert "faciesseq validate: ranks suggested from the data" in capsys.readouterr().err
+    assert main(check) == 0
+    assert "ranks suggested" not in capsys.readouterr().err
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     assert main([*args, "--force", "--suggest-ranks", "--scheme", str(scheme)]) == 2
 

@@ -15,6 +15,16 @@ from faciesseq.errors import ConfigError
 def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) -> None:
     """Options of the tract model (tracts, unit, features, sub-states, restarts, seed...)."""
     group = parser.add_argument_group("tract model")
+    group.add_argument(
+        "--suggest-ranks",
+        action=argparse.BooleanOptionalAction,
+        default=None,
+        help="where no --scheme is given, rank the facies by their upward transitions (the "
+        "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
+        "for a geologist to check; the default where the fits have no labels (fit without "
+        "--labels, validate --mode unsupervised), whose tracts are otherwise not identified "
+        "(--no-suggest-ranks fits without ranks)",
+    )
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
         "--unit",
@@ -223,3 +233,77 @@ def warnings_to_stderr(command: str):
                     continue
                 seen.add(text)
                 sys.stderr.write(f"faciesseq {command}: warning: {text}\n")
+
+
+def resolve_suggest_ranks(args: argparse.Namespace, labelled: bool) -> None:
+    """``args.ranks_suggested``: whether the fits read ranks suggested from the data
+    (asked, or by default where neither a scheme nor labels name the tracts); read
+    by the settings line. ``--suggest-ranks`` beside ``--scheme`` is refused."""
+    if args.suggest_ranks and args.scheme:
+        raise ConfigError(
+            f"--suggest-ranks ranks the facies where there is no scheme; {args.scheme} is "
+            "given: use one or the other"
+        )
+    asked = args.suggest_ranks
+    args.ranks_suggested = asked if asked is not None else not args.scheme and not labelled
+    args.labels_name_tracts = labelled
+
+
+def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str):
+    """The scheme the fits use: ``scheme`` (checked against the order the data's
+    transitions suggest), else the ranks suggested from the data where
+    ``args.ranks_suggested`` (:mod:`faciesseq.markov.seriation`), else None with a
+    warning where the fits have no labels to name the tracts."""
+    from faciesseq.cli._common import settings_line
+    from faciesseq.errors import InputError
+    from faciesseq.markov.seriation import suggest_ranks
+
+    if scheme is not None or not args.ranks_suggested:
+        suggestion = suggest_ranks(cores.succession_table("beds")) if scheme else None
+        if suggestion is not None and suggestion.clear:
+            _warn_reversed(scheme, suggestion, args.scheme, command)
+        if scheme is None and not args.labels_name_tracts:
+            sys.stderr.write(f"faciesseq {command}: warning: {NO_RANKS}\n")
+        return scheme
+    suggestion = suggest_ranks(cores.succession_table("beds"))
+    if suggestion is None and args.suggest_ranks:
+        raise InputError(
+            "--suggest-ranks: fewer than three facies follow one another in the source; "
+            "give a scheme (faciesseq scheme draft)",
+            file=args.source,
+        )
+    if suggestion is None:
+        args.ranks_suggested = False
+        args.settings_line = f"faciesseq {command}: {settings_line(args, cores)}"
+        return scheme_for_fit(args, cores, None, command)
+    how = "" if suggestion.clear else "; which end is landward is unclear: check it"
+    sys.stderr.write(
+        f"faciesseq {command}: ranks suggested from the data, landward to basinward: "
+        f"{', '.join(suggestion.order())} ({suggestion.share:.2f} of {suggestion.n_steps} "
+        f"upward steps between neighbours lead landward{how}); check them with faciesseq "
+        "scheme draft --fill-ranks\n"
+    )
+    return suggestion.scheme()
+
+
+#: What a fit without ranks and without labels is worth (docs/hmm.md, "Ranks suggested
+#: from the data"; ``benchmarks/eval_suggested_ranks.py``).
+NO_RANKS = (
+    "no --scheme and no ranks suggested: without facies ranks the tracts are not "
+    "identified (balanced accuracy without labels on the stacking generator's cores "
+    "0.01-0.35 without ranks, 0.67-0.85 with ranks suggested from the data; docs/hmm.md)"
+)
+
+
+def _warn_reversed(scheme, suggestion, path, command: str) -> None:
+    """Warn where the scheme's ranks run against the order the data's upward
+    transitions suggest (Spearman's rho at most -0.5; the suggestion's direction is
+    clear): ranks written 0 = deepest give the tracts the wrong names."""
+    rho = suggestion.agreement(scheme)
+    if rho is not None and rho <= -0.5:
+        sys.stderr.write(
+            f"faciesseq {command}: warning: the ranks of {path} run against the order the "
+            f"data suggest (Spearman's rho {rho:.2f}; landward to basinward "
+            f"{', '.join(suggestion.order())}): rank 0 is the most landward or shallow "
+            "facies; a reversed scheme names the tracts wrongly\n"
+        )

@@ -14,7 +14,6 @@ from faciesseq.cli._common import (
     load_scheme_option,
     read_source,
     regular_cores,
-    settings_line,
 )
 from faciesseq.cli._hmm import (
     Progress,
@@ -22,6 +21,8 @@ from faciesseq.cli._hmm import (
     check_unit,
     feature_sets,
     load_tracts_option,
+    resolve_suggest_ranks,
+    scheme_for_fit,
     substate_counts,
     warnings_to_stderr,
     weigh_evidence,
@@ -60,15 +61,6 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "FILE", "model file (JSON) to write", required=True)
     parser.add_argument(
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
-    )
-    parser.add_argument(
-        "--suggest-ranks",
-        action=argparse.BooleanOptionalAction,
-        default=None,
-        help="where no --scheme is given, rank the facies by their upward transitions (the "
-        "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
-        "for a geologist to check; the default without --labels, whose tracts are otherwise "
-        "not identified (--no-suggest-ranks fits without ranks)",
     )
     add_model_arguments(parser)
     add_irregular_argument(parser, "train on")
@@ -131,58 +123,6 @@ def _successions(args: argparse.Namespace, scheme):
             file=args.source,
         )
     return cores, successions
-
-
-def _check_direction(scheme, cores, path) -> None:
-    """Warn where the scheme's ranks run against the order the data's upward
-    transitions suggest (:mod:`faciesseq.markov.seriation`; a clear direction and
-    Spearman's rho at most -0.5): ranks written 0 = deepest give the tracts the
-    wrong names."""
-    from faciesseq.markov.seriation import suggest_ranks
-
-    suggestion = suggest_ranks(cores.succession_table("beds"))
-    rho = None if suggestion is None or not suggestion.clear else suggestion.agreement(scheme)
-    if rho is not None and rho <= -0.5:
-        sys.stderr.write(
-            f"faciesseq fit: warning: the ranks of {path} run against the order the data "
-            f"suggest (Spearman's rho {rho:.2f}; landward to basinward "
-            f"{', '.join(suggestion.order())}): rank 0 is the most landward or shallow "
-            "facies; a reversed scheme names the tracts wrongly\n"
-        )
-
-
-def _scheme_without_file(args: argparse.Namespace, cores):
-    """Where the fit has no --scheme: the ranks suggested by the upward transitions
-    (``--suggest-ranks``, the default without labels; :mod:`faciesseq.markov.seriation`),
-    else None, with a warning of what a fit without labels and ranks is worth."""
-    from faciesseq.markov.seriation import suggest_ranks
-
-    suggestion = suggest_ranks(cores.succession_table("beds")) if args.ranks_suggested else None
-    if suggestion is None and args.suggest_ranks:
-        raise InputError(
-            "--suggest-ranks: fewer than three facies follow one another in the source; "
-            "give a scheme (faciesseq scheme draft)",
-            file=args.source,
-        )
-    if suggestion is None:
-        args.ranks_suggested = False
-        args.settings_line = f"faciesseq fit: {settings_line(args, cores)}"
-        if args.labels is None:
-            sys.stderr.write(
-                "faciesseq fit: warning: no --scheme and no ranks suggested: without facies "
-                "ranks the tracts are not identified (balanced accuracy without labels on the "
-                "stacking generator's cores 0.01-0.35 without ranks, 0.67-0.85 with ranks "
-                "suggested from the data; docs/hmm.md)\n"
-            )
-        return None
-    how = "" if suggestion.clear else "; which end is landward is unclear: check it"
-    sys.stderr.write(
-        "faciesseq fit: ranks suggested from the data, landward to basinward: "
-        f"{', '.join(suggestion.order())} ({suggestion.share:.2f} of {suggestion.n_steps} "
-        f"upward steps between neighbours lead landward{how}); check them with faciesseq "
-        "scheme draft --fill-ranks\n"
-    )
-    return suggestion.scheme()
 
 
 def _select(args: argparse.Namespace, successions, scheme, tract_model, substates, parallel):
@@ -429,23 +369,14 @@ def run(args: argparse.Namespace) -> int:
     check_target(args.output, force=args.force, folder=False)
     from faciesseq.hmm.modelfile import save_model
 
-    if args.suggest_ranks and args.scheme:
-        raise ConfigError(
-            f"--suggest-ranks ranks the facies where there is no scheme; {args.scheme} is "
-            "given: use one or the other"
-        )
-    # by default where nothing else names the tracts (read by the settings line)
-    asked = args.suggest_ranks
-    args.ranks_suggested = asked if asked is not None else not args.scheme and not args.labels
+    resolve_suggest_ranks(args, labelled=args.labels is not None)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
-    if scheme is not None:
-        _check_direction(scheme, cores, args.scheme)
-    scheme = scheme or _scheme_without_file(args, cores)
+    scheme = scheme_for_fit(args, cores, scheme, "fit")
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)

@@ -21,6 +21,8 @@ from faciesseq.cli._hmm import (
     check_unit,
     feature_sets,
     load_tracts_option,
+    resolve_suggest_ranks,
+    scheme_for_fit,
     substate_counts,
     warnings_to_stderr,
     weigh_evidence,
@@ -164,10 +166,12 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.scheme import default_tract_model
     from faciesseq.validation import cross_validate
 
+    resolve_suggest_ranks(args, labelled=args.mode != "unsupervised")
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
+    scheme = scheme_for_fit(args, cores, scheme, "validate")
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     progress = Progress("validate")
     with warnings_to_stderr("validate"):
