@@ -246,10 +246,9 @@ def resolve_suggest_ranks(args: argparse.Namespace, labelled: bool) -> None:
         )
     asked = args.suggest_ranks
     args.ranks_suggested = asked if asked is not None else not args.scheme and not labelled
-    args.labels_name_tracts = labelled
 
 
-def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str):
+def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labelled: bool):
     """The scheme the fits use: ``scheme`` (checked against the order the data's
     transitions suggest), else the ranks suggested from the data where
     ``args.ranks_suggested`` (:mod:`faciesseq.markov.seriation`), else None with a
@@ -258,14 +257,12 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str):
     from faciesseq.errors import InputError
     from faciesseq.markov.seriation import suggest_ranks
 
-    if scheme is not None or not args.ranks_suggested:
-        suggestion = suggest_ranks(cores.succession_table("beds")) if scheme else None
+    wanted = scheme is not None or args.ranks_suggested
+    suggestion = suggest_ranks(cores.succession_table("beds")) if wanted else None
+    if scheme is not None:
         if suggestion is not None and suggestion.clear:
             _warn_reversed(scheme, suggestion, args.scheme, command)
-        if scheme is None and not args.labels_name_tracts:
-            sys.stderr.write(f"faciesseq {command}: warning: {NO_RANKS}\n")
         return scheme
-    suggestion = suggest_ranks(cores.succession_table("beds"))
     if suggestion is None and args.suggest_ranks:
         raise InputError(
             "--suggest-ranks: fewer than three facies follow one another in the source; "
@@ -273,9 +270,12 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str):
             file=args.source,
         )
     if suggestion is None:
-        args.ranks_suggested = False
-        args.settings_line = f"faciesseq {command}: {settings_line(args, cores)}"
-        return scheme_for_fit(args, cores, None, command)
+        if args.ranks_suggested:  # the default found nothing to suggest
+            args.ranks_suggested = False
+            args.settings_line = f"faciesseq {command}: {settings_line(args, cores)}"
+        if not labelled:
+            sys.stderr.write(f"faciesseq {command}: warning: {NO_RANKS}\n")
+        return None
     how = "" if suggestion.clear else "; which end is landward is unclear: check it"
     sys.stderr.write(
         f"faciesseq {command}: ranks suggested from the data, landward to basinward: "

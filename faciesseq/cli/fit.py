@@ -369,14 +369,15 @@ def run(args: argparse.Namespace) -> int:
     check_target(args.output, force=args.force, folder=False)
     from faciesseq.hmm.modelfile import save_model
 
-    resolve_suggest_ranks(args, labelled=args.labels is not None)
+    labelled = args.labels is not None
+    resolve_suggest_ranks(args, labelled)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
-    scheme = scheme_for_fit(args, cores, scheme, "fit")
+    scheme = scheme_for_fit(args, cores, scheme, "fit", labelled)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)

@@ -166,12 +166,13 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.scheme import default_tract_model
     from faciesseq.validation import cross_validate
 
-    resolve_suggest_ranks(args, labelled=args.mode != "unsupervised")
+    labelled = args.mode != "unsupervised"
+    resolve_suggest_ranks(args, labelled)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
-    scheme = scheme_for_fit(args, cores, scheme, "validate")
+    scheme = scheme_for_fit(args, cores, scheme, "validate", labelled)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     progress = Progress("validate")
     with warnings_to_stderr("validate"):
