@@ -45,7 +45,7 @@ def test_summary_counts_beds_thickness_and_proportions_worked_by_hand(tmp_path):
 def test_check_json_has_the_documented_keys(tmp_path, capsys):
     assert main(["check", str(_source(tmp_path)), "--units", "m", "--format", "json"]) == 0
     data = json.loads(capsys.readouterr().out)
-    assert set(data) == {"summary", "cores", "facies", "problems"}
+    assert set(data) == {"summary", "suggested_order", "cores", "facies", "problems"}
     assert set(data["summary"]) == {
         "usable", "units", "sources", "cores", "intervals", "beds", "cored_thickness",
         "gaps", "facies", "errors", "warnings", "repairs",

@@ -21,7 +21,8 @@ from markov_data import council_grove_coreset, council_grove_samples
 
 from faciesseq.cli import main
 from faciesseq.core import CoreSet
-from faciesseq.markov.seriation import _best_path, _spectral_order, suggest_ranks
+from faciesseq.io import summarise
+from faciesseq.markov.seriation import _best_path, _spectral_order, suggest_ranks, upward_steps
 from faciesseq.scheme import FaciesScheme
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -186,3 +187,46 @@ def test_fit_warns_where_the_schemes_ranks_run_against_the_data(tmp_path, capsys
     assert "run against" not in capsys.readouterr().err
     suggestion = suggest_ranks(CoreSet.from_frame(pd.read_csv(source), units="m").successions())
     assert suggestion.agreement(FaciesScheme.from_dict(data)) == pytest.approx(-1.0)
+
+
+def test_check_shows_the_suggested_order_and_warns_of_a_reversed_scheme(tmp_path, capsys):
+    source = _minimal_table(tmp_path)
+    data = yaml.safe_load((ROOT / "configs" / "scheme-shoreface.yaml").read_text())
+    for f in data["facies"]:
+        f["rank"] = 10 - f["rank"]
+    reversed_scheme = tmp_path / "reversed.yaml"
+    reversed_scheme.write_text(yaml.safe_dump(data))
+    assert main(["check", str(source), "--units", "m", "--scheme", str(reversed_scheme)]) == 0
+    out = capsys.readouterr().out
+    assert "facies order the upward transitions suggest, landward to basinward:" in out
+    assert "Spearman's rho -1.00" in out and "WARNING: the scheme's ranks run against" in out
+    scheme = ROOT / "configs" / "scheme-shoreface.yaml"
+    assert main(["check", str(source), "--scheme", str(scheme), "--format", "json"]) == 0
+    order = json.loads(capsys.readouterr().out)["suggested_order"]
+    assert order["agreement_with_scheme"] == pytest.approx(1.0) and order["clear"]
+    # the streamed summary (a batch of cores at a time) adds up to the whole one
+    cores = CoreSet.from_frame(pd.read_csv(source), units="m")
+    assert order["landward_to_basinward"] == suggest_ranks(cores.successions()).order()
+    assert summarise(cores).order == suggest_ranks(cores.successions())  # core by core
+    halves = [cores.subset(cores.names[:4]), cores.subset(cores.names[4:])]
+    steps = upward_steps(halves[0].successions()).add(
+        upward_steps(halves[1].successions()), fill_value=0
+    )
+    assert suggest_ranks(steps) == suggest_ranks(cores.successions())
+
+
+def test_agreement_is_spearmans_rho_of_scipy():
+    # scipy.stats.spearmanr (Spearman 1904), ties given average ranks
+    from scipy.stats import spearmanr
+
+    suggestion = suggest_ranks(council_grove_coreset().successions("beds"))
+    data = yaml.safe_load((ROOT / "tests" / "data" / "council_grove" / "scheme.yaml").read_text())
+    scheme = FaciesScheme.from_dict(data)
+    codes = [c for c in suggestion.ranks if c in scheme]
+    expected = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]
+    assert suggestion.agreement(scheme) == pytest.approx(expected, abs=1e-12)
+    for f in data["facies"]:  # ties: every nonmarine facies one rank
+        f["rank"] = min(f["rank"], 2)
+    tied = FaciesScheme.from_dict(data)
+    expected = spearmanr([suggestion.ranks[c] for c in codes], [tied.rank(c) for c in codes])[0]
+    assert suggestion.agreement(tied) == pytest.approx(expected, abs=1e-12)

@@ -149,6 +149,7 @@ def format_text(result) -> str:
         ["facies", "beds", "thickness", "% thick", "% beds", "mean", "median", "min", "max", "sd"],
         rows,
     )
+    lines += _order_lines(result)
     lines.append("")
     counts = (
         f"{head['errors']} error(s), {head['warnings']} warning(s), {head['repairs']} repair(s)"
@@ -161,6 +162,31 @@ def format_text(result) -> str:
     else:
         lines.append("usable: no (fix the errors above; other commands refuse this data)")
     return "\n".join(lines)
+
+
+def _order_lines(result) -> list[str]:
+    """The facies order the upward transitions suggest, and how the scheme's ranks
+    agree with it (a warning where they run the other way)."""
+    order = result.order
+    if order is None:
+        return []
+    how = "" if order.clear else "; which end is landward is unclear"
+    lines = [
+        "",
+        f"facies order the upward transitions suggest, landward to basinward: "
+        f"{', '.join(order.order())} ({order.share:.2f} of {order.n_steps} upward steps "
+        f"between neighbours lead landward{how})",
+    ]
+    if result.agreement is not None:
+        lines.append(
+            f"the scheme's ranks against that order: Spearman's rho {result.agreement:.2f}"
+        )
+    if result.reversed_scheme:
+        lines.append(
+            "WARNING: the scheme's ranks run against the order the data suggest: rank 0 is "
+            "the most landward or shallow facies; a reversed scheme names the tracts wrongly"
+        )
+    return lines
 
 
 def _source_target(args: argparse.Namespace):

@@ -11,6 +11,7 @@ import pandas as pd
 from faciesseq.core import DEPTH_TOL, CoreSet, CoreTable
 from faciesseq.errors import Problem
 from faciesseq.io.stream import CoreStream
+from faciesseq.markov.seriation import RankSuggestion, suggest_ranks
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["DatabaseSummary", "summarise", "summarise_batches"]
@@ -64,6 +65,13 @@ class DatabaseSummary:
         Everything reading and validation found.
     sources
         The files or tables read.
+    order
+        The facies order the upward transitions suggest
+        (:func:`faciesseq.markov.seriation.suggest_ranks`), ``None`` where fewer than
+        three facies meet.
+    agreement
+        Spearman's rho of the scheme's ranks with ``order``, ``None`` without a scheme
+        or where it cannot be computed (:meth:`RankSuggestion.agreement`).
     """
 
     units: str
@@ -71,6 +79,15 @@ class DatabaseSummary:
     facies: pd.DataFrame
     problems: tuple[Problem, ...]
     sources: tuple[str, ...] = ()
+    order: RankSuggestion | None = None
+    agreement: float | None = None
+
+    @property
+    def reversed_scheme(self) -> bool:
+        """Whether the scheme's ranks run against the order the data suggest: rho at
+        most -0.5 where the direction of the order is clear (as ``faciesseq fit``
+        warns)."""
+        return bool(self.order and self.order.clear and (self.agreement or 0.0) <= -0.5)
 
     @property
     def counts(self) -> dict[str, int]:
@@ -116,8 +133,18 @@ class DatabaseSummary:
             "warnings": counts["warning"],
             "repairs": counts["repair"],
         }
+        order = self.order
         return {
             "summary": summary,
+            "suggested_order": None
+            if order is None
+            else {
+                "landward_to_basinward": order.order(),
+                "share_landward": order.share,
+                "steps": order.n_steps,
+                "clear": order.clear,
+                "agreement_with_scheme": self.agreement,
+            },
             "cores": _records(self.cores),
             "facies": _records(self.facies),
             "problems": [p.to_dict() for p in self.problems],
@@ -177,7 +204,7 @@ def _whole_table(cores: CoreSet, steps: dict) -> tuple:
         },
         columns=_CORE_COLUMNS,
     )
-    return core_frame, bed_table, table["facies"], pd.Series(thick)
+    return core_frame, bed_table, table["facies"], pd.Series(thick), bed_core
 
 
 def _core_by_core(cores: CoreSet, steps: dict) -> tuple:
@@ -214,11 +241,27 @@ def _core_by_core(cores: CoreSet, steps: dict) -> tuple:
         beds = pd.concat([b for b, _, _ in bed_tables], ignore_index=True)
         interval_facies = pd.concat([f for _, f, _ in bed_tables], ignore_index=True)
         interval_thick = pd.concat([t for _, _, t in bed_tables], ignore_index=True)
+        owner = np.repeat(np.arange(len(bed_tables)), [len(b) for b, _, _ in bed_tables])
     else:
         beds = pd.DataFrame(columns=["facies", "thickness"])
         interval_facies = pd.Series([], dtype=object)
         interval_thick = pd.Series([], dtype=float)
-    return core_frame, beds, interval_facies, interval_thick
+        owner = np.zeros(0, dtype=np.int64)
+    return core_frame, beds, interval_facies, interval_thick, owner
+
+
+def _upward_steps(facies: pd.Categorical, segment: pd.Series | None, owner) -> pd.Series:
+    """:func:`~faciesseq.markov.seriation.upward_steps` of beds listed top down, core by
+    core (``owner``: each bed's core): each bed and the bed above it in one core and one
+    segment (no gap between them) make a step; only the pairs that occur are counted."""
+    code = facies.codes.astype(np.int64)
+    segment = np.zeros(len(code)) if segment is None else segment.to_numpy()
+    joined = (owner[1:] == owner[:-1]) & (segment[1:] == segment[:-1])
+    m = len(facies.categories)
+    pairs, n = np.unique(code[1:][joined] * m + code[:-1][joined], return_counts=True)
+    names = np.array([str(c) for c in facies.categories], dtype=object)
+    index = pd.MultiIndex.from_arrays([names[pairs // m], names[pairs % m]])
+    return pd.Series(n, index=index, dtype=float)
 
 
 def _by_facies(thickness: pd.Series, facies: pd.Series) -> pd.DataFrame:
@@ -266,18 +309,23 @@ class _Found:
         self.beds: list[tuple[pd.Categorical, pd.Series]] = []
         self.intervals: list[tuple[pd.Categorical, pd.Series]] = []
         self.codes: set[str] = set()
+        self.steps: pd.Series | None = None
 
     def add(self, cores: CoreSet) -> None:
         steps = dict(cores.meta.get("sample_step", {})) if cores.meta else {}
         if isinstance(cores.cores, CoreTable):
-            core_frame, beds, interval_facies, interval_thick = _whole_table(cores, steps)
+            core_frame, beds, interval_facies, interval_thick, owner = _whole_table(cores, steps)
         else:
-            core_frame, beds, interval_facies, interval_thick = _core_by_core(cores, steps)
+            core_frame, beds, interval_facies, interval_thick, owner = _core_by_core(cores, steps)
         self.rows.append(core_frame)
         # a copy: the bed table's column would keep every float column of the table
-        self.beds.append((_codes(beds["facies"]), beds["thickness"].copy()))
+        facies = _codes(beds["facies"])
+        self.beds.append((facies, beds["thickness"].copy()))
         self.intervals.append((_codes(interval_facies), interval_thick))
         self.codes.update(cores.facies_codes())
+        if len(beds):
+            steps = _upward_steps(facies, beds.get("segment"), owner)
+            self.steps = steps if self.steps is None else self.steps.add(steps, fill_value=0)
 
     def summary(self, units: str, problems, sources, scheme) -> DatabaseSummary:
         codes = sorted(self.codes, key=lambda c: (len(c), c))
@@ -291,12 +339,15 @@ class _Found:
         bed_facies, bed_thick = _joined([self.beds[k] for k in used])
         interval_facies, interval_thick = _joined([self.intervals[k] for k in used])
         core_frame = pd.concat([self.rows[k] for k in used]) if len(used) > 1 else self.rows[0]
+        order = None if self.steps is None else suggest_ranks(self.steps)
         return DatabaseSummary(
             units,
             core_frame.reset_index(drop=True),
             _facies_table(codes, bed_facies, bed_thick, interval_facies, interval_thick, scheme),
             tuple(problems),
             tuple(sources),
+            order,
+            None if order is None or scheme is None else order.agreement(scheme),
         )
 
 

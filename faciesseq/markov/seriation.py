@@ -38,12 +38,21 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 from faciesseq.core import SuccessionTable
-from faciesseq.markov.counts import encode, encode_flat, transition_counts
+from faciesseq.markov.counts import _window_index, encode, encode_flat
 from faciesseq.scheme import FaciesScheme
 
-__all__ = ["EXACT_FACIES", "SUGGESTED", "UNCLEAR_SHARE", "RankSuggestion", "suggest_ranks"]
+__all__ = [
+    "EXACT_FACIES",
+    "MOST_FACIES",
+    "SUGGESTED",
+    "UNCLEAR_SHARE",
+    "RankSuggestion",
+    "suggest_ranks",
+    "upward_steps",
+]
 
 #: Below this share of one-step transitions going landward the direction of the
 #: suggested order is called unclear (a coin would give 0.5; 0.6, a plain majority
@@ -53,6 +62,10 @@ UNCLEAR_SHARE = 0.6
 #: The name of the scheme :meth:`RankSuggestion.scheme` makes (what the cautions of a
 #: fit on it look for).
 SUGGESTED = "ranks suggested from the data"
+
+#: Above this many facies no order is suggested (a table of every pair would not fit
+#: in memory, and no geologist ranks so many facies along one profile).
+MOST_FACIES = 500
 
 #: Up to this many facies the path is exact (2^n x n^2 steps: 16 facies take about a
 #: second); more are ordered by the spectral seriation.
@@ -85,15 +98,17 @@ class RankSuggestion:
 
     def agreement(self, scheme: FaciesScheme) -> float | None:
         """Spearman's rank correlation of a scheme's ranks with these, over the facies
-        both rank (scipy); ``None`` where fewer than three are shared or either side
-        ties them all. Near -1: the scheme runs the other way (0 = deepest?)."""
-        from scipy.stats import spearmanr
-
+        both rank (the Pearson correlation of average ranks; equal to scipy's
+        ``spearmanr``, which ``tests/test_seriation.py`` checks, without importing
+        ``scipy.stats`` into ``faciesseq check``); ``None`` where fewer than three are
+        shared or either side ties them all. Near -1: the scheme runs the other way
+        (0 = deepest?)."""
         codes = [c for c in self.ranks if c in scheme]
-        theirs = [scheme.rank(c) for c in codes]
-        if len(codes) < 3 or len(set(theirs)) < 2:
+        theirs = pd.Series([scheme.rank(c) for c in codes], dtype=float)
+        if len(codes) < 3 or theirs.nunique() < 2:
             return None
-        return float(spearmanr([self.ranks[c] for c in codes], theirs)[0])
+        ours = pd.Series([self.ranks[c] for c in codes], dtype=float)
+        return float(np.corrcoef(ours.rank(), theirs.rank())[0, 1])
 
     def scheme(self) -> FaciesScheme:
         """A facies scheme of these ranks alone (no groups, settings or names), for a
@@ -106,31 +121,52 @@ class RankSuggestion:
         return FaciesScheme.from_dict({"name": SUGGESTED, "facies": facies})
 
 
-def suggest_ranks(successions: Sequence | SuccessionTable) -> RankSuggestion | None:
-    """Ranks of the facies of ``successions`` (beds base to top: a succession table,
-    successions of a core set, or sequences of codes) from their upward transitions;
-    ``None`` where fewer than three facies meet in transitions."""
+def upward_steps(successions: Sequence | SuccessionTable) -> pd.Series:
+    """Upward transitions between facies of ``successions`` (as :func:`suggest_ranks`
+    takes them): counts indexed by the pairs (facies below, facies above) that occur.
+    Those of parts of one database add up (``a.add(b, fill_value=0)``) to the whole's."""
     if isinstance(successions, SuccessionTable):  # no Succession made per core
         t = successions
         enc = encode_flat(t.beds["facies"].to_numpy(), t.lengths, t.cores, t.segments)
     else:
         enc = encode(successions)
-    counts = transition_counts(enc).astype(float)
-    np.fill_diagonal(counts, 0.0)  # amalgamated beds: a facies never follows itself
-    met = np.flatnonzero((counts + counts.T).sum(axis=1) > 0)
-    if met.size < 3:
+    m = enc.m
+    starts = _window_index(enc, 2)
+    pairs, n = np.unique(
+        enc.states[starts].astype(np.int64) * m + enc.states[starts + 1], return_counts=True
+    )
+    names = np.array([str(c) for c in enc.codes], dtype=object)
+    index = pd.MultiIndex.from_arrays(
+        [names[pairs // m], names[pairs % m]], names=["below", "above"]
+    )
+    return pd.Series(n, index=index, dtype=float)
+
+
+def suggest_ranks(successions: Sequence | SuccessionTable | pd.Series) -> RankSuggestion | None:
+    """Ranks of the facies of ``successions`` (beds base to top: a succession table,
+    successions of a core set, sequences of codes, or their :func:`upward_steps`) from
+    their upward transitions; ``None`` where fewer than three facies, or more than
+    :data:`MOST_FACIES`, meet in transitions."""
+    steps = successions if isinstance(successions, pd.Series) else upward_steps(successions)
+    below, above = steps.index.get_level_values(0), steps.index.get_level_values(1)
+    steps = steps[(steps.to_numpy() > 0) & (below != above)]
+    below, above = steps.index.get_level_values(0), steps.index.get_level_values(1)
+    codes = sorted({*below, *above})  # amalgamated beds: no facies follows itself
+    n = len(codes)
+    if not 3 <= n <= MOST_FACIES:
         return None
-    table = counts[np.ix_(met, met)]
-    total = table.sum(axis=0) + table.sum(axis=1)
-    table = table / np.sqrt(np.outer(total, total))
-    order = _best_path(table) if met.size <= EXACT_FACIES else _spectral_order(table)
-    position = np.empty(met.size, dtype=np.int64)
-    position[order] = np.arange(met.size)
-    up, down = _neighbour_steps(counts[np.ix_(met, met)], position)
-    if met.size > EXACT_FACIES and down > up:  # the spectral order has no direction
-        position, (up, down) = met.size - 1 - position, (down, up)
-    ranks = met.size - 1 - position  # the order runs basinward to landward
-    codes = [str(enc.codes[i]) for i in met]
+    at = {c: k for k, c in enumerate(codes)}
+    counts = np.zeros((n, n))
+    counts[[at[c] for c in below], [at[c] for c in above]] = steps.to_numpy(dtype=float)
+    total = counts.sum(axis=0) + counts.sum(axis=1)
+    table = counts / np.sqrt(np.outer(total, total))
+    order = _best_path(table) if n <= EXACT_FACIES else _spectral_order(table)
+    position = np.empty(n, dtype=np.int64)
+    position[order] = np.arange(n)
+    up, down = _neighbour_steps(counts, position)
+    if n > EXACT_FACIES and down > up:  # the spectral order has no direction
+        position, (up, down) = n - 1 - position, (down, up)
+    ranks = n - 1 - position  # the order runs basinward to landward
     n_steps = int(up + down)
     share = up / n_steps if n_steps else 0.5
     return RankSuggestion(dict(zip(codes, ranks.tolist())), float(share), n_steps)
