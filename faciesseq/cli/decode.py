@@ -366,12 +366,25 @@ def _read(args: argparse.Namespace, model, scheme):
     """The successions of the cores read whole, and whether any core was read in the
     samples layout."""
     cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
-    check_grid_size(cores, model.unit, model.step, option="the model's grid step")
-    successions = cores.succession_table(model.unit, model.step)
+    _note_units(model, cores.units)
+    step = model.grid_step(cores.units)
+    check_grid_size(cores, model.unit, step, option="the model's grid step")
+    successions = cores.succession_table(model.unit, step)
     if not len(successions):
         raise ConfigError("the source holds no beds to decode", file=args.source)
     sampled = "samples" in dict(cores.meta.get("layout", {})).values()
     return successions, sampled
+
+
+def _note_units(model, units: str) -> None:
+    """Say where the model was fitted on depths in other units than the source's."""
+    fitted = getattr(model, "units_", None)
+    if fitted is not None and fitted != units:
+        sys.stderr.write(
+            f"faciesseq decode: the model was fitted on depths in {fitted}; the beds' "
+            f"thicknesses are converted to {fitted} for it (1 ft = 0.3048 m), every output "
+            f"stays in {units}\n"
+        )
 
 
 class _Streamed:
@@ -386,11 +399,13 @@ class _Streamed:
         from faciesseq.markov.screening import leave_out_irregular
 
         beds = 0
-        for batch in self.stream:
+        for k, batch in enumerate(self.stream):
+            if k == 0:
+                _note_units(model, batch.units)
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
-            table = cores.succession_table(model.unit, model.step)
+            table = cores.succession_table(model.unit, model.grid_step(cores.units))
             beds += len(table.beds)
             yield table
         if not beds:

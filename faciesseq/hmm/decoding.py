@@ -17,7 +17,14 @@ from collections.abc import Iterable, Iterator, Sequence
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet, Succession, SuccessionTable, take_text, text_column
+from faciesseq.core import (
+    CoreSet,
+    Succession,
+    SuccessionTable,
+    take_text,
+    text_column,
+    to_metres,
+)
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
@@ -120,7 +127,9 @@ class Decoding:
         :data:`DECODE_PART`) at a time: what a part needs is made, decoded and handed
         on before the next is begun."""
         self._check_fitted()
-        table = _succession_table(successions, self.unit, self.step)
+        units = getattr(successions, "units", None)
+        step = self.step if units is None else self.grid_step(units)
+        table = _succession_table(successions, self.unit, step)
         yield from self._decoded(table, mass, labels, size)
 
     def decode_stream(
@@ -157,13 +166,31 @@ class Decoding:
             first, stop = group[0][3], group[-1][3] + len(group[-1][2])
             yield self._decode_part(table.part(first, stop), group, mass, labels, first)
 
+    def _in_fitted_units(self, table: SuccessionTable) -> pd.DataFrame:
+        """The beds of ``table`` with their thickness in the depth units of the cores the
+        model was fitted on (its emissions read the log of thickness in those units;
+        1 ft = 0.3048 m); depths and every output stay in the table's units."""
+        fitted = getattr(self, "units_", None)
+        if fitted is None or fitted == table.units:
+            return table.beds
+        factor = to_metres(1.0, table.units) / to_metres(1.0, fitted)
+        return table.beds.assign(thickness=table.beds["thickness"] * factor)
+
+    def grid_step(self, units: str) -> float | None:
+        """The model's depth step (``unit="grid"``) in ``units`` (the fitted cores' units
+        where the model knows them)."""
+        fitted = getattr(self, "units_", None)
+        if self.step is None or fitted is None or fitted == units:
+            return self.step
+        return float(self.step * to_metres(1.0, fitted) / to_metres(1.0, units))
+
     def _groups(self, table: SuccessionTable, size: int | None) -> list[list]:
         """The batches of ``table`` grouped into parts (see :func:`_parts`)."""
         batches = list(self._batches(table.lengths, DECODE_BATCH))
         return _parts(batches, table.cores, size or DECODE_PART)
 
     def _decode_part(self, part: SuccessionTable, group, mass, labels, first: int):
-        beds = self._encode([part.beds], part.lengths)
+        beds = self._encode([self._in_fitted_units(part)], part.lengths)
         self._warn_unseen(part, beds)
         clamp = None
         if labels is not None:

@@ -558,6 +558,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         succ = _training_successions(successions, self.unit, self.step, labels)
         if not len(succ):
             raise InputError("no beds to fit the tract model on")
+        self.units_ = succ.units if isinstance(succ, SuccessionTable) else succ[0].units
         self._fit_once(succ, labels, progress)
         if self._tracts_shorter_than_cycles():
             self._fit_with_weaker_weights(succ, labels, progress)

@@ -18,7 +18,8 @@ and loading one runs no code. Layout (``version: 1``)::
                      "emissions": [{"kind": ..., "name": ..., ...}, ...],
                      "temperature": 1.0},   # posterior temperature (absent: 1)
       "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
-                   best_restart, seed, calibration, ...provenance given by the caller},
+                   best_restart, seed, calibration, cautions, units,
+                   ...provenance given by the caller},
       "provenance": {"created": "2026-12-01T19:30:00+00:00", "command": [...]}
     }
 
@@ -154,6 +155,8 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
     if getattr(model, "nested_start_", None):
         training["nested_start"] = model.nested_start_
     training["cautions"] = fit_cautions(model)
+    if getattr(model, "units_", None):
+        training["units"] = model.units_
     run = {"created": datetime.now(UTC).isoformat(timespec="seconds")}
     for key, value in dict(provenance or {}).items():
         (run if key in RUN_KEYS else training)[key] = value
@@ -270,6 +273,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.graph_selection_ = list(training.get("graph_selection", []))
     model.weights_rejected_ = training.get("evidence_weights_rejected")
     model.nested_start_ = training.get("nested_start")
+    model.units_ = training.get("units")  # None in files made before: no conversion
     if "cautions" in training:  # files made before: computed again from the model
         model.cautions_ = [str(c) for c in training["cautions"]]
     model.best_restart_ = int(training.get("best_restart") or 0)
@@ -426,6 +430,7 @@ _TRAINING_TYPES = {
     "evidence_weights_rejected": dict,
     "nested_start": dict,
     "cautions": list,
+    "units": str,
 }  # "calibration" may be anything: the report says when it is not a record
 
 
@@ -445,6 +450,8 @@ def _training(doc: Mapping, source: str) -> Mapping:
             ok = math.isfinite(value) and (kind is not int or 0 <= value < 2**31)
         if not ok:
             raise ModelFileError(f"training.{key}: {value!r} is not valid here", file=source)
+    if training.get("units") not in (None, "m", "ft"):
+        raise ModelFileError(f"training.units: {training['units']!r}: m or ft", file=source)
     for r in training.get("restarts") or []:
         history = r.get("history", []) if isinstance(r, Mapping) else None
         if not isinstance(history, list) or not all(

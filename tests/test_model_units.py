@@ -1,0 +1,73 @@
+"""A model fitted on depths in one unit decodes cores described in the other.
+
+The emissions read the log of bed thickness (and the stacking window the
+thicknesses around a bed), so a model fitted in metres read feet as beds 3.28
+times thicker: every bed of a core decoded as highstand, without a word. The model
+file keeps the units of its training cores, and decoding converts the beds'
+thickness to them (1 ft = 0.3048 m exactly: the international foot, common
+practice), every output staying in the source's units.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.cli import main
+from faciesseq.core import FT_TO_M
+
+ROOT = Path(__file__).resolve().parents[1]
+SCHEME = str(ROOT / "configs" / "scheme-shoreface.yaml")
+DEMO = ROOT / "demo_cores" / "cores.csv"
+
+
+def _tables(tmp_path: Path) -> tuple[Path, Path, Path]:
+    t = pd.read_csv(DEMO)
+    t = t[t["core"].isin(sorted(t["core"].unique())[:8])]
+    keep = sorted(t["core"].unique())[:3]
+    t = t.assign(tract=t["true_tract"].where(t["core"].isin(keep)))
+    train, metres, feet = tmp_path / "train.csv", tmp_path / "m.csv", tmp_path / "ft.csv"
+    t[["core", "top", "base", "facies", "tract"]].to_csv(train, index=False)
+    test = t[~t["core"].isin(keep)][["core", "top", "base", "facies"]]
+    test.to_csv(metres, index=False)
+    test.assign(top=test["top"] / FT_TO_M, base=test["base"] / FT_TO_M).to_csv(feet, index=False)
+    return train, metres, feet
+
+
+def _decoded(folder: Path) -> pd.DataFrame:
+    return pd.read_csv(folder / "tracts.csv", comment="#")
+
+
+def test_a_model_fitted_in_metres_decodes_cores_in_feet_alike(tmp_path, capsys):
+    train, metres, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    assert json.loads(model.read_text())["training"]["units"] == "m"
+    capsys.readouterr()
+    assert main(["decode", str(model), str(metres), "--units", "m", "-o", str(tmp_path / "m")]) == 0
+    assert "converted" not in capsys.readouterr().err
+    assert main(["decode", str(model), str(feet), "--units", "ft", "-o", str(tmp_path / "f")]) == 0
+    assert "the model was fitted on depths in m" in capsys.readouterr().err
+    in_m, in_ft = _decoded(tmp_path / "m"), _decoded(tmp_path / "f")
+    assert in_m["tract"].tolist() == in_ft["tract"].tolist()
+    assert len(set(in_m["tract"])) > 1  # not the one tract of a misread
+    assert np.allclose(in_ft["top"] * FT_TO_M, in_m["top"], atol=1e-6)  # outputs in feet
+    probs = [c for c in in_m.columns if c.startswith("p_")]
+    assert np.allclose(in_m[probs], in_ft[probs], atol=1e-6)
+
+
+def test_a_model_file_with_units_that_are_neither_is_refused(tmp_path, capsys):
+    train, metres, _ = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    doc = json.loads(model.read_text())
+    doc["training"]["units"] = "furlong"
+    model.write_text(json.dumps(doc))
+    capsys.readouterr()
+    assert main(["decode", str(model), str(metres), "-o", str(tmp_path / "out")]) == 2
+    assert "training.units: 'furlong': m or ft" in capsys.readouterr().err
