@@ -149,19 +149,25 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     captured = capsys.readouterr()
     assert "without facies ranks the tracts are not identified" in captured.err
     assert "scheme: none" in captured.err
-    # with labels nothing is suggested unless asked
+    # labelled fits read them too (their rank features and stacking context), unless refused
     labelled = tmp_path / "labelled.csv"
     t = pd.read_csv(ROOT / "demo_cores" / "cores.csv").rename(columns={"true_tract": "tract_"})
     columns = ["core", "top", "base", "facies", "tract"]
     t.assign(tract=t["tract_"])[columns].to_csv(labelled, index=False)
-    assert main(["fit", str(labelled), "--labels", "tract", "-o", str(tmp_path / "l.json")]) == 0
+    fit = ["fit", str(labelled), "--labels", "tract", "-o", str(tmp_path / "l.json")]
+    assert main(fit) == 0
+    assert "ranks suggested from the data, landward" in capsys.readouterr().err
+    assert (
+        "rank_step" in json.loads((tmp_path / "l.json").read_text())["hyperparameters"]["features"]
+    )
+    assert main([*fit, "--force", "--no-suggest-ranks"]) == 0
     assert "ranks suggested" not in capsys.readouterr().err
-    # validate's fits without labels read them too; its labelled fits do not
+    # validate's fits read them, with labels or without
     check = ["validate", str(labelled), "--labels", "tract", "--folds", "2", "--restarts", "1"]
     assert main([*check, "--mode", "unsupervised"]) == 0
     assert "faciesseq validate: ranks suggested from the data" in capsys.readouterr().err
     assert main(check) == 0
-    assert "ranks suggested" not in capsys.readouterr().err
+    assert "faciesseq validate: ranks suggested from the data" in capsys.readouterr().err
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     assert main([*args, "--force", "--suggest-ranks", "--scheme", str(scheme)]) == 2
 

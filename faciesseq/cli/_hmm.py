@@ -21,9 +21,9 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         default=None,
         help="where no --scheme is given, rank the facies by their upward transitions (the "
         "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
-        "for a geologist to check; the default where the fits have no labels (fit without "
-        "--labels, validate --mode unsupervised), whose tracts are otherwise not identified "
-        "(--no-suggest-ranks fits without ranks)",
+        "for a geologist to check; the default (without ranks a fit without labels names "
+        "no tract, and a labelled one reads no rank feature; --no-suggest-ranks fits "
+        "without ranks)",
     )
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
@@ -235,17 +235,17 @@ def warnings_to_stderr(command: str):
                 sys.stderr.write(f"faciesseq {command}: warning: {text}\n")
 
 
-def resolve_suggest_ranks(args: argparse.Namespace, labelled: bool) -> None:
+def resolve_suggest_ranks(args: argparse.Namespace) -> None:
     """``args.ranks_suggested``: whether the fits read ranks suggested from the data
-    (asked, or by default where neither a scheme nor labels name the tracts); read
-    by the settings line. ``--suggest-ranks`` beside ``--scheme`` is refused."""
+    (asked, or by default where there is no scheme); read by the settings line.
+    ``--suggest-ranks`` beside ``--scheme`` is refused."""
     if args.suggest_ranks and args.scheme:
         raise ConfigError(
             f"--suggest-ranks ranks the facies where there is no scheme; {args.scheme} is "
             "given: use one or the other"
         )
     asked = args.suggest_ranks
-    args.ranks_suggested = asked if asked is not None else not args.scheme and not labelled
+    args.ranks_suggested = asked if asked is not None else not args.scheme
 
 
 def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labelled: bool):

@@ -209,7 +209,8 @@ def _print_graph(model) -> None:
     on = f", fitted on a sample of {sample} beds" if sample < model.n_train_beds_ else ""
     print(
         f"tract graph: strict cyclic order, skips {skips}, the lowest ICL (BIC + 2 x the "
-        f"entropy of the beds' tracts) of the trade's {len(rows)} graphs{on} (ICL above it: "
+        f"entropy of the beds' tracts) of {len(rows)} candidate graphs (none or one of the "
+        f"skips the trade allows){on} (ICL above it: "
         f"{others})"
     )
 
@@ -370,15 +371,15 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.hmm.modelfile import save_model
 
     labelled = args.labels is not None
-    resolve_suggest_ranks(args, labelled)
+    resolve_suggest_ranks(args)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
-    scheme = scheme_for_fit(args, cores, scheme, "fit", labelled)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
+    scheme = scheme_for_fit(args, cores, scheme, "fit", labelled)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]

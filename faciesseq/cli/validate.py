@@ -167,13 +167,13 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.validation import cross_validate
 
     labelled = args.mode != "unsupervised"
-    resolve_suggest_ranks(args, labelled)
+    resolve_suggest_ranks(args)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
-    scheme = scheme_for_fit(args, cores, scheme, "validate", labelled)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
+    scheme = scheme_for_fit(args, cores, scheme, "validate", labelled)
     progress = Progress("validate")
     with warnings_to_stderr("validate"):
         try:

@@ -337,7 +337,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         tracts, so EM starts from them, not from the trend rule)."""
         return bool(set(self.features_) & set(CONTEXT_FEATURES))
 
-    def _vocabularies(self, tables: Sequence[pd.DataFrame]) -> None:
+    def _vocabularies(self, tables: Sequence[pd.DataFrame], labelled: bool = False) -> None:
         seen = sorted(_distinct(tables, "facies"), key=lambda c: (len(c), c))
         if self.scheme is not None:
             facies = list(self.scheme.codes)
@@ -347,7 +347,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         else:
             facies = seen
             self.ranks_ = None
-            if "facies_trend" in self.features_:
+            if "facies_trend" in self.features_ and not labelled:  # labels name the tracts
                 warnings.warn(
                     "no facies scheme: the trend prior is flat, so which state is which tract "
                     "rests on the starting rule and the tract graph only",
@@ -690,7 +690,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
                 "feature 'stacking' is learnt from labelled beds; give a label column "
                 "(--labels) or leave the feature out"
             )
-        self._vocabularies(tables)
+        self._vocabularies(tables, labelled=n_labelled > 0)
         beds = self._encode(tables, lengths)
         self.evidence_weights_ = self._evidence_weights(beds)
         ranks = (
