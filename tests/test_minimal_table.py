@@ -50,15 +50,20 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     if labelled is not None:
         args += ["--labels", "tract"]
     assert main(args) == 0, capsys.readouterr().err
-    # without labels, a source without contact types is told what it misses
-    no_contacts = "no contact types" in capsys.readouterr().out
+    # without labels, a source without contact types is told what it misses, and every
+    # fit without labels that its tract names rest on the priors
+    printed = capsys.readouterr().out
+    no_contacts = "no contact types" in printed
     assert no_contacts == (labelled is None and "contact" not in extra)
+    assert ("no bed was labelled" in printed) == (labelled is None)
     out = tmp_path / "decoded"
     assert main(["decode", str(model), str(source), "-o", str(out)]) == 0
     # the model file keeps the fit's cautions, and decode repeats them
     recorded = json.loads(model.read_text())["training"]["cautions"]
     assert any("no contact types" in c for c in recorded) == no_contacts
-    assert ("no contact types" in capsys.readouterr().out) == no_contacts
+    printed = capsys.readouterr().out
+    assert ("no contact types" in printed) == no_contacts
+    assert ("no bed was labelled" in printed) == (labelled is None)
     tracts = pd.read_csv(out / "tracts.csv", comment="#")
     assert len(tracts) > 0
     assert tracts["tract"].isin(["HST", "FSST", "LST", "TST"]).all()

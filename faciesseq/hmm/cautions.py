@@ -1,10 +1,10 @@
-"""What a fit without labels warns of: cautions printed by ``fit`` and ``decode`` and
-written into the appendix's methods.
+"""What a fit warns of: cautions printed by ``fit`` and ``decode`` and written into
+the appendix's methods.
 
 Each caution reads the fitted model alone, names what it saw and the measured loss
 beside it, and says what the geologist can do (label a few cores, record contacts).
-A fit with labels has none of these; the contact caution also stays silent where
-the user chose the features.
+A fit with labels has none of these but the suggested ranks'; the contact caution
+also stays silent where the user chose the features.
 """
 
 from __future__ import annotations
@@ -18,6 +18,7 @@ __all__ = [
     "single_bed_caution",
     "single_bed_tracts",
     "suggested_ranks_caution",
+    "unlabelled_caution",
 ]
 
 
@@ -29,8 +30,29 @@ def fit_cautions(model) -> list[str]:
     stored = getattr(model, "cautions_", None)
     if stored is not None:
         return list(stored)
-    found = (suggested_ranks_caution(model), single_bed_caution(model), contact_caution(model))
+    found = (
+        unlabelled_caution(model),
+        suggested_ranks_caution(model),
+        single_bed_caution(model),
+        contact_caution(model),
+    )
     return [c for c in found if c]
+
+
+def unlabelled_caution(model) -> str | None:
+    """A caution for every fit without labels: its tract names rest on the priors (the
+    cyclic order, the one deepening tract), which were tuned on the project's own
+    generators. On cores of a generator written blind it read near chance
+    (``benchmarks/tract_model.md``, "Cores of a generator written blind")."""
+    if getattr(model, "n_labelled_", 0):
+        return None
+    return (
+        "caution: no bed was labelled, so the tract names rest on the model's priors (the "
+        "cyclic order, the one deepening tract); on cores of a generator it was not tuned "
+        "on, fits without labels read near chance (balanced accuracy 0.34-0.42, against "
+        "0.60-0.73 with three labelled cores; docs/hmm.md, 'Cores of a generator written "
+        "blind'): read the column as a first draft, or label a few cores (fit --labels)"
+    )
 
 
 def suggested_ranks_caution(model) -> str | None:
