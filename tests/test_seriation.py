@@ -177,14 +177,20 @@ def test_a_table_of_successions_gives_what_the_successions_give():
     assert suggest_ranks(cores.succession_table("beds")) == suggest_ranks(cores.successions("beds"))
 
 
-def test_fit_warns_where_the_schemes_ranks_run_against_the_data(tmp_path, capsys):
-    # a scheme written 0 = deepest (the wrong way round) names the tracts wrongly
-    source = _minimal_table(tmp_path)
+def _reversed_scheme(tmp_path: Path) -> tuple[Path, dict]:
+    """The shoreface scheme with its ranks written 0 = deepest: the file and its data."""
     data = yaml.safe_load((ROOT / "configs" / "scheme-shoreface.yaml").read_text())
     for f in data["facies"]:
         f["rank"] = 10 - f["rank"]
-    reversed_scheme = tmp_path / "reversed.yaml"
-    reversed_scheme.write_text(yaml.safe_dump(data))
+    path = tmp_path / "reversed.yaml"
+    path.write_text(yaml.safe_dump(data))
+    return path, data
+
+
+def test_fit_warns_where_the_schemes_ranks_run_against_the_data(tmp_path, capsys):
+    # a scheme written 0 = deepest (the wrong way round) names the tracts wrongly
+    source = _minimal_table(tmp_path)
+    reversed_scheme, data = _reversed_scheme(tmp_path)
     args = ["fit", str(source), "-o", str(tmp_path / "m.json"), "--restarts", "1"]
     assert main([*args, "--scheme", str(reversed_scheme)]) == 0
     assert "run against the order the data suggest (Spearman's rho -1.00" in capsys.readouterr().err
@@ -197,11 +203,7 @@ def test_fit_warns_where_the_schemes_ranks_run_against_the_data(tmp_path, capsys
 
 def test_check_shows_the_suggested_order_and_warns_of_a_reversed_scheme(tmp_path, capsys):
     source = _minimal_table(tmp_path)
-    data = yaml.safe_load((ROOT / "configs" / "scheme-shoreface.yaml").read_text())
-    for f in data["facies"]:
-        f["rank"] = 10 - f["rank"]
-    reversed_scheme = tmp_path / "reversed.yaml"
-    reversed_scheme.write_text(yaml.safe_dump(data))
+    reversed_scheme, _ = _reversed_scheme(tmp_path)
     assert main(["check", str(source), "--units", "m", "--scheme", str(reversed_scheme)]) == 0
     out = capsys.readouterr().out
     assert "facies order the upward transitions suggest, landward to basinward:" in out
