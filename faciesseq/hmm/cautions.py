@@ -118,7 +118,7 @@ def contact_caution(model) -> str | None:
     0.51 -> 0.22, balanced accuracy 0.854 -> 0.776; three labelled cores 0.972."""
     if getattr(model, "n_labelled_", 0) or model.features is not None:
         return None  # labelled, or the features chosen by the user
-    if "contact" in model.features_ or not model._reads_context():
+    if "contact" in model.features_ or not model.reads_context():
         return None
     return (
         "note: the source has no contact types (a contact column: sharp, erosional, "

@@ -447,7 +447,7 @@ class ExpectationMaximisation:
             spread = 0.5
             if data.start is not None:
                 weights, spread = data.start[a:b], START_NOISE
-            elif self.ranks_ is not None and not self._reads_context():
+            elif self.ranks_ is not None and not self.reads_context():
                 weights = 0.2 / S + 0.8 * np.eye(S)[data.rule[a:b]]
             if restart > 0:
                 noise = rng.dirichlet(np.ones(S), size=T)

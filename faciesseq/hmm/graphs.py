@@ -207,7 +207,7 @@ def _nested_fit(model, sample: SuccessionTable):
     if not model.nested_start:
         return None
     reduced = fit_reduced(model, sample, default_tract_model())
-    return reduced if reduced is not None and reduced._reads_context() else None
+    return reduced if reduced is not None and reduced.reads_context() else None
 
 
 def _fit_graph(

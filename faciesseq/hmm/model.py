@@ -332,7 +332,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         if not isinstance(self.nested_start, bool):
             raise ConfigError(f"nested_start must be true or false, got {self.nested_start!r}")
 
-    def _reads_context(self) -> bool:
+    def reads_context(self) -> bool:
         """Whether the emissions read the stacking context (their priors pin the
         tracts, so EM starts from them, not from the trend rule)."""
         return bool(set(self.features_) & set(CONTEXT_FEATURES))
@@ -449,7 +449,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         training beds (:func:`~faciesseq.hmm.context.evidence_weights`); none
         unless ``weigh_evidence`` and the fit reads the stacking context."""
         self.n_cycles_ = None
-        if not (self.weigh_evidence and self._reads_context()):
+        if not (self.weigh_evidence and self.reads_context()):
             return {}
         marks, nonmarine = self._facies_marks()
         ranks, starts, setting = cycle_inputs(beds.facies, self.ranks_, marks, nonmarine)
@@ -683,7 +683,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self.features_ = resolve_features(
             self.features, tables, self.scheme, self.unit, labelled=n_labelled > 0
         )
-        if self._reads_context() and self.substates is None:
+        if self.reads_context() and self.substates is None:
             self.states_ = StateSpace.build(self.tract_model_, CONTEXT_SUBSTATES)
         if "stacking" in self.features_ and n_labelled == 0:
             raise ConfigError(
@@ -699,14 +699,14 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             else np.where(beds.facies >= 0, self.ranks_[np.maximum(beds.facies, 0)], np.nan)
         )
         # fits on the stacking context start from its priors, not from the trend rule
-        rule = None if self._reads_context() else trend_rule(ranks, beds.lengths, self.tract_model_)
+        rule = None if self.reads_context() else trend_rule(ranks, beds.lengths, self.tract_model_)
         free = None if clamp is None else clamp.all(axis=1)
         self._cycle_pseudo = (
             self._cycle_counts(rule, beds.lengths, free)
             if self.cycle_prior
             and self.prior_strength
             and self.ranks_ is not None
-            and not self._reads_context()
+            and not self.reads_context()
             else None
         )
         trained = self._train_static(beds, clamp)
@@ -717,7 +717,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         """Temperature from cores simulated from the fitted model
         (:mod:`faciesseq.hmm.bootstrap`), for fits on the stacking context; other
         fits keep their record of why they were not calibrated."""
-        if not (self._reads_context() and int(self.calibration_folds) > 0):
+        if not (self.reads_context() and int(self.calibration_folds) > 0):
             return
         from faciesseq.hmm.bootstrap import calibrate_by_simulation
 

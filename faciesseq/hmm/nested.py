@@ -165,7 +165,7 @@ def with_nested_start(model, succ, data: TrainingData) -> TrainingData:
         model.nested_start_ = getattr(warm, "nested_start_", None)
         return data
     reduced = getattr(model, "nested_from_", None)
-    if reduced is None and model.nested_start and model._reads_context():
+    if reduced is None and model.nested_start and model.reads_context():
         reduced = fit_reduced(model, succ, model.tract_model_)
     if reduced is None or not model._same_coding(reduced):
         return data

@@ -208,7 +208,7 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     ``model``, the fitted tract model, when known: a fit on the stacking context of
     cycles and a temperature from simulated cores are described as such.
     """
-    context = bool(model is not None and getattr(model, "_reads_context", lambda: False)())
+    context = bool(model is not None and getattr(model, "reads_context", lambda: False)())
     boot = isinstance(getattr(model, "calibration_", None), dict) and (
         model.calibration_.get("method") == "parametric bootstrap"
     )
