@@ -11,11 +11,17 @@ by EM without labels, and with every bed clamped to its true tract. Both
 parameter sets are scored on the same cores without labels (log-likelihood):
 if the truth-fitted one scores lower, the model family itself prefers another
 partition of the beds, and no restart or start will find the true one.
+
+``--blind``: the same on 8 cores of each of the seeds 11-13 of
+``benchmarks/blind_generator.py`` with its own scheme (minimal tables, so no contact
+features).
 """
 
 from __future__ import annotations
 
+import subprocess
 import sys
+import tempfile
 import warnings
 from pathlib import Path
 
@@ -32,7 +38,7 @@ from faciesseq.scheme import default_tract_model, load_scheme  # noqa: E402
 from faciesseq.simulate import load_stacking_scenario, simulate_stacking  # noqa: E402
 
 
-def main() -> int:
+def _stacking() -> tuple:
     scheme = load_scheme(ROOT / "configs" / "scheme-shoreface.yaml")
     scenario = load_stacking_scenario(ROOT / "configs" / "stacking-shoreface.yaml")
     frames = []
@@ -40,12 +46,43 @@ def main() -> int:
         t = simulate_stacking(scenario, seed=seed).cores.to_frame()
         t["core"] = t["core"] + f"/s{seed}"
         frames.append(t)
-    table = pd.concat(frames, ignore_index=True)
+    return scheme, pd.concat(frames, ignore_index=True), DEFAULT_UNLABELLED_FEATURES
+
+
+def _blind(folder: Path) -> tuple:
+    frames = []
+    for seed in (11, 12, 13):
+        out = folder / f"cores{seed}.csv"
+        args = [
+            "--seed",
+            str(seed),
+            "--cores",
+            "8",
+            "-o",
+            str(out),
+            "--scheme",
+            str(folder / "s.yaml"),
+        ]
+        subprocess.run(
+            [sys.executable, str(ROOT / "benchmarks" / "blind_generator.py"), *args], check=True
+        )
+        t = pd.read_csv(out, dtype={"core": str}).rename(columns={"tract": "true_tract"})
+        t["core"] = t["core"] + f"/s{seed}"
+        frames.append(t)
+    scheme = load_scheme(folder / "s.yaml")
+    feats = [f for f in DEFAULT_UNLABELLED_FEATURES if f not in ("contact", "cycle_sharpness")]
+    return scheme, pd.concat(frames, ignore_index=True), feats
+
+
+def main() -> int:
+    with tempfile.TemporaryDirectory() as folder:
+        blind = "--blind" in sys.argv[1:]
+        scheme, table, features = _blind(Path(folder)) if blind else _stacking()
     free = CoreSet.from_frame(table.assign(tract=np.nan), units="m")
     true = CoreSet.from_frame(table.assign(tract=table["true_tract"]), units="m")
     common = dict(
         scheme=scheme,
-        features=DEFAULT_UNLABELLED_FEATURES,
+        features=features,
         tract_model=default_tract_model(),
         substates=3,
         calibration_folds=0,
