@@ -299,8 +299,10 @@ def _warn_reversed(scheme, suggestion, path, command: str) -> None:
     """Warn where the scheme's ranks run against the order the data's upward
     transitions suggest (Spearman's rho at most -0.5; the suggestion's direction is
     clear): ranks written 0 = deepest give the tracts the wrong names."""
+    from faciesseq.markov.seriation import REVERSED_RHO
+
     rho = suggestion.agreement(scheme)
-    if rho is not None and rho <= -0.5:
+    if rho is not None and rho <= REVERSED_RHO:
         sys.stderr.write(
             f"faciesseq {command}: warning: the ranks of {path} run against the order the "
             f"data suggest (Spearman's rho {rho:.2f}; landward to basinward "

@@ -11,7 +11,7 @@ import pandas as pd
 from faciesseq.core import DEPTH_TOL, CoreSet, CoreTable
 from faciesseq.errors import Problem
 from faciesseq.io.stream import CoreStream
-from faciesseq.markov.seriation import RankSuggestion, suggest_ranks
+from faciesseq.markov.seriation import REVERSED_RHO, RankSuggestion, suggest_ranks
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["DatabaseSummary", "summarise", "summarise_batches"]
@@ -85,9 +85,10 @@ class DatabaseSummary:
     @property
     def reversed_scheme(self) -> bool:
         """Whether the scheme's ranks run against the order the data suggest: rho at
-        most -0.5 where the direction of the order is clear (as ``faciesseq fit``
-        warns)."""
-        return bool(self.order and self.order.clear and (self.agreement or 0.0) <= -0.5)
+        most :data:`~faciesseq.markov.seriation.REVERSED_RHO` (-0.5) where the direction
+        of the order is clear (as ``faciesseq fit`` warns)."""
+        rho = self.agreement
+        return bool(self.order and self.order.clear and rho is not None and rho <= REVERSED_RHO)
 
     @property
     def counts(self) -> dict[str, int]:

@@ -47,6 +47,7 @@ from faciesseq.scheme import FaciesScheme
 __all__ = [
     "EXACT_FACIES",
     "MOST_FACIES",
+    "REVERSED_RHO",
     "SUGGESTED",
     "UNCLEAR_SHARE",
     "RankSuggestion",
@@ -58,6 +59,10 @@ __all__ = [
 #: suggested order is called unclear (a coin would give 0.5; 0.6, a plain majority
 #: margin, was set before any measurement and fitted to none).
 UNCLEAR_SHARE = 0.6
+
+#: At or below this Spearman's rho against a clear suggested order a scheme's ranks are
+#: said to run the other way (written 0 = deepest); set before any measurement.
+REVERSED_RHO = -0.5
 
 #: The name of the scheme :meth:`RankSuggestion.scheme` makes (what the cautions of a
 #: fit on it look for).
