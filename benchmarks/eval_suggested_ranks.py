@@ -161,31 +161,49 @@ def _labelled_row(name: str) -> str:
     return f"| {name} | " + " | ".join(f"{s:.3f}" for s in scores) + " |"
 
 
-def main() -> int:
-    if "--labelled" in sys.argv[1:]:
-        print("## Labelled fits on the minimal table: no ranks, or the suggested ones\n")
-        print(
-            "| scenario | 3 labelled cores, no ranks | 3 labelled cores, suggested ranks "
-            "| every core labelled, no ranks | every core labelled, suggested ranks |"
-        )
-        print("|---|---|---|---|---|")
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            for name in SCENARIOS:
-                print(_labelled_row(name), flush=True)
-        return 0
-    print("## Facies ranks suggested from the upward transitions\n")
-    print(
-        "| scenario | rho, suggested vs scheme ranks | one-step transitions leading landward "
-        "| BA without a scheme | BA with the suggested ranks | BA with the scenario's scheme "
-        "| BA with the scheme reversed |"
-    )
-    print("|---|---|---|---|---|---|---|")
+def _table(title: str, columns: list[str], rows) -> None:
+    """A markdown table, a row printed as soon as ``rows`` yields it."""
+    print(f"## {title}\n")
+    print("| " + " | ".join(columns) + " |")
+    print("|" + "---|" * len(columns))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        for name in SCENARIOS:
-            print(_scenario_row(name), flush=True)
-        print(_demo_row())
+        for row in rows:
+            print(row, flush=True)
+
+
+def _unlabelled_rows():
+    yield from (_scenario_row(name) for name in SCENARIOS)
+    yield _demo_row()
+
+
+def main() -> int:
+    if "--labelled" in sys.argv[1:]:
+        _table(
+            "Labelled fits on the minimal table: no ranks, or the suggested ones",
+            [
+                "scenario",
+                "3 labelled cores, no ranks",
+                "3 labelled cores, suggested ranks",
+                "every core labelled, no ranks",
+                "every core labelled, suggested ranks",
+            ],
+            (_labelled_row(name) for name in SCENARIOS),
+        )
+        return 0
+    _table(
+        "Facies ranks suggested from the upward transitions",
+        [
+            "scenario",
+            "rho, suggested vs scheme ranks",
+            "one-step transitions leading landward",
+            "BA without a scheme",
+            "BA with the suggested ranks",
+            "BA with the scenario's scheme",
+            "BA with the scheme reversed",
+        ],
+        _unlabelled_rows(),
+    )
     print()
     print(_council_grove())
     return 0
