@@ -30,6 +30,7 @@ __all__ = [
     "CoreTable",
     "Succession",
     "SuccessionTable",
+    "in_units",
     "to_metres",
 ]
 
@@ -51,6 +52,13 @@ def to_metres(values: np.ndarray | float, units: str) -> np.ndarray | float:
     if units == "ft":
         return values * FT_TO_M
     raise InputError(f"unknown depth units {units!r}; expected 'm' or 'ft'")
+
+
+def in_units(values: np.ndarray | float, units: str, target: str) -> np.ndarray | float:
+    """Convert depths or thicknesses from ``units`` to ``target`` (``"m"`` or ``"ft"``)."""
+    if units == target:
+        return values
+    return values * (to_metres(1.0, units) / to_metres(1.0, target))
 
 
 @dataclass(frozen=True)

@@ -260,7 +260,7 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
     wanted = scheme is not None or args.ranks_suggested
     suggestion = suggest_ranks(cores.succession_table("beds")) if wanted else None
     if scheme is not None:
-        if suggestion is not None and suggestion.clear:
+        if suggestion is not None:
             _warn_reversed(scheme, suggestion, args.scheme, command)
         return scheme
     if suggestion is None and args.suggest_ranks:
@@ -276,12 +276,9 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         if not labelled:
             sys.stderr.write(f"faciesseq {command}: warning: {NO_RANKS}\n")
         return None
-    how = "" if suggestion.clear else "; which end is landward is unclear: check it"
     sys.stderr.write(
         f"faciesseq {command}: ranks suggested from the data, landward to basinward: "
-        f"{', '.join(suggestion.order())} ({suggestion.share:.2f} of {suggestion.n_steps} "
-        f"upward steps between neighbours lead landward{how}); check them with faciesseq "
-        "scheme draft --fill-ranks\n"
+        f"{suggestion.describe()}; check them with faciesseq scheme draft --fill-ranks\n"
     )
     return suggestion.scheme()
 
@@ -297,12 +294,10 @@ NO_RANKS = (
 
 def _warn_reversed(scheme, suggestion, path, command: str) -> None:
     """Warn where the scheme's ranks run against the order the data's upward
-    transitions suggest (Spearman's rho at most -0.5; the suggestion's direction is
-    clear): ranks written 0 = deepest give the tracts the wrong names."""
-    from faciesseq.markov.seriation import REVERSED_RHO
-
+    transitions suggest (:meth:`~faciesseq.markov.seriation.RankSuggestion.runs_against`):
+    ranks written 0 = deepest give the tracts the wrong names."""
     rho = suggestion.agreement(scheme)
-    if rho is not None and rho <= REVERSED_RHO:
+    if suggestion.runs_against(rho):
         sys.stderr.write(
             f"faciesseq {command}: warning: the ranks of {path} run against the order the "
             f"data suggest (Spearman's rho {rho:.2f}; landward to basinward "

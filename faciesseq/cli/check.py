@@ -170,12 +170,9 @@ def _order_lines(result) -> list[str]:
     order = result.order
     if order is None:
         return []
-    how = "" if order.clear else "; which end is landward is unclear"
     lines = [
         "",
-        f"facies order the upward transitions suggest, landward to basinward: "
-        f"{', '.join(order.order())} ({order.share:.2f} of {order.n_steps} upward steps "
-        f"between neighbours lead landward{how})",
+        f"facies order the upward transitions suggest, landward to basinward: {order.describe()}",
     ]
     if result.agreement is not None:
         lines.append(

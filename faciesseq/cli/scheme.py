@@ -111,12 +111,7 @@ def _suggestion_line(suggestion) -> str:
     """What the draft suggests, in one line."""
     if suggestion is None:
         return "no ranks suggested: fewer than three facies follow one another in the data"
-    how = "clear" if suggestion.clear else "unclear: check which end is landward"
-    return (
-        f"suggested order, landward to basinward: {', '.join(suggestion.order())} "
-        f"({suggestion.share:.2f} of {suggestion.n_steps} upward steps between neighbours "
-        f"lead landward; direction {how})"
-    )
+    return f"suggested order, landward to basinward: {suggestion.describe()}"
 
 
 def run_show(args: argparse.Namespace) -> int:

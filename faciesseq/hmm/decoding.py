@@ -21,9 +21,9 @@ from faciesseq.core import (
     CoreSet,
     Succession,
     SuccessionTable,
+    in_units,
     take_text,
     text_column,
-    to_metres,
 )
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine
@@ -127,8 +127,7 @@ class Decoding:
         :data:`DECODE_PART`) at a time: what a part needs is made, decoded and handed
         on before the next is begun."""
         self._check_fitted()
-        units = getattr(successions, "units", None)
-        step = self.step if units is None else self.grid_step(units)
+        step = self.grid_step(getattr(successions, "units", None))
         table = _succession_table(successions, self.unit, step)
         yield from self._decoded(table, mass, labels, size)
 
@@ -173,16 +172,15 @@ class Decoding:
         fitted = getattr(self, "units_", None)
         if fitted is None or fitted == table.units:
             return table.beds
-        factor = to_metres(1.0, table.units) / to_metres(1.0, fitted)
-        return table.beds.assign(thickness=table.beds["thickness"] * factor)
+        return table.beds.assign(thickness=in_units(table.beds["thickness"], table.units, fitted))
 
-    def grid_step(self, units: str) -> float | None:
-        """The model's depth step (``unit="grid"``) in ``units`` (the fitted cores' units
-        where the model knows them)."""
+    def grid_step(self, units: str | None) -> float | None:
+        """The model's depth step (``unit="grid"``) in ``units`` (``None``, or a model
+        that does not know the units of its cores: the step as fitted)."""
         fitted = getattr(self, "units_", None)
-        if self.step is None or fitted is None or fitted == units:
+        if self.step is None or fitted is None or units is None:
             return self.step
-        return float(self.step * to_metres(1.0, fitted) / to_metres(1.0, units))
+        return float(in_units(self.step, fitted, units))
 
     def _groups(self, table: SuccessionTable, size: int | None) -> list[list]:
         """The batches of ``table`` grouped into parts (see :func:`_parts`)."""

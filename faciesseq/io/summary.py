@@ -11,7 +11,7 @@ import pandas as pd
 from faciesseq.core import DEPTH_TOL, CoreSet, CoreTable
 from faciesseq.errors import Problem
 from faciesseq.io.stream import CoreStream
-from faciesseq.markov.seriation import REVERSED_RHO, RankSuggestion, suggest_ranks
+from faciesseq.markov.seriation import RankSuggestion, step_counts, suggest_ranks
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["DatabaseSummary", "summarise", "summarise_batches"]
@@ -84,11 +84,10 @@ class DatabaseSummary:
 
     @property
     def reversed_scheme(self) -> bool:
-        """Whether the scheme's ranks run against the order the data suggest: rho at
-        most :data:`~faciesseq.markov.seriation.REVERSED_RHO` (-0.5) where the direction
-        of the order is clear (as ``faciesseq fit`` warns)."""
-        rho = self.agreement
-        return bool(self.order and self.order.clear and rho is not None and rho <= REVERSED_RHO)
+        """Whether the scheme's ranks run against the order the data suggest
+        (:meth:`~faciesseq.markov.seriation.RankSuggestion.runs_against`), as
+        ``faciesseq fit`` warns."""
+        return self.order is not None and self.order.runs_against(self.agreement)
 
     @property
     def counts(self) -> dict[str, int]:
@@ -254,15 +253,11 @@ def _core_by_core(cores: CoreSet, steps: dict) -> tuple:
 def _upward_steps(facies: pd.Categorical, segment: pd.Series | None, owner) -> pd.Series:
     """:func:`~faciesseq.markov.seriation.upward_steps` of beds listed top down, core by
     core (``owner``: each bed's core): each bed and the bed above it in one core and one
-    segment (no gap between them) make a step; only the pairs that occur are counted."""
-    code = facies.codes.astype(np.int64)
+    segment (no gap between them) make a step."""
+    code = facies.codes
     segment = np.zeros(len(code)) if segment is None else segment.to_numpy()
     joined = (owner[1:] == owner[:-1]) & (segment[1:] == segment[:-1])
-    m = len(facies.categories)
-    pairs, n = np.unique(code[1:][joined] * m + code[:-1][joined], return_counts=True)
-    names = np.array([str(c) for c in facies.categories], dtype=object)
-    index = pd.MultiIndex.from_arrays([names[pairs // m], names[pairs % m]])
-    return pd.Series(n, index=index, dtype=float)
+    return step_counts(code[1:][joined], code[:-1][joined], facies.categories)
 
 
 def _by_facies(thickness: pd.Series, facies: pd.Series) -> pd.DataFrame:

@@ -51,6 +51,7 @@ __all__ = [
     "SUGGESTED",
     "UNCLEAR_SHARE",
     "RankSuggestion",
+    "step_counts",
     "suggest_ranks",
     "upward_steps",
 ]
@@ -101,6 +102,19 @@ class RankSuggestion:
         """The facies from landward (rank 0) to basinward."""
         return sorted(self.ranks, key=self.ranks.__getitem__)
 
+    def describe(self) -> str:
+        """The order and how clear its direction is, as every command prints it."""
+        how = "clear" if self.clear else "unclear: check which end is landward"
+        return (
+            f"{', '.join(self.order())} ({self.share:.2f} of {self.n_steps} upward steps "
+            f"between neighbours lead landward; direction {how})"
+        )
+
+    def runs_against(self, rho: float | None) -> bool:
+        """Whether a scheme whose :meth:`agreement` is ``rho`` runs the other way: rho
+        at most :data:`REVERSED_RHO` where the direction of the order is clear."""
+        return self.clear and rho is not None and rho <= REVERSED_RHO
+
     def agreement(self, scheme: FaciesScheme) -> float | None:
         """Spearman's rank correlation of a scheme's ranks with these, over the facies
         both rank (the Pearson correlation of average ranks; equal to scipy's
@@ -135,12 +149,16 @@ def upward_steps(successions: Sequence | SuccessionTable) -> pd.Series:
         enc = encode_flat(t.beds["facies"].to_numpy(), t.lengths, t.cores, t.segments)
     else:
         enc = encode(successions)
-    m = enc.m
     starts = _window_index(enc, 2)
-    pairs, n = np.unique(
-        enc.states[starts].astype(np.int64) * m + enc.states[starts + 1], return_counts=True
-    )
-    names = np.array([str(c) for c in enc.codes], dtype=object)
+    return step_counts(enc.states[starts], enc.states[starts + 1], enc.codes)
+
+
+def step_counts(below: np.ndarray, above: np.ndarray, codes: Sequence) -> pd.Series:
+    """:func:`upward_steps` of steps given as integer codes (positions in ``codes``) of
+    the facies below and above each: only the pairs that occur are counted."""
+    m = len(codes)
+    pairs, n = np.unique(np.asarray(below, np.int64) * m + above, return_counts=True)
+    names = np.array([str(c) for c in codes], dtype=object)
     index = pd.MultiIndex.from_arrays(
         [names[pairs // m], names[pairs % m]], names=["below", "above"]
     )
