@@ -62,6 +62,55 @@ def test_window_marks_the_deepest_and_shallowest_bed_of_a_turnaround():
     assert x.loc[2, "rank - deepest below"] > 0 and x.loc[2, "rank - deepest above"] > 0
 
 
+def test_window_reads_the_stacking_of_the_cycles_around_each_bed():
+    # ranks upward 3 2 1 | 4 3 2 | 5 4 (0 = landward): three shallowing-upward cycles cut
+    # at the flooding steps 1 -> 4 and 2 -> 5, each top and base deeper than the last
+    # (retrogradational stacking, Van Wagoner et al. 1990)
+    facies = [f"F{k}" for k in range(6)]
+    one = pd.DataFrame({"facies": [f"F{r}" for r in (3, 2, 1, 4, 3, 2, 5, 4)], "thickness": 1.0})
+    two = pd.DataFrame({"facies": ["F2", "F1"], "thickness": 2.0})
+    beds = encode_beds([one, two], facies, [], ["stacking", "thickness"], np.arange(6.0))
+    x = pd.DataFrame(beds.numeric["stacking"], columns=stacking_columns())
+    assert list(x["cycle top"]) == [1, 1, 1, 2, 2, 2, 4, 4, 1, 1]
+    assert list(x["cycle base"]) == [3, 3, 3, 4, 4, 4, 5, 5, 2, 2]
+    # the middle bed of the middle cycle: half-way up it; the cycle below one rank
+    # shallower at top and base, the cycle above two and one ranks deeper
+    assert x.loc[4, "place in cycle"] == pytest.approx(0.5)
+    assert x.loc[4, "cycle[-1] top - top"] == -1 and x.loc[4, "cycle[-1] base - base"] == -1
+    assert x.loc[4, "cycle[+1] top - top"] == 2 and x.loc[4, "cycle[+1] base - base"] == 1
+    assert x.loc[4, "cycle[+1] log beds"] == pytest.approx(np.log(2.0))
+    assert x.loc[4, "cycle log thickness"] == pytest.approx(np.log(3.0), rel=1e-6)
+    # no cycle past the ends of a succession: the second core sees nothing of the first
+    assert np.isnan(x.loc[4, "cycle[+2] top - top"]) and np.isnan(x.loc[8, "cycle[-1] top - top"])
+    assert x.loc[8, "cycle log thickness"] == pytest.approx(np.log(4.0), rel=1e-6)
+
+
+def test_model_file_whose_trees_read_the_beds_only_still_decodes(tmp_path):
+    """Model files written before the window read the cycles: their trees read the
+    window of beds, the first columns of today's window."""
+    from faciesseq.hmm.boosting import fit_boosted
+    from faciesseq.hmm.encoding import bed_window_columns
+
+    scheme, train, test = synth.scheme(), synth.cores(6, 60, seed=3103), synth.cores(2, 60, 3104)
+    model = _fit(scheme, train)
+    piece = next(p for p in model.emissions_ if p.kind == "stacking")
+    width = len(bed_window_columns())
+    assert piece.n_columns == len(stacking_columns()) > width
+    x = model._encode([s.beds for s in train]).numeric["stacking"]
+    tracts = list(model.states_.tracts)
+    y = np.array([tracts.index(t) for s in train for t in s.beds["true_tract"]])
+    piece.trees = fit_boosted(x[:, :width], y, piece.n_tracts, random_state=0)
+    piece.n_columns = width
+    path = tmp_path / "older.json"
+    save_model(model, path)
+    again = load_model(path)
+    old = next(p for p in again.emissions_ if p.kind == "stacking")
+    assert old.n_columns == width and old.columns() == bed_window_columns()
+    a, b = model.decode(test), again.decode(test)
+    for core in a:
+        assert list(a[core.core].beds["tract"]) == list(b[core.core].beds["tract"])
+
+
 @pytest.fixture(scope="module")
 def synthetic():
     return synth.scheme(), synth.cores(12, 80, seed=3101), synth.cores(6, 80, seed=3102)

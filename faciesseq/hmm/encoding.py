@@ -21,6 +21,8 @@ from faciesseq.cycles import (
     CONTEXT_FEATURES,
     bed_context,
     cycle_inputs,
+    cycle_window,
+    cycle_window_columns,
     facies_to_beds,
     sharp_contacts,
 )
@@ -188,7 +190,9 @@ def encode_beds(
     if STACKING in numeric:
         if "thickness" not in values:
             raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
-        values[STACKING] = stacking_window(fac, lengths, ranks, values["thickness"], contact)
+        values[STACKING] = stacking_window(
+            fac, lengths, ranks, values["thickness"], contact, cycle_base, nonmarine
+        )
     return EncodedBeds(lengths, fac, prev, contact, values)
 
 
@@ -254,7 +258,14 @@ STACKING_HALF_WIDTH = 4
 
 
 def stacking_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
-    """Names of the columns of :func:`stacking_window`, in order."""
+    """Names of the columns of :func:`stacking_window`, in order: the window of beds
+    (:func:`bed_window_columns`), then the cycles around the bed."""
+    return [*bed_window_columns(half_width), *cycle_window_columns()]
+
+
+def bed_window_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
+    """Names of the first columns of :func:`stacking_window`, the window of beds (all
+    its columns in model files written before 2026-12-04)."""
     out = []
     for k in range(-half_width, half_width + 1):
         if k != 0:
@@ -276,9 +287,31 @@ def stacking_window(
     ranks: np.ndarray | None,
     log_thickness: np.ndarray,
     contact: np.ndarray,
+    cycle_base: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
     half_width: int = STACKING_HALF_WIDTH,
 ) -> np.ndarray:
-    """Window features of every bed for the ``stacking`` piece, ``(T, F)`` float32.
+    """Window features of every bed for the ``stacking`` piece, ``(T, F)`` float32:
+    the window of beds (:func:`bed_window`), then the stacking of the cycles around
+    the bed (:func:`faciesseq.cycles.cycle_window`; ``cycle_base`` and ``nonmarine``
+    per facies, as :func:`encode_beds` takes them). Column names:
+    :func:`stacking_columns`."""
+    bed_ranks, starts, setting = cycle_inputs(facies, ranks, cycle_base, nonmarine)
+    thickness = np.exp(np.asarray(log_thickness, dtype=float))
+    beds = bed_window(bed_ranks, lengths, log_thickness, contact, half_width)
+    cycles = cycle_window(bed_ranks, lengths, thickness, starts, setting)
+    return np.hstack([beds, cycles]).astype(np.float32)
+
+
+def bed_window(
+    r: np.ndarray,
+    lengths: np.ndarray,
+    log_thickness: np.ndarray,
+    contact: np.ndarray,
+    half_width: int = STACKING_HALF_WIDTH,
+) -> np.ndarray:
+    """The window of beds around every bed, ``(T, F)``, from the beds' ranks ``r``
+    (``NaN`` unknown); column names :func:`bed_window_columns`.
 
     For each offset ``k`` in ``-half_width .. half_width`` (beds below are
     negative), within the bed's own succession: the facies rank of bed
@@ -291,7 +324,6 @@ def stacking_window(
     succession or the value is unknown (the classifier treats it as missing).
     Rank differences rather than ranks make the window read a trend
     (deepening or shallowing upward) wherever in the facies scale it sits.
-    Column names: :func:`stacking_columns`.
 
     The four turnaround columns could be built by the trees from the rank
     differences, but only with many splits; with them, 3-fold cross-validation
@@ -299,17 +331,15 @@ def stacking_window(
     of MFSs within one bed, and held-out simulated cores moved by -0.005 to
     +0.021 (measured 2026-12-02, docs/hmm.md).
     """
-    T = len(facies)
+    T = len(r)
     W = int(half_width)
-    r = np.full(T, np.nan)
-    if ranks is not None and T:
-        rr = np.asarray(ranks, dtype=float)
-        r = np.where(facies >= 0, rr[np.maximum(facies, 0)], np.nan)
+    if not T:
+        return np.zeros((0, len(bed_window_columns(W))))
     c = np.where(contact >= 0, contact, -1).astype(float)
     c[c < 0] = np.nan
     lt = np.asarray(log_thickness, dtype=float)
-    starts = np.repeat(np.r_[0, np.cumsum(lengths)[:-1]], lengths) if T else np.zeros(0, int)
-    ends = np.repeat(np.cumsum(lengths), lengths) if T else np.zeros(0, int)
+    starts = np.repeat(np.r_[0, np.cumsum(lengths)[:-1]], lengths)
+    ends = np.repeat(np.cumsum(lengths), lengths)
     idx = np.arange(T)
     cols = []
     below, above = [], []
@@ -324,15 +354,13 @@ def stacking_window(
         cols.append(np.where(inside, lt[jc], np.nan))
         cols.append(np.where(inside, c[jc], np.nan))
     cols.append(r)
-    for side in (below, above) if T else ():
+    for side in (below, above):
         # fmax / fmin skip NaN (NaN only where every bed of that side is unknown);
         # own rank minus the extreme = -(extreme of the neighbour-minus-own steps)
         cols.append(-np.fmax.reduce(side))
-    for side in (below, above) if T else ():
+    for side in (below, above):
         cols.append(-np.fmin.reduce(side))
-    if not T:
-        return np.zeros((0, len(cols)), dtype=np.float32)
-    return np.column_stack(cols).astype(np.float32)
+    return np.column_stack(cols)
 
 
 #: Name of the derived feature "rank trend over the neighbouring beds".

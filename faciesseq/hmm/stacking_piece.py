@@ -9,7 +9,13 @@ import numpy as np
 
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.emissions import EmissionPiece, check_table
-from faciesseq.hmm.encoding import STACKING, STACKING_HALF_WIDTH, EncodedBeds, stacking_columns
+from faciesseq.hmm.encoding import (
+    STACKING,
+    STACKING_HALF_WIDTH,
+    EncodedBeds,
+    bed_window_columns,
+    stacking_columns,
+)
 
 __all__ = ["StackingEmission"]
 
@@ -28,6 +34,10 @@ class StackingEmission(EmissionPiece):
     EM leaves it alone (``static``). Probabilities below ``floor`` are raised
     to it, so no tract is ever impossible from this piece alone; a tract with
     no labelled bed gets ``log(floor)``.
+
+    The trees read the first ``columns()`` of :func:`~faciesseq.hmm.encoding.stacking_window`:
+    all of them, or, in model files written before the window read the cycles
+    around each bed (2026-12-04), the window of beds only.
     """
 
     kind = "stacking"
@@ -46,6 +56,11 @@ class StackingEmission(EmissionPiece):
         self.floor = float(floor)
         self.trees = None
         self.class_prior_ = np.full(self.n_tracts, 1.0 / self.n_tracts)
+        self.n_columns = len(stacking_columns(self.half_width))
+
+    def columns(self) -> list[str]:
+        """Names of the window columns the trees read."""
+        return stacking_columns(self.half_width)[: self.n_columns]
 
     def train(self, beds: EncodedBeds, labels: np.ndarray, random_state: int = 0) -> None:
         """Learn the classifier from the beds with a label (``labels`` -1 = none)."""
@@ -60,6 +75,7 @@ class StackingEmission(EmissionPiece):
             )
         X = beds.numeric[STACKING][known]
         y = labels[known]
+        self.n_columns = X.shape[1]
         self.trees = fit_boosted(X, y, self.n_tracts, random_state=int(random_state))
         counts = np.bincount(y, minlength=self.n_tracts).astype(float)
         prior = counts / counts.sum()
@@ -68,7 +84,8 @@ class StackingEmission(EmissionPiece):
     def log_prob(self, beds: EncodedBeds) -> np.ndarray:
         if self.trees is None:
             raise ConfigError("the stacking piece is not trained")
-        p = self.trees.predict_proba(np.asarray(beds.numeric[STACKING], dtype=float))
+        x = np.asarray(beds.numeric[STACKING][:, : self.n_columns], dtype=float)
+        p = self.trees.predict_proba(x)
         return np.log(np.maximum(p, self.floor)) - np.log(self.class_prior_)[None, :]
 
     def empty_stats(self, n_tracts: int) -> dict[str, np.ndarray]:
@@ -116,11 +133,12 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
             )
         piece.class_prior_ = prior
-        width = len(stacking_columns())
+        widths = (len(stacking_columns()), len(bed_window_columns()))
         declared = data["trees"].get("n_features") if isinstance(data["trees"], Mapping) else None
-        if declared != width:  # checked before the trees are packed into arrays
+        if declared not in widths:  # checked before the trees are packed into arrays
             raise ModelFileError(
-                f"emission {piece.name}: {declared!r} window features, expected {width}",
+                f"emission {piece.name}: {declared!r} window features, expected "
+                f"{' or '.join(map(str, widths))}",
                 file=source,
             )
         trees = BoostedTrees.from_dict(data["trees"], source)
@@ -129,11 +147,11 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: {trees.n_classes} classes for {n_tracts} tracts",
                 file=source,
             )
-        width = len(stacking_columns())
-        if trees.n_features != width:
+        if trees.n_features != declared:
             raise ModelFileError(
-                f"emission {piece.name}: {trees.n_features} window features, expected {width}",
+                f"emission {piece.name}: {trees.n_features} window features, {declared} declared",
                 file=source,
             )
         piece.trees = trees
+        piece.n_columns = int(declared)
         return piece

@@ -270,10 +270,8 @@ def _trend_summary_table(
 
 def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
     """How often the stacking piece's boosted trees split on each window feature."""
-    from faciesseq.hmm.encoding import stacking_columns
-
     counts = piece.trees.split_counts()
-    columns = stacking_columns(piece.half_width)
+    columns = piece.columns()
     total = max(int(counts.sum()), 1)
     frame = pd.DataFrame(
         {"splits": counts, "share": counts / total},
@@ -284,12 +282,24 @@ def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
             key,
             f"Stacking piece: boosted trees ({piece.trees.n_iterations} rounds, "
             f"{piece.trees.n_parameters()} leaves) over a window of {piece.half_width} "
-            "beds below and above each bed, learnt from the labelled beds; how often "
-            "each window feature is split on (offsets: beds below negative, above "
-            "positive; rank_step = rank of that bed minus the bed's own).",
+            f"beds below and above each bed{_cycles_read(piece)}, learnt from the labelled "
+            "beds; how often each window feature is split on (offsets: beds or cycles "
+            "below negative, above positive; rank_step = rank of that bed minus the "
+            "bed's own; top / base = shallowest / deepest rank of a cycle).",
             frame.head(12),
         )
     )
+
+
+def _cycles_read(piece: Any) -> str:
+    """How many cycles around each bed the stacking trees read ("" for none: model
+    files written before 2026-12-04)."""
+    from faciesseq.cycles import CYCLE_WINDOW_HALF_WIDTH
+    from faciesseq.hmm.encoding import bed_window_columns
+
+    if len(piece.columns()) <= len(bed_window_columns(piece.half_width)):
+        return ""
+    return f" and the {CYCLE_WINDOW_HALF_WIDTH} cycles below and above it"
 
 
 def _gaussian_blocks(sub: Section, piece: Any, key: str, model: Any) -> None:

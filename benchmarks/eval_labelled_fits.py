@@ -1,0 +1,165 @@
+"""Fits with labels (three labelled cores, and every core) on the minimal table, on
+the project's six scenarios and on the blind generator's cores, as Python calls.
+
+Run from the repository root::
+
+    python benchmarks/eval_labelled_fits.py --seed 241
+
+For each scenario: fit seeds SEED..SEED+2, decode SEED+3, SEED+4, the scenario's
+scheme, the cores as ``core, top, base, facies`` plus the ``tract`` of three cores
+(the benchmark's choice of labelled wells, ``eval_unsupervised._semi_cores``) or of
+every core; balanced accuracy of the decoded held-out cores (``eval_unsupervised.score``).
+For the blind generator (``benchmarks/blind_generator.py``), each of the seeds
+SEED..SEED+2 and its three settings (default, every bed 0.6 m, half the sequences
+without a falling stage): 8 training cores (the first 3, then all, labelled) and 4
+test cores (seed + 100), its scheme, balanced accuracy by thickness on the beds.
+Rows print as they come: scenario / setting, 3 labelled cores, every core labelled.
+
+``--root DIR`` reads faciesseq from another checkout (e.g. ``git worktree add
+/tmp/before <commit>``) to compare a change with the code before it on the same
+cores.
+"""
+
+from __future__ import annotations
+
+import argparse
+import subprocess
+import sys
+import tempfile
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+HERE = Path(__file__).resolve().parent
+SCENARIOS = (
+    "stacking-minimal-table",
+    "stacking-thin-tracts",
+    "stacking-equal-beds",
+    "scenario-ramp",
+    "scenario-hinge-table",
+    "scenario-asymmetric-shelf",
+)
+SETTINGS = ((), ("--equal-beds",), ("--no-fsst-prob", "0.5"))
+MINIMAL = ["core", "top", "base", "facies"]
+TRACTS = ("HST", "FSST", "LST", "TST")
+
+
+def scenario_row(name: str, seed: int, root: Path) -> list[float]:
+    from eval_unsupervised import _cores, _runner, _semi_cores, score
+
+    from faciesseq.core import CoreSet
+    from faciesseq.hmm import TractHMM
+
+    fit, decode = [seed, seed + 1, seed + 2], [seed + 3, seed + 4]
+    (scheme, run), _ = _runner(root / "configs" / f"{name}.yaml")
+    train, _ = _cores(run, fit)
+    test, truth = _cores(run, decode)
+    blind = CoreSet.from_frame(test[MINIMAL], units="m")
+    semi = _semi_cores(train, fit[0])
+    out = []
+    for every in (False, True):
+        tract = (
+            train["true_tract"] if every else train["true_tract"].where(train["core"].isin(semi))
+        )
+        cores = CoreSet.from_frame(train[MINIMAL].assign(tract=tract), units="m")
+        model = TractHMM(scheme=scheme, random_state=fit[0])
+        model.fit(cores, labels="tract", calibrate=False)
+        out.append(score(model.decode(blind), test, truth)["balanced_accuracy"])
+    return out
+
+
+def balanced_accuracy(truth: pd.DataFrame, decoded: pd.DataFrame) -> float:
+    """Mean over the tracts of the true thickness decoded as that tract."""
+    recall = []
+    for tract in TRACTS:
+        hit = total = 0.0
+        for core, beds in truth[truth["tract"] == tract].groupby("core"):
+            d = decoded[(decoded["core"] == core) & (decoded["tract"] == tract)]
+            top, base = d["top"].to_numpy(), d["base"].to_numpy()
+            for t, b in zip(beds["top"], beds["base"], strict=True):
+                hit += np.clip(np.minimum(base, b) - np.maximum(top, t), 0, None).sum()
+                total += b - t
+        if total:
+            recall.append(hit / total)
+    return float(np.mean(recall))
+
+
+def blind_row(seed: int, setting: tuple[str, ...], folder: Path) -> list[float]:
+    from faciesseq.core import CoreSet
+    from faciesseq.hmm import TractHMM
+    from faciesseq.scheme import load_scheme
+
+    generator = [sys.executable, str(HERE / "blind_generator.py")]
+    train, test, scheme = folder / "train.csv", folder / "test.csv", folder / "scheme.yaml"
+    subprocess.run(
+        [
+            *generator,
+            "--seed",
+            str(seed),
+            "--cores",
+            "8",
+            "-o",
+            train,
+            "--scheme",
+            scheme,
+            "--prefix",
+            "TR",
+            *setting,
+        ],
+        check=True,
+    )
+    subprocess.run(
+        [
+            *generator,
+            "--seed",
+            str(seed + 100),
+            "--cores",
+            "4",
+            "-o",
+            test,
+            "--prefix",
+            "TE",
+            *setting,
+        ],
+        check=True,
+    )
+    tr, te = pd.read_csv(train), pd.read_csv(test)
+    out = []
+    for n_labelled in (3, 8):
+        labelled = tr["core"].drop_duplicates().tolist()[:n_labelled]
+        cores = CoreSet.from_frame(tr.assign(tract=tr["tract"].where(tr["core"].isin(labelled))))
+        model = TractHMM(scheme=load_scheme(scheme), random_state=seed)
+        model.fit(cores, labels="tract", calibrate=False)
+        decoded = model.decode(CoreSet.from_frame(te[MINIMAL])).tracts_table()
+        out.append(balanced_accuracy(te, decoded))
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--seed", type=int, required=True, help="first of the seeds")
+    ap.add_argument("--root", type=Path, default=HERE.parent, help="faciesseq checkout")
+    ap.add_argument("--only", choices=("scenarios", "blind"), help="one half of the rows")
+    a = ap.parse_args(argv)
+    sys.path[:0] = [str(a.root), str(HERE)]
+    warnings.simplefilter("ignore")
+    print(f"faciesseq from {a.root}; seed {a.seed}\n")
+    print("| cores | 3 labelled cores | every core labelled |\n|---|---|---|")
+    if a.only != "blind":
+        for name in SCENARIOS:
+            row = scenario_row(name, a.seed, a.root)
+            print(f"| {name} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
+    if a.only != "scenarios":
+        for seed in (a.seed, a.seed + 1, a.seed + 2):
+            for setting in SETTINGS:
+                with tempfile.TemporaryDirectory() as tmp:
+                    row = blind_row(seed, setting, Path(tmp))
+                label = " ".join(("blind", str(seed), *setting))
+                print(f"| {label} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
