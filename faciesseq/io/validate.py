@@ -36,7 +36,7 @@ from itertools import pairwise
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, FT_TO_M, Core, CoreSet, CoreTable, plain_frame
+from faciesseq.core import DEPTH_TOL, Core, CoreSet, CoreTable, in_units, plain_frame
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.raw import RawTable, check_width
@@ -703,13 +703,12 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
         else:
             convert = np.full(len(p.frame), (p.units or target) != target)
         if convert.any():
-            factor = FT_TO_M if target == "m" else 1.0 / FT_TO_M
+            source = "ft" if target == "m" else "m"
             for col in ("top", "base", "depth"):
                 if col in p.frame.columns:
                     values = p.frame[col].to_numpy(dtype=float).copy()
-                    values[convert] = values[convert] * factor
+                    values[convert] = in_units(values[convert], source, target)
                     p.frame[col] = values
-            source = "ft" if target == "m" else "m"
             problems.append(
                 Problem(
                     "repair",
@@ -1061,7 +1060,7 @@ class _Gathered:
     @property
     def tolerance(self) -> float:
         """The overlap snapped as rounding, in the core set's units."""
-        return OVERLAP_TOLERANCE_M if self.target == "m" else OVERLAP_TOLERANCE_M / FT_TO_M
+        return in_units(OVERLAP_TOLERANCE_M, "m", self.target)
 
 
 def _take_file(p: _Rows, gathered: _Gathered) -> None:
