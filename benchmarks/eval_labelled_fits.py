@@ -15,6 +15,8 @@ without a falling stage): 8 training cores (the first 3, then all, labelled) and
 test cores (seed + 100), its scheme, balanced accuracy by thickness on the beds.
 Rows print as they come: scenario / setting, 3 labelled cores, every core labelled.
 
+``--features a,b`` fits with those emission features instead of the defaults (e.g. the
+context features of fits without labels, to hold the stacking trees against them).
 ``--root DIR`` reads faciesseq from another checkout (e.g. ``git worktree add
 /tmp/before <commit>``) to compare a change with the code before it on the same
 cores.
@@ -46,7 +48,7 @@ MINIMAL = ["core", "top", "base", "facies"]
 TRACTS = ("HST", "FSST", "LST", "TST")
 
 
-def scenario_row(name: str, seed: int, root: Path) -> list[float]:
+def scenario_row(name: str, seed: int, root: Path, features=None) -> list[float]:
     from eval_unsupervised import _cores, _runner, _semi_cores, score
 
     from faciesseq.core import CoreSet
@@ -64,7 +66,7 @@ def scenario_row(name: str, seed: int, root: Path) -> list[float]:
             train["true_tract"] if every else train["true_tract"].where(train["core"].isin(semi))
         )
         cores = CoreSet.from_frame(train[MINIMAL].assign(tract=tract), units="m")
-        model = TractHMM(scheme=scheme, random_state=fit[0])
+        model = TractHMM(scheme=scheme, random_state=fit[0], features=features)
         model.fit(cores, labels="tract", calibrate=False)
         out.append(score(model.decode(blind), test, truth)["balanced_accuracy"])
     return out
@@ -86,7 +88,7 @@ def balanced_accuracy(truth: pd.DataFrame, decoded: pd.DataFrame) -> float:
     return float(np.mean(recall))
 
 
-def blind_row(seed: int, setting: tuple[str, ...], folder: Path) -> list[float]:
+def blind_row(seed: int, setting: tuple[str, ...], folder: Path, features=None) -> list[float]:
     from faciesseq.core import CoreSet
     from faciesseq.hmm import TractHMM
     from faciesseq.scheme import load_scheme
@@ -130,7 +132,7 @@ def blind_row(seed: int, setting: tuple[str, ...], folder: Path) -> list[float]:
     for n_labelled in (3, 8):
         labelled = tr["core"].drop_duplicates().tolist()[:n_labelled]
         cores = CoreSet.from_frame(tr.assign(tract=tr["tract"].where(tr["core"].isin(labelled))))
-        model = TractHMM(scheme=load_scheme(scheme), random_state=seed)
+        model = TractHMM(scheme=load_scheme(scheme), random_state=seed, features=features)
         model.fit(cores, labels="tract", calibrate=False)
         decoded = model.decode(CoreSet.from_frame(te[MINIMAL])).tracts_table()
         out.append(balanced_accuracy(te, decoded))
@@ -142,20 +144,22 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--seed", type=int, required=True, help="first of the seeds")
     ap.add_argument("--root", type=Path, default=HERE.parent, help="faciesseq checkout")
     ap.add_argument("--only", choices=("scenarios", "blind"), help="one half of the rows")
+    ap.add_argument("--features", help="emission features, comma-separated (default: the fit's)")
     a = ap.parse_args(argv)
     sys.path[:0] = [str(a.root), str(HERE)]
     warnings.simplefilter("ignore")
-    print(f"faciesseq from {a.root}; seed {a.seed}\n")
+    features = a.features.split(",") if a.features else None
+    print(f"faciesseq from {a.root}; seed {a.seed}; features {features or 'default'}\n")
     print("| cores | 3 labelled cores | every core labelled |\n|---|---|---|")
     if a.only != "blind":
         for name in SCENARIOS:
-            row = scenario_row(name, a.seed, a.root)
+            row = scenario_row(name, a.seed, a.root, features)
             print(f"| {name} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
     if a.only != "scenarios":
         for seed in (a.seed, a.seed + 1, a.seed + 2):
             for setting in SETTINGS:
                 with tempfile.TemporaryDirectory() as tmp:
-                    row = blind_row(seed, setting, Path(tmp))
+                    row = blind_row(seed, setting, Path(tmp), features)
                 label = " ".join(("blind", str(seed), *setting))
                 print(f"| {label} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
     return 0
