@@ -41,7 +41,7 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
-from eval_unsupervised import _cores, _runner, _semi_cores, score  # noqa: E402
+from eval_unsupervised import _cores, _runner, minimal_labelled_sets, score  # noqa: E402
 
 from faciesseq.core import CoreSet  # noqa: E402
 from faciesseq.hmm import TractHMM  # noqa: E402
@@ -144,16 +144,9 @@ def _labelled_row(name: str) -> str:
     core labelled; fit seeds 221-223, decode seeds 224-225 (used for no choice before)."""
     (_, run), _ = _runner(ROOT / "configs" / f"{name}.yaml")
     fit, decode = [221, 222, 223], [224, 225]
-    train, _ = _cores(run, fit)
-    test, truth = _cores(run, decode)
-    blind = CoreSet.from_frame(test[MINIMAL], units="m")
-    semi = _semi_cores(train, fit[0])
+    sets, blind, test, truth = minimal_labelled_sets(run, fit, decode)
     scores = []
-    for every in (False, True):
-        tract = (
-            train["true_tract"] if every else train["true_tract"].where(train["core"].isin(semi))
-        )
-        cores = CoreSet.from_frame(train[MINIMAL].assign(tract=tract), units="m")
+    for cores in sets:
         for used in (None, suggest_ranks(cores.successions("beds")).scheme()):
             model = TractHMM(scheme=used, random_state=fit[0])
             model.fit(cores, labels="tract", calibrate=False)

@@ -177,6 +177,22 @@ def _training_set(train: pd.DataFrame, mode: str, semi: list[str]) -> tuple[Core
     return CoreSet.from_frame(t, units="m"), "tract"
 
 
+def minimal_labelled_sets(run, fit, decode) -> tuple:
+    """Cores of the fit seeds as the minimal table ``core, top, base, facies`` with the
+    ``tract`` of three cores (:func:`_semi_cores`), then of every core; the decode seeds'
+    minimal table; and their intervals and true surfaces, for :func:`score`:
+    ``([three labelled, every core labelled], blind, test, truth)``."""
+    columns = ["core", "top", "base", "facies"]
+    train, _ = _cores(run, fit)
+    test, truth = _cores(run, decode)
+    semi = train["core"].isin(_semi_cores(train, fit[0]))
+    sets = [
+        CoreSet.from_frame(train[columns].assign(tract=tract), units="m")
+        for tract in (train["true_tract"].where(semi), train["true_tract"])
+    ]
+    return sets, CoreSet.from_frame(test[columns], units="m"), test, truth
+
+
 # ------------------------------------------------------------------ baseline
 def trend_rule_table(cores: CoreSet, scheme) -> pd.DataFrame:
     """The trend rule's tract for every bed (``core, top, base, tract``): the baseline
