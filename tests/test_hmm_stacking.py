@@ -86,8 +86,10 @@ def test_window_reads_the_stacking_of_the_cycles_around_each_bed():
 
 
 def test_model_file_whose_trees_read_the_beds_only_still_decodes(tmp_path):
-    """Model files written before the window read the cycles: their trees read the
-    window of beds, the first columns of today's window."""
+    """Model files written before the window read the cycles list no columns: their
+    trees read the window of beds, the first columns of today's window."""
+    import json
+
     from faciesseq.hmm.boosting import fit_boosted
     from faciesseq.hmm.encoding import bed_window_columns
 
@@ -95,20 +97,48 @@ def test_model_file_whose_trees_read_the_beds_only_still_decodes(tmp_path):
     model = _fit(scheme, train)
     piece = next(p for p in model.emissions_ if p.kind == "stacking")
     width = len(bed_window_columns())
-    assert piece.n_columns == len(stacking_columns()) > width
     x = model._encode([s.beds for s in train]).numeric["stacking"]
     tracts = list(model.states_.tracts)
     y = np.array([tracts.index(t) for s in train for t in s.beds["true_tract"]])
     piece.trees = fit_boosted(x[:, :width], y, piece.n_tracts, random_state=0)
-    piece.n_columns = width
+    piece.used_ = np.arange(width)
+    doc = model_to_dict(model)
+    entry = next(e for e in doc["parameters"]["emissions"] if e["kind"] == "stacking")
+    del entry["columns"]  # as such files were written
     path = tmp_path / "older.json"
-    save_model(model, path)
+    path.write_text(json.dumps(doc))
     again = load_model(path)
     old = next(p for p in again.emissions_ if p.kind == "stacking")
-    assert old.n_columns == width and old.columns() == bed_window_columns()
+    assert old.columns() == bed_window_columns()
     a, b = model.decode(test), again.decode(test)
     for core in a:
         assert list(a[core.core].beds["tract"]) == list(b[core.core].beds["tract"])
+
+
+def test_trees_leave_out_columns_empty_or_constant_in_the_labelled_beds(tmp_path):
+    """Beds without contact types: the window's contact columns are empty, the trees
+    leave them out, and read the beds as trees fitted on every column do (a column
+    with one value cannot be split on)."""
+    from faciesseq.hmm.boosting import fit_boosted
+
+    scheme, train = synth.scheme(), synth.cores(6, 60, seed=3105)
+    plain = [s.__class__(s.core, s.segment, s.beds.drop(columns="contact"), s.units) for s in train]
+    model = _fit(scheme, plain)
+    piece = next(p for p in model.emissions_ if p.kind == "stacking")
+    assert "contact[+0]" not in piece.columns() and "rank_step[-1]" in piece.columns()
+    beds = model._encode([s.beds for s in plain])
+    tracts = list(model.states_.tracts)
+    y = np.array([tracts.index(t) for s in plain for t in s.beds["true_tract"]])
+    every = fit_boosted(beds.numeric["stacking"], y, piece.n_tracts, random_state=0)
+    np.testing.assert_allclose(
+        every.predict_proba(np.asarray(beds.numeric["stacking"], dtype=float)),
+        piece.trees.predict_proba(np.asarray(beds.numeric["stacking"][:, piece.used_], float)),
+        atol=1e-9,
+    )
+    path = tmp_path / "m.json"
+    save_model(model, path)
+    again = next(p for p in load_model(path).emissions_ if p.kind == "stacking")
+    assert again.columns() == piece.columns()
 
 
 @pytest.fixture(scope="module")

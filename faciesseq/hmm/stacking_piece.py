@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Mapping
 from typing import Any
 
@@ -35,9 +36,11 @@ class StackingEmission(EmissionPiece):
     to it, so no tract is ever impossible from this piece alone; a tract with
     no labelled bed gets ``log(floor)``.
 
-    The trees read the first ``columns()`` of :func:`~faciesseq.hmm.encoding.stacking_window`:
-    all of them, or, in model files written before the window read the cycles
-    around each bed (2026-12-04), the window of beds only.
+    The trees read the columns of :func:`~faciesseq.hmm.encoding.stacking_window`
+    that vary among the labelled beds (:meth:`columns`): a column empty or constant
+    there (the contacts of a table without them) cannot be split on, and leaving it
+    out spares the trees its histogram. Model files written before the window read
+    the cycles around each bed (2026-12-04) read the window of beds, all of it.
     """
 
     kind = "stacking"
@@ -56,11 +59,12 @@ class StackingEmission(EmissionPiece):
         self.floor = float(floor)
         self.trees = None
         self.class_prior_ = np.full(self.n_tracts, 1.0 / self.n_tracts)
-        self.n_columns = len(stacking_columns(self.half_width))
+        self.used_ = np.arange(len(stacking_columns(self.half_width)))
 
     def columns(self) -> list[str]:
         """Names of the window columns the trees read."""
-        return stacking_columns(self.half_width)[: self.n_columns]
+        names = stacking_columns(self.half_width)
+        return [names[i] for i in self.used_]
 
     def train(self, beds: EncodedBeds, labels: np.ndarray, random_state: int = 0) -> None:
         """Learn the classifier from the beds with a label (``labels`` -1 = none)."""
@@ -75,8 +79,8 @@ class StackingEmission(EmissionPiece):
             )
         X = beds.numeric[STACKING][known]
         y = labels[known]
-        self.n_columns = X.shape[1]
-        self.trees = fit_boosted(X, y, self.n_tracts, random_state=int(random_state))
+        self.used_ = _varying(X)
+        self.trees = fit_boosted(X[:, self.used_], y, self.n_tracts, random_state=int(random_state))
         counts = np.bincount(y, minlength=self.n_tracts).astype(float)
         prior = counts / counts.sum()
         self.class_prior_ = np.where(counts > 0, prior, 1.0)
@@ -84,7 +88,7 @@ class StackingEmission(EmissionPiece):
     def log_prob(self, beds: EncodedBeds) -> np.ndarray:
         if self.trees is None:
             raise ConfigError("the stacking piece is not trained")
-        x = np.asarray(beds.numeric[STACKING][:, : self.n_columns], dtype=float)
+        x = np.asarray(beds.numeric[STACKING][:, self.used_], dtype=float)
         p = self.trees.predict_proba(x)
         return np.log(np.maximum(p, self.floor)) - np.log(self.class_prior_)[None, :]
 
@@ -109,6 +113,7 @@ class StackingEmission(EmissionPiece):
             "half_width": self.half_width,
             "floor": self.floor,
             "class_prior": self.class_prior_.tolist(),
+            "columns": self.columns(),
             "trees": self.trees.to_dict(),
         }
 
@@ -133,12 +138,11 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
             )
         piece.class_prior_ = prior
-        widths = (len(stacking_columns()), len(bed_window_columns()))
+        used = _columns_read(data, piece.name, source)
         declared = data["trees"].get("n_features") if isinstance(data["trees"], Mapping) else None
-        if declared not in widths:  # checked before the trees are packed into arrays
+        if declared != len(used):  # checked before the trees are packed into arrays
             raise ModelFileError(
-                f"emission {piece.name}: {declared!r} window features, expected "
-                f"{' or '.join(map(str, widths))}",
+                f"emission {piece.name}: {declared!r} window features, {len(used)} columns",
                 file=source,
             )
         trees = BoostedTrees.from_dict(data["trees"], source)
@@ -153,5 +157,36 @@ class StackingEmission(EmissionPiece):
                 file=source,
             )
         piece.trees = trees
-        piece.n_columns = int(declared)
+        piece.used_ = used
         return piece
+
+
+def _varying(X: np.ndarray) -> np.ndarray:
+    """Indices of the columns of ``X`` with two or more distinct known values (all of
+    them where none has)."""
+    with np.errstate(invalid="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns
+        varying = np.nanmax(X, axis=0) > np.nanmin(X, axis=0)
+    return np.flatnonzero(varying) if varying.any() else np.arange(X.shape[1])
+
+
+def _columns_read(data: Mapping, name: str, source: str | None) -> np.ndarray:
+    """Indices into :func:`stacking_columns` of the columns a model file's trees read:
+    those it lists, or, in files written before the window read the cycles (no list),
+    the window of beds."""
+    if "columns" not in data:
+        return np.arange(len(bed_window_columns()))
+    listed = data["columns"]
+    known = {c: i for i, c in enumerate(stacking_columns())}
+    if (
+        not isinstance(listed, list)
+        or not listed
+        or len(set(map(str, listed))) != len(listed)
+        or any(str(c) not in known for c in listed)
+    ):
+        raise ModelFileError(
+            f"emission {name}: columns must list distinct window columns of "
+            f"faciesseq.hmm.encoding.stacking_columns()",
+            file=source,
+        )
+    return np.array([known[str(c)] for c in listed], dtype=np.int64)
