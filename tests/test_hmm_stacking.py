@@ -203,6 +203,12 @@ def test_model_file_with_a_broken_window_is_refused(synthetic, tmp_path):
     path.write_text(json.dumps(doc))
     with pytest.raises(ModelFileError, match="class_prior"):
         load_model(path)
+    entry["class_prior"] = [0.25] * 4
+    for columns in (["no such column"], [], "rank", entry["columns"][:-1]):
+        entry["columns"] = columns  # unknown, none, not a list, fewer than the trees read
+        path.write_text(json.dumps(doc))
+        with pytest.raises(ModelFileError, match="columns"):
+            load_model(path)
 
 
 def test_stacking_beats_the_per_bed_pieces_on_held_out_simulated_cores():
