@@ -306,19 +306,9 @@ def bed_context(
     r = _fill_unknown(ranks, lengths)
     cycles = find_cycles(r, lengths, thickness, flooding_step, cycle_base, nonmarine)
     top, base = cycles.top_rank, cycles.base_rank
-    below = top - _neighbour(top, cycles.lengths, -1)
-    above = _neighbour(top, cycles.lengths, 1) - top
-    both = np.vstack([below, above])
-    counted = np.isfinite(both).sum(axis=0)
-    with np.errstate(invalid="ignore"):
-        stacking = np.where(counted > 0, np.nansum(both, axis=0) / np.maximum(counted, 1), np.nan)
+    stacking = _cycle_stacking(cycles)
     shift = base - _neighbour(base, cycles.lengths, -1)
-    smooth = _running_mean(r, lengths, 2)
-    low = _window(smooth, lengths, position_half_width, "min")
-    high = _window(smooth, lengths, position_half_width, "max")
-    span = high - low
-    with np.errstate(invalid="ignore", divide="ignore"):
-        position = np.where(span > 0, (smooth - low) / span, np.nan)
+    position = _position(r, lengths, position_half_width)
     c = cycles.bed_cycle
     local_position = _cycle_window_position(r, c, cycles)
     sharpness = np.full(len(c), np.nan)
@@ -339,6 +329,27 @@ def bed_context(
         "setting": np.full(len(r), np.nan) if nonmarine is None else np.asarray(nonmarine, float),
         "exposure": exposure_context(exposed, lengths, len(r)),
     }
+
+
+def _cycle_stacking(cycles: Cycles) -> np.ndarray:
+    """``(n_cycles,)`` the ``cycle_stacking`` of every cycle (:func:`bed_context`)."""
+    top = cycles.top_rank
+    below = top - _neighbour(top, cycles.lengths, -1)
+    above = _neighbour(top, cycles.lengths, 1) - top
+    both = np.vstack([below, above])
+    counted = np.isfinite(both).sum(axis=0)
+    with np.errstate(invalid="ignore"):
+        return np.where(counted > 0, np.nansum(both, axis=0) / np.maximum(counted, 1), np.nan)
+
+
+def _position(r: np.ndarray, lengths: np.ndarray, half: int) -> np.ndarray:
+    """The ``position`` of every bed (:func:`bed_context`) from its filled ranks ``r``."""
+    smooth = _running_mean(r, lengths, 2)
+    low = _window(smooth, lengths, half, "min")
+    high = _window(smooth, lengths, half, "max")
+    span = high - low
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(span > 0, (smooth - low) / span, np.nan)
 
 
 def exposure_context(exposed: np.ndarray | None, lengths: np.ndarray, n: int) -> np.ndarray:
@@ -473,6 +484,6 @@ def cycle_window(
             cols.append((_neighbour(top, cycles.lengths, k, position) - top)[c])
             cols.append((_neighbour(base, cycles.lengths, k, position) - base)[c])
             cols.append(_neighbour(log_beds, cycles.lengths, k, position)[c])
-    context = bed_context(r, lengths, thickness, cycle_base=cycle_base, nonmarine=nonmarine)
-    cols += [context["trend"], context["position"], context["cycle_stacking"]]
+    trend = _slope(r, lengths, TREND_HALF_WIDTH)
+    cols += [trend, _position(r, lengths, POSITION_HALF_WIDTH), _cycle_stacking(cycles)[c]]
     return np.column_stack(cols).astype(np.float32)
