@@ -294,10 +294,9 @@ def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
 def _cycles_read(piece: Any) -> str:
     """How many cycles around each bed the stacking trees read ("" for none: model
     files written before 2026-12-04)."""
-    from faciesseq.cycles import CYCLE_WINDOW_HALF_WIDTH
-    from faciesseq.hmm.encoding import bed_window_columns
+    from faciesseq.cycles import CYCLE_WINDOW_HALF_WIDTH, cycle_window_columns
 
-    if len(piece.columns()) <= len(bed_window_columns(piece.half_width)):
+    if not set(piece.columns()) & set(cycle_window_columns()):
         return ""
     return f" and the {CYCLE_WINDOW_HALF_WIDTH} cycles below and above it"
 
