@@ -50,7 +50,7 @@ def unlabelled_caution(model) -> str | None:
         "caution: no bed was labelled, so the tract names rest on the model's priors (the "
         "cyclic order, the one deepening tract); on cores of a generator it was not tuned "
         "on, fits without labels read near chance (balanced accuracy 0.34-0.42, against "
-        "0.60-0.73 with three labelled cores; docs/hmm.md, 'Cores of a generator written "
+        "0.76-0.86 with three labelled cores; docs/hmm.md, 'Cores of a generator written "
         "blind'): read the column as a first draft, or label a few cores (fit --labels)"
     )
 
