@@ -1,8 +1,12 @@
-"""``faciesseq fit`` and ``decode``, as whole commands, on cores of the blind generator.
+"""``faciesseq fit`` and ``decode``, as whole commands, on cores of a generator written blind.
 
 Run from the repository root (about 4 minutes for 5 seeds and 3 settings)::
 
     python benchmarks/eval_blind_generator.py --seeds 11,12,13,14,15 --out /tmp/blind
+
+``--generator benchmarks/shelf_generator.py`` reads the cores of the second generator
+written blind instead (its settings also ``proximal`` and ``distal``: every core at a
+landward or a basinward site).
 
 For each setting (``default``; ``equal``: every bed 0.6 m; ``nofsst``: half the
 sequences without a falling stage) and each seed, 8 training cores (that seed) and 4
@@ -35,6 +39,8 @@ SETTINGS = {
     "default": [],
     "equal": ["--equal-beds"],
     "nofsst": ["--no-fsst-prob", "0.5"],
+    "proximal": ["--site", "proximal"],  # shelf_generator.py only
+    "distal": ["--site", "distal"],  # shelf_generator.py only
 }
 
 
@@ -120,6 +126,13 @@ def score(truth_csv, dec_dir):
     ), conf
 
 
+def failed(rows, setting, seed, mode, p) -> bool:
+    """Record a failed command as a row of errors; whether it failed."""
+    if p.returncode != 0:
+        rows.append(dict(setting=setting, seed=seed, mode=mode, error=p.stderr.strip()[-300:]))
+    return p.returncode != 0
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--seeds", default="11,12,13")
@@ -128,7 +141,9 @@ def main():
     ap.add_argument("--test-cores", type=int, default=4)
     ap.add_argument("--labelled-cores", type=int, default=3)
     ap.add_argument("--out", default=HERE, help="folder of the runs and results")
+    ap.add_argument("--generator", default=GENERATOR, help="the generator script")
     a = ap.parse_args()
+    generator = os.path.abspath(a.generator)
     globals()["HERE"] = os.path.abspath(a.out)
     rows = []
     confs = {}
@@ -140,14 +155,14 @@ def main():
             test_seed = seed + 100
             run(
                 [
-                    *(PY, GENERATOR, "--seed", str(seed), "--cores", str(a.train_cores)),
+                    *(PY, generator, "--seed", str(seed), "--cores", str(a.train_cores)),
                     *("-o", "train.csv", "--scheme", "scheme.yaml", "--prefix", "TR", *extra),
                 ],
                 wd,
             )
             run(
                 [
-                    *(PY, GENERATOR, "--seed", str(test_seed), "--cores", str(a.test_cores)),
+                    *(PY, generator, "--seed", str(test_seed), "--cores", str(a.test_cores)),
                     *("-o", "test.csv", "--prefix", "TE", *extra),
                 ],
                 wd,
@@ -179,19 +194,13 @@ def main():
             for mode, (fargs, dargs) in modes.items():
                 model = f"model_{mode}.json"
                 p, tfit = run([*FQ, "fit", *fargs[:1], "-o", model, "--force", *fargs[1:]], wd)
-                if p.returncode != 0:
-                    rows.append(
-                        dict(setting=setting, seed=seed, mode=mode, error=p.stderr.strip()[-300:])
-                    )
+                if failed(rows, setting, seed, mode, p):
                     continue
                 out = f"dec_{mode}"
                 p, _tdec = run(
                     [*FQ, "decode", model, "test_min.csv", "-o", out, "--force", *dargs], wd
                 )
-                if p.returncode != 0:
-                    rows.append(
-                        dict(setting=setting, seed=seed, mode=mode, error=p.stderr.strip()[-300:])
-                    )
+                if failed(rows, setting, seed, mode, p):
                     continue
                 s, conf = score(os.path.join(wd, "test.csv"), os.path.join(wd, out))
                 confs[(setting, seed, mode)] = conf

@@ -17,7 +17,9 @@ Rows print as they come: scenario / setting, 3 labelled cores, every core labell
 
 ``--features a,b`` fits with those emission features instead of the defaults (e.g. the
 context features of fits without labels, to hold the stacking trees against them).
-``--root DIR`` reads faciesseq from another checkout (e.g. ``git worktree add
+``--substates N`` gives every tract N sub-states. ``--generator
+benchmarks/shelf_generator.py`` reads the second generator written blind in place of
+the first (``blind_generator.py``). ``--root DIR`` reads faciesseq from another checkout (e.g. ``git worktree add
 /tmp/before <commit>``) to compare a change with the code before it on the same
 cores.
 """
@@ -40,7 +42,7 @@ MINIMAL = ["core", "top", "base", "facies"]
 TRACTS = ("HST", "FSST", "LST", "TST")
 
 
-def scenario_row(name: str, seed: int, root: Path, features=None) -> list[float]:
+def scenario_row(name: str, seed: int, root: Path, features=None, substates=None) -> list[float]:
     from eval_unsupervised import _runner, minimal_labelled_sets, score
 
     from faciesseq.hmm import TractHMM
@@ -50,7 +52,7 @@ def scenario_row(name: str, seed: int, root: Path, features=None) -> list[float]
     sets, blind, test, truth = minimal_labelled_sets(run, fit, decode)
     out = []
     for cores in sets:
-        model = TractHMM(scheme=scheme, random_state=fit[0], features=features)
+        model = TractHMM(scheme=scheme, random_state=fit[0], features=features, substates=substates)
         model.fit(cores, labels="tract", calibrate=False)
         out.append(score(model.decode(blind), test, truth)["balanced_accuracy"])
     return out
@@ -72,12 +74,19 @@ def balanced_accuracy(truth: pd.DataFrame, decoded: pd.DataFrame) -> float:
     return float(np.mean(recall))
 
 
-def blind_row(seed: int, setting: tuple[str, ...], folder: Path, features=None) -> list[float]:
+def blind_row(
+    seed: int,
+    setting: tuple[str, ...],
+    folder: Path,
+    features=None,
+    substates=None,
+    generator: Path = HERE / "blind_generator.py",
+) -> list[float]:
     from faciesseq.core import CoreSet
     from faciesseq.hmm import TractHMM
     from faciesseq.scheme import load_scheme
 
-    generator = [sys.executable, str(HERE / "blind_generator.py")]
+    generator = [sys.executable, str(generator)]
     train, test, scheme = folder / "train.csv", folder / "test.csv", folder / "scheme.yaml"
     subprocess.run(
         [
@@ -116,7 +125,9 @@ def blind_row(seed: int, setting: tuple[str, ...], folder: Path, features=None) 
     for n_labelled in (3, 8):
         labelled = tr["core"].drop_duplicates().tolist()[:n_labelled]
         cores = CoreSet.from_frame(tr.assign(tract=tr["tract"].where(tr["core"].isin(labelled))))
-        model = TractHMM(scheme=load_scheme(scheme), random_state=seed, features=features)
+        model = TractHMM(
+            scheme=load_scheme(scheme), random_state=seed, features=features, substates=substates
+        )
         model.fit(cores, labels="tract", calibrate=False)
         decoded = model.decode(CoreSet.from_frame(te[MINIMAL])).tracts_table()
         out.append(balanced_accuracy(te, decoded))
@@ -129,6 +140,13 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--root", type=Path, default=HERE.parent, help="faciesseq checkout")
     ap.add_argument("--only", choices=("scenarios", "blind"), help="one half of the rows")
     ap.add_argument("--features", help="emission features, comma-separated (default: the fit's)")
+    ap.add_argument("--substates", type=int, help="sub-states per tract (default: the fit's)")
+    ap.add_argument(
+        "--generator",
+        type=Path,
+        default=HERE / "blind_generator.py",
+        help="generator written blind (blind_generator.py or shelf_generator.py)",
+    )
     a = ap.parse_args(argv)
     sys.path[:0] = [str(a.root), str(HERE)]
     import faciesseq  # from --root, before a benchmark module puts its own checkout first
@@ -136,19 +154,24 @@ def main(argv: list[str] | None = None) -> int:
     warnings.simplefilter("ignore")
     features = a.features.split(",") if a.features else None
     source = Path(faciesseq.__file__).parent
-    print(f"faciesseq from {source}; seed {a.seed}; features {features or 'default'}\n")
+    print(
+        f"faciesseq from {source}; seed {a.seed}; features {features or 'default'}; "
+        f"sub-states {a.substates or 'default'}\n"
+    )
     print("| cores | 3 labelled cores | every core labelled |\n|---|---|---|")
     if a.only != "blind":
         from eval_suggested_ranks import SCENARIOS  # the project's six, as there
 
         for name in SCENARIOS:
-            row = scenario_row(name, a.seed, a.root, features)
+            row = scenario_row(name, a.seed, a.root, features, a.substates)
             print(f"| {name} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
     if a.only != "scenarios":
         for seed in (a.seed, a.seed + 1, a.seed + 2):
             for setting in SETTINGS:
                 with tempfile.TemporaryDirectory() as tmp:
-                    row = blind_row(seed, setting, Path(tmp), features)
+                    row = blind_row(
+                        seed, setting, Path(tmp), features, a.substates, a.generator.resolve()
+                    )
                 label = " ".join(("blind", str(seed), *setting))
                 print(f"| {label} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
     return 0
