@@ -19,9 +19,9 @@ Rows print as they come: scenario / setting, 3 labelled cores, every core labell
 context features of fits without labels, to hold the stacking trees against them).
 ``--substates N`` gives every tract N sub-states. ``--generator
 benchmarks/shelf_generator.py`` reads the second generator written blind in place of
-the first (``blind_generator.py``). ``--root DIR`` reads faciesseq from another checkout (e.g. ``git worktree add
-/tmp/before <commit>``) to compare a change with the code before it on the same
-cores.
+the first (``blind_generator.py``). ``--root DIR`` reads faciesseq from another
+checkout (e.g. ``git worktree add /tmp/before <commit>``) to compare a change with
+the code before it on the same cores.
 """
 
 from __future__ import annotations
@@ -172,7 +172,7 @@ def main(argv: list[str] | None = None) -> int:
                     row = blind_row(
                         seed, setting, Path(tmp), features, a.substates, a.generator.resolve()
                     )
-                label = " ".join(("blind", str(seed), *setting))
+                label = " ".join((a.generator.stem.split("_")[0], str(seed), *setting))
                 print(f"| {label} | " + " | ".join(f"{x:.3f}" for x in row) + " |", flush=True)
     return 0
 
