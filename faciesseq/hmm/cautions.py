@@ -42,16 +42,18 @@ def fit_cautions(model) -> list[str]:
 def unlabelled_caution(model) -> str | None:
     """A caution for every fit without labels: its tract names rest on the priors (the
     cyclic order, the one deepening tract), which were tuned on the project's own
-    generators. On cores of a generator written blind it read near chance
-    (``benchmarks/tract_model.md``, "Cores of a generator written blind")."""
+    generators. On cores of two generators written blind it read near chance on one
+    and 0.57-0.80 on the other (``benchmarks/tract_model.md``, "Cores of a generator
+    written blind" and "A second generator written blind")."""
     if getattr(model, "n_labelled_", 0):
         return None
     return (
         "caution: no bed was labelled, so the tract names rest on the model's priors (the "
-        "cyclic order, the one deepening tract); on cores of a generator it was not tuned "
-        "on, fits without labels read near chance (balanced accuracy 0.34-0.42, against "
-        "0.76-0.86 with three labelled cores; docs/hmm.md, 'Cores of a generator written "
-        "blind'): read the column as a first draft, or label a few cores (fit --labels)"
+        "cyclic order, the one deepening tract); on cores of two generators it was not "
+        "tuned on, fits without labels read 0.34-0.42 and 0.57-0.80 (balanced accuracy, "
+        "chance 0.25), against 0.76-0.92 with three labelled cores (docs/hmm.md, 'Cores of "
+        "a generator written blind'): read the column as a first draft, or label a few "
+        "cores (fit --labels)"
     )
 
 
