@@ -49,6 +49,15 @@ CASES = [
         "row 2, core W1, depth 3.00 m",
     ),
     (
+        "every-row-left-out",
+        {"c.csv": HEAD + "W1,2,1,A\nW1,3,3,B\n"},
+        [],
+        1,
+        "top-below-base",
+        "error",
+        "row 1, core W1, depth 2.00 m",
+    ),
+    (
         "zero-thickness",
         {"c.csv": HEAD + "W1,0,1,A\nW1,1,1,B\nW1,1,2,A\n"},
         [],

@@ -1269,6 +1269,8 @@ def _assemble(
     ):
         table = pd.concat(frames, ignore_index=True) if len(frames) > 1 else frames[0]
         core_id = np.concatenate(ids)
+        if not len(core_id):  # every row left out (its problems say why)
+            return {}
         if np.any(np.diff(core_id) < 0):  # cores of several files or pieces: in order
             perm = np.argsort(core_id, kind="stable")
             table = table.take(perm).reset_index(drop=True)
