@@ -67,3 +67,21 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     tracts = pd.read_csv(out / "tracts.csv", comment="#")
     assert len(tracts) > 0
     assert tracts["tract"].isin(["HST", "FSST", "LST", "TST"]).all()
+
+
+def test_labels_that_leave_tracts_out_are_cautioned(tmp_path, capsys):
+    # labels of one tract teach the stacking trees that tract alone: the fit then reads
+    # every bed as it, surely, so it says which tracts had no labelled bed
+    source = _table(tmp_path, ["core", "top", "base", "facies", "tract"], 10)
+    beds = pd.read_csv(source)
+    assert set(beds["tract"].dropna()) == {"HST", "FSST", "LST", "TST"}
+    model = tmp_path / "model.json"
+    args = ["fit", str(source), "--scheme", SCHEME, "--labels", "tract", "--restarts", "1"]
+    assert main([*args, "-o", str(model)]) == 0
+    assert "no bed is labelled" not in capsys.readouterr().out
+    beds.assign(tract=beds["tract"].where(beds["tract"] == "TST")).to_csv(source, index=False)
+    assert main([*args, "-o", str(model), "--force"]) == 0
+    printed = capsys.readouterr().out
+    assert "no bed is labelled HST or FSST or LST (labelled beds: TST " in printed
+    recorded = json.loads(model.read_text())["training"]["cautions"]
+    assert any("no bed is labelled HST or FSST or LST" in c for c in recorded)

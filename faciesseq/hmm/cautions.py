@@ -3,8 +3,9 @@ the appendix's methods.
 
 Each caution reads the fitted model alone, names what it saw and the measured loss
 beside it, and says what the geologist can do (label a few cores, record contacts).
-A fit with labels has none of these but the suggested ranks'; the contact caution
-also stays silent where the user chose the features.
+A fit with labels has none of these but the suggested ranks' and, where its labels
+leave a tract out, the missing labels'; the contact caution also stays silent where
+the user chose the features.
 """
 
 from __future__ import annotations
@@ -15,6 +16,7 @@ from faciesseq.markov.seriation import SUGGESTED
 __all__ = [
     "contact_caution",
     "fit_cautions",
+    "missing_labels_caution",
     "single_bed_caution",
     "single_bed_tracts",
     "suggested_ranks_caution",
@@ -32,6 +34,7 @@ def fit_cautions(model) -> list[str]:
         return list(stored)
     found = (
         unlabelled_caution(model),
+        missing_labels_caution(model),
         suggested_ranks_caution(model),
         single_bed_caution(model),
         contact_caution(model),
@@ -54,6 +57,29 @@ def unlabelled_caution(model) -> str | None:
         "chance 0.25), against 0.76-0.92 with three labelled cores (docs/hmm.md, 'Cores of "
         "a generator written blind'): read the column as a first draft, or label a few "
         "cores (fit --labels)"
+    )
+
+
+def missing_labels_caution(model) -> str | None:
+    """A caution where a fit with labels read by the stacking trees saw no labelled bed
+    of some tract: the trees learn only the tracts they are shown and give the others
+    their floor probability (:class:`~faciesseq.hmm.stacking_piece.StackingEmission`),
+    so the fit almost never decodes them and is sure of the tracts it does decode."""
+    counts = getattr(model, "labelled_beds_", None)
+    if not getattr(model, "n_labelled_", 0) or not counts:
+        return None
+    if "stacking" not in getattr(model, "features_", ()):
+        return None
+    missing = [t for t, n in counts.items() if n == 0]
+    if not missing:
+        return None
+    seen = ", ".join(f"{t} {n}" for t, n in counts.items() if n)
+    one = len(missing) == 1
+    return (
+        f"caution: no bed is labelled {' or '.join(missing)} (labelled beds: {seen}); the "
+        "stacking trees learn only the tracts they are shown, so the fit will hardly ever "
+        f"decode {'that tract' if one else 'those tracts'}, and its probabilities do not "
+        "allow for them: label beds of every tract the cores hold, or fit without labels"
     )
 
 

@@ -21,11 +21,27 @@ from faciesseq.core import Succession
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model
 
-__all__ = ["LabelWarning", "clamp_from_labels", "graph_from_labels", "label_values"]
+__all__ = [
+    "LabelWarning",
+    "clamp_from_labels",
+    "graph_from_labels",
+    "label_values",
+    "labelled_beds",
+]
 
 
 class LabelWarning(UserWarning):
     """An interpreter's label that cannot be used as it is (the beds are left free)."""
+
+
+def labelled_beds(clamp: np.ndarray | None, order: Sequence[str]) -> dict[str, int]:
+    """Beds labelled with each tract of ``order`` (clamped to that tract alone); empty
+    for a fit without labels."""
+    if clamp is None:
+        return {}
+    one = clamp.sum(axis=1) == 1
+    counts = np.bincount(np.argmax(clamp[one], axis=1), minlength=len(order))
+    return {t: int(n) for t, n in zip(order, counts, strict=True)}
 
 
 def _text(values: pd.Series) -> list[str | None]:

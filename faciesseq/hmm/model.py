@@ -49,7 +49,7 @@ from faciesseq.hmm.features import (
     FEATURES,
     resolve_features,
 )
-from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels
+from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels, labelled_beds
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.states import StateSpace
@@ -232,6 +232,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     restarts_ : list of dict, one per restart (seed, objective, n_iter, converged, history)
     log_likelihood_ : float, training log-likelihood of the best restart
     n_train_beds_ : int
+    labelled_beds_ : dict, beds labelled with each tract (empty without labels)
     label_graph_ : dict or None, in fits with labels and no ``tract_model``:
         ``graph`` (``"strict"`` or ``"permissive"``), ``n_boundaries`` (labelled
         tract changes) and ``n_forbidden`` (those the strict cyclic order does
@@ -647,6 +648,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self._keep_best(self._named_runs(runs, data, progress))
         self.n_train_beds_ = len(data.beds)
         self.n_labelled_ = n_labelled
+        self.labelled_beds_ = labelled_beds(data.clamp, self.tract_model_.order)
         self.cores_ = tuple(dict.fromkeys(data.cores))
         self.graph_selection_ = []
         # The parameters of the last E-step are the returned ones, so the
