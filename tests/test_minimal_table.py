@@ -85,3 +85,18 @@ def test_labels_that_leave_tracts_out_are_cautioned(tmp_path, capsys):
     assert "no bed is labelled HST or FSST or LST (labelled beds: TST " in printed
     recorded = json.loads(model.read_text())["training"]["cautions"]
     assert any("no bed is labelled HST or FSST or LST" in c for c in recorded)
+
+
+def test_a_scheme_of_tied_ranks_is_cautioned(tmp_path, capsys):
+    # one rank for every facies: no bed deeper than another, nothing to name tracts by
+    import re
+
+    tied = tmp_path / "tied.yaml"
+    text = (ROOT / "configs" / "scheme-shoreface.yaml").read_text()
+    tied.write_text(re.sub(r"rank: \d+", "rank: 2", text))
+    source = _table(tmp_path, ["core", "top", "base", "facies"], None)
+    for scheme, cautioned in ((SCHEME, False), (str(tied), True)):
+        args = ["fit", str(source), "--scheme", scheme, "--restarts", "1", "--force"]
+        assert main([*args, "-o", str(tmp_path / "model.json")]) == 0
+        printed = capsys.readouterr().out
+        assert ("the scheme gives every facies the same rank" in printed) == cautioned

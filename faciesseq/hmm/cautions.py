@@ -10,6 +10,8 @@ the user chose the features.
 
 from __future__ import annotations
 
+import numpy as np
+
 from faciesseq.hmm.states import SHORT_VISIT
 from faciesseq.markov.seriation import SUGGESTED
 
@@ -20,6 +22,7 @@ __all__ = [
     "single_bed_caution",
     "single_bed_tracts",
     "suggested_ranks_caution",
+    "tied_ranks_caution",
     "unlabelled_caution",
 ]
 
@@ -34,6 +37,7 @@ def fit_cautions(model) -> list[str]:
         return list(stored)
     found = (
         unlabelled_caution(model),
+        tied_ranks_caution(model),
         missing_labels_caution(model),
         suggested_ranks_caution(model),
         single_bed_caution(model),
@@ -57,6 +61,24 @@ def unlabelled_caution(model) -> str | None:
         "chance 0.25), against 0.76-0.92 with three labelled cores (docs/hmm.md, 'Cores of "
         "a generator written blind'): read the column as a first draft, or label a few "
         "cores (fit --labels)"
+    )
+
+
+def tied_ranks_caution(model) -> str | None:
+    """A caution where a fit without labels read a scheme that gives every facies one
+    rank: no bed is then deeper or shallower than another, so there is no
+    stacking to read and the tract names rest on nothing (as without ranks)."""
+    ranks = getattr(model, "ranks_", None)
+    if getattr(model, "n_labelled_", 0) or ranks is None:
+        return None
+    known = np.unique(ranks[np.isfinite(ranks)])
+    if len(known) > 1:
+        return None
+    return (
+        "caution: the scheme gives every facies the same rank, so no bed is "
+        "deeper or shallower than another and the tracts are not identified: give the "
+        "facies their proximality ranks (0 = most landward; faciesseq scheme draft "
+        "--fill-ranks suggests them), or label a few cores (fit --labels)"
     )
 
 
