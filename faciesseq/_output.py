@@ -53,6 +53,7 @@ def check_target(
     folder: bool,
     option: str = "-o",
     make_parents: bool = False,
+    inputs: tuple[str, ...] = (),
 ) -> Path:
     """Check that an output may be written to ``path``; return it as a :class:`~pathlib.Path`.
 
@@ -68,16 +69,21 @@ def check_target(
         The option that named ``path``, for the message.
     make_parents
         The caller creates missing parent folders; do not require them.
+    inputs
+        Files and folders the command reads: ``path`` may not be one of them, nor a
+        folder holding one, even with ``force`` (replacing it would lose the input).
 
     Raises
     ------
     ConfigError
         ``path`` exists and ``force`` is false; it exists as the other kind
-        (a folder where a file is written, or the reverse); or its parent
-        folder does not exist (unless ``make_parents``). Exit code 2.
+        (a folder where a file is written, or the reverse); it is, or holds, one of
+        the ``inputs``; or its parent folder does not exist (unless
+        ``make_parents``). Exit code 2.
     """
     target = Path(path)
     kind = "folder" if folder else "file"
+    _not_an_input(target, inputs, option)
     if target.exists() and target.is_dir() != folder:
         other = "a folder" if target.is_dir() else "a file"
         raise ConfigError(f"is {other}; give a {kind} name to {option}", file=str(target))
@@ -89,6 +95,24 @@ def check_target(
     if not make_parents and not parent.is_dir():
         raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(target))
     return target
+
+
+def _not_an_input(target: Path, inputs: tuple[str, ...], option: str) -> None:
+    """Refuse an output that is, or (a folder) holds, a file the command reads."""
+    if not target.exists():
+        return
+    whole = target.resolve()
+    for given in inputs:
+        read = Path(given)
+        if not read.exists():  # a URL, or reported missing by the reading
+            continue
+        if read.resolve() == whole or (target.is_dir() and read.resolve().is_relative_to(whole)):
+            what = "is" if read.resolve() == whole else "holds"
+            raise ConfigError(
+                f"{what} {given}, which this command reads; writing there would lose it: "
+                f"choose another {option}",
+                file=str(target),
+            )
 
 
 @contextmanager

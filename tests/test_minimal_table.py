@@ -100,3 +100,22 @@ def test_a_scheme_of_tied_ranks_is_cautioned(tmp_path, capsys):
         assert main([*args, "-o", str(tmp_path / "model.json")]) == 0
         printed = capsys.readouterr().out
         assert ("the scheme gives every facies the same rank" in printed) == cautioned
+
+
+def test_an_output_never_replaces_what_the_command_reads(tmp_path, capsys):
+    # `--force` replaces an earlier output, never the source: a model written over
+    # the table it was fitted on, or a decode folder swapped in over a folder holding
+    # its source, would lose the data
+    source = _table(tmp_path, ["core", "top", "base", "facies"], None)
+    before = source.read_bytes()
+    args = ["fit", str(source), "--scheme", SCHEME, "--restarts", "1", "--force"]
+    assert main([*args, "-o", str(source)]) == 2
+    assert "which this command reads" in capsys.readouterr().err
+    assert source.read_bytes() == before
+    model = tmp_path / "model.json"
+    assert main([*args, "-o", str(model)]) == 0
+    capsys.readouterr()
+    assert main(["decode", str(model), str(source), "-o", str(tmp_path), "--force"]) == 2
+    assert f"holds {source}" in capsys.readouterr().err
+    assert source.read_bytes() == before
+    assert main(["fit", str(source), "--scheme", SCHEME, "-o", SCHEME, "--force"]) == 2

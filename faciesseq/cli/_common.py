@@ -106,6 +106,22 @@ def model_scheme(scheme, model, path: str | None):
     return scheme
 
 
+#: Options whose files a command reads (:func:`input_files`).
+INPUT_OPTIONS = ("source", "model", "scheme", "tracts", "review_sheet", "wells")
+
+
+def input_files(args: argparse.Namespace) -> tuple[str, ...]:
+    """The files a command reads (SOURCE, MODEL, ``--scheme``, ``--tracts``...), which
+    its outputs may not replace (:func:`faciesseq._output.check_target`)."""
+    out = []
+    for name in INPUT_OPTIONS:
+        value = getattr(args, name, None)
+        for v in value if isinstance(value, list | tuple) else [value]:
+            if v:
+                out.append(str(v))
+    return tuple(out)
+
+
 def source_file(args: argparse.Namespace):
     """The :class:`~faciesseq.io.source.SourceSpec` of a YAML SOURCE, or ``None``."""
     from pathlib import Path

@@ -265,6 +265,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target
     from faciesseq.cli._common import (
         check_grid_size,
+        input_files,
         load_scheme_option,
         read_source,
         require_file,
@@ -272,7 +273,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.errors import ConfigError
 
     check_numbers(args)
-    check_target(args.output, force=args.force, folder=True)
+    check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     require_file(args.model)
     require_file(args.tract_model)
     scheme = load_scheme_option(args.scheme)

@@ -10,6 +10,7 @@ from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
+    input_files,
     read_source,
     require_file,
     scheme_for_model,
@@ -122,7 +123,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.io.writer import safe_stem
     from faciesseq.report.section import hanging_datum, section_figure
 
-    check_target(args.output, force=args.force, folder=True)
+    check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     if not 0 <= args.doubtful <= 1:
         raise ConfigError(f"--doubtful must lie between 0 and 1, got {args.doubtful}")
     wells, scheme_cores, interp = _decode(args)

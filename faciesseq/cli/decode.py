@@ -15,6 +15,7 @@ from faciesseq.cli._common import (
     announce,
     check_grid_size,
     column_mapping,
+    input_files,
     read_source,
     regular_cores,
     require_file,
@@ -353,7 +354,7 @@ def _model(args: argparse.Namespace):
     from faciesseq._output import check_target
     from faciesseq.hmm.modelfile import load_model
 
-    check_target(args.output, force=args.force, folder=True)
+    check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     n_jobs, scheduler = parallel_options(args)
     model = load_model(require_file(args.model)).set_params(n_jobs=n_jobs, scheduler=scheduler)
     scheme = scheme_for_model(args.scheme, model)

@@ -11,6 +11,7 @@ from faciesseq.cli._common import (
     add_source_arguments,
     check_grid_size,
     check_labels,
+    input_files,
     load_scheme_option,
     read_source,
     regular_cores,
@@ -367,7 +368,7 @@ def run(args: argparse.Namespace) -> int:
     parallel = parallel_options(args)
     from faciesseq._output import check_target
 
-    check_target(args.output, force=args.force, folder=False)
+    check_target(args.output, force=args.force, folder=False, inputs=input_files(args))
     from faciesseq.hmm.modelfile import save_model
 
     labelled = args.labels is not None

@@ -14,6 +14,7 @@ from faciesseq.cli._common import (
     check_seed,
     check_surrogates,
     check_unit_step,
+    input_files,
     load_scheme_option,
     read_source,
     stream_source,
@@ -138,7 +139,7 @@ def run(args: argparse.Namespace) -> int:
     if args.output:
         from faciesseq._output import check_target
 
-        check_target(args.output, force=args.force, folder=True)
+        check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     scheme = load_scheme_option(args.scheme)
     seed = args.seed
     if args.surrogates and seed is None:

@@ -8,6 +8,7 @@ from pathlib import Path
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    input_files,
     load_scheme_option,
     read_source,
     require_file,
@@ -95,7 +96,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.review import read_sheet, relabel
     from faciesseq.scheme import default_tract_model
 
-    check_target(args.output, force=args.force, folder=False)
+    check_target(args.output, force=args.force, folder=False, inputs=input_files(args))
     tract_model = load_tracts_option(args.tracts) or default_tract_model()
     sheet = read_sheet(require_file(args.review_sheet))
     scheme = load_scheme_option(args.scheme)

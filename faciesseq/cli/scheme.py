@@ -7,6 +7,7 @@ import argparse
 from faciesseq.cli._common import (
     add_output_arguments,
     add_source_arguments,
+    input_files,
     read_source,
     require_file,
 )
@@ -85,7 +86,9 @@ def run_draft(args: argparse.Namespace) -> int:
     from faciesseq.markov.seriation import suggest_ranks
     from faciesseq.scheme import draft_scheme
 
-    out = check_target(args.output, force=args.force, folder=False, make_parents=True)
+    out = check_target(
+        args.output, force=args.force, folder=False, make_parents=True, inputs=input_files(args)
+    )
     cores = read_source(args)  # only the codes are needed: errors elsewhere do not stop it
     codes = cores.facies_codes()
     errors = sum(p.severity == "error" for p in cores.problems)

@@ -12,6 +12,7 @@ from faciesseq.cli._common import (
     add_source_arguments,
     check_grid_size,
     check_labels,
+    input_files,
     load_scheme_option,
     read_source,
 )
@@ -162,7 +163,7 @@ def run(args: argparse.Namespace) -> int:
     if args.output:
         from faciesseq._output import check_target
 
-        check_target(args.output, force=args.force, folder=True)
+        check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     from faciesseq.scheme import default_tract_model
     from faciesseq.validation import cross_validate
 
