@@ -228,7 +228,9 @@ def test_agreement_per_core_is_the_core_by_core_sum_to_the_last_bit():
     beds = pd.DataFrame(
         {"core": core, "thickness": thickness, "tract": tract, "interpreted_tract": labels}
     )
-    table = decode_cli._agreement(SimpleNamespace(beds=beds), "interpreted_tract")
+    table = decode_cli._agreement(
+        SimpleNamespace(beds=beds, tracts=("HST", "FSST", "LST", "TST")), "interpreted_tract"
+    )
     for row in table.itertuples():
         mine = beds[(beds["core"] == row.core) & (beds["interpreted_tract"] != "")]
         weight = mine["thickness"].to_numpy()

@@ -119,3 +119,34 @@ def test_an_output_never_replaces_what_the_command_reads(tmp_path, capsys):
     assert f"holds {source}" in capsys.readouterr().err
     assert source.read_bytes() == before
     assert main(["fit", str(source), "--scheme", SCHEME, "-o", SCHEME, "--force"]) == 2
+
+
+def test_decode_scores_only_labels_that_are_tracts_of_the_model(tmp_path, capsys):
+    # a fit reads labels whatever their case and refuses other names; the agreement
+    # decode prints reads them the same way, leaving out (and naming) the others
+    source = _table(tmp_path, ["core", "top", "base", "facies", "tract"], 10)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(source), "--scheme", SCHEME, "--labels", "tract", "--restarts", "1"]
+    assert main([*fit, "-o", str(model)]) == 0
+    capsys.readouterr()
+
+    def agreement(table: pd.DataFrame) -> str:
+        table.to_csv(tmp_path / "new.csv", index=False)
+        out = tmp_path / "decoded"
+        argv = ["decode", str(model), str(tmp_path / "new.csv"), "-o", str(out), "--force"]
+        assert main(argv) == 0
+        printed = capsys.readouterr()
+        line = [ln for ln in printed.out.splitlines() if ln.startswith("agreement")]
+        return line[0] + "\n" + printed.err
+
+    def scored(text: str) -> int:  # "... % of N labelled beds ..."
+        return int(text.split(" labelled beds")[0].split()[-1])
+
+    beds = pd.read_csv(source)
+    as_given = agreement(beds)
+    lower = agreement(beds.assign(tract=beds["tract"].str.lower()))
+    assert as_given.split("\n")[0] == lower.split("\n")[0]
+    odd = agreement(beds.assign(tract=beds["tract"].where(beds.index % 2 == 0, "RST")))
+    assert "not tracts of the model (RST): left out of the agreement" in odd
+    assert "not tracts of the model" not in as_given
+    assert 0 < scored(odd) < scored(as_given)

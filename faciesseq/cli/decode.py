@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import warnings
 from collections.abc import Collection
 from pathlib import Path
 
@@ -189,8 +190,17 @@ def _agreement(interp, column: str):
     beds = interp.beds
     if column not in beds.columns:
         return None
-    text = beds[column].astype(str).str.strip()
-    labelled = (beds[column].notna() & (text != "")).to_numpy()
+    text = beds[column].astype(str).str.strip().str.upper()  # as a fit reads labels
+    given = (beds[column].notna() & (text != "")).to_numpy()
+    labelled = given & text.isin(interp.tracts).to_numpy()
+    others = sorted(set(text[given & ~labelled]))
+    if others:  # labels no tract of the model: left out, never scored as disagreement
+        shown = "tract" if column == "interpreted_tract" else column  # as the source names it
+        warnings.warn(
+            f"beds of the {shown!r} column hold labels that are not tracts of the model "
+            f"({', '.join(others[:5])}): left out of the agreement",
+            stacklevel=2,
+        )
     if not labelled.any():
         return None
     rows = np.flatnonzero(labelled)
