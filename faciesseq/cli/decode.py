@@ -443,7 +443,8 @@ def _print_text(args, model, scheme, written: _Written) -> None:
 
     head, wells, agreement = written.summary()
     print(
-        f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} {model.unit}; "
+        f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} "
+        f"{'beds' if model.unit == 'beds' else 'grid cells'}; "
         f"{int(wells['picks'].sum())} surface pick(s); "
         f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )
