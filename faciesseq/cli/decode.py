@@ -190,10 +190,12 @@ def _agreement(interp, column: str):
     beds = interp.beds
     if column not in beds.columns:
         return None
-    text = beds[column].astype(str).str.strip().str.upper()  # as a fit reads labels
-    given = (beds[column].notna() & (text != "")).to_numpy()
-    labelled = given & text.isin(interp.tracts).to_numpy()
-    others = sorted(set(text[given & ~labelled]))
+    codes = {str(t).upper(): t for t in interp.tracts}  # labels read in any case, as a fit
+    upper = beds[column].astype(str).str.strip().str.upper()
+    given = (beds[column].notna() & (upper != "")).to_numpy()
+    labelled = given & upper.isin(list(codes)).to_numpy()
+    text = upper.map(codes)
+    others = sorted(set(upper[given & ~labelled]))
     if others:  # labels no tract of the model: left out, never scored as disagreement
         shown = "tract" if column == "interpreted_tract" else column  # as the source names it
         warnings.warn(
