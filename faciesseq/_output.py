@@ -103,11 +103,11 @@ def _not_an_input(target: Path, inputs: tuple[str, ...], option: str) -> None:
         return
     whole = target.resolve()
     for given in inputs:
-        read = Path(given)
-        if not read.exists():  # a URL, or reported missing by the reading
+        if not Path(given).exists():  # a URL, or reported missing by the reading
             continue
-        if read.resolve() == whole or (target.is_dir() and read.resolve().is_relative_to(whole)):
-            what = "is" if read.resolve() == whole else "holds"
+        read = Path(given).resolve()
+        if read == whole or (target.is_dir() and read.is_relative_to(whole)):
+            what = "is" if read == whole else "holds"
             raise ConfigError(
                 f"{what} {given}, which this command reads; writing there would lose it: "
                 f"choose another {option}",

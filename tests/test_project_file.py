@@ -91,6 +91,9 @@ def test_write_source_refuses_to_replace_without_force_and_the_data_itself(odd, 
     code, _, err = _run(capsys, ["check", *argv, "--write-source", odd[0], "--force"])
     assert code == 2 and ".yaml" in err
     assert err.count("\n") == 1
+    # a source file is never written over itself, --force or not
+    code, _, err = _run(capsys, ["check", target, "--write-source", target, "--force"])
+    assert code == 2 and "which this command reads" in err and target.read_text() == before
 
 
 @pytest.mark.parametrize(

@@ -9,6 +9,7 @@ import math
 from faciesseq.cli._common import (
     add_source_arguments,
     announce,
+    input_files,
     load_scheme_option,
     read_source,
     source_file,
@@ -201,14 +202,13 @@ def _source_target(args: argparse.Namespace):
             "--write-source writes a YAML source file: give a name ending in .yaml or .yml",
             file=args.write_source,
         )
-    if Path(args.write_source).resolve() == Path(args.source).resolve():
-        raise ConfigError("--write-source would replace SOURCE itself", file=args.write_source)
     return check_target(
         args.write_source,
         force=args.force,
         folder=False,
         option="--write-source",
         make_parents=True,
+        inputs=input_files(args),
     )
 
 
