@@ -55,6 +55,14 @@ def _bad(doc, tmp_path, name="bad.json"):
         (lambda d: d["parameters"]["emissions"][0].update(kind="neural"), "unknown emission kind"),
         (lambda d: d["states"].update(labels=["A"]), "do not match the tract model"),
         (lambda d: d.pop("hyperparameters"), "missing entry 'hyperparameters'"),
+        (  # once read letter by letter: "one entry per feature ['f', 'a', ...]"
+            lambda d: d["hyperparameters"].update(features="facies"),
+            r"hyperparameters\.features: a list of feature names expected, not 'facies'$",
+        ),
+        (
+            lambda d: d["hyperparameters"].update(features=["facies", 3]),
+            r"hyperparameters\.features: a list of feature names expected",
+        ),
     ],
 )
 def test_bad_files_are_rejected_naming_the_file(fitted, tmp_path, change, message):

@@ -314,6 +314,7 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
             raise
         raise ModelFileError(f"invalid tract model or scheme: {exc.message}", file=source) from None
     hyper = _get(doc, "hyperparameters", dict, source)
+    features = _features(hyper, source)
     states_doc = _get(doc, "states", dict, source)
     params = _get(doc, "parameters", dict, source)
     declared = states_doc.get("substates")
@@ -333,7 +334,6 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
     try:
         substates = dict(zip(tract_model.order, [int(n) for n in states_doc["substates"]]))
         states = StateSpace.build(tract_model, substates)
-        features = tuple(str(f) for f in hyper["features"])
         weigh = hyper.get("weigh_evidence", False)  # files made before it: unweighted
         nested = hyper.get("nested_start", False)  # files made before it: no nested start
         for name, value in (("weigh_evidence", weigh), ("nested_start", nested)):
@@ -365,6 +365,18 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
             file=source,
         )
     return model, states
+
+
+def _features(hyper: Mapping, source: str) -> tuple[str, ...]:
+    """The emission features the hyper-parameters name: a list of names, never text
+    (which would be read letter by letter)."""
+    features = hyper.get("features")
+    if not isinstance(features, list) or not all(isinstance(f, str) for f in features):
+        raise ModelFileError(
+            f"hyperparameters.features: a list of feature names expected, not {features!r:.60}",
+            file=source,
+        )
+    return tuple(features)
 
 
 def _chain(params: Mapping, states: StateSpace, source: str) -> tuple[np.ndarray, np.ndarray]:
