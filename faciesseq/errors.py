@@ -83,8 +83,10 @@ class ConfigError(FaciesseqError):
     exit_code = 2
 
 
-class ModelFileError(ConfigError):
-    """A model file that is not a valid faciesseq model (exit code 2)."""
+class ModelFileError(InputError):
+    """A model file that is not a valid faciesseq model: not JSON, truncated, entries of
+    the wrong type or shape (exit code 1: a corrupt input file is bad data, as a corrupt
+    table is)."""
 
 
 @dataclass(frozen=True)

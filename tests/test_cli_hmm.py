@@ -83,14 +83,25 @@ def test_decode_json_and_parquet(database, tmp_path, capsys):
     capsys.readouterr()
 
 
-def test_a_bad_model_file_is_one_line_exit_2_and_nothing_written(database, tmp_path, capsys):
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        (json.dumps({"format": "something-else", "version": 1}), "not a faciesseq model file"),
+        ('{"format": "faciesseq-tract-model", "vers', "not JSON"),  # truncated
+        ("format: faciesseq-tract-model\nversion: 1\n", "not JSON"),  # YAML
+    ],
+)
+def test_a_corrupt_model_file_is_bad_data_one_line_exit_1_and_nothing_written(
+    database, tmp_path, capsys, text, message
+):
+    # a corrupt input file is bad data (exit 1), as a corrupt table is; 2 is for usage
     bad = tmp_path / "bad.json"
-    bad.write_text(json.dumps({"format": "something-else", "version": 1}))
+    bad.write_text(text)
     out = tmp_path / "out"
     rc = main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)])
-    assert rc == 2
+    assert rc == 1
     err = capsys.readouterr().err
-    assert err.count("\n") == 1 and "bad.json" in err and "not a faciesseq model file" in err
+    assert err.count("\n") == 1 and "bad.json" in err and message in err
     assert not out.exists()
     assert list(tmp_path.iterdir()) == [bad]
 

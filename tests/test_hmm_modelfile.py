@@ -75,6 +75,16 @@ def test_bad_files_are_rejected_naming_the_file(fitted, tmp_path, change, messag
     assert str(path) in str(info.value)
 
 
+def test_training_entries_left_null_load_as_in_files_that_leave_them_out(fitted, tmp_path):
+    # null is allowed for every training entry; these four raised a TypeError
+    model, _ = fitted
+    doc = model_to_dict(model)
+    for key in ("cores", "restarts", "graph_selection", "cautions"):
+        doc["training"][key] = None
+    loaded = load_model(_bad(doc, tmp_path))
+    assert loaded.cores_ == () and loaded.restarts_ == [] and loaded.graph_selection_ == []
+
+
 def test_a_transition_outside_the_tract_graph_is_rejected(fitted, tmp_path):
     model, _ = fitted
     doc = model_to_dict(model)

@@ -107,7 +107,7 @@ def test_a_model_file_with_a_5001_digit_number_is_a_model_file_error(database, t
     with pytest.raises(ModelFileError, match=r"big\.json"):
         load_model(bad)
     out = tmp_path / "out"
-    assert main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)]) == 2
+    assert main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)]) == 1
     one_line(capsys, "big.json", "not a valid model file")
     assert not out.exists()
 
@@ -116,7 +116,7 @@ def test_a_model_file_nested_200000_deep_is_a_model_file_error(database, tmp_pat
     bad = tmp_path / "deep.json"
     bad.write_text("[" * 200_000 + "]" * 200_000)
     out = tmp_path / "out"
-    assert main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)]) == 2
+    assert main(["decode", str(bad), str(database / "cores.csv"), "-o", str(out)]) == 1
     one_line(capsys, "deep.json", "nested too deeply")
     assert not out.exists()
 

@@ -268,13 +268,13 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.objective_ = float(training.get("objective") or float("nan"))
     model.n_train_beds_ = int(training.get("n_beds") or 0)
     model.n_labelled_ = int(training.get("n_labelled") or 0)
-    model.cores_ = tuple(str(c) for c in training.get("cores", ()))
-    model.restarts_ = list(training.get("restarts", []))
-    model.graph_selection_ = list(training.get("graph_selection", []))
+    model.cores_ = tuple(str(c) for c in training.get("cores") or ())
+    model.restarts_ = list(training.get("restarts") or [])
+    model.graph_selection_ = list(training.get("graph_selection") or [])
     model.weights_rejected_ = training.get("evidence_weights_rejected")
     model.nested_start_ = training.get("nested_start")
     model.units_ = training.get("units")  # None in files made before: no conversion
-    if "cautions" in training:  # files made before: computed again from the model
+    if training.get("cautions") is not None:  # files made before: computed again
         model.cautions_ = [str(c) for c in training["cautions"]]
     model.best_restart_ = int(training.get("best_restart") or 0)
     history = []
@@ -310,8 +310,6 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
         raw_scheme = doc.get("scheme")
         scheme = None if raw_scheme is None else FaciesScheme.from_dict(raw_scheme, source=source)
     except ConfigError as exc:
-        if isinstance(exc, ModelFileError):
-            raise
         raise ModelFileError(f"invalid tract model or scheme: {exc.message}", file=source) from None
     hyper = _get(doc, "hyperparameters", dict, source)
     features = _features(hyper, source)
