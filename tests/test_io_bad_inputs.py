@@ -393,3 +393,32 @@ def test_rows_with_errors_are_left_out_but_listed(tmp_path):
     assert cores["W1"].intervals["_row"].tolist() == [1, 3]
     with pytest.raises(InputError, match=re.escape("row 2, core W1, depth 3.00 m: top 3 is below")):
         cores.require_valid()
+
+
+def test_a_contact_type_no_known_word_reads_is_a_located_warning_and_read_as_missing(tmp_path):
+    # a typo once became a contact category of its own, which the tract model learnt
+    rows = "W1,0,1,A,Sharp\nW1,1,2,B,shrap\nW1,2,3,A,gradational\nW1,3,4,B,shrap\n"
+    rows += "W2,0,1,A,loaded\nW2,1,2,B,erosional scour\nW2,2,3,A,shrap\n"
+    source = _write(tmp_path, {"c.csv": "core,top,base,facies,contact\n" + rows})
+    cores = read_cores(source, units="m")
+    found = [p for p in cores.problems if p.kind == "unknown-contact"]
+    assert [(p.severity, p.row, p.core, p.depth) for p in found] == [
+        ("warning", 2, "W1", 1.0),
+        ("warning", 5, "W2", 0.0),
+        ("warning", 7, "W2", 2.0),
+    ]
+    assert str(found[0]).startswith(f"warning: {source}, row 2, core W1, depth 1.00 m: ")
+    assert "contact type 'shrap' (2 rows)" in found[0].message
+    assert "'loaded' holds none" in found[1].message and "sharp, erosion," in found[1].message
+    assert "gradation" in found[1].message and "read as missing" in found[1].message
+    contacts = cores.to_frame()["contact"].tolist()
+    assert contacts[:3] == ["sharp", None, "gradational"]
+    assert contacts[4:6] == [None, "erosional scour"] and contacts[6] is None
+    assert not cores.errors
+
+
+def test_the_sharp_contact_words_of_reading_are_those_the_cycles_read_as_sharp():
+    from faciesseq.cycles import SHARP_WORDS
+    from faciesseq.io import contacts
+
+    assert contacts.SHARP_WORDS == SHARP_WORDS

@@ -15,7 +15,8 @@ warnings
     ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
     facies), ``null`` (LAS null values), ``encoding``, ``units``, ``units-suspect``
     (no units stated and depths that look like feet),
-    ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``
+    ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``,
+    ``unknown-contact`` (a contact type holding no known word: read as missing)
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
     ``repeated-depth`` (``repeated_depths="keep-first"``), ``units-converted``,
@@ -39,6 +40,7 @@ import pandas as pd
 from faciesseq.core import DEPTH_TOL, Core, CoreSet, CoreTable, in_units, plain_frame
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
+from faciesseq.io.contacts import known_contact, known_words
 from faciesseq.io.raw import RawTable, check_width
 from faciesseq.scheme import FaciesScheme, _code
 
@@ -372,6 +374,8 @@ def _prepare(
     where = _Where(table.file, rows, out["core"], out[roles[0]])
     out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
     attributes = _attribute_columns(src, match, roles, table, rows, problems)
+    if "contact" in attributes:
+        attributes["contact"] = _known_contacts(attributes["contact"], where, problems)
     out.update(attributes)
     row_units = None
     if "units" in match.roles:
@@ -580,6 +584,33 @@ def _attribute_columns(
     for col in list(match.others) + unused:
         out[attribute_name(col)] = _numbers_where_all(src[col].reset_index(drop=True))
     return out
+
+
+def _known_contacts(contacts: pd.Categorical, where: _Where, problems: list[Problem]):
+    """The contact column with the types no known word reads (:mod:`faciesseq.io.contacts`)
+    made missing; a warning for each core and such type, at its first row with the count
+    (one per core, so that a file read a batch of whole cores at a time warns the same)."""
+    unknown = [k for k, c in enumerate(contacts.categories) if not known_contact(c)]
+    if not unknown:
+        return contacts
+    codes = np.asarray(contacts.codes, dtype=np.int64)
+    held = np.flatnonzero(np.isin(codes, unknown))
+    core_ids = pd.factorize(where.cores, use_na_sentinel=False)[0][held]
+    pairs = core_ids * len(contacts.categories) + codes[held]
+    _, first, count = np.unique(pairs, return_index=True, return_counts=True)
+    for k in np.argsort(held[first], kind="stable"):
+        i, n = held[first[k]], int(count[k])
+        problems.append(
+            Problem(
+                "warning",
+                "unknown-contact",
+                f"contact type {contacts.categories[codes[i]]!r}{f' ({n} rows)' if n > 1 else ''} "
+                f"holds none of the contact words faciesseq reads ({known_words()}): read as "
+                "missing; describe it with one of them to have it used",
+                **where.at(i),
+            )
+        )
+    return contacts.remove_categories([contacts.categories[k] for k in unknown])
 
 
 def attribute_name(column: str) -> str:
