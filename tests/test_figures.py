@@ -113,3 +113,40 @@ def test_heatmap_labels_take_the_tract_palette():
     ticks = fig.axes[0].get_yticklabels()
     faces = [t.get_bbox_patch().get_facecolor() for t in ticks]
     assert faces == [to_rgba(TRACT_COLOURS["TST"]), to_rgba(TRACT_COLOURS["HST"])]
+
+
+def _drawn_with(text: str, path):
+    from faciesseq.report.style import figure_style, new_figure
+
+    with figure_style():
+        fig = new_figure(2.0, 1.0)
+        fig.add_subplot().set_title(text)
+    save_figure(fig, path)
+
+
+def test_characters_the_font_lacks_are_one_warning_of_every_figure(tmp_path):
+    import warnings
+
+    from faciesseq.report.style import MissingGlyphWarning, missing_glyphs_once
+
+    codes = "砂岩 泥岩 \ue000"  # CJK codes, a private-use character no font draws
+    with warnings.catch_warnings(record=True) as raw:
+        warnings.simplefilter("always")
+        _drawn_with(codes, tmp_path / "raw.png")
+    lacking = {  # as matplotlib names them: "Glyph 30722 (...) missing from font(s) ..."
+        chr(int(str(w.message).split()[1])) for w in raw if "missing from" in str(w.message)
+    }
+    if not lacking:
+        pytest.skip("the font here draws every character")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        with missing_glyphs_once():
+            for k in range(3):  # matplotlib warns once per character and figure drawn
+                _drawn_with(codes, tmp_path / f"{k}.png")
+            warnings.warn("another warning", UserWarning, stacklevel=1)
+    messages = [str(w.message) for w in caught]
+    assert len(messages) == 2 and messages[0] == "another warning"
+    assert caught[1].category is MissingGlyphWarning
+    assert messages[1].startswith("the figures' font (")
+    assert f"no glyph for {len(lacking)} character(s)" in messages[1]
+    assert all(ch in messages[1] for ch in lacking) and "\ue000" in lacking

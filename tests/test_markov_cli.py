@@ -108,3 +108,18 @@ def test_text_output_opens_with_the_answer():
     assert answer.startswith("  Ordered, not random: the quasi-independence null is rejected")
     assert "The Monte Carlo test agrees: p = 0.01 with 99 surrogates." in answer
     assert "First order is not rejected against second order" in answer
+
+
+def test_facies_codes_the_font_cannot_draw_are_one_warning_line(tmp_path):
+    # matplotlib warned once per character and figure drawn: a flood on stderr
+    cycle = ["砂岩", "泥岩", "灰岩", "\ue000"]  # CJK codes, a private-use one no font draws
+    rows = [f"W1,{k},{k + 1},{cycle[k % 4]}" for k in range(40)]
+    rows += [f"W2,{k},{k + 1},{cycle[(k * 3) % 4]}" for k in range(40)]
+    source = tmp_path / "cores.csv"
+    source.write_text("core,top,base,facies\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    code, _, err = _run(str(source), "--units", "m", "-o", str(tmp_path / "res"))
+    assert code == 0
+    lines = [line for line in err.splitlines() if "glyph" in line.lower()]
+    assert len(lines) == 1, err
+    assert lines[0].startswith("faciesseq markov: warning: the figures' font (")
+    assert "\ue000" in lines[0] and "drawn as empty boxes" in lines[0]

@@ -196,6 +196,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     import json
 
     from faciesseq.cli._common import require_file
+    from faciesseq.cli._hmm import warnings_to_stderr
     from faciesseq.pipeline import run_appendix
     from faciesseq.report.appendix import write_appendix
     from faciesseq.report.provenance import provenance
@@ -256,7 +257,10 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
 
         doc = model_to_dict(result.model)
         extra["model.json"] = json.dumps(doc, indent=1, allow_nan=False) + "\n"
-    out = write_appendix(result.appendix, output, force=force, latex=not args.no_latex, extra=extra)
+    with warnings_to_stderr(args.command):  # one line (characters the font lacks)
+        out = write_appendix(
+            result.appendix, output, force=force, latex=not args.no_latex, extra=extra
+        )
     progress("write", f"{out}")
     return out, result
 

@@ -346,19 +346,21 @@ def _extra_outputs(args, scheme, tract_model, samples):
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
     from faciesseq.report.striplog import strip_log
+    from faciesseq.report.style import missing_glyphs_once
 
     figures.mkdir()
     used: set[str] = set()
-    for core in interp:
-        name = figure_name(core.core, used)
-        used.add(name)
-        strip_log(
-            core,
-            scheme,
-            tract_model,
-            figures / f"{name}.png",
-            checked=interp.probabilities_checked,
-        )
+    with missing_glyphs_once():  # one line for every figure, not one per character
+        for core in interp:
+            name = figure_name(core.core, used)
+            used.add(name)
+            strip_log(
+                core,
+                scheme,
+                tract_model,
+                figures / f"{name}.png",
+                checked=interp.probabilities_checked,
+            )
 
 
 def _model(args: argparse.Namespace):

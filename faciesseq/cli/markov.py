@@ -114,10 +114,11 @@ def _check(args: argparse.Namespace) -> None:
 def _write_out(directory: str, report, scheme, text: str, json_text: str) -> None:
     """All files into a new folder beside DIR, then swapped in (nothing half-written)."""
     from faciesseq._output import new_folder
+    from faciesseq.cli._hmm import warnings_to_stderr
     from faciesseq.report.markov_section import relationship_diagram
-    from faciesseq.report.style import save_figure
+    from faciesseq.report.style import missing_glyphs_once, save_figure
 
-    with new_folder(directory) as tmp:
+    with warnings_to_stderr("markov"), missing_glyphs_once(), new_folder(directory) as tmp:
         (tmp / "markov.txt").write_text(text, encoding="utf-8")
         (tmp / "markov.json").write_text(json_text, encoding="utf-8")
         for name, frame in report.to_frames().items():

@@ -688,6 +688,7 @@ def write_appendix(
         The folder written.
     """
     from faciesseq._output import new_folder
+    from faciesseq.report.style import missing_glyphs_once
 
     out = Path(out_dir)
     if out.exists() and not force:
@@ -695,7 +696,7 @@ def write_appendix(
     if out.exists() and not out.is_dir():
         raise ConfigError(f"{out} exists and is not a folder")
     out.parent.mkdir(parents=True, exist_ok=True)
-    with new_folder(out) as tmp:
+    with missing_glyphs_once(), new_folder(out) as tmp:  # the one warning once written
         _fill_folder(appendix, tmp, dpi=dpi, latex=latex, extra=extra)
     return out
 

@@ -14,6 +14,8 @@ from __future__ import annotations
 import contextlib
 import io
 import os
+import re
+import warnings
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
@@ -27,6 +29,7 @@ __all__ = [
     "SURFACE_COLOURS",
     "TRACT_COLOURS",
     "figure_style",
+    "missing_glyphs_once",
     "new_figure",
     "save_figure",
     "surface_colour",
@@ -111,6 +114,47 @@ def figure_style() -> Iterator[None]:
     """Apply the project's figure settings while artists are created."""
     with mpl.rc_context(STYLE):
         yield
+
+
+#: matplotlib's warning of a character its font cannot draw (one per character and
+#: drawing): "Glyph 23721 (\\N{CJK UNIFIED IDEOGRAPH-5CA9}) missing from font(s) DejaVu
+#: Sans." (3.10 and later; "... missing from current font." before).
+_GLYPH = re.compile(r"Glyph (\d+) .*missing from (?:font\(s\) (.+?)|current font)\.?$")
+
+
+class MissingGlyphWarning(UserWarning):
+    """Characters of the figures' text that their font has no glyph for."""
+
+
+@contextlib.contextmanager
+def missing_glyphs_once() -> Iterator[None]:
+    """Figures drawn inside that hold characters their font cannot draw (facies codes
+    in CJK script with the default DejaVu Sans): matplotlib's warning per character and
+    figure, a flood on a long job, become one :class:`MissingGlyphWarning` at the end
+    naming the characters and the font. Other warnings are raised again as they came."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        yield
+    characters: dict[str, None] = {}
+    fonts: dict[str, None] = {}
+    for w in caught:
+        found = _GLYPH.match(str(w.message))
+        if found is None:
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno, source=w.source)
+            continue
+        characters[chr(int(found[1]))] = None
+        fonts[found[2] or "the current font"] = None
+    if characters:
+        warnings.warn(_glyph_message(list(characters), list(fonts)), MissingGlyphWarning, 2)
+
+
+def _glyph_message(characters: list[str], fonts: list[str]) -> str:
+    shown = " ".join(characters[:20]) + (" ..." if len(characters) > 20 else "")
+    return (
+        f"the figures' font ({', '.join(fonts)}) has no glyph for {len(characters)} "
+        f"character(s) of their text ({shown}): drawn as empty boxes; a font that has "
+        "them, first in matplotlib's font.sans-serif (matplotlibrc), draws them"
+    )
 
 
 def new_figure(width: float = PAGE_WIDTH, height: float = 4.0, **kwargs) -> Figure:
