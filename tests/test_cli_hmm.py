@@ -155,3 +155,66 @@ def test_decode_plot_draws_a_strip_log_per_core(database, tmp_path, capsys):
     assert pngs == ["S-71-1.png"]
     assert all((out / "striplogs" / p).read_bytes()[:4] == b"\x89PNG" for p in pngs)
     capsys.readouterr()
+
+
+def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
+    database, tmp_path, capsys
+):
+    # a fit on cores without SHM (a code of the scheme), decoded on cores with it and
+    # on the same cores with every depth ten times larger
+    table = pd.read_csv(database / "cores.csv")
+    train, model = tmp_path / "train.csv", tmp_path / "model.json"
+    table[table["facies"] != "SHM"].to_csv(train, index=False)
+    scheme = ["--scheme", str(database / "scheme.yaml"), "--units", "m"]
+    assert main(["fit", str(train), *scheme, "--restarts", "1", "-o", str(model)]) == 0
+    recorded = json.loads(model.read_text())["training"]
+    assert "SHM" not in recorded["facies_beds"] and recorded["bed_thickness_median"] > 0
+    capsys.readouterr()
+    out = tmp_path / "out"
+    assert main(["decode", str(model), str(database / "cores.csv"), "-o", str(out)]) == 0
+    beds = pd.read_csv(out / "tracts.csv", skiprows=1)
+    shm = int((beds["facies"] == "SHM").sum())
+    assert shm > 0
+    lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
+    assert lines == [
+        "faciesseq decode: warning: facies code(s) never seen in training, with their beds: "
+        f"SHM ({shm}); {shm} of {len(beds)} beds decoded with the scheme's rank of SHM; "
+        "the tract read from the beds around them"
+    ]
+    for factor, said in ((2.0, False), (10.0, True)):
+        scaled = table.assign(top=table["top"] * factor, base=table["base"] * factor)
+        scaled = scaled[scaled["facies"] != "SHM"]
+        scaled.to_csv(tmp_path / "scaled.csv", index=False)
+        argv = ["decode", str(model), str(tmp_path / "scaled.csv"), "--units", "m"]
+        assert main([*argv, "-o", str(tmp_path / f"x{factor:g}")]) == 0
+        err = capsys.readouterr().err
+        assert ("times thicker than the training beds" in err) == said, err
+        assert "never seen" not in err
+    # a model file made before the record: loads, and says nothing of thickness
+    doc = json.loads(model.read_text())
+    del doc["training"]["bed_thickness_median"], doc["training"]["facies_beds"]
+    model.write_text(json.dumps(doc))
+    assert main([*argv, "-o", str(tmp_path / "old")]) == 0
+    assert "thicker" not in capsys.readouterr().err
+
+
+def test_codes_outside_a_model_without_scheme_are_one_line_for_every_core(
+    database, tmp_path, capsys
+):
+    # the decode warned once per core ("core X, depth D: facies ['BAS'] not seen ...")
+    model = tmp_path / "model.json"
+    fit = ["fit", str(database / "cores.csv"), "--no-suggest-ranks", "--restarts", "1"]
+    assert main([*fit, "--units", "m", "-o", str(model)]) == 0
+    table = pd.read_csv(database / "cores.csv")
+    table.loc[table.index[::25], "facies"] = "BAS"  # in every core
+    table.to_csv(tmp_path / "new.csv", index=False)
+    capsys.readouterr()
+    argv = ["decode", str(model), str(tmp_path / "new.csv"), "--units", "m"]
+    assert main([*argv, "-o", str(tmp_path / "out")]) == 0
+    err = capsys.readouterr().err
+    beds = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)
+    n = int((beds["facies"] == "BAS").sum())
+    assert beds.loc[beds["facies"] == "BAS", "core"].nunique() > 1
+    assert "not seen in training" not in err
+    (line,) = [x for x in err.splitlines() if "never seen" in x]
+    assert f"with their beds: BAS ({n}); {n} of {len(beds)} beds decoded with a smoothed" in line

@@ -63,6 +63,14 @@ def _bad(doc, tmp_path, name="bad.json"):
             lambda d: d["hyperparameters"].update(features=["facies", 3]),
             r"hyperparameters\.features: a list of feature names expected",
         ),
+        (
+            lambda d: d["training"].update(facies_beds={"CP": -3}),
+            r"training\.facies_beds: a count of beds per facies",
+        ),
+        (
+            lambda d: d["training"].update(bed_thickness_median=-1.0),
+            r"training\.bed_thickness_median: a positive number",
+        ),
     ],
 )
 def test_bad_files_are_rejected_naming_the_file(fitted, tmp_path, change, message):

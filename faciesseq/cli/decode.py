@@ -60,7 +60,12 @@ def register(subparsers) -> None:
         "of the decoded tract; --summary json prints every well as one JSON document "
         "instead (--format chooses the files' format, not the printed summary's). An "
         "interpreter's tract column in SOURCE is not used to decode; where present, the "
-        "agreement with it is reported. An existing OUT is replaced as a whole with --force.",
+        "agreement with it is reported. Warns, in one line each, of facies codes never seen "
+        "in training (with their beds, and how they are decoded) and of beds whose median "
+        "thickness differs from the training beds' by more than a factor of 4 (a rule of "
+        "thumb chosen, not tuned; a model fitted on beds records their median, older model "
+        "files do not and are compared on their facies only). An existing OUT is replaced "
+        "as a whole with --force.",
         epilog=EXAMPLES,
     )
     parser.add_argument("model", metavar="MODEL", help="model file written by `faciesseq fit`")
@@ -242,8 +247,11 @@ class _Written:
     where an output needs every core at once, the parts themselves."""
 
     def __init__(self, labels: str, keep: bool):
+        from faciesseq.novelty import DecodedBeds
+
         self.labels, self.keep = labels, keep
         self.heads, self.wells, self.agreements, self.parts = [], [], [], []
+        self.beds = DecodedBeds()  # set beside the training beds at the end
 
     def add(self, part) -> None:
         from faciesseq.cli._summary import WELL_LIMIT
@@ -252,6 +260,8 @@ class _Written:
         if wanted > 0 or not self.heads:  # a head of none would keep the part's text alive
             self.heads.append(part.head(wanted))
         self.wells.append(part.wells)
+        if len(part.wells):
+            self.beds.add(part.beds, str(part.wells["units"].iloc[0]))
         self.agreements.append(_agreement(part, self.labels))
         self.parts += [part] if self.keep else []
 
@@ -544,6 +554,10 @@ def _run(args: argparse.Namespace) -> int:
     others = _attributes_used(args, model, labels)
     stream = stream_source(args, scheme, others) if model.unit == "beds" else None
     with warnings_to_stderr("decode"):
+        from faciesseq.hmm.encoding import UnseenCategoryWarning
+
+        # facies never seen in training: one line for every core at the end (below)
+        warnings.filterwarnings("ignore", r"core .*: facies \[", UnseenCategoryWarning)
         written = None
         if stream is not None:
             streamed = _Streamed(args, stream)
@@ -558,6 +572,8 @@ def _run(args: argparse.Namespace) -> int:
             successions, sampled = _read(args, model, scheme)
             parts = model.decode_parts(successions)
             written = _write(args, model, scheme, parts, labels, sampled)
+        for finding in written.beds.findings(model):
+            warnings.warn(finding, stacklevel=1)
     if args.summary == "json":
         _print_json(args, scheme, written)
     else:

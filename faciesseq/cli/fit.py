@@ -384,6 +384,10 @@ def run(args: argparse.Namespace) -> int:
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
+    if args.unit == "beds":  # for decode to compare its beds with (faciesseq.novelty)
+        from faciesseq.novelty import training_beds
+
+        provenance |= training_beds(successions)
     save_model(selection.best, args.output, provenance)
     _report(args, selection, successions, scheme)
     return 0

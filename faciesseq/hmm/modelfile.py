@@ -19,6 +19,7 @@ and loading one runs no code. Layout (``version: 1``)::
                      "temperature": 1.0},   # posterior temperature (absent: 1)
       "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
                    best_restart, seed, calibration, cautions, units,
+                   facies_beds, bed_thickness_median,   # `fit` on beds (absent: older)
                    ...provenance given by the caller},
       "provenance": {"created": "2026-12-01T19:30:00+00:00", "command": [...]}
     }
@@ -441,6 +442,8 @@ _TRAINING_TYPES = {
     "nested_start": dict,
     "cautions": list,
     "units": str,
+    "facies_beds": dict,
+    "bed_thickness_median": (int, float),
 }  # "calibration" may be anything: the report says when it is not a record
 
 
@@ -460,6 +463,11 @@ def _training(doc: Mapping, source: str) -> Mapping:
             ok = math.isfinite(value) and (kind is not int or 0 <= value < 2**31)
         if not ok:
             raise ModelFileError(f"training.{key}: {value!r} is not valid here", file=source)
+    counts = training.get("facies_beds") or {}
+    if not all(isinstance(n, int) and not isinstance(n, bool) and n >= 0 for n in counts.values()):
+        raise ModelFileError("training.facies_beds: a count of beds per facies", file=source)
+    if not (training.get("bed_thickness_median") or 1) > 0:
+        raise ModelFileError("training.bed_thickness_median: a positive number", file=source)
     if training.get("units") not in (None, "m", "ft"):
         raise ModelFileError(f"training.units: {training['units']!r}: m or ft", file=source)
     for r in training.get("restarts") or []:

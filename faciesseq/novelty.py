@@ -1,0 +1,116 @@
+"""Cores to decode beside the cores a model was fitted on: facies codes the fit never
+saw, and beds far thinner or thicker than the training beds.
+
+A fit records its beds (:func:`training_beds`: the beds of each facies code and the
+median bed thickness) in the model file's ``training`` section; files made before
+record neither, and then only the model's facies list is compared. :class:`DecodedBeds`
+gathers the decoded beds a part at a time and says, in one line each, what lies
+outside the training data (:meth:`DecodedBeds.findings`).
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from faciesseq.core import SuccessionTable, in_units
+
+__all__ = ["THICKNESS_FACTOR", "DecodedBeds", "training_beds"]
+
+#: Median bed thickness of the decoded cores against the training beds': a ratio
+#: beyond this factor (either way) is said. A rule of thumb chosen, not tuned: beds
+#: four times thinner or thicker are described at another scale, or in other units.
+THICKNESS_FACTOR = 4.0
+
+
+def training_beds(successions: SuccessionTable) -> dict:
+    """What a fit on beds records of its beds: ``facies_beds`` (code -> number of beds)
+    and ``bed_thickness_median`` (in the successions' units)."""
+    beds = successions.beds
+    counts = beds["facies"].astype(str).value_counts(sort=False)
+    return {
+        "facies_beds": {str(code): int(n) for code, n in sorted(counts.items())},
+        "bed_thickness_median": float(np.median(beds["thickness"].to_numpy(float))),
+    }
+
+
+class DecodedBeds:
+    """The facies codes and thicknesses of decoded beds, gathered a part at a time."""
+
+    def __init__(self) -> None:
+        self.facies: Counter[str] = Counter()
+        self.thickness: list[np.ndarray] = []
+        self.units: str | None = None
+
+    def add(self, beds: pd.DataFrame, units: str) -> None:
+        """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``)."""
+        self.facies.update(beds["facies"].astype(str).value_counts().to_dict())
+        self.thickness.append(beds["thickness"].to_numpy(float))
+        self.units = self.units or units
+
+    def findings(self, model) -> list[str]:
+        """One line per finding: facies codes never seen in training, and a median bed
+        thickness more than :data:`THICKNESS_FACTOR` times the training beds'."""
+        training = getattr(model, "training_", None) or {}
+        unit = "beds" if model.unit == "beds" else "grid cells"
+        found = [_unseen(self.facies, training, model, unit)]
+        if model.unit == "beds":
+            found.append(self._thickness(training, getattr(model, "units_", None)))
+        return [f for f in found if f]
+
+    def _thickness(self, training: Mapping, fitted_units: str | None) -> str | None:
+        median = training.get("bed_thickness_median")
+        if not median or not self.thickness or self.units is None:
+            return None
+        units = self.units
+        trained = float(in_units(float(median), fitted_units or units, units))
+        decoded = float(np.median(np.concatenate(self.thickness)))
+        ratio = decoded / trained
+        if 1 / THICKNESS_FACTOR <= ratio <= THICKNESS_FACTOR:
+            return None
+        which = "thinner" if ratio < 1 else "thicker"
+        times = 1 / ratio if ratio < 1 else ratio
+        return (
+            f"the beds are {times:.1f} times {which} than the training beds (median "
+            f"{decoded:.3g} {units} against {trained:.3g} {units}; said beyond a factor of "
+            f"{THICKNESS_FACTOR:g}): the model's thickness and stacking features read them "
+            "at another scale; check the units, or fit a model on beds like these"
+        )
+
+
+def _unseen(facies: Counter, training: Mapping, model, unit: str) -> str | None:
+    """The line naming the codes never seen in training, with their beds, or None."""
+    recorded = training.get("facies_beds")
+    seen = {c for c, n in recorded.items() if n} if recorded else set(model.facies_)
+    unseen = sorted(c for c in facies if c not in seen)
+    if not unseen:
+        return None
+    listed = ", ".join(f"{c} ({facies[c]})" for c in unseen[:10])
+    listed += f" and {len(unseen) - 10} more" if len(unseen) > 10 else ""
+    total = sum(facies[c] for c in unseen)
+    return (
+        f"facies code(s) never seen in training, with their {unit}: {listed}; {total} of "
+        f"{sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
+    )
+
+
+def _treatment(model, unseen: list[str]) -> str:
+    """How the decode reads beds of codes the fit never saw."""
+    parts = []
+    if {"facies", "facies_trend"} & set(model.features_):
+        parts.append(
+            "a smoothed facies probability (additive smoothing, larger in the tracts "
+            "with fewer training beds)"
+        )
+    scheme = getattr(model, "scheme", None)
+    if scheme is not None:
+        ranked = [c for c in unseen if c in scheme]
+        if ranked:
+            parts.append(f"the scheme's rank of {', '.join(ranked[:10])}")
+        if len(ranked) < len(unseen):
+            parts.append("no rank for the others (missing to the rank features)")
+    parts.append("the tract read from the beds around them")
+    return "; ".join(parts)
