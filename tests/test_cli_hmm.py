@@ -218,3 +218,33 @@ def test_codes_outside_a_model_without_scheme_are_one_line_for_every_core(
     assert "not seen in training" not in err
     (line,) = [x for x in err.splitlines() if "never seen" in x]
     assert f"with their beds: BAS ({n}); {n} of {len(beds)} beds decoded with a smoothed" in line
+
+
+def test_a_long_grid_decode_says_how_long_before_it_starts(database, tmp_path, capsys, monkeypatch):
+    # 7 million cells ran for minutes without a word; the line comes before any cell
+    from faciesseq.cli import decode
+
+    model = tmp_path / "grid.json"
+    fit = ["fit", str(database / "cores.csv"), "--unit", "grid", "--step", "0.05"]
+    assert main([*fit, "--restarts", "1", "--units", "m", "-o", str(model)]) == 0
+    capsys.readouterr()
+    said = []
+
+    def decode_parts(self, successions):
+        said.append(capsys.readouterr().err)  # what was written before the first part
+        yield from original(self, successions)
+
+    from faciesseq.hmm.model import TractHMM
+
+    original = TractHMM.decode_parts
+    monkeypatch.setattr(TractHMM, "decode_parts", decode_parts)
+    monkeypatch.setattr(decode, "LONG_GRID_CELLS", 100)
+    argv = ["decode", str(model), str(database / "cores.csv"), "-o", str(tmp_path / "out")]
+    assert main(argv) == 0
+    cells = len(pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1))
+    (line,) = said[0].splitlines()
+    assert line.startswith(f"faciesseq decode: {cells:,} grid cells of 0.05 m to decode: about ")
+    assert "ms a cell" in line
+    monkeypatch.setattr(decode, "LONG_GRID_CELLS", 10**9)
+    assert main([*argv, "--force"]) == 0
+    assert "to decode: about" not in capsys.readouterr().err

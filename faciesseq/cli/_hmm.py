@@ -211,6 +211,14 @@ class Progress:
         sys.stderr.flush()
         self.shown = True
 
+    def count(self, done: int, what: str) -> None:
+        """``done`` of ``total`` ``what`` (e.g. grid cells decoded)."""
+        if not self.active:
+            return
+        sys.stderr.write(f"\r{self.label}: {done:,} of {self.total:,} {what}   ")
+        sys.stderr.flush()
+        self.shown = True
+
     def close(self) -> None:
         if self.shown:
             sys.stderr.write("\n")
