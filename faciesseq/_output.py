@@ -10,14 +10,20 @@ Every command that writes follows the same habits:
 - a folder is built beside the target and swapped in as a whole
   (:func:`new_folder`), so no file of a previous run survives in it;
 - what is written gets the user's ordinary permissions (``0o666`` or
-  ``0o777`` less the umask), not the private ones of :mod:`tempfile`.
+  ``0o777`` less the umask), not the private ones of :mod:`tempfile`;
+- a folder being built is named after its process (``.OUT.new.<pid>@<host>.*``):
+  a run killed with SIGKILL, which no handler sees, leaves it behind, and the next
+  run writing OUT deletes it once that process no longer runs.
 """
 
 from __future__ import annotations
 
+import glob
 import os
+import re
 import shutil
 import signal
+import socket
 import tempfile
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -222,6 +228,28 @@ def _swap(temp: Path, target: Path) -> None:
             raise
 
 
+def _running(pid: int) -> bool:
+    """Whether process ``pid`` runs on this host (another user's counts as running)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError):
+        return True  # another user's process; a number no process has is kept too
+    return True
+
+
+def _remove_stale(parent: Path, prefix: str) -> None:
+    """Delete the folders ``<prefix><pid>@<host>.*`` in ``parent`` made on this host by a
+    process that no longer runs (killed with SIGKILL while it built its output)."""
+    host = socket.gethostname()
+    name = re.compile(re.escape(prefix) + r"(\d+)@(.+)\.[A-Za-z0-9_]+")
+    for entry in parent.glob(glob.escape(prefix) + "*"):
+        found = name.fullmatch(entry.name)
+        if found and found[2] == host and entry.is_dir() and not _running(int(found[1])):
+            shutil.rmtree(entry, ignore_errors=True)
+
+
 @contextmanager
 def new_folder(path: str | os.PathLike) -> Iterator[Path]:
     """Build a folder beside ``path``, then swap it in as a whole.
@@ -230,7 +258,8 @@ def new_folder(path: str | os.PathLike) -> Iterator[Path]:
     ``path``. When the block ends without an exception the temporary folder
     replaces ``path`` (an existing folder is removed, so no file of a previous
     run remains) and gets the user's ordinary permissions; on an exception it
-    is deleted and ``path`` is left as it was.
+    is deleted and ``path`` is left as it was. Temporary folders of ``path`` left
+    by a process that no longer runs (killed with SIGKILL) are deleted first.
 
     Parameters
     ----------
@@ -243,7 +272,10 @@ def new_folder(path: str | os.PathLike) -> Iterator[Path]:
         The temporary folder to fill.
     """
     target = Path(path)
-    with temporary_folder(f".{target.name}.new.", _parent(target)) as temp:
+    prefix = f".{target.name}.new."
+    _remove_stale(_parent(target), prefix)
+    owner = f"{prefix}{os.getpid()}@{socket.gethostname()}."
+    with temporary_folder(owner, _parent(target)) as temp:
         yield temp
         _swap(temp, target)
     target.chmod(0o777 & ~current_umask())

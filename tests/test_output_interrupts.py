@@ -68,3 +68,41 @@ def test_ctrl_c_as_the_temporary_file_is_made_leaves_nothing(tmp_path, monkeypat
         write_file(tmp_path / "model.json", "new\n")
     assert [p.name for p in tmp_path.iterdir()] == ["model.json"]
     assert (tmp_path / "model.json").read_text() == "old\n"
+
+
+def test_a_folder_left_by_a_run_killed_with_sigkill_goes_with_the_next_run(tmp_path):
+    # SIGKILL reaches no handler: the folder being built stayed beside OUT for good
+    import socket
+    import subprocess
+
+    out = tmp_path / "decoded"
+    code = (
+        "import sys, time\n"
+        "from faciesseq._output import new_folder\n"
+        "with new_folder(sys.argv[1]) as temp:\n"
+        "    (temp / 'tracts.csv').write_text('half')\n"
+        "    print(temp.name, flush=True)\n"
+        "    time.sleep(60)\n"
+    )
+    run = subprocess.Popen(
+        [sys.executable, "-c", code, str(out)], stdout=subprocess.PIPE, text=True
+    )
+    left = run.stdout.readline().strip()
+    run.kill()
+    run.wait()
+    run.stdout.close()
+    assert left.startswith(f".decoded.new.{run.pid}@{socket.gethostname()}.")
+    host = socket.gethostname()
+    kept = [  # a live process's folder, another host's, another output's
+        tmp_path / f".decoded.new.{os.getpid()}@{host}.abcd1234",
+        tmp_path / f".decoded.new.{run.pid}@elsewhere.abcd1234",
+        tmp_path / f".other.new.{run.pid}@{host}.abcd1234",
+    ]
+    for folder in kept:
+        folder.mkdir()
+    with new_folder(out) as temp:
+        assert not (tmp_path / left).exists()
+        (temp / "tracts.csv").write_text("whole")
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
+        ["decoded", *(p.name for p in kept)]
+    )
