@@ -24,6 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from faciesseq.io.contacts import SHARP_WORDS
+
 __all__ = [
     "CONTEXT_FEATURES",
     "CYCLE_WINDOW_HALF_WIDTH",
@@ -57,10 +59,6 @@ CONTEXT_FEATURES = (
     "setting",
     "exposure",
 )
-
-#: Words of a contact type that mark it as sharp (abrupt or erosional; common
-#: practice of core description).
-SHARP_WORDS = ("sharp", "erosion", "erosive", "scour", "abrupt", "truncat")
 
 
 def sharp_contacts(contacts) -> np.ndarray:

@@ -415,10 +415,3 @@ def test_a_contact_type_no_known_word_reads_is_a_located_warning_and_read_as_mis
     assert contacts[:3] == ["sharp", None, "gradational"]
     assert contacts[4:6] == [None, "erosional scour"] and contacts[6] is None
     assert not cores.errors
-
-
-def test_the_sharp_contact_words_of_reading_are_those_the_cycles_read_as_sharp():
-    from faciesseq.cycles import SHARP_WORDS
-    from faciesseq.io import contacts
-
-    assert contacts.SHARP_WORDS == SHARP_WORDS

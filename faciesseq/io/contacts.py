@@ -14,7 +14,7 @@ from __future__ import annotations
 __all__ = ["GRADATIONAL_WORDS", "SHARP_WORDS", "known_contact", "known_words"]
 
 #: Words of a contact type that mark it as sharp (abrupt or erosional; common practice
-#: of core description). The same as ``faciesseq.cycles.SHARP_WORDS`` (tested).
+#: of core description); :func:`faciesseq.cycles.sharp_contacts` reads them.
 SHARP_WORDS = ("sharp", "erosion", "erosive", "scour", "abrupt", "truncat")
 #: Words of a contact type that mark it as gradational (common practice).
 GRADATIONAL_WORDS = ("gradation", "gradual", "transition")
