@@ -25,6 +25,7 @@ from faciesseq.errors import InputError, Problem
 
 __all__ = [
     "FT_TO_M",
+    "UNITS",
     "Core",
     "CoreSet",
     "CoreTable",
@@ -41,6 +42,10 @@ FT_TO_M = 0.3048
 REQUIRED = ("top", "base", "facies")
 #: Provenance columns kept for messages (1-based data row; source file).
 PROVENANCE = ("_file", "_row")
+#: How a core is cut into the rows of a succession: amalgamated beds (runs of one
+#: facies), the described intervals as they are, or cells of a depth grid.
+UNITS = ("beds", "intervals", "grid")
+
 #: Default tolerance (in depth units) below which two depths are "the same".
 DEPTH_TOL = 1e-6
 
@@ -332,7 +337,11 @@ def _mixed_beds(beds: np.ndarray, codes: np.ndarray, n_beds: int) -> np.ndarray:
 
 
 def _bed_columns(
-    table: pd.DataFrame, core_id: np.ndarray, attributes: list[str], tolerance: float
+    table: pd.DataFrame,
+    core_id: np.ndarray,
+    attributes: list[str],
+    tolerance: float,
+    amalgamate: bool = True,
 ) -> tuple[dict, np.ndarray]:
     """Bed columns of one or many cores' intervals at once (vectorised over all of them).
 
@@ -341,6 +350,7 @@ def _bed_columns(
     core each interval belongs to. Segments restart at each core and no bed,
     segment or gap spans two cores. Returns the columns of :meth:`Core.beds`
     (``segment`` counted within each core) and the core of each bed.
+    ``amalgamate=False``: every described interval is a bed of its own.
     """
     top_i = table["top"].to_numpy(dtype=float)
     base_i = table["base"].to_numpy(dtype=float)
@@ -354,6 +364,8 @@ def _bed_columns(
     facies_id, facies_names = pd.factorize(table["facies"], use_na_sentinel=False)
     new_bed = np.r_[True, (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])]
     new_bed |= new_core
+    if not amalgamate:
+        new_bed[:] = True
     bed_id = np.cumsum(new_bed) - 1
     first = np.flatnonzero(new_bed)
     last = np.r_[first[1:] - 1, n - 1]
@@ -455,19 +467,21 @@ class Core:
         idx = np.nonzero(top[1:] - base[:-1] > tolerance)[0]
         return [(float(base[i]), float(top[i + 1])) for i in idx]
 
-    def beds(self, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
+    def beds(self, tolerance: float = DEPTH_TOL, amalgamate: bool = True) -> pd.DataFrame:
         """Beds: adjacent intervals of one facies amalgamated, in depth order.
 
         Returns a table with ``segment``, ``top``, ``base``, ``thickness``,
         ``facies``, ``n_intervals`` and the aggregated attributes (see
-        :func:`_aggregate`). A gap always ends a bed.
+        :func:`_aggregate`). A gap always ends a bed. ``amalgamate=False``: the
+        described intervals as they are, in the same columns.
         """
         table = self.intervals
         attrs = self.attributes
         columns = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
         if len(table) == 0:
             return pd.DataFrame(columns=columns)
-        data, _ = _bed_columns(table, np.zeros(len(table), dtype=np.int64), attrs, tolerance)
+        core_id = np.zeros(len(table), dtype=np.int64)
+        data, _ = _bed_columns(table, core_id, attrs, tolerance, amalgamate)
         return pd.DataFrame(data, columns=columns)
 
     def grid(self, step: float, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
@@ -515,17 +529,18 @@ class Core:
         """The core's unbroken successions, each base to top.
 
         ``unit="beds"`` gives amalgamated beds (an embedded chain: no two
-        successive beds share a facies); ``unit="grid"`` gives depth-grid cells
-        of spacing ``step`` (self-transitions present).
+        successive beds share a facies); ``unit="intervals"`` the described
+        intervals as they are (two of one facies stay two beds); ``unit="grid"``
+        gives depth-grid cells of spacing ``step`` (self-transitions present).
         """
-        if unit == "beds":
-            table = self.beds(tolerance)
+        if unit in UNITS[:2]:
+            table = self.beds(tolerance, amalgamate=unit == "beds")
         elif unit == "grid":
             if step is None:
                 raise InputError("unit 'grid' needs a step", core=self.name)
             table = self.grid(step, tolerance)
         else:
-            raise InputError(f"unknown unit {unit!r}; expected 'beds' or 'grid'")
+            raise InputError(f"unknown unit {unit!r}; expected one of {', '.join(UNITS)}")
         out = []
         for s, part in table.groupby("segment", sort=True):
             beds = part.iloc[::-1].reset_index(drop=True)
@@ -697,34 +712,36 @@ class CoreSet:
         return sorted(codes, key=lambda c: (len(c), c))
 
     def _bed_table(
-        self, tolerance: float = DEPTH_TOL, attributes: bool = True
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True, amalgamate: bool = True
     ) -> tuple[pd.DataFrame, np.ndarray] | None:
         """Beds of every core in one table (cores in order, depth order within) and the
         core number of each bed; computed once per tolerance with one vectorised pass
         over all intervals. ``None`` where the cores' attribute columns differ (then
         each core is done on its own). ``attributes=False``: the beds without their
         aggregated attributes (unless already made with them), for what needs only
-        the beds' facies, depths and number."""
-        key = ("beds", float(tolerance))
+        the beds' facies, depths and number. ``amalgamate=False``: every described
+        interval a bed (:meth:`Core.beds`)."""
+        kind = "beds" if amalgamate else "intervals"
+        key = (kind, float(tolerance))
         derived = self._cache
         if key in derived:
             return derived[key]
         if not attributes:
-            key = ("beds without attributes", float(tolerance))
+            key = (f"{kind} without attributes", float(tolerance))
             if key in derived:
                 return derived[key]
         if isinstance(self.cores, CoreTable):
             attrs = [c for c in self.cores.table.columns if c not in REQUIRED + PROVENANCE]
             attrs = attrs if attributes else []
             names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
-            plain = derived.get(("beds without attributes", float(tolerance)))
+            plain = derived.get((f"{kind} without attributes", float(tolerance)))
             if plain is not None:  # the beds are made: only their attributes are to add
                 beds, bed_core = plain
                 bed_id = np.repeat(np.arange(len(beds)), beds["n_intervals"].to_numpy())
                 data = dict(beds.items()) | _aggregate(self.cores.table, bed_id, attrs)
             else:
                 data, bed_core = _bed_columns(
-                    self.cores.table, self.cores.core_ids(), attrs, tolerance
+                    self.cores.table, self.cores.core_ids(), attrs, tolerance, amalgamate
                 )
             derived[key] = (pd.DataFrame(data, columns=names), bed_core)
             return derived[key]
@@ -743,7 +760,7 @@ class CoreSet:
                 lengths = np.array([len(c.intervals) for c in used], dtype=np.int64)
                 table = pd.concat([c.intervals for c in used], ignore_index=True)
                 core_id = np.repeat(np.array(numbers, dtype=np.int64), lengths)
-                data, bed_core = _bed_columns(table, core_id, attrs, tolerance)
+                data, bed_core = _bed_columns(table, core_id, attrs, tolerance, amalgamate)
                 names = ["segment", "top", "base", "thickness", "facies", "n_intervals", *attrs]
                 result = (pd.DataFrame(data, columns=names), bed_core)
         derived[key] = result
@@ -799,7 +816,7 @@ class CoreSet:
         self, unit: str = "beds", step: float | None = None, tolerance: float = DEPTH_TOL
     ) -> list[Succession]:
         """Every core's successions (see :meth:`Core.successions`), cores in order."""
-        found = self.succession_beds(tolerance) if unit == "beds" else None
+        found = self._rows(unit, tolerance)
         if found is None:
             return [s for core in self for s in core.successions(unit, step, tolerance)]
         beds, starts, cores, segments = found
@@ -815,7 +832,7 @@ class CoreSet:
     ) -> SuccessionTable:
         """Every core's non-empty successions as one :class:`SuccessionTable`, cores in
         order (the rows of :meth:`succession_beds` where there is one table)."""
-        found = self.succession_beds(tolerance) if unit == "beds" else None
+        found = self._rows(unit, tolerance)
         if found is None:
             return SuccessionTable.from_successions(self.successions(unit, step, tolerance))
         beds, starts, cores, segments = found
@@ -828,8 +845,14 @@ class CoreSet:
             self.units,
         )
 
+    def _rows(self, unit: str, tolerance: float):
+        """:meth:`succession_beds` of a unit of beds or intervals; ``None`` on a grid."""
+        if unit not in UNITS[:2]:
+            return None
+        return self.succession_beds(tolerance, amalgamate=unit == "beds")
+
     def succession_beds(
-        self, tolerance: float = DEPTH_TOL, attributes: bool = True
+        self, tolerance: float = DEPTH_TOL, attributes: bool = True, amalgamate: bool = True
     ) -> tuple[pd.DataFrame, np.ndarray, list[str], list[int]] | None:
         """The beds of every succession in one table, without making the successions.
 
@@ -837,9 +860,10 @@ class CoreSet:
         order, then segments from the top of the core), each **base to top**; the
         first row of each succession and, last, the number of rows; and the core
         and segment of each succession. ``None`` where the cores' columns differ.
-        ``attributes=False``: the beds' aggregated attributes may be left out.
+        ``attributes=False``: the beds' aggregated attributes may be left out;
+        ``amalgamate=False``: every described interval a bed.
         """
-        found = self._bed_table(tolerance, attributes)
+        found = self._bed_table(tolerance, attributes, amalgamate)
         if found is None:
             return None
         table, bed_core = found

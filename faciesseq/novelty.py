@@ -55,9 +55,9 @@ class DecodedBeds:
         """One line per finding: facies codes never seen in training, and a median bed
         thickness more than :data:`THICKNESS_FACTOR` times the training beds'."""
         training = getattr(model, "training_", None) or {}
-        unit = "beds" if model.unit == "beds" else "grid cells"
+        unit = "grid cells" if model.unit_ == "grid" else "beds"
         found = [_unseen(self.facies, training, model, unit)]
-        if model.unit == "beds":
+        if model.unit_ != "grid":
             found.append(self._thickness(training, getattr(model, "units_", None)))
         return [f for f in found if f]
 

@@ -419,11 +419,12 @@ def cross_validate(
         :class:`~faciesseq.hmm.model.TractHMM` hyper-parameters (``scheme``,
         ``tract_model``, ``features``...).
     """
-    from faciesseq.hmm.model import TractHMM, _as_successions
+    from faciesseq.hmm.model import TractHMM, _as_successions, fit_unit
 
     if mode not in VALIDATION_MODES:
         raise ConfigError(f"mode must be one of {list(VALIDATION_MODES)}, got {mode!r}")
-    unit, step = params.get("unit", "beds"), params.get("step")
+    unit = fit_unit(params.get("unit", "auto"), mode != "unsupervised")
+    params, step = {**params, "unit": unit}, params.get("step")
     succ = [s for s in _as_successions(successions, unit, step) if len(s)]
     if succ and labels not in succ[0].beds.columns:
         raise ConfigError(

@@ -35,6 +35,29 @@ def test_beds_amalgamate_same_facies_and_split_at_gaps():
     assert b["grain_size"] == pytest.approx((2.0 * 1.5 + 4.0 * 1.5) / 3.0)
 
 
+def test_intervals_keep_every_described_bed_however_alike():
+    # two intervals of one facies with a contact between them are two beds to the
+    # geologist who described them (common practice); the unit "intervals" keeps
+    # them, "beds" amalgamates them
+    core = _core()
+    rows = core.successions("intervals")
+    assert [len(s) for s in rows] == [4, 2]
+    assert rows[0].facies.tolist() == ["C", "B", "B", "A"]
+    assert rows[0].beds["contact"].tolist() == ["sharp", "erosional", "gradational", "sharp"]
+    assert rows[0].beds["n_intervals"].tolist() == [1, 1, 1, 1]
+    # the whole core set's one-pass table is the same as core by core
+    table = core.intervals.assign(core="W-1")
+    two = pd.concat([table, table.assign(core="W-2")], ignore_index=True)
+    cs = CoreSet.from_frame(two, units="m")
+    fast = cs.succession_table("intervals")
+    slow = [s for name in ("W-1", "W-2") for s in cs.cores[name].successions("intervals")]
+    assert fast.lengths.tolist() == [len(s) for s in slow] == [4, 2, 4, 2]
+    assert fast.beds["facies"].tolist() == [f for s in slow for f in s.facies.tolist()]
+    assert [len(s) for s in cs.successions("beds")] == [3, 2, 3, 2]
+    with pytest.raises(InputError, match="beds, intervals, grid"):
+        core.successions("layers")
+
+
 def test_successions_run_base_to_top():
     succ = _core().successions()
     assert [len(s) for s in succ] == [3, 2]

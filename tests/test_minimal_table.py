@@ -67,6 +67,24 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     tracts = pd.read_csv(out / "tracts.csv", comment="#")
     assert len(tracts) > 0
     assert tracts["tract"].isin(["HST", "FSST", "LST", "TST"]).all()
+    # a fit with labels reads the described intervals, one without the beds (runs of
+    # one facies, which the demo's cores hold)
+    unit = json.loads(model.read_text())["hyperparameters"]["unit"]
+    rows = len(pd.read_csv(source))
+    if labelled is None:
+        assert unit == "beds" and len(tracts) < rows
+    else:
+        assert unit == "intervals" and len(tracts) == rows
+
+
+def test_the_unit_asked_for_is_the_unit_fitted(tmp_path, capsys):
+    source = _table(tmp_path, ["core", "top", "base", "facies", "tract"], 10)
+    model = tmp_path / "model.json"
+    args = ["fit", str(source), "--scheme", SCHEME, "--labels", "tract", "--restarts", "1"]
+    assert main([*args, "--unit", "beds", "-o", str(model)]) == 0, capsys.readouterr().err
+    assert json.loads(model.read_text())["hyperparameters"]["unit"] == "beds"
+    assert main([*args, "--unit", "intervals", "--step", "0.5", "-o", str(model), "--force"]) == 2
+    assert "--step is only used with --unit grid" in capsys.readouterr().err
 
 
 def test_labels_that_leave_tracts_out_are_cautioned(tmp_path, capsys):

@@ -60,7 +60,7 @@ def check_unit_step(args: argparse.Namespace) -> None:
     """``--unit grid`` needs a positive ``--step``; ``--step`` goes with ``--unit grid`` only."""
     if args.unit == "grid" and not (args.step and math.isfinite(args.step) and args.step > 0):
         raise ConfigError("--unit grid needs a positive --step (depth units)")
-    if args.unit == "beds" and args.step is not None:
+    if args.unit != "grid" and args.step is not None:
         raise ConfigError("--step is only used with --unit grid")
 
 

@@ -28,9 +28,11 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
         "--unit",
-        choices=("beds", "grid"),
-        default="beds",
-        help="observations: amalgamated beds (default) or a regular depth grid (needs --step)",
+        choices=("auto", "beds", "intervals", "grid"),
+        default="auto",
+        help="observations: the described intervals as they are, amalgamated beds (runs of "
+        "one facies), or a regular depth grid (needs --step); auto (the default): intervals "
+        "for a fit with labels, beds for one without",
     )
     group.add_argument("--step", type=float, metavar="X", help="grid step in depth units")
     group.add_argument(
@@ -150,6 +152,13 @@ def substate_counts(args: argparse.Namespace, n_tracts: int = 4) -> list[int | N
 #: from running for days).
 MAX_RESTARTS = 1_000
 MAX_ITER = 100_000
+
+
+def resolve_unit(args: argparse.Namespace, labelled: bool) -> None:
+    """``--unit auto``: the unit a fit of this kind reads (:func:`faciesseq.hmm.model.fit_unit`)."""
+    from faciesseq.hmm.model import fit_unit
+
+    args.unit = fit_unit(args.unit, labelled)
 
 
 def check_unit(args: argparse.Namespace) -> None:

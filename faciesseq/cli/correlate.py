@@ -90,13 +90,13 @@ def _decode(args):
     scheme = scheme_for_model(args.scheme, model)
     cores = read_source(args, scheme).require_valid()
     step = model.grid_step(cores.units)
-    check_grid_size(cores, model.unit, step, option="the model's grid step")
+    check_grid_size(cores, model.unit_, step, option="the model's grid step")
     wells, problems = check_wells(wells, cores.names)
     for p in (*wells.problems, *problems):
         sys.stderr.write(f"faciesseq correlate: {p}\n")
     cores = cores.subset(list(wells.frame["core"]))
     with warnings_to_stderr("correlate"):
-        interp = model.decode(cores.successions(model.unit, step))
+        interp = model.decode(cores.successions(model.unit_, step))
     return wells, cores, interp
 
 

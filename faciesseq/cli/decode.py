@@ -393,8 +393,8 @@ def _read(args: argparse.Namespace, model, scheme):
     cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
     _note_units(model, cores.units)
     step = model.grid_step(cores.units)
-    check_grid_size(cores, model.unit, step, option="the model's grid step")
-    successions = cores.succession_table(model.unit, step)
+    check_grid_size(cores, model.unit_, step, option="the model's grid step")
+    successions = cores.succession_table(model.unit_, step)
     if not len(successions):
         raise ConfigError("the source holds no beds to decode", file=args.source)
     sampled = "samples" in dict(cores.meta.get("layout", {})).values()
@@ -416,7 +416,7 @@ def _with_progress(parts, model, successions):
     from faciesseq.cli._hmm import Progress
 
     total = len(successions.beds)
-    if model.unit != "grid" or total < LONG_GRID_CELLS:
+    if model.unit_ != "grid" or total < LONG_GRID_CELLS:
         yield from parts
         return
     seconds = total * SECONDS_PER_CELL
@@ -465,7 +465,7 @@ class _Streamed:
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
-            table = cores.succession_table(model.unit, model.grid_step(cores.units))
+            table = cores.succession_table(model.unit_, model.grid_step(cores.units))
             beds += len(table.beds)
             yield table
         if not beds:
@@ -493,7 +493,7 @@ def _print_text(args, model, scheme, written: _Written) -> None:
     head, wells, agreement = written.summary()
     print(
         f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} "
-        f"{'beds' if model.unit == 'beds' else 'grid cells'}; "
+        f"{'grid cells' if model.unit_ == 'grid' else 'beds'}; "
         f"{int(wells['picks'].sum())} surface pick(s); "
         f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )
@@ -587,7 +587,7 @@ def _run(args: argparse.Namespace) -> int:
     model, scheme = _model(args)
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
-    stream = stream_source(args, scheme, others) if model.unit == "beds" else None
+    stream = stream_source(args, scheme, others) if model.unit_ == "beds" else None
     with warnings_to_stderr("decode"):
         from faciesseq.hmm.encoding import UnseenCategoryWarning
 

@@ -23,6 +23,7 @@ from faciesseq.cli._hmm import (
     feature_sets,
     load_tracts_option,
     resolve_suggest_ranks,
+    resolve_unit,
     scheme_for_fit,
     substate_counts,
     warnings_to_stderr,
@@ -290,7 +291,7 @@ def _durations(model, interp, scheme) -> dict[str, dict]:
     expected = model.states_.mean_beds(model.transmat_)
     table = interp.tracts_table()
     cycles = None
-    if scheme is not None and model.unit == "beds" and "facies" in table.columns:
+    if scheme is not None and model.unit_ == "beds" and "facies" in table.columns:
         cycles = bed_cycles(table, scheme)
     return tract_durations(table, model.states_.tracts, expected, cycles)
 
@@ -372,6 +373,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.hmm.modelfile import save_model
 
     labelled = args.labels is not None
+    resolve_unit(args, labelled)
     resolve_suggest_ranks(args)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
@@ -384,7 +386,7 @@ def run(args: argparse.Namespace) -> int:
     selection = _select(args, successions, scheme, tract_model, substates, parallel)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
-    if args.unit == "beds":  # for decode to compare its beds with (faciesseq.novelty)
+    if selection.best.unit_ != "grid":  # for decode to compare its beds with (faciesseq.novelty)
         from faciesseq.novelty import training_beds
 
         provenance |= training_beds(successions)

@@ -23,6 +23,7 @@ from faciesseq.cli._hmm import (
     feature_sets,
     load_tracts_option,
     resolve_suggest_ranks,
+    resolve_unit,
     scheme_for_fit,
     substate_counts,
     warnings_to_stderr,
@@ -168,6 +169,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.validation import cross_validate
 
     labelled = args.mode != "unsupervised"
+    resolve_unit(args, labelled)
     resolve_suggest_ranks(args)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)

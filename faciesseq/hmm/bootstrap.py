@@ -47,7 +47,7 @@ def calibrate_by_simulation(model, beds: EncodedBeds, tables, rng) -> dict:
         path = model.states_.state_tract[_chain_path(model.startprob_, model.transmat_, n, rng)]
         rows, kept = resample_cycles(path, cycles, rng)
         frame = pool.iloc[rows].reset_index(drop=True)
-        if model.unit == "beds":
+        if model.unit_ == "beds":
             keep = _new_facies(frame["facies"].to_numpy(object))
             frame, kept = frame[keep].reset_index(drop=True), kept[keep]
         frames.append(frame)

@@ -128,7 +128,7 @@ class Decoding:
         on before the next is begun."""
         self._check_fitted()
         step = self.grid_step(getattr(successions, "units", None))
-        table = _succession_table(successions, self.unit, step)
+        table = _succession_table(successions, self.unit_, step)
         yield from self._decoded(table, mass, labels, size)
 
     def decode_stream(
@@ -266,7 +266,7 @@ class Decoding:
             index=pd.Index(names, dtype=object, name="core"),
         )
         tables = {"beds": beds, "boundaries": bounds, "picks": picks}
-        meta = {"unit": self.unit, "step": self.step, "features": list(self.features_)}
+        meta = {"unit": self.unit_, "step": self.step, "features": list(self.features_)}
         meta |= probability_meta(self.temperature_, self.calibration_)
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 

@@ -100,7 +100,7 @@ def _defaults(columns: set, scheme: FaciesScheme | None, unit: str, labelled: bo
     "thickness" not on a depth grid)."""
     if labelled:
         defaults = DEFAULT_LABELLED_FEATURES
-    elif scheme is not None and unit == "beds":
+    elif scheme is not None and unit != "grid":
         defaults = DEFAULT_UNLABELLED_FEATURES
     else:
         defaults = DEFAULT_FEATURES

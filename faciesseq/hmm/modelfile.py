@@ -47,7 +47,7 @@ import pandas as pd
 
 from faciesseq._output import write_file
 from faciesseq._version import __version__
-from faciesseq.core import PROVENANCE, CoreTable
+from faciesseq.core import PROVENANCE, UNITS, CoreTable
 from faciesseq.errors import ConfigError, ModelFileError
 from faciesseq.hmm.calibration import TEMPERATURE_BOUNDS
 from faciesseq.hmm.cautions import fit_cautions
@@ -176,7 +176,7 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
                 "n_restarts": model.n_restarts,
                 "tol": model.tol,
                 "max_iter": model.max_iter,
-                "unit": model.unit,
+                "unit": model.unit_,
                 "step": model.step,
                 "calibration_folds": model.calibration_folds,
                 "weigh_evidence": bool(model.weigh_evidence),
@@ -356,8 +356,9 @@ def _model_of(doc: Mapping, source: str) -> tuple[TractHMM, StateSpace]:
         )
     except (KeyError, TypeError, ValueError, ConfigError) as exc:
         raise ModelFileError(f"invalid hyper-parameters or states ({exc})", file=source) from None
-    if model.unit not in ("beds", "grid"):
-        raise ModelFileError(f"unit {model.unit!r} is not 'beds' or 'grid'", file=source)
+    if model.unit not in UNITS:
+        raise ModelFileError(f"unit {model.unit!r} is not one of {', '.join(UNITS)}", file=source)
+    model.unit_ = model.unit
     if states_doc.get("labels") != states.labels():
         raise ModelFileError(
             f"states {states_doc.get('labels')} do not match the tract model ({states.labels()})",
