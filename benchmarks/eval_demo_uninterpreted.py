@@ -2,7 +2,7 @@
 
 Run from the repository root::
 
-    python benchmarks/eval_demo_uninterpreted.py
+    python benchmarks/eval_demo_uninterpreted.py [--per-bed-evidence] [--unit beds|intervals]
 
 The invented Quillerby Basin (``demo_cores/cores.csv``, made by the forward model)
 has 8 interpreted and 9 uninterpreted cores; every core keeps its ``true_tract``.
@@ -40,6 +40,9 @@ from faciesseq.scheme import load_scheme  # noqa: E402
 #: ``--per-bed-evidence``: fit with ``weigh_evidence=False`` (the default before
 #: 2026-12-03); the default weighs the evidence.
 WEIGH = "--per-bed-evidence" not in sys.argv[1:]
+#: ``--unit beds`` / ``--unit intervals``: what every fit reads (default ``auto``: the
+#: described intervals with labels, amalgamated beds without).
+UNIT = sys.argv[sys.argv.index("--unit") + 1] if "--unit" in sys.argv else "auto"
 
 
 #: The fits compared: a name and the label column (None: without labels). The last
@@ -67,7 +70,7 @@ def main() -> int:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         for name, labels in FITS:
-            model = TractHMM(scheme=scheme, random_state=0, weigh_evidence=WEIGH).fit(
+            model = TractHMM(scheme=scheme, random_state=0, weigh_evidence=WEIGH, unit=UNIT).fit(
                 cores, labels=labels
             )
             rows[name] = score(model.decode(test), intervals, truth)

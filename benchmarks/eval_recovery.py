@@ -20,7 +20,10 @@ Run from the repository root::
 
 Scores on held-out cores: bed accuracy, thickness-weighted accuracy, per-tract
 F1, and the fraction of cores whose every true maximum flooding surface has a
-picked MFS at most one contact away.
+picked MFS at most one contact away. Every fit here reads amalgamated beds
+(``unit="beds"``), so that "one bed" means what it meant before 2026-12-04; labelled
+fits by default read the described intervals, measured by ``eval_unsupervised.py``
+(``benchmarks/tract_model.md``, "Described intervals or amalgamated beds").
 """
 
 from __future__ import annotations
@@ -204,7 +207,7 @@ def simulated_section(name: str) -> str:
             t0 = time.perf_counter()
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                model = TractHMM(scheme=scheme, features=features, random_state=0).fit(
+                model = TractHMM(scheme=scheme, features=features, random_state=0, unit="beds").fit(
                     tr, labels=labels
                 )
             elapsed = time.perf_counter() - t0
@@ -357,7 +360,7 @@ def demo_sense_section() -> str:
     for method, labels in (("supervised", "true_tract"), ("unsupervised", None)):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            model = TractHMM(scheme=scheme, random_state=0).fit(succ, labels=labels)
+            model = TractHMM(scheme=scheme, random_state=0, unit="beds").fit(succ, labels=labels)
         interp = model.decode(succ)
         beds = pd.concat([c.beds for c in interp], ignore_index=True)
         acc = float(np.mean(beds["true_tract"] == beds["tract"]))

@@ -69,6 +69,9 @@ from faciesseq.scores import (  # noqa: E402
 #: ``--model weighted``: ``weigh_evidence=True`` (the default since 2026-12-03);
 #: ``--model per-bed-evidence``: ``weigh_evidence=False`` (the default before).
 MODEL = "default"
+#: ``--unit``: what every fit reads (``auto``, the default: the described intervals
+#: with labels, amalgamated beds without; ``beds``: the default before 2026-12-04).
+UNIT = "auto"
 
 
 def make_model(scheme, mode: str, seed: int):
@@ -89,6 +92,7 @@ def make_model(scheme, mode: str, seed: int):
         random_state=seed,
         weigh_evidence=MODEL != "per-bed-evidence",
         nested_start=MODEL != "priors-start",
+        unit=UNIT,
     )
 
 
@@ -472,9 +476,15 @@ def main(argv: list[str] | None = None) -> int:
         help="other seeds than --tune's or the report's, e.g. 31,32,33/34,35",
     )
     parser.add_argument("--modes", default=",".join(MODES), help="comma-separated label modes")
+    parser.add_argument(
+        "--unit",
+        choices=("auto", "beds", "intervals"),
+        default="auto",
+        help="what every fit reads (beds: every fit on amalgamated beds, before 2026-12-04)",
+    )
     args = parser.parse_args(argv)
-    global MODEL
-    MODEL = args.model
+    global MODEL, UNIT
+    MODEL, UNIT = args.model, args.unit
     kind = "tune" if args.tune else "report"
     fit_seeds, decode_seeds = (QUICK if args.quick else SEEDS)[kind]
     if args.seeds:

@@ -185,7 +185,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         share a facies, so the trend table has a structural zero diagonal),
         ``"intervals"`` (the described intervals as they are), ``"grid"`` with
         ``step`` in depth units, or ``"auto"`` (:func:`fit_unit`: intervals with
-        labels, beds without). The unit fitted is ``unit_``.
+        labels, beds without). The unit fitted is ``unit_``; successions given
+        directly are taken to be of that unit (pass ``unit="beds"`` with
+        amalgamated beds and labels).
     batch_size
         Beds per E-step batch (memory is bounded by the batch, not the database).
     chunk_beds
@@ -578,8 +580,8 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self
         """
         self._check_hyper()
-        self.unit_ = fit_unit(self.unit, labels is not None)
-        succ = _training_successions(successions, self.unit_, self.step, labels)
+        unit = fit_unit(self.unit, labels is not None)
+        succ = _training_successions(successions, unit, self.step, labels)
         if not len(succ):
             raise InputError("no beds to fit the tract model on")
         self.units_ = succ.units if isinstance(succ, SuccessionTable) else succ[0].units
