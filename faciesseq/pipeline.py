@@ -175,7 +175,9 @@ def run_appendix(
         "tract_model": tract_model,
         "scheme": scheme,
         "n_restarts": n_restarts,
-        "unit": unit,
+        # the Markov statistics read runs of one facies (an embedded chain); the tract
+        # model reads what `faciesseq fit` reads by default (faciesseq.hmm.model.fit_unit)
+        "unit": "auto" if unit == "beds" else unit,
         "step": step,
         **parallel,
     }

@@ -161,6 +161,11 @@ def test_demo_end_to_end(tmp_path, capsys):
     assert data["results"]["markov"] == jsonable(report.to_dict())
     model = load_model(out / "model.json")
     assert data["results"]["model"]["parameters"]["transmat"] == model.transmat_.tolist()
+    # the demo's tract model is fitted as `faciesseq fit --labels` fits it, on the
+    # described intervals, while the transition statistics read amalgamated beds
+    assert model.unit_ == "intervals"
+    assert "read the described intervals as they are" in html
+    assert "amalgamated into beds" in html
     assert data["results"]["data"]["summary"]["cores"] == 17
     if CHROMIUM:
         dom, log = open_page(out / "appendix.html", tmp_path / "demo.png", size="1200,3000")

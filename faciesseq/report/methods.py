@@ -201,6 +201,20 @@ BOOTSTRAP_TEXT = (
 )
 
 
+#: What the tract model read, by the unit it was fitted on.
+UNIT_TEXT = {
+    "intervals": (
+        "The tract model read the described intervals as they are: two adjacent intervals "
+        "of one facies are two beds, since a tract may change at the bedding surface "
+        "between them."
+    ),
+    "beds": (
+        "The tract model read beds: adjacent intervals of one facies amalgamated, as in "
+        "the transition statistics."
+    ),
+}
+
+
 def methods_section(unit: str = "beds", model: Any = None) -> Section:
     """The methods section: what was computed, with equations and references.
 
@@ -217,6 +231,8 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
     s.sub("Transition statistics").add(*_transition_blocks())
     hmm = s.sub("Systems-tract hidden Markov model")
     hmm.add(*_hmm_blocks())
+    if getattr(model, "unit_", None) in UNIT_TEXT:
+        hmm.add(Paragraph(UNIT_TEXT[model.unit_]))
     if context:
         hmm.add(Paragraph(CONTEXT_TEXT))
     if context and "exposure" in getattr(model, "features_", ()):
