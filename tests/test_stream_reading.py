@@ -141,25 +141,50 @@ def database(tmp_path_factory):
     model = folder / "model.json"
     argv = ["fit", str(folder / "cores.csv"), "--scheme", str(folder / "scheme.yaml")]
     assert main([*argv, "-o", str(model), "--restarts", "1"]) == 0
+    # a fit with labels reads the described intervals, and its decode streams them too
+    labelled = folder / "model-labelled.json"
+    assert main([*argv, "-o", str(labelled), "--restarts", "1", "--labels", "tract"]) == 0
+    assert json.loads(labelled.read_text())["hyperparameters"]["unit"] == "intervals"
     return folder
 
 
-def _decode_argv(database, source, out):
-    model, scheme = database / "model.json", database / "scheme.yaml"
+def _counted(calls: list):
+    """The decode command's ``_Streamed.tables``, noting each call in ``calls``."""
+    from faciesseq.cli.decode import _Streamed
+
+    def tables(self, model):
+        calls.append(model.unit_)
+        return _Streamed.tables(self, model)
+
+    return tables
+
+
+def _decode_argv(database, source, out, model="model.json"):
+    model, scheme = database / model, database / "scheme.yaml"
     return ["decode", str(model), str(source), "--scheme", str(scheme), "-o", str(out)]
 
 
-@pytest.mark.parametrize("fmt", ["csv", "parquet"])
+@pytest.mark.parametrize(
+    ("fmt", "model"),
+    [("csv", "model.json"), ("parquet", "model.json"), ("csv", "model-labelled.json")],
+)
 def test_decoded_batch_by_batch_the_files_are_those_of_the_whole_file(
-    database, tmp_path, monkeypatch, fmt
+    database, tmp_path, monkeypatch, fmt, model
 ):
+    import faciesseq.cli.decode as decode_cli
+
+    streamed, original = [], decode_cli._Streamed
+    monkeypatch.setattr(
+        decode_cli, "_Streamed", type("Counted", (original,), {"tables": _counted(streamed)})
+    )
     monkeypatch.setattr(decoding, "DECODE_BATCH", 45)  # batches and parts across cores
     monkeypatch.setattr(decoding, "DECODE_PART", 100)
     monkeypatch.setattr(plaincsv, "BLOCK_BYTES", 2_000)
     for name, rows in (("whole", 10**9), ("batches", 30)):
         monkeypatch.setattr(stream_module, "BATCH_ROWS", rows)
-        argv = _decode_argv(database, database / "cores.csv", tmp_path / name)
+        argv = _decode_argv(database, database / "cores.csv", tmp_path / name, model)
         assert main([*argv, "--format", fmt]) == 0
+    assert len(streamed) == 2  # both decodes streamed the source, a batch at a time
     names = sorted(p.name for p in (tmp_path / "whole").iterdir())
     assert names == sorted(p.name for p in (tmp_path / "batches").iterdir())
     for name in names:

@@ -448,7 +448,7 @@ def _note_units(model, units: str) -> None:
 
 
 class _Streamed:
-    """The successions of SOURCE a batch of whole cores at a time (beds only: a grid's
+    """The successions of SOURCE a batch of whole cores at a time (beds or intervals: a grid's
     size is checked on every core first); the irregular cores are named at the end."""
 
     def __init__(self, args: argparse.Namespace, stream):
@@ -587,7 +587,7 @@ def _run(args: argparse.Namespace) -> int:
     model, scheme = _model(args)
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
-    stream = stream_source(args, scheme, others) if model.unit_ == "beds" else None
+    stream = stream_source(args, scheme, others) if model.unit_ != "grid" else None
     with warnings_to_stderr("decode"):
         from faciesseq.hmm.encoding import UnseenCategoryWarning
 
