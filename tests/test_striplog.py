@@ -7,6 +7,7 @@ from matplotlib.legend import Legend
 from PIL import Image
 
 from faciesseq.errors import InputError
+from faciesseq.report.document import format_probability
 from faciesseq.report.striplog import bed_widths, strip_log
 from faciesseq.report.style import TRACT_COLOURS
 from faciesseq.scheme import default_tract_model, load_scheme
@@ -108,7 +109,11 @@ def test_picks_are_labelled_with_their_probability(model, scheme):
     fig = strip_log(core, scheme, model)
     texts = [t.get_text() for t in fig.axes[3].texts]
     for pick in core.picks.itertuples():
-        assert f"MFS {pick.probability:.2f}" in texts
+        assert f"MFS {format_probability(pick.probability)}" in texts
+    # a pick whose cluster holds a whole surface or more is not labelled as certain
+    core.picks.loc[core.picks.index[0], "probability"] = 1.0
+    texts = [t.get_text() for t in strip_log(core, scheme, model).axes[3].texts]
+    assert "MFS > 0.99" in texts and not any(t.endswith("1.00") for t in texts)
 
 
 def test_names_with_markup_are_drawn_as_text(tmp_path, model, scheme):

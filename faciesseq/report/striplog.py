@@ -30,6 +30,7 @@ from matplotlib.patches import Patch
 
 from faciesseq.errors import InputError
 from faciesseq.interpretation import CoreInterpretation
+from faciesseq.report.document import format_probability
 from faciesseq.report.style import (
     PAGE_WIDTH,
     figure_style,
@@ -302,7 +303,7 @@ def _surface_track(ax, interp, picks, surfaces, step, units) -> list[tuple[float
         ax.text(
             prob + 0.05 if right else prob - 0.05,
             at,
-            f"{pick.surface} {prob:.2f}",
+            f"{pick.surface} {format_probability(prob)}",
             va="bottom",
             ha="left" if right else "right",
             fontsize=6,
