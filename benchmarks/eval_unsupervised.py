@@ -161,14 +161,16 @@ def _cores(run, seeds) -> tuple[pd.DataFrame, pd.DataFrame]:
 
 def _semi_cores(train: pd.DataFrame, first_seed: int) -> list[str]:
     """The scenario's labelled wells of the first fit seed (its interpreter's ``tract``
-    column is filled there), topped up with its first cores, three in all."""
+    column is filled there), topped up with its first cores, then with the cores of the
+    other fit seeds in order, ``N_SEMI`` (3; ``--labelled-cores``) in all."""
     first = train[train["core"].str.endswith(f"/s{first_seed}")]
     names = list(pd.unique(first["core"]))
     labelled = []
     if "tract" in first:
         has = first.groupby("core", sort=False)["tract"].apply(lambda s: s.notna().any())
         labelled = [c for c in names if has.get(c, False)]
-    return (labelled + [c for c in names if c not in labelled])[:N_SEMI]
+    others = [c for c in pd.unique(train["core"]) if c not in names]
+    return (labelled + [c for c in names if c not in labelled] + others)[:N_SEMI]
 
 
 def _training_set(train: pd.DataFrame, mode: str, semi: list[str]) -> tuple[CoreSet, str | None]:
@@ -451,6 +453,7 @@ def markdown(result: dict) -> str:
 
 
 def main(argv: list[str] | None = None) -> int:
+    global MODEL, UNIT, N_SEMI
     parser = argparse.ArgumentParser(description=__doc__.split("\n", 1)[0])
     parser.add_argument(
         "--tune", action="store_true", help="tuning seeds (fit 11-13, decode 14-15)"
@@ -477,14 +480,20 @@ def main(argv: list[str] | None = None) -> int:
     )
     parser.add_argument("--modes", default=",".join(MODES), help="comma-separated label modes")
     parser.add_argument(
+        "--labelled-cores",
+        type=int,
+        default=N_SEMI,
+        metavar="N",
+        help="cores with labels in the semi-supervised fits (default 3)",
+    )
+    parser.add_argument(
         "--unit",
         choices=("auto", "beds", "intervals"),
         default="auto",
         help="what every fit reads (beds: every fit on amalgamated beds, before 2026-12-04)",
     )
     args = parser.parse_args(argv)
-    global MODEL, UNIT
-    MODEL, UNIT = args.model, args.unit
+    MODEL, UNIT, N_SEMI = args.model, args.unit, args.labelled_cores
     kind = "tune" if args.tune else "report"
     fit_seeds, decode_seeds = (QUICK if args.quick else SEEDS)[kind]
     if args.seeds:
