@@ -77,7 +77,7 @@ def fit_unit(unit: str, labelled: bool) -> str:
     them, and amalgamating them hides the contacts and bed boundaries where tracts
     change. With labels, reading the intervals raised the balanced accuracy of the
     forward model's report cores from 0.654 / 0.597 / 0.457 to 0.937 / 0.796 / 0.809
-    (supervised; semi-supervised 0.568 / 0.447 / 0.368 to 0.670 / 0.532 / 0.456);
+    (supervised; semi-supervised 0.568 / 0.447 / 0.368 to 0.679 / 0.531 / 0.456);
     without labels the stacking context, read on runs of one facies, named the
     tracts of the ramp wrongly on intervals (0.570 to 0.278;
     benchmarks/tract_model.md, "Described intervals or amalgamated beds").
