@@ -201,30 +201,25 @@ class Progress:
         self.shown = False
 
     def fit(self, restart: int, iteration: int, objective: float) -> None:
-        if not self.active:
-            return
         of = f"/{self.total}" if self.total else ""
-        sys.stderr.write(
-            f"\r{self.label}: restart {restart + 1}{of}, iteration {iteration}, "
-            f"log-posterior {objective:.3f}   "
+        self._show(
+            f"restart {restart + 1}{of}, iteration {iteration}, log-posterior {objective:.3f}   "
         )
-        sys.stderr.flush()
-        self.shown = True
 
     def fold(self, done: int, total: int) -> None:
-        if not self.active:
-            return
         width = 30
         filled = int(width * done / max(total, 1))
-        sys.stderr.write(f"\r{self.label}: [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
-        sys.stderr.flush()
-        self.shown = True
+        self._show(f"[{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
 
     def count(self, done: int, what: str) -> None:
         """``done`` of ``total`` ``what`` (e.g. grid cells decoded)."""
+        self._show(f"{done:,} of {self.total:,} {what}   ")
+
+    def _show(self, text: str) -> None:
+        """Write ``text`` over the line (on a terminal only)."""
         if not self.active:
             return
-        sys.stderr.write(f"\r{self.label}: {done:,} of {self.total:,} {what}   ")
+        sys.stderr.write(f"\r{self.label}: {text}")
         sys.stderr.flush()
         self.shown = True
 
