@@ -398,10 +398,17 @@ def cycle_inputs(
     """Per-facies ranks, cycle marks and settings spread to beds (``fac``: facies
     index of every bed, negative unknown): ``(ranks, cycle_base, nonmarine)`` per bed
     for :func:`faciesseq.cycles.find_cycles` and :func:`~faciesseq.cycles.bed_context`
-    (``NaN`` / ``False`` where a bed's facies is unknown; ``None`` stays ``None``)."""
+    (``NaN`` / ``False`` where a bed's facies is unknown; ``None`` stays ``None``).
+
+    A facies marked ``cycle_base`` marks the lowest bed of a run of it only: where a
+    description splits one lag or exposure surface into several intervals (the
+    described intervals that fits with labels read), it starts one cycle, as it does
+    on amalgamated beds. The first bed of a succession starts a cycle anyway."""
     known = fac >= 0
     bed_ranks = _per_bed(ranks, fac, known, np.nan)
     starts = None if cycle_base is None else _per_bed(cycle_base, fac, known, False)
+    if starts is not None and len(fac) > 1:
+        starts[1:] &= fac[1:] != fac[:-1]
     setting = None if nonmarine is None else _per_bed(nonmarine, fac, known, np.nan)
     return bed_ranks, starts, setting
 

@@ -432,5 +432,11 @@ def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     assert used and all(d["beds_per_visit"] >= 1 and d["median_thickness"] > 0 for d in used)
     # in cycles too, the scheme giving ranks: every run touches at least one
     assert all(d["median_cycles"] >= 1 for d in used)
+    # a fit with labels reads the described intervals; its runs are counted in cycles too
+    _fit(database, tmp_path / "l.json", "--labels", "tract", "--format", "json")
+    doc = json.loads(capsys.readouterr().out)
+    assert load_model(tmp_path / "l.json").unit_ == "intervals"
+    used = [d for d in doc["tract_durations"].values() if d["runs"]]
+    assert used and all(d["median_cycles"] >= 1 for d in used)
     _fit(database, tmp_path / "t.json")
     assert "tract lengths, beds per visit of the fitted chain" in capsys.readouterr().out

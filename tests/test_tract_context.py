@@ -349,6 +349,24 @@ def test_a_scheme_can_mark_facies_that_start_a_cycle():
         FaciesScheme.from_dict({"facies": [{**entries[0], "cycle_base": "yes"}]})
 
 
+def test_a_marked_facies_described_as_several_intervals_starts_one_cycle():
+    # a lag described as two intervals, then shale, then a lag and shale (base to top):
+    # the intervals cut the same cycles as the amalgamated beds (lag | shale | lag shale)
+    from faciesseq.cycles import cycle_inputs
+
+    marks, ranks = np.array([True, False]), np.array([2.0, 2.0])
+    intervals = np.array([0, 0, 1, 1, 0, 1])
+    r, starts, _ = cycle_inputs(intervals, ranks, marks)
+    cycles = find_cycles(r, np.array([6]), cycle_base=starts)
+    np.testing.assert_array_equal(cycles.bed_cycle, [0, 0, 0, 0, 1, 1])
+    beds = np.array([0, 1, 0, 1])
+    r, starts, _ = cycle_inputs(beds, ranks, marks)
+    assert find_cycles(r, np.array([4]), cycle_base=starts).n_cycles == cycles.n_cycles
+    # a new succession starts a cycle whatever the facies below it in the array
+    r, starts, _ = cycle_inputs(intervals, ranks, marks)
+    assert find_cycles(r, np.array([1, 5]), cycle_base=starts).n_cycles == 3
+
+
 def test_a_scheme_says_which_facies_are_nonmarine():
     # explicit `setting`, or a group the trade reads as above the shoreline
     # (coastal plain, fluvial, ...: common practice of facies description)

@@ -285,13 +285,13 @@ def _kept_start(nested: dict) -> str:
 def _durations(model, interp, scheme) -> dict[str, dict]:
     """:func:`faciesseq.interpretation.tract_durations` of the decoded training cores
     beside the fitted chain's expected beds per visit; in cycles too where the scheme
-    gives ranks (a beds fit)."""
+    gives ranks."""
     from faciesseq.interpretation import bed_cycles, tract_durations
 
     expected = model.states_.mean_beds(model.transmat_)
     table = interp.tracts_table()
     cycles = None
-    if scheme is not None and model.unit_ == "beds" and "facies" in table.columns:
+    if scheme is not None and "facies" in table.columns:
         cycles = bed_cycles(table, scheme)
     return tract_durations(table, model.states_.tracts, expected, cycles)
 
