@@ -1,5 +1,5 @@
-"""Cores to decode beside the cores a model was fitted on: facies codes the fit never
-saw, and beds far thinner or thicker than the training beds.
+"""Cores to decode beside the cores a model was fitted on: facies codes and contact
+types the fit never saw, and beds far thinner or thicker than the training beds.
 
 A fit records its beds (:func:`training_beds`: the beds of each facies code and the
 median bed thickness) in the model file's ``training`` section; files made before
@@ -38,28 +38,49 @@ def training_beds(successions: SuccessionTable) -> dict:
 
 
 class DecodedBeds:
-    """The facies codes and thicknesses of decoded beds, gathered a part at a time."""
+    """The facies codes, contact types and thicknesses of decoded beds, gathered a part
+    at a time."""
 
     def __init__(self) -> None:
         self.facies: Counter[str] = Counter()
+        self.contacts: Counter[str] = Counter()
         self.thickness: list[np.ndarray] = []
         self.units: str | None = None
 
     def add(self, beds: pd.DataFrame, units: str) -> None:
-        """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``)."""
+        """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``, and
+        ``contact`` where they have it)."""
         self.facies.update(beds["facies"].astype(str).value_counts().to_dict())
+        if "contact" in beds.columns:
+            self.contacts.update(beds["contact"].dropna().astype(str).value_counts().to_dict())
         self.thickness.append(beds["thickness"].to_numpy(float))
         self.units = self.units or units
 
     def findings(self, model) -> list[str]:
-        """One line per finding: facies codes never seen in training, and a median bed
-        thickness more than :data:`THICKNESS_FACTOR` times the training beds'."""
+        """One line per finding: facies codes and contact types never seen in training,
+        and a median bed thickness more than :data:`THICKNESS_FACTOR` times the training
+        beds'."""
         training = getattr(model, "training_", None) or {}
         unit = "grid cells" if model.unit_ == "grid" else "beds"
-        found = [_unseen(self.facies, training, model, unit)]
+        found = [_unseen(self.facies, training, model, unit), self._contacts(model, unit)]
         if model.unit_ != "grid":
             found.append(self._thickness(training, getattr(model, "units_", None)))
         return [f for f in found if f]
+
+    def _contacts(self, model, unit: str) -> str | None:
+        """The line naming the contact types the fit never saw, where it reads contacts."""
+        if "contact" not in model.features_:
+            return None
+        unseen = sorted(c for c in self.contacts if c not in set(model.contacts_))
+        if not unseen:
+            return None
+        listed = ", ".join(f"{c} ({self.contacts[c]})" for c in unseen)
+        total = sum(self.contacts[c] for c in unseen)
+        return (
+            f"contact type(s) never seen in training, with their {unit}: {listed}; {total} "
+            f"of {sum(self.contacts.values())} {unit} with a contact decoded with a smoothed "
+            "contact probability (the stacking window reads them as missing)"
+        )
 
     def _thickness(self, training: Mapping, fitted_units: str | None) -> str | None:
         median = training.get("bed_thickness_median")

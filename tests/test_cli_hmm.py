@@ -190,6 +190,22 @@ def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
         err = capsys.readouterr().err
         assert ("times thicker than the training beds" in err) == said, err
         assert "never seen" not in err
+    # a fit on cores without erosional contacts, decoded on cores with them: one line
+    # for the whole decode, not one per core
+    train = tmp_path / "no-erosional.csv"
+    table.assign(contact=table["contact"].replace("erosional", "sharp")).to_csv(train, index=False)
+    other = tmp_path / "contacts.json"
+    assert main(["fit", str(train), *scheme, "--restarts", "1", "-o", str(other)]) == 0
+    capsys.readouterr()
+    assert main(["decode", str(other), str(database / "cores.csv"), "-o", str(tmp_path / "c")]) == 0
+    erosional = int((table["contact"] == "erosional").sum())
+    lines = [x for x in capsys.readouterr().err.splitlines() if "contact type" in x]
+    assert lines == [
+        "faciesseq decode: warning: contact type(s) never seen in training, with their beds: "
+        f"erosional ({erosional}); {erosional} of {table['contact'].notna().sum()} beds with a "
+        "contact decoded with a smoothed contact probability (the stacking window reads them "
+        "as missing)"
+    ]
     # a model file made before the record: loads, and says nothing of thickness
     doc = json.loads(model.read_text())
     del doc["training"]["bed_thickness_median"], doc["training"]["facies_beds"]

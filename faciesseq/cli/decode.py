@@ -591,8 +591,11 @@ def _run(args: argparse.Namespace) -> int:
     with warnings_to_stderr("decode"):
         from faciesseq.hmm.encoding import UnseenCategoryWarning
 
-        # facies never seen in training: one line for every core at the end (below)
-        warnings.filterwarnings("ignore", r"core .*: facies \[", UnseenCategoryWarning)
+        # facies and contact types never seen in training: one line each for every core
+        # at the end (below)
+        warnings.filterwarnings(
+            "ignore", r"core .*: (facies|contact type) \[", UnseenCategoryWarning
+        )
         written = None
         if stream is not None:
             streamed = _Streamed(args, stream)
