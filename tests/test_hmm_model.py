@@ -153,6 +153,18 @@ def test_structural_zeros_stay_zero_and_posteriors_sum_to_one(train):
         np.testing.assert_allclose(p.sum(axis=1), 1.0, atol=1e-10)
 
 
+def test_tract_posteriors_read_a_core_set_as_the_model_reads_it(train):
+    from faciesseq.core import CoreSet
+
+    model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1).fit(train[:6])
+    frame = pd.concat([s.beds.assign(core=s.core) for s in train[6:9]], ignore_index=True)
+    cores = CoreSet.from_frame(frame.drop(columns=["thickness", "true_tract"]), units="m")
+    p = model.tract_posteriors(cores)
+    assert p.shape == (sum(len(s) for s in cores.successions(model.unit_)), 4)
+    np.testing.assert_allclose(p, model.tract_posteriors(cores.successions(model.unit_)))
+    np.testing.assert_allclose(p.sum(axis=1), 1.0)
+
+
 def test_surface_probabilities_agree_with_state_posteriors_on_both_sides(train):
     model = TractHMM(scheme=synth.scheme(), random_state=0, n_restarts=1).fit(train)
     tm = default_tract_model()

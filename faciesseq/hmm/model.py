@@ -811,10 +811,12 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
 
     def tract_posteriors(self, successions) -> np.ndarray:
         """``(beds, n_tracts)`` posterior of each tract of the beds of ``successions``
-        (a :class:`~faciesseq.core.SuccessionTable` or successions), in their order, at
+        (a :class:`~faciesseq.core.CoreSet`, read as the model's unit, a
+        :class:`~faciesseq.core.SuccessionTable` or successions), in their order, at
         the fitted parameters (untempered: the model's own, before calibration)."""
         self._check_fitted()
-        return self._tract_posteriors(self._encode(*_bed_tables(successions)))
+        table = _succession_table(successions, self.unit_, self.step)
+        return self._tract_posteriors(self._encode([table.beds], table.lengths))
 
     def score(self, successions) -> float:
         """Total log-likelihood of the successions under the model."""
