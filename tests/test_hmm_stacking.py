@@ -85,6 +85,63 @@ def test_window_reads_the_stacking_of_the_cycles_around_each_bed():
     assert x.loc[8, "cycle log thickness"] == pytest.approx(np.log(4.0), rel=1e-6)
 
 
+def test_depth_windows_read_the_ranks_within_a_thickness_of_each_bed():
+    # ranks upward 3 2 1 | 4 3 2 | 5 1, every bed 1 m: three cycles of 3, 3 and 2 m,
+    # median 3 m; the narrowest window reaches 1.5 x 3 = 4.5 m below and above a bed
+    from faciesseq.hmm.encoding import DEPTH_SCALES, depth_window, depth_window_columns
+
+    facies = [f"F{k}" for k in range(6)]
+    one = pd.DataFrame({"facies": [f"F{r}" for r in (3, 2, 1, 4, 3, 2, 5, 1)], "thickness": 1.0})
+    beds = encode_beds([one], facies, [], ["stacking", "thickness"], np.arange(6.0))
+    assert beds.depth_unit == pytest.approx(3.0) and DEPTH_SCALES[0] == 1.5
+    x = pd.DataFrame(beds.numeric["stacking"], columns=stacking_columns())
+    below = "within 1.5 cycle thicknesses below"
+    above = "within 1.5 cycle thicknesses above"
+    # bed 6 (rank 5): the beds within 4.5 m below are those of ranks 2 1 4 3 2 (beds 1-5,
+    # bed 1 reaching to 2 m above the base, within 4.5 m of bed 6's base at 6 m)
+    assert x.loc[6, f"rank - deepest {below}"] == 5 - 4
+    assert x.loc[6, f"rank - shallowest {below}"] == 5 - 1
+    assert x.loc[6, f"mean rank {below} - rank"] == pytest.approx((2 + 1 + 4 + 3 + 2) / 5 - 5)
+    assert x.loc[6, f"rank - deepest {above}"] == 5 - 1
+    # nothing below the first bed, nothing above the last
+    assert np.isnan(x.loc[0, f"rank - deepest {below}"])
+    assert np.isnan(x.loc[7, f"mean rank {above} - rank"])
+    # a given unit (a fitted model's) is used as it is; none gives missing values
+    wide = depth_window(np.array([3, 2, 1, 4, 3, 2, 5, 1.0]), np.array([8]), np.ones(8), 100.0)
+    assert wide[0, depth_window_columns().index(f"rank - deepest {above}")] == 3 - 5
+    assert np.isnan(depth_window(np.ones(3), np.array([3]), np.ones(3), None)).all()
+    # two successions never see each other
+    two = encode_beds([one, one], facies, [], ["stacking", "thickness"], np.arange(6.0))
+    y = pd.DataFrame(two.numeric["stacking"], columns=stacking_columns())
+    assert np.isnan(y.loc[8, f"rank - deepest {below}"])
+    assert np.isnan(y.loc[7, f"rank - deepest {above}"])
+
+
+def test_a_fit_measures_depth_windows_of_decoded_cores_in_its_training_unit(tmp_path):
+    import json
+
+    scheme, train, test = synth.scheme(), synth.cores(6, 60, seed=3111), synth.cores(2, 60, 3112)
+    model = _fit(scheme, train)
+    piece = next(p for p in model.emissions_ if p.kind == "stacking")
+    fitted = model._encode([s.beds for s in train], training=True).depth_unit
+    assert piece.depth_unit == pytest.approx(fitted) and fitted > 0
+    # decoded cores are read in the fit's unit, not their own
+    assert model._encode([s.beds for s in test]).depth_unit == piece.depth_unit
+    path = tmp_path / "m.json"
+    save_model(model, path)
+    again = load_model(path)
+    assert next(p for p in again.emissions_ if p.kind == "stacking").depth_unit == piece.depth_unit
+    a, b = model.decode(test), again.decode(test)
+    for core in a:
+        assert list(a[core.core].beds["tract"]) == list(b[core.core].beds["tract"])
+    doc = json.loads(path.read_text())
+    entry = next(e for e in doc["parameters"]["emissions"] if e["kind"] == "stacking")
+    entry["depth_unit"] = -1.0
+    path.write_text(json.dumps(doc))
+    with pytest.raises(ModelFileError, match="depth_unit"):
+        load_model(path)
+
+
 def test_model_file_whose_trees_read_the_beds_only_still_decodes(tmp_path):
     """Model files written before the window read the cycles list no columns: their
     trees read the window of beds, the first columns of today's window."""
@@ -104,7 +161,7 @@ def test_model_file_whose_trees_read_the_beds_only_still_decodes(tmp_path):
     piece.used_ = np.arange(width)
     doc = model_to_dict(model)
     entry = next(e for e in doc["parameters"]["emissions"] if e["kind"] == "stacking")
-    del entry["columns"]  # as such files were written
+    del entry["columns"], entry["depth_unit"]  # as such files were written
     path = tmp_path / "older.json"
     path.write_text(json.dumps(doc))
     again = load_model(path)

@@ -24,6 +24,7 @@ from faciesseq.cycles import (
     cycle_window,
     cycle_window_columns,
     facies_to_beds,
+    find_cycles,
     sharp_contacts,
 )
 from faciesseq.errors import ConfigError
@@ -75,6 +76,9 @@ class EncodedBeds:
         ``name -> float array`` (``NaN`` = missing); ``"thickness"`` holds the
         natural log of the bed thickness, ``"rank_step"`` the rank of the bed's
         facies minus that of the bed below.
+    depth_unit
+        The thickness the depth windows of ``"stacking"`` are measured in
+        (:func:`depth_window`), ``None`` where there is none.
     """
 
     lengths: np.ndarray
@@ -82,6 +86,7 @@ class EncodedBeds:
     previous: np.ndarray
     contact: np.ndarray
     numeric: Mapping[str, np.ndarray]
+    depth_unit: float | None = None
 
     def __len__(self) -> int:
         return len(self.facies)
@@ -94,6 +99,7 @@ class EncodedBeds:
             self.previous[start:stop],
             self.contact[start:stop],
             {k: v[start:stop] for k, v in self.numeric.items()},
+            self.depth_unit,
         )
 
 
@@ -122,6 +128,7 @@ def encode_beds(
     lengths: np.ndarray | None = None,
     nonmarine: np.ndarray | None = None,
     exposed: np.ndarray | None = None,
+    depth_unit: float | None = None,
 ) -> EncodedBeds:
     """Code bed tables (each base to top) for the emission pieces.
 
@@ -150,6 +157,10 @@ def encode_beds(
     lengths
         Beds of each succession, where ``tables`` holds several successions one
         after another (default: one succession per table).
+    depth_unit
+        The unit of the depth windows of ``"stacking"`` (:func:`depth_window`): a
+        fitted model's; ``None`` takes the median cycle thickness of these beds
+        (:func:`median_cycle_thickness`), as a fit does.
     """
     if lengths is None:
         lengths = np.array([len(t) for t in tables], dtype=np.int64)
@@ -190,10 +201,23 @@ def encode_beds(
     if STACKING in numeric:
         if "thickness" not in values:
             raise ConfigError("the stacking feature needs 'thickness' among the numeric columns")
+        if depth_unit is None:
+            depth_unit = median_cycle_thickness(
+                fac, lengths, ranks, values["thickness"], cycle_base, nonmarine
+            )
         values[STACKING] = stacking_window(
-            fac, lengths, ranks, values["thickness"], contact, cycle_base, nonmarine
+            fac,
+            lengths,
+            ranks,
+            values["thickness"],
+            contact,
+            cycle_base,
+            nonmarine,
+            depth_unit=depth_unit,
         )
-    return EncodedBeds(lengths, fac, prev, contact, values)
+    else:
+        depth_unit = None
+    return EncodedBeds(lengths, fac, prev, contact, values, depth_unit)
 
 
 def _column(tables: Sequence[pd.DataFrame], name: str, fill: object = np.nan) -> pd.Series:
@@ -259,8 +283,9 @@ STACKING_HALF_WIDTH = 4
 
 def stacking_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
     """Names of the columns of :func:`stacking_window`, in order: the window of beds
-    (:func:`bed_window_columns`), then the cycles around the bed."""
-    return [*bed_window_columns(half_width), *cycle_window_columns()]
+    (:func:`bed_window_columns`), the cycles around the bed, then the depth windows
+    (:func:`depth_window_columns`)."""
+    return [*bed_window_columns(half_width), *cycle_window_columns(), *depth_window_columns()]
 
 
 def bed_window_columns(half_width: int = STACKING_HALF_WIDTH) -> list[str]:
@@ -290,17 +315,142 @@ def stacking_window(
     cycle_base: np.ndarray | None = None,
     nonmarine: np.ndarray | None = None,
     half_width: int = STACKING_HALF_WIDTH,
+    depth_unit: float | None = None,
 ) -> np.ndarray:
     """Window features of every bed for the ``stacking`` piece, ``(T, F)`` float32:
-    the window of beds (:func:`bed_window`), then the stacking of the cycles around
-    the bed (:func:`faciesseq.cycles.cycle_window`; ``cycle_base`` and ``nonmarine``
-    per facies, as :func:`encode_beds` takes them). Column names:
-    :func:`stacking_columns`."""
+    the window of beds (:func:`bed_window`), the stacking of the cycles around the
+    bed (:func:`faciesseq.cycles.cycle_window`; ``cycle_base`` and ``nonmarine`` per
+    facies, as :func:`encode_beds` takes them), then the depth windows in units of
+    ``depth_unit`` (:func:`depth_window`; ``NaN`` where it is ``None``). Column
+    names: :func:`stacking_columns`."""
     bed_ranks, starts, setting = cycle_inputs(facies, ranks, cycle_base, nonmarine)
     thickness = np.exp(np.asarray(log_thickness, dtype=float))
     beds = bed_window(bed_ranks, lengths, log_thickness, contact, half_width)
     cycles = cycle_window(bed_ranks, lengths, thickness, starts, setting)
-    return np.hstack([beds, cycles]).astype(np.float32)
+    depth = depth_window(bed_ranks, lengths, thickness, depth_unit)
+    return np.hstack([beds, cycles, depth]).astype(np.float32)
+
+
+#: Half-widths of the depth windows of :func:`depth_window`, in median cycle
+#: thicknesses (on the forward model's cores about 5, 15 and 40 m: a parasequence,
+#: a parasequence set, a systems tract or two).
+DEPTH_SCALES = (1.5, 4.5, 12.0)
+
+
+def median_cycle_thickness(
+    facies: np.ndarray,
+    lengths: np.ndarray,
+    ranks: np.ndarray | None,
+    log_thickness: np.ndarray,
+    cycle_base: np.ndarray | None = None,
+    nonmarine: np.ndarray | None = None,
+) -> float | None:
+    """Median thickness of the cycles of the beds (:func:`faciesseq.cycles.find_cycles`,
+    cut as the context cuts them), ``None`` where no cycle has a known thickness: the
+    unit of the depth windows, taken from the training beds of a fit."""
+    bed_ranks, starts, setting = cycle_inputs(facies, ranks, cycle_base, nonmarine)
+    thickness = np.exp(np.asarray(log_thickness, dtype=float))
+    cycles = find_cycles(bed_ranks, lengths, thickness, 1.0, starts, setting)
+    known = cycles.thickness[np.isfinite(cycles.thickness) & (cycles.thickness > 0)]
+    return float(np.median(known)) if len(known) else None
+
+
+def depth_window_columns(scales: Sequence[float] = DEPTH_SCALES) -> list[str]:
+    """Names of the last columns of :func:`stacking_window`, the depth windows (absent
+    from model files written before 2026-12-05)."""
+    out = []
+    for w in scales:
+        for side in ("below", "above"):
+            within = f"within {w:g} cycle thicknesses {side}"
+            out += [
+                f"rank - deepest {within}",
+                f"rank - shallowest {within}",
+                f"mean rank {within} - rank",
+            ]
+    return out
+
+
+def depth_window(
+    r: np.ndarray,
+    lengths: np.ndarray,
+    thickness: np.ndarray,
+    depth_unit: float | None,
+    scales: Sequence[float] = DEPTH_SCALES,
+) -> np.ndarray:
+    """The facies ranks within a thickness below and above every bed, ``(T, F)``;
+    column names :func:`depth_window_columns`.
+
+    For each half-width ``w`` of ``scales`` (times ``depth_unit``, the median cycle
+    thickness of the training beds), over the beds of the bed's own succession that
+    reach within that thickness of its base (below) and of its top (above): the bed's
+    rank minus the deepest and the shallowest rank among them, and their mean rank
+    weighted by thickness minus the bed's. ``NaN`` where no such bed has a known rank,
+    and everywhere when ``depth_unit`` is ``None``.
+
+    Why: the window of beds and the cycles around a bed reach a parasequence or two;
+    a highstand is told from a falling stage by where it lies against the deepest
+    beds of the sequence (above the maximum flooding surface, below the sequence
+    boundary), tens of beds away on thick tracts. Measured with labels on the tuning
+    seeds (benchmarks/tract_model.md, "Depth windows"): the forward model's fits of
+    every core 0.934 / 0.708 / 0.800 -> 0.957 / 0.794 / 0.845. In thickness rather
+    than beds, so that a description splitting a unit into intervals does not shorten
+    the reach; in median cycle thicknesses rather than metres, so that it reads a core
+    database of thin or thick cycles alike. Range extremes over windows of varying
+    width are read from a sparse table (:func:`_range_extreme`), written here: no
+    library of the stack has one over windows cut by depth.
+    """
+    T = len(r)
+    n_cols = len(depth_window_columns(scales))
+    if not T or depth_unit is None or not depth_unit > 0:
+        return np.full((T, n_cols), np.nan)
+    th = np.nan_to_num(np.asarray(thickness, dtype=float), nan=0.0)
+    r = np.asarray(r, dtype=float)
+    known = np.isfinite(r)
+    seq = np.repeat(np.arange(len(lengths)), lengths)
+    top = np.cumsum(th) + seq * (th.sum() + 1.0) * max(scales) * depth_unit
+    base = top - th  # depth upward from the first base; successions far apart
+    deepest = _sparse_table(np.where(known, r, -np.inf), np.maximum)
+    shallowest = _sparse_table(np.where(known, r, np.inf), np.minimum)
+    sum_r = np.r_[0.0, np.cumsum(np.where(known, r, 0.0) * th)]
+    sum_th = np.r_[0.0, np.cumsum(np.where(known, th, 0.0))]
+    idx = np.arange(T)
+    cols = []
+    for w in scales:
+        reach = w * depth_unit
+        below = np.searchsorted(top, base - reach, side="right")
+        above = np.searchsorted(base, top + reach, side="left")
+        for lo, hi in ((below, idx), (idx + 1, above)):
+            big = _range_extreme(deepest, lo, hi, np.maximum, -np.inf)
+            small = _range_extreme(shallowest, lo, hi, np.minimum, np.inf)
+            w_th = sum_th[hi] - sum_th[lo]
+            mean = (sum_r[hi] - sum_r[lo]) / np.where(w_th > 0, w_th, 1.0)
+            cols.append(np.where(np.isfinite(big), r - big, np.nan))
+            cols.append(np.where(np.isfinite(small), r - small, np.nan))
+            cols.append(np.where(w_th > 0, mean - r, np.nan))
+    return np.column_stack(cols)
+
+
+def _sparse_table(values: np.ndarray, op) -> list[np.ndarray]:
+    """``op`` (``np.maximum`` or ``np.minimum``) over every run of ``2**j`` values:
+    level ``j`` holds it for the run starting at each index."""
+    levels = [values]
+    k = 1
+    while 2 * k <= len(values):
+        levels.append(op(levels[-1][:-k], levels[-1][k:]))
+        k *= 2
+    return levels
+
+
+def _range_extreme(levels: list[np.ndarray], lo: np.ndarray, hi: np.ndarray, op, empty: float):
+    """``op`` over ``values[lo:hi]`` for every pair (``hi`` exclusive) from the sparse
+    table of :func:`_sparse_table`; ``empty`` where ``lo >= hi``."""
+    n = hi - lo
+    out = np.full(len(lo), empty)
+    j = np.floor(np.log2(np.maximum(n, 1))).astype(np.int64)
+    for level in np.unique(j[n > 0]):
+        sel = (n > 0) & (j == level)
+        out[sel] = op(levels[level][lo[sel]], levels[level][hi[sel] - (1 << level)])
+    return out
 
 
 def bed_window(

@@ -386,8 +386,13 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             raise ConfigError("feature 'contact' needs contact types in the beds; none found")
 
     def _encode(
-        self, tables: Sequence[pd.DataFrame], lengths: np.ndarray | None = None
+        self,
+        tables: Sequence[pd.DataFrame],
+        lengths: np.ndarray | None = None,
+        training: bool = False,
     ) -> EncodedBeds:
+        """The beds coded for the pieces; the depth windows of the stacking trees in
+        the fitted trees' unit, or for ``training`` beds in their own."""
         numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
         if "stacking" in numeric and "thickness" not in numeric:
             numeric.append("thickness")
@@ -403,7 +408,13 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             lengths,
             nonmarine,
             exposed,
+            None if training else self._depth_unit(),
         )
+
+    def _depth_unit(self) -> float | None:
+        """The unit of the depth windows of the fitted stacking trees, if any."""
+        trees = [p for p in getattr(self, "emissions_", ()) if p.kind == "stacking"]
+        return trees[0].depth_unit if trees else None
 
     def _facies_marks(self) -> tuple[np.ndarray | None, np.ndarray | None]:
         """The scheme's ``cycle_base`` marks and settings of each of ``facies_``
@@ -719,7 +730,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
                 "(--labels) or leave the feature out"
             )
         self._vocabularies(tables, labelled=n_labelled > 0)
-        beds = self._encode(tables, lengths)
+        beds = self._encode(tables, lengths, training=True)
         self.evidence_weights_ = self._evidence_weights(beds)
         ranks = (
             np.full(len(beds), np.nan)

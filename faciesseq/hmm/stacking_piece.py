@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 import warnings
 from collections.abc import Mapping
 from typing import Any
@@ -41,6 +42,8 @@ class StackingEmission(EmissionPiece):
     there (the contacts of a table without them) cannot be split on, and leaving it
     out spares the trees its histogram. Model files written before the window read
     the cycles around each bed (2026-12-04) read the window of beds, all of it.
+    ``depth_unit`` is the median cycle thickness of the training beds, the unit the
+    depth windows of decoded beds are measured in (:func:`~faciesseq.hmm.encoding.depth_window`).
     """
 
     kind = "stacking"
@@ -58,6 +61,7 @@ class StackingEmission(EmissionPiece):
         self.half_width = int(half_width)
         self.floor = float(floor)
         self.trees = None
+        self.depth_unit = None
         self.class_prior_ = np.full(self.n_tracts, 1.0 / self.n_tracts)
         self.used_ = np.arange(len(stacking_columns(self.half_width)))
 
@@ -79,6 +83,7 @@ class StackingEmission(EmissionPiece):
             )
         X = beds.numeric[STACKING][known]
         y = labels[known]
+        self.depth_unit = beds.depth_unit
         self.used_ = _varying(X)
         self.trees = fit_boosted(X[:, self.used_], y, self.n_tracts, random_state=int(random_state))
         counts = np.bincount(y, minlength=self.n_tracts).astype(float)
@@ -113,6 +118,7 @@ class StackingEmission(EmissionPiece):
             "half_width": self.half_width,
             "floor": self.floor,
             "class_prior": self.class_prior_.tolist(),
+            "depth_unit": self.depth_unit,
             "columns": self.columns(),
             "trees": self.trees.to_dict(),
         }
@@ -138,6 +144,7 @@ class StackingEmission(EmissionPiece):
                 f"emission {piece.name}: class_prior must lie in (0, 1]", file=source
             )
         piece.class_prior_ = prior
+        piece.depth_unit = _depth_unit_read(data, piece.name, source)
         used = _columns_read(data, piece.name, source)
         declared = data["trees"].get("n_features") if isinstance(data["trees"], Mapping) else None
         if declared != len(used):  # checked before the trees are packed into arrays
@@ -168,6 +175,20 @@ def _varying(X: np.ndarray) -> np.ndarray:
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns
         varying = np.nanmax(X, axis=0) > np.nanmin(X, axis=0)
     return np.flatnonzero(varying) if varying.any() else np.arange(X.shape[1])
+
+
+def _depth_unit_read(data: Mapping, name: str, source: str | None) -> float | None:
+    """The unit of the depth windows a model file's trees were trained with: a positive
+    number, or ``None`` (no cycle of known thickness; files written before the depth
+    windows, 2026-12-05, have none and their trees do not read them)."""
+    value = data.get("depth_unit")
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int | float) or not 0 < value < math.inf:
+        raise ModelFileError(
+            f"emission {name}: depth_unit must be a positive number or null", file=source
+        )
+    return float(value)
 
 
 def _columns_read(data: Mapping, name: str, source: str | None) -> np.ndarray:
