@@ -132,6 +132,21 @@ def test_check_json_stays_valid_json_when_a_row_has_no_core_name(tmp_path, capsy
     assert missing and all(p["core"] is None and p["row"] for p in missing)
 
 
+def test_check_of_a_file_whose_every_core_is_left_out_lists_the_error_it_exits_on(tmp_path, capsys):
+    """A file whose only core is left out with warnings (samples without a facies code)
+    is unusable: check lists the error that says so, as the other commands end on it,
+    naming the core left out (was: "0 error(s)" above "usable: no", and elsewhere "no
+    data rows?" of a file with rows)."""
+    f = tmp_path / "samples.csv"
+    f.write_text("well,depth,facies\nA,1.0,\nA,1.5,\nA,2.0,\n")
+    assert main(["check", str(f)]) == 1
+    out = capsys.readouterr().out
+    assert "problems: 1 error(s)" in out
+    (line,) = [x for x in out.splitlines() if x.startswith("error:")]
+    assert "no usable cores" in line and "core read (A) was left out" in line
+    assert "no data rows" not in line
+
+
 def test_gap_warnings_of_many_cores_name_each_gap_as_written(tmp_path):
     """Every gap of a table checked at once is named with its depths (``%g``) and width
     (four significant digits), row and core."""

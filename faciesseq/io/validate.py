@@ -1057,7 +1057,7 @@ def build_coreset(
         if suspect is not None:
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
-        problems.append(_no_cores(sources))
+        problems.append(_no_cores(sources, gathered.order))
     problems = _in_core_order(problems, gathered.order, target)
     coreset = CoreSet(cores, target, tuple(problems), sources, meta)
     if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
@@ -1270,13 +1270,18 @@ def _too_short_cores(
     ]
 
 
-def _no_cores(sources: tuple[str, ...]) -> Problem:
-    """The error of a source that gave no usable core and no other error to say why."""
+def _no_cores(sources: tuple[str, ...], seen: list[str]) -> Problem:
+    """The error of a source that gave no usable core and no other error to say why;
+    ``seen``: the cores read, each left out with a warning."""
+    if not seen:
+        why = " (no data rows?)"
+    elif len(seen) == 1:
+        why = f": the one core read ({seen[0]}) was left out; `faciesseq check` lists why"
+    else:
+        names = ", ".join(seen[:5]) + (", ..." if len(seen) > 5 else "")
+        why = f": every core read ({len(seen)}: {names}) was left out; `faciesseq check` lists why"
     return Problem(
-        "error",
-        "no-cores",
-        "no usable cores in the source (no data rows?)",
-        file=", ".join(sources) or None,
+        "error", "no-cores", "no usable cores in the source" + why, file=", ".join(sources) or None
     )
 
 
