@@ -9,7 +9,7 @@ import yaml
 
 from faciesseq.cli import main
 from faciesseq.core import CoreSet
-from faciesseq.errors import ConfigError
+from faciesseq.errors import ConfigError, InputError
 from faciesseq.io import read_cores, summarise, write_cores
 
 CSV = (
@@ -90,6 +90,21 @@ def test_excel_sheet_option(tmp_path):
     assert back.names == ["Y"] and back.meta["sample_step"] == {"Y": 0.5}
     with pytest.raises(ConfigError, match="no sheet 'nope'"):
         read_cores(path, sheet="nope")
+
+
+def test_a_workbook_of_several_sheets_read_without_sheet_names_the_sheet_read(tmp_path):
+    """Without --sheet the first sheet is read; where there are others, messages name
+    it (a notes sheet in front of the cores gave "missing required column(s)" with no
+    word of which sheet was read)."""
+    path = tmp_path / "book.xlsx"
+    with pd.ExcelWriter(path) as book:
+        pd.DataFrame({"note": ["described 2026"]}).to_excel(book, sheet_name="Notes", index=False)
+        pd.DataFrame({"core": ["X"], "top": [0], "base": [1], "facies": ["A"]}).to_excel(
+            book, sheet_name="Cores", index=False
+        )
+    with pytest.raises(InputError, match=r"book\.xlsx \[Notes\]: missing required column"):
+        read_cores(path)
+    assert read_cores(path, sheet="Cores").names == ["X"]
 
 
 def test_scheme_draft_writes_codes_with_ranks_to_fill_and_refuses_to_overwrite(tmp_path, capsys):
