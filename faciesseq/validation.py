@@ -434,7 +434,14 @@ def cross_validate(
     if folds < 2:
         raise ConfigError(f"--folds must be at least 2, got {folds}")
     if len(cores) < folds:
-        raise ConfigError(f"{folds} folds need at least {folds} cores; the data has {len(cores)}")
+        fewer = (
+            f"give --folds {len(cores)}"
+            if len(cores) >= 2
+            else "cross-validation by core needs 2 cores or more"
+        )
+        raise ConfigError(
+            f"{folds} folds need at least {folds} cores; the data has {len(cores)}: {fewer}"
+        )
     rng = np.random.default_rng(random_state)
     shuffled = [cores[i] for i in rng.permutation(len(cores))]
     fold_of = {c: k % folds for k, c in enumerate(shuffled)}

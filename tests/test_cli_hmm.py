@@ -264,3 +264,24 @@ def test_a_long_grid_decode_says_how_long_before_it_starts(database, tmp_path, c
     monkeypatch.setattr(decode, "LONG_GRID_CELLS", 10**9)
     assert main([*argv, "--force"]) == 0
     assert "to decode: about" not in capsys.readouterr().err
+
+
+def test_decode_warns_of_a_labels_column_the_source_lacks(database, tmp_path, capsys):
+    # `--labels Tract_2` (a column that is not there) was silently ignored: no
+    # agreement line and no word of why; the default column may be absent unsaid
+    model = tmp_path / "model.json"
+    fit = ["fit", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    table = pd.read_csv(database / "cores.csv").drop(columns="tract")
+    table.to_csv(tmp_path / "unlabelled.csv", index=False)
+    capsys.readouterr()
+    decode = ["decode", str(model), str(tmp_path / "unlabelled.csv"), "--units", "m"]
+    assert main([*decode, "-o", str(tmp_path / "a")]) == 0
+    assert "--labels" not in capsys.readouterr().err
+    assert main([*decode, "--labels", "Tract_2", "-o", str(tmp_path / "b")]) == 0
+    err = capsys.readouterr().err
+    (line,) = [x for x in err.splitlines() if "--labels" in x]
+    assert line == (
+        "faciesseq decode: warning: no column 'Tract_2' in the source to compare the "
+        "decoded tracts with (--labels); no agreement reported"
+    )

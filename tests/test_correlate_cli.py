@@ -84,6 +84,12 @@ def test_existing_output_needs_force(database, tmp_path, capsys):
     [
         ([("QB-01", 1.0), ("QB-01", 2.0)], 1, "row 2: well 'QB-01' is listed twice"),
         ([("QB-01", 1.0)], 1, "two wells"),
+        (
+            [("QB01", 1.0), ("QB03", 2.0)],
+            1,
+            "2 well(s) of the table with no core in the source: 'QB01', 'QB03' (its cores: "
+            "QB-01, QB-03,",
+        ),
     ],
 )
 def test_bad_wells_table_one_line(database, tmp_path, capsys, rows, code, message):

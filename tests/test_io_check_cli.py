@@ -9,7 +9,7 @@ import yaml
 
 from faciesseq.cli import main
 from faciesseq.core import CoreSet
-from faciesseq.errors import ConfigError
+from faciesseq.errors import ConfigError, InputError
 from faciesseq.io import read_cores, summarise, write_cores
 
 CSV = (
@@ -92,6 +92,21 @@ def test_excel_sheet_option(tmp_path):
         read_cores(path, sheet="nope")
 
 
+def test_a_workbook_of_several_sheets_read_without_sheet_names_the_sheet_read(tmp_path):
+    """Without --sheet the first sheet is read; where there are others, messages name
+    it (a notes sheet in front of the cores gave "missing required column(s)" with no
+    word of which sheet was read)."""
+    path = tmp_path / "book.xlsx"
+    with pd.ExcelWriter(path) as book:
+        pd.DataFrame({"note": ["described 2026"]}).to_excel(book, sheet_name="Notes", index=False)
+        pd.DataFrame({"core": ["X"], "top": [0], "base": [1], "facies": ["A"]}).to_excel(
+            book, sheet_name="Cores", index=False
+        )
+    with pytest.raises(InputError, match=r"book\.xlsx \[Notes\]: missing required column"):
+        read_cores(path)
+    assert read_cores(path, sheet="Cores").names == ["X"]
+
+
 def test_scheme_draft_writes_codes_with_ranks_to_fill_and_refuses_to_overwrite(tmp_path, capsys):
     source = _source(tmp_path)
     out = tmp_path / "draft.yaml"
@@ -130,6 +145,21 @@ def test_check_json_stays_valid_json_when_a_row_has_no_core_name(tmp_path, capsy
     doc = json.loads(capsys.readouterr().out)
     missing = [p for p in doc["problems"] if p["kind"] == "missing-core"]
     assert missing and all(p["core"] is None and p["row"] for p in missing)
+
+
+def test_check_of_a_file_whose_every_core_is_left_out_lists_the_error_it_exits_on(tmp_path, capsys):
+    """A file whose only core is left out with warnings (samples without a facies code)
+    is unusable: check lists the error that says so, as the other commands end on it,
+    naming the core left out (was: "0 error(s)" above "usable: no", and elsewhere "no
+    data rows?" of a file with rows)."""
+    f = tmp_path / "samples.csv"
+    f.write_text("well,depth,facies\nA,1.0,\nA,1.5,\nA,2.0,\n")
+    assert main(["check", str(f)]) == 1
+    out = capsys.readouterr().out
+    assert "problems: 1 error(s)" in out
+    (line,) = [x for x in out.splitlines() if x.startswith("error:")]
+    assert "no usable cores" in line and "core read (A) was left out" in line
+    assert "no data rows" not in line
 
 
 def test_gap_warnings_of_many_cores_name_each_gap_as_written(tmp_path):

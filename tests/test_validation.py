@@ -59,10 +59,14 @@ def test_frames_and_dict_are_serialisable(result):
     json.dumps(result.to_dict(), allow_nan=True, default=float)
 
 
-def test_too_many_folds_is_a_config_error():
+def test_too_many_folds_is_a_config_error_that_says_how_many_folds_the_cores_allow():
     succ = synth.cores(2, 20, seed=52)
-    with pytest.raises(ConfigError, match="need at least 3 cores"):
+    with pytest.raises(
+        ConfigError, match=r"need at least 3 cores; the data has 2: give --folds 2$"
+    ):
         cross_validate(succ, "true_tract", folds=3, scheme=synth.scheme())
+    with pytest.raises(ConfigError, match="the data has 1: cross-validation by core needs 2"):
+        cross_validate(succ[:1], "true_tract", folds=2, scheme=synth.scheme())
 
 
 def _without_labels(succ, keep):

@@ -399,10 +399,10 @@ def say_irregular(screening, command: str, keep: bool = False) -> None:
 
 
 def check_labels(cores, column: str | None, tract_model, source) -> None:
-    """Refuse a ``--labels`` column that the source lacks (exit 2) or that holds a
-    code which is not a tract of ``tract_model`` (exit 1, naming file, row, core and
-    depth of the first such interval), before any fit. Blank cells are beds not
-    interpreted."""
+    """Refuse a ``--labels`` column that the source lacks (exit 2), that is blank on
+    every row (exit 1: asked for, the labels are not there) or that holds a code which
+    is not a tract of ``tract_model`` (exit 1, naming file, row, core and depth of the
+    first such interval), before any fit. Blank cells are beds not interpreted."""
     if column is None:
         return
     import pandas as pd
@@ -416,6 +416,12 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
     tracts = list(tract_model.order)
     text = table[column].astype("string").str.strip()
     blank = text.isna() | (text == "") | (text.str.lower() == "nan")
+    if blank.all():
+        raise InputError(
+            f"no tract label in column {column!r} (blank on all {len(table)} rows); fill in "
+            "the tracts of some beds, or name the column that holds them",
+            file=source,
+        )
     bad = (~blank & ~text.isin(tracts)).to_numpy(dtype=bool)
     if not bad.any():
         return

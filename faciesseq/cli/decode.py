@@ -104,7 +104,6 @@ def register(subparsers) -> None:
     )
     parser.add_argument(
         "--labels",
-        default="tract",
         metavar="COLUMN",
         help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
     )
@@ -251,6 +250,7 @@ class _Written:
 
         self.labels, self.keep = labels, keep
         self.heads, self.wells, self.agreements, self.parts = [], [], [], []
+        self.labels_found = False  # whether any part's beds hold the labels column
         self.beds = DecodedBeds()  # set beside the training beds at the end
 
     def add(self, part) -> None:
@@ -263,6 +263,7 @@ class _Written:
         if len(part.wells):
             self.beds.add(part.beds, str(part.wells["units"].iloc[0]))
         self.agreements.append(_agreement(part, self.labels))
+        self.labels_found |= self.labels in part.beds.columns
         self.parts += [part] if self.keep else []
 
     def summary(self):
@@ -585,6 +586,7 @@ def _run(args: argparse.Namespace) -> int:
     if args.las_step is not None and (args.format != "las" or not args.las_step > 0):
         raise ConfigError("--las-step takes a positive depth step, with --format las")
     model, scheme = _model(args)
+    labels_given, args.labels = args.labels is not None, args.labels or "tract"
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
     stream = stream_source(args, scheme, others) if model.unit_ != "grid" else None
@@ -612,6 +614,12 @@ def _run(args: argparse.Namespace) -> int:
             written = _write(args, model, scheme, parts, labels, sampled)
         for finding in written.beds.findings(model):
             warnings.warn(finding, stacklevel=1)
+        if labels_given and not written.labels_found:
+            warnings.warn(
+                f"no column {args.labels!r} in the source to compare the decoded tracts with "
+                "(--labels); no agreement reported",
+                stacklevel=1,
+            )
     if args.summary == "json":
         _print_json(args, scheme, written)
     else:

@@ -203,6 +203,24 @@ def read_wells(path: str) -> WellTable:
     return WellTable(wells.frame, wells.file, wells.position_label, extra + wells.problems)
 
 
+def _unmatched(wells: pd.Series, cores: list[str], shown: int = 5) -> str:
+    """The wells of the table that name no core, with the cores they could have named
+    (a well spelt otherwise than its core is the usual cause), or nothing."""
+    have = set(cores)
+    missing = [str(w) for w in wells if w not in have]
+    if not missing:
+        return ""
+
+    def listed(names: list[str], quote: bool) -> str:
+        text = [repr(n) if quote else n for n in names[:shown]]
+        return ", ".join(text) + (", ..." if len(names) > shown else "")
+
+    return (
+        f"; {len(missing)} well(s) of the table with no core in the source: "
+        f"{listed(missing, True)} (its cores: {listed([str(c) for c in cores], False)})"
+    )
+
+
 def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list[Problem]]:
     """Match the wells table with the cores; keep the wells that have a core.
 
@@ -256,7 +274,7 @@ def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list
     if not (sizes >= 2).any():
         raise InputError(
             "no section has two wells with cores; a correlation needs at least two wells "
-            "on one section",
+            "on one section" + _unmatched(frame["core"], cores),
             file=wells.file,
         )
     kept = kept[kept["section"].map(sizes) >= 2].reset_index(drop=True)

@@ -162,7 +162,7 @@ class CoreStream:
                 errors.append(batch.errors)
                 continue
             yield batch
-        self._finish(errors, seen, deepest)
+        self._finish(errors, form is not None, deepest)
 
     def summary(self) -> CoreSet:
         """The whole file's units, sources and kept problems, without its cores."""
@@ -182,15 +182,16 @@ class CoreStream:
             raise NotStreamable("samples layout")
         return batch
 
-    def _finish(self, errors: list[list[Problem]], seen: set[str], deepest: float) -> None:
-        """The whole file's ``units-suspect`` warning; its first error raised."""
+    def _finish(self, errors: list[list[Problem]], kept: bool, deepest: float) -> None:
+        """The whole file's ``units-suspect`` warning; its first error raised. A file
+        that kept no core (``kept``: some batch did) is read whole, which names that."""
         if errors:
             if sum(any(p.core is None for p in found) for found in errors) > 1:
                 raise NotStreamable("errors without a core in several batches")
             found = [p for part in errors for p in part]
             found.sort(key=lambda p: p.core is not None)  # as the whole file's order
             CoreSet({}, self.units or "m", tuple(found), (self.file,)).require_valid()
-        if not seen:
+        if not kept:
             raise NotStreamable("no cores")  # the whole file's read names it
         if any(p.kind == "units" for p in self.problems) and np.isfinite(deepest):
             suspect = feet_suspected_in(np.zeros(0), deepest, {})

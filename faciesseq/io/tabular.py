@@ -313,7 +313,8 @@ def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
 
 
 def read_excel(path: Path, sheet: str | None = None) -> RawTable:
-    """One sheet of an ``.xlsx`` workbook (the first when ``sheet`` is ``None``)."""
+    """One sheet of an ``.xlsx`` workbook (the first when ``sheet`` is ``None``); the
+    table is named ``FILE [SHEET]`` where a sheet is given or the workbook has several."""
     from faciesseq._optional import import_optional
 
     file = str(path)
@@ -329,6 +330,8 @@ def read_excel(path: Path, sheet: str | None = None) -> RawTable:
         names = book.sheetnames
         if sheet is None:
             ws = book[names[0]]
+            if len(names) > 1:  # messages say which sheet was read
+                sheet = names[0]
         elif sheet in names:
             ws = book[sheet]
         else:

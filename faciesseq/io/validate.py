@@ -60,6 +60,10 @@ GAP_FACTOR = 1.5
 IRREGULAR_SHARE = 0.05
 #: Numbers that mean "no value" in exported well data.
 NULL_NUMBERS = (-999.25, -999.0, -9999.0)
+#: Depths deeper (or higher) than this, in metres or feet, are no depth: the Earth's
+#: radius is 6,371 km and the deepest borehole, Kola SG-3, 12,262 m (40,230 ft); some
+#: exports write 1e30 or 1.70141e38 for "no value".
+MAX_DEPTH = 1e7
 
 _STANDARD = ("grain_size", "contact", "tract", "lithology")
 _RESERVED = {"core", "top", "base", "depth", "facies", "_file", "_row", "units", *_STANDARD}
@@ -292,7 +296,8 @@ def _depths(
         numbers, blank = np.r_[numbers, np.nan], np.r_[blank, True]  # -1: missing
     nulls = np.isin(numbers, NULL_NUMBERS)
     infinite = np.isinf(numbers)  # e.g. 1e309, read as infinity
-    numbers = np.where(nulls | infinite, np.nan, numbers)
+    implausible = ~infinite & (np.abs(np.nan_to_num(numbers)) > MAX_DEPTH)
+    numbers = np.where(nulls | infinite | implausible, np.nan, numbers)
     errors = []
     for i in np.flatnonzero(np.isnan(numbers)[ids]):
         k, value = ids[i], raw.iloc[i]
@@ -303,6 +308,12 @@ def _depths(
         elif infinite[k]:
             kind = "bad-depth"
             message = f"{role} {_shown(value)} is not a finite number (too large)"
+        elif implausible[k]:
+            kind = "bad-depth"
+            message = (
+                f"{role} {_shown(value)} is not a plausible depth (beyond {MAX_DEPTH:,.0f} "
+                "m or ft); a null value of the export?"
+            )
         else:
             kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
         where = {"file": file, "row": int(rows[i]), "core": cores.iloc[i]}
@@ -1046,7 +1057,7 @@ def build_coreset(
         if suspect is not None:
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
-        problems.append(_no_cores(sources))
+        problems.append(_no_cores(sources, gathered.order))
     problems = _in_core_order(problems, gathered.order, target)
     coreset = CoreSet(cores, target, tuple(problems), sources, meta)
     if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
@@ -1259,13 +1270,18 @@ def _too_short_cores(
     ]
 
 
-def _no_cores(sources: tuple[str, ...]) -> Problem:
-    """The error of a source that gave no usable core and no other error to say why."""
+def _no_cores(sources: tuple[str, ...], seen: list[str]) -> Problem:
+    """The error of a source that gave no usable core and no other error to say why;
+    ``seen``: the cores read, each left out with a warning."""
+    if not seen:
+        why = " (no data rows?)"
+    elif len(seen) == 1:
+        why = f": the one core read ({seen[0]}) was left out; `faciesseq check` lists why"
+    else:
+        names = ", ".join(seen[:5]) + (", ..." if len(seen) > 5 else "")
+        why = f": every core read ({len(seen)}: {names}) was left out; `faciesseq check` lists why"
     return Problem(
-        "error",
-        "no-cores",
-        "no usable cores in the source (no data rows?)",
-        file=", ".join(sources) or None,
+        "error", "no-cores", "no usable cores in the source" + why, file=", ".join(sources) or None
     )
 
 
