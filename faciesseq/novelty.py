@@ -132,6 +132,7 @@ def _treatment(model, unseen: list[str]) -> str:
         if ranked:
             parts.append(f"the scheme's rank of {', '.join(ranked[:10])}")
         if len(ranked) < len(unseen):
-            parts.append("no rank for the others (missing to the rank features)")
+            others = "the others" if ranked else "them"
+            parts.append(f"no rank for {others} (missing to the rank features)")
     parts.append("the tract read from the beds around them")
     return "; ".join(parts)

@@ -157,6 +157,48 @@ def test_decode_plot_draws_a_strip_log_per_core(database, tmp_path, capsys):
     capsys.readouterr()
 
 
+def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
+    database, tmp_path, capsys
+):
+    # no --scheme: the model keeps ranks suggested from its cores; a code those cores
+    # lacked is a facies never seen in training (one line), not a missing scheme entry,
+    # while a scheme the geologist gave still refuses it
+    table = pd.read_csv(database / "cores.csv")
+    train, model = tmp_path / "train.csv", tmp_path / "model.json"
+    table[["core", "top", "base", "facies", "tract"]].to_csv(train, index=False)
+    assert main(["fit", str(train), "--labels", "tract", "--restarts", "1", "-o", str(model)]) == 0
+    odd = table[["core", "top", "base", "facies"]].copy()
+    odd.loc[odd.index[:3], "facies"] = "XX"
+    odd.to_csv(tmp_path / "odd.csv", index=False)
+    capsys.readouterr()
+    assert main(["decode", str(model), str(tmp_path / "odd.csv"), "-o", str(tmp_path / "o")]) == 0
+    beds = pd.read_csv(tmp_path / "o" / "tracts.csv", comment="#")
+    assert (beds["facies"] == "XX").sum() == 3 and beds["tract"].notna().all()
+    lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
+    assert len(lines) == 1 and "XX (3)" in lines[0] and "no rank for them" in lines[0]
+    given = ["--scheme", str(database / "scheme.yaml")]
+    assert (
+        main(
+            [
+                "fit",
+                str(train),
+                *given,
+                "--labels",
+                "tract",
+                "--restarts",
+                "1",
+                "-o",
+                str(model),
+                "--force",
+            ]
+        )
+        == 0
+    )
+    capsys.readouterr()
+    assert main(["decode", str(model), str(tmp_path / "odd.csv"), "-o", str(tmp_path / "p")]) == 1
+    assert "is not in scheme" in capsys.readouterr().err
+
+
 def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
     database, tmp_path, capsys
 ):

@@ -388,10 +388,23 @@ def _model(args: argparse.Namespace):
     return model, scheme
 
 
+def _reading_scheme(args: argparse.Namespace, scheme):
+    """The scheme the source's facies codes are checked against: none where the model's
+    scheme holds ranks suggested from its training cores and no ``--scheme`` is given,
+    so that a code those cores lacked is decoded as a facies never seen in training
+    (one warning line, no rank), not refused as missing from a scheme nobody wrote."""
+    from faciesseq.markov.seriation import SUGGESTED
+
+    if args.scheme is None and scheme is not None and scheme.name == SUGGESTED:
+        return None
+    return scheme
+
+
 def _read(args: argparse.Namespace, model, scheme):
     """The successions of the cores read whole, and whether any core was read in the
     samples layout."""
-    cores = regular_cores(read_source(args, scheme).require_valid(), "decode", args.keep_irregular)
+    source = read_source(args, _reading_scheme(args, scheme)).require_valid()
+    cores = regular_cores(source, "decode", args.keep_irregular)
     _note_units(model, cores.units)
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
@@ -589,7 +602,8 @@ def _run(args: argparse.Namespace) -> int:
     labels_given, args.labels = args.labels is not None, args.labels or "tract"
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
-    stream = stream_source(args, scheme, others) if model.unit_ != "grid" else None
+    reading = _reading_scheme(args, scheme)
+    stream = stream_source(args, reading, others) if model.unit_ != "grid" else None
     with warnings_to_stderr("decode"):
         from faciesseq.hmm.encoding import UnseenCategoryWarning
 
