@@ -124,7 +124,7 @@ def _emission_blocks(model: Any, sub: Section, scheme) -> None:
         elif hasattr(piece, "trendprob_"):
             _facies_trend_blocks(sub, piece, key, model, scheme, ranks)
         elif kind == "stacking":
-            _stacking_blocks(sub, piece, key)
+            _stacking_blocks(sub, piece, key, getattr(model, "units_", None))
         elif hasattr(piece, "means_"):
             _gaussian_blocks(sub, piece, key, model)
 
@@ -268,7 +268,7 @@ def _trend_summary_table(
     )
 
 
-def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
+def _stacking_blocks(sub: Section, piece: Any, key: str, units: str | None = None) -> None:
     """How often the stacking piece's boosted trees split on each window feature."""
     counts = piece.trees.split_counts()
     columns = piece.columns()
@@ -282,7 +282,7 @@ def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
             key,
             f"Stacking piece: boosted trees ({piece.trees.n_iterations} rounds, "
             f"{piece.trees.n_parameters()} leaves) over a window of {piece.half_width} "
-            f"beds below and above each bed{_cycles_read(piece)}, learnt from the labelled "
+            f"beds below and above each bed{_cycles_read(piece, units)}, learnt from the labelled "
             "beds; how often each window feature is split on (offsets: beds or cycles "
             "below negative, above positive; rank_step = rank of that bed minus the "
             "bed's own; top / base = shallowest / deepest rank of a cycle).",
@@ -291,14 +291,23 @@ def _stacking_blocks(sub: Section, piece: Any, key: str) -> None:
     )
 
 
-def _cycles_read(piece: Any) -> str:
-    """How many cycles around each bed the stacking trees read ("" for none: model
-    files written before 2026-12-04)."""
+def _cycles_read(piece: Any, units: str | None = None) -> str:
+    """How many cycles around each bed the stacking trees read, and the depth windows
+    ("" for neither: model files written before 2026-12-04 and 2026-12-05)."""
     from faciesseq.cycles import CYCLE_WINDOW_HALF_WIDTH, cycle_window_columns
+    from faciesseq.hmm.encoding import DEPTH_SCALES, depth_window_columns
 
-    if not set(piece.columns()) & set(cycle_window_columns()):
-        return ""
-    return f" and the {CYCLE_WINDOW_HALF_WIDTH} cycles below and above it"
+    read = set(piece.columns())
+    out = ""
+    if read & set(cycle_window_columns()):
+        out += f" and the {CYCLE_WINDOW_HALF_WIDTH} cycles below and above it"
+    if read & set(depth_window_columns()) and piece.depth_unit:
+        widths = ", ".join(f"{w:g}" for w in DEPTH_SCALES)
+        out += (
+            f", and the facies ranks within {widths} median cycle thicknesses "
+            f"({piece.depth_unit:.3g} {units or 'depth units'} each) below and above it"
+        )
+    return out
 
 
 def _gaussian_blocks(sub: Section, piece: Any, key: str, model: Any) -> None:
