@@ -228,6 +228,20 @@ def test_other_encodings_are_detected_and_reported_never_garbled(tmp_path):
     assert read_cores(tmp_path / "s.yaml", units="m").names == names
 
 
+def test_a_workbook_renamed_to_csv_is_named_for_what_it_is(tmp_path):
+    import openpyxl
+
+    from faciesseq.errors import InputError
+
+    book = openpyxl.Workbook()
+    book.active.append(["core", "top", "base", "facies"])
+    book.active.append(["A", 0, 1, "X"])
+    path = tmp_path / "cores.csv"
+    book.save(path)
+    with pytest.raises(InputError, match=r"is a ZIP archive \(an Excel workbook, \.xlsx\?\)"):
+        read_cores(path, units="m")
+
+
 def test_las_null_values_are_left_out_and_leave_a_gap(tmp_path):
     las = """~Version
 VERS. 2.0 : CWLS LOG ASCII STANDARD - VERSION 2.0

@@ -28,6 +28,14 @@ TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
 _DELIMITERS = ",;\t|"
 
 
+#: Leading bytes of files that are no text table, whatever their name says (a workbook
+#: renamed to ``.csv`` is the usual case), and what they are.
+_NOT_TEXT = (
+    (b"PK\x03\x04", "a ZIP archive (an Excel workbook, .xlsx?)"),
+    (b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1", "an old Office file (an Excel workbook, .xls?)"),
+)
+
+
 def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[str, list[Problem]]:
     """Text of a file: UTF-8, a stated ``encoding``, or a detected one (reported).
 
@@ -39,6 +47,12 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
             return data.decode(encoding), []
         except (LookupError, UnicodeDecodeError) as exc:
             raise InputError(f"cannot be read as {encoding}: {exc}", file=file) from None
+    for magic, what in _NOT_TEXT:
+        if data.startswith(magic):
+            raise InputError(
+                f"is {what}, not a text table; give it its own extension, or save it as CSV",
+                file=file,
+            )
     for bom, name in (
         (codecs.BOM_UTF8, "utf-8-sig"),
         (codecs.BOM_UTF32_LE, "utf-32"),
