@@ -71,11 +71,11 @@ class DecodedBeds:
         """The line naming the contact types the fit never saw, where it reads contacts."""
         if "contact" not in model.features_:
             return None
-        unseen = sorted(c for c in self.contacts if c not in set(model.contacts_))
+        known = set(model.contacts_)
+        unseen = sorted(c for c in self.contacts if c not in known)
         if not unseen:
             return None
-        listed = ", ".join(f"{c} ({self.contacts[c]})" for c in unseen)
-        total = sum(self.contacts[c] for c in unseen)
+        listed, total = _listed(self.contacts, unseen)
         return (
             f"contact type(s) never seen in training, with their {unit}: {listed}; {total} "
             f"of {sum(self.contacts.values())} {unit} with a contact decoded with a smoothed "
@@ -109,13 +109,19 @@ def _unseen(facies: Counter, training: Mapping, model, unit: str) -> str | None:
     unseen = sorted(c for c in facies if c not in seen)
     if not unseen:
         return None
-    listed = ", ".join(f"{c} ({facies[c]})" for c in unseen[:10])
-    listed += f" and {len(unseen) - 10} more" if len(unseen) > 10 else ""
-    total = sum(facies[c] for c in unseen)
+    listed, total = _listed(facies, unseen)
     return (
         f"facies code(s) never seen in training, with their {unit}: {listed}; {total} of "
         f"{sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
     )
+
+
+def _listed(counts: Counter, unseen: list[str], shown: int = 10) -> tuple[str, int]:
+    """``unseen`` codes with their counts, at most ``shown`` of them named, and the
+    total count of all of them."""
+    listed = ", ".join(f"{c} ({counts[c]})" for c in unseen[:shown])
+    listed += f" and {len(unseen) - shown} more" if len(unseen) > shown else ""
+    return listed, sum(counts[c] for c in unseen)
 
 
 def _treatment(model, unseen: list[str]) -> str:
