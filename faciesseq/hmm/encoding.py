@@ -414,7 +414,8 @@ def depth_window(
     reaches = [w * depth_unit for w in scales]
     below = [np.searchsorted(top, base - d + tie, side="right") for d in reaches]
     above = [np.searchsorted(base, top + d - tie, side="left") for d in reaches]
-    longest = int(max((idx - below[-1]).max(), (above[-1] - idx - 1).max(), 1))
+    widest = int(np.argmax(reaches))
+    longest = int(max((idx - below[widest]).max(), (above[widest] - idx - 1).max(), 1))
     deepest = _sparse_table(np.where(known, r, -np.inf), np.maximum, longest)
     shallowest = _sparse_table(np.where(known, r, np.inf), np.minimum, longest)
     sum_r = np.r_[0.0, np.cumsum(np.where(known, r, 0.0) * th)]
