@@ -60,12 +60,12 @@ def register(subparsers) -> None:
         "of the decoded tract; --summary json prints every well as one JSON document "
         "instead (--format chooses the files' format, not the printed summary's). An "
         "interpreter's tract column in SOURCE is not used to decode; where present, the "
-        "agreement with it is reported. Warns, in one line each, of facies codes never seen "
-        "in training (with their beds, and how they are decoded) and of beds whose median "
-        "thickness differs from the training beds' by more than a factor of 4 (a rule of "
-        "thumb chosen, not tuned; a model fitted on beds records their median, older model "
-        "files do not and are compared on their facies only). An existing OUT is replaced "
-        "as a whole with --force.",
+        "agreement with it is reported. Warns, in one line each, of facies codes and contact "
+        "types never seen in training (with their beds, and how they are decoded) and of "
+        "beds whose median thickness differs from the training beds' by more than a factor "
+        "of 4 (a rule of thumb chosen, not tuned; a model fitted on beds records their "
+        "median, older model files do not and are compared on their facies only). An "
+        "existing OUT is replaced as a whole with --force.",
         epilog=EXAMPLES,
     )
     parser.add_argument("model", metavar="MODEL", help="model file written by `faciesseq fit`")
