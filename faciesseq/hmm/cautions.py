@@ -18,6 +18,7 @@ from faciesseq.markov.seriation import SUGGESTED
 __all__ = [
     "contact_caution",
     "fit_cautions",
+    "long_tract_caution",
     "missing_labels_caution",
     "single_bed_caution",
     "single_bed_tracts",
@@ -41,6 +42,7 @@ def fit_cautions(model) -> list[str]:
         missing_labels_caution(model),
         suggested_ranks_caution(model),
         single_bed_caution(model),
+        long_tract_caution(model),
         contact_caution(model),
     )
     return [c for c in found if c]
@@ -155,6 +157,48 @@ def single_bed_caution(model) -> str | None:
         f"{'that tract and its' if one else 'those tracts and their'} neighbours as unsure, "
         "or label a few cores (fit --labels); where a cycle is itself one or two beds (thin "
         "cyclothems), tracts this short are expected"
+    )
+
+
+def long_tract_caution(model) -> str | None:
+    """A caution where a fit without labels, once in a tract, stays there longer on
+    average than a whole training core (expected beds per visit,
+    :meth:`~faciesseq.hmm.states.StateSpace.mean_beds`, against the training beds per
+    core), else None.
+
+    A base-level cycle holds its systems tracts in turn, so a core holding a sequence
+    or more shows several (common practice). A chain that does not leave a tract
+    within a core's length decodes whole cores as that tract: what a fit without
+    labels made of a new user's invented cores, shallowing-upward cycles of random
+    amplitude that do not stack into tracts (every bed of four cores one tract at
+    probability 0.95-0.97, the calibration by simulation satisfied, since the model's
+    own cores are one tract too). On 18 fits without labels of simulated cores of known
+    tracts it spoke on 3, which read them at balanced accuracy 0.23-0.29 (chance 0.25),
+    and was silent on the 15 others (0.20-0.79): a sign of a fit gone wrong where it
+    speaks, no guarantee where it is silent (benchmarks/tract_model.md, "A tract that
+    outlasts the cores").
+    """
+    if getattr(model, "n_labelled_", 0):
+        return None
+    cores = len(getattr(model, "cores_", ()) or ())
+    n_beds = getattr(model, "n_train_beds_", None)
+    if not cores or not n_beds:
+        return None
+    per_core = n_beds / cores
+    beds = model.states_.mean_beds(model.transmat_)
+    long = {t: b for t, b in zip(model.states_.tracts, beds) if b > per_core}
+    if not long:
+        return None
+    listed = ", ".join(
+        f"{t} {'for ever' if not np.isfinite(b) else f'{b:.0f} beds'}" for t, b in long.items()
+    )
+    return (
+        f"caution: once entered, the fitted chain stays in {', '.join(long)} longer than a "
+        f"training core ({listed} per visit, against {per_core:.0f} beds per core), so it reads "
+        "whole cores as one tract, as fits without labels do where the cycles do not stack "
+        "into tracts; on simulated cores such fits read the tracts at chance: the column is "
+        "not an interpretation, whatever its probabilities say; check the facies ranks and "
+        "the cycles (faciesseq markov), or label a few cores (fit --labels)"
     )
 
 
