@@ -15,7 +15,7 @@ import pandas as pd
 
 from faciesseq.core import CoreSet
 from faciesseq.hmm import TractHMM
-from faciesseq.hmm.cautions import fit_cautions, long_tract_caution
+from faciesseq.hmm.cautions import fit_cautions, long_tract_caution, long_tracts
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import FaciesScheme, default_tract_model
 
@@ -95,3 +95,28 @@ def test_cycles_that_do_not_stack_into_tracts_get_the_caution():
     listed = [c for c in fit_cautions(model) if "longer than a training core" in c]
     assert long.any() and len(listed) == 1  # measured: one tract about 800 beds per visit
     assert all(t in listed[0] for t, x in zip(model.states_.tracts, long) if x)
+
+
+def test_fit_json_decode_and_methods_carry_it(tmp_path, capsys):
+    import json
+
+    import yaml
+    from _stacking import methods_text
+
+    from faciesseq.cli import main
+    from faciesseq.hmm.modelfile import load_model
+
+    source, scheme = tmp_path / "beds.csv", tmp_path / "scheme.yaml"
+    _cycles_without_stacking(0).to_csv(source, index=False)
+    facies = [{"code": c, "name": c, "rank": 4 - i} for i, c in enumerate(FACIES)]
+    scheme.write_text(yaml.safe_dump({"name": "invented", "facies": facies}))
+    model_path = tmp_path / "m.json"
+    args = ["fit", str(source), "--scheme", str(scheme), "-o", str(model_path)]
+    assert main([*args, "--format", "json"]) == 0
+    document = json.loads(capsys.readouterr().out)
+    model = load_model(model_path)
+    assert set(document["long_tracts"]) == set(long_tracts(model)) != set()
+    assert any("longer than a training core" in c for c in document["cautions"])
+    assert "longer than a training core" in methods_text(model)
+    assert main(["decode", str(model_path), str(source), "-o", str(tmp_path / "out")]) == 0
+    assert "longer than a training core" in capsys.readouterr().out

@@ -329,7 +329,12 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     The text lists the first wells only, so only they are decoded (at 10^6 beds,
     decoding every core for 30 lines was 6.8 of the fit's 33 s of CPU)."""
     from faciesseq.cli._summary import WELL_LIMIT, print_json, print_summary, summary_document
-    from faciesseq.hmm.cautions import contact_caution, fit_cautions, single_bed_tracts
+    from faciesseq.hmm.cautions import (
+        contact_caution,
+        fit_cautions,
+        long_tracts,
+        single_bed_tracts,
+    )
 
     model = selection.best
     if args.format == "json":
@@ -337,8 +342,15 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
         durations = _durations(model, interp, scheme)
-        short = single_bed_tracts(model)
-        notes = {"single_bed_tracts": short, "contact_note": contact_caution(model)}
+        notes = {
+            "cautions": fit_cautions(model),
+            "single_bed_tracts": single_bed_tracts(model),
+            # a tract never left: null (JSON has no infinity)
+            "long_tracts": {
+                t: b if b < float("inf") else None for t, b in long_tracts(model).items()
+            },
+            "contact_note": contact_caution(model),
+        }
         print_json({**document, "tract_durations": durations, **notes})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)

@@ -19,6 +19,7 @@ __all__ = [
     "contact_caution",
     "fit_cautions",
     "long_tract_caution",
+    "long_tracts",
     "missing_labels_caution",
     "single_bed_caution",
     "single_bed_tracts",
@@ -160,6 +161,19 @@ def single_bed_caution(model) -> str | None:
     )
 
 
+def long_tracts(model) -> dict[str, float]:
+    """The tracts of a fit without labels whose expected beds per visit
+    (:meth:`~faciesseq.hmm.states.StateSpace.mean_beds`, ``inf`` for a tract never
+    left) exceed the training beds per core, with that number; none for a fit with
+    labels or a model that does not record its training cores."""
+    cores = len(getattr(model, "cores_", ()) or ())
+    n_beds = getattr(model, "n_train_beds_", None)
+    if getattr(model, "n_labelled_", 0) or not cores or not n_beds:
+        return {}
+    beds = model.states_.mean_beds(model.transmat_)
+    return {t: float(b) for t, b in zip(model.states_.tracts, beds) if b > n_beds / cores}
+
+
 def long_tract_caution(model) -> str | None:
     """A caution where a fit without labels, once in a tract, stays there longer on
     average than a whole training core (expected beds per visit,
@@ -178,17 +192,10 @@ def long_tract_caution(model) -> str | None:
     speaks, no guarantee where it is silent (benchmarks/tract_model.md, "A tract that
     outlasts the cores").
     """
-    if getattr(model, "n_labelled_", 0):
-        return None
-    cores = len(getattr(model, "cores_", ()) or ())
-    n_beds = getattr(model, "n_train_beds_", None)
-    if not cores or not n_beds:
-        return None
-    per_core = n_beds / cores
-    beds = model.states_.mean_beds(model.transmat_)
-    long = {t: b for t, b in zip(model.states_.tracts, beds) if b > per_core}
+    long = long_tracts(model)
     if not long:
         return None
+    per_core = model.n_train_beds_ / len(model.cores_)
     listed = ", ".join(
         f"{t} {'for ever' if not np.isfinite(b) else f'{b:.0f} beds'}" for t, b in long.items()
     )
