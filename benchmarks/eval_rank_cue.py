@@ -49,6 +49,7 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
+from eval_suggested_ranks import council_grove_successions  # noqa: E402
 from eval_unsupervised import _cores, _runner  # noqa: E402
 
 from faciesseq.core import CoreSet  # noqa: E402
@@ -130,13 +131,7 @@ def _demo_row() -> str:
 
 
 def _council_grove_row() -> str:
-    data = ROOT / "tests" / "data" / "council_grove"
-    table = pd.read_csv(data / "facies_vectors_subset.csv")
-    scheme = load_scheme(data / "scheme.yaml")
-    successions = []
-    for _, well in table.groupby("Well Name", sort=False):
-        codes = well.sort_values("Depth", ascending=False)["Facies"].astype(str).tolist()
-        successions.append([c for k, c in enumerate(codes) if k == 0 or c != codes[k - 1]])
+    _, scheme, successions = council_grove_successions()
     return _row("Council Grove, 6 wells", successions, _scheme_rank(scheme))
 
 
