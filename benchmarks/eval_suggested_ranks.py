@@ -114,7 +114,9 @@ def _demo_row() -> str:
     )
 
 
-def _council_grove() -> str:
+def council_grove_successions() -> tuple[pd.DataFrame, FaciesScheme, list[list[str]]]:
+    """The Council Grove samples, the project's scheme of them, and each well's beds
+    (runs of one facies) base to top."""
     data = ROOT / "tests" / "data" / "council_grove"
     table = pd.read_csv(data / "facies_vectors_subset.csv")
     scheme = load_scheme(data / "scheme.yaml")
@@ -122,6 +124,11 @@ def _council_grove() -> str:
     for _, well in table.groupby("Well Name", sort=False):
         codes = well.sort_values("Depth", ascending=False)["Facies"].astype(str).tolist()
         successions.append([c for k, c in enumerate(codes) if k == 0 or c != codes[k - 1]])
+    return table, scheme, successions
+
+
+def _council_grove() -> str:
+    table, scheme, successions = council_grove_successions()
     suggestion = suggest_ranks(successions)
     codes = list(suggestion.ranks)
     rho = spearmanr([suggestion.ranks[c] for c in codes], [scheme.rank(c) for c in codes])[0]

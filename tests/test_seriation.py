@@ -51,7 +51,13 @@ def test_shallowing_upward_cycles_give_the_order_and_its_direction():
     for seed in range(5):
         suggestion = suggest_ranks(_parasequences(order, 6, seed=seed))
         assert suggestion.order() == order  # rank 0 landward: where the gradual steps lead
-        assert suggestion.clear and suggestion.share > 0.8  # floods one facies deep count
+        assert suggestion.share > 0.8  # floods one facies deep count
+        # without any deepening step, the end facies are joined to their neighbours one
+        # way only: nothing tells a flood from a neighbour there, so the ends are unclear
+        ends = {tuple(order[:2]), tuple(order[-2:])}
+        one_way = {tuple(sorted((b, a), key=order.index)) for b, a, _ in suggestion.one_way}
+        assert one_way and one_way <= ends | {tuple(order[-3:-1])}
+        assert not suggestion.clear
 
 
 def test_the_codes_names_do_not_change_the_order():
@@ -238,3 +244,62 @@ def test_agreement_is_spearmans_rho_of_scipy():
     tied = FaciesScheme.from_dict(data)
     expected = spearmanr([suggestion.ranks[c] for c in codes], [tied.rank(c) for c in codes])[0]
     assert suggestion.agreement(tied) == pytest.approx(expected, abs=1e-12)
+
+
+def _cycles_to_a_top_facies(seed: int, n_cores: int = 4) -> list[list[str]]:
+    """Shallowing-upward cycles that climb from offshore mud one facies at a time and
+    stop at foreshore or coastal plain, now and then deepening one facies on the way
+    (from lower or upper shoreface: a flood, not a deepening, leaves the top facies);
+    each flooding surface puts offshore mud (or lower shoreface) on the top facies
+    (Van Wagoner et al. 1990: gradual upward, abrupt at the flooding surface)."""
+    order = ["offshore", "lower", "upper", "foreshore", "coastal"]  # deep first
+    rng = np.random.default_rng(seed)
+    out = []
+    for _ in range(n_cores):
+        beds: list[str] = []
+        for _ in range(12):
+            k, top = int(rng.integers(0, 2)), int(rng.integers(3, 5))
+            while k <= top:
+                beds.append(order[k])
+                k += -1 if (0 < k < 3 and rng.random() < 0.15) else 1
+        out.append([c for i, c in enumerate(beds) if i == 0 or c != beds[i - 1]])
+    return out
+
+
+def test_a_flooding_step_taken_for_neighbours_makes_the_direction_unclear():
+    # the trade's cue (Van Wagoner et al. 1990; common practice): neighbours on the
+    # profile are joined both ways, a flooding surface is a one-way jump. Coastal plain
+    # is only ever left by a flood, so its place in the order rests on a one-way step
+    for seed in range(3):
+        cycles = _cycles_to_a_top_facies(seed)
+        suggestion = suggest_ranks(cycles)
+        steps = upward_steps(cycles)
+        assert suggestion.share >= 0.6  # the share alone would call it clear
+        assert not suggestion.clear
+        for below, above, n in suggestion.one_way:
+            assert steps[(below, above)] == n > 0
+            assert (above, below) not in steps.index
+        assert suggestion.one_way
+        assert "never the other way up" in suggestion.describe()
+        assert "direction clear" not in suggestion.describe()
+
+
+def test_neighbours_joined_both_ways_keep_a_clear_direction():
+    # Van Wagoner et al. (1990) cycles with one-step deepening now and then: every
+    # neighbour of the order is joined both ways
+    order = ["coastal", "foreshore", "upper", "lower", "transition", "offshore"]
+    cycles = _parasequences(order, 6, seed=0)
+    # a one-step deepening between every pair of neighbours, twice
+    cycles += [[order[k], order[k + 1]] for k in range(len(order) - 1)] * 2
+    suggestion = suggest_ranks(cycles)
+    assert suggestion.order() == order
+    assert suggestion.one_way == () and suggestion.clear
+
+
+def test_the_anchored_path_starts_at_the_facies_floods_bring_in():
+    # Hattori (1976): below the facies that starts each cycle lies any facies (high
+    # E_pre), above it the next one up (low E_post)
+    cycles = _cycles_to_a_top_facies(0)
+    anchored = suggest_ranks(cycles, anchored=True)
+    assert anchored.order()[-1] == "offshore"
+    assert anchored.order() == ["coastal", "foreshore", "upper", "lower", "offshore"]

@@ -54,9 +54,10 @@ def register(subparsers) -> None:
         "description, cycle_base, setting, exposure), commented. Ranks are left empty and "
         "marked TODO; the scheme does not load until they are filled in. Each comment gives "
         "the rank suggested by the upward transitions of the data (facies that follow one "
-        "another are neighbours on the profile; steps between neighbours lead landward), and "
-        "the facies are listed in that order. Errors in the data (bad depths, repeated "
-        "depths, ...) do not stop it.",
+        "another are neighbours on the profile; steps between neighbours lead landward; the "
+        "direction is called unclear where neighbours are joined one way only, perhaps by a "
+        "flooding surface), and the facies are listed in that order. Errors in the data "
+        "(bad depths, repeated depths, ...) do not stop it.",
         epilog=DRAFT_EXAMPLES,
     )
     add_source_arguments(draft, scheme=False)

@@ -143,6 +143,9 @@ class DatabaseSummary:
                 "share_landward": order.share,
                 "steps": order.n_steps,
                 "clear": order.clear,
+                "one_way_steps": [
+                    {"below": a, "above": b, "count": n} for a, b, n in order.one_way
+                ],
                 "agreement_with_scheme": self.agreement,
             },
             "cores": _records(self.cores),

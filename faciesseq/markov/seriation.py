@@ -25,7 +25,24 @@ geologist checks the two ends.
 
 :attr:`RankSuggestion.share` is the share of the one-step transitions of the
 order that lead landward, the suggestion's own measure of how clear the
-direction is. It is a suggestion for a geologist to check, never a scheme on
+direction is. A second cue, from the trade: facies that are neighbours on the
+profile are joined both ways (shallowing steps and the occasional one-step
+deepening), while a flooding surface is a one-way jump, rarely reversed. The
+path cannot tell the two apart where the cycles climb to a top facies and flood
+from it (coastal plain then offshore mud): it cut such a circle of a new user's
+cycles at the top step and kept the flood, ordering coastal plain as the deepest
+facies with 0.92 of the steps leading landward. So a neighbour step of the order
+joined one way only (:attr:`RankSuggestion.one_way`) makes the direction
+unclear, and is named. Measured on every generator of the project
+(``benchmarks/tract_model.md``, 2026-12-05): it flagged the new user's cycles,
+the ramp's (whose foreshore and coastal plain the path swaps) and four of five
+sets of the shelf generator (whose lagoon it puts landward of the coastal plain),
+at the step where each order goes wrong; no correctly ordered set lost its clear
+verdict. Starting the path at the facies floods bring in (``anchored``, the
+largest ``E_pre − E_post``) fixed the new user's order but lowered the agreement
+with the schemes on 11 of 24 sets: an option, not the default.
+
+The order is a suggestion for a geologist to check, never a scheme on
 its own: facies of one setting that a geologist would tie (the nonmarine facies
 of a cyclothem), or mixed carbonate and siliciclastic systems, are ordered here
 as the transitions say. ``faciesseq scheme draft`` writes it beside each facies;
@@ -34,6 +51,7 @@ as the transitions say. ``faciesseq scheme draft`` writes it beside each facies;
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -42,6 +60,7 @@ import pandas as pd
 
 from faciesseq.core import SuccessionTable
 from faciesseq.markov.counts import _window_index, encode, encode_flat
+from faciesseq.markov.cyclicity import entropies
 from faciesseq.scheme import FaciesScheme
 
 __all__ = [
@@ -87,16 +106,20 @@ class RankSuggestion:
     of the upward transitions between neighbours of the order that go landward
     (usually above 0.5: the path follows the most transitions; the larger, the
     clearer the direction). ``n_steps``: how many such
-    transitions there were."""
+    transitions there were. ``one_way``: the neighbour steps of the order joined in
+    one direction only, ``(facies below, facies above, upward transitions)``, each
+    perhaps a flooding surface taken for a neighbour relation."""
 
     ranks: dict[str, int]
     share: float
     n_steps: int
+    one_way: tuple[tuple[str, str, int], ...] = ()
 
     @property
     def clear(self) -> bool:
-        """Whether the direction of the order is clear (:data:`UNCLEAR_SHARE`)."""
-        return self.share >= UNCLEAR_SHARE
+        """Whether the direction of the order is clear: at least :data:`UNCLEAR_SHARE`
+        of the steps lead landward, and every neighbour step is joined both ways."""
+        return self.share >= UNCLEAR_SHARE and not self.one_way
 
     def order(self) -> list[str]:
         """The facies from landward (rank 0) to basinward."""
@@ -104,7 +127,16 @@ class RankSuggestion:
 
     def describe(self) -> str:
         """The order and how clear its direction is, as every command prints it."""
-        how = "clear" if self.clear else "unclear: check which end is landward"
+        if self.clear:
+            how = "clear"
+        elif self.share < UNCLEAR_SHARE:
+            how = "unclear: check which end is landward"
+        else:
+            steps = "; ".join(f"{a} -> {b} {n} times" for a, b, n in self.one_way)
+            how = (
+                f"unclear: never the other way up: {steps}, perhaps a flooding surface, "
+                "not neighbours; check both ends"
+            )
         return (
             f"{', '.join(self.order())} ({self.share:.2f} of {self.n_steps} upward steps "
             f"between neighbours lead landward; direction {how})"
@@ -165,11 +197,14 @@ def step_counts(below: np.ndarray, above: np.ndarray, codes: Sequence) -> pd.Ser
     return pd.Series(n, index=index, dtype=float)
 
 
-def suggest_ranks(successions: Sequence | SuccessionTable | pd.Series) -> RankSuggestion | None:
+def suggest_ranks(
+    successions: Sequence | SuccessionTable | pd.Series, *, anchored: bool = False
+) -> RankSuggestion | None:
     """Ranks of the facies of ``successions`` (beds base to top: a succession table,
     successions of a core set, sequences of codes, or their :func:`upward_steps`) from
     their upward transitions; ``None`` where fewer than three facies, or more than
-    :data:`MOST_FACIES`, meet in transitions."""
+    :data:`MOST_FACIES`, meet in transitions. ``anchored``: the path starts at
+    :func:`flooded_facies` (measured in ``benchmarks/tract_model.md``, 2026-12-05)."""
     steps = successions if isinstance(successions, pd.Series) else upward_steps(successions)
     below, above = steps.index.get_level_values(0), steps.index.get_level_values(1)
     steps = steps[(steps.to_numpy() > 0) & (below != above)]
@@ -183,7 +218,8 @@ def suggest_ranks(successions: Sequence | SuccessionTable | pd.Series) -> RankSu
     counts[[at[c] for c in below], [at[c] for c in above]] = steps.to_numpy(dtype=float)
     total = counts.sum(axis=0) + counts.sum(axis=1)
     table = counts / np.sqrt(np.outer(total, total))
-    order = _best_path(table) if n <= EXACT_FACIES else _spectral_order(table)
+    start = flooded_facies(counts) if anchored else None
+    order = _best_path(table, start) if n <= EXACT_FACIES else _spectral_order(table)
     position = np.empty(n, dtype=np.int64)
     position[order] = np.arange(n)
     up, down = _neighbour_steps(counts, position)
@@ -192,17 +228,37 @@ def suggest_ranks(successions: Sequence | SuccessionTable | pd.Series) -> RankSu
     ranks = n - 1 - position  # the order runs basinward to landward
     n_steps = int(up + down)
     share = up / n_steps if n_steps else 0.5
-    return RankSuggestion(dict(zip(codes, ranks.tolist())), float(share), n_steps)
+    one_way = []
+    path = np.argsort(position)
+    for i, j in itertools.pairwise(path.tolist()):
+        if (counts[i, j] > 0) != (counts[j, i] > 0):
+            below, above = (i, j) if counts[i, j] > 0 else (j, i)
+            one_way.append((codes[below], codes[above], int(counts[below, above])))
+    return RankSuggestion(dict(zip(codes, ranks.tolist())), float(share), n_steps, tuple(one_way))
 
 
-def _best_path(weights: np.ndarray) -> np.ndarray:
+def flooded_facies(counts: np.ndarray) -> int:
+    """The facies a flooding surface brings in: the one whose facies below are the
+    least predictable and whose facies above the most, the largest ``E_pre − E_post``
+    (Hattori 1976 entropies of the upward ``counts``, :func:`~faciesseq.markov.
+    cyclicity.entropies`). A flooding surface puts the deep facies that starts a
+    shallowing-upward cycle on whichever facies the last cycle reached, and the cycle
+    then climbs from it one neighbour at a time (Van Wagoner et al. 1990); ties go to
+    the first facies."""
+    e_post, e_pre, _ = entropies(counts, embedded=True)
+    return int(np.argmax(e_pre - e_post))
+
+
+def _best_path(weights: np.ndarray, start: int | None = None) -> np.ndarray:
     """The facies in the order of the path through all of them with the largest sum of
-    ``weights[i, j]`` from each to the next (Held & Karp 1962), one subset at a time."""
+    ``weights[i, j]`` from each to the next (Held & Karp 1962), one subset at a time;
+    one that begins at ``start`` where it is given."""
     n = len(weights)
     full = 1 << n
     best = np.full((full, n), -np.inf)
     came = np.full((full, n), -1, dtype=np.int64)
-    best[1 << np.arange(n), np.arange(n)] = 0.0
+    first = np.arange(n) if start is None else np.array([start])
+    best[1 << first, first] = 0.0
     for mask in range(1, full):
         row = best[mask]
         if not np.isfinite(row).any():

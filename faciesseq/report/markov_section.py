@@ -201,7 +201,8 @@ def _entropy_blocks(ent: Section, report, codes: list[str]) -> None:
             f"Whole chain: E_post = {format_value(cyc.e_post_total)} bits, E_pre = "
             f"{format_value(cyc.e_pre_total)} bits, of at most {format_value(cyc.e_max)} bits "
             f"(normalised {format_value(cyc.e_post_normalised)} and "
-            f"{format_value(cyc.e_pre_normalised)}). Cycle type: {cyc.cycle_type}. "
+            f"{format_value(cyc.e_pre_normalised)}). Cycle type: {cyc.describe_type()} "
+            f"(symmetry of the upward counts, Bowker 1948: {format_test(cyc.symmetry)}). "
             + (
                 "Preferred upward path of significant transitions: "
                 + " → ".join(cyc.path)

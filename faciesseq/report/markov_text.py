@@ -175,7 +175,8 @@ def markov_text(report) -> str:
         "Cyclicity (Hattori 1976 entropies, bits)",
         f"  upward E_post = {cyc.e_post_total:.3f}, downward E_pre = {cyc.e_pre_total:.3f}, "
         f"maximum {cyc.e_max:.3f} (normalised {cyc.e_post_normalised:.3f} / "
-        f"{cyc.e_pre_normalised:.3f}); cycle type: {cyc.cycle_type}",
+        f"{cyc.e_pre_normalised:.3f})",
+        f"  cycle type: {cyc.describe_type()}; {cyc.symmetry.name}: {format_test(cyc.symmetry)}",
         "  preferred upward path: "
         + (" -> ".join(cyc.path) + (" -> " + cyc.path[0] if cyc.path_is_cycle else ""))
         if cyc.path

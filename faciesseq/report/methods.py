@@ -331,7 +331,10 @@ def _transition_blocks() -> tuple[Paragraph | Equation, ...]:
             "BIC (Katz 1981). Homogeneity across cores compares each core's transition counts "
             "with the pooled ones (Anderson & Goodman 1957). The entropies of Hattori (1976) "
             "measure how ordered the succession is after (E_post) and before (E_pre) each facies; "
-            "their pattern names the cycle type."
+            "whether the succession is random; whether its cycle is symmetric (A B C B A) or "
+            "asymmetric (A B C A) is judged by Bowker's (1948) test of symmetry of the upward "
+            "counts, since the whole-chain entropies of a stationary chain are equal upward and "
+            "downward by construction."
         ),
         Equation(
             "E_post(i) = − Σ_j p_ij log₂ p_ij        E_pre(j) = − Σ_i q_ij log₂ q_ij, "
