@@ -18,9 +18,10 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
 from matplotlib.ticker import MaxNLocator
 
-from faciesseq.report.striplog import _legend_label, plain
+from faciesseq.report.striplog import _legend_label, facies_name, plain
 from faciesseq.report.style import (
     PAGE_WIDTH,
+    facies_colour,
     figure_style,
     new_figure,
     tract_colour,
@@ -422,7 +423,7 @@ def facies_relationship_diagram(
                 n_drawn += 1
         for code in codes:
             x, y = pos[code]
-            colour = scheme.colour(code) if scheme is not None and code in scheme else "#c8c8c8"
+            colour = facies_colour(code, scheme)
             circle = Circle((x, y), radius, fc=colour, ec="black", lw=0.8, zorder=3)
             ax.add_patch(circle)
             ax.text(
@@ -445,10 +446,12 @@ def facies_relationship_diagram(
         if scheme is not None:
             handles += [
                 Patch(
-                    fc=scheme.colour(c) if c in scheme else "#c8c8c8",
+                    fc=facies_colour(c, scheme),
                     ec="black",
                     lw=0.4,
-                    label=plain(_legend_label(c, scheme[c].name if c in scheme else "", 44)),
+                    label=plain(
+                        _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
+                    ),
                 )
                 for c in codes
             ]

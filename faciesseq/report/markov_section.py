@@ -12,6 +12,7 @@ import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
 from faciesseq.report.markov_text import order_explanation
+from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["format_p", "format_test", "markov_section"]
@@ -217,7 +218,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
     """The transition-statistics section (section 2 of the appendix)."""
     codes = list(report.codes)
     embedded = report.embedded
-    colours = {c: scheme.colour(c) for c in codes if c in scheme}
+    colours = {c: facies_colour(c, scheme) for c in codes}
     s = Section("Transition statistics")
     unit = (
         "beds (embedded chain: no facies above itself)"

@@ -26,13 +26,11 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
-from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths
-from faciesseq.report.style import surface_colour, tract_colour
+from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths, facies_name
+from faciesseq.report.style import facies_colour, surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["SVG_HELPERS", "page_html", "view_data", "view_html"]
-
-_UNKNOWN_FACIES = "#c8c8c8"
 
 
 def _number(value: object, digits: int = 10) -> float | None:
@@ -123,8 +121,8 @@ def _facies_legend(interpretation: Interpretation, scheme: FaciesScheme | None) 
         out.append(
             {
                 "code": code,
-                "name": scheme[code].name if known else "(not in scheme)",
-                "colour": scheme.colour(code) if known else _UNKNOWN_FACIES,
+                "name": facies_name(code, scheme[code].name) if known else "(not in scheme)",
+                "colour": facies_colour(code, scheme),
             }
         )
     return out
