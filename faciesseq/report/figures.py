@@ -263,6 +263,7 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
             fontsize=6.5,
             bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.85},
             gid=kw.get("gid"),
+            zorder=5,  # over a circle the arc passes near
         )
     return arrow
 
@@ -425,13 +426,16 @@ def facies_relationship_diagram(
                 if not np.isfinite(d) or d <= threshold:
                     continue
                 solid = bool(sig.loc[a, b]) if sig is not None else True
+                # a short arrow bows enough that the labels of A -> B and B -> A,
+                # on arcs bowing to either side, stand apart
+                chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
                 _arrow(
                     ax,
                     pos[a],
                     pos[b],
                     width=0.5 + 2.5 * d / (top or 1.0),
                     colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=0.28,
+                    rad=max(0.28, 0.24 / max(chord, 1e-9)),
                     label=f"{d:.2f}" if solid else None,
                     node_radius=radius,
                     linestyle="-" if solid else (0, (3, 2)),
