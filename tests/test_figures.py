@@ -150,3 +150,104 @@ def test_characters_the_font_lacks_are_one_warning_of_every_figure(tmp_path):
     assert messages[1].startswith("the figures' font (")
     assert f"no glyph for {len(lacking)} character(s)" in messages[1]
     assert all(ch in messages[1] for ch in lacking) and "\ue000" in lacking
+
+
+#: Upward transitions of five shoreface facies (observed minus expected probability,
+#: rows = the lower facies), listed in no particular order: a user's markov run.
+_FIVE = ["foreshore", "coastal plain", "lower shoreface", "upper shoreface", "offshore mudstone"]
+_FIVE_DIFFERENCE = pd.DataFrame(
+    [
+        [np.nan, 0.174, 0.037, -0.307, 0.097],
+        [-0.185, np.nan, -0.108, -0.323, 0.616],
+        [-0.219, -0.059, np.nan, 0.421, -0.143],
+        [0.421, -0.018, -0.347, np.nan, -0.056],
+        [-0.227, -0.057, 0.429, -0.146, np.nan],
+    ],
+    index=_FIVE,
+    columns=_FIVE,
+)
+
+
+def _nodes(ax):
+    """Facies code -> centre of its circle (the name written at the centre)."""
+    from matplotlib.patches import Circle
+
+    centres = [tuple(c.center) for c in ax.patches if isinstance(c, Circle)]
+    return {
+        " ".join(t.get_text().split()): tuple(t.get_position())
+        for t in ax.texts
+        if tuple(t.get_position()) in centres
+    }
+
+
+def _nearest(point, points: dict):
+    return min(points, key=lambda k: np.hypot(*(np.subtract(points[k], point))))
+
+
+def test_difference_labels_sit_on_the_arrow_of_their_transition():
+    # the label of coastal plain -> offshore mudstone (0.62) was drawn on the arrow
+    # upper shoreface -> foreshore: labels were placed off the chord by more than
+    # the arc bows, so on crowded diagrams they landed on a neighbouring arrow
+    order = _FIVE  # the order that put labels on the wrong arrows
+    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None, order=order)
+    ax = fig.axes[0]
+    nodes = _nodes(ax)
+    assert set(nodes) == set(_FIVE)
+    arrows = []
+    for patch in ax.patches:
+        if type(patch).__name__ != "FancyArrowPatch":
+            continue
+        start, end = patch._posA_posB
+        lower, upper = _nearest(start, nodes), _nearest(end, nodes)
+        curve = patch.get_connectionstyle()(start, end, shrinkA=0, shrinkB=0)
+        t = np.linspace(0, 1, 101)
+        points = np.vstack([bezier(t) for bezier, _ in curve.iter_bezier()])
+        arrows.append(((lower, upper), points))
+    assert len(arrows) == int((_FIVE_DIFFERENCE > 0.05).to_numpy().sum())
+    labels = [t for t in ax.texts if t.get_text().replace(".", "").isdigit()]
+    assert len(labels) == len(arrows)
+    for label in labels:
+        at = np.asarray(label.get_position())
+        distance = [np.hypot(*(curve - at).T).min() for _, curve in arrows]
+        (lower, upper), _ = arrows[int(np.argmin(distance))]
+        assert label.get_text() == f"{_FIVE_DIFFERENCE.loc[lower, upper]:.2f}", (lower, upper)
+        assert min(distance) < 0.02  # on the arc itself
+
+
+def test_facies_names_stay_inside_their_circles():
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.patches import Circle
+
+    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None)
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw_without_rendering()
+    ax = fig.axes[0]
+    circles = {tuple(c.center): c for c in ax.patches if isinstance(c, Circle)}
+    names = [t for t in ax.texts if tuple(t.get_position()) in circles]
+    assert len(names) == 5
+    for text in names:
+        box = text.get_window_extent(renderer)
+        ring = circles[tuple(text.get_position())].get_window_extent(renderer)
+        centre, radius = ((ring.x0 + ring.x1) / 2, (ring.y0 + ring.y1) / 2), ring.width / 2
+        for corner in ((box.x0, box.y0), (box.x0, box.y1), (box.x1, box.y0), (box.x1, box.y1)):
+            assert np.hypot(corner[0] - centre[0], corner[1] - centre[1]) <= radius, text
+
+
+def test_without_a_scheme_facies_go_round_the_circle_in_the_order_their_transitions_suggest():
+    # a shallowing run A -> B -> C -> D -> E given in scrambled order: neighbours in the
+    # run are neighbours on the circle, so no arrow crosses the diagram
+    run = ["A", "B", "C", "D", "E"]
+    scrambled = ["C", "E", "A", "D", "B"]
+    table = pd.DataFrame(-0.05, index=scrambled, columns=scrambled)
+    for lower, upper in zip(run[1:], run[:-1], strict=True):  # upward: deep to shallow
+        table.loc[lower, upper] = 0.4
+    table.loc["A", "E"] = 0.3  # the flooding back to the deepest facies
+    for code in scrambled:
+        table.loc[code, code] = np.nan
+    fig = figures.facies_relationship_diagram(table, None)
+    nodes = _nodes(fig.axes[0])
+    angle = {c: np.arctan2(y, x) for c, (x, y) in nodes.items()}
+    around = sorted(nodes, key=lambda c: -angle[c])  # clockwise
+    k = around.index("A")
+    circle = around[k:] + around[:k]
+    assert circle in (run, [run[0], *run[:0:-1]])

@@ -209,3 +209,74 @@ def test_fixed_layout_keeps_every_label_on_the_page_and_apart(model, scheme, off
         assert not title.overlaps(ax.title.get_window_extent(renderer))
         label = ax.xaxis.label.get_window_extent(renderer)
         assert not any(label.overlaps(leg) for leg in legends), ax.xaxis.label.get_text()
+
+
+def test_a_pick_at_probability_one_is_drawn_whole_inside_its_panel(model, scheme):
+    # a pick with p > 0.99 sat on the panel's right edge, its marker half clipped
+    core = synthetic_core(model)
+    core.picks.loc[core.picks.index[0], "probability"] = 1.0
+    fig = strip_log(core, scheme, model)
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw_without_rendering()
+    panel = fig.axes[3]
+    box = panel.get_window_extent()
+    markers = [line for line in panel.lines if line.get_marker() == "<"]
+    assert markers
+    for line in markers:
+        extent = line.get_window_extent(renderer)
+        assert box.x0 - 0.5 <= extent.x0 and extent.x1 <= box.x1 + 0.5
+
+
+def _scheme_of(facies: list[dict], name: str = "a geologist's scheme"):
+    from faciesseq.scheme import FaciesScheme
+
+    return FaciesScheme.from_dict({"name": name, "facies": facies})
+
+
+def test_facies_colour_is_stable_and_follows_rank_then_name():
+    from matplotlib.colors import rgb_to_hsv, to_rgb
+
+    from faciesseq.markov.seriation import SUGGESTED
+    from faciesseq.report.style import facies_colour
+
+    names = ["coastal plain", "foreshore", "upper shoreface", "lower shoreface", "offshore"]
+    # no scheme, ranks only suggested from the data in another order, and a scheme
+    # listing the facies in another order: one colour per facies each time
+    bare = [facies_colour(n) for n in names]
+    suggested = _scheme_of(
+        [{"code": n, "name": f"facies {n}", "rank": r} for n, r in zip(names, [4, 0, 1, 2, 3])],
+        SUGGESTED,
+    )
+    assert [facies_colour(n, suggested) for n in names] == bare
+    given = _scheme_of(
+        [{"code": n, "name": f"facies {n}", "rank": r} for r, n in reversed(list(enumerate(names)))]
+    )
+    wider = _scheme_of(
+        [{"code": n, "name": n, "rank": r} for r, n in enumerate(names)], "another name"
+    )
+    assert [facies_colour(n, given) for n in names] == [facies_colour(n, wider) for n in names]
+    # a geologist's ranks: deeper facies darker, the deepest bluer than the shallowest
+    value = [rgb_to_hsv(to_rgb(facies_colour(n, given)))[2] for n in names]
+    assert value[-1] < value[1] and value[-1] < value[2]
+    deep, shallow = to_rgb(facies_colour(names[-1], given)), to_rgb(facies_colour(names[1], given))
+    assert deep[2] - deep[0] > shallow[2] - shallow[0]
+    # the trade's words place a facies the same way without a scheme
+    assert to_rgb(bare[-1])[2] - to_rgb(bare[-1])[0] > to_rgb(bare[1])[2] - to_rgb(bare[1])[0]
+    # a colour the scheme gives is kept; a name without the trade's words still has one
+    coloured = _scheme_of([{"code": "A", "name": "a", "rank": 0, "colour": "#123456"}])
+    assert facies_colour("A", coloured) == "#123456"
+    assert facies_colour("widget") == facies_colour("widget") != facies_colour("gadget")
+
+
+def test_legend_prints_a_facies_name_that_repeats_its_code_once(model):
+    scheme = _scheme_of(
+        [
+            {"code": c, "name": f"facies {c}", "rank": r}
+            for r, c in enumerate(("CP", "FS", "USF", "LSF", "OTZ", "OFF", "SHM"))
+        ]
+    )
+    fig = strip_log(synthetic_core(model), scheme, model)
+    texts = [" ".join(t.get_text().split()) for leg in _legends(fig) for t in leg.get_texts()]
+    assert "CP" in texts and not any("facies CP" in t for t in texts)

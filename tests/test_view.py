@@ -168,12 +168,15 @@ def test_page_says_whether_the_probabilities_were_checked():
     assert data["checked"] is True and data["note"] == note
 
 
-def test_without_a_scheme_the_facies_are_grey_and_full_width():
+def test_without_a_scheme_the_facies_are_full_width_in_their_names_colours():
+    from faciesseq.report.style import facies_colour
+
     interp = _interpretation()
     data = view_data(interp, None, default_tract_model())
     assert {c["measure"] for c in data["cores"]} == {"none"}
     assert set(data["cores"][0]["beds"]["width"]) == {1.0}
-    assert {f["colour"] for f in data["facies"]} == {"#c8c8c8"}
+    # the colour a facies has in every figure without a scheme (from its name)
+    assert all(f["colour"] == facies_colour(f["code"]) for f in data["facies"])
 
 
 # ---------------------------------------------------------------- the command line
@@ -308,3 +311,101 @@ def test_hover_toggle_and_zoom_in_chromium(tmp_path):
     assert out["tracksAfter"] == ["facies", "tract", "surf"]
     (top0, base0), (top1, base1) = out["range"]
     assert base1 - top1 == pytest.approx((base0 - top0) / 2, rel=1e-3)
+
+
+# ---------------------------------------------------------------- layout of the page
+
+
+def _shifted(core, by: float, name: str):
+    """``core`` moved ``by`` down the hole and renamed."""
+    beds = core.beds.assign(top=core.beds["top"] + by, base=core.beds["base"] + by)
+    bounds = core.boundaries.assign(depth=core.boundaries["depth"] + by)
+    picks = core.picks.copy()
+    for column in ("depth", "depth_top", "depth_base"):
+        picks[column] = picks[column] + by
+    return type(core)(name, "m", core.tracts, core.surfaces, beds, bounds, picks, 0.0)
+
+
+def _apart(names=("W-1", "W-2", "W-3", "W-4"), step=300.0) -> Interpretation:
+    """Cores of one field cored at depths far apart (the second at 300 m below the
+    first, ...), the first with a pick at its very top."""
+    model = default_tract_model()
+    cores = {
+        n: _shifted(synthetic_core(model, n, seed=k), k * step, n) for k, n in enumerate(names)
+    }
+    first = cores[names[0]]
+    first.picks.loc[first.picks.index[0], ["depth", "depth_top"]] = float(first.beds["top"].min())
+    return Interpretation.from_cores(cores, first.tracts, first.surfaces, {})
+
+
+def test_cores_far_apart_hang_on_their_own_tops_by_default():
+    from faciesseq.report.view import hang_by_default
+
+    assert hang_by_default([(80.0, 153.0), (310.0, 349.0)])
+    assert not hang_by_default([(80.0, 153.0), (95.0, 160.0)])
+    assert not hang_by_default([(80.0, 153.0)])  # one core fills its column anyway
+    scheme = load_scheme(SHOREFACE)
+    assert view_data(_apart(), scheme, default_tract_model())["hang"] is True
+    assert view_data(_interpretation(), scheme, default_tract_model())["hang"] is False
+
+
+#: Run after the page's script: where the legend, wells, first beds and pick labels are.
+_LAYOUT = """<script>
+(function () {
+  const out = {};
+  const box = r => ({left: r.left, right: r.right, top: r.top, bottom: r.bottom});
+  out.legend = box(document.getElementById("legend").getBoundingClientRect());
+  out.wells = [...document.querySelectorAll(".well svg")].map(s => box(s.getBoundingClientRect()));
+  const firstBeds = () => [...document.querySelectorAll(".well svg")].map(s =>
+    s.querySelector('[data-track="facies"] [data-bed="0"]').getBoundingClientRect().top);
+  out.hang = document.getElementById("hang").checked;
+  out.firstBeds = firstBeds();
+  out.labels = [...document.querySelectorAll(".well svg")].map(svg => {
+    const heads = [...svg.querySelectorAll("text.small")].filter(t => /decoded|contact/.test(
+      t.textContent)).map(t => t.getBoundingClientRect().bottom);
+    const hatch = [...svg.querySelectorAll('rect[fill^="url(#gap"]')];
+    return [...svg.querySelectorAll("text")].filter(t => /^[A-Z]+ \\d\\.\\d\\d$/.test(
+      t.textContent)).map(t => ({
+        top: t.getBoundingClientRect().top, heads: Math.max(...heads),
+        clipped: !!t.closest("[clip-path]"),
+        underHatch: hatch.some(h => h.compareDocumentPosition(t) &
+          Node.DOCUMENT_POSITION_PRECEDING)}));
+  });
+  document.getElementById("hang").click();
+  out.firstBedsAfter = firstBeds();
+  const pre = document.createElement("pre");
+  pre.id = "probe"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
+    html = view_html(_apart(), load_scheme(SHOREFACE), default_tract_model())
+    page = tmp_path / "layout.html"
+    page.write_text(html.replace("</body>", _LAYOUT + "</body>", 1), encoding="utf-8")
+    dom, log = open_page(page, tmp_path / "layout.png", size="1200,1400")
+    assert page_errors(log) == []
+    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
+    assert found, "the layout probe did not run"
+    out = json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    legend = out["legend"]
+    for well in out["wells"]:  # four wells do not fit beside the legend: it goes above them
+        apart = (
+            well["right"] <= legend["left"]
+            or well["left"] >= legend["right"]
+            or well["top"] >= legend["bottom"]
+            or well["bottom"] <= legend["top"]
+        )
+        assert apart, (well, legend)
+    labels = [label for well in out["labels"] for label in well]
+    assert labels
+    for label in labels:  # under the tracks' heads, over the gaps' hatching, never clipped
+        assert label["top"] >= label["heads"] - 0.5
+        assert not label["clipped"] and not label["underHatch"]
+    # cores 300 m apart hang on their tops: first beds level; on one axis they are not
+    assert out["hang"] is True
+    assert max(out["firstBeds"]) - min(out["firstBeds"]) < 1.0
+    assert out["firstBedsAfter"][1] > out["firstBedsAfter"][0] + 50

@@ -46,6 +46,7 @@ from faciesseq.report.document import (
     ViewBlock,
 )
 from faciesseq.report.methods import methods_section
+from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["Appendix", "build_appendix", "core_key", "jsonable", "write_appendix"]
@@ -279,7 +280,7 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
             "from most landward (top) to most basinward.",
             fig.bar_chart(
                 proportions,
-                colours={c: scheme.colour(c) for c in proportions.index if c in scheme},
+                colours={c: facies_colour(c, scheme) for c in proportions.index},
                 xlabel="proportion",
                 ylabel="facies",
             ),

@@ -13,7 +13,13 @@ import re
 import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock
-from faciesseq.report.section import CAPTION, hanging_datum, section_plot
+from faciesseq.report.section import (
+    CAPTION,
+    distance_label,
+    hanging_datum,
+    section_heading,
+    section_plot,
+)
 from faciesseq.report.style import figure_style
 
 __all__ = ["correlation_section"]
@@ -70,7 +76,8 @@ def correlation_section(
     for k, name in enumerate(sorted(correlation.wells["section"].unique()), start=1):
         slug = re.sub(r"[^a-z0-9]+", "-", str(name).lower()).strip("-")[:40]
         key = f"section{k:02d}" + (f"-{slug}" if slug else "")
-        sub = s.sub(f"Section {name}")
+        heading = section_heading(name)
+        sub = s.sub(heading)
         hung, _ = hanging_datum(correlation, name, datum)
         hanger = "the core tops" if hung == "depth" else hung
         with figure_style():
@@ -79,7 +86,8 @@ def correlation_section(
         sub.add(
             FigureBlock(
                 f"{key}_figure",
-                f"Section {name}: {len(wells)} wells at their distance along the section, hung "
+                f"{heading}: {len(wells)} wells at their "
+                f"{distance_label(position_label)}, hung "
                 f"on {hanger}; decoded tract columns, correlated surfaces (dashed: doubtful) "
                 f"and tracts shaded between ties. {CAPTION}",
                 fig,
@@ -90,12 +98,13 @@ def correlation_section(
             sub.add(
                 TableBlock(
                     f"{key}_ties",
-                    f"Ties of section {name}, well to next well along the section: correlated "
+                    f"Ties, {heading[0].lower() + heading[1:]}, well to next well along the "
+                    "section: correlated "
                     f"surface, depths ({units}) and the tie's confidence.",
                     _ties_table(ties, units),
                     probabilities=("confidence",),
                 )
             )
         else:
-            sub.add(Paragraph(f"No surface was tied in section {name}."))
+            sub.add(Paragraph(f"No surface was tied ({heading[0].lower() + heading[1:]})."))
     return s

@@ -18,9 +18,10 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
 from matplotlib.ticker import MaxNLocator
 
-from faciesseq.report.striplog import _legend_label, plain
+from faciesseq.report.striplog import _legend_label, facies_name, plain
 from faciesseq.report.style import (
     PAGE_WIDTH,
+    facies_colour,
     figure_style,
     new_figure,
     tract_colour,
@@ -254,19 +255,27 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
     )
     ax.add_patch(arrow)
     if label:
-        mid = (np.asarray(p) + np.asarray(q)) / 2
-        d = np.asarray(q) - np.asarray(p)
-        normal = np.array([d[1], -d[0]]) / (np.hypot(*d) or 1)
-        pos = mid + normal * rad * np.hypot(*d) * 0.55
         ax.text(
-            *pos,
+            *arc_middle(p + gap * unit, q - gap * unit, rad),
             label,
             ha="center",
             va="center",
             fontsize=6.5,
             bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none", "alpha": 0.85},
+            gid=kw.get("gid"),
+            zorder=5,  # over a circle the arc passes near
         )
     return arrow
+
+
+def arc_middle(start, end, rad: float) -> np.ndarray:
+    """The middle of matplotlib's ``arc3`` arc from ``start`` to ``end``: a quadratic
+    Bezier curve whose control point lies ``rad`` times the chord's length off the
+    chord's middle, to its right (``arc3``'s own construction, in axes whose x and y
+    units are drawn the same length), so the curve's middle lies half as far off."""
+    start, end = np.asarray(start, float), np.asarray(end, float)
+    d = end - start
+    return (start + end) / 2 + 0.5 * rad * np.array([d[1], -d[0]])
 
 
 def tract_graph(
@@ -367,11 +376,17 @@ def facies_relationship_diagram(
     significant: pd.DataFrame | None = None,
     threshold: float = 0.05,
     title: str = "",
+    order: Sequence[str] | None = None,
 ) -> Figure:
     """Facies relationship diagram: arrows for upward transitions more frequent than chance.
 
     Facies are placed on a circle in order of proximality rank (most landward
-    at the top, going clockwise); an arrow ``A -> B`` is drawn where the
+    at the top, going clockwise), from ``scheme``; without one in ``order``
+    (the facies order the transitions suggest, :func:`transition_order`) or else in
+    the order the positive cells of ``difference`` suggest, so that arrows between
+    neighbours in a shallowing or deepening run go round the circle and do not
+    cross it. Each facies' name is written inside its circle, wrapped and
+    made smaller until it fits. An arrow ``A -> B`` is drawn where the
     observed minus expected transition probability (``difference``, rows =
     lower facies) exceeds ``threshold``; its width grows with the difference.
     Arrows of cells marked in ``significant`` are solid, others dashed.
@@ -383,7 +398,10 @@ def facies_relationship_diagram(
     codes = [str(c) for c in difference.index]
     if scheme is not None:
         known = [c for c in scheme.codes_by_rank if c in codes]
-        codes = known + [c for c in codes if c not in known]
+    else:
+        suggested = list(order) if order is not None else transition_order(difference)
+        known = [c for c in suggested if c in codes]
+    codes = known + [c for c in codes if c not in known]
     pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
     values = difference.reindex(index=codes, columns=codes)
     sig = (
@@ -408,34 +426,41 @@ def facies_relationship_diagram(
                 if not np.isfinite(d) or d <= threshold:
                     continue
                 solid = bool(sig.loc[a, b]) if sig is not None else True
+                # a short arrow bows enough that the labels of A -> B and B -> A,
+                # on arcs bowing to either side, stand apart
+                chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
                 _arrow(
                     ax,
                     pos[a],
                     pos[b],
                     width=0.5 + 2.5 * d / (top or 1.0),
                     colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=0.28,
+                    rad=max(0.28, 0.24 / max(chord, 1e-9)),
                     label=f"{d:.2f}" if solid else None,
                     node_radius=radius,
                     linestyle="-" if solid else (0, (3, 2)),
+                    gid=f"transition {a} -> {b}",
                 )
                 n_drawn += 1
+        names = []
         for code in codes:
             x, y = pos[code]
-            colour = scheme.colour(code) if scheme is not None and code in scheme else "#c8c8c8"
+            colour = facies_colour(code, scheme)
             circle = Circle((x, y), radius, fc=colour, ec="black", lw=0.8, zorder=3)
             ax.add_patch(circle)
-            ax.text(
+            name = ax.text(
                 x,
                 y,
-                code,
+                _wrapped(code),
                 ha="center",
                 va="center",
                 fontsize=7,
                 zorder=4,
                 color=_text_colour(circle.get_facecolor()),
                 parse_math=False,
+                gid=f"facies {code}",
             )
+            names.append((name, circle))
         ax.set_xlim(-1.4, 1.4)
         ax.set_ylim(-1.4, 1.4)
         handles = [
@@ -445,10 +470,12 @@ def facies_relationship_diagram(
         if scheme is not None:
             handles += [
                 Patch(
-                    fc=scheme.colour(c) if c in scheme else "#c8c8c8",
+                    fc=facies_colour(c, scheme),
                     ec="black",
                     lw=0.4,
-                    label=plain(_legend_label(c, scheme[c].name if c in scheme else "", 44)),
+                    label=plain(
+                        _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
+                    ),
                 )
                 for c in codes
             ]
@@ -464,7 +491,62 @@ def facies_relationship_diagram(
             ax.set_title(title, parse_math=False)
         if n_drawn == 0:
             ax.text(0, 0, "no transition above chance", ha="center", va="center")
+        _fit_in_circles(fig, names)
     return fig
+
+
+def transition_order(difference: pd.DataFrame) -> list[str]:
+    """The facies of ``difference`` (rows = lower facies) in the order their upward
+    transitions above chance suggest, most landward first: the seriation of
+    :func:`faciesseq.markov.seriation.suggest_ranks` run on the positive cells (the
+    path through every facies along the strongest links); the given order where
+    fewer than three facies are linked."""
+    from faciesseq.markov.seriation import suggest_ranks
+
+    values = difference.astype(float)
+    steps = values.stack()
+    steps = steps[np.isfinite(steps.to_numpy()) & (steps.to_numpy() > 0)]
+    steps.index = steps.index.set_names(["below", "above"])
+    steps.index = pd.MultiIndex.from_arrays(
+        [steps.index.get_level_values(k).astype(str) for k in (0, 1)], names=["below", "above"]
+    )
+    suggestion = suggest_ranks(steps) if len(steps) else None
+    codes = [str(c) for c in difference.index]
+    if suggestion is None:
+        return codes
+    ranked = sorted(suggestion.ranks, key=lambda c: (suggestion.ranks[c], codes.index(c)))
+    return ranked + [c for c in codes if c not in suggestion.ranks]
+
+
+def _wrapped(name: str, width: int = 10) -> str:
+    """A facies name on lines of about ``width`` characters (whole words)."""
+    import textwrap
+
+    return "\n".join(textwrap.wrap(str(name), width, break_long_words=False)) or str(name)
+
+
+def _fit_in_circles(fig: Figure, names, smallest: float = 4.0) -> None:
+    """Make each name smaller until its box lies inside its circle (a long facies
+    name ran out of its circle in white letters, unreadable on the white page)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    if not names:
+        return
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw_without_rendering()  # the layout, so that sizes are the saved ones
+    for text, circle in names:
+        while text.get_fontsize() > smallest and not _inside(text, circle, renderer):
+            text.set_fontsize(text.get_fontsize() - 0.5)
+
+
+def _inside(text, circle, renderer) -> bool:
+    """Whether the box of ``text`` lies inside ``circle`` (display coordinates)."""
+    box = text.get_window_extent(renderer)
+    outline = circle.get_window_extent(renderer)
+    cx, cy = (outline.x0 + outline.x1) / 2, (outline.y0 + outline.y1) / 2
+    r = min(outline.width, outline.height) / 2 - 1.0
+    corners = [(box.x0, box.y0), (box.x0, box.y1), (box.x1, box.y0), (box.x1, box.y1)]
+    return all(np.hypot(x - cx, y - cy) <= r for x, y in corners)
 
 
 def loglik_trace(

@@ -12,6 +12,7 @@ import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
 from faciesseq.report.markov_text import order_explanation
+from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["format_p", "format_test", "markov_section"]
@@ -218,7 +219,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
     """The transition-statistics section (section 2 of the appendix)."""
     codes = list(report.codes)
     embedded = report.embedded
-    colours = {c: scheme.colour(c) for c in codes if c in scheme}
+    colours = {c: facies_colour(c, scheme) for c in codes}
     s = Section("Transition statistics")
     unit = (
         "beds (embedded chain: no facies above itself)"
@@ -266,7 +267,22 @@ def relationship_diagram(report, scheme: FaciesScheme | None = None):
         _masked(fo.difference, fo.structural, codes),
         scheme,
         significant=_labelled(fo.significant, codes).astype(bool),
+        order=None if scheme is not None else _suggested_order(report.counts, codes),
     )
+
+
+def _suggested_order(counts, codes) -> list[str] | None:
+    """The facies, most landward first, in the order their upward transitions suggest
+    (:func:`faciesseq.markov.seriation.suggest_ranks`, as ``scheme draft`` suggests
+    ranks), or ``None`` where fewer than three facies follow one another."""
+    from faciesseq.markov.seriation import suggest_ranks
+
+    steps = _labelled(counts, codes).astype(float).stack()
+    steps.index = steps.index.set_names(["below", "above"])
+    suggestion = suggest_ranks(steps[steps > 0])
+    if suggestion is None:
+        return None
+    return sorted(suggestion.ranks, key=lambda c: (suggestion.ranks[c], codes.index(c)))
 
 
 def _masked(matrix: np.ndarray, structural: np.ndarray, codes) -> pd.DataFrame:

@@ -52,9 +52,11 @@ def _tract_colours(tracts) -> dict[str, str]:
 
 
 def _facies_colours(scheme, codes) -> dict[str, str]:
+    from faciesseq.report.style import facies_colour
+
     if scheme is None:
         return {}
-    return {c: scheme.colour(c) for c in codes if c in scheme}
+    return {c: facies_colour(c, scheme) for c in codes}
 
 
 def _stationary(transmat: np.ndarray) -> np.ndarray:

@@ -2,8 +2,9 @@
 
 Each well is a tract column (colours of :mod:`faciesseq.report.style`) at its
 position along the section; correlated surfaces are lines from well to well
-(solid, dashed where the tie is doubtful), and the tracts are shaded between
-neighbouring wells between successive ties.
+(solid, dashed where the tie is doubtful), and each tract's interval in one well
+is shaded to the same tract's interval in the neighbouring well, between
+successive ties (never across another tract's interval).
 """
 
 from __future__ import annotations
@@ -26,10 +27,14 @@ from faciesseq.report.style import (
 
 __all__ = [
     "CAPTION",
+    "DEFAULT_SECTION",
     "datum_shifts",
+    "distance_label",
     "hanging_datum",
     "section_figure",
+    "section_heading",
     "section_plot",
+    "section_title",
     "tract_bands",
 ]
 
@@ -38,6 +43,41 @@ CAPTION = (
     "biostratigraphy and well logs; it informs a geologist's interpretation and does not "
     "replace it."
 )
+
+
+#: The name the wells table gives its one section where it has no ``section`` column
+#: (:mod:`faciesseq.correlation.wells`): a title does not print it.
+DEFAULT_SECTION = "section"
+
+#: Units a position column's name states (``x_km``, ``distance_km``).
+_DISTANCE_UNITS = {"km": "km", "m": "m", "ft": "ft", "mi": "mi"}
+
+
+def distance_label(position_label: str) -> str:
+    """The position axis' label with its units: ``x_km`` and ``distance_km`` read
+    "distance along the section (km)"; a column that states no units (``distance``,
+    ``position``) says the values are in the wells table's units; a label that already
+    names its units (map coordinates) is kept."""
+    label = str(position_label)
+    if "(" in label:
+        return label
+    unit = _DISTANCE_UNITS.get(label.rsplit("_", 1)[-1].lower()) if "_" in label else None
+    if unit is not None:
+        return f"distance along the section ({unit})"
+    return "distance along the section (units of the wells table)"
+
+
+def section_heading(section: str) -> str:
+    """``Section <name>``, or ``Correlated surfaces`` for the one section of a wells
+    table that names none (not "Section section")."""
+    return "Correlated surfaces" if str(section) == DEFAULT_SECTION else f"Section {section}"
+
+
+def section_title(section: str, datum: str) -> str:
+    """The figure's title: the section's name where the wells table names sections."""
+    if str(section) == DEFAULT_SECTION:
+        return f"Correlated surfaces, hung on {datum}"
+    return f"Section {section}: correlated surfaces, hung on {datum}"
 
 
 def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | None]:
@@ -103,23 +143,51 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
     return {c: float(at[c]) if c in at else float(np.interp(pos[c], xs, ys)) for c in names}, label
 
 
-def _column_tract(tracts: pd.DataFrame, top: float, base: float) -> str | None:
-    """The tract holding most thickness between ``top`` and ``base`` in one well."""
-    inside = tracts[(tracts["base"] > top) & (tracts["top"] < base)]
-    if not len(inside):
-        return None
-    t = np.minimum(inside["base"], base) - np.maximum(inside["top"], top)
-    return str(
-        pd.Series(t.to_numpy(), index=inside["tract"].to_numpy()).groupby(level=0).sum().idxmax()
-    )
+def _tract_runs(tracts: pd.DataFrame, top: float, base: float) -> list[tuple[float, float, str]]:
+    """``(top, base, tract)`` of the runs of one tract in one well between ``top`` and
+    ``base`` (beds clipped to it), in depth order; touching beds of a tract join."""
+    inside = tracts[(tracts["base"] > top) & (tracts["top"] < base)].sort_values("top")
+    runs: list[tuple[float, float, str]] = []
+    for bed in inside.itertuples(index=False):
+        t, b, code = max(float(bed.top), top), min(float(bed.base), base), str(bed.tract)
+        if runs and runs[-1][2] == code and abs(runs[-1][1] - t) < 1e-9:
+            runs[-1] = (runs[-1][0], b, code)
+        elif b > t:
+            runs.append((t, b, code))
+    return runs
+
+
+def _matched_runs(left: list, right: list) -> list[tuple[int, int]]:
+    """Pairs ``(i, j)`` of runs of the same tract, the most pairs that keep their depth
+    order in both wells (a longest common subsequence of the tract codes), so that no
+    two fills cross."""
+    n, m = len(left), len(right)
+    best = np.zeros((n + 1, m + 1), dtype=int)
+    for i in range(n - 1, -1, -1):
+        for j in range(m - 1, -1, -1):
+            same = left[i][2] == right[j][2]
+            best[i, j] = best[i + 1, j + 1] + 1 if same else max(best[i + 1, j], best[i, j + 1])
+    pairs, i, j = [], 0, 0
+    while i < n and j < m:
+        if left[i][2] == right[j][2] and best[i, j] == best[i + 1, j + 1] + 1:
+            pairs.append((i, j))
+            i, j = i + 1, j + 1
+        elif best[i + 1, j] >= best[i, j + 1]:
+            i += 1
+        else:
+            j += 1
+    return pairs
 
 
 def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tuple]:
     """Tract shading between neighbouring wells, between successive ties.
 
     ``(left, right, (top_left, base_left, top_right, base_right), tract)`` for
-    every band, depths unshifted; the tract is the one holding most thickness
-    in the left well's interval (else the right well's).
+    every band, depths unshifted. Between two successive ties (and above the first,
+    below the last) each run of a tract in the left well is joined to a run of the
+    same tract in the right well, in depth order (the most such pairs, none crossing);
+    a run with no partner (a tract that thins out between the wells) is not shaded,
+    so a fill never spans another tract's interval.
     """
     out = []
     for left, right in itertools.pairwise(names):
@@ -129,9 +197,12 @@ def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tup
         levels += list(zip(pair["depth_left"], pair["depth_right"]))
         levels += [(a["base"].max(), b["base"].max())]
         for (ta, tb), (ba, bb) in itertools.pairwise(levels):
-            code = _column_tract(a, ta, ba) or _column_tract(b, tb, bb)
-            if code is not None and ba > ta and bb > tb:
-                out.append((left, right, (ta, ba, tb, bb), code))
+            if not (ba > ta and bb > tb):
+                continue
+            runs_a, runs_b = _tract_runs(a, ta, ba), _tract_runs(b, tb, bb)
+            for i, j in _matched_runs(runs_a, runs_b):
+                (t0, b0, code), (t1, b1, _) = runs_a[i], runs_b[j]
+                out.append((left, right, (t0, b0, t1, b1), code))
     return out
 
 
@@ -192,7 +263,8 @@ def section_plot(
     datum
         See :func:`datum_shifts`.
     units, position_label
-        Depth units and the label of the position axis.
+        Depth units, and the wells table's position column (the axis label with
+        its units, :func:`distance_label`).
     tract_order
         Tract codes in the tract model's order (legend, extra colours).
     """
@@ -267,9 +339,9 @@ def section_plot(
         )
     _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
     ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
-    ax.set_xlabel(position_label)
+    ax.set_xlabel(distance_label(position_label))
     ax.set_ylabel(f"{ylabel} ({units})")
-    ax.set_title(f"Section {section}: correlated surfaces, hung on {datum}")
+    ax.set_title(section_title(section, datum), parse_math=False)
     kinds = list(dict.fromkeys(ties["surface"]))
     handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
     handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]

@@ -17,7 +17,14 @@ from __future__ import annotations
 
 import pandas as pd
 
-from faciesseq.report.section import CAPTION, datum_shifts, hanging_datum, tract_bands
+from faciesseq.report.section import (
+    CAPTION,
+    datum_shifts,
+    distance_label,
+    hanging_datum,
+    section_heading,
+    tract_bands,
+)
 from faciesseq.report.style import surface_colour, tract_colour
 from faciesseq.report.view import SVG_HELPERS, _number, _numbers, page_html
 
@@ -51,6 +58,7 @@ def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -
     }
     return {
         "name": str(section),
+        "heading": section_heading(section),
         "datum": label,
         "wells": [
             {
@@ -132,7 +140,7 @@ def section_view_data(
     kinds = list(dict.fromkeys(correlation.ties["surface"].astype(str)))
     return {
         "units": units,
-        "position_label": position_label,
+        "position_label": distance_label(position_label),
         "caption": CAPTION,
         "note": note,
         "tracts": [{"code": t, "colour": tract_colour(t, tract_order)} for t in tract_order],
@@ -238,7 +246,7 @@ _JS = r"""
   function drawSection(sec, si) {
     const box = document.createElement("section");
     const h = document.createElement("h2");
-    h.textContent = "Section " + sec.name + " \u2013 " + sec.datum;
+    h.textContent = sec.heading + " \u2013 " + sec.datum;
     box.appendChild(h);
     const wells = {}; sec.wells.forEach(w => { wells[w.core] = w; });
     let lo = Infinity, hi = -Infinity, xmin = Infinity, xmax = -Infinity;

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from faciesseq.report.style import facies_colour
+
 #: The project's own tract colours (upward cycle HST -> FSST -> LST -> TST).
 TRACT_COLOURS = {"HST": "#e9c46a", "FSST": "#e76f51", "LST": "#8ab17d", "TST": "#5fa8d3"}
 
@@ -68,7 +70,7 @@ def section_figure(history, scenario, wells=(), timeline_kyr: float = 10.0):
     facies_idx = np.ma.masked_where(thick <= 1e-6, facies_idx)
 
     fig, ax = plt.subplots(figsize=(12, 5.5), layout="constrained")
-    cmap = ListedColormap([scheme.colour(c) for c in codes])
+    cmap = ListedColormap([facies_colour(c, scheme) for c in codes])
     xx = np.broadcast_to(x, elevation.shape)
     ax.pcolormesh(
         xx,
@@ -122,7 +124,7 @@ def section_figure(history, scenario, wells=(), timeline_kyr: float = 10.0):
         f"{scenario.name}: dip section {history.name!r} after "
         f"{history.time_kyr[-1]:g} kyr (time lines every {timeline_kyr:g} kyr)"
     )
-    handles = [Patch(color=scheme.colour(c), label=f"{c}") for c in codes]
+    handles = [Patch(color=facies_colour(c, scheme), label=f"{c}") for c in codes]
     handles += [
         Line2D([], [], color=TRACT_COLOURS[t], marker="o", lw=0, label=f"shoreline, {t}")
         for t in TRACT_COLOURS
@@ -253,7 +255,7 @@ def cores_figure(result, section: str, max_cores: int = 14):
         ax.add_collection(
             PolyCollection(
                 _boxes(np.zeros_like(top), width, top, base),
-                facecolors=[scheme.colour(f) for f in table["facies"]],
+                facecolors=[facies_colour(f, scheme) for f in table["facies"]],
                 edgecolors="none",
             )
         )
@@ -287,7 +289,7 @@ def cores_figure(result, section: str, max_cores: int = 14):
     axes[0][0].set_ylim(depth_max * 1.01, 0)
     axes[0][0].set_ylabel("depth below top of core (m)")
     codes = [c for c in scheme.codes_by_rank if any(c == b[0] for b in result.scenario.depth_bands)]
-    handles = [Patch(color=scheme.colour(c), label=c) for c in codes]
+    handles = [Patch(color=facies_colour(c, scheme), label=c) for c in codes]
     handles += [Patch(color=c, label=f"true {t}") for t, c in TRACT_COLOURS.items()]
     from matplotlib.lines import Line2D
 

@@ -33,6 +33,7 @@ from faciesseq.interpretation import CoreInterpretation
 from faciesseq.report.document import format_probability
 from faciesseq.report.style import (
     PAGE_WIDTH,
+    facies_colour,
     figure_style,
     new_figure,
     save_figure,
@@ -41,14 +42,15 @@ from faciesseq.report.style import (
 )
 from faciesseq.scheme import FaciesScheme, TractModel
 
-__all__ = ["GRAIN_CLASSES", "UNCHECKED_NOTE", "bed_widths", "plain", "strip_log"]
+__all__ = ["GRAIN_CLASSES", "UNCHECKED_NOTE", "bed_widths", "facies_name", "plain", "strip_log"]
 
 #: Grain-size classes of the facies scheme (1 clay ... 7 gravel), abbreviated for ticks.
 GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
 #: Printed under the probability track when the probabilities were not checked.
 UNCHECKED_NOTE = "probabilities not checked"
-_UNKNOWN_FACIES = "#c8c8c8"
 _GAP = "#f0f0f0"
+#: Right end of the surface panel: a pick at probability 1 keeps its marker inside.
+_SURFACE_XMAX = 1.1
 
 
 def plain(text: object) -> str:
@@ -57,7 +59,7 @@ def plain(text: object) -> str:
 
 
 def _facies_colour(scheme: FaciesScheme, code: str) -> str:
-    return scheme.colour(code) if code in scheme else _UNKNOWN_FACIES
+    return facies_colour(code, scheme)
 
 
 def bed_widths(beds: pd.DataFrame, scheme: FaciesScheme) -> tuple[np.ndarray, str]:
@@ -152,6 +154,14 @@ def _legend_label(code: str, name: str, width: int) -> str:
     lines = textwrap.wrap(name, width) or [""]
     indent = " " * (len(code) + 4)
     return "\n".join([f"{code}  {lines[0]}".rstrip(), *(indent + line for line in lines[1:])])
+
+
+def facies_name(code: str, name: str) -> str:
+    """The name a legend prints beside ``code``: empty where it only repeats the code
+    (``facies <code>``, the name a drafted or suggested scheme gives until a geologist
+    writes one)."""
+    name = str(name).strip()
+    return "" if name.lower() in (code.lower(), f"facies {code}".lower()) else name
 
 
 def _rows(labels) -> int:
@@ -312,7 +322,8 @@ def _surface_track(ax, interp, picks, surfaces, step, units) -> list[tuple[float
             bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
         )
         pick_lines.append((depth, colour))
-    ax.set_xlim(0, 1.0)
+    # room right of 1 for a pick marker and its interval's caps at probability 1
+    ax.set_xlim(0, _SURFACE_XMAX)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("surface probability")
     ax.set_xlabel(f"per {step:.3g} {units} cell")
@@ -437,7 +448,9 @@ def strip_log(
         c for c in facies_present if c not in scheme
     ]
     facies_labels = [
-        _legend_label(c, scheme[c].name, 30) if c in scheme else f"{c}  (not in scheme)"
+        _legend_label(c, facies_name(c, scheme[c].name), 30)
+        if c in scheme
+        else f"{c}  (not in scheme)"
         for c in facies_order
     ]
     tract_names = {t.code: t.name for t in tract_model.tracts}

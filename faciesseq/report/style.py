@@ -12,7 +12,9 @@ Sizes are in inches for print: a full page-width figure is
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import io
+import itertools
 import os
 import re
 import warnings
@@ -28,6 +30,7 @@ __all__ = [
     "PAGE_WIDTH",
     "SURFACE_COLOURS",
     "TRACT_COLOURS",
+    "facies_colour",
     "figure_style",
     "missing_glyphs_once",
     "new_figure",
@@ -107,6 +110,176 @@ def surface_colour(code: str, surfaces: Sequence[str] = ()) -> str:
     extras = [s for s in surfaces if s not in SURFACE_COLOURS]
     k = extras.index(code) if code in extras else sum(map(ord, code))
     return _SURFACE_EXTRA[k % len(_SURFACE_EXTRA)]
+
+
+#: The project's own facies ramp, landward to basinward (position 0 to 1): soil
+#: browns, beach and shoreface sands, then grey-greens darkening into the blue-grey
+#: of the deepest muds, so that a darker, bluer box reads as deeper water.
+FACIES_RAMP: tuple[tuple[float, str], ...] = (
+    (0.0, "#6e5434"),  # umber: soils, coal-bearing plains
+    (0.12, "#9a7b45"),  # ochre-brown: coastal and delta plains
+    (0.26, "#e3c566"),  # straw: beach, foreshore
+    (0.40, "#d3b679"),  # buff sand: upper shoreface
+    (0.52, "#b9b58f"),  # khaki: lower shoreface
+    (0.66, "#8da58f"),  # sage: offshore transition
+    (0.82, "#5d7f84"),  # slate teal: offshore mud
+    (1.0, "#34445c"),  # dark blue-grey: outer shelf, basin
+)
+#: Nonmarine facies of a scheme that tells settings span this part of the ramp, the
+#: marine ones the rest.
+_NONMARINE_SPAN = (0.0, 0.2)
+_MARINE_SPAN = (0.24, 1.0)
+
+#: Words of a facies name and where they place it on :data:`FACIES_RAMP`, read where
+#: no scheme gives a rank (common usage of the trade; the first listed word found
+#: wins, so "lower shoreface" is read before "shoreface" and "offshore transition"
+#: before "offshore").
+FACIES_WORDS: tuple[tuple[str, float], ...] = (
+    ("coal", 0.0),
+    ("paleosol", 0.02),
+    ("palaeosol", 0.02),
+    ("soil", 0.03),
+    ("alluvial", 0.05),
+    ("fluvial", 0.06),
+    ("channel", 0.07),
+    ("floodplain", 0.08),
+    ("flood plain", 0.08),
+    ("swamp", 0.09),
+    ("marsh", 0.1),
+    ("coastal plain", 0.1),
+    ("delta plain", 0.11),
+    ("nonmarine", 0.1),
+    ("lagoon", 0.16),
+    ("estuar", 0.17),
+    ("tidal flat", 0.18),
+    ("beach", 0.25),
+    ("foreshore", 0.26),
+    ("upper shoreface", 0.38),
+    ("middle shoreface", 0.44),
+    ("lower shoreface", 0.52),
+    ("shoreface", 0.45),
+    ("mouth bar", 0.42),
+    ("delta front", 0.5),
+    ("prodelta", 0.72),
+    ("offshore transition", 0.64),
+    ("transition", 0.64),
+    ("outer shelf", 0.9),
+    ("offshore", 0.8),
+    ("shelf", 0.84),
+    ("slope", 0.92),
+    ("turbidite", 0.95),
+    ("basin", 0.97),
+    ("pelagic", 1.0),
+    ("deep", 0.97),
+    # lithology alone says less: read only where no setting word is found
+    ("conglomerate", 0.08),
+    ("gravel", 0.08),
+    ("sandstone", 0.4),
+    ("sand", 0.4),
+    ("heterolith", 0.62),
+    ("siltstone", 0.66),
+    ("mudstone", 0.8),
+    ("shale", 0.82),
+    ("claystone", 0.84),
+)
+
+#: Colours of facies whose name says nothing of their setting, chosen by a digest of
+#: the name (the project's own, apart from the ramp's browns and blue-greys).
+_NAMED_COLOURS = (
+    "#b07aa1",
+    "#c98b5a",
+    "#7f9c4a",
+    "#6c8fb3",
+    "#c4677a",
+    "#9a8fc1",
+    "#d09f3f",
+    "#5f9e93",
+    "#a86b4f",
+    "#8a8a5c",
+)
+
+
+def _ramp(position: float) -> tuple[float, float, float]:
+    """RGB (0-1) of ``position`` (0 landward ... 1 basinward) on :data:`FACIES_RAMP`."""
+    from matplotlib.colors import to_rgb
+
+    position = min(max(float(position), 0.0), 1.0)
+    for (x0, c0), (x1, c1) in itertools.pairwise(FACIES_RAMP):
+        if position <= x1:
+            f = (position - x0) / (x1 - x0)
+            a, b = to_rgb(c0), to_rgb(c1)
+            return tuple(u + f * (v - u) for u, v in zip(a, b, strict=True))  # type: ignore[return-value]
+    return to_rgb(FACIES_RAMP[-1][1])
+
+
+def _digest(text: str) -> int:
+    """A number from ``text`` that is the same in every run (``hash`` is salted)."""
+    return int.from_bytes(hashlib.sha1(text.encode("utf-8")).digest()[:4], "big")
+
+
+def _shade(rgb: Sequence[float], text: str) -> str:
+    """``rgb`` lightened or darkened a little by ``text`` (facies sharing a place on
+    the ramp stay apart), as hex."""
+    from matplotlib.colors import to_hex
+
+    step = (_digest(text) % 5 - 2) * 0.045
+    return to_hex([min(max(c + step, 0.0), 1.0) for c in rgb])
+
+
+def name_position(name: str) -> float | None:
+    """Where the words of a facies name place it on :data:`FACIES_RAMP` (0 landward,
+    1 basinward), or ``None`` where they say nothing of its setting."""
+    text = " ".join(str(name).lower().replace("_", " ").replace("-", " ").split())
+    for word, position in FACIES_WORDS:
+        if word in text:
+            return position
+    return None
+
+
+def _rank_position(scheme, code: str) -> float:
+    """Place of ``code`` on the ramp from its rank in ``scheme`` (and its setting where
+    the scheme tells nonmarine facies from marine ones)."""
+    facies = scheme[code]
+    if scheme.tells_settings:
+        nonmarine = bool(facies.nonmarine)
+        ranks = sorted({f.rank for f in scheme.facies if bool(f.nonmarine) == nonmarine})
+        lo, hi = _NONMARINE_SPAN if nonmarine else _MARINE_SPAN
+    else:
+        ranks = sorted({f.rank for f in scheme.facies})
+        lo, hi = 0.0, 1.0
+    if len(ranks) == 1:
+        return (lo + hi) / 2
+    return lo + (hi - lo) * ranks.index(facies.rank) / (len(ranks) - 1)
+
+
+def facies_colour(code: str, scheme=None) -> str:
+    """The colour of facies ``code`` in every figure and page of the project.
+
+    The scheme's own ``colour`` where it gives one; else a place on the project's
+    landward-to-basinward ramp (:data:`FACIES_RAMP`) from the facies' rank among the
+    scheme's ranks (nonmarine facies in the ramp's browns, marine ones in the rest
+    where the scheme tells settings); else, with no scheme, a code outside it or ranks
+    only suggested from the data (not a geologist's), from the facies' name: its words
+    of the trade (:data:`FACIES_WORDS`) place it on the ramp, and a name without such
+    words gets a colour by a digest of the name. Facies sharing a place differ a little
+    in lightness, by their code. The same facies has the same colour in every run.
+    """
+    from faciesseq.markov.seriation import SUGGESTED
+
+    code = str(code)
+    if scheme is not None and code in scheme:
+        facies = scheme[code]
+        if facies.colour:
+            return facies.colour
+        if scheme.name != SUGGESTED:
+            return _shade(_ramp(_rank_position(scheme, code)), facies.code)
+        code = facies.code
+    position = name_position(code)
+    if position is None and scheme is not None and code in scheme:
+        position = name_position(scheme[code].name)
+    if position is None:
+        return _NAMED_COLOURS[_digest(code) % len(_NAMED_COLOURS)]
+    return _shade(_ramp(position), code)
 
 
 @contextlib.contextmanager

@@ -1,6 +1,7 @@
 """An interactive strip-log view of decoded cores: one self-contained HTML page.
 
-Several wells side by side on a shared depth axis (depth downward), each with
+Several wells side by side (depth downward), on a shared depth axis or each hung
+on its own top (:func:`hang_by_default`; a checkbox switches), each with
 the tracks of :func:`faciesseq.report.striplog.strip_log`: the facies column
 (boxes in the scheme's colours, width by grain size where every bed's is
 known, else by proximality rank), the decoded (Viterbi) tract column, the
@@ -26,13 +27,11 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
-from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths
-from faciesseq.report.style import surface_colour, tract_colour
+from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths, facies_name
+from faciesseq.report.style import facies_colour, surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["SVG_HELPERS", "page_html", "view_data", "view_html"]
-
-_UNKNOWN_FACIES = "#c8c8c8"
 
 
 def _number(value: object, digits: int = 10) -> float | None:
@@ -123,11 +122,29 @@ def _facies_legend(interpretation: Interpretation, scheme: FaciesScheme | None) 
         out.append(
             {
                 "code": code,
-                "name": scheme[code].name if known else "(not in scheme)",
-                "colour": scheme.colour(code) if known else _UNKNOWN_FACIES,
+                "name": facies_name(code, scheme[code].name) if known else "(not in scheme)",
+                "colour": facies_colour(code, scheme),
             }
         )
     return out
+
+
+#: Cores hang on their own tops by default where the longest core spans less than
+#: this share of the depth range of all cores on one axis: hung, the depth axis is
+#: then at most half as long (cores of one field at 80-153 m and 310-349 m; cores
+#: that all start near one depth stay on one axis, which hanging would not shorten).
+HANG_BELOW = 0.5
+
+
+def hang_by_default(ranges: list[tuple[float, float]]) -> bool:
+    """Whether the view should hang every core on its own top: the cores' depth ranges
+    ``(top, base)`` barely overlap, so that on one absolute depth axis the longest core
+    spans less than :data:`HANG_BELOW` of the axis. One core never hangs."""
+    ranges = [(a, b) for a, b in ranges if math.isfinite(a) and math.isfinite(b) and b > a]
+    if len(ranges) < 2:
+        return False
+    union = max(b for _, b in ranges) - min(a for a, _ in ranges)
+    return max(b - a for a, b in ranges) < HANG_BELOW * union
 
 
 def view_data(
@@ -160,7 +177,9 @@ def view_data(
         ``facies``, ``width`` 0-1, ``tract``, ``p`` one list per tract,
         ``top_contact`` / ``base_contact`` indices into ``contacts``),
         ``contacts`` (``depth``, ``p`` one list per surface), ``gaps`` and
-        ``picks``. Non-finite numbers are null.
+        ``picks``; ``hang``: whether the page opens with every core hung on its
+        own top (:func:`hang_by_default`; the reader switches between that and
+        one absolute depth axis). Non-finite numbers are null.
     """
     tracts = tuple(interpretation.tracts)
     surfaces = tuple(interpretation.surfaces)
@@ -169,6 +188,12 @@ def view_data(
     for sf in tract_model.surfaces:
         surface_names.setdefault(sf.code, sf.name)
     units = sorted({str(c.units) for c in interpretation})
+    cores = [_core_data(core, scheme) for core in interpretation if len(core.beds)]
+    ranges = [
+        (float(core.beds["top"].min()), float(core.beds["base"].max()))
+        for core in interpretation
+        if len(core.beds)
+    ]
     return {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
@@ -184,7 +209,8 @@ def view_data(
             for s in surfaces
         ],
         "facies": _facies_legend(interpretation, scheme),
-        "cores": [_core_data(core, scheme) for core in interpretation if len(core.beds)],
+        "cores": cores,
+        "hang": hang_by_default(ranges),
     }
 
 
@@ -288,6 +314,9 @@ _BODY = """<body>
 aria-label="top depth"> to <input id="base" type="number" step="any" \
 aria-label="base depth"> <span id="units"></span> <button type="submit">show</button></form>
 <span class="group" id="tracks"></span>
+<label class="group" title="each core drawn from its own top, with its own depth scale; \
+else every core on one depth axis"><input type="checkbox" id="hang"> hang each core on \
+its top</label>
 <span class="hint">wheel: zoom &middot; drag: scroll &middot; hover a bed for its numbers</span>
 </div>
 </header>
@@ -323,7 +352,12 @@ main { display: flex; align-items: flex-start; }
 #legend { flex: 0 0 16rem; padding: 0.5rem 0.8rem; border-left: 1px solid var(--rule);
   font-size: 12px; max-height: calc(100vh - 7rem); overflow-y: auto; }
 #legend h2 { font-size: 0.85rem; margin: 0.6rem 0 0.25rem; }
-#legend h2:first-child { margin-top: 0; }
+#legend .part:first-child h2 { margin-top: 0; }
+main.stacked { flex-direction: column; }
+main.stacked #legend { flex: none; order: -1; width: 100%; max-height: none; display: flex;
+  flex-wrap: wrap; gap: 0 2rem; border-left: 0; border-bottom: 1px solid var(--rule); }
+main.stacked #legend .part { flex: 0 1 18rem; }
+main.stacked #legend .part h2 { margin-top: 0; }
 #legend ul { list-style: none; margin: 0; padding: 0; }
 #legend li { display: flex; gap: 0.4rem; align-items: flex-start; margin: 0.12rem 0; }
 #legend .swatch { flex: 0 0 1.1rem; height: 0.8rem; margin-top: 0.15rem;
@@ -375,8 +409,20 @@ _JS = r"""
   });
   if (!isFinite(lo)) { lo = 0; hi = 1; }
   if (hi <= lo) hi = lo + 1;
-  const FULL = [lo, hi];
-  const view = {top: lo, base: hi};
+  // each core's own top and base: the origin of its depth when cores hang on their tops
+  const RANGES = DATA.cores.map(c => {
+    const t = c.beds.top.filter(v => v !== null), b = c.beds.base.filter(v => v !== null);
+    return [t.length ? Math.min(...t) : lo, b.length ? Math.max(...b) : hi];
+  });
+  let hang = !!DATA.hang;
+  function fullRange() {
+    if (!hang) return [lo, hi];
+    return [0, Math.max(1e-9, ...RANGES.map(r => r[1] - r[0]))];
+  }
+  let FULL = fullRange();
+  const view = {top: FULL[0], base: FULL[1]};
+  let shift = 0;  // depth of the top of the core being drawn where cores hang, else 0
+  const WELL_AXIS = 46;  // a hung core's own depth scale
   let plotH = 500;
   let dragState = null;  // {y, top, base} while the depth is dragged
 
@@ -386,7 +432,10 @@ _JS = r"""
     return String(+x.toFixed(digits));
   }
   function prob(x) { return x === null || x === undefined ? "n/a" : x.toFixed(3); }
-  function y(depth) { return HEAD + (depth - view.top) / (view.base - view.top) * plotH; }
+  // y of a core's depth (shift: its top where cores hang); depthAt gives the view's depth
+  function y(depth) {
+    return HEAD + (depth - shift - view.top) / (view.base - view.top) * plotH;
+  }
   function depthAt(py) { return view.top + (py - HEAD) / plotH * (view.base - view.top); }
 
 
@@ -398,7 +447,19 @@ _JS = r"""
     note.classList.add("unchecked");
     note.textContent = "Probabilities not checked. " + DATA.note;
   }
-  document.getElementById("units").textContent = DATA.units;
+  const unitsLabel = document.getElementById("units");
+  function showUnits() {
+    unitsLabel.textContent = DATA.units + (hang ? " below each core's top" : "");
+  }
+  showUnits();
+  const hangBox = document.getElementById("hang");
+  hangBox.checked = hang;
+  hangBox.addEventListener("change", () => {
+    hang = hangBox.checked;
+    showUnits();
+    FULL = fullRange();
+    setView(FULL[0], FULL[1]);
+  });
   const trackBox = document.getElementById("tracks");
   TRACKS.forEach(t => {
     const label = document.createElement("label");
@@ -440,7 +501,8 @@ _JS = r"""
 
   // ---------------------------------------------------------------- legend
   function legendList(title, items, kind) {
-    const box = document.getElementById("legend");
+    const box = document.createElement("div"); box.className = "part";
+    document.getElementById("legend").appendChild(box);
     const h = document.createElement("h2"); h.textContent = title; box.appendChild(h);
     const ul = document.createElement("ul"); box.appendChild(ul);
     items.forEach(it => {
@@ -467,7 +529,7 @@ _JS = r"""
     [{code: "", name: "gap (not described)", colour: "#f0f0f0", pattern: hatch}]), "swatch");
   const m = document.createElement("p"); m.className = "hint";
   m.textContent = measures.map(k => widthNote[k] || k).join("; ");
-  document.getElementById("legend").appendChild(m);
+  document.querySelector("#legend .part").appendChild(m);
   legendList("systems tract", tracts, "swatch");
   legendList("surface", surfaces.concat(
     [{code: "\u25c0", name: "pick: probability, uncertainty interval", colour: "#fff"}]), "line");
@@ -497,7 +559,9 @@ _JS = r"""
 
   function drawWell(core, ci, tickStep) {
     const div = document.createElement("div"); div.className = "well";
-    const W = wellWidth();
+    shift = hang ? RANGES[ci][0] : 0;
+    const xa = hang ? WELL_AXIS : 0;  // a hung core's depth scale, left of its tracks
+    const W = wellWidth() + xa;
     const svg = el("svg", {width: W, height: HEAD + plotH + FOOT, "data-core": ci}, div);
     div.appendChild(svg);
     const defs = el("defs", {}, svg);
@@ -507,21 +571,33 @@ _JS = r"""
       patternUnits: "userSpaceOnUse", patternTransform: "rotate(45)"}, defs);
     el("rect", {width: 5, height: 5, fill: "#f0f0f0"}, pat);
     el("line", {x1: 0, y1: 0, x2: 0, y2: 5, stroke: "#b0b0b0", "stroke-width": 1}, pat);
-    const fits = Math.max(4, Math.floor(W / 8));  // characters of the header that fit
+    const origin = hang ? "top " + fmt(RANGES[ci][0], 3) + " " + core.units : "";
+    // characters of the header that fit (beside the core's top where it hangs)
+    const fits = Math.max(4, Math.floor(W / 8) - Math.ceil(origin.length * 0.8));
     const name = text(svg, 0, 15, core.name.length > fits
       ? core.name.slice(0, fits - 1) + "\u2026" : core.name, "head");
     const title = el("title", {}, name); title.textContent = core.name;
+    if (hang) {
+      text(svg, W, 15, origin, "small", "end");
+      text(svg, xa - 6, HEAD - 8, core.units, "small", "end");
+      el("line", {x1: xa - 2, x2: xa - 2, y1: HEAD, y2: HEAD + plotH, stroke: "#333"}, svg);
+      const a = view.top + shift, b = view.base + shift;
+      for (let d = Math.ceil(a / tickStep) * tickStep; d <= b + 1e-9; d += tickStep) {
+        el("line", {x1: xa - 6, x2: xa - 2, y1: y(d), y2: y(d), stroke: "#333"}, svg);
+        text(svg, xa - 8, y(d) + 4, fmt(d, 3), "small", "end");
+      }
+    }
 
     const beds = core.beds, n = beds.top.length;
     // beds in view (depth order): binary search on the tops
     let first = 0, last = n;
     { let a = 0, b = n; while (a < b) { const k = (a + b) >> 1;
-        if (beds.base[k] <= view.top) a = k + 1; else b = k; } first = a; }
+        if (beds.base[k] <= view.top + shift) a = k + 1; else b = k; } first = a; }
     { let a = first, b = n; while (a < b) { const k = (a + b) >> 1;
-        if (beds.top[k] < view.base) a = k + 1; else b = k; } last = a; }
+        if (beds.top[k] < view.base + shift) a = k + 1; else b = k; } last = a; }
 
-    let x = 0;
-    const pickLines = [];
+    let x = xa;
+    const pickLines = [], pickLabels = [];
     visibleTracks().forEach(t => {
       const g = el("g", {"clip-path": "url(#" + clipId + ")", "data-track": t.key}, svg);
       text(svg, x, HEAD - 20, t.label, "small");
@@ -584,7 +660,7 @@ _JS = r"""
           stroke: "#888", "stroke-width": 0.5}, g);
         const cd = core.contacts.depth;
         for (let k = 0; k < cd.length; k++) {
-          if (cd[k] < view.top || cd[k] > view.base) continue;
+          if (cd[k] < view.top + shift || cd[k] > view.base + shift) continue;
           const py = y(cd[k]);
           let left = 0;
           surfaces.forEach((s, j) => {
@@ -606,14 +682,16 @@ _JS = r"""
             stroke: colour, "stroke-width": 1.2}, g);
           el("path", {d: "M" + px + "," + py + "l8,-5v10z", fill: colour, stroke: "#000",
             "stroke-width": 0.5}, g);
-          const ly = Math.max(py - 4, lastLabel + 12);  // above the pick's line
+          pickLines.push([p.depth, colour]);
+          if (py < HEAD || py > HEAD + plotH) return;  // the pick is out of view
+          // above the pick's line, clear of the one above, below the tracks' heads; a
+          // label pushed far from its pick by crowded ones above is left out (zoom in)
+          const ly = Math.max(py - 4, lastLabel + 12, HEAD + 11);
+          if (ly > py + 24 || ly > HEAD + plotH - 2) return;
           lastLabel = ly;
           const right = p.probability <= 0.55;
-          const lab = text(g, right ? px + 11 : px - 4, ly, p.surface + " " +
-            p.probability.toFixed(2), null, right ? "start" : "end");
-          lab.setAttribute("style", "font-size:10px;paint-order:stroke;stroke:#fff;" +
-            "stroke-width:3px;fill:" + colour);
-          pickLines.push([p.depth, colour]);
+          pickLabels.push([right ? px + 11 : px - 4, ly, p.surface + " " +
+            p.probability.toFixed(2), right ? "start" : "end", colour]);
         });
       }
       x += t.width + GAP;
@@ -622,28 +700,45 @@ _JS = r"""
     const over = el("g", {"clip-path": "url(#" + clipId + ")", "pointer-events": "none"}, svg);
     core.gaps.forEach(gp => {
       if (gp[1] < view.top || gp[0] > view.base) return;
-      el("rect", {x: 0, y: y(gp[0]), width: W, height: y(gp[1]) - y(gp[0]),
+      el("rect", {x: xa, y: y(gp[0]), width: W - xa, height: y(gp[1]) - y(gp[0]),
         fill: "url(#gap-" + ci + ")", stroke: "#b0b0b0", "stroke-width": 0.5}, over);
     });
-    let colsW = 0, at = 0;  // right edge of the facies and tract columns
+    // pick labels over the gaps' hatching, never clipped under the tracks' heads
+    const labels = el("g", {"pointer-events": "none", "class": "pick-labels"}, svg);
+    pickLabels.forEach(([lx, ly, str, anchor, colour]) => {
+      const lab = text(labels, lx, ly, str, null, anchor);
+      lab.setAttribute("style", "font-size:10px;paint-order:stroke;stroke:#fff;" +
+        "stroke-width:3px;fill:" + colour);
+    });
+    let colsW = 0, at = xa;  // right edge of the facies and tract columns
     visibleTracks().forEach(t => {
       if (t.key === "facies" || t.key === "tract") colsW = at + t.width + GAP;
       at += t.width + GAP;
     });
     pickLines.forEach(([d, colour]) => {
-      if (colsW > 0) el("line", {x1: 0, x2: colsW - GAP, y1: y(d), y2: y(d), stroke: colour,
+      if (colsW > 0) el("line", {x1: xa, x2: colsW - GAP, y1: y(d), y2: y(d), stroke: colour,
         "stroke-width": 1, "stroke-dasharray": "4 3"}, over);
     });
-    for (let d = Math.ceil(view.top / tickStep) * tickStep; d <= view.base + 1e-9; d += tickStep)
-      el("line", {x1: 0, x2: W, y1: y(d), y2: y(d), stroke: "#000", "stroke-opacity": 0.07}, over);
+    const a = view.top + shift, b = view.base + shift;
+    for (let d = Math.ceil(a / tickStep) * tickStep; d <= b + 1e-9; d += tickStep)
+      el("line", {x1: xa, x2: W, y1: y(d), y2: y(d), stroke: "#000", "stroke-opacity": 0.07}, over);
     const mark = el("rect", {class: "hover", x: -2, width: W + 4, height: 0, fill: "none",
       stroke: "#000", "stroke-width": 1.2, visibility: "hidden", "pointer-events": "none"}, svg);
     if (!visibleTracks().length) text(svg, 0, HEAD + 20, "no track shown", "small");
-    attachEvents(svg, core, mark);
+    attachEvents(svg, core, mark, hang ? RANGES[ci][0] : 0);
     wells.appendChild(div);
   }
 
+  // the legend beside the wells where they fit beside it, else above them
+  function placeLegend() {
+    const main = document.querySelector("main");
+    const side = 16 * parseFloat(getComputedStyle(document.documentElement).fontSize);
+    const one = wellWidth() + (hang ? WELL_AXIS : 0) + 14;
+    const need = (hang ? 0 : AXIS_W) + DATA.cores.length * one;
+    main.classList.toggle("stacked", need > main.clientWidth - side);
+  }
   function draw() {
+    placeLegend();
     const top = wells.getBoundingClientRect().top;
     plotH = Math.max(240, window.innerHeight - Math.max(top, 0) - HEAD - FOOT - 44);
     redraw();
@@ -651,7 +746,7 @@ _JS = r"""
   let fitting = false;
   function redraw() {
     wells.textContent = "";
-    const step = drawAxis(wells);
+    const step = hang ? niceStep(view.base - view.top, plotH / 60) : drawAxis(wells);
     DATA.cores.forEach((c, i) => drawWell(c, i, step));
     document.getElementById("top").value = +view.top.toFixed(3);
     document.getElementById("base").value = +view.base.toFixed(3);
@@ -731,17 +826,18 @@ _JS = r"""
     tip.style.top = Math.max(4, top) + "px";
   }
 
-  function attachEvents(svg, core, mark) {
+  function attachEvents(svg, core, mark, origin) {
     function local(ev) {
       const r = svg.getBoundingClientRect();
       return ev.clientY - r.top;
     }
     svg.addEventListener("mousemove", ev => {
       if (dragState) return;
+      shift = origin;
       const attr = ev.target.getAttribute && ev.target.getAttribute("data-bed");
       const py = local(ev);
       const i = attr !== null && attr !== undefined ? +attr
-        : py >= HEAD && py <= HEAD + plotH ? bedAt(core, depthAt(py)) : -1;
+        : py >= HEAD && py <= HEAD + plotH ? bedAt(core, depthAt(py) + origin) : -1;
       if (i < 0) { hideTip(); mark.setAttribute("visibility", "hidden"); return; }
       mark.setAttribute("y", y(core.beds.top[i]));
       mark.setAttribute("height", Math.max(1, y(core.beds.base[i]) - y(core.beds.top[i])));
