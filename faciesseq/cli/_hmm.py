@@ -119,6 +119,22 @@ def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:
     return out
 
 
+def check_features(args: argparse.Namespace, cores) -> None:
+    """Refuse a --features name the model does not know and the beds of ``cores`` do
+    not carry, before any other work (ranks suggested, fits) is done or printed."""
+    from faciesseq.hmm.features import check_feature_names
+
+    if not args.features:
+        return
+    successions = cores.succession_table(args.unit, args.step)
+    for feats in feature_sets(args):
+        if feats is not None:
+            try:
+                check_feature_names(feats, successions.beds.columns)
+            except ConfigError as exc:
+                raise ConfigError(f"--features: {exc}") from None
+
+
 def check_substates(n: int, n_tracts: int = 4) -> None:
     """One ``--substates`` value: 1 to ``MAX_SUBSTATES``, with what a larger one would cost."""
     from faciesseq.scheme import MAX_SUBSTATES
