@@ -85,25 +85,52 @@ def load_scheme_option(path: str | None):
 
 
 def scheme_for_model(path: str | None, model):
-    """The facies scheme of ``--scheme``, which must be the model's own (same codes and
-    ranks; names, colours and aliases may differ), or else the model's scheme."""
+    """The facies scheme of ``--scheme``, which must keep the codes and ranks of the
+    model's facies (names, colours and aliases may differ, facies may be added: see
+    :func:`model_scheme`), or else the model's scheme."""
     return model_scheme(load_scheme_option(path), model, path)
 
 
 def model_scheme(scheme, model, path: str | None):
     """``scheme`` (given by ``--scheme`` at ``path``) if it is ``model``'s own, the
-    model's if none is given; a :class:`ConfigError` if their codes or ranks differ."""
+    model's if none is given; a :class:`ConfigError` naming the facies whose codes or
+    ranks differ. A scheme may add facies the model never saw: the model reads its own
+    ranks, so they are decoded as facies never seen in training (one warning line), and
+    the scheme gives them their names and colours in the outputs."""
     own = model.scheme
     if scheme is None or own is None:
         return scheme or own
-    if scheme.ranks() != own.ranks():
+    differences = _scheme_differences(scheme, own)
+    if differences:
         raise ConfigError(
-            f"facies scheme {scheme.name!r} is not the one the model was fitted with "
-            f"({own.name!r}): their codes or ranks differ; leave out --scheme to use the "
-            "model's own, or refit the model with this scheme",
+            f"facies scheme {scheme.name!r} is not the one the model was fitted with: "
+            f"{'; '.join(differences)}; leave out --scheme to use the model's own, or refit "
+            "the model with this scheme",
             file=str(path),
         )
     return scheme
+
+
+def _scheme_differences(scheme, own) -> list[str]:
+    """What a scheme changes of the facies a model was fitted with: facies it lacks and
+    ranks it changes (facies it adds are not a difference: see :func:`model_scheme`)."""
+    ranks, fitted = scheme.ranks(), own.ranks()
+    missing = [code for code in fitted if code not in ranks]
+    changed = [
+        f"{code!r} {_rank(ranks[code])} here, {_rank(rank)} in the model"
+        for code, rank in fitted.items()
+        if code in ranks and ranks[code] != rank
+    ]
+    out = []
+    if missing:
+        out.append(f"it lacks the model's facies {', '.join(map(repr, missing))}")
+    if changed:
+        out.append(f"ranks differ: {', '.join(changed)}")
+    return out
+
+
+def _rank(rank: float) -> str:
+    return "no rank" if rank != rank else f"rank {rank:g}"
 
 
 #: Options whose files a command reads (:func:`input_files`).

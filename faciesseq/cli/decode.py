@@ -61,10 +61,13 @@ def register(subparsers) -> None:
         "instead (--format chooses the files' format, not the printed summary's). An "
         "interpreter's tract column in SOURCE is not used to decode; where present, the "
         "agreement with it is reported. Warns, in one line each, of facies codes and contact "
-        "types never seen in training (with their beds, and how they are decoded) and of "
+        "types never seen in training (with their beds and cores, and how they are decoded; "
+        "a facies outside the scheme is one of them, with a scheme or without) and of "
         "beds whose median thickness differs from the training beds' by more than a factor "
         "of 4 (a rule of thumb chosen, not tuned; a model fitted on beds records their "
-        "median, older model files do not and are compared on their facies only). An "
+        "median, older model files do not and are compared on their facies only). --scheme "
+        "must keep the codes and ranks of the model's facies; it may add facies the model "
+        "never saw (decoded as never seen, named and coloured by the scheme). An "
         "existing OUT is replaced as a whole with --force.",
         epilog=EXAMPLES,
     )
@@ -389,15 +392,11 @@ def _model(args: argparse.Namespace):
 
 
 def _reading_scheme(args: argparse.Namespace, scheme):
-    """The scheme the source's facies codes are checked against: none where the model's
-    scheme holds ranks suggested from its training cores and no ``--scheme`` is given,
-    so that a code those cores lacked is decoded as a facies never seen in training
-    (one warning line, no rank), not refused as missing from a scheme nobody wrote."""
-    from faciesseq.markov.seriation import SUGGESTED
-
-    if args.scheme is None and scheme is not None and scheme.name == SUGGESTED:
-        return None
-    return scheme
+    """The scheme the source's facies codes are read with: its aliases resolved, and a
+    code outside it (or outside the ranks suggested from the model's training cores)
+    decoded as a facies never seen in training (one warning line, no rank), not refused:
+    a model fitted with a scheme or without one decodes the same cores."""
+    return None if scheme is None else scheme.admitting_other_codes()
 
 
 def _read(args: argparse.Namespace, model, scheme):

@@ -528,9 +528,10 @@ def _facies_column(
             problems.append(Problem("error", "missing-facies", "no facies code", **where.at(i)))
     if scheme is not None:
         known = ~control & ~pd.isna(resolved)
-        unknown = np.flatnonzero(~flagged & ~known[ids])
-        bad[unknown] = True
-        problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
+        if not scheme.admits_other_codes:
+            unknown = np.flatnonzero(~flagged & ~known[ids])
+            bad[unknown] = True
+            problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
         # each distinct code resolved once (aliases and their codes merge)
         merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
         merged = np.append(merged, -1).astype(ids.dtype)  # -1: missing stays missing
