@@ -429,39 +429,30 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
     """Refuse a ``--labels`` column that the source lacks (exit 2), that is blank on
     every row (exit 1: asked for, the labels are not there) or that holds a code which
     is not a tract of ``tract_model`` (exit 1, naming file, row, core and depth of the
-    first such interval), before any fit. Blank cells are beds not interpreted."""
+    first such interval, :func:`faciesseq.hmm.labels.label_problems`), before any fit.
+    Blank cells are beds not interpreted."""
     if column is None:
         return
-    import pandas as pd
-
     from faciesseq.core import PROVENANCE
+    from faciesseq.hmm.labels import label_problems, no_labels
 
     table = cores.to_frame(provenance=True)
     if column not in table.columns:
         shown = ", ".join(str(c) for c in table.columns if c not in PROVENANCE)
         raise ConfigError(f"no column {column!r} for --labels (columns: {shown})", file=source)
-    tracts = list(tract_model.order)
-    text = table[column].astype("string").str.strip()
-    blank = text.isna() | (text == "") | (text.str.lower() == "nan")
-    if blank.all():
-        raise InputError(
-            f"no tract label in column {column!r} (blank on all {len(table)} rows); fill in "
-            "the tracts of some beds, or name the column that holds them",
-            file=source,
+    problems, labelled = label_problems(table, column, tract_model.order, cores.units, source)
+    if not labelled:
+        raise InputError(no_labels(column, len(table), source).message, file=source)
+    if problems:
+        first = problems[0]
+        more = (
+            f" ({len(problems) - 1} more; faciesseq check lists them)" if len(problems) > 1 else ""
         )
-    bad = (~blank & ~text.isin(tracts)).to_numpy(dtype=bool)
-    if not bad.any():
-        return
-    i = int(bad.argmax())
-    more = int(bad.sum()) - 1
-    row = table["_row"].iloc[i] if "_row" in table.columns else None
-    raise InputError(
-        f"tract label {text.iloc[i]!r} in column {column!r} is not a tract of the tract "
-        f"model ({', '.join(tracts)}); leave the cell empty where a bed is not interpreted"
-        + (f" ({more} more such row(s))" if more else ""),
-        file=table["_file"].iloc[i] if "_file" in table.columns else source,
-        row=None if row is None or pd.isna(row) else int(row),
-        core=str(table["core"].iloc[i]),
-        depth=float(table["top"].iloc[i]) if "top" in table.columns else None,
-        units=cores.units,
-    )
+        raise InputError(
+            first.message + more,
+            file=first.file,
+            row=first.row,
+            core=first.core,
+            depth=first.depth,
+            units=first.units,
+        )
