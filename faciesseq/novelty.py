@@ -110,11 +110,35 @@ class DecodedBeds:
         )
 
 
+def seen_facies(model) -> set[str]:
+    """The facies codes of the beds a model was fitted on (its recorded training beds,
+    else the codes it knows)."""
+    recorded = (getattr(model, "training_", None) or {}).get("facies_beds")
+    return {c for c, n in recorded.items() if n} if recorded else set(model.facies_)
+
+
+def foreign_facies(decoded: DecodedBeds, model) -> str | None:
+    """Why cores none of whose facies codes the model saw in training are not decoded
+    (the model of other cores, or of another scheme: every bed would be read from its
+    thickness and contacts alone), or None where some are."""
+    seen = seen_facies(model)
+    codes = sorted(decoded.facies)
+    if not codes or any(c in seen for c in codes):
+        return None
+    scheme = getattr(model, "scheme", None)
+    named = f" (facies scheme {scheme.name!r})" if scheme is not None else ""
+    return (
+        f"none of the facies codes of these cores ({_listed(decoded.facies, codes)}) is one "
+        f"the model was fitted on{named}: {', '.join(sorted(seen)[:10])}"
+        f"{' ...' if len(seen) > 10 else ''}; is this the model of these cores? Give the "
+        "model fitted on their facies scheme, or map their codes with aliases in a scheme"
+    )
+
+
 def _unseen(facies: Counter, cores: Counter, training: Mapping, model, unit: str) -> str | None:
     """The line naming the codes never seen in training, with their beds (and the
     cores that hold them, where ``cores`` counts them), or None."""
-    recorded = training.get("facies_beds")
-    seen = {c for c, n in recorded.items() if n} if recorded else set(model.facies_)
+    seen = seen_facies(model)
     unseen = sorted(c for c in facies if c not in seen)
     if not unseen:
         return None

@@ -281,11 +281,12 @@ class _Written:
         return Interpretation.concat(self.heads), pd.concat(self.wells), agreement
 
 
-def write_output(parts, out: Path, fmt: str, labels: str, extra=None) -> _Written:
+def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None) -> _Written:
     """Write the tables of each decoded part as it comes into a new folder, swapped in
     for ``out`` once every part is written (nothing is left half-written or replaced
     on failure). ``extra(interp, folder)``, where given, writes what needs every core
-    at once (then the parts are kept and joined)."""
+    at once (then the parts are kept and joined); ``check(written)``, where given, may
+    refuse what was decoded before the folder is swapped in."""
     from faciesseq._output import new_folder
     from faciesseq.report import exports
 
@@ -306,6 +307,8 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None) -> _Writte
             written.add(part)
         for table in tables.values():
             table.close()
+        if check is not None:
+            check(written)
         agreement = written.summary()[2]
         if agreement is not None:
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
@@ -663,4 +666,16 @@ def _write(args, model, scheme, parts, labels: str, sampled: bool) -> _Written:
     extra = _extra_outputs(args, scheme, model.tract_model_, samples)
     if extra is None and args.summary == "json":
         extra = lambda interp, folder: None  # noqa: E731  (keep the parts for the summary)
-    return write_output(parts, Path(args.output), args.format, labels, extra)
+    return write_output(
+        parts, Path(args.output), args.format, labels, extra, lambda w: _foreign(args, model, w)
+    )
+
+
+def _foreign(args: argparse.Namespace, model, written: _Written) -> None:
+    """Refuse cores none of whose facies the model saw in training (nothing written)."""
+    from faciesseq.errors import InputError
+    from faciesseq.novelty import foreign_facies
+
+    why = foreign_facies(written.beds, model)
+    if why is not None:
+        raise InputError(why, file=args.source)
