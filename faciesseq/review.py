@@ -449,8 +449,8 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
             for i in idx:
                 if i in given and given[i][0] != code:
                     raise InputError(
-                        f"this bed gives {code} to an interval that sheet row {given[i][1]} "
-                        f"gives {given[i][0]}",
+                        f"this bed gives {code} to an interval that the sheet's data row "
+                        f"{given[i][1]} gives {given[i][0]}",
                         file=file,
                         row=row,
                         core=name,

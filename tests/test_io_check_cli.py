@@ -74,7 +74,10 @@ def test_check_text_output_reads_as_a_summary(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "1 core(s), 4 interval(s), 3 bed(s), 3.50 m cored, 1 gap(s)" in out
     assert "problems: 0 error(s), 1 warning(s), 0 repair(s)" in out
-    assert f"warning: {tmp_path / 'c.csv'}, row 4, core W1, depth 2.50 m: gap from 2.5 to 3" in out
+    assert (
+        f"warning: {tmp_path / 'c.csv'}, data row 4, core W1, depth 2.50 m: gap from 2.5 to 3"
+        in out
+    )
     assert out.rstrip().endswith("usable: yes")
 
 
@@ -205,10 +208,10 @@ def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
     errors = [x for x in out.splitlines() if x.startswith("error:")]
     tracts = "(HST, FSST, LST, TST)"
     assert errors == [
-        f"error: {path}, row 2, core W1, depth 1.00 m: tract label 'HIGHSTAND' (2 rows) in "
+        f"error: {path}, data row 2, core W1, depth 1.00 m: tract label 'HIGHSTAND' (2 rows) in "
         f"column 'tract' is not a tract of the tract model {tracts}; leave the cell empty "
         "where a bed is not interpreted",
-        f"error: {path}, row 6, core W2, depth 11.00 m: tract label 'MFS' in column 'tract' "
+        f"error: {path}, data row 6, core W2, depth 11.00 m: tract label 'MFS' in column 'tract' "
         f"is not a tract of the tract model {tracts}; leave the cell empty where a bed is "
         "not interpreted",
     ]

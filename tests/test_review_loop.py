@@ -266,7 +266,7 @@ def test_a_tract_not_in_the_tract_model_names_sheet_row_core_and_depth(work, tmp
 
     code, err = _bad(capsys, work, tmp_path, edit)
     assert code == 1
-    where = f"bad.csv, row 7, core {sheet['core'].iat[6]}, depth {sheet['top'].iat[6]:.2f} m"
+    where = f"bad.csv, data row 7, core {sheet['core'].iat[6]}, depth {sheet['top'].iat[6]:.2f} m"
     assert where in err and "'RST'" in err and "HST, FSST, LST, TST" in err
 
 
@@ -278,7 +278,10 @@ def test_a_bed_that_matches_no_interval_is_an_error(work, tmp_path, capsys):
 
     code, err = _bad(capsys, work, tmp_path, edit)
     assert code == 1
-    assert f"bad.csv, row 11, core {sheet['core'].iat[10]}" in err and "matches no interval" in err
+    assert (
+        f"bad.csv, data row 11, core {sheet['core'].iat[10]}" in err
+        and "matches no interval" in err
+    )
 
 
 def test_a_core_not_in_the_source_is_an_error(work, tmp_path, capsys):
@@ -286,7 +289,7 @@ def test_a_core_not_in_the_source_is_an_error(work, tmp_path, capsys):
         s.loc[0, "core"] = "NOWHERE"
 
     code, err = _bad(capsys, work, tmp_path, edit)
-    assert code == 1 and "bad.csv, row 1, core NOWHERE, depth 0.00 m" in err
+    assert code == 1 and "bad.csv, data row 1, core NOWHERE, depth 0.00 m" in err
 
 
 def test_a_depth_that_is_not_a_number_is_an_error(work, tmp_path, capsys):
@@ -295,7 +298,7 @@ def test_a_depth_that_is_not_a_number_is_an_error(work, tmp_path, capsys):
         s.loc[2, "top"] = "deep"
 
     code, err = _bad(capsys, work, tmp_path, edit)
-    assert code == 1 and "bad.csv, row 3" in err and "'deep'" in err
+    assert code == 1 and "bad.csv, data row 3" in err and "'deep'" in err
 
 
 def test_a_sheet_without_the_geologist_column_is_an_error(work, tmp_path, capsys):
