@@ -340,3 +340,25 @@ def test_with_a_json_summary_the_sheet_line_goes_to_stderr(work, tmp_path, capsy
     assert code == 0 and json.loads(stdout)["n_wells"] == 4
     lines = [ln for ln in err.splitlines() if not ln.startswith("faciesseq decode: units: ")]
     assert len(lines) == 1 and "sheet.csv" in lines[0]
+
+
+def test_the_next_fit_keeps_the_scheme_and_tract_model_of_the_relabel(work, tmp_path, capsys):
+    # the suggested command dropped --scheme: refitted on ranks suggested from the data
+    sheet = _sheet(work)
+    sheet.loc[0, "geologist_tract"] = "TST"
+    sheet.to_csv(tmp_path / "sheet.csv", index=False)
+    scheme = work / "scheme.yaml"
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, tmp_path / "sheet.csv", out, "--scheme", scheme)
+    assert code == 0, err
+    (line,) = [x for x in stdout.splitlines() if "next:" in x]
+    assert line.endswith(
+        f"next: faciesseq fit {out} --scheme {scheme} --labels tract -o model.json"
+    )
+
+
+def test_the_suggest_ranks_help_reads_plainly():
+    sub = next(a for a in build_parser()._actions if a.dest == "command")
+    text = " ".join(sub.choices["fit"].format_help().split())
+    assert "the default (without ranks" not in text  # the garbled sentence
+    assert "This is the default without --scheme, because without ranks a fit" in text

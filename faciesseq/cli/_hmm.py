@@ -20,10 +20,10 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         action=argparse.BooleanOptionalAction,
         default=None,
         help="where no --scheme is given, rank the facies by their upward transitions (the "
-        "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
-        "for a geologist to check; the default (without ranks a fit without labels names "
-        "no tract, and a labelled one reads no rank feature; --no-suggest-ranks fits "
-        "without ranks)",
+        "order 'faciesseq scheme draft' suggests), fit on those ranks and print the order for "
+        "a geologist to check. This is the default without --scheme, because without ranks "
+        "a fit without labels cannot name the tracts and a fit with labels reads no rank "
+        "feature. --no-suggest-ranks fits without ranks",
     )
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
