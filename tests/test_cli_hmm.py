@@ -372,3 +372,27 @@ def test_decode_warns_of_a_labels_column_the_source_lacks(database, tmp_path, ca
         "faciesseq decode: warning: no column 'Tract_2' in the source to compare the "
         "decoded tracts with (--labels); no agreement reported"
     )
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv"])  # a plain CSV file is streamed
+def test_decode_core_decodes_only_the_named_cores(database, tmp_path, capsys, suffix):
+    table = pd.read_csv(database / "cores.csv")
+    source = tmp_path / f"cores{suffix}"
+    table.to_csv(source, index=False, sep="," if suffix == ".csv" else "\t")
+    model = tmp_path / "model.json"
+    fit = ["fit", str(source), "--units", "m", "--restarts", "1", "--max-iter", "5"]
+    assert main([*fit, "-o", str(model)]) == 0
+    names = list(dict.fromkeys(table["core"].astype(str)))
+    wanted = [names[2], names[0]]
+    capsys.readouterr()
+    argv = ["decode", str(model), str(source), "--units", "m"]
+    out = tmp_path / "out"
+    assert main([*argv, "--core", wanted[0], "--core", wanted[1], "-o", str(out)]) == 0
+    beds = pd.read_csv(out / "tracts.csv", skiprows=1)
+    assert list(dict.fromkeys(beds["core"].astype(str))) == [names[0], names[2]]
+    capsys.readouterr()
+    missing = tmp_path / "missing"
+    assert main([*argv, "--core", names[1], "--core", "NOPE", "-o", str(missing)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and not missing.exists()
+    assert f"--core: no core 'NOPE' in the source (its cores: {', '.join(names[:10])}" in err

@@ -40,6 +40,7 @@ examples:
   faciesseq decode model.json cores.csv --format parquet --summary json -o decoded
   faciesseq decode model.json cores.csv --format las --las-step 0.1 -o decoded
   faciesseq decode model.json big-database.parquet --jobs 4 -o decoded
+  faciesseq decode model.json cores.csv --core "Well A" --core "Well C" -o decoded
 """
 
 
@@ -109,6 +110,13 @@ def register(subparsers) -> None:
         "--labels",
         metavar="COLUMN",
         help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
+    )
+    parser.add_argument(
+        "--core",
+        action="append",
+        metavar="NAME",
+        help="decode only this core of SOURCE (repeat for several; default: every core); "
+        "a name SOURCE lacks is a usage error naming it",
     )
     add_irregular_argument(parser, "decode")
     add_parallel_arguments(parser, "batches of 20,000 beds")
@@ -406,6 +414,9 @@ def _read(args: argparse.Namespace, model, scheme):
     """The successions of the cores read whole, and whether any core was read in the
     samples layout."""
     source = read_source(args, _reading_scheme(args, scheme)).require_valid()
+    chosen = _Chosen(args)
+    source = chosen(source)
+    chosen.check()
     cores = regular_cores(source, "decode", args.keep_irregular)
     _note_units(model, cores.units)
     step = model.grid_step(cores.units)
@@ -463,6 +474,33 @@ def _note_units(model, units: str) -> None:
         )
 
 
+class _Chosen:
+    """The cores of ``--core`` (every core where it is not given), taken from each core
+    set or batch of whole cores read; :meth:`check` refuses the names none held."""
+
+    def __init__(self, args: argparse.Namespace) -> None:
+        self.source = args.source
+        self.wanted = dict.fromkeys(args.core or ())
+        self.seen: list[str] = []  # every core read, to list beside a name not found
+
+    def __call__(self, cores):
+        if not self.wanted:
+            return cores
+        self.seen += cores.names
+        return cores.subset([n for n in cores.names if n in self.wanted])
+
+    def check(self) -> None:
+        seen = set(self.seen)
+        missing = [n for n in self.wanted if n not in seen]
+        if missing:
+            shown = ", ".join(self.seen[:10]) + (" ..." if len(self.seen) > 10 else "")
+            raise ConfigError(
+                f"--core: no core {', '.join(map(repr, missing))} in the source (its cores: "
+                f"{shown or 'none'})",
+                file=self.source,
+            )
+
+
 class _Streamed:
     """The successions of SOURCE a batch of whole cores at a time (beds or intervals: a grid's
     size is checked on every core first); the irregular cores are named at the end."""
@@ -475,15 +513,18 @@ class _Streamed:
         from faciesseq.markov.screening import leave_out_irregular
 
         beds = 0
+        chosen = _Chosen(self.args)
         for k, batch in enumerate(self.stream):
             if k == 0:
                 _note_units(model, batch.units)
+            batch = chosen(batch)
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
             table = cores.succession_table(model.unit_, model.grid_step(cores.units))
             beds += len(table.beds)
             yield table
+        chosen.check()
         if not beds:
             raise ConfigError("the source holds no beds to decode", file=self.args.source)
 
