@@ -20,17 +20,18 @@ def where(
     depth: float | None = None,
     units: str | None = None,
 ) -> str:
-    """Format a location as ``file, row 12, core W-3, depth 123.40 m``.
+    """Format a location as ``file, data row 12, core W-3, depth 123.40 m``.
 
     Parts that are ``None`` are left out; an empty string means "nowhere in
-    particular". ``row`` is the 1-based data row of the source file (the header
-    is row 0), as a spreadsheet user counts them after the header.
+    particular". ``row`` is the 1-based data row of the source (the header is not
+    counted: data row 12 of a CSV file with one header line is its line 13, and row
+    13 of a spreadsheet), named "data row" so that nobody takes it for a line.
     """
     parts: list[str] = []
     if file:
         parts.append(str(file))
     if row is not None:
-        parts.append(f"row {row}")
+        parts.append(f"data row {row}")
     if core is not None:
         parts.append(f"core {core}")
     if depth is not None:

@@ -43,6 +43,8 @@ class DecodedBeds:
 
     def __init__(self) -> None:
         self.facies: Counter[str] = Counter()
+        #: cores holding each facies code (a part holds whole cores: counts add up)
+        self.facies_cores: Counter[str] = Counter()
         self.contacts: Counter[str] = Counter()
         self.thickness: list[np.ndarray] = []
         self.units: str | None = None
@@ -51,6 +53,9 @@ class DecodedBeds:
         """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``, and
         ``contact`` where they have it)."""
         self.facies.update(beds["facies"].astype(str).value_counts().to_dict())
+        if "core" in beds.columns:
+            codes = beds["facies"].astype(str)
+            self.facies_cores.update(beds["core"].groupby(codes).nunique().to_dict())
         if "contact" in beds.columns:
             self.contacts.update(beds["contact"].dropna().astype(str).value_counts().to_dict())
         self.thickness.append(beds["thickness"].to_numpy(float))
@@ -62,7 +67,10 @@ class DecodedBeds:
         beds'."""
         training = getattr(model, "training_", None) or {}
         unit = "grid cells" if model.unit_ == "grid" else "beds"
-        found = [_unseen(self.facies, training, model, unit), self._contacts(model, unit)]
+        found = [
+            _unseen(self.facies, self.facies_cores, training, model, unit),
+            self._contacts(model, unit),
+        ]
         if model.unit_ != "grid":
             found.append(self._thickness(training, getattr(model, "units_", None)))
         return [f for f in found if f]
@@ -75,7 +83,7 @@ class DecodedBeds:
         unseen = sorted(c for c in self.contacts if c not in known)
         if not unseen:
             return None
-        listed, total = _listed(self.contacts, unseen)
+        listed, total = _listed(self.contacts, unseen), sum(self.contacts[c] for c in unseen)
         return (
             f"contact type(s) never seen in training, with their {unit}: {listed}; {total} "
             f"of {sum(self.contacts.values())} {unit} with a contact decoded with a smoothed "
@@ -102,26 +110,52 @@ class DecodedBeds:
         )
 
 
-def _unseen(facies: Counter, training: Mapping, model, unit: str) -> str | None:
-    """The line naming the codes never seen in training, with their beds, or None."""
-    recorded = training.get("facies_beds")
-    seen = {c for c, n in recorded.items() if n} if recorded else set(model.facies_)
+def seen_facies(model) -> set[str]:
+    """The facies codes of the beds a model was fitted on (its recorded training beds,
+    else the codes it knows)."""
+    recorded = (getattr(model, "training_", None) or {}).get("facies_beds")
+    return {c for c, n in recorded.items() if n} if recorded else set(model.facies_)
+
+
+def foreign_facies(decoded: DecodedBeds, model) -> str | None:
+    """Why cores none of whose facies codes the model saw in training are not decoded
+    (the model of other cores, or of another scheme: every bed would be read from its
+    thickness and contacts alone), or None where some are."""
+    seen = seen_facies(model)
+    codes = sorted(decoded.facies)
+    if not codes or any(c in seen for c in codes):
+        return None
+    scheme = getattr(model, "scheme", None)
+    named = f" (facies scheme {scheme.name!r})" if scheme is not None else ""
+    return (
+        f"none of the facies codes of these cores ({_listed(decoded.facies, codes)}) is one "
+        f"the model was fitted on{named}: {', '.join(sorted(seen)[:10])}"
+        f"{' ...' if len(seen) > 10 else ''}; is this the model of these cores? Give the "
+        "model fitted on their facies scheme, or map their codes with aliases in a scheme"
+    )
+
+
+def _unseen(facies: Counter, cores: Counter, training: Mapping, model, unit: str) -> str | None:
+    """The line naming the codes never seen in training, with their beds (and the
+    cores that hold them, where ``cores`` counts them), or None."""
+    seen = seen_facies(model)
     unseen = sorted(c for c in facies if c not in seen)
     if not unseen:
         return None
-    listed, total = _listed(facies, unseen)
+    counted = any(cores[c] for c in unseen)  # the cores that hold them, beside the beds
+    shown = {c: f"{facies[c]}, {cores[c]} core(s)" if counted else facies[c] for c in unseen}
+    listed, total = _listed(shown, unseen), sum(facies[c] for c in unseen)
+    unit_cores = f"{unit} and cores" if counted else unit
     return (
-        f"facies code(s) never seen in training, with their {unit}: {listed}; {total} of "
+        f"facies code(s) never seen in training, with their {unit_cores}: {listed}; {total} of "
         f"{sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
     )
 
 
-def _listed(counts: Counter, unseen: list[str], shown: int = 10) -> tuple[str, int]:
-    """``unseen`` codes with their counts, at most ``shown`` of them named, and the
-    total count of all of them."""
+def _listed(counts: Mapping, unseen: list[str], shown: int = 10) -> str:
+    """``unseen`` codes with their counts, at most ``shown`` of them named."""
     listed = ", ".join(f"{c} ({counts[c]})" for c in unseen[:shown])
-    listed += f" and {len(unseen) - shown} more" if len(unseen) > shown else ""
-    return listed, sum(counts[c] for c in unseen)
+    return listed + (f" and {len(unseen) - shown} more" if len(unseen) > shown else "")
 
 
 def _treatment(model, unseen: list[str]) -> str:

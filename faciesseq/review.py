@@ -144,15 +144,18 @@ def write_sheet(interp, folder: Path, labels: str | None = "tract") -> list[Path
 
     ``folder`` is a new folder being filled (``decode`` builds its output
     beside the target and swaps it in whole), so the files are written in
-    place. Probabilities are exact in the CSV and shown with 2 decimals in
-    the XLSX (the cell keeps the exact value).
+    place. Depths and thicknesses are rounded to :data:`DEPTH_DECIMALS` decimals
+    of the depth unit (the bed depths are sums of interval depths, and
+    ``1.43`` came out as ``1.4300000000000068``), probabilities to
+    :data:`PROBABILITY_DECIMALS` (shown with 2 in the XLSX); ``relabel`` matches
+    depths to :data:`TOLERANCE`, which the rounding stays within.
 
     Returns
     -------
     list of pathlib.Path
         The files written.
     """
-    table = sheet_table(interp, labels)
+    table = rounded(sheet_table(interp, labels))
     folder = Path(folder)
     written = [folder / f"{SHEET_NAME}.csv"]
     table.to_csv(written[0], index=False)
@@ -160,6 +163,21 @@ def write_sheet(interp, folder: Path, labels: str | None = "tract") -> list[Path
         written.append(folder / f"{SHEET_NAME}.xlsx")
         _write_xlsx(table, written[1], tuple(interp.tracts))
     return written
+
+
+#: Decimals of the depth unit the sheet's depths and thicknesses are written with
+#: (1e-6 m or ft: finer than any core description, within :data:`TOLERANCE`).
+DEPTH_DECIMALS = 6
+#: Decimals of the sheet's probabilities.
+PROBABILITY_DECIMALS = 4
+
+
+def rounded(table: pd.DataFrame) -> pd.DataFrame:
+    """The sheet with its depths, thicknesses and probabilities rounded for writing
+    (:data:`DEPTH_DECIMALS`, :data:`PROBABILITY_DECIMALS`): no float noise in the file."""
+    decimals = {"top": DEPTH_DECIMALS, "base": DEPTH_DECIMALS, "thickness": DEPTH_DECIMALS}
+    decimals["probability"] = PROBABILITY_DECIMALS
+    return table.round({k: v for k, v in decimals.items() if k in table.columns})
 
 
 def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str]) -> None:
@@ -449,8 +467,8 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
             for i in idx:
                 if i in given and given[i][0] != code:
                     raise InputError(
-                        f"this bed gives {code} to an interval that sheet row {given[i][1]} "
-                        f"gives {given[i][0]}",
+                        f"this bed gives {code} to an interval that the sheet's data row "
+                        f"{given[i][1]} gives {given[i][0]}",
                         file=file,
                         row=row,
                         core=name,

@@ -188,6 +188,9 @@ class FaciesScheme:
     description: str | None = None
     source: str | None = field(default=None, compare=False)
     _lookup: dict[str, str] = field(default_factory=dict, repr=False, compare=False)
+    #: Whether a reader takes codes outside the scheme as they are (aliases still
+    #: resolved) instead of refusing them: see :meth:`admitting_other_codes`.
+    admits_other_codes: bool = field(default=False, compare=False)
 
     def __post_init__(self) -> None:
         lookup: dict[str, str] = {}
@@ -224,6 +227,12 @@ class FaciesScheme:
             out["description"] = self.description
         out["facies"] = [f.to_dict() for f in self.facies]
         return out
+
+    def admitting_other_codes(self) -> FaciesScheme:
+        """This scheme for reading cores to decode: its aliases resolved, a code
+        outside it read as it is (a facies the model never saw, which ``decode`` warns
+        of in one line), not refused as the reading of a scheme's own data would."""
+        return replace(self, admits_other_codes=True)
 
     # -- queries ------------------------------------------------------------
     @property

@@ -515,3 +515,56 @@ assert main(["demo", "--no-latex", "-o", {str(tmp_path / "demo")!r}]) == 0
     )
     assert done.returncode == 0, done.stderr[-2000:]
     assert (tmp_path / "demo" / "appendix.html").is_file()
+
+
+# ---------------------------------------------------------------- usage errors in one line
+
+
+@pytest.mark.parametrize(
+    "argv, expected",
+    [
+        (
+            ["markov", "cores.csv", "--format", "xlsx"],
+            "faciesseq markov: --format: 'xlsx' is not one of text, json, csv "
+            "(see faciesseq markov --help)",
+        ),
+        (
+            ["check", "cores.csv", "--units", "metres"],
+            "faciesseq check: --units: 'metres' is not one of m, ft (see faciesseq check --help)",
+        ),
+        (
+            ["markov", "cores.csv", "--unit", "bed"],
+            "faciesseq markov: --unit: 'bed' is not one of beds, grid "
+            "(see faciesseq markov --help)",
+        ),
+        (
+            ["check", "cores.csv", "--no-such-option"],
+            "faciesseq check: unrecognized arguments: --no-such-option "
+            "(see faciesseq check --help)",
+        ),
+        (
+            ["scheme", "draft", "cores.csv"],
+            "faciesseq scheme draft: the following arguments are required: -o/--output "
+            "(see faciesseq scheme draft --help)",
+        ),
+    ],
+)
+def test_a_usage_error_is_one_line_naming_the_command_and_option(argv, expected, capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(argv)
+    captured = capsys.readouterr()
+    assert exc.value.code == 2
+    assert captured.err == expected + "\n" and captured.out == ""
+
+
+def test_fit_refuses_an_unknown_feature_before_any_work(source, tmp_path, capsys):
+    out = tmp_path / "model.json"
+    code, stdout, err = _run(
+        capsys, ["fit", str(source), "--features", "facies,foo", "-o", str(out)]
+    )
+    assert code == 2 and stdout == ""
+    assert err.count("\n") == 1 and err.startswith("faciesseq fit: --features: feature 'foo' ")
+    assert "rank_step" in err and "stacking" in err  # the names a user can give
+    for internal in ("n_intervals", "segment", "'top'"):
+        assert internal not in err
+    assert not out.exists()

@@ -162,7 +162,8 @@ def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
 ):
     # no --scheme: the model keeps ranks suggested from its cores; a code those cores
     # lacked is a facies never seen in training (one line), not a missing scheme entry,
-    # while a scheme the geologist gave still refuses it
+    # and a model fitted with the geologist's scheme decodes it the same way (it refused
+    # the whole core)
     table = pd.read_csv(database / "cores.csv")
     train, model = tmp_path / "train.csv", tmp_path / "model.json"
     table[["core", "top", "base", "facies", "tract"]].to_csv(train, index=False)
@@ -175,7 +176,9 @@ def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
     beds = pd.read_csv(tmp_path / "o" / "tracts.csv", comment="#")
     assert (beds["facies"] == "XX").sum() == 3 and beds["tract"].notna().all()
     lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
-    assert len(lines) == 1 and "XX (3)" in lines[0] and "no rank for them" in lines[0]
+    assert len(lines) == 1 and "no rank for them" in lines[0]
+    cores = odd.loc[odd.index[:3], "core"].nunique()
+    assert f"with their beds and cores: XX (3, {cores} core(s)); 3 of" in lines[0]
     given = ["--scheme", str(database / "scheme.yaml")]
     assert (
         main(
@@ -195,8 +198,47 @@ def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
         == 0
     )
     capsys.readouterr()
-    assert main(["decode", str(model), str(tmp_path / "odd.csv"), "-o", str(tmp_path / "p")]) == 1
-    assert "is not in scheme" in capsys.readouterr().err
+    assert main(["decode", str(model), str(tmp_path / "odd.csv"), "-o", str(tmp_path / "p")]) == 0
+    beds = pd.read_csv(tmp_path / "p" / "tracts.csv", comment="#")
+    assert (beds["facies"] == "XX").sum() == 3 and beds["tract"].notna().all()
+    lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
+    assert len(lines) == 1 and "XX (3, " in lines[0] and "no rank for them" in lines[0]
+
+
+def test_decode_takes_a_scheme_that_only_adds_facies_and_names_what_differs(
+    database, tmp_path, capsys
+):
+    import yaml
+
+    table = pd.read_csv(database / "cores.csv")
+    train, model = tmp_path / "train.csv", tmp_path / "model.json"
+    table[["core", "top", "base", "facies", "tract"]].to_csv(train, index=False)
+    scheme = ["--scheme", str(database / "scheme.yaml")]
+    fit = ["fit", str(train), *scheme, "--labels", "tract", "--restarts", "1", "-o", str(model)]
+    assert main(fit) == 0
+    odd = table[["core", "top", "base", "facies"]].copy()
+    odd.loc[odd.index[:2], "facies"] = "XX"
+    odd.to_csv(tmp_path / "odd.csv", index=False)
+    doc = yaml.safe_load((database / "scheme.yaml").read_text())
+    first = doc["facies"][0]
+    added = {**doc, "facies": [*doc["facies"], {"code": "XX", "name": "new", "rank": 1}]}
+    (tmp_path / "added.yaml").write_text(yaml.safe_dump(added))
+    capsys.readouterr()
+    argv = ["decode", str(model), str(tmp_path / "odd.csv")]
+    assert main([*argv, "--scheme", str(tmp_path / "added.yaml"), "-o", str(tmp_path / "a")]) == 0
+    assert "XX (2, " in capsys.readouterr().err
+    # another rank and a facies left out: the refusal says which (it quoted two equal names)
+    changed = {
+        **doc,
+        "facies": [{**first, "rank": first["rank"] + 7}, *doc["facies"][2:]],
+    }
+    (tmp_path / "changed.yaml").write_text(yaml.safe_dump(changed))
+    assert main([*argv, "--scheme", str(tmp_path / "changed.yaml"), "-o", str(tmp_path / "c")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and not (tmp_path / "c").exists()
+    assert f"it lacks the model's facies {doc['facies'][1]['code']!r}" in err
+    rank = f"{first['code']!r} rank {first['rank'] + 7:g} here, rank {first['rank']:g} in the model"
+    assert rank in err
 
 
 def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
@@ -218,9 +260,11 @@ def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
     shm = int((beds["facies"] == "SHM").sum())
     assert shm > 0
     lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
+    n_cores = beds.loc[beds["facies"] == "SHM", "core"].nunique()
     assert lines == [
-        "faciesseq decode: warning: facies code(s) never seen in training, with their beds: "
-        f"SHM ({shm}); {shm} of {len(beds)} beds decoded with the scheme's rank of SHM; "
+        "faciesseq decode: warning: facies code(s) never seen in training, with their beds "
+        f"and cores: SHM ({shm}, {n_cores} core(s)); {shm} of {len(beds)} beds decoded with "
+        "the scheme's rank of SHM; "
         "the tract read from the beds around them"
     ]
     for factor, said in ((2.0, False), (10.0, True)):
@@ -275,7 +319,8 @@ def test_codes_outside_a_model_without_scheme_are_one_line_for_every_core(
     assert beds.loc[beds["facies"] == "BAS", "core"].nunique() > 1
     assert "not seen in training" not in err
     (line,) = [x for x in err.splitlines() if "never seen" in x]
-    assert f"with their beds: BAS ({n}); {n} of {len(beds)} beds decoded with a smoothed" in line
+    n_cores = beds.loc[beds["facies"] == "BAS", "core"].nunique()
+    assert f"beds and cores: BAS ({n}, {n_cores} core(s)); {n} of {len(beds)} beds decoded" in line
 
 
 def test_a_long_grid_decode_says_how_long_before_it_starts(database, tmp_path, capsys, monkeypatch):
@@ -327,3 +372,27 @@ def test_decode_warns_of_a_labels_column_the_source_lacks(database, tmp_path, ca
         "faciesseq decode: warning: no column 'Tract_2' in the source to compare the "
         "decoded tracts with (--labels); no agreement reported"
     )
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv"])  # a plain CSV file is streamed
+def test_decode_core_decodes_only_the_named_cores(database, tmp_path, capsys, suffix):
+    table = pd.read_csv(database / "cores.csv")
+    source = tmp_path / f"cores{suffix}"
+    table.to_csv(source, index=False, sep="," if suffix == ".csv" else "\t")
+    model = tmp_path / "model.json"
+    fit = ["fit", str(source), "--units", "m", "--restarts", "1", "--max-iter", "5"]
+    assert main([*fit, "-o", str(model)]) == 0
+    names = list(dict.fromkeys(table["core"].astype(str)))
+    wanted = [names[2], names[0]]
+    capsys.readouterr()
+    argv = ["decode", str(model), str(source), "--units", "m"]
+    out = tmp_path / "out"
+    assert main([*argv, "--core", wanted[0], "--core", wanted[1], "-o", str(out)]) == 0
+    beds = pd.read_csv(out / "tracts.csv", skiprows=1)
+    assert list(dict.fromkeys(beds["core"].astype(str))) == [names[0], names[2]]
+    capsys.readouterr()
+    missing = tmp_path / "missing"
+    assert main([*argv, "--core", names[1], "--core", "NOPE", "-o", str(missing)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and not missing.exists()
+    assert f"--core: no core 'NOPE' in the source (its cores: {', '.join(names[:10])}" in err

@@ -130,7 +130,7 @@ def test_wells_from_xy_are_ordered_along_the_line():
 def test_duplicated_well_names_the_rows():
     frame = pd.DataFrame({"core": ["A", "B", "A"], "x_km": [1, 2, 3]})
     with pytest.raises(
-        InputError, match=r"wells.csv, row 3: well 'A' is listed twice \(also row 1\)"
+        InputError, match=r"wells.csv, data row 3: well 'A' is listed twice \(also data row 1\)"
     ):
         wells_from_frame(frame, "wells.csv")
 
@@ -214,5 +214,5 @@ def test_order_column_disagreeing_with_positions_warns(tmp_path):
 
 def test_bad_position_value_names_the_row():
     frame = pd.DataFrame({"core": ["A", "B"], "x_km": ["1", "two"]})
-    with pytest.raises(InputError, match=r"w\.csv, row 2: position 'two'"):
+    with pytest.raises(InputError, match=r"w\.csv, data row 2: position 'two'"):
         wells_from_frame(frame, "w.csv")

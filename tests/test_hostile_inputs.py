@@ -308,9 +308,9 @@ def test_a_depth_of_1e309_is_a_data_error_naming_row_and_core(tmp_path, capsys):
     assert main(["check", str(path)]) == 1
     out = capsys.readouterr().out
     (line,) = [x for x in out.splitlines() if "not a finite" in x]
-    assert line.startswith("error: ") and "row 2, core W1: base '1e309'" in line
+    assert line.startswith("error: ") and "data row 2, core W1: base '1e309'" in line
     assert main(["markov", str(path)]) == 1
-    one_line(capsys, "c.csv, row 2, core W1", "not a finite number")
+    one_line(capsys, "c.csv, data row 2, core W1", "not a finite number")
 
 
 def test_a_nul_byte_inside_a_facies_code_is_a_data_error(tmp_path, capsys):
@@ -319,7 +319,7 @@ def test_a_nul_byte_inside_a_facies_code_is_a_data_error(tmp_path, capsys):
     assert main(["check", str(path)]) == 1
     out = capsys.readouterr().out
     (line,) = [x for x in out.splitlines() if "control character" in x]
-    assert line.startswith("error: ") and "row 2, core W1, depth 1.00 m" in line
+    assert line.startswith("error: ") and "data row 2, core W1, depth 1.00 m" in line
 
 
 def test_a_short_latin1_file_is_read_as_western_and_reported(tmp_path):

@@ -37,7 +37,7 @@ CASES = [
         1,
         "unknown-facies",
         "error",
-        "row 2, core W1, depth 1.00 m",
+        "data row 2, core W1, depth 1.00 m",
     ),
     (
         "top-below-base",
@@ -46,7 +46,7 @@ CASES = [
         1,
         "top-below-base",
         "error",
-        "row 2, core W1, depth 3.00 m",
+        "data row 2, core W1, depth 3.00 m",
     ),
     (
         "every-row-left-out",
@@ -55,7 +55,7 @@ CASES = [
         1,
         "top-below-base",
         "error",
-        "row 1, core W1, depth 2.00 m",
+        "data row 1, core W1, depth 2.00 m",
     ),
     (
         "zero-thickness",
@@ -64,7 +64,7 @@ CASES = [
         1,
         "zero-thickness",
         "error",
-        "row 2, core W1, depth 1.00 m",
+        "data row 2, core W1, depth 1.00 m",
     ),
     (
         "large-overlap",
@@ -73,7 +73,7 @@ CASES = [
         1,
         "overlap",
         "error",
-        "row 2, core W1, depth 0.50 m",
+        "data row 2, core W1, depth 0.50 m",
     ),
     (
         "small-overlap",
@@ -82,7 +82,7 @@ CASES = [
         0,
         "overlap",
         "repair",
-        "row 2, core W1, depth 1.00 m",
+        "data row 2, core W1, depth 1.00 m",
     ),
     (
         "gap",
@@ -91,7 +91,7 @@ CASES = [
         0,
         "gap",
         "warning",
-        "row 3, core W1, depth 2.00 m",
+        "data row 3, core W1, depth 2.00 m",
     ),
     (
         "reversed",
@@ -100,7 +100,7 @@ CASES = [
         0,
         "depth-order",
         "repair",
-        "row 1, core W1, depth 2.00 m",
+        "data row 1, core W1, depth 2.00 m",
     ),
     (
         "repeated-depth",
@@ -109,7 +109,7 @@ CASES = [
         1,
         "repeated-depth",
         "error",
-        "row 3, core W1, depth 1.00 m",
+        "data row 3, core W1, depth 1.00 m",
     ),
     (
         "repeated-depth-kept",
@@ -118,7 +118,7 @@ CASES = [
         0,
         "repeated-depth",
         "repair",
-        "row 3, core W1",
+        "data row 3, core W1",
     ),
     (
         "missing-depth",
@@ -127,7 +127,7 @@ CASES = [
         1,
         "missing-depth",
         "error",
-        "row 2, core W1: no top depth",
+        "data row 2, core W1: no top depth",
     ),
     (
         "non-numeric-depth",
@@ -136,7 +136,7 @@ CASES = [
         1,
         "bad-depth",
         "error",
-        "row 2, core W1: base '2 m' is not a number",
+        "data row 2, core W1: base '2 m' is not a number",
     ),
     (
         "null-depth",
@@ -145,7 +145,7 @@ CASES = [
         1,
         "missing-depth",
         "error",
-        "row 2, core W1: top holds the null value",
+        "data row 2, core W1: top holds the null value",
     ),
     (
         "duplicate-core",
@@ -154,7 +154,7 @@ CASES = [
         1,
         "duplicate-core",
         "error",
-        "b.csv, row 1, core W1",
+        "b.csv, data row 1, core W1",
     ),
     (
         "one-interval-core",
@@ -181,7 +181,7 @@ CASES = [
         1,
         "missing-facies",
         "error",
-        "row 2, core W1, depth 1.00 m: no facies code",
+        "data row 2, core W1, depth 1.00 m: no facies code",
     ),
     ("no-data-rows", {"c.csv": HEAD}, [], 1, "no-cores", "error", "no usable cores"),
     (
@@ -191,7 +191,7 @@ CASES = [
         1,
         "missing-core",
         "error",
-        "c.csv, row 2: no core identifier",
+        "c.csv, data row 2: no core identifier",
     ),
 ]
 
@@ -254,7 +254,7 @@ def test_scheme_draft_reads_codes_despite_errors_or_writes_nothing(
     assert code == 1
     assert len(err.strip().splitlines()) == 1
     assert err.startswith("faciesseq scheme: ")
-    assert "core W1" in err or f"{source}: no usable cores" in err or f"{source}, row 2" in err
+    assert "core W1" in err or f"{source}: no usable cores" in err or f"{source}, data row 2" in err
     assert not out.exists()
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").iterdir())
 
@@ -387,11 +387,38 @@ def test_small_overlap_is_snapped_to_the_interval_above(tmp_path):
     assert not cores.errors
 
 
+def test_an_interval_covering_the_next_row_names_both_rows_and_no_sort_or_gap(tmp_path):
+    # a row 107.1-108.13 wholly covering the row above it in the file (107.13-107.4):
+    # check reported a sort "repair", an overlap of 0.03 m with another row only, and a
+    # gap from 107.4 to 108.13 that the file does not have
+    rows = [
+        "W1,105.63,107.13,A",  # data row 1
+        "W1,107.13,107.4,B",  # data row 2
+        "W1,107.1,108.13,C",  # data row 3
+        "W1,108.13,109.32,A",  # data row 4
+    ]
+    source = _write(tmp_path, {"c.csv": HEAD + "\n".join(rows) + "\n"})
+    problems = read_cores(source, units="m").problems
+    assert [(p.kind, p.severity) for p in problems] == [("overlap", "error")]
+    assert str(problems[0]) == (
+        f"error: {source}, data row 3, core W1, depth 107.10 m: interval 107.1-108.13 "
+        "overlaps data row 1 (105.63-107.13) from 107.1 to 107.13 (0.03 m) and covers data "
+        "row 2 (107.13-107.4) wholly (0.27 m), more than the 0.01 m snapped as rounding"
+    )
+    # a row out of order that overlaps nothing is still sorted, and said so; a real gap
+    # is still a gap
+    source = _write(tmp_path, {"d.csv": HEAD + "W1,2,3,A\nW1,0,1,B\nW1,3,4,A\n"})
+    kinds = [(p.kind, p.row) for p in read_cores(source, units="m").problems]
+    assert kinds == [("depth-order", 2), ("gap", 1)]
+
+
 def test_rows_with_errors_are_left_out_but_listed(tmp_path):
     source = _write(tmp_path, {"c.csv": HEAD + "W1,0,1,A\nW1,3,2,B\nW1,1,2,B\n"})
     cores = read_cores(source)
     assert cores["W1"].intervals["_row"].tolist() == [1, 3]
-    with pytest.raises(InputError, match=re.escape("row 2, core W1, depth 3.00 m: top 3 is below")):
+    with pytest.raises(
+        InputError, match=re.escape("data row 2, core W1, depth 3.00 m: top 3 is below")
+    ):
         cores.require_valid()
 
 
@@ -407,7 +434,7 @@ def test_a_contact_type_no_known_word_reads_is_a_located_warning_and_read_as_mis
         ("warning", 5, "W2", 0.0),
         ("warning", 7, "W2", 2.0),
     ]
-    assert str(found[0]).startswith(f"warning: {source}, row 2, core W1, depth 1.00 m: ")
+    assert str(found[0]).startswith(f"warning: {source}, data row 2, core W1, depth 1.00 m: ")
     assert "contact type 'shrap' (2 rows)" in found[0].message
     assert "'loaded' holds none" in found[1].message and "sharp, erosion," in found[1].message
     assert "gradation" in found[1].message and "read as missing" in found[1].message

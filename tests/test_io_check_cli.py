@@ -74,7 +74,10 @@ def test_check_text_output_reads_as_a_summary(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "1 core(s), 4 interval(s), 3 bed(s), 3.50 m cored, 1 gap(s)" in out
     assert "problems: 0 error(s), 1 warning(s), 0 repair(s)" in out
-    assert f"warning: {tmp_path / 'c.csv'}, row 4, core W1, depth 2.50 m: gap from 2.5 to 3" in out
+    assert (
+        f"warning: {tmp_path / 'c.csv'}, data row 4, core W1, depth 2.50 m: gap from 2.5 to 3"
+        in out
+    )
     assert out.rstrip().endswith("usable: yes")
 
 
@@ -184,3 +187,48 @@ def test_gap_warnings_of_many_cores_name_each_gap_as_written(tmp_path):
         "gap from 10.25 to 12 (1.75 m)",
         "gap from 13 to 1e+06 (1e+06 m)",
     ]
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".xlsx"])  # a plain CSV file is streamed
+def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
+    # check said "usable: yes" (exit 0) and `fit --labels tract` then refused the labels
+    table = pd.DataFrame(
+        {
+            "core": ["W1"] * 4 + ["W2"] * 3,
+            "top": [0, 1, 2, 3, 10, 11, 12],
+            "base": [1, 2, 3, 4, 11, 12, 13],
+            "facies": list("ABABABA"),
+            "tract": ["TST", "Highstand", "hst", "HIGHSTAND", "LST", "MFS", ""],
+        }
+    )
+    path = tmp_path / f"labels{suffix}"
+    table.to_csv(path, index=False) if suffix == ".csv" else table.to_excel(path, index=False)
+    assert main(["check", str(path), "--units", "m"]) == 1
+    out = capsys.readouterr().out
+    errors = [x for x in out.splitlines() if x.startswith("error:")]
+    tracts = "(HST, FSST, LST, TST)"
+    assert errors == [
+        f"error: {path}, data row 2, core W1, depth 1.00 m: tract label 'HIGHSTAND' (2 rows) in "
+        f"column 'tract' is not a tract of the tract model {tracts}; leave the cell empty "
+        "where a bed is not interpreted",
+        f"error: {path}, data row 6, core W2, depth 11.00 m: tract label 'MFS' in column 'tract' "
+        f"is not a tract of the tract model {tracts}; leave the cell empty where a bed is "
+        "not interpreted",
+    ]
+    assert "usable: no (fix the tract labels above" in out
+    # fit refuses the first of them, in the same words
+    assert (
+        main(
+            ["fit", str(path), "--units", "m", "--labels", "tract", "-o", str(tmp_path / "m.json")]
+        )
+        == 1
+    )
+    err = capsys.readouterr().err
+    assert errors[0].removeprefix("error: ") + " (1 more; faciesseq check lists them)" in err
+    # a column named with --labels, blank on every row: the error fit gives
+    table.assign(other="").to_csv(tmp_path / "blank.csv", index=False)
+    argv = ["check", str(tmp_path / "blank.csv"), "--units", "m", "--labels", "other"]
+    assert main(argv) == 1
+    assert "error: " in capsys.readouterr().out
+    assert main([*argv[:-1], "nothere"]) == 2
+    assert "no column 'nothere' for --labels" in capsys.readouterr().err

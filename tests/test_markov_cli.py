@@ -123,3 +123,23 @@ def test_facies_codes_the_font_cannot_draw_are_one_warning_line(tmp_path):
     assert len(lines) == 1, err
     assert lines[0].startswith("faciesseq markov: warning: the figures' font (")
     assert "\ue000" in lines[0] and "drawn as empty boxes" in lines[0]
+
+
+def test_markov_tables_are_written_with_six_significant_digits(tmp_path, capsys):
+    # cells.csv held 3.033675829819265 and 1.1245883104937882e-17: float noise in a table
+    # read by people (markov.json keeps every digit)
+    from pathlib import Path
+
+    from faciesseq.cli import main
+
+    source = Path(__file__).resolve().parents[1] / "demo_cores" / "cores.csv"
+    out = tmp_path / "res"
+    argv = ["markov", str(source), "--surrogates", "0", "-o", str(out), "--format", "json"]
+    assert main(argv) == 0
+    capsys.readouterr()
+    import re
+
+    for name in ("cells.csv", "expected.csv", "tests.csv"):
+        text = (out / name).read_text()
+        digits = [len(m.replace(".", "").lstrip("0")) for m in re.findall(r"\d+\.\d+", text)]
+        assert digits and max(digits) <= 6, name

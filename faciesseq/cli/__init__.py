@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import re
 import signal
 import sys
 from collections.abc import Sequence
@@ -87,10 +88,40 @@ class _Parser(argparse.ArgumentParser):
         kwargs.setdefault("formatter_class", HelpFormatter)
         super().__init__(*args, **kwargs)
 
-    def error(self, message: str) -> None:  # pragma: no cover - argparse path
-        self.print_usage(sys.stderr)
-        sys.stderr.write(f"faciesseq: error: {message}\n")
+    def parse_known_args(self, args=None, namespace=None):
+        # Options no parser knows are refused by the (sub)command that read them, so that
+        # the one-line error names it (argparse leaves them to the top parser).
+        namespace, extras = super().parse_known_args(args, namespace)
+        if extras:
+            self.error(f"unrecognized arguments: {' '.join(extras)}")
+        return namespace, extras
+
+    def error(self, message: str) -> None:
+        sys.stderr.write(f"{self.prog}: {usage_message(message)} (see {self.prog} --help)\n")
         raise SystemExit(2)
+
+
+_CHOICE = re.compile(
+    r"argument (?P<option>.+?): invalid choice: (?P<value>.*) \(choose from (?P<choices>.*)\)$"
+)
+_ARGUMENT = re.compile(r"argument (?P<option>.+?): (?P<text>.*)$")
+
+
+def usage_message(message: str) -> str:
+    """argparse's error as one line that names the option first.
+
+    ``argument --unit: invalid choice: 'bed' (choose from 'beds', 'intervals')`` reads
+    ``--unit: 'bed' is not one of beds, intervals``.
+    """
+    message = " ".join(message.split())
+    choice = _CHOICE.match(message)
+    if choice:
+        choices = ", ".join(name.strip().strip("'") for name in choice["choices"].split(","))
+        return f"{choice['option']}: {choice['value']} is not one of {choices}"
+    argument = _ARGUMENT.match(message)
+    if argument:
+        return f"{argument['option']}: {argument['text']}"
+    return message
 
 
 def build_parser() -> argparse.ArgumentParser:

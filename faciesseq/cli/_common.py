@@ -85,25 +85,52 @@ def load_scheme_option(path: str | None):
 
 
 def scheme_for_model(path: str | None, model):
-    """The facies scheme of ``--scheme``, which must be the model's own (same codes and
-    ranks; names, colours and aliases may differ), or else the model's scheme."""
+    """The facies scheme of ``--scheme``, which must keep the codes and ranks of the
+    model's facies (names, colours and aliases may differ, facies may be added: see
+    :func:`model_scheme`), or else the model's scheme."""
     return model_scheme(load_scheme_option(path), model, path)
 
 
 def model_scheme(scheme, model, path: str | None):
     """``scheme`` (given by ``--scheme`` at ``path``) if it is ``model``'s own, the
-    model's if none is given; a :class:`ConfigError` if their codes or ranks differ."""
+    model's if none is given; a :class:`ConfigError` naming the facies whose codes or
+    ranks differ. A scheme may add facies the model never saw: the model reads its own
+    ranks, so they are decoded as facies never seen in training (one warning line), and
+    the scheme gives them their names and colours in the outputs."""
     own = model.scheme
     if scheme is None or own is None:
         return scheme or own
-    if scheme.ranks() != own.ranks():
+    differences = _scheme_differences(scheme, own)
+    if differences:
         raise ConfigError(
-            f"facies scheme {scheme.name!r} is not the one the model was fitted with "
-            f"({own.name!r}): their codes or ranks differ; leave out --scheme to use the "
-            "model's own, or refit the model with this scheme",
+            f"facies scheme {scheme.name!r} is not the one the model was fitted with: "
+            f"{'; '.join(differences)}; leave out --scheme to use the model's own, or refit "
+            "the model with this scheme",
             file=str(path),
         )
     return scheme
+
+
+def _scheme_differences(scheme, own) -> list[str]:
+    """What a scheme changes of the facies a model was fitted with: facies it lacks and
+    ranks it changes (facies it adds are not a difference: see :func:`model_scheme`)."""
+    ranks, fitted = scheme.ranks(), own.ranks()
+    missing = [code for code in fitted if code not in ranks]
+    changed = [
+        f"{code!r} {_rank(ranks[code])} here, {_rank(rank)} in the model"
+        for code, rank in fitted.items()
+        if code in ranks and ranks[code] != rank
+    ]
+    out = []
+    if missing:
+        out.append(f"it lacks the model's facies {', '.join(map(repr, missing))}")
+    if changed:
+        out.append(f"ranks differ: {', '.join(changed)}")
+    return out
+
+
+def _rank(rank: float) -> str:
+    return "no rank" if rank != rank else f"rank {rank:g}"
 
 
 #: Options whose files a command reads (:func:`input_files`).
@@ -402,39 +429,30 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
     """Refuse a ``--labels`` column that the source lacks (exit 2), that is blank on
     every row (exit 1: asked for, the labels are not there) or that holds a code which
     is not a tract of ``tract_model`` (exit 1, naming file, row, core and depth of the
-    first such interval), before any fit. Blank cells are beds not interpreted."""
+    first such interval, :func:`faciesseq.hmm.labels.label_problems`), before any fit.
+    Blank cells are beds not interpreted."""
     if column is None:
         return
-    import pandas as pd
-
     from faciesseq.core import PROVENANCE
+    from faciesseq.hmm.labels import label_problems, no_labels
 
     table = cores.to_frame(provenance=True)
     if column not in table.columns:
         shown = ", ".join(str(c) for c in table.columns if c not in PROVENANCE)
         raise ConfigError(f"no column {column!r} for --labels (columns: {shown})", file=source)
-    tracts = list(tract_model.order)
-    text = table[column].astype("string").str.strip()
-    blank = text.isna() | (text == "") | (text.str.lower() == "nan")
-    if blank.all():
-        raise InputError(
-            f"no tract label in column {column!r} (blank on all {len(table)} rows); fill in "
-            "the tracts of some beds, or name the column that holds them",
-            file=source,
+    problems, labelled = label_problems(table, column, tract_model.order, cores.units, source)
+    if not labelled:
+        raise InputError(no_labels(column, len(table), source).message, file=source)
+    if problems:
+        first = problems[0]
+        more = (
+            f" ({len(problems) - 1} more; faciesseq check lists them)" if len(problems) > 1 else ""
         )
-    bad = (~blank & ~text.isin(tracts)).to_numpy(dtype=bool)
-    if not bad.any():
-        return
-    i = int(bad.argmax())
-    more = int(bad.sum()) - 1
-    row = table["_row"].iloc[i] if "_row" in table.columns else None
-    raise InputError(
-        f"tract label {text.iloc[i]!r} in column {column!r} is not a tract of the tract "
-        f"model ({', '.join(tracts)}); leave the cell empty where a bed is not interpreted"
-        + (f" ({more} more such row(s))" if more else ""),
-        file=table["_file"].iloc[i] if "_file" in table.columns else source,
-        row=None if row is None or pd.isna(row) else int(row),
-        core=str(table["core"].iloc[i]),
-        depth=float(table["top"].iloc[i]) if "top" in table.columns else None,
-        units=cores.units,
-    )
+        raise InputError(
+            first.message + more,
+            file=first.file,
+            row=first.row,
+            core=first.core,
+            depth=first.depth,
+            units=first.units,
+        )

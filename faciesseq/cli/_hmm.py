@@ -20,10 +20,10 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         action=argparse.BooleanOptionalAction,
         default=None,
         help="where no --scheme is given, rank the facies by their upward transitions (the "
-        "order 'faciesseq scheme draft' suggests) and fit on those ranks, printing the order "
-        "for a geologist to check; the default (without ranks a fit without labels names "
-        "no tract, and a labelled one reads no rank feature; --no-suggest-ranks fits "
-        "without ranks)",
+        "order 'faciesseq scheme draft' suggests), fit on those ranks and print the order for "
+        "a geologist to check. This is the default without --scheme, because without ranks "
+        "a fit without labels cannot name the tracts and a fit with labels reads no rank "
+        "feature. --no-suggest-ranks fits without ranks",
     )
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
@@ -117,6 +117,22 @@ def feature_sets(args: argparse.Namespace) -> list[tuple[str, ...] | None]:
             raise ConfigError(f"--features {value!r}: no feature named")
         out.append(feats)
     return out
+
+
+def check_features(args: argparse.Namespace, cores) -> None:
+    """Refuse a --features name the model does not know and the beds of ``cores`` do
+    not carry, before any other work (ranks suggested, fits) is done or printed."""
+    from faciesseq.hmm.features import check_feature_names
+
+    if not args.features:
+        return
+    successions = cores.succession_table(args.unit, args.step)
+    for feats in feature_sets(args):
+        if feats is not None:
+            try:
+                check_feature_names(feats, successions.beds.columns)
+            except ConfigError as exc:
+                raise ConfigError(f"--features: {exc}") from None
 
 
 def check_substates(n: int, n_tracts: int = 4) -> None:

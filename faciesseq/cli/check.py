@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+from dataclasses import replace
 
 from faciesseq.cli._common import (
     add_source_arguments,
@@ -25,6 +26,7 @@ examples:
       --column facies=Facies --units ft
   faciesseq check postgresql://geo@dbhost/cores --table intervals --format json
   faciesseq check logs.csv --units ft --keep-first --scheme scheme.yaml --write-source cores.yaml
+  faciesseq check cores.csv --labels interpretation --tracts my-tracts.yaml
   faciesseq markov cores.yaml        # every command then reads the options from cores.yaml
 """
 
@@ -35,8 +37,10 @@ def register(subparsers) -> None:
         help="read and validate a core database; print a summary and every problem",
         description="Read a core database, print a summary (cores, intervals, thickness, "
         "facies proportions, bed thickness statistics) and every problem found, each with "
-        "file, row, core and depth. Exit code 0 when the data is usable, 1 when it has "
-        "errors, 2 for usage or configuration errors.",
+        "file, row, core and depth. The labels of the tract column (or of --labels) that "
+        "'faciesseq fit --labels' cannot read, not tracts of the tract model, are errors "
+        "too. Exit code 0 when the data is usable, 1 when it has errors, 2 for usage or "
+        "configuration errors.",
         epilog=EXAMPLES,
     )
     add_source_arguments(parser)
@@ -45,6 +49,15 @@ def register(subparsers) -> None:
         choices=("text", "json"),
         default="text",
         help="text for reading or json (summary, cores, facies, problems)",
+    )
+    parser.add_argument(
+        "--labels",
+        metavar="COLUMN",
+        help="column of an interpreter's tract labels to check as fit --labels reads them "
+        "(default: the tract column, where the source has one)",
+    )
+    parser.add_argument(
+        "--tracts", metavar="FILE", help="tract-model YAML the labels name (default: four tracts)"
     )
     parser.add_argument(
         "--write-source",
@@ -57,6 +70,10 @@ def register(subparsers) -> None:
         "--force", action="store_true", help="replace the --write-source FILE if it exists"
     )
     parser.set_defaults(func=run)
+
+
+#: Kinds of the errors of tract labels (:class:`_Labels`), which only a fit with labels refuses.
+LABEL_ERRORS = frozenset({"tract-label", "no-labels"})
 
 
 def _num(value: object, digits: int = 2) -> str:
@@ -158,8 +175,14 @@ def format_text(result) -> str:
     lines.append(f"problems: {counts}")
     lines += [str(p) for p in result.problems]
     lines.append("")
+    errors = {p.kind for p in result.problems if p.severity == "error"}
     if head["usable"]:
         lines.append("usable: yes")
+    elif errors <= LABEL_ERRORS:
+        lines.append(
+            "usable: no (fix the tract labels above; fit and validate refuse them with "
+            "--labels, other commands read the data)"
+        )
     else:
         lines.append("usable: no (fix the errors above; other commands refuse this data)")
     return "\n".join(lines)
@@ -264,13 +287,17 @@ def run(args: argparse.Namespace) -> int:
 
     out = _source_target(args)
     scheme = load_scheme_option(args.scheme)
-    result = _streamed(args, scheme) if out is None else None
+    labels = _Labels(args)
+    result = _streamed(args, scheme, labels) if out is None else None
     if result is None:
+        labels = _Labels(args)  # afresh: a stream given up half-way counted some cores
         cores = read_source(args, scheme)
         if out is not None:
             write_source(args, out, cores)
             sys.stderr.write(f"faciesseq check: wrote {out} (give it as SOURCE to every command)\n")
         result = summarise(cores, scheme)
+        result = replace(result, problems=(*result.problems, *labels(cores)))
+    result = replace(result, problems=(*result.problems, *labels.finish()))
     if args.format == "json":
         print(json.dumps(result.to_dict(), indent=2, allow_nan=False))
     else:
@@ -278,7 +305,49 @@ def run(args: argparse.Namespace) -> int:
     return 0 if result.usable else 1
 
 
-def _streamed(args: argparse.Namespace, scheme):
+class _Labels:
+    """The tract labels of the cores (``--labels`` or the tract column) that a fit with
+    labels cannot read (:func:`faciesseq.hmm.labels.label_problems`, as ``fit`` reads
+    them), a core set or batch of whole cores at a time; :meth:`finish` adds the error of
+    a named column blank on every row."""
+
+    def __init__(self, args: argparse.Namespace) -> None:
+        from faciesseq.cli._hmm import load_tracts_option
+        from faciesseq.scheme import default_tract_model
+
+        self.source = args.source
+        self.named = args.labels
+        self.column = args.labels or "tract"
+        self.tracts = (load_tracts_option(args.tracts) or default_tract_model()).order
+        self.found = False
+        self.rows = self.labelled = 0
+
+    def __call__(self, cores) -> list:
+        from faciesseq.hmm.labels import label_problems
+
+        table = cores.to_frame(provenance=True)
+        if self.column not in table.columns:
+            return []
+        self.found = True
+        problems, labelled = label_problems(
+            table, self.column, self.tracts, cores.units, self.source
+        )
+        self.rows += len(table)
+        self.labelled += labelled
+        return problems
+
+    def finish(self) -> list:
+        from faciesseq.errors import ConfigError
+        from faciesseq.hmm.labels import no_labels
+
+        if self.named and not self.found and self.rows == 0:
+            raise ConfigError(f"no column {self.named!r} for --labels", file=self.source)
+        if self.named and self.rows and not self.labelled:
+            return [no_labels(self.column, self.rows, self.source)]
+        return []
+
+
+def _streamed(args: argparse.Namespace, scheme, labels: _Labels):
     """The summary of SOURCE read a batch of whole cores at a time, or ``None`` where it
     is read whole (see :func:`faciesseq.io.stream_cores`)."""
     from faciesseq.io import NotStreamable
@@ -288,7 +357,7 @@ def _streamed(args: argparse.Namespace, scheme):
     if stream is None:
         return None
     try:
-        result = summarise_batches(stream, scheme)
+        result = summarise_batches(stream, scheme, labels)
     except NotStreamable:
         return None
     announce(args, stream.summary(), scheme)

@@ -40,6 +40,7 @@ examples:
   faciesseq decode model.json cores.csv --format parquet --summary json -o decoded
   faciesseq decode model.json cores.csv --format las --las-step 0.1 -o decoded
   faciesseq decode model.json big-database.parquet --jobs 4 -o decoded
+  faciesseq decode model.json cores.csv --core "Well A" --core "Well C" -o decoded
 """
 
 
@@ -61,10 +62,13 @@ def register(subparsers) -> None:
         "instead (--format chooses the files' format, not the printed summary's). An "
         "interpreter's tract column in SOURCE is not used to decode; where present, the "
         "agreement with it is reported. Warns, in one line each, of facies codes and contact "
-        "types never seen in training (with their beds, and how they are decoded) and of "
+        "types never seen in training (with their beds and cores, and how they are decoded; "
+        "a facies outside the scheme is one of them, with a scheme or without) and of "
         "beds whose median thickness differs from the training beds' by more than a factor "
         "of 4 (a rule of thumb chosen, not tuned; a model fitted on beds records their "
-        "median, older model files do not and are compared on their facies only). An "
+        "median, older model files do not and are compared on their facies only). --scheme "
+        "must keep the codes and ranks of the model's facies; it may add facies the model "
+        "never saw (decoded as never seen, named and coloured by the scheme). An "
         "existing OUT is replaced as a whole with --force.",
         epilog=EXAMPLES,
     )
@@ -106,6 +110,13 @@ def register(subparsers) -> None:
         "--labels",
         metavar="COLUMN",
         help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
+    )
+    parser.add_argument(
+        "--core",
+        action="append",
+        metavar="NAME",
+        help="decode only this core of SOURCE (repeat for several; default: every core); "
+        "a name SOURCE lacks is a usage error naming it",
     )
     add_irregular_argument(parser, "decode")
     add_parallel_arguments(parser, "batches of 20,000 beds")
@@ -278,11 +289,12 @@ class _Written:
         return Interpretation.concat(self.heads), pd.concat(self.wells), agreement
 
 
-def write_output(parts, out: Path, fmt: str, labels: str, extra=None) -> _Written:
+def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None) -> _Written:
     """Write the tables of each decoded part as it comes into a new folder, swapped in
     for ``out`` once every part is written (nothing is left half-written or replaced
     on failure). ``extra(interp, folder)``, where given, writes what needs every core
-    at once (then the parts are kept and joined)."""
+    at once (then the parts are kept and joined); ``check(written)``, where given, may
+    refuse what was decoded before the folder is swapped in."""
     from faciesseq._output import new_folder
     from faciesseq.report import exports
 
@@ -303,6 +315,8 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None) -> _Writte
             written.add(part)
         for table in tables.values():
             table.close()
+        if check is not None:
+            check(written)
         agreement = written.summary()[2]
         if agreement is not None:
             _write_table(agreement, temp / f"agreement.{fmt}", fmt)
@@ -389,21 +403,20 @@ def _model(args: argparse.Namespace):
 
 
 def _reading_scheme(args: argparse.Namespace, scheme):
-    """The scheme the source's facies codes are checked against: none where the model's
-    scheme holds ranks suggested from its training cores and no ``--scheme`` is given,
-    so that a code those cores lacked is decoded as a facies never seen in training
-    (one warning line, no rank), not refused as missing from a scheme nobody wrote."""
-    from faciesseq.markov.seriation import SUGGESTED
-
-    if args.scheme is None and scheme is not None and scheme.name == SUGGESTED:
-        return None
-    return scheme
+    """The scheme the source's facies codes are read with: its aliases resolved, and a
+    code outside it (or outside the ranks suggested from the model's training cores)
+    decoded as a facies never seen in training (one warning line, no rank), not refused:
+    a model fitted with a scheme or without one decodes the same cores."""
+    return None if scheme is None else scheme.admitting_other_codes()
 
 
 def _read(args: argparse.Namespace, model, scheme):
     """The successions of the cores read whole, and whether any core was read in the
     samples layout."""
     source = read_source(args, _reading_scheme(args, scheme)).require_valid()
+    chosen = _Chosen(args)
+    source = chosen(source)
+    chosen.check()
     cores = regular_cores(source, "decode", args.keep_irregular)
     _note_units(model, cores.units)
     step = model.grid_step(cores.units)
@@ -461,6 +474,33 @@ def _note_units(model, units: str) -> None:
         )
 
 
+class _Chosen:
+    """The cores of ``--core`` (every core where it is not given), taken from each core
+    set or batch of whole cores read; :meth:`check` refuses the names none held."""
+
+    def __init__(self, args: argparse.Namespace) -> None:
+        self.source = args.source
+        self.wanted = dict.fromkeys(args.core or ())
+        self.seen: list[str] = []  # every core read, to list beside a name not found
+
+    def __call__(self, cores):
+        if not self.wanted:
+            return cores
+        self.seen += cores.names
+        return cores.subset([n for n in cores.names if n in self.wanted])
+
+    def check(self) -> None:
+        seen = set(self.seen)
+        missing = [n for n in self.wanted if n not in seen]
+        if missing:
+            shown = ", ".join(self.seen[:10]) + (" ..." if len(self.seen) > 10 else "")
+            raise ConfigError(
+                f"--core: no core {', '.join(map(repr, missing))} in the source (its cores: "
+                f"{shown or 'none'})",
+                file=self.source,
+            )
+
+
 class _Streamed:
     """The successions of SOURCE a batch of whole cores at a time (beds or intervals: a grid's
     size is checked on every core first); the irregular cores are named at the end."""
@@ -473,15 +513,18 @@ class _Streamed:
         from faciesseq.markov.screening import leave_out_irregular
 
         beds = 0
+        chosen = _Chosen(self.args)
         for k, batch in enumerate(self.stream):
             if k == 0:
                 _note_units(model, batch.units)
+            batch = chosen(batch)
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
             table = cores.succession_table(model.unit_, model.grid_step(cores.units))
             beds += len(table.beds)
             yield table
+        chosen.check()
         if not beds:
             raise ConfigError("the source holds no beds to decode", file=self.args.source)
 
@@ -664,4 +707,16 @@ def _write(args, model, scheme, parts, labels: str, sampled: bool) -> _Written:
     extra = _extra_outputs(args, scheme, model.tract_model_, samples)
     if extra is None and args.summary == "json":
         extra = lambda interp, folder: None  # noqa: E731  (keep the parts for the summary)
-    return write_output(parts, Path(args.output), args.format, labels, extra)
+    return write_output(
+        parts, Path(args.output), args.format, labels, extra, lambda w: _foreign(args, model, w)
+    )
+
+
+def _foreign(args: argparse.Namespace, model, written: _Written) -> None:
+    """Refuse cores none of whose facies the model saw in training (nothing written)."""
+    from faciesseq.errors import InputError
+    from faciesseq.novelty import foreign_facies
+
+    why = foreign_facies(written.beds, model)
+    if why is not None:
+        raise InputError(why, file=args.source)

@@ -19,6 +19,7 @@ from faciesseq.cli._common import (
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
+    check_features,
     check_unit,
     feature_sets,
     load_tracts_option,
@@ -393,6 +394,7 @@ def run(args: argparse.Namespace) -> int:
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
     cores, successions = _successions(args, scheme)
+    check_features(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     scheme = scheme_for_fit(args, cores, scheme, "fit", labelled)
     selection = _select(args, successions, scheme, tract_model, substates, parallel)

@@ -122,7 +122,11 @@ def _write_out(directory: str, report, scheme, text: str, json_text: str) -> Non
         (tmp / "markov.txt").write_text(text, encoding="utf-8")
         (tmp / "markov.json").write_text(json_text, encoding="utf-8")
         for name, frame in report.to_frames().items():
-            frame.to_csv(tmp / f"{name}.csv", index=frame.index.name is not None)
+            # 6 significant digits, as decode, validate and correlate write theirs
+            # (markov.json keeps every digit)
+            frame.to_csv(
+                tmp / f"{name}.csv", index=frame.index.name is not None, float_format="%.6g"
+            )
         diagram = relationship_diagram(report, scheme)
         for suffix in (".png", ".svg"):
             save_figure(diagram, tmp / f"facies_relationship{suffix}")
@@ -157,7 +161,7 @@ def run(args: argparse.Namespace) -> int:
     elif args.format == "json":
         sys.stdout.write(json_text)
     else:
-        report.to_frames()["tests"].to_csv(sys.stdout, index=False)
+        report.to_frames()["tests"].to_csv(sys.stdout, index=False, float_format="%.6g")
     return 0
 
 

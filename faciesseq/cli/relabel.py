@@ -58,7 +58,22 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _report(result, output: str) -> list[str]:
+def _next_fit(args: argparse.Namespace, result) -> str:
+    """The ``fit`` command to run next on the labelled table: the options of this run
+    that the fit needs too (the scheme, the tract model; the table written holds its
+    units and the columns under their roles, so no reading option is needed)."""
+    import shlex
+
+    words = ["faciesseq", "fit", args.output]
+    if args.scheme:
+        words += ["--scheme", args.scheme]
+    if args.tracts:
+        words += ["--tracts", args.tracts]
+    words += ["--labels", result.labels, "-o", "model.json"]
+    return shlex.join(words)
+
+
+def _report(result, output: str, next_fit: str) -> list[str]:
     n_filled, n_changed = sum(result.filled.values()), sum(result.changed.values())
     lines = [
         f"{result.sheet}: {n_filled} bed(s) given a tract by the geologist in "
@@ -84,7 +99,7 @@ def _report(result, output: str) -> list[str]:
         )
     lines.append(
         f"written to {output} (labels in {result.labels!r}, origin in 'label_source'); "
-        f"next: faciesseq fit {output} --labels {result.labels} -o model.json"
+        f"next: {next_fit}"
     )
     return lines
 
@@ -105,5 +120,5 @@ def run(args: argparse.Namespace) -> int:
         sheet, cores, tract_model.codes, file=Path(args.review_sheet).name, labels=args.labels
     )
     write_cores(result.cores, args.output)
-    print("\n".join(_report(result, args.output)))
+    print("\n".join(_report(result, args.output, _next_fit(args, result))))
     return 0

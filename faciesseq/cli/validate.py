@@ -19,6 +19,7 @@ from faciesseq.cli._common import (
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
+    check_features,
     check_unit,
     feature_sets,
     load_tracts_option,
@@ -175,6 +176,7 @@ def run(args: argparse.Namespace) -> int:
     tract_model = load_tracts_option(args.tracts)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
+    check_features(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     scheme = scheme_for_fit(args, cores, scheme, "validate", labelled)
     progress = Progress("validate")

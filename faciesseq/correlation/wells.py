@@ -113,7 +113,8 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
         k = int(np.argmax(dup))
         first = rows[int(np.flatnonzero((names == names.iloc[k]).to_numpy())[0])]
         raise InputError(
-            f"well {names.iloc[k]!r} is listed twice (also row {first}); give each well one row",
+            f"well {names.iloc[k]!r} is listed twice (also data row {first}); give each well "
+            "one row",
             file=file,
             row=rows[k],
         )

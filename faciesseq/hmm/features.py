@@ -19,6 +19,8 @@ __all__ = [
     "DEFAULT_UNLABELLED_FEATURES",
     "FEATURES",
     "RANK_FEATURES",
+    "attribute_columns",
+    "check_feature_names",
     "resolve_features",
 ]
 
@@ -81,17 +83,39 @@ def resolve_features(
             "the features must include 'facies', 'facies_trend' or a context feature "
             f"({', '.join(CONTEXT_FEATURES)})"
         )
+    check_feature_names(feats, columns)
     for f in feats:
-        if f in RANK_FEATURES:
-            if scheme is None:
-                raise ConfigError(f"feature {f!r} needs a facies scheme with ranks (--scheme)")
-            continue
-        if f not in ("facies", "facies_trend") and f not in columns:
-            raise ConfigError(
-                f"feature {f!r} needs a bed column {f!r}, which the data lacks "
-                f"(columns: {sorted(map(str, columns))})"
-            )
+        if f in RANK_FEATURES and scheme is None:
+            raise ConfigError(f"feature {f!r} needs a facies scheme with ranks (--scheme)")
     return tuple(feats)
+
+
+#: Columns of a bed table that the tool makes (a succession's number, a bed's
+#: depths and count of intervals): not attributes a user can name as a feature.
+BED_TABLE_COLUMNS = frozenset({"segment", "top", "base", "depth", "n_intervals"})
+
+
+def attribute_columns(columns) -> list[str]:
+    """The bed columns a user can name as a feature beside :data:`FEATURES`: the
+    source's own attributes, not the columns the bed tables are made of."""
+    named = set(FEATURES) | set(CONTEXT_FEATURES) | BED_TABLE_COLUMNS
+    return sorted(str(c) for c in columns if str(c) not in named)
+
+
+def check_feature_names(features: Sequence[str], columns) -> None:
+    """Refuse a feature that is neither a name of :data:`FEATURES` or the stacking
+    context nor a column of the beds, with a :class:`~faciesseq.errors.ConfigError`
+    listing the names a user can give."""
+    known = {*FEATURES, *CONTEXT_FEATURES}
+    attributes = attribute_columns(columns)
+    for f in features:
+        if f in known or f in attributes:
+            continue
+        own = f"; columns of the source: {', '.join(attributes)}" if attributes else ""
+        raise ConfigError(
+            f"feature {f!r} is neither a feature of the model nor a column of the source "
+            f"(features: {', '.join((*FEATURES, *CONTEXT_FEATURES))}{own})"
+        )
 
 
 def _defaults(columns: set, scheme: FaciesScheme | None, unit: str, labelled: bool) -> list[str]:

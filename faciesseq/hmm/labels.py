@@ -18,15 +18,17 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import Succession
-from faciesseq.errors import ConfigError, InputError
+from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model
 
 __all__ = [
     "LabelWarning",
     "clamp_from_labels",
     "graph_from_labels",
+    "label_problems",
     "label_values",
     "labelled_beds",
+    "no_labels",
 ]
 
 
@@ -49,6 +51,53 @@ def _text(values: pd.Series) -> list[str | None]:
     text = values.astype("string").str.strip()
     missing = text.isna() | (text == "") | (text.str.lower() == "nan")
     return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
+
+
+def no_labels(column: str, n_rows: int, source: str) -> Problem:
+    """The error of a label column blank on all its ``n_rows`` rows (asked for, the
+    labels are not there)."""
+    message = (
+        f"no tract label in column {column!r} (blank on all {n_rows} rows); fill in "
+        "the tracts of some beds, or name the column that holds them"
+    )
+    return Problem("error", "no-labels", message, file=source)
+
+
+def label_problems(
+    table: pd.DataFrame, column: str, tracts: Sequence[str], units: str | None, source: str
+) -> tuple[list[Problem], int]:
+    """The labels of ``column`` of a core table (``CoreSet.to_frame(provenance=True)``)
+    that a fit with labels cannot read: one error per core and label that is not one of
+    ``tracts``, at its first row; and the number of labelled rows (blank cells are
+    beds not interpreted; none at all is :func:`no_labels`). ``faciesseq check`` lists
+    them all; ``fit`` and ``validate`` refuse the first
+    (``faciesseq.cli._common.check_labels``)."""
+    text = pd.Series(_text(table[column]), index=table.index, dtype=object)
+    blank = text.isna()
+    bad = np.flatnonzero((~blank & ~text.isin(list(tracts))).to_numpy(dtype=bool))
+    found: dict[tuple[str, str], list[int]] = {}
+    for i in bad:
+        found.setdefault((str(table["core"].iloc[i]), text.iloc[i]), []).append(int(i))
+    problems = []
+    for (core, label), rows in found.items():
+        i = rows[0]
+        count = f" ({len(rows)} rows)" if len(rows) > 1 else ""
+        row = table["_row"].iloc[i] if "_row" in table.columns else None
+        problems.append(
+            Problem(
+                "error",
+                "tract-label",
+                f"tract label {label!r}{count} in column {column!r} is not a tract of the "
+                f"tract model ({', '.join(tracts)}); leave the cell empty where a bed is not "
+                "interpreted",
+                file=str(table["_file"].iloc[i]) if "_file" in table.columns else source,
+                row=None if row is None or pd.isna(row) else int(row),
+                core=core,
+                depth=float(table["top"].iloc[i]) if "top" in table.columns else None,
+                units=units,
+            )
+        )
+    return problems, int((~blank).sum())
 
 
 def label_values(

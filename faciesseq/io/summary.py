@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from itertools import pairwise
 
@@ -286,17 +287,25 @@ def summarise(cores: CoreSet, scheme: FaciesScheme | None = None) -> DatabaseSum
     return found.summary(cores.units, cores.problems, cores.sources, scheme)
 
 
-def summarise_batches(stream: CoreStream, scheme: FaciesScheme | None = None) -> DatabaseSummary:
+def summarise_batches(
+    stream: CoreStream,
+    scheme: FaciesScheme | None = None,
+    more_problems: Callable[[CoreSet], Iterable[Problem]] | None = None,
+) -> DatabaseSummary:
     """:func:`summarise` of a file read a batch of whole cores at a time
     (:meth:`faciesseq.io.stream.CoreStream.batches`, errors and all): the same
     summary, only the cores' rows and every interval's and bed's facies and thickness
-    held. Raises :class:`~faciesseq.io.stream.NotStreamable` where the file must be
-    read whole."""
+    held. ``more_problems`` finds problems of a batch that reading does not (the
+    labels of ``faciesseq check``), listed after the reader's. Raises
+    :class:`~faciesseq.io.stream.NotStreamable` where the file must be read whole."""
     found = _Found()
+    more: list[Problem] = []
     for batch in stream.batches(valid=False):
         found.add(batch)
+        if more_problems is not None:
+            more += more_problems(batch)
     whole = stream.summary()
-    return found.summary(whole.units, whole.problems, whole.sources, scheme)
+    return found.summary(whole.units, (*whole.problems, *more), whole.sources, scheme)
 
 
 class _Found:

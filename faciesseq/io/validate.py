@@ -528,9 +528,10 @@ def _facies_column(
             problems.append(Problem("error", "missing-facies", "no facies code", **where.at(i)))
     if scheme is not None:
         known = ~control & ~pd.isna(resolved)
-        unknown = np.flatnonzero(~flagged & ~known[ids])
-        bad[unknown] = True
-        problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
+        if not scheme.admits_other_codes:
+            unknown = np.flatnonzero(~flagged & ~known[ids])
+            bad[unknown] = True
+            problems += _unknown_facies(unknown, codes[ids[unknown]], scheme, where)
         # each distinct code resolved once (aliases and their codes merge)
         merged, categories = pd.factorize(np.where(known[:-1], resolved[:-1], codes))
         merged = np.append(merged, -1).astype(ids.dtype)  # -1: missing stays missing
@@ -543,7 +544,7 @@ def _facies_column(
             Problem(
                 "warning",
                 "not-described",
-                f"{len(idx)} sample(s) without a facies code (rows {listed}): not described, "
+                f"{len(idx)} sample(s) without a facies code (data rows {listed}): not described, "
                 "left out",
                 **where.at(idx[0]),
             )
@@ -763,17 +764,29 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
     return target, problems
 
 
-def _order(part: pd.DataFrame, key: str, file: str, core: str, units: str) -> list[Problem]:
+def _order(
+    part: pd.DataFrame, key: str, file: str, core: str, units: str, tolerance: float | None = None
+) -> list[Problem]:
+    """The repair of rows out of depth order. Of intervals (``tolerance``: the overlap
+    snapped as rounding), a row shallower than the row before it that overlaps it by
+    more is not counted: the overlap is the error to report, and the sort only its
+    consequence."""
     depth = part[key].to_numpy(dtype=float)
     if len(depth) < 2 or np.all(np.diff(depth) >= 0):
         return []
     rows = part["_row"].to_numpy()
+    shallower = np.diff(depth) < 0
+    if tolerance is not None:
+        base = part["base"].to_numpy(dtype=float)
+        shallower &= base[1:] - depth[:-1] <= tolerance  # wholly above the row before
     if np.all(np.diff(depth) < 0):
         message = "rows are listed from base to top (depth decreasing); put in depth order"
         i = 0
+    elif not shallower.any():
+        return []
     else:
-        i = int(np.nonzero(np.diff(depth) < 0)[0][0]) + 1
-        count = int((np.diff(depth) < 0).sum())
+        i = int(np.nonzero(shallower)[0][0]) + 1
+        count = int(shallower.sum())
         message = (
             f"{count} row(s) shallower than the row before them (out of depth order); "
             "sorted by depth"
@@ -830,7 +843,7 @@ def _check_intervals(
             here(i, "zero-thickness", "error", f"zero thickness (top = base = {top[i]:g})", top[i])
     if not ok.all():
         part = part[ok].reset_index(drop=True)
-    problems += _order(part, "top", file, core, units)
+    problems += _order(part, "top", file, core, units, tolerance)
     top = part["top"].to_numpy(dtype=float)
     base = part["base"].to_numpy(dtype=float)
     ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
@@ -841,9 +854,10 @@ def _check_intervals(
     rows = part["_row"].to_numpy()
     keep = np.ones(len(part), dtype=bool)
     above = -1  # index of the last kept interval
+    reach = -np.inf  # the deepest base of the rows so far, kept or not: no gap above it
     for i in range(len(part)):
         if above < 0:
-            above = i
+            above, reach = i, base[i]
             continue
         overlap = base[above] - top[i]
         if overlap > DEPTH_TOL:
@@ -852,37 +866,74 @@ def _check_intervals(
                     i,
                     "overlap",
                     "repair",
-                    f"overlaps the interval above (row {rows[above]}) by {overlap:.4g} {units}; "
-                    f"top moved down from {top[i]:g} to {base[above]:g}",
+                    f"overlaps the interval above (data row {rows[above]}) by {overlap:.4g} "
+                    f"{units}; top moved down from {top[i]:g} to {base[above]:g}",
                     top[i],
                 )
                 top[i] = base[above]
             else:
                 keep[i] = False
+                listed = _overlapping(i, part, units)
                 here(
                     i,
                     "overlap",
                     "error",
-                    f"interval {top[i]:g}-{base[i]:g} overlaps the interval above (row "
-                    f"{rows[above]}, {top[above]:g}-{base[above]:g}) by {overlap:.4g} {units}, "
-                    f"more than the {tolerance:.4g} {units} snapped as rounding",
+                    f"interval {top[i]:g}-{base[i]:g} {listed}, more than the {tolerance:.4g} "
+                    f"{units} snapped as rounding",
                     top[i],
                 )
+                reach = max(reach, base[i])
                 continue
-        elif -overlap > DEPTH_TOL:
+        elif top[i] - reach > DEPTH_TOL:
             here(
                 i,
                 "gap",
                 "warning",
-                f"gap from {base[above]:g} to {top[i]:g} ({-overlap:.4g} {units}) above this "
+                f"gap from {reach:g} to {top[i]:g} ({top[i] - reach:.4g} {units}) above this "
                 "interval: successions are split here",
-                base[above],
+                reach,
             )
-        above = i
+        above, reach = i, max(reach, base[i])
     if keep.all() and np.array_equal(top, part["top"].to_numpy(dtype=float)):
         return part, problems
     part = part.assign(top=top)[keep].reset_index(drop=True)
     return part, problems
+
+
+def _overlapping(i: int, part: pd.DataFrame, units: str, shown: int = 3) -> str:
+    """What interval ``i`` of a core's intervals (in (top, base) order) shares with every
+    other row it overlaps, whatever the order of the rows in the file: "overlaps data row
+    11 (105.63-107.13) from 107.1 to 107.13 (0.03 m) and covers data row 12 (107.13-107.4)
+    wholly (0.27 m)"."""
+    top = part["top"].to_numpy(dtype=float)
+    base = part["base"].to_numpy(dtype=float)
+    rows = part["_row"].to_numpy()
+    # the rows that can overlap it: from the first whose deepest base so far passes its
+    # top (a running maximum, so a search), to the last whose top is above its base
+    first = int(np.searchsorted(np.maximum.accumulate(base), top[i] + DEPTH_TOL, side="right"))
+    last = int(np.searchsorted(top, base[i] - DEPTH_TOL, side="left"))
+    found = []
+    for j in range(first, last):
+        shared = min(base[i], base[j]) - max(top[i], top[j])
+        if j == i or shared <= DEPTH_TOL:
+            continue
+        other = f"data row {rows[j]} ({top[j]:g}-{base[j]:g})"
+        inside = top[i] - top[j] >= -DEPTH_TOL and base[j] - base[i] >= -DEPTH_TOL
+        covers = top[j] - top[i] >= -DEPTH_TOL and base[i] - base[j] >= -DEPTH_TOL
+        if inside and covers:
+            found.append((rows[j], f"repeats {other}"))
+        elif covers:
+            found.append((rows[j], f"covers {other} wholly ({shared:.4g} {units})"))
+        elif inside:
+            found.append((rows[j], f"lies wholly inside {other}"))
+        else:
+            span = f"{max(top[i], top[j]):g} to {min(base[i], base[j]):g}"
+            found.append((rows[j], f"overlaps {other} from {span} ({shared:.4g} {units})"))
+    found.sort()
+    said = [text for _, text in found[:shown]]
+    if len(found) > shown:
+        said.append(f"{len(found) - shown} more row(s)")
+    return " and ".join(said) if len(said) < 3 else ", ".join(said[:-1]) + " and " + said[-1]
 
 
 def _modal_step(depth: np.ndarray) -> float | None:
@@ -915,13 +966,13 @@ def _check_samples(
             if repeated_depths == "keep-first":
                 severity, message = (
                     "repair",
-                    f"repeated depth {depth[i]:g} (also row {rows[first]}); the first kept, "
+                    f"repeated depth {depth[i]:g} (also data row {rows[first]}); the first kept, "
                     "this row left out",
                 )
             else:
                 severity, message = (
                     "error",
-                    f"repeated depth {depth[i]:g} (also row {rows[first]}); remove one, or "
+                    f"repeated depth {depth[i]:g} (also data row {rows[first]}); remove one, or "
                     "keep the first with --keep-first",
                 )
             problems.append(
