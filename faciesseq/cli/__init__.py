@@ -78,7 +78,8 @@ class HelpFormatter(argparse.HelpFormatter):
 
 
 class _Parser(argparse.ArgumentParser):
-    """argparse with exit code 2 and a one-line error for usage mistakes.
+    """argparse with exit code 2 and a one-line error for usage mistakes; options are
+    given whole (no abbreviations).
 
     Every parser shows its options' defaults and keeps its description and
     examples as written (:class:`HelpFormatter`).
@@ -86,6 +87,9 @@ class _Parser(argparse.ArgumentParser):
 
     def __init__(self, *args, **kwargs) -> None:
         kwargs.setdefault("formatter_class", HelpFormatter)
+        # no abbreviated options: `decode --unit bed` read as `--units bed` (fit has
+        # --unit, decode only --units) answered about depth units
+        kwargs.setdefault("allow_abbrev", False)
         super().__init__(*args, **kwargs)
 
     def parse_known_args(self, args=None, namespace=None):
