@@ -540,8 +540,7 @@ assert main(["demo", "--no-latex", "-o", {str(tmp_path / "demo")!r}]) == 0
         (
             # options are given whole: decode has --units, not --unit (fit has both)
             ["decode", "m.json", "cores.csv", "-o", "out", "--unit", "bed"],
-            "faciesseq decode: unrecognized arguments: --unit bed "
-            "(see faciesseq decode --help)",
+            "faciesseq decode: unrecognized arguments: --unit bed (see faciesseq decode --help)",
         ),
         (
             ["check", "cores.csv", "--no-such-option"],
