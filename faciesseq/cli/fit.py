@@ -401,9 +401,10 @@ def run(args: argparse.Namespace) -> int:
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
     if selection.best.unit_ != "grid":  # for decode to compare its beds with (faciesseq.novelty)
-        from faciesseq.novelty import training_beds
+        from faciesseq.novelty import labelled_rank_range, training_beds
 
         provenance |= training_beds(successions)
+        provenance |= labelled_rank_range(successions, selection.best, args.labels)
     save_model(selection.best, args.output, provenance)
     _report(args, selection, successions, scheme)
     return 0

@@ -20,6 +20,7 @@ and loading one runs no code. Layout (``version: 1``)::
       "training": {log_likelihood, objective, n_beds, n_labelled, cores, restarts,
                    best_restart, seed, calibration, cautions, units,
                    facies_beds, bed_thickness_median,   # `fit` on beds (absent: older)
+                   labelled_mean_rank,   # `fit --labels` with ranks (absent: older)
                    ...provenance given by the caller},
       "provenance": {"created": "2026-12-01T19:30:00+00:00", "command": [...]}
     }
@@ -445,6 +446,7 @@ _TRAINING_TYPES = {
     "units": str,
     "facies_beds": dict,
     "bed_thickness_median": (int, float),
+    "labelled_mean_rank": list,
 }  # "calibration" may be anything: the report says when it is not a record
 
 
@@ -469,6 +471,16 @@ def _training(doc: Mapping, source: str) -> Mapping:
         raise ModelFileError("training.facies_beds: a count of beds per facies", file=source)
     if not (training.get("bed_thickness_median") or 1) > 0:
         raise ModelFileError("training.bed_thickness_median: a positive number", file=source)
+    bounds = training.get("labelled_mean_rank")
+    if bounds is not None and not (
+        len(bounds) == 2
+        and all(isinstance(b, int | float) and not isinstance(b, bool) for b in bounds)
+        and all(math.isfinite(b) for b in bounds)
+        and bounds[0] <= bounds[1]
+    ):
+        raise ModelFileError(
+            "training.labelled_mean_rank: two finite numbers, the lower first", file=source
+        )
     if training.get("units") not in (None, "m", "ft"):
         raise ModelFileError(f"training.units: {training['units']!r}: m or ft", file=source)
     for r in training.get("restarts") or []:
