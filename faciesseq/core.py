@@ -693,14 +693,7 @@ class CoreSet:
             more = (
                 f" (and {len(errors) - 1} more; run `faciesseq check`)" if len(errors) > 1 else ""
             )
-            raise InputError(
-                first.message + more,
-                file=first.file,
-                row=first.row,
-                core=first.core,
-                depth=first.depth,
-                units=first.units,
-            )
+            raise first.as_error(more)
         return self
 
     def facies_codes(self) -> list[str]:

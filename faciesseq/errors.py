@@ -126,6 +126,18 @@ class Problem:
             else (f"{self.severity}: {self.message}")
         )
 
+    def as_error(self, more: str = "") -> InputError:
+        """This problem as the error that stops a command, located as it is, with
+        ``more`` (e.g. how many other problems there are) after its message."""
+        return InputError(
+            self.message + more,
+            file=self.file,
+            row=self.row,
+            core=self.core,
+            depth=self.depth,
+            units=self.units,
+        )
+
     def to_dict(self) -> dict:
         return {
             "severity": self.severity,

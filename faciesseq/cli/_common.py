@@ -448,11 +448,4 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
         more = (
             f" ({len(problems) - 1} more; faciesseq check lists them)" if len(problems) > 1 else ""
         )
-        raise InputError(
-            first.message + more,
-            file=first.file,
-            row=first.row,
-            core=first.core,
-            depth=first.depth,
-            units=first.units,
-        )
+        raise first.as_error(more)
