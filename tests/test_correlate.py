@@ -181,6 +181,24 @@ def test_true_surfaces_of_a_simulated_section_are_tied_to_their_own_age():
     assert counts["recovered"] / counts["true_ties"] >= 0.85
 
 
+def test_elevation_datum_by_hand():
+    """Kelly bushing 100 m up, a depth of 250 m lies 250 - 100 = 150 m below sea level;
+    a well whose reference stands at 0 keeps its depths."""
+    from faciesseq.report.section import datum_shifts
+
+    picks = pd.DataFrame(
+        {"core": ["HIGH", "LOW"], "surface": "MFS", "depth": [250.0, 150.0], "probability": 1.0}
+    )
+    wells = pd.DataFrame(
+        {"core": ["HIGH", "LOW"], "section": "s", "position": [0.0, 1.0], "elevation": [100.0, 0.0]}
+    )
+    corr = correlate(picks, {"HIGH": (250.0, 260.0), "LOW": (150.0, 160.0)}, wells)
+    shifts, label = datum_shifts(corr, "s", "elevation")
+    drawn = {c: d - shifts[c] for c, d in zip(picks["core"], picks["depth"])}
+    assert drawn == {"HIGH": 150.0, "LOW": 150.0}
+    assert label == "depth below datum (elevation 0)"
+
+
 def test_datum_choices_shift_the_wells():
     from faciesseq.report.section import datum_shifts
 
@@ -190,7 +208,7 @@ def test_datum_choices_shift_the_wells():
     shifts, _ = datum_shifts(corr, "dip", "depth")
     assert set(shifts.values()) == {0.0}
     shifts, _ = datum_shifts(corr, "dip", "elevation")
-    assert shifts["W0"] == -5.0
+    assert shifts["W0"] == 5.0
     shifts, label = datum_shifts(corr, "dip", "MFS")
     mfs = corr.picks[corr.picks["surface"] == "MFS"]
     best = mfs.groupby("surface_id")["core"].size().max()

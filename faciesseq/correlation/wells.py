@@ -10,8 +10,10 @@ Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite; see
   fits them best (first principal axis; ``order`` overrides it) and the
   position is the distance along that path;
 - optional ``section`` (one section named ``section`` when absent), ``order``
-  (order of the wells along their section), ``elevation`` (of the core's top,
-  positive up, in the cores' depth units) and ``datum_depth`` (depth of a datum
+  (order of the wells along their section), ``elevation`` (of the point the
+  core's depths are measured from, kelly bushing or ground, positive up above
+  the datum, in the cores' depth units: depth ``d`` lies ``d - elevation``
+  below the datum) and ``datum_depth`` (depth of a datum
   in the core, for ``--datum datum_depth``).
 """
 

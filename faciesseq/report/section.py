@@ -100,8 +100,12 @@ def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | Non
 def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float], str]:
     """Depth of the datum in each well of ``section`` (subtracted from depths), and its label.
 
-    ``datum`` is ``"depth"`` (core tops at 0), ``"elevation"`` (depth below the
-    elevation of the wells' tops; needs ``elevation``), ``"datum_depth"`` (the
+    ``datum`` is ``"depth"`` (the depths as measured, no shift), ``"elevation"``
+    (depth below elevation 0, e.g. sea level: ``elevation`` is that of the
+    point the core's depths are measured from, the kelly bushing or the ground,
+    positive up, so a depth ``d`` lies at ``d - elevation`` below the datum: a
+    well whose reference stands 100 m up has its 250 m depth drawn 150 m below
+    the datum), ``"datum_depth"`` (the
     wells table's column), a correlated surface id, or a surface kind (``MFS``:
     the kind's correlated surface found in the most wells, the most confident
     among equals). Wells the surface misses take the datum depth interpolated
@@ -118,7 +122,9 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
         if np.isnan(values).any():
             raise ConfigError(f"--datum {datum} needs a {datum!r} value for every well")
         if datum == "elevation":
-            return dict(zip(names, -values)), "depth below datum (elevation 0)"
+            # a depth reference standing `elevation` above the datum puts depth d at
+            # d - elevation below it (true vertical depth subsea = depth - KB elevation)
+            return dict(zip(names, values)), "depth below datum (elevation 0)"
         return dict(zip(names, values)), "depth below the datum"
     picks = correlation.picks[correlation.picks["section"] == section]
     chosen = picks[picks["surface_id"] == datum]
