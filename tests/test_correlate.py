@@ -234,3 +234,23 @@ def test_bad_position_value_names_the_row():
     frame = pd.DataFrame({"core": ["A", "B"], "x_km": ["1", "two"]})
     with pytest.raises(InputError, match=r"w\.csv, data row 2: position 'two'"):
         wells_from_frame(frame, "w.csv")
+
+
+def test_a_well_missing_the_top_cycle_disputes_a_top_to_top_tie():
+    """SHORT lacks FULL's top cycle (its cores start one cycle lower). Of the ties
+    read by the fraction of the columns, the one joining SHORT's top MFS to FULL's
+    top MFS is disputed by the depth map through the other ties (SHORT = FULL + 140 m),
+    and its confidence halved to doubtful; the ties of the same cycle are kept."""
+    from faciesseq.correlation import disputed_ties
+
+    kinds = ["MFS", "MRS", "SB"] * 3
+    full = PickColumn.from_picks(
+        kinds, [100 + 10 * c + off for c in range(3) for off in (3, 6, 8)], np.ones(9), 100, 130
+    )
+    short = PickColumn.from_picks(
+        kinds[3:], [250 + 10 * c + off for c in range(2) for off in (3, 6, 8)], np.ones(6), 250, 270
+    )
+    # the top-to-top slip (0, 0) then the true ties of the two lower cycles
+    ties = [(0, 0, 0.0), (4, 1, 0.0), (5, 2, 0.0), (6, 3, 0.0), (7, 4, 0.0), (8, 5, 0.0)]
+    assert disputed_ties(full, short, ties) == {(0, 0)}
+    assert disputed_ties(full, short, ties[1:]) == set()

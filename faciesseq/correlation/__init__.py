@@ -11,7 +11,19 @@ A correlation from cores alone is a hypothesis for a geologist to test against
 seismic, biostratigraphy and well logs; it does not replace an interpretation.
 """
 
-from faciesseq.correlation.align import AlignmentOptions, PickColumn, align_columns
+from faciesseq.correlation.align import (
+    AlignmentOptions,
+    PickColumn,
+    align_columns,
+    disputed_ties,
+)
 from faciesseq.correlation.chain import Correlation, correlate
 
-__all__ = ["AlignmentOptions", "Correlation", "PickColumn", "align_columns", "correlate"]
+__all__ = [
+    "AlignmentOptions",
+    "Correlation",
+    "PickColumn",
+    "align_columns",
+    "correlate",
+    "disputed_ties",
+]

@@ -31,7 +31,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["AlignmentOptions", "PickColumn", "align_columns", "tie_confidence"]
+__all__ = [
+    "AlignmentOptions",
+    "PickColumn",
+    "align_columns",
+    "disputed_ties",
+    "fitted_depth_map",
+    "tie_confidence",
+]
 
 
 @dataclass(frozen=True)
@@ -120,16 +127,74 @@ class PickColumn:
         return out
 
 
-def tie_costs(upper: PickColumn, lower: PickColumn, options: AlignmentOptions) -> np.ndarray:
-    """Cost of tying every pick of ``upper`` to every pick of ``lower`` (inf: other kinds)."""
-    fi, fj = upper.fraction[:, None], lower.fraction[None, :]
+def tie_costs(
+    upper: PickColumn,
+    lower: PickColumn,
+    options: AlignmentOptions,
+    depth_map: tuple[float, float] | None = None,
+) -> np.ndarray:
+    """Cost of tying every pick of ``upper`` to every pick of ``lower`` (inf: other kinds).
+
+    ``depth_map`` is ``(intercept, slope)`` of the line carrying a depth of
+    ``upper`` to the depth of the same surface in ``lower``; ``None`` maps the
+    columns' tops and bases onto each other (the fractional positions). The
+    position term is the misfit of ``lower``'s depth to the mapped one as a
+    fraction of ``lower``'s column; the cycle term compares the mapped cycle
+    thicknesses.
+    """
+    if depth_map is None:
+        span_u = upper.base - upper.top
+        slope = (lower.base - lower.top) / span_u if span_u > 0 else 1.0
+        depth_map = (lower.top - slope * upper.top, slope)
+    intercept, slope = depth_map
+    span = lower.base - lower.top
+    scale = span if span > 0 else 1.0
+    mapped = intercept + slope * upper.depth
+    fi, fj = mapped[:, None] / scale, lower.depth[None, :] / scale
     cost = 0.5 * ((fi - fj) / options.sigma) ** 2
-    ci, cj = upper.cycle[:, None], lower.cycle[None, :]
+    ci, cj = slope * _cycle_depths(upper)[:, None], _cycle_depths(lower)[None, :]
     with np.errstate(divide="ignore", invalid="ignore"):
-        log_ratio = np.log(np.maximum(ci, 1e-6)) - np.log(np.maximum(cj, 1e-6))
+        log_ratio = np.log(np.maximum(ci, 1e-6 * scale)) - np.log(np.maximum(cj, 1e-6 * scale))
     cost = cost + np.where(np.isfinite(log_ratio), 0.5 * (log_ratio / options.tau) ** 2, 0.0)
     same = upper.surface[:, None] == lower.surface[None, :]
     return np.where(same, cost, np.inf)
+
+
+def _cycle_depths(column: PickColumn) -> np.ndarray:
+    """Thickness to the previous pick of the same kind above (depth units); NaN for the first."""
+    out = np.full(len(column), np.nan)
+    last: dict[str, float] = {}
+    for k, (code, depth) in enumerate(zip(column.surface, column.depth)):
+        if code in last:
+            out[k] = depth - last[code]
+        last[code] = depth
+    return out
+
+
+def fitted_depth_map(
+    upper: PickColumn, lower: PickColumn, ties: list[tuple[int, int, float]]
+) -> tuple[float, float] | None:
+    """``(intercept, slope)`` of the line through the tied depths, robust to a bad tie.
+
+    Theil-Sen estimate (Sen 1968, J. Am. Stat. Assoc. 63:1379-1389): the slope
+    is the median of the slopes between every two ties, the intercept the
+    median of ``depth_lower - slope * depth_upper``. ``None`` with fewer than
+    three ties or a slope that is not positive (the ties then say nothing
+    about how the two columns stand against each other beyond their ends).
+    """
+    if len(ties) < 3:
+        return None
+    x = upper.depth[[i for i, _, _ in ties]]
+    y = lower.depth[[j for _, j, _ in ties]]
+    dx = x[None, :] - x[:, None]
+    dy = y[None, :] - y[:, None]
+    upper_pairs = np.triu(np.ones_like(dx, dtype=bool), 1) & (dx > 0)
+    if not upper_pairs.any():
+        return None
+    slope = float(np.median(dy[upper_pairs] / dx[upper_pairs]))
+    if not slope > 0:
+        return None
+    return float(np.median(y - slope * x)), slope
 
 
 def tie_confidence(cost: float, p_left: float, p_right: float, gap: float) -> float:
@@ -165,8 +230,38 @@ def align_columns(
         tied at most once.
     """
     options = options or AlignmentOptions()
+    return _align(upper, lower, options, tie_costs(upper, lower, options))
+
+
+def disputed_ties(
+    upper: PickColumn,
+    lower: PickColumn,
+    ties: list[tuple[int, int, float]],
+    options: AlignmentOptions | None = None,
+) -> set[tuple[int, int]]:
+    """Ties of :func:`align_columns` that a second reading of the pair does not make.
+
+    The alignment places each column's picks by their fraction of the column,
+    which holds only where both columns span the same interval. A well that
+    misses the top or the base of the succession (a shorter core, a
+    truncation) breaks that. The second reading maps the depths of ``upper``
+    onto ``lower`` by the line through the ties themselves
+    (:func:`fitted_depth_map`, robust to a bad tie) and aligns again; a tie the
+    two readings disagree on is ``(i, j)`` in the returned set.
+    """
+    options = options or AlignmentOptions()
+    depth_map = fitted_depth_map(upper, lower, ties)
+    if depth_map is None:
+        return set()
+    refitted = _align(upper, lower, options, tie_costs(upper, lower, options, depth_map))
+    return {(i, j) for i, j, _ in ties} - {(i, j) for i, j, _ in refitted}
+
+
+def _align(
+    upper: PickColumn, lower: PickColumn, options: AlignmentOptions, match: np.ndarray
+) -> list[tuple[int, int, float]]:
+    """The cheapest order-preserving alignment for the tie costs ``match``."""
     n, m = len(upper), len(lower)
-    match = tie_costs(upper, lower, options)
     skip_i = options.gap * upper.probability
     skip_j = options.gap * lower.probability
     total = np.zeros((n + 1, m + 1))

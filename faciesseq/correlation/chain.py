@@ -23,8 +23,13 @@ from faciesseq.correlation.align import (
     AlignmentOptions,
     PickColumn,
     align_columns,
+    disputed_ties,
     tie_confidence,
 )
+
+#: Factor on the confidence of a tie that the second reading of its pair of wells
+#: (depths mapped by the line through the ties) does not make: one of two readings.
+DISPUTED = 0.5
 
 __all__ = ["Correlation", "correlate"]
 
@@ -155,8 +160,12 @@ def correlate(
         links = []
         for left, right in itertools.pairwise(names):
             a, b = columns[left], columns[right]
-            for i, j, cost in align_columns(a, b, options):
+            pair = align_columns(a, b, options)
+            disputed = disputed_ties(a, b, pair, options)
+            for i, j, cost in pair:
                 conf = tie_confidence(cost, a.probability[i], b.probability[j], options.gap)
+                if (i, j) in disputed:
+                    conf *= DISPUTED
                 key = (left, i)
                 if key not in owner:
                     owner[key] = len(members)
