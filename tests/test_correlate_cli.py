@@ -134,3 +134,22 @@ def test_missing_wells_file_one_line(database, tmp_path, capsys):
     err = capsys.readouterr().err.strip()
     assert "nope.csv" in err and len(err.splitlines()) == 1
     assert not out.exists()
+
+
+def test_wells_without_section_column_write_section_png_and_a_labelled_page(
+    database, tmp_path, capsys
+):
+    """No ``section`` column: the figure is section.png (not section-section.png); the
+    page's positions carry the distance unit (km) and the model's note on the pick
+    probabilities is labelled as such."""
+    wells = tmp_path / "wells.csv"
+    rows = [("QB-01", 38.0), ("QB-03", 48.0), ("QB-05", 58.0), ("QB-07", 68.0)]
+    pd.DataFrame(rows, columns=["core", "x_km"]).to_csv(wells, index=False)
+    out = tmp_path / "corr"
+    assert _run(database, out, "--datum", "depth", "--view", wells=wells) == 0
+    assert (out / "section.png").exists()
+    assert not (out / "section-section.png").exists()
+    html = (out / "section.html").read_text(encoding="utf-8")
+    data = html.split('id="section-data">', 1)[1].split("</script>", 1)[0]
+    assert '"position_unit": "km"' in data or '"position_unit":"km"' in data
+    assert "Pick probabilities (from the model file): " in data

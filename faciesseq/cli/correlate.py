@@ -112,7 +112,7 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
         datum=args.datum,
         units=cores.units,
         position_label=wells.position_label,
-        note=interp.probabilities_note,
+        note=f"Pick probabilities (from the model file): {interp.probabilities_note}",
     )
     write_file(path, html)
 
@@ -138,7 +138,9 @@ def run(args: argparse.Namespace) -> int:
         corr.ties.to_csv(temp / "ties.csv", index=False, float_format="%.6g")
         used: set[str] = set()
         for section in sorted(corr.wells["section"].unique()):
-            stem = safe_stem(f"section-{section}", used)
+            # one section without a name in the wells table: section.png, not section-section.png
+            unnamed = section == "section" and corr.wells["section"].nunique() == 1
+            stem = safe_stem("section" if unnamed else f"section-{section}", used)
             used.add(stem)
             datum, note = hanging_datum(corr, section, args.datum)
             if note:

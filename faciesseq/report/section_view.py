@@ -44,6 +44,14 @@ def _runs(column: pd.DataFrame) -> pd.DataFrame:
     )
 
 
+def _position_unit(label: str) -> str:
+    """The unit a distance label names in brackets (``km``), or ``""``."""
+    if label.endswith(")") and "(" in label:
+        unit = label.rsplit("(", 1)[1][:-1]
+        return unit if len(unit) <= 3 else ""
+    return ""
+
+
 def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -> dict:
     wells = correlation.wells[correlation.wells["section"] == section]
     ties = correlation.ties[correlation.ties["section"] == section]
@@ -141,6 +149,7 @@ def section_view_data(
     return {
         "units": units,
         "position_label": distance_label(position_label),
+        "position_unit": _position_unit(distance_label(position_label)),
         "caption": CAPTION,
         "note": note,
         "tracts": [{"code": t, "colour": tract_colour(t, tract_order)} for t in tract_order],
@@ -206,6 +215,14 @@ _JS = r"""
 
 @SVG@
   function fmt(x, digits) { return x === null ? "n/a" : x.toFixed(digits); }
+  // a well's position: as many decimals as the spread of the section's positions needs
+  // (none from 100 units up), with the unit of the distance axis when it names one
+  function positionText(x, wells) {
+    const xs = wells.map(w => w.position);
+    const span = Math.max(...xs) - Math.min(...xs);
+    const digits = span >= 100 ? 0 : span >= 10 ? 1 : 2;
+    return x.toFixed(digits) + (DATA.position_unit ? " " + DATA.position_unit : "");
+  }
 
   document.getElementById("caption").textContent = DATA.caption;
   document.getElementById("note").textContent = DATA.note;
@@ -327,7 +344,7 @@ _JS = r"""
       el("rect", {x: x, y: Y(w.top[0] - w.shift), width: COL, fill: "none", stroke: "#000",
         "stroke-width": 0.6, height: Y(w.base[w.base.length - 1]) - Y(w.top[0])}, g);
       text(svg, x + COL / 2, Y(w.top[0] - w.shift) - 6, w.core, null, "middle");
-      text(svg, x + COL / 2, HEAD + HEIGHT + 16, String(+w.position.toFixed(2)), "small",
+      text(svg, x + COL / 2, HEAD + HEIGHT + 16, positionText(w.position, sec.wells), "small",
         "middle");
     });
     document.getElementById("sections").appendChild(box);
