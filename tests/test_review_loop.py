@@ -375,3 +375,21 @@ def test_the_sheet_holds_no_float_noise(work):
     tracts = pd.read_csv(work / "decoded" / "tracts.csv", skiprows=1)
     np.testing.assert_allclose(numbers["thickness"], numbers["base"] - numbers["top"], atol=2e-6)
     assert len(numbers) == len(tracts) and "e-" not in text
+
+
+# ------------------------------------------------------- the refit after a relabel
+
+
+def test_a_label_that_jumps_the_cyclic_order_is_named_by_core_and_depth(work, tmp_path, capsys):
+    # the refit said "permissive: 1 of 20 labelled boundaries jump ..." and not where
+    cores = pd.read_csv(work / "cores.csv", dtype={"core": object, "tract": object})
+    first = cores.index[cores["core"] == cores["core"].iat[0]]
+    i = next(i for i in first[5:-1] if cores.at[i + 1, "tract"] == "FSST")
+    cores.at[i, "tract"] = "HST"  # FSST below, HST above: the strict order forbids it
+    cores.to_csv(tmp_path / "odd.csv", index=False)
+    argv = ["fit", tmp_path / "odd.csv", "--scheme", work / "scheme.yaml", "--labels", "tract"]
+    code, stdout, err = _run(capsys, [*argv, *QUICK, "-o", tmp_path / "m.json"])
+    assert code == 0, err
+    (line,) = [x for x in stdout.splitlines() if x.startswith("tract graph:")]
+    base = cores.at[i, "base"]
+    assert f"at {cores.at[i, 'core']} {base:.2f} m: FSST -> HST" in line, line
