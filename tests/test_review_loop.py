@@ -153,7 +153,7 @@ def _filled(work, tmp_path) -> tuple[pd.DataFrame, object]:
     sheet.loc[first[3], ["geologist_tract", "note"]] = [other, "flooding surface above"]
     sheet.loc[first[5], "geologist_tract"] = sheet["interpreter_tract"].iat[first[5]].lower()
     path = tmp_path / "filled.csv"
-    sheet.to_csv(path, index=False)
+    _save(sheet, path, work)
     return sheet, path
 
 
@@ -429,6 +429,18 @@ def test_an_edited_xlsx_decoded_column_is_refused_too(work, tmp_path, capsys):
     assert code == 1 and "decoded_tract is not what decode wrote" in err
 
 
+def test_a_sheet_without_its_record_is_read_and_says_what_could_not_be_checked(
+    work, tmp_path, capsys
+):
+    sheet, _ = _filled(work, tmp_path)
+    path = tmp_path / "filled.csv"
+    sheet.to_csv(path, index=False)  # without the record line
+    code, _, err = _relabel(capsys, work, path, tmp_path / "labelled.csv")
+    assert code == 0, err
+    (line,) = [x for x in err.splitlines() if "record" in x]
+    assert "filled.csv holds no record of its decode" in line and "scheme" in line
+
+
 def test_an_untouched_sheet_says_nothing_was_edited(work, tmp_path, capsys):
     out = tmp_path / "labelled.csv"
     code, stdout, err = _relabel(capsys, work, work / "decoded" / "sheet.csv", out)
@@ -449,8 +461,7 @@ def test_a_sorted_sheet_with_a_note_only_is_an_edit(work, tmp_path, capsys):
 
 def test_the_next_fit_names_the_scheme_the_sheets_decode_read(work, tmp_path, capsys):
     # without --scheme the hint refitted on ranks suggested from the data
-    sheet, _ = _filled(work, tmp_path)
-    _save(sheet, tmp_path / "filled.csv", work)
+    _filled(work, tmp_path)
     out = tmp_path / "labelled.csv"
     code, stdout, err = _relabel(capsys, work, tmp_path / "filled.csv", out)
     assert code == 0, err

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 
 from faciesseq.cli._common import (
@@ -129,6 +130,15 @@ def run(args: argparse.Namespace) -> int:
     result = relabel(sheet, cores, tract_model.codes, file=name, labels=args.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    next_fit = _next_fit(args, result, sheet.attrs.get("record"))
+    record = sheet.attrs.get("record")
+    next_fit = _next_fit(args, result, record)
     print("\n".join(_report(result, args.output, next_fit)))
+    if record is None:
+        print(
+            f"faciesseq relabel: {name} holds no record of its decode (a sheet of an older "
+            "decode, or its first line deleted): its decoded_tract could not be checked, and "
+            "the fit above names no scheme unless --scheme was given; give the fit the "
+            "scheme the model was fitted with",
+            file=sys.stderr,
+        )
     return 0
