@@ -12,6 +12,16 @@
    from the source table).
 4. ``fit --labels`` learns from the relabelled table; the model file's provenance
    counts the labels per origin (:func:`label_source_counts`).
+5. ``decode --review-sheet`` again: the next sheet shows where each label came from
+   (``label_source``) and the geologist's notes (``review_note`` of the relabelled
+   table); ``decode --labels tract --keep-labels`` keeps the labelled beds' tracts
+   and decodes the rest around them.
+
+The sheet carries a *record* of what decode wrote (:func:`sheet_record`: the model
+and scheme files, a digest of the decoded column and of the notes), as a first
+``# `` line of the CSV and a line of the XLSX's read-me worksheet: ``relabel``
+refuses a sheet whose decoded column was edited instead of ``geologist_tract``
+(:func:`check_edits`), and its next ``fit`` command names the scheme.
 
 Depths in the sheet are those of the decoded core set (its units, positive
 downward); rows are in depth order within each core.
@@ -19,6 +29,8 @@ downward); rows are in depth order within each core.
 
 from __future__ import annotations
 
+import csv
+import hashlib
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -34,9 +46,11 @@ __all__ = [
     "GEOLOGIST",
     "LABEL_SOURCE",
     "RelabelResult",
+    "check_edits",
     "label_source_counts",
     "read_sheet",
     "relabel",
+    "sheet_record",
     "sheet_table",
     "write_sheet",
 ]
@@ -47,6 +61,11 @@ GEOLOGIST = ("geologist_tract", "note")
 LABEL_SOURCE = "label_source"
 #: ``label_source`` of a label kept from the source table.
 FROM_SOURCE = "source"
+#: Column of a relabelled table holding the geologist's note of each interval's bed
+#: (not ``note``: a source may describe its intervals in a column of that name).
+REVIEW_NOTE = "review_note"
+#: First words of the sheet's record line (see :func:`sheet_record`).
+RECORD_START = "# faciesseq review sheet"
 #: Name of the sheet files in the decode folder (``.csv`` and ``.xlsx``).
 SHEET_NAME = "sheet"
 #: Worksheet names of the XLSX sheet.
@@ -62,9 +81,12 @@ README = (
     "probability; 'interpreter_tract' is the tract the source already had, if any. Where "
     "you disagree with the decoded tract, or want a bed's tract kept as it is, choose the "
     "tract in 'geologist_tract' (the list holds the tract codes of the model: {codes}) and, "
-    "if you like, say why in 'note'. Leave a cell empty to keep the source's label. Do not "
-    "change core, top or base, and do not add rows. Then run `faciesseq relabel SHEET "
-    "SOURCE -o labelled.csv` and `faciesseq fit labelled.csv --labels tract -o model.json`."
+    "if you like, say why in 'note' (notes are kept in the relabelled table, column "
+    "'review_note', and shown in the next sheet). 'label_source' says where a source label "
+    "came from (a sheet's file name, or 'source'). Leave a cell empty to keep the source's "
+    "label. Do not change core, top, base or decoded_tract (relabel refuses a sheet whose "
+    "decoded_tract was edited), and do not add rows. Then run `faciesseq relabel SHEET "
+    "SOURCE -o labelled.csv` and the fit it prints."
 )
 
 
@@ -92,11 +114,14 @@ def sheet_table(interp, labels: str | None = "tract") -> pd.DataFrame:
     -------
     pandas.DataFrame
         ``core, top, base, thickness, facies, decoded_tract, probability``
-        (posterior of the decoded tract), ``interpreter_tract`` (only where the
-        source had one), ``geologist_tract`` and ``note`` (empty); one row per
+        (posterior of the decoded tract), ``clamped`` (only in a decode that kept
+        the labels: whether the bed was held to its label), ``interpreter_tract``
+        (only where the source had one), ``label_source`` (only where the source
+        has one: a relabelled table), ``geologist_tract`` (empty) and ``note``
+        (the source's ``review_note`` where it has one, else empty); one row per
         decoded bed, depth order within each core.
     """
-    frames, with_interpreter = [], False
+    frames, with_interpreter, with_origin, with_clamped = [], False, False, False
     for core in interp:
         beds = core.beds
         if not len(beds):
@@ -118,9 +143,17 @@ def sheet_table(interp, labels: str | None = "tract") -> pd.DataFrame:
         if column is not None:
             with_interpreter = True
             part["interpreter_tract"] = beds[column].to_numpy(dtype=object)
+        for name, shown in ((LABEL_SOURCE, LABEL_SOURCE), (REVIEW_NOTE, "note")):
+            if name in beds.columns:  # a relabelled source: origins and notes shown again
+                with_origin |= name == LABEL_SOURCE
+                part[shown] = [_text(v) or None for v in beds[name].to_numpy(dtype=object)]
+        if CLAMPED in beds.columns:
+            with_clamped = True
+            part[CLAMPED] = beds[CLAMPED].to_numpy(dtype=bool)
         frames.append(part.sort_values(["top", "base"], kind="stable"))
     columns = ["core", "top", "base", "thickness", "facies", "decoded_tract", "probability"]
-    columns += ["interpreter_tract"] * with_interpreter + list(GEOLOGIST)
+    columns += [CLAMPED] * with_clamped + ["interpreter_tract"] * with_interpreter
+    columns += [LABEL_SOURCE] * with_origin + list(GEOLOGIST)
     table = pd.concat(frames, ignore_index=True) if frames else pd.DataFrame()
     for name in columns:
         if name not in table.columns:
@@ -139,7 +172,73 @@ def xlsx_available() -> bool:
     return True
 
 
-def write_sheet(interp, folder: Path, labels: str | None = "tract") -> list[Path]:
+#: Column of the beds (and the sheet) of a decode that kept the labels: whether the
+#: bed was clamped to its label (``decode --keep-labels``).
+CLAMPED = "clamped"
+
+
+def _digest(values) -> str:
+    text = "\n".join(values)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:16]
+
+
+def _keys(table: pd.DataFrame) -> list[str]:
+    """``core<TAB>top`` of every row, as text that a spreadsheet's round trip keeps
+    (``100.0`` read back as ``100``)."""
+    tops = [f"{float(t):.6f}" for t in table["top"]]
+    return [f"{_text(c)}\t{t}" for c, t in zip(table["core"], tops, strict=True)]
+
+
+def _column_digest(table: pd.DataFrame, column: str) -> str:
+    """Digest of one column of the sheet, rows taken in core and depth order (a
+    spreadsheet user may sort them), blanks as empty text, case kept."""
+    pairs = sorted(zip(_keys(table), (_text(v) for v in table[column]), strict=True))
+    return _digest(f"{k}\t{v}" for k, v in pairs)
+
+
+def sheet_record(
+    table: pd.DataFrame, model: str | None = None, scheme: str | None = None, labels="tract"
+) -> dict[str, str]:
+    """What decode wrote into a sheet, for ``relabel`` to check the sheet and say the
+    next fit: ``model`` and ``scheme`` (absolute paths of the files decode read,
+    ``none`` for a model without a scheme), ``labels`` (the interpreter's column),
+    ``beds`` (rows), and digests of ``decoded_tract`` and ``note`` as written."""
+    return {
+        "model": str(model) if model else "none",
+        "scheme": str(scheme) if scheme else "none",
+        "labels": labels or "tract",
+        "beds": str(len(table)),
+        "decoded": _column_digest(table, "decoded_tract"),
+        "notes": _column_digest(table, "note"),
+    }
+
+
+def record_line(record: dict[str, str]) -> str:
+    """The record as one line: ``# faciesseq review sheet; model: ...; beds: 180; ...``."""
+    return "; ".join([RECORD_START, *(f"{k}: {v}" for k, v in record.items())])
+
+
+def parse_record(line: str) -> dict[str, str] | None:
+    """The record of a line written by :func:`record_line`, or None for another line."""
+    line = str(line).strip()
+    if not line.startswith(RECORD_START):
+        return None
+    record = {}
+    for item in line[len(RECORD_START) :].split("; "):
+        key, sep, value = item.partition(": ")
+        if sep:
+            record[key.strip()] = value.strip()
+    return record
+
+
+def write_sheet(
+    interp,
+    folder: Path,
+    labels: str | None = "tract",
+    *,
+    model: str | None = None,
+    scheme: str | None = None,
+) -> list[Path]:
     """Write ``folder/sheet.csv`` and, where openpyxl is installed, ``folder/sheet.xlsx``.
 
     ``folder`` is a new folder being filled (``decode`` builds its output
@@ -150,18 +249,25 @@ def write_sheet(interp, folder: Path, labels: str | None = "tract") -> list[Path
     :data:`PROBABILITY_DECIMALS` (shown with 2 in the XLSX); ``relabel`` matches
     depths to :data:`TOLERANCE`, which the rounding stays within.
 
+    The sheet's record (:func:`sheet_record`, with ``model`` and ``scheme``, the
+    files decode read) is the first line of the CSV (``# faciesseq review sheet;
+    ...``) and the last line of the XLSX's read-me worksheet.
+
     Returns
     -------
     list of pathlib.Path
         The files written.
     """
     table = rounded(sheet_table(interp, labels))
+    line = record_line(sheet_record(table, model, scheme, labels))
     folder = Path(folder)
     written = [folder / f"{SHEET_NAME}.csv"]
-    table.to_csv(written[0], index=False)
+    with written[0].open("w", newline="", encoding="utf-8") as handle:
+        csv.writer(handle, lineterminator="\n").writerow([line])
+        table.to_csv(handle, index=False, lineterminator="\n")
     if xlsx_available():
         written.append(folder / f"{SHEET_NAME}.xlsx")
-        _write_xlsx(table, written[1], tuple(interp.tracts))
+        _write_xlsx(table, written[1], tuple(interp.tracts), line)
     return written
 
 
@@ -180,7 +286,7 @@ def rounded(table: pd.DataFrame) -> pd.DataFrame:
     return table.round({k: v for k, v in decimals.items() if k in table.columns})
 
 
-def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str]) -> None:
+def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str], record: str) -> None:
     from faciesseq._optional import import_optional
 
     openpyxl = import_optional("openpyxl", "writing the review sheet as .xlsx")
@@ -199,7 +305,7 @@ def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str]) -> None:
     bold = Font(bold=True)
     fill = PatternFill("solid", start_color="FFF2CC", end_color="FFF2CC")
     widths = {"core": 14, "facies": 10, "decoded_tract": 14, "interpreter_tract": 16}
-    widths |= {"geologist_tract": 16, "note": 40}
+    widths |= {"geologist_tract": 16, "note": 40, LABEL_SOURCE: 16}
     last = max(len(table) + 1, 2)
     for j, name in enumerate(columns, start=1):
         letter = get_column_letter(j)
@@ -232,6 +338,7 @@ def _write_xlsx(table: pd.DataFrame, path: Path, tracts: Sequence[str]) -> None:
     notes["A2"].alignment = Alignment(wrap_text=True, vertical="top")
     notes.column_dimensions["A"].width = 100
     notes.row_dimensions[2].height = 150
+    notes["A4"] = record  # what decode wrote, for relabel to check; leave it as it is
     book.save(path)
 
 
@@ -262,7 +369,9 @@ def read_sheet(path: str | Path) -> pd.DataFrame:
     -------
     pandas.DataFrame
         The sheet's columns as text, ``top`` and ``base`` as numbers, and ``row``
-        (1-based data row, as a spreadsheet user counts them after the header).
+        (1-based data row, as a spreadsheet user counts them after the header);
+        ``attrs["record"]`` the sheet's record (:func:`sheet_record`), or None for
+        a sheet without one (written by an older decode, or the line deleted).
 
     Raises
     ------
@@ -272,10 +381,13 @@ def read_sheet(path: str | Path) -> pd.DataFrame:
     """
     path = Path(path)
     if path.suffix.lower() in (".xlsx", ".xlsm"):
-        raw = _read_xlsx(path)
+        raw, record = _read_xlsx(path)
     else:
+        record = _csv_record(path)
         try:
-            raw = pd.read_csv(path, dtype=str, keep_default_na=False, comment=None)
+            raw = pd.read_csv(
+                path, dtype=str, keep_default_na=False, comment=None, skiprows=int(bool(record))
+            )
         except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
             msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
             raise InputError(f"cannot read the sheet as CSV: {msg}", file=path.name) from None
@@ -302,10 +414,22 @@ def read_sheet(path: str | Path) -> pd.DataFrame:
                 core=table["core"].iat[i] or None,
             )
         table[name] = values.to_numpy(float)
+    table.attrs["record"] = record
     return table
 
 
-def _read_xlsx(path: Path) -> pd.DataFrame:
+def _csv_record(path: Path) -> dict[str, str] | None:
+    """The record of a CSV sheet's first line (a spreadsheet program may have quoted
+    it or padded it with empty cells), or None."""
+    try:
+        with path.open(newline="", encoding="utf-8-sig") as handle:
+            first = next(csv.reader(handle), [])
+    except (OSError, UnicodeDecodeError, csv.Error):
+        return None  # read_csv says what is wrong with the file
+    return parse_record(",".join(c for c in first if c.strip())) if first else None
+
+
+def _read_xlsx(path: Path) -> tuple[pd.DataFrame, dict[str, str] | None]:
     from faciesseq._optional import import_optional
 
     openpyxl = import_optional("openpyxl", "reading .xlsx workbooks")
@@ -313,17 +437,22 @@ def _read_xlsx(path: Path) -> pd.DataFrame:
         book = openpyxl.load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # a corrupt or foreign file: one line, not a traceback
         raise InputError(f"cannot read the sheet as XLSX: {exc}", file=path.name) from None
+    record = None
     try:
         ws = book[DATA_SHEET] if DATA_SHEET in book.sheetnames else book.worksheets[0]
         rows = [list(r) for r in ws.iter_rows(values_only=True)]
+        if README_SHEET in book.sheetnames:
+            for (value,) in book[README_SHEET].iter_rows(max_col=1, values_only=True):
+                record = record or parse_record(value or "")
     finally:
         book.close()
     rows = [r for r in rows if any(v is not None and str(v).strip() for v in r)]
     if not rows:
-        return pd.DataFrame()
+        return pd.DataFrame(), record
     header = [_text(v) for v in rows[0]]
     body = [r + [None] * (len(header) - len(r)) for r in rows[1:]]
-    return pd.DataFrame([r[: len(header)] for r in body], columns=header, dtype=object)
+    table = pd.DataFrame([r[: len(header)] for r in body], columns=header, dtype=object)
+    return table, record
 
 
 # ---------------------------------------------------------------------- relabel
@@ -356,6 +485,8 @@ class RelabelResult:
         the geologist's (``None`` when the sheet has no decoded tract or no
         filled bed); ``agreement_beds`` the same per bed, ``agreement_thickness``
         the thickness compared.
+    notes
+        Sheet beds whose note was put on their intervals (``review_note``).
     """
 
     cores: object
@@ -369,6 +500,7 @@ class RelabelResult:
     agreement: float | None = None
     agreement_beds: float | None = None
     agreement_thickness: float = 0.0
+    notes: int = 0
 
     @property
     def newly_labelled(self) -> tuple[str, ...]:
@@ -392,7 +524,9 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
     takes the bed's ``geologist_tract`` where that cell is filled; elsewhere
     the source's label is kept. A ``label_source`` column records the origin of
     each label: ``file`` (the sheet's name) or ``source`` (an existing
-    ``label_source`` value is kept with its label).
+    ``label_source`` value is kept with its label). A bed's ``note`` goes on its
+    intervals in a ``review_note`` column (an empty note keeps the table's own),
+    which the next ``decode --review-sheet`` shows in the sheet's ``note``.
 
     Parameters
     ----------
@@ -420,6 +554,7 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
     known = _canonical_tracts(tracts)
     units = cores.units
     matched: dict[str, list[tuple[np.ndarray, str, int]]] = {}
+    noted: dict[str, list[tuple[np.ndarray, str]]] = {}
     for rec in sheet.itertuples(index=False):
         core, top, base, row = rec.core, float(rec.top), float(rec.base), int(rec.row)
         where = {"file": file, "row": row, "core": core or None, "depth": top, "units": units}
@@ -435,6 +570,9 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
                 "base must be an interval's top and base); was the sheet decoded from it?",
                 **where,
             )
+        note = getattr(rec, "note", "")
+        if note:
+            noted.setdefault(core, []).append((inside, note))
         code = rec.geologist_tract
         if not code:
             continue
@@ -445,7 +583,7 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
             )
         matched.setdefault(core, []).append((inside, known[code.upper()], row))
     agreement = _agreement(sheet, known)
-    new_cores, filled, changed, n_changed = {}, {}, {}, 0
+    new_cores, filled, changed, n_changed, n_notes = {}, {}, {}, 0, 0
     before, after = [], []
     for name, core in cores.cores.items():
         table = core.intervals.copy()
@@ -490,6 +628,9 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
             after.append(name)
         table[labels] = new
         table[LABEL_SOURCE] = origin
+        if noted or REVIEW_NOTE in table.columns:
+            table[REVIEW_NOTE] = _notes(table, noted.get(name, []))
+        n_notes += len(noted.get(name, []))
         new_cores[name] = Core(name, table, core.units)
     relabelled = CoreSet(new_cores, units, cores.problems, cores.sources, cores.meta)
     return RelabelResult(
@@ -501,7 +642,56 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
         intervals_changed=n_changed,
         labelled_before=tuple(before),
         labelled_after=tuple(after),
+        notes=n_notes,
         **agreement,
+    )
+
+
+def _notes(table: pd.DataFrame, noted: list[tuple[np.ndarray, str]]) -> np.ndarray:
+    """The ``review_note`` column of one core's intervals: a sheet bed's note on every
+    interval of the bed, the table's own note kept elsewhere (an empty cell of the
+    sheet deletes nothing)."""
+    if REVIEW_NOTE in table.columns:
+        notes = np.array([_text(v) or None for v in table[REVIEW_NOTE]], dtype=object)
+    else:
+        notes = np.full(len(table), None, dtype=object)
+    for inside, note in noted:
+        notes[inside] = note
+    return notes
+
+
+def check_edits(sheet: pd.DataFrame, file: str) -> None:
+    """Refuse a sheet whose edits ``relabel`` would not read (nothing is written).
+
+    Raises
+    ------
+    InputError
+        ``decoded_tract`` is not what decode wrote (the sheet's record, where it
+        has one, and as many rows: the geologist wrote in the wrong column), or
+        nothing was edited (``geologist_tract`` empty on every row and the notes
+        as decode wrote them); exit code 1.
+    """
+    record = sheet.attrs.get("record") or {}
+    same_rows = record.get("beds") == str(len(sheet))
+    decoded = "decoded_tract" in sheet.columns and same_rows
+    if decoded and _column_digest(sheet, "decoded_tract") != record.get("decoded"):
+        raise InputError(
+            "decoded_tract is not what decode wrote: write the geologist's tracts in "
+            "geologist_tract and leave decoded_tract as it was; nothing written",
+            file=file,
+        )
+    if (sheet["geologist_tract"] != "").any():
+        return
+    if "note" in sheet.columns:
+        written = record.get("notes") if same_rows else None
+        if written is None and (sheet["note"] != "").any():
+            return
+        if written is not None and _column_digest(sheet, "note") != written:
+            return
+    raise InputError(
+        f"nothing was edited: geologist_tract is empty on all {len(sheet)} rows; write the "
+        "geologist's tracts there (not in decoded_tract) and save the sheet; nothing written",
+        file=file,
     )
 
 

@@ -34,6 +34,7 @@ def _sheet(work) -> pd.DataFrame:
     return pd.read_csv(
         work / "decoded" / "sheet.csv",
         dtype={"core": object, "geologist_tract": object, "note": object},
+        skiprows=1,  # the sheet's record
     )
 
 
@@ -152,7 +153,7 @@ def _filled(work, tmp_path) -> tuple[pd.DataFrame, object]:
     sheet.loc[first[3], ["geologist_tract", "note"]] = [other, "flooding surface above"]
     sheet.loc[first[5], "geologist_tract"] = sheet["interpreter_tract"].iat[first[5]].lower()
     path = tmp_path / "filled.csv"
-    sheet.to_csv(path, index=False)
+    _save(sheet, path, work)
     return sheet, path
 
 
@@ -320,8 +321,8 @@ def test_a_missing_sheet_and_an_existing_output(work, tmp_path, capsys):
     (tmp_path / "o.csv").write_text("keep")
     code, _, err = _relabel(capsys, work, work / "decoded" / "sheet.csv", tmp_path / "o.csv")
     assert code == 2 and "--force" in err and (tmp_path / "o.csv").read_text() == "keep"
-    argv = [work / "decoded" / "sheet.csv", tmp_path / "o.csv", "--force"]
-    assert _relabel(capsys, work, *argv)[0] == 0
+    _, filled = _filled(work, tmp_path)  # an untouched sheet is refused (nothing edited)
+    assert _relabel(capsys, work, filled, tmp_path / "o.csv", "--force")[0] == 0
 
 
 def test_relabel_has_the_house_help():
@@ -366,12 +367,177 @@ def test_the_suggest_ranks_help_reads_plainly():
 
 def test_the_sheet_holds_no_float_noise(work):
     # thickness 1.4300000000000068 and probability 0.5913454459104164 were written
-    text = (work / "decoded" / "sheet.csv").read_text()
-    sheet = pd.read_csv(work / "decoded" / "sheet.csv", dtype=str, keep_default_na=False)
+    text = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[1]  # below the record
+    sheet = pd.read_csv(
+        work / "decoded" / "sheet.csv", dtype=str, keep_default_na=False, skiprows=1
+    )
     for column, decimals in (("top", 6), ("base", 6), ("thickness", 6), ("probability", 4)):
         places = sheet[column].str.partition(".")[2].str.len()
         assert places.max() <= decimals, (column, sheet[column][places.idxmax()])
-    numbers = pd.read_csv(work / "decoded" / "sheet.csv")
+    numbers = pd.read_csv(work / "decoded" / "sheet.csv", skiprows=1)
     tracts = pd.read_csv(work / "decoded" / "tracts.csv", skiprows=1)
     np.testing.assert_allclose(numbers["thickness"], numbers["base"] - numbers["top"], atol=2e-6)
     assert len(numbers) == len(tracts) and "e-" not in text
+
+
+# ------------------------------------------------------- the refit after a relabel
+
+
+def test_a_label_that_jumps_the_cyclic_order_is_named_by_core_and_depth(work, tmp_path, capsys):
+    # the refit said "permissive: 1 of 20 labelled boundaries jump ..." and not where
+    cores = pd.read_csv(work / "cores.csv", dtype={"core": object, "tract": object})
+    first = cores.index[cores["core"] == cores["core"].iat[0]]
+    i = next(i for i in first[5:-1] if cores.at[i + 1, "tract"] == "FSST")
+    cores.at[i, "tract"] = "HST"  # FSST below, HST above: the strict order forbids it
+    cores.to_csv(tmp_path / "odd.csv", index=False)
+    argv = ["fit", tmp_path / "odd.csv", "--scheme", work / "scheme.yaml", "--labels", "tract"]
+    code, stdout, err = _run(capsys, [*argv, *QUICK, "-o", tmp_path / "m.json"])
+    assert code == 0, err
+    (line,) = [x for x in stdout.splitlines() if x.startswith("tract graph:")]
+    base = cores.at[i, "base"]
+    assert f"at {cores.at[i, 'core']} {base:.2f} m: FSST -> HST" in line, line
+
+
+def _save(sheet: pd.DataFrame, path, work) -> None:
+    """``sheet`` written as a spreadsheet program saves it: the record line kept."""
+    record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
+    path.write_text(record + "\n" + sheet.to_csv(index=False))
+
+
+def test_an_edit_of_the_decoded_column_is_refused_naming_the_column_to_edit(work, tmp_path, capsys):
+    # overwriting decoded_tract gave "0 bed(s) given a tract", exit 0
+    sheet = _sheet(work)
+    sheet.loc[4, "decoded_tract"] = next(t for t in TRACTS if t != sheet["decoded_tract"].iat[4])
+    sheet.loc[9, "geologist_tract"] = "HST"  # an edit in the right column too: still refused
+    _save(sheet, tmp_path / "wrong.csv", work)
+    out = tmp_path / "labelled.csv"
+    code, _, err = _relabel(capsys, work, tmp_path / "wrong.csv", out)
+    lines = [x for x in err.splitlines() if not x.startswith("faciesseq relabel: units:")]
+    assert code == 1 and len(lines) == 1 and not out.exists()
+    assert "wrong.csv: decoded_tract is not what decode wrote" in lines[0]
+    assert "write the geologist's tracts in geologist_tract" in lines[0]
+
+
+def test_an_edited_xlsx_decoded_column_is_refused_too(work, tmp_path, capsys):
+    openpyxl = pytest.importorskip("openpyxl")
+    book = openpyxl.load_workbook(work / "decoded" / "sheet.xlsx")
+    ws = book["interpretation"]
+    col = [c.value for c in ws[1]].index("decoded_tract") + 1
+    ws.cell(row=3, column=col).value = "TST" if ws.cell(row=3, column=col).value != "TST" else "HST"
+    book.save(tmp_path / "wrong.xlsx")
+    code, _, err = _relabel(capsys, work, tmp_path / "wrong.xlsx", tmp_path / "o.csv")
+    assert code == 1 and "decoded_tract is not what decode wrote" in err
+
+
+def test_a_sheet_without_its_record_is_read_and_says_what_could_not_be_checked(
+    work, tmp_path, capsys
+):
+    sheet, _ = _filled(work, tmp_path)
+    path = tmp_path / "filled.csv"
+    sheet.to_csv(path, index=False)  # without the record line
+    code, _, err = _relabel(capsys, work, path, tmp_path / "labelled.csv")
+    assert code == 0, err
+    (line,) = [x for x in err.splitlines() if "record" in x]
+    assert "filled.csv holds no record of its decode" in line and "scheme" in line
+
+
+def test_an_untouched_sheet_says_nothing_was_edited(work, tmp_path, capsys):
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, work / "decoded" / "sheet.csv", out)
+    assert code == 1 and not out.exists() and stdout == ""
+    assert "sheet.csv: nothing was edited: geologist_tract is empty on all 120 rows" in err
+
+
+def test_a_sorted_sheet_with_a_note_only_is_an_edit(work, tmp_path, capsys):
+    # the record's digests do not depend on the order of the rows
+    sheet = _sheet(work).sort_values("probability", kind="stable")
+    sheet.loc[sheet.index[0], "note"] = "burrowed top"
+    _save(sheet, tmp_path / "noted.csv", work)
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, tmp_path / "noted.csv", out)
+    assert code == 0, err
+    assert "geologist's notes of 1 bed(s) kept in 'review_note'" in stdout
+
+
+def test_the_next_fit_names_the_scheme_the_sheets_decode_read(work, tmp_path, capsys):
+    # without --scheme the hint refitted on ranks suggested from the data
+    _filled(work, tmp_path)
+    out = tmp_path / "labelled.csv"
+    code, stdout, err = _relabel(capsys, work, tmp_path / "filled.csv", out)
+    assert code == 0, err
+    scheme = (work / "decoded" / "scheme.yaml").resolve()
+    (line,) = [x for x in stdout.splitlines() if "next:" in x]
+    assert line.endswith(
+        f"next: faciesseq fit {out} --scheme {scheme} --labels tract -o model.json"
+    )
+    from faciesseq.hmm.modelfile import load_model
+    from faciesseq.scheme import load_scheme
+
+    assert load_scheme(scheme).ranks() == load_model(work / "model.json").scheme.ranks()
+    # a decode given --scheme records that file
+    argv = ["decode", work / "model.json", work / "cores.csv", "--review-sheet"]
+    argv += ["--scheme", work / "scheme.yaml", "-o", tmp_path / "d"]
+    assert _run(capsys, argv)[0] == 0
+    record = (tmp_path / "d" / "sheet.csv").read_text().split("\n", 1)[0]
+    assert f"scheme: {(work / 'scheme.yaml').resolve()};" in record
+    assert not (tmp_path / "d" / "scheme.yaml").exists()
+
+
+@pytest.fixture(scope="module")
+def second_round(work, tmp_path_factory):
+    """A filled sheet relabelled (a note, a bed of an uninterpreted core corrected against
+    the model) and decoded again with --keep-labels and the review sheet."""
+    folder = tmp_path_factory.mktemp("round2")
+    sheet = _sheet(work)
+    cores = sheet["core"].unique()
+    rows = np.flatnonzero(sheet["core"] == cores[1])  # uninterpreted
+    k = rows[len(rows) // 2]
+    other = next(t for t in TRACTS if t != sheet["decoded_tract"].iat[k])
+    sheet.loc[k, ["geologist_tract", "note"]] = [other, "rooted top, exposure"]
+    _save(sheet, folder / "filled.csv", work)
+    labelled = folder / "labelled.csv"
+    argv = ["relabel", folder / "filled.csv", work / "cores.csv", "-o", labelled]
+    assert main([str(a) for a in argv]) == 0
+    argv = ["decode", work / "model.json", labelled, "--review-sheet", "--keep-labels"]
+    assert main([str(a) for a in [*argv, "-o", folder / "kept"]]) == 0
+    argv = ["decode", work / "model.json", labelled, "--review-sheet"]
+    assert main([str(a) for a in [*argv, "-o", folder / "plain"]]) == 0
+    return folder, sheet.loc[k], other
+
+
+def test_relabel_keeps_the_geologists_notes_and_the_next_sheet_shows_them(second_round):
+    folder, bed, _ = second_round
+    labelled = pd.read_csv(folder / "labelled.csv", dtype=object)
+    here = (labelled["core"] == bed["core"]) & np.isclose(labelled["top"].astype(float), bed["top"])
+    assert labelled.loc[here, "review_note"].tolist() == ["rooted top, exposure"]
+    assert labelled["review_note"].notna().sum() == 1
+    for name in ("kept", "plain"):
+        sheet = pd.read_csv(folder / name / "sheet.csv", skiprows=1, dtype=object)
+        here = (sheet["core"] == bed["core"]) & np.isclose(sheet["top"].astype(float), bed["top"])
+        row = sheet[here]
+        assert row["note"].tolist() == ["rooted top, exposure"]
+        # where each label came from: the geologist's sheet, or the source
+        assert row["label_source"].tolist() == ["filled.csv"]
+        assert set(sheet["label_source"].dropna()) == {"filled.csv", "source"}
+        assert sheet["geologist_tract"].isna().all()
+
+
+def test_keep_labels_decodes_the_geologists_beds_as_labelled_and_says_so(second_round):
+    folder, bed, other = second_round
+    where = lambda t: (t["core"] == bed["core"]) & np.isclose(t["top"], bed["top"])  # noqa: E731
+    plain = pd.read_csv(folder / "plain" / "tracts.csv", skiprows=1)
+    assert plain.loc[where(plain), "tract"].tolist() != [other]  # the model's own decode
+    kept = pd.read_csv(folder / "kept" / "tracts.csv", skiprows=1)
+    assert kept.loc[where(kept), "tract"].tolist() == [other]
+    assert kept.loc[where(kept), "clamped"].tolist() == [True]
+    # every clamped bed is decoded as labelled; beds without a label are free
+    source = pd.read_csv(folder / "labelled.csv")
+    assert len(source) == len(kept)  # intervals of one facies each: one bed per interval
+    label = source["tract"].to_numpy(dtype=object)
+    clamped = kept["clamped"].to_numpy(bool)
+    assert (kept["tract"].to_numpy(dtype=object)[clamped] == label[clamped]).all()
+    assert not clamped[pd.isna(label)].any() and clamped.sum() >= 0.9 * pd.notna(label).sum()
+    sheet = pd.read_csv(folder / "kept" / "sheet.csv", skiprows=1)
+    assert sheet["clamped"].tolist() == kept["clamped"].tolist()
+    assert "clamped" not in pd.read_csv(folder / "plain" / "sheet.csv", skiprows=1).columns
+    assert not (folder / "kept" / "agreement.csv").exists()  # held beds agree by force

@@ -60,8 +60,9 @@ def register(subparsers) -> None:
         "(at most 30): thickness per tract, cycles, surface picks and the mean probability "
         "of the decoded tract; --summary json prints every well as one JSON document "
         "instead (--format chooses the files' format, not the printed summary's). An "
-        "interpreter's tract column in SOURCE is not used to decode; where present, the "
-        "agreement with it is reported. Warns, in one line each, of facies codes and contact "
+        "interpreter's tract column in SOURCE is not used to decode (unless --keep-labels: "
+        "then its labelled beds keep their tract); where present, the agreement with it is "
+        "reported. Warns, in one line each, of facies codes and contact "
         "types never seen in training (with their beds and cores, and how they are decoded; "
         "a facies outside the scheme is one of them, with a scheme or without) and of "
         "beds whose median thickness differs from the training beds' by more than a factor "
@@ -93,7 +94,8 @@ def register(subparsers) -> None:
         "--review-sheet",
         action="store_true",
         help="also write OUT/sheet.csv and OUT/sheet.xlsx for a geologist to correct the "
-        "tracts (then `faciesseq relabel`)",
+        "tracts (then `faciesseq relabel`), and OUT/scheme.yaml, the model's facies scheme, "
+        "which the sheet names for the next fit (where --scheme is not given)",
     )
     parser.add_argument(
         "--view",
@@ -109,7 +111,17 @@ def register(subparsers) -> None:
     parser.add_argument(
         "--labels",
         metavar="COLUMN",
-        help="interpreter's tract column to compare with (default 'tract'; never used to decode)",
+        help="interpreter's tract column to compare with (default 'tract'; used to decode "
+        "only with --keep-labels)",
+    )
+    parser.add_argument(
+        "--keep-labels",
+        action="store_true",
+        help="keep the tracts of the labelled beds of --labels (a relabelled table: the "
+        "geologist's tracts): those beds are clamped to their label, as in a fit with "
+        "labels, and the others are decoded around them; a clamped column in tracts and "
+        "in the review sheet says which beds were held (default: the labels are only "
+        "compared with, so that the agreement measures the model)",
     )
     parser.add_argument(
         "--core",
@@ -262,6 +274,7 @@ class _Written:
         self.labels, self.keep = labels, keep
         self.heads, self.wells, self.agreements, self.parts = [], [], [], []
         self.labels_found = False  # whether any part's beds hold the labels column
+        self.clamped = 0  # beds held to their label (--keep-labels)
         self.beds = DecodedBeds()  # set beside the training beds at the end
 
     def add(self, part) -> None:
@@ -273,8 +286,11 @@ class _Written:
         self.wells.append(part.wells)
         if len(part.wells):
             self.beds.add(part.beds, str(part.wells["units"].iloc[0]))
-        self.agreements.append(_agreement(part, self.labels))
+        if "clamped" not in part.beds.columns:  # held to their labels, they would agree
+            self.agreements.append(_agreement(part, self.labels))
         self.labels_found |= self.labels in part.beds.columns
+        if "clamped" in part.beds.columns:
+            self.clamped += int(part.beds["clamped"].sum())
         self.parts += [part] if self.keep else []
 
     def summary(self):
@@ -328,8 +344,18 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None
 
 
 #: The tables written from each decoded part, by name.
+def _tracts_table(part):
+    """The tracts table of a part, with the ``clamped`` column of ``--keep-labels``."""
+    from faciesseq.review import CLAMPED
+
+    table = part.tracts_table()
+    if CLAMPED in part.beds.columns:
+        table.insert(table.columns.get_loc("tract") + 1, CLAMPED, part.beds[CLAMPED].to_numpy())
+    return table
+
+
 _TABLES = {
-    "tracts": lambda part: part.tracts_table(),
+    "tracts": _tracts_table,
     "surfaces": lambda part: part.surfaces_table(),
     "picks": lambda part: part.picks_table(),
 }
@@ -341,6 +367,19 @@ def _extra_outputs(args, scheme, tract_model, samples):
     wanted = (samples is not None, args.format == "las", args.plot, args.review_sheet, args.view)
     if not any(wanted):
         return None
+
+    def _sheet_scheme(folder: Path) -> str | None:
+        """The scheme file the sheet records for the next fit: ``--scheme``, or the
+        model's own written as OUT/scheme.yaml (a model file is no scheme file)."""
+        if args.scheme:
+            return str(Path(args.scheme).resolve())
+        if scheme is None:
+            return None
+        import yaml
+
+        text = yaml.safe_dump(scheme.to_dict(), sort_keys=False, allow_unicode=True)
+        (folder / "scheme.yaml").write_text(text, encoding="utf-8")
+        return str(Path(args.output).resolve() / "scheme.yaml")
 
     def write(interp, folder: Path) -> None:
         from faciesseq.report import exports
@@ -359,7 +398,8 @@ def _extra_outputs(args, scheme, tract_model, samples):
         if args.review_sheet:  # the review sheet, for `faciesseq relabel`
             from faciesseq.review import write_sheet
 
-            write_sheet(interp, folder, args.labels)
+            model = str(Path(args.model).resolve())
+            write_sheet(interp, folder, args.labels, model=model, scheme=_sheet_scheme(folder))
         if args.view:
             from faciesseq.report.view import view_html
 
@@ -555,7 +595,13 @@ def _print_text(args, model, scheme, written: _Written) -> None:
         f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )
     print_summary(head, scheme, "see the output files", total=len(wells))
-    if agreement is not None:
+    if args.keep_labels:
+        print(
+            f"kept the tracts of {written.clamped} labelled bed(s) of the {args.labels!r} column "
+            "(clamped, --keep-labels: 'clamped' in the tracts table); the others decoded "
+            "around them"
+        )
+    elif agreement is not None:
         print(
             f"agreement with the interpreter's {args.labels!r} column: "
             f"{100 * _overall_agreement(agreement):.1f} % of {int(agreement['beds'].sum())} "
@@ -646,7 +692,8 @@ def _run(args: argparse.Namespace) -> int:
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
     reading = _reading_scheme(args, scheme)
-    stream = stream_source(args, reading, others) if model.unit_ != "grid" else None
+    streamable = model.unit_ != "grid" and not args.keep_labels  # the labels: read whole
+    stream = stream_source(args, reading, others) if streamable else None
     with warnings_to_stderr("decode"):
         from faciesseq.hmm.encoding import UnseenCategoryWarning
 
@@ -667,11 +714,16 @@ def _run(args: argparse.Namespace) -> int:
                 streamed.announce(scheme)
         if written is None:
             successions, sampled = _read(args, model, scheme)
-            parts = _with_progress(model.decode_parts(successions), model, successions)
+            if args.keep_labels:
+                kept = _kept_labels(successions, model, args.labels)
+                parts = model.decode_parts(successions, labels=kept)
+            else:
+                parts = model.decode_parts(successions)
+            parts = _with_progress(parts, model, successions)
             written = _write(args, model, scheme, parts, labels, sampled)
         for finding in written.beds.findings(model):
             warnings.warn(finding, stacklevel=1)
-        if labels_given and not written.labels_found:
+        if labels_given and not written.labels_found and not args.keep_labels:
             warnings.warn(
                 f"no column {args.labels!r} in the source to compare the decoded tracts with "
                 "(--labels); no agreement reported",
@@ -687,6 +739,27 @@ def _run(args: argparse.Namespace) -> int:
         stream = sys.stderr if args.summary == "json" else sys.stdout
         print(sheet_note(Path(args.output)), file=stream)
     return 0
+
+
+def _kept_labels(successions, model, column: str) -> list[list[str | None]]:
+    """The labels of ``column`` a decode with ``--keep-labels`` clamps, per succession
+    (``None`` where a bed is free), and a ``clamped`` column added to the beds.
+
+    The clamp is the one a fit with labels makes
+    (:func:`~faciesseq.hmm.labels.clamp_from_labels`, which warns of a labelled
+    boundary the model's graph does not allow and frees its two beds); the beds it
+    holds are handed to the decode as labels, which clamps them again, and no more."""
+    import numpy as np
+
+    from faciesseq.hmm.labels import clamp_from_labels
+    from faciesseq.review import CLAMPED
+
+    clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_)
+    held = clamp.sum(axis=1) == 1
+    tracts = np.asarray(model.tract_model_.order, dtype=object)
+    label = np.where(held, tracts[np.argmax(clamp, axis=1)], None)
+    successions.beds[CLAMPED] = held
+    return [list(x) for x in np.split(label, np.cumsum(successions.lengths)[:-1])]
 
 
 def _attributes_used(args: argparse.Namespace, model, labels: str) -> set[str] | None:

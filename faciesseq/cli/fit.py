@@ -193,9 +193,12 @@ def _print_graph(model) -> None:
             n = chosen["n_boundaries"]
             why = f" (strict cyclic order: all {n} labelled boundaries follow it)"
         elif chosen:
+            from faciesseq.hmm.labels import forbidden_text
+
             why = (
                 f" (permissive: {chosen['n_forbidden']} of {chosen['n_boundaries']} labelled "
-                "boundaries jump over a tract the strict cyclic order requires)"
+                "boundaries jump over a tract the strict cyclic order requires, at "
+                f"{forbidden_text(chosen)})"
                 if chosen["n_forbidden"]
                 else " (permissive)"
             )

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 
 from faciesseq.cli._common import (
@@ -35,8 +36,12 @@ def register(subparsers) -> None:
         "column filled and a label_source column (the sheet's file name, or 'source' for a "
         "kept label), which `faciesseq fit --labels` records in the model file. Prints the "
         "beds relabelled per core, the cores now labelled and the model's agreement with the "
-        "geologist before refitting. A sheet bed that matches no source interval or a tract "
-        "code not in the tract model is an error (exit 1).",
+        "geologist before refitting, and the fit to run next (with the scheme the sheet's "
+        "decode read, recorded in the sheet). The sheet's notes go in a review_note column, "
+        "shown again in the next sheet. A sheet bed that matches no source interval, a tract "
+        "code not in the tract model, a sheet whose decoded_tract column was edited (write "
+        "in geologist_tract) and a sheet with nothing edited are errors (exit 1, nothing "
+        "written).",
         epilog=EXAMPLES,
     )
     parser.add_argument(
@@ -58,15 +63,18 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _next_fit(args: argparse.Namespace, result) -> str:
+def _next_fit(args: argparse.Namespace, result, record: dict | None = None) -> str:
     """The ``fit`` command to run next on the labelled table: the options of this run
     that the fit needs too (the scheme, the tract model; the table written holds its
-    units and the columns under their roles, so no reading option is needed)."""
+    units and the columns under their roles, so no reading option is needed). Without
+    ``--scheme``, the scheme the sheet's decode read (its record): a fit without one
+    would rank the facies from the data instead of the scheme the model was fitted with."""
     import shlex
 
     words = ["faciesseq", "fit", args.output]
-    if args.scheme:
-        words += ["--scheme", args.scheme]
+    scheme = args.scheme or (record or {}).get("scheme", "none")
+    if scheme != "none":
+        words += ["--scheme", scheme]
     if args.tracts:
         words += ["--tracts", args.tracts]
     words += ["--labels", result.labels, "-o", "model.json"]
@@ -97,6 +105,8 @@ def _report(result, output: str, next_fit: str) -> list[str]:
             f"{100 * result.agreement:.1f} % of {result.agreement_thickness:.2f} {u} "
             f"({100 * result.agreement_beds:.1f} % of {n_filled} bed(s))"
         )
+    if result.notes:
+        lines.append(f"geologist's notes of {result.notes} bed(s) kept in 'review_note'")
     lines.append(
         f"written to {output} (labels in {result.labels!r}, origin in 'label_source'); "
         f"next: {next_fit}"
@@ -108,7 +118,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target
     from faciesseq.cli._hmm import load_tracts_option
     from faciesseq.io import write_cores
-    from faciesseq.review import read_sheet, relabel
+    from faciesseq.review import check_edits, read_sheet, relabel
     from faciesseq.scheme import default_tract_model
 
     check_target(args.output, force=args.force, folder=False, inputs=input_files(args))
@@ -116,9 +126,19 @@ def run(args: argparse.Namespace) -> int:
     sheet = read_sheet(require_file(args.review_sheet))
     scheme = load_scheme_option(args.scheme)
     cores = read_source(args, scheme).require_valid()
-    result = relabel(
-        sheet, cores, tract_model.codes, file=Path(args.review_sheet).name, labels=args.labels
-    )
+    name = Path(args.review_sheet).name
+    result = relabel(sheet, cores, tract_model.codes, file=name, labels=args.labels)
+    check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    print("\n".join(_report(result, args.output, _next_fit(args, result))))
+    record = sheet.attrs.get("record")
+    next_fit = _next_fit(args, result, record)
+    print("\n".join(_report(result, args.output, next_fit)))
+    if record is None:
+        print(
+            f"faciesseq relabel: {name} holds no record of its decode (a sheet of an older "
+            "decode, or its first line deleted): its decoded_tract could not be checked, and "
+            "the fit above names no scheme unless --scheme was given; give the fit the "
+            "scheme the model was fitted with",
+            file=sys.stderr,
+        )
     return 0

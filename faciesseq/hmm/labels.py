@@ -24,6 +24,7 @@ from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_m
 __all__ = [
     "LabelWarning",
     "clamp_from_labels",
+    "forbidden_text",
     "graph_from_labels",
     "label_problems",
     "label_values",
@@ -145,20 +146,49 @@ def graph_from_labels(
     tracts = list(strict.order)
     allowed = np.asarray(strict.allowed(), dtype=bool)
     n_labelled = n_boundaries = n_forbidden = 0
-    for _, values in label_values(successions, labels):
+    where: list[dict] = []
+    for s, values in label_values(successions, labels):
         codes = [tracts.index(v) if v in tracts else None for v in values]
         n_labelled += sum(c is not None for c in codes)
-        for a, b in itertools.pairwise(codes):
+        for i, (a, b) in enumerate(itertools.pairwise(codes)):
             if a is not None and b is not None and a != b:
                 n_boundaries += 1
-                n_forbidden += int(not allowed[a, b])
+                if not allowed[a, b]:
+                    n_forbidden += 1
+                    if len(where) < FORBIDDEN_SHOWN:
+                        where.append(_boundary(s, i + 1, tracts[a], tracts[b]))
     use_strict = auto and n_labelled > 0 and n_forbidden == 0
     record = {
         "graph": "strict" if use_strict else "permissive",
         "n_boundaries": n_boundaries,
         "n_forbidden": n_forbidden,
+        "forbidden": where,
     }
     return (strict if use_strict else permissive_tract_model()), record
+
+
+#: Labelled boundaries the strict order forbids that :func:`graph_from_labels` records
+#: (where they are: the first few, for the line a fit prints).
+FORBIDDEN_SHOWN = 3
+
+
+def _boundary(s: Succession, i: int, below: str, above: str) -> dict:
+    """The labelled boundary at the base of bed ``i`` (base-to-top index) of ``s``:
+    ``core``, ``depth`` (the contact, positive downward), ``units``, ``below``, ``above``."""
+    depth = float(s.beds["base"].iloc[i]) if "base" in s.beds else None
+    return {"core": s.core, "depth": depth, "units": s.units, "below": below, "above": above}
+
+
+def forbidden_text(record: dict) -> str:
+    """Where the labelled boundaries a strict order forbids are, as a fit prints them:
+    ``ALPHA-1 101.99 m: FSST -> HST`` (the contact, then the tracts below and above
+    it), the first :data:`FORBIDDEN_SHOWN`, ``...`` after the last where there are more."""
+    shown = []
+    for b in record.get("forbidden", []):
+        depth = "" if b["depth"] is None else f" {b['depth']:.2f} {b['units']}"
+        shown.append(f"{b['core']}{depth}: {b['below']} -> {b['above']}")
+    more = record.get("n_forbidden", 0) > len(shown)
+    return "; ".join(shown) + ("; ..." if more else "")
 
 
 def clamp_from_labels(
