@@ -480,3 +480,20 @@ def _build_intervals():
     cores = synthetic_coreset(interp)
     report = analyse(cores, scheme=scheme, surrogates=9, seed=1, by="core")
     return build_appendix(cores, scheme, model, markov=report, interpretation=interp), report
+
+
+def test_pick_depths_to_the_precision_of_the_core(written):
+    """Pick depths showed 103.8 for a core described to the centimetre."""
+    from faciesseq.report.document import depth_decimals
+
+    appendix, _, _ = written
+    interp = synthetic_interpretation(default_tract_model(), names=("W-1", EVIL))
+    expected = {depth_decimals(c.beds[["top", "base"]].to_numpy(float)) for c in interp}
+    tables = [t for t in appendix.document.tables() if t.key.endswith("_picks")]
+    assert tables
+    for table in tables:
+        header = table.header()
+        depth = [j for j, h in enumerate(header) if h.endswith("(m)")]
+        cells = [cells for cells, _ in table.rows()]
+        places = {len(row[j].partition(".")[2]) for row in cells for j in depth if row[j]}
+        assert places == expected, (table.key, places, expected)

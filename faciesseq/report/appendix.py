@@ -549,6 +549,9 @@ def _core_blocks(
                 "the pick and the uncertainty interval.",
                 picks,
                 probabilities=("probability", "p_contact"),
+                decimals=_in_units(
+                    picks, u, depth_decimals(core.beds[["top", "base"]].to_numpy(float))
+                ),
             )
         )
     else:
