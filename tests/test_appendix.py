@@ -379,3 +379,121 @@ def test_emission_tables_of_a_fit_with_sub_states_have_one_row_per_tract():
     summary = tables["model_emission_facies_trend_trend_summary"]
     assert list(summary.index) == list(model.states_.tracts) and summary.index.name == "tract"
     assert len(tables["model_transitions"]) == model.states_.n_states
+
+
+def test_one_quantity_is_shown_with_one_precision_per_column():
+    """A column of one quantity shows every cell to the same decimals, whole values too
+    ("1" beside "0.9794" before); ``"*"`` names every column of floats, not counts."""
+    import pandas as pd
+
+    from faciesseq.report.document import TableBlock, depth_decimals
+
+    frame = pd.DataFrame(
+        {"accuracy": [0.9794, 1.0], "p_ij": [0.0, 0.27777], "n": [97, 42]},
+        index=pd.Index(["model", "baseline"], name="method"),
+    )
+    table = TableBlock("t", "caption", frame, decimals={"accuracy": 2, "*": 3})
+    rows = [cells for cells, _ in table.rows()]
+    assert [r[1] for r in rows] == ["0.98", "1.00"]
+    assert [r[2] for r in rows] == ["0.000", "0.278"]
+    assert [r[3] for r in rows] == ["97", "42"]
+    assert depth_decimals([100.0, 152.1, 102.52]) == 2  # the input's precision
+    assert depth_decimals([250.0, 289.0]) == 0
+    assert table.to_csv_frame()["accuracy"].tolist() == [0.9794, 1.0]  # CSV exact
+
+
+def test_appendix_depths_and_probabilities_one_precision(written):
+    """Depths of Table 1 to the input's precision ("100 | 152.1 | 52.10" before), transition
+    probabilities to 3 decimals ("0" and "1" beside 0.2778 before)."""
+    appendix, _, _ = written
+    tables = {t.key: t for t in appendix.document.tables()}
+    cores = [cells for cells, _ in tables["data_cores"].rows()]
+    depth_columns = [j for j, h in enumerate(tables["data_cores"].header()) if h.endswith("(m)")]
+    decimals = {len(row[j].partition(".")[2]) for row in cores for j in depth_columns}
+    assert len(decimals) == 1
+    cells = [c for cells, _ in tables["markov_probabilities"].rows() for c in cells[1:]]
+    assert cells and all(len(c.partition(".")[2]) == 3 for c in cells if c)
+
+
+def _order_test(statistic: float, n: int, dof: int):
+    from types import SimpleNamespace
+
+    report = _order_report(1e-9, 1, 1)
+    test = SimpleNamespace(
+        name="order 1 vs 2 (G2)", p_value=1e-9, n=n, dof=dof, statistic=statistic
+    )
+    report.order.tests = (test,)
+    return report
+
+
+def test_order_sentence_names_both_counts_and_says_small_only_when_it_is():
+    """G²(8, N = 153) = 156.6 is no small departure (w = 1.01), and the test's 8 degrees
+    of freedom are not the 175 parameters AIC charges: the canned sentence said both
+    away. Effect size w = sqrt(G²/N), Cohen (1988), 0.3 a medium effect."""
+    from faciesseq.report.markov_text import order_explanation
+
+    large = order_explanation(_order_test(156.6, 153, 8))
+    assert "detects even small departures" not in large and "not small" in large
+    assert "175 more free parameters" in large and "8 degrees of freedom" in large
+    assert "w = √(G²/N) = 1.01" in large
+    small = order_explanation(_order_test(20.0, 2000, 8))
+    assert "is small (w = √(G²/N) = 0.10)" in small and "detects it" in small
+
+
+def test_cross_validation_text_states_the_folds_actually_used():
+    """3 folds over 4 cores of which 2 labelled ones are scored is in effect 2-fold
+    ("3-fold cross-validation" before, beside a 2-fold calibration)."""
+    from types import SimpleNamespace
+
+    import pandas as pd
+
+    from faciesseq.report.model_section import folds_text, score_decimals
+
+    beds = pd.DataFrame(
+        {"core": ["A", "A", "B", "C", "D"], "label": ["HST", "TST", "LST", None, None]}
+    )
+    validation = SimpleNamespace(
+        folds=3,
+        fold_of_core={"A": 0, "B": 2, "C": 1, "D": 0},
+        beds=beds,
+        settings={"mode": "supervised", "labels": "tract", "n_cores": 4, "unit": "intervals"},
+    )
+    text = folds_text(validation)
+    assert "4 cores dealt to 3 folds; 2 labelled cores scored, in 2 of the folds" in text
+    assert "in effect 2-fold" in text and "3 described intervals in all" in text
+    assert score_decimals(97) == 2 and score_decimals(5000) == 3
+
+
+def test_decoded_cores_table_counts_what_the_model_decodes():
+    """Table 32 said "beds" for the 50 described intervals a core of 45 beds holds."""
+    appendix, _ = _build_intervals()
+    table = {t.key: t for t in appendix.document.tables()}["cores_summary"]
+    assert table.header()[1] == "described intervals"
+    assert "described intervals decoded" in table.caption
+
+
+def _build_intervals():
+    model = default_tract_model()
+    scheme = load_scheme(SCHEME)
+    interp = synthetic_interpretation(model, names=("W-1",))
+    interp.meta["unit"] = "intervals"
+    cores = synthetic_coreset(interp)
+    report = analyse(cores, scheme=scheme, surrogates=9, seed=1, by="core")
+    return build_appendix(cores, scheme, model, markov=report, interpretation=interp), report
+
+
+def test_pick_depths_to_the_precision_of_the_core(written):
+    """Pick depths showed 103.8 for a core described to the centimetre."""
+    from faciesseq.report.document import depth_decimals
+
+    appendix, _, _ = written
+    interp = synthetic_interpretation(default_tract_model(), names=("W-1", EVIL))
+    expected = {depth_decimals(c.beds[["top", "base"]].to_numpy(float)) for c in interp}
+    tables = [t for t in appendix.document.tables() if t.key.endswith("_picks")]
+    assert tables
+    for table in tables:
+        header = table.header()
+        depth = [j for j, h in enumerate(header) if h.endswith("(m)")]
+        cells = [cells for cells, _ in table.rows()]
+        places = {len(row[j].partition(".")[2]) for row in cells for j in depth if row[j]}
+        assert places == expected, (table.key, places, expected)

@@ -109,7 +109,7 @@ def test_las_file_reads_back_with_lasio_curves_units_null_and_well(decoded):
     assert depth[0] == pytest.approx(beds["top"].min())
     assert depth[-1] <= beds["base"].max() < depth[-1] + step
     p = np.column_stack([las[f"P_{t}"] for t in TRACTS])
-    assert np.allclose(p.sum(axis=1), 1.0, atol=1e-6)  # no gap in this well
+    assert np.allclose(p.sum(axis=1), 1.0, atol=4 * 0.5e-4)  # no gap; 4 decimals each
 
 
 def test_las_step_default_is_half_the_median_bed_thickness_made_tidy(decoded):
@@ -151,7 +151,66 @@ def test_las_code_tables_and_values_equal_the_decoded_tracts(decoded):
         bed = beds[(beds["top"] <= d) & (d < beds["base"])].iloc[0]
         assert facies_of[int(las["FACIES"][i])] == bed["facies"]
         for t in TRACTS:
-            assert las[f"P_{t}"][i] == pytest.approx(bed[f"p_{t}"], abs=1e-6)
+            assert las[f"P_{t}"][i] == pytest.approx(bed[f"p_{t}"], abs=0.5e-4 + 1e-6)
+
+
+def test_las_probabilities_are_written_to_four_decimals(decoded):
+    with open(decoded / "las" / "S-71-4.las", encoding="utf-8") as f:
+        text = f.read()
+    rows = [line.split() for line in text.split("~A")[1].splitlines()[1:] if line.strip()]
+    probabilities = [cell for row in rows for cell in row[3:]]  # after DEPT, FACIES, TRACT
+    assert probabilities and all(len(c.partition(".")[2]) <= 4 for c in probabilities)
+    assert any(len(c.partition(".")[2]) == 4 for c in probabilities)
+    assert "(to 4 decimals)" in lasio.read(decoded / "las" / "S-71-4.las").other
+
+
+def _thin_bed_interpretation():
+    """One core of 1 m beds with a 0.4 m FSST bed at 2.52-2.92 m, off a 0.5 m grid."""
+    from faciesseq.interpretation import CoreInterpretation, Interpretation
+
+    top = [0.0, 1.0, 2.0, 2.52, 2.92, 4.0]
+    base = [1.0, 2.0, 2.52, 2.92, 4.0, 5.0]
+    tracts = ["HST", "HST", "HST", "FSST", "LST", "TST"]
+    beds = pd.DataFrame(
+        {
+            "segment": 0,
+            "top": top,
+            "base": base,
+            "facies": ["A"] * 6,
+            "tract": tracts,
+            **{f"p_{t}": [float(x == t) for x in tracts] for t in TRACTS},
+        }
+    )
+    empty = pd.DataFrame()
+    core = CoreInterpretation("W", "m", TRACTS, (), beds, empty, empty, 0.0)
+    return Interpretation.from_cores({"W": core}, TRACTS, (), {"unit": "intervals"})
+
+
+def test_las_step_that_misses_a_thin_bed_is_warned_with_the_step_that_keeps_it(tmp_path):
+    """A bed between two samples of the grid was dropped from the curves in silence."""
+    from faciesseq.report.exports import beds_without_sample, write_las_files
+
+    interp = _thin_bed_interpretation()
+    with pytest.warns(UserWarning) as caught:
+        write_las_files(interp, tmp_path / "a", step=0.5)
+    (line,) = [str(w.message) for w in caught]
+    assert line == (
+        "LAS step 0.5 m leaves 1 of 6 described intervals without a sample (1 FSST; "
+        "the thinnest 0.4 m): --las-step 0.2 gives each one"
+    )
+    assert line in lasio.read(tmp_path / "a" / "W.las").other
+    assert beds_without_sample(interp, 0.2) is None
+    las = lasio.read(write_las_files(interp, tmp_path / "b", step=0.2)[0])
+    assert 2 in set(las["TRACT"])  # TRACT_2 = FSST
+
+
+def test_decode_las_warns_on_stderr_of_beds_without_a_sample(database, tmp_path, capsys):
+    out = tmp_path / "out"
+    argv = ["decode", str(database / "model.json"), str(database / "cores.csv")]
+    assert main([*argv, "--format", "las", "--las-step", "5", "-o", str(out)]) == 0
+    err = capsys.readouterr().err
+    lines = [x for x in err.splitlines() if "without a sample" in x]
+    assert len(lines) == 1 and lines[0].startswith("faciesseq decode: warning: LAS step 5 ")
 
 
 def test_las_gap_in_the_core_is_null(decoded):

@@ -87,12 +87,31 @@ def test_loglik_trace_and_reliability_curve_have_legends():
     labels = [t.get_text() for t in _legends(fig)[0].get_texts()]
     assert labels == ["restart 1 (best)", "restart 2"]
     bins = pd.DataFrame(
-        {"predicted": [0.1, 0.5, 0.9], "observed": [0.2, 0.5, 0.8], "count": [3, 5, 9]}
+        {"predicted": [0.1, 0.5, 0.9], "observed": [0.2, 0.5, 0.8], "count": [6, 5, 9]}
     )
     fig = figures.reliability_curve(bins, baseline=bins.assign(observed=0.5))
     labels = [t.get_text() for t in _legends(fig)[0].get_texts()]
     assert labels == ["perfectly calibrated", "tract model", "baseline"]
-    assert fig.axes[0].get_xlim() == (0.0, 1.0)
+    low, high = fig.axes[0].get_xlim()
+    assert low < 0 and high > 1  # room for the markers at 0 and 1
+
+
+def test_reliability_bin_of_too_few_beds_is_an_open_marker_not_joined():
+    """A 1-bed bin at (0.669, 0) was joined by a line to the 96-bed bin at (0.997, 0.99)."""
+    from matplotlib.collections import PathCollection
+
+    bins = pd.DataFrame({"predicted": [0.669, 0.997], "observed": [0.0, 0.99], "count": [1, 96]})
+    fig = figures.reliability_curve(bins)
+    ax = fig.axes[0]
+    drawn = [line for line in ax.get_lines() if line.get_label() != "perfectly calibrated"]
+    assert all(0.669 not in line.get_xdata() for line in drawn)
+    points = [c for c in ax.collections if isinstance(c, PathCollection) and len(c.get_offsets())]
+    open_ones = [c for c in points if (c.get_facecolor()[:, :3] == 1).all()]
+    assert [tuple(c.get_offsets()[0]) for c in open_ones] == [(0.669, 0.0)]
+    low, high = ax.get_ylim()
+    assert low < 0.0 and high > 0.99  # the markers at 0 and near 1 are not cut in half
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "open: bin of < 5 cases, not joined" in labels
 
 
 def test_bar_chart_has_one_bar_per_cell(scheme):

@@ -280,3 +280,20 @@ def test_legend_prints_a_facies_name_that_repeats_its_code_once(model):
     fig = strip_log(synthetic_core(model), scheme, model)
     texts = [" ".join(t.get_text().split()) for leg in _legends(fig) for t in leg.get_texts()]
     assert "CP" in texts and not any("facies CP" in t for t in texts)
+
+
+def test_strip_log_of_a_core_alone_draws_with_defaults_and_returns_a_figure(model, scheme):
+    """``strip_log(core)`` failed with missing 'scheme' and 'tract_model'."""
+    from types import SimpleNamespace
+
+    from matplotlib.figure import Figure
+
+    core = synthetic_core(model)
+    fig = strip_log(core)  # the core's facies alone, the default tract model
+    assert isinstance(fig, Figure)
+    texts = [t.get_text() for legend in _legends(fig) for t in legend.get_texts()]
+    assert any("highstand" in t for t in texts)  # tract names from the default model
+    fitted = SimpleNamespace(scheme=scheme, tract_model_=model)  # what a TractHMM offers
+    fig = strip_log(core, model=fitted)
+    texts = [t.get_text() for legend in _legends(fig) for t in legend.get_texts()]
+    assert any(scheme[c].name.split()[0] in t for c in scheme.codes for t in texts)

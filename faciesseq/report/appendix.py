@@ -44,6 +44,7 @@ from faciesseq.report.document import (
     Section,
     TableBlock,
     ViewBlock,
+    depth_decimals,
 )
 from faciesseq.report.methods import methods_section
 from faciesseq.report.style import facies_colour
@@ -234,6 +235,25 @@ _HANDLED = {
 }
 
 
+#: Decimals of proportions, fractions and accuracies in the appendix's tables.
+PROPORTION_DECIMALS = 3
+
+#: What a decoded row is, by the model's unit: the trade's words.
+UNIT_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
+
+
+def _depth_decimals(cores: CoreSet) -> int:
+    """Decimals of the source's depths (tops and bases as described)."""
+    if not len(cores):
+        return 2
+    return depth_decimals(np.concatenate([cores.column("top"), cores.column("base")]))
+
+
+def _in_units(frame: pd.DataFrame, units: str, decimals: int) -> dict[str, int]:
+    """``decimals`` for every column of ``frame`` in depth units (named ``... (m)``)."""
+    return {str(c): decimals for c in frame.columns if str(c).endswith(f"({units})")}
+
+
 def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Section:
     from faciesseq.report import figures as fig
 
@@ -248,27 +268,36 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
             f"“{scheme.name}”; depths in {units}, positive downward."
         )
     )
+    depth = _depth_decimals(cores)
     s.sub("Cores").add(
         TableBlock(
             "data_cores",
             f"Cores: described intervals, beds (adjacent intervals of one facies amalgamated), "
             f"depth range, described thickness, and the gaps (number and thickness, {units}).",
             tables["cores"],
+            decimals=_in_units(tables["cores"], units, depth),
         )
     )
     facies = s.sub("Facies")
     facies.add(
         TableBlock(
             "data_facies",
-            "Facies in order of proximality rank (0 = most landward or shallow): beds and "
-            "thickness, with their proportions over all cores.",
+            "Facies in order of proximality rank (0 = most landward or shallow): described "
+            "intervals, beds (amalgamated) and thickness, with their proportions over all "
+            "cores.",
             tables["facies"],
+            decimals={
+                **_in_units(tables["facies"], units, depth),
+                "proportion of beds": PROPORTION_DECIMALS,
+                "proportion of thickness": PROPORTION_DECIMALS,
+            },
         ),
         TableBlock(
             "data_bed_thickness",
             f"Bed thickness per facies ({units}): number of beds, mean, standard deviation, "
             "median, minimum and maximum.",
             tables["bed_thickness"],
+            decimals=_in_units(tables["bed_thickness"], units, depth),
         ),
     )
     proportions = tables["facies"][["proportion of beds", "proportion of thickness"]]
@@ -406,9 +435,10 @@ def _cores_section(
     _cores_intro_blocks(s, interpretation, scheme, tract_model, notes)
     summary_rows = []
     results["cores"] = {}
+    rows = UNIT_WORDS.get(str(interpretation.meta.get("unit", "beds")), "beds")
     for k, core in enumerate(interpretation, start=1):
         sub = s.sub(f"Core {core.core}")
-        summary_rows.append(_core_summary_row(core, interpretation.tracts))
+        summary_rows.append(_core_summary_row(core, interpretation.tracts, rows))
         _core_blocks(sub, core, core_key(core.core, k), scheme, tract_model, interpretation)
         results["cores"][core.core] = {
             "log_likelihood": core.log_likelihood,
@@ -416,13 +446,18 @@ def _cores_section(
             "boundaries": core.boundaries,
             "picks": core.picks,
         }
+    summary = pd.DataFrame(summary_rows).set_index("core")
+    units = next(iter(interpretation)).units if len(summary) else ""
+    tops = [c.beds[["top", "base"]].to_numpy(float).ravel() for c in interpretation]
+    depth = depth_decimals(np.concatenate(tops)) if tops else 2
     s.blocks.insert(
         1,
         TableBlock(
             "cores_summary",
-            "Decoded cores: beds, log-likelihood under the model, surfaces picked and the "
-            "thickness assigned to each tract.",
-            pd.DataFrame(summary_rows).set_index("core"),
+            f"Decoded cores: {rows} decoded (the units the model reads), log-likelihood under "
+            "the model, surfaces picked and the thickness assigned to each tract.",
+            summary,
+            decimals={**_in_units(summary, units, depth), "log-likelihood": 2},
         ),
     )
     return s
@@ -463,12 +498,15 @@ def _cores_intro_blocks(
     )
 
 
-def _core_summary_row(core: CoreInterpretation, tracts: Sequence[str]) -> dict[str, Any]:
-    """One core's row of the summary: beds, log-likelihood, picks and thickness per tract."""
+def _core_summary_row(
+    core: CoreInterpretation, tracts: Sequence[str], rows: str = "beds"
+) -> dict[str, Any]:
+    """One core's row of the summary: decoded units (``rows``, e.g. described intervals),
+    log-likelihood, picks and thickness per tract."""
     tract_thickness = core.beds.groupby("tract")["thickness"].sum()
     return {
         "core": core.core,
-        "beds": len(core.beds),
+        rows: len(core.beds),
         "log-likelihood": core.log_likelihood,
         "picks": len(core.picks),
         **{f"{t} ({core.units})": float(tract_thickness.get(t, 0.0)) for t in tracts},
@@ -511,6 +549,9 @@ def _core_blocks(
                 "the pick and the uncertainty interval.",
                 picks,
                 probabilities=("probability", "p_contact"),
+                decimals=_in_units(
+                    picks, u, depth_decimals(core.beds[["top", "base"]].to_numpy(float))
+                ),
             )
         )
     else:

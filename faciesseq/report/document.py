@@ -12,8 +12,11 @@ largest value), as a copy editor expects. p-values in tables (columns named
 ``p``, ``p-value`` or listed in ``p_values``) are shown with 3 decimals and
 ``< 0.001`` below 0.001 (:func:`format_p_cell`); the decoded probabilities a
 table names with :func:`format_probability` (2 decimals, ``> 0.99`` and
-``< 0.01`` at the ends). The CSV files and ``appendix.json`` keep full
-precision.
+``< 0.01`` at the ends). A table may name the decimals of a column of one
+quantity (``TableBlock.decimals``: depths to the input's precision,
+:func:`depth_decimals`; proportions, accuracies and probabilities to 3), whole
+values included, so that a 1 beside a 0.979 reads 1.000. The CSV files and
+``appendix.json`` keep full precision.
 """
 
 from __future__ import annotations
@@ -35,6 +38,7 @@ __all__ = [
     "Section",
     "TableBlock",
     "column_decimals",
+    "depth_decimals",
     "format_p_cell",
     "format_probability",
     "format_value",
@@ -143,6 +147,17 @@ def column_decimals(values: list, digits: int = 4) -> int | None:
     return min(max(digits - 1 - math.floor(math.log10(largest)), 1), digits + 2)
 
 
+def depth_decimals(values, most: int = 4) -> int:
+    """Decimals of the input's depths: the fewest (0 to ``most``) that show every value
+    of ``values`` as it is (a log described to the centimetre: 2)."""
+    finite = pd.to_numeric(pd.Series(np.asarray(values).ravel()), errors="coerce").to_numpy(float)
+    finite = finite[np.isfinite(finite)]
+    for decimals in range(most + 1):
+        if np.allclose(np.round(finite, decimals), finite, rtol=0, atol=1e-9):
+            return decimals
+    return most
+
+
 def _fixed(value: object, decimals: int) -> str:
     if value is None or value is pd.NA or not _numeric(value):
         return format_value(value)
@@ -181,9 +196,11 @@ class TableBlock:
     only (long per-bed data), listed in the appendix as a data file.
     ``probabilities`` names the columns of decoded probabilities, shown with
     :func:`format_probability`; ``p_values`` (and columns named ``p`` or
-    ``p-value``) are shown with :func:`format_p_cell`; other columns of
-    numbers with fixed decimals (:func:`column_decimals`). The CSV keeps every
-    number exact.
+    ``p-value``) are shown with :func:`format_p_cell`; ``decimals`` names the
+    fixed decimals of columns of one quantity (column -> decimals; the key
+    ``"*"`` for every column of floats not named), whole values included;
+    other columns of numbers with fixed decimals (:func:`column_decimals`). The
+    CSV keeps every number exact.
     """
 
     key: str
@@ -196,6 +213,7 @@ class TableBlock:
     digits: int = 4
     probabilities: tuple[str, ...] = ()
     p_values: tuple[str, ...] = ()
+    decimals: dict[str, int] = field(default_factory=dict, compare=False)
 
     def __post_init__(self) -> None:
         if not _KEY.match(self.key):
@@ -238,6 +256,12 @@ class TableBlock:
             return format_probability
         if name in self.p_values or name.lower() in _P_NAMES:
             return format_p_cell
+        fixed = self.decimals.get(name)
+        floats = any(isinstance(v, float | np.floating) for v in values)
+        if fixed is None and "*" in self.decimals and floats:
+            fixed = self.decimals["*"]
+        if fixed is not None:
+            return lambda v: _fixed(v, fixed)
         decimals = column_decimals(values, self.digits)
         if decimals is None:
             return self._format

@@ -19,6 +19,7 @@ above or below the core) have no tract: blank in tables, the null value in LAS.
 from __future__ import annotations
 
 import math
+import warnings
 from collections.abc import Iterable
 from pathlib import Path
 
@@ -30,8 +31,10 @@ from faciesseq.errors import ConfigError
 
 __all__ = [
     "LAS_NULL",
+    "LAS_PROBABILITY_DECIMALS",
     "MAX_LAS_SAMPLES",
     "TOPS_COLUMNS",
+    "beds_without_sample",
     "default_las_step",
     "samples_table",
     "tidy_step",
@@ -54,6 +57,8 @@ TOPS_COLUMNS = (
 LAS_NULL = -999.25
 #: Most depth samples in one LAS file; a smaller ``step`` is refused before writing.
 MAX_LAS_SAMPLES = 2_000_000
+#: Decimals of the ``P_<TRACT>`` curves: a posterior is not known better than that.
+LAS_PROBABILITY_DECIMALS = 4
 
 
 def tops_table(interp) -> pd.DataFrame:
@@ -221,6 +226,53 @@ def _grid(top: float, base: float, step: float) -> np.ndarray:
     return np.round(np.arange(first, last + 1) * step, 10)
 
 
+def beds_without_sample(interp, step: float) -> str | None:
+    """One line naming the beds that no depth sample of ``step`` falls in, or None.
+
+    A bed thinner than ``step`` may fall between two samples of the grid
+    (:func:`_grid`) and be absent from the LAS curves. The line counts them, names
+    their tracts and the step that gives every bed at least one sample: the tidy
+    step (:func:`tidy_step`) not above the thinnest bed (a half-open depth range
+    ``[top, base)`` at least one step long always holds a multiple of the step).
+    """
+    missed: dict[str, int] = {}
+    total = 0
+    thinnest = math.inf
+    units = "m"
+    for core in interp:
+        beds = core.beds.reset_index(drop=True)
+        if not len(beds):
+            continue
+        units = core.units
+        total += len(beds)
+        thick = (beds["base"] - beds["top"]).to_numpy(float)
+        ok = np.isfinite(thick) & (thick > 0)
+        if ok.any():
+            thinnest = min(thinnest, float(thick[ok].min()))
+        depth = _grid(float(beds["top"].min()), float(beds["base"].max()), step)
+        held = np.zeros(len(beds), dtype=bool)
+        which = _bed_index(beds, depth)
+        held[which[which >= 0]] = True
+        for tract in beds.loc[~held, "tract"]:
+            missed[str(tract)] = missed.get(str(tract), 0) + 1
+    count = sum(missed.values())
+    if not count:
+        return None
+    order = list(interp.tracts) + sorted(set(missed) - set(interp.tracts))
+    which_tracts = ", ".join(f"{missed[t]} {t}" for t in order if t in missed)
+    keep = tidy_step(thinnest * (1 + 1e-9)) if math.isfinite(thinnest) else step
+    rows = _ROW_WORDS.get(str(interp.meta.get("unit", "beds")), "beds")
+    return (
+        f"LAS step {step:g} {units} leaves {count} of {total} {rows} without a sample "
+        f"({which_tracts}; the thinnest {thinnest:.3g} {units}): --las-step {keep:g} "
+        "gives each one"
+    )
+
+
+#: What the rows of an interpretation are, by the model's unit (``meta["unit"]``).
+_ROW_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
+
+
 def write_las_files(
     interp,
     folder: Path,
@@ -257,7 +309,11 @@ def write_las_files(
     whole numbers; ``~Parameter`` holds their tables (``FACIES_1 . USF :
     upper shoreface``), the same for every well of the run. ``~Other`` states
     how the step was chosen, the code tables in words and whether the
-    probabilities were checked.
+    probabilities were checked. Probabilities are written to
+    :data:`LAS_PROBABILITY_DECIMALS` decimals. Beds thinner than the step may hold
+    no sample: a :class:`UserWarning` of one line counts them, names their tracts
+    and the step that keeps every bed (:func:`beds_without_sample`), and ``~Other``
+    says the same.
     """
     from faciesseq._optional import import_optional
     from faciesseq.io.writer import safe_stem
@@ -281,6 +337,9 @@ def write_las_files(
                     f"(at most {MAX_LAS_SAMPLES:,}); choose a larger --las-step",
                     core=core.core,
                 )
+    missing = beds_without_sample(interp, step)
+    if missing is not None:
+        warnings.warn(missing, UserWarning, stacklevel=2)
     facies = _facies_table(interp, scheme)
     tracts = _tract_table(interp, tract_model)
     facies_number = {code: k for k, (code, _) in enumerate(facies, start=1)}
@@ -293,7 +352,7 @@ def write_las_files(
         used.add(stem)
         path = folder / f"{stem}.las"
         las = _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number)
-        las.other = _other_text(interp, core.units, step, how, facies, tracts)
+        las.other = _other_text(interp, core.units, step, how, facies, tracts, missing)
         with open(path, "w", encoding="utf-8", newline="\n") as handle:
             las.write(handle, version=2.0, fmt="%.10g")
         written.append(path)
@@ -329,7 +388,7 @@ def _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_numbe
     numbers = np.array([tract_number[str(t)] for t in beds["tract"]], dtype=float)
     las.append_curve("TRACT", curve(numbers), descr="decoded systems tract (TRACT_n in ~Parameter)")
     for code, name in tracts:
-        values = beds[f"p_{code}"].to_numpy(float)
+        values = np.round(beds[f"p_{code}"].to_numpy(float), LAS_PROBABILITY_DECIMALS)
         las.append_curve(f"P_{code}", curve(values), descr=_descr(f"probability of the {name}"))
     for code, name in facies:
         k = facies_number[code]
@@ -345,12 +404,14 @@ def _descr(text: str) -> str:
     return " ".join(str(text).replace(":", " -").split())
 
 
-def _other_text(interp, units, step, how, facies, tracts) -> str:
+def _other_text(interp, units, step, how, facies, tracts, missing=None) -> str:
     lines = [
         f"Depth step {step:g} {units}: {how}.",
+        *([f"{missing}."] if missing else []),
         "FACIES codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(facies, 1)),
         "TRACT codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(tracts, 1)),
-        "P_<TRACT>: posterior probability of each tract in the bed holding the depth.",
+        "P_<TRACT>: posterior probability of each tract in the bed holding the depth "
+        f"(to {LAS_PROBABILITY_DECIMALS} decimals).",
         f"Gaps in the core hold the null value {LAS_NULL}.",
         interp.probabilities_note,
     ]

@@ -585,11 +585,16 @@ def loglik_trace(
     return fig
 
 
+#: Fewest beds in a probability bin for its point to be joined into the reliability curve.
+MIN_RELIABILITY_BEDS = 5
+
+
 def reliability_curve(
     bins: pd.DataFrame,
     *,
     baseline: pd.DataFrame | None = None,
     title: str = "",
+    min_count: int = MIN_RELIABILITY_BEDS,
 ) -> Figure:
     """Reliability (calibration) diagram: observed frequency against predicted probability.
 
@@ -598,25 +603,35 @@ def reliability_curve(
     ``baseline`` (same columns) is drawn for comparison. The diagonal is
     perfect calibration (Murphy & Winkler 1977, "Reliability of subjective
     probability forecasts of precipitation and temperature", Applied
-    Statistics 26:41-47).
+    Statistics 26:41-47). Bins of fewer than ``min_count`` cases are drawn as
+    open markers and not joined into the line (a fraction of one or two beds
+    is 0 or 1 by chance); the axes reach a little beyond 0 and 1 so that no
+    marker is cut at the edge.
     """
+    pad = 0.04
     with figure_style():
         fig = new_figure(3.6, 3.6, layout="constrained")
         ax = fig.add_subplot()
         ax.plot([0, 1], [0, 1], color="#999999", lw=0.8, ls="--", label="perfectly calibrated")
+        few_drawn = False
         for frame, label, colour, marker in (
             (bins, "tract model", "#1f4e8c", "o"),
             (baseline, "baseline", "#b84a3a", "s"),
         ):
             if frame is None or len(frame) == 0:
                 continue
+            frame = frame.sort_values("predicted")
             counts = frame["count"].to_numpy(float) if "count" in frame else np.ones(len(frame))
             sizes = 8 + 40 * counts / max(counts.max(), 1)
-            ax.plot(frame["predicted"], frame["observed"], color=colour, lw=1.0)
+            enough = counts >= min_count
+            x = frame["predicted"].to_numpy(float)
+            y = frame["observed"].to_numpy(float)
+            if enough.sum() > 1:
+                ax.plot(x[enough], y[enough], color=colour, lw=1.0)
             ax.scatter(
-                frame["predicted"],
-                frame["observed"],
-                s=sizes,
+                x[enough],
+                y[enough],
+                s=sizes[enough],
                 color=colour,
                 marker=marker,
                 label=label,
@@ -624,8 +639,31 @@ def reliability_curve(
                 edgecolor="white",
                 linewidth=0.4,
             )
-        ax.set_xlim(0, 1)
-        ax.set_ylim(0, 1)
+            if (~enough).any():
+                few_drawn = True
+                ax.scatter(
+                    x[~enough],
+                    y[~enough],
+                    s=sizes[~enough],
+                    facecolor="white",
+                    edgecolor=colour,
+                    marker=marker,
+                    linewidth=1.0,
+                    zorder=3,
+                    label=None if enough.any() else label,
+                )
+        if few_drawn:
+            ax.scatter(
+                [],
+                [],
+                s=20,
+                facecolor="white",
+                edgecolor="#555555",
+                marker="o",
+                label=f"open: bin of < {min_count} cases, not joined",
+            )
+        ax.set_xlim(-pad, 1 + pad)
+        ax.set_ylim(-pad, 1 + pad)
         ax.set_aspect("equal")
         ax.set_xlabel("predicted probability")
         ax.set_ylabel("observed frequency")

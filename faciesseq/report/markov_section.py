@@ -57,6 +57,7 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
             "markov_probabilities",
             "Transition probabilities p_ij = n_ij / n_i+.",
             _labelled(report.probabilities, codes),
+            decimals={"*": 3},
         ),
         FigureBlock(
             "markov_probabilities",
@@ -77,11 +78,13 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
             "count below 5.",
             _masked(fo.expected, fo.structural, codes),
             marks=low,
+            decimals={"*": 2},
         ),
         TableBlock(
             "markov_difference",
             "Difference matrix: observed minus expected transition probabilities.",
             _masked(fo.difference, fo.structural, codes),
+            decimals={"*": 3},
         ),
     )
     sig = _labelled(fo.significant, codes).astype(bool)
@@ -92,6 +95,7 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
             f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}).",
             _labelled(fo.residuals, codes),
             marks=sig,
+            decimals={"*": 2},
         ),
         FigureBlock(
             "markov_residuals",

@@ -57,12 +57,22 @@ def _matrix(matrix: np.ndarray, codes, digits: int) -> str:
     return _table(frame, digits)
 
 
+#: Effect size w = sqrt(G² / N) below which a departure is small (Cohen 1988,
+#: Statistical Power Analysis, sec. 7.2: 0.1 small, 0.3 medium, 0.5 large).
+SMALL_EFFECT = 0.3
+
+
 def order_explanation(report) -> str | None:
     """Why an order test can reject first order while AIC or BIC choose it, or ``None``.
 
-    With many transitions the likelihood-ratio (G²) test detects departures from
-    first order too small to matter, whereas AIC (Tong 1975) and BIC (Katz 1981)
-    weigh the gain in fit against the parameters a second-order chain adds.
+    The two weigh the same pair of models (first against second order) with
+    different parameter counts: the likelihood-ratio (G²) test counts as degrees
+    of freedom only the free cells of the second-order contexts the successions
+    show (Bishop, Fienberg & Holland 1975, sec. 3.8), whereas AIC (Tong 1975) and
+    BIC (Katz 1981) charge the nominal parameters of a second-order chain, every
+    context included, seen or not. The sentence names both counts, and says the
+    departure is small only where its effect size w = sqrt(G² / N) is below
+    :data:`SMALL_EFFECT` (Cohen 1988).
     """
     order = report.order
     a = report.first_order.alpha
@@ -73,18 +83,37 @@ def order_explanation(report) -> str | None:
     chosen = [name for name, best in criteria if best == 1]
     if not chosen:
         return None
+    names = " and ".join(chosen)
     orders = list(order.orders)
-    added = ""
+    charged = ""
     if 1 in orders and 2 in orders:
         k1, k2 = (order.n_parameters[orders.index(k)] for k in (1, 2))
-        added = f" (here {k2 - k1} more free parameters than first order)"
+        charged = (
+            f" {names} charge{'' if len(chosen) > 1 else 's'} a second-order chain "
+            f"{k2 - k1} more free parameters than first order (every context of two "
+            f"facies, seen or not), where the test counts {one_two.dof} degrees of freedom "
+            "(the free cells of the contexts the successions show)."
+        )
+    w = math.sqrt(max(float(one_two.statistic), 0.0) / one_two.n) if one_two.n else math.nan
+    head = (
+        f"The order test rejects first order against second (G²({one_two.dof}, "
+        f"N = {one_two.n}) = {one_two.statistic:.1f}) while {names} "
+        f"{'choose' if len(chosen) > 1 else 'chooses'} first order."
+    )
+    if w < SMALL_EFFECT:
+        return (
+            f"{head}{charged} Both can hold: the departure from first order is small "
+            f"(w = √(G²/N) = {w:.2f}), and with N = {one_two.n} transitions the G² test "
+            f"detects it, whereas {names} weigh{'' if len(chosen) > 1 else 's'} it against "
+            "the parameters a second-order chain adds: the second-order effect is "
+            "detectable but does not pay for its parameters."
+        )
     return (
-        f"The order test rejects first order against second while {' and '.join(chosen)} "
-        f"{'choose' if len(chosen) > 1 else 'chooses'} first order; both can hold. With "
-        f"N = {one_two.n} transitions the G² test detects even small departures from first "
-        f"order, whereas {' and '.join(chosen)} weigh{'' if len(chosen) > 1 else 's'} the gain in "
-        f"fit against the parameters a second-order chain adds{added}: the second-order "
-        "effect is detectable but does not pay for its parameters."
+        f"{head}{charged} The departure is not small (w = √(G²/N) = {w:.2f}, above "
+        f"{SMALL_EFFECT:g}): {names} turn{'' if len(chosen) > 1 else 's'} it down for "
+        "parameters of contexts the cores never show, which no number of such beds can "
+        "estimate; judge the second-order effect by the test, and by more cores where the "
+        "contexts are rare."
     )
 
 

@@ -14,7 +14,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
+from faciesseq.report.document import (
+    FigureBlock,
+    Paragraph,
+    Section,
+    TableBlock,
+    depth_decimals,
+    format_value,
+)
 from faciesseq.scheme import TractModel
 
 __all__ = ["model_section", "model_seed", "parameters_note", "tract_transitions"]
@@ -594,6 +601,7 @@ def _validation_blocks(
             frames["surfaces"]
             .set_index(frames["surfaces"].columns[0])
             .rename(columns=_readable_units(validation.units)),
+            decimals={"within one bed": 2, "mean |error| (beds)": 1},
         ),
     )
     _reliability_blocks(val, validation, frames)
@@ -601,28 +609,89 @@ def _validation_blocks(
         _validation_warning_blocks(val, notes)
 
 
-def _validation_score_blocks(val: Section, validation: Any, frames: dict) -> None:
-    """What was cross-validated (folds, mode, labels), then the scores overall and per tract."""
+#: Fewest scored beds for a third decimal of an accuracy (below, one bed moves the second).
+THIRD_DECIMAL_BEDS = 1000
+
+
+def score_decimals(n_beds: int) -> int:
+    """Decimals of an accuracy, F1 or Brier score resting on ``n_beds`` scored beds:
+    2, or 3 from :data:`THIRD_DECIMAL_BEDS` beds (one bed in 97 is 0.01 of accuracy)."""
+    return 3 if n_beds >= THIRD_DECIMAL_BEDS else 2
+
+
+def folds_text(validation: Any) -> str:
+    """The folds actually used: the cores dealt, the labelled cores scored and the folds
+    they fell in (a fold of unlabelled cores scores nothing)."""
     settings = dict(getattr(validation, "settings", {}) or {})
+    fold_of = dict(getattr(validation, "fold_of_core", {}) or {})
+    beds = validation.beds
+    scored = beds[beds["label"].notna()] if "label" in beds else beds
+    scored_cores = list(dict.fromkeys(scored["core"])) if "core" in scored else []
+    used = sorted({fold_of[c] for c in scored_cores if c in fold_of})
+    n_cores = int(settings.get("n_cores", len(fold_of)))
+    rows = _unit_word(settings)
+    text = (
+        f"Cross-validation by core ({settings.get('mode', 'supervised')} fits): "
+        f"{n_cores} cores dealt to {validation.folds} folds"
+    )
+    if len(used) != validation.folds or len(scored_cores) != n_cores:
+        text += (
+            f"; {len(scored_cores)} labelled core{'s' if len(scored_cores) != 1 else ''} "
+            f"scored, in {len(used)} of the folds, so in effect {len(used)}-fold"
+        )
+    return (
+        f"{text}. Each scored core is decoded by a model fitted without its fold and "
+        f"compared with the interpreter's tracts ({settings.get('labels', 'labels')}), "
+        f"{len(scored)} {rows} in all; the baseline assigns tracts by a stacking-trend rule "
+        "without a model."
+    )
+
+
+_UNIT_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
+
+
+def _unit_word(settings: dict) -> str:
+    return _UNIT_WORDS.get(str(settings.get("unit", "beds")), "beds")
+
+
+def _validation_score_blocks(val: Section, validation: Any, frames: dict) -> None:
+    """What was cross-validated (folds, mode, labels), then the scores overall and per tract,
+    each score to the decimals its number of scored beds bears (:func:`score_decimals`)."""
+    settings = dict(getattr(validation, "settings", {}) or {})
+    beds = validation.beds
+    scored = beds[beds["label"].notna()] if "label" in beds else beds
+    n_scored = len(scored)
+    n_cores = int(scored["core"].nunique()) if "core" in scored else 0
+    rows = _unit_word(settings)
+    places = score_decimals(n_scored)
+    summary = frames["summary"].set_index("method").rename(columns=_READABLE)
+    summary[rows] = n_scored
+    summary["cores"] = n_cores
+    per_tract = (
+        frames["per_tract"].set_index(frames["per_tract"].columns[0]).rename(columns=_READABLE)
+    )
+    per_tract = per_tract.rename(columns={"beds": rows})
     val.add(
-        Paragraph(
-            f"{validation.folds}-fold cross-validation by core "
-            f"({settings.get('mode', 'supervised')} fits): each core is decoded by a "
-            "model fitted without it and compared bed by bed with the interpreter's "
-            f"tracts ({settings.get('labels', 'labels')}); the baseline assigns tracts "
-            "by a stacking-trend rule without a model."
-        ),
+        Paragraph(folds_text(validation)),
         TableBlock(
             "validation_summary",
-            "Scores of the tract model and of the baseline: bed accuracy, macro-averaged F1, "
-            "Brier score of the tract probabilities and the fraction of maximum flooding "
-            "surfaces picked within one bed.",
-            frames["summary"].set_index("method").rename(columns=_READABLE),
+            f"Scores of the tract model and of the baseline on {n_scored} {rows} of {n_cores} "
+            "labelled cores: accuracy, macro-averaged F1, Brier score of the tract "
+            "probabilities and the fraction of maximum flooding surfaces picked within one "
+            f"bed ({places} decimals: one of {n_scored} is {1 / max(n_scored, 1):.2g}).",
+            summary,
+            decimals={
+                "accuracy": places,
+                "macro F1": places,
+                "Brier score": 3,
+                "MFS within one bed": 2,
+            },
         ),
         TableBlock(
             "validation_per_tract",
-            "Precision, recall, F1 and support (beds) per tract.",
-            frames["per_tract"].set_index(frames["per_tract"].columns[0]).rename(columns=_READABLE),
+            f"Precision, recall, F1 and support ({rows}) per tract.",
+            per_tract,
+            decimals={"precision": places, "recall": places, "F1": places},
         ),
     )
 
@@ -673,20 +742,32 @@ def _reliability_blocks(val: Section, validation: Any, frames: dict) -> None:
                 "count": r["count"],
             }
         ).dropna()
+    rows = _unit_word(dict(getattr(validation, "settings", {}) or {}))
+    table = frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE)
+    table = table.rename(columns={"beds": rows})
+    edges = table[["bin from", "bin to"]].to_numpy(float).ravel() if len(table) else []
+    few = figures.MIN_RELIABILITY_BEDS
     val.add(
         TableBlock(
             "validation_reliability",
             "Reliability of the tract probabilities: per probability bin (bins without "
-            "beds left out), the mean predicted probability and the fraction of beds where "
-            "that tract was the interpreter's.",
-            frames["reliability"][frames["reliability"]["count"] > 0].rename(columns=_READABLE),
+            f"{rows} left out), the mean predicted probability and the fraction of {rows} "
+            "where that tract was the interpreter's.",
+            table,
             index=False,
+            decimals={
+                "bin from": depth_decimals(edges) if len(edges) else 1,
+                "bin to": depth_decimals(edges) if len(edges) else 1,
+                "mean probability": 2,
+                "fraction correct": 2,
+            },
         ),
         FigureBlock(
             "validation_reliability",
             "Reliability curve: observed frequency against predicted tract probability, "
-            "tract model beside the baseline.",
-            figures.reliability_curve(rel["model"], baseline=rel["baseline"]),
+            f"tract model beside the baseline; bins of fewer than {few} {rows} are open "
+            "markers, not joined into the line.",
+            figures.reliability_curve(rel["model"], baseline=rel["baseline"], min_count=few),
         ),
     )
 

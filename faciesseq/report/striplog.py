@@ -233,6 +233,9 @@ def _facies_track(ax, beds, widths, measure, scheme, units, top, base) -> None:
         k = np.arange(1, len(GRAIN_CLASSES) + 1)
         ax.set_xticks(k / len(GRAIN_CLASSES), GRAIN_CLASSES)
         ax.set_xlabel("grain size")
+    elif scheme.name == NO_SCHEME:
+        ax.set_xticks([])
+        ax.set_xlabel("no scheme: ranks\nnot known")
     else:
         ax.set_xticks([])
         ax.set_xlabel("width: proximality\n(landward wider)")
@@ -369,7 +372,11 @@ def _legends(
     )
     kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
     columns = (
-        (facies_handles, "facies (landward → basinward)", 0.0),
+        (
+            facies_handles,
+            "facies" if scheme.name == NO_SCHEME else "facies (landward → basinward)",
+            0.0,
+        ),
         (tract_handles, "systems tract", 0.43),
         (surface_handles, "surface", 0.71),
     )
@@ -381,12 +388,39 @@ def _legends(
             ax.add_artist(legend)
 
 
+#: Name of the scheme a strip log drawn without one makes of the core's facies (no ranks).
+NO_SCHEME = "facies of the core (no scheme given)"
+
+
+def _scheme_and_tracts(interp, scheme, tract_model, model) -> tuple[FaciesScheme, TractModel]:
+    """The scheme and tract model a strip log draws with: those given, else the model's,
+    else the core's facies alone and the default tract model (see :func:`strip_log`)."""
+    from faciesseq.scheme import default_tract_model
+
+    if scheme is None and model is not None:
+        scheme = getattr(model, "scheme", None)
+    if scheme is None:
+        codes = list(dict.fromkeys(interp.beds["facies"].astype(str)))
+        facies = [
+            {"code": c, "name": f"facies {c}", "rank": 0, "colour": facies_colour(c)} for c in codes
+        ]
+        scheme = FaciesScheme.from_dict({"name": NO_SCHEME, "facies": facies})
+    if tract_model is None and model is not None:
+        tract_model = model.tract_model_
+    if tract_model is None:
+        tract_model = default_tract_model()
+        if not set(interp.tracts) <= set(tract_model.codes):
+            tract_model = None
+    return scheme, tract_model
+
+
 def strip_log(
     interp: CoreInterpretation,
-    scheme: FaciesScheme,
-    tract_model: TractModel,
+    scheme: FaciesScheme | None = None,
+    tract_model: TractModel | None = None,
     path: str | os.PathLike | None = None,
     *,
+    model=None,
     step: float | None = None,
     title: str | None = None,
     height: float = 9.0,
@@ -397,11 +431,20 @@ def strip_log(
     Parameters
     ----------
     interp
-        The core's interpretation (beds, boundaries and picks in depth order).
+        The core's interpretation (beds, boundaries and picks in depth order),
+        e.g. ``interpretation["W-1"]`` or ``next(iter(interpretation))``.
     scheme
-        Facies scheme: colours, names, ranks and grain sizes.
+        Facies scheme: colours, names, ranks and grain sizes. Default: the
+        scheme of ``model`` where it has one, else the facies of the core alone
+        (stable colours, codes as names, boxes of one width: no ranks known).
     tract_model
         Tract model: tract names and the surfaces' names for the legends.
+        Default: the tract model of ``model``, else the package's default
+        four-tract model where it names every tract of the core, else the
+        codes alone.
+    model
+        The :class:`~faciesseq.hmm.TractHMM` that decoded the core (e.g.
+        :func:`faciesseq.hmm.load_model`), read for the two defaults above.
     path
         If given, the figure is also written there (PNG, PDF or SVG by suffix).
     step
@@ -433,6 +476,7 @@ def strip_log(
     beds = interp.beds
     if len(beds) == 0:
         raise InputError("no beds to draw", core=interp.core)
+    scheme, tract_model = _scheme_and_tracts(interp, scheme, tract_model, model)
     top, base = float(beds["top"].min()), float(beds["base"].max())
     span = max(base - top, 1e-9)
     step = float(step) if step else span / 400.0
@@ -453,12 +497,12 @@ def strip_log(
         else f"{c}  (not in scheme)"
         for c in facies_order
     ]
-    tract_names = {t.code: t.name for t in tract_model.tracts}
+    tract_names = {t.code: t.name for t in tract_model.tracts} if tract_model else {}
     tract_labels = [
         _legend_label(t, tract_names.get(t, "").removesuffix(" systems tract"), 18) for t in tracts
     ]
     surface_names: dict[str, str] = {}
-    for sf in tract_model.surfaces:
+    for sf in tract_model.surfaces if tract_model else ():
         surface_names.setdefault(sf.code, sf.name)
     surface_labels = [_legend_label(sf, surface_names.get(sf, ""), 22) for sf in surfaces]
     n_legend = max(
@@ -526,9 +570,11 @@ def strip_log(
 
 def strip_logs(
     interps: Sequence[CoreInterpretation],
-    scheme: FaciesScheme,
-    tract_model: TractModel,
+    scheme: FaciesScheme | None = None,
+    tract_model: TractModel | None = None,
     checked: bool = True,
+    *,
+    model=None,
 ) -> list[Figure]:
-    """One strip log per core interpretation, in order."""
-    return [strip_log(i, scheme, tract_model, checked=checked) for i in interps]
+    """One strip log per core interpretation, in order (defaults as :func:`strip_log`)."""
+    return [strip_log(i, scheme, tract_model, checked=checked, model=model) for i in interps]
