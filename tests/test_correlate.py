@@ -205,8 +205,9 @@ def test_datum_choices_shift_the_wells():
     picks, extents, wells = _picks_section(seed=2, drop=0.0)
     wells = wells.assign(elevation=[5.0, 4.0, 3.0, 2.0, 1.0])
     corr = correlate(picks.drop(columns="truth"), extents, wells)
-    shifts, _ = datum_shifts(corr, "dip", "depth")
+    shifts, label = datum_shifts(corr, "dip", "depth")
     assert set(shifts.values()) == {0.0}
+    assert label == "depth as measured"  # not shifted: no claim of a core-top datum
     shifts, _ = datum_shifts(corr, "dip", "elevation")
     assert shifts["W0"] == 5.0
     shifts, label = datum_shifts(corr, "dip", "MFS")

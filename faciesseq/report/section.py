@@ -116,7 +116,7 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
     wells = correlation.wells[correlation.wells["section"] == section]
     names = list(wells["core"])
     if datum == "depth":
-        return dict.fromkeys(names, 0.0), "depth below core top"
+        return dict.fromkeys(names, 0.0), "depth as measured"
     if datum in ("elevation", "datum_depth"):
         values = wells[datum].to_numpy(float)
         if np.isnan(values).any():
