@@ -541,3 +541,13 @@ def test_keep_labels_decodes_the_geologists_beds_as_labelled_and_says_so(second_
     assert sheet["clamped"].tolist() == kept["clamped"].tolist()
     assert "clamped" not in pd.read_csv(folder / "plain" / "sheet.csv", skiprows=1).columns
     assert not (folder / "kept" / "agreement.csv").exists()  # held beds agree by force
+
+
+def test_keep_labels_json_summary_counts_the_clamped_beds(second_round, work, capsys):
+    folder, _, _ = second_round
+    argv = ["decode", work / "model.json", folder / "labelled.csv", "--keep-labels"]
+    capsys.readouterr()
+    assert main([str(a) for a in [*argv, "--summary", "json", "-o", folder / "json"]]) == 0
+    document = json.loads(capsys.readouterr().out)
+    kept = pd.read_csv(folder / "json" / "tracts.csv", skiprows=1)
+    assert document["clamped_beds"] == int(kept["clamped"].sum()) > 0

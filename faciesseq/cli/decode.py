@@ -590,7 +590,7 @@ def _print_text(args, model, scheme, written: _Written) -> None:
     head, wells, agreement = written.summary()
     print(
         f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} "
-        f"{'grid cells' if model.unit_ == 'grid' else 'beds'}; "
+        f"{ {'grid': 'grid cells', 'intervals': 'described intervals'}.get(model.unit_, 'beds') }; "
         f"{int(wells['picks'].sum())} surface pick(s); "
         f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )
@@ -625,6 +625,8 @@ def _print_json(args, scheme, written: _Written) -> None:
         format=args.format,
         agreement=_overall_agreement(written.summary()[2]),
     )
+    if args.keep_labels:  # held to their labels: no agreement to report, the count instead
+        doc["clamped_beds"] = written.clamped
     print_json(doc)
 
 
