@@ -136,8 +136,7 @@ class DecodedBeds:
         outside = mean[(mean < lo - 1e-9) | (mean > hi + 1e-9)]
         if outside.empty:
             return None
-        named = [f"{core} ({r:.2f})" for core, r in outside.items()]
-        listed = ", ".join(named[:10]) + (f" and {len(named) - 10} more" if len(named) > 10 else "")
+        listed = _listed({core: f"{r:.2f}" for core, r in outside.items()}, list(outside.index))
         return (
             f"{len(outside)} of {len(mean)} core(s) lie outside the facies range of the "
             f"labelled cores (mean facies rank {lo:.2f}-{hi:.2f} there; 0 = most landward): "

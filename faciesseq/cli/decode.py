@@ -279,6 +279,7 @@ class _Written:
 
     def add(self, part) -> None:
         from faciesseq.cli._summary import WELL_LIMIT
+        from faciesseq.review import CLAMPED
 
         wanted = WELL_LIMIT - sum(len(h) for h in self.heads)
         if wanted > 0 or not self.heads:  # a head of none would keep the part's text alive
@@ -286,11 +287,11 @@ class _Written:
         self.wells.append(part.wells)
         if len(part.wells):
             self.beds.add(part.beds, str(part.wells["units"].iloc[0]))
-        if "clamped" not in part.beds.columns:  # held to their labels, they would agree
+        if CLAMPED in part.beds.columns:  # held to their labels: they agree by force
+            self.clamped += int(part.beds[CLAMPED].sum())
+        else:
             self.agreements.append(_agreement(part, self.labels))
         self.labels_found |= self.labels in part.beds.columns
-        if "clamped" in part.beds.columns:
-            self.clamped += int(part.beds["clamped"].sum())
         self.parts += [part] if self.keep else []
 
     def summary(self):
@@ -442,7 +443,7 @@ def _model(args: argparse.Namespace):
     return model, scheme
 
 
-def _reading_scheme(args: argparse.Namespace, scheme):
+def _reading_scheme(scheme):
     """The scheme the source's facies codes are read with: its aliases resolved, and a
     code outside it (or outside the ranks suggested from the model's training cores)
     decoded as a facies never seen in training (one warning line, no rank), not refused:
@@ -453,7 +454,7 @@ def _reading_scheme(args: argparse.Namespace, scheme):
 def _read(args: argparse.Namespace, model, scheme):
     """The successions of the cores read whole, and whether any core was read in the
     samples layout."""
-    source = read_source(args, _reading_scheme(args, scheme)).require_valid()
+    source = read_source(args, _reading_scheme(scheme)).require_valid()
     chosen = _Chosen(args)
     source = chosen(source)
     chosen.check()
@@ -693,7 +694,7 @@ def _run(args: argparse.Namespace) -> int:
     labels_given, args.labels = args.labels is not None, args.labels or "tract"
     labels = "interpreted_tract" if args.labels == "tract" else args.labels
     others = _attributes_used(args, model, labels)
-    reading = _reading_scheme(args, scheme)
+    reading = _reading_scheme(scheme)
     streamable = model.unit_ != "grid" and not args.keep_labels  # the labels: read whole
     stream = stream_source(args, reading, others) if streamable else None
     with warnings_to_stderr("decode"):
