@@ -161,21 +161,6 @@ class Facies:
         return out
 
 
-# An own palette for facies without a colour: from warm (landward) to cool (basinward).
-_FALLBACK_COLOURS = (
-    "#c9a227",
-    "#e0c068",
-    "#b5651d",
-    "#9c8b5e",
-    "#7a9e7e",
-    "#4f8a8b",
-    "#3b6e8f",
-    "#2c4a6e",
-    "#5b4b8a",
-    "#8a4b6e",
-)
-
-
 @dataclass(frozen=True)
 class FaciesScheme:
     """An ordered set of facies with ranks, colours and aliases.
@@ -313,13 +298,6 @@ class FaciesScheme:
     def ranks(self, codes: Iterable[str] | None = None) -> dict[str, float]:
         codes = self.codes if codes is None else codes
         return {c: self[c].rank for c in codes}
-
-    def colour(self, code: str) -> str:
-        """The scheme's colour for ``code``, or one of the project's fallback colours."""
-        f = self[code]
-        if f.colour:
-            return f.colour
-        return _FALLBACK_COLOURS[self.codes.index(f.code) % len(_FALLBACK_COLOURS)]
 
 
 def _check_keys(

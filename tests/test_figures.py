@@ -116,7 +116,9 @@ def test_reliability_bin_of_too_few_beds_is_an_open_marker_not_joined():
 
 def test_bar_chart_has_one_bar_per_cell(scheme):
     table = pd.DataFrame({"beds": [0.2, 0.8], "thickness": [0.4, 0.6]}, index=["CP", "FS"])
-    fig = figures.bar_chart(table, colours={"CP": scheme.colour("CP")})
+    from faciesseq.report.style import facies_colour
+
+    fig = figures.bar_chart(table, colours={"CP": facies_colour("CP", scheme)})
     assert len(fig.axes[0].patches) == 4
     assert [t.get_text() for t in _legends(fig)[0].get_texts()] == ["beds", "thickness"]
 
