@@ -14,9 +14,10 @@ Raymond 1987, Math. Geology 19:1-11):
 
 - a tie between pick ``i`` of the upper-left well and ``j`` of its neighbour costs
   ``((f_i - f_j) / sigma)**2 / 2 + ((log t_i - log t_j) / tau)**2 / 2``, where
-  ``f`` is the fractional position and ``t`` the fractional thickness between
-  the pick and the previous pick of the same kind above it (a cycle's
-  thickness; the term is left out where either well has no such pick);
+  ``f`` is the fractional position and ``t`` the thickness between the pick
+  and the previous pick of the same kind above it (a cycle's thickness, the
+  upper well's carried onto its neighbour's depths: :func:`tie_costs`; the term
+  is left out where either well has no such pick);
 - leaving a pick untied costs ``gap * p``, its probability ``p`` times the gap
   cost: a confident pick is expensive to drop, a doubtful one cheap.
 
@@ -116,14 +117,14 @@ class PickColumn:
 
     @property
     def cycle(self) -> np.ndarray:
-        """Fractional thickness to the previous pick of the same kind above; NaN for the first."""
-        f = self.fraction
+        """Thickness (depth units) to the previous pick of the same kind above; NaN for
+        the first."""
         out = np.full(len(self), np.nan)
         last: dict[str, float] = {}
-        for k, (code, x) in enumerate(zip(self.surface, f)):
+        for k, (code, depth) in enumerate(zip(self.surface, self.depth)):
             if code in last:
-                out[k] = x - last[code]
-            last[code] = x
+                out[k] = depth - last[code]
+            last[code] = depth
         return out
 
 
@@ -152,23 +153,12 @@ def tie_costs(
     mapped = intercept + slope * upper.depth
     fi, fj = mapped[:, None] / scale, lower.depth[None, :] / scale
     cost = 0.5 * ((fi - fj) / options.sigma) ** 2
-    ci, cj = slope * _cycle_depths(upper)[:, None], _cycle_depths(lower)[None, :]
+    ci, cj = slope * upper.cycle[:, None], lower.cycle[None, :]
     with np.errstate(divide="ignore", invalid="ignore"):
         log_ratio = np.log(np.maximum(ci, 1e-6 * scale)) - np.log(np.maximum(cj, 1e-6 * scale))
     cost = cost + np.where(np.isfinite(log_ratio), 0.5 * (log_ratio / options.tau) ** 2, 0.0)
     same = upper.surface[:, None] == lower.surface[None, :]
     return np.where(same, cost, np.inf)
-
-
-def _cycle_depths(column: PickColumn) -> np.ndarray:
-    """Thickness to the previous pick of the same kind above (depth units); NaN for the first."""
-    out = np.full(len(column), np.nan)
-    last: dict[str, float] = {}
-    for k, (code, depth) in enumerate(zip(column.surface, column.depth)):
-        if code in last:
-            out[k] = depth - last[code]
-        last[code] = depth
-    return out
 
 
 def fitted_depth_map(
