@@ -14,7 +14,6 @@ from __future__ import annotations
 import contextlib
 import hashlib
 import io
-import itertools
 import os
 import re
 import warnings
@@ -22,6 +21,7 @@ from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 import matplotlib as mpl
+import numpy as np
 from matplotlib.figure import Figure
 
 from faciesseq._output import write_file
@@ -203,13 +203,9 @@ def _ramp(position: float) -> tuple[float, float, float]:
     """RGB (0-1) of ``position`` (0 landward ... 1 basinward) on :data:`FACIES_RAMP`."""
     from matplotlib.colors import to_rgb
 
-    position = min(max(float(position), 0.0), 1.0)
-    for (x0, c0), (x1, c1) in itertools.pairwise(FACIES_RAMP):
-        if position <= x1:
-            f = (position - x0) / (x1 - x0)
-            a, b = to_rgb(c0), to_rgb(c1)
-            return tuple(u + f * (v - u) for u, v in zip(a, b, strict=True))  # type: ignore[return-value]
-    return to_rgb(FACIES_RAMP[-1][1])
+    xs = [x for x, _ in FACIES_RAMP]
+    channels = zip(*(to_rgb(c) for _, c in FACIES_RAMP), strict=True)
+    return tuple(float(np.interp(position, xs, c)) for c in channels)  # type: ignore[return-value]
 
 
 def _digest(text: str) -> int:
