@@ -15,6 +15,7 @@ from __future__ import annotations
 import itertools
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -45,6 +46,20 @@ COLUMNS = (
     "confidence",
     "doubtful",
     "tied_to",
+)
+
+#: Columns of :attr:`Correlation.ties`.
+TIE_COLUMNS = (
+    "section",
+    "surface_id",
+    "surface",
+    "core_left",
+    "depth_left",
+    "core_right",
+    "depth_right",
+    "cost",
+    "confidence",
+    "doubtful",
 )
 
 
@@ -120,6 +135,22 @@ def _columns(picks: pd.DataFrame, extents: Mapping[str, tuple[float, float]]) ->
     return out
 
 
+#: A well's pick: ``(core, index of the pick in the core's column)``.
+_Pick = tuple[str, int]
+
+
+class _Tie(NamedTuple):
+    """A tie between neighbouring wells, on the correlated surface numbered ``surface``."""
+
+    surface: int
+    core_left: str
+    pick_left: int
+    core_right: str
+    pick_right: int
+    cost: float
+    confidence: float
+
+
 def correlate(
     picks: pd.DataFrame,
     extents: Mapping[str, tuple[float, float]],
@@ -147,97 +178,161 @@ def correlate(
     Correlation
     """
     options = options or AlignmentOptions()
-    wells = wells[wells["core"].isin(list(extents))]
-    wells = wells.sort_values(["section", "position", "core"], kind="stable")
+    wells = _wells_along_sections(wells, extents)
     columns = _columns(picks, extents)
     pick_rows, tie_rows = [], []
     for section, group in wells.groupby("section", sort=True):
-        names = list(group["core"])
+        surfaces, ties = _chain_section(list(group["core"]), columns, options)
+        surface_ids, mean_fraction = _name_surfaces(str(section), surfaces, columns)
+        tie_rows += _tie_rows(section, ties, surface_ids, columns, options)
         positions = dict(zip(group["core"], group["position"]))
-        # chain: (core, pick index) -> surface number; links by union along the section
-        owner: dict[tuple[str, int], int] = {}
-        members: list[list[tuple[str, int]]] = []
-        links = []
-        for left, right in itertools.pairwise(names):
-            a, b = columns[left], columns[right]
-            pair = align_columns(a, b, options)
-            disputed = disputed_ties(a, b, pair, options)
-            for i, j, cost in pair:
-                conf = tie_confidence(cost, a.probability[i], b.probability[j], options.gap)
-                if (i, j) in disputed:
-                    conf *= DISPUTED
-                key = (left, i)
-                if key not in owner:
-                    owner[key] = len(members)
-                    members.append([key])
-                owner[(right, j)] = owner[key]
-                members[owner[key]].append((right, j))
-                links.append((owner[key], left, i, right, j, cost, conf))
-        # order surfaces top down by mean fractional position; number per kind
-        mean_f = [np.mean([columns[c].fraction[k] for c, k in mem]) for mem in members]
-        ids: dict[int, str] = {}
-        counts: dict[str, int] = {}
-        for s in np.argsort(mean_f, kind="stable"):
-            c, k = members[s][0]
-            kind = str(columns[c].surface[k])
-            counts[kind] = counts.get(kind, 0) + 1
-            ids[int(s)] = f"{section}:{kind}-{counts[kind]}"
-        confidence_in: dict[tuple[str, int], tuple[float, str]] = {}
-        confidence_out: dict[tuple[str, int], float] = {}
-        for s, left, i, right, j, cost, conf in links:
-            col_a, col_b = columns[left], columns[right]
-            tie_rows.append(
+        pick_rows += _pick_rows(
+            section, surfaces, ties, surface_ids, mean_fraction, columns, positions, options
+        )
+    return Correlation(
+        _picks_frame(pick_rows),
+        pd.DataFrame(tie_rows, columns=TIE_COLUMNS),
+        wells.reset_index(drop=True),
+        options,
+    )
+
+
+def _wells_along_sections(
+    wells: pd.DataFrame, extents: Mapping[str, tuple[float, float]]
+) -> pd.DataFrame:
+    """The wells with an extent, by section and position along it (ties of position by
+    name, so the listing order of the wells table never matters)."""
+    wells = wells[wells["core"].isin(list(extents))]
+    return wells.sort_values(["section", "position", "core"], kind="stable")
+
+
+def _tie_pair(
+    left: PickColumn, right: PickColumn, options: AlignmentOptions
+) -> list[tuple[int, int, float, float]]:
+    """``(pick_left, pick_right, cost, confidence)`` of each tie between two neighbours;
+    a tie the second reading of the pair does not make has its confidence cut by
+    :data:`DISPUTED`."""
+    ties = align_columns(left, right, options)
+    disputed = disputed_ties(left, right, ties, options)
+    out = []
+    for i, j, cost in ties:
+        confidence = tie_confidence(cost, left.probability[i], right.probability[j], options.gap)
+        if (i, j) in disputed:
+            confidence *= DISPUTED
+        out.append((i, j, cost, confidence))
+    return out
+
+
+def _chain_section(
+    cores: list[str], columns: Mapping[str, PickColumn], options: AlignmentOptions
+) -> tuple[list[list[_Pick]], list[_Tie]]:
+    """Tie each pair of neighbouring wells and chain the ties into correlated surfaces.
+
+    Returns the surfaces (each its picks, from the first well along the section
+    on) and the ties, each with the number of its surface.
+    """
+    surface_of: dict[_Pick, int] = {}
+    surfaces: list[list[_Pick]] = []
+    ties: list[_Tie] = []
+    for left, right in itertools.pairwise(cores):
+        for i, j, cost, confidence in _tie_pair(columns[left], columns[right], options):
+            if (left, i) not in surface_of:
+                surface_of[(left, i)] = len(surfaces)
+                surfaces.append([(left, i)])
+            surface = surface_of[(left, i)]
+            surface_of[(right, j)] = surface
+            surfaces[surface].append((right, j))
+            ties.append(_Tie(surface, left, i, right, j, cost, confidence))
+    return surfaces, ties
+
+
+def _name_surfaces(
+    section: str, surfaces: list[list[_Pick]], columns: Mapping[str, PickColumn]
+) -> tuple[dict[int, str], list[float]]:
+    """Identifier ``<section>:<kind>-<n>`` of each surface, ``n`` counted per kind from
+    the top down, and each surface's mean fractional position, which orders them."""
+    mean_fraction = [
+        np.mean([columns[core].fraction[k] for core, k in picks]) for picks in surfaces
+    ]
+    ids: dict[int, str] = {}
+    counts: dict[str, int] = {}
+    for s in np.argsort(mean_fraction, kind="stable"):
+        core, k = surfaces[s][0]
+        kind = str(columns[core].surface[k])
+        counts[kind] = counts.get(kind, 0) + 1
+        ids[int(s)] = f"{section}:{kind}-{counts[kind]}"
+    return ids, mean_fraction
+
+
+def _tie_rows(
+    section,
+    ties: list[_Tie],
+    surface_ids: dict[int, str],
+    columns: Mapping[str, PickColumn],
+    options: AlignmentOptions,
+) -> list[dict]:
+    """One row of :attr:`Correlation.ties` per tie."""
+    rows = []
+    for tie in ties:
+        left, right = columns[tie.core_left], columns[tie.core_right]
+        rows.append(
+            {
+                "section": section,
+                "surface_id": surface_ids[tie.surface],
+                "surface": left.surface[tie.pick_left],
+                "core_left": tie.core_left,
+                "depth_left": left.depth[tie.pick_left],
+                "core_right": tie.core_right,
+                "depth_right": right.depth[tie.pick_right],
+                "cost": tie.cost,
+                "confidence": tie.confidence,
+                "doubtful": tie.confidence < options.doubtful,
+            }
+        )
+    return rows
+
+
+def _pick_rows(
+    section,
+    surfaces: list[list[_Pick]],
+    ties: list[_Tie],
+    surface_ids: dict[int, str],
+    mean_fraction: list[float],
+    columns: Mapping[str, PickColumn],
+    positions: Mapping[str, float],
+    options: AlignmentOptions,
+) -> list[dict]:
+    """One row of :attr:`Correlation.picks` per tied pick, with the confidence of its tie
+    to the previous well (the first well of a surface: to the next) and ``_order``, the
+    surface's mean fractional position."""
+    tie_above = {(t.core_right, t.pick_right): (t.confidence, t.core_left) for t in ties}
+    tie_below = {(t.core_left, t.pick_left): t.confidence for t in ties}
+    rows = []
+    for s, picks in enumerate(surfaces):
+        for core, k in picks:
+            confidence, tied_to = tie_above.get((core, k), (tie_below.get((core, k)), ""))
+            column = columns[core]
+            rows.append(
                 {
                     "section": section,
-                    "surface_id": ids[s],
-                    "surface": col_a.surface[i],
-                    "core_left": left,
-                    "depth_left": col_a.depth[i],
-                    "core_right": right,
-                    "depth_right": col_b.depth[j],
-                    "cost": cost,
-                    "confidence": conf,
-                    "doubtful": conf < options.doubtful,
+                    "surface_id": surface_ids[s],
+                    "surface": column.surface[k],
+                    "core": core,
+                    "position": positions[core],
+                    "depth": column.depth[k],
+                    "probability": column.probability[k],
+                    "confidence": confidence,
+                    "doubtful": confidence < options.doubtful,
+                    "tied_to": tied_to,
+                    "_order": mean_fraction[s],
                 }
             )
-            confidence_in[(right, j)] = (conf, left)
-            confidence_out[(left, i)] = conf
-        for s, mem in enumerate(members):
-            for c, k in mem:
-                conf, tied_to = confidence_in.get((c, k), (confidence_out.get((c, k)), ""))
-                col = columns[c]
-                pick_rows.append(
-                    {
-                        "section": section,
-                        "surface_id": ids[s],
-                        "surface": col.surface[k],
-                        "core": c,
-                        "position": positions[c],
-                        "depth": col.depth[k],
-                        "probability": col.probability[k],
-                        "confidence": conf,
-                        "doubtful": conf < options.doubtful,
-                        "tied_to": tied_to,
-                        "_order": mean_f[s],
-                    }
-                )
-    frame = pd.DataFrame(pick_rows, columns=[*COLUMNS, "_order"])
+    return rows
+
+
+def _picks_frame(rows: list[dict]) -> pd.DataFrame:
+    """The picks, section by section, surfaces top down, wells along the section."""
+    frame = pd.DataFrame(rows, columns=[*COLUMNS, "_order"])
     if len(frame):
         frame = frame.sort_values(["section", "_order", "position", "core"], kind="stable")
-    frame = frame.drop(columns="_order").reset_index(drop=True)
-    ties = pd.DataFrame(
-        tie_rows,
-        columns=[
-            "section",
-            "surface_id",
-            "surface",
-            "core_left",
-            "depth_left",
-            "core_right",
-            "depth_right",
-            "cost",
-            "confidence",
-            "doubtful",
-        ],
-    )
-    return Correlation(frame, ties, wells.reset_index(drop=True), options)
+    return frame.drop(columns="_order").reset_index(drop=True)
