@@ -99,6 +99,42 @@ def _along_line(x: np.ndarray, y: np.ndarray, order: np.ndarray | None) -> np.nd
 def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) -> WellTable:
     """Check a wells table read into a data frame (see the module's columns)."""
     rows = list(rows) if rows is not None else list(range(1, len(frame) + 1))
+    names = _well_names(frame, rows, file)
+    section_col = _column(frame, ("section",))
+    sections = (
+        frame[section_col].astype(object).fillna("section").astype(str).str.strip()
+        if section_col
+        else pd.Series("section", index=frame.index)
+    )
+    order_col = _column(frame, ("order",))
+    order = _numbers(frame, order_col, rows, file, "order") if order_col else None
+    position, label = _positions(frame, sections, order, rows, file)
+    missing = np.isnan(position)
+    if missing.any():
+        k = int(np.argmax(missing))
+        raise InputError(f"well {names.iloc[k]!r} has no position", file=file, row=rows[k])
+    out = pd.DataFrame(
+        {
+            "core": names.to_numpy(),
+            "section": sections.to_numpy(),
+            "position": position,
+            "order": order if order is not None else np.nan,
+            "row": rows,
+        }
+    )
+    for role in ("elevation", "datum_depth"):
+        col = _column(frame, (role,))
+        out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
+    problems = []
+    if order is not None and _column(frame, _DISTANCE) is not None:
+        problems = _order_disagreements(out, file)
+    out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
+    return WellTable(out, file, label, tuple(problems))
+
+
+def _well_names(frame: pd.DataFrame, rows: list, file: str) -> pd.Series:
+    """The wells' names, stripped; an error for a missing name column, a blank name or
+    a well listed twice."""
     name = _column(frame, _NAMES)
     if name is None:
         raise InputError(
@@ -120,69 +156,54 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
             file=file,
             row=rows[k],
         )
-    section_col = _column(frame, ("section",))
-    sections = (
-        frame[section_col].astype(object).fillna("section").astype(str).str.strip()
-        if section_col
-        else pd.Series("section", index=frame.index)
-    )
-    order_col = _column(frame, ("order",))
-    order = _numbers(frame, order_col, rows, file, "order") if order_col else None
+    return names
+
+
+def _positions(
+    frame: pd.DataFrame, sections: pd.Series, order: np.ndarray | None, rows: list, file: str
+) -> tuple[np.ndarray, str]:
+    """Each well's position along its section (NaN where not given) and the axis label:
+    the distance column as given, or the distance along the path through the map
+    coordinates of each section's wells."""
     distance = _column(frame, _DISTANCE)
-    x_col, y_col = _column(frame, ("x",)), _column(frame, ("y",))
     if distance is not None:
-        position = _numbers(frame, distance, rows, file, "position")
-        label = str(distance)
-    elif x_col is not None and y_col is not None:
-        x = _numbers(frame, x_col, rows, file, "x")
-        y = _numbers(frame, y_col, rows, file, "y")
-        position = np.full(len(frame), np.nan)
-        for s in sections.unique():
-            here = (sections == s).to_numpy() & np.isfinite(x) & np.isfinite(y)
-            if here.any():
-                position[here] = _along_line(
-                    x[here], y[here], order[here] if order is not None else None
-                )
-        label = f"distance along the section ({x_col}, {y_col} units)"
-    else:
+        return _numbers(frame, distance, rows, file, "position"), str(distance)
+    x_col, y_col = _column(frame, ("x",)), _column(frame, ("y",))
+    if x_col is None or y_col is None:
         raise InputError(
             "no position column: give a distance along the section "
             f"({', '.join(_DISTANCE)}) or map coordinates x and y",
             file=file,
         )
-    missing = np.isnan(position)
-    if missing.any():
-        k = int(np.argmax(missing))
-        raise InputError(f"well {names.iloc[k]!r} has no position", file=file, row=rows[k])
-    out = pd.DataFrame(
-        {
-            "core": names.to_numpy(),
-            "section": sections.to_numpy(),
-            "position": position,
-            "order": order if order is not None else np.nan,
-            "row": rows,
-        }
-    )
-    for role in ("elevation", "datum_depth"):
-        col = _column(frame, (role,))
-        out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
+    x = _numbers(frame, x_col, rows, file, "x")
+    y = _numbers(frame, y_col, rows, file, "y")
+    position = np.full(len(frame), np.nan)
+    for s in sections.unique():
+        here = (sections == s).to_numpy() & np.isfinite(x) & np.isfinite(y)
+        if here.any():
+            position[here] = _along_line(
+                x[here], y[here], order[here] if order is not None else None
+            )
+    return position, f"distance along the section ({x_col}, {y_col} units)"
+
+
+def _order_disagreements(wells: pd.DataFrame, file: str) -> list[Problem]:
+    """A warning for each section whose order column disagrees with the positions."""
     problems = []
-    if order is not None and distance is not None:
-        for s, part in out.groupby("section", sort=False):
-            by_pos = part.sort_values(["position", "core"], kind="stable")["core"].tolist()
-            by_order = part.sort_values(["order", "core"], kind="stable")["core"].tolist()
-            if by_pos != by_order:
-                problems.append(
-                    Problem(
-                        "warning",
-                        "wells-out-of-order",
-                        f"section {s!r}: the order column disagrees with the positions; "
-                        "wells are ordered by position",
-                        file=file,
-                    )
+    for s, part in wells.groupby("section", sort=False):
+        by_pos = part.sort_values(["position", "core"], kind="stable")["core"].tolist()
+        by_order = part.sort_values(["order", "core"], kind="stable")["core"].tolist()
+        if by_pos != by_order:
+            problems.append(
+                Problem(
+                    "warning",
+                    "wells-out-of-order",
+                    f"section {s!r}: the order column disagrees with the positions; "
+                    "wells are ordered by position",
+                    file=file,
                 )
-    out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
-    return WellTable(out, file, label, tuple(problems))
+            )
+    return problems
 
 
 def read_wells(path: str) -> WellTable:
