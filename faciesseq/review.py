@@ -549,31 +549,70 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
         interval different tracts; the message names the sheet, row, core and
         depth.
     """
-    from faciesseq.core import Core, CoreSet
+    from faciesseq.core import CoreSet
 
     known = _canonical_tracts(tracts)
-    units = cores.units
-    matched: dict[str, list[tuple[np.ndarray, str, int]]] = {}
-    noted: dict[str, list[tuple[np.ndarray, str]]] = {}
-    for rec in sheet.itertuples(index=False):
-        core, top, base, row = rec.core, float(rec.top), float(rec.base), int(rec.row)
-        where = {"file": file, "row": row, "core": core or None, "depth": top, "units": units}
-        if core not in cores.cores:
-            raise InputError("core is not in SOURCE; was the sheet decoded from it?", **where)
-        table = cores[core].intervals
-        t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
-        tol = TOLERANCE * max(1.0, abs(top), abs(base))
-        inside = np.flatnonzero((t >= top - tol) & (b <= base + tol))
-        if not len(inside) or abs(t[inside].min() - top) > tol or abs(b[inside].max() - base) > tol:
-            raise InputError(
-                f"the bed {top:g}-{base:g} {units} matches no interval of SOURCE (its top and "
-                "base must be an interval's top and base); was the sheet decoded from it?",
-                **where,
-            )
-        note = getattr(rec, "note", "")
+    matched, noted = _read_edits(sheet, cores, tracts, file)
+    any_notes = bool(noted)
+    relabelled = {
+        name: _relabel_core(
+            name,
+            core,
+            matched.get(name, []),
+            noted.get(name, []),
+            notes_column=any_notes,
+            labels=labels,
+            file=file,
+            units=cores.units,
+        )
+        for name, core in cores.cores.items()
+    }
+    new_cores = CoreSet(
+        {name: done.core for name, done in relabelled.items()},
+        cores.units,
+        cores.problems,
+        cores.sources,
+        cores.meta,
+    )
+    done = relabelled.values()
+    return RelabelResult(
+        cores=new_cores,
+        sheet=file,
+        labels=labels,
+        filled={name: d.filled for name, d in relabelled.items() if d.filled},
+        changed={name: d.changed for name, d in relabelled.items() if d.filled},
+        intervals_changed=sum(d.intervals_changed for d in done),
+        labelled_before=tuple(name for name, d in relabelled.items() if d.labelled_before),
+        labelled_after=tuple(name for name, d in relabelled.items() if d.labelled_after),
+        notes=sum(len(v) for v in noted.values()),
+        **_agreement(sheet, known),
+    )
+
+
+#: A sheet bed's source intervals (positions in its core's table) and its tract and
+#: data row, or its note.
+_Given = tuple[np.ndarray, str, int]
+_Noted = tuple[np.ndarray, str]
+
+
+def _read_edits(
+    sheet: pd.DataFrame, cores, tracts: Sequence[str], file: str
+) -> tuple[dict[str, list[_Given]], dict[str, list[_Noted]]]:
+    """The geologist's tracts and notes of the sheet, per core, each on the source
+    intervals of its bed (:func:`_bed_intervals`); a tract code outside the tract model
+    is an error naming the row."""
+    known = _canonical_tracts(tracts)
+    matched: dict[str, list[_Given]] = {}
+    noted: dict[str, list[_Noted]] = {}
+    for bed in sheet.itertuples(index=False):
+        core, row = bed.core, int(bed.row)
+        where = {"file": file, "row": row, "core": core or None, "depth": float(bed.top)}
+        where["units"] = cores.units
+        inside = _bed_intervals(cores, core, float(bed.top), float(bed.base), where)
+        note = getattr(bed, "note", "")
         if note:
             noted.setdefault(core, []).append((inside, note))
-        code = rec.geologist_tract
+        code = bed.geologist_tract
         if not code:
             continue
         if code.upper() not in known:
@@ -582,69 +621,108 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
                 **where,
             )
         matched.setdefault(core, []).append((inside, known[code.upper()], row))
-    agreement = _agreement(sheet, known)
-    new_cores, filled, changed, n_changed, n_notes = {}, {}, {}, 0, 0
-    before, after = [], []
-    for name, core in cores.cores.items():
-        table = core.intervals.copy()
-        old = table[labels] if labels in table.columns else pd.Series([None] * len(table))
-        old = old.astype(object).reset_index(drop=True)
-        had = _present(old)
-        origin = np.full(len(table), None, dtype=object)
-        if LABEL_SOURCE in table.columns:
-            prev = table[LABEL_SOURCE].astype(object)
-            origin[had] = np.where(_present(prev)[had], prev.to_numpy(object)[had], FROM_SOURCE)
-        else:
-            origin[had] = FROM_SOURCE
-        new = old.to_numpy(object).copy()
-        given: dict[int, tuple[str, int]] = {}
-        n_filled = n_bed_changed = 0
-        for idx, code, row in matched.get(name, []):
-            n_filled += 1
-            bed_changed = False
-            for i in idx:
-                if i in given and given[i][0] != code:
-                    raise InputError(
-                        f"this bed gives {code} to an interval that the sheet's data row "
-                        f"{given[i][1]} gives {given[i][0]}",
-                        file=file,
-                        row=row,
-                        core=name,
-                        depth=float(table["top"].iat[i]),
-                        units=units,
-                    )
-                given[i] = (code, row)
-                if not had[i] or str(old.iat[i]).strip() != code:
-                    bed_changed = True
-                    n_changed += 1
-                new[i] = code
-                origin[i] = file
-            n_bed_changed += bed_changed
-        if n_filled:
-            filled[name], changed[name] = n_filled, n_bed_changed
-        if had.any():
-            before.append(name)
-        if _present(pd.Series(new)).any():
-            after.append(name)
-        table[labels] = new
-        table[LABEL_SOURCE] = origin
-        if noted or REVIEW_NOTE in table.columns:
-            table[REVIEW_NOTE] = _notes(table, noted.get(name, []))
-        n_notes += len(noted.get(name, []))
-        new_cores[name] = Core(name, table, core.units)
-    relabelled = CoreSet(new_cores, units, cores.problems, cores.sources, cores.meta)
-    return RelabelResult(
-        cores=relabelled,
-        sheet=file,
-        labels=labels,
-        filled=filled,
-        changed=changed,
-        intervals_changed=n_changed,
-        labelled_before=tuple(before),
-        labelled_after=tuple(after),
-        notes=n_notes,
-        **agreement,
+    return matched, noted
+
+
+def _bed_intervals(cores, core: str, top: float, base: float, where: dict) -> np.ndarray:
+    """Positions of the source intervals of one sheet bed: the run of intervals of
+    ``core`` from ``top`` to ``base`` (within :data:`TOLERANCE`)."""
+    if core not in cores.cores:
+        raise InputError("core is not in SOURCE; was the sheet decoded from it?", **where)
+    table = cores[core].intervals
+    t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
+    tol = TOLERANCE * max(1.0, abs(top), abs(base))
+    inside = np.flatnonzero((t >= top - tol) & (b <= base + tol))
+    if not len(inside) or abs(t[inside].min() - top) > tol or abs(b[inside].max() - base) > tol:
+        raise InputError(
+            f"the bed {top:g}-{base:g} {cores.units} matches no interval of SOURCE (its top "
+            "and base must be an interval's top and base); was the sheet decoded from it?",
+            **where,
+        )
+    return inside
+
+
+@dataclass(frozen=True)
+class _CoreRelabelled:
+    """One core after :func:`_relabel_core`, with its counts for :class:`RelabelResult`."""
+
+    core: object
+    filled: int
+    changed: int
+    intervals_changed: int
+    labelled_before: bool
+    labelled_after: bool
+
+
+def _relabel_core(
+    name: str,
+    core,
+    given: list[_Given],
+    noted: list[_Noted],
+    *,
+    notes_column: bool,
+    labels: str,
+    file: str,
+    units: str,
+) -> _CoreRelabelled:
+    """One source core with the geologist's tracts on its intervals, ``label_source``
+    saying where each label came from, and ``review_note`` (where the sheet has a
+    note, or the table had the column)."""
+    from faciesseq.core import Core
+
+    table = core.intervals.copy()
+    old = table[labels] if labels in table.columns else pd.Series([None] * len(table))
+    old = old.astype(object).reset_index(drop=True)
+    had = _present(old)
+    origin = _source_origins(table, had)
+    new = old.to_numpy(object).copy()
+    by_interval: dict[int, tuple[str, int]] = {}
+    n_changed_beds = n_changed_intervals = 0
+    for inside, code, row in given:
+        bed_changed = False
+        for i in inside:
+            if i in by_interval and by_interval[i][0] != code:
+                first_code, first_row = by_interval[i]
+                raise InputError(
+                    f"this bed gives {code} to an interval that the sheet's data row "
+                    f"{first_row} gives {first_code}",
+                    file=file,
+                    row=row,
+                    core=name,
+                    depth=float(table["top"].iat[i]),
+                    units=units,
+                )
+            by_interval[i] = (code, row)
+            if not had[i] or str(old.iat[i]).strip() != code:
+                bed_changed = True
+                n_changed_intervals += 1
+            new[i] = code
+            origin[i] = file
+        n_changed_beds += bed_changed
+    table[labels] = new
+    table[LABEL_SOURCE] = origin
+    if notes_column or REVIEW_NOTE in table.columns:
+        table[REVIEW_NOTE] = _notes(table, noted)
+    return _CoreRelabelled(
+        core=Core(name, table, core.units),
+        filled=len(given),
+        changed=n_changed_beds,
+        intervals_changed=n_changed_intervals,
+        labelled_before=bool(had.any()),
+        labelled_after=bool(_present(pd.Series(new)).any()),
     )
+
+
+def _source_origins(table: pd.DataFrame, had: np.ndarray) -> np.ndarray:
+    """``label_source`` of the labels a core had before the sheet: the table's own
+    value where it has one, else ``source``; None where there was no label."""
+    origin = np.full(len(table), None, dtype=object)
+    if LABEL_SOURCE in table.columns:
+        prev = table[LABEL_SOURCE].astype(object)
+        origin[had] = np.where(_present(prev)[had], prev.to_numpy(object)[had], FROM_SOURCE)
+    else:
+        origin[had] = FROM_SOURCE
+    return origin
 
 
 def _notes(table: pd.DataFrame, noted: list[tuple[np.ndarray, str]]) -> np.ndarray:
