@@ -675,30 +675,16 @@ def _relabel_core(
     old = old.astype(object).reset_index(drop=True)
     had = _present(old)
     origin = _source_origins(table, had)
+    _check_one_tract_per_interval(name, table, given, file=file, units=units)
+    old_text = np.array([str(v).strip() for v in old], dtype=object)
     new = old.to_numpy(object).copy()
-    by_interval: dict[int, tuple[str, int]] = {}
     n_changed_beds = n_changed_intervals = 0
-    for inside, code, row in given:
-        bed_changed = False
-        for i in inside:
-            if i in by_interval and by_interval[i][0] != code:
-                first_code, first_row = by_interval[i]
-                raise InputError(
-                    f"this bed gives {code} to an interval that the sheet's data row "
-                    f"{first_row} gives {first_code}",
-                    file=file,
-                    row=row,
-                    core=name,
-                    depth=float(table["top"].iat[i]),
-                    units=units,
-                )
-            by_interval[i] = (code, row)
-            if not had[i] or str(old.iat[i]).strip() != code:
-                bed_changed = True
-                n_changed_intervals += 1
-            new[i] = code
-            origin[i] = file
-        n_changed_beds += bed_changed
+    for inside, code, _ in given:
+        changed = ~had[inside] | (old_text[inside] != code)
+        n_changed_intervals += int(changed.sum())
+        n_changed_beds += bool(changed.any())
+        new[inside] = code
+        origin[inside] = file
     table[labels] = new
     table[LABEL_SOURCE] = origin
     if notes_column or REVIEW_NOTE in table.columns:
@@ -711,6 +697,26 @@ def _relabel_core(
         labelled_before=bool(had.any()),
         labelled_after=bool(_present(pd.Series(new)).any()),
     )
+
+
+def _check_one_tract_per_interval(
+    name: str, table: pd.DataFrame, given: list[_Given], *, file: str, units: str
+) -> None:
+    """Refuse two sheet beds giving one interval of core ``name`` different tracts."""
+    first: dict[int, tuple[str, int]] = {}
+    for inside, code, row in given:
+        for i in inside:
+            if i in first and first[i][0] != code:
+                raise InputError(
+                    f"this bed gives {code} to an interval that the sheet's data row "
+                    f"{first[i][1]} gives {first[i][0]}",
+                    file=file,
+                    row=row,
+                    core=name,
+                    depth=float(table["top"].iat[i]),
+                    units=units,
+                )
+            first[i] = (code, row)
 
 
 def _source_origins(table: pd.DataFrame, had: np.ndarray) -> np.ndarray:
