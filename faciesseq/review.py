@@ -21,7 +21,9 @@ The sheet carries a *record* of what decode wrote (:func:`sheet_record`: the mod
 and scheme files, a digest of the decoded column and of the notes), as a first
 ``# `` line of the CSV and a line of the XLSX's read-me worksheet: ``relabel``
 refuses a sheet whose decoded column was edited instead of ``geologist_tract``
-(:func:`check_edits`), and its next ``fit`` command names the scheme.
+(:func:`check_edits`), takes the label column and tract codes the record names where
+its options are not given (:func:`relabel_settings`), and its next ``fit`` command
+names the scheme.
 
 Depths in the sheet are those of the decoded core set (its units, positive
 downward); rows are in depth order within each core.
@@ -46,10 +48,12 @@ __all__ = [
     "GEOLOGIST",
     "LABEL_SOURCE",
     "RelabelResult",
+    "RelabelSettings",
     "check_edits",
     "label_source_counts",
     "read_sheet",
     "relabel",
+    "relabel_settings",
     "sheet_record",
     "sheet_table",
     "write_sheet",
@@ -197,20 +201,29 @@ def _column_digest(table: pd.DataFrame, column: str) -> str:
 
 
 def sheet_record(
-    table: pd.DataFrame, model: str | None = None, scheme: str | None = None, labels="tract"
+    table: pd.DataFrame,
+    model: str | None = None,
+    scheme: str | None = None,
+    labels="tract",
+    tracts: Sequence[str] = (),
 ) -> dict[str, str]:
-    """What decode wrote into a sheet, for ``relabel`` to check the sheet and say the
-    next fit: ``model`` and ``scheme`` (absolute paths of the files decode read,
-    ``none`` for a model without a scheme), ``labels`` (the interpreter's column),
-    ``beds`` (rows), and digests of ``decoded_tract`` and ``note`` as written."""
-    return {
+    """What decode wrote into a sheet, for ``relabel`` to check the sheet, default its
+    options and say the next fit: ``model`` and ``scheme`` (absolute paths of the files
+    decode read, ``none`` for a model without a scheme), ``labels`` (the interpreter's
+    column, which relabel fills), ``tracts`` (the model's tract codes, comma-separated,
+    which relabel accepts; left out where none are given), ``beds`` (rows), and digests
+    of ``decoded_tract`` and ``note`` as written."""
+    record = {
         "model": str(model) if model else "none",
         "scheme": str(scheme) if scheme else "none",
         "labels": labels or "tract",
-        "beds": str(len(table)),
-        "decoded": _column_digest(table, "decoded_tract"),
-        "notes": _column_digest(table, "note"),
     }
+    if tracts:
+        record["tracts"] = ",".join(tracts)
+    record["beds"] = str(len(table))
+    record["decoded"] = _column_digest(table, "decoded_tract")
+    record["notes"] = _column_digest(table, "note")
+    return record
 
 
 def record_line(record: dict[str, str]) -> str:
@@ -229,6 +242,106 @@ def parse_record(line: str) -> dict[str, str] | None:
         if sep:
             record[key.strip()] = value.strip()
     return record
+
+
+#: Keys of every record :func:`sheet_record` writes (``tracts`` is read where present:
+#: the record of an older decode lacks it).
+RECORD_KEYS = ("model", "scheme", "labels", "beds", "decoded", "notes")
+
+
+def record_problem(record: dict[str, str]) -> str | None:
+    """What makes a record read back by :func:`parse_record` unusable (a key missing or
+    empty, a bed count that is not a number, an empty tract list), or None."""
+    missing = [key for key in RECORD_KEYS if not record.get(key)]
+    if missing:
+        return f"it lacks {', '.join(missing)}"
+    if not record["beds"].isdigit():
+        return f"its bed count {record['beds']!r} is not a number"
+    if "tracts" in record and not _record_tracts(record):
+        return "its tract list is empty"
+    return None
+
+
+def _record_tracts(record: dict[str, str]) -> tuple[str, ...]:
+    return tuple(t.strip() for t in record.get("tracts", "").split(",") if t.strip())
+
+
+@dataclass(frozen=True)
+class RelabelSettings:
+    """What ``relabel`` goes by (:func:`relabel_settings`).
+
+    Attributes
+    ----------
+    labels
+        The label column to fill.
+    tracts
+        Tract codes the sheet's ``geologist_tract`` may hold.
+    record
+        The sheet's record to check the edits with (:func:`check_edits`) and to name
+        the scheme of the next fit; None where the sheet has none, or a damaged one
+        that the options given make unnecessary.
+    damaged
+        What is wrong with a record that was set aside (None otherwise).
+    """
+
+    labels: str
+    tracts: tuple[str, ...]
+    record: dict[str, str] | None = None
+    damaged: str | None = None
+
+
+def relabel_settings(
+    record: dict[str, str] | None,
+    file: str,
+    *,
+    labels: str | None = None,
+    tracts: Sequence[str] | None = None,
+) -> RelabelSettings:
+    """The label column and tract codes of a relabel: the options given, else the
+    sheet's record (:func:`sheet_record`), else ``tract`` and the four tracts for a
+    sheet without a record (from a decode older than the record).
+
+    Parameters
+    ----------
+    record
+        The sheet's record (``read_sheet(...).attrs["record"]``), or None.
+    file
+        The sheet's name, for messages.
+    labels, tracts
+        ``--labels`` and the codes of ``--tracts``, where given; they win over the
+        record. A record of an older decode names no tracts: the four tracts then.
+
+    Returns
+    -------
+    RelabelSettings
+        The label column, the tract codes and the record to check the edits with.
+
+    Raises
+    ------
+    InputError
+        The record line is there but damaged (:func:`record_problem`) and an option
+        it would have given is not (exit code 1).
+    """
+    from faciesseq.scheme import default_tract_model
+
+    damaged = record_problem(record) if record is not None else None
+    if damaged and (labels is None or tracts is None):
+        options = (("labels", labels), ("tracts", tracts))
+        missing = " and ".join(f"--{name}" for name, value in options if value is None)
+        raise InputError(
+            f"the sheet's record line ('{RECORD_START}; ...', written by decode) is damaged: "
+            f"{damaged}; restore it as decode wrote it, or give {missing}",
+            file=file,
+        )
+    if damaged:
+        record = None
+    recorded = record or {}
+    return RelabelSettings(
+        labels=labels or recorded.get("labels") or "tract",
+        tracts=tuple(tracts or _record_tracts(recorded) or default_tract_model().codes),
+        record=record,
+        damaged=damaged,
+    )
 
 
 def write_sheet(
@@ -259,7 +372,7 @@ def write_sheet(
         The files written.
     """
     table = rounded(sheet_table(interp, labels))
-    line = record_line(sheet_record(table, model, scheme, labels))
+    line = record_line(sheet_record(table, model, scheme, labels, tuple(interp.tracts)))
     folder = Path(folder)
     written = [folder / f"{SHEET_NAME}.csv"]
     with written[0].open("w", newline="", encoding="utf-8") as handle:
