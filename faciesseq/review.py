@@ -21,7 +21,9 @@ The sheet carries a *record* of what decode wrote (:func:`sheet_record`: the mod
 and scheme files, a digest of the decoded column and of the notes), as a first
 ``# `` line of the CSV and a line of the XLSX's read-me worksheet: ``relabel``
 refuses a sheet whose decoded column was edited instead of ``geologist_tract``
-(:func:`check_edits`), and its next ``fit`` command names the scheme.
+(:func:`check_edits`), takes the label column and tract codes the record names where
+its options are not given (:func:`relabel_settings`), and its next ``fit`` command
+names the scheme.
 
 Depths in the sheet are those of the decoded core set (its units, positive
 downward); rows are in depth order within each core.
@@ -46,10 +48,12 @@ __all__ = [
     "GEOLOGIST",
     "LABEL_SOURCE",
     "RelabelResult",
+    "RelabelSettings",
     "check_edits",
     "label_source_counts",
     "read_sheet",
     "relabel",
+    "relabel_settings",
     "sheet_record",
     "sheet_table",
     "write_sheet",
@@ -197,20 +201,29 @@ def _column_digest(table: pd.DataFrame, column: str) -> str:
 
 
 def sheet_record(
-    table: pd.DataFrame, model: str | None = None, scheme: str | None = None, labels="tract"
+    table: pd.DataFrame,
+    model: str | None = None,
+    scheme: str | None = None,
+    labels="tract",
+    tracts: Sequence[str] = (),
 ) -> dict[str, str]:
-    """What decode wrote into a sheet, for ``relabel`` to check the sheet and say the
-    next fit: ``model`` and ``scheme`` (absolute paths of the files decode read,
-    ``none`` for a model without a scheme), ``labels`` (the interpreter's column),
-    ``beds`` (rows), and digests of ``decoded_tract`` and ``note`` as written."""
-    return {
+    """What decode wrote into a sheet, for ``relabel`` to check the sheet, default its
+    options and say the next fit: ``model`` and ``scheme`` (absolute paths of the files
+    decode read, ``none`` for a model without a scheme), ``labels`` (the interpreter's
+    column, which relabel fills), ``tracts`` (the model's tract codes, comma-separated,
+    which relabel accepts; left out where none are given), ``beds`` (rows), and digests
+    of ``decoded_tract`` and ``note`` as written."""
+    record = {
         "model": str(model) if model else "none",
         "scheme": str(scheme) if scheme else "none",
         "labels": labels or "tract",
-        "beds": str(len(table)),
-        "decoded": _column_digest(table, "decoded_tract"),
-        "notes": _column_digest(table, "note"),
     }
+    if tracts:
+        record["tracts"] = ",".join(tracts)
+    record["beds"] = str(len(table))
+    record["decoded"] = _column_digest(table, "decoded_tract")
+    record["notes"] = _column_digest(table, "note")
+    return record
 
 
 def record_line(record: dict[str, str]) -> str:
@@ -229,6 +242,106 @@ def parse_record(line: str) -> dict[str, str] | None:
         if sep:
             record[key.strip()] = value.strip()
     return record
+
+
+#: Keys of every record :func:`sheet_record` writes (``tracts`` is read where present:
+#: the record of an older decode lacks it).
+RECORD_KEYS = ("model", "scheme", "labels", "beds", "decoded", "notes")
+
+
+def record_problem(record: dict[str, str]) -> str | None:
+    """What makes a record read back by :func:`parse_record` unusable (a key missing or
+    empty, a bed count that is not a number, an empty tract list), or None."""
+    missing = [key for key in RECORD_KEYS if not record.get(key)]
+    if missing:
+        return f"it lacks {', '.join(missing)}"
+    if not record["beds"].isdigit():
+        return f"its bed count {record['beds']!r} is not a number"
+    if "tracts" in record and not _record_tracts(record):
+        return "its tract list is empty"
+    return None
+
+
+def _record_tracts(record: dict[str, str]) -> tuple[str, ...]:
+    return tuple(t.strip() for t in record.get("tracts", "").split(",") if t.strip())
+
+
+@dataclass(frozen=True)
+class RelabelSettings:
+    """What ``relabel`` goes by (:func:`relabel_settings`).
+
+    Attributes
+    ----------
+    labels
+        The label column to fill.
+    tracts
+        Tract codes the sheet's ``geologist_tract`` may hold.
+    record
+        The sheet's record to check the edits with (:func:`check_edits`) and to name
+        the scheme of the next fit; None where the sheet has none, or a damaged one
+        that the options given make unnecessary.
+    damaged
+        What is wrong with a record that was set aside (None otherwise).
+    """
+
+    labels: str
+    tracts: tuple[str, ...]
+    record: dict[str, str] | None = None
+    damaged: str | None = None
+
+
+def relabel_settings(
+    record: dict[str, str] | None,
+    file: str,
+    *,
+    labels: str | None = None,
+    tracts: Sequence[str] | None = None,
+) -> RelabelSettings:
+    """The label column and tract codes of a relabel: the options given, else the
+    sheet's record (:func:`sheet_record`), else ``tract`` and the four tracts for a
+    sheet without a record (from a decode older than the record).
+
+    Parameters
+    ----------
+    record
+        The sheet's record (``read_sheet(...).attrs["record"]``), or None.
+    file
+        The sheet's name, for messages.
+    labels, tracts
+        ``--labels`` and the codes of ``--tracts``, where given; they win over the
+        record. A record of an older decode names no tracts: the four tracts then.
+
+    Returns
+    -------
+    RelabelSettings
+        The label column, the tract codes and the record to check the edits with.
+
+    Raises
+    ------
+    InputError
+        The record line is there but damaged (:func:`record_problem`) and an option
+        it would have given is not (exit code 1).
+    """
+    from faciesseq.scheme import default_tract_model
+
+    damaged = record_problem(record) if record is not None else None
+    if damaged and (labels is None or tracts is None):
+        options = (("labels", labels), ("tracts", tracts))
+        missing = " and ".join(f"--{name}" for name, value in options if value is None)
+        raise InputError(
+            f"the sheet's record line ('{RECORD_START}; ...', written by decode) is damaged: "
+            f"{damaged}; restore it as decode wrote it, or give {missing}",
+            file=file,
+        )
+    if damaged:
+        record = None
+    recorded = record or {}
+    return RelabelSettings(
+        labels=labels or recorded.get("labels") or "tract",
+        tracts=tuple(tracts or _record_tracts(recorded) or default_tract_model().codes),
+        record=record,
+        damaged=damaged,
+    )
 
 
 def write_sheet(
@@ -259,7 +372,7 @@ def write_sheet(
         The files written.
     """
     table = rounded(sheet_table(interp, labels))
-    line = record_line(sheet_record(table, model, scheme, labels))
+    line = record_line(sheet_record(table, model, scheme, labels, tuple(interp.tracts)))
     folder = Path(folder)
     written = [folder / f"{SHEET_NAME}.csv"]
     with written[0].open("w", newline="", encoding="utf-8") as handle:
@@ -549,31 +662,70 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
         interval different tracts; the message names the sheet, row, core and
         depth.
     """
-    from faciesseq.core import Core, CoreSet
+    from faciesseq.core import CoreSet
 
     known = _canonical_tracts(tracts)
-    units = cores.units
-    matched: dict[str, list[tuple[np.ndarray, str, int]]] = {}
-    noted: dict[str, list[tuple[np.ndarray, str]]] = {}
-    for rec in sheet.itertuples(index=False):
-        core, top, base, row = rec.core, float(rec.top), float(rec.base), int(rec.row)
-        where = {"file": file, "row": row, "core": core or None, "depth": top, "units": units}
-        if core not in cores.cores:
-            raise InputError("core is not in SOURCE; was the sheet decoded from it?", **where)
-        table = cores[core].intervals
-        t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
-        tol = TOLERANCE * max(1.0, abs(top), abs(base))
-        inside = np.flatnonzero((t >= top - tol) & (b <= base + tol))
-        if not len(inside) or abs(t[inside].min() - top) > tol or abs(b[inside].max() - base) > tol:
-            raise InputError(
-                f"the bed {top:g}-{base:g} {units} matches no interval of SOURCE (its top and "
-                "base must be an interval's top and base); was the sheet decoded from it?",
-                **where,
-            )
-        note = getattr(rec, "note", "")
+    matched, noted = _read_edits(sheet, cores, tracts, file)
+    any_notes = bool(noted)
+    relabelled = {
+        name: _relabel_core(
+            name,
+            core,
+            matched.get(name, []),
+            noted.get(name, []),
+            notes_column=any_notes,
+            labels=labels,
+            file=file,
+            units=cores.units,
+        )
+        for name, core in cores.cores.items()
+    }
+    new_cores = CoreSet(
+        {name: done.core for name, done in relabelled.items()},
+        cores.units,
+        cores.problems,
+        cores.sources,
+        cores.meta,
+    )
+    done = relabelled.values()
+    return RelabelResult(
+        cores=new_cores,
+        sheet=file,
+        labels=labels,
+        filled={name: d.filled for name, d in relabelled.items() if d.filled},
+        changed={name: d.changed for name, d in relabelled.items() if d.filled},
+        intervals_changed=sum(d.intervals_changed for d in done),
+        labelled_before=tuple(name for name, d in relabelled.items() if d.labelled_before),
+        labelled_after=tuple(name for name, d in relabelled.items() if d.labelled_after),
+        notes=sum(len(v) for v in noted.values()),
+        **_agreement(sheet, known),
+    )
+
+
+#: A sheet bed's source intervals (positions in its core's table) and its tract and
+#: data row, or its note.
+_Given = tuple[np.ndarray, str, int]
+_Noted = tuple[np.ndarray, str]
+
+
+def _read_edits(
+    sheet: pd.DataFrame, cores, tracts: Sequence[str], file: str
+) -> tuple[dict[str, list[_Given]], dict[str, list[_Noted]]]:
+    """The geologist's tracts and notes of the sheet, per core, each on the source
+    intervals of its bed (:func:`_bed_intervals`); a tract code outside the tract model
+    is an error naming the row."""
+    known = _canonical_tracts(tracts)
+    matched: dict[str, list[_Given]] = {}
+    noted: dict[str, list[_Noted]] = {}
+    for bed in sheet.itertuples(index=False):
+        core, row = bed.core, int(bed.row)
+        where = {"file": file, "row": row, "core": core or None, "depth": float(bed.top)}
+        where["units"] = cores.units
+        inside = _bed_intervals(cores, core, float(bed.top), float(bed.base), where)
+        note = getattr(bed, "note", "")
         if note:
             noted.setdefault(core, []).append((inside, note))
-        code = rec.geologist_tract
+        code = bed.geologist_tract
         if not code:
             continue
         if code.upper() not in known:
@@ -582,69 +734,114 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
                 **where,
             )
         matched.setdefault(core, []).append((inside, known[code.upper()], row))
-    agreement = _agreement(sheet, known)
-    new_cores, filled, changed, n_changed, n_notes = {}, {}, {}, 0, 0
-    before, after = [], []
-    for name, core in cores.cores.items():
-        table = core.intervals.copy()
-        old = table[labels] if labels in table.columns else pd.Series([None] * len(table))
-        old = old.astype(object).reset_index(drop=True)
-        had = _present(old)
-        origin = np.full(len(table), None, dtype=object)
-        if LABEL_SOURCE in table.columns:
-            prev = table[LABEL_SOURCE].astype(object)
-            origin[had] = np.where(_present(prev)[had], prev.to_numpy(object)[had], FROM_SOURCE)
-        else:
-            origin[had] = FROM_SOURCE
-        new = old.to_numpy(object).copy()
-        given: dict[int, tuple[str, int]] = {}
-        n_filled = n_bed_changed = 0
-        for idx, code, row in matched.get(name, []):
-            n_filled += 1
-            bed_changed = False
-            for i in idx:
-                if i in given and given[i][0] != code:
-                    raise InputError(
-                        f"this bed gives {code} to an interval that the sheet's data row "
-                        f"{given[i][1]} gives {given[i][0]}",
-                        file=file,
-                        row=row,
-                        core=name,
-                        depth=float(table["top"].iat[i]),
-                        units=units,
-                    )
-                given[i] = (code, row)
-                if not had[i] or str(old.iat[i]).strip() != code:
-                    bed_changed = True
-                    n_changed += 1
-                new[i] = code
-                origin[i] = file
-            n_bed_changed += bed_changed
-        if n_filled:
-            filled[name], changed[name] = n_filled, n_bed_changed
-        if had.any():
-            before.append(name)
-        if _present(pd.Series(new)).any():
-            after.append(name)
-        table[labels] = new
-        table[LABEL_SOURCE] = origin
-        if noted or REVIEW_NOTE in table.columns:
-            table[REVIEW_NOTE] = _notes(table, noted.get(name, []))
-        n_notes += len(noted.get(name, []))
-        new_cores[name] = Core(name, table, core.units)
-    relabelled = CoreSet(new_cores, units, cores.problems, cores.sources, cores.meta)
-    return RelabelResult(
-        cores=relabelled,
-        sheet=file,
-        labels=labels,
-        filled=filled,
-        changed=changed,
-        intervals_changed=n_changed,
-        labelled_before=tuple(before),
-        labelled_after=tuple(after),
-        notes=n_notes,
-        **agreement,
+    return matched, noted
+
+
+def _bed_intervals(cores, core: str, top: float, base: float, where: dict) -> np.ndarray:
+    """Positions of the source intervals of one sheet bed: the run of intervals of
+    ``core`` from ``top`` to ``base`` (within :data:`TOLERANCE`)."""
+    if core not in cores.cores:
+        raise InputError("core is not in SOURCE; was the sheet decoded from it?", **where)
+    table = cores[core].intervals
+    t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
+    tol = TOLERANCE * max(1.0, abs(top), abs(base))
+    inside = np.flatnonzero((t >= top - tol) & (b <= base + tol))
+    if not len(inside) or abs(t[inside].min() - top) > tol or abs(b[inside].max() - base) > tol:
+        raise InputError(
+            f"the bed {top:g}-{base:g} {cores.units} matches no interval of SOURCE (its top "
+            "and base must be an interval's top and base); was the sheet decoded from it?",
+            **where,
+        )
+    return inside
+
+
+@dataclass(frozen=True)
+class _CoreRelabelled:
+    """One core after :func:`_relabel_core`, with its counts for :class:`RelabelResult`."""
+
+    core: object
+    filled: int
+    changed: int
+    intervals_changed: int
+    labelled_before: bool
+    labelled_after: bool
+
+
+def _relabel_core(
+    name: str,
+    core,
+    given: list[_Given],
+    noted: list[_Noted],
+    *,
+    notes_column: bool,
+    labels: str,
+    file: str,
+    units: str,
+) -> _CoreRelabelled:
+    """One source core with the geologist's tracts on its intervals, ``label_source``
+    saying where each label came from, and ``review_note`` (where the sheet has a
+    note, or the table had the column)."""
+    from faciesseq.core import Core
+
+    table = core.intervals.copy()
+    old = table[labels] if labels in table.columns else pd.Series([None] * len(table))
+    old = old.astype(object).reset_index(drop=True)
+    had = _present(old)
+    origin = _source_origins(table, had)
+    _check_one_tract_per_interval(name, table, given, file=file, units=units)
+    old_text = np.array([str(v).strip() for v in old], dtype=object)
+    new = old.to_numpy(object).copy()
+    n_changed_beds = n_changed_intervals = 0
+    for inside, code, _ in given:
+        changed = ~had[inside] | (old_text[inside] != code)
+        n_changed_intervals += int(changed.sum())
+        n_changed_beds += bool(changed.any())
+        new[inside] = code
+        origin[inside] = file
+    table[labels] = new
+    table[LABEL_SOURCE] = origin
+    if notes_column or REVIEW_NOTE in table.columns:
+        table[REVIEW_NOTE] = _notes(table, noted)
+    return _CoreRelabelled(
+        core=Core(name, table, core.units),
+        filled=len(given),
+        changed=n_changed_beds,
+        intervals_changed=n_changed_intervals,
+        labelled_before=bool(had.any()),
+        labelled_after=bool(_present(pd.Series(new)).any()),
     )
+
+
+def _check_one_tract_per_interval(
+    name: str, table: pd.DataFrame, given: list[_Given], *, file: str, units: str
+) -> None:
+    """Refuse two sheet beds giving one interval of core ``name`` different tracts."""
+    first: dict[int, tuple[str, int]] = {}
+    for inside, code, row in given:
+        for i in inside:
+            if i in first and first[i][0] != code:
+                raise InputError(
+                    f"this bed gives {code} to an interval that the sheet's data row "
+                    f"{first[i][1]} gives {first[i][0]}",
+                    file=file,
+                    row=row,
+                    core=name,
+                    depth=float(table["top"].iat[i]),
+                    units=units,
+                )
+            first[i] = (code, row)
+
+
+def _source_origins(table: pd.DataFrame, had: np.ndarray) -> np.ndarray:
+    """``label_source`` of the labels a core had before the sheet: the table's own
+    value where it has one, else ``source``; None where there was no label."""
+    origin = np.full(len(table), None, dtype=object)
+    if LABEL_SOURCE in table.columns:
+        prev = table[LABEL_SOURCE].astype(object)
+        origin[had] = np.where(_present(prev)[had], prev.to_numpy(object)[had], FROM_SOURCE)
+    else:
+        origin[had] = FROM_SOURCE
+    return origin
 
 
 def _notes(table: pd.DataFrame, noted: list[tuple[np.ndarray, str]]) -> np.ndarray:

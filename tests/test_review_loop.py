@@ -132,6 +132,12 @@ def test_without_openpyxl_the_csv_is_written_and_one_line_names_the_extra(
     assert 'pip install "faciesseq[excel]"' in line and "sheet.csv" in line
 
 
+def test_the_record_names_the_label_column_and_the_models_tracts(work):
+    # relabel's defaults for --labels and --tracts (tests/test_review_record.py)
+    record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
+    assert "; labels: tract; tracts: HST,FSST,LST,TST; beds: 120; " in record
+
+
 def test_decode_without_the_option_writes_no_sheet(work, tmp_path):
     out = tmp_path / "d"
     assert main(["decode", str(work / "model.json"), str(work / "cores.csv"), "-o", str(out)]) == 0
@@ -331,7 +337,10 @@ def test_relabel_has_the_house_help():
     help_text = sub.choices["relabel"].format_help()
     assert "examples:" in help_text and "faciesseq relabel" in help_text
     assert "-o FILE, --output FILE" in help_text and "--force" in help_text
-    assert "(default: tract)" in help_text
+    # relabel's --labels defaults to the sheet's record, then to tract
+    assert "record names, the --labels of its decode; tract for a sheet without a record)" in (
+        " ".join(help_text.split())
+    )
 
 
 def test_with_a_json_summary_the_sheet_line_goes_to_stderr(work, tmp_path, capsys):

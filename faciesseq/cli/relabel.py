@@ -41,7 +41,9 @@ def register(subparsers) -> None:
         "shown again in the next sheet. A sheet bed that matches no source interval, a tract "
         "code not in the tract model, a sheet whose decoded_tract column was edited (write "
         "in geologist_tract) and a sheet with nothing edited are errors (exit 1, nothing "
-        "written).",
+        "written). The label column and the tract codes default to those the sheet's record "
+        "line names (its decode's --labels and the model's tracts); a damaged record line "
+        "is an error unless both options are given.",
         epilog=EXAMPLES,
     )
     parser.add_argument(
@@ -53,12 +55,16 @@ def register(subparsers) -> None:
     )
     parser.add_argument(
         "--labels",
-        default="tract",
         metavar="COLUMN",
-        help="label column of the source to fill (created where absent)",
+        help="label column of the source to fill, created where absent (default: the "
+        "column the sheet's record names, the --labels of its decode; tract for a sheet "
+        "without a record)",
     )
     parser.add_argument(
-        "--tracts", metavar="FILE", help="tract-model YAML (default: the four tracts)"
+        "--tracts",
+        metavar="FILE",
+        help="tract-model YAML whose codes geologist_tract may hold (default: the tracts "
+        "of the model the sheet's record names; the four tracts for a sheet without them)",
     )
     parser.set_defaults(func=run)
 
@@ -118,27 +124,37 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target
     from faciesseq.cli._hmm import load_tracts_option
     from faciesseq.io import write_cores
-    from faciesseq.review import check_edits, read_sheet, relabel
+    from faciesseq.review import check_edits, read_sheet, relabel, relabel_settings
     from faciesseq.scheme import default_tract_model
 
     check_target(args.output, force=args.force, folder=False, inputs=input_files(args))
-    tract_model = load_tracts_option(args.tracts) or default_tract_model()
+    tract_model = load_tracts_option(args.tracts)
     sheet = read_sheet(require_file(args.review_sheet))
+    name = Path(args.review_sheet).name
+    codes = tract_model.codes if tract_model else None
+    settings = relabel_settings(sheet.attrs.get("record"), name, labels=args.labels, tracts=codes)
+    sheet.attrs["record"] = settings.record  # a damaged one set aside checks nothing
     scheme = load_scheme_option(args.scheme)
     cores = read_source(args, scheme).require_valid()
-    name = Path(args.review_sheet).name
-    result = relabel(sheet, cores, tract_model.codes, file=name, labels=args.labels)
+    result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    record = sheet.attrs.get("record")
-    next_fit = _next_fit(args, result, record)
+    next_fit = _next_fit(args, result, settings.record)
     print("\n".join(_report(result, args.output, next_fit)))
-    if record is None:
+    if settings.record is None:
+        what = f"a damaged record ({settings.damaged})" if settings.damaged else "no record"
         print(
-            f"faciesseq relabel: {name} holds no record of its decode (a sheet of an older "
-            "decode, or its first line deleted): its decoded_tract could not be checked, and "
-            "the fit above names no scheme unless --scheme was given; give the fit the "
-            "scheme the model was fitted with",
+            f"faciesseq relabel: {name} holds {what} of its decode (a sheet of an older "
+            "decode, or its first line deleted or edited): its decoded_tract could not be "
+            "checked, and the fit above names no scheme unless --scheme was given; give the "
+            "fit the scheme the model was fitted with",
+            file=sys.stderr,
+        )
+    if args.tracts is None and settings.tracts != default_tract_model().codes:
+        print(
+            f"faciesseq relabel: the sheet's model has the tracts {', '.join(settings.tracts)} "
+            "(its record), not the four tracts: give the fit above the tract-model file the "
+            "model was fitted with (--tracts FILE)",
             file=sys.stderr,
         )
     return 0
