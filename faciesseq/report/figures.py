@@ -12,7 +12,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 import pandas as pd
-from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm
+from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm, to_rgba
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
@@ -89,71 +89,18 @@ def heatmap(
     """
     values = table.to_numpy(dtype=float)
     n_rows, n_cols = values.shape
-    finite = values[np.isfinite(values)]
     width = width or min(PAGE_WIDTH, 1.6 + 0.55 * n_cols)
     height = 1.3 + 0.42 * n_rows
+    mark = _marked_cells(marks, table)
     with figure_style():
         fig = new_figure(width, height, layout="constrained")
         ax = fig.add_subplot()
-        if diverging:
-            bound = float(np.max(np.abs(finite))) if finite.size else 1.0
-            bound = bound or 1.0
-            norm = TwoSlopeNorm(0.0, -bound, bound)
-            cmap = DIVERGING
-        else:
-            lo = float(finite.min()) if finite.size else 0.0
-            hi = float(finite.max()) if finite.size else 1.0
-            norm = None
-            cmap = SEQUENTIAL
-        masked = np.ma.masked_invalid(values)
-        image = ax.imshow(
-            masked,
-            cmap=cmap,
-            norm=norm,
-            vmin=None if diverging else lo,
-            vmax=None if diverging else (hi if hi > lo else lo + 1),
-            aspect="auto",
-        )
-        mark = (
-            marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
-            if marks is not None
-            else np.zeros_like(values, dtype=bool)
-        )
-        for i in range(n_rows):
-            for j in range(n_cols):
-                v = values[i, j]
-                if not np.isfinite(v):
-                    ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
-                    continue
-                colour = _text_colour(image.cmap(image.norm(v)))
-                text = fmt.format(v) + ("*" if mark[i, j] else "")
-                ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
-                if mark[i, j]:
-                    ax.add_patch(
-                        _cell_frame(j, i),
-                    )
-        ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
-        ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
-        ax.set_xlabel(column_title)
-        ax.set_ylabel(row_title)
-        ax.xaxis.set_label_position("top")
-        ax.xaxis.tick_top()
+        scale = _colour_scale(values, diverging)
+        image = ax.imshow(np.ma.masked_invalid(values), aspect="auto", **scale)
+        _write_cell_values(ax, image, values, mark, fmt)
+        _label_rows_and_columns(ax, table, row_title, column_title)
         if label_colours:
-            for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
-                key = next(
-                    (
-                        k
-                        for k in label_colours
-                        if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
-                    ),
-                    None,
-                )
-                if key is not None:
-                    face = label_colours[key]
-                    from matplotlib.colors import to_rgba
-
-                    tick.set_bbox({"boxstyle": "round,pad=0.2", "fc": face, "ec": "none"})
-                    tick.set_color(_text_colour(to_rgba(face)))
+            _colour_tick_labels(ax, label_colours)
         for spine in ax.spines.values():
             spine.set_visible(False)
         bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
@@ -168,6 +115,74 @@ def heatmap(
         if title:
             ax.set_title(title, parse_math=False)
     return fig
+
+
+def _colour_scale(values: np.ndarray, diverging: bool) -> dict:
+    """Colour map and limits of a heat map (``imshow`` arguments): centred at 0 on the
+    largest absolute value where ``diverging``, else from the least to the largest
+    value (a constant matrix takes a range of 1)."""
+    finite = values[np.isfinite(values)]
+    if diverging:
+        bound = float(np.max(np.abs(finite))) if finite.size else 1.0
+        bound = bound or 1.0
+        return {"cmap": DIVERGING, "norm": TwoSlopeNorm(0.0, -bound, bound)}
+    lo = float(finite.min()) if finite.size else 0.0
+    hi = float(finite.max()) if finite.size else 1.0
+    return {"cmap": SEQUENTIAL, "vmin": lo, "vmax": hi if hi > lo else lo + 1}
+
+
+def _marked_cells(marks: pd.DataFrame | None, table: pd.DataFrame) -> np.ndarray:
+    """The marked cells of ``table`` as a boolean array (none where ``marks`` is None;
+    cells ``marks`` lacks are unmarked)."""
+    if marks is None:
+        return np.zeros(table.shape, dtype=bool)
+    return marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
+
+
+def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str) -> None:
+    """Each cell's value in black or white, whichever reads on its colour; marked cells
+    get a ``*`` and a frame, blank (NaN) cells a grey dash."""
+    n_rows, n_cols = values.shape
+    for i in range(n_rows):
+        for j in range(n_cols):
+            v = values[i, j]
+            if not np.isfinite(v):
+                ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
+                continue
+            colour = _text_colour(image.cmap(image.norm(v)))
+            text = fmt.format(v) + ("*" if mark[i, j] else "")
+            ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
+            if mark[i, j]:
+                ax.add_patch(_cell_frame(j, i))
+
+
+def _label_rows_and_columns(ax, table: pd.DataFrame, row_title: str, column_title: str) -> None:
+    """Row labels on the left, column labels and the column title along the top."""
+    n_rows, n_cols = table.shape
+    ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
+    ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
+    ax.set_xlabel(column_title)
+    ax.set_ylabel(row_title)
+    ax.xaxis.set_label_position("top")
+    ax.xaxis.tick_top()
+
+
+def _colour_tick_labels(ax, label_colours: Mapping[str, str]) -> None:
+    """Draw each row and column label that ``label_colours`` names (as given, made
+    safe by :func:`plain`, or before a ``.`` suffix) on a patch of its colour."""
+    for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
+        key = next(
+            (
+                k
+                for k in label_colours
+                if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
+            ),
+            None,
+        )
+        if key is not None:
+            face = label_colours[key]
+            tick.set_bbox({"boxstyle": "round,pad=0.2", "fc": face, "ec": "none"})
+            tick.set_color(_text_colour(to_rgba(face)))
 
 
 def _cell_frame(x: float, y: float):
