@@ -410,15 +410,49 @@ def facies_relationship_diagram(
     the difference matrix (Miall 1973, "Markov chain analysis applied to an
     ancient alluvial plain succession", Sedimentology 20:347-364).
     """
+    codes = _circle_order(difference, scheme, order)
+    pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
+    values = difference.reindex(index=codes, columns=codes)
+    radius = 0.2
+    with figure_style():
+        fig = new_figure(4.6, 5.0, layout="constrained")
+        ax = fig.add_subplot()
+        ax.set_aspect("equal")
+        ax.set_axis_off()
+        n_drawn = _transition_arrows(ax, values, significant, pos, threshold, radius)
+        names = _facies_circles(ax, pos, scheme, radius)
+        ax.set_xlim(-1.4, 1.4)
+        ax.set_ylim(-1.4, 1.4)
+        _relationship_legend(ax, codes, scheme, threshold)
+        if title:
+            ax.set_title(title, parse_math=False)
+        if n_drawn == 0:
+            ax.text(0, 0, "no transition above chance", ha="center", va="center")
+        _fit_in_circles(fig, names)
+    return fig
+
+
+def _circle_order(
+    difference: pd.DataFrame, scheme: FaciesScheme | None, order: Sequence[str] | None
+) -> list[str]:
+    """The facies of ``difference`` in their order round the circle: by proximality
+    rank in ``scheme``, else ``order``, else :func:`transition_order`; facies these
+    do not place follow in the order of ``difference``."""
     codes = [str(c) for c in difference.index]
     if scheme is not None:
         known = [c for c in scheme.codes_by_rank if c in codes]
     else:
         suggested = list(order) if order is not None else transition_order(difference)
         known = [c for c in suggested if c in codes]
-    codes = known + [c for c in codes if c not in known]
-    pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
-    values = difference.reindex(index=codes, columns=codes)
+    return known + [c for c in codes if c not in known]
+
+
+def _transition_arrows(ax, values, significant, pos, threshold: float, radius: float) -> int:
+    """An arrow from facies to facies for each upward transition above ``threshold``
+    (``values``: observed - expected, rows = lower facies), as wide as the difference;
+    solid and labelled where ``significant`` (or where it is None), else dashed.
+    Returns the number of arrows drawn."""
+    codes = list(values.index)
     sig = (
         significant.reindex(index=codes, columns=codes).fillna(False)
         if significant is not None
@@ -426,88 +460,86 @@ def facies_relationship_diagram(
     )
     positive = values.to_numpy(float)
     top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
-    with figure_style():
-        fig = new_figure(4.6, 5.0, layout="constrained")
-        ax = fig.add_subplot()
-        ax.set_aspect("equal")
-        ax.set_axis_off()
-        radius = 0.2
-        n_drawn = 0
-        for a in codes:
-            for b in codes:
-                if a == b:
-                    continue
-                d = values.loc[a, b]
-                if not np.isfinite(d) or d <= threshold:
-                    continue
-                solid = bool(sig.loc[a, b]) if sig is not None else True
-                # a short arrow bows enough that the labels of A -> B and B -> A,
-                # on arcs bowing to either side, stand apart
-                chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
-                _arrow(
-                    ax,
-                    pos[a],
-                    pos[b],
-                    width=0.5 + 2.5 * d / (top or 1.0),
-                    colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=max(0.28, 0.24 / max(chord, 1e-9)),
-                    label=f"{d:.2f}" if solid else None,
-                    node_radius=radius,
-                    linestyle="-" if solid else (0, (3, 2)),
-                    gid=f"transition {a} -> {b}",
-                )
-                n_drawn += 1
-        names = []
-        for code in codes:
-            x, y = pos[code]
-            colour = facies_colour(code, scheme)
-            circle = Circle((x, y), radius, fc=colour, ec="black", lw=0.8, zorder=3)
-            ax.add_patch(circle)
-            name = ax.text(
-                x,
-                y,
-                _wrapped(code),
-                ha="center",
-                va="center",
-                fontsize=7,
-                zorder=4,
-                color=_text_colour(circle.get_facecolor()),
-                parse_math=False,
-                gid=f"facies {code}",
+    n_drawn = 0
+    for a in codes:
+        for b in codes:
+            if a == b:
+                continue
+            d = values.loc[a, b]
+            if not np.isfinite(d) or d <= threshold:
+                continue
+            solid = bool(sig.loc[a, b]) if sig is not None else True
+            # a short arrow bows enough that the labels of A -> B and B -> A,
+            # on arcs bowing to either side, stand apart
+            chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
+            _arrow(
+                ax,
+                pos[a],
+                pos[b],
+                width=0.5 + 2.5 * d / (top or 1.0),
+                colour="#1f4e8c" if solid else "#8fa3bf",
+                rad=max(0.28, 0.24 / max(chord, 1e-9)),
+                label=f"{d:.2f}" if solid else None,
+                node_radius=radius,
+                linestyle="-" if solid else (0, (3, 2)),
+                gid=f"transition {a} -> {b}",
             )
-            names.append((name, circle))
-        ax.set_xlim(-1.4, 1.4)
-        ax.set_ylim(-1.4, 1.4)
-        handles = [
-            Line2D([], [], color="#1f4e8c", lw=2, label="significant (adjusted residual)"),
-            Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
-        ]
-        if scheme is not None:
-            handles += [
-                Patch(
-                    fc=facies_colour(c, scheme),
-                    ec="black",
-                    lw=0.4,
-                    label=plain(
-                        _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
-                    ),
-                )
-                for c in codes
-            ]
-        ax.legend(
-            handles=handles,
-            loc="upper center",
-            bbox_to_anchor=(0.5, 0.0),
-            frameon=False,
-            title=f"arrows: upward transitions with observed − expected > {threshold:g}\n"
-            "(label: difference of probabilities)",
+            n_drawn += 1
+    return n_drawn
+
+
+def _facies_circles(ax, pos, scheme: FaciesScheme | None, radius: float) -> list:
+    """A circle in the facies colour at each facies' place, its code written inside;
+    returns the ``(text, circle)`` pairs for :func:`_fit_in_circles`."""
+    names = []
+    for code, (x, y) in pos.items():
+        circle = Circle(
+            (x, y), radius, fc=facies_colour(code, scheme), ec="black", lw=0.8, zorder=3
         )
-        if title:
-            ax.set_title(title, parse_math=False)
-        if n_drawn == 0:
-            ax.text(0, 0, "no transition above chance", ha="center", va="center")
-        _fit_in_circles(fig, names)
-    return fig
+        ax.add_patch(circle)
+        name = ax.text(
+            x,
+            y,
+            _wrapped(code),
+            ha="center",
+            va="center",
+            fontsize=7,
+            zorder=4,
+            color=_text_colour(circle.get_facecolor()),
+            parse_math=False,
+            gid=f"facies {code}",
+        )
+        names.append((name, circle))
+    return names
+
+
+def _relationship_legend(ax, codes: list[str], scheme: FaciesScheme | None, threshold: float):
+    """The legend under the diagram: solid and dashed arrows, and the facies named
+    where a scheme names them."""
+    handles = [
+        Line2D([], [], color="#1f4e8c", lw=2, label="significant (adjusted residual)"),
+        Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
+    ]
+    if scheme is not None:
+        handles += [
+            Patch(
+                fc=facies_colour(c, scheme),
+                ec="black",
+                lw=0.4,
+                label=plain(
+                    _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
+                ),
+            )
+            for c in codes
+        ]
+    ax.legend(
+        handles=handles,
+        loc="upper center",
+        bbox_to_anchor=(0.5, 0.0),
+        frameon=False,
+        title=f"arrows: upward transitions with observed − expected > {threshold:g}\n"
+        "(label: difference of probabilities)",
+    )
 
 
 def transition_order(difference: pd.DataFrame) -> list[str]:
