@@ -12,7 +12,7 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 import pandas as pd
-from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm
+from matplotlib.colors import LinearSegmentedColormap, TwoSlopeNorm, to_rgba
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, FancyArrowPatch, Patch
@@ -89,71 +89,18 @@ def heatmap(
     """
     values = table.to_numpy(dtype=float)
     n_rows, n_cols = values.shape
-    finite = values[np.isfinite(values)]
     width = width or min(PAGE_WIDTH, 1.6 + 0.55 * n_cols)
     height = 1.3 + 0.42 * n_rows
+    mark = _marked_cells(marks, table)
     with figure_style():
         fig = new_figure(width, height, layout="constrained")
         ax = fig.add_subplot()
-        if diverging:
-            bound = float(np.max(np.abs(finite))) if finite.size else 1.0
-            bound = bound or 1.0
-            norm = TwoSlopeNorm(0.0, -bound, bound)
-            cmap = DIVERGING
-        else:
-            lo = float(finite.min()) if finite.size else 0.0
-            hi = float(finite.max()) if finite.size else 1.0
-            norm = None
-            cmap = SEQUENTIAL
-        masked = np.ma.masked_invalid(values)
-        image = ax.imshow(
-            masked,
-            cmap=cmap,
-            norm=norm,
-            vmin=None if diverging else lo,
-            vmax=None if diverging else (hi if hi > lo else lo + 1),
-            aspect="auto",
-        )
-        mark = (
-            marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
-            if marks is not None
-            else np.zeros_like(values, dtype=bool)
-        )
-        for i in range(n_rows):
-            for j in range(n_cols):
-                v = values[i, j]
-                if not np.isfinite(v):
-                    ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
-                    continue
-                colour = _text_colour(image.cmap(image.norm(v)))
-                text = fmt.format(v) + ("*" if mark[i, j] else "")
-                ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
-                if mark[i, j]:
-                    ax.add_patch(
-                        _cell_frame(j, i),
-                    )
-        ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
-        ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
-        ax.set_xlabel(column_title)
-        ax.set_ylabel(row_title)
-        ax.xaxis.set_label_position("top")
-        ax.xaxis.tick_top()
+        scale = _colour_scale(values, diverging)
+        image = ax.imshow(np.ma.masked_invalid(values), aspect="auto", **scale)
+        _write_cell_values(ax, image, values, mark, fmt)
+        _label_rows_and_columns(ax, table, row_title, column_title)
         if label_colours:
-            for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
-                key = next(
-                    (
-                        k
-                        for k in label_colours
-                        if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
-                    ),
-                    None,
-                )
-                if key is not None:
-                    face = label_colours[key]
-                    from matplotlib.colors import to_rgba
-
-                    tick.set_bbox({"boxstyle": "round,pad=0.2", "fc": face, "ec": "none"})
-                    tick.set_color(_text_colour(to_rgba(face)))
+            _colour_tick_labels(ax, label_colours)
         for spine in ax.spines.values():
             spine.set_visible(False)
         bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
@@ -168,6 +115,74 @@ def heatmap(
         if title:
             ax.set_title(title, parse_math=False)
     return fig
+
+
+def _colour_scale(values: np.ndarray, diverging: bool) -> dict:
+    """Colour map and limits of a heat map (``imshow`` arguments): centred at 0 on the
+    largest absolute value where ``diverging``, else from the least to the largest
+    value (a constant matrix takes a range of 1)."""
+    finite = values[np.isfinite(values)]
+    if diverging:
+        bound = float(np.max(np.abs(finite))) if finite.size else 1.0
+        bound = bound or 1.0
+        return {"cmap": DIVERGING, "norm": TwoSlopeNorm(0.0, -bound, bound)}
+    lo = float(finite.min()) if finite.size else 0.0
+    hi = float(finite.max()) if finite.size else 1.0
+    return {"cmap": SEQUENTIAL, "vmin": lo, "vmax": hi if hi > lo else lo + 1}
+
+
+def _marked_cells(marks: pd.DataFrame | None, table: pd.DataFrame) -> np.ndarray:
+    """The marked cells of ``table`` as a boolean array (none where ``marks`` is None;
+    cells ``marks`` lacks are unmarked)."""
+    if marks is None:
+        return np.zeros(table.shape, dtype=bool)
+    return marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
+
+
+def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str) -> None:
+    """Each cell's value in black or white, whichever reads on its colour; marked cells
+    get a ``*`` and a frame, blank (NaN) cells a grey dash."""
+    n_rows, n_cols = values.shape
+    for i in range(n_rows):
+        for j in range(n_cols):
+            v = values[i, j]
+            if not np.isfinite(v):
+                ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
+                continue
+            colour = _text_colour(image.cmap(image.norm(v)))
+            text = fmt.format(v) + ("*" if mark[i, j] else "")
+            ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
+            if mark[i, j]:
+                ax.add_patch(_cell_frame(j, i))
+
+
+def _label_rows_and_columns(ax, table: pd.DataFrame, row_title: str, column_title: str) -> None:
+    """Row labels on the left, column labels and the column title along the top."""
+    n_rows, n_cols = table.shape
+    ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
+    ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
+    ax.set_xlabel(column_title)
+    ax.set_ylabel(row_title)
+    ax.xaxis.set_label_position("top")
+    ax.xaxis.tick_top()
+
+
+def _colour_tick_labels(ax, label_colours: Mapping[str, str]) -> None:
+    """Draw each row and column label that ``label_colours`` names (as given, made
+    safe by :func:`plain`, or before a ``.`` suffix) on a patch of its colour."""
+    for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
+        key = next(
+            (
+                k
+                for k in label_colours
+                if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
+            ),
+            None,
+        )
+        if key is not None:
+            face = label_colours[key]
+            tick.set_bbox({"boxstyle": "round,pad=0.2", "fc": face, "ec": "none"})
+            tick.set_color(_text_colour(to_rgba(face)))
 
 
 def _cell_frame(x: float, y: float):
@@ -395,15 +410,49 @@ def facies_relationship_diagram(
     the difference matrix (Miall 1973, "Markov chain analysis applied to an
     ancient alluvial plain succession", Sedimentology 20:347-364).
     """
+    codes = _circle_order(difference, scheme, order)
+    pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
+    values = difference.reindex(index=codes, columns=codes)
+    radius = 0.2
+    with figure_style():
+        fig = new_figure(4.6, 5.0, layout="constrained")
+        ax = fig.add_subplot()
+        ax.set_aspect("equal")
+        ax.set_axis_off()
+        n_drawn = _transition_arrows(ax, values, significant, pos, threshold, radius)
+        names = _facies_circles(ax, pos, scheme, radius)
+        ax.set_xlim(-1.4, 1.4)
+        ax.set_ylim(-1.4, 1.4)
+        _relationship_legend(ax, codes, scheme, threshold)
+        if title:
+            ax.set_title(title, parse_math=False)
+        if n_drawn == 0:
+            ax.text(0, 0, "no transition above chance", ha="center", va="center")
+        _fit_in_circles(fig, names)
+    return fig
+
+
+def _circle_order(
+    difference: pd.DataFrame, scheme: FaciesScheme | None, order: Sequence[str] | None
+) -> list[str]:
+    """The facies of ``difference`` in their order round the circle: by proximality
+    rank in ``scheme``, else ``order``, else :func:`transition_order`; facies these
+    do not place follow in the order of ``difference``."""
     codes = [str(c) for c in difference.index]
     if scheme is not None:
         known = [c for c in scheme.codes_by_rank if c in codes]
     else:
         suggested = list(order) if order is not None else transition_order(difference)
         known = [c for c in suggested if c in codes]
-    codes = known + [c for c in codes if c not in known]
-    pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
-    values = difference.reindex(index=codes, columns=codes)
+    return known + [c for c in codes if c not in known]
+
+
+def _transition_arrows(ax, values, significant, pos, threshold: float, radius: float) -> int:
+    """An arrow from facies to facies for each upward transition above ``threshold``
+    (``values``: observed - expected, rows = lower facies), as wide as the difference;
+    solid and labelled where ``significant`` (or where it is None), else dashed.
+    Returns the number of arrows drawn."""
+    codes = list(values.index)
     sig = (
         significant.reindex(index=codes, columns=codes).fillna(False)
         if significant is not None
@@ -411,88 +460,86 @@ def facies_relationship_diagram(
     )
     positive = values.to_numpy(float)
     top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
-    with figure_style():
-        fig = new_figure(4.6, 5.0, layout="constrained")
-        ax = fig.add_subplot()
-        ax.set_aspect("equal")
-        ax.set_axis_off()
-        radius = 0.2
-        n_drawn = 0
-        for a in codes:
-            for b in codes:
-                if a == b:
-                    continue
-                d = values.loc[a, b]
-                if not np.isfinite(d) or d <= threshold:
-                    continue
-                solid = bool(sig.loc[a, b]) if sig is not None else True
-                # a short arrow bows enough that the labels of A -> B and B -> A,
-                # on arcs bowing to either side, stand apart
-                chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
-                _arrow(
-                    ax,
-                    pos[a],
-                    pos[b],
-                    width=0.5 + 2.5 * d / (top or 1.0),
-                    colour="#1f4e8c" if solid else "#8fa3bf",
-                    rad=max(0.28, 0.24 / max(chord, 1e-9)),
-                    label=f"{d:.2f}" if solid else None,
-                    node_radius=radius,
-                    linestyle="-" if solid else (0, (3, 2)),
-                    gid=f"transition {a} -> {b}",
-                )
-                n_drawn += 1
-        names = []
-        for code in codes:
-            x, y = pos[code]
-            colour = facies_colour(code, scheme)
-            circle = Circle((x, y), radius, fc=colour, ec="black", lw=0.8, zorder=3)
-            ax.add_patch(circle)
-            name = ax.text(
-                x,
-                y,
-                _wrapped(code),
-                ha="center",
-                va="center",
-                fontsize=7,
-                zorder=4,
-                color=_text_colour(circle.get_facecolor()),
-                parse_math=False,
-                gid=f"facies {code}",
+    n_drawn = 0
+    for a in codes:
+        for b in codes:
+            if a == b:
+                continue
+            d = values.loc[a, b]
+            if not np.isfinite(d) or d <= threshold:
+                continue
+            solid = bool(sig.loc[a, b]) if sig is not None else True
+            # a short arrow bows enough that the labels of A -> B and B -> A,
+            # on arcs bowing to either side, stand apart
+            chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
+            _arrow(
+                ax,
+                pos[a],
+                pos[b],
+                width=0.5 + 2.5 * d / (top or 1.0),
+                colour="#1f4e8c" if solid else "#8fa3bf",
+                rad=max(0.28, 0.24 / max(chord, 1e-9)),
+                label=f"{d:.2f}" if solid else None,
+                node_radius=radius,
+                linestyle="-" if solid else (0, (3, 2)),
+                gid=f"transition {a} -> {b}",
             )
-            names.append((name, circle))
-        ax.set_xlim(-1.4, 1.4)
-        ax.set_ylim(-1.4, 1.4)
-        handles = [
-            Line2D([], [], color="#1f4e8c", lw=2, label="significant (adjusted residual)"),
-            Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
-        ]
-        if scheme is not None:
-            handles += [
-                Patch(
-                    fc=facies_colour(c, scheme),
-                    ec="black",
-                    lw=0.4,
-                    label=plain(
-                        _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
-                    ),
-                )
-                for c in codes
-            ]
-        ax.legend(
-            handles=handles,
-            loc="upper center",
-            bbox_to_anchor=(0.5, 0.0),
-            frameon=False,
-            title=f"arrows: upward transitions with observed − expected > {threshold:g}\n"
-            "(label: difference of probabilities)",
+            n_drawn += 1
+    return n_drawn
+
+
+def _facies_circles(ax, pos, scheme: FaciesScheme | None, radius: float) -> list:
+    """A circle in the facies colour at each facies' place, its code written inside;
+    returns the ``(text, circle)`` pairs for :func:`_fit_in_circles`."""
+    names = []
+    for code, (x, y) in pos.items():
+        circle = Circle(
+            (x, y), radius, fc=facies_colour(code, scheme), ec="black", lw=0.8, zorder=3
         )
-        if title:
-            ax.set_title(title, parse_math=False)
-        if n_drawn == 0:
-            ax.text(0, 0, "no transition above chance", ha="center", va="center")
-        _fit_in_circles(fig, names)
-    return fig
+        ax.add_patch(circle)
+        name = ax.text(
+            x,
+            y,
+            _wrapped(code),
+            ha="center",
+            va="center",
+            fontsize=7,
+            zorder=4,
+            color=_text_colour(circle.get_facecolor()),
+            parse_math=False,
+            gid=f"facies {code}",
+        )
+        names.append((name, circle))
+    return names
+
+
+def _relationship_legend(ax, codes: list[str], scheme: FaciesScheme | None, threshold: float):
+    """The legend under the diagram: solid and dashed arrows, and the facies named
+    where a scheme names them."""
+    handles = [
+        Line2D([], [], color="#1f4e8c", lw=2, label="significant (adjusted residual)"),
+        Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
+    ]
+    if scheme is not None:
+        handles += [
+            Patch(
+                fc=facies_colour(c, scheme),
+                ec="black",
+                lw=0.4,
+                label=plain(
+                    _legend_label(c, facies_name(c, scheme[c].name) if c in scheme else "", 44)
+                ),
+            )
+            for c in codes
+        ]
+    ax.legend(
+        handles=handles,
+        loc="upper center",
+        bbox_to_anchor=(0.5, 0.0),
+        frameon=False,
+        title=f"arrows: upward transitions with observed − expected > {threshold:g}\n"
+        "(label: difference of probabilities)",
+    )
 
 
 def transition_order(difference: pd.DataFrame) -> list[str]:

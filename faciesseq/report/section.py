@@ -11,10 +11,13 @@ from __future__ import annotations
 
 import itertools
 import os
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from matplotlib.lines import Line2D
+from matplotlib.patches import Patch, Polygon, Rectangle
 
 from faciesseq.report.style import (
     PAGE_WIDTH,
@@ -274,22 +277,69 @@ def section_plot(
     tract_order
         Tract codes in the tract model's order (legend, extra colours).
     """
-    from matplotlib.lines import Line2D
-    from matplotlib.patches import Patch, Polygon, Rectangle
-
-    wells = correlation.wells[correlation.wells["section"] == section]
+    wells, ylabel = _section_wells(correlation, section, tracts, datum)
     ties = correlation.ties[correlation.ties["section"] == section]
-    shift, ylabel = datum_shifts(correlation, section, datum)
-    pos = dict(zip(wells["core"], wells["position"]))
-    names = list(wells["core"])
-    span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
-    width = span / max(len(names), 1) * 0.22
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
     fig = new_figure(PAGE_WIDTH, 5.2)
     ax = fig.add_axes((0.09, 0.2, 0.7, 0.72))
-    columns = {c: tracts[tracts["core"] == c] for c in names}
-    for left, right, (ta, ba, tb, bb), code in tract_bands(ties, columns, names):
-        x0, x1 = pos[left] + width / 2, pos[right] - width / 2
+    _tract_fills(ax, wells, ties, order)
+    _tie_lines(ax, wells, ties)
+    _tract_columns(ax, wells, order)
+    top = min(wells.columns[c]["top"].min() - wells.shift[c] for c in wells.names)
+    base = max(wells.columns[c]["base"].max() - wells.shift[c] for c in wells.names)
+    pad = 0.03 * (base - top)
+    ax.set_ylim(base + pad, top - 3 * pad)
+    ax.set_xlim(
+        min(wells.position.values()) - wells.width, max(wells.position.values()) + wells.width
+    )
+    _well_names(ax, wells, pad)
+    _surface_labels(ax, correlation, section, wells.shift, wells.width, 0.025 * (base - top))
+    if datum != "depth":
+        ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":")
+    ax.set_xlabel(distance_label(position_label))
+    ax.set_ylabel(f"{ylabel} ({units})")
+    ax.set_title(section_title(section, datum), parse_math=False)
+    _section_legend(ax, ties, order)
+    fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
+    return fig
+
+
+@dataclass(frozen=True)
+class _Wells:
+    """The wells of one section as drawn: names in section order, position along the
+    section, the datum's depth in each (subtracted from its depths), the tract column
+    of each and the width of a column (units of the position)."""
+
+    names: list[str]
+    position: dict[str, float]
+    shift: dict[str, float]
+    columns: dict[str, pd.DataFrame]
+    width: float
+
+
+def _section_wells(correlation, section: str, tracts: pd.DataFrame, datum: str):
+    """The :class:`_Wells` of ``section`` hung on ``datum``, and the depth axis' label
+    (:func:`datum_shifts`); a column is 0.22 of the section's length per well wide."""
+    wells = correlation.wells[correlation.wells["section"] == section]
+    shift, ylabel = datum_shifts(correlation, section, datum)
+    names = list(wells["core"])
+    span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
+    drawn = _Wells(
+        names=names,
+        position=dict(zip(wells["core"], wells["position"])),
+        shift=shift,
+        columns={c: tracts[tracts["core"] == c] for c in names},
+        width=span / max(len(names), 1) * 0.22,
+    )
+    return drawn, ylabel
+
+
+def _tract_fills(ax, wells: _Wells, ties: pd.DataFrame, order) -> None:
+    """Each tract's interval shaded to the same tract's interval in the next well
+    (:func:`tract_bands`)."""
+    shift, half = wells.shift, wells.width / 2
+    for left, right, (ta, ba, tb, bb), code in tract_bands(ties, wells.columns, wells.names):
+        x0, x1 = wells.position[left] + half, wells.position[right] - half
         corners = [
             (x0, ta - shift[left]),
             (x1, tb - shift[right]),
@@ -298,60 +348,66 @@ def section_plot(
         ]
         colour = tract_colour(code, order)
         ax.add_patch(Polygon(corners, closed=True, facecolor=colour, alpha=0.28, linewidth=0))
+
+
+def _tie_lines(ax, wells: _Wells, ties: pd.DataFrame) -> None:
+    """Each tie a line from well to well in its surface's colour, thin and dashed
+    where the tie is doubtful."""
+    pos, shift, half = wells.position, wells.shift, wells.width / 2
     for t in ties.itertuples(index=False):
         ax.plot(
-            [pos[t.core_left] + width / 2, pos[t.core_right] - width / 2],
+            [pos[t.core_left] + half, pos[t.core_right] - half],
             [t.depth_left - shift[t.core_left], t.depth_right - shift[t.core_right]],
             color=surface_colour(t.surface),
             linestyle="--" if t.doubtful else "-",
             linewidth=0.7 if t.doubtful else 1.3,
         )
-    for c in names:
-        for bed in columns[c].itertuples(index=False):
+
+
+def _tract_columns(ax, wells: _Wells, order) -> None:
+    """Each well's decoded tract column, a box per bed, framed from top to base."""
+    for c in wells.names:
+        left, col, shift = wells.position[c] - wells.width / 2, wells.columns[c], wells.shift[c]
+        for bed in col.itertuples(index=False):
             ax.add_patch(
                 Rectangle(
-                    (pos[c] - width / 2, bed.top - shift[c]),
-                    width,
+                    (left, bed.top - shift),
+                    wells.width,
                     bed.base - bed.top,
                     facecolor=tract_colour(str(bed.tract), order),
                     edgecolor="none",
                 )
             )
-        col = columns[c]
         ax.add_patch(
             Rectangle(
-                (pos[c] - width / 2, col["top"].min() - shift[c]),
-                width,
+                (left, col["top"].min() - shift),
+                wells.width,
                 col["base"].max() - col["top"].min(),
                 fill=False,
                 edgecolor="black",
                 linewidth=0.5,
             )
         )
-    top = min(columns[c]["top"].min() - shift[c] for c in names)
-    base = max(columns[c]["base"].max() - shift[c] for c in names)
-    pad = 0.03 * (base - top)
-    ax.set_ylim(base + pad, top - 3 * pad)
-    ax.set_xlim(min(pos.values()) - width, max(pos.values()) + width)
-    for c in names:
+
+
+def _well_names(ax, wells: _Wells, pad: float) -> None:
+    """Each well's name above its column, upright where there are up to ten wells."""
+    for c in wells.names:
         ax.text(
-            pos[c],
-            columns[c]["top"].min() - shift[c] - pad,
+            wells.position[c],
+            wells.columns[c]["top"].min() - wells.shift[c] - pad,
             c,
             ha="center",
             va="bottom",
             fontsize=7,
-            rotation=0 if len(names) <= 10 else 90,
+            rotation=0 if len(wells.names) <= 10 else 90,
         )
-    _surface_labels(ax, correlation, section, shift, width, 0.025 * (base - top))
-    ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":") if datum != "depth" else None
-    ax.set_xlabel(distance_label(position_label))
-    ax.set_ylabel(f"{ylabel} ({units})")
-    ax.set_title(section_title(section, datum), parse_math=False)
+
+
+def _section_legend(ax, ties: pd.DataFrame, order) -> None:
+    """The legend right of the section: tracts, the surfaces tied and a doubtful tie."""
     kinds = list(dict.fromkeys(ties["surface"]))
     handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
     handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
     handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
     ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.07, 1.0), frameon=False)
-    fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
-    return fig

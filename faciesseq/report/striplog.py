@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -213,9 +214,12 @@ def label_depths(depths: np.ndarray, gap: float) -> np.ndarray:
     return out
 
 
-def _facies_track(ax, beds, widths, measure, scheme, units, top, base) -> None:
-    """The facies column: touching cells of one facies and width drawn as one box
-    (depth-grid cells would otherwise be outlined one by one)."""
+def _facies_track(ax, beds: pd.DataFrame, scheme: FaciesScheme, units: str) -> None:
+    """The facies column, each box as wide as :func:`bed_widths` says: touching cells
+    of one facies and width drawn as one box (depth-grid cells would otherwise be
+    outlined one by one). Sets the depth range, inverted, of the shared depth axis."""
+    widths, measure = bed_widths(beds, scheme)
+    top, base = float(beds["top"].min()), float(beds["base"].max())
     span = max(base - top, 1e-9)
     boxes = _facies_boxes(beds, widths)
     _add_boxes(
@@ -244,8 +248,9 @@ def _facies_track(ax, beds, widths, measure, scheme, units, top, base) -> None:
     ax.set_ylim(base + 0.005 * span, top - 0.005 * span)  # inverted: depth downward
 
 
-def _tract_track(ax, beds, tracts, span) -> None:
+def _tract_track(ax, beds: pd.DataFrame, tracts: tuple[str, ...]) -> None:
     """The decoded tract column, each run named where it is tall enough."""
+    span = max(float(beds["base"].max()) - float(beds["top"].min()), 1e-9)
     runs = _runs(beds, "tract")
     _add_boxes(
         ax,
@@ -289,9 +294,22 @@ def _probability_track(ax, beds, tracts, checked) -> None:
     ax.set_xlabel("posterior (stacked)" + ("" if checked else f"\n{UNCHECKED_NOTE}"))
 
 
-def _surface_track(ax, interp, picks, surfaces, step, units) -> list[tuple[float, str]]:
+def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[float, str]]:
     """Surface probability curves per depth cell and the picks, each with its
     probability and interval; returns the picks' depths and colours."""
+    _surface_curves(ax, interp, step)
+    pick_lines = _surface_picks(ax, interp)
+    # room right of 1 for a pick marker and its interval's caps at probability 1
+    ax.set_xlim(0, _SURFACE_XMAX)
+    ax.set_xticks([0, 0.5, 1])
+    ax.set_title("surface probability")
+    ax.set_xlabel(f"per {step:.3g} {interp.units} cell")
+    return pick_lines
+
+
+def _surface_curves(ax, interp: CoreInterpretation, step: float) -> None:
+    """Probability of each surface per depth cell of ``step``, drawn as steps."""
+    surfaces = tuple(interp.surfaces)
     curves = interp.curves(step)
     edges_top = curves["depth"].to_numpy(float) - step / 2
     y = np.column_stack([edges_top, edges_top + step]).ravel()
@@ -300,65 +318,123 @@ def _surface_track(ax, interp, picks, surfaces, step, units) -> list[tuple[float
         colour = surface_colour(code, surfaces)
         x = np.repeat(p, 2)
         ax.fill_betweenx(y, 0, x, where=np.isfinite(x), color=colour, alpha=0.85, lw=0)
+
+
+def _surface_picks(ax, interp: CoreInterpretation) -> list[tuple[float, str]]:
+    """Each pick at its probability with its depth interval, labelled; labels moved
+    apart in depth (:func:`label_depths`). Returns the picks' depths and colours."""
+    surfaces = tuple(interp.surfaces)
+    picks = interp.picks if interp.picks is not None else pd.DataFrame()
     ordered = picks.sort_values("depth", kind="stable") if len(picks) else picks
     span = abs(ax.get_ylim()[0] - ax.get_ylim()[1]) or 1.0
     label_at = label_depths(ordered["depth"].to_numpy(float), 0.02 * span) if len(picks) else []
     pick_lines: list[tuple[float, str]] = []
     for pick, at in zip(ordered.itertuples(index=False), label_at):
         colour = surface_colour(str(pick.surface), surfaces)
-        depth, prob = float(pick.depth), float(pick.probability)
-        lo = float(getattr(pick, "depth_top", depth))
-        hi = float(getattr(pick, "depth_base", depth))
-        ax.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
-        ax.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
-        # the label stays inside the panel: right of the marker, or left of it near 1
-        right = prob <= 0.62
-        ax.text(
-            prob + 0.05 if right else prob - 0.05,
-            at,
-            f"{pick.surface} {format_probability(prob)}",
-            va="bottom",
-            ha="left" if right else "right",
-            fontsize=6,
-            color=colour,
-            parse_math=False,
-            bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
-        )
-        pick_lines.append((depth, colour))
-    # room right of 1 for a pick marker and its interval's caps at probability 1
-    ax.set_xlim(0, _SURFACE_XMAX)
-    ax.set_xticks([0, 0.5, 1])
-    ax.set_title("surface probability")
-    ax.set_xlabel(f"per {step:.3g} {units} cell")
+        _draw_pick(ax, pick, at, colour)
+        pick_lines.append((float(pick.depth), colour))
     return pick_lines
 
 
-def _legends(
-    ax, scheme, facies_order, facies_labels, gaps, tracts, tract_labels, surfaces, surface_labels
-) -> None:
-    """The three legends under the tracks: facies, systems tracts and surfaces."""
-    facies_handles = [
+def _draw_pick(ax, pick, label_at: float, colour: str) -> None:
+    """One pick: its interval as a bar at its probability, a marker at its depth and
+    ``<surface> <probability>`` written at depth ``label_at``."""
+    depth, prob = float(pick.depth), float(pick.probability)
+    lo = float(getattr(pick, "depth_top", depth))
+    hi = float(getattr(pick, "depth_base", depth))
+    ax.plot([prob, prob], [lo, hi], color=colour, lw=1.0, marker="_", ms=6)
+    ax.plot([prob], [depth], marker="<", ms=5, color=colour, mec="black", mew=0.4)
+    # the label stays inside the panel: right of the marker, or left of it near 1
+    right = prob <= 0.62
+    ax.text(
+        prob + 0.05 if right else prob - 0.05,
+        label_at,
+        f"{pick.surface} {format_probability(prob)}",
+        va="bottom",
+        ha="left" if right else "right",
+        fontsize=6,
+        color=colour,
+        parse_math=False,
+        bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none", "alpha": 0.8},
+    )
+
+
+@dataclass(frozen=True)
+class _LegendEntries:
+    """Codes and labels of the three legends under the tracks, in legend order."""
+
+    facies: list[str]
+    facies_labels: list[str]
+    tracts: tuple[str, ...]
+    tract_labels: list[str]
+    surfaces: tuple[str, ...]
+    surface_labels: list[str]
+
+
+def _legend_entries(
+    interp: CoreInterpretation, scheme: FaciesScheme, tract_model: TractModel | None
+) -> _LegendEntries:
+    """The facies of the core in scheme order (then those the scheme lacks), its
+    tracts and surfaces, each labelled with its code and whole name."""
+    tracts, surfaces = tuple(interp.tracts), tuple(interp.surfaces)
+    facies_present = list(dict.fromkeys(interp.beds["facies"].astype(str)))
+    facies_order = [c for c in scheme.codes_by_rank if c in facies_present] + [
+        c for c in facies_present if c not in scheme
+    ]
+    facies_labels = [
+        _legend_label(c, facies_name(c, scheme[c].name), 30)
+        if c in scheme
+        else f"{c}  (not in scheme)"
+        for c in facies_order
+    ]
+    tract_names = {t.code: t.name for t in tract_model.tracts} if tract_model else {}
+    tract_labels = [
+        _legend_label(t, tract_names.get(t, "").removesuffix(" systems tract"), 18) for t in tracts
+    ]
+    surface_names: dict[str, str] = {}
+    for sf in tract_model.surfaces if tract_model else ():
+        surface_names.setdefault(sf.code, sf.name)
+    surface_labels = [_legend_label(sf, surface_names.get(sf, ""), 22) for sf in surfaces]
+    return _LegendEntries(
+        facies_order, facies_labels, tracts, tract_labels, surfaces, surface_labels
+    )
+
+
+def _legend_height(entries: _LegendEntries, gaps: list) -> float:
+    """Height (inches) of the legend row: room for the longest of the three legends."""
+    n_legend = max(
+        _rows(entries.facies_labels) + bool(gaps),
+        _rows(entries.tract_labels) + 1,
+        _rows(entries.surface_labels) + 2,
+    )
+    return 0.35 + 0.14 * n_legend
+
+
+def _facies_handles(scheme: FaciesScheme, entries: _LegendEntries, gaps: list) -> list:
+    """Legend boxes of the core's facies, and of the gaps where the core has any."""
+    handles = [
         Patch(
             facecolor=_facies_colour(scheme, c),
             edgecolor="#333333",
             lw=0.3,
             label=plain(label),
         )
-        for c, label in zip(facies_order, facies_labels)
+        for c, label in zip(entries.facies, entries.facies_labels)
     ]
     if gaps:
-        facies_handles.append(
+        handles.append(
             Patch(facecolor=_GAP, hatch="xx", edgecolor="#9a9a9a", label="gap (not described)")
         )
-    tract_handles = [
-        Patch(color=tract_colour(t, tracts), label=plain(label))
-        for t, label in zip(tracts, tract_labels)
+    return handles
+
+
+def _surface_handles(entries: _LegendEntries) -> list:
+    """Legend lines of the surfaces, and the pick marker."""
+    handles = [
+        Line2D([], [], color=surface_colour(sf, entries.surfaces), label=plain(label))
+        for sf, label in zip(entries.surfaces, entries.surface_labels)
     ]
-    surface_handles = [
-        Line2D([], [], color=surface_colour(sf, surfaces), label=plain(label))
-        for sf, label in zip(surfaces, surface_labels)
-    ]
-    surface_handles.append(
+    handles.append(
         Line2D(
             [],
             [],
@@ -370,15 +446,24 @@ def _legends(
             label="pick: probability, interval",
         )
     )
+    return handles
+
+
+def _legends(ax, scheme: FaciesScheme, entries: _LegendEntries, gaps: list) -> None:
+    """The three legends under the tracks: facies, systems tracts and surfaces."""
+    tract_handles = [
+        Patch(color=tract_colour(t, entries.tracts), label=plain(label))
+        for t, label in zip(entries.tracts, entries.tract_labels)
+    ]
     kw = {"frameon": False, "borderaxespad": 0.0, "handlelength": 1.4}
     columns = (
         (
-            facies_handles,
+            _facies_handles(scheme, entries, gaps),
             "facies" if scheme.name == NO_SCHEME else "facies (landward → basinward)",
             0.0,
         ),
         (tract_handles, "systems tract", 0.43),
-        (surface_handles, "surface", 0.71),
+        (_surface_handles(entries), "surface", 0.71),
     )
     for k, (handles, title, x) in enumerate(columns):
         legend = ax.legend(
@@ -386,6 +471,45 @@ def _legends(
         )
         if k < len(columns) - 1:  # each new legend replaces the axes' own: keep the others
             ax.add_artist(legend)
+
+
+def _track_axes(fig: Figure, rects: list) -> tuple[tuple, object]:
+    """The four tracks on one depth axis (facies, tract, tract probability, surface
+    probability), and the axes of the legend row, blank."""
+    facies_ax = fig.add_axes(rects[0])
+    tracks = (facies_ax, *(fig.add_axes(rect, sharey=facies_ax) for rect in rects[1:4]))
+    legend_ax = fig.add_axes(rects[4])
+    legend_ax.set_axis_off()
+    return tracks, legend_ax
+
+
+def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool) -> None:
+    """Draw the four tracks: gaps hatched across all, picks dashed across the facies
+    and tract columns, depth labels on the facies column only."""
+    facies_ax, tract_ax, probability_ax, surface_ax = tracks
+    beds, tracts = interp.beds, tuple(interp.tracts)
+    for g_top, g_base in gaps:
+        for ax in tracks:
+            ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
+    _facies_track(facies_ax, beds, scheme, interp.units)
+    _tract_track(tract_ax, beds, tracts)
+    _probability_track(probability_ax, beds, tracts, checked)
+    pick_lines = _surface_track(surface_ax, interp, step)
+    for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
+        ax.hlines(
+            [d for d, _ in pick_lines],
+            0,
+            1,
+            transform=ax.get_yaxis_transform(),
+            colors=[c for _, c in pick_lines],
+            linewidths=0.7,
+            linestyles="--",
+        )
+    for ax in tracks[1:]:
+        ax.tick_params(labelleft=False)
+    for ax in tracks:
+        ax.spines["top"].set_visible(True)
+        ax.spines["right"].set_visible(True)
 
 
 #: Name of the scheme a strip log drawn without one makes of the core's facies (no ranks).
@@ -478,85 +602,17 @@ def strip_log(
         raise InputError("no beds to draw", core=interp.core)
     scheme, tract_model = _scheme_and_tracts(interp, scheme, tract_model, model)
     top, base = float(beds["top"].min()), float(beds["base"].max())
-    span = max(base - top, 1e-9)
-    step = float(step) if step else span / 400.0
-    tracts = tuple(interp.tracts)
-    surfaces = tuple(interp.surfaces)
-    units = interp.units
-    widths, measure = bed_widths(beds, scheme)
-    picks = interp.picks if interp.picks is not None else pd.DataFrame()
+    step = float(step) if step else max(base - top, 1e-9) / 400.0
     gaps = _gaps(beds)
-
-    facies_present = list(dict.fromkeys(beds["facies"].astype(str)))
-    facies_order = [c for c in scheme.codes_by_rank if c in facies_present] + [
-        c for c in facies_present if c not in scheme
-    ]
-    facies_labels = [
-        _legend_label(c, facies_name(c, scheme[c].name), 30)
-        if c in scheme
-        else f"{c}  (not in scheme)"
-        for c in facies_order
-    ]
-    tract_names = {t.code: t.name for t in tract_model.tracts} if tract_model else {}
-    tract_labels = [
-        _legend_label(t, tract_names.get(t, "").removesuffix(" systems tract"), 18) for t in tracts
-    ]
-    surface_names: dict[str, str] = {}
-    for sf in tract_model.surfaces if tract_model else ():
-        surface_names.setdefault(sf.code, sf.name)
-    surface_labels = [_legend_label(sf, surface_names.get(sf, ""), 22) for sf in surfaces]
-    n_legend = max(
-        _rows(facies_labels) + bool(gaps), _rows(tract_labels) + 1, _rows(surface_labels) + 2
-    )
-    legend_h = 0.35 + 0.14 * n_legend
+    entries = _legend_entries(interp, scheme, tract_model)
+    legend_h = _legend_height(entries, gaps)
     # depth tick labels: the digits of the deepest depth and a decimal point
-    label_chars = len(f"{base:.0f}") + 1
-    rects = _panel_rects(PAGE_WIDTH, height, legend_h, label_chars)
-
+    rects = _panel_rects(PAGE_WIDTH, height, legend_h, len(f"{base:.0f}") + 1)
     with figure_style():
         fig = new_figure(PAGE_WIDTH, height + legend_h)
-        ax_f = fig.add_axes(rects[0])
-        ax_t = fig.add_axes(rects[1], sharey=ax_f)
-        ax_p = fig.add_axes(rects[2], sharey=ax_f)
-        ax_s = fig.add_axes(rects[3], sharey=ax_f)
-        ax_leg = fig.add_axes(rects[4])
-        ax_leg.set_axis_off()
-
-        for g_top, g_base in gaps:
-            for ax in (ax_f, ax_t, ax_p, ax_s):
-                ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
-        _facies_track(ax_f, beds, widths, measure, scheme, units, top, base)
-        _tract_track(ax_t, beds, tracts, span)
-        _probability_track(ax_p, beds, tracts, checked)
-        pick_lines = _surface_track(ax_s, interp, picks, surfaces, step, units)
-        for ax in (ax_f, ax_t):  # one collection of dashed lines across each column
-            ax.hlines(
-                [d for d, _ in pick_lines],
-                0,
-                1,
-                transform=ax.get_yaxis_transform(),
-                colors=[c for _, c in pick_lines],
-                linewidths=0.7,
-                linestyles="--",
-            )
-        for ax in (ax_t, ax_p, ax_s):
-            ax.tick_params(labelleft=False)
-        for ax in (ax_f, ax_t, ax_p, ax_s):
-            ax.spines["top"].set_visible(True)
-            ax.spines["right"].set_visible(True)
-
-        _legends(
-            ax_leg,
-            scheme,
-            facies_order,
-            facies_labels,
-            gaps,
-            tracts,
-            tract_labels,
-            surfaces,
-            surface_labels,
-        )
-
+        tracks, legend_ax = _track_axes(fig, rects)
+        _draw_tracks(tracks, interp, scheme, gaps, step, checked)
+        _legends(legend_ax, scheme, entries, gaps)
         fig.suptitle(
             title if title is not None else f"Core {interp.core}",
             y=1 - _TITLE / (height + legend_h),
