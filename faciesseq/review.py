@@ -26,7 +26,9 @@ its options are not given (:func:`relabel_settings`), and its next ``fit`` comma
 names the scheme.
 
 Depths in the sheet are those of the decoded core set (its units, positive
-downward); rows are in depth order within each core.
+downward); rows are in depth order within each core. Rows are beds (runs of
+source intervals), or the cells of a depth grid (``fit --unit grid --step``),
+which ``relabel`` puts on the intervals holding their mid-depths.
 """
 
 from __future__ import annotations
@@ -635,9 +637,13 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
 
     Every interval of a sheet bed (same core; top and base within the bed)
     takes the bed's ``geologist_tract`` where that cell is filled; elsewhere
-    the source's label is kept. A ``label_source`` column records the origin of
-    each label: ``file`` (the sheet's name) or ``source`` (an existing
-    ``label_source`` value is kept with its label). A bed's ``note`` goes on its
+    the source's label is kept. A sheet of a depth-grid model (rows of one
+    height, some not a run of intervals) is read cell by cell: each interval
+    takes the tract of the edited cells whose mid-depth lies in it, where they
+    agree and are more than half of its cells (:func:`_read_cell_edits`). A
+    ``label_source`` column records the origin of each label: ``file`` (the
+    sheet's name) or ``source`` (an existing ``label_source`` value is kept
+    with its label). A bed's ``note`` goes on its
     intervals in a ``review_note`` column (an empty note keeps the table's own),
     which the next ``decode --review-sheet`` shows in the sheet's ``note``.
 
@@ -659,8 +665,10 @@ def relabel(sheet: pd.DataFrame, cores, tracts: Sequence[str], *, file: str, lab
     InputError
         A sheet bed whose core, top and base match no run of source intervals,
         a tract code not in the tract model, or two sheet beds giving one
-        interval different tracts; the message names the sheet, row, core and
-        depth.
+        interval different tracts; on a grid, a cell whose middle lies in no
+        interval, or the edited cells of one interval giving it two tracts or
+        being half of its cells or fewer; the message names the sheet, row,
+        core and depth (on a grid, the interval's top and base).
     """
     from faciesseq.core import CoreSet
 
@@ -712,8 +720,11 @@ def _read_edits(
     sheet: pd.DataFrame, cores, tracts: Sequence[str], file: str
 ) -> tuple[dict[str, list[_Given]], dict[str, list[_Noted]]]:
     """The geologist's tracts and notes of the sheet, per core, each on the source
-    intervals of its bed (:func:`_bed_intervals`); a tract code outside the tract model
-    is an error naming the row."""
+    intervals of its bed (:func:`_bed_intervals`), or of its cell where the sheet is
+    of a depth-grid model (:func:`_cell_height`, :func:`_read_cell_edits`); a tract code
+    outside the tract model is an error naming the row."""
+    if _cell_height(sheet, cores) is not None:
+        return _read_cell_edits(sheet, cores, tracts, file)
     known = _canonical_tracts(tracts)
     matched: dict[str, list[_Given]] = {}
     noted: dict[str, list[_Noted]] = {}
@@ -725,16 +736,156 @@ def _read_edits(
         note = getattr(bed, "note", "")
         if note:
             noted.setdefault(core, []).append((inside, note))
-        code = bed.geologist_tract
-        if not code:
-            continue
-        if code.upper() not in known:
+        code = _geologist_code(bed.geologist_tract, known, tracts, where)
+        if code:
+            matched.setdefault(core, []).append((inside, code, row))
+    return matched, noted
+
+
+def _geologist_code(code: str, known: dict[str, str], tracts: Sequence[str], where: dict) -> str:
+    """A ``geologist_tract`` cell as the tract model spells it (empty for an empty cell);
+    a code outside the tract model is an error located at ``where``."""
+    if code and code.upper() not in known:
+        raise InputError(
+            f"geologist_tract {code!r} is not a tract of the tract model ({', '.join(tracts)})",
+            **where,
+        )
+    return known[code.upper()] if code else ""
+
+
+def _depth_tolerance(depths: np.ndarray) -> float:
+    """:data:`TOLERANCE`, relative below depths of one depth unit."""
+    return TOLERANCE * max(1.0, float(np.abs(depths).max(initial=0.0)))
+
+
+def _cell_height(sheet: pd.DataFrame, cores) -> float | None:
+    """The cell height of a sheet decoded with a depth-grid model (``fit --unit grid
+    --step``), or None for a sheet of beds.
+
+    The sheet's record does not say how decode cut the cores, so the rows say it: a
+    sheet is of grid cells where its rows are all one height (within
+    :data:`TOLERANCE`), do not overlap within a core, and some row's top and base are
+    not those of a run of source intervals (a sheet whose every row matches is read
+    bed by bed, which gives the same labels). A sheet of beds with an edited depth
+    is no grid, and stays the error of :func:`_bed_intervals`.
+    """
+    if not len(sheet):
+        return None
+    top, base = sheet["top"].to_numpy(float), sheet["base"].to_numpy(float)
+    height = base - top
+    step = float(np.median(height))
+    if not step > 0 or np.abs(height - step).max() > 2 * _depth_tolerance(base):
+        return None
+    for _, rows in sheet.groupby("core", sort=False):
+        t, b = np.sort(rows["top"].to_numpy(float)), np.sort(rows["base"].to_numpy(float))
+        if (t[1:] < b[:-1] - _depth_tolerance(b)).any():
+            return None
+    for bed in sheet.itertuples(index=False):
+        if bed.core not in cores.cores:
+            return None  # the error of _bed_intervals names the core
+        try:
+            _bed_intervals(cores, bed.core, float(bed.top), float(bed.base), {})
+        except InputError:
+            return step
+    return None
+
+
+def _read_cell_edits(
+    sheet: pd.DataFrame, cores, tracts: Sequence[str], file: str
+) -> tuple[dict[str, list[_Given]], dict[str, list[_Noted]]]:
+    """:func:`_read_edits` of a sheet of depth-grid cells (:func:`_cell_height`).
+
+    Each cell belongs to the source interval holding its mid-depth (the interval whose
+    facies the model read for the cell, :meth:`faciesseq.core.Core.grid`). An interval
+    takes the geologist's tract where its edited cells agree and are more than half of
+    its cells (of its thickness on the grid); edited cells giving it two tracts, or
+    half of its cells or fewer, are an error naming the interval. A cell's note goes on
+    its interval. Every edited cell is one :data:`_Given` (the filled rows are counted
+    as a sheet of beds counts its beds).
+    """
+    known = _canonical_tracts(tracts)
+    matched: dict[str, list[_Given]] = {}
+    noted: dict[str, list[_Noted]] = {}
+    for core, rows in sheet.groupby("core", sort=False):
+        rows = rows.sort_values("top", kind="stable")
+        at = _cell_intervals(cores, core, rows, file)
+        for cell, i in zip(rows.itertuples(index=False), at, strict=True):
+            note = getattr(cell, "note", "")
+            if note:
+                noted.setdefault(core, []).append((np.array([i]), note))
+        table = cores[core].intervals
+        for i in np.unique(at):
+            cells = rows[at == i]
+            where = {"file": file, "core": core, "units": cores.units}
+            where["depth"] = float(table["top"].iat[i])
+            given = []
+            for cell in cells.itertuples(index=False):
+                code = _geologist_code(
+                    cell.geologist_tract, known, tracts, {**where, "row": int(cell.row)}
+                )
+                if code:
+                    given.append((np.array([i]), code, int(cell.row)))
+            if given:
+                _check_cells_of_interval(table, i, given, len(cells), where)
+                matched.setdefault(core, []).extend(given)
+    return matched, noted
+
+
+def _cell_intervals(cores, core: str, cells: pd.DataFrame, file: str) -> np.ndarray:
+    """Position in ``core``'s source table of the interval holding each cell's mid-depth;
+    a cell whose middle lies in no interval (a gap, or beyond the core) is an error."""
+    first = {"file": file, "row": int(cells["row"].iat[0]), "core": core or None}
+    if core not in cores.cores:
+        raise InputError(
+            "core is not in SOURCE; was the sheet decoded from it?",
+            depth=float(cells["top"].iat[0]),
+            units=cores.units,
+            **first,
+        )
+    table = cores[core].intervals
+    t, b = table["top"].to_numpy(float), table["base"].to_numpy(float)
+    middle = ((cells["top"] + cells["base"]) / 2).to_numpy(float)
+    at = np.searchsorted(t, middle, side="right") - 1
+    outside = (at < 0) | (middle >= b[np.clip(at, 0, None)])
+    if outside.any():
+        k = int(np.flatnonzero(outside)[0])
+        top, base = float(cells["top"].iat[k]), float(cells["base"].iat[k])
+        raise InputError(
+            f"the middle of the cell {top:g}-{base:g} {cores.units} lies in no interval of "
+            "SOURCE; was the sheet decoded from it?",
+            file=file,
+            row=int(cells["row"].iat[k]),
+            core=core,
+            depth=top,
+            units=cores.units,
+        )
+    return at
+
+
+def _check_cells_of_interval(
+    table: pd.DataFrame, i: int, given: list[_Given], n_cells: int, where: dict
+) -> None:
+    """Refuse edited cells of one source interval that give it two tracts, or that are
+    half of its cells or fewer (the geologist's tract would be guessed for the rest)."""
+    interval = f"{table['top'].iat[i]:g}-{table['base'].iat[i]:g} {where['units']}"
+    first_code, first_row = given[0][1], given[0][2]
+    for _, code, row in given[1:]:
+        if code != first_code:
             raise InputError(
-                f"geologist_tract {code!r} is not a tract of the tract model ({', '.join(tracts)})",
+                f"the edited cells of the interval {interval} give it two tracts, "
+                f"{first_code} (data row {first_row}) and {code} (data row {row}); "
+                "give its cells one tract",
+                row=row,
                 **where,
             )
-        matched.setdefault(core, []).append((inside, known[code.upper()], row))
-    return matched, noted
+    if 2 * len(given) <= n_cells:
+        raise InputError(
+            f"the interval {interval} has {len(given)} of its {n_cells} cells given a tract "
+            f"({first_code}), not more than half: fill geologist_tract on more than half "
+            "of its cells, or on none",
+            row=first_row,
+            **where,
+        )
 
 
 def _bed_intervals(cores, core: str, top: float, base: float, where: dict) -> np.ndarray:
@@ -791,10 +942,11 @@ def _relabel_core(
     _check_one_tract_per_interval(name, table, given, file=file, units=units)
     old_text = np.array([str(v).strip() for v in old], dtype=object)
     new = old.to_numpy(object).copy()
-    n_changed_beds = n_changed_intervals = 0
+    n_changed_beds = 0
+    intervals_changed = np.zeros(len(table), dtype=bool)  # an interval may have many cells
     for inside, code, _ in given:
         changed = ~had[inside] | (old_text[inside] != code)
-        n_changed_intervals += int(changed.sum())
+        intervals_changed[inside[changed]] = True
         n_changed_beds += bool(changed.any())
         new[inside] = code
         origin[inside] = file
@@ -806,7 +958,7 @@ def _relabel_core(
         core=Core(name, table, core.units),
         filled=len(given),
         changed=n_changed_beds,
-        intervals_changed=n_changed_intervals,
+        intervals_changed=int(intervals_changed.sum()),
         labelled_before=bool(had.any()),
         labelled_after=bool(_present(pd.Series(new)).any()),
     )
@@ -852,8 +1004,13 @@ def _notes(table: pd.DataFrame, noted: list[tuple[np.ndarray, str]]) -> np.ndarr
         notes = np.array([_text(v) or None for v in table[REVIEW_NOTE]], dtype=object)
     else:
         notes = np.full(len(table), None, dtype=object)
+    texts: dict[int, list[str]] = {}  # the cells of one interval may have notes of their own
     for inside, note in noted:
-        notes[inside] = note
+        for i in inside:
+            if note not in texts.setdefault(int(i), []):
+                texts[int(i)].append(note)
+    for i, said in texts.items():
+        notes[i] = "; ".join(said)
     return notes
 
 
