@@ -20,7 +20,13 @@ import pandas as pd
 from faciesseq.core import take_text, text_column
 from faciesseq.scheme import FaciesScheme
 
-__all__ = ["PICK_COLUMNS", "CoreInterpretation", "Interpretation", "core_summary"]
+__all__ = [
+    "PICK_COLUMNS",
+    "TOPS_COLUMNS",
+    "CoreInterpretation",
+    "Interpretation",
+    "core_summary",
+]
 
 
 @dataclass(frozen=True)
@@ -32,8 +38,9 @@ class CoreInterpretation:
     core, units
         Core identifier and depth units.
     tracts
-        Tract codes in the tract model's order; ``beds`` has a ``p_<TRACT>``
-        column for each.
+        Tract codes in the tract model's order (a tuple of codes, not a table:
+        the decoded tract of every bed is the ``tract`` column of ``beds``);
+        ``beds`` has a ``p_<TRACT>`` column for each.
     surfaces
         Surface codes (e.g. ``"MFS"``); ``boundaries`` has a ``p_<SURFACE>``
         column for each.
@@ -63,6 +70,12 @@ class CoreInterpretation:
     boundaries: pd.DataFrame
     picks: pd.DataFrame
     log_likelihood: float
+
+    def __repr__(self) -> str:
+        return (
+            f"CoreInterpretation(core={self.core!r}, beds={len(self.beds)}, "
+            f"tracts={list(self.tracts)}, picks={len(self.picks)}, units={self.units!r})"
+        )
 
     def curves(self, step: float) -> pd.DataFrame:
         """Per-depth probability curves on a regular grid, for plotting.
@@ -268,6 +281,18 @@ PICK_COLUMNS = (
     "segment",
 )
 
+#: Columns of the tops table (:meth:`Interpretation.tops_table`), in order.
+TOPS_COLUMNS = (
+    "well",
+    "surface",
+    "name",
+    "depth",
+    "depth_top",
+    "depth_base",
+    "probability",
+    "units",
+)
+
 
 @dataclass(frozen=True)
 class Interpretation:
@@ -280,6 +305,10 @@ class Interpretation:
     ``log_likelihood`` and the number of ``beds``, ``boundaries`` and ``picks`` of
     each). Iterating, or ``interp[core]``, gives one :class:`CoreInterpretation`,
     made from slices of the tables when asked for.
+
+    ``tracts`` and ``surfaces`` are tuples of codes (the tract model's order);
+    the decoded tracts of the beds are the ``tract`` column of ``beds``
+    (:meth:`tracts_table`), the picked surfaces the table ``picks``.
     """
 
     tracts: tuple[str, ...]
@@ -336,7 +365,17 @@ class Interpretation:
             for name in ("beds", "boundaries", "picks")
         }
 
+    def __repr__(self) -> str:
+        return (
+            f"Interpretation(cores={len(self)} [{core_list(self.wells.index)}], "
+            f"beds={len(self.beds)}, tracts={list(self.tracts)}, picks={len(self.picks)})"
+        )
+
     def __getitem__(self, core: str) -> CoreInterpretation:
+        if not isinstance(core, str) or core not in self.wells.index:
+            raise KeyError(
+                f"no core {core!r} in this interpretation; cores: {core_list(self.wells.index)}"
+            )
         k = self.wells.index.get_loc(core)
         spans = {}
         for name, starts in self._starts.items():
@@ -386,8 +425,12 @@ class Interpretation:
         return len(self.wells)
 
     def tracts_table(self) -> pd.DataFrame:
-        """``core, top, base, facies, tract, p_<TRACT>...``, depth order within cores."""
+        """``core, top, base, facies, tract, p_<TRACT>...``, depth order within cores,
+        then ``interpreted_tract`` (an interpreter's ``tract`` column of the cores
+        decoded, as ``beds`` keeps it) where the beds have it."""
         columns = ["core", "top", "base", "facies", "tract", *[f"p_{t}" for t in self.tracts]]
+        if "interpreted_tract" in self.beds.columns:
+            columns.append("interpreted_tract")
         return self.beds[columns].reset_index(drop=True)
 
     def surfaces_table(self) -> pd.DataFrame:
@@ -440,6 +483,43 @@ class Interpretation:
         """All picks, with a ``core`` column first."""
         return self.picks.reset_index(drop=True)
 
+    def tops_table(self) -> pd.DataFrame:
+        """The picked surfaces of every well, one row per pick, depth order within wells
+        (wells in the order of ``wells``): the ``tops.csv`` that ``faciesseq decode``
+        writes.
+
+        Columns :data:`TOPS_COLUMNS`: ``well`` (the core), ``surface`` (code),
+        ``name``, ``depth`` (the pick), ``depth_top`` and ``depth_base`` (its
+        uncertainty interval), ``probability`` (of the surface at the pick) and
+        ``units`` (``m`` or ``ft``).
+        """
+        picks = self.picks
+        if not len(picks):
+            return pd.DataFrame(columns=list(TOPS_COLUMNS))
+        position = self.wells.index.get_indexer(picks["core"])
+        order = np.lexsort((picks["depth"].to_numpy(float), position))
+        return pd.DataFrame(
+            {
+                "well": take_text(picks["core"], order),
+                "surface": take_text(picks["surface"], order),
+                "name": take_text(picks["name"], order),
+                "depth": picks["depth"].to_numpy(float)[order],
+                "depth_top": picks["depth_top"].to_numpy(float)[order],
+                "depth_base": picks["depth_base"].to_numpy(float)[order],
+                "probability": picks["probability"].to_numpy(float)[order],
+                "units": take_text(self.wells["units"], position[order]),
+            }
+        )
+
+
+def core_list(names, shown: int = 5) -> str:
+    """Core names for a message: ``SF-1, SF-2, ... (and 7 more)``; ``none`` for none."""
+    names = [str(n) for n in names]
+    if not names:
+        return "none"
+    more = len(names) - shown
+    return ", ".join(names[:shown]) + (f", ... (and {more} more)" if more > 0 else "")
+
 
 def _core_first(table: pd.DataFrame) -> pd.DataFrame:
     return table[["core", *[c for c in table.columns if c != "core"]]]
@@ -465,8 +545,6 @@ class _CoreViews(Mapping):
         self._interp = interp
 
     def __getitem__(self, core: str) -> CoreInterpretation:
-        if core not in self._interp.wells.index:
-            raise KeyError(core)
         return self._interp[core]
 
     def __iter__(self) -> Iterator[str]:

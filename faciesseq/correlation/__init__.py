@@ -17,13 +17,18 @@ from faciesseq.correlation.align import (
     align_columns,
     disputed_ties,
 )
-from faciesseq.correlation.chain import Correlation, correlate
+from faciesseq.correlation.chain import Correlation, correlate, correlate_interpretation
+from faciesseq.correlation.wells import WellTable, read_wells, wells_from_frame
 
 __all__ = [
     "AlignmentOptions",
     "Correlation",
     "PickColumn",
+    "WellTable",
     "align_columns",
     "correlate",
+    "correlate_interpretation",
     "disputed_ties",
+    "read_wells",
+    "wells_from_frame",
 ]

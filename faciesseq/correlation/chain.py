@@ -13,9 +13,10 @@ section by the surface's mean fractional position), and each tie a confidence
 from __future__ import annotations
 
 import itertools
+import warnings
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -27,12 +28,16 @@ from faciesseq.correlation.align import (
     disputed_ties,
     tie_confidence,
 )
+from faciesseq.correlation.wells import WellTable, wells_from_frame
+
+if TYPE_CHECKING:
+    from faciesseq.interpretation import Interpretation
 
 #: Factor on the confidence of a tie that the second reading of its pair of wells
 #: (depths mapped by the line through the ties) does not make: one of two readings.
 DISPUTED = 0.5
 
-__all__ = ["Correlation", "correlate"]
+__all__ = ["Correlation", "correlate", "correlate_interpretation", "well_frame"]
 
 #: Columns of :meth:`Correlation.to_frame`.
 COLUMNS = (
@@ -153,8 +158,8 @@ class _Tie(NamedTuple):
 
 def correlate(
     picks: pd.DataFrame,
-    extents: Mapping[str, tuple[float, float]],
-    wells: pd.DataFrame,
+    extents: Mapping[str, tuple[float, float]] | pd.DataFrame,
+    wells: pd.DataFrame | WellTable,
     options: AlignmentOptions | None = None,
 ) -> Correlation:
     """Correlate the surface picks of the wells of each section.
@@ -165,10 +170,16 @@ def correlate(
         ``core``, ``surface``, ``depth``, ``probability``: the decoded picks
         (e.g. :meth:`faciesseq.interpretation.Interpretation.picks_table`).
     extents
-        Top and base depth of each core's decoded column.
+        Top and base depth of each core's decoded column: core -> ``(top, base)``,
+        or a table with ``top`` and ``base`` columns indexed by core (as
+        :meth:`faciesseq.core.CoreSet.extents` returns it).
     wells
-        ``core``, ``section``, ``position`` (see
-        :func:`faciesseq.correlation.wells.read_wells`); wells without an
+        A wells table as a data frame, checked as ``faciesseq correlate`` checks it
+        (:func:`faciesseq.correlation.wells.wells_from_frame`: ``core`` and
+        ``distance`` or ``x``, ``y``, optional ``section``...; its warnings are
+        issued as Python warnings), or a checked
+        :class:`~faciesseq.correlation.wells.WellTable`
+        (:func:`~faciesseq.correlation.wells.read_wells`). Wells without an
         extent are left out.
     options
         Alignment costs.
@@ -176,9 +187,14 @@ def correlate(
     Returns
     -------
     Correlation
+
+    See Also
+    --------
+    correlate_interpretation : the same from a decoded interpretation.
     """
     options = options or AlignmentOptions()
-    wells = _wells_along_sections(wells, extents)
+    extents = _extents(extents)
+    wells = _wells_along_sections(well_frame(wells), extents)
     columns = _columns(picks, extents)
     pick_rows, tie_rows = [], []
     for section, group in wells.groupby("section", sort=True):
@@ -195,6 +211,72 @@ def correlate(
         wells.reset_index(drop=True),
         options,
     )
+
+
+def correlate_interpretation(
+    interpretation: Interpretation,
+    wells: pd.DataFrame | WellTable,
+    options: AlignmentOptions | None = None,
+) -> Correlation:
+    """:func:`correlate` of the picks of a decoded interpretation
+    (:meth:`faciesseq.hmm.TractHMM.decode`), each core's extent that of its decoded
+    beds: what ``faciesseq correlate`` computes.
+
+    Examples
+    --------
+    >>> corr = correlate_interpretation(model.decode(cores), pd.read_csv("wells.csv"))
+    ... # doctest: +SKIP
+    """
+    from faciesseq.interpretation import Interpretation
+
+    if not isinstance(interpretation, Interpretation):
+        raise TypeError(
+            "correlate_interpretation needs the Interpretation that TractHMM.decode "
+            f"returns, got {type(interpretation).__name__}"
+        )
+    beds = interpretation.beds
+    spans = beds.groupby("core", sort=False).agg(top=("top", "min"), base=("base", "max"))
+    return correlate(interpretation.picks_table(), spans, wells, options)
+
+
+def _extents(extents) -> dict[str, tuple[float, float]]:
+    """Core -> (top, base), from a mapping or a table of ``top`` and ``base`` by core."""
+    if isinstance(extents, pd.DataFrame):
+        if not {"top", "base"} <= set(extents.columns):
+            raise TypeError(
+                "extents as a table needs 'top' and 'base' columns indexed by core "
+                f"(as CoreSet.extents() gives), got columns {list(extents.columns)}"
+            )
+        table = extents.set_index("core") if "core" in extents.columns else extents
+        return {
+            str(core): (float(top), float(base))
+            for core, top, base in zip(table.index, table["top"], table["base"], strict=True)
+        }
+    if not isinstance(extents, Mapping):
+        raise TypeError(
+            "extents must map each core to (top, base), or be a table of top and base "
+            f"by core (CoreSet.extents()), got {type(extents).__name__}"
+        )
+    return dict(extents)
+
+
+def well_frame(wells: pd.DataFrame | WellTable) -> pd.DataFrame:
+    """The checked frame of a wells table (``core, section, position`` ...): that of a
+    :class:`WellTable`; a data frame already so checked as it is; any other data frame
+    checked by :func:`wells_from_frame`, its warnings issued as Python warnings."""
+    if isinstance(wells, WellTable):
+        return wells.frame
+    if not isinstance(wells, pd.DataFrame):
+        raise TypeError(
+            "wells must be a wells table (a DataFrame, or the WellTable of read_wells), "
+            f"got {type(wells).__name__}"
+        )
+    if {"core", "section", "position"} <= set(wells.columns):
+        return wells
+    table = wells_from_frame(wells)
+    for problem in table.problems:
+        warnings.warn(str(problem), stacklevel=3)
+    return table.frame
 
 
 def _wells_along_sections(

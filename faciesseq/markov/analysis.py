@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -40,6 +41,7 @@ from faciesseq.markov.surrogates import (
     transition_surrogates,
 )
 from faciesseq.parallel import job_seeds, run_jobs
+from faciesseq.scheme import FaciesScheme, load_scheme
 
 __all__ = ["SCHEMA", "MarkovReport", "analyse", "analyse_batches"]
 
@@ -240,7 +242,7 @@ def _succession_groups(successions: Sequence, enc: EncodedSuccessions, by: str) 
         table = getattr(succ, "beds", None)
         if used[k] and (table is None or by not in table.columns):
             raise ConfigError(
-                f"--by {by}: no such column in the beds (columns: "
+                f"by={by!r} (--by): no such column in the beds (columns: "
                 f"{[] if table is None else list(table.columns)})"
             )
         parts.append(table[by].to_numpy(dtype=object) if used[k] else np.zeros(0, object))
@@ -407,7 +409,7 @@ def analyse(
     by: str | None = None,
     per_core: bool = False,
     alpha: float = 0.05,
-    scheme=None,
+    scheme: FaciesScheme | str | Path | None = None,
     min_coverage: float = 0.5,
     exclude_irregular: bool = True,
     n_jobs: int = 1,
@@ -443,7 +445,8 @@ def analyse(
     alpha
         Level for significant cells and the cycle type.
     scheme
-        :class:`~faciesseq.scheme.FaciesScheme` for the default ``codes``.
+        :class:`~faciesseq.scheme.FaciesScheme` for the default ``codes``, or the
+        path of its YAML file.
     min_coverage
         Screening threshold (described fraction of a core's span).
     exclude_irregular
@@ -457,6 +460,12 @@ def analyse(
     settings = _Settings(
         unit, step, max_order, surrogates, seed, by, per_core, alpha, n_jobs, scheduler
     )
+    scheme = as_scheme(scheme)
+    if isinstance(data, pd.DataFrame | str | Path) or not isinstance(data, Iterable):
+        raise TypeError(
+            f"analyse needs a CoreSet or a list of successions, got a {type(data).__name__}; "
+            "read a file or a DataFrame with faciesseq.io.read_cores or CoreSet.from_frame"
+        )
     if isinstance(data, CoreSet):
         return analyse_batches(
             [data],
@@ -473,6 +482,25 @@ def analyse(
     enc = encode(successions, codes)
     values = None if by in (None, "core") else _succession_groups(successions, enc, by)
     return _report(enc, values, False, settings, [], [])
+
+
+def as_scheme(scheme: FaciesScheme | str | Path | None) -> FaciesScheme | None:
+    """The facies scheme given, loaded if given as the path of its YAML file
+    (:func:`faciesseq.scheme.load_scheme`, as :func:`faciesseq.io.read_cores` loads it).
+
+    Raises
+    ------
+    TypeError
+        ``scheme`` is neither a scheme, a path nor ``None``.
+    """
+    if scheme is None or isinstance(scheme, FaciesScheme):
+        return scheme
+    if isinstance(scheme, str | Path):
+        return load_scheme(scheme)
+    raise TypeError(
+        "scheme must be a FaciesScheme or the path of its YAML file, "
+        f"got {type(scheme).__name__} {scheme!r:.60}"
+    )
 
 
 @dataclass(frozen=True)
@@ -492,9 +520,11 @@ class _Settings:
 
     def check(self) -> None:
         if self.unit not in ("beds", "grid"):
-            raise ConfigError(f"--unit must be 'beds' or 'grid', got {self.unit!r}")
+            raise ConfigError(f"unit must be 'beds' or 'grid' (--unit), got {self.unit!r}")
         if self.surrogates < 0:
-            raise ConfigError(f"--surrogates must be 0 or more, got {self.surrogates}")
+            raise ConfigError(f"surrogates must be 0 or more (--surrogates), got {self.surrogates}")
+        if self.max_order < 1:
+            raise ConfigError(f"max_order must be at least 1 (--max-order), got {self.max_order}")
 
 
 def analyse_batches(
@@ -514,8 +544,9 @@ def analyse_batches(
     ``options`` are the other keyword arguments of :func:`analyse`."""
     settings = settings or _Settings(**options)
     settings.check()
+    scheme = as_scheme(scheme)
     if settings.unit == "grid" and not (settings.step is not None and settings.step > 0):
-        raise ConfigError("--unit grid needs a positive --step (depth units)")
+        raise ConfigError("unit='grid' needs a positive step in depth units (--unit grid --step)")
     pool = Pool(
         settings.unit,
         settings.step,
@@ -552,8 +583,8 @@ def _report(
     warnings = list(warnings)
     if enc.m ** (max_order + 1) > 20_000_000:
         raise ConfigError(
-            f"--max-order {max_order} with {enc.m} facies needs {enc.m}^{max_order + 1} "
-            "cells per table; choose a lower order"
+            f"max_order={max_order} (--max-order) with {enc.m} facies needs "
+            f"{enc.m}^{max_order + 1} cells per table; choose a lower order"
         )
     embedded = unit == "beds"
     counts = transition_counts(enc)

@@ -129,6 +129,11 @@ def encode(successions: Sequence, codes: Sequence[str] | None = None) -> Encoded
             segments.append(int(succ.segment))
         else:
             values = np.asarray(succ)
+            if values.ndim != 1:
+                raise TypeError(
+                    f"succession {k + 1} is a {type(succ).__name__}: each succession must be "
+                    "a Succession or a sequence of facies codes, base to top"
+                )
             cores.append(f"succession {k + 1}")
             segments.append(0)
         seqs.append(values)

@@ -231,7 +231,7 @@ def order_analysis(enc: EncodedSuccessions, max_order: int = 3, *, embedded: boo
     if max_order < 1:
         from faciesseq.errors import ConfigError
 
-        raise ConfigError(f"--max-order must be at least 1, got {max_order}")
+        raise ConfigError(f"max_order must be at least 1 (--max-order), got {max_order}")
     present = np.zeros(enc.m, dtype=bool)
     present[np.unique(enc.states)] = True
     m_eff = int(present.sum())

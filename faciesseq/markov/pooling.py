@@ -44,7 +44,7 @@ def as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
     if column not in names:
         folded = {c.lower(): c for c in names}
         if column.lower() not in folded:
-            raise ConfigError(f"--by {column}: no such column (columns: {sorted(names)})")
+            raise ConfigError(f"by={column!r} (--by): no such column (columns: {sorted(names)})")
         column = folded[column.lower()]
     cores = {}
     for name, core in coreset.cores.items():
@@ -156,7 +156,8 @@ class Pool:
         """The ``by`` column of every pooled bed, successions one after another."""
         if self._missing_group is not None:
             raise ConfigError(
-                f"--by {self.by}: no such column in the beds (columns: {self._missing_group})"
+                f"by={self.by!r} (--by): no such column in the beds "
+                f"(columns: {self._missing_group})"
             )
         return _joined(self._groups, object)
 

@@ -734,7 +734,10 @@ def write_appendix(
 
     out = Path(out_dir)
     if out.exists() and not force:
-        raise ConfigError(f"{out} exists; choose another folder or pass --force to replace it")
+        raise ConfigError(
+            f"{out} exists; choose another folder, or pass force=True "
+            "(--force on the command line) to replace it"
+        )
     if out.exists() and not out.is_dir():
         raise ConfigError(f"{out} exists and is not a folder")
     out.parent.mkdir(parents=True, exist_ok=True)

@@ -26,8 +26,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL, take_text
+from faciesseq.core import DEPTH_TOL
 from faciesseq.errors import ConfigError
+from faciesseq.interpretation import TOPS_COLUMNS
 
 __all__ = [
     "LAS_NULL",
@@ -42,17 +43,6 @@ __all__ = [
     "write_las_files",
 ]
 
-#: Columns of the tops table, in order.
-TOPS_COLUMNS = (
-    "well",
-    "surface",
-    "name",
-    "depth",
-    "depth_top",
-    "depth_base",
-    "probability",
-    "units",
-)
 #: Null value of the LAS files (the value of common practice; :data:`faciesseq.io.las.LAS_NULL`).
 LAS_NULL = -999.25
 #: Most depth samples in one LAS file; a smaller ``step`` is refused before writing.
@@ -62,30 +52,10 @@ LAS_PROBABILITY_DECIMALS = 4
 
 
 def tops_table(interp) -> pd.DataFrame:
-    """The picked surfaces of every well, one row per pick, depth order within wells.
-
-    Columns :data:`TOPS_COLUMNS`: ``well`` (the core), ``surface`` (code),
-    ``name``, ``depth`` (the pick), ``depth_top`` and ``depth_base`` (its
-    uncertainty interval), ``probability`` (of the surface at the pick) and
-    ``units`` (``m`` or ``ft``).
-    """
-    picks = interp.picks
-    if not len(picks):
-        return pd.DataFrame(columns=list(TOPS_COLUMNS))
-    position = interp.wells.index.get_indexer(picks["core"])
-    order = np.lexsort((picks["depth"].to_numpy(float), position))
-    return pd.DataFrame(
-        {
-            "well": take_text(picks["core"], order),
-            "surface": take_text(picks["surface"], order),
-            "name": take_text(picks["name"], order),
-            "depth": picks["depth"].to_numpy(float)[order],
-            "depth_top": picks["depth_top"].to_numpy(float)[order],
-            "depth_base": picks["depth_base"].to_numpy(float)[order],
-            "probability": picks["probability"].to_numpy(float)[order],
-            "units": take_text(interp.wells["units"], position[order]),
-        }
-    )
+    """The picked surfaces of every well, one row per pick, depth order within wells:
+    :meth:`faciesseq.interpretation.Interpretation.tops_table` (columns
+    :data:`TOPS_COLUMNS`)."""
+    return interp.tops_table()
 
 
 def _bed_index(beds: pd.DataFrame, depth: np.ndarray) -> np.ndarray:

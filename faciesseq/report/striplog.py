@@ -21,6 +21,7 @@ from __future__ import annotations
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -29,8 +30,8 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from faciesseq.errors import InputError
-from faciesseq.interpretation import CoreInterpretation
+from faciesseq.errors import ConfigError, InputError
+from faciesseq.interpretation import CoreInterpretation, Interpretation, core_list
 from faciesseq.report.document import format_probability
 from faciesseq.report.style import (
     PAGE_WIDTH,
@@ -43,13 +44,25 @@ from faciesseq.report.style import (
 )
 from faciesseq.scheme import FaciesScheme, TractModel
 
-__all__ = ["GRAIN_CLASSES", "UNCHECKED_NOTE", "bed_widths", "facies_name", "plain", "strip_log"]
+__all__ = [
+    "FIGURE_SUFFIXES",
+    "GRAIN_CLASSES",
+    "UNCHECKED_NOTE",
+    "bed_widths",
+    "check_figure_path",
+    "facies_name",
+    "plain",
+    "strip_log",
+    "strip_logs",
+]
 
 #: Grain-size classes of the facies scheme (1 clay ... 7 gravel), abbreviated for ticks.
 GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
 #: Printed under the probability track when the probabilities were not checked.
 UNCHECKED_NOTE = "probabilities not checked"
 _GAP = "#f0f0f0"
+#: Suffixes of the figure files written (the format follows the suffix).
+FIGURE_SUFFIXES = (".png", ".pdf", ".svg")
 #: Right end of the surface panel: a pick at probability 1 keeps its marker inside.
 _SURFACE_XMAX = 1.1
 
@@ -539,7 +552,7 @@ def _scheme_and_tracts(interp, scheme, tract_model, model) -> tuple[FaciesScheme
 
 
 def strip_log(
-    interp: CoreInterpretation,
+    interp: CoreInterpretation | Interpretation,
     scheme: FaciesScheme | None = None,
     tract_model: TractModel | None = None,
     path: str | os.PathLike | None = None,
@@ -556,7 +569,9 @@ def strip_log(
     ----------
     interp
         The core's interpretation (beds, boundaries and picks in depth order),
-        e.g. ``interpretation["W-1"]`` or ``next(iter(interpretation))``.
+        e.g. ``interpretation["W-1"]`` or ``next(iter(interpretation))``, or an
+        :class:`~faciesseq.interpretation.Interpretation` of one core
+        (:func:`strip_logs` draws every core of a larger one).
     scheme
         Facies scheme: colours, names, ranks and grain sizes. Default: the
         scheme of ``model`` where it has one, else the facies of the core alone
@@ -570,7 +585,10 @@ def strip_log(
         The :class:`~faciesseq.hmm.TractHMM` that decoded the core (e.g.
         :func:`faciesseq.hmm.load_model`), read for the two defaults above.
     path
-        If given, the figure is also written there (PNG, PDF or SVG by suffix).
+        If given, the figure is also written there: ``.png``, ``.pdf`` or
+        ``.svg`` by suffix, into a folder that exists (another suffix, or a
+        missing folder, is refused with a :class:`~faciesseq.errors.ConfigError`
+        before anything is drawn).
     step
         Depth cell (core depth units) of the surface probability curves;
         default: the core's depth range / 400.
@@ -597,6 +615,9 @@ def strip_log(
     (Rabiner 1989, eq. 37, "A tutorial on hidden Markov models", Proc. IEEE
     77:257-286).
     """
+    interp = _one_core(interp)
+    if path is not None:
+        check_figure_path(path)
     beds = interp.beds
     if len(beds) == 0:
         raise InputError("no beds to draw", core=interp.core)
@@ -624,6 +645,43 @@ def strip_log(
     return fig
 
 
+def _one_core(interp) -> CoreInterpretation:
+    """The one decoded core of ``interp``; a one-line TypeError for anything else."""
+    if isinstance(interp, CoreInterpretation):
+        return interp
+    if isinstance(interp, Interpretation):
+        if len(interp) == 1:
+            return next(iter(interp))
+        raise TypeError(
+            f"strip_log draws one core; this interpretation holds {len(interp)} "
+            f"({core_list(interp.wells.index)}): pass one, e.g. interp[{interp.wells.index[0]!r}]"
+            if len(interp)
+            else "strip_log draws one core; this interpretation holds none"
+        )
+    raise TypeError(
+        "strip_log needs a decoded core (a CoreInterpretation, e.g. interp['W-1'] of the "
+        f"Interpretation that TractHMM.decode returns), got {type(interp).__name__} "
+        f"{interp!r:.60}"
+    )
+
+
+def check_figure_path(path: str | os.PathLike) -> Path:
+    """``path`` as a :class:`~pathlib.Path`, if a figure may be written there: a
+    ``.png``, ``.pdf`` or ``.svg`` file in a folder that exists (as
+    :func:`faciesseq.hmm.save_model` refuses a missing folder)."""
+    path = Path(path)
+    if path.suffix.lower() not in FIGURE_SUFFIXES:
+        found = repr(path.suffix) if path.suffix else "a name without one"
+        raise ConfigError(
+            f"a figure is written as .png, .pdf or .svg (by its suffix), not {found}",
+            file=str(path),
+        )
+    parent = path.parent if str(path.parent) else Path(".")
+    if not parent.is_dir():
+        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))
+    return path
+
+
 def strip_logs(
     interps: Sequence[CoreInterpretation],
     scheme: FaciesScheme | None = None,
@@ -632,5 +690,6 @@ def strip_logs(
     *,
     model=None,
 ) -> list[Figure]:
-    """One strip log per core interpretation, in order (defaults as :func:`strip_log`)."""
+    """One strip log per core interpretation, in order (defaults as :func:`strip_log`);
+    ``interps`` may be an :class:`~faciesseq.interpretation.Interpretation`."""
     return [strip_log(i, scheme, tract_model, checked=checked, model=model) for i in interps]
