@@ -16,8 +16,10 @@ the generator's scheme (b), with the tracts of 3 training cores with the scheme 
 and without it (d); each decodes the test cores' minimal table, scored on a 0.01 m
 grid against the true tracts: balanced accuracy (mean over the four tracts of the
 thickness recalled), decoded tract boundaries against true ones, mean probability of
-the decoded tract. Writes ``OUT/runs/<setting>/<seed>/``, ``OUT/results.csv``,
-``OUT/summary.md`` (with the summed confusion tables) and ``OUT/commands.log``.
+the decoded tract, and the balanced accuracy of TST against the other tracts
+(``half_bacc``: the transgressive and regressive halves of the cycle). Writes
+``OUT/runs/<setting>/<seed>/``, ``OUT/results.csv``, ``OUT/summary.md`` (with the summed
+confusion tables) and ``OUT/commands.log``.
 """
 
 import argparse
@@ -79,6 +81,21 @@ def changes(seq):
     return sum(1 for a, b in itertools.pairwise(seq) if a != b)
 
 
+def _half_cycles(conf):
+    """Balanced accuracy of TST against the other tracts (the transgressive and the
+    regressive halves of the cycle, ``faciesseq.scores.half_cycle_accuracy``), from
+    the confusion in metres (undecoded depth counts as wrong)."""
+    rest = [t for t in TRACTS if t != "TST"]
+    t_all = conf.loc["TST"].sum()
+    r_all = conf.loc[rest].to_numpy().sum()
+    recalls = []
+    if t_all:
+        recalls.append(conf.loc["TST", "TST"] / t_all)
+    if r_all:
+        recalls.append(conf.loc[rest, rest].to_numpy().sum() / r_all)
+    return float(np.mean(recalls)) if recalls else np.nan
+
+
 def score(truth_csv, dec_dir):
     truth = pd.read_csv(truth_csv)
     dec = pd.read_csv(os.path.join(dec_dir, "tracts.csv"), comment="#")
@@ -103,6 +120,7 @@ def score(truth_csv, dec_dir):
             conf.loc[t, "none"] += sum(1 for x in d[m] if x is None) * 0.01
     recall = {t: (hit[t] / tot[t] if tot[t] else np.nan) for t in TRACTS}
     bacc = np.nanmean(list(recall.values()))
+    half = _half_cycles(conf)
     tb = sum(changes(g.sort_values("top")["tract"].tolist()) for _, g in truth.groupby("core"))
     db = sum(changes(g.sort_values("top")["tract"].tolist()) for _, g in dec.groupby("core"))
     pcols = [f"p_{t}" for t in TRACTS]
@@ -117,6 +135,7 @@ def score(truth_csv, dec_dir):
     # bed-weighted accuracy of decoded beds (for comparison with mean p)
     return dict(
         bacc=bacc,
+        half_bacc=half,
         acc=acc,
         true_bounds=tb,
         dec_bounds=db,
@@ -219,6 +238,9 @@ def main():
         bacc=("bacc", "mean"),
         bacc_min=("bacc", "min"),
         bacc_max=("bacc", "max"),
+        half_bacc=("half_bacc", "mean"),
+        half_min=("half_bacc", "min"),
+        half_max=("half_bacc", "max"),
         dec_bounds=("dec_bounds", "sum"),
         true_bounds=("true_bounds", "sum"),
         meanp=("meanp", "mean"),

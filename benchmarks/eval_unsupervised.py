@@ -61,6 +61,7 @@ from faciesseq.scores import (  # noqa: E402
     balanced_tract_accuracy,
     boundary_ratio,
     expected_calibration_error,
+    half_cycle_accuracy,
     surface_pick_scores,
 )
 
@@ -294,6 +295,7 @@ def score(interp, intervals: pd.DataFrame, true_surfaces: pd.DataFrame) -> dict:
     p = iv["p_tract"].to_numpy(float)
     return {
         "balanced_accuracy": acc.balanced_accuracy,
+        "half_cycle_accuracy": half_cycle_accuracy(iv).balanced_accuracy,
         "accuracy": acc.accuracy,
         "recall": dict(acc.recall),
         "boundary_ratio": ratio.ratio,

@@ -9,6 +9,8 @@ counted across a gap or a core change.
 
 - :func:`balanced_tract_accuracy`: thickness-weighted recall per true tract and
   its mean (balanced accuracy);
+- :func:`half_cycle_accuracy`: the same on the transgressive / regressive halves of
+  the base-level cycle (TST against the other tracts);
 - :func:`boundary_ratio`: decoded tract boundaries per true boundary;
 - :func:`surface_pick_scores`: recall and precision of picked surfaces within a
   depth tolerance;
@@ -36,6 +38,7 @@ __all__ = [
     "boundary_f1",
     "boundary_ratio",
     "expected_calibration_error",
+    "half_cycle_accuracy",
     "half_cycle_boundaries",
     "surface_pick_scores",
 ]
@@ -158,6 +161,34 @@ def balanced_tract_accuracy(
         recall[str(tract)] = _ratio(w[sel & right].sum(), w[sel].sum())
     balanced = float(np.mean(list(recall.values()))) if recall else float("nan")
     return TractAccuracy(balanced, recall, support, _ratio(w[right].sum(), w.sum()))
+
+
+def half_cycle_accuracy(
+    beds: pd.DataFrame,
+    truth_col: str = "true_tract",
+    pred_col: str = "tract",
+    transgressive: Iterable[str] = ("TST",),
+    weight: str | None = "thickness",
+) -> TractAccuracy:
+    """Balanced accuracy of the two halves of the base-level cycle: the transgressive
+    tracts (``transgressive``) against every other tract, the regressive half.
+
+    The transgressive-regressive reading of a succession (Embry & Johannessen 1992,
+    "T-R sequence stratigraphy", in *Arctic Geology and Petroleum Potential*, NPF
+    Special Publication 2:121-146) asks less of a decoded column than the four
+    tract names: where the names of the regressive tracts are unsure, this score
+    says how far the column still tells deepening from shallowing. Arguments and
+    result as :func:`balanced_tract_accuracy`, whose recall is keyed
+    ``transgressive`` and ``regressive``.
+    """
+    _need(beds, (truth_col, pred_col), "half_cycle_accuracy")
+    rising = {str(t) for t in transgressive}
+    halves = beds.copy()
+    for col in (truth_col, pred_col):
+        known = halves[col].notna()
+        half = np.where(halves[col].astype(str).isin(rising), "transgressive", "regressive")
+        halves[col] = pd.Series(half, index=halves.index).where(known)
+    return balanced_tract_accuracy(halves, truth_col, pred_col, weight)
 
 
 # --------------------------------------------------------------- boundary ratio

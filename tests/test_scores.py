@@ -13,6 +13,7 @@ from faciesseq.scores import (
     boundary_f1,
     boundary_ratio,
     expected_calibration_error,
+    half_cycle_accuracy,
     half_cycle_boundaries,
     surface_pick_scores,
 )
@@ -49,6 +50,29 @@ def test_balanced_tract_accuracy_weighs_recall_by_thickness_and_averages_true_tr
     assert same.balanced_accuracy == pytest.approx(1.25 / 3)
     with pytest.raises(InputError, match="no column 'weight_x'"):
         balanced_tract_accuracy(beds, weight="weight_x")
+
+
+def test_half_cycle_accuracy_scores_the_transgressive_tract_against_the_rest():
+    beds = _beds(
+        [
+            ("A", 0.0, 1.0, "HST", "HST"),  # regressive read regressive, 1 m
+            ("A", 1.0, 4.0, "HST", "FSST"),  # regressive read regressive (wrong name), 3 m
+            ("A", 4.0, 6.0, "TST", "TST"),  # transgressive right, 2 m
+            ("B", 0.0, 4.0, "TST", "LST"),  # transgressive read regressive, 4 m
+            ("B", 4.0, 5.0, "LST", "TST"),  # regressive read transgressive, 1 m
+            ("B", 5.0, 6.0, None, "TST"),  # no truth: left out
+        ]
+    )
+    # transgressive: 2 of 6 m = 1/3; regressive: 4 of 5 m = 0.8; balanced (1/3 + 0.8) / 2
+    res = half_cycle_accuracy(beds)
+    assert res.recall == pytest.approx({"regressive": 0.8, "transgressive": 1 / 3})
+    assert res.balanced_accuracy == pytest.approx((1 / 3 + 0.8) / 2)
+    # the four names themselves: HST 1/4, TST 2/6, LST 0/1 -> much lower
+    assert balanced_tract_accuracy(beds).balanced_accuracy == pytest.approx((0.25 + 1 / 3) / 3)
+    # a tract model whose rising tracts are named otherwise
+    other = beds.replace({"TST": "T"})
+    same = half_cycle_accuracy(other, transgressive=("T",))
+    assert same.balanced_accuracy == pytest.approx(res.balanced_accuracy)
 
 
 def test_boundary_ratio_counts_changes_between_beds_in_contact_only():
