@@ -385,6 +385,28 @@ def _core_frame(core: str, k: int, test, ci, base_tracts, labels: str, tracts):
     return frame, beds.assign(_label=label.to_numpy())
 
 
+def _check_params(params: dict) -> None:
+    """Refuse keyword arguments of :func:`cross_validate` that are neither its own nor
+    :class:`~faciesseq.hmm.model.TractHMM` hyper-parameters, naming the right one for
+    ``seed`` (other faciesseq functions take ``seed=``; this one and the model
+    ``random_state=``)."""
+    from faciesseq.hmm.model import TractHMM
+
+    known = set(TractHMM().get_params()) - {"random_state"}
+    for name in params:
+        if name in known:
+            continue
+        if name == "seed":
+            raise TypeError(
+                "cross_validate() takes random_state=, not seed= (the seed of the deal of "
+                "cores to folds and of the model's restarts, as TractHMM(random_state=...))"
+            )
+        raise TypeError(
+            f"cross_validate() got an unexpected keyword argument {name!r}; it takes mode, "
+            f"random_state, progress and TractHMM's hyper-parameters: {', '.join(sorted(known))}"
+        )
+
+
 def cross_validate(
     successions: CoreSet | Sequence[Succession],
     labels: str,
@@ -412,15 +434,22 @@ def cross_validate(
         clamped and the rest by EM; ``"unsupervised"``: fitted on every training
         core with the labels ignored (tests identifiability).
     random_state
-        Seeds the deal of cores to folds and the model's restarts.
+        Seeds the deal of cores to folds and the model's restarts (the name
+        :class:`~faciesseq.hmm.model.TractHMM` gives its seed; ``seed=`` is refused
+        with a pointer here rather than taken as a second name for it).
     progress
         Called as ``progress(fold, folds)`` after each fold.
     **params
-        :class:`~faciesseq.hmm.model.TractHMM` hyper-parameters (``scheme``,
-        ``tract_model``, ``features``...).
+        :class:`~faciesseq.hmm.model.TractHMM` hyper-parameters (``scheme``, a
+        :class:`~faciesseq.scheme.FaciesScheme` or the path of its YAML file,
+        ``tract_model``, ``features``...); any other name is a :class:`TypeError`.
     """
+    from faciesseq.hmm.inputs import as_scheme
     from faciesseq.hmm.model import TractHMM, _as_successions, fit_unit
 
+    _check_params(params)
+    if "scheme" in params:
+        params = {**params, "scheme": as_scheme(params["scheme"])}
     if mode not in VALIDATION_MODES:
         raise ConfigError(f"mode must be one of {list(VALIDATION_MODES)}, got {mode!r}")
     unit = fit_unit(params.get("unit", "auto"), mode != "unsupervised")
@@ -432,10 +461,10 @@ def cross_validate(
         )
     cores = list(dict.fromkeys(s.core for s in succ))
     if folds < 2:
-        raise ConfigError(f"--folds must be at least 2, got {folds}")
+        raise ConfigError(f"folds must be at least 2 (--folds on the command line), got {folds}")
     if len(cores) < folds:
         fewer = (
-            f"give --folds {len(cores)}"
+            f"give folds={len(cores)} (--folds {len(cores)} on the command line)"
             if len(cores) >= 2
             else "cross-validation by core needs 2 cores or more"
         )
@@ -465,7 +494,8 @@ def cross_validate(
             if not train:
                 raise ConfigError(
                     f"fold {k + 1}: no training core carries labels in {labels!r}; use fewer "
-                    "folds or --mode semi-supervised"
+                    "folds or mode='semi-supervised' (--mode semi-supervised on the command "
+                    "line)"
                 )
         model = TractHMM(random_state=random_state, **params)
         model.fit(train, labels=None if mode == "unsupervised" else labels)

@@ -143,7 +143,7 @@ def test_files_written_a_part_at_a_time_are_those_written_at_once(
         assert (tmp_path / "parts" / name).read_bytes() == (tmp_path / "once" / name).read_bytes()
 
 
-def test_a_contact_type_the_model_never_saw_is_named_once_per_succession(database):
+def test_a_contact_type_the_model_never_saw_is_named_once_per_decode(database):
     from dataclasses import replace
 
     from faciesseq.hmm.encoding import UnseenCategoryWarning
@@ -160,7 +160,7 @@ def test_a_contact_type_the_model_never_saw_is_named_once_per_succession(databas
     depth = float(beds["top"].iloc[2])
     assert messages == [
         f"core {second.core}, depth {depth:.2f} m: contact type ['zigzag'] not seen in training "
-        "(2 bed(s)); decoded with a smoothed probability"
+        f"(2 of {len(first.beds) + len(beds)} bed(s)); decoded with a smoothed probability"
     ]
 
 

@@ -62,7 +62,8 @@ def test_frames_and_dict_are_serialisable(result):
 def test_too_many_folds_is_a_config_error_that_says_how_many_folds_the_cores_allow():
     succ = synth.cores(2, 20, seed=52)
     with pytest.raises(
-        ConfigError, match=r"need at least 3 cores; the data has 2: give --folds 2$"
+        ConfigError,
+        match=r"the data has 2: give folds=2 \(--folds 2 on the command line\)$",
     ):
         cross_validate(succ, "true_tract", folds=3, scheme=synth.scheme())
     with pytest.raises(ConfigError, match="the data has 1: cross-validation by core needs 2"):

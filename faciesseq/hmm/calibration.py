@@ -17,7 +17,8 @@ ICML) divides every log-probability of the chain by one number ``T``:
 ``T`` is the one that minimises the Brier score (Brier 1950, Monthly Weather
 Review 78:1-3) of the interpreter's tract over the labelled beds of held-out
 cores, each decoded by a model fitted without its core (K folds of labelled
-cores; unlabelled cores stay in every training set). The Brier score rather
+cores; unlabelled cores stay in every training set), kept only where it lowers
+the held-out log loss too (:func:`fit_temperature`): else ``T = 1``. The Brier score rather
 than the log-likelihood: both are proper scores and on the calibration folds
 of the simulated scenarios they choose temperatures within 0.25 of each other
 (1.9-3.4), but the log-likelihood is dominated by the few beds decoded wrong
@@ -136,12 +137,33 @@ def held_out_scores(folds: Sequence[HeldOut], temperature: float) -> dict:
 
 
 def fit_temperature(folds: Sequence[HeldOut]) -> dict:
-    """The temperature minimising the held-out Brier score.
+    """The temperature minimising the held-out Brier score, kept only where it also
+    lowers the held-out log loss.
 
     Bounded one-dimensional search on ``log T`` (scipy's ``minimize_scalar``,
-    method ``"bounded"``) within :data:`TEMPERATURE_BOUNDS`. Returns
-    ``{"temperature", "n_beds", "before", "after"}``, the last two the
-    :func:`held_out_scores` at ``T = 1`` and at the chosen ``T``.
+    method ``"bounded"``) within :data:`TEMPERATURE_BOUNDS`. The Brier score and
+    the log loss are both proper scores: a temperature that makes the model's
+    probabilities more honest lowers both. Where the Brier score's temperature
+    raises the log loss, the two disagree on whether the model is too sure or too
+    unsure, and the held-out beds cannot settle it; the temperature is then 1 (the
+    model's own probabilities), never a guess. Seen with two labelled cores (two
+    folds of one core each, 96 beds): the Brier score went to the search's floor,
+    T = 0.25 (0.153 -> 0.125, more beds right at the argmax), while the log loss
+    rose from 0.60 to 1.41, since the few beds decoded wrong were then given
+    probabilities near 0; the model's mean probability of the decoded tract would
+    have gone from 0.97 to 0.999. The rule has no threshold to tune: it asks both
+    scores to agree. On the simulated and demo folds of ``docs/hmm.md``
+    ("Calibration of the probabilities") both scores chose widening
+    temperatures (T > 1, the log loss's the larger), so the rule keeps the Brier
+    score's there (reasoned from those temperatures, not measured again).
+
+    Returns
+    -------
+    dict
+        ``{"temperature", "n_beds", "before", "after"}``, the last two the
+        :func:`held_out_scores` at ``T = 1`` and at the kept ``T``; where the Brier
+        score's temperature was not kept, also ``"rejected"``: that temperature and
+        its scores (``{"temperature", "scores"}``).
     """
     from scipy.optimize import minimize_scalar
 
@@ -159,7 +181,15 @@ def fit_temperature(folds: Sequence[HeldOut]) -> dict:
     t = float(np.clip(math.exp(res.x), *TEMPERATURE_BOUNDS))
     after = held_out_scores(folds, t)
     if not after["brier"] < before["brier"]:  # never worse than leaving the model alone
-        t, after = 1.0, before
+        return {"temperature": 1.0, "n_beds": n_beds, "before": before, "after": before}
+    if not after["log_loss"] <= before["log_loss"]:  # the two proper scores disagree
+        return {
+            "temperature": 1.0,
+            "n_beds": n_beds,
+            "before": before,
+            "after": before,
+            "rejected": {"temperature": t, "scores": after},
+        }
     return {"temperature": t, "n_beds": n_beds, "before": before, "after": after}
 
 
@@ -192,6 +222,20 @@ def _checked_at_one(cal: dict) -> str:
         if _bootstrap(cal)
         else "held-out labelled cores"
     )
+    rejected = cal.get("rejected")
+    try:
+        t, b, a = rejected["temperature"], cal["before"], rejected["scores"]
+        return (
+            f"Tract probabilities checked on {where}, {cal['n_beds']} beds: the Brier score "
+            f"was lowest at a temperature of {t:.2f} ({b['brier']:.3f} -> {a['brier']:.3f}), "
+            f"but that raised the log loss from {b['log_loss']:.2f} to {a['log_loss']:.2f} "
+            f"(mean probability of the most probable tract {b['confidence']:.2f} -> "
+            f"{a['confidence']:.2f}, for {b['accuracy']:.2f} of the beds right at temperature "
+            "1); the two scores disagree, so the probabilities are left as the model gives "
+            "them (temperature 1)."
+        )
+    except (KeyError, TypeError, ValueError):
+        pass
     return (
         f"Tract probabilities checked on {where}: no temperature scored "
         "better than 1, so they are left as the model gives them."

@@ -25,10 +25,12 @@ from faciesseq.core import (
     take_text,
     text_column,
 )
-from faciesseq.errors import ConfigError, InputError
+from faciesseq.errors import InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
+from faciesseq.hmm.inputs import as_successions, check_grid_step
+from faciesseq.hmm.said_once import said_once
 from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs
 from faciesseq.surfaces import boundary_probabilities, pick_table, surface_codes
@@ -44,16 +46,62 @@ DECODE_PART = 10 * DECODE_BATCH
 
 
 def _succession_table(data, unit: str, step: float | None) -> SuccessionTable:
+    """``data`` as one table of successions (:mod:`faciesseq.hmm.inputs` says what is
+    accepted): a core set whole, without a frame per succession."""
     if isinstance(data, SuccessionTable):
         return data
     if isinstance(data, CoreSet):
+        check_grid_step(unit, step)
         return data.succession_table(unit, step)
-    if isinstance(data, Succession):
-        data = [data]
-    data = list(data)
-    if not all(isinstance(s, Succession) for s in data):
-        raise ConfigError("expected a CoreSet or a list of Succession objects")
-    return SuccessionTable.from_successions(data)
+    return SuccessionTable.from_successions(as_successions(data, unit, step))
+
+
+def _unseen_warning(
+    what: str,
+    cores: list[str],
+    codes: set[str],
+    n_beds: int,
+    n_decoded: int,
+    top: float,
+    units: str,
+) -> UnseenCategoryWarning:
+    """The warning for ``codes`` of ``what`` (facies, contact type) the model never
+    saw, in ``n_beds`` of the ``n_decoded`` beds decoded, of ``cores``, the first at
+    depth ``top`` of the first core.
+    It keeps these (``.unseen``), so that the warnings of many parts merge into one."""
+    where = f"core {cores[0]}, depth {top:.2f} {units}"
+    if len(cores) > 1:
+        where += f", and {len(cores) - 1} other core(s)"
+    in_cores = f" in {len(cores)} cores" if len(cores) > 1 else ""
+    warning = UnseenCategoryWarning(
+        f"{where}: {what} {sorted(codes)} not seen in training ({n_beds} of {n_decoded} "
+        f"bed(s){in_cores}); decoded with a smoothed probability"
+    )
+    warning.unseen = (what, cores, codes, n_beds, n_decoded, top, units)
+    return warning
+
+
+def _merge_unseen(caught: list) -> list:
+    """The warnings of a decode, those of codes never seen in training merged into one
+    per kind (facies, contact type) across its parts; the others as they were."""
+    merged: dict[str, list] = {}
+    out: list = []
+    for w in caught:
+        found = getattr(w.message, "unseen", None)
+        if found is None:
+            out.append(w.message)
+            continue
+        what, cores, codes, n_beds, n_decoded, top, units = found
+        if what not in merged:
+            merged[what] = [cores, set(codes), n_beds, n_decoded, top, units]
+            out.append(what)  # its place in the order
+            continue
+        held = merged[what]
+        held[0] = list(dict.fromkeys([*held[0], *cores]))
+        held[1] |= set(codes)
+        held[2] += n_beds
+        held[3] += n_decoded
+    return [_unseen_warning(m, *merged[m]) if isinstance(m, str) else m for m in out]
 
 
 def _parts(batches: list, cores: np.ndarray, size: int) -> list[list]:
@@ -74,23 +122,28 @@ class Decoding:
     """Decoding of :class:`~faciesseq.hmm.model.TractHMM` (a fitted model)."""
 
     def _warn_unseen(self, table: SuccessionTable, beds: EncodedBeds) -> None:
-        """One warning per succession and column holding codes the model never saw."""
+        """One warning per column (facies, contact type) holding codes the model never
+        saw, naming the codes and the cores that hold them (:func:`_unseen_warning`)."""
         owner = np.repeat(np.arange(len(table)), table.lengths)
-        found = []
         for what, col, codes, features in (
             ("facies", "facies", beds.facies, {"facies", "facies_trend"}),
             ("contact type", "contact", beds.contact, {"contact"}),
         ):
-            bad = np.flatnonzero(codes == -2) if features & set(self.features_) else []
-            found += [(k, what, col, bad[owner[bad] == k]) for k in np.unique(owner[bad])]
-        for k, what, col, rows in sorted(found, key=lambda f: f[0]):
-            values = sorted({str(v) for v in table.beds[col].to_numpy()[rows]})
-            top = float(table.beds["top"].to_numpy()[rows[0]])
+            if not features & set(self.features_):
+                continue
+            rows = np.flatnonzero(codes == -2)
+            if not rows.size:
+                continue
+            first = rows[0]
             warnings.warn(
-                UnseenCategoryWarning(
-                    f"core {table.cores[k]}, depth {top:.2f} {table.units}: {what} {values} "
-                    f"not seen in training ({len(rows)} bed(s)); decoded with a smoothed "
-                    "probability"
+                _unseen_warning(
+                    what,
+                    list(dict.fromkeys(table.cores[owner[rows]].tolist())),
+                    {str(v) for v in table.beds[col].to_numpy()[rows]},
+                    len(rows),
+                    len(codes),
+                    float(table.beds["top"].to_numpy()[first]),
+                    table.units,
                 ),
                 stacklevel=4,
             )
@@ -114,7 +167,27 @@ class Decoding:
         -------
         Interpretation, tables in depth order (shallowest first).
         """
-        return Interpretation.concat(list(self.decode_parts(successions, mass, labels)))
+        self._check_fitted()
+        step = self.grid_step(getattr(successions, "units", None))
+        table = _succession_table(successions, self.unit_, step)
+        self._refuse_foreign(table)
+        with said_once(_merge_unseen):  # one warning of each kind for all the cores
+            parts = list(self._decoded(table, mass, labels, None))
+        return Interpretation.concat(parts)
+
+    def _refuse_foreign(self, table: SuccessionTable) -> None:
+        """Refuse cores none of whose facies codes the model saw in training, as
+        ``faciesseq decode`` does (:func:`faciesseq.novelty.foreign_facies`): every bed
+        would be read from its thickness and contacts alone."""
+        from faciesseq.novelty import DecodedBeds, foreign_facies
+
+        if "facies" not in table.beds.columns or not len(table.beds):
+            return
+        decoded = DecodedBeds()
+        decoded.add(table.beds[["facies", "thickness"]], table.units)
+        why = foreign_facies(decoded, self)
+        if why is not None:
+            raise InputError(why)
 
     def decode_parts(
         self,

@@ -22,6 +22,7 @@ from __future__ import annotations
 import math
 import warnings
 from collections.abc import Mapping, Sequence
+from os import PathLike
 from typing import Any
 
 import numpy as np
@@ -32,6 +33,7 @@ from faciesseq.cycles import CONTEXT_FEATURES, beds_per_cycle, cycle_inputs
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm import engine, nested
 from faciesseq.hmm.baseline import trend_rule
+from faciesseq.hmm.cautions import read_cautions
 from faciesseq.hmm.context import evidence_weights
 from faciesseq.hmm.decoding import Decoding, _succession_table
 from faciesseq.hmm.em import (
@@ -49,9 +51,11 @@ from faciesseq.hmm.features import (
     FEATURES,
     resolve_features,
 )
+from faciesseq.hmm.inputs import as_scheme, as_successions
 from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels, labelled_beds
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.restarts import Restarts
+from faciesseq.hmm.said_once import said_once
 from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import (
     FaciesScheme,
@@ -92,14 +96,7 @@ CONTEXT_SUBSTATES = 3
 
 
 def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
-    if isinstance(data, CoreSet):
-        return data.successions(unit, step)
-    if isinstance(data, Succession):
-        return [data]
-    out = list(data)
-    if not all(isinstance(s, Succession) for s in out):
-        raise ConfigError("expected a CoreSet or a list of Succession objects")
-    return out
+    return as_successions(data, unit, step)
 
 
 def _training_successions(
@@ -147,10 +144,16 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         Tracts, their cyclic order, skips and surfaces; default
         :func:`faciesseq.scheme.default_tract_model`.
     scheme
-        Facies scheme: gives the facies list and the proximality ranks the
-        trend priors are built from. Without one, facies are those of the
-        training beds and the trend prior is flat (tract identity is then
-        anchored only by the starting rule and the tract graph; a warning says so).
+        Facies scheme, or the path of its YAML file (read by
+        :func:`faciesseq.scheme.load_scheme` when the fit starts): gives the facies
+        list and the proximality ranks the trend priors are built from. Without one,
+        facies are those of the training beds and the trend prior is flat (tract
+        identity is then anchored only by the starting rule and the tract graph; a
+        warning and the fit's cautions say so). Ranks are never guessed here; ranks
+        suggested from the data's transitions, as ``faciesseq fit`` suggests them
+        without ``--scheme``, are ``suggest_ranks(cores.succession_table("beds")).scheme()``
+        (:func:`faciesseq.markov.seriation.suggest_ranks`), and a fit on them carries
+        the same caution as the command's.
     features
         Emission pieces, multiplied per bed: ``"facies"``, ``"facies_trend"``
         (facies given the bed below: the stacking trend), ``"thickness"`` (log
@@ -282,7 +285,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     def __init__(
         self,
         tract_model: TractModel | None = None,
-        scheme: FaciesScheme | None = None,
+        scheme: FaciesScheme | str | PathLike | None = None,
         features: Sequence[str] | None = None,
         substates: int | Mapping[str, int] | None = None,
         prior_strength: float = 2.0,
@@ -335,6 +338,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         return int(self.n_jobs) > 1 or bool(self.scheduler)
 
     def _check_hyper(self) -> None:
+        """Check the hyper-parameters at the start of a fit; a scheme given as the path of
+        its YAML file is read here (:func:`~faciesseq.hmm.inputs.as_scheme`)."""
+        self.scheme = as_scheme(self.scheme)
         if self.unit not in ("auto", *UNITS):
             raise ConfigError(f"unit must be one of auto, {', '.join(UNITS)}, got {self.unit!r}")
         if not self.prior_strength >= 0:
@@ -596,9 +602,11 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         if not len(succ):
             raise InputError("no beds to fit the tract model on")
         self.units_ = succ.units if isinstance(succ, SuccessionTable) else succ[0].units
-        self._fit_once(succ, labels, progress)
-        if self._tracts_shorter_than_cycles():
-            self._fit_with_weaker_weights(succ, labels, progress)
+        with said_once():  # the candidate graphs and refits would repeat each warning
+            self._fit_once(succ, labels, progress)
+            if self._tracts_shorter_than_cycles():
+                self._fit_with_weaker_weights(succ, labels, progress)
+        self.cautions_ = read_cautions(self)
         if calibrate:
             self.calibrate()
         return self

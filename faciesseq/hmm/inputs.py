@@ -1,0 +1,103 @@
+"""What the tract model accepts from a Python caller, checked once at the boundary.
+
+The cores to fit or decode (a :class:`~faciesseq.core.CoreSet`, one
+:class:`~faciesseq.core.Core`, a :class:`~faciesseq.core.SuccessionTable` or
+successions) and the facies scheme (a :class:`~faciesseq.scheme.FaciesScheme` or
+the path of its YAML file). Anything else is a one-line :class:`TypeError` naming
+what is accepted and how to make it.
+"""
+
+from __future__ import annotations
+
+from os import PathLike
+from typing import Any
+
+from faciesseq.core import Core, CoreSet, Succession, SuccessionTable
+from faciesseq.errors import ConfigError
+from faciesseq.scheme import FaciesScheme
+
+__all__ = [
+    "ACCEPTED_CORES",
+    "as_scheme",
+    "as_successions",
+    "check_grid_step",
+    "cores_type_error",
+]
+
+#: The kinds of cores ``fit`` and ``decode`` read, as the error names them.
+ACCEPTED_CORES = "a CoreSet, a Core, a SuccessionTable or a list of Succession objects"
+
+
+def cores_type_error(data: Any, in_list: bool = False) -> TypeError:
+    """The error for cores of a kind the model does not read (``in_list``: an item of a
+    list), with how to make a CoreSet."""
+    got = f"a list holding {type(data).__name__}" if in_list else type(data).__name__
+    how = (
+        "make one with CoreSet.from_frame(frame) (faciesseq.core) or read_cores(path) "
+        "(faciesseq.io)"
+    )
+    return TypeError(f"expected {ACCEPTED_CORES}, got {got}: {how}")
+
+
+def as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
+    """The successions of ``data`` (see :data:`ACCEPTED_CORES`), cores cut by ``unit``
+    and ``step`` (:meth:`~faciesseq.core.CoreSet.successions`).
+
+    Raises
+    ------
+    TypeError
+        For anything else (a DataFrame, a path, a list of other objects).
+    """
+    if isinstance(data, CoreSet | Core):
+        check_grid_step(unit, step)
+        return data.successions(unit, step)
+    if isinstance(data, SuccessionTable):
+        return list(data)
+    if isinstance(data, Succession):
+        return [data]
+    if isinstance(data, str | bytes | PathLike) or not hasattr(data, "__iter__"):
+        raise cores_type_error(data)
+    if hasattr(data, "columns"):  # a DataFrame iterates over its column names
+        raise cores_type_error(data)
+    out = list(data)
+    if not all(isinstance(s, Succession) for s in out):
+        odd = next(s for s in out if not isinstance(s, Succession))
+        raise cores_type_error(odd, in_list=True)
+    return out
+
+
+def check_grid_step(unit: str, step: float | None) -> None:
+    """Refuse cutting cores into a depth grid without a positive step.
+
+    Raises
+    ------
+    ConfigError
+        Where ``unit`` is ``"grid"`` and ``step`` is not a positive number.
+    """
+    if unit == "grid" and not (isinstance(step, int | float) and step > 0):
+        raise ConfigError(
+            f"unit='grid' needs a positive step in depth units (--step on the command line), "
+            f"got step={step!r}"
+        )
+
+
+def as_scheme(scheme: Any) -> FaciesScheme | None:
+    """``scheme`` as a :class:`~faciesseq.scheme.FaciesScheme`: as given, or read from
+    the path of its YAML file (:func:`~faciesseq.scheme.load_scheme`); ``None`` stays
+    ``None``.
+
+    Raises
+    ------
+    TypeError
+        For anything else.
+    """
+    if scheme is None or isinstance(scheme, FaciesScheme):
+        return scheme
+    if isinstance(scheme, str | PathLike):
+        from faciesseq.scheme import load_scheme
+
+        return load_scheme(scheme)
+    raise TypeError(
+        f"scheme must be a FaciesScheme, the path of a scheme YAML file or None, got "
+        f"{type(scheme).__name__}: load one with faciesseq.scheme.load_scheme(path)"
+    )
