@@ -17,7 +17,7 @@ from typing import Any
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import FaciesseqError
-from faciesseq.scheme import FaciesScheme, TractModel, default_tract_model
+from faciesseq.scheme import FaciesScheme, TractModel, as_scheme, default_tract_model
 
 __all__ = ["DEMO_FILES", "RunResult", "demo_source", "has_labels", "run_appendix"]
 
@@ -75,7 +75,7 @@ def _say(progress: Progress | None, step: str, message: str) -> None:
 
 def run_appendix(
     cores: CoreSet,
-    scheme: FaciesScheme,
+    scheme: FaciesScheme | str | Path,
     tract_model: TractModel | None = None,
     *,
     model: Any = None,
@@ -103,7 +103,8 @@ def run_appendix(
         The core database (already read; its problems are reported, and an
         error among them stops the run with :class:`~faciesseq.errors.InputError`).
     scheme, tract_model
-        Facies scheme; tract model (default: the packaged four-tract model).
+        Facies scheme (or the path of its YAML file); tract model (default: the
+        packaged four-tract model).
     model
         A fitted ``TractHMM`` (e.g. loaded from a model file). ``None``: one
         is fitted with the default settings (supervised on the cores whose
@@ -144,6 +145,7 @@ def run_appendix(
     from faciesseq.report.appendix import build_appendix
 
     cores.require_valid()
+    scheme = as_scheme(scheme)
     notes: list[str] = []
     _say(progress, "check", f"{len(cores)} cores, {len(cores.problems)} problems reported")
     # the cores markov leaves out are left out of the fit, decoding and validation too

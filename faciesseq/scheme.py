@@ -21,6 +21,7 @@ import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 from importlib import resources
+from os import PathLike
 from pathlib import Path
 from typing import Any
 
@@ -34,6 +35,7 @@ __all__ = [
     "Surface",
     "Tract",
     "TractModel",
+    "as_scheme",
     "default_tract_model",
     "draft_scheme",
     "load_scheme",
@@ -712,6 +714,27 @@ def _surfaces(entries: Any, model: TractModel, source: str | None) -> list[Surfa
 def load_scheme(path: str | Path) -> FaciesScheme:
     """Read and validate a facies scheme YAML file."""
     return FaciesScheme.from_dict(_read_yaml(path), source=str(path))
+
+
+def as_scheme(scheme: FaciesScheme | str | PathLike | None) -> FaciesScheme | None:
+    """``scheme`` as a :class:`FaciesScheme`: as given, or read from the path of its
+    YAML file (:func:`load_scheme`, as :func:`faciesseq.io.read_cores` reads it);
+    ``None`` stays ``None``. Every Python entry point that takes a scheme takes it
+    through here.
+
+    Raises
+    ------
+    TypeError
+        For anything else.
+    """
+    if scheme is None or isinstance(scheme, FaciesScheme):
+        return scheme
+    if isinstance(scheme, str | PathLike):
+        return load_scheme(scheme)
+    raise TypeError(
+        f"scheme must be a FaciesScheme, the path of a scheme YAML file or None, got "
+        f"{type(scheme).__name__}: load one with faciesseq.scheme.load_scheme(path)"
+    )
 
 
 def load_tract_model(path: str | Path) -> TractModel:

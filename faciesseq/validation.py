@@ -36,7 +36,7 @@ from faciesseq.core import CoreSet, Succession
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.hmm.baseline import trend_rule
 from faciesseq.interpretation import Interpretation
-from faciesseq.scheme import TractModel, permissive_tract_model
+from faciesseq.scheme import TractModel, as_scheme, permissive_tract_model
 from faciesseq.surfaces import picks_frame, surface_codes, surface_names
 
 __all__ = ["ScoreSet", "ValidationResult", "cross_validate", "score_interpretation"]
@@ -444,7 +444,6 @@ def cross_validate(
         :class:`~faciesseq.scheme.FaciesScheme` or the path of its YAML file,
         ``tract_model``, ``features``...); any other name is a :class:`TypeError`.
     """
-    from faciesseq.hmm.inputs import as_scheme
     from faciesseq.hmm.model import TractHMM, _as_successions, fit_unit
 
     _check_params(params)

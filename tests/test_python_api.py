@@ -104,7 +104,17 @@ def test_analyse_reads_a_scheme_path_as_read_cores_does(cores):
     assert by_path.n_transitions == by_object.n_transitions > 0
     with pytest.raises(TypeError) as error:
         analyse(cores, scheme=3)
-    assert "FaciesScheme or the path of its YAML file" in _one_line(error)
+    assert "FaciesScheme, the path of a scheme YAML file or None" in _one_line(error)
+
+
+def test_run_appendix_reads_a_scheme_path():
+    from faciesseq.pipeline import run_appendix
+
+    here = ROOT / "tests" / "data" / "two_labelled_cores"
+    scheme = here / "myscheme.yaml"
+    cores = read_cores(here / "labelled.csv", scheme=scheme, units="m")
+    result = run_appendix(cores, str(scheme), surrogates=0, n_restarts=1, labels=None)
+    assert result.model.scheme.codes == load_scheme(scheme).codes
 
 
 # 3. correlation from Python

@@ -2,8 +2,8 @@
 
 The cores to fit or decode (a :class:`~faciesseq.core.CoreSet`, one
 :class:`~faciesseq.core.Core`, a :class:`~faciesseq.core.SuccessionTable` or
-successions) and the facies scheme (a :class:`~faciesseq.scheme.FaciesScheme` or
-the path of its YAML file). Anything else is a one-line :class:`TypeError` naming
+successions; the facies scheme goes through :func:`faciesseq.scheme.as_scheme`).
+Anything else is a one-line :class:`TypeError` naming
 what is accepted and how to make it.
 """
 
@@ -14,11 +14,9 @@ from typing import Any
 
 from faciesseq.core import Core, CoreSet, Succession, SuccessionTable
 from faciesseq.errors import ConfigError
-from faciesseq.scheme import FaciesScheme
 
 __all__ = [
     "ACCEPTED_CORES",
-    "as_scheme",
     "as_successions",
     "check_grid_step",
     "cores_type_error",
@@ -81,23 +79,3 @@ def check_grid_step(unit: str, step: float | None) -> None:
         )
 
 
-def as_scheme(scheme: Any) -> FaciesScheme | None:
-    """``scheme`` as a :class:`~faciesseq.scheme.FaciesScheme`: as given, or read from
-    the path of its YAML file (:func:`~faciesseq.scheme.load_scheme`); ``None`` stays
-    ``None``.
-
-    Raises
-    ------
-    TypeError
-        For anything else.
-    """
-    if scheme is None or isinstance(scheme, FaciesScheme):
-        return scheme
-    if isinstance(scheme, str | PathLike):
-        from faciesseq.scheme import load_scheme
-
-        return load_scheme(scheme)
-    raise TypeError(
-        f"scheme must be a FaciesScheme, the path of a scheme YAML file or None, got "
-        f"{type(scheme).__name__}: load one with faciesseq.scheme.load_scheme(path)"
-    )

@@ -51,7 +51,7 @@ from faciesseq.hmm.features import (
     FEATURES,
     resolve_features,
 )
-from faciesseq.hmm.inputs import as_scheme, as_successions
+from faciesseq.hmm.inputs import as_successions
 from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels, labelled_beds
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.restarts import Restarts
@@ -60,6 +60,7 @@ from faciesseq.hmm.states import StateSpace
 from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
+    as_scheme,
     default_tract_model,
 )
 
@@ -339,7 +340,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
 
     def _check_hyper(self) -> None:
         """Check the hyper-parameters at the start of a fit; a scheme given as the path of
-        its YAML file is read here (:func:`~faciesseq.hmm.inputs.as_scheme`)."""
+        its YAML file is read here (:func:`~faciesseq.scheme.as_scheme`)."""
         self.scheme = as_scheme(self.scheme)
         if self.unit not in ("auto", *UNITS):
             raise ConfigError(f"unit must be one of auto, {', '.join(UNITS)}, got {self.unit!r}")

@@ -41,7 +41,7 @@ from faciesseq.markov.surrogates import (
     transition_surrogates,
 )
 from faciesseq.parallel import job_seeds, run_jobs
-from faciesseq.scheme import FaciesScheme, load_scheme
+from faciesseq.scheme import FaciesScheme, as_scheme
 
 __all__ = ["SCHEMA", "MarkovReport", "analyse", "analyse_batches"]
 
@@ -482,25 +482,6 @@ def analyse(
     enc = encode(successions, codes)
     values = None if by in (None, "core") else _succession_groups(successions, enc, by)
     return _report(enc, values, False, settings, [], [])
-
-
-def as_scheme(scheme: FaciesScheme | str | Path | None) -> FaciesScheme | None:
-    """The facies scheme given, loaded if given as the path of its YAML file
-    (:func:`faciesseq.scheme.load_scheme`, as :func:`faciesseq.io.read_cores` loads it).
-
-    Raises
-    ------
-    TypeError
-        ``scheme`` is neither a scheme, a path nor ``None``.
-    """
-    if scheme is None or isinstance(scheme, FaciesScheme):
-        return scheme
-    if isinstance(scheme, str | Path):
-        return load_scheme(scheme)
-    raise TypeError(
-        "scheme must be a FaciesScheme or the path of its YAML file, "
-        f"got {type(scheme).__name__} {scheme!r:.60}"
-    )
 
 
 @dataclass(frozen=True)
