@@ -77,5 +77,3 @@ def check_grid_step(unit: str, step: float | None) -> None:
             f"unit='grid' needs a positive step in depth units (--step on the command line), "
             f"got step={step!r}"
         )
-
-
