@@ -385,6 +385,25 @@ def _bed_columns(
     return data, core_id[first]
 
 
+def _counted(n: int, noun: str) -> str:
+    """``1 core``, ``3 cores``."""
+    return f"{n:,} {noun}{'' if n == 1 else 's'}"
+
+
+def _extent(table: pd.DataFrame) -> tuple[float, float]:
+    """The shallowest top and deepest base of an interval table (NaN when empty)."""
+    if not len(table):
+        return np.nan, np.nan
+    return float(table["top"].min()), float(table["base"].max())
+
+
+def _span(top: float, base: float, units: str) -> str:
+    """``depths 1000.00-1052.30 m`` (``no depths`` when there is none)."""
+    if not (np.isfinite(top) and np.isfinite(base)):
+        return "no depths"
+    return f"depths {top:.2f}-{base:.2f} {units}"
+
+
 def _in_order(table: pd.DataFrame) -> bool:
     """Whether a stable sort by ``top`` then ``base`` would leave ``table`` as it is."""
     kinds = [table[c].dtype.kind for c in ("top", "base")]
@@ -450,6 +469,10 @@ class Core:
 
     def __len__(self) -> int:
         return len(self.intervals)
+
+    def __repr__(self) -> str:
+        span = _span(self.top, self.base, self.units)
+        return f"<Core {self.name}: {_counted(len(self), 'interval')}, {span}>"
 
     def segment_ids(self, tolerance: float = DEPTH_TOL) -> np.ndarray:
         """Segment number of each interval: a new segment starts after each gap."""
@@ -585,6 +608,13 @@ class CoreTable(Mapping):
     def __contains__(self, name: object) -> bool:
         return name in self._position
 
+    def __repr__(self) -> str:
+        top, base = _extent(self.table)
+        return (
+            f"<CoreTable: {_counted(len(self), 'core')}, "
+            f"{_counted(len(self.table), 'interval')}, {_span(top, base, self.units)}>"
+        )
+
     def core_ids(self) -> np.ndarray:
         """Core number (position in ``names``) of every row of ``table``."""
         return np.repeat(np.arange(len(self.names), dtype=np.int64), np.diff(self.starts))
@@ -634,19 +664,81 @@ class CoreSet:
     @classmethod
     def from_frame(
         cls,
-        table: pd.DataFrame,
-        units: str = "m",
+        table: pd.DataFrame | Sequence[Mapping] | Mapping[str, Sequence],
+        units: str | None = None,
         problems: Iterable[Problem] = (),
         sources: Iterable[str] = (),
+        *,
+        columns: Mapping[str, str] | None = None,
+        scheme=None,
+        layout: str | None = None,
+        repeated_depths: str = "error",
     ) -> CoreSet:
-        """Build from one interval table with a ``core`` column (order kept by first appearance)."""
-        if "core" not in table.columns:
-            raise InputError("interval table lacks a 'core' column")
-        cores = {
-            str(name): Core(str(name), part.drop(columns="core").reset_index(drop=True), units)
-            for name, part in table.groupby(table["core"].astype(str), sort=False)
-        }
-        return cls(cores, units, tuple(problems), tuple(sources))
+        """A core set from one table of intervals (or samples), checked as a file is read.
+
+        The rows go through the validation of :func:`faciesseq.io.read_cores`: column
+        roles, depths, facies codes (against ``scheme``), thickness, order, overlaps
+        and units. What it finds is in ``problems``, rows with an error are left out of
+        the cores, and :meth:`require_valid` refuses the core set while there are
+        errors. Messages name the table ``DataFrame`` and its rows ``data row N`` (the
+        N-th row, ``table.iloc[N - 1]``), e.g. ``DataFrame, data row 4, core SF-1,
+        depth 1002.61 m: interval 1002.61-1003.92 overlaps data row 3 ...``; a table
+        from :meth:`to_frame` with ``provenance=True`` keeps its file and data rows.
+
+        Parameters
+        ----------
+        table
+            A DataFrame, records (a list of dicts) or a dict of columns: one row per
+            interval (core, top, base, facies) or sample (core, depth, facies); any
+            other column is an attribute. Cores are kept in order of first appearance.
+        units
+            ``"m"`` or ``"ft"``: the units of depths the table does not state (in a
+            ``units`` column or a column name such as ``top (ft)``), and the units
+            every depth is converted to. ``None``: stated depths' units, else metres
+            (with a warning).
+        problems, sources
+            Problems found before (put first) and source labels (default: the
+            table's own, ``("DataFrame",)``).
+        columns, scheme, layout, repeated_depths
+            As for :func:`faciesseq.io.read_cores`: role -> column name, a facies
+            scheme or its YAML path, ``"intervals"``/``"samples"``, and
+            ``"error"``/``"keep-first"`` for repeated sample depths.
+
+        Returns
+        -------
+        CoreSet
+            The cores held one table per core (:func:`~faciesseq.io.read_cores` of a
+            DataFrame holds them as one table, faster on large databases).
+
+        Raises
+        ------
+        InputError, ConfigError
+            As :func:`faciesseq.io.read_cores` raises them for a file.
+        TypeError
+            ``table`` is no DataFrame, records or dict of columns.
+        """
+        # the checks of the readers (faciesseq.io, which builds on this module)
+        from faciesseq.io.frame import read_frame
+
+        found = read_frame(
+            table,
+            layout=layout,
+            columns=columns,
+            units=units,
+            scheme=scheme,
+            repeated_depths=repeated_depths,
+            taker="CoreSet.from_frame",
+        )
+        cores = found.cores
+        if isinstance(cores, CoreTable):
+            cores = {name: cores[name] for name in cores}
+        return cls(
+            cores,
+            found.units,
+            tuple(problems) + found.problems,
+            tuple(sources) or found.sources,
+            found.meta,
+        )
 
     def to_frame(self, provenance: bool = False) -> pd.DataFrame:
         """All intervals in one table (``core`` first), cores in order, depth order within."""
@@ -670,6 +762,24 @@ class CoreSet:
 
     def __len__(self) -> int:
         return len(self.cores)
+
+    def __repr__(self) -> str:
+        if isinstance(self.cores, CoreTable):
+            n_intervals = len(self.cores.table)
+            top, base = _extent(self.cores.table)
+        else:
+            n_intervals = sum(len(core) for core in self)
+            tops = [core.top for core in self if len(core)]
+            bases = [core.base for core in self if len(core)]
+            top, base = (min(tops), max(bases)) if tops else (np.nan, np.nan)
+        found = [
+            _counted(sum(p.severity == s for p in self.problems), s)
+            for s in ("error", "warning", "repair")
+        ]
+        return (
+            f"<CoreSet: {_counted(len(self), 'core')}, {_counted(n_intervals, 'interval')}, "
+            f"{_span(top, base, self.units)}; problems: {', '.join(found)}>"
+        )
 
     def __iter__(self) -> Iterator[Core]:
         return iter(self.cores.values())

@@ -83,8 +83,12 @@ def test_coreset_round_trips_its_frame():
     back = cs.to_frame()
     assert back["core"].unique().tolist() == ["W-1"]
     assert len(cs.successions()) == 2
+    # without a core column, as in a file: one core, and a warning saying how to map one
+    one = CoreSet.from_frame(table.drop(columns="core"), units="m")
+    assert one.names == ["core"] and len(one["core"]) == len(table)
+    assert "no-core-column" in [p.kind for p in one.problems if p.severity == "warning"]
     with pytest.raises(InputError):
-        CoreSet.from_frame(table.drop(columns="core"))
+        CoreSet.from_frame(table.drop(columns="base"))
 
 
 def _beds_by_loop(core):

@@ -3,24 +3,29 @@
 Sources, chosen from the path or URL: CSV/TSV (delimiter sniffed), Excel
 ``.xlsx``, Parquet, LAS 2.0, a folder of such files, a SQLite file, any
 SQLAlchemy URL, or a YAML source file naming one of these with its reading
-options. See docs/io.md for layouts, column roles, units and problem kinds.
+options; from Python, also a pandas DataFrame, checked as a file is. See
+docs/io.md for layouts, column roles, units and problem kinds.
 """
 
 from __future__ import annotations
 
+import os
 from collections.abc import Collection, Mapping
 from dataclasses import replace
 from pathlib import Path
 
+import pandas as pd
+
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 from faciesseq.io.columns import ROLES, match_columns
+from faciesseq.io.frame import read_frame, scheme_option, units_option
 from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, load_source_file, read_tables
 from faciesseq.io.stream import CoreStream, NotStreamable, open_stream
 from faciesseq.io.summary import DatabaseSummary, summarise
 from faciesseq.io.validate import build_coreset, facies_code
 from faciesseq.io.writer import write_cores
-from faciesseq.scheme import FaciesScheme, load_scheme
+from faciesseq.scheme import FaciesScheme
 
 __all__ = [
     "ROLES",
@@ -46,7 +51,7 @@ def source_spec(source: str | Path, *, columns: Mapping[str, str] | None = None,
 
 
 def read_cores(
-    source: str | Path,
+    source: str | Path | pd.DataFrame,
     *,
     layout: str | None = None,
     columns: Mapping[str, str] | None = None,
@@ -66,7 +71,9 @@ def read_cores(
         A CSV/TSV, ``.xlsx``, Parquet or LAS file, a folder of them, a SQLite
         file, a SQLAlchemy URL (``postgresql://user@host/db``) or a YAML source
         file (``*.yaml``; its options are used where the arguments here are
-        ``None``).
+        ``None``); or a pandas DataFrame, one row per interval or sample, checked
+        as a file is (messages name it ``DataFrame`` and its rows ``data row N``,
+        the N-th row counted from 1).
     layout
         ``"intervals"`` (core, top, base, facies) or ``"samples"`` (core,
         depth, facies); detected from the columns when ``None``.
@@ -102,7 +109,23 @@ def read_cores(
         format, missing required column, mixed depth units).
     ConfigError
         A bad option (unknown role, option not applying to the source, ...).
+    TypeError
+        ``source`` is neither a path, a URL nor a DataFrame.
     """
+    if isinstance(source, pd.DataFrame):
+        given = {"sheet": sheet, "table": table, "query": query, "curve": curve}
+        for option, value in given.items():
+            if value is not None:
+                raise ConfigError(f"{option}= does not apply to a DataFrame")
+        return read_frame(
+            source,
+            layout=layout,
+            columns=columns,
+            units=units,
+            scheme=scheme,
+            repeated_depths=repeated_depths,
+        )
+    _check_source(source, "read_cores")
     spec, scheme = _spec_and_scheme(
         source,
         scheme,
@@ -163,6 +186,7 @@ def stream_cores(
         says that the file must be read whole after all (its cores apart, or its
         columns read differently from one batch to the next).
     """
+    _check_source(source, "stream_cores")
     spec, scheme = _spec_and_scheme(
         source,
         scheme,
@@ -183,11 +207,24 @@ def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesSchem
     spec = source_spec(source, **options)
     if scheme is None and spec.scheme is not None:
         scheme = spec.scheme
-    if isinstance(scheme, str | Path):
-        scheme = load_scheme(scheme)
-    if spec.units is not None and spec.units not in ("m", "ft"):
-        raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
+    scheme = scheme_option(scheme)
+    units_option(spec.units)
     return spec, scheme
+
+
+def _check_source(source: object, taker: str) -> None:
+    """A one-line :class:`TypeError` for a source that is no path or URL (pathlib would
+    take a long text for a file name, or fail on an object with its own words)."""
+    if not isinstance(source, str | os.PathLike):
+        kinds = "a path (str or pathlib.Path) or a database URL" + (
+            ", or a pandas DataFrame" if taker == "read_cores" else ""
+        )
+        hint = (
+            "; make a DataFrame of records with pandas.DataFrame(records)"
+            if isinstance(source, list | tuple | Mapping)
+            else ""
+        )
+        raise TypeError(f"{taker} takes {kinds}, got {type(source).__name__}{hint}")
 
 
 def _merge(from_file: SourceSpec, given: SourceSpec) -> SourceSpec:

@@ -13,6 +13,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 from faciesseq.errors import ConfigError, InputError
+from faciesseq.io.wording import COMMAND_LINE, Wording
 
 __all__ = ["ROLES", "ColumnMatch", "match_columns", "normalise_units"]
 
@@ -135,6 +136,7 @@ def match_columns(
     explicit: Mapping[str, str] | None = None,
     *,
     file: str | None = None,
+    wording: Wording = COMMAND_LINE,
 ) -> ColumnMatch:
     """Match source columns to roles: the explicit mapping first, then the variants.
 
@@ -147,6 +149,8 @@ def match_columns(
         ``{"core": "Well Name", "depth": "Depth"}``.
     file
         Source file, named in error messages.
+    wording
+        How messages name the option mapping a column.
 
     Raises
     ------
@@ -188,7 +192,7 @@ def match_columns(
         if len(hits) > 1:
             raise InputError(
                 f"columns {', '.join(repr(h) for h in hits)} all look like the {role} column; "
-                f'name one with --column {role}="NAME"',
+                f"name one with {wording.columns([role], quoted=True)}",
                 file=file,
             )
         if hits:

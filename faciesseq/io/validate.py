@@ -42,6 +42,7 @@ from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.contacts import known_contact, known_words
 from faciesseq.io.raw import RawTable, check_width
+from faciesseq.io.wording import COMMAND_LINE, Wording
 from faciesseq.scheme import FaciesScheme, _code
 
 __all__ = [
@@ -335,7 +336,9 @@ class _Rows:
     roles: dict[str, str] = field(default_factory=dict)  # role -> column name, as matched
 
 
-def _layout(match: ColumnMatch, table: RawTable, layout: str | None) -> str:
+def _layout(
+    match: ColumnMatch, table: RawTable, layout: str | None, wording: Wording = COMMAND_LINE
+) -> str:
     if layout is None:
         layout = table.layout
     if layout is None:
@@ -351,7 +354,7 @@ def _layout(match: ColumnMatch, table: RawTable, layout: str | None) -> str:
     missing = [r for r in need if r not in match.roles]
     if missing:
         names = ", ".join(repr(c) for c in table.frame.columns)
-        hint = " ".join(f"--column {r}=NAME" for r in missing)
+        hint = wording.columns(missing)
         raise InputError(
             f"missing required column(s) {', '.join(missing)} for the {layout} layout; the "
             f"columns are {names}; map them with {hint}",
@@ -361,20 +364,25 @@ def _layout(match: ColumnMatch, table: RawTable, layout: str | None) -> str:
 
 
 def _prepare(
-    table: RawTable, layout: str | None, columns: Mapping[str, str], scheme: FaciesScheme | None
+    table: RawTable,
+    layout: str | None,
+    columns: Mapping[str, str],
+    scheme: FaciesScheme | None,
+    wording: Wording = COMMAND_LINE,
 ) -> _Rows:
-    """Apply column roles and per-row checks (depth numbers, facies codes, attributes)."""
+    """Apply column roles and per-row checks (depth numbers, facies codes, attributes);
+    ``wording``: how messages name the options."""
     check_width(table.frame.shape[1], table.file)
     explicit = dict(table.roles)
     explicit.update(columns)
-    match = match_columns(table.frame.columns, explicit, file=table.file)
-    layout = _layout(match, table, layout)
+    match = match_columns(table.frame.columns, explicit, file=table.file, wording=wording)
+    layout = _layout(match, table, layout, wording)
     src = table.frame
     rows = np.asarray(table.row_numbers(), dtype=int)
     problems: list[Problem] = []
     bad = np.zeros(len(src), dtype=bool)
     out: dict[str, object] = {}  # the columns, made into a frame once (no copies)
-    out["core"] = _core_column(src, match, table, rows, bad, problems)
+    out["core"] = _core_column(src, match, table, rows, bad, problems, wording)
     roles = ("top", "base") if layout == "intervals" else ("depth",)
     for role in roles:
         numbers, found = _depths(src[match.roles[role]], role, table.file, rows, out["core"])
@@ -465,6 +473,7 @@ def _core_column(
     rows: np.ndarray,
     bad: np.ndarray,
     problems: list[Problem],
+    wording: Wording = COMMAND_LINE,
 ) -> pd.Series:
     """The core of each row (rows without one marked ``bad``, with an error each)."""
     n = len(src)
@@ -485,7 +494,7 @@ def _core_column(
                 "warning",
                 "no-core-column",
                 f"no core column; all rows are taken as core {name!r} (map one with "
-                "--column core=NAME)",
+                f"{wording.columns(['core'])})",
                 file=table.file,
                 core=name,
             )
@@ -703,7 +712,9 @@ def _depth(value: float) -> float | None:
     return None if value is None or not np.isfinite(value) else float(value)
 
 
-def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[Problem]]:
+def _resolve_units(
+    prepared: list[_Rows], units: str | None, wording: Wording = COMMAND_LINE
+) -> tuple[str, list[Problem]]:
     """Units of the core set; depths stated in other units are converted to ``units``."""
     problems: list[Problem] = []
     stated: dict[str, list[str]] = {}
@@ -725,8 +736,8 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
     elif len(stated) > 1:
         listed = "; ".join(f"{u}: {', '.join(sorted(set(f)))}" for u, f in sorted(stated.items()))
         raise InputError(
-            f"mixed depth units in one database ({listed}); convert them, or give --units to "
-            "have every depth converted to one unit"
+            f"mixed depth units in one database ({listed}); convert them, or give "
+            f"{wording.units()} to have every depth converted to one unit"
         )
     elif stated:
         target = next(iter(stated))
@@ -736,7 +747,8 @@ def _resolve_units(prepared: list[_Rows], units: str | None) -> tuple[str, list[
             Problem(
                 "warning",
                 "units",
-                "no depth units stated in the source; taken as metres (give --units ft if not)",
+                "no depth units stated in the source; taken as metres (give "
+                f"{wording.units('ft')} if not)",
             )
         )
     for p in prepared:
@@ -951,6 +963,7 @@ def _check_samples(
     core: str,
     units: str,
     repeated_depths: str,
+    wording: Wording = COMMAND_LINE,
 ) -> tuple[pd.DataFrame, list[Problem]]:
     """Order and repeated depths of one core's samples (the run-length step comes later)."""
     problems = _order(part, "depth", file, core, units)
@@ -973,7 +986,7 @@ def _check_samples(
                 severity, message = (
                     "error",
                     f"repeated depth {depth[i]:g} (also data row {rows[first]}); remove one, or "
-                    "keep the first with --keep-first",
+                    f"keep the first with {wording.keep_first()}",
                 )
             problems.append(
                 Problem(
@@ -1077,19 +1090,21 @@ def build_coreset(
     scheme: FaciesScheme | None = None,
     repeated_depths: str = "error",
     sources: tuple[str, ...] = (),
+    wording: Wording = COMMAND_LINE,
 ) -> CoreSet:
     """Validate raw tables and assemble the core set (see the module notes for problem kinds).
 
     The tables are read once: their rows are released as they are taken in (each
-    ``frame`` is left with its columns and no rows).
+    ``frame`` is left with its columns and no rows). ``wording``: how messages name the
+    options that fix what they report (the command line's, or Python's for a DataFrame).
     """
     if repeated_depths not in ("error", "keep-first"):
         raise ConfigError(
             f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
         )
-    prepared = _prepare_tables(tables, layout, columns, scheme)
-    target, unit_problems = _resolve_units(prepared, units)
-    gathered = _Gathered(target, repeated_depths, list(unit_problems))
+    prepared = _prepare_tables(tables, layout, columns, scheme, wording)
+    target, unit_problems = _resolve_units(prepared, units, wording)
+    gathered = _Gathered(target, repeated_depths, list(unit_problems), wording=wording)
     for p in prepared:
         _take_file(p, gathered)
     _take_sampled_cores(gathered)
@@ -1104,7 +1119,7 @@ def build_coreset(
         "columns": {p.table.file: p.roles for p in prepared},
     }
     if any(p.kind == "units" for p in unit_problems):
-        suspect = feet_suspected(derived, meta["sample_step"])
+        suspect = feet_suspected(derived, meta["sample_step"], wording)
         if suspect is not None:
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
@@ -1121,12 +1136,13 @@ def _prepare_tables(
     layout: str | None,
     columns: Mapping[str, str] | None,
     scheme: FaciesScheme | None,
+    wording: Wording = COMMAND_LINE,
 ) -> list[_Rows]:
     """Apply the column roles to every table (see :func:`_prepare`), releasing its rows."""
     columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
     prepared = []
     for t in tables:
-        prepared.append(_prepare(t, layout, columns, scheme))
+        prepared.append(_prepare(t, layout, columns, scheme, wording))
         t.frame = t.frame.iloc[:0]  # the rows now live in the prepared table: one copy kept
     return prepared
 
@@ -1149,6 +1165,7 @@ class _Gathered:
     blocks: list[tuple[pd.DataFrame, list[str], np.ndarray]] = field(default_factory=list)
     steps: dict[str, float] = field(default_factory=dict)
     pending: list[tuple[str, pd.DataFrame, _Rows]] = field(default_factory=list)
+    wording: Wording = COMMAND_LINE
 
     @property
     def tolerance(self) -> float:
@@ -1243,7 +1260,7 @@ def _take_samples(
         name = names[local[rows[a]]]
         part = frame.take(rows[a:b]).reset_index(drop=True)
         part, found = _check_samples(
-            part, p.table.file, name, gathered.target, gathered.repeated_depths
+            part, p.table.file, name, gathered.target, gathered.repeated_depths, gathered.wording
         )
         gathered.problems += found
         gathered.pending.append((name, part, p))
@@ -1472,7 +1489,9 @@ FEET_STEPS = (0.25, 0.5)
 TOO_DEEP_M = 6000.0
 
 
-def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
+def feet_suspected(
+    cores, sample_step: Mapping[str, float], wording: Wording = COMMAND_LINE
+) -> Problem | None:
     """A ``units-suspect`` warning when depths assumed to be metres look like feet.
 
     Logs exported in feet are commonly sampled every 0.5 ft (or 0.25 ft) at
@@ -1490,11 +1509,14 @@ def feet_suspected(cores, sample_step: Mapping[str, float]) -> Problem | None:
         bases = np.concatenate([c.intervals["base"].to_numpy(dtype=float) for c in cores] or [[]])
     if not len(depths):
         return None
-    return feet_suspected_in(depths, float(bases.max()), sample_step)
+    return feet_suspected_in(depths, float(bases.max()), sample_step, wording)
 
 
 def feet_suspected_in(
-    depths: np.ndarray, deepest: float, sample_step: Mapping[str, float]
+    depths: np.ndarray,
+    deepest: float,
+    sample_step: Mapping[str, float],
+    wording: Wording = COMMAND_LINE,
 ) -> Problem | None:
     """:func:`feet_suspected` of the tops ``depths`` of every interval and the ``deepest``
     base; ``depths`` are only read where ``sample_step`` holds a step (the median of
@@ -1511,6 +1533,5 @@ def feet_suspected_in(
         "warning",
         "units-suspect",
         f"depths look like feet ({why}) but no units are stated, so they are read as "
-        "metres; give --units ft, or units: ft in the source file (units: m if they "
-        "really are metres)",
+        f"metres; {wording.units_fix()}",
     )
