@@ -57,6 +57,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
         "p_FSST",
         "p_LST",
         "p_TST",
+        "interpreted_tract",  # the source's own tract column, beside the decoded one
     ]
     assert len(tracts) == 8 * 60
     surfaces = pd.read_csv(tmp_path / "out" / "surfaces.csv", skiprows=1)
