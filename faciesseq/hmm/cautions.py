@@ -60,18 +60,20 @@ def read_cautions(model) -> list[str]:
 def unlabelled_caution(model) -> str | None:
     """A caution for every fit without labels: its tract names rest on the priors (the
     cyclic order, the one deepening tract), which were tuned on the project's own
-    generators. On cores of two generators written blind it read near chance on one
-    and 0.57-0.80 on the other (``benchmarks/tract_model.md``, "Cores of a generator
-    written blind" and "A second generator written blind")."""
+    generators. On held-out cores of two generators written blind (seeds 471-475, with
+    their schemes) it read 0.33-0.43 on one and 0.57-0.83 on the other, TST against the
+    other tracts 0.70-0.94, and 0.72-0.92 with three labelled cores
+    (``python benchmarks/eval_blind_generator.py --seeds 471,472,473,474,475``, README
+    "What has been measured")."""
     if getattr(model, "n_labelled_", 0):
         return None
     return (
         "caution: no bed was labelled, so the tract names rest on the model's priors (the "
         "cyclic order, the one deepening tract); on cores of two generators it was not "
-        "tuned on, fits without labels read 0.34-0.42 and 0.57-0.80 (balanced accuracy, "
-        "chance 0.25), against 0.76-0.92 with three labelled cores (docs/hmm.md, 'Cores of "
-        "a generator written blind'): read the column as a first draft, or label a few "
-        "cores (fit --labels)"
+        "tuned on, fits without labels read 0.33-0.43 and 0.57-0.83 (balanced accuracy, "
+        "chance 0.25; TST against the other tracts 0.70-0.94), against 0.72-0.92 with "
+        "three labelled cores (README, 'What has been measured'): read the column as a "
+        "first draft, or label a few cores (fit --labels)"
     )
 
 
