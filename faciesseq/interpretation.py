@@ -60,6 +60,11 @@ class CoreInterpretation:
         uncertainty interval around the pick), ``segment``.
     log_likelihood
         Log-likelihood of the core under the model (sum over its segments).
+    probabilities_checked
+        Whether the model's probabilities were checked against known tracts (that of
+        the :class:`Interpretation` the core was taken from; false where no model said
+        so), which :func:`faciesseq.report.striplog.strip_log` notes under the
+        probabilities.
     """
 
     core: str
@@ -70,6 +75,7 @@ class CoreInterpretation:
     boundaries: pd.DataFrame
     picks: pd.DataFrame
     log_likelihood: float
+    probabilities_checked: bool = False
 
     def __repr__(self) -> str:
         return (
@@ -388,6 +394,7 @@ class Interpretation:
             self.tracts,
             self.surfaces,
             log_likelihood=float(well["log_likelihood"]),
+            probabilities_checked=self.probabilities_checked,
             **spans,
         )
 

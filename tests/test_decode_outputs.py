@@ -98,6 +98,8 @@ def test_decode_puts_the_flag_and_the_note_in_the_interpretation_meta(database, 
         interp = model.decode(cores)
         assert interp.meta["probabilities_checked"] is expected
         assert interp.probabilities_checked is expected
+        # every core taken from it says the same (strip_log reads it for its note)
+        assert all(core.probabilities_checked is expected for core in interp)
         note = probability_note(model.temperature_, model.calibration_)
         assert interp.meta["probabilities_note"] == interp.probabilities_note == note
         assert "\n" not in note
@@ -169,8 +171,11 @@ def test_strip_log_says_when_the_probabilities_were_not_checked(database, models
     core = next(iter(model.decode(synth.cores(1, 30, seed=9))))
     scheme = load_scheme(database / "scheme.yaml")
     tm = model.tract_model_
+    assert not core.probabilities_checked
+    # by default the note follows the decoding: this model's probabilities were not checked
+    assert UNCHECKED_NOTE in _xlabels(strip_log(core, scheme, tm))
     assert UNCHECKED_NOTE in _xlabels(strip_log(core, scheme, tm, checked=False))
-    assert UNCHECKED_NOTE not in _xlabels(strip_log(core, scheme, tm))
+    assert UNCHECKED_NOTE not in _xlabels(strip_log(core, scheme, tm, checked=True))
 
 
 # ---------------------------------------------------------------- appendix tables

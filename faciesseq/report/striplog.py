@@ -561,7 +561,7 @@ def strip_log(
     step: float | None = None,
     title: str | None = None,
     height: float = 9.0,
-    checked: bool = True,
+    checked: bool | None = None,
 ) -> Figure:
     """Draw the strip log of one decoded core.
 
@@ -597,9 +597,11 @@ def strip_log(
     height
         Figure height in inches (width is the page width).
     checked
-        Whether the model's probabilities were checked against known tracts
-        (``Interpretation.probabilities_checked``); if not, the note
-        :data:`UNCHECKED_NOTE` is printed under the tract probability track.
+        Whether the model's probabilities were checked against known tracts; if
+        not, the note :data:`UNCHECKED_NOTE` is printed under the tract probability
+        track. Default: what the decoding said
+        (``CoreInterpretation.probabilities_checked``), so a core decoded by a model
+        whose probabilities nobody checked carries the note.
 
     Returns
     -------
@@ -616,6 +618,8 @@ def strip_log(
     77:257-286).
     """
     interp = _one_core(interp)
+    if checked is None:
+        checked = interp.probabilities_checked
     if path is not None:
         check_figure_path(path)
     beds = interp.beds
@@ -686,7 +690,7 @@ def strip_logs(
     interps: Sequence[CoreInterpretation],
     scheme: FaciesScheme | None = None,
     tract_model: TractModel | None = None,
-    checked: bool = True,
+    checked: bool | None = None,
     *,
     model=None,
 ) -> list[Figure]:
