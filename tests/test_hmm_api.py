@@ -16,6 +16,7 @@ import pytest
 from faciesseq.cli import main
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError, InputError
+from faciesseq.hmm import calibration
 from faciesseq.hmm.calibration import HeldOut, describe_calibration, fit_temperature
 from faciesseq.hmm.encoding import UnseenCategoryWarning
 from faciesseq.hmm.model import TractHMM
@@ -79,45 +80,53 @@ def two_labelled():
 
 def test_two_labelled_cores_do_not_sharpen_the_probabilities(two_labelled):
     # The API audit's case: the Brier score of the two one-core folds was lowest at
-    # the search's floor, T = 0.25, which raised the held-out log loss 0.60 -> 1.41.
+    # the search's old floor, T = 0.25, which raised the held-out log loss 0.60 -> 1.41
+    # and put every core's probabilities near 1. The search now starts at 1.
     model, _ = two_labelled
     cal = model.calibration_
     assert cal["folds"] == 2 and cal["cores"] == 2
     assert model.temperature_ == 1.0
-    assert cal["rejected"]["temperature"] < 1
-    assert cal["rejected"]["scores"]["brier"] < cal["before"]["brier"]
-    assert cal["rejected"]["scores"]["log_loss"] > cal["before"]["log_loss"]
     assert cal["after"] == cal["before"]
-    line = describe_calibration(model.temperature_, cal)
-    assert "the Brier score was lowest at a temperature of 0.25" in line
-    assert "raised the log loss from 0.60 to 1.41" in line
-    assert line.endswith("left as the model gives them (temperature 1).")
+    assert "temperature of 0.25" not in describe_calibration(model.temperature_, cal)
 
 
-def test_a_temperature_is_kept_only_where_both_proper_scores_improve():
-    # Independent beds (one per succession), 95 of 100 right at p = 0.9 and 5 wrong
-    # with p = 0.97, the true tract at 0.01: sharpening lowers the Brier score (the
-    # right beds gain more than the wrong lose, since it is bounded) and raises the
-    # log loss (the wrong beds' true tract goes to 0): the scores disagree.
+def _disagreeing_fold():
+    """Independent beds (one per succession), 95 of 100 right at p = 0.9 and 5 wrong
+    with p = 0.97, the true tract at 0.01: sharpening lowers the Brier score (the right
+    beds gain more than the wrong lose, since it is bounded) and raises the log loss
+    (the wrong beds' true tract goes to 0): the scores disagree."""
     K, n = 4, 100
     probs = np.full((n, K), 0.1 / (K - 1))
     probs[:, 0] = 0.9
     probs[:5] = [0.97, 0.01, 0.01, 0.01]
     labels = np.zeros(n, dtype=int)
     labels[:5] = 1
-    fold = HeldOut(
-        np.log(probs),
-        np.ones(n, dtype=int),
-        np.full(K, 1 / K),
-        np.eye(K),
-        labels.copy(),
-        np.arange(K),
+    return HeldOut(
+        np.log(probs), np.ones(n, dtype=int), np.full(K, 1 / K), np.eye(K), labels, np.arange(K)
     )
+
+
+def test_the_temperature_never_sharpens():
+    # the Brier score alone would sharpen these (below); the search starts at 1
+    result = fit_temperature([_disagreeing_fold()])
+    assert result["temperature"] == 1.0 and result["after"] == result["before"]
+
+
+def test_a_temperature_is_kept_only_where_both_proper_scores_improve(monkeypatch):
+    # the rule on its own: with the search opened below 1, the Brier score's
+    # sharpening raises the log loss, so it is not kept
+    monkeypatch.setattr(calibration, "TEMPERATURE_BOUNDS", (0.25, 20.0))
+    fold = _disagreeing_fold()
     result = fit_temperature([fold])
     assert result["temperature"] == 1.0
     assert result["rejected"]["temperature"] < 1
+    assert result["rejected"]["scores"]["brier"] < result["before"]["brier"]
     assert result["rejected"]["scores"]["log_loss"] > result["before"]["log_loss"]
+    line = describe_calibration(1.0, {**result, "folds": 1, "cores": 1})
+    assert "raised the log loss" in line
+    assert line.endswith("left as the model gives them (temperature 1).")
     # a third of the beds wrong at p = 0.9: both scores widen, and the temperature is kept
+    labels = fold.labels.copy()
     labels[:33] = 1
     widened = fit_temperature([replace(fold, labels=labels)])
     assert widened["temperature"] > 1 and "rejected" not in widened

@@ -511,16 +511,17 @@ def _ranks(ranks: Any, n_facies: int, source: str) -> np.ndarray | None:
 
 
 def _temperature(params: Mapping, source: str) -> float:
-    """The posterior temperature, inside the bounds calibration may choose."""
+    """The posterior temperature: positive and at most the search's top (model files
+    written before 2026-12-05 may hold one below 1, which the search then allowed)."""
     temperature = params.get("temperature", 1.0)
     if (
         isinstance(temperature, bool)
         or not isinstance(temperature, int | float)
-        or not TEMPERATURE_BOUNDS[0] <= float(temperature) <= TEMPERATURE_BOUNDS[1]
+        or not 0 < float(temperature) <= TEMPERATURE_BOUNDS[1]
     ):
         raise ModelFileError(
-            f"parameters.temperature must be a number in [{TEMPERATURE_BOUNDS[0]}, "
-            f"{TEMPERATURE_BOUNDS[1]}], got {temperature!r}",
+            f"parameters.temperature must be a number above 0 and at most "
+            f"{TEMPERATURE_BOUNDS[1]}, got {temperature!r}",
             file=source,
         )
     return float(temperature)
