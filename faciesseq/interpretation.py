@@ -65,6 +65,10 @@ class CoreInterpretation:
         the :class:`Interpretation` the core was taken from; false where no model said
         so), which :func:`faciesseq.report.striplog.strip_log` notes under the
         probabilities.
+    tracts_labelled
+        Whether the fit that decoded the core saw labelled beds (else the tract
+        names rest on its priors, which the strip log notes); true where no model
+        said otherwise.
     """
 
     core: str
@@ -76,6 +80,7 @@ class CoreInterpretation:
     picks: pd.DataFrame
     log_likelihood: float
     probabilities_checked: bool = False
+    tracts_labelled: bool = True
 
     def __repr__(self) -> str:
         return (
@@ -395,6 +400,7 @@ class Interpretation:
             self.surfaces,
             log_likelihood=float(well["log_likelihood"]),
             probabilities_checked=self.probabilities_checked,
+            tracts_labelled=self.tracts_labelled,
             **spans,
         )
 
@@ -416,6 +422,14 @@ class Interpretation:
         (``meta["probabilities_checked"]``, set by ``TractHMM.decode``; false
         where no model said so)."""
         return bool(self.meta.get("probabilities_checked", False))
+
+    @property
+    def tracts_labelled(self) -> bool:
+        """Whether the fit that decoded these cores saw labelled beds
+        (``meta["tracts_labelled"]``, set by ``TractHMM.decode``); where false, the
+        tract names rest on the model's priors and :attr:`probabilities_note` says so.
+        True where no model said otherwise (interpretations made before the flag)."""
+        return bool(self.meta.get("tracts_labelled", True))
 
     @property
     def probabilities_note(self) -> str:

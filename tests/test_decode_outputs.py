@@ -19,12 +19,14 @@ from faciesseq.hmm.calibration import (
     describe_calibration,
     probability_note,
 )
+from faciesseq.hmm.cautions import UNLABELLED_NOTE
 from faciesseq.hmm.modelfile import load_model
 from faciesseq.interpretation import Interpretation, core_summary
 from faciesseq.report.document import TableBlock, format_probability
 from faciesseq.report.html import table_html
 from faciesseq.report.latex import table_latex
 from faciesseq.report.striplog import UNCHECKED_NOTE, strip_log
+from faciesseq.report.striplog import UNLABELLED_NOTE as STRIP_UNLABELLED
 from faciesseq.scheme import load_scheme
 
 UNCHECKED = "the model's own and were not checked against known tracts"
@@ -101,6 +103,11 @@ def test_decode_puts_the_flag_and_the_note_in_the_interpretation_meta(database, 
         # every core taken from it says the same (strip_log reads it for its note)
         assert all(core.probabilities_checked is expected for core in interp)
         note = probability_note(model.temperature_, model.calibration_)
+        labelled = key == "checked"  # the other two were fitted without labels
+        assert interp.tracts_labelled is labelled
+        assert all(core.tracts_labelled is labelled for core in interp)
+        if not labelled:
+            note = f"{note} {UNLABELLED_NOTE}"
         assert interp.meta["probabilities_note"] == interp.probabilities_note == note
         assert "\n" not in note
         assert (UNCHECKED in note) is (not expected)
@@ -173,9 +180,33 @@ def test_strip_log_says_when_the_probabilities_were_not_checked(database, models
     tm = model.tract_model_
     assert not core.probabilities_checked
     # by default the note follows the decoding: this model's probabilities were not checked
-    assert UNCHECKED_NOTE in _xlabels(strip_log(core, scheme, tm))
-    assert UNCHECKED_NOTE in _xlabels(strip_log(core, scheme, tm, checked=False))
+    # this model was also fitted without labels: both notes, in one line
+    for drawn in (strip_log(core, scheme, tm), strip_log(core, scheme, tm, checked=False)):
+        assert "not checked; names from priors (no labels)" in _xlabels(drawn)
+        assert len(drawn.axes[2].get_xlabel().splitlines()) == 2
     assert UNCHECKED_NOTE not in _xlabels(strip_log(core, scheme, tm, checked=True))
+    # fitted without labels: the names rest on the priors, whatever the check
+    assert STRIP_UNLABELLED in _xlabels(strip_log(core, scheme, tm, checked=True))
+
+
+def test_outputs_of_a_fit_without_labels_say_the_names_rest_on_priors(database, models, tmp_path):
+    # checked by simulation (the bootstrap), yet no geologist named a tract: every
+    # output says so beside the check
+    out = tmp_path / "out"
+    assert _decode(database, models["bootstrap"], out, "--view") == 0
+    for name in TABLES:
+        first = _first_line(out / f"{name}.csv")
+        assert "parametric bootstrap" in first and UNLABELLED_NOTE in first, name
+    page = (out / "view.html").read_text(encoding="utf-8")
+    assert '"labelled":false' in page and "Tract names from the model's priors" in page
+    labelled = tmp_path / "labelled"
+    assert _decode(database, models["checked"], labelled, "--view") == 0
+    assert UNLABELLED_NOTE not in _first_line(labelled / "tracts.csv")
+    assert '"labelled":true' in (labelled / "view.html").read_text(encoding="utf-8")
+    model = load_model(models["checked"])
+    core = next(iter(model.decode(synth.cores(1, 30, seed=9))))
+    assert core.tracts_labelled
+    assert STRIP_UNLABELLED not in _xlabels(strip_log(core, model=model))
 
 
 # ---------------------------------------------------------------- appendix tables

@@ -57,6 +57,16 @@ def read_cautions(model) -> list[str]:
     return [c for c in found if c]
 
 
+#: Added to the probability note of every core decoded by a fit without labels (the
+#: ``#`` line of decode's tables, the view, the appendix): the short form of
+#: :func:`unlabelled_caution`, which the fit prints.
+UNLABELLED_NOTE = (
+    "No bed was labelled: the tract names rest on the model's priors, and on cores of "
+    "generators it was not tuned on fits without labels named the tracts near chance "
+    "(README, 'What has been measured'); read the column as a first draft."
+)
+
+
 def unlabelled_caution(model) -> str | None:
     """A caution for every fit without labels: its tract names rest on the priors (the
     cyclic order, the one deepening tract), which were tuned on the project's own

@@ -28,6 +28,7 @@ from faciesseq.core import (
 from faciesseq.errors import InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
+from faciesseq.hmm.cautions import UNLABELLED_NOTE
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
 from faciesseq.hmm.inputs import as_successions, check_grid_step
 from faciesseq.hmm.said_once import said_once
@@ -341,6 +342,9 @@ class Decoding:
         tables = {"beds": beds, "boundaries": bounds, "picks": picks}
         meta = {"unit": self.unit_, "step": self.step, "features": list(self.features_)}
         meta |= probability_meta(self.temperature_, self.calibration_)
+        meta["tracts_labelled"] = bool(getattr(self, "n_labelled_", 0))
+        if not meta["tracts_labelled"]:
+            meta["probabilities_note"] = f"{meta['probabilities_note']} {UNLABELLED_NOTE}"
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 
     def _pick_frame(self, bounds, state, surf, flow, mass) -> pd.DataFrame:

@@ -48,6 +48,7 @@ __all__ = [
     "FIGURE_SUFFIXES",
     "GRAIN_CLASSES",
     "UNCHECKED_NOTE",
+    "UNLABELLED_NOTE",
     "bed_widths",
     "check_figure_path",
     "facies_name",
@@ -60,6 +61,8 @@ __all__ = [
 GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
 #: Printed under the probability track when the probabilities were not checked.
 UNCHECKED_NOTE = "probabilities not checked"
+#: Printed under the probability track of a core decoded by a fit without labels.
+UNLABELLED_NOTE = "tract names from priors (no labels)"
 _GAP = "#f0f0f0"
 #: Suffixes of the figure files written (the format follows the suffix).
 FIGURE_SUFFIXES = (".png", ".pdf", ".svg")
@@ -292,7 +295,19 @@ def _tract_track(ax, beds: pd.DataFrame, tracts: tuple[str, ...]) -> None:
     ax.set_xlabel("most likely")
 
 
-def _probability_track(ax, beds, tracts, checked) -> None:
+def _probability_note(checked: bool, labelled: bool) -> str:
+    """The line under the probability track: nothing, one note, or both in one line
+    (a third line would run into the legends)."""
+    if checked and labelled:
+        return ""
+    if labelled:
+        return f"\n{UNCHECKED_NOTE}"
+    if checked:
+        return f"\n{UNLABELLED_NOTE}"
+    return "\nnot checked; names from priors (no labels)"
+
+
+def _probability_track(ax, beds, tracts, checked, labelled=True) -> None:
     """The tract posteriors, stacked."""
     b_top = beds["top"].to_numpy(float)
     b_base = beds["base"].to_numpy(float)
@@ -304,7 +319,7 @@ def _probability_track(ax, beds, tracts, checked) -> None:
     ax.set_xlim(0, 1)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("tract probability")
-    ax.set_xlabel("posterior (stacked)" + ("" if checked else f"\n{UNCHECKED_NOTE}"))
+    ax.set_xlabel("posterior (stacked)" + _probability_note(checked, labelled))
 
 
 def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[float, str]]:
@@ -506,7 +521,7 @@ def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool) -> No
             ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
     _facies_track(facies_ax, beds, scheme, interp.units)
     _tract_track(tract_ax, beds, tracts)
-    _probability_track(probability_ax, beds, tracts, checked)
+    _probability_track(probability_ax, beds, tracts, checked, interp.tracts_labelled)
     pick_lines = _surface_track(surface_ax, interp, step)
     for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
         ax.hlines(

@@ -170,7 +170,7 @@ def view_data(
     Returns
     -------
     dict
-        ``title``, ``checked`` and ``note`` (whether the probabilities were
+        ``title``, ``checked``, ``labelled`` and ``note`` (whether the probabilities were
         checked against known tracts), ``units``, ``grain_classes``,
         ``tracts``, ``surfaces`` and ``facies`` (``code``, ``name``,
         ``colour``) and ``cores``: per core its beds (``top``, ``base``,
@@ -197,6 +197,7 @@ def view_data(
     return {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
+        "labelled": interpretation.tracts_labelled,
         "note": interpretation.probabilities_note,
         "units": units[0] if len(units) == 1 else ", ".join(units),
         "grain_classes": list(GRAIN_CLASSES),
@@ -441,11 +442,12 @@ _JS = r"""
 
   // ---------------------------------------------------------------- note and controls
   const note = document.getElementById("note");
-  if (DATA.checked) {
+  if (DATA.checked && DATA.labelled) {
     note.textContent = DATA.note;
   } else {
     note.classList.add("unchecked");
-    note.textContent = "Probabilities not checked. " + DATA.note;
+    note.textContent = (DATA.checked ? "Tract names from the model's priors. "
+      : "Probabilities not checked. ") + DATA.note;
   }
   const unitsLabel = document.getElementById("units");
   function showUnits() {
