@@ -255,3 +255,69 @@ def test_a_well_missing_the_top_cycle_disputes_a_top_to_top_tie():
     ties = [(0, 0, 0.0), (4, 1, 0.0), (5, 2, 0.0), (6, 3, 0.0), (7, 4, 0.0), (8, 5, 0.0)]
     assert disputed_ties(full, short, ties) == {(0, 0)}
     assert disputed_ties(full, short, ties[1:]) == set()
+
+
+def _offset_pair():
+    """Two wells with the same picks MFS, MRS, SB 5 m apart, 5 m below the top of the
+    core in A and 30 m below it in B (the cores start at different levels of the
+    succession): every same-kind pair lies 0.5 of the column apart in fractional
+    position, as the audit's NU-02 and NU-03."""
+    kinds = ["MFS", "MRS", "SB"]
+    upper = [5.0, 10.0, 15.0]
+    picks = pd.DataFrame(
+        {
+            "core": ["A"] * 3 + ["B"] * 3,
+            "surface": kinds * 2,
+            "depth": upper + [d + 25.0 for d in upper],
+            "probability": 1.0,
+        }
+    )
+    wells = pd.DataFrame({"core": ["A", "B"], "section": "dip", "position": [0.0, 3.0]})
+    return picks, dict.fromkeys("AB", (0.0, 50.0)), wells
+
+
+def test_cores_over_different_intervals_are_tied_by_order_and_doubtful():
+    picks, extents, wells = _offset_pair()
+    a = PickColumn.from_picks(picks["surface"][:3], picks["depth"][:3], np.ones(3), 0, 50)
+    b = PickColumn.from_picks(picks["surface"][3:], picks["depth"][3:], np.ones(3), 0, 50)
+    assert align_columns(a, b) == []  # the positional reading ties nothing
+    corr = correlate(picks, extents, wells)
+    ties = corr.ties
+    assert list(zip(ties["depth_left"], ties["depth_right"])) == [
+        (d, d + 25.0) for d in (5.0, 10.0, 15.0)
+    ]
+    assert (ties["tied_by"] == "order").all()
+    assert ties["doubtful"].all() and (ties["confidence"] <= 0.5).all()
+    assert corr.picks["doubtful"].all()
+    assert corr.untied_pairs.empty
+    assert corr.to_dict()["sections"]["dip"]["ties_by_order"] == 3
+    assert corr.order_tied_messages() == [
+        "section dip: A and B tied by the order of their picks alone (their cores cover "
+        "different parts of the succession): 3 tie(s), all doubtful"
+    ]
+
+
+def test_order_ties_stay_doubtful_under_a_low_threshold():
+    picks, extents, wells = _offset_pair()
+    corr = correlate(picks, extents, wells, AlignmentOptions(doubtful=0.1))
+    assert corr.ties["doubtful"].all()
+
+
+def test_a_pair_sharing_no_surface_is_listed_and_said():
+    picks = pd.DataFrame(
+        {
+            "core": ["A", "B", "C"],
+            "surface": ["MFS", "SB", "SB"],
+            "depth": [10.0, 12.0, 12.0],
+            "probability": 1.0,
+        }
+    )
+    wells = pd.DataFrame({"core": ["A", "B", "C"], "section": "dip", "position": [0.0, 3.5, 7.1]})
+    extents = dict.fromkeys("ABC", (0.0, 30.0))
+    corr = correlate(picks, extents, wells)
+    assert list(corr.untied_pairs.itertuples(index=False, name=None)) == [("dip", "A", "B")]
+    assert corr.to_dict()["sections"]["dip"]["untied_pairs"] == [["A", "B"]]
+    assert corr.untied_messages() == [
+        "section dip: A and B share no tied surface; their columns are drawn unjoined"
+    ]
+    assert len(corr.ties) == 1 and corr.ties["tied_by"].iloc[0] == "position"

@@ -153,3 +153,31 @@ def test_wells_without_section_column_write_section_png_and_a_labelled_page(
     data = html.split('id="section-data">', 1)[1].split("</script>", 1)[0]
     assert '"position_unit": "km"' in data or '"position_unit":"km"' in data
     assert "Pick probabilities (from the model file): " in data
+
+
+def test_a_pair_without_a_tie_is_said_on_stderr_and_drawn_unjoined(
+    database, tmp_path, capsys, monkeypatch
+):
+    # the audit: a pair left without a tie was silent, and the figure shaded tracts
+    # between its two columns
+    from faciesseq.correlation import chain
+
+    tie_pair = chain._tie_pair
+
+    def no_tie_after_qb03(left, right, options):
+        # QB-03 -> QB-05: nothing tied, by either reading
+        return [] if left.top == columns["QB-03"] else tie_pair(left, right, options)
+
+    cores = pd.read_csv(database / "cores.csv")
+    columns = cores.groupby("core")["top"].min().to_dict()
+    monkeypatch.setattr(chain, "_tie_pair", no_tie_after_qb03)
+    out = tmp_path / "corr"
+    assert _run(database, out) == 0
+    err = capsys.readouterr().err
+    message = (
+        "faciesseq correlate: section central: QB-03 and QB-05 share no tied surface; "
+        "their columns are drawn unjoined"
+    )
+    assert err.count(message) == 1
+    ties = pd.read_csv(out / "ties.csv")
+    assert not ((ties["core_left"] == "QB-03") & (ties["core_right"] == "QB-05")).any()

@@ -69,7 +69,10 @@ def test_fills_keep_depth_order_and_never_cross():
         + [{"core": "R", "top": t, "base": b, "tract": c} for c, t, b in right]
     )
     columns = {c: beds[beds["core"] == c] for c in ("L", "R")}
-    ties = pd.DataFrame(columns=["core_left", "core_right", "depth_left", "depth_right"])
+    # one tie at the base of both columns: every run lies between the tops and it
+    ties = pd.DataFrame(
+        [{"core_left": "L", "core_right": "R", "depth_left": 6.0, "depth_right": 6.0}]
+    )
     bands = sorted(tract_bands(ties, columns, ["L", "R"]), key=lambda band: band[2][0])
     assert [code for *_, code in bands] == ["TST", "HST"]
     tops_right = [band[2][2] for band in bands]
@@ -100,3 +103,90 @@ def test_title_does_not_repeat_the_default_section_name_and_the_axis_has_units()
 )
 def test_distance_label_names_its_units(column, label):
     assert distance_label(column) == label
+
+
+def _untied_correlation():
+    """Wells A and B with picks of no common kind: the pair shares no tie."""
+    picks = pd.DataFrame(
+        [
+            {"core": "A", "surface": "MFS", "depth": 12.0, "probability": 0.9},
+            {"core": "B", "surface": "SB", "depth": 10.0, "probability": 0.9},
+        ]
+    )
+    wells = pd.DataFrame(
+        [
+            {"core": "A", "section": "dip", "position": 0.0},
+            {"core": "B", "section": "dip", "position": 3.0},
+        ]
+    )
+    return correlate(picks, {"A": (0.0, 15.0), "B": (0.0, 16.0)}, wells)
+
+
+def test_wells_without_a_tie_are_drawn_unjoined():
+    # the audit's section drew HST/LST/FSST/TST fills between two wells with no tie
+    corr = _untied_correlation()
+    assert corr.ties.empty
+    beds = _beds()
+    columns = {c: beds[beds["core"] == c] for c in ("A", "B")}
+    assert tract_bands(corr.ties, columns, ["A", "B"]) == []
+    with figure_style():
+        fig = section_plot(corr, "dip", beds, datum="depth", tract_order=TRACTS)
+    ax = fig.axes[0]
+    # no fill polygon, no tie line: only the columns' rectangles and the datum-less axes
+    assert not [p for p in ax.patches if type(p).__name__ == "Polygon"]
+    assert not ax.lines
+
+
+def _two_sections():
+    """Section dip ties MFS above SB; section strike SB above MFS (first appearance)."""
+    picks, wells, extents = [], [], {}
+    for section, kinds in (("dip", ("MFS", "SB")), ("strike", ("SB", "MFS"))):
+        for w, core in enumerate((f"{section}-1", f"{section}-2")):
+            extents[core] = (0.0, 15.0)
+            wells.append({"core": core, "section": section, "position": 3.0 * w})
+            for depth, kind in zip((5.0, 10.0), kinds):
+                picks.append({"core": core, "surface": kind, "depth": depth, "probability": 1.0})
+    return correlate(pd.DataFrame(picks), extents, pd.DataFrame(wells))
+
+
+def _legend_surfaces(fig) -> list[str]:
+    texts = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    return [t for t in texts if t in ("MFS", "SB", "MRS", "BSFR")]
+
+
+def test_section_legends_list_surfaces_in_one_order():
+    corr = _two_sections()
+    beds = pd.concat(
+        [
+            pd.DataFrame({"core": c, "top": [0.0], "base": [15.0], "tract": ["HST"]})
+            for c in corr.wells["core"]
+        ]
+    )
+    orders = {}
+    for surface_order in ((), ("BSFR", "SB", "MRS", "MFS")):
+        for section in ("dip", "strike"):
+            with figure_style():
+                fig = section_plot(corr, section, beds, datum="depth", surface_order=surface_order)
+            orders[(surface_order, section)] = _legend_surfaces(fig)
+    # without the model's order, the first appearance among all ties (dip's): MFS, SB
+    assert orders[((), "dip")] == orders[((), "strike")] == ["MFS", "SB"]
+    model = ("BSFR", "SB", "MRS", "MFS")
+    assert orders[(model, "dip")] == orders[(model, "strike")] == ["SB", "MFS"]
+
+
+def _texts(section) -> list[str]:
+    out = [getattr(block, "text", "") for block in section.blocks]
+    for sub in section.subsections:
+        out += _texts(sub)
+    return out
+
+
+def test_appendix_says_which_wells_share_no_tie():
+    from faciesseq.report.correlation_section import correlation_section
+
+    with figure_style():
+        section = correlation_section(_untied_correlation(), _beds(), TRACTS, datum="depth")
+    texts = _texts(section)
+    assert any(
+        "A and B share no tied surface; their columns are drawn unjoined" in t for t in texts
+    )

@@ -70,6 +70,7 @@ def _add_correlation(appendix, wells, cores, interpretation) -> None:
         interpretation.tracts_table(),
         tuple(interpretation.tracts),
         units=cores.units,
+        surface_order=tuple(interpretation.surfaces),
         position_label=wells.position_label,
     )
     add_section(appendix, section, "correlation", corr.to_dict())

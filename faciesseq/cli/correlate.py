@@ -131,6 +131,8 @@ def run(args: argparse.Namespace) -> int:
     corr = correlate(
         interp.picks_table(), extents, wells.frame, AlignmentOptions(doubtful=args.doubtful)
     )
+    for message in (*corr.order_tied_messages(), *corr.untied_messages()):
+        sys.stderr.write(f"faciesseq correlate: {message}\n")
     tracts = interp.tracts_table()
     out = Path(args.output)
     with new_folder(out) as temp:
@@ -154,14 +156,18 @@ def run(args: argparse.Namespace) -> int:
                 units=scheme_cores.units,
                 position_label=wells.position_label,
                 tract_order=tuple(interp.tracts),
+                surface_order=tuple(interp.surfaces),
             )
         if args.view:
             _write_view(temp / "section.html", corr, tracts, interp, args, wells, scheme_cores)
     ties = corr.ties
+    n_order = int((ties["tied_by"] == "order").sum())
     print(
         f"correlated {len(corr.wells)} well(s) in {corr.wells['section'].nunique()} section(s): "
         f"{corr.picks['surface_id'].nunique()} surface(s), {len(ties)} tie(s), "
         f"{int(ties['doubtful'].sum())} doubtful"
+        + (f" ({n_order} by the order of picks alone)" if n_order else "")
+        + (f", {len(corr.untied_pairs)} pair(s) of wells untied" if len(corr.untied_pairs) else "")
     )
     extra = ", section.html" if args.view else ""
     print(f"written to {out}/ (correlation.csv, ties.csv, section figures{extra})")

@@ -35,6 +35,7 @@ import numpy as np
 __all__ = [
     "AlignmentOptions",
     "PickColumn",
+    "align_by_order",
     "align_columns",
     "disputed_ties",
     "fitted_depth_map",
@@ -153,10 +154,18 @@ def tie_costs(
     mapped = intercept + slope * upper.depth
     fi, fj = mapped[:, None] / scale, lower.depth[None, :] / scale
     cost = 0.5 * ((fi - fj) / options.sigma) ** 2
+    return cost + _cycle_costs(upper, lower, options, slope, scale)
+
+
+def _cycle_costs(
+    upper: PickColumn, lower: PickColumn, options: AlignmentOptions, slope: float, scale: float
+) -> np.ndarray:
+    """The cycle-thickness term of every pair (0 where either pick has no cycle above it),
+    ``inf`` between picks of other kinds."""
     ci, cj = slope * upper.cycle[:, None], lower.cycle[None, :]
     with np.errstate(divide="ignore", invalid="ignore"):
         log_ratio = np.log(np.maximum(ci, 1e-6 * scale)) - np.log(np.maximum(cj, 1e-6 * scale))
-    cost = cost + np.where(np.isfinite(log_ratio), 0.5 * (log_ratio / options.tau) ** 2, 0.0)
+    cost = np.where(np.isfinite(log_ratio), 0.5 * (log_ratio / options.tau) ** 2, 0.0)
     same = upper.surface[:, None] == lower.surface[None, :]
     return np.where(same, cost, np.inf)
 
@@ -221,6 +230,36 @@ def align_columns(
     """
     options = options or AlignmentOptions()
     return _align(upper, lower, options, tie_costs(upper, lower, options))
+
+
+def align_by_order(
+    upper: PickColumn, lower: PickColumn, options: AlignmentOptions | None = None
+) -> list[tuple[int, int, float]]:
+    """Tie two wells' picks by their order alone: the fallback for a pair that
+    :func:`align_columns` leaves without a tie.
+
+    The fractional positions of :func:`align_columns` assume both columns span the
+    same interval of the succession; two cores that cover different parts of it
+    (one starts a cycle lower) then have every same-kind pair too far apart to tie,
+    even where both show the same sequence of picks. This reading drops the
+    position term and keeps the rest: only picks of one kind, no crossing, the gap
+    cost, and the cycle-thickness term (thicknesses compared in the wells' own
+    depth units, there being no mapping of one column onto the other). A tie then
+    costs its cycle term alone, so the two sequences of picks are tied as far as
+    their order allows unless cycle thicknesses disagree by more than the gap
+    cost; among alignments with as many ties, the one whose cycle thicknesses
+    agree best wins. In a cyclic succession this
+    can be one cycle off, so callers flag its ties doubtful
+    (:func:`faciesseq.correlation.chain.correlate`).
+
+    Returns
+    -------
+    list of (int, int, float)
+        As :func:`align_columns`, the cost being the cycle term alone.
+    """
+    options = options or AlignmentOptions()
+    scale = max(upper.base - upper.top, lower.base - lower.top, 1.0)
+    return _align(upper, lower, options, _cycle_costs(upper, lower, options, 1.0, scale))
 
 
 def disputed_ties(

@@ -8,6 +8,13 @@ correlated surface across three wells, and so on. Each correlated surface gets
 an identifier ``<section>:<kind>-<n>`` (``n`` counted from the top of the
 section by the surface's mean fractional position), and each tie a confidence
 (:func:`faciesseq.correlation.align.tie_confidence`).
+
+A pair of neighbours the alignment leaves without a tie (two cores that cover
+different parts of the succession: every same-kind pair lies too far apart in
+fractional position) is read again by the order of its picks alone
+(:func:`faciesseq.correlation.align.align_by_order`); those ties are ``tied_by``
+``order``, their confidence cut by :data:`ORDER_ONLY` and always doubtful. A pair
+still without a tie is listed in :attr:`Correlation.untied_pairs`.
 """
 
 from __future__ import annotations
@@ -24,6 +31,7 @@ import pandas as pd
 from faciesseq.correlation.align import (
     AlignmentOptions,
     PickColumn,
+    align_by_order,
     align_columns,
     disputed_ties,
     tie_confidence,
@@ -36,6 +44,10 @@ if TYPE_CHECKING:
 #: Factor on the confidence of a tie that the second reading of its pair of wells
 #: (depths mapped by the line through the ties) does not make: one of two readings.
 DISPUTED = 0.5
+
+#: Factor on the confidence of a tie made by the order of the picks alone, for a pair
+#: of wells the positional alignment leaves without a tie; such a tie is always doubtful.
+ORDER_ONLY = 0.5
 
 __all__ = ["Correlation", "correlate", "correlate_interpretation", "well_frame"]
 
@@ -65,7 +77,11 @@ TIE_COLUMNS = (
     "cost",
     "confidence",
     "doubtful",
+    "tied_by",
 )
+
+#: Columns of :attr:`Correlation.untied_pairs`.
+UNTIED_COLUMNS = ("section", "core_left", "core_right")
 
 
 @dataclass(frozen=True)
@@ -84,18 +100,26 @@ class Correlation:
     ties
         One row per tie between neighbouring wells: ``section``, ``surface_id``,
         ``surface``, ``core_left``, ``depth_left``, ``core_right``,
-        ``depth_right``, ``cost``, ``confidence``, ``doubtful``.
+        ``depth_right``, ``cost``, ``confidence``, ``doubtful``, ``tied_by``
+        (``position``: the alignment by fractional position; ``order``: by the order
+        of the picks alone, for a pair the first left without a tie; always doubtful).
     wells
         The wells used: ``core``, ``section``, ``position`` and the datum
         columns, in section order.
     options
         The alignment costs.
+    untied_pairs
+        Neighbouring wells that share no tied surface: ``section``, ``core_left``,
+        ``core_right``. Their columns stand unjoined in a section figure.
     """
 
     picks: pd.DataFrame
     ties: pd.DataFrame
     wells: pd.DataFrame
     options: AlignmentOptions = field(default_factory=AlignmentOptions)
+    untied_pairs: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(columns=list(UNTIED_COLUMNS))
+    )
 
     def to_frame(self) -> pd.DataFrame:
         """The correlated picks (``correlation.csv``), section by section, top down."""
@@ -107,12 +131,17 @@ class Correlation:
         for name, wells in self.wells.groupby("section", sort=False):
             ties = self.ties[self.ties["section"] == name]
             picks = self.picks[self.picks["section"] == name]
+            untied = self.untied_pairs[self.untied_pairs["section"] == name]
             sections[str(name)] = {
                 "wells": [str(c) for c in wells["core"]],
                 "surfaces": int(picks["surface_id"].nunique()),
                 "ties": len(ties),
                 "doubtful_ties": int(ties["doubtful"].sum()),
                 "mean_confidence": float(ties["confidence"].mean()) if len(ties) else None,
+                "ties_by_order": int((ties["tied_by"] == "order").sum()),
+                "untied_pairs": [
+                    [str(a), str(b)] for a, b in zip(untied["core_left"], untied["core_right"])
+                ],
             }
         return {
             "options": {
@@ -124,10 +153,39 @@ class Correlation:
             "sections": sections,
         }
 
+    def untied_messages(self) -> list[str]:
+        """One sentence per pair of neighbouring wells that share no tied surface."""
+        return [
+            untied_message(section, left, right)
+            for section, left, right in self.untied_pairs[list(UNTIED_COLUMNS)].itertuples(
+                index=False
+            )
+        ]
+
+    def order_tied_messages(self) -> list[str]:
+        """One sentence per pair of neighbouring wells tied by the order of their picks
+        alone (the alignment by position left them without a tie)."""
+        by_order = self.ties[self.ties["tied_by"] == "order"]
+        pairs = by_order.groupby(["section", "core_left", "core_right"], sort=False).size()
+        return [
+            f"section {section}: {left} and {right} tied by the order of their picks alone "
+            f"(their cores cover different parts of the succession): {n} tie(s), all doubtful"
+            for (section, left, right), n in pairs.items()
+        ]
+
     def surface_ids(self, section: str) -> list[str]:
         """Correlated surface ids of a section, top down."""
         picks = self.picks[self.picks["section"] == section]
         return list(dict.fromkeys(picks["surface_id"]))
+
+
+def untied_message(section, left: str, right: str) -> str:
+    """``section dip: NU-02 and NU-03 share no tied surface; their columns are drawn
+    unjoined``."""
+    return (
+        f"section {section}: {left} and {right} share no tied surface; "
+        "their columns are drawn unjoined"
+    )
 
 
 def _columns(picks: pd.DataFrame, extents: Mapping[str, tuple[float, float]]) -> dict:
@@ -154,6 +212,7 @@ class _Tie(NamedTuple):
     pick_right: int
     cost: float
     confidence: float
+    tied_by: str
 
 
 def correlate(
@@ -196,9 +255,15 @@ def correlate(
     extents = _extents(extents)
     wells = _wells_along_sections(well_frame(wells), extents)
     columns = _columns(picks, extents)
-    pick_rows, tie_rows = [], []
+    pick_rows, tie_rows, untied_rows = [], [], []
     for section, group in wells.groupby("section", sort=True):
         surfaces, ties = _chain_section(list(group["core"]), columns, options)
+        joined = {(t.core_left, t.core_right) for t in ties}
+        untied_rows += [
+            (section, left, right)
+            for left, right in itertools.pairwise(group["core"])
+            if (left, right) not in joined
+        ]
         surface_ids, mean_fraction = _name_surfaces(str(section), surfaces, columns)
         tie_rows += _tie_rows(section, ties, surface_ids, columns, options)
         positions = dict(zip(group["core"], group["position"]))
@@ -210,6 +275,7 @@ def correlate(
         pd.DataFrame(tie_rows, columns=TIE_COLUMNS),
         wells.reset_index(drop=True),
         options,
+        pd.DataFrame(untied_rows, columns=list(UNTIED_COLUMNS)),
     )
 
 
@@ -290,19 +356,34 @@ def _wells_along_sections(
 
 def _tie_pair(
     left: PickColumn, right: PickColumn, options: AlignmentOptions
-) -> list[tuple[int, int, float, float]]:
-    """``(pick_left, pick_right, cost, confidence)`` of each tie between two neighbours;
-    a tie the second reading of the pair does not make has its confidence cut by
-    :data:`DISPUTED`."""
+) -> list[tuple[int, int, float, float, str]]:
+    """``(pick_left, pick_right, cost, confidence, tied_by)`` of each tie between two
+    neighbours; a tie the second reading of the pair does not make has its confidence
+    cut by :data:`DISPUTED`. A pair left without a tie is aligned by the order of its
+    picks alone, each tie's confidence cut by :data:`ORDER_ONLY`."""
     ties = align_columns(left, right, options)
+    if not ties:
+        return [
+            (i, j, cost, ORDER_ONLY * _confidence(cost, left, right, i, j, options), "order")
+            for i, j, cost in align_by_order(left, right, options)
+        ]
     disputed = disputed_ties(left, right, ties, options)
     out = []
     for i, j, cost in ties:
-        confidence = tie_confidence(cost, left.probability[i], right.probability[j], options.gap)
+        confidence = _confidence(cost, left, right, i, j, options)
         if (i, j) in disputed:
             confidence *= DISPUTED
-        out.append((i, j, cost, confidence))
+        out.append((i, j, cost, confidence, "position"))
     return out
+
+
+def _confidence(cost, left: PickColumn, right: PickColumn, i, j, options) -> float:
+    return tie_confidence(cost, left.probability[i], right.probability[j], options.gap)
+
+
+def _doubtful(tie: _Tie, options: AlignmentOptions) -> bool:
+    """A tie below the confidence threshold, or one made by the order of picks alone."""
+    return tie.confidence < options.doubtful or tie.tied_by == "order"
 
 
 def _chain_section(
@@ -317,14 +398,14 @@ def _chain_section(
     surfaces: list[list[_Pick]] = []
     ties: list[_Tie] = []
     for left, right in itertools.pairwise(cores):
-        for i, j, cost, confidence in _tie_pair(columns[left], columns[right], options):
+        for i, j, cost, confidence, tied_by in _tie_pair(columns[left], columns[right], options):
             if (left, i) not in surface_of:
                 surface_of[(left, i)] = len(surfaces)
                 surfaces.append([(left, i)])
             surface = surface_of[(left, i)]
             surface_of[(right, j)] = surface
             surfaces[surface].append((right, j))
-            ties.append(_Tie(surface, left, i, right, j, cost, confidence))
+            ties.append(_Tie(surface, left, i, right, j, cost, confidence, tied_by))
     return surfaces, ties
 
 
@@ -368,7 +449,8 @@ def _tie_rows(
                 "depth_right": right.depth[tie.pick_right],
                 "cost": tie.cost,
                 "confidence": tie.confidence,
-                "doubtful": tie.confidence < options.doubtful,
+                "doubtful": _doubtful(tie, options),
+                "tied_by": tie.tied_by,
             }
         )
     return rows
@@ -387,12 +469,12 @@ def _pick_rows(
     """One row of :attr:`Correlation.picks` per tied pick, with the confidence of its tie
     to the previous well (the first well of a surface: to the next) and ``_order``, the
     surface's mean fractional position."""
-    tie_above = {(t.core_right, t.pick_right): (t.confidence, t.core_left) for t in ties}
-    tie_below = {(t.core_left, t.pick_left): t.confidence for t in ties}
+    tie_above = {(t.core_right, t.pick_right): (t, t.core_left) for t in ties}
+    tie_below = {(t.core_left, t.pick_left): t for t in ties}
     rows = []
     for s, picks in enumerate(surfaces):
         for core, k in picks:
-            confidence, tied_to = tie_above.get((core, k), (tie_below.get((core, k)), ""))
+            tie, tied_to = tie_above.get((core, k), (tie_below.get((core, k)), ""))
             column = columns[core]
             rows.append(
                 {
@@ -403,8 +485,8 @@ def _pick_rows(
                     "position": positions[core],
                     "depth": column.depth[k],
                     "probability": column.probability[k],
-                    "confidence": confidence,
-                    "doubtful": confidence < options.doubtful,
+                    "confidence": tie.confidence,
+                    "doubtful": _doubtful(tie, options),
                     "tied_to": tied_to,
                     "_order": mean_fraction[s],
                 }

@@ -2,8 +2,10 @@
 
 Each sub-section shows the section figure (:func:`faciesseq.report.section.section_plot`)
 and the table of its ties (correlated surface, the two wells and depths, the
-tie's confidence, whether it is doubtful). The section opens with the caution
-that a correlation from cores alone is a hypothesis.
+tie's confidence, whether it is doubtful), then a sentence for each pair of
+neighbouring wells tied by the order of their picks alone and for each pair that
+shares no tied surface. The section opens with the caution that a correlation
+from cores alone is a hypothesis.
 """
 
 from __future__ import annotations
@@ -31,7 +33,10 @@ METHOD = (
     "kind are tied, ties never cross and a pick may stay untied. A tie's confidence is the "
     "geometric mean of its two picks' probabilities times exp(-cost / gap), its cost the "
     "misfit of fractional position and cycle thickness; ties below {doubtful} are doubtful "
-    "(dashed in the figures). Ties chained along a section form one correlated surface."
+    "(dashed in the figures). Two neighbouring wells left without a tie (cores covering "
+    "different parts of the succession) are aligned again by the order of their picks "
+    "alone; those ties are always doubtful. Ties chained along a section form one "
+    "correlated surface."
 )
 
 
@@ -49,6 +54,25 @@ def _ties_table(ties: pd.DataFrame, units: str) -> pd.DataFrame:
     ).set_index("surface")
 
 
+def _pair_notes(correlation, name) -> list[str]:
+    """Sentences on the pairs of ``name`` tied by order alone and the pairs left untied."""
+    ties = correlation.ties[correlation.ties["section"] == name]
+    by_order = ties[ties["tied_by"] == "order"]
+    notes = [
+        f"{left} and {right} were tied by the order of their picks alone (their cores "
+        "cover different parts of the succession); these ties are doubtful and may be one "
+        "cycle off."
+        for left, right in dict.fromkeys(zip(by_order["core_left"], by_order["core_right"]))
+    ]
+    untied = correlation.untied_pairs[correlation.untied_pairs["section"] == name]
+    notes += [
+        f"{left} and {right} share no tied surface; their columns are drawn unjoined and "
+        "the table has no tie between them."
+        for left, right in zip(untied["core_left"], untied["core_right"])
+    ]
+    return notes
+
+
 def correlation_section(
     correlation,
     tracts: pd.DataFrame,
@@ -56,6 +80,7 @@ def correlation_section(
     datum: str = "MFS",
     units: str = "m",
     position_label: str = "distance",
+    surface_order: tuple[str, ...] = (),
 ) -> Section:
     """The appendix section of a correlation (see the module docstring).
 
@@ -65,7 +90,7 @@ def correlation_section(
         A :class:`faciesseq.correlation.Correlation`.
     tracts
         Decoded tract column of every core: ``core``, ``top``, ``base``, ``tract``.
-    tract_order, datum, units, position_label
+    tract_order, datum, units, position_label, surface_order
         As for :func:`faciesseq.report.section.section_plot`; a section
         without a correlated surface of the datum's kind is hung on the core
         tops (``depth``), and its caption says so.
@@ -81,7 +106,16 @@ def correlation_section(
         hung, _ = hanging_datum(correlation, name, datum)
         hanger = "the core tops" if hung == "depth" else hung
         with figure_style():
-            fig = section_plot(correlation, name, tracts, hung, units, position_label, tract_order)
+            fig = section_plot(
+                correlation,
+                name,
+                tracts,
+                hung,
+                units,
+                position_label,
+                tract_order,
+                surface_order,
+            )
         wells = correlation.wells[correlation.wells["section"] == name]
         sub.add(
             FigureBlock(
@@ -107,4 +141,6 @@ def correlation_section(
             )
         else:
             sub.add(Paragraph(f"No surface was tied ({heading[0].lower() + heading[1:]})."))
+        for note in _pair_notes(correlation, name):
+            sub.add(Paragraph(note, kind="note"))
     return s

@@ -4,7 +4,8 @@ Each well is a tract column (colours of :mod:`faciesseq.report.style`) at its
 position along the section; correlated surfaces are lines from well to well
 (solid, dashed where the tie is doubtful), and each tract's interval in one well
 is shaded to the same tract's interval in the neighbouring well, between
-successive ties (never across another tract's interval).
+successive ties (never across another tract's interval). Two neighbouring wells
+that share no tied surface are drawn unjoined: no fill, no line between them.
 """
 
 from __future__ import annotations
@@ -38,6 +39,7 @@ __all__ = [
     "section_heading",
     "section_plot",
     "section_title",
+    "surface_legend_order",
     "tract_bands",
 ]
 
@@ -196,11 +198,15 @@ def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tup
     below the last) each run of a tract in the left well is joined to a run of the
     same tract in the right well, in depth order (the most such pairs, none crossing);
     a run with no partner (a tract that thins out between the wells) is not shaded,
-    so a fill never spans another tract's interval.
+    so a fill never spans another tract's interval. Two wells that share no tie are
+    not joined at all: without a tie nothing says which of their intervals are of
+    one age.
     """
     out = []
     for left, right in itertools.pairwise(names):
         pair = ties[(ties["core_left"] == left) & (ties["core_right"] == right)]
+        if pair.empty:
+            continue
         a, b = columns[left], columns[right]
         levels = [(a["top"].min(), b["top"].min())]
         levels += list(zip(pair["depth_left"], pair["depth_right"]))
@@ -258,6 +264,7 @@ def section_plot(
     units: str = "m",
     position_label: str = "distance",
     tract_order: tuple[str, ...] = (),
+    surface_order: tuple[str, ...] = (),
 ):
     """One section as a matplotlib figure (call inside :func:`figure_style`).
 
@@ -276,6 +283,9 @@ def section_plot(
         its units, :func:`distance_label`).
     tract_order
         Tract codes in the tract model's order (legend, extra colours).
+    surface_order
+        Surface codes in the tract model's order (``Interpretation.surfaces``): the
+        legend lists the section's tied surfaces in it (:func:`surface_legend_order`).
     """
     wells, ylabel = _section_wells(correlation, section, tracts, datum)
     ties = correlation.ties[correlation.ties["section"] == section]
@@ -299,7 +309,7 @@ def section_plot(
     ax.set_xlabel(distance_label(position_label))
     ax.set_ylabel(f"{ylabel} ({units})")
     ax.set_title(section_title(section, datum), parse_math=False)
-    _section_legend(ax, ties, order)
+    _section_legend(ax, surface_legend_order(correlation, section, surface_order), order)
     fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
     return fig
 
@@ -404,9 +414,18 @@ def _well_names(ax, wells: _Wells, pad: float) -> None:
         )
 
 
-def _section_legend(ax, ties: pd.DataFrame, order) -> None:
+def surface_legend_order(correlation, section: str, surface_order=()) -> list[str]:
+    """The surface kinds tied in ``section``, in one order for every section:
+    ``surface_order`` (the tract model's), then kinds it lacks in the order they first
+    appear among all the correlation's ties (whatever section), so two sections of one
+    correlation never list their surfaces in different orders."""
+    every = list(dict.fromkeys([*surface_order, *correlation.ties["surface"].astype(str)]))
+    here = set(correlation.ties.loc[correlation.ties["section"] == section, "surface"].astype(str))
+    return [kind for kind in every if kind in here]
+
+
+def _section_legend(ax, kinds: list[str], order) -> None:
     """The legend right of the section: tracts, the surfaces tied and a doubtful tie."""
-    kinds = list(dict.fromkeys(ties["surface"]))
     handles = [Patch(facecolor=tract_colour(t, order), label=t) for t in order]
     handles += [Line2D([], [], color=surface_colour(k), linewidth=1.3, label=k) for k in kinds]
     handles += [Line2D([], [], color="0.3", linestyle="--", linewidth=0.7, label="doubtful")]
