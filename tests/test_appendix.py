@@ -114,6 +114,20 @@ def test_every_table_in_the_html_equals_its_csv(written):
                     assert cell == format_probability(float(value)), (table.key, cell, value)
 
 
+def test_table_csvs_carry_no_float_noise(written):
+    # sums of depths such as 33.08999999999992 are written to ten significant digits
+    _, _, out = written
+    long = []
+    for path in sorted((out / "tables").glob("*.csv")):
+        with open(path, newline="", encoding="utf-8") as f:
+            for row in csv.reader(f):
+                for cell in row:
+                    digits = cell.lstrip("-").split("e")[0].replace(".", "").lstrip("0")
+                    if cell[:1].isdigit() and digits.isdigit() and len(digits) > 10:
+                        long.append((path.name, cell))
+    assert long == []
+
+
 def test_json_numbers_equal_the_python_api(written):
     _, report, out = written
     data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))

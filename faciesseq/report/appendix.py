@@ -54,6 +54,8 @@ __all__ = ["Appendix", "build_appendix", "core_key", "jsonable", "write_appendix
 
 FORMAT = "faciesseq-appendix"
 FORMAT_VERSION = 1
+#: Number format of the floating-point cells of ``tables/*.csv``.
+TABLE_FLOATS = "%.10g"
 
 
 def jsonable(value: Any) -> Any:
@@ -762,7 +764,10 @@ def _fill_folder(
     (tmp / "figures").mkdir()
     document = appendix.document
     for table in document.tables():
-        table.to_csv_frame().to_csv(tmp / "tables" / f"{table.key}.csv", index=False)
+        # ten significant digits (TABLE_FLOATS): every digit a statistic or a depth
+        # carries, none of the float noise of sums of depths (33.08999999999992)
+        frame = table.to_csv_frame()
+        frame.to_csv(tmp / "tables" / f"{table.key}.csv", index=False, float_format=TABLE_FLOATS)
     pngs: dict[str, bytes] = {}
     for block in document.figures():
         pngs[block.key] = _figure_bytes(block.figure, "png", dpi)
