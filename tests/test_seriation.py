@@ -280,7 +280,7 @@ def test_a_flooding_step_taken_for_neighbours_makes_the_direction_unclear():
             assert steps[(below, above)] == n > 0
             assert (above, below) not in steps.index
         assert suggestion.one_way
-        assert "never the other way up" in suggestion.describe()
+        assert "never seen the other way up" in suggestion.describe()
         assert "direction clear" not in suggestion.describe()
 
 

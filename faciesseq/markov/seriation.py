@@ -127,19 +127,20 @@ class RankSuggestion:
 
     def describe(self) -> str:
         """The order and how clear its direction is, as every command prints it."""
+        steps = f"{self.share:.2f} of {self.n_steps} upward steps between neighbours"
         if self.clear:
-            how = "clear"
-        elif self.share < UNCLEAR_SHARE:
-            how = "unclear: check which end is landward"
-        else:
-            steps = "; ".join(f"{a} -> {b} {n} times" for a, b, n in self.one_way)
-            how = (
-                f"unclear: never the other way up: {steps}, perhaps a flooding surface, "
-                "not neighbours; check both ends"
+            return f"{', '.join(self.order())} ({steps} lead landward; direction clear)"
+        if self.share < UNCLEAR_SHARE:
+            return (
+                f"{', '.join(self.order())} ({steps} lead landward; direction unclear: "
+                "check which end is landward)"
             )
+        one_way = "; ".join(f"{a} -> {b} {n} times" for a, b, n in self.one_way)
         return (
-            f"{', '.join(self.order())} ({self.share:.2f} of {self.n_steps} upward steps "
-            f"between neighbours lead landward; direction {how})"
+            f"{', '.join(self.order())} ({steps} lead landward, but the direction is "
+            f"unclear: some neighbour steps are never seen the other way up ({one_way}), "
+            "as where a flooding surface was taken for a step between neighbours; check "
+            "which end is landward)"
         )
 
     def runs_against(self, rho: float | None) -> bool:
