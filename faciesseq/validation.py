@@ -407,6 +407,177 @@ def _check_params(params: dict) -> None:
         )
 
 
+def _fold_params(params: dict[str, Any], mode: str) -> dict[str, Any]:
+    """The model's hyper-parameters checked, the scheme read and the fitting unit settled."""
+    from faciesseq.hmm.model import fit_unit
+
+    _check_params(params)
+    if "scheme" in params:
+        params = {**params, "scheme": as_scheme(params["scheme"])}
+    if mode not in VALIDATION_MODES:
+        raise ConfigError(f"mode must be one of {list(VALIDATION_MODES)}, got {mode!r}")
+    unit = fit_unit(params.get("unit", "auto"), mode != "unsupervised")
+    return {**params, "unit": unit}
+
+
+def _labelled_successions(
+    successions: CoreSet | Sequence[Succession], labels: str, params: dict[str, Any]
+) -> list[Succession]:
+    """The non-empty successions in the model's unit, checked to carry the label column."""
+    from faciesseq.hmm.model import _as_successions
+
+    succ = [s for s in _as_successions(successions, params["unit"], params.get("step")) if len(s)]
+    if succ and labels not in succ[0].beds.columns:
+        raise ConfigError(
+            f"label column {labels!r} not found (columns: {sorted(map(str, succ[0].beds.columns))})"
+        )
+    return succ
+
+
+def _check_folds(folds: int, n_cores: int) -> None:
+    """Refuse fewer than 2 folds, or more folds than cores (a core is never split)."""
+    if folds < 2:
+        raise ConfigError(f"folds must be at least 2 (--folds on the command line), got {folds}")
+    if n_cores < folds:
+        fewer = (
+            f"give folds={n_cores} (--folds {n_cores} on the command line)"
+            if n_cores >= 2
+            else "cross-validation by core needs 2 cores or more"
+        )
+        raise ConfigError(
+            f"{folds} folds need at least {folds} cores; the data has {n_cores}: {fewer}"
+        )
+
+
+def _deal_cores(cores: list[str], folds: int, random_state: int | None) -> dict[str, int]:
+    """Core -> fold: the cores shuffled (seeded), then dealt round the folds."""
+    rng = np.random.default_rng(random_state)
+    shuffled = [cores[i] for i in rng.permutation(len(cores))]
+    return {c: k % folds for k, c in enumerate(shuffled)}
+
+
+def _training_cores(train: list[Succession], labels: str, mode: str, k: int) -> list[Succession]:
+    """The training successions of fold ``k``: in supervised mode only the labelled cores."""
+    if mode != "supervised":
+        return train
+    with_labels = {s.core for s in train if _has_label(s, labels)}
+    train = [s for s in train if s.core in with_labels]
+    if not train:
+        raise ConfigError(
+            f"fold {k + 1}: no training core carries labels in {labels!r}; use fewer "
+            "folds or mode='semi-supervised' (--mode semi-supervised on the command "
+            "line)"
+        )
+    return train
+
+
+@dataclass
+class _HeldOut:
+    """What the folds gather: the scored-bed rows of every held-out core and the surface
+    errors of the model and of the baseline."""
+
+    frames: list[pd.DataFrame] = field(default_factory=list)
+    rows_model: list[dict] = field(default_factory=list)
+    rows_base: list[dict] = field(default_factory=list)
+
+
+def _run_fold(
+    k: int,
+    succ: list[Succession],
+    fold_of: dict[str, int],
+    labels: str,
+    mode: str,
+    random_state: int | None,
+    params: dict[str, Any],
+    tract_model: TractModel,
+    held_out: _HeldOut,
+) -> None:
+    """Fit fold ``k``'s model on the other folds' cores, decode its own cores beside the
+    baseline, and add their beds and surface errors to ``held_out``."""
+    from faciesseq.hmm.model import TractHMM
+
+    train = [s for s in succ if fold_of[s.core] != k]
+    test = [s for s in succ if fold_of[s.core] == k]
+    train = _training_cores(train, labels, mode, k)
+    model = TractHMM(random_state=random_state, **params)
+    model.fit(train, labels=None if mode == "unsupervised" else labels)
+    interp = model.decode(test)
+    base = _baseline(test, interp, params.get("scheme"), tract_model)
+    tracts = list(tract_model.order)
+    for core in dict.fromkeys(s.core for s in test):
+        frame, lab_beds = _core_frame(core, k, test, interp[core], base[core][0], labels, tracts)
+        held_out.frames.append(frame)
+        held_out.rows_model += _surface_errors(lab_beds, interp[core].picks, "_label", tract_model)
+        held_out.rows_base += _surface_errors(lab_beds, base[core][1], "_label", tract_model)
+
+
+def _scored_beds(beds: pd.DataFrame, labels: str, tracts: list[str]) -> pd.DataFrame:
+    """The held-out beds with an interpreter's label, checked to hold only tracts."""
+    scored = beds[beds["label"].notna()]
+    unknown = sorted(set(scored["label"]) - set(tracts))
+    if unknown:
+        raise InputError(f"label column {labels!r} holds codes that are not tracts: {unknown}")
+    return scored
+
+
+def _score_methods(
+    scored: pd.DataFrame, tracts: list[str], held_out: _HeldOut, tract_model: TractModel
+) -> tuple[ScoreSet, ScoreSet]:
+    """Scores of the model (its probabilities) and of the baseline (0/1 probabilities)."""
+    codes = surface_codes(tract_model)
+    probs = scored[[f"p_{t}" for t in tracts]].to_numpy(float)
+    base_probs = (
+        scored["baseline"].to_numpy(dtype=object)[:, None]
+        == np.asarray(tracts, dtype=object)[None, :]
+    ).astype(float)
+    label_arr = scored["label"].to_numpy(dtype=object)
+    model_scores = score_interpretation(
+        "model",
+        label_arr,
+        scored["model"].to_numpy(dtype=object),
+        probs,
+        tracts,
+        held_out.rows_model,
+        codes,
+    )
+    base_scores = score_interpretation(
+        "baseline",
+        label_arr,
+        scored["baseline"].to_numpy(dtype=object),
+        base_probs,
+        tracts,
+        held_out.rows_base,
+        codes,
+    )
+    return model_scores, base_scores
+
+
+def _run_settings(
+    labels: str,
+    mode: str,
+    random_state: int | None,
+    n_cores: int,
+    n_beds_scored: int,
+    params: dict[str, Any],
+) -> dict[str, Any]:
+    """What was run, for the record: the labels, mode and seed, then the model's design."""
+    settings = {
+        "labels": labels,
+        "mode": mode,
+        "random_state": random_state,
+        "n_cores": n_cores,
+        "n_beds_scored": n_beds_scored,
+    }
+    settings.update(
+        {
+            k: v
+            for k, v in params.items()
+            if k in ("features", "substates", "prior_strength", "cycle_prior", "unit", "step")
+        }
+    )
+    return settings
+
+
 def cross_validate(
     successions: CoreSet | Sequence[Succession],
     labels: str,
@@ -444,106 +615,24 @@ def cross_validate(
         :class:`~faciesseq.scheme.FaciesScheme` or the path of its YAML file,
         ``tract_model``, ``features``...); any other name is a :class:`TypeError`.
     """
-    from faciesseq.hmm.model import TractHMM, _as_successions, fit_unit
-
-    _check_params(params)
-    if "scheme" in params:
-        params = {**params, "scheme": as_scheme(params["scheme"])}
-    if mode not in VALIDATION_MODES:
-        raise ConfigError(f"mode must be one of {list(VALIDATION_MODES)}, got {mode!r}")
-    unit = fit_unit(params.get("unit", "auto"), mode != "unsupervised")
-    params, step = {**params, "unit": unit}, params.get("step")
-    succ = [s for s in _as_successions(successions, unit, step) if len(s)]
-    if succ and labels not in succ[0].beds.columns:
-        raise ConfigError(
-            f"label column {labels!r} not found (columns: {sorted(map(str, succ[0].beds.columns))})"
-        )
+    params = _fold_params(params, mode)
+    succ = _labelled_successions(successions, labels, params)
     cores = list(dict.fromkeys(s.core for s in succ))
-    if folds < 2:
-        raise ConfigError(f"folds must be at least 2 (--folds on the command line), got {folds}")
-    if len(cores) < folds:
-        fewer = (
-            f"give folds={len(cores)} (--folds {len(cores)} on the command line)"
-            if len(cores) >= 2
-            else "cross-validation by core needs 2 cores or more"
-        )
-        raise ConfigError(
-            f"{folds} folds need at least {folds} cores; the data has {len(cores)}: {fewer}"
-        )
-    rng = np.random.default_rng(random_state)
-    shuffled = [cores[i] for i in rng.permutation(len(cores))]
-    fold_of = {c: k % folds for k, c in enumerate(shuffled)}
+    _check_folds(folds, len(cores))
+    fold_of = _deal_cores(cores, folds, random_state)
     # the labels' surfaces are named on the permissive graph, which names every boundary
     # a label column can hold (the strict graph a labelled fit may take gives the same
     # names to the boundaries it allows)
     tract_model = params.get("tract_model") or permissive_tract_model()
-    scheme = params.get("scheme")
     tracts = list(tract_model.order)
-    codes = surface_codes(tract_model)
-    frames = []
-    rows_model: list[dict] = []
-    rows_base: list[dict] = []
-    units = succ[0].units if succ else "m"
+    held_out = _HeldOut()
     for k in range(folds):
-        train = [s for s in succ if fold_of[s.core] != k]
-        test = [s for s in succ if fold_of[s.core] == k]
-        if mode == "supervised":
-            with_labels = {s.core for s in train if _has_label(s, labels)}
-            train = [s for s in train if s.core in with_labels]
-            if not train:
-                raise ConfigError(
-                    f"fold {k + 1}: no training core carries labels in {labels!r}; use fewer "
-                    "folds or mode='semi-supervised' (--mode semi-supervised on the command "
-                    "line)"
-                )
-        model = TractHMM(random_state=random_state, **params)
-        model.fit(train, labels=None if mode == "unsupervised" else labels)
-        interp = model.decode(test)
-        base = _baseline(test, interp, scheme, tract_model)
-        for core in dict.fromkeys(s.core for s in test):
-            frame, lab_beds = _core_frame(
-                core, k, test, interp[core], base[core][0], labels, tracts
-            )
-            frames.append(frame)
-            rows_model += _surface_errors(lab_beds, interp[core].picks, "_label", tract_model)
-            rows_base += _surface_errors(lab_beds, base[core][1], "_label", tract_model)
+        _run_fold(k, succ, fold_of, labels, mode, random_state, params, tract_model, held_out)
         if progress is not None:
             progress(k + 1, folds)
-    beds = pd.concat(frames, ignore_index=True)
-    scored = beds[beds["label"].notna()]
-    unknown = sorted(set(scored["label"]) - set(tracts))
-    if unknown:
-        raise InputError(f"label column {labels!r} holds codes that are not tracts: {unknown}")
-    probs = scored[[f"p_{t}" for t in tracts]].to_numpy(float)
-    base_probs = (
-        scored["baseline"].to_numpy(dtype=object)[:, None]
-        == np.asarray(tracts, dtype=object)[None, :]
-    ).astype(float)
-    label_arr = scored["label"].to_numpy(dtype=object)
-    model_scores = score_interpretation(
-        "model", label_arr, scored["model"].to_numpy(dtype=object), probs, tracts, rows_model, codes
-    )
-    base_scores = score_interpretation(
-        "baseline",
-        label_arr,
-        scored["baseline"].to_numpy(dtype=object),
-        base_probs,
-        tracts,
-        rows_base,
-        codes,
-    )
-    settings = {
-        "labels": labels,
-        "mode": mode,
-        "random_state": random_state,
-        "n_cores": len(cores),
-        "n_beds_scored": len(scored),
-    }
-    settings.update(
-        {
-            k: v
-            for k, v in params.items()
-            if k in ("features", "substates", "prior_strength", "cycle_prior", "unit", "step")
-        }
-    )
+    beds = pd.concat(held_out.frames, ignore_index=True)
+    scored = _scored_beds(beds, labels, tracts)
+    model_scores, base_scores = _score_methods(scored, tracts, held_out, tract_model)
+    settings = _run_settings(labels, mode, random_state, len(cores), len(scored), params)
+    units = succ[0].units if succ else "m"
     return ValidationResult(folds, units, fold_of, model_scores, base_scores, beds, settings)

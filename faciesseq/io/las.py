@@ -71,39 +71,105 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
     lasio = import_optional("lasio", "reading LAS files")
 
     file = str(path)
+    text, problems = _las_text(path, encoding)
+    las = _parse_las(lasio, text, file)
+    mnemonics = [c.mnemonic for c in las.curves]
+    if len(mnemonics) < 2:
+        raise InputError("LAS file has no curves besides the depth index", file=file)
+    facies = _facies_curve(mnemonics, curve, file)
+    units = _depth_units(las, file)
+    well_item = _item(las.well, "WELL")
+    core = (str(well_item.value).strip() if well_item is not None else "") or path.stem
+    codes = _code_tables(las, mnemonics)
+    frame = pd.DataFrame({m: np.asarray(las[m]) for m in mnemonics}).astype(object)
+    null = _null_value(las, file)
+    nulls = _nulls_to_missing(frame, mnemonics, null, codes)
+    rows = np.arange(1, len(frame) + 1)
+    n_null = nulls.pop(facies, 0)
+    if n_null:
+        problems.append(_undescribed_samples(n_null, facies, null, file, core))
+        keep = frame[facies].notna().to_numpy()
+        frame = frame[keep].reset_index(drop=True)
+        rows = rows[keep]
+    if nulls:
+        listed = ", ".join(f"{m} ({n})" for m, n in nulls.items())
+        problems.append(
+            Problem(
+                "warning",
+                "null",
+                f"null values read as missing in curve(s) {listed}",
+                file=file,
+                core=core,
+            )
+        )
+    # Rows are LAS data lines (1 = the first line of the ~A section).
+    return RawTable(
+        frame,
+        file,
+        rows.tolist(),
+        units=units,
+        core=core,
+        layout="samples",
+        roles={"depth": mnemonics[0], "facies": facies},
+        problems=problems,
+    )
+
+
+def _las_text(path: Path, encoding: str | None) -> tuple[str, list[Problem]]:
+    """The file's text (UTF-8, stated or detected encoding) and the problems of reading it."""
+    file = str(path)
     try:
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(f"cannot read file: {exc.strerror}", file=file) from None
-    text, problems = decode_text(data, file, encoding)
+    return decode_text(data, file, encoding)
+
+
+def _parse_las(lasio, text: str, file: str):
+    """The LAS file parsed by lasio (mnemonics as written, nulls left for this reader)."""
     try:
-        las = lasio.read(io.StringIO(text), null_policy="strict", mnemonic_case="preserve")
+        return lasio.read(io.StringIO(text), null_policy="strict", mnemonic_case="preserve")
     except Exception as exc:  # lasio raises many types for a malformed file
         raise InputError(
             f"not a readable LAS file ({type(exc).__name__}: {exc})", file=file
         ) from None
-    mnemonics = [c.mnemonic for c in las.curves]
-    if len(mnemonics) < 2:
-        raise InputError("LAS file has no curves besides the depth index", file=file)
-    index = mnemonics[0]
-    facies = _facies_curve(mnemonics, curve, file)
+
+
+def _depth_units(las, file: str) -> str | None:
+    """Depth units of the index curve, else of ``STRT``; ``None`` when neither states them."""
     strt = _item(las.well, "STRT")
     unit = las.curves[0].unit or (strt.unit if strt is not None else "")
-    units = normalise_units(unit, where=file) if unit and unit.strip() else None
-    well_item = _item(las.well, "WELL")
-    well = str(well_item.value).strip() if well_item is not None else ""
+    return normalise_units(unit, where=file) if unit and unit.strip() else None
+
+
+def _code_tables(las, mnemonics: list[str]) -> dict[str, dict[float, str]]:
+    """Curve -> (number -> text) from the ``<CURVE>_<n>`` items of the ``~Parameter`` section."""
     codes: dict[str, dict[float, str]] = {}
     for item in las.params:
         m = re.match(r"^(?P<curve>.+)_(?P<n>\d+)$", item.mnemonic)
         if m and m.group("curve") in mnemonics:
             codes.setdefault(m.group("curve"), {})[float(m.group("n"))] = str(item.value)
-    frame = pd.DataFrame({m: np.asarray(las[m]) for m in mnemonics}).astype(object)
+    return codes
+
+
+def _null_value(las, file: str) -> float | None:
+    """The header's ``NULL`` value; ``None`` when it is missing or blank."""
     null_item = _item(las.well, "NULL")
     null = null_item.value if null_item is not None and null_item.value != "" else None
     try:
-        null = None if null is None else float(null)
+        return None if null is None else float(null)
     except (TypeError, ValueError):
         raise InputError(f"NULL header value {null!r} is not a number", file=file) from None
+
+
+def _nulls_to_missing(
+    frame: pd.DataFrame,
+    mnemonics: list[str],
+    null: float | None,
+    codes: dict[str, dict[float, str]],
+) -> dict[str, int]:
+    """Blank the null samples of every curve in place (text stays text) and decode the
+    curves with code tables; the number of null samples per curve that has any."""
     nulls: dict[str, int] = {}
     for m in mnemonics:
         col = pd.to_numeric(frame[m], errors="coerce")
@@ -119,43 +185,20 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
             frame[m] = [
                 None if v is None or pd.isna(v) else table.get(float(v), v) for v in frame[m]
             ]
-    rows = np.arange(1, len(frame) + 1)
-    n_null = nulls.pop(facies, 0)
-    if n_null:
-        problems.append(
-            Problem(
-                "warning",
-                "null",
-                f"{n_null} sample(s) of curve {facies} hold the null value "
-                f"{null if null is not None else '(blank)'}: not described, left out",
-                file=file,
-                core=well or path.stem,
-            )
-        )
-        keep = frame[facies].notna().to_numpy()
-        frame = frame[keep].reset_index(drop=True)
-        rows = rows[keep]
-    if nulls:
-        listed = ", ".join(f"{m} ({n})" for m, n in nulls.items())
-        problems.append(
-            Problem(
-                "warning",
-                "null",
-                f"null values read as missing in curve(s) {listed}",
-                file=file,
-                core=well or path.stem,
-            )
-        )
-    # Rows are LAS data lines (1 = the first line of the ~A section).
-    return RawTable(
-        frame,
-        file,
-        rows.tolist(),
-        units=units,
-        core=well or path.stem,
-        layout="samples",
-        roles={"depth": index, "facies": facies},
-        problems=problems,
+    return nulls
+
+
+def _undescribed_samples(
+    n_null: int, facies: str, null: float | None, file: str, core: str
+) -> Problem:
+    """The warning for samples whose facies is the null value: not described, left out."""
+    return Problem(
+        "warning",
+        "null",
+        f"{n_null} sample(s) of curve {facies} hold the null value "
+        f"{null if null is not None else '(blank)'}: not described, left out",
+        file=file,
+        core=core,
     )
 
 

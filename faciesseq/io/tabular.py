@@ -14,6 +14,7 @@ import codecs
 import csv
 import io
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -43,43 +44,11 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
     hand-written heuristics.
     """
     if encoding:
-        try:
-            return data.decode(encoding), []
-        except (LookupError, UnicodeDecodeError) as exc:
-            raise InputError(f"cannot be read as {encoding}: {exc}", file=file) from None
-    for magic, what in _NOT_TEXT:
-        if data.startswith(magic):
-            raise InputError(
-                f"is {what}, not a text table; give it its own extension, or save it as CSV",
-                file=file,
-            )
-    for bom, name in (
-        (codecs.BOM_UTF8, "utf-8-sig"),
-        (codecs.BOM_UTF32_LE, "utf-32"),
-        (codecs.BOM_UTF32_BE, "utf-32"),
-        (codecs.BOM_UTF16_LE, "utf-16"),
-        (codecs.BOM_UTF16_BE, "utf-16"),
-    ):
-        if data.startswith(bom):
-            try:
-                text = data.decode(name)
-            except UnicodeDecodeError as exc:
-                raise InputError(
-                    f"starts with a {name.upper()} byte-order mark but is not valid {name} "
-                    f"(byte {exc.start}); save it as UTF-8",
-                    file=file,
-                ) from None
-            problems = []
-            if name not in ("utf-8-sig",):
-                problems.append(
-                    Problem(
-                        "warning",
-                        "encoding",
-                        f"file is {name.upper()} (byte-order mark), not UTF-8; read as {name}",
-                        file=file,
-                    )
-                )
-            return text, problems
+        return _decode_stated(data, file, encoding), []
+    _refuse_binary(data, file)
+    with_bom = _decode_with_bom(data, file)
+    if with_bom is not None:
+        return with_bom
     try:
         return data.decode("utf-8"), []
     except UnicodeDecodeError as exc:
@@ -87,55 +56,106 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
     from charset_normalizer import from_bytes
 
     matches = list(from_bytes(data))
-    western = _western(data)
+    western = _western_reading(data, matches, first_bad, file)
     if western is not None:
-        # Detection guesses from the non-ASCII bytes; on a short file it is unsure, and
-        # a Western reading where every such character is a letter is the likely one.
-        detected = str(matches[0]) if matches else None
-        n_bytes = sum(b >= 0x80 for b in data)
-        if detected == western or detected is None or n_bytes < _SURE_BYTES:
-            also = (
-                f"; detection suggested {matches[0].encoding}, which reads it differently"
-                if detected is not None and detected != western
-                else ""
-            )
-            note = Problem(
-                "warning",
-                "encoding",
-                f"file is not UTF-8 (byte {first_bad}); read as cp1252 (Western European, "
-                f"latin-1){also}; check accented names, or save it as UTF-8, or give "
-                "'encoding' in a YAML source file",
+        return western
+    return _detected_reading(matches, first_bad, file)
+
+
+def _decode_stated(data: bytes, file: str, encoding: str) -> str:
+    """The text in the encoding the user stated; refused when it does not read."""
+    try:
+        return data.decode(encoding)
+    except (LookupError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot be read as {encoding}: {exc}", file=file) from None
+
+
+def _refuse_binary(data: bytes, file: str) -> None:
+    """Refuse a workbook or other binary file named as a text table."""
+    for magic, what in _NOT_TEXT:
+        if data.startswith(magic):
+            raise InputError(
+                f"is {what}, not a text table; give it its own extension, or save it as CSV",
                 file=file,
             )
-            return western, [note]
+
+
+#: Byte-order marks and the encodings they announce (UTF-32 before UTF-16: the UTF-32
+#: little-endian mark starts with the UTF-16 one).
+_BOMS = (
+    (codecs.BOM_UTF8, "utf-8-sig"),
+    (codecs.BOM_UTF32_LE, "utf-32"),
+    (codecs.BOM_UTF32_BE, "utf-32"),
+    (codecs.BOM_UTF16_LE, "utf-16"),
+    (codecs.BOM_UTF16_BE, "utf-16"),
+)
+
+
+def _decode_with_bom(data: bytes, file: str) -> tuple[str, list[Problem]] | None:
+    """The text of a file with a byte-order mark (any but UTF-8's reported), else None."""
+    for bom, name in _BOMS:
+        if not data.startswith(bom):
+            continue
+        try:
+            text = data.decode(name)
+        except UnicodeDecodeError as exc:
+            raise InputError(
+                f"starts with a {name.upper()} byte-order mark but is not valid {name} "
+                f"(byte {exc.start}); save it as UTF-8",
+                file=file,
+            ) from None
+        problems = []
+        if name not in ("utf-8-sig",):
+            problems.append(
+                Problem(
+                    "warning",
+                    "encoding",
+                    f"file is {name.upper()} (byte-order mark), not UTF-8; read as {name}",
+                    file=file,
+                )
+            )
+        return text, problems
+    return None
+
+
+def _western_reading(
+    data: bytes, matches: list, first_bad: int, file: str
+) -> tuple[str, list[Problem]] | None:
+    """The cp1252 reading, reported, when it is plausible and detection agrees or is unsure."""
+    western = _western(data)
+    if western is None:
+        return None
+    # Detection guesses from the non-ASCII bytes; on a short file it is unsure, and
+    # a Western reading where every such character is a letter is the likely one.
+    detected = str(matches[0]) if matches else None
+    n_bytes = sum(b >= 0x80 for b in data)
+    if not (detected == western or detected is None or n_bytes < _SURE_BYTES):
+        return None
+    also = (
+        f"; detection suggested {matches[0].encoding}, which reads it differently"
+        if detected is not None and detected != western
+        else ""
+    )
+    note = Problem(
+        "warning",
+        "encoding",
+        f"file is not UTF-8 (byte {first_bad}); read as cp1252 (Western European, "
+        f"latin-1){also}; check accented names, or save it as UTF-8, or give "
+        "'encoding' in a YAML source file",
+        file=file,
+    )
+    return western, [note]
+
+
+def _detected_reading(matches: list, first_bad: int, file: str) -> tuple[str, list[Problem]]:
+    """The reading of the likeliest detected encoding, reported; refused when none is."""
     if not matches:
         raise InputError(
             f"not UTF-8 (byte {first_bad}) and its encoding could not be detected; "
             "save it as UTF-8 or give 'encoding' in a YAML source file",
             file=file,
         )
-    best = matches[0]
-    tied = [m for m in matches if (m.chaos, m.coherence) == (best.chaos, best.coherence)]
-    readings: dict[str, list[str]] = {}
-    for m in tied:
-        readings.setdefault(str(m), []).append(m.encoding)
-    chosen = best
-    others: list[str] = []
-    if len(readings) > 1:
-        # Equally likely code pages that read the bytes differently: take the
-        # commonest Western one when it is among them, and say so; else refuse.
-        western = [m for m in tied if "cp1252" in m.could_be_from_charset]
-        if not western:
-            raise InputError(
-                "not UTF-8, and the encoding is ambiguous ("
-                + ", ".join(m.encoding for m in tied)
-                + " read it differently); save it as UTF-8 or give 'encoding' in a YAML "
-                "source file",
-                file=file,
-            )
-        chosen = western[0]
-        others = [e for text, encs in readings.items() if text != str(chosen) for e in encs]
-    text = str(chosen)
+    chosen, others = _break_tie(matches, file)
     also = f"; it could also be {', '.join(others)}, which reads it differently" if others else ""
     note = Problem(
         "warning",
@@ -144,7 +164,33 @@ def decode_text(data: bytes, file: str, encoding: str | None = None) -> tuple[st
         "names, or save it as UTF-8, or give 'encoding' in a YAML source file",
         file=file,
     )
-    return text, [note]
+    return str(chosen), [note]
+
+
+def _break_tie(matches: list, file: str) -> tuple[Any, list[str]]:
+    """The detected match to read with, and the other equally likely encodings that read
+    the bytes differently (none when the likeliest readings agree)."""
+    best = matches[0]
+    tied = [m for m in matches if (m.chaos, m.coherence) == (best.chaos, best.coherence)]
+    readings: dict[str, list[str]] = {}
+    for m in tied:
+        readings.setdefault(str(m), []).append(m.encoding)
+    if len(readings) <= 1:
+        return best, []
+    # Equally likely code pages that read the bytes differently: take the
+    # commonest Western one when it is among them, and say so; else refuse.
+    western = [m for m in tied if "cp1252" in m.could_be_from_charset]
+    if not western:
+        raise InputError(
+            "not UTF-8, and the encoding is ambiguous ("
+            + ", ".join(m.encoding for m in tied)
+            + " read it differently); save it as UTF-8 or give 'encoding' in a YAML "
+            "source file",
+            file=file,
+        )
+    chosen = western[0]
+    others = [e for text, encs in readings.items() if text != str(chosen) for e in encs]
+    return chosen, others
 
 
 #: Fewer non-ASCII bytes than this and encoding detection is unsure: cp1252 is

@@ -821,46 +821,83 @@ def _check_intervals(
     part: pd.DataFrame, file: str, core: str, units: str, tolerance: float
 ) -> tuple[pd.DataFrame, list[Problem]]:
     """Thickness, order, overlaps and gaps of one core's intervals from one table."""
-    problems: list[Problem] = []
+    place = _IntervalPlace(file, core, units)
+    part, problems = _drop_inverted_and_empty(part, place)
+    problems += _order(part, "top", file, core, units, tolerance)
+    part = _in_depth_order(part)
+    top, keep, found = _snap_overlaps_find_gaps(part, place, tolerance)
+    problems += found
+    if keep.all() and np.array_equal(top, part["top"].to_numpy(dtype=float)):
+        return part, problems
+    part = part.assign(top=top)[keep].reset_index(drop=True)
+    return part, problems
 
-    def here(i, kind, severity, message, depth):
-        problems.append(
-            Problem(
-                severity,
-                kind,
-                message,
-                file=file,
-                row=int(part["_row"].iloc[i]),
-                core=core,
-                depth=float(depth),
-                units=units,
-            )
+
+@dataclass(frozen=True)
+class _IntervalPlace:
+    """The file, core and depth units of one core's intervals (for messages)."""
+
+    file: str
+    core: str
+    units: str
+
+    def problem(
+        self, part: pd.DataFrame, i: int, kind: str, severity: str, message: str, depth: float
+    ) -> Problem:
+        """The problem of interval ``i`` of ``part``, at its data row and ``depth``."""
+        return Problem(
+            severity,
+            kind,
+            message,
+            file=self.file,
+            row=int(part["_row"].iloc[i]),
+            core=self.core,
+            depth=float(depth),
+            units=self.units,
         )
 
+
+def _drop_inverted_and_empty(
+    part: pd.DataFrame, place: _IntervalPlace
+) -> tuple[pd.DataFrame, list[Problem]]:
+    """The intervals without those whose top is below their base or that have no
+    thickness (each an error)."""
+    problems: list[Problem] = []
     top = part["top"].to_numpy(dtype=float)
     base = part["base"].to_numpy(dtype=float)
     ok = np.ones(len(part), dtype=bool)
     for i in range(len(part)):
         if top[i] > base[i]:
             ok[i] = False
-            here(
-                i,
-                "top-below-base",
-                "error",
-                f"top {top[i]:g} is below base {base[i]:g} (depth is positive downward)",
-                top[i],
-            )
+            message = f"top {top[i]:g} is below base {base[i]:g} (depth is positive downward)"
+            problems.append(place.problem(part, i, "top-below-base", "error", message, top[i]))
         elif base[i] - top[i] <= DEPTH_TOL:
             ok[i] = False
-            here(i, "zero-thickness", "error", f"zero thickness (top = base = {top[i]:g})", top[i])
+            message = f"zero thickness (top = base = {top[i]:g})"
+            problems.append(place.problem(part, i, "zero-thickness", "error", message, top[i]))
     if not ok.all():
         part = part[ok].reset_index(drop=True)
-    problems += _order(part, "top", file, core, units, tolerance)
+    return part, problems
+
+
+def _in_depth_order(part: pd.DataFrame) -> pd.DataFrame:
+    """The intervals sorted by (top, base), unless they already are."""
     top = part["top"].to_numpy(dtype=float)
     base = part["base"].to_numpy(dtype=float)
     ordered = (np.diff(top) > 0) | ((np.diff(top) == 0) & (np.diff(base) >= 0))
     if not ordered.all():  # already in (top, base) order: nothing to sort
         part = part.sort_values(["top", "base"], kind="stable").reset_index(drop=True)
+    return part
+
+
+def _snap_overlaps_find_gaps(
+    part: pd.DataFrame, place: _IntervalPlace, tolerance: float
+) -> tuple[np.ndarray, np.ndarray, list[Problem]]:
+    """Down the sorted intervals: a small overlap with the interval above snapped (its top
+    moved down, a repair), a larger one an error (the interval not kept), a gap reported.
+    Returns the tops after snapping, which intervals are kept, and the problems."""
+    problems: list[Problem] = []
+    units = place.units
     top = part["top"].to_numpy(dtype=float).copy()
     base = part["base"].to_numpy(dtype=float)
     rows = part["_row"].to_numpy()
@@ -874,42 +911,29 @@ def _check_intervals(
         overlap = base[above] - top[i]
         if overlap > DEPTH_TOL:
             if overlap <= tolerance and base[i] - base[above] > DEPTH_TOL:
-                here(
-                    i,
-                    "overlap",
-                    "repair",
+                message = (
                     f"overlaps the interval above (data row {rows[above]}) by {overlap:.4g} "
-                    f"{units}; top moved down from {top[i]:g} to {base[above]:g}",
-                    top[i],
+                    f"{units}; top moved down from {top[i]:g} to {base[above]:g}"
                 )
+                problems.append(place.problem(part, i, "overlap", "repair", message, top[i]))
                 top[i] = base[above]
             else:
                 keep[i] = False
-                listed = _overlapping(i, part, units)
-                here(
-                    i,
-                    "overlap",
-                    "error",
-                    f"interval {top[i]:g}-{base[i]:g} {listed}, more than the {tolerance:.4g} "
-                    f"{units} snapped as rounding",
-                    top[i],
+                message = (
+                    f"interval {top[i]:g}-{base[i]:g} {_overlapping(i, part, units)}, more "
+                    f"than the {tolerance:.4g} {units} snapped as rounding"
                 )
+                problems.append(place.problem(part, i, "overlap", "error", message, top[i]))
                 reach = max(reach, base[i])
                 continue
         elif top[i] - reach > DEPTH_TOL:
-            here(
-                i,
-                "gap",
-                "warning",
+            message = (
                 f"gap from {reach:g} to {top[i]:g} ({top[i] - reach:.4g} {units}) above this "
-                "interval: successions are split here",
-                reach,
+                "interval: successions are split here"
             )
+            problems.append(place.problem(part, i, "gap", "warning", message, reach))
         above, reach = i, max(reach, base[i])
-    if keep.all() and np.array_equal(top, part["top"].to_numpy(dtype=float)):
-        return part, problems
-    part = part.assign(top=top)[keep].reset_index(drop=True)
-    return part, problems
+    return top, keep, problems
 
 
 def _overlapping(i: int, part: pd.DataFrame, units: str, shown: int = 3) -> str:

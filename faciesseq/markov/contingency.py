@@ -353,6 +353,59 @@ def independence_test(
     Davis (2002, ch. 4) embedded chain of five lithologies: ``dof`` is
     ``(5-1)**2 - 5 = 11``.
     """
+    o, struct = _observed_and_structural(counts, embedded, structural)
+    rows, cols = o.sum(axis=1), o.sum(axis=0)
+    live = np.outer(rows > 0, cols > 0)
+    active = live & ~struct
+    quasi = embedded or structural is not None
+    iterations, converged = 0, True
+    if quasi:
+        e, iterations, converged = fit_quasi_independence(o, struct)
+    else:
+        e = fit_independence(o)
+    n = int(o.sum())
+    dof = _degrees_of_freedom(active)
+    n_struct = int((live & struct).sum())
+    n_rows, n_cols = int((rows > 0).sum()), int((cols > 0).sum())
+    notes = _fit_notes(dof, len(o), embedded, n_struct, n_rows, n_cols, iterations, converged)
+    pearson, g2 = _statistics(o, e, active)
+    name = "quasi-independence" if quasi else "independence"
+    t_pearson, t_g2 = _named_tests(name, pearson, g2, dof, n)
+    resid, resid_p, significant = _cell_residuals(o, e, active, alpha)
+    low = active & (e < 5)
+    if low.any():
+        notes.append(f"{int(low.sum())} of {int(active.sum())} cells have expected count below 5")
+    return ContingencyResult(
+        model=name,
+        observed=o,
+        expected=e,
+        structural=struct,
+        active=active,
+        pearson=t_pearson,
+        g2=t_g2,
+        dof=dof,
+        n=n,
+        n_structural_zeros=n_struct,
+        empty_rows=tuple(int(i) for i in np.nonzero(rows == 0)[0]),
+        empty_columns=tuple(int(i) for i in np.nonzero(cols == 0)[0]),
+        difference=_probability_difference(o, e, rows),
+        residuals=resid,
+        residual_p=resid_p,
+        significant=significant,
+        low_expected=low,
+        cramers_v=_cramers_v(pearson, n, n_rows, n_cols),
+        alpha=alpha,
+        iterations=iterations,
+        converged=converged,
+        notes=tuple(notes),
+    )
+
+
+def _observed_and_structural(
+    counts: np.ndarray, embedded: bool, structural: np.ndarray | None
+) -> tuple[np.ndarray, np.ndarray]:
+    """The counts as floats, checked square (and, embedded, with an empty diagonal), and
+    the structural zeros: the diagonal when embedded, or-ed with ``structural``."""
     o = np.asarray(counts, dtype=float)
     if o.ndim != 2 or o.shape[0] != o.shape[1]:
         raise InputError(f"transition counts must be a square matrix, got shape {o.shape}")
@@ -368,25 +421,29 @@ def independence_test(
             )
     if structural is not None:
         struct |= np.asarray(structural, dtype=bool)
-    rows, cols = o.sum(axis=1), o.sum(axis=0)
-    live = np.outer(rows > 0, cols > 0)
-    active = live & ~struct
-    iterations, converged = 0, True
-    if embedded or structural is not None:
-        e, iterations, converged = fit_quasi_independence(o, struct)
-    else:
-        e = fit_independence(o)
-    n = int(o.sum())
+    return o, struct
+
+
+def _degrees_of_freedom(active: np.ndarray) -> int:
+    """Free cells less the parameters of the row and column effects they identify."""
+    if not active.any():
+        return 0
+    return int(active.sum() - np.linalg.matrix_rank(_design(active)))
+
+
+def _fit_notes(
+    dof: int,
+    m: int,
+    embedded: bool,
+    n_struct: int,
+    n_rows: int,
+    n_cols: int,
+    iterations: int,
+    converged: bool,
+) -> list[str]:
+    """Notes on the fit: degrees of freedom other than the textbook's, and a fit that
+    did not converge."""
     notes: list[str] = []
-    if active.any():
-        x = _design(active)
-        dof = int(active.sum() - np.linalg.matrix_rank(x))
-    else:
-        dof = 0
-    n_struct = int((live & struct).sum())
-    empty_rows = tuple(int(i) for i in np.nonzero(rows == 0)[0])
-    empty_cols = tuple(int(i) for i in np.nonzero(cols == 0)[0])
-    n_rows, n_cols = int((rows > 0).sum()), int((cols > 0).sum())
     nominal = (m - 1) ** 2 - (m if embedded else 0)
     if dof != nominal:
         notes.append(
@@ -395,8 +452,13 @@ def independence_test(
         )
     if not converged:
         notes.append(f"iterative proportional fitting stopped after {iterations} sweeps")
-    pearson, g2 = _statistics(o, e, active)
-    name = "quasi-independence" if embedded or structural is not None else "independence"
+    return notes
+
+
+def _named_tests(
+    name: str, pearson: float, g2: float, dof: int, n: int
+) -> tuple[TestResult, TestResult]:
+    """Pearson χ² and G² referred to χ² with ``dof`` degrees of freedom, with their null."""
     null = (
         "the facies above a bed is drawn from fixed weights among the other facies"
         if name == "quasi-independence"
@@ -406,40 +468,31 @@ def independence_test(
         f"{name} (Pearson chi2)", pearson, dof, _chi2_sf(pearson, dof), n, null=null
     )
     t_g2 = TestResult(f"{name} (G2)", g2, dof, _chi2_sf(g2, dof), n, null=null)
+    return t_pearson, t_g2
+
+
+def _probability_difference(o: np.ndarray, e: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """Observed less expected upward transition probabilities (0 in empty rows)."""
     with np.errstate(invalid="ignore", divide="ignore"):
         p_obs = np.where(rows[:, None] > 0, o / np.where(rows > 0, rows, 1)[:, None], 0.0)
         er = e.sum(axis=1)
         p_exp = np.where(er[:, None] > 0, e / np.where(er > 0, er, 1)[:, None], 0.0)
+    return p_obs - p_exp
+
+
+def _cell_residuals(
+    o: np.ndarray, e: np.ndarray, active: np.ndarray, alpha: float
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Adjusted residuals of the cells, their two-sided p-values, and which are
+    significant at level ``alpha``."""
     resid = adjusted_residuals(o, e, active)
     resid_p = 2.0 * special.ndtr(-np.abs(resid))  # scipy.stats.norm.sf
     z = -special.ndtri(alpha / 2)  # scipy.stats.norm.isf
     significant = np.nan_to_num(np.abs(resid), nan=0.0) > z
-    low = active & (e < 5)
-    if low.any():
-        notes.append(f"{int(low.sum())} of {int(active.sum())} cells have expected count below 5")
+    return resid, resid_p, significant
+
+
+def _cramers_v(pearson: float, n: int, n_rows: int, n_cols: int) -> float:
+    """Cramér's V of the table's non-empty rows and columns (NaN when undefined)."""
     k = min(n_rows, n_cols) - 1
-    v = float(np.sqrt(pearson / (n * k))) if n > 0 and k > 0 else float("nan")
-    return ContingencyResult(
-        model=name,
-        observed=o,
-        expected=e,
-        structural=struct,
-        active=active,
-        pearson=t_pearson,
-        g2=t_g2,
-        dof=dof,
-        n=n,
-        n_structural_zeros=n_struct,
-        empty_rows=empty_rows,
-        empty_columns=empty_cols,
-        difference=p_obs - p_exp,
-        residuals=resid,
-        residual_p=resid_p,
-        significant=significant,
-        low_expected=low,
-        cramers_v=v,
-        alpha=alpha,
-        iterations=iterations,
-        converged=converged,
-        notes=tuple(notes),
-    )
+    return float(np.sqrt(pearson / (n * k))) if n > 0 and k > 0 else float("nan")

@@ -257,103 +257,128 @@ def _in_units(frame: pd.DataFrame, units: str, decimals: int) -> dict[str, int]:
 
 
 def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Section:
-    from faciesseq.report import figures as fig
-
     tables, summary = _data_tables(cores, scheme)
     results["data"] = summary.to_dict()
     units = cores.units
-    s = Section("Data")
-    n_beds = int(tables["cores"]["beds"].sum()) if len(tables["cores"]) else 0
-    s.add(
-        Paragraph(
-            f"{len(cores)} cores, {n_beds} beds, {len(tables['facies'])} facies of the scheme "
-            f"“{scheme.name}”; depths in {units}, positive downward."
-        )
-    )
     depth = _depth_decimals(cores)
-    s.sub("Cores").add(
-        TableBlock(
-            "data_cores",
-            f"Cores: described intervals, beds (adjacent intervals of one facies amalgamated), "
-            f"depth range, described thickness, and the gaps (number and thickness, {units}).",
-            tables["cores"],
-            decimals=_in_units(tables["cores"], units, depth),
-        )
-    )
+    s = Section("Data")
+    s.add(_data_intro(cores, scheme, tables))
+    s.sub("Cores").add(_cores_table(tables["cores"], units, depth))
     facies = s.sub("Facies")
-    facies.add(
-        TableBlock(
-            "data_facies",
-            "Facies in order of proximality rank (0 = most landward or shallow): described "
-            "intervals, beds (amalgamated) and thickness, with their proportions over all "
-            "cores.",
-            tables["facies"],
-            decimals={
-                **_in_units(tables["facies"], units, depth),
-                "proportion of beds": PROPORTION_DECIMALS,
-                "proportion of thickness": PROPORTION_DECIMALS,
-            },
-        ),
-        TableBlock(
-            "data_bed_thickness",
-            f"Bed thickness per facies ({units}): number of beds, mean, standard deviation, "
-            "median, minimum and maximum.",
-            tables["bed_thickness"],
-            decimals=_in_units(tables["bed_thickness"], units, depth),
-        ),
-    )
-    proportions = tables["facies"][["proportion of beds", "proportion of thickness"]]
-    proportions.columns = ["by beds", "by thickness"]
-    facies.add(
-        FigureBlock(
-            "data_facies_proportions",
-            "Facies proportions by number of beds and by thickness, in the scheme's colours, "
-            "from most landward (top) to most basinward.",
-            fig.bar_chart(
-                proportions,
-                colours={c: facies_colour(c, scheme) for c in proportions.index},
-                xlabel="proportion",
-                ylabel="facies",
-            ),
-        )
-    )
-    check = s.sub("Problems found by check")
-    problems = tables["problems"]
-    if len(problems) == 0:
-        check.add(Paragraph("Reading and validating the data found no problems."))
-    else:
-        counts = problems["severity"].value_counts()
-        for severity in ("error", "warning", "repair"):
-            if severity in counts:
-                check.add(
-                    Paragraph(
-                        f"{int(counts[severity])} {severity}"
-                        f"{'s' if counts[severity] != 1 else ''}: {_HANDLED[severity]}."
-                    )
-                )
-        from faciesseq.report.provenance import display_path
-
-        # file names as the reader knows them, never an installation or home path
-        for name in problems["file"].dropna().unique():
-            problems["message"] = problems["message"].str.replace(
-                str(name), display_path(name), regex=False
-            )
-        problems["file"] = problems["file"].map(lambda f: f if pd.isna(f) else display_path(f))
-        files = problems["file"].dropna().unique()
-        where = "(file, data row, core, depth)"
-        if len(files) == 1:
-            problems = problems.drop(columns=["file"])
-            where = f"(data row of {files[0]}, core, depth)"
-        check.add(
-            TableBlock(
-                "data_problems",
-                f"Every problem found while reading and validating the data, where it is "
-                f"{where} and what it is.",
-                problems,
-                index=False,
-            )
-        )
+    facies.add(*_facies_tables(tables, units, depth))
+    facies.add(_facies_proportions_figure(tables["facies"], scheme))
+    s.sub("Problems found by check").add(*_problem_blocks(tables["problems"]))
     return s
+
+
+def _data_intro(cores: CoreSet, scheme: FaciesScheme, tables: dict[str, pd.DataFrame]) -> Paragraph:
+    """How many cores, beds and facies, of which scheme, in which depth units."""
+    n_beds = int(tables["cores"]["beds"].sum()) if len(tables["cores"]) else 0
+    return Paragraph(
+        f"{len(cores)} cores, {n_beds} beds, {len(tables['facies'])} facies of the scheme "
+        f"“{scheme.name}”; depths in {cores.units}, positive downward."
+    )
+
+
+def _cores_table(cores: pd.DataFrame, units: str, depth: int) -> TableBlock:
+    """One row per core: intervals, beds, depth range, described thickness and gaps."""
+    return TableBlock(
+        "data_cores",
+        f"Cores: described intervals, beds (adjacent intervals of one facies amalgamated), "
+        f"depth range, described thickness, and the gaps (number and thickness, {units}).",
+        cores,
+        decimals=_in_units(cores, units, depth),
+    )
+
+
+def _facies_tables(
+    tables: dict[str, pd.DataFrame], units: str, depth: int
+) -> tuple[TableBlock, TableBlock]:
+    """Facies proportions (by proximality rank) and bed thickness per facies."""
+    proportions = TableBlock(
+        "data_facies",
+        "Facies in order of proximality rank (0 = most landward or shallow): described "
+        "intervals, beds (amalgamated) and thickness, with their proportions over all "
+        "cores.",
+        tables["facies"],
+        decimals={
+            **_in_units(tables["facies"], units, depth),
+            "proportion of beds": PROPORTION_DECIMALS,
+            "proportion of thickness": PROPORTION_DECIMALS,
+        },
+    )
+    thickness = TableBlock(
+        "data_bed_thickness",
+        f"Bed thickness per facies ({units}): number of beds, mean, standard deviation, "
+        "median, minimum and maximum.",
+        tables["bed_thickness"],
+        decimals=_in_units(tables["bed_thickness"], units, depth),
+    )
+    return proportions, thickness
+
+
+def _facies_proportions_figure(facies: pd.DataFrame, scheme: FaciesScheme) -> FigureBlock:
+    """Bar chart of the facies proportions by beds and by thickness, in the scheme's colours."""
+    from faciesseq.report import figures as fig
+
+    proportions = facies[["proportion of beds", "proportion of thickness"]]
+    proportions.columns = ["by beds", "by thickness"]
+    return FigureBlock(
+        "data_facies_proportions",
+        "Facies proportions by number of beds and by thickness, in the scheme's colours, "
+        "from most landward (top) to most basinward.",
+        fig.bar_chart(
+            proportions,
+            colours={c: facies_colour(c, scheme) for c in proportions.index},
+            xlabel="proportion",
+            ylabel="facies",
+        ),
+    )
+
+
+def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
+    """The problems found by check: a count per severity with how it was handled, then
+    the table of every problem (or one line saying there were none)."""
+    if len(problems) == 0:
+        return [Paragraph("Reading and validating the data found no problems.")]
+    counts = problems["severity"].value_counts()
+    blocks: list[Paragraph | TableBlock] = [
+        Paragraph(
+            f"{int(counts[severity])} {severity}"
+            f"{'s' if counts[severity] != 1 else ''}: {_HANDLED[severity]}."
+        )
+        for severity in ("error", "warning", "repair")
+        if severity in counts
+    ]
+    shown, where = _problems_as_shown(problems)
+    blocks.append(
+        TableBlock(
+            "data_problems",
+            f"Every problem found while reading and validating the data, where it is "
+            f"{where} and what it is.",
+            shown,
+            index=False,
+        )
+    )
+    return blocks
+
+
+def _problems_as_shown(problems: pd.DataFrame) -> tuple[pd.DataFrame, str]:
+    """The problems with file names as the reader knows them (never an installation or
+    home path; the file column dropped when there is one file), and what their columns
+    locate."""
+    from faciesseq.report.provenance import display_path
+
+    problems = problems.copy()
+    for name in problems["file"].dropna().unique():
+        problems["message"] = problems["message"].str.replace(
+            str(name), display_path(name), regex=False
+        )
+    problems["file"] = problems["file"].map(lambda f: f if pd.isna(f) else display_path(f))
+    files = problems["file"].dropna().unique()
+    if len(files) == 1:
+        return problems.drop(columns=["file"]), f"(data row of {files[0]}, core, depth)"
+    return problems, "(file, data row, core, depth)"
 
 
 # --------------------------------------------------------------------- markov / model
