@@ -236,6 +236,19 @@ def test_check_reports_each_bad_input_on_one_line(
     assert json.loads(out)["summary"]["usable"] is (code == 0)
 
 
+def test_a_row_left_out_for_an_error_names_itself_in_the_gap_it_leaves(tmp_path, capsys):
+    # a bad facies code on data row 2 (found by the new-user audit): the row is left
+    # out, so the succession is split above data row 3; the gap's warning names the row
+    # that left it instead of reading as a second, unrelated problem
+    source = _write(tmp_path, {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,X\nW1,2,3,B\nW1,4,5,A\n"})
+    _, out, _ = _run(capsys, ["check", source, "--scheme", tmp_path / "scheme.yaml"])
+    gaps = [ln for ln in out.splitlines() if "gap from" in ln]
+    assert len(gaps) == 2, out
+    left, real = gaps
+    assert "data row 3" in left and "left by data row 2 (see its error)" in left
+    assert "data row 4" in real and "left by" not in real  # a gap in the core itself
+
+
 @pytest.mark.parametrize(
     ("files", "options"),
     [c[1:3] for c in CASES if c[3] == 1 and "--scheme" not in c[2]],

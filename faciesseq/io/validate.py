@@ -1148,11 +1148,45 @@ def build_coreset(
             problems.insert(0, suspect)
     if not cores and not any(p.severity == "error" for p in problems):
         problems.append(_no_cores(sources, gathered.order))
-    problems = _in_core_order(problems, gathered.order, target)
+    problems = _in_core_order(_gaps_left_by_errors(problems), gathered.order, target)
     coreset = CoreSet(cores, target, tuple(problems), sources, meta)
     if not isinstance(cores, CoreTable):  # a core table carries its derived tables itself
         coreset._derived.update(derived._derived)
     return coreset
+
+
+def _gaps_left_by_errors(problems: list[Problem]) -> list[Problem]:
+    """The gap warnings that a row left out for an error opened, saying so: a bad facies
+    code on data row 21 leaves a gap above data row 22, which is the same finding seen
+    twice unless the warning names the row that left it. A gap counts as left by an
+    error of the same file and core on the data row next to it, or at its depth."""
+    errors: dict[tuple, list[Problem]] = {}
+    for p in problems:
+        if p.severity == "error" and p.row is not None:
+            errors.setdefault((p.file, p.core), []).append(p)
+    out = []
+    for p in problems:
+        if p.kind == "gap" and p.severity == "warning" and p.row is not None:
+            left = [
+                e
+                for e in errors.get((p.file, p.core), ())
+                if e.row in (p.row - 1, p.row + 1)
+                or (
+                    e.depth is not None
+                    and p.depth is not None
+                    and abs(e.depth - p.depth) <= DEPTH_TOL
+                )
+            ]
+            if left:
+                rows = ", ".join(str(e.row) for e in left)
+                message = p.message.replace(
+                    "above this interval:",
+                    f"above this interval, left by data row {rows} (see its error):",
+                    1,
+                )
+                p = replace(p, message=message)
+        out.append(p)
+    return out
 
 
 def _prepare_tables(
