@@ -37,6 +37,11 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     assert "semi-supervised" in out
     # the interpreter's column keeps the cyclic order, so the strict graph is fitted
     assert "skips: FSST, TST (strict cyclic order: all " in out
+    # what was fitted in two lines, then the cautions; the diagnostics only with --verbose
+    head = out.split("per well")[0].splitlines()
+    assert head[0].startswith("fitted on 8 core(s)") and head[1].startswith("tract graph:")
+    assert all(line.startswith(("caution:", "note:")) for line in head[2:]), head
+    assert "log-likelihood" not in out and "calibrated by a temperature" not in out
     doc = json.loads(model.read_text())
     assert doc["format"] == "faciesseq-tract-model" and doc["version"] == 1
     assert doc["training"]["input_hashes"]

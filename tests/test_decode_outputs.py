@@ -443,5 +443,5 @@ def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     assert load_model(tmp_path / "l.json").unit_ == "intervals"
     used = [d for d in doc["tract_durations"].values() if d["runs"]]
     assert used and all(d["median_cycles"] >= 1 for d in used)
-    _fit(database, tmp_path / "t.json")
+    _fit(database, tmp_path / "t.json", "--verbose")
     assert "tract lengths, beds per visit of the fitted chain" in capsys.readouterr().out
