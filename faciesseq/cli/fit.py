@@ -404,7 +404,8 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
             },
             "contact_note": contact_caution(model),
         }
-        print_json({**document, "tract_durations": durations, **notes})
+        diagnostics = {"diagnostics": _diagnostics(selection)}
+        print_json({**document, "tract_durations": durations, **notes, **diagnostics})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
     with warnings_to_stderr("fit"):
@@ -417,6 +418,30 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         print(caution)
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
+
+
+def _diagnostics(selection) -> dict:
+    """The model-selection and EM diagnostics ``--verbose`` prints, for ``--format
+    json``: as the model file's ``training`` section keeps them (restarts without their
+    log-likelihood histories), with the features, states and evidence weights."""
+    from faciesseq.hmm.modelfile import model_to_dict
+
+    model = selection.best
+    training = model_to_dict(model, {"selection": selection.to_dict()["candidates"]})["training"]
+    kept = ("selection", "graph_selection", "nested_start", "evidence_weights_rejected")
+    found = {k: training[k] for k in kept if k in training}
+    best = training["restarts"][training["best_restart"]]
+    weights = getattr(model, "evidence_weights_", None) or {}
+    return {
+        "features": list(model.features_),
+        "states": list(model.states_.labels()),
+        **found,
+        "evidence_weights": {k: float(v) for k, v in weights.items()} or None,
+        "log_likelihood": training["log_likelihood"],
+        "restarts": len(training["restarts"]),
+        "best_restart": {k: v for k, v in best.items() if k != "history"},
+        "calibration": training["calibration"],
+    }
 
 
 def _first_cores(successions, n: int):
