@@ -37,6 +37,11 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     assert "semi-supervised" in out
     # the interpreter's column keeps the cyclic order, so the strict graph is fitted
     assert "skips: FSST, TST (strict cyclic order: all " in out
+    # what was fitted in two lines, then the cautions; the diagnostics only with --verbose
+    head = out.split("per well")[0].splitlines()
+    assert head[0].startswith("fitted on 8 core(s)") and head[1].startswith("tract graph:")
+    assert all(line.startswith(("caution:", "note:")) for line in head[2:]), head
+    assert "log-likelihood" not in out and "calibrated by a temperature" not in out
     doc = json.loads(model.read_text())
     assert doc["format"] == "faciesseq-tract-model" and doc["version"] == 1
     assert doc["training"]["input_hashes"]
@@ -179,7 +184,10 @@ def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
     lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
     assert len(lines) == 1 and "no rank for them" in lines[0]
     cores = odd.loc[odd.index[:3], "core"].nunique()
-    assert f"with their beds and cores: XX (3, {cores} core(s)); 3 of" in lines[0]
+    in_cores = f" in {cores} core(s)" if cores > 1 else ""
+    # the first place as check names a bad row: data row (header not counted), core, depth
+    first = f"data row 1, core {odd['core'].iat[0]}, depth {odd['top'].iat[0]:.2f} m"
+    assert f"first place: XX (3 beds{in_cores}, first at {first}); 3 of" in lines[0]
     given = ["--scheme", str(database / "scheme.yaml")]
     assert (
         main(
@@ -203,7 +211,7 @@ def test_a_model_fitted_without_a_scheme_decodes_a_facies_its_cores_lacked(
     beds = pd.read_csv(tmp_path / "p" / "tracts.csv", comment="#")
     assert (beds["facies"] == "XX").sum() == 3 and beds["tract"].notna().all()
     lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
-    assert len(lines) == 1 and "XX (3, " in lines[0] and "no rank for them" in lines[0]
+    assert len(lines) == 1 and "XX (3 beds" in lines[0] and "no rank for them" in lines[0]
 
 
 def test_decode_takes_a_scheme_that_only_adds_facies_and_names_what_differs(
@@ -227,7 +235,7 @@ def test_decode_takes_a_scheme_that_only_adds_facies_and_names_what_differs(
     capsys.readouterr()
     argv = ["decode", str(model), str(tmp_path / "odd.csv")]
     assert main([*argv, "--scheme", str(tmp_path / "added.yaml"), "-o", str(tmp_path / "a")]) == 0
-    assert "XX (2, " in capsys.readouterr().err
+    assert "XX (2 beds" in capsys.readouterr().err
     # another rank and a facies left out: the refusal says which (it quoted two equal names)
     changed = {
         **doc,
@@ -262,9 +270,12 @@ def test_decode_names_facies_the_fit_never_saw_and_beds_of_another_scale(
     assert shm > 0
     lines = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
     n_cores = beds.loc[beds["facies"] == "SHM", "core"].nunique()
+    k = int(table.index[table["facies"] == "SHM"][0])  # the first SHM of the source
+    first = f"data row {k + 1}, core {table['core'].iat[k]}, depth {table['top'].iat[k]:.2f} m"
     assert lines == [
-        "faciesseq decode: warning: facies code(s) never seen in training, with their beds "
-        f"and cores: SHM ({shm}, {n_cores} core(s)); {shm} of {len(beds)} beds decoded with "
+        "faciesseq decode: warning: facies code(s) never seen in training, with their beds, "
+        f"cores and first place: SHM ({shm} beds in {n_cores} core(s), first at {first}); "
+        f"{shm} of {len(beds)} beds decoded with "
         "the scheme's rank of SHM; "
         "the tract read from the beds around them"
     ]
@@ -321,7 +332,16 @@ def test_codes_outside_a_model_without_scheme_are_one_line_for_every_core(
     assert "not seen in training" not in err
     (line,) = [x for x in err.splitlines() if "never seen" in x]
     n_cores = beds.loc[beds["facies"] == "BAS", "core"].nunique()
-    assert f"beds and cores: BAS ({n}, {n_cores} core(s)); {n} of {len(beds)} beds decoded" in line
+    first = f"data row 1, core {table['core'].iat[0]}, depth {table['top'].iat[0]:.2f} m"
+    listed = f"BAS ({n} beds in {n_cores} core(s), first at {first}); {n} of {len(beds)} beds"
+    assert f"cores and first place: {listed} decoded" in line
+    # a folder of files: the file is named too; read whole (--keep-labels), the same place
+    (tmp_path / "folder").mkdir()
+    table.to_csv(tmp_path / "folder" / "a.csv", index=False)
+    whole = ["--labels", "tract", "--keep-labels", "-o", str(tmp_path / "whole")]
+    assert main(["decode", str(model), str(tmp_path / "folder"), "--units", "m", *whole]) == 0
+    (line,) = [x for x in capsys.readouterr().err.splitlines() if "never seen" in x]
+    assert f"first at {tmp_path / 'folder' / 'a.csv'}, {first})" in line, line
 
 
 def test_a_long_grid_decode_says_how_long_before_it_starts(database, tmp_path, capsys, monkeypatch):

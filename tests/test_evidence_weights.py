@@ -227,10 +227,12 @@ def test_fit_says_which_evidence_weights_it_used(tmp_path, capsys):
     _stacking_cores([31]).to_frame().to_csv(source, index=False)
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(tmp_path / "m.json")]
-    for weigh in ([], ["--weigh-evidence"]):  # the default, and said
-        assert main([*argv, *weigh, "--force"]) == 0
+    for weigh in ([], ["--weigh-evidence"]):  # the default, and said (a diagnostic)
+        assert main([*argv, *weigh, "--force", "--verbose"]) == 0
         out = capsys.readouterr().out
         assert "evidence weights of the context: " in out and "position 0.06" in out
+        assert main([*argv, *weigh, "--force"]) == 0
+        assert "evidence weights" not in capsys.readouterr().out  # not without --verbose
     assert main([*argv, "--no-weigh-evidence", "--force"]) == 0
     assert "evidence weights" not in capsys.readouterr().out
     labelled = tmp_path / "labelled.csv"

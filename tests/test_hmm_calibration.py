@@ -258,7 +258,7 @@ def test_fit_command_reports_the_calibration_and_refuses_negative_folds(tmp_path
     pd.concat(frames).drop(columns=["thickness"]).to_csv(src, index=False)
     run = [sys.executable, "-m", "faciesseq", "fit", str(src), "--labels", "tract"]
     ok = subprocess.run(
-        [*run, "-o", str(tmp_path / "m.json"), "--calibration-folds", "2"],
+        [*run, "-o", str(tmp_path / "m.json"), "--calibration-folds", "2", "--verbose"],
         capture_output=True,
         text=True,
     )

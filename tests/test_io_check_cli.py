@@ -189,6 +189,40 @@ def test_gap_warnings_of_many_cores_name_each_gap_as_written(tmp_path):
     ]
 
 
+def test_check_sums_up_good_labels_in_one_line_and_in_json(tmp_path, capsys):
+    # check --labels on a good file said nothing of the labels
+    table = pd.DataFrame(
+        {
+            "core": ["W1"] * 4 + ["W2"] * 3 + ["W3"] * 2,
+            "top": [0, 1, 2, 3, 10, 11, 12, 20, 21],
+            "base": [1, 2, 3, 4, 11, 12, 13, 21, 22],
+            "facies": list("ABABABABA"),
+            "tract": ["HST", "HST", "FSST", "LST", "TST", " TST ", "", "", ""],
+        }
+    )
+    table.to_csv(tmp_path / "good.csv", index=False)
+    argv = ["check", str(tmp_path / "good.csv"), "--units", "m", "--labels", "tract"]
+    assert main(argv) == 0
+    out = capsys.readouterr().out
+    line = (
+        "labels: 6 intervals on 2 of 3 cores labelled (column 'tract'); tracts HST 2, "
+        "FSST 1, LST 1, TST 2"
+    )
+    assert line in out.splitlines() and out.index(line) < out.index("problems:")
+    assert main([*argv, "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)["labels"] == {
+        "column": "tract",
+        "intervals": 6,
+        "cores_labelled": 2,
+        "cores": 3,
+        "tracts": {"HST": 2, "FSST": 1, "LST": 1, "TST": 2},
+        "not_tracts": 0,
+    }
+    table.drop(columns="tract").to_csv(tmp_path / "plain.csv", index=False)
+    assert main(["check", str(tmp_path / "plain.csv"), "--units", "m"]) == 0
+    assert "labels:" not in capsys.readouterr().out  # no label column, no line
+
+
 @pytest.mark.parametrize("suffix", [".csv", ".xlsx"])  # a plain CSV file is streamed
 def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
     # check said "usable: yes" (exit 0) and `fit --labels tract` then refused the labels
@@ -216,6 +250,12 @@ def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
         "not interpreted",
     ]
     assert "usable: no (fix the tract labels above" in out
+    # the labels found, counted by hand: 6 of 7 rows labelled (W2's last blank); the
+    # reader upper-cases them, so hst is HST; HIGHSTAND twice and MFS: not tracts
+    assert (
+        "labels: 6 intervals on 2 of 2 cores labelled (column 'tract'); tracts HST 1, "
+        "FSST 0, LST 1, TST 1; 3 labelled with no tract of the model (errors below)"
+    ) in out.splitlines()
     # fit refuses the first of them, in the same words
     assert (
         main(

@@ -146,7 +146,7 @@ def test_fit_and_the_appendix_methods_say_where_em_started(rare, tmp_path, capsy
     train.to_csv(source, index=False)
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     out = tmp_path / "m.json"
-    assert main(["fit", str(source), "--scheme", str(scheme), "-o", str(out)]) == 0
+    assert main(["fit", str(source), "--scheme", str(scheme), "-o", str(out), "--verbose"]) == 0
     assert "EM started from a fit without the FSST (HST -> LST -> TST)" in (capsys.readouterr().out)
 
     described = methods_text(load_model(out))
@@ -154,7 +154,7 @@ def test_fit_and_the_appendix_methods_say_where_em_started(rare, tmp_path, capsy
     assert "Ueda, N., Nakano, R., Ghahramani, Z. & Hinton, G. E. (2000)" in described
     plain = _fit(train, nested_start=False)
     assert "first fitted without" not in methods_text(plain)
-    argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(out), "--force"]
+    argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(out), "--force", "--verbose"]
     assert main([*argv, "--no-nested-start"]) == 0
     assert "EM started from" not in capsys.readouterr().out
     assert json.loads(out.read_text())["hyperparameters"]["nested_start"] is False

@@ -469,16 +469,40 @@ def test_a_sorted_sheet_with_a_note_only_is_an_edit(work, tmp_path, capsys):
 
 
 def test_the_next_fit_names_the_scheme_the_sheets_decode_read(work, tmp_path, capsys):
-    # without --scheme the hint refitted on ranks suggested from the data
+    # without --scheme the hint refitted on ranks suggested from the data; then it named
+    # the copy in the decode's folder (which --force replaces) while the status line
+    # said "scheme: none": now the file the model was fitted with, where it is unchanged
     _filled(work, tmp_path)
     out = tmp_path / "labelled.csv"
     code, stdout, err = _relabel(capsys, work, tmp_path / "filled.csv", out)
+    assert code == 0, err
+    fitted = (work / "scheme.yaml").resolve()
+    (line,) = [x for x in stdout.splitlines() if "next:" in x]
+    assert line.endswith(
+        f"next: faciesseq fit {out} --scheme {fitted} --labels tract -o model.json"
+    )
+    assert f"scheme of that fit: {fitted} (the file the model was fitted with" in stdout
+    assert f"scheme: none (the source read without one); the fit below takes {fitted}" in err
+    # the file changed since the fit (its digest is not the model's): the decode's copy
+    doc = json.loads((work / "model.json").read_text())
+    doc["training"]["input_hashes"][str(work / "scheme.yaml")] = "sha256:" + "0" * 64
+    (tmp_path / "model.json").write_text(json.dumps(doc))
+    record, rows = (tmp_path / "filled.csv").read_text().split("\n", 1)
+    record = record.replace(str((work / "model.json").resolve()), str(tmp_path / "model.json"))
+    (tmp_path / "filled.csv").write_text(record + "\n" + rows)
+    code, stdout, err = _relabel(capsys, work, tmp_path / "filled.csv", out, "--force")
     assert code == 0, err
     scheme = (work / "decoded" / "scheme.yaml").resolve()
     (line,) = [x for x in stdout.splitlines() if "next:" in x]
     assert line.endswith(
         f"next: faciesseq fit {out} --scheme {scheme} --labels tract -o model.json"
     )
+    assert (
+        f"scheme of that fit: {scheme} (the copy of the model's scheme its decode wrote, as "
+        "the file the model was fitted with is not found, or has changed since; a decode "
+        "with --force into that folder replaces it: keep a copy elsewhere)"
+    ) in stdout
+    assert f"the fit below takes {scheme}" in err
     from faciesseq.hmm.modelfile import load_model
     from faciesseq.scheme import load_scheme
 

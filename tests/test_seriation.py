@@ -137,7 +137,7 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
     source = _minimal_table(tmp_path)
     model = tmp_path / "m.json"
     args = ["fit", str(source), "-o", str(model), "--restarts", "1"]
-    assert main([*args, "--suggest-ranks"]) == 0
+    assert main([*args, "--suggest-ranks", "--verbose"]) == 0
     captured = capsys.readouterr()
     assert "ranks suggested from the data, landward to basinward" in captured.err
     assert "scheme: ranks suggested from the data (no --scheme)" in captured.err

@@ -115,7 +115,7 @@ def test_fit_reports_the_run_it_kept(missing, tmp_path, capsys):
     scheme = ROOT / "configs" / "scheme-shoreface.yaml"
     out = tmp_path / "m.json"
     argv = ["fit", str(source), "--scheme", str(scheme), "-o", str(out), "--seed", "121"]
-    assert main(argv) == 0
+    assert main([*argv, "--verbose"]) == 0
     printed = capsys.readouterr().out
     assert "kept the fit from the priors alone, whose TST deepens upward more" in printed
 

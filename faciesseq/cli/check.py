@@ -102,8 +102,9 @@ def _table(header: list[str], rows: list[list[str]]) -> list[str]:
     return lines
 
 
-def format_text(result) -> str:
-    """The geologist's view of a :class:`~faciesseq.io.DatabaseSummary`."""
+def format_text(result, labels: str | None = None) -> str:
+    """The geologist's view of a :class:`~faciesseq.io.DatabaseSummary`, with the line
+    of the tract labels found (``labels``) after the facies."""
     data = result.to_dict()
     head = data["summary"]
     u = head["units"]
@@ -168,6 +169,8 @@ def format_text(result) -> str:
         rows,
     )
     lines += _order_lines(result)
+    if labels:
+        lines += ["", labels]
     lines.append("")
     counts = (
         f"{head['errors']} error(s), {head['warnings']} warning(s), {head['repairs']} repair(s)"
@@ -299,9 +302,12 @@ def run(args: argparse.Namespace) -> int:
         result = replace(result, problems=(*result.problems, *labels(cores)))
     result = replace(result, problems=(*result.problems, *labels.finish()))
     if args.format == "json":
-        print(json.dumps(result.to_dict(), indent=2, allow_nan=False))
+        document = result.to_dict()
+        if labels.summary() is not None:
+            document["labels"] = labels.summary()
+        print(json.dumps(document, indent=2, allow_nan=False))
     else:
-        print(format_text(result))
+        print(format_text(result, labels.line()))
     return 0 if result.usable else 1
 
 
@@ -321,10 +327,14 @@ class _Labels:
         self.tracts = (load_tracts_option(args.tracts) or default_tract_model()).order
         self.found = False
         self.rows = self.labelled = 0
+        self.cores: set[str] = set()  # every core read
+        self.labelled_cores: set[str] = set()  # the cores with a label
+        self.counts = dict.fromkeys(self.tracts, 0)  # intervals per tract of the model
 
     def __call__(self, cores) -> list:
         from faciesseq.hmm.labels import label_problems
 
+        self.cores.update(cores.names)
         table = cores.to_frame(provenance=True)
         if self.column not in table.columns:
             return []
@@ -334,7 +344,43 @@ class _Labels:
         )
         self.rows += len(table)
         self.labelled += labelled
+        text = table[self.column].astype("string").str.strip()  # as label_problems reads them
+        given = text.notna() & (text != "") & (text.str.lower() != "nan")
+        self.labelled_cores.update(table.loc[given.to_numpy(bool), "core"].astype(str))
+        for tract, n in text[given].value_counts().items():
+            if tract in self.counts:
+                self.counts[tract] += int(n)
         return problems
+
+    def summary(self) -> dict | None:
+        """The labels found (None without the column): ``column``, ``intervals``
+        labelled, ``cores_labelled`` of ``cores``, intervals per tract (``tracts``) and
+        ``not_tracts``, the labelled intervals whose label is not a tract of the model."""
+        if not self.found:
+            return None
+        counted = sum(self.counts.values())
+        return {
+            "column": self.column,
+            "intervals": self.labelled,
+            "cores_labelled": len(self.labelled_cores),
+            "cores": len(self.cores),
+            "tracts": dict(self.counts),
+            "not_tracts": self.labelled - counted,
+        }
+
+    def line(self) -> str | None:
+        """``labels: 127 intervals on 2 of 6 cores labelled (column 'tract'); tracts HST
+        40, ...``, or None without the column."""
+        found = self.summary()
+        if found is None:
+            return None
+        tracts = ", ".join(f"{t} {n}" for t, n in found["tracts"].items())
+        odd = found["not_tracts"]
+        return (
+            f"labels: {found['intervals']} intervals on {found['cores_labelled']} of "
+            f"{found['cores']} cores labelled (column {found['column']!r}); tracts {tracts}"
+            + (f"; {odd} labelled with no tract of the model (errors below)" if odd else "")
+        )
 
     def finish(self) -> list:
         from faciesseq.errors import ConfigError

@@ -451,14 +451,17 @@ def _reading_scheme(scheme):
     return None if scheme is None else scheme.admitting_other_codes()
 
 
-def _read(args: argparse.Namespace, model, scheme):
+def _read(args: argparse.Namespace, model, scheme, places: _UnseenPlaces | None = None):
     """The successions of the cores read whole, and whether any core was read in the
-    samples layout."""
+    samples layout; the first place of each facies code the model never saw noted in
+    ``places``."""
     source = read_source(args, _reading_scheme(scheme)).require_valid()
     chosen = _Chosen(args)
     source = chosen(source)
     chosen.check()
     cores = regular_cores(source, "decode", args.keep_irregular)
+    if places is not None:
+        places.add(cores)
     _note_units(model, cores.units)
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
@@ -515,6 +518,67 @@ def _note_units(model, units: str) -> None:
         )
 
 
+class _UnseenPlaces:
+    """The first place of each facies code the model never saw in training, gathered
+    from the cores as they are read (before their intervals become beds, which keep no
+    data row): core and depth, and the data row (and file of a folder) where the
+    reader kept them, as ``check`` and ``fit`` name a bad row."""
+
+    def __init__(self, model, source: str) -> None:
+        from faciesseq.novelty import seen_facies
+
+        self.seen = seen_facies(model)
+        self.source = source
+        self.first: dict[str, str] = {}
+
+    def add(self, cores) -> None:
+        """Note the first interval of each unseen code of ``cores`` not noted yet."""
+        import numpy as np
+        import pandas as pd
+
+        from faciesseq.errors import where
+
+        codes = np.asarray(cores.column("facies")).astype(str)
+        new = ~np.isin(codes, [*self.seen, *self.first])
+        if not new.any():
+            return
+        table = cores.to_frame(provenance=True)[new]
+        table = table.assign(code=codes[new]).drop_duplicates("code")  # the first of each
+        for row in table.to_dict("records"):
+            file, data_row = row.get("_file"), row.get("_row")
+            if pd.isna(file) or Path(str(file)) == Path(self.source):
+                file = None  # the source itself: named where it is one of a folder's files
+            self.first[row["code"]] = where(
+                file=file,
+                row=None if pd.isna(data_row) else int(data_row),
+                core=str(row["core"]),
+                depth=float(row["top"]) if "top" in row else None,
+                units=cores.units,
+            )
+
+    def placed(self, line: str, beds, unit: str) -> str:
+        """The unseen-facies line of :meth:`faciesseq.novelty.DecodedBeds.findings` with
+        each code's beds, cores and first place (``XYZ (1 bed, first at data row 21,
+        core NU-01, depth 1251.40 m)``); any other line as it is."""
+        head = "facies code(s) never seen in training, with their "
+        if not line.startswith(head) or not self.first or ": " not in line:
+            return line
+        _, rest = line.split(": ", 1)
+        tail = rest.split("; ", 1)[1] if "; " in rest else ""
+        unseen = sorted(c for c in beds.facies if c not in self.seen)
+        listed = ", ".join(self._code(c, beds, unit) for c in unseen[:10])
+        if len(unseen) > 10:
+            listed += f" and {len(unseen) - 10} more"
+        return f"{head}{unit}, cores and first place: {listed}" + (f"; {tail}" if tail else "")
+
+    def _code(self, code: str, beds, unit: str) -> str:
+        n, cores = beds.facies[code], beds.facies_cores.get(code, 0)
+        noun = unit if n != 1 else unit.removesuffix("s")
+        text = f"{n} {noun}" + (f" in {cores} core(s)" if cores > 1 else "")
+        first = self.first.get(code)
+        return f"{code} ({text}" + (f", first at {first})" if first else ")")
+
+
 class _Chosen:
     """The cores of ``--core`` (every core where it is not given), taken from each core
     set or batch of whole cores read; :meth:`check` refuses the names none held."""
@@ -546,8 +610,8 @@ class _Streamed:
     """The successions of SOURCE a batch of whole cores at a time (beds or intervals: a grid's
     size is checked on every core first); the irregular cores are named at the end."""
 
-    def __init__(self, args: argparse.Namespace, stream):
-        self.args, self.stream = args, stream
+    def __init__(self, args: argparse.Namespace, stream, places: _UnseenPlaces | None = None):
+        self.args, self.stream, self.places = args, stream, places
         self.left_out: list[str] = []
 
     def tables(self, model):
@@ -562,6 +626,8 @@ class _Streamed:
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
+            if self.places is not None:
+                self.places.add(cores)
             table = cores.succession_table(model.unit_, model.grid_step(cores.units))
             beds += len(table.beds)
             yield table
@@ -706,8 +772,9 @@ def _run(args: argparse.Namespace) -> int:
             "ignore", r"core .*: (facies|contact type) \[", UnseenCategoryWarning
         )
         written = None
+        places = _UnseenPlaces(model, args.source)
         if stream is not None:
-            streamed = _Streamed(args, stream)
+            streamed = _Streamed(args, stream, places)
             parts = model.decode_stream(streamed.tables(model))
             try:
                 written = _write(args, model, scheme, parts, labels, sampled=False)
@@ -716,7 +783,8 @@ def _run(args: argparse.Namespace) -> int:
             else:
                 streamed.announce(scheme)
         if written is None:
-            successions, sampled = _read(args, model, scheme)
+            places = _UnseenPlaces(model, args.source)  # afresh: the cores read again
+            successions, sampled = _read(args, model, scheme, places)
             if args.keep_labels:
                 kept = _kept_labels(successions, model, args.labels)
                 parts = model.decode_parts(successions, labels=kept)
@@ -724,8 +792,9 @@ def _run(args: argparse.Namespace) -> int:
                 parts = model.decode_parts(successions)
             parts = _with_progress(parts, model, successions)
             written = _write(args, model, scheme, parts, labels, sampled)
+        unit = "grid cells" if model.unit_ == "grid" else "beds"
         for finding in written.beds.findings(model):
-            warnings.warn(finding, stacklevel=1)
+            warnings.warn(places.placed(finding, written.beds, unit), stacklevel=1)
         if labels_given and not written.labels_found and not args.keep_labels:
             warnings.warn(
                 f"no column {args.labels!r} in the source to compare the decoded tracts with "

@@ -78,6 +78,13 @@ def register(subparsers) -> None:
         default="text",
         help="printed report: text lines, or one JSON document with every well",
     )
+    parser.add_argument(
+        "--verbose",
+        action="store_true",
+        help="print the model-selection and EM diagnostics too (features and states, the "
+        "ICL of every candidate graph, evidence weights, the EM start, log-likelihood, BIC "
+        "and restarts, calibration, tract lengths); the model file keeps them either way",
+    )
     parser.set_defaults(func=run)
 
 
@@ -160,11 +167,13 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
             progress.close()
 
 
-def _print_weights(model, asked: bool | None) -> None:
+def _print_weights(model, asked: bool | None, verbose: bool) -> None:
     """Whether the context evidence was weighed, and if it was not kept, why; that
-    the weights were not used only where ``--weigh-evidence`` was given (``asked``)."""
+    the weights were not used only where ``--weigh-evidence`` was given (``asked``).
+    The weights, and why they were not kept where nobody asked for them, are
+    diagnostics (``verbose``); what became of an option given is always said."""
     rejected = getattr(model, "weights_rejected_", None)
-    if rejected:
+    if rejected and (verbose or asked):
         weaker = rejected.get("refitted_with") == "square roots of the weights"
         print(
             f"evidence weights not kept: the weighted fit changed tract about "
@@ -172,40 +181,55 @@ def _print_weights(model, asked: bool | None) -> None:
             "cycles (tracts shorter than a parasequence); fitted "
             + ("again with their square roots" if weaker else "without them")
         )
-    if getattr(model, "evidence_weights_", None):
-        w = ", ".join(f"{k} {v:.2f}" for k, v in model.evidence_weights_.items() if v < 1)
+    weights = getattr(model, "evidence_weights_", None)
+    if weights and verbose:
+        w = ", ".join(f"{k} {v:.2f}" for k, v in weights.items() if v < 1)
         print(f"evidence weights of the context: {w}")
-    elif asked and not rejected:
+    elif not weights and asked and not rejected:
         print(
             "evidence weights not used: this fit reads no stacking context (that needs a "
             "scheme with ranks, --unit beds and no labels)"
         )
 
 
-def _print_graph(model) -> None:
-    """Which tract graph the fit used, and why (the ICL of every candidate)."""
+def _graph_line(model, verbose: bool = False) -> str:
+    """Which tract graph the fit used, in plain words: its cyclic order, the tracts it
+    may skip, and why (the labels' boundaries, or the number of candidates compared;
+    their scores with ``verbose``, on a line of their own)."""
+    order = " -> ".join(model.tract_model_.order)
     skips = ", ".join(model.tract_model_.skips) or "none"
     rows = getattr(model, "graph_selection_", [])
-    if not rows:
-        why = ""
-        chosen = getattr(model, "label_graph_", None)
-        if chosen and chosen["graph"] == "strict":
-            n = chosen["n_boundaries"]
-            why = f" (strict cyclic order: all {n} labelled boundaries follow it)"
-        elif chosen:
-            from faciesseq.hmm.labels import forbidden_text
+    why = ""
+    chosen = getattr(model, "label_graph_", None)
+    if rows:
+        kept = next(r for r in rows if r["selected"])
+        n = sum(r.get("start") == kept.get("start") for r in rows)
+        more = "" if verbose else "; --verbose for their scores"
+        why = f" (the lowest ICL of {n} candidate graphs{more})"
+    elif chosen and chosen["graph"] == "strict":
+        why = f" (strict cyclic order: all {chosen['n_boundaries']} labelled boundaries follow it)"
+    elif chosen:
+        from faciesseq.hmm.labels import forbidden_text
 
-            why = (
-                f" (permissive: {chosen['n_forbidden']} of {chosen['n_boundaries']} labelled "
-                "boundaries jump over a tract the strict cyclic order requires, at "
-                f"{forbidden_text(chosen)})"
-                if chosen["n_forbidden"]
-                else " (permissive)"
-            )
-        print(f"tract graph: {' -> '.join(model.tract_model_.order)}, cyclic; skips: {skips}{why}")
-        return
+        why = (
+            f" (permissive: {chosen['n_forbidden']} of {chosen['n_boundaries']} labelled "
+            "boundaries jump over a tract the strict cyclic order requires, at "
+            f"{forbidden_text(chosen)})"
+            if chosen["n_forbidden"]
+            else " (permissive)"
+        )
+    return f"tract graph: {order}, cyclic; skips: {skips}{why}"
+
+
+def _graph_selection_line(model) -> str | None:
+    """The ICL of every candidate graph beside the one kept (None where the graph was
+    not chosen among candidates: a labelled fit, a tract-model file)."""
+    rows = getattr(model, "graph_selection_", [])
+    if not rows:
+        return None
     kept = next(r for r in rows if r["selected"])
     rows = [r for r in rows if r.get("start") == kept.get("start")]  # the kept start's
+    skips = ", ".join(model.tract_model_.skips) or "none"
     others = "; ".join(
         f"{', '.join(r['skips']) or 'none'} +{r['icl'] - kept['icl']:.1f}"
         for r in rows
@@ -213,8 +237,8 @@ def _print_graph(model) -> None:
     )
     sample = rows[0].get("n_beds", model.n_train_beds_)
     on = f", fitted on a sample of {sample} beds" if sample < model.n_train_beds_ else ""
-    print(
-        f"tract graph: strict cyclic order, skips {skips}, the lowest ICL (BIC + 2 x the "
+    return (
+        f"graph selection: strict cyclic order, skips {skips}, the lowest ICL (BIC + 2 x the "
         f"entropy of the beds' tracts) of {len(rows)} candidate graphs (none or one of the "
         f"skips the trade allows){on} (ICL above it: "
         f"{others})"
@@ -222,6 +246,40 @@ def _print_graph(model) -> None:
 
 
 def _print_fit(args: argparse.Namespace, selection) -> None:
+    """What was fitted: cores, beds, mode and tract graph (and the candidate chosen,
+    where several were compared); with ``--verbose`` the model-selection and EM
+    diagnostics too."""
+    model, table = selection.best, selection.table
+    mode = (
+        "unsupervised"
+        if not model.n_labelled_
+        else "supervised"
+        if model.n_labelled_ == model.n_train_beds_
+        else "semi-supervised"
+    )
+    chosen = table[table["selected"]].iloc[0]
+    varied = [c for c in ("features", "substates") if table[c].astype(str).nunique() > 1]
+    candidates = (
+        "; " + ", ".join(f"{c} {chosen[c]}" for c in varied) + f": the lowest BIC of "
+        f"{len(table)} candidates"
+        if len(table) > 1
+        else ""
+    )
+    print(
+        f"fitted on {len(model.cores_)} core(s), {model.n_train_beds_} {args.unit} "
+        f"({model.n_labelled_} labelled, {mode}){candidates}"
+    )
+    print(_graph_line(model, args.verbose))
+    if args.verbose:
+        _print_diagnostics(args, selection)
+    else:
+        _print_weights(model, args.weigh_evidence, verbose=False)
+
+
+def _print_diagnostics(args: argparse.Namespace, selection) -> None:
+    """The model-selection and EM diagnostics (``--verbose``): every candidate, the
+    features and states, the ICL of the candidate graphs, the evidence weights, the
+    EM start, the log-likelihood and restarts, the calibration."""
     from faciesseq.hmm.calibration import describe_calibration
 
     model, table = selection.best, selection.table
@@ -234,22 +292,11 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
                 f"{row.n_parameters} parameters, log-likelihood {row.log_likelihood:.2f}, "
                 f"BIC {row.bic:.2f}"
             )
-    mode = (
-        "unsupervised"
-        if not model.n_labelled_
-        else "supervised"
-        if model.n_labelled_ == model.n_train_beds_
-        else "semi-supervised"
-    )
-    best = model.restarts_[model.best_restart_]
-    converged = "converged" if best["converged"] else "stopped at the iteration cap"
-    print(
-        f"fitted on {len(model.cores_)} core(s), {model.n_train_beds_} {args.unit} "
-        f"({model.n_labelled_} labelled, {mode}); features {','.join(model.features_)}; "
-        f"states {','.join(model.states_.labels())}"
-    )
-    _print_graph(model)
-    _print_weights(model, args.weigh_evidence)
+    print(f"features {','.join(model.features_)}; states {','.join(model.states_.labels())}")
+    graphs = _graph_selection_line(model)
+    if graphs:
+        print(graphs)
+    _print_weights(model, args.weigh_evidence, verbose=True)
     nested = getattr(model, "nested_start_", None)
     if nested:
         print(
@@ -260,6 +307,8 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         if "kept" in nested:
             print(_kept_start(nested))
     chosen = table[table["selected"]].iloc[0]
+    best = model.restarts_[model.best_restart_]
+    converged = "converged" if best["converged"] else "stopped at the iteration cap"
     clamped = f" ({model.log_likelihood_:.3f} with the labels clamped)" if model.n_labelled_ else ""
     print(
         f"log-likelihood {chosen['log_likelihood']:.3f}{clamped}, BIC {chosen['bic']:.2f}; "
@@ -355,18 +404,44 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
             },
             "contact_note": contact_caution(model),
         }
-        print_json({**document, "tract_durations": durations, **notes})
+        diagnostics = {"diagnostics": _diagnostics(selection)}
+        print_json({**document, "tract_durations": durations, **notes, **diagnostics})
         return
     listed, n_cores = _first_cores(successions, WELL_LIMIT)
     with warnings_to_stderr("fit"):
         interp = model.decode(listed)
     _print_fit(args, selection)
-    units = next(iter(interp)).units if len(interp) else ""
-    print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
+    if args.verbose:
+        units = next(iter(interp)).units if len(interp) else ""
+        print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
     for caution in fit_cautions(model):
         print(caution)
     print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
     print(f"model written to {args.output}")
+
+
+def _diagnostics(selection) -> dict:
+    """The model-selection and EM diagnostics ``--verbose`` prints, for ``--format
+    json``: as the model file's ``training`` section keeps them (restarts without their
+    log-likelihood histories), with the features, states and evidence weights."""
+    from faciesseq.hmm.modelfile import model_to_dict
+
+    model = selection.best
+    training = model_to_dict(model, {"selection": selection.to_dict()["candidates"]})["training"]
+    kept = ("selection", "graph_selection", "nested_start", "evidence_weights_rejected")
+    found = {k: training[k] for k in kept if k in training}
+    best = training["restarts"][training["best_restart"]]
+    weights = getattr(model, "evidence_weights_", None) or {}
+    return {
+        "features": list(model.features_),
+        "states": list(model.states_.labels()),
+        **found,
+        "evidence_weights": {k: float(v) for k, v in weights.items()} or None,
+        "log_likelihood": training["log_likelihood"],
+        "restarts": len(training["restarts"]),
+        "best_restart": {k: v for k, v in best.items() if k != "history"},
+        "calibration": training["calibration"],
+    }
 
 
 def _first_cores(successions, n: int):

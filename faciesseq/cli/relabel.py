@@ -69,17 +69,121 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _next_fit(args: argparse.Namespace, result, record: dict | None = None) -> str:
+def _fitted_scheme(model_path: str) -> str | None:
+    """The scheme file the model at ``model_path`` was fitted with, where it still
+    exists unchanged, or None (no such file, changed since, a fit without a scheme
+    file, a model file unreadable or made before its inputs were recorded).
+
+    The model file records the digest of every file the fit read under the path the
+    fit was given (``training.input_hashes``), relative to the folder it ran in; a
+    path is looked for from that folder (where the fit's ``-o`` was relative and led to
+    the model file), from here and beside the model, and taken where the file there
+    holds the recorded bytes and is a scheme with the model's facies codes."""
+    import json
+
+    from faciesseq.errors import FaciesseqError
+    from faciesseq.hmm.modelfile import file_digest
+    from faciesseq.scheme import load_scheme
+
+    model = Path(model_path)
+    try:
+        doc = json.loads(model.read_text(encoding="utf-8"))
+        digests = dict(doc["training"]["input_hashes"])
+        codes = [f["code"] for f in doc["scheme"]["facies"]]
+        source = doc["training"].get("source")
+        command = [str(w) for w in (doc.get("provenance") or {}).get("command") or []]
+    except (OSError, ValueError, KeyError, TypeError):
+        return None
+    folders = [Path.cwd(), model.parent]
+    output = _option(command, "-o", "--output")
+    if output and not Path(output).is_absolute() and model.resolve().match(output):
+        # the fit ran where its relative -o led to the model file
+        folders.insert(0, model.resolve().parents[len(Path(output).parts) - 1])
+    for given, digest in digests.items():
+        if given == source or not given.endswith((".yaml", ".yml")):
+            continue
+        for folder in folders:
+            candidate = folder / given
+            try:
+                if not candidate.is_file() or file_digest(candidate) != digest:
+                    continue
+                if list(load_scheme(candidate).codes) == codes:
+                    return str(candidate.resolve())
+            except (OSError, FaciesseqError):
+                continue
+    return None
+
+
+def _option(words: list[str], *names: str) -> str | None:
+    """The value of the first of ``names`` in a command (``--name VALUE`` or
+    ``--name=VALUE``), or None."""
+    for k, word in enumerate(words):
+        for name in names:
+            if word == name and k + 1 < len(words):
+                return words[k + 1]
+            if word.startswith(name + "=") and name.startswith("--"):
+                return word.split("=", 1)[1]
+    return None
+
+
+def _next_scheme(args: argparse.Namespace, record: dict | None) -> tuple[str | None, str]:
+    """The scheme file the next fit takes, and what it is: ``--scheme``; else the
+    ``--scheme`` the sheet's decode read (its record), a geologist's file; else the file
+    the sheet's model was fitted with, where it still exists unchanged; else the copy
+    of the model's scheme the decode wrote in its output folder (which a decode with
+    ``--force`` into that folder replaces); else none."""
+    if args.scheme:
+        return args.scheme, "--scheme"
+    record = record or {}
+    scheme, model = record.get("scheme", "none"), record.get("model", "none")
+    if scheme != "none" and not _decode_copy(scheme):
+        return scheme, "the --scheme of the sheet's decode, its record"
+    fitted = _fitted_scheme(model) if model != "none" else None
+    if fitted is not None:
+        return fitted, f"the file the model was fitted with, as {Path(model).name} records it"
+    if scheme == "none":
+        return None, "none"
+    why = (
+        "the file the model was fitted with is not found, or has changed since"
+        if _fitted_with_file(model)
+        else "the model was fitted without a scheme file"
+    )
+    return scheme, (
+        f"the copy of the model's scheme its decode wrote, as {why}; a decode with --force "
+        "into that folder replaces it: keep a copy elsewhere"
+    )
+
+
+def _decode_copy(scheme: str) -> bool:
+    """Whether a scheme file of a sheet's record is the copy of the model's scheme that
+    decode writes in its output folder (``OUT/scheme.yaml`` beside ``OUT/tracts.csv``)."""
+    path = Path(scheme)
+    return path.name == "scheme.yaml" and (path.parent / "tracts.csv").is_file()
+
+
+def _fitted_with_file(model_path: str) -> bool:
+    """Whether the model was fitted with a scheme file (not with ranks suggested from
+    the data); True where the model file cannot be read (then the file is said not
+    found, not that there was none)."""
+    import json
+
+    try:
+        doc = json.loads(Path(model_path).read_text(encoding="utf-8"))
+        return doc["scheme"].get("name") != "ranks suggested from the data"
+    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+        return True
+
+
+def _next_fit(args: argparse.Namespace, result, scheme: str | None) -> str:
     """The ``fit`` command to run next on the labelled table: the options of this run
     that the fit needs too (the scheme, the tract model; the table written holds its
     units and the columns under their roles, so no reading option is needed). Without
-    ``--scheme``, the scheme the sheet's decode read (its record): a fit without one
-    would rank the facies from the data instead of the scheme the model was fitted with."""
+    ``--scheme``, the scheme of :func:`_next_scheme`: a fit without one would rank the
+    facies from the data instead of the scheme the model was fitted with."""
     import shlex
 
     words = ["faciesseq", "fit", args.output]
-    scheme = args.scheme or (record or {}).get("scheme", "none")
-    if scheme != "none":
+    if scheme is not None:
         words += ["--scheme", scheme]
     if args.tracts:
         words += ["--tracts", args.tracts]
@@ -87,7 +191,7 @@ def _next_fit(args: argparse.Namespace, result, record: dict | None = None) -> s
     return shlex.join(words)
 
 
-def _report(result, output: str, next_fit: str) -> list[str]:
+def _report(result, output: str, next_fit: str, scheme: tuple[str | None, str]) -> list[str]:
     n_filled, n_changed = sum(result.filled.values()), sum(result.changed.values())
     lines = [
         f"{result.sheet}: {n_filled} bed(s) given a tract by the geologist in "
@@ -117,6 +221,8 @@ def _report(result, output: str, next_fit: str) -> list[str]:
         f"written to {output} (labels in {result.labels!r}, origin in 'label_source'); "
         f"next: {next_fit}"
     )
+    if scheme[0] is not None:
+        lines.append(f"scheme of that fit: {scheme[0]} ({scheme[1]})")
     return lines
 
 
@@ -139,8 +245,14 @@ def run(args: argparse.Namespace) -> int:
     result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    next_fit = _next_fit(args, result, settings.record)
-    print("\n".join(_report(result, args.output, next_fit)))
+    scheme_file = _next_scheme(args, settings.record)
+    next_fit = _next_fit(args, result, scheme_file[0])
+    if scheme_file[0] is not None and not args.scheme and getattr(args, "settings_line", None):
+        # the source was read without a scheme; the fit suggested takes one: say both
+        args.settings_line += (
+            f" (the source read without one); the fit below takes {scheme_file[0]}"
+        )
+    print("\n".join(_report(result, args.output, next_fit, scheme_file)))
     if settings.record is None:
         what = f"a damaged record ({settings.damaged})" if settings.damaged else "no record"
         print(
