@@ -19,13 +19,13 @@ import pandas as pd
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
 from faciesseq.io.columns import ROLES, match_columns
-from faciesseq.io.frame import read_frame, scheme_option, units_option
+from faciesseq.io.frame import read_frame, units_option
 from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, load_source_file, read_tables
 from faciesseq.io.stream import CoreStream, NotStreamable, open_stream
 from faciesseq.io.summary import DatabaseSummary, summarise
 from faciesseq.io.validate import build_coreset, facies_code
 from faciesseq.io.writer import write_cores
-from faciesseq.scheme import FaciesScheme
+from faciesseq.scheme import FaciesScheme, as_scheme
 
 __all__ = [
     "ROLES",
@@ -207,7 +207,7 @@ def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesSchem
     spec = source_spec(source, **options)
     if scheme is None and spec.scheme is not None:
         scheme = spec.scheme
-    scheme = scheme_option(scheme)
+    scheme = as_scheme(scheme)
     units_option(spec.units)
     return spec, scheme
 

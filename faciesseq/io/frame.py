@@ -23,9 +23,9 @@ from faciesseq.errors import ConfigError, InputError
 from faciesseq.io.raw import RawTable
 from faciesseq.io.validate import build_coreset
 from faciesseq.io.wording import PYTHON
-from faciesseq.scheme import FaciesScheme, load_scheme
+from faciesseq.scheme import FaciesScheme, as_scheme
 
-__all__ = ["FRAME", "as_frame", "read_frame", "scheme_option", "units_option"]
+__all__ = ["FRAME", "as_frame", "read_frame", "units_option"]
 
 #: How messages name a DataFrame given without provenance columns.
 FRAME = "DataFrame"
@@ -36,18 +36,6 @@ def units_option(units: str | None) -> str | None:
     if units is not None and units not in ("m", "ft"):
         raise ConfigError(f"units must be 'm' or 'ft', got {units!r}")
     return units
-
-
-def scheme_option(scheme: FaciesScheme | str | Path | None) -> FaciesScheme | None:
-    """A facies scheme given as itself, as the path of its YAML file, or ``None``."""
-    if isinstance(scheme, str | Path):
-        return load_scheme(scheme)
-    if scheme is not None and not isinstance(scheme, FaciesScheme):
-        raise TypeError(
-            "scheme must be a FaciesScheme, the path of a scheme YAML file or None, got "
-            f"{type(scheme).__name__}"
-        )
-    return scheme
 
 
 def as_frame(data: object, taker: str) -> pd.DataFrame:
@@ -123,7 +111,7 @@ def read_frame(
     :class:`TypeError` for data that is no table."""
     frame = as_frame(data, taker)
     units = units_option(units)
-    scheme = scheme_option(scheme)
+    scheme = as_scheme(scheme)
     tables = _raw_tables(frame)
     return build_coreset(
         tables,
