@@ -424,9 +424,9 @@ def _labelled_successions(
     successions: CoreSet | Sequence[Succession], labels: str, params: dict[str, Any]
 ) -> list[Succession]:
     """The non-empty successions in the model's unit, checked to carry the label column."""
-    from faciesseq.hmm.model import _as_successions
+    from faciesseq.hmm.inputs import as_successions
 
-    succ = [s for s in _as_successions(successions, params["unit"], params.get("step")) if len(s)]
+    succ = [s for s in as_successions(successions, params["unit"], params.get("step")) if len(s)]
     if succ and labels not in succ[0].beds.columns:
         raise ConfigError(
             f"label column {labels!r} not found (columns: {sorted(map(str, succ[0].beds.columns))})"

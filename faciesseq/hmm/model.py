@@ -96,10 +96,6 @@ def fit_unit(unit: str, labelled: bool) -> str:
 CONTEXT_SUBSTATES = 3
 
 
-def _as_successions(data: Any, unit: str, step: float | None) -> list[Succession]:
-    return as_successions(data, unit, step)
-
-
 def _training_successions(
     data: Any, unit: str, step: float | None, labels: Any
 ) -> Sequence[Succession]:
@@ -110,7 +106,7 @@ def _training_successions(
     labels a list, which labels and calibration folds read a succession at a time."""
     if labels is None:
         return _succession_table(data, unit, step)
-    return [s for s in _as_successions(data, unit, step) if len(s)]
+    return [s for s in as_successions(data, unit, step) if len(s)]
 
 
 #: The calibration record of a fit whose calibration was put off (``fit(calibrate=False)``).
@@ -803,7 +799,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
 
     def _prepare(self, successions) -> tuple[list[Succession], EncodedBeds]:
         self._check_fitted()
-        succ = [s for s in _as_successions(successions, self.unit_, self.step) if len(s)]
+        succ = [s for s in as_successions(successions, self.unit_, self.step) if len(s)]
         if not succ:
             raise InputError("no beds to decode")
         beds = self._encode([s.beds for s in succ])
@@ -856,7 +852,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
                 raise ConfigError("the BIC of a labelled fit needs the successions to score")
             n, loglik = self.n_train_beds_, self.log_likelihood_
         else:
-            succ = [s for s in _as_successions(successions, self.unit_, self.step) if len(s)]
+            succ = [s for s in as_successions(successions, self.unit_, self.step) if len(s)]
             n, loglik = sum(len(s) for s in succ), self.score(succ)
         return -2.0 * loglik + self.n_parameters() * math.log(n)
 
