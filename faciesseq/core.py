@@ -15,13 +15,14 @@ Conventions (used everywhere in the project):
 
 from __future__ import annotations
 
+import numbers
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.errors import InputError, Problem
+from faciesseq.errors import ConfigError, InputError, Problem
 
 __all__ = [
     "FT_TO_M",
@@ -31,6 +32,7 @@ __all__ = [
     "CoreTable",
     "Succession",
     "SuccessionTable",
+    "check_grid_step",
     "in_units",
     "to_metres",
 ]
@@ -57,6 +59,22 @@ def to_metres(values: np.ndarray | float, units: str) -> np.ndarray | float:
     if units == "ft":
         return values * FT_TO_M
     raise InputError(f"unknown depth units {units!r}; expected 'm' or 'ft'")
+
+
+def check_grid_step(unit: str, step: float | None) -> None:
+    """Refuse cutting cores into a depth grid without a positive step (any real
+    number, numpy's too); the one check of ``fit``, ``decode`` and ``analyse``.
+
+    Raises
+    ------
+    ConfigError
+        Where ``unit`` is ``"grid"`` and ``step`` is not a positive number.
+    """
+    if unit == "grid" and not (isinstance(step, numbers.Real) and step > 0):
+        raise ConfigError(
+            f"unit='grid' needs a positive step in depth units (--step on the command line), "
+            f"got step={step!r}"
+        )
 
 
 def in_units(values: np.ndarray | float, units: str, target: str) -> np.ndarray | float:

@@ -21,6 +21,7 @@ from faciesseq.core import (
     CoreSet,
     Succession,
     SuccessionTable,
+    check_grid_step,
     in_units,
     take_text,
     text_column,
@@ -30,7 +31,7 @@ from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
 from faciesseq.hmm.cautions import UNLABELLED_NOTE
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
-from faciesseq.hmm.inputs import as_successions, check_grid_step
+from faciesseq.hmm.inputs import as_successions
 from faciesseq.hmm.said_once import said_once
 from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs

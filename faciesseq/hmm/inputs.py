@@ -12,13 +12,11 @@ from __future__ import annotations
 from os import PathLike
 from typing import Any
 
-from faciesseq.core import Core, CoreSet, Succession, SuccessionTable
-from faciesseq.errors import ConfigError
+from faciesseq.core import Core, CoreSet, Succession, SuccessionTable, check_grid_step
 
 __all__ = [
     "ACCEPTED_CORES",
     "as_successions",
-    "check_grid_step",
     "cores_type_error",
 ]
 
@@ -62,18 +60,3 @@ def as_successions(data: Any, unit: str, step: float | None) -> list[Succession]
         odd = next(s for s in out if not isinstance(s, Succession))
         raise cores_type_error(odd, in_list=True)
     return out
-
-
-def check_grid_step(unit: str, step: float | None) -> None:
-    """Refuse cutting cores into a depth grid without a positive step.
-
-    Raises
-    ------
-    ConfigError
-        Where ``unit`` is ``"grid"`` and ``step`` is not a positive number.
-    """
-    if unit == "grid" and not (isinstance(step, int | float) and step > 0):
-        raise ConfigError(
-            f"unit='grid' needs a positive step in depth units (--step on the command line), "
-            f"got step={step!r}"
-        )

@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet
+from faciesseq.core import CoreSet, check_grid_step
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.markov.contingency import (
     ContingencyResult,
@@ -526,8 +526,7 @@ def analyse_batches(
     settings = settings or _Settings(**options)
     settings.check()
     scheme = as_scheme(scheme)
-    if settings.unit == "grid" and not (settings.step is not None and settings.step > 0):
-        raise ConfigError("unit='grid' needs a positive step in depth units (--unit grid --step)")
+    check_grid_step(settings.unit, settings.step)
     pool = Pool(
         settings.unit,
         settings.step,
