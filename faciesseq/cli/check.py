@@ -332,7 +332,9 @@ class _Labels:
         self.counts = dict.fromkeys(self.tracts, 0)  # intervals per tract of the model
 
     def __call__(self, cores) -> list:
-        from faciesseq.hmm.labels import label_problems
+        import pandas as pd
+
+        from faciesseq.hmm.labels import label_problems, label_text
 
         self.cores.update(cores.names)
         table = cores.to_frame(provenance=True)
@@ -344,8 +346,8 @@ class _Labels:
         )
         self.rows += len(table)
         self.labelled += labelled
-        text = table[self.column].astype("string").str.strip()  # as label_problems reads them
-        given = text.notna() & (text != "") & (text.str.lower() != "nan")
+        text = pd.Series(label_text(table[self.column]), index=table.index, dtype=object)
+        given = text.notna()
         self.labelled_cores.update(table.loc[given.to_numpy(bool), "core"].astype(str))
         for tract, n in text[given].value_counts().items():
             if tract in self.counts:

@@ -27,6 +27,7 @@ __all__ = [
     "forbidden_text",
     "graph_from_labels",
     "label_problems",
+    "label_text",
     "label_values",
     "labelled_beds",
     "no_labels",
@@ -47,8 +48,9 @@ def labelled_beds(clamp: np.ndarray | None, order: Sequence[str]) -> dict[str, i
     return {t: int(n) for t, n in zip(order, counts, strict=True)}
 
 
-def _text(values: pd.Series) -> list[str | None]:
-    """Values as stripped text, ``None`` where blank or missing."""
+def label_text(values: pd.Series) -> list[str | None]:
+    """Tract labels as stripped text, ``None`` where blank or missing (a bed not
+    interpreted), as every reader of labels takes them."""
     text = values.astype("string").str.strip()
     missing = text.isna() | (text == "") | (text.str.lower() == "nan")
     return [None if m else t for t, m in zip(text.tolist(), missing.tolist())]
@@ -73,7 +75,7 @@ def label_problems(
     beds not interpreted; none at all is :func:`no_labels`). ``faciesseq check`` lists
     them all; ``fit`` and ``validate`` refuse the first
     (``faciesseq.cli._common.check_labels``)."""
-    text = pd.Series(_text(table[column]), index=table.index, dtype=object)
+    text = pd.Series(label_text(table[column]), index=table.index, dtype=object)
     blank = text.isna()
     bad = np.flatnonzero((~blank & ~text.isin(list(tracts))).to_numpy(dtype=bool))
     found: dict[tuple[str, str], list[int]] = {}
@@ -114,7 +116,7 @@ def label_values(
                     f"(columns: {sorted(map(str, s.beds.columns))})",
                     core=s.core,
                 )
-            values = _text(s.beds[labels])
+            values = label_text(s.beds[labels])
         else:
             values = [None if v is None else str(v) for v in labels[k]]
             if len(values) != len(s):
