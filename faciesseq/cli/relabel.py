@@ -69,7 +69,19 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _fitted_scheme(model_path: str) -> str | None:
+def _model_document(model_path: str) -> dict | None:
+    """The model file as JSON (read once for the two questions asked of it below), or
+    None where it cannot be read."""
+    import json
+
+    try:
+        doc = json.loads(Path(model_path).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    return doc if isinstance(doc, dict) else None
+
+
+def _fitted_scheme(model_path: str, doc: dict | None) -> str | None:
     """The scheme file the model at ``model_path`` was fitted with, where it still
     exists unchanged, or None (no such file, changed since, a fit without a scheme
     file, a model file unreadable or made before its inputs were recorded).
@@ -79,15 +91,12 @@ def _fitted_scheme(model_path: str) -> str | None:
     path is looked for from that folder (where the fit's ``-o`` was relative and led to
     the model file), from here and beside the model, and taken where the file there
     holds the recorded bytes and is a scheme with the model's facies codes."""
-    import json
-
     from faciesseq.errors import FaciesseqError
     from faciesseq.hmm.modelfile import file_digest
     from faciesseq.scheme import load_scheme
 
     model = Path(model_path)
     try:
-        doc = json.loads(model.read_text(encoding="utf-8"))
         digests = dict(doc["training"]["input_hashes"])
         codes = [f["code"] for f in doc["scheme"]["facies"]]
         source = doc["training"].get("source")
@@ -138,14 +147,15 @@ def _next_scheme(args: argparse.Namespace, record: dict | None) -> tuple[str | N
     scheme, model = record.get("scheme", "none"), record.get("model", "none")
     if scheme != "none" and not _decode_copy(scheme):
         return scheme, "the --scheme of the sheet's decode, its record"
-    fitted = _fitted_scheme(model) if model != "none" else None
+    doc = _model_document(model) if model != "none" else None
+    fitted = _fitted_scheme(model, doc) if doc is not None else None
     if fitted is not None:
         return fitted, f"the file the model was fitted with, as {Path(model).name} records it"
     if scheme == "none":
         return None, "none"
     why = (
         "the file the model was fitted with is not found, or has changed since"
-        if _fitted_with_file(model)
+        if _fitted_with_file(doc)
         else "the model was fitted without a scheme file"
     )
     return scheme, (
@@ -161,16 +171,13 @@ def _decode_copy(scheme: str) -> bool:
     return path.name == "scheme.yaml" and (path.parent / "tracts.csv").is_file()
 
 
-def _fitted_with_file(model_path: str) -> bool:
-    """Whether the model was fitted with a scheme file (not with ranks suggested from
-    the data); True where the model file cannot be read (then the file is said not
-    found, not that there was none)."""
-    import json
-
+def _fitted_with_file(doc: dict | None) -> bool:
+    """Whether the model (its file as JSON, :func:`_model_document`) was fitted with a
+    scheme file (not with ranks suggested from the data); True where the model file
+    cannot be read (then the file is said not found, not that there was none)."""
     try:
-        doc = json.loads(Path(model_path).read_text(encoding="utf-8"))
         return doc["scheme"].get("name") != "ranks suggested from the data"
-    except (OSError, ValueError, KeyError, TypeError, AttributeError):
+    except (KeyError, TypeError, AttributeError):
         return True
 
 
