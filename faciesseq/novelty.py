@@ -95,6 +95,9 @@ class DecodedBeds:
         #: thickness of each (core, facies), a part at a time
         self.core_facies: list[pd.Series] = []
         self.units: str | None = None
+        #: where each facies code was first read (``data row 21, core NU-01, depth
+        #: 1251.40 m``), for the codes whose reader kept it; the beds keep no data row
+        self.first_places: dict[str, str] = {}
 
     def add(self, beds: pd.DataFrame, units: str) -> None:
         """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``, and
@@ -116,7 +119,7 @@ class DecodedBeds:
         training = getattr(model, "training_", None) or {}
         unit = "grid cells" if model.unit_ == "grid" else "beds"
         found = [
-            _unseen(self.facies, self.facies_cores, training, model, unit),
+            _unseen(self.facies, self.facies_cores, training, model, unit, self.first_places),
             self._contacts(model, unit),
         ]
         if model.unit_ != "grid":
@@ -205,21 +208,46 @@ def foreign_facies(decoded: DecodedBeds, model) -> str | None:
     )
 
 
-def _unseen(facies: Counter, cores: Counter, training: Mapping, model, unit: str) -> str | None:
+def _unseen(
+    facies: Counter,
+    cores: Counter,
+    training: Mapping,
+    model,
+    unit: str,
+    first: Mapping[str, str] | None = None,
+) -> str | None:
     """The line naming the codes never seen in training, with their beds (and the
-    cores that hold them, where ``cores`` counts them), or None."""
+    cores that hold them, where ``cores`` counts them; and where each was first read,
+    where ``first`` says), or None."""
     seen = seen_facies(model)
     unseen = sorted(c for c in facies if c not in seen)
     if not unseen:
         return None
+    total = sum(facies[c] for c in unseen)
+    tail = f"{total} of {sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
+    if first:
+        listed = ", ".join(_placed(c, facies[c], cores.get(c, 0), first, unit) for c in unseen[:10])
+        if len(unseen) > 10:
+            listed += f" and {len(unseen) - 10} more"
+        return (
+            f"facies code(s) never seen in training, with their {unit}, cores and first "
+            f"place: {listed}; {tail}"
+        )
     counted = any(cores[c] for c in unseen)  # the cores that hold them, beside the beds
     shown = {c: f"{facies[c]}, {cores[c]} core(s)" if counted else facies[c] for c in unseen}
-    listed, total = _listed(shown, unseen), sum(facies[c] for c in unseen)
     unit_cores = f"{unit} and cores" if counted else unit
     return (
-        f"facies code(s) never seen in training, with their {unit_cores}: {listed}; {total} of "
-        f"{sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
+        f"facies code(s) never seen in training, with their {unit_cores}: "
+        f"{_listed(shown, unseen)}; {tail}"
     )
+
+
+def _placed(code: str, n: int, n_cores: int, first: Mapping[str, str], unit: str) -> str:
+    """``XYZ (1 bed, first at data row 21, core NU-01, depth 1251.40 m)``."""
+    noun = unit if n != 1 else unit.removesuffix("s")
+    text = f"{n} {noun}" + (f" in {n_cores} core(s)" if n_cores > 1 else "")
+    place = first.get(code)
+    return f"{code} ({text}" + (f", first at {place})" if place else ")")
 
 
 def _listed(counts: Mapping, unseen: list[str], shown: int = 10) -> str:

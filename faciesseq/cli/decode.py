@@ -556,28 +556,6 @@ class _UnseenPlaces:
                 units=cores.units,
             )
 
-    def placed(self, line: str, beds, unit: str) -> str:
-        """The unseen-facies line of :meth:`faciesseq.novelty.DecodedBeds.findings` with
-        each code's beds, cores and first place (``XYZ (1 bed, first at data row 21,
-        core NU-01, depth 1251.40 m)``); any other line as it is."""
-        head = "facies code(s) never seen in training, with their "
-        if not line.startswith(head) or not self.first or ": " not in line:
-            return line
-        _, rest = line.split(": ", 1)
-        tail = rest.split("; ", 1)[1] if "; " in rest else ""
-        unseen = sorted(c for c in beds.facies if c not in self.seen)
-        listed = ", ".join(self._code(c, beds, unit) for c in unseen[:10])
-        if len(unseen) > 10:
-            listed += f" and {len(unseen) - 10} more"
-        return f"{head}{unit}, cores and first place: {listed}" + (f"; {tail}" if tail else "")
-
-    def _code(self, code: str, beds, unit: str) -> str:
-        n, cores = beds.facies[code], beds.facies_cores.get(code, 0)
-        noun = unit if n != 1 else unit.removesuffix("s")
-        text = f"{n} {noun}" + (f" in {cores} core(s)" if cores > 1 else "")
-        first = self.first.get(code)
-        return f"{code} ({text}" + (f", first at {first})" if first else ")")
-
 
 class _Chosen:
     """The cores of ``--core`` (every core where it is not given), taken from each core
@@ -792,9 +770,9 @@ def _run(args: argparse.Namespace) -> int:
                 parts = model.decode_parts(successions)
             parts = _with_progress(parts, model, successions)
             written = _write(args, model, scheme, parts, labels, sampled)
-        unit = "grid cells" if model.unit_ == "grid" else "beds"
+        written.beds.first_places = places.first
         for finding in written.beds.findings(model):
-            warnings.warn(places.placed(finding, written.beds, unit), stacklevel=1)
+            warnings.warn(finding, stacklevel=1)
         if labels_given and not written.labels_found and not args.keep_labels:
             warnings.warn(
                 f"no column {args.labels!r} in the source to compare the decoded tracts with "
