@@ -281,36 +281,16 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
     for number, batch in enumerate(_batches(lens, rows_per_batch)):
         N = batch.n_rows
         counts, off = batch.counts.tolist(), batch.offsets.tolist()
-        n_steps = len(counts)
         E, alpha, beta = E_buf[:N], alpha_buf[:N], beta_buf[:N]
         scale, row_max = scale_buf[:N], shift_buf[:N]
         _forward(source, batch, pi, A, E, alpha, scale, row_max, norm_buf[:N])
 
-        # Backward pass; E[t] (t >= 1) is overwritten by E[t] * beta[t] / c[t],
-        # the factor shared by beta[t-1] and by the two-slice posteriors
-        # xi[t-1] = alpha[t-1]^T (E[t] * beta[t] / c[t]) * A.
-        beta[batch.last] = 1.0
-        for t in range(n_steps - 2, -1, -1):
-            o1, n, o = off[t + 1], counts[t + 1], off[t]
-            x = E[o1 : o1 + n]
-            mul(x, beta[o1 : o1 + n], out=x)
-            div(x, scale[o1 : o1 + n, None], out=x)
-            dot(x, AT, out=beta[o : o + n])
+        _backward(batch, E, beta, scale, AT)
         if xi_out is None:
             _accumulate_xi(alpha, E, batch.counts, off, xi_acc, xi_step)
-
-        if xi_out is not None:
-            # Per-boundary xi in chunks of at most rows_per_batch * K cells,
-            # so that the K x K factor does not multiply the work memory.
+        else:
             chunk = max(1, rows_per_batch // K)
-            for lo in range(off[1] if n_steps > 1 else N, N, chunk):
-                nxt = slice(lo, min(N, lo + chunk))
-                step, position = batch.step[nxt], batch.position[nxt]
-                xi_b = alpha[batch.offsets[step - 1] + position][:, :, None] * A
-                xi_b *= E[nxt][:, None, :]
-                xi_sum += xi_b.sum(axis=0)
-                xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
-                del xi_b
+            _boundary_xi(batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start)
 
         gamma = alpha
         mul(gamma, beta, out=gamma)
@@ -332,6 +312,37 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
         start=start,
         code_gamma=code_gamma,
     )
+
+
+def _backward(batch: _Batch, E, beta, scale, AT) -> None:
+    """The scaled backward pass of one batch, in place: ``beta`` the backward
+    variables divided by the forward pass's scale factors, and ``E[t]`` (``t >= 1``)
+    overwritten by ``E[t] * beta[t] / c[t]``, the factor shared by ``beta[t-1]`` and by
+    the two-slice posteriors ``xi[t-1] = alpha[t-1]^T (E[t] * beta[t] / c[t]) * A``."""
+    counts, off = batch.counts.tolist(), batch.offsets.tolist()
+    mul, div, dot = np.multiply, np.divide, np.dot
+    beta[batch.last] = 1.0
+    for t in range(len(counts) - 2, -1, -1):
+        o1, n, o = off[t + 1], counts[t + 1], off[t]
+        x = E[o1 : o1 + n]
+        mul(x, beta[o1 : o1 + n], out=x)
+        div(x, scale[o1 : o1 + n, None], out=x)
+        dot(x, AT, out=beta[o : o + n])
+
+
+def _boundary_xi(batch: _Batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start) -> None:
+    """The two-slice posterior of every boundary of one batch into ``xi_out`` (and
+    summed into ``xi_sum``), from the forward variables and the ``E`` of
+    :func:`_backward`; in chunks of ``chunk`` boundaries, so that the ``K x K`` factor
+    does not multiply the work memory."""
+    N, off = batch.n_rows, batch.offsets
+    for lo in range(int(off[1]) if len(batch.counts) > 1 else N, N, chunk):
+        nxt = slice(lo, min(N, lo + chunk))
+        step, position = batch.step[nxt], batch.position[nxt]
+        xi_b = alpha[off[step - 1] + position][:, :, None] * A
+        xi_b *= E[nxt][:, None, :]
+        xi_sum += xi_b.sum(axis=0)
+        xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
 
 
 def _forward(source, batch: _Batch, pi, A, E, alpha, scale, row_max, work) -> None:
