@@ -144,8 +144,7 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
     index_path = np.empty(max(steps.batch.n_rows for steps in batches) + _STEP_PAD, dtype=np.intp)
     for steps in batches:
         batch = steps.batch
-        N, B = batch.n_rows, batch.seq.size
-        counts, off, width = batch.counts.tolist(), batch.offsets.tolist(), steps.width.tolist()
+        N = batch.n_rows
         delta = delta_buf[: K * steps.n_cells]
         blocks = steps.blocks(delta, K)
 
@@ -155,42 +154,61 @@ def _viterbi(source, lengths, startprob, transmat, batch_size):
         index = index_path[: N + _STEP_PAD]
         source.batch_index(batch.rows, index[:N])
         index[N:] = 0
-        current = blocks[0]
-        current[:] = log_pi[:, None]
-        source.add_log_columns(index[: width[0]], current, work)
-        for t in range(1, len(counts)):
-            previous, current = current, blocks[t]
-            if width[t] < _WIDE_STEP:
-                current = current[:, : counts[t]]  # a narrow step: no padding columns
-            step(previous, current)
-            source.add_log_columns(index[off[t] : off[t] + current.shape[1]], current, work)
-
-        # delta at the last row of every sequence: column j of step lengths[j] - 1
-        final_delta = delta[steps.cells(batch.lengths - 1, np.arange(B), K)]
-        final_state = final_delta.argmax(axis=0)
-        final_lp = final_delta[final_state, np.arange(B)]
-        dead = np.flatnonzero(final_lp == -np.inf)
-        if dead.size:
-            # Name the first row where every path of that sequence has died.
-            j = int(dead[0])
-            column = delta[steps.cells(np.arange(batch.lengths[j]), j, K)]
-            first = int(np.flatnonzero(column.max(axis=0) == -np.inf)[0])
-            raise _impossible(batch, off[first] + j, "no path of non-zero probability")
-        log_prob[batch.seq] = final_lp
-
-        # Backtracking over the packed rows, in place of the index: the
-        # states read for padding columns are those of the rows that follow
-        # (steps already backtracked), or the zeros of the tail. The sequences
-        # ending at step t - 1 already hold their final state.
+        _max_plus_steps(steps, blocks, index, log_pi, step, source, work)
+        final_state, log_prob[batch.seq] = _final_states(steps, delta, K)
+        # Backtracking over the packed rows, in place of the index
         path = index
         path[batch.last] = final_state
-        for t in range(len(counts) - 1, 0, -1):
-            o, op = off[t], off[t - 1]
-            m = width[t] if width[t] >= _WIDE_STEP else counts[t]
-            back(blocks[t - 1], path[o : o + m], path[op : op + counts[t]])
+        _backtrack(steps, blocks, path, back)
         path_out[batch.rows] = path[:N]
 
     return path_out, log_prob
+
+
+def _max_plus_steps(steps, blocks, index, log_pi, step, source, work) -> None:
+    """The max-plus forward pass of one batch into its ``(K, width)`` delta blocks,
+    the emissions of step ``t`` looked up by ``index`` (packed rows)."""
+    counts, off, width = steps.lists()
+    current = blocks[0]
+    current[:] = log_pi[:, None]
+    source.add_log_columns(index[: width[0]], current, work)
+    for t in range(1, len(counts)):
+        previous, current = current, blocks[t]
+        if width[t] < _WIDE_STEP:
+            current = current[:, : counts[t]]  # a narrow step: no padding columns
+        step(previous, current)
+        source.add_log_columns(index[off[t] : off[t] + current.shape[1]], current, work)
+
+
+def _final_states(steps, delta, K: int) -> tuple[np.ndarray, np.ndarray]:
+    """The best last state and the log-probability of the best path of every sequence
+    of a batch, from delta at its last row (column ``j`` of step ``lengths[j] - 1``);
+    a sequence whose every path died is refused, naming the first row where they did."""
+    batch = steps.batch
+    B = batch.seq.size
+    final_delta = delta[steps.cells(batch.lengths - 1, np.arange(B), K)]
+    final_state = final_delta.argmax(axis=0)
+    final_lp = final_delta[final_state, np.arange(B)]
+    dead = np.flatnonzero(final_lp == -np.inf)
+    if dead.size:
+        j = int(dead[0])
+        column = delta[steps.cells(np.arange(batch.lengths[j]), j, K)]
+        first = int(np.flatnonzero(column.max(axis=0) == -np.inf)[0])
+        raise _impossible(batch, int(batch.offsets[first]) + j, "no path of non-zero probability")
+    return final_state, final_lp
+
+
+def _backtrack(steps, blocks, path, back) -> None:
+    """Backtracking of one batch over its packed rows, in place of ``path`` (which
+    holds the final state of every sequence at its last row): the states read for
+    padding columns are those of the rows that follow (steps already backtracked), or
+    the zeros of the tail; the sequences ending at step ``t - 1`` already hold their
+    final state."""
+    counts, off, width = steps.lists()
+    for t in range(len(counts) - 1, 0, -1):
+        o, op = off[t], off[t - 1]
+        m = width[t] if width[t] >= _WIDE_STEP else counts[t]
+        back(blocks[t - 1], path[o : o + m], path[op : op + counts[t]])
 
 
 class _LockstepBatch(_Batch):
@@ -261,6 +279,11 @@ class _Steps:
         self.offsets = np.concatenate(([0], np.cumsum(self.width)))
         self.n_cells = int(self.offsets[-1])
         self.widest = int(self.width[0])
+
+    def lists(self) -> tuple[list, list, list]:
+        """The batch's counts and offsets of packed rows per step and the steps'
+        padded widths, as lists (Python integers index fastest in the step loops)."""
+        return self.batch.counts.tolist(), self.batch.offsets.tolist(), self.width.tolist()
 
     def blocks(self, delta: np.ndarray, n_states: int) -> list[np.ndarray]:
         """The step blocks as views of ``delta``."""
