@@ -296,7 +296,30 @@ def describe_well(
             columns=["depth", "surface", "name", "lower_tract", "upper_tract", "cored"]
         )
 
-    # description noise, bed by bed (base to top)
+    _describe(beds, noise, by_rank, rng)
+    r = scenario.description.rounding_m
+    table = _depth_table(beds, r)
+    tracts = table["true_tract"].to_numpy(dtype=object)
+    surfaces_table = _true_surfaces(table, model)
+    table["tract"] = _interpreter_labels(tracts, noise, rng) if well.labelled else None
+    total = float(table["base"].iloc[-1]) if len(table) else 0.0
+    gaps = _missing_core(total, noise, r, rng)
+    if gaps:
+        table = _cut(table, gaps)
+    surfaces_table["cored"] = [
+        not any(g0 < d < g1 for g0, g1 in gaps) for d in surfaces_table["depth"]
+    ]
+    table["grain_size"] = [scheme[c].grain_size for c in table["facies"]]
+    table = table.rename(columns={"water_depth": "true_water_depth"})
+    table = table[list(_INTERVAL_COLUMNS)].reset_index(drop=True)
+    table["true_water_depth"] = table["true_water_depth"].round(3)
+    table["true_age_kyr"] = table["true_age_kyr"].round(3)
+    return table, surfaces_table
+
+
+def _describe(beds: list[dict], noise, by_rank, rng: np.random.Generator) -> None:
+    """Description noise, bed by bed (base to top), in place: a facies logged as its
+    neighbour in rank (``true_facies`` keeps the one deposited), thickness jitter."""
     for bed in beds:
         bed["true_facies"] = bed["facies"]
         if noise.facies_swap > 0 and rng.random() < noise.facies_swap:
@@ -308,17 +331,22 @@ def describe_well(
         if noise.thickness_jitter > 0:
             bed["thickness"] *= float(np.exp(noise.thickness_jitter * rng.standard_normal()))
 
-    # depths from the top of the core, rounded as a describer reads them
-    r = scenario.description.rounding_m
+
+def _depth_table(beds: list[dict], r: float) -> pd.DataFrame:
+    """The beds (base to top) as a table in depth order, with depths from the top of
+    the core rounded to ``r`` as a describer reads them; beds rounded away dropped."""
     thickness = np.array([b["thickness"] for b in beds], dtype=float)[::-1]
     edges = np.round(np.r_[0.0, np.cumsum(thickness)] / r) * r
     edges = np.round(edges, 6)
     table = pd.DataFrame(beds[::-1])
     table["top"] = edges[:-1]
     table["base"] = edges[1:]
-    table = table[table["base"] > table["top"]].reset_index(drop=True)
+    return table[table["base"] > table["top"]].reset_index(drop=True)
 
-    # true surfaces, where the true tract changes upward (beds base to top)
+
+def _true_surfaces(table: pd.DataFrame, model: TractModel) -> pd.DataFrame:
+    """The true surfaces where the true tract changes upward, in depth order (at one
+    depth the younger surface first, as read down the core)."""
     surfaces = []
     tracts = table["true_tract"].to_numpy(dtype=object)
     history = history_tract_model(model)
@@ -339,28 +367,30 @@ def describe_well(
                     "upper_tract": b,
                 }
             )
-    # depth order; at one depth the younger surface first, as read down the core
-    surfaces_table = pd.DataFrame(
+    return pd.DataFrame(
         surfaces[::-1], columns=["depth", "surface", "name", "lower_tract", "upper_tract"]
     ).sort_values("depth", kind="stable", ignore_index=True)
 
-    # the interpreter's labels (labelled wells only)
-    if well.labelled:
-        labels = tracts.copy()
-        if noise.label_shift > 0:
-            change = np.nonzero(tracts[1:] != tracts[:-1])[0]
-            for c in change:  # boundary between row c (above) and c + 1 (below)
-                if rng.random() < noise.label_shift:
-                    if rng.random() < 0.5:
-                        labels[c] = tracts[c + 1]  # boundary placed one bed too high
-                    else:
-                        labels[c + 1] = tracts[c]  # one bed too low
-        table["tract"] = labels
-    else:
-        table["tract"] = None
 
-    # missing core
-    total = float(table["base"].iloc[-1]) if len(table) else 0.0
+def _interpreter_labels(tracts: np.ndarray, noise, rng: np.random.Generator) -> np.ndarray:
+    """The interpreter's tract of every row (depth order) of a labelled well: the true
+    tract, each boundary placed one bed too high or too low with chance
+    ``noise.label_shift``."""
+    labels = tracts.copy()
+    if noise.label_shift > 0:
+        change = np.nonzero(tracts[1:] != tracts[:-1])[0]
+        for c in change:  # boundary between row c (above) and c + 1 (below)
+            if rng.random() < noise.label_shift:
+                if rng.random() < 0.5:
+                    labels[c] = tracts[c + 1]  # boundary placed one bed too high
+                else:
+                    labels[c + 1] = tracts[c]  # one bed too low
+    return labels
+
+
+def _missing_core(total: float, noise, r: float, rng: np.random.Generator) -> list:
+    """Stretches of missing core ``(top, base)`` in a core ``total`` long, rounded to
+    ``r``: a Poisson number per 100 m, each of a uniform length in the noise range."""
     gaps: list[tuple[float, float]] = []
     if noise.missing_per_100m > 0 and total > 0:
         n_gaps = int(rng.poisson(noise.missing_per_100m * total / 100.0))
@@ -371,17 +401,7 @@ def describe_well(
             gaps.append(
                 (round(np.round(start / r) * r, 6), round(np.round((start + length) / r) * r, 6))
             )
-    if gaps:
-        table = _cut(table, gaps)
-    surfaces_table["cored"] = [
-        not any(g0 < d < g1 for g0, g1 in gaps) for d in surfaces_table["depth"]
-    ]
-    table["grain_size"] = [scheme[c].grain_size for c in table["facies"]]
-    table = table.rename(columns={"water_depth": "true_water_depth"})
-    table = table[list(_INTERVAL_COLUMNS)].reset_index(drop=True)
-    table["true_water_depth"] = table["true_water_depth"].round(3)
-    table["true_age_kyr"] = table["true_age_kyr"].round(3)
-    return table, surfaces_table
+    return gaps
 
 
 def _cut(table: pd.DataFrame, gaps: list[tuple[float, float]]) -> pd.DataFrame:
