@@ -10,6 +10,7 @@ forced regressive wedge systems tract", Sedimentary Geology 81:1-9.
 from __future__ import annotations
 
 import itertools
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -370,3 +371,18 @@ def test_true_surfaces_of_a_tract_missing_at_a_well_are_listed_together():
     assert surface_path(history, "HST", "LST") == [("HST", "LST")]
     assert model.surface("HST", "LST").code == "SB"
     assert surface_path(model, "TST", "FSST") == [("TST", "FSST")]
+
+
+def test_simulate_takes_the_path_of_a_scenario_file_of_either_generator():
+    # the Python entry point reads a scenario file as `faciesseq simulate` does
+    from faciesseq.simulate import load_scenario
+    from faciesseq.simulate.stacking import StackingResult
+
+    ramp = "configs/scenario-ramp.yaml"
+    by_path = simulate(ramp, seed=3)
+    by_object = simulate(load_scenario(ramp), seed=3)
+    assert by_path.cores.to_frame().equals(by_object.cores.to_frame())
+    stacked = simulate(Path("configs/stacking-shoreface.yaml"), seed=3)
+    assert isinstance(stacked, StackingResult)
+    with pytest.raises(TypeError, match="Scenario"):
+        simulate({"name": "x"})

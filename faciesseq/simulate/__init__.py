@@ -125,14 +125,19 @@ class SimulationResult:
 
 
 def simulate(
-    scenario: Scenario, seed: int | None = None, tract_model: TractModel | None = None
-) -> SimulationResult:
+    scenario: Scenario | StackingScenario | str | Path,
+    seed: int | None = None,
+    tract_model: TractModel | None = None,
+) -> SimulationResult | StackingResult:
     """Run the forward model of a scenario and describe its wells as cores.
 
     Parameters
     ----------
     scenario
-        A scenario (see :func:`load_scenario`).
+        A scenario (see :func:`load_scenario`), or the path of a scenario file of
+        either generator (:func:`load_any_scenario`); a stacking scenario is run by
+        :func:`~faciesseq.simulate.stacking.simulate_stacking`, as ``faciesseq
+        simulate`` runs it.
     seed
         Seed of the description noise; ``None`` uses the scenario's ``seed``.
         The same scenario and seed give bit-for-bit the same tables.
@@ -150,6 +155,15 @@ def simulate(
     92:1-33; Helland-Hansen & Martinsen 1996, J. Sed. Research 66): see
     :mod:`faciesseq.simulate.model` for the equations.
     """
+    if isinstance(scenario, (str, Path)):
+        scenario = load_any_scenario(scenario)
+    if isinstance(scenario, StackingScenario):
+        return simulate_stacking(scenario, seed=seed, tract_model=tract_model)
+    if not isinstance(scenario, Scenario):
+        raise TypeError(
+            "simulate() takes a Scenario, a StackingScenario or the path of a scenario "
+            f"file, not {type(scenario).__name__}"
+        )
     seed = scenario.seed if seed is None else int(seed)
     model = permissive_tract_model() if tract_model is None else tract_model
     sections = {s.name: run_section(scenario, s) for s in scenario.sections}
