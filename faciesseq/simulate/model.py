@@ -292,16 +292,7 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
         dep, ero, s_new, bypass = _place_shoreline(
             x, z, h, e_k, sand_budget, falling, e_max, scenario
         )
-        z_sand = z + dep - ero
-        # mud: exponential fall-out basinward of the shoreline, below the mud depth limit
-        a = np.maximum(x - dx / 2, s_new)
-        b = np.maximum(x + dx / 2, s_new)
-        share = np.exp(-(a - s_new) / scenario.mud_decay_km) - np.exp(
-            -(b - s_new) / scenario.mud_decay_km
-        )
-        mud = mud_budget * share / dx
-        room = np.maximum(e_k - scenario.mud_min_depth_m - z_sand, 0.0)
-        mud = np.minimum(mud, room)
+        mud = _mud_fallout(x, s_new, mud_budget, e_k - (z + dep - ero), scenario)
         bypass += mud_budget - float(mud.sum() * dx)
 
         net = dep - ero + mud
@@ -341,6 +332,24 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
         tract=tract,
         budget=totals,
     )
+
+
+def _mud_fallout(
+    x: np.ndarray, shoreline: float, budget: float, water_depth: np.ndarray, scenario: Scenario
+) -> np.ndarray:
+    """Mud thickness per cell (m) of one step: ``budget`` (m km) falls out
+    exponentially basinward of the ``shoreline`` (e-folding length
+    ``scenario.mud_decay_km``), each cell's share the integral of the exponential over
+    the cell, and settles only below the mud depth limit (``water_depth`` over the
+    sand of the step); what does not settle bypasses the section."""
+    dx = x[1] - x[0]
+    a = np.maximum(x - dx / 2, shoreline)
+    b = np.maximum(x + dx / 2, shoreline)
+    share = np.exp(-(a - shoreline) / scenario.mud_decay_km) - np.exp(
+        -(b - shoreline) / scenario.mud_decay_km
+    )
+    room = np.maximum(water_depth - scenario.mud_min_depth_m, 0.0)
+    return np.minimum(budget * share / dx, room)
 
 
 def _tracts(
