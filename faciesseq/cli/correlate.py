@@ -109,6 +109,7 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
         tracts,
         tuple(interp.tracts),
         title="Correlation",
+        surface_order=tuple(interp.surfaces),
         datum=args.datum,
         units=cores.units,
         position_label=wells.position_label,

@@ -493,13 +493,17 @@ def _well_names(ax, wells: _Wells, pad: float) -> None:
         )
 
 
-def surface_legend_order(correlation, section: str, surface_order=()) -> list[str]:
-    """The surface kinds tied in ``section``, in one order for every section:
-    ``surface_order`` (the tract model's), then kinds it lacks in the order they first
-    appear among all the correlation's ties (whatever section), so two sections of one
-    correlation never list their surfaces in different orders."""
+def surface_legend_order(correlation, section: str | None, surface_order=()) -> list[str]:
+    """The surface kinds tied in ``section`` (``None``: in any section), in one order
+    for every section and every output: ``surface_order`` (the tract model's), then
+    kinds it lacks in the order they first appear among all the correlation's ties
+    (whatever section), so two sections of one correlation, or a figure and the
+    section page, never list their surfaces in different orders."""
     every = list(dict.fromkeys([*surface_order, *correlation.ties["surface"].astype(str)]))
-    here = set(correlation.ties.loc[correlation.ties["section"] == section, "surface"].astype(str))
+    ties = correlation.ties
+    if section is not None:
+        ties = ties[ties["section"] == section]
+    here = set(ties["surface"].astype(str))
     return [kind for kind in every if kind in here]
 
 

@@ -23,6 +23,7 @@ from faciesseq.report.section import (
     hang_section,
     hanging_datum,
     section_heading,
+    surface_legend_order,
     tract_bands,
 )
 from faciesseq.report.style import surface_colour, tract_colour
@@ -119,6 +120,7 @@ def section_view_data(
     units: str = "m",
     position_label: str = "distance",
     note: str = "",
+    surface_order: tuple[str, ...] = (),
 ) -> dict:
     """The numbers and names the section page draws, as a JSON-ready dict.
 
@@ -136,6 +138,10 @@ def section_view_data(
         Depth units and the label of the position axis.
     note
         Whether the probabilities were checked (one line).
+    surface_order
+        Surface codes in the tract model's order (``Interpretation.surfaces``): the
+        legend lists the tied surfaces in it, as the section figures do
+        (:func:`faciesseq.report.section.surface_legend_order`).
 
     Returns
     -------
@@ -151,7 +157,7 @@ def section_view_data(
         ``bands`` (tract shading between ties).
     """
     sections = sorted(correlation.wells["section"].unique())
-    kinds = list(dict.fromkeys(correlation.ties["surface"].astype(str)))
+    kinds = surface_legend_order(correlation, None, surface_order)
     return {
         "units": units,
         "position_label": distance_label(position_label),
