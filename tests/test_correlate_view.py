@@ -137,3 +137,17 @@ def test_section_page_opens_in_chromium_and_hover_shows_the_tie(tmp_path):
     w2 = beds[beds["core"] == "W-2"].sort_values("top").iloc[1]
     assert out["bed"].startswith("W-2") and w2["tract"] in out["bed"]
     assert f"{w2['top']:.2f} m" in out["bed"]
+
+
+@pytest.mark.parametrize("surface_order", [("BSFR", "SB", "MRS", "MFS"), ("MFS", "MRS", "SB")])
+def test_page_legend_lists_surfaces_in_the_tract_models_order_as_the_figure(surface_order):
+    # the page listed its surfaces in the order they first appeared among the ties
+    from faciesseq.report.section import surface_legend_order
+
+    corr, beds = _section()
+    data = section_view_data(corr, beds, TRACTS, surface_order=surface_order)
+    codes = [s["code"] for s in data["surfaces"]]
+    assert codes == [k for k in surface_order if k in ("MFS", "SB")]
+    assert codes == surface_legend_order(corr, "dip", surface_order)
+    html = section_view_html(corr, beds, TRACTS, surface_order=surface_order)
+    assert [s["code"] for s in _embedded(html)["surfaces"]] == codes

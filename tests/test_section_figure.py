@@ -190,3 +190,82 @@ def test_appendix_says_which_wells_share_no_tie():
     assert any(
         "A and B share no tied surface; their columns are drawn unjoined" in t for t in texts
     )
+
+
+def _partly_untied_correlation():
+    """Wells A, B and C tied (A and B by MFS and SB, B and C by SB; C has no MFS); D, past
+    C, shares no surface kind with C: the pair C, D is untied. D's column starts at 2 m."""
+    picks = pd.DataFrame(
+        [
+            {"core": "A", "surface": "SB", "depth": 5.0, "probability": 0.9},
+            {"core": "A", "surface": "MFS", "depth": 12.0, "probability": 0.9},
+            {"core": "B", "surface": "SB", "depth": 4.0, "probability": 0.9},
+            {"core": "B", "surface": "MFS", "depth": 12.5, "probability": 0.9},
+            {"core": "C", "surface": "SB", "depth": 5.0, "probability": 0.9},
+            {"core": "D", "surface": "MRS", "depth": 6.0, "probability": 0.9},
+        ]
+    )
+    wells = pd.DataFrame({"core": list("ABCD"), "section": "dip", "position": [0.0, 3.0, 6.0, 9.0]})
+    extents = {"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)}
+    return correlate(picks, extents, wells)
+
+
+def _column_beds(extents: dict) -> pd.DataFrame:
+    return pd.DataFrame(
+        [{"core": c, "top": t, "base": b, "tract": "HST"} for c, (t, b) in extents.items()]
+    )
+
+
+def test_datum_is_not_carried_across_an_untied_pair():
+    # D took B's MFS depth (12.5 m) across the untied pair C-D, as if its MFS were known
+    from faciesseq.report.section import datum_shifts
+
+    corr = _partly_untied_correlation()
+    shifts, _ = datum_shifts(corr, "dip", "MFS")
+    # without the drawn columns D keeps its depths as measured
+    assert shifts["C"] == 12.5 and shifts["D"] == 0.0
+    from faciesseq.report.section import hang_section
+
+    assert [tuple(p) for p in corr.untied_pairs[["core_left", "core_right"]].values] == [("C", "D")]
+    beds = _column_beds({"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)})
+    hanging = hang_section(corr, "dip", "MFS", beds)
+    # C, tied to B, takes B's MFS depth; D hangs on its own core top (2 m)
+    assert hanging.shift == {"A": 12.0, "B": 12.5, "C": 12.5, "D": 2.0}
+    assert hanging.unhung == ("D",)
+    assert hanging.note == (
+        "D not hung on MFS-1: no tie joins it to the wells that have it; core top drawn "
+        "at the datum line"
+    )
+    with figure_style():
+        fig = section_plot(corr, "dip", beds, datum="MFS", tract_order=TRACTS)
+    assert hanging.note in [t.get_text() for t in fig.texts]
+
+
+def test_every_well_tied_to_the_datum_is_hung_on_it():
+    corr = _correlation()
+    with figure_style():
+        fig = section_plot(corr, "section", _beds(), datum="MFS", tract_order=TRACTS)
+    assert not [t for t in fig.texts if "not hung" in t.get_text()]
+
+
+def test_page_and_appendix_name_the_wells_not_hung_on_the_datum():
+    from faciesseq.report.correlation_section import correlation_section
+    from faciesseq.report.section_view import section_view_data
+
+    corr = _partly_untied_correlation()
+    beds = _column_beds({"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)})
+    (data,) = section_view_data(corr, beds, TRACTS, datum="MFS")["sections"]
+    assert data["unhung"] == ["D"]
+    assert data["hanging_note"].startswith("D not hung on MFS-1: no tie joins it")
+    assert {w["core"]: w["shift"] for w in data["wells"]} == {
+        "A": 12.0,
+        "B": 12.5,
+        "C": 12.5,
+        "D": 2.0,
+    }
+    with figure_style():
+        section = correlation_section(corr, beds, TRACTS, datum="MFS")
+    captions = [
+        b.caption for sub in section.subsections for b in sub.blocks if hasattr(b, "figure")
+    ]
+    assert len(captions) == 1 and data["hanging_note"] in captions[0]

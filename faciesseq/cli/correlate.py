@@ -109,6 +109,7 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
         tracts,
         tuple(interp.tracts),
         title="Correlation",
+        surface_order=tuple(interp.surfaces),
         datum=args.datum,
         units=cores.units,
         position_label=wells.position_label,
@@ -121,7 +122,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
     from faciesseq.io.writer import safe_stem
-    from faciesseq.report.section import hanging_datum, section_figure
+    from faciesseq.report.section import hang_section, hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     if not 0 <= args.doubtful <= 1:
@@ -147,6 +148,9 @@ def run(args: argparse.Namespace) -> int:
             datum, note = hanging_datum(corr, section, args.datum)
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")
+            unhung = hang_section(corr, section, datum, tracts).note
+            if unhung:
+                sys.stderr.write(f"faciesseq correlate: section {section}: {unhung}\n")
             section_figure(
                 corr,
                 section,

@@ -18,6 +18,7 @@ from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBloc
 from faciesseq.report.section import (
     CAPTION,
     distance_label,
+    hang_section,
     hanging_datum,
     section_heading,
     section_plot,
@@ -93,7 +94,8 @@ def correlation_section(
     tract_order, datum, units, position_label, surface_order
         As for :func:`faciesseq.report.section.section_plot`; a section
         without a correlated surface of the datum's kind is hung on the core
-        tops (``depth``), and its caption says so.
+        tops (``depth``), and its caption says so, as it names the wells not hung
+        on the datum surface (:attr:`faciesseq.report.section.Hanging.note`).
     """
     s = Section("Correlation")
     s.add(Paragraph(CAPTION, kind="note"))
@@ -105,6 +107,7 @@ def correlation_section(
         sub = s.sub(heading)
         hung, _ = hanging_datum(correlation, name, datum)
         hanger = "the core tops" if hung == "depth" else hung
+        unhung = hang_section(correlation, name, hung, tracts).note
         with figure_style():
             fig = section_plot(
                 correlation,
@@ -123,7 +126,7 @@ def correlation_section(
                 f"{heading}: {len(wells)} wells at their "
                 f"{distance_label(position_label)}, hung "
                 f"on {hanger}; decoded tract columns, correlated surfaces (dashed: doubtful) "
-                f"and tracts shaded between ties. {CAPTION}",
+                f"and tracts shaded between ties. {unhung + '. ' if unhung else ''}{CAPTION}",
                 fig,
             )
         )

@@ -32,14 +32,17 @@ from faciesseq.report.style import (
 __all__ = [
     "CAPTION",
     "DEFAULT_SECTION",
+    "Hanging",
     "datum_shifts",
     "distance_label",
+    "hang_section",
     "hanging_datum",
     "section_figure",
     "section_heading",
     "section_plot",
     "section_title",
     "surface_legend_order",
+    "tied_runs",
     "tract_bands",
 ]
 
@@ -102,8 +105,48 @@ def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | Non
     )
 
 
-def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float], str]:
-    """Depth of the datum in each well of ``section`` (subtracted from depths), and its label.
+@dataclass(frozen=True)
+class Hanging:
+    """How the wells of one section are hung (:func:`hang_section`).
+
+    ``shift`` is the datum's depth in each well (subtracted from its depths),
+    ``label`` the depth axis' label, ``surface`` the datum surface's name
+    (``MFS-2``; empty for depth, elevation or datum_depth) and ``unhung`` the wells
+    not hung on it: no chain of tied pairs joins them to a well the surface reaches,
+    so each hangs on its own core top, drawn at the datum line.
+    """
+
+    shift: dict[str, float]
+    label: str
+    surface: str = ""
+    unhung: tuple[str, ...] = ()
+
+    @property
+    def note(self) -> str:
+        """One line naming the wells not hung on the datum and why, or ``""``: a
+        reader must not take their place for a correlation."""
+        if not self.unhung:
+            return ""
+        return (
+            f"{', '.join(self.unhung)} not hung on {self.surface}: no tie joins "
+            f"{'them' if len(self.unhung) > 1 else 'it'} to the wells that have it; "
+            "core top drawn at the datum line"
+        )
+
+
+def datum_shifts(
+    correlation, section: str, datum: str, tracts: pd.DataFrame | None = None
+) -> tuple[dict[str, float], str]:
+    """Depth of the datum in each well of ``section`` (subtracted from depths), and its
+    label: the ``shift`` and ``label`` of :func:`hang_section`."""
+    hanging = hang_section(correlation, section, datum, tracts)
+    return hanging.shift, hanging.label
+
+
+def hang_section(
+    correlation, section: str, datum: str, tracts: pd.DataFrame | None = None
+) -> Hanging:
+    """Depth of the datum in each well of ``section``, its label and the wells not hung.
 
     ``datum`` is ``"depth"`` (the depths as measured, no shift), ``"elevation"``
     (depth below elevation 0, e.g. sea level: ``elevation`` is that of the
@@ -114,14 +157,19 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
     wells table's column), a correlated surface id, or a surface kind (``MFS``:
     the kind's correlated surface found in the most wells, the most confident
     among equals). Wells the surface misses take the datum depth interpolated
-    from their neighbours by position.
+    by position from the wells that have it, along tied pairs only
+    (:func:`tied_runs`): a pair the correlation could not tie says nothing of where
+    the surface lies across it, and interpolating there would invent a correlation.
+    A well no tied pair joins to the surface hangs on its own core top (the top of
+    its column in ``tracts``, else its depths as measured) and is named in
+    :attr:`Hanging.unhung`.
     """
     from faciesseq.errors import ConfigError
 
     wells = correlation.wells[correlation.wells["section"] == section]
     names = list(wells["core"])
     if datum == "depth":
-        return dict.fromkeys(names, 0.0), "depth as measured"
+        return Hanging(dict.fromkeys(names, 0.0), "depth as measured")
     if datum in ("elevation", "datum_depth"):
         values = wells[datum].to_numpy(float)
         if np.isnan(values).any():
@@ -129,29 +177,58 @@ def datum_shifts(correlation, section: str, datum: str) -> tuple[dict[str, float
         if datum == "elevation":
             # a depth reference standing `elevation` above the datum puts depth d at
             # d - elevation below it (true vertical depth subsea = depth - KB elevation)
-            return dict(zip(names, values)), "depth below datum (elevation 0)"
-        return dict(zip(names, values)), "depth below the datum"
+            return Hanging(dict(zip(names, values)), "depth below datum (elevation 0)")
+        return Hanging(dict(zip(names, values)), "depth below the datum")
+    chosen = _datum_surface(correlation, section, datum)
+    surface = str(chosen["surface_id"].iloc[0]).split(":", 1)[-1]
+    at = dict(zip(chosen["core"], chosen["depth"]))
+    pos = dict(zip(wells["core"], wells["position"]))
+    tops = {} if tracts is None else tracts.groupby("core")["top"].min().to_dict()
+    shift, unhung = {}, []
+    for run in tied_runs(correlation.ties[correlation.ties["section"] == section], names):
+        known = [c for c in run if c in at]
+        for c in run:
+            if known:
+                xs, ys = [pos[k] for k in known], [at[k] for k in known]
+                shift[c] = float(np.interp(pos[c], xs, ys))
+            else:
+                shift[c] = float(tops.get(c, 0.0))
+                unhung.append(c)
+    return Hanging(shift, f"depth below {surface}", surface, tuple(unhung))
+
+
+def _datum_surface(correlation, section: str, datum: str) -> pd.DataFrame:
+    """The picks of the correlated surface ``datum`` names in ``section``: a surface id,
+    or of a kind the surface found in the most wells, the most confident among equals."""
+    from faciesseq.errors import ConfigError
+
     picks = correlation.picks[correlation.picks["section"] == section]
     chosen = picks[picks["surface_id"] == datum]
-    if not len(chosen):
-        kind = picks[picks["surface"] == datum]
-        if not len(kind):
-            raise ConfigError(
-                f"--datum {datum!r} is neither depth, elevation, datum_depth, a correlated "
-                f"surface id nor a correlated surface kind of section {section!r}"
-            )
-        rank = kind.groupby("surface_id").agg(
-            wells=("core", "size"), confidence=("confidence", "mean")
+    if len(chosen):
+        return chosen
+    kind = picks[picks["surface"] == datum]
+    if not len(kind):
+        raise ConfigError(
+            f"--datum {datum!r} is neither depth, elevation, datum_depth, a correlated "
+            f"surface id nor a correlated surface kind of section {section!r}"
         )
-        best = rank.sort_values(["wells", "confidence"], ascending=False, kind="stable").index[0]
-        chosen = picks[picks["surface_id"] == best]
-    label = f"depth below {str(chosen['surface_id'].iloc[0]).split(':', 1)[-1]}"
-    at = dict(zip(chosen["core"], chosen["depth"]))
-    pos = wells.set_index("core")["position"]
-    known = [c for c in names if c in at]
-    xs = np.array([pos[c] for c in known])
-    ys = np.array([at[c] for c in known])
-    return {c: float(at[c]) if c in at else float(np.interp(pos[c], xs, ys)) for c in names}, label
+    rank = kind.groupby("surface_id").agg(wells=("core", "size"), confidence=("confidence", "mean"))
+    best = rank.sort_values(["wells", "confidence"], ascending=False, kind="stable").index[0]
+    return picks[picks["surface_id"] == best]
+
+
+def tied_runs(ties: pd.DataFrame, names: list[str]) -> list[list[str]]:
+    """The wells ``names`` (in section order) cut into runs of neighbours joined by at
+    least one tie: a run ends at each pair the correlation left untied, the pairs a
+    section figure draws unjoined."""
+    joined = set(zip(ties["core_left"], ties["core_right"]))
+    runs: list[list[str]] = []
+    for k, name in enumerate(names):
+        if k and (names[k - 1], name) in joined:
+            runs[-1].append(name)
+        else:
+            runs.append([name])
+    return runs
 
 
 def _tract_runs(tracts: pd.DataFrame, top: float, base: float) -> list[tuple[float, float, str]]:
@@ -287,7 +364,7 @@ def section_plot(
         Surface codes in the tract model's order (``Interpretation.surfaces``): the
         legend lists the section's tied surfaces in it (:func:`surface_legend_order`).
     """
-    wells, ylabel = _section_wells(correlation, section, tracts, datum)
+    wells, hanging = _section_wells(correlation, section, tracts, datum)
     ties = correlation.ties[correlation.ties["section"] == section]
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
     fig = new_figure(PAGE_WIDTH, 5.2)
@@ -307,10 +384,12 @@ def section_plot(
     if datum != "depth":
         ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":")
     ax.set_xlabel(distance_label(position_label))
-    ax.set_ylabel(f"{ylabel} ({units})")
+    ax.set_ylabel(f"{hanging.label} ({units})")
     ax.set_title(section_title(section, datum), parse_math=False)
     _section_legend(ax, surface_legend_order(correlation, section, surface_order), order)
     fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
+    if hanging.note:
+        fig.text(0.09, 0.09, hanging.note, fontsize=6.5)
     return fig
 
 
@@ -328,20 +407,20 @@ class _Wells:
 
 
 def _section_wells(correlation, section: str, tracts: pd.DataFrame, datum: str):
-    """The :class:`_Wells` of ``section`` hung on ``datum``, and the depth axis' label
-    (:func:`datum_shifts`); a column is 0.22 of the section's length per well wide."""
+    """The :class:`_Wells` of ``section`` hung on ``datum``, and the :class:`Hanging`
+    (:func:`hang_section`); a column is 0.22 of the section's length per well wide."""
     wells = correlation.wells[correlation.wells["section"] == section]
-    shift, ylabel = datum_shifts(correlation, section, datum)
+    hanging = hang_section(correlation, section, datum, tracts)
     names = list(wells["core"])
     span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
     drawn = _Wells(
         names=names,
         position=dict(zip(wells["core"], wells["position"])),
-        shift=shift,
+        shift=hanging.shift,
         columns={c: tracts[tracts["core"] == c] for c in names},
         width=span / max(len(names), 1) * 0.22,
     )
-    return drawn, ylabel
+    return drawn, hanging
 
 
 def _tract_fills(ax, wells: _Wells, ties: pd.DataFrame, order) -> None:
@@ -414,13 +493,17 @@ def _well_names(ax, wells: _Wells, pad: float) -> None:
         )
 
 
-def surface_legend_order(correlation, section: str, surface_order=()) -> list[str]:
-    """The surface kinds tied in ``section``, in one order for every section:
-    ``surface_order`` (the tract model's), then kinds it lacks in the order they first
-    appear among all the correlation's ties (whatever section), so two sections of one
-    correlation never list their surfaces in different orders."""
+def surface_legend_order(correlation, section: str | None, surface_order=()) -> list[str]:
+    """The surface kinds tied in ``section`` (``None``: in any section), in one order
+    for every section and every output: ``surface_order`` (the tract model's), then
+    kinds it lacks in the order they first appear among all the correlation's ties
+    (whatever section), so two sections of one correlation, or a figure and the
+    section page, never list their surfaces in different orders."""
     every = list(dict.fromkeys([*surface_order, *correlation.ties["surface"].astype(str)]))
-    here = set(correlation.ties.loc[correlation.ties["section"] == section, "surface"].astype(str))
+    ties = correlation.ties
+    if section is not None:
+        ties = ties[ties["section"] == section]
+    here = set(ties["surface"].astype(str))
     return [kind for kind in every if kind in here]
 
 

@@ -1,7 +1,7 @@
 """The correlation sections as one self-contained interactive HTML page.
 
 One panel per section: wells side by side at their distance along the section,
-hung on a datum (:func:`faciesseq.report.section.datum_shifts`), each a decoded
+hung on a datum (:func:`faciesseq.report.section.hang_section`), each a decoded
 tract column; correlation lines from well to well (dashed where doubtful) and
 the tracts shaded between successive ties. Hovering a line shows the tie: its
 correlated surface, the depth and pick probability in both wells, the tie's
@@ -19,10 +19,11 @@ import pandas as pd
 
 from faciesseq.report.section import (
     CAPTION,
-    datum_shifts,
     distance_label,
+    hang_section,
     hanging_datum,
     section_heading,
+    surface_legend_order,
     tract_bands,
 )
 from faciesseq.report.style import surface_colour, tract_colour
@@ -56,7 +57,10 @@ def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -
     wells = correlation.wells[correlation.wells["section"] == section]
     ties = correlation.ties[correlation.ties["section"] == section]
     picks = correlation.picks[correlation.picks["section"] == section]
-    shift, label = datum_shifts(correlation, section, hanging_datum(correlation, section, datum)[0])
+    hanging = hang_section(
+        correlation, section, hanging_datum(correlation, section, datum)[0], tracts
+    )
+    shift = hanging.shift
     names = list(wells["core"])
     columns = {c: tracts[tracts["core"] == c].sort_values("top") for c in names}
     boxes = {c: _runs(columns[c]) for c in names}
@@ -67,7 +71,9 @@ def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -
     return {
         "name": str(section),
         "heading": section_heading(section),
-        "datum": label,
+        "datum": hanging.label,
+        "unhung": list(hanging.unhung),
+        "hanging_note": hanging.note,
         "wells": [
             {
                 "core": str(c),
@@ -114,6 +120,7 @@ def section_view_data(
     units: str = "m",
     position_label: str = "distance",
     note: str = "",
+    surface_order: tuple[str, ...] = (),
 ) -> dict:
     """The numbers and names the section page draws, as a JSON-ready dict.
 
@@ -126,26 +133,31 @@ def section_view_data(
     tract_order
         Tract codes in the tract model's order (colours, legend).
     datum
-        See :func:`faciesseq.report.section.datum_shifts`.
+        See :func:`faciesseq.report.section.hang_section`.
     units, position_label
         Depth units and the label of the position axis.
     note
         Whether the probabilities were checked (one line).
+    surface_order
+        Surface codes in the tract model's order (``Interpretation.surfaces``): the
+        legend lists the tied surfaces in it, as the section figures do
+        (:func:`faciesseq.report.section.surface_legend_order`).
 
     Returns
     -------
     dict
         ``units``, ``position_label``, ``caption``, ``note``, ``tracts`` and
         ``surfaces`` (``code``, ``colour``) and ``sections``: per section its
-        ``name``, ``datum`` label, ``wells`` (``core``, ``position``, ``shift``
-        the datum depth, the tract column ``top``, ``base``, ``tract`` with
-        touching beds of one tract merged),
+        ``name``, ``datum`` label, ``unhung`` (the wells not hung on the datum
+        surface) and ``hanging_note`` (one line saying so, or empty), ``wells``
+        (``core``, ``position``, ``shift`` the datum depth, the tract column ``top``,
+        ``base``, ``tract`` with touching beds of one tract merged),
         ``ties`` (``id``, ``surface``, ``left``, ``right``, ``depth`` and pick
         probability ``p`` in both wells, ``confidence``, ``doubtful``) and
         ``bands`` (tract shading between ties).
     """
     sections = sorted(correlation.wells["section"].unique())
-    kinds = list(dict.fromkeys(correlation.ties["surface"].astype(str)))
+    kinds = surface_legend_order(correlation, None, surface_order)
     return {
         "units": units,
         "position_label": distance_label(position_label),
@@ -265,6 +277,10 @@ _JS = r"""
     const h = document.createElement("h2");
     h.textContent = sec.heading + " \u2013 " + sec.datum;
     box.appendChild(h);
+    if (sec.hanging_note) {
+      const p = document.createElement("p"); p.className = "note";
+      p.textContent = sec.hanging_note; box.appendChild(p);
+    }
     const wells = {}; sec.wells.forEach(w => { wells[w.core] = w; });
     let lo = Infinity, hi = -Infinity, xmin = Infinity, xmax = -Infinity;
     sec.wells.forEach(w => {
