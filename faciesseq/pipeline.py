@@ -17,7 +17,7 @@ from typing import Any
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import FaciesseqError
-from faciesseq.scheme import FaciesScheme, TractModel, as_scheme, default_tract_model
+from faciesseq.scheme import FaciesScheme, TractModel, as_scheme
 
 __all__ = ["DEMO_FILES", "RunResult", "demo_source", "has_labels", "run_appendix"]
 
@@ -189,10 +189,7 @@ def run_appendix(
     fitted = selection is not None
     _say(progress, "fit", f"fitted, log-likelihood {model.log_likelihood_:.1f}" if fitted else note)
 
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        interpretation = model.set_params(**parallel).decode(usable)
-    notes.extend(_dedupe(str(w.message) for w in caught))
+    interpretation = _decode_noting(model.set_params(**parallel), usable, notes)
     _say(progress, "decode", f"{len(interpretation)} cores decoded")
 
     validation, validation_reason, validation_notes = _appendix_validation(
@@ -207,7 +204,7 @@ def run_appendix(
     appendix = build_appendix(
         cores,
         scheme,
-        model.tract_model_ if model is not None else tract_model or default_tract_model(),
+        model.tract_model_,
         markov=markov,
         model=model,
         interpretation=interpretation,
@@ -226,6 +223,16 @@ def run_appendix(
         progress, "appendix", f"{len(appendix.tables())} tables, {len(appendix.figures())} figures"
     )
     return RunResult(appendix, markov, model, interpretation, validation, notes)
+
+
+def _decode_noting(model, cores: CoreSet, notes: list[str]):
+    """``model.decode(cores)``, each distinct warning it gives added to ``notes`` (the
+    appendix prints them) instead of the terminal."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        interpretation = model.decode(cores)
+    notes.extend(_dedupe(str(w.message) for w in caught))
+    return interpretation
 
 
 def _appendix_model(cores, model, model_source, labels, substates, seed: int, settings: dict):
