@@ -168,3 +168,36 @@ def test_decode_scores_only_labels_that_are_tracts_of_the_model(tmp_path, capsys
     assert "not tracts of the model (RST): left out of the agreement" in odd
     assert "not tracts of the model" not in as_given
     assert 0 < scored(odd) < scored(as_given)
+
+
+TWO_TRACTS = """\
+name: transgressive-regressive cycle
+tracts:
+  - {code: RST, name: regressive systems tract, trend: shallowing}
+  - {code: TST, name: transgressive systems tract, trend: deepening}
+order: [RST, TST]
+surfaces:
+  - {lower: RST, upper: TST, code: MRS, name: maximum regressive surface}
+  - {lower: TST, upper: RST, code: MFS, name: maximum flooding surface}
+"""
+
+
+def test_a_tract_model_of_its_own_is_not_given_the_default_models_numbers(tmp_path, capsys):
+    # the transgressive-regressive cycle of two tracts (Embry & Johannessen 1992, T-R
+    # sequence stratigraphy): the accuracies measured without labels are of the
+    # four-tract model, and a model without a falling stage has no sharp base to miss
+    source = _table(tmp_path, ["core", "top", "base", "facies"], None)
+    tracts = tmp_path / "tracts-tr.yaml"
+    tracts.write_text(TWO_TRACTS)
+    model = tmp_path / "model.json"
+    args = ["fit", str(source), "--scheme", SCHEME, "--tracts", str(tracts), "-o", str(model)]
+    assert main([*args, "--restarts", "1"]) == 0, capsys.readouterr().err
+    printed = capsys.readouterr().out
+    assert "no bed was labelled" in printed
+    assert "RST -> TST) was not measured" in printed and "0.33-0.43" not in printed
+    assert "no contact types" not in printed
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(source), "-o", str(out)]) == 0
+    decoded = pd.read_csv(out / "tracts.csv", comment="#")
+    assert set(decoded["tract"]) <= {"RST", "TST"}
+    assert {"p_RST", "p_TST"} <= set(decoded.columns)
