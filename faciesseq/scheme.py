@@ -18,6 +18,7 @@ problem.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 from importlib import resources
@@ -112,6 +113,9 @@ NONMARINE_GROUPS = (
     "alluvial",
     "fluvial",
 )
+#: A facies name read as nonmarine where the facies has no ``setting`` (e.g. the
+#: "nonmarine coarse siltstone" of Dubois et al. 2007): the word itself, in any case.
+NONMARINE_NAME = re.compile(r"\bnon[- ]?marine\b", re.IGNORECASE)
 SETTINGS = ("marine", "nonmarine")
 
 
@@ -136,14 +140,18 @@ class Facies:
         """Whether the facies was laid down above the shoreline (``None``: not said).
 
         From ``setting`` (``marine`` / ``nonmarine``) or, where that is not
-        given, from ``exposure`` or a ``group`` named by one of
-        :data:`NONMARINE_GROUPS`.
+        given, from ``exposure``, a ``group`` named by one of
+        :data:`NONMARINE_GROUPS` or a name that says it (``nonmarine sandstone``,
+        :data:`NONMARINE_NAME`; only that word, since a name such as "continental
+        shelf mudstone" or "fluvial-dominated delta front" is marine).
         """
         if self.exposure:
             return True
         if self.setting is not None:
             return self.setting == "nonmarine"
         if self.group is not None and self.group.strip().lower() in NONMARINE_GROUPS:
+            return True
+        if NONMARINE_NAME.search(self.name):
             return True
         return None
 

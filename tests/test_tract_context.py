@@ -390,6 +390,27 @@ def test_a_scheme_says_which_facies_are_nonmarine():
         FaciesScheme.from_dict({"facies": [{**entries[1], "setting": "lacustrine"}]})
 
 
+def test_a_facies_named_nonmarine_is_nonmarine_without_a_setting_or_group():
+    # the facies names of Dubois et al. (2007) for the Council Grove wells say which
+    # facies are nonmarine ("nonmarine coarse siltstone"); a name that only holds a
+    # word of a nonmarine group ("continental shelf", "fluvial-dominated delta
+    # front") stays unsaid, and an explicit setting wins over the name
+    from faciesseq.scheme import FaciesScheme
+
+    entries = [
+        {"code": "2", "name": "Nonmarine coarse siltstone", "rank": 0},
+        {"code": "r", "name": "non-marine red beds", "rank": 0},
+        {"code": "c", "name": "continental shelf mudstone", "rank": 3},
+        {"code": "d", "name": "fluvial-dominated delta front", "rank": 2},
+        {"code": "x", "name": "nonmarine-looking marine siltstone", "rank": 2, "setting": "marine"},
+        {"code": "4", "name": "marine siltstone and shale", "rank": 4},
+    ]
+    scheme = FaciesScheme.from_dict({"facies": entries})
+    nonmarine = [scheme[e["code"]].nonmarine for e in entries]
+    assert nonmarine == [True, True, None, None, False, None]
+    assert scheme.tells_settings
+
+
 def test_a_marine_bed_on_a_nonmarine_one_starts_a_cycle_and_is_read_as_setting():
     # ranks 1 1 | 1 0 : the third bed is marine on nonmarine at an equal rank
     ranks = np.array([1, 1, 1, 0.0])
