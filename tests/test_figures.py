@@ -1,5 +1,7 @@
 """Appendix figures drawn from invented numbers: legends, labels, values, files."""
 
+from itertools import pairwise
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -272,3 +274,26 @@ def test_without_a_scheme_facies_go_round_the_circle_in_the_order_their_transiti
     k = around.index("A")
     circle = around[k:] + around[:k]
     assert circle in (run, [run[0], *run[:0:-1]])
+
+
+def test_a_diagram_of_25_facies_keeps_neighbours_apart_and_saves_at_its_size(tmp_path):
+    from matplotlib.patches import Circle
+
+    # each facies followed upward by its neighbour on the circle: circles of the
+    # 5-facies size overlapped there, and the arrow between them bowed without bound
+    # (a figure of 11 billion pixels that could not be saved)
+    codes = [f"F{k:02d}" for k in range(25)]
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for lower, upper in pairwise(codes):
+        table.loc[lower, upper] = 0.4
+    fig = figures.facies_relationship_diagram(table, None, order=codes)
+    nodes = _nodes(fig.axes[0])
+    centres = np.array([nodes[c] for c in codes])
+    gaps = np.hypot(*np.diff(centres, axis=0).T)
+    (radius,) = {c.get_radius() for c in fig.axes[0].patches if isinstance(c, Circle)}
+    assert gaps.min() > 2 * radius * 1.08
+    path = save_figure(fig, tmp_path / "frd.png")
+    from PIL import Image
+
+    with Image.open(path) as image:
+        assert max(image.size) < 3000

@@ -413,7 +413,7 @@ def facies_relationship_diagram(
     codes = _circle_order(difference, scheme, order)
     pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
     values = difference.reindex(index=codes, columns=codes)
-    radius = 0.2
+    radius = _node_radius(len(codes))
     with figure_style():
         fig = new_figure(4.6, 5.0, layout="constrained")
         ax = fig.add_subplot()
@@ -430,6 +430,14 @@ def facies_relationship_diagram(
             ax.text(0, 0, "no transition above chance", ha="center", va="center")
         _fit_in_circles(fig, names)
     return fig
+
+
+def _node_radius(n: int, largest: float = 0.2) -> float:
+    """The radius of each of ``n`` facies circles round the unit circle: ``largest``, or
+    less where more facies stand round it, so that neighbours stand apart with room for
+    an arrow between them (overlapping circles turned the arrow between neighbours back
+    on itself, bowed without bound)."""
+    return min(largest, 0.75 * np.sin(np.pi / max(n, 2)))
 
 
 def _circle_order(
