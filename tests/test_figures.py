@@ -297,3 +297,20 @@ def test_a_diagram_of_25_facies_keeps_neighbours_apart_and_saves_at_its_size(tmp
 
     with Image.open(path) as image:
         assert max(image.size) < 3000
+
+
+def test_a_scheme_of_25_facies_leaves_the_diagram_room_above_its_legend(tmp_path):
+    # a legend of one row per facies squeezed the diagram to nothing (matplotlib's
+    # "axes sizes collapsed to zero") when the figure kept the height of 8 facies
+    codes = [f"F{k:02d}" for k in range(25)]
+    lines = ["name: many", "facies:"]
+    lines += [f"  - {{code: {c}, name: facies {c}, rank: {k}}}" for k, c in enumerate(codes)]
+    (tmp_path / "s.yaml").write_text("\n".join(lines) + "\n")
+    many = load_scheme(tmp_path / "s.yaml")
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for lower, upper in pairwise(codes):
+        table.loc[lower, upper] = 0.4
+    fig = figures.facies_relationship_diagram(table, many)
+    fig.draw_without_rendering()
+    inches = fig.axes[0].get_position().height * fig.get_figheight()
+    assert inches > 2.5
