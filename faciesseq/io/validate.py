@@ -872,6 +872,13 @@ class _IntervalPlace:
         )
 
 
+#: Added to the first error of a core whose every interval has its top below its base.
+_ALL_INVERTED = (
+    "; so is every interval of this core: are the top and base columns swapped, or the "
+    "depths elevations (positive upward)?"
+)
+
+
 def _drop_inverted_and_empty(
     part: pd.DataFrame, place: _IntervalPlace
 ) -> tuple[pd.DataFrame, list[Problem]]:
@@ -890,6 +897,8 @@ def _drop_inverted_and_empty(
             ok[i] = False
             message = f"zero thickness (top = base = {top[i]:g})"
             problems.append(place.problem(part, i, "zero-thickness", "error", message, top[i]))
+    if len(part) > 1 and np.all(top > base):
+        problems[0] = replace(problems[0], message=problems[0].message + _ALL_INVERTED)
     if not ok.all():
         part = part[ok].reset_index(drop=True)
     return part, problems
