@@ -449,6 +449,19 @@ def _check_folds(folds: int, n_cores: int) -> None:
         )
 
 
+def _check_labelled_cores(succ: list[Succession], labels: str, mode: str) -> None:
+    """Refuse a supervised cross-validation with labels on fewer than two cores: the
+    fold holding out the one labelled core has none to train on, whatever the folds."""
+    labelled = list(dict.fromkeys(s.core for s in succ if _has_label(s, labels)))
+    if mode == "supervised" and len(labelled) < 2:
+        raise ConfigError(
+            f"only {len(labelled)} core(s) carry labels in {labels!r} ({', '.join(labelled)}): "
+            "supervised cross-validation by core trains each fold on labelled cores other "
+            "than those it holds out, so it needs two or more; label another core, or use "
+            "mode='semi-supervised' (--mode semi-supervised on the command line)"
+        )
+
+
 def _deal_cores(cores: list[str], folds: int, random_state: int | None) -> dict[str, int]:
     """Core -> fold: the cores shuffled (seeded), then dealt round the folds."""
     rng = np.random.default_rng(random_state)
@@ -619,6 +632,7 @@ def cross_validate(
     succ = _labelled_successions(successions, labels, params)
     cores = list(dict.fromkeys(s.core for s in succ))
     _check_folds(folds, len(cores))
+    _check_labelled_cores(succ, labels, mode)
     fold_of = _deal_cores(cores, folds, random_state)
     # the labels' surfaces are named on the permissive graph, which names every boundary
     # a label column can hold (the strict graph a labelled fit may take gives the same

@@ -417,3 +417,19 @@ def test_decode_core_decodes_only_the_named_cores(database, tmp_path, capsys, su
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and not missing.exists()
     assert f"--core: no core 'NOPE' in the source (its cores: {', '.join(names[:10])}" in err
+
+
+def test_the_graph_line_says_so_where_no_labelled_boundary_tests_the_strict_order():
+    # labels on scattered beds (every fifth) leave no two labelled neighbours of
+    # different tracts: "all 0 labelled boundaries follow it" misled
+    from types import SimpleNamespace
+
+    from faciesseq.cli.fit import _graph_line
+    from faciesseq.scheme import default_tract_model
+
+    chosen = {"graph": "strict", "n_boundaries": 0, "n_forbidden": 0, "forbidden": []}
+    model = SimpleNamespace(tract_model_=default_tract_model(), label_graph_=chosen)
+    line = _graph_line(model)
+    assert "no two labelled neighbours differ in tract" in line and "all 0" not in line
+    chosen["n_boundaries"] = 5
+    assert "all 5 labelled boundaries follow it" in _graph_line(model)

@@ -1,5 +1,7 @@
 """Appendix figures drawn from invented numbers: legends, labels, values, files."""
 
+from itertools import pairwise
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -272,3 +274,43 @@ def test_without_a_scheme_facies_go_round_the_circle_in_the_order_their_transiti
     k = around.index("A")
     circle = around[k:] + around[:k]
     assert circle in (run, [run[0], *run[:0:-1]])
+
+
+def test_a_diagram_of_25_facies_keeps_neighbours_apart_and_saves_at_its_size(tmp_path):
+    from matplotlib.patches import Circle
+
+    # each facies followed upward by its neighbour on the circle: circles of the
+    # 5-facies size overlapped there, and the arrow between them bowed without bound
+    # (a figure of 11 billion pixels that could not be saved)
+    codes = [f"F{k:02d}" for k in range(25)]
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for lower, upper in pairwise(codes):
+        table.loc[lower, upper] = 0.4
+    fig = figures.facies_relationship_diagram(table, None, order=codes)
+    nodes = _nodes(fig.axes[0])
+    centres = np.array([nodes[c] for c in codes])
+    gaps = np.hypot(*np.diff(centres, axis=0).T)
+    (radius,) = {c.get_radius() for c in fig.axes[0].patches if isinstance(c, Circle)}
+    assert gaps.min() > 2 * radius * 1.08
+    path = save_figure(fig, tmp_path / "frd.png")
+    from PIL import Image
+
+    with Image.open(path) as image:
+        assert max(image.size) < 3000
+
+
+def test_a_scheme_of_25_facies_leaves_the_diagram_room_above_its_legend(tmp_path):
+    # a legend of one row per facies squeezed the diagram to nothing (matplotlib's
+    # "axes sizes collapsed to zero") when the figure kept the height of 8 facies
+    codes = [f"F{k:02d}" for k in range(25)]
+    lines = ["name: many", "facies:"]
+    lines += [f"  - {{code: {c}, name: facies {c}, rank: {k}}}" for k, c in enumerate(codes)]
+    (tmp_path / "s.yaml").write_text("\n".join(lines) + "\n")
+    many = load_scheme(tmp_path / "s.yaml")
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for lower, upper in pairwise(codes):
+        table.loc[lower, upper] = 0.4
+    fig = figures.facies_relationship_diagram(table, many)
+    fig.draw_without_rendering()
+    inches = fig.axes[0].get_position().height * fig.get_figheight()
+    assert inches > 2.5

@@ -506,3 +506,21 @@ def test_tract_model_lists_of_the_wrong_kind_are_a_config_error(
     assert main([*argv, "-o", str(tmp_path / "m.json")]) == 2
     one_line(capsys, needle)
     assert not (tmp_path / "m.json").exists()
+
+
+def test_las_files_of_core_names_differing_only_in_case_differ_in_more_than_case(tmp_path):
+    # Windows and macOS file systems do not tell A_1.las from a_1.las: one core's file
+    # replaced the other's there
+    from faciesseq.io import read_cores, write_cores
+
+    path = tmp_path / "c.csv"
+    path.write_text(
+        "core,top,base,facies\n"
+        + "".join(
+            f"{name},{k},{k + 1},{'AB'[k % 2]}\n" for name in ("A_1", "a/1") for k in range(3)
+        )
+    )
+    out = tmp_path / "las"
+    write_cores(read_cores(path, units="m"), out, format="las")
+    names = [p.name for p in out.iterdir()]
+    assert len({n.casefold() for n in names}) == 2, names

@@ -455,3 +455,16 @@ def test_a_contact_type_no_known_word_reads_is_a_located_warning_and_read_as_mis
     assert contacts[:3] == ["sharp", None, "gradational"]
     assert contacts[4:6] == [None, "erosional scour"] and contacts[6] is None
     assert not cores.errors
+
+
+def test_a_core_whose_every_top_is_below_its_base_is_asked_whether_the_columns_are_swapped(
+    tmp_path,
+):
+    # top and base mapped the wrong way round (or elevations, positive upward) give
+    # one error per row; the first says what they have in common
+    path = tmp_path / "c.csv"
+    path.write_text("core,top,base,facies\nW1,1,0,A\nW1,2,1,B\nW2,0,1,A\nW2,2,1,B\n")
+    errors = [p for p in read_cores(path).problems if p.kind == "top-below-base"]
+    assert [p.core for p in errors] == ["W1", "W1", "W2"]
+    assert "top and base columns swapped" in errors[0].message
+    assert not any("swapped" in p.message for p in errors[1:])

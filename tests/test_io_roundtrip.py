@@ -290,3 +290,14 @@ def test_a_database_mixing_units_is_converted_only_on_request(tmp_path):
     assert cores["W2"].intervals["base"].tolist() == [10 * 0.3048, 20 * 0.3048]
     (note,) = [p for p in cores.problems if p.kind == "units-converted"]
     assert note.file.endswith("b.csv") and "2 row(s) of depths in ft converted to m" in note.message
+
+
+def test_a_problem_on_a_converted_row_gives_its_depth_in_the_units_of_the_core_set(tmp_path):
+    path = tmp_path / "c.csv"
+    path.write_text("core,top,base,facies,units\nW1,100,110,A,ft\nW1,110,125,,ft\n")
+    (missing,) = [p for p in read_cores(path, units="m").problems if p.kind == "missing-facies"]
+    # 1 ft = 0.3048 m exactly (international foot, 1959)
+    assert (missing.depth, missing.units) == (110 * FT_TO_M, "m")
+    assert "depth 33.53 m" in str(missing)
+    (kept,) = [p for p in read_cores(path).problems if p.kind == "missing-facies"]
+    assert (kept.depth, kept.units) == (110, "ft")

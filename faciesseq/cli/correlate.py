@@ -144,7 +144,7 @@ def run(args: argparse.Namespace) -> int:
             # one section without a name in the wells table: section.png, not section-section.png
             unnamed = section == "section" and corr.wells["section"].nunique() == 1
             stem = safe_stem("section" if unnamed else f"section-{section}", used)
-            used.add(stem)
+            used.add(stem.casefold())
             datum, note = hanging_datum(corr, section, args.datum)
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")

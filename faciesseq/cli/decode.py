@@ -419,7 +419,7 @@ def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
     with missing_glyphs_once():  # one line for every figure, not one per character
         for core in interp:
             name = figure_name(core.core, used)
-            used.add(name)
+            used.add(name.casefold())
             strip_log(
                 core,
                 scheme,

@@ -206,6 +206,8 @@ def _graph_line(model, verbose: bool = False) -> str:
         n = sum(r.get("start") == kept.get("start") for r in rows)
         more = "" if verbose else "; --verbose for their scores"
         why = f" (the lowest ICL of {n} candidate graphs{more})"
+    elif chosen and chosen["graph"] == "strict" and not chosen["n_boundaries"]:
+        why = " (strict cyclic order: no two labelled neighbours differ in tract to test it)"
     elif chosen and chosen["graph"] == "strict":
         why = f" (strict cyclic order: all {chosen['n_boundaries']} labelled boundaries follow it)"
     elif chosen:

@@ -390,12 +390,11 @@ def _prepare(
         problems += [problem for _, problem in found]
         out[role] = numbers
     problems += _bad_cores(out["core"], table.file, rows, bad)
-    where = _Where(table.file, rows, out["core"], out[roles[0]])
-    out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
-    attributes = _attribute_columns(src, match, roles, table, rows, problems)
-    if "contact" in attributes:
-        attributes["contact"] = _known_contacts(attributes["contact"], where, problems)
-    out.update(attributes)
+    stated = table.units or match.units
+    if table.units and match.units and table.units != match.units:
+        raise InputError(
+            f"the header says {table.units} but a column name says {match.units}", file=table.file
+        )
     row_units = None
     if "units" in match.roles:
         row_units = pd.Series(
@@ -404,6 +403,12 @@ def _prepare(
                 lambda v: None if _is_blank(v) else normalise_units(v, where=table.file),
             )
         )
+    where = _Where(table.file, rows, out["core"], out[roles[0]], row_units, stated)
+    out["facies"] = _facies_column(src[match.roles["facies"]], scheme, layout, where, bad, problems)
+    attributes = _attribute_columns(src, match, roles, table, rows, problems)
+    if "contact" in attributes:
+        attributes["contact"] = _known_contacts(attributes["contact"], where, problems)
+    out.update(attributes)
     # one file name per table: categorical codes, not the name repeated on every row
     out["_file"] = pd.Categorical.from_codes(np.zeros(len(src), dtype=np.int8), [table.file])
     out["_row"] = rows
@@ -413,11 +418,6 @@ def _prepare(
     if row_units is not None and not keep.all():
         row_units = row_units[keep].reset_index(drop=True)
     del out
-    stated = table.units or match.units
-    if table.units and match.units and table.units != match.units:
-        raise InputError(
-            f"the header says {table.units} but a column name says {match.units}", file=table.file
-        )
     problems += table.problems
     prepared = _Rows(table, layout, frame, list(attributes), stated, row_units, problems)
     prepared.roles = dict(match.roles)
@@ -456,13 +456,18 @@ class _Where:
     rows: np.ndarray
     cores: pd.Series
     depths: np.ndarray
+    row_units: pd.Series | None = None  # per-row units from a units column
+    units: str | None = None  # units the table states (None when nothing said)
 
     def at(self, i: int) -> dict:
+        """The place of row ``i``, its depth in the units the source states it in."""
+        units = None if self.row_units is None else self.row_units.iloc[i]
         return {
             "file": self.file,
             "row": int(self.rows[i]),
             "core": self.cores.iloc[i],
             "depth": _depth(self.depths[i]),
+            "units": self.units if pd.isna(units) else units,
         }
 
 
@@ -764,6 +769,7 @@ def _resolve_units(
                     values = p.frame[col].to_numpy(dtype=float).copy()
                     values[convert] = in_units(values[convert], source, target)
                     p.frame[col] = values
+            p.problems = [_in_target_units(q, target) for q in p.problems]
             problems.append(
                 Problem(
                     "repair",
@@ -774,6 +780,15 @@ def _resolve_units(
                 )
             )
     return target, problems
+
+
+def _in_target_units(problem: Problem, target: str) -> Problem:
+    """``problem`` with its depth converted to ``target`` where it was stated in the other unit."""
+    if problem.depth is None or problem.units in (None, target):
+        return problem
+    return replace(
+        problem, depth=float(in_units(problem.depth, problem.units, target)), units=target
+    )
 
 
 def _order(
@@ -857,6 +872,13 @@ class _IntervalPlace:
         )
 
 
+#: Added to the first error of a core whose every interval has its top below its base.
+_ALL_INVERTED = (
+    "; so is every interval of this core: are the top and base columns swapped, or the "
+    "depths elevations (positive upward)?"
+)
+
+
 def _drop_inverted_and_empty(
     part: pd.DataFrame, place: _IntervalPlace
 ) -> tuple[pd.DataFrame, list[Problem]]:
@@ -875,6 +897,8 @@ def _drop_inverted_and_empty(
             ok[i] = False
             message = f"zero thickness (top = base = {top[i]:g})"
             problems.append(place.problem(part, i, "zero-thickness", "error", message, top[i]))
+    if len(part) > 1 and np.all(top > base):
+        problems[0] = replace(problems[0], message=problems[0].message + _ALL_INVERTED)
     if not ok.all():
         part = part[ok].reset_index(drop=True)
     return part, problems

@@ -141,7 +141,7 @@ def write_cores(
             used: set[str] = set()
             for core in cores:
                 stem = _safe(core.name, used)
-                used.add(stem)
+                used.add(stem.casefold())
                 write_las(
                     core, tmpdir / f"{stem}.las", step if step is not None else steps.get(core.name)
                 )
@@ -163,9 +163,13 @@ def safe_stem(name: str, used: Collection[str] = ()) -> str:
     Letters, digits, ``-``, ``_`` and ``.`` are kept, anything else becomes
     ``_``, leading dots are dropped; a stem longer than :data:`MAX_STEM` bytes,
     or one already in ``used``, is shortened and given a hash of the full name.
+    Callers add each stem they take to ``used`` case-folded (``str.casefold``): the
+    file systems of Windows and macOS do not tell ``A_1.png`` from ``a_1.png``, so
+    one core's file would replace another's.
     """
     safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in name).lstrip(".") or "_"
-    if len(safe.encode("utf-8")) > MAX_STEM or safe in used:
+    taken = safe in used or safe.casefold() in used
+    if len(safe.encode("utf-8")) > MAX_STEM or taken:
         digest = hashlib.sha256(name.encode("utf-8", "surrogatepass")).hexdigest()[:12]
         head = safe
         while len(head.encode("utf-8")) > MAX_STEM - 13:

@@ -319,7 +319,7 @@ def write_las_files(
     used: set[str] = set()
     for core in interp:
         stem = safe_stem(core.core, used) if core.core else "core"
-        used.add(stem)
+        used.add(stem.casefold())
         path = folder / f"{stem}.las"
         las = _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number)
         las.other = _other_text(interp, core.units, step, how, facies, tracts, missing)

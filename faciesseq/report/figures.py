@@ -413,9 +413,10 @@ def facies_relationship_diagram(
     codes = _circle_order(difference, scheme, order)
     pos = dict(zip(codes, _circle_layout(len(codes)), strict=True))
     values = difference.reindex(index=codes, columns=codes)
-    radius = 0.2
+    radius = _node_radius(len(codes))
+    legend_rows = 2 + (len(codes) if scheme is not None else 0)
     with figure_style():
-        fig = new_figure(4.6, 5.0, layout="constrained")
+        fig = new_figure(4.6, _diagram_height(legend_rows), layout="constrained")
         ax = fig.add_subplot()
         ax.set_aspect("equal")
         ax.set_axis_off()
@@ -430,6 +431,21 @@ def facies_relationship_diagram(
             ax.text(0, 0, "no transition above chance", ha="center", va="center")
         _fit_in_circles(fig, names)
     return fig
+
+
+def _diagram_height(legend_rows: int, height: float = 5.0, row: float = 0.2) -> float:
+    """The height (inches) of a facies relationship diagram whose legend has
+    ``legend_rows`` rows: ``height``, and ``row`` more for each row past ten (a legend
+    of 25 facies squeezed the diagram above it to nothing)."""
+    return height + row * max(0, legend_rows - 10)
+
+
+def _node_radius(n: int, largest: float = 0.2) -> float:
+    """The radius of each of ``n`` facies circles round the unit circle: ``largest``, or
+    less where more facies stand round it, so that neighbours stand apart with room for
+    an arrow between them (overlapping circles turned the arrow between neighbours back
+    on itself, bowed without bound)."""
+    return min(largest, 0.75 * np.sin(np.pi / max(n, 2)))
 
 
 def _circle_order(
