@@ -223,3 +223,18 @@ def test_scheme_draft_without_any_code_fails_and_writes_nothing(tmp_path, capsys
     code, _, err = _run(capsys, ["scheme", "draft", source, "-o", out])
     assert code == 1 and len(err.strip().splitlines()) == 1 and "row 1" in err
     assert not out.exists()
+
+
+def test_a_source_file_states_its_units_as_a_units_column_would(tmp_path):
+    # `units: feet` reads as ft (the spellings of a units column); an unknown unit is a
+    # usage error naming the file
+    source = {"path": str(CSV), "columns": COLUMNS, "units": "feet"}
+    good = tmp_path / "feet.yaml"
+    good.write_text(yaml.safe_dump(source))
+    assert load_source_file(good).units == "ft"
+    assert read_cores(good).units == "ft"
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(yaml.safe_dump({**source, "units": "fathoms"}))
+    with pytest.raises(Exception, match="got 'fathoms'") as found:
+        load_source_file(bad)
+    assert "bad.yaml" in str(found.value)

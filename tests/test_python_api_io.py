@@ -95,11 +95,16 @@ def test_text_depths_of_a_frame_are_read_as_numbers_as_a_files_are():
 
 
 def test_units_of_a_frame_are_checked_and_stated_units_converted():
+    # the option takes the spellings a units column takes (feet, metres, FT...)
+    assert CoreSet.from_frame(_table(), units="feet").units == "ft"
+    assert read_cores(_table(), units="Metres").units == "m"
     with pytest.raises(ConfigError) as found:
-        CoreSet.from_frame(_table(), units="feet")
-    assert _one_line(found.value) == "units must be 'm' or 'ft', got 'feet'"
-    with pytest.raises(ConfigError, match="got 'feet'"):
-        read_cores(_table(), units="feet")
+        CoreSet.from_frame(_table(), units="furlongs")
+    assert _one_line(found.value) == (
+        "units must be 'm' or 'ft' (or metres, feet...), got 'furlongs'"
+    )
+    with pytest.raises(ConfigError, match="got 'usft'"):  # not the international foot
+        read_cores(_table(), units="usft")
     # a units column says feet: converted to the metres asked for (1 ft = 0.3048 m)
     feet = _table().assign(units="ft")
     cores = CoreSet.from_frame(feet, units="m")

@@ -18,8 +18,8 @@ import pandas as pd
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
-from faciesseq.io.columns import ROLES, match_columns
-from faciesseq.io.frame import read_frame, units_option
+from faciesseq.io.columns import ROLES, match_columns, units_option
+from faciesseq.io.frame import read_frame
 from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, load_source_file, read_tables
 from faciesseq.io.stream import CoreStream, NotStreamable, open_stream
 from faciesseq.io.summary import DatabaseSummary, summarise
@@ -44,6 +44,8 @@ __all__ = [
 def source_spec(source: str | Path, *, columns: Mapping[str, str] | None = None, **options):
     """The reading options of ``source``: those given here, completed by the YAML
     source file's own where ``source`` is one (the arguments given win)."""
+    if options.get("units") is not None:
+        options["units"] = units_option(options["units"])
     spec = SourceSpec(source=str(source), columns=dict(columns or {}), **options)
     if Path(str(source)).suffix.lower() in YAML_SUFFIXES:
         spec = _merge(load_source_file(Path(str(source))), spec)
@@ -208,7 +210,6 @@ def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesSchem
     if scheme is None and spec.scheme is not None:
         scheme = spec.scheme
     scheme = as_scheme(scheme)
-    units_option(spec.units)
     return spec, scheme
 
 

@@ -96,6 +96,21 @@ def normalise_units(text: object, *, where: str | None = None) -> str:
     raise InputError(f"unknown depth units {text!r}; expected m or ft", file=where)
 
 
+def units_option(units: object, *, file: str | None = None) -> str | None:
+    """The depth units of an option (``units=`` from Python, ``units:`` of a YAML source
+    file) as ``"m"`` or ``"ft"``, written as a units column may write them (``metres``,
+    ``feet``, ``FT``...); ``None`` stays ``None``; anything else a
+    :class:`ConfigError` (a usage error, where a units column's is a data error)."""
+    if units is None:
+        return None
+    try:
+        return normalise_units(units)
+    except InputError:
+        raise ConfigError(
+            f"units must be 'm' or 'ft' (or metres, feet...), got {units!r}", file=file
+        ) from None
+
+
 def _key(name: str) -> str:
     return re.sub(r"[^0-9a-z]+", "", name.lower())
 

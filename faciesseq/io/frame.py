@@ -19,23 +19,17 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import PROVENANCE, CoreSet
-from faciesseq.errors import ConfigError, InputError
+from faciesseq.errors import InputError
+from faciesseq.io.columns import units_option
 from faciesseq.io.raw import RawTable
 from faciesseq.io.validate import build_coreset
 from faciesseq.io.wording import PYTHON
 from faciesseq.scheme import FaciesScheme, as_scheme
 
-__all__ = ["FRAME", "as_frame", "read_frame", "units_option"]
+__all__ = ["FRAME", "as_frame", "read_frame"]
 
 #: How messages name a DataFrame given without provenance columns.
 FRAME = "DataFrame"
-
-
-def units_option(units: str | None) -> str | None:
-    """``units`` as given, if ``None``, ``"m"`` or ``"ft"``; else a :class:`ConfigError`."""
-    if units is not None and units not in ("m", "ft"):
-        raise ConfigError(f"units must be 'm' or 'ft', got {units!r}")
-    return units
 
 
 def as_frame(data: object, taker: str) -> pd.DataFrame:

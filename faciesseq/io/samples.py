@@ -15,8 +15,6 @@ from pathlib import Path
 
 import pandas as pd
 
-from faciesseq.errors import ConfigError
-
 __all__ = ["CORE_KEY", "DEPTH_KEY", "read_samples"]
 
 #: Columns :func:`read_samples` adds: the core name and depth the reader gave each row.
@@ -67,8 +65,6 @@ def read_samples(
         query=query,
         curve=curve,
     )
-    if spec.units is not None and spec.units not in ("m", "ft"):
-        raise ConfigError(f"units must be 'm' or 'ft', got {spec.units!r}")
     tables, _, _ = read_tables(spec)
     roles = {str(k).strip().lower(): v for k, v in spec.columns.items()}
     prepared = [_prepare(t, spec.layout, roles, None) for t in tables]

@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.io.columns import units_option
 from faciesseq.io.las import read_las
 from faciesseq.io.raw import RawTable
 from faciesseq.io.sql import is_sqlite_file, is_url, read_sql
@@ -100,11 +101,11 @@ def load_source_file(path: Path) -> SourceSpec:
     else:
         source = str(data["url"])
     text = {k: (None if data.get(k) is None else str(data[k])) for k in SOURCE_KEYS}
-    for key, allowed in (("units", ("m", "ft")), ("layout", ("intervals", "samples"))):
-        if text[key] is not None and text[key] not in allowed:
-            raise ConfigError(
-                f"{key!r} must be one of {list(allowed)}, got {text[key]!r}", file=file
-            )
+    if text["layout"] is not None and text["layout"] not in ("intervals", "samples"):
+        raise ConfigError(
+            f"'layout' must be one of ['intervals', 'samples'], got {text['layout']!r}", file=file
+        )
+    text["units"] = units_option(text["units"], file=file)
     scheme = None
     if text["scheme"] is not None:
         scheme_path = Path(text["scheme"])
