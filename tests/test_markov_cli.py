@@ -143,3 +143,19 @@ def test_markov_tables_are_written_with_six_significant_digits(tmp_path, capsys)
         text = (out / name).read_text()
         digits = [len(m.replace(".", "").lstrip("0")) for m in re.findall(r"\d+\.\d+", text)]
         assert digits and max(digits) <= 6, name
+
+
+@pytest.mark.parametrize(
+    ("rows", "message"),
+    [
+        # one facies throughout: amalgamated, every core is one bed
+        ("A,0,1,SS\nA,1,2,SS\nB,0,2,SS\n", "only one facies (SS) is present"),
+        ("A,0,1,SS\nB,0,2,SH\n", "every succession has a single bed or cell"),
+    ],
+)
+def test_no_transitions_says_why_in_one_line(tmp_path, capsys, rows, message):
+    source = tmp_path / "cores.csv"
+    source.write_text("core,top,base,facies\n" + rows)
+    assert main(["markov", str(source)]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert any(message in line for line in err) and "Traceback" not in "\n".join(err)

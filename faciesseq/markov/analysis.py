@@ -570,7 +570,12 @@ def _report(
     counts = transition_counts(enc)
     n_trans = int(counts.sum())
     if n_trans == 0:
-        raise InputError("no transitions to analyse: every succession has a single bed or cell")
+        only = (
+            f"only one facies ({enc.codes[0]}) is present, so each core is one bed of it"
+            if enc.m == 1 and embedded
+            else "every succession has a single bed or cell"
+        )
+        raise InputError(f"no transitions to analyse: {only}")
     if embedded and np.trace(counts) > 0:
         raise InputError(
             "successions repeat a facies from one bed to the next; beds should be amalgamated "
