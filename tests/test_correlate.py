@@ -321,3 +321,22 @@ def test_a_pair_sharing_no_surface_is_listed_and_said():
         "section dip: A and B share no tied surface; their columns are drawn unjoined"
     ]
     assert len(corr.ties) == 1 and corr.ties["tied_by"].iloc[0] == "position"
+
+
+def test_a_wells_table_may_state_the_unit_of_its_elevations_in_the_column_name():
+    # a column named as a depth column may be named ("elevation (ft)", common practice
+    # of well headers) is converted to the cores' units, 1 ft = 0.3048 m exactly; a
+    # plain "elevation" is in the cores' units
+    from faciesseq.correlation.wells import check_wells, wells_from_frame
+
+    frame = pd.DataFrame(
+        {"core": ["A", "B"], "distance": [0.0, 1.0], "Elevation (ft)": [100.0, 50.0]}
+    )
+    table = wells_from_frame(frame)
+    assert dict(table.depth_units) == {"elevation": "ft"}
+    in_metres, _ = check_wells(table, ["A", "B"], "m")
+    assert in_metres.frame["elevation"].tolist() == pytest.approx([30.48, 15.24])
+    in_feet, _ = check_wells(table, ["A", "B"], "ft")
+    assert in_feet.frame["elevation"].tolist() == [100.0, 50.0]
+    plain = wells_from_frame(frame.rename(columns={"Elevation (ft)": "elevation"}))
+    assert check_wells(plain, ["A", "B"], "m")[0].frame["elevation"].tolist() == [100.0, 50.0]

@@ -60,7 +60,7 @@ def _add_correlation(appendix, wells, cores, interpretation) -> None:
     from faciesseq.report.appendix import add_section
     from faciesseq.report.correlation_section import correlation_section
 
-    wells, problems = check_wells(wells, cores.names)
+    wells, problems = check_wells(wells, cores.names, cores.units)
     for p in (*wells.problems, *problems):
         sys.stderr.write(f"faciesseq appendix: {p}\n")
     extents = {c.name: (c.top, c.base) for c in cores}

@@ -91,7 +91,7 @@ def _decode(args):
     cores = read_source(args, scheme).require_valid()
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
-    wells, problems = check_wells(wells, cores.names)
+    wells, problems = check_wells(wells, cores.names, cores.units)
     for p in (*wells.problems, *problems):
         sys.stderr.write(f"faciesseq correlate: {p}\n")
     cores = cores.subset(list(wells.frame["core"]))

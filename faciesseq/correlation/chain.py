@@ -302,7 +302,22 @@ def correlate_interpretation(
         )
     beds = interpretation.beds
     spans = beds.groupby("core", sort=False).agg(top=("top", "min"), base=("base", "max"))
-    return correlate(interpretation.picks_table(), spans, wells, options)
+    units = next((core.units for core in interpretation), None)
+    return correlate(interpretation.picks_table(), spans, _in_units(wells, units), options)
+
+
+def _in_units(wells: pd.DataFrame | WellTable, units: str | None) -> pd.DataFrame | WellTable:
+    """A wells table whose column names state the units of its elevations or datum
+    depths (``elevation (ft)``), in the cores' ``units``
+    (:func:`~faciesseq.correlation.wells.in_depth_units`); others as they are."""
+    from faciesseq.correlation.wells import in_depth_units
+
+    if isinstance(wells, pd.DataFrame) and not {"core", "section", "position"} <= set(wells):
+        table = wells_from_frame(wells)
+        for problem in table.problems:
+            warnings.warn(str(problem), stacklevel=4)
+        wells = table
+    return in_depth_units(wells, units) if isinstance(wells, WellTable) else wells
 
 
 def _extents(extents) -> dict[str, tuple[float, float]]:

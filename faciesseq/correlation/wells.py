@@ -14,12 +14,14 @@ Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite; see
   core's depths are measured from, kelly bushing or ground, positive up above
   the datum, in the cores' depth units: depth ``d`` lies ``d - elevation``
   below the datum) and ``datum_depth`` (depth of a datum
-  in the core, for ``--datum datum_depth``).
+  in the core, for ``--datum datum_depth``). Either may state its unit in its
+  name (``elevation (ft)``, ``datum_depth_m``): it is then converted to the
+  cores' units (:func:`check_wells`), else read in them.
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -50,12 +52,16 @@ class WellTable:
         Axis label of the position (e.g. ``"x_km"``).
     problems
         Warnings found while reading.
+    depth_units
+        The unit (``m`` or ``ft``) the column names state for ``elevation`` and
+        ``datum_depth``, where they state one; the others are in the cores' units.
     """
 
     frame: pd.DataFrame
     file: str = "wells table"
     position_label: str = "distance"
     problems: tuple[Problem, ...] = field(default=())
+    depth_units: Mapping[str, str] = field(default_factory=dict)
 
 
 def _column(frame: pd.DataFrame, names: Iterable[str]) -> str | None:
@@ -122,14 +128,46 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
             "row": rows,
         }
     )
+    depth_units = {}
     for role in ("elevation", "datum_depth"):
-        col = _column(frame, (role,))
+        col, unit = _depth_column(frame, role, file)
         out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
+        if unit:
+            depth_units[role] = unit
     problems = []
     if order is not None and _column(frame, _DISTANCE) is not None:
         problems = _order_disagreements(out, file)
     out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
-    return WellTable(out, file, label, tuple(problems))
+    return WellTable(out, file, label, tuple(problems), depth_units)
+
+
+def _depth_column(frame: pd.DataFrame, role: str, file: str) -> tuple[str | None, str | None]:
+    """The column of ``role`` (``elevation`` or ``datum_depth``) and the unit its name
+    states (``elevation (ft)``: ``ft``; read as a depth column's name is,
+    :func:`faciesseq.io.columns.normalise_units`), or ``None``."""
+    from faciesseq.io.columns import _split_unit, normalise_units
+
+    col = _column(frame, (role,))
+    if col is not None:
+        return col, None
+    for c in frame.columns:
+        name, unit = _split_unit(str(c).strip())
+        if unit is not None and name.strip().lower().replace(" ", "_") == role:
+            return c, normalise_units(unit, where=file)
+    return None, None
+
+
+def in_depth_units(wells: WellTable, units: str | None) -> WellTable:
+    """The wells table with its ``elevation`` and ``datum_depth`` in ``units`` (the
+    cores'), where their column names stated the other unit (1 ft = 0.3048 m)."""
+    from faciesseq.core import in_units
+
+    if units is None or not wells.depth_units:
+        return wells
+    frame = wells.frame.copy()
+    for role, unit in wells.depth_units.items():
+        frame[role] = in_units(frame[role].to_numpy(float), unit, units)
+    return WellTable(frame, wells.file, wells.position_label, wells.problems)
 
 
 def _well_names(frame: pd.DataFrame, rows: list, file: str) -> pd.Series:
@@ -224,7 +262,9 @@ def read_wells(path: str) -> WellTable:
     table = tables[0]
     wells = wells_from_frame(table.frame, str(path), table.row_numbers().tolist())
     extra = tuple(problems) + tuple(p for p in table.problems if p.severity == "warning")
-    return WellTable(wells.frame, wells.file, wells.position_label, extra + wells.problems)
+    return WellTable(
+        wells.frame, wells.file, wells.position_label, extra + wells.problems, wells.depth_units
+    )
 
 
 def _unmatched(wells: pd.Series, cores: list[str], shown: int = 5) -> str:
@@ -245,8 +285,12 @@ def _unmatched(wells: pd.Series, cores: list[str], shown: int = 5) -> str:
     )
 
 
-def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list[Problem]]:
-    """Match the wells table with the cores; keep the wells that have a core.
+def check_wells(
+    wells: WellTable, cores: Iterable[str], units: str | None = None
+) -> tuple[WellTable, list[Problem]]:
+    """Match the wells table with the cores; keep the wells that have a core; with
+    ``units`` (the cores'), the elevations and datum depths in them
+    (:func:`in_depth_units`).
 
     A well without a core and a core without a well row are warnings (the
     well or core is left out); a section left with one well is a warning (it
@@ -258,6 +302,7 @@ def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list
         The wells with a core, and the warnings.
     """
     cores = list(cores)
+    wells = in_depth_units(wells, units)
     frame = wells.frame
     problems: list[Problem] = []
     have = set(cores)
@@ -302,4 +347,6 @@ def check_wells(wells: WellTable, cores: Iterable[str]) -> tuple[WellTable, list
             file=wells.file,
         )
     kept = kept[kept["section"].map(sizes) >= 2].reset_index(drop=True)
-    return WellTable(kept, wells.file, wells.position_label, wells.problems), problems
+    return WellTable(
+        kept, wells.file, wells.position_label, wells.problems, wells.depth_units
+    ), problems
