@@ -327,8 +327,6 @@ def test_a_wells_table_may_state_the_unit_of_its_elevations_in_the_column_name()
     # a column named as a depth column may be named ("elevation (ft)", common practice
     # of well headers) is converted to the cores' units, 1 ft = 0.3048 m exactly; a
     # plain "elevation" is in the cores' units
-    from faciesseq.correlation.wells import check_wells, wells_from_frame
-
     frame = pd.DataFrame(
         {"core": ["A", "B"], "distance": [0.0, 1.0], "Elevation (ft)": [100.0, 50.0]}
     )
@@ -340,3 +338,12 @@ def test_a_wells_table_may_state_the_unit_of_its_elevations_in_the_column_name()
     assert in_feet.frame["elevation"].tolist() == [100.0, 50.0]
     plain = wells_from_frame(frame.rename(columns={"Elevation (ft)": "elevation"}))
     assert check_wells(plain, ["A", "B"], "m")[0].frame["elevation"].tolist() == [100.0, 50.0]
+
+
+def test_wells_at_one_position_are_a_warning_naming_them():
+    frame = pd.DataFrame({"core": ["A", "B", "C"], "x": [5.0, 5.0, 5.0], "y": [1.0, 1.0, 1.0]})
+    table = wells_from_frame(frame, "wells.csv")
+    (problem,) = [p for p in table.problems if p.kind == "wells-same-position"]
+    assert "A, B, C stand at one position" in str(problem) and "wells.csv" in str(problem)
+    apart = wells_from_frame(frame.assign(x=[0.0, 1.0, 2.0]))
+    assert not [p for p in apart.problems if p.kind == "wells-same-position"]

@@ -134,9 +134,9 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
         out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
         if unit:
             depth_units[role] = unit
-    problems = []
+    problems = _same_positions(out, file)
     if order is not None and _column(frame, _DISTANCE) is not None:
-        problems = _order_disagreements(out, file)
+        problems += _order_disagreements(out, file)
     out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
     return WellTable(out, file, label, tuple(problems), depth_units)
 
@@ -223,6 +223,29 @@ def _positions(
                 x[here], y[here], order[here] if order is not None else None
             )
     return position, f"distance along the section ({x_col}, {y_col} units)"
+
+
+def _same_positions(wells: pd.DataFrame, file: str) -> list[Problem]:
+    """A warning for each section where wells stand at one position: the section puts
+    them side by side in name order, which says nothing of where they stand (a wells
+    table whose coordinates were left at a default, say)."""
+    problems = []
+    for s, part in wells.groupby("section", sort=False):
+        shared = part[part["position"].duplicated(keep=False)]
+        if len(shared):
+            names = ", ".join(sorted(map(str, shared["core"]))[:5])
+            more = f" and {len(shared) - 5} more" if len(shared) > 5 else ""
+            problems.append(
+                Problem(
+                    "warning",
+                    "wells-same-position",
+                    f"section {s!r}: wells {names}{more} stand at one position; they are "
+                    "drawn in name order, which may not be their order on the ground",
+                    file=file,
+                    row=int(shared["row"].iloc[0]),
+                )
+            )
+    return problems
 
 
 def _order_disagreements(wells: pd.DataFrame, file: str) -> list[Problem]:
