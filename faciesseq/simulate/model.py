@@ -292,7 +292,7 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
         dep, ero, s_new, bypass = _place_shoreline(
             x, z, h, e_k, sand_budget, falling, e_max, scenario
         )
-        mud = _mud_fallout(x, s_new, mud_budget, e_k - (z + dep - ero), scenario)
+        mud = _mud_fallout(x, s_new, mud_budget, e_k, z + dep - ero, scenario)
         bypass += mud_budget - float(mud.sum() * dx)
 
         net = dep - ero + mud
@@ -335,20 +335,26 @@ def run_section(scenario: Scenario, section: Section) -> SectionHistory:
 
 
 def _mud_fallout(
-    x: np.ndarray, shoreline: float, budget: float, water_depth: np.ndarray, scenario: Scenario
+    x: np.ndarray,
+    shoreline: float,
+    budget: float,
+    level: float,
+    z_sand: np.ndarray,
+    scenario: Scenario,
 ) -> np.ndarray:
     """Mud thickness per cell (m) of one step: ``budget`` (m km) falls out
     exponentially basinward of the ``shoreline`` (e-folding length
     ``scenario.mud_decay_km``), each cell's share the integral of the exponential over
-    the cell, and settles only below the mud depth limit (``water_depth`` over the
-    sand of the step); what does not settle bypasses the section."""
+    the cell, and settles only below the mud depth limit under base ``level`` (over the
+    surface ``z_sand`` after the step's sand); what does not settle bypasses the
+    section."""
     dx = x[1] - x[0]
     a = np.maximum(x - dx / 2, shoreline)
     b = np.maximum(x + dx / 2, shoreline)
     share = np.exp(-(a - shoreline) / scenario.mud_decay_km) - np.exp(
         -(b - shoreline) / scenario.mud_decay_km
     )
-    room = np.maximum(water_depth - scenario.mud_min_depth_m, 0.0)
+    room = np.maximum(level - scenario.mud_min_depth_m - z_sand, 0.0)
     return np.minimum(budget * share / dx, room)
 
 
