@@ -51,7 +51,8 @@ def test_a_model_fitted_in_metres_decodes_cores_in_feet_alike(tmp_path, capsys):
     assert main(["decode", str(model), str(metres), "--units", "m", "-o", str(tmp_path / "m")]) == 0
     assert "converted" not in capsys.readouterr().err
     assert main(["decode", str(model), str(feet), "--units", "ft", "-o", str(tmp_path / "f")]) == 0
-    assert "the model was fitted on depths in m" in capsys.readouterr().err
+    said = capsys.readouterr().err
+    assert "the model was fitted on depths in m" in said and "give --units" not in said
     in_m, in_ft = _decoded(tmp_path / "m"), _decoded(tmp_path / "f")
     assert in_m["tract"].tolist() == in_ft["tract"].tolist()
     assert len(set(in_m["tract"])) > 1  # not the one tract of a misread
@@ -71,3 +72,17 @@ def test_a_model_file_with_units_that_are_neither_is_refused(tmp_path, capsys):
     capsys.readouterr()
     assert main(["decode", str(model), str(metres), "-o", str(tmp_path / "out")]) == 1
     assert "training.units: 'furlong': m or ft" in capsys.readouterr().err
+
+
+def test_units_assumed_unlike_the_models_ask_whether_they_are_the_models(tmp_path, capsys):
+    # a source in feet that states no units is taken as metres (with a warning); a model
+    # fitted in feet then asks whether --units ft was meant, as the likely slip it is
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    capsys.readouterr()
+    assert main(["decode", str(model), str(feet), "-o", str(tmp_path / "f")]) == 0
+    said = capsys.readouterr().err
+    assert "the source states no units and m were assumed" in said
+    assert "give --units ft" in said

@@ -462,7 +462,7 @@ def _read(args: argparse.Namespace, model, scheme, places: _UnseenPlaces | None 
     cores = regular_cores(source, "decode", args.keep_irregular)
     if places is not None:
         places.add(cores)
-    _note_units(model, cores.units)
+    _note_units(model, cores)
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
     successions = cores.succession_table(model.unit_, step)
@@ -507,14 +507,22 @@ def _with_progress(parts, model, successions):
         progress.close()
 
 
-def _note_units(model, units: str) -> None:
-    """Say where the model was fitted on depths in other units than the source's."""
-    fitted = getattr(model, "units_", None)
+def _note_units(model, cores) -> None:
+    """Say where the model was fitted on depths in other units than the source's; where
+    the source stated none (metres assumed), ask whether its depths are in the model's."""
+    fitted, units = getattr(model, "units_", None), cores.units
     if fitted is not None and fitted != units:
+        assumed = any(p.kind == "units" for p in cores.problems)
+        ask = (
+            f"; the source states no units and {units} were assumed: if its depths are in "
+            f"{fitted}, give --units {fitted}"
+            if assumed
+            else ""
+        )
         sys.stderr.write(
             f"faciesseq decode: the model was fitted on depths in {fitted}; the beds' "
             f"thicknesses are converted to {fitted} for it (1 ft = 0.3048 m), every output "
-            f"stays in {units}\n"
+            f"stays in {units}{ask}\n"
         )
 
 
@@ -599,7 +607,7 @@ class _Streamed:
         chosen = _Chosen(self.args)
         for k, batch in enumerate(self.stream):
             if k == 0:
-                _note_units(model, batch.units)
+                _note_units(model, batch)
             batch = chosen(batch)
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
