@@ -17,7 +17,9 @@ and without it (d); each decodes the test cores' minimal table, scored on a 0.01
 grid against the true tracts: balanced accuracy (mean over the four tracts of the
 thickness recalled), decoded tract boundaries against true ones, mean probability of
 the decoded tract, and the balanced accuracy of TST against the other tracts
-(``half_bacc``: the transgressive and regressive halves of the cycle). Writes
+(``half_bacc``: the transgressive and regressive halves of the cycle), and the MFS picks
+within 2 m of a true MFS (the top of each TST; recall and precision pooled over the
+seeds, ``mfs_recall`` and ``mfs_precision`` in the summary). Writes
 ``OUT/runs/<setting>/<seed>/``, ``OUT/results.csv``, ``OUT/summary.md`` (with the summed
 confusion tables) and ``OUT/commands.log``.
 """
@@ -96,6 +98,31 @@ def _half_cycles(conf):
     return float(np.mean(recalls)) if recalls else np.nan
 
 
+def true_mfs(truth):
+    """The true maximum flooding surfaces of a truth table (``core, top, base, tract``):
+    each top of a TST interval with another tract above it (``core, surface, depth``)."""
+    rows = []
+    for core, g in truth.groupby("core", sort=False):
+        g = g.sort_values("top")
+        tract, top = g["tract"].to_numpy(object), g["top"].to_numpy(float)
+        for i in range(1, len(g)):
+            if tract[i] == "TST" and tract[i - 1] != "TST":
+                rows.append((core, "MFS", top[i]))
+    return pd.DataFrame(rows, columns=["core", "surface", "depth"])
+
+
+def mfs_scores(truth, dec_dir, tolerance=2.0):
+    """MFS picks of a decode within ``tolerance`` m of a true MFS, and the true ones
+    found (:func:`faciesseq.scores.surface_pick_scores`): found, true, right, picks."""
+    from faciesseq.scores import surface_pick_scores
+
+    picks = pd.read_csv(os.path.join(dec_dir, "picks.csv"), comment="#")
+    s = surface_pick_scores(picks, true_mfs(truth), "MFS", tolerance)
+    return dict(
+        mfs_found=s.n_true_found, mfs_true=s.n_true, mfs_right=s.n_picks_right, mfs_picks=s.n_picks
+    )
+
+
 def score(truth_csv, dec_dir):
     truth = pd.read_csv(truth_csv)
     dec = pd.read_csv(os.path.join(dec_dir, "tracts.csv"), comment="#")
@@ -142,6 +169,7 @@ def score(truth_csv, dec_dir):
         meanp=meanp,
         meanp_thk=meanp_thk,
         **{f"rec_{t}": recall[t] for t in TRACTS},
+        **mfs_scores(truth, dec_dir),
     ), conf
 
 
@@ -251,8 +279,15 @@ def main():
         rec_LST=("rec_LST", "mean"),
         rec_TST=("rec_TST", "mean"),
         fit_s=("fit_s", "mean"),
+        mfs_found=("mfs_found", "sum"),
+        mfs_true=("mfs_true", "sum"),
+        mfs_right=("mfs_right", "sum"),
+        mfs_picks=("mfs_picks", "sum"),
     )
     agg["bounds_ratio"] = agg["dec_bounds"] / agg["true_bounds"]
+    # MFS picks within 2 m, pooled over the seeds
+    agg["mfs_recall"] = agg["mfs_found"] / agg["mfs_true"]
+    agg["mfs_precision"] = agg["mfs_right"] / agg["mfs_picks"]
     with open(os.path.join(HERE, "summary.md"), "w") as f:
         f.write(agg.round(3).to_string() + "\n\n")
         # summed confusion (metres) per setting/mode

@@ -36,7 +36,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     out = capsys.readouterr().out
     assert "semi-supervised" in out
     # the interpreter's column keeps the cyclic order, so the strict graph is fitted
-    assert "skips: FSST, TST (strict cyclic order: all " in out
+    assert "tracts that may be absent: FSST, TST (strict cyclic order: all " in out
     # what was fitted in two lines, then the cautions; the diagnostics only with --verbose
     head = out.split("per well")[0].splitlines()
     assert head[0].startswith("fitted on 8 core(s)") and head[1].startswith("tract graph:")

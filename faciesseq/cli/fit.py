@@ -220,7 +220,7 @@ def _graph_line(model, verbose: bool = False) -> str:
             if chosen["n_forbidden"]
             else " (permissive)"
         )
-    return f"tract graph: {order}, cyclic; skips: {skips}{why}"
+    return f"tract graph: {order}, cyclic; tracts that may be absent: {skips}{why}"
 
 
 def _graph_selection_line(model) -> str | None:
