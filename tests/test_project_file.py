@@ -238,3 +238,14 @@ def test_a_source_file_states_its_units_as_a_units_column_would(tmp_path):
     with pytest.raises(Exception, match="got 'fathoms'") as found:
         load_source_file(bad)
     assert "bad.yaml" in str(found.value)
+
+
+@pytest.mark.parametrize(
+    ("name", "said"),
+    [("scheme-shoreface.yaml", "a facies scheme"), ("tracts-default.yaml", "a tract model")],
+)
+def test_a_scheme_given_as_the_source_is_named_for_what_it_is(capsys, name, said):
+    config = Path(__file__).resolve().parents[1] / "configs" / name
+    code, _, err = _run(capsys, ["markov", config])
+    assert code == 2
+    assert f"this is {said}, not a source of cores" in err and len(err.strip().splitlines()) == 1

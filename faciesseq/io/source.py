@@ -67,6 +67,17 @@ def load_source_file(path: Path) -> SourceSpec:
     if not isinstance(data, Mapping):
         raise ConfigError("a source file must be a mapping with 'path' or 'url'", file=file)
     unknown = set(data) - set(SOURCE_KEYS)
+    if "facies" in unknown or "tracts" in unknown:
+        what, option = (
+            ("a facies scheme", "--scheme")
+            if "facies" in unknown
+            else ("a tract model", "--tracts")
+        )
+        raise ConfigError(
+            f"this is {what}, not a source of cores: give it with {option} and the cores "
+            "as the source",
+            file=file,
+        )
     if unknown:
         raise ConfigError(
             f"unknown key(s) {sorted(map(str, unknown))}; expected some of {list(SOURCE_KEYS)}",
