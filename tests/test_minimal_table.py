@@ -201,3 +201,12 @@ def test_a_tract_model_of_its_own_is_not_given_the_default_models_numbers(tmp_pa
     decoded = pd.read_csv(out / "tracts.csv", comment="#")
     assert set(decoded["tract"]) <= {"RST", "TST"}
     assert {"p_RST", "p_TST"} <= set(decoded.columns)
+
+
+def test_a_labels_column_named_in_another_case_is_suggested(tmp_path, capsys):
+    source = _table(tmp_path, ["core", "top", "base", "facies", "tract"], 3)
+    args = ["fit", str(source), "--scheme", SCHEME, "-o", str(tmp_path / "m.json")]
+    assert main([*args, "--labels", "Tract"]) == 2
+    err = capsys.readouterr().err
+    assert "no column 'Tract' for --labels" in err and "did you mean --labels tract?" in err
+    assert not (tmp_path / "m.json").exists()
