@@ -77,9 +77,15 @@ def labelled_rank_range(successions: SuccessionTable, model, labels: str | None)
     codes = beds["facies"].astype(str)[keep]
     thickness = beds["thickness"][keep].groupby([core[keep], codes]).sum()
     mean = _mean_ranks(thickness, ranks)
-    if mean.empty:
+    if len(mean) < LABELLED_CORES_FOR_RANGE:
         return {}
     return {"labelled_mean_rank": [float(mean.min()), float(mean.max())]}
+
+
+#: Fewest labelled cores whose range of mean ranks decode reads: the rule was measured
+#: with three; two labelled cores make a range of two values, which named a new user's
+#: held-out core that then read 1.00 (2026-12-05).
+LABELLED_CORES_FOR_RANGE = 3
 
 
 class DecodedBeds:

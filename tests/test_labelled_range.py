@@ -52,7 +52,7 @@ def _table(rng, spec) -> pd.DataFrame:
 def files(tmp_path):
     rng = np.random.default_rng(3)
     train = _table(rng, [("W1", 3, 1), ("W2", 3, 0), ("W3", 3, 1), ("W4", 4, 1)])
-    train.loc[train["core"].isin(["W3", "W4"]), "tract"] = None  # two labelled cores
+    train.loc[train["core"] == "W4", "tract"] = None  # three labelled cores
     near = train[train["core"] == "W1"].assign(core="near")  # a labelled core's beds
     distal = _table(rng, [("distal", 4, 3)])
     decode = pd.concat([near, distal], ignore_index=True).drop(columns="tract")
@@ -82,9 +82,13 @@ def test_the_range_is_the_labelled_cores_mean_ranks(files):
 
     table = CoreSet.from_frame(train, units="m").succession_table("intervals")
     got = labelled_rank_range(table, _Model(), "tract")["labelled_mean_rank"]
-    expected = _mean_rank(train[train["core"].isin(["W1", "W2"])])
+    expected = _mean_rank(train[train["core"].isin(["W1", "W2", "W3"])])
     assert got == pytest.approx([expected.min(), expected.max()])
     assert labelled_rank_range(table, _Model(), None) == {}
+    # two labelled cores make a range of two values, where the rule was not measured
+    two = train.assign(tract=train["tract"].where(train["core"] != "W3"))
+    table = CoreSet.from_frame(two, units="m").succession_table("intervals")
+    assert labelled_rank_range(table, _Model(), "tract") == {}
 
 
 def test_decode_names_the_cores_outside_the_range(files, tmp_path, capsys):
