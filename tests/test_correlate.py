@@ -347,3 +347,14 @@ def test_wells_at_one_position_are_a_warning_naming_them():
     assert "A, B, C stand at one position" in str(problem) and "wells.csv" in str(problem)
     apart = wells_from_frame(frame.assign(x=[0.0, 1.0, 2.0]))
     assert not [p for p in apart.problems if p.kind == "wells-same-position"]
+
+
+def test_correlate_from_python_converts_elevations_stated_in_the_other_unit():
+    from faciesseq.correlation.chain import well_frame
+
+    frame = pd.DataFrame(
+        {"core": ["A", "B"], "distance": [0.0, 1.0], "elevation_ft": [100.0, 50.0]}
+    )
+    assert well_frame(frame, "m")["elevation"].tolist() == pytest.approx([30.48, 15.24])
+    assert well_frame(frame)["elevation"].tolist() == [100.0, 50.0]  # units not given
+    assert well_frame(wells_from_frame(frame), "ft")["elevation"].tolist() == [100.0, 50.0]

@@ -36,7 +36,7 @@ from faciesseq.correlation.align import (
     disputed_ties,
     tie_confidence,
 )
-from faciesseq.correlation.wells import WellTable, wells_from_frame
+from faciesseq.correlation.wells import WellTable, in_depth_units, wells_from_frame
 
 if TYPE_CHECKING:
     from faciesseq.interpretation import Interpretation
@@ -220,6 +220,8 @@ def correlate(
     extents: Mapping[str, tuple[float, float]] | pd.DataFrame,
     wells: pd.DataFrame | WellTable,
     options: AlignmentOptions | None = None,
+    *,
+    units: str | None = None,
 ) -> Correlation:
     """Correlate the surface picks of the wells of each section.
 
@@ -242,6 +244,10 @@ def correlate(
         extent are left out.
     options
         Alignment costs.
+    units
+        The cores' depth units (``m`` or ``ft``): a wells table whose column names state
+        the other unit for its elevations or datum depths (``elevation (ft)``) is
+        converted to them; ``None`` reads them as given.
 
     Returns
     -------
@@ -253,7 +259,7 @@ def correlate(
     """
     options = options or AlignmentOptions()
     extents = _extents(extents)
-    wells = _wells_along_sections(well_frame(wells), extents)
+    wells = _wells_along_sections(well_frame(wells, units), extents)
     columns = _columns(picks, extents)
     pick_rows, tie_rows, untied_rows = [], [], []
     for section, group in wells.groupby("section", sort=True):
@@ -303,21 +309,7 @@ def correlate_interpretation(
     beds = interpretation.beds
     spans = beds.groupby("core", sort=False).agg(top=("top", "min"), base=("base", "max"))
     units = next((core.units for core in interpretation), None)
-    return correlate(interpretation.picks_table(), spans, _in_units(wells, units), options)
-
-
-def _in_units(wells: pd.DataFrame | WellTable, units: str | None) -> pd.DataFrame | WellTable:
-    """A wells table whose column names state the units of its elevations or datum
-    depths (``elevation (ft)``), in the cores' ``units``
-    (:func:`~faciesseq.correlation.wells.in_depth_units`); others as they are."""
-    from faciesseq.correlation.wells import in_depth_units
-
-    if isinstance(wells, pd.DataFrame) and not {"core", "section", "position"} <= set(wells):
-        table = wells_from_frame(wells)
-        for problem in table.problems:
-            warnings.warn(str(problem), stacklevel=4)
-        wells = table
-    return in_depth_units(wells, units) if isinstance(wells, WellTable) else wells
+    return correlate(interpretation.picks_table(), spans, wells, options, units=units)
 
 
 def _extents(extents) -> dict[str, tuple[float, float]]:
@@ -341,12 +333,14 @@ def _extents(extents) -> dict[str, tuple[float, float]]:
     return dict(extents)
 
 
-def well_frame(wells: pd.DataFrame | WellTable) -> pd.DataFrame:
+def well_frame(wells: pd.DataFrame | WellTable, units: str | None = None) -> pd.DataFrame:
     """The checked frame of a wells table (``core, section, position`` ...): that of a
     :class:`WellTable`; a data frame already so checked as it is; any other data frame
-    checked by :func:`wells_from_frame`, its warnings issued as Python warnings."""
+    checked by :func:`wells_from_frame`, its warnings issued as Python warnings. With
+    ``units``, elevations and datum depths whose column names stated the other unit
+    are converted to them (:func:`~faciesseq.correlation.wells.in_depth_units`)."""
     if isinstance(wells, WellTable):
-        return wells.frame
+        return in_depth_units(wells, units).frame
     if not isinstance(wells, pd.DataFrame):
         raise TypeError(
             "wells must be a wells table (a DataFrame, or the WellTable of read_wells), "
@@ -357,7 +351,7 @@ def well_frame(wells: pd.DataFrame | WellTable) -> pd.DataFrame:
     table = wells_from_frame(wells)
     for problem in table.problems:
         warnings.warn(str(problem), stacklevel=3)
-    return table.frame
+    return in_depth_units(table, units).frame
 
 
 def _wells_along_sections(

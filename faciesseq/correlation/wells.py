@@ -145,13 +145,13 @@ def _depth_column(frame: pd.DataFrame, role: str, file: str) -> tuple[str | None
     """The column of ``role`` (``elevation`` or ``datum_depth``) and the unit its name
     states (``elevation (ft)``: ``ft``; read as a depth column's name is,
     :func:`faciesseq.io.columns.normalise_units`), or ``None``."""
-    from faciesseq.io.columns import _split_unit, normalise_units
+    from faciesseq.io.columns import normalise_units, split_unit
 
     col = _column(frame, (role,))
     if col is not None:
         return col, None
     for c in frame.columns:
-        name, unit = _split_unit(str(c).strip())
+        name, unit = split_unit(str(c).strip())
         if unit is not None and name.strip().lower().replace(" ", "_") == role:
             return c, normalise_units(unit, where=file)
     return None, None

@@ -115,7 +115,7 @@ def _key(name: str) -> str:
     return re.sub(r"[^0-9a-z]+", "", name.lower())
 
 
-def _split_unit(name: str) -> tuple[str, str | None]:
+def split_unit(name: str) -> tuple[str, str | None]:
     """``"Depth (ft)"`` -> ``("Depth", "ft")``; ``"top_m"`` -> ``("top", "m")``."""
     m = _UNIT_SUFFIX.match(name)
     if m and m.group("unit").strip().lower() in _UNIT_WORDS:
@@ -201,7 +201,7 @@ def match_columns(
         for c in names:
             if c in taken:
                 continue
-            base, _ = _split_unit(c)
+            base, _ = split_unit(c)
             if _key(base) in variants or _key(c) in variants:
                 hits.append(c)
         if len(hits) > 1:
@@ -216,7 +216,7 @@ def match_columns(
     units: str | None = None
     for role in DEPTH_ROLES:
         if role in roles:
-            _, unit = _split_unit(roles[role])
+            _, unit = split_unit(roles[role])
             if unit is not None:
                 found = normalise_units(unit, where=file)
                 if units is not None and found != units:
