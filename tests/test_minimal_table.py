@@ -56,6 +56,8 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     no_contacts = "no contact types" in printed
     assert no_contacts == (labelled is None and "contact" not in extra)
     assert ("no bed was labelled" in printed) == (labelled is None)
+    # the per-well mean probability of a fit without labels is said to be no accuracy
+    assert ("not a measured accuracy" in printed) == (labelled is None)
     out = tmp_path / "decoded"
     assert main(["decode", str(model), str(source), "-o", str(out)]) == 0
     # the model file keeps the fit's cautions, and decode repeats them
@@ -64,6 +66,7 @@ def test_minimal_table_fits_and_decodes(tmp_path, capsys, extra, labelled):
     printed = capsys.readouterr().out
     assert ("no contact types" in printed) == no_contacts
     assert ("no bed was labelled" in printed) == (labelled is None)
+    assert ("not a measured accuracy" in printed) == (labelled is None)
     tracts = pd.read_csv(out / "tracts.csv", comment="#")
     assert len(tracts) > 0
     assert tracts["tract"].isin(["HST", "FSST", "LST", "TST"]).all()
