@@ -259,8 +259,8 @@ def test_decode_plot_of_a_320_character_core_name(database, tmp_path, capsys):
 
 
 def test_figure_names_are_safe_short_and_distinct():
-    from faciesseq.cli.decode import figure_name
     from faciesseq.io.writer import MAX_STEM as MAX_NAME
+    from faciesseq.io.writer import safe_stem as figure_name
 
     assert figure_name("S-71-1") == "S-71-1"
     assert figure_name("A/B") == "A_B"
@@ -524,3 +524,12 @@ def test_las_files_of_core_names_differing_only_in_case_differ_in_more_than_case
     write_cores(read_cores(path, units="m"), out, format="las")
     names = [p.name for p in out.iterdir()]
     assert len({n.casefold() for n in names}) == 2, names
+
+
+def test_file_stems_of_one_folder_differ_in_more_than_case():
+    # Windows and macOS file systems do not tell A_1.png from a_1.png (common practice)
+    from faciesseq.io.writer import FileStems
+
+    stems = FileStems()
+    first, second, third = stems("A_1"), stems("a/1"), stems("")
+    assert first == "A_1" and second.casefold() != first.casefold() and third == "core"

@@ -121,7 +121,7 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
 def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
-    from faciesseq.io.writer import safe_stem
+    from faciesseq.io.writer import FileStems
     from faciesseq.report.section import hang_section, hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
@@ -139,12 +139,11 @@ def run(args: argparse.Namespace) -> int:
     with new_folder(out) as temp:
         corr.to_frame().to_csv(temp / "correlation.csv", index=False, float_format="%.6g")
         corr.ties.to_csv(temp / "ties.csv", index=False, float_format="%.6g")
-        used: set[str] = set()
+        stems = FileStems()
         for section in sorted(corr.wells["section"].unique()):
             # one section without a name in the wells table: section.png, not section-section.png
             unnamed = section == "section" and corr.wells["section"].nunique() == 1
-            stem = safe_stem("section" if unnamed else f"section-{section}", used)
-            used.add(stem.casefold())
+            stem = stems("section" if unnamed else f"section-{section}")
             datum, note = hanging_datum(corr, section, args.datum)
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")

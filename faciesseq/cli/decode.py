@@ -6,7 +6,6 @@ import argparse
 import json
 import sys
 import warnings
-from collections.abc import Collection
 from pathlib import Path
 
 from faciesseq.cli._common import (
@@ -255,14 +254,6 @@ def _agreement(interp, column: str):
     )
 
 
-def figure_name(core: str, used: Collection[str] = ()) -> str:
-    """A safe, short file name (without suffix) for a core's figure; see
-    :func:`faciesseq.io.writer.safe_stem` (long or clashing names get a hash)."""
-    from faciesseq.io.writer import safe_stem
-
-    return safe_stem(core, used)
-
-
 class _Written:
     """What the summary needs of the parts written: the first cores (those the text
     lists), every core's counts, the agreement with the interpreter's column and,
@@ -411,15 +402,15 @@ def _extra_outputs(args, scheme, tract_model, samples):
 
 
 def _write_strip_logs(interp, figures: Path, scheme, tract_model) -> None:
+    from faciesseq.io.writer import FileStems
     from faciesseq.report.striplog import strip_log
     from faciesseq.report.style import missing_glyphs_once
 
     figures.mkdir()
-    used: set[str] = set()
+    stems = FileStems()
     with missing_glyphs_once():  # one line for every figure, not one per character
         for core in interp:
-            name = figure_name(core.core, used)
-            used.add(name.casefold())
+            name = stems(core.core)
             strip_log(
                 core,
                 scheme,

@@ -138,10 +138,9 @@ def write_cores(
         if path.exists() and not path.is_dir():
             raise ConfigError("exists and is not a folder", file=str(path))
         with new_folder(path) as tmpdir:
-            used: set[str] = set()
+            stems = FileStems()
             for core in cores:
-                stem = _safe(core.name, used)
-                used.add(stem.casefold())
+                stem = stems(core.name)
                 write_las(
                     core, tmpdir / f"{stem}.las", step if step is not None else steps.get(core.name)
                 )
@@ -163,9 +162,7 @@ def safe_stem(name: str, used: Collection[str] = ()) -> str:
     Letters, digits, ``-``, ``_`` and ``.`` are kept, anything else becomes
     ``_``, leading dots are dropped; a stem longer than :data:`MAX_STEM` bytes,
     or one already in ``used``, is shortened and given a hash of the full name.
-    Callers add each stem they take to ``used`` case-folded (``str.casefold``): the
-    file systems of Windows and macOS do not tell ``A_1.png`` from ``a_1.png``, so
-    one core's file would replace another's.
+    :class:`FileStems` keeps ``used`` for the files of one folder.
     """
     safe = "".join(c if c.isalnum() or c in "-_." else "_" for c in name).lstrip(".") or "_"
     taken = safe in used or safe.casefold() in used
@@ -178,5 +175,17 @@ def safe_stem(name: str, used: Collection[str] = ()) -> str:
     return safe
 
 
-def _safe(name: str, used: Collection[str] = ()) -> str:
-    return safe_stem(name, used) if name else "core"
+class FileStems:
+    """Distinct safe file stems for the files of one folder (:func:`safe_stem`), each
+    stem taken remembered case-folded: the file systems of Windows and macOS do not
+    tell ``A_1.png`` from ``a_1.png``, so one core's file would replace another's.
+    ``empty`` names a file whose name is empty."""
+
+    def __init__(self, empty: str = "core") -> None:
+        self.used: set[str] = set()
+        self.empty = empty
+
+    def __call__(self, name: str) -> str:
+        stem = safe_stem(name, self.used) if name else self.empty
+        self.used.add(stem.casefold())
+        return stem

@@ -286,7 +286,7 @@ def write_las_files(
     says the same.
     """
     from faciesseq._optional import import_optional
-    from faciesseq.io.writer import safe_stem
+    from faciesseq.io.writer import FileStems
 
     lasio = import_optional("lasio", "writing LAS files (decode --format las)")
     if step is None:
@@ -316,11 +316,9 @@ def write_las_files(
     tract_number = {code: k for k, (code, _) in enumerate(tracts, start=1)}
     folder.mkdir()
     written: list[Path] = []
-    used: set[str] = set()
+    stems = FileStems()
     for core in interp:
-        stem = safe_stem(core.core, used) if core.core else "core"
-        used.add(stem.casefold())
-        path = folder / f"{stem}.las"
+        path = folder / f"{stems(core.core)}.las"
         las = _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number)
         las.other = _other_text(interp, core.units, step, how, facies, tracts, missing)
         with open(path, "w", encoding="utf-8", newline="\n") as handle:
