@@ -184,8 +184,6 @@ def test_true_surfaces_of_a_simulated_section_are_tied_to_their_own_age():
 def test_elevation_datum_by_hand():
     """Kelly bushing 100 m up, a depth of 250 m lies 250 - 100 = 150 m below sea level;
     a well whose reference stands at 0 keeps its depths."""
-    from faciesseq.report.section import datum_shifts
-
     picks = pd.DataFrame(
         {"core": ["HIGH", "LOW"], "surface": "MFS", "depth": [250.0, 150.0], "probability": 1.0}
     )
@@ -193,29 +191,27 @@ def test_elevation_datum_by_hand():
         {"core": ["HIGH", "LOW"], "section": "s", "position": [0.0, 1.0], "elevation": [100.0, 0.0]}
     )
     corr = correlate(picks, {"HIGH": (250.0, 260.0), "LOW": (150.0, 160.0)}, wells)
-    shifts, label = datum_shifts(corr, "s", "elevation")
+    shifts, label = _shifts(corr, "s", "elevation")
     drawn = {c: d - shifts[c] for c, d in zip(picks["core"], picks["depth"])}
     assert drawn == {"HIGH": 150.0, "LOW": 150.0}
     assert label == "depth below datum (elevation 0)"
 
 
 def test_datum_choices_shift_the_wells():
-    from faciesseq.report.section import datum_shifts
-
     picks, extents, wells = _picks_section(seed=2, drop=0.0)
     wells = wells.assign(elevation=[5.0, 4.0, 3.0, 2.0, 1.0])
     corr = correlate(picks.drop(columns="truth"), extents, wells)
-    shifts, label = datum_shifts(corr, "dip", "depth")
+    shifts, label = _shifts(corr, "dip", "depth")
     assert set(shifts.values()) == {0.0}
     assert label == "depth as measured"  # not shifted: no claim of a core-top datum
-    shifts, _ = datum_shifts(corr, "dip", "elevation")
+    shifts, _ = _shifts(corr, "dip", "elevation")
     assert shifts["W0"] == 5.0
-    shifts, label = datum_shifts(corr, "dip", "MFS")
+    shifts, label = _shifts(corr, "dip", "MFS")
     mfs = corr.picks[corr.picks["surface"] == "MFS"]
     best = mfs.groupby("surface_id")["core"].size().max()
     assert best == 5 and label.startswith("depth below MFS-")
     sid = mfs["surface_id"].iloc[0]
-    shifts, _ = datum_shifts(corr, "dip", sid)
+    shifts, _ = _shifts(corr, "dip", sid)
     at = mfs[mfs["surface_id"] == sid].set_index("core")["depth"]
     assert all(shifts[c] == at[c] for c in at.index)
 
@@ -358,3 +354,11 @@ def test_correlate_from_python_converts_elevations_stated_in_the_other_unit():
     assert well_frame(frame, "m")["elevation"].tolist() == pytest.approx([30.48, 15.24])
     assert well_frame(frame)["elevation"].tolist() == [100.0, 50.0]  # units not given
     assert well_frame(wells_from_frame(frame), "ft")["elevation"].tolist() == [100.0, 50.0]
+
+
+def _shifts(corr, section, datum):
+    """The datum depth of each well and the depth axis' label (:func:`hang_section`)."""
+    from faciesseq.report.section import hang_section
+
+    hanging = hang_section(corr, section, datum)
+    return hanging.shift, hanging.label

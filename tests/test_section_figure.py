@@ -218,10 +218,8 @@ def _column_beds(extents: dict) -> pd.DataFrame:
 
 def test_datum_is_not_carried_across_an_untied_pair():
     # D took B's MFS depth (12.5 m) across the untied pair C-D, as if its MFS were known
-    from faciesseq.report.section import datum_shifts
-
     corr = _partly_untied_correlation()
-    shifts, _ = datum_shifts(corr, "dip", "MFS")
+    shifts, _ = _shifts(corr, "dip", "MFS")
     # without the drawn columns D keeps its depths as measured
     assert shifts["C"] == 12.5 and shifts["D"] == 0.0
     from faciesseq.report.section import hang_section
@@ -269,3 +267,11 @@ def test_page_and_appendix_name_the_wells_not_hung_on_the_datum():
         b.caption for sub in section.subsections for b in sub.blocks if hasattr(b, "figure")
     ]
     assert len(captions) == 1 and data["hanging_note"] in captions[0]
+
+
+def _shifts(corr, section, datum):
+    """The datum depth of each well and the depth axis' label (:func:`hang_section`)."""
+    from faciesseq.report.section import hang_section
+
+    hanging = hang_section(corr, section, datum)
+    return hanging.shift, hanging.label

@@ -33,7 +33,6 @@ __all__ = [
     "CAPTION",
     "DEFAULT_SECTION",
     "Hanging",
-    "datum_shifts",
     "distance_label",
     "hang_section",
     "hanging_datum",
@@ -132,15 +131,6 @@ class Hanging:
             f"{'them' if len(self.unhung) > 1 else 'it'} to the wells that have it; "
             "core top drawn at the datum line"
         )
-
-
-def datum_shifts(
-    correlation, section: str, datum: str, tracts: pd.DataFrame | None = None
-) -> tuple[dict[str, float], str]:
-    """Depth of the datum in each well of ``section`` (subtracted from depths), and its
-    label: the ``shift`` and ``label`` of :func:`hang_section`."""
-    hanging = hang_section(correlation, section, datum, tracts)
-    return hanging.shift, hanging.label
 
 
 def hang_section(
@@ -354,7 +344,7 @@ def section_plot(
     tracts
         Decoded tract column of every core: ``core``, ``top``, ``base``, ``tract``.
     datum
-        See :func:`datum_shifts`.
+        See :func:`hang_section`.
     units, position_label
         Depth units, and the wells table's position column (the axis label with
         its units, :func:`distance_label`).
