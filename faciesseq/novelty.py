@@ -232,12 +232,10 @@ def _unseen(
     total = sum(facies[c] for c in unseen)
     tail = f"{total} of {sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
     if first:
-        listed = ", ".join(_placed(c, facies[c], cores.get(c, 0), first, unit) for c in unseen[:10])
-        if len(unseen) > 10:
-            listed += f" and {len(unseen) - 10} more"
+        placed = {c: _placed(c, facies[c], cores.get(c, 0), first, unit) for c in unseen}
         return (
             f"facies code(s) never seen in training, with their {unit}, cores and first "
-            f"place: {listed}; {tail}"
+            f"place: {_listed(placed, unseen)}; {tail}"
         )
     counted = any(cores[c] for c in unseen)  # the cores that hold them, beside the beds
     shown = {c: f"{facies[c]}, {cores[c]} core(s)" if counted else facies[c] for c in unseen}
@@ -249,11 +247,12 @@ def _unseen(
 
 
 def _placed(code: str, n: int, n_cores: int, first: Mapping[str, str], unit: str) -> str:
-    """``XYZ (1 bed, first at data row 21, core NU-01, depth 1251.40 m)``."""
+    """What :func:`_listed` shows in brackets after a code: ``1 bed, first at data row
+    21, core NU-01, depth 1251.40 m``."""
     noun = unit if n != 1 else unit.removesuffix("s")
     text = f"{n} {noun}" + (f" in {n_cores} core(s)" if n_cores > 1 else "")
     place = first.get(code)
-    return f"{code} ({text}" + (f", first at {place})" if place else ")")
+    return text + (f", first at {place}" if place else "")
 
 
 def _listed(counts: Mapping, unseen: list[str], shown: int = 10) -> str:
