@@ -37,7 +37,9 @@ def _wells(interp, scheme, limit: int | None = None) -> list[dict]:
 
 
 def _number(value: float) -> str:
-    return f"{value:.4g}"
+    """A thickness with two decimals, so that a column of wells lines up (four
+    significant figures printed 3.753 beside 33.95, and 1.235e+04 for a thick tract)."""
+    return f"{value:.2f}"
 
 
 def _line(well: dict) -> str:
