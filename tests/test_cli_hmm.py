@@ -51,6 +51,8 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     assert rc == 0
     out = capsys.readouterr().out
     assert "agreement with the interpreter's 'tract' column" in out
+    # the cores were in the labelled fit: said, so that the figure is not read as accuracy
+    assert "all of them in the model's fit" in out and "not a test" in out
     tracts = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)  # the '# ' line
     assert tracts.columns.tolist() == [
         "core",
@@ -71,6 +73,45 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     agreement = pd.read_csv(tmp_path / "out" / "agreement.csv")
     assert len(agreement) == 4  # the labelled cores only
     assert agreement["agreement_beds"].mean() > 0.7
+
+
+def test_decode_says_which_labelled_cores_were_in_the_fit(database, tmp_path, capsys):
+    cores = pd.read_csv(database / "cores.csv")
+    names = list(dict.fromkeys(cores["core"]))
+    train, other = tmp_path / "train.csv", tmp_path / "other.csv"
+    cores[cores["core"].isin(names[:5])].to_csv(train, index=False)
+    cores[cores["core"].isin(names[4:])].to_csv(other, index=False)  # one core in both
+    model = tmp_path / "model.json"
+    scheme = str(database / "scheme.yaml")
+    fit = ["fit", str(train), "--scheme", scheme, "--labels", "tract", "--restarts", "1"]
+    assert main([*fit, "-o", str(model)]) == 0
+    capsys.readouterr()
+    assert main(["decode", str(model), str(other), "-o", str(tmp_path / "out")]) == 0
+    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("agreement"))
+    # cores 5 and 7 carry labels (every other core of the synthetic database); 5 was fitted
+    assert pd.read_csv(tmp_path / "out" / "agreement.csv")["core"].tolist() == names[4:7:2]
+    assert "in 2 core(s); 1 of them in the model's fit" in line, line
+    capsys.readouterr()
+    assert (
+        main(
+            [
+                "decode",
+                str(model),
+                str(cores_of(cores, names[6:], tmp_path)),
+                "-o",
+                str(tmp_path / "out2"),
+            ]
+        )
+        == 0
+    )
+    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("agreement"))
+    assert "model's fit" not in line, line  # core 7 alone: never seen by the fit
+
+
+def cores_of(cores: pd.DataFrame, names: list[str], folder) -> object:
+    path = folder / "some.csv"
+    cores[cores["core"].isin(names)].to_csv(path, index=False)
+    return path
 
 
 def test_decode_json_and_parquet(database, tmp_path, capsys):

@@ -627,6 +627,22 @@ def _overall_agreement(agreement) -> float | None:
     return float((agreement["agreement_beds"] * w).sum() / w.sum())
 
 
+def _fitted_on(model, agreement) -> str:
+    """What the agreement is worth where its cores were in the model's own fit: their
+    labelled beds were held to their labels there, so agreeing with them tests nothing
+    (a new user read 100 % on the training cores as the model's accuracy)."""
+    if not getattr(model, "n_labelled_", 0):
+        return ""
+    seen = [c for c in agreement["core"] if c in set(model.cores_)]
+    if not seen:
+        return ""
+    which = "all of them" if len(seen) == len(agreement) else f"{len(seen)} of them"
+    return (
+        f"; {which} in the model's fit, whose labelled beds it was given: agreement with its "
+        "own training labels, not a test (faciesseq validate cross-validates by core)"
+    )
+
+
 def _print_text(args, model, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_summary
     from faciesseq.hmm.cautions import fit_cautions
@@ -649,7 +665,7 @@ def _print_text(args, model, scheme, written: _Written) -> None:
         print(
             f"agreement with the interpreter's {args.labels!r} column: "
             f"{100 * _overall_agreement(agreement):.1f} % of {int(agreement['beds'].sum())} "
-            f"labelled beds in {len(agreement)} core(s)"
+            f"labelled beds in {len(agreement)} core(s)" + _fitted_on(model, agreement)
         )
     for caution in fit_cautions(model):
         print(f"{caution} (the model's own fit)")
