@@ -584,3 +584,37 @@ def test_keep_labels_json_summary_counts_the_clamped_beds(second_round, work, ca
     document = json.loads(capsys.readouterr().out)
     kept = pd.read_csv(folder / "json" / "tracts.csv", skiprows=1)
     assert document["clamped_beds"] == int(kept["clamped"].sum()) > 0
+
+
+def test_a_review_of_one_new_core_says_the_fit_would_leave_the_training_cores_out(
+    work, tmp_path, capsys, monkeypatch
+):
+    # a new user decoded one new core, reviewed it and ran the fit suggested: the model was
+    # refitted on that core alone, and its -o stopped at the model.json already there
+    cores = pd.read_csv(work / "cores.csv")
+    one = cores[cores["core"] == cores["core"].iloc[-1]]
+    new = tmp_path / "new.csv"
+    one.to_csv(new, index=False)
+    decoded = tmp_path / "dec"
+    assert (
+        main(["decode", str(work / "model.json"), str(new), "--review-sheet", "-o", str(decoded)])
+        == 0
+    )
+    sheet = pd.read_csv(decoded / "sheet.csv", skiprows=1, dtype={"geologist_tract": object})
+    sheet["geologist_tract"] = sheet["decoded_tract"].astype(object)
+    record = (decoded / "sheet.csv").read_text().split("\n", 1)[0]
+    (tmp_path / "filled.csv").write_text(record + "\n" + sheet.to_csv(index=False))
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "model.json").write_text("{}")  # a model of an earlier round, in the way
+    argv = ["relabel", tmp_path / "filled.csv", new, "-o", tmp_path / "labelled.csv"]
+    code, stdout, err = _run(capsys, argv)
+    assert code == 0, err
+    (line,) = [x for x in stdout.splitlines() if "next:" in x]
+    assert line.endswith("-o model-2.json"), line
+    assert "note: the model was fitted on 4 core(s), 3 of them not in this table" in stdout
+    # relabelling the whole training source: nothing left out, nothing said
+    code, stdout, err = _run(
+        capsys, ["relabel", tmp_path / "filled.csv", work / "cores.csv", "-o", tmp_path / "all.csv"]
+    )
+    assert code == 0, err
+    assert "not in this table" not in stdout

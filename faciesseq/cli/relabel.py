@@ -194,8 +194,42 @@ def _next_fit(args: argparse.Namespace, result, scheme: str | None) -> str:
         words += ["--scheme", scheme]
     if args.tracts:
         words += ["--tracts", args.tracts]
-    words += ["--labels", result.labels, "-o", "model.json"]
+    words += ["--labels", result.labels, "-o", _free_name("model")]
     return shlex.join(words)
+
+
+def _free_name(stem: str) -> str:
+    """``model.json``, or ``model-2.json``, ``model-3.json``... where the name is taken
+    in the working folder, so that the fit suggested does not stop at an existing file
+    (it refuses to replace one without --force)."""
+    name, k = f"{stem}.json", 1
+    while Path(name).exists():
+        k += 1
+        name = f"{stem}-{k}.json"
+    return name
+
+
+def _training_cores_left_out(record: dict | None, cores) -> str | None:
+    """A line where the sheet's model was fitted on cores the labelled table does not
+    hold: the fit suggested would see only the table's cores (a review of one newly
+    decoded core would otherwise refit on that core alone), or None."""
+    model = (record or {}).get("model", "none")
+    doc = _model_document(model) if model != "none" else None
+    try:
+        trained = [str(c) for c in doc["training"]["cores"]]
+    except (KeyError, TypeError):
+        return None
+    have = set(cores.names)
+    missing = [c for c in trained if c not in have]
+    if not missing:
+        return None
+    shown = ", ".join(missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
+    return (
+        f"note: the model was fitted on {len(trained)} core(s), {len(missing)} of them not in "
+        f"this table ({shown}): the fit above reads only the {len(have)} core(s) here; to "
+        "refit on all of them, give the fit one source holding both (the training table "
+        "with these rows added, or a folder of the two files)"
+    )
 
 
 def _report(result, output: str, next_fit: str, scheme: tuple[str | None, str]) -> list[str]:
@@ -260,6 +294,9 @@ def run(args: argparse.Namespace) -> int:
             f" (the source read without one); the fit below takes {scheme_file[0]}"
         )
     print("\n".join(_report(result, args.output, next_fit, scheme_file)))
+    left_out = _training_cores_left_out(settings.record, result.cores)
+    if left_out:
+        print(left_out)
     if settings.record is None:
         what = f"a damaged record ({settings.damaged})" if settings.damaged else "no record"
         print(
