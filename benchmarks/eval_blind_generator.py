@@ -227,7 +227,7 @@ def main():
             lab.loc[~lab["core"].isin(keep), "tract"] = ""
             lab.to_csv(os.path.join(wd, "train_semi.csv"), index=False)
             modes = {
-                "a_unsup_noscheme": (["train_min.csv"], []),
+                "a_unsup_noscheme": (["train_min.csv", "--suggest-ranks"], []),
                 "b_unsup_scheme": (
                     ["train_min.csv", "--scheme", "scheme.yaml"],
                     ["--scheme", "scheme.yaml"],

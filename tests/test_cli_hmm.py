@@ -391,6 +391,7 @@ def test_a_long_grid_decode_says_how_long_before_it_starts(database, tmp_path, c
 
     model = tmp_path / "grid.json"
     fit = ["fit", str(database / "cores.csv"), "--unit", "grid", "--step", "0.05"]
+    fit += ["--suggest-ranks"]  # no scheme, no labels: the order suggested is taken as it is
     assert main([*fit, "--restarts", "1", "--units", "m", "-o", str(model)]) == 0
     capsys.readouterr()
     said = []
@@ -443,7 +444,7 @@ def test_decode_core_decodes_only_the_named_cores(database, tmp_path, capsys, su
     table.to_csv(source, index=False, sep="," if suffix == ".csv" else "\t")
     model = tmp_path / "model.json"
     fit = ["fit", str(source), "--units", "m", "--restarts", "1", "--max-iter", "5"]
-    assert main([*fit, "-o", str(model)]) == 0
+    assert main([*fit, "--suggest-ranks", "-o", str(model)]) == 0
     names = list(dict.fromkeys(table["core"].astype(str)))
     wanted = [names[2], names[0]]
     capsys.readouterr()

@@ -45,8 +45,8 @@ def _cli_cautions(args: list[str], output: Path) -> list[str]:
 
 def test_a_python_fit_records_the_cautions_the_command_records(database, tmp_path, capsys):
     plain = database / "plain.csv"
-    # no scheme: the command suggests ranks from the data; Python asks for them
-    cli = _cli_cautions([str(plain)], tmp_path / "cli.json")
+    # no scheme: the command is asked for ranks suggested from the data, as Python asks
+    cli = _cli_cautions([str(plain), "--suggest-ranks"], tmp_path / "cli.json")
     out = capsys.readouterr().out
     cores = read_cores(plain)
     scheme = suggest_ranks(cores.succession_table("beds")).scheme()

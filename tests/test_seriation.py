@@ -303,3 +303,27 @@ def test_the_anchored_path_starts_at_the_facies_floods_bring_in():
     anchored = suggest_ranks(cycles, anchored=True)
     assert anchored.order()[-1] == "offshore"
     assert anchored.order() == ["coastal", "foreshore", "upper", "lower", "offshore"]
+
+
+def test_fit_refuses_an_order_without_a_clear_direction_where_nothing_names_the_tracts(
+    tmp_path, capsys
+):
+    # cycles that deepen and shallow one step at a time both ways (an invented table): the
+    # transitions cannot tell landward from basinward, and a new user's fit on such an
+    # order, read the wrong way round, named every tract wrongly
+    codes = ["A", "B", "C", "D", "E"]
+    rows, depth = [], 0.0
+    for core in ("S-1", "S-2", "S-3"):
+        walk = (codes + codes[-2:0:-1]) * 6
+        for code in walk:
+            rows.append((core, depth, depth + 1.0, code))
+            depth += 1.0
+    source = tmp_path / "symmetric.csv"
+    pd.DataFrame(rows, columns=["core", "top", "base", "facies"]).to_csv(source, index=False)
+    args = ["fit", str(source), "-o", str(tmp_path / "m.json"), "--restarts", "1"]
+    assert main(args) == 1
+    err = capsys.readouterr().err
+    assert "has no clear direction" in err and "--suggest-ranks" in err
+    assert len(err.strip().splitlines()) == 1 and not (tmp_path / "m.json").exists()
+    assert main([*args, "--suggest-ranks"]) == 0  # asked for: fitted, with the order printed
+    assert "direction unclear" in capsys.readouterr().err
