@@ -34,6 +34,7 @@ __all__ = [
     "SuccessionTable",
     "check_grid_step",
     "in_units",
+    "row_word",
     "to_metres",
 ]
 
@@ -47,6 +48,15 @@ PROVENANCE = ("_file", "_row")
 #: How a core is cut into the rows of a succession: amalgamated beds (runs of one
 #: facies), the described intervals as they are, or cells of a depth grid.
 UNITS = ("beds", "intervals", "grid")
+#: What the rows of each unit are called in the outputs.
+ROW_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
+
+
+def row_word(unit: object) -> str:
+    """What the rows of a succession of ``unit`` are called ("beds", "described
+    intervals", "grid cells"); "beds" for a unit not known (an older model file)."""
+    return ROW_WORDS.get(str(unit), "beds")
+
 
 #: Default tolerance (in depth units) below which two depths are "the same".
 DEPTH_TOL = 1e-6

@@ -57,8 +57,11 @@ def test_appendix_command_writes_the_folder_and_says_where(tmp_path, capsys, sma
     html = (out / "appendix.html").read_text(encoding="utf-8")
     assert "fitted to these cores with the default settings" in html
     assert str(small_source.parent) not in html  # no folder of the user's in the document
-    # the free parameters beside the beds they are fitted on
-    assert re.search(r"fitted on \d+ beds of \d+ cores with \d+ free parameters", html)
+    # the free parameters beside the rows they are fitted on: a labelled fit reads the
+    # described intervals, and says so (a new user read "265 beds" beside "128 beds")
+    assert re.search(
+        r"fitted on \d+ described intervals of \d+ cores with \d+ free parameters", html
+    )
     prov = json.loads((out / "provenance.json").read_text(encoding="utf-8"))
     source = next(r for r in prov["inputs"] if r["role"] == "source")
     assert source["sha256"] == sha256_file(small_source)

@@ -645,12 +645,13 @@ def _fitted_on(model, agreement) -> str:
 
 def _print_text(args, model, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_summary
+    from faciesseq.core import row_word
     from faciesseq.hmm.cautions import fit_cautions
 
     head, wells, agreement = written.summary()
     print(
         f"decoded {len(wells)} core(s), {int(wells['beds'].sum())} "
-        f"{ {'grid': 'grid cells', 'intervals': 'described intervals'}.get(model.unit_, 'beds') }; "
+        f"{row_word(model.unit_)}; "
         f"{int(wells['picks'].sum())} surface pick(s); "
         f"log-likelihood {sum(wells['log_likelihood'].tolist()):.3f}"
     )

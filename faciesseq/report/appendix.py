@@ -34,7 +34,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import CoreSet
+from faciesseq.core import CoreSet, row_word
 from faciesseq.errors import ConfigError, InputError
 from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.report.document import (
@@ -241,7 +241,6 @@ _HANDLED = {
 PROPORTION_DECIMALS = 3
 
 #: What a decoded row is, by the model's unit: the trade's words.
-UNIT_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
 
 
 def _depth_decimals(cores: CoreSet) -> int:
@@ -462,7 +461,7 @@ def _cores_section(
     _cores_intro_blocks(s, interpretation, scheme, tract_model, notes)
     summary_rows = []
     results["cores"] = {}
-    rows = UNIT_WORDS.get(str(interpretation.meta.get("unit", "beds")), "beds")
+    rows = row_word(interpretation.meta.get("unit", "beds"))
     for k, core in enumerate(interpretation, start=1):
         sub = s.sub(f"Core {core.core}")
         summary_rows.append(_core_summary_row(core, interpretation.tracts, rows))

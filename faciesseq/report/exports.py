@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import DEPTH_TOL
+from faciesseq.core import DEPTH_TOL, row_word
 from faciesseq.errors import ConfigError
 from faciesseq.interpretation import TOPS_COLUMNS
 
@@ -231,7 +231,7 @@ def beds_without_sample(interp, step: float) -> str | None:
     order = list(interp.tracts) + sorted(set(missed) - set(interp.tracts))
     which_tracts = ", ".join(f"{missed[t]} {t}" for t in order if t in missed)
     keep = tidy_step(thinnest * (1 + 1e-9)) if math.isfinite(thinnest) else step
-    rows = _ROW_WORDS.get(str(interp.meta.get("unit", "beds")), "beds")
+    rows = row_word(interp.meta.get("unit", "beds"))
     return (
         f"LAS step {step:g} {units} leaves {count} of {total} {rows} without a sample "
         f"({which_tracts}; the thinnest {thinnest:.3g} {units}): --las-step {keep:g} "
@@ -240,7 +240,6 @@ def beds_without_sample(interp, step: float) -> str | None:
 
 
 #: What the rows of an interpretation are, by the model's unit (``meta["unit"]``).
-_ROW_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
 
 
 def write_las_files(

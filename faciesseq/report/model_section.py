@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from faciesseq.core import row_word
 from faciesseq.report.document import (
     FigureBlock,
     Paragraph,
@@ -354,7 +355,7 @@ def model_seed(model: Any) -> str:
     return "seed not recorded"
 
 
-def parameters_note(n_parameters: int, n_beds: int) -> str:
+def parameters_note(n_parameters: int, n_beds: int, rows: str = "beds") -> str:
     """A caution when free parameters exceed a tenth of the beds they are fitted on, else ``""``.
 
     Ten observations per parameter is a common rule of thumb (common practice);
@@ -363,8 +364,8 @@ def parameters_note(n_parameters: int, n_beds: int) -> str:
     if n_beds <= 0 or n_parameters * 10 <= n_beds:
         return ""
     return (
-        f"The model has {n_parameters} free parameters for {n_beds} beds, more than one "
-        "for every ten beds: the training log-likelihood and BIC flatter it, and single "
+        f"The model has {n_parameters} free parameters for {n_beds} {rows}, more than one "
+        f"for every ten {rows}: the training log-likelihood and BIC flatter it, and single "
         "parameters (the emissions of rare facies above all) are held mostly by the "
         "Dirichlet prior, not by the data. Judge the model by its cross-validation on "
         "cores it was not fitted to."
@@ -400,7 +401,8 @@ def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict)
         Paragraph(
             f"{len(states.tracts)} systems tracts ({', '.join(states.tracts)}) in "
             f"{states.n_states} hidden states; emission pieces: {features}; fitted on "
-            f"{model.n_train_beds_} beds of {len(model.cores_)} cores with "
+            f"{model.n_train_beds_} {row_word(getattr(model, 'unit_', 'beds'))} of "
+            f"{len(model.cores_)} cores with "
             f"{model.n_parameters()} free parameters"
             + (
                 f", {model.n_labelled_} of them labelled by an interpreter"
@@ -414,7 +416,9 @@ def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict)
             + (f", BIC {format_value(bic)}." if bic is not None else ".")
         )
     )
-    crowded = parameters_note(model.n_parameters(), model.n_train_beds_)
+    crowded = parameters_note(
+        model.n_parameters(), model.n_train_beds_, row_word(getattr(model, "unit_", "beds"))
+    )
     if crowded:
         s.add(Paragraph(crowded, kind="note"))
     s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
@@ -647,11 +651,8 @@ def folds_text(validation: Any) -> str:
     )
 
 
-_UNIT_WORDS = {"beds": "beds", "intervals": "described intervals", "grid": "grid cells"}
-
-
 def _unit_word(settings: dict) -> str:
-    return _UNIT_WORDS.get(str(settings.get("unit", "beds")), "beds")
+    return row_word(settings.get("unit", "beds"))
 
 
 def _validation_score_blocks(val: Section, validation: Any, frames: dict) -> None:
