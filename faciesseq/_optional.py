@@ -1,10 +1,10 @@
 """Optional packages: the readers of some formats are installed as extras.
 
-``pip install faciesseq`` reads and writes CSV, TSV and Parquet. Excel
-workbooks need ``faciesseq[excel]`` (openpyxl), LAS files ``faciesseq[las]``
-(lasio) and databases ``faciesseq[sql]`` (SQLAlchemy, and psycopg2 for
-PostgreSQL); runs on a Dask cluster need ``faciesseq[dask]`` (distributed).
-A missing one is reported as one line naming the extra.
+``pip install faciesseq`` reads and writes CSV, TSV, Parquet and SQLite (with
+Python's own sqlite3). Excel workbooks need ``faciesseq[excel]`` (openpyxl), LAS
+files ``faciesseq[las]`` (lasio) and other databases ``faciesseq[sql]``
+(SQLAlchemy, and psycopg2 for PostgreSQL); runs on a Dask cluster need
+``faciesseq[dask]`` (distributed). A missing one is reported as one line naming the extra.
 """
 
 from __future__ import annotations

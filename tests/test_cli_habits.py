@@ -432,7 +432,7 @@ def test_the_package_never_imports_hmmlearn():
 
 @pytest.mark.parametrize(
     ("module", "extra", "suffix"),
-    [("openpyxl", "excel", ".xlsx"), ("lasio", "las", ".las"), ("sqlalchemy", "sql", ".sqlite")],
+    [("openpyxl", "excel", ".xlsx"), ("lasio", "las", ".las")],
 )
 def test_a_missing_optional_package_names_its_extra(
     module, extra, suffix, tmp_path, capsys, monkeypatch
@@ -443,6 +443,53 @@ def test_a_missing_optional_package_names_its_extra(
     code, out, err = _run(capsys, ["check", str(path)])
     assert code == 2 and out == "" and err.count("\n") == 1
     assert f'pip install "faciesseq[{extra}]"' in err and module in err
+
+
+def test_a_broken_sqlite_file_without_sqlalchemy_is_a_data_error(tmp_path, capsys, monkeypatch):
+    """SQLite is read by Python's own sqlite3: a bad file is the data's fault (exit 1)."""
+    path = tmp_path / "cores.sqlite"
+    path.write_bytes(b"whatever")
+    monkeypatch.setitem(sys.modules, "sqlalchemy", None)
+    code, out, err = _run(capsys, ["check", str(path)])
+    assert code == 1 and out == "" and err.count("\n") == 1
+    assert "database error: file is not a database" in err and "faciesseq[sql]" not in err
+
+
+def test_a_sqlite_file_is_read_without_sqlalchemy_as_sqlalchemy_reads_it(source, tmp_path):
+    """The base install reads the SQLite it writes (file, sqlite:/// URL, --table,
+    --query) without importing SQLAlchemy, into the table SQLAlchemy gives."""
+    from sqlalchemy import create_engine, text
+
+    from faciesseq.io import read_cores, write_cores
+
+    db = tmp_path / "cores.sqlite"
+    write_cores(read_cores(source), db, tables={"truth": pd.DataFrame({"core": ["QB-01"]})})
+    engine = create_engine(f"sqlite:///{db}")
+    with engine.connect() as conn:
+        expected = pd.read_sql_query(text("SELECT * FROM intervals"), conn).astype(object)
+    engine.dispose()
+    got = tmp_path / "got.pkl"
+    script = (
+        BLOCKER
+        + f"""
+from faciesseq.io.sql import read_sql
+db, url = {str(db)!r}, {"sqlite:///" + str(db)!r}
+assert main(["check", db]) == 0
+assert main(["check", url, "--table", "intervals"]) == 0
+assert main(["check", db, "--query", "SELECT * FROM intervals WHERE core = 'QB-01'"]) == 0
+assert main(["check", db, "--query", "DELETE FROM intervals"]) == 2
+read_sql(db).frame.to_pickle({str(got)!r})
+assert read_sql(url).frame.equals(read_sql(db).frame)
+assert not [m for m in sys.modules if m.split(".")[0] in BLOCKED]
+"""
+    )
+    env = {**os.environ, "PYTHONPATH": str(ROOT), "MPLBACKEND": "Agg"}
+    done = subprocess.run(
+        [sys.executable, "-c", script], env=env, capture_output=True, text=True, timeout=600
+    )
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert "--query must be a read-only SELECT statement" in done.stderr
+    pd.testing.assert_frame_equal(pd.read_pickle(got), expected)
 
 
 def test_a_database_url_without_sqlalchemy_names_the_sql_extra(capsys, monkeypatch):

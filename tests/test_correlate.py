@@ -362,3 +362,63 @@ def _shifts(corr, section, datum):
 
     hanging = hang_section(corr, section, datum)
     return hanging.shift, hanging.label
+
+
+def _wells_database(path, wells_table="wells"):
+    """A SQLite file holding an intervals table (each well on several rows) and a wells
+    table."""
+    import sqlite3
+
+    with sqlite3.connect(path) as conn:
+        conn.execute("CREATE TABLE intervals (core TEXT, top REAL, base REAL, facies TEXT)")
+        conn.executemany(
+            "INSERT INTO intervals VALUES (?, ?, ?, ?)",
+            [("A", 0, 1, "x"), ("A", 1, 2, "y"), ("B", 0, 1, "x")],
+        )
+        conn.execute(f'CREATE TABLE "{wells_table}" (core TEXT, distance REAL)')
+        conn.executemany(f'INSERT INTO "{wells_table}" VALUES (?, ?)', [("B", 4.0), ("A", 1.0)])
+    conn.close()
+    return path
+
+
+@pytest.mark.parametrize("name", ["wells", "Wells"])
+def test_a_database_of_several_tables_gives_its_wells_table(tmp_path, name):
+    """Not the intervals table (where a well has several rows): the one named wells."""
+    from faciesseq.correlation.wells import read_wells
+
+    path = _wells_database(tmp_path / "db.sqlite", name)
+    wells = read_wells(str(path))
+    assert list(wells.frame["core"]) == ["A", "B"]
+    assert list(wells.frame["position"]) == [1.0, 4.0]
+    assert wells.file == f"{path} [{name}]"
+
+
+def test_a_database_without_a_wells_table_is_refused_naming_its_tables(tmp_path):
+    from faciesseq.correlation.wells import read_wells
+    from faciesseq.errors import ConfigError
+
+    path = _wells_database(tmp_path / "db.sqlite", "positions")
+    with pytest.raises(ConfigError) as err:
+        read_wells(str(path))
+    message = str(err.value)
+    assert "2 tables (intervals, positions) and none named 'wells'" in message
+    assert "path: db.sqlite and table: NAME" in message and "\n" not in message
+
+
+def test_a_yaml_source_file_chooses_the_wells_table(tmp_path):
+    from faciesseq.correlation.wells import read_wells
+    from faciesseq.errors import ConfigError
+
+    _wells_database(tmp_path / "db.sqlite", "positions")
+    source = tmp_path / "wellsrc.yaml"
+    source.write_text("path: db.sqlite\ntable: positions\n")
+    wells = read_wells(str(source))
+    assert list(wells.frame["core"]) == ["A", "B"]
+    assert wells.file.endswith("db.sqlite [positions]")
+    source.write_text(
+        "path: db.sqlite\nquery: SELECT core, distance * 2 AS distance FROM positions\n"
+    )
+    assert list(read_wells(str(source)).frame["position"]) == [2.0, 8.0]
+    source.write_text("path: db.sqlite\ntable: positions\nlayout: intervals\n")
+    with pytest.raises(ConfigError, match="'layout' does not apply to a wells table"):
+        read_wells(str(source))

@@ -181,3 +181,21 @@ def test_a_pair_without_a_tie_is_said_on_stderr_and_drawn_unjoined(
     assert err.count(message) == 1
     ties = pd.read_csv(out / "ties.csv")
     assert not ((ties["core_left"] == "QB-03") & (ties["core_right"] == "QB-05")).any()
+
+
+def test_cores_and_wells_from_one_sqlite_database(database, tmp_path, capsys):
+    """``correlate db.sqlite --wells db.sqlite``: the cores from ``intervals``, the
+    wells from ``wells``, as from the two CSV files."""
+    from faciesseq.io import read_cores, write_cores
+
+    db = tmp_path / "db.sqlite"
+    wells = pd.read_csv(database / "wells.csv")
+    write_cores(read_cores(database / "cores.csv"), db, tables={"wells": wells})
+    out = tmp_path / "corr"
+    argv = ["correlate", str(db), "--wells", str(db), "--model", str(database / "model.json")]
+    assert main([*argv, "-o", str(out)]) == 0
+    assert _run(database, tmp_path / "csv") == 0
+    capsys.readouterr()
+    pd.testing.assert_frame_equal(
+        pd.read_csv(out / "correlation.csv"), pd.read_csv(tmp_path / "csv" / "correlation.csv")
+    )

@@ -106,8 +106,9 @@ def test_las_file_reads_back_with_lasio_curves_units_null_and_well(decoded):
     assert float(las.well["STOP"].value) == pytest.approx(depth[-1])
     tracts = _read(decoded / "tracts.csv")
     beds = tracts[tracts["core"] == "S-71-2"]
-    assert depth[0] == pytest.approx(beds["top"].min())
-    assert depth[-1] <= beds["base"].max() < depth[-1] + step
+    # cell centres from the top (LAS 2.0: STRT and STOP are the first and last sample)
+    assert depth[0] == pytest.approx(beds["top"].min() + step / 2)
+    assert depth[-1] < beds["base"].max() <= depth[-1] + step
     p = np.column_stack([las[f"P_{t}"] for t in TRACTS])
     assert np.allclose(p.sum(axis=1), 1.0, atol=4 * 0.5e-4)  # no gap; 4 decimals each
 
@@ -165,25 +166,34 @@ def test_las_probabilities_are_written_to_four_decimals(decoded):
 
 
 def _thin_bed_interpretation():
-    """One core of 1 m beds with a 0.4 m FSST bed at 2.52-2.92 m, off a 0.5 m grid."""
+    """Core W of beds 1 m thick or more with a 0.4 m FSST bed at 2.3-2.7 m, between two
+    samples of a 0.5 m step (2.25 and 2.75 m); core V of 1 m beds only."""
     from faciesseq.interpretation import CoreInterpretation, Interpretation
 
-    top = [0.0, 1.0, 2.0, 2.52, 2.92, 4.0]
-    base = [1.0, 2.0, 2.52, 2.92, 4.0, 5.0]
-    tracts = ["HST", "HST", "HST", "FSST", "LST", "TST"]
-    beds = pd.DataFrame(
-        {
-            "segment": 0,
-            "top": top,
-            "base": base,
-            "facies": ["A"] * 6,
-            "tract": tracts,
-            **{f"p_{t}": [float(x == t) for x in tracts] for t in TRACTS},
-        }
-    )
-    empty = pd.DataFrame()
-    core = CoreInterpretation("W", "m", TRACTS, (), beds, empty, empty, 0.0)
-    return Interpretation.from_cores({"W": core}, TRACTS, (), {"unit": "intervals"})
+    def core(name, top, base, tracts):
+        beds = pd.DataFrame(
+            {
+                "segment": 0,
+                "top": top,
+                "base": base,
+                "facies": ["A"] * len(top),
+                "tract": tracts,
+                **{f"p_{t}": [float(x == t) for x in tracts] for t in TRACTS},
+            }
+        )
+        empty = pd.DataFrame()
+        return CoreInterpretation(name, "m", TRACTS, (), beds, empty, empty, 0.0)
+
+    cores = {
+        "W": core(
+            "W",
+            [0.0, 1.0, 2.3, 2.7, 4.0],
+            [1.0, 2.3, 2.7, 4.0, 5.0],
+            ["HST", "HST", "FSST", "LST", "TST"],
+        ),
+        "V": core("V", [10.0, 11.0], [11.0, 12.0], ["HST", "TST"]),
+    }
+    return Interpretation.from_cores(cores, TRACTS, (), {"unit": "intervals"})
 
 
 def test_las_step_that_misses_a_thin_bed_is_warned_with_the_step_that_keeps_it(tmp_path):
@@ -195,13 +205,50 @@ def test_las_step_that_misses_a_thin_bed_is_warned_with_the_step_that_keeps_it(t
         write_las_files(interp, tmp_path / "a", step=0.5)
     (line,) = [str(w.message) for w in caught]
     assert line == (
-        "LAS step 0.5 m leaves 1 of 6 described intervals without a sample (1 FSST; "
-        "the thinnest 0.4 m): --las-step 0.2 gives each one"
+        "LAS step 0.5 m leaves 1 of 7 described intervals without a sample, in 1 of 2 "
+        "well(s) (W 1; 1 FSST; the thinnest 0.4 m): --las-step 0.2 gives each one"
     )
-    assert line in lasio.read(tmp_path / "a" / "W.las").other
+    # the file of the well that lost a bed says so; the other's does not
+    assert (
+        "1 of the 5 described intervals of this well are thinner than the step and hold "
+        "no sample (1 FSST): they are not in the curves; --las-step 0.2 gives every "
+        "described interval of the run a sample."
+    ) in lasio.read(tmp_path / "a" / "W.las").other
+    assert "no sample" not in lasio.read(tmp_path / "a" / "V.las").other
     assert beds_without_sample(interp, 0.2) is None
     las = lasio.read(write_las_files(interp, tmp_path / "b", step=0.2)[0])
     assert 2 in set(las["TRACT"])  # TRACT_2 = FSST
+    assert "no sample" not in las.other
+
+
+def test_las_of_decode_and_of_write_cores_sample_the_same_cell_centres(tmp_path):
+    """Both writers put a sample at the centre of each cell one step thick from the
+    core's top (STRT = top + step/2, as the samples layout reads a sample back), so
+    either file reads back as the core from 0 to 5 m, not half a step beyond."""
+    from faciesseq.core import CoreSet
+    from faciesseq.io import read_cores, write_cores
+    from faciesseq.report.exports import write_las_files
+
+    interp = _thin_bed_interpretation()
+    write_las_files(interp, tmp_path / "d", step=0.1)
+    decoded = lasio.read(tmp_path / "d" / "W.las")
+    beds = interp["W"].beds
+    cores = CoreSet.from_frame(
+        pd.DataFrame(
+            {"core": "W", "top": beds["top"], "base": beds["base"], "facies": beds["tract"]}
+        ),
+        units="m",
+    )
+    written = tmp_path / "W.las"
+    write_cores(cores, written, step=0.1)
+    plain = lasio.read(written)
+    assert decoded["DEPT"] == pytest.approx(plain["DEPT"])
+    assert decoded["DEPT"][0] == pytest.approx(0.05) and decoded["DEPT"][-1] == pytest.approx(4.95)
+    for las in (decoded, plain):
+        assert float(las.well["STRT"].value) == pytest.approx(0.05)
+        assert float(las.well["STOP"].value) == pytest.approx(4.95)
+    extent = read_cores(tmp_path / "d" / "W.las").extents().loc["W"]
+    assert (extent["top"], extent["base"]) == pytest.approx((0.0, 5.0))
 
 
 def test_decode_las_warns_on_stderr_of_beds_without_a_sample(database, tmp_path, capsys):
@@ -235,7 +282,8 @@ def test_las_step_option_and_feet(database, tmp_path):
     assert float(las.well["STEP"].value) == 0.25
     assert las.curves["DEPT"].unit == "FT" and las.well["STOP"].unit == "FT"
     assert np.allclose(np.diff(las["DEPT"]), 0.25)
-    assert np.allclose(las["DEPT"] / 0.25, np.round(las["DEPT"] / 0.25))  # on the grid
+    top = _read(out / "tracts.csv").query("core == 'S-71-5'")["top"].min()
+    assert las["DEPT"][0] == pytest.approx(top + 0.125)  # cell centres from the top
     assert "given (--las-step)" in las.well["STEP"].descr
 
 

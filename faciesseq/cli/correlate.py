@@ -49,7 +49,8 @@ def register(subparsers) -> None:
         "--wells",
         required=True,
         metavar="WELLS",
-        help="wells table: core (or name), distance (or x_km) or x and y; optional section, "
+        help="wells table (a file, a database's table 'wells', or a YAML source file with "
+        "path: and table:): core (or name), distance (or x_km) or x and y; optional section, "
         "order, elevation, datum_depth",
     )
     parser.add_argument("--model", required=True, metavar="MODEL", help="model file from `fit`")

@@ -1,7 +1,8 @@
 """The wells table: where each core stands, on which section, hung on which datum.
 
-Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite; see
-:mod:`faciesseq.io.source`). Columns, matched case-insensitively:
+Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite, or a YAML
+source file naming one; see :mod:`faciesseq.io.source` and :func:`read_wells`).
+Columns, matched case-insensitively:
 
 - ``core`` (or ``name``, ``well``): the core's name as in the cores source;
 - a position: ``distance`` (or ``x_km``, ``distance_km``, ``position``) along
@@ -22,12 +23,13 @@ Read with the project's readers (CSV, TSV, XLSX, Parquet, SQLite; see
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.errors import InputError, Problem
+from faciesseq.errors import ConfigError, InputError, Problem
 
 __all__ = ["WellTable", "check_wells", "read_wells", "wells_from_frame"]
 
@@ -270,23 +272,86 @@ def _order_disagreements(wells: pd.DataFrame, file: str) -> list[Problem]:
 def read_wells(path: str) -> WellTable:
     """Read and check a wells table with the project's readers.
 
+    ``path`` is a file the cores could be read from (CSV, TSV, XLSX, Parquet,
+    SQLite), a database URL, or a YAML source file naming one of these with its
+    reading options (``path:`` or ``url:``, and ``table:``, ``query:``, ``sheet:``,
+    ``encoding:``). A database of several tables gives its table named ``wells``
+    (any case) unless ``table:`` or ``query:`` chooses another.
+
     Raises
     ------
     InputError
         The file is missing or unreadable, a name column or a position is
         missing, a well is listed twice, or a value is not a number. The
         message names the file and the row.
+    ConfigError
+        A database of several tables, none named ``wells``, and none chosen; a
+        key of the YAML source file that does not apply to a wells table.
     """
-    from faciesseq.io.source import SourceSpec, read_tables
+    from faciesseq.io.source import YAML_SUFFIXES, SourceSpec, read_tables
 
-    tables, problems, _ = read_tables(SourceSpec(str(path)))
+    where = str(path)
+    spec = SourceSpec(where)
+    if Path(where).suffix.lower() in YAML_SUFFIXES:
+        spec = _wells_source_file(Path(where))
+    spec = _wells_table(spec, where)
+    tables, problems, _ = read_tables(spec)
     if len(tables) != 1:
-        raise InputError("give the wells table as one file", file=str(path))
+        raise InputError("give the wells table as one file", file=where)
     table = tables[0]
-    wells = wells_from_frame(table.frame, str(path), table.row_numbers().tolist())
+    # a table chosen in a database is named with it: cores.sqlite [wells]
+    label = table.file if spec.table is not None or spec.query is not None else where
+    wells = wells_from_frame(table.frame, label, table.row_numbers().tolist())
     extra = tuple(problems) + tuple(p for p in table.problems if p.severity == "warning")
     return WellTable(
         wells.frame, wells.file, wells.position_label, extra + wells.problems, wells.depth_units
+    )
+
+
+#: Keys of a YAML source file that say how to read cores, not a wells table.
+_CORE_ONLY_KEYS = ("layout", "columns", "units", "repeated_depths", "scheme", "curve")
+
+
+def _wells_source_file(path: Path):
+    """The :class:`~faciesseq.io.source.SourceSpec` of a YAML source file naming the
+    wells table; keys that only say how to read cores are refused."""
+    from faciesseq.io.source import load_source_file
+
+    spec = load_source_file(path)
+    for key in _CORE_ONLY_KEYS:
+        if getattr(spec, key):
+            raise ConfigError(
+                f"{key!r} does not apply to a wells table (its columns are found by name: "
+                "core, distance or x and y, ...); keep path or url, and table, query, sheet "
+                "or encoding",
+                file=str(path),
+            )
+    return spec
+
+
+def _wells_table(spec, where: str):
+    """``spec`` with the table of a database of several tables chosen: the one named
+    ``wells`` (any case); ``spec`` itself when it chooses, or the source is no database
+    or has one table."""
+    from faciesseq.io.sql import is_sqlite_file, is_url, table_names
+
+    source = spec.source
+    if spec.table is not None or spec.query is not None:
+        return spec
+    if not is_url(source) and not (Path(source).is_file() and is_sqlite_file(Path(source))):
+        return spec
+    tables = table_names(source)
+    if len(tables) <= 1:
+        return spec
+    named = [t for t in tables if t.lower() == "wells"]
+    if len(named) == 1:
+        return replace(spec, table=named[0])
+    raise ConfigError(
+        f"the database has {len(tables)} tables ({', '.join(tables)}) and none named "
+        "'wells'; name the wells table 'wells', or give --wells a YAML source file with "
+        + ("url: ..." if is_url(source) else f"path: {Path(source).name}")
+        + " and table: NAME",
+        file=where,
     )
 
 

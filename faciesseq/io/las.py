@@ -228,9 +228,12 @@ def write_las(core, path: Path, step: float | None = None) -> None:
     """Write one core as a LAS 2.0 file on a regular depth grid (sample centres).
 
     Cell ``k`` covers ``[top + k*step, top + (k+1)*step)`` and its sample is at
-    the centre, as the sample layout reads it back; cells in gaps hold the
-    null value. Not atomic by itself: :func:`faciesseq.io.write_cores` writes
-    to a temporary path and renames.
+    the centre, as the sample layout reads it back (and as ``decode --format las``
+    writes, :func:`faciesseq.report.exports.write_las_files`); ``STRT`` and
+    ``STOP`` are the first and last centre (LAS 2.0). Every interval boundary
+    must lie on the grid (else :class:`ConfigError`), so each interval holds a
+    sample; cells in gaps hold the null value. Not atomic by itself:
+    :func:`faciesseq.io.write_cores` writes to a temporary path and renames.
     """
     from faciesseq._optional import import_optional
 

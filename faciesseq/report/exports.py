@@ -188,54 +188,95 @@ def _tract_table(interp, tract_model) -> list[tuple[str, str]]:
 
 
 def _grid(top: float, base: float, step: float) -> np.ndarray:
-    """Multiples of ``step`` from the first at or below ``top`` to the last at or above ``base``."""
-    first = math.ceil(top / step - 1e-6)
-    last = math.floor(base / step + 1e-6)
-    if last < first:
-        return np.zeros(0)
-    return np.round(np.arange(first, last + 1) * step, 10)
+    """Sample depths of a well from ``top`` to ``base``: the centres of cells one ``step``
+    thick from ``top`` (``top + step/2``, ``top + 3 step/2``, ...), those above ``base``.
 
-
-def beds_without_sample(interp, step: float) -> str | None:
-    """One line naming the beds that no depth sample of ``step`` falls in, or None.
-
-    A bed thinner than ``step`` may fall between two samples of the grid
-    (:func:`_grid`) and be absent from the LAS curves. The line counts them, names
-    their tracts and the step that gives every bed at least one sample: the tidy
-    step (:func:`tidy_step`) not above the thinnest bed (a half-open depth range
-    ``[top, base)`` at least one step long always holds a multiple of the step).
+    A sample stands for the cell around it, as the samples layout reads a LAS file
+    back (``[depth - step/2, depth + step/2)``, docs/io.md) and as
+    :func:`faciesseq.io.las.write_las` writes one, so the cells cover the well from
+    its top. A bed at least one step thick always holds a sample.
     """
-    missed: dict[str, int] = {}
-    total = 0
-    thinnest = math.inf
-    units = "m"
+    n = max(math.ceil((base - top) / step - 1e-6), 0)
+    centres = top + (np.arange(n) + 0.5) * step
+    return np.round(centres[centres < base - 1e-9], 10)
+
+
+def _unsampled(interp, step: float) -> dict[str, tuple[int, int, dict[str, int], float]]:
+    """Per well: how many of its beds no sample of ``step`` falls in, of how many, those
+    beds by tract, and its thinnest bed."""
+    out = {}
     for core in interp:
         beds = core.beds.reset_index(drop=True)
         if not len(beds):
             continue
-        units = core.units
-        total += len(beds)
         thick = (beds["base"] - beds["top"]).to_numpy(float)
         ok = np.isfinite(thick) & (thick > 0)
-        if ok.any():
-            thinnest = min(thinnest, float(thick[ok].min()))
+        thinnest = float(thick[ok].min()) if ok.any() else math.inf
         depth = _grid(float(beds["top"].min()), float(beds["base"].max()), step)
         held = np.zeros(len(beds), dtype=bool)
         which = _bed_index(beds, depth)
         held[which[which >= 0]] = True
+        missed: dict[str, int] = {}
         for tract in beds.loc[~held, "tract"]:
             missed[str(tract)] = missed.get(str(tract), 0) + 1
-    count = sum(missed.values())
+        out[core.core] = (int((~held).sum()), len(beds), missed, thinnest)
+    return out
+
+
+def _by_tract(interp, missed: dict[str, int]) -> str:
+    order = list(interp.tracts) + sorted(set(missed) - set(interp.tracts))
+    return ", ".join(f"{missed[t]} {t}" for t in order if t in missed)
+
+
+def _keeping_step(counts) -> float | None:
+    """The tidy step not above the thinnest bed of all wells (``None``: no bed)."""
+    thinnest = min((c[3] for c in counts.values()), default=math.inf)
+    return tidy_step(thinnest * (1 + 1e-9)) if math.isfinite(thinnest) else None
+
+
+def beds_without_sample(interp, step: float, shown: int = 5) -> str | None:
+    """One line naming the beds that no depth sample of ``step`` falls in, or None.
+
+    A bed thinner than ``step`` may fall between two samples of the grid
+    (:func:`_grid`) and be absent from the LAS curves. The line counts them, names
+    the wells that lose some (the first ``shown``, with how many each), their tracts
+    and the step that gives every bed at least one sample: the tidy step
+    (:func:`tidy_step`) not above the thinnest bed (a half-open depth range
+    ``[top, base)`` at least one step long always holds a sample).
+    """
+    counts = _unsampled(interp, step)
+    count = sum(c[0] for c in counts.values())
     if not count:
         return None
-    order = list(interp.tracts) + sorted(set(missed) - set(interp.tracts))
-    which_tracts = ", ".join(f"{missed[t]} {t}" for t in order if t in missed)
-    keep = tidy_step(thinnest * (1 + 1e-9)) if math.isfinite(thinnest) else step
+    total = sum(c[1] for c in counts.values())
+    missed: dict[str, int] = {}
+    for c in counts.values():
+        for tract, n in c[2].items():
+            missed[tract] = missed.get(tract, 0) + n
+    losing = [(core, c[0]) for core, c in counts.items() if c[0]]
+    wells = ", ".join(f"{core} {n}" for core, n in losing[:shown])
+    if len(losing) > shown:
+        wells += f" and {len(losing) - shown} more"
+    thinnest = min(c[3] for c in counts.values())
+    units = next(core.units for core in interp if core.core in counts)
     rows = row_word(interp.meta.get("unit", "beds"))
     return (
-        f"LAS step {step:g} {units} leaves {count} of {total} {rows} without a sample "
-        f"({which_tracts}; the thinnest {thinnest:.3g} {units}): --las-step {keep:g} "
-        "gives each one"
+        f"LAS step {step:g} {units} leaves {count} of {total} {rows} without a sample, in "
+        f"{len(losing)} of {len(counts)} well(s) ({wells}; {_by_tract(interp, missed)}; the "
+        f"thinnest {thinnest:.3g} {units}): --las-step {_keeping_step(counts):g} gives each one"
+    )
+
+
+def _well_note(interp, core, step: float, counts) -> str | None:
+    """The ``~Other`` line of one well's file on its beds without a sample, or None."""
+    lost, total, missed, _ = counts.get(core.core, (0, 0, {}, math.inf))
+    if not lost:
+        return None
+    rows = row_word(interp.meta.get("unit", "beds"))
+    return (
+        f"{lost} of the {total} {rows} of this well are thinner than the step and hold no "
+        f"sample ({_by_tract(interp, missed)}): they are not in the curves; --las-step "
+        f"{_keeping_step(counts):g} gives every {rows[:-1]} of the run a sample."
     )
 
 
@@ -272,17 +313,21 @@ def write_las_files(
 
     Notes
     -----
-    Depths are the multiples of ``step`` from the top of the well's first bed
-    to the base of its last; each sample takes the bed holding its depth
-    (module notes), gaps hold ``NULL`` (-999.25). ``FACIES`` and ``TRACT`` are
-    whole numbers; ``~Parameter`` holds their tables (``FACIES_1 . USF :
-    upper shoreface``), the same for every well of the run. ``~Other`` states
+    Depths are the centres of cells one ``step`` thick from the top of the well's
+    first bed down to its last bed's base (:func:`_grid`; ``STRT`` is ``top +
+    step/2``, ``STOP`` the last centre), as :func:`faciesseq.io.las.write_las`
+    writes a core and the samples layout reads a sample back; each sample takes
+    the bed holding its depth (module notes), gaps hold ``NULL`` (-999.25).
+    ``FACIES`` and ``TRACT`` are whole numbers; ``~Parameter`` holds their tables
+    (``FACIES_1 . USF : upper shoreface``), the same for every well of the run.
+    ``~Other`` states
     how the step was chosen, the code tables in words and whether the
     probabilities were checked. Probabilities are written to
     :data:`LAS_PROBABILITY_DECIMALS` decimals. Beds thinner than the step may hold
-    no sample: a :class:`UserWarning` of one line counts them, names their tracts
-    and the step that keeps every bed (:func:`beds_without_sample`), and ``~Other``
-    says the same.
+    no sample: a :class:`UserWarning` of one line counts them, names the wells
+    and tracts that lose some and the step that keeps every bed
+    (:func:`beds_without_sample`), and the ``~Other`` section of each such well's
+    file says how many of its beds are not in the curves.
     """
     from faciesseq._optional import import_optional
     from faciesseq.io.writer import FileStems
@@ -309,6 +354,7 @@ def write_las_files(
     missing = beds_without_sample(interp, step)
     if missing is not None:
         warnings.warn(missing, UserWarning, stacklevel=2)
+    counts = _unsampled(interp, step) if missing is not None else {}
     facies = _facies_table(interp, scheme)
     tracts = _tract_table(interp, tract_model)
     facies_number = {code: k for k, (code, _) in enumerate(facies, start=1)}
@@ -319,7 +365,8 @@ def write_las_files(
     for core in interp:
         path = folder / f"{stems(core.core)}.las"
         las = _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number)
-        las.other = _other_text(interp, core.units, step, how, facies, tracts, missing)
+        note = _well_note(interp, core, step, counts)
+        las.other = _other_text(interp, core.units, step, how, facies, tracts, note)
         with open(path, "w", encoding="utf-8", newline="\n") as handle:
             las.write(handle, version=2.0, fmt="%.10g")
         written.append(path)
@@ -371,10 +418,11 @@ def _descr(text: str) -> str:
     return " ".join(str(text).replace(":", " -").split())
 
 
-def _other_text(interp, units, step, how, facies, tracts, missing=None) -> str:
+def _other_text(interp, units, step, how, facies, tracts, note=None) -> str:
     lines = [
-        f"Depth step {step:g} {units}: {how}.",
-        *([f"{missing}."] if missing else []),
+        f"Depth step {step:g} {units}: {how}; samples at the centres of cells one step "
+        "thick from the top of the first bed.",
+        *([note] if note else []),
         "FACIES codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(facies, 1)),
         "TRACT codes: " + "; ".join(f"{k} = {c} ({n})" for k, (c, n) in enumerate(tracts, 1)),
         "P_<TRACT>: posterior probability of each tract in the bed holding the depth "
