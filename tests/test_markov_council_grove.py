@@ -91,3 +91,46 @@ def test_homogeneity_by_a_numeric_column_uses_labels_not_bed_means(coreset):
     assert sorted(h.groups) == ["1", "2"]
     assert h.n_left_out == 54  # transitions from a nonmarine bed to a marine one, or back
     assert h.pearson.p_value < 1e-6  # marine and nonmarine beds follow different chains
+
+
+def _with_homogeneity_p(report, pearson_p, g2_p):
+    from dataclasses import replace
+
+    h = report.homogeneity
+    h = replace(h, pearson=replace(h.pearson, p_value=pearson_p), g2=replace(h.g2, p_value=g2_p))
+    return replace(report, homogeneity=h)
+
+
+def test_homogeneity_verdict_says_when_pearson_and_g2_disagree(beds):
+    from faciesseq.report.markov_text import verdict
+
+    # invented p-values on the real report: Pearson above 0.05, G² below
+    split = " ".join(verdict(_with_homogeneity_p(beds, 0.090, 0.008)))
+    assert "The 5 groups by core do not differ significantly by Pearson's χ²" in split
+    assert "p = 0.090, but do by the likelihood-ratio G²" in split
+    assert "p = 0.008: the tests disagree at the 0.05 level" in split
+    assert "Agresti 2013" in split
+    other = " ".join(verdict(_with_homogeneity_p(beds, 0.008, 0.090)))
+    assert "differ by Pearson's χ²" in other and "but do not by the likelihood-ratio G²" in other
+    # where both tests agree the sentence quotes Pearson's χ² alone, as before
+    agree = " ".join(verdict(_with_homogeneity_p(beds, 0.090, 0.20)))
+    assert "The 5 groups by core do not differ significantly: χ²(" in agree
+    assert "disagree" not in agree
+
+
+def test_appendix_homogeneity_paragraph_says_when_the_tests_disagree(beds):
+    from pathlib import Path
+
+    from faciesseq.report.document import Document, Paragraph
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import as_scheme
+
+    scheme = as_scheme(Path(__file__).parent / "data" / "council_grove" / "scheme.yaml")
+
+    def paragraphs(report):
+        document = Document("appendix", sections=[markov_section(report, scheme)])
+        return " ".join(b.text for b in document.blocks() if isinstance(b, Paragraph))
+
+    text = paragraphs(_with_homogeneity_p(beds, 0.090, 0.008))
+    assert "The groups differ by G² but not by Pearson's χ²: the tests disagree" in text
+    assert "disagree" not in paragraphs(_with_homogeneity_p(beds, 0.090, 0.20))

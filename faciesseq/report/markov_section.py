@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
-from faciesseq.report.markov_text import order_explanation
+from faciesseq.report.markov_text import SPARSE_TABLES_NOTE, order_explanation
 from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
@@ -114,6 +114,20 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
     )
 
 
+def _disagreement(homogeneity, alpha: float) -> str:
+    """Where Pearson's χ² and the G² of one homogeneity null fall on either side of
+    ``alpha``, a sentence saying so; otherwise nothing."""
+    h = homogeneity
+    if (h.pearson.p_value < alpha) == (h.g2.p_value < alpha):
+        return ""
+    tests = ("G²", "Pearson's χ²")
+    differs, not_differs = tests if h.g2.p_value < alpha else tests[::-1]
+    return (
+        f" The groups differ by {differs} but not by {not_differs}: the tests disagree at "
+        f"the {alpha:g} level; {SPARSE_TABLES_NOTE}."
+    )
+
+
 def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     """Every test of independence, the Markov order and the homogeneity across cores."""
     fo = report.first_order
@@ -172,7 +186,7 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
             Paragraph(
                 f"Homogeneity across {h.by} groups ({len(h.groups)} groups): "
                 f"{format_test(h.pearson)}; {format_test(h.g2)}; {h.n_left_out} transitions "
-                "between groups left out."
+                "between groups left out." + _disagreement(h, report.alpha)
             ),
             TableBlock(
                 "markov_homogeneity",
