@@ -8,6 +8,8 @@ change in them is noticed; the reference facts are the data's own
 (five real wells, one pseudo-well of scattered samples, 0.5 ft sampling).
 """
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from markov_data import PSEUDO_WELL, council_grove_coreset
@@ -119,8 +121,6 @@ def test_homogeneity_verdict_says_when_pearson_and_g2_disagree(beds):
 
 
 def test_appendix_homogeneity_paragraph_says_when_the_tests_disagree(beds):
-    from pathlib import Path
-
     from faciesseq.report.document import Document, Paragraph
     from faciesseq.report.markov_section import markov_section
     from faciesseq.scheme import as_scheme
@@ -134,3 +134,28 @@ def test_appendix_homogeneity_paragraph_says_when_the_tests_disagree(beds):
     text = paragraphs(_with_homogeneity_p(beds, 0.090, 0.008))
     assert "The groups differ by G² but not by Pearson's χ²: the tests disagree" in text
     assert "disagree" not in paragraphs(_with_homogeneity_p(beds, 0.090, 0.20))
+
+
+def test_appendix_tests_table_p_column_and_reported_as_agree(beds):
+    # the first-order tests have p far below 0.001; the p column showed "< 0.001" and
+    # "reported as" said "p < 0.0001" on the same row
+    from faciesseq.report.document import Document, TableBlock, format_p_text
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import as_scheme
+
+    scheme = as_scheme(Path(__file__).parent / "data" / "council_grove" / "scheme.yaml")
+    document = Document("appendix", sections=[markov_section(beds, scheme)])
+    table = next(
+        b for b in document.blocks() if isinstance(b, TableBlock) and b.key == "markov_tests"
+    )
+    header = table.header()
+    p_col, said_col = header.index("p"), header.index("reported as")
+    rows = [cells for cells, _ in table.rows()]
+    assert any(cells[p_col] == "< 0.001" for cells in rows)
+    for cells in rows:
+        shown = cells[p_col]
+        said = cells[said_col].split(", p")[1].split(" (Monte Carlo")[0]
+        assert said == (f" {shown}" if shown.startswith("<") else f" = {shown}")
+    assert format_p_text(0.00012) == "p < 0.001"
+    assert format_p_text(0.0123) == "p = 0.012"
+    assert format_p_text(float("nan")) == "p not available"

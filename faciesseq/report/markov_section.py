@@ -10,7 +10,14 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
+from faciesseq.report.document import (
+    FigureBlock,
+    Paragraph,
+    Section,
+    TableBlock,
+    format_p_text,
+    format_value,
+)
 from faciesseq.report.markov_text import SPARSE_TABLES_NOTE, order_explanation
 from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
@@ -18,17 +25,12 @@ from faciesseq.scheme import FaciesScheme
 __all__ = ["format_p", "format_test", "markov_section"]
 
 
-def format_p(p: float) -> str:
-    """``p = 0.0123`` or ``p < 0.0001`` (p-values are not shown below 1e-4)."""
-    if p is None or not np.isfinite(p):
-        return "p not available"
-    if p < 1e-4:
-        return "p < 0.0001"
-    return f"p = {p:.4f}" if p < 0.01 else f"p = {p:.3f}"
+#: p-values in the appendix's text as in its tables (``p = 0.034``, ``p < 0.001``).
+format_p = format_p_text
 
 
 def format_test(test) -> str:
-    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.0001`` (G² for likelihood ratios)."""
+    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.001`` (G² for likelihood ratios)."""
     symbol = "G²" if "G2" in test.name or "g2" in test.name.lower() else "χ²"
     text = (
         f"{symbol}({test.dof}, N = {test.n}) = {format_value(float(test.statistic))}, "
