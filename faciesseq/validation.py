@@ -107,7 +107,9 @@ class ValidationResult:
         Every scored bed: ``core``, ``fold``, ``segment``, ``top``, ``base``,
         ``facies``, ``label``, ``model``, ``baseline`` and ``p_<TRACT>``.
     settings
-        What was run (labels column, mode, features, seed...).
+        What was run (labels column, mode, features, seed...);
+        ``labelled_cores_dealt_first`` is ``True`` where the plain deal put every
+        labelled core in one fold and the labelled cores were dealt first instead.
     """
 
     folds: int
@@ -469,6 +471,38 @@ def _deal_cores(cores: list[str], folds: int, random_state: int | None) -> dict[
     return {c: k % folds for k, c in enumerate(shuffled)}
 
 
+def _deal_labelled_first(
+    cores: list[str], labelled: list[str], folds: int, random_state: int | None
+) -> dict[str, int]:
+    """Core -> fold with the labelled cores dealt first round the folds (seeded shuffle),
+    then the unlabelled ones continuing the round: two labelled cores or more never
+    share one fold alone, so every fold keeps a labelled core to train on."""
+    rng = np.random.default_rng(random_state)
+    unlabelled = [c for c in cores if c not in set(labelled)]
+    order = [labelled[i] for i in rng.permutation(len(labelled))]
+    order += [unlabelled[i] for i in rng.permutation(len(unlabelled))]
+    return {c: k % folds for k, c in enumerate(order)}
+
+
+def _deal_for_mode(
+    succ: list[Succession], labels: str, mode: str, folds: int, random_state: int | None
+) -> tuple[dict[str, int], bool]:
+    """The deal of cores to folds, and whether the labelled cores were dealt first.
+
+    The plain deal (:func:`_deal_cores`) is kept wherever it leaves every fold a
+    labelled core to train on, so that its results stay as they were; in supervised
+    mode a deal that puts every labelled core in one fold is replaced by
+    :func:`_deal_labelled_first`."""
+    cores = list(dict.fromkeys(s.core for s in succ))
+    fold_of = _deal_cores(cores, folds, random_state)
+    if mode != "supervised":
+        return fold_of, False
+    labelled = list(dict.fromkeys(s.core for s in succ if _has_label(s, labels)))
+    if len({fold_of[c] for c in labelled}) != 1 or len(labelled) < 2:
+        return fold_of, False
+    return _deal_labelled_first(cores, labelled, folds, random_state), True
+
+
 def _training_cores(train: list[Succession], labels: str, mode: str, k: int) -> list[Succession]:
     """The training successions of fold ``k``: in supervised mode only the labelled cores."""
     if mode != "supervised":
@@ -476,10 +510,12 @@ def _training_cores(train: list[Succession], labels: str, mode: str, k: int) -> 
     with_labels = {s.core for s in train if _has_label(s, labels)}
     train = [s for s in train if s.core in with_labels]
     if not train:
+        # the deal gives every fold a labelled core to train on when two or more cores
+        # carry labels, so only a lone labelled core (refused earlier) ends here
         raise ConfigError(
-            f"fold {k + 1}: no training core carries labels in {labels!r}; use fewer "
-            "folds or mode='semi-supervised' (--mode semi-supervised on the command "
-            "line)"
+            f"fold {k + 1}: no training core carries labels in {labels!r}: every labelled "
+            "core is held out in this fold; label another core, or use "
+            "mode='semi-supervised' (--mode semi-supervised on the command line)"
         )
     return train
 
@@ -610,7 +646,10 @@ def cross_validate(
     labels
         Bed column with the interpreter's tract (blank = unlabelled, not scored).
     folds
-        Number of folds (at most the number of cores).
+        Number of folds (at most the number of cores). The cores are shuffled
+        (seeded) and dealt round the folds; in supervised mode, where that deal would
+        put every labelled core in one fold (leaving it none to train on), the
+        labelled cores are dealt first and the unlabelled ones continue the round.
     mode
         ``"supervised"`` (default): each fold's model is fitted on the training
         cores that carry labels, their labelled beds clamping the states;
@@ -633,7 +672,7 @@ def cross_validate(
     cores = list(dict.fromkeys(s.core for s in succ))
     _check_folds(folds, len(cores))
     _check_labelled_cores(succ, labels, mode)
-    fold_of = _deal_cores(cores, folds, random_state)
+    fold_of, labelled_first = _deal_for_mode(succ, labels, mode, folds, random_state)
     # the labels' surfaces are named on the permissive graph, which names every boundary
     # a label column can hold (the strict graph a labelled fit may take gives the same
     # names to the boundaries it allows)
@@ -648,5 +687,7 @@ def cross_validate(
     scored = _scored_beds(beds, labels, tracts)
     model_scores, base_scores = _score_methods(scored, tracts, held_out, tract_model)
     settings = _run_settings(labels, mode, random_state, len(cores), len(scored), params)
+    if labelled_first:
+        settings["labelled_cores_dealt_first"] = True
     units = succ[0].units if succ else "m"
     return ValidationResult(folds, units, fold_of, model_scores, base_scores, beds, settings)

@@ -381,7 +381,10 @@ def test_fit_prints_the_training_wells_and_takes_format_json(database, tmp_path,
     # the training cores decoded by the fitted model: the same numbers decode prints
     out = tmp_path / "dec"
     assert _decode(database, tmp_path / "j.json", out, "--summary", "json") == 0
-    assert json.loads(capsys.readouterr().out)["wells"] == doc["wells"]
+    decoded = json.loads(capsys.readouterr().out)
+    assert decoded["wells"] == doc["wells"]
+    # the share of labelled beds agreeing, a fraction, to six decimals
+    assert len(repr(decoded["agreement"]).split(".")[1]) <= 6
 
 
 def test_a_tract_lasts_as_long_as_its_phase_type_chain_says():
@@ -466,6 +469,10 @@ def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     assert set(durations) == {"HST", "FSST", "LST", "TST"}
     used = [d for d in durations.values() if d["runs"]]
     assert used and all(d["beds_per_visit"] >= 1 and d["median_thickness"] > 0 for d in used)
+    # thicknesses to six decimals, without the float noise of sums of beds
+    thicknesses = [d["median_thickness"] for d in used]
+    thicknesses += [v for w in doc["wells"] for v in w["thickness"].values()]
+    assert all(len(repr(v).split(".")[1]) <= 6 for v in thicknesses)
     # in cycles too, the scheme giving ranks: every run touches at least one
     assert all(d["median_cycles"] >= 1 for d in used)
     # the diagnostics fit --verbose prints, as the model file keeps them
@@ -486,3 +493,19 @@ def test_fit_reports_how_long_each_tract_lasts(database, tmp_path, capsys):
     assert used and all(d["median_cycles"] >= 1 for d in used)
     _fit(database, tmp_path / "t.json", "--verbose")
     assert "tract lengths, beds per visit of the fitted chain" in capsys.readouterr().out
+
+
+def test_summary_json_rounds_thickness_and_probability_to_six_decimals():
+    # a sum of bed thicknesses carries float noise (22.699999999999818 for 22.7); the
+    # synthetic beds have thicknesses of 16 digits, and so do their sums unrounded
+    from _synthetic import synthetic_interpretation
+
+    from faciesseq.cli._summary import summary_document
+    from faciesseq.scheme import default_tract_model
+
+    interp = synthetic_interpretation(default_tract_model())
+    doc = summary_document(interp, None, "decode")
+    for well in doc["wells"]:
+        assert set(well) == {"core", "units", "thickness", "picks", "mean_probability"}
+        for value in [*well["thickness"].values(), well["mean_probability"]]:
+            assert value == round(value, 6) and len(repr(value).split(".")[1]) <= 6

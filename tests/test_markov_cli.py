@@ -94,6 +94,20 @@ def test_usage_mistakes_give_one_line_and_exit_2(tmp_path, args, message):
     assert not (tmp_path / "never").exists()
 
 
+def test_by_a_misspelt_column_lists_the_real_columns_and_the_near_name(tmp_path):
+    # a table of the four required columns alone: the list of columns was empty
+    table = tmp_path / "cores.csv"
+    table.write_text(
+        "core,top,base,facies\n"
+        + "".join(f"A,{k},{k + 1},{'FGS'[k % 3]}\n" for k in range(12))
+        + "".join(f"B,{k},{k + 1},{'FGS'[(k * 2) % 3]}\n" for k in range(12))
+    )
+    code, _out, err = _run(str(table), "--by", "cores")
+    assert code == 2 and err.count("\n") == 1
+    assert "by='cores' (--by): no such column to group by; did you mean 'core'?" in err
+    assert "(columns: core, top, base, facies;" in err
+
+
 def test_grid_unit_warns_about_the_sampling_step():
     code, out, _ = _run(*READ, "--unit", "grid", "--step", "0.5", "--by", "none")
     assert code == 0

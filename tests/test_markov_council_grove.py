@@ -8,6 +8,8 @@ change in them is noticed; the reference facts are the data's own
 (five real wells, one pseudo-well of scattered samples, 0.5 ft sampling).
 """
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from markov_data import PSEUDO_WELL, council_grove_coreset
@@ -91,3 +93,69 @@ def test_homogeneity_by_a_numeric_column_uses_labels_not_bed_means(coreset):
     assert sorted(h.groups) == ["1", "2"]
     assert h.n_left_out == 54  # transitions from a nonmarine bed to a marine one, or back
     assert h.pearson.p_value < 1e-6  # marine and nonmarine beds follow different chains
+
+
+def _with_homogeneity_p(report, pearson_p, g2_p):
+    from dataclasses import replace
+
+    h = report.homogeneity
+    h = replace(h, pearson=replace(h.pearson, p_value=pearson_p), g2=replace(h.g2, p_value=g2_p))
+    return replace(report, homogeneity=h)
+
+
+def test_homogeneity_verdict_says_when_pearson_and_g2_disagree(beds):
+    from faciesseq.report.markov_text import verdict
+
+    # invented p-values on the real report: Pearson above 0.05, G² below
+    split = " ".join(verdict(_with_homogeneity_p(beds, 0.090, 0.008)))
+    assert "The 5 groups by core do not differ significantly by Pearson's χ²" in split
+    assert "p = 0.090, but do by the likelihood-ratio G²" in split
+    assert "p = 0.008: the tests disagree at the 0.05 level" in split
+    assert "Agresti 2013" in split
+    other = " ".join(verdict(_with_homogeneity_p(beds, 0.008, 0.090)))
+    assert "differ by Pearson's χ²" in other and "but do not by the likelihood-ratio G²" in other
+    # where both tests agree the sentence quotes Pearson's χ² alone, as before
+    agree = " ".join(verdict(_with_homogeneity_p(beds, 0.090, 0.20)))
+    assert "The 5 groups by core do not differ significantly: χ²(" in agree
+    assert "disagree" not in agree
+
+
+def test_appendix_homogeneity_paragraph_says_when_the_tests_disagree(beds):
+    from faciesseq.report.document import Document, Paragraph
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import as_scheme
+
+    scheme = as_scheme(Path(__file__).parent / "data" / "council_grove" / "scheme.yaml")
+
+    def paragraphs(report):
+        document = Document("appendix", sections=[markov_section(report, scheme)])
+        return " ".join(b.text for b in document.blocks() if isinstance(b, Paragraph))
+
+    text = paragraphs(_with_homogeneity_p(beds, 0.090, 0.008))
+    assert "The groups differ by G² but not by Pearson's χ²: the tests disagree" in text
+    assert "disagree" not in paragraphs(_with_homogeneity_p(beds, 0.090, 0.20))
+
+
+def test_appendix_tests_table_p_column_and_reported_as_agree(beds):
+    # the first-order tests have p far below 0.001; the p column showed "< 0.001" and
+    # "reported as" said "p < 0.0001" on the same row
+    from faciesseq.report.document import Document, TableBlock, format_p_text
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import as_scheme
+
+    scheme = as_scheme(Path(__file__).parent / "data" / "council_grove" / "scheme.yaml")
+    document = Document("appendix", sections=[markov_section(beds, scheme)])
+    table = next(
+        b for b in document.blocks() if isinstance(b, TableBlock) and b.key == "markov_tests"
+    )
+    header = table.header()
+    p_col, said_col = header.index("p"), header.index("reported as")
+    rows = [cells for cells, _ in table.rows()]
+    assert any(cells[p_col] == "< 0.001" for cells in rows)
+    for cells in rows:
+        shown = cells[p_col]
+        said = cells[said_col].split(", p")[1].split(" (Monte Carlo")[0]
+        assert said == (f" {shown}" if shown.startswith("<") else f" = {shown}")
+    assert format_p_text(0.00012) == "p < 0.001"
+    assert format_p_text(0.0123) == "p = 0.012"
+    assert format_p_text(float("nan")) == "p not available"

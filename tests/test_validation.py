@@ -107,3 +107,29 @@ def test_supervised_folds_fit_only_the_labelled_cores():
             mode="supervised",
             **kwargs | {"random_state": 0, "folds": 6},
         )
+
+
+def test_two_labelled_cores_of_six_are_dealt_to_different_folds():
+    # with seed 0 the plain deal of these six cores to three folds puts S-52-4 and
+    # S-52-5 in one fold, which then had no labelled core to train on
+    from faciesseq.cli.validate import format_text
+    from faciesseq.validation import _deal_cores
+
+    succ = synth.cores(6, 40, seed=52)
+    cores = list(dict.fromkeys(s.core for s in succ))
+    plain = _deal_cores(cores, 3, 0)
+    assert plain["S-52-4"] == plain["S-52-5"]
+    kwargs = {"folds": 3, "scheme": synth.scheme(), "n_restarts": 1, "random_state": 0}
+    result = cross_validate(_without_labels(succ, {"S-52-4", "S-52-5"}), "true_tract", **kwargs)
+    assert result.fold_of_core["S-52-4"] != result.fold_of_core["S-52-5"]
+    assert sorted(result.fold_of_core.values()) == [0, 0, 1, 1, 2, 2]
+    assert result.settings["labelled_cores_dealt_first"] is True
+    first_line = format_text(result).splitlines()[0]
+    assert first_line.endswith(
+        "the labelled cores dealt first round the folds, so that every fold has one to train on"
+    )
+    # where the plain deal leaves every fold a labelled core to train on, it is kept
+    kept = cross_validate(_without_labels(succ, {"S-52-4", "S-52-3"}), "true_tract", **kwargs)
+    assert kept.fold_of_core == plain
+    assert "labelled_cores_dealt_first" not in kept.settings
+    assert "dealt first" not in format_text(kept)

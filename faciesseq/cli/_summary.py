@@ -13,10 +13,12 @@ import json
 import math
 
 __all__ = [
+    "JSON_DECIMALS",
     "SUMMARY_SCHEMA",
     "WELL_LIMIT",
     "print_json",
     "print_summary",
+    "rounded",
     "summary_document",
     "summary_lines",
 ]
@@ -25,6 +27,10 @@ __all__ = [
 WELL_LIMIT = 30
 #: Schema name of the JSON summary (keys may be added, none removed or renamed).
 SUMMARY_SCHEMA = "faciesseq.wells/1"
+#: Decimals of the thicknesses (depth units) and probabilities in the JSON summary: a
+#: sum of bed thicknesses carries float noise (22.699999999999818 for 22.7), and depths
+#: are read to far fewer decimals than six, probabilities checked to no more.
+JSON_DECIMALS = 6
 
 
 def _wells(interp, scheme, limit: int | None = None) -> list[dict]:
@@ -101,9 +107,16 @@ def summary_lines(
     return lines
 
 
+def rounded(value: float | None) -> float | None:
+    """``value`` to :data:`JSON_DECIMALS` decimals; ``None`` for ``None`` or NaN."""
+    if value is None or math.isnan(value):
+        return None
+    return round(float(value), JSON_DECIMALS)
+
+
 def _json_well(well: dict) -> dict:
-    p = well["mean_probability"]
-    return {**well, "mean_probability": None if math.isnan(p) else p}
+    thickness = {t: rounded(v) for t, v in well["thickness"].items()}
+    return {**well, "thickness": thickness, "mean_probability": rounded(well["mean_probability"])}
 
 
 def summary_document(interp, scheme, command: str, **extra) -> dict:
@@ -124,7 +137,8 @@ def summary_document(interp, scheme, command: str, **extra) -> dict:
     -------
     dict
         ``schema``, ``command``, the ``extra`` keys, ``probabilities``
-        (``checked``, ``note``), ``n_wells`` and ``wells``.
+        (``checked``, ``note``), ``n_wells`` and ``wells`` (thicknesses and mean
+        probabilities to :data:`JSON_DECIMALS` decimals).
     """
     wells = _wells(interp, scheme)
     return {

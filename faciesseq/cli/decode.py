@@ -675,7 +675,7 @@ def _print_text(args, model, scheme, written: _Written) -> None:
 
 
 def _print_json(args, scheme, written: _Written) -> None:
-    from faciesseq.cli._summary import print_json, summary_document
+    from faciesseq.cli._summary import print_json, rounded, summary_document
     from faciesseq.interpretation import Interpretation
 
     doc = summary_document(
@@ -684,7 +684,7 @@ def _print_json(args, scheme, written: _Written) -> None:
         "decode",
         output=str(args.output),
         format=args.format,
-        agreement=_overall_agreement(written.summary()[2]),
+        agreement=rounded(_overall_agreement(written.summary()[2])),
     )
     if args.keep_labels:  # held to their labels: no agreement to report, the count instead
         doc["clamped_beds"] = written.clamped

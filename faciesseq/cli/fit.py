@@ -383,7 +383,13 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
     the fitted model (:mod:`faciesseq.cli._summary`), as text or one JSON document.
     The text lists the first wells only, so only they are decoded (at 10^6 beds,
     decoding every core for 30 lines was 6.8 of the fit's 33 s of CPU)."""
-    from faciesseq.cli._summary import WELL_LIMIT, print_json, print_summary, summary_document
+    from faciesseq.cli._summary import (
+        WELL_LIMIT,
+        print_json,
+        print_summary,
+        rounded,
+        summary_document,
+    )
     from faciesseq.hmm.cautions import (
         contact_caution,
         fit_cautions,
@@ -396,7 +402,10 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         with warnings_to_stderr("fit"):
             interp = model.decode(successions)
         document = summary_document(interp, scheme, "fit", output=str(args.output))
-        durations = _durations(model, interp, scheme)
+        durations = {
+            t: {**d, "median_thickness": rounded(d["median_thickness"])}
+            for t, d in _durations(model, interp, scheme).items()
+        }
         notes = {
             "cautions": fit_cautions(model),
             "single_bed_tracts": single_bed_tracts(model),

@@ -82,9 +82,15 @@ def _pct(x: float) -> str:
 
 
 def format_text(result) -> str:
+    dealt = (
+        "; the labelled cores dealt first round the folds, so that every fold has one to train on"
+        if result.settings.get("labelled_cores_dealt_first")
+        else ""
+    )
     lines = [
         f"cross-validation by core: {result.folds} folds, {result.settings['n_cores']} cores, "
-        f"{result.settings['n_beds_scored']} labelled beds scored ({result.settings['mode']})",
+        f"{result.settings['n_beds_scored']} labelled beds scored ({result.settings['mode']})"
+        f"{dealt}",
         "",
         "method     accuracy  macro F1   Brier  MFS within 1 bed",
     ]

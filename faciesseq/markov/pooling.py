@@ -11,12 +11,13 @@ core set: :class:`Pool` takes one core set or the batches one after another.
 
 from __future__ import annotations
 
+import difflib
 import math
 
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import Core, CoreSet
+from faciesseq.core import REQUIRED, Core, CoreSet
 from faciesseq.errors import ConfigError
 from faciesseq.markov.counts import EncodedSuccessions, encode_flat, encode_states
 from faciesseq.markov.screening import leave_out_irregular
@@ -44,7 +45,7 @@ def as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
     if column not in names:
         folded = {c.lower(): c for c in names}
         if column.lower() not in folded:
-            raise ConfigError(f"by={column!r} (--by): no such column (columns: {sorted(names)})")
+            raise ConfigError(_no_group_column(column, sorted(names)))
         column = folded[column.lower()]
     cores = {}
     for name, core in coreset.cores.items():
@@ -57,6 +58,19 @@ def as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
             )
         cores[name] = Core(name, table, core.units)
     return CoreSet(cores, coreset.units, coreset.problems, coreset.sources, coreset.meta), column
+
+
+def _no_group_column(column: str, attributes: list[str]) -> str:
+    """Why ``by=column`` groups nothing: the table's columns (core, top, base, facies and
+    the bed columns) and the nearest name ``--by`` takes, if one is near."""
+    choices = {c.lower(): c for c in ["core", *attributes]}
+    near = difflib.get_close_matches(column.lower(), list(choices), n=1)
+    hint = f"; did you mean {choices[near[0]]!r}?" if near else ""
+    return (
+        f"by={column!r} (--by): no such column to group by{hint} (columns: "
+        f"{', '.join(['core', *REQUIRED, *attributes])}; --by takes core, none or a column "
+        "other than top, base and facies)"
+    )
 
 
 class Pool:

@@ -10,7 +10,8 @@ in full), and in a table every number of a column with the same number of
 decimals (:func:`column_decimals`: 4 significant digits of the column's
 largest value), as a copy editor expects. p-values in tables (columns named
 ``p``, ``p-value`` or listed in ``p_values``) are shown with 3 decimals and
-``< 0.001`` below 0.001 (:func:`format_p_cell`); the decoded probabilities a
+``< 0.001`` below 0.001 (:func:`format_p_cell`), and so in the text
+(:func:`format_p_text`); the decoded probabilities a
 table names with :func:`format_probability` (2 decimals, ``> 0.99`` and
 ``< 0.01`` at the ends). A table may name the decimals of a column of one
 quantity (``TableBlock.decimals``: depths to the input's precision,
@@ -40,6 +41,7 @@ __all__ = [
     "column_decimals",
     "depth_decimals",
     "format_p_cell",
+    "format_p_text",
     "format_probability",
     "format_value",
 ]
@@ -95,6 +97,16 @@ def format_probability(value: object) -> str:
 def format_p_cell(value: object) -> str:
     """How a p-value is shown in a table: 3 decimals, ``< 0.001`` below 0.001 (common practice)."""
     return _bounded(value, 3, low=0.001)
+
+
+def format_p_text(p: float | None) -> str:
+    """How a p-value is written in a sentence or a test "reported as": ``p = 0.034``,
+    ``p < 0.001`` (the rule of :func:`format_p_cell`, so that a table's p column and
+    the same test written out agree); ``p not available`` for NaN."""
+    if p is None or not math.isfinite(float(p)):
+        return "p not available"
+    shown = format_p_cell(float(p))
+    return f"p {shown}" if shown.startswith("<") else f"p = {shown}"
 
 
 def _bounded(value: object, decimals: int, low: float, high: float | None = None) -> str:

@@ -10,25 +10,27 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock, format_value
-from faciesseq.report.markov_text import order_explanation
+from faciesseq.report.document import (
+    FigureBlock,
+    Paragraph,
+    Section,
+    TableBlock,
+    format_p_text,
+    format_value,
+)
+from faciesseq.report.markov_text import SPARSE_TABLES_NOTE, order_explanation
 from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["format_p", "format_test", "markov_section"]
 
 
-def format_p(p: float) -> str:
-    """``p = 0.0123`` or ``p < 0.0001`` (p-values are not shown below 1e-4)."""
-    if p is None or not np.isfinite(p):
-        return "p not available"
-    if p < 1e-4:
-        return "p < 0.0001"
-    return f"p = {p:.4f}" if p < 0.01 else f"p = {p:.3f}"
+#: p-values in the appendix's text as in its tables (``p = 0.034``, ``p < 0.001``).
+format_p = format_p_text
 
 
 def format_test(test) -> str:
-    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.0001`` (G² for likelihood ratios)."""
+    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.001`` (G² for likelihood ratios)."""
     symbol = "G²" if "G2" in test.name or "g2" in test.name.lower() else "χ²"
     text = (
         f"{symbol}({test.dof}, N = {test.n}) = {format_value(float(test.statistic))}, "
@@ -114,6 +116,20 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
     )
 
 
+def _disagreement(homogeneity, alpha: float) -> str:
+    """Where Pearson's χ² and the G² of one homogeneity null fall on either side of
+    ``alpha``, a sentence saying so; otherwise nothing."""
+    h = homogeneity
+    if (h.pearson.p_value < alpha) == (h.g2.p_value < alpha):
+        return ""
+    tests = ("G²", "Pearson's χ²")
+    differs, not_differs = tests if h.g2.p_value < alpha else tests[::-1]
+    return (
+        f" The groups differ by {differs} but not by {not_differs}: the tests disagree at "
+        f"the {alpha:g} level; {SPARSE_TABLES_NOTE}."
+    )
+
+
 def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     """Every test of independence, the Markov order and the homogeneity across cores."""
     fo = report.first_order
@@ -172,7 +188,7 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
             Paragraph(
                 f"Homogeneity across {h.by} groups ({len(h.groups)} groups): "
                 f"{format_test(h.pearson)}; {format_test(h.g2)}; {h.n_left_out} transitions "
-                "between groups left out."
+                "between groups left out." + _disagreement(h, report.alpha)
             ),
             TableBlock(
                 "markov_homogeneity",
