@@ -139,6 +139,16 @@ CASES = [
         "data row 2, core W1: base '2 m' is not a number",
     ),
     (
+        # a spreadsheet's second header row of units, read as the first data row
+        "units-row",
+        {"c.csv": HEAD + ",ft,(ft),\nW1,0,1,A\nW1,1,2,B\n"},
+        [],
+        1,
+        "bad-depth",
+        "error",
+        "data row 1: top 'ft' is not a number (a row of units under the header? delete it",
+    ),
+    (
         "null-depth",
         {"c.csv": HEAD + "W1,0,1,A\nW1,-999.25,2,B\nW1,2,3,A\n"},
         [],

@@ -317,9 +317,24 @@ def _depths(
             )
         else:
             kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
+            message += _units_row_hint(value)
         where = {"file": file, "row": int(rows[i]), "core": cores.iloc[i]}
         errors.append((i, Problem("error", kind, message, **where)))
     return numbers[ids], errors
+
+
+def _units_row_hint(value: object) -> str:
+    """Where a depth cell holds a unit word (``ft``, ``(m)``): a row of units under the
+    header, as spreadsheets often have; how to state the units instead. Else ``""``."""
+    word = str(value).strip().strip("()[]")
+    try:
+        normalise_units(word)
+    except InputError:
+        return ""
+    return (
+        " (a row of units under the header? delete it and give the units in the header, "
+        "e.g. 'top (ft)', or once for the source (--units; units= in Python))"
+    )
 
 
 @dataclass
