@@ -86,6 +86,12 @@ def test_title_does_not_repeat_the_default_section_name_and_the_axis_has_units()
     assert ax.get_title() == "Correlated surfaces, hung on MFS"
     assert "Section section" not in ax.get_title()
     assert ax.get_xlabel() == "distance along the section (km)"
+    # hung on a surface, the depths above it are negative, and the axis says so
+    assert ax.get_ylabel().startswith("depth below MFS")
+    assert ax.get_ylabel().endswith("(m; above it negative)")
+    with figure_style():
+        fig = section_plot(_correlation(), "section", _beds(), "depth", "m", "x_km", TRACTS)
+    assert fig.axes[0].get_ylabel() == "depth as measured (m)"
     with figure_style():
         fig = section_plot(_correlation("dip"), "dip", _beds(), "MFS", "m", "distance", TRACTS)
     assert fig.axes[0].get_title() == "Section dip: correlated surfaces, hung on MFS"

@@ -374,7 +374,10 @@ def section_plot(
     if datum != "depth":
         ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":")
     ax.set_xlabel(distance_label(position_label))
-    ax.set_ylabel(f"{hanging.label} ({units})")
+    # hung on a datum, depths above it are negative: said, as a new user read "depth below
+    # MFS-4" running from -140 to 20 as an error
+    above = "" if datum == "depth" else "; above it negative"
+    ax.set_ylabel(f"{hanging.label} ({units}{above})")
     ax.set_title(section_title(section, datum), parse_math=False)
     _section_legend(ax, surface_legend_order(correlation, section, surface_order), order)
     fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
