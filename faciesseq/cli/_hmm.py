@@ -284,7 +284,7 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
     warning where the fits have no labels to name the tracts. Suggested ranks whose
     direction is unclear are refused where nothing else names the tracts (no labels)
     unless ``--suggest-ranks`` asks for them: a new user's fit on an order read the wrong
-    way round scored a balanced accuracy of 0.00 against 0.51 with the scheme."""
+    way round named the tracts wrongly (docs/hmm.md, "Ranks suggested from the data")."""
     from faciesseq.cli._common import settings_line
     from faciesseq.errors import InputError
     from faciesseq.markov.seriation import suggest_ranks
