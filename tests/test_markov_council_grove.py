@@ -120,6 +120,21 @@ def test_homogeneity_verdict_says_when_pearson_and_g2_disagree(beds):
     assert "disagree" not in agree
 
 
+def test_first_order_verdict_says_when_pearson_and_g2_disagree(beds):
+    from dataclasses import replace
+
+    from faciesseq.report.markov_text import verdict
+
+    fo = beds.first_order
+    # invented p-values on the real report: Pearson rejects the null, G² does not
+    split = replace(fo, pearson=replace(fo.pearson, p_value=0.02), g2=replace(fo.g2, p_value=0.09))
+    text = " ".join(verdict(replace(beds, first_order=split)))
+    assert "Ordered, not random" in text
+    assert "The likelihood-ratio G² of the same null falls on the other side" in text
+    assert "p = 0.090: the tests disagree at the 0.05 level" in text
+    assert "falls on the other side" not in " ".join(verdict(beds))  # both reject: one test
+
+
 def test_appendix_homogeneity_paragraph_says_when_the_tests_disagree(beds):
     from faciesseq.report.document import Document, Paragraph
     from faciesseq.report.markov_section import markov_section

@@ -164,6 +164,11 @@ def verdict(report) -> list[str]:
         lines.append(f"Ordered, not random: the {fo.model} null is rejected, {format_test(first)}.")
     else:
         lines.append(f"Could be random: the {fo.model} null is not rejected, {format_test(first)}.")
+    if (fo.g2.p_value < a) != (first.p_value < a):
+        lines.append(
+            f"The likelihood-ratio G² of the same null falls on the other side, "
+            f"{format_test(fo.g2)}: the tests disagree at the {a:g} level; {SPARSE_TABLES_NOTE}."
+        )
     mc_first = mc.get(first.name)
     if mc_first is not None:
         agree = (mc_first.p_value < a) == (first.p_value < a)
