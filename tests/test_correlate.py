@@ -422,3 +422,18 @@ def test_a_yaml_source_file_chooses_the_wells_table(tmp_path):
     source.write_text("path: db.sqlite\ntable: positions\nlayout: intervals\n")
     with pytest.raises(ConfigError, match="'layout' does not apply to a wells table"):
         read_wells(str(source))
+
+
+def test_correlate_from_python_checks_the_wells_against_the_cores_as_the_command_does():
+    # a typo in the names gave an empty correlation and no word from Python, where the
+    # command refused it; a core left out of the wells table was said only by the command
+    picks, extents, wells = _picks_section()
+    typo = wells.drop(columns=["section", "position"]).assign(
+        core=wells["core"].str.replace("W", "X"), distance=wells["position"]
+    )
+    with pytest.raises(InputError, match="no section has two wells with cores"):
+        correlate(picks, extents, typo)
+    short = wells[wells["core"] != "W2"]
+    with pytest.warns(UserWarning, match="core 'W2' has no row in the wells table"):
+        corr = correlate(picks, extents, short)
+    assert "W2" not in set(corr.to_frame()["core"]) and len(corr.to_frame())

@@ -36,7 +36,12 @@ from faciesseq.correlation.align import (
     disputed_ties,
     tie_confidence,
 )
-from faciesseq.correlation.wells import WellTable, in_depth_units, wells_from_frame
+from faciesseq.correlation.wells import (
+    WellTable,
+    check_wells,
+    in_depth_units,
+    wells_from_frame,
+)
 
 if TYPE_CHECKING:
     from faciesseq.interpretation import Interpretation
@@ -259,7 +264,7 @@ def correlate(
     """
     options = options or AlignmentOptions()
     extents = _extents(extents)
-    wells = _wells_along_sections(well_frame(wells, units), extents)
+    wells = _wells_along_sections(_checked_wells(wells, extents, units), extents)
     columns = _columns(picks, extents)
     pick_rows, tie_rows, untied_rows = [], [], []
     for section, group in wells.groupby("section", sort=True):
@@ -339,19 +344,37 @@ def well_frame(wells: pd.DataFrame | WellTable, units: str | None = None) -> pd.
     checked by :func:`wells_from_frame`, its warnings issued as Python warnings. With
     ``units``, elevations and datum depths whose column names stated the other unit
     are converted to them (:func:`~faciesseq.correlation.wells.in_depth_units`)."""
+    return in_depth_units(_well_table(wells), units).frame
+
+
+def _well_table(wells: pd.DataFrame | WellTable) -> WellTable:
+    """A wells table as :func:`well_frame` reads it, not yet in the cores' units."""
     if isinstance(wells, WellTable):
-        return in_depth_units(wells, units).frame
+        return wells
     if not isinstance(wells, pd.DataFrame):
         raise TypeError(
             "wells must be a wells table (a DataFrame, or the WellTable of read_wells), "
             f"got {type(wells).__name__}"
         )
     if {"core", "section", "position"} <= set(wells.columns):
-        return wells
+        rows = wells if "row" in wells.columns else wells.assign(row=range(1, len(wells) + 1))
+        return WellTable(rows)
     table = wells_from_frame(wells)
     for problem in table.problems:
-        warnings.warn(str(problem), stacklevel=3)
-    return in_depth_units(table, units).frame
+        warnings.warn(str(problem), stacklevel=4)
+    return table
+
+
+def _checked_wells(wells, extents: Mapping, units: str | None) -> pd.DataFrame:
+    """The wells table checked against the cores as ``faciesseq correlate`` checks it
+    (:func:`~faciesseq.correlation.wells.check_wells`): no section with two wells of
+    these cores is an :class:`~faciesseq.errors.InputError`; a well without a core, a
+    core without a well and a section of one well are Python warnings (a typo in the
+    names gave an empty correlation and no word, from Python only)."""
+    checked, problems = check_wells(_well_table(wells), list(extents), units)
+    for problem in problems:
+        warnings.warn(str(problem), stacklevel=3)  # at the caller of correlate
+    return checked.frame
 
 
 def _wells_along_sections(
