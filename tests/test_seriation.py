@@ -21,7 +21,7 @@ from markov_data import council_grove_coreset, council_grove_samples
 
 from faciesseq.cli import main
 from faciesseq.core import CoreSet
-from faciesseq.io import summarise
+from faciesseq.io import read_cores, summarise
 from faciesseq.markov.seriation import _best_path, _spectral_order, suggest_ranks, upward_steps
 from faciesseq.scheme import FaciesScheme
 
@@ -327,3 +327,6 @@ def test_fit_refuses_an_order_without_a_clear_direction_where_nothing_names_the_
     assert len(err.strip().splitlines()) == 1 and not (tmp_path / "m.json").exists()
     assert main([*args, "--suggest-ranks"]) == 0  # asked for: fitted, with the order printed
     assert "direction unclear" in capsys.readouterr().err
+    # from Python the suggestion prints its verdict beside the share
+    suggestion = suggest_ranks(read_cores(source, units="m").succession_table("beds"))
+    assert "clear=False" in repr(suggestion) and "share=0.511" in repr(suggestion)

@@ -121,6 +121,13 @@ class RankSuggestion:
         of the steps lead landward, and every neighbour step is joined both ways."""
         return self.share >= UNCLEAR_SHARE and not self.one_way
 
+    def __repr__(self) -> str:
+        # the verdict beside the numbers: a share of 0.5 printed bare was read as fine
+        return (
+            f"RankSuggestion(order={self.order()}, share={self.share:.3f}, "
+            f"n_steps={self.n_steps}, one_way={list(self.one_way)}, clear={self.clear})"
+        )
+
     def order(self) -> list[str]:
         """The facies from landward (rank 0) to basinward."""
         return sorted(self.ranks, key=self.ranks.__getitem__)
