@@ -173,6 +173,21 @@ def test_option_messages_name_the_argument_and_the_flag(cores):
         analyse(cores, unit="grid")
 
 
+def test_arguments_of_the_wrong_kind_are_refused_in_one_line_naming_what_to_pass(cores):
+    # a script's slips that gave an AttributeError, a "not subscriptable" TypeError and
+    # numpy's SeedSequence message from deep inside
+    beds = pd.read_csv(CORES)
+    with pytest.raises(TypeError) as error:
+        read_cores(beds, columns=["core"])
+    assert "columns= maps a role to the column that holds it" in _one_line(error)
+    with pytest.raises(TypeError) as error:
+        TractHMM(n_restarts=1, max_iter=2).fit(cores, labels=True)
+    assert "labels= is the name of the bed column" in _one_line(error)
+    with pytest.raises(ConfigError) as error:
+        TractHMM(random_state="x").fit(cores)
+    assert "random_state must be a non-negative integer" in _one_line(error)
+
+
 def test_write_appendix_into_an_existing_folder_names_force_both_ways(tmp_path):
     (tmp_path / "out").mkdir()
     with pytest.raises(ConfigError) as error:

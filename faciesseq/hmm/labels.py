@@ -108,6 +108,13 @@ def label_values(
 ) -> Iterator[tuple[Succession, list[str | None]]]:
     """``(succession, labels)`` of every succession, each label text or ``None``,
     from a label column (its name) or per-succession sequences."""
+    if not isinstance(labels, str) and (
+        isinstance(labels, bool | int | float) or not hasattr(labels, "__getitem__")
+    ):
+        raise TypeError(
+            "labels= is the name of the bed column holding the interpreter's tracts (e.g. "
+            f"'tract'), or one sequence of tract codes per succession; got {labels!r}"
+        )
     for k, s in enumerate(successions):
         if isinstance(labels, str):
             if labels not in s.beds.columns:

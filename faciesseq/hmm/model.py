@@ -20,6 +20,7 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 from __future__ import annotations
 
 import math
+import numbers
 import warnings
 from collections.abc import Mapping, Sequence
 from os import PathLike
@@ -338,6 +339,14 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         """Check the hyper-parameters at the start of a fit; a scheme given as the path of
         its YAML file is read here (:func:`~faciesseq.scheme.as_scheme`)."""
         self.scheme = as_scheme(self.scheme)
+        seed = self.random_state
+        if not (seed is None or isinstance(seed, np.random.Generator)) and (
+            isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0
+        ):
+            raise ConfigError(
+                f"random_state must be a non-negative integer, a numpy Generator or None, "
+                f"got {seed!r}"
+            )
         if self.unit not in ("auto", *UNITS):
             raise ConfigError(f"unit must be one of auto, {', '.join(UNITS)}, got {self.unit!r}")
         if not self.prior_strength >= 0:

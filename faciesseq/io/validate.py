@@ -1236,6 +1236,11 @@ def _prepare_tables(
     wording: Wording = COMMAND_LINE,
 ) -> list[_Rows]:
     """Apply the column roles to every table (see :func:`_prepare`), releasing its rows."""
+    if columns is not None and not isinstance(columns, Mapping):
+        raise TypeError(
+            "columns= maps a role to the column that holds it, e.g. {'facies': 'lithology', "
+            f"'top': 'from_m'}}, got {type(columns).__name__}"
+        )
     columns = {str(k).strip().lower(): v for k, v in (columns or {}).items()}
     prepared = []
     for t in tables:
