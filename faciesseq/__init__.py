@@ -45,6 +45,9 @@ _API = {
     # figures, correlation, simulation, the appendix
     "strip_log": "faciesseq.report.striplog",
     "correlate": "faciesseq.correlation",
+    "correlate_interpretation": "faciesseq.correlation",
+    "read_wells": "faciesseq.correlation",
+    "draw_section": "faciesseq.report.section",
     "simulate": "faciesseq.simulate",
     "run_appendix": "faciesseq.pipeline",
     "build_appendix": "faciesseq.report.appendix",

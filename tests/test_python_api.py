@@ -16,6 +16,7 @@ from faciesseq.io import read_cores
 from faciesseq.markov import analyse
 from faciesseq.report.appendix import write_appendix
 from faciesseq.report.exports import TOPS_COLUMNS, tops_table
+from faciesseq.report.section import draw_section
 from faciesseq.report.striplog import strip_log, strip_logs
 from faciesseq.scheme import load_scheme
 
@@ -148,15 +149,21 @@ def test_correlate_refuses_other_wells_and_extents_in_one_line(interp):
     assert "Interpretation" in _one_line(error)
 
 
-def test_python_example_of_the_correlation_docs_runs(monkeypatch):
+def test_python_example_of_the_correlation_docs_runs(monkeypatch, tmp_path):
     text = (ROOT / "docs" / "correlation.md").read_text(encoding="utf-8")
     blocks = re.findall(r"```python\n(.*?)```", text, flags=re.S)
     assert len(blocks) == 1
     monkeypatch.chdir(ROOT)
+    figure = tmp_path / "section.png"  # not written into the checkout
+    code = blocks[0].replace('"section.png"', repr(str(figure)))
+    assert code != blocks[0]
     scope: dict = {}
-    exec(compile(blocks[0], "docs/correlation.md", "exec"), scope)
+    exec(compile(code, "docs/correlation.md", "exec"), scope)
     corr = scope["corr"]
     assert len(corr.ties) > 0 and set(corr.wells["section"]) == {"central", "north", "south"}
+    assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    with pytest.raises(ConfigError, match="has 3 sections"):  # which one, asked
+        draw_section(corr, scope["interp"], tmp_path / "s.png")
 
 
 # 4. messages read by both users

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import itertools
 import os
+import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -20,6 +21,7 @@ import pandas as pd
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Polygon, Rectangle
 
+from faciesseq.errors import ConfigError
 from faciesseq.report.style import (
     PAGE_WIDTH,
     figure_style,
@@ -34,6 +36,7 @@ __all__ = [
     "DEFAULT_SECTION",
     "Hanging",
     "distance_label",
+    "draw_section",
     "hang_section",
     "hanging_datum",
     "section_figure",
@@ -321,6 +324,70 @@ def section_figure(
     chooses PNG, SVG or PDF."""
     with figure_style():
         return save_figure(section_plot(correlation, section, tracts, **options), path)
+
+
+def draw_section(
+    correlation,
+    interpretation,
+    path: str | os.PathLike,
+    *,
+    section: str | None = None,
+    datum: str = "MFS",
+    position_label: str = "distance",
+) -> Path:
+    """The section figure ``faciesseq correlate`` draws, from Python: the correlated
+    surfaces of one section over the decoded tract column of each of its wells.
+
+    Parameters
+    ----------
+    correlation
+        A :class:`faciesseq.correlation.Correlation`
+        (:func:`~faciesseq.correlation.correlate_interpretation`).
+    interpretation
+        The :class:`~faciesseq.interpretation.Interpretation` it was made from (the
+        tract columns, the depth units, the tract and surface order).
+    path
+        File to write; its suffix chooses PNG, SVG or PDF.
+    section
+        The section to draw; may be left out where the wells table has one.
+    datum
+        A surface kind to hang the wells on (``MFS``; the core tops where the
+        section has none, with a warning), ``depth``, ``elevation`` or
+        ``datum_depth`` (:func:`hang_section`).
+    position_label
+        The wells table's position column, for the distance axis' label
+        (:func:`distance_label`: ``x_km`` reads "km").
+
+    Returns
+    -------
+    Path
+        The file written.
+    """
+    sections = sorted(correlation.wells["section"].unique())
+    if section is None:
+        if len(sections) != 1:
+            raise ConfigError(
+                f"the correlation has {len(sections)} sections ({', '.join(sections)}): "
+                "name one with section="
+            )
+        section = sections[0]
+    elif section not in sections:
+        raise ConfigError(f"no section {section!r}; the sections are {', '.join(sections)}")
+    datum, note = hanging_datum(correlation, section, datum)
+    if note:
+        warnings.warn(note, stacklevel=2)
+    units = next((core.units for core in interpretation), "m")
+    return section_figure(
+        correlation,
+        section,
+        interpretation.tracts_table(),
+        path,
+        datum=datum,
+        units=units,
+        position_label=position_label,
+        tract_order=tuple(interpretation.tracts),
+        surface_order=tuple(interpretation.surfaces),
+    )
 
 
 def section_plot(
