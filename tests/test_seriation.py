@@ -323,10 +323,27 @@ def test_fit_refuses_an_order_without_a_clear_direction_where_nothing_names_the_
     args = ["fit", str(source), "-o", str(tmp_path / "m.json"), "--restarts", "1"]
     assert main(args) == 1
     err = capsys.readouterr().err
-    assert "has no clear direction" in err and "--suggest-ranks" in err
+    assert "has no direction" in err and "--suggest-ranks" in err
     assert len(err.strip().splitlines()) == 1 and not (tmp_path / "m.json").exists()
     assert main([*args, "--suggest-ranks"]) == 0  # asked for: fitted, with the order printed
     assert "direction unclear" in capsys.readouterr().err
     # from Python the suggestion prints its verdict beside the share
     suggestion = suggest_ranks(read_cores(source, units="m").succession_table("beds"))
     assert "clear=False" in repr(suggestion) and "share=0.511" in repr(suggestion)
+
+
+def test_clean_shallowing_upward_cycles_are_fitted_without_a_scheme(tmp_path, capsys):
+    # every step of textbook parasequences leads landward and none is ever reversed (the
+    # neighbour steps are one way): the direction is clear by its share, so no refusal
+    codes = ["OSH", "OTZ", "LSF", "USF", "FS", "CP"]
+    rows, depth = [], 0.0
+    for core in ("P-1", "P-2", "P-3"):
+        for _cycle in range(6):
+            for code in reversed(codes):  # listed top-down: CP at the top of each cycle
+                rows.append((core, depth, depth + 1.0, code))
+                depth += 1.0
+    source = tmp_path / "parasequences.csv"
+    pd.DataFrame(rows, columns=["core", "top", "base", "facies"]).to_csv(source, index=False)
+    assert main(["fit", str(source), "-o", str(tmp_path / "m.json"), "--restarts", "1"]) == 0
+    err = capsys.readouterr().err
+    assert "ranks suggested from the data, landward to basinward: CP, FS, USF, LSF" in err

@@ -23,8 +23,9 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
         "order 'faciesseq scheme draft' suggests), fit on those ranks and print the order for "
         "a geologist to check. This is the default without --scheme, because without ranks "
         "a fit without labels cannot name the tracts and a fit with labels reads no rank "
-        "feature; but an order whose direction is unclear is refused where no labels name "
-        "the tracts, unless --suggest-ranks is given. --no-suggest-ranks fits without ranks",
+        "feature; but an order with no direction (under 0.6 of its steps leading landward) "
+        "is refused where no labels name the tracts, unless --suggest-ranks is given. "
+        "--no-suggest-ranks fits without ranks",
     )
     group.add_argument("--tracts", metavar="FILE", help="tract-model YAML (default: four tracts)")
     group.add_argument(
@@ -281,9 +282,10 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
     """The scheme the fits use: ``scheme`` (checked against the order the data's
     transitions suggest), else the ranks suggested from the data where
     ``args.ranks_suggested`` (:mod:`faciesseq.markov.seriation`), else None with a
-    warning where the fits have no labels to name the tracts. Suggested ranks whose
-    direction is unclear are refused where nothing else names the tracts (no labels)
-    unless ``--suggest-ranks`` asks for them: a new user's fit on an order read the wrong
+    warning where the fits have no labels to name the tracts. Suggested ranks with no
+    direction (:attr:`~faciesseq.markov.seriation.RankSuggestion.undirected`) are refused
+    where nothing else names the tracts (no labels) unless ``--suggest-ranks`` asks for
+    them: a new user's fit on an order read the wrong
     way round named the tracts wrongly (docs/hmm.md, "Ranks suggested from the data")."""
     from faciesseq.cli._common import settings_line
     from faciesseq.errors import InputError
@@ -308,13 +310,13 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         if not labelled:
             sys.stderr.write(f"faciesseq {command}: warning: {NO_RANKS}\n")
         return None
-    if not suggestion.clear and not labelled and args.suggest_ranks is None:
+    if suggestion.undirected and not labelled and args.suggest_ranks is None:
         raise InputError(
             "no --scheme, no labels, and the facies order the transitions suggest has no "
-            f"clear direction (landward to basinward {suggestion.describe()}): a fit on it "
-            "may name every tract upside down; give a scheme (faciesseq scheme draft "
-            "SOURCE --fill-ranks writes one to check), label a few cores (--labels), or fit "
-            "on this order anyway with --suggest-ranks",
+            f"direction (landward to basinward {suggestion.describe()}): a fit on it may "
+            "name every tract upside down; give a scheme (faciesseq scheme draft SOURCE "
+            f"--fill-ranks writes one to check), {_labels_way(command)}, or fit on this "
+            "order anyway with --suggest-ranks",
             file=args.source,
         )
     sys.stderr.write(
@@ -322,6 +324,13 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         f"{suggestion.describe()}; check them with faciesseq scheme draft --fill-ranks\n"
     )
     return suggestion.scheme()
+
+
+def _labels_way(command: str) -> str:
+    """How labels would name the tracts, as the command takes them."""
+    if command == "validate":  # its --labels score the folds; --mode decides their use
+        return "fit the folds on their labels (--mode supervised or semi-supervised)"
+    return "label a few cores (--labels)"
 
 
 #: What a fit without ranks and without labels is worth (docs/hmm.md, "Ranks suggested

@@ -128,6 +128,15 @@ class RankSuggestion:
             f"n_steps={self.n_steps}, one_way={list(self.one_way)}, clear={self.clear})"
         )
 
+    @property
+    def undirected(self) -> bool:
+        """Whether the transitions give the order no direction at all: fewer than
+        :data:`UNCLEAR_SHARE` of its steps lead landward, near what a coin gives. (A
+        neighbour step seen one way only also makes the direction unclear, :attr:`clear`,
+        but every step of clean shallowing-upward cycles is one way: a caution there,
+        not a reason to refuse the order.)"""
+        return self.share < UNCLEAR_SHARE
+
     def order(self) -> list[str]:
         """The facies from landward (rank 0) to basinward."""
         return sorted(self.ranks, key=self.ranks.__getitem__)
