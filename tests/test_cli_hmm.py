@@ -52,7 +52,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     out = capsys.readouterr().out
     assert "agreement with the interpreter's 'tract' column" in out
     # the cores were in the labelled fit: said, so that the figure is not read as accuracy
-    assert "all of them in the model's fit" in out and "not a test" in out
+    assert "all of them labelled in the model's fit" in out and "not a test" in out
     tracts = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)  # the '# ' line
     assert tracts.columns.tolist() == [
         "core",
@@ -77,35 +77,29 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
 
 def test_decode_says_which_labelled_cores_were_in_the_fit(database, tmp_path, capsys):
     cores = pd.read_csv(database / "cores.csv")
-    names = list(dict.fromkeys(cores["core"]))
-    train, other = tmp_path / "train.csv", tmp_path / "other.csv"
-    cores[cores["core"].isin(names[:5])].to_csv(train, index=False)
-    cores[cores["core"].isin(names[4:])].to_csv(other, index=False)  # one core in both
+    names = list(dict.fromkeys(cores["core"]))  # cores 1, 3, 5 and 7 carry labels
+    train = cores[cores["core"].isin(names[:5])].copy()
+    train.loc[train["core"] == names[4], "tract"] = None  # core 5 fitted, but unlabelled
+    train.to_csv(tmp_path / "train.csv", index=False)
     model = tmp_path / "model.json"
     scheme = str(database / "scheme.yaml")
-    fit = ["fit", str(train), "--scheme", scheme, "--labels", "tract", "--restarts", "1"]
-    assert main([*fit, "-o", str(model)]) == 0
-    capsys.readouterr()
-    assert main(["decode", str(model), str(other), "-o", str(tmp_path / "out")]) == 0
-    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("agreement"))
-    # cores 5 and 7 carry labels (every other core of the synthetic database); 5 was fitted
-    assert pd.read_csv(tmp_path / "out" / "agreement.csv")["core"].tolist() == names[4:7:2]
-    assert "in 2 core(s); 1 of them in the model's fit" in line, line
-    capsys.readouterr()
-    assert (
-        main(
-            [
-                "decode",
-                str(model),
-                str(cores_of(cores, names[6:], tmp_path)),
-                "-o",
-                str(tmp_path / "out2"),
-            ]
-        )
-        == 0
-    )
-    line = next(x for x in capsys.readouterr().out.splitlines() if x.startswith("agreement"))
-    assert "model's fit" not in line, line  # core 7 alone: never seen by the fit
+    fit = ["fit", str(tmp_path / "train.csv"), "--scheme", scheme, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    assert json.loads(model.read_text())["training"]["labelled_cores"] == names[0:4:2]
+
+    def agreement_line(wanted: list[str], out: str) -> str:
+        capsys.readouterr()
+        source = cores_of(cores, wanted, tmp_path)
+        assert main(["decode", str(model), str(source), "-o", str(tmp_path / out)]) == 0
+        out_lines = capsys.readouterr().out.splitlines()
+        return next(x for x in out_lines if x.startswith("agreement"))
+
+    # cores 3 (labelled in the fit) and 5 (in the fit without its labels)
+    line = agreement_line([names[2], names[4]], "a")
+    assert "in 2 core(s); 1 of them labelled in the model's fit" in line, line
+    # cores 5 and 7: labels the fit never saw, a test
+    line = agreement_line([names[4], names[6]], "b")
+    assert "model's fit" not in line, line
 
 
 def cores_of(cores: pd.DataFrame, names: list[str], folder) -> object:

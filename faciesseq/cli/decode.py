@@ -631,15 +631,16 @@ def _fitted_on(model, agreement) -> str:
     """What the agreement is worth where its cores were in the model's own fit: their
     labelled beds were held to their labels there, so agreeing with them tests nothing
     (a new user read 100 % on the training cores as the model's accuracy)."""
-    if not getattr(model, "n_labelled_", 0):
-        return ""
-    seen = [c for c in agreement["core"] if c in set(model.cores_)]
+    labelled = getattr(model, "labelled_cores_", None)
+    if not getattr(model, "n_labelled_", 0) or not labelled:
+        return ""  # a fit without labels, or a model file that does not say which
+    seen = [c for c in agreement["core"] if c in set(labelled)]
     if not seen:
         return ""
     which = "all of them" if len(seen) == len(agreement) else f"{len(seen)} of them"
     return (
-        f"; {which} in the model's fit, whose labelled beds it was given: agreement with its "
-        "own training labels, not a test (faciesseq validate cross-validates by core)"
+        f"; {which} labelled in the model's fit: agreement with its own training labels, "
+        "not a test (faciesseq validate cross-validates by core)"
     )
 
 

@@ -97,6 +97,19 @@ def fit_unit(unit: str, labelled: bool) -> str:
 CONTEXT_SUBSTATES = 3
 
 
+def _labelled_cores(data) -> tuple[str, ...]:
+    """The cores with a bed held to one tract in a fit (its clamp), in order."""
+    if data.clamp is None:
+        return ()
+    held = data.clamp.sum(axis=1) == 1
+    ends = np.cumsum(data.beds.lengths)
+    return tuple(
+        dict.fromkeys(
+            c for c, a, b in zip(data.cores, ends - data.beds.lengths, ends) if held[a:b].any()
+        )
+    )
+
+
 def _training_successions(
     data: Any, unit: str, step: float | None, labels: Any
 ) -> Sequence[Succession]:
@@ -258,6 +271,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     log_likelihood_ : float, training log-likelihood of the best restart
     n_train_beds_ : int
     labelled_beds_ : dict, beds labelled with each tract (empty without labels)
+    labelled_cores_ : tuple of str, the cores with labelled beds (empty without labels)
     label_graph_ : dict or None, in fits with labels and no ``tract_model``:
         ``graph`` (``"strict"`` or ``"permissive"``), ``n_boundaries`` (labelled
         tract changes) and ``n_forbidden`` (those the strict cyclic order does
@@ -701,6 +715,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self.n_labelled_ = n_labelled
         self.labelled_beds_ = labelled_beds(data.clamp, self.tract_model_.order)
         self.cores_ = tuple(dict.fromkeys(data.cores))
+        self.labelled_cores_ = _labelled_cores(data)
         self.graph_selection_ = []
         # The parameters of the last E-step are the returned ones, so the
         # recorded log-likelihood belongs to them.

@@ -21,6 +21,7 @@ and loading one runs no code. Layout (``version: 1``)::
                    best_restart, seed, calibration, cautions, units,
                    facies_beds, bed_thickness_median,   # `fit` on beds (absent: older)
                    labelled_mean_rank,   # `fit --labels` with ranks (absent: older)
+                   labelled_cores,   # `fit --labels`: the cores with labels (absent: older)
                    ...provenance given by the caller},
       "provenance": {"created": "2026-12-01T19:30:00+00:00", "command": [...]}
     }
@@ -152,6 +153,8 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         if isinstance(model.random_state, int | None)
         else "generator",
     }
+    if getattr(model, "labelled_cores_", None):
+        training["labelled_cores"] = list(model.labelled_cores_)
     if getattr(model, "weights_rejected_", None):
         training["evidence_weights_rejected"] = model.weights_rejected_
     if getattr(model, "nested_start_", None):
@@ -271,6 +274,9 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.n_train_beds_ = int(training.get("n_beds") or 0)
     model.n_labelled_ = int(training.get("n_labelled") or 0)
     model.cores_ = tuple(str(c) for c in training.get("cores") or ())
+    # older files do not say which cores were labelled: None, not "none of them"
+    listed = training.get("labelled_cores")
+    model.labelled_cores_ = None if listed is None else tuple(str(c) for c in listed)
     model.restarts_ = list(training.get("restarts") or [])
     model.graph_selection_ = list(training.get("graph_selection") or [])
     model.weights_rejected_ = training.get("evidence_weights_rejected")
