@@ -25,6 +25,7 @@ Scores, for the model and for the baseline (:func:`faciesseq.hmm.baseline.trend_
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -460,8 +461,13 @@ def _check_labelled_cores(succ: list[Succession], labels: str, mode: str) -> Non
             f"only {len(labelled)} core(s) carry labels in {labels!r} ({', '.join(labelled)}): "
             "supervised cross-validation by core trains each fold on labelled cores other "
             "than those it holds out, so it needs two or more; label another core, or use "
-            "mode='semi-supervised' (--mode semi-supervised on the command line)"
+            f"mode='semi-supervised' ({SEMI_OPTION})"
         )
+
+
+#: How the semi-supervised mode is asked for on the command line, where each command
+#: that cross-validates names its option.
+SEMI_OPTION = "--mode semi-supervised of validate, --validate-mode of appendix and demo"
 
 
 def _deal_cores(cores: list[str], folds: int, random_state: int | None) -> dict[str, int]:
@@ -492,12 +498,21 @@ def _deal_for_mode(
     The plain deal (:func:`_deal_cores`) is kept wherever it leaves every fold a
     labelled core to train on, so that its results stay as they were; in supervised
     mode a deal that puts every labelled core in one fold is replaced by
-    :func:`_deal_labelled_first`."""
+    :func:`_deal_labelled_first`; in semi-supervised mode too, where that fold's model
+    would otherwise be fitted without a label and its score be that of a fit without
+    labels. One labelled core in semi-supervised mode is warned of, for that reason."""
     cores = list(dict.fromkeys(s.core for s in succ))
     fold_of = _deal_cores(cores, folds, random_state)
-    if mode != "supervised":
+    if mode == "unsupervised":
         return fold_of, False
     labelled = list(dict.fromkeys(s.core for s in succ if _has_label(s, labels)))
+    if len(labelled) == 1 and mode == "semi-supervised":
+        warnings.warn(
+            f"only {labelled[0]!r} carries labels in {labels!r}: the fold holding it out is "
+            "fitted without a label, so the scores are those of a fit without labels; "
+            "label another core",
+            stacklevel=3,
+        )
     if len({fold_of[c] for c in labelled}) != 1 or len(labelled) < 2:
         return fold_of, False
     return _deal_labelled_first(cores, labelled, folds, random_state), True
@@ -515,7 +530,7 @@ def _training_cores(train: list[Succession], labels: str, mode: str, k: int) -> 
         raise ConfigError(
             f"fold {k + 1}: no training core carries labels in {labels!r}: every labelled "
             "core is held out in this fold; label another core, or use "
-            "mode='semi-supervised' (--mode semi-supervised on the command line)"
+            f"mode='semi-supervised' ({SEMI_OPTION})"
         )
     return train
 

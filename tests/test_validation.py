@@ -133,3 +133,17 @@ def test_two_labelled_cores_of_six_are_dealt_to_different_folds():
     assert kept.fold_of_core == plain
     assert "labelled_cores_dealt_first" not in kept.settings
     assert "dealt first" not in format_text(kept)
+
+
+def test_semi_supervised_folds_deal_the_labelled_cores_first_too_and_one_is_warned():
+    # the fold holding out both labelled cores was fitted without a label and scored as
+    # if semi-supervised (a second audit, 2026-12-05)
+    succ = synth.cores(6, 40, seed=52)
+    kwargs = {"folds": 3, "scheme": synth.scheme(), "n_restarts": 1, "random_state": 0}
+    two = _without_labels(succ, {"S-52-4", "S-52-5"})
+    result = cross_validate(two, "true_tract", mode="semi-supervised", **kwargs)
+    assert result.fold_of_core["S-52-4"] != result.fold_of_core["S-52-5"]
+    assert result.settings["labelled_cores_dealt_first"] is True
+    one = _without_labels(succ, {"S-52-4"})
+    with pytest.warns(UserWarning, match="only 'S-52-4' carries labels .* without labels"):
+        cross_validate(one, "true_tract", mode="semi-supervised", **kwargs)
