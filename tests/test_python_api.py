@@ -190,9 +190,10 @@ def test_arguments_of_the_wrong_kind_are_refused_in_one_line_naming_what_to_pass
     with pytest.raises(TypeError) as error:
         TractHMM(n_restarts=1, max_iter=2).fit(cores, labels=True)
     assert "labels= is the name of the bed column" in _one_line(error)
-    with pytest.raises(ConfigError) as error:
-        TractHMM(random_state="x").fit(cores)
-    assert "random_state must be a non-negative integer" in _one_line(error)
+    for seed in ("x", -1, 2**40):  # the last reached the trees' own range check
+        with pytest.raises(ConfigError) as error:
+            TractHMM(random_state=seed).fit(cores)
+        assert "random_state must be an integer from 0 to 4294967295" in _one_line(error)
 
 
 def test_write_appendix_into_an_existing_folder_names_force_both_ways(tmp_path):

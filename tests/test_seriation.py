@@ -181,6 +181,7 @@ def test_fit_with_suggested_ranks_reads_the_stacking_context(tmp_path, capsys):
 def test_a_table_of_successions_gives_what_the_successions_give():
     cores = council_grove_coreset()
     assert suggest_ranks(cores.succession_table("beds")) == suggest_ranks(cores.successions("beds"))
+    assert suggest_ranks(cores) == suggest_ranks(cores.successions("beds"))  # a core set too
 
 
 def _reversed_scheme(tmp_path: Path) -> tuple[Path, dict]:

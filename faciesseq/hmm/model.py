@@ -93,6 +93,9 @@ def fit_unit(unit: str, labelled: bool) -> str:
     return "intervals" if labelled else "beds"
 
 
+#: The largest seed: scikit-learn's trees take seeds of 32 bits, as ``--seed`` does.
+MAX_SEED = 2**32 - 1
+
 #: Sub-states per tract of fits on the stacking context (phase-type durations).
 CONTEXT_SUBSTATES = 3
 
@@ -355,11 +358,13 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self.scheme = as_scheme(self.scheme)
         seed = self.random_state
         if not (seed is None or isinstance(seed, np.random.Generator)) and (
-            isinstance(seed, bool) or not isinstance(seed, numbers.Integral) or seed < 0
+            isinstance(seed, bool)
+            or not isinstance(seed, numbers.Integral)
+            or not 0 <= seed <= MAX_SEED
         ):
             raise ConfigError(
-                f"random_state must be a non-negative integer, a numpy Generator or None, "
-                f"got {seed!r}"
+                f"random_state must be an integer from 0 to {MAX_SEED}, a numpy Generator or "
+                f"None, got {seed!r}"
             )
         if self.unit not in ("auto", *UNITS):
             raise ConfigError(f"unit must be one of auto, {', '.join(UNITS)}, got {self.unit!r}")

@@ -58,7 +58,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import SuccessionTable
+from faciesseq.core import CoreSet, SuccessionTable
 from faciesseq.markov.counts import _window_index, encode, encode_flat
 from faciesseq.markov.cyclicity import entropies
 from faciesseq.scheme import FaciesScheme
@@ -215,13 +215,16 @@ def step_counts(below: np.ndarray, above: np.ndarray, codes: Sequence) -> pd.Ser
 
 
 def suggest_ranks(
-    successions: Sequence | SuccessionTable | pd.Series, *, anchored: bool = False
+    successions: CoreSet | Sequence | SuccessionTable | pd.Series, *, anchored: bool = False
 ) -> RankSuggestion | None:
-    """Ranks of the facies of ``successions`` (beds base to top: a succession table,
-    successions of a core set, sequences of codes, or their :func:`upward_steps`) from
+    """Ranks of the facies of ``successions`` (beds base to top: a core set, read as its
+    amalgamated beds, a succession table, successions of a core set, sequences of
+    codes, or their :func:`upward_steps`) from
     their upward transitions; ``None`` where fewer than three facies, or more than
     :data:`MOST_FACIES`, meet in transitions. ``anchored``: the path starts at
     :func:`flooded_facies` (measured in ``benchmarks/tract_model.md``, 2026-12-05)."""
+    if isinstance(successions, CoreSet):  # as fit and scheme draft read it
+        successions = successions.succession_table("beds")
     steps = successions if isinstance(successions, pd.Series) else upward_steps(successions)
     below, above = steps.index.get_level_values(0), steps.index.get_level_values(1)
     steps = steps[(steps.to_numpy() > 0) & (below != above)]
