@@ -221,6 +221,23 @@ def test_las_step_that_misses_a_thin_bed_is_warned_with_the_step_that_keeps_it(t
     assert "no sample" not in las.other
 
 
+def test_las_step_longer_than_a_well_is_refused_and_one_sample_keeps_its_step(tmp_path):
+    # a step of twice core V (2 m) wrote files of no sample and STRT = STOP = STEP = 0;
+    # one sample wrote STEP 0, lasio working it out from the depths
+    from faciesseq.errors import ConfigError
+    from faciesseq.report.exports import write_las_files
+
+    interp = _thin_bed_interpretation()
+    with pytest.raises(ConfigError, match=r"core V: LAS step 4 leaves the well without"):
+        write_las_files(interp, tmp_path / "a", step=4.0)
+    assert not (tmp_path / "a").exists()
+    with pytest.warns(UserWarning):  # core W's thin beds
+        paths = write_las_files(interp, tmp_path / "b", step=3.0)
+    one = lasio.read(next(p for p in paths if p.stem == "V"))
+    assert len(one["DEPT"]) == 1 and one.well["STEP"].value == 3.0
+    assert one.well["STRT"].value == one.well["STOP"].value == 11.5
+
+
 def test_las_of_decode_and_of_write_cores_sample_the_same_cell_centres(tmp_path):
     """Both writers put a sample at the centre of each cell one step thick from the
     core's top (STRT = top + step/2, as the samples layout reads a sample back), so

@@ -28,7 +28,7 @@ from faciesseq.io.columns import ROLES, _key, normalise_units
 from faciesseq.io.raw import RawTable
 from faciesseq.io.tabular import decode_text
 
-__all__ = ["LAS_NULL", "read_las", "write_las"]
+__all__ = ["LAS_NULL", "header_depths", "read_las", "write_las"]
 
 #: Null value written in the header of the LAS files this project writes.
 LAS_NULL = -999.25
@@ -224,6 +224,13 @@ def _regular_step(core, step: float | None) -> float:
     )
 
 
+def header_depths(las) -> dict[str, float]:
+    """``STRT``, ``STOP`` and ``STEP`` as set in the ~Well section, for ``LASFile.write``:
+    left to itself lasio works them out from the depths, and a well of one sample got
+    ``STEP 0`` (the step it was written at is the one to state)."""
+    return {key: las.well[key].value for key in ("STRT", "STOP", "STEP")}
+
+
 def write_las(core, path: Path, step: float | None = None) -> None:
     """Write one core as a LAS 2.0 file on a regular depth grid (sample centres).
 
@@ -279,4 +286,4 @@ def write_las(core, path: Path, step: float | None = None) -> None:
     for key in ("STRT", "STOP", "STEP"):
         las.well[key].unit = unit
     with open(path, "w", encoding="utf-8", newline="\n") as handle:
-        las.write(handle, version=2.0, fmt="%.10g")
+        las.write(handle, version=2.0, fmt="%.10g", **header_depths(las))

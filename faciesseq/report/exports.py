@@ -330,6 +330,7 @@ def write_las_files(
     file says how many of its beds are not in the curves.
     """
     from faciesseq._optional import import_optional
+    from faciesseq.io.las import header_depths
     from faciesseq.io.writer import FileStems
 
     lasio = import_optional("lasio", "writing LAS files (decode --format las)")
@@ -345,6 +346,12 @@ def write_las_files(
     for core in interp:
         if len(core.beds):
             span = float(core.beds["base"].max() - core.beds["top"].min())
+            if step >= 2 * span:  # the first cell's centre below the well's base
+                raise ConfigError(
+                    f"LAS step {step:g} leaves the well without a sample (it is "
+                    f"{span:.4g} {core.units} long); give a --las-step below {2 * span:.4g}",
+                    core=core.core,
+                )
             if span / step > MAX_LAS_SAMPLES:
                 raise ConfigError(
                     f"LAS step {step:g} would make about {int(span / step):,} samples "
@@ -368,7 +375,7 @@ def write_las_files(
         note = _well_note(interp, core, step, counts)
         las.other = _other_text(interp, core.units, step, how, facies, tracts, note)
         with open(path, "w", encoding="utf-8", newline="\n") as handle:
-            las.write(handle, version=2.0, fmt="%.10g")
+            las.write(handle, version=2.0, fmt="%.10g", **header_depths(las))
         written.append(path)
     return written
 
