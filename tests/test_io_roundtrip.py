@@ -72,6 +72,27 @@ def test_sqlite_extra_tables_and_table_option(tmp_path):
         write_cores(cores, tmp_path / "c.csv", tables={"truth": extra})
 
 
+def test_sqlite_views_names_in_any_case_and_an_empty_file(tmp_path):
+    # a geologist's view was "no table"; LOGS for logs was refused although SQLite
+    # matches names in any case; an empty file said "say which table (tables: none)"
+    import sqlite3
+
+    cores = _cores("m")
+    path = tmp_path / "db.sqlite"
+    write_cores(cores, path, tables={"extra": pd.DataFrame({"a": [1]})})
+    with sqlite3.connect(path) as conn:
+        conn.execute("CREATE VIEW upper_cores AS SELECT * FROM intervals WHERE core = 'W-1'")
+    conn.close()
+    assert read_cores(path, table="upper_cores").names == ["W-1"]
+    assert read_cores(path, table="INTERVALS").names == cores.names
+    with pytest.raises(InputError, match=r"no table 'nothing'; .* the views are upper_cores"):
+        read_cores(path, table="nothing")
+    empty = tmp_path / "empty.sqlite"
+    empty.write_bytes(b"")
+    with pytest.raises(InputError, match="the database has no tables"):
+        read_cores(empty)
+
+
 def test_writer_is_atomic_and_leaves_no_temporary_files(tmp_path):
     cores = _cores()
     path = tmp_path / "c.csv"

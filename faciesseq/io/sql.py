@@ -30,6 +30,8 @@ _SQLITE_TABLES = (
     "SELECT name FROM sqlite_master WHERE type = 'table' "
     "AND name NOT LIKE 'sqlite~_%' ESCAPE '~' ORDER BY name"
 )
+#: Views: read where --table names one, never chosen by default.
+_SQLITE_VIEWS = "SELECT name FROM sqlite_master WHERE type = 'view' ORDER BY name"
 
 
 def is_url(source: str) -> bool:
@@ -65,8 +67,14 @@ def _sqlite_file(source: str) -> tuple[Path, str, str] | None:
     return Path(database[1:]), source, "database file not found"
 
 
-def _choose_table(tables: list[str], table: str | None, label: str) -> str:
-    """The table to read: ``table``, else the only one or one of the usual names."""
+def _choose_table(
+    tables: list[str], table: str | None, label: str, views: list[str] | None = None
+) -> str:
+    """The table to read: ``table`` (a table or a view, matched in any case where its
+    own spelling is not there, as SQLite matches names), else the only table or one of
+    the usual names."""
+    if not tables and not views:
+        raise InputError("the database has no tables", file=label)
     if table is None:
         found = [t for t in _DEFAULT_TABLES if t in tables]
         if len(tables) == 1:
@@ -77,11 +85,16 @@ def _choose_table(tables: list[str], table: str | None, label: str) -> str:
             f"say which table to read with --table (tables: {', '.join(tables) or 'none'})",
             file=label,
         )
-    if table not in tables:
-        raise InputError(
-            f"no table {table!r}; the tables are {', '.join(tables) or 'none'}", file=label
-        )
-    return table
+    names = [*tables, *(views or ())]
+    if table in names:
+        return table
+    folded = [n for n in names if n.casefold() == table.casefold()]
+    if len(folded) == 1:
+        return folded[0]
+    listed = ", ".join(tables) or "none"
+    if views:
+        listed += f"; the views are {', '.join(views)}"
+    raise InputError(f"no table {table!r}; the tables are {listed}", file=label)
 
 
 def _failure(exc: BaseException, query: str | None, label: str, secret: str | None):
@@ -193,7 +206,7 @@ def read_sql(source: str, table: str | None = None, query: str | None = None) ->
         def read(conn, label: str) -> tuple[pd.DataFrame, str]:
             if query:
                 return pd.read_sql_query(_check_query(query, label), conn), "query"
-            name = _choose_table(_sqlite_tables(conn), table, label)
+            name = _choose_table(_sqlite_tables(conn), table, label, _sqlite_views(conn))
             quoted = '"' + name.replace('"', '""') + '"'
             return pd.read_sql_query(f"SELECT * FROM {quoted}", conn), name
 
@@ -205,7 +218,8 @@ def read_sql(source: str, table: str | None = None, query: str | None = None) ->
 
             if query:
                 return pd.read_sql_query(text(_check_query(query, label)), conn), "query"
-            name = _choose_table(_sqlalchemy_tables(conn), table, label)
+            views = _sqlalchemy_views(conn) if table else []
+            name = _choose_table(_sqlalchemy_tables(conn), table, label, views)
             quoted = conn.dialect.identifier_preparer.quote(name)
             return pd.read_sql_query(text(f"SELECT * FROM {quoted}"), conn), name
 
@@ -218,10 +232,20 @@ def _sqlite_tables(conn) -> list[str]:
     return [row[0] for row in conn.execute(_SQLITE_TABLES)]
 
 
+def _sqlite_views(conn) -> list[str]:
+    return [row[0] for row in conn.execute(_SQLITE_VIEWS)]
+
+
 def _sqlalchemy_tables(conn) -> list[str]:
     from sqlalchemy import inspect
 
     return inspect(conn).get_table_names()
+
+
+def _sqlalchemy_views(conn) -> list[str]:
+    from sqlalchemy import inspect
+
+    return inspect(conn).get_view_names()
 
 
 def _sqlite_read(path: Path, label: str, missing: str, read, query: str | None):
