@@ -59,6 +59,13 @@ def test_sqlite_extra_tables_and_table_option(tmp_path):
     assert query.names == ["W-1"]
     with pytest.raises(ConfigError, match="read-only"):
         read_cores(path, query="DELETE FROM intervals")
+    # words and semicolons inside quoted text or comments are data, not statements
+    safe = "-- the first well\nSELECT * FROM intervals WHERE core <> 'a;b' AND core <> 'update'"
+    assert read_cores(path, query=safe).names == cores.names
+    assert read_cores(path, query="/* one */ SELECT * FROM intervals;").names == cores.names
+    for unsafe in ("SELECT 1; DROP TABLE intervals", "WITH x AS (SELECT 1) DELETE FROM t"):
+        with pytest.raises(ConfigError, match=r"single statement|read-only"):
+            read_cores(path, query=unsafe)
     import sqlite3
 
     other = tmp_path / "other.db"

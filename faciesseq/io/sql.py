@@ -109,14 +109,22 @@ def _failure(exc: BaseException, query: str | None, label: str, secret: str | No
     return InputError(f"{what}: {_scrub(str(detail), secret)}", file=label)
 
 
+#: Quoted text and comments of SQL, blanked before a query's words are checked.
+_NOT_CODE = re.compile(r"'(?:[^']|'')*'|\"(?:[^\"]|\"\")*\"|--[^\n]*|/\*.*?\*/", re.S)
+
+
 def _check_query(query: str, where: str) -> str:
+    """The query, checked to be one read-only statement. Its quoted text and comments
+    are left out of the check (``WHERE note = 'update'`` and ``'a;b'`` are data, and a
+    query may open with a comment); the database is opened read-only where it can be."""
     text = query.strip().rstrip(";").strip()
-    if ";" in text:
+    code = _NOT_CODE.sub(" ", text)
+    if ";" in code.strip().rstrip(";"):
         raise ConfigError("--query must be a single statement", file=where)
-    first = re.match(r"^\s*(\w+)", text)
+    first = re.match(r"^\s*(\w+)", code)
     if not first or first.group(1).lower() not in ("select", "with"):
         raise ConfigError("--query must be a read-only SELECT statement", file=where)
-    if re.search(r"\b(insert|update|delete|drop|alter|create|truncate|grant)\b", text, re.I):
+    if re.search(r"\b(insert|update|delete|drop|alter|create|truncate|grant)\b", code, re.I):
         raise ConfigError("--query must be read-only (no INSERT, UPDATE, DELETE, ...)", file=where)
     return text
 
