@@ -164,6 +164,10 @@ def test_python_example_of_the_correlation_docs_runs(monkeypatch, tmp_path):
     assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     with pytest.raises(ConfigError, match="has 3 sections"):  # which one, asked
         draw_section(corr, scope["interp"], tmp_path / "s.png")
+    with pytest.raises(ConfigError, match=r"written as \.png, \.pdf or \.svg"):
+        draw_section(corr, scope["interp"], tmp_path / "s.txt", section="central")
+    with pytest.raises(ConfigError, match="datum 'bogus' is none of depth"):
+        draw_section(corr, scope["interp"], tmp_path / "s.png", section="central", datum="bogus")
 
 
 # 4. messages read by both users

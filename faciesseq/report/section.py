@@ -24,6 +24,7 @@ from matplotlib.patches import Patch, Polygon, Rectangle
 from faciesseq.errors import ConfigError
 from faciesseq.report.style import (
     PAGE_WIDTH,
+    check_figure_path,
     figure_style,
     new_figure,
     save_figure,
@@ -363,6 +364,14 @@ def draw_section(
     Path
         The file written.
     """
+    path = check_figure_path(path)
+    if datum not in ("depth", "elevation", "datum_depth") and ":" not in datum:
+        kinds = tuple(interpretation.surfaces)
+        if datum not in kinds:
+            raise ConfigError(
+                f"datum {datum!r} is none of depth, elevation, datum_depth, a surface "
+                f"({', '.join(kinds)}) or a correlated surface's id (central:MFS-2)"
+            )
     sections = sorted(correlation.wells["section"].unique())
     if section is None:
         if len(sections) != 1:

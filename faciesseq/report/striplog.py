@@ -21,7 +21,6 @@ from __future__ import annotations
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -30,11 +29,12 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
-from faciesseq.errors import ConfigError, InputError
+from faciesseq.errors import InputError
 from faciesseq.interpretation import CoreInterpretation, Interpretation, core_list
 from faciesseq.report.document import format_probability
 from faciesseq.report.style import (
     PAGE_WIDTH,
+    check_figure_path,
     facies_colour,
     figure_style,
     new_figure,
@@ -45,12 +45,10 @@ from faciesseq.report.style import (
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = [
-    "FIGURE_SUFFIXES",
     "GRAIN_CLASSES",
     "UNCHECKED_NOTE",
     "UNLABELLED_NOTE",
     "bed_widths",
-    "check_figure_path",
     "facies_name",
     "plain",
     "strip_log",
@@ -64,8 +62,6 @@ UNCHECKED_NOTE = "probabilities not checked"
 #: Printed under the probability track of a core decoded by a fit without labels.
 UNLABELLED_NOTE = "tract names from priors (no labels)"
 _GAP = "#f0f0f0"
-#: Suffixes of the figure files written (the format follows the suffix).
-FIGURE_SUFFIXES = (".png", ".pdf", ".svg")
 #: Right end of the surface panel: a pick at probability 1 keeps its marker inside.
 _SURFACE_XMAX = 1.1
 
@@ -682,23 +678,6 @@ def _one_core(interp) -> CoreInterpretation:
         f"Interpretation that TractHMM.decode returns), got {type(interp).__name__} "
         f"{interp!r:.60}"
     )
-
-
-def check_figure_path(path: str | os.PathLike) -> Path:
-    """``path`` as a :class:`~pathlib.Path`, if a figure may be written there: a
-    ``.png``, ``.pdf`` or ``.svg`` file in a folder that exists (as
-    :func:`faciesseq.hmm.save_model` refuses a missing folder)."""
-    path = Path(path)
-    if path.suffix.lower() not in FIGURE_SUFFIXES:
-        found = repr(path.suffix) if path.suffix else "a name without one"
-        raise ConfigError(
-            f"a figure is written as .png, .pdf or .svg (by its suffix), not {found}",
-            file=str(path),
-        )
-    parent = path.parent if str(path.parent) else Path(".")
-    if not parent.is_dir():
-        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))
-    return path
 
 
 def strip_logs(

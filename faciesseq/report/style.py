@@ -25,11 +25,14 @@ import numpy as np
 from matplotlib.figure import Figure
 
 from faciesseq._output import write_file
+from faciesseq.errors import ConfigError
 
 __all__ = [
+    "FIGURE_SUFFIXES",
     "PAGE_WIDTH",
     "SURFACE_COLOURS",
     "TRACT_COLOURS",
+    "check_figure_path",
     "facies_colour",
     "figure_style",
     "missing_glyphs_once",
@@ -346,3 +349,24 @@ def save_figure(fig: Figure, path: str | os.PathLike, **kwargs) -> Path:
         options = {"bbox_inches": "tight"} | savefig_options(fmt) | kwargs
         fig.savefig(buffer, format=fmt, **options)
     return write_file(path, buffer.getvalue())
+
+
+#: Suffixes of the figure files written (the format follows the suffix).
+FIGURE_SUFFIXES = (".png", ".pdf", ".svg")
+
+
+def check_figure_path(path: str | os.PathLike) -> Path:
+    """``path`` as a :class:`~pathlib.Path`, if a figure may be written there: a
+    ``.png``, ``.pdf`` or ``.svg`` file in a folder that exists (as
+    :func:`faciesseq.hmm.save_model` refuses a missing folder)."""
+    path = Path(path)
+    if path.suffix.lower() not in FIGURE_SUFFIXES:
+        found = repr(path.suffix) if path.suffix else "a name without one"
+        raise ConfigError(
+            f"a figure is written as .png, .pdf or .svg (by its suffix), not {found}",
+            file=str(path),
+        )
+    parent = path.parent if str(path.parent) else Path(".")
+    if not parent.is_dir():
+        raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))
+    return path
