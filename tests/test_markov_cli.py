@@ -173,3 +173,21 @@ def test_no_transitions_says_why_in_one_line(tmp_path, capsys, rows, message):
     assert main(["markov", str(source)]) == 1
     err = capsys.readouterr().err.strip().splitlines()
     assert any(message in line for line in err) and "Traceback" not in "\n".join(err)
+
+
+def test_an_order_test_without_degrees_of_freedom_says_why_it_has_no_p_value():
+    # strict cycles X Y Z: every context has one successor, nothing left to compare;
+    # the test was listed with p None and an empty note
+    import faciesseq as fs
+
+    rows, depth = [], 0.0
+    for core in ("A", "B"):
+        for code in ["X", "Y", "Z"] * 4:
+            rows.append((core, depth, depth + 1.0, code))
+            depth += 1.0
+    frame = pd.DataFrame(rows, columns=["core", "top", "base", "facies"])
+    report = fs.analyse(fs.CoreSet.from_frame(frame, units="m"))
+    tested = {t.name: t for t in report.order.tests}
+    assert tested["order 1 vs 2 (G2)"].dof == 0
+    assert tested["order 1 vs 2 (G2)"].note.startswith("not testable: 0 degrees of freedom")
+    assert tested["order 0 vs 1 (G2)"].note == ""

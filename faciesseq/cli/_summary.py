@@ -94,7 +94,7 @@ def summary_lines(
     list of str
         Lines without newlines.
     """
-    cycles = ", cycles" if wells and "cycles" in wells[0] else ""
+    cycles = ", parasequence-scale cycles" if wells and "cycles" in wells[0] else ""
     what = "" if labelled else f": {UNLABELLED_PROBABILITY}"
     head = (
         f"per well (thickness per tract{cycles}, surface picks, mean probability of the "

@@ -185,6 +185,12 @@ def order_tests(enc: EncodedSuccessions, max_order: int, embedded: bool) -> tupl
         g2, chi2, dof = conditional_g2(_context_table(runs, m))
         n = int(runs.sum())
         null = f"order {k}: given the {k} facies below, the one {k + 1} below does not matter"
+        # no context seen with two facies below it and two above: nothing to compare
+        note = (
+            ""
+            if dof > 0
+            else "not testable: 0 degrees of freedom (the contexts seen leave nothing to compare)"
+        )
         g_tests.append(
             TestResult(
                 f"order {k} vs {k + 1} (G2)",
@@ -193,6 +199,7 @@ def order_tests(enc: EncodedSuccessions, max_order: int, embedded: bool) -> tupl
                 _chi2_sf(float(g2), int(dof)),
                 n,
                 null=null,
+                note=note,
             )
         )
         p_tests.append(
@@ -203,6 +210,7 @@ def order_tests(enc: EncodedSuccessions, max_order: int, embedded: bool) -> tupl
                 _chi2_sf(float(chi2), int(dof)),
                 n,
                 null=null,
+                note=note,
             )
         )
     return g_tests, p_tests
