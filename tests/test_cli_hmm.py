@@ -52,7 +52,7 @@ def test_fit_then_decode_writes_the_documented_tables(database, tmp_path, capsys
     out = capsys.readouterr().out
     assert "agreement with the interpreter's 'tract' column" in out
     # the cores were in the labelled fit: said, so that the figure is not read as accuracy
-    assert "all of them labelled in the model's fit" in out and "not a test" in out
+    assert "all of these cores labelled in the model's fit" in out and "not a test" in out
     tracts = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)  # the '# ' line
     assert tracts.columns.tolist() == [
         "core",
@@ -96,10 +96,16 @@ def test_decode_says_which_labelled_cores_were_in_the_fit(database, tmp_path, ca
 
     # cores 3 (labelled in the fit) and 5 (in the fit without its labels)
     line = agreement_line([names[2], names[4]], "a")
-    assert "in 2 core(s); 1 of them labelled in the model's fit" in line, line
+    assert "in 2 core(s); 1 of these cores labelled in the model's fit" in line, line
     # cores 5 and 7: labels the fit never saw, a test
     line = agreement_line([names[4], names[6]], "b")
     assert "model's fit" not in line, line
+    # the JSON summary names the cores whose agreement tests nothing, as the line does
+    source = cores_of(cores, [names[2], names[4]], tmp_path)
+    capsys.readouterr()
+    argv = ["decode", str(model), str(source), "--summary", "json", "-o", str(tmp_path / "c")]
+    assert main(argv) == 0
+    assert json.loads(capsys.readouterr().out)["agreement_cores_labelled_in_fit"] == [names[2]]
 
 
 def cores_of(cores: pd.DataFrame, names: list[str], folder) -> object:

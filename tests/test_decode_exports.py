@@ -229,8 +229,13 @@ def test_las_step_longer_than_a_well_is_refused_and_one_sample_keeps_its_step(tm
 
     interp = _thin_bed_interpretation()
     with pytest.raises(ConfigError, match=r"core V: LAS step 4 leaves the well without"):
-        write_las_files(interp, tmp_path / "a", step=4.0)
+        write_las_files(interp, tmp_path / "a", step=4.0)  # the first centre on the base
     assert not (tmp_path / "a").exists()
+    # the refusal asks the grid itself: 10.3 - 10.0 is a hair above 0.3, and a check of
+    # step >= 2 * span let a step of 0.6 write a well of no sample
+    from faciesseq.report.exports import _grid
+
+    assert not len(_grid(10.0, 10.3, 0.6)) and len(_grid(10.0, 10.3, 0.3)) == 1
     with pytest.warns(UserWarning):  # core W's thin beds
         paths = write_las_files(interp, tmp_path / "b", step=3.0)
     one = lasio.read(next(p for p in paths if p.stem == "V"))

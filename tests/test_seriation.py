@@ -182,6 +182,9 @@ def test_a_table_of_successions_gives_what_the_successions_give():
     cores = council_grove_coreset()
     assert suggest_ranks(cores.succession_table("beds")) == suggest_ranks(cores.successions("beds"))
     assert suggest_ranks(cores) == suggest_ranks(cores.successions("beds"))  # a core set too
+    assert suggest_ranks(cores.subset([])) is None  # no core: nothing to order
+    with pytest.raises(TypeError, match=r"CoreSet\.from_frame"):
+        suggest_ranks(cores.to_frame())
 
 
 def _reversed_scheme(tmp_path: Path) -> tuple[Path, dict]:

@@ -312,11 +312,11 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         return None
     if suggestion.undirected and not labelled and args.suggest_ranks is None:
         raise InputError(
-            "no --scheme, no labels, and the facies order the transitions suggest has no "
-            f"direction (landward to basinward {suggestion.describe()}): a fit on it may "
-            "name every tract upside down; give a scheme (faciesseq scheme draft SOURCE "
-            f"--fill-ranks writes one to check), {_labels_way(command)}, or fit on this "
-            "order anyway with --suggest-ranks",
+            f"no --scheme, {_no_labels(command)}, and the facies order the transitions "
+            f"suggest has no direction; landward to basinward {suggestion.describe()}: a "
+            "fit on it may name every tract upside down; give a scheme (faciesseq scheme "
+            f"draft SOURCE --fill-ranks writes one to check), {_labels_way(command)}, or "
+            "fit on this order anyway with --suggest-ranks",
             file=args.source,
         )
     sys.stderr.write(
@@ -324,6 +324,11 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         f"{suggestion.describe()}; check them with faciesseq scheme draft --fill-ranks\n"
     )
     return suggestion.scheme()
+
+
+def _no_labels(command: str) -> str:
+    """That the fits read no labels, as the command puts it."""
+    return "folds fitted without labels" if command == "validate" else "no labels"
 
 
 def _labels_way(command: str) -> str:

@@ -627,17 +627,23 @@ def _overall_agreement(agreement) -> float | None:
     return float((agreement["agreement_beds"] * w).sum() / w.sum())
 
 
-def _fitted_on(model, agreement) -> str:
-    """What the agreement is worth where its cores were in the model's own fit: their
-    labelled beds were held to their labels there, so agreeing with them tests nothing
-    (a new user read 100 % on the training cores as the model's accuracy)."""
+def _labelled_in_fit(model, agreement) -> list[str] | None:
+    """The cores of the agreement that were labelled in the model's own fit (their beds
+    held to those labels there, so agreeing with them tests nothing: a new user read 100 %
+    on the training cores as the model's accuracy); None where the model file does not
+    say which cores held labels (an older file) or the fit had none."""
     labelled = getattr(model, "labelled_cores_", None)
     if not getattr(model, "n_labelled_", 0) or not labelled:
-        return ""  # a fit without labels, or a model file that does not say which
-    seen = [c for c in agreement["core"] if c in set(labelled)]
+        return None
+    return [c for c in agreement["core"] if c in set(labelled)]
+
+
+def _fitted_on(model, agreement) -> str:
+    """The words the agreement line adds for :func:`_labelled_in_fit`."""
+    seen = _labelled_in_fit(model, agreement)
     if not seen:
         return ""
-    which = "all of them" if len(seen) == len(agreement) else f"{len(seen)} of them"
+    which = "all of these cores" if len(seen) == len(agreement) else f"{len(seen)} of these cores"
     return (
         f"; {which} labelled in the model's fit: agreement with its own training labels, "
         "not a test (faciesseq validate cross-validates by core)"
@@ -675,20 +681,25 @@ def _print_text(args, model, scheme, written: _Written) -> None:
     print(f"written to {args.output}/ (tracts, surfaces, picks, tops as {shown})")
 
 
-def _print_json(args, scheme, written: _Written) -> None:
+def _print_json(args, model, scheme, written: _Written) -> None:
     from faciesseq.cli._summary import print_json, rounded, summary_document
     from faciesseq.interpretation import Interpretation
 
+    agreement = written.summary()[2]
     doc = summary_document(
         Interpretation.concat(written.parts),
         scheme,
         "decode",
         output=str(args.output),
         format=args.format,
-        agreement=rounded(_overall_agreement(written.summary()[2])),
+        agreement=rounded(_overall_agreement(agreement)),
     )
     if args.keep_labels:  # held to their labels: no agreement to report, the count instead
         doc["clamped_beds"] = written.clamped
+    elif agreement is not None:
+        seen = _labelled_in_fit(model, agreement)
+        if seen is not None:  # the cores whose agreement tests nothing, as the text says
+            doc["agreement_cores_labelled_in_fit"] = seen
     print_json(doc)
 
 
@@ -797,7 +808,7 @@ def _run(args: argparse.Namespace) -> int:
                 stacklevel=1,
             )
     if args.summary == "json":
-        _print_json(args, scheme, written)
+        _print_json(args, model, scheme, written)
     else:
         _print_text(args, model, scheme, written)
     if args.review_sheet:

@@ -224,7 +224,14 @@ def suggest_ranks(
     :data:`MOST_FACIES`, meet in transitions. ``anchored``: the path starts at
     :func:`flooded_facies` (measured in ``benchmarks/tract_model.md``, 2026-12-05)."""
     if isinstance(successions, CoreSet):  # as fit and scheme draft read it
+        if not len(successions.names):
+            return None
         successions = successions.succession_table("beds")
+    elif isinstance(successions, pd.DataFrame):
+        raise TypeError(
+            "suggest_ranks reads a CoreSet or its successions, not a DataFrame: "
+            "CoreSet.from_frame(frame) reads one"
+        )
     steps = successions if isinstance(successions, pd.Series) else upward_steps(successions)
     below, above = steps.index.get_level_values(0), steps.index.get_level_values(1)
     steps = steps[(steps.to_numpy() > 0) & (below != above)]

@@ -345,8 +345,9 @@ def write_las_files(
         how = "given (--las-step)"
     for core in interp:
         if len(core.beds):
-            span = float(core.beds["base"].max() - core.beds["top"].min())
-            if step >= 2 * span:  # the first cell's centre below the well's base
+            top, base = float(core.beds["top"].min()), float(core.beds["base"].max())
+            span = base - top
+            if not len(_grid(top, base, step)):  # the first cell's centre at its base or below
                 raise ConfigError(
                     f"LAS step {step:g} leaves the well without a sample (it is "
                     f"{span:.4g} {core.units} long); give a --las-step below {2 * span:.4g}",
