@@ -346,14 +346,18 @@ def test_wells_at_one_position_are_a_warning_naming_them():
 
 
 def test_correlate_from_python_converts_elevations_stated_in_the_other_unit():
-    from faciesseq.correlation.chain import well_frame
-
+    picks, extents, _ = _picks_section(n_wells=2)
     frame = pd.DataFrame(
-        {"core": ["A", "B"], "distance": [0.0, 1.0], "elevation_ft": [100.0, 50.0]}
+        {"core": ["W0", "W1"], "distance": [0.0, 1.0], "elevation_ft": [100.0, 50.0]}
     )
-    assert well_frame(frame, "m")["elevation"].tolist() == pytest.approx([30.48, 15.24])
-    assert well_frame(frame)["elevation"].tolist() == [100.0, 50.0]  # units not given
-    assert well_frame(wells_from_frame(frame), "ft")["elevation"].tolist() == [100.0, 50.0]
+
+    def elevations(wells, units):
+        corr = correlate(picks, extents, wells, units=units)
+        return corr.wells.set_index("core")["elevation"].loc[["W0", "W1"]].tolist()
+
+    assert elevations(frame, "m") == pytest.approx([30.48, 15.24])
+    assert elevations(frame, None) == [100.0, 50.0]  # units not given
+    assert elevations(wells_from_frame(frame), "ft") == [100.0, 50.0]
 
 
 def _shifts(corr, section, datum):

@@ -39,7 +39,6 @@ from faciesseq.correlation.align import (
 from faciesseq.correlation.wells import (
     WellTable,
     check_wells,
-    in_depth_units,
     wells_from_frame,
 )
 
@@ -54,7 +53,7 @@ DISPUTED = 0.5
 #: of wells the positional alignment leaves without a tie; such a tie is always doubtful.
 ORDER_ONLY = 0.5
 
-__all__ = ["Correlation", "correlate", "correlate_interpretation", "well_frame"]
+__all__ = ["Correlation", "correlate", "correlate_interpretation"]
 
 #: Columns of :meth:`Correlation.to_frame`.
 COLUMNS = (
@@ -338,17 +337,11 @@ def _extents(extents) -> dict[str, tuple[float, float]]:
     return dict(extents)
 
 
-def well_frame(wells: pd.DataFrame | WellTable, units: str | None = None) -> pd.DataFrame:
-    """The checked frame of a wells table (``core, section, position`` ...): that of a
-    :class:`WellTable`; a data frame already so checked as it is; any other data frame
-    checked by :func:`wells_from_frame`, its warnings issued as Python warnings. With
-    ``units``, elevations and datum depths whose column names stated the other unit
-    are converted to them (:func:`~faciesseq.correlation.wells.in_depth_units`)."""
-    return in_depth_units(_well_table(wells), units).frame
-
-
 def _well_table(wells: pd.DataFrame | WellTable) -> WellTable:
-    """A wells table as :func:`well_frame` reads it, not yet in the cores' units."""
+    """The :class:`WellTable` of ``wells``: itself; a data frame already checked (``core,
+    section, position``) as it is; any other data frame checked by
+    :func:`wells_from_frame`, its warnings issued as Python warnings. Not yet in the
+    cores' units (:func:`_checked_wells` converts them)."""
     if isinstance(wells, WellTable):
         return wells
     if not isinstance(wells, pd.DataFrame):
