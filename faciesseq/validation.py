@@ -662,9 +662,10 @@ def cross_validate(
         Bed column with the interpreter's tract (blank = unlabelled, not scored).
     folds
         Number of folds (at most the number of cores). The cores are shuffled
-        (seeded) and dealt round the folds; in supervised mode, where that deal would
-        put every labelled core in one fold (leaving it none to train on), the
-        labelled cores are dealt first and the unlabelled ones continue the round.
+        (seeded) and dealt round the folds; in supervised and semi-supervised mode,
+        where that deal would put every labelled core in one fold (leaving it none to
+        train on), the labelled cores are dealt first and the unlabelled ones continue
+        the round.
     mode
         ``"supervised"`` (default): each fold's model is fitted on the training
         cores that carry labels, their labelled beds clamping the states;
