@@ -7,10 +7,18 @@ one line on standard error and the exception's ``exit_code``.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
 
 Severity = Literal["error", "warning", "repair"]
+
+
+def some_of(names: Sequence[str], shown: int = 5) -> str:
+    """The first ``shown`` of ``names`` joined by commas, then how many more: the one
+    way a message lists what may run to thousands (``A, B, C and 12 more``)."""
+    listed = ", ".join(names[:shown])
+    return listed + (f" and {len(names) - shown} more" if len(names) > shown else "")
 
 
 def where(

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import SuccessionTable, in_units
+from faciesseq.errors import some_of
 
 __all__ = ["THICKNESS_FACTOR", "DecodedBeds", "labelled_rank_range", "training_beds"]
 
@@ -257,8 +258,8 @@ def _placed(code: str, n: int, n_cores: int, first: Mapping[str, str], unit: str
 
 def _listed(counts: Mapping, unseen: list[str], shown: int = 10) -> str:
     """``unseen`` codes with their counts, at most ``shown`` of them named."""
-    listed = ", ".join(f"{c} ({counts[c]})" for c in unseen[:shown])
-    return listed + (f" and {len(unseen) - shown} more" if len(unseen) > shown else "")
+    named = [f"{c} ({counts[c]})" for c in unseen[:shown]]  # counts of the named only
+    return some_of(named + list(unseen[shown:]), shown)
 
 
 def _treatment(model, unseen: list[str]) -> str:

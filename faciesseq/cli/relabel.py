@@ -14,6 +14,7 @@ from faciesseq.cli._common import (
     read_source,
     require_file,
 )
+from faciesseq.errors import some_of
 
 EXAMPLES = """\
 examples:
@@ -223,12 +224,11 @@ def _training_cores_left_out(record: dict | None, cores) -> str | None:
     missing = [c for c in trained if c not in have]
     if not missing:
         return None
-    shown = ", ".join(missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5 else "")
     return (
-        f"note: the model was fitted on {len(trained)} core(s), {len(missing)} of them not in "
-        f"this table ({shown}): the fit above reads only the {len(have)} core(s) here; to "
-        "refit on all of them, give the fit one source holding both (the training table "
-        "with these rows added, or a folder of the two files)"
+        f"note: the model was fitted on {len(trained)} core(s), {len(missing)} of them not "
+        f"in this table ({some_of(missing)}): the fit above reads only the {len(have)} "
+        "core(s) here; to refit on all of them, give the fit one source holding both "
+        "(the training table with these rows added, or a folder of the two files)"
     )
 
 

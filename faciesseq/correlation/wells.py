@@ -29,7 +29,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.errors import ConfigError, InputError, Problem, some_of
 
 __all__ = ["WellTable", "check_wells", "read_wells", "wells_from_frame"]
 
@@ -235,13 +235,12 @@ def _same_positions(wells: pd.DataFrame, file: str) -> list[Problem]:
     for s, part in wells.groupby("section", sort=False):
         shared = part[part["position"].duplicated(keep=False)]
         if len(shared):
-            names = ", ".join(sorted(map(str, shared["core"]))[:5])
-            more = f" and {len(shared) - 5} more" if len(shared) > 5 else ""
+            names = some_of(sorted(map(str, shared["core"])))
             problems.append(
                 Problem(
                     "warning",
                     "wells-same-position",
-                    f"section {s!r}: wells {names}{more} stand at one position; they are "
+                    f"section {s!r}: wells {names} stand at one position; they are "
                     "drawn in name order, which may not be their order on the ground",
                     file=file,
                     row=int(shared["row"].iloc[0]),

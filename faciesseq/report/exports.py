@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import DEPTH_TOL, row_word
-from faciesseq.errors import ConfigError
+from faciesseq.errors import ConfigError, some_of
 from faciesseq.interpretation import TOPS_COLUMNS
 
 __all__ = [
@@ -254,9 +254,7 @@ def beds_without_sample(interp, step: float, shown: int = 5) -> str | None:
         for tract, n in c[2].items():
             missed[tract] = missed.get(tract, 0) + n
     losing = [(core, c[0]) for core, c in counts.items() if c[0]]
-    wells = ", ".join(f"{core} {n}" for core, n in losing[:shown])
-    if len(losing) > shown:
-        wells += f" and {len(losing) - shown} more"
+    wells = some_of([f"{core} {n}" for core, n in losing], shown)
     thinnest = min(c[3] for c in counts.values())
     units = next(core.units for core in interp if core.core in counts)
     rows = row_word(interp.meta.get("unit", "beds"))
