@@ -136,19 +136,28 @@ def _option(words: list[str], *names: str) -> str | None:
     return None
 
 
-def _next_scheme(args: argparse.Namespace, record: dict | None) -> tuple[str | None, str]:
+def _sheet_model(record: dict | None) -> dict | None:
+    """The model file the sheet's record names, as JSON (:func:`_model_document`), read
+    once for the questions :func:`_next_scheme` and :func:`_training_cores_left_out`
+    ask of it; None where the record names none or it cannot be read."""
+    model = (record or {}).get("model", "none")
+    return _model_document(model) if model != "none" else None
+
+
+def _next_scheme(
+    args: argparse.Namespace, record: dict | None, doc: dict | None
+) -> tuple[str | None, str]:
     """The scheme file the next fit takes, and what it is: ``--scheme``; else the
     ``--scheme`` the sheet's decode read (its record), a geologist's file; else the file
-    the sheet's model was fitted with, where it still exists unchanged; else the copy
-    of the model's scheme the decode wrote in its output folder (which a decode with
-    ``--force`` into that folder replaces); else none."""
+    the sheet's model (``doc``, :func:`_sheet_model`) was fitted with, where it still
+    exists unchanged; else the copy of the model's scheme the decode wrote in its output
+    folder (which a decode with ``--force`` into that folder replaces); else none."""
     if args.scheme:
         return args.scheme, "--scheme"
     record = record or {}
     scheme, model = record.get("scheme", "none"), record.get("model", "none")
     if scheme != "none" and not _decode_copy(scheme):
         return scheme, "the --scheme of the sheet's decode, its record"
-    doc = _model_document(model) if model != "none" else None
     fitted = _fitted_scheme(model, doc) if doc is not None else None
     if fitted is not None:
         return fitted, f"the file the model was fitted with, as {Path(model).name} records it"
@@ -210,12 +219,11 @@ def _free_name(stem: str) -> str:
     return name
 
 
-def _training_cores_left_out(record: dict | None, cores) -> str | None:
-    """A line where the sheet's model was fitted on cores the labelled table does not
-    hold: the fit suggested would see only the table's cores (a review of one newly
-    decoded core would otherwise refit on that core alone), or None."""
-    model = (record or {}).get("model", "none")
-    doc = _model_document(model) if model != "none" else None
+def _training_cores_left_out(doc: dict | None, cores) -> str | None:
+    """A line where the sheet's model (``doc``, :func:`_sheet_model`) was fitted on cores
+    the labelled table does not hold: the fit suggested would see only the table's cores
+    (a review of one newly decoded core would otherwise refit on that core alone), or
+    None."""
     try:
         trained = [str(c) for c in doc["training"]["cores"]]
     except (KeyError, TypeError):
@@ -286,7 +294,8 @@ def run(args: argparse.Namespace) -> int:
     result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    scheme_file = _next_scheme(args, settings.record)
+    doc = _sheet_model(settings.record)
+    scheme_file = _next_scheme(args, settings.record, doc)
     next_fit = _next_fit(args, result, scheme_file[0])
     if scheme_file[0] is not None and not args.scheme and getattr(args, "settings_line", None):
         # the source was read without a scheme; the fit suggested takes one: say both
@@ -294,7 +303,7 @@ def run(args: argparse.Namespace) -> int:
             f" (the source read without one); the fit below takes {scheme_file[0]}"
         )
     print("\n".join(_report(result, args.output, next_fit, scheme_file)))
-    left_out = _training_cores_left_out(settings.record, result.cores)
+    left_out = _training_cores_left_out(doc, result.cores)
     if left_out:
         print(left_out)
     if settings.record is None:
