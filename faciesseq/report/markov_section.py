@@ -18,7 +18,7 @@ from faciesseq.report.document import (
     format_p_text,
     format_value,
 )
-from faciesseq.report.markov_text import SPARSE_TABLES_NOTE, order_explanation
+from faciesseq.report.markov_text import disagreement, order_explanation, split_verdict
 from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
@@ -120,14 +120,11 @@ def _disagreement(homogeneity, alpha: float) -> str:
     """Where Pearson's χ² and the G² of one homogeneity null fall on either side of
     ``alpha``, a sentence saying so; otherwise nothing."""
     h = homogeneity
-    if (h.pearson.p_value < alpha) == (h.g2.p_value < alpha):
+    if not split_verdict(h.pearson, h.g2, alpha):
         return ""
     tests = ("G²", "Pearson's χ²")
     differs, not_differs = tests if h.g2.p_value < alpha else tests[::-1]
-    return (
-        f" The groups differ by {differs} but not by {not_differs}: the tests disagree at "
-        f"the {alpha:g} level; {SPARSE_TABLES_NOTE}."
-    )
+    return f" The groups differ by {differs} but not by {not_differs}: {disagreement(alpha)}."
 
 
 def _test_blocks(tests: Section, report, codes: list[str]) -> None:

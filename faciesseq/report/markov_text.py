@@ -50,6 +50,17 @@ SPARSE_TABLES_NOTE = (
 )
 
 
+def split_verdict(pearson, g2, alpha: float) -> bool:
+    """Whether Pearson's χ² and the G² of one null fall on either side of ``alpha``."""
+    return (pearson.p_value < alpha) != (g2.p_value < alpha)
+
+
+def disagreement(alpha: float) -> str:
+    """What the text says of a :func:`split_verdict`: that the tests disagree, and which
+    to trust in sparse tables (:data:`SPARSE_TABLES_NOTE`)."""
+    return f"the tests disagree at the {alpha:g} level; {SPARSE_TABLES_NOTE}"
+
+
 def homogeneity_sentence(homogeneity, alpha: float) -> str:
     """The homogeneity verdict: whether the groups differ, quoting Pearson's χ², and
     where the likelihood-ratio G² of the same null falls on the other side of
@@ -57,14 +68,13 @@ def homogeneity_sentence(homogeneity, alpha: float) -> str:
     h = homogeneity
     groups = f"The {len(h.groups)} groups by {h.by}"
     pearson_differs = h.pearson.p_value < alpha
-    if pearson_differs == (h.g2.p_value < alpha):
+    if not split_verdict(h.pearson, h.g2, alpha):
         word = "differ" if pearson_differs else "do not differ significantly"
         return f"{groups} {word}: {format_test(h.pearson)}."
     first, then = ("differ", "do not") if pearson_differs else ("do not differ significantly", "do")
     return (
         f"{groups} {first} by Pearson's χ², {format_test(h.pearson)}, but {then} by the "
-        f"likelihood-ratio G², {format_test(h.g2)}: the tests disagree at the {alpha:g} "
-        f"level; {SPARSE_TABLES_NOTE}."
+        f"likelihood-ratio G², {format_test(h.g2)}: {disagreement(alpha)}."
     )
 
 
@@ -164,10 +174,10 @@ def verdict(report) -> list[str]:
         lines.append(f"Ordered, not random: the {fo.model} null is rejected, {format_test(first)}.")
     else:
         lines.append(f"Could be random: the {fo.model} null is not rejected, {format_test(first)}.")
-    if (fo.g2.p_value < a) != (first.p_value < a):
+    if split_verdict(first, fo.g2, a):
         lines.append(
             f"The likelihood-ratio G² of the same null falls on the other side, "
-            f"{format_test(fo.g2)}: the tests disagree at the {a:g} level; {SPARSE_TABLES_NOTE}."
+            f"{format_test(fo.g2)}: {disagreement(a)}."
         )
     mc_first = mc.get(first.name)
     if mc_first is not None:
