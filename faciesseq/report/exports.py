@@ -234,7 +234,9 @@ def _keeping_step(counts) -> float | None:
     return tidy_step(thinnest * (1 + 1e-9)) if math.isfinite(thinnest) else None
 
 
-def beds_without_sample(interp, step: float, shown: int = 5) -> str | None:
+def beds_without_sample(
+    interp, step: float, shown: int = 5, counts: dict | None = None
+) -> str | None:
     """One line naming the beds that no depth sample of ``step`` falls in, or None.
 
     A bed thinner than ``step`` may fall between two samples of the grid
@@ -242,9 +244,10 @@ def beds_without_sample(interp, step: float, shown: int = 5) -> str | None:
     the wells that lose some (the first ``shown``, with how many each), their tracts
     and the step that gives every bed at least one sample: the tidy step
     (:func:`tidy_step`) not above the thinnest bed (a half-open depth range
-    ``[top, base)`` at least one step long always holds a sample).
+    ``[top, base)`` at least one step long always holds a sample). ``counts``: the
+    :func:`_unsampled` of ``interp`` and ``step`` where the caller has them.
     """
-    counts = _unsampled(interp, step)
+    counts = _unsampled(interp, step) if counts is None else counts
     count = sum(c[0] for c in counts.values())
     if not count:
         return None
@@ -357,10 +360,10 @@ def write_las_files(
                     f"(at most {MAX_LAS_SAMPLES:,}); choose a larger --las-step",
                     core=core.core,
                 )
-    missing = beds_without_sample(interp, step)
+    counts = _unsampled(interp, step)  # for the warning and for each well's ~Other
+    missing = beds_without_sample(interp, step, counts=counts)
     if missing is not None:
         warnings.warn(missing, UserWarning, stacklevel=2)
-    counts = _unsampled(interp, step) if missing is not None else {}
     facies = _facies_table(interp, scheme)
     tracts = _tract_table(interp, tract_model)
     facies_number = {code: k for k, (code, _) in enumerate(facies, start=1)}
