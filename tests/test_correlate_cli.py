@@ -114,11 +114,33 @@ def test_well_without_core_and_core_without_well_warn(database, tmp_path, capsys
 
 
 def test_section_without_the_datum_kind_is_hung_on_the_core_tops(database, tmp_path, capsys):
-    # no correlated "XYZ" surface anywhere: a warning naming the section, exit 0
-    assert _run(database, tmp_path / "corr", "--datum", "XYZ") == 0
+    # LHB, a kind the tract model can pick, is correlated nowhere in these five wells: a
+    # warning naming the section, exit 0
+    assert _run(database, tmp_path / "corr", "--datum", "LHB") == 0
     err = capsys.readouterr().err
-    assert "section 'central' has no correlated XYZ surface; hung on the core tops" in err
+    assert "section 'central' has no correlated LHB surface; hung on the core tops" in err
     assert (tmp_path / "corr" / "section-central.png").exists()
+
+
+def test_datum_of_no_kind_the_model_picks_is_a_usage_error(database, tmp_path, capsys):
+    # a misspelt kind hung the section on the core tops with only a warning
+    out = tmp_path / "corr"
+    assert _run(database, out, "--datum", "XYZ") == 2
+    err = capsys.readouterr().err.strip()
+    assert err == (
+        "faciesseq correlate: --datum 'XYZ' is none of depth, elevation, datum_depth, a "
+        "surface kind (BSFR, SB, MRS, MFS, LHB) or a correlated surface's id (central:MFS-2)"
+    )
+    assert not out.exists()
+
+
+def test_datum_needing_a_wells_column_names_the_flag(database, tmp_path, capsys):
+    # the demo wells table has no elevation column
+    out = tmp_path / "corr"
+    assert _run(database, out, "--datum", "elevation") == 2
+    err = capsys.readouterr().err.strip()
+    assert "--datum elevation needs a 'elevation' value for every well" in err
+    assert len(err.splitlines()) == 1 and not out.exists()
 
 
 def test_unknown_surface_id_is_a_usage_error(database, tmp_path, capsys):

@@ -275,6 +275,31 @@ def test_page_and_appendix_name_the_wells_not_hung_on_the_datum():
     assert len(captions) == 1 and data["hanging_note"] in captions[0]
 
 
+def test_hang_section_names_the_datum_not_a_flag_from_python():
+    from faciesseq.errors import ConfigError
+    from faciesseq.report.section import hang_section
+
+    corr = _correlation()
+    with pytest.raises(ConfigError) as missing:
+        hang_section(corr, "section", "elevation")
+    assert str(missing.value) == "datum elevation needs a 'elevation' value for every well"
+    with pytest.raises(ConfigError) as unknown:
+        hang_section(corr, "section", "section:SB-9")
+    assert str(unknown.value).startswith("datum 'section:SB-9' is neither depth")
+    with pytest.raises(ConfigError, match=r"^--datum 'section:SB-9' is neither"):
+        hang_section(corr, "section", "section:SB-9", option="--datum")
+
+
+def test_check_datum_accepts_the_models_kinds_and_refuses_others():
+    from faciesseq.errors import ConfigError
+    from faciesseq.report.section import check_datum
+
+    for datum in ("depth", "elevation", "datum_depth", "dip:MFS-2", "SB"):
+        check_datum(datum, ("SB", "MFS"))
+    with pytest.raises(ConfigError, match=r"^datum 'MFZ' is none of .* kind \(SB, MFS\)"):
+        check_datum("MFZ", ("SB", "MFS"))
+
+
 def _shifts(corr, section, datum):
     """The datum depth of each well and the depth axis' label (:func:`hang_section`)."""
     from faciesseq.report.section import hang_section

@@ -58,9 +58,9 @@ def register(subparsers) -> None:
     parser.add_argument(
         "--datum",
         default="MFS",
-        help="hang the section on: a surface kind (its correlated surface in most wells; the "
-        "core tops, with a warning, in a section without one), a surface id (e.g. dip:MFS-2), "
-        "depth, elevation or datum_depth",
+        help="hang the section on: a surface kind of the model (its correlated surface in most "
+        "wells; the core tops, with a warning, in a section without one), a surface id (e.g. "
+        "dip:MFS-2), depth, elevation or datum_depth",
     )
     parser.add_argument(
         "--figure-format", choices=FIGURE_FORMATS, default="png", help="section figure format"
@@ -85,9 +85,12 @@ def _decode(args):
     """Read the wells, the model and the cores; decode the cores on the wells table."""
     from faciesseq.correlation.wells import check_wells, read_wells
     from faciesseq.hmm.modelfile import load_model
+    from faciesseq.report.section import check_datum
+    from faciesseq.surfaces import surface_codes
 
     wells = read_wells(require_file(args.wells))
     model = load_model(require_file(args.model))
+    check_datum(args.datum, surface_codes(model.tract_model_), option="--datum")
     scheme = scheme_for_model(args.scheme, model)
     cores = read_source(args, scheme).require_valid()
     step = model.grid_step(cores.units)
@@ -148,7 +151,7 @@ def run(args: argparse.Namespace) -> int:
             datum, note = hanging_datum(corr, section, args.datum)
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")
-            unhung = hang_section(corr, section, datum, tracts).note
+            unhung = hang_section(corr, section, datum, tracts, option="--datum").note
             if unhung:
                 sys.stderr.write(f"faciesseq correlate: section {section}: {unhung}\n")
             section_figure(

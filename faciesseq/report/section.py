@@ -13,6 +13,7 @@ from __future__ import annotations
 import itertools
 import os
 import warnings
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -36,6 +37,7 @@ __all__ = [
     "CAPTION",
     "DEFAULT_SECTION",
     "Hanging",
+    "check_datum",
     "distance_label",
     "draw_section",
     "hang_section",
@@ -91,6 +93,24 @@ def section_title(section: str, datum: str) -> str:
     return f"Section {section}: correlated surfaces, hung on {datum}"
 
 
+#: The datums that hang a section on no surface (:func:`hang_section`).
+_PLAIN_DATUMS = ("depth", "elevation", "datum_depth")
+
+
+def check_datum(datum: str, surfaces: Sequence[str], option: str = "datum") -> None:
+    """Refuse a ``datum`` that is none of depth, elevation, datum_depth, a correlated surface id
+    (``central:MFS-2``) or one of ``surfaces``, the surface kinds the tract model can
+    pick (``Interpretation.surfaces``): a kind it cannot pick would hang every section
+    on its core tops. ``option`` is the datum's name in the message (``--datum`` on the
+    command line)."""
+    if datum in _PLAIN_DATUMS or ":" in datum or datum in surfaces:
+        return
+    raise ConfigError(
+        f"{option} {datum!r} is none of {', '.join(_PLAIN_DATUMS)}, a surface kind "
+        f"({', '.join(surfaces)}) or a correlated surface's id (central:MFS-2)"
+    )
+
+
 def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | None]:
     """The datum to hang ``section`` on, and a warning when it is not ``datum``.
 
@@ -98,7 +118,7 @@ def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | Non
     has falls back to the core tops (``depth``); depth, elevation,
     datum_depth and surface ids (``section:KIND-n``) are kept as given.
     """
-    if datum in ("depth", "elevation", "datum_depth") or ":" in datum:
+    if datum in _PLAIN_DATUMS or ":" in datum:
         return datum, None
     picks = correlation.picks[correlation.picks["section"] == section]
     if (picks["surface"] == datum).any():
@@ -138,7 +158,11 @@ class Hanging:
 
 
 def hang_section(
-    correlation, section: str, datum: str, tracts: pd.DataFrame | None = None
+    correlation,
+    section: str,
+    datum: str,
+    tracts: pd.DataFrame | None = None,
+    option: str = "datum",
 ) -> Hanging:
     """Depth of the datum in each well of ``section``, its label and the wells not hung.
 
@@ -156,24 +180,24 @@ def hang_section(
     the surface lies across it, and interpolating there would invent a correlation.
     A well no tied pair joins to the surface hangs on its own core top (the top of
     its column in ``tracts``, else its depths as measured) and is named in
-    :attr:`Hanging.unhung`.
+    :attr:`Hanging.unhung`. ``option`` is the datum's name in an error message
+    (``--datum`` on the command line).
     """
-    from faciesseq.errors import ConfigError
-
     wells = correlation.wells[correlation.wells["section"] == section]
     names = list(wells["core"])
     if datum == "depth":
         return Hanging(dict.fromkeys(names, 0.0), "depth as measured")
     if datum in ("elevation", "datum_depth"):
-        values = wells[datum].to_numpy(float)
+        # a wells table made in Python may lack the column altogether
+        values = wells[datum].to_numpy(float) if datum in wells else np.full(len(wells), np.nan)
         if np.isnan(values).any():
-            raise ConfigError(f"--datum {datum} needs a {datum!r} value for every well")
+            raise ConfigError(f"{option} {datum} needs a {datum!r} value for every well")
         if datum == "elevation":
             # a depth reference standing `elevation` above the datum puts depth d at
             # d - elevation below it (true vertical depth subsea = depth - KB elevation)
             return Hanging(dict(zip(names, values)), "depth below datum (elevation 0)")
         return Hanging(dict(zip(names, values)), "depth below the datum")
-    chosen = _datum_surface(correlation, section, datum)
+    chosen = _datum_surface(correlation, section, datum, option)
     surface = str(chosen["surface_id"].iloc[0]).split(":", 1)[-1]
     at = dict(zip(chosen["core"], chosen["depth"]))
     pos = dict(zip(wells["core"], wells["position"]))
@@ -191,11 +215,9 @@ def hang_section(
     return Hanging(shift, f"depth below {surface}", surface, tuple(unhung))
 
 
-def _datum_surface(correlation, section: str, datum: str) -> pd.DataFrame:
+def _datum_surface(correlation, section: str, datum: str, option: str) -> pd.DataFrame:
     """The picks of the correlated surface ``datum`` names in ``section``: a surface id,
     or of a kind the surface found in the most wells, the most confident among equals."""
-    from faciesseq.errors import ConfigError
-
     picks = correlation.picks[correlation.picks["section"] == section]
     chosen = picks[picks["surface_id"] == datum]
     if len(chosen):
@@ -203,7 +225,7 @@ def _datum_surface(correlation, section: str, datum: str) -> pd.DataFrame:
     kind = picks[picks["surface"] == datum]
     if not len(kind):
         raise ConfigError(
-            f"--datum {datum!r} is neither depth, elevation, datum_depth, a correlated "
+            f"{option} {datum!r} is neither depth, elevation, datum_depth, a correlated "
             f"surface id nor a correlated surface kind of section {section!r}"
         )
     rank = kind.groupby("surface_id").agg(wells=("core", "size"), confidence=("confidence", "mean"))
@@ -365,13 +387,7 @@ def draw_section(
         The file written.
     """
     path = check_figure_path(path)
-    if datum not in ("depth", "elevation", "datum_depth") and ":" not in datum:
-        kinds = tuple(interpretation.surfaces)
-        if datum not in kinds:
-            raise ConfigError(
-                f"datum {datum!r} is none of depth, elevation, datum_depth, a surface "
-                f"({', '.join(kinds)}) or a correlated surface's id (central:MFS-2)"
-            )
+    check_datum(datum, tuple(interpretation.surfaces))
     sections = sorted(correlation.wells["section"].unique())
     if section is None:
         if len(sections) != 1:
