@@ -108,6 +108,44 @@ def test_by_a_misspelt_column_lists_the_real_columns_and_the_near_name(tmp_path)
     assert "(columns: core, top, base, facies;" in err
 
 
+def _renamed_table(tmp_path) -> Path:
+    """Two cores whose core and lithology columns are named otherwise in the file."""
+    table = tmp_path / "cores.csv"
+    table.write_text(
+        "hole,top,base,facies,rock\n"
+        + "".join(f"A,{k},{k + 1},{'FGS'[k % 3]},{'ss' if k < 6 else 'sh'}\n" for k in range(12))
+        + "".join(
+            f"B,{k},{k + 1},{'FGS'[(k * 2) % 3]},{'ss' if k < 6 else 'sh'}\n" for k in range(12)
+        )
+    )
+    return table
+
+
+@pytest.mark.parametrize(
+    ("by", "same_as"), [("rock", "lithology"), ("ROCK", "lithology"), ("hole", "core")]
+)
+def test_by_takes_a_columns_name_in_the_file_as_its_role(tmp_path, by, same_as):
+    # --by rock was refused although --column lithology=rock named it so
+    mapping = ["--column", "core=hole", "--column", "lithology=rock", "--format", "json"]
+    code, out, err = _run(str(_renamed_table(tmp_path)), *mapping, "--by", by)
+    assert code == 0, err
+    code, expected, _ = _run(str(_renamed_table(tmp_path)), *mapping, "--by", same_as)
+    assert code == 0
+    tests = [t for t in json.loads(out)["tests"] if t["name"].startswith("homogeneity")]
+    assert tests and all(f"by {same_as}" in t["name"] for t in tests)
+    assert json.loads(out) == json.loads(expected)
+
+
+def test_by_neither_a_role_nor_a_files_name_lists_both(tmp_path):
+    mapping = ["--column", "core=hole", "--column", "lithology=rock"]
+    code, _out, err = _run(str(_renamed_table(tmp_path)), *mapping, "--by", "stone")
+    assert code == 2 and err.count("\n") == 1
+    assert (
+        "(columns: core ('hole' in the file), top, base, facies, lithology ('rock' in the "
+        "file);" in err
+    )
+
+
 def test_grid_unit_warns_about_the_sampling_step():
     code, out, _ = _run(*READ, "--unit", "grid", "--step", "0.5", "--by", "none")
     assert code == 0

@@ -39,14 +39,14 @@ def as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
 
     A bed made of several intervals takes the label covering most of its
     thickness (:func:`faciesseq.core._aggregate` for text); numbers would be
-    averaged. The column is matched without regard to case.
+    averaged. The column is matched without regard to case, by its role's name
+    (``tract``) or by its name in the source file (``interp`` read with
+    ``--column tract=interp``); the name returned is the role's, ``core`` for the
+    core column, which groups nothing more.
     """
-    names = {c for core in coreset for c in core.attributes}
-    if column not in names:
-        folded = {c.lower(): c for c in names}
-        if column.lower() not in folded:
-            raise ConfigError(_no_group_column(column, sorted(names)))
-        column = folded[column.lower()]
+    column = _group_column(coreset, column)
+    if column == "core":
+        return coreset, column
     cores = {}
     for name, core in coreset.cores.items():
         table = core.intervals.copy()
@@ -60,16 +60,48 @@ def as_groups(coreset: CoreSet, column: str) -> tuple[CoreSet, str]:
     return CoreSet(cores, coreset.units, coreset.problems, coreset.sources, coreset.meta), column
 
 
-def _no_group_column(column: str, attributes: list[str]) -> str:
+def _group_column(coreset: CoreSet, column: str) -> str:
+    """The bed column ``column`` names: a bed column's own name, else a source file's
+    name for the core column or a bed column's role."""
+    names = {c for core in coreset for c in core.attributes}
+    if column in names:
+        return column
+    folded = {c.lower(): c for c in names}
+    if column.lower() in folded:
+        return folded[column.lower()]
+    as_read = _names_in_files(coreset)
+    roles = {name.lower(): role for role, name in as_read.items() if role in names | {"core"}}
+    if column.lower() in roles:
+        return roles[column.lower()]
+    raise ConfigError(_no_group_column(column, sorted(names), as_read))
+
+
+def _names_in_files(coreset: CoreSet) -> dict[str, str]:
+    """Role -> the column's name in the source files where it differs from the role's
+    (``{"tract": "interp"}``; the first file's where files differ)."""
+    found: dict[str, str] = {}
+    for roles in coreset.meta.get("columns", {}).values():
+        for role, name in roles.items():
+            if str(name).strip().lower() != role:
+                found.setdefault(role, str(name))
+    return found
+
+
+def _no_group_column(column: str, attributes: list[str], as_read: dict[str, str]) -> str:
     """Why ``by=column`` groups nothing: the table's columns (core, top, base, facies and
-    the bed columns) and the nearest name ``--by`` takes, if one is near."""
+    the bed columns, each with its name in the source file where that differs) and the
+    nearest name ``--by`` takes, if one is near."""
     choices = {c.lower(): c for c in ["core", *attributes]}
     near = difflib.get_close_matches(column.lower(), list(choices), n=1)
     hint = f"; did you mean {choices[near[0]]!r}?" if near else ""
+    listed = [
+        f"{c} ({as_read[c]!r} in the file)" if c in as_read else c
+        for c in ["core", *REQUIRED, *attributes]
+    ]
     return (
         f"by={column!r} (--by): no such column to group by{hint} (columns: "
-        f"{', '.join(['core', *REQUIRED, *attributes])}; --by takes core, none or a column "
-        "other than top, base and facies)"
+        f"{', '.join(listed)}; --by takes core, none or a column other than top, base and "
+        "facies)"
     )
 
 
