@@ -428,6 +428,19 @@ def test_a_yaml_source_file_chooses_the_wells_table(tmp_path):
         read_wells(str(source))
 
 
+def test_a_yaml_wells_file_with_table_and_query_names_its_keys(tmp_path):
+    # the message named --table and --query, which the file does not have
+    from faciesseq.correlation.wells import read_wells
+    from faciesseq.errors import ConfigError
+
+    _wells_database(tmp_path / "db.sqlite", "positions")
+    source = tmp_path / "wellsrc.yaml"
+    source.write_text("path: db.sqlite\ntable: positions\nquery: SELECT * FROM positions\n")
+    with pytest.raises(ConfigError) as err:
+        read_wells(str(source))
+    assert str(err.value) == f"{source}: give table: or query:, not both"
+
+
 def test_correlate_from_python_checks_the_wells_against_the_cores_as_the_command_does():
     # a typo in the names gave an empty correlation and no word from Python, where the
     # command refused it; a core left out of the wells table was said only by the command

@@ -249,3 +249,33 @@ def test_a_scheme_given_as_the_source_is_named_for_what_it_is(capsys, name, said
     code, _, err = _run(capsys, ["markov", config])
     assert code == 2
     assert f"this is {said}, not a source of cores" in err and len(err.strip().splitlines()) == 1
+
+
+def _two_table_source(tmp_path, keys: str) -> Path:
+    """A SQLite file of two interval tables and a YAML source file reading it."""
+    import sqlite3
+
+    rows = [("A", k, k + 1, "FGS"[k % 3]) for k in range(6)]
+    with sqlite3.connect(tmp_path / "db.sqlite") as conn:
+        for name, kept in (("old", rows[:3]), ("new", rows)):
+            conn.execute(f"CREATE TABLE {name} (core TEXT, top REAL, base REAL, facies TEXT)")
+            conn.executemany(f"INSERT INTO {name} VALUES (?, ?, ?, ?)", kept)
+    conn.close()
+    source = tmp_path / "cores.yaml"
+    source.write_text(f"path: db.sqlite\nunits: m\n{keys}")
+    return source
+
+
+def test_a_source_file_with_table_and_query_names_its_keys(tmp_path, capsys):
+    # the message named --table and --query, options the command was not given
+    source = _two_table_source(tmp_path, "table: old\nquery: SELECT * FROM new\n")
+    code, _, err = _run(capsys, ["check", source])
+    assert code == 2
+    assert err == f"faciesseq check: {source}: give table: or query:, not both\n"
+
+
+def test_a_query_given_replaces_the_source_files_table(tmp_path):
+    source = _two_table_source(tmp_path, "table: old\n")
+    assert len(read_cores(source).cores["A"].intervals) == 3
+    cores = read_cores(source, query="SELECT * FROM new")
+    assert len(cores.cores["A"].intervals) == 6

@@ -236,6 +236,9 @@ def _merge(from_file: SourceSpec, given: SourceSpec) -> SourceSpec:
     for key in ("layout", "units", "sheet", "table", "query", "curve"):
         value = getattr(given, key)
         out[key] = value if value is not None else getattr(from_file, key)
+    if given.table is not None or given.query is not None:
+        # a table or query given chooses the rows in place of the source file's
+        out["table"], out["query"] = given.table, given.query
     out["encoding"] = from_file.encoding
     out["repeated_depths"] = from_file.repeated_depths
     out["scheme"] = from_file.scheme

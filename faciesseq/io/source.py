@@ -85,6 +85,8 @@ def load_source_file(path: Path) -> SourceSpec:
         )
     if ("path" in data) == ("url" in data):
         raise ConfigError("give exactly one of 'path' (a file or folder) or 'url'", file=file)
+    if data.get("table") is not None and data.get("query") is not None:
+        raise ConfigError("give table: or query:, not both", file=file)
     columns = data.get("columns") or {}
     if not isinstance(columns, Mapping):
         raise ConfigError("'columns' must be a mapping of role: column name", file=file)
