@@ -13,13 +13,13 @@ outside the training data (:meth:`DecodedBeds.findings`).
 from __future__ import annotations
 
 from collections import Counter
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 
 import numpy as np
 import pandas as pd
 
 from faciesseq.core import SuccessionTable, in_units
-from faciesseq.errors import some_of
+from faciesseq.errors import some_of, where
 
 __all__ = ["THICKNESS_FACTOR", "DecodedBeds", "labelled_rank_range", "training_beds"]
 
@@ -102,9 +102,11 @@ class DecodedBeds:
         #: thickness of each (core, facies), a part at a time
         self.core_facies: list[pd.Series] = []
         self.units: str | None = None
-        #: where each facies code was first read (``data row 21, core NU-01, depth
-        #: 1251.40 m``), for the codes whose reader kept it; the beds keep no data row
-        self.first_places: dict[str, str] = {}
+        #: where each facies code was first read, as the keywords of
+        #: :func:`faciesseq.errors.where` (``file``, ``row``, ``core``, ``depth``,
+        #: ``units``), for the codes whose reader kept it; the beds keep no data row.
+        #: Only the places a finding names are formatted.
+        self.first_places: dict[str, Mapping] = {}
 
     def add(self, beds: pd.DataFrame, units: str) -> None:
         """Gather a decoded part's beds (``facies``, ``thickness`` in ``units``, and
@@ -146,7 +148,7 @@ class DecodedBeds:
         outside = mean[(mean < lo - 1e-9) | (mean > hi + 1e-9)]
         if outside.empty:
             return None
-        listed = _listed({core: f"{r:.2f}" for core, r in outside.items()}, list(outside.index))
+        listed = _listed(list(outside.index), lambda core: f"{outside[core]:.2f}")
         return (
             f"{len(outside)} of {len(mean)} core(s) lie outside the facies range of the "
             f"labelled cores (mean facies rank {lo:.2f}-{hi:.2f} there; 0 = most landward): "
@@ -163,7 +165,8 @@ class DecodedBeds:
         unseen = sorted(c for c in self.contacts if c not in known)
         if not unseen:
             return None
-        listed, total = _listed(self.contacts, unseen), sum(self.contacts[c] for c in unseen)
+        listed = _listed(unseen, self.contacts.__getitem__)
+        total = sum(self.contacts[c] for c in unseen)
         return (
             f"contact type(s) never seen in training, with their {unit}: {listed}; {total} "
             f"of {sum(self.contacts.values())} {unit} with a contact decoded with a smoothed "
@@ -208,7 +211,8 @@ def foreign_facies(decoded: DecodedBeds, model) -> str | None:
     scheme = getattr(model, "scheme", None)
     named = f" (facies scheme {scheme.name!r})" if scheme is not None else ""
     return (
-        f"none of the facies codes of these cores ({_listed(decoded.facies, codes)}) is one "
+        f"none of the facies codes of these cores ({_listed(codes, decoded.facies.__getitem__)}) "
+        "is one "
         f"the model was fitted on{named}: {', '.join(sorted(seen)[:10])}"
         f"{' ...' if len(seen) > 10 else ''}; is this the model of these cores? Give the "
         "model fitted on their facies scheme, or map their codes with aliases in a scheme"
@@ -233,33 +237,44 @@ def _unseen(
     total = sum(facies[c] for c in unseen)
     tail = f"{total} of {sum(facies.values())} {unit} decoded with {_treatment(model, unseen)}"
     if first:
-        placed = {c: _placed(c, facies[c], cores.get(c, 0), first, unit) for c in unseen}
+
+        def placed(c: str) -> str:
+            return _placed(facies[c], cores.get(c, 0), first.get(c), unit)
+
         return (
             f"facies code(s) never seen in training, with their {unit}, cores and first "
-            f"place: {_listed(placed, unseen)}; {tail}"
+            f"place: {_listed(unseen, placed)}; {tail}"
         )
     counted = any(cores[c] for c in unseen)  # the cores that hold them, beside the beds
-    shown = {c: f"{facies[c]}, {cores[c]} core(s)" if counted else facies[c] for c in unseen}
     unit_cores = f"{unit} and cores" if counted else unit
+
+    def shown(c: str) -> object:
+        return f"{facies[c]}, {cores[c]} core(s)" if counted else facies[c]
+
     return (
         f"facies code(s) never seen in training, with their {unit_cores}: "
-        f"{_listed(shown, unseen)}; {tail}"
+        f"{_listed(unseen, shown)}; {tail}"
     )
 
 
-def _placed(code: str, n: int, n_cores: int, first: Mapping[str, str], unit: str) -> str:
+def _placed(n: int, n_cores: int, place: Mapping | None, unit: str) -> str:
     """What :func:`_listed` shows in brackets after a code: ``1 bed, first at data row
-    21, core NU-01, depth 1251.40 m``."""
+    21, core NU-01, depth 1251.40 m`` (``place``: the keywords of
+    :func:`faciesseq.errors.where`)."""
     noun = unit if n != 1 else unit.removesuffix("s")
     text = f"{n} {noun}" + (f" in {n_cores} core(s)" if n_cores > 1 else "")
-    place = first.get(code)
-    return text + (f", first at {place}" if place else "")
+    return text + (f", first at {where(**place)}" if place else "")
 
 
-def _listed(counts: Mapping, unseen: list[str], shown: int = 10) -> str:
-    """``unseen`` codes with their counts, at most ``shown`` of them named."""
-    named = [f"{c} ({counts[c]})" for c in unseen[:shown]]  # counts of the named only
-    return some_of(named + list(unseen[shown:]), shown)
+#: Most names a finding lists, each with what is said of it; the rest are counted.
+_SHOWN = 10
+
+
+def _listed(names: list[str], describe: Callable[[str], object]) -> str:
+    """``names`` with what ``describe`` says of each in brackets, the first
+    ten (:data:`_SHOWN`) of them: ``describe`` is called for those alone."""
+    named = [f"{c} ({describe(c)})" for c in names[:_SHOWN]]
+    return some_of(named + list(names[_SHOWN:]), _SHOWN)
 
 
 def _treatment(model, unseen: list[str]) -> str:

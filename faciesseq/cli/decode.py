@@ -528,14 +528,13 @@ class _UnseenPlaces:
 
         self.seen = seen_facies(model)
         self.source = source
-        self.first: dict[str, str] = {}
+        #: code -> the keywords of :func:`faciesseq.errors.where` naming its first place
+        self.first: dict[str, dict] = {}
 
     def add(self, cores) -> None:
         """Note the first interval of each unseen code of ``cores`` not noted yet."""
         import numpy as np
         import pandas as pd
-
-        from faciesseq.errors import where
 
         codes = np.asarray(cores.column("facies")).astype(str)
         new = ~np.isin(codes, [*self.seen, *self.first])
@@ -547,7 +546,8 @@ class _UnseenPlaces:
             file, data_row = row.get("_file"), row.get("_row")
             if pd.isna(file) or Path(str(file)) == Path(self.source):
                 file = None  # the source itself: named where it is one of a folder's files
-            self.first[row["code"]] = where(
+            # kept unformatted: the finding names at most ten codes
+            self.first[row["code"]] = dict(
                 file=file,
                 row=None if pd.isna(data_row) else int(data_row),
                 core=str(row["core"]),
