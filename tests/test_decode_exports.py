@@ -228,19 +228,42 @@ def test_las_step_longer_than_a_well_is_refused_and_one_sample_keeps_its_step(tm
     from faciesseq.report.exports import write_las_files
 
     interp = _thin_bed_interpretation()
-    with pytest.raises(ConfigError, match=r"core V: LAS step 4 leaves the well without"):
+    with pytest.raises(ConfigError, match=r"core V: LAS step 4 is longer than the well"):
         write_las_files(interp, tmp_path / "a", step=4.0)  # the first centre on the base
     assert not (tmp_path / "a").exists()
-    # the refusal asks the grid itself: 10.3 - 10.0 is a hair above 0.3, and a check of
-    # step >= 2 * span let a step of 0.6 write a well of no sample
-    from faciesseq.report.exports import _grid
-
-    assert not len(_grid(10.0, 10.3, 0.6)) and len(_grid(10.0, 10.3, 0.3)) == 1
     with pytest.warns(UserWarning):  # core W's thin beds
-        paths = write_las_files(interp, tmp_path / "b", step=3.0)
+        paths = write_las_files(interp, tmp_path / "b", step=2.0)
     one = lasio.read(next(p for p in paths if p.stem == "V"))
-    assert len(one["DEPT"]) == 1 and one.well["STEP"].value == 3.0
-    assert one.well["STRT"].value == one.well["STOP"].value == 11.5
+    assert len(one["DEPT"]) == 1 and one.well["STEP"].value == 2.0
+    assert one.well["STRT"].value == one.well["STOP"].value == 11.0
+
+
+@pytest.mark.parametrize("step", [2.5, 3.0, 3.9])
+def test_las_step_between_a_wells_length_and_twice_it_is_refused(tmp_path, step):
+    # core V (10-12 m) got one sample at 10 + step/2, its cell running to 10 + step,
+    # past the well's base: read back, the well was up to twice as long
+    from faciesseq.errors import ConfigError
+    from faciesseq.report.exports import write_las_files
+
+    with pytest.raises(ConfigError) as err:
+        write_las_files(_thin_bed_interpretation(), tmp_path / "a", step=step)
+    assert str(err.value) == (
+        f"core V: LAS step {step:g} is longer than the well (2 m): its one sample would "
+        "stand for a cell past the well's base; give a --las-step of at most the well's "
+        "length, e.g. 2"
+    )
+    assert not (tmp_path / "a").exists()
+
+
+def test_a_well_one_step_long_up_to_rounding_holds_its_one_cell():
+    # 10.3 - 10.0 is a hair above 0.3 and 10.0 + 0.6 / 2 a hair below 10.3: the grid and
+    # the refusal read depths a millionth of a step apart as one
+    from faciesseq.report.exports import _grid, _holds_a_cell
+
+    assert _holds_a_cell(10.0, 10.3, 0.3) and len(_grid(10.0, 10.3, 0.3)) == 1
+    assert _holds_a_cell(0.0, 0.1 + 0.2, 0.3)  # 0.30000000000000004 against 0.3
+    assert _holds_a_cell(0.0, 0.3, 0.1 + 0.2)
+    assert not _holds_a_cell(10.0, 10.3, 0.6) and not _holds_a_cell(10.0, 10.3, 0.31)
 
 
 def test_las_of_decode_and_of_write_cores_sample_the_same_cell_centres(tmp_path):

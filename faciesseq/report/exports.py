@@ -194,11 +194,22 @@ def _grid(top: float, base: float, step: float) -> np.ndarray:
     A sample stands for the cell around it, as the samples layout reads a LAS file
     back (``[depth - step/2, depth + step/2)``, docs/io.md) and as
     :func:`faciesseq.io.las.write_las` writes one, so the cells cover the well from
-    its top. A bed at least one step thick always holds a sample.
+    its top. A bed at least one step thick always holds a sample. Only the last cell
+    may run past ``base``, by less than half a step (its centre above ``base``);
+    :func:`write_las_files` refuses a well shorter than one step
+    (:func:`_holds_a_cell`).
     """
     n = max(math.ceil((base - top) / step - 1e-6), 0)
     centres = top + (np.arange(n) + 0.5) * step
     return np.round(centres[centres < base - 1e-9], 10)
+
+
+def _holds_a_cell(top: float, base: float, step: float) -> bool:
+    """Whether a well from ``top`` to ``base`` holds the first cell of the grid
+    (:func:`_grid`) whole: a well shorter than one step would have its one sample
+    stand for a cell past its base, read back as a well up to twice as long. Depths a
+    millionth of a step apart count as one, as in :func:`_grid`."""
+    return (base - top) / step >= 1 - 1e-6
 
 
 def _unsampled(interp, step: float) -> dict[str, tuple[int, int, dict[str, int], float]]:
@@ -324,7 +335,9 @@ def write_las_files(
     ``~Other`` states
     how the step was chosen, the code tables in words and whether the
     probabilities were checked. Probabilities are written to
-    :data:`LAS_PROBABILITY_DECIMALS` decimals. Beds thinner than the step may hold
+    :data:`LAS_PROBABILITY_DECIMALS` decimals. A step longer than a well is refused
+    (:class:`ConfigError` naming the well): its one sample would stand for a cell past
+    the well's base. Beds thinner than the step may hold
     no sample: a :class:`UserWarning` of one line counts them, names the wells
     and tracts that lose some and the step that keeps every bed
     (:func:`beds_without_sample`), and the ``~Other`` section of each such well's
@@ -348,10 +361,11 @@ def write_las_files(
         if len(core.beds):
             top, base = float(core.beds["top"].min()), float(core.beds["base"].max())
             span = base - top
-            if not len(_grid(top, base, step)):  # the first cell's centre at its base or below
+            if not _holds_a_cell(top, base, step):
                 raise ConfigError(
-                    f"LAS step {step:g} leaves the well without a sample (it is "
-                    f"{span:.4g} {core.units} long); give a --las-step below {2 * span:.4g}",
+                    f"LAS step {step:g} is longer than the well ({span:.4g} {core.units}): "
+                    "its one sample would stand for a cell past the well's base; give a "
+                    f"--las-step of at most the well's length, e.g. {tidy_step(span):g}",
                     core=core.core,
                 )
             if span / step > MAX_LAS_SAMPLES:
