@@ -439,7 +439,9 @@ def analyse(
         ``n_jobs`` local processes or on the Dask cluster at ``scheduler``
         (:mod:`faciesseq.parallel`); the p-values do not depend on either.
     by
-        ``"core"`` or a bed column (e.g. a formation): homogeneity across groups.
+        ``"core"`` or a bed column (e.g. a formation): homogeneity across groups. A
+        column read from a file may be named as there (``rock`` read with
+        ``columns={"lithology": "rock"}``) or by its role (``lithology``).
     per_core
         Keep each core's count matrix.
     alpha
