@@ -190,6 +190,17 @@ def test_validate_scores_only_labelled_beds_and_writes_json(database, tmp_path, 
     assert (tmp_path / "val" / "confusion_model.csv").exists()
 
 
+def test_validate_names_the_rows_it_scored(database, tmp_path, capsys):
+    """A labelled fit reads described intervals and the header says so, a fit without
+    labels reads beds (the two counts differ on the same cores)."""
+    common = ["validate", str(database / "cores.csv"), "--scheme", str(database / "scheme.yaml")]
+    common += ["--labels", "tract", "--folds", "2", "--restarts", "1"]
+    assert main([*common, "--unit", "intervals"]) == 0
+    assert "labelled described intervals scored (supervised)" in capsys.readouterr().out
+    assert main([*common, "--mode", "unsupervised", "--unit", "beds"]) == 0
+    assert "labelled beds scored (unsupervised)" in capsys.readouterr().out
+
+
 def test_decode_plot_draws_a_strip_log_per_core(database, tmp_path, capsys):
     csv = tmp_path / "two.csv"
     table = pd.read_csv(database / "cores.csv")

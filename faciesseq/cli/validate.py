@@ -31,6 +31,7 @@ from faciesseq.cli._hmm import (
     weigh_evidence,
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
+from faciesseq.core import row_word
 from faciesseq.errors import ConfigError
 
 EXAMPLES = """\
@@ -89,7 +90,8 @@ def format_text(result) -> str:
     )
     lines = [
         f"cross-validation by core: {result.folds} folds, {result.settings['n_cores']} cores, "
-        f"{result.settings['n_beds_scored']} labelled beds scored ({result.settings['mode']})"
+        f"{result.settings['n_beds_scored']} labelled {row_word(result.settings.get('unit'))} "
+        f"scored ({result.settings['mode']})"
         f"{dealt}",
         "",
         "method     accuracy  macro F1   Brier  MFS within 1 bed",
