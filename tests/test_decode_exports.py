@@ -255,6 +255,24 @@ def test_las_step_between_a_wells_length_and_twice_it_is_refused(tmp_path, step)
     assert not (tmp_path / "a").exists()
 
 
+def test_the_default_las_step_is_lowered_for_a_well_shorter_than_it(tmp_path):
+    # the default step (half the median bed thickness) must not stop the export for one
+    # short core: it is lowered to a tidy step the shortest well holds, and each file says so
+    from faciesseq.interpretation import CoreInterpretation, Interpretation
+    from faciesseq.report.exports import write_las_files
+
+    interp = _thin_bed_interpretation()
+    cores = {c.core: c for c in interp}
+    beds = cores["V"].beds.iloc[:1].assign(base=10.3)  # a 0.3 m core
+    empty = pd.DataFrame()
+    cores["V"] = CoreInterpretation("V", "m", TRACTS, (), beds, empty, empty, 0.0)
+    interp = Interpretation.from_cores(cores, TRACTS, (), {"unit": "intervals"})
+    paths = write_las_files(interp, tmp_path / "a")  # default: 1 m beds -> 0.5, lowered
+    short = lasio.read(next(p for p in paths if p.stem == "V"))
+    assert short.well["STEP"].value == 0.2 and len(short["DEPT"]) == 1
+    assert "lowered to 0.2 so that the shortest well (V) holds a sample" in short.other
+
+
 def test_a_well_one_step_long_up_to_rounding_holds_its_one_cell():
     # 10.3 - 10.0 is a hair above 0.3 and 10.0 + 0.6 / 2 a hair below 10.3: the grid and
     # the refusal read depths a millionth of a step apart as one

@@ -212,6 +212,25 @@ def _holds_a_cell(top: float, base: float, step: float) -> bool:
     return (base - top) / step >= 1 - 1e-6
 
 
+def _fitting_step(interp, step: float, how: str) -> tuple[float, str]:
+    """The default ``step`` lowered, where a well is shorter than it, to a tidy step
+    the shortest well holds (:func:`_holds_a_cell`), and ``how`` saying so: a short
+    core in a database should not stop the export that a given ``--las-step`` would."""
+    spans = {
+        core.core: float(core.beds["base"].max() - core.beds["top"].min())
+        for core in interp
+        if len(core.beds)
+    }
+    short = {name: span for name, span in spans.items() if span > 0}
+    if not short:
+        return step, how
+    name = min(short, key=short.get)
+    if _holds_a_cell(0.0, short[name], step):
+        return step, how
+    fitted = tidy_step(short[name])
+    return fitted, f"{how}, lowered to {fitted:g} so that the shortest well ({name}) holds a sample"
+
+
 def _unsampled(interp, step: float) -> dict[str, tuple[int, int, dict[str, int], float]]:
     """Per well: how many of its beds no sample of ``step`` falls in, of how many, those
     beds by tract, and its thinnest bed."""
@@ -352,6 +371,7 @@ def write_las_files(
         step, median = default_las_step(interp)
         units = next(iter(interp)).units
         how = f"half the median bed thickness ({median:.4g} {units}) rounded down to {step:g}"
+        step, how = _fitting_step(interp, step, how)
     else:
         step = float(step)
         if not (step > 0 and math.isfinite(step)):
