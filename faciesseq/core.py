@@ -823,6 +823,16 @@ class CoreSet:
     def errors(self) -> list[Problem]:
         return [p for p in self.problems if p.severity == "error"]
 
+    @property
+    def source_columns(self) -> dict[str, str]:
+        """Role -> the column that filled it in the source files, as matched there (the
+        first file's where files differ); empty for a core set made in Python."""
+        columns: dict[str, str] = {}
+        for roles in self.meta.get("columns", {}).values():
+            for role, name in roles.items():
+                columns.setdefault(role, str(name))
+        return columns
+
     def require_valid(self) -> CoreSet:
         """Return ``self``, or raise :class:`InputError` naming the first error."""
         errors = self.errors

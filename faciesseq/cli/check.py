@@ -239,12 +239,9 @@ def _source_target(args: argparse.Namespace):
 
 
 def _columns(cores, explicit: dict[str, str]) -> dict[str, str]:
-    """Role -> column as matched in the data (the first file's where files differ)."""
-    columns: dict[str, str] = {}
-    for roles in cores.meta.get("columns", {}).values():
-        for role, name in roles.items():
-            columns.setdefault(role, name)
-    columns.update(explicit)
+    """Role -> column as matched in the data (:attr:`CoreSet.source_columns`), then
+    ``explicit``."""
+    columns = {**cores.source_columns, **explicit}
     order = ("core", "top", "base", "depth", "facies", "grain_size", "contact", "tract")
     return dict(sorted(columns.items(), key=lambda kv: (*order, kv[0]).index(kv[0])))
 

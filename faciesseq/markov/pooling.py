@@ -78,13 +78,10 @@ def _group_column(coreset: CoreSet, column: str) -> str:
 
 def _names_in_files(coreset: CoreSet) -> dict[str, str]:
     """Role -> the column's name in the source files where it differs from the role's
-    (``{"tract": "interp"}``; the first file's where files differ)."""
-    found: dict[str, str] = {}
-    for roles in coreset.meta.get("columns", {}).values():
-        for role, name in roles.items():
-            if str(name).strip().lower() != role:
-                found.setdefault(role, str(name))
-    return found
+    (``{"tract": "interp"}``; :attr:`CoreSet.source_columns`)."""
+    return {
+        role: name for role, name in coreset.source_columns.items() if name.strip().lower() != role
+    }
 
 
 def _no_group_column(column: str, attributes: list[str], as_read: dict[str, str]) -> str:
