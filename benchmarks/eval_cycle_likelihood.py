@@ -120,7 +120,7 @@ def unlabelled_model(x: np.ndarray, lengths: np.ndarray, seed: int) -> tuple:
             best = (ll, m)
     m = best[1]
     tst = int(np.argmax(m.means_[:, FEATURES.index("top_below")]))
-    names = {(tst + 1 + j) % 4: k for j, k in enumerate(range(4))}  # TST+1 is HST
+    names = {(tst + 1 + k) % 4: k for k in range(4)}  # the state after TST is HST
     return m, np.array([names[s] for s in range(4)])
 
 
