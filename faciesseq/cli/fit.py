@@ -427,7 +427,9 @@ def _report(args: argparse.Namespace, selection, successions, scheme) -> None:
         print(_durations_line(_durations(model, interp, scheme), units, len(interp) < n_cores))
     for caution in fit_cautions(model):
         print(caution)
-    print_summary(interp, scheme, "all in --format json", note=False, total=n_cores)
+    # a fit without labels prints its own caution instead of the note
+    note = interp.tracts_labelled
+    print_summary(interp, scheme, "all in --format json", note=note, total=n_cores)
     print(f"model written to {args.output}")
 
 

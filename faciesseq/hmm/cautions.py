@@ -17,6 +17,7 @@ from faciesseq.markov.seriation import SUGGESTED
 
 __all__ = [
     "contact_caution",
+    "few_labelled_cores_caution",
     "fit_cautions",
     "long_tract_caution",
     "long_tracts",
@@ -49,6 +50,7 @@ def read_cautions(model) -> list[str]:
         unlabelled_caution(model),
         tied_ranks_caution(model),
         missing_labels_caution(model),
+        few_labelled_cores_caution(model),
         suggested_ranks_caution(model),
         single_bed_caution(model),
         long_tract_caution(model),
@@ -156,6 +158,27 @@ def missing_labels_caution(model) -> str | None:
         "stacking trees learn only the tracts they are shown, so the fit will hardly ever "
         f"decode {'that tract' if one else 'those tracts'}, and its probabilities do not "
         "allow for them: label beds of every tract the cores hold, or fit without labels"
+    )
+
+
+#: Fewer labelled cores than this get :func:`few_labelled_cores_caution`: three were
+#: what the accuracy with labels was measured with (README, "What has been measured").
+FEW_LABELLED_CORES = 3
+
+
+def few_labelled_cores_caution(model) -> str | None:
+    """A caution where a fit's labels lie on fewer than :data:`FEW_LABELLED_CORES`
+    cores: the tracts are learnt from one or two cores' stacking, which other sites
+    express differently (with labels on one core the probabilities are not checked
+    either, which the probability note says)."""
+    cores = getattr(model, "labelled_cores_", None) or ()
+    if not cores or len(cores) >= FEW_LABELLED_CORES:
+        return None
+    return (
+        f"caution: labels on {len(cores)} core(s) only ({', '.join(cores)}): the fit learns "
+        "the tracts from their stacking alone; three labelled cores spread over the "
+        "area and the facies belts are what the measured accuracy with labels rests on "
+        "(README, 'What has been measured')"
     )
 
 
