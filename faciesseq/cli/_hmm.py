@@ -281,8 +281,10 @@ def resolve_suggest_ranks(args: argparse.Namespace) -> None:
 def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labelled: bool):
     """The scheme the fits use: ``scheme`` (checked against the order the data's
     transitions suggest), else the ranks suggested from the data where
-    ``args.ranks_suggested`` (:mod:`faciesseq.markov.seriation`), else None with a
-    warning where the fits have no labels to name the tracts. Suggested ranks with no
+    ``args.ranks_suggested`` (:mod:`faciesseq.markov.seriation`), else None (with a
+    warning where the fits have no labels to name the tracts; refused where no ranks
+    could be suggested, the default, and nothing else names the tracts, unless
+    ``--no-suggest-ranks`` asks for a fit without ranks). Suggested ranks with no
     direction (:attr:`~faciesseq.markov.seriation.RankSuggestion.undirected`) are refused
     where nothing else names the tracts (no labels) unless ``--suggest-ranks`` asks for
     them: a new user's fit on an order read the wrong
@@ -305,6 +307,14 @@ def scheme_for_fit(args: argparse.Namespace, cores, scheme, command: str, labell
         )
     if suggestion is None:
         if args.ranks_suggested:  # the default found nothing to suggest
+            if not labelled:
+                raise InputError(
+                    f"no --scheme, {_no_labels(command)}, and no facies order to suggest "
+                    "(fewer than three facies follow one another): without ranks the "
+                    f"tracts are not identified; give a scheme, {_labels_way(command)}, or "
+                    "fit without ranks anyway with --no-suggest-ranks",
+                    file=args.source,
+                )
             args.ranks_suggested = False
             args.settings_line = f"faciesseq {command}: {settings_line(args, cores)}"
         if not labelled:
