@@ -102,6 +102,9 @@ class DecodedBeds:
         #: thickness of each (core, facies), a part at a time
         self.core_facies: list[pd.Series] = []
         self.units: str | None = None
+        #: whether the source was a sampled log (samples layout, LAS): its intervals
+        #: are runs of one facies, not described intervals
+        self.sampled = False
         #: where each facies code was first read, as the keywords of
         #: :func:`faciesseq.errors.where` (``file``, ``row``, ``core``, ``depth``,
         #: ``units``), for the codes whose reader kept it; the beds keep no data row.
@@ -132,7 +135,7 @@ class DecodedBeds:
             self._contacts(model, unit),
         ]
         if model.unit_ != "grid":
-            found.append(self._thickness(training, getattr(model, "units_", None)))
+            found.append(self._thickness(training, getattr(model, "units_", None), model.unit_))
         found.append(self._outside_labelled(training, model))
         return [f for f in found if f]
 
@@ -173,7 +176,10 @@ class DecodedBeds:
             "contact probability (the stacking window reads them as missing)"
         )
 
-    def _thickness(self, training: Mapping, fitted_units: str | None) -> str | None:
+    def _thickness(self, training: Mapping, fitted_units: str | None, unit: str) -> str | None:
+        """The line saying the decoded beds are far thicker or thinner than the training
+        beds: a sampled log decoded by a model of described intervals is named as the
+        likely cause (its runs of one facies stand for the intervals), else the units."""
         median = training.get("bed_thickness_median")
         if not median or not self.thickness or self.units is None:
             return None
@@ -189,8 +195,18 @@ class DecodedBeds:
             f"the beds are {times:.1f} times {which} than the training beds (median "
             f"{decoded:.3g} {units} against {trained:.3g} {units}; said beyond a factor of "
             f"{THICKNESS_FACTOR:g}): the model's thickness and stacking features read them "
-            "at another scale; check the units, or fit a model on beds like these"
+            f"at another scale; {self._likely_cause(unit)}"
         )
+
+    def _likely_cause(self, unit: str) -> str:
+        """What to check where the beds' scale differs from the training beds'."""
+        if self.sampled and unit == "intervals":
+            return (
+                "the model was fitted on described intervals and this source is a sampled "
+                "log, whose runs of one facies stand for them: fit a model on beds (fit "
+                "--unit beds), or on logs like this one"
+            )
+        return "check the units, or fit a model on beds like these"
 
 
 def seen_facies(model) -> set[str]:

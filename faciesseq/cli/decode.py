@@ -777,7 +777,7 @@ def _run(args: argparse.Namespace) -> int:
         warnings.filterwarnings(
             "ignore", r"core .*: (facies|contact type) \[", UnseenCategoryWarning
         )
-        written = None
+        written, sampled_source = None, False
         places = _UnseenPlaces(model, args.source)
         if stream is not None:
             streamed = _Streamed(args, stream, places)
@@ -790,15 +790,16 @@ def _run(args: argparse.Namespace) -> int:
                 streamed.announce(scheme)
         if written is None:
             places = _UnseenPlaces(model, args.source)  # afresh: the cores read again
-            successions, sampled = _read(args, model, scheme, places)
+            successions, sampled_source = _read(args, model, scheme, places)
             if args.keep_labels:
                 kept = _kept_labels(successions, model, args.labels)
                 parts = model.decode_parts(successions, labels=kept)
             else:
                 parts = model.decode_parts(successions)
             parts = _with_progress(parts, model, successions)
-            written = _write(args, model, scheme, parts, labels, sampled)
+            written = _write(args, model, scheme, parts, labels, sampled_source)
         written.beds.first_places = places.first
+        written.beds.sampled = sampled_source
         for finding in written.beds.findings(model):
             warnings.warn(finding, stacklevel=1)
         if labels_given and not written.labels_found and not args.keep_labels:
