@@ -383,20 +383,21 @@ def _bed_columns(
     top_i = table["top"].to_numpy(dtype=float)
     base_i = table["base"].to_numpy(dtype=float)
     n = len(top_i)
-    new_core = np.r_[True, core_id[1:] != core_id[:-1]]
+    # the [:n]: no core starts in a table of no interval (an empty subset)
+    new_core = np.r_[True, core_id[1:] != core_id[:-1]][:n]
     gap = np.r_[False, top_i[1:] - base_i[:-1] > tolerance] & ~new_core
     seg_global = np.cumsum(gap)
     core_start = np.flatnonzero(new_core)
     segment = seg_global - np.repeat(seg_global[core_start], np.diff(np.r_[core_start, n]))
     # facies as integer codes: compared without one text object per interval
     facies_id, facies_names = pd.factorize(table["facies"], use_na_sentinel=False)
-    new_bed = np.r_[True, (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])]
-    new_bed |= new_core
+    changed = (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])
+    new_bed = np.r_[True, changed][:n] | new_core
     if not amalgamate:
         new_bed[:] = True
     bed_id = np.cumsum(new_bed) - 1
     first = np.flatnonzero(new_bed)
-    last = np.r_[first[1:] - 1, n - 1]
+    last = np.r_[first[1:] - 1, n - 1][: len(first)]
     top = top_i[first]
     base = base_i[last]
     data = {

@@ -148,6 +148,16 @@ def test_decode_reads_one_core_and_fit_and_decode_name_what_they_accept(two_labe
         TractHMM().fit(frame.to_dict("records"))
 
 
+def test_decoding_no_core_is_refused_by_name(two_labelled):
+    # an empty subset once reached the bed table and broke there with an IndexError
+    model, cores = two_labelled
+    for empty, kind in ((cores.subset([]), "CoreSet"), ([], "list")):
+        with pytest.raises(InputError, match=rf"^no cores to decode: the {kind} is empty$"):
+            model.decode(empty)
+        with pytest.raises(InputError, match=r"^no cores to decode"):
+            next(model.decode_parts(empty))
+
+
 def test_a_scheme_may_be_given_as_the_path_of_its_file(two_labelled):
     model, cores = two_labelled
     path = TWO_LABELLED / "myscheme.yaml"
