@@ -821,6 +821,16 @@ class CoreSet:
         return list(self.cores)
 
     @property
+    def columns(self) -> list[str]:
+        """The columns of :meth:`to_frame` (``core`` first), as the source named them
+        (after mapping), without making the table."""
+        if isinstance(self.cores, CoreTable):
+            found = list(self.cores.table.columns)
+        else:
+            found = list(dict.fromkeys(c for core in self for c in core.intervals.columns))
+        return ["core", *(str(c) for c in found if c not in PROVENANCE)]
+
+    @property
     def errors(self) -> list[Problem]:
         return [p for p in self.problems if p.severity == "error"]
 
