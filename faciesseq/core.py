@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.errors import ConfigError, InputError, Problem, some_of
 
 __all__ = [
     "FT_TO_M",
@@ -814,6 +814,8 @@ class CoreSet:
         return iter(self.cores.values())
 
     def __getitem__(self, name: str) -> Core:
+        if not isinstance(name, str) or name not in self.cores:
+            raise KeyError(f"no core {name!r} in this core set; cores: {some_of(self.names)}")
         return self.cores[name]
 
     @property
@@ -1039,9 +1041,10 @@ class CoreSet:
             segment[start].astype(int).tolist(),
         )
 
-    def subset(self, names: Iterable[str]) -> CoreSet:
-        """A core set with only the named cores (problems of those cores kept)."""
-        keep = [n for n in names]
+    def subset(self, names: str | Iterable[str]) -> CoreSet:
+        """A core set with only the named cores (problems of those cores kept); one name
+        may be given alone."""
+        keep = [names] if isinstance(names, str) else list(names)
         missing = [n for n in keep if n not in self.cores]
         if missing:
             raise InputError(f"unknown core(s) {missing}")
