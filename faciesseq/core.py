@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.errors import ConfigError, InputError, Problem, some_of
 
 __all__ = [
     "FT_TO_M",
@@ -383,20 +383,21 @@ def _bed_columns(
     top_i = table["top"].to_numpy(dtype=float)
     base_i = table["base"].to_numpy(dtype=float)
     n = len(top_i)
-    new_core = np.r_[True, core_id[1:] != core_id[:-1]]
+    # the [:n]: no core starts in a table of no interval (an empty subset)
+    new_core = np.r_[True, core_id[1:] != core_id[:-1]][:n]
     gap = np.r_[False, top_i[1:] - base_i[:-1] > tolerance] & ~new_core
     seg_global = np.cumsum(gap)
     core_start = np.flatnonzero(new_core)
     segment = seg_global - np.repeat(seg_global[core_start], np.diff(np.r_[core_start, n]))
     # facies as integer codes: compared without one text object per interval
     facies_id, facies_names = pd.factorize(table["facies"], use_na_sentinel=False)
-    new_bed = np.r_[True, (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])]
-    new_bed |= new_core
+    changed = (facies_id[1:] != facies_id[:-1]) | (seg_global[1:] != seg_global[:-1])
+    new_bed = np.r_[True, changed][:n] | new_core
     if not amalgamate:
         new_bed[:] = True
     bed_id = np.cumsum(new_bed) - 1
     first = np.flatnonzero(new_bed)
-    last = np.r_[first[1:] - 1, n - 1]
+    last = np.r_[first[1:] - 1, n - 1][: len(first)]
     top = top_i[first]
     base = base_i[last]
     data = {
@@ -813,11 +814,23 @@ class CoreSet:
         return iter(self.cores.values())
 
     def __getitem__(self, name: str) -> Core:
+        if not isinstance(name, str) or name not in self.cores:
+            raise KeyError(f"no core {name!r} in this core set; cores: {some_of(self.names)}")
         return self.cores[name]
 
     @property
     def names(self) -> list[str]:
         return list(self.cores)
+
+    @property
+    def columns(self) -> list[str]:
+        """The columns of :meth:`to_frame` (``core`` first), as the source named them
+        (after mapping), without making the table."""
+        if isinstance(self.cores, CoreTable):
+            found = list(self.cores.table.columns)
+        else:
+            found = list(dict.fromkeys(c for core in self for c in core.intervals.columns))
+        return ["core", *(str(c) for c in found if c not in PROVENANCE)]
 
     @property
     def errors(self) -> list[Problem]:
@@ -1028,9 +1041,10 @@ class CoreSet:
             segment[start].astype(int).tolist(),
         )
 
-    def subset(self, names: Iterable[str]) -> CoreSet:
-        """A core set with only the named cores (problems of those cores kept)."""
-        keep = [n for n in names]
+    def subset(self, names: str | Iterable[str]) -> CoreSet:
+        """A core set with only the named cores (problems of those cores kept); one name
+        may be given alone."""
+        keep = [names] if isinstance(names, str) else list(names)
         missing = [n for n in keep if n not in self.cores]
         if missing:
             raise InputError(f"unknown core(s) {missing}")

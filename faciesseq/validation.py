@@ -428,7 +428,10 @@ def _labelled_successions(
 ) -> list[Succession]:
     """The non-empty successions in the model's unit, checked to carry the label column."""
     from faciesseq.hmm.inputs import as_successions
+    from faciesseq.hmm.labels import refuse_missing_label_column
 
+    if isinstance(successions, CoreSet):  # the source's columns, not the beds'
+        refuse_missing_label_column(successions, labels)
     succ = [s for s in as_successions(successions, params["unit"], params.get("step")) if len(s)]
     if succ and labels not in succ[0].beds.columns:
         raise ConfigError(

@@ -472,6 +472,24 @@ def test_decode_core_decodes_only_the_named_cores(database, tmp_path, capsys, su
     assert f"--core: no core 'NOPE' in the source (its cores: {', '.join(names[:10])}" in err
 
 
+def test_decode_core_naming_no_core_of_a_streamed_source_is_a_usage_error(
+    database, tmp_path, capsys
+):
+    # a labelled fit decodes described intervals, whose table an empty batch of a streamed
+    # source (none of --core's names in it) once broke with an IndexError traceback
+    model = tmp_path / "model.json"
+    fit = ["fit", str(database / "cores.csv"), "--labels", "tract", "--units", "m"]
+    options = ["--restarts", "1", "--max-iter", "5", "--calibration-folds", "0"]
+    assert main([*fit, *options, "--suggest-ranks", "-o", str(model)]) == 0
+    capsys.readouterr()
+    out = tmp_path / "out"
+    decode = ["decode", str(model), str(database / "cores.csv"), "--units", "m"]
+    assert main([*decode, "--core", "NOPE", "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and not out.exists()
+    assert "--core: no core 'NOPE' in the source (its cores: S-71-1, S-71-2," in err
+
+
 def test_the_graph_line_says_so_where_no_labelled_boundary_tests_the_strict_order():
     # labels on scattered beds (every fifth) leave no two labelled neighbours of
     # different tracts: "all 0 labelled boundaries follow it" misled

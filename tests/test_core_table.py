@@ -73,6 +73,22 @@ def test_a_subset_keeps_the_named_cores_in_the_order_given(both):
     assert ours.problems == theirs.problems
 
 
+def test_one_name_alone_is_a_subset_of_one_core_and_a_name_not_held_is_named(both):
+    for cores in both:
+        first = cores.names[0]
+        assert cores.subset(first).names == [first]  # not its letters, one by one
+        with pytest.raises(KeyError, match=r"no core 'NOPE' in this core set; cores: "):
+            cores["NOPE"]
+
+
+def test_a_subset_of_no_core_has_no_bed_and_no_succession(both):
+    for cores in both:
+        empty = cores.subset([])
+        for unit in ("beds", "intervals"):  # described intervals once raised an IndexError
+            assert len(empty.succession_table(unit)) == 0
+        assert empty.successions("intervals") == [] and empty.bed_counts() == {}
+
+
 def test_taking_successions_of_a_succession_table_gives_those_successions(both):
     table, _ = both
     successions = table.succession_table()

@@ -92,13 +92,13 @@ def test_appendix_bad_wells_table_fails_first_in_one_line(tmp_path, capsys):
 
 
 @pytest.mark.slow
-def test_appendix_with_wells_has_a_correlation_section(tmp_path, capsys):
+def test_appendix_with_wells_has_a_correlation_section(tmp_path, capsys, recwarn):
     cores = pd.read_csv(ROOT / "demo_cores" / "cores.csv", keep_default_na=False)
     names = ["QB-01", "QB-03", "QB-05"]
     source = tmp_path / "cores.csv"
     cores[cores["core"].isin(names)].to_csv(source, index=False)
     wells = pd.read_csv(ROOT / "demo_cores" / "wells.csv")
-    wells[wells["core"].isin(names)].to_csv(tmp_path / "wells.csv", index=False)
+    wells[wells["core"].isin(names[:2])].to_csv(tmp_path / "wells.csv", index=False)
     out = tmp_path / "app"
     fast = ["--surrogates", "19", "--restarts", "1", "--folds", "2", "--no-latex"]
     argv = [
@@ -110,6 +110,11 @@ def test_appendix_with_wells_has_a_correlation_section(tmp_path, capsys):
         str(tmp_path / "wells.csv"),
     ]
     assert main([*argv, "-o", str(out), *fast]) == 0, capsys.readouterr().err
+    # a core without a well row: said once, in the command's words, not again by Python
+    err = capsys.readouterr().err
+    assert err.count("core 'QB-05' has no row in the wells table") == 1
+    assert "UserWarning" not in err and "faciesseq appendix: warning: " in err
+    assert not [w for w in recwarn if "QB-05" in str(w.message)]  # not a Python warning too
     data = json.loads((out / "appendix.json").read_text(encoding="utf-8"))
     titles = data["sections"]
     assert titles.index("5 Correlation") == titles.index("6 Methods") - 2  # one sub-section

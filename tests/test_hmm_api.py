@@ -148,6 +148,38 @@ def test_decode_reads_one_core_and_fit_and_decode_name_what_they_accept(two_labe
         TractHMM().fit(frame.to_dict("records"))
 
 
+def test_decoding_no_core_is_refused_by_name(two_labelled):
+    # an empty subset once reached the bed table and broke there with an IndexError
+    model, cores = two_labelled
+    for empty, kind in ((cores.subset([]), "CoreSet"), ([], "list")):
+        with pytest.raises(InputError, match=rf"^no cores to decode: the {kind} is empty$"):
+            model.decode(empty)
+        with pytest.raises(InputError, match=r"^no cores to decode"):
+            next(model.decode_parts(empty))
+
+
+def test_a_python_fit_refuses_what_the_fit_command_refuses(two_labelled):
+    frame = pd.read_csv(TWO_LABELLED / "labelled.csv")
+    repeated = CoreSet.from_frame(pd.concat([frame, frame.iloc[[3]]]), units="m")
+    with pytest.raises(InputError, match=r"repeats data row 4 \(1003\.92-1005\.3\)"):
+        TractHMM().fit(repeated)
+    one_bed = CoreSet.from_frame(frame.iloc[:1], units="m")
+    with pytest.raises(InputError, match=r"^too few beds to fit on: 1 beds in 1 succession\(s\)"):
+        TractHMM().fit(one_bed)
+
+
+def test_a_label_column_the_source_lacks_lists_the_sources_columns(two_labelled):
+    _, cores = two_labelled
+    plain = CoreSet.from_frame(cores.to_frame()[["core", "top", "base", "facies"]], units="m")
+    listed = r"\(columns: core, top, base, facies\)$"
+    with pytest.raises(ConfigError, match=r"^no column 'nope' for labels= " + listed):
+        TractHMM().fit(plain, labels="nope")
+    with pytest.raises(ConfigError, match=r"^no column 'tract' for labels= " + listed):
+        cross_validate(plain, labels="tract", folds=2)
+    with pytest.raises(ConfigError, match=r"did you mean labels='tract'\? names are read as"):
+        TractHMM().fit(cores, labels="Tract")
+
+
 def test_a_scheme_may_be_given_as_the_path_of_its_file(two_labelled):
     model, cores = two_labelled
     path = TWO_LABELLED / "myscheme.yaml"

@@ -433,17 +433,10 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
     Blank cells are beds not interpreted."""
     if column is None:
         return
-    from faciesseq.core import PROVENANCE
-    from faciesseq.hmm.labels import label_problems, no_labels
+    from faciesseq.hmm.labels import label_problems, no_labels, refuse_missing_label_column
 
+    refuse_missing_label_column(cores, column, "--labels", file=source)
     table = cores.to_frame(provenance=True)
-    if column not in table.columns:
-        names = [str(c) for c in table.columns if c not in PROVENANCE]
-        alike = [c for c in names if c.lower() == column.lower()]
-        hint = f"; did you mean --labels {alike[0]}? names are read as written" if alike else ""
-        raise ConfigError(
-            f"no column {column!r} for --labels (columns: {', '.join(names)}){hint}", file=source
-        )
     problems, labelled = label_problems(table, column, tract_model.order, cores.units, source)
     if not labelled:
         raise InputError(no_labels(column, len(table), source).message, file=source)

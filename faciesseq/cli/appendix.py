@@ -63,7 +63,9 @@ def _add_correlation(appendix, wells, cores, interpretation) -> None:
     wells, problems = check_wells(wells, cores.names, cores.units)
     for p in (*wells.problems, *problems):
         sys.stderr.write(f"faciesseq appendix: {p}\n")
-    extents = {c.name: (c.top, c.base) for c in cores}
+    # the cores with a well row only: correlate would warn again of the others, said above
+    kept = set(wells.frame["core"])
+    extents = {c.name: (c.top, c.base) for c in cores if c.name in kept}
     corr = correlate(interpretation.picks_table(), extents, wells.frame)
     section = correlation_section(
         corr,

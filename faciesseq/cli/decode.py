@@ -603,6 +603,8 @@ class _Streamed:
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out
             cores = batch if self.args.keep_irregular else screening.kept
+            if not len(cores):  # none of --core's names in it, or only irregular cores
+                continue
             if self.places is not None:
                 self.places.add(cores)
             table = cores.succession_table(model.unit_, model.grid_step(cores.units))

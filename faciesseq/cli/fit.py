@@ -31,7 +31,7 @@ from faciesseq.cli._hmm import (
     weigh_evidence,
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
-from faciesseq.errors import ConfigError, InputError
+from faciesseq.errors import ConfigError
 
 EXAMPLES = """\
 examples:
@@ -119,19 +119,14 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
 def _successions(args: argparse.Namespace, scheme):
     """The training successions of SOURCE, refused where there is nothing to fit on."""
+    from faciesseq.hmm.inputs import refuse_too_few_beds
+
     cores = regular_cores(read_source(args, scheme).require_valid(), "fit", args.keep_irregular)
     check_grid_size(cores, args.unit, args.step)
     successions = cores.succession_table(args.unit, args.step)
     if not len(successions):
         raise ConfigError("the source holds no beds to fit on", file=args.source)
-    if successions.lengths.max() < 2:
-        n = int(successions.lengths.sum())
-        raise InputError(
-            f"too few beds to fit on: {n} {args.unit} in {len(successions)} succession(s) and "
-            "no upward transition; the fit needs at least one core (or part between gaps) "
-            "of 2 or more beds",
-            file=args.source,
-        )
+    refuse_too_few_beds(successions, args.unit, file=args.source)
     return cores, successions
 
 

@@ -169,9 +169,7 @@ class Decoding:
         -------
         Interpretation, tables in depth order (shallowest first).
         """
-        self._check_fitted()
-        step = self.grid_step(getattr(successions, "units", None))
-        table = _succession_table(successions, self.unit_, step)
+        table = self._to_decode(successions)
         self._refuse_foreign(table)
         with said_once(_merge_unseen):  # one warning of each kind for all the cores
             parts = list(self._decoded(table, mass, labels, None))
@@ -201,10 +199,18 @@ class Decoding:
         """:meth:`decode`, a part of whole cores (at least ``size`` beds, default
         :data:`DECODE_PART`) at a time: what a part needs is made, decoded and handed
         on before the next is begun."""
-        self._check_fitted()
-        step = self.grid_step(getattr(successions, "units", None))
-        table = _succession_table(successions, self.unit_, step)
+        table = self._to_decode(successions)
         yield from self._decoded(table, mass, labels, size)
+
+    def _to_decode(self, successions) -> SuccessionTable:
+        """The successions of :meth:`decode` as one table in the model's unit; an empty
+        core set (or list) is refused by name, not decoded into nothing."""
+        self._check_fitted()
+        sized = isinstance(successions, CoreSet | SuccessionTable | list | tuple)
+        if sized and not len(successions):
+            raise InputError(f"no cores to decode: the {type(successions).__name__} is empty")
+        step = self.grid_step(getattr(successions, "units", None))
+        return _succession_table(successions, self.unit_, step)
 
     def decode_stream(
         self, tables: Iterable[SuccessionTable], mass: float = 0.9, size: int | None = None

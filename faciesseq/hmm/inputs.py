@@ -9,15 +9,18 @@ what is accepted and how to make it.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from os import PathLike
 from typing import Any
 
 from faciesseq.core import Core, CoreSet, Succession, SuccessionTable, check_grid_step
+from faciesseq.errors import InputError
 
 __all__ = [
     "ACCEPTED_CORES",
     "as_successions",
     "cores_type_error",
+    "refuse_too_few_beds",
 ]
 
 #: The kinds of cores ``fit`` and ``decode`` read, as the error names them.
@@ -60,3 +63,28 @@ def as_successions(data: Any, unit: str, step: float | None) -> list[Succession]
         odd = next(s for s in out if not isinstance(s, Succession))
         raise cores_type_error(odd, in_list=True)
     return out
+
+
+def refuse_too_few_beds(
+    successions: SuccessionTable | Sequence[Succession], unit: str, file: str | None = None
+) -> None:
+    """Refuse training successions none of which holds an upward transition (every one of
+    a single bed, or ``unit`` row): a fit on them learns nothing of the tracts' order, and
+    its decode gives every tract the same probability. ``file`` names the source.
+
+    Raises
+    ------
+    InputError
+        Naming the number of beds and successions, and what the fit needs.
+    """
+    if isinstance(successions, SuccessionTable):
+        lengths = successions.lengths.tolist()
+    else:
+        lengths = [len(s) for s in successions]
+    if lengths and max(lengths) < 2:
+        raise InputError(
+            f"too few beds to fit on: {sum(lengths)} {unit} in {len(lengths)} succession(s) "
+            "and no upward transition; the fit needs at least one core (or part between "
+            "gaps) of 2 or more beds",
+            file=file,
+        )

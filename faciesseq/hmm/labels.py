@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from faciesseq.core import Succession
+from faciesseq.core import CoreSet, Succession
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.scheme import TractModel, default_tract_model, permissive_tract_model
 
@@ -31,6 +31,7 @@ __all__ = [
     "label_values",
     "labelled_beds",
     "no_labels",
+    "refuse_missing_label_column",
 ]
 
 
@@ -101,6 +102,32 @@ def label_problems(
             )
         )
     return problems, int((~blank).sum())
+
+
+def refuse_missing_label_column(
+    cores: CoreSet, column: str, option: str = "labels=", file: str | None = None
+) -> None:
+    """Refuse a label column the core set lacks, listing the source's columns and one
+    spelt the same but for case (names are read as written). ``option`` is how the
+    caller gave the column: ``labels=`` in Python, ``--labels`` on the command line.
+
+    Raises
+    ------
+    ConfigError
+        ``no column 'Tract' for --labels (columns: core, top, base, facies, tract);
+        did you mean --labels tract? names are read as written``.
+    """
+    names = cores.columns
+    if column in names:
+        return
+    alike = [c for c in names if c.lower() == column.lower()]
+    hint = ""
+    if alike:  # as the caller would write it: labels='tract', --labels tract
+        spelt = f"{option}{alike[0]!r}" if option.endswith("=") else f"{option} {alike[0]}"
+        hint = f"; did you mean {spelt}? names are read as written"
+    raise ConfigError(
+        f"no column {column!r} for {option} (columns: {', '.join(names)}){hint}", file=file
+    )
 
 
 def label_values(

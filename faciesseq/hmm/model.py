@@ -52,8 +52,13 @@ from faciesseq.hmm.features import (
     FEATURES,
     resolve_features,
 )
-from faciesseq.hmm.inputs import as_successions
-from faciesseq.hmm.labels import clamp_from_labels, graph_from_labels, labelled_beds
+from faciesseq.hmm.inputs import as_successions, refuse_too_few_beds
+from faciesseq.hmm.labels import (
+    clamp_from_labels,
+    graph_from_labels,
+    labelled_beds,
+    refuse_missing_label_column,
+)
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.said_once import said_once
@@ -120,10 +125,21 @@ def _training_successions(
     (a list of successions grouped by core, as decode does): whole columns, no frame
     per succession; measured, making 32,453 of them, joining them again to encode
     and to decode took about 60 of the 263 s of a profiled fit at 10^6 beds. With
-    labels a list, which labels and calibration folds read a succession at a time."""
+    labels a list, which labels and calibration folds read a succession at a time.
+    Refused as ``faciesseq fit`` refuses them: a core set with errors, a label column
+    it lacks, no bed, or no succession of 2 beds or more."""
+    if isinstance(data, CoreSet):
+        data.require_valid()
+        if isinstance(labels, str):
+            refuse_missing_label_column(data, labels)
     if labels is None:
-        return _succession_table(data, unit, step)
-    return [s for s in as_successions(data, unit, step) if len(s)]
+        succ = _succession_table(data, unit, step)
+    else:
+        succ = [s for s in as_successions(data, unit, step) if len(s)]
+    if not len(succ):
+        raise InputError("no beds to fit the tract model on")
+    refuse_too_few_beds(succ, unit)
+    return succ
 
 
 #: The calibration record of a fit whose calibration was put off (``fit(calibrate=False)``).
@@ -624,8 +640,6 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self._check_hyper()
         unit = fit_unit(self.unit, labels is not None)
         succ = _training_successions(successions, unit, self.step, labels)
-        if not len(succ):
-            raise InputError("no beds to fit the tract model on")
         self.units_ = succ.units if isinstance(succ, SuccessionTable) else succ[0].units
         with said_once():  # the candidate graphs and refits would repeat each warning
             self._fit_once(succ, labels, progress)
