@@ -33,9 +33,11 @@ which ``relabel`` puts on the intervals holding their mid-depths.
 
 from __future__ import annotations
 
+import base64
 import csv
 import hashlib
 import math
+import zlib
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -202,6 +204,61 @@ def _column_digest(table: pd.DataFrame, column: str) -> str:
     return _digest(f"{k}\t{v}" for k, v in pairs)
 
 
+#: Longest text of :func:`_decoded_runs` kept in a record: the XLSX keeps the record in
+#: one cell (at most 32,767 characters); a longer one is left out, and a sheet that lost
+#: rows then cannot have its decoded_tract checked.
+MAX_RUNS_TEXT = 30_000
+
+
+def _sorted_rows(table: pd.DataFrame) -> list[tuple[str, float, str, str]]:
+    """``(core, top, top as text, decoded_tract)`` of every row, in core and depth order;
+    the top rounded as :func:`_keys` writes it, so that a round trip compares equal."""
+    tops = [f"{float(t):.6f}" for t in table["top"]]
+    rows = zip(table["core"], tops, table["decoded_tract"], strict=True)
+    return sorted((_text(c), float(t), t, _text(v)) for c, t, v in rows)
+
+
+def _decoded_runs(table: pd.DataFrame) -> str:
+    """Where ``decoded_tract`` changes down each core (``core, top, tract`` of the first
+    row of every run), compressed as one word, so that relabel can check the column
+    row by row on a sheet that lost rows (:func:`_runs_mismatch`)."""
+    lines, last = [], None
+    for core, _, top, tract in _sorted_rows(table):
+        if (core, tract) != last:
+            lines.append(f"{core}\t{top}\t{tract}")
+        last = (core, tract)
+    packed = zlib.compress("\n".join(lines).encode("utf-8"), 9)
+    return base64.urlsafe_b64encode(packed).decode("ascii")
+
+
+def _read_runs(runs: str) -> dict[str, tuple[list[float], list[str]]] | None:
+    """The runs of :func:`_decoded_runs` per core (first tops, tracts), or None where
+    the text cannot be read back (edited)."""
+    try:
+        packed = base64.urlsafe_b64decode(runs.encode("ascii"))
+        lines = zlib.decompress(packed).decode("utf-8").split("\n")
+        starts: dict[str, tuple[list[float], list[str]]] = {}
+        for core, top, tract in (line.split("\t") for line in lines if line):
+            starts.setdefault(core, ([], []))[0].append(float(top))
+            starts[core][1].append(tract)
+    except (ValueError, zlib.error, UnicodeError):
+        return None
+    return starts
+
+
+def _runs_mismatch(sheet: pd.DataFrame, runs: str) -> tuple[str, float, str, str] | None:
+    """The first row (core, top, decoded_tract, what decode wrote) whose decoded_tract
+    is not the tract of its run in ``runs`` (:func:`_decoded_runs`), or None."""
+    starts = _read_runs(runs) or {}
+    for core, top, _, tract in _sorted_rows(sheet):
+        tops, tracts = starts.get(core, ([], []))
+        i = int(np.searchsorted(tops, top, side="right")) - 1
+        wrote = tracts[i] if i >= 0 else ""
+        if tract != wrote:
+            return core, top, tract, wrote
+    return None
+
+
 def sheet_record(
     table: pd.DataFrame,
     model: str | None = None,
@@ -213,8 +270,10 @@ def sheet_record(
     options and say the next fit: ``model`` and ``scheme`` (absolute paths of the files
     decode read, ``none`` for a model without a scheme), ``labels`` (the interpreter's
     column, which relabel fills), ``tracts`` (the model's tract codes, comma-separated,
-    which relabel accepts; left out where none are given), ``beds`` (rows), and digests
-    of ``decoded_tract`` and ``note`` as written."""
+    which relabel accepts; left out where none are given), ``beds`` (rows), digests
+    of ``decoded_tract`` and ``note`` as written, and ``runs``, the decoded tracts down
+    each core (:func:`_decoded_runs`; left out of a sheet too long for it), which
+    checks ``decoded_tract`` row by row on a sheet that lost rows."""
     record = {
         "model": str(model) if model else "none",
         "scheme": str(scheme) if scheme else "none",
@@ -225,6 +284,9 @@ def sheet_record(
     record["beds"] = str(len(table))
     record["decoded"] = _column_digest(table, "decoded_tract")
     record["notes"] = _column_digest(table, "note")
+    runs = _decoded_runs(table)
+    if len(runs) <= MAX_RUNS_TEXT:
+        record["runs"] = runs
     return record
 
 
@@ -261,6 +323,8 @@ def record_problem(record: dict[str, str]) -> str | None:
         return f"its bed count {record['beds']!r} is not a number"
     if "tracts" in record and not _record_tracts(record):
         return "its tract list is empty"
+    if "runs" in record and _read_runs(record["runs"]) is None:
+        return "its runs cannot be read back"
     return None
 
 
@@ -1021,19 +1085,14 @@ def check_edits(sheet: pd.DataFrame, file: str) -> None:
     ------
     InputError
         ``decoded_tract`` is not what decode wrote (the sheet's record, where it
-        has one, and as many rows: the geologist wrote in the wrong column), or
-        nothing was edited (``geologist_tract`` empty on every row and the notes
-        as decode wrote them); exit code 1.
+        has one: the geologist wrote in the wrong column), checked row by row over the
+        rows present where the record has the decoded runs, else only on a sheet with
+        all its rows; or nothing was edited (``geologist_tract`` empty on every row and
+        the notes as decode wrote them); exit code 1.
     """
     record = sheet.attrs.get("record") or {}
     same_rows = record.get("beds") == str(len(sheet))
-    decoded = "decoded_tract" in sheet.columns and same_rows
-    if decoded and _column_digest(sheet, "decoded_tract") != record.get("decoded"):
-        raise InputError(
-            "decoded_tract is not what decode wrote: write the geologist's tracts in "
-            "geologist_tract and leave decoded_tract as it was; nothing written",
-            file=file,
-        )
+    _check_decoded(sheet, record, same_rows, file)
     if (sheet["geologist_tract"] != "").any():
         return
     if "note" in sheet.columns:
@@ -1046,6 +1105,53 @@ def check_edits(sheet: pd.DataFrame, file: str) -> None:
         f"nothing was edited: geologist_tract is empty on all {len(sheet)} rows; write the "
         "geologist's tracts there (not in decoded_tract) and save the sheet; nothing written",
         file=file,
+    )
+
+
+def _wrong_column(detail: str = "") -> str:
+    return (
+        f"decoded_tract is not what decode wrote{detail}: write the geologist's tracts in "
+        "geologist_tract and leave decoded_tract as it was; nothing written"
+    )
+
+
+def _check_decoded(sheet: pd.DataFrame, record: dict, same_rows: bool, file: str) -> None:
+    """Refuse a sheet whose ``decoded_tract`` is not what decode wrote (:func:`check_edits`),
+    naming the first row that differs where the record has the runs."""
+    if "decoded_tract" not in sheet.columns:
+        return
+    if "runs" in record:
+        wrong = _runs_mismatch(sheet, record["runs"])
+        if wrong is not None:
+            core, top, tract, wrote = wrong
+            row = sheet.loc[(sheet["core"] == core) & ((sheet["top"] - top).abs() < 1e-6), "row"]
+            raise InputError(
+                _wrong_column(f" (it reads {tract or 'nothing'!r}, decode wrote {wrote!r})"),
+                file=file,
+                row=int(row.iat[0]) if len(row) else None,
+                core=core or None,
+                depth=top,
+            )
+    elif same_rows and _column_digest(sheet, "decoded_tract") != record.get("decoded"):
+        raise InputError(_wrong_column(), file=file)
+
+
+def row_count_note(sheet: pd.DataFrame) -> str | None:
+    """One line where the sheet has fewer or more rows than its record says decode wrote
+    (rows deleted, or filtered out before saving), saying whether ``decoded_tract`` was
+    checked on the rows present; None where the counts agree or there is no record."""
+    record = sheet.attrs.get("record") or {}
+    if not record.get("beds") or record["beds"] == str(len(sheet)):
+        return None
+    checked = (
+        f"decoded_tract was checked on the {len(sheet)} rows present"
+        if "runs" in record
+        else "its decoded_tract could not be checked (a sheet of an older decode)"
+    )
+    how = "deleted or filtered out" if len(sheet) < int(record["beds"]) else "added"
+    return (
+        f"the sheet has {len(sheet)} rows where decode wrote {record['beds']} (rows {how}): "
+        f"beds not in the sheet keep their labels in SOURCE; {checked}"
     )
 
 

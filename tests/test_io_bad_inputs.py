@@ -478,3 +478,40 @@ def test_a_core_whose_every_top_is_below_its_base_is_asked_whether_the_columns_a
     assert [p.core for p in errors] == ["W1", "W1", "W2"]
     assert "top and base columns swapped" in errors[0].message
     assert not any("swapped" in p.message for p in errors[1:])
+
+
+def test_elevations_are_told_how_to_be_given_before_the_columns_are_said_swapped(tmp_path):
+    # elevations (positive upward) gave "are the top and base columns swapped?" first;
+    # a user who swapped them had every core read upside down
+    path = tmp_path / "c.csv"
+    path.write_text("core,top,base,facies\nW1,0,-1,A\nW1,-1,-2,B\n")
+    first = next(p for p in read_cores(path).problems if p.kind == "top-below-base")
+    message = first.message
+    assert "are the depths elevations (positive upward)?" in message
+    assert "negate them (depth = -elevation" in message
+    assert message.index("negate") < message.index("swapped")
+
+
+def test_a_core_whose_every_depth_is_negative_is_warned_of_as_elevations(tmp_path, capsys):
+    # the elevation table with top and base swapped: read upside down without a word
+    path = tmp_path / "c.csv"
+    rows = "W1,-1,0,A\nW1,-2,-1,B\nW2,-0.5,0.5,A\nW2,0.5,1,B\nW3,-3,-2,A\nW3,-2,-1,B\n"
+    path.write_text("core,top,base,facies\n" + rows)
+    found = [p for p in read_cores(path).problems if p.kind == "negative-depth"]
+    assert [p.core for p in found] == ["W1", "W3"]  # W2 crosses zero: no warning
+    assert found[0].severity == "warning"
+    assert "depths are negative (top -2, base 0): depth is positive downward" in found[0].message
+    assert "are these elevations?" in found[0].message
+    assert main(["markov", str(path), "-o", str(tmp_path / "m")]) == 0
+    err = capsys.readouterr().err
+    (line,) = [x for x in err.splitlines() if "negative" in x]
+    assert line.startswith("faciesseq markov: warning: depths are negative on 2 core(s) (W1, W3)")
+    assert main(["check", str(path)]) == 0
+    out, err = capsys.readouterr()
+    assert "core W1: depths are negative" in out and "on 2 core(s) (W1, W3)" in err
+
+
+def test_depths_at_zero_and_below_are_not_warned_of(tmp_path):
+    path = tmp_path / "c.csv"
+    path.write_text("core,top,base,facies\nW1,0,1,A\nW1,1,2,B\n")
+    assert not [p for p in read_cores(path).problems if p.kind == "negative-depth"]

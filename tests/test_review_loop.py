@@ -3,6 +3,7 @@ and the label sources a refitted model records (synthetic cores of tests/hmm_syn
 invented)."""
 
 import json
+import re
 import sys
 
 import hmm_synthetic as synth
@@ -423,7 +424,8 @@ def test_an_edit_of_the_decoded_column_is_refused_naming_the_column_to_edit(work
     code, _, err = _relabel(capsys, work, tmp_path / "wrong.csv", out)
     lines = [x for x in err.splitlines() if not x.startswith("faciesseq relabel: units:")]
     assert code == 1 and len(lines) == 1 and not out.exists()
-    assert "wrong.csv: decoded_tract is not what decode wrote" in lines[0]
+    assert "wrong.csv, data row 5, core " in lines[0]  # the first row edited
+    assert ": decoded_tract is not what decode wrote (it reads " in lines[0]
     assert "write the geologist's tracts in geologist_tract" in lines[0]
 
 
@@ -436,6 +438,59 @@ def test_an_edited_xlsx_decoded_column_is_refused_too(work, tmp_path, capsys):
     book.save(tmp_path / "wrong.xlsx")
     code, _, err = _relabel(capsys, work, tmp_path / "wrong.xlsx", tmp_path / "o.csv")
     assert code == 1 and "decoded_tract is not what decode wrote" in err
+
+
+def _short_sheet(work, tmp_path, edit_decoded: bool, record_edit=None):
+    """The sheet with core 2 filled and its last row deleted (filtered out in a
+    spreadsheet program), ``edit_decoded``: corrections typed into core 1's
+    decoded_tract; ``record_edit`` changes the record line first."""
+    sheet = _sheet(work)
+    cores = sheet["core"].unique()
+    second = sheet["core"] == cores[1]
+    sheet.loc[second, "geologist_tract"] = sheet.loc[second, "decoded_tract"].astype(object)
+    if edit_decoded:
+        first = np.flatnonzero(sheet["core"] == cores[0])[6]
+        sheet.loc[first, "decoded_tract"] = next(
+            t for t in TRACTS if t != sheet["decoded_tract"].iat[first]
+        )
+    record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
+    path = tmp_path / "short.csv"
+    text = sheet.drop(index=sheet.index[-1]).to_csv(index=False)
+    path.write_text((record_edit or str)(record) + "\n" + text)
+    return path
+
+
+def test_an_edited_decoded_column_is_refused_on_a_sheet_that_lost_a_row(work, tmp_path, capsys):
+    # the check compared one digest over all rows, skipped when a row was missing:
+    # the corrections in decoded_tract were dropped silently, exit 0
+    out = tmp_path / "labelled.csv"
+    path = _short_sheet(work, tmp_path, edit_decoded=True)
+    code, stdout, err = _relabel(capsys, work, path, out)
+    assert code == 1 and not out.exists() and stdout == "", err
+    (line,) = [x for x in err.splitlines() if "decoded_tract" in x]
+    assert "short.csv, data row 7, core " in line and "is not what decode wrote" in line
+
+
+def test_a_sheet_that_lost_a_row_is_read_with_one_line_saying_so(work, tmp_path, capsys):
+    out = tmp_path / "labelled.csv"
+    code, _, err = _relabel(capsys, work, _short_sheet(work, tmp_path, False), out)
+    assert code == 0 and out.exists(), err
+    (line,) = [x for x in err.splitlines() if "rows" in x]
+    assert "short.csv: the sheet has 119 rows where decode wrote 120 (rows deleted" in line
+    assert "decoded_tract was checked on the 119 rows present" in line
+
+
+def test_a_short_sheet_of_an_older_decode_says_its_decoded_column_went_unchecked(
+    work, tmp_path, capsys
+):
+    def older(record: str) -> str:  # the record of a decode before the runs
+        return re.sub(r"; runs: [^;\"]*", "", record)
+
+    path = _short_sheet(work, tmp_path, edit_decoded=True, record_edit=older)
+    code, _, err = _relabel(capsys, work, path, tmp_path / "labelled.csv")
+    assert code == 0, err
+    (line,) = [x for x in err.splitlines() if "rows" in x]
+    assert "its decoded_tract could not be checked (a sheet of an older decode)" in line
 
 
 def test_a_sheet_without_its_record_is_read_and_says_what_could_not_be_checked(

@@ -214,8 +214,21 @@ def units_alarm(cores) -> str | None:
     return None
 
 
+def negative_depth_alarm(cores) -> str | None:
+    """One line for the ``negative-depth`` warnings of a core set (every depth of a core
+    at or above zero: elevations read as depths turn the cores upside down)."""
+    from faciesseq.errors import some_of
+    from faciesseq.io.validate import NEGATIVE_DEPTHS
+
+    names = [p.core for p in cores.problems if p.kind == "negative-depth"]
+    if not names:
+        return None
+    return f"depths are negative on {len(names)} core(s) ({some_of(names)}): {NEGATIVE_DEPTHS}"
+
+
 def announce(args: argparse.Namespace, cores, scheme=None) -> None:
-    """On standard error: the units warning, loudly, at once; and, for usable data, the
+    """On standard error: the units warning, loudly, at once, and one line where every
+    depth of some core is negative (:func:`negative_depth_alarm`); and, for usable data, the
     units and scheme in force, kept in ``args.settings_line`` for
     :func:`faciesseq.cli.main` to write when the command has succeeded (so that a
     failure stays one line)."""
@@ -225,6 +238,9 @@ def announce(args: argparse.Namespace, cores, scheme=None) -> None:
     alarm = units_alarm(cores)
     if alarm:
         sys.stderr.write(f"{command}: WARNING: {alarm}\n")
+    negative = negative_depth_alarm(cores)
+    if negative:
+        sys.stderr.write(f"{command}: warning: {negative}\n")
     if not any(p.severity == "error" for p in cores.problems):
         # written by faciesseq.cli.main when the command succeeds (see settings_after)
         args.settings_line = f"{command}: {settings_line(args, cores, scheme)}"

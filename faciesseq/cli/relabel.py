@@ -279,7 +279,13 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target
     from faciesseq.cli._hmm import load_tracts_option
     from faciesseq.io import write_cores
-    from faciesseq.review import check_edits, read_sheet, relabel, relabel_settings
+    from faciesseq.review import (
+        check_edits,
+        read_sheet,
+        relabel,
+        relabel_settings,
+        row_count_note,
+    )
     from faciesseq.scheme import default_tract_model
 
     check_target(args.output, force=args.force, folder=False, inputs=input_files(args))
@@ -306,6 +312,9 @@ def run(args: argparse.Namespace) -> int:
     left_out = _training_cores_left_out(doc, result.cores)
     if left_out:
         print(left_out)
+    rows_note = row_count_note(sheet)
+    if rows_note:
+        print(f"faciesseq relabel: {name}: {rows_note}", file=sys.stderr)
     if settings.record is None:
         what = f"a damaged record ({settings.damaged})" if settings.damaged else "no record"
         print(

@@ -93,8 +93,9 @@ class CoreStream:
 
     Iterating gives one valid :class:`~faciesseq.core.CoreSet` per batch, in file
     order; :meth:`summary` then holds what the whole file's core set says of itself
-    (units, sources, and the problems about its depth units: the ``units`` and
-    ``units-suspect`` warnings; every problem when read with ``valid=False``). Each
+    (units, sources, and the problems about its depths: the ``units``,
+    ``units-suspect`` and ``negative-depth`` warnings; every problem when read with
+    ``valid=False``). Each
     iteration reads the file again. ``names``: the header's; ``read``: the columns
     converted (default all; see :func:`open_stream`), ``core_column`` indexing them.
 
@@ -158,9 +159,11 @@ class CoreStream:
             seen.update(names)
             if not valid:
                 self.problems += _of_cores(batch.problems)
-            elif batch.errors or errors:
-                errors.append(batch.errors)
-                continue
+            else:
+                self.problems += [p for p in batch.problems if p.kind in _KEPT_OF_CORES]
+                if batch.errors or errors:
+                    errors.append(batch.errors)
+                    continue
             yield batch
         self._finish(errors, form is not None, deepest)
 
@@ -245,6 +248,9 @@ def _of_cores(problems: tuple[Problem, ...]) -> list[Problem]:
         raise NotStreamable("a problem of the file, not of a core")
     return [p for p in problems if p.core is not None]
 
+
+#: Problems of a core that a valid read keeps in the summary (said on standard error).
+_KEPT_OF_CORES = ("negative-depth",)
 
 #: Problems of the file a batch reports, that the whole file's read makes once.
 _OF_FILE = ("units", "units-suspect", "no-cores")

@@ -16,6 +16,7 @@ warnings
     facies), ``null`` (LAS null values), ``encoding``, ``units``, ``units-suspect``
     (no units stated and depths that look like feet),
     ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``,
+    ``negative-depth`` (every depth of a core above zero: elevations?),
     ``unknown-contact`` (a contact type holding no known word: read as missing)
 repairs
     ``overlap`` (within the tolerance, snapped), ``depth-order``,
@@ -887,10 +888,20 @@ class _IntervalPlace:
         )
 
 
+#: How to give elevations (positive upward) as depths, said where they are met.
+ELEVATION_FIX = (
+    "to read elevations, give depths below a datum: negate them (depth = -elevation; "
+    "top and base stay the upper and lower limits of each interval)"
+)
+
+#: Said of a core whose every depth is at or above zero (``negative-depth``).
+NEGATIVE_DEPTHS = f"depth is positive downward; are these elevations? {ELEVATION_FIX}"
+
+
 #: Added to the first error of a core whose every interval has its top below its base.
 _ALL_INVERTED = (
-    "; so is every interval of this core: are the top and base columns swapped, or the "
-    "depths elevations (positive upward)?"
+    "; so is every interval of this core: are the depths elevations (positive upward)? "
+    f"{ELEVATION_FIX}; or, if they are depths, are the top and base columns swapped?"
 )
 
 
@@ -1176,6 +1187,7 @@ def build_coreset(
     # beds of every core at once (one vectorised pass, kept for the analyses)
     derived = CoreSet(cores, target)
     problems += _too_short_cores(derived, cores, gathered.owner)
+    problems += _negative_depth_cores(derived, gathered.owner)
     meta = {
         "sample_step": {n: gathered.steps[n] for n in cores if n in gathered.steps},
         "layout": {n: ("samples" if n in gathered.steps else "intervals") for n in cores},
@@ -1437,6 +1449,24 @@ def _too_short_cores(
         )
         for name, n_beds in derived.bed_counts().items()
         if n_beds < 2
+    ]
+
+
+def _negative_depth_cores(derived: CoreSet, owner: dict[str, str]) -> list[Problem]:
+    """A warning (``negative-depth``) for every core whose every depth is at or above
+    zero and some above (base at most 0): most often elevations, positive upward, read
+    as depths, which turns the core upside down."""
+    extents = derived.extents()
+    return [
+        Problem(
+            "warning",
+            "negative-depth",
+            # + 0.0: a base of -0.0 written as 0
+            f"depths are negative (top {row.top:g}, base {row.base + 0.0:g}): {NEGATIVE_DEPTHS}",
+            file=owner.get(name),
+            core=name,
+        )
+        for name, row in extents[extents["base"] <= 0].iterrows()
     ]
 
 

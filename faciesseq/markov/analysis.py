@@ -607,7 +607,8 @@ def _report(
         first.significant,
         enc.codes,
         embedded=embedded,
-        first_order_p=first.pearson.p_value,
+        # NaN where the test cannot be run: the cycle type is then not determined
+        first_order_p=first.pearson.p_value if first.pearson.testable else math.nan,
         alpha=alpha,
     )
     pc = None

@@ -56,6 +56,15 @@ class TestResult:
     ``(1 + #{surrogate >= observed}) / (1 + n_surrogates)``, Davison & Hinkley
     1997, Bootstrap Methods, eq. 4.11). ``n`` is the number of transitions
     the statistic was computed on.
+
+    A test with no degrees of freedom (or no transitions) cannot be run
+    (:attr:`testable`): the null fits the counts exactly whatever they are, so the
+    statistic is 0 or meaningless and a p-value, asymptotic or Monte Carlo, says
+    nothing. Two facies are the common case: an embedded chain of two facies can
+    only alternate A-B-A, and quasi-independence has (2 - 1)² - 2 < 1 degrees of
+    freedom (the embedded chain's (n - 1)² - n; Goodman 1968, Powers & Easterling
+    1982, cited from memory). Such a test is reported as not testable, with no
+    statistic, p-value or conclusion (:meth:`to_dict`, the reports).
     """
 
     name: str
@@ -68,18 +77,41 @@ class TestResult:
     null: str = ""
     note: str = ""
 
+    @property
+    def testable(self) -> bool:
+        """Whether the test can be run: some degrees of freedom and transitions."""
+        return self.dof > 0 and self.n > 0
+
+    @property
+    def not_testable(self) -> str:
+        """Why the test cannot be run (``not testable: 0 degrees of freedom``), or an
+        empty string for a test that can."""
+        if self.testable:
+            return ""
+        if self.note.startswith(NOT_TESTABLE):
+            return self.note
+        why = "no transitions" if self.n <= 0 else f"{max(self.dof, 0)} degrees of freedom"
+        return f"{NOT_TESTABLE}: {why}"
+
     def to_dict(self) -> dict:
+        """The test as plain values; a test that cannot be run has no statistic or
+        p-value (None) and says why in ``note``."""
+        run = self.testable
         return {
             "name": self.name,
-            "statistic": float(self.statistic),
+            "statistic": float(self.statistic) if run else None,
             "dof": int(self.dof),
-            "p_value": float(self.p_value),
+            "p_value": float(self.p_value) if run else None,
             "n": int(self.n),
             "method": self.method,
             "n_surrogates": int(self.n_surrogates),
             "null": self.null,
-            "note": self.note,
+            "note": self.note if run else self.not_testable,
         }
+
+
+#: First words of what is said of a test that cannot be run (:attr:`TestResult.not_testable`).
+NOT_TESTABLE = "not testable"
 
 
 def _chi2_sf(statistic: float, dof: int) -> float:

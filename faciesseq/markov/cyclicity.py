@@ -8,7 +8,9 @@ normalised by their maximum, ``log2(m − 1)`` for an embedded chain and
 ``log2 m`` for a depth grid. Whole-chain values are the means weighted by
 the share of transitions from (resp. into) each facies.
 
-The *cycle type*: ``random`` when the first-order test is not significant or
+The *cycle type*: ``not determined`` when the first-order test cannot be run (no
+degrees of freedom, as for two facies in an embedded chain, or no transitions:
+its p-value is NaN); ``random`` when the first-order test is not significant or
 both normalised entropies exceed ``random_level`` (the project's reading of
 Hattori's diagram; thresholds our own). Otherwise the cycle is judged by the
 symmetry of the upward count matrix, not by the whole-chain entropies: for a
@@ -32,6 +34,7 @@ the sum of residuals; the longest simple path when there is no cycle (Davis
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -43,6 +46,9 @@ from faciesseq.markov.counts import transition_probabilities
 
 __all__ = ["CyclicityResult", "cyclicity", "entropies", "preferred_path", "symmetry_test"]
 
+#: The cycle type where the first-order test cannot be run.
+NOT_DETERMINED = "not determined"
+
 #: The name of the symmetry test in reports.
 SYMMETRY_TEST = "symmetry of the upward counts (Bowker)"
 
@@ -51,8 +57,9 @@ SYMMETRY_TEST = "symmetry of the upward counts (Bowker)"
 class CyclicityResult:
     """Entropies per facies and for the chain, the cycle type and the preferred path.
 
-    ``symmetry``: Bowker's test of the upward counts, which decides between
-    ``symmetric`` and ``asymmetric``; ``direction``: the facies of an asymmetric
+    ``cycle_type``: ``not determined``, ``random``, ``symmetric`` or ``asymmetric``
+    (see the module notes); ``symmetry``: Bowker's test of the upward counts, which
+    decides between ``symmetric`` and ``asymmetric``; ``direction``: the facies of an asymmetric
     cycle in upward order (empty where it is not asymmetric or the preferred path
     does not close a cycle with a positive net flow around it)."""
 
@@ -276,7 +283,9 @@ def cyclicity(
     pre = float((cols * e_pre).sum() / tot) if tot else float("nan")
     rp, rq = (post / e_max, pre / e_max) if e_max > 0 else (np.nan, np.nan)
     symmetry = symmetry_test(n, chain=True)
-    if not (first_order_p < alpha) or min(rp, rq) > random_level:
+    if not math.isfinite(first_order_p):  # the first-order test could not be run
+        kind = NOT_DETERMINED
+    elif not (first_order_p < alpha) or min(rp, rq) > random_level:
         kind = "random"
     elif symmetry.p_value < alpha:  # NaN (no cycle among the joined pairs): symmetric
         kind = "asymmetric"

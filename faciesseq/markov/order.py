@@ -189,7 +189,7 @@ def order_tests(enc: EncodedSuccessions, max_order: int, embedded: bool) -> tupl
         note = (
             ""
             if dof > 0
-            else "not testable: 0 degrees of freedom (the contexts seen leave nothing to compare)"
+            else "not testable: 0 degrees of freedom, the contexts seen leave nothing to compare"
         )
         g_tests.append(
             TestResult(

@@ -7,6 +7,8 @@ every test is also written out in the form a journal asks for,
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 
@@ -18,7 +20,12 @@ from faciesseq.report.document import (
     format_p_text,
     format_value,
 )
-from faciesseq.report.markov_text import disagreement, order_explanation, split_verdict
+from faciesseq.report.markov_text import (
+    disagreement,
+    not_testable_text,
+    order_explanation,
+    split_verdict,
+)
 from faciesseq.report.style import facies_colour
 from faciesseq.scheme import FaciesScheme
 
@@ -30,7 +37,10 @@ format_p = format_p_text
 
 
 def format_test(test) -> str:
-    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.001`` (G² for likelihood ratios)."""
+    """A test as reported: ``χ²(12, N = 340) = 85.3, p < 0.001`` (G² for likelihood ratios);
+    ``not testable (0 degrees of freedom; N = 52)`` for a test that cannot be run."""
+    if not test.testable:
+        return not_testable_text(test)
     symbol = "G²" if "G2" in test.name or "g2" in test.name.lower() else "χ²"
     text = (
         f"{symbol}({test.dof}, N = {test.n}) = {format_value(float(test.statistic))}, "
@@ -134,8 +144,9 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     tests.add(
         Paragraph(
             f"First-order dependence ({fo.model}): {format_test(fo.pearson)}; "
-            f"{format_test(fo.g2)}; Cramér's V = {format_value(fo.cramers_v)}; "
-            f"{fo.n_low_expected} of the tested cells have expected counts below 5"
+            f"{format_test(fo.g2)}; "
+            + (f"Cramér's V = {format_value(fo.cramers_v)}; " if fo.pearson.testable else "")
+            + f"{fo.n_low_expected} of the tested cells have expected counts below 5"
             + (f" ({low_cells})." if fo.n_low_expected else ".")
         )
     )
@@ -145,10 +156,10 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
             {
                 "test": t.name,
                 "null hypothesis": t.null,
-                "statistic": float(t.statistic),
+                "statistic": float(t.statistic) if t.testable else math.nan,
                 "dof": int(t.dof),
                 "N": int(t.n),
-                "p": float(t.p_value),
+                "p": float(t.p_value) if t.testable else math.nan,
                 "method": t.method,
                 "surrogates": int(t.n_surrogates),
                 "reported as": format_test(t),
@@ -171,8 +182,12 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
         TableBlock(
             "markov_order",
             f"Markov order: log-likelihood, free parameters, AIC (Tong 1975) and BIC "
-            f"(Katz 1981) per order on {order.n} common transitions; lowest AIC at order "
-            f"{order.best_aic}, lowest BIC at order {order.best_bic}.",
+            f"(Katz 1981) per order on {order.n} common transitions; "
+            + (
+                f"lowest AIC at order {order.best_aic}, lowest BIC at order {order.best_bic}."
+                if order.n > 0
+                else "no order chosen on no transitions."
+            ),
             order_frame,
         )
     )

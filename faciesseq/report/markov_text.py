@@ -16,6 +16,7 @@ __all__ = [
     "format_test",
     "homogeneity_sentence",
     "markov_text",
+    "not_testable_text",
     "order_explanation",
     "verdict",
 ]
@@ -30,10 +31,26 @@ def format_p(p: float) -> str:
     return f"p = {p:.2g}"
 
 
+def not_testable_text(test) -> str:
+    """A test that cannot be run, as reports write it in place of its statistic:
+    ``not testable (0 degrees of freedom; N = 52)``."""
+    return f"not testable ({_why_not(test)}; N = {test.n})"
+
+
+def _why_not(test) -> str:
+    """Why a test cannot be run: ``0 degrees of freedom``."""
+    return test.not_testable.split(":", 1)[-1].strip()
+
+
 def format_test(test) -> str:
-    """``χ²(11, N = 396) = 173.61, p = 2.1e-31`` (and the Monte Carlo size when there is one)."""
+    """``χ²(11, N = 396) = 173.61, p = 2.1e-31`` (and the Monte Carlo size when there is
+    one); :func:`not_testable_text` for a test that cannot be run, no statistic."""
     symbol = "G²" if "(G2)" in test.name else "χ²"
-    text = f"{symbol}({test.dof}, N = {test.n}) = {test.statistic:.2f}, {format_p(test.p_value)}"
+    text = (
+        f"{symbol}({test.dof}, N = {test.n}) = {test.statistic:.2f}, {format_p(test.p_value)}"
+        if test.testable
+        else not_testable_text(test)
+    )
     if test.method == "monte carlo":
         text += f"  [Monte Carlo, {test.n_surrogates} surrogates]"
     return text
@@ -51,8 +68,10 @@ SPARSE_TABLES_NOTE = (
 
 
 def split_verdict(pearson, g2, alpha: float) -> bool:
-    """Whether Pearson's χ² and the G² of one null fall on either side of ``alpha``."""
-    return (pearson.p_value < alpha) != (g2.p_value < alpha)
+    """Whether Pearson's χ² and the G² of one null fall on either side of ``alpha``
+    (never for tests that cannot be run)."""
+    testable = pearson.testable and g2.testable
+    return testable and (pearson.p_value < alpha) != (g2.p_value < alpha)
 
 
 def disagreement(alpha: float) -> str:
@@ -67,6 +86,9 @@ def homogeneity_sentence(homogeneity, alpha: float) -> str:
     ``alpha``, both tests and that they disagree."""
     h = homogeneity
     groups = f"The {len(h.groups)} groups by {h.by}"
+    if not h.pearson.testable:
+        why = not_testable_text(h.pearson)
+        return f"{groups}: {why}; no conclusion on whether they differ."
     pearson_differs = h.pearson.p_value < alpha
     if not split_verdict(h.pearson, h.g2, alpha):
         word = "differ" if pearson_differs else "do not differ significantly"
@@ -163,17 +185,28 @@ def order_explanation(report) -> str | None:
     )
 
 
-def verdict(report) -> list[str]:
-    """Plain sentences answering "ordered or random?", each quoting the test it rests on."""
+def _alternation(report) -> str:
+    """Why two facies leave nothing to test in an embedded chain (empty otherwise)."""
+    if report.embedded and len(report.codes) == 2:
+        return "; with two facies an embedded chain can only alternate A-B-A"
+    return ""
+
+
+def _first_order_lines(report, mc: dict) -> list[str]:
+    """The first-order verdict, its G² where it disagrees and its Monte Carlo test;
+    no verdict where the test cannot be run."""
     fo = report.first_order
-    a = fo.alpha
-    first = fo.pearson
-    mc = {t.name: t for t in report.surrogate_tests}
-    lines = []
-    if first.p_value < a:
-        lines.append(f"Ordered, not random: the {fo.model} null is rejected, {format_test(first)}.")
-    else:
-        lines.append(f"Could be random: the {fo.model} null is not rejected, {format_test(first)}.")
+    a, first = fo.alpha, fo.pearson
+    if not first.testable:
+        return [
+            f"Not testable ({_why_not(first)}, N = {first.n}{_alternation(report)}): no "
+            f"conclusion on ordered or random (the {fo.model} null)."
+        ]
+    word = "Ordered, not random" if first.p_value < a else "Could be random"
+    lines = [
+        f"{word}: the {fo.model} null is {'' if first.p_value < a else 'not '}rejected, "
+        f"{format_test(first)}."
+    ]
     if split_verdict(first, fo.g2, a):
         lines.append(
             f"The likelihood-ratio G² of the same null falls on the other side, "
@@ -186,9 +219,18 @@ def verdict(report) -> list[str]:
             f"The Monte Carlo test {'agrees' if agree else 'disagrees'}: "
             f"p = {mc_first.p_value:.3g} with {mc_first.n_surrogates} surrogates."
         )
-    order = report.order
+    return lines
+
+
+def _order_lines(report, mc: dict) -> list[str]:
+    """First against second order (with its Monte Carlo test) and the orders AIC and
+    BIC choose; no verdict where the test cannot be run or no transition was fitted."""
+    order, a = report.order, report.first_order.alpha
+    lines = []
     one_two = next((t for t in order.tests if t.name.startswith("order 1 vs 2")), None)
-    if one_two is not None:
+    if one_two is not None and not one_two.testable:
+        lines.append(f"First order against second order: {not_testable_text(one_two)}.")
+    elif one_two is not None:
         word = "rejected" if one_two.p_value < a else "not rejected"
         line = f"First order is {word} against second order, {format_test(one_two)}"
         mc_order = mc.get("order 1 vs 2 (G2)")
@@ -198,13 +240,29 @@ def verdict(report) -> list[str]:
                 "with the same transition counts)"
             )
         lines.append(line + ".")
-    lines.append(f"Order chosen by AIC: {order.best_aic}; by BIC: {order.best_bic}.")
+    lines.append(_order_choice(order))
+    return lines
+
+
+def _order_choice(order) -> str:
+    """The orders AIC and BIC choose, or that none is chosen on no transitions."""
+    if order.n <= 0:
+        return "Order not chosen: the orders are fitted on 0 transitions."
+    return f"Order chosen by AIC: {order.best_aic}; by BIC: {order.best_bic}."
+
+
+def verdict(report) -> list[str]:
+    """Plain sentences answering "ordered or random?", each quoting the test it rests on;
+    a test that cannot be run (no degrees of freedom) is said so, with no conclusion."""
+    fo = report.first_order
+    mc = {t.name: t for t in report.surrogate_tests}
+    lines = _first_order_lines(report, mc) + _order_lines(report, mc)
     explanation = order_explanation(report)
     if explanation is not None:
         lines.append(explanation)
     if report.homogeneity is not None:
-        lines.append(homogeneity_sentence(report.homogeneity, a))
-    if fo.n_low_expected:
+        lines.append(homogeneity_sentence(report.homogeneity, fo.alpha))
+    if fo.n_low_expected and fo.pearson.testable:
         lines.append(
             f"{fo.n_low_expected} of {int(fo.active.sum())} cells expect fewer than 5 "
             "transitions: prefer the Monte Carlo p-values (--surrogates)."
@@ -238,15 +296,20 @@ def markov_text(report) -> str:
     width = max(len(t.name) for t in report.tests)
     for t in report.tests:
         lines.append(f"  {t.name.ljust(width)}  {format_test(t)}")
+    strength = f"Cramér's V = {fo.cramers_v:.3f}; " if fo.pearson.testable else ""
     lines.append(
-        f"  Cramér's V = {fo.cramers_v:.3f}; {fo.n_low_expected} of {int(fo.active.sum())} "
+        f"  {strength}{fo.n_low_expected} of {int(fo.active.sum())} "
         f"cells expected below 5; {fo.n_structural_zeros} structural zero cell(s)"
     )
     order = report.order
     lines += ["", f"Order (all fitted on the same {order.n} transitions)"]
     frame = order.to_frame().set_index("order")
     lines.append(_table(frame, 1))
-    lines.append(f"best order: AIC {order.best_aic}, BIC {order.best_bic}")
+    lines.append(
+        f"best order: AIC {order.best_aic}, BIC {order.best_bic}"
+        if order.n > 0
+        else "best order: not chosen (no transitions)"
+    )
     cyc = report.cyclicity
     lines += [
         "",
