@@ -221,3 +221,15 @@ def test_cores_and_wells_from_one_sqlite_database(database, tmp_path, capsys):
     pd.testing.assert_frame_equal(
         pd.read_csv(out / "correlation.csv"), pd.read_csv(tmp_path / "csv" / "correlation.csv")
     )
+
+
+def test_positions_seven_metres_apart_at_utm_northings_stay_distinct(database, tmp_path):
+    # written with %.6g, 6712345 and 6712352 both read 6.71235e+06
+    wells = tmp_path / "wells.csv"
+    rows = [(core, 6712345.0 + 7 * i) for i, core in enumerate(WELLS)]
+    pd.DataFrame(rows, columns=["core", "distance"]).to_csv(wells, index=False)
+    assert _run(database, tmp_path / "corr", "--datum", "depth", wells=wells) == 0
+    table = pd.read_csv(tmp_path / "corr" / "correlation.csv")
+    positions = table.drop_duplicates("core").set_index("core")["position"]
+    assert positions.to_dict() == {core: x for core, x in rows if core in positions.index}
+    assert positions.nunique() == len(positions) > 2

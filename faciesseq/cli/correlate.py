@@ -126,6 +126,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
     from faciesseq.io.writer import FileStems
+    from faciesseq.report.csvtext import MEASURES, csv_bytes
     from faciesseq.report.section import hang_section, hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
@@ -141,8 +142,8 @@ def run(args: argparse.Namespace) -> int:
     tracts = interp.tracts_table()
     out = Path(args.output)
     with new_folder(out) as temp:
-        corr.to_frame().to_csv(temp / "correlation.csv", index=False, float_format="%.6g")
-        corr.ties.to_csv(temp / "ties.csv", index=False, float_format="%.6g")
+        (temp / "correlation.csv").write_bytes(csv_bytes(corr.to_frame(), measures=MEASURES))
+        (temp / "ties.csv").write_bytes(csv_bytes(corr.ties, measures=MEASURES))
         stems = FileStems()
         for section in sorted(corr.wells["section"].unique()):
             # one section without a name in the wells table: section.png, not section-section.png
