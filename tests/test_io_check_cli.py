@@ -298,3 +298,20 @@ def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
     assert "error: " in capsys.readouterr().out
     assert main([*argv[:-1], "nothere"]) == 2
     assert "no column 'nothere' for --labels" in capsys.readouterr().err
+
+
+def test_a_samples_log_from_depth_zero_starts_at_zero_not_half_a_step_above():
+    """A first sample at 0 m with 0.1 m spacing covered -0.05 to 0.05: the core's top is
+    clipped at 0; a log starting lower, or at a negative depth, keeps half a step."""
+    frame = pd.DataFrame(
+        {
+            "core": ["A"] * 4 + ["B"] * 3 + ["C"] * 3,
+            "depth": [0.0, 0.1, 0.2, 0.3, 5.0, 5.1, 5.2, -1.0, -0.9, -0.8],
+            "facies": ["X", "X", "Y", "Y", "X", "Y", "Y", "X", "X", "Y"],
+        }
+    )
+    cores = CoreSet.from_frame(frame, "m", layout="samples")
+    tops = cores.extents()["top"]
+    assert tops["A"] == 0.0
+    assert tops["B"] == pytest.approx(4.95)
+    assert tops["C"] == pytest.approx(-1.05)

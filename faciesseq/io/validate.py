@@ -1101,6 +1101,9 @@ def _samples_to_intervals(
 ) -> tuple[pd.DataFrame, list[Problem]]:
     """Run-length intervals from samples: each sample covers [depth - step/2, depth + step/2).
 
+    A core logged from depth 0 (its first sample at 0 or below) starts at 0, not half
+    a step above the top of the hole.
+
     Between two samples closer than ``GAP_FACTOR * step`` the boundary is the
     midpoint (so slightly irregular spacing leaves no slivers); a larger step
     is a gap. Runs of samples with the same facies *and* the same attribute
@@ -1114,6 +1117,8 @@ def _samples_to_intervals(
     top = np.empty(n)
     base = np.empty(n)
     top[0] = depth[0] - step / 2
+    if depth[0] >= 0:
+        top[0] = max(top[0], 0.0)
     base[-1] = depth[-1] + step / 2
     mid = (depth[:-1] + depth[1:]) / 2
     base[:-1] = np.where(gap, depth[:-1] + step / 2, mid)
