@@ -118,7 +118,7 @@ def test_section_without_the_datum_kind_is_hung_on_the_core_tops(database, tmp_p
     # warning naming the section, exit 0
     assert _run(database, tmp_path / "corr", "--datum", "LHB") == 0
     err = capsys.readouterr().err
-    assert "section 'central' has no correlated LHB surface; hung on the core tops" in err
+    assert "section central: no correlated LHB surface; hung on the core tops" in err
     assert (tmp_path / "corr" / "section-central.png").exists()
 
 
@@ -134,20 +134,53 @@ def test_datum_of_no_kind_the_model_picks_is_a_usage_error(database, tmp_path, c
     assert not out.exists()
 
 
-def test_datum_needing_a_wells_column_names_the_flag(database, tmp_path, capsys):
-    # the demo wells table has no elevation column
+def test_datum_needing_a_wells_column_names_the_flag_before_any_core_is_decoded(
+    database, tmp_path, capsys, monkeypatch
+):
+    # the demo wells table has no elevation column: refused with the wells table, not
+    # after every core was decoded
+    def no_decoding(*args, **kwargs):
+        raise AssertionError("decoded before the wells table was checked")
+
+    monkeypatch.setattr(TractHMM, "decode", no_decoding)
     out = tmp_path / "corr"
     assert _run(database, out, "--datum", "elevation") == 2
     err = capsys.readouterr().err.strip()
-    assert "--datum elevation needs a 'elevation' value for every well" in err
+    assert "--datum elevation needs an 'elevation' value for every well; QB-01, " in err
     assert len(err.splitlines()) == 1 and not out.exists()
+
+
+def test_datum_kinds_are_read_in_any_case(database, tmp_path, capsys):
+    # tract labels are read in any case; --datum mfs was refused
+    assert _run(database, tmp_path / "corr", "--datum", "mfs") == 0
+    assert "hung on the core tops" not in capsys.readouterr().err  # hung on MFS
+    assert (tmp_path / "corr" / "section-central.png").exists()
+
+
+def test_wells_with_a_distance_and_map_coordinates_say_which_position_is_used(
+    database, tmp_path, capsys
+):
+    wells = tmp_path / "wells.csv"
+    rows = [(c, 10.0 * k, k, 0.0) for k, c in enumerate(WELLS)]
+    pd.DataFrame(rows, columns=["core", "x_km", "x", "y"]).to_csv(wells, index=False)
+    assert _run(database, tmp_path / "corr", "--datum", "depth", wells=wells) == 0
+    err = capsys.readouterr().err
+    assert "positions from the column x_km; the map coordinates x, y are not used" in err
 
 
 def test_unknown_surface_id_is_a_usage_error(database, tmp_path, capsys):
     assert _run(database, tmp_path / "corr", "--datum", "central:MFS-99") == 2
     err = capsys.readouterr().err.strip()
     assert "central:MFS-99" in err and len(err.splitlines()) == 1
+    assert "the surfaces of its section are central:" in err  # the ids one may give
     assert not (tmp_path / "corr").exists()
+
+
+def test_surface_id_of_no_section_is_a_usage_error_naming_the_sections(database, tmp_path, capsys):
+    assert _run(database, tmp_path / "corr", "--datum", "centrl:MFS-1") == 2
+    err = capsys.readouterr().err.strip()
+    assert "no section 'centrl' (the sections are central;" in err
+    assert len(err.splitlines()) == 1
 
 
 def test_missing_wells_file_one_line(database, tmp_path, capsys):
@@ -171,10 +204,21 @@ def test_wells_without_section_column_write_section_png_and_a_labelled_page(
     assert _run(database, out, "--datum", "depth", "--view", wells=wells) == 0
     assert (out / "section.png").exists()
     assert not (out / "section-section.png").exists()
+    assert "section section" not in capsys.readouterr().err
     html = (out / "section.html").read_text(encoding="utf-8")
     data = html.split('id="section-data">', 1)[1].split("</script>", 1)[0]
     assert '"position_unit": "km"' in data or '"position_unit":"km"' in data
     assert "Pick probabilities (from the model file): " in data
+
+
+def test_messages_of_the_one_unnamed_section_do_not_name_it():
+    # a wells table without a section column printed "section section: QB-01 and ..."
+    from faciesseq.correlation.chain import untied_message
+    from faciesseq.correlation.wells import section_prefix
+
+    assert untied_message("section", "QB-01", "QB-02").startswith("QB-01 and QB-02 share")
+    assert untied_message("dip", "QB-01", "QB-02").startswith("section dip: QB-01 and")
+    assert section_prefix("section") == ""
 
 
 def test_a_pair_without_a_tie_is_said_on_stderr_and_drawn_unjoined(
@@ -221,3 +265,15 @@ def test_cores_and_wells_from_one_sqlite_database(database, tmp_path, capsys):
     pd.testing.assert_frame_equal(
         pd.read_csv(out / "correlation.csv"), pd.read_csv(tmp_path / "csv" / "correlation.csv")
     )
+
+
+def test_positions_seven_metres_apart_at_utm_northings_stay_distinct(database, tmp_path):
+    # written with %.6g, 6712345 and 6712352 both read 6.71235e+06
+    wells = tmp_path / "wells.csv"
+    rows = [(core, 6712345.0 + 7 * i) for i, core in enumerate(WELLS)]
+    pd.DataFrame(rows, columns=["core", "distance"]).to_csv(wells, index=False)
+    assert _run(database, tmp_path / "corr", "--datum", "depth", wells=wells) == 0
+    table = pd.read_csv(tmp_path / "corr" / "correlation.csv")
+    positions = table.drop_duplicates("core").set_index("core")["position"]
+    assert positions.to_dict() == {core: x for core, x in rows if core in positions.index}
+    assert positions.nunique() == len(positions) > 2

@@ -495,3 +495,21 @@ def test_default_las_step_of_no_beds_is_refused():
 
     with pytest.raises(ConfigError):
         default_las_step(Interpretation.from_cores({}, TRACTS, ()))
+
+
+def test_las_written_by_decode_reads_back_without_tract_labels(decoded, tmp_path):
+    """The TRACT curve of decode's LAS files is the model's output: read back, it is the
+    column decoded_tract (one warning per file), not the interpreter's tract role that a
+    fit with labels trains on; the same curve in an interpreter's file stays labels."""
+    from faciesseq.io import read_cores
+
+    cores = read_cores(decoded / "las", columns={"facies": "FACIES"})
+    assert "tract" not in cores.source_columns
+    said = [p for p in cores.problems if p.kind == "decoded-tract"]
+    assert len(said) == 6 and "read as the column decoded_tract" in said[0].message
+    las = lasio.read(decoded / "las" / "S-71-2.las")
+    del las.params["FSQ_DECODED"]
+    las.write(str(tmp_path / "interpreted.las"), version=2.0)
+    cores = read_cores(tmp_path / "interpreted.las", columns={"facies": "FACIES"})
+    assert cores.source_columns["tract"] == "TRACT"
+    assert not [p for p in cores.problems if p.kind == "decoded-tract"]

@@ -509,3 +509,30 @@ def test_summary_json_rounds_thickness_and_probability_to_six_decimals():
         assert set(well) == {"core", "units", "thickness", "picks", "mean_probability"}
         for value in [*well["thickness"].values(), well["mean_probability"]]:
             assert value == round(value, 6) and len(repr(value).split(".")[1]) <= 6
+
+
+def test_deep_thin_beds_keep_their_depths_in_every_csv_table(models, tmp_path):
+    """Beds of 0.04 ft at 10,000 ft: every row of tracts.csv has top < base and joins
+    back to the source on (core, top, base); tops.csv agrees with tops.json."""
+    rng = np.random.default_rng(5)
+    rows = []
+    for core in ("D-1", "D-2"):
+        depth = 10000.0
+        for i in range(40):
+            thickness = 0.04 if i % 5 == 2 else round(rng.uniform(0.5, 3.0), 2)
+            facies = ("CP", "USF", "LSF", "OTZ")[i % 4]
+            rows.append((core, round(depth, 2), round(depth + thickness, 2), facies))
+            depth += thickness
+    source = pd.DataFrame(rows, columns=["core", "top", "base", "facies"])
+    source.to_csv(tmp_path / "deep.csv", index=False)
+    out = tmp_path / "out"
+    argv = ["decode", str(models["checked"]), str(tmp_path / "deep.csv"), "-o", str(out)]
+    assert main([*argv, "--format", "json"]) == 0
+    tracts = pd.read_csv(out / "tops.csv", comment="#")
+    as_json = pd.DataFrame(json.loads((out / "tops.json").read_text())["records"])
+    assert tracts["depth_top"].tolist() == as_json["depth_top"].tolist()
+    assert main([*argv, "--force"]) == 0
+    tracts = pd.read_csv(out / "tracts.csv", comment="#")
+    assert (tracts["top"] < tracts["base"]).all()
+    joined = source.merge(tracts, on=["core", "top", "base"])
+    assert len(joined) == len(source) == len(tracts)

@@ -110,6 +110,32 @@ def test_a_workbook_of_several_sheets_read_without_sheet_names_the_sheet_read(tm
     assert read_cores(path, sheet="Cores").names == ["X"]
 
 
+def test_a_workbook_whose_first_sheet_lacks_the_columns_names_the_sheet_that_has_them(
+    tmp_path, capsys
+):
+    """'map them with --column' cannot help where the columns are on another sheet: the
+    message names the sheet whose header has them and --sheet; without such a sheet, it
+    lists the other sheets."""
+    path = tmp_path / "book.xlsx"
+    with pd.ExcelWriter(path) as book:
+        pd.DataFrame({"note": ["described 2026"]}).to_excel(book, sheet_name="About", index=False)
+        pd.DataFrame({"a": [1]}).to_excel(book, sheet_name="Plots", index=False)
+        pd.DataFrame({"Well": ["X"], "From": [0], "To": [1], "Facies": ["A"]}).to_excel(
+            book, sheet_name="Logs", index=False
+        )
+    assert main(["check", str(path)]) == 1
+    err = capsys.readouterr().err.strip()
+    assert "sheet 'Logs' has them: read it with --sheet \"Logs\"; or map them" in err
+    assert len(err.splitlines()) == 1 and "Plots" not in err
+    assert main(["check", str(path), "--sheet", "Logs"]) == 0
+    capsys.readouterr()
+    with pd.ExcelWriter(path) as book:
+        pd.DataFrame({"note": ["described 2026"]}).to_excel(book, sheet_name="About", index=False)
+        pd.DataFrame({"a": [1]}).to_excel(book, sheet_name="Plots", index=False)
+    with pytest.raises(InputError, match="the workbook's other sheets are 'Plots'"):
+        read_cores(path)
+
+
 def test_scheme_draft_writes_codes_with_ranks_to_fill_and_refuses_to_overwrite(tmp_path, capsys):
     source = _source(tmp_path)
     out = tmp_path / "draft.yaml"
@@ -272,3 +298,20 @@ def test_check_lists_the_tract_labels_fit_cannot_read(tmp_path, capsys, suffix):
     assert "error: " in capsys.readouterr().out
     assert main([*argv[:-1], "nothere"]) == 2
     assert "no column 'nothere' for --labels" in capsys.readouterr().err
+
+
+def test_a_samples_log_from_depth_zero_starts_at_zero_not_half_a_step_above():
+    """A first sample at 0 m with 0.1 m spacing covered -0.05 to 0.05: the core's top is
+    clipped at 0; a log starting lower, or at a negative depth, keeps half a step."""
+    frame = pd.DataFrame(
+        {
+            "core": ["A"] * 4 + ["B"] * 3 + ["C"] * 3,
+            "depth": [0.0, 0.1, 0.2, 0.3, 5.0, 5.1, 5.2, -1.0, -0.9, -0.8],
+            "facies": ["X", "X", "Y", "Y", "X", "Y", "Y", "X", "X", "Y"],
+        }
+    )
+    cores = CoreSet.from_frame(frame, "m", layout="samples")
+    tops = cores.extents()["top"]
+    assert tops["A"] == 0.0
+    assert tops["B"] == pytest.approx(4.95)
+    assert tops["C"] == pytest.approx(-1.05)

@@ -82,20 +82,24 @@ def register(subparsers) -> None:
 
 
 def _decode(args):
-    """Read the wells, the model and the cores; decode the cores on the wells table."""
+    """Read the wells, the model and the cores; decode the cores on the wells table.
+    ``args.datum`` is set to the datum as the project spells it (``mfs``: ``MFS``), and
+    a datum read from the wells table is checked there, before any core is decoded."""
     from faciesseq.correlation.wells import check_wells, read_wells
     from faciesseq.hmm.modelfile import load_model
-    from faciesseq.report.section import check_datum
+    from faciesseq.report.section import check_datum, check_datum_values
     from faciesseq.surfaces import surface_codes
 
     wells = read_wells(require_file(args.wells))
     model = load_model(require_file(args.model))
-    check_datum(args.datum, surface_codes(model.tract_model_), option="--datum")
+    args.datum = check_datum(args.datum, surface_codes(model.tract_model_), option="--datum")
     scheme = scheme_for_model(args.scheme, model)
     cores = read_source(args, scheme).require_valid()
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
     wells, problems = check_wells(wells, cores.names, cores.units)
+    if args.datum in ("elevation", "datum_depth"):
+        check_datum_values(wells.frame, args.datum, option="--datum")
     for p in (*wells.problems, *problems):
         sys.stderr.write(f"faciesseq correlate: {p}\n")
     cores = cores.subset(list(wells.frame["core"]))
@@ -125,7 +129,9 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
 def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
+    from faciesseq.correlation.wells import section_prefix
     from faciesseq.io.writer import FileStems
+    from faciesseq.report.csvtext import MEASURES, csv_bytes
     from faciesseq.report.section import hang_section, hanging_datum, section_figure
 
     check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
@@ -141,19 +147,19 @@ def run(args: argparse.Namespace) -> int:
     tracts = interp.tracts_table()
     out = Path(args.output)
     with new_folder(out) as temp:
-        corr.to_frame().to_csv(temp / "correlation.csv", index=False, float_format="%.6g")
-        corr.ties.to_csv(temp / "ties.csv", index=False, float_format="%.6g")
+        (temp / "correlation.csv").write_bytes(csv_bytes(corr.to_frame(), measures=MEASURES))
+        (temp / "ties.csv").write_bytes(csv_bytes(corr.ties, measures=MEASURES))
         stems = FileStems()
         for section in sorted(corr.wells["section"].unique()):
             # one section without a name in the wells table: section.png, not section-section.png
             unnamed = section == "section" and corr.wells["section"].nunique() == 1
             stem = stems("section" if unnamed else f"section-{section}")
-            datum, note = hanging_datum(corr, section, args.datum)
+            datum, note = hanging_datum(corr, section, args.datum, option="--datum")
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")
             unhung = hang_section(corr, section, datum, tracts, option="--datum").note
             if unhung:
-                sys.stderr.write(f"faciesseq correlate: section {section}: {unhung}\n")
+                sys.stderr.write(f"faciesseq correlate: {section_prefix(section)}{unhung}\n")
             section_figure(
                 corr,
                 section,

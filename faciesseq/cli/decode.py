@@ -135,12 +135,12 @@ def register(subparsers) -> None:
 
 
 def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
-    from faciesseq.report.csvtext import csv_blocks
+    from faciesseq.report.csvtext import MEASURES, csv_blocks
 
     with path.open("wb") as handle:
         if probabilities is not None:
             handle.write(f"# {probabilities['note']}\n".encode())
-        handle.writelines(csv_blocks(frame))
+        handle.writelines(csv_blocks(frame, measures=MEASURES))
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
@@ -187,10 +187,10 @@ class _Table:
             _write_csv(frame, self.path, self.probabilities)
             self.started = True
         elif len(frame):
-            from faciesseq.report.csvtext import csv_blocks
+            from faciesseq.report.csvtext import MEASURES, csv_blocks
 
             with self.path.open("ab") as handle:
-                handle.writelines(csv_blocks(frame, header=False))
+                handle.writelines(csv_blocks(frame, header=False, measures=MEASURES))
 
     def close(self) -> None:
         if self.frames:

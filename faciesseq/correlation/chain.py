@@ -39,6 +39,7 @@ from faciesseq.correlation.align import (
 from faciesseq.correlation.wells import (
     WellTable,
     check_wells,
+    section_prefix,
     wells_from_frame,
 )
 
@@ -172,7 +173,7 @@ class Correlation:
         by_order = self.ties[self.ties["tied_by"] == "order"]
         pairs = by_order.groupby(["section", "core_left", "core_right"], sort=False).size()
         return [
-            f"section {section}: {left} and {right} tied by the order of their picks alone "
+            f"{section_prefix(section)}{left} and {right} tied by the order of their picks alone "
             f"(their cores cover different parts of the succession): {n} tie(s), all doubtful"
             for (section, left, right), n in pairs.items()
         ]
@@ -187,7 +188,7 @@ def untied_message(section, left: str, right: str) -> str:
     """``section dip: NU-02 and NU-03 share no tied surface; their columns are drawn
     unjoined``."""
     return (
-        f"section {section}: {left} and {right} share no tied surface; "
+        f"{section_prefix(section)}{left} and {right} share no tied surface; "
         "their columns are drawn unjoined"
     )
 

@@ -31,7 +31,18 @@ import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem, some_of
 
-__all__ = ["WellTable", "check_wells", "read_wells", "wells_from_frame"]
+__all__ = [
+    "DEFAULT_SECTION",
+    "WellTable",
+    "check_wells",
+    "read_wells",
+    "section_prefix",
+    "wells_from_frame",
+]
+
+#: The name of the one section of a wells table without a ``section`` column;
+#: messages and titles do not print it.
+DEFAULT_SECTION = "section"
 
 _NAMES = ("core", "name", "well")
 _DISTANCE = ("distance", "distance_km", "x_km", "position")
@@ -64,6 +75,12 @@ class WellTable:
     position_label: str = "distance"
     problems: tuple[Problem, ...] = field(default=())
     depth_units: Mapping[str, str] = field(default_factory=dict)
+
+
+def section_prefix(section: str) -> str:
+    """``section dip: `` opening a message about one section, or ``""`` for the one
+    section of a wells table that names none (not "section section: ")."""
+    return "" if str(section) == DEFAULT_SECTION else f"section {section}: "
 
 
 def _column(frame: pd.DataFrame, names: Iterable[str]) -> str | None:
@@ -110,9 +127,9 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
     names = _well_names(frame, rows, file)
     section_col = _column(frame, ("section",))
     sections = (
-        frame[section_col].astype(object).fillna("section").astype(str).str.strip()
+        frame[section_col].astype(object).fillna(DEFAULT_SECTION).astype(str).str.strip()
         if section_col
-        else pd.Series("section", index=frame.index)
+        else pd.Series(DEFAULT_SECTION, index=frame.index)
     )
     order_col = _column(frame, ("order",))
     order = _numbers(frame, order_col, rows, file, "order") if order_col else None
@@ -136,7 +153,7 @@ def wells_from_frame(frame: pd.DataFrame, file: str = "wells table", rows=None) 
         out[role] = _numbers(frame, col, rows, file, role) if col else np.nan
         if unit:
             depth_units[role] = unit
-    problems = _same_positions(out, file)
+    problems = [*_unused_coordinates(frame, label, file), *_same_positions(out, file)]
     if order is not None and _column(frame, _DISTANCE) is not None:
         problems += _order_disagreements(out, file)
     out = out.sort_values(["section", "position", "core"], kind="stable").reset_index(drop=True)
@@ -227,6 +244,22 @@ def _positions(
     return position, f"distance along the section ({x_col}, {y_col} units)"
 
 
+def _unused_coordinates(frame: pd.DataFrame, label: str, file: str) -> list[Problem]:
+    """A note where a distance column is used beside map coordinates x and y."""
+    coordinates = [_column(frame, (axis,)) for axis in ("x", "y")]
+    if label not in frame.columns or None in coordinates:
+        return []
+    return [
+        Problem(
+            "warning",
+            "position-column",
+            f"positions from the column {label}; the map coordinates "
+            f"{coordinates[0]}, {coordinates[1]} are not used",
+            file=file,
+        )
+    ]
+
+
 def _same_positions(wells: pd.DataFrame, file: str) -> list[Problem]:
     """A warning for each section where wells stand at one position: the section puts
     them side by side in name order, which says nothing of where they stand (a wells
@@ -240,7 +273,7 @@ def _same_positions(wells: pd.DataFrame, file: str) -> list[Problem]:
                 Problem(
                     "warning",
                     "wells-same-position",
-                    f"section {s!r}: wells {names} stand at one position; they are "
+                    f"{section_prefix(s)}wells {names} stand at one position; they are "
                     "drawn in name order, which may not be their order on the ground",
                     file=file,
                     row=int(shared["row"].iloc[0]),
@@ -260,7 +293,7 @@ def _order_disagreements(wells: pd.DataFrame, file: str) -> list[Problem]:
                 Problem(
                     "warning",
                     "wells-out-of-order",
-                    f"section {s!r}: the order column disagrees with the positions; "
+                    f"{section_prefix(s)}the order column disagrees with the positions; "
                     "wells are ordered by position",
                     file=file,
                 )
@@ -423,7 +456,7 @@ def check_wells(
                 Problem(
                     "warning",
                     "one-well-section",
-                    f"section {section!r} has one well with a core; nothing to correlate",
+                    f"{section_prefix(section)}one well with a core; nothing to correlate",
                     file=wells.file,
                 )
             )

@@ -12,6 +12,11 @@ Text in LAS 2.0 data is awkward, so this project stores a text-valued curve
 with the meaning of each number in the ``~Parameter`` section: the mnemonic
 ``<CURVE>_<n>`` holds the text of value ``n``. The reader decodes any curve
 that has such entries.
+
+A file written by ``faciesseq decode`` carries the ``~Parameter`` item
+:data:`DECODED_MARK`; its ``TRACT`` curve is the model's decoded tract, not an
+interpreter's: it is read as the plain column ``decoded_tract`` (one warning), so
+that a fit with labels never trains on a model's own output.
 """
 
 from __future__ import annotations
@@ -28,10 +33,14 @@ from faciesseq.io.columns import ROLES, _key, normalise_units
 from faciesseq.io.raw import RawTable
 from faciesseq.io.tabular import decode_text
 
-__all__ = ["LAS_NULL", "header_depths", "read_las", "write_las"]
+__all__ = ["DECODED_MARK", "LAS_NULL", "header_depths", "read_las", "write_las"]
 
 #: Null value written in the header of the LAS files this project writes.
 LAS_NULL = -999.25
+#: ``~Parameter`` mnemonic of the LAS files ``faciesseq decode`` writes.
+DECODED_MARK = "FSQ_DECODED"
+#: Column the decoded ``TRACT`` curve of such a file is read as (no role).
+DECODED_TRACT = "decoded_tract"
 
 
 def _facies_curve(mnemonics: list[str], curve: str | None, file: str) -> str:
@@ -102,6 +111,8 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
                 core=core,
             )
         )
+    if _item(las.params, DECODED_MARK) is not None:
+        frame = _decoded_tract_aside(frame, facies, problems, file, core)
     # Rows are LAS data lines (1 = the first line of the ~A section).
     return RawTable(
         frame,
@@ -113,6 +124,28 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
         roles={"depth": mnemonics[0], "facies": facies},
         problems=problems,
     )
+
+
+def _decoded_tract_aside(
+    frame: pd.DataFrame, facies: str, problems: list[Problem], file: str, core: str
+) -> pd.DataFrame:
+    """The ``TRACT`` curve of a file decode wrote renamed :data:`DECODED_TRACT`, said
+    in one warning (a model's output is no interpreter's label)."""
+    curves = [m for m in frame.columns if _key(m) in ROLES["tract"] and m != facies]
+    if not curves:
+        return frame
+    problems.append(
+        Problem(
+            "warning",
+            "decoded-tract",
+            f"written by faciesseq decode: its {curves[0]} curve (the model's decoded "
+            f"tracts) is read as the column {DECODED_TRACT}, not as an interpreter's tract "
+            "labels",
+            file=file,
+            core=core,
+        )
+    )
+    return frame.rename(columns={curves[0]: DECODED_TRACT})
 
 
 def _las_text(path: Path, encoding: str | None) -> tuple[str, list[Problem]]:

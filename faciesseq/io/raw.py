@@ -49,6 +49,9 @@ class RawTable:
         used unless the user maps the role explicitly.
     problems
         What the reader itself found (encoding detected, null values...).
+    other_sheets
+        Sheet name -> header of each other sheet of a workbook read without a
+        sheet named (its first sheet), for a message where the first lacks columns.
     """
 
     frame: pd.DataFrame
@@ -59,6 +62,7 @@ class RawTable:
     layout: str | None = None
     roles: dict[str, str] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
+    other_sheets: dict[str, list[str]] = field(default_factory=dict)
 
     def row_numbers(self) -> np.ndarray:
         """The source row of each row of ``frame`` (an integer array)."""

@@ -386,12 +386,14 @@ def read_excel(path: Path, sheet: str | None = None) -> RawTable:
         raise InputError(
             f"not a readable .xlsx workbook ({type(exc).__name__})", file=file
         ) from None
+    others: dict[str, list[str]] = {}
     try:
         names = book.sheetnames
         if sheet is None:
             ws = book[names[0]]
             if len(names) > 1:  # messages say which sheet was read
                 sheet = names[0]
+                others = {name: _sheet_header(book[name]) for name in names[1:]}
         elif sheet in names:
             ws = book[sheet]
         else:
@@ -417,7 +419,13 @@ def read_excel(path: Path, sheet: str | None = None) -> RawTable:
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
     label = file if sheet is None else f"{file} [{sheet}]"
-    return RawTable(frame.astype(object), label, rows[keep].tolist())
+    return RawTable(frame.astype(object), label, rows[keep].tolist(), other_sheets=others)
+
+
+def _sheet_header(ws) -> list[str]:
+    """The names in the first row of a worksheet (blank cells left out)."""
+    first = next(ws.iter_rows(max_row=1, values_only=True), ())
+    return [str(h).strip() for h in first if h is not None and str(h).strip()]
 
 
 def read_parquet(path: Path) -> RawTable:

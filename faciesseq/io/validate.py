@@ -373,10 +373,33 @@ def _layout(
         hint = wording.columns(missing)
         raise InputError(
             f"missing required column(s) {', '.join(missing)} for the {layout} layout; the "
-            f"columns are {names}; map them with {hint}",
+            f"columns are {names}; {_other_sheets_hint(table, wording)}map them with {hint}",
             file=table.file,
         )
     return layout
+
+
+def _other_sheets_hint(table: RawTable, wording: Wording) -> str:
+    """Where the first sheet of a workbook was read: the other sheets whose header has
+    the columns of a layout (else every other sheet), and the option reading one."""
+    if not table.other_sheets:
+        return ""
+    fitting = [name for name, header in table.other_sheets.items() if _has_layout(header)]
+    if fitting:
+        listed = ", ".join(repr(n) for n in fitting)
+        has = "sheet {} has them" if len(fitting) == 1 else "sheets {} have them"
+        return f"{has.format(listed)}: read it with {wording.sheet(fitting[0])}; or "
+    listed = ", ".join(repr(n) for n in table.other_sheets)
+    return f"the workbook's other sheets are {listed} (read one with {wording.sheet('NAME')}); or "
+
+
+def _has_layout(header: list[str]) -> bool:
+    """Whether a header names the columns of the intervals or the samples layout."""
+    try:
+        roles = match_columns(header).roles
+    except InputError:  # two columns of one role: not plainly a layout
+        return False
+    return "facies" in roles and ({"top", "base"} <= set(roles) or "depth" in roles)
 
 
 def _prepare(
@@ -1089,6 +1112,9 @@ def _samples_to_intervals(
 ) -> tuple[pd.DataFrame, list[Problem]]:
     """Run-length intervals from samples: each sample covers [depth - step/2, depth + step/2).
 
+    A core logged from depth 0 (its first sample at 0 or below) starts at 0, not half
+    a step above the top of the hole.
+
     Between two samples closer than ``GAP_FACTOR * step`` the boundary is the
     midpoint (so slightly irregular spacing leaves no slivers); a larger step
     is a gap. Runs of samples with the same facies *and* the same attribute
@@ -1102,6 +1128,8 @@ def _samples_to_intervals(
     top = np.empty(n)
     base = np.empty(n)
     top[0] = depth[0] - step / 2
+    if depth[0] >= 0:
+        top[0] = max(top[0], 0.0)
     base[-1] = depth[-1] + step / 2
     mid = (depth[:-1] + depth[1:]) / 2
     base[:-1] = np.where(gap, depth[:-1] + step / 2, mid)

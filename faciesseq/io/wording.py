@@ -29,6 +29,10 @@ class Wording:
         name = '"NAME"' if quoted else "NAME"
         return " ".join(f"--column {role}={name}" for role in roles)
 
+    def sheet(self, name: str) -> str:
+        """The option reading sheet ``name`` of a workbook."""
+        return f"sheet={name!r}" if self.python else f'--sheet "{name}"'
+
     def units(self, value: str | None = None) -> str:
         """The depth-units option: ``--units ft`` or ``units='ft'``; without ``value``,
         the option itself."""

@@ -12,23 +12,40 @@ point, and cells out of the scaled range, are formatted by ``%`` itself); each
 distinct text is quoted once, as the :mod:`csv` module quotes it. Columns of other
 kinds (dates, nullable numbers, mixed objects) and text holding a NUL byte are left
 to pandas.
+
+The columns named in ``measures`` (depths, thicknesses, positions: :data:`MEASURES`
+in the tables of ``decode`` and ``correlate``) are written instead in decimal
+notation with as many decimals as they need, at most :data:`MEASURE_DECIMALS` (the
+decimals of the JSON tables) and 15 significant digits, trailing zeros dropped:
+a depth read from a source (``10004.31``, ``6712345``) reads back as the same
+number, and the float noise of a difference (``0.040000000000363798``) is not
+written.
 """
 
 from __future__ import annotations
 
 import csv
 import io
-from collections.abc import Iterator
+from collections.abc import Collection, Iterator
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["FLOAT_FORMAT", "csv_blocks", "csv_bytes", "csv_text"]
+__all__ = ["FLOAT_FORMAT", "MEASURES", "csv_blocks", "csv_bytes", "csv_text"]
 
 #: Format of floating-point cells (6 significant digits).
 FLOAT_FORMAT = "%.6g"
 #: Significant digits of :data:`FLOAT_FORMAT`.
 DIGITS = 6
+#: Columns of the tables of ``decode`` and ``correlate`` written in decimal notation.
+MEASURES = frozenset(
+    {"top", "base", "thickness", "depth", "depth_top", "depth_base"}
+    | {"depth_left", "depth_right", "position"}
+)
+#: Decimals of a measure, at most (as the JSON tables of ``decode`` write floats).
+MEASURE_DECIMALS = 8
+#: Significant digits of a measure, at most (a 15-digit decimal reads back as itself).
+MEASURE_DIGITS = 15
 #: Bytes of the matrix of one block of rows, at most (about).
 BLOCK_BYTES = 1 << 24
 
@@ -41,21 +58,35 @@ _SCALED_RANGE = (1e-290, 1e290)
 _TIE_MARGIN = 1e-6
 
 
-def csv_text(frame: pd.DataFrame, header: bool = True) -> str:
-    """The rows of ``frame`` (and its header line) as CSV text, without the index."""
-    return csv_bytes(frame, header).decode("utf-8")
+def csv_text(frame: pd.DataFrame, header: bool = True, measures: Collection[str] = ()) -> str:
+    """The rows of ``frame`` (and its header line) as CSV text, without the index;
+    the float columns named in ``measures`` in decimal notation (module docstring)."""
+    return csv_bytes(frame, header, measures).decode("utf-8")
 
 
-def csv_bytes(frame: pd.DataFrame, header: bool = True) -> bytes:
+def csv_bytes(frame: pd.DataFrame, header: bool = True, measures: Collection[str] = ()) -> bytes:
     """:func:`csv_text` encoded as UTF-8."""
-    return b"".join(csv_blocks(frame, header))
+    return b"".join(csv_blocks(frame, header, measures))
 
 
-def csv_blocks(frame: pd.DataFrame, header: bool = True) -> Iterator[bytes]:
+def csv_blocks(
+    frame: pd.DataFrame, header: bool = True, measures: Collection[str] = ()
+) -> Iterator[bytes]:
     """:func:`csv_bytes` a block of rows (about :data:`BLOCK_BYTES` laid out) at a time,
     to be written as they come."""
-    fields = [_Field.of(frame[c]) for c in frame.columns] if frame.columns.is_unique else [None]
+    unique = frame.columns.is_unique
+    decimal = [c for c in frame.columns if unique and c in measures and frame[c].dtype.kind == "f"]
+    fields = (
+        [
+            _DecimalField(frame[c].to_numpy(np.float64)) if c in decimal else _Field.of(frame[c])
+            for c in frame.columns
+        ]
+        if unique
+        else [None]
+    )
     if len(fields) < 2 or any(f is None for f in fields):  # one column: "" for a blank row
+        texts = {c: _decimal_texts(frame[c].to_numpy(np.float64)) for c in decimal}
+        frame = frame.assign(**texts) if texts else frame
         yield frame.to_csv(index=False, header=header, float_format=FLOAT_FORMAT).encode("utf-8")
         return
     if header:
@@ -288,6 +319,71 @@ class _FloatField(_Field):
             _put_text(block, at, [FLOAT_FORMAT % v for v in values[at].tolist()])
 
 
+class _DecimalField(_FloatField):
+    """Measures in decimal notation (module docstring); NaN blank.
+
+    Five words: the sign and places 14..10 of the integer part; places 9..5; places
+    4..0 and the point; decimals 1..5; decimals 6..8. The places before the first
+    digit of the integer part (but the units) and the decimals after the last
+    non-zero one are blanked, the point too where no decimal is left."""
+
+    width = 40
+
+    def _write(self, values: np.ndarray, block: np.ndarray) -> None:
+        size = np.abs(values)
+        with np.errstate(invalid="ignore"):
+            usable = size < 10.0 ** (MEASURE_DIGITS - 1)  # not NaN, inf, nor huge
+        size[~usable] = 0.0
+        places = np.searchsorted(_POW10[1:MEASURE_DIGITS], size, side="right") + 1
+        decimals = np.clip(MEASURE_DIGITS - places, 0, MEASURE_DECIMALS)
+        scaled = size * _POW10[decimals]  # 15 digits at most: a whole number is exact
+        # within a rounding step of a half: rounded by % from the float itself, below
+        near_half = np.abs(scaled - np.floor(scaled) - 0.5) <= 2 * np.spacing(scaled)
+        whole = np.rint(scaled).astype(np.int64)
+        integer, fraction = np.divmod(whole, _POW10_INT[decimals])
+        fraction *= _POW10_INT[MEASURE_DECIMALS - decimals]  # eight places
+        digits = np.searchsorted(_POW10_INT[1:], integer, side="right") + 1
+        blank = 15 - digits  # integer places before the first digit
+        words = block.view(_WORD)
+        sign = np.where(np.signbit(values) & (whole != 0), _MINUS, _NUL).astype(np.uint64)
+        high = _FIVE_DIGITS[integer // 10**10] << np.uint64(8)
+        words[:, 0] = high & _BLANK_FROM_1.take(np.clip(blank, 0, 5)) | sign
+        words[:, 1] = _FIVE_DIGITS[integer // 10**5 % 10**5] & _BLANK_FROM_0.take(
+            np.clip(blank - 5, 0, 5)
+        )
+        head, tail = np.divmod(fraction, 1000)
+        kept = np.where(tail != 0, 8 - _TRAILING_ZEROS[tail], 3 - _TRAILING_ZEROS[head] + 2)
+        kept = np.where(fraction == 0, 0, kept)  # decimals written
+        point = np.where(kept > 0, _DOT << 40, _NUL).astype(np.uint64)
+        units = _FIVE_DIGITS[integer % 10**5] & _BLANK_FROM_0.take(np.clip(blank - 10, 0, 4))
+        words[:, 2] = units | point
+        words[:, 3] = _FIVE_DIGITS[head] & _KEEP_TO.take(np.minimum(kept, 5))
+        words[:, 4] = (_FIVE_DIGITS[tail] >> np.uint64(16)) & _KEEP_TO.take(np.clip(kept - 5, 0, 3))
+        block[np.isnan(values)] = 0
+        by_hand = (~usable | near_half) & ~np.isnan(values)
+        if by_hand.any():
+            at = np.flatnonzero(by_hand)
+            _put_text(block, at, _decimal_texts(values[at]))
+
+
+def _decimal_texts(values: np.ndarray) -> list[str]:
+    """Measures as :class:`_DecimalField` writes them, one at a time by ``%``."""
+    texts = []
+    for value in values.tolist():
+        if value != value:  # NaN: blank
+            texts.append("")
+            continue
+        if not abs(value) < 10.0 ** (MEASURE_DIGITS - 1):
+            texts.append(f"{value:.{MEASURE_DIGITS}g}")
+            continue
+        places = len(str(int(abs(value))))
+        decimals = min(max(MEASURE_DIGITS - places, 0), MEASURE_DECIMALS)
+        text = f"{value:.{decimals}f}"
+        text = text.rstrip("0").rstrip(".") if "." in text else text
+        texts.append("0" if text == "-0" else text)
+    return texts
+
+
 def _words(size: int) -> int:
     """``size`` bytes rounded up to whole words."""
     return -(-size // 8) * 8
@@ -308,7 +404,7 @@ _KEEP_TO = np.array([(1 << (8 * k)) - 1 for k in range(9)], dtype=np.uint64)
 _BLANK_FROM_0 = ~_KEEP_TO
 #: ``_BLANK_FROM_1[k]``: a word's bytes 1 to k blanked (byte 0, the sign, kept), k <= 5.
 _BLANK_FROM_1 = ~(_KEEP_TO[:6] << np.uint64(8)) | np.uint64(0xFF)
-_POW10_INT = 10 ** np.arange(10, dtype=np.int64)
+_POW10_INT = 10 ** np.arange(MEASURE_DIGITS + 1, dtype=np.int64)
 _POW10 = 10.0 ** np.arange(309)  # exact up to 1e22
 
 

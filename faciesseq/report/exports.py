@@ -417,6 +417,8 @@ def write_las_files(
 
 
 def _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_number):
+    from faciesseq.io.las import DECODED_MARK
+
     beds = core.beds.reset_index(drop=True)
     unit = core.units.upper()
     if len(beds):
@@ -453,6 +455,13 @@ def _well_las(lasio, core, step, how, facies, tracts, facies_number, tract_numbe
     for code, name in tracts:
         k = tract_number[code]
         las.params.append(lasio.HeaderItem(f"TRACT_{k}", value=code, descr=_descr(name)))
+    las.params.append(
+        lasio.HeaderItem(
+            DECODED_MARK,
+            value="TRACT",
+            descr="the TRACT curve is decoded by a model - not an interpreter's labels",
+        )
+    )
     return las
 
 

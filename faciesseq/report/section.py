@@ -22,7 +22,8 @@ import pandas as pd
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Polygon, Rectangle
 
-from faciesseq.errors import ConfigError
+from faciesseq.correlation.wells import DEFAULT_SECTION, section_prefix
+from faciesseq.errors import ConfigError, some_of
 from faciesseq.report.style import (
     PAGE_WIDTH,
     check_figure_path,
@@ -38,6 +39,7 @@ __all__ = [
     "DEFAULT_SECTION",
     "Hanging",
     "check_datum",
+    "check_datum_values",
     "distance_label",
     "draw_section",
     "hang_section",
@@ -57,10 +59,6 @@ CAPTION = (
     "replace it."
 )
 
-
-#: The name the wells table gives its one section where it has no ``section`` column
-#: (:mod:`faciesseq.correlation.wells`): a title does not print it.
-DEFAULT_SECTION = "section"
 
 #: Units a position column's name states (``x_km``, ``distance_km``).
 _DISTANCE_UNITS = {"km": "km", "m": "m", "ft": "ft", "mi": "mi"}
@@ -97,34 +95,44 @@ def section_title(section: str, datum: str) -> str:
 _PLAIN_DATUMS = ("depth", "elevation", "datum_depth")
 
 
-def check_datum(datum: str, surfaces: Sequence[str], option: str = "datum") -> None:
-    """Refuse a ``datum`` that is none of depth, elevation, datum_depth, a correlated surface id
+def check_datum(datum: str, surfaces: Sequence[str], option: str = "datum") -> str:
+    """``datum`` as the project spells it (``mfs``: ``MFS``; ``Depth``: ``depth``), or
+    refused where it is none of depth, elevation, datum_depth, a correlated surface id
     (``central:MFS-2``) or one of ``surfaces``, the surface kinds the tract model can
     pick (``Interpretation.surfaces``): a kind it cannot pick would hang every section
-    on its core tops. ``option`` is the datum's name in the message (``--datum`` on the
-    command line)."""
-    if datum in _PLAIN_DATUMS or ":" in datum or datum in surfaces:
-        return
+    on its core tops. Case is not significant, as in tract labels. ``option`` is the
+    datum's name in the message (``--datum`` on the command line)."""
+    if ":" in datum:
+        return datum
+    spelt = {d.upper(): d for d in (*_PLAIN_DATUMS, *surfaces)}
+    if datum.strip().upper() in spelt:
+        return spelt[datum.strip().upper()]
     raise ConfigError(
         f"{option} {datum!r} is none of {', '.join(_PLAIN_DATUMS)}, a surface kind "
         f"({', '.join(surfaces)}) or a correlated surface's id (central:MFS-2)"
     )
 
 
-def hanging_datum(correlation, section: str, datum: str) -> tuple[str, str | None]:
+def hanging_datum(
+    correlation, section: str, datum: str, option: str = "datum"
+) -> tuple[str, str | None]:
     """The datum to hang ``section`` on, and a warning when it is not ``datum``.
 
     A surface kind (e.g. ``MFS``) that no correlated surface of the section
-    has falls back to the core tops (``depth``); depth, elevation,
-    datum_depth and surface ids (``section:KIND-n``) are kept as given.
+    has falls back to the core tops (``depth``), and so does a surface id
+    (``dip:MFS-2``) in the other sections; depth, elevation, datum_depth and
+    the id in its own section are kept as given. An id of no section is refused
+    (``option`` names the datum in the message).
     """
-    if datum in _PLAIN_DATUMS or ":" in datum:
+    if ":" in datum:
+        return _hanging_id(correlation, section, datum, option)
+    if datum in _PLAIN_DATUMS:
         return datum, None
     picks = correlation.picks[correlation.picks["section"] == section]
     if (picks["surface"] == datum).any():
         return datum, None
     return "depth", (
-        f"section {section!r} has no correlated {datum} surface; hung on the core tops"
+        f"{section_prefix(section)}no correlated {datum} surface; hung on the core tops"
     )
 
 
@@ -188,10 +196,7 @@ def hang_section(
     if datum == "depth":
         return Hanging(dict.fromkeys(names, 0.0), "depth as measured")
     if datum in ("elevation", "datum_depth"):
-        # a wells table made in Python may lack the column altogether
-        values = wells[datum].to_numpy(float) if datum in wells else np.full(len(wells), np.nan)
-        if np.isnan(values).any():
-            raise ConfigError(f"{option} {datum} needs a {datum!r} value for every well")
+        values = check_datum_values(wells, datum, option)
         if datum == "elevation":
             # a depth reference standing `elevation` above the datum puts depth d at
             # d - elevation below it (true vertical depth subsea = depth - KB elevation)
@@ -215,13 +220,50 @@ def hang_section(
     return Hanging(shift, f"depth below {surface}", surface, tuple(unhung))
 
 
+def _hanging_id(correlation, section: str, datum: str, option: str) -> tuple[str, str | None]:
+    """:func:`hanging_datum` of a surface id: its own section hangs on it, the others on
+    their core tops (a surface id names one section's surface)."""
+    sections = {str(s).upper(): str(s) for s in correlation.wells["section"].unique()}
+    home = sections.get(datum.split(":", 1)[0].upper())
+    if home is None:
+        raise ConfigError(
+            f"{option} {datum!r}: no section {datum.split(':', 1)[0]!r} (the sections are "
+            f"{some_of(sorted(sections.values()))}; a surface id is SECTION:KIND-n)"
+        )
+    if home == str(section):
+        return datum, None
+    return (
+        "depth",
+        f"{section_prefix(section)}{datum} is a surface of section {home}; hung on the core tops",
+    )
+
+
+def check_datum_values(wells: pd.DataFrame, datum: str, option: str = "datum") -> np.ndarray:
+    """The ``elevation`` or ``datum_depth`` column of a wells frame, refused where a
+    well has none (a wells table made in Python may lack the column altogether)."""
+    values = wells[datum].to_numpy(float) if datum in wells else np.full(len(wells), np.nan)
+    if np.isnan(values).any():
+        lacking = some_of([str(c) for c in wells["core"][np.isnan(values)]])
+        article = "an" if datum[0] in "aeiou" else "a"
+        raise ConfigError(
+            f"{option} {datum} needs {article} {datum!r} value for every well; {lacking} "
+            f"{'has' if np.isnan(values).sum() == 1 else 'have'} none in the wells table"
+        )
+    return values
+
+
 def _datum_surface(correlation, section: str, datum: str, option: str) -> pd.DataFrame:
     """The picks of the correlated surface ``datum`` names in ``section``: a surface id,
     or of a kind the surface found in the most wells, the most confident among equals."""
     picks = correlation.picks[correlation.picks["section"] == section]
-    chosen = picks[picks["surface_id"] == datum]
+    chosen = picks[picks["surface_id"].str.upper() == datum.upper()]
     if len(chosen):
         return chosen
+    if ":" in datum:
+        raise ConfigError(
+            f"{option} {datum!r} is no correlated surface; the surfaces of its section are "
+            f"{some_of(list(dict.fromkeys(picks['surface_id'])))}"
+        )
     kind = picks[picks["surface"] == datum]
     if not len(kind):
         raise ConfigError(
@@ -387,7 +429,7 @@ def draw_section(
         The file written.
     """
     path = check_figure_path(path)
-    check_datum(datum, tuple(interpretation.surfaces))
+    datum = check_datum(datum, tuple(interpretation.surfaces))
     sections = sorted(correlation.wells["section"].unique())
     if section is None:
         if len(sections) != 1:
