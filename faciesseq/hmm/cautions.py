@@ -64,27 +64,29 @@ def read_cautions(model) -> list[str]:
 #: :func:`unlabelled_caution`, which the fit prints.
 UNLABELLED_NOTE = (
     "No bed was labelled: the tract names rest on the model's priors, and on cores of "
-    "generators it was not tuned on fits without labels named the tracts near chance "
-    "(README, 'What has been measured'); read the column as a first draft."
+    "generators it was not tuned on fits without labels named the tracts anywhere from "
+    "near chance to 0.89 (README, 'What has been measured'); read the column as a first "
+    "draft."
 )
 
 
 def unlabelled_caution(model) -> str | None:
     """A caution for every fit without labels: its tract names rest on the priors (the
     cyclic order, the one deepening tract), which were tuned on the project's own
-    generators. On held-out cores of two generators written blind (seeds 471-475, with
-    their schemes) it read 0.33-0.43 on one and 0.57-0.83 on the other, TST against the
-    other tracts 0.70-0.94, and 0.72-0.92 with three labelled cores
-    (``python benchmarks/eval_blind_generator.py --seeds 471,472,473,474,475``, README
-    "What has been measured")."""
+    generators. On held-out cores of three generators written blind (with their schemes)
+    it read 0.33-0.43 on one and 0.57-0.83 on another (seeds 471-475), 0.52-0.89 on the
+    carbonate ramp (seeds 701-705), TST against the other tracts 0.70-0.94, and
+    0.72-0.92 with three labelled cores
+    (``python benchmarks/eval_blind_generator.py --seeds 471,472,473,474,475``, with
+    ``--generator``; README "What has been measured")."""
     if getattr(model, "n_labelled_", 0):
         return None
     if _default_tracts(model):
         measured = (
-            "on cores of two generators it was not tuned on, fits without labels read "
-            "0.33-0.43 and 0.57-0.83 (balanced accuracy, chance 0.25; TST against the other "
-            "tracts 0.70-0.94), against 0.72-0.92 with three labelled cores (README, 'What "
-            "has been measured')"
+            "on cores of three generators it was not tuned on, fits without labels read "
+            "0.33-0.43, 0.57-0.83 and 0.52-0.89 (balanced accuracy, chance 0.25; TST "
+            "against the other tracts 0.70-0.94), against 0.72-0.92 with three labelled "
+            "cores (README, 'What has been measured')"
         )
     else:
         order = " -> ".join(model.tract_model_.order)
