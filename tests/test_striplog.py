@@ -270,6 +270,27 @@ def test_facies_colour_is_stable_and_follows_rank_then_name():
     assert facies_colour("widget") == facies_colour("widget") != facies_colour("gadget")
 
 
+def test_codes_of_a_suggested_scheme_sharing_a_colour_by_digest_are_told_apart():
+    """A minimal table's codes (no colours, no words of the trade) are coloured by a
+    digest of the code; two codes of one scheme whose digests fell on one colour (SAB
+    and ORM, IRP and LSS below) drew two facies of a strip log alike. Within a scheme
+    each takes a colour of its own while colours are left; a code alone keeps its
+    colour."""
+    from faciesseq.markov.seriation import SUGGESTED
+    from faciesseq.report.style import facies_colour
+
+    codes = ["SAB", "ORM", "IRP", "LSS", "MRT"]
+    bare = {c: facies_colour(c) for c in codes}
+    assert bare["SAB"] == bare["ORM"] and bare["IRP"] == bare["LSS"]  # the digests collide
+    facies = [{"code": c, "name": c, "rank": r} for r, c in enumerate(codes)]
+    suggested = _scheme_of(facies, SUGGESTED)
+    coloured = [facies_colour(c, suggested) for c in codes]
+    assert len(set(coloured)) == len(codes)
+    assert coloured[-1] == bare["MRT"]  # no other code took its colour
+    alone = _scheme_of([{"code": "ORM", "name": "ORM", "rank": 0}], SUGGESTED)
+    assert facies_colour("ORM", alone) == bare["ORM"]
+
+
 def test_legend_prints_a_facies_name_that_repeats_its_code_once(model):
     scheme = _scheme_of(
         [

@@ -12,6 +12,7 @@ Sizes are in inches for print: a full page-width figure is
 from __future__ import annotations
 
 import contextlib
+import functools
 import hashlib
 import io
 import os
@@ -260,8 +261,10 @@ def facies_colour(code: str, scheme=None) -> str:
     where the scheme tells settings); else, with no scheme, a code outside it or ranks
     only suggested from the data (not a geologist's), from the facies' name: its words
     of the trade (:data:`FACIES_WORDS`) place it on the ramp, and a name without such
-    words gets a colour by a digest of the name. Facies sharing a place differ a little
-    in lightness, by their code. The same facies has the same colour in every run.
+    words gets a colour by a digest of the name (within a scheme of suggested ranks, the
+    next free colour where another of its codes took it: :func:`_named_slots`). Facies
+    sharing a place differ a little in lightness, by their code. The same facies has the
+    same colour in every run.
     """
     from faciesseq.markov.seriation import SUGGESTED
 
@@ -273,12 +276,49 @@ def facies_colour(code: str, scheme=None) -> str:
         if scheme.name != SUGGESTED:
             return _shade(_ramp(_rank_position(scheme, code)), facies.code)
         code = facies.code
+    position = _name_place(code, scheme)
+    if position is None:
+        slots = _named_slots(_named_codes(scheme)) if scheme is not None else {}
+        return _NAMED_COLOURS[slots.get(code, _digest(code) % len(_NAMED_COLOURS))]
+    return _shade(_ramp(position), code)
+
+
+def _name_place(code: str, scheme) -> float | None:
+    """Where the code, else its name in ``scheme``, places the facies on the ramp."""
     position = name_position(code)
     if position is None and scheme is not None and code in scheme:
         position = name_position(scheme[code].name)
-    if position is None:
-        return _NAMED_COLOURS[_digest(code) % len(_NAMED_COLOURS)]
-    return _shade(_ramp(position), code)
+    return position
+
+
+def _named_codes(scheme) -> tuple[str, ...]:
+    """The codes of ``scheme`` coloured by digest: no colour of their own, and no place
+    on the ramp from a geologist's rank or from their code's or name's words."""
+    from faciesseq.markov.seriation import SUGGESTED
+
+    if scheme.name != SUGGESTED:  # a geologist's ranks place every facies on the ramp
+        return ()
+    return tuple(
+        f.code for f in scheme.facies if not f.colour and _name_place(f.code, scheme) is None
+    )
+
+
+@functools.lru_cache(maxsize=64)
+def _named_slots(codes: tuple[str, ...]) -> dict[str, int]:
+    """A slot of :data:`_NAMED_COLOURS` for each of ``codes``: its digest's slot, or the
+    next free one where another code of the same scheme took it (codes in the order of
+    their digests), so that no two facies of a scheme share a colour while there are
+    colours left; a code alone keeps the colour it has without a scheme."""
+    n = len(_NAMED_COLOURS)
+    slots: dict[str, int] = {}
+    taken: set[int] = set()
+    for code in sorted(codes, key=lambda c: (_digest(c), c)):
+        slot = _digest(code) % n
+        while slot in taken and len(taken) < n:
+            slot = (slot + 1) % n
+        slots[code] = slot
+        taken.add(slot)
+    return slots
 
 
 @contextlib.contextmanager
