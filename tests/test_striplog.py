@@ -277,7 +277,7 @@ def test_codes_of_a_suggested_scheme_sharing_a_colour_by_digest_are_told_apart()
     each takes a colour of its own while colours are left; a code alone keeps its
     colour."""
     from faciesseq.markov.seriation import SUGGESTED
-    from faciesseq.report.style import facies_colour
+    from faciesseq.report.style import facies_colour, facies_colours
 
     codes = ["SAB", "ORM", "IRP", "LSS", "MRT"]
     bare = {c: facies_colour(c) for c in codes}
@@ -289,6 +289,8 @@ def test_codes_of_a_suggested_scheme_sharing_a_colour_by_digest_are_told_apart()
     assert coloured[-1] == bare["MRT"]  # no other code took its colour
     alone = _scheme_of([{"code": "ORM", "name": "ORM", "rank": 0}], SUGGESTED)
     assert facies_colour("ORM", alone) == bare["ORM"]
+    # without a scheme, a figure's codes are told apart the same way
+    assert list(facies_colours(codes).values()) == coloured
 
 
 def test_legend_prints_a_facies_name_that_repeats_its_code_once(model):

@@ -169,14 +169,16 @@ def test_page_says_whether_the_probabilities_were_checked():
 
 
 def test_without_a_scheme_the_facies_are_full_width_in_their_names_colours():
-    from faciesseq.report.style import facies_colour
+    from faciesseq.report.style import facies_colours
 
     interp = _interpretation()
     data = view_data(interp, None, default_tract_model())
     assert {c["measure"] for c in data["cores"]} == {"none"}
     assert set(data["cores"][0]["beds"]["width"]) == {1.0}
-    # the colour a facies has in every figure without a scheme (from its name)
-    assert all(f["colour"] == facies_colour(f["code"]) for f in data["facies"])
+    # the colour a facies has in every figure without a scheme (from its name, told
+    # apart from the others drawn)
+    colours = facies_colours([f["code"] for f in data["facies"]])
+    assert all(f["colour"] == colours[f["code"]] for f in data["facies"])
 
 
 # ---------------------------------------------------------------- the command line

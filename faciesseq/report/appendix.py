@@ -47,7 +47,7 @@ from faciesseq.report.document import (
     depth_decimals,
 )
 from faciesseq.report.methods import methods_section
-from faciesseq.report.style import facies_colour
+from faciesseq.report.style import facies_colours
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["Appendix", "build_appendix", "core_key", "jsonable", "write_appendix"]
@@ -328,7 +328,7 @@ def _facies_proportions_figure(facies: pd.DataFrame, scheme: FaciesScheme) -> Fi
         "from most landward (top) to most basinward.",
         fig.bar_chart(
             proportions,
-            colours={c: facies_colour(c, scheme) for c in proportions.index},
+            colours=facies_colours(list(proportions.index), scheme),
             xlabel="proportion",
             ylabel="facies",
         ),

@@ -21,7 +21,7 @@ from matplotlib.ticker import MaxNLocator
 from faciesseq.report.striplog import _legend_label, facies_name, plain
 from faciesseq.report.style import (
     PAGE_WIDTH,
-    facies_colour,
+    facies_colours,
     figure_style,
     new_figure,
     tract_colour,
@@ -508,10 +508,9 @@ def _facies_circles(ax, pos, scheme: FaciesScheme | None, radius: float) -> list
     """A circle in the facies colour at each facies' place, its code written inside;
     returns the ``(text, circle)`` pairs for :func:`_fit_in_circles`."""
     names = []
+    colours = facies_colours(list(pos), scheme)
     for code, (x, y) in pos.items():
-        circle = Circle(
-            (x, y), radius, fc=facies_colour(code, scheme), ec="black", lw=0.8, zorder=3
-        )
+        circle = Circle((x, y), radius, fc=colours[code], ec="black", lw=0.8, zorder=3)
         ax.add_patch(circle)
         name = ax.text(
             x,
@@ -537,9 +536,10 @@ def _relationship_legend(ax, codes: list[str], scheme: FaciesScheme | None, thre
         Line2D([], [], color="#8fa3bf", lw=1.5, ls=(0, (3, 2)), label="not significant"),
     ]
     if scheme is not None:
+        colours = facies_colours(codes, scheme)
         handles += [
             Patch(
-                fc=facies_colour(c, scheme),
+                fc=colours[c],
                 ec="black",
                 lw=0.4,
                 label=plain(

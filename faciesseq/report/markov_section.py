@@ -26,7 +26,7 @@ from faciesseq.report.markov_text import (
     order_explanation,
     split_verdict,
 )
-from faciesseq.report.style import facies_colour
+from faciesseq.report.style import facies_colours
 from faciesseq.scheme import FaciesScheme
 
 __all__ = ["format_p", "format_test", "markov_section"]
@@ -251,7 +251,7 @@ def markov_section(report, scheme: FaciesScheme) -> Section:
     """The transition-statistics section (section 2 of the appendix)."""
     codes = list(report.codes)
     embedded = report.embedded
-    colours = {c: facies_colour(c, scheme) for c in codes}
+    colours = facies_colours(codes, scheme)
     s = Section("Transition statistics")
     unit = (
         "beds (embedded chain: no facies above itself)"

@@ -60,11 +60,11 @@ def _tract_colours(tracts) -> dict[str, str]:
 
 
 def _facies_colours(scheme, codes) -> dict[str, str]:
-    from faciesseq.report.style import facies_colour
+    from faciesseq.report.style import facies_colours
 
     if scheme is None:
         return {}
-    return {c: facies_colour(c, scheme) for c in codes}
+    return facies_colours(list(codes), scheme)
 
 
 def _stationary(transmat: np.ndarray) -> np.ndarray:

@@ -35,6 +35,7 @@ __all__ = [
     "TRACT_COLOURS",
     "check_figure_path",
     "facies_colour",
+    "facies_colours",
     "figure_style",
     "missing_glyphs_once",
     "new_figure",
@@ -252,7 +253,7 @@ def _rank_position(scheme, code: str) -> float:
     return lo + (hi - lo) * ranks.index(facies.rank) / (len(ranks) - 1)
 
 
-def facies_colour(code: str, scheme=None) -> str:
+def facies_colour(code: str, scheme=None, among: Sequence[str] = ()) -> str:
     """The colour of facies ``code`` in every figure and page of the project.
 
     The scheme's own ``colour`` where it gives one; else a place on the project's
@@ -261,8 +262,9 @@ def facies_colour(code: str, scheme=None) -> str:
     where the scheme tells settings); else, with no scheme, a code outside it or ranks
     only suggested from the data (not a geologist's), from the facies' name: its words
     of the trade (:data:`FACIES_WORDS`) place it on the ramp, and a name without such
-    words gets a colour by a digest of the name (within a scheme of suggested ranks, the
-    next free colour where another of its codes took it: :func:`_named_slots`). Facies
+    words gets a colour by a digest of the name, the next free colour where another code
+    coloured so took it (:func:`_named_slots`): another code of a scheme of suggested
+    ranks, or of ``among`` (the codes of one figure; :func:`facies_colours`). Facies
     sharing a place differ a little in lightness, by their code. The same facies has the
     same colour in every run.
     """
@@ -278,9 +280,16 @@ def facies_colour(code: str, scheme=None) -> str:
         code = facies.code
     position = _name_place(code, scheme)
     if position is None:
-        slots = _named_slots(_named_codes(scheme)) if scheme is not None else {}
+        slots = _named_slots(_named_codes(scheme, among))
         return _NAMED_COLOURS[slots.get(code, _digest(code) % len(_NAMED_COLOURS))]
     return _shade(_ramp(position), code)
+
+
+def facies_colours(codes: Sequence[str], scheme=None) -> dict[str, str]:
+    """The colour of each of ``codes`` (:func:`facies_colour`), those coloured by digest
+    told apart among ``codes``: for a figure that draws them side by side."""
+    among = tuple(str(c) for c in codes)
+    return {c: facies_colour(c, scheme, among) for c in codes}
 
 
 def _name_place(code: str, scheme) -> float | None:
@@ -291,24 +300,35 @@ def _name_place(code: str, scheme) -> float | None:
     return position
 
 
-def _named_codes(scheme) -> tuple[str, ...]:
-    """The codes of ``scheme`` coloured by digest: no colour of their own, and no place
-    on the ramp from a geologist's rank or from their code's or name's words."""
+def _by_digest(code: str, scheme) -> bool:
+    """Whether :func:`facies_colour` colours ``code`` by a digest."""
     from faciesseq.markov.seriation import SUGGESTED
 
-    if scheme.name != SUGGESTED:  # a geologist's ranks place every facies on the ramp
-        return ()
-    return tuple(
-        f.code for f in scheme.facies if not f.colour and _name_place(f.code, scheme) is None
-    )
+    if scheme is not None and code in scheme:
+        facies = scheme[code]
+        if facies.colour or scheme.name != SUGGESTED:
+            return False
+    return _name_place(code, scheme) is None
+
+
+def _named_codes(scheme, among: Sequence[str] = ()) -> tuple[str, ...]:
+    """The codes coloured by digest that must not share a colour: those of ``among``,
+    and every code of a scheme of suggested ranks (a geologist's ranks place its facies
+    on the ramp instead), sorted."""
+    from faciesseq.markov.seriation import SUGGESTED
+
+    codes = set(among)
+    if scheme is not None and scheme.name == SUGGESTED:
+        codes.update(f.code for f in scheme.facies)
+    return tuple(sorted(c for c in codes if _by_digest(c, scheme)))
 
 
 @functools.lru_cache(maxsize=64)
 def _named_slots(codes: tuple[str, ...]) -> dict[str, int]:
     """A slot of :data:`_NAMED_COLOURS` for each of ``codes``: its digest's slot, or the
-    next free one where another code of the same scheme took it (codes in the order of
-    their digests), so that no two facies of a scheme share a colour while there are
-    colours left; a code alone keeps the colour it has without a scheme."""
+    next free one where another of ``codes`` took it (codes in the order of their
+    digests), so that no two of them share a colour while there are colours left; a
+    code alone keeps the colour it has without a scheme."""
     n = len(_NAMED_COLOURS)
     slots: dict[str, int] = {}
     taken: set[int] = set()

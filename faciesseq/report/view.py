@@ -28,7 +28,7 @@ import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
 from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths, facies_name
-from faciesseq.report.style import facies_colour, surface_colour, tract_colour
+from faciesseq.report.style import facies_colours, surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["SVG_HELPERS", "page_html", "view_data", "view_html"]
@@ -116,6 +116,7 @@ def _facies_legend(interpretation: Interpretation, scheme: FaciesScheme | None) 
     )
     ordered = [c for c in scheme.codes_by_rank if c in present] if scheme is not None else []
     ordered += [c for c in present if c not in ordered]
+    colours = facies_colours(ordered, scheme)
     out = []
     for code in ordered:
         known = scheme is not None and code in scheme
@@ -123,7 +124,7 @@ def _facies_legend(interpretation: Interpretation, scheme: FaciesScheme | None) 
             {
                 "code": code,
                 "name": facies_name(code, scheme[code].name) if known else "(not in scheme)",
-                "colour": facies_colour(code, scheme),
+                "colour": colours[code],
             }
         )
     return out
