@@ -163,3 +163,39 @@ def test_every_well_with_the_datum_hangs_on_its_own_pick():
     assert hanging.shift == {"A": 434.0, "B": 2565.0, "C": 2109.0}
     assert hanging.through == () and hanging.unhung == ()
     assert hanging.notes == () and hanging.note == ""
+
+
+def test_surface_ids_in_the_figure_never_overlap_and_stay_on_the_axes():
+    # the visual audit: ids drawn right of the last well a surface reaches piled up (SB-2
+    # over MRS-3) or ran below the axis. Four surfaces end in B 0.3 m apart near the base
+    # of the column; two more end in C, 0.15 km past B, at the same depths
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    kinds = ("BSFR", "SB", "MRS", "MFS")
+    rows = [
+        {"core": core, "surface": kind, "depth": 18.0 + k * 0.3 + bend, "probability": 0.9}
+        for core, bend in (("A", 0.0), ("B", 1.0))
+        for k, kind in enumerate(kinds)
+    ]
+    rows += [
+        {"core": core, "surface": kind, "depth": depth, "probability": 0.9}
+        for core in ("B", "C")
+        for kind, depth in (("SB", 19.2), ("MFS", 19.5))
+    ]
+    wells = pd.DataFrame({"core": list("ABC"), "section": "dip", "position": [0.0, 3.0, 3.15]})
+    corr = correlate(pd.DataFrame(rows), dict.fromkeys("ABC", (0.0, 20.0)), wells)
+    beds = _beds(dict.fromkeys("ABC", (0.0, 20.0)))
+    with figure_style():
+        fig = section_plot(corr, "dip", beds, datum="depth")
+        renderer = FigureCanvasAgg(fig).get_renderer()
+        ax = fig.axes[0]
+        labels = [t for t in ax.texts if t.get_gid() == "surface-label"]
+        boxes = [t.get_window_extent(renderer) for t in labels]
+        frame = ax.get_window_extent(renderer)
+    assert sorted(t.get_text() for t in labels) == sorted(
+        str(s).split(":")[-1] for s in corr.ties["surface_id"].unique()
+    )
+    for k, box in enumerate(boxes):
+        assert frame.y0 <= box.y0 and box.y1 <= frame.y1, labels[k].get_text()
+        for other in boxes[k + 1 :]:
+            assert not box.overlaps(other)

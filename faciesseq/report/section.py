@@ -440,26 +440,78 @@ def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tup
     return out
 
 
-def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
-    """Ids of the correlated surfaces right of the last well they reach, spread apart."""
+#: Size of a surface id in the section figure (points).
+_LABEL_POINTS = 5.5
+
+
+def _surface_labels(ax, correlation, section, shift, width) -> None:
+    """Ids of the correlated surfaces right of the last well they reach, none over
+    another: ids whose text would overlap side by side are spread up and down about
+    their surfaces' depths (:func:`_spread`), inside the depth axis. Call once the
+    axes' limits are set; only the ids move, never a line."""
     picks = correlation.picks[correlation.picks["section"] == section]
-    labels: dict[float, list[tuple[float, str, str]]] = {}
+    fig, box = ax.figure, ax.get_position()
+    x_per_inch = abs(np.subtract(*ax.get_xlim())) / (fig.get_figwidth() * box.width)
+    y_per_inch = abs(np.subtract(*ax.get_ylim())) / (fig.get_figheight() * box.height)
+    gap = 1.3 * _LABEL_POINTS / 72 * y_per_inch
+    labels = []
     for sid, part in picks.groupby("surface_id"):
         if len(part) < 2:
             continue
         last = part.sort_values("position").iloc[-1]
-        y = float(last["depth"] - shift[last["core"]])
         text = str(sid).split(":", 1)[-1]
-        labels.setdefault(float(last["position"]), []).append((y, text, str(last["surface"])))
-    for x, items in labels.items():
-        items.sort()
-        placed: list[float] = []
-        for y, text, kind in items:
-            y = max(y, placed[-1] + spacing) if placed else y
-            placed.append(y)
+        x = float(last["position"]) + width * 0.55
+        # a character of DejaVu Sans is at most about 0.65 of the font's size wide
+        right = x + len(text) * 0.65 * _LABEL_POINTS / 72 * x_per_inch
+        y = float(last["depth"] - shift[last["core"]])
+        labels.append((x, right, y, text, str(last["surface"])))
+    low, high = sorted(ax.get_ylim())
+    for group in _side_by_side(labels):
+        group.sort(key=lambda label: label[2])
+        placed = _spread([label[2] for label in group], gap, low + gap / 2, high - gap / 2)
+        for (x, _, _, text, kind), y in zip(group, placed):
             ax.text(
-                x + width * 0.55, y, text, fontsize=5.5, va="center", color=surface_colour(kind)
+                x,
+                y,
+                text,
+                fontsize=_LABEL_POINTS,
+                va="center",
+                color=surface_colour(kind),
+                gid="surface-label",
             )
+
+
+def _side_by_side(labels: list[tuple]) -> list[list[tuple]]:
+    """``labels`` (``left``, ``right``, ...) cut into groups whose spans left to right
+    overlap, one after another: ids of one group could overlap, those of two cannot."""
+    groups: list[list[tuple]] = []
+    reach = -np.inf
+    for label in sorted(labels, key=lambda label: label[0]):
+        if not groups or label[0] > reach:
+            groups.append([])
+        groups[-1].append(label)
+        reach = max(reach, label[1])
+    return groups
+
+
+def _spread(wanted: list[float], gap: float, low: float, high: float) -> list[float]:
+    """Positions of labels wanted at ``wanted`` (ascending), at least ``gap`` apart and
+    within ``low`` and ``high`` where they fit, each cluster of crowded labels centred
+    on the labels' own positions, so that each lies as near its line as may be."""
+    clusters: list[list[float]] = []  # first position, count, sum of wanted - k * gap
+    for y in wanted:
+        clusters.append([0.0, 1, y])
+        while True:
+            _, count, total = clusters[-1]
+            start = min(max(total / count, low), max(high - (count - 1) * gap, low))
+            clusters[-1][0] = start
+            if len(clusters) < 2 or clusters[-2][0] + clusters[-2][1] * gap <= start:
+                break
+            clusters.pop()
+            before = clusters[-1]
+            before[2] += total - count * before[1] * gap
+            before[1] += count
+    return [start + k * gap for start, count, _ in clusters for k in range(count)]
 
 
 def section_figure(
@@ -591,7 +643,7 @@ def section_plot(
         min(wells.position.values()) - wells.width, max(wells.position.values()) + wells.width
     )
     _well_names(ax, wells, pad)
-    _surface_labels(ax, correlation, section, wells.shift, wells.width, 0.025 * (base - top))
+    _surface_labels(ax, correlation, section, wells.shift, wells.width)
     if datum != "depth":
         ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":")
     ax.set_xlabel(distance_label(position_label))
