@@ -226,23 +226,27 @@ def test_datum_is_not_carried_across_an_untied_pair():
     # D took B's MFS depth (12.5 m) across the untied pair C-D, as if its MFS were known
     corr = _partly_untied_correlation()
     shifts, _ = _shifts(corr, "dip", "MFS")
-    # without the drawn columns D keeps its depths as measured
-    assert shifts["C"] == 12.5 and shifts["D"] == 0.0
+    # without the drawn columns D keeps its depths as measured; C, lacking the MFS, hangs
+    # through the SB it shares with B: 12.5 m (B's MFS) - 4 m (B's SB) + 5 m (C's SB)
+    assert shifts["C"] == 13.5 and shifts["D"] == 0.0
     from faciesseq.report.section import hang_section
 
     assert [tuple(p) for p in corr.untied_pairs[["core_left", "core_right"]].values] == [("C", "D")]
     beds = _column_beds({"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)})
     hanging = hang_section(corr, "dip", "MFS", beds)
-    # C, tied to B, takes B's MFS depth; D hangs on its own core top (2 m)
-    assert hanging.shift == {"A": 12.0, "B": 12.5, "C": 12.5, "D": 2.0}
+    # C hangs through its SB tie to B; D hangs on its own core top (2 m)
+    assert hanging.shift == {"A": 12.0, "B": 12.5, "C": 13.5, "D": 2.0}
     assert hanging.unhung == ("D",)
-    assert hanging.note == (
+    assert hanging.through == (("C", "SB-1", "B"),)
+    assert hanging.notes == (
+        "no MFS-1 in C: hung through SB-1 tied to B",
         "D not hung on MFS-1: no tie joins it to the wells that have it; core top drawn "
-        "at the datum line"
+        "at the datum line",
     )
     with figure_style():
         fig = section_plot(corr, "dip", beds, datum="MFS", tract_order=TRACTS)
-    assert hanging.note in [t.get_text() for t in fig.texts]
+    texts = [t.get_text() for t in fig.texts]
+    assert all(line in texts for line in hanging.notes)
 
 
 def test_every_well_tied_to_the_datum_is_hung_on_it():
@@ -260,11 +264,12 @@ def test_page_and_appendix_name_the_wells_not_hung_on_the_datum():
     beds = _column_beds({"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)})
     (data,) = section_view_data(corr, beds, TRACTS, datum="MFS")["sections"]
     assert data["unhung"] == ["D"]
-    assert data["hanging_note"].startswith("D not hung on MFS-1: no tie joins it")
+    assert data["hanging_note"].startswith("no MFS-1 in C: hung through SB-1 tied to B. ")
+    assert "D not hung on MFS-1: no tie joins it" in data["hanging_note"]
     assert {w["core"]: w["shift"] for w in data["wells"]} == {
         "A": 12.0,
         "B": 12.5,
-        "C": 12.5,
+        "C": 13.5,
         "D": 2.0,
     }
     with figure_style():

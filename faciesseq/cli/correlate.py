@@ -157,9 +157,8 @@ def run(args: argparse.Namespace) -> int:
             datum, note = hanging_datum(corr, section, args.datum, option="--datum")
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")
-            unhung = hang_section(corr, section, datum, tracts, option="--datum").note
-            if unhung:
-                sys.stderr.write(f"faciesseq correlate: {section_prefix(section)}{unhung}\n")
+            for line in hang_section(corr, section, datum, tracts, option="--datum").notes:
+                sys.stderr.write(f"faciesseq correlate: {section_prefix(section)}{line}\n")
             section_figure(
                 corr,
                 section,

@@ -142,18 +142,35 @@ class Hanging:
 
     ``shift`` is the datum's depth in each well (subtracted from its depths),
     ``label`` the depth axis' label, ``surface`` the datum surface's name
-    (``MFS-2``; empty for depth, elevation or datum_depth) and ``unhung`` the wells
+    (``MFS-2``; empty for depth, elevation or datum_depth), ``unhung`` the wells
     not hung on it: no chain of tied pairs joins them to a well the surface reaches,
-    so each hangs on its own core top, drawn at the datum line.
+    so each hangs on its own core top, drawn at the datum line; and ``through`` the
+    wells the surface misses that are hung through another tied surface,
+    ``(well, surface, neighbour)``: the datum lies as far from that surface in the
+    well as it does in the neighbour.
     """
 
     shift: dict[str, float]
     label: str
     surface: str = ""
     unhung: tuple[str, ...] = ()
+    through: tuple[tuple[str, str, str], ...] = ()
 
     @property
-    def note(self) -> str:
+    def through_note(self) -> str:
+        """One line naming the wells hung on the datum through another surface, or
+        ``""``: their datum is inferred from a neighbour's, not picked."""
+        if not self.through:
+            return ""
+        wells = ", ".join(well for well, _, _ in self.through)
+        if len(self.through) == 1:
+            ((_, sid, neighbour),) = self.through
+            return f"no {self.surface} in {wells}: hung through {sid} tied to {neighbour}"
+        ways = ", ".join(f"{sid} tied to {n} ({well})" for well, sid, n in self.through)
+        return f"no {self.surface} in {wells}: hung through {ways}"
+
+    @property
+    def unhung_note(self) -> str:
         """One line naming the wells not hung on the datum and why, or ``""``: a
         reader must not take their place for a correlation."""
         if not self.unhung:
@@ -163,6 +180,19 @@ class Hanging:
             f"{'them' if len(self.unhung) > 1 else 'it'} to the wells that have it; "
             "core top drawn at the datum line"
         )
+
+    @property
+    def notes(self) -> tuple[str, ...]:
+        """The lines a reader of the section must be told (:attr:`through_note`,
+        :attr:`unhung_note`), each a warning on its own; empty where every well has
+        the datum."""
+        return tuple(line for line in (self.through_note, self.unhung_note) if line)
+
+    @property
+    def note(self) -> str:
+        """:attr:`notes` as one sentence list (``"a. b"``), or ``""``: for a caption
+        or a page."""
+        return ". ".join(self.notes)
 
 
 def hang_section(
@@ -182,14 +212,22 @@ def hang_section(
     the datum), ``"datum_depth"`` (the
     wells table's column), a correlated surface id, or a surface kind (``MFS``:
     the kind's correlated surface found in the most wells, the most confident
-    among equals). Wells the surface misses take the datum depth interpolated
-    by position from the wells that have it, along tied pairs only
-    (:func:`tied_runs`): a pair the correlation could not tie says nothing of where
-    the surface lies across it, and interpolating there would invent a correlation.
-    A well no tied pair joins to the surface hangs on its own core top (the top of
-    its column in ``tracts``, else its depths as measured) and is named in
-    :attr:`Hanging.unhung`. ``option`` is the datum's name in an error message
-    (``--datum`` on the command line).
+    among equals). A well the surface misses is hung through another surface it
+    is tied by to a hung neighbour (the nearest, and the shared surface tied
+    closest to the datum; :attr:`Hanging.through`), never by interpolating depths
+    between wells: each core's depths start from its own reference, hundreds of
+    metres apart in one section. A pair the correlation could not tie says nothing
+    of where the surface lies across it, so a well no chain of tied pairs joins to
+    the surface hangs on its own core top (the top of its column in ``tracts``,
+    else its depths as measured) and is named in :attr:`Hanging.unhung`.
+    ``option`` is the datum's name in an error message (``--datum`` on the command
+    line).
+
+    Examples
+    --------
+    Well C lacks the datum MFS-1 but is tied to B by SB-1, at 5 m in C and 4 m in
+    B, whose MFS-1 lies at 12.5 m: C's datum is 12.5 - 4 + 5 = 13.5 m, and
+    ``Hanging.through`` holds ``("C", "SB-1", "B")``.
     """
     wells = correlation.wells[correlation.wells["section"] == section]
     names = list(wells["core"])
@@ -204,20 +242,66 @@ def hang_section(
         return Hanging(dict(zip(names, values)), "depth below the datum")
     chosen = _datum_surface(correlation, section, datum, option)
     surface = str(chosen["surface_id"].iloc[0]).split(":", 1)[-1]
-    at = dict(zip(chosen["core"], chosen["depth"]))
+    shift = {str(c): float(d) for c, d in zip(chosen["core"], chosen["depth"])}
     pos = dict(zip(wells["core"], wells["position"]))
+    ties = correlation.ties[correlation.ties["section"] == section]
+    through = _hang_through_ties(ties, names, pos, shift)
     tops = {} if tracts is None else tracts.groupby("core")["top"].min().to_dict()
-    shift, unhung = {}, []
-    for run in tied_runs(correlation.ties[correlation.ties["section"] == section], names):
-        known = [c for c in run if c in at]
-        for c in run:
-            if known:
-                xs, ys = [pos[k] for k in known], [at[k] for k in known]
-                shift[c] = float(np.interp(pos[c], xs, ys))
-            else:
-                shift[c] = float(tops.get(c, 0.0))
-                unhung.append(c)
-    return Hanging(shift, f"depth below {surface}", surface, tuple(unhung))
+    unhung = [c for c in names if c not in shift]
+    for c in unhung:
+        shift[c] = float(tops.get(c, 0.0))
+    return Hanging(
+        {c: shift[c] for c in names},
+        f"depth below {surface}",
+        surface,
+        tuple(unhung),
+        tuple(through),
+    )
+
+
+def _hang_through_ties(
+    ties: pd.DataFrame, names: list[str], position: dict, shift: dict[str, float]
+) -> list[tuple[str, str, str]]:
+    """Hang the wells the datum surface misses through their ties, in place.
+
+    ``shift`` holds the datum's depth in the wells that have it. Out from them, well by
+    well, a well the datum misses takes it through a tie to a hung neighbour: the
+    nearest along the section (the left one where both are as near), and of the
+    surfaces the two share, the one tied closest to the datum in that neighbour; the
+    datum then lies as far above or below that tie in both wells. A core's depths are
+    its own (cores start hundreds of metres apart), so the datum is never interpolated
+    between wells. Returns ``(well, surface, neighbour)`` for each well so hung, in the
+    order hung; wells no chain of tied pairs joins to the datum are left out of ``shift``.
+    """
+    pairs: dict[tuple[str, str], list[tuple[float, float, str]]] = {}
+    for t in ties.itertuples(index=False):
+        sid = str(t.surface_id).split(":", 1)[-1]
+        left, right = str(t.core_left), str(t.core_right)
+        pairs.setdefault((left, right), []).append((float(t.depth_left), float(t.depth_right), sid))
+        pairs.setdefault((right, left), []).append((float(t.depth_right), float(t.depth_left), sid))
+    through: list[tuple[str, str, str]] = []
+    while True:
+        # each round hangs every well next to one hung before it, so that a well between
+        # two hung ones takes the nearer whichever side was hung first
+        hung = dict(shift)
+        found = []
+        for k, well in enumerate(names):
+            if well in hung:
+                continue
+            beside = [names[j] for j in (k - 1, k + 1) if 0 <= j < len(names)]
+            beside = [n for n in beside if n in hung and (well, n) in pairs]
+            if not beside:
+                continue
+            neighbour = min(beside, key=lambda n: abs(position[n] - position[well]))
+            depth_here, depth_there, sid = min(
+                pairs[(well, neighbour)], key=lambda tie: abs(tie[1] - hung[neighbour])
+            )
+            found.append((well, depth_here + hung[neighbour] - depth_there, sid, neighbour))
+        if not found:
+            return through
+        for well, depth, sid, neighbour in found:
+            shift[well] = depth
+            through.append((well, sid, neighbour))
 
 
 def _hanging_id(correlation, section: str, datum: str, option: str) -> tuple[str, str | None]:
@@ -356,26 +440,78 @@ def tract_bands(ties: pd.DataFrame, columns: dict, names: list[str]) -> list[tup
     return out
 
 
-def _surface_labels(ax, correlation, section, shift, width, spacing) -> None:
-    """Ids of the correlated surfaces right of the last well they reach, spread apart."""
+#: Size of a surface id in the section figure (points).
+_LABEL_POINTS = 5.5
+
+
+def _surface_labels(ax, correlation, section, shift, width) -> None:
+    """Ids of the correlated surfaces right of the last well they reach, none over
+    another: ids whose text would overlap side by side are spread up and down about
+    their surfaces' depths (:func:`_spread`), inside the depth axis. Call once the
+    axes' limits are set; only the ids move, never a line."""
     picks = correlation.picks[correlation.picks["section"] == section]
-    labels: dict[float, list[tuple[float, str, str]]] = {}
+    fig, box = ax.figure, ax.get_position()
+    x_per_inch = abs(np.subtract(*ax.get_xlim())) / (fig.get_figwidth() * box.width)
+    y_per_inch = abs(np.subtract(*ax.get_ylim())) / (fig.get_figheight() * box.height)
+    gap = 1.3 * _LABEL_POINTS / 72 * y_per_inch
+    labels = []
     for sid, part in picks.groupby("surface_id"):
         if len(part) < 2:
             continue
         last = part.sort_values("position").iloc[-1]
-        y = float(last["depth"] - shift[last["core"]])
         text = str(sid).split(":", 1)[-1]
-        labels.setdefault(float(last["position"]), []).append((y, text, str(last["surface"])))
-    for x, items in labels.items():
-        items.sort()
-        placed: list[float] = []
-        for y, text, kind in items:
-            y = max(y, placed[-1] + spacing) if placed else y
-            placed.append(y)
+        x = float(last["position"]) + width * 0.55
+        # a character of DejaVu Sans is at most about 0.65 of the font's size wide
+        right = x + len(text) * 0.65 * _LABEL_POINTS / 72 * x_per_inch
+        y = float(last["depth"] - shift[last["core"]])
+        labels.append((x, right, y, text, str(last["surface"])))
+    low, high = sorted(ax.get_ylim())
+    for group in _side_by_side(labels):
+        group.sort(key=lambda label: label[2])
+        placed = _spread([label[2] for label in group], gap, low + gap / 2, high - gap / 2)
+        for (x, _, _, text, kind), y in zip(group, placed):
             ax.text(
-                x + width * 0.55, y, text, fontsize=5.5, va="center", color=surface_colour(kind)
+                x,
+                y,
+                text,
+                fontsize=_LABEL_POINTS,
+                va="center",
+                color=surface_colour(kind),
+                gid="surface-label",
             )
+
+
+def _side_by_side(labels: list[tuple]) -> list[list[tuple]]:
+    """``labels`` (``left``, ``right``, ...) cut into groups whose spans left to right
+    overlap, one after another: ids of one group could overlap, those of two cannot."""
+    groups: list[list[tuple]] = []
+    reach = -np.inf
+    for label in sorted(labels, key=lambda label: label[0]):
+        if not groups or label[0] > reach:
+            groups.append([])
+        groups[-1].append(label)
+        reach = max(reach, label[1])
+    return groups
+
+
+def _spread(wanted: list[float], gap: float, low: float, high: float) -> list[float]:
+    """Positions of labels wanted at ``wanted`` (ascending), at least ``gap`` apart and
+    within ``low`` and ``high`` where they fit, each cluster of crowded labels centred
+    on the labels' own positions, so that each lies as near its line as may be."""
+    clusters: list[list[float]] = []  # first position, count, sum of wanted - k * gap
+    for y in wanted:
+        clusters.append([0.0, 1, y])
+        while True:
+            _, count, total = clusters[-1]
+            start = min(max(total / count, low), max(high - (count - 1) * gap, low))
+            clusters[-1][0] = start
+            if len(clusters) < 2 or clusters[-2][0] + clusters[-2][1] * gap <= start:
+                break
+            clusters.pop()
+            before = clusters[-1]
+            before[2] += total - count * before[1] * gap
+            before[1] += count
+    return [start + k * gap for start, count, _ in clusters for k in range(count)]
 
 
 def section_figure(
@@ -443,11 +579,14 @@ def draw_section(
     datum, note = hanging_datum(correlation, section, datum)
     if note:
         warnings.warn(note, stacklevel=2)
+    tracts = interpretation.tracts_table()
+    for line in hang_section(correlation, section, datum, tracts).notes:
+        warnings.warn(f"{section_prefix(section)}{line}", stacklevel=2)
     units = next((core.units for core in interpretation), "m")
     return section_figure(
         correlation,
         section,
-        interpretation.tracts_table(),
+        tracts,
         path,
         datum=datum,
         units=units,
@@ -504,7 +643,7 @@ def section_plot(
         min(wells.position.values()) - wells.width, max(wells.position.values()) + wells.width
     )
     _well_names(ax, wells, pad)
-    _surface_labels(ax, correlation, section, wells.shift, wells.width, 0.025 * (base - top))
+    _surface_labels(ax, correlation, section, wells.shift, wells.width)
     if datum != "depth":
         ax.axhline(0, color="0.5", linewidth=0.5, linestyle=":")
     ax.set_xlabel(distance_label(position_label))
@@ -515,8 +654,8 @@ def section_plot(
     ax.set_title(section_title(section, datum), parse_math=False)
     _section_legend(ax, surface_legend_order(correlation, section, surface_order), order)
     fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
-    if hanging.note:
-        fig.text(0.09, 0.09, hanging.note, fontsize=6.5)
+    for k, line in enumerate(hanging.notes):
+        fig.text(0.09, 0.09 - 0.025 * k, line, fontsize=6.5)
     return fig
 
 

@@ -149,7 +149,8 @@ def section_view_data(
         ``units``, ``position_label``, ``caption``, ``note``, ``tracts`` and
         ``surfaces`` (``code``, ``colour``) and ``sections``: per section its
         ``name``, ``datum`` label, ``unhung`` (the wells not hung on the datum
-        surface) and ``hanging_note`` (one line saying so, or empty), ``wells``
+        surface), ``hanging_note`` (:attr:`~faciesseq.report.section.Hanging.note`: the
+        wells hung through another surface and those not hung, or empty), ``wells``
         (``core``, ``position``, ``shift`` the datum depth, the tract column ``top``,
         ``base``, ``tract`` with touching beds of one tract merged),
         ``ties`` (``id``, ``surface``, ``left``, ``right``, ``depth`` and pick
