@@ -314,3 +314,35 @@ def test_a_scheme_of_25_facies_leaves_the_diagram_room_above_its_legend(tmp_path
     fig.draw_without_rendering()
     inches = fig.axes[0].get_position().height * fig.get_figheight()
     assert inches > 2.5
+
+
+def _overlapping(boxes) -> list[tuple[int, int]]:
+    return [
+        (i, j) for i, a in enumerate(boxes) for j, b in enumerate(boxes) if i < j and a.overlaps(b)
+    ]
+
+
+@pytest.mark.parametrize("n_repeats", [1, 3])
+def test_emission_category_labels_do_not_overlap(n_repeats):
+    # "base 2+ ranl|base 1|base level with th": the categories of a context feature
+    # ran into each other and were cut; wrapped (or upright where the page is too
+    # narrow, with three times as many columns), every label stands alone
+    from faciesseq.hmm.context import CONTEXT_CATEGORIES
+    from faciesseq.report.model_section import feature_title
+
+    cats = [
+        f"{c} {k}" if k else c for k in range(n_repeats) for c in CONTEXT_CATEGORIES["base_shift"]
+    ]
+    table = pd.DataFrame(
+        np.full((4, len(cats)), 1 / len(cats)), index=["HST", "FSST", "LST", "TST"], columns=cats
+    )
+    fig = figures.heatmap(table, row_title="state", column_title=feature_title("base_shift"))
+    fig.draw_without_rendering()
+    ax = fig.axes[0]
+    labels = ax.get_xticklabels()
+    assert [" ".join(t.get_text().split()) for t in labels] == cats  # nothing cut
+    assert not _overlapping([t.get_window_extent() for t in labels])
+    page = fig.get_window_extent()
+    assert all(page.contains(*t.get_window_extent().p0) for t in labels)
+    assert "_" not in ax.get_xlabel() and "base" in ax.get_xlabel()
+    assert all(t.get_bbox_patch() is None for t in labels)  # no colour per category

@@ -9,6 +9,7 @@ was computed. Colours come from :mod:`faciesseq.report.style`.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from itertools import pairwise
 
 import numpy as np
 import pandas as pd
@@ -63,6 +64,8 @@ def heatmap(
     diverging: bool = False,
     marks: pd.DataFrame | None = None,
     mark_label: str = "significant",
+    cautions: pd.DataFrame | None = None,
+    caution_label: str = "",
     row_title: str = "from (lower bed)",
     column_title: str = "to (upper bed)",
     width: float | None = None,
@@ -83,38 +86,88 @@ def heatmap(
         Centre the colour scale at 0 (for differences and residuals).
     marks
         Boolean table of the same shape; marked cells get a ``*`` and a frame.
+    cautions
+        Boolean table of the same shape; these cells get a ``!`` after their value
+        (e.g. an expected count below 5, where a residual is unreliable), and the
+        legend says so with ``caution_label``.
     label_colours
         Colours of row and column labels (e.g. tract colours): the label is
         drawn on a patch of that colour.
+
+    Long column labels (e.g. the categories of a context feature, "base level with
+    the cycle below") are wrapped on whole words and the columns made wide enough
+    for them; where they would still overlap they are turned upright.
     """
     values = table.to_numpy(dtype=float)
     n_rows, n_cols = values.shape
-    width = width or min(PAGE_WIDTH, 1.6 + 0.55 * n_cols)
-    height = 1.3 + 0.42 * n_rows
+    columns = [_wrapped(plain(c), COLUMN_LABEL_CHARS) for c in table.columns]
+    width = width or min(PAGE_WIDTH, 1.6 + _column_width(columns) * n_cols)
+    height = 1.3 + 0.42 * n_rows + 0.12 * max(0, _lines(columns) - 1)
     mark = _marked_cells(marks, table)
+    caution = _marked_cells(cautions, table)
     with figure_style():
         fig = new_figure(width, height, layout="constrained")
         ax = fig.add_subplot()
         scale = _colour_scale(values, diverging)
         image = ax.imshow(np.ma.masked_invalid(values), aspect="auto", **scale)
-        _write_cell_values(ax, image, values, mark, fmt)
-        _label_rows_and_columns(ax, table, row_title, column_title)
+        _write_cell_values(ax, image, values, mark, fmt, caution)
+        # a title in words ran out of a narrow figure
+        title_chars = max(COLUMN_LABEL_CHARS, int((width - 1.2) / 0.065))
+        _label_rows_and_columns(ax, table, row_title, _wrapped(column_title, title_chars), columns)
         if label_colours:
             _colour_tick_labels(ax, label_colours)
         for spine in ax.spines.values():
             spine.set_visible(False)
         bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
         bar.set_label(plain(value_label))
+        handles = []
         if mark.any():
+            handles.append(Patch(fc="none", ec="black", lw=1.0, label=f"* {mark_label}"))
+        if caution.any() and caution_label:
+            handles.append(Patch(fc="none", ec="none", label=f"! {caution_label}"))
+        if handles:
             ax.legend(
-                handles=[Patch(fc="none", ec="black", lw=1.0, label=f"* {mark_label}")],
+                handles=handles,
                 loc="upper left",
                 bbox_to_anchor=(0.0, -0.02),
                 frameon=False,
             )
         if title:
             ax.set_title(title, parse_math=False)
+        _upright_if_overlapping(fig, ax)
     return fig
+
+
+#: Characters on a line of a heat map's column label before it is wrapped.
+COLUMN_LABEL_CHARS = 12
+
+
+def _lines(labels: Sequence[str]) -> int:
+    """The most lines of any label in ``labels``."""
+    return max((label.count("\n") + 1 for label in labels), default=1)
+
+
+def _column_width(labels: Sequence[str], inches_per_char: float = 0.062) -> float:
+    """Width (inches) of a heat map's column: 0.55, or room for the longest line of
+    its labels (7-point tick labels, about 0.06 inch a character)."""
+    longest = max((len(line) for label in labels for line in label.split("\n")), default=0)
+    return max(0.55, 0.15 + inches_per_char * longest)
+
+
+def _upright_if_overlapping(fig: Figure, ax) -> None:
+    """Turn the column labels upright where, laid out, two of them overlap (long
+    labels on a heat map narrowed to the page: they ran into each other and were cut
+    by their neighbours' boxes)."""
+    labels = [t for t in ax.get_xticklabels() if t.get_text()]
+    if len(labels) < 2:
+        return
+    fig.draw_without_rendering()
+    boxes = [t.get_window_extent() for t in labels]
+    if any(a.x1 > b.x0 for a, b in pairwise(boxes)):
+        for t in labels:
+            t.set_text(" ".join(t.get_text().split()))
+            t.set_rotation(90)
+            t.set_horizontalalignment("center")
 
 
 def _colour_scale(values: np.ndarray, diverging: bool) -> dict:
@@ -139,9 +192,14 @@ def _marked_cells(marks: pd.DataFrame | None, table: pd.DataFrame) -> np.ndarray
     return marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
 
 
-def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str) -> None:
+def _write_cell_values(
+    ax, image, values: np.ndarray, mark: np.ndarray, fmt: str, caution: np.ndarray | None = None
+) -> None:
     """Each cell's value in black or white, whichever reads on its colour; marked cells
-    get a ``*`` and a frame, blank (NaN) cells a grey dash."""
+    get a ``*`` and a frame, cells of ``caution`` a ``!``, blank (NaN) cells a grey
+    dash."""
+    if caution is None:
+        caution = np.zeros(values.shape, dtype=bool)
     n_rows, n_cols = values.shape
     for i in range(n_rows):
         for j in range(n_cols):
@@ -150,16 +208,19 @@ def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str
                 ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
                 continue
             colour = _text_colour(image.cmap(image.norm(v)))
-            text = fmt.format(v) + ("*" if mark[i, j] else "")
+            text = fmt.format(v) + ("*" if mark[i, j] else "") + ("!" if caution[i, j] else "")
             ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
             if mark[i, j]:
                 ax.add_patch(_cell_frame(j, i))
 
 
-def _label_rows_and_columns(ax, table: pd.DataFrame, row_title: str, column_title: str) -> None:
-    """Row labels on the left, column labels and the column title along the top."""
+def _label_rows_and_columns(
+    ax, table: pd.DataFrame, row_title: str, column_title: str, columns: Sequence[str]
+) -> None:
+    """Row labels on the left, column labels (``columns``, as written) and the column
+    title along the top."""
     n_rows, n_cols = table.shape
-    ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
+    ax.set_xticks(range(n_cols), list(columns), rotation=0)
     ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
     ax.set_xlabel(column_title)
     ax.set_ylabel(row_title)
@@ -171,12 +232,9 @@ def _colour_tick_labels(ax, label_colours: Mapping[str, str]) -> None:
     """Draw each row and column label that ``label_colours`` names (as given, made
     safe by :func:`plain`, or before a ``.`` suffix) on a patch of its colour."""
     for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
+        text = " ".join(tick.get_text().split())  # a wrapped label on one line
         key = next(
-            (
-                k
-                for k in label_colours
-                if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
-            ),
+            (k for k in label_colours if text in (k, plain(k)) or text.split(".")[0] == k),
             None,
         )
         if key is not None:
@@ -582,7 +640,7 @@ def transition_order(difference: pd.DataFrame) -> list[str]:
 
 
 def _wrapped(name: str, width: int = 10) -> str:
-    """A facies name on lines of about ``width`` characters (whole words)."""
+    """A name (a facies, a category) on lines of about ``width`` characters (whole words)."""
     import textwrap
 
     return "\n".join(textwrap.wrap(str(name), width, break_long_words=False)) or str(name)
