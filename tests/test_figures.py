@@ -346,3 +346,48 @@ def test_emission_category_labels_do_not_overlap(n_repeats):
     assert all(page.contains(*t.get_window_extent().p0) for t in labels)
     assert "_" not in ax.get_xlabel() and "base" in ax.get_xlabel()
     assert all(t.get_bbox_patch() is None for t in labels)  # no colour per category
+
+
+def test_residual_heatmap_writes_two_decimals_and_marks_small_expected_counts():
+    # a significant 2.05 and a non-significant 1.95 were both written "2.0"; cells of
+    # an expected count below 5, marked "!" in markov.txt, were unmarked in the figure
+    import faciesseq as fs
+    from faciesseq.report.document import Document, FigureBlock
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import Facies, FaciesScheme
+
+    rng = np.random.default_rng(5)
+    cycle = ["OFF", "LSF", "USF", "CP"]
+    rows = []
+    for core in range(2):  # few beds: some expected counts below 5
+        codes = [c for _ in range(5) for c in cycle]
+        codes = [c if rng.random() > 0.2 else cycle[rng.integers(4)] for c in codes]
+        codes = [c for k, c in enumerate(codes) if k == 0 or c != codes[k - 1]]
+        rows += [(f"C{core}", float(k), k + 1.0, c) for k, c in enumerate(codes)]
+    cores = fs.read_cores(pd.DataFrame(rows, columns=["core", "top", "base", "facies"]))
+    report = fs.analyse(cores.require_valid(), by="core")
+    scheme = FaciesScheme(tuple(Facies(c, c, float(k)) for k, c in enumerate(cycle)))
+    document = Document("appendix", sections=[markov_section(report, scheme)])
+    block = next(
+        b for b in document.blocks() if isinstance(b, FigureBlock) and b.key == "markov_residuals"
+    )
+    assert "! marks cells with an expected count below 5" in block.caption
+    ax = block.figure.axes[0]
+    codes = list(report.codes)
+    fo = report.first_order
+    written = {
+        (codes[round(t.get_position()[1])], codes[round(t.get_position()[0])]): t.get_text()
+        for t in ax.texts
+    }
+    for i, below in enumerate(codes):
+        for j, above in enumerate(codes):
+            r = fo.residuals[i, j]
+            if not np.isfinite(r):
+                continue
+            text = written[below, above]
+            assert text.startswith(f"{r:.2f}")
+            assert text.endswith("!") == bool(fo.low_expected[i, j])
+            assert ("*" in text) == bool(fo.significant[i, j])
+    assert fo.low_expected.any()
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any(label.startswith("! expected count below 5") for label in labels)
