@@ -310,13 +310,10 @@ def _circle_layout(n: int, start: float = 90.0) -> np.ndarray:
 
 
 def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **kw):
-    p, q = np.asarray(p, float), np.asarray(q, float)
-    d = q - p
-    unit = d / (np.hypot(*d) or 1.0)
-    gap = node_radius * 1.08
+    start, end = _arc_ends(p, q, node_radius)
     arrow = FancyArrowPatch(
-        tuple(p + gap * unit),
-        tuple(q - gap * unit),
+        tuple(start),
+        tuple(end),
         arrowstyle="-|>",
         mutation_scale=8 + 4 * width,
         connectionstyle=f"arc3,rad={rad}",
@@ -327,9 +324,10 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
         **kw,
     )
     ax.add_patch(arrow)
+    text = None
     if label:
-        ax.text(
-            *arc_middle(p + gap * unit, q - gap * unit, rad),
+        text = ax.text(
+            *arc_middle(start, end, rad),
             label,
             ha="center",
             va="center",
@@ -338,7 +336,17 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
             gid=kw.get("gid"),
             zorder=5,  # over a circle the arc passes near
         )
-    return arrow
+    return arrow, text
+
+
+def _arc_ends(p, q, node_radius: float) -> tuple[np.ndarray, np.ndarray]:
+    """Where an arrow from the node at ``p`` to the node at ``q`` starts and ends: a
+    little outside each node's circle, on the line between the centres."""
+    p, q = np.asarray(p, float), np.asarray(q, float)
+    d = q - p
+    unit = d / (np.hypot(*d) or 1.0)
+    gap = node_radius * 1.08
+    return p + gap * unit, q - gap * unit
 
 
 def arc_middle(start, end, rad: float) -> np.ndarray:
@@ -478,7 +486,7 @@ def facies_relationship_diagram(
         ax = fig.add_subplot()
         ax.set_aspect("equal")
         ax.set_axis_off()
-        n_drawn = _transition_arrows(ax, values, significant, pos, threshold, radius)
+        n_drawn, labels = _transition_arrows(ax, values, significant, pos, threshold, radius)
         names = _facies_circles(ax, pos, scheme, radius)
         ax.set_xlim(-1.4, 1.4)
         ax.set_ylim(-1.4, 1.4)
@@ -488,6 +496,7 @@ def facies_relationship_diagram(
         if n_drawn == 0:
             ax.text(0, 0, "no transition above chance", ha="center", va="center")
         _fit_in_circles(fig, names)
+        _labels_off_circles(fig, labels, [circle for _, circle in names])
     return fig
 
 
@@ -525,7 +534,8 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
     """An arrow from facies to facies for each upward transition above ``threshold``
     (``values``: observed - expected, rows = lower facies), as wide as the difference;
     solid and labelled where ``significant`` (or where it is None), else dashed.
-    Returns the number of arrows drawn."""
+    Returns the number of arrows drawn and each label with its arc (start, end,
+    ``rad``) for :func:`_labels_off_circles`."""
     codes = list(values.index)
     sig = (
         significant.reindex(index=codes, columns=codes).fillna(False)
@@ -535,6 +545,7 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
     positive = values.to_numpy(float)
     top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
     n_drawn = 0
+    labels = []
     for a in codes:
         for b in codes:
             if a == b:
@@ -546,20 +557,96 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
             # a short arrow bows enough that the labels of A -> B and B -> A,
             # on arcs bowing to either side, stand apart
             chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
-            _arrow(
+            rad = max(0.28, 0.24 / max(chord, 1e-9))
+            _, text = _arrow(
                 ax,
                 pos[a],
                 pos[b],
                 width=0.5 + 2.5 * d / (top or 1.0),
                 colour="#1f4e8c" if solid else "#8fa3bf",
-                rad=max(0.28, 0.24 / max(chord, 1e-9)),
-                label=f"{d:.2f}" if solid else None,
+                rad=rad,
+                label=difference_label(d, threshold) if solid else None,
                 node_radius=radius,
                 linestyle="-" if solid else (0, (3, 2)),
                 gid=f"transition {a} -> {b}",
             )
+            if text is not None:
+                labels.append((text, *_arc_ends(pos[a], pos[b], radius), rad))
             n_drawn += 1
-    return n_drawn
+    return n_drawn, labels
+
+
+def difference_label(difference: float, threshold: float) -> str:
+    """``difference`` with two decimals, or as many more as it takes to read above
+    ``threshold`` (0.055 read "0.05" under a caption of arrows "> 0.05")."""
+    for decimals in range(2, 7):
+        text = f"{difference:.{decimals}f}"
+        if float(text) > threshold:
+            return text
+    return text
+
+
+#: Where along its arc an arrow's label may stand (0 = the lower facies, 1 = the
+#: upper), from the middle outward.
+LABEL_PLACES = (0.5, 0.42, 0.58, 0.34, 0.66, 0.26, 0.74, 0.18, 0.82)
+
+
+def _labels_off_circles(fig: Figure, labels, circles) -> None:
+    """Move each label along its arc until its box covers no facies circle (nor, where
+    room allows, an earlier label); where no place is free, leave it where it covers
+    least, without its white box (a label's box on a short arc between neighbours hid
+    the facies code of the circle beneath it)."""
+    if not labels:
+        return
+    fig.draw_without_rendering()
+    rings = [_ring(circle) for circle in circles]
+    boxes = [text.get_window_extent().padded(2.0) for text, *_ in labels]
+    covering = [False] * len(labels)
+    for _ in range(3):  # again, once every label has a place, so order matters less
+        for n, (text, start, end, rad) in enumerate(labels):
+            others = boxes[:n] + boxes[n + 1 :]
+            scored = []
+            for k, t in enumerate(LABEL_PLACES):
+                text.set_position(_on_arc(start, end, rad, t))
+                box = text.get_window_extent().padded(2.0)  # the white box's pad
+                on_circles = sum(_box_in_ring(box, ring) for ring in rings)
+                on_labels = sum(_overlap(box, other) for other in others)
+                scored.append((on_circles > 0, on_labels > 0, on_circles, on_labels, k))
+            covering[n], _, _, _, k = min(scored)
+            text.set_position(_on_arc(start, end, rad, LABEL_PLACES[k]))
+            boxes[n] = text.get_window_extent().padded(2.0)
+    for (text, *_), covers in zip(labels, covering, strict=True):
+        if covers:
+            text.set_bbox(None)
+
+
+def _on_arc(start, end, rad: float, t: float) -> tuple[float, float]:
+    """The point at ``t`` (0..1) along matplotlib's ``arc3`` arc (see :func:`arc_middle`)."""
+    start, end = np.asarray(start, float), np.asarray(end, float)
+    d = end - start
+    control = (start + end) / 2 + rad * np.array([d[1], -d[0]])
+    point = (1 - t) ** 2 * start + 2 * t * (1 - t) * control + t**2 * end
+    return float(point[0]), float(point[1])
+
+
+def _ring(circle) -> tuple[float, float, float]:
+    """Centre and radius of ``circle`` on the page (display units)."""
+    box = circle.get_window_extent()
+    return (box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2, min(box.width, box.height) / 2
+
+
+def _box_in_ring(box, ring) -> float:
+    """How far (display units) the box reaches into the ring; 0 where it does not."""
+    x, y, r = ring
+    nearest = np.clip(x, box.x0, box.x1), np.clip(y, box.y0, box.y1)
+    return max(0.0, r - float(np.hypot(nearest[0] - x, nearest[1] - y)))
+
+
+def _overlap(a, b) -> float:
+    """Area shared by two boxes (display units)."""
+    width = min(a.x1, b.x1) - max(a.x0, b.x0)
+    height = min(a.y1, b.y1) - max(a.y0, b.y0)
+    return max(0.0, width) * max(0.0, height)
 
 
 def _facies_circles(ax, pos, scheme: FaciesScheme | None, radius: float) -> list:
