@@ -314,3 +314,108 @@ def test_a_scheme_of_25_facies_leaves_the_diagram_room_above_its_legend(tmp_path
     fig.draw_without_rendering()
     inches = fig.axes[0].get_position().height * fig.get_figheight()
     assert inches > 2.5
+
+
+def _overlapping(boxes) -> list[tuple[int, int]]:
+    return [
+        (i, j) for i, a in enumerate(boxes) for j, b in enumerate(boxes) if i < j and a.overlaps(b)
+    ]
+
+
+@pytest.mark.parametrize("n_repeats", [1, 3])
+def test_emission_category_labels_do_not_overlap(n_repeats):
+    # "base 2+ ranl|base 1|base level with th": the categories of a context feature
+    # ran into each other and were cut; wrapped (or upright where the page is too
+    # narrow, with three times as many columns), every label stands alone
+    from faciesseq.hmm.context import CONTEXT_CATEGORIES
+    from faciesseq.report.model_section import feature_title
+
+    cats = [
+        f"{c} {k}" if k else c for k in range(n_repeats) for c in CONTEXT_CATEGORIES["base_shift"]
+    ]
+    table = pd.DataFrame(
+        np.full((4, len(cats)), 1 / len(cats)), index=["HST", "FSST", "LST", "TST"], columns=cats
+    )
+    fig = figures.heatmap(table, row_title="state", column_title=feature_title("base_shift"))
+    fig.draw_without_rendering()
+    ax = fig.axes[0]
+    labels = ax.get_xticklabels()
+    assert [" ".join(t.get_text().split()) for t in labels] == cats  # nothing cut
+    assert not _overlapping([t.get_window_extent() for t in labels])
+    page = fig.get_window_extent()
+    assert all(page.contains(*t.get_window_extent().p0) for t in labels)
+    assert "_" not in ax.get_xlabel() and "base" in ax.get_xlabel()
+    assert all(t.get_bbox_patch() is None for t in labels)  # no colour per category
+
+
+def test_residual_heatmap_writes_two_decimals_and_marks_small_expected_counts():
+    # a significant 2.05 and a non-significant 1.95 were both written "2.0"; cells of
+    # an expected count below 5, marked "!" in markov.txt, were unmarked in the figure
+    import faciesseq as fs
+    from faciesseq.report.document import Document, FigureBlock
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import Facies, FaciesScheme
+
+    rng = np.random.default_rng(5)
+    cycle = ["OFF", "LSF", "USF", "CP"]
+    rows = []
+    for core in range(2):  # few beds: some expected counts below 5
+        codes = [c for _ in range(5) for c in cycle]
+        codes = [c if rng.random() > 0.2 else cycle[rng.integers(4)] for c in codes]
+        codes = [c for k, c in enumerate(codes) if k == 0 or c != codes[k - 1]]
+        rows += [(f"C{core}", float(k), k + 1.0, c) for k, c in enumerate(codes)]
+    cores = fs.read_cores(pd.DataFrame(rows, columns=["core", "top", "base", "facies"]))
+    report = fs.analyse(cores.require_valid(), by="core")
+    scheme = FaciesScheme(tuple(Facies(c, c, float(k)) for k, c in enumerate(cycle)))
+    document = Document("appendix", sections=[markov_section(report, scheme)])
+    block = next(
+        b for b in document.blocks() if isinstance(b, FigureBlock) and b.key == "markov_residuals"
+    )
+    assert "! marks cells with an expected count below 5" in block.caption
+    ax = block.figure.axes[0]
+    codes = list(report.codes)
+    fo = report.first_order
+    written = {
+        (codes[round(t.get_position()[1])], codes[round(t.get_position()[0])]): t.get_text()
+        for t in ax.texts
+    }
+    for i, below in enumerate(codes):
+        for j, above in enumerate(codes):
+            r = fo.residuals[i, j]
+            if not np.isfinite(r):
+                continue
+            text = written[below, above]
+            assert text.startswith(f"{r:.2f}")
+            assert text.endswith("!") == bool(fo.low_expected[i, j])
+            assert ("*" in text) == bool(fo.significant[i, j])
+    assert fo.low_expected.any()
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any(label.startswith("! expected count below 5") for label in labels)
+
+
+def test_difference_labels_stand_off_the_circles_and_read_above_the_threshold():
+    # on short arcs between neighbours the white box of "0.05" sat on a circle and hid
+    # its code; and 0.0504, drawn because it exceeds 0.05, was labelled "0.05"
+    from matplotlib.patches import Circle
+
+    codes = ["A", "B", "C", "D", "E", "F", "G", "H", "I"]
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for lower, upper in pairwise(codes):
+        table.loc[lower, upper] = 0.3
+        table.loc[upper, lower] = 0.0504
+    for lower, upper in zip(codes, codes[2:], strict=False):  # arcs past a neighbour
+        table.loc[lower, upper] = 0.3
+    fig = figures.facies_relationship_diagram(table, None, order=codes)
+    fig.draw_without_rendering()
+    ax = fig.axes[0]
+    labels = [t for t in ax.texts if t.get_text().replace(".", "").isdigit()]
+    assert sorted({t.get_text() for t in labels}) == ["0.0504", "0.30"]
+    rings = [c.get_window_extent() for c in ax.patches if isinstance(c, Circle)]
+    for text in labels:
+        box = text.get_window_extent()
+        for ring in rings:
+            centre = np.array([(ring.x0 + ring.x1) / 2, (ring.y0 + ring.y1) / 2])
+            nearest = np.clip(centre, [box.x0, box.y0], [box.x1, box.y1])
+            assert np.hypot(*(nearest - centre)) >= ring.width / 2, text.get_text()
+    assert figures.difference_label(0.0504, 0.05) == "0.0504"
+    assert figures.difference_label(0.26, 0.05) == "0.26"

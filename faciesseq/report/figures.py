@@ -9,6 +9,7 @@ was computed. Colours come from :mod:`faciesseq.report.style`.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from itertools import pairwise
 
 import numpy as np
 import pandas as pd
@@ -63,6 +64,8 @@ def heatmap(
     diverging: bool = False,
     marks: pd.DataFrame | None = None,
     mark_label: str = "significant",
+    cautions: pd.DataFrame | None = None,
+    caution_label: str = "",
     row_title: str = "from (lower bed)",
     column_title: str = "to (upper bed)",
     width: float | None = None,
@@ -83,38 +86,88 @@ def heatmap(
         Centre the colour scale at 0 (for differences and residuals).
     marks
         Boolean table of the same shape; marked cells get a ``*`` and a frame.
+    cautions
+        Boolean table of the same shape; these cells get a ``!`` after their value
+        (e.g. an expected count below 5, where a residual is unreliable), and the
+        legend says so with ``caution_label``.
     label_colours
         Colours of row and column labels (e.g. tract colours): the label is
         drawn on a patch of that colour.
+
+    Long column labels (e.g. the categories of a context feature, "base level with
+    the cycle below") are wrapped on whole words and the columns made wide enough
+    for them; where they would still overlap they are turned upright.
     """
     values = table.to_numpy(dtype=float)
     n_rows, n_cols = values.shape
-    width = width or min(PAGE_WIDTH, 1.6 + 0.55 * n_cols)
-    height = 1.3 + 0.42 * n_rows
+    columns = [_wrapped(plain(c), COLUMN_LABEL_CHARS) for c in table.columns]
+    width = width or min(PAGE_WIDTH, 1.6 + _column_width(columns) * n_cols)
+    height = 1.3 + 0.42 * n_rows + 0.12 * max(0, _lines(columns) - 1)
     mark = _marked_cells(marks, table)
+    caution = _marked_cells(cautions, table)
     with figure_style():
         fig = new_figure(width, height, layout="constrained")
         ax = fig.add_subplot()
         scale = _colour_scale(values, diverging)
         image = ax.imshow(np.ma.masked_invalid(values), aspect="auto", **scale)
-        _write_cell_values(ax, image, values, mark, fmt)
-        _label_rows_and_columns(ax, table, row_title, column_title)
+        _write_cell_values(ax, image, values, mark, fmt, caution)
+        # a title in words ran out of a narrow figure
+        title_chars = max(COLUMN_LABEL_CHARS, int((width - 1.2) / 0.065))
+        _label_rows_and_columns(ax, table, row_title, _wrapped(column_title, title_chars), columns)
         if label_colours:
             _colour_tick_labels(ax, label_colours)
         for spine in ax.spines.values():
             spine.set_visible(False)
         bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
         bar.set_label(plain(value_label))
+        handles = []
         if mark.any():
+            handles.append(Patch(fc="none", ec="black", lw=1.0, label=f"* {mark_label}"))
+        if caution.any() and caution_label:
+            handles.append(Patch(fc="none", ec="none", label=f"! {caution_label}"))
+        if handles:
             ax.legend(
-                handles=[Patch(fc="none", ec="black", lw=1.0, label=f"* {mark_label}")],
+                handles=handles,
                 loc="upper left",
                 bbox_to_anchor=(0.0, -0.02),
                 frameon=False,
             )
         if title:
             ax.set_title(title, parse_math=False)
+        _upright_if_overlapping(fig, ax)
     return fig
+
+
+#: Characters on a line of a heat map's column label before it is wrapped.
+COLUMN_LABEL_CHARS = 12
+
+
+def _lines(labels: Sequence[str]) -> int:
+    """The most lines of any label in ``labels``."""
+    return max((label.count("\n") + 1 for label in labels), default=1)
+
+
+def _column_width(labels: Sequence[str], inches_per_char: float = 0.062) -> float:
+    """Width (inches) of a heat map's column: 0.55, or room for the longest line of
+    its labels (7-point tick labels, about 0.06 inch a character)."""
+    longest = max((len(line) for label in labels for line in label.split("\n")), default=0)
+    return max(0.55, 0.15 + inches_per_char * longest)
+
+
+def _upright_if_overlapping(fig: Figure, ax) -> None:
+    """Turn the column labels upright where, laid out, two of them overlap (long
+    labels on a heat map narrowed to the page: they ran into each other and were cut
+    by their neighbours' boxes)."""
+    labels = [t for t in ax.get_xticklabels() if t.get_text()]
+    if len(labels) < 2:
+        return
+    fig.draw_without_rendering()
+    boxes = [t.get_window_extent() for t in labels]
+    if any(a.x1 > b.x0 for a, b in pairwise(boxes)):
+        for t in labels:
+            t.set_text(" ".join(t.get_text().split()))
+            t.set_rotation(90)
+            t.set_horizontalalignment("center")
 
 
 def _colour_scale(values: np.ndarray, diverging: bool) -> dict:
@@ -139,9 +192,14 @@ def _marked_cells(marks: pd.DataFrame | None, table: pd.DataFrame) -> np.ndarray
     return marks.reindex(index=table.index, columns=table.columns).fillna(False).to_numpy(bool)
 
 
-def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str) -> None:
+def _write_cell_values(
+    ax, image, values: np.ndarray, mark: np.ndarray, fmt: str, caution: np.ndarray | None = None
+) -> None:
     """Each cell's value in black or white, whichever reads on its colour; marked cells
-    get a ``*`` and a frame, blank (NaN) cells a grey dash."""
+    get a ``*`` and a frame, cells of ``caution`` a ``!``, blank (NaN) cells a grey
+    dash."""
+    if caution is None:
+        caution = np.zeros(values.shape, dtype=bool)
     n_rows, n_cols = values.shape
     for i in range(n_rows):
         for j in range(n_cols):
@@ -150,16 +208,19 @@ def _write_cell_values(ax, image, values: np.ndarray, mark: np.ndarray, fmt: str
                 ax.text(j, i, "–", ha="center", va="center", fontsize=7, color="#888888")
                 continue
             colour = _text_colour(image.cmap(image.norm(v)))
-            text = fmt.format(v) + ("*" if mark[i, j] else "")
+            text = fmt.format(v) + ("*" if mark[i, j] else "") + ("!" if caution[i, j] else "")
             ax.text(j, i, text, ha="center", va="center", fontsize=6.5, color=colour)
             if mark[i, j]:
                 ax.add_patch(_cell_frame(j, i))
 
 
-def _label_rows_and_columns(ax, table: pd.DataFrame, row_title: str, column_title: str) -> None:
-    """Row labels on the left, column labels and the column title along the top."""
+def _label_rows_and_columns(
+    ax, table: pd.DataFrame, row_title: str, column_title: str, columns: Sequence[str]
+) -> None:
+    """Row labels on the left, column labels (``columns``, as written) and the column
+    title along the top."""
     n_rows, n_cols = table.shape
-    ax.set_xticks(range(n_cols), [plain(c) for c in table.columns], rotation=0)
+    ax.set_xticks(range(n_cols), list(columns), rotation=0)
     ax.set_yticks(range(n_rows), [plain(r) for r in table.index])
     ax.set_xlabel(column_title)
     ax.set_ylabel(row_title)
@@ -171,12 +232,9 @@ def _colour_tick_labels(ax, label_colours: Mapping[str, str]) -> None:
     """Draw each row and column label that ``label_colours`` names (as given, made
     safe by :func:`plain`, or before a ``.`` suffix) on a patch of its colour."""
     for tick in [*ax.get_xticklabels(), *ax.get_yticklabels()]:
+        text = " ".join(tick.get_text().split())  # a wrapped label on one line
         key = next(
-            (
-                k
-                for k in label_colours
-                if tick.get_text() in (k, plain(k)) or tick.get_text().split(".")[0] == k
-            ),
+            (k for k in label_colours if text in (k, plain(k)) or text.split(".")[0] == k),
             None,
         )
         if key is not None:
@@ -252,13 +310,10 @@ def _circle_layout(n: int, start: float = 90.0) -> np.ndarray:
 
 
 def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **kw):
-    p, q = np.asarray(p, float), np.asarray(q, float)
-    d = q - p
-    unit = d / (np.hypot(*d) or 1.0)
-    gap = node_radius * 1.08
+    start, end = _arc_ends(p, q, node_radius)
     arrow = FancyArrowPatch(
-        tuple(p + gap * unit),
-        tuple(q - gap * unit),
+        tuple(start),
+        tuple(end),
         arrowstyle="-|>",
         mutation_scale=8 + 4 * width,
         connectionstyle=f"arc3,rad={rad}",
@@ -269,9 +324,10 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
         **kw,
     )
     ax.add_patch(arrow)
+    text = None
     if label:
-        ax.text(
-            *arc_middle(p + gap * unit, q - gap * unit, rad),
+        text = ax.text(
+            *arc_middle(start, end, rad),
             label,
             ha="center",
             va="center",
@@ -280,7 +336,17 @@ def _arrow(ax, p, q, *, width, colour, rad=0.18, label=None, node_radius=0.2, **
             gid=kw.get("gid"),
             zorder=5,  # over a circle the arc passes near
         )
-    return arrow
+    return arrow, text
+
+
+def _arc_ends(p, q, node_radius: float) -> tuple[np.ndarray, np.ndarray]:
+    """Where an arrow from the node at ``p`` to the node at ``q`` starts and ends: a
+    little outside each node's circle, on the line between the centres."""
+    p, q = np.asarray(p, float), np.asarray(q, float)
+    d = q - p
+    unit = d / (np.hypot(*d) or 1.0)
+    gap = node_radius * 1.08
+    return p + gap * unit, q - gap * unit
 
 
 def arc_middle(start, end, rad: float) -> np.ndarray:
@@ -420,7 +486,7 @@ def facies_relationship_diagram(
         ax = fig.add_subplot()
         ax.set_aspect("equal")
         ax.set_axis_off()
-        n_drawn = _transition_arrows(ax, values, significant, pos, threshold, radius)
+        n_drawn, labels = _transition_arrows(ax, values, significant, pos, threshold, radius)
         names = _facies_circles(ax, pos, scheme, radius)
         ax.set_xlim(-1.4, 1.4)
         ax.set_ylim(-1.4, 1.4)
@@ -430,6 +496,7 @@ def facies_relationship_diagram(
         if n_drawn == 0:
             ax.text(0, 0, "no transition above chance", ha="center", va="center")
         _fit_in_circles(fig, names)
+        _labels_off_circles(fig, labels, [circle for _, circle in names])
     return fig
 
 
@@ -467,7 +534,8 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
     """An arrow from facies to facies for each upward transition above ``threshold``
     (``values``: observed - expected, rows = lower facies), as wide as the difference;
     solid and labelled where ``significant`` (or where it is None), else dashed.
-    Returns the number of arrows drawn."""
+    Returns the number of arrows drawn and each label with its arc (start, end,
+    ``rad``) for :func:`_labels_off_circles`."""
     codes = list(values.index)
     sig = (
         significant.reindex(index=codes, columns=codes).fillna(False)
@@ -477,6 +545,7 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
     positive = values.to_numpy(float)
     top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
     n_drawn = 0
+    labels = []
     for a in codes:
         for b in codes:
             if a == b:
@@ -488,20 +557,96 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
             # a short arrow bows enough that the labels of A -> B and B -> A,
             # on arcs bowing to either side, stand apart
             chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
-            _arrow(
+            rad = max(0.28, 0.24 / max(chord, 1e-9))
+            _, text = _arrow(
                 ax,
                 pos[a],
                 pos[b],
                 width=0.5 + 2.5 * d / (top or 1.0),
                 colour="#1f4e8c" if solid else "#8fa3bf",
-                rad=max(0.28, 0.24 / max(chord, 1e-9)),
-                label=f"{d:.2f}" if solid else None,
+                rad=rad,
+                label=difference_label(d, threshold) if solid else None,
                 node_radius=radius,
                 linestyle="-" if solid else (0, (3, 2)),
                 gid=f"transition {a} -> {b}",
             )
+            if text is not None:
+                labels.append((text, *_arc_ends(pos[a], pos[b], radius), rad))
             n_drawn += 1
-    return n_drawn
+    return n_drawn, labels
+
+
+def difference_label(difference: float, threshold: float) -> str:
+    """``difference`` with two decimals, or as many more as it takes to read above
+    ``threshold`` (0.055 read "0.05" under a caption of arrows "> 0.05")."""
+    for decimals in range(2, 7):
+        text = f"{difference:.{decimals}f}"
+        if float(text) > threshold:
+            return text
+    return text
+
+
+#: Where along its arc an arrow's label may stand (0 = the lower facies, 1 = the
+#: upper), from the middle outward.
+LABEL_PLACES = (0.5, 0.42, 0.58, 0.34, 0.66, 0.26, 0.74, 0.18, 0.82)
+
+
+def _labels_off_circles(fig: Figure, labels, circles) -> None:
+    """Move each label along its arc until its box covers no facies circle (nor, where
+    room allows, an earlier label); where no place is free, leave it where it covers
+    least, without its white box (a label's box on a short arc between neighbours hid
+    the facies code of the circle beneath it)."""
+    if not labels:
+        return
+    fig.draw_without_rendering()
+    rings = [_ring(circle) for circle in circles]
+    boxes = [text.get_window_extent().padded(2.0) for text, *_ in labels]
+    covering = [False] * len(labels)
+    for _ in range(3):  # again, once every label has a place, so order matters less
+        for n, (text, start, end, rad) in enumerate(labels):
+            others = boxes[:n] + boxes[n + 1 :]
+            scored = []
+            for k, t in enumerate(LABEL_PLACES):
+                text.set_position(_on_arc(start, end, rad, t))
+                box = text.get_window_extent().padded(2.0)  # the white box's pad
+                on_circles = sum(_box_in_ring(box, ring) for ring in rings)
+                on_labels = sum(_overlap(box, other) for other in others)
+                scored.append((on_circles > 0, on_labels > 0, on_circles, on_labels, k))
+            covering[n], _, _, _, k = min(scored)
+            text.set_position(_on_arc(start, end, rad, LABEL_PLACES[k]))
+            boxes[n] = text.get_window_extent().padded(2.0)
+    for (text, *_), covers in zip(labels, covering, strict=True):
+        if covers:
+            text.set_bbox(None)
+
+
+def _on_arc(start, end, rad: float, t: float) -> tuple[float, float]:
+    """The point at ``t`` (0..1) along matplotlib's ``arc3`` arc (see :func:`arc_middle`)."""
+    start, end = np.asarray(start, float), np.asarray(end, float)
+    d = end - start
+    control = (start + end) / 2 + rad * np.array([d[1], -d[0]])
+    point = (1 - t) ** 2 * start + 2 * t * (1 - t) * control + t**2 * end
+    return float(point[0]), float(point[1])
+
+
+def _ring(circle) -> tuple[float, float, float]:
+    """Centre and radius of ``circle`` on the page (display units)."""
+    box = circle.get_window_extent()
+    return (box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2, min(box.width, box.height) / 2
+
+
+def _box_in_ring(box, ring) -> float:
+    """How far (display units) the box reaches into the ring; 0 where it does not."""
+    x, y, r = ring
+    nearest = np.clip(x, box.x0, box.x1), np.clip(y, box.y0, box.y1)
+    return max(0.0, r - float(np.hypot(nearest[0] - x, nearest[1] - y)))
+
+
+def _overlap(a, b) -> float:
+    """Area shared by two boxes (display units)."""
+    width = min(a.x1, b.x1) - max(a.x0, b.x0)
+    height = min(a.y1, b.y1) - max(a.y0, b.y0)
+    return max(0.0, width) * max(0.0, height)
 
 
 def _facies_circles(ax, pos, scheme: FaciesScheme | None, radius: float) -> list:
@@ -582,7 +727,7 @@ def transition_order(difference: pd.DataFrame) -> list[str]:
 
 
 def _wrapped(name: str, width: int = 10) -> str:
-    """A facies name on lines of about ``width`` characters (whole words)."""
+    """A name (a facies, a category) on lines of about ``width`` characters (whole words)."""
     import textwrap
 
     return "\n".join(textwrap.wrap(str(name), width, break_long_words=False)) or str(name)

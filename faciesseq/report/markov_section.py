@@ -112,14 +112,18 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
         FigureBlock(
             "markov_residuals",
             "Adjusted residuals: more (blue) or fewer (red) transitions than chance; framed "
-            "cells are significant.",
+            f"cells (*) are significant (|r| > {_z(report.alpha):.2f}); ! marks cells with an "
+            "expected count below 5, where the residual is unreliable.",
             figures.heatmap(
                 _labelled(fo.residuals, codes),
                 value_label="adjusted residual",
-                fmt="{:.1f}",
+                fmt="{:.2f}",  # one decimal showed 2.05 (significant) and 1.95 both as 2.0
                 diverging=True,
                 marks=sig,
-                mark_label=f"significant (two-sided, {report.alpha:g})",
+                mark_label=f"significant (two-sided, {report.alpha:g}: |r| > "
+                f"{_z(report.alpha):.2f})",
+                cautions=low,
+                caution_label="expected count below 5: residual unreliable",
                 label_colours=colours,
             ),
         ),

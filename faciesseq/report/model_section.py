@@ -149,16 +149,50 @@ def _emission_key(name: str) -> str:
     return key
 
 
+#: What each categorical emission feature is, in words, for the titles of its figure
+#: and table (the bins are named in :data:`faciesseq.hmm.context.CONTEXT_CATEGORIES`;
+#: what they read in :func:`faciesseq.cycles.bed_context`).
+FEATURE_TITLES: dict[str, str] = {
+    "facies": "facies",
+    "contact": "lower contact of the bed",
+    "rank_step": "rank jump at the bed's base (+ = deeper upward)",
+    "rank_step_above": "rank jump at the bed's top (+ = deeper upward)",
+    "rank_trend": "rank trend over the bed and two beds on each side",
+    "cycle_stacking": "stacking of the bed's cycle against the cycles below and above",
+    "base_shift": "shift of the cycle's base against the cycle below",
+    "trend": "trend of proximality over the beds around",
+    "position": "place between the shallowest and deepest facies around",
+    "local_position": "place within the bed's cycle and the cycles next to it",
+    "cycle_sharpness": "share of sharp contacts in the bed's cycle",
+    "cycle_amplitude": "how far the bed's cycle shallows",
+    "setting": "setting of the bed's facies",
+    "exposure": "subaerial exposure",
+}
+
+
+def feature_title(name: str) -> str:
+    """The feature ``name`` in words (:data:`FEATURE_TITLES`; another name, a bed
+    attribute, with its underscores as spaces)."""
+    if "facies" in name:
+        return "facies"
+    return FEATURE_TITLES.get(name, name.replace("_", " "))
+
+
 def _probability_heatmap(table: pd.DataFrame, model: Any, scheme, categories, what: str):
-    """Heat map of a table of probabilities per state, labels coloured by tract and facies."""
+    """Heat map of a table of probabilities per state, states labelled in their tract
+    colours; categories in their facies colours where they are facies, else plain (a
+    colour per bin of a context feature looked like a facies or a tract, and repeated)."""
     from faciesseq.report import figures
 
+    colours = _tract_colours(model.states_.tracts)
+    if what == "facies":
+        colours |= _facies_colours(scheme, categories)
     return figures.heatmap(
         table,
         value_label="probability",
         row_title="state",
         column_title=what,
-        label_colours=_tract_colours(model.states_.tracts) | _facies_colours(scheme, categories),
+        label_colours=colours,
     )
 
 
@@ -166,12 +200,12 @@ def _categorical_blocks(sub: Section, piece: Any, key: str, model: Any, scheme) 
     """Table and heat map of a categorical piece's ``emissionprob_`` (state by category)."""
     name = piece.name
     table = _state_frame(piece.emissionprob_, model, piece.categories)
-    what = "facies" if "facies" in name else name
+    what = feature_title(name)
     sub.add(
         TableBlock(key, f"Emission probabilities P({what} | state) of the {name} piece.", table),
         FigureBlock(
             key,
-            f"Emission probabilities of {what} per state ({name} piece).",
+            f"Emission probabilities of the {what}, per state ({name} piece).",
             _probability_heatmap(table, model, scheme, piece.categories, what),
         ),
     )
