@@ -110,6 +110,28 @@ def test_page_embeds_every_bed_contact_and_pick():
     np.testing.assert_allclose(data["cores"][1]["beds"]["width"], grain / 7, atol=1e-4)
 
 
+def test_picks_are_labelled_as_the_strip_logs_label_them():
+    from faciesseq.report.document import format_probability
+    from faciesseq.report.striplog import SURFACE_AXIS_END
+
+    core = synthetic_core(default_tract_model(), "W-1", seed=0)
+    picks = core.picks.copy()
+    picks.loc[picks.index[0], "probability"] = 0.9996  # a confident pick: "> 0.99"
+    core = type(core)("W-1", "m", core.tracts, core.surfaces, core.beds, core.boundaries, picks, 0)
+    interp = Interpretation.from_cores({"W-1": core}, core.tracts, core.surfaces, {})
+    data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())
+    shown = data["cores"][0]["picks"]
+    assert shown[0]["label"] == "MFS > 0.99"
+    for pick, row in zip(shown, picks.itertuples(), strict=True):
+        assert pick["label"] == f"MFS {format_probability(row.probability)}"
+    # the page writes the label it is given; it formats no probability of a pick itself
+    html = view_html(interp, load_scheme(SHOREFACE), default_tract_model())
+    assert "toFixed(2)" not in html and "p.label" in html
+    # the surface panel ends past 1, as the strip logs' does, so a pick at 1 shows whole
+    assert data["surface_axis_end"] == SURFACE_AXIS_END > 1
+    assert "p.probability * sx" in html and "t.width / DATA.surface_axis_end" in html
+
+
 def test_each_bed_knows_the_contacts_at_its_top_and_base():
     interp = _interpretation()
     core = interp["W-1"]
@@ -330,13 +352,15 @@ def _shifted(core, by: float, name: str):
 
 def _apart(names=("W-1", "W-2", "W-3", "W-4"), step=300.0) -> Interpretation:
     """Cores of one field cored at depths far apart (the second at 300 m below the
-    first, ...), the first with a pick at its very top."""
+    first, ...), the first with a pick at its very top, the second a pick at probability 1."""
     model = default_tract_model()
     cores = {
         n: _shifted(synthetic_core(model, n, seed=k), k * step, n) for k, n in enumerate(names)
     }
     first = cores[names[0]]
     first.picks.loc[first.picks.index[0], ["depth", "depth_top"]] = float(first.beds["top"].min())
+    second = cores[names[1]]
+    second.picks.loc[second.picks.index[0], "probability"] = 1.0
     return Interpretation.from_cores(cores, first.tracts, first.surfaces, {})
 
 
@@ -366,13 +390,20 @@ _LAYOUT = """<script>
     const heads = [...svg.querySelectorAll("text.small")].filter(t => /decoded|contact/.test(
       t.textContent)).map(t => t.getBoundingClientRect().bottom);
     const hatch = [...svg.querySelectorAll('rect[fill^="url(#gap"]')];
-    return [...svg.querySelectorAll("text")].filter(t => /^[A-Z]+ \\d\\.\\d\\d$/.test(
+    return [...svg.querySelectorAll("text")].filter(t => /^[A-Z]+ (?:[<>] )?\\d\\.\\d\\d$/.test(
       t.textContent)).map(t => ({
         top: t.getBoundingClientRect().top, heads: Math.max(...heads),
         clipped: !!t.closest("[clip-path]"),
         underHatch: hatch.some(h => h.compareDocumentPosition(t) &
           Node.DOCUMENT_POSITION_PRECEDING)}));
   });
+  out.markers = [...document.querySelectorAll(".well svg")].map(svg => ({
+    right: svg.getBoundingClientRect().right,
+    picks: [...svg.querySelectorAll('[data-track="surf"] path')].map(p => {
+      const r = p.getBoundingClientRect(); return {left: r.left, right: r.right}; })}));
+  out.labelTexts = [...document.querySelectorAll(".pick-labels text")].map(t => t.textContent);
+  out.firstLeft = document.getElementById("wells").firstElementChild
+    .getBoundingClientRect().left;
   document.getElementById("hang").click();
   out.firstBedsAfter = firstBeds();
   const pre = document.createElement("pre");
@@ -392,7 +423,8 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     assert page_errors(log) == []
     found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
     assert found, "the layout probe did not run"
-    out = json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    dumped = found.group(1).replace("&quot;", '"').replace("&gt;", ">").replace("&lt;", "<")
+    out = json.loads(dumped.replace("&amp;", "&"))
     legend = out["legend"]
     for well in out["wells"]:  # four wells do not fit beside the legend: it goes above them
         apart = (
@@ -407,6 +439,13 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     for label in labels:  # under the tracks' heads, over the gaps' hatching, never clipped
         assert label["top"] >= label["heads"] - 0.5
         assert not label["clipped"] and not label["underHatch"]
+    # every pick marker whole inside its well, the one at probability 1 too (the surface
+    # panel's axis ends at 1.1, as in the strip logs), labelled as the strip logs label it
+    for well in out["markers"]:
+        assert well["picks"]
+        for pick in well["picks"]:
+            assert pick["left"] < pick["right"] <= well["right"]
+    assert "MFS > 0.99" in out["labelTexts"]
     # cores 300 m apart hang on their tops: first beds level; on one axis they are not
     assert out["hang"] is True
     assert max(out["firstBeds"]) - min(out["firstBeds"]) < 1.0

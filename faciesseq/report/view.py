@@ -27,7 +27,14 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
-from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths, facies_name
+from faciesseq.report.striplog import (
+    GRAIN_CLASSES,
+    SURFACE_AXIS_END,
+    _gaps,
+    bed_widths,
+    facies_name,
+    pick_label,
+)
 from faciesseq.report.style import facies_colours, surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
@@ -83,6 +90,7 @@ def _core_data(core: CoreInterpretation, scheme: FaciesScheme | None) -> dict[st
                 "name": str(getattr(p, "name", "")),
                 "depth": _number(depth),
                 "probability": _number(p.probability, 4),
+                "label": pick_label(str(p.surface), float(p.probability)),
                 "depth_top": _number(getattr(p, "depth_top", depth)),
                 "depth_base": _number(getattr(p, "depth_base", depth)),
             }
@@ -178,9 +186,12 @@ def view_data(
         ``facies``, ``width`` 0-1, ``tract``, ``p`` one list per tract,
         ``top_contact`` / ``base_contact`` indices into ``contacts``),
         ``contacts`` (``depth``, ``p`` one list per surface), ``gaps`` and
-        ``picks``; ``hang``: whether the page opens with every core hung on its
-        own top (:func:`hang_by_default`; the reader switches between that and
-        one absolute depth axis). Non-finite numbers are null.
+        ``picks`` (with ``label``, as the strip logs write it: ``SB > 0.99``);
+        ``surface_axis_end``, the right end of the surface panel's probability
+        axis (past 1, so that a pick at probability 1 shows whole); ``hang``:
+        whether the page opens with every core hung on its own top
+        (:func:`hang_by_default`; the reader switches between that and one
+        absolute depth axis). Non-finite numbers are null.
     """
     tracts = tuple(interpretation.tracts)
     surfaces = tuple(interpretation.surfaces)
@@ -202,6 +213,7 @@ def view_data(
         "note": interpretation.probabilities_note,
         "units": units[0] if len(units) == 1 else ", ".join(units),
         "grain_classes": list(GRAIN_CLASSES),
+        "surface_axis_end": SURFACE_AXIS_END,
         "tracts": [
             {"code": t, "name": tract_names.get(t, ""), "colour": tract_colour(t, tracts)}
             for t in tracts
@@ -661,6 +673,7 @@ _JS = r"""
           DATA.checked ? "small" : "warn");
         el("rect", {x: x, y: HEAD, width: t.width, height: plotH, fill: "#fcfcfc",
           stroke: "#888", "stroke-width": 0.5}, g);
+        const sx = t.width / DATA.surface_axis_end;  // pixels per unit of probability
         const cd = core.contacts.depth;
         for (let k = 0; k < cd.length; k++) {
           if (cd[k] < view.top + shift || cd[k] > view.base + shift) continue;
@@ -668,19 +681,19 @@ _JS = r"""
           let left = 0;
           surfaces.forEach((s, j) => {
             const p = core.contacts.p[j][k] || 0;
-            if (p > 0.001) el("line", {x1: x + left * t.width, x2: x + (left + p) * t.width,
+            if (p > 0.001) el("line", {x1: x + left * sx, x2: x + (left + p) * sx,
               y1: py, y2: py, stroke: s.colour, "stroke-width": 2.5, "data-contact": k}, g);
             left += p;
           });
         }
-        [0, 0.5, 1].forEach(v => text(svg, x + v * t.width, HEAD + plotH + 12, String(v),
-          "small", v === 0 ? "start" : v === 1 ? "end" : "middle"));
+        [0, 0.5, 1].forEach(v => text(svg, x + v * sx, HEAD + plotH + 12, String(v),
+          "small", v === 0 ? "start" : "middle"));
         const picks = core.picks.slice().sort((a, b) => a.depth - b.depth);
         let lastLabel = -Infinity;
         picks.forEach(p => {
           const s = surfaces.find(q => q.code === p.surface);
           const colour = s ? s.colour : "#555";
-          const px = x + p.probability * t.width, py = y(p.depth);
+          const px = x + p.probability * sx, py = y(p.depth);
           el("line", {x1: px, x2: px, y1: y(p.depth_top), y2: y(p.depth_base),
             stroke: colour, "stroke-width": 1.2}, g);
           el("path", {d: "M" + px + "," + py + "l8,-5v10z", fill: colour, stroke: "#000",
@@ -693,8 +706,8 @@ _JS = r"""
           if (ly > py + 24 || ly > HEAD + plotH - 2) return;
           lastLabel = ly;
           const right = p.probability <= 0.55;
-          pickLabels.push([right ? px + 11 : px - 4, ly, p.surface + " " +
-            p.probability.toFixed(2), right ? "start" : "end", colour]);
+          pickLabels.push([right ? px + 11 : px - 4, ly, p.label, right ? "start" : "end",
+            colour]);
         });
       }
       x += t.width + GAP;
