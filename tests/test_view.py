@@ -132,6 +132,20 @@ def test_picks_are_labelled_as_the_strip_logs_label_them():
     assert "p.probability * sx" in html and "t.width / DATA.surface_axis_end" in html
 
 
+def _unnamed_scheme():
+    """The shoreface scheme with every facies named only ``facies <code>``, as a scheme
+    suggested from a minimal table names them."""
+    from dataclasses import replace
+
+    scheme = load_scheme(SHOREFACE)
+    return replace(scheme, facies=tuple(replace(f, name=f"facies {f.code}") for f in scheme.facies))
+
+
+def test_a_facies_named_only_by_its_code_has_no_name_in_the_page():
+    data = view_data(_interpretation(), _unnamed_scheme(), default_tract_model())
+    assert data["facies"] and all(f["name"] == "" for f in data["facies"])
+
+
 def test_each_bed_knows_the_contacts_at_its_top_and_base():
     interp = _interpretation()
     core = interp["W-1"]
@@ -337,6 +351,18 @@ def test_hover_toggle_and_zoom_in_chromium(tmp_path):
     assert base1 - top1 == pytest.approx((base0 - top0) / 2, rel=1e-3)
 
 
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_tooltip_of_a_facies_without_a_name_shows_its_code_alone(tmp_path):
+    interp = _interpretation()
+    html = view_html(interp, _unnamed_scheme(), default_tract_model())
+    out, log = _probe(tmp_path, html)
+    assert out["errors"] == [] and page_errors(log) == []
+    code = interp["W-2"].beds["facies"].iloc[7]
+    line = next(x for x in out["tooltip"].splitlines() if x.startswith("facies"))
+    assert line.rstrip() == f"facies\t{code}"  # not "facies\tCODE \u2013 "
+
+
 # ---------------------------------------------------------------- layout of the page
 
 
@@ -446,6 +472,7 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
         for pick in well["picks"]:
             assert pick["left"] < pick["right"] <= well["right"]
     assert "MFS > 0.99" in out["labelTexts"]
+    assert out["firstLeft"] >= 8  # the first core's header clear of the page's edge
     # cores 300 m apart hang on their tops: first beds level; on one axis they are not
     assert out["hang"] is True
     assert max(out["firstBeds"]) - min(out["firstBeds"]) < 1.0

@@ -362,7 +362,8 @@ h1 { font-size: 1.2rem; margin: 0 0 0.25rem; }
 #controls label { margin-right: 0.5rem; cursor: pointer; user-select: none; }
 .hint { color: var(--muted); font-size: 0.85rem; }
 main { display: flex; align-items: flex-start; }
-#wells { flex: 1 1 auto; min-width: 0; display: flex; overflow-x: auto; padding: 0.3rem 0 0.5rem; }
+#wells { flex: 1 1 auto; min-width: 0; display: flex; overflow-x: auto;
+  padding: 0.3rem 0 0.5rem 0.8rem; }
 #legend { flex: 0 0 16rem; padding: 0.5rem 0.8rem; border-left: 1px solid var(--rule);
   font-size: 12px; max-height: calc(100vh - 7rem); overflow-y: auto; }
 #legend h2 { font-size: 0.85rem; margin: 0.6rem 0 0.25rem; }
@@ -807,7 +808,7 @@ _JS = r"""
     row(t, ["base", fmt(b.base[i], 3) + " " + u]);
     row(t, ["thickness", fmt(b.base[i] - b.top[i], 3) + " " + u]);
     const f = faciesByCode[b.facies[i]];
-    row(t, ["facies", b.facies[i] + (f ? " \u2013 " + f.name : "")]);
+    row(t, ["facies", b.facies[i] + (f && f.name ? " \u2013 " + f.name : "")]);
     const tr = tracts.find(q => q.code === b.tract[i]);
     row(t, ["tract", b.tract[i] + (tr && tr.name ? " \u2013 " + tr.name : "")]);
     const sub = document.createElement("div"); sub.className = "sub";
