@@ -477,3 +477,19 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     assert out["hang"] is True
     assert max(out["firstBeds"]) - min(out["firstBeds"]) < 1.0
     assert out["firstBedsAfter"][1] > out["firstBedsAfter"][0] + 50
+
+
+def test_view_opens_on_a_median_core_where_core_lengths_differ_much():
+    from faciesseq.report.view import opening_window
+
+    # the demo's cores: all from 0 m, 26-174 m long; on one 174 m axis the short ones
+    # filled a sixth of their columns: the view opens on the median core's length
+    demo = [(0.0, 30.2), (0.0, 31.5), (0.0, 49.6), (0.0, 128.0), (0.0, 174.4)]
+    assert opening_window(demo, hang=False) == (0.0, 49.6)
+    # cores of like length hung on their tops (a minimal table's 67-95 m): all of them
+    hung = [(420.6, 490.7), (2552.8, 2647.7), (2098.8, 2165.9)]
+    assert opening_window(hung, hang=True) == pytest.approx((0.0, 94.9))
+    # on one axis the window starts at the shallowest top
+    assert opening_window([(80.0, 153.0), (95.0, 160.0)], hang=False) == (80.0, 160.0)
+    data = view_data(_apart(), load_scheme(SHOREFACE), default_tract_model())
+    assert data["hang"] and data["window"][0] == 0.0

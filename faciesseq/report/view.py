@@ -156,6 +156,34 @@ def hang_by_default(ranges: list[tuple[float, float]]) -> bool:
     return max(b - a for a, b in ranges) < HANG_BELOW * union
 
 
+#: The page opens on a depth window as long as the median core where the depth axis
+#: would be more than this many times longer (a 30 m core on a 174 m axis fills a
+#: sixth of its column); the reader scrolls down or shows all.
+OPEN_ON_MEDIAN_ABOVE = 2.0
+
+
+def opening_window(ranges: list[tuple[float, float]], hang: bool) -> tuple[float, float]:
+    """The depth window the view opens on, ``(top, base)`` in the depths of its axis
+    (below each core's top where the cores hang): the whole axis, or where the axis is
+    more than :data:`OPEN_ON_MEDIAN_ABOVE` times the median core's length, its first
+    median core's length, so that most cores fill their columns at one depth scale.
+
+    >>> opening_window([(0.0, 30.0), (0.0, 34.0), (0.0, 174.0)], hang=True)
+    (0.0, 34.0)
+    >>> opening_window([(420.0, 490.0), (2550.0, 2645.0)], hang=True)
+    (0.0, 95.0)
+    """
+    ranges = [(a, b) for a, b in ranges if math.isfinite(a) and math.isfinite(b) and b > a]
+    if not ranges:
+        return (0.0, 1.0)
+    top = 0.0 if hang else min(a for a, _ in ranges)
+    base = max(b - a for a, b in ranges) if hang else max(b for _, b in ranges)
+    median = float(np.median([b - a for a, b in ranges]))
+    if base - top > OPEN_ON_MEDIAN_ABOVE * median:
+        base = top + median
+    return (top, base)
+
+
 def view_data(
     interpretation: Interpretation,
     scheme: FaciesScheme | None,
@@ -191,7 +219,8 @@ def view_data(
         axis (past 1, so that a pick at probability 1 shows whole); ``hang``:
         whether the page opens with every core hung on its own top
         (:func:`hang_by_default`; the reader switches between that and one
-        absolute depth axis). Non-finite numbers are null.
+        absolute depth axis); ``window``: the depth window ``[top, base]`` it opens
+        on (:func:`opening_window`). Non-finite numbers are null.
     """
     tracts = tuple(interpretation.tracts)
     surfaces = tuple(interpretation.surfaces)
@@ -206,6 +235,7 @@ def view_data(
         for core in interpretation
         if len(core.beds)
     ]
+    hang = hang_by_default(ranges)
     return {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
@@ -224,7 +254,8 @@ def view_data(
         ],
         "facies": _facies_legend(interpretation, scheme),
         "cores": cores,
-        "hang": hang_by_default(ranges),
+        "hang": hang,
+        "window": list(opening_window(ranges, hang)),
     }
 
 
@@ -435,7 +466,9 @@ _JS = r"""
     return [0, Math.max(1e-9, ...RANGES.map(r => r[1] - r[0]))];
   }
   let FULL = fullRange();
-  const view = {top: FULL[0], base: FULL[1]};
+  // the opening window: most cores fill their columns (DATA.window); "all" shows all
+  const view = DATA.window ? {top: Math.max(FULL[0], DATA.window[0]),
+    base: Math.min(FULL[1], DATA.window[1])} : {top: FULL[0], base: FULL[1]};
   let shift = 0;  // depth of the top of the core being drawn where cores hang, else 0
   const WELL_AXIS = 46;  // a hung core's own depth scale
   let plotH = 500;
