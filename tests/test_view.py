@@ -110,6 +110,42 @@ def test_page_embeds_every_bed_contact_and_pick():
     np.testing.assert_allclose(data["cores"][1]["beds"]["width"], grain / 7, atol=1e-4)
 
 
+def test_picks_are_labelled_as_the_strip_logs_label_them():
+    from faciesseq.report.document import format_probability
+    from faciesseq.report.striplog import SURFACE_AXIS_END
+
+    core = synthetic_core(default_tract_model(), "W-1", seed=0)
+    picks = core.picks.copy()
+    picks.loc[picks.index[0], "probability"] = 0.9996  # a confident pick: "> 0.99"
+    core = type(core)("W-1", "m", core.tracts, core.surfaces, core.beds, core.boundaries, picks, 0)
+    interp = Interpretation.from_cores({"W-1": core}, core.tracts, core.surfaces, {})
+    data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())
+    shown = data["cores"][0]["picks"]
+    assert shown[0]["label"] == "MFS > 0.99"
+    for pick, row in zip(shown, picks.itertuples(), strict=True):
+        assert pick["label"] == f"MFS {format_probability(row.probability)}"
+    # the page writes the label it is given; it formats no probability of a pick itself
+    html = view_html(interp, load_scheme(SHOREFACE), default_tract_model())
+    assert "toFixed(2)" not in html and "p.label" in html
+    # the surface panel ends past 1, as the strip logs' does, so a pick at 1 shows whole
+    assert data["surface_axis_end"] == SURFACE_AXIS_END > 1
+    assert "p.probability * sx" in html and "t.width / DATA.surface_axis_end" in html
+
+
+def _unnamed_scheme():
+    """The shoreface scheme with every facies named only ``facies <code>``, as a scheme
+    suggested from a minimal table names them."""
+    from dataclasses import replace
+
+    scheme = load_scheme(SHOREFACE)
+    return replace(scheme, facies=tuple(replace(f, name=f"facies {f.code}") for f in scheme.facies))
+
+
+def test_a_facies_named_only_by_its_code_has_no_name_in_the_page():
+    data = view_data(_interpretation(), _unnamed_scheme(), default_tract_model())
+    assert data["facies"] and all(f["name"] == "" for f in data["facies"])
+
+
 def test_each_bed_knows_the_contacts_at_its_top_and_base():
     interp = _interpretation()
     core = interp["W-1"]
@@ -315,6 +351,18 @@ def test_hover_toggle_and_zoom_in_chromium(tmp_path):
     assert base1 - top1 == pytest.approx((base0 - top0) / 2, rel=1e-3)
 
 
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_tooltip_of_a_facies_without_a_name_shows_its_code_alone(tmp_path):
+    interp = _interpretation()
+    html = view_html(interp, _unnamed_scheme(), default_tract_model())
+    out, log = _probe(tmp_path, html)
+    assert out["errors"] == [] and page_errors(log) == []
+    code = interp["W-2"].beds["facies"].iloc[7]
+    line = next(x for x in out["tooltip"].splitlines() if x.startswith("facies"))
+    assert line.rstrip() == f"facies\t{code}"  # not "facies\tCODE \u2013 "
+
+
 # ---------------------------------------------------------------- layout of the page
 
 
@@ -330,13 +378,15 @@ def _shifted(core, by: float, name: str):
 
 def _apart(names=("W-1", "W-2", "W-3", "W-4"), step=300.0) -> Interpretation:
     """Cores of one field cored at depths far apart (the second at 300 m below the
-    first, ...), the first with a pick at its very top."""
+    first, ...), the first with a pick at its very top, the second a pick at probability 1."""
     model = default_tract_model()
     cores = {
         n: _shifted(synthetic_core(model, n, seed=k), k * step, n) for k, n in enumerate(names)
     }
     first = cores[names[0]]
     first.picks.loc[first.picks.index[0], ["depth", "depth_top"]] = float(first.beds["top"].min())
+    second = cores[names[1]]
+    second.picks.loc[second.picks.index[0], "probability"] = 1.0
     return Interpretation.from_cores(cores, first.tracts, first.surfaces, {})
 
 
@@ -366,13 +416,20 @@ _LAYOUT = """<script>
     const heads = [...svg.querySelectorAll("text.small")].filter(t => /decoded|contact/.test(
       t.textContent)).map(t => t.getBoundingClientRect().bottom);
     const hatch = [...svg.querySelectorAll('rect[fill^="url(#gap"]')];
-    return [...svg.querySelectorAll("text")].filter(t => /^[A-Z]+ \\d\\.\\d\\d$/.test(
+    return [...svg.querySelectorAll("text")].filter(t => /^[A-Z]+ (?:[<>] )?\\d\\.\\d\\d$/.test(
       t.textContent)).map(t => ({
         top: t.getBoundingClientRect().top, heads: Math.max(...heads),
         clipped: !!t.closest("[clip-path]"),
         underHatch: hatch.some(h => h.compareDocumentPosition(t) &
           Node.DOCUMENT_POSITION_PRECEDING)}));
   });
+  out.markers = [...document.querySelectorAll(".well svg")].map(svg => ({
+    right: svg.getBoundingClientRect().right,
+    picks: [...svg.querySelectorAll('[data-track="surf"] path')].map(p => {
+      const r = p.getBoundingClientRect(); return {left: r.left, right: r.right}; })}));
+  out.labelTexts = [...document.querySelectorAll(".pick-labels text")].map(t => t.textContent);
+  out.firstLeft = document.getElementById("wells").firstElementChild
+    .getBoundingClientRect().left;
   document.getElementById("hang").click();
   out.firstBedsAfter = firstBeds();
   const pre = document.createElement("pre");
@@ -392,7 +449,8 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     assert page_errors(log) == []
     found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
     assert found, "the layout probe did not run"
-    out = json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    dumped = found.group(1).replace("&quot;", '"').replace("&gt;", ">").replace("&lt;", "<")
+    out = json.loads(dumped.replace("&amp;", "&"))
     legend = out["legend"]
     for well in out["wells"]:  # four wells do not fit beside the legend: it goes above them
         apart = (
@@ -407,7 +465,31 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     for label in labels:  # under the tracks' heads, over the gaps' hatching, never clipped
         assert label["top"] >= label["heads"] - 0.5
         assert not label["clipped"] and not label["underHatch"]
+    # every pick marker whole inside its well, the one at probability 1 too (the surface
+    # panel's axis ends at 1.1, as in the strip logs), labelled as the strip logs label it
+    for well in out["markers"]:
+        assert well["picks"]
+        for pick in well["picks"]:
+            assert pick["left"] < pick["right"] <= well["right"]
+    assert "MFS > 0.99" in out["labelTexts"]
+    assert out["firstLeft"] >= 8  # the first core's header clear of the page's edge
     # cores 300 m apart hang on their tops: first beds level; on one axis they are not
     assert out["hang"] is True
     assert max(out["firstBeds"]) - min(out["firstBeds"]) < 1.0
     assert out["firstBedsAfter"][1] > out["firstBedsAfter"][0] + 50
+
+
+def test_view_opens_on_a_median_core_where_core_lengths_differ_much():
+    from faciesseq.report.view import opening_window
+
+    # the demo's cores: all from 0 m, 26-174 m long; on one 174 m axis the short ones
+    # filled a sixth of their columns: the view opens on the median core's length
+    demo = [(0.0, 30.2), (0.0, 31.5), (0.0, 49.6), (0.0, 128.0), (0.0, 174.4)]
+    assert opening_window(demo, hang=False) == (0.0, 49.6)
+    # cores of like length hung on their tops (a minimal table's 67-95 m): all of them
+    hung = [(420.6, 490.7), (2552.8, 2647.7), (2098.8, 2165.9)]
+    assert opening_window(hung, hang=True) == pytest.approx((0.0, 94.9))
+    # on one axis the window starts at the shallowest top
+    assert opening_window([(80.0, 153.0), (95.0, 160.0)], hang=False) == (80.0, 160.0)
+    data = view_data(_apart(), load_scheme(SHOREFACE), default_tract_model())
+    assert data["hang"] and data["window"][0] == 0.0

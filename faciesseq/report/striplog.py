@@ -46,10 +46,12 @@ from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = [
     "GRAIN_CLASSES",
+    "SURFACE_AXIS_END",
     "UNCHECKED_NOTE",
     "UNLABELLED_NOTE",
     "bed_widths",
     "facies_name",
+    "pick_label",
     "plain",
     "strip_log",
     "strip_logs",
@@ -62,8 +64,9 @@ UNCHECKED_NOTE = "probabilities not checked"
 #: Printed under the probability track of a core decoded by a fit without labels.
 UNLABELLED_NOTE = "tract names from priors (no labels)"
 _GAP = "#f0f0f0"
-#: Right end of the surface panel: a pick at probability 1 keeps its marker inside.
-_SURFACE_XMAX = 1.1
+#: Right end of the surface panel (strip log and view): a pick at probability 1
+#: keeps its marker inside.
+SURFACE_AXIS_END = 1.1
 
 
 def plain(text: object) -> str:
@@ -324,7 +327,7 @@ def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[fl
     _surface_curves(ax, interp, step)
     pick_lines = _surface_picks(ax, interp)
     # room right of 1 for a pick marker and its interval's caps at probability 1
-    ax.set_xlim(0, _SURFACE_XMAX)
+    ax.set_xlim(0, SURFACE_AXIS_END)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("surface probability")
     ax.set_xlabel(f"per {step:.3g} {interp.units} cell")
@@ -360,6 +363,13 @@ def _surface_picks(ax, interp: CoreInterpretation) -> list[tuple[float, str]]:
     return pick_lines
 
 
+def pick_label(surface: str, probability: float) -> str:
+    """How a pick is labelled in a strip log and in the view: ``<surface> <probability>``,
+    the probability as :func:`~faciesseq.report.document.format_probability` shows it
+    (``SB 0.93``, ``SB > 0.99``)."""
+    return f"{surface} {format_probability(probability)}"
+
+
 def _draw_pick(ax, pick, label_at: float, colour: str) -> None:
     """One pick: its interval as a bar at its probability, a marker at its depth and
     ``<surface> <probability>`` written at depth ``label_at``."""
@@ -373,7 +383,7 @@ def _draw_pick(ax, pick, label_at: float, colour: str) -> None:
     ax.text(
         prob + 0.05 if right else prob - 0.05,
         label_at,
-        f"{pick.surface} {format_probability(prob)}",
+        pick_label(str(pick.surface), prob),
         va="bottom",
         ha="left" if right else "right",
         fontsize=6,

@@ -27,7 +27,14 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.interpretation import CoreInterpretation, Interpretation
-from faciesseq.report.striplog import GRAIN_CLASSES, _gaps, bed_widths, facies_name
+from faciesseq.report.striplog import (
+    GRAIN_CLASSES,
+    SURFACE_AXIS_END,
+    _gaps,
+    bed_widths,
+    facies_name,
+    pick_label,
+)
 from faciesseq.report.style import facies_colours, surface_colour, tract_colour
 from faciesseq.scheme import FaciesScheme, TractModel
 
@@ -83,6 +90,7 @@ def _core_data(core: CoreInterpretation, scheme: FaciesScheme | None) -> dict[st
                 "name": str(getattr(p, "name", "")),
                 "depth": _number(depth),
                 "probability": _number(p.probability, 4),
+                "label": pick_label(str(p.surface), float(p.probability)),
                 "depth_top": _number(getattr(p, "depth_top", depth)),
                 "depth_base": _number(getattr(p, "depth_base", depth)),
             }
@@ -148,6 +156,34 @@ def hang_by_default(ranges: list[tuple[float, float]]) -> bool:
     return max(b - a for a, b in ranges) < HANG_BELOW * union
 
 
+#: The page opens on a depth window as long as the median core where the depth axis
+#: would be more than this many times longer (a 30 m core on a 174 m axis fills a
+#: sixth of its column); the reader scrolls down or shows all.
+OPEN_ON_MEDIAN_ABOVE = 2.0
+
+
+def opening_window(ranges: list[tuple[float, float]], hang: bool) -> tuple[float, float]:
+    """The depth window the view opens on, ``(top, base)`` in the depths of its axis
+    (below each core's top where the cores hang): the whole axis, or where the axis is
+    more than :data:`OPEN_ON_MEDIAN_ABOVE` times the median core's length, its first
+    median core's length, so that most cores fill their columns at one depth scale.
+
+    >>> opening_window([(0.0, 30.0), (0.0, 34.0), (0.0, 174.0)], hang=True)
+    (0.0, 34.0)
+    >>> opening_window([(420.0, 490.0), (2550.0, 2645.0)], hang=True)
+    (0.0, 95.0)
+    """
+    ranges = [(a, b) for a, b in ranges if math.isfinite(a) and math.isfinite(b) and b > a]
+    if not ranges:
+        return (0.0, 1.0)
+    top = 0.0 if hang else min(a for a, _ in ranges)
+    base = max(b - a for a, b in ranges) if hang else max(b for _, b in ranges)
+    median = float(np.median([b - a for a, b in ranges]))
+    if base - top > OPEN_ON_MEDIAN_ABOVE * median:
+        base = top + median
+    return (top, base)
+
+
 def view_data(
     interpretation: Interpretation,
     scheme: FaciesScheme | None,
@@ -178,9 +214,13 @@ def view_data(
         ``facies``, ``width`` 0-1, ``tract``, ``p`` one list per tract,
         ``top_contact`` / ``base_contact`` indices into ``contacts``),
         ``contacts`` (``depth``, ``p`` one list per surface), ``gaps`` and
-        ``picks``; ``hang``: whether the page opens with every core hung on its
-        own top (:func:`hang_by_default`; the reader switches between that and
-        one absolute depth axis). Non-finite numbers are null.
+        ``picks`` (with ``label``, as the strip logs write it: ``SB > 0.99``);
+        ``surface_axis_end``, the right end of the surface panel's probability
+        axis (past 1, so that a pick at probability 1 shows whole); ``hang``:
+        whether the page opens with every core hung on its own top
+        (:func:`hang_by_default`; the reader switches between that and one
+        absolute depth axis); ``window``: the depth window ``[top, base]`` it opens
+        on (:func:`opening_window`). Non-finite numbers are null.
     """
     tracts = tuple(interpretation.tracts)
     surfaces = tuple(interpretation.surfaces)
@@ -195,6 +235,7 @@ def view_data(
         for core in interpretation
         if len(core.beds)
     ]
+    hang = hang_by_default(ranges)
     return {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
@@ -202,6 +243,7 @@ def view_data(
         "note": interpretation.probabilities_note,
         "units": units[0] if len(units) == 1 else ", ".join(units),
         "grain_classes": list(GRAIN_CLASSES),
+        "surface_axis_end": SURFACE_AXIS_END,
         "tracts": [
             {"code": t, "name": tract_names.get(t, ""), "colour": tract_colour(t, tracts)}
             for t in tracts
@@ -212,7 +254,8 @@ def view_data(
         ],
         "facies": _facies_legend(interpretation, scheme),
         "cores": cores,
-        "hang": hang_by_default(ranges),
+        "hang": hang,
+        "window": list(opening_window(ranges, hang)),
     }
 
 
@@ -350,7 +393,8 @@ h1 { font-size: 1.2rem; margin: 0 0 0.25rem; }
 #controls label { margin-right: 0.5rem; cursor: pointer; user-select: none; }
 .hint { color: var(--muted); font-size: 0.85rem; }
 main { display: flex; align-items: flex-start; }
-#wells { flex: 1 1 auto; min-width: 0; display: flex; overflow-x: auto; padding: 0.3rem 0 0.5rem; }
+#wells { flex: 1 1 auto; min-width: 0; display: flex; overflow-x: auto;
+  padding: 0.3rem 0 0.5rem 0.8rem; }
 #legend { flex: 0 0 16rem; padding: 0.5rem 0.8rem; border-left: 1px solid var(--rule);
   font-size: 12px; max-height: calc(100vh - 7rem); overflow-y: auto; }
 #legend h2 { font-size: 0.85rem; margin: 0.6rem 0 0.25rem; }
@@ -422,7 +466,9 @@ _JS = r"""
     return [0, Math.max(1e-9, ...RANGES.map(r => r[1] - r[0]))];
   }
   let FULL = fullRange();
-  const view = {top: FULL[0], base: FULL[1]};
+  // the opening window: most cores fill their columns (DATA.window); "all" shows all
+  const view = DATA.window ? {top: Math.max(FULL[0], DATA.window[0]),
+    base: Math.min(FULL[1], DATA.window[1])} : {top: FULL[0], base: FULL[1]};
   let shift = 0;  // depth of the top of the core being drawn where cores hang, else 0
   const WELL_AXIS = 46;  // a hung core's own depth scale
   let plotH = 500;
@@ -661,6 +707,7 @@ _JS = r"""
           DATA.checked ? "small" : "warn");
         el("rect", {x: x, y: HEAD, width: t.width, height: plotH, fill: "#fcfcfc",
           stroke: "#888", "stroke-width": 0.5}, g);
+        const sx = t.width / DATA.surface_axis_end;  // pixels per unit of probability
         const cd = core.contacts.depth;
         for (let k = 0; k < cd.length; k++) {
           if (cd[k] < view.top + shift || cd[k] > view.base + shift) continue;
@@ -668,19 +715,19 @@ _JS = r"""
           let left = 0;
           surfaces.forEach((s, j) => {
             const p = core.contacts.p[j][k] || 0;
-            if (p > 0.001) el("line", {x1: x + left * t.width, x2: x + (left + p) * t.width,
+            if (p > 0.001) el("line", {x1: x + left * sx, x2: x + (left + p) * sx,
               y1: py, y2: py, stroke: s.colour, "stroke-width": 2.5, "data-contact": k}, g);
             left += p;
           });
         }
-        [0, 0.5, 1].forEach(v => text(svg, x + v * t.width, HEAD + plotH + 12, String(v),
-          "small", v === 0 ? "start" : v === 1 ? "end" : "middle"));
+        [0, 0.5, 1].forEach(v => text(svg, x + v * sx, HEAD + plotH + 12, String(v),
+          "small", v === 0 ? "start" : "middle"));
         const picks = core.picks.slice().sort((a, b) => a.depth - b.depth);
         let lastLabel = -Infinity;
         picks.forEach(p => {
           const s = surfaces.find(q => q.code === p.surface);
           const colour = s ? s.colour : "#555";
-          const px = x + p.probability * t.width, py = y(p.depth);
+          const px = x + p.probability * sx, py = y(p.depth);
           el("line", {x1: px, x2: px, y1: y(p.depth_top), y2: y(p.depth_base),
             stroke: colour, "stroke-width": 1.2}, g);
           el("path", {d: "M" + px + "," + py + "l8,-5v10z", fill: colour, stroke: "#000",
@@ -693,8 +740,8 @@ _JS = r"""
           if (ly > py + 24 || ly > HEAD + plotH - 2) return;
           lastLabel = ly;
           const right = p.probability <= 0.55;
-          pickLabels.push([right ? px + 11 : px - 4, ly, p.surface + " " +
-            p.probability.toFixed(2), right ? "start" : "end", colour]);
+          pickLabels.push([right ? px + 11 : px - 4, ly, p.label, right ? "start" : "end",
+            colour]);
         });
       }
       x += t.width + GAP;
@@ -794,7 +841,7 @@ _JS = r"""
     row(t, ["base", fmt(b.base[i], 3) + " " + u]);
     row(t, ["thickness", fmt(b.base[i] - b.top[i], 3) + " " + u]);
     const f = faciesByCode[b.facies[i]];
-    row(t, ["facies", b.facies[i] + (f ? " \u2013 " + f.name : "")]);
+    row(t, ["facies", b.facies[i] + (f && f.name ? " \u2013 " + f.name : "")]);
     const tr = tracts.find(q => q.code === b.tract[i]);
     row(t, ["tract", b.tract[i] + (tr && tr.name ? " \u2013 " + tr.name : "")]);
     const sub = document.createElement("div"); sub.className = "sub";
