@@ -330,7 +330,7 @@ def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[fl
     ax.set_xlim(0, SURFACE_AXIS_END)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("surface probability")
-    ax.set_xlabel(f"per {step:.3g} {interp.units} cell")
+    ax.set_xlabel(f"probability within each\n{step:.3g} {interp.units} of depth")
     return pick_lines
 
 
