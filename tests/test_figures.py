@@ -1,6 +1,7 @@
 """Appendix figures drawn from invented numbers: legends, labels, values, files."""
 
 from itertools import pairwise
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -12,6 +13,8 @@ from matplotlib.legend import Legend
 from faciesseq.report import figures
 from faciesseq.report.style import save_figure
 from faciesseq.scheme import default_tract_model, load_scheme
+
+DATA = Path(__file__).resolve().parent / "data"
 
 
 @pytest.fixture(scope="module")
@@ -418,4 +421,24 @@ def test_difference_labels_stand_off_the_circles_and_read_above_the_threshold():
             nearest = np.clip(centre, [box.x0, box.y0], [box.x1, box.y1])
             assert np.hypot(*(nearest - centre)) >= ring.width / 2, text.get_text()
     assert figures.difference_label(0.0504, 0.05) == "0.0504"
+
+
+def test_no_difference_label_covers_a_circle_on_a_table_where_one_did():
+    """The table of tests/data/figures (README there): a "0.05" label sat on SAB."""
+    from matplotlib.patches import Circle
+
+    table = pd.read_csv(DATA / "figures" / "ramp-difference.csv", index_col=0)
+    order = ["LSS", "PAL", "SAB", "TFL", "LAG", "SHL", "IRP", "MRT", "ORM"]
+    fig = figures.facies_relationship_diagram(table, None, order=order)
+    fig.draw_without_rendering()
+    ax = fig.axes[0]
+    labels = [t for t in ax.texts if t.get_text().replace(".", "").isdigit()]
+    assert len(labels) > 10
+    rings = [c.get_window_extent() for c in ax.patches if isinstance(c, Circle)]
+    for text in labels:
+        box = text.get_window_extent()
+        for ring in rings:
+            centre = np.array([(ring.x0 + ring.x1) / 2, (ring.y0 + ring.y1) / 2])
+            nearest = np.clip(centre, [box.x0, box.y0], [box.x1, box.y1])
+            assert np.hypot(*(nearest - centre)) >= ring.width / 2, text.get_text()
     assert figures.difference_label(0.26, 0.05) == "0.26"
