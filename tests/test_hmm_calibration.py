@@ -86,6 +86,24 @@ def test_held_out_scores_equal_scikit_learn_brier_and_log_loss():
         log_loss(labels[rows], gamma[rows], labels=range(K)), rel=1e-9
     )
     assert got["accuracy"] == pytest.approx(np.mean(gamma[rows].argmax(axis=1) == labels[rows]))
+    # the yardstick: scikit-learn's Brier score of an even guess among the K tracts
+    even = np.full((int(rows.sum()), K), 1.0 / K)
+    assert got["even_brier"] == pytest.approx(
+        brier_score_loss(labels[rows], even, labels=range(K), scale_by_half=False), rel=1e-12
+    )
+
+
+def test_the_calibration_sentence_gives_an_even_guess_beside_the_brier_score():
+    """A Brier score of 0.69 read as a success without a yardstick (a new-user audit of
+    2026-12-05); a record made before the yardstick was kept says nothing of it."""
+    scores = {"brier": 0.92, "log_loss": 3.0, "confidence": 0.82, "accuracy": 0.43}
+    after = {**scores, "brier": 0.69, "confidence": 0.49, "even_brier": 0.75}
+    cal = {"temperature": 4.8, "n_beds": 100, "folds": 3, "cores": 3}
+    cal |= {"before": scores, "after": after}
+    text = describe_calibration(4.8, cal)
+    assert "fell from 0.920 to 0.690 (an even guess among the 4 tracts scores 0.75)" in text
+    older = {**cal, "after": {**scores, "brier": 0.69}}
+    assert "even guess" not in describe_calibration(4.8, older)
 
 
 def test_fit_temperature_finds_the_temperature_that_made_overconfident_posteriors():

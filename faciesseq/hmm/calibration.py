@@ -117,8 +117,10 @@ def _tract_posteriors(fold: HeldOut, temperature: float) -> np.ndarray:
 def held_out_scores(folds: Sequence[HeldOut], temperature: float) -> dict:
     """Scores of the tempered posteriors over the labelled beds of the folds:
     ``brier`` (mean ``sum_k (p_k - y_k)^2``), ``log_loss`` (mean ``-log p_y``),
-    ``confidence`` (mean probability of the most probable tract) and
-    ``accuracy`` (fraction of beds whose most probable tract is the label)."""
+    ``confidence`` (mean probability of the most probable tract),
+    ``accuracy`` (fraction of beds whose most probable tract is the label) and
+    ``even_brier``, the Brier score of an even guess among the K tracts, ``1 - 1/K``
+    (a yardstick for the reader: ``(1 - 1/K)^2 + (K - 1)/K^2``)."""
     probs, labels = [], []
     for fold in folds:
         rows = np.flatnonzero(fold.labels >= 0)
@@ -135,6 +137,7 @@ def held_out_scores(folds: Sequence[HeldOut], temperature: float) -> dict:
         "log_loss": float(-np.mean(np.log(np.clip(p[np.arange(len(y)), y], 1e-12, None)))),
         "confidence": float(np.mean(p.max(axis=1))),
         "accuracy": float(np.mean(p.argmax(axis=1) == y)),
+        "even_brier": 1.0 - 1.0 / p.shape[1],
     }
 
 
@@ -297,8 +300,8 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
                 else ""
             )
             + f", {_chosen_by(cal)} {cal['n_beds']} held-out beds the Brier score fell from "
-            f"{b['brier']:.3f} to {a['brier']:.3f} and the mean probability of the most "
-            f"probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
+            f"{b['brier']:.3f} to {a['brier']:.3f}{_yardstick(a)} and the mean probability "
+            f"of the most probable tract from {b['confidence']:.2f} to {a['confidence']:.2f}, for "
             f"{a['accuracy']:.2f} of the beds right; the tract column is not changed by it"
             + (
                 " (checked against the model's own simulations, not against a geologist's reading)."
@@ -311,6 +314,15 @@ def describe_calibration(temperature: float, calibration: dict | None) -> str:
             f"Tract probabilities at a temperature of {temperature:.2f} (the model file "
             "does not say how it was chosen); the tract column is not changed by it."
         )
+
+
+def _yardstick(scores: dict) -> str:
+    """The Brier score of an even guess beside the calibrated one, where the record has
+    it (model files from 2026-12-05 on): 0.69 reads as a success without it."""
+    even = scores.get("even_brier")
+    if not isinstance(even, int | float) or not 0 < even < 1:
+        return ""
+    return f" (an even guess among the {round(1 / (1 - even))} tracts scores {even:.2f})"
 
 
 def probability_note(temperature: float, calibration: object) -> str:
