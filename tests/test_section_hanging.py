@@ -53,13 +53,13 @@ def test_an_end_well_without_the_datum_hangs_through_a_surface_it_shares():
         {
             "A": (420.0, {"SB": 5.0, "MRS": 9.0, "MFS": 14.0}),
             "B": (2553.0, {"SB": 4.0, "MRS": 8.0, "MFS": 12.0}),
-            "C": (620.0, {"SB": 5.0, "MRS": 10.0}),
+            "C": (620.0, {"SB": 5.0, "MRS": 9.0}),
         }
     )
     hanging = hang_section(corr, "dip", "MFS", _beds(extents))
     # MRS is tied closest to the MFS in B: 4 m above it, so C's MFS lies 4 m below its MRS
     assert hanging.through == (("C", "MRS-1", "B"),)
-    assert hanging.shift["C"] == 620.0 + 10.0 + 4.0
+    assert hanging.shift["C"] == 620.0 + 9.0 + 4.0
     drawn = _drawn(extents, hanging.shift)
     top = min(drawn["A"][0], drawn["B"][0])
     base = max(drawn["A"][1], drawn["B"][1])
@@ -72,22 +72,41 @@ def test_an_end_well_without_the_datum_hangs_through_a_surface_it_shares():
 
 
 def test_wells_without_the_datum_hang_in_a_chain_out_from_the_wells_that_have_it():
-    # D shares only its SB with C, and C lacks the MFS too: D hangs through C
+    # D shares only its SB with C, a doubtful tie, and C lacks the MFS too: D hangs
+    # through C, and the note says the tie is doubtful
     corr, _ = _section(
         {
             "A": (420.0, {"SB": 5.0, "MRS": 9.0, "MFS": 14.0}),
             "B": (2553.0, {"SB": 4.0, "MRS": 8.0, "MFS": 12.0}),
-            "C": (620.0, {"SB": 5.0, "MRS": 10.0}),
+            "C": (620.0, {"SB": 5.0, "MRS": 9.0}),
             "D": (1800.0, {"SB": 3.0}),
         }
     )
     hanging = hang_section(corr, "dip", "MFS")
     assert hanging.through == (("C", "MRS-1", "B"), ("D", "SB-1", "C"))
-    # C's MFS lies at 634 m, 9 m below its SB (625 m); D's 9 m below its SB (1803 m)
-    assert hanging.shift["D"] == 1803.0 + 9.0
+    # C's MFS lies at 633 m, 8 m below its SB (625 m); D's 8 m below its SB (1803 m)
+    assert hanging.shift["D"] == 1803.0 + 8.0
+    assert hanging.doubtful == ("D",)
     assert hanging.notes == (
-        "no MFS-1 in C, D: hung through MRS-1 tied to B (C), SB-1 tied to C (D)",
+        "no MFS-1 in C, D: hung through MRS-1 tied to B (C), SB-1 tied to C, a doubtful tie (D)",
     )
+
+
+def test_a_confident_tie_is_taken_before_a_doubtful_one_closer_to_the_datum():
+    # C's MRS sits 5 m above its SB where B's sits 4 m: their MRS tie is doubtful, the SB
+    # tie confident; C hangs through the SB (8 m above B's MFS), not the closer MRS
+    corr, _ = _section(
+        {
+            "A": (420.0, {"SB": 5.0, "MRS": 9.0, "MFS": 14.0}),
+            "B": (2553.0, {"SB": 4.0, "MRS": 8.0, "MFS": 12.0}),
+            "C": (620.0, {"SB": 5.0, "MRS": 10.0}),
+        }
+    )
+    doubtful = corr.ties.set_index(["core_left", "core_right", "surface_id"])["doubtful"]
+    assert doubtful[("B", "C", "dip:MRS-1")] and not doubtful[("B", "C", "dip:SB-1")]
+    hanging = hang_section(corr, "dip", "MFS")
+    assert hanging.through == (("C", "SB-1", "B"),) and hanging.doubtful == ()
+    assert hanging.shift["C"] == 620.0 + 5.0 + 8.0
 
 
 def test_a_well_between_two_hung_wells_hangs_through_the_nearer():

@@ -147,7 +147,8 @@ class Hanging:
     so each hangs on its own core top, drawn at the datum line; and ``through`` the
     wells the surface misses that are hung through another tied surface,
     ``(well, surface, neighbour)``: the datum lies as far from that surface in the
-    well as it does in the neighbour.
+    well as it does in the neighbour; ``doubtful`` those of them hung through a
+    doubtful tie (no confident one joins them to the neighbour).
     """
 
     shift: dict[str, float]
@@ -155,6 +156,7 @@ class Hanging:
     surface: str = ""
     unhung: tuple[str, ...] = ()
     through: tuple[tuple[str, str, str], ...] = ()
+    doubtful: tuple[str, ...] = ()
 
     @property
     def through_note(self) -> str:
@@ -163,10 +165,15 @@ class Hanging:
         if not self.through:
             return ""
         wells = ", ".join(well for well, _, _ in self.through)
+
+        def tie(well: str, sid: str, neighbour: str) -> str:
+            doubt = ", a doubtful tie" if well in self.doubtful else ""
+            return f"{sid} tied to {neighbour}{doubt}"
+
         if len(self.through) == 1:
-            ((_, sid, neighbour),) = self.through
-            return f"no {self.surface} in {wells}: hung through {sid} tied to {neighbour}"
-        ways = ", ".join(f"{sid} tied to {n} ({well})" for well, sid, n in self.through)
+            ((well, sid, neighbour),) = self.through
+            return f"no {self.surface} in {wells}: hung through {tie(well, sid, neighbour)}"
+        ways = ", ".join(f"{tie(well, sid, n)} ({well})" for well, sid, n in self.through)
         return f"no {self.surface} in {wells}: hung through {ways}"
 
     @property
@@ -245,7 +252,7 @@ def hang_section(
     shift = {str(c): float(d) for c, d in zip(chosen["core"], chosen["depth"])}
     pos = dict(zip(wells["core"], wells["position"]))
     ties = correlation.ties[correlation.ties["section"] == section]
-    through = _hang_through_ties(ties, names, pos, shift)
+    through, doubtful = _hang_through_ties(ties, names, pos, shift)
     tops = {} if tracts is None else tracts.groupby("core")["top"].min().to_dict()
     unhung = [c for c in names if c not in shift]
     for c in unhung:
@@ -256,30 +263,39 @@ def hang_section(
         surface,
         tuple(unhung),
         tuple(through),
+        tuple(doubtful),
     )
 
 
 def _hang_through_ties(
     ties: pd.DataFrame, names: list[str], position: dict, shift: dict[str, float]
-) -> list[tuple[str, str, str]]:
+) -> tuple[list[tuple[str, str, str]], list[str]]:
     """Hang the wells the datum surface misses through their ties, in place.
 
     ``shift`` holds the datum's depth in the wells that have it. Out from them, well by
     well, a well the datum misses takes it through a tie to a hung neighbour: the
     nearest along the section (the left one where both are as near), and of the
-    surfaces the two share, the one tied closest to the datum in that neighbour; the
-    datum then lies as far above or below that tie in both wells. A core's depths are
-    its own (cores start hundreds of metres apart), so the datum is never interpolated
-    between wells. Returns ``(well, surface, neighbour)`` for each well so hung, in the
-    order hung; wells no chain of tied pairs joins to the datum are left out of ``shift``.
+    surfaces the two share, the one tied closest to the datum in that neighbour (a
+    confident tie before a doubtful one); the datum then lies as far above or below
+    that tie in both wells. A core's depths are its own (cores start hundreds of metres
+    apart), so the datum is never interpolated between wells. Returns ``(well, surface,
+    neighbour)`` for each well so hung, in the order hung, and the wells hung through a
+    doubtful tie; wells no chain of tied pairs joins to the datum are left out of
+    ``shift``.
     """
-    pairs: dict[tuple[str, str], list[tuple[float, float, str]]] = {}
+    pairs: dict[tuple[str, str], list[tuple[float, float, str, bool]]] = {}
     for t in ties.itertuples(index=False):
         sid = str(t.surface_id).split(":", 1)[-1]
         left, right = str(t.core_left), str(t.core_right)
-        pairs.setdefault((left, right), []).append((float(t.depth_left), float(t.depth_right), sid))
-        pairs.setdefault((right, left), []).append((float(t.depth_right), float(t.depth_left), sid))
+        doubt = bool(getattr(t, "doubtful", False))
+        pairs.setdefault((left, right), []).append(
+            (float(t.depth_left), float(t.depth_right), sid, doubt)
+        )
+        pairs.setdefault((right, left), []).append(
+            (float(t.depth_right), float(t.depth_left), sid, doubt)
+        )
     through: list[tuple[str, str, str]] = []
+    doubtful: list[str] = []
     while True:
         # each round hangs every well next to one hung before it, so that a well between
         # two hung ones takes the nearer whichever side was hung first
@@ -293,15 +309,17 @@ def _hang_through_ties(
             if not beside:
                 continue
             neighbour = min(beside, key=lambda n: abs(position[n] - position[well]))
-            depth_here, depth_there, sid = min(
-                pairs[(well, neighbour)], key=lambda tie: abs(tie[1] - hung[neighbour])
+            depth_here, depth_there, sid, doubt = min(
+                pairs[(well, neighbour)],
+                key=lambda tie: (tie[3], abs(tie[1] - hung[neighbour])),
             )
-            found.append((well, depth_here + hung[neighbour] - depth_there, sid, neighbour))
+            found.append((well, depth_here + hung[neighbour] - depth_there, sid, neighbour, doubt))
         if not found:
-            return through
-        for well, depth, sid, neighbour in found:
+            return through, doubtful
+        for well, depth, sid, neighbour, doubt in found:
             shift[well] = depth
             through.append((well, sid, neighbour))
+            doubtful += [well] if doubt else []
 
 
 def _hanging_id(correlation, section: str, datum: str, option: str) -> tuple[str, str | None]:
