@@ -237,13 +237,14 @@ def _facies_track(ax, beds: pd.DataFrame, scheme: FaciesScheme, units: str) -> N
     top, base = float(beds["top"].min()), float(beds["base"].max())
     span = max(base - top, 1e-9)
     boxes = _facies_boxes(beds, widths)
+    colours = {c: _facies_colour(scheme, c) for c in {c for _, _, c, _ in boxes}}
     _add_boxes(
         ax,
         [t for t, _, _, _ in boxes],
         [b for _, b, _, _ in boxes],
         0.0,
         [w for _, _, _, w in boxes],
-        [_facies_colour(scheme, c) for _, _, c, _ in boxes],
+        [colours[c] for _, _, c, _ in boxes],
         edgecolors="#333333",
         linewidths=0.3,
     )
