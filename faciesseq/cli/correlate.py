@@ -129,7 +129,7 @@ def _write_view(path, corr, tracts, interp, args, wells, cores) -> None:
 def run(args: argparse.Namespace) -> int:
     from faciesseq._output import check_target, new_folder
     from faciesseq.correlation import AlignmentOptions, correlate
-    from faciesseq.correlation.wells import section_prefix
+    from faciesseq.correlation.wells import DEFAULT_SECTION, section_prefix
     from faciesseq.io.writer import FileStems
     from faciesseq.report.csvtext import MEASURES, csv_bytes
     from faciesseq.report.section import hang_section, hanging_datum, section_figure
@@ -152,7 +152,7 @@ def run(args: argparse.Namespace) -> int:
         stems = FileStems()
         for section in sorted(corr.wells["section"].unique()):
             # one section without a name in the wells table: section.png, not section-section.png
-            unnamed = section == "section" and corr.wells["section"].nunique() == 1
+            unnamed = section == DEFAULT_SECTION and corr.wells["section"].nunique() == 1
             stem = stems("section" if unnamed else f"section-{section}")
             datum, note = hanging_datum(corr, section, args.datum, option="--datum")
             if note:
