@@ -40,7 +40,9 @@ def test_text_output_has_one_line_per_test_in_reviewer_form():
     code, out, err = _run(*READ, "--max-order", "2")
     assert code == 0, err
     assert "χ²(55, N = 317) = 314.03, p = 5.8e-38" in out
-    assert "homogeneity by core (Pearson chi2)  χ²(140, N = 317) = 150.68" in out
+    # the names padded to the longest, that of Bowker's test listed last
+    assert "homogeneity by core (Pearson chi2)      χ²(140, N = 317) = 150.68" in out
+    assert "\n  symmetry of the upward counts (Bowker)  χ²(" in out
     assert "left out: Recruit F9" in out
 
 

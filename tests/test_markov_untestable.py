@@ -108,3 +108,54 @@ def test_a_table_of_several_facies_keeps_its_tests_and_verdict(tmp_path, capsys)
     assert first["dof"] == 5 and first["statistic"] > 0 and first["p_value"] < 0.05
     assert first["note"] == ""
     assert tests["statistic"].iloc[0] == pytest.approx(first["statistic"], rel=1e-5)
+
+
+@pytest.fixture
+def line_of_facies(tmp_path):
+    # four facies joined only along the line A-B-C-D (up and down it, never A-C or
+    # A-D): the joined pairs close no cycle, so Bowker's test of the transition
+    # counts has 0 degrees of freedom, while the first-order test has 5 and rejects
+    log = ["A", "B", "C", "D", "C", "B", "A", "B", "C", "B", "C", "D", "C", "B"] * 2
+    return _write(tmp_path / "line.csv", {f"C{k}": log for k in range(3)})
+
+
+def test_an_untestable_symmetry_test_leaves_the_cycle_type_not_determined(
+    tmp_path, line_of_facies, capsys
+):
+    text, document, tests = _markov(tmp_path, line_of_facies)
+    answer = text.split("Answer")[1].split("Tests")[0]
+    assert "Ordered, not random: the quasi-independence null is rejected, χ²(5" in answer
+    cycle_line = next(line for line in text.splitlines() if "cycle type:" in line)
+    assert "symmetric" not in cycle_line.replace("symmetry", "")
+    assert cycle_line.startswith("  cycle type: not determined; symmetry of the upward counts")
+    assert "not testable (0 degrees of freedom, the facies are joined only along a line" in text
+    entropy = document["entropy"]
+    assert entropy["cycle_type"] == "not determined" and entropy["cycle_direction"] == []
+    bowker = entropy["symmetry_test"]
+    assert bowker["dof"] == 0 and bowker["statistic"] is None and bowker["p_value"] is None
+    assert bowker["note"].startswith("not testable: 0 degrees of freedom")
+    # the CSV of the tests carries Bowker's test too, with no statistic and the reason
+    row = tests.set_index("name").loc["symmetry of the upward counts (Bowker)"]
+    assert row["dof"] == 0 and pd.isna(row["statistic"]) and pd.isna(row["p_value"])
+    assert row["note"].startswith("not testable: 0 degrees of freedom")
+
+
+def test_the_appendix_says_the_cycle_type_is_not_determined_where_bowker_cannot_run(
+    line_of_facies,
+):
+    from faciesseq.report.document import Document, Paragraph, TableBlock
+    from faciesseq.report.markov_section import markov_section
+    from faciesseq.scheme import Facies, FaciesScheme
+
+    report = fs.analyse(fs.read_cores(line_of_facies).require_valid())
+    scheme = FaciesScheme(tuple(Facies(c, c, float(k)) for k, c in enumerate("ABCD")))
+    document = Document("appendix", sections=[markov_section(report, scheme)])
+    text = " ".join(b.text for b in document.blocks() if isinstance(b, Paragraph))
+    assert "Cycle type: not determined (symmetry of the upward counts, Bowker 1948: not " in text
+    assert "Cycle type: symmetric" not in text
+    table = next(
+        b for b in document.blocks() if isinstance(b, TableBlock) and b.key == "markov_tests"
+    )
+    rows = {cells[0]: cells for cells, _ in table.rows()}
+    said = table.header().index("reported as")
+    assert rows["symmetry of the upward counts (Bowker)"][said].startswith("not testable")

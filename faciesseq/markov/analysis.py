@@ -148,6 +148,7 @@ class MarkovReport:
         out += list(self.surrogate_tests)
         if self.homogeneity is not None:
             out += [self.homogeneity.pearson, self.homogeneity.g2]
+        out.append(self.cyclicity.symmetry)  # Bowker's, which decides the cycle type
         return out
 
     def to_dict(self) -> dict:

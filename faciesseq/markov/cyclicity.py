@@ -10,7 +10,10 @@ the share of transitions from (resp. into) each facies.
 
 The *cycle type*: ``not determined`` when the first-order test cannot be run (no
 degrees of freedom, as for two facies in an embedded chain, or no transitions:
-its p-value is NaN); ``random`` when the first-order test is not significant or
+its p-value is NaN), or when it rejects but the symmetry test below cannot be run
+(0 degrees of freedom: the facies are joined only along a line, whose pairs close
+no cycle, so there is nothing to tell a symmetric cycle from an asymmetric one by);
+``random`` when the first-order test is not significant or
 both normalised entropies exceed ``random_level`` (the project's reading of
 Hattori's diagram; thresholds our own). Otherwise the cycle is judged by the
 symmetry of the upward count matrix, not by the whole-chain entropies: for a
@@ -41,7 +44,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from faciesseq.markov.contingency import TestResult, _chi2_sf
+from faciesseq.markov.contingency import NOT_TESTABLE, TestResult, _chi2_sf
 from faciesseq.markov.counts import transition_probabilities
 
 __all__ = ["CyclicityResult", "cyclicity", "entropies", "preferred_path", "symmetry_test"]
@@ -51,6 +54,10 @@ NOT_DETERMINED = "not determined"
 
 #: The name of the symmetry test in reports.
 SYMMETRY_TEST = "symmetry of the upward counts (Bowker)"
+
+#: Why the symmetry test of transition counts has no degrees of freedom where pairs
+#: of facies are joined: the joined pairs close no cycle.
+LINE_ONLY = "0 degrees of freedom, the facies are joined only along a line, which closes no cycle"
 
 
 @dataclass(frozen=True)
@@ -155,7 +162,8 @@ def symmetry_test(counts: np.ndarray, *, chain: bool = True) -> TestResult:
     cycle rank, pairs − facies + connected parts. Of a reversible 5-facies chain
     (``tests/test_markov_cyclicity.py``) Bowker's 10 dof rejected 0.5 % at 0.05,
     the cycle rank's 6 about 5 %. Two facies, or facies joined only along one line,
-    leave no cycle: 0 dof and a p-value of NaN (such a chain cannot circulate).
+    leave no cycle: 0 dof and a p-value of NaN, a test that cannot be run
+    (``TestResult.testable`` false; its note says why).
 
     Returns
     -------
@@ -173,6 +181,8 @@ def symmetry_test(counts: np.ndarray, *, chain: bool = True) -> TestResult:
         facies = np.unique(np.concatenate([upper[0][joined], upper[1][joined]]))
         dof = pairs - facies.size + _connected_parts(upper[0][joined], upper[1][joined])
         note = f"dof: cycle rank of the joined pairs (Bowker's: {pairs})"
+        if dof <= 0 and pairs > 0:
+            note = f"{NOT_TESTABLE}: {LINE_ONLY}"
     else:
         dof, note = pairs, ""
     return TestResult(
@@ -287,7 +297,9 @@ def cyclicity(
         kind = NOT_DETERMINED
     elif not (first_order_p < alpha) or min(rp, rq) > random_level:
         kind = "random"
-    elif symmetry.p_value < alpha:  # NaN (no cycle among the joined pairs): symmetric
+    elif not symmetry.testable:  # no cycle among the joined pairs: no conclusion
+        kind = NOT_DETERMINED
+    elif symmetry.p_value < alpha:
         kind = "asymmetric"
     else:
         kind = "symmetric"
