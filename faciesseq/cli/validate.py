@@ -153,11 +153,14 @@ def _clean(value):
 def _write(result, out: Path) -> None:
     """The tables and ``validation.json`` into a new folder, swapped in for ``out``."""
     from faciesseq._output import new_folder
+    from faciesseq.report.csvtext import MEASURES, csv_bytes
 
     with new_folder(out) as temp:
         for name, frame in result.to_frames().items():
-            index = name.startswith("confusion")
-            frame.to_csv(temp / f"{name}.csv", index=index, float_format="%.6g")
+            # the beds' depths exact, as decode writes them; statistics (scores,
+            # probabilities, errors) to 6 significant digits
+            table = frame.reset_index() if name.startswith("confusion") else frame
+            (temp / f"{name}.csv").write_bytes(csv_bytes(table, measures=MEASURES))
         (temp / "validation.json").write_text(
             json.dumps(_clean(result.to_dict()), indent=1, allow_nan=False) + "\n"
         )
