@@ -210,15 +210,8 @@ def _nearest(point, points: dict):
     return min(points, key=lambda k: np.hypot(*(np.subtract(points[k], point))))
 
 
-def test_difference_labels_sit_on_the_arrow_of_their_transition():
-    # the label of coastal plain -> offshore mudstone (0.62) was drawn on the arrow
-    # upper shoreface -> foreshore: labels were placed off the chord by more than
-    # the arc bows, so on crowded diagrams they landed on a neighbouring arrow
-    order = _FIVE  # the order that put labels on the wrong arrows
-    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None, order=order)
-    ax = fig.axes[0]
-    nodes = _nodes(ax)
-    assert set(nodes) == set(_FIVE)
+def _arcs(ax, nodes: dict) -> list[tuple[tuple[str, str], np.ndarray]]:
+    """Each arrow of the diagram: its (lower, upper) facies and 101 points along it."""
     arrows = []
     for patch in ax.patches:
         if type(patch).__name__ != "FancyArrowPatch":
@@ -229,6 +222,19 @@ def test_difference_labels_sit_on_the_arrow_of_their_transition():
         t = np.linspace(0, 1, 101)
         points = np.vstack([bezier(t) for bezier, _ in curve.iter_bezier()])
         arrows.append(((lower, upper), points))
+    return arrows
+
+
+def test_difference_labels_sit_on_the_arrow_of_their_transition():
+    # the label of coastal plain -> offshore mudstone (0.62) was drawn on the arrow
+    # upper shoreface -> foreshore: labels were placed off the chord by more than
+    # the arc bows, so on crowded diagrams they landed on a neighbouring arrow
+    order = _FIVE  # the order that put labels on the wrong arrows
+    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None, order=order)
+    ax = fig.axes[0]
+    nodes = _nodes(ax)
+    assert set(nodes) == set(_FIVE)
+    arrows = _arcs(ax, nodes)
     assert len(arrows) == int((_FIVE_DIFFERENCE > 0.05).to_numpy().sum())
     labels = [t for t in ax.texts if t.get_text().replace(".", "").isdigit()]
     assert len(labels) == len(arrows)
@@ -436,3 +442,33 @@ def test_no_difference_label_covers_a_circle_on_a_table_where_one_did():
     table = pd.read_csv(DATA / "figures" / "ramp-difference.csv", index_col=0)
     order = ["LSS", "PAL", "SAB", "TFL", "LAG", "SHL", "IRP", "MRT", "ORM"]
     assert len(_difference_labels_off_the_circles(table, order)) > 10
+
+
+@pytest.mark.parametrize("n_facies", [5, 6, 7, 9])
+def test_no_arrow_passes_through_a_circle_it_does_not_join(n_facies):
+    # the visual audit: upper shoreface -> coastal plain, two places apart round the
+    # circle, bowed outward through the foreshore's circle between them. Here every
+    # facies goes up into the facies two and three places on, and back
+    from matplotlib.patches import Circle
+
+    codes = [chr(ord("A") + k) for k in range(n_facies)]
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for k, lower in enumerate(codes):
+        for step in (2, 3):
+            upper = codes[(k + step) % n_facies]
+            table.loc[lower, upper] = 0.2
+            table.loc[upper, lower] = 0.1
+    fig = figures.facies_relationship_diagram(table, None, order=codes)
+    ax = fig.axes[0]
+    nodes = _nodes(ax)
+    (radius,) = {c.get_radius() for c in ax.patches if isinstance(c, Circle)}
+    arrows = _arcs(ax, nodes)
+    assert len(arrows) == int((table > 0.05).to_numpy().sum())
+    for (lower, upper), points in arrows:
+        for code, centre in nodes.items():
+            if code in (lower, upper):
+                continue
+            clearance = np.hypot(*(points - centre).T).min()
+            # clear by a quarter of the radius: an arc 0.02 off a circle of radius 0.2
+            # read as drawn through it
+            assert clearance > 1.25 * radius, (lower, upper, code)
