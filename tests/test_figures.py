@@ -1,6 +1,6 @@
 """Appendix figures drawn from invented numbers: legends, labels, values, files."""
 
-from itertools import pairwise
+from itertools import combinations, pairwise
 from pathlib import Path
 
 import numpy as np
@@ -472,3 +472,41 @@ def test_no_arrow_passes_through_a_circle_it_does_not_join(n_facies):
             # clear by a quarter of the radius: an arc 0.02 off a circle of radius 0.2
             # read as drawn through it
             assert clearance > 1.25 * radius, (lower, upper, code)
+
+
+def _cielab(colour: str) -> np.ndarray:
+    """CIE L*a*b* (D65 white) of an sRGB colour: the sRGB transfer curve and matrix of
+    IEC 61966-2-1, then the CIE 1976 L*a*b* formulas (CIE 15:2004)."""
+    from matplotlib.colors import to_rgb
+
+    rgb = np.array(to_rgb(colour))
+    linear = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
+    matrix = np.array(
+        [
+            [0.4124564, 0.3575761, 0.1804375],
+            [0.2126729, 0.7151522, 0.0721750],
+            [0.0193339, 0.1191920, 0.9503041],
+        ]
+    )
+    xyz = matrix @ linear / np.array([0.95047, 1.0, 1.08883])
+    f = np.where(xyz > (6 / 29) ** 3, np.cbrt(xyz), xyz / (3 * (6 / 29) ** 2) + 4 / 29)
+    return np.array([116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])])
+
+
+def test_every_surface_colour_stands_apart_from_every_tract_colour():
+    # the visual audit: a sequence boundary's crimson line (#a3142a) vanished over the
+    # brick of a falling-stage tract (CIE76 distance 17), one extra surface colour lay
+    # 10 from an extra tract colour. Lines are drawn over tract fills in the sections
+    # and strip logs, so each surface colour keeps a CIE76 distance of 25 from every
+    # tract colour (the extras a user's own tracts and surfaces get included), and
+    # from the other surfaces
+    from faciesseq.report import style
+
+    tracts = [*style.TRACT_COLOURS.values(), *style._TRACT_EXTRA]
+    surfaces = [*style.SURFACE_COLOURS.values(), *style._SURFACE_EXTRA]
+    to_tracts = [np.linalg.norm(_cielab(s) - _cielab(t)) for s in surfaces for t in tracts]
+    assert min(to_tracts) >= 25
+    apart = [np.linalg.norm(_cielab(a) - _cielab(b)) for a, b in combinations(surfaces, 2)]
+    assert min(apart) >= 25
+    # lines on the white page stay dark or strong enough to see
+    assert min(np.linalg.norm(_cielab(s) - _cielab("#ffffff")) for s in surfaces) >= 40
