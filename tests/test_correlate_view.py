@@ -151,3 +151,48 @@ def test_page_legend_lists_surfaces_in_the_tract_models_order_as_the_figure(surf
     assert codes == surface_legend_order(corr, "dip", surface_order)
     html = section_view_html(corr, beds, TRACTS, surface_order=surface_order)
     assert [s["code"] for s in _embedded(html)["surfaces"]] == codes
+
+
+#: Run after the page's script: the boxes of the depth axis' labels (anchored at their
+#: end, left of the axis) and of the wells' names, into the DOM.
+_BOXES = """<script>
+(function () {
+  const names = new Set(JSON.parse(document.getElementById("section-data").textContent)
+    .sections[0].wells.map(w => w.core));
+  const svg = document.querySelector("svg[data-section]");
+  const out = {axis: [], wells: []};
+  svg.querySelectorAll("text").forEach(t => {
+    const b = t.getBoundingClientRect(), box = [b.left, b.top, b.right, b.bottom];
+    if (t.getAttribute("transform")) return;  // the rotated axis title
+    if (names.has(t.textContent)) out.wells.push(box);
+    else if (t.getAttribute("text-anchor") === "end") out.axis.push(box);
+  });
+  const pre = document.createElement("pre");
+  pre.id = "boxes"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_a_long_well_name_is_not_drawn_over_the_depth_axis_labels(tmp_path):
+    # the first well's name, centred over its column next to the depth axis, was drawn
+    # over the depth labels and the units where it was wider than the column
+    corr, beds = _section(names=("Quillerby North 1", "W-2", "W-3"))
+    page = tmp_path / "section.html"
+    page.write_text(
+        section_view_html(corr, beds, TRACTS).replace("</body>", _BOXES + "</body>", 1),
+        encoding="utf-8",
+    )
+    dom, _ = open_page(page, tmp_path / "section.png", size="1400,900")
+    found = re.search(r'<pre id="boxes">(.*?)</pre>', dom, re.S)
+    assert found, "the probe script did not run"
+    boxes = json.loads(found.group(1).replace("&quot;", '"'))
+    assert len(boxes["wells"]) == 3 and len(boxes["axis"]) >= 3
+
+    def overlap(a, b):
+        return min(a[2], b[2]) > max(a[0], b[0]) and min(a[3], b[3]) > max(a[1], b[1])
+
+    covered = [(w, a) for w in boxes["wells"] for a in boxes["axis"] if overlap(w, a)]
+    assert covered == []

@@ -1,6 +1,6 @@
 """Appendix figures drawn from invented numbers: legends, labels, values, files."""
 
-from itertools import pairwise
+from itertools import combinations, pairwise
 from pathlib import Path
 
 import numpy as np
@@ -210,15 +210,8 @@ def _nearest(point, points: dict):
     return min(points, key=lambda k: np.hypot(*(np.subtract(points[k], point))))
 
 
-def test_difference_labels_sit_on_the_arrow_of_their_transition():
-    # the label of coastal plain -> offshore mudstone (0.62) was drawn on the arrow
-    # upper shoreface -> foreshore: labels were placed off the chord by more than
-    # the arc bows, so on crowded diagrams they landed on a neighbouring arrow
-    order = _FIVE  # the order that put labels on the wrong arrows
-    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None, order=order)
-    ax = fig.axes[0]
-    nodes = _nodes(ax)
-    assert set(nodes) == set(_FIVE)
+def _arcs(ax, nodes: dict) -> list[tuple[tuple[str, str], np.ndarray]]:
+    """Each arrow of the diagram: its (lower, upper) facies and 101 points along it."""
     arrows = []
     for patch in ax.patches:
         if type(patch).__name__ != "FancyArrowPatch":
@@ -229,6 +222,19 @@ def test_difference_labels_sit_on_the_arrow_of_their_transition():
         t = np.linspace(0, 1, 101)
         points = np.vstack([bezier(t) for bezier, _ in curve.iter_bezier()])
         arrows.append(((lower, upper), points))
+    return arrows
+
+
+def test_difference_labels_sit_on_the_arrow_of_their_transition():
+    # the label of coastal plain -> offshore mudstone (0.62) was drawn on the arrow
+    # upper shoreface -> foreshore: labels were placed off the chord by more than
+    # the arc bows, so on crowded diagrams they landed on a neighbouring arrow
+    order = _FIVE  # the order that put labels on the wrong arrows
+    fig = figures.facies_relationship_diagram(_FIVE_DIFFERENCE, None, order=order)
+    ax = fig.axes[0]
+    nodes = _nodes(ax)
+    assert set(nodes) == set(_FIVE)
+    arrows = _arcs(ax, nodes)
     assert len(arrows) == int((_FIVE_DIFFERENCE > 0.05).to_numpy().sum())
     labels = [t for t in ax.texts if t.get_text().replace(".", "").isdigit()]
     assert len(labels) == len(arrows)
@@ -436,3 +442,71 @@ def test_no_difference_label_covers_a_circle_on_a_table_where_one_did():
     table = pd.read_csv(DATA / "figures" / "ramp-difference.csv", index_col=0)
     order = ["LSS", "PAL", "SAB", "TFL", "LAG", "SHL", "IRP", "MRT", "ORM"]
     assert len(_difference_labels_off_the_circles(table, order)) > 10
+
+
+@pytest.mark.parametrize("n_facies", [5, 6, 7, 9])
+def test_no_arrow_passes_through_a_circle_it_does_not_join(n_facies):
+    # the visual audit: upper shoreface -> coastal plain, two places apart round the
+    # circle, bowed outward through the foreshore's circle between them. Here every
+    # facies goes up into the facies two and three places on, and back
+    from matplotlib.patches import Circle
+
+    codes = [chr(ord("A") + k) for k in range(n_facies)]
+    table = pd.DataFrame(-0.01, index=codes, columns=codes)
+    for k, lower in enumerate(codes):
+        for step in (2, 3):
+            upper = codes[(k + step) % n_facies]
+            table.loc[lower, upper] = 0.2
+            table.loc[upper, lower] = 0.1
+    fig = figures.facies_relationship_diagram(table, None, order=codes)
+    ax = fig.axes[0]
+    nodes = _nodes(ax)
+    (radius,) = {c.get_radius() for c in ax.patches if isinstance(c, Circle)}
+    arrows = _arcs(ax, nodes)
+    assert len(arrows) == int((table > 0.05).to_numpy().sum())
+    for (lower, upper), points in arrows:
+        for code, centre in nodes.items():
+            if code in (lower, upper):
+                continue
+            clearance = np.hypot(*(points - centre).T).min()
+            # clear by a quarter of the radius: an arc 0.02 off a circle of radius 0.2
+            # read as drawn through it
+            assert clearance > 1.25 * radius, (lower, upper, code)
+
+
+def _cielab(colour: str) -> np.ndarray:
+    """CIE L*a*b* (D65 white) of an sRGB colour: the sRGB transfer curve and matrix of
+    IEC 61966-2-1, then the CIE 1976 L*a*b* formulas (CIE 15:2004)."""
+    from matplotlib.colors import to_rgb
+
+    rgb = np.array(to_rgb(colour))
+    linear = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
+    matrix = np.array(
+        [
+            [0.4124564, 0.3575761, 0.1804375],
+            [0.2126729, 0.7151522, 0.0721750],
+            [0.0193339, 0.1191920, 0.9503041],
+        ]
+    )
+    xyz = matrix @ linear / np.array([0.95047, 1.0, 1.08883])
+    f = np.where(xyz > (6 / 29) ** 3, np.cbrt(xyz), xyz / (3 * (6 / 29) ** 2) + 4 / 29)
+    return np.array([116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])])
+
+
+def test_every_surface_colour_stands_apart_from_every_tract_colour():
+    # the visual audit: a sequence boundary's crimson line (#a3142a) vanished over the
+    # brick of a falling-stage tract (CIE76 distance 17), one extra surface colour lay
+    # 10 from an extra tract colour. Lines are drawn over tract fills in the sections
+    # and strip logs, so each surface colour keeps a CIE76 distance of 25 from every
+    # tract colour (the extras a user's own tracts and surfaces get included), and
+    # from the other surfaces
+    from faciesseq.report import style
+
+    tracts = [*style.TRACT_COLOURS.values(), *style._TRACT_EXTRA]
+    surfaces = [*style.SURFACE_COLOURS.values(), *style._SURFACE_EXTRA]
+    to_tracts = [np.linalg.norm(_cielab(s) - _cielab(t)) for s in surfaces for t in tracts]
+    assert min(to_tracts) >= 25
+    apart = [np.linalg.norm(_cielab(a) - _cielab(b)) for a, b in combinations(surfaces, 2)]
+    assert min(apart) >= 25
+    # lines on the white page stay dark or strong enough to see
+    assert min(np.linalg.norm(_cielab(s) - _cielab("#ffffff")) for s in surfaces) >= 40

@@ -211,10 +211,46 @@ def test_surface_ids_in_the_figure_never_overlap_and_stay_on_the_axes():
         labels = [t for t in ax.texts if t.get_gid() == "surface-label"]
         boxes = [t.get_window_extent(renderer) for t in labels]
         frame = ax.get_window_extent(renderer)
-    assert sorted(t.get_text() for t in labels) == sorted(
+    # every id written (those of surfaces reaching three wells twice: first and last)
+    assert sorted({t.get_text() for t in labels}) == sorted(
         str(s).split(":")[-1] for s in corr.ties["surface_id"].unique()
     )
     for k, box in enumerate(boxes):
         assert frame.y0 <= box.y0 and box.y1 <= frame.y1, labels[k].get_text()
+        for other in boxes[k + 1 :]:
+            assert not box.overlaps(other)
+
+
+def test_a_surface_across_the_section_is_named_at_its_first_and_last_well():
+    # the visual audit: an id written only right of the last well left a reader of a
+    # wide section unable to tell which line was which near the other wells. MFS runs
+    # through all four wells, SB from B to D, MRS only from C to D (named once)
+    corr, extents = _section(
+        {
+            "A": (0.0, {"MFS": 10.0}),
+            "B": (0.0, {"SB": 5.0, "MFS": 10.5}),
+            "C": (0.0, {"SB": 5.5, "MRS": 8.0, "MFS": 11.0}),
+            "D": (0.0, {"SB": 6.0, "MRS": 8.5, "MFS": 11.5}),
+        },
+        positions=[0.0, 10.0, 20.0, 30.0],
+    )
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    with figure_style():
+        fig = section_plot(corr, "dip", _beds(extents), datum="depth")
+        renderer = FigureCanvasAgg(fig).get_renderer()
+        labels = [t for t in fig.axes[0].texts if t.get_gid() == "surface-label"]
+        boxes = [t.get_window_extent(renderer) for t in labels]
+    beside = {}
+    for label in labels:
+        # the well left of the id, whose column the id stands beside
+        well = "ABCD"[int(label.get_position()[0] // 10.0)]
+        beside.setdefault(label.get_text(), []).append(well)
+    assert {k: sorted(v) for k, v in beside.items()} == {
+        "MFS-1": ["A", "D"],
+        "SB-1": ["B", "D"],
+        "MRS-1": ["D"],
+    }
+    for k, box in enumerate(boxes):
         for other in boxes[k + 1 :]:
             assert not box.overlaps(other)

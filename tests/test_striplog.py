@@ -320,3 +320,25 @@ def test_strip_log_of_a_core_alone_draws_with_defaults_and_returns_a_figure(mode
     fig = strip_log(core, model=fitted)
     texts = [t.get_text() for legend in _legends(fig) for t in legend.get_texts()]
     assert any(scheme[c].name.split()[0] in t for c in scheme.codes for t in texts)
+
+
+def test_surface_legend_lists_only_the_surfaces_drawn(model, scheme):
+    # the visual audit: the legend listed every surface of the tract model, kinds the
+    # core had neither a pick nor a visible probability of. Here LHB has none and BSFR
+    # stays below a hundredth in every cell; MFS is picked, SB and MRS drawn as curves
+    import dataclasses
+
+    from matplotlib.colors import to_hex
+
+    from faciesseq.report.style import surface_colour
+
+    core = synthetic_core(model)
+    boundaries = core.boundaries.assign(p_LHB=0.0, p_BSFR=0.001)
+    core = dataclasses.replace(core, boundaries=boundaries)
+    fig = strip_log(core, scheme, model)
+    (legend,) = [leg for leg in _legends(fig) if leg.get_title().get_text() == "surface"]
+    codes = [t.get_text().split()[0] for t in legend.get_texts()][:-1]  # then the pick
+    assert codes == ["SB", "MRS", "MFS"]
+    # each keeps the colour it has in every core
+    for code, line in zip(codes, legend.get_lines(), strict=False):
+        assert to_hex(line.get_color()) == surface_colour(code, core.surfaces)

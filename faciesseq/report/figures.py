@@ -546,6 +546,7 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
     top = np.nanmax(positive) if np.isfinite(positive).any() else 1.0
     n_drawn = 0
     labels = []
+    bows: dict[tuple[str, str], float] = {}
     for a in codes:
         for b in codes:
             if a == b:
@@ -557,7 +558,15 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
             # a short arrow bows enough that the labels of A -> B and B -> A,
             # on arcs bowing to either side, stand apart
             chord = np.hypot(*np.subtract(pos[b], pos[a])) - 2 * radius * 1.08
-            rad = max(0.28, 0.24 / max(chord, 1e-9))
+            others = [pos[c] for c in codes if c not in (a, b)]
+            rad = _routed_bow(
+                _arc_ends(pos[a], pos[b], radius),
+                max(0.28, 0.24 / max(chord, 1e-9)),
+                others,
+                radius,
+                bows.get((b, a)),
+            )
+            bows[(a, b)] = rad
             _, text = _arrow(
                 ax,
                 pos[a],
@@ -574,6 +583,40 @@ def _transition_arrows(ax, values, significant, pos, threshold: float, radius: f
                 labels.append((text, *_arc_ends(pos[a], pos[b], radius), rad))
             n_drawn += 1
     return n_drawn, labels
+
+
+#: How far an arrow keeps off the circle of a facies it does not join (radii from the
+#: centre): an arc 0.1 of a radius off a circle read as drawn through it.
+CLEARANCE = 1.3
+
+#: The bows an arrow may take, as multiples of its own: its side first, the other
+#: side after, so that an arrow keeps its side where that side is free.
+_BOW_FACTORS = (1.0, 0.7, 1.4, 1.9, -1.0, -0.7, -1.4, -1.9, 2.6, -2.6)
+
+
+def _routed_bow(ends, bow: float, obstacles, radius: float, back: float | None) -> float:
+    """The bow (``arc3``'s ``rad``) of the arrow between ``ends``: ``bow``, else the
+    first of :data:`_BOW_FACTORS` times it whose arc keeps :data:`CLEARANCE` radii off
+    every circle centred at ``obstacles`` (the facies the arrow does not join), apart
+    from the arrow back (``back``, its bow, where drawn: the two arcs' middles at least
+    0.24 apart, room for both labels) and inside the diagram; where none is clear, the
+    one reaching least into the circles."""
+    start, end = (np.asarray(e, float) for e in ends)
+    chord = float(np.hypot(*(end - start)))
+    centres = np.asarray(obstacles, float).reshape(-1, 2)
+
+    def cost(k: int, factor: float) -> tuple:
+        rad = bow * factor
+        points = np.array([_on_arc(start, end, rad, t) for t in np.linspace(0, 1, 33)])
+        near = [np.hypot(*(points - c).T).min() for c in centres]
+        into = sum(max(0.0, CLEARANCE * radius - n) for n in near)
+        # the arrow back bowing by -rad is the same arc drawn the other way
+        crowded = back is not None and 0.5 * abs(rad + back) * chord < 0.24
+        outside = bool(np.abs(points).max() > 1.3)
+        return (into > 0, crowded, outside, into, k)
+
+    best = min(cost(k, f) for k, f in enumerate(_BOW_FACTORS))
+    return bow * _BOW_FACTORS[best[-1]]
 
 
 def difference_label(difference: float, threshold: float) -> str:

@@ -463,10 +463,11 @@ _LABEL_POINTS = 5.5
 
 
 def _surface_labels(ax, correlation, section, shift, width) -> None:
-    """Ids of the correlated surfaces right of the last well they reach, none over
-    another: ids whose text would overlap side by side are spread up and down about
-    their surfaces' depths (:func:`_spread`), inside the depth axis. Call once the
-    axes' limits are set; only the ids move, never a line."""
+    """Ids of the correlated surfaces right of the first and the last well they reach
+    (:func:`_label_wells`), none over another: ids whose text would overlap side by
+    side are spread up and down about their surfaces' depths (:func:`_spread`), inside
+    the depth axis. Call once the axes' limits are set; only the ids move, never a
+    line."""
     picks = correlation.picks[correlation.picks["section"] == section]
     fig, box = ax.figure, ax.get_position()
     x_per_inch = abs(np.subtract(*ax.get_xlim())) / (fig.get_figwidth() * box.width)
@@ -474,15 +475,13 @@ def _surface_labels(ax, correlation, section, shift, width) -> None:
     gap = 1.3 * _LABEL_POINTS / 72 * y_per_inch
     labels = []
     for sid, part in picks.groupby("surface_id"):
-        if len(part) < 2:
-            continue
-        last = part.sort_values("position").iloc[-1]
         text = str(sid).split(":", 1)[-1]
-        x = float(last["position"]) + width * 0.55
-        # a character of DejaVu Sans is at most about 0.65 of the font's size wide
-        right = x + len(text) * 0.65 * _LABEL_POINTS / 72 * x_per_inch
-        y = float(last["depth"] - shift[last["core"]])
-        labels.append((x, right, y, text, str(last["surface"])))
+        for well in _label_wells(part):
+            x = float(well["position"]) + width * 0.55
+            # a character of DejaVu Sans is at most about 0.65 of the font's size wide
+            right = x + len(text) * 0.65 * _LABEL_POINTS / 72 * x_per_inch
+            y = float(well["depth"] - shift[well["core"]])
+            labels.append((x, right, y, text, str(well["surface"])))
     low, high = sorted(ax.get_ylim())
     for group in _side_by_side(labels):
         group.sort(key=lambda label: label[2])
@@ -497,6 +496,18 @@ def _surface_labels(ax, correlation, section, shift, width) -> None:
                 color=surface_colour(kind),
                 gid="surface-label",
             )
+
+
+def _label_wells(picks: pd.DataFrame) -> list[pd.Series]:
+    """The picks of one correlated surface whose wells its id is written beside: the
+    last well it reaches, and the first where it reaches three or more (on a wide
+    section an id at one end only left the line unnamed near the other wells; between
+    two wells the line is short enough to follow); none for a surface in one well."""
+    if len(picks) < 2:
+        return []
+    ordered = picks.sort_values("position")
+    ends = [ordered.iloc[-1]]
+    return [ordered.iloc[0], *ends] if len(picks) > 2 else ends
 
 
 def _side_by_side(labels: list[tuple]) -> list[list[tuple]]:

@@ -227,6 +227,13 @@ _JS = r"""
   DATA.surfaces.forEach(s => { surfaceColour[s.code] = s.colour; });
 
 @SVG@
+  // a well's name centred over its column, moved in where it would reach left of the
+  // plot (over the depth axis' labels and units) or past the page's right edge
+  function wellName(svg, x, y, name, right) {
+    const t = text(svg, x, y, name, null, "middle"), half = t.getComputedTextLength() / 2;
+    t.setAttribute("x", Math.max(LEFT + half, Math.min(x, right - half)));
+    return t;
+  }
   function fmt(x, digits) { return x === null ? "n/a" : x.toFixed(digits); }
   // a well's position: as many decimals as the spread of the section's positions needs
   // (none from 100 units up), with the unit of the distance axis when it names one
@@ -274,7 +281,9 @@ _JS = r"""
   function hideTip() { tip.hidden = true; }
 
   function drawSection(sec, si) {
-    const box = document.createElement("section");
+    // on the page from the start, so that text is measured as drawn (wellName)
+    const box = document.getElementById("sections").appendChild(
+      document.createElement("section"));
     const h = document.createElement("h2");
     h.textContent = sec.heading + " \u2013 " + sec.datum;
     box.appendChild(h);
@@ -360,11 +369,10 @@ _JS = r"""
       }
       el("rect", {x: x, y: Y(w.top[0] - w.shift), width: COL, fill: "none", stroke: "#000",
         "stroke-width": 0.6, height: Y(w.base[w.base.length - 1]) - Y(w.top[0])}, g);
-      text(svg, x + COL / 2, Y(w.top[0] - w.shift) - 6, w.core, null, "middle");
+      wellName(svg, x + COL / 2, Y(w.top[0] - w.shift) - 6, w.core, LEFT + width + RIGHT);
       text(svg, x + COL / 2, HEAD + HEIGHT + 16, positionText(w.position, sec.wells), "small",
         "middle");
     });
-    document.getElementById("sections").appendChild(box);
   }
   function render() {
     hideTip();

@@ -49,7 +49,9 @@ __all__ = [
     "SURFACE_AXIS_END",
     "UNCHECKED_NOTE",
     "UNLABELLED_NOTE",
+    "VISIBLE_PROBABILITY",
     "bed_widths",
+    "drawn_surfaces",
     "facies_name",
     "pick_label",
     "plain",
@@ -322,10 +324,13 @@ def _probability_track(ax, beds, tracts, checked, labelled=True) -> None:
     ax.set_xlabel("posterior (stacked)" + _probability_note(checked, labelled))
 
 
-def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[float, str]]:
-    """Surface probability curves per depth cell and the picks, each with its
-    probability and interval; returns the picks' depths and colours."""
-    _surface_curves(ax, interp, step)
+def _surface_track(
+    ax, interp: CoreInterpretation, step: float, drawn: tuple[str, ...]
+) -> list[tuple[float, str]]:
+    """Surface probability curves per depth cell of the ``drawn`` surfaces and the
+    picks, each with its probability and interval; returns the picks' depths and
+    colours."""
+    _surface_curves(ax, interp, step, drawn)
     pick_lines = _surface_picks(ax, interp)
     # room right of 1 for a pick marker and its interval's caps at probability 1
     ax.set_xlim(0, SURFACE_AXIS_END)
@@ -335,13 +340,33 @@ def _surface_track(ax, interp: CoreInterpretation, step: float) -> list[tuple[fl
     return pick_lines
 
 
-def _surface_curves(ax, interp: CoreInterpretation, step: float) -> None:
-    """Probability of each surface per depth cell of ``step``, drawn as steps."""
+#: The least probability a surface's curve shows as a bar in the strip log (a fiftieth
+#: of the panel, about 5 pixels at 200 dpi); a surface neither picked in the core nor
+#: reaching it in any depth cell is not drawn, nor listed in the legend.
+VISIBLE_PROBABILITY = 0.02
+
+
+def drawn_surfaces(interp: CoreInterpretation, step: float) -> tuple[str, ...]:
+    """The surfaces a strip log of ``interp`` draws, in the tract model's order: those
+    picked in the core, and those whose probability per depth cell of ``step``
+    reaches :data:`VISIBLE_PROBABILITY` somewhere."""
+    curves = interp.curves(step)
+    picked = set() if interp.picks is None else set(interp.picks["surface"].astype(str))
+    return tuple(
+        code
+        for code in interp.surfaces
+        if code in picked or np.nanmax(curves[f"p_{code}"], initial=0.0) >= VISIBLE_PROBABILITY
+    )
+
+
+def _surface_curves(ax, interp: CoreInterpretation, step: float, drawn: tuple[str, ...]):
+    """Probability of each of the ``drawn`` surfaces per depth cell of ``step``, drawn
+    as steps."""
     surfaces = tuple(interp.surfaces)
     curves = interp.curves(step)
     edges_top = curves["depth"].to_numpy(float) - step / 2
     y = np.column_stack([edges_top, edges_top + step]).ravel()
-    for code in surfaces:
+    for code in drawn:
         p = curves[f"p_{code}"].to_numpy(float)
         colour = surface_colour(code, surfaces)
         x = np.repeat(p, 2)
@@ -396,7 +421,9 @@ def _draw_pick(ax, pick, label_at: float, colour: str) -> None:
 
 @dataclass(frozen=True)
 class _LegendEntries:
-    """Codes and labels of the three legends under the tracks, in legend order."""
+    """Codes and labels of the three legends under the tracks, in legend order; the
+    surfaces listed are those drawn, ``surface_order`` all those of the tract model
+    (their colours follow it, the same in every core)."""
 
     facies: list[str]
     facies_labels: list[str]
@@ -404,14 +431,19 @@ class _LegendEntries:
     tract_labels: list[str]
     surfaces: tuple[str, ...]
     surface_labels: list[str]
+    surface_order: tuple[str, ...]
 
 
 def _legend_entries(
-    interp: CoreInterpretation, scheme: FaciesScheme, tract_model: TractModel | None
+    interp: CoreInterpretation,
+    scheme: FaciesScheme,
+    tract_model: TractModel | None,
+    surfaces: tuple[str, ...],
 ) -> _LegendEntries:
     """The facies of the core in scheme order (then those the scheme lacks), its
-    tracts and surfaces, each labelled with its code and whole name."""
-    tracts, surfaces = tuple(interp.tracts), tuple(interp.surfaces)
+    tracts and the ``surfaces`` drawn (:func:`drawn_surfaces`), each labelled with its
+    code and whole name."""
+    tracts = tuple(interp.tracts)
     facies_present = list(dict.fromkeys(interp.beds["facies"].astype(str)))
     facies_order = [c for c in scheme.codes_by_rank if c in facies_present] + [
         c for c in facies_present if c not in scheme
@@ -431,7 +463,13 @@ def _legend_entries(
         surface_names.setdefault(sf.code, sf.name)
     surface_labels = [_legend_label(sf, surface_names.get(sf, ""), 22) for sf in surfaces]
     return _LegendEntries(
-        facies_order, facies_labels, tracts, tract_labels, surfaces, surface_labels
+        facies_order,
+        facies_labels,
+        tracts,
+        tract_labels,
+        surfaces,
+        surface_labels,
+        tuple(interp.surfaces),
     )
 
 
@@ -466,7 +504,7 @@ def _facies_handles(scheme: FaciesScheme, entries: _LegendEntries, gaps: list) -
 def _surface_handles(entries: _LegendEntries) -> list:
     """Legend lines of the surfaces, and the pick marker."""
     handles = [
-        Line2D([], [], color=surface_colour(sf, entries.surfaces), label=plain(label))
+        Line2D([], [], color=surface_colour(sf, entries.surface_order), label=plain(label))
         for sf, label in zip(entries.surfaces, entries.surface_labels)
     ]
     handles.append(
@@ -518,9 +556,10 @@ def _track_axes(fig: Figure, rects: list) -> tuple[tuple, object]:
     return tracks, legend_ax
 
 
-def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool) -> None:
-    """Draw the four tracks: gaps hatched across all, picks dashed across the facies
-    and tract columns, depth labels on the facies column only."""
+def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool, drawn) -> None:
+    """Draw the four tracks: gaps hatched across all, the ``drawn`` surfaces' curves,
+    picks dashed across the facies and tract columns, depth labels on the facies
+    column only."""
     facies_ax, tract_ax, probability_ax, surface_ax = tracks
     beds, tracts = interp.beds, tuple(interp.tracts)
     for g_top, g_base in gaps:
@@ -529,7 +568,7 @@ def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool) -> No
     _facies_track(facies_ax, beds, scheme, interp.units)
     _tract_track(tract_ax, beds, tracts)
     _probability_track(probability_ax, beds, tracts, checked, interp.tracts_labelled)
-    pick_lines = _surface_track(surface_ax, interp, step)
+    pick_lines = _surface_track(surface_ax, interp, step, drawn)
     for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
         ax.hlines(
             [d for d, _ in pick_lines],
@@ -651,14 +690,15 @@ def strip_log(
     top, base = float(beds["top"].min()), float(beds["base"].max())
     step = float(step) if step else max(base - top, 1e-9) / 400.0
     gaps = _gaps(beds)
-    entries = _legend_entries(interp, scheme, tract_model)
+    drawn = drawn_surfaces(interp, step)
+    entries = _legend_entries(interp, scheme, tract_model, drawn)
     legend_h = _legend_height(entries, gaps)
     # depth tick labels: the digits of the deepest depth and a decimal point
     rects = _panel_rects(PAGE_WIDTH, height, legend_h, len(f"{base:.0f}") + 1)
     with figure_style():
         fig = new_figure(PAGE_WIDTH, height + legend_h)
         tracks, legend_ax = _track_axes(fig, rects)
-        _draw_tracks(tracks, interp, scheme, gaps, step, checked)
+        _draw_tracks(tracks, interp, scheme, gaps, step, checked, drawn)
         _legends(legend_ax, scheme, entries, gaps)
         fig.suptitle(
             title if title is not None else f"Core {interp.core}",

@@ -58,15 +58,18 @@ TRACT_COLOURS: dict[str, str] = {
 # Tracts a user adds in their own tract model get these, in order.
 _TRACT_EXTRA = ("#8d6a9f", "#9aa65a", "#5c5c5c", "#c97fa0", "#4f8fa8")
 
-#: The project's own surface palette (lines and markers).
+#: The project's own surface palette (lines and markers). Surface lines are drawn
+#: over tract colours (sections, strip logs), so each surface colour, extras included,
+#: lies at least 28 CIE76 units (20 CIEDE2000) from every tract colour, extras
+#: included, and 40 from the others (a crimson SB once vanished over the FSST brick).
 SURFACE_COLOURS: dict[str, str] = {
-    "SB": "#a3142a",  # crimson: sequence boundary
+    "SB": "#880033",  # dark wine: sequence boundary
     "MFS": "#1f4e9c",  # deep blue: maximum flooding surface
-    "MRS": "#2f8f3a",  # green: maximum regressive surface
-    "BSFR": "#d0701c",  # orange: basal surface of forced regression
-    "LHB": "#7a5a2b",  # umber: lowstand-highstand boundary
+    "MRS": "#118822",  # leaf green: maximum regressive surface
+    "BSFR": "#ff6600",  # vivid orange: basal surface of forced regression
+    "LHB": "#554411",  # dark olive-brown: lowstand-highstand boundary
 }
-_SURFACE_EXTRA = ("#6b3fa0", "#008b8b", "#8b8b00", "#444444")
+_SURFACE_EXTRA = ("#00bb99", "#7700ff", "#ff00ff")
 
 #: Font and line settings used for every figure (rcParams keys).
 STYLE: dict[str, object] = {
