@@ -332,17 +332,21 @@ def _narrowest(
     p: np.ndarray, at: np.ndarray, lo: np.ndarray, hi: np.ndarray, mass: float
 ) -> tuple[np.ndarray, np.ndarray]:
     """Grow each run from ``at`` towards the more probable neighbour, within ``lo..hi``,
-    until it holds ``mass`` of ``lo..hi``; all runs one step at a time."""
+    until it holds ``mass`` of ``lo..hi``; all runs one step at a time, a run that has
+    stopped growing set aside (it never grows again)."""
     target = mass * slice_sums(p, lo, hi - lo + 1)
     a, b = at.copy(), at.copy()
+    growing = np.arange(len(at))
     while True:
-        grow = (slice_sums(p, a, b - a + 1) < target) & ((a > lo) | (b < hi))
+        x, y, low, high = a[growing], b[growing], lo[growing], hi[growing]
+        grow = (slice_sums(p, x, y - x + 1) < target[growing]) & ((x > low) | (y < high))
         if not grow.any():
             return a, b
-        left = np.where(a > lo, p[np.maximum(a - 1, 0)], -1.0)
-        right = np.where(b < hi, p[np.minimum(b + 1, len(p) - 1)], -1.0)
-        a = a - (grow & (left >= right))
-        b = b + (grow & (left < right))
+        growing, x, y, low, high = growing[grow], x[grow], y[grow], low[grow], high[grow]
+        left = np.where(x > low, p[np.maximum(x - 1, 0)], -1.0)
+        right = np.where(y < high, p[np.minimum(y + 1, len(p) - 1)], -1.0)
+        a[growing] = x - (left >= right)
+        b[growing] = y + (left < right)
 
 
 def slice_sums(values: np.ndarray, start: np.ndarray, length: np.ndarray) -> np.ndarray:

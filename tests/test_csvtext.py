@@ -90,6 +90,21 @@ def test_numbers_repeated_on_following_rows_are_the_text_pandas_writes():
         csvtext.BLOCK_BYTES = original
 
 
+def test_small_measures_laid_out_in_fewer_words_are_the_text_percent_writes():
+    """Measures below 10**5 and none negative (depths of most cores) are laid out in
+    three words, not five: the same text as each formatted by ``%`` (the path of a
+    one-column table), a half at the eighth decimal and a float's noise included."""
+    rng = np.random.default_rng(12)
+    places = rng.integers(0, 9, 5000)
+    depths = [float(f"{x:.{k}f}") for x, k in zip(rng.uniform(0, 99_998, 5000), places)]
+    depths += [0.0, 99_998.99999999, 0.000000125, 12.345000000000001, np.nan]
+    frame = pd.DataFrame({"depth": depths, "n": np.arange(len(depths))})
+    rows = csv_text(frame, measures={"depth"}).split("\n")[1:-1]
+    alone = csv_text(frame[["depth"]], measures={"depth"}).split("\n")[1:-1]
+    assert [row.rsplit(",", 1)[0] for row in rows] == [a.strip('"') for a in alone]
+    assert rows[-5:] == ["0,5000", "99998.99999999,5001", "0.00000012,5002", "12.345,5003", ",5004"]
+
+
 def test_measures_are_written_so_that_they_read_back_as_themselves():
     """Depths and positions (``measures``) in decimal notation: a source's depth to
     0.01 ft at 10,000 ft, a UTM northing, read back as the same float; the noise of a

@@ -257,6 +257,21 @@ def test_batch_size_does_not_change_results(case):
 
 
 @pytest.mark.parametrize("batch_size", [None, 1, 37])
+def test_xi_summed_against_masks_is_the_sum_of_the_full_xi_bit_for_bit(case, batch_size):
+    """``xi_masks`` (the surface probabilities of ``decode``) keeps each boundary's
+    weighted sums: the numbers ``einsum`` makes of the full two-slice posteriors."""
+    startprob, transmat, _, lengths, _, le = case
+    K = len(startprob)
+    masks = np.random.default_rng(5).integers(0, 2, (3, K, K)).astype(float)
+    full = forward_backward(le, lengths, startprob, transmat, return_xi=True, batch_size=batch_size)
+    summed = forward_backward(
+        le, lengths, startprob, transmat, return_xi=True, batch_size=batch_size, xi_masks=masks
+    )
+    np.testing.assert_array_equal(summed.xi, np.einsum("tij,sij->ts", full.xi, masks))
+    np.testing.assert_array_equal(summed.gamma, full.gamma)
+
+
+@pytest.mark.parametrize("batch_size", [None, 1, 37])
 def test_forward_only_log_likelihood_is_forward_backwards_bit_for_bit(case, batch_size):
     """The forward pass alone gives the very numbers of the full recursions (the
     decode's untempered log-likelihood is taken this way), from the full array and

@@ -536,12 +536,12 @@ class _UnseenPlaces:
         import numpy as np
         import pandas as pd
 
-        codes = np.asarray(cores.column("facies")).astype(str)
-        new = ~np.isin(codes, [*self.seen, *self.first])
+        facies = np.asarray(cores.column("facies"))
+        new = _unseen(facies, [*self.seen, *self.first])
         if not new.any():
             return
         table = cores.to_frame(provenance=True)[new]
-        table = table.assign(code=codes[new]).drop_duplicates("code")  # the first of each
+        table = table.assign(code=facies[new].astype(str)).drop_duplicates("code")
         for row in table.to_dict("records"):
             file, data_row = row.get("_file"), row.get("_row")
             if pd.isna(file) or Path(str(file)) == Path(self.source):
@@ -554,6 +554,21 @@ class _UnseenPlaces:
                 depth=float(row["top"]) if "top" in row else None,
                 units=cores.units,
             )
+
+
+def _unseen(facies, known: list[str]):
+    """Where ``facies.astype(str)`` (an object array) is not in ``known``, as a boolean
+    array; each distinct code converted and looked up once (a million codes converted one
+    by one took 0.3 s of ``decode``)."""
+    import numpy as np
+    import pandas as pd
+
+    ids, distinct = pd.factorize(facies)
+    new = ~np.isin(np.asarray(distinct, dtype=object).astype(str), known)
+    new = np.append(new, False)[ids]
+    missing = ids < 0  # None or NaN: as ``str`` writes each
+    new[missing] = ~np.isin(facies[missing].astype(str), known)
+    return new
 
 
 class _Chosen:

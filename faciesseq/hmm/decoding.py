@@ -35,7 +35,7 @@ from faciesseq.hmm.inputs import as_successions
 from faciesseq.hmm.said_once import said_once
 from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs
-from faciesseq.surfaces import boundary_probabilities, pick_table, surface_codes
+from faciesseq.surfaces import pick_table, surface_codes, surface_pair_mask
 
 __all__ = ["DECODE_BATCH", "DECODE_PART", "Decoding"]
 
@@ -301,14 +301,17 @@ class Decoding:
         # probabilities from the calibrated (tempered) chain; the log-likelihood
         # and the Viterbi column from the model itself
         tle, tpi, tA = temper(le, self.startprob_, self.transmat_, self.temperature_)
-        post = engine.forward_backward(tle, beds.lengths, tpi, tA, return_xi=True)
+        pairs = surface_pair_mask(self.tract_model_, self.states_.state_tract)
+        post = engine.forward_backward(
+            tle, beds.lengths, tpi, tA, return_xi=True, xi_masks=pairs.astype(float)
+        )
         loglik = (
             post.log_likelihood
             if self.temperature_ == 1.0
             else engine.log_likelihood(le, beds.lengths, self.startprob_, self.transmat_)
         )
         path, _ = engine.viterbi(le, beds.lengths, self.startprob_, self.transmat_)
-        surf = boundary_probabilities(post.xi, self.tract_model_, self.states_.state_tract)
+        surf = post.xi  # as boundary_probabilities of the full two-slice posteriors
         # a sum of sub-state posteriors can round a hair above 1
         gamma = np.clip(self.states_.to_tracts(post.gamma), 0.0, 1.0)
         return gamma, self.states_.state_tract[path], surf, loglik

@@ -46,6 +46,8 @@ MEASURES = frozenset(
 MEASURE_DECIMALS = 8
 #: Significant digits of a measure, at most (a 15-digit decimal reads back as itself).
 MEASURE_DIGITS = 15
+#: Measures below this (and none negative) fill only the last three words of their field.
+SMALL_MEASURE = 99_999.0
 #: Bytes of the matrix of one block of rows, at most (about).
 BLOCK_BYTES = 1 << 24
 
@@ -325,9 +327,18 @@ class _DecimalField(_FloatField):
     Five words: the sign and places 14..10 of the integer part; places 9..5; places
     4..0 and the point; decimals 1..5; decimals 6..8. The places before the first
     digit of the integer part (but the units) and the decimals after the last
-    non-zero one are blanked, the point too where no decimal is left."""
+    non-zero one are blanked, the point too where no decimal is left. A column of
+    measures below 10**5 and none negative (depths in metres or feet) leaves the first
+    two words blank on every row: they are not laid out (less padding to drop)."""
 
     width = 40
+
+    def __init__(self, values: np.ndarray):
+        super().__init__(values)
+        finite = values[np.isfinite(values)]
+        small = not np.isinf(values).any() and not np.signbit(finite).any()
+        self.skip = 2 if small and not (finite >= SMALL_MEASURE).any() else 0
+        self.width = 40 - 8 * self.skip
 
     def _write(self, values: np.ndarray, block: np.ndarray) -> None:
         size = np.abs(values)
@@ -345,20 +356,23 @@ class _DecimalField(_FloatField):
         digits = np.searchsorted(_POW10_INT[1:], integer, side="right") + 1
         blank = 15 - digits  # integer places before the first digit
         words = block.view(_WORD)
-        sign = np.where(np.signbit(values) & (whole != 0), _MINUS, _NUL).astype(np.uint64)
-        high = _FIVE_DIGITS[integer // 10**10] << np.uint64(8)
-        words[:, 0] = high & _BLANK_FROM_1.take(np.clip(blank, 0, 5)) | sign
-        words[:, 1] = _FIVE_DIGITS[integer // 10**5 % 10**5] & _BLANK_FROM_0.take(
-            np.clip(blank - 5, 0, 5)
-        )
+        if not self.skip:
+            sign = np.where(np.signbit(values) & (whole != 0), _MINUS, _NUL).astype(np.uint64)
+            high = _FIVE_DIGITS[integer // 10**10] << np.uint64(8)
+            words[:, 0] = high & _BLANK_FROM_1.take(np.clip(blank, 0, 5)) | sign
+            words[:, 1] = _FIVE_DIGITS[integer // 10**5 % 10**5] & _BLANK_FROM_0.take(
+                np.clip(blank - 5, 0, 5)
+            )
         head, tail = np.divmod(fraction, 1000)
         kept = np.where(tail != 0, 8 - _TRAILING_ZEROS[tail], 3 - _TRAILING_ZEROS[head] + 2)
         kept = np.where(fraction == 0, 0, kept)  # decimals written
         point = np.where(kept > 0, _DOT << 40, _NUL).astype(np.uint64)
         units = _FIVE_DIGITS[integer % 10**5] & _BLANK_FROM_0.take(np.clip(blank - 10, 0, 4))
-        words[:, 2] = units | point
-        words[:, 3] = _FIVE_DIGITS[head] & _KEEP_TO.take(np.minimum(kept, 5))
-        words[:, 4] = (_FIVE_DIGITS[tail] >> np.uint64(16)) & _KEEP_TO.take(np.clip(kept - 5, 0, 3))
+        words[:, 2 - self.skip] = units | point
+        words[:, 3 - self.skip] = _FIVE_DIGITS[head] & _KEEP_TO.take(np.minimum(kept, 5))
+        words[:, 4 - self.skip] = (_FIVE_DIGITS[tail] >> np.uint64(16)) & _KEEP_TO.take(
+            np.clip(kept - 5, 0, 3)
+        )
         block[np.isnan(values)] = 0
         by_hand = (~usable | near_half) & ~np.isnan(values)
         if by_hand.any():

@@ -40,6 +40,10 @@ from faciesseq.hmm.engine.checks import (
 )
 from faciesseq.hmm.engine.emission_rows import _Emissions
 
+#: Boundaries at a time whose two-slice posteriors are summed against masks: their
+#: ``K x K`` numbers stay in the cache between the products and the sums.
+MASKED_XI_CHUNK = 512
+
 
 @dataclass(frozen=True)
 class Posteriors:
@@ -157,6 +161,7 @@ def forward_backward(
     batch_size: int | None = None,
     codes: np.ndarray | Sequence[int] | None = None,
     return_gamma: bool = True,
+    xi_masks: np.ndarray | None = None,
 ) -> Posteriors:
     """State and two-slice posteriors and log-likelihoods of many sequences.
 
@@ -204,6 +209,13 @@ def forward_backward(
         Keep the ``(T_total, K)`` state posteriors (``False``: ``gamma`` is
         ``None``, sparing its memory when only the summed statistics are
         needed, as in an EM iteration with ``codes``).
+    xi_masks
+        ``(n_masks, K, K)`` weights of state pairs (with ``return_xi``): each
+        boundary's two-slice posterior is kept only as its weighted sums, so that
+        ``xi`` is ``(T_total - n_sequences, n_masks)``: the same numbers, bit for
+        bit, as ``np.einsum("tij,sij->ts", xi, xi_masks)`` of the full ``xi`` (the
+        surface probabilities of every contact), without its ``K x K`` numbers
+        per boundary stored.
 
     Returns
     -------
@@ -245,11 +257,13 @@ def forward_backward(
     with single_thread_blas():
         source = _Emissions(log_emission, codes)
         return _forward_backward(
-            source, lengths, startprob, transmat, return_xi, batch_size, return_gamma
+            source, lengths, startprob, transmat, return_xi, batch_size, return_gamma, xi_masks
         )
 
 
-def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_size, return_gamma):
+def _forward_backward(
+    source, lengths, startprob, transmat, return_xi, batch_size, return_gamma, xi_masks
+):
     T, K = source.n_rows, source.n_states
     lens = _check_lengths(lengths, T)
     pi, A = _check_params(startprob, transmat, K)
@@ -268,7 +282,7 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
     start = np.zeros(K)
     xi_out = None
     if return_xi:
-        xi_out = np.empty((T - n_seq, K, K))
+        xi_out = np.empty((T - n_seq, *((K, K) if xi_masks is None else xi_masks.shape[:1])))
         boundary_start = np.concatenate(([0], np.cumsum(lens - 1)[:-1]))
 
     # Work buffers, reused by every batch: memory is bounded by the largest batch.
@@ -289,8 +303,8 @@ def _forward_backward(source, lengths, startprob, transmat, return_xi, batch_siz
         if xi_out is None:
             _accumulate_xi(alpha, E, batch.counts, off, xi_acc, xi_step)
         else:
-            chunk = max(1, rows_per_batch // K)
-            _boundary_xi(batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start)
+            chunk = max(1, rows_per_batch // K) if xi_masks is None else MASKED_XI_CHUNK
+            _boundary_xi(batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start, xi_masks)
 
         gamma = alpha
         mul(gamma, beta, out=gamma)
@@ -330,11 +344,13 @@ def _backward(batch: _Batch, E, beta, scale, AT) -> None:
         dot(x, AT, out=beta[o : o + n])
 
 
-def _boundary_xi(batch: _Batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start) -> None:
-    """The two-slice posterior of every boundary of one batch into ``xi_out`` (and
-    summed into ``xi_sum``), from the forward variables and the ``E`` of
-    :func:`_backward`; in chunks of ``chunk`` boundaries, so that the ``K x K`` factor
-    does not multiply the work memory."""
+def _boundary_xi(
+    batch: _Batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_start, masks=None
+) -> None:
+    """The two-slice posterior of every boundary of one batch into ``xi_out`` (or its
+    sums against ``masks``; and summed into ``xi_sum``), from the forward variables and
+    the ``E`` of :func:`_backward`; in chunks of ``chunk`` boundaries, so that the
+    ``K x K`` factor does not multiply the work memory."""
     N, off = batch.n_rows, batch.offsets
     for lo in range(int(off[1]) if len(batch.counts) > 1 else N, N, chunk):
         nxt = slice(lo, min(N, lo + chunk))
@@ -342,7 +358,8 @@ def _boundary_xi(batch: _Batch, alpha, E, A, chunk, xi_sum, xi_out, boundary_sta
         xi_b = alpha[off[step - 1] + position][:, :, None] * A
         xi_b *= E[nxt][:, None, :]
         xi_sum += xi_b.sum(axis=0)
-        xi_out[boundary_start[batch.seq[position]] + step - 1] = xi_b
+        kept = xi_b if masks is None else np.einsum("tij,sij->ts", xi_b, masks)
+        xi_out[boundary_start[batch.seq[position]] + step - 1] = kept
 
 
 def _forward(source, batch: _Batch, pi, A, E, alpha, scale, row_max, work) -> None:
