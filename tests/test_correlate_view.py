@@ -196,3 +196,113 @@ def test_a_long_well_name_is_not_drawn_over_the_depth_axis_labels(tmp_path):
 
     covered = [(w, a) for w in boxes["wells"] for a in boxes["axis"] if overlap(w, a)]
     assert covered == []
+
+
+def _crossing_section():
+    """Four wells 10 km apart: MFS in all four, SB from W-B to W-D, MRS only in W-C and
+    W-D; the surfaces 0.3 m apart in 20 m of core, so that their ids in W-D would
+    overlap where each stood at its own depth."""
+    depths = {
+        "W-A": {"MFS": 10.5},
+        "W-B": {"SB": 10.0, "MFS": 10.6},
+        "W-C": {"SB": 10.1, "MRS": 10.4, "MFS": 10.7},
+        "W-D": {"SB": 10.2, "MRS": 10.5, "MFS": 10.8},
+    }
+    picks = pd.DataFrame(
+        [
+            {"core": core, "surface": kind, "depth": depth, "probability": 0.9}
+            for core, surfaces in depths.items()
+            for kind, depth in surfaces.items()
+        ]
+    )
+    wells = pd.DataFrame(
+        {"core": list(depths), "section": "dip", "position": [0.0, 10.0, 20.0, 30.0]}
+    )
+    extents = {core: (0.0, 20.0) for core in depths}
+    beds = pd.DataFrame(
+        [
+            {"core": c, "top": top, "base": top + 10.0, "tract": t}
+            for c in depths
+            for top, t in ((0.0, "HST"), (10.0, "TST"))
+        ]
+    )
+    return correlate(picks, extents, wells), beds
+
+
+#: Run after the page's script: the boxes of the wells' columns (their outlines) and of
+#: every text naming a surface id, into the DOM.
+_LABEL_BOXES = """<script>
+(function () {
+  const svg = document.querySelector("svg[data-section]");
+  const out = {wells: {}, labels: []};
+  svg.querySelectorAll("[data-core]").forEach(g => {
+    const b = g.lastElementChild.getBoundingClientRect();
+    out.wells[g.getAttribute("data-core")] = [b.left, b.top, b.right, b.bottom];
+  });
+  const frame = svg.getBoundingClientRect();
+  out.frame = [frame.left, frame.top, frame.right, frame.bottom];
+  svg.querySelectorAll("text").forEach(t => {
+    if (!/^(MFS|SB|MRS)-1$/.test(t.textContent)) return;
+    const b = t.getBoundingClientRect();
+    out.labels.push([t.textContent, b.left, b.top, b.right, b.bottom]);
+  });
+  const pre = document.createElement("pre");
+  pre.id = "labels"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+def test_page_names_a_surface_at_the_wells_the_section_figure_names_it():
+    # the same wells as the figure's rule (report.section.label_wells): the first and
+    # the last well of a surface reaching three wells or more, else the last
+    corr, beds = _crossing_section()
+    (section,) = section_view_data(corr, beds, TRACTS, datum="depth")["sections"]
+    beside = {}
+    for label in section["labels"]:
+        beside.setdefault(label["id"], []).append(label["core"])
+    assert {k: sorted(v) for k, v in beside.items()} == {
+        "dip:MFS-1": ["W-A", "W-D"],
+        "dip:SB-1": ["W-B", "W-D"],
+        "dip:MRS-1": ["W-D"],
+    }
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_page_names_a_surface_beside_its_first_and_last_well_without_overlaps(tmp_path):
+    # the page named each surface only right of its last well, while the section figure
+    # names one reaching three wells or more right of its first well as well
+    corr, beds = _crossing_section()
+    page = tmp_path / "section.html"
+    page.write_text(
+        section_view_html(corr, beds, TRACTS, datum="depth").replace(
+            "</body>", _LABEL_BOXES + "</body>", 1
+        ),
+        encoding="utf-8",
+    )
+    dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
+    assert page_errors(log) == []
+    found = re.search(r'<pre id="labels">(.*?)</pre>', dom, re.S)
+    assert found, "the probe script did not run"
+    boxes = json.loads(found.group(1).replace("&quot;", '"'))
+    wells = sorted(boxes["wells"].items(), key=lambda item: item[1][0])
+    beside = {}
+    for text, left, _, _, _ in boxes["labels"]:
+        # the well whose column ends nearest left of the id
+        well = max((w for w in wells if w[1][2] <= left), key=lambda w: w[1][2])
+        beside.setdefault(text, []).append(well[0])
+    assert {k: sorted(v) for k, v in beside.items()} == {
+        "MFS-1": ["W-A", "W-D"],
+        "SB-1": ["W-B", "W-D"],
+        "MRS-1": ["W-D"],
+    }
+
+    def overlap(a, b):
+        return min(a[2], b[2]) > max(a[0], b[0]) and min(a[3], b[3]) > max(a[1], b[1])
+
+    labels = [box[1:] for box in boxes["labels"]]
+    crossed = [(a, b) for k, a in enumerate(labels) for b in labels[k + 1 :] if overlap(a, b)]
+    assert crossed == []
+    frame = boxes["frame"]
+    assert all(frame[1] <= box[1] and box[3] <= frame[3] for box in labels)

@@ -493,3 +493,60 @@ def test_view_opens_on_a_median_core_where_core_lengths_differ_much():
     assert opening_window([(80.0, 153.0), (95.0, 160.0)], hang=False) == (80.0, 160.0)
     data = view_data(_apart(), load_scheme(SHOREFACE), default_tract_model())
     assert data["hang"] and data["window"][0] == 0.0
+
+
+def _faint_surfaces() -> Interpretation:
+    """Two cores where LHB has no probability anywhere; BSFR stays at 0.001 at every
+    contact of W-1 and reaches 0.5 at one contact of W-2 only; the other surfaces as
+    decoded."""
+    import dataclasses
+
+    interp = _interpretation()
+    cores = {}
+    for core in interp:
+        bounds = core.boundaries.assign(p_LHB=0.0, p_BSFR=0.001)
+        if core.core == "W-2":
+            bounds.loc[bounds.index[3], "p_BSFR"] = 0.5
+        cores[core.core] = dataclasses.replace(core, boundaries=bounds)
+    return Interpretation.from_cores(cores, interp.tracts, interp.surfaces, {})
+
+
+def test_page_legend_lists_the_surfaces_some_strip_log_of_its_cores_draws():
+    # the page's legend listed every surface of the tract model, LHB too, which no core
+    # has; the strip logs list only those drawn (report.striplog.drawn_surfaces)
+    from faciesseq.report.striplog import drawn_surfaces
+
+    interp = _faint_surfaces()
+    data = view_data(interp, load_scheme(SHOREFACE), default_tract_model())
+    listed = [s["code"] for s in data["surfaces"] if s["drawn"]]
+    assert listed == ["BSFR", "SB", "MRS", "MFS"]
+    assert drawn_surfaces(interp["W-1"]) == ("SB", "MRS", "MFS")
+    assert set(listed) == {s for core in interp for s in drawn_surfaces(core)}
+    # every surface keeps its colour and its contact probabilities, drawn or not
+    assert [s["code"] for s in data["surfaces"]] == list(interp.surfaces)
+
+
+#: Run after the page's script: the codes of the surface legend, into the DOM.
+_SURFACE_LEGEND = """<script>
+(function () {
+  const part = [...document.querySelectorAll("#legend .part")]
+    .find(p => p.querySelector("h2").textContent === "surface");
+  const pre = document.createElement("pre"); pre.id = "legend-codes";
+  pre.textContent = JSON.stringify([...part.querySelectorAll("code")].map(c => c.textContent));
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_page_surface_legend_in_chromium_leaves_out_surfaces_no_core_draws(tmp_path):
+    html = view_html(_faint_surfaces(), load_scheme(SHOREFACE), default_tract_model())
+    page = tmp_path / "view.html"
+    page.write_text(html.replace("</body>", _SURFACE_LEGEND + "</body>", 1), encoding="utf-8")
+    dom, log = open_page(page, tmp_path / "view.png", size="1400,1000")
+    assert page_errors(log) == []
+    found = re.search(r'<pre id="legend-codes">(.*?)</pre>', dom, re.S)
+    assert found, "the probe script did not run"
+    codes = json.loads(found.group(1).replace("&quot;", '"'))
+    assert codes == ["BSFR", "SB", "MRS", "MFS", "\u25c0"]  # then the pick's mark

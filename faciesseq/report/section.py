@@ -464,7 +464,7 @@ _LABEL_POINTS = 5.5
 
 def _surface_labels(ax, correlation, section, shift, width) -> None:
     """Ids of the correlated surfaces right of the first and the last well they reach
-    (:func:`_label_wells`), none over another: ids whose text would overlap side by
+    (:func:`label_wells`), none over another: ids whose text would overlap side by
     side are spread up and down about their surfaces' depths (:func:`_spread`), inside
     the depth axis. Call once the axes' limits are set; only the ids move, never a
     line."""
@@ -476,7 +476,7 @@ def _surface_labels(ax, correlation, section, shift, width) -> None:
     labels = []
     for sid, part in picks.groupby("surface_id"):
         text = str(sid).split(":", 1)[-1]
-        for well in _label_wells(part):
+        for well in label_wells(part):
             x = float(well["position"]) + width * 0.55
             # a character of DejaVu Sans is at most about 0.65 of the font's size wide
             right = x + len(text) * 0.65 * _LABEL_POINTS / 72 * x_per_inch
@@ -498,11 +498,13 @@ def _surface_labels(ax, correlation, section, shift, width) -> None:
             )
 
 
-def _label_wells(picks: pd.DataFrame) -> list[pd.Series]:
+def label_wells(picks: pd.DataFrame) -> list[pd.Series]:
     """The picks of one correlated surface whose wells its id is written beside: the
     last well it reaches, and the first where it reaches three or more (on a wide
     section an id at one end only left the line unnamed near the other wells; between
-    two wells the line is short enough to follow); none for a surface in one well."""
+    two wells the line is short enough to follow); none for a surface in one well.
+    The section figure and the section page (:mod:`faciesseq.report.section_view`)
+    both name surfaces by it."""
     if len(picks) < 2:
         return []
     ordered = picks.sort_values("position")

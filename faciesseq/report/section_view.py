@@ -22,6 +22,7 @@ from faciesseq.report.section import (
     distance_label,
     hang_section,
     hanging_datum,
+    label_wells,
     section_heading,
     surface_legend_order,
     tract_bands,
@@ -109,6 +110,16 @@ def _section_data(correlation, section: str, tracts: pd.DataFrame, datum: str) -
             {"left": a, "right": b, "depth": _numbers(depths), "tract": code}
             for a, b, depths, code in tract_bands(ties, columns, names)
         ],
+        "labels": [
+            {
+                "id": str(sid),
+                "surface": str(well["surface"]),
+                "core": str(well["core"]),
+                "depth": _number(well["depth"]),
+            }
+            for sid, part in picks.groupby("surface_id")
+            for well in label_wells(part)
+        ],
     }
 
 
@@ -155,7 +166,9 @@ def section_view_data(
         ``base``, ``tract`` with touching beds of one tract merged),
         ``ties`` (``id``, ``surface``, ``left``, ``right``, ``depth`` and pick
         probability ``p`` in both wells, ``confidence``, ``doubtful``) and
-        ``bands`` (tract shading between ties).
+        ``bands`` (tract shading between ties) and ``labels``, the wells each
+        correlated surface is named beside (``id``, ``surface``, ``core``, ``depth``;
+        :func:`faciesseq.report.section.label_wells`, as in the section figure).
     """
     sections = sorted(correlation.wells["section"].unique())
     kinds = surface_legend_order(correlation, None, surface_order)
@@ -209,6 +222,9 @@ svg { display: block; overflow: visible; }
 svg text { font: 11px "DejaVu Sans", Arial, sans-serif; fill: #1d2327; }
 svg text.small { font-size: 10px; fill: #5b6770; }
 svg .tie { cursor: help; }
+/* an id beside its first well lies across the lines leaving it: a white edge keeps it legible */
+svg text.surface-label { paint-order: stroke; stroke: #fff; stroke-width: 3px;
+  stroke-linejoin: round; }
 #tooltip { position: fixed; z-index: 10; pointer-events: none; background: #fff;
   border: 1px solid #555; box-shadow: 0 2px 6px rgba(0,0,0,0.25); padding: 0.35rem 0.55rem;
   font-size: 12px; max-width: 24rem; }
@@ -233,6 +249,41 @@ _JS = r"""
     const t = text(svg, x, y, name, null, "middle"), half = t.getComputedTextLength() / 2;
     t.setAttribute("x", Math.max(LEFT + half, Math.min(x, right - half)));
     return t;
+  }
+  // labels ({left, right}) cut into groups whose spans left to right overlap, one
+  // after another: ids of one group could overlap, those of two cannot
+  function sideBySide(labels) {
+    const groups = [];
+    let reach = -Infinity;
+    labels.slice().sort((p, q) => p.left - q.left).forEach(l => {
+      if (!groups.length || l.left > reach) groups.push([]);
+      groups[groups.length - 1].push(l);
+      reach = Math.max(reach, l.right);
+    });
+    return groups;
+  }
+  // positions of labels wanted at `wanted` (ascending), at least `gap` apart and within
+  // `low` and `high` where they fit, each cluster of crowded labels centred on the
+  // labels' own positions (report.section._spread, the figure's)
+  function spread(wanted, gap, low, high) {
+    const clusters = [];  // first position, count, sum of wanted - k * gap
+    wanted.forEach(y => {
+      clusters.push([0, 1, y]);
+      for (;;) {
+        const last = clusters[clusters.length - 1], count = last[1], total = last[2];
+        const start = Math.min(Math.max(total / count, low),
+          Math.max(high - (count - 1) * gap, low));
+        last[0] = start;
+        const before = clusters[clusters.length - 2];
+        if (!before || before[0] + before[1] * gap <= start) break;
+        clusters.pop();
+        before[2] += total - count * before[1] * gap;
+        before[1] += count;
+      }
+    });
+    const out = [];
+    clusters.forEach(c => { for (let k = 0; k < c[1]; k++) out.push(c[0] + k * gap); });
+    return out;
   }
   function fmt(x, digits) { return x === null ? "n/a" : x.toFixed(digits); }
   // a well's position: as many decimals as the spread of the section's positions needs
@@ -342,19 +393,24 @@ _JS = r"""
       ], ev));
       hit.addEventListener("mouseleave", hideTip);
     });
-    // each correlated surface's id right of the last well it reaches
-    const last = {};
-    sec.ties.forEach(t => { last[t.id] = t; });
-    const placed = [];
-    Object.values(last).sort((p, q) => (p.depth[1] - wells[p.right].shift) -
-        (q.depth[1] - wells[q.right].shift)).forEach(t => {
-      const c = wells[t.right];
-      const x = X(c.position) + COL / 2 + 4;
-      let yy = Y(t.depth[1] - c.shift) + 3;
-      placed.filter(p => p[0] === x).forEach(p => { if (yy < p[1] + 11) yy = p[1] + 11; });
-      placed.push([x, yy]);
-      const lab = text(svg, x, yy, t.id.split(":").slice(1).join(":"), "small");
-      lab.setAttribute("style", "fill:" + (surfaceColour[t.surface] || "#333"));
+    // each correlated surface's id right of the first and the last well it reaches
+    // (sec.labels), ids that would overlap side by side spread up and down about their
+    // surfaces' depths, inside the depth axis, as in the section figure
+    const labels = sec.labels.map(s => {
+      const w = wells[s.core], left = X(w.position) + COL / 2 + 4;
+      const t = text(svg, left, Y(s.depth - w.shift), s.id.split(":").slice(1).join(":"),
+        "small surface-label");
+      t.setAttribute("dominant-baseline", "central");
+      t.setAttribute("style", "fill:" + (surfaceColour[s.surface] || "#333"));
+      const box = t.getBBox();
+      return {node: t, left: left, right: left + box.width, y: Y(s.depth - w.shift),
+        height: box.height};
+    });
+    const gap = Math.ceil(Math.max(0, ...labels.map(l => l.height))) + 1;
+    sideBySide(labels).forEach(group => {
+      group.sort((p, q) => p.y - q.y);
+      spread(group.map(l => l.y), gap, HEAD + gap / 2, HEAD + HEIGHT - gap / 2)
+        .forEach((y, k) => group[k].node.setAttribute("y", y));
     });
     sec.wells.forEach(w => {
       const x = X(w.position) - COL / 2, g = el("g", {"data-core": w.core}, svg);

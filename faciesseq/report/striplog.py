@@ -346,11 +346,18 @@ def _surface_track(
 VISIBLE_PROBABILITY = 0.02
 
 
-def drawn_surfaces(interp: CoreInterpretation, step: float) -> tuple[str, ...]:
+def _default_step(beds: pd.DataFrame) -> float:
+    """The depth cell of a strip log's surface curves: the core's depth range / 400."""
+    return max(float(beds["base"].max()) - float(beds["top"].min()), 1e-9) / 400.0
+
+
+def drawn_surfaces(interp: CoreInterpretation, step: float | None = None) -> tuple[str, ...]:
     """The surfaces a strip log of ``interp`` draws, in the tract model's order: those
-    picked in the core, and those whose probability per depth cell of ``step``
-    reaches :data:`VISIBLE_PROBABILITY` somewhere."""
-    curves = interp.curves(step)
+    picked in the core, and those whose probability per depth cell of ``step`` (default
+    the strip log's, the core's depth range / 400) reaches :data:`VISIBLE_PROBABILITY`
+    somewhere. The strip-log page (:mod:`faciesseq.report.view`) lists the surfaces
+    this gives for some core of the page."""
+    curves = interp.curves(float(step) if step else _default_step(interp.beds))
     picked = set() if interp.picks is None else set(interp.picks["surface"].astype(str))
     return tuple(
         code
@@ -687,8 +694,8 @@ def strip_log(
     if len(beds) == 0:
         raise InputError("no beds to draw", core=interp.core)
     scheme, tract_model = _scheme_and_tracts(interp, scheme, tract_model, model)
-    top, base = float(beds["top"].min()), float(beds["base"].max())
-    step = float(step) if step else max(base - top, 1e-9) / 400.0
+    base = float(beds["base"].max())
+    step = float(step) if step else _default_step(beds)
     gaps = _gaps(beds)
     drawn = drawn_surfaces(interp, step)
     entries = _legend_entries(interp, scheme, tract_model, drawn)

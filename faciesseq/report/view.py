@@ -32,6 +32,7 @@ from faciesseq.report.striplog import (
     SURFACE_AXIS_END,
     _gaps,
     bed_widths,
+    drawn_surfaces,
     facies_name,
     pick_label,
 )
@@ -210,7 +211,9 @@ def view_data(
         ``title``, ``checked``, ``labelled`` and ``note`` (whether the probabilities were
         checked against known tracts), ``units``, ``grain_classes``,
         ``tracts``, ``surfaces`` and ``facies`` (``code``, ``name``,
-        ``colour``) and ``cores``: per core its beds (``top``, ``base``,
+        ``colour``; a surface's ``drawn``: whether the strip log of some core draws
+        it, :func:`faciesseq.report.striplog.drawn_surfaces`, the surfaces the legend
+        lists and the surface track draws) and ``cores``: per core its beds (``top``, ``base``,
         ``facies``, ``width`` 0-1, ``tract``, ``p`` one list per tract,
         ``top_contact`` / ``base_contact`` indices into ``contacts``),
         ``contacts`` (``depth``, ``p`` one list per surface), ``gaps`` and
@@ -236,6 +239,7 @@ def view_data(
         if len(core.beds)
     ]
     hang = hang_by_default(ranges)
+    drawn = {code for core in interpretation if len(core.beds) for code in drawn_surfaces(core)}
     return {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
@@ -249,7 +253,12 @@ def view_data(
             for t in tracts
         ],
         "surfaces": [
-            {"code": s, "name": surface_names.get(s, ""), "colour": surface_colour(s, surfaces)}
+            {
+                "code": s,
+                "name": surface_names.get(s, ""),
+                "colour": surface_colour(s, surfaces),
+                "drawn": s in drawn,
+            }
             for s in surfaces
         ],
         "facies": _facies_legend(interpretation, scheme),
@@ -580,7 +589,8 @@ _JS = r"""
   m.textContent = measures.map(k => widthNote[k] || k).join("; ");
   document.querySelector("#legend .part").appendChild(m);
   legendList("systems tract", tracts, "swatch");
-  legendList("surface", surfaces.concat(
+  // only the surfaces some core's strip log draws (picked, or visible in a depth cell)
+  legendList("surface", surfaces.filter(s => s.drawn).concat(
     [{code: "\u25c0", name: "pick: probability, uncertainty interval", colour: "#fff"}]), "line");
 
   // ---------------------------------------------------------------- drawing
@@ -715,7 +725,7 @@ _JS = r"""
           let left = 0;
           surfaces.forEach((s, j) => {
             const p = core.contacts.p[j][k] || 0;
-            if (p > 0.001) el("line", {x1: x + left * sx, x2: x + (left + p) * sx,
+            if (p > 0.001 && s.drawn) el("line", {x1: x + left * sx, x2: x + (left + p) * sx,
               y1: py, y2: py, stroke: s.colour, "stroke-width": 2.5, "data-contact": k}, g);
             left += p;
           });
