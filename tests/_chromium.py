@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import html
+import json
+import re
 import shutil
 import subprocess
 import tempfile
@@ -71,6 +74,14 @@ def print_pdf(html: Path, pdf: Path) -> bytes:
             check=True,
         )
     return pdf.read_bytes()
+
+
+def probe_json(dom: str, pre_id: str):
+    """The JSON a probe script left in ``<pre id="pre_id">`` of the rendered ``dom``
+    (its HTML escapes undone); fails the test where the script did not run."""
+    found = re.search(rf'<pre id="{pre_id}">(.*?)</pre>', dom, re.S)
+    assert found, f"the probe script did not run (no <pre id={pre_id!r}>)"
+    return json.loads(html.unescape(found.group(1)))
 
 
 def page_errors(log: str) -> list[str]:

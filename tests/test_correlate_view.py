@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
-from _chromium import CHROMIUM, open_page, page_errors
+from _chromium import CHROMIUM, open_page, page_errors, probe_json
 
 from faciesseq.correlation import correlate
 from faciesseq.report.section_view import section_view_data, section_view_html
@@ -122,9 +122,7 @@ def test_section_page_opens_in_chromium_and_hover_shows_the_tie(tmp_path):
     )
     dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
     assert page_errors(log) == []
-    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
-    assert found, "the probe script did not run"
-    out = json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    out = probe_json(dom, "probe")
     assert out["errors"] == []
     assert out["wells"] == 3 and out["lines"] == len(corr.ties)
     tie = corr.ties.iloc[0]
@@ -186,9 +184,7 @@ def test_a_long_well_name_is_not_drawn_over_the_depth_axis_labels(tmp_path):
         encoding="utf-8",
     )
     dom, _ = open_page(page, tmp_path / "section.png", size="1400,900")
-    found = re.search(r'<pre id="boxes">(.*?)</pre>', dom, re.S)
-    assert found, "the probe script did not run"
-    boxes = json.loads(found.group(1).replace("&quot;", '"'))
+    boxes = probe_json(dom, "boxes")
     assert len(boxes["wells"]) == 3 and len(boxes["axis"]) >= 3
 
     def overlap(a, b):
@@ -283,9 +279,7 @@ def test_page_names_a_surface_beside_its_first_and_last_well_without_overlaps(tm
     )
     dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
     assert page_errors(log) == []
-    found = re.search(r'<pre id="labels">(.*?)</pre>', dom, re.S)
-    assert found, "the probe script did not run"
-    boxes = json.loads(found.group(1).replace("&quot;", '"'))
+    boxes = probe_json(dom, "labels")
     wells = sorted(boxes["wells"].items(), key=lambda item: item[1][0])
     beside = {}
     for text, left, _, _, _ in boxes["labels"]:

@@ -10,7 +10,7 @@ from html.parser import HTMLParser
 import hmm_synthetic as synth
 import numpy as np
 import pytest
-from _chromium import CHROMIUM, open_page, page_errors
+from _chromium import CHROMIUM, open_page, page_errors, probe_json
 from _synthetic import SHOREFACE, synthetic_core
 from PIL import Image
 
@@ -294,9 +294,7 @@ def _probe(tmp_path, html: str) -> tuple[dict, str]:
         encoding="utf-8",
     )
     dom, log = open_page(page, tmp_path / "probe.png", size="1400,1000")
-    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
-    assert found, "the probe script did not run"
-    return json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&")), log
+    return probe_json(dom, "probe"), log
 
 
 @pytest.mark.chromium
@@ -447,10 +445,7 @@ def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     page.write_text(html.replace("</body>", _LAYOUT + "</body>", 1), encoding="utf-8")
     dom, log = open_page(page, tmp_path / "layout.png", size="1200,1400")
     assert page_errors(log) == []
-    found = re.search(r'<pre id="probe">(.*?)</pre>', dom, re.S)
-    assert found, "the layout probe did not run"
-    dumped = found.group(1).replace("&quot;", '"').replace("&gt;", ">").replace("&lt;", "<")
-    out = json.loads(dumped.replace("&amp;", "&"))
+    out = probe_json(dom, "probe")
     legend = out["legend"]
     for well in out["wells"]:  # four wells do not fit beside the legend: it goes above them
         apart = (
@@ -546,7 +541,5 @@ def test_page_surface_legend_in_chromium_leaves_out_surfaces_no_core_draws(tmp_p
     page.write_text(html.replace("</body>", _SURFACE_LEGEND + "</body>", 1), encoding="utf-8")
     dom, log = open_page(page, tmp_path / "view.png", size="1400,1000")
     assert page_errors(log) == []
-    found = re.search(r'<pre id="legend-codes">(.*?)</pre>', dom, re.S)
-    assert found, "the probe script did not run"
-    codes = json.loads(found.group(1).replace("&quot;", '"'))
+    codes = probe_json(dom, "legend-codes")
     assert codes == ["BSFR", "SB", "MRS", "MFS", "\u25c0"]  # then the pick's mark
