@@ -191,10 +191,17 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         the bed's base, categorical; needs a scheme), ``"rank_step_above"``
         (the same jump at the bed's top: the bed above minus this bed; needs a
         scheme), ``"rank_trend"`` (slope
-        of the rank over five beds, binned, categorical; needs a scheme) and any numeric
-        bed attribute (Gaussian). ``None``: ``facies_trend``, ``thickness``
-        (not on a depth grid), ``contact`` where the beds have them and
-        ``rank_step`` with a scheme.
+        of the rank over five beds, binned, categorical; needs a scheme), ``"stacking"``
+        (boosted trees over a window of beds and cycles, learnt from labelled beds),
+        the stacking context of :data:`faciesseq.cycles.CONTEXT_FEATURES` (needs a
+        scheme) and any numeric bed attribute (Gaussian). ``None``: the defaults of
+        :mod:`faciesseq.hmm.features` that the beds and the scheme can feed: with
+        labels ``facies_trend``, ``thickness``, ``contact`` and, with a scheme,
+        ``rank_step`` and ``stacking``; without labels, with a scheme and not on a
+        depth grid, the stacking context, ``contact`` and ``rank_step``; else
+        ``facies_trend``, ``thickness``, ``contact`` and ``rank_step`` (each rank
+        feature only with a scheme, ``contact`` only where the beds have contact
+        types, ``thickness`` not on a depth grid).
     substates
         Sub-states per tract (left-to-right chain); an int for every tract, a
         mapping tract -> int, or ``None`` for the tract model's own.
