@@ -211,6 +211,9 @@ def save_model(
 ) -> Path:
     """Write a fitted model to ``path`` as JSON, atomically (temporary file, then rename).
 
+    A file already at ``path`` is replaced, as Python's own writers do; the command
+    line (``faciesseq fit -o``) refuses one unless ``--force`` is given.
+
     ``provenance`` (e.g. input hashes, source names, command line) is added to
     the ``training`` section, except the run-specific entries of :data:`RUN_KEYS`
     (``command``...), which go with the date under ``provenance``.
