@@ -319,6 +319,7 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None
             for name in dict.fromkeys(names[:2]):
                 tables[name].add(tops)
             for name, make in _TABLES.items():
+                make = _CSV_TABLES.get(name, make) if fmt == "csv" else make
                 tables[f"{name}.{fmt}"].add(make(part))
             written.add(part)
         for table in tables.values():
@@ -351,6 +352,10 @@ _TABLES = {
     "surfaces": lambda part: part.surfaces_table(),
     "picks": lambda part: part.picks_table(),
 }
+
+#: The tables whose CSV text is written from categorical text columns (the same text;
+#: each distinct text laid out once, not millions of texts made and encoded again).
+_CSV_TABLES = {"surfaces": lambda part: part.surfaces_table(categorical=True)}
 
 
 def _extra_outputs(args, scheme, tract_model, samples):
