@@ -541,10 +541,10 @@ class _UnseenPlaces:
         import numpy as np
         import pandas as pd
 
-        facies = np.asarray(cores.column("facies"))
-        new = _unseen(facies, [*self.seen, *self.first])
+        new = _unseen(cores, [*self.seen, *self.first])
         if not new.any():
             return
+        facies = np.asarray(cores.column("facies"))
         table = cores.to_frame(provenance=True)[new]
         table = table.assign(code=facies[new].astype(str)).drop_duplicates("code")
         for row in table.to_dict("records"):
@@ -561,19 +561,36 @@ class _UnseenPlaces:
             )
 
 
-def _unseen(facies, known: list[str]):
-    """Where ``facies.astype(str)`` (an object array) is not in ``known``, as a boolean
-    array; each distinct code converted and looked up once (a million codes converted one
-    by one took 0.3 s of ``decode``)."""
+def _unseen(cores, known: list[str]):
+    """Where the facies code of an interval of ``cores``, as ``str`` writes it, is not in
+    ``known``, as a boolean array; each distinct code converted and looked up once (a
+    million codes converted one by one took 0.3 s of ``decode``)."""
+    import numpy as np
+
+    ids, distinct = _facies_ids(cores)
+    new = ~np.isin(np.asarray(distinct, dtype=object).astype(str), known)
+    new = np.append(new, False)[ids]
+    missing = np.flatnonzero(ids < 0)
+    if len(missing):  # None or NaN: as ``str`` writes each
+        facies = np.asarray(cores.column("facies"))
+        new[missing] = ~np.isin(facies[missing].astype(str), known)
+    return new
+
+
+def _facies_ids(cores):
+    """``(ids, distinct)`` of the facies codes of every interval of ``cores`` (-1: missing):
+    the categorical column's own codes and categories where the cores are one table,
+    instead of ``pandas.factorize`` of an object array of millions of codes made from it."""
     import numpy as np
     import pandas as pd
 
-    ids, distinct = pd.factorize(facies)
-    new = ~np.isin(np.asarray(distinct, dtype=object).astype(str), known)
-    new = np.append(new, False)[ids]
-    missing = ids < 0  # None or NaN: as ``str`` writes each
-    new[missing] = ~np.isin(facies[missing].astype(str), known)
-    return new
+    from faciesseq.core import CoreTable
+
+    if isinstance(cores.cores, CoreTable):
+        column = cores.cores.table["facies"]
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            return column.cat.codes.to_numpy(), np.asarray(column.cat.categories, dtype=object)
+    return pd.factorize(np.asarray(cores.column("facies")))
 
 
 class _Chosen:
