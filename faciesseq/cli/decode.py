@@ -217,11 +217,7 @@ def _agreement(interp, column: str):
     if column not in beds.columns:
         return None
     codes = {str(t).upper(): t for t in interp.tracts}  # labels read in any case, as a fit
-    upper = beds[column].astype(str).str.strip().str.upper()
-    given = (beds[column].notna() & (upper != "")).to_numpy()
-    labelled = given & upper.isin(list(codes)).to_numpy()
-    text = upper.map(codes)
-    others = sorted(set(upper[given & ~labelled]))
+    labelled, text, others = _labels_read(beds[column], codes)
     if others:  # labels no tract of the model: left out, never scored as disagreement
         shown = "tract" if column == "interpreted_tract" else column  # as the source names it
         warnings.warn(
@@ -233,7 +229,7 @@ def _agreement(interp, column: str):
         return None
     rows = np.flatnonzero(labelled)
     core_id, cores = pd.factorize(beds["core"].iloc[rows])
-    same = (text.iloc[rows].to_numpy() == beds["tract"].iloc[rows].to_numpy()).astype(bool)
+    same = (text[rows] == beds["tract"].iloc[rows].to_numpy()).astype(bool)
     w = beds["thickness"].to_numpy(float)[rows]
     starts = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])
     ends = np.r_[starts[1:], len(rows)]
@@ -252,6 +248,23 @@ def _agreement(interp, column: str):
             "agreement_thickness": hit,
         }
     )
+
+
+def _labels_read(labels, codes: dict):
+    """``(labelled, text, others)`` of an interpreter's column: per bed, whether its label,
+    stripped and in upper case, is a key of ``codes``, and the tract that names (an object
+    array); and the labels given that name no tract, sorted. Each distinct label is read
+    once, by the same pandas text methods (a million beds hold a handful of labels)."""
+    import numpy as np
+    import pandas as pd
+
+    ids, distinct = pd.factorize(labels, use_na_sentinel=True)  # -1: missing
+    upper = pd.Series(distinct).astype(str).str.strip().str.upper()
+    given = (upper != "").to_numpy(dtype=bool)
+    labelled = given & upper.isin(list(codes)).to_numpy(dtype=bool)
+    others = sorted(set(upper[given & ~labelled]))
+    text = np.append(upper.map(codes).to_numpy(dtype=object), None)
+    return np.append(labelled, False)[ids], text[ids], others
 
 
 class _Written:
