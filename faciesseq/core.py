@@ -936,7 +936,16 @@ class CoreSet:
 
     def extents(self, tolerance: float = DEPTH_TOL) -> pd.DataFrame:
         """Per core (index: name; empty cores left out): ``top``, ``base`` (the deepest
-        base), ``thickness`` (described, gaps excluded) and ``gaps`` (their number)."""
+        base), ``thickness`` (described, gaps excluded) and ``gaps`` (their number).
+        Made once per tolerance (validation and the screening both ask); a copy is
+        returned, so that no caller changes another's."""
+        key = ("extents", float(tolerance))
+        if key not in self._cache:
+            self._cache[key] = self._extents(tolerance)
+        return self._cache[key].copy()
+
+    def _extents(self, tolerance: float) -> pd.DataFrame:
+        """:meth:`extents`, computed."""
         if isinstance(self.cores, CoreTable):
             lengths = np.diff(self.cores.starts)
         else:
@@ -1062,6 +1071,8 @@ class CoreSet:
         new_id = np.full(len(self.cores), -1, dtype=np.int64)
         new_id[[position[n] for n in out.cores]] = np.arange(len(out.cores))
         for key, found in self._cache.items():
+            if key[0] == "extents":  # a table per core, made again when asked for
+                continue
             if found is None:
                 out._cache[key] = None
                 continue

@@ -454,11 +454,13 @@ class Interpretation:
             columns.append("interpreted_tract")
         return self.beds[columns].reset_index(drop=True)
 
-    def surfaces_table(self) -> pd.DataFrame:
+    def surfaces_table(self, categorical: bool = False) -> pd.DataFrame:
         """``core, depth, surface, probability, picked``: every contact and surface.
 
         One row per (contact, surface code); ``picked`` is true where the
-        surface was picked at that contact.
+        surface was picked at that contact. ``categorical``: the ``core`` and
+        ``surface`` columns as categoricals, the same texts held once each (for a
+        writer that reads the codes, such as the CSV text of ``decode``).
         """
         columns = ["core", "depth", "surface", "probability", "picked"]
         if not len(self.boundaries):
@@ -466,11 +468,18 @@ class Interpretation:
         b, codes = self.boundaries, list(self.surfaces)
         k, n = len(codes), len(b)
         contact = np.repeat(np.arange(n), k)
+        surface = np.tile(np.arange(k), n)
+        if categorical and len(set(codes)) == k:
+            core = pd.Categorical(b["core"])
+            core = pd.Categorical.from_codes(core.codes[contact], core.categories)
+            surface = pd.Categorical.from_codes(surface, codes)
+        else:
+            core, surface = take_text(b["core"], contact), text_column(codes, surface)
         table = pd.DataFrame(
             {
-                "core": take_text(b["core"], contact),
+                "core": core,
                 "depth": np.repeat(b["depth"].to_numpy(float), k),
-                "surface": text_column(codes, np.tile(np.arange(k), n)),
+                "surface": surface,
                 "probability": b[[f"p_{s}" for s in self.surfaces]].to_numpy(float).reshape(-1),
             }
         )

@@ -354,25 +354,41 @@ def slice_sums(values: np.ndarray, start: np.ndarray, length: np.ndarray) -> np.
 
     numpy sums a contiguous run of fewer than 8 numbers one by one, and up to
     128 numbers in 8 running sums joined pairwise; this repeats those steps for
-    all runs at once (longer runs are summed by numpy itself).
+    all runs at once, each kind of run on its own rows (longer runs are summed by
+    numpy itself).
     """
     start, length = np.asarray(start, dtype=np.int64), np.asarray(length, dtype=np.int64)
     out = np.zeros(len(start))
+    short = np.flatnonzero(length < 8)
+    out[short] = _one_by_one(values, start[short], length[short])
+    mid = np.flatnonzero((length >= 8) & (length <= 128))
+    out[mid] = _eight_lanes(values, start[mid], length[mid])
+    for k in np.flatnonzero(length > 128):
+        out[k] = values[start[k] : start[k] + length[k]].sum()
+    return out
+
+
+def _one_by_one(values: np.ndarray, start: np.ndarray, length: np.ndarray) -> np.ndarray:
+    """Sums of runs of fewer than 8 numbers, added one by one as numpy adds them."""
+    out = np.zeros(len(start))
+    for k in range(int(length.max(initial=0))):
+        use = np.flatnonzero(k < length)
+        out[use] += values[start[use] + k]
+    return out
+
+
+def _eight_lanes(values: np.ndarray, start: np.ndarray, length: np.ndarray) -> np.ndarray:
+    """Sums of runs of 8 to 128 numbers: 8 running sums joined pairwise, then the rest
+    added one by one, as numpy sums them."""
     last = len(values) - 1
     pick = lambda k, use: np.where(use, values[np.minimum(start + k, last)], 0.0)  # noqa: E731
-    short, mid = length < 8, (length >= 8) & (length <= 128)
-    for k in range(7):
-        out += pick(k, short & (k < length))
     whole = length - length % 8
-    lanes = [pick(j, mid) for j in range(8)]
-    for i in range(8, int(whole[mid].max(initial=0)), 8):
-        lanes = [r + pick(i + j, mid & (i < whole)) for j, r in enumerate(lanes)]
+    lanes = [values[start + j] for j in range(8)]
+    for i in range(8, int(whole.max(initial=0)), 8):
+        lanes = [r + pick(i + j, i < whole) for j, r in enumerate(lanes)]
     joined = ((lanes[0] + lanes[1]) + (lanes[2] + lanes[3])) + (
         (lanes[4] + lanes[5]) + (lanes[6] + lanes[7])
     )
     for k in range(7):
-        joined += pick(whole + k, mid & (k < length - whole))
-    out = np.where(short, out, joined)
-    for k in np.flatnonzero(length > 128):
-        out[k] = values[start[k] : start[k] + length[k]].sum()
-    return out
+        joined += pick(whole + k, k < length - whole)
+    return joined

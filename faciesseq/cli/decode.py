@@ -217,11 +217,7 @@ def _agreement(interp, column: str):
     if column not in beds.columns:
         return None
     codes = {str(t).upper(): t for t in interp.tracts}  # labels read in any case, as a fit
-    upper = beds[column].astype(str).str.strip().str.upper()
-    given = (beds[column].notna() & (upper != "")).to_numpy()
-    labelled = given & upper.isin(list(codes)).to_numpy()
-    text = upper.map(codes)
-    others = sorted(set(upper[given & ~labelled]))
+    labelled, text, others = _labels_read(beds[column], codes)
     if others:  # labels no tract of the model: left out, never scored as disagreement
         shown = "tract" if column == "interpreted_tract" else column  # as the source names it
         warnings.warn(
@@ -233,7 +229,7 @@ def _agreement(interp, column: str):
         return None
     rows = np.flatnonzero(labelled)
     core_id, cores = pd.factorize(beds["core"].iloc[rows])
-    same = (text.iloc[rows].to_numpy() == beds["tract"].iloc[rows].to_numpy()).astype(bool)
+    same = (text[rows] == beds["tract"].iloc[rows].to_numpy()).astype(bool)
     w = beds["thickness"].to_numpy(float)[rows]
     starts = np.flatnonzero(np.r_[True, core_id[1:] != core_id[:-1]])
     ends = np.r_[starts[1:], len(rows)]
@@ -252,6 +248,23 @@ def _agreement(interp, column: str):
             "agreement_thickness": hit,
         }
     )
+
+
+def _labels_read(labels, codes: dict):
+    """``(labelled, text, others)`` of an interpreter's column: per bed, whether its label,
+    stripped and in upper case, is a key of ``codes``, and the tract that names (an object
+    array); and the labels given that name no tract, sorted. Each distinct label is read
+    once, by the same pandas text methods (a million beds hold a handful of labels)."""
+    import numpy as np
+    import pandas as pd
+
+    ids, distinct = pd.factorize(labels, use_na_sentinel=True)  # -1: missing
+    upper = pd.Series(distinct).astype(str).str.strip().str.upper()
+    given = (upper != "").to_numpy(dtype=bool)
+    labelled = given & upper.isin(list(codes)).to_numpy(dtype=bool)
+    others = sorted(set(upper[given & ~labelled]))
+    text = np.append(upper.map(codes).to_numpy(dtype=object), None)
+    return np.append(labelled, False)[ids], text[ids], others
 
 
 class _Written:
@@ -319,6 +332,7 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None
             for name in dict.fromkeys(names[:2]):
                 tables[name].add(tops)
             for name, make in _TABLES.items():
+                make = _CSV_TABLES.get(name, make) if fmt == "csv" else make
                 tables[f"{name}.{fmt}"].add(make(part))
             written.add(part)
         for table in tables.values():
@@ -351,6 +365,10 @@ _TABLES = {
     "surfaces": lambda part: part.surfaces_table(),
     "picks": lambda part: part.picks_table(),
 }
+
+#: The tables whose CSV text is written from categorical text columns (the same text;
+#: each distinct text laid out once, not millions of texts made and encoded again).
+_CSV_TABLES = {"surfaces": lambda part: part.surfaces_table(categorical=True)}
 
 
 def _extra_outputs(args, scheme, tract_model, samples):
@@ -536,10 +554,10 @@ class _UnseenPlaces:
         import numpy as np
         import pandas as pd
 
-        facies = np.asarray(cores.column("facies"))
-        new = _unseen(facies, [*self.seen, *self.first])
+        new = _unseen(cores, [*self.seen, *self.first])
         if not new.any():
             return
+        facies = np.asarray(cores.column("facies"))
         table = cores.to_frame(provenance=True)[new]
         table = table.assign(code=facies[new].astype(str)).drop_duplicates("code")
         for row in table.to_dict("records"):
@@ -556,19 +574,36 @@ class _UnseenPlaces:
             )
 
 
-def _unseen(facies, known: list[str]):
-    """Where ``facies.astype(str)`` (an object array) is not in ``known``, as a boolean
-    array; each distinct code converted and looked up once (a million codes converted one
-    by one took 0.3 s of ``decode``)."""
+def _unseen(cores, known: list[str]):
+    """Where the facies code of an interval of ``cores``, as ``str`` writes it, is not in
+    ``known``, as a boolean array; each distinct code converted and looked up once (a
+    million codes converted one by one took 0.3 s of ``decode``)."""
+    import numpy as np
+
+    ids, distinct = _facies_ids(cores)
+    new = ~np.isin(np.asarray(distinct, dtype=object).astype(str), known)
+    new = np.append(new, False)[ids]
+    missing = np.flatnonzero(ids < 0)
+    if len(missing):  # None or NaN: as ``str`` writes each
+        facies = np.asarray(cores.column("facies"))
+        new[missing] = ~np.isin(facies[missing].astype(str), known)
+    return new
+
+
+def _facies_ids(cores):
+    """``(ids, distinct)`` of the facies codes of every interval of ``cores`` (-1: missing):
+    the categorical column's own codes and categories where the cores are one table,
+    instead of ``pandas.factorize`` of an object array of millions of codes made from it."""
     import numpy as np
     import pandas as pd
 
-    ids, distinct = pd.factorize(facies)
-    new = ~np.isin(np.asarray(distinct, dtype=object).astype(str), known)
-    new = np.append(new, False)[ids]
-    missing = ids < 0  # None or NaN: as ``str`` writes each
-    new[missing] = ~np.isin(facies[missing].astype(str), known)
-    return new
+    from faciesseq.core import CoreTable
+
+    if isinstance(cores.cores, CoreTable):
+        column = cores.cores.table["facies"]
+        if isinstance(column.dtype, pd.CategoricalDtype):
+            return column.cat.codes.to_numpy(), np.asarray(column.cat.categories, dtype=object)
+    return pd.factorize(np.asarray(cores.column("facies")))
 
 
 class _Chosen:

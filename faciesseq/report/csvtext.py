@@ -226,12 +226,16 @@ class _FloatField(_Field):
     digits) in three words: the sign and places 5..1; place 0, the point and places
     -1..-4; places -5..-9; the places before the first significant digit (but the
     units) and after the last (but the integer part) blanked. Exponent notation is
-    ``d[.ddddd]e+XX`` in the same three words."""
+    ``d[.ddddd]e+XX`` in the same three words. A column whose every cell is written in
+    fixed notation below 10 with no sign (probabilities) leaves the first word blank on
+    every row: it is not laid out (less padding to drop)."""
 
     width = 24
 
     def __init__(self, values: np.ndarray):
         self.values = values
+        self.skip = 1 if _below_ten(values) else 0
+        self.width = 24 - 8 * self.skip
 
     def fill(self, block: np.ndarray, start: int, stop: int) -> None:
         values = self.values[start:stop]
@@ -281,14 +285,18 @@ class _FloatField(_Field):
         whole -= middle * 1e5
         sign = np.where(np.signbit(values) & ~np.isnan(values), _MINUS, _NUL).astype(np.uint64)
         words = block.view(_WORD)
-        integer = _FIVE_DIGITS[high.astype(np.intp)] << np.uint64(8)
-        words[:, 0] = integer & _BLANK_FROM_1.take(5 - exponent, mode="clip") | sign
+        skip = self.skip
+        if not skip:
+            integer = _FIVE_DIGITS[high.astype(np.intp)] << np.uint64(8)
+            words[:, 0] = integer & _BLANK_FROM_1.take(5 - exponent, mode="clip") | sign
         middle = _FIVE_DIGITS[middle.astype(np.intp)]
         point = np.where(last < 0, _DOT << 8, _NUL).astype(np.uint64)
         decimals = (middle & ~np.uint64(0xFF)) << np.uint64(8)
         decimals &= _KEEP_TO[2:].take(-last, mode="clip")
-        words[:, 1] = (middle & np.uint64(0xFF)) | point | decimals
-        words[:, 2] = _FIVE_DIGITS[whole.astype(np.intp)] & _KEEP_TO.take(-last - 4, mode="clip")
+        words[:, 1 - skip] = (middle & np.uint64(0xFF)) | point | decimals
+        words[:, 2 - skip] = _FIVE_DIGITS[whole.astype(np.intp)] & _KEEP_TO.take(
+            -last - 4, mode="clip"
+        )
         digits = rounded.astype(np.int64)
 
         sci = ~fixed & scaled
@@ -309,9 +317,10 @@ class _FloatField(_Field):
 
         zero = values == 0
         if zero.any():
-            words[zero, 0] = sign[zero]
-            words[zero, 1] = _ZERO
-            words[zero, 2] = 0
+            if not skip:
+                words[zero, 0] = sign[zero]
+            words[zero, 1 - skip] = _ZERO
+            words[zero, 2 - skip] = 0
         missing = np.isnan(values)
         if missing.any():
             words[missing] = 0
@@ -378,6 +387,15 @@ class _DecimalField(_FloatField):
         if by_hand.any():
             at = np.flatnonzero(by_hand)
             _put_text(block, at, _decimal_texts(values[at]))
+
+
+def _below_ten(values: np.ndarray) -> bool:
+    """Whether ``%.6g`` writes every value in fixed notation below 10 with no sign (0,
+    NaN, or 1e-4 to 9.99999: probabilities), so that :class:`_FloatField` leaves its
+    first word blank on every row."""
+    with np.errstate(invalid="ignore"):
+        fixed = (values >= 1e-4) & (values < 9.99999)
+    return bool(np.all(fixed | np.isnan(values) | ((values == 0) & ~np.signbit(values))))
 
 
 def _decimal_texts(values: np.ndarray) -> list[str]:
