@@ -84,6 +84,21 @@ def probe_json(dom: str, pre_id: str):
     return json.loads(html.unescape(found.group(1)))
 
 
+def run_probe(
+    folder: Path, html_text: str, script: str, pre_id: str, size: str, head: str = ""
+) -> tuple[object, str]:
+    """``(probe JSON, log)``: ``html_text`` with ``script`` before ``</body>`` (and
+    ``head`` after ``<head>``) written to ``folder``, opened at ``size``, and the JSON
+    the script left in ``<pre id="pre_id">`` read back (:func:`probe_json`)."""
+    text = html_text.replace("</body>", script + "</body>", 1)
+    if head:
+        text = text.replace("<head>", "<head>" + head, 1)
+    page = folder / "probe.html"
+    page.write_text(text, encoding="utf-8")
+    dom, log = open_page(page, folder / "probe.png", size=size)
+    return probe_json(dom, pre_id), log
+
+
 def page_errors(log: str) -> list[str]:
     """Log lines that mean the page itself failed (script errors, resources not loaded)."""
     bad = ("Uncaught", "Failed to load resource", "ERR_", "Refused to", "Not allowed to load")

@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
-from _chromium import CHROMIUM, open_page, page_errors, probe_json
+from _chromium import CHROMIUM, page_errors, run_probe
 
 from faciesseq.correlation import correlate
 from faciesseq.report.section_view import section_view_data, section_view_html
@@ -115,14 +115,8 @@ console.error = (...a) => window.__errors.push(a.join(" "));
 def test_section_page_opens_in_chromium_and_hover_shows_the_tie(tmp_path):
     corr, beds = _section()
     html = section_view_html(corr, beds, TRACTS)
-    page = tmp_path / "section.html"
-    page.write_text(
-        html.replace("<head>", "<head>" + _HOOK, 1).replace("</body>", _PROBE + "</body>", 1),
-        encoding="utf-8",
-    )
-    dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
+    out, log = run_probe(tmp_path, html, _PROBE, "probe", "1400,900", head=_HOOK)
     assert page_errors(log) == []
-    out = probe_json(dom, "probe")
     assert out["errors"] == []
     assert out["wells"] == 3 and out["lines"] == len(corr.ties)
     tie = corr.ties.iloc[0]
@@ -178,13 +172,9 @@ def test_a_long_well_name_is_not_drawn_over_the_depth_axis_labels(tmp_path):
     # the first well's name, centred over its column next to the depth axis, was drawn
     # over the depth labels and the units where it was wider than the column
     corr, beds = _section(names=("Quillerby North 1", "W-2", "W-3"))
-    page = tmp_path / "section.html"
-    page.write_text(
-        section_view_html(corr, beds, TRACTS).replace("</body>", _BOXES + "</body>", 1),
-        encoding="utf-8",
-    )
-    dom, _ = open_page(page, tmp_path / "section.png", size="1400,900")
-    boxes = probe_json(dom, "boxes")
+    html = section_view_html(corr, beds, TRACTS)
+    boxes, log = run_probe(tmp_path, html, _BOXES, "boxes", "1400,900")
+    assert page_errors(log) == []
     assert len(boxes["wells"]) == 3 and len(boxes["axis"]) >= 3
 
     def overlap(a, b):
@@ -270,16 +260,9 @@ def test_page_names_a_surface_beside_its_first_and_last_well_without_overlaps(tm
     # the page named each surface only right of its last well, while the section figure
     # names one reaching three wells or more right of its first well as well
     corr, beds = _crossing_section()
-    page = tmp_path / "section.html"
-    page.write_text(
-        section_view_html(corr, beds, TRACTS, datum="depth").replace(
-            "</body>", _LABEL_BOXES + "</body>", 1
-        ),
-        encoding="utf-8",
-    )
-    dom, log = open_page(page, tmp_path / "section.png", size="1400,900")
+    html = section_view_html(corr, beds, TRACTS, datum="depth")
+    boxes, log = run_probe(tmp_path, html, _LABEL_BOXES, "labels", "1400,900")
     assert page_errors(log) == []
-    boxes = probe_json(dom, "labels")
     wells = sorted(boxes["wells"].items(), key=lambda item: item[1][0])
     beside = {}
     for text, left, _, _, _ in boxes["labels"]:

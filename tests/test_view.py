@@ -10,7 +10,7 @@ from html.parser import HTMLParser
 import hmm_synthetic as synth
 import numpy as np
 import pytest
-from _chromium import CHROMIUM, open_page, page_errors, probe_json
+from _chromium import CHROMIUM, open_page, page_errors, run_probe
 from _synthetic import SHOREFACE, synthetic_core
 from PIL import Image
 
@@ -288,13 +288,7 @@ _PROBE = """<script>
 
 
 def _probe(tmp_path, html: str) -> tuple[dict, str]:
-    page = tmp_path / "probe.html"
-    page.write_text(
-        html.replace("<head>", "<head>" + _HOOK, 1).replace("</body>", _PROBE + "</body>", 1),
-        encoding="utf-8",
-    )
-    dom, log = open_page(page, tmp_path / "probe.png", size="1400,1000")
-    return probe_json(dom, "probe"), log
+    return run_probe(tmp_path, html, _PROBE, "probe", "1400,1000", head=_HOOK)
 
 
 @pytest.mark.chromium
@@ -441,11 +435,8 @@ _LAYOUT = """<script>
 @NEEDS_CHROMIUM
 def test_layout_at_1200_px_legend_clear_labels_clear_cores_hung(tmp_path):
     html = view_html(_apart(), load_scheme(SHOREFACE), default_tract_model())
-    page = tmp_path / "layout.html"
-    page.write_text(html.replace("</body>", _LAYOUT + "</body>", 1), encoding="utf-8")
-    dom, log = open_page(page, tmp_path / "layout.png", size="1200,1400")
+    out, log = run_probe(tmp_path, html, _LAYOUT, "probe", "1200,1400")
     assert page_errors(log) == []
-    out = probe_json(dom, "probe")
     legend = out["legend"]
     for well in out["wells"]:  # four wells do not fit beside the legend: it goes above them
         apart = (
@@ -537,9 +528,6 @@ _SURFACE_LEGEND = """<script>
 @NEEDS_CHROMIUM
 def test_page_surface_legend_in_chromium_leaves_out_surfaces_no_core_draws(tmp_path):
     html = view_html(_faint_surfaces(), load_scheme(SHOREFACE), default_tract_model())
-    page = tmp_path / "view.html"
-    page.write_text(html.replace("</body>", _SURFACE_LEGEND + "</body>", 1), encoding="utf-8")
-    dom, log = open_page(page, tmp_path / "view.png", size="1400,1000")
+    codes, log = run_probe(tmp_path, html, _SURFACE_LEGEND, "legend-codes", "1400,1000")
     assert page_errors(log) == []
-    codes = probe_json(dom, "legend-codes")
     assert codes == ["BSFR", "SB", "MRS", "MFS", "\u25c0"]  # then the pick's mark
