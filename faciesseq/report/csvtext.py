@@ -234,8 +234,13 @@ class _FloatField(_Field):
 
     def __init__(self, values: np.ndarray):
         self.values = values
-        self.skip = 1 if _below_ten(values) else 0
-        self.width = 24 - 8 * self.skip
+        self.skip = self._blank_words(values)
+        self.width = type(self).width - 8 * self.skip
+
+    @staticmethod
+    def _blank_words(values: np.ndarray) -> int:
+        """The leading words every row of this column leaves blank (not laid out)."""
+        return 1 if _below_ten(values) else 0
 
     def fill(self, block: np.ndarray, start: int, stop: int) -> None:
         values = self.values[start:stop]
@@ -342,12 +347,12 @@ class _DecimalField(_FloatField):
 
     width = 40
 
-    def __init__(self, values: np.ndarray):
-        super().__init__(values)
+    @staticmethod
+    def _blank_words(values: np.ndarray) -> int:
+        """2 for measures below 10**5 and none negative, else 0."""
         finite = values[np.isfinite(values)]
         small = not np.isinf(values).any() and not np.signbit(finite).any()
-        self.skip = 2 if small and not (finite >= SMALL_MEASURE).any() else 0
-        self.width = 40 - 8 * self.skip
+        return 2 if small and not (finite >= SMALL_MEASURE).any() else 0
 
     def _write(self, values: np.ndarray, block: np.ndarray) -> None:
         size = np.abs(values)
