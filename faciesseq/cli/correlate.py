@@ -157,7 +157,8 @@ def run(args: argparse.Namespace) -> int:
             datum, note = hanging_datum(corr, section, args.datum, option="--datum")
             if note:
                 sys.stderr.write(f"faciesseq correlate: {note}\n")
-            for line in hang_section(corr, section, datum, tracts, option="--datum").notes:
+            hanging = hang_section(corr, section, datum, tracts, option="--datum")
+            for line in hanging.notes:
                 sys.stderr.write(f"faciesseq correlate: {section_prefix(section)}{line}\n")
             section_figure(
                 corr,
@@ -169,6 +170,7 @@ def run(args: argparse.Namespace) -> int:
                 position_label=wells.position_label,
                 tract_order=tuple(interp.tracts),
                 surface_order=tuple(interp.surfaces),
+                hanging=hanging,
             )
         if args.view:
             _write_view(temp / "section.html", corr, tracts, interp, args, wells, scheme_cores)

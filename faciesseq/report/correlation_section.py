@@ -107,7 +107,8 @@ def correlation_section(
         sub = s.sub(heading)
         hung, _ = hanging_datum(correlation, name, datum)
         hanger = "the core tops" if hung == "depth" else hung
-        unhung = hang_section(correlation, name, hung, tracts).note
+        hanging = hang_section(correlation, name, hung, tracts)
+        unhung = hanging.note
         with figure_style():
             fig = section_plot(
                 correlation,
@@ -118,6 +119,7 @@ def correlation_section(
                 position_label,
                 tract_order,
                 surface_order,
+                hanging=hanging,
             )
         wells = correlation.wells[correlation.wells["section"] == name]
         sub.add(

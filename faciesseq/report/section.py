@@ -611,7 +611,8 @@ def draw_section(
     if note:
         warnings.warn(note, stacklevel=2)
     tracts = interpretation.tracts_table()
-    for line in hang_section(correlation, section, datum, tracts).notes:
+    hanging = hang_section(correlation, section, datum, tracts)
+    for line in hanging.notes:
         warnings.warn(f"{section_prefix(section)}{line}", stacklevel=2)
     units = next((core.units for core in interpretation), "m")
     return section_figure(
@@ -624,6 +625,7 @@ def draw_section(
         position_label=position_label,
         tract_order=tuple(interpretation.tracts),
         surface_order=tuple(interpretation.surfaces),
+        hanging=hanging,
     )
 
 
@@ -636,6 +638,8 @@ def section_plot(
     position_label: str = "distance",
     tract_order: tuple[str, ...] = (),
     surface_order: tuple[str, ...] = (),
+    *,
+    hanging: Hanging | None = None,
 ):
     """One section as a matplotlib figure (call inside :func:`figure_style`).
 
@@ -657,8 +661,11 @@ def section_plot(
     surface_order
         Surface codes in the tract model's order (``Interpretation.surfaces``): the
         legend lists the section's tied surfaces in it (:func:`surface_legend_order`).
+    hanging
+        The section already hung, ``hang_section(correlation, section, datum, tracts)``,
+        by a caller that has read its notes; hung here where ``None``.
     """
-    wells, hanging = _section_wells(correlation, section, tracts, datum)
+    wells, hanging = _section_wells(correlation, section, tracts, datum, hanging)
     ties = correlation.ties[correlation.ties["section"] == section]
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
     fig = new_figure(PAGE_WIDTH, 5.2)
@@ -703,11 +710,15 @@ class _Wells:
     width: float
 
 
-def _section_wells(correlation, section: str, tracts: pd.DataFrame, datum: str):
+def _section_wells(
+    correlation, section: str, tracts: pd.DataFrame, datum: str, hanging: Hanging | None = None
+):
     """The :class:`_Wells` of ``section`` hung on ``datum``, and the :class:`Hanging`
-    (:func:`hang_section`); a column is 0.22 of the section's length per well wide."""
+    (:func:`hang_section`, unless given); a column is 0.22 of the section's length per
+    well wide."""
     wells = correlation.wells[correlation.wells["section"] == section]
-    hanging = hang_section(correlation, section, datum, tracts)
+    if hanging is None:
+        hanging = hang_section(correlation, section, datum, tracts)
     names = list(wells["core"])
     span = max(float(wells["position"].max() - wells["position"].min()), 1e-9)
     drawn = _Wells(

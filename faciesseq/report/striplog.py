@@ -325,12 +325,12 @@ def _probability_track(ax, beds, tracts, checked, labelled=True) -> None:
 
 
 def _surface_track(
-    ax, interp: CoreInterpretation, step: float, drawn: tuple[str, ...]
+    ax, interp: CoreInterpretation, curves: pd.DataFrame, step: float, drawn: tuple[str, ...]
 ) -> list[tuple[float, str]]:
-    """Surface probability curves per depth cell of the ``drawn`` surfaces and the
+    """Surface probability ``curves`` per depth cell of the ``drawn`` surfaces and the
     picks, each with its probability and interval; returns the picks' depths and
     colours."""
-    _surface_curves(ax, interp, step, drawn)
+    _surface_curves(ax, curves, step, drawn, tuple(interp.surfaces))
     pick_lines = _surface_picks(ax, interp)
     # room right of 1 for a pick marker and its interval's caps at probability 1
     ax.set_xlim(0, SURFACE_AXIS_END)
@@ -357,7 +357,12 @@ def drawn_surfaces(interp: CoreInterpretation, step: float | None = None) -> tup
     the strip log's, the core's depth range / 400) reaches :data:`VISIBLE_PROBABILITY`
     somewhere. The strip-log page (:mod:`faciesseq.report.view`) lists the surfaces
     this gives for some core of the page."""
-    curves = interp.curves(float(step) if step else _default_step(interp.beds))
+    return _drawn_in(interp, interp.curves(float(step) if step else _default_step(interp.beds)))
+
+
+def _drawn_in(interp: CoreInterpretation, curves: pd.DataFrame) -> tuple[str, ...]:
+    """The rule of :func:`drawn_surfaces` read from ``curves``, the core's curves
+    already binned (:meth:`~faciesseq.interpretation.CoreInterpretation.curves`)."""
     picked = set() if interp.picks is None else set(interp.picks["surface"].astype(str))
     return tuple(
         code
@@ -366,11 +371,11 @@ def drawn_surfaces(interp: CoreInterpretation, step: float | None = None) -> tup
     )
 
 
-def _surface_curves(ax, interp: CoreInterpretation, step: float, drawn: tuple[str, ...]):
-    """Probability of each of the ``drawn`` surfaces per depth cell of ``step``, drawn
-    as steps."""
-    surfaces = tuple(interp.surfaces)
-    curves = interp.curves(step)
+def _surface_curves(
+    ax, curves: pd.DataFrame, step: float, drawn: tuple[str, ...], surfaces: tuple[str, ...]
+):
+    """Probability of each of the ``drawn`` surfaces per depth cell of ``step``, read
+    from the binned ``curves``, drawn as steps in the colours of ``surfaces``' order."""
     edges_top = curves["depth"].to_numpy(float) - step / 2
     y = np.column_stack([edges_top, edges_top + step]).ravel()
     for code in drawn:
@@ -563,9 +568,9 @@ def _track_axes(fig: Figure, rects: list) -> tuple[tuple, object]:
     return tracks, legend_ax
 
 
-def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool, drawn) -> None:
-    """Draw the four tracks: gaps hatched across all, the ``drawn`` surfaces' curves,
-    picks dashed across the facies and tract columns, depth labels on the facies
+def _draw_tracks(tracks, interp, scheme, gaps, curves, step: float, checked: bool, drawn) -> None:
+    """Draw the four tracks: gaps hatched across all, the ``drawn`` surfaces' binned
+    ``curves``, picks dashed across the facies and tract columns, depth labels on the facies
     column only."""
     facies_ax, tract_ax, probability_ax, surface_ax = tracks
     beds, tracts = interp.beds, tuple(interp.tracts)
@@ -575,7 +580,7 @@ def _draw_tracks(tracks, interp, scheme, gaps, step: float, checked: bool, drawn
     _facies_track(facies_ax, beds, scheme, interp.units)
     _tract_track(tract_ax, beds, tracts)
     _probability_track(probability_ax, beds, tracts, checked, interp.tracts_labelled)
-    pick_lines = _surface_track(surface_ax, interp, step, drawn)
+    pick_lines = _surface_track(surface_ax, interp, curves, step, drawn)
     for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
         ax.hlines(
             [d for d, _ in pick_lines],
@@ -697,7 +702,8 @@ def strip_log(
     base = float(beds["base"].max())
     step = float(step) if step else _default_step(beds)
     gaps = _gaps(beds)
-    drawn = drawn_surfaces(interp, step)
+    curves = interp.curves(step)  # binned once: the legend's rule and the drawing read it
+    drawn = _drawn_in(interp, curves)
     entries = _legend_entries(interp, scheme, tract_model, drawn)
     legend_h = _legend_height(entries, gaps)
     # depth tick labels: the digits of the deepest depth and a decimal point
@@ -705,7 +711,7 @@ def strip_log(
     with figure_style():
         fig = new_figure(PAGE_WIDTH, height + legend_h)
         tracks, legend_ax = _track_axes(fig, rects)
-        _draw_tracks(tracks, interp, scheme, gaps, step, checked, drawn)
+        _draw_tracks(tracks, interp, scheme, gaps, curves, step, checked, drawn)
         _legends(legend_ax, scheme, entries, gaps)
         fig.suptitle(
             title if title is not None else f"Core {interp.core}",
