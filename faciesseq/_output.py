@@ -84,8 +84,10 @@ def check_target(
     ConfigError
         ``path`` exists and ``force`` is false; it exists as the other kind
         (a folder where a file is written, or the reverse); it is, or holds, one of
-        the ``inputs``; or its parent folder does not exist (unless
-        ``make_parents``). Exit code 2.
+        the ``inputs``; its parent folder does not exist (unless
+        ``make_parents``); or the folder it would be made in is not writable
+        (checked here, before any work; a refusal found only when writing is the
+        same one line, from :func:`new_file` and :func:`new_folder`). Exit code 2.
     """
     target = Path(path)
     kind = "folder" if folder else "file"
@@ -100,7 +102,26 @@ def check_target(
     parent = _parent(target)
     if not make_parents and not parent.is_dir():
         raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(target))
+    while not parent.exists() and parent != _parent(parent):  # the folder made first
+        parent = _parent(parent)
+    if parent.is_dir() and not os.access(parent, os.W_OK | os.X_OK):
+        raise ConfigError(_unwritable(parent, "permission denied"), file=str(target))
     return target
+
+
+def _unwritable(parent: Path, reason: str) -> str:
+    return f"cannot write in folder {str(parent)!r} ({reason}); choose another folder"
+
+
+@contextmanager
+def _writable(target: Path) -> Iterator[None]:
+    """An operating-system error making the temporary beside ``target`` (a read-only or
+    full file system, ...) as one line naming the folder (exit code 2), not a traceback."""
+    try:
+        yield
+    except OSError as exc:
+        reason = (exc.strerror or str(exc)).lower()
+        raise ConfigError(_unwritable(_parent(target), reason), file=str(target)) from None
 
 
 def _not_an_input(target: Path, inputs: tuple[str, ...], option: str) -> None:
@@ -153,12 +174,13 @@ def signals_held() -> Iterator[None]:
 
 
 @contextmanager
-def temporary_folder(prefix: str, parent: Path) -> Iterator[Path]:
+def temporary_folder(prefix: str, parent: Path, target: Path | None = None) -> Iterator[Path]:
     """A new hidden folder in ``parent``, deleted with what is left in it when the block
-    ends, however it ends (made under :func:`signals_held`)."""
+    ends, however it ends (made under :func:`signals_held`); ``target``, the output it
+    is made for, is what an error making it names."""
     temp = None
     try:
-        with signals_held():
+        with signals_held(), _writable(parent / prefix if target is None else target):
             temp = Path(tempfile.mkdtemp(prefix=prefix, dir=parent))
         yield temp
     finally:
@@ -179,7 +201,7 @@ def new_file(path: str | os.PathLike, suffix: str = ".tmp") -> Iterator[Path]:
     target = Path(path)
     tmp = None
     try:
-        with signals_held():
+        with signals_held(), _writable(target):
             fd, name = tempfile.mkstemp(
                 prefix=f".{target.name}.", suffix=suffix, dir=_parent(target)
             )
@@ -275,7 +297,7 @@ def new_folder(path: str | os.PathLike) -> Iterator[Path]:
     prefix = f".{target.name}.new."
     _remove_stale(_parent(target), prefix)
     owner = f"{prefix}{os.getpid()}@{socket.gethostname()}."
-    with temporary_folder(owner, _parent(target)) as temp:
+    with temporary_folder(owner, _parent(target), target) as temp:
         yield temp
         _swap(temp, target)
     target.chmod(0o777 & ~current_umask())

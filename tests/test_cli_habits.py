@@ -142,6 +142,57 @@ def test_fit_refuses_before_reading_anything(tmp_path, capsys):
     assert code == 2 and "exists; pass --force" in err
 
 
+def test_a_read_only_output_folder_is_one_line_before_any_work(
+    source, tmp_path, capsys, monkeypatch
+):
+    """A folder the user may not write in (chmod, whatever the user running the
+    tests) is refused when the command starts, as a missing folder is; before, the
+    fit ran and ended in a PermissionError traceback."""
+    folder = tmp_path / "shared"
+    folder.mkdir()
+    real = os.access
+    monkeypatch.setattr(os, "access", lambda p, mode: Path(p).resolve() != folder and real(p, mode))
+    monkeypatch.chdir(tmp_path)
+    for argv in (
+        ["fit", str(source), "--scheme", str(SCHEME), *QUICK_FIT, "-o", "shared/m.json"],
+        ["markov", str(source), "-o", "shared/stats"],
+        ["scheme", "draft", str(source), "-o", "shared/new/s.yaml"],
+    ):
+        code, out, err = _run(capsys, argv)
+        assert code == 2 and out == ""
+        assert err == (
+            f"faciesseq {argv[0]}: {argv[-1]}: cannot write in folder 'shared' "
+            "(permission denied); choose another folder\n"
+        )
+    assert list(folder.iterdir()) == []
+
+
+@pytest.mark.parametrize("kind", ["file", "folder"])
+def test_an_output_the_system_refuses_at_writing_is_one_line(
+    source, model, tmp_path, capsys, monkeypatch, kind
+):
+    """A file system that refuses the temporary (read-only, immutable, full) where the
+    folder looked writable: one line naming the folder, exit code 2, no traceback."""
+    import tempfile
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(1, "Operation not permitted")
+
+    monkeypatch.setattr(tempfile, "mkstemp" if kind == "file" else "mkdtemp", refuse)
+    monkeypatch.chdir(tmp_path)
+    if kind == "file":
+        argv = ["fit", str(source), "--scheme", str(SCHEME), *QUICK_FIT, "-o", "m.json"]
+    else:
+        argv = ["decode", str(model), str(source), "-o", "decoded"]
+    code, _, err = _run(capsys, argv)
+    assert code == 2
+    assert err.endswith(
+        f": {argv[-1]}: cannot write in folder '.' (operation not permitted); "
+        "choose another folder\n"
+    )
+    assert "Traceback" not in err and list(tmp_path.iterdir()) == []
+
+
 def test_decode_force_replaces_the_folder_without_stale_files(source, model, tmp_path, capsys):
     out = tmp_path / "decoded"
     argv = ["decode", str(model), str(source), "-o", str(out)]

@@ -337,6 +337,13 @@ FAILURES = [
         1,
         "'well', 'core' all look like the core column",
     ),
+    (
+        "repeated-column",  # read as facies and facies.1 before: the second one silently
+        {"c.csv": "core,top,base,facies,facies\nW1,0,1,A,B\n"},
+        [],
+        1,
+        "c.csv: the header names column 'facies' twice (columns 4 and 5); rename or delete one",
+    ),
     ("empty-file", {"c.csv": ""}, [], 1, "c.csv: file is empty"),
     (
         "bad-scheme",
@@ -371,6 +378,36 @@ def test_reading_failures_are_one_line_on_stderr(tmp_path, capsys, files, option
         got, _, err = _run(capsys, ["scheme", "draft", source, "-o", draft, *options])
         assert got == 1 and len(err.strip().splitlines()) == 1
         assert not draft.exists()
+
+
+@pytest.mark.parametrize("kind", ["xlsx", "sqlite"])
+def test_a_column_named_twice_in_a_workbook_or_query_is_one_line(tmp_path, capsys, kind):
+    # an attribute column named twice stopped the reading with an AttributeError traceback
+    rows = [["core", "top", "base", "facies", "note", "note"], ["W1", 0, 1, "A", "x", "y"]]
+    if kind == "xlsx":
+        openpyxl = pytest.importorskip("openpyxl")
+        book = openpyxl.Workbook()
+        for row in rows:
+            book.active.append(row)
+        source = tmp_path / "c.xlsx"
+        book.save(source)
+        options, named = [], "c.xlsx"
+    else:
+        import sqlite3
+
+        source = tmp_path / "c.sqlite"
+        with sqlite3.connect(source) as con:
+            con.execute("create table intervals(core, top, base, facies, note)")
+            con.execute("insert into intervals values ('W1', 0, 1, 'A', 'x')")
+        con.close()
+        options = ["--query", "select core, top, base, facies, note, note from intervals"]
+        named = "c.sqlite [query]"
+    got, out, err = _run(capsys, ["check", str(source), *options])
+    assert got == 1 and out == ""
+    assert err == (
+        f"faciesseq check: {tmp_path / named}: the header names column 'note' twice "
+        "(columns 5 and 6); rename or delete one\n"
+    )
 
 
 def test_no_traceback_from_the_installed_command(tmp_path):

@@ -329,3 +329,22 @@ def test_a_problem_on_a_converted_row_gives_its_depth_in_the_units_of_the_core_s
     assert "depth 33.53 m" in str(missing)
     (kept,) = [p for p in read_cores(path).problems if p.kind == "missing-facies"]
     assert (kept.depth, kept.units) == (110, "ft")
+
+
+def test_las_codes_and_well_names_that_look_like_numbers_stay_text(tmp_path):
+    # lasio reads a header value "01" as the number 1: codes "01" and "1" were read
+    # back as one facies, and well "007" as core "7"
+    table = pd.DataFrame(
+        {
+            "core": ["007"] * 4,
+            "top": [0.0, 1.0, 2.0, 3.0],
+            "base": [1.0, 2.0, 3.0, 4.0],
+            "facies": ["01", "1", "shoreface, upper", "1.50"],
+        }
+    )
+    cores = CoreSet.from_frame(table, units="m")
+    path = tmp_path / "w.las"
+    write_cores(cores, path)
+    back = read_cores(path)
+    assert back.names == ["007"]
+    assert back["007"].intervals["facies"].tolist() == ["01", "1", "shoreface, upper", "1.50"]

@@ -87,9 +87,10 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
         raise InputError("LAS file has no curves besides the depth index", file=file)
     facies = _facies_curve(mnemonics, curve, file)
     units = _depth_units(las, file)
+    raw = _header_text(lasio, text)
     well_item = _item(las.well, "WELL")
-    core = (str(well_item.value).strip() if well_item is not None else "") or path.stem
-    codes = _code_tables(las, mnemonics)
+    core = (_item_text(well_item, raw) if well_item is not None else "") or path.stem
+    codes = _code_tables(las, mnemonics, raw)
     frame = pd.DataFrame({m: np.asarray(las[m]) for m in mnemonics}).astype(object)
     null = _null_value(las, file)
     nulls = _nulls_to_missing(frame, mnemonics, null, codes)
@@ -175,14 +176,58 @@ def _depth_units(las, file: str) -> str | None:
     return normalise_units(unit, where=file) if unit and unit.strip() else None
 
 
-def _code_tables(las, mnemonics: list[str]) -> dict[str, dict[float, str]]:
+def _code_tables(
+    las, mnemonics: list[str], raw: dict[str, list[str]]
+) -> dict[str, dict[float, str]]:
     """Curve -> (number -> text) from the ``<CURVE>_<n>`` items of the ``~Parameter`` section."""
     codes: dict[str, dict[float, str]] = {}
     for item in las.params:
         m = re.match(r"^(?P<curve>.+)_(?P<n>\d+)$", item.mnemonic)
         if m and m.group("curve") in mnemonics:
-            codes.setdefault(m.group("curve"), {})[float(m.group("n"))] = str(item.value)
+            codes.setdefault(m.group("curve"), {})[float(m.group("n"))] = _item_text(item, raw)
     return codes
+
+
+def _header_text(lasio, text: str) -> dict[str, list[str]]:
+    """Upper-cased mnemonic -> the value and description fields of its header lines as
+    written (``~Well`` and ``~Parameter``), before lasio reads numbers in them."""
+    from lasio.reader import read_header_line
+
+    fields: dict[str, list[str]] = {}
+    section = ""
+    for line in text.splitlines():
+        line = line.strip()
+        if line.startswith("~"):
+            section = line[1:2].upper()
+            if section == "A":
+                break
+            continue
+        if section not in ("W", "P") or not line or line.startswith("#"):
+            continue
+        try:
+            parsed = read_header_line(line, section_name="Parameter")
+        except Exception:  # a malformed line: lasio's own reading of it stands
+            continue
+        name = str(parsed.get("name", "")).strip().upper()
+        fields.setdefault(name, []).extend(
+            str(parsed.get(k, "")).strip() for k in ("value", "descr")
+        )
+    return fields
+
+
+def _item_text(item, raw: dict[str, list[str]]) -> str:
+    """A header item's value as text as written: lasio reads ``01`` or ``007`` as the
+    number 1 or 7, which would join facies code ``01`` with ``1`` or rename a well."""
+    value = item.value
+    if isinstance(value, str):
+        return value.strip()
+    for text in raw.get(item.mnemonic.upper(), []):
+        try:
+            if text and float(text) == float(value):
+                return text
+        except (TypeError, ValueError):
+            continue
+    return str(value).strip()
 
 
 def _null_value(las, file: str) -> float | None:

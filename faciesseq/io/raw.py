@@ -24,6 +24,23 @@ def check_width(n_columns: int, file: str) -> None:
         )
 
 
+def check_header(names, file: str) -> None:
+    """Refuse a header that names one column twice (a copy pasted beside the original,
+    a query selecting a column twice): which of the two holds the data is not ours to
+    guess, and a table with two columns of one name cannot be read column by column."""
+    seen: dict[str, int] = {}
+    for number, name in enumerate((str(n).strip() for n in names), start=1):
+        if not name:
+            continue
+        if name in seen:
+            raise InputError(
+                f"the header names column {name!r} twice (columns {seen[name]} and "
+                f"{number}); rename or delete one",
+                file=file,
+            )
+        seen[name] = number
+
+
 @dataclass
 class RawTable:
     """One table read from a source, columns and values as they were stored.
@@ -63,6 +80,9 @@ class RawTable:
     roles: dict[str, str] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
     other_sheets: dict[str, list[str]] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        check_header(self.frame.columns, self.file)
 
     def row_numbers(self) -> np.ndarray:
         """The source row of each row of ``frame`` (an integer array)."""

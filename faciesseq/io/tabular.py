@@ -21,7 +21,7 @@ import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.plaincsv import read_plain
-from faciesseq.io.raw import RawTable, check_width
+from faciesseq.io.raw import RawTable, check_header, check_width
 
 __all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
 
@@ -320,6 +320,8 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
     if not text.strip():
         raise InputError("file is empty", file=file)
     delimiter = _sniff(text, path.suffix.lower())
+    # the header as written: pandas renames a repeated name (facies, facies.1)
+    check_header(next(csv.reader([text.partition("\n")[0]], delimiter=delimiter), []), file)
     # NUL bytes: pandas' C parser before 3.0 cut a cell at one, silently; the Python
     # parser keeps it, for validation to name (rare files, refused anyway)
     nul = "\x00" in text
