@@ -134,7 +134,7 @@ def _rank(rank: float) -> str:
 
 
 #: Options whose files a command reads (:func:`input_files`).
-INPUT_OPTIONS = ("source", "model", "scheme", "tracts", "review_sheet", "wells")
+INPUT_OPTIONS = ("source", "model", "scheme", "tracts", "review_sheet", "wells", "reference")
 
 
 def input_files(args: argparse.Namespace) -> tuple[str, ...]:

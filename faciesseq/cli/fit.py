@@ -66,6 +66,21 @@ def register(subparsers) -> None:
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
     add_model_arguments(parser)
+    parser.add_argument(
+        "--reference",
+        metavar="MODEL",
+        help="without labels: a model file fitted with labels on other cores (another "
+        "field, other facies) whose stacking trees help name the tracts, read beside this "
+        "database's own stacking (docs/hmm.md, 'A reference model')",
+    )
+    parser.add_argument(
+        "--reference-weight",
+        metavar="W",
+        type=float,
+        default=1.0,
+        help="with --reference: the weight of its trees against this database's own "
+        "stacking (default 1)",
+    )
     add_irregular_argument(parser, "train on")
     add_parallel_arguments(
         parser,
@@ -130,7 +145,9 @@ def _successions(args: argparse.Namespace, scheme):
     return cores, successions
 
 
-def _select(args: argparse.Namespace, successions, scheme, tract_model, substates, parallel):
+def _select(
+    args: argparse.Namespace, successions, scheme, tract_model, substates, parallel, reference
+):
     from faciesseq.hmm.selection import select_model
 
     progress = Progress("fit", args.restarts)
@@ -156,10 +173,31 @@ def _select(args: argparse.Namespace, successions, scheme, tract_model, substate
                 calibration_folds=args.calibration_folds,
                 weigh_evidence=weigh_evidence(args),
                 nested_start=args.nested_start,
+                reference=reference,
+                reference_weight=args.reference_weight,
                 random_state=args.seed,
             )
         finally:
             progress.close()
+
+
+def _reference(args: argparse.Namespace):
+    """The ``--reference`` model, read once; refused (exit 2) with labels, and with a
+    weight but no reference."""
+    if args.reference is None:
+        if args.reference_weight != 1.0:
+            raise ConfigError("--reference-weight needs --reference")
+        return None
+    if args.labels is not None:
+        raise ConfigError(
+            "--reference is read by fits without labels; with --labels the labelled "
+            "cores name the tracts"
+        )
+    if not args.reference_weight > 0:
+        raise ConfigError(f"--reference-weight must be > 0, got {args.reference_weight}")
+    from faciesseq.hmm.modelfile import load_model
+
+    return load_model(args.reference)
 
 
 def _print_weights(model, asked: bool | None, verbose: bool) -> None:
@@ -479,11 +517,12 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
+    reference = _reference(args)
     cores, successions = _successions(args, scheme)
     check_features(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)
     scheme = scheme_for_fit(args, cores, scheme, "fit", labelled)
-    selection = _select(args, successions, scheme, tract_model, substates, parallel)
+    selection = _select(args, successions, scheme, tract_model, substates, parallel, reference)
     provenance = _provenance(args, cores, args.tracts)
     provenance["selection"] = selection.to_dict()["candidates"]
     if selection.best.unit_ != "grid":  # for decode to compare its beds with (faciesseq.novelty)

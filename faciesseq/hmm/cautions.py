@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from faciesseq.hmm.reference import REFERENCE
 from faciesseq.hmm.states import SHORT_VISIT
 from faciesseq.markov.seriation import SUGGESTED
 
@@ -70,6 +71,27 @@ UNLABELLED_NOTE = (
 )
 
 
+#: The caution of a fit without labels that read a reference model
+#: (``benchmarks/eval_reference.py --seeds 631,632,633``; docs/hmm.md, "A reference
+#: model"): each generator written blind held out, the reference learnt from the others.
+REFERENCE_CAUTION = (
+    "caution: no bed was labelled, so the tract names rest on the model's priors and on "
+    "the reference model's trees, learnt from other cores; on cores of four generators "
+    "written blind, each read with a reference learnt from the other three, fits read "
+    "0.47-0.56, 0.60-0.65, 0.56-0.67 and 0.65-0.77 (balanced accuracy, chance 0.25; "
+    "0.33-0.65 without the reference), and cores whose own stacking names their tracts "
+    "lost up to 0.16 (docs/hmm.md, 'A reference model'): read the column as a first draft, "
+    "or label a few cores (fit --labels)"
+)
+
+#: The same note where the fit read a reference model.
+REFERENCE_NOTE = (
+    "No bed was labelled: the tract names rest on the model's priors and on a reference "
+    "model learnt from other cores (docs/hmm.md, 'A reference model'); read the column as "
+    "a first draft."
+)
+
+
 def unlabelled_caution(model) -> str | None:
     """A caution for every fit without labels: its tract names rest on the priors (the
     cyclic order, the one deepening tract), which were tuned on the project's own
@@ -82,6 +104,8 @@ def unlabelled_caution(model) -> str | None:
     ``--generator``; README "What has been measured")."""
     if getattr(model, "n_labelled_", 0):
         return None
+    if REFERENCE in getattr(model, "features_", ()):
+        return REFERENCE_CAUTION
     if _default_tracts(model):
         measured = (
             "on cores of four generators it was not tuned on, fits without labels read "

@@ -29,7 +29,7 @@ from faciesseq.core import (
 from faciesseq.errors import InputError
 from faciesseq.hmm import engine
 from faciesseq.hmm.calibration import probability_meta, temper
-from faciesseq.hmm.cautions import UNLABELLED_NOTE
+from faciesseq.hmm.cautions import REFERENCE_NOTE, UNLABELLED_NOTE
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
 from faciesseq.hmm.inputs import as_successions
 from faciesseq.hmm.said_once import said_once
@@ -354,7 +354,8 @@ class Decoding:
         meta |= probability_meta(self.temperature_, self.calibration_)
         meta["tracts_labelled"] = bool(getattr(self, "n_labelled_", 0))
         if not meta["tracts_labelled"]:
-            meta["probabilities_note"] = f"{meta['probabilities_note']} {UNLABELLED_NOTE}"
+            note = REFERENCE_NOTE if "reference" in self.features_ else UNLABELLED_NOTE
+            meta["probabilities_note"] = f"{meta['probabilities_note']} {note}"
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 
     def _pick_frame(self, bounds, state, surf, flow, mass) -> pd.DataFrame:

@@ -34,6 +34,7 @@ FEATURES = (
     "rank_step_above",
     "rank_trend",
     "stacking",
+    "reference",
 )
 #: Used when ``features=None`` ("contact" only where the beds have contact types,
 #: "rank_step" only with a facies scheme, "thickness" not on a depth grid).
@@ -45,7 +46,14 @@ DEFAULT_FEATURES = ("facies_trend", "thickness", "contact", "rank_step")
 #: on simulated cores in benchmarks/hmm_model.md.
 DEFAULT_LABELLED_FEATURES = (*DEFAULT_FEATURES, "stacking")
 #: Features computed from the facies ranks of the scheme.
-RANK_FEATURES = ("rank_step", "rank_step_above", "rank_trend", "stacking", *CONTEXT_FEATURES)
+RANK_FEATURES = (
+    "rank_step",
+    "rank_step_above",
+    "rank_trend",
+    "stacking",
+    "reference",
+    *CONTEXT_FEATURES,
+)
 #: Used when ``features=None``, no bed is labelled and a scheme gives ranks: the
 #: stacking context of every bed (its cycle against the cycles below and above,
 #: the trend and position of proximality around it), the contact type and the rank

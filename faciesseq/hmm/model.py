@@ -19,8 +19,10 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 
 from __future__ import annotations
 
+import functools
 import math
 import numbers
+import os
 import warnings
 from collections.abc import Mapping, Sequence
 from os import PathLike
@@ -60,6 +62,7 @@ from faciesseq.hmm.labels import (
     refuse_missing_label_column,
 )
 from faciesseq.hmm.pieces import make_piece
+from faciesseq.hmm.reference import REFERENCE, ReferenceEmission
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.said_once import said_once
 from faciesseq.hmm.states import StateSpace
@@ -341,6 +344,8 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         graph: str = "auto",
         weigh_evidence: bool | float = True,
         nested_start: bool = True,
+        reference: TractHMM | str | PathLike | None = None,
+        reference_weight: float = 1.0,
         random_state: int | np.random.Generator | None = None,
     ) -> None:
         self.tract_model = tract_model
@@ -362,6 +367,8 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self.graph = graph
         self.weigh_evidence = weigh_evidence
         self.nested_start = nested_start
+        self.reference = reference
+        self.reference_weight = reference_weight
         self.random_state = random_state
 
     # ------------------------------------------------------------------ setup
@@ -410,6 +417,8 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             raise ConfigError(f"weigh_evidence must be true, false or in (0, 1], got {w!r}")
         if not isinstance(self.nested_start, bool):
             raise ConfigError(f"nested_start must be true or false, got {self.nested_start!r}")
+        if not 0 < float(self.reference_weight) < np.inf:
+            raise ConfigError(f"reference_weight must be > 0, got {self.reference_weight!r}")
 
     def reads_context(self) -> bool:
         """Whether the emissions read the stacking context (their priors pin the
@@ -447,8 +456,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     ) -> EncodedBeds:
         """The beds coded for the pieces; the depth windows of the stacking trees in
         the fitted trees' unit, or for ``training`` beds in their own."""
-        numeric = [f for f in self.features_ if f not in ("facies", "facies_trend", "contact")]
-        if "stacking" in numeric and "thickness" not in numeric:
+        skip = ("facies", "facies_trend", "contact", REFERENCE)
+        numeric = [f for f in self.features_ if f not in skip]
+        if {"stacking", REFERENCE} & set(self.features_) and "thickness" not in numeric:
             numeric.append("thickness")
         marks, nonmarine = self._facies_marks()
         exposed = None if self.scheme is None else self.scheme.exposures(self.facies_)
@@ -480,6 +490,8 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     def _train_static(self, beds: EncodedBeds, clamp: np.ndarray | None) -> dict:
         """The static pieces (learnt once from the labelled beds, before EM), by feature."""
         out = {}
+        if REFERENCE in self.features_:
+            out[REFERENCE] = self._reference_piece(beds)
         if "stacking" not in self.features_:
             return out
         piece = make_piece(
@@ -500,6 +512,45 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         piece.train(beds, labels, random_state=seed)
         out["stacking"] = piece
         return out
+
+    def _with_reference(self, features: tuple[str, ...], n_labelled: int) -> tuple[str, ...]:
+        """``features`` with the reference piece where a reference is given (fits
+        without labels on the stacking context only), refused where it cannot be read."""
+        if self.reference is None:
+            if REFERENCE in features:
+                raise ConfigError("feature 'reference' needs a reference model (reference=)")
+            return features
+        if n_labelled:
+            raise ConfigError(
+                "a reference model is read by fits without labels; with labels the "
+                "labelled cores name the tracts (leave the reference out)"
+            )
+        if not self.reads_context():
+            raise ConfigError(
+                "a reference model is read beside the stacking context: it needs a "
+                "scheme with ranks and beds (not a depth grid)"
+            )
+        return features if REFERENCE in features else (*features, REFERENCE)
+
+    def _reference_piece(self, beds: EncodedBeds) -> EmissionPiece:
+        """The reference's stacking trees on this model's facies and tracts, their depth
+        windows in the median cycle of ``beds`` (:mod:`faciesseq.hmm.reference`)."""
+        from faciesseq.hmm.modelfile import load_model
+
+        ref = self.reference
+        if not isinstance(ref, TractHMM):
+            ref = _loaded_reference(str(ref), os.stat(ref).st_mtime_ns, load_model)
+        marks, nonmarine = self._facies_marks()
+        piece = ReferenceEmission.of(
+            ref,
+            self.tract_model_.order,
+            self.ranks_,
+            marks,
+            nonmarine,
+            float(self.reference_weight),
+        )
+        piece.train(beds, np.full(len(beds), -1))
+        return piece
 
     def _new_pieces(
         self, beds: EncodedBeds, trained: Mapping[str, EmissionPiece] | None = None
@@ -779,6 +830,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         )
         if self.reads_context() and self.substates is None:
             self.states_ = StateSpace.build(self.tract_model_, CONTEXT_SUBSTATES)
+        self.features_ = self._with_reference(self.features_, n_labelled)
         if "stacking" in self.features_ and n_labelled == 0:
             raise ConfigError(
                 "feature 'stacking' is learnt from labelled beds; give a label column "
@@ -936,3 +988,10 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             f"prior_strength={self.prior_strength!r}, n_restarts={self.n_restarts!r}, "
             f"random_state={self.random_state!r})"
         )
+
+
+@functools.lru_cache(maxsize=2)
+def _loaded_reference(path: str, mtime: int, load) -> TractHMM:
+    """A reference model file read once per fit (graph choice and the nested start
+    build the piece several times); ``mtime`` makes a rewritten file read again."""
+    return load(path)

@@ -30,6 +30,7 @@ from faciesseq.hmm.rank_pieces import (
     RankTrendEmission,
     rank_step_pseudo_counts,
 )
+from faciesseq.hmm.reference import ReferenceEmission
 from faciesseq.hmm.stacking_piece import StackingEmission
 
 __all__ = ["make_piece", "piece_from_dict"]
@@ -37,6 +38,7 @@ __all__ = ["make_piece", "piece_from_dict"]
 
 _KINDS = {
     "stacking": StackingEmission,
+    "reference": ReferenceEmission,
     "rank_step": RankStepEmission,
     "rank_step_above": RankStepAboveEmission,
     "rank_trend": RankTrendEmission,

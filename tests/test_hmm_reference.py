@@ -1,0 +1,156 @@
+"""A reference model read in a fit without labels (``TractHMM(reference=...)``,
+``faciesseq fit --reference``).
+
+Checks: the ranks of a database are stretched linearly onto the reference's range
+(a renamed scheme whose ranks are an affine map of the reference's lands on the
+reference's own ranks); on the reference's own beds the piece gives exactly the
+reference's stacking trees' scaled likelihoods (Bourlard & Morgan 1994, the hybrid
+classifier-HMM the stacking piece is); a fit with a reference decodes, keeps its
+trees through a model file, reads them on a fit of fewer tracts (the nested start),
+and is refused where it cannot be read (with labels, a reference without trees, a
+weight without a reference) with one line and exit 2 from the command line.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from _stacking import stacking_table
+
+from faciesseq.core import CoreSet
+from faciesseq.errors import ConfigError
+from faciesseq.hmm import TractHMM
+from faciesseq.hmm.modelfile import load_model, save_model
+from faciesseq.hmm.reference import ReferenceEmission, rescaled_ranks
+from faciesseq.scheme import FaciesScheme
+from faciesseq.simulate import load_stacking_scenario
+
+ROOT = Path(__file__).resolve().parents[1]
+SCENARIO = load_stacking_scenario(ROOT / "configs" / "stacking-minimal-table.yaml")
+MINIMAL = ["core", "top", "base", "facies"]
+
+
+def _quiet(model, cores, **kw):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return model.fit(cores, **kw)
+
+
+@pytest.fixture(scope="module")
+def reference():
+    table = stacking_table(SCENARIO, [1, 2])
+    cores = CoreSet.from_frame(table[[*MINIMAL, "true_tract"]], units="m")
+    model = TractHMM(scheme=SCENARIO.scheme, random_state=1, calibration_folds=0)
+    return _quiet(model, cores, labels="true_tract")
+
+
+@pytest.fixture(scope="module")
+def target():
+    return stacking_table(SCENARIO, [3])
+
+
+def _renamed(scheme: FaciesScheme) -> tuple[FaciesScheme, dict[str, str]]:
+    """The scheme with every code renamed and every rank mapped to 2 r + 3."""
+    doc = scheme.to_dict()
+    names = {}
+    for f in doc["facies"]:
+        names[str(f["code"])] = f"x-{f['code']}"
+        f["code"] = names[str(f["code"])]
+        f["rank"] = 2 * f["rank"] + 3
+        f.pop("aliases", None)
+    return FaciesScheme.from_dict(doc), names
+
+
+def test_ranks_are_stretched_onto_the_reference_range():
+    ref = np.array([0.0, 1, 2, 3, 10])
+    assert np.array_equal(rescaled_ranks(np.array([3.0, 5, 23]), ref), [0, 1, 10])
+    assert np.array_equal(rescaled_ranks(np.array([0.0, 1, 2]), ref), [0, 5, 10])
+    got = rescaled_ranks(np.array([1.0, np.nan, 2]), np.array([0.0, 0.5, 1]))
+    assert got[0] == 0 and np.isnan(got[1]) and got[2] == 1  # fractional ranks: not rounded
+    assert np.array_equal(rescaled_ranks(np.array([4.0, 4]), ref), [0, 0])
+
+
+def test_on_its_own_beds_the_piece_is_the_reference_trees(reference, target):
+    cores = CoreSet.from_frame(target[MINIMAL], units="m")
+    _, beds = reference._prepare(cores)
+    marks, nonmarine = reference._facies_marks()
+    piece = ReferenceEmission.of(
+        reference, reference.tract_model_.order, reference.ranks_, marks, nonmarine
+    )
+    piece.depth_unit = reference.emission("stacking").depth_unit
+    assert np.array_equal(piece.log_prob(beds), reference.emission("stacking").log_prob(beds))
+
+
+def test_a_renamed_scheme_on_another_rank_scale_reads_the_same(reference, target):
+    scheme, names = _renamed(SCENARIO.scheme)
+    renamed = target.assign(facies=target["facies"].map(names))
+    fits = []
+    for sch, table in ((SCENARIO.scheme, target), (scheme, renamed)):
+        model = TractHMM(scheme=sch, random_state=3, reference=reference, calibration_folds=0)
+        fits.append(_quiet(model, CoreSet.from_frame(table[MINIMAL], units="m")))
+    a, b = (m.emission("reference") for m in fits)
+    order = [list(fits[1].facies_).index(names[c]) for c in fits[0].facies_]
+    assert np.array_equal(a.ranks_, b.ranks_[order])
+    assert a.depth_unit == pytest.approx(b.depth_unit)
+
+
+def test_a_fit_with_a_reference_decodes_and_keeps_it_in_its_file(reference, target, tmp_path):
+    cores = CoreSet.from_frame(target[MINIMAL], units="m")
+    path = tmp_path / "reference.json"
+    save_model(reference, path)
+    model = _quiet(TractHMM(scheme=SCENARIO.scheme, random_state=3, reference=path), cores)
+    assert model.features_[-1] == "reference"
+    assert model.nested_start_  # the nested start fitted three tracts with the same trees
+    interpretation = model.decode(cores)
+    decoded = interpretation.tracts_table()
+    assert set(decoded["tract"]) <= {"HST", "FSST", "LST", "TST"}
+    assert any("the reference model's trees" in c for c in model.cautions_)
+    assert "a reference model" in interpretation.meta["probabilities_note"]
+    save_model(model, tmp_path / "m.json")
+    again = load_model(tmp_path / "m.json").decode(cores).tracts_table()
+    pd.testing.assert_frame_equal(decoded, again)
+
+
+def test_a_reference_is_refused_where_it_cannot_be_read(reference, target):
+    table = target[[*MINIMAL, "true_tract"]]
+    cores = CoreSet.from_frame(table, units="m")
+    with pytest.raises(ConfigError, match="without labels"):
+        _quiet(TractHMM(scheme=SCENARIO.scheme, reference=reference), cores, labels="true_tract")
+    plain = CoreSet.from_frame(table[MINIMAL], units="m")
+    unlabelled = _quiet(TractHMM(scheme=SCENARIO.scheme, random_state=1, n_restarts=1), plain)
+    with pytest.raises(ConfigError, match="fitted with labels"):
+        _quiet(TractHMM(scheme=SCENARIO.scheme, reference=unlabelled), plain)
+    with pytest.raises(ConfigError, match="needs a reference"):
+        _quiet(TractHMM(scheme=SCENARIO.scheme, features=["trend", "reference"]), plain)
+    with pytest.raises(ConfigError, match="reference_weight"):
+        _quiet(TractHMM(scheme=SCENARIO.scheme, reference=reference, reference_weight=0), plain)
+
+
+def test_the_command_line_refuses_a_reference_it_cannot_read(reference, target, tmp_path):
+    source = tmp_path / "cores.csv"
+    target[[*MINIMAL, "true_tract"]].to_csv(source, index=False)
+    scheme = tmp_path / "scheme.yaml"
+    import yaml
+
+    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    ref = tmp_path / "reference.json"
+    save_model(reference, ref)
+    fit = [sys.executable, "-m", "faciesseq", "fit", str(source), "--scheme", str(scheme)]
+    cases = [
+        (["--reference", str(ref), "--labels", "true_tract", "-o", str(tmp_path / "m.json")], 2),
+        (["--reference-weight", "2", "-o", str(tmp_path / "m.json")], 2),
+        (["--reference", str(ref), "-o", str(ref), "--force"], 2),
+        (["--reference", str(tmp_path / "none.json"), "-o", str(tmp_path / "m.json")], 1),
+    ]
+    before = ref.read_bytes()
+    for extra, code in cases:
+        p = subprocess.run([*fit, *extra], capture_output=True, text=True, timeout=600)
+        assert p.returncode == code, (extra, p.stderr)
+        assert len(p.stderr.strip().splitlines()) == 1 and "Traceback" not in p.stderr
+    assert ref.read_bytes() == before and not (tmp_path / "m.json").exists()
