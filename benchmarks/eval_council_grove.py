@@ -115,16 +115,25 @@ def _agreement(column: pd.Series, intervals: pd.DataFrame, marine) -> float:
     return float(np.sum(w * (called == true)) / np.sum(w))
 
 
+#: A reference model file (``--reference``) the fits without labels read, or None.
+REFERENCE = None
+
+
+def _model(scheme):
+    model = make_model(scheme, "unsupervised", SEED)
+    return model if REFERENCE is None else model.set_params(reference=REFERENCE)
+
+
 def _fit_and_decode(cores, scheme, held_out: bool):
     """The decoded tract table of every well: fitted on all wells and decoding them, or
     (``held_out``) each well decoded by a model fitted on the others."""
     if not held_out:
-        model = make_model(scheme, "unsupervised", SEED).fit(cores, labels=None)
+        model = _model(scheme).fit(cores, labels=None)
         return model.decode(cores).tracts_table()
     tables = []
     for well in cores.names:
         others = cores.subset([n for n in cores.names if n != well])
-        model = make_model(scheme, "unsupervised", SEED).fit(others, labels=None)
+        model = _model(scheme).fit(others, labels=None)
         tables.append(model.decode(cores.subset([well])).tracts_table())
     return pd.concat(tables, ignore_index=True)
 
@@ -237,7 +246,16 @@ def main(argv: list[str] | None = None) -> int:
         action="store_true",
         help="fit with weigh_evidence=False (the default before 2026-12-03)",
     )
+    parser.add_argument(
+        "--reference",
+        type=Path,
+        metavar="FILE",
+        help="a reference model file the fits read (benchmarks/eval_reference.py --save-reference)",
+    )
     args = parser.parse_args(argv)
+    if args.reference:
+        global REFERENCE
+        REFERENCE = args.reference.resolve()
     if args.per_bed_evidence:
         import eval_unsupervised
 

@@ -18,6 +18,8 @@ the tracts of the thickness decoded right, ``eval_labelled_fits.balanced_accurac
 The project's own scenarios (``--scenarios``: the stacking generator's three and
 the forward model's three, the fit seeds as given) are read with a reference learnt
 from all four generators. Rows print as they come; ``--csv`` appends them to a file.
+``--save-reference FILE`` writes that reference (all four generators) and stops: e.g.
+for ``eval_council_grove.py --reference FILE``.
 """
 
 from __future__ import annotations
@@ -184,6 +186,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--only", help="comma-separated held-out generators or scenarios")
     ap.add_argument("--no-scenarios", action="store_true", help="the four generators only")
     ap.add_argument("--csv", type=Path, help="append the rows to this file")
+    ap.add_argument(
+        "--save-reference",
+        type=Path,
+        metavar="FILE",
+        help="only write the reference learnt from all four generators (a model file)",
+    )
     a = ap.parse_args(argv)
     warnings.simplefilter("ignore")
     seeds = [int(s) for s in a.seeds.split(",")]
@@ -192,6 +200,12 @@ def main(argv: list[str] | None = None) -> int:
     folders = {
         g: [generated(g, s, st, a.out) for st in SETTINGS for s in seeds] for g in GENERATORS
     }
+    if a.save_reference:
+        from faciesseq.hmm.modelfile import save_model
+
+        save_model(reference([f for v in folders.values() for f in v], a.out), a.save_reference)
+        print(f"reference written to {a.save_reference}")
+        return 0
     print("| held out | setting | seed | without a reference | with the reference |")
     print("|---|---|---|---|---|")
     rows = []
