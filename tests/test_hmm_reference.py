@@ -21,7 +21,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from _stacking import stacking_table
+from _stacking import methods_text, stacking_table
 
 from faciesseq.core import CoreSet
 from faciesseq.errors import ConfigError
@@ -112,6 +112,7 @@ def test_a_fit_with_a_reference_decodes_and_keeps_it_in_its_file(reference, targ
     assert set(decoded["tract"]) <= {"HST", "FSST", "LST", "TST"}
     assert any("the reference model's trees" in c for c in model.cautions_)
     assert "a reference model" in interpretation.meta["probabilities_note"]
+    assert "reference model fitted with labels on other cores" in methods_text(model)
     save_model(model, tmp_path / "m.json")
     again = load_model(tmp_path / "m.json").decode(cores).tracts_table()
     pd.testing.assert_frame_equal(decoded, again)
