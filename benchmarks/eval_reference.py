@@ -203,7 +203,22 @@ def main(argv: list[str] | None = None) -> int:
     if a.save_reference:
         from faciesseq.hmm.modelfile import save_model
 
-        save_model(reference([f for v in folders.values() for f in v], a.out), a.save_reference)
+        model = reference([f for v in folders.values() for f in v], a.out)
+        provenance = {"command": ["python", "benchmarks/eval_reference.py", *sys.argv[1:]]}
+        if a.save_reference.suffix == ".gz":  # the packaged one: gzip of the same JSON
+            import gzip
+            import tempfile
+
+            with tempfile.TemporaryDirectory() as tmp:
+                plain = Path(tmp) / "reference.json"
+                save_model(model, plain, provenance)
+                with (
+                    open(a.save_reference, "wb") as out,
+                    gzip.GzipFile(fileobj=out, mode="wb", mtime=0) as f,
+                ):
+                    f.write(plain.read_bytes())
+        else:
+            save_model(model, a.save_reference, provenance)
         print(f"reference written to {a.save_reference}")
         return 0
     print("| held out | setting | seed | without a reference | with the reference |")

@@ -155,3 +155,42 @@ def test_the_command_line_refuses_a_reference_it_cannot_read(reference, target, 
         assert p.returncode == code, (extra, p.stderr)
         assert len(p.stderr.strip().splitlines()) == 1 and "Traceback" not in p.stderr
     assert ref.read_bytes() == before and not (tmp_path / "m.json").exists()
+
+
+def test_the_packaged_reference_is_read_by_name(target, tmp_path):
+    """`--reference generators`: the reference packaged with faciesseq (learnt from four
+    generators' invented cores on the ranks 0-10), read by a fit on another scheme."""
+    from faciesseq.hmm.reference import bundled_reference
+
+    packaged = bundled_reference()
+    assert "stacking" in packaged.features_ and packaged.ranks_.max() == 10
+    source = tmp_path / "cores.csv"
+    target[MINIMAL].to_csv(source, index=False)
+    import yaml
+
+    scheme = tmp_path / "scheme.yaml"
+    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    out = tmp_path / "m.json"
+    p = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "faciesseq",
+            "fit",
+            str(source),
+            "--scheme",
+            str(scheme),
+            "--reference",
+            "generators",
+            "--restarts",
+            "1",
+            "-o",
+            str(out),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=900,
+    )
+    assert p.returncode == 0, p.stderr
+    assert "the reference model's trees" in p.stdout + p.stderr
+    assert load_model(out).features_[-1] == "reference"

@@ -71,7 +71,8 @@ def register(subparsers) -> None:
         metavar="MODEL",
         help="without labels: a model file fitted with labels on other cores (another "
         "field, other facies) whose stacking trees help name the tracts, read beside this "
-        "database's own stacking (docs/hmm.md, 'A reference model')",
+        "database's own stacking; 'generators' for the one packaged with faciesseq, "
+        "learnt from invented cores of four generators (docs/hmm.md, 'A reference model')",
     )
     parser.add_argument(
         "--reference-weight",
@@ -196,8 +197,9 @@ def _reference(args: argparse.Namespace):
     if not args.reference_weight > 0:
         raise ConfigError(f"--reference-weight must be > 0, got {args.reference_weight}")
     from faciesseq.hmm.modelfile import load_model
+    from faciesseq.hmm.reference import BUNDLED
 
-    return load_model(args.reference)
+    return BUNDLED if args.reference == BUNDLED else load_model(args.reference)
 
 
 def _print_weights(model, asked: bool | None, verbose: bool) -> None:

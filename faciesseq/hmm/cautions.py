@@ -80,7 +80,8 @@ REFERENCE_CAUTION = (
     "written blind, each read with a reference learnt from the other three, fits read "
     "0.47-0.56, 0.60-0.65, 0.56-0.67 and 0.65-0.77 (balanced accuracy, chance 0.25; "
     "0.33-0.65 without the reference), and cores whose own stacking names their tracts "
-    "lost up to 0.16 (docs/hmm.md, 'A reference model'): read the column as a first draft, "
+    "lost up to 0.16, the demo's 0.14 (docs/hmm.md, 'A reference model'): read the column "
+    "as a first draft, "
     "or label a few cores (fit --labels)"
 )
 

@@ -62,7 +62,7 @@ from faciesseq.hmm.labels import (
     refuse_missing_label_column,
 )
 from faciesseq.hmm.pieces import make_piece
-from faciesseq.hmm.reference import REFERENCE, ReferenceEmission
+from faciesseq.hmm.reference import BUNDLED, REFERENCE, ReferenceEmission, bundled_reference
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.said_once import said_once
 from faciesseq.hmm.states import StateSpace
@@ -538,7 +538,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         from faciesseq.hmm.modelfile import load_model
 
         ref = self.reference
-        if not isinstance(ref, TractHMM):
+        if isinstance(ref, str) and ref == BUNDLED:
+            ref = _bundled()
+        elif not isinstance(ref, TractHMM):
             ref = _loaded_reference(str(ref), os.stat(ref).st_mtime_ns, load_model)
         marks, nonmarine = self._facies_marks()
         piece = ReferenceEmission.of(
@@ -995,3 +997,9 @@ def _loaded_reference(path: str, mtime: int, load) -> TractHMM:
     """A reference model file read once per fit (graph choice and the nested start
     build the piece several times); ``mtime`` makes a rewritten file read again."""
     return load(path)
+
+
+@functools.lru_cache(maxsize=1)
+def _bundled() -> TractHMM:
+    """The packaged reference, read once per process."""
+    return bundled_reference()
