@@ -285,6 +285,14 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         every candidate from the priors alone and keeps that fit where its TST
         deepens clearly more (:func:`faciesseq.hmm.nested.kept_start`). ``False``
         starts from the priors alone.
+    reference
+        In fits without labels on the stacking context: a model fitted with labels on
+        other cores (a ``TractHMM``, the path of its model file, or ``"generators"``
+        for the one packaged with faciesseq) whose stacking trees are read as a static
+        piece beside the context pieces (:mod:`faciesseq.hmm.reference`); measured
+        in docs/hmm.md, "A reference model". ``None`` (the default): none.
+    reference_weight
+        The multiplier of the reference piece's log-likelihood (> 0).
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 
@@ -540,8 +548,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         ref = self.reference
         if isinstance(ref, str) and ref == BUNDLED:
             ref = _bundled()
-        elif not isinstance(ref, TractHMM):
-            ref = _loaded_reference(str(ref), os.stat(ref).st_mtime_ns, load_model)
+        elif not isinstance(ref, TractHMM):  # a missing file: load_model's one line
+            mtime = os.stat(ref).st_mtime_ns if os.path.isfile(ref) else 0
+            ref = _loaded_reference(str(ref), mtime, load_model)
         marks, nonmarine = self._facies_marks()
         piece = ReferenceEmission.of(
             ref,
