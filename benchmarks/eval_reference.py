@@ -38,14 +38,6 @@ sys.path[:0] = [str(HERE.parent), str(HERE)]
 
 GENERATORS = ("blind", "shelf", "ramp", "delta")
 SETTINGS = {"default": [], "equal": ["--equal-beds"], "nofsst": ["--no-fsst-prob", "0.5"]}
-SCENARIOS = (
-    "stacking-minimal-table",
-    "stacking-thin-tracts",
-    "stacking-equal-beds",
-    "scenario-ramp",
-    "scenario-hinge-table",
-    "scenario-asymmetric-shelf",
-)
 MINIMAL = ["core", "top", "base", "facies"]
 TOP_RANK = 10
 
@@ -228,6 +220,8 @@ def main(argv: list[str] | None = None) -> int:
         (g, [f for k, v in folders.items() if k != g for f in v], folders[g]) for g in GENERATORS
     ]
     if not a.no_scenarios:
+        from eval_suggested_ranks import SCENARIOS  # the project's six, as there
+
         everything = [f for v in folders.values() for f in v]
         held += [(n, everything, [scenario_folder(n, s, a.out) for s in seeds]) for n in SCENARIOS]
     for name, training, targets in held:
