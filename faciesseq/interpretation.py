@@ -69,6 +69,9 @@ class CoreInterpretation:
         Whether the fit that decoded the core saw labelled beds (else the tract
         names rest on its priors, which the strip log notes); true where no model
         said otherwise.
+    read_reference
+        Whether that fit, without labels, read a reference model too
+        (:mod:`faciesseq.hmm.reference`), which the strip log notes.
     """
 
     core: str
@@ -81,6 +84,7 @@ class CoreInterpretation:
     log_likelihood: float
     probabilities_checked: bool = False
     tracts_labelled: bool = True
+    read_reference: bool = False
 
     def __repr__(self) -> str:
         return (
@@ -401,6 +405,7 @@ class Interpretation:
             log_likelihood=float(well["log_likelihood"]),
             probabilities_checked=self.probabilities_checked,
             tracts_labelled=self.tracts_labelled,
+            read_reference="reference" in self.meta.get("features", ()),
             **spans,
         )
 

@@ -113,6 +113,10 @@ def test_a_fit_with_a_reference_decodes_and_keeps_it_in_its_file(reference, targ
     assert any("the reference model's trees" in c for c in model.cautions_)
     assert "a reference model" in interpretation.meta["probabilities_note"]
     assert "reference model fitted with labels on other cores" in methods_text(model)
+    from faciesseq.report.striplog import REFERENCE_NOTE, strip_log
+
+    figure = strip_log(interpretation[cores.names[0]], model=model)
+    assert any(REFERENCE_NOTE in ax.get_xlabel() for ax in figure.axes)
     save_model(model, tmp_path / "m.json")
     again = load_model(tmp_path / "m.json").decode(cores).tracts_table()
     pd.testing.assert_frame_equal(decoded, again)

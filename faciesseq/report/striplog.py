@@ -46,6 +46,7 @@ from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = [
     "GRAIN_CLASSES",
+    "REFERENCE_NOTE",
     "SURFACE_AXIS_END",
     "UNCHECKED_NOTE",
     "UNLABELLED_NOTE",
@@ -65,6 +66,8 @@ GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
 UNCHECKED_NOTE = "probabilities not checked"
 #: Printed under the probability track of a core decoded by a fit without labels.
 UNLABELLED_NOTE = "tract names from priors (no labels)"
+#: The same where the fit read a reference model.
+REFERENCE_NOTE = "tract names from priors and a reference (no labels)"
 _GAP = "#f0f0f0"
 #: Right end of the surface panel (strip log and view): a pick at probability 1
 #: keeps its marker inside.
@@ -297,19 +300,21 @@ def _tract_track(ax, beds: pd.DataFrame, tracts: tuple[str, ...]) -> None:
     ax.set_xlabel("most likely")
 
 
-def _probability_note(checked: bool, labelled: bool) -> str:
+def _probability_note(checked: bool, labelled: bool, reference: bool = False) -> str:
     """The line under the probability track: nothing, one note, or both in one line
-    (a third line would run into the legends)."""
+    (a third line would run into the legends); ``reference``: a fit without labels
+    that read a reference model (``faciesseq.hmm.reference``)."""
     if checked and labelled:
         return ""
     if labelled:
         return f"\n{UNCHECKED_NOTE}"
     if checked:
-        return f"\n{UNLABELLED_NOTE}"
-    return "\nnot checked; names from priors (no labels)"
+        return f"\n{REFERENCE_NOTE if reference else UNLABELLED_NOTE}"
+    names = "priors and a reference" if reference else "priors"
+    return f"\nnot checked; names from {names} (no labels)"
 
 
-def _probability_track(ax, beds, tracts, checked, labelled=True) -> None:
+def _probability_track(ax, beds, tracts, checked, labelled=True, reference=False) -> None:
     """The tract posteriors, stacked."""
     b_top = beds["top"].to_numpy(float)
     b_base = beds["base"].to_numpy(float)
@@ -321,7 +326,7 @@ def _probability_track(ax, beds, tracts, checked, labelled=True) -> None:
     ax.set_xlim(0, 1)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("tract probability")
-    ax.set_xlabel("posterior (stacked)" + _probability_note(checked, labelled))
+    ax.set_xlabel("posterior (stacked)" + _probability_note(checked, labelled, reference))
 
 
 def _surface_track(
@@ -579,7 +584,9 @@ def _draw_tracks(tracks, interp, scheme, gaps, curves, step: float, checked: boo
             ax.axhspan(g_base, g_top, fc=_GAP, hatch="xx", ec="#b0b0b0", lw=0.4, zorder=0)
     _facies_track(facies_ax, beds, scheme, interp.units)
     _tract_track(tract_ax, beds, tracts)
-    _probability_track(probability_ax, beds, tracts, checked, interp.tracts_labelled)
+    _probability_track(
+        probability_ax, beds, tracts, checked, interp.tracts_labelled, interp.read_reference
+    )
     pick_lines = _surface_track(surface_ax, interp, curves, step, drawn)
     for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
         ax.hlines(
