@@ -37,6 +37,7 @@ EXAMPLES = """\
 examples:
   faciesseq fit cores.csv --scheme my-scheme.yaml --labels tract -o model.json
   faciesseq fit cores.csv -o model.json   # no scheme: ranks suggested from the data
+  faciesseq fit cores.csv --scheme my-scheme.yaml --reference other-field.json -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --substates 1,2 --restarts 5 -o model.json
   faciesseq fit cores.csv --scheme my-scheme.yaml --tracts my-tracts.yaml -o model.json --force
   faciesseq fit cores.csv --scheme my-scheme.yaml -o model.json --format json > wells.json
