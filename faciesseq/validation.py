@@ -25,6 +25,7 @@ Scores, for the model and for the baseline (:func:`faciesseq.hmm.baseline.trend_
 
 from __future__ import annotations
 
+import os
 import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -642,7 +643,18 @@ def _run_settings(
             if k in ("features", "substates", "prior_strength", "cycle_prior", "unit", "step")
         }
     )
+    if params.get("reference") is not None:  # the model itself is not a setting to print
+        settings["reference"] = _reference_name(params["reference"])
+        settings["reference_weight"] = float(params.get("reference_weight", 1.0))
     return settings
+
+
+def _reference_name(reference: Any) -> str:
+    """How a reference model is named in the settings: its file or the packaged one's
+    name, or that it was given from Python."""
+    if isinstance(reference, str | os.PathLike):
+        return str(reference)
+    return "a model given from Python"
 
 
 def cross_validate(

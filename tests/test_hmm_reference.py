@@ -198,3 +198,45 @@ def test_the_packaged_reference_is_read_by_name(target, tmp_path):
     assert p.returncode == 0, p.stderr
     assert "the reference model's trees" in p.stdout + p.stderr
     assert load_model(out).features_[-1] == "reference"
+
+
+def test_validate_measures_a_reference_on_labelled_cores(reference, target, tmp_path):
+    """`validate --mode unsupervised --reference`: a geologist with interpreted cores
+    measures, before using it on uninterpreted ones, what a reference gives."""
+    import json
+
+    import yaml
+
+    source = tmp_path / "cores.csv"
+    stacking_table(SCENARIO, [3, 4])[[*MINIMAL, "true_tract"]].to_csv(source, index=False)
+    scheme = tmp_path / "scheme.yaml"
+    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    ref = tmp_path / "reference.json"
+    save_model(reference, ref)
+    validate = [
+        sys.executable,
+        "-m",
+        "faciesseq",
+        "validate",
+        str(source),
+        "--scheme",
+        str(scheme),
+        "--labels",
+        "true_tract",
+        "--folds",
+        "2",
+        "--reference",
+        str(ref),
+    ]
+    p = subprocess.run(
+        [*validate, "--mode", "unsupervised", "--restarts", "1", "--format", "json"],
+        capture_output=True,
+        text=True,
+        timeout=900,
+    )
+    assert p.returncode == 0, p.stderr
+    result = json.loads(p.stdout)
+    assert result["settings"]["mode"] == "unsupervised"
+    assert result["settings"]["reference"] == str(ref)
+    p = subprocess.run(validate, capture_output=True, text=True, timeout=600)  # supervised
+    assert p.returncode == 2 and "without labels" in p.stderr

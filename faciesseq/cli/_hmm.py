@@ -104,6 +104,50 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
     )
 
 
+def add_reference_arguments(parser: argparse.ArgumentParser) -> None:
+    """``--reference`` and ``--reference-weight`` (fits without labels)."""
+    parser.add_argument(
+        "--reference",
+        metavar="MODEL",
+        help="without labels: a model file fitted with labels on other cores (another "
+        "field, other facies) whose stacking trees help name the tracts, read beside this "
+        "database's own stacking; 'generators' for the one packaged with faciesseq, "
+        "learnt from invented cores of four generators (docs/hmm.md, 'A reference model')",
+    )
+    parser.add_argument(
+        "--reference-weight",
+        metavar="W",
+        type=float,
+        default=1.0,
+        help="with --reference: the weight of its trees against this database's own "
+        "stacking (default 1)",
+    )
+
+
+def reference_option(args: argparse.Namespace, labelled: bool):
+    """The ``--reference`` model file (read once here, before any work, so that a bad
+    file stops the command at once; ``"generators"`` for the packaged one), ``None``
+    without it; refused (exit 2) where the fits are ``labelled``
+    and for a weight without a reference or not above 0."""
+    if args.reference is None:
+        if args.reference_weight != 1.0:
+            raise ConfigError("--reference-weight needs --reference")
+        return None
+    if labelled:
+        raise ConfigError(
+            "--reference is read by fits without labels (fit without --labels, validate "
+            "--mode unsupervised); with labels the labelled cores name the tracts"
+        )
+    if not args.reference_weight > 0:
+        raise ConfigError(f"--reference-weight must be > 0, got {args.reference_weight}")
+    from faciesseq.hmm.modelfile import load_model
+    from faciesseq.hmm.reference import BUNDLED
+
+    if args.reference != BUNDLED:
+        load_model(args.reference)  # a file that is not a model: one line, before any work
+    return args.reference
+
+
 def weigh_evidence(args: argparse.Namespace) -> bool:
     """``--weigh-evidence`` / ``--no-weigh-evidence``; weighed unless told not to."""
     return args.weigh_evidence is not False

@@ -19,10 +19,12 @@ from faciesseq.cli._common import (
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
+    add_reference_arguments,
     check_features,
     check_unit,
     feature_sets,
     load_tracts_option,
+    reference_option,
     resolve_suggest_ranks,
     resolve_unit,
     scheme_for_fit,
@@ -67,22 +69,7 @@ def register(subparsers) -> None:
         "--labels", metavar="COLUMN", help="bed column with the interpreter's tract codes"
     )
     add_model_arguments(parser)
-    parser.add_argument(
-        "--reference",
-        metavar="MODEL",
-        help="without labels: a model file fitted with labels on other cores (another "
-        "field, other facies) whose stacking trees help name the tracts, read beside this "
-        "database's own stacking; 'generators' for the one packaged with faciesseq, "
-        "learnt from invented cores of four generators (docs/hmm.md, 'A reference model')",
-    )
-    parser.add_argument(
-        "--reference-weight",
-        metavar="W",
-        type=float,
-        default=1.0,
-        help="with --reference: the weight of its trees against this database's own "
-        "stacking (default 1)",
-    )
+    add_reference_arguments(parser)
     add_irregular_argument(parser, "train on")
     add_parallel_arguments(
         parser,
@@ -181,26 +168,6 @@ def _select(
             )
         finally:
             progress.close()
-
-
-def _reference(args: argparse.Namespace):
-    """The ``--reference`` model, read once; refused (exit 2) with labels, and with a
-    weight but no reference."""
-    if args.reference is None:
-        if args.reference_weight != 1.0:
-            raise ConfigError("--reference-weight needs --reference")
-        return None
-    if args.labels is not None:
-        raise ConfigError(
-            "--reference is read by fits without labels; with --labels the labelled "
-            "cores name the tracts"
-        )
-    if not args.reference_weight > 0:
-        raise ConfigError(f"--reference-weight must be > 0, got {args.reference_weight}")
-    from faciesseq.hmm.modelfile import load_model
-    from faciesseq.hmm.reference import BUNDLED
-
-    return BUNDLED if args.reference == BUNDLED else load_model(args.reference)
 
 
 def _print_weights(model, asked: bool | None, verbose: bool) -> None:
@@ -520,7 +487,7 @@ def run(args: argparse.Namespace) -> int:
     from faciesseq.scheme import default_tract_model
 
     substates = substate_counts(args, len((tract_model or default_tract_model()).order))
-    reference = _reference(args)
+    reference = reference_option(args, labelled)
     cores, successions = _successions(args, scheme)
     check_features(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)

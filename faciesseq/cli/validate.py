@@ -19,10 +19,12 @@ from faciesseq.cli._common import (
 from faciesseq.cli._hmm import (
     Progress,
     add_model_arguments,
+    add_reference_arguments,
     check_features,
     check_unit,
     feature_sets,
     load_tracts_option,
+    reference_option,
     resolve_suggest_ranks,
     resolve_unit,
     scheme_for_fit,
@@ -39,6 +41,7 @@ examples:
   faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract
   faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract --folds 3 --seed 0 -o cv
   faciesseq validate cores.csv --labels tract --mode unsupervised --format json
+  faciesseq validate cores.csv --labels tract --mode unsupervised --reference other-field.json
   faciesseq validate cores.csv --scheme my-scheme.yaml --labels tract --jobs 2
 """
 
@@ -70,6 +73,7 @@ def register(subparsers) -> None:
     add_output_arguments(parser, "OUT", "also write the tables to this folder")
     parser.add_argument("--format", choices=("text", "json"), default="text", help="stdout format")
     add_model_arguments(parser, select=False)
+    add_reference_arguments(parser)
     add_parallel_arguments(
         parser,
         "EM restarts, candidate tract graphs, calibration folds, "
@@ -82,6 +86,12 @@ def _pct(x: float) -> str:
     return "-" if x is None or (isinstance(x, float) and math.isnan(x)) else f"{100 * x:.1f} %"
 
 
+def _read_reference(settings: dict) -> str:
+    """The reference model the folds read, if any, for the first line."""
+    name = settings.get("reference")
+    return "" if name is None else f", with the reference model {name}"
+
+
 def format_text(result) -> str:
     dealt = (
         "; the labelled cores dealt first round the folds, so that every fold has one to train on"
@@ -92,7 +102,7 @@ def format_text(result) -> str:
         f"cross-validation by core: {result.folds} folds, {result.settings['n_cores']} cores, "
         f"{result.settings['n_beds_scored']} labelled {row_word(result.settings.get('unit'))} "
         f"scored ({result.settings['mode']})"
-        f"{dealt}",
+        f"{_read_reference(result.settings)}{dealt}",
         "",
         "method     accuracy  macro F1   Brier  MFS within 1 bed",
     ]
@@ -185,6 +195,7 @@ def run(args: argparse.Namespace) -> int:
     resolve_suggest_ranks(args)
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
+    reference = reference_option(args, labelled)
     cores = read_source(args, scheme).require_valid()
     check_grid_size(cores, args.unit, args.step)
     check_features(args, cores)
@@ -216,6 +227,8 @@ def run(args: argparse.Namespace) -> int:
                 calibration_folds=args.calibration_folds,
                 weigh_evidence=weigh_evidence(args),
                 nested_start=args.nested_start,
+                reference=reference,
+                reference_weight=args.reference_weight,
             )
         finally:
             progress.close()
