@@ -198,7 +198,8 @@ def test_outputs_of_a_fit_without_labels_say_the_names_rest_on_priors(database, 
         first = _first_line(out / f"{name}.csv")
         assert "parametric bootstrap" in first and UNLABELLED_NOTE in first, name
     page = (out / "view.html").read_text(encoding="utf-8")
-    assert '"labelled":false' in page and "Tract names from the model's priors" in page
+    assert '"labelled":false' in page and '"reference":false' in page
+    assert '"Tract names from " + names' in page and "the model's priors" in page
     labelled = tmp_path / "labelled"
     assert _decode(database, models["checked"], labelled, "--view") == 0
     assert UNLABELLED_NOTE not in _first_line(labelled / "tracts.csv")

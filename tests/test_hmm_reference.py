@@ -117,6 +117,9 @@ def test_a_fit_with_a_reference_decodes_and_keeps_it_in_its_file(reference, targ
 
     figure = strip_log(interpretation[cores.names[0]], model=model)
     assert any(REFERENCE_NOTE in ax.get_xlabel() for ax in figure.axes)
+    from faciesseq.report.view import view_data
+
+    assert view_data(interpretation, model.scheme, model.tract_model_)["reference"] is True
     save_model(model, tmp_path / "m.json")
     again = load_model(tmp_path / "m.json").decode(cores).tracts_table()
     pd.testing.assert_frame_equal(decoded, again)

@@ -244,6 +244,7 @@ def view_data(
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
         "labelled": interpretation.tracts_labelled,
+        "reference": "reference" in interpretation.meta.get("features", ()),
         "note": interpretation.probabilities_note,
         "units": units[0] if len(units) == 1 else ", ".join(units),
         "grain_classes": list(GRAIN_CLASSES),
@@ -502,7 +503,8 @@ _JS = r"""
     note.textContent = DATA.note;
   } else {
     note.classList.add("unchecked");
-    note.textContent = (DATA.checked ? "Tract names from the model's priors. "
+    const names = DATA.reference ? "the model's priors and a reference" : "the model's priors";
+    note.textContent = (DATA.checked ? "Tract names from " + names + ". "
       : "Probabilities not checked. ") + DATA.note;
   }
   const unitsLabel = document.getElementById("units");
