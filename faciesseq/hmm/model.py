@@ -526,7 +526,10 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         without labels on the stacking context only), refused where it cannot be read."""
         if self.reference is None:
             if REFERENCE in features:
-                raise ConfigError("feature 'reference' needs a reference model (reference=)")
+                raise ConfigError(
+                    "feature 'reference' needs a reference model (fit --reference; reference= "
+                    "from Python)"
+                )
             return features
         if n_labelled:
             raise ConfigError(
