@@ -405,7 +405,7 @@ class Interpretation:
             log_likelihood=float(well["log_likelihood"]),
             probabilities_checked=self.probabilities_checked,
             tracts_labelled=self.tracts_labelled,
-            read_reference="reference" in self.meta.get("features", ()),
+            read_reference=self.read_reference,
             **spans,
         )
 
@@ -427,6 +427,13 @@ class Interpretation:
         (``meta["probabilities_checked"]``, set by ``TractHMM.decode``; false
         where no model said so)."""
         return bool(self.meta.get("probabilities_checked", False))
+
+    @property
+    def read_reference(self) -> bool:
+        """Whether the fit without labels that decoded these cores read a reference
+        model too (its features, ``meta["features"]``, end with ``reference``;
+        :mod:`faciesseq.hmm.reference`)."""
+        return "reference" in self.meta.get("features", ())
 
     @property
     def tracts_labelled(self) -> bool:

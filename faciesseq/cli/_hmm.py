@@ -140,11 +140,9 @@ def reference_option(args: argparse.Namespace, labelled: bool):
         )
     if not args.reference_weight > 0:
         raise ConfigError(f"--reference-weight must be > 0, got {args.reference_weight}")
-    from faciesseq.hmm.modelfile import load_model
-    from faciesseq.hmm.reference import BUNDLED
+    from faciesseq.hmm.reference import reference_model
 
-    if args.reference != BUNDLED:
-        load_model(args.reference)  # a file that is not a model: one line, before any work
+    reference_model(args.reference)  # a file that is not a model: one line, before any work
     return args.reference
 
 

@@ -81,8 +81,7 @@ REFERENCE_CAUTION = (
     "0.47-0.56, 0.60-0.65, 0.56-0.67 and 0.65-0.77 (balanced accuracy, chance 0.25; "
     "0.33-0.65 without the reference), and cores whose own stacking names their tracts "
     "lost up to 0.16, the demo's 0.14 (docs/hmm.md, 'A reference model'): read the column "
-    "as a first draft, "
-    "or label a few cores (fit --labels)"
+    "as a first draft, or label a few cores (fit --labels)"
 )
 
 #: The same note where the fit read a reference model.

@@ -32,6 +32,7 @@ from faciesseq.hmm.calibration import probability_meta, temper
 from faciesseq.hmm.cautions import REFERENCE_NOTE, UNLABELLED_NOTE
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
 from faciesseq.hmm.inputs import as_successions
+from faciesseq.hmm.reference import REFERENCE
 from faciesseq.hmm.said_once import said_once
 from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs
@@ -354,7 +355,7 @@ class Decoding:
         meta |= probability_meta(self.temperature_, self.calibration_)
         meta["tracts_labelled"] = bool(getattr(self, "n_labelled_", 0))
         if not meta["tracts_labelled"]:
-            note = REFERENCE_NOTE if "reference" in self.features_ else UNLABELLED_NOTE
+            note = REFERENCE_NOTE if REFERENCE in self.features_ else UNLABELLED_NOTE
             meta["probabilities_note"] = f"{meta['probabilities_note']} {note}"
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 

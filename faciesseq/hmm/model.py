@@ -19,10 +19,8 @@ files. hmmlearn's ``CategoricalHMM`` is the reference the tests compare with.
 
 from __future__ import annotations
 
-import functools
 import math
 import numbers
-import os
 import warnings
 from collections.abc import Mapping, Sequence
 from os import PathLike
@@ -62,7 +60,7 @@ from faciesseq.hmm.labels import (
     refuse_missing_label_column,
 )
 from faciesseq.hmm.pieces import make_piece
-from faciesseq.hmm.reference import BUNDLED, REFERENCE, ReferenceEmission, bundled_reference
+from faciesseq.hmm.reference import REFERENCE, ReferenceEmission, reference_model
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.said_once import said_once
 from faciesseq.hmm.states import StateSpace
@@ -546,17 +544,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
     def _reference_piece(self, beds: EncodedBeds) -> EmissionPiece:
         """The reference's stacking trees on this model's facies and tracts, their depth
         windows in the median cycle of ``beds`` (:mod:`faciesseq.hmm.reference`)."""
-        from faciesseq.hmm.modelfile import load_model
-
-        ref = self.reference
-        if isinstance(ref, str) and ref == BUNDLED:
-            ref = _bundled()
-        elif not isinstance(ref, TractHMM):  # a missing file: load_model's one line
-            mtime = os.stat(ref).st_mtime_ns if os.path.isfile(ref) else 0
-            ref = _loaded_reference(str(ref), mtime, load_model)
         marks, nonmarine = self._facies_marks()
         piece = ReferenceEmission.of(
-            ref,
+            reference_model(self.reference),
             self.tract_model_.order,
             self.ranks_,
             marks,
@@ -1002,16 +992,3 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             f"prior_strength={self.prior_strength!r}, n_restarts={self.n_restarts!r}, "
             f"random_state={self.random_state!r})"
         )
-
-
-@functools.lru_cache(maxsize=2)
-def _loaded_reference(path: str, mtime: int, load) -> TractHMM:
-    """A reference model file read once per fit (graph choice and the nested start
-    build the piece several times); ``mtime`` makes a rewritten file read again."""
-    return load(path)
-
-
-@functools.lru_cache(maxsize=1)
-def _bundled() -> TractHMM:
-    """The packaged reference, read once per process."""
-    return bundled_reference()

@@ -21,6 +21,8 @@ the coded beds itself.
 
 from __future__ import annotations
 
+import functools
+import os
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -31,12 +33,45 @@ from faciesseq.hmm.emissions import check_table
 from faciesseq.hmm.encoding import EncodedBeds, median_cycle_thickness, stacking_window
 from faciesseq.hmm.stacking_piece import StackingEmission
 
-__all__ = ["BUNDLED", "REFERENCE", "ReferenceEmission", "bundled_reference", "rescaled_ranks"]
+__all__ = [
+    "BUNDLED",
+    "REFERENCE",
+    "ReferenceEmission",
+    "bundled_reference",
+    "reference_model",
+    "rescaled_ranks",
+]
 
 #: The feature name of the reference piece.
 REFERENCE = "reference"
 #: The name that asks for the reference packaged with faciesseq (``--reference generators``).
 BUNDLED = "generators"
+
+
+def reference_model(reference):
+    """The fitted reference a fit reads: ``reference`` itself where it is a model,
+    the packaged one for ``"generators"`` (:data:`BUNDLED`), else the model file at
+    that path. Files are read once per process (graph choice and the nested start
+    build the piece several times, and the command line reads the file first to refuse
+    a bad one before any work); a rewritten file is read again."""
+    if not isinstance(reference, str | os.PathLike):
+        return reference
+    if str(reference) == BUNDLED:
+        return _packaged()
+    path = str(reference)  # a missing file: load_model's one line
+    return _model_file(path, os.stat(path).st_mtime_ns if os.path.isfile(path) else 0)
+
+
+@functools.lru_cache(maxsize=2)
+def _model_file(path: str, mtime: int):
+    from faciesseq.hmm.modelfile import load_model
+
+    return load_model(path)
+
+
+@functools.lru_cache(maxsize=1)
+def _packaged():
+    return bundled_reference()
 
 
 def bundled_reference():

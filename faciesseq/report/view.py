@@ -244,7 +244,7 @@ def view_data(
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
         "labelled": interpretation.tracts_labelled,
-        "reference": "reference" in interpretation.meta.get("features", ()),
+        "reference": interpretation.read_reference,
         "note": interpretation.probabilities_note,
         "units": units[0] if len(units) == 1 else ", ".join(units),
         "grain_classes": list(GRAIN_CLASSES),
