@@ -3,7 +3,7 @@
 A *plain* file is UTF-8 without a byte-order mark, with no quote character, no NUL
 byte and no empty line. Such a file reads here to the same cells as the general
 reader (:func:`faciesseq.io.tabular.read_delimited`, pandas' parser with
-``skipinitialspace``, its default missing-value words, then each cell stripped and
+``skipinitialspace`` and no missing-value words, then each cell stripped and only
 blank cells missing), but in blocks and column by column: each block's column is
 dictionary-encoded while parsed, so the text of a repeated value (a core name, a
 facies code, a units word) is held once, not once per row. Anything else (quotes,
@@ -24,8 +24,6 @@ __all__ = ["NotPlain", "plain_blocks", "plain_frame", "read_plain"]
 
 #: Bytes parsed at a time.
 BLOCK_BYTES = 1 << 22
-#: Cells pandas' parser reads as missing (its default ``na_values``).
-NA_WORDS = sorted(pd._libs.parsers.STR_NA_VALUES)
 
 
 class NotPlain(Exception):
@@ -137,10 +135,8 @@ def _categorical(blocks: list[tuple[np.ndarray, object]]) -> pd.Categorical | No
     texts = pa.concat_arrays([d for _, d in blocks])
     if pc.any(pc.match_substring_regex(texts, '["\\x00]')).as_py():
         return None  # a quote or a NUL byte: the general reader's
-    # pandas skips spaces after the delimiter, then tests its missing-value words
-    missing = pc.is_in(pc.utf8_ltrim(texts, characters=" "), value_set=pa.array(NA_WORDS))
     stripped = pc.utf8_trim_whitespace(texts)
-    missing = pc.or_(missing, pc.equal(stripped, ""))
+    missing = pc.equal(stripped, "")
     values = pd.Series(pd.arrays.ArrowStringArray(pc.if_else(missing, None, stripped)))
     ids, uniques = pd.factorize(values, use_na_sentinel=True)
     n = sum(len(codes) for codes, _ in blocks)

@@ -9,6 +9,12 @@ import pandas as pd
 
 from faciesseq.errors import InputError, Problem
 
+#: Words pandas reads as missing by default (``NA``, ``null``, ``NaN``, ``n/a``...).
+#: The readers keep them as text, since ``NA`` is a facies code as good as any
+#: (non-marine algal); the validator reads them as missing in number columns only,
+#: where R and database exports write them for an empty number.
+NUMBER_NA_WORDS = frozenset(pd._libs.parsers.STR_NA_VALUES)
+
 #: Most columns a table may have: every column is carried along as a bed attribute,
 #: and tables from a core description have tens, not thousands.
 MAX_COLUMNS = 2_000

@@ -21,7 +21,7 @@ import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.plaincsv import read_plain
-from faciesseq.io.raw import RawTable, check_header, check_width
+from faciesseq.io.raw import NUMBER_NA_WORDS, RawTable, check_header, check_width
 
 __all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
 
@@ -310,7 +310,8 @@ def _head(path: Path) -> str:
 
 
 def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Problem], str]:
-    """Any delimited file, by pandas' parser: cells as text, stripped, blank cells missing."""
+    """Any delimited file, by pandas' parser: cells as text, stripped, blank cells missing
+    (pandas' missing-value words, ``NA``, ``null``..., kept as text)."""
     file = str(path)
     try:
         data = path.read_bytes()
@@ -337,6 +338,8 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
             dtype=str,
             skip_blank_lines=False,
             skipinitialspace=True,
+            # only a blank cell is missing: "NA" or "null" may be a facies code
+            keep_default_na=False,
             chunksize=CHUNK_ROWS,
             engine="python" if nul else "c",
         )
@@ -364,6 +367,7 @@ def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
     converted = []
     for col in frame.columns:
         values = frame[col].dropna().astype(str)
+        values = values[~values.isin(NUMBER_NA_WORDS)]
         if (
             len(values)
             and values.str.contains(",").any()

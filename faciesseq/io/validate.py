@@ -42,7 +42,7 @@ from faciesseq.core import DEPTH_TOL, Core, CoreSet, CoreTable, in_units, plain_
 from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.contacts import known_contact, known_words
-from faciesseq.io.raw import RawTable, check_width
+from faciesseq.io.raw import NUMBER_NA_WORDS, RawTable, check_width
 from faciesseq.io.wording import COMMAND_LINE, Wording
 from faciesseq.scheme import FaciesScheme, _code
 
@@ -216,6 +216,12 @@ def _is_blank(value: object) -> bool:
         return False
 
 
+def _is_missing_number(value: object) -> bool:
+    """Whether a cell of a number column is missing: blank, or a word pandas reads as
+    missing (``NA``, ``null``, ``NaN``...), as R and databases export an empty number."""
+    return _is_blank(value) or (isinstance(value, str) and value.strip() in NUMBER_NA_WORDS)
+
+
 def _to_floats(values: pd.Series) -> np.ndarray:
     """Each cell as a float (NaN when missing or not a number). A number too large for a
     float (``1e309``) is infinity, as Python reads it, whatever the pandas release: before
@@ -234,7 +240,7 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     each distinct value read once."""
     found = _distinct(values)
     if found is None:
-        blank = _blank(values)
+        blank = _per_distinct(values, _is_missing_number).astype(bool)
         return _to_floats(values.where(~blank, None)), blank
     ids, uniques = found
     numbers, blank = _distinct_numbers(uniques)
@@ -244,7 +250,7 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
 def _distinct_numbers(uniques: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Each distinct value as a number and whether it is blank, with one more entry (NaN,
     blank) for a missing value (index -1)."""
-    blank = np.array([_is_blank(u) for u in uniques] + [True], dtype=bool)
+    blank = np.array([_is_missing_number(u) for u in uniques] + [True], dtype=bool)
     read = _to_floats(pd.Series(uniques, dtype=object).where(~blank[:-1], None))
     return np.r_[read, np.nan], blank
 
@@ -260,12 +266,12 @@ def _numbers_where_all(values: pd.Series) -> pd.Series:
         filled &= ~blank
         if filled.any() and not np.isnan(numbers[filled]).any():
             return pd.Series(numbers[ids], index=values.index)
-        return _text_where_not_numbers(values, blank[ids])
+        return _text_where_not_numbers(values, _blank(values))  # "NA" kept as text
     numbers, blank = _numbers(values)
     filled = ~blank
     if filled.any() and not np.isnan(numbers[filled]).any():
         return pd.Series(numbers, index=values.index)
-    return _text_where_not_numbers(values, blank)
+    return _text_where_not_numbers(values, _blank(values))
 
 
 def _text_where_not_numbers(values: pd.Series, blank: np.ndarray) -> pd.Series:
@@ -705,7 +711,7 @@ def _facies_flags(codes: np.ndarray, scheme: FaciesScheme | None) -> tuple[np.nd
 def _grain_size(value: object) -> tuple[float, str | None]:
     """A grain-size cell as a class number (NaN when blank or not understood) and the
     word it was read from (``""`` when the cell is neither blank, a number nor a word)."""
-    if _is_blank(value):
+    if _is_missing_number(value):
         return np.nan, None
     try:
         return float(value), None
