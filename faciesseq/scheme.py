@@ -790,7 +790,7 @@ def draft_scheme(
         "# Fill in every 'rank' (proximality / relative water depth: 0 = most landward",
         "# or shallow, larger = more basinward or deep) and a 'name' a reader understands.",
         "# The scheme does not load until every rank is filled in.",
-        f"name: {yaml.safe_dump(name).strip().removesuffix('...').strip()}",
+        f"name: {_yaml_scalar(name)}",
         "facies:",
     ]
     if filled:
@@ -806,9 +806,8 @@ def draft_scheme(
     ]
     for code in unique:
         lines += [
-            f"  - code: {yaml.safe_dump(code).strip().removesuffix('...').strip()}"
-            "  # the code as written in the data",
-            f"    name: facies {code}  # a name a reader understands",
+            f"  - code: {_yaml_scalar(code)}  # the code as written in the data",
+            f"    name: {_yaml_scalar(f'facies {code}')}  # a name a reader understands",
             _draft_rank(suggested.get(code), filled),
             "    group: null  # optional: facies association, e.g. shoreface",
             "    colour: null  # optional: hex colour of strip logs, e.g. '#c9a227'",
@@ -820,6 +819,12 @@ def draft_scheme(
             "    exposure: false  # optional: true if it records the site's subaerial exposure",
         ]
     return "\n".join(lines) + "\n"
+
+
+def _yaml_scalar(text: str) -> str:
+    """``text`` as one YAML scalar, quoted where YAML needs it (``NA: x``, ``#3``), its
+    characters as written (``grès``, ``砂岩``), not escaped."""
+    return yaml.safe_dump(text, allow_unicode=True, width=10**6).strip().removesuffix("...").strip()
 
 
 def _draft_rank(suggestion: int | None, fill: bool) -> str:

@@ -59,6 +59,22 @@ def test_draft_scheme_does_not_load_until_ranks_are_filled(tmp_path):
     assert [f["code"] for f in data["facies"]] == ["1", "2", "10"]
 
 
+def test_draft_scheme_writes_codes_and_names_as_written_and_reads_them_back(tmp_path):
+    """Non-ASCII codes are written as their characters (UTF-8), not YAML escapes
+    (``"gr\\xE8s"``); codes YAML would misread (``#3``, ``a: b``, ``null``) are quoted;
+    every one reads back identically, with its name ``facies CODE``."""
+    codes = ["grès", "Kalkstein-ä", "砂岩", "#3", "a: b", "null", "NA"]
+    text = draft_scheme(codes, name="Grès d'Annot", suggested={c: i for i, c in enumerate(codes)})
+    assert "\\x" not in text and "\\u" not in text
+    assert "  - code: grès  #" in text and "  - code: 砂岩  #" in text
+    path = tmp_path / "draft.yaml"
+    path.write_bytes(text.encode("utf-8"))
+    data = yaml.safe_load(path.read_text(encoding="utf-8"))
+    assert data["name"] == "Grès d'Annot"
+    assert [f["code"] for f in data["facies"]] == codes
+    assert [f["name"] for f in data["facies"]] == [f"facies {c}" for c in codes]
+
+
 def test_default_tract_model_order_skips_and_surfaces():
     # Cyclic order upward HST -> FSST -> LST -> TST -> HST (Catuneanu et al. 2009,
     # Earth-Science Reviews 92:1-33), strict by default: only the FSST (subsidence
