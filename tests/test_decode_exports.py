@@ -513,3 +513,16 @@ def test_las_written_by_decode_reads_back_without_tract_labels(decoded, tmp_path
     cores = read_cores(tmp_path / "interpreted.las", columns={"facies": "FACIES"})
     assert cores.source_columns["tract"] == "TRACT"
     assert not [p for p in cores.problems if p.kind == "decoded-tract"]
+
+
+def test_json_export_writes_non_ascii_codes_as_characters(tmp_path):
+    """The decoded JSON holds ``grès`` and ``砂岩`` as written (UTF-8), not ``\\u00e8``."""
+    from faciesseq.cli.decode import _write_json
+
+    frame = pd.DataFrame({"core": ["Bohrung-ä"], "facies": ["grès"], "tract": ["砂岩"]})
+    for probabilities in (None, {"note": "n"}):
+        path = tmp_path / "decoded.json"
+        _write_json(frame, path, probabilities)
+        text = path.read_bytes().decode("utf-8")
+        assert "\\u" not in text
+        assert all(word in text for word in ("Bohrung-ä", "grès", "砂岩"))

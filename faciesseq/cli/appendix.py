@@ -259,7 +259,7 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
         from faciesseq.hmm.modelfile import model_to_dict
 
         doc = model_to_dict(result.model)
-        extra["model.json"] = json.dumps(doc, indent=1, allow_nan=False) + "\n"
+        extra["model.json"] = json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n"
     with warnings_to_stderr(args.command):  # one line (characters the font lacks)
         out = write_appendix(
             result.appendix, output, force=force, latex=not args.no_latex, extra=extra

@@ -144,12 +144,12 @@ def _write_csv(frame, path: Path, probabilities: dict | None) -> None:
 
 
 def _write_json(frame, path: Path, probabilities: dict | None) -> None:
-    records = frame.to_json(orient="records", indent=1, double_precision=8)
+    records = frame.to_json(orient="records", indent=1, double_precision=8, force_ascii=False)
     if probabilities is None:
-        path.write_text(records + "\n")
+        path.write_text(records + "\n", encoding="utf-8")
         return
     doc = {"probabilities": probabilities, "records": json.loads(records)}
-    path.write_text(json.dumps(doc, indent=1) + "\n")
+    path.write_text(json.dumps(doc, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
 
 
 def _write_parquet(frame, path: Path, probabilities: dict | None) -> None:

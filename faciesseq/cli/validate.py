@@ -172,7 +172,9 @@ def _write(result, out: Path) -> None:
             table = frame.reset_index() if name.startswith("confusion") else frame
             (temp / f"{name}.csv").write_bytes(csv_bytes(table, measures=MEASURES))
         (temp / "validation.json").write_text(
-            json.dumps(_clean(result.to_dict()), indent=1, allow_nan=False) + "\n"
+            json.dumps(_clean(result.to_dict()), indent=1, ensure_ascii=False, allow_nan=False)
+            + "\n",
+            encoding="utf-8",
         )
 
 

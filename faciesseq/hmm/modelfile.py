@@ -220,7 +220,7 @@ def save_model(
     """
     path = Path(path)
     doc = model_to_dict(model, provenance)
-    text = json.dumps(doc, indent=1, allow_nan=False)
+    text = json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False)
     parent = path.parent if str(path.parent) else Path(".")
     if not parent.is_dir():
         raise ConfigError(f"folder {str(parent)!r} does not exist", file=str(path))

@@ -116,7 +116,7 @@ def _fill_folder(
     """Every file of the simulation into the (new, empty) folder ``temp``."""
     _write_tables(result, temp)
     (temp / "summary.json").write_text(
-        json.dumps(result.to_dict(), indent=2, sort_keys=False) + "\n", encoding="utf-8"
+        json.dumps(result.to_dict(), indent=2, ensure_ascii=False) + "\n", encoding="utf-8"
     )
     source = result.scenario.source
     if source and Path(source).is_file():
