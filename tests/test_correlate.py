@@ -233,6 +233,21 @@ def test_bad_position_value_names_the_row():
         wells_from_frame(frame, "w.csv")
 
 
+def test_a_number_written_na_in_the_wells_table_is_no_number(tmp_path):
+    """A wells table exported by R (NA for an empty number, a well named NA) reads as
+    the bed table does: NA is no position in a number column, a name in the core column."""
+    from faciesseq.correlation.wells import read_wells
+
+    path = tmp_path / "wells.csv"
+    path.write_text("core,distance,elevation\nNA,0,NA\nB,5,12\nC,NA,3\n")
+    with pytest.raises(InputError, match=r"data row 3: well 'C' has no position"):
+        read_wells(str(path))
+    path.write_text("core,distance,elevation\nNA,0,NA\nB,5,12\n")
+    wells = read_wells(str(path))
+    assert list(wells.frame["core"]) == ["NA", "B"]
+    assert np.isnan(wells.frame["elevation"].iloc[0])
+
+
 def test_a_well_missing_the_top_cycle_disputes_a_top_to_top_tie():
     """SHORT lacks FULL's top cycle (its cores start one cycle lower). Of the ties
     read by the fraction of the columns, the one joining SHORT's top MFS to FULL's

@@ -30,6 +30,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.errors import ConfigError, InputError, Problem, some_of
+from faciesseq.io.raw import NUMBER_NA_WORDS
 
 __all__ = [
     "DEFAULT_SECTION",
@@ -92,8 +93,11 @@ def _column(frame: pd.DataFrame, names: Iterable[str]) -> str | None:
 
 
 def _numbers(frame, column, rows, file, what) -> np.ndarray:
-    values = pd.to_numeric(frame[column], errors="coerce")
-    bad = values.isna() & frame[column].notna() & (frame[column].astype(str).str.strip() != "")
+    # a cell written NA or null (R, databases) is an empty number, as in the bed table
+    text = frame[column].astype(str).str.strip()
+    cells = frame[column].where(~text.isin(NUMBER_NA_WORDS))
+    values = pd.to_numeric(cells, errors="coerce")
+    bad = values.isna() & cells.notna() & (text != "")
     infinite = np.isinf(values.to_numpy(float))  # inf, 1e309: no place on a section
     if bad.any() or infinite.any():
         k = int(np.flatnonzero(bad.to_numpy() | infinite)[0])
