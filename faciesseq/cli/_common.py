@@ -187,7 +187,8 @@ def units_from(args: argparse.Namespace, cores) -> str:
         return "from the source file"
     if any(p.kind == "units" for p in cores.problems):
         if getattr(args, "unstated_units", None):
-            return "the model's: the source states none"
+            other = "m" if cores.units == "ft" else "ft"
+            return f"the model's, as the source states none: give --units {other} if not"
         return "assumed: the source states none"
     return "stated in the data"
 

@@ -519,19 +519,12 @@ def _with_progress(parts, model, successions):
 
 
 def _note_units(model, cores) -> None:
-    """Say where the source stated no units and was read in the units the model was
-    fitted on (:func:`~faciesseq.cli._common.read_in_models_units`), or where the model
-    was fitted on depths in other units than the source's (stated, or given)."""
+    """Say where the model was fitted on depths in other units than the source's (stated,
+    or given). A source stating none is read in the model's
+    (:func:`~faciesseq.cli._common.read_in_models_units`), which the settings line says
+    once the command has succeeded (:func:`~faciesseq.cli._common.units_from`)."""
     fitted, units = getattr(model, "units_", None), cores.units
-    if fitted is None:
-        return  # an older model file: no conversion, nothing to say
-    if fitted == units and any(p.kind == "units" for p in cores.problems):
-        other = "m" if fitted == "ft" else "ft"
-        sys.stderr.write(
-            f"faciesseq decode: the source states no depth units; read in {fitted}, the "
-            f"units the model was fitted on (give --units {other} if not)\n"
-        )
-    elif fitted != units:
+    if fitted is not None and fitted != units:
         sys.stderr.write(
             f"faciesseq decode: the model was fitted on depths in {fitted}; the beds' "
             f"thicknesses are converted to {fitted} for it (1 ft = 0.3048 m), every output "
