@@ -10,6 +10,7 @@ practice), every output staying in the source's units.
 
 from __future__ import annotations
 
+import io
 import json
 from pathlib import Path
 
@@ -124,3 +125,29 @@ def test_read_cores_takes_the_units_of_depths_nothing_states(tmp_path):
         assert "taken as feet (give --units m if not)" in warning.message
     assert read_cores(metres, units="m", unstated_units="ft").units == "m"
     assert read_cores(metres).units == "m"  # metres, as before, when nothing is said
+
+
+def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
+    # the sheet of a decode in the model's feet, relabelled on the same source: the
+    # source was read as metres there, and the labelled table written stated m for feet
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
+    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    first = sheet["core"] == sheet["core"].iloc[0]
+    sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
+    filled = tmp_path / "filled.csv"
+    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    labelled = tmp_path / "labelled.csv"
+    capsys.readouterr()
+    assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
+    said = capsys.readouterr()
+    assert "units: ft (the model's, as the source states none" in said.err
+    assert " ft (100.0 % of " in said.out  # the agreement line's thickness
+    table = pd.read_csv(labelled)
+    assert set(table["units"]) == {"ft"}
+    assert np.allclose(table["top"], pd.read_csv(feet)["top"])
