@@ -346,6 +346,41 @@ FAILURES = [
     ),
     ("empty-file", {"c.csv": ""}, [], 1, "c.csv: file is empty"),
     (
+        "long-row-plain",  # the fast reader leaves it to pandas, whose words were shown
+        {"c.csv": HEAD + "W1,0,1,A\nW1,1,2,B,9\nW1,2,3,A\n"},
+        [],
+        1,
+        "c.csv, data row 2, core W1, depth 1.00: 5 cells, but the header names 4 columns",
+    ),
+    (
+        "long-row-quoted",  # the general reader; a blank line counts as a data row
+        {"c.csv": HEAD + 'W1,0,1,"A"\n\nW1,1,2,"B,9",x\n'},
+        [],
+        1,
+        "c.csv, data row 3, core W1, depth 1.00: 5 cells, but the header names 4 columns",
+    ),
+    (
+        "long-row-tsv-feet",
+        {"c.tsv": "Well\tDepth (ft)\tfacies\nW1\t0\tA\nW1\t1\tB\t9\n"},
+        [],
+        1,
+        "c.tsv, data row 2, core W1, depth 1.00 ft: 4 cells, but the header names 3 columns",
+    ),
+    (
+        "long-row-nul",  # a NUL byte: pandas' Python parser, in its own words too
+        {"c.csv": HEAD + "W1,0,1,A\x00\nW1,1,2,B,9\n"},
+        [],
+        1,
+        "c.csv, data row 2, core W1, depth 1.00: 5 cells, but the header names 4 columns",
+    ),
+    (
+        "long-row-no-roles",  # no column looks like a core or a depth: the row alone
+        {"c.csv": "a,b\n1,2\n3,4,5\n"},
+        [],
+        1,
+        "c.csv, data row 2: 3 cells, but the header names 2 columns",
+    ),
+    (
         "bad-scheme",
         {"c.csv": HEAD + "W1,0,1,A\n"},
         ["--scheme", "nope.yaml"],

@@ -10,6 +10,7 @@ practice), every output staying in the source's units.
 
 from __future__ import annotations
 
+import io
 import json
 from pathlib import Path
 
@@ -74,9 +75,10 @@ def test_a_model_file_with_units_that_are_neither_is_refused(tmp_path, capsys):
     assert "training.units: 'furlong': m or ft" in capsys.readouterr().err
 
 
-def test_units_assumed_unlike_the_models_ask_whether_they_are_the_models(tmp_path, capsys):
-    # a source in feet that states no units is taken as metres (with a warning); a model
-    # fitted in feet then asks whether --units ft was meant, as the likely slip it is
+def test_a_source_stating_no_units_is_read_in_the_units_the_model_was_fitted_on(tmp_path, capsys):
+    # a source in feet that states no units, decoded with a model fitted in feet, was
+    # read as metres (every output in metres, the thicknesses 3.28 times too thick for
+    # the model): a geologist decoding with a model means the units of its cores
     train, _, feet = _tables(tmp_path)
     model = tmp_path / "model.json"
     fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
@@ -84,5 +86,68 @@ def test_units_assumed_unlike_the_models_ask_whether_they_are_the_models(tmp_pat
     capsys.readouterr()
     assert main(["decode", str(model), str(feet), "-o", str(tmp_path / "f")]) == 0
     said = capsys.readouterr().err
-    assert "the source states no units and m were assumed" in said
-    assert "give --units ft" in said
+    line = "units: ft (the model's, as the source states none: give --units m if not)"
+    assert said.count(line) == 1 and "converted" not in said
+    assert main(["decode", str(model), str(feet), "--units", "ft", "-o", str(tmp_path / "g")]) == 0
+    assert "units: ft (--units)" in capsys.readouterr().err
+    unstated, given = _decoded(tmp_path / "f"), _decoded(tmp_path / "g")
+    pd.testing.assert_frame_equal(unstated, given)
+    doc = (tmp_path / "f" / "tracts.csv").read_text()
+    assert doc == (tmp_path / "g" / "tracts.csv").read_text()  # in feet, as the source
+
+
+def test_units_the_source_or_the_option_states_win_over_the_models(tmp_path, capsys):
+    train, metres, _ = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    stated = tmp_path / "stated.csv"
+    pd.read_csv(metres).assign(units="m").to_csv(stated, index=False)
+    capsys.readouterr()
+    for source, options in ((stated, []), (metres, ["--units", "m"])):
+        out = tmp_path / f"out-{len(options)}"
+        assert main(["decode", str(model), str(source), *options, "-o", str(out)]) == 0
+        said = capsys.readouterr().err
+        assert "the model was fitted on depths in ft" in said and "stays in m" in said
+        assert np.allclose(_decoded(out)["top"], pd.read_csv(metres)["top"])
+
+
+def test_read_cores_takes_the_units_of_depths_nothing_states(tmp_path):
+    from faciesseq.io import read_cores, stream_cores
+
+    _, metres, _ = _tables(tmp_path)
+    for cores in (
+        read_cores(metres, unstated_units="ft"),
+        next(iter(stream_cores(metres, unstated_units="ft"))),
+    ):
+        assert cores.units == "ft"
+        [warning] = [p for p in cores.problems if p.kind == "units"]
+        assert "taken as feet (give --units m if not)" in warning.message
+    assert read_cores(metres, units="m", unstated_units="ft").units == "m"
+    assert read_cores(metres).units == "m"  # metres, as before, when nothing is said
+
+
+def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
+    # the sheet of a decode in the model's feet, relabelled on the same source: the
+    # source was read as metres there, and the labelled table written stated m for feet
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
+    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    first = sheet["core"] == sheet["core"].iloc[0]
+    sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
+    filled = tmp_path / "filled.csv"
+    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    labelled = tmp_path / "labelled.csv"
+    capsys.readouterr()
+    assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
+    said = capsys.readouterr()
+    assert "units: ft (the model's, as the source states none" in said.err
+    assert " ft (100.0 % of " in said.out  # the agreement line's thickness
+    table = pd.read_csv(labelled)
+    assert set(table["units"]) == {"ft"}
+    assert np.allclose(table["top"], pd.read_csv(feet)["top"])

@@ -134,6 +134,22 @@ def test_an_error_in_a_late_batch_is_the_whole_files_error(small_batches, tmp_pa
     assert f"row {last + 1}" in err[0] and core in err[0] and "'abc' is not a number" in err[0]
 
 
+def test_a_long_row_in_a_late_batch_is_one_line_naming_it(small_batches, tmp_path, capsys):
+    lines = CORES.read_text().splitlines()
+    last = len(lines) - 4
+    lines[last] += ",9"  # one cell more than the header, in the last batch
+    source = tmp_path / "long.csv"
+    source.write_text("\n".join(lines) + "\n")
+    core = lines[last].split(",")[0]
+    capsys.readouterr()
+    assert main(["markov", str(source), "--scheme", str(SCHEME)]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1, err
+    assert f"data row {last}, core {core}, depth " in err[0]
+    assert "13 cells, but the header names 12 columns" in err[0]
+    assert "tokenizing" not in err[0]
+
+
 @pytest.fixture(scope="module")
 def database(tmp_path_factory):
     folder = tmp_path_factory.mktemp("db")
@@ -246,8 +262,9 @@ def test_decoding_a_stream_gives_the_parts_of_the_whole_table(database, monkeypa
         )
 
 
+@pytest.mark.parametrize("damage", ["no facies", "long row"])
 def test_an_error_in_a_late_batch_leaves_no_output_half_written(
-    database, tmp_path, monkeypatch, capsys
+    database, tmp_path, monkeypatch, capsys, damage
 ):
     monkeypatch.setattr(decoding, "DECODE_BATCH", 45)
     monkeypatch.setattr(decoding, "DECODE_PART", 50)
@@ -262,19 +279,28 @@ def test_an_error_in_a_late_batch_leaves_no_output_half_written(
 
     monkeypatch.setattr(decoding.Decoding, "_decode_part", counted)
     table = pd.read_csv(database / "cores.csv", dtype=str, keep_default_na=False)
-    table.loc[len(table) - 5, "facies"] = ""  # in the last core
     source = tmp_path / "bad.csv"
-    table.to_csv(source, index=False)
+    if damage == "no facies":
+        table.loc[len(table) - 5, "facies"] = ""  # in the last core
+        table.to_csv(source, index=False)
+    else:
+        table.to_csv(source, index=False)
+        lines = source.read_text().splitlines()
+        lines[len(table) - 4] += ",9"  # one cell more than the header, in the last core
+        source.write_text("\n".join(lines) + "\n")
     old = tmp_path / "old"
     old.mkdir()
     (old / "tracts.csv").write_text("kept\n")
     capsys.readouterr()
     for out, force in ((tmp_path / "new", []), (old, ["--force"])):
         assert main([*_decode_argv(database, source, out), *force]) == 1
-    assert written  # parts were decoded and written before the error was read
+    if damage == "no facies":
+        assert written  # parts were decoded and written before the error was read
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 2 and err[0] == err[1]
-    assert f"row {len(table) - 4}" in err[0] and "no facies code" in err[0]
+    assert f"row {len(table) - 4}" in err[0]
+    why = "no facies code" if damage == "no facies" else "but the header names"
+    assert why in err[0]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.csv", "old"]
     assert [p.name for p in old.iterdir()] == ["tracts.csv"]
     assert (old / "tracts.csv").read_text() == "kept\n"

@@ -186,6 +186,9 @@ def units_from(args: argparse.Namespace, cores) -> str:
     if spec is not None and spec.units:
         return "from the source file"
     if any(p.kind == "units" for p in cores.problems):
+        if getattr(args, "unstated_units", None):
+            other = "m" if cores.units == "ft" else "ft"
+            return f"the model's, as the source states none: give --units {other} if not"
         return "assumed: the source states none"
     return "stated in the data"
 
@@ -285,7 +288,16 @@ def _reading_options(args: argparse.Namespace) -> dict:
     """The options of :func:`add_source_arguments` as :func:`faciesseq.io.read_cores`
     takes them (but ``repeated_depths``)."""
     names = ("layout", "units", "sheet", "table", "query", "curve")
-    return {"columns": column_mapping(args.column)} | {k: getattr(args, k) for k in names}
+    options = {"columns": column_mapping(args.column)} | {k: getattr(args, k) for k in names}
+    return options | {"unstated_units": getattr(args, "unstated_units", None)}
+
+
+def read_in_models_units(args: argparse.Namespace, model) -> None:
+    """Have the source read in the units of ``model``'s training cores where it states
+    none (neither its data, a YAML source file nor ``--units``): cores decoded with a
+    model are most likely described in the units it was fitted on. A model file
+    without units (an older one) leaves metres assumed."""
+    args.unstated_units = getattr(model, "units_", None)
 
 
 class _DeprecatedAlias(argparse.Action):

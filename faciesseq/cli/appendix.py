@@ -274,6 +274,7 @@ def run(args: argparse.Namespace) -> int:
         check_grid_size,
         input_files,
         load_scheme_option,
+        read_in_models_units,
         read_source,
         require_file,
     )
@@ -284,10 +285,12 @@ def run(args: argparse.Namespace) -> int:
     require_file(args.model)
     require_file(args.tract_model)
     scheme = load_scheme_option(args.scheme)
-    if scheme is None and args.model:
+    if args.model:
         from faciesseq.hmm.modelfile import load_model
 
-        scheme = load_model(args.model).scheme
+        model = load_model(args.model)
+        read_in_models_units(args, model)
+        scheme = model.scheme if scheme is None else scheme
     if scheme is None:
         raise ConfigError(
             "the appendix needs a facies scheme (ranks, names, colours): pass --scheme FILE "

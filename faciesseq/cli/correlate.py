@@ -11,6 +11,7 @@ from faciesseq.cli._common import (
     add_source_arguments,
     check_grid_size,
     input_files,
+    read_in_models_units,
     read_source,
     require_file,
     scheme_for_model,
@@ -93,6 +94,7 @@ def _decode(args):
     wells = read_wells(require_file(args.wells))
     model = load_model(require_file(args.model))
     args.datum = check_datum(args.datum, surface_codes(model.tract_model_), option="--datum")
+    read_in_models_units(args, model)
     scheme = scheme_for_model(args.scheme, model)
     cores = read_source(args, scheme).require_valid()
     step = model.grid_step(cores.units)

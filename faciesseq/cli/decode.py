@@ -16,6 +16,7 @@ from faciesseq.cli._common import (
     check_grid_size,
     column_mapping,
     input_files,
+    read_in_models_units,
     read_source,
     regular_cores,
     require_file,
@@ -446,6 +447,7 @@ def _model(args: argparse.Namespace):
     check_target(args.output, force=args.force, folder=True, inputs=input_files(args))
     n_jobs, scheduler = parallel_options(args)
     model = load_model(require_file(args.model)).set_params(n_jobs=n_jobs, scheduler=scheduler)
+    read_in_models_units(args, model)
     scheme = scheme_for_model(args.scheme, model)
     if args.plot and scheme is None:
         raise ConfigError("--plot needs a facies scheme (--scheme, or a model fitted with one)")
@@ -517,21 +519,16 @@ def _with_progress(parts, model, successions):
 
 
 def _note_units(model, cores) -> None:
-    """Say where the model was fitted on depths in other units than the source's; where
-    the source stated none (metres assumed), ask whether its depths are in the model's."""
+    """Say where the model was fitted on depths in other units than the source's (stated,
+    or given). A source stating none is read in the model's
+    (:func:`~faciesseq.cli._common.read_in_models_units`), which the settings line says
+    once the command has succeeded (:func:`~faciesseq.cli._common.units_from`)."""
     fitted, units = getattr(model, "units_", None), cores.units
     if fitted is not None and fitted != units:
-        assumed = any(p.kind == "units" for p in cores.problems)
-        ask = (
-            f"; the source states no units and {units} were assumed: if its depths are in "
-            f"{fitted}, give --units {fitted}"
-            if assumed
-            else ""
-        )
         sys.stderr.write(
             f"faciesseq decode: the model was fitted on depths in {fitted}; the beds' "
             f"thicknesses are converted to {fitted} for it (1 ft = 0.3048 m), every output "
-            f"stays in {units}{ask}\n"
+            f"stays in {units}\n"
         )
 
 

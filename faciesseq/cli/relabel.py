@@ -82,6 +82,15 @@ def _model_document(model_path: str) -> dict | None:
     return doc if isinstance(doc, dict) else None
 
 
+def _fitted_units(doc: dict | None) -> str | None:
+    """The depth units the model (its file as JSON, :func:`_model_document`) was fitted
+    on, as :func:`faciesseq.cli._common.read_in_models_units` takes them for decode;
+    ``None`` for a model file without them or unreadable (metres assumed, as there)."""
+    training = (doc or {}).get("training")
+    units = training.get("units") if isinstance(training, dict) else None
+    return units if units in ("m", "ft") else None
+
+
 def _fitted_scheme(model_path: str, doc: dict | None) -> str | None:
     """The scheme file the model at ``model_path`` was fitted with, where it still
     exists unchanged, or None (no such file, changed since, a fit without a scheme
@@ -296,11 +305,13 @@ def run(args: argparse.Namespace) -> int:
     settings = relabel_settings(sheet.attrs.get("record"), name, labels=args.labels, tracts=codes)
     sheet.attrs["record"] = settings.record  # a damaged one set aside checks nothing
     scheme = load_scheme_option(args.scheme)
+    doc = _sheet_model(settings.record)
+    # a source stating no units is read as the sheet's decode read it: in the model's
+    args.unstated_units = _fitted_units(doc)
     cores = read_source(args, scheme).require_valid()
     result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
-    doc = _sheet_model(settings.record)
     scheme_file = _next_scheme(args, settings.record, doc)
     next_fit = _next_fit(args, result, scheme_file[0])
     if scheme_file[0] is not None and not args.scheme and getattr(args, "settings_line", None):

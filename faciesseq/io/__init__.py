@@ -64,6 +64,7 @@ def read_cores(
     curve: str | None = None,
     scheme: FaciesScheme | str | Path | None = None,
     repeated_depths: str = "error",
+    unstated_units: str | None = None,
 ) -> CoreSet:
     """Read and validate a core database.
 
@@ -96,6 +97,10 @@ def read_cores(
     repeated_depths
         Sample layout: ``"error"`` (default) or ``"keep-first"`` (the first of
         repeated depths is kept; each left out row is reported as a repair).
+    unstated_units
+        ``"m"`` (default) or ``"ft"``: the units of the depths when neither ``units``
+        (nor a YAML source file's ``units:``) nor the source states any, with a
+        ``units`` warning saying so; e.g. the units a model was fitted in.
 
     Returns
     -------
@@ -126,6 +131,7 @@ def read_cores(
             units=units,
             scheme=scheme,
             repeated_depths=repeated_depths,
+            unstated_units=units_option(unstated_units) or "m",
         )
     _check_source(source, "read_cores")
     spec, scheme = _spec_and_scheme(
@@ -150,6 +156,7 @@ def read_cores(
         scheme=scheme,
         repeated_depths=repeated_depths,
         sources=sources,
+        unstated_units=units_option(unstated_units) or "m",
     )
     if problems:
         cores = replace(cores, problems=tuple(problems) + cores.problems)
@@ -169,6 +176,7 @@ def stream_cores(
     scheme: FaciesScheme | str | Path | None = None,
     rows: int | None = None,
     others: Collection[str] | None = None,
+    unstated_units: str | None = None,
 ) -> CoreStream | None:
     """:func:`read_cores` a batch of whole cores at a time, for what needs each core
     alone (:mod:`faciesseq.io.stream`).
@@ -200,7 +208,7 @@ def stream_cores(
         query=query,
         curve=curve,
     )
-    return open_stream(spec, scheme, rows, others)
+    return open_stream(spec, scheme, rows, others, units_option(unstated_units) or "m")
 
 
 def _spec_and_scheme(source, scheme, **options) -> tuple[SourceSpec, FaciesScheme | None]:

@@ -98,6 +98,7 @@ def read_frame(
     scheme: FaciesScheme | str | Path | None = None,
     repeated_depths: str = "error",
     taker: str = "read_cores",
+    unstated_units: str = "m",
 ) -> CoreSet:
     """Validate a DataFrame (or records) as :func:`faciesseq.io.read_cores` validates a
     file; the options are those of ``read_cores``, and messages name them as Python
@@ -116,4 +117,5 @@ def read_frame(
         repeated_depths=repeated_depths,
         sources=tuple(t.file for t in tables),
         wording=PYTHON,
+        unstated_units=unstated_units,
     )

@@ -56,6 +56,7 @@ def open_stream(
     scheme: FaciesScheme | None,
     rows: int | None = None,
     others: Collection[str] | None = None,
+    unstated_units: str = "m",
 ) -> CoreStream | None:
     """A stream of the cores of ``spec``, or ``None`` when its source is not one plain
     CSV file with a core column, read with the options of a CSV file (then it is read
@@ -85,7 +86,8 @@ def open_stream(
         wanted = set(others)
         unread = {c for c in match.others if attribute_name(c) not in wanted}
         names = [n for n in names if n not in unread]
-    return CoreStream(path, header[1], names.index(match.roles["core"]), spec, scheme, rows, names)
+    core = names.index(match.roles["core"])
+    return CoreStream(path, header[1], core, spec, scheme, rows, names, unstated_units)
 
 
 class CoreStream:
@@ -116,6 +118,7 @@ class CoreStream:
         scheme: FaciesScheme | None,
         rows: int | None = None,
         read: list[str] | None = None,
+        unstated_units: str = "m",
     ):
         self.path, self.names, self.core_column = path, names, core_column
         #: the columns read (of ``names``, in their order); ``core_column`` indexes them
@@ -124,6 +127,8 @@ class CoreStream:
         self.rows = max(1, int(rows or BATCH_ROWS))
         self.units: str | None = None
         self.problems: list[Problem] = []
+        #: the units of the depths when neither the options nor the file state any
+        self.unstated_units = unstated_units
 
     @property
     def file(self) -> str:
@@ -169,7 +174,7 @@ class CoreStream:
 
     def summary(self) -> CoreSet:
         """The whole file's units, sources and kept problems, without its cores."""
-        return CoreSet({}, self.units or "m", tuple(self.problems), (self.file,))
+        return CoreSet({}, self.units or self.unstated_units, tuple(self.problems), (self.file,))
 
     def _validate(self, raw: RawTable) -> CoreSet:
         spec = self.spec
@@ -180,6 +185,7 @@ class CoreStream:
             units=spec.units,
             scheme=self.scheme,
             sources=(self.file,),
+            unstated_units=self.unstated_units,
         )
         if "samples" in dict(batch.meta.get("layout", {})).values():
             raise NotStreamable("samples layout")
@@ -193,10 +199,13 @@ class CoreStream:
                 raise NotStreamable("errors without a core in several batches")
             found = [p for part in errors for p in part]
             found.sort(key=lambda p: p.core is not None)  # as the whole file's order
-            CoreSet({}, self.units or "m", tuple(found), (self.file,)).require_valid()
+            CoreSet(
+                {}, self.units or self.unstated_units, tuple(found), (self.file,)
+            ).require_valid()
         if not kept:
             raise NotStreamable("no cores")  # the whole file's read names it
-        if any(p.kind == "units" for p in self.problems) and np.isfinite(deepest):
+        assumed_metres = self.units == "m" and any(p.kind == "units" for p in self.problems)
+        if assumed_metres and np.isfinite(deepest):
             suspect = feet_suspected_in(np.zeros(0), deepest, {})
             if suspect is not None:
                 self.problems.insert(0, suspect)

@@ -346,6 +346,9 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
         with chunks:
             frame = pd.concat(list(chunks), ignore_index=True)
     except (pd.errors.ParserError, ValueError, csv.Error) as exc:  # csv: the Python parser
+        long_row = _long_row(path, encoding, delimiter)
+        if long_row is not None:
+            raise long_row from None
         why = str(exc)
         if isinstance(exc, csv.Error) and "new-line character" in why:
             why = "a line break (carriage return) inside a field; save with ordinary line ends"
@@ -357,6 +360,41 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
         column = column.str.strip() if column.dtype != float else column
         frame.isetitem(i, column.replace("", np.nan))
     return frame, problems, delimiter
+
+
+def _long_row(path: Path, encoding: str | None, delimiter: str) -> InputError | None:
+    """The error naming the first data row with more cells than the header (pandas'
+    parser refuses such a row in its own words), ``None`` when there is none.
+
+    The row is counted as the readers count data rows (blank lines too, the header
+    not); its core and depth are named when the header has columns that look like them
+    (:data:`faciesseq.io.columns.ROLES`), read from the row's cells by position."""
+    from faciesseq.io.columns import match_columns
+
+    file = str(path)
+    text, _ = decode_text(path.read_bytes(), file, encoding)
+    rows = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, skipinitialspace=True)
+    header = [name.strip() for name in next(rows, [])]
+    for number, cells in enumerate(rows, start=1):
+        if len(cells) <= len(header):
+            continue
+        try:
+            match = match_columns(header, file=file)
+        except (InputError, ConfigError):
+            match = None
+        roles = {} if match is None else match.roles
+        cell = {role: cells[header.index(name)].strip() for role, name in roles.items()}
+        depth = pd.to_numeric(cell.get("top", cell.get("depth")), errors="coerce")
+        return InputError(
+            f"{len(cells)} cells, but the header names {len(header)} columns; quote a cell "
+            f"that holds the delimiter ({delimiter!r}) or delete the extra cells",
+            file=file,
+            row=number,
+            core=cell.get("core") or None,
+            depth=None if depth is None or np.isnan(depth) else float(depth),
+            units=None if match is None else match.units,
+        )
+    return None
 
 
 _DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"

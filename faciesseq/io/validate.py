@@ -763,9 +763,13 @@ def _depth(value: float) -> float | None:
 
 
 def _resolve_units(
-    prepared: list[_Rows], units: str | None, wording: Wording = COMMAND_LINE
+    prepared: list[_Rows],
+    units: str | None,
+    wording: Wording = COMMAND_LINE,
+    unstated_units: str = "m",
 ) -> tuple[str, list[Problem]]:
-    """Units of the core set; depths stated in other units are converted to ``units``."""
+    """Units of the core set; depths stated in other units are converted to ``units``;
+    ``unstated_units`` where neither ``units`` nor the source says any."""
     problems: list[Problem] = []
     stated: dict[str, list[str]] = {}
     for p in prepared:
@@ -792,13 +796,14 @@ def _resolve_units(
     elif stated:
         target = next(iter(stated))
     else:
-        target = "m"
+        target = normalise_units(unstated_units)
+        word, other = ("metres", "ft") if target == "m" else ("feet", "m")
         problems.append(
             Problem(
                 "warning",
                 "units",
-                "no depth units stated in the source; taken as metres (give "
-                f"{wording.units('ft')} if not)",
+                f"no depth units stated in the source; taken as {word} (give "
+                f"{wording.units(other)} if not)",
             )
         )
     for p in prepared:
@@ -1199,19 +1204,22 @@ def build_coreset(
     repeated_depths: str = "error",
     sources: tuple[str, ...] = (),
     wording: Wording = COMMAND_LINE,
+    unstated_units: str = "m",
 ) -> CoreSet:
     """Validate raw tables and assemble the core set (see the module notes for problem kinds).
 
     The tables are read once: their rows are released as they are taken in (each
     ``frame`` is left with its columns and no rows). ``wording``: how messages name the
     options that fix what they report (the command line's, or Python's for a DataFrame).
+    ``unstated_units``: the units of depths when neither ``units`` nor the source
+    states any (a ``units`` warning says so).
     """
     if repeated_depths not in ("error", "keep-first"):
         raise ConfigError(
             f"repeated_depths must be 'error' or 'keep-first', got {repeated_depths!r}"
         )
     prepared = _prepare_tables(tables, layout, columns, scheme, wording)
-    target, unit_problems = _resolve_units(prepared, units, wording)
+    target, unit_problems = _resolve_units(prepared, units, wording, unstated_units)
     gathered = _Gathered(target, repeated_depths, list(unit_problems), wording=wording)
     for p in prepared:
         _take_file(p, gathered)
@@ -1227,7 +1235,7 @@ def build_coreset(
         "layout": {n: ("samples" if n in gathered.steps else "intervals") for n in cores},
         "columns": {p.table.file: p.roles for p in prepared},
     }
-    if any(p.kind == "units" for p in unit_problems):
+    if target == "m" and any(p.kind == "units" for p in unit_problems):
         suspect = feet_suspected(derived, meta["sample_step"], wording)
         if suspect is not None:
             problems.insert(0, suspect)
