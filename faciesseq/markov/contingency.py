@@ -32,7 +32,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from faciesseq.errors import InputError
 
@@ -116,7 +115,11 @@ NOT_TESTABLE = "not testable"
 
 def _chi2_sf(statistic: float, dof: int) -> float:
     """Upper tail of the chi-square distribution: ``scipy.stats.chi2.sf`` (1 below zero),
-    from the special function it calls (importing ``scipy.stats`` costs a second)."""
+    from the special function it calls (importing ``scipy.stats`` costs a second;
+    ``scipy.special`` is imported here, not with the module, which ``decode`` reads
+    without calling this)."""
+    from scipy import special
+
     if dof <= 0:
         return float("nan")
     return 1.0 if statistic < 0 else float(special.chdtrc(dof, statistic))
@@ -517,6 +520,8 @@ def _cell_residuals(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Adjusted residuals of the cells, their two-sided p-values, and which are
     significant at level ``alpha``."""
+    from scipy import special
+
     resid = adjusted_residuals(o, e, active)
     resid_p = 2.0 * special.ndtr(-np.abs(resid))  # scipy.stats.norm.sf
     z = -special.ndtri(alpha / 2)  # scipy.stats.norm.isf
