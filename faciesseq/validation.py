@@ -646,6 +646,7 @@ def _run_settings(
     if params.get("reference") is not None:  # the model itself is not a setting to print
         settings["reference"] = _reference_name(params["reference"])
         settings["reference_weight"] = float(params.get("reference_weight", 1.0))
+        settings["reference_use"] = str(params.get("reference_use", "always"))
     return settings
 
 

@@ -8,7 +8,9 @@ reference's stacking trees' scaled likelihoods (Bourlard & Morgan 1994, the hybr
 classifier-HMM the stacking piece is); a fit with a reference decodes, keeps its
 trees through a model file, reads them on a fit of fewer tracts (the nested start),
 and is refused where it cannot be read (with labels, a reference without trees, a
-weight without a reference) with one line and exit 2 from the command line.
+weight without a reference) with one line and exit 2 from the command line. A checked
+reference (``reference_use="check"``) keeps the fit the columns' agreement chooses, and
+the fit it keeps without the reference is the plain fit without one, bed for bed.
 """
 
 from __future__ import annotations
@@ -153,6 +155,7 @@ def test_the_command_line_refuses_a_reference_it_cannot_read(reference, target, 
     cases = [
         (["--reference", str(ref), "--labels", "true_tract", "-o", str(tmp_path / "m.json")], 2),
         (["--reference-weight", "2", "-o", str(tmp_path / "m.json")], 2),
+        (["--reference-use", "check", "-o", str(tmp_path / "m.json")], 2),
         (["--reference", str(ref), "-o", str(ref), "--force"], 2),
         (["--reference", str(tmp_path / "none.json"), "-o", str(tmp_path / "m.json")], 1),
     ]
@@ -243,3 +246,56 @@ def test_validate_measures_a_reference_on_labelled_cores(reference, target, tmp_
     assert result["settings"]["reference"] == str(ref)
     p = subprocess.run(validate, capture_output=True, text=True, timeout=600)  # supervised
     assert p.returncode == 2 and "without labels" in p.stderr
+
+
+def test_agreement_is_the_share_of_the_thickness_given_one_tract():
+    from faciesseq.hmm.reference_check import agreement
+
+    first = pd.DataFrame({"top": [0.0, 1, 4], "base": [1.0, 4, 10], "tract": ["TST", "HST", "LST"]})
+    second = first.assign(tract=["TST", "FSST", "LST"])
+    assert agreement(first, second) == pytest.approx(0.7)
+    assert agreement(first, first) == 1.0
+
+
+@pytest.mark.parametrize("below, kept", [(0.0, "without"), (1.01, "reference")])
+def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
+    reference, target, tmp_path, monkeypatch, below, kept
+):
+    import faciesseq.hmm.reference_check as check
+
+    monkeypatch.setattr(check, "KEEP_REFERENCE_BELOW", below)
+    cores = CoreSet.from_frame(target[MINIMAL], units="m")
+    params = {"scheme": SCENARIO.scheme, "random_state": 3, "n_restarts": 1}
+    params["calibration_folds"] = 0
+    model = _quiet(TractHMM(**params, reference=reference, reference_use="check"), cores)
+    record = model.reference_check_
+    assert record["kept"] == kept and 0.0 <= record["agreement"] <= 1.0
+    assert ("reference" in model.features_) == (kept == "reference")
+    plain = _quiet(TractHMM(**params, reference=None if kept == "without" else reference), cores)
+    pd.testing.assert_frame_equal(
+        model.decode(cores).tracts_table(), plain.decode(cores).tracts_table()
+    )
+    save_model(model, tmp_path / "m.json")
+    assert load_model(tmp_path / "m.json").reference_check_ == record
+    unsure = any("the tract names are unsure" in c for c in model.cautions_)
+    assert unsure == (record["agreement"] < check.UNSURE_BELOW)
+
+
+def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):
+    import yaml
+
+    source = tmp_path / "cores.csv"
+    target[MINIMAL].to_csv(source, index=False)
+    scheme = tmp_path / "scheme.yaml"
+    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    ref = tmp_path / "reference.json"
+    save_model(reference, ref)
+    fit = [sys.executable, "-m", "faciesseq", "fit", str(source), "--scheme", str(scheme)]
+    fit += ["--reference", str(ref), "--reference-use", "check", "--restarts", "1"]
+    p = subprocess.run(
+        [*fit, "-o", str(tmp_path / "m.json")], capture_output=True, text=True, timeout=900
+    )
+    assert p.returncode == 0, p.stderr
+    record = load_model(tmp_path / "m.json").reference_check_
+    line = next(x for x in p.stdout.splitlines() if x.startswith("reference checked"))
+    assert f"{record['agreement']:.2f} of the thickness" in line

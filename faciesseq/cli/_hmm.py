@@ -10,6 +10,7 @@ from contextlib import contextmanager
 
 from faciesseq.cli._common import check_seed, check_unit_step, require_file
 from faciesseq.errors import ConfigError
+from faciesseq.hmm.reference_check import REFERENCE_USES
 
 
 def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) -> None:
@@ -122,6 +123,15 @@ def add_reference_arguments(parser: argparse.ArgumentParser) -> None:
         help="with --reference: the weight of its trees against this database's own "
         "stacking (default 1)",
     )
+    parser.add_argument(
+        "--reference-use",
+        choices=REFERENCE_USES,
+        default="always",
+        help="with --reference: 'always' read it (the default), or 'check': fit without it "
+        "too, keep the fit reading it only where the two columns give one tract to less "
+        "than a third of the thickness, and say how far they agree (below a half the "
+        "names are unsure; docs/hmm.md, 'Checking a reference')",
+    )
 
 
 def reference_option(args: argparse.Namespace, labelled: bool):
@@ -132,6 +142,8 @@ def reference_option(args: argparse.Namespace, labelled: bool):
     if args.reference is None:
         if args.reference_weight != 1.0:
             raise ConfigError("--reference-weight needs --reference")
+        if args.reference_use != "always":
+            raise ConfigError("--reference-use needs --reference")
         return None
     if labelled:
         raise ConfigError(

@@ -164,6 +164,7 @@ def _select(
                 nested_start=args.nested_start,
                 reference=reference,
                 reference_weight=args.reference_weight,
+                reference_use=args.reference_use,
                 random_state=args.seed,
             )
         finally:
@@ -275,10 +276,23 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"({model.n_labelled_} labelled, {mode}){candidates}"
     )
     print(_graph_line(model, args.verbose))
+    check = getattr(model, "reference_check_", None)
+    if check:
+        print(_reference_check_line(check))
     if args.verbose:
         _print_diagnostics(args, selection)
     else:
         _print_weights(model, args.weigh_evidence, verbose=False)
+
+
+def _reference_check_line(check: dict) -> str:
+    """What ``--reference-use check`` found and kept (:mod:`faciesseq.hmm.reference_check`)."""
+    kept = "the fit reading the reference" if check["kept"] == "reference" else "the fit without it"
+    return (
+        f"reference checked: the fits with and without it give one tract to "
+        f"{check['agreement']:.2f} of the thickness; kept {kept} (the reference's is kept "
+        f"below {check['keep_reference_below']:.2f})"
+    )
 
 
 def _print_diagnostics(args: argparse.Namespace, selection) -> None:

@@ -231,6 +231,7 @@ def run(args: argparse.Namespace) -> int:
                 nested_start=args.nested_start,
                 reference=reference,
                 reference_weight=args.reference_weight,
+                reference_use=args.reference_use,
             )
         finally:
             progress.close()

@@ -49,6 +49,7 @@ def read_cautions(model) -> list[str]:
     Python or by ``faciesseq fit``."""
     found = (
         unlabelled_caution(model),
+        reference_check_caution(model),
         tied_ranks_caution(model),
         missing_labels_caution(model),
         few_labelled_cores_caution(model),
@@ -123,6 +124,40 @@ def unlabelled_caution(model) -> str | None:
         "caution: no bed was labelled, so the tract names rest on the model's priors (the "
         f"cyclic order, the one deepening tract); {measured}: read the column as a first "
         "draft, or label a few cores (fit --labels)"
+    )
+
+
+def reference_check_caution(model) -> str | None:
+    """A caution where a fit checked a reference (``reference_use="check"``,
+    :mod:`faciesseq.hmm.reference_check`) and the columns with and without it shared
+    less than half of the thickness: on cores of generators written blind and the
+    project's scenarios, fits without a reference read 0.39 / 0.41 of the tracts
+    (balanced accuracy; tuning seeds 11-13 / report seeds 651-653, 18 sets each) where
+    the share was below 0.5, 0.60 / 0.58 above it; below a third fits with the reference
+    read 0.66 / 0.71 against 0.39 / 0.40 without (``python benchmarks/eval_reference.py
+    --seeds 651,652,653``; benchmarks/tract_model.md, "Checking the reference against the
+    database's own fit")."""
+    from faciesseq.hmm.reference_check import unsure
+
+    record = getattr(model, "reference_check_", None)
+    if not unsure(record):
+        return None
+    share = f"{record['agreement']:.2f}"
+    if record.get("kept") == "reference":
+        kept = (
+            "the fit reading it was kept, as where this share was below a third fits with "
+            "the reference read 0.66-0.71 of the tracts against 0.39-0.40 without it"
+        )
+    else:
+        kept = (
+            "the fit without it was kept, and where this share was between a third and a "
+            "half fits without a reference read 0.40-0.42 of the tracts (near chance)"
+        )
+    return (
+        f"caution: the tract names are unsure: the fits with and without the reference "
+        f"model gave the same tract to {share} of the thickness of these cores; {kept} "
+        "(balanced accuracy on cores of generators written blind; docs/hmm.md, 'Checking "
+        "a reference'): label a few cores (fit --labels)"
     )
 
 

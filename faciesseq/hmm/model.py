@@ -61,6 +61,7 @@ from faciesseq.hmm.labels import (
 )
 from faciesseq.hmm.pieces import make_piece
 from faciesseq.hmm.reference import REFERENCE, ReferenceEmission, reference_model
+from faciesseq.hmm.reference_check import REFERENCE_USES, check_reference
 from faciesseq.hmm.restarts import Restarts
 from faciesseq.hmm.said_once import said_once
 from faciesseq.hmm.states import StateSpace
@@ -291,6 +292,12 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         in docs/hmm.md, "A reference model". ``None`` (the default): none.
     reference_weight
         The multiplier of the reference piece's log-likelihood (> 0).
+    reference_use
+        ``"always"`` (the default): the fit reads the reference. ``"check"``: the
+        same fit without the reference too, and the two columns of the training cores
+        compared (:mod:`faciesseq.hmm.reference_check`); the fit with the
+        reference is kept only where they give one tract to less than a third of the
+        thickness, and ``reference_check_`` records the share and the choice.
     random_state
         Seed (int) or ``numpy.random.Generator`` for the restarts.
 
@@ -352,6 +359,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         nested_start: bool = True,
         reference: TractHMM | str | PathLike | None = None,
         reference_weight: float = 1.0,
+        reference_use: str = "always",
         random_state: int | np.random.Generator | None = None,
     ) -> None:
         self.tract_model = tract_model
@@ -375,6 +383,7 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         self.nested_start = nested_start
         self.reference = reference
         self.reference_weight = reference_weight
+        self.reference_use = reference_use
         self.random_state = random_state
 
     # ------------------------------------------------------------------ setup
@@ -425,6 +434,11 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             raise ConfigError(f"nested_start must be true or false, got {self.nested_start!r}")
         if not 0 < float(self.reference_weight) < np.inf:
             raise ConfigError(f"reference_weight must be > 0, got {self.reference_weight!r}")
+        if self.reference_use not in REFERENCE_USES:
+            raise ConfigError(
+                f"reference_use must be one of {', '.join(REFERENCE_USES)}, "
+                f"got {self.reference_use!r}"
+            )
 
     def reads_context(self) -> bool:
         """Whether the emissions read the stacking context (their priors pin the
@@ -707,6 +721,9 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
             self._fit_once(succ, labels, progress)
             if self._tracts_shorter_than_cycles():
                 self._fit_with_weaker_weights(succ, labels, progress)
+            self.reference_check_ = None
+            if self.reference_use == "check" and self.reference is not None and labels is None:
+                self._check_reference(successions, progress)
         self.cautions_ = read_cautions(self)
         if calibrate:
             self.calibrate()
@@ -764,6 +781,17 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
                 break
         self._take_fit(weaker)
         self.weights_rejected_ = rejected
+
+    def _check_reference(self, successions, progress) -> None:
+        """Fit again without the reference, and keep that fit unless the two columns of
+        the training cores share too little
+        (:func:`~faciesseq.hmm.reference_check.check_reference`)."""
+        own = type(self)(**{**self.get_params(), "reference": None, "reference_use": "always"})
+        own.fit(successions, None, progress, calibrate=False)
+        record = check_reference(self, own, successions)
+        if record["kept"] == "without":
+            self._take_fit(own)
+        self.reference_check_ = record
 
     def _take_fit(self, other: TractHMM) -> None:
         """The fitted state of ``other`` (a fit of other settings), this model keeping

@@ -159,6 +159,8 @@ def model_to_dict(model: TractHMM, provenance: Mapping[str, Any] | None = None) 
         training["evidence_weights_rejected"] = model.weights_rejected_
     if getattr(model, "nested_start_", None):
         training["nested_start"] = model.nested_start_
+    if getattr(model, "reference_check_", None):
+        training["reference_check"] = model.reference_check_
     training["cautions"] = fit_cautions(model)
     if getattr(model, "units_", None):
         training["units"] = model.units_
@@ -284,6 +286,7 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.graph_selection_ = list(training.get("graph_selection") or [])
     model.weights_rejected_ = training.get("evidence_weights_rejected")
     model.nested_start_ = training.get("nested_start")
+    model.reference_check_ = training.get("reference_check")
     model.units_ = training.get("units")  # None in files made before: no conversion
     if training.get("cautions") is not None:  # files made before: computed again
         model.cautions_ = [str(c) for c in training["cautions"]]
@@ -451,6 +454,7 @@ _TRAINING_TYPES = {
     "graph_selection": list,
     "evidence_weights_rejected": dict,
     "nested_start": dict,
+    "reference_check": dict,
     "cautions": list,
     "units": str,
     "facies_beds": dict,
