@@ -115,13 +115,17 @@ def _agreement(column: pd.Series, intervals: pd.DataFrame, marine) -> float:
     return float(np.sum(w * (called == true)) / np.sum(w))
 
 
-#: A reference model file (``--reference``) the fits without labels read, or None.
+#: A reference model file (``--reference``) the fits without labels read, or None, and
+#: how they read it (``--reference-use``).
 REFERENCE = None
+REFERENCE_USE = "always"
 
 
 def _model(scheme):
     model = make_model(scheme, "unsupervised", SEED)
-    return model if REFERENCE is None else model.set_params(reference=REFERENCE)
+    if REFERENCE is None:
+        return model
+    return model.set_params(reference=REFERENCE, reference_use=REFERENCE_USE)
 
 
 def _fit_and_decode(cores, scheme, held_out: bool):
@@ -248,14 +252,23 @@ def main(argv: list[str] | None = None) -> int:
     )
     parser.add_argument(
         "--reference",
-        type=Path,
         metavar="FILE",
-        help="a reference model file the fits read (benchmarks/eval_reference.py --save-reference)",
+        help="a reference model file the fits read (benchmarks/eval_reference.py "
+        "--save-reference), or 'generators' for the packaged one",
+    )
+    parser.add_argument(
+        "--reference-use",
+        choices=("always", "check"),
+        default="always",
+        help="read the reference always, or check it against the fit without it",
     )
     args = parser.parse_args(argv)
     if args.reference:
-        global REFERENCE
-        REFERENCE = args.reference.resolve()
+        global REFERENCE, REFERENCE_USE
+        REFERENCE = args.reference
+        if args.reference != "generators":
+            REFERENCE = Path(args.reference).resolve()
+        REFERENCE_USE = args.reference_use
     if args.per_bed_evidence:
         import eval_unsupervised
 
