@@ -299,3 +299,9 @@ def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):
     record = load_model(tmp_path / "m.json").reference_check_
     line = next(x for x in p.stdout.splitlines() if x.startswith("reference checked"))
     assert f"{record['agreement']:.2f} of the thickness" in line
+    fit += ["--format", "json", "-o", str(tmp_path / "j.json")]
+    p = subprocess.run(fit, capture_output=True, text=True, timeout=900)
+    assert p.returncode == 0, p.stderr
+    import json
+
+    assert json.loads(p.stdout)["diagnostics"]["reference_check"] == record

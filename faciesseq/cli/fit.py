@@ -458,7 +458,13 @@ def _diagnostics(selection) -> dict:
 
     model = selection.best
     training = model_to_dict(model, {"selection": selection.to_dict()["candidates"]})["training"]
-    kept = ("selection", "graph_selection", "nested_start", "evidence_weights_rejected")
+    kept = (
+        "selection",
+        "graph_selection",
+        "nested_start",
+        "evidence_weights_rejected",
+        "reference_check",
+    )
     found = {k: training[k] for k in kept if k in training}
     best = training["restarts"][training["best_restart"]]
     weights = getattr(model, "evidence_weights_", None) or {}
