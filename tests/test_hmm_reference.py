@@ -279,6 +279,7 @@ def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
     assert load_model(tmp_path / "m.json").reference_check_ == record
     unsure = any("the tract names are unsure" in c for c in model.cautions_)
     assert unsure == (record["agreement"] < check.UNSURE_BELOW)
+    assert f"{record['agreement']:.2f} of the thickness" in methods_text(model)
 
 
 def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):

@@ -228,6 +228,21 @@ REFERENCE_TEXT = (
 )
 
 
+def _reference_check_text(model: Any) -> str | None:
+    """What the check of a reference measured and kept (``reference_use="check"``,
+    :mod:`faciesseq.hmm.reference_check`), or None for a fit that made none."""
+    record = getattr(model, "reference_check_", None)
+    if not isinstance(record, dict) or not isinstance(record.get("agreement"), int | float):
+        return None
+    kept = "reading the reference" if record.get("kept") == "reference" else "without it"
+    return (
+        "The reference was checked against the same fit without it: the two tract columns "
+        f"of these cores gave one tract to {record['agreement']:.2f} of the thickness, and "
+        f"the fit {kept} was kept (the reference's is kept below a third; below a half the "
+        "tract names are unsure; docs/hmm.md, 'Checking a reference')."
+    )
+
+
 def methods_section(unit: str = "beds", model: Any = None) -> Section:
     """The methods section: what was computed, with equations and references.
 
@@ -258,6 +273,9 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         hmm.add(Paragraph(nested))
     if context and "reference" in getattr(model, "features_", ()):
         hmm.add(Paragraph(REFERENCE_TEXT))
+    check = _reference_check_text(model)
+    if context and check:
+        hmm.add(Paragraph(check))
     if boot:
         hmm.add(Paragraph(BOOTSTRAP_TEXT))
     for caution in _caution_texts(model) if context else ():
