@@ -188,7 +188,8 @@ def units_from(args: argparse.Namespace, cores) -> str:
     if any(p.kind == "units" for p in cores.problems):
         if getattr(args, "unstated_units", None):
             other = "m" if cores.units == "ft" else "ft"
-            return f"the model's, as the source states none: give --units {other} if not"
+            whose = getattr(args, "unstated_from", None) or "the model's"
+            return f"{whose}, as the source states none: give --units {other} if not"
         return "assumed: the source states none"
     return "stated in the data"
 

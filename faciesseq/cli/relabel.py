@@ -306,8 +306,10 @@ def run(args: argparse.Namespace) -> int:
     sheet.attrs["record"] = settings.record  # a damaged one set aside checks nothing
     scheme = load_scheme_option(args.scheme)
     doc = _sheet_model(settings.record)
-    # a source stating no units is read as the sheet's decode read it: in the model's
-    args.unstated_units = _fitted_units(doc)
+    # a source stating no units is read as the sheet's decode read it: in the units its
+    # record names, else (a sheet of an older decode) in the model's, where its file is read
+    args.unstated_units = settings.units or _fitted_units(doc)
+    args.unstated_from = "the sheet's" if settings.units else "the model's"
     cores = read_source(args, scheme).require_valid()
     result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
