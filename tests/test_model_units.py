@@ -153,6 +153,52 @@ def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_pa
     assert np.allclose(table["top"], pd.read_csv(feet)["top"])
 
 
+def test_a_streamed_decode_failing_late_in_other_units_than_the_models_says_one_line(
+    tmp_path, capsys, monkeypatch
+):
+    # the line saying the model's units was written before decoding: a source whose
+    # last core is broken then failed in two lines, the note and the error
+    import faciesseq.io.stream as stream_module
+
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    table = pd.read_csv(feet)
+    last = table.index[-1]
+    table["base"] = table["base"].astype(object)
+    table.loc[last, "base"] = "ten"  # a depth no number, in the last core
+    broken = tmp_path / "broken.csv"
+    table.to_csv(broken, index=False)
+    monkeypatch.setattr(stream_module, "BATCH_ROWS", 30)
+    capsys.readouterr()
+    out = tmp_path / "out"
+    assert main(["decode", str(model), str(broken), "--units", "ft", "-o", str(out)]) == 1
+    said = capsys.readouterr().err
+    assert len(said.splitlines()) == 1 and "ten" in said, said
+    assert "fitted on depths" not in said and not out.exists()
+
+
+def test_correlate_says_the_model_was_fitted_in_other_units_once(tmp_path, capsys):
+    # decode said so and correlate did not: the section drawn from feet decoded with a
+    # model in metres came without a word of the conversion
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    names = sorted(pd.read_csv(feet)["core"].unique())
+    wells = tmp_path / "wells.csv"
+    table = pd.read_csv(DEMO.parent / "wells.csv")
+    table[table["core"].isin(names)].to_csv(wells, index=False)
+    capsys.readouterr()
+    out = tmp_path / "section"
+    argv = ["correlate", str(feet), "--wells", str(wells), "--model", str(model)]
+    assert main([*argv, "--units", "ft", "--datum", "depth", "-o", str(out)]) == 0
+    said = capsys.readouterr().err
+    assert said.count("the model was fitted on depths in m") == 1, said
+    assert "every output stays in ft" in said and "units: ft (--units; the model" in said
+
+
 def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_model(
     tmp_path, capsys
 ):
