@@ -237,3 +237,26 @@ def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_m
     assert main(["relabel", str(damaged), str(feet), "-o", str(tmp_path / "d.csv")]) == 1
     said = capsys.readouterr().err
     assert len(said.splitlines()) == 1 and "its units 'yd' are neither m nor ft" in said
+
+
+def test_relabel_refuses_a_source_read_in_other_units_than_its_sheets(tmp_path, capsys):
+    # a sheet decoded in feet relabelled with --units m: its beds matched the source's
+    # depths as numbers, and the labelled table stated m for feet depths
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
+    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    sheet.loc[0, "geologist_tract"] = "HST"
+    filled = tmp_path / "filled.csv"
+    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    labelled = tmp_path / "labelled.csv"
+    capsys.readouterr()
+    argv = ["relabel", str(filled), str(feet), "--units", "m", "-o", str(labelled)]
+    assert main(argv) == 2
+    said = capsys.readouterr().err
+    assert len(said.splitlines()) == 1 and "the sheet's depths are in ft" in said
+    assert "give --units ft" in said and not labelled.exists()
