@@ -18,7 +18,7 @@
    and decodes the rest around them.
 
 The sheet carries a *record* of what decode wrote (:func:`sheet_record`: the model
-and scheme files, a digest of the decoded column and of the notes), as a first
+and scheme files, the depth units, a digest of the decoded column and of the notes), as a first
 ``# `` line of the CSV and a line of the XLSX's read-me worksheet: ``relabel``
 refuses a sheet whose decoded column was edited instead of ``geologist_tract``
 (:func:`check_edits`), takes the label column and tract codes the record names where
@@ -265,12 +265,15 @@ def sheet_record(
     scheme: str | None = None,
     labels="tract",
     tracts: Sequence[str] = (),
+    units: str | None = None,
 ) -> dict[str, str]:
     """What decode wrote into a sheet, for ``relabel`` to check the sheet, default its
     options and say the next fit: ``model`` and ``scheme`` (absolute paths of the files
     decode read, ``none`` for a model without a scheme), ``labels`` (the interpreter's
-    column, which relabel fills), ``tracts`` (the model's tract codes, comma-separated,
-    which relabel accepts; left out where none are given), ``beds`` (rows), digests
+    column, which relabel fills), ``units`` (``m`` or ``ft``, the depth units decode read
+    the source in and the sheet's depths are in, which relabel reads a source stating
+    none in; left out where not given), ``tracts`` (the model's tract codes,
+    comma-separated, which relabel accepts; left out where none are given), ``beds`` (rows), digests
     of ``decoded_tract`` and ``note`` as written, and ``runs``, the decoded tracts down
     each core (:func:`_decoded_runs`; left out of a sheet too long for it), which
     checks ``decoded_tract`` row by row on a sheet that lost rows."""
@@ -279,6 +282,8 @@ def sheet_record(
         "scheme": str(scheme) if scheme else "none",
         "labels": labels or "tract",
     }
+    if units:
+        record["units"] = units
     if tracts:
         record["tracts"] = ",".join(tracts)
     record["beds"] = str(len(table))
@@ -308,8 +313,8 @@ def parse_record(line: str) -> dict[str, str] | None:
     return record
 
 
-#: Keys of every record :func:`sheet_record` writes (``tracts`` is read where present:
-#: the record of an older decode lacks it).
+#: Keys of every record :func:`sheet_record` writes (``tracts`` and ``units`` are read
+#: where present: the record of an older decode lacks them).
 RECORD_KEYS = ("model", "scheme", "labels", "beds", "decoded", "notes")
 
 
@@ -323,6 +328,8 @@ def record_problem(record: dict[str, str]) -> str | None:
         return f"its bed count {record['beds']!r} is not a number"
     if "tracts" in record and not _record_tracts(record):
         return "its tract list is empty"
+    if "units" in record and record["units"] not in ("m", "ft"):
+        return f"its units {record['units']!r} are neither m nor ft"
     if "runs" in record and _read_runs(record["runs"]) is None:
         return "its runs cannot be read back"
     return None
@@ -348,12 +355,17 @@ class RelabelSettings:
         that the options given make unnecessary.
     damaged
         What is wrong with a record that was set aside (None otherwise).
+    units
+        The depth units the sheet's decode read the source in (its record's), which a
+        source stating none is read in; None where the record does not say (a sheet of
+        an older decode, or none).
     """
 
     labels: str
     tracts: tuple[str, ...]
     record: dict[str, str] | None = None
     damaged: str | None = None
+    units: str | None = None
 
 
 def relabel_settings(
@@ -407,6 +419,7 @@ def relabel_settings(
         tracts=tuple(tracts or _record_tracts(recorded) or default_tract_model().codes),
         record=record,
         damaged=damaged,
+        units=recorded.get("units"),
     )
 
 
@@ -438,7 +451,9 @@ def write_sheet(
         The files written.
     """
     table = rounded(sheet_table(interp, labels))
-    line = record_line(sheet_record(table, model, scheme, labels, tuple(interp.tracts)))
+    units = next((core.units for core in interp), None)
+    record = sheet_record(table, model, scheme, labels, tuple(interp.tracts), units)
+    line = record_line(record)
     folder = Path(folder)
     written = [folder / f"{SHEET_NAME}.csv"]
     with written[0].open("w", newline="", encoding="utf-8") as handle:

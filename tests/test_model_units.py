@@ -146,8 +146,117 @@ def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_pa
     capsys.readouterr()
     assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
     said = capsys.readouterr()
-    assert "units: ft (the model's, as the source states none" in said.err
+    assert "units: ft (the sheet's, as the source states none" in said.err
     assert " ft (100.0 % of " in said.out  # the agreement line's thickness
     table = pd.read_csv(labelled)
     assert set(table["units"]) == {"ft"}
     assert np.allclose(table["top"], pd.read_csv(feet)["top"])
+
+
+def test_a_streamed_decode_failing_late_in_other_units_than_the_models_says_one_line(
+    tmp_path, capsys, monkeypatch
+):
+    # the line saying the model's units was written before decoding: a source whose
+    # last core is broken then failed in two lines, the note and the error
+    import faciesseq.io.stream as stream_module
+
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    table = pd.read_csv(feet)
+    last = table.index[-1]
+    table["base"] = table["base"].astype(object)
+    table.loc[last, "base"] = "ten"  # a depth no number, in the last core
+    broken = tmp_path / "broken.csv"
+    table.to_csv(broken, index=False)
+    monkeypatch.setattr(stream_module, "BATCH_ROWS", 30)
+    capsys.readouterr()
+    out = tmp_path / "out"
+    assert main(["decode", str(model), str(broken), "--units", "ft", "-o", str(out)]) == 1
+    said = capsys.readouterr().err
+    assert len(said.splitlines()) == 1 and "ten" in said, said
+    assert "fitted on depths" not in said and not out.exists()
+
+
+def test_correlate_says_the_model_was_fitted_in_other_units_once(tmp_path, capsys):
+    # decode said so and correlate did not: the section drawn from feet decoded with a
+    # model in metres came without a word of the conversion
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "m", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    names = sorted(pd.read_csv(feet)["core"].unique())
+    wells = tmp_path / "wells.csv"
+    table = pd.read_csv(DEMO.parent / "wells.csv")
+    table[table["core"].isin(names)].to_csv(wells, index=False)
+    capsys.readouterr()
+    out = tmp_path / "section"
+    argv = ["correlate", str(feet), "--wells", str(wells), "--model", str(model)]
+    assert main([*argv, "--units", "ft", "--datum", "depth", "-o", str(out)]) == 0
+    said = capsys.readouterr().err
+    assert said.count("the model was fitted on depths in m") == 1, said
+    assert "every output stays in ft" in said and "units: ft (--units; the model" in said
+
+
+def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_model(
+    tmp_path, capsys
+):
+    # relabel took the units of a source stating none from the model file the sheet's
+    # record names: with that file moved, a sheet decoded in feet read the source as
+    # metres, and the labelled table stated m for feet depths
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
+    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    assert "; units: ft;" in record
+    model.rename(tmp_path / "moved.json")
+    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    first = sheet["core"] == sheet["core"].iloc[0]
+    sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
+    filled = tmp_path / "filled.csv"
+    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    labelled = tmp_path / "labelled.csv"
+    capsys.readouterr()
+    assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
+    assert "units: ft (the sheet's, as the source states none" in capsys.readouterr().err
+    table = pd.read_csv(labelled)
+    assert set(table["units"]) == {"ft"}
+    # a sheet of an older decode (no units in its record) is read as before
+    older = tmp_path / "older.csv"
+    older.write_text(record.replace("; units: ft", "") + sheet.to_csv(index=False), "utf-8")
+    assert main(["relabel", str(older), str(feet), "-o", str(tmp_path / "o.csv")]) == 0
+    assert set(pd.read_csv(tmp_path / "o.csv")["units"]) == {"m"}  # no model file: metres
+    damaged = tmp_path / "damaged.csv"
+    bad_record = record.replace("units: ft", "units: yd")
+    damaged.write_text(bad_record + sheet.to_csv(index=False), "utf-8")
+    capsys.readouterr()
+    assert main(["relabel", str(damaged), str(feet), "-o", str(tmp_path / "d.csv")]) == 1
+    said = capsys.readouterr().err
+    assert len(said.splitlines()) == 1 and "its units 'yd' are neither m nor ft" in said
+
+
+def test_relabel_refuses_a_source_read_in_other_units_than_its_sheets(tmp_path, capsys):
+    # a sheet decoded in feet relabelled with --units m: its beds matched the source's
+    # depths as numbers, and the labelled table stated m for feet depths
+    train, _, feet = _tables(tmp_path)
+    model = tmp_path / "model.json"
+    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
+    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
+    out = tmp_path / "decoded"
+    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
+    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    sheet.loc[0, "geologist_tract"] = "HST"
+    filled = tmp_path / "filled.csv"
+    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    labelled = tmp_path / "labelled.csv"
+    capsys.readouterr()
+    argv = ["relabel", str(filled), str(feet), "--units", "m", "-o", str(labelled)]
+    assert main(argv) == 2
+    said = capsys.readouterr().err
+    assert len(said.splitlines()) == 1 and "the sheet's depths are in ft" in said
+    assert "give --units ft" in said and not labelled.exists()

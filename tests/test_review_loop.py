@@ -136,7 +136,7 @@ def test_without_openpyxl_the_csv_is_written_and_one_line_names_the_extra(
 def test_the_record_names_the_label_column_and_the_models_tracts(work):
     # relabel's defaults for --labels and --tracts (tests/test_review_record.py)
     record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
-    assert "; labels: tract; tracts: HST,FSST,LST,TST; beds: 120; " in record
+    assert "; labels: tract; units: m; tracts: HST,FSST,LST,TST; beds: 120; " in record
 
 
 def test_decode_without_the_option_writes_no_sheet(work, tmp_path):

@@ -188,16 +188,21 @@ def units_from(args: argparse.Namespace, cores) -> str:
     if any(p.kind == "units" for p in cores.problems):
         if getattr(args, "unstated_units", None):
             other = "m" if cores.units == "ft" else "ft"
-            return f"the model's, as the source states none: give --units {other} if not"
+            whose = getattr(args, "unstated_from", None) or "the model's"
+            return f"{whose}, as the source states none: give --units {other} if not"
         return "assumed: the source states none"
     return "stated in the data"
 
 
 def settings_line(args: argparse.Namespace, cores, scheme=None) -> str:
-    """``units: ft (from the source file); scheme: my-scheme.yaml (--scheme)``: what is in force."""
+    """``units: ft (from the source file); scheme: my-scheme.yaml (--scheme)``: what is in
+    force; for a command decoding with a model fitted on depths in the other unit
+    (:func:`models_units_note`), the units' words say so too."""
     from pathlib import Path
 
-    text = f"units: {cores.units} ({units_from(args, cores)}); scheme: "
+    units = units_from(args, cores)
+    note = models_units_note(args, cores)
+    text = f"units: {cores.units} ({units}{'; ' + note if note else ''}); scheme: "
     given = getattr(args, "scheme", None)
     if getattr(args, "ranks_suggested", False) and not given:
         return text + "ranks suggested from the data (no --scheme)"
@@ -207,6 +212,20 @@ def settings_line(args: argparse.Namespace, cores, scheme=None) -> str:
         return text + f"{given} ({getattr(args, 'scheme_from', None) or '--scheme'})"
     name = getattr(scheme, "source", None)
     return text + f"{Path(name).name if name else scheme.name} (from the model file)"
+
+
+def models_units_note(args: argparse.Namespace, cores) -> str | None:
+    """Where the model a command decodes with (:func:`read_in_models_units`) was fitted
+    on depths in other units than the cores': the words saying that the beds'
+    thicknesses are converted for it and every output stays in the cores' units; None
+    otherwise (the same units, no model, or a model file without units)."""
+    fitted = getattr(args, "model_units", None)
+    if fitted is None or fitted == cores.units:
+        return None
+    return (
+        f"the model was fitted on depths in {fitted}: the beds' thicknesses are converted "
+        f"to {fitted} for it, 1 ft = 0.3048 m, every output stays in {cores.units}"
+    )
 
 
 def units_alarm(cores) -> str | None:
@@ -296,8 +315,11 @@ def read_in_models_units(args: argparse.Namespace, model) -> None:
     """Have the source read in the units of ``model``'s training cores where it states
     none (neither its data, a YAML source file nor ``--units``): cores decoded with a
     model are most likely described in the units it was fitted on. A model file
-    without units (an older one) leaves metres assumed."""
-    args.unstated_units = getattr(model, "units_", None)
+    without units (an older one) leaves metres assumed. Where the cores are in the
+    other unit, their settings line says the model's (:func:`models_units_note`), on
+    success only, as it is written."""
+    args.unstated_units = args.model_units = getattr(model, "units_", None)
+    args.unstated_from = "the model's"
 
 
 class _DeprecatedAlias(argparse.Action):

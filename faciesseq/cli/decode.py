@@ -473,7 +473,6 @@ def _read(args: argparse.Namespace, model, scheme, places: _UnseenPlaces | None 
     cores = regular_cores(source, "decode", args.keep_irregular)
     if places is not None:
         places.add(cores)
-    _note_units(model, cores)
     step = model.grid_step(cores.units)
     check_grid_size(cores, model.unit_, step, option="the model's grid step")
     successions = cores.succession_table(model.unit_, step)
@@ -516,20 +515,6 @@ def _with_progress(parts, model, successions):
             yield part
     finally:
         progress.close()
-
-
-def _note_units(model, cores) -> None:
-    """Say where the model was fitted on depths in other units than the source's (stated,
-    or given). A source stating none is read in the model's
-    (:func:`~faciesseq.cli._common.read_in_models_units`), which the settings line says
-    once the command has succeeded (:func:`~faciesseq.cli._common.units_from`)."""
-    fitted, units = getattr(model, "units_", None), cores.units
-    if fitted is not None and fitted != units:
-        sys.stderr.write(
-            f"faciesseq decode: the model was fitted on depths in {fitted}; the beds' "
-            f"thicknesses are converted to {fitted} for it (1 ft = 0.3048 m), every output "
-            f"stays in {units}\n"
-        )
 
 
 class _UnseenPlaces:
@@ -643,9 +628,7 @@ class _Streamed:
 
         beds = 0
         chosen = _Chosen(self.args)
-        for k, batch in enumerate(self.stream):
-            if k == 0:
-                _note_units(model, batch)
+        for batch in self.stream:
             batch = chosen(batch)
             screening = leave_out_irregular(batch)
             self.left_out += screening.left_out

@@ -42,7 +42,8 @@ def register(subparsers) -> None:
         "shown again in the next sheet. A sheet bed that matches no source interval, a tract "
         "code not in the tract model, a sheet whose decoded_tract column was edited (write "
         "in geologist_tract) and a sheet with nothing edited are errors (exit 1, nothing "
-        "written). The label column and the tract codes default to those the sheet's record "
+        "written); so is a SOURCE read in other depth units than the sheet's, its record's "
+        "(exit 2). The label column and the tract codes default to those the sheet's record "
         "line names (its decode's --labels and the model's tracts); a damaged record line "
         "is an error unless both options are given.",
         epilog=EXAMPLES,
@@ -68,6 +69,24 @@ def register(subparsers) -> None:
         "of the model the sheet's record names; the four tracts for a sheet without them)",
     )
     parser.set_defaults(func=run)
+
+
+def _check_units(sheet_units: str | None, units: str, args: argparse.Namespace, file: str) -> None:
+    """Refuse a source read in other units than the sheet's depths (its record's, the
+    units its decode read): its depths matched the sheet's as numbers and the labelled
+    table stated the other unit (``--units m`` on a sheet decoded in feet), or none
+    matched and the error asked whether the sheet was decoded from SOURCE."""
+    from faciesseq.errors import ConfigError
+
+    if sheet_units is None or sheet_units == units:
+        return
+    why = "--units" if args.units else "as it states them"
+    raise ConfigError(
+        f"the sheet's depths are in {sheet_units} (the units its decode read, as its record "
+        f"says), SOURCE is read in {units} ({why}): give --units {sheet_units}, or decode "
+        f"again with --units {units} for a sheet in {units}",
+        file=file,
+    )
 
 
 def _model_document(model_path: str) -> dict | None:
@@ -306,9 +325,12 @@ def run(args: argparse.Namespace) -> int:
     sheet.attrs["record"] = settings.record  # a damaged one set aside checks nothing
     scheme = load_scheme_option(args.scheme)
     doc = _sheet_model(settings.record)
-    # a source stating no units is read as the sheet's decode read it: in the model's
-    args.unstated_units = _fitted_units(doc)
+    # a source stating no units is read as the sheet's decode read it: in the units its
+    # record names, else (a sheet of an older decode) in the model's, where its file is read
+    args.unstated_units = settings.units or _fitted_units(doc)
+    args.unstated_from = "the sheet's" if settings.units else "the model's"
     cores = read_source(args, scheme).require_valid()
+    _check_units(settings.units, cores.units, args, name)
     result = relabel(sheet, cores, settings.tracts, file=name, labels=settings.labels)
     check_edits(sheet, name)  # after the sheet's beds are found in SOURCE: what is wrong first
     write_cores(result.cores, args.output)
