@@ -29,10 +29,9 @@ the larger sizes once one run of it took longer than that.
 virtual one that hands memory freed by a process back to its host a few seconds
 later; a process that starts before that reuses the freed pages cheaply, one that
 starts after pays the host for every fresh page. ``pandas.read_csv`` of 10^6 beds took
-0.38-0.72 s of system time right after a process freed 1.5 GB, 0.70-0.81 s five
-seconds later and 0.94-1.00 s on a settled machine, with the same page faults (see
-benchmarks/README.md, sixth pass): without the pause a command's figure depends on
-what ran just before it.
+0.38-0.72 s of system time right after a process freed 1.5 GB and 0.70-1.00 s five
+seconds or more later, with the same page faults (benchmarks/README.md, sixth pass):
+without the pause a command's figure depends on what ran just before it.
 """
 
 from __future__ import annotations
