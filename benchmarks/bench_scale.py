@@ -24,6 +24,14 @@ repository root::
 ``decode``; ``decode`` decodes with the model of ``fit1``, fitted once per size
 and not timed when ``fit1`` is not chosen); ``--max-seconds`` skips a command at
 the larger sizes once one run of it took longer than that.
+
+``--settle`` (seconds, default 10) pauses before every timed run. This machine is a
+virtual one that hands memory freed by a process back to its host a few seconds
+later; a process that starts before that reuses the freed pages cheaply, one that
+starts after pays the host for every fresh page. ``pandas.read_csv`` of 10^6 beds took
+0.38-0.72 s of system time right after a process freed 1.5 GB and 0.70-1.00 s five
+seconds or more later, with the same page faults (benchmarks/README.md, sixth pass):
+without the pause a command's figure depends on what ran just before it.
 """
 
 from __future__ import annotations
@@ -63,8 +71,10 @@ def make_database(n_beds: int, path: Path) -> int:
     return copies
 
 
-def run(cmd: list[str]) -> tuple[float, float, float]:
-    """CPU seconds (user + system), wall seconds and peak RSS (MB) of one finished process."""
+def run(cmd: list[str], settle: float = 0.0) -> tuple[float, float, float]:
+    """CPU seconds (user + system), wall seconds and peak RSS (MB) of one finished process,
+    started ``settle`` seconds after this call (the memory freed before handed back)."""
+    time.sleep(settle)
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
     _, status, usage = os.wait4(proc.pid, 0)
@@ -83,6 +93,7 @@ def main() -> None:
     parser.add_argument("--commands", default="markov,fit1,fit,decode")
     parser.add_argument("--max-seconds", type=float, default=600.0)
     parser.add_argument("--keep", metavar="DIR", help="write the databases into DIR and keep them")
+    parser.add_argument("--settle", type=float, default=10.0, help="pause before each run, s")
     args = parser.parse_args()
     sizes = [int(s) for s in args.sizes.split(",")]
     chosen = args.commands.split(",")
@@ -152,7 +163,7 @@ def main() -> None:
                 if name in too_slow:
                     print(f"{n:>9,} {name:<10} skipped (slower than --max-seconds)")
                     continue
-                rows = [run(commands[name]) for _ in range(args.repeat)]
+                rows = [run(commands[name], args.settle) for _ in range(args.repeat)]
                 cpu = statistics.median(r[0] for r in rows)
                 wall = statistics.median(r[1] for r in rows)
                 peak = max(r[2] for r in rows)
