@@ -127,9 +127,9 @@ def test_read_cores_takes_the_units_of_depths_nothing_states(tmp_path):
     assert read_cores(metres).units == "m"  # metres, as before, when nothing is said
 
 
-def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
-    # the sheet of a decode in the model's feet, relabelled on the same source: the
-    # source was read as metres there, and the labelled table written stated m for feet
+def _sheet_in_feet(tmp_path: Path) -> tuple[Path, Path, str, pd.DataFrame]:
+    """A model fitted in feet, the feet table it decoded with ``--review-sheet`` (a
+    source stating no units), the sheet's record line and its rows."""
     train, _, feet = _tables(tmp_path)
     model = tmp_path / "model.json"
     fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
@@ -138,6 +138,13 @@ def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_pa
     assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
     record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
     sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    return model, feet, record, sheet
+
+
+def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
+    # the sheet of a decode in the model's feet, relabelled on the same source: the
+    # source was read as metres there, and the labelled table written stated m for feet
+    _model, feet, record, sheet = _sheet_in_feet(tmp_path)
     first = sheet["core"] == sheet["core"].iloc[0]
     sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
     filled = tmp_path / "filled.csv"
@@ -205,16 +212,9 @@ def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_m
     # relabel took the units of a source stating none from the model file the sheet's
     # record names: with that file moved, a sheet decoded in feet read the source as
     # metres, and the labelled table stated m for feet depths
-    train, _, feet = _tables(tmp_path)
-    model = tmp_path / "model.json"
-    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
-    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
-    out = tmp_path / "decoded"
-    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
-    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
+    model, feet, record, sheet = _sheet_in_feet(tmp_path)
     assert "; units: ft;" in record
     model.rename(tmp_path / "moved.json")
-    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
     first = sheet["core"] == sheet["core"].iloc[0]
     sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
     filled = tmp_path / "filled.csv"
@@ -242,14 +242,7 @@ def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_m
 def test_relabel_refuses_a_source_read_in_other_units_than_its_sheets(tmp_path, capsys):
     # a sheet decoded in feet relabelled with --units m: its beds matched the source's
     # depths as numbers, and the labelled table stated m for feet depths
-    train, _, feet = _tables(tmp_path)
-    model = tmp_path / "model.json"
-    fit = ["fit", str(train), "--units", "ft", "--scheme", SCHEME, "--labels", "tract"]
-    assert main([*fit, "--restarts", "1", "-o", str(model)]) == 0
-    out = tmp_path / "decoded"
-    assert main(["decode", str(model), str(feet), "--review-sheet", "-o", str(out)]) == 0
-    record, *lines = (out / "sheet.csv").read_text(encoding="utf-8").splitlines(keepends=True)
-    sheet = pd.read_csv(io.StringIO("".join(lines)), dtype=str, keep_default_na=False)
+    _model, feet, record, sheet = _sheet_in_feet(tmp_path)
     sheet.loc[0, "geologist_tract"] = "HST"
     filled = tmp_path / "filled.csv"
     filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
