@@ -257,13 +257,17 @@ def test_agreement_is_the_share_of_the_thickness_given_one_tract():
     assert agreement(first, first) == 1.0
 
 
-@pytest.mark.parametrize("below, kept", [(0.0, "without"), (1.01, "reference")])
+@pytest.mark.parametrize(
+    "below, unsure_below, kept",
+    [(0.0, 0.0, "without"), (0.0, 1.01, "without"), (1.01, 1.01, "reference")],
+)
 def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
-    reference, target, tmp_path, monkeypatch, below, kept
+    reference, target, tmp_path, monkeypatch, below, unsure_below, kept
 ):
     import faciesseq.hmm.reference_check as check
 
     monkeypatch.setattr(check, "KEEP_REFERENCE_BELOW", below)
+    monkeypatch.setattr(check, "UNSURE_BELOW", unsure_below)
     cores = CoreSet.from_frame(target[MINIMAL], units="m")
     params = {"scheme": SCENARIO.scheme, "random_state": 3, "n_restarts": 1}
     params["calibration_folds"] = 0
@@ -278,8 +282,10 @@ def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
     save_model(model, tmp_path / "m.json")
     assert load_model(tmp_path / "m.json").reference_check_ == record
     unsure = any("the tract names are unsure" in c for c in model.cautions_)
-    assert unsure == (record["agreement"] < check.UNSURE_BELOW)
+    assert unsure == (record["agreement"] < unsure_below)
     assert f"{record['agreement']:.2f} of the thickness" in methods_text(model)
+    note = model.decode(cores).meta["probabilities_note"]
+    assert ("the tract names are unsure" in note) == unsure
 
 
 def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):

@@ -33,6 +33,7 @@ from faciesseq.hmm.cautions import REFERENCE_NOTE, UNLABELLED_NOTE
 from faciesseq.hmm.encoding import EncodedBeds, UnseenCategoryWarning
 from faciesseq.hmm.inputs import as_successions
 from faciesseq.hmm.reference import REFERENCE
+from faciesseq.hmm.reference_check import unsure_note
 from faciesseq.hmm.said_once import said_once
 from faciesseq.interpretation import PICK_COLUMNS, Interpretation
 from faciesseq.parallel import run_jobs
@@ -356,6 +357,8 @@ class Decoding:
         meta["tracts_labelled"] = bool(getattr(self, "n_labelled_", 0))
         if not meta["tracts_labelled"]:
             note = REFERENCE_NOTE if REFERENCE in self.features_ else UNLABELLED_NOTE
+            unsure = unsure_note(getattr(self, "reference_check_", None))
+            note = f"{note} {unsure}" if unsure else note
             meta["probabilities_note"] = f"{meta['probabilities_note']} {note}"
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 

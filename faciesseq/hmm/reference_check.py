@@ -32,6 +32,7 @@ __all__ = [
     "agreement",
     "check_reference",
     "unsure",
+    "unsure_note",
 ]
 
 #: ``TractHMM(reference_use=...)``: read the reference always, or check it first.
@@ -76,3 +77,14 @@ def unsure(record: dict | None) -> bool:
     damaged) says the tract names are unsure."""
     share = record.get("agreement") if isinstance(record, dict) else None
     return isinstance(share, int | float) and bool(np.isfinite(share)) and share < UNSURE_BELOW
+
+
+def unsure_note(record: dict | None) -> str | None:
+    """The sentence added to the probability note of cores decoded by a fit whose
+    check says the tract names are unsure (:func:`unsure`), else None."""
+    if not unsure(record):
+        return None
+    return (
+        f"The fits with and without the reference gave one tract to {record['agreement']:.2f} "
+        "of the thickness: the tract names are unsure (docs/hmm.md, 'Checking a reference')."
+    )
