@@ -134,6 +134,8 @@ def test_a_reference_is_refused_where_it_cannot_be_read(reference, target):
         _quiet(TractHMM(scheme=SCENARIO.scheme, reference=reference), cores, labels="true_tract")
     plain = CoreSet.from_frame(table[MINIMAL], units="m")
     unlabelled = _quiet(TractHMM(scheme=SCENARIO.scheme, random_state=1, n_restarts=1), plain)
+    # a fit without labels that could read one says how to check its names with it
+    assert any("--reference generators --reference-use check" in c for c in unlabelled.cautions_)
     with pytest.raises(ConfigError, match="fitted with labels"):
         _quiet(TractHMM(scheme=SCENARIO.scheme, reference=unlabelled), plain)
     with pytest.raises(ConfigError, match="needs a reference"):

@@ -123,7 +123,18 @@ def unlabelled_caution(model) -> str | None:
     return (
         "caution: no bed was labelled, so the tract names rest on the model's priors (the "
         f"cyclic order, the one deepening tract); {measured}: read the column as a first "
-        "draft, or label a few cores (fit --labels)"
+        f"draft, or label a few cores (fit --labels){_reference_hint(model)}"
+    )
+
+
+def _reference_hint(model) -> str:
+    """Where a fit without labels could read the packaged reference (the stacking
+    context, the default tracts): that its check says how sure the names are."""
+    if not (getattr(model, "reads_context", lambda: False)() and _default_tracts(model)):
+        return ""
+    return (
+        "; fit --reference generators --reference-use check says how far a reference "
+        "learnt elsewhere agrees with it (docs/hmm.md, 'Checking a reference')"
     )
 
 
