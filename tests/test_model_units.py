@@ -141,14 +141,21 @@ def _sheet_in_feet(tmp_path: Path) -> tuple[Path, Path, str, pd.DataFrame]:
     return model, feet, record, sheet
 
 
-def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
-    # the sheet of a decode in the model's feet, relabelled on the same source: the
-    # source was read as metres there, and the labelled table written stated m for feet
-    _model, feet, record, sheet = _sheet_in_feet(tmp_path)
+def _first_core_reviewed(tmp_path: Path, record: str, sheet: pd.DataFrame) -> Path:
+    """The sheet with its first core's decoded tracts taken as the geologist's, written
+    under its record line."""
     first = sheet["core"] == sheet["core"].iloc[0]
     sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
     filled = tmp_path / "filled.csv"
     filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    return filled
+
+
+def test_relabel_reads_a_source_stating_no_units_as_its_sheets_decode_did(tmp_path, capsys):
+    # the sheet of a decode in the model's feet, relabelled on the same source: the
+    # source was read as metres there, and the labelled table written stated m for feet
+    _model, feet, record, sheet = _sheet_in_feet(tmp_path)
+    filled = _first_core_reviewed(tmp_path, record, sheet)
     labelled = tmp_path / "labelled.csv"
     capsys.readouterr()
     assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
@@ -215,10 +222,7 @@ def test_the_review_sheet_records_its_units_and_relabel_reads_them_without_the_m
     model, feet, record, sheet = _sheet_in_feet(tmp_path)
     assert "; units: ft;" in record
     model.rename(tmp_path / "moved.json")
-    first = sheet["core"] == sheet["core"].iloc[0]
-    sheet.loc[first, "geologist_tract"] = sheet.loc[first, "decoded_tract"]
-    filled = tmp_path / "filled.csv"
-    filled.write_text(record + sheet.to_csv(index=False), encoding="utf-8")
+    filled = _first_core_reviewed(tmp_path, record, sheet)
     labelled = tmp_path / "labelled.csv"
     capsys.readouterr()
     assert main(["relabel", str(filled), str(feet), "-o", str(labelled)]) == 0
