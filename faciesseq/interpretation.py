@@ -72,6 +72,9 @@ class CoreInterpretation:
     read_reference
         Whether that fit, without labels, read a reference model too
         (:mod:`faciesseq.hmm.reference`), which the strip log notes.
+    names_unsure
+        Whether that fit checked a reference and found its tract names unsure
+        (:mod:`faciesseq.hmm.reference_check`), which the strip log notes.
     """
 
     core: str
@@ -85,6 +88,7 @@ class CoreInterpretation:
     probabilities_checked: bool = False
     tracts_labelled: bool = True
     read_reference: bool = False
+    names_unsure: bool = False
 
     def __repr__(self) -> str:
         return (
@@ -406,6 +410,7 @@ class Interpretation:
             probabilities_checked=self.probabilities_checked,
             tracts_labelled=self.tracts_labelled,
             read_reference=self.read_reference,
+            names_unsure=self.names_unsure,
             **spans,
         )
 
@@ -434,6 +439,12 @@ class Interpretation:
         model too (its features, ``meta["features"]``, end with ``reference``;
         :mod:`faciesseq.hmm.reference`)."""
         return "reference" in self.meta.get("features", ())
+
+    @property
+    def names_unsure(self) -> bool:
+        """Whether the fit that decoded these cores checked a reference and found its
+        tract names unsure (``meta["names_unsure"]``; :mod:`faciesseq.hmm.reference_check`)."""
+        return bool(self.meta.get("names_unsure", False))
 
     @property
     def tracts_labelled(self) -> bool:

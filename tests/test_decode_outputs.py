@@ -173,6 +173,28 @@ def _xlabels(fig: Figure) -> str:
     return "\n".join(ax.get_xlabel() for ax in fig.axes)
 
 
+def test_every_probability_note_ends_before_the_surface_track_label(database, models):
+    """The note under the probability track (checked or not, labelled or not, a
+    reference read, names unsure) never runs into the surface track's label."""
+    from itertools import product
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    from faciesseq.report.striplog import _probability_note
+
+    model = load_model(models["unchecked"])
+    core = next(iter(model.decode(synth.cores(1, 30, seed=9))))
+    fig = strip_log(core, load_scheme(database / "scheme.yaml"), model.tract_model_)
+    FigureCanvasAgg(fig).draw()
+    renderer = fig.canvas.get_renderer()
+    probability, surface = fig.axes[2], fig.axes[3]
+    begins = surface.xaxis.label.get_window_extent(renderer).x0
+    for flags in product((False, True), repeat=4):
+        probability.set_xlabel("posterior (stacked)" + _probability_note(*flags))
+        ends = probability.xaxis.label.get_window_extent(renderer).x1
+        assert ends < begins, (flags, probability.get_xlabel())
+
+
 def test_strip_log_says_when_the_probabilities_were_not_checked(database, models):
     model = load_model(models["unchecked"])
     core = next(iter(model.decode(synth.cores(1, 30, seed=9))))
@@ -182,7 +204,7 @@ def test_strip_log_says_when_the_probabilities_were_not_checked(database, models
     # by default the note follows the decoding: this model's probabilities were not checked
     # this model was also fitted without labels: both notes, in one line
     for drawn in (strip_log(core, scheme, tm), strip_log(core, scheme, tm, checked=False)):
-        assert "not checked; names from priors (no labels)" in _xlabels(drawn)
+        assert "not checked; names from priors" in _xlabels(drawn)
         assert len(drawn.axes[2].get_xlabel().splitlines()) == 2
     assert UNCHECKED_NOTE not in _xlabels(strip_log(core, scheme, tm, checked=True))
     # fitted without labels: the names rest on the priors, whatever the check

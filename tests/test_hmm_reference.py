@@ -286,8 +286,13 @@ def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
     unsure = any("the tract names are unsure" in c for c in model.cautions_)
     assert unsure == (record["agreement"] < unsure_below)
     assert f"{record['agreement']:.2f} of the thickness" in methods_text(model)
-    note = model.decode(cores).meta["probabilities_note"]
+    interpretation = model.decode(cores)
+    note = interpretation.meta["probabilities_note"]
     assert ("the tract names are unsure" in note) == unsure
+    from faciesseq.report.striplog import strip_log
+
+    figure = strip_log(interpretation[cores.names[0]], model=model)
+    assert any("names unsure" in ax.get_xlabel() for ax in figure.axes) == unsure
 
 
 def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):

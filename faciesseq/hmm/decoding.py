@@ -359,6 +359,7 @@ class Decoding:
             note = REFERENCE_NOTE if REFERENCE in self.features_ else UNLABELLED_NOTE
             unsure = unsure_note(getattr(self, "reference_check_", None))
             note = f"{note} {unsure}" if unsure else note
+            meta["names_unsure"] = unsure is not None
             meta["probabilities_note"] = f"{meta['probabilities_note']} {note}"
         return Interpretation(tuple(self.states_.tracts), codes, wells=wells, meta=meta, **tables)
 

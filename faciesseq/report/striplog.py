@@ -66,8 +66,8 @@ GRAIN_CLASSES = ("cl", "si", "vf", "f", "m", "c", "gr")
 UNCHECKED_NOTE = "probabilities not checked"
 #: Printed under the probability track of a core decoded by a fit without labels.
 UNLABELLED_NOTE = "tract names from priors (no labels)"
-#: The same where the fit read a reference model.
-REFERENCE_NOTE = "tract names from priors and a reference (no labels)"
+#: The same where the fit read a reference model (a reference is read only without labels).
+REFERENCE_NOTE = "names from priors and a reference"
 _GAP = "#f0f0f0"
 #: Right end of the surface panel (strip log and view): a pick at probability 1
 #: keeps its marker inside.
@@ -300,21 +300,29 @@ def _tract_track(ax, beds: pd.DataFrame, tracts: tuple[str, ...]) -> None:
     ax.set_xlabel("most likely")
 
 
-def _probability_note(checked: bool, labelled: bool, reference: bool = False) -> str:
+def _probability_note(
+    checked: bool, labelled: bool, reference: bool = False, unsure: bool = False
+) -> str:
     """The line under the probability track: nothing, one note, or both in one line
     (a third line would run into the legends); ``reference``: a fit without labels
-    that read a reference model (``faciesseq.hmm.reference``)."""
+    that read a reference model (``faciesseq.hmm.reference``); ``unsure``: one whose
+    check of a reference found its names unsure (``faciesseq.hmm.reference_check``)."""
     if checked and labelled:
         return ""
     if labelled:
         return f"\n{UNCHECKED_NOTE}"
+    # each note is short enough to end before the surface track's label begins
     if checked:
-        return f"\n{REFERENCE_NOTE if reference else UNLABELLED_NOTE}"
-    names = "priors and a reference" if reference else "priors"
-    return f"\nnot checked; names from {names} (no labels)"
+        note = REFERENCE_NOTE if reference else UNLABELLED_NOTE
+        return f"\n{'names unsure (no labels)' if unsure else note}"
+    if unsure:
+        return "\nnot checked; names unsure"
+    return f"\nnot checked; {'priors and a reference' if reference else 'names from priors'}"
 
 
-def _probability_track(ax, beds, tracts, checked, labelled=True, reference=False) -> None:
+def _probability_track(
+    ax, beds, tracts, checked, labelled=True, reference=False, unsure=False
+) -> None:
     """The tract posteriors, stacked."""
     b_top = beds["top"].to_numpy(float)
     b_base = beds["base"].to_numpy(float)
@@ -326,7 +334,8 @@ def _probability_track(ax, beds, tracts, checked, labelled=True, reference=False
     ax.set_xlim(0, 1)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("tract probability")
-    ax.set_xlabel("posterior (stacked)" + _probability_note(checked, labelled, reference))
+    note = _probability_note(checked, labelled, reference, unsure)
+    ax.set_xlabel("posterior (stacked)" + note)
 
 
 def _surface_track(
@@ -585,7 +594,13 @@ def _draw_tracks(tracks, interp, scheme, gaps, curves, step: float, checked: boo
     _facies_track(facies_ax, beds, scheme, interp.units)
     _tract_track(tract_ax, beds, tracts)
     _probability_track(
-        probability_ax, beds, tracts, checked, interp.tracts_labelled, interp.read_reference
+        probability_ax,
+        beds,
+        tracts,
+        checked,
+        interp.tracts_labelled,
+        interp.read_reference,
+        interp.names_unsure,
     )
     pick_lines = _surface_track(surface_ax, interp, curves, step, drawn)
     for ax in (facies_ax, tract_ax):  # one collection of dashed lines across each column
