@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from faciesseq.hmm.reference import REFERENCE
+from faciesseq.hmm.reference_check import unsure
 from faciesseq.hmm.states import SHORT_VISIT
 from faciesseq.markov.seriation import SUGGESTED
 
@@ -148,8 +149,6 @@ def reference_check_caution(model) -> str | None:
     read 0.66 / 0.71 against 0.39 / 0.40 without (``python benchmarks/eval_reference.py
     --seeds 651,652,653``; benchmarks/tract_model.md, "Checking the reference against the
     database's own fit")."""
-    from faciesseq.hmm.reference_check import unsure
-
     record = getattr(model, "reference_check_", None)
     if not unsure(record):
         return None

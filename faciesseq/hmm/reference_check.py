@@ -31,6 +31,7 @@ __all__ = [
     "UNSURE_BELOW",
     "agreement",
     "check_reference",
+    "recorded_share",
     "unsure",
     "unsure_note",
 ]
@@ -72,11 +73,17 @@ def check_reference(with_reference, without, successions) -> dict:
     }
 
 
-def unsure(record: dict | None) -> bool:
-    """Whether a check's record (:func:`check_reference`; a model file's, which may be
-    damaged) says the tract names are unsure."""
+def recorded_share(record: dict | None) -> float | None:
+    """The share of agreement a check's record (:func:`check_reference`; a model
+    file's, which may be damaged) holds, or None where it holds no finite number."""
     share = record.get("agreement") if isinstance(record, dict) else None
-    return isinstance(share, int | float) and bool(np.isfinite(share)) and share < UNSURE_BELOW
+    return float(share) if isinstance(share, int | float) and np.isfinite(share) else None
+
+
+def unsure(record: dict | None) -> bool:
+    """Whether a check's record says the tract names are unsure."""
+    share = recorded_share(record)
+    return share is not None and share < UNSURE_BELOW
 
 
 def unsure_note(record: dict | None) -> str | None:

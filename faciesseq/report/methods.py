@@ -231,13 +231,16 @@ REFERENCE_TEXT = (
 def _reference_check_text(model: Any) -> str | None:
     """What the check of a reference measured and kept (``reference_use="check"``,
     :mod:`faciesseq.hmm.reference_check`), or None for a fit that made none."""
+    from faciesseq.hmm.reference_check import recorded_share
+
     record = getattr(model, "reference_check_", None)
-    if not isinstance(record, dict) or not isinstance(record.get("agreement"), int | float):
+    share = recorded_share(record)
+    if share is None:
         return None
     kept = "reading the reference" if record.get("kept") == "reference" else "without it"
     return (
         "The reference was checked against the same fit without it: the two tract columns "
-        f"of these cores gave one tract to {record['agreement']:.2f} of the thickness, and "
+        f"of these cores gave one tract to {share:.2f} of the thickness, and "
         f"the fit {kept} was kept (the reference's is kept below a third; below a half the "
         "tract names are unsure; docs/hmm.md, 'Checking a reference')."
     )
