@@ -194,8 +194,11 @@ def check_numbers(args: argparse.Namespace) -> None:
         raise ConfigError(f"--restarts must be at most {MAX_RESTARTS:,}, got {args.restarts}")
 
 
-def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_model: bool):
-    """Run the job and write the folder; return the folder (shared by ``demo``)."""
+def make(
+    args: argparse.Namespace, cores, scheme, output, force: bool, extra_model: bool, model=None
+):
+    """Run the job and write the folder; return the folder (shared by ``demo``);
+    ``model``: the model file of ``--model`` where the caller has read it already."""
     import json
 
     from faciesseq.cli._common import require_file
@@ -205,12 +208,11 @@ def make(args: argparse.Namespace, cores, scheme, output, force: bool, extra_mod
     from faciesseq.report.provenance import provenance
     from faciesseq.scheme import default_tract_model, load_tract_model
 
-    model = None
     if args.model:
         from faciesseq.cli._common import model_scheme
         from faciesseq.hmm.modelfile import load_model
 
-        model = load_model(require_file(args.model))
+        model = model if model is not None else load_model(require_file(args.model))
         model_scheme(scheme, model, args.scheme)  # the model's own scheme, or a usage error
     if args.tract_model:
         tract_model = load_tract_model(require_file(args.tract_model))
@@ -285,10 +287,11 @@ def run(args: argparse.Namespace) -> int:
     require_file(args.model)
     require_file(args.tract_model)
     scheme = load_scheme_option(args.scheme)
+    model = None
     if args.model:
         from faciesseq.hmm.modelfile import load_model
 
-        model = load_model(args.model)
+        model = load_model(args.model)  # read once: its units, its scheme, then the job's
         read_in_models_units(args, model)
         scheme = model.scheme if scheme is None else scheme
     if scheme is None:
@@ -298,7 +301,7 @@ def run(args: argparse.Namespace) -> int:
         )
     cores = read_source(args, scheme=scheme)
     check_grid_size(cores, args.unit, args.step)
-    out, _ = make(args, cores, scheme, args.output, args.force, extra_model=False)
+    out, _ = make(args, cores, scheme, args.output, args.force, extra_model=False, model=model)
     sys.stdout.write(
         f"appendix: {out / 'appendix.html'}\n"
         f"figures:  {out / 'figures'}\n"
