@@ -106,7 +106,8 @@ def add_model_arguments(parser: argparse.ArgumentParser, select: bool = True) ->
 
 
 def add_reference_arguments(parser: argparse.ArgumentParser) -> None:
-    """``--reference`` and ``--reference-weight`` (fits without labels)."""
+    """``--reference``, ``--reference-weight`` and ``--reference-use`` (fits without
+    labels)."""
     parser.add_argument(
         "--reference",
         metavar="MODEL",
@@ -137,8 +138,8 @@ def add_reference_arguments(parser: argparse.ArgumentParser) -> None:
 def reference_option(args: argparse.Namespace, labelled: bool):
     """The ``--reference`` model file (read once here, before any work, so that a bad
     file stops the command at once; ``"generators"`` for the packaged one), ``None``
-    without it; refused (exit 2) where the fits are ``labelled``
-    and for a weight without a reference or not above 0."""
+    without it; refused (exit 2) where the fits are ``labelled``, for a weight or a use
+    without a reference, and for a weight not above 0."""
     if args.reference is None:
         if args.reference_weight != 1.0:
             raise ConfigError("--reference-weight needs --reference")
