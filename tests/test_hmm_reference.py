@@ -69,6 +69,19 @@ def _renamed(scheme: FaciesScheme) -> tuple[FaciesScheme, dict[str, str]]:
     return FaciesScheme.from_dict(doc), names
 
 
+def _written(tmp_path: Path, table: pd.DataFrame, reference=None) -> tuple[Path, Path, Path]:
+    """``table`` as the command line's source, the scenario's scheme as its YAML file and
+    ``reference`` (where given) as a model file, in ``tmp_path``."""
+    import yaml
+
+    source, scheme, ref = (tmp_path / n for n in ("cores.csv", "scheme.yaml", "reference.json"))
+    table.to_csv(source, index=False)
+    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    if reference is not None:
+        save_model(reference, ref)
+    return source, scheme, ref
+
+
 def test_ranks_are_stretched_onto_the_reference_range():
     ref = np.array([0.0, 1, 2, 3, 10])
     assert np.array_equal(rescaled_ranks(np.array([3.0, 5, 23]), ref), [0, 1, 10])
@@ -145,14 +158,7 @@ def test_a_reference_is_refused_where_it_cannot_be_read(reference, target):
 
 
 def test_the_command_line_refuses_a_reference_it_cannot_read(reference, target, tmp_path):
-    source = tmp_path / "cores.csv"
-    target[[*MINIMAL, "true_tract"]].to_csv(source, index=False)
-    scheme = tmp_path / "scheme.yaml"
-    import yaml
-
-    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
-    ref = tmp_path / "reference.json"
-    save_model(reference, ref)
+    source, scheme, ref = _written(tmp_path, target[[*MINIMAL, "true_tract"]], reference)
     fit = [sys.executable, "-m", "faciesseq", "fit", str(source), "--scheme", str(scheme)]
     cases = [
         (["--reference", str(ref), "--labels", "true_tract", "-o", str(tmp_path / "m.json")], 2),
@@ -176,12 +182,7 @@ def test_the_packaged_reference_is_read_by_name(target, tmp_path):
 
     packaged = bundled_reference()
     assert "stacking" in packaged.features_ and packaged.ranks_.max() == 10
-    source = tmp_path / "cores.csv"
-    target[MINIMAL].to_csv(source, index=False)
-    import yaml
-
-    scheme = tmp_path / "scheme.yaml"
-    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
+    source, scheme, _ = _written(tmp_path, target[MINIMAL])
     out = tmp_path / "m.json"
     p = subprocess.run(
         [
@@ -213,14 +214,8 @@ def test_validate_measures_a_reference_on_labelled_cores(reference, target, tmp_
     measures, before using it on uninterpreted ones, what a reference gives."""
     import json
 
-    import yaml
-
-    source = tmp_path / "cores.csv"
-    stacking_table(SCENARIO, [3, 4])[[*MINIMAL, "true_tract"]].to_csv(source, index=False)
-    scheme = tmp_path / "scheme.yaml"
-    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
-    ref = tmp_path / "reference.json"
-    save_model(reference, ref)
+    table = stacking_table(SCENARIO, [3, 4])[[*MINIMAL, "true_tract"]]
+    source, scheme, ref = _written(tmp_path, table, reference)
     validate = [
         sys.executable,
         "-m",
@@ -296,14 +291,7 @@ def test_a_checked_reference_keeps_the_fit_the_agreement_chooses(
 
 
 def test_the_command_line_says_what_the_check_kept(reference, target, tmp_path):
-    import yaml
-
-    source = tmp_path / "cores.csv"
-    target[MINIMAL].to_csv(source, index=False)
-    scheme = tmp_path / "scheme.yaml"
-    scheme.write_text(yaml.safe_dump(SCENARIO.scheme.to_dict()))
-    ref = tmp_path / "reference.json"
-    save_model(reference, ref)
+    source, scheme, ref = _written(tmp_path, target[MINIMAL], reference)
     fit = [sys.executable, "-m", "faciesseq", "fit", str(source), "--scheme", str(scheme)]
     fit += ["--reference", str(ref), "--reference-use", "check", "--restarts", "1"]
     p = subprocess.run(
