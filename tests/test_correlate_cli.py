@@ -122,6 +122,15 @@ def test_section_without_the_datum_kind_is_hung_on_the_core_tops(database, tmp_p
     assert (tmp_path / "corr" / "section-central.png").exists()
 
 
+def test_figure_of_a_section_without_the_datum_kind_says_so(database, tmp_path, capsys):
+    # the figure read "hung on depth", with nothing saying the MFS asked for was missing
+    assert _run(database, tmp_path / "corr", "--datum", "LHB", "--figure-format", "svg") == 0
+    svg = (tmp_path / "corr" / "section-central.svg").read_text(encoding="utf-8")
+    assert "correlated surfaces, hung on the core tops" in svg
+    assert "no correlated LHB surface; hung on the core tops" in svg
+    assert "hung on depth" not in svg
+
+
 def test_datum_of_no_kind_the_model_picks_is_a_usage_error(database, tmp_path, capsys):
     # a misspelt kind hung the section on the core tops with only a warning
     out = tmp_path / "corr"

@@ -312,3 +312,25 @@ def _shifts(corr, section, datum):
 
     hanging = hang_section(corr, section, datum)
     return hanging.shift, hanging.label
+
+
+def test_figure_says_which_wells_share_no_tie():
+    # a section whose neighbours share no surface was drawn as bare columns, with nothing
+    # on the figure saying why no line joins them
+    corr = _partly_untied_correlation()
+    beds = _column_beds({"A": (0.0, 15.0), "B": (0.0, 16.0), "C": (0.0, 15.0), "D": (2.0, 14.0)})
+    with figure_style():
+        fig = section_plot(corr, "dip", beds, datum="MFS", tract_order=TRACTS)
+    texts = [t.get_text() for t in fig.texts]
+    assert "no tie between C and D: their columns are drawn unjoined" in texts
+    # three note lines and the caption: none overlaps another or the axes
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    boxes = [t.get_window_extent(renderer) for t in fig.texts]
+    boxes.append(fig.axes[0].get_tightbbox(renderer))
+    for i, one in enumerate(boxes):
+        for other in boxes[i + 1 :]:
+            assert not one.overlaps(other)

@@ -173,6 +173,7 @@ def run(args: argparse.Namespace) -> int:
                 tract_order=tuple(interp.tracts),
                 surface_order=tuple(interp.surfaces),
                 hanging=hanging,
+                datum_note=note or "",
             )
         if args.view:
             _write_view(temp / "section.html", corr, tracts, interp, args, wells, scheme_cores)

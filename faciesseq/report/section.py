@@ -86,9 +86,20 @@ def section_heading(section: str) -> str:
 
 def section_title(section: str, datum: str) -> str:
     """The figure's title: the section's name where the wells table names sections."""
+    hung = "the core tops" if datum == "depth" else datum
     if str(section) == DEFAULT_SECTION:
-        return f"Correlated surfaces, hung on {datum}"
-    return f"Section {section}: correlated surfaces, hung on {datum}"
+        return f"Correlated surfaces, hung on {hung}"
+    return f"Section {section}: correlated surfaces, hung on {hung}"
+
+
+def untied_note(correlation, section: str) -> str:
+    """One line naming the neighbouring wells of ``section`` that share no tied surface,
+    or ``""``: the figure draws no line between them."""
+    untied = correlation.untied_pairs[correlation.untied_pairs["section"] == section]
+    if untied.empty:
+        return ""
+    pairs = ", ".join(f"{a} and {b}" for a, b in zip(untied["core_left"], untied["core_right"]))
+    return f"no tie between {pairs}: their columns are drawn unjoined"
 
 
 #: The datums that hang a section on no surface (:func:`hang_section`).
@@ -607,9 +618,9 @@ def draw_section(
         section = sections[0]
     elif section not in sections:
         raise ConfigError(f"no section {section!r}; the sections are {', '.join(sections)}")
-    datum, note = hanging_datum(correlation, section, datum)
-    if note:
-        warnings.warn(note, stacklevel=2)
+    datum, datum_note = hanging_datum(correlation, section, datum)
+    if datum_note:
+        warnings.warn(datum_note, stacklevel=2)
     tracts = interpretation.tracts_table()
     hanging = hang_section(correlation, section, datum, tracts)
     for line in hanging.notes:
@@ -626,6 +637,7 @@ def draw_section(
         tract_order=tuple(interpretation.tracts),
         surface_order=tuple(interpretation.surfaces),
         hanging=hanging,
+        datum_note=datum_note or "",
     )
 
 
@@ -640,6 +652,7 @@ def section_plot(
     surface_order: tuple[str, ...] = (),
     *,
     hanging: Hanging | None = None,
+    datum_note: str = "",
 ):
     """One section as a matplotlib figure (call inside :func:`figure_style`).
 
@@ -664,12 +677,21 @@ def section_plot(
     hanging
         The section already hung, ``hang_section(correlation, section, datum, tracts)``,
         by a caller that has read its notes; hung here where ``None``.
+    datum_note
+        The warning of :func:`hanging_datum` where the datum asked for fell back to the
+        core tops, drawn under the section with the wells left unjoined
+        (:func:`untied_note`) and the hanging's notes.
     """
     wells, hanging = _section_wells(correlation, section, tracts, datum, hanging)
     ties = correlation.ties[correlation.ties["section"] == section]
     order = tract_order or tuple(dict.fromkeys(tracts["tract"].astype(str)))
+    notes = [datum_note.removeprefix(section_prefix(section)), *hanging.notes]
+    notes = [line for line in (*notes, untied_note(correlation, section)) if line]
+    # one line fits between the axis label and the caption (two lines when wrapped);
+    # more raise the axes
+    extra = 0.025 * max(0, len(notes) - 1)
     fig = new_figure(PAGE_WIDTH, 5.2)
-    ax = fig.add_axes((0.09, 0.2, 0.7, 0.72))
+    ax = fig.add_axes((0.09, 0.2 + extra, 0.7, 0.72 - extra))
     _tract_fills(ax, wells, ties, order)
     _tie_lines(ax, wells, ties)
     _tract_columns(ax, wells, order)
@@ -692,8 +714,8 @@ def section_plot(
     ax.set_title(section_title(section, datum), parse_math=False)
     _section_legend(ax, surface_legend_order(correlation, section, surface_order), order)
     fig.text(0.09, 0.04, CAPTION, fontsize=6.5, wrap=True, color="0.25")
-    for k, line in enumerate(hanging.notes):
-        fig.text(0.09, 0.09 - 0.025 * k, line, fontsize=6.5)
+    for k, line in enumerate(notes):
+        fig.text(0.09, 0.095 + extra - 0.025 * k, line, fontsize=6.5)
     return fig
 
 
