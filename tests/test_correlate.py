@@ -149,6 +149,25 @@ def test_well_without_core_and_core_without_well_are_warnings():
     assert any("row 3" in str(p) and "'Z'" in str(p) for p in problems)
 
 
+def test_a_well_spelt_otherwise_than_its_core_names_the_core():
+    # a well table written by hand often spells a well otherwise than the core
+    # database (case, spaces, hyphens); the warnings say which name was meant
+    wells = wells_from_frame(
+        pd.DataFrame({"core": ["qb 01", "B", "C"], "x_km": [1, 2, 3]}), "w.csv"
+    )
+    kept, problems = check_wells(wells, ["QB-01", "B", "C"])
+    text = {p.kind: str(p) for p in problems}
+    assert (
+        "well 'qb 01' has no core in the source ('QB-01' differs only in spelling)"
+        in text["well-without-core"]
+    )
+    assert (
+        "core 'QB-01' has no row in the wells table ('qb 01' differs only"
+        in text["core-without-well"]
+    )
+    assert list(kept.frame["core"]) == ["B", "C"]  # told, not matched
+
+
 def test_one_well_only_is_an_error():
     wells = wells_from_frame(pd.DataFrame({"core": ["A"], "x_km": [1]}), "w.csv")
     with pytest.raises(InputError, match="two wells"):

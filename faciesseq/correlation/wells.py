@@ -409,6 +409,19 @@ def _unmatched(wells: pd.Series, cores: list[str], shown: int = 5) -> str:
     )
 
 
+def _folded(name: str) -> str:
+    """A name without case, spaces, hyphens or underscores: how two spellings of one
+    well are told apart from two wells."""
+    return "".join(ch for ch in str(name).casefold() if ch not in " -_")
+
+
+def _spelt_otherwise(name: str, others: Iterable[str]) -> str:
+    """``"; core 'QB-01' is spelt otherwise"`` where one of ``others`` differs from
+    ``name`` only in case, spaces, hyphens or underscores; else ``""``."""
+    near = [str(o) for o in others if _folded(o) == _folded(name) and str(o) != str(name)]
+    return f" ({', '.join(map(repr, near))} differs only in spelling)" if near else ""
+
+
 def check_wells(
     wells: WellTable, cores: Iterable[str], units: str | None = None
 ) -> tuple[WellTable, list[Problem]]:
@@ -436,7 +449,8 @@ def check_wells(
                 Problem(
                     "warning",
                     "well-without-core",
-                    f"well {row.core!r} has no core in the source; left out",
+                    f"well {row.core!r} has no core in the source"
+                    f"{_spelt_otherwise(row.core, cores)}; left out",
                     file=wells.file,
                     row=int(row.row),
                 )
@@ -448,7 +462,8 @@ def check_wells(
                 Problem(
                     "warning",
                     "core-without-well",
-                    f"core {core!r} has no row in the wells table; left out of the correlation",
+                    f"core {core!r} has no row in the wells table"
+                    f"{_spelt_otherwise(core, listed)}; left out of the correlation",
                     file=wells.file,
                 )
             )
