@@ -255,3 +255,16 @@ def test_interpretations_have_short_reprs(interp):
         f"CoreInterpretation(core='QB-01', beds={len(core.beds)}, "
         f"tracts={list(core.tracts)}, picks={len(core.picks)}, units='m')"
     )
+
+
+def test_tract_model_repr_shows_the_hyper_parameters_set(model):
+    # scikit-learn's habit: the parameters away from their defaults, nothing else
+    assert repr(TractHMM()) == "TractHMM()"
+    grid = TractHMM(scheme=str(SCHEME), unit="grid", step=0.5, prior_strength=2, random_state=3)
+    assert repr(grid) == f"TractHMM(scheme={str(SCHEME)!r}, unit='grid', step=0.5, random_state=3)"
+    # a fitted model's scheme by its name, not every facies field by field
+    assert repr(model) == (
+        "TractHMM(scheme=<FaciesScheme 'wave-dominated shoreface-shelf', 7 facies>, "
+        "n_restarts=1, random_state=0)"
+    )
+
