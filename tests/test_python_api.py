@@ -2,12 +2,16 @@
 what is accepted (no pandas or numpy internals), natural right inputs are accepted,
 and the docs' Python example runs."""
 
+import inspect
 import re
 from pathlib import Path
 
 import pandas as pd
 import pytest
 
+import faciesseq
+import faciesseq.hmm
+import faciesseq.io
 from faciesseq.correlation import correlate, correlate_interpretation, read_wells
 from faciesseq.correlation.wells import wells_from_frame
 from faciesseq.errors import ConfigError
@@ -268,3 +272,43 @@ def test_tract_model_repr_shows_the_hyper_parameters_set(model):
         "n_restarts=1, random_state=0)"
     )
 
+
+# 8. the public names: listed, documented, their documented parameters real
+
+
+def _documented_parameters(doc: str) -> list[str] | None:
+    """The names of a numpydoc ``Parameters`` section (``a, b`` lines count as two,
+    ``**params`` as ``params``)."""
+    found = re.search(r"^Parameters\n-+\n(.*?)(?=^\S[^\n]*\n-+\n|\Z)", doc, flags=re.S | re.M)
+    if found is None:
+        return None
+    heads = [line for line in found.group(1).splitlines() if line and not line[0].isspace()]
+    return [name.strip(" *") for head in heads for name in head.split(" : ")[0].split(",")]
+
+
+def _public_callables():
+    for module in (faciesseq, faciesseq.hmm, faciesseq.io):
+        for name in module.__all__:
+            yield f"{module.__name__}.{name}", getattr(module, name)
+    for name, method in inspect.getmembers(TractHMM, inspect.isfunction):
+        if not name.startswith("_"):
+            yield f"TractHMM.{name}", method
+
+
+def test_public_names_are_listed_by_dir_and_documented():
+    for module in (faciesseq, faciesseq.hmm, faciesseq.io):
+        assert set(module.__all__) <= set(dir(module)), module.__name__
+    undocumented = [name for name, obj in _public_callables() if not inspect.getdoc(obj)]
+    assert undocumented == []
+
+
+def test_documented_parameters_are_those_of_the_signature():
+    wrong = {}
+    for name, obj in _public_callables():
+        documented = _documented_parameters(inspect.getdoc(obj) or "")
+        if documented is None or not callable(obj):
+            continue
+        taken = {p for p in inspect.signature(obj).parameters if p not in ("self", "cls")}
+        if set(documented) != taken:  # in any order: related ones are documented together
+            wrong[name] = (documented, taken)
+    assert wrong == {}
