@@ -15,7 +15,7 @@ import faciesseq.io
 from faciesseq.correlation import correlate, correlate_interpretation, read_wells
 from faciesseq.correlation.wells import wells_from_frame
 from faciesseq.errors import ConfigError
-from faciesseq.hmm import TractHMM
+from faciesseq.hmm import TractHMM, load_model, save_model
 from faciesseq.io import read_cores
 from faciesseq.markov import analyse
 from faciesseq.report.appendix import write_appendix
@@ -312,3 +312,16 @@ def test_documented_parameters_are_those_of_the_signature():
         if set(documented) != taken:  # in any order: related ones are documented together
             wrong[name] = (documented, taken)
     assert wrong == {}
+
+
+# 9. a saved model read back has the fitted attributes the estimator documents
+
+
+def test_a_loaded_model_keeps_the_evidence_weights_of_its_fit(cores, model, tmp_path):
+    unlabelled = TractHMM(scheme=SCHEME, n_restarts=1, random_state=0)
+    unlabelled.fit(cores.subset(cores.names[:5]))
+    for fitted in (unlabelled, model):  # weighted (stacking context), and with labels: none
+        save_model(fitted, tmp_path / "model.json")
+        loaded = load_model(tmp_path / "model.json")
+        assert loaded.evidence_weights_ == fitted.evidence_weights_
+    assert unlabelled.evidence_weights_ and model.evidence_weights_ == {}
