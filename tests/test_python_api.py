@@ -2,16 +2,20 @@
 what is accepted (no pandas or numpy internals), natural right inputs are accepted,
 and the docs' Python example runs."""
 
+import inspect
 import re
 from pathlib import Path
 
 import pandas as pd
 import pytest
 
+import faciesseq
+import faciesseq.hmm
+import faciesseq.io
 from faciesseq.correlation import correlate, correlate_interpretation, read_wells
 from faciesseq.correlation.wells import wells_from_frame
 from faciesseq.errors import ConfigError
-from faciesseq.hmm import TractHMM
+from faciesseq.hmm import TractHMM, load_model, save_model
 from faciesseq.io import read_cores
 from faciesseq.markov import analyse
 from faciesseq.report.appendix import write_appendix
@@ -255,3 +259,69 @@ def test_interpretations_have_short_reprs(interp):
         f"CoreInterpretation(core='QB-01', beds={len(core.beds)}, "
         f"tracts={list(core.tracts)}, picks={len(core.picks)}, units='m')"
     )
+
+
+def test_tract_model_repr_shows_the_hyper_parameters_set(model):
+    # scikit-learn's habit: the parameters away from their defaults, nothing else
+    assert repr(TractHMM()) == "TractHMM()"
+    grid = TractHMM(scheme=str(SCHEME), unit="grid", step=0.5, prior_strength=2, random_state=3)
+    assert repr(grid) == f"TractHMM(scheme={str(SCHEME)!r}, unit='grid', step=0.5, random_state=3)"
+    # a fitted model's scheme by its name, not every facies field by field
+    assert repr(model) == (
+        "TractHMM(scheme=<FaciesScheme 'wave-dominated shoreface-shelf', 7 facies>, "
+        "n_restarts=1, random_state=0)"
+    )
+
+
+# 8. the public names: listed, documented, their documented parameters real
+
+
+def _documented_parameters(doc: str) -> list[str] | None:
+    """The names of a numpydoc ``Parameters`` section (``a, b`` lines count as two,
+    ``**params`` as ``params``)."""
+    found = re.search(r"^Parameters\n-+\n(.*?)(?=^\S[^\n]*\n-+\n|\Z)", doc, flags=re.S | re.M)
+    if found is None:
+        return None
+    heads = [line for line in found.group(1).splitlines() if line and not line[0].isspace()]
+    return [name.strip(" *") for head in heads for name in head.split(" : ")[0].split(",")]
+
+
+def _public_callables():
+    for module in (faciesseq, faciesseq.hmm, faciesseq.io):
+        for name in module.__all__:
+            yield f"{module.__name__}.{name}", getattr(module, name)
+    for name, method in inspect.getmembers(TractHMM, inspect.isfunction):
+        if not name.startswith("_"):
+            yield f"TractHMM.{name}", method
+
+
+def test_public_names_are_listed_by_dir_and_documented():
+    for module in (faciesseq, faciesseq.hmm, faciesseq.io):
+        assert set(module.__all__) <= set(dir(module)), module.__name__
+    undocumented = [name for name, obj in _public_callables() if not inspect.getdoc(obj)]
+    assert undocumented == []
+
+
+def test_documented_parameters_are_those_of_the_signature():
+    wrong = {}
+    for name, obj in _public_callables():
+        documented = _documented_parameters(inspect.getdoc(obj) or "")
+        if documented is None or not callable(obj):
+            continue
+        taken = {p for p in inspect.signature(obj).parameters if p not in ("self", "cls")}
+        if set(documented) != taken:  # in any order: related ones are documented together
+            wrong[name] = (documented, taken)
+    assert wrong == {}
+
+
+# 9. a saved model read back has the fitted attributes the estimator documents
+
+
+def test_a_loaded_model_keeps_the_evidence_weights_of_its_fit(cores, model, tmp_path):
+    unlabelled = TractHMM(scheme=SCHEME, n_restarts=1, random_state=0)
+    unlabelled.fit(cores.subset(cores.names[:5]))
+    for fitted in (unlabelled, model):  # weighted (stacking context), and with labels: none
+        save_model(fitted, tmp_path / "model.json")
+        loaded = load_model(tmp_path / "model.json")
+        assert loaded.evidence_weights_ == fitted.evidence_weights_
+    assert unlabelled.evidence_weights_ and model.evidence_weights_ == {}

@@ -42,3 +42,7 @@ def __getattr__(name: str) -> Any:
     if module is None:
         raise AttributeError(f"module 'faciesseq.hmm' has no attribute {name!r}")
     return getattr(importlib.import_module(module), name)
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

@@ -1007,6 +1007,13 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         return {k: getattr(self, k) for k in keys}
 
     def set_params(self, **params: Any) -> TractHMM:
+        """Set hyper-parameters by name (scikit-learn convention); an unknown name is a
+        :class:`~faciesseq.errors.ConfigError`.
+
+        Returns
+        -------
+        self
+        """
         valid = self.get_params()
         for k, v in params.items():
             if k not in valid:
@@ -1015,8 +1022,35 @@ class TractHMM(Restarts, ExpectationMaximisation, Decoding):
         return self
 
     def __repr__(self) -> str:
-        return (
-            f"TractHMM(features={self.features!r}, substates={self.substates!r}, "
-            f"prior_strength={self.prior_strength!r}, n_restarts={self.n_restarts!r}, "
-            f"random_state={self.random_state!r})"
-        )
+        """The hyper-parameters set away from their defaults, as scikit-learn shows
+        them; a scheme or tract model by its name."""
+        import inspect
+
+        defaults = inspect.signature(type(self).__init__).parameters
+        shown = [
+            f"{k}={_short_repr(v)}"
+            for k, v in self.get_params().items()
+            if not _is_default(v, defaults[k].default)
+        ]
+        return f"TractHMM({', '.join(shown)})"
+
+
+def _is_default(value: Any, default: Any) -> bool:
+    """Whether a hyper-parameter holds its default (numbers by value, ``2`` for ``2.0``)."""
+    if value is default:
+        return True
+    if isinstance(value, bool) or isinstance(default, bool):
+        return False
+    if isinstance(value, numbers.Real) and isinstance(default, numbers.Real):
+        return value == default
+    return isinstance(value, str) and value == default
+
+
+def _short_repr(value: Any) -> str:
+    """A hyper-parameter as :meth:`TractHMM.__repr__` shows it: a scheme or tract model
+    by its name and size, not every facies and tract field by field."""
+    if isinstance(value, FaciesScheme):
+        return f"<FaciesScheme {value.name!r}, {len(value)} facies>"
+    if isinstance(value, TractModel):
+        return f"<TractModel {value.name!r}: {', '.join(value.order)}>"
+    return repr(value)

@@ -285,6 +285,8 @@ def model_from_dict(doc: Any, source: str = "model file") -> TractHMM:
     model.restarts_ = list(training.get("restarts") or [])
     model.graph_selection_ = list(training.get("graph_selection") or [])
     model.weights_rejected_ = training.get("evidence_weights_rejected")
+    rejected = model.weights_rejected_
+    model.evidence_weights_ = _evidence_weights(pieces, model.weigh_evidence, rejected)
     model.nested_start_ = training.get("nested_start")
     model.reference_check_ = training.get("reference_check")
     model.units_ = training.get("units")  # None in files made before: no conversion
@@ -390,6 +392,14 @@ def _features(hyper: Mapping, source: str) -> tuple[str, ...]:
             file=source,
         )
     return tuple(features)
+
+
+def _evidence_weights(pieces: list, weighed: bool, rejected: Mapping | None) -> dict[str, float]:
+    """The fit's ``evidence_weights_``, from the weights its context pieces carry: none
+    where the fit counted every bed in full (not asked for, or refitted without them)."""
+    if not weighed or (rejected or {}).get("refitted_with") == "no weights":
+        return {}
+    return {p.feature: p.weight for p in pieces if p.kind == "context"}
 
 
 def _chain(params: Mapping, states: StateSpace, source: str) -> tuple[np.ndarray, np.ndarray]:

@@ -651,6 +651,8 @@ def build_appendix(
         a data file of section 3.
     unit
         ``"beds"`` or ``"grid"``: how successions were formed (methods text).
+    title
+        The document's title (HTML, LaTeX and ``appendix.json``).
 
     Returns
     -------
@@ -741,6 +743,9 @@ def write_appendix(
         The folder to create. If it exists, ``force=True`` replaces it;
         otherwise :class:`~faciesseq.errors.ConfigError` is raised before
         anything is written.
+    force
+        Replace ``out_dir`` where it exists (swapped in whole: no file of the
+        earlier folder remains).
     dpi
         Resolution of the PNG figures (embedded in the HTML and written to
         ``figures/``).
