@@ -1146,6 +1146,7 @@ def _check_decoded(sheet: pd.DataFrame, record: dict, same_rows: bool, file: str
                 row=int(row.iat[0]) if len(row) else None,
                 core=core or None,
                 depth=top,
+                units=record.get("units"),  # the sheet's depths are in its decode's units
             )
     elif same_rows and _column_digest(sheet, "decoded_tract") != record.get("decoded"):
         raise InputError(_wrong_column(), file=file)

@@ -425,7 +425,9 @@ def test_an_edit_of_the_decoded_column_is_refused_naming_the_column_to_edit(work
     lines = [x for x in err.splitlines() if not x.startswith("faciesseq relabel: units:")]
     assert code == 1 and len(lines) == 1 and not out.exists()
     assert "wrong.csv, data row 5, core " in lines[0]  # the first row edited
-    assert ": decoded_tract is not what decode wrote (it reads " in lines[0]
+    # the depth in the sheet's units, as every other error of relabel gives it ("depth 7.31")
+    top = sheet.at[4, "top"]
+    assert f", depth {top:.2f} m: decoded_tract is not what decode wrote (it reads " in lines[0]
     assert "write the geologist's tracts in geologist_tract" in lines[0]
 
 
