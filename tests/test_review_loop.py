@@ -675,3 +675,22 @@ def test_a_review_of_one_new_core_says_the_fit_would_leave_the_training_cores_ou
     )
     assert code == 0, err
     assert "not in this table" not in stdout
+
+
+def test_keep_labels_on_a_boundary_the_fitted_graph_forbids_says_to_refit(work, tmp_path, capsys):
+    # the warning said "add a skip in the tract model to allow it", a fit's remedy: at
+    # decode the tract model is the model file's fitted graph, and a model fitted with
+    # these labels (fit --labels) takes a graph that allows what they hold
+    cores = pd.read_csv(work / "cores.csv")
+    core = cores["core"].iat[0]
+    rows = np.flatnonzero(cores["core"] == core)[:2]  # depth order: the upper bed first
+    cores["tract"] = None
+    cores.loc[rows, "tract"] = ["LST", "TST"]  # upward TST -> LST: HST cannot be skipped
+    source = tmp_path / "labelled.csv"
+    cores.to_csv(source, index=False)
+    argv = ["decode", work / "model.json", source, "--keep-labels", "-o", tmp_path / "out"]
+    code, _, err = _run(capsys, argv)
+    assert code == 0, err
+    (line,) = [x for x in err.splitlines() if "TST -> LST" in x]
+    assert f"core {core}, depth " in line and "add a skip" not in line
+    assert "a model fitted with these labels (fit --labels) allows" in line

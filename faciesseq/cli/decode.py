@@ -870,10 +870,10 @@ def _kept_labels(successions, model, column: str) -> list[list[str | None]]:
     holds are handed to the decode as labels, which clamps them again, and no more."""
     import numpy as np
 
-    from faciesseq.hmm.labels import clamp_from_labels
+    from faciesseq.hmm.labels import DECODE_REMEDY, clamp_from_labels
     from faciesseq.review import CLAMPED
 
-    clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_)
+    clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_, DECODE_REMEDY)
     held = clamp.sum(axis=1) == 1
     tracts = np.asarray(model.tract_model_.order, dtype=object)
     label = np.where(held, tracts[np.argmax(clamp, axis=1)], None)
