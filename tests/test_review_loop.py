@@ -694,3 +694,26 @@ def test_keep_labels_on_a_boundary_the_fitted_graph_forbids_says_to_refit(work, 
     (line,) = [x for x in err.splitlines() if "TST -> LST" in x]
     assert f"core {core}, depth " in line and "add a skip" not in line
     assert "a model fitted with these labels (fit --labels) allows" in line
+
+
+def test_a_sheet_saved_with_semicolons_and_decimal_commas_is_read_as_the_comma_sheet(
+    work, tmp_path, capsys
+):
+    # a spreadsheet program whose decimal mark is a comma saves CSV with semicolons,
+    # decimal commas and a byte-order mark (common practice: Excel in French or German);
+    # relabel said "the sheet lacks column(s) core, top, base, geologist_tract"
+    sheet = _sheet(work)
+    sheet.loc[[3, 8], "geologist_tract"] = ["HST", "tst"]
+    _save(sheet, tmp_path / "comma.csv", work)
+    record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
+    padding = ";" * (len(sheet.columns) - 1)  # the record cell, then empty cells
+    body = sheet.to_csv(index=False, sep=";", decimal=",")
+    assert "0,5" in body or ";0," in body  # the depths are written with decimal commas
+    (tmp_path / "semicolon.csv").write_text(record + padding + "\n" + body, encoding="utf-8-sig")
+    outputs = {}
+    for name in ("comma", "semicolon"):
+        out = tmp_path / f"{name}-labelled.csv"
+        code, _, err = _relabel(capsys, work, tmp_path / f"{name}.csv", out)
+        assert code == 0, err
+        outputs[name] = pd.read_csv(out).drop(columns="label_source")
+    pd.testing.assert_frame_equal(outputs["semicolon"], outputs["comma"])
