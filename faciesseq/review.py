@@ -47,6 +47,7 @@ import pandas as pd
 
 from faciesseq.core import CoreTable
 from faciesseq.errors import InputError
+from faciesseq.io.tabular import decimal_commas, sniff_delimiter
 
 __all__ = [
     "GEOLOGIST",
@@ -577,14 +578,24 @@ def read_sheet(path: str | Path) -> pd.DataFrame:
     if path.suffix.lower() in (".xlsx", ".xlsm"):
         raw, record = _read_xlsx(path)
     else:
-        record = _csv_record(path)
+        delimiter = _csv_delimiter(path)
+        record = _csv_record(path, delimiter)
         try:
             raw = pd.read_csv(
-                path, dtype=str, keep_default_na=False, comment=None, skiprows=int(bool(record))
+                path,
+                sep=delimiter,
+                dtype=str,
+                keep_default_na=False,
+                comment=None,
+                skiprows=int(bool(record)),
+                encoding="utf-8-sig",  # as a spreadsheet program saves "CSV UTF-8"
             )
         except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
             msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
             raise InputError(f"cannot read the sheet as CSV: {msg}", file=path.name) from None
+        if delimiter != ",":  # saved where the decimal mark is a comma: 2,34 for 2.34
+            numbers = [c for c in ("top", "base") if c in raw.columns]
+            raw[numbers] = decimal_commas(raw[numbers].copy())[0]
     raw.columns = [str(c).strip() for c in raw.columns]
     missing = [c for c in REQUIRED if c not in raw.columns]
     if missing:
@@ -612,12 +623,25 @@ def read_sheet(path: str | Path) -> pd.DataFrame:
     return table
 
 
-def _csv_record(path: Path) -> dict[str, str] | None:
+def _csv_delimiter(path: Path) -> str:
+    """The delimiter of a CSV sheet: decode's comma, or the one a spreadsheet program saved
+    it with (a semicolon where the decimal mark is a comma), sniffed below the record."""
+    try:
+        with path.open(newline="", encoding="utf-8-sig") as handle:
+            lines = [line for _, line in zip(range(52), handle)]
+    except (OSError, UnicodeDecodeError):
+        return ","  # read_csv says what is wrong with the file
+    if lines and RECORD_START in lines[0][:40]:
+        lines = lines[1:]
+    return sniff_delimiter("".join(lines), path.suffix.lower()) if lines else ","
+
+
+def _csv_record(path: Path, delimiter: str = ",") -> dict[str, str] | None:
     """The record of a CSV sheet's first line (a spreadsheet program may have quoted
     it or padded it with empty cells), or None."""
     try:
         with path.open(newline="", encoding="utf-8-sig") as handle:
-            first = next(csv.reader(handle), [])
+            first = next(csv.reader(handle, delimiter=delimiter), [])
     except (OSError, UnicodeDecodeError, csv.Error):
         return None  # read_csv says what is wrong with the file
     return parse_record(",".join(c for c in first if c.strip())) if first else None
@@ -1146,6 +1170,7 @@ def _check_decoded(sheet: pd.DataFrame, record: dict, same_rows: bool, file: str
                 row=int(row.iat[0]) if len(row) else None,
                 core=core or None,
                 depth=top,
+                units=record.get("units"),  # the sheet's depths are in its decode's units
             )
     elif same_rows and _column_digest(sheet, "decoded_tract") != record.get("decoded"):
         raise InputError(_wrong_column(), file=file)

@@ -425,7 +425,9 @@ def test_an_edit_of_the_decoded_column_is_refused_naming_the_column_to_edit(work
     lines = [x for x in err.splitlines() if not x.startswith("faciesseq relabel: units:")]
     assert code == 1 and len(lines) == 1 and not out.exists()
     assert "wrong.csv, data row 5, core " in lines[0]  # the first row edited
-    assert ": decoded_tract is not what decode wrote (it reads " in lines[0]
+    # the depth in the sheet's units, as every other error of relabel gives it ("depth 7.31")
+    top = sheet.at[4, "top"]
+    assert f", depth {top:.2f} m: decoded_tract is not what decode wrote (it reads " in lines[0]
     assert "write the geologist's tracts in geologist_tract" in lines[0]
 
 
@@ -673,3 +675,45 @@ def test_a_review_of_one_new_core_says_the_fit_would_leave_the_training_cores_ou
     )
     assert code == 0, err
     assert "not in this table" not in stdout
+
+
+def test_keep_labels_on_a_boundary_the_fitted_graph_forbids_says_to_refit(work, tmp_path, capsys):
+    # the warning said "add a skip in the tract model to allow it", a fit's remedy: at
+    # decode the tract model is the model file's fitted graph, and a model fitted with
+    # these labels (fit --labels) takes a graph that allows what they hold
+    cores = pd.read_csv(work / "cores.csv")
+    core = cores["core"].iat[0]
+    rows = np.flatnonzero(cores["core"] == core)[:2]  # depth order: the upper bed first
+    cores["tract"] = None
+    cores.loc[rows, "tract"] = ["LST", "TST"]  # upward TST -> LST: HST cannot be skipped
+    source = tmp_path / "labelled.csv"
+    cores.to_csv(source, index=False)
+    argv = ["decode", work / "model.json", source, "--keep-labels", "-o", tmp_path / "out"]
+    code, _, err = _run(capsys, argv)
+    assert code == 0, err
+    (line,) = [x for x in err.splitlines() if "TST -> LST" in x]
+    assert f"core {core}, depth " in line and "add a skip" not in line
+    assert "a model fitted with these labels (fit --labels) allows" in line
+
+
+def test_a_sheet_saved_with_semicolons_and_decimal_commas_is_read_as_the_comma_sheet(
+    work, tmp_path, capsys
+):
+    # a spreadsheet program whose decimal mark is a comma saves CSV with semicolons,
+    # decimal commas and a byte-order mark (common practice: Excel in French or German);
+    # relabel said "the sheet lacks column(s) core, top, base, geologist_tract"
+    sheet = _sheet(work)
+    sheet.loc[[3, 8], "geologist_tract"] = ["HST", "tst"]
+    _save(sheet, tmp_path / "comma.csv", work)
+    record = (work / "decoded" / "sheet.csv").read_text().split("\n", 1)[0]
+    padding = ";" * (len(sheet.columns) - 1)  # the record cell, then empty cells
+    body = sheet.to_csv(index=False, sep=";", decimal=",")
+    assert "0,5" in body or ";0," in body  # the depths are written with decimal commas
+    (tmp_path / "semicolon.csv").write_text(record + padding + "\n" + body, encoding="utf-8-sig")
+    outputs = {}
+    for name in ("comma", "semicolon"):
+        out = tmp_path / f"{name}-labelled.csv"
+        code, _, err = _relabel(capsys, work, tmp_path / f"{name}.csv", out)
+        assert code == 0, err
+        outputs[name] = pd.read_csv(out).drop(columns="label_source")
+    pd.testing.assert_frame_equal(outputs["semicolon"], outputs["comma"])

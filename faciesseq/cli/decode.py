@@ -588,23 +588,31 @@ def _facies_ids(cores):
     return pd.factorize(np.asarray(cores.column("facies")))
 
 
+def _one_form(name: str) -> str:
+    """``name`` in Unicode's composed form (NFC), as two spellings of one name compare."""
+    import unicodedata
+
+    return unicodedata.normalize("NFC", name)
+
+
 class _Chosen:
     """The cores of ``--core`` (every core where it is not given), taken from each core
     set or batch of whole cores read; :meth:`check` refuses the names none held."""
 
     def __init__(self, args: argparse.Namespace) -> None:
         self.source = args.source
-        self.wanted = dict.fromkeys(args.core or ())
+        # an accented name typed in the other Unicode form than the source's is the same name
+        self.wanted = dict.fromkeys(_one_form(n) for n in args.core or ())
         self.seen: list[str] = []  # every core read, to list beside a name not found
 
     def __call__(self, cores):
         if not self.wanted:
             return cores
         self.seen += cores.names
-        return cores.subset([n for n in cores.names if n in self.wanted])
+        return cores.subset([n for n in cores.names if _one_form(n) in self.wanted])
 
     def check(self) -> None:
-        seen = set(self.seen)
+        seen = {_one_form(n) for n in self.seen}
         missing = [n for n in self.wanted if n not in seen]
         if missing:
             shown = ", ".join(self.seen[:10]) + (" ..." if len(self.seen) > 10 else "")
@@ -862,10 +870,10 @@ def _kept_labels(successions, model, column: str) -> list[list[str | None]]:
     holds are handed to the decode as labels, which clamps them again, and no more."""
     import numpy as np
 
-    from faciesseq.hmm.labels import clamp_from_labels
+    from faciesseq.hmm.labels import DECODE_REMEDY, clamp_from_labels
     from faciesseq.review import CLAMPED
 
-    clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_)
+    clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_, DECODE_REMEDY)
     held = clamp.sum(axis=1) == 1
     tracts = np.asarray(model.tract_model_.order, dtype=object)
     label = np.where(held, tracts[np.argmax(clamp, axis=1)], None)

@@ -227,8 +227,20 @@ def forbidden_text(record: dict) -> str:
     return "; ".join(shown) + ("; ..." if more else "")
 
 
+#: What to do about a labelled boundary the tract graph forbids: in a fit, whose graph is
+#: the tract model's; in a decode, whose graph is the one the model was fitted with.
+FIT_REMEDY = "add a skip in the tract model to allow it"
+DECODE_REMEDY = (
+    "the model's tract graph is the one it was fitted with; a model fitted with these "
+    "labels (fit --labels) allows what they hold"
+)
+
+
 def clamp_from_labels(
-    successions: Sequence[Succession], labels: Any, tract_model: TractModel
+    successions: Sequence[Succession],
+    labels: Any,
+    tract_model: TractModel,
+    remedy: str = FIT_REMEDY,
 ) -> tuple[np.ndarray, int]:
     """Clamp mask ``(beds, n_tracts)`` of the labels under ``tract_model`` (True
     where a bed may be in a tract: every tract for an unlabelled bed), and the
@@ -236,14 +248,16 @@ def clamp_from_labels(
 
     A label that is not a tract of the model is an error naming the core and the
     depth; a labelled boundary the model's order and skips do not allow frees
-    both beds, with a :class:`LabelWarning`.
+    both beds, with a :class:`LabelWarning` ending in ``remedy`` (in brackets):
+    what a fit does about it by default, :data:`DECODE_REMEDY` where the graph is a
+    fitted model's.
     """
     tracts = list(tract_model.order)
     allowed = np.asarray(tract_model.allowed(), dtype=bool)
     rows = []
     n_labelled = 0
     for s, values in label_values(successions, labels):
-        mask, n = _clamp_succession(s, values, tracts, allowed)
+        mask, n = _clamp_succession(s, values, tracts, allowed, remedy)
         rows.append(mask)
         n_labelled += n
     clamp = np.concatenate(rows) if rows else np.ones((0, len(tracts)), dtype=bool)
@@ -251,7 +265,7 @@ def clamp_from_labels(
 
 
 def _clamp_succession(
-    s: Succession, values: list[str | None], tracts: list[str], allowed: np.ndarray
+    s: Succession, values: list[str | None], tracts: list[str], allowed: np.ndarray, remedy: str
 ) -> tuple[np.ndarray, int]:
     mask = np.ones((len(s), len(tracts)), dtype=bool)
     prev = None
@@ -271,7 +285,7 @@ def _clamp_succession(
         if prev is not None and not allowed[prev, a]:
             # Tolerant, never silent: an interpreter's column may skip a tract
             # too thin to log; free both beds and say so.
-            _warn_forbidden(s, i, tracts[prev], v)
+            _warn_forbidden(s, i, tracts[prev], v, remedy)
             if not mask[i - 1].all():
                 n_labelled -= 1
             mask[i - 1] = True
@@ -284,7 +298,7 @@ def _clamp_succession(
     return mask, n_labelled
 
 
-def _warn_forbidden(s: Succession, i: int, below: str, above: str) -> None:
+def _warn_forbidden(s: Succession, i: int, below: str, above: str, remedy: str) -> None:
     where = f"core {s.core}"
     if "base" in s.beds:
         where += f", depth {float(s.beds['base'].iloc[i]):.2f} {s.units}"
@@ -292,7 +306,7 @@ def _warn_forbidden(s: Succession, i: int, below: str, above: str) -> None:
         LabelWarning(
             f"{where}: labelled boundary {below} -> {above} (upward) is not "
             "allowed by the tract model's order and skips; the two beds are "
-            "left unlabelled (add a skip in the tract model to allow it)"
+            f"left unlabelled ({remedy})"
         ),
         stacklevel=6,  # the fit (or decode) that read the labels
     )

@@ -23,7 +23,15 @@ from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.plaincsv import read_plain
 from faciesseq.io.raw import NUMBER_NA_WORDS, RawTable, check_header, check_width
 
-__all__ = ["TEXT_SUFFIXES", "decode_text", "read_delimited", "read_excel", "read_parquet"]
+__all__ = [
+    "TEXT_SUFFIXES",
+    "decimal_commas",
+    "decode_text",
+    "read_delimited",
+    "read_excel",
+    "read_parquet",
+    "sniff_delimiter",
+]
 
 TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
 _DELIMITERS = ",;\t|"
@@ -210,7 +218,9 @@ def _western(data: bytes) -> str | None:
     return None
 
 
-def _sniff(text: str, suffix: str) -> str:
+def sniff_delimiter(text: str, suffix: str) -> str:
+    """The delimiter of delimited ``text`` (comma, semicolon, tab, ``|``), from its first
+    50 lines; a tab for a ``.tsv`` or ``.tab`` file."""
     if suffix in (".tsv", ".tab"):
         return "\t"
     size = 1 << 16  # the first 50 lines, without splitting the whole text
@@ -246,7 +256,7 @@ def read_delimited(path: Path, encoding: str | None = None) -> RawTable:
     else:
         frame, delimiter = frame
     if delimiter != ",":
-        frame, converted = _decimal_commas(frame)
+        frame, converted = decimal_commas(frame)
         if converted:
             problems.append(
                 Problem(
@@ -279,7 +289,7 @@ def plain_header(path: Path) -> tuple[str, list[str]] | None:
         return None
     if not head.strip():
         return None
-    delimiter = _sniff(head, path.suffix.lower())
+    delimiter = sniff_delimiter(head, path.suffix.lower())
     names = [n.strip() for n in head.splitlines()[0].split(delimiter)]
     check_width(len(names), str(path))
     if "" in names or len(set(names)) < len(names) or any('"' in n for n in names):
@@ -299,7 +309,7 @@ def _read_plain(path: Path) -> tuple[pd.DataFrame, str] | None:
 
 
 def _head(path: Path) -> str:
-    """The start of a text file, enough for :func:`_sniff` (more than 50 lines, or all)."""
+    """The start of a text file, enough for :func:`sniff_delimiter` (more than 50 lines, or all)."""
     head = ""
     with path.open("r", encoding="utf-8", newline="") as stream:
         while part := stream.read(1 << 16):
@@ -320,7 +330,7 @@ def _read_text(path: Path, encoding: str | None) -> tuple[pd.DataFrame, list[Pro
     text, problems = decode_text(data, file, encoding)
     if not text.strip():
         raise InputError("file is empty", file=file)
-    delimiter = _sniff(text, path.suffix.lower())
+    delimiter = sniff_delimiter(text, path.suffix.lower())
     # the header as written: pandas renames a repeated name (facies, facies.1)
     check_header(next(csv.reader([text.partition("\n")[0]], delimiter=delimiter), []), file)
     # NUL bytes: pandas' C parser before 3.0 cut a cell at one, silently; the Python
@@ -400,7 +410,7 @@ def _long_row(path: Path, encoding: str | None, delimiter: str) -> InputError | 
 _DECIMAL_COMMA = r"^[+-]?\d+(,\d+)?$"
 
 
-def _decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
+def decimal_commas(frame: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
     """Columns written with decimal commas (``2793,5``), as European exports are."""
     converted = []
     for col in frame.columns:

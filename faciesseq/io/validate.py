@@ -30,6 +30,7 @@ from __future__ import annotations
 import contextlib
 import math
 import re
+import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from functools import partial
@@ -435,6 +436,7 @@ def _prepare(
         problems += [problem for _, problem in found]
         out[role] = numbers
     problems += _bad_cores(out["core"], table.file, rows, bad)
+    problems += _two_form_cores(out["core"], table.file, rows)
     stated = table.units or match.units
     if table.units and match.units and table.units != match.units:
         raise InputError(
@@ -491,6 +493,39 @@ def _bad_cores(cores: pd.Series, file: str, rows: np.ndarray, bad: np.ndarray) -
         )
         for first, name in sorted(found)  # in order of first appearance
     ]
+
+
+def _two_form_cores(cores: pd.Series, file: str, rows: np.ndarray) -> list[Problem]:
+    """An error for each core name written in two Unicode forms (a composed ``é`` and
+    ``e`` with a combining accent): the same name to a reader, two cores otherwise."""
+    names = cores.cat.categories
+    keys = [unicodedata.normalize("NFC", str(name)) for name in names]
+    if len(set(keys)) == len(keys):  # the common case: no row is looked at
+        return []
+    codes = cores.cat.codes.to_numpy()
+    present, first_rows = np.unique(codes, return_index=True)
+    seen: dict[str, int] = {}  # the form met first, by the row of its first appearance
+    problems = []
+    for row, k in sorted(zip(first_rows.tolist(), present.tolist())):
+        if k < 0:
+            continue
+        if keys[k] not in seen:
+            seen[keys[k]] = row
+            continue
+        problems.append(
+            Problem(
+                "error",
+                "bad-core",
+                f"core {str(names[k])!r} is written in two Unicode forms (an accented "
+                "letter as one character, and as a letter and a combining accent; the "
+                f"other form from data row {int(rows[seen[keys[k]]])}): they look the same "
+                "but are read as two cores; retype the name so that every row holds one form",
+                file=file,
+                row=int(rows[row]),
+                core=str(names[k]),
+            )
+        )
+    return problems
 
 
 @dataclass(frozen=True)
