@@ -526,3 +526,38 @@ def test_json_export_writes_non_ascii_codes_as_characters(tmp_path):
         text = path.read_bytes().decode("utf-8")
         assert "\\u" not in text
         assert all(word in text for word in ("Bohrung-ä", "grès", "砂岩"))
+
+
+def test_samples_table_renames_source_columns_spelt_otherwise_than_its_own():
+    """A source's ``Tract`` or ``P HST`` is the same column name to the readers (roles are
+    matched ignoring case, spaces and underscores), so it is kept as ``source_<name>``:
+    the samples table reads back as a source without two tract columns."""
+    from faciesseq.interpretation import CoreInterpretation, Interpretation
+    from faciesseq.io.columns import match_columns
+    from faciesseq.io.samples import CORE_KEY, DEPTH_KEY
+
+    tracts = ("HST", "TST")
+    beds = pd.DataFrame(
+        {"segment": [0], "top": [0.0], "base": [1.0], "facies": ["A"], "tract": ["HST"]}
+        | {"p_HST": [0.8], "p_TST": [0.2]}
+    )
+    empty = pd.DataFrame()
+    core = CoreInterpretation("W", "m", tracts, (), beds, empty, empty, 0.0)
+    interp = Interpretation.from_cores({"W": core}, tracts, ())
+    samples = pd.DataFrame(
+        {"Well": ["W"], "Depth": [0.5], "Facies": ["A"], "Tract": ["TST"], "P HST": [0.1]}
+        | {CORE_KEY: ["W"], DEPTH_KEY: [0.5]}
+    )
+    out = samples_table(interp, samples)
+    assert list(out.columns) == [
+        "Well",
+        "Depth",
+        "Facies",
+        "source_Tract",
+        "source_P HST",
+        "tract",
+        "p_HST",
+        "p_TST",
+    ]
+    assert out["source_Tract"].iloc[0] == "TST" and out["tract"].iloc[0] == "HST"
+    assert match_columns(out.columns).roles["tract"] == "tract"
