@@ -487,7 +487,14 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
 
     refuse_missing_label_column(cores, column, "--labels", file=source)
     table = cores.to_frame(provenance=True)
-    problems, labelled = label_problems(table, column, tract_model.order, cores.units, source)
+    problems, labelled = label_problems(
+        table,
+        column,
+        tract_model.order,
+        cores.units,
+        source,
+        sample_cores=cores.meta.get("sample_step", {}),
+    )
     if not labelled:
         raise InputError(no_labels(column, len(table), source).message, file=source)
     if problems:
