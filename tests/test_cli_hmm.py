@@ -504,3 +504,26 @@ def test_the_graph_line_says_so_where_no_labelled_boundary_tests_the_strict_orde
     assert "no two labelled neighbours differ in tract" in line and "all 0" not in line
     chosen["n_boundaries"] = 5
     assert "all 5 labelled boundaries follow it" in _graph_line(model)
+
+
+def test_force_never_replaces_the_data_a_yaml_source_file_names(database, tmp_path, capsys):
+    """A YAML source file reads the data at its ``path``: fit -o that file, or decode -o the
+    folder holding it, with --force wrote over the user's data (the guard knew only the
+    YAML file itself)."""
+    data = tmp_path / "logs"
+    data.mkdir()
+    (data / "cores.csv").write_bytes((database / "cores.csv").read_bytes())
+    source = tmp_path / "cores.yaml"
+    source.write_text("path: logs/cores.csv\nunits: m\n")
+    before = (data / "cores.csv").read_bytes()
+    argv = ["fit", str(source), "--scheme", str(database / "scheme.yaml"), "--force"]
+    assert main([*argv, "-o", str(data / "cores.csv")]) == 2
+    err = capsys.readouterr().err
+    assert "which this command reads" in err and len(err.strip().splitlines()) == 1
+    model = str(tmp_path / "model.json")
+    assert main([*argv, "--restarts", "1", "--calibration-folds", "0", "-o", model]) == 0
+    capsys.readouterr()
+    assert main(["decode", model, str(source), "-o", str(data), "--force"]) == 2
+    assert "holds" in capsys.readouterr().err
+    assert sorted(p.name for p in data.iterdir()) == ["cores.csv"]
+    assert (data / "cores.csv").read_bytes() == before
