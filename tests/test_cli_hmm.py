@@ -504,3 +504,48 @@ def test_the_graph_line_says_so_where_no_labelled_boundary_tests_the_strict_orde
     assert "no two labelled neighbours differ in tract" in line and "all 0" not in line
     chosen["n_boundaries"] = 5
     assert "all 5 labelled boundaries follow it" in _graph_line(model)
+
+
+def test_force_never_replaces_the_data_a_yaml_source_file_names(database, tmp_path, capsys):
+    """A YAML source file reads the data at its ``path``: fit -o that file, or decode -o the
+    folder holding it, with --force wrote over the user's data (the guard knew only the
+    YAML file itself)."""
+    data = tmp_path / "logs"
+    data.mkdir()
+    (data / "cores.csv").write_bytes((database / "cores.csv").read_bytes())
+    source = tmp_path / "cores.yaml"
+    source.write_text("path: logs/cores.csv\nunits: m\n")
+    before = (data / "cores.csv").read_bytes()
+    argv = ["fit", str(source), "--scheme", str(database / "scheme.yaml"), "--force"]
+    assert main([*argv, "-o", str(data / "cores.csv")]) == 2
+    err = capsys.readouterr().err
+    assert "which this command reads" in err and len(err.strip().splitlines()) == 1
+    model = str(tmp_path / "model.json")
+    assert main([*argv, "--restarts", "1", "--calibration-folds", "0", "-o", model]) == 0
+    capsys.readouterr()
+    assert main(["decode", model, str(source), "-o", str(data), "--force"]) == 2
+    assert "holds" in capsys.readouterr().err
+    assert sorted(p.name for p in data.iterdir()) == ["cores.csv"]
+    assert (data / "cores.csv").read_bytes() == before
+
+
+def test_validate_leaves_out_the_irregular_cores_fit_leaves_out(database, tmp_path, capsys):
+    """validate fitted its fold models on a scattered pseudo-core that fit leaves out, so
+    it scored another model than fit makes; it now screens as fit does (one warning),
+    and --keep-irregular keeps the core, as on fit."""
+    cores = pd.read_csv(database / "cores.csv")
+    first = cores[cores["core"] == cores["core"].iloc[0]].head(4)
+    scattered = first.assign(core="SCATTERED")
+    scattered["top"] = [0.0, 40.0, 80.0, 120.0]
+    scattered["base"] = scattered["top"] + 1.0  # 4 m described over a 121 m span
+    path = tmp_path / "cores.csv"
+    pd.concat([cores, scattered]).to_csv(path, index=False)
+    argv = ["validate", str(path), "--scheme", str(database / "scheme.yaml"), "--labels"]
+    argv += ["tract", "--folds", "2", "--restarts", "1", "--format", "json"]
+    assert main(argv) == 0
+    captured = capsys.readouterr()
+    assert "irregularly sampled core(s) left out" in captured.err
+    assert "SCATTERED" in captured.err
+    assert "SCATTERED" not in json.loads(captured.out)["fold_of_core"]
+    assert main([*argv, "--keep-irregular"]) == 0
+    assert "SCATTERED" in json.loads(capsys.readouterr().out)["fold_of_core"]

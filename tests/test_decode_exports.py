@@ -485,8 +485,10 @@ def test_samples_from_a_las_source_get_a_core_column(decoded, tmp_path):
     rows = read_samples(decoded / "las")
     assert rows.columns[0] == "core"
     assert set(rows["core"]) == {f"S-71-{k}" for k in range(1, 7)}
-    assert (rows["core"] == rows[CORE_KEY]).all()
-    assert rows[DEPTH_KEY].notna().all()
+    described = rows["FACIES"].notna()  # the cells of a gap hold the null value
+    assert (rows["core"] == rows[CORE_KEY])[described].all()
+    assert rows[DEPTH_KEY][described].notna().all()
+    assert rows[CORE_KEY][~described].isna().all()
 
 
 def test_default_las_step_of_no_beds_is_refused():
@@ -526,3 +528,68 @@ def test_json_export_writes_non_ascii_codes_as_characters(tmp_path):
         text = path.read_bytes().decode("utf-8")
         assert "\\u" not in text
         assert all(word in text for word in ("Bohrung-ä", "grès", "砂岩"))
+
+
+def test_samples_table_renames_source_columns_spelt_otherwise_than_its_own():
+    """A source's ``Tract`` or ``P HST`` is the same column name to the readers (roles are
+    matched ignoring case, spaces and underscores), so it is kept as ``source_<name>``:
+    the samples table reads back as a source without two tract columns."""
+    from faciesseq.interpretation import CoreInterpretation, Interpretation
+    from faciesseq.io.columns import match_columns
+    from faciesseq.io.samples import CORE_KEY, DEPTH_KEY
+
+    tracts = ("HST", "TST")
+    beds = pd.DataFrame(
+        {"segment": [0], "top": [0.0], "base": [1.0], "facies": ["A"], "tract": ["HST"]}
+        | {"p_HST": [0.8], "p_TST": [0.2]}
+    )
+    empty = pd.DataFrame()
+    core = CoreInterpretation("W", "m", tracts, (), beds, empty, empty, 0.0)
+    interp = Interpretation.from_cores({"W": core}, tracts, ())
+    samples = pd.DataFrame(
+        {"Well": ["W"], "Depth": [0.5], "Facies": ["A"], "Tract": ["TST"], "P HST": [0.1]}
+        | {CORE_KEY: ["W"], DEPTH_KEY: [0.5]}
+    )
+    out = samples_table(interp, samples)
+    assert list(out.columns) == [
+        "Well",
+        "Depth",
+        "Facies",
+        "source_Tract",
+        "source_P HST",
+        "tract",
+        "p_HST",
+        "p_TST",
+    ]
+    assert out["source_Tract"].iloc[0] == "TST" and out["tract"].iloc[0] == "HST"
+    assert match_columns(out.columns).roles["tract"] == "tract"
+
+
+def test_samples_of_a_las_source_keep_the_samples_whose_facies_is_null(database, tmp_path):
+    """A LAS well whose facies curve holds the NULL value at some depths: every line of
+    its ~A section is a row of the samples table, the null ones with a blank tract
+    (a sample without a facies code), as a CSV source's rows are."""
+    source = pd.read_csv(database / "samples.csv")
+    well = source[source["Well"] == "S-71-2"].reset_index(drop=True)
+    codes = sorted(set(well["Facies"]))  # text codes, written as 1, 2, ... (docs/io.md)
+    number = {c: k + 1.0 for k, c in enumerate(codes)}
+    facies = well["Facies"].map(number).to_numpy(float, copy=True)
+    facies[[10, 11, 40]] = LAS_NULL
+    las = lasio.LASFile()
+    las.well["WELL"].value = "S-71-2"
+    las.well["NULL"].value = LAS_NULL
+    for k, c in enumerate(codes):
+        las.params.append(lasio.HeaderItem(f"FACIES_{k + 1}", value=c, descr=f"facies {k + 1}"))
+    las.append_curve("DEPT", well["Depth"].to_numpy(), unit="M")
+    las.append_curve("FACIES", facies)
+    las.append_curve("GR", well["GR"].to_numpy())
+    path = tmp_path / "S-71-2.las"
+    las.write(str(path), version=2.0)
+    out = tmp_path / "out"
+    assert main(["decode", str(database / "model.json"), str(path), "-o", str(out)]) == 0
+    samples = _read(out / "samples.csv")
+    assert len(samples) == len(well)
+    assert np.allclose(samples["DEPT"], well["Depth"])
+    blank = samples["tract"].isna()
+    assert np.flatnonzero(blank).tolist() == [10, 11, 40]
+    assert samples["FACIES"].iloc[[10, 11, 40]].isna().all()

@@ -315,3 +315,24 @@ def test_a_samples_log_from_depth_zero_starts_at_zero_not_half_a_step_above():
     assert tops["A"] == 0.0
     assert tops["B"] == pytest.approx(4.95)
     assert tops["C"] == pytest.approx(-1.05)
+
+
+def test_tract_labels_of_a_samples_log_are_counted_in_runs_not_rows(tmp_path, capsys):
+    # check said "(2 rows)" of a label on 5 rows of a facies log: the rows of a samples
+    # source become runs of equal samples, and it counted the runs
+    table = pd.DataFrame(
+        {
+            "core": ["W1"] * 7,
+            "depth": [0.25, 0.75, 1.25, 1.75, 2.25, 2.75, 3.25],
+            "facies": list("AAABBBA"),
+            "tract": ["HST", "HST", "Highstand", "Highstand", "Highstand", "Highstand", "X"],
+        }
+    )
+    path = tmp_path / "log.csv"
+    table.to_csv(path, index=False)
+    assert main(["check", str(path), "--units", "m", "--layout", "samples"]) == 1
+    errors = [x for x in capsys.readouterr().out.splitlines() if x.startswith("error:")]
+    assert len(errors) == 2
+    assert "data row 3, core W1" in errors[0]
+    assert "tract label 'HIGHSTAND' (2 runs of samples) in column 'tract'" in errors[0]
+    assert "tract label 'X' in column 'tract'" in errors[1]

@@ -302,7 +302,9 @@ LITHOFACIES. : facies code
     assert core.intervals["facies"].tolist() == ["2", "2", "3", "3", "2"]
     assert np.isnan(core.intervals["GR"].iloc[2])
     nulls = [p.message for p in cores.problems if p.kind == "null"]
-    assert any("2 sample(s) of curve LITHOFACIES hold the null value -999.25" in m for m in nulls)
+    [undescribed] = [p for p in cores.problems if p.kind == "not-described"]
+    assert "2 sample(s) without a facies code (data rows 4, 5)" in undescribed.message
+    assert undescribed.row == 4 and undescribed.depth == 101.5
     assert any("GR (1)" in m for m in nulls)
     with pytest.raises(InputError, match="no curve 'FAC'"):
         read_cores(path, curve="FAC")

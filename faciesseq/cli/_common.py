@@ -138,14 +138,18 @@ INPUT_OPTIONS = ("source", "model", "scheme", "tracts", "review_sheet", "wells",
 
 
 def input_files(args: argparse.Namespace) -> tuple[str, ...]:
-    """The files a command reads (SOURCE, MODEL, ``--scheme``, ``--tracts``...), which
-    its outputs may not replace (:func:`faciesseq._output.check_target`)."""
+    """The files a command reads (SOURCE, MODEL, ``--scheme``, ``--tracts``...), and the
+    data a YAML SOURCE names at its ``path``, which its outputs may not replace
+    (:func:`faciesseq._output.check_target`)."""
     out = []
     for name in INPUT_OPTIONS:
         value = getattr(args, name, None)
         for v in value if isinstance(value, list | tuple) else [value]:
             if v:
                 out.append(str(v))
+    spec = source_file(args)
+    if spec is not None:
+        out.append(str(spec.source))
     return tuple(out)
 
 
@@ -487,7 +491,14 @@ def check_labels(cores, column: str | None, tract_model, source) -> None:
 
     refuse_missing_label_column(cores, column, "--labels", file=source)
     table = cores.to_frame(provenance=True)
-    problems, labelled = label_problems(table, column, tract_model.order, cores.units, source)
+    problems, labelled = label_problems(
+        table,
+        column,
+        tract_model.order,
+        cores.units,
+        source,
+        sample_cores=cores.meta.get("sample_step", {}),
+    )
     if not labelled:
         raise InputError(no_labels(column, len(table), source).message, file=source)
     if problems:

@@ -339,7 +339,12 @@ class _Labels:
             return []
         self.found = True
         problems, labelled = label_problems(
-            table, self.column, self.tracts, cores.units, self.source
+            table,
+            self.column,
+            self.tracts,
+            cores.units,
+            self.source,
+            sample_cores=cores.meta.get("sample_step", {}),
         )
         self.rows += len(table)
         self.labelled += labelled

@@ -8,6 +8,7 @@ import math
 from pathlib import Path
 
 from faciesseq.cli._common import (
+    add_irregular_argument,
     add_output_arguments,
     add_source_arguments,
     check_grid_size,
@@ -15,6 +16,7 @@ from faciesseq.cli._common import (
     input_files,
     load_scheme_option,
     read_source,
+    regular_cores,
 )
 from faciesseq.cli._hmm import (
     Progress,
@@ -58,6 +60,7 @@ def register(subparsers) -> None:
         epilog=EXAMPLES,
     )
     add_source_arguments(parser)
+    add_irregular_argument(parser, "cross-validate on")
     parser.add_argument(
         "--labels", required=True, metavar="COLUMN", help="bed column with the interpreter's tracts"
     )
@@ -198,7 +201,9 @@ def run(args: argparse.Namespace) -> int:
     scheme = load_scheme_option(args.scheme)
     tract_model = load_tracts_option(args.tracts)
     reference = reference_option(args, labelled)
-    cores = read_source(args, scheme).require_valid()
+    cores = regular_cores(
+        read_source(args, scheme).require_valid(), "validate", args.keep_irregular
+    )
     check_grid_size(cores, args.unit, args.step)
     check_features(args, cores)
     check_labels(cores, args.labels, tract_model or default_tract_model(), args.source)

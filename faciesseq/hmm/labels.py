@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import itertools
 import warnings
-from collections.abc import Iterator, Sequence
+from collections.abc import Collection, Iterator, Sequence
 from typing import Any
 
 import numpy as np
@@ -68,14 +68,21 @@ def no_labels(column: str, n_rows: int, source: str) -> Problem:
 
 
 def label_problems(
-    table: pd.DataFrame, column: str, tracts: Sequence[str], units: str | None, source: str
+    table: pd.DataFrame,
+    column: str,
+    tracts: Sequence[str],
+    units: str | None,
+    source: str,
+    sample_cores: Collection[str] = (),
 ) -> tuple[list[Problem], int]:
     """The labels of ``column`` of a core table (``CoreSet.to_frame(provenance=True)``)
     that a fit with labels cannot read: one error per core and label that is not one of
     ``tracts``, at its first row; and the number of labelled rows (blank cells are
     beds not interpreted; none at all is :func:`no_labels`). ``faciesseq check`` lists
     them all; ``fit`` and ``validate`` refuse the first
-    (``faciesseq.cli._common.check_labels``)."""
+    (``faciesseq.cli._common.check_labels``). The intervals of ``sample_cores`` (read
+    in the sample layout, ``CoreSet.meta["sample_step"]``) are runs of equal samples,
+    each of one or more rows of the source, and are counted as runs."""
     text = pd.Series(label_text(table[column]), index=table.index, dtype=object)
     blank = text.isna()
     bad = np.flatnonzero((~blank & ~text.isin(list(tracts))).to_numpy(dtype=bool))
@@ -85,7 +92,8 @@ def label_problems(
     problems = []
     for (core, label), rows in found.items():
         i = rows[0]
-        count = f" ({len(rows)} rows)" if len(rows) > 1 else ""
+        counted = "runs of samples" if core in sample_cores else "rows"
+        count = f" ({len(rows)} {counted})" if len(rows) > 1 else ""
         row = table["_row"].iloc[i] if "_row" in table.columns else None
         problems.append(
             Problem(

@@ -4,8 +4,9 @@ Reading: the depth units come from the index curve (or ``STRT``) in the
 header; the core is named by the ``WELL`` header item (else the file name);
 the facies curve is ``curve`` or the curve whose mnemonic looks like a facies
 column (``FACIES``, ``LITHOFACIES``, ``FAC``...). Samples holding the header's
-``NULL`` value (e.g. -999.25) are not described: they are left out and the
-count is reported; the validation step then reports the gaps they leave.
+``NULL`` value (e.g. -999.25) are not described: they stay rows with a blank
+facies, which the validation step leaves out as it leaves out any sample without a
+facies code (``not-described``, naming their rows) and whose gaps it reports.
 
 Text in LAS 2.0 data is awkward, so this project stores a text-valued curve
 (a facies code such as ``USF``, a contact type) as whole numbers 1, 2, ...
@@ -95,12 +96,9 @@ def read_las(path: Path, curve: str | None = None, encoding: str | None = None) 
     null = _null_value(las, file)
     nulls = _nulls_to_missing(frame, mnemonics, null, codes)
     rows = np.arange(1, len(frame) + 1)
-    n_null = nulls.pop(facies, 0)
-    if n_null:
-        problems.append(_undescribed_samples(n_null, facies, null, file, core))
-        keep = frame[facies].notna().to_numpy()
-        frame = frame[keep].reset_index(drop=True)
-        rows = rows[keep]
+    # Samples whose facies is null stay rows (the samples table of decode lists every
+    # line); validation leaves them out as not described, naming their rows.
+    nulls.pop(facies, None)
     if nulls:
         listed = ", ".join(f"{m} ({n})" for m, n in nulls.items())
         problems.append(
@@ -264,20 +262,6 @@ def _nulls_to_missing(
                 None if v is None or pd.isna(v) else table.get(float(v), v) for v in frame[m]
             ]
     return nulls
-
-
-def _undescribed_samples(
-    n_null: int, facies: str, null: float | None, file: str, core: str
-) -> Problem:
-    """The warning for samples whose facies is the null value: not described, left out."""
-    return Problem(
-        "warning",
-        "null",
-        f"{n_null} sample(s) of curve {facies} hold the null value "
-        f"{null if null is not None else '(blank)'}: not described, left out",
-        file=file,
-        core=core,
-    )
 
 
 def _regular_step(core, step: float | None) -> float:

@@ -9,7 +9,7 @@ analysed. Problems that the reader already recorded for a core with one of the
 kinds in :data:`IRREGULAR_KINDS` flag it too.
 
 :func:`leave_out_irregular` is the one decision every command uses (``markov``,
-``fit``, ``decode``, ``appendix``): the same cores are left out everywhere, and
+``fit``, ``decode``, ``validate``, ``appendix``): the same cores are left out everywhere, and
 :meth:`Screening.warning` is the one line that names them.
 """
 

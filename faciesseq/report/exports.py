@@ -86,6 +86,17 @@ def _clear_name(name: str, taken: Iterable[str]) -> str:
     return name
 
 
+def _reads_as_added(name: str, added: list[str]) -> bool:
+    """Whether a source column would be taken for one of the columns the samples table
+    adds: the same name to the readers (case, spaces and underscores aside) or another
+    name of the tract role (``Systems Tract``), so that the table reads back as a source
+    with one tract column."""
+    from faciesseq.io.columns import ROLES, _key
+
+    key = _key(name)
+    return key in {_key(a) for a in added} or key in ROLES["tract"]
+
+
 def samples_table(interp, samples: pd.DataFrame) -> pd.DataFrame:
     """The user's sample rows with the decoded tract of the bed holding each sample.
 
@@ -105,7 +116,8 @@ def samples_table(interp, samples: pd.DataFrame) -> pd.DataFrame:
         ``tract`` and ``p_<TRACT>`` (one per tract, in the model's order) of
         the bed that holds the sample; blank where no decoded bed holds it (a
         gap, a sample without a facies code, a core left out). An original
-        column named like one of these is kept as ``source_<name>``.
+        column named like one of these (in any case or spacing, or another name
+        of the tract role) is kept as ``source_<name>``.
     """
     from faciesseq.io.samples import CORE_KEY, DEPTH_KEY
 
@@ -113,7 +125,7 @@ def samples_table(interp, samples: pd.DataFrame) -> pd.DataFrame:
     original = [c for c in samples.columns if c not in (CORE_KEY, DEPTH_KEY)]
     renamed = {}
     for col in original:
-        if col in added:
+        if _reads_as_added(str(col), added):
             renamed[col] = _clear_name(f"source_{col}", [*original, *added])
     out = samples[original].rename(columns=renamed).reset_index(drop=True)
     tract = np.full(len(out), None, dtype=object)
