@@ -21,12 +21,27 @@ from faciesseq.core import take_text, text_column
 from faciesseq.scheme import FaciesScheme
 
 __all__ = [
+    "CLAMPED",
     "PICK_COLUMNS",
     "TOPS_COLUMNS",
     "CoreInterpretation",
     "Interpretation",
     "core_summary",
+    "held_beds",
 ]
+
+#: Column of the beds of a decode that kept a geologist's labels (``decode
+#: --keep-labels``): whether the bed was clamped to its label, its tract and
+#: probabilities the label's, not the model's.
+CLAMPED = "clamped"
+
+
+def held_beds(beds: pd.DataFrame) -> np.ndarray:
+    """Whether each bed was held at the geologist's label (:data:`CLAMPED`); all false
+    where the beds have no such column (a decode that did not keep the labels)."""
+    if CLAMPED not in beds.columns:
+        return np.zeros(len(beds), dtype=bool)
+    return beds[CLAMPED].to_numpy(dtype=bool)
 
 
 @dataclass(frozen=True)
@@ -47,7 +62,8 @@ class CoreInterpretation:
     beds
         Depth order: ``segment``, ``top``, ``base``, ``thickness``, ``facies``,
         any bed attributes, ``tract`` (most likely tract column, Viterbi) and the
-        ``p_<TRACT>`` posteriors (each row sums to 1).
+        ``p_<TRACT>`` posteriors (each row sums to 1); after a decode that kept a
+        geologist's labels, :data:`CLAMPED` (the beds held at their label).
     boundaries
         One row per boundary between two successive beds of one segment, depth
         order: ``segment``, ``depth`` (the contact), ``lower_tract`` and

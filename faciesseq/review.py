@@ -47,6 +47,7 @@ import pandas as pd
 
 from faciesseq.core import CoreTable
 from faciesseq.errors import InputError
+from faciesseq.interpretation import CLAMPED
 from faciesseq.io.tabular import decimal_commas, sniff_delimiter
 
 __all__ = [
@@ -179,11 +180,6 @@ def xlsx_available() -> bool:
     except MissingExtraError:
         return False
     return True
-
-
-#: Column of the beds (and the sheet) of a decode that kept the labels: whether the
-#: bed was clamped to its label (``decode --keep-labels``).
-CLAMPED = "clamped"
 
 
 def _digest(values) -> str:

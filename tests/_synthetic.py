@@ -92,6 +92,20 @@ def synthetic_interpretation(model: TractModel, names=("W-1", "W-2")) -> Interpr
     return Interpretation.from_cores(cores, first.tracts, first.surfaces)
 
 
+def held_at_labels(decoded, rows):
+    """``decoded`` (a core's or several cores' interpretation) as a decode with
+    ``--keep-labels`` gives it: the beds of ``rows`` (of its beds table) held at their
+    label (``clamped``), their tract's probability 1."""
+    import dataclasses
+
+    beds = decoded.beds.copy()
+    held = np.zeros(len(beds), dtype=bool)
+    held[list(rows)] = True
+    for t in decoded.tracts:
+        beds.loc[held, f"p_{t}"] = (beds.loc[held, "tract"] == t).astype(float)
+    return dataclasses.replace(decoded, beds=beds.assign(clamped=held))
+
+
 def synthetic_coreset(interpretation: Interpretation, units: str = "m"):
     """The core set whose beds are those of ``interpretation`` (one interval per bed)."""
     from faciesseq.core import CoreSet

@@ -175,7 +175,8 @@ def _xlabels(fig: Figure) -> str:
 
 def test_every_probability_note_ends_before_the_surface_track_label(database, models):
     """The note under the probability track (checked or not, labelled or not, a
-    reference read, names unsure) never runs into the surface track's label."""
+    reference read, names unsure, beds held at the geologist's label) never runs into
+    the surface track's label."""
     from itertools import product
 
     from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -189,8 +190,10 @@ def test_every_probability_note_ends_before_the_surface_track_label(database, mo
     renderer = fig.canvas.get_renderer()
     probability, surface = fig.axes[2], fig.axes[3]
     begins = surface.xaxis.label.get_window_extent(renderer).x0
-    for flags in product((False, True), repeat=4):
-        probability.set_xlabel("posterior (stacked)" + _probability_note(*flags))
+    for flags in product((False, True), repeat=5):
+        note = _probability_note(*flags)
+        assert ("held at" in note) is flags[4]
+        probability.set_xlabel("posterior (stacked)" + note)
         ends = probability.xaxis.label.get_window_extent(renderer).x1
         assert ends < begins, (flags, probability.get_xlabel())
 

@@ -2,7 +2,7 @@
 
 import numpy as np
 import pytest
-from _synthetic import SHOREFACE, synthetic_core
+from _synthetic import SHOREFACE, held_at_labels, synthetic_core
 from matplotlib.legend import Legend
 from PIL import Image
 
@@ -342,3 +342,62 @@ def test_surface_legend_lists_only_the_surfaces_drawn(model, scheme):
     # each keeps the colour it has in every core
     for code, line in zip(codes, legend.get_lines(), strict=False):
         assert to_hex(line.get_color()) == surface_colour(code, core.surfaces)
+
+
+def _hatched(ax):
+    """``(top, base, ink)`` of every hatched box of the axes."""
+    from matplotlib.colors import to_hex
+
+    out = []
+    for collection in ax.collections:
+        if collection.get_hatch() is None:
+            continue
+        ink = to_hex(collection.get_edgecolor()[0])
+        for path in collection.get_paths():
+            out.append((path.vertices[:, 1].min(), path.vertices[:, 1].max(), ink))
+    return sorted(out)
+
+
+def test_beds_held_at_the_label_are_hatched_and_the_note_says_so(model, scheme):
+    # a held bed's probability of 1 is the geologist's label, not the model's: its run
+    # is hatched across the probability track, in an ink that reads on its tract colour
+    from faciesseq.report.style import HELD_NOTE, held_ink
+
+    core = synthetic_core(model)
+    rows = [*range(3, 12), 30, 31]  # two runs, the second across no gap
+    held = held_at_labels(core, rows)
+    fig = strip_log(held, scheme, model)
+    hatched = _hatched(fig.axes[2])
+    beds = held.beds.iloc[rows]
+    cut = ~np.isclose(beds["top"].to_numpy()[1:], beds["base"].to_numpy()[:-1]) | (
+        beds["tract"].to_numpy()[1:] != beds["tract"].to_numpy()[:-1]
+    )
+    assert len(hatched) == 1 + cut.sum()  # one box per run of touching held beds of a tract
+    assert sum(b - t for t, b, _ in hatched) == pytest.approx(beds["thickness"].sum())
+    for top, _, ink in hatched:
+        tract = beds.loc[np.isclose(beds["top"], top), "tract"].iloc[0]
+        assert ink == held_ink(TRACT_COLOURS[tract])
+    assert HELD_NOTE in fig.axes[2].get_xlabel()
+    # without held beds: no hatching, no note
+    plain = strip_log(core, scheme, model)
+    assert _hatched(plain.axes[2]) == [] and HELD_NOTE not in plain.axes[2].get_xlabel()
+
+
+def test_held_note_on_a_third_line_stays_clear_of_the_legends(model, scheme):
+    # not checked and fitted without labels: two notes in one line, the held note a third;
+    # the panels make room for it, so no label runs into the legends or off the page
+    import dataclasses
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    core = held_at_labels(synthetic_core(model), range(10))
+    core = dataclasses.replace(core, tracts_labelled=False)
+    fig = strip_log(core, scheme, model, checked=False)
+    assert len(fig.axes[2].get_xlabel().splitlines()) == 3
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw_without_rendering()
+    legends = [leg.get_window_extent(renderer) for leg in _legends(fig)]
+    for ax in fig.axes[:4]:
+        label = ax.xaxis.label.get_window_extent(renderer)
+        assert not any(label.overlaps(leg) for leg in legends), ax.xaxis.label.get_text()
+        assert fig.bbox.y0 <= ax.get_tightbbox(renderer).y0

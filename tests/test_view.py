@@ -11,7 +11,7 @@ import hmm_synthetic as synth
 import numpy as np
 import pytest
 from _chromium import CHROMIUM, open_page, page_errors, run_probe
-from _synthetic import SHOREFACE, synthetic_core
+from _synthetic import SHOREFACE, held_at_labels, synthetic_core
 from PIL import Image
 
 from faciesseq.cli import main
@@ -531,3 +531,93 @@ def test_page_surface_legend_in_chromium_leaves_out_surfaces_no_core_draws(tmp_p
     codes, log = run_probe(tmp_path, html, _SURFACE_LEGEND, "legend-codes", "1400,1000")
     assert page_errors(log) == []
     assert codes == ["BSFR", "SB", "MRS", "MFS", "\u25c0"]  # then the pick's mark
+
+
+# ---------------------------------------------------------------- beds held at the label
+
+
+def test_page_marks_the_beds_held_at_the_label_and_only_where_some_are():
+    from faciesseq.report.style import HELD_NOTE, TRACT_COLOURS, held_ink
+
+    scheme, model = load_scheme(SHOREFACE), default_tract_model()
+    interp = _interpretation()
+    held = held_at_labels(interp, [*range(2, 9), 45, 46])  # beds of both cores (40 beds each)
+    data = view_data(held, scheme, model)
+    for shown, core in zip(data["cores"], held, strict=True):
+        assert shown["beds"]["held"] == core.beds["clamped"].tolist()
+    assert data["held"]["note"] == HELD_NOTE
+    assert data["held"]["ink"] == [held_ink(TRACT_COLOURS[t]) for t in interp.tracts]
+    page = view_html(held, scheme, model)
+    assert "drawHeld(core, defs, g, ci" in page and "heldTip(b, i, sub, pt)" in page
+    # no bed held (a decode without --keep-labels, or none of its labels kept): the page
+    # is the one it always was, with nothing of the held beds in its data or script
+    plain = view_html(interp, scheme, model)
+    assert view_html(held_at_labels(interp, []), scheme, model) == plain
+    assert "held" not in _embedded(plain) and "@HELD" not in plain and "Held" not in plain
+
+
+#: Hover a held bed and a free one of the first core; the held marks and the legend.
+_HELD_PROBE = """<script>
+(function () {
+  const out = {errors: window.__errors};
+  const well = document.querySelectorAll(".well svg")[0];
+  function hover(i) {
+    const bed = well.querySelector('[data-track="facies"] [data-bed="' + i + '"]');
+    const r = bed.getBoundingClientRect();
+    bed.dispatchEvent(new MouseEvent("mousemove",
+      {bubbles: true, clientX: r.left + r.width / 2, clientY: r.top + r.height / 2}));
+    return document.getElementById("tooltip").innerText;
+  }
+  out.heldTip = hover(4);
+  out.freeTip = hover(20);
+  out.marked = [...well.querySelectorAll('[data-track="prob"] rect.held')]
+    .map(r => +r.dataset.bed);
+  out.elsewhere = well.querySelectorAll('[data-track="tract"] rect.held').length;
+  const li = document.querySelector("#legend li.held");
+  out.legend = li ? li.innerText : null;
+  out.legendPart = li ? li.closest(".part").querySelector("h2").innerText : null;
+  const pre = document.createElement("pre");
+  pre.id = "probe"; pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+})();
+</script>"""
+
+
+@pytest.mark.chromium
+@NEEDS_CHROMIUM
+def test_held_beds_hatched_and_their_readout_names_the_label_in_chromium(tmp_path):
+    from faciesseq.report.style import HELD_NOTE
+
+    held = held_at_labels(_interpretation(), range(2, 9))
+    html = view_html(held, load_scheme(SHOREFACE), default_tract_model())
+    out, log = run_probe(tmp_path, html, _HELD_PROBE, "probe", "1400,1000", head=_HOOK)
+    assert out["errors"] == [] and page_errors(log) == []
+    assert out["marked"] == list(range(2, 9)) and out["elsewhere"] == 0
+    # the held bed's readout says whose its tract is, and shows no probability of 1
+    assert "held at the geologist's label" in out["heldTip"]
+    assert "1.000" not in out["heldTip"]
+    assert "held" not in out["freeTip"]
+    bed = held["W-1"].beds.iloc[20]
+    for t in held.tracts:  # embedded to 4 significant digits, shown to 3 decimals
+        shown = float(format(bed[f"p_{t}"], ".4g"))
+        assert f"{t}\t{shown:.3f}" in out["freeTip"]
+    assert out["legendPart"] == "systems tract" and HELD_NOTE in out["legend"]
+
+
+def test_decode_keep_labels_view_marks_the_beds_the_tracts_table_calls_clamped(
+    model_and_database, tmp_path, capsys
+):
+    # the clamped column decode adds to the beds reaches the page with the beds
+    import pandas as pd
+
+    model, folder = model_and_database
+    cores = pd.read_csv(folder / "cores.csv")
+    cores.loc[cores.index % 3 > 0, "tract"] = None  # a third of the intervals labelled
+    cores.to_csv(tmp_path / "labelled.csv", index=False)
+    argv = ["decode", str(model), str(tmp_path / "labelled.csv"), "--labels", "tract"]
+    assert main([*argv, "--keep-labels", "--view", "-o", str(tmp_path / "out")]) == 0
+    capsys.readouterr()
+    data = _embedded((tmp_path / "out" / "view.html").read_text(encoding="utf-8"))
+    tracts = pd.read_csv(tmp_path / "out" / "tracts.csv", skiprows=1)
+    shown = [h for core in data["cores"] for h in core["beds"]["held"]]
+    assert shown == tracts["clamped"].tolist() and 0 < sum(shown) < len(shown)

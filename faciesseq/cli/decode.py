@@ -284,7 +284,7 @@ class _Written:
 
     def add(self, part) -> None:
         from faciesseq.cli._summary import WELL_LIMIT
-        from faciesseq.review import CLAMPED
+        from faciesseq.interpretation import CLAMPED
 
         wanted = WELL_LIMIT - sum(len(h) for h in self.heads)
         if wanted > 0 or not self.heads:  # a head of none would keep the part's text alive
@@ -353,7 +353,7 @@ def write_output(parts, out: Path, fmt: str, labels: str, extra=None, check=None
 #: The tables written from each decoded part, by name.
 def _tracts_table(part):
     """The tracts table of a part, with the ``clamped`` column of ``--keep-labels``."""
-    from faciesseq.review import CLAMPED
+    from faciesseq.interpretation import CLAMPED
 
     table = part.tracts_table()
     if CLAMPED in part.beds.columns:
@@ -871,7 +871,7 @@ def _kept_labels(successions, model, column: str) -> list[list[str | None]]:
     import numpy as np
 
     from faciesseq.hmm.labels import DECODE_REMEDY, clamp_from_labels
-    from faciesseq.review import CLAMPED
+    from faciesseq.interpretation import CLAMPED
 
     clamp, _ = clamp_from_labels(list(successions), column, model.tract_model_, DECODE_REMEDY)
     held = clamp.sum(axis=1) == 1

@@ -8,7 +8,8 @@ Depth increases downward on a shared vertical axis. From left to right:
    (landward facies drawn wider, as coarser shallow facies usually are;
    common practice in drawn logs);
 2. the decoded (most likely, Viterbi) tract column;
-3. the posterior probability of each tract per bed, stacked to 1;
+3. the posterior probability of each tract per bed, stacked to 1; a bed held at the
+   geologist's label (``decode --keep-labels``) hatched, its 1 being the label's;
 4. the probability of each named surface per depth cell (from
    :meth:`CoreInterpretation.curves`), with the picks marked and labelled with
    their probability and uncertainty interval.
@@ -30,13 +31,15 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from faciesseq.errors import InputError
-from faciesseq.interpretation import CoreInterpretation, Interpretation, core_list
+from faciesseq.interpretation import CoreInterpretation, Interpretation, core_list, held_beds
 from faciesseq.report.document import format_probability
 from faciesseq.report.style import (
+    HELD_NOTE,
     PAGE_WIDTH,
     check_figure_path,
     facies_colour,
     figure_style,
+    held_ink,
     new_figure,
     save_figure,
     surface_colour,
@@ -198,21 +201,23 @@ _PANEL_RATIOS = (2.0, 0.7, 1.6, 1.9)
 _TOP, _RIGHT, _PANEL_GAP = 0.6, 0.2, 0.28
 _TITLE = 0.08  # from the top edge to the top of the figure title
 _BELOW_PANELS = 0.52  # tick labels and up to two lines of axis label
+_NOTE_LINE = 0.13  # one more line of axis label: the held beds' note (8 pt)
 _CHAR = 0.062  # width of a 7 pt digit
 
 
 def _panel_rects(
-    width: float, height: float, legend_h: float, label_chars: int
+    width: float, height: float, legend_h: float, label_chars: int, held: bool = False
 ) -> list[tuple[float, float, float, float]]:
     """Figure-fraction rectangles of the four panels and the legend row.
 
     ``label_chars``: the longest depth tick label, which sets the left margin
-    beside the depth axis label.
+    beside the depth axis label; ``held``: room for the note of the beds held at
+    the geologist's label under the probability track.
     """
     left = 0.3 + _CHAR * label_chars
     total = height + legend_h
     panel_w = width - left - _RIGHT - _PANEL_GAP * (len(_PANEL_RATIOS) - 1)
-    bottom = legend_h + _BELOW_PANELS
+    bottom = legend_h + _BELOW_PANELS + _NOTE_LINE * held
     panel_h = total - _TOP - bottom
     rects, x = [], left
     for ratio in _PANEL_RATIOS:
@@ -301,12 +306,24 @@ def _tract_track(ax, beds: pd.DataFrame, tracts: tuple[str, ...]) -> None:
 
 
 def _probability_note(
-    checked: bool, labelled: bool, reference: bool = False, unsure: bool = False
+    checked: bool,
+    labelled: bool,
+    reference: bool = False,
+    unsure: bool = False,
+    held: bool = False,
 ) -> str:
-    """The line under the probability track: nothing, one note, or both in one line
-    (a third line would run into the legends); ``reference``: a fit without labels
+    """The lines under the probability track: nothing, one note, or both in one line
+    (a third line would run into the legends), then, where ``held`` (some bed held at
+    the geologist's label), :data:`~faciesseq.report.style.HELD_NOTE` on a line of its
+    own, for which :func:`_panel_rects` makes room; ``reference``: a fit without labels
     that read a reference model (``faciesseq.hmm.reference``); ``unsure``: one whose
     check of a reference found its names unsure (``faciesseq.hmm.reference_check``)."""
+    note = _model_note(checked, labelled, reference, unsure)
+    return note + f"\n{HELD_NOTE}" * held
+
+
+def _model_note(checked: bool, labelled: bool, reference: bool, unsure: bool) -> str:
+    """The note of :func:`_probability_note` on the model's probabilities."""
     if checked and labelled:
         return ""
     if labelled:
@@ -323,7 +340,7 @@ def _probability_note(
 def _probability_track(
     ax, beds, tracts, checked, labelled=True, reference=False, unsure=False
 ) -> None:
-    """The tract posteriors, stacked."""
+    """The tract posteriors, stacked; the beds held at the geologist's label hatched."""
     b_top = beds["top"].to_numpy(float)
     b_base = beds["base"].to_numpy(float)
     left = np.zeros(len(beds))
@@ -331,11 +348,35 @@ def _probability_track(
         right = left + beds[f"p_{code}"].to_numpy(float)
         _add_boxes(ax, b_top, b_base, left, right, tract_colour(code, tracts), linewidths=0)
         left = right
+    held = held_beds(beds)
+    if held.any():
+        _held_hatching(ax, beds[held], tracts)
     ax.set_xlim(0, 1)
     ax.set_xticks([0, 0.5, 1])
     ax.set_title("tract probability")
-    note = _probability_note(checked, labelled, reference, unsure)
+    note = _probability_note(checked, labelled, reference, unsure, bool(held.any()))
     ax.set_xlabel("posterior (stacked)" + note)
+
+
+def _held_hatching(ax, held: pd.DataFrame, tracts: tuple[str, ...]) -> None:
+    """Hatch the runs of ``held`` beds across the probability track, in the ink that
+    reads on each run's tract colour (:func:`~faciesseq.report.style.held_ink`): their
+    probability of 1 is the geologist's label, not the model's."""
+    runs = _runs(held, "tract")
+    inks = [held_ink(tract_colour(code, tracts)) for _, _, code in runs]
+    for ink in dict.fromkeys(inks):  # one collection per ink: a collection hatches in one
+        mine = [run for run, i in zip(runs, inks, strict=True) if i == ink]
+        _add_boxes(
+            ax,
+            [r[0] for r in mine],
+            [r[1] for r in mine],
+            0.0,
+            1.0,
+            "none",
+            edgecolors=ink,
+            hatch="\\\\\\",
+            linewidths=0,
+        )
 
 
 def _surface_track(
@@ -729,7 +770,8 @@ def strip_log(
     entries = _legend_entries(interp, scheme, tract_model, drawn)
     legend_h = _legend_height(entries, gaps)
     # depth tick labels: the digits of the deepest depth and a decimal point
-    rects = _panel_rects(PAGE_WIDTH, height, legend_h, len(f"{base:.0f}") + 1)
+    held = bool(held_beds(beds).any())
+    rects = _panel_rects(PAGE_WIDTH, height, legend_h, len(f"{base:.0f}") + 1, held)
     with figure_style():
         fig = new_figure(PAGE_WIDTH, height + legend_h)
         tracks, legend_ax = _track_axes(fig, rects)

@@ -30,6 +30,7 @@ from faciesseq.errors import ConfigError
 
 __all__ = [
     "FIGURE_SUFFIXES",
+    "HELD_NOTE",
     "PAGE_WIDTH",
     "SURFACE_COLOURS",
     "TRACT_COLOURS",
@@ -37,6 +38,7 @@ __all__ = [
     "facies_colour",
     "facies_colours",
     "figure_style",
+    "held_ink",
     "missing_glyphs_once",
     "new_figure",
     "save_figure",
@@ -109,6 +111,33 @@ def tract_colour(code: str, tracts: Sequence[str] = ()) -> str:
     extras = [t for t in tracts if t not in TRACT_COLOURS]
     k = extras.index(code) if code in extras else sum(map(ord, code))
     return _TRACT_EXTRA[k % len(_TRACT_EXTRA)]
+
+
+#: What the hatching of a bed held at the geologist's label means (``decode
+#: --keep-labels``), in the strip logs and the view: its tract and probability are the
+#: label's, not the model's.
+HELD_NOTE = "hatched: held at geologist's label"
+#: The two inks of that hatching: white over a dark tract colour, the page's ink over a
+#: light one (as the tract column writes its names).
+_HELD_INKS = ("#ffffff", "#1d2327")
+
+
+def _luminance(colour: str) -> float:
+    """Relative luminance of a ``#rrggbb`` colour (WCAG 2.1, after sRGB IEC 61966-2-1)."""
+    rgb = np.array([int(colour[k : k + 2], 16) for k in (1, 3, 5)]) / 255.0
+    linear = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
+    return float(linear @ [0.2126, 0.7152, 0.0722])
+
+
+def held_ink(colour: str) -> str:
+    """The ink of the held hatching over a tract drawn in ``colour``: of white and the
+    page's ink, the one of higher contrast ratio with it (WCAG 2.1, "Web Content
+    Accessibility Guidelines", contrast ratio (L1 + 0.05) / (L2 + 0.05))."""
+    lum = _luminance(colour)
+    light, dark = (_luminance(ink) for ink in _HELD_INKS)
+    white_ratio = (light + 0.05) / (lum + 0.05)
+    ink_ratio = (lum + 0.05) / (dark + 0.05)
+    return _HELD_INKS[0] if white_ratio >= ink_ratio else _HELD_INKS[1]
 
 
 def surface_colour(code: str, surfaces: Sequence[str] = ()) -> str:

@@ -8,7 +8,9 @@ known, else by proximality rank), the decoded (Viterbi) tract column, the
 tract posteriors stacked to 1, and the probability of each named surface at
 every contact with the picks marked. The reader zooms and scrolls in depth
 (wheel, drag, buttons or a depth range), hovers a bed for its numbers, and
-switches tracks on and off.
+switches tracks on and off. Beds held at the geologist's label (``decode
+--keep-labels``) are hatched in the probability track, and their readout says so in
+place of a probability of 1 that the model did not give.
 
 The page is one file: style sheet and script inline, the data embedded as
 JSON, drawn as inline SVG by plain JavaScript; nothing is fetched (a
@@ -26,7 +28,7 @@ from html import escape
 import numpy as np
 import pandas as pd
 
-from faciesseq.interpretation import CoreInterpretation, Interpretation
+from faciesseq.interpretation import CoreInterpretation, Interpretation, held_beds
 from faciesseq.report.striplog import (
     GRAIN_CLASSES,
     SURFACE_AXIS_END,
@@ -36,7 +38,13 @@ from faciesseq.report.striplog import (
     facies_name,
     pick_label,
 )
-from faciesseq.report.style import facies_colours, surface_colour, tract_colour
+from faciesseq.report.style import (
+    HELD_NOTE,
+    facies_colours,
+    held_ink,
+    surface_colour,
+    tract_colour,
+)
 from faciesseq.scheme import FaciesScheme, TractModel
 
 __all__ = ["SVG_HELPERS", "page_html", "view_data", "view_html"]
@@ -73,7 +81,11 @@ def _contacts(core: CoreInterpretation) -> tuple[list[int], list[int]]:
     return top, base
 
 
-def _core_data(core: CoreInterpretation, scheme: FaciesScheme | None) -> dict[str, object]:
+def _core_data(
+    core: CoreInterpretation, scheme: FaciesScheme | None, held: bool
+) -> dict[str, object]:
+    """The page's data of one core; ``held``: with the beds held at the geologist's label
+    (on every core of a page where some bed is)."""
     beds = core.beds
     if scheme is not None and len(beds):
         widths, measure = bed_widths(beds, scheme)
@@ -96,20 +108,23 @@ def _core_data(core: CoreInterpretation, scheme: FaciesScheme | None) -> dict[st
                 "depth_base": _number(getattr(p, "depth_base", depth)),
             }
         )
+    bed_data = {
+        "top": _numbers(beds["top"]),
+        "base": _numbers(beds["base"]),
+        "facies": beds["facies"].astype(str).tolist(),
+        "width": _numbers(widths, 4),
+        "tract": beds["tract"].astype(str).tolist(),
+        "p": [_numbers(beds[f"p_{t}"], 4) for t in core.tracts],
+        "top_contact": top_contact,
+        "base_contact": base_contact,
+    }
+    if held:
+        bed_data["held"] = held_beds(beds).tolist()
     return {
         "name": str(core.core),
         "units": str(core.units),
         "measure": measure,
-        "beds": {
-            "top": _numbers(beds["top"]),
-            "base": _numbers(beds["base"]),
-            "facies": beds["facies"].astype(str).tolist(),
-            "width": _numbers(widths, 4),
-            "tract": beds["tract"].astype(str).tolist(),
-            "p": [_numbers(beds[f"p_{t}"], 4) for t in core.tracts],
-            "top_contact": top_contact,
-            "base_contact": base_contact,
-        },
+        "beds": bed_data,
         "contacts": {
             "depth": _numbers(bounds["depth"]) if len(bounds) else [],
             "p": [_numbers(bounds[f"p_{s}"], 4) if len(bounds) else [] for s in core.surfaces],
@@ -223,7 +238,11 @@ def view_data(
         whether the page opens with every core hung on its own top
         (:func:`hang_by_default`; the reader switches between that and one
         absolute depth axis); ``window``: the depth window ``[top, base]`` it opens
-        on (:func:`opening_window`). Non-finite numbers are null.
+        on (:func:`opening_window`). Where some bed was held at the geologist's label
+        (:data:`~faciesseq.interpretation.CLAMPED`), every core's beds have ``held``
+        (true or false per bed) and ``held`` gives the legend's ``note`` and the ``ink``
+        of the hatching over each tract (:func:`~faciesseq.report.style.held_ink`);
+        elsewhere neither key is there. Non-finite numbers are null.
     """
     tracts = tuple(interpretation.tracts)
     surfaces = tuple(interpretation.surfaces)
@@ -232,7 +251,8 @@ def view_data(
     for sf in tract_model.surfaces:
         surface_names.setdefault(sf.code, sf.name)
     units = sorted({str(c.units) for c in interpretation})
-    cores = [_core_data(core, scheme) for core in interpretation if len(core.beds)]
+    held = bool(held_beds(interpretation.beds).any())
+    cores = [_core_data(core, scheme, held) for core in interpretation if len(core.beds)]
     ranges = [
         (float(core.beds["top"].min()), float(core.beds["base"].max()))
         for core in interpretation
@@ -240,7 +260,7 @@ def view_data(
     ]
     hang = hang_by_default(ranges)
     drawn = {code for core in interpretation if len(core.beds) for code in drawn_surfaces(core)}
-    return {
+    data = {
         "title": title if title is not None else "Decoded cores",
         "checked": interpretation.probabilities_checked,
         "labelled": interpretation.tracts_labelled,
@@ -267,6 +287,10 @@ def view_data(
         "hang": hang,
         "window": list(opening_window(ranges, hang)),
     }
+    if held:
+        inks = [held_ink(tract_colour(t, tracts)) for t in tracts]
+        data["held"] = {"note": HELD_NOTE, "ink": inks}
+    return data
 
 
 def script_json(data: object) -> str:
@@ -307,7 +331,16 @@ def view_html(
     contact are disjoint events.
     """
     data = view_data(interpretation, scheme, tract_model, title)
-    return page_html(_BODY, str(data["title"]), _CSS, data, _JS.replace("@SVG@", SVG_HELPERS))
+    return page_html(_BODY, str(data["title"]), _CSS, data, _script("held" in data))
+
+
+def _script(held: bool) -> str:
+    """The page's script; with the pieces that draw the beds held at the geologist's
+    label only where some bed is, so that a page without any is the one it always was."""
+    script = _JS.replace("@SVG@", SVG_HELPERS + (_HELD_FUNCTIONS if held else ""))
+    for mark, piece in _HELD_CALLS.items():
+        script = script.replace(mark, piece if held else "")
+    return script
 
 
 def page_html(body: str, title: str, css: str, data: object, script: str) -> str:
@@ -590,7 +623,7 @@ _JS = r"""
   const m = document.createElement("p"); m.className = "hint";
   m.textContent = measures.map(k => widthNote[k] || k).join("; ");
   document.querySelector("#legend .part").appendChild(m);
-  legendList("systems tract", tracts, "swatch");
+  legendList("systems tract", tracts, "swatch");@HELD_LEGEND@
   // only the surfaces some core's strip log draws (picked, or visible in a depth cell)
   legendList("surface", surfaces.filter(s => s.drawn).concat(
     [{code: "\u25c0", name: "pick: probability, uncertainty interval", colour: "#fff"}]), "line");
@@ -709,7 +742,7 @@ _JS = r"""
               fill: tr.colour, "data-bed": i}, g);
             left += p;
           });
-        }
+        }@HELD_TRACK@
         el("rect", {x: x, y: HEAD, width: t.width, height: plotH, fill: "none",
           stroke: "#888", "stroke-width": 0.5}, svg);
         [0, 0.5, 1].forEach(v => text(svg, x + v * t.width, HEAD + plotH + 12, String(v),
@@ -859,7 +892,7 @@ _JS = r"""
     const sub = document.createElement("div"); sub.className = "sub";
     sub.textContent = "tract probability" + (DATA.checked ? "" : " (not checked)");
     tip.appendChild(sub);
-    const pt = document.createElement("table"); tip.appendChild(pt);
+    const pt = document.createElement("table"); tip.appendChild(pt);@HELD_TIP@
     tracts.forEach((q, k) => row(pt, [q.code, prob(b.p[k][i])], {colour: q.colour, p: b.p[k][i]}));
     [["top", b.top_contact[i], b.top[i]], ["base", b.base_contact[i], b.base[i]]].forEach(c => {
       const s = document.createElement("div"); s.className = "sub";
@@ -938,3 +971,49 @@ _JS = r"""
   draw();
 })();
 """
+
+#: Script of the beds held at the geologist's label (``decode --keep-labels``): hatched
+#: over their tract in the probability track (one pattern per tract and core, in the ink
+#: of ``DATA.held.ink``), the readout without the model's probability, the legend's line.
+_HELD_FUNCTIONS = r"""  function drawHeld(core, defs, g, ci, x, width, first, last) {
+    const beds = core.beds;
+    for (let i = first; i < last; i++) {
+      if (!beds.held[i]) continue;
+      const k = Math.max(0, tracts.findIndex(q => q.code === beds.tract[i]));
+      const id = "held-" + ci + "-" + k;
+      if (!defs.querySelector("#" + id)) {
+        const pat = el("pattern", {id: id, width: 6, height: 6,
+          patternUnits: "userSpaceOnUse", patternTransform: "rotate(-45)"}, defs);
+        el("line", {x1: 0, y1: 0, x2: 0, y2: 6, stroke: DATA.held.ink[k],
+          "stroke-width": 1.6}, pat);
+      }
+      const y0 = y(beds.top[i]), h = Math.max(0.5, y(beds.base[i]) - y0);
+      el("rect", {x: x, y: y0, width: width, height: h, fill: "url(#" + id + ")",
+        "data-bed": i, class: "held"}, g);
+    }
+  }
+  function heldTip(b, i, sub, pt) {
+    if (!b.held[i]) return;
+    sub.textContent = "tract probability: none from the model \u2013 held at the " +
+      "geologist's label";
+    pt.hidden = true;  // the model gave no probability: the label holds the bed
+  }
+  function heldLegend() {
+    const parts = document.querySelectorAll("#legend .part");
+    const li = document.createElement("li"); li.className = "held";
+    const sw = document.createElement("span"); sw.className = "swatch";
+    sw.style.background = "repeating-linear-gradient(45deg, #1d2327 0 1.2px, #fff 1.2px 4.5px)";
+    li.appendChild(sw);
+    const label = document.createElement("span");
+    label.textContent = DATA.held.note + " (a probability of 1 from the label, not the model)";
+    li.appendChild(label);
+    parts[parts.length - 1].querySelector("ul").appendChild(li);
+  }
+"""
+
+#: Where the page's script calls them (empty where no bed is held).
+_HELD_CALLS = {
+    "@HELD_TRACK@": "\n        drawHeld(core, defs, g, ci, x, t.width, first, last);",
+    "@HELD_TIP@": "\n    heldTip(b, i, sub, pt);",
+    "@HELD_LEGEND@": "\n  heldLegend();",
+}
