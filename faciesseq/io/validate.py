@@ -12,7 +12,8 @@ errors
     ``zero-thickness``, ``overlap`` (larger than the tolerance),
     ``repeated-depth``, ``duplicate-core``, ``no-cores``
 warnings
-    ``gap``, ``irregular-spacing``, ``not-described`` (sample without a
+    ``gap``, ``irregular-spacing``, ``step-change`` (a samples log whose step
+    changes part-way, read as one succession), ``not-described`` (sample without a
     facies), ``null`` (LAS null values), ``encoding``, ``units``, ``units-suspect``
     (no units stated and depths that look like feet),
     ``no-core-column``, ``empty-core``, ``too-short``, ``grain-size``,
@@ -44,6 +45,14 @@ from faciesseq.errors import ConfigError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.contacts import known_contact, known_words
 from faciesseq.io.raw import NUMBER_NA_WORDS, RawTable, check_width
+from faciesseq.io.spacing import (
+    GAP_FACTOR,
+    Spacing,
+    irregular,
+    modal_step,
+    off_steps,
+    read_spacing,
+)
 from faciesseq.io.wording import COMMAND_LINE, Wording
 from faciesseq.scheme import FaciesScheme, _code
 
@@ -57,10 +66,8 @@ __all__ = [
 
 #: Overlaps up to this thickness (metres; 1 cm) are rounding: snapped and reported.
 OVERLAP_TOLERANCE_M = 0.01
-#: In the sample layout a depth step larger than this many sample spacings is a gap.
-GAP_FACTOR = 1.5
-#: A core's spacing is irregular when more than this share of its steps is not the modal step.
-IRREGULAR_SHARE = 0.05
+#: Changes of sample step named in the ``step-change`` warning before "and N more".
+SHOWN_CHANGES = 5
 #: Numbers that mean "no value" in exported well data.
 NULL_NUMBERS = (-999.25, -999.0, -9999.0)
 #: Depths deeper (or higher) than this, in metres or feet, are no depth: the Earth's
@@ -1088,16 +1095,12 @@ def _overlapping(i: int, part: pd.DataFrame, units: str, shown: int = 3) -> str:
     said = [text for _, text in found[:shown]]
     if len(found) > shown:
         said.append(f"{len(found) - shown} more row(s)")
-    return " and ".join(said) if len(said) < 3 else ", ".join(said[:-1]) + " and " + said[-1]
+    return _listed(said)
 
 
-def _modal_step(depth: np.ndarray) -> float | None:
-    steps = np.round(np.diff(depth), 6)
-    steps = steps[steps > DEPTH_TOL]
-    if len(steps) == 0:
-        return None
-    values, counts = np.unique(steps, return_counts=True)
-    return float(values[np.argmax(counts)])  # ties: the smallest spacing
+def _listed(items: list[str]) -> str:
+    """Items in words: ``a``, ``a and b``, ``a, b and c``."""
+    return " and ".join(items) if len(items) < 3 else ", ".join(items[:-1]) + " and " + items[-1]
 
 
 def _check_samples(
@@ -1155,39 +1158,47 @@ def _same(a: object, b: object) -> bool:
 
 def _samples_to_intervals(
     part: pd.DataFrame, attributes: list[str], step: float, file: str, core: str, units: str
-) -> tuple[pd.DataFrame, list[Problem]]:
+) -> tuple[pd.DataFrame, list[Problem], float]:
     """Run-length intervals from samples: each sample covers [depth - step/2, depth + step/2).
 
-    A core logged from depth 0 (its first sample at 0 or below) starts at 0, not half
-    a step above the top of the hole.
+    ``step`` is the core's modal spacing; where the core's step changes part-way
+    (:func:`~faciesseq.io.spacing.read_spacing`), each sample's step is the usual
+    step of the samples around it instead. A core logged from depth 0 (its first
+    sample at 0 or below) starts at 0, not half a step above the top of the hole.
 
-    Between two samples closer than ``GAP_FACTOR * step`` the boundary is the
+    Between two samples closer than ``GAP_FACTOR`` steps the boundary is the
     midpoint (so slightly irregular spacing leaves no slivers); a larger step
     is a gap. Runs of samples with the same facies *and* the same attribute
     values become one interval, so nothing is averaged away.
+
+    Returns the intervals, the problems found and the core's sample step (the
+    finest where the step changes).
     """
-    problems: list[Problem] = []
     depth = part["depth"].to_numpy(dtype=float)
     n = len(depth)
     diffs = np.diff(depth)
-    gap = diffs > GAP_FACTOR * step + DEPTH_TOL
+    spacing = read_spacing(diffs, step)
+    gap = spacing.gap
     top = np.empty(n)
     base = np.empty(n)
-    top[0] = depth[0] - step / 2
+    top_step, base_step = spacing.end_steps()
+    top[0] = depth[0] - top_step / 2
     if depth[0] >= 0:
         top[0] = max(top[0], 0.0)
-    base[-1] = depth[-1] + step / 2
+    base[-1] = depth[-1] + base_step / 2
     mid = (depth[:-1] + depth[1:]) / 2
-    base[:-1] = np.where(gap, depth[:-1] + step / 2, mid)
-    top[1:] = np.where(gap, depth[1:] - step / 2, mid)
+    base[:-1] = np.where(gap, depth[:-1] + spacing.above / 2, mid)
+    top[1:] = np.where(gap, depth[1:] - spacing.below / 2, mid)
     rows = part["_row"].to_numpy()
+    problems: list[Problem] = []
+    usual = spacing.usual
     for i in np.nonzero(gap)[0]:
         problems.append(
             Problem(
                 "warning",
                 "gap",
                 f"no samples from {depth[i]:g} to {depth[i + 1]:g} (step {diffs[i]:g} {units}, "
-                f"spacing {step:g}): gap from {base[i]:g} to {top[i + 1]:g}; successions are "
+                f"spacing {usual[i]:g}): gap from {base[i]:g} to {top[i + 1]:g}; successions are "
                 "split here",
                 file=file,
                 row=int(rows[i + 1]),
@@ -1196,11 +1207,11 @@ def _samples_to_intervals(
                 units=units,
             )
         )
-    if n > 1:
-        off_step = np.abs(diffs - step) > 1e-6 * max(step, 1.0)
-        ratio = diffs / step
-        off_grid = np.abs(ratio - np.round(ratio)) > 1e-3
-        if off_grid.any() or off_step.mean() > IRREGULAR_SHARE:
+    if len(spacing.changes):
+        problems.append(_step_change(spacing, depth, rows, file, core, units))
+    elif n > 1:
+        off_step, off_grid = off_steps(diffs, step, step)
+        if irregular(off_step, off_grid):
             problems.append(
                 Problem(
                     "warning",
@@ -1226,7 +1237,34 @@ def _samples_to_intervals(
     table = part.iloc[first][[*cols, "_file", "_row"]].reset_index(drop=True)
     table.insert(0, "base", base[last])
     table.insert(0, "top", top[first])
-    return table, problems
+    return table, problems, spacing.step
+
+
+def _step_change(
+    spacing: Spacing, depth: np.ndarray, rows: np.ndarray, file: str, core: str, units: str
+) -> Problem:
+    """The one warning of a core whose sample step changes: where, and from what to what."""
+    where = [
+        f"{depth[i]:g} {units} ({before:g} to {after:g} {units})"
+        for i, before, after in zip(
+            spacing.changes, spacing.steps[:-1], spacing.steps[1:], strict=True
+        )
+    ]
+    if len(where) > SHOWN_CHANGES:
+        where = [*where[:SHOWN_CHANGES], f"{len(where) - SHOWN_CHANGES} more"]
+    first = spacing.changes[0]
+    return Problem(
+        "warning",
+        "step-change",
+        f"the sample step changes at {_listed(where)}: read as one succession, each sample "
+        f"covering the step of the samples around it (sample step {spacing.step:g} {units}, "
+        "the finest)",
+        file=file,
+        row=int(rows[first]),
+        core=core,
+        depth=float(depth[first]),
+        units=units,
+    )
 
 
 def build_coreset(
@@ -1455,13 +1493,14 @@ def _take_samples(
         )
         gathered.problems += found
         gathered.pending.append((name, part, p))
-        step = _modal_step(part["depth"].to_numpy(dtype=float))
+        step = modal_step(part["depth"].to_numpy(dtype=float))
         if step is not None:
             gathered.steps[name] = step
 
 
 def _take_sampled_cores(gathered: _Gathered) -> None:
-    """Turn the checked samples of each core into intervals.
+    """Turn the checked samples of each core into intervals, and record each core's
+    sample step (its finest where the step changes part-way).
 
     A core of a single sample takes the median spacing of the other cores; with
     none to take it from, it is left out (``too-short``).
@@ -1483,8 +1522,7 @@ def _take_sampled_cores(gathered: _Gathered) -> None:
                 )
             )
             continue
-        steps[name] = step
-        table, found = _samples_to_intervals(
+        table, found, steps[name] = _samples_to_intervals(
             part, p.attributes, step, p.table.file, name, gathered.target
         )
         gathered.problems += found
