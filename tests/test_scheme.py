@@ -138,3 +138,29 @@ def test_tract_model_rejects_a_surface_on_a_forbidden_boundary():
     data["surfaces"].append({"lower": "TST", "upper": "FSST", "code": "X", "name": "x"})
     with pytest.raises(ConfigError, match="not a boundary"):
         TractModel.from_dict(data, source="t.yaml")
+
+
+@pytest.mark.parametrize(
+    ("entries", "line", "needle"),
+    [
+        ("  - {code: A, name: a, rank: 0}\n  - {code: B, name: b}\n", 4, "missing 'rank'"),
+        (
+            "  - {code: A, name: a, rank: 0}\n  - code: B\n    name: b\n    rank: deep\n",
+            4,
+            "'rank' must be a number",
+        ),
+        ("  - {code: A, name: a, rank: 0}\n\n  - {code: A, name: b, rank: 1}\n", 5, "duplicate"),
+        (
+            "  - {code: A, name: a, rank: 0}\n  - {code: B, name: b, rank: 1, aliases: [A]}\n",
+            4,
+            "clashes",
+        ),
+    ],
+)
+def test_bad_scheme_file_names_the_line_of_the_entry(tmp_path, entries, line, needle):
+    path = tmp_path / "bad.yaml"
+    path.write_text(f"# a scheme\nfacies:\n{entries}")
+    with pytest.raises(ConfigError) as err:
+        load_scheme(path)
+    assert str(err.value).startswith(f"{path}: line {line}: facies ")
+    assert needle in str(err.value)

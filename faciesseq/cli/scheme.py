@@ -119,9 +119,9 @@ def _suggestion_line(suggestion) -> str:
 
 
 def run_show(args: argparse.Namespace) -> int:
-    from faciesseq.scheme import FaciesScheme, TractModel, _read_yaml
+    from faciesseq.scheme import FaciesScheme, TractModel, _entry_lines, _read_yaml_node
 
-    data = _read_yaml(require_file(args.file))
+    data, node = _read_yaml_node(require_file(args.file))
     if isinstance(data, dict) and "tracts" in data:
         model = TractModel.from_dict(data, source=args.file)
         print(f"tract model: {model.name} ({args.file})")
@@ -133,7 +133,7 @@ def run_show(args: argparse.Namespace) -> int:
         for s in model.surfaces:
             print(f"  {s.lower} -> {s.upper}: {s.code} {s.name}")
         return 0
-    scheme = FaciesScheme.from_dict(data, source=args.file)
+    scheme = FaciesScheme.from_dict(data, source=args.file, lines=_entry_lines(node, "facies"))
     print(
         f"facies scheme: {scheme.name} ({args.file}); {len(scheme)} facies, landward to basinward"
     )
