@@ -164,3 +164,22 @@ def test_bad_scheme_file_names_the_line_of_the_entry(tmp_path, entries, line, ne
         load_scheme(path)
     assert str(err.value).startswith(f"{path}: line {line}: facies ")
     assert needle in str(err.value)
+
+
+def test_scheme_show_keeps_codes_and_names_in_columns(tmp_path, capsys):
+    """Codes longer than a few letters (``coastal plain``) stay apart from their names,
+    and every name starts in the same column."""
+    from faciesseq.cli import main
+
+    path = tmp_path / "long.yaml"
+    path.write_text(
+        "facies:\n"
+        "  - {code: coastal plain, name: rooted mudstone, rank: 0}\n"
+        "  - {code: FS, name: foreshore, rank: 1.5}\n"
+        "  - {code: ÖTZ, name: offshore transition, rank: 12}\n"
+    )
+    assert main(["scheme", "show", str(path)]) == 0
+    rows = capsys.readouterr().out.splitlines()[1:]
+    names = ("rooted mudstone", "foreshore", "offshore transition")
+    assert [row.index(name) for row, name in zip(rows, names)] == [rows[0].index(names[0])] * 3
+    assert "coastal plain  rooted mudstone" in rows[0]

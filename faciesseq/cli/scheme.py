@@ -137,6 +137,9 @@ def run_show(args: argparse.Namespace) -> int:
     print(
         f"facies scheme: {scheme.name} ({args.file}); {len(scheme)} facies, landward to basinward"
     )
+    ranks = {code: f"rank {scheme.rank(code):g}" for code in scheme.codes_by_rank}
+    rank_width = max(map(len, ranks.values()))
+    code_width = max(6, *map(len, scheme.codes))
     for code in scheme.codes_by_rank:
         f = scheme[code]
         extra = [f"group {f.group}"] if f.group else []
@@ -145,6 +148,7 @@ def run_show(args: argparse.Namespace) -> int:
         if f.aliases:
             extra.append("aliases " + ", ".join(f.aliases))
         print(
-            f"  rank {f.rank:g}  {f.code:<6} {f.name}" + (f" ({'; '.join(extra)})" if extra else "")
+            f"  {ranks[code]:<{rank_width}}  {f.code:<{code_width}}  {f.name}"
+            + (f" ({'; '.join(extra)})" if extra else "")
         )
     return 0
