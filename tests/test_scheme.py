@@ -183,3 +183,13 @@ def test_scheme_show_keeps_codes_and_names_in_columns(tmp_path, capsys):
     names = ("rooted mudstone", "foreshore", "offshore transition")
     assert [row.index(name) for row, name in zip(rows, names)] == [rows[0].index(names[0])] * 3
     assert "coastal plain  rooted mudstone" in rows[0]
+
+
+@pytest.mark.parametrize("name", ["scenario-ramp.yaml", "stacking-shoreface.yaml"])
+def test_scheme_show_of_a_scenario_says_what_the_file_is(name, capsys):
+    from faciesseq.cli import main
+
+    assert main(["scheme", "show", f"configs/{name}"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and name in err
+    assert "a simulation scenario, not a facies scheme or tract model" in err

@@ -290,3 +290,13 @@ def test_missing_scheme_file_names_the_scenario_and_the_key(tmp_path, text, key)
         load_any_scenario(path)
     message = str(info.value)
     assert message.startswith(f"{path}: {key}: ") and "nowhere.yaml" in message
+
+
+@pytest.mark.parametrize(
+    ("name", "kind"),
+    [("scheme-shoreface.yaml", "a facies scheme"), ("tracts-default.yaml", "a tract model")],
+)
+def test_a_scheme_or_tract_model_given_as_scenario_says_what_the_file_is(name, kind):
+    with pytest.raises(ConfigError) as info:
+        load_any_scenario(CONFIGS / name)
+    assert f"{name}: {kind}, not a simulation scenario" in str(info.value)

@@ -11,7 +11,7 @@ from faciesseq.cli._common import (
     read_source,
     require_file,
 )
-from faciesseq.errors import InputError
+from faciesseq.errors import ConfigError, InputError
 
 EXAMPLES = """\
 examples:
@@ -122,6 +122,12 @@ def run_show(args: argparse.Namespace) -> int:
     from faciesseq.scheme import FaciesScheme, TractModel, _entry_lines, _read_yaml_node
 
     data, node = _read_yaml_node(require_file(args.file))
+    if isinstance(data, dict) and not {"generator", "time", "base_level"}.isdisjoint(data):
+        raise ConfigError(
+            "a simulation scenario, not a facies scheme or tract model; run faciesseq "
+            "simulate on it, and scheme show on the scheme it names",
+            file=args.file,
+        )
     if isinstance(data, dict) and "tracts" in data:
         model = TractModel.from_dict(data, source=args.file)
         print(f"tract model: {model.name} ({args.file})")
