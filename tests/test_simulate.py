@@ -292,6 +292,8 @@ def test_labels_only_on_labelled_wells():
         ({"facies": {"scheme": SCHEME, "water_depth_m": {"XX": 1}}}, "'XX'"),
         ({"wells": [{"name": "A", "x_km": 500}]}, "beyond"),
         ({"base_level": {"kind": "sawtooth"}}, "base_level.kind"),
+        ({"supply": None}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
+        ({"supply": {}}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
     ],
 )
 def test_scenario_errors_name_the_key(change, needle):

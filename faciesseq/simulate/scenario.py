@@ -428,6 +428,12 @@ def _subsidence(r: _Reader) -> Subsidence:
 def _rate(r: _Reader, constant_key: str) -> RateCurve:
     if r.has(constant_key):
         return RateCurve(constant=r.number(constant_key, minimum=0.0))
+    if not r.has("table"):
+        raise ConfigError(
+            f"{r.path}: missing: give {constant_key} (a constant rate) or table "
+            "([[time, rate], ...])",
+            file=r.source,
+        )
     table = r.table("table")
     if np.any(table[:, 1] < 0):
         raise ConfigError(f"{r.key('table')}: rates must not be negative", file=r.source)
