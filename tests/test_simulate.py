@@ -294,6 +294,7 @@ def test_labels_only_on_labelled_wells():
         ({"base_level": {"kind": "sawtooth"}}, "base_level.kind"),
         ({"supply": None}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
         ({"supply": {}}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
+        ({"subsidence": None}, r"^subsidence: missing: give rate_m_per_kyr .* or "),
     ],
 )
 def test_scenario_errors_name_the_key(change, needle):

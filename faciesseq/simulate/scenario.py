@@ -417,6 +417,12 @@ def _subsidence(r: _Reader) -> Subsidence:
             )
         rate = r.number("rate_m_per_kyr")
         return Subsidence(rate, rate)
+    if not (r.has("landward_m_per_kyr") or r.has("basinward_m_per_kyr")):
+        raise ConfigError(
+            f"{r.path}: missing: give rate_m_per_kyr (constant) or landward_m_per_kyr and "
+            "basinward_m_per_kyr (a hinge)",
+            file=r.source,
+        )
     return Subsidence(
         r.number("landward_m_per_kyr"),
         r.number("basinward_m_per_kyr"),
