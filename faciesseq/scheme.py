@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from importlib import resources
 from os import PathLike
@@ -76,6 +76,11 @@ MAX_SUBSTATES = 100
 
 
 def _read_yaml(path: str | Path) -> Any:
+    return _read_yaml_node(path)[0]
+
+
+def _read_yaml_node(path: str | Path) -> tuple[Any, yaml.Node | None]:
+    """The parsed YAML file and its node tree (whose marks give the line of an entry)."""
     path = Path(path)
     try:
         text = path.read_text(encoding="utf-8")
@@ -87,12 +92,32 @@ def _read_yaml(path: str | Path) -> Any:
         raise ConfigError("not readable (permission denied)", file=str(path)) from None
     except UnicodeDecodeError as exc:
         raise ConfigError(f"not UTF-8 text ({exc.reason})", file=str(path)) from None
+    loader = yaml.SafeLoader(text)
     try:
-        return yaml.safe_load(text)
+        node = loader.get_single_node()
+        return (None if node is None else loader.construct_document(node)), node
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         line = f"line {mark.line + 1}: " if mark is not None else ""
         raise ConfigError(f"{line}not valid YAML", file=str(path)) from None
+    finally:
+        loader.dispose()
+
+
+def _entry_lines(node: yaml.Node | None, key: str) -> tuple[int, ...]:
+    """The 1-based line of each item of the list under ``key`` of a YAML mapping node
+    (empty where the node holds no such list)."""
+    if not isinstance(node, yaml.MappingNode):
+        return ()
+    for key_node, value in node.value:
+        if key_node.value == key and isinstance(value, yaml.SequenceNode):
+            return tuple(item.start_mark.line + 1 for item in value.value)
+    return ()
+
+
+def _at(lines: Sequence[int], i: int) -> str:
+    """``line N: `` for entry ``i`` (1-based) where its line is known, else nothing."""
+    return f"line {lines[i - 1]}: " if i <= len(lines) else ""
 
 
 def _code(value: Any) -> str:
@@ -198,8 +223,11 @@ class FaciesScheme:
 
     # -- construction -----------------------------------------------------
     @classmethod
-    def from_dict(cls, data: Any, source: str | None = None) -> FaciesScheme:
-        """Build and validate a scheme from parsed YAML (``source`` names the file)."""
+    def from_dict(
+        cls, data: Any, source: str | None = None, *, lines: Sequence[int] = ()
+    ) -> FaciesScheme:
+        """Build and validate a scheme from parsed YAML (``source`` names the file,
+        ``lines`` the line of each facies entry, named in its errors)."""
         if not isinstance(data, Mapping):
             raise ConfigError("a facies scheme must be a mapping with a 'facies' list", file=source)
         _check_keys(data, _SCHEME_KEYS, "", source)
@@ -207,8 +235,11 @@ class FaciesScheme:
         if not isinstance(entries, list) or not entries:
             raise ConfigError("'facies' must be a non-empty list of facies entries", file=source)
         seen: dict[str, int] = {}  # code -> its entry number
-        facies = [_facies_entry(entry, i, seen, source) for i, entry in enumerate(entries, 1)]
-        _check_aliases(facies, seen, source)
+        facies = [
+            _facies_entry(entry, i, seen, source, _at(lines, i))
+            for i, entry in enumerate(entries, 1)
+        ]
+        _check_aliases(facies, seen, source, lines)
         return cls(
             facies=tuple(facies),
             name=str(data.get("name", "unnamed scheme")),
@@ -330,16 +361,18 @@ def _check_present(entry: Mapping, keys: tuple[str, ...], here: str, source: str
             raise ConfigError(f"{here}: missing {key!r}", file=source)
 
 
-def _facies_entry(entry: Any, i: int, seen: dict[str, int], source: str | None) -> Facies:
+def _facies_entry(
+    entry: Any, i: int, seen: dict[str, int], source: str | None, at: str = ""
+) -> Facies:
     """Read facies entry ``i``: its keys, then code, name, rank, grain size, colour, the
     cycle base, setting and exposure flags and the aliases, in that order. ``seen``
-    (code -> entry number) gets the code."""
-    here = f"facies entry {i}"
+    (code -> entry number) gets the code; ``at`` (``line N: ``) leads every error."""
+    here = f"{at}facies entry {i}"
     if not isinstance(entry, Mapping):
         raise ConfigError(f"{here}: must be a mapping with code, name and rank", file=source)
     _check_keys(entry, _FACIES_KEYS, here, source)
-    code = _facies_code(entry, i, seen, source)
-    here = f"facies entry {i} (code {code!r})"
+    code = _facies_code(entry, i, seen, source, at)
+    here = f"{at}facies entry {i} (code {code!r})"
     name = entry.get("name")
     if not name:
         raise ConfigError(f"{here}: missing 'name'", file=source)
@@ -368,21 +401,23 @@ def _facies_entry(entry: Any, i: int, seen: dict[str, int], source: str | None) 
     )
 
 
-def _facies_code(entry: Mapping, i: int, seen: dict[str, int], source: str | None) -> str:
+def _facies_code(
+    entry: Mapping, i: int, seen: dict[str, int], source: str | None, at: str = ""
+) -> str:
     """The code of facies entry ``i``: present, not a YAML yes/no, not the code of an
     earlier entry; recorded in ``seen``."""
     if entry.get("code") is None:
-        raise ConfigError(f"facies entry {i}: missing 'code'", file=source)
+        raise ConfigError(f"{at}facies entry {i}: missing 'code'", file=source)
     if isinstance(entry["code"], bool):
         raise ConfigError(
-            f"facies entry {i}: code {entry['code']!r} was read as a yes/no value; put the code "
-            'in quotes (e.g. code: "OFF")',
+            f"{at}facies entry {i}: code {entry['code']!r} was read as a yes/no value; put the "
+            'code in quotes (e.g. code: "OFF")',
             file=source,
         )
     code = _code(entry["code"])
     if code in seen:
         raise ConfigError(
-            f"facies entry {i} (code {code!r}): duplicate code, already used by facies entry "
+            f"{at}facies entry {i} (code {code!r}): duplicate code, already used by facies entry "
             f"{seen[code]}",
             file=source,
         )
@@ -447,20 +482,23 @@ def _facies_setting(entry: Mapping, here: str, source: str | None) -> tuple[bool
     return cycle_base, setting, exposure
 
 
-def _check_aliases(facies: list[Facies], seen: dict[str, int], source: str | None) -> None:
+def _check_aliases(
+    facies: list[Facies], seen: dict[str, int], source: str | None, lines: Sequence[int] = ()
+) -> None:
     """Refuse an alias that is another facies' code or an alias of another facies."""
     owner: dict[str, str] = {}
     for f in facies:
+        at = _at(lines, seen[f.code])
         for alias in f.aliases:
             if alias in seen and alias != f.code:
                 raise ConfigError(
-                    f"facies {f.code!r}: alias {alias!r} clashes with the code of "
+                    f"{at}facies {f.code!r}: alias {alias!r} clashes with the code of "
                     f"facies entry {seen[alias]}",
                     file=source,
                 )
             if alias in owner and owner[alias] != f.code:
                 raise ConfigError(
-                    f"facies {f.code!r}: alias {alias!r} is already an alias of "
+                    f"{at}facies {f.code!r}: alias {alias!r} is already an alias of "
                     f"facies {owner[alias]!r}",
                     file=source,
                 )
@@ -720,8 +758,9 @@ def _surfaces(entries: Any, model: TractModel, source: str | None) -> list[Surfa
 
 
 def load_scheme(path: str | Path) -> FaciesScheme:
-    """Read and validate a facies scheme YAML file."""
-    return FaciesScheme.from_dict(_read_yaml(path), source=str(path))
+    """Read and validate a facies scheme YAML file (errors name the entry's line)."""
+    data, node = _read_yaml_node(path)
+    return FaciesScheme.from_dict(data, source=str(path), lines=_entry_lines(node, "facies"))
 
 
 def as_scheme(scheme: FaciesScheme | str | PathLike | None) -> FaciesScheme | None:

@@ -138,3 +138,58 @@ def test_tract_model_rejects_a_surface_on_a_forbidden_boundary():
     data["surfaces"].append({"lower": "TST", "upper": "FSST", "code": "X", "name": "x"})
     with pytest.raises(ConfigError, match="not a boundary"):
         TractModel.from_dict(data, source="t.yaml")
+
+
+@pytest.mark.parametrize(
+    ("entries", "line", "needle"),
+    [
+        ("  - {code: A, name: a, rank: 0}\n  - {code: B, name: b}\n", 4, "missing 'rank'"),
+        (
+            "  - {code: A, name: a, rank: 0}\n  - code: B\n    name: b\n    rank: deep\n",
+            4,
+            "'rank' must be a number",
+        ),
+        ("  - {code: A, name: a, rank: 0}\n\n  - {code: A, name: b, rank: 1}\n", 5, "duplicate"),
+        (
+            "  - {code: A, name: a, rank: 0}\n  - {code: B, name: b, rank: 1, aliases: [A]}\n",
+            4,
+            "clashes",
+        ),
+    ],
+)
+def test_bad_scheme_file_names_the_line_of_the_entry(tmp_path, entries, line, needle):
+    path = tmp_path / "bad.yaml"
+    path.write_text(f"# a scheme\nfacies:\n{entries}")
+    with pytest.raises(ConfigError) as err:
+        load_scheme(path)
+    assert str(err.value).startswith(f"{path}: line {line}: facies ")
+    assert needle in str(err.value)
+
+
+def test_scheme_show_keeps_codes_and_names_in_columns(tmp_path, capsys):
+    """Codes longer than a few letters (``coastal plain``) stay apart from their names,
+    and every name starts in the same column."""
+    from faciesseq.cli import main
+
+    path = tmp_path / "long.yaml"
+    path.write_text(
+        "facies:\n"
+        "  - {code: coastal plain, name: rooted mudstone, rank: 0}\n"
+        "  - {code: FS, name: foreshore, rank: 1.5}\n"
+        "  - {code: ÖTZ, name: offshore transition, rank: 12}\n"
+    )
+    assert main(["scheme", "show", str(path)]) == 0
+    rows = capsys.readouterr().out.splitlines()[1:]
+    names = ("rooted mudstone", "foreshore", "offshore transition")
+    assert [row.index(name) for row, name in zip(rows, names)] == [rows[0].index(names[0])] * 3
+    assert "coastal plain  rooted mudstone" in rows[0]
+
+
+@pytest.mark.parametrize("name", ["scenario-ramp.yaml", "stacking-shoreface.yaml"])
+def test_scheme_show_of_a_scenario_says_what_the_file_is(name, capsys):
+    from faciesseq.cli import main
+
+    assert main(["scheme", "show", f"configs/{name}"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and name in err
+    assert "a simulation scenario, not a facies scheme or tract model" in err

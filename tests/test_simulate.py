@@ -292,6 +292,9 @@ def test_labels_only_on_labelled_wells():
         ({"facies": {"scheme": SCHEME, "water_depth_m": {"XX": 1}}}, "'XX'"),
         ({"wells": [{"name": "A", "x_km": 500}]}, "beyond"),
         ({"base_level": {"kind": "sawtooth"}}, "base_level.kind"),
+        ({"supply": None}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
+        ({"supply": {}}, r"^supply: missing: give rate_m2_per_kyr .* or table"),
+        ({"subsidence": None}, r"^subsidence: missing: give rate_m_per_kyr .* or "),
     ],
 )
 def test_scenario_errors_name_the_key(change, needle):
@@ -386,3 +389,25 @@ def test_simulate_takes_the_path_of_a_scenario_file_of_either_generator():
     assert isinstance(stacked, StackingResult)
     with pytest.raises(TypeError, match="Scenario"):
         simulate({"name": "x"})
+
+
+def test_base_level_figure_legends_cover_no_curve(quiet):
+    """The legends of the base-level figure stand beside the panels, so no peak of the
+    base level or of a rate is hidden behind one (they sat on the upper right)."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from faciesseq.report.simulation_figures import base_level_figure
+
+    name, history = next(iter(quiet.sections.items()))
+    fig = base_level_figure(history, quiet.scenario)
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    legends = [(ax, ax.get_legend()) for ax in fig.axes if ax.get_legend() is not None]
+    assert len(legends) == 2
+    for ax, legend in legends:
+        box, panel = legend.get_window_extent(renderer), ax.get_window_extent(renderer)
+        assert not box.overlaps(panel), name
+    import matplotlib.pyplot as plt
+
+    plt.close(fig)

@@ -260,3 +260,43 @@ def test_cli_writes_cores_and_refuses_an_existing_output(tmp_path, capsys):
     assert err.count("\n") == 1 and "--force" in err
     assert main(["simulate", scenario, "-o", str(out), "--force", "--seed", "3"]) == 0
     assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".")] == []
+
+
+def test_default_scheme_loads_outside_the_source_tree(tmp_path, monkeypatch):
+    """A stacking scenario without ``scheme`` reads the shipped shoreface scheme from
+    any working folder, not only from the top of a source checkout."""
+    path = tmp_path / "plain.yaml"
+    path.write_text("generator: stacking\ncores: 2\n")
+    monkeypatch.chdir(tmp_path)
+    scenario = load_stacking_scenario(path)
+    assert scenario.scheme.name == "wave-dominated shoreface-shelf"
+
+
+@pytest.mark.parametrize(
+    ("text", "key"),
+    [
+        ("generator: stacking\nscheme: nowhere.yaml\n", "scheme"),
+        (None, "facies.scheme"),
+    ],
+)
+def test_missing_scheme_file_names_the_scenario_and_the_key(tmp_path, text, key):
+    path = tmp_path / "bad.yaml"
+    if text is None:
+        data = yaml.safe_load((CONFIGS / "scenario-ramp.yaml").read_text())
+        data["facies"]["scheme"] = "nowhere.yaml"
+        text = yaml.safe_dump(data)
+    path.write_text(text)
+    with pytest.raises(ConfigError) as info:
+        load_any_scenario(path)
+    message = str(info.value)
+    assert message.startswith(f"{path}: {key}: ") and "nowhere.yaml" in message
+
+
+@pytest.mark.parametrize(
+    ("name", "kind"),
+    [("scheme-shoreface.yaml", "a facies scheme"), ("tracts-default.yaml", "a tract model")],
+)
+def test_a_scheme_or_tract_model_given_as_scenario_says_what_the_file_is(name, kind):
+    with pytest.raises(ConfigError) as info:
+        load_any_scenario(CONFIGS / name)
+    assert f"{name}: {kind}, not a simulation scenario" in str(info.value)

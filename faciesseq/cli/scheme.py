@@ -11,7 +11,7 @@ from faciesseq.cli._common import (
     read_source,
     require_file,
 )
-from faciesseq.errors import InputError
+from faciesseq.errors import ConfigError, InputError
 
 EXAMPLES = """\
 examples:
@@ -119,9 +119,15 @@ def _suggestion_line(suggestion) -> str:
 
 
 def run_show(args: argparse.Namespace) -> int:
-    from faciesseq.scheme import FaciesScheme, TractModel, _read_yaml
+    from faciesseq.scheme import FaciesScheme, TractModel, _entry_lines, _read_yaml_node
 
-    data = _read_yaml(require_file(args.file))
+    data, node = _read_yaml_node(require_file(args.file))
+    if isinstance(data, dict) and not {"generator", "time", "base_level"}.isdisjoint(data):
+        raise ConfigError(
+            "a simulation scenario, not a facies scheme or tract model; run faciesseq "
+            "simulate on it, and scheme show on the scheme it names",
+            file=args.file,
+        )
     if isinstance(data, dict) and "tracts" in data:
         model = TractModel.from_dict(data, source=args.file)
         print(f"tract model: {model.name} ({args.file})")
@@ -133,10 +139,13 @@ def run_show(args: argparse.Namespace) -> int:
         for s in model.surfaces:
             print(f"  {s.lower} -> {s.upper}: {s.code} {s.name}")
         return 0
-    scheme = FaciesScheme.from_dict(data, source=args.file)
+    scheme = FaciesScheme.from_dict(data, source=args.file, lines=_entry_lines(node, "facies"))
     print(
         f"facies scheme: {scheme.name} ({args.file}); {len(scheme)} facies, landward to basinward"
     )
+    ranks = {code: f"rank {scheme.rank(code):g}" for code in scheme.codes_by_rank}
+    rank_width = max(map(len, ranks.values()))
+    code_width = max(6, *map(len, scheme.codes))
     for code in scheme.codes_by_rank:
         f = scheme[code]
         extra = [f"group {f.group}"] if f.group else []
@@ -145,6 +154,7 @@ def run_show(args: argparse.Namespace) -> int:
         if f.aliases:
             extra.append("aliases " + ", ".join(f.aliases))
         print(
-            f"  rank {f.rank:g}  {f.code:<6} {f.name}" + (f" ({'; '.join(extra)})" if extra else "")
+            f"  {ranks[code]:<{rank_width}}  {f.code:<{code_width}}  {f.name}"
+            + (f" ({'; '.join(extra)})" if extra else "")
         )
     return 0

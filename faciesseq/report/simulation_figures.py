@@ -145,23 +145,20 @@ def base_level_figure(history, scenario):
     for start, end, tract in _tract_spans(t, history.tract):
         for a in (ax, ax2, ax3):
             a.axvspan(start, end, color=TRACT_COLOURS.get(tract, "0.8"), alpha=0.45, lw=0)
-    ax.plot(t, history.base_level_m, color="k", lw=1.3, label="eustatic base level")
+    ax.plot(t, history.base_level_m, color="k", lw=1.3, label="eustatic\nbase level")
     ax.set_ylabel("base level (m)")
     ax.set_title(f"{scenario.name}: base level and systems tracts (section {history.name!r})")
     handles = [Patch(color=c, alpha=0.6, label=k) for k, c in TRACT_COLOURS.items()]
-    ax.legend(
-        handles=[*ax.get_legend_handles_labels()[0], *handles],
-        fontsize=8,
-        ncol=5,
-        loc="upper right",
-    )
+    # beside the panels, not on them: a legend inside hid the peaks of the curves
+    beside = {"fontsize": 8, "loc": "upper left", "bbox_to_anchor": (1.01, 1.0)}
+    ax.legend(handles=[*ax.get_legend_handles_labels()[0], *handles], **beside)
     mid = 0.5 * (t[1:] + t[:-1])
     ax2.plot(
         mid,
         history.relative_rate_m_per_kyr,
         color="k",
         lw=1.0,
-        label="relative base-level rate at shoreline",
+        label="relative base-level\nrate at shoreline",
     )
     # the rate at the previous shoreline jumps from step to step as the shoreline crosses
     # cells; a running mean over five steps shows its course (bypass steps left out)
@@ -179,11 +176,11 @@ def base_level_figure(history, scenario):
         smooth,
         color="#8c6d3f",
         lw=1.0,
-        label="sedimentation rate at shoreline (5-step running mean)",
+        label="sedimentation rate\nat shoreline (5-step\nrunning mean)",
     )
     ax2.axhline(0, color="0.3", lw=0.6)
     ax2.set_ylabel("rate (m/kyr)")
-    ax2.legend(fontsize=8, loc="upper right")
+    ax2.legend(**beside)
     ax3.plot(t, history.shoreline_km, color="#3a7bd5", lw=1.2)
     ax3.set_ylabel("shoreline (km along dip)")
     ax3.invert_yaxis()

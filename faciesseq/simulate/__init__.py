@@ -243,6 +243,13 @@ def load_any_scenario(path: str | Path) -> Scenario | StackingScenario:
         Naming the file and the key, for any problem in the scenario.
     """
     data = _read_yaml(path)
+    if isinstance(data, Mapping) and ("tracts" in data or isinstance(data.get("facies"), list)):
+        kind = "a tract model" if "tracts" in data else "a facies scheme"
+        raise ConfigError(
+            f"{kind}, not a simulation scenario; a scenario names its scheme under "
+            "'scheme' (generator: stacking) or 'facies.scheme' (docs/simulate.md)",
+            file=str(path),
+        )
     generator = data.get("generator") if isinstance(data, Mapping) else None
     if generator is None:
         return scenario_from_dict(data, source=str(path))

@@ -417,6 +417,12 @@ def _subsidence(r: _Reader) -> Subsidence:
             )
         rate = r.number("rate_m_per_kyr")
         return Subsidence(rate, rate)
+    if not (r.has("landward_m_per_kyr") or r.has("basinward_m_per_kyr")):
+        raise ConfigError(
+            f"{r.path}: missing: give rate_m_per_kyr (constant) or landward_m_per_kyr and "
+            "basinward_m_per_kyr (a hinge)",
+            file=r.source,
+        )
     return Subsidence(
         r.number("landward_m_per_kyr"),
         r.number("basinward_m_per_kyr"),
@@ -428,6 +434,12 @@ def _subsidence(r: _Reader) -> Subsidence:
 def _rate(r: _Reader, constant_key: str) -> RateCurve:
     if r.has(constant_key):
         return RateCurve(constant=r.number(constant_key, minimum=0.0))
+    if not r.has("table"):
+        raise ConfigError(
+            f"{r.path}: missing: give {constant_key} (a constant rate) or table "
+            "([[time, rate], ...])",
+            file=r.source,
+        )
     table = r.table("table")
     if np.any(table[:, 1] < 0):
         raise ConfigError(f"{r.key('table')}: rates must not be negative", file=r.source)
@@ -569,7 +581,7 @@ def _facies(fac: _Reader) -> tuple[FaciesScheme, tuple[tuple[str, float], ...]]:
     Every band names a code of the scheme and a number; the limits increase,
     shallowest first. Codes are returned as the scheme's own (aliases resolved).
     """
-    scheme = load_scheme(_scheme_path(fac.text("scheme"), fac.source))
+    scheme = scenario_scheme(fac, "scheme")
     bands_raw = fac.data.get("water_depth_m")
     if not isinstance(bands_raw, Mapping) or not bands_raw:
         raise ConfigError(
@@ -599,14 +611,23 @@ def _facies(fac: _Reader) -> tuple[FaciesScheme, tuple[tuple[str, float], ...]]:
     return scheme, tuple(bands)
 
 
-def _scheme_path(text: str, source: str | None) -> Path:
-    """The scheme file: a relative path beside the scenario file when one is there."""
-    scheme_path = Path(text)
-    if not scheme_path.is_absolute() and source is not None:
-        beside = Path(source).parent / scheme_path
+def scenario_scheme(r: _Reader, name: str, default: Path | None = None) -> FaciesScheme:
+    """The facies scheme a scenario names under ``name`` (``default`` where it names
+    none): a relative path beside the scenario file first, then from the working
+    folder; a file in neither is refused naming the scenario and the key."""
+    text = r.text(name) if r.has(name) or default is None else str(default)
+    path = Path(text)
+    if not path.is_absolute() and r.source is not None:
+        beside = Path(r.source).parent / path
         if beside.exists():
-            return beside
-    return scheme_path
+            path = beside
+    if not path.exists():
+        raise ConfigError(
+            f"{r.key(name)}: scheme file {text!r} not found (looked beside the scenario "
+            "file and in the working folder)",
+            file=r.source,
+        )
+    return load_scheme(path)
 
 
 def _sections(top: _Reader, subsidence: Subsidence) -> tuple[Section, ...]:

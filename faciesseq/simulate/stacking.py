@@ -39,6 +39,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from importlib import resources
 from pathlib import Path
 from typing import Any
 
@@ -51,10 +52,9 @@ from faciesseq.scheme import (
     FaciesScheme,
     TractModel,
     _read_yaml,
-    load_scheme,
     permissive_tract_model,
 )
-from faciesseq.simulate.scenario import _probability, _Reader
+from faciesseq.simulate.scenario import _probability, _Reader, scenario_scheme
 from faciesseq.simulate.wells import history_tract_model, surface_path
 
 __all__ = [
@@ -331,13 +331,9 @@ def _flag(r: _Reader, name: str, default: bool) -> bool:
 
 
 def _scheme(r: _Reader) -> FaciesScheme:
-    """The facies scheme; a relative path is looked for beside the scenario file first."""
-    path = Path(r.text("scheme", "configs/scheme-shoreface.yaml"))
-    if not path.is_absolute() and r.source is not None:
-        beside = Path(r.source).parent / path
-        if beside.exists():
-            path = beside
-    scheme = load_scheme(path)
+    """The facies scheme; without one, the shoreface scheme shipped with the package."""
+    shipped = Path(str(resources.files("faciesseq").joinpath("data/demo/scheme-shoreface.yaml")))
+    scheme = scenario_scheme(r, "scheme", default=shipped)
     if len(scheme) < 3:
         raise ConfigError(
             f"scheme: {scheme.name!r} has {len(scheme)} facies; parasequences need at least 3",
