@@ -411,3 +411,37 @@ def test_base_level_figure_legends_cover_no_curve(quiet):
     import matplotlib.pyplot as plt
 
     plt.close(fig)
+
+
+def test_simulation_figures_draw_each_tract_in_the_colour_of_every_other_output(quiet):
+    """A tract keeps one colour in every figure (common practice in a report): the
+    base-level figure's tract bands and the section's shoreline trajectory take the
+    project's palette, the one of the strip logs, sections and views."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import to_hex
+    from matplotlib.patches import Rectangle
+
+    from faciesseq.report.simulation_figures import base_level_figure
+    from faciesseq.report.style import TRACT_COLOURS
+
+    name, history = next(iter(quiet.sections.items()))
+    fig = base_level_figure(history, quiet.scenario)
+    bands = {
+        to_hex(p.get_facecolor(), keep_alpha=False)
+        for ax in fig.axes
+        for p in ax.patches
+        if isinstance(p, Rectangle) or p.get_label().startswith("_")
+    }
+    legend = {
+        t.get_text(): to_hex(h.get_facecolor(), keep_alpha=False)
+        for ax in fig.axes
+        if ax.get_legend() is not None
+        for h, t in zip(ax.get_legend().legend_handles, ax.get_legend().get_texts(), strict=True)
+        if t.get_text() in TRACT_COLOURS
+    }
+    plt.close(fig)
+    assert legend == TRACT_COLOURS, name
+    assert bands and bands <= set(TRACT_COLOURS.values()), bands

@@ -1,20 +1,17 @@
 """Figures of a forward-model run: the dip section and the base-level curve.
 
 Functions return a matplotlib :class:`~matplotlib.figure.Figure`; the caller
-saves it. Colours: facies from the scheme, tracts from the project's own
-palette below.
+saves it. Colours: facies from the scheme, tracts from the project's own palette
+(:data:`faciesseq.report.style.TRACT_COLOURS`, as in the strip logs, sections and views).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from faciesseq.report.style import facies_colour
+from faciesseq.report.style import TRACT_COLOURS, facies_colour
 
-#: The project's own tract colours (upward cycle HST -> FSST -> LST -> TST).
-TRACT_COLOURS = {"HST": "#e9c46a", "FSST": "#e76f51", "LST": "#8ab17d", "TST": "#5fa8d3"}
-
-__all__ = ["TRACT_COLOURS", "base_level_figure", "cores_figure", "section_figure"]
+__all__ = ["base_level_figure", "cores_figure", "section_figure"]
 
 
 def _tract_spans(time: np.ndarray, tract: np.ndarray) -> list[tuple[float, float, str]]:
