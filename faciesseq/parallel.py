@@ -32,6 +32,7 @@ from faciesseq.errors import ConfigError
 
 __all__ = [
     "CONNECT_TIMEOUT",
+    "NO_WORKERS_TIMEOUT",
     "SCHEDULER_ENV",
     "SchedulerError",
     "Workers",
@@ -46,6 +47,9 @@ __all__ = [
 SCHEDULER_ENV = "FACIESSEQ_SCHEDULER"
 #: Seconds to wait for a Dask scheduler to answer before giving up.
 CONNECT_TIMEOUT = 5.0
+#: Seconds a run waits on a Dask cluster left with no workers (the last one killed or
+#: stopped mid-run) before giving up; a worker joining in that time carries the run on.
+NO_WORKERS_TIMEOUT = 30.0
 #: A scheduler address: protocol, host and port (``tcp://10.0.0.5:8786``).
 _ADDRESS = re.compile(r"^(tcp|tls|ws|wss)://[^\s/:]+:\d{1,5}$")
 
@@ -130,6 +134,42 @@ def _client(address: str):
         raise _unreachable(address, exc) from None
 
 
+def _gather(client, futures: list, address: str) -> list[Any]:
+    """The results of ``futures`` on ``client``, in order.
+
+    The scheduler keeps the jobs of a cluster without workers waiting for ever, so the
+    workers are counted every second of the wait.
+
+    Raises
+    ------
+    SchedulerError
+        The cluster had no workers for :data:`NO_WORKERS_TIMEOUT` seconds, or its
+        scheduler stopped answering; the jobs are cancelled.
+    """
+    import time
+
+    alone_since = None
+    asked = time.monotonic()
+    while not all(future.done() for future in futures):
+        time.sleep(0.05)
+        if time.monotonic() - asked < 1.0:
+            continue
+        asked = time.monotonic()
+        try:
+            workers = len(client.nthreads())
+        except (OSError, TimeoutError) as exc:
+            raise _unreachable(address, exc) from None
+        alone_since = None if workers else (alone_since or asked)
+        if alone_since is not None and asked - alone_since >= NO_WORKERS_TIMEOUT:
+            client.cancel(futures)
+            raise SchedulerError(
+                f"the Dask cluster at {address} has had no workers for "
+                f"{NO_WORKERS_TIMEOUT:g} s (they stopped mid-run); start workers "
+                "(dask worker) and run again"
+            )
+    return client.gather(futures)
+
+
 def run_jobs(
     function: Callable[..., Any],
     arguments: Sequence[tuple],
@@ -161,7 +201,7 @@ def run_jobs(
     if scheduler:
         with _client(scheduler) as client:
             futures = [client.submit(function, *a, pure=False) for a in jobs]
-            return client.gather(futures)
+            return _gather(client, futures, scheduler)
     if int(n_jobs) <= 1 or len(jobs) <= 1:
         return [function(*a) for a in jobs]
     from joblib import Parallel, delayed
@@ -244,7 +284,7 @@ class Workers:
         """:func:`run_jobs` on these workers: the results in the order of ``arguments``."""
         if self._client is not None:
             futures = [self._client.submit(function, *a, pure=False) for a in arguments]
-            return self._client.gather(futures)
+            return _gather(self._client, futures, self.scheduler)
         if self._folder is not None:
             jobs = [(function, tuple(a)) for a in arguments]
             return run_jobs(_with_stored, jobs, self.n_jobs, None)

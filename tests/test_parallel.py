@@ -333,3 +333,55 @@ def test_restarts_as_jobs_run_their_chunks_in_turn_with_the_same_result(monkeypa
     _, inside = _chunked_fit(labels=True, n_restarts=2, n_jobs=2)
     assert workers == [(1, None), (1, None)]  # no jobs started inside a job
     assert inside == serial
+
+
+# ------------------------------------------------- a cluster that loses its workers
+@pytest.fixture
+def workerless_cluster(monkeypatch):
+    """A scheduler whose workers are gone (as when the last one is killed mid-run)."""
+    distributed = pytest.importorskip("distributed")
+    monkeypatch.setattr(parallel, "NO_WORKERS_TIMEOUT", 1.0, raising=False)
+    with distributed.LocalCluster(n_workers=0, processes=True, dashboard_address=None) as local:
+        yield local.scheduler_address
+
+
+def _in_thread(function, *args):
+    """What ``function(*args)`` returns or raises, or ``"hung"`` after 30 s."""
+    import threading
+
+    outcome = ["hung"]
+
+    def call():
+        try:
+            outcome[0] = function(*args)
+        except BaseException as exc:  # handed to the test
+            outcome[0] = exc
+
+    thread = threading.Thread(target=call, daemon=True)
+    thread.start()
+    thread.join(30)
+    return outcome[0]
+
+
+def test_jobs_on_a_cluster_without_workers_fail_instead_of_waiting(workerless_cluster):
+    outcome = _in_thread(parallel.run_jobs, _square, [(2,), (3,)], 1, workerless_cluster)
+    assert isinstance(outcome, parallel.SchedulerError), outcome
+    assert "no workers" in str(outcome)
+    with parallel.Workers(scheduler=workerless_cluster) as workers:
+        outcome = _in_thread(workers.run, _square, [(2,), (3,)])
+    assert isinstance(outcome, parallel.SchedulerError), outcome
+
+
+def test_workers_lost_mid_run_exit_2_with_one_line(
+    database, tmp_path, workerless_cluster, monkeypatch
+):
+    monkeypatch.setattr(parallel, "check_scheduler", lambda address: 1)  # alive when checked
+    out = tmp_path / "markov"
+    args = ["markov", str(database / "cores.csv"), "--surrogates", "600", "--seed", "1"]
+    outcome = _in_thread(_run, *args, "--scheduler", workerless_cluster, "-o", str(out))
+    assert outcome != "hung"
+    code, _, err = outcome
+    assert code == 2
+    assert err.count("\n") == 1 and "no workers" in err, err
+    assert "Traceback" not in err and not out.exists()
+    assert not list(tmp_path.iterdir())  # no temporary folder left beside the output

@@ -96,6 +96,7 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
     from pathlib import Path
 
     from faciesseq.hmm.modelfile import coreset_digest, file_digest
+    from faciesseq.report.provenance import mask_url
 
     source = Path(args.source)
     digests = {}
@@ -112,11 +113,11 @@ def _provenance(args: argparse.Namespace, cores, tracts_file: str | None) -> dic
 
     sources = label_source_counts(cores)  # labels per review sheet, after `relabel`
     return ({"label_sources": sources} if sources else {}) | {
-        "source": str(args.source),
+        "source": mask_url(str(args.source)),
         "input_hashes": digests,
         "data_hash": coreset_digest(cores),
         "labels": args.labels,
-        "command": ["faciesseq", *sys.argv[1:]] if sys.argv else None,
+        "command": ["faciesseq", *map(mask_url, sys.argv[1:])] if sys.argv else None,
         "seed": args.seed,
     }
 

@@ -151,7 +151,7 @@ def provenance(
         "platform": platform.platform(),
         "inputs": files,
         "seeds": dict(seeds or {}),
-        "command_line": list(command_line) if command_line is not None else None,
+        "command_line": ([mask_url(a) for a in command_line] if command_line is not None else None),
         "date": when.isoformat(timespec="seconds"),
         "notes": list(notes),
     }
