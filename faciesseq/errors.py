@@ -7,6 +7,7 @@ one line on standard error and the exception's ``exit_code``.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Literal
@@ -21,6 +22,12 @@ def some_of(names: Sequence[str], shown: int = 5) -> str:
     return listed + (f" and {len(names) - shown} more" if len(names) > shown else "")
 
 
+def mask_url(url: str) -> str:
+    """A database URL with any password replaced by ``***`` (every message, model file
+    and provenance record names a database source this way)."""
+    return re.sub(r"(://[^/:@]+:)[^@/]*@", r"\1***@", url)
+
+
 def where(
     file: str | None = None,
     row: int | None = None,
@@ -33,11 +40,12 @@ def where(
     Parts that are ``None`` are left out; an empty string means "nowhere in
     particular". ``row`` is the 1-based data row of the source (the header is not
     counted: data row 12 of a CSV file with one header line is its line 13, and row
-    13 of a spreadsheet), named "data row" so that nobody takes it for a line.
+    13 of a spreadsheet), named "data row" so that nobody takes it for a line. A
+    database URL is named without its password (:func:`mask_url`).
     """
     parts: list[str] = []
     if file:
-        parts.append(str(file))
+        parts.append(mask_url(str(file)))
     if row is not None:
         parts.append(f"data row {row}")
     if core is not None:

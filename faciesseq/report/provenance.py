@@ -10,13 +10,13 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import platform
-import re
 from collections.abc import Iterable, Mapping, Sequence
 from importlib import metadata
 from pathlib import Path
 from typing import Any
 
 from faciesseq._version import __version__
+from faciesseq.errors import mask_url
 
 __all__ = [
     "display_path",
@@ -69,11 +69,6 @@ def display_path(path: str | Path, base: str | Path | None = None) -> str:
         return p.resolve().relative_to(Path(base or Path.cwd()).resolve()).as_posix()
     except ValueError:
         return p.name
-
-
-def mask_url(url: str) -> str:
-    """A database URL with any password replaced by ``***``."""
-    return re.sub(r"(://[^/:@]+:)[^@/]*@", r"\1***@", url)
 
 
 def file_record(path: str | Path, role: str) -> dict[str, Any]:
