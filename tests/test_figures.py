@@ -510,3 +510,32 @@ def test_every_surface_colour_stands_apart_from_every_tract_colour():
     assert min(apart) >= 25
     # lines on the white page stay dark or strong enough to see
     assert min(np.linalg.norm(_cielab(s) - _cielab("#ffffff")) for s in surfaces) >= 40
+
+
+def test_relationship_diagram_of_a_grid_reads_the_steps_between_facies():
+    # a grid analysis counts each cell's step to the next, so its diagonal holds most
+    # transitions and no step to another facies exceeds what independence expects;
+    # the diagram draws the transitions between different facies, as of beds (Miall
+    # 1973 draws the embedded chain), and says so in its title
+    import matplotlib.pyplot as plt
+
+    from faciesseq.markov import analyse
+    from faciesseq.report.markov_section import GRID_DIAGRAM_TITLE, relationship_diagram
+
+    rng = np.random.default_rng(3)
+    cycle = [0, 1, 2, 3]  # upward A -> B -> C -> D -> A, each bed 3-8 cells thick
+    succession = np.concatenate([np.full(rng.integers(3, 9), cycle[k % 4]) for k in range(160)])
+    codes = ["A", "B", "C", "D"]
+    grid = analyse([succession], codes, unit="grid", max_order=1)
+    beds = analyse([succession[np.r_[True, np.diff(succession) != 0]]], codes, max_order=1)
+
+    def arrows(report):
+        fig = relationship_diagram(report)
+        drawn = [p for p in fig.axes[0].patches if type(p).__name__ == "FancyArrowPatch"]
+        title = fig.axes[0].get_title()
+        plt.close(fig)
+        return len(drawn), title
+
+    assert not (np.asarray(grid.first_order.difference)[~np.eye(4, dtype=bool)] > 0.05).any()
+    assert arrows(beds) == (4, "")
+    assert arrows(grid) == (4, GRID_DIAGRAM_TITLE)

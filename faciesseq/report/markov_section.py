@@ -292,19 +292,40 @@ def relationship_diagram(report, scheme: FaciesScheme | None = None):
     """The facies relationship diagram of a :class:`~faciesseq.markov.MarkovReport`.
 
     Arrows for cells of the first-order difference matrix above chance (structural
-    zeros left out), solid where the adjusted residual is significant; see
+    zeros left out), solid where the adjusted residual is significant; of a grid
+    analysis, those of its transitions between different facies
+    (:func:`_between_facies`); see
     :func:`faciesseq.report.figures.facies_relationship_diagram`.
     """
     from faciesseq.report import figures
 
-    fo = report.first_order
+    fo = report.first_order if report.embedded else _between_facies(report)
     codes = list(report.codes)
     return figures.facies_relationship_diagram(
         _masked(fo.difference, fo.structural, codes),
         scheme,
         significant=_labelled(fo.significant, codes).astype(bool),
         order=None if scheme is not None else _suggested_order(report.counts, codes),
+        title="" if report.embedded else GRID_DIAGRAM_TITLE,
     )
+
+
+#: The title of the diagram of a grid analysis, which reads its transitions between
+#: different facies.
+GRID_DIAGRAM_TITLE = "transitions between different facies (cells of one facies merged)"
+
+
+def _between_facies(report):
+    """The quasi-independence test of a grid analysis' transitions between different
+    facies: what a relationship diagram draws (Miall 1973 draws the embedded chain).
+    The grid's own test counts every cell's step to the next, so that the diagonal
+    holds most of its transitions and every step to another facies falls below what
+    independence expects: its difference matrix has no cell to draw."""
+    from faciesseq.markov.contingency import independence_test
+
+    counts = np.asarray(report.counts, dtype=float).copy()
+    np.fill_diagonal(counts, 0.0)
+    return independence_test(counts, embedded=True, alpha=report.alpha)
 
 
 def _suggested_order(counts, codes) -> list[str] | None:
