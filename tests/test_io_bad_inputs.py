@@ -196,12 +196,12 @@ CASES = [
     ("no-data-rows", {"c.csv": HEAD}, [], 1, "no-cores", "error", "no usable cores"),
     (
         "missing-core",
-        {"c.csv": HEAD + "W1,0,1,A\n,1,2,B\nW1,2,3,B\n"},
+        {"c.csv": HEAD + ",0,1,A\nW1,1,2,B\nW1,2,3,B\n"},
         [],
         1,
         "missing-core",
         "error",
-        "c.csv, data row 2: no core identifier",
+        "c.csv, data row 1: no core identifier",
     ),
 ]
 

@@ -168,7 +168,7 @@ def test_check_json_stays_valid_json_when_a_row_has_no_core_name(tmp_path, capsy
     """A row without a core name is reported with ``"core": null`` (it was NaN, which
     is not JSON, and the command ended in a traceback)."""
     f = tmp_path / "samples.csv"
-    f.write_text("well,depth,facies\nA,1.0,3\nA,1.5,4\nB,2,4\nB,3,9\n,5,1\n")
+    f.write_text("well,depth,facies\n,0.5,1\nA,1.0,3\nA,1.5,4\nB,2,4\nB,3,9\n")
     scheme = Path(__file__).resolve().parents[1] / "configs" / "scheme-shoreface.yaml"
     assert main(["check", str(f), "--scheme", str(scheme), "--format", "json"]) == 1
     doc = json.loads(capsys.readouterr().out)

@@ -255,6 +255,8 @@ def _of_cores(problems: tuple[Problem, ...]) -> list[Problem]:
     warning and the ones made again for the whole file stops the read."""
     if any(p.core is None and p.kind not in _OF_FILE for p in problems):
         raise NotStreamable("a problem of the file, not of a core")
+    if any(p.kind == "blank-core" for p in problems):  # a batch may start in a block
+        raise NotStreamable("core names written once for their block of rows")
     return [p for p in problems if p.core is not None]
 
 

@@ -571,6 +571,7 @@ def _core_column(
     n = len(src)
     if "core" in match.roles:
         cores = _categorical(src[match.roles["core"]], facies_code)
+        cores = _names_read_down(cores, table.file, rows, problems)
         for i in np.flatnonzero(cores.codes < 0):
             bad[i] = True
             problems.append(
@@ -592,6 +593,43 @@ def _core_column(
             )
         )
     return pd.Series(pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), [name]))
+
+
+def _names_read_down(
+    cores: pd.Categorical, file: str, rows: np.ndarray, problems: list[Problem]
+) -> pd.Categorical:
+    """Blank core names read as the name above them, a repair per block of blank rows.
+
+    A spreadsheet's core name is often written once for its block of rows (merged
+    cells, or a name typed once): the blank rows below a name belong to it. Blank rows
+    above the first name stay blank (an error each)."""
+    codes = np.asarray(cores.codes)
+    blank = codes < 0
+    if not blank.any():
+        return cores
+    named = np.where(blank, -1, np.arange(len(codes)))
+    above = np.maximum.accumulate(named)
+    filled = blank & (above >= 0)
+    if not filled.any():
+        return cores
+    starts = np.flatnonzero(filled & ~np.r_[False, filled[:-1]])
+    ends = np.flatnonzero(filled & ~np.r_[filled[1:], False])
+    for start, end in zip(starts, ends, strict=True):
+        name = cores.categories[codes[above[start]]]
+        span = f"data row {rows[start]}" if start == end else f"data rows {rows[start]}-{rows[end]}"
+        problems.append(
+            Problem(
+                "repair",
+                "blank-core",
+                f"no core name on {span}: read as {name!r}, the name on the row above (a "
+                "name written once for its block of rows); write it on every row if not",
+                file=file,
+                row=int(rows[start]),
+                core=name,
+            )
+        )
+    codes = np.where(filled, codes[np.maximum(above, 0)], codes)
+    return pd.Categorical.from_codes(codes, cores.categories, validate=False)
 
 
 def _facies_column(
