@@ -587,3 +587,17 @@ def test_depths_at_zero_and_below_are_not_warned_of(tmp_path):
     path = tmp_path / "c.csv"
     path.write_text("core,top,base,facies\nW1,0,1,A\nW1,1,2,B\n")
     assert not [p for p in read_cores(path).problems if p.kind == "negative-depth"]
+
+
+def test_a_facies_code_in_another_case_than_the_schemes_is_named_with_the_schemes(tmp_path, capsys):
+    # codes are matched exactly (some codings tell case apart), so 'b' is refused;
+    # the message names the scheme's code it differs from only in case or spaces
+    (tmp_path / "scheme.yaml").write_text(SCHEME)
+    (tmp_path / "c.csv").write_text(HEAD + "W1,0,1,A\nW1,1,2,b\nW1,2,3,X\n")
+    code = main(["check", str(tmp_path / "c.csv"), "--scheme", str(tmp_path / "scheme.yaml")])
+    out = capsys.readouterr().out
+    assert code == 1
+    line = next(x for x in out.splitlines() if "facies code 'b'" in x)
+    assert "write it as 'B', or add 'b' to that facies' aliases" in line
+    line = next(x for x in out.splitlines() if "facies code 'X'" in x)
+    assert line.endswith("add it (code or alias) to the scheme")

@@ -706,11 +706,23 @@ def _unknown_facies(
                 "error",
                 "unknown-facies",
                 f"facies code {code!r}{count} is not in scheme {scheme.name!r} and is not an "
-                "alias of one of its facies; add it (code or alias) to the scheme",
+                f"alias of one of its facies; {_unknown_code_remedy(code, scheme)}",
                 **where.at(idx[0]),
             )
         )
     return problems
+
+
+def _unknown_code_remedy(code: str, scheme: FaciesScheme) -> str:
+    """How to mend a code the scheme lacks: where it differs from a scheme code only in
+    case or spaces (``usf`` for ``USF``), that code named, since codes are matched
+    exactly (some codings tell case apart)."""
+    near = [
+        c for c in scheme.codes if c.casefold().replace(" ", "") == code.casefold().replace(" ", "")
+    ]
+    if near:
+        return f"write it as {near[0]!r}, or add {code!r} to that facies' aliases"
+    return "add it (code or alias) to the scheme"
 
 
 def _attribute_columns(
