@@ -601,3 +601,19 @@ def test_a_facies_code_in_another_case_than_the_schemes_is_named_with_the_scheme
     assert "write it as 'B', or add 'b' to that facies' aliases" in line
     line = next(x for x in out.splitlines() if "facies code 'X'" in x)
     assert line.endswith("add it (code or alias) to the scheme")
+
+
+def test_depths_written_for_people_say_how_to_write_them(tmp_path, capsys):
+    # a depth with its unit or with thousands separators is refused (a unit per cell
+    # could differ from row to row; a separator is a decimal mark elsewhere) with the
+    # way to write it
+    (tmp_path / "c.csv").write_text(
+        HEAD + 'W1,0,12.5 m,A\nW1,12.5,"1,234.5",B\nW1,1234.5,1240ft,A\nW1,1240,1241,B\n'
+    )
+    assert main(["check", str(tmp_path / "c.csv"), "--units", "m"]) == 1
+    out = capsys.readouterr().out.splitlines()
+    unit = [x for x in out if "'12.5 m' is not a number" in x or "'1240ft' is not" in x]
+    assert len(unit) == 2
+    assert all("write the number alone and give the units in the header" in x for x in unit)
+    grouped = next(x for x in out if "'1,234.5' is not a number" in x)
+    assert "write it without thousands separators" in grouped

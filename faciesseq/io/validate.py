@@ -332,7 +332,7 @@ def _depths(
             )
         else:
             kind, message = "bad-depth", f"{role} {str(value).strip()!r} is not a number"
-            message += _units_row_hint(value)
+            message += _units_row_hint(value) or _written_number_hint(value)
         where = {"file": file, "row": int(rows[i]), "core": cores.iloc[i]}
         errors.append((i, Problem("error", kind, message, **where)))
     return numbers[ids], errors
@@ -350,6 +350,31 @@ def _units_row_hint(value: object) -> str:
         " (a row of units under the header? delete it and give the units in the header, "
         "e.g. 'top (ft)', or once for the source (--units; units= in Python))"
     )
+
+
+#: A number followed by a unit word (``12.5 m``, ``41ft``).
+_WITH_UNIT = re.compile(r"^\s*[-+]?\d[\d.,]*\s*([A-Za-z.']+)\s*$")
+#: A number with thousands separators: ``1,234.5`` or ``1.234,5``.
+_GROUPED = re.compile(r"^\s*[-+]?\d{1,3}([,.\u00a0 ])\d{3}(\1\d{3})*([.,]\d+)?\s*$")
+
+
+def _written_number_hint(value: object) -> str:
+    """Where a depth cell holds a number written for people (with its unit, or with
+    thousands separators): how to write it for reading. Else ``""``."""
+    text = str(value)
+    unit = _WITH_UNIT.match(text)
+    if unit is not None:
+        try:
+            normalise_units(unit.group(1))
+        except InputError:
+            return ""
+        return (
+            " (write the number alone and give the units in the header, e.g. 'top (m)', "
+            "or once for the source: --units; units= in Python)"
+        )
+    if _GROUPED.match(text):
+        return " (write it without thousands separators: 1234.5)"
+    return ""
 
 
 @dataclass
