@@ -617,3 +617,22 @@ def test_depths_written_for_people_say_how_to_write_them(tmp_path, capsys):
     assert all("write the number alone and give the units in the header" in x for x in unit)
     grouped = next(x for x in out if "'1,234.5' is not a number" in x)
     assert "write it without thousands separators" in grouped
+
+
+@pytest.mark.parametrize("streamed", [False, True])
+def test_a_comment_line_before_the_header_is_refused_in_one_line(tmp_path, capsys, streamed):
+    # a '#' line above the header was read as the header, and every data row then
+    # reported ragged ("7 cells, but the header names 1 columns")
+    path = tmp_path / "c.csv"
+    path.write_text("# cores of the Quillerby field, described 2025\n" + HEAD + "W1,0,1,A\n")
+    if streamed:  # not streamed: read whole, where the general reader refuses it
+        from faciesseq.io import stream_cores
+
+        assert stream_cores(path) is None
+        with pytest.raises(InputError, match="first line starts with '#'"):
+            read_cores(path)
+        return
+    assert main(["check", str(path)]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "first line starts with '#': comment lines are not read" in err[0]
+    assert str(path.name) in err[0]

@@ -33,7 +33,16 @@ def check_width(n_columns: int, file: str) -> None:
 def check_header(names, file: str) -> None:
     """Refuse a header that names one column twice (a copy pasted beside the original,
     a query selecting a column twice): which of the two holds the data is not ours to
-    guess, and a table with two columns of one name cannot be read column by column."""
+    guess, and a table with two columns of one name cannot be read column by column.
+    A first line starting with ``#`` is refused too: a comment line, which would be
+    read as the header and every data row then found ragged."""
+    first = next((str(n).strip() for n in names), "")
+    if first.startswith("#"):
+        raise InputError(
+            "the first line starts with '#': comment lines are not read; delete them, "
+            "so that the header is the first line",
+            file=file,
+        )
     seen: dict[str, int] = {}
     for number, name in enumerate((str(n).strip() for n in names), start=1):
         if not name:

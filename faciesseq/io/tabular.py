@@ -292,6 +292,8 @@ def plain_header(path: Path) -> tuple[str, list[str]] | None:
     delimiter = sniff_delimiter(head, path.suffix.lower())
     names = [n.strip() for n in head.splitlines()[0].split(delimiter)]
     check_width(len(names), str(path))
+    if names[0].startswith("#"):
+        return None  # a comment line: the general reader refuses it (check_header)
     if "" in names or len(set(names)) < len(names) or any('"' in n for n in names):
         return None
     return delimiter, names
