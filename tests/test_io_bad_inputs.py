@@ -636,3 +636,30 @@ def test_a_comment_line_before_the_header_is_refused_in_one_line(tmp_path, capsy
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "first line starts with '#': comment lines are not read" in err[0]
     assert str(path.name) in err[0]
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".xlsx"])
+def test_a_title_above_the_header_is_named_with_the_row_of_the_header(tmp_path, capsys, suffix):
+    # a spreadsheet with a title and a blank line above its column names: the names
+    # are found below and the message says which row to make the header
+    import pandas as pd
+
+    rows = [
+        ["Core descriptions, Quillerby field", None, None, None],
+        [None, None, None, None],
+        ["core", "top", "base", "facies"],
+        ["W1", 0, 1, "A"],
+        ["W1", 1, 2, "B"],
+    ]
+    path = tmp_path / f"c{suffix}"
+    frame = pd.DataFrame(rows[1:], columns=rows[0])
+    if suffix == ".csv":
+        frame.to_csv(path, index=False)
+    else:
+        pytest.importorskip("openpyxl")
+        frame.to_excel(path, index=False)
+    assert main(["check", str(path)]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1, err
+    assert "missing required column(s)" in err[0]
+    assert "the column names stand on data row 2: delete the rows above them" in err[0]

@@ -84,6 +84,10 @@ class RawTable:
     other_sheets
         Sheet name -> header of each other sheet of a workbook read without a
         sheet named (its first sheet), for a message where the first lacks columns.
+    head_rows
+        ``(data row, cells)`` of the first rows as stored, every cell, where ``frame``
+        keeps fewer (a worksheet is cut to its header's width): a message where the
+        header lacks columns looks for the column names in them.
     """
 
     frame: pd.DataFrame
@@ -95,6 +99,7 @@ class RawTable:
     roles: dict[str, str] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
     other_sheets: dict[str, list[str]] = field(default_factory=dict)
+    head_rows: list[tuple[int, list]] = field(default_factory=list)
 
     def __post_init__(self) -> None:
         check_header(self.frame.columns, self.file)

@@ -34,6 +34,8 @@ __all__ = [
 ]
 
 TEXT_SUFFIXES = (".csv", ".tsv", ".txt", ".tab")
+#: The first rows of a worksheet kept whole for a message (:attr:`RawTable.head_rows`).
+HEAD_ROWS = 20
 _DELIMITERS = ",;\t|"
 
 
@@ -475,7 +477,10 @@ def read_excel(path: Path, sheet: str | None = None) -> RawTable:
     keep = frame.notna().any(axis=1).to_numpy()
     frame = frame[keep].reset_index(drop=True)
     label = file if sheet is None else f"{file} [{sheet}]"
-    return RawTable(frame.astype(object), label, rows[keep].tolist(), other_sheets=others)
+    head = [(k, list(r)) for k, r in enumerate(cells[1 : HEAD_ROWS + 1], start=1)]
+    return RawTable(
+        frame.astype(object), label, rows[keep].tolist(), other_sheets=others, head_rows=head
+    )
 
 
 def _sheet_header(ws) -> list[str]:

@@ -41,7 +41,7 @@ import numpy as np
 import pandas as pd
 
 from faciesseq.core import DEPTH_TOL, Core, CoreSet, CoreTable, in_units, plain_frame
-from faciesseq.errors import ConfigError, InputError, Problem
+from faciesseq.errors import ConfigError, FaciesseqError, InputError, Problem
 from faciesseq.io.columns import ColumnMatch, match_columns, normalise_units
 from faciesseq.io.contacts import known_contact, known_words
 from faciesseq.io.raw import NUMBER_NA_WORDS, RawTable, check_width
@@ -412,10 +412,32 @@ def _layout(
         hint = wording.columns(missing)
         raise InputError(
             f"missing required column(s) {', '.join(missing)} for the {layout} layout; the "
-            f"columns are {names}; {_other_sheets_hint(table, wording)}map them with {hint}",
+            f"columns are {names}; {_header_below_hint(table, need)}"
+            f"{_other_sheets_hint(table, wording)}map them with {hint}",
             file=table.file,
         )
     return layout
+
+
+def _header_below_hint(table: RawTable, need: tuple[str, ...], rows: int = 20) -> str:
+    """Where one of the first ``rows`` data rows holds the column names a layout needs
+    (a title and blank lines above the header, as spreadsheets often have): which row,
+    and to delete the rows above it. Else ``""``."""
+    head = table.head_rows or zip(
+        table.row_numbers()[:rows], table.frame.head(rows).itertuples(index=False)
+    )
+    for row, values in head:
+        names = [str(v).strip() for v in values if not _is_blank(v)]
+        try:
+            found = match_columns(names).roles
+        except FaciesseqError:
+            continue
+        if all(role in found for role in need):
+            return (
+                f"the column names stand on data row {int(row)}: delete the rows "
+                "above them, so that they are the header; "
+            )
+    return ""
 
 
 def _other_sheets_hint(table: RawTable, wording: Wording) -> str:
