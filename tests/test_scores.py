@@ -1,11 +1,19 @@
 """Scores of a decoded tract column against a known one (faciesseq.scores).
 
-Every expected number is worked out by hand in a comment beside the table.
+Every expected number is worked out by hand in a comment beside the table, or taken
+from scikit-learn where the tests say so.
 """
+
+import warnings
 
 import numpy as np
 import pandas as pd
 import pytest
+from sklearn.metrics import (
+    accuracy_score,
+    balanced_accuracy_score,
+    precision_recall_fscore_support,
+)
 
 from faciesseq.errors import InputError
 from faciesseq.scores import (
@@ -214,3 +222,87 @@ def test_boundary_f1_matches_one_to_one_closest_pair_first():
     assert np.isnan(empty.precision) and empty.recall == 0 and empty.f1 == 0
     assert np.isnan(boundary_f1([], [], tolerance=1).f1)
     assert boundary_f1([1.0], [1.0], 0.0).to_dict()["f1"] == 1.0
+
+
+# ---------------------------------------------------------------- scikit-learn as reference
+# The numbers below are pinned to scikit-learn (sklearn.metrics, the version the test
+# extra installs), an implementation of the same definitions written independently of
+# this project: balanced_accuracy_score, accuracy_score, confusion_matrix,
+# precision_recall_fscore_support, f1_score, brier_score_loss, log_loss and
+# sklearn.calibration.calibration_curve.
+
+SK_TRACTS = ["HST", "FSST", "LST", "TST"]
+
+
+def _column(rows):
+    """Beds of one core in contact from (truth, decoded, thickness) rows."""
+    thick = np.array([r[2] for r in rows], dtype=float)
+    top = np.concatenate([[0.0], np.cumsum(thick)[:-1]])
+    return pd.DataFrame(
+        {
+            "core": "A",
+            "top": top,
+            "base": top + thick,
+            "true_tract": [r[0] for r in rows],
+            "tract": [r[1] for r in rows],
+        }
+    )
+
+
+def test_balanced_tract_accuracy_is_scikit_learns_weighted_balanced_accuracy():
+    # FSST is decoded but never true (its recall is not averaged); HST is true but
+    # never decoded (recall 0)
+    beds = _column(
+        [
+            ("TST", "TST", 2.0),
+            ("TST", "FSST", 0.5),
+            ("HST", "TST", 1.5),
+            ("HST", "FSST", 1.0),
+            ("LST", "LST", 3.0),
+            ("LST", "TST", 1.0),
+        ]
+    )
+    res = balanced_tract_accuracy(beds)
+    y, pred, w = beds["true_tract"], beds["tract"], beds["base"] - beds["top"]
+    with warnings.catch_warnings():  # scikit-learn warns of FSST, decoded and never true
+        warnings.simplefilter("ignore", UserWarning)
+        reference = balanced_accuracy_score(y, pred, sample_weight=w)
+    assert res.balanced_accuracy == pytest.approx(reference)
+    assert res.accuracy == pytest.approx(accuracy_score(y, pred, sample_weight=w))
+    assert set(res.recall) == {"TST", "HST", "LST"}
+    _, sk_recall, _, _ = precision_recall_fscore_support(
+        y, pred, labels=["TST", "HST", "LST"], sample_weight=w, zero_division=0
+    )
+    assert [res.recall[t] for t in ("TST", "HST", "LST")] == pytest.approx(sk_recall)
+    # unweighted, as scikit-learn without sample_weight
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        unweighted = balanced_accuracy_score(y, pred)
+    assert balanced_tract_accuracy(beds, weight=None).balanced_accuracy == pytest.approx(unweighted)
+
+
+def test_balanced_tract_accuracy_leaves_out_a_tract_whose_beds_have_no_thickness():
+    # LST is true only on beds of zero thickness: it has no weight in the truth, so no
+    # recall to average, and scikit-learn's weighted balanced accuracy leaves it out
+    # (TST 2 / 3 m right, HST 1 / 1 m: (2/3 + 1) / 2); it must not turn the score NaN
+    beds = _column(
+        [
+            ("TST", "TST", 2.0),
+            ("LST", "TST", 0.0),
+            ("TST", "HST", 1.0),
+            ("LST", "LST", 0.0),
+            ("HST", "HST", 1.0),
+        ]
+    )
+    res = balanced_tract_accuracy(beds)
+    w = beds["base"] - beds["top"]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        reference = balanced_accuracy_score(beds["true_tract"], beds["tract"], sample_weight=w)
+    assert reference == pytest.approx((2 / 3 + 1) / 2)
+    assert res.balanced_accuracy == pytest.approx(reference)
+    assert res.support["LST"] == 0.0 and np.isnan(res.recall["LST"])
+    # zero-thickness beds weigh nothing in the plain accuracy either: 3 of 4 m
+    plain = accuracy_score(beds["true_tract"], beds["tract"], sample_weight=w)
+    assert res.accuracy == pytest.approx(plain)
+    assert res.accuracy == pytest.approx(0.75)
