@@ -86,9 +86,11 @@ class TractAccuracy:
     Attributes
     ----------
     balanced_accuracy
-        Mean over the tracts present in the truth of their weighted recall.
+        Mean over the tracts present in the truth with a positive weight of their
+        weighted recall.
     recall
-        Tract -> weighted recall (share of the tract's true weight decoded as it).
+        Tract -> weighted recall (share of the tract's true weight decoded as it;
+        NaN for a tract whose true rows weigh nothing, e.g. beds of no thickness).
     support
         Tract -> total weight of the tract in the truth.
     accuracy
@@ -159,7 +161,10 @@ def balanced_tract_accuracy(
         sel = truth == tract
         support[str(tract)] = float(w[sel].sum())
         recall[str(tract)] = _ratio(w[sel & right].sum(), w[sel].sum())
-    balanced = float(np.mean(list(recall.values()))) if recall else float("nan")
+    # a tract true only on rows of no weight (beds of no thickness) has no recall to
+    # average, as in scikit-learn's weighted balanced_accuracy_score
+    weighed = [recall[t] for t in recall if support[t] > 0]
+    balanced = float(np.mean(weighed)) if weighed else float("nan")
     return TractAccuracy(balanced, recall, support, _ratio(w[right].sum(), w.sum()))
 
 

@@ -1,11 +1,19 @@
 """Scores of a decoded tract column against a known one (faciesseq.scores).
 
-Every expected number is worked out by hand in a comment beside the table.
+Every expected number is worked out by hand in a comment beside the table, or taken
+from scikit-learn where the tests say so.
 """
+
+import warnings
 
 import numpy as np
 import pandas as pd
 import pytest
+from sklearn.metrics import (
+    accuracy_score,
+    balanced_accuracy_score,
+    precision_recall_fscore_support,
+)
 
 from faciesseq.errors import InputError
 from faciesseq.scores import (
@@ -214,3 +222,220 @@ def test_boundary_f1_matches_one_to_one_closest_pair_first():
     assert np.isnan(empty.precision) and empty.recall == 0 and empty.f1 == 0
     assert np.isnan(boundary_f1([], [], tolerance=1).f1)
     assert boundary_f1([1.0], [1.0], 0.0).to_dict()["f1"] == 1.0
+
+
+# ---------------------------------------------------------------- scikit-learn as reference
+# The numbers below are pinned to scikit-learn (sklearn.metrics, the version the test
+# extra installs), an implementation of the same definitions written independently of
+# this project: balanced_accuracy_score, accuracy_score, confusion_matrix,
+# precision_recall_fscore_support, f1_score, brier_score_loss, log_loss and
+# sklearn.calibration.calibration_curve.
+
+SK_TRACTS = ["HST", "FSST", "LST", "TST"]
+
+
+def _column(rows):
+    """Beds of one core in contact from (truth, decoded, thickness) rows."""
+    thick = np.array([r[2] for r in rows], dtype=float)
+    top = np.concatenate([[0.0], np.cumsum(thick)[:-1]])
+    return pd.DataFrame(
+        {
+            "core": "A",
+            "top": top,
+            "base": top + thick,
+            "true_tract": [r[0] for r in rows],
+            "tract": [r[1] for r in rows],
+        }
+    )
+
+
+def test_balanced_tract_accuracy_is_scikit_learns_weighted_balanced_accuracy():
+    # FSST is decoded but never true (its recall is not averaged); HST is true but
+    # never decoded (recall 0)
+    beds = _column(
+        [
+            ("TST", "TST", 2.0),
+            ("TST", "FSST", 0.5),
+            ("HST", "TST", 1.5),
+            ("HST", "FSST", 1.0),
+            ("LST", "LST", 3.0),
+            ("LST", "TST", 1.0),
+        ]
+    )
+    res = balanced_tract_accuracy(beds)
+    y, pred, w = beds["true_tract"], beds["tract"], beds["base"] - beds["top"]
+    with warnings.catch_warnings():  # scikit-learn warns of FSST, decoded and never true
+        warnings.simplefilter("ignore", UserWarning)
+        reference = balanced_accuracy_score(y, pred, sample_weight=w)
+    assert res.balanced_accuracy == pytest.approx(reference)
+    assert res.accuracy == pytest.approx(accuracy_score(y, pred, sample_weight=w))
+    assert set(res.recall) == {"TST", "HST", "LST"}
+    _, sk_recall, _, _ = precision_recall_fscore_support(
+        y, pred, labels=["TST", "HST", "LST"], sample_weight=w, zero_division=0
+    )
+    assert [res.recall[t] for t in ("TST", "HST", "LST")] == pytest.approx(sk_recall)
+    # unweighted, as scikit-learn without sample_weight
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        unweighted = balanced_accuracy_score(y, pred)
+    assert balanced_tract_accuracy(beds, weight=None).balanced_accuracy == pytest.approx(unweighted)
+
+
+def test_balanced_tract_accuracy_leaves_out_a_tract_whose_beds_have_no_thickness():
+    # LST is true only on beds of zero thickness: it has no weight in the truth, so no
+    # recall to average, and scikit-learn's weighted balanced accuracy leaves it out
+    # (TST 2 / 3 m right, HST 1 / 1 m: (2/3 + 1) / 2); it must not turn the score NaN
+    beds = _column(
+        [
+            ("TST", "TST", 2.0),
+            ("LST", "TST", 0.0),
+            ("TST", "HST", 1.0),
+            ("LST", "LST", 0.0),
+            ("HST", "HST", 1.0),
+        ]
+    )
+    res = balanced_tract_accuracy(beds)
+    w = beds["base"] - beds["top"]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)
+        reference = balanced_accuracy_score(beds["true_tract"], beds["tract"], sample_weight=w)
+    assert reference == pytest.approx((2 / 3 + 1) / 2)
+    assert res.balanced_accuracy == pytest.approx(reference)
+    assert res.support["LST"] == 0.0 and np.isnan(res.recall["LST"])
+    # zero-thickness beds weigh nothing in the plain accuracy either: 3 of 4 m
+    plain = accuracy_score(beds["true_tract"], beds["tract"], sample_weight=w)
+    assert res.accuracy == pytest.approx(plain)
+    assert res.accuracy == pytest.approx(0.75)
+
+
+def _labelled_example():
+    """Five beds: LST is never true, FSST never decoded (scores 0 there, not an error)."""
+    truth = np.array(["HST", "HST", "TST", "TST", "FSST", "TST"], dtype=object)
+    decoded = np.array(["HST", "TST", "TST", "LST", "TST", "TST"], dtype=object)
+    probabilities = np.array(  # columns SK_TRACTS: HST, FSST, LST, TST
+        [
+            [0.62, 0.08, 0.10, 0.20],
+            [0.33, 0.11, 0.08, 0.48],
+            [0.05, 0.10, 0.12, 0.73],
+            [0.14, 0.09, 0.47, 0.30],
+            [0.21, 0.17, 0.18, 0.44],
+            [0.02, 0.03, 0.04, 0.91],
+        ]
+    )
+    return truth, decoded, probabilities
+
+
+def test_validation_scores_are_scikit_learns():
+    from sklearn.metrics import brier_score_loss, confusion_matrix, f1_score
+
+    from faciesseq.validation import score_interpretation
+
+    truth, decoded, probs = _labelled_example()
+    s = score_interpretation("model", truth, decoded, probs, SK_TRACTS, [], ["MFS"])
+    assert s.accuracy == pytest.approx(accuracy_score(truth, decoded))
+    prec, rec, f1, support = precision_recall_fscore_support(
+        truth, decoded, labels=SK_TRACTS, zero_division=0
+    )
+    got = s.per_tract.loc[SK_TRACTS]
+    assert got["precision"].to_numpy() == pytest.approx(prec)
+    assert got["recall"].to_numpy() == pytest.approx(rec)
+    assert got["f1"].to_numpy() == pytest.approx(f1)
+    assert got["support"].tolist() == support.tolist() == [2, 1, 0, 3]
+    assert s.confusion.loc[SK_TRACTS, SK_TRACTS].to_numpy().tolist() == (
+        confusion_matrix(truth, decoded, labels=SK_TRACTS).tolist()
+    )
+    # macro F1 over the tracts the interpreter used (LST has no support)
+    used = ["HST", "FSST", "TST"]
+    assert s.macro_f1 == pytest.approx(
+        f1_score(truth, decoded, labels=used, average="macro", zero_division=0)
+    )
+    # scikit-learn's multiclass Brier score is mean sum_k (p_k - y_k)^2 (0 to 2), with
+    # the columns in sorted label order
+    order = sorted(SK_TRACTS)
+    sorted_probs = probs[:, [SK_TRACTS.index(t) for t in order]]
+    assert s.brier == pytest.approx(brier_score_loss(truth, sorted_probs, labels=order))
+    # the baseline's 0/1 probabilities: Brier 2 x the error rate
+    onehot = (decoded[:, None] == np.asarray(SK_TRACTS)[None, :]).astype(float)
+    base = score_interpretation("baseline", truth, decoded, onehot, SK_TRACTS, [], ["MFS"])
+    assert base.brier == pytest.approx(2 * (1 - accuracy_score(truth, decoded)))
+
+
+def test_validation_reliability_is_scikit_learns_calibration_curve():
+    from sklearn.calibration import calibration_curve
+
+    from faciesseq.validation import score_interpretation
+
+    truth, decoded, probs = _labelled_example()
+    s = score_interpretation("model", truth, decoded, probs, SK_TRACTS, [], ["MFS"])
+    chosen = probs[np.arange(len(decoded)), [SK_TRACTS.index(t) for t in decoded]]
+    right = decoded == truth
+    # scikit-learn's uniform bins are (lo, hi] with 0 in the first, as here; no
+    # probability of this example lies on an edge
+    frac, mean = calibration_curve(right, chosen, n_bins=10, strategy="uniform")
+    filled = s.reliability[s.reliability["count"] > 0]
+    assert filled["fraction_correct"].to_numpy() == pytest.approx(frac)
+    assert filled["mean_probability"].to_numpy() == pytest.approx(mean)
+    counts = np.histogram(chosen, bins=10, range=(0, 1))[0]
+    assert filled["count"].tolist() == counts[counts > 0].tolist() == [3, 1, 1, 1]
+
+
+def test_expected_calibration_error_against_scikit_learns_calibration_curve():
+    from sklearn.calibration import calibration_curve
+
+    truth, decoded, probs = _labelled_example()
+    chosen = probs[np.arange(len(decoded)), [SK_TRACTS.index(t) for t in decoded]]
+    right = decoded == truth
+    frac, mean = calibration_curve(right, chosen, n_bins=10, strategy="uniform")
+    counts = np.histogram(chosen, bins=10, range=(0, 1))[0]  # no value on an edge
+    counts = counts[counts > 0]
+    reference = float(np.sum(counts / counts.sum() * np.abs(frac - mean)))
+    assert expected_calibration_error(chosen, right) == pytest.approx(reference)
+    # by hand: bins (.4,.5] {0.48 wrong, 0.47 wrong, 0.44 wrong}: |0 - 0.46333| x 3/6;
+    # (.6,.7] {0.62 right}: 0.38 x 1/6; (.7,.8] {0.73 right}: 0.27 x 1/6;
+    # (.9,1] {0.91 right}: 0.09 x 1/6 -> (1.39 + 0.38 + 0.27 + 0.09) / 6 = 2.13 / 6
+    assert reference == pytest.approx(2.13 / 6)
+
+
+def test_held_out_log_loss_and_brier_are_scikit_learns():
+    from sklearn.metrics import brier_score_loss, log_loss
+
+    from faciesseq.hmm.calibration import HeldOut, held_out_scores
+
+    truth, _, probs = _labelled_example()
+    # one state per tract, even start and transitions: the posterior of every bed is
+    # its emission normalised, so the held-out beds carry exactly these probabilities
+    fold = HeldOut(
+        log_emission=np.log(probs),
+        lengths=np.array([len(probs)]),
+        startprob=np.full(4, 0.25),
+        transmat=np.full((4, 4), 0.25),
+        labels=np.array([SK_TRACTS.index(t) for t in truth]),
+        state_tract=np.arange(4),
+    )
+    got = held_out_scores([fold], 1.0)
+    order = sorted(SK_TRACTS)
+    sorted_probs = probs[:, [SK_TRACTS.index(t) for t in order]]
+    assert got["log_loss"] == pytest.approx(log_loss(truth, sorted_probs, labels=order))
+    assert got["brier"] == pytest.approx(brier_score_loss(truth, sorted_probs, labels=order))
+    assert got["accuracy"] == pytest.approx(
+        accuracy_score(truth, np.asarray(SK_TRACTS)[probs.argmax(axis=1)])
+    )
+
+
+def test_boundary_f1_of_a_core_worked_by_hand():
+    # true boundaries 5, 12, 20, 31; decoded 4.2, 5.5, 13.4, 18.6, 26; tolerance 1.5 m.
+    # Pairs within 1.5: (4.2, 5) 0.8, (5.5, 5) 0.5, (13.4, 12) 1.4, (18.6, 20) 1.4.
+    # Closest first: 5.5 takes 5; 4.2 then has nothing free (one to one); 13.4 takes 12
+    # and 18.6 takes 20 (1.4 each); 26 is 5 from 31 and 6 from 20: unmatched; 31 is
+    # never found. matched 3 of 5 decoded and of 4 true:
+    # precision 3/5, recall 3/4, F1 = 2 x 3 / (5 + 4) = 2/3 (= 2PR / (P + R) = 0.9/1.35)
+    res = boundary_f1([26.0, 4.2, 18.6, 5.5, 13.4], [31.0, 5.0, 20.0, 12.0], tolerance=1.5)
+    assert (res.n_pred, res.n_true, res.n_matched) == (5, 4, 3)
+    assert res.precision == pytest.approx(3 / 5)
+    assert res.recall == pytest.approx(3 / 4)
+    assert res.f1 == pytest.approx(2 / 3)
+    assert res.f1 == pytest.approx(2 * res.precision * res.recall / (res.precision + res.recall))
+    # a tolerance of 1.3 loses the two pairs 1.4 apart: 1 matched, F1 = 2 / 9
+    assert boundary_f1([26.0, 4.2, 18.6, 5.5, 13.4], [31.0, 5.0, 20.0, 12.0], 1.3).f1 == (
+        pytest.approx(2 / 9)
+    )

@@ -8,6 +8,7 @@ import json
 
 import hmm_synthetic as synth
 import numpy as np
+import pandas as pd
 import pytest
 
 from faciesseq.errors import ConfigError
@@ -147,3 +148,22 @@ def test_semi_supervised_folds_deal_the_labelled_cores_first_too_and_one_is_warn
     one = _without_labels(succ, {"S-52-4"})
     with pytest.warns(UserWarning, match="only 'S-52-4' carries labels .* without labels"):
         cross_validate(one, "true_tract", mode="semi-supervised", **kwargs)
+
+
+def test_text_report_names_the_rows_it_scored():
+    # a cross-validation on described intervals counted its support and reliability
+    # bins in "beds" under a first line that said intervals were scored
+    from faciesseq.cli.validate import format_text
+    from faciesseq.validation import ValidationResult, score_interpretation
+
+    tracts = ["HST", "FSST", "LST", "TST"]
+    truth = np.array(["HST", "TST", "TST"], dtype=object)
+    probs = np.array([[0.7, 0.1, 0.1, 0.1], [0.1, 0.1, 0.1, 0.7], [0.6, 0.2, 0.1, 0.1]])
+    decoded = np.array(["HST", "TST", "HST"], dtype=object)
+    scores = score_interpretation("model", truth, decoded, probs, tracts, [], ["MFS"])
+    settings = {"n_cores": 2, "n_beds_scored": 3, "mode": "supervised", "unit": "intervals"}
+    text = format_text(ValidationResult(2, "m", {}, scores, scores, pd.DataFrame(), settings))
+    assert "3 labelled described intervals scored" in text.splitlines()[0]
+    assert "tract   precision  recall      F1  described intervals" in text
+    assert "correct 1.000, 2 described intervals" in text
+    assert " beds" not in text

@@ -101,9 +101,10 @@ def format_text(result) -> str:
         if result.settings.get("labelled_cores_dealt_first")
         else ""
     )
+    rows = row_word(result.settings.get("unit"))
     lines = [
         f"cross-validation by core: {result.folds} folds, {result.settings['n_cores']} cores, "
-        f"{result.settings['n_beds_scored']} labelled {row_word(result.settings.get('unit'))} "
+        f"{result.settings['n_beds_scored']} labelled {rows} "
         f"scored ({result.settings['mode']})"
         f"{_read_reference(result.settings)}{dealt}",
         "",
@@ -115,7 +116,7 @@ def format_text(result) -> str:
             f"{row.brier:6.3f}  {_pct(row.mfs_within_one_bed):>16}"
         )
     for scores in (result.model, result.baseline):
-        lines += ["", f"{scores.method}: per tract", "tract   precision  recall      F1  beds"]
+        lines += ["", f"{scores.method}: per tract", f"tract   precision  recall      F1  {rows}"]
         for t, r in scores.per_tract.iterrows():
             lines.append(
                 f"{t:<6}  {_pct(r['precision']):>9}  {_pct(r['recall']):>6}  {_pct(r['f1']):>6}"
@@ -145,7 +146,7 @@ def format_text(result) -> str:
         if r.count:
             lines.append(
                 f"  {r.bin_low:.1f}-{r.bin_high:.1f}: mean {r.mean_probability:.3f}, "
-                f"correct {r.fraction_correct:.3f}, {r.count} beds"
+                f"correct {r.fraction_correct:.3f}, {r.count} {rows}"
             )
     return "\n".join(lines)
 
