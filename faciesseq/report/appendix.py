@@ -266,7 +266,7 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
     facies = s.sub("Facies")
     facies.add(*_facies_tables(tables, units, depth))
     facies.add(_facies_proportions_figure(tables["facies"], scheme))
-    s.sub("Problems found by check").add(*_problem_blocks(tables["problems"]))
+    s.sub("Problems found by check").add(*_problem_blocks(tables["problems"], units, depth))
     return s
 
 
@@ -335,9 +335,10 @@ def _facies_proportions_figure(facies: pd.DataFrame, scheme: FaciesScheme) -> Fi
     )
 
 
-def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
+def _problem_blocks(problems: pd.DataFrame, units: str, depth: int) -> list[Paragraph | TableBlock]:
     """The problems found by check: a count per severity with how it was handled, then
-    the table of every problem (or one line saying there were none)."""
+    the table of every problem (or one line saying there were none), depths to the
+    ``depth`` decimals of the input."""
     if len(problems) == 0:
         return [Paragraph("Reading and validating the data found no problems.")]
     counts = problems["severity"].value_counts()
@@ -349,7 +350,7 @@ def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
         for severity in ("error", "warning", "repair")
         if severity in counts
     ]
-    shown, where = _problems_as_shown(problems)
+    shown, where = _problems_as_shown(problems, units)
     blocks.append(
         TableBlock(
             "data_problems",
@@ -357,12 +358,13 @@ def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
             f"{where} and what it is.",
             shown,
             index=False,
+            decimals={"depth": depth},
         )
     )
     return blocks
 
 
-def _problems_as_shown(problems: pd.DataFrame) -> tuple[pd.DataFrame, str]:
+def _problems_as_shown(problems: pd.DataFrame, units: str) -> tuple[pd.DataFrame, str]:
     """The problems with file names as the reader knows them (never an installation or
     home path; the file column dropped when there is one file), and what their columns
     locate."""
@@ -376,8 +378,8 @@ def _problems_as_shown(problems: pd.DataFrame) -> tuple[pd.DataFrame, str]:
     problems["file"] = problems["file"].map(lambda f: f if pd.isna(f) else display_path(f))
     files = problems["file"].dropna().unique()
     if len(files) == 1:
-        return problems.drop(columns=["file"]), f"(data row of {files[0]}, core, depth)"
-    return problems, "(file, data row, core, depth)"
+        return problems.drop(columns=["file"]), f"(data row of {files[0]}, core, depth in {units})"
+    return problems, f"(file, data row, core, depth in {units})"
 
 
 # --------------------------------------------------------------------- markov / model

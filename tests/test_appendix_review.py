@@ -1,0 +1,92 @@
+"""What a journal's or a regulator's reviewer reads first in the appendix: every work cited
+is in the reference list and every listed work is cited, the test table says how its
+p-values were obtained, axes name what they draw, depths keep the input's precision.
+
+Built from two demo cores with their interpreter's tracts and a short labelled fit
+(one restart, five EM iterations): the text, not the fit, is under test.
+"""
+
+import re
+import warnings
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from faciesseq.hmm.selection import select_model
+from faciesseq.io import read_cores
+from faciesseq.markov import analyse
+from faciesseq.report.appendix import build_appendix
+from faciesseq.report.document import TableBlock
+from faciesseq.scheme import load_scheme
+
+DEMO = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
+SURROGATES, SEED = 19, 5
+
+#: A citation in the text: first author's surname (the last word of it), optional
+#: "et al." or "& second author", then the year, bare or in parentheses.
+CITATION = re.compile(
+    r"([A-Z][A-Za-zäöüé-]+)(?:'s)?(?: et al\.| & [A-Z][A-Za-zäöüé-]+)? "
+    r"\(?((?:1[89]|20)\d\d)\)?(?![\d-])"
+)
+
+
+@pytest.fixture(scope="module")
+def labelled(tmp_path_factory):
+    table = pd.read_csv(DEMO / "cores.csv")
+    path = tmp_path_factory.mktemp("cores") / "cores.csv"
+    table[table["core"].isin(["QS-1", "QS-2"])].to_csv(path, index=False)
+    scheme = load_scheme(DEMO / "scheme-shoreface.yaml")
+    cores = read_cores(path, scheme=scheme)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        selection = select_model(
+            cores,
+            substates=(1,),
+            labels="tract",
+            scheme=scheme,
+            n_restarts=1,
+            max_iter=5,
+            calibration_folds=0,
+        )
+    model = selection.best
+    report = analyse(cores, scheme=scheme, surrogates=SURROGATES, seed=SEED, by="core")
+    return build_appendix(
+        cores, scheme, model.tract_model_, markov=report, model=model, selection=selection
+    )
+
+
+def _texts(document) -> str:
+    """Every sentence and caption of the document except the reference list."""
+    out = []
+    for _, _, section in document.walk():
+        if section.title == "References":
+            continue
+        for block in section.blocks:
+            out.append(getattr(block, "text", "") or getattr(block, "caption", ""))
+    return " ".join(out)
+
+
+def _references(document) -> list[str]:
+    sections = [s for _, _, s in document.walk() if s.title == "References"]
+    assert len(sections) == 1
+    return [b.text for b in sections[0].blocks]
+
+
+def _key(reference: str) -> tuple[str, str]:
+    """(last word of the first author's surname, year) of a reference list entry."""
+    return reference.split(",")[0].split()[-1], re.search(r"\((\d{4})\)", reference)[1]
+
+
+def _cited(document) -> set[tuple[str, str]]:
+    return {(m[1], m[2]) for m in CITATION.finditer(_texts(document))}
+
+
+def test_problem_depths_keep_the_precision_of_the_input(labelled):
+    """A gap at 48.36 m was shown at 48.4 m beside a message saying 48.36."""
+    table = next(t for t in labelled.document.tables() if t.key == "data_problems")
+    assert isinstance(table, TableBlock)
+    j = table.header().index("depth")
+    depths = [cells[j] for cells, _ in table.rows() if cells[j]]
+    assert depths and all(len(d.partition(".")[2]) == 2 for d in depths), depths
+    assert "depth in m" in table.caption
