@@ -17,7 +17,7 @@ from faciesseq.hmm.selection import select_model
 from faciesseq.io import read_cores
 from faciesseq.markov import analyse
 from faciesseq.report.appendix import build_appendix
-from faciesseq.report.document import TableBlock
+from faciesseq.report.document import FigureBlock, TableBlock
 from faciesseq.scheme import load_scheme
 
 DEMO = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
@@ -80,6 +80,18 @@ def _key(reference: str) -> tuple[str, str]:
 
 def _cited(document) -> set[tuple[str, str]]:
     return {(m[1], m[2]) for m in CITATION.finditer(_texts(document))}
+
+
+def test_the_em_trace_names_the_quantity_it_draws(labelled):
+    """The trace drew EM's objective (log-likelihood plus log-prior), as its caption
+    says, under an axis labelled "log-likelihood"."""
+    figure = next(
+        b
+        for b in labelled.document.blocks()
+        if isinstance(b, FigureBlock) and b.key == "model_loglik_trace"
+    )
+    label = figure.figure.axes[0].get_ylabel()
+    assert "objective" in label and "log-prior" in label
 
 
 def test_problem_depths_keep_the_precision_of_the_input(labelled):

@@ -591,7 +591,9 @@ def _diagnostic_blocks(diag: Section, model: Any, selection: Any, numbers: dict)
             "model_loglik_trace",
             "EM objective (log-likelihood plus log-prior) after each iteration, one line per "
             "restart.",
-            figures.loglik_trace(traces, best=best),
+            figures.loglik_trace(
+                traces, best=best, ylabel="objective (log-likelihood + log-prior)"
+            ),
         ),
     )
     if selection is not None:
