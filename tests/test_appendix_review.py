@@ -82,6 +82,15 @@ def _cited(document) -> set[tuple[str, str]]:
     return {(m[1], m[2]) for m in CITATION.finditer(_texts(document))}
 
 
+def test_the_test_table_says_how_each_p_value_was_obtained(labelled):
+    """The caption said "asymptotic χ², or Monte Carlo" without the surrogates' number
+    or seed, which no reader could then repeat."""
+    table = next(t for t in labelled.document.tables() if t.key == "markov_tests")
+    caption = table.caption
+    assert "degrees of freedom" in caption and "asymptotic" in caption
+    assert f"{SURROGATES} surrogate" in caption and f"seed {SEED}" in caption
+
+
 def test_the_em_trace_names_the_quantity_it_draws(labelled):
     """The trace drew EM's objective (log-likelihood plus log-prior), as its caption
     says, under an axis labelled "log-likelihood"."""

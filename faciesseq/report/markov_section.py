@@ -141,6 +141,19 @@ def _disagreement(homogeneity, alpha: float) -> str:
     return f" The groups differ by {differs} but not by {not_differs}: {disagreement(alpha)}."
 
 
+def _p_source(report) -> str:
+    """How the p-values of the test table were obtained: the asymptotic distribution,
+    and the Monte Carlo surrogates' number and seed where there are any."""
+    asymptotic = "asymptotic (the χ² distribution with dof degrees of freedom)"
+    if not report.surrogate_tests:
+        return f"{asymptotic}; no Monte Carlo tests were run."
+    seed = "an unfixed seed" if report.seed is None else f"seed {report.seed}"
+    return (
+        f"{asymptotic} or Monte Carlo ((1 + surrogates at least as extreme) / (1 + "
+        f"surrogates), {report.n_surrogates} surrogate successions drawn with {seed})."
+    )
+
+
 def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     """Every test of independence, the Markov order and the homogeneity across cores."""
     fo = report.first_order
@@ -172,8 +185,8 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     tests.add(
         TableBlock(
             "markov_tests",
-            "Every test: statistic, degrees of freedom, number of transitions N and p-value "
-            "(asymptotic χ², or Monte Carlo from surrogate successions).",
+            "Every test: statistic, degrees of freedom (dof), number of transitions N and "
+            f"p-value, {_p_source(report)}",
             pd.DataFrame(rows).set_index("test"),
         )
     )
