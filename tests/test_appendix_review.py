@@ -16,8 +16,8 @@ import pytest
 from faciesseq.hmm.selection import select_model
 from faciesseq.io import read_cores
 from faciesseq.markov import analyse
-from faciesseq.report.appendix import build_appendix
-from faciesseq.report.document import FigureBlock, TableBlock
+from faciesseq.report.appendix import add_section, build_appendix
+from faciesseq.report.document import FigureBlock, Paragraph, Section, TableBlock
 from faciesseq.scheme import load_scheme
 
 DEMO = Path(__file__).resolve().parents[1] / "faciesseq" / "data" / "demo"
@@ -80,6 +80,30 @@ def _key(reference: str) -> tuple[str, str]:
 
 def _cited(document) -> set[tuple[str, str]]:
     return {(m[1], m[2]) for m in CITATION.finditer(_texts(document))}
+
+
+def test_every_citation_is_listed_and_every_listed_work_cited(labelled):
+    """Bowker (1948) and Schwarz (1978) were cited without an entry, and Ke et al. (2017)
+    listed without a citation."""
+    document = labelled.document
+    listed = {_key(r) for r in _references(document)}
+    cited = _cited(document)
+    assert cited - listed == set(), "cited but not listed"
+    assert listed - cited == set(), "listed but not cited"
+
+
+def test_a_section_added_later_brings_its_references(labelled):
+    """The correlation section (appendix --wells) is added after the appendix is built;
+    its alignment references were cited without an entry."""
+    from copy import deepcopy
+
+    from faciesseq.report.correlation_section import METHOD
+
+    appendix = deepcopy(labelled)
+    add_section(appendix, Section("Correlation").add(Paragraph(METHOD)), "correlation", {})
+    listed = {_key(r) for r in _references(appendix.document)}
+    assert {("Needleman", "1970"), ("Smith", "1980"), ("Waterman", "1987")} <= listed
+    assert _cited(appendix.document) == listed
 
 
 def test_the_test_table_says_how_each_p_value_was_obtained(labelled):

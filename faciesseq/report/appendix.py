@@ -46,7 +46,7 @@ from faciesseq.report.document import (
     ViewBlock,
     depth_decimals,
 )
-from faciesseq.report.methods import methods_section
+from faciesseq.report.methods import list_references, methods_section
 from faciesseq.report.style import facies_colours
 from faciesseq.scheme import FaciesScheme, TractModel
 
@@ -690,6 +690,7 @@ def build_appendix(
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit, model),
     ]
+    list_references(document)
     document.check_keys()
     return Appendix(document, results, dict(provenance or {}), missing)
 
@@ -698,6 +699,7 @@ def add_section(appendix: Appendix, section: Section, key: str, results: Any) ->
     """Add ``section`` to a built appendix before its Methods section (the last);
     ``results`` (JSON-ready) under ``key`` in ``appendix.json``."""
     appendix.document.sections.insert(len(appendix.document.sections) - 1, section)
+    list_references(appendix.document)
     appendix.document.check_keys()
     appendix.results[key] = results
 
