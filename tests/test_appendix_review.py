@@ -135,3 +135,24 @@ def test_problem_depths_keep_the_precision_of_the_input(labelled):
     depths = [cells[j] for cells, _ in table.rows() if cells[j]]
     assert depths and all(len(d.partition(".")[2]) == 2 for d in depths), depths
     assert "depth in m" in table.caption
+
+
+def test_the_picks_tables_explain_every_column():
+    """The picks tables showed "p_contact" and "segment" columns their caption did not
+    name: a reader could not tell the pick's probability from the contact's."""
+    from _synthetic import SHOREFACE, synthetic_coreset, synthetic_interpretation
+
+    from faciesseq.scheme import default_tract_model
+
+    tract_model = default_tract_model()
+    interp = synthetic_interpretation(tract_model, names=("W-1",))
+    appendix = build_appendix(
+        synthetic_coreset(interp), load_scheme(SHOREFACE), tract_model, interpretation=interp
+    )
+    tables = [t for t in appendix.document.tables() if t.key.endswith("_picks")]
+    assert tables
+    for table in tables:
+        columns = [c.split(" (")[0] for c in table.header()[1:]]
+        assert "segment" in columns and "probability" in columns
+        for column in columns:
+            assert column in table.caption, (column, table.caption)

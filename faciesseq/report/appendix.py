@@ -541,6 +541,30 @@ def _core_summary_row(
     }
 
 
+#: What each column of a picks table holds (``faciesseq.surfaces.pick_table``).
+_PICK_COLUMNS = {
+    "name": "surface and name",
+    "depth": "depth, of the pick contact",
+    "probability": "probability, of the surface summed over its uncertainty interval",
+    "p_contact": "p_contact, at the pick contact alone",
+    "interval top": "interval top and interval base, of that uncertainty interval",
+    "segment": (
+        "segment, the core's unbroken succession the pick lies in, numbered from 0 at the "
+        "top (successions are split at gaps)"
+    ),
+}
+
+
+def _picks_caption(core: str, picks: pd.DataFrame, units: str) -> str:
+    """The caption of a picks table: every column it shows and what it holds."""
+    names = [str(c).split(" (")[0] for c in picks.columns]
+    said = [text for c, text in _PICK_COLUMNS.items() if c in names]
+    return (
+        f"Surfaces picked in core {core} where the most likely tract column changes "
+        f"(depths in {units}): {'; '.join(said)}."
+    )
+
+
 def _core_blocks(
     sub: Section,
     core: CoreInterpretation,
@@ -573,8 +597,7 @@ def _core_blocks(
         sub.add(
             TableBlock(
                 f"{key}_picks",
-                f"Surfaces picked in core {core.core}: depth ({core.units}), probability at "
-                "the pick and the uncertainty interval.",
+                _picks_caption(core.core, picks, u),
                 picks,
                 probabilities=("probability", "p_contact"),
                 decimals=_in_units(
