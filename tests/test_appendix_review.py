@@ -156,3 +156,12 @@ def test_the_picks_tables_explain_every_column():
         assert "segment" in columns and "probability" in columns
         for column in columns:
             assert column in table.caption, (column, table.caption)
+
+
+def test_the_cautions_say_the_model_informs_and_does_not_replace_judgement(labelled):
+    """ "To be judged by a geologist" left open whether the model's columns could stand
+    in for the judgement; a reviewer asks that they say they cannot."""
+    cautions = next(s for _, _, s in labelled.document.walk() if s.title == "Cautions")
+    text = " ".join(b.text for b in cautions.blocks)
+    assert "inform" in text and "do not replace" in text and "geologist" in text
+    assert "local regulations and licensed professional practice" in text

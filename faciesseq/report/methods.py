@@ -51,8 +51,9 @@ REFERENCES = (
 
 CAUTION = (
     "This appendix is an interpretation aid. The systems tracts, surfaces and probabilities "
-    "are the output of a statistical model fitted to facies codes; they are to be judged by a "
-    "geologist against the cores, logs, biostratigraphy and regional framework. Decisions on "
+    "are the output of a statistical model fitted to facies codes; they inform, and do not "
+    "replace, the judgement of a geologist, who weighs them against the cores, logs, "
+    "biostratigraphy and regional framework. Decisions on "
     "wells, reservoirs and storage sites follow local regulations and licensed professional "
     "practice, not this document."
 )
