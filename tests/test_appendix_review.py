@@ -165,3 +165,18 @@ def test_the_cautions_say_the_model_informs_and_does_not_replace_judgement(label
     text = " ".join(b.text for b in cautions.blocks)
     assert "inform" in text and "do not replace" in text and "geologist" in text
     assert "local regulations and licensed professional practice" in text
+
+
+def test_the_transition_matrices_give_n_and_say_why_cells_are_blank(labelled):
+    """The five matrices of section 2.1 gave no N, and the expected, difference and
+    residual tables left the diagonal blank without a word (an embedded chain's
+    structural zeros)."""
+    tables = {t.key: t for t in labelled.document.tables()}
+    n = int(tables["markov_counts"].frame.to_numpy().sum())
+    for key in ("counts", "probabilities", "expected", "difference", "residuals"):
+        caption = tables[f"markov_{key}"].caption
+        assert f"N = {n} upward transitions" in caption, caption
+    for key in ("expected", "difference", "residuals"):
+        table = tables[f"markov_{key}"]
+        blanks = [c for cells, _ in table.rows() for c in cells[1:] if c == ""]
+        assert blanks and "structural zero" in table.caption, table.caption

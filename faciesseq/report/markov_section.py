@@ -63,11 +63,19 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
 
     fo = report.first_order
     counts = _labelled(report.counts.astype(int), codes)
+    n = f"N = {int(report.counts.sum())} upward transitions"
+    blank = (
+        "; blank cells are structural zeros (no bed lies on a bed of its own facies)"
+        if np.asarray(fo.structural).any()
+        else ""
+    )
     mats.add(
-        TableBlock("markov_counts", "Upward transition counts n_ij (row: lower facies).", counts),
+        TableBlock(
+            "markov_counts", f"Upward transition counts n_ij (row: lower facies); {n}.", counts
+        ),
         TableBlock(
             "markov_probabilities",
-            "Transition probabilities p_ij = n_ij / n_i+.",
+            f"Transition probabilities p_ij = n_ij / n_i+ (row: lower facies); {n}.",
             _labelled(report.probabilities, codes),
             decimals={"*": 3},
         ),
@@ -87,14 +95,14 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
         TableBlock(
             "markov_expected",
             f"Expected counts under {fo.model} (Goodman 1968); * marks cells with an expected "
-            "count below 5.",
+            f"count below 5; {n}{blank}.",
             _masked(fo.expected, fo.structural, codes),
             marks=low,
             decimals={"*": 2},
         ),
         TableBlock(
             "markov_difference",
-            "Difference matrix: observed minus expected transition probabilities.",
+            f"Difference matrix: observed minus expected transition probabilities; {n}{blank}.",
             _masked(fo.difference, fo.structural, codes),
             decimals={"*": 3},
         ),
@@ -104,7 +112,7 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
         TableBlock(
             "markov_residuals",
             f"Adjusted residuals (Haberman 1973); * marks cells significant at the two-sided "
-            f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}).",
+            f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}); {n}{blank}.",
             _labelled(fo.residuals, codes),
             marks=sig,
             decimals={"*": 2},
