@@ -180,3 +180,30 @@ def test_the_transition_matrices_give_n_and_say_why_cells_are_blank(labelled):
         table = tables[f"markov_{key}"]
         blanks = [c for cells, _ in table.rows() for c in cells[1:] if c == ""]
         assert blanks and "structural zero" in table.caption, table.caption
+
+
+def test_the_model_probabilities_are_shown_with_one_precision_and_bounds(labelled):
+    """The contact table showed 0.00125 beside 0.1753, the state transitions 0.9928: as
+    many digits as each column's largest value allowed, one precision per column, a
+    1.0000 possible for a probability short of 1. Now 3 decimals everywhere, with
+    "< 0.001" and "> 0.999" at the ends (as a p-value below 0.001)."""
+    tables = {t.key: t for t in labelled.document.tables()}
+    keys = ["model_transitions", "model_start"] + [
+        k
+        for k, t in tables.items()
+        if t.caption.startswith(("Emission probabilities P", "Facies of the lowest"))
+    ]
+    assert len(keys) >= 4
+    for key in keys:
+        table = tables[key]
+        values = table.frame.to_numpy(float)
+        cells = [cells[1:] for cells, _ in table.rows()]
+        for i, row in enumerate(cells):
+            for j, cell in enumerate(row):
+                v = values[i, j]
+                if 0 < v < 0.001:
+                    assert cell == "< 0.001", (key, v, cell)
+                elif 0.999 < v < 1:
+                    assert cell == "> 0.999", (key, v, cell)
+                else:
+                    assert cell == f"{v:.3f}", (key, v, cell)

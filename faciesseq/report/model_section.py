@@ -202,7 +202,12 @@ def _categorical_blocks(sub: Section, piece: Any, key: str, model: Any, scheme) 
     table = _state_frame(piece.emissionprob_, model, piece.categories)
     what = feature_title(name)
     sub.add(
-        TableBlock(key, f"Emission probabilities P({what} | state) of the {name} piece.", table),
+        TableBlock(
+            key,
+            f"Emission probabilities P({what} | state) of the {name} piece.",
+            table,
+            parameters=("*",),
+        ),
         FigureBlock(
             key,
             f"Emission probabilities of the {what}, per state ({name} piece).",
@@ -224,6 +229,7 @@ def _facies_trend_blocks(
             "Facies of the lowest bed of a succession (no bed below), per state: "
             f"P(facies | state) of the {piece.name} piece.",
             first,
+            parameters=("*",),
         ),
         FigureBlock(
             key + "_first",
@@ -524,8 +530,9 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
         TableBlock(
             "model_transitions",
             "Transition matrix between hidden states, bed to bed upward (zeros are boundaries "
-            "the tract graph forbids).",
+            "the tract graph forbids; < 0.001 a boundary it allows, fitted below 0.001).",
             A,
+            parameters=("*",),
         ),
         FigureBlock(
             "model_transitions",
@@ -539,7 +546,10 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
             ),
         ),
         TableBlock(
-            "model_start", "Probability of each state at the lowest bed of a succession.", start
+            "model_start",
+            "Probability of each state at the lowest bed of a succession.",
+            start,
+            parameters=("*",),
         ),
     )
     if len(T) != len(A):
@@ -549,6 +559,7 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
                 "Tract-to-tract transition probabilities (sub-states weighted by their "
                 "stationary probability).",
                 T,
+                parameters=("*",),
             )
         )
     _emission_blocks(model, params, scheme)  # their numbers are in the model-file document
