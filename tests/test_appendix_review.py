@@ -207,3 +207,19 @@ def test_the_model_probabilities_are_shown_with_one_precision_and_bounds(labelle
                     assert cell == "> 0.999", (key, v, cell)
                 else:
                     assert cell == f"{v:.3f}", (key, v, cell)
+
+
+def test_the_tract_model_section_says_which_graph_was_fitted_and_why(labelled):
+    """Nothing said which tract graph the model was fitted on, nor why: chosen by ICL,
+    read from the labels, or the tract model as given."""
+    from types import SimpleNamespace
+
+    from faciesseq.report.model_section import graph_text
+    from faciesseq.scheme import default_tract_model
+
+    graph = next(s for _, _, s in labelled.document.walk() if s.title == "Tract graph")
+    text = " ".join(getattr(b, "text", "") for b in graph.blocks)
+    assert "tract graph: HST → FSST → LST → TST, cyclic; tracts that may be absent" in text
+    assert "labelled boundaries" in text or "labelled neighbours" in text
+    given = graph_text(SimpleNamespace(tract_model_=default_tract_model()))
+    assert "the tract model as given: no graph was chosen among candidates" in given

@@ -464,9 +464,24 @@ def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict)
     s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
 
 
+def graph_text(model: Any) -> str:
+    """Which tract graph the model was fitted on and why: chosen by ICL among the trade's
+    graphs, taken from the labels, or the tract model as given."""
+    from faciesseq.hmm.graphs import graph_line, graph_selection_line
+
+    line = graph_line(model, verbose=True).replace(" -> ", " → ")
+    chosen = getattr(model, "graph_selection_", None) or getattr(model, "label_graph_", None)
+    given = "" if chosen else " (the tract model as given: no graph was chosen among candidates)"
+    selection = graph_selection_line(model)
+    more = f" {selection[0].upper()}{selection[1:]}." if selection else ""
+    return f"The model was fitted on the {line}{given}.{more}"
+
+
 def _graph_blocks(graph: Section, model: Any, tract_model: TractModel) -> None:
-    """The tracts, their surfaces and the fitted tract graph."""
+    """Which graph was fitted and why, the tracts, their surfaces and the fitted graph."""
     from faciesseq.report import figures
+
+    graph.add(Paragraph(graph_text(model)))
 
     states = model.states_
     tracts = pd.DataFrame(
