@@ -34,6 +34,8 @@ from faciesseq.cli._hmm import (
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
+from faciesseq.hmm.graphs import graph_line as _graph_line
+from faciesseq.hmm.graphs import graph_selection_line as _graph_selection_line
 
 EXAMPLES = """\
 examples:
@@ -195,61 +197,6 @@ def _print_weights(model, asked: bool | None, verbose: bool) -> None:
             "evidence weights not used: this fit reads no stacking context (that needs a "
             "scheme with ranks, --unit beds and no labels)"
         )
-
-
-def _graph_line(model, verbose: bool = False) -> str:
-    """Which tract graph the fit used, in plain words: its cyclic order, the tracts it
-    may skip, and why (the labels' boundaries, or the number of candidates compared;
-    their scores with ``verbose``, on a line of their own)."""
-    order = " -> ".join(model.tract_model_.order)
-    skips = ", ".join(model.tract_model_.skips) or "none"
-    rows = getattr(model, "graph_selection_", [])
-    why = ""
-    chosen = getattr(model, "label_graph_", None)
-    if rows:
-        kept = next(r for r in rows if r["selected"])
-        n = sum(r.get("start") == kept.get("start") for r in rows)
-        more = "" if verbose else "; --verbose for their scores"
-        why = f" (the lowest ICL of {n} candidate graphs{more})"
-    elif chosen and chosen["graph"] == "strict" and not chosen["n_boundaries"]:
-        why = " (strict cyclic order: no two labelled neighbours differ in tract to test it)"
-    elif chosen and chosen["graph"] == "strict":
-        why = f" (strict cyclic order: all {chosen['n_boundaries']} labelled boundaries follow it)"
-    elif chosen:
-        from faciesseq.hmm.labels import forbidden_text
-
-        why = (
-            f" (permissive: {chosen['n_forbidden']} of {chosen['n_boundaries']} labelled "
-            "boundaries jump over a tract the strict cyclic order requires, at "
-            f"{forbidden_text(chosen)})"
-            if chosen["n_forbidden"]
-            else " (permissive)"
-        )
-    return f"tract graph: {order}, cyclic; tracts that may be absent: {skips}{why}"
-
-
-def _graph_selection_line(model) -> str | None:
-    """The ICL of every candidate graph beside the one kept (None where the graph was
-    not chosen among candidates: a labelled fit, a tract-model file)."""
-    rows = getattr(model, "graph_selection_", [])
-    if not rows:
-        return None
-    kept = next(r for r in rows if r["selected"])
-    rows = [r for r in rows if r.get("start") == kept.get("start")]  # the kept start's
-    skips = ", ".join(model.tract_model_.skips) or "none"
-    others = "; ".join(
-        f"{', '.join(r['skips']) or 'none'} +{r['icl'] - kept['icl']:.1f}"
-        for r in rows
-        if not r["selected"]
-    )
-    sample = rows[0].get("n_beds", model.n_train_beds_)
-    on = f", fitted on a sample of {sample} beds" if sample < model.n_train_beds_ else ""
-    return (
-        f"graph selection: strict cyclic order, skips {skips}, the lowest ICL (BIC + 2 x the "
-        f"entropy of the beds' tracts) of {len(rows)} candidate graphs (none or one of the "
-        f"skips the trade allows){on} (ICL above it: "
-        f"{others})"
-    )
 
 
 def _print_fit(args: argparse.Namespace, selection) -> None:

@@ -46,7 +46,7 @@ from faciesseq.report.document import (
     ViewBlock,
     depth_decimals,
 )
-from faciesseq.report.methods import methods_section
+from faciesseq.report.methods import list_references, methods_section
 from faciesseq.report.style import facies_colours
 from faciesseq.scheme import FaciesScheme, TractModel
 
@@ -266,7 +266,7 @@ def _data_section(cores: CoreSet, scheme: FaciesScheme, results: dict) -> Sectio
     facies = s.sub("Facies")
     facies.add(*_facies_tables(tables, units, depth))
     facies.add(_facies_proportions_figure(tables["facies"], scheme))
-    s.sub("Problems found by check").add(*_problem_blocks(tables["problems"]))
+    s.sub("Problems found by check").add(*_problem_blocks(tables["problems"], units, depth))
     return s
 
 
@@ -335,9 +335,10 @@ def _facies_proportions_figure(facies: pd.DataFrame, scheme: FaciesScheme) -> Fi
     )
 
 
-def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
+def _problem_blocks(problems: pd.DataFrame, units: str, depth: int) -> list[Paragraph | TableBlock]:
     """The problems found by check: a count per severity with how it was handled, then
-    the table of every problem (or one line saying there were none)."""
+    the table of every problem (or one line saying there were none), depths to the
+    ``depth`` decimals of the input."""
     if len(problems) == 0:
         return [Paragraph("Reading and validating the data found no problems.")]
     counts = problems["severity"].value_counts()
@@ -349,7 +350,7 @@ def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
         for severity in ("error", "warning", "repair")
         if severity in counts
     ]
-    shown, where = _problems_as_shown(problems)
+    shown, where = _problems_as_shown(problems, units)
     blocks.append(
         TableBlock(
             "data_problems",
@@ -357,12 +358,13 @@ def _problem_blocks(problems: pd.DataFrame) -> list[Paragraph | TableBlock]:
             f"{where} and what it is.",
             shown,
             index=False,
+            decimals={"depth": depth},
         )
     )
     return blocks
 
 
-def _problems_as_shown(problems: pd.DataFrame) -> tuple[pd.DataFrame, str]:
+def _problems_as_shown(problems: pd.DataFrame, units: str) -> tuple[pd.DataFrame, str]:
     """The problems with file names as the reader knows them (never an installation or
     home path; the file column dropped when there is one file), and what their columns
     locate."""
@@ -376,8 +378,8 @@ def _problems_as_shown(problems: pd.DataFrame) -> tuple[pd.DataFrame, str]:
     problems["file"] = problems["file"].map(lambda f: f if pd.isna(f) else display_path(f))
     files = problems["file"].dropna().unique()
     if len(files) == 1:
-        return problems.drop(columns=["file"]), f"(data row of {files[0]}, core, depth)"
-    return problems, "(file, data row, core, depth)"
+        return problems.drop(columns=["file"]), f"(data row of {files[0]}, core, depth in {units})"
+    return problems, f"(file, data row, core, depth in {units})"
 
 
 # --------------------------------------------------------------------- markov / model
@@ -539,6 +541,30 @@ def _core_summary_row(
     }
 
 
+#: What each column of a picks table holds (``faciesseq.surfaces.pick_table``).
+_PICK_COLUMNS = {
+    "name": "surface and name",
+    "depth": "depth, of the pick contact",
+    "probability": "probability, of the surface summed over its uncertainty interval",
+    "p_contact": "p_contact, at the pick contact alone",
+    "interval top": "interval top and interval base, of that uncertainty interval",
+    "segment": (
+        "segment, the core's unbroken succession the pick lies in, numbered from 0 at the "
+        "top (successions are split at gaps)"
+    ),
+}
+
+
+def _picks_caption(core: str, picks: pd.DataFrame, units: str) -> str:
+    """The caption of a picks table: every column it shows and what it holds."""
+    names = [str(c).split(" (")[0] for c in picks.columns]
+    said = [text for c, text in _PICK_COLUMNS.items() if c in names]
+    return (
+        f"Surfaces picked in core {core} where the most likely tract column changes "
+        f"(depths in {units}): {'; '.join(said)}."
+    )
+
+
 def _core_blocks(
     sub: Section,
     core: CoreInterpretation,
@@ -571,8 +597,7 @@ def _core_blocks(
         sub.add(
             TableBlock(
                 f"{key}_picks",
-                f"Surfaces picked in core {core.core}: depth ({core.units}), probability at "
-                "the pick and the uncertainty interval.",
+                _picks_caption(core.core, picks, u),
                 picks,
                 probabilities=("probability", "p_contact"),
                 decimals=_in_units(
@@ -688,6 +713,7 @@ def build_appendix(
         _cores_section(interpretation, scheme, tract_model, results, missing, decode_notes),
         methods_section(unit, model),
     ]
+    list_references(document)
     document.check_keys()
     return Appendix(document, results, dict(provenance or {}), missing)
 
@@ -696,6 +722,7 @@ def add_section(appendix: Appendix, section: Section, key: str, results: Any) ->
     """Add ``section`` to a built appendix before its Methods section (the last);
     ``results`` (JSON-ready) under ``key`` in ``appendix.json``."""
     appendix.document.sections.insert(len(appendix.document.sections) - 1, section)
+    list_references(appendix.document)
     appendix.document.check_keys()
     appendix.results[key] = results
 

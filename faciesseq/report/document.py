@@ -42,6 +42,7 @@ __all__ = [
     "depth_decimals",
     "format_p_cell",
     "format_p_text",
+    "format_parameter",
     "format_probability",
     "format_value",
 ]
@@ -92,6 +93,16 @@ def format_probability(value: object) -> str:
         bear (a 0.9998 claims a certainty no check of a model supports).
     """
     return _bounded(value, 2, low=0.01, high=0.99)
+
+
+def format_parameter(value: object) -> str:
+    """How a fitted model's probability is shown: 3 decimals, ``< 0.001`` and ``> 0.999``
+    short of 0 and 1 (a 1.000 for a probability the fit left short of 1 would claim a
+    certainty it does not hold); exact 0 and 1 as ``0.000`` and ``1.000``."""
+    numeric = isinstance(value, int | float | np.integer | np.floating)
+    if numeric and float(value) in (0.0, 1.0):
+        return f"{float(value):.3f}"
+    return _bounded(value, 3, low=0.001, high=0.999)
 
 
 def format_p_cell(value: object) -> str:
@@ -207,11 +218,13 @@ class TableBlock:
     residuals), explained by ``mark_note``. ``shown=False`` writes the CSV
     only (long per-bed data), listed in the appendix as a data file.
     ``probabilities`` names the columns of decoded probabilities, shown with
-    :func:`format_probability`; ``p_values`` (and columns named ``p`` or
-    ``p-value``) are shown with :func:`format_p_cell`; ``decimals`` names the
-    fixed decimals of columns of one quantity (column -> decimals; the key
-    ``"*"`` for every column of floats not named), whole values included;
-    other columns of numbers with fixed decimals (:func:`column_decimals`). The
+    :func:`format_probability`; ``parameters`` those of a fitted model's
+    probabilities (``"*"``: every column), shown with :func:`format_parameter`;
+    ``p_values`` (and columns named ``p`` or ``p-value``) are shown with
+    :func:`format_p_cell`; ``decimals`` names the fixed decimals of columns of
+    one quantity (column -> decimals; the key ``"*"`` for every column of floats
+    not named), whole values included; other columns of numbers with fixed
+    decimals (:func:`column_decimals`). The
     CSV keeps every number exact.
     """
 
@@ -224,6 +237,7 @@ class TableBlock:
     shown: bool = True
     digits: int = 4
     probabilities: tuple[str, ...] = ()
+    parameters: tuple[str, ...] = ()
     p_values: tuple[str, ...] = ()
     decimals: dict[str, int] = field(default_factory=dict, compare=False)
 
@@ -266,6 +280,8 @@ class TableBlock:
         """The formatter of one column (see the class docstring)."""
         if name in self.probabilities:
             return format_probability
+        if name in self.parameters or "*" in self.parameters:
+            return format_parameter
         if name in self.p_values or name.lower() in _P_NAMES:
             return format_p_cell
         fixed = self.decimals.get(name)

@@ -805,11 +805,14 @@ def loglik_trace(
     *,
     best: str | None = None,
     title: str = "",
+    ylabel: str = "log-likelihood",
 ) -> Figure:
     """Log-likelihood after each EM iteration, one line per restart.
 
     ``traces`` maps a restart label (e.g. ``"restart 3 (seed 12)"``) to its
-    log-likelihood per iteration; ``best`` is drawn thicker and darker.
+    log-likelihood per iteration; ``best`` is drawn thicker and darker;
+    ``ylabel`` names what the values are (EM's objective, log-likelihood plus
+    log-prior, where the fit has priors).
     """
     with figure_style():
         fig = new_figure(min(PAGE_WIDTH, 5.5), 3.2, layout="constrained")
@@ -829,7 +832,7 @@ def loglik_trace(
             )
         ax.set_xlabel("EM iteration")
         ax.xaxis.set_major_locator(MaxNLocator(integer=True, min_n_ticks=1))
-        ax.set_ylabel("log-likelihood")
+        ax.set_ylabel(ylabel)
         ax.legend(frameon=False, loc="lower right", ncol=1 if len(traces) < 6 else 2)
         if title:
             ax.set_title(title, parse_math=False)

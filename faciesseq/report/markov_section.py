@@ -63,11 +63,19 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
 
     fo = report.first_order
     counts = _labelled(report.counts.astype(int), codes)
+    n = f"N = {int(report.counts.sum())} upward transitions"
+    blank = (
+        "; blank cells are structural zeros (no bed lies on a bed of its own facies)"
+        if np.asarray(fo.structural).any()
+        else ""
+    )
     mats.add(
-        TableBlock("markov_counts", "Upward transition counts n_ij (row: lower facies).", counts),
+        TableBlock(
+            "markov_counts", f"Upward transition counts n_ij (row: lower facies); {n}.", counts
+        ),
         TableBlock(
             "markov_probabilities",
-            "Transition probabilities p_ij = n_ij / n_i+.",
+            f"Transition probabilities p_ij = n_ij / n_i+ (row: lower facies); {n}.",
             _labelled(report.probabilities, codes),
             decimals={"*": 3},
         ),
@@ -87,14 +95,14 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
         TableBlock(
             "markov_expected",
             f"Expected counts under {fo.model} (Goodman 1968); * marks cells with an expected "
-            "count below 5.",
+            f"count below 5; {n}{blank}.",
             _masked(fo.expected, fo.structural, codes),
             marks=low,
             decimals={"*": 2},
         ),
         TableBlock(
             "markov_difference",
-            "Difference matrix: observed minus expected transition probabilities.",
+            f"Difference matrix: observed minus expected transition probabilities; {n}{blank}.",
             _masked(fo.difference, fo.structural, codes),
             decimals={"*": 3},
         ),
@@ -104,7 +112,7 @@ def _matrix_blocks(mats: Section, report, codes: list[str], colours: dict) -> No
         TableBlock(
             "markov_residuals",
             f"Adjusted residuals (Haberman 1973); * marks cells significant at the two-sided "
-            f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}).",
+            f"{report.alpha:g} level (|r| > {_z(report.alpha):.2f}); {n}{blank}.",
             _labelled(fo.residuals, codes),
             marks=sig,
             decimals={"*": 2},
@@ -141,6 +149,19 @@ def _disagreement(homogeneity, alpha: float) -> str:
     return f" The groups differ by {differs} but not by {not_differs}: {disagreement(alpha)}."
 
 
+def _p_source(report) -> str:
+    """How the p-values of the test table were obtained: the asymptotic distribution,
+    and the Monte Carlo surrogates' number and seed where there are any."""
+    asymptotic = "asymptotic (the χ² distribution with dof degrees of freedom)"
+    if not report.surrogate_tests:
+        return f"{asymptotic}; no Monte Carlo tests were run."
+    seed = "an unfixed seed" if report.seed is None else f"seed {report.seed}"
+    return (
+        f"{asymptotic} or Monte Carlo ((1 + surrogates at least as extreme) / (1 + "
+        f"surrogates), {report.n_surrogates} surrogate successions drawn with {seed})."
+    )
+
+
 def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     """Every test of independence, the Markov order and the homogeneity across cores."""
     fo = report.first_order
@@ -172,8 +193,8 @@ def _test_blocks(tests: Section, report, codes: list[str]) -> None:
     tests.add(
         TableBlock(
             "markov_tests",
-            "Every test: statistic, degrees of freedom, number of transitions N and p-value "
-            "(asymptotic χ², or Monte Carlo from surrogate successions).",
+            "Every test: statistic, degrees of freedom (dof), number of transitions N and "
+            f"p-value, {_p_source(report)}",
             pd.DataFrame(rows).set_index("test"),
         )
     )

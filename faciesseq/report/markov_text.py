@@ -171,17 +171,18 @@ def order_explanation(report) -> str | None:
     if w < SMALL_EFFECT:
         return (
             f"{head}{charged} Both can hold: the departure from first order is small "
-            f"(w = √(G²/N) = {w:.2f}), and with N = {one_two.n} transitions the G² test "
+            f"(w = √(G²/N) = {w:.2f}), below the medium effect of {SMALL_EFFECT:g} "
+            f"(Cohen 1988), and with N = {one_two.n} transitions the G² test "
             f"detects it, whereas {names} weigh{'' if len(chosen) > 1 else 's'} it against "
             "the parameters a second-order chain adds: the second-order effect is "
             "detectable but does not pay for its parameters."
         )
     return (
         f"{head}{charged} The departure is not small (w = √(G²/N) = {w:.2f}, above "
-        f"{SMALL_EFFECT:g}): {names} turn{'' if len(chosen) > 1 else 's'} it down for "
-        "parameters of contexts the cores never show, which no number of such beds can "
-        "estimate; judge the second-order effect by the test, and by more cores where the "
-        "contexts are rare."
+        f"{SMALL_EFFECT:g}, a medium effect; Cohen 1988): {names} "
+        f"turn{'' if len(chosen) > 1 else 's'} it down for parameters of contexts the "
+        "cores never show, which no number of such beds can estimate; judge the "
+        "second-order effect by the test, and by more cores where the contexts are rare."
     )
 
 

@@ -6,11 +6,12 @@ notation of the cited papers where they have one.
 
 from __future__ import annotations
 
+import re
 from typing import Any
 
-from faciesseq.report.document import Equation, Paragraph, Section
+from faciesseq.report.document import Document, Equation, Paragraph, Section
 
-__all__ = ["REFERENCES", "methods_section"]
+__all__ = ["REFERENCES", "cited_references", "list_references", "methods_section"]
 
 #: Reference list of the appendix (author year, title, journal, volume, pages).
 REFERENCES = (
@@ -27,6 +28,8 @@ REFERENCES = (
     "criterion. Journal of Applied Probability 12, 488–497.",
     "Katz, R. W. (1981). On some criteria for estimating the order of a Markov chain. "
     "Technometrics 23, 243–249.",
+    "Bowker, A. H. (1948). A test for symmetry in contingency tables. Journal of the "
+    "American Statistical Association 43, 572–574.",
     "Hattori, I. (1976). Entropy in Markov chains and discrimination of cyclic patterns in "
     "lithologic successions. Mathematical Geology 8, 477–497.",
     "Pethel, S. D. & Hahs, D. W. (2014). Exact test of independence using mutual information. "
@@ -48,8 +51,9 @@ REFERENCES = (
 
 CAUTION = (
     "This appendix is an interpretation aid. The systems tracts, surfaces and probabilities "
-    "are the output of a statistical model fitted to facies codes; they are to be judged by a "
-    "geologist against the cores, logs, biostratigraphy and regional framework. Decisions on "
+    "are the output of a statistical model fitted to facies codes; they inform, and do not "
+    "replace, the judgement of a geologist, who weighs them against the cores, logs, "
+    "biostratigraphy and regional framework. Decisions on "
     "wells, reservoirs and storage sites follow local regulations and licensed professional "
     "practice, not this document."
 )
@@ -246,6 +250,66 @@ def _reference_check_text(model: Any) -> str | None:
     )
 
 
+#: Works cited outside the methods text (table captions, the order and homogeneity
+#: sentences, the correlation section), listed where the appendix cites them.
+OTHER_REFERENCES = (
+    "Schwarz, G. (1978). Estimating the dimension of a model. Annals of Statistics 6, 461–464.",
+    "Cohen, J. (1988). Statistical Power Analysis for the Behavioral Sciences, 2nd edn. "
+    "Lawrence Erlbaum, Hillsdale, NJ.",
+    "Agresti, A. (2013). Categorical Data Analysis, 3rd edn. Wiley, Hoboken, NJ.",
+    "Needleman, S. B. & Wunsch, C. D. (1970). A general method applicable to the search for "
+    "similarities in the amino acid sequence of two proteins. Journal of Molecular Biology "
+    "48, 443–453.",
+    "Smith, T. F. & Waterman, M. S. (1980). New stratigraphic correlation techniques. "
+    "Journal of Geology 88, 451–457.",
+    "Waterman, M. S. & Raymond, R. (1987). The match game: new stratigraphic correlation "
+    "algorithms. Mathematical Geology 19, 109–127.",
+)
+
+#: A citation in running text: the first author's surname (its last word), "et al." or
+#: "& second author", then the year, bare or in parentheses ("Bowker's (1948)").
+_CITATION = re.compile(
+    r"([A-Z][A-Za-zäöüé-]+)(?:'s)?(?: et al\.| & [A-Z][A-Za-zäöüé-]+)? "
+    r"\(?((?:1[89]|20)\d\d)\)?(?![\d-])"
+)
+
+
+def _reference_key(reference: str) -> tuple[str, str]:
+    """(last word of the first author's surname, year) of a reference-list entry."""
+    year = re.search(r"\((\d{4})\)", reference)
+    return reference.split(",")[0].split()[-1], year[1] if year else ""
+
+
+def cited_references(text: str) -> list[str]:
+    """The entries of the project's reference lists that ``text`` cites, in
+    alphabetical order (a work listed but never cited, or cited but never listed, is
+    what a reviewer returns first)."""
+    cited = {(m[1], m[2]) for m in _CITATION.finditer(text)}
+    catalogue = (
+        REFERENCES + CONTEXT_REFERENCES + WEIGHT_REFERENCES + NESTED_REFERENCES + OTHER_REFERENCES
+    )
+    return sorted({r for r in catalogue if _reference_key(r) in cited})
+
+
+def _text(sections) -> str:
+    """Every sentence and caption of ``sections`` and their sub-sections, the
+    reference lists left out."""
+    out: list[str] = []
+    for section in sections:
+        if section.title == "References":
+            continue
+        out += [getattr(b, "caption", None) or getattr(b, "text", "") for b in section.blocks]
+        out.append(_text(section.subsections))
+    return " ".join(out)
+
+
+def list_references(document: Document) -> None:
+    """Fill the References sub-section of ``document`` with the works it cites."""
+    for _, _, section in document.walk():
+        if section.title == "References":
+            section.blocks = [Paragraph(r) for r in cited_references(_text(document.sections))]
+
+
 def methods_section(unit: str = "beds", model: Any = None) -> Section:
     """The methods section: what was computed, with equations and references.
 
@@ -285,13 +349,7 @@ def methods_section(unit: str = "beds", model: Any = None) -> Section:
         hmm.add(Paragraph(caution, kind="note"))
     s.sub("Cautions").add(Paragraph(CAUTION, kind="note"))
     refs = s.sub("References")
-    extra = (
-        (CONTEXT_REFERENCES if context or boot else ())
-        + (WEIGHT_REFERENCES if context and weights else ())
-        + (NESTED_REFERENCES if context and nested else ())
-    )
-    for ref in REFERENCES + extra:
-        refs.add(Paragraph(ref))
+    refs.add(*(Paragraph(r) for r in cited_references(_text([s]))))
     return s
 
 
@@ -391,7 +449,8 @@ def _hmm_blocks() -> tuple[Paragraph | Equation, ...]:
             "highstand; Catuneanu et al. 2009) joined only by the boundaries the tract model "
             "allows. Each bed's facies is emitted given its tract and, optionally, the facies of "
             "the bed below, so that a tract is a stacking trend rather than a set of facies. "
-            "When interpreted beds are available, a gradient-boosted tree classifier learnt "
+            "When interpreted beds are available, a gradient-boosted tree classifier "
+            "(histogram-based, after Ke et al. 2017, as scikit-learn trains it) learnt "
             "from them reads a window of beds below and above each bed (rank jumps, thickness, "
             "contacts), the cycles around it and the facies ranks within depth windows of up "
             "to twelve median cycle thicknesses, and its posterior divided by the tract "

@@ -202,7 +202,12 @@ def _categorical_blocks(sub: Section, piece: Any, key: str, model: Any, scheme) 
     table = _state_frame(piece.emissionprob_, model, piece.categories)
     what = feature_title(name)
     sub.add(
-        TableBlock(key, f"Emission probabilities P({what} | state) of the {name} piece.", table),
+        TableBlock(
+            key,
+            f"Emission probabilities P({what} | state) of the {name} piece.",
+            table,
+            parameters=("*",),
+        ),
         FigureBlock(
             key,
             f"Emission probabilities of the {what}, per state ({name} piece).",
@@ -224,6 +229,7 @@ def _facies_trend_blocks(
             "Facies of the lowest bed of a succession (no bed below), per state: "
             f"P(facies | state) of the {piece.name} piece.",
             first,
+            parameters=("*",),
         ),
         FigureBlock(
             key + "_first",
@@ -458,9 +464,24 @@ def _summary_blocks(s: Section, model: Any, note: str, fit_notes, numbers: dict)
     s.add(Paragraph(describe_calibration(model.temperature_, model.calibration_)))
 
 
+def graph_text(model: Any) -> str:
+    """Which tract graph the model was fitted on and why: chosen by ICL among the trade's
+    graphs, taken from the labels, or the tract model as given."""
+    from faciesseq.hmm.graphs import graph_line, graph_selection_line
+
+    line = graph_line(model, verbose=True).replace(" -> ", " → ")
+    chosen = getattr(model, "graph_selection_", None) or getattr(model, "label_graph_", None)
+    given = "" if chosen else " (the tract model as given: no graph was chosen among candidates)"
+    selection = graph_selection_line(model)
+    more = f" {selection[0].upper()}{selection[1:]}." if selection else ""
+    return f"The model was fitted on the {line}{given}.{more}"
+
+
 def _graph_blocks(graph: Section, model: Any, tract_model: TractModel) -> None:
-    """The tracts, their surfaces and the fitted tract graph."""
+    """Which graph was fitted and why, the tracts, their surfaces and the fitted graph."""
     from faciesseq.report import figures
+
+    graph.add(Paragraph(graph_text(model)))
 
     states = model.states_
     tracts = pd.DataFrame(
@@ -524,8 +545,9 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
         TableBlock(
             "model_transitions",
             "Transition matrix between hidden states, bed to bed upward (zeros are boundaries "
-            "the tract graph forbids).",
+            "the tract graph forbids; < 0.001 a boundary it allows, fitted below 0.001).",
             A,
+            parameters=("*",),
         ),
         FigureBlock(
             "model_transitions",
@@ -539,7 +561,10 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
             ),
         ),
         TableBlock(
-            "model_start", "Probability of each state at the lowest bed of a succession.", start
+            "model_start",
+            "Probability of each state at the lowest bed of a succession.",
+            start,
+            parameters=("*",),
         ),
     )
     if len(T) != len(A):
@@ -549,6 +574,7 @@ def _parameter_blocks(params: Section, model: Any, scheme) -> None:
                 "Tract-to-tract transition probabilities (sub-states weighted by their "
                 "stationary probability).",
                 T,
+                parameters=("*",),
             )
         )
     _emission_blocks(model, params, scheme)  # their numbers are in the model-file document
@@ -591,7 +617,9 @@ def _diagnostic_blocks(diag: Section, model: Any, selection: Any, numbers: dict)
             "model_loglik_trace",
             "EM objective (log-likelihood plus log-prior) after each iteration, one line per "
             "restart.",
-            figures.loglik_trace(traces, best=best),
+            figures.loglik_trace(
+                traces, best=best, ylabel="objective (log-likelihood + log-prior)"
+            ),
         ),
     )
     if selection is not None:
