@@ -223,3 +223,26 @@ def test_the_tract_model_section_says_which_graph_was_fitted_and_why(labelled):
     assert "labelled boundaries" in text or "labelled neighbours" in text
     given = graph_text(SimpleNamespace(tract_model_=default_tract_model()))
     assert "the tract model as given: no graph was chosen among candidates" in given
+
+
+def test_appendix_without_a_model_chooses_the_graph_as_fit_does(tmp_path):
+    # no model file and no --tracts: the appendix's fit without labels chooses its
+    # graph among the trade's strict graphs by ICL, as `faciesseq fit` does (it fitted
+    # the packaged tract model's permissive graph, every tract allowed to be absent,
+    # which a fit without labels reads worst), and the appendix says which was chosen
+    import json
+
+    from faciesseq.cli import main
+
+    table = pd.read_csv(DEMO / "cores.csv")
+    minimal = table[table["core"].isin(["QB-05", "QB-06", "QB-07", "QB-08"])]
+    minimal[["core", "top", "base", "facies"]].to_csv(tmp_path / "c.csv", index=False)
+    out = tmp_path / "A"
+    args = ["appendix", str(tmp_path / "c.csv"), "--scheme", str(DEMO / "scheme-shoreface.yaml")]
+    args += ["--restarts", "1", "--surrogates", "19", "--no-latex", "-o", str(out)]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        assert main(args) == 0
+    training = json.loads((out / "appendix.json").read_text())["results"]["model"]["training"]
+    assert len(training["graph_selection"]) >= 2
+    assert "the lowest ICL" in (out / "appendix.html").read_text()

@@ -219,11 +219,14 @@ def make(
     elif model is not None:
         tract_model = model.tract_model_  # the tract model the file was fitted with
     else:
-        tract_model = default_tract_model()
+        # none given: the fit and its cross-validation choose the graph as `fit` and
+        # `validate` do (from the labels, or among the trade's strict graphs by ICL);
+        # the packaged tract model passed here fitted its permissive graph instead
+        tract_model = None
     prov = provenance(
         sources=[args.source],
         scheme=args.scheme or getattr(scheme, "source", None),
-        tract_model=args.tract_model or tract_model.source,
+        tract_model=args.tract_model or (tract_model or default_tract_model()).source,
         model_file=args.model,
         seeds={"markov_surrogates": args.seed, "fit": args.seed, "cross_validation": args.seed},
         command_line=["faciesseq", *sys.argv[1:]],
