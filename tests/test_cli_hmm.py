@@ -495,15 +495,15 @@ def test_the_graph_line_says_so_where_no_labelled_boundary_tests_the_strict_orde
     # different tracts: "all 0 labelled boundaries follow it" misled
     from types import SimpleNamespace
 
-    from faciesseq.cli.fit import _graph_line
+    from faciesseq.hmm.graphs import graph_line
     from faciesseq.scheme import default_tract_model
 
     chosen = {"graph": "strict", "n_boundaries": 0, "n_forbidden": 0, "forbidden": []}
     model = SimpleNamespace(tract_model_=default_tract_model(), label_graph_=chosen)
-    line = _graph_line(model)
+    line = graph_line(model)
     assert "no two labelled neighbours differ in tract" in line and "all 0" not in line
     chosen["n_boundaries"] = 5
-    assert "all 5 labelled boundaries follow it" in _graph_line(model)
+    assert "all 5 labelled boundaries follow it" in graph_line(model)
 
 
 def test_force_never_replaces_the_data_a_yaml_source_file_names(database, tmp_path, capsys):

@@ -34,8 +34,7 @@ from faciesseq.cli._hmm import (
 )
 from faciesseq.cli._parallel import add_parallel_arguments, parallel_options
 from faciesseq.errors import ConfigError
-from faciesseq.hmm.graphs import graph_line as _graph_line
-from faciesseq.hmm.graphs import graph_selection_line as _graph_selection_line
+from faciesseq.hmm.graphs import graph_line, graph_selection_line
 
 EXAMPLES = """\
 examples:
@@ -223,7 +222,7 @@ def _print_fit(args: argparse.Namespace, selection) -> None:
         f"fitted on {len(model.cores_)} core(s), {model.n_train_beds_} {args.unit} "
         f"({model.n_labelled_} labelled, {mode}){candidates}"
     )
-    print(_graph_line(model, args.verbose))
+    print(graph_line(model, "" if args.verbose else "; --verbose for their scores"))
     check = getattr(model, "reference_check_", None)
     if check:
         print(_reference_check_line(check))
@@ -260,7 +259,7 @@ def _print_diagnostics(args: argparse.Namespace, selection) -> None:
                 f"BIC {row.bic:.2f}"
             )
     print(f"features {','.join(model.features_)}; states {','.join(model.states_.labels())}")
-    graphs = _graph_selection_line(model)
+    graphs = graph_selection_line(model)
     if graphs:
         print(graphs)
     _print_weights(model, args.weigh_evidence, verbose=True)

@@ -227,10 +227,11 @@ def _fit_graph(
     return model
 
 
-def graph_line(model, verbose: bool = False) -> str:
+def graph_line(model, more: str = "") -> str:
     """Which tract graph the fit used, in plain words: its cyclic order, the tracts it
-    may skip, and why (the labels' boundaries, or the number of candidates compared;
-    their scores with ``verbose``, on a line of their own)."""
+    may skip, and why (the labels' boundaries, or the number of candidates compared,
+    followed by ``more``: where their scores are, a caller's words; the scores
+    themselves are :func:`graph_selection_line`)."""
     order = " -> ".join(model.tract_model_.order)
     skips = ", ".join(model.tract_model_.skips) or "none"
     rows = getattr(model, "graph_selection_", [])
@@ -239,7 +240,6 @@ def graph_line(model, verbose: bool = False) -> str:
     if rows:
         kept = next(r for r in rows if r["selected"])
         n = sum(r.get("start") == kept.get("start") for r in rows)
-        more = "" if verbose else "; --verbose for their scores"
         why = f" (the lowest ICL of {n} candidate graphs{more})"
     elif chosen and chosen["graph"] == "strict" and not chosen["n_boundaries"]:
         why = " (strict cyclic order: no two labelled neighbours differ in tract to test it)"

@@ -469,7 +469,7 @@ def graph_text(model: Any) -> str:
     graphs, taken from the labels, or the tract model as given."""
     from faciesseq.hmm.graphs import graph_line, graph_selection_line
 
-    line = graph_line(model, verbose=True).replace(" -> ", " → ")
+    line = graph_line(model).replace(" -> ", " → ")
     chosen = getattr(model, "graph_selection_", None) or getattr(model, "label_graph_", None)
     given = "" if chosen else " (the tract model as given: no graph was chosen among candidates)"
     selection = graph_selection_line(model)
